@@ -1,0 +1,484 @@
+package mcr
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Mode says what the columns of the resolved model are.
+type Mode int
+
+const (
+	// Species: D = C Sᵀ with concentrations C ≥ 0 and pure spectra S ≥ 0.
+	Species Mode = iota
+	// Reactions: ΔD = X Rᵀ with extents X ≥ 0 and signed reaction spectra R.
+	Reactions
+)
+
+func (m Mode) String() string {
+	if m == Reactions {
+		return "reactions"
+	}
+	return "species"
+}
+
+// Data is the matrix being resolved, seen only through the two products ALS
+// needs, so that a truncated SVD can stand in for the full matrix.
+type Data interface {
+	Dims() (n, m int)
+	// MulSpectra returns D S (n × k).
+	MulSpectra(s *mat.Dense) *mat.Dense
+	// MulProfiles returns Dᵀ C (m × k).
+	MulProfiles(c *mat.Dense) *mat.Dense
+	// FrobeniusSq returns ‖D‖²_F.
+	FrobeniusSq() float64
+}
+
+// Dense is Data held in full.
+type Dense struct{ D *mat.Dense }
+
+func (d Dense) Dims() (int, int) { return d.D.Dims() }
+func (d Dense) MulSpectra(s *mat.Dense) *mat.Dense {
+	var out mat.Dense
+	out.Mul(d.D, s)
+	return &out
+}
+func (d Dense) MulProfiles(c *mat.Dense) *mat.Dense {
+	var out mat.Dense
+	out.Mul(d.D.T(), c)
+	return &out
+}
+func (d Dense) FrobeniusSq() float64 { return frobSq(d.D) }
+
+// Compressed is Data as a truncated SVD D ≈ U diag(Σ) Vᵀ. Products cost
+// O((n + m)·r·k) instead of O(n·m·k); FrobSq keeps the full ‖D‖² so the lack
+// of fit from the trace identity still counts the discarded noise.
+type Compressed struct {
+	U      *mat.Dense // n × r
+	Sigma  []float64
+	V      *mat.Dense // m × r
+	FrobSq float64
+}
+
+func (c Compressed) Dims() (int, int) {
+	n, _ := c.U.Dims()
+	m, _ := c.V.Dims()
+	return n, m
+}
+func (c Compressed) MulSpectra(s *mat.Dense) *mat.Dense {
+	var vs mat.Dense
+	vs.Mul(c.V.T(), s) // r × k
+	for i := range c.Sigma {
+		for j := 0; j < vs.RawMatrix().Cols; j++ {
+			vs.Set(i, j, vs.At(i, j)*c.Sigma[i])
+		}
+	}
+	var out mat.Dense
+	out.Mul(c.U, &vs)
+	return &out
+}
+func (c Compressed) MulProfiles(p *mat.Dense) *mat.Dense {
+	var uc mat.Dense
+	uc.Mul(c.U.T(), p)
+	for i := range c.Sigma {
+		for j := 0; j < uc.RawMatrix().Cols; j++ {
+			uc.Set(i, j, uc.At(i, j)*c.Sigma[i])
+		}
+	}
+	var out mat.Dense
+	out.Mul(c.V, &uc)
+	return &out
+}
+func (c Compressed) FrobeniusSq() float64 { return c.FrobSq }
+
+// Options configure one ALS resolution.
+type Options struct {
+	Mode Mode
+	// Closure: Σ_k w_k c_k(t) = Total for every row (species mode).
+	Closure        bool
+	Total          []float64 // one value for all rows, or one per row
+	ClosureWeights []float64 // nil = all 1
+	// NonNegProfiles / NonNegSpectra per component; nil = the mode's default
+	// (profiles ≥ 0 in both modes; spectra ≥ 0 in species mode only).
+	NonNegProfiles []bool
+	NonNegSpectra  []bool
+	// ZeroProfiles[k][i] pins c_k(t_i) = 0 (reference row, pre-reaction rows,
+	// windows where evolving factor analysis found the component absent).
+	ZeroProfiles [][]bool
+	// KnownSpectra[k], when non-nil, fixes component k's spectrum.
+	KnownSpectra [][]float64
+	// Unimodal[k] asks for a unimodal profile (Bro & Sidiropoulos 1998).
+	Unimodal []bool
+	// HardModel, when set, replaces profiles by a model fit inside each
+	// cycle (hard–soft MCR, de Juan et al. 2000). It gets the soft profiles
+	// and returns the profiles to use.
+	HardModel func(c *mat.Dense) (*mat.Dense, error)
+	MaxIter   int     // default 1000
+	Tolerance float64 // relative change of the residual sum of squares, default 1e-8
+	// Observe, when set, is told the lack of fit after every iteration.
+	Observe func(iter int, lackOfFitPercent float64)
+}
+
+// Result of a resolution.
+type Result struct {
+	C, S             *mat.Dense // n × k profiles, m × k spectra
+	LackOfFitPercent float64    // 100 ‖D − C Sᵀ‖_F / ‖D‖_F, from the trace identity
+	ExplainedPercent float64    // 100 (1 − ‖E‖²/‖D‖²)
+	ResidualSS       float64
+	Iterations       int
+	Converged        bool
+	History          []float64 // lack of fit % per iteration
+	Warnings         []string
+}
+
+// Resolve runs alternating least squares from the initial profiles c0
+// (n × k): S = argmin ‖D − C Sᵀ‖ under the spectra's constraints, then
+// C = argmin ‖D − C Sᵀ‖ under the profiles' constraints, until the residual
+// sum of squares changes by less than Tolerance (relative) or MaxIter.
+// Each half step is the exact constrained least-squares solution for its
+// block (SolveMany), so the residual never increases except through the
+// normalisation, which leaves C Sᵀ unchanged.
+func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
+	n, m := d.Dims()
+	rc, k := c0.Dims()
+	if rc != n {
+		return nil, fmt.Errorf("resolve: initial profiles have %d rows, data has %d", rc, n)
+	}
+	if k < 1 {
+		return nil, errors.New("resolve: need at least one component")
+	}
+	if k > min(n, m) {
+		return nil, fmt.Errorf("resolve: %d components but the data is only %d × %d; ask for at most %d", k, n, m, min(n, m))
+	}
+	if opt.MaxIter <= 0 {
+		opt.MaxIter = 1000
+	}
+	if opt.Tolerance <= 0 {
+		opt.Tolerance = 1e-8
+	}
+	total := d.FrobeniusSq()
+	if !(total > 0) {
+		return nil, errors.New("resolve: the data matrix is all zeros: nothing to resolve")
+	}
+	nnP := boolsOr(opt.NonNegProfiles, k, true)
+	nnS := boolsOr(opt.NonNegSpectra, k, opt.Mode == Species)
+	var eq []float64
+	if opt.Closure {
+		eq = opt.ClosureWeights
+		if eq == nil {
+			eq = ones(k)
+		}
+		if len(opt.Total) == 0 {
+			opt.Total = []float64{1}
+		}
+	}
+	known := false
+	for _, s := range opt.KnownSpectra {
+		if s != nil {
+			known = true
+		}
+	}
+	var knownS *mat.Dense
+	var knownMask [][]bool
+	if known {
+		knownS = mat.NewDense(k, m, nil)
+		knownMask = make([][]bool, k)
+		for j, s := range opt.KnownSpectra {
+			if s == nil {
+				continue
+			}
+			if len(s) != m {
+				return nil, fmt.Errorf("resolve: known spectrum %d has %d points, data has %d", j+1, len(s), m)
+			}
+			knownMask[j] = make([]bool, m)
+			for i, v := range s {
+				knownS.Set(j, i, v)
+				knownMask[j][i] = true
+			}
+		}
+	}
+	var zeroMask [][]bool
+	if opt.ZeroProfiles != nil {
+		zeroMask = make([][]bool, k)
+		for j := 0; j < k && j < len(opt.ZeroProfiles); j++ {
+			zeroMask[j] = opt.ZeroProfiles[j]
+		}
+	}
+	zerosKN := mat.NewDense(k, n, nil)
+
+	c := mat.DenseCopyOf(c0)
+	clampColumns(c, nnP)
+	res := &Result{}
+	var s *mat.Dense
+	prev := math.Inf(1)
+	for it := 1; it <= opt.MaxIter; it++ {
+		// Spectra step: Gram CᵀC, right-hand sides Cᵀ D.
+		g := gram(c)
+		b := transpose(d.MulProfiles(c)) // k × m
+		st, err := SolveMany(Problem{G: g, B: b, NonNeg: nnS, FixMask: knownMask, Fixed: knownS})
+		if err != nil {
+			return nil, fmt.Errorf("resolve: spectra step, iteration %d: %w", it, err)
+		}
+		s = transpose(st)
+		if !opt.Closure {
+			normaliseSpectra(s, c, knownMask)
+		}
+		// Profiles step: Gram SᵀS, right-hand sides Sᵀ Dᵀ.
+		ds := d.MulSpectra(s) // n × k
+		g = gram(s)
+		pr := Problem{G: g, B: transpose(ds), NonNeg: nnP, FixMask: zeroMask, Fixed: zerosKN}
+		if opt.Closure {
+			pr.Equality, pr.Total = eq, opt.Total
+		}
+		ct, err := SolveMany(pr)
+		if err != nil {
+			return nil, fmt.Errorf("resolve: profiles step, iteration %d: %w", it, err)
+		}
+		c = transpose(ct)
+		if opt.Unimodal != nil {
+			for j := 0; j < k && j < len(opt.Unimodal); j++ {
+				if opt.Unimodal[j] {
+					col := mat.Col(nil, j, c)
+					c.SetCol(j, Unimodal(col))
+				}
+			}
+		}
+		if opt.HardModel != nil {
+			hc, err := opt.HardModel(c)
+			if err != nil {
+				return nil, fmt.Errorf("resolve: hard model, iteration %d: %w", it, err)
+			}
+			c = hc
+		}
+		// ‖D − C Sᵀ‖² = ‖D‖² − 2 tr(Cᵀ D S) + tr(CᵀC SᵀS) (trace identity;
+		// D S is reused from the profiles step, valid for the current S).
+		ssr := total - 2*traceProd(c, ds) + traceProd2(gram(c), g)
+		if ssr < 0 {
+			ssr = 0
+		}
+		lof := 100 * math.Sqrt(ssr/total)
+		res.History = append(res.History, lof)
+		res.Iterations = it
+		if opt.Observe != nil {
+			opt.Observe(it, lof)
+		}
+		if math.Abs(prev-ssr) <= opt.Tolerance*math.Max(ssr, 1e-300*total) || ssr <= 1e-28*total {
+			res.Converged = true
+			prev = ssr
+			break
+		}
+		prev = ssr
+	}
+	res.C, res.S = c, s
+	res.ResidualSS = prev
+	res.LackOfFitPercent = 100 * math.Sqrt(prev/total)
+	res.ExplainedPercent = 100 * (1 - prev/total)
+	for j := 0; j < k; j++ {
+		if floatsMaxAbs(mat.Col(nil, j, c)) == 0 {
+			res.Warnings = append(res.Warnings, fmt.Sprintf("component %d vanished: its profile is zero everywhere; try one component fewer", j+1))
+		}
+	}
+	if !res.Converged {
+		res.Warnings = append(res.Warnings, fmt.Sprintf("not converged after %d iterations (last relative change above %.1g)", res.Iterations, opt.Tolerance))
+	}
+	return res, nil
+}
+
+// Residuals returns D − C Sᵀ on the full data and its lack of fit %.
+func Residuals(d *mat.Dense, c, s *mat.Dense) (*mat.Dense, float64) {
+	var e mat.Dense
+	e.Mul(c, s.T())
+	e.Sub(d, &e)
+	tot := frobSq(d)
+	if tot == 0 {
+		return &e, 0
+	}
+	return &e, 100 * math.Sqrt(frobSq(&e)/tot)
+}
+
+func boolsOr(b []bool, k int, def bool) []bool {
+	out := make([]bool, k)
+	for j := range out {
+		out[j] = def
+		if j < len(b) {
+			out[j] = b[j]
+		}
+	}
+	return out
+}
+
+func ones(k int) []float64 {
+	o := make([]float64, k)
+	for i := range o {
+		o[i] = 1
+	}
+	return o
+}
+
+func clampColumns(c *mat.Dense, nonneg []bool) {
+	n, k := c.Dims()
+	for j := 0; j < k; j++ {
+		if !nonneg[j] {
+			continue
+		}
+		for i := 0; i < n; i++ {
+			if c.At(i, j) < 0 {
+				c.Set(i, j, 0)
+			}
+		}
+	}
+}
+
+// normaliseSpectra fixes the scale ambiguity (c_k s_kᵀ = (a c_k)(s_k/a)ᵀ) by
+// unit Euclidean norm of each free spectrum; the profile takes the scale.
+func normaliseSpectra(s, c *mat.Dense, known [][]bool) {
+	m, k := s.Dims()
+	n, _ := c.Dims()
+	for j := 0; j < k; j++ {
+		if known != nil && known[j] != nil {
+			continue
+		}
+		norm := 0.0
+		for i := 0; i < m; i++ {
+			norm += s.At(i, j) * s.At(i, j)
+		}
+		norm = math.Sqrt(norm)
+		if norm == 0 {
+			continue
+		}
+		for i := 0; i < m; i++ {
+			s.Set(i, j, s.At(i, j)/norm)
+		}
+		for i := 0; i < n; i++ {
+			c.Set(i, j, c.At(i, j)*norm)
+		}
+	}
+}
+
+func gram(a *mat.Dense) *mat.SymDense {
+	_, k := a.Dims()
+	g := mat.NewSymDense(k, nil)
+	g.SymOuterK(1, a.T())
+	return g
+}
+
+func transpose(a *mat.Dense) *mat.Dense {
+	return mat.DenseCopyOf(a.T())
+}
+
+// traceProd returns tr(Aᵀ B) = Σ a_ij b_ij.
+func traceProd(a, b *mat.Dense) float64 {
+	r, c := a.Dims()
+	s := 0.0
+	for i := 0; i < r; i++ {
+		for j := 0; j < c; j++ {
+			s += a.At(i, j) * b.At(i, j)
+		}
+	}
+	return s
+}
+
+func traceProd2(a, b *mat.SymDense) float64 {
+	k, _ := a.Dims()
+	s := 0.0
+	for i := 0; i < k; i++ {
+		for j := 0; j < k; j++ {
+			s += a.At(i, j) * b.At(j, i)
+		}
+	}
+	return s
+}
+
+func frobSq(a mat.Matrix) float64 {
+	r, c := a.Dims()
+	s := 0.0
+	for i := 0; i < r; i++ {
+		for j := 0; j < c; j++ {
+			v := a.At(i, j)
+			s += v * v
+		}
+	}
+	return s
+}
+
+func floatsMaxAbs(x []float64) float64 {
+	m := 0.0
+	for _, v := range x {
+		m = math.Max(m, math.Abs(v))
+	}
+	return m
+}
+
+// Unimodal returns the least-squares unimodal approximation of x (one
+// maximum, non-decreasing before it and non-increasing after), by trying each
+// peak position with isotonic regressions on both sides (Bro & Sidiropoulos,
+// J. Chemometrics 1998, in its direct O(n²) form).
+func Unimodal(x []float64) []float64 {
+	n := len(x)
+	if n < 3 {
+		return append([]float64(nil), x...)
+	}
+	best := math.Inf(1)
+	var out []float64
+	// Prefix non-decreasing fits and suffix non-increasing fits, by pool-
+	// adjacent-violators, for every split, then the best peak.
+	for p := 0; p < n; p++ {
+		left := isotonic(x[:p+1], true)
+		right := isotonic(x[p:], false)
+		// The peak value belongs to both halves; take the larger, which keeps
+		// both monotone.
+		fit := make([]float64, n)
+		copy(fit, left)
+		copy(fit[p:], right)
+		fit[p] = math.Max(left[p], right[0])
+		if p > 0 && fit[p-1] > fit[p] || p < n-1 && fit[p+1] > fit[p] {
+			continue
+		}
+		e := 0.0
+		for i := range fit {
+			e += (fit[i] - x[i]) * (fit[i] - x[i])
+		}
+		if e < best {
+			best, out = e, fit
+		}
+	}
+	if out == nil {
+		return append([]float64(nil), x...)
+	}
+	return out
+}
+
+// isotonic is pool-adjacent-violators least-squares monotone regression.
+func isotonic(x []float64, increasing bool) []float64 {
+	n := len(x)
+	val := make([]float64, 0, n)
+	wt := make([]int, 0, n)
+	for i := 0; i < n; i++ {
+		v := x[i]
+		if !increasing {
+			v = -v
+		}
+		val = append(val, v)
+		wt = append(wt, 1)
+		for len(val) > 1 && val[len(val)-2] > val[len(val)-1] {
+			a, b := len(val)-2, len(val)-1
+			w := wt[a] + wt[b]
+			val[a] = (val[a]*float64(wt[a]) + val[b]*float64(wt[b])) / float64(w)
+			wt[a] = w
+			val, wt = val[:b], wt[:b]
+		}
+	}
+	out := make([]float64, 0, n)
+	for i, v := range val {
+		if !increasing {
+			v = -v
+		}
+		for j := 0; j < wt[i]; j++ {
+			out = append(out, v)
+		}
+	}
+	return out
+}

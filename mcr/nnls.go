@@ -1,0 +1,434 @@
+package mcr
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"math/bits"
+	"runtime"
+	"sync"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// ErrNotConverged reports that an active-set solve hit its iteration limit.
+var ErrNotConverged = errors.New("active-set iteration limit reached")
+
+// NNLS solves min ‖A x − b‖₂ subject to x ≥ 0 by the active-set method of
+// Lawson & Hanson (Solving Least Squares Problems, 1974, ch. 23). It works on
+// A itself (QR of the passive columns) rather than on AᵀA, so it is the
+// accurate reference for single problems; ALS uses SolveMany instead.
+func NNLS(a *mat.Dense, b []float64) ([]float64, error) {
+	m, n := a.Dims()
+	if len(b) != m {
+		return nil, fmt.Errorf("nnls: b has %d rows, A has %d", len(b), m)
+	}
+	x := make([]float64, n)
+	passive := make([]bool, n)
+	bv := mat.NewVecDense(m, append([]float64(nil), b...))
+	res := mat.NewVecDense(m, nil)
+	w := mat.NewVecDense(n, nil)
+	z := make([]float64, n)
+	// Tolerance on the dual: scaled to the problem so that it is unit-free.
+	tol := 10 * eps * mat.Norm(a, 1) * math.Max(1, mat.Norm(bv, math.Inf(1))) * float64(max(m, n))
+	for outer := 0; outer < 3*n+10; outer++ {
+		// w = Aᵀ(b − A x)
+		res.MulVec(a, mat.NewVecDense(n, x))
+		res.SubVec(bv, res)
+		w.MulVec(a.T(), res)
+		best, bestW := -1, tol
+		for j := 0; j < n; j++ {
+			if !passive[j] && w.AtVec(j) > bestW {
+				best, bestW = j, w.AtVec(j)
+			}
+		}
+		if best < 0 {
+			return x, nil
+		}
+		passive[best] = true
+		for inner := 0; ; inner++ {
+			if inner > 3*n+10 {
+				return x, ErrNotConverged
+			}
+			if err := lsqPassive(a, bv, passive, z); err != nil {
+				return x, err
+			}
+			alpha, blocked := 1.0, false
+			for j := 0; j < n; j++ {
+				if passive[j] && z[j] <= 0 {
+					if t := x[j] / (x[j] - z[j]); t < alpha {
+						alpha, blocked = t, true
+					}
+				}
+			}
+			if !blocked {
+				copy(x, z)
+				break
+			}
+			for j := 0; j < n; j++ {
+				if passive[j] {
+					x[j] += alpha * (z[j] - x[j])
+					if x[j] <= tol && z[j] <= 0 {
+						x[j], passive[j] = 0, false
+					}
+				} else {
+					x[j] = 0
+				}
+			}
+		}
+	}
+	return x, ErrNotConverged
+}
+
+// lsqPassive solves the unconstrained least-squares problem on the passive
+// columns by QR, which keeps the conditioning of A rather than squaring it.
+func lsqPassive(a *mat.Dense, b *mat.VecDense, passive []bool, z []float64) error {
+	m, n := a.Dims()
+	var cols []int
+	for j := 0; j < n; j++ {
+		z[j] = 0
+		if passive[j] {
+			cols = append(cols, j)
+		}
+	}
+	sub := mat.NewDense(m, len(cols), nil)
+	for k, j := range cols {
+		for i := 0; i < m; i++ {
+			sub.Set(i, k, a.At(i, j))
+		}
+	}
+	var qr mat.QR
+	qr.Factorize(sub)
+	var sol mat.VecDense
+	if err := qr.SolveVecTo(&sol, false, b); err != nil {
+		return fmt.Errorf("nnls: passive columns are linearly dependent: %w", err)
+	}
+	for k, j := range cols {
+		z[j] = sol.AtVec(k)
+	}
+	return nil
+}
+
+const eps = 2.220446049250313e-16
+
+// Problem describes many small constrained least-squares problems that share
+// one Gram matrix: for each column b of B find
+//
+//	x = argmin ½ xᵀ G x − bᵀ x   s.t. x_j ≥ 0 (j in NonNeg), aᵀx = Total (if Equality != nil)
+//
+// which is min ‖M x − d‖² with G = MᵀM and b = Mᵀd. This is the
+// normal-equation form of Bro & De Jong (J. Chemometrics 1997).
+type Problem struct {
+	G        *mat.SymDense // k × k
+	B        *mat.Dense    // k × p, one right-hand side per column
+	NonNeg   []bool        // per variable; nil = all non-negative
+	Equality []float64     // closure weights a (all > 0), nil = no equality
+	Total    []float64     // per column (len p) or a single value for all
+	// Fixed, if non-nil, pins variable j of column c to Fixed.At(j, c) when
+	// FixMask[j][c] is true (zero windows, known values).
+	FixMask [][]bool
+	Fixed   *mat.Dense
+}
+
+// SolveMany solves every column of p by the primal active-set method,
+// started from the all-passive set as in fast combinatorial NNLS (Van Benthem
+// & Keenan, J. Chemometrics 2004): each distinct passive set is factorised
+// once (Cholesky of the small Gram block, which is positive definite when the
+// components are independent) and reused for every column that reaches it.
+// Columns are processed in fixed-size chunks in parallel; each column's
+// arithmetic does not depend on the chunking, so results are identical for
+// any GOMAXPROCS. The equality constraint is handled inside each passive-set
+// solve through its Lagrange multiplier (Schur complement), not by rescaling.
+func SolveMany(p Problem) (*mat.Dense, error) {
+	k, cols := p.B.Dims()
+	if k > 64 {
+		return nil, fmt.Errorf("solve: %d components is more than the 64 supported", k)
+	}
+	if r, _ := p.G.Dims(); r != k {
+		return nil, fmt.Errorf("solve: Gram is %d×%d but B has %d rows", r, r, k)
+	}
+	x := mat.NewDense(k, cols, nil)
+	const chunk = 128
+	nchunks := (cols + chunk - 1) / chunk
+	errs := make([]error, nchunks)
+	workers := min(runtime.GOMAXPROCS(0), nchunks)
+	var wg sync.WaitGroup
+	next := make(chan int, nchunks)
+	for c := 0; c < nchunks; c++ {
+		next <- c
+	}
+	close(next)
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			s := newSolver(p, k)
+			for c := range next {
+				lo, hi := c*chunk, min(cols, (c+1)*chunk)
+				for j := lo; j < hi; j++ {
+					if err := s.column(j, x); err != nil {
+						errs[c] = err
+						break
+					}
+				}
+			}
+		}()
+	}
+	wg.Wait()
+	for _, err := range errs {
+		if err != nil {
+			return x, err
+		}
+	}
+	return x, nil
+}
+
+type factorCache struct {
+	chol *mat.Cholesky
+	idx  []int
+	ok   bool
+}
+
+type solver struct {
+	p      Problem
+	k      int
+	cache  map[uint64]*factorCache
+	b, x   []float64
+	z, tmp []float64
+}
+
+func newSolver(p Problem, k int) *solver {
+	return &solver{p: p, k: k, cache: map[uint64]*factorCache{},
+		b: make([]float64, k), x: make([]float64, k), z: make([]float64, k), tmp: make([]float64, k)}
+}
+
+func (s *solver) nonneg(j int) bool { return s.p.NonNeg == nil || s.p.NonNeg[j] }
+
+func (s *solver) total(c int) float64 {
+	switch len(s.p.Total) {
+	case 0:
+		return 0
+	case 1:
+		return s.p.Total[0]
+	}
+	return s.p.Total[c]
+}
+
+// factor returns the Cholesky factor of G restricted to the passive set.
+func (s *solver) factor(mask uint64) *factorCache {
+	if f, ok := s.cache[mask]; ok {
+		return f
+	}
+	f := &factorCache{}
+	for j := 0; j < s.k; j++ {
+		if mask&(1<<uint(j)) != 0 {
+			f.idx = append(f.idx, j)
+		}
+	}
+	if len(f.idx) > 0 {
+		sub := mat.NewSymDense(len(f.idx), nil)
+		for a, ja := range f.idx {
+			for b := a; b < len(f.idx); b++ {
+				sub.SetSym(a, b, s.p.G.At(ja, f.idx[b]))
+			}
+		}
+		f.chol = &mat.Cholesky{}
+		f.ok = f.chol.Factorize(sub)
+		if !f.ok {
+			// A singular block means collinear components: a tiny ridge keeps
+			// the solve defined; ALS reports collinearity separately.
+			tr := 0.0
+			for a := range f.idx {
+				tr += sub.At(a, a)
+			}
+			ridge := 1e-10 * math.Max(tr/float64(len(f.idx)), 1e-300)
+			for a := range f.idx {
+				sub.SetSym(a, a, sub.At(a, a)+ridge)
+			}
+			f.ok = f.chol.Factorize(sub)
+		}
+	}
+	if len(s.cache) > 4096 {
+		clear(s.cache)
+	}
+	s.cache[mask] = f
+	return f
+}
+
+// solvePassive returns z, the minimiser on the passive set (others zero or
+// fixed), and the multiplier of the equality constraint.
+func (s *solver) solvePassive(mask uint64, c int, fixedVal []float64) ([]float64, float64, error) {
+	f := s.factor(mask)
+	for j := range s.z {
+		s.z[j] = fixedVal[j]
+	}
+	if len(f.idx) == 0 {
+		return s.z, 0, nil
+	}
+	if !f.ok {
+		return nil, 0, errors.New("solve: Gram block is singular (components are collinear)")
+	}
+	np := len(f.idx)
+	rhs := mat.NewVecDense(np, nil)
+	// b_P − G_{P,F} x_F moves the fixed variables to the right-hand side.
+	for a, ja := range f.idx {
+		v := s.b[ja]
+		for j := 0; j < s.k; j++ {
+			if fixedVal[j] != 0 {
+				v -= s.p.G.At(ja, j) * fixedVal[j]
+			}
+		}
+		rhs.SetVec(a, v)
+	}
+	var y mat.VecDense
+	if err := f.chol.SolveVecTo(&y, rhs); err != nil {
+		return nil, 0, fmt.Errorf("solve: %w", err)
+	}
+	mu := 0.0
+	if s.p.Equality != nil {
+		av := mat.NewVecDense(np, nil)
+		for a, ja := range f.idx {
+			av.SetVec(a, s.p.Equality[ja])
+		}
+		var zz mat.VecDense
+		if err := f.chol.SolveVecTo(&zz, av); err != nil {
+			return nil, 0, fmt.Errorf("solve: %w", err)
+		}
+		target := s.total(c)
+		for j := 0; j < s.k; j++ {
+			target -= s.p.Equality[j] * fixedVal[j]
+		}
+		den := mat.Dot(av, &zz)
+		mu = (mat.Dot(av, &y) - target) / den
+		y.AddScaledVec(&y, -mu, &zz)
+	}
+	for a, ja := range f.idx {
+		s.z[ja] = y.AtVec(a)
+	}
+	return s.z, mu, nil
+}
+
+// column solves problem column c and writes it into x.
+func (s *solver) column(c int, x *mat.Dense) error {
+	k := s.k
+	for j := 0; j < k; j++ {
+		s.b[j] = s.p.B.At(j, c)
+	}
+	fixedVal := s.tmp
+	var free uint64
+	for j := 0; j < k; j++ {
+		fixedVal[j] = 0
+		if s.p.FixMask != nil && s.p.FixMask[j] != nil && s.p.FixMask[j][c] {
+			fixedVal[j] = s.p.Fixed.At(j, c)
+			continue
+		}
+		free |= 1 << uint(j)
+	}
+	fv := append([]float64(nil), fixedVal...)
+	cur := s.x
+	// A feasible start: zero for plain NNLS; for closure, the remaining total
+	// shared evenly over the free variables, which is strictly interior.
+	for j := 0; j < k; j++ {
+		cur[j] = fv[j]
+	}
+	if s.p.Equality != nil {
+		rest := s.total(c)
+		wsum := 0.0
+		for j := 0; j < k; j++ {
+			if free&(1<<uint(j)) != 0 {
+				wsum += s.p.Equality[j]
+			} else {
+				rest -= s.p.Equality[j] * fv[j]
+			}
+		}
+		if wsum == 0 {
+			if math.Abs(rest) > 1e-9*math.Max(1, math.Abs(s.total(c))) {
+				return fmt.Errorf("solve: closure cannot hold: every component is fixed in column %d", c)
+			}
+		} else {
+			if rest < 0 {
+				rest = 0
+			}
+			for j := 0; j < k; j++ {
+				if free&(1<<uint(j)) != 0 {
+					cur[j] = rest / wsum
+				}
+			}
+		}
+	}
+	passive := free
+	scale := 0.0
+	for j := 0; j < k; j++ {
+		scale = math.Max(scale, math.Abs(s.b[j]))
+		scale = math.Max(scale, s.p.G.At(j, j))
+	}
+	tol := 1e-12 * math.Max(scale, 1e-300)
+	limit := 6*k + 20
+	mu := 0.0
+	for outer := 0; outer < limit; outer++ {
+		// Inner loop: move toward the passive-set minimiser, dropping the
+		// variables that would turn negative (Lawson & Hanson's step).
+		for inner := 0; ; inner++ {
+			if inner > limit {
+				return fmt.Errorf("solve column %d: %w", c, ErrNotConverged)
+			}
+			z, m, err := s.solvePassive(passive, c, fv)
+			if err != nil {
+				return err
+			}
+			mu = m
+			alpha, blocker := 1.0, -1
+			for j := 0; j < k; j++ {
+				if passive&(1<<uint(j)) != 0 && s.nonneg(j) && z[j] < 0 {
+					t := cur[j] / (cur[j] - z[j])
+					if t < alpha {
+						alpha, blocker = t, j
+					}
+				}
+			}
+			if blocker < 0 {
+				copy(cur, z)
+				break
+			}
+			for j := 0; j < k; j++ {
+				if passive&(1<<uint(j)) != 0 {
+					cur[j] += alpha * (z[j] - cur[j])
+				}
+			}
+			cur[blocker] = 0
+			passive &^= 1 << uint(blocker)
+			for j := 0; j < k; j++ {
+				if passive&(1<<uint(j)) != 0 && s.nonneg(j) && cur[j] <= 0 && z[j] < 0 {
+					cur[j] = 0
+					passive &^= 1 << uint(j)
+				}
+			}
+		}
+		// KKT: the gradient w = b − G x − μ a must be ≤ 0 on the active bounds.
+		best, bestW := -1, tol
+		for j := 0; j < k; j++ {
+			bit := uint64(1) << uint(j)
+			if free&bit == 0 || passive&bit != 0 {
+				continue
+			}
+			w := s.b[j]
+			for i := 0; i < k; i++ {
+				w -= s.p.G.At(j, i) * cur[i]
+			}
+			if s.p.Equality != nil {
+				w -= mu * s.p.Equality[j]
+			}
+			if w > bestW {
+				best, bestW = j, w
+			}
+		}
+		if best < 0 {
+			for j := 0; j < k; j++ {
+				x.Set(j, c, cur[j])
+			}
+			return nil
+		}
+		passive |= 1 << uint(best)
+	}
+	return fmt.Errorf("solve column %d (%d passive): %w", c, bits.OnesCount64(passive), ErrNotConverged)
+}
