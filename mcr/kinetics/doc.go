@@ -1,0 +1,2 @@
+// Package kinetics turns concentration profiles into rate constants.
+package kinetics

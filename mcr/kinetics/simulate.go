@@ -1,0 +1,651 @@
+package kinetics
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"sort"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Simulation holds concentrations and reaction extents at the requested times.
+type Simulation struct {
+	// C is n × len(Species): c(t_i); c = c0 for t_i ≤ t0.
+	C *mat.Dense
+	// Extents is n × len(Steps): ξ_j(t) = ∫_{t0}^{t} r_j dt, zero for t ≤ t0, so that
+	// c(t) = c0 + N ξ(t) with N the stoichiometric matrix.
+	Extents *mat.Dense
+	// Stiff reports stiffness: for integrated networks the explicit integrator's stiffness test
+	// fired (Hairer & Wanner's estimate h|λ| > 3.25 on 15 accepted steps) or its step size
+	// collapsed, and the rest of the span was done by the Rosenbrock method; for first-order
+	// networks solved exactly, StiffnessRatio ≥ 1e3 and the fastest mode decays ≥ 1e3 times
+	// within the span (an explicit method would be held back by stability, not accuracy).
+	Stiff bool
+	// Method names the solver: "expm" (exact, first order), "dopri5", "rosenbrock23" or
+	// "dopri5+rosenbrock23" when stiffness made the integrator switch.
+	Method string
+	// StiffnessRatio is max|Re λ| / min|Re λ| over the non-zero eigenvalues of the species
+	// Jacobian ∂(N r)/∂c at c0 (Lambert 1973), 1 when fewer than two are non-zero.
+	StiffnessRatio float64
+	// Steps and Rejected count integrator steps (zero for "expm").
+	Steps, Rejected int
+}
+
+// SimSettings tunes Simulate; the zero value gives the defaults.
+type SimSettings struct {
+	// RelTol and AbsTol control the local error of the integrators (defaults 1e-9 and
+	// 1e-12 × max(c0)); the matrix exponential ignores them.
+	RelTol, AbsTol float64
+	// Method forces a solver: "" (automatic), "expm", "dopri5", "rosenbrock23".
+	Method string
+	// MaxSteps bounds the number of integrator steps (default 500000).
+	MaxSteps int
+}
+
+// Simulate computes concentrations at the given times for rate constants k (one per step, ≥ 0)
+// and initial concentrations c0 (one per species, ≥ 0). The reaction starts at t0; times need
+// not be sorted. First-order networks use the matrix exponential, others the Dormand–Prince
+// 5(4) pair with a switch to a Rosenbrock method when stiffness is detected.
+func (s *Scheme) Simulate(k, c0, times []float64, t0 float64) (*Simulation, error) {
+	return s.SimulateWith(k, c0, times, t0, SimSettings{})
+}
+
+// SimulateWith is Simulate with explicit solver settings.
+func (s *Scheme) SimulateWith(k, c0, times []float64, t0 float64, set SimSettings) (*Simulation, error) {
+	if s == nil || len(s.Steps) == 0 {
+		return nil, errors.New("kinetics: simulate: empty scheme")
+	}
+	ns, nr := len(s.Species), len(s.Steps)
+	if len(k) != nr {
+		return nil, fmt.Errorf("kinetics: simulate: %d rate constants for %d steps", len(k), nr)
+	}
+	if len(c0) != ns {
+		return nil, fmt.Errorf("kinetics: simulate: %d initial concentrations for %d species", len(c0), ns)
+	}
+	for j, v := range k {
+		if !(v >= 0) || math.IsInf(v, 0) {
+			return nil, fmt.Errorf("kinetics: simulate: rate constant of step %q is %v, want finite and ≥ 0", s.Steps[j].Text, v)
+		}
+	}
+	scale := 0.0
+	for i, v := range c0 {
+		if !(v >= 0) || math.IsInf(v, 0) {
+			return nil, fmt.Errorf("kinetics: simulate: initial concentration of %s is %v, want finite and ≥ 0", s.Species[i], v)
+		}
+		scale = math.Max(scale, v)
+	}
+	if math.IsNaN(t0) || math.IsInf(t0, 0) {
+		return nil, fmt.Errorf("kinetics: simulate: t0 is %v", t0)
+	}
+	for i, t := range times {
+		if math.IsNaN(t) || math.IsInf(t, 0) {
+			return nil, fmt.Errorf("kinetics: simulate: time %d is %v", i, t)
+		}
+	}
+	if len(times) == 0 {
+		return nil, errors.New("kinetics: simulate: no times")
+	}
+	if scale == 0 {
+		scale = 1
+	}
+	if set.RelTol <= 0 {
+		set.RelTol = 1e-9
+	}
+	if set.AbsTol <= 0 {
+		set.AbsTol = 1e-12 * scale
+	}
+	if set.MaxSteps <= 0 {
+		set.MaxSteps = 500000
+	}
+	method := set.Method
+	switch method {
+	case "":
+		method = "dopri5"
+		if s.FirstOrder() {
+			method = "expm"
+		}
+	case "expm":
+		if !s.FirstOrder() {
+			return nil, errors.New("kinetics: simulate: the matrix exponential needs a first-order scheme")
+		}
+	case "dopri5", "rosenbrock23":
+	default:
+		return nil, fmt.Errorf("kinetics: simulate: unknown method %q", method)
+	}
+
+	n := len(times)
+	sim := &Simulation{C: mat.NewDense(n, ns, nil), Extents: mat.NewDense(n, nr, nil), Method: method}
+	sys := newNetwork(s, k)
+	y0 := make([]float64, ns+nr)
+	copy(y0, c0)
+
+	// Output times after t0 in increasing order; ties keep index order so the result does
+	// not depend on how sort.SliceStable orders equal keys (it is stable).
+	order := make([]int, 0, n)
+	span := 0.0
+	for i, t := range times {
+		if t <= t0 {
+			sim.C.SetRow(i, c0)
+			continue
+		}
+		order = append(order, i)
+		span = math.Max(span, t-t0)
+	}
+	sort.SliceStable(order, func(a, b int) bool { return times[order[a]] < times[order[b]] })
+
+	var lmax float64
+	sim.StiffnessRatio, lmax = sys.stiffnessRatio(c0)
+
+	store := func(i int, y []float64) {
+		sim.C.SetRow(i, y[:ns])
+		sim.Extents.SetRow(i, y[ns:])
+	}
+	switch method {
+	case "expm":
+		m := sys.linearMatrix()
+		var e mat.Dense
+		yv := mat.NewVecDense(ns+nr, y0)
+		out := mat.NewVecDense(ns+nr, nil)
+		var scaled mat.Dense
+		for _, i := range order {
+			scaled.Scale(times[i]-t0, m)
+			e.Exp(&scaled)
+			out.MulVec(&e, yv)
+			store(i, out.RawVector().Data)
+		}
+		sim.Stiff = sim.StiffnessRatio >= 1e3 && lmax*span >= 1e3
+	default:
+		tout := make([]float64, len(order))
+		for a, i := range order {
+			tout[a] = times[i]
+		}
+		st, err := integrate(sys, y0, t0, tout, set, method == "rosenbrock23", func(a int, y []float64) { store(order[a], y) })
+		if err != nil {
+			return nil, fmt.Errorf("kinetics: simulate %q: %w", s.Text, err)
+		}
+		sim.Steps, sim.Rejected, sim.Stiff = st.steps, st.rejected, st.stiff
+		if st.switched {
+			sim.Method = "dopri5+rosenbrock23"
+		}
+	}
+	if !finiteDense(sim.C) || !finiteDense(sim.Extents) {
+		return nil, fmt.Errorf("kinetics: simulate %q: solution is not finite (rate constants too large for the time span?)", s.Text)
+	}
+	return sim, nil
+}
+
+func finiteDense(m *mat.Dense) bool {
+	r, c := m.Dims()
+	for i := 0; i < r; i++ {
+		for j := 0; j < c; j++ {
+			v := m.At(i, j)
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return false
+			}
+		}
+	}
+	return true
+}
+
+// network is the augmented mass-action system y = [c; ξ], dc/dt = N r(c), dξ/dt = r(c),
+// r_j = k_j Π_i c_i^ν_ij. Integrating the extents alongside the concentrations gives them at the
+// same accuracy instead of recovering them from c = c0 + Nξ, which is singular when N is.
+type network struct {
+	s      *Scheme
+	k      []float64
+	ns, nr int
+	stoich [][]float64
+	r      []float64 // scratch
+}
+
+func newNetwork(s *Scheme, k []float64) *network {
+	return &network{s: s, k: k, ns: len(s.Species), nr: len(s.Steps), stoich: s.Stoichiometry(), r: make([]float64, len(s.Steps))}
+}
+
+// ipow raises c to a stoichiometric power; integer powers by multiplication keep the rate law
+// defined (and smooth) for the slightly negative concentrations an integrator may step through.
+func ipow(c, nu float64) float64 {
+	if nu == 1 {
+		return c
+	}
+	if nu == math.Trunc(nu) && nu > 0 && nu <= 16 {
+		v := 1.0
+		for i := 0; i < int(nu); i++ {
+			v *= c
+		}
+		return v
+	}
+	if nu == 0 {
+		return 1
+	}
+	return math.Pow(math.Max(c, 0), nu)
+}
+
+func (nw *network) rates(c, r []float64) {
+	for j, st := range nw.s.Steps {
+		v := nw.k[j]
+		for _, t := range st.Reactants {
+			v *= ipow(c[t.Species], t.Coef)
+		}
+		r[j] = v
+	}
+}
+
+func (nw *network) deriv(y, dy []float64) {
+	nw.rates(y[:nw.ns], nw.r)
+	for i := 0; i < nw.ns; i++ {
+		var v float64
+		for j := 0; j < nw.nr; j++ {
+			v += nw.stoich[i][j] * nw.r[j]
+		}
+		dy[i] = v
+	}
+	copy(dy[nw.ns:], nw.r)
+}
+
+// rateJac fills dr (nr × ns) with ∂r_j/∂c_i.
+func (nw *network) rateJac(c []float64, dr *mat.Dense) {
+	dr.Zero()
+	for j, st := range nw.s.Steps {
+		for a, ta := range st.Reactants {
+			v := nw.k[j] * ta.Coef * ipow(c[ta.Species], ta.Coef-1)
+			for b, tb := range st.Reactants {
+				if b != a {
+					v *= ipow(c[tb.Species], tb.Coef)
+				}
+			}
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				v = 0 // c^(ν−1) at c = 0 with ν < 1: leave it to the error control
+			}
+			dr.Set(j, ta.Species, v)
+		}
+	}
+}
+
+// jac fills j ((ns+nr)²) with ∂f/∂y of the augmented system; the extent columns are zero.
+func (nw *network) jac(y []float64, j *mat.Dense) {
+	dr := mat.NewDense(nw.nr, nw.ns, nil)
+	nw.rateJac(y[:nw.ns], dr)
+	j.Zero()
+	for i := 0; i < nw.ns; i++ {
+		for l := 0; l < nw.ns; l++ {
+			var v float64
+			for q := 0; q < nw.nr; q++ {
+				v += nw.stoich[i][q] * dr.At(q, l)
+			}
+			j.Set(i, l, v)
+		}
+	}
+	for q := 0; q < nw.nr; q++ {
+		for l := 0; l < nw.ns; l++ {
+			j.Set(nw.ns+q, l, dr.At(q, l))
+		}
+	}
+}
+
+// linearMatrix is the constant Jacobian of a first-order network: y(t) = exp(M (t−t0)) y0.
+func (nw *network) linearMatrix() *mat.Dense {
+	d := nw.ns + nw.nr
+	m := mat.NewDense(d, d, nil)
+	y := make([]float64, d)
+	for i := range y[:nw.ns] {
+		y[i] = 1 // any point: the Jacobian of a linear network is constant
+	}
+	nw.jac(y, m)
+	return m
+}
+
+// stiffnessRatio returns max|Re λ|/min|Re λ| over the non-zero eigenvalues of ∂(N r)/∂c at c,
+// and max|Re λ|.
+func (nw *network) stiffnessRatio(c []float64) (ratio, lmax float64) {
+	d := nw.ns + nw.nr
+	full := mat.NewDense(d, d, nil)
+	y := make([]float64, d)
+	copy(y, c)
+	nw.jac(y, full)
+	sp := mat.DenseCopyOf(full.Slice(0, nw.ns, 0, nw.ns))
+	var eig mat.Eigen
+	if !eig.Factorize(sp, mat.EigenNone) {
+		return 1, 0
+	}
+	vals := eig.Values(nil)
+	lmin := math.Inf(1)
+	for _, v := range vals {
+		lmax = math.Max(lmax, math.Abs(real(v)))
+	}
+	if lmax == 0 {
+		return 1, 0
+	}
+	nz := 0
+	for _, v := range vals {
+		if a := math.Abs(real(v)); a > 1e-12*lmax {
+			lmin = math.Min(lmin, a)
+			nz++
+		}
+	}
+	if nz < 2 {
+		return 1, lmax
+	}
+	return lmax / lmin, lmax
+}
+
+// Dormand & Prince (1980) RK5(4)7M coefficients; the 5th-order weights equal the last row of A
+// (first same as last), e = b5 − b4 is the embedded error estimator.
+var (
+	dpC = [7]float64{0, 1.0 / 5, 3.0 / 10, 4.0 / 5, 8.0 / 9, 1, 1}
+	dpA = [7][6]float64{
+		{},
+		{1.0 / 5},
+		{3.0 / 40, 9.0 / 40},
+		{44.0 / 45, -56.0 / 15, 32.0 / 9},
+		{19372.0 / 6561, -25360.0 / 2187, 64448.0 / 6561, -212.0 / 729},
+		{9017.0 / 3168, -355.0 / 33, 46732.0 / 5247, 49.0 / 176, -5103.0 / 18656},
+		{35.0 / 384, 0, 500.0 / 1113, 125.0 / 192, -2187.0 / 6784, 11.0 / 84},
+	}
+	dpB5 = [7]float64{35.0 / 384, 0, 500.0 / 1113, 125.0 / 192, -2187.0 / 6784, 11.0 / 84, 0}
+	dpB4 = [7]float64{5179.0 / 57600, 0, 7571.0 / 16695, 393.0 / 640, -92097.0 / 339200, 187.0 / 2100, 1.0 / 40}
+)
+
+type odeStats struct {
+	steps, rejected int
+	stiff, switched bool
+	stiffDetections int
+	nonStiffInARow  int
+}
+
+type odeSys interface {
+	deriv(y, dy []float64)
+	jac(y []float64, j *mat.Dense)
+}
+
+// errNorm is the RMS of the local error scaled by atol + rtol·max(|y|, |ynew|) (Hairer,
+// Nørsett & Wanner, Solving ODEs I, §II.4).
+func errNorm(e, y, ynew []float64, rtol, atol float64) float64 {
+	var s float64
+	for i := range e {
+		sc := atol + rtol*math.Max(math.Abs(y[i]), math.Abs(ynew[i]))
+		v := e[i] / sc
+		s += v * v
+	}
+	return math.Sqrt(s / float64(len(e)))
+}
+
+// integrate advances y from t0 through the increasing output times tout, calling out(a, y) at
+// each. Steps are shortened to land on output times exactly (no interpolation error).
+func integrate(sys odeSys, y0 []float64, t0 float64, tout []float64, set SimSettings, rosenbrock bool, out func(int, []float64)) (odeStats, error) {
+	var st odeStats
+	d := len(y0)
+	y := append([]float64(nil), y0...)
+	if len(tout) == 0 {
+		return st, nil
+	}
+	rtol, atol := set.RelTol, set.AbsTol
+	f0 := make([]float64, d)
+	sys.deriv(y, f0)
+	span := tout[len(tout)-1] - t0
+	h := initialStep(sys, y, f0, rtol, atol, span)
+
+	dp := newDopri(d)
+	ros := newRosen(d)
+	t := t0
+	for a, target := range tout {
+		for t < target {
+			if st.steps+st.rejected >= set.MaxSteps {
+				if !rosenbrock {
+					rosenbrock, st.switched, st.stiff = true, true, true
+				} else {
+					return st, fmt.Errorf("more than %d integrator steps before t = %g", set.MaxSteps, target)
+				}
+			}
+			hh := h
+			clipped := false
+			if t+hh >= target || target-(t+hh) < 1e-12*math.Abs(target) {
+				hh = target - t
+				clipped = true
+			}
+			var errv float64
+			var ok bool
+			if rosenbrock {
+				errv, ok = ros.step(sys, y, f0, hh, rtol, atol)
+			} else {
+				errv, ok = dp.step(sys, y, f0, hh, rtol, atol)
+			}
+			if ok && errv <= 1 {
+				st.steps++
+				if clipped {
+					t = target
+				} else {
+					t += hh
+				}
+				var hnew float64
+				if rosenbrock {
+					copy(y, ros.ynew)
+					copy(f0, ros.fnew)
+					hnew = hh * math.Min(5, 0.8*math.Pow(math.Max(errv, 1e-10), -1.0/3))
+				} else {
+					copy(y, dp.ynew)
+					copy(f0, dp.k[6])
+					hnew = hh * math.Min(10, math.Max(0.2, 0.9*math.Pow(math.Max(errv, 1e-10), -0.2)))
+					if dp.stiffEstimate(hh) > 3.25 {
+						st.nonStiffInARow = 0
+						st.stiffDetections++
+						if st.stiffDetections >= 15 {
+							rosenbrock, st.switched, st.stiff = true, true, true
+						}
+					} else {
+						st.nonStiffInARow++
+						if st.nonStiffInARow >= 6 {
+							st.stiffDetections = 0
+						}
+					}
+				}
+				if clipped {
+					h = math.Max(h, hnew)
+				} else {
+					h = hnew
+				}
+			} else {
+				st.rejected++
+				if !ok || math.IsNaN(errv) {
+					h = hh * 0.1
+				} else if rosenbrock {
+					h = hh * math.Max(0.1, 0.8*math.Pow(errv, -1.0/3))
+				} else {
+					h = hh * math.Max(0.1, 0.9*math.Pow(errv, -0.2))
+				}
+				if h < 1e-13*math.Max(math.Abs(t), span) {
+					if !rosenbrock {
+						// The explicit step size collapsing is the other symptom of stiffness.
+						rosenbrock, st.switched, st.stiff = true, true, true
+						h = math.Max(h, 1e-10*span)
+						continue
+					}
+					return st, fmt.Errorf("step size underflow at t = %g", t)
+				}
+			}
+		}
+		out(a, y)
+	}
+	return st, nil
+}
+
+// initialStep follows Hairer, Nørsett & Wanner (Solving ODEs I, §II.4, "starting step size").
+func initialStep(sys odeSys, y, f0 []float64, rtol, atol, span float64) float64 {
+	d := len(y)
+	var d0, d1 float64
+	for i := range y {
+		sc := atol + rtol*math.Abs(y[i])
+		d0 += (y[i] / sc) * (y[i] / sc)
+		d1 += (f0[i] / sc) * (f0[i] / sc)
+	}
+	d0, d1 = math.Sqrt(d0/float64(d)), math.Sqrt(d1/float64(d))
+	h0 := 1e-6
+	if d0 >= 1e-5 && d1 >= 1e-5 {
+		h0 = 0.01 * d0 / d1
+	}
+	h0 = math.Min(h0, span)
+	y1 := make([]float64, d)
+	f1 := make([]float64, d)
+	for i := range y {
+		y1[i] = y[i] + h0*f0[i]
+	}
+	sys.deriv(y1, f1)
+	var d2 float64
+	for i := range y {
+		sc := atol + rtol*math.Abs(y[i])
+		v := (f1[i] - f0[i]) / sc
+		d2 += v * v
+	}
+	d2 = math.Sqrt(d2/float64(d)) / h0
+	var h1 float64
+	if m := math.Max(d1, d2); m <= 1e-15 {
+		h1 = math.Max(1e-6, h0*1e-3)
+	} else {
+		h1 = math.Pow(0.01/m, 0.2)
+	}
+	h := math.Min(100*h0, h1)
+	if h > span {
+		h = span
+	}
+	if !(h > 0) {
+		h = span * 1e-6
+	}
+	return h
+}
+
+type dopri struct {
+	k       [7][]float64
+	ytmp    []float64
+	ystage6 []float64
+	ynew    []float64
+	errv    []float64
+}
+
+func newDopri(d int) *dopri {
+	dp := &dopri{ytmp: make([]float64, d), ystage6: make([]float64, d), ynew: make([]float64, d), errv: make([]float64, d)}
+	for i := range dp.k {
+		dp.k[i] = make([]float64, d)
+	}
+	return dp
+}
+
+// step takes one Dormand–Prince step from y (with f0 = f(y)) and returns the scaled error.
+func (dp *dopri) step(sys odeSys, y, f0 []float64, h, rtol, atol float64) (float64, bool) {
+	copy(dp.k[0], f0)
+	for s := 1; s < 7; s++ {
+		for i := range y {
+			v := y[i]
+			for j := 0; j < s; j++ {
+				v += h * dpA[s][j] * dp.k[j][i]
+			}
+			dp.ytmp[i] = v
+		}
+		if s == 5 {
+			copy(dp.ystage6, dp.ytmp)
+		}
+		if s == 6 {
+			copy(dp.ynew, dp.ytmp) // row 7 of A is b5: the 5th-order solution (FSAL)
+		}
+		sys.deriv(dp.ytmp, dp.k[s])
+	}
+	for i := range y {
+		var e float64
+		for j := 0; j < 7; j++ {
+			e += (dpB5[j] - dpB4[j]) * dp.k[j][i]
+		}
+		dp.errv[i] = h * e
+		if math.IsNaN(dp.ynew[i]) || math.IsInf(dp.ynew[i], 0) {
+			return math.Inf(1), false
+		}
+	}
+	return errNorm(dp.errv, y, dp.ynew, rtol, atol), true
+}
+
+// stiffEstimate is h·‖f(y7) − f(y6)‖/‖y7 − y6‖ ≈ h|λ_max| from the last two stages, which are
+// both at t + h (Hairer & Wanner's stiffness detection for DOPRI5).
+func (dp *dopri) stiffEstimate(h float64) float64 {
+	var num, den float64
+	for i := range dp.ynew {
+		a := dp.k[6][i] - dp.k[5][i]
+		b := dp.ynew[i] - dp.ystage6[i]
+		num += a * a
+		den += b * b
+	}
+	if den <= 0 {
+		return 0
+	}
+	return h * math.Sqrt(num/den)
+}
+
+// rosen is the L-stable Rosenbrock (W) pair of order 2(3) of Shampine & Reichelt (1997),
+// with d = 1/(2+√2) and the Jacobian re-evaluated every step.
+type rosen struct {
+	d                      int
+	jm, w                  *mat.Dense
+	k1, k2, k3, f1, tmp    []float64
+	ynew, fnew, errv, rhsb []float64
+}
+
+func newRosen(d int) *rosen {
+	return &rosen{d: d, jm: mat.NewDense(d, d, nil), w: mat.NewDense(d, d, nil),
+		k1: make([]float64, d), k2: make([]float64, d), k3: make([]float64, d), f1: make([]float64, d),
+		tmp: make([]float64, d), ynew: make([]float64, d), fnew: make([]float64, d), errv: make([]float64, d), rhsb: make([]float64, d)}
+}
+
+func (r *rosen) step(sys odeSys, y, f0 []float64, h, rtol, atol float64) (float64, bool) {
+	const dd = 1 / (2 + math.Sqrt2)
+	const e32 = 6 + math.Sqrt2
+	sys.jac(y, r.jm)
+	for i := 0; i < r.d; i++ {
+		for j := 0; j < r.d; j++ {
+			v := -h * dd * r.jm.At(i, j)
+			if i == j {
+				v++
+			}
+			r.w.Set(i, j, v)
+		}
+	}
+	var lu mat.LU
+	lu.Factorize(r.w)
+	if lu.Det() == 0 || lu.Cond() > 1e15 {
+		return 0, false
+	}
+	solve := func(rhs, dst []float64) bool {
+		copy(r.rhsb, rhs)
+		b := mat.NewVecDense(r.d, r.rhsb)
+		x := mat.NewVecDense(r.d, dst)
+		return lu.SolveVecTo(x, false, b) == nil
+	}
+	if !solve(f0, r.k1) {
+		return 0, false
+	}
+	for i := range y {
+		r.tmp[i] = y[i] + 0.5*h*r.k1[i]
+	}
+	sys.deriv(r.tmp, r.f1)
+	for i := range y {
+		r.tmp[i] = r.f1[i] - r.k1[i]
+	}
+	if !solve(r.tmp, r.k2) {
+		return 0, false
+	}
+	for i := range y {
+		r.k2[i] += r.k1[i]
+		r.ynew[i] = y[i] + h*r.k2[i]
+	}
+	sys.deriv(r.ynew, r.fnew)
+	for i := range y {
+		r.tmp[i] = r.fnew[i] - e32*(r.k2[i]-r.f1[i]) - 2*(r.k1[i]-f0[i])
+	}
+	if !solve(r.tmp, r.k3) {
+		return 0, false
+	}
+	for i := range y {
+		r.errv[i] = h / 6 * (r.k1[i] - 2*r.k2[i] + r.k3[i])
+		if math.IsNaN(r.ynew[i]) || math.IsInf(r.ynew[i], 0) {
+			return math.Inf(1), false
+		}
+	}
+	return errNorm(r.errv, y, r.ynew, rtol, atol), true
+}
