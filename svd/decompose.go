@@ -1,0 +1,377 @@
+package svd
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"sort"
+
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/lapack/lapack64"
+	"gonum.org/v1/gonum/mat"
+)
+
+// Method names accepted by DecomposeOptions.Method and reported in Factors.Method.
+const (
+	MethodAuto       = "auto"
+	MethodExact      = "exact"
+	MethodGram       = "gram"
+	MethodRandomized = "randomized"
+)
+
+// DefaultSeed is the seed of the randomized method when DecomposeOptions.Seed is 0,
+// so that a zero-valued options struct still gives reproducible factors.
+const DefaultSeed uint64 = 0x5eed_ba4d
+
+// Randomized-SVD tuning after Halko, Martinsson & Tropp (SIAM Review 2011, §4.3–4.5):
+// ten extra sample columns and two power iterations make the leading values accurate to
+// many digits whenever they stand clear of the noise, at the cost of six passes over D.
+const (
+	randOversample = 10
+	randPowerIters = 2
+)
+
+// exactWork is the n·m·min(n,m) product below which auto uses the full LAPACK SVD:
+// about a tenth of a second of work, so small matrices always get the reference method.
+const exactWork = 2e8
+
+// Factors of D (n x m) = U diag(S) V^T, possibly truncated to r factors.
+//
+// Signs are fixed so that the largest-magnitude entry of each column of V is positive
+// (first such entry on ties): the methods then agree on signs as well as on values.
+type Factors struct {
+	U           *mat.Dense // n x r
+	S           []float64  // r singular values, descending
+	V           *mat.Dense // m x r
+	Method      string     // "exact", "gram" or "randomized"
+	FrobeniusSq float64    // ||D||_F^2 of the full matrix (so tails are known without all values)
+}
+
+// Full reports whether S holds all min(n, m) singular values, so that tail statistics
+// can use the individual values instead of FrobeniusSq alone.
+func (f *Factors) Full() bool {
+	if f == nil || f.U == nil || f.V == nil {
+		return false
+	}
+	n, _ := f.U.Dims()
+	m, _ := f.V.Dims()
+	return len(f.S) == min(n, m)
+}
+
+// TailSq returns Σ_{j>k} s_j², the energy left after the first k factors, from
+// FrobeniusSq − Σ_{j≤k} s_j² (exact identity for the SVD). It is clamped at zero because
+// rounding can make the difference slightly negative for an exactly low-rank matrix.
+func (f *Factors) TailSq(k int) float64 {
+	k = min(max(k, 0), len(f.S))
+	var lead float64
+	for _, s := range f.S[:k] {
+		lead += s * s
+	}
+	return math.Max(f.FrobeniusSq-lead, 0)
+}
+
+// DecomposeOptions selects the factorization.
+type DecomposeOptions struct {
+	MaxFactors int    // 0 = all
+	Method     string // "" or "auto", "exact", "gram", "randomized"
+	Seed       uint64 // seed of the randomized method; 0 = DefaultSeed
+}
+
+// Decompose picks by size: exact (gonum mat.SVD) for small matrices; for large ones the eigen-decomposition
+// of the smaller Gram matrix (mat.EigenSym) or a randomized SVD with power iterations
+// (Halko, Martinsson & Tropp, SIAM Review 2011). Deterministic (fixed seed), independent of GOMAXPROCS.
+//
+// Auto rule: exact when n·m·min(n,m) ≤ 2e8; otherwise randomized when MaxFactors+10 is at most a
+// quarter of min(n,m) (a thin sketch is then far cheaper than forming the Gram matrix), else gram.
+// The gram method squares the condition number: singular values below about 1e-8·s_1 lose
+// relative accuracy, which does not matter for factor analysis where they are noise.
+func Decompose(d *mat.Dense, opt DecomposeOptions) (*Factors, error) {
+	if err := checkMatrix(d); err != nil {
+		return nil, fmt.Errorf("svd: decompose: %w", err)
+	}
+	n, m := d.Dims()
+	c := min(n, m)
+	if opt.MaxFactors < 0 {
+		return nil, fmt.Errorf("svd: decompose: MaxFactors %d is negative", opt.MaxFactors)
+	}
+	r := c
+	if opt.MaxFactors > 0 && opt.MaxFactors < c {
+		r = opt.MaxFactors
+	}
+	method := opt.Method
+	switch method {
+	case "", MethodAuto:
+		switch {
+		case float64(n)*float64(m)*float64(c) <= exactWork:
+			method = MethodExact
+		case r+randOversample <= c/4:
+			method = MethodRandomized
+		default:
+			method = MethodGram
+		}
+	case MethodExact, MethodGram, MethodRandomized:
+	default:
+		return nil, fmt.Errorf("svd: decompose: unknown method %q (want auto, exact, gram or randomized)", opt.Method)
+	}
+	seed := opt.Seed
+	if seed == 0 {
+		seed = DefaultSeed
+	}
+
+	var f *Factors
+	var err error
+	switch method {
+	case MethodExact:
+		f, err = exactSVD(d, r)
+	case MethodGram:
+		f, err = gramSVD(d, r)
+	case MethodRandomized:
+		f, err = randomizedSVD(d, r, seed)
+	}
+	if err != nil {
+		return nil, fmt.Errorf("svd: decompose (%s): %w", method, err)
+	}
+	f.Method = method
+	f.FrobeniusSq = frobeniusSq(d)
+	fixSigns(f)
+	return f, nil
+}
+
+// checkMatrix rejects inputs that would otherwise panic inside gonum or poison the
+// results with NaN.
+func checkMatrix(d *mat.Dense) error {
+	if d == nil {
+		return errors.New("nil matrix")
+	}
+	if d.IsEmpty() {
+		return errors.New("empty matrix")
+	}
+	n, m := d.Dims()
+	for i := 0; i < n; i++ {
+		for j, v := range d.RawRowView(i) {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return fmt.Errorf("non-finite value %v at row %d, column %d", v, i, j)
+			}
+		}
+	}
+	_ = m
+	return nil
+}
+
+// frobeniusSq sums row by row in index order so that the value does not depend on
+// blocking or goroutine scheduling.
+func frobeniusSq(d *mat.Dense) float64 {
+	n, _ := d.Dims()
+	var s float64
+	for i := 0; i < n; i++ {
+		for _, v := range d.RawRowView(i) {
+			s += v * v
+		}
+	}
+	return s
+}
+
+func exactSVD(d *mat.Dense, r int) (*Factors, error) {
+	var s mat.SVD
+	if !s.Factorize(d, mat.SVDThin) {
+		return nil, errors.New("LAPACK SVD did not converge")
+	}
+	vals := s.Values(nil)
+	var u, v mat.Dense
+	s.UTo(&u)
+	s.VTo(&v)
+	return truncate(&u, vals, &v, r), nil
+}
+
+func truncate(u *mat.Dense, vals []float64, v *mat.Dense, r int) *Factors {
+	n, _ := u.Dims()
+	m, _ := v.Dims()
+	uu := mat.DenseCopyOf(u.Slice(0, n, 0, r))
+	vv := mat.DenseCopyOf(v.Slice(0, m, 0, r))
+	return &Factors{U: uu, S: append([]float64(nil), vals[:r]...), V: vv}
+}
+
+// gramSVD eigen-decomposes the smaller of D Dᵀ and DᵀD. The other side's vectors follow
+// from D v = s u; for values at rounding level (s ≤ tol) that division is meaningless, so
+// those vectors are completed to an orthonormal set by QR instead.
+func gramSVD(d *mat.Dense, r int) (*Factors, error) {
+	n, m := d.Dims()
+	trans := n > m // work with DᵀD (m x m) when there are more rows than columns
+	a := mat.Matrix(d)
+	if trans {
+		a = d.T()
+	}
+	p, q := a.Dims() // p ≤ q
+	var g mat.Dense
+	g.Mul(a, a.T())
+	sym := mat.NewSymDense(p, nil)
+	for i := 0; i < p; i++ {
+		for j := i; j < p; j++ {
+			sym.SetSym(i, j, g.At(i, j))
+		}
+	}
+	var eig mat.EigenSym
+	if !eig.Factorize(sym, true) {
+		return nil, errors.New("symmetric eigen-decomposition did not converge")
+	}
+	lam := eig.Values(nil) // ascending
+	var vec mat.Dense
+	eig.VectorsTo(&vec)
+	// Ascending -> descending with a stable order for equal values.
+	idx := make([]int, p)
+	for i := range idx {
+		idx[i] = p - 1 - i
+	}
+	sort.SliceStable(idx, func(x, y int) bool { return lam[idx[x]] > lam[idx[y]] })
+	vals := make([]float64, r)
+	left := mat.NewDense(p, r, nil)
+	for k := 0; k < r; k++ {
+		vals[k] = math.Sqrt(math.Max(lam[idx[k]], 0))
+		for i := 0; i < p; i++ {
+			left.Set(i, k, vec.At(i, idx[k]))
+		}
+	}
+	// right = aᵀ left / s
+	right := mat.NewDense(q, r, nil)
+	right.Mul(a.T(), left)
+	tol := 0.0
+	if r > 0 {
+		// Below this the Gram eigenvalue is rounding noise (eps·s_1² relative).
+		tol = vals[0] * math.Sqrt(float64(q)*eps)
+	}
+	good := 0
+	for k := 0; k < r; k++ {
+		if vals[k] > tol && vals[k] > 0 {
+			col := right.Slice(0, q, k, k+1).(*mat.Dense)
+			col.Scale(1/vals[k], col)
+			good = k + 1
+		}
+	}
+	if good < r {
+		completeOrthonormal(right, good)
+	}
+	if trans {
+		return &Factors{U: right, S: vals, V: left}, nil
+	}
+	return &Factors{U: left, S: vals, V: right}, nil
+}
+
+const eps = 0x1p-52
+
+// completeOrthonormal replaces columns good..r-1 of x (q x r) by unit vectors orthogonal
+// to the first good columns and to each other (Gram–Schmidt twice against the coordinate
+// vectors in index order, deterministic).
+func completeOrthonormal(x *mat.Dense, good int) {
+	q, r := x.Dims()
+	k := good
+	for e := 0; e < q && k < r; e++ {
+		v := make([]float64, q)
+		v[e] = 1
+		for pass := 0; pass < 2; pass++ {
+			for j := 0; j < k; j++ {
+				var dot float64
+				for i := 0; i < q; i++ {
+					dot += x.At(i, j) * v[i]
+				}
+				for i := 0; i < q; i++ {
+					v[i] -= dot * x.At(i, j)
+				}
+			}
+		}
+		var nrm float64
+		for _, t := range v {
+			nrm += t * t
+		}
+		nrm = math.Sqrt(nrm)
+		if nrm < 0.5 {
+			continue
+		}
+		for i := 0; i < q; i++ {
+			x.Set(i, k, v[i]/nrm)
+		}
+		k++
+	}
+}
+
+// randomizedSVD is Algorithm 4.4 (randomized subspace iteration) followed by Algorithm 5.1
+// of Halko, Martinsson & Tropp (2011). Each power step re-orthonormalizes by Householder QR
+// because plain powers (D Dᵀ)^q D Ω lose the smaller directions to rounding.
+func randomizedSVD(d *mat.Dense, r int, seed uint64) (*Factors, error) {
+	n, m := d.Dims()
+	l := min(r+randOversample, min(n, m))
+	rng := rand.New(rand.NewPCG(seed, 0x9e3779b97f4a7c15))
+	omega := mat.NewDense(m, l, nil)
+	raw := omega.RawMatrix()
+	for i := 0; i < m; i++ {
+		row := raw.Data[i*raw.Stride : i*raw.Stride+l]
+		for j := range row {
+			row[j] = rng.NormFloat64()
+		}
+	}
+	y := mat.NewDense(n, l, nil)
+	y.Mul(d, omega)
+	orthonormalize(y)
+	z := mat.NewDense(m, l, nil)
+	for it := 0; it < randPowerIters; it++ {
+		z.Mul(d.T(), y)
+		orthonormalize(z)
+		y.Mul(d, z)
+		orthonormalize(y)
+	}
+	b := mat.NewDense(l, m, nil)
+	b.Mul(y.T(), d)
+	var s mat.SVD
+	if !s.Factorize(b, mat.SVDThin) {
+		return nil, errors.New("SVD of the sketch did not converge")
+	}
+	vals := s.Values(nil)
+	var ub, v mat.Dense
+	s.UTo(&ub)
+	s.VTo(&v)
+	var u mat.Dense
+	u.Mul(y, &ub)
+	return truncate(&u, vals, &v, r), nil
+}
+
+// orthonormalize overwrites the tall matrix x (rows ≥ cols) with the thin Q of its QR
+// factorization.
+func orthonormalize(x *mat.Dense) {
+	rows, cols := x.Dims()
+	raw := x.RawMatrix()
+	a := blas64.General{Rows: rows, Cols: cols, Stride: raw.Stride, Data: raw.Data}
+	tau := make([]float64, cols)
+	work := []float64{0}
+	lapack64.Geqrf(a, tau, work, -1)
+	lw := max(int(work[0]), rows, cols)
+	work = make([]float64, lw)
+	lapack64.Geqrf(a, tau, work, lw)
+	work = []float64{0}
+	lapack64.Orgqr(a, tau, work, -1)
+	lw = max(int(work[0]), rows, cols)
+	work = make([]float64, lw)
+	lapack64.Orgqr(a, tau, work, lw)
+}
+
+// fixSigns makes the largest |v_jk| of every factor positive; singular vectors are only
+// defined up to a common sign flip of u_k and v_k.
+func fixSigns(f *Factors) {
+	n, _ := f.U.Dims()
+	m, r := f.V.Dims()
+	for k := 0; k < r; k++ {
+		best, at := -1.0, 0
+		for j := 0; j < m; j++ {
+			if a := math.Abs(f.V.At(j, k)); a > best {
+				best, at = a, j
+			}
+		}
+		if f.V.At(at, k) < 0 {
+			for j := 0; j < m; j++ {
+				f.V.Set(j, k, -f.V.At(j, k))
+			}
+			for i := 0; i < n; i++ {
+				f.U.Set(i, k, -f.U.At(i, k))
+			}
+		}
+	}
+}

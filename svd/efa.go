@@ -1,0 +1,374 @@
+package svd
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// EFAResult holds evolving factor analysis curves (Gampp, Maeder, Meyer & Zuberbühler,
+// Talanta 1985; Maeder, Anal. Chem. 1987).
+type EFAResult struct {
+	// Forward row i: log10 of the singular values of rows 0..i (descending).
+	// Backward row i: log10 of the singular values of rows i..n−1.
+	// Values at or below Floor are reported as log10(Floor), so there is never −Inf.
+	Forward, Backward *mat.Dense // n x f
+	Floor             float64    // smallest reported singular value: s_1·1e−15 (1e−300 for an all-zero matrix)
+	Exact             bool       // true: exact singular values; false: of the projection onto the leading Columns right singular vectors
+	Columns           int        // dimension of the row space used (min(n,m) when exact)
+	Sigma             float64    // noise standard deviation estimated from D (used by Windows when noiseLevel ≤ 0)
+	n, m              int
+}
+
+// efaExactBudget bounds the flops of exact EFA: about a second of small SVDs.
+const efaExactBudget = 1.5e9
+
+// EFA computes forward and backward evolving factor analysis with maxFactors values per row
+// (0 = min(n, m, 8)).
+//
+// Why it is cheap: with D = Y Vᵀ, Y = U S (n x c) and V orthonormal, the first i rows satisfy
+// D_i = Y_i Vᵀ and so have the singular values of the small matrix Y_i. Rows are added one at
+// a time to the triangular factor R of Y_i by Givens rotations (R is the QR factor, so no
+// squaring of the condition number as a Gram matrix would do), and the singular values of the
+// at most c x c matrix R are computed at each step. With c = min(n, m) this is exact. When that
+// would cost more than ~1.5e9 flops, Y is the projection onto the leading p = max(2f, f+20)
+// right singular vectors (randomized SVD): signal values are unchanged, noise values are lower
+// bounds of the exact ones (a projection cannot raise singular values), so Windows' noise
+// threshold, taken from the full m columns, stays conservative.
+func EFA(d *mat.Dense, maxFactors int) (*EFAResult, error) {
+	if err := checkMatrix(d); err != nil {
+		return nil, fmt.Errorf("svd: EFA: %w", err)
+	}
+	n, m := d.Dims()
+	c := min(n, m)
+	if maxFactors < 0 {
+		return nil, fmt.Errorf("svd: EFA: maxFactors %d is negative", maxFactors)
+	}
+	nf := maxFactors
+	if nf == 0 {
+		nf = min(c, 8)
+	}
+	nf = min(nf, c)
+
+	exact := float64(n)*float64(m)*float64(c) <= exactWork && efaCost(n, c) <= efaExactBudget
+	var fac *Factors
+	var err error
+	if exact {
+		fac, err = Decompose(d, DecomposeOptions{Method: MethodExact})
+	} else {
+		p := min(c, max(2*nf, nf+20))
+		fac, err = Decompose(d, DecomposeOptions{Method: MethodRandomized, MaxFactors: p})
+	}
+	if err != nil {
+		return nil, fmt.Errorf("svd: EFA: %w", err)
+	}
+	p := len(fac.S)
+	y := mat.NewDense(n, p, nil)
+	for i := 0; i < n; i++ {
+		for k := 0; k < p; k++ {
+			y.Set(i, k, fac.U.At(i, k)*fac.S[k])
+		}
+	}
+	floor := 1e-300
+	if len(fac.S) > 0 && fac.S[0] > 0 {
+		floor = fac.S[0] * 1e-15
+	}
+	res := &EFAResult{Floor: floor, Exact: exact, Columns: p, n: n, m: m}
+	if res.Forward, err = evolve(y, nf, floor, false); err != nil {
+		return nil, fmt.Errorf("svd: EFA forward: %w", err)
+	}
+	if res.Backward, err = evolve(y, nf, floor, true); err != nil {
+		return nil, fmt.Errorf("svd: EFA backward: %w", err)
+	}
+	if fac.FrobeniusSq > 0 {
+		res.Sigma = noiseSigma(d, fac)
+	}
+	return res, nil
+}
+
+// noiseSigma is the data-only estimate of EstimateRank (no pre-reaction rows known).
+func noiseSigma(d *mat.Dense, f *Factors) float64 {
+	n, m := d.Dims()
+	var s float64
+	if f.Full() {
+		s = sigmaFromSpectrum(f.S, n, m)
+	} else {
+		k := len(f.S)
+		s = math.Sqrt(f.TailSq(k) / (float64(n-k) * float64(m-k)))
+	}
+	if n >= 3 {
+		s = math.Min(s, sigmaFromRowPairs(d, 0, n, true))
+	}
+	return s
+}
+
+// efaCost estimates the flops of both sweeps with the full row space: a (w x c) SVD per row,
+// w = min(i, c), about 4·w²·c flops, plus the Givens updates.
+func efaCost(n, c int) float64 {
+	var t float64
+	for i := 1; i <= n; i++ {
+		w := float64(min(i, c))
+		t += 4*w*w*float64(c) + 6*float64(c)*float64(c)
+	}
+	return 2 * t
+}
+
+// evolve returns log10 singular values of growing leading (or trailing) row blocks of y.
+func evolve(y *mat.Dense, nf int, floor float64, backward bool) (*mat.Dense, error) {
+	n, p := y.Dims()
+	out := mat.NewDense(n, nf, nil)
+	r := mat.NewDense(p, p, nil) // upper-triangular factor of the rows seen so far
+	row := make([]float64, p)
+	var sv mat.SVD
+	logFloor := math.Log10(floor)
+	for step := 0; step < n; step++ {
+		i := step
+		if backward {
+			i = n - 1 - step
+		}
+		copy(row, y.RawRowView(i))
+		givensAppend(r, row)
+		// While fewer rows than columns have been seen, the block itself is the smaller
+		// matrix (Givens may park a row anywhere in R when R is rank-deficient).
+		var blk mat.Matrix = r
+		if step+1 < p {
+			if backward {
+				blk = y.Slice(i, n, 0, p)
+			} else {
+				blk = y.Slice(0, i+1, 0, p)
+			}
+		}
+		if !sv.Factorize(blk, mat.SVDNone) {
+			return nil, errors.New("SVD of the triangular factor did not converge")
+		}
+		vals := sv.Values(nil)
+		for k := 0; k < nf; k++ {
+			v := logFloor
+			if k < len(vals) && vals[k] > floor {
+				v = math.Log10(vals[k])
+			}
+			out.Set(i, k, v)
+		}
+	}
+	return out, nil
+}
+
+// givensAppend updates the triangular factor R of a row block to include one more row:
+// each rotation mixes row k of R with the new row so that its k-th entry vanishes.
+func givensAppend(r *mat.Dense, x []float64) {
+	p := len(x)
+	for k := 0; k < p; k++ {
+		if x[k] == 0 {
+			continue
+		}
+		rk := r.RawRowView(k)
+		a, b := rk[k], x[k]
+		h := math.Hypot(a, b)
+		cs, sn := a/h, b/h
+		for j := k; j < p; j++ {
+			u, v := rk[j], x[j]
+			rk[j] = cs*u + sn*v
+			x[j] = -sn*u + cs*v
+		}
+		x[k] = 0
+	}
+}
+
+// EFAWindows are presence windows derived from EFA curves.
+type EFAWindows struct {
+	Appear, Disappear []int    // per component: first and last row present (−1: not detected)
+	LocalRank         []int    // per row: the number of components present
+	Present           [][]bool // n x rank
+	threshold         []float64
+	fwd, bwd          *mat.Dense
+}
+
+// Windows turns the EFA curves into presence windows for rank components. noiseLevel is the
+// noise standard deviation per data point (RankReport.Sigma); ≤ 0 uses e.Sigma.
+//
+// The k-th forward value of the first w rows is significant when it exceeds the noise
+// threshold σ·√((√w+√m)² + 2.02·(√w+√m)(1/√w+1/√m)^{1/3}) of a w x m block of white noise
+// (Marchenko–Pastur edge plus the 99 % Tracy–Widom margin, as in EstimateRank). Component k
+// appears at the first row from which its forward value stays significant; the k-th backward
+// value gives, symmetrically, the last row of the k-th-to-last disappearing component. Maeder's
+// (1987) first-in-first-out rule pairs them: the j-th component to appear is the j-th to
+// disappear, so component j is present from Appear[j] to Disappear[j] inclusive.
+func (e *EFAResult) Windows(rank int, noiseLevel float64) *EFAWindows {
+	if e == nil || e.Forward == nil {
+		return &EFAWindows{}
+	}
+	n, nf := e.Forward.Dims()
+	rank = min(max(rank, 0), nf)
+	sigma := noiseLevel
+	if !(sigma > 0) || math.IsInf(sigma, 0) {
+		sigma = e.Sigma
+	}
+	thr := make([]float64, n+1) // by block size w
+	sm := math.Sqrt(float64(e.m))
+	for w := 1; w <= n; w++ {
+		sw := math.Sqrt(float64(w))
+		edge := sw + sm
+		t := sigma * math.Sqrt(edge*edge+twMargin99*edge*math.Cbrt(1/sw+1/sm))
+		thr[w] = math.Log10(math.Max(t, e.Floor))
+	}
+	w := &EFAWindows{
+		Appear: make([]int, rank), Disappear: make([]int, rank),
+		LocalRank: make([]int, n), Present: make([][]bool, n),
+		threshold: thr, fwd: e.Forward, bwd: e.Backward,
+	}
+	for i := range w.Present {
+		w.Present[i] = make([]bool, rank)
+	}
+	appear := make([]int, rank)
+	last := make([]int, rank)
+	for k := 0; k < rank; k++ {
+		appear[k] = -1
+		for i := n - 1; i >= 0; i-- { // stays significant from appear[k] to the end
+			if e.Forward.At(i, k) > thr[i+1] {
+				appear[k] = i
+			} else {
+				break
+			}
+		}
+		last[k] = -1
+		for i := 0; i < n; i++ { // significant from the start down to last[k]
+			if e.Backward.At(i, k) > thr[n-i] {
+				last[k] = i
+			} else {
+				break
+			}
+		}
+	}
+	for j := 0; j < rank; j++ {
+		a, b := appear[j], last[rank-1-j]
+		if a >= 0 && b >= 0 && a > b {
+			a, b = b, a // crossing curves: keep the span rather than an empty window
+		}
+		if a < 0 || b < 0 {
+			a, b = -1, -1
+		}
+		w.Appear[j], w.Disappear[j] = a, b
+		if a < 0 {
+			continue
+		}
+		for i := a; i <= b; i++ {
+			w.Present[i][j] = true
+			w.LocalRank[i]++
+		}
+	}
+	return w
+}
+
+// InitialProfiles returns n x rank initial concentration estimates from the windows (nil if
+// d or the windows do not fit). Each profile is c_j = Y t_j with Y = U_r S_r the scores of
+// the leading rank factors and t_j the direction that is closest to zero on the rows where
+// component j is absent (smallest right singular vector of those rows of Y) — the zero
+// constraints of Maeder (1987). Components present on every row, or with too few absent rows
+// to fix a direction, fall back to Maeder's combined EFA curve (the smaller of the forward and
+// backward values inside the window). Profiles are clipped at zero outside and inside the
+// window and scaled to a maximum of 1.
+func (w *EFAWindows) InitialProfiles(d *mat.Dense, rank int) *mat.Dense {
+	if w == nil || d == nil || d.IsEmpty() || checkMatrix(d) != nil {
+		return nil
+	}
+	n, _ := d.Dims()
+	if rank <= 0 || rank > len(w.Appear) || len(w.Present) != n {
+		return nil
+	}
+	fac, err := Decompose(d, DecomposeOptions{MaxFactors: rank})
+	if err != nil {
+		return nil
+	}
+	r := len(fac.S)
+	y := mat.NewDense(n, r, nil)
+	for i := 0; i < n; i++ {
+		for k := 0; k < r; k++ {
+			y.Set(i, k, fac.U.At(i, k)*fac.S[k])
+		}
+	}
+	out := mat.NewDense(n, rank, nil)
+	prof := make([]float64, n)
+	for j := 0; j < rank; j++ {
+		for i := range prof {
+			prof[i] = 0
+		}
+		var absent []int
+		for i := 0; i < n; i++ {
+			if !w.Present[i][j] {
+				absent = append(absent, i)
+			}
+		}
+		ok := false
+		if r >= 2 && len(absent) >= r-1 && len(absent) > 0 && len(absent) < n {
+			sub := mat.NewDense(len(absent), r, nil)
+			for a, i := range absent {
+				sub.SetRow(a, y.RawRowView(i))
+			}
+			var sv mat.SVD
+			if sv.Factorize(sub, mat.SVDFull) {
+				var v mat.Dense
+				sv.VTo(&v)
+				t := make([]float64, r)
+				for k := range t {
+					t[k] = v.At(k, r-1)
+				}
+				var sum float64
+				for i := 0; i < n; i++ {
+					var s float64
+					for k := 0; k < r; k++ {
+						s += y.At(i, k) * t[k]
+					}
+					prof[i] = s
+					if w.Present[i][j] {
+						sum += s
+					}
+				}
+				if sum < 0 {
+					for i := range prof {
+						prof[i] = -prof[i]
+					}
+				}
+				ok = true
+			}
+		} else if r == 1 {
+			var sum float64
+			for i := 0; i < n; i++ {
+				prof[i] = y.At(i, 0)
+				sum += prof[i]
+			}
+			if sum < 0 {
+				for i := range prof {
+					prof[i] = -prof[i]
+				}
+			}
+			ok = true
+		}
+		if !ok && w.fwd != nil && w.Appear[j] >= 0 {
+			for i := w.Appear[j]; i <= w.Disappear[j]; i++ {
+				prof[i] = math.Pow(10, math.Min(w.fwd.At(i, j), w.bwd.At(i, rank-1-j)))
+			}
+		}
+		var mx float64
+		for i := range prof {
+			if !w.Present[i][j] || prof[i] < 0 {
+				prof[i] = 0
+			}
+			mx = math.Max(mx, prof[i])
+		}
+		if mx <= 0 && w.fwd != nil && w.Appear[j] >= 0 {
+			// Zero constraints left nothing positive: use the combined curve.
+			for i := w.Appear[j]; i <= w.Disappear[j]; i++ {
+				prof[i] = math.Pow(10, math.Min(w.fwd.At(i, j), w.bwd.At(i, rank-1-j)))
+				mx = math.Max(mx, prof[i])
+			}
+		}
+		for i := range prof {
+			if mx > 0 {
+				out.Set(i, j, prof[i]/mx)
+			}
+		}
+	}
+	return out
+}

@@ -1,0 +1,458 @@
+package svd
+
+import (
+	"fmt"
+	"math"
+	"strings"
+
+	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat/distuv"
+)
+
+// Criterion names in RankReport.Criteria, in this order.
+const (
+	CriterionNoiseFloor = "noise-floor"
+	CriterionIND        = "ind"
+	CriterionFTest      = "f-test"
+	CriterionStructure  = "structure"
+)
+
+// Sources of RankReport.SigmaSource.
+const (
+	SigmaGiven    = "given"
+	SigmaPreRows  = "pre-reaction rows"
+	SigmaRowPairs = "successive-row differences"
+	SigmaSpectrum = "singular-value median"
+	SigmaTail     = "tail energy"
+	SigmaNone     = "none (all-zero matrix)"
+)
+
+// defaultMaxRank caps the candidate list: bilinear resolution of more than a dozen
+// components from one experiment is not a well-posed question.
+const defaultMaxRank = 12
+
+// twMargin99 is the 99 % point of the Tracy–Widom (β = 1) law of the largest eigenvalue of a
+// white Wishart matrix (Johnstone, Ann. Statist. 2001; value 2.02 from memory). Pure noise
+// then has its largest singular value above the count threshold in about 1 % of matrices,
+// whereas the bare edge σ(√n+√m) is exceeded in roughly one matrix in six.
+const twMargin99 = 2.02
+
+// RankOptions controls EstimateRank.
+type RankOptions struct {
+	Sigma        float64 // known noise standard deviation per point; 0 = estimate
+	PreRows      int     // the first PreRows rows precede the reaction: estimate sigma from them (successive differences / sqrt2 is robust to a common offset)
+	Alpha        float64 // significance level of Malinowski's F-test (0 -> 0.05)
+	MaxRank      int     // upper bound on the answer (0 = min(n,m)-1, capped at 12)
+	ReferenceRow int     // -1 none; for difference data the row used as the reference (its noise is one fixed pattern in every other row: never count it)
+}
+
+// Criterion is one rank criterion's answer.
+type Criterion struct {
+	Name     string // "noise-floor", "ind", "f-test", "structure"
+	Estimate int
+	Source   string // citation
+	Detail   string // one sentence
+}
+
+// CandidateRow holds the statistics of factor K (1-based): its singular value, Malinowski's
+// RE and IND after keeping K factors, the F-test significance level of factor K (probability;
+// small = significant), and the lag-1 autocorrelations of its time (U) and spectrum (V) vectors.
+type CandidateRow struct {
+	K                                                           int
+	SingularValue, RE, IND, FSignificance, AutocorrU, AutocorrV float64
+	AboveNoiseEdge, ReferencePattern                            bool
+	Structured                                                  bool // both vectors smoother than white noise (see Autocorrelation)
+}
+
+// RankReport is the outcome of EstimateRank.
+type RankReport struct {
+	Estimate    int
+	Sigma       float64
+	SigmaSource string
+	NoiseEdge   float64 // σ(√n+√m), the Marchenko–Pastur edge
+	Threshold   float64 // what a singular value must exceed to count: the edge plus a Tracy–Widom margin, never below the rounding level
+	Criteria    []Criterion
+	Table       []CandidateRow
+	Reason      string // the consensus in words
+	// ReferencePatternFactor is the index (0-based) of the factor recognised as the
+	// reference-noise pattern, -1 none.
+	ReferencePatternFactor int
+	Warnings               []string
+}
+
+// EstimateRank estimates how many factors of D carry chemistry. f may be nil (then D is
+// decomposed here); if f is truncated, the statistics use f.FrobeniusSq for the tails.
+//
+// Criteria, each reported with its estimate and, per candidate factor, its statistic:
+//
+//  1. noise floor: the number of singular values above σ(√n+√m), the edge of the
+//     Marchenko–Pastur law that the singular values of an n x m matrix of white noise of
+//     standard deviation σ fill (Geman, Ann. Probab. 1980), raised by the 99 % Tracy–Widom
+//     fluctuation of the largest noise value (Johnstone 2001). σ is the given value, else the
+//     pooled successive differences of the PreRows pre-reaction rows / √2, else the smaller
+//     of the robust successive-row estimate (median over row pairs) and the Gavish & Donoho
+//     (2014) estimate s_med/√(max(n,m)·μ_β) from the median singular value (μ_β the
+//     Marchenko–Pastur median, β = min/max); both are biased only upwards by signal.
+//  2. Malinowski's indicator function: with r ≥ c the dimensions and λ_j = s_j²,
+//     RE(k) = √(Σ_{j>k} λ_j / (r(c−k))), IND(k) = RE(k)/(c−k)², minimum over k = 0..MaxRank
+//     (Malinowski, Anal. Chem. 1977; k = 0 added so that pure noise can answer 0).
+//     And Malinowski's F-test on reduced eigenvalues λ_j/((r−j+1)(c−j+1)) (J. Chemometrics 1989):
+//     F(1, c−k) = [Σ_{j>k} (r−j+1)(c−j+1)] / [(r−k+1)(c−k+1)] · λ_k / Σ_{j>k} λ_j. Factors are
+//     tested from the largest down; the estimate is the number of leading factors significant
+//     at level Alpha (stopping at the first that is not), which needs only λ_k and the tail sum.
+//  3. structure: a factor is structured when both its time and spectrum vectors have a lag-1
+//     autocorrelation (about zero) of at least 0.3 and three white-noise standard deviations
+//     (Shrager & Hendler, Anal. Chem. 1982; from memory). Vectors shorter than 12 points pass.
+//     The estimate is the number of leading structured factors.
+//
+// The reference-noise pattern of difference data (ΔA(t) = A(t) − A(ref): the reference's own
+// noise e appears as −e in every row but the reference) is a factor whose time vector is
+// constant on all rows but the reference (cos² with the all-ones vector ≥ 0.8) and whose
+// spectrum vector is white (autocorrelation below 0.3 and not significantly positive). It
+// is flagged and never counted by any criterion.
+//
+// Consensus (Estimate): the number of factors, other than the reference pattern, that are
+// both above the noise threshold and structured, capped at MaxRank. Why: the noise floor is
+// the only criterion with a physical scale (σ) and it fails in one direction only — when σ is
+// underestimated, or the noise is not white, it counts factors that are not chemistry; those
+// factors have a white time or spectrum vector, which the structure test catches, while a
+// real species has a smooth band shape and a smooth concentration profile. IND and the F-test
+// need no σ but are known to drift with matrix size and noise colour, so they are reported as
+// cross-checks: a disagreement becomes a Warning, not a vote.
+//
+// An all-zero matrix (identical single beams: nothing happened) gives Estimate 0.
+func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error) {
+	if err := checkMatrix(d); err != nil {
+		return nil, fmt.Errorf("svd: estimate rank: %w", err)
+	}
+	n, m := d.Dims()
+	c, rr := min(n, m), max(n, m)
+	alpha := opt.Alpha
+	switch {
+	case alpha == 0:
+		alpha = 0.05
+	case !(alpha > 0 && alpha < 1):
+		return nil, fmt.Errorf("svd: estimate rank: Alpha %v outside (0, 1)", opt.Alpha)
+	}
+	if opt.Sigma < 0 || math.IsNaN(opt.Sigma) || math.IsInf(opt.Sigma, 0) {
+		return nil, fmt.Errorf("svd: estimate rank: Sigma %v must be finite and ≥ 0", opt.Sigma)
+	}
+	if opt.PreRows < 0 || opt.PreRows > n {
+		return nil, fmt.Errorf("svd: estimate rank: PreRows %d outside 0..%d", opt.PreRows, n)
+	}
+	if opt.MaxRank < 0 {
+		return nil, fmt.Errorf("svd: estimate rank: MaxRank %d is negative", opt.MaxRank)
+	}
+	if opt.ReferenceRow < -1 || opt.ReferenceRow >= n {
+		return nil, fmt.Errorf("svd: estimate rank: ReferenceRow %d outside -1..%d", opt.ReferenceRow, n-1)
+	}
+	maxRank := opt.MaxRank
+	if maxRank == 0 {
+		maxRank = min(max(c-1, 1), defaultMaxRank)
+	}
+	maxRank = min(maxRank, c)
+
+	if f == nil {
+		dopt := DecomposeOptions{}
+		if float64(n)*float64(m)*float64(c) > exactWork {
+			dopt.MaxFactors = maxRank + 2 // enough for the table; tails come from FrobeniusSq
+		}
+		var err error
+		if f, err = Decompose(d, dopt); err != nil {
+			return nil, fmt.Errorf("svd: estimate rank: %w", err)
+		}
+	} else {
+		if f.U == nil || f.V == nil {
+			return nil, fmt.Errorf("svd: estimate rank: factors have nil U or V")
+		}
+		un, ur := f.U.Dims()
+		vm, vr := f.V.Dims()
+		if un != n || vm != m || ur != len(f.S) || vr != len(f.S) {
+			return nil, fmt.Errorf("svd: estimate rank: factors (U %dx%d, %d values, V %dx%d) do not match the %dx%d data", un, ur, len(f.S), vm, vr, n, m)
+		}
+	}
+
+	rep := &RankReport{ReferencePatternFactor: -1}
+	warn := func(format string, a ...any) { rep.Warnings = append(rep.Warnings, fmt.Sprintf(format, a...)) }
+	if len(f.S) < maxRank+1 && !f.Full() {
+		warn("only %d factors were supplied; candidates beyond factor %d are not examined", len(f.S), len(f.S))
+	}
+
+	refRow := opt.ReferenceRow
+	if refRow < 0 {
+		if z := zeroRows(d); len(z) == 1 && n >= 3 && f.FrobeniusSq > 0 {
+			refRow = z[0]
+			warn("row %d is exactly zero: treated as the reference row of difference data", refRow)
+		}
+	}
+
+	// Noise level.
+	sigma, src := opt.Sigma, SigmaGiven
+	switch {
+	case opt.Sigma > 0:
+	case f.FrobeniusSq == 0:
+		sigma, src = 0, SigmaNone
+	case opt.PreRows >= 2:
+		sigma, src = sigmaFromRowPairs(d, 0, opt.PreRows, false), SigmaPreRows
+	default:
+		var specSigma float64
+		specSrc := SigmaSpectrum
+		if f.Full() {
+			specSigma = sigmaFromSpectrum(f.S, n, m)
+		} else {
+			// Residual degrees of freedom of a rank-k fit: (n−k)(m−k).
+			k := len(f.S)
+			specSigma = math.Sqrt(f.TailSq(k) / (float64(n-k) * float64(m-k)))
+			specSrc = SigmaTail
+		}
+		sigma, src = specSigma, specSrc
+		if n >= 3 {
+			if rs := sigmaFromRowPairs(d, 0, n, true); rs < sigma {
+				sigma, src = rs, SigmaRowPairs
+			}
+		}
+		if c < 20 {
+			warn("σ estimated from a matrix with only %d rows or columns: the noise floor is uncertain; give Sigma or PreRows", c)
+		}
+		if opt.PreRows == 1 {
+			warn("PreRows = 1 gives no successive difference: σ estimated from the whole matrix")
+		}
+	}
+	rep.Sigma, rep.SigmaSource = sigma, src
+	sn, sm := math.Sqrt(float64(n)), math.Sqrt(float64(m))
+	rep.NoiseEdge = sigma * (sn + sm)
+	mu := (sn + sm) * (sn + sm)
+	tau := (sn + sm) * math.Cbrt(1/sn+1/sm)
+	rep.Threshold = sigma * math.Sqrt(mu+tau*twMargin99)
+	var s1 float64
+	if len(f.S) > 0 {
+		s1 = f.S[0]
+	}
+	numTol := s1 * float64(rr) * eps // rank tolerance of numpy.linalg.matrix_rank
+	if rep.Threshold < numTol {
+		rep.Threshold = numTol
+	}
+
+	// Candidate table.
+	kScan := min(len(f.S), maxRank+2, c)
+	weights := func(j int) float64 { return float64(rr-j+1) * float64(c-j+1) } // j 1-based
+	tailW := make([]float64, c+2)                                              // Σ_{j>k} w_j
+	for k := c - 1; k >= 0; k-- {
+		tailW[k] = tailW[k+1] + weights(k+1)
+	}
+	ind := func(k int) (re, indv float64) {
+		if k >= c {
+			return 0, 0
+		}
+		re = math.Sqrt(f.TailSq(k) / (float64(rr) * float64(c-k)))
+		return re, re / (float64(c-k) * float64(c-k))
+	}
+	for k := 1; k <= kScan; k++ {
+		s := f.S[k-1]
+		row := CandidateRow{K: k, SingularValue: s}
+		row.RE, row.IND = ind(k)
+		row.FSignificance = fSignificance(s*s, f.TailSq(k), tailW[k], weights(k), c-k)
+		row.AutocorrU = Autocorrelation(column(f.U, k-1))
+		row.AutocorrV = Autocorrelation(column(f.V, k-1))
+		row.AboveNoiseEdge = s > rep.Threshold && s > 0
+		row.Structured = s > numTol && s > 0 && structured(row.AutocorrU, n) && structured(row.AutocorrV, m)
+		rep.Table = append(rep.Table, row)
+	}
+
+	// Reference-noise pattern.
+	if refRow >= 0 && n >= 3 {
+		best, bestFlat := -1, 0.0
+		for k := range rep.Table {
+			row := &rep.Table[k]
+			if !row.AboveNoiseEdge {
+				continue
+			}
+			flat := flatness(column(f.U, k), refRow)
+			white := row.AutocorrV < 0.3 && !structured(row.AutocorrV, m)
+			if flat >= 0.8 && white && flat > bestFlat {
+				best, bestFlat = k, flat
+			}
+		}
+		if best >= 0 {
+			rep.Table[best].ReferencePattern = true
+			rep.ReferencePatternFactor = best
+		}
+	} else {
+		for k, row := range rep.Table {
+			if row.AboveNoiseEdge && row.AutocorrV < 0.3 && !structured(row.AutocorrV, m) && flatness(column(f.U, k), -1) >= 0.8 {
+				warn("factor %d has a flat time vector and a white spectrum, like the reference noise of difference data; set ReferenceRow if these are difference spectra", k+1)
+				break
+			}
+		}
+	}
+	pat := rep.ReferencePatternFactor
+	excluded := func(k int) int { // how many of the first k factors are the pattern
+		if pat >= 0 && pat < k {
+			return 1
+		}
+		return 0
+	}
+
+	// (1) noise floor
+	var nFloor int
+	for _, row := range rep.Table {
+		if row.AboveNoiseEdge && !row.ReferencePattern {
+			nFloor++
+		}
+	}
+	nFloor = min(nFloor, maxRank)
+	// (2a) IND minimum over k = 0..min(maxRank, c−1) (+1 when the pattern is among them)
+	kInd := 0
+	if f.FrobeniusSq > 0 {
+		best := math.Inf(1)
+		top := min(maxRank+excluded(maxRank+1), c-1, len(f.S))
+		for k := 0; k <= top; k++ {
+			_, v := ind(k)
+			if v < best {
+				best, kInd = v, k
+			}
+		}
+		kInd -= excluded(kInd)
+	}
+	// (2b) F-test, sequential from the largest factor
+	var nF int
+	for _, row := range rep.Table {
+		if row.SingularValue <= numTol || row.SingularValue == 0 || nF >= maxRank {
+			break
+		}
+		if row.FSignificance >= alpha {
+			break
+		}
+		if !row.ReferencePattern {
+			nF++
+		}
+	}
+	// (3) structure
+	var nStruct int
+	for _, row := range rep.Table {
+		if row.ReferencePattern {
+			continue
+		}
+		if !row.Structured || nStruct >= maxRank {
+			break
+		}
+		nStruct++
+	}
+	// consensus
+	var est int
+	var counted, rejected []string
+	for _, row := range rep.Table {
+		switch {
+		case row.ReferencePattern || !row.AboveNoiseEdge:
+		case row.Structured && est < maxRank:
+			est++
+			counted = append(counted, fmt.Sprint(row.K))
+		case row.Structured:
+			warn("factor %d is above the noise and structured but exceeds MaxRank %d", row.K, maxRank)
+		default:
+			rejected = append(rejected, fmt.Sprint(row.K))
+		}
+	}
+	rep.Estimate = est
+
+	patNote := ""
+	if pat >= 0 {
+		patNote = fmt.Sprintf("; factor %d (reference-noise pattern) not counted", pat+1)
+	}
+	rep.Criteria = []Criterion{
+		{Name: CriterionNoiseFloor, Estimate: nFloor,
+			Source: "Marchenko–Pastur edge σ(√n+√m) (Geman, Ann. Probab. 1980) with a Tracy–Widom margin (Johnstone, Ann. Statist. 2001); σ by Gavish & Donoho (IEEE Trans. Inf. Theory 2014) when estimated from the spectrum",
+			Detail: fmt.Sprintf("%d singular values exceed %.4g (σ = %.4g from %s, edge %.4g)%s", nFloor, rep.Threshold, sigma, src, rep.NoiseEdge, patNote)},
+		{Name: CriterionIND, Estimate: kInd,
+			Source: "Malinowski, Anal. Chem. 1977 (indicator function IND = RE/(c−k)²)",
+			Detail: fmt.Sprintf("IND(k) = RE(k)/(c−k)² is smallest at k = %d over k = 0..%d%s", kInd+excluded(kInd+1), min(maxRank, c-1), patNote)},
+		{Name: CriterionFTest, Estimate: nF,
+			Source: "Malinowski, J. Chemometrics 1989 (F-test on reduced eigenvalues)",
+			Detail: fmt.Sprintf("%d leading factors are significant at level %.3g against the pooled reduced eigenvalues of the rest%s", nF, alpha, patNote)},
+		{Name: CriterionStructure, Estimate: nStruct,
+			Source: "Shrager & Hendler, Anal. Chem. 1982 (lag-1 autocorrelation of singular vectors; from memory)",
+			Detail: fmt.Sprintf("%d leading factors have smooth time and spectrum vectors (lag-1 autocorrelation ≥ 0.3 and 3 white-noise standard deviations)%s", nStruct, patNote)},
+	}
+
+	switch {
+	case f.FrobeniusSq == 0:
+		rep.Reason = "the matrix is exactly zero (identical single beams: nothing happened), so there are no factors"
+	default:
+		var b strings.Builder
+		fmt.Fprintf(&b, "%d factor(s) both above the noise threshold %.4g and structured", est, rep.Threshold)
+		if len(counted) > 0 {
+			fmt.Fprintf(&b, " (factors %s)", strings.Join(counted, ", "))
+		}
+		if len(rejected) > 0 {
+			fmt.Fprintf(&b, "; factor(s) %s above the threshold but with a white time or spectrum vector, so not counted", strings.Join(rejected, ", "))
+		}
+		if pat >= 0 {
+			fmt.Fprintf(&b, "; factor %d is the reference-noise pattern of row %d and is not a species", pat+1, refRow)
+		}
+		b.WriteString(".")
+		rep.Reason = b.String()
+	}
+	if f.FrobeniusSq > 0 {
+		if kInd != est && nF != est {
+			warn("Malinowski's IND (%d) and F-test (%d) both differ from the consensus %d: check σ and the noise model", kInd, nF, est)
+		}
+		if nFloor == maxRank && est == maxRank {
+			warn("the estimate reached MaxRank %d: the rank may be higher or σ too small", maxRank)
+		}
+	}
+	return rep, nil
+}
+
+// fSignificance is the upper-tail probability of Malinowski's F(1, dof) statistic for an
+// eigenvalue lam against the pooled tail; 1 when it cannot be tested.
+func fSignificance(lam, tail, tailW, w float64, dof int) float64 {
+	if dof < 1 || lam <= 0 {
+		return 1
+	}
+	if tail <= 0 {
+		return 0 // exactly low rank: nothing left to compare with
+	}
+	fstat := tailW / w * lam / tail
+	p := 1 - distuv.F{D1: 1, D2: float64(dof)}.CDF(fstat)
+	if math.IsNaN(p) {
+		return 1
+	}
+	return math.Min(math.Max(p, 0), 1)
+}
+
+// flatness is cos² of the angle between u (without row skip) and the all-ones vector: 1 for
+// a time vector that is constant on every other row.
+func flatness(u []float64, skip int) float64 {
+	var sum, sq float64
+	var cnt int
+	for i, v := range u {
+		if i == skip {
+			continue
+		}
+		sum += v
+		sq += v * v
+		cnt++
+	}
+	if sq == 0 || cnt == 0 {
+		return 0
+	}
+	return sum * sum / (float64(cnt) * sq)
+}
+
+func zeroRows(d *mat.Dense) []int {
+	n, _ := d.Dims()
+	var z []int
+	for i := 0; i < n; i++ {
+		all := true
+		for _, v := range d.RawRowView(i) {
+			if v != 0 {
+				all = false
+				break
+			}
+		}
+		if all {
+			z = append(z, i)
+		}
+	}
+	return z
+}
