@@ -208,6 +208,11 @@ func LevenbergMarquardt(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, s
 		for !accepted {
 			if iter >= set.MaxIter {
 				res.Reason = "iteration limit"
+				// The last Jacobian may belong to an earlier iterate: refresh it at x so that
+				// covariances computed from the result refer to the returned point.
+				if err := jacobian(x); err != nil {
+					return nil, fmt.Errorf("kinetics: levenberg-marquardt: jacobian: %w", err)
+				}
 				return finishLM(res, x, r, fnorm, J), nil
 			}
 			iter++

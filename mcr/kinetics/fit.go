@@ -1,0 +1,743 @@
+package kinetics
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"sort"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// FitOptions controls FitProfiles, AutoMap and FitData.
+type FitOptions struct {
+	// T0 is the time the reaction starts; c = c0 before it.
+	T0 float64
+	// InitialK holds starting rate constants (one per step, > 0 where free). nil chooses them
+	// from the time scale of the data: a small grid of k·T values is screened and the best
+	// few starts are refined.
+	InitialK []float64
+	// FixedK marks steps whose rate constant is held at InitialK (nil: all free).
+	FixedK []bool
+	// C0 holds the initial concentrations; nil means 1 for the first species, 0 for the others.
+	C0 []float64
+	// FitC0 also fits the non-zero entries of C0 (on a log scale); zero entries stay zero.
+	FitC0 bool
+	// Amplitudes scales each observed column by its own factor a_j, solved linearly inside
+	// every residual evaluation (variable projection, Golub & Pereyra 1973): resolved profiles
+	// have arbitrary scale.
+	Amplitudes bool
+	// UseExtents compares the observed columns with reaction extents ξ_j instead of
+	// concentrations (difference data resolve reactions, not species).
+	UseExtents bool
+	// Sim tunes the simulation used inside the fit.
+	Sim SimSettings
+	// LM tunes the Levenberg–Marquardt iteration.
+	LM LMSettings
+}
+
+// FitResult is the outcome of a kinetic fit.
+type FitResult struct {
+	Scheme *Scheme
+	// K and KStdErr are per step, in the order written; a fixed step has KStdErr 0.
+	K, KStdErr []float64
+	// HalfLife per step, with HalfLifeNote saying which formula was used; 0 when none applies.
+	HalfLife     []float64
+	HalfLifeNote []string
+	// Corr is the len(Steps) × len(Steps) correlation matrix of the rate constants (identity
+	// rows for fixed steps).
+	Corr *mat.Dense
+	// C0 is the initial concentrations used (fitted when FitC0) and C0StdErr their standard
+	// errors (0 when not fitted).
+	C0, C0StdErr []float64
+	// Amplitudes has one factor per observed column (nil unless FitOptions.Amplitudes).
+	Amplitudes []float64
+	// Fitted holds the fitted observed columns (n × q), or C Sᵀ (n × m) for FitData.
+	Fitted *mat.Dense
+	// Model holds the model concentrations (n × species) or extents (n × steps).
+	Model    *mat.Dense
+	Residual *mat.Dense
+	// RMS is sqrt(SSR / number of data points); Sigma = sqrt(SSR / DegreesOfFreedom) is the
+	// noise estimate behind the standard errors.
+	RMS, SSR, Sigma  float64
+	DegreesOfFreedom int
+	Iterations       int
+	Converged        bool
+	Stiff            bool
+	Warnings         []string
+}
+
+type fitProblem struct {
+	s      *Scheme
+	times  []float64
+	opt    FitOptions
+	k0     []float64
+	c00    []float64
+	kFree  []int
+	c0Free []int
+	nModel int
+
+	// profile mode
+	observed *mat.Dense
+	columns  []int
+	// data mode: reduced data (same residual norm as D for any C, see FitData)
+	dred *mat.Dense
+
+	n, q int
+}
+
+func (p *fitProblem) nParams() int { return len(p.kFree) + len(p.c0Free) }
+
+func (p *fitProblem) unpack(theta []float64) (k, c0 []float64, err error) {
+	k = append([]float64(nil), p.k0...)
+	c0 = append([]float64(nil), p.c00...)
+	for a, j := range p.kFree {
+		if math.Abs(theta[a]) > 700 {
+			return nil, nil, errors.New("log rate constant out of range")
+		}
+		k[j] = math.Exp(theta[a])
+	}
+	for b, i := range p.c0Free {
+		v := theta[len(p.kFree)+b]
+		if math.Abs(v) > 700 {
+			return nil, nil, errors.New("log initial concentration out of range")
+		}
+		c0[i] = math.Exp(v)
+	}
+	return k, c0, nil
+}
+
+func (p *fitProblem) pack(k, c0 []float64) []float64 {
+	theta := make([]float64, 0, p.nParams())
+	for _, j := range p.kFree {
+		theta = append(theta, math.Log(k[j]))
+	}
+	for _, i := range p.c0Free {
+		theta = append(theta, math.Log(c0[i]))
+	}
+	return theta
+}
+
+func (p *fitProblem) model(theta []float64) (*Simulation, *mat.Dense, error) {
+	k, c0, err := p.unpack(theta)
+	if err != nil {
+		return nil, nil, err
+	}
+	sim, err := p.s.SimulateWith(k, c0, p.times, p.opt.T0, p.opt.Sim)
+	if err != nil {
+		return nil, nil, err
+	}
+	if p.opt.UseExtents {
+		return sim, sim.Extents, nil
+	}
+	return sim, sim.C, nil
+}
+
+// amplitudes solves each a_j = ⟨y_j, m_j⟩/⟨m_j, m_j⟩ (one-column least squares).
+func (p *fitProblem) amplitudes(m *mat.Dense) []float64 {
+	a := make([]float64, p.q)
+	for j, col := range p.columns {
+		var num, den float64
+		for i := 0; i < p.n; i++ {
+			mv := m.At(i, col)
+			num += mv * p.observed.At(i, j)
+			den += mv * mv
+		}
+		if den > 0 {
+			a[j] = num / den
+		}
+	}
+	return a
+}
+
+// projector returns an orthonormal basis of the column space of m (thin SVD, numerical rank
+// with tolerance 1e-10·σ_max): projecting with it stays stable when model columns are nearly
+// dependent, where normal equations would not.
+func projector(m *mat.Dense) (*mat.Dense, int, error) {
+	r, c := m.Dims()
+	var svd mat.SVD
+	if !svd.Factorize(m, mat.SVDThin) {
+		return nil, 0, errors.New("SVD of the model columns failed")
+	}
+	s := svd.Values(nil)
+	rank := 0
+	for _, v := range s {
+		if len(s) > 0 && v > 1e-10*s[0] {
+			rank++
+		}
+	}
+	if rank == 0 {
+		return mat.NewDense(r, 1, nil), 0, nil
+	}
+	var u mat.Dense
+	svd.UTo(&u)
+	_ = c
+	return mat.DenseCopyOf(u.Slice(0, r, 0, rank)), rank, nil
+}
+
+func (p *fitProblem) residual(theta, r []float64) error {
+	_, m, err := p.model(theta)
+	if err != nil {
+		return err
+	}
+	if p.dred != nil {
+		u, _, err := projector(m)
+		if err != nil {
+			return err
+		}
+		// r = (I − U Uᵀ) D_red
+		var ut, proj mat.Dense
+		ut.Mul(u.T(), p.dred)
+		proj.Mul(u, &ut)
+		_, w := p.dred.Dims()
+		for i := 0; i < p.n; i++ {
+			for j := 0; j < w; j++ {
+				r[i*w+j] = p.dred.At(i, j) - proj.At(i, j)
+			}
+		}
+		return nil
+	}
+	var a []float64
+	if p.opt.Amplitudes {
+		a = p.amplitudes(m)
+	}
+	for i := 0; i < p.n; i++ {
+		for j, col := range p.columns {
+			f := m.At(i, col)
+			if a != nil {
+				f *= a[j]
+			}
+			r[i*p.q+j] = p.observed.At(i, j) - f
+		}
+	}
+	return nil
+}
+
+func newFitProblem(s *Scheme, times []float64, opt FitOptions, nobs int) (*fitProblem, error) {
+	if s == nil || len(s.Steps) == 0 {
+		return nil, errors.New("empty scheme")
+	}
+	ns, nr := len(s.Species), len(s.Steps)
+	if len(times) != nobs {
+		return nil, fmt.Errorf("%d times for %d observations", len(times), nobs)
+	}
+	p := &fitProblem{s: s, times: times, opt: opt, n: nobs}
+	p.nModel = ns
+	if opt.UseExtents {
+		p.nModel = nr
+	}
+	if opt.Sim.MaxSteps == 0 {
+		p.opt.Sim.MaxSteps = 100000
+	}
+	if math.IsNaN(opt.T0) || math.IsInf(opt.T0, 0) {
+		return nil, fmt.Errorf("t0 is %v", opt.T0)
+	}
+	tmax := math.Inf(-1)
+	after := 0
+	for i, t := range times {
+		if math.IsNaN(t) || math.IsInf(t, 0) {
+			return nil, fmt.Errorf("time %d is %v", i, t)
+		}
+		if t > opt.T0 {
+			after++
+		}
+		tmax = math.Max(tmax, t)
+	}
+	if after < 2 {
+		return nil, fmt.Errorf("fewer than two times after t0 = %g", opt.T0)
+	}
+	span := tmax - opt.T0
+
+	p.c00 = make([]float64, ns)
+	if opt.C0 == nil {
+		p.c00[0] = 1
+	} else {
+		if len(opt.C0) != ns {
+			return nil, fmt.Errorf("%d initial concentrations for %d species", len(opt.C0), ns)
+		}
+		for i, v := range opt.C0 {
+			if !(v >= 0) || math.IsInf(v, 0) {
+				return nil, fmt.Errorf("initial concentration of %s is %v", s.Species[i], v)
+			}
+		}
+		copy(p.c00, opt.C0)
+	}
+	cscale := 0.0
+	for _, v := range p.c00 {
+		cscale = math.Max(cscale, v)
+	}
+	if cscale == 0 {
+		return nil, errors.New("all initial concentrations are zero: nothing can react")
+	}
+	if opt.FixedK != nil && len(opt.FixedK) != nr {
+		return nil, fmt.Errorf("FixedK has %d entries for %d steps", len(opt.FixedK), nr)
+	}
+	if opt.InitialK != nil && len(opt.InitialK) != nr {
+		return nil, fmt.Errorf("InitialK has %d entries for %d steps", len(opt.InitialK), nr)
+	}
+	p.k0 = make([]float64, nr)
+	for j := range s.Steps {
+		fixed := opt.FixedK != nil && opt.FixedK[j]
+		if opt.InitialK != nil {
+			v := opt.InitialK[j]
+			if math.IsNaN(v) || math.IsInf(v, 0) || v < 0 || (!fixed && v == 0) {
+				return nil, fmt.Errorf("initial rate constant of step %q is %v, want > 0 (≥ 0 if fixed)", s.Steps[j].Text, v)
+			}
+			p.k0[j] = v
+		} else {
+			if fixed {
+				return nil, fmt.Errorf("step %q is fixed but InitialK is nil", s.Steps[j].Text)
+			}
+			// One decay within the span, scaled to a pseudo-first-order rate for higher orders.
+			p.k0[j] = 1 / span / math.Pow(cscale, float64(s.Steps[j].Order-1))
+		}
+		if !fixed {
+			p.kFree = append(p.kFree, j)
+		}
+	}
+	if opt.FitC0 {
+		for i, v := range p.c00 {
+			if v > 0 {
+				p.c0Free = append(p.c0Free, i)
+			}
+		}
+	}
+	return p, nil
+}
+
+// starts returns starting parameter vectors: the user's InitialK, or the best few points of a
+// grid of k·T ∈ {0.5, 2, 8, 32} per free step (T the time span), ranked by sum of squares
+// (ties by grid order, so the choice is deterministic).
+func (p *fitProblem) starts(m int) ([][]float64, error) {
+	base := p.pack(p.k0, p.c00)
+	if p.opt.InitialK != nil || len(p.kFree) == 0 {
+		return [][]float64{base}, nil
+	}
+	factors := []float64{0.5, 2, 8, 32}
+	nf := len(p.kFree)
+	var cands [][]float64
+	if nf <= 4 {
+		total := 1
+		for i := 0; i < nf; i++ {
+			total *= len(factors)
+		}
+		for code := 0; code < total; code++ {
+			th := append([]float64(nil), base...)
+			c := code
+			for a := 0; a < nf; a++ {
+				th[a] += math.Log(factors[c%len(factors)])
+				c /= len(factors)
+			}
+			cands = append(cands, th)
+		}
+	} else {
+		for _, f := range factors {
+			th := append([]float64(nil), base...)
+			for a := 0; a < nf; a++ {
+				th[a] += math.Log(f * math.Pow(1.5, -float64(a)))
+			}
+			cands = append(cands, th)
+		}
+	}
+	type scored struct {
+		i   int
+		ssr float64
+	}
+	r := make([]float64, m)
+	var sc []scored
+	for i, th := range cands {
+		if err := p.residual(th, r); err != nil {
+			continue
+		}
+		var ssr float64
+		for _, v := range r {
+			ssr += v * v
+		}
+		if !math.IsNaN(ssr) && !math.IsInf(ssr, 0) {
+			sc = append(sc, scored{i, ssr})
+		}
+	}
+	if len(sc) == 0 {
+		return nil, errors.New("the model could not be evaluated at any starting guess")
+	}
+	sort.SliceStable(sc, func(a, b int) bool { return sc[a].ssr < sc[b].ssr })
+	var out [][]float64
+	for a := 0; a < len(sc) && a < 3; a++ {
+		out = append(out, cands[sc[a].i])
+	}
+	return out, nil
+}
+
+// solve runs Levenberg–Marquardt from each start and keeps the lowest sum of squares (the
+// earliest start on ties).
+func (p *fitProblem) solve(m int) (*LMResult, error) {
+	starts, err := p.starts(m)
+	if err != nil {
+		return nil, err
+	}
+	var best *LMResult
+	var firstErr error
+	for _, th := range starts {
+		if len(th) == 0 {
+			r := make([]float64, m)
+			if err := p.residual(th, r); err != nil {
+				return nil, err
+			}
+			var ssr float64
+			for _, v := range r {
+				ssr += v * v
+			}
+			return &LMResult{X: th, Residual: r, SSR: ssr, Jacobian: mat.NewDense(m, 1, nil), Converged: true, Reason: "no free parameters"}, nil
+		}
+		res, err := LevenbergMarquardt(p.residual, nil, th, m, p.opt.LM)
+		if err != nil {
+			if firstErr == nil {
+				firstErr = err
+			}
+			continue
+		}
+		if best == nil || res.SSR < best.SSR*(1-1e-12) {
+			best = res
+		}
+	}
+	if best == nil {
+		return nil, firstErr
+	}
+	return best, nil
+}
+
+func checkFinite(d *mat.Dense, what string) error {
+	r, c := d.Dims()
+	for i := 0; i < r; i++ {
+		for j := 0; j < c; j++ {
+			if v := d.At(i, j); math.IsNaN(v) || math.IsInf(v, 0) {
+				return fmt.Errorf("%s[%d][%d] is %v", what, i, j, v)
+			}
+		}
+	}
+	return nil
+}
+
+// FitProfiles fits observed columns (n × q): observed column j is model column columns[j]
+// (a species index, or a step index with UseExtents), optionally scaled by its own amplitude.
+// The rate constants are fitted as ln k so they stay positive; standard errors come from
+// σ²(JᵀJ)⁻¹ in ln k and map back to k by the delta method (se_k = k·se_ln k).
+func FitProfiles(s *Scheme, times []float64, observed *mat.Dense, columns []int, opt FitOptions) (*FitResult, error) {
+	if observed == nil {
+		return nil, errors.New("kinetics: fit profiles: no observed columns")
+	}
+	n, q := observed.Dims()
+	p, err := newFitProblem(s, times, opt, n)
+	if err != nil {
+		return nil, fmt.Errorf("kinetics: fit profiles: %w", err)
+	}
+	if len(columns) != q {
+		return nil, fmt.Errorf("kinetics: fit profiles: %d column assignments for %d observed columns", len(columns), q)
+	}
+	for j, c := range columns {
+		if c < 0 || c >= p.nModel {
+			return nil, fmt.Errorf("kinetics: fit profiles: observed column %d is mapped to %d, want 0..%d", j, c, p.nModel-1)
+		}
+	}
+	if err := checkFinite(observed, "observed"); err != nil {
+		return nil, fmt.Errorf("kinetics: fit profiles: %w", err)
+	}
+	p.observed, p.columns, p.q = observed, append([]int(nil), columns...), q
+	m := n * q
+	nLinear := 0
+	if opt.Amplitudes {
+		nLinear = q
+	}
+	if m < p.nParams()+nLinear {
+		return nil, fmt.Errorf("kinetics: fit profiles: %d data points for %d parameters", m, p.nParams()+nLinear)
+	}
+	lm, err := p.solve(m)
+	if err != nil {
+		return nil, fmt.Errorf("kinetics: fit profiles: %w", err)
+	}
+	sim, model, err := p.model(lm.X)
+	if err != nil {
+		return nil, fmt.Errorf("kinetics: fit profiles: final model: %w", err)
+	}
+	res := p.result(lm, sim, model, m, nLinear)
+	fitted := mat.NewDense(n, q, nil)
+	if opt.Amplitudes {
+		res.Amplitudes = p.amplitudes(model)
+	}
+	for i := 0; i < n; i++ {
+		for j, col := range columns {
+			f := model.At(i, col)
+			if res.Amplitudes != nil {
+				f *= res.Amplitudes[j]
+			}
+			fitted.Set(i, j, f)
+		}
+	}
+	res.Fitted = fitted
+	var resid mat.Dense
+	resid.Sub(observed, fitted)
+	res.Residual = &resid
+	if opt.Amplitudes && opt.FitC0 && len(p.c0Free) > 0 {
+		res.Warnings = append(res.Warnings, "amplitudes and initial concentrations are confounded (a·c scales with c0): the fitted c0 is not determined by scale-free profiles")
+	}
+	return res, nil
+}
+
+// result assembles everything but the fitted columns.
+func (p *fitProblem) result(lm *LMResult, sim *Simulation, model *mat.Dense, m, nLinear int) *FitResult {
+	k, c0, _ := p.unpack(lm.X)
+	nr, ns := len(p.s.Steps), len(p.s.Species)
+	res := &FitResult{
+		Scheme: p.s, K: k, KStdErr: make([]float64, nr), C0: c0, C0StdErr: make([]float64, ns),
+		Model: mat.DenseCopyOf(model), SSR: lm.SSR, Iterations: lm.Iterations, Converged: lm.Converged,
+		Stiff: sim.Stiff, Corr: mat.NewDense(nr, nr, nil),
+	}
+	res.RMS = math.Sqrt(lm.SSR / float64(m))
+	np := p.nParams()
+	res.DegreesOfFreedom = m - np - nLinear
+	if !lm.Converged {
+		res.Warnings = append(res.Warnings, "Levenberg–Marquardt did not converge: "+lm.Reason)
+	}
+	if sim.Stiff {
+		res.Warnings = append(res.Warnings, fmt.Sprintf("the rate equations are stiff (method %s, stiffness ratio %.3g)", sim.Method, sim.StiffnessRatio))
+	}
+	for j := 0; j < nr; j++ {
+		res.Corr.Set(j, j, 1)
+	}
+	if res.DegreesOfFreedom <= 0 {
+		res.Warnings = append(res.Warnings, "no degrees of freedom left: standard errors are not available (reported as 0)")
+	} else if np > 0 {
+		sigma2 := lm.SSR / float64(res.DegreesOfFreedom)
+		res.Sigma = math.Sqrt(sigma2)
+		cov, rank, err := Covariance(lm.Jacobian, sigma2)
+		if err != nil {
+			res.Warnings = append(res.Warnings, "covariance: "+err.Error())
+		} else {
+			if rank < np {
+				res.Warnings = append(res.Warnings, fmt.Sprintf("the Jacobian has rank %d for %d parameters: some parameter combinations are not determined by the data; their standard errors use a pseudo-inverse and are not meaningful", rank, np))
+			}
+			for a, j := range p.kFree {
+				res.KStdErr[j] = k[j] * math.Sqrt(math.Max(cov.At(a, a), 0))
+				for b, l := range p.kFree {
+					den := math.Sqrt(cov.At(a, a) * cov.At(b, b))
+					if a != b && den > 0 {
+						res.Corr.Set(j, l, cov.At(a, b)/den)
+					}
+				}
+			}
+			for b, i := range p.c0Free {
+				a := len(p.kFree) + b
+				res.C0StdErr[i] = c0[i] * math.Sqrt(math.Max(cov.At(a, a), 0))
+			}
+		}
+	}
+	for a, j := range p.kFree {
+		if math.Abs(lm.X[a]-math.Log(p.k0[j])) > 25 {
+			res.Warnings = append(res.Warnings, fmt.Sprintf("rate constant of step %q moved e^25-fold from its start: it is probably not determined by the data", p.s.Steps[j].Text))
+		}
+	}
+	res.HalfLife, res.HalfLifeNote = halfLives(p.s, k, c0, sim.C)
+	return res
+}
+
+// halfLives gives t½ per step: ln 2/k for first order; for second order with the IUPAC rate
+// of reaction r = k Π c^ν, 1/(2k[A]0) for 2A → … and 1/(k[A]0) for A + B → … (which assumes
+// [A]0 = [B]0). [A]0 is the reactant's initial concentration, or its peak model concentration
+// for an intermediate. Other orders have no single half-life (0 with a note).
+func halfLives(s *Scheme, k, c0 []float64, c *mat.Dense) ([]float64, []string) {
+	hl := make([]float64, len(s.Steps))
+	note := make([]string, len(s.Steps))
+	for j, st := range s.Steps {
+		if k[j] <= 0 {
+			note[j] = "k = 0: no decay"
+			continue
+		}
+		a := st.Reactants[0].Species
+		conc, src := c0[a], "initial"
+		if conc <= 0 && c != nil {
+			n, _ := c.Dims()
+			for i := 0; i < n; i++ {
+				conc = math.Max(conc, c.At(i, a))
+			}
+			src = "peak"
+		}
+		switch {
+		case len(st.Reactants) == 1 && st.Reactants[0].Coef == 1:
+			hl[j] = math.Ln2 / k[j]
+			note[j] = "first order: ln 2 / k"
+		case conc <= 0:
+			note[j] = "second order: reactant never present"
+		case len(st.Reactants) == 1 && st.Reactants[0].Coef == 2:
+			hl[j] = 1 / (2 * k[j] * conc)
+			note[j] = fmt.Sprintf("second order 2%s: 1 / (2 k [%s]0), %s [%s]", s.Species[a], s.Species[a], src, s.Species[a])
+		case len(st.Reactants) == 2 && st.Reactants[0].Coef == 1 && st.Reactants[1].Coef == 1:
+			hl[j] = 1 / (k[j] * conc)
+			b := s.Species[st.Reactants[1].Species]
+			note[j] = fmt.Sprintf("second order %s + %s: 1 / (k [%s]0) assuming [%s]0 = [%s]0, %s [%s]", s.Species[a], b, s.Species[a], s.Species[a], b, src, s.Species[a])
+		default:
+			note[j] = fmt.Sprintf("order %d: no single half-life", st.Order)
+		}
+	}
+	return hl, note
+}
+
+// AutoMap chooses which model column (species, or step with UseExtents) each observed column
+// is, by fitting every injective assignment (at most 5040) and keeping the lowest RMS.
+// Assignments are tried in lexicographic order and a later one replaces the best only when its
+// RMS is lower by more than a relative 1e-9, so ties go to the lexicographically first.
+func AutoMap(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions) ([]int, error) {
+	if s == nil || observed == nil {
+		return nil, errors.New("kinetics: auto map: missing scheme or data")
+	}
+	_, q := observed.Dims()
+	nModel := len(s.Species)
+	if opt.UseExtents {
+		nModel = len(s.Steps)
+	}
+	if q > nModel {
+		return nil, fmt.Errorf("kinetics: auto map: %d observed columns for %d model columns", q, nModel)
+	}
+	count := 1
+	for i := 0; i < q; i++ {
+		count *= nModel - i
+		if count > 5040 {
+			return nil, fmt.Errorf("kinetics: auto map: more than 5040 assignments; give the map explicitly")
+		}
+	}
+	var best []int
+	bestRMS := math.Inf(1)
+	var firstErr error
+	cur := make([]int, q)
+	used := make([]bool, nModel)
+	var rec func(pos int)
+	rec = func(pos int) {
+		if pos == q {
+			res, err := FitProfiles(s, times, observed, cur, opt)
+			if err != nil {
+				if firstErr == nil {
+					firstErr = err
+				}
+				return
+			}
+			if best == nil || res.RMS < bestRMS*(1-1e-9) {
+				best, bestRMS = append([]int(nil), cur...), res.RMS
+			}
+			return
+		}
+		for c := 0; c < nModel; c++ {
+			if !used[c] {
+				used[c] = true
+				cur[pos] = c
+				rec(pos + 1)
+				used[c] = false
+			}
+		}
+	}
+	rec(0)
+	if best == nil {
+		return nil, fmt.Errorf("kinetics: auto map: no assignment could be fitted: %w", firstErr)
+	}
+	return best, nil
+}
+
+// FitData fits the data matrix directly, D (n × m) ≈ C(k) Sᵀ, with the spectra S solved by
+// linear least squares inside each residual evaluation (variable projection, Golub & Pereyra
+// 1973): the residual is (I − P_C) D with P_C the orthogonal projector on the columns of C.
+// When m > n, D is first replaced by U Σ from its thin SVD D = U Σ Vᵀ; since V has orthonormal
+// columns ‖(I − P_C) D‖ = ‖(I − P_C) U Σ‖ for every C, so the fit is unchanged and costs n×n
+// instead of n×m per evaluation. The spectra (m × q, q = species or steps) are returned.
+func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResult, *mat.Dense, error) {
+	if d == nil {
+		return nil, nil, errors.New("kinetics: fit data: no data")
+	}
+	n, m := d.Dims()
+	p, err := newFitProblem(s, times, opt, n)
+	if err != nil {
+		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+	}
+	if err := checkFinite(d, "data"); err != nil {
+		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+	}
+	if opt.Amplitudes {
+		return nil, nil, errors.New("kinetics: fit data: Amplitudes does not apply (the spectra carry the scale)")
+	}
+	p.dred = d
+	if m > n {
+		var svd mat.SVD
+		if !svd.Factorize(d, mat.SVDThin) {
+			return nil, nil, errors.New("kinetics: fit data: SVD of the data failed")
+		}
+		var u mat.Dense
+		svd.UTo(&u)
+		sv := svd.Values(nil)
+		red := mat.NewDense(n, len(sv), nil)
+		for i := 0; i < n; i++ {
+			for j := range sv {
+				red.Set(i, j, u.At(i, j)*sv[j])
+			}
+		}
+		p.dred = red
+	}
+	_, w := p.dred.Dims()
+	mres := n * w
+	q := p.nModel
+	if n*m < p.nParams()+q*m {
+		return nil, nil, fmt.Errorf("kinetics: fit data: %d data points for %d parameters", n*m, p.nParams()+q*m)
+	}
+	lm, err := p.solve(mres)
+	if err != nil {
+		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+	}
+	sim, model, err := p.model(lm.X)
+	if err != nil {
+		return nil, nil, fmt.Errorf("kinetics: fit data: final model: %w", err)
+	}
+	_, rank, err := projector(model)
+	if err != nil {
+		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+	}
+	res := p.result(lm, sim, model, n*m, rank*m)
+	res.RMS = math.Sqrt(lm.SSR / float64(n*m))
+	if rank < q {
+		res.Warnings = append(res.Warnings, fmt.Sprintf("the model columns have rank %d < %d: the spectra are a minimum-norm solution and not unique", rank, q))
+	}
+	// Spectra Sᵀ = C⁺ D by the SVD pseudo-inverse (minimum norm when C is rank deficient).
+	spectra, err := pseudoSolve(model, d)
+	if err != nil {
+		return nil, nil, fmt.Errorf("kinetics: fit data: spectra: %w", err)
+	}
+	var fitted, resid mat.Dense
+	fitted.Mul(model, spectra.T())
+	resid.Sub(d, &fitted)
+	res.Fitted, res.Residual = &fitted, &resid
+	return res, spectra, nil
+}
+
+// pseudoSolve returns S (m × q) with Sᵀ = C⁺ D.
+func pseudoSolve(c, d *mat.Dense) (*mat.Dense, error) {
+	_, q := c.Dims()
+	_, m := d.Dims()
+	var svd mat.SVD
+	if !svd.Factorize(c, mat.SVDThin) {
+		return nil, errors.New("SVD failed")
+	}
+	sv := svd.Values(nil)
+	var u, v mat.Dense
+	svd.UTo(&u)
+	svd.VTo(&v)
+	var utd mat.Dense
+	utd.Mul(u.T(), d) // len(sv) × m
+	st := mat.NewDense(q, m, nil)
+	for k := range sv {
+		if sv[k] <= 1e-10*sv[0] {
+			continue
+		}
+		for a := 0; a < q; a++ {
+			f := v.At(a, k) / sv[k]
+			for j := 0; j < m; j++ {
+				st.Set(a, j, st.At(a, j)+f*utd.At(k, j))
+			}
+		}
+	}
+	return mat.DenseCopyOf(st.T()), nil
+}
