@@ -232,25 +232,19 @@ func gramSVD(d *mat.Dense, r int) (*Factors, error) {
 			left.Set(i, k, vec.At(i, idx[k]))
 		}
 	}
-	// right = aᵀ left / s
+	// right = aᵀ left / s. Its columns lose orthogonality like eps·s_1²/s_k², so they are
+	// re-orthonormalized by Householder QR (in order of decreasing s, leaving the accurate
+	// leading vectors as they are); columns with s at rounding level become an arbitrary
+	// orthonormal completion, which is all they can be.
 	right := mat.NewDense(q, r, nil)
 	right.Mul(a.T(), left)
-	tol := 0.0
-	if r > 0 {
-		// Below this the Gram eigenvalue is rounding noise (eps·s_1² relative).
-		tol = vals[0] * math.Sqrt(float64(q)*eps)
-	}
-	good := 0
 	for k := 0; k < r; k++ {
-		if vals[k] > tol && vals[k] > 0 {
+		if vals[k] > 0 {
 			col := right.Slice(0, q, k, k+1).(*mat.Dense)
 			col.Scale(1/vals[k], col)
-			good = k + 1
 		}
 	}
-	if good < r {
-		completeOrthonormal(right, good)
-	}
+	orthonormalizeKeepSigns(right)
 	if trans {
 		return &Factors{U: right, S: vals, V: left}, nil
 	}
@@ -258,41 +252,6 @@ func gramSVD(d *mat.Dense, r int) (*Factors, error) {
 }
 
 const eps = 0x1p-52
-
-// completeOrthonormal replaces columns good..r-1 of x (q x r) by unit vectors orthogonal
-// to the first good columns and to each other (Gram–Schmidt twice against the coordinate
-// vectors in index order, deterministic).
-func completeOrthonormal(x *mat.Dense, good int) {
-	q, r := x.Dims()
-	k := good
-	for e := 0; e < q && k < r; e++ {
-		v := make([]float64, q)
-		v[e] = 1
-		for pass := 0; pass < 2; pass++ {
-			for j := 0; j < k; j++ {
-				var dot float64
-				for i := 0; i < q; i++ {
-					dot += x.At(i, j) * v[i]
-				}
-				for i := 0; i < q; i++ {
-					v[i] -= dot * x.At(i, j)
-				}
-			}
-		}
-		var nrm float64
-		for _, t := range v {
-			nrm += t * t
-		}
-		nrm = math.Sqrt(nrm)
-		if nrm < 0.5 {
-			continue
-		}
-		for i := 0; i < q; i++ {
-			x.Set(i, k, v[i]/nrm)
-		}
-		k++
-	}
-}
 
 // randomizedSVD is Algorithm 4.4 (randomized subspace iteration) followed by Algorithm 5.1
 // of Halko, Martinsson & Tropp (2011). Each power step re-orthonormalizes by Householder QR
@@ -332,6 +291,25 @@ func randomizedSVD(d *mat.Dense, r int, seed uint64) (*Factors, error) {
 	var u mat.Dense
 	u.Mul(y, &ub)
 	return truncate(&u, vals, &v, r), nil
+}
+
+// orthonormalizeKeepSigns is orthonormalize with each Q column's sign chosen so that it
+// points the same way as the column it replaced (R_kk ≥ 0).
+func orthonormalizeKeepSigns(x *mat.Dense) {
+	rows, cols := x.Dims()
+	orig := mat.DenseCopyOf(x)
+	orthonormalize(x)
+	for k := 0; k < cols; k++ {
+		var dot float64
+		for i := 0; i < rows; i++ {
+			dot += orig.At(i, k) * x.At(i, k)
+		}
+		if dot < 0 {
+			for i := 0; i < rows; i++ {
+				x.Set(i, k, -x.At(i, k))
+			}
+		}
+	}
 }
 
 // orthonormalize overwrites the tall matrix x (rows ≥ cols) with the thin Q of its QR

@@ -182,6 +182,7 @@ type EFAWindows struct {
 	LocalRank         []int    // per row: the number of components present
 	Present           [][]bool // n x rank
 	threshold         []float64
+	sigma             float64
 	fwd, bwd          *mat.Dense
 }
 
@@ -216,7 +217,7 @@ func (e *EFAResult) Windows(rank int, noiseLevel float64) *EFAWindows {
 	w := &EFAWindows{
 		Appear: make([]int, rank), Disappear: make([]int, rank),
 		LocalRank: make([]int, n), Present: make([][]bool, n),
-		threshold: thr, fwd: e.Forward, bwd: e.Backward,
+		threshold: thr, sigma: sigma, fwd: e.Forward, bwd: e.Backward,
 	}
 	for i := range w.Present {
 		w.Present[i] = make([]bool, rank)
@@ -300,20 +301,11 @@ func (w *EFAWindows) InitialProfiles(d *mat.Dense, rank int) *mat.Dense {
 				absent = append(absent, i)
 			}
 		}
+		comb := w.combined(j, rank, n)
 		ok := false
-		if r >= 2 && len(absent) >= r-1 && len(absent) > 0 && len(absent) < n {
-			sub := mat.NewDense(len(absent), r, nil)
-			for a, i := range absent {
-				sub.SetRow(a, y.RawRowView(i))
-			}
-			var sv mat.SVD
-			if sv.Factorize(sub, mat.SVDFull) {
-				var v mat.Dense
-				sv.VTo(&v)
-				t := make([]float64, r)
-				for k := range t {
-					t[k] = v.At(k, r-1)
-				}
+		if r >= 2 && len(absent) > 0 && len(absent) < n {
+			t := w.zeroDirection(y, absent, comb)
+			if t != nil {
 				var sum float64
 				for i := 0; i < n; i++ {
 					var s float64
@@ -345,10 +337,8 @@ func (w *EFAWindows) InitialProfiles(d *mat.Dense, rank int) *mat.Dense {
 			}
 			ok = true
 		}
-		if !ok && w.fwd != nil && w.Appear[j] >= 0 {
-			for i := w.Appear[j]; i <= w.Disappear[j]; i++ {
-				prof[i] = math.Pow(10, math.Min(w.fwd.At(i, j), w.bwd.At(i, rank-1-j)))
-			}
+		if !ok {
+			copy(prof, comb)
 		}
 		var mx float64
 		for i := range prof {
@@ -357,11 +347,11 @@ func (w *EFAWindows) InitialProfiles(d *mat.Dense, rank int) *mat.Dense {
 			}
 			mx = math.Max(mx, prof[i])
 		}
-		if mx <= 0 && w.fwd != nil && w.Appear[j] >= 0 {
+		if mx <= 0 {
 			// Zero constraints left nothing positive: use the combined curve.
-			for i := w.Appear[j]; i <= w.Disappear[j]; i++ {
-				prof[i] = math.Pow(10, math.Min(w.fwd.At(i, j), w.bwd.At(i, rank-1-j)))
-				mx = math.Max(mx, prof[i])
+			copy(prof, comb)
+			for _, v := range prof {
+				mx = math.Max(mx, v)
 			}
 		}
 		for i := range prof {
@@ -369,6 +359,74 @@ func (w *EFAWindows) InitialProfiles(d *mat.Dense, rank int) *mat.Dense {
 				out.Set(i, j, prof[i]/mx)
 			}
 		}
+	}
+	return out
+}
+
+// combined is Maeder's combined EFA curve of component j: inside its window the smaller of
+// its forward and its (FIFO-paired) backward singular value, zero outside.
+func (w *EFAWindows) combined(j, rank, n int) []float64 {
+	g := make([]float64, n)
+	if w.fwd == nil || w.Appear[j] < 0 {
+		return g
+	}
+	for i := w.Appear[j]; i <= w.Disappear[j]; i++ {
+		g[i] = math.Pow(10, math.Min(w.fwd.At(i, j), w.bwd.At(i, rank-1-j)))
+	}
+	return g
+}
+
+// zeroDirection returns the unit r-vector t for which the scores Y t vanish, up to noise, on
+// the absent rows. When the absent rows hold fewer than r−1 other components the null space
+// has several dimensions; then t is the member of it whose profile best fits the combined
+// EFA curve g (least squares), which picks the component that rises where g rises.
+func (w *EFAWindows) zeroDirection(y *mat.Dense, absent []int, g []float64) []float64 {
+	n, r := y.Dims()
+	sub := mat.NewDense(len(absent), r, nil)
+	for a, i := range absent {
+		sub.SetRow(a, y.RawRowView(i))
+	}
+	var sv mat.SVD
+	if !sv.Factorize(sub, mat.SVDFull) {
+		return nil
+	}
+	vals := sv.Values(nil)
+	var v mat.Dense
+	sv.VTo(&v)
+	// Singular values of the absent block below twice the noise edge of a block of that
+	// size in r dimensions count as null.
+	thr := 2 * w.sigma * (math.Sqrt(float64(len(absent))) + math.Sqrt(float64(r)))
+	first := r - 1 // first null direction (at least the smallest one)
+	for k := 0; k < r-1; k++ {
+		if k >= len(vals) || vals[k] <= thr {
+			first = k
+			break
+		}
+	}
+	if first == r-1 {
+		t := make([]float64, r)
+		for k := range t {
+			t[k] = v.At(k, r-1)
+		}
+		return t
+	}
+	// Fit g with Y N z, N the null directions.
+	nb := mat.DenseCopyOf(v.Slice(0, r, first, r))
+	var yn mat.Dense
+	yn.Mul(y, nb)
+	var z mat.VecDense
+	if err := z.SolveVec(&yn, mat.NewVecDense(n, g)); err != nil {
+		return nil
+	}
+	var t mat.VecDense
+	t.MulVec(nb, &z)
+	nrm := mat.Norm(&t, 2)
+	if !(nrm > 0) || math.IsInf(nrm, 0) {
+		return nil
+	}
+	out := make([]float64, r)
+	for k := range out {
+		out[k] = t.AtVec(k) / nrm
 	}
 	return out
 }
