@@ -73,6 +73,46 @@ func TestLMMisra1a(t *testing.T) {
 	}
 }
 
+func TestLMMisra1aAgainstSciPy(t *testing.T) {
+	// Reference: scipy.optimize.least_squares(method="lm") (MINPACK) from NIST start 1,
+	// testdata/kinetics/make_reference.py.
+	ref := loadReference(t)
+	res, err := LevenbergMarquardt(misra1aResidual, nil, []float64{500, 1e-4}, len(misra1aX), LMSettings{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	cov, _, err := Covariance(res.Jacobian, res.SSR/12)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := range res.X {
+		if relErr(res.X[i], ref.Misra1a.B[i]) > 1e-7 {
+			t.Errorf("b%d = %.12g, SciPy %.12g", i+1, res.X[i], ref.Misra1a.B[i])
+		}
+		if se := math.Sqrt(cov.At(i, i)); relErr(se, ref.Misra1a.Stderr[i]) > 1e-5 {
+			t.Errorf("se b%d = %.10g, SciPy %.10g", i+1, se, ref.Misra1a.Stderr[i])
+		}
+	}
+	if relErr(res.SSR, ref.Misra1a.SSR) > 1e-9 {
+		t.Errorf("SSR = %.12g, SciPy %.12g", res.SSR, ref.Misra1a.SSR)
+	}
+}
+
+func TestLMErrors(t *testing.T) {
+	// Fewer residuals than parameters, non-finite start, failing residual at the start.
+	ok := func(x, r []float64) error { r[0] = x[0]; return nil }
+	if _, err := LevenbergMarquardt(ok, nil, []float64{1, 2}, 1, LMSettings{}); err == nil {
+		t.Error("m < n: no error")
+	}
+	if _, err := LevenbergMarquardt(ok, nil, []float64{math.NaN()}, 1, LMSettings{}); err == nil {
+		t.Error("NaN start: no error")
+	}
+	bad := func(x, r []float64) error { r[0] = math.Inf(1); return nil }
+	if _, err := LevenbergMarquardt(bad, nil, []float64{1}, 1, LMSettings{}); err == nil {
+		t.Error("infinite residual: no error")
+	}
+}
+
 func TestLMRosenbrock(t *testing.T) {
 	// Moré, Garbow & Hillstrom (1981) test problem 1: r = (10(x2 − x1²), 1 − x1), start (−1.2, 1),
 	// minimum 0 at (1, 1) by definition.

@@ -25,8 +25,9 @@ type Simulation struct {
 	// Method names the solver: "expm" (exact, first order), "dopri5", "rosenbrock23" or
 	// "dopri5+rosenbrock23" when stiffness made the integrator switch.
 	Method string
-	// StiffnessRatio is max|Re λ| / min|Re λ| over the non-zero eigenvalues of the species
-	// Jacobian ∂(N r)/∂c at c0 (Lambert 1973), 1 when fewer than two are non-zero.
+	// StiffnessRatio is the largest, over c0 and the computed states, of max|Re λ| / min|Re λ|
+	// over the non-zero eigenvalues of the species Jacobian ∂(N r)/∂c (Lambert 1973); 1 when
+	// fewer than two are non-zero.
 	StiffnessRatio float64
 	// Steps and Rejected count integrator steps (zero for "expm").
 	Steps, Rejected int
@@ -171,6 +172,15 @@ func (s *Scheme) SimulateWith(k, c0, times []float64, t0 float64, set SimSetting
 	}
 	if !finiteDense(sim.C) || !finiteDense(sim.Extents) {
 		return nil, fmt.Errorf("kinetics: simulate %q: solution is not finite (rate constants too large for the time span?)", s.Text)
+	}
+	if !s.FirstOrder() {
+		// The Jacobian of a mass-action network changes along the path (Robertson's problem is
+		// not stiff at c0 at all), so the ratio is taken over every output state too.
+		for _, i := range order {
+			if r, _ := sys.stiffnessRatio(sim.C.RawRowView(i)); r > sim.StiffnessRatio {
+				sim.StiffnessRatio = r
+			}
+		}
 	}
 	return sim, nil
 }

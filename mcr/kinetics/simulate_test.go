@@ -261,6 +261,11 @@ func TestSimulateAgainstSciPy(t *testing.T) {
 			t.Fatal(err)
 		}
 		stiff := rc.Name == "robertson-radau"
+		// Robertson's problem is the textbook stiff system (Hairer & Wanner, Solving ODEs II):
+		// the integrator must notice and the eigenvalue ratio along the path must be large.
+		if stiff && sim.StiffnessRatio < 1e3 {
+			t.Errorf("%s: stiffness ratio %g", rc.Name, sim.StiffnessRatio)
+		}
 		if sim.Stiff != stiff {
 			t.Errorf("%s: Stiff = %v (method %s, ratio %g), want %v", rc.Name, sim.Stiff, sim.Method, sim.StiffnessRatio, stiff)
 		}
@@ -284,6 +289,23 @@ func TestSimulateAgainstSciPy(t *testing.T) {
 				}
 			}
 		}
+	}
+}
+
+func TestStiffnessRatioFirstOrder(t *testing.T) {
+	// K of A → B → C is triangular with eigenvalues −k1, −k2, 0, so the ratio is k1/k2
+	// (Lambert's stiffness ratio, definition); with k1·span ≫ 1e3 the exact solution is flagged.
+	s := mustParse(t, "A -> B -> C")
+	sim, err := s.Simulate([]float64{1000, 0.01}, []float64{1, 0, 0}, []float64{1, 100}, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if math.Abs(sim.StiffnessRatio/1e5-1) > 1e-9 || !sim.Stiff || sim.Method != "expm" {
+		t.Errorf("ratio %v stiff %v method %s, want 1e5, true, expm", sim.StiffnessRatio, sim.Stiff, sim.Method)
+	}
+	sim, _ = s.Simulate([]float64{0.5, 0.1}, []float64{1, 0, 0}, []float64{1, 100}, 0)
+	if sim.Stiff {
+		t.Errorf("ratio %v reported stiff", sim.StiffnessRatio)
 	}
 }
 
