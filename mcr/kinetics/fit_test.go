@@ -367,3 +367,62 @@ func BenchmarkFitProfiles(b *testing.B) {
 		}
 	}
 }
+
+func TestFitInitialConcentrations(t *testing.T) {
+	// FitC0 recovers unknown starting concentrations of a bimolecular step (simulated truth).
+	s := mustParse(t, "A + B -> C")
+	k := []float64{0.9}
+	c0 := []float64{1, 0.6, 0}
+	times := linspace(0, 20, 50)
+	sim, _ := s.Simulate(k, c0, times, 0)
+	obs := noisy(t, sim.C, []int{0, 1, 2}, nil, 0.004, 8)
+	r, err := FitProfiles(s, times, obs, []int{0, 1, 2}, FitOptions{C0: []float64{1.2, 0.5, 0}, FitC0: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	allFinite(t, r)
+	within3SE(t, "c0 fit", r, k)
+	for i := 0; i < 2; i++ {
+		if z := math.Abs(r.C0[i]-c0[i]) / r.C0StdErr[i]; !(z <= 3) {
+			t.Errorf("c0[%d] = %v ± %v, true %v", i, r.C0[i], r.C0StdErr[i], c0[i])
+		}
+	}
+	if r.C0[2] != 0 || r.C0StdErr[2] != 0 {
+		t.Errorf("zero initial concentration changed: %v", r.C0)
+	}
+}
+
+func TestFitUnidentifiableStep(t *testing.T) {
+	// Only A observed in A → B → C: k2 has no effect on the data (its Jacobian column is
+	// zero), so the fit must warn instead of returning NaN or failing.
+	s := mustParse(t, "A -> B -> C")
+	times := linspace(0, 20, 30)
+	sim, _ := s.Simulate([]float64{0.3, 0.1}, []float64{1, 0, 0}, times, 0)
+	obs := noisy(t, sim.C, []int{0}, nil, 0.01, 2)
+	r, err := FitProfiles(s, times, obs, []int{0}, FitOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	allFinite(t, r)
+	if len(r.Warnings) == 0 {
+		t.Error("no warning for an undetermined rate constant")
+	}
+	within3SE(t, "identifiable k1", &FitResult{K: r.K[:1], KStdErr: r.KStdErr[:1]}, []float64{0.3})
+}
+
+func TestAutoMapTieBreaking(t *testing.T) {
+	// Parallel A → B, A → C: with free amplitudes B and C have the same shape
+	// 1 − e^{−(k1+k2)t}, so assignments (B, C) and (C, B) fit equally well; the documented rule
+	// keeps the lexicographically first.
+	s := mustParse(t, "A -> B; A -> C")
+	times := linspace(0, 20, 40)
+	sim, _ := s.Simulate([]float64{0.3, 0.1}, []float64{1, 0, 0}, times, 0)
+	obs := noisy(t, sim.C, []int{1, 2}, nil, 0.003, 6)
+	cols, err := AutoMap(s, times, obs, FitOptions{Amplitudes: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if cols[0] != 1 || cols[1] != 2 {
+		t.Errorf("AutoMap = %v, want [1 2]", cols)
+	}
+}
