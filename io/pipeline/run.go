@@ -1,0 +1,623 @@
+package pipeline
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"path/filepath"
+	"sort"
+	"strconv"
+	"strings"
+
+	"github.com/bandsolve/bandsolve/io/spectra"
+	"github.com/bandsolve/bandsolve/mcr"
+	"github.com/bandsolve/bandsolve/svd"
+	"gonum.org/v1/gonum/mat"
+)
+
+// UsageError is a problem with the settings themselves (exit code 2).
+type UsageError struct{ Msg string }
+
+func (e *UsageError) Error() string { return e.Msg }
+
+func usage(format string, a ...any) error { return &UsageError{Msg: fmt.Sprintf(format, a...)} }
+
+// Experiment is one --data input after assembly.
+type Experiment struct {
+	Source    string
+	Series    *spectra.Series
+	Assembled *spectra.Assembled
+	FirstRow  int // first row in the stacked matrix
+	Rows      int
+	RefRows   []int // reference rows, within this experiment
+	T0        float64
+}
+
+// Result holds everything an analysis computed.
+type Result struct {
+	Settings    *Settings
+	Experiments []*Experiment
+	AxisName    string
+	Axis        []float64
+	Times       []float64 // per stacked row
+	ExpOfRow    []int
+	Mode        mcr.Mode
+	ModeReason  string
+	D           *mat.Dense // the matrix resolved
+	Factors     *svd.Factors
+	Rank        *svd.RankReport
+	// DiffRank is the rank of the difference matrix when the absolute one
+	// was resolved (species mode), nil otherwise.
+	DiffRank   *svd.RankReport
+	Components int
+	Names      []string
+	ALS        *mcr.Result
+	Residual   *mat.Dense
+	LackOfFit  float64 // on the full data
+	Explained  float64
+	NoiseLOF   float64 // lack of fit % that noise alone would give
+	Compressed bool
+	Init       string
+	Warnings   []string
+	Notes      []string
+	Advice     []string
+}
+
+// Run carries out the analysis described by s. Progress lines go to log
+// (nil for none).
+func Run(s *Settings, log io.Writer) (*Result, error) {
+	if log == nil {
+		log = io.Discard
+	}
+	if len(s.Data) == 0 {
+		return nil, usage("no input: give --data PATH (a matrix CSV, a folder of spectra or a JCAMP-DX file)")
+	}
+	if s.Times != "" && s.TimesFromName {
+		return nil, usage("--times and --times-from-name both give the times: use one")
+	}
+	r := &Result{Settings: s}
+	kind := spectra.Kind(s.Kind)
+	folder := spectra.FolderOptions{TimesFile: s.Path(s.Times), TimesFromName: s.TimesFromName, TimeUnit: s.TimeUnit, Resample: s.Resample}
+	if s.Times != "" {
+		folder.Exclude = append(folder.Exclude, s.Path(s.Times))
+	}
+	if s.Blank != "" {
+		folder.Exclude = append(folder.Exclude, s.Path(s.Blank))
+	}
+	refMean, refFile, err := spectra.ParseReference(s.Reference)
+	if err != nil {
+		return nil, usage("--reference: %v", err)
+	}
+	if refFile != "" {
+		folder.Exclude = append(folder.Exclude, s.Path(refFile))
+	}
+	var series []*spectra.Series
+	for _, p := range s.Data {
+		if p == "" {
+			return nil, usage("--data is empty: give a matrix CSV, a folder of spectra or a JCAMP-DX file")
+		}
+		fmt.Fprintf(log, "reading %s\n", p)
+		ser, err := spectra.Load(s.Path(p), folder)
+		if err != nil {
+			return nil, err
+		}
+		series = append(series, ser)
+	}
+	if kind == "" {
+		kind = spectra.SingleBeam
+		if series[0].Kind != "" {
+			kind = spectra.Kind(series[0].Kind)
+		}
+	}
+	first := series[0]
+	for _, ser := range series[1:] {
+		if len(ser.Axis) != len(first.Axis) || !sameAxis(ser.Axis, first.Axis) {
+			if !s.Resample {
+				return nil, fmt.Errorf("%s: its axis differs from %s's; use --resample or export both on one axis", ser.Source, first.Source)
+			}
+		}
+	}
+	// Channels: regions and exclusions on the first experiment's axis.
+	var keep, excl []spectra.Range
+	for _, v := range s.Regions {
+		x, _ := ParseRange(v)
+		keep = append(keep, spectra.Range{Lo: x[0], Hi: x[1]})
+	}
+	for _, v := range s.Excludes {
+		x, _ := ParseRange(v)
+		excl = append(excl, spectra.Range{Lo: x[0], Hi: x[1]})
+	}
+	axis := first.Axis
+	if s.Resample && len(series) > 1 {
+		var others [][]float64
+		for _, ser := range series[1:] {
+			others = append(others, ser.Axis)
+		}
+		idx := spectra.CommonRange(axis, others...)
+		if len(idx) < 2 {
+			return nil, fmt.Errorf("%s: the experiments' axes have no common range", first.Source)
+		}
+		axis = spectra.KeepValues(axis, idx)
+	}
+	chans, err := spectra.SelectChannels(axis, keep, excl)
+	if err != nil {
+		return nil, usage("--region/--exclude: %v", err)
+	}
+	axis = spectra.KeepValues(axis, chans)
+	var blank []float64
+	if s.Blank != "" {
+		if kind != spectra.SingleBeam {
+			return nil, usage("--blank is a single beam and goes with --kind single-beam (the data is %s)", kind)
+		}
+		bs, err := spectra.ReadSpectrum(s.Path(s.Blank))
+		if err != nil {
+			return nil, err
+		}
+		if blank, err = axisValues(bs, first, axis, chans, s.Resample); err != nil {
+			return nil, err
+		}
+	}
+	var refSpec *spectra.Spectrum
+	if refFile != "" {
+		rs, err := spectra.ReadSpectrum(s.Path(refFile))
+		if err != nil {
+			return nil, err
+		}
+		v, err := axisValues(rs, first, axis, chans, s.Resample)
+		if err != nil {
+			return nil, err
+		}
+		refSpec = &spectra.Spectrum{Axis: axis, Values: v, Source: refFile}
+	}
+	if s.Pre > 0 && refMean > 1 && refMean > s.Pre {
+		return nil, usage("--reference mean:%d averages more spectra than the %d before the reaction (--pre %d)", refMean, s.Pre, s.Pre)
+	}
+	// Assemble each experiment on the common channels and stack the rows.
+	var absRows, diffRows []*mat.Dense
+	row := 0
+	for ei, ser := range series {
+		var sub *spectra.Series
+		if sameAxis(ser.Axis, first.Axis) && !(s.Resample && len(series) > 1) {
+			sub = ser.Keep(chans)
+		} else {
+			sub, err = resampleSeries(ser, axis)
+			if err != nil {
+				return nil, err
+			}
+		}
+		n, _ := sub.Values.Dims()
+		if n < 2 && kind != spectra.Difference && refSpec == nil {
+			return nil, fmt.Errorf("%s: holds one spectrum only; difference data needs at least two (a reference and a later one)", ser.Source)
+		}
+		if s.Pre >= n {
+			return nil, usage("--pre %d: %s has only %d spectra", s.Pre, ser.Source, n)
+		}
+		as, err := spectra.Assemble(sub, spectra.AssembleOptions{Kind: kind, Blank: blank,
+			Reference: spectra.Reference{Mean: refMean, File: refSpec}})
+		if err != nil {
+			return nil, fmt.Errorf("%s: %w", ser.Source, err)
+		}
+		e := &Experiment{Source: s.Data[ei], Series: sub, Assembled: as, FirstRow: row, Rows: n, RefRows: as.ReferenceRows}
+		e.T0 = sub.Times[0]
+		if len(as.ReferenceRows) > 0 {
+			e.T0 = sub.Times[as.ReferenceRows[len(as.ReferenceRows)-1]]
+		}
+		if s.Pre > 0 {
+			e.T0 = sub.Times[s.Pre-1]
+		}
+		if s.T0 != "" {
+			e.T0, _ = strconv.ParseFloat(s.T0, 64)
+		}
+		r.Experiments = append(r.Experiments, e)
+		r.Notes = append(r.Notes, as.Notes...)
+		for i := 0; i < n; i++ {
+			r.Times = append(r.Times, sub.Times[i])
+			r.ExpOfRow = append(r.ExpOfRow, len(r.Experiments)-1)
+		}
+		row += n
+		if as.Absolute != nil {
+			absRows = append(absRows, as.Absolute)
+		}
+		diffRows = append(diffRows, as.Difference)
+	}
+	r.AxisName, r.Axis = first.AxisName, axis
+	if len(absRows) == len(series) {
+		r.Mode = mcr.Species
+		if s.Blank != "" {
+			r.ModeReason = "species: a blank single beam gives absolute absorbance A = −log10(I/I_blank), so each component is one species"
+		} else {
+			r.ModeReason = "species: the input is absolute absorbance, so each component is one species"
+		}
+		r.D = stack(absRows)
+	} else {
+		r.Mode = mcr.Reactions
+		r.ModeReason = "reactions: difference spectra alone resolve independent reactions (extents and signed reaction spectra), not species; a blank single beam (--blank) or a known spectrum is what separates the species"
+		r.D = stack(diffRows)
+	}
+	n, m := r.D.Dims()
+	fmt.Fprintf(log, "data: %d spectra × %d points, %s mode\n", n, m, r.Mode)
+
+	// Factor analysis.
+	maxF := 0
+	if n*m > 2_000_000 {
+		maxF = 24
+	}
+	f, err := svd.Decompose(r.D, svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed})
+	if err != nil {
+		return nil, fmt.Errorf("factor analysis: %w", err)
+	}
+	r.Factors = f
+	refRow := -1
+	if r.Mode == mcr.Reactions && len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
+		refRow = r.Experiments[0].RefRows[0]
+	}
+	rank, err := svd.EstimateRank(r.D, f, svd.RankOptions{PreRows: preRowsFor(s, r), Alpha: s.Alpha, ReferenceRow: refRow})
+	if err != nil {
+		return nil, fmt.Errorf("rank: %w", err)
+	}
+	r.Rank = rank
+	if r.Mode == mcr.Species {
+		dd := stack(diffRows)
+		fd, err := svd.Decompose(dd, svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed})
+		if err == nil {
+			ref := -1
+			if len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
+				ref = r.Experiments[0].RefRows[0]
+			}
+			r.DiffRank, _ = svd.EstimateRank(dd, fd, svd.RankOptions{PreRows: preRowsFor(s, r), Alpha: s.Alpha, ReferenceRow: ref})
+		}
+		if r.DiffRank != nil {
+			switch {
+			case r.DiffRank.Estimate == 0:
+				r.Advice = append(r.Advice, "the difference spectra show no change beyond noise: nothing reacted")
+			case r.DiffRank.Estimate < rank.Estimate:
+				r.Advice = append(r.Advice, fmt.Sprintf("absolute absorbance has rank %d and the differences rank %d: %d species take part in %d independent reaction(s)", rank.Estimate, r.DiffRank.Estimate, rank.Estimate, r.DiffRank.Estimate))
+			}
+		}
+	} else if rank.Estimate > 0 {
+		r.Advice = append(r.Advice, fmt.Sprintf("difference data has rank %d = the number of independent reactions; to resolve species give a blank single beam (--blank) or absorbance input", rank.Estimate))
+	}
+	r.Warnings = append(r.Warnings, rank.Warnings...)
+
+	k := rank.Estimate
+	if s.Components != "auto" {
+		k, _ = strconv.Atoi(s.Components)
+		if k > min(n, m) {
+			return nil, usage("--components %d: the data has only %d spectra × %d points; ask for at most %d", k, n, m, min(n, m))
+		}
+		if k != rank.Estimate {
+			r.Notes = append(r.Notes, fmt.Sprintf("%d components as asked; the rank estimate is %d", k, rank.Estimate))
+		}
+	}
+	r.Components = k
+	if k == 0 {
+		r.Notes = append(r.Notes, "no change: every spectrum equals the reference within noise, a flat line at zero absorbance; nothing to resolve")
+		r.LackOfFit, r.Explained = 0, 100
+		return r, nil
+	}
+	if err := resolve(r, log); err != nil {
+		return nil, err
+	}
+	return r, nil
+}
+
+func preRowsFor(s *Settings, r *Result) int {
+	if len(r.Experiments) == 1 {
+		return s.Pre
+	}
+	return 0
+}
+
+func sameAxis(a, b []float64) bool {
+	if len(a) != len(b) {
+		return false
+	}
+	for i := range a {
+		if math.Abs(a[i]-b[i]) > 1e-6*math.Max(1, math.Abs(a[i])) {
+			return false
+		}
+	}
+	return true
+}
+
+// axisValues puts a single spectrum onto the selected channels.
+func axisValues(sp *spectra.Spectrum, first *spectra.Series, axis []float64, chans []int, resample bool) ([]float64, error) {
+	if sameAxis(sp.Axis, first.Axis) {
+		return spectra.KeepValues(sp.Values, chans), nil
+	}
+	return spectra.OnAxis(sp, axis, first.Source, resample)
+}
+
+func resampleSeries(ser *spectra.Series, axis []float64) (*spectra.Series, error) {
+	n, _ := ser.Values.Dims()
+	v := mat.NewDense(n, len(axis), nil)
+	for i := 0; i < n; i++ {
+		row, err := spectra.Resample(ser.Axis, ser.Values.RawRowView(i), axis)
+		if err != nil {
+			return nil, fmt.Errorf("%s: %w", ser.Names[i], err)
+		}
+		v.SetRow(i, row)
+	}
+	out := *ser
+	out.Axis, out.Values = axis, v
+	return &out, nil
+}
+
+func stack(parts []*mat.Dense) *mat.Dense {
+	if len(parts) == 1 {
+		return parts[0]
+	}
+	n := 0
+	_, m := parts[0].Dims()
+	for _, p := range parts {
+		r, _ := p.Dims()
+		n += r
+	}
+	out := mat.NewDense(n, m, nil)
+	row := 0
+	for _, p := range parts {
+		r, _ := p.Dims()
+		for i := 0; i < r; i++ {
+			out.SetRow(row+i, p.RawRowView(i))
+		}
+		row += r
+	}
+	return out
+}
+
+// resolve runs ALS and stores spectra, profiles and fit.
+func resolve(r *Result, log io.Writer) error {
+	s := r.Settings
+	n, m := r.D.Dims()
+	k := r.Components
+	c0, how, err := initialProfiles(r, k)
+	if err != nil {
+		return err
+	}
+	r.Init = how
+	opt := mcr.Options{Mode: r.Mode, MaxIter: s.MaxIter, Tolerance: s.Tolerance}
+	if r.Mode == mcr.Species && s.Closure != "off" {
+		total, _ := strconv.ParseFloat(s.Closure, 64)
+		opt.Closure, opt.Total = true, []float64{total}
+	}
+	if r.Mode == mcr.Reactions {
+		// Extents are zero at the reference and before the reaction starts.
+		zero := make([]bool, n)
+		for _, e := range r.Experiments {
+			for _, i := range e.RefRows {
+				zero[e.FirstRow+i] = true
+			}
+			for i := 0; i < s.Pre && i < e.Rows; i++ {
+				zero[e.FirstRow+i] = true
+			}
+		}
+		opt.ZeroProfiles = make([][]bool, k)
+		for j := range opt.ZeroProfiles {
+			opt.ZeroProfiles[j] = zero
+		}
+	}
+	if s.EFAWindows == "on" {
+		if err := addEFAWindows(r, &opt); err != nil {
+			return err
+		}
+	}
+	var data mcr.Data = mcr.Dense{D: r.D}
+	if n*m > 2_000_000 && len(r.Factors.S) >= k {
+		rr := min(len(r.Factors.S), k+8)
+		data = mcr.Compressed{U: sliceCols(r.Factors.U, rr), Sigma: r.Factors.S[:rr], V: sliceCols(r.Factors.V, rr), FrobSq: r.Factors.FrobeniusSq}
+		r.Compressed = true
+	}
+	fmt.Fprintf(log, "resolving %d component(s)\n", k)
+	res, err := mcr.Resolve(data, c0, opt)
+	if err != nil {
+		return err
+	}
+	if r.Mode == mcr.Reactions {
+		scaleExtents(res.C, res.S)
+	}
+	orderComponents(r, res)
+	r.ALS = res
+	r.Residual, r.LackOfFit = mcr.Residuals(r.D, res.C, res.S)
+	tot := frob2(r.D)
+	r.Explained = 100 * (1 - sq(r.LackOfFit/100))
+	if tot > 0 && r.Rank.Sigma > 0 {
+		dof := float64(n*m - k*(n+m-k))
+		if dof > 0 {
+			r.NoiseLOF = 100 * math.Sqrt(r.Rank.Sigma*r.Rank.Sigma*dof/tot)
+		}
+	}
+	r.Warnings = append(r.Warnings, res.Warnings...)
+	prefix := "species"
+	if r.Mode == mcr.Reactions {
+		prefix = "reaction"
+	}
+	for j := 0; j < k; j++ {
+		r.Names = append(r.Names, fmt.Sprintf("%s_%d", prefix, j+1))
+	}
+	if r.NoiseLOF > 0 && r.LackOfFit > 3*r.NoiseLOF && r.LackOfFit > 0.5 {
+		r.Warnings = append(r.Warnings, fmt.Sprintf("lack of fit %.3g %% is well above the %.3g %% noise alone would give: a component may be missing, or a constraint (closure?) does not hold for this data", r.LackOfFit, r.NoiseLOF))
+	}
+	return nil
+}
+
+func sq(x float64) float64 { return x * x }
+
+func frob2(a *mat.Dense) float64 {
+	s := 0.0
+	r, c := a.Dims()
+	for i := 0; i < r; i++ {
+		for _, v := range a.RawRowView(i)[:c] {
+			s += v * v
+		}
+	}
+	return s
+}
+
+func sliceCols(a *mat.Dense, r int) *mat.Dense {
+	n, _ := a.Dims()
+	return mat.DenseCopyOf(a.Slice(0, n, 0, r))
+}
+
+// initialProfiles gives ALS its deterministic start.
+func initialProfiles(r *Result, k int) (*mat.Dense, string, error) {
+	s := r.Settings
+	n, _ := r.D.Dims()
+	switch s.Init {
+	case "purest", "":
+		idx, err := svd.Purest(r.D, k, 5, r.Mode == mcr.Reactions)
+		if err != nil {
+			return nil, "", fmt.Errorf("initial estimate: %w", err)
+		}
+		c := mat.NewDense(n, k, nil)
+		for j, ch := range idx {
+			col := mat.Col(nil, ch, r.D)
+			sum := 0.0
+			for _, v := range col {
+				sum += v
+			}
+			if sum < 0 {
+				for i := range col {
+					col[i] = -col[i]
+				}
+			}
+			c.SetCol(j, col)
+		}
+		var at []string
+		for _, ch := range idx {
+			at = append(at, fmt.Sprintf("%g", r.Axis[ch]))
+		}
+		return c, "purest variables at " + r.AxisName + " " + strings.Join(at, ", "), nil
+	case "efa":
+		e, err := svd.EFA(r.D, k)
+		if err != nil {
+			return nil, "", fmt.Errorf("initial estimate: %w", err)
+		}
+		w := e.Windows(k, r.Rank.Sigma)
+		return w.InitialProfiles(r.D, k), "evolving factor analysis windows", nil
+	}
+	c, err := readProfiles(s.Path(s.Init), r.Times, k)
+	if err != nil {
+		return nil, "", err
+	}
+	return c, "profiles from " + filepath.Base(s.Init), nil
+}
+
+func addEFAWindows(r *Result, opt *mcr.Options) error {
+	if len(r.Experiments) > 1 {
+		return usage("--efa-windows on works on one experiment at a time")
+	}
+	k := r.Components
+	e, err := svd.EFA(r.D, k)
+	if err != nil {
+		return fmt.Errorf("evolving factor analysis: %w", err)
+	}
+	w := e.Windows(k, r.Rank.Sigma)
+	n, _ := r.D.Dims()
+	if opt.ZeroProfiles == nil {
+		opt.ZeroProfiles = make([][]bool, k)
+	}
+	for j := 0; j < k; j++ {
+		z := make([]bool, n)
+		for i := 0; i < n; i++ {
+			if opt.ZeroProfiles[j] != nil && opt.ZeroProfiles[j][i] {
+				z[i] = true
+			}
+			if i < len(w.Present) && j < len(w.Present[i]) && !w.Present[i][j] {
+				z[i] = true
+			}
+		}
+		opt.ZeroProfiles[j] = z
+	}
+	return nil
+}
+
+// readProfiles reads an initial profiles CSV (time, one column per component).
+func readProfiles(path string, times []float64, k int) (*mat.Dense, error) {
+	ser, err := spectra.ReadMatrixCSV(path)
+	if err != nil {
+		return nil, err
+	}
+	// The profiles file is "time,c1,c2…": ReadMatrixCSV reads it transposed,
+	// with times as its axis and components as its columns.
+	if len(ser.Times) != k {
+		return nil, fmt.Errorf("%s: has %d profile columns, %d components are being resolved", path, len(ser.Times), k)
+	}
+	c := mat.NewDense(len(times), k, nil)
+	for i, t := range times {
+		found := -1
+		for a, v := range ser.Axis {
+			if math.Abs(v-t) <= 1e-6*math.Max(1, math.Abs(t)) {
+				found = a
+				break
+			}
+		}
+		if found < 0 {
+			return nil, fmt.Errorf("%s: has no row for time %g s", path, t)
+		}
+		for j := 0; j < k; j++ {
+			c.Set(i, j, ser.Values.At(j, found))
+		}
+	}
+	return c, nil
+}
+
+// scaleExtents makes each extent's largest value 1 so a reaction spectrum
+// reads as the absorbance change at the largest extent reached.
+func scaleExtents(c, s *mat.Dense) {
+	n, k := c.Dims()
+	m, _ := s.Dims()
+	for j := 0; j < k; j++ {
+		mx := 0.0
+		for i := 0; i < n; i++ {
+			mx = math.Max(mx, c.At(i, j))
+		}
+		if mx == 0 {
+			continue
+		}
+		for i := 0; i < n; i++ {
+			c.Set(i, j, c.At(i, j)/mx)
+		}
+		for i := 0; i < m; i++ {
+			s.Set(i, j, s.At(i, j)*mx)
+		}
+	}
+}
+
+// orderComponents sorts components by when they matter: species by the
+// time of their largest concentration, reactions by the time their extent
+// first reaches half its largest value. Ties keep the ALS order.
+func orderComponents(r *Result, res *mcr.Result) {
+	n, k := res.C.Dims()
+	key := make([]float64, k)
+	for j := 0; j < k; j++ {
+		col := mat.Col(nil, j, res.C)
+		mx, at := col[0], 0
+		for i, v := range col {
+			if v > mx+1e-12*math.Abs(mx) {
+				mx, at = v, i
+			}
+		}
+		if r.Mode == mcr.Reactions {
+			for i, v := range col {
+				if v >= mx/2 {
+					at = i
+					break
+				}
+			}
+		}
+		key[j] = r.Times[min(at, n-1)] + 1e9*float64(r.ExpOfRow[min(at, n-1)])
+	}
+	idx := make([]int, k)
+	for j := range idx {
+		idx[j] = j
+	}
+	sort.SliceStable(idx, func(a, b int) bool { return key[idx[a]] < key[idx[b]] })
+	c := mat.NewDense(n, k, nil)
+	m, _ := res.S.Dims()
+	sp := mat.NewDense(m, k, nil)
+	for to, from := range idx {
+		c.SetCol(to, mat.Col(nil, from, res.C))
+		sp.SetCol(to, mat.Col(nil, from, res.S))
+	}
+	res.C, res.S = c, sp
+}

@@ -1,0 +1,368 @@
+// Package pipeline runs one bandsolve analysis: read and assemble the data
+// (io/spectra), count components (svd), resolve them (mcr) and write the
+// results (io/output). Settings is the single description of an analysis,
+// shared by the command-line flags, command files and the as-run record, so
+// that every option can be expressed in each of them.
+package pipeline
+
+import (
+	"fmt"
+	"path/filepath"
+	"sort"
+	"strconv"
+	"strings"
+)
+
+// Settings are every option of an analysis, with the defaults of
+// NewSettings. Paths are as given (relative to the working directory, or to
+// the command file's folder once a command file has resolved them).
+type Settings struct {
+	// Dir is the folder relative paths are taken from ("" = working
+	// directory); a command file's folder, or the demo's output folder.
+	Dir string
+
+	Data          []string
+	Kind          string
+	Blank         string
+	Reference     string
+	Pre           int
+	Times         string
+	TimesFromName bool
+	TimeUnit      string
+	Regions       []string
+	Excludes      []string
+	Resample      bool
+	Components    string
+	Closure       string
+	Model         string
+	T0            string
+	Map           string
+	HardModel     bool
+	Bands         string
+	Replicates    int
+	Seed          uint64
+	Init          string
+	EFAWindows    string
+	Alpha         float64
+	MaxIter       int
+	Tolerance     float64
+	Report        string
+	Out           string
+	Force         bool
+	Quiet         bool
+	JSON          bool
+}
+
+// NewSettings returns the defaults.
+func NewSettings() *Settings {
+	return &Settings{
+		Kind:       "",
+		Reference:  "first",
+		TimeUnit:   "s",
+		Components: "auto",
+		Closure:    "1",
+		Bands:      "on",
+		Seed:       1,
+		Init:       "purest",
+		EFAWindows: "off",
+		Alpha:      0.05,
+		MaxIter:    1000,
+		Tolerance:  1e-8,
+		Report:     "on",
+	}
+}
+
+// Option describes one setting for flags, command files and records.
+type Option struct {
+	Name  string // flag name without dashes, also the command-file keyword
+	Usage string
+	Value string // placeholder shown in help, "" for switches
+	Multi bool   // may be given several times
+	// Record is false for options that do not change results (they are
+	// left out of the as-run record's analysis part).
+	Record bool
+	set    func(s *Settings, v string) error
+	get    func(s *Settings) []string
+}
+
+// Options lists every setting in the order they are documented and recorded.
+func Options() []Option { return options }
+
+// Lookup finds an option by name.
+func Lookup(name string) (Option, bool) {
+	for _, o := range options {
+		if o.Name == name {
+			return o, true
+		}
+	}
+	return Option{}, false
+}
+
+// Set assigns one option from its text form.
+func (s *Settings) Set(name, value string) error {
+	o, ok := Lookup(name)
+	if !ok {
+		return fmt.Errorf("unknown setting %q%s", name, suggest(name))
+	}
+	if err := o.set(s, value); err != nil {
+		return fmt.Errorf("%s: %w", name, err)
+	}
+	return nil
+}
+
+// Get returns an option's values in text form (several for Multi options).
+func (s *Settings) Get(name string) []string {
+	o, ok := Lookup(name)
+	if !ok {
+		return nil
+	}
+	return o.get(s)
+}
+
+// IsSwitch says whether an option takes no value on the command line.
+func (o Option) IsSwitch() bool { return o.Value == "" }
+
+func suggest(name string) string {
+	if best := Suggest(name); best != "" {
+		return fmt.Sprintf(" (did you mean %q?)", best)
+	}
+	return ""
+}
+
+// Suggest returns the nearest option name to a misspelt one, "" if none is close.
+func Suggest(name string) string {
+	best, bestD := "", 4
+	for _, o := range options {
+		if d := editDistance(name, o.Name); d < bestD {
+			best, bestD = o.Name, d
+		}
+	}
+	return best
+}
+
+func editDistance(a, b string) int {
+	ra, rb := []rune(a), []rune(b)
+	prev := make([]int, len(rb)+1)
+	cur := make([]int, len(rb)+1)
+	for j := range prev {
+		prev[j] = j
+	}
+	for i := 1; i <= len(ra); i++ {
+		cur[0] = i
+		for j := 1; j <= len(rb); j++ {
+			c := 1
+			if ra[i-1] == rb[j-1] {
+				c = 0
+			}
+			cur[j] = min(prev[j]+1, cur[j-1]+1, prev[j-1]+c)
+		}
+		prev, cur = cur, prev
+	}
+	return prev[len(rb)]
+}
+
+func str(f func(s *Settings) *string) (func(*Settings, string) error, func(*Settings) []string) {
+	return func(s *Settings, v string) error { *f(s) = v; return nil },
+		func(s *Settings) []string { return []string{*f(s)} }
+}
+
+func list(f func(s *Settings) *[]string) (func(*Settings, string) error, func(*Settings) []string) {
+	return func(s *Settings, v string) error { *f(s) = append(*f(s), v); return nil },
+		func(s *Settings) []string { return append([]string(nil), *f(s)...) }
+}
+
+func boolean(f func(s *Settings) *bool) (func(*Settings, string) error, func(*Settings) []string) {
+	return func(s *Settings, v string) error {
+			switch strings.ToLower(v) {
+			case "", "true", "on", "yes":
+				*f(s) = true
+			case "false", "off", "no":
+				*f(s) = false
+			default:
+				return fmt.Errorf("%q: use on or off", v)
+			}
+			return nil
+		}, func(s *Settings) []string {
+			if *f(s) {
+				return []string{"on"}
+			}
+			return []string{"off"}
+		}
+}
+
+func integer(f func(s *Settings) *int, lo int) (func(*Settings, string) error, func(*Settings) []string) {
+	return func(s *Settings, v string) error {
+		n, err := strconv.Atoi(strings.TrimSpace(v))
+		if err != nil || n < lo {
+			return fmt.Errorf("%q: want a whole number ≥ %d", v, lo)
+		}
+		*f(s) = n
+		return nil
+	}, func(s *Settings) []string { return []string{strconv.Itoa(*f(s))} }
+}
+
+func number(f func(s *Settings) *float64, ok func(float64) bool, want string) (func(*Settings, string) error, func(*Settings) []string) {
+	return func(s *Settings, v string) error {
+		x, err := strconv.ParseFloat(strings.TrimSpace(v), 64)
+		if err != nil || !ok(x) {
+			return fmt.Errorf("%q: want %s", v, want)
+		}
+		*f(s) = x
+		return nil
+	}, func(s *Settings) []string { return []string{strconv.FormatFloat(*f(s), 'g', -1, 64)} }
+}
+
+func choice(f func(s *Settings) *string, allowed ...string) (func(*Settings, string) error, func(*Settings) []string) {
+	return func(s *Settings, v string) error {
+		for _, a := range allowed {
+			if v == a {
+				*f(s) = v
+				return nil
+			}
+		}
+		return fmt.Errorf("%q: use %s", v, strings.Join(allowed, " or "))
+	}, func(s *Settings) []string { return []string{*f(s)} }
+}
+
+func opt(name, value, usage string, multi, record bool, set func(*Settings, string) error, get func(*Settings) []string) Option {
+	return Option{Name: name, Value: value, Usage: usage, Multi: multi, Record: record, set: set, get: get}
+}
+
+var options = func() []Option {
+	o := []Option{}
+	add := func(x Option) { o = append(o, x) }
+	s1, g1 := list(func(s *Settings) *[]string { return &s.Data })
+	add(opt("data", "PATH", "matrix CSV, folder of spectrum files or JCAMP-DX file; repeat for several experiments", true, true, s1, g1))
+	s2, g2 := str(func(s *Settings) *string { return &s.Kind })
+	add(opt("kind", "KIND", "single-beam, absorbance or difference (default: from JCAMP-DX units, else single-beam)", false, true, func(s *Settings, v string) error {
+		if v != "" && v != "single-beam" && v != "absorbance" && v != "difference" {
+			return fmt.Errorf("%q: use single-beam, absorbance or difference", v)
+		}
+		return s2(s, v)
+	}, g2))
+	s3, g3 := str(func(s *Settings) *string { return &s.Blank })
+	add(opt("blank", "FILE", "single beam of the cell with solvent and no analyte: gives absolute absorbance (species mode)", false, true, s3, g3))
+	s4, g4 := str(func(s *Settings) *string { return &s.Reference })
+	add(opt("reference", "REF", "state the differences are taken against: first, mean:N (average of the first N spectra) or FILE", false, true, s4, g4))
+	s5, g5 := integer(func(s *Settings) *int { return &s.Pre }, 0)
+	add(opt("pre", "N", "the first N spectra precede the reaction (noise estimate; zero extent)", false, true, s5, g5))
+	s6, g6 := str(func(s *Settings) *string { return &s.Times })
+	add(opt("times", "FILE", "CSV with columns file,time_s giving each folder file's acquisition time", false, true, s6, g6))
+	s7, g7 := boolean(func(s *Settings) *bool { return &s.TimesFromName })
+	add(opt("times-from-name", "", "take each folder file's time from the last number in its name", false, true, s7, g7))
+	s8, g8 := choice(func(s *Settings) *string { return &s.TimeUnit }, "s", "min", "h")
+	add(opt("time-unit", "UNIT", "unit of the times in file names: s, min or h", false, true, s8, g8))
+	s9, g9 := list(func(s *Settings) *[]string { return &s.Regions })
+	add(opt("region", "LO:HI", "keep only this axis range (repeatable)", true, true, checkRange(s9), g9))
+	s10, g10 := list(func(s *Settings) *[]string { return &s.Excludes })
+	add(opt("exclude", "LO:HI", "drop this axis range (repeatable), e.g. a saturated band", true, true, checkRange(s10), g10))
+	s11, g11 := boolean(func(s *Settings) *bool { return &s.Resample })
+	add(opt("resample", "", "interpolate spectra on other axes onto the first one (common range only)", false, true, s11, g11))
+	s12, g12 := str(func(s *Settings) *string { return &s.Components })
+	add(opt("components", "N|auto", "number of components, or auto to take the rank estimate", false, true, func(s *Settings, v string) error {
+		if v != "auto" {
+			if n, err := strconv.Atoi(v); err != nil || n < 1 {
+				return fmt.Errorf("%q: want auto or a whole number ≥ 1", v)
+			}
+		}
+		return s12(s, v)
+	}, g12))
+	s13, g13 := str(func(s *Settings) *string { return &s.Closure })
+	add(opt("closure", "off|VALUE", "species mode: concentrations of every spectrum sum to VALUE (mass balance), or off", false, true, func(s *Settings, v string) error {
+		if v != "off" {
+			if x, err := strconv.ParseFloat(v, 64); err != nil || !(x > 0) || x > 1e300 {
+				return fmt.Errorf("%q: want off or a positive total", v)
+			}
+		}
+		return s13(s, v)
+	}, g13))
+	s14, g14 := str(func(s *Settings) *string { return &s.Model })
+	add(opt("model", "SCHEME", "reaction scheme to fit to the profiles, e.g. 'A -> B -> C'", false, true, s14, g14))
+	s15, g15 := str(func(s *Settings) *string { return &s.T0 })
+	add(opt("t0", "SECONDS", "time the reaction starts (default: time of the reference spectrum)", false, true, func(s *Settings, v string) error {
+		if v != "" {
+			if _, err := strconv.ParseFloat(v, 64); err != nil {
+				return fmt.Errorf("%q: want a time in seconds", v)
+			}
+		}
+		return s15(s, v)
+	}, g15))
+	s16, g16 := str(func(s *Settings) *string { return &s.Map })
+	add(opt("map", "A=1,B=2", "which resolved component is which species of the model (default: by time behaviour)", false, true, s16, g16))
+	s17, g17 := boolean(func(s *Settings) *bool { return &s.HardModel })
+	add(opt("hard-model", "", "replace the profiles by their kinetic fit inside every ALS cycle (hard–soft)", false, true, s17, g17))
+	s18, g18 := choice(func(s *Settings) *string { return &s.Bands }, "on", "off")
+	add(opt("bands", "on|off", "compute feasible bands (rotational ambiguity) of each component", false, true, s18, g18))
+	s19, g19 := integer(func(s *Settings) *int { return &s.Replicates }, 0)
+	add(opt("replicates", "N", "resampled replicates for confidence intervals (0 = none)", false, true, s19, g19))
+	add(opt("seed", "S", "seed of every random choice (replicates, randomized SVD)", false, true, func(s *Settings, v string) error {
+		n, err := strconv.ParseUint(strings.TrimSpace(v), 10, 64)
+		if err != nil {
+			return fmt.Errorf("%q: want a whole number ≥ 0", v)
+		}
+		s.Seed = n
+		return nil
+	}, func(s *Settings) []string { return []string{strconv.FormatUint(s.Seed, 10)} }))
+	s21, g21 := str(func(s *Settings) *string { return &s.Init })
+	add(opt("init", "purest|efa|FILE", "initial profiles: purest variables, evolving factor analysis, or a profiles CSV", false, true, s21, g21))
+	s22, g22 := choice(func(s *Settings) *string { return &s.EFAWindows }, "on", "off")
+	add(opt("efa-windows", "on|off", "pin profiles to zero where evolving factor analysis finds a component absent", false, true, s22, g22))
+	s23, g23 := number(func(s *Settings) *float64 { return &s.Alpha }, func(x float64) bool { return x > 0 && x < 1 }, "a significance level between 0 and 1")
+	add(opt("alpha", "P", "significance level of the F-test on the rank", false, true, s23, g23))
+	s24, g24 := integer(func(s *Settings) *int { return &s.MaxIter }, 1)
+	add(opt("max-iter", "N", "most ALS iterations", false, true, s24, g24))
+	s25, g25 := number(func(s *Settings) *float64 { return &s.Tolerance }, func(x float64) bool { return x > 0 && x < 1 }, "a relative change between 0 and 1")
+	add(opt("tolerance", "T", "stop when the residual sum of squares changes by less than this (relative)", false, true, s25, g25))
+	s26, g26 := choice(func(s *Settings) *string { return &s.Report }, "on", "off")
+	add(opt("report", "on|off", "write report.html", false, true, s26, g26))
+	s27, g27 := str(func(s *Settings) *string { return &s.Out })
+	add(opt("out", "DIR", "output folder (refused if it holds earlier results, unless --force)", false, false, s27, g27))
+	s28, g28 := boolean(func(s *Settings) *bool { return &s.Force })
+	add(opt("force", "", "replace earlier results in the output folder", false, false, s28, g28))
+	s29, g29 := boolean(func(s *Settings) *bool { return &s.Quiet })
+	add(opt("quiet", "", "print nothing but errors", false, false, s29, g29))
+	s30, g30 := boolean(func(s *Settings) *bool { return &s.JSON })
+	add(opt("json", "", "print the summary as JSON on stdout", false, false, s30, g30))
+	return o
+}()
+
+func checkRange(set func(*Settings, string) error) func(*Settings, string) error {
+	return func(s *Settings, v string) error {
+		if _, err := ParseRange(v); err != nil {
+			return err
+		}
+		return set(s, v)
+	}
+}
+
+// ParseRange reads LO:HI.
+func ParseRange(v string) ([2]float64, error) {
+	a, b, ok := strings.Cut(v, ":")
+	if !ok {
+		return [2]float64{}, fmt.Errorf("%q: want LO:HI, e.g. 1800:1000", v)
+	}
+	lo, err1 := strconv.ParseFloat(strings.TrimSpace(a), 64)
+	hi, err2 := strconv.ParseFloat(strings.TrimSpace(b), 64)
+	if err1 != nil || err2 != nil || lo == hi {
+		return [2]float64{}, fmt.Errorf("%q: want two different numbers LO:HI, e.g. 1800:1000", v)
+	}
+	return [2]float64{lo, hi}, nil
+}
+
+// Path resolves a path from the settings against Dir.
+func (s *Settings) Path(p string) string {
+	if p == "" || s.Dir == "" || filepath.IsAbs(p) {
+		return p
+	}
+	return filepath.Join(s.Dir, p)
+}
+
+// Names returns the option names, sorted, for help and suggestions.
+func Names() []string {
+	var out []string
+	for _, o := range options {
+		out = append(out, o.Name)
+	}
+	sort.Strings(out)
+	return out
+}

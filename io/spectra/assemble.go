@@ -1,0 +1,187 @@
+package spectra
+
+import (
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Kind of the values in the input files.
+type Kind string
+
+const (
+	SingleBeam Kind = "single-beam" // detector intensity I(ν)
+	Absorbance Kind = "absorbance"  // A(ν) against some background
+	Difference Kind = "difference"  // ΔA(ν) already ratioed against the start
+)
+
+// ParseKind checks a --kind value.
+func ParseKind(s string) (Kind, error) {
+	switch Kind(s) {
+	case SingleBeam, Absorbance, Difference:
+		return Kind(s), nil
+	}
+	return "", fmt.Errorf("kind %q: use single-beam, absorbance or difference", s)
+}
+
+// Reference says which state difference spectra are taken against.
+type Reference struct {
+	Mean int       // average of the first Mean spectra (first = 1)
+	File *Spectrum // or a separately recorded spectrum of the same kind
+}
+
+// ParseReference reads --reference first|mean:N|FILE (FILE read by caller).
+func ParseReference(s string) (mean int, file string, err error) {
+	switch {
+	case s == "" || s == "first":
+		return 1, "", nil
+	case strings.HasPrefix(s, "mean:"):
+		n, err := strconv.Atoi(strings.TrimPrefix(s, "mean:"))
+		if err != nil || n < 1 {
+			return 0, "", fmt.Errorf("reference %q: mean:N needs a whole number N ≥ 1 of spectra to average", s)
+		}
+		return n, "", nil
+	}
+	return 0, s, nil
+}
+
+// Assembled is the data ready for factor analysis.
+type Assembled struct {
+	// Absolute is A(t) = −log10(I(t)/I_blank) (or the absorbance input);
+	// nil when only differences are known.
+	Absolute *mat.Dense
+	// Difference is ΔA(t) against the reference state; rows inside the
+	// reference (ReferenceRows) are the reference's own deviation.
+	Difference *mat.Dense
+	// ReferenceRows are the rows averaged into the reference (none when the
+	// reference came from a file or with difference input).
+	ReferenceRows []int
+	Notes         []string
+}
+
+// AssembleOptions gather what assembly needs besides the series.
+type AssembleOptions struct {
+	Kind      Kind
+	Blank     []float64 // single beam on the data's axis, nil if none
+	Reference Reference
+}
+
+// Assemble builds absorbance and difference matrices from the series.
+// For single beams A = −log10(I/I_blank) and ΔA = −log10(I/I_ref) with I_ref
+// the reference single beam; the blank cancels in ΔA (a ratio of ratios), so
+// ΔA does not depend on it. For absorbance input ΔA = A − A_ref. Identical
+// spectra give exactly zero, because log10(x/x) = log10(1) = 0 exactly.
+func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
+	n, m := s.Values.Dims()
+	out := &Assembled{}
+	ref := make([]float64, m)
+	if opt.Reference.File != nil {
+		copy(ref, opt.Reference.File.Values)
+	} else if opt.Kind != Difference {
+		k := max(opt.Reference.Mean, 1)
+		if k > n {
+			return nil, fmt.Errorf("reference mean:%d needs %d spectra, the data has %d", k, k, n)
+		}
+		for i := 0; i < k; i++ {
+			out.ReferenceRows = append(out.ReferenceRows, i)
+		}
+	}
+	switch opt.Kind {
+	case SingleBeam:
+		if err := checkPositive(s.Values, s, "single beam"); err != nil {
+			return nil, err
+		}
+		if opt.Blank != nil {
+			for j, v := range opt.Blank {
+				if !(v > 0) || math.IsInf(v, 0) {
+					return nil, fmt.Errorf("blank: intensity %g at %s %g; a single beam must be positive: check it is a single beam, not absorbance", v, s.AxisName, s.Axis[j])
+				}
+			}
+		}
+		if opt.Reference.File != nil {
+			for j, v := range ref {
+				if !(v > 0) {
+					return nil, fmt.Errorf("%s: reference intensity %g at %s %g; a single beam must be positive", opt.Reference.File.Source, v, s.AxisName, s.Axis[j])
+				}
+			}
+		} else {
+			meanRows(s.Values, out.ReferenceRows, ref)
+		}
+		out.Difference = mat.NewDense(n, m, nil)
+		for i := 0; i < n; i++ {
+			row := s.Values.RawRowView(i)
+			dst := out.Difference.RawRowView(i)
+			for j := range row {
+				dst[j] = math.Log10(ref[j] / row[j])
+			}
+		}
+		if opt.Blank != nil {
+			out.Absolute = mat.NewDense(n, m, nil)
+			for i := 0; i < n; i++ {
+				row := s.Values.RawRowView(i)
+				dst := out.Absolute.RawRowView(i)
+				for j := range row {
+					dst[j] = math.Log10(opt.Blank[j] / row[j])
+				}
+			}
+		}
+	case Absorbance:
+		if opt.Blank != nil {
+			return nil, fmt.Errorf("a blank single beam goes with --kind single-beam; absorbance input is already ratioed")
+		}
+		out.Absolute = mat.DenseCopyOf(s.Values)
+		if opt.Reference.File == nil {
+			meanRows(s.Values, out.ReferenceRows, ref)
+		}
+		out.Difference = mat.NewDense(n, m, nil)
+		for i := 0; i < n; i++ {
+			row := s.Values.RawRowView(i)
+			dst := out.Difference.RawRowView(i)
+			for j := range row {
+				dst[j] = row[j] - ref[j]
+			}
+		}
+	case Difference:
+		if opt.Blank != nil {
+			return nil, fmt.Errorf("a blank single beam goes with --kind single-beam; difference input is already ratioed")
+		}
+		out.Difference = mat.DenseCopyOf(s.Values)
+		if opt.Reference.File != nil {
+			out.Notes = append(out.Notes, "difference input: the reference file is not used")
+		}
+	default:
+		return nil, fmt.Errorf("kind %q: use single-beam, absorbance or difference", opt.Kind)
+	}
+	return out, nil
+}
+
+func meanRows(v *mat.Dense, rows []int, dst []float64) {
+	for j := range dst {
+		dst[j] = 0
+	}
+	for _, i := range rows {
+		row := v.RawRowView(i)
+		for j := range dst {
+			dst[j] += row[j]
+		}
+	}
+	for j := range dst {
+		dst[j] /= float64(len(rows))
+	}
+}
+
+func checkPositive(v *mat.Dense, s *Series, what string) error {
+	n, m := v.Dims()
+	for i := 0; i < n; i++ {
+		row := v.RawRowView(i)
+		for j := 0; j < m; j++ {
+			if !(row[j] > 0) {
+				return fmt.Errorf("%s (time %g s): %s intensity %g at %s %g; single beams must be positive: check --kind (absorbance or difference data?) or exclude that region", s.Names[i], s.Times[i], what, row[j], s.AxisName, s.Axis[j])
+			}
+		}
+	}
+	return nil
+}

@@ -1,0 +1,296 @@
+package spectra
+
+import (
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"regexp"
+	"runtime"
+	"sort"
+	"strconv"
+	"strings"
+	"sync"
+
+	"github.com/gocarina/gocsv"
+	"gonum.org/v1/gonum/mat"
+)
+
+// FolderOptions say where the acquisition times of a folder's files come from.
+type FolderOptions struct {
+	TimesFile     string   // CSV with columns file,time_s
+	TimesFromName bool     // the last number in each file name
+	TimeUnit      string   // unit of numbers in names: s, min or h (default s)
+	Resample      bool     // interpolate every file onto the first file's axis
+	Exclude       []string // paths not to treat as spectra (the times table, a blank)
+}
+
+// spectrumExts are the endings treated as one-spectrum exports in a folder.
+var spectrumExts = map[string]bool{".csv": true, ".txt": true, ".dat": true, ".tsv": true,
+	".prn": true, ".asc": true, ".dpt": true, ".xy": true, ".jdx": true, ".dx": true}
+
+// TimeRow is one row of a times table.
+type TimeRow struct {
+	File  string `csv:"file"`
+	TimeS string `csv:"time_s"`
+}
+
+// ReadTimes reads a times table (columns file,time_s) into file → seconds.
+func ReadTimes(path string) (map[string]float64, error) {
+	raw, err := readAll(path)
+	if err != nil {
+		return nil, err
+	}
+	var rows []TimeRow
+	if err := gocsv.UnmarshalBytes(raw, &rows); err != nil {
+		return nil, inputErr(path, 0, "the times table needs a header row 'file,time_s' and one row per spectrum file", "cannot read the table: %v", err)
+	}
+	if len(rows) == 0 {
+		return nil, inputErr(path, 0, "add one row per spectrum file below the header 'file,time_s'", "times table has no rows")
+	}
+	out := make(map[string]float64, len(rows))
+	byTime := map[float64]string{}
+	for i, r := range rows {
+		ln := i + 2
+		name := strings.TrimSpace(r.File)
+		if name == "" {
+			return nil, inputErr(path, ln, "each row needs a file name in column 'file' (check the header is exactly 'file,time_s')", "empty file name")
+		}
+		v, err := strconv.ParseFloat(strings.TrimSpace(r.TimeS), 64)
+		if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil, inputErr(path, ln, "time_s must be a number of seconds", "time %q of %s is not a number", r.TimeS, name)
+		}
+		if _, dup := out[name]; dup {
+			return nil, inputErr(path, ln, "list each file once", "file %s is listed twice", name)
+		}
+		if other, dup := byTime[v]; dup {
+			return nil, inputErr(path, ln, "each spectrum needs its own time", "%s has the same time %g s as %s", name, v, other)
+		}
+		out[name], byTime[v] = v, name
+	}
+	return out, nil
+}
+
+var numberInName = regexp.MustCompile(`[0-9]+(?:\.[0-9]+)?`)
+
+// TimeFromName returns the last number in a file's base name, in seconds.
+func TimeFromName(name, unit string) (float64, error) {
+	base := strings.TrimSuffix(filepath.Base(name), filepath.Ext(name))
+	all := numberInName.FindAllString(base, -1)
+	if len(all) == 0 {
+		return 0, fmt.Errorf("no number in the file name %q", filepath.Base(name))
+	}
+	v, err := strconv.ParseFloat(all[len(all)-1], 64)
+	if err != nil {
+		return 0, err
+	}
+	f, err := UnitFactor(unit)
+	if err != nil {
+		return 0, err
+	}
+	return v * f, nil
+}
+
+// UnitFactor converts a time unit to seconds.
+func UnitFactor(unit string) (float64, error) {
+	switch unit {
+	case "", "s":
+		return 1, nil
+	case "min":
+		return 60, nil
+	case "h":
+		return 3600, nil
+	}
+	return 0, fmt.Errorf("time unit %q: use s, min or h", unit)
+}
+
+// ReadFolder reads every spectrum file of a folder and orders them by time.
+func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
+	entries, err := os.ReadDir(dir)
+	if err != nil {
+		return nil, inputErr(dir, 0, "check the folder's path and permissions", "cannot list: %v", unwrapPathErr(err))
+	}
+	skip := map[string]bool{}
+	for _, p := range opt.Exclude {
+		if a, err := filepath.Abs(p); err == nil {
+			skip[a] = true
+		}
+	}
+	var files []string
+	for _, e := range entries {
+		name := e.Name()
+		if e.IsDir() || strings.HasPrefix(name, ".") || !spectrumExts[strings.ToLower(filepath.Ext(name))] {
+			continue
+		}
+		p := filepath.Join(dir, name)
+		if a, err := filepath.Abs(p); err == nil && skip[a] {
+			continue
+		}
+		files = append(files, p)
+	}
+	times := make([]float64, len(files))
+	switch {
+	case opt.TimesFile != "":
+		table, err := ReadTimes(opt.TimesFile)
+		if err != nil {
+			return nil, err
+		}
+		used := map[string]bool{}
+		for i, f := range files {
+			t, ok := table[filepath.Base(f)]
+			if !ok {
+				return nil, inputErr(opt.TimesFile, 0, "add a row for it, or move the file out of the folder", "has no time for %s", f)
+			}
+			times[i], used[filepath.Base(f)] = t, true
+		}
+		var absent []string
+		for name := range table {
+			if !used[name] {
+				absent = append(absent, name)
+			}
+		}
+		if len(absent) > 0 {
+			sort.Strings(absent)
+			return nil, inputErr(opt.TimesFile, 0, "remove the row or put the file in the folder", "names %s, which is not a spectrum file in %s", absent[0], dir)
+		}
+	case opt.TimesFromName:
+		seen := map[float64]string{}
+		for i, f := range files {
+			t, err := TimeFromName(f, opt.TimeUnit)
+			if err != nil {
+				return nil, inputErr(f, 0, "name files with their time (e.g. scan_0120.csv), or give --times FILE", "%v", err)
+			}
+			if other, dup := seen[t]; dup {
+				return nil, inputErr(f, 0, "give each file its own time, or use --times FILE", "same time %g s as %s", t, other)
+			}
+			seen[t], times[i] = f, t
+		}
+	default:
+		return nil, inputErr(dir, 0, "give --times FILE (columns file,time_s) or --times-from-name", "a folder of spectra needs acquisition times")
+	}
+	if len(files) == 0 {
+		return nil, inputErr(dir, 0, "put one file per spectrum in it (.csv, .txt, .dat, .jdx …)", "holds no spectrum files")
+	}
+	// Read in parallel; each result lands in its own slot (order-free).
+	specs := make([]*Spectrum, len(files))
+	errs := make([]error, len(files))
+	var wg sync.WaitGroup
+	work := make(chan int, len(files))
+	for i := range files {
+		work <- i
+	}
+	close(work)
+	for w := 0; w < min(runtime.GOMAXPROCS(0), len(files)); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range work {
+				specs[i], errs[i] = ReadSpectrum(files[i])
+			}
+		}()
+	}
+	wg.Wait()
+	order := make([]int, len(files))
+	for i := range order {
+		order[i] = i
+	}
+	sort.SliceStable(order, func(a, b int) bool { return times[order[a]] < times[order[b]] })
+	for _, i := range order {
+		if errs[i] != nil {
+			return nil, errs[i]
+		}
+	}
+	first := specs[order[0]]
+	target := first.Axis
+	if opt.Resample {
+		// Only the range every file covers can be interpolated.
+		var axes [][]float64
+		for _, sp := range specs {
+			axes = append(axes, sp.Axis)
+		}
+		idx := CommonRange(first.Axis, axes...)
+		if len(idx) < 2 {
+			return nil, inputErr(dir, 0, "export the spectra over overlapping ranges", "the files' axes have no common range")
+		}
+		target = KeepValues(first.Axis, idx)
+	}
+	s := &Series{AxisName: first.AxisName, Axis: target, Source: dir, Kind: first.Kind}
+	s.Values = mat.NewDense(len(files), len(target), nil)
+	for r, i := range order {
+		sp := specs[i]
+		vals := sp.Values
+		if !sameAxis(sp.Axis, target) {
+			if !opt.Resample {
+				return nil, inputErr(files[i], 0, "use --resample to interpolate onto the first file's axis, or export all spectra on one axis", "%s", describeAxisMismatch(sp.Axis, first.Axis, files[order[0]]))
+			}
+			var err error
+			if vals, err = Resample(sp.Axis, sp.Values, target); err != nil {
+				return nil, inputErr(files[i], 0, "export the spectra over overlapping ranges", "cannot resample: %v", err)
+			}
+		}
+		if sp.Kind != first.Kind {
+			return nil, inputErr(files[i], 0, "give files of one kind", "holds %s data, %s holds %s", orUnknown(sp.Kind), files[order[0]], orUnknown(first.Kind))
+		}
+		s.Values.SetRow(r, vals)
+		s.Times = append(s.Times, times[i])
+		s.Names = append(s.Names, files[i])
+	}
+	return s, nil
+}
+
+func orUnknown(k string) string {
+	if k == "" {
+		return "unlabelled"
+	}
+	return k
+}
+
+func describeAxisMismatch(a, ref []float64, refName string) string {
+	if len(a) != len(ref) {
+		if len(a) < len(ref)/2 {
+			return fmt.Sprintf("has %d points where %s has %d: it looks like a peak list or a cut, not a spectrum on the same axis", len(a), refName, len(ref))
+		}
+		return fmt.Sprintf("has %d axis points, %s has %d", len(a), refName, len(ref))
+	}
+	for i := range a {
+		if !closeTo(a[i], ref[i]) {
+			return fmt.Sprintf("axis point %d is %g, in %s it is %g", i+1, a[i], refName, ref[i])
+		}
+	}
+	return "axis differs"
+}
+
+func closeTo(a, b float64) bool {
+	return math.Abs(a-b) <= 1e-6*math.Max(1, math.Max(math.Abs(a), math.Abs(b)))
+}
+
+func sameAxis(a, b []float64) bool {
+	if len(a) != len(b) {
+		return false
+	}
+	for i := range a {
+		if !closeTo(a[i], b[i]) {
+			return false
+		}
+	}
+	return true
+}
+
+// Load reads --data: a folder, a JCAMP-DX file or a matrix CSV.
+func Load(path string, opt FolderOptions) (*Series, error) {
+	st, err := os.Stat(path)
+	if err != nil {
+		return nil, inputErr(path, 0, "check the --data path", "cannot read: %v", unwrapPathErr(err))
+	}
+	if st.IsDir() {
+		return ReadFolder(path, opt)
+	}
+	if isJCAMP(path) {
+		sps, err := readJCAMPSeries(path)
+		if err != nil {
+			return nil, err
+		}
+		return seriesFromSpectra(path, sps, opt)
+	}
+	return ReadMatrixCSV(path)
+}

@@ -1,0 +1,497 @@
+// Package spectra reads instrument exports into one time × axis matrix and
+// assembles absorbance or difference-absorbance data from it.
+//
+// Inputs are a matrix CSV (header: axis name, then one acquisition time in
+// seconds per spectrum; one row per axis point), a folder of one-spectrum
+// files (two numeric columns: axis, value) with times from a table or from
+// the file names, or JCAMP-DX files. Assembly follows the definitions of
+// absorbance, A = −log10(I/I₀), and of the difference spectrum against the
+// starting state, ΔA(t) = −log10(I(t)/I(t_ref)), in which the blank cancels.
+package spectra
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"math"
+	"os"
+	"runtime"
+	"strconv"
+	"strings"
+	"sync"
+	"unsafe"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Series is a set of spectra on one axis, one row per acquisition time.
+type Series struct {
+	AxisName string    // as in the input, e.g. "wavenumber"
+	Axis     []float64 // m points, in file order
+	Times    []float64 // n acquisition times in seconds
+	Names    []string  // where each spectrum came from
+	Values   *mat.Dense
+	Source   string
+	Kind     string // kind declared by the file itself (JCAMP-DX), "" if none
+}
+
+// Spectrum is one axis/value pair of columns.
+type Spectrum struct {
+	AxisName string
+	Axis     []float64
+	Values   []float64
+	Source   string
+	Kind     string
+}
+
+// InputError is an error in a user's file, reported with its place.
+type InputError struct {
+	File string
+	Line int // 1-based; 0 when not about one line
+	Msg  string
+	Hint string
+}
+
+func (e *InputError) Error() string {
+	var b strings.Builder
+	b.WriteString(e.File)
+	if e.Line > 0 {
+		fmt.Fprintf(&b, ":%d", e.Line)
+	}
+	b.WriteString(": ")
+	b.WriteString(e.Msg)
+	if e.Hint != "" {
+		b.WriteString("; ")
+		b.WriteString(e.Hint)
+	}
+	return b.String()
+}
+
+func inputErr(file string, line int, hint, format string, a ...any) error {
+	return &InputError{File: file, Line: line, Msg: fmt.Sprintf(format, a...), Hint: hint}
+}
+
+// maxFileBytes bounds what a reader accepts, so a wrong path (a disk image,
+// a video) fails fast instead of exhausting memory.
+const maxFileBytes = 4 << 30
+
+func readAll(path string) ([]byte, error) {
+	st, err := os.Stat(path)
+	if err != nil {
+		return nil, inputErr(path, 0, "check the path", "cannot read: %v", unwrapPathErr(err))
+	}
+	if st.IsDir() {
+		return nil, inputErr(path, 0, "give a file here", "is a folder")
+	}
+	if st.Size() > maxFileBytes {
+		return nil, inputErr(path, 0, "split the file", "is %d bytes, more than the %d accepted", st.Size(), int64(maxFileBytes))
+	}
+	raw, err := os.ReadFile(path)
+	if err != nil {
+		return nil, inputErr(path, 0, "check the file's permissions", "cannot read: %v", unwrapPathErr(err))
+	}
+	raw = bytes.TrimPrefix(raw, []byte("\xef\xbb\xbf"))
+	if bytes.IndexByte(raw, 0) >= 0 {
+		return nil, inputErr(path, 0, "give a text export (CSV or JCAMP-DX)", "is a binary file, not text")
+	}
+	return raw, nil
+}
+
+func unwrapPathErr(err error) error {
+	var pe *os.PathError
+	if errors.As(err, &pe) {
+		return pe.Err
+	}
+	return err
+}
+
+// line is one line of a text file with its 1-based number.
+type line struct {
+	n    int
+	text []byte
+}
+
+// splitLines cuts a file into lines, dropping CR, blank lines and '#'
+// comment lines (common practice in CSV exports).
+func splitLines(raw []byte) []line {
+	var out []line
+	n := 0
+	for len(raw) > 0 {
+		n++
+		i := bytes.IndexByte(raw, '\n')
+		var l []byte
+		if i < 0 {
+			l, raw = raw, nil
+		} else {
+			l, raw = raw[:i], raw[i+1:]
+		}
+		l = bytes.TrimRight(l, "\r")
+		t := bytes.TrimSpace(l)
+		if len(t) == 0 || t[0] == '#' {
+			continue
+		}
+		out = append(out, line{n, l})
+	}
+	return out
+}
+
+// detectSeparator picks the field separator of a header or data line.
+func detectSeparator(l []byte) byte {
+	for _, c := range []byte{'\t', ';', ','} {
+		if bytes.IndexByte(l, c) >= 0 {
+			return c
+		}
+	}
+	return ' '
+}
+
+// fields splits a line at sep (space: runs of blanks), trimming spaces and
+// quotes; a trailing separator gives no extra field.
+func fields(l []byte, sep byte, out [][]byte) [][]byte {
+	out = out[:0]
+	if sep == ' ' {
+		for _, f := range bytes.Fields(l) {
+			out = append(out, bytes.Trim(f, `"'`))
+		}
+		return out
+	}
+	for {
+		i := bytes.IndexByte(l, sep)
+		var f []byte
+		if i < 0 {
+			f = l
+		} else {
+			f = l[:i]
+		}
+		f = bytes.TrimSpace(f)
+		f = bytes.Trim(f, `"'`)
+		out = append(out, f)
+		if i < 0 {
+			break
+		}
+		l = l[i+1:]
+	}
+	if len(out) > 1 && len(out[len(out)-1]) == 0 {
+		out = out[:len(out)-1]
+	}
+	return out
+}
+
+// parseNumber reads a decimal number without copying the bytes.
+func parseNumber(b []byte) (float64, error) {
+	if len(b) == 0 {
+		return 0, errors.New("empty cell")
+	}
+	v, err := strconv.ParseFloat(unsafe.String(&b[0], len(b)), 64)
+	if err != nil {
+		return 0, fmt.Errorf("%q is not a number", string(b))
+	}
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return 0, fmt.Errorf("%q is not a finite number", string(b))
+	}
+	return v, nil
+}
+
+func looksLikeDecimalComma(b []byte) bool {
+	i := bytes.IndexByte(b, ',')
+	if i <= 0 || i == len(b)-1 {
+		return false
+	}
+	_, err1 := strconv.ParseFloat(string(b[:i]), 64)
+	_, err2 := strconv.ParseFloat(string(b[i+1:]), 64)
+	return err1 == nil && err2 == nil
+}
+
+// ReadMatrixCSV reads the matrix layout: header "axis,t1,t2,…" (times in
+// seconds), then one row per axis point. Rows are parsed in parallel chunks;
+// each value lands at a fixed place, so the result does not depend on the
+// number of threads.
+func ReadMatrixCSV(path string) (*Series, error) {
+	raw, err := readAll(path)
+	if err != nil {
+		return nil, err
+	}
+	lines := splitLines(raw)
+	if len(lines) == 0 {
+		return nil, inputErr(path, 0, "export the spectra with a header row: axis name, then one time per spectrum", "is empty")
+	}
+	head := lines[0]
+	sep := detectSeparator(head.text)
+	hf := fields(head.text, sep, nil)
+	if len(hf) < 2 {
+		return nil, inputErr(path, head.n, "the first row must be the axis name, then one acquisition time (s) per spectrum", "header has %d column(s)", len(hf))
+	}
+	axisName := strings.ToLower(strings.TrimSpace(string(hf[0])))
+	if _, err := parseNumber(hf[0]); err == nil {
+		return nil, inputErr(path, head.n, "add a header row: axis name (wavenumber or wavelength), then one time in seconds per spectrum", "first row is numbers, not a header")
+	}
+	n := len(hf) - 1
+	times := make([]float64, n)
+	seen := map[float64]int{}
+	for j := 0; j < n; j++ {
+		v, err := parseNumber(hf[j+1])
+		if err != nil {
+			return nil, inputErr(path, head.n, "header cells after the axis name must be acquisition times in seconds", "column %d: %v", j+2, err)
+		}
+		if p, dup := seen[v]; dup {
+			return nil, inputErr(path, head.n, "each spectrum needs its own time", "columns %d and %d have the same time %g s", p+2, j+2, v)
+		}
+		seen[v] = j
+		times[j] = v
+	}
+	rows := lines[1:]
+	if len(rows) == 0 {
+		return nil, inputErr(path, head.n, "add one row per axis point below the header", "has a header but no data rows")
+	}
+	m := len(rows)
+	axis := make([]float64, m)
+	vals := mat.NewDense(n, m, nil)
+	raw2 := vals.RawMatrix()
+	const chunk = 512
+	nch := (m + chunk - 1) / chunk
+	errs := make([]error, nch)
+	var wg sync.WaitGroup
+	work := make(chan int, nch)
+	for c := 0; c < nch; c++ {
+		work <- c
+	}
+	close(work)
+	for w := 0; w < min(runtime.GOMAXPROCS(0), nch); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			var buf [][]byte
+			for c := range work {
+				for i := c * chunk; i < min(m, (c+1)*chunk); i++ {
+					l := rows[i]
+					buf = fields(l.text, sep, buf)
+					if len(buf) != n+1 {
+						hint := fmt.Sprintf("every row needs %d cells (axis + %d spectra) like the header", n+1, n)
+						if sep == ',' && len(buf) > n+1 {
+							hint += "; if the file uses decimal commas, export with decimal points"
+						}
+						errs[c] = inputErr(path, l.n, hint, "row has %d cells, header has %d", len(buf), n+1)
+						break
+					}
+					var err error
+					if axis[i], err = parseNumber(buf[0]); err != nil {
+						errs[c] = inputErr(path, l.n, "the first column must be the axis value", "axis cell: %v", err)
+						break
+					}
+					for j := 0; j < n; j++ {
+						v, err := parseNumber(buf[j+1])
+						if err != nil {
+							hint := "replace it with a number, or remove the row"
+							if looksLikeDecimalComma(buf[j+1]) {
+								hint = "the file seems to use decimal commas: export with decimal points"
+							}
+							errs[c] = inputErr(path, l.n, hint, "column %d (time %g s): %v", j+2, times[j], err)
+							break
+						}
+						raw2.Data[j*raw2.Stride+i] = v
+					}
+					if errs[c] != nil {
+						break
+					}
+				}
+			}
+		}()
+	}
+	wg.Wait()
+	for _, err := range errs {
+		if err != nil {
+			return nil, err
+		}
+	}
+	if err := checkAxis(path, axis, func(i int) int { return rows[i].n }); err != nil {
+		return nil, err
+	}
+	names := make([]string, n)
+	for j := range names {
+		names[j] = fmt.Sprintf("%s column %d", path, j+2)
+	}
+	s := &Series{AxisName: axisName, Axis: axis, Times: times, Names: names, Values: vals, Source: path}
+	s.sortByTime()
+	return s, nil
+}
+
+// checkAxis requires a strictly monotonic axis of at least two points.
+func checkAxis(path string, axis []float64, lineOf func(int) int) error {
+	if len(axis) < 2 {
+		return inputErr(path, 0, "a spectrum needs at least two axis points", "has only %d axis point(s)", len(axis))
+	}
+	up := axis[1] > axis[0]
+	for i := 1; i < len(axis); i++ {
+		if axis[i] == axis[i-1] {
+			return inputErr(path, lineOf(i), "remove the repeated point", "axis value %g repeats the previous row", axis[i])
+		}
+		if (axis[i] > axis[i-1]) != up {
+			return inputErr(path, lineOf(i), "the axis must run steadily up or steadily down; sort the rows", "axis value %g breaks the order of the rows before it", axis[i])
+		}
+	}
+	return nil
+}
+
+// sortByTime orders rows by acquisition time (never by name).
+func (s *Series) sortByTime() {
+	n := len(s.Times)
+	idx := make([]int, n)
+	sorted := true
+	for i := range idx {
+		idx[i] = i
+		if i > 0 && s.Times[i] < s.Times[i-1] {
+			sorted = false
+		}
+	}
+	if sorted {
+		return
+	}
+	sortStable(idx, func(a, b int) bool { return s.Times[a] < s.Times[b] })
+	_, m := s.Values.Dims()
+	v := mat.NewDense(n, m, nil)
+	t := make([]float64, n)
+	nm := make([]string, n)
+	for r, i := range idx {
+		v.SetRow(r, s.Values.RawRowView(i))
+		t[r], nm[r] = s.Times[i], s.Names[i]
+	}
+	s.Values, s.Times, s.Names = v, t, nm
+}
+
+func sortStable(idx []int, less func(a, b int) bool) {
+	// Insertion sort is stable and fine for the few thousand spectra here;
+	// sort.SliceStable would do too but needs a closure over idx anyway.
+	for i := 1; i < len(idx); i++ {
+		for j := i; j > 0 && less(idx[j], idx[j-1]); j-- {
+			idx[j], idx[j-1] = idx[j-1], idx[j]
+		}
+	}
+}
+
+// ReadSpectrumFile reads a one-spectrum export: two numeric columns (axis,
+// value) after up to a few title or column-name lines.
+func ReadSpectrumFile(path string) (*Spectrum, error) {
+	raw, err := readAll(path)
+	if err != nil {
+		return nil, err
+	}
+	lines := splitLines(raw)
+	if len(lines) == 0 {
+		return nil, inputErr(path, 0, "export the spectrum as two columns: axis, value", "is empty")
+	}
+	var buf [][]byte
+	axisName := ""
+	start := -1
+	// Title lines: anything before the first line whose cells are all numbers.
+	for i, l := range lines {
+		if i >= 20 {
+			break
+		}
+		sep := detectSeparator(l.text)
+		buf = fields(l.text, sep, buf)
+		allNum := len(buf) > 0
+		for _, f := range buf {
+			if _, err := parseNumber(f); err != nil {
+				allNum = false
+				break
+			}
+		}
+		if allNum {
+			start = i
+			break
+		}
+		if len(buf) >= 1 && axisName == "" && len(buf) <= 3 {
+			axisName = strings.ToLower(string(buf[0]))
+		}
+	}
+	if start < 0 {
+		return nil, inputErr(path, lines[0].n, "a spectrum file holds two numeric columns (axis, value), after at most a few title lines", "no numeric data in the first lines")
+	}
+	sep := detectSeparator(lines[start].text)
+	axis := make([]float64, 0, len(lines)-start)
+	vals := make([]float64, 0, len(lines)-start)
+	for _, l := range lines[start:] {
+		buf = fields(l.text, sep, buf)
+		if len(buf) != 2 {
+			if len(buf) == 1 && sep == ' ' {
+				return nil, inputErr(path, l.n, "give two columns: axis, value", "row has one column")
+			}
+			hint := "a spectrum file holds exactly two columns: axis, value"
+			if sep == ',' && len(buf) == 4 && looksLikeDecimalComma(append(append([]byte{}, buf[0]...), append([]byte{','}, buf[1]...)...)) {
+				hint = "the file seems to use decimal commas: use a semicolon or tab separator, or decimal points"
+			}
+			return nil, inputErr(path, l.n, hint, "row has %d columns", len(buf))
+		}
+		x, err := parseNumber(buf[0])
+		if err != nil {
+			return nil, inputErr(path, l.n, "the first column must be the axis value", "axis cell: %v", err)
+		}
+		y, err := parseNumber(buf[1])
+		if err != nil {
+			hint := "replace it with a number, or remove the row"
+			if looksLikeDecimalComma(buf[1]) {
+				hint = "the file seems to use decimal commas: export with decimal points"
+			}
+			return nil, inputErr(path, l.n, hint, "value cell: %v", err)
+		}
+		axis = append(axis, x)
+		vals = append(vals, y)
+	}
+	lineOf := func(i int) int { return lines[start+i].n }
+	if err := checkAxis(path, axis, lineOf); err != nil {
+		return nil, err
+	}
+	if axisName == "" || strings.ContainsAny(axisName, "0123456789") {
+		axisName = guessAxisName(axis)
+	}
+	return &Spectrum{AxisName: cleanAxisName(axisName, axis), Axis: axis, Values: vals, Source: path}, nil
+}
+
+// cleanAxisName maps a column title such as "Wavenumber (cm-1)" to the
+// trade's plain axis name.
+func cleanAxisName(name string, axis []float64) string {
+	n := strings.ToLower(name)
+	switch {
+	case strings.Contains(n, "wavenumber") || strings.Contains(n, "cm-1") || strings.Contains(n, "cm^-1"):
+		return "wavenumber"
+	case strings.Contains(n, "wavelength") || strings.Contains(n, "nm"):
+		return "wavelength"
+	case n == "":
+		return guessAxisName(axis)
+	}
+	return strings.Fields(n)[0]
+}
+
+// guessAxisName: infrared exports without a title are most often in cm⁻¹
+// (common practice); UV-visible ones in nm between 190 and 1100.
+func guessAxisName(axis []float64) string {
+	lo, hi := math.Min(axis[0], axis[len(axis)-1]), math.Max(axis[0], axis[len(axis)-1])
+	if lo >= 150 && hi <= 1100 && hi-lo < 1000 {
+		return "wavelength"
+	}
+	return "wavenumber"
+}
+
+// ReadSpectrum reads one spectrum (a blank or a reference) from a two-column
+// file, a one-spectrum matrix CSV, or a JCAMP-DX file.
+func ReadSpectrum(path string) (*Spectrum, error) {
+	if isJCAMP(path) {
+		ss, err := readJCAMPSeries(path)
+		if err != nil {
+			return nil, err
+		}
+		if len(ss) != 1 {
+			return nil, inputErr(path, 0, "give a file with a single spectrum", "holds %d spectra", len(ss))
+		}
+		return ss[0], nil
+	}
+	sp, err := ReadSpectrumFile(path)
+	if err == nil {
+		return sp, nil
+	}
+	// A matrix CSV with exactly one spectrum column is a spectrum too.
+	if s, err2 := ReadMatrixCSV(path); err2 == nil && len(s.Times) == 1 {
+		return &Spectrum{AxisName: s.AxisName, Axis: s.Axis, Values: s.Values.RawRowView(0), Source: path}, nil
+	}
+	return nil, err
+}
