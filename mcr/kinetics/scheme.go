@@ -304,7 +304,7 @@ func sideText(s *Scheme, terms []Term) string {
 		if t.Coef == 1 {
 			parts[i] = s.Species[t.Species]
 		} else {
-			parts[i] = strconv.FormatFloat(t.Coef, 'g', -1, 64) + " " + s.Species[t.Species]
+			parts[i] = strconv.FormatFloat(t.Coef, 'f', -1, 64) + " " + s.Species[t.Species] // 'f': the lexer reads no exponents
 		}
 	}
 	return strings.Join(parts, " + ")

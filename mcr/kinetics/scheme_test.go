@@ -95,3 +95,37 @@ func TestParseSchemeErrors(t *testing.T) {
 		}
 	}
 }
+
+func FuzzParseScheme(f *testing.F) {
+	// Any input gives a scheme or a *ParseError with a column inside the text (+1 for "end"),
+	// never a panic; a parsed scheme re-parses from its canonical step texts to the same steps.
+	for _, s := range []string{"A -> B -> C", "2 A + B -> C; C -> A", "A →", "1.5 X -> Y'", "-> ->", "A -> B;;", "1000000A->A"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, text string) {
+		s, err := ParseScheme(text)
+		if err != nil {
+			var pe *ParseError
+			if !errors.As(err, &pe) || pe.Column < 1 || pe.Column > len([]rune(text))+1 {
+				t.Fatalf("%q: %v", text, err)
+			}
+			return
+		}
+		var canon string
+		for i, st := range s.Steps {
+			if i > 0 {
+				canon += "; "
+			}
+			canon += st.Text
+		}
+		s2, err := ParseScheme(canon)
+		if err != nil || len(s2.Steps) != len(s.Steps) {
+			t.Fatalf("%q: canonical %q does not re-parse: %v", text, canon, err)
+		}
+		for i := range s.Steps {
+			if s2.Steps[i].Text != s.Steps[i].Text {
+				t.Fatalf("%q: step %d %q vs %q", text, i, s2.Steps[i].Text, s.Steps[i].Text)
+			}
+		}
+	})
+}
