@@ -106,19 +106,29 @@ type RankReport struct {
 //     The estimate is the number of leading structured factors.
 //
 // The reference-noise pattern of difference data (ΔA(t) = A(t) − A(ref): the reference's own
-// noise e appears as −e in every row but the reference) is a factor whose time vector is
-// constant on all rows but the reference (cos² with the all-ones vector ≥ 0.8) and whose
-// spectrum vector is white (autocorrelation below 0.3 and not significantly positive). It
-// is flagged and never counted by any criterion.
+// noise e appears as −e in every row but the reference) is one more factor, of size about
+// σ√(m(n−1)), often mixed by the SVD with a species of similar size. The K factors above the
+// threshold are therefore rotated to the basis of span(V_K) that diagonalizes the lag-1
+// autocorrelation (eigenvectors of V_Kᵀ A V_K, A the symmetric lag-1 shift): smooth and white
+// parts separate there. The whitest direction is the pattern when its spectrum is white
+// (autocorrelation < 0.3 and not significantly positive) and its time vector U_K S_K z is
+// constant on all rows but the reference (cos² with the all-ones vector ≥ 0.8). It is
+// flagged (ReferencePatternFactor is the factor with the largest share of it) and no
+// criterion counts it.
 //
-// Consensus (Estimate): the number of factors, other than the reference pattern, that are
-// both above the noise threshold and structured, capped at MaxRank. Why: the noise floor is
-// the only criterion with a physical scale (σ) and it fails in one direction only — when σ is
-// underestimated, or the noise is not white, it counts factors that are not chemistry; those
-// factors have a white time or spectrum vector, which the structure test catches, while a
-// real species has a smooth band shape and a smooth concentration profile. IND and the F-test
-// need no σ but are known to drift with matrix size and noise colour, so they are reported as
-// cross-checks: a disagreement becomes a Warning, not a vote.
+// Consensus (Estimate): project the K factors above the threshold off the pattern direction,
+// re-diagonalize (SVD of the small K x (K−1) projected core), and count the factors whose
+// spectrum vector is structured and whose time vector is not white (within one white-noise
+// standard deviation of the white mean counts as white), capped at MaxRank. A side is only
+// judged when its length l ≥ 12 and l ≥ 5K, because the K-th of K orthogonal smooth vectors
+// oscillates like an orthogonal polynomial (autocorrelation ≈ cos(πK/l)).
+// Why: the noise floor is the only criterion with a physical scale (σ) and it fails in one
+// direction only — when σ is underestimated, or the noise is not white, it counts factors
+// that are not chemistry; those have a white spectrum or a white time vector, which the
+// structure test catches, while a species has smooth bands and a smooth profile. The time
+// side gets the lenient test because a dozen spectra cannot show smoothness convincingly.
+// IND and the F-test need no σ but drift with matrix size and noise colour, so they are
+// cross-checks: disagreement becomes a Warning, not a vote.
 //
 // An all-zero matrix (identical single beams: nothing happened) gives Estimate 0.
 func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error) {
@@ -259,53 +269,48 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 		rep.Table = append(rep.Table, row)
 	}
 
-	// Reference-noise pattern.
-	if refRow >= 0 && n >= 3 {
-		best, bestFlat := -1, 0.0
-		for k := range rep.Table {
-			row := &rep.Table[k]
-			if !row.AboveNoiseEdge {
-				continue
-			}
-			flat := flatness(column(f.U, k), refRow)
-			white := row.AutocorrV < 0.3 && !structured(row.AutocorrV, m)
-			if flat >= 0.8 && white && flat > bestFlat {
-				best, bestFlat = k, flat
-			}
+	// Smoothest basis of the factors above the threshold, and the reference-noise pattern.
+	var kAbove int
+	for _, row := range rep.Table {
+		if row.AboveNoiseEdge {
+			kAbove++
 		}
-		if best >= 0 {
-			rep.Table[best].ReferencePattern = true
-			rep.ReferencePatternFactor = best
-		}
-	} else {
-		for k, row := range rep.Table {
-			if row.AboveNoiseEdge && row.AutocorrV < 0.3 && !structured(row.AutocorrV, m) && flatness(column(f.U, k), -1) >= 0.8 {
-				warn("factor %d has a flat time vector and a white spectrum, like the reference noise of difference data; set ReferenceRow if these are difference spectra", k+1)
-				break
+	}
+	dirs := smoothestBasis(f, kAbove, refRow)
+	patDir := -1
+	if len(dirs) > 0 {
+		d0 := dirs[0]
+		white := d0.autocorrV < 0.3 && !structured(d0.autocorrV, m)
+		switch {
+		case refRow >= 0 && n >= 3 && white && d0.flatness >= 0.8:
+			patDir = 0
+			main := 0
+			for k, z := range d0.weights {
+				if math.Abs(z) > math.Abs(d0.weights[main]) {
+					main = k
+				}
 			}
+			rep.Table[main].ReferencePattern = true
+			rep.ReferencePatternFactor = main
+		case refRow < 0 && white && flatness(d0.time, -1) >= 0.8:
+			warn("the span of the significant factors holds a direction with a flat time vector and a white spectrum, like the reference noise of difference data; set ReferenceRow if these are difference spectra")
 		}
 	}
 	pat := rep.ReferencePatternFactor
-	excluded := func(k int) int { // how many of the first k factors are the pattern
-		if pat >= 0 && pat < k {
+	excluded := func(k int) int { // 1 if a criterion's first k factors include the pattern
+		if pat >= 0 && (pat < k || k >= kAbove) {
 			return 1
 		}
 		return 0
 	}
 
 	// (1) noise floor
-	var nFloor int
-	for _, row := range rep.Table {
-		if row.AboveNoiseEdge && !row.ReferencePattern {
-			nFloor++
-		}
-	}
-	nFloor = min(nFloor, maxRank)
+	nFloor := min(kAbove-excluded(kAbove), maxRank)
 	// (2a) IND minimum over k = 0..min(maxRank, c−1) (+1 when the pattern is among them)
 	kInd := 0
 	if f.FrobeniusSq > 0 {
 		best := math.Inf(1)
-		top := min(maxRank+excluded(maxRank+1), c-1, len(f.S))
+		top := min(maxRank+excluded(maxRank), c-1, len(f.S))
 		for k := 0; k <= top; k++ {
 			_, v := ind(k)
 			if v < best {
@@ -313,6 +318,7 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 			}
 		}
 		kInd -= excluded(kInd)
+		kInd = max(kInd, 0)
 	}
 	// (2b) F-test, sequential from the largest factor
 	var nF int
@@ -338,26 +344,27 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 		}
 		nStruct++
 	}
-	// consensus
-	var est int
-	var counted, rejected []string
-	for _, row := range rep.Table {
+	// consensus: the factors above the threshold, re-diagonalized without the pattern
+	// direction, that have a structured spectrum and a time vector that is not white.
+	var est, rough int
+	for _, sf := range signalFactors(f, kAbove, dirs, patDir) {
+		aU, aV := Autocorrelation(sf.u), Autocorrelation(sf.v)
 		switch {
-		case row.ReferencePattern || !row.AboveNoiseEdge:
-		case row.Structured && est < maxRank:
-			est++
-			counted = append(counted, fmt.Sprint(row.K))
-		case row.Structured:
-			warn("factor %d is above the noise and structured but exceeds MaxRank %d", row.K, maxRank)
+		case (!judgeable(m, kAbove) || structured(aV, m)) && (!judgeable(n, kAbove) || notWhite(aU, n)):
+			if est < maxRank {
+				est++
+			} else {
+				warn("a structured factor above the noise exceeds MaxRank %d", maxRank)
+			}
 		default:
-			rejected = append(rejected, fmt.Sprint(row.K))
+			rough++
 		}
 	}
 	rep.Estimate = est
 
 	patNote := ""
 	if pat >= 0 {
-		patNote = fmt.Sprintf("; factor %d (reference-noise pattern) not counted", pat+1)
+		patNote = fmt.Sprintf("; the reference-noise pattern (mostly factor %d) not counted", pat+1)
 	}
 	rep.Criteria = []Criterion{
 		{Name: CriterionNoiseFloor, Estimate: nFloor,
@@ -365,7 +372,7 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 			Detail: fmt.Sprintf("%d singular values exceed %.4g (σ = %.4g from %s, edge %.4g)%s", nFloor, rep.Threshold, sigma, src, rep.NoiseEdge, patNote)},
 		{Name: CriterionIND, Estimate: kInd,
 			Source: "Malinowski, Anal. Chem. 1977 (indicator function IND = RE/(c−k)²)",
-			Detail: fmt.Sprintf("IND(k) = RE(k)/(c−k)² is smallest at k = %d over k = 0..%d%s", kInd+excluded(kInd+1), min(maxRank, c-1), patNote)},
+			Detail: fmt.Sprintf("IND(k) = RE(k)/(c−k)² is smallest at k = %d over k = 0..%d%s", kInd+excluded(kInd+1), min(maxRank+excluded(maxRank), c-1), patNote)},
 		{Name: CriterionFTest, Estimate: nF,
 			Source: "Malinowski, J. Chemometrics 1989 (F-test on reduced eigenvalues)",
 			Detail: fmt.Sprintf("%d leading factors are significant at level %.3g against the pooled reduced eigenvalues of the rest%s", nF, alpha, patNote)},
@@ -379,17 +386,17 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 		rep.Reason = "the matrix is exactly zero (identical single beams: nothing happened), so there are no factors"
 	default:
 		var b strings.Builder
-		fmt.Fprintf(&b, "%d factor(s) both above the noise threshold %.4g and structured", est, rep.Threshold)
-		if len(counted) > 0 {
-			fmt.Fprintf(&b, " (factors %s)", strings.Join(counted, ", "))
+		fmt.Fprintf(&b, "%d factor(s) above the noise threshold %.4g (σ = %.4g, %s)", kAbove, rep.Threshold, sigma, src)
+		if kAbove > 0 {
+			fmt.Fprintf(&b, "; in their span %d smooth direction(s) (time and spectrum both structured) are counted", est)
 		}
-		if len(rejected) > 0 {
-			fmt.Fprintf(&b, "; factor(s) %s above the threshold but with a white time or spectrum vector, so not counted", strings.Join(rejected, ", "))
+		if rough > 0 {
+			fmt.Fprintf(&b, "; %d direction(s) with a white time or spectrum vector are not", rough)
 		}
-		if pat >= 0 {
-			fmt.Fprintf(&b, "; factor %d is the reference-noise pattern of row %d and is not a species", pat+1, refRow)
+		if patDir >= 0 {
+			fmt.Fprintf(&b, "; one direction (mostly factor %d) is the reference-noise pattern of row %d, not a species", pat+1, refRow)
 		}
-		b.WriteString(".")
+		fmt.Fprintf(&b, ": estimate %d.", est)
 		rep.Reason = b.String()
 	}
 	if f.FrobeniusSq > 0 {
@@ -456,3 +463,140 @@ func zeroRows(d *mat.Dense) []int {
 	}
 	return z
 }
+
+// direction is one vector w = V_K z of the smoothest basis of the leading K factors.
+type direction struct {
+	weights              []float64 // z: coordinates on the factors
+	autocorrV, autocorrU float64   // of w and of its time vector U_K S_K z
+	flatness             float64   // of the time vector, the reference row skipped
+	time                 []float64
+}
+
+// smoothestBasis rotates the leading k factors to the orthonormal basis of span(V_k) that
+// diagonalizes the lag-1 autocorrelation: w = V_k z with z the eigenvectors of the k x k
+// matrix M = V_kᵀ A V_k, (wᵀAw = Σ w_j w_{j+1}), so that zᵀMz is each direction's
+// autocorrelation. Why rotate: when two singular values are close (a weak species and the
+// reference-noise pattern of similar size) the SVD mixes them and neither factor looks
+// like what it is; the smooth and the white parts of the subspace separate cleanly
+// because they differ in exactly the property M measures. Returned in ascending
+// autocorrelation order (the whitest first).
+func smoothestBasis(f *Factors, k, refRow int) []direction {
+	if k <= 0 {
+		return nil
+	}
+	n, _ := f.U.Dims()
+	m, _ := f.V.Dims()
+	mm := mat.NewSymDense(k, nil)
+	for a := 0; a < k; a++ {
+		for b := a; b < k; b++ {
+			var s float64
+			for j := 0; j+1 < m; j++ {
+				s += f.V.At(j, a)*f.V.At(j+1, b) + f.V.At(j+1, a)*f.V.At(j, b)
+			}
+			mm.SetSym(a, b, s/2)
+		}
+	}
+	var eig mat.EigenSym
+	if !eig.Factorize(mm, true) {
+		return nil
+	}
+	vals := eig.Values(nil)
+	var z mat.Dense
+	eig.VectorsTo(&z)
+	out := make([]direction, k)
+	for l := 0; l < k; l++ {
+		w := make([]float64, k)
+		for a := range w {
+			w[a] = z.At(a, l)
+		}
+		t := make([]float64, n)
+		for i := range t {
+			var s float64
+			for a := 0; a < k; a++ {
+				s += f.U.At(i, a) * f.S[a] * w[a]
+			}
+			t[i] = s
+		}
+		out[l] = direction{weights: w, autocorrV: vals[l], autocorrU: Autocorrelation(t), flatness: flatness(t, refRow), time: t}
+	}
+	return out
+}
+
+type signalFactor struct {
+	s    float64
+	u, v []float64
+}
+
+// signalFactors returns the SVD of the leading k factors projected off the pattern
+// direction dirs[patDir] (all k factors unchanged when patDir < 0). With Z the remaining
+// eigenvectors (k x (k−1)) and S_k Z = P Σ Qᵀ, the projection U_k S_k Z Zᵀ V_kᵀ has the
+// factors U_k P, Σ, V_k Z Q.
+func signalFactors(f *Factors, k int, dirs []direction, patDir int) []signalFactor {
+	if k <= 0 {
+		return nil
+	}
+	if patDir < 0 || len(dirs) != k {
+		out := make([]signalFactor, k)
+		for a := range out {
+			out[a] = signalFactor{s: f.S[a], u: column(f.U, a), v: column(f.V, a)}
+		}
+		return out
+	}
+	if k == 1 {
+		return nil
+	}
+	z := mat.NewDense(k, k-1, nil)
+	col := 0
+	for l, dr := range dirs {
+		if l == patDir {
+			continue
+		}
+		for a := 0; a < k; a++ {
+			z.Set(a, col, dr.weights[a])
+		}
+		col++
+	}
+	sz := mat.NewDense(k, k-1, nil)
+	for a := 0; a < k; a++ {
+		for b := 0; b < k-1; b++ {
+			sz.Set(a, b, f.S[a]*z.At(a, b))
+		}
+	}
+	var sv mat.SVD
+	if !sv.Factorize(sz, mat.SVDThin) {
+		return nil
+	}
+	vals := sv.Values(nil)
+	var p, q mat.Dense
+	sv.UTo(&p)
+	sv.VTo(&q)
+	n, _ := f.U.Dims()
+	m, _ := f.V.Dims()
+	var u, zq, v mat.Dense
+	u.Mul(f.U.Slice(0, n, 0, k), &p)
+	zq.Mul(z, &q)
+	v.Mul(f.V.Slice(0, m, 0, k), &zq)
+	out := make([]signalFactor, len(vals))
+	for a := range out {
+		out[a] = signalFactor{s: vals[a], u: column(&u, a), v: column(&v, a)}
+	}
+	return out
+}
+
+// notWhite is the lenient test for time vectors, which are often short (a dozen spectra):
+// it fails only a vector whose autocorrelation is within one white-noise standard deviation
+// of the white mean −1/l, i.e. looks like noise; short smooth-but-noisy profiles pass.
+func notWhite(a float64, l int) bool {
+	if l < minStructureLen {
+		return true
+	}
+	return (a+1/float64(l))*math.Sqrt(float64(l)) >= notWhiteZ
+}
+
+const notWhiteZ = 1
+
+// judgeable reports whether vectors of length l can show their smoothness when k of them
+// span the signal: the k-th of k orthogonal smooth vectors changes sign about k−1 times
+// (like an orthogonal polynomial), and its lag-1 autocorrelation, ≈ cos(πk/l), stays clearly
+// above white noise only while l ≥ 5k (cos(π/5) ≈ 0.8).
+func judgeable(l, k int) bool { return l >= minStructureLen && l >= 5*k }
