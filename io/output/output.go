@@ -184,9 +184,13 @@ func (t Table) CSV() []byte {
 // JSON renders v indented, with a final newline. encoding/json refuses NaN
 // and Inf, which is the guarantee that summary.json holds none.
 func JSON(v any) ([]byte, error) {
-	b, err := json.MarshalIndent(v, "", "  ")
-	if err != nil {
+	var b bytes.Buffer
+	enc := json.NewEncoder(&b)
+	// Citations hold "&" and "<"; HTML escaping would make them unreadable.
+	enc.SetEscapeHTML(false)
+	enc.SetIndent("", "  ")
+	if err := enc.Encode(v); err != nil {
 		return nil, fmt.Errorf("encoding summary: %w", err)
 	}
-	return append(b, '\n'), nil
+	return b.Bytes(), nil
 }
