@@ -262,7 +262,6 @@ func TestConsensusSimulation(t *testing.T) {
 	t.Logf("consensus right in %d of 20 %v", right, misses)
 }
 
-
 // Difference spectra ΔA(t) = A(t) − A(ref) with a noisy reference (PRIMER §1): the
 // reference's noise is one fixed pattern, a factor with a flat time vector and a white
 // spectrum, that must be found and not counted.
@@ -407,4 +406,29 @@ func TestEstimateRankTruncatedFactors(t *testing.T) {
 		}
 	}
 	_ = sort.Float64s
+}
+
+// When σ is underestimated (here given 40 % too small) the noise floor counts noise factors;
+// their spectrum vectors are white, so the structure test must keep the consensus right.
+// Expected values: the simulated number of species (construction).
+func TestConsensusSurvivesUnderestimatedSigma(t *testing.T) {
+	rng := newRNG(60)
+	for cs := 0; cs < 8; cs++ {
+		k := 1 + cs%4
+		n, m := 50, 300
+		d := product(randomProfiles(rng, n, k, 0), randomSpectra(rng, m, k))
+		clean := singularValues(t, d)
+		sigma := clean[k-1] / (5 * (math.Sqrt(float64(n)) + math.Sqrt(float64(m))))
+		addNoise(rng, d, sigma)
+		r, err := EstimateRank(d, nil, RankOptions{Sigma: 0.6 * sigma, ReferenceRow: -1})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if nf := criterion(r, CriterionNoiseFloor).Estimate; nf <= k {
+			t.Fatalf("case %d: noise floor %d with σ too small — the scenario does not test the veto", cs, nf)
+		}
+		if r.Estimate != k {
+			t.Errorf("case %d: Estimate %d, want %d: %s", cs, r.Estimate, k, r.Reason)
+		}
+	}
 }

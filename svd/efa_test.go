@@ -1,0 +1,183 @@
+package svd
+
+import (
+	"math"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Definition of EFA (Gampp et al., Talanta 1985): forward row i holds the singular values of
+// rows 0..i, backward row i those of rows i..n−1. Checked against a direct LAPACK SVD of each
+// block.
+func TestEFAAgainstBlockSVDs(t *testing.T) {
+	rng := newRNG(1985)
+	n, m := 30, 50
+	d := product(randomProfiles(rng, n, 3, 0), randomSpectra(rng, m, 3))
+	addNoise(rng, d, 1e-3)
+	e, err := EFA(d, 5)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !e.Exact || e.Columns != n {
+		t.Fatalf("exact %v, columns %d", e.Exact, e.Columns)
+	}
+	for i := 0; i < n; i++ {
+		fw := singularValues(t, d.Slice(0, i+1, 0, m))
+		bw := singularValues(t, d.Slice(i, n, 0, m))
+		for k := 0; k < 5; k++ {
+			check := func(name string, got float64, vals []float64) {
+				want := math.Log10(e.Floor)
+				if k < len(vals) && vals[k] > e.Floor {
+					want = math.Log10(vals[k])
+				}
+				if math.Abs(got-want) > 1e-9 {
+					t.Errorf("%s row %d value %d: %g, block SVD %g", name, i, k, got, want)
+				}
+			}
+			check("forward", e.Forward.At(i, k), fw)
+			check("backward", e.Backward.At(i, k), bw)
+		}
+	}
+}
+
+// Projected EFA on a matrix too large for the exact sweep: signal values agree with the
+// block SVDs, noise values are lower bounds (a projection cannot raise singular values,
+// Cauchy interlacing).
+func TestEFAProjected(t *testing.T) {
+	rng := newRNG(1987)
+	n, m := 300, 600
+	d := product(randomProfiles(rng, n, 3, 0), randomSpectra(rng, m, 3))
+	addNoise(rng, d, 1e-3)
+	e, err := EFA(d, 5)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if e.Exact {
+		t.Fatal("expected the projected sweep for 300x600")
+	}
+	for _, i := range []int{40, 150, 299} {
+		fw := singularValues(t, d.Slice(0, i+1, 0, m))
+		edge := 1e-3 * (math.Sqrt(float64(i+1)) + math.Sqrt(float64(m))) // Marchenko–Pastur edge of the block
+		for k := 0; k < 5; k++ {
+			got := math.Pow(10, e.Forward.At(i, k))
+			if fw[k] > 3*edge && math.Abs(got/fw[k]-1) > 1e-3 {
+				t.Errorf("row %d signal value %d: %g, block SVD %g", i, k, got, fw[k])
+			}
+			if got > fw[k]*(1+1e-9) {
+				t.Errorf("row %d value %d: %g above the exact %g", i, k, got, fw[k])
+			}
+		}
+	}
+}
+
+// Analytic presence windows: species 1 on rows 0..39, species 2 on rows 15..52, species 3
+// from row 30 to the end (profiles exactly zero outside, by construction). First-in-first-out
+// pairing (Maeder 1987) must give windows [0,39], [15,52], [30,59].
+func TestEFAWindowsAnalytic(t *testing.T) {
+	n, m := 60, 200
+	c := mat.NewDense(n, 3, nil)
+	for i := 0; i < n; i++ {
+		fi := float64(i)
+		switch {
+		case i <= 30:
+			c.Set(i, 0, 1)
+		case i <= 39:
+			c.Set(i, 0, 1-0.8*(fi-30)/9)
+		}
+		if i >= 15 && i <= 52 {
+			c.Set(i, 1, (1-math.Exp(-(fi-14)/5))*math.Min(1, (53-fi)/6))
+		}
+		if i >= 30 {
+			c.Set(i, 2, 1-math.Exp(-(fi-29)/4))
+		}
+	}
+	s := mat.NewDense(m, 3, nil)
+	for k, band := range [][]float64{gaussBand(m, 50, 12), gaussBand(m, 95, 15), gaussBand(m, 140, 10)} {
+		for j := range band {
+			s.Set(j, k, band[j])
+		}
+	}
+	d := product(c, s)
+	sigma := 1e-3
+	addNoise(newRNG(15), d, sigma)
+	e, err := EFA(d, 4)
+	if err != nil {
+		t.Fatal(err)
+	}
+	w := e.Windows(3, sigma)
+	wantA, wantD := []int{0, 15, 30}, []int{39, 52, 59}
+	for j := 0; j < 3; j++ {
+		if abs(w.Appear[j]-wantA[j]) > 1 || abs(w.Disappear[j]-wantD[j]) > 1 {
+			t.Errorf("component %d: window [%d, %d], want [%d, %d]", j, w.Appear[j], w.Disappear[j], wantA[j], wantD[j])
+		}
+	}
+	for _, row := range []struct{ i, rank int }{{5, 1}, {20, 2}, {35, 3}, {45, 2}, {57, 1}} {
+		if w.LocalRank[row.i] != row.rank {
+			t.Errorf("local rank at row %d = %d, want %d", row.i, w.LocalRank[row.i], row.rank)
+		}
+	}
+	// With the noise level left to EFA's own estimate the windows are the same.
+	w2 := e.Windows(3, 0)
+	for j := 0; j < 3; j++ {
+		if abs(w2.Appear[j]-wantA[j]) > 1 || abs(w2.Disappear[j]-wantD[j]) > 1 {
+			t.Errorf("estimated σ %g: component %d window [%d, %d]", e.Sigma, j, w2.Appear[j], w2.Disappear[j])
+		}
+	}
+	// Initial profiles resemble the true ones (cosine similarity), zero outside the windows.
+	p := w.InitialProfiles(d, 3)
+	if p == nil {
+		t.Fatal("no profiles")
+	}
+	for j, min := range []float64{0.99, 0.95, 0.99} {
+		got := cosine(p.ColView(j), c.ColView(j))
+		if got < min {
+			t.Errorf("profile %d: cosine %.4f with the true profile, want ≥ %.2f", j, got, min)
+		}
+		for i := 0; i < n; i++ {
+			if !w.Present[i][j] && p.At(i, j) != 0 {
+				t.Errorf("profile %d nonzero at absent row %d", j, i)
+				break
+			}
+		}
+	}
+}
+
+func abs(i int) int {
+	if i < 0 {
+		return -i
+	}
+	return i
+}
+
+func cosine(a, b mat.Vector) float64 {
+	return mat.Dot(a, b) / (mat.Norm(a, 2) * mat.Norm(b, 2))
+}
+
+func TestEFAZeroAndErrors(t *testing.T) {
+	d := mat.NewDense(8, 20, nil)
+	e, err := EFA(d, 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, v := range append(e.Forward.RawMatrix().Data, e.Backward.RawMatrix().Data...) {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			t.Fatal("non-finite EFA value for the zero matrix")
+		}
+	}
+	w := e.Windows(2, 0)
+	for i, r := range w.LocalRank {
+		if r != 0 {
+			t.Errorf("zero matrix: local rank %d at row %d", r, i)
+		}
+	}
+	if p := w.InitialProfiles(d, 2); p == nil || mat.Norm(p, 2) != 0 {
+		t.Errorf("zero matrix: profiles %v", p)
+	}
+	if _, err := EFA(nil, 2); err == nil {
+		t.Error("nil: no error")
+	}
+	if _, err := EFA(d, -1); err == nil {
+		t.Error("negative maxFactors: no error")
+	}
+}
