@@ -117,7 +117,11 @@ func Purest(d *mat.Dense, k int, offsetPercent float64, signed bool) ([]int, err
 				if err := chol.SolveVecTo(sol, rj); err != nil {
 					continue
 				}
-				w = detSS * (diag[j] - mat.Dot(rj, sol))
+				schur := diag[j] - mat.Dot(rj, sol)
+				if schur <= 1e-10*diag[j] {
+					continue // a combination of the chosen channels, up to rounding
+				}
+				w = detSS * schur
 			}
 			if v := w * purity[j]; v > bestVal {
 				best, bestVal = j, v

@@ -1,0 +1,64 @@
+package svd
+
+import (
+	"fmt"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Benchmarks only (go test -bench): no timing assertions anywhere.
+
+func benchMatrix(n, m int) *mat.Dense {
+	rng := newRNG(uint64(n*7919 + m))
+	d := product(randomProfiles(rng, n, 4, 0), randomSpectra(rng, m, 4))
+	addNoise(rng, d, 1e-3)
+	return d
+}
+
+func BenchmarkDecompose(b *testing.B) {
+	for _, sh := range [][2]int{{100, 1000}, {2000, 3000}} {
+		d := benchMatrix(sh[0], sh[1])
+		for _, c := range []struct {
+			method string
+			max    int
+		}{{MethodAuto, 10}, {MethodExact, 0}, {MethodGram, 10}, {MethodRandomized, 10}} {
+			if sh[0] > 1000 && c.method == MethodExact {
+				continue // minutes with the pure-Go LAPACK; not a path auto takes at this size
+			}
+			b.Run(fmt.Sprintf("%dx%d/%s/r=%d", sh[0], sh[1], c.method, c.max), func(b *testing.B) {
+				for b.Loop() {
+					if _, err := Decompose(d, DecomposeOptions{Method: c.method, MaxFactors: c.max}); err != nil {
+						b.Fatal(err)
+					}
+				}
+			})
+		}
+	}
+}
+
+func BenchmarkEFA(b *testing.B) {
+	for _, sh := range [][2]int{{100, 1000}, {2000, 3000}} {
+		d := benchMatrix(sh[0], sh[1])
+		b.Run(fmt.Sprintf("%dx%d", sh[0], sh[1]), func(b *testing.B) {
+			for b.Loop() {
+				if _, err := EFA(d, 8); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
+	}
+}
+
+func BenchmarkEstimateRank(b *testing.B) {
+	d := benchMatrix(2000, 3000)
+	f, err := Decompose(d, DecomposeOptions{MaxFactors: 14})
+	if err != nil {
+		b.Fatal(err)
+	}
+	for b.Loop() {
+		if _, err := EstimateRank(d, f, RankOptions{ReferenceRow: -1}); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
