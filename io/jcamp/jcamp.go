@@ -187,7 +187,8 @@ const (
 type openBlock struct {
 	b        Block
 	rec      record
-	lastText int // index in b.Labels of the label that text lines continue; -1 none
+	lastText int      // index in b.Labels of the label that text lines continue; -1 none
+	pend     []string // continuation lines of that label, not yet joined
 	// data of the block's XYDATA or XYPOINTS record
 	hasData  bool
 	dataKind record
@@ -288,13 +289,22 @@ func (p *parser) appendText(ob *openBlock, t string) error {
 	if p.labelBytes > maxLabelBytes {
 		return p.errf(p.line, nil, "label values exceed %d bytes; the file is not a spectrum file or is corrupt", maxLabelBytes)
 	}
-	l := &ob.b.Labels[ob.lastText]
-	if l.Value == "" {
-		l.Value = t
-	} else {
-		l.Value += "\n" + t
-	}
+	ob.pend = append(ob.pend, t)
 	return nil
+}
+
+// flushText joins the continuation lines gathered for the last label; they
+// are kept apart until then so that a long value costs linear time.
+func (ob *openBlock) flushText() {
+	if len(ob.pend) == 0 {
+		return
+	}
+	l := &ob.b.Labels[ob.lastText]
+	if l.Value != "" {
+		ob.pend = append([]string{l.Value}, ob.pend...)
+	}
+	l.Value = strings.Join(ob.pend, "\n")
+	ob.pend = ob.pend[:0]
 }
 
 func (p *parser) label(t string) error {
@@ -308,6 +318,9 @@ func (p *parser) label(t string) error {
 		return p.errf(p.line, nil, "label with an empty name; write it as ##NAME=value")
 	}
 	ob := p.top()
+	if ob != nil {
+		ob.flushText()
+	}
 	switch {
 	case name == "TITLE":
 		if ob != nil && !ob.link {

@@ -133,9 +133,12 @@ func writeXYData(lw *lineWriter, b Block, dx, minY, maxY float64) {
 	lw.label("MINX", formatFloat(math.Min(firstX, lastX)))
 	lw.label("MAXX", formatFloat(math.Max(firstX, lastX)))
 	lw.label("NPOINTS", strconv.Itoa(n))
-	lw.label("FIRSTY", formatFloat(float64(iy[0])*yf))
-	lw.label("MINY", formatFloat(float64(imin)*yf))
-	lw.label("MAXY", formatFloat(float64(imax)*yf))
+	// Ten significant digits print integer*10^k exactly, without the
+	// binary noise of the product.
+	scaled := func(i int64) string { return strconv.FormatFloat(float64(i)*yf, 'g', 10, 64) }
+	lw.label("FIRSTY", scaled(iy[0]))
+	lw.label("MINY", scaled(imin))
+	lw.label("MAXY", scaled(imax))
 	lw.line("##XYDATA=(X++(Y..Y))")
 	if n > 1 {
 		dx = (lastX - firstX) / float64(n-1) // as a reader will compute it
@@ -276,5 +279,7 @@ func (lw *lineWriter) wrapped(prefix, s string) {
 // reader trims each line, so neither side may start or end in blanks that
 // matter, and the tail must not look like a label.
 func okPiece(head, tail string) bool {
-	return tail != "" && strings.TrimSpace(tail) == tail && strings.TrimSpace(head) != "" && !startsLabel(tail)
+	blank := func(c byte) bool { return c == ' ' || c == '\t' || c == '\x1a' }
+	return tail != "" && !blank(tail[0]) && !blank(tail[len(tail)-1]) &&
+		strings.Trim(head, " \t\x1a") != "" && !strings.HasPrefix(tail, "##")
 }
