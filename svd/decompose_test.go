@@ -30,17 +30,17 @@ func TestDecomposeSmallAgainstNumpy(t *testing.T) {
 			tol = 1e-10 // squared condition number of the Gram route
 		}
 		for k, s := range ref.S {
-			if math.Abs(f.S[k]-s) > tol*ref.S[0] {
+			if !(math.Abs(f.S[k]-s) <= tol*ref.S[0]) {
 				t.Errorf("%s: s_%d = %.16g, numpy %.16g", method, k+1, f.S[k], s)
 			}
 			// Vectors, with the shared sign convention (largest |v| positive).
 			for i := 0; i < 7; i++ {
-				if math.Abs(f.U.At(i, k)-ref.U[i][k]) > 1e3*tol {
+				if !(math.Abs(f.U.At(i, k)-ref.U[i][k]) <= 1e3*tol) {
 					t.Errorf("%s: U[%d,%d] = %g, numpy %g", method, i, k, f.U.At(i, k), ref.U[i][k])
 				}
 			}
 			for j := 0; j < 5; j++ {
-				if math.Abs(f.V.At(j, k)-ref.V[j][k]) > 1e3*tol {
+				if !(math.Abs(f.V.At(j, k)-ref.V[j][k]) <= 1e3*tol) {
 					t.Errorf("%s: V[%d,%d] = %g, numpy %g", method, j, k, f.V.At(j, k), ref.V[j][k])
 				}
 			}
@@ -91,11 +91,11 @@ func TestDecomposeFormulaAgainstNumpy(t *testing.T) {
 				t.Fatalf("%s %dx%d: %d values, want %d", tc.method, cs.N, cs.M, len(f.S), len(cs.S))
 			}
 			for k := 0; k < tc.compare; k++ {
-				if math.Abs(f.S[k]-cs.S[k]) > tc.tol*s1 {
+				if !(math.Abs(f.S[k]-cs.S[k]) <= tc.tol*s1) {
 					t.Errorf("%s %dx%d: s_%d = %.15g, numpy %.15g", tc.method, cs.N, cs.M, k+1, f.S[k], cs.S[k])
 				}
 			}
-			if math.Abs(f.FrobeniusSq-cs.FrobeniusSq) > 1e-12*cs.FrobeniusSq {
+			if !(math.Abs(f.FrobeniusSq-cs.FrobeniusSq) <= 1e-12*cs.FrobeniusSq) {
 				t.Errorf("%s: ‖D‖² = %.15g, numpy %.15g", tc.method, f.FrobeniusSq, cs.FrobeniusSq)
 			}
 			checkOrthonormal(t, tc.method+" U", f.U)
@@ -103,7 +103,7 @@ func TestDecomposeFormulaAgainstNumpy(t *testing.T) {
 			// Eckart–Young: ‖D − D_r‖² equals the tail energy FrobeniusSq − Σ s_k².
 			if tc.max > 0 {
 				e := reconstructionError(d, f)
-				if math.Abs(e*e-f.TailSq(len(f.S))) > 1e-8*cs.FrobeniusSq {
+				if !(math.Abs(e*e-f.TailSq(len(f.S))) <= 1e-8*cs.FrobeniusSq) {
 					t.Errorf("%s: ‖D − D_r‖² = %g, tail %g", tc.method, e*e, f.TailSq(len(f.S)))
 				}
 			}
@@ -122,7 +122,7 @@ func checkOrthonormal(t *testing.T, name string, a *mat.Dense) {
 			if i == j {
 				want = 1
 			}
-			if math.Abs(g.At(i, j)-want) > 1e-9 {
+			if !(math.Abs(g.At(i, j)-want) <= 1e-9) {
 				t.Errorf("%s: (AᵀA)[%d,%d] = %g (definition: orthonormal columns)", name, i, j, g.At(i, j))
 				return
 			}
@@ -156,12 +156,12 @@ func TestDecomposeMethodsAgree(t *testing.T) {
 			t.Fatal(err)
 		}
 		for k := 0; k < 10; k++ {
-			if math.Abs(gr.S[k]-ex.S[k]) > 1e-10*ex.S[0] {
+			if !(math.Abs(gr.S[k]-ex.S[k]) <= 1e-10*ex.S[0]) {
 				t.Errorf("%dx%d gram s_%d = %.15g, exact %.15g", n, m, k+1, gr.S[k], ex.S[k])
 			}
 		}
 		for k := 0; k < 4; k++ {
-			if math.Abs(rd.S[k]-ex.S[k]) > 1e-9*ex.S[k] {
+			if !(math.Abs(rd.S[k]-ex.S[k]) <= 1e-9*ex.S[k]) {
 				t.Errorf("%dx%d randomized s_%d = %.15g, exact %.15g", n, m, k+1, rd.S[k], ex.S[k])
 			}
 			// Same vectors, same sign (shared sign convention).
@@ -170,7 +170,7 @@ func TestDecomposeMethodsAgree(t *testing.T) {
 				a, b *mat.Dense
 			}{{"U", rd.U, ex.U}, {"V", rd.V, ex.V}, {"gram U", gr.U, ex.U}, {"gram V", gr.V, ex.V}} {
 				dot := mat.Dot(p.a.ColView(k), p.b.ColView(k))
-				if math.Abs(dot-1) > 1e-6 {
+				if !(math.Abs(dot-1) <= 1e-6) {
 					t.Errorf("%dx%d %s_%d · exact = %g", n, m, p.name, k+1, dot)
 				}
 			}

@@ -31,7 +31,7 @@ func TestEFAAgainstBlockSVDs(t *testing.T) {
 				if k < len(vals) && vals[k] > e.Floor {
 					want = math.Log10(vals[k])
 				}
-				if math.Abs(got-want) > 1e-9 {
+				if !(math.Abs(got-want) <= 1e-9) {
 					t.Errorf("%s row %d value %d: %g, block SVD %g", name, i, k, got, want)
 				}
 			}
@@ -61,7 +61,7 @@ func TestEFAProjected(t *testing.T) {
 		edge := 1e-3 * (math.Sqrt(float64(i+1)) + math.Sqrt(float64(m))) // Marchenko–Pastur edge of the block
 		for k := 0; k < 5; k++ {
 			got := math.Pow(10, e.Forward.At(i, k))
-			if fw[k] > 3*edge && math.Abs(got/fw[k]-1) > 1e-3 {
+			if fw[k] > 3*edge && !(math.Abs(got/fw[k]-1) <= 1e-3) {
 				t.Errorf("row %d signal value %d: %g, block SVD %g", i, k, got, fw[k])
 			}
 			if got > fw[k]*(1+1e-9) {

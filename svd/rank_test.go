@@ -29,7 +29,7 @@ func TestNoiseEdgeGaussian(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			if math.Abs(rr.NoiseEdge-edge) > 1e-12*edge {
+			if !(math.Abs(rr.NoiseEdge-edge) <= 1e-12*edge) {
 				t.Errorf("NoiseEdge %g, want %g", rr.NoiseEdge, edge)
 			}
 			if rr.Table[0].AboveNoiseEdge {
@@ -60,10 +60,10 @@ func TestMarchenkoPasturMedian(t *testing.T) {
 		}
 	}
 	want := 4 * math.Sin(lo) * math.Sin(lo)
-	if got := mpMedian(1); math.Abs(got-want) > 1e-6 {
+	if got := mpMedian(1); !(math.Abs(got-want) <= 1e-6) {
 		t.Errorf("μ_1 = %.9f, analytic %.9f", got, want)
 	}
-	if got := mpMedian(1e-6); math.Abs(got-1) > 1e-2 {
+	if got := mpMedian(1e-6); !(math.Abs(got-1) <= 1e-2) {
 		t.Errorf("μ_(1e-6) = %g, want → 1", got)
 	}
 	// Gavish & Donoho (2014) σ estimate on white noise (definition of σ).
@@ -71,7 +71,7 @@ func TestMarchenkoPasturMedian(t *testing.T) {
 	for _, sh := range [][2]int{{60, 400}, {200, 200}, {500, 80}} {
 		d := noiseMatrix(rng, sh[0], sh[1], 0.7)
 		got := sigmaFromSpectrum(singularValues(t, d), sh[0], sh[1])
-		if math.Abs(got/0.7-1) > 0.03 {
+		if !(math.Abs(got/0.7-1) <= 0.03) {
 			t.Errorf("%v: σ̂ = %g, want 0.7", sh, got)
 		}
 	}
@@ -90,7 +90,7 @@ func TestAutocorrelationDefinition(t *testing.T) {
 		{[]float64{5}, 0},
 	}
 	for _, c := range cases {
-		if got := Autocorrelation(c.x); math.Abs(got-c.want) > 1e-15 {
+		if got := Autocorrelation(c.x); !(math.Abs(got-c.want) <= 1e-15) {
 			t.Errorf("Autocorrelation(%v) = %g, want %g", c.x, got, c.want)
 		}
 	}
@@ -99,7 +99,7 @@ func TestAutocorrelationDefinition(t *testing.T) {
 	for i := range x {
 		x[i] = math.Sin(0.1 * float64(i))
 	}
-	if got := Autocorrelation(x); math.Abs(got-math.Cos(0.1)) > 1e-3 {
+	if got := Autocorrelation(x); !(math.Abs(got-math.Cos(0.1)) <= 1e-3) {
 		t.Errorf("sin: %g, want cos(0.1) = %g", got, math.Cos(0.1))
 	}
 }
@@ -120,7 +120,7 @@ func TestSigmaFromPreRows(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if r.SigmaSource != SigmaPreRows || math.Abs(r.Sigma/2e-3-1) > 0.05 {
+	if r.SigmaSource != SigmaPreRows || !(math.Abs(r.Sigma/2e-3-1) <= 0.05) {
 		t.Errorf("σ = %g from %q, want 2e-3 from pre-reaction rows", r.Sigma, r.SigmaSource)
 	}
 }
@@ -150,7 +150,7 @@ func TestINDMinimumAtTrueRank(t *testing.T) {
 		}
 		c := float64(len(s))
 		re := math.Sqrt(tail / (float64(m) * (c - float64(k))))
-		if row := r.Table[k-1]; math.Abs(row.RE-re) > 1e-9*re || math.Abs(row.IND-re/((c-float64(k))*(c-float64(k)))) > 1e-9*row.IND {
+		if row := r.Table[k-1]; !(math.Abs(row.RE-re) <= 1e-9*re) || !(math.Abs(row.IND-re/((c-float64(k))*(c-float64(k)))) <= 1e-9*row.IND) {
 			t.Errorf("rank %d: RE %g IND %g, definition %g %g", k, row.RE, row.IND, re, re/((c-float64(k))*(c-float64(k))))
 		}
 	}
@@ -186,7 +186,7 @@ func TestFTestDefinition(t *testing.T) {
 		}
 		f := num / ((rr - float64(k) + 1) * (c - float64(k) + 1)) * s[k-1] * s[k-1] / tail
 		p := fUpperTail(f, float64(n-k))
-		if got := r.Table[k-1].FSignificance; math.Abs(got-p) > 1e-9 {
+		if got := r.Table[k-1].FSignificance; !(math.Abs(got-p) <= 1e-9) {
 			t.Errorf("factor %d: significance %g, definition %g", k, got, p)
 		}
 	}
@@ -401,7 +401,7 @@ func TestEstimateRankTruncatedFactors(t *testing.T) {
 	}
 	for k := 0; k < 3; k++ {
 		ra, rb := a.Table[k], b.Table[k]
-		if math.Abs(ra.RE-rb.RE) > 1e-8*ra.RE || math.Abs(ra.FSignificance-rb.FSignificance) > 1e-8 {
+		if !(math.Abs(ra.RE-rb.RE) <= 1e-8*ra.RE) || !(math.Abs(ra.FSignificance-rb.FSignificance) <= 1e-8) {
 			t.Errorf("factor %d: full %+v truncated %+v", k+1, ra, rb)
 		}
 	}
@@ -429,6 +429,40 @@ func TestConsensusSurvivesUnderestimatedSigma(t *testing.T) {
 		}
 		if r.Estimate != k {
 			t.Errorf("case %d: Estimate %d, want %d: %s", cs, r.Estimate, k, r.Reason)
+		}
+	}
+}
+
+// Degenerate shapes must not panic or produce NaN (project rule: errors, never panics).
+func TestTinyShapes(t *testing.T) {
+	rng := newRNG(2)
+	for _, sh := range [][2]int{{1, 5}, {5, 1}, {2, 2}, {3, 3}, {1, 1}, {13, 2}} {
+		d := noiseMatrix(rng, sh[0], sh[1], 1)
+		for _, ref := range []int{-1, 0} {
+			r, err := EstimateRank(d, nil, RankOptions{ReferenceRow: ref})
+			if err != nil {
+				t.Fatalf("%v: %v", sh, err)
+			}
+			finiteReport(t, r)
+			if r.Estimate < 0 || r.Estimate > min(sh[0], sh[1]) {
+				t.Errorf("%v: Estimate %d", sh, r.Estimate)
+			}
+		}
+		e, err := EFA(d, 0)
+		if err != nil {
+			t.Fatalf("%v: %v", sh, err)
+		}
+		w := e.Windows(1, 0)
+		if p := w.InitialProfiles(d, 1); p != nil {
+			for _, v := range p.RawMatrix().Data {
+				if math.IsNaN(v) || math.IsInf(v, 0) {
+					t.Fatalf("%v: non-finite profile", sh)
+				}
+			}
+		}
+		// One row has no variance: SIMPLISMA has nothing to rank and must say so.
+		if _, err := Purest(d, 1, 5, true); (err != nil) != (sh[0] == 1) {
+			t.Errorf("%v: Purest error %v", sh, err)
 		}
 	}
 }

@@ -66,7 +66,11 @@ func mpMedian(beta float64) float64 {
 	g := func(phi float64) float64 {
 		s, c := math.Sin(phi), math.Cos(phi)
 		x := a + (b-a)*s*s
-		return (b - a) * (b - a) * s * s * c * c / (math.Pi * beta * x)
+		ratio := 1 / (b - a) // limit of s²/x at φ = 0 when a = 0 (β = 1)
+		if x > 0 {
+			ratio = s * s / x
+		}
+		return (b - a) * (b - a) * c * c * ratio / (math.Pi * beta)
 	}
 	const steps = 4096 // Simpson panels; the integrand is smooth, far beyond the accuracy needed
 	h := (math.Pi / 2) / steps
