@@ -108,10 +108,25 @@ type Options struct {
 	// ZeroProfiles[k][i] pins c_k(t_i) = 0 (reference row, pre-reaction rows,
 	// windows where evolving factor analysis found the component absent).
 	ZeroProfiles [][]bool
+	// ZeroSpectra[k][j] pins s_k at channel j to zero (an axis range where
+	// the component is known not to absorb).
+	ZeroSpectra [][]bool
 	// KnownSpectra[k], when non-nil, fixes component k's spectrum.
 	KnownSpectra [][]float64
-	// Unimodal[k] asks for a unimodal profile (Bro & Sidiropoulos 1998).
-	Unimodal []bool
+	// KnownWeights[k] > 0 makes KnownSpectra[k] a soft equality: the
+	// spectra step minimises ‖D − C Sᵀ‖² + λ_k ‖s_k − r_k‖² with
+	// λ_k = KnownWeights[k]·‖c_k‖², so the weight is the reference's worth
+	// relative to the data's information on that component, unit-free. Zero
+	// or missing = exact.
+	KnownWeights []float64
+	// Unimodal[k] asks for a unimodal profile (Bro & Sidiropoulos 1998),
+	// within each experiment's block of rows, with UnimodalTolerance (see
+	// UnimodalTolerance).
+	Unimodal          []bool
+	UnimodalTolerance float64
+	// Blocks holds the first row of each experiment of a column-wise
+	// augmented matrix (rows of one experiment are contiguous); nil = one.
+	Blocks []int
 	// HardModel, when set, replaces profiles by a model fit inside each
 	// cycle (hard–soft MCR, de Juan et al. 2000). It gets the soft profiles
 	// and returns the profiles to use.
@@ -181,8 +196,9 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 			known = true
 		}
 	}
-	var knownS *mat.Dense
+	var knownS, softRef *mat.Dense
 	var knownMask [][]bool
+	var softW []float64
 	if known {
 		knownS = mat.NewDense(k, m, nil)
 		knownMask = make([][]bool, k)
@@ -190,14 +206,70 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 			if s == nil {
 				continue
 			}
+			if j >= k {
+				return nil, fmt.Errorf("resolve: known spectrum for component %d but only %d components", j+1, k)
+			}
 			if len(s) != m {
 				return nil, fmt.Errorf("resolve: known spectrum %d has %d points, data has %d", j+1, len(s), m)
+			}
+			if j < len(opt.KnownWeights) && opt.KnownWeights[j] > 0 {
+				if softRef == nil {
+					softRef, softW = mat.NewDense(k, m, nil), make([]float64, k)
+				}
+				softW[j] = opt.KnownWeights[j]
+				softRef.SetRow(j, s)
+				// Soft: keep the component out of normalisation, since
+				// the reference sets its scale.
+				knownMask[j] = make([]bool, m)
+				continue
 			}
 			knownMask[j] = make([]bool, m)
 			for i, v := range s {
 				knownS.Set(j, i, v)
 				knownMask[j][i] = true
 			}
+		}
+	}
+	if opt.ZeroSpectra != nil {
+		if knownMask == nil {
+			knownMask = make([][]bool, k)
+			knownS = mat.NewDense(k, m, nil)
+		}
+		for j := 0; j < k && j < len(opt.ZeroSpectra); j++ {
+			z := opt.ZeroSpectra[j]
+			if z == nil || (known && j < len(opt.KnownSpectra) && opt.KnownSpectra[j] != nil && (softW == nil || softW[j] == 0)) {
+				continue
+			}
+			if len(z) != m {
+				return nil, fmt.Errorf("resolve: zero window of spectrum %d has %d points, data has %d", j+1, len(z), m)
+			}
+			if knownMask[j] == nil {
+				knownMask[j] = make([]bool, m)
+			}
+			for i, v := range z {
+				knownMask[j][i] = knownMask[j][i] || v
+			}
+		}
+	}
+	// normaliseSpectra must leave alone only the components whose scale is
+	// set from outside (known spectra, exact or soft), not the ones that
+	// merely have zero windows.
+	var scaleSet [][]bool
+	if known {
+		scaleSet = make([][]bool, k)
+		for j, s := range opt.KnownSpectra {
+			if s != nil && j < k {
+				scaleSet[j] = knownMask[j]
+			}
+		}
+	}
+	blocks := opt.Blocks
+	if len(blocks) == 0 {
+		blocks = []int{0}
+	}
+	for b, f := range blocks {
+		if f < 0 || f >= n || b > 0 && f <= blocks[b-1] {
+			return nil, fmt.Errorf("resolve: experiment blocks %v are not increasing row indices below %d", blocks, n)
 		}
 	}
 	var zeroMask [][]bool
@@ -218,13 +290,16 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		// Spectra step: Gram CᵀC, right-hand sides Cᵀ D.
 		g := gram(c)
 		b := transpose(d.MulProfiles(c)) // k × m
+		if softRef != nil {
+			g, b = softKnown(g, b, softRef, softW)
+		}
 		st, err := SolveMany(Problem{G: g, B: b, NonNeg: nnS, FixMask: knownMask, Fixed: knownS})
 		if err != nil {
 			return nil, fmt.Errorf("resolve: spectra step, iteration %d: %w", it, err)
 		}
 		s = transpose(st)
 		if !opt.Closure {
-			normaliseSpectra(s, c, knownMask)
+			normaliseSpectra(s, c, scaleSet)
 		}
 		// Profiles step: Gram SᵀS, right-hand sides Sᵀ Dᵀ.
 		ds := d.MulSpectra(s) // n × k
@@ -240,10 +315,18 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		c = transpose(ct)
 		if opt.Unimodal != nil {
 			for j := 0; j < k && j < len(opt.Unimodal); j++ {
-				if opt.Unimodal[j] {
-					col := mat.Col(nil, j, c)
-					c.SetCol(j, Unimodal(col))
+				if !opt.Unimodal[j] {
+					continue
 				}
+				col := mat.Col(nil, j, c)
+				for bi, lo := range blocks {
+					hi := n
+					if bi+1 < len(blocks) {
+						hi = blocks[bi+1]
+					}
+					copy(col[lo:hi], UnimodalTolerance(col[lo:hi], opt.UnimodalTolerance))
+				}
+				c.SetCol(j, col)
 			}
 		}
 		if opt.HardModel != nil {
@@ -285,6 +368,27 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		res.Warnings = append(res.Warnings, fmt.Sprintf("not converged after %d iterations (last relative change above %.1g)", res.Iterations, opt.Tolerance))
 	}
 	return res, nil
+}
+
+// softKnown adds the soft equality λ_k ‖s_k − r_k‖² to the spectra step:
+// G + diag(λ) and B + diag(λ) R, with λ_k = w_k·G_kk so the weight does
+// not depend on the units of the data or the scale of the profiles.
+func softKnown(g *mat.SymDense, b, ref *mat.Dense, w []float64) (*mat.SymDense, *mat.Dense) {
+	k, m := b.Dims()
+	g2 := mat.NewSymDense(k, nil)
+	g2.CopySym(g)
+	b2 := mat.DenseCopyOf(b)
+	for j := 0; j < k; j++ {
+		if w[j] <= 0 {
+			continue
+		}
+		lam := w[j] * math.Max(g.At(j, j), 1e-300)
+		g2.SetSym(j, j, g.At(j, j)+lam)
+		for i := 0; i < m; i++ {
+			b2.Set(j, i, b.At(j, i)+lam*ref.At(j, i))
+		}
+	}
+	return g2, b2
 }
 
 // Residuals returns D − C Sᵀ on the full data and its lack of fit %.
@@ -410,75 +514,4 @@ func floatsMaxAbs(x []float64) float64 {
 		m = math.Max(m, math.Abs(v))
 	}
 	return m
-}
-
-// Unimodal returns the least-squares unimodal approximation of x (one
-// maximum, non-decreasing before it and non-increasing after), by trying each
-// peak position with isotonic regressions on both sides (Bro & Sidiropoulos,
-// J. Chemometrics 1998, in its direct O(n²) form).
-func Unimodal(x []float64) []float64 {
-	n := len(x)
-	if n < 3 {
-		return append([]float64(nil), x...)
-	}
-	best := math.Inf(1)
-	var out []float64
-	// Prefix non-decreasing fits and suffix non-increasing fits, by pool-
-	// adjacent-violators, for every split, then the best peak.
-	for p := 0; p < n; p++ {
-		left := isotonic(x[:p+1], true)
-		right := isotonic(x[p:], false)
-		// The peak value belongs to both halves; take the larger, which keeps
-		// both monotone.
-		fit := make([]float64, n)
-		copy(fit, left)
-		copy(fit[p:], right)
-		fit[p] = math.Max(left[p], right[0])
-		if p > 0 && fit[p-1] > fit[p] || p < n-1 && fit[p+1] > fit[p] {
-			continue
-		}
-		e := 0.0
-		for i := range fit {
-			e += (fit[i] - x[i]) * (fit[i] - x[i])
-		}
-		if e < best {
-			best, out = e, fit
-		}
-	}
-	if out == nil {
-		return append([]float64(nil), x...)
-	}
-	return out
-}
-
-// isotonic is pool-adjacent-violators least-squares monotone regression.
-func isotonic(x []float64, increasing bool) []float64 {
-	n := len(x)
-	val := make([]float64, 0, n)
-	wt := make([]int, 0, n)
-	for i := 0; i < n; i++ {
-		v := x[i]
-		if !increasing {
-			v = -v
-		}
-		val = append(val, v)
-		wt = append(wt, 1)
-		for len(val) > 1 && val[len(val)-2] > val[len(val)-1] {
-			a, b := len(val)-2, len(val)-1
-			w := wt[a] + wt[b]
-			val[a] = (val[a]*float64(wt[a]) + val[b]*float64(wt[b])) / float64(w)
-			wt[a] = w
-			val, wt = val[:b], wt[:b]
-		}
-	}
-	out := make([]float64, 0, n)
-	for i, v := range val {
-		if !increasing {
-			v = -v
-		}
-		for j := 0; j < wt[i]; j++ {
-			out = append(out, v)
-		}
-	}
-	return out
 }

@@ -298,9 +298,13 @@ func (s *solver) solvePassive(mask uint64, c int, fixedVal []float64) ([]float64
 		for j := 0; j < s.k; j++ {
 			target -= s.p.Equality[j] * fixedVal[j]
 		}
-		den := mat.Dot(av, &zz)
-		mu = (mat.Dot(av, &y) - target) / den
-		y.AddScaledVec(&y, -mu, &zz)
+		// den = aᵀ G_PP⁻¹ a is zero only when every passive variable has
+		// closure weight zero (an inert component): the closure then does
+		// not involve this passive set and there is no multiplier.
+		if den := mat.Dot(av, &zz); den > 0 {
+			mu = (mat.Dot(av, &y) - target) / den
+			y.AddScaledVec(&y, -mu, &zz)
+		}
 	}
 	for a, ja := range f.idx {
 		s.z[ja] = y.AtVec(a)
