@@ -225,8 +225,13 @@ func TestDeterministicAcrossGOMAXPROCS(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
+		e, err := EFA(d, 4)
+		if err != nil {
+			t.Fatal(err)
+		}
+		p := e.Windows(3, 0).InitialProfiles(d, 3)
 		// %v prints the shortest decimal that round-trips, so equal strings mean equal bits.
-		return fmt.Sprint(g.S, g.U.RawMatrix().Data, g.V.RawMatrix().Data), fmt.Sprint(r.S, r.U.RawMatrix().Data, r.V.RawMatrix().Data), fmt.Sprintf("%+v", *rep)
+		return fmt.Sprint(g.S, g.U.RawMatrix().Data, g.V.RawMatrix().Data), fmt.Sprint(r.S, r.U.RawMatrix().Data, r.V.RawMatrix().Data), fmt.Sprintf("%+v", *rep) + fmt.Sprint(e.Forward.RawMatrix().Data, e.Backward.RawMatrix().Data, p.RawMatrix().Data)
 	}
 	old := runtime.GOMAXPROCS(1)
 	a1, b1, c1 := run()

@@ -264,12 +264,13 @@ func (e *EFAResult) Windows(rank int, noiseLevel float64) *EFAWindows {
 
 // InitialProfiles returns n x rank initial concentration estimates from the windows (nil if
 // d or the windows do not fit). Each profile is c_j = Y t_j with Y = U_r S_r the scores of
-// the leading rank factors and t_j the direction that is closest to zero on the rows where
-// component j is absent (smallest right singular vector of those rows of Y) — the zero
-// constraints of Maeder (1987). Components present on every row, or with too few absent rows
-// to fix a direction, fall back to Maeder's combined EFA curve (the smaller of the forward and
-// backward values inside the window). Profiles are clipped at zero outside and inside the
-// window and scaled to a maximum of 1.
+// the leading rank factors of d and t_j the direction whose scores vanish, up to noise, on
+// the rows where component j is absent — the zero constraints of Maeder (1987). When those
+// rows hold too few other components to fix t_j (a null space of several dimensions), t_j is
+// the member of the null space whose profile best fits Maeder's combined EFA curve (the
+// smaller of the forward and paired backward values inside the window). Components present
+// on every row get the combined curve itself. Profiles are zero outside their window,
+// clipped at zero inside it, and scaled to a maximum of 1.
 func (w *EFAWindows) InitialProfiles(d *mat.Dense, rank int) *mat.Dense {
 	if w == nil || d == nil || d.IsEmpty() || checkMatrix(d) != nil {
 		return nil
