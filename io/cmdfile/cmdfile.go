@@ -1,0 +1,514 @@
+// Package cmdfile reads and writes bandsolve command files: plain text, one
+// setting per line, that describe an analysis so it can be read, edited,
+// rerun and compared.
+//
+// # Syntax
+//
+//	# comment to the end of the line
+//	keyword value
+//	keyword "value with  leading or trailing spaces, or a # sign"
+//	keyword 'literal value, no escapes'
+//	switch-keyword            (alone: on; or switch-keyword on|off)
+//
+// A keyword is a setting's name (the flag without its dashes). The value is
+// the rest of the line, trimmed, up to a "#" that follows a space or tab.
+// A value may instead be one quoted string: in "double quotes" the only
+// escapes are \" and \\ (any other backslash is kept, so Windows paths read
+// as written); in 'single quotes' nothing is escaped. Settings that may
+// repeat (data, region, exclude) are given once per line; an empty quoted
+// value ("") of such a setting stands for none. Every other setting may
+// appear once.
+//
+// The directive "paths-from DIR", before the first setting, names the folder
+// relative paths are taken from (itself relative to the file's folder); the
+// default is the file's own folder.
+//
+// # Safety
+//
+// A command file only describes settings: nothing in it names a program to
+// run. Input paths that are URLs (scheme://…) or network shares (\\host or
+// //host) are refused, and the output folder must be a relative path that
+// stays inside the command file's folder (checked on the text by Parse, and
+// with symbolic links resolved by Inside before anything is written).
+package cmdfile
+
+import (
+	"bytes"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+	"unicode"
+	"unicode/utf8"
+)
+
+// PathRule says whether a keyword's value is a path and which way it goes.
+type PathRule int
+
+const (
+	NotPath   PathRule = iota
+	ReadPath           // an input: read, never written
+	WritePath          // the output folder: must stay inside the file's folder
+)
+
+// Keyword is one setting a command file may hold.
+type Keyword struct {
+	Name   string
+	Multi  bool // may be given on several lines
+	Switch bool // may stand alone (meaning on)
+	Path   PathRule
+	// Words are values of a path keyword that name a choice rather than a
+	// file ("first", "purest"); a word ending in ":" matches as a prefix
+	// ("mean:" matches "mean:4").
+	Words []string
+}
+
+// PathsFrom is the directive naming the folder relative paths start from.
+const PathsFrom = "paths-from"
+
+// Entry is one setting line.
+type Entry struct {
+	Key, Value string
+	Quoted     bool // the value was written in quotes
+	Line, Col  int  // where the keyword starts (1-based, in characters)
+	ValueCol   int  // where the value starts; 0 for a switch standing alone
+}
+
+// File is a parsed command file.
+type File struct {
+	Name          string // as given to Parse, for messages
+	PathsFrom     string // "" when not given
+	PathsFromLine int
+	Entries       []Entry
+}
+
+// Error is a problem at a place in a command file.
+type Error struct {
+	File      string
+	Line, Col int
+	Msg       string
+}
+
+func (e *Error) Error() string {
+	switch {
+	case e.Line > 0 && e.Col > 0:
+		return fmt.Sprintf("%s:%d:%d: %s", e.File, e.Line, e.Col, e.Msg)
+	case e.Line > 0:
+		return fmt.Sprintf("%s:%d: %s", e.File, e.Line, e.Msg)
+	}
+	return fmt.Sprintf("%s: %s", e.File, e.Msg)
+}
+
+// MaxBytes bounds a command file; real ones are a few hundred bytes.
+const MaxBytes = 1 << 20
+
+// ReadFile reads and parses the command file at path.
+func ReadFile(path string, keys []Keyword) (*File, error) {
+	st, err := os.Stat(path)
+	if err != nil {
+		return nil, fmt.Errorf("command file: %w", err)
+	}
+	if !st.Mode().IsRegular() {
+		return nil, &Error{File: path, Msg: "is not a regular file; give a command file (plain text, one setting per line)"}
+	}
+	if st.Size() > MaxBytes {
+		return nil, &Error{File: path, Msg: fmt.Sprintf("is %d bytes; a command file is small plain text (at most %d bytes)", st.Size(), MaxBytes)}
+	}
+	src, err := os.ReadFile(path)
+	if err != nil {
+		return nil, fmt.Errorf("command file: %w", err)
+	}
+	return Parse(path, src, keys)
+}
+
+// Parse reads a command file's text. name is used in messages.
+func Parse(name string, src []byte, keys []Keyword) (*File, error) {
+	if len(src) > MaxBytes {
+		return nil, &Error{File: name, Msg: fmt.Sprintf("is %d bytes; a command file is small plain text (at most %d bytes)", len(src), MaxBytes)}
+	}
+	if !utf8.Valid(src) {
+		line := 1 + bytes.Count(src[:firstInvalid(src)], []byte{'\n'})
+		return nil, &Error{File: name, Line: line, Msg: "is not UTF-8 text; save the command file as UTF-8 plain text"}
+	}
+	src = bytes.TrimPrefix(src, []byte("\ufeff"))
+	byName := make(map[string]Keyword, len(keys))
+	for _, k := range keys {
+		byName[k.Name] = k
+	}
+	f := &File{Name: name}
+	seen := map[string]int{}
+	for i, raw := range strings.Split(string(src), "\n") {
+		ln := i + 1
+		text := strings.TrimSuffix(raw, "\r")
+		if c, col := badChar(text); c >= 0 {
+			return nil, &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("control character %U; a command file holds plain text only", c)}
+		}
+		l := []rune(text)
+		p := skipSpace(l, 0)
+		if p == len(l) || l[p] == '#' {
+			continue
+		}
+		start := p
+		for p < len(l) && !isSpace(l[p]) && !(l[p] == '#' && p > start && isSpace(l[p-1])) {
+			p++
+		}
+		key := string(l[start:p])
+		kcol := start + 1
+		if err := checkKeyword(name, ln, kcol, key, byName, keys); err != nil {
+			return nil, err
+		}
+		vstart := skipSpace(l, p)
+		value, quoted, err := parseValue(name, ln, l, vstart)
+		if err != nil {
+			return nil, err
+		}
+		vcol := vstart + 1
+		hasValue := quoted || value != ""
+		if key == PathsFrom {
+			if f.PathsFromLine > 0 {
+				return nil, &Error{File: name, Line: ln, Col: kcol, Msg: fmt.Sprintf("%s given twice (first on line %d)", PathsFrom, f.PathsFromLine)}
+			}
+			if len(f.Entries) > 0 {
+				return nil, &Error{File: name, Line: ln, Col: kcol, Msg: fmt.Sprintf("%s must come before the first setting (line %d), so every path reads the same way", PathsFrom, f.Entries[0].Line)}
+			}
+			if !hasValue || value == "" {
+				return nil, &Error{File: name, Line: ln, Col: kcol, Msg: PathsFrom + " needs a folder, e.g. paths-from ../data"}
+			}
+			if err := checkRead(name, ln, vcol, value); err != nil {
+				return nil, err
+			}
+			f.PathsFrom, f.PathsFromLine = value, ln
+			continue
+		}
+		k := byName[key]
+		if !hasValue {
+			if !k.Switch {
+				return nil, &Error{File: name, Line: ln, Col: kcol, Msg: fmt.Sprintf("%s needs a value, e.g. %s", key, example(k))}
+			}
+			value, vcol = "on", 0
+		}
+		if prev, dup := seen[key]; dup && !k.Multi {
+			return nil, &Error{File: name, Line: ln, Col: kcol, Msg: fmt.Sprintf("%s is set twice (first on line %d); only data, region and exclude may repeat", key, prev)}
+		}
+		seen[key] = ln
+		if value != "" && k.Path != NotPath && !isWord(k, value) {
+			switch k.Path {
+			case ReadPath:
+				if err := checkRead(name, ln, vcol, value); err != nil {
+					return nil, err
+				}
+			case WritePath:
+				if err := checkWrite(name, ln, vcol, f.PathsFrom, value); err != nil {
+					return nil, err
+				}
+			}
+		}
+		f.Entries = append(f.Entries, Entry{Key: key, Value: value, Quoted: quoted, Line: ln, Col: kcol, ValueCol: vcol})
+	}
+	return f, nil
+}
+
+func firstInvalid(b []byte) int {
+	for i := 0; i < len(b); {
+		r, n := utf8.DecodeRune(b[i:])
+		if r == utf8.RuneError && n <= 1 {
+			return i
+		}
+		i += n
+	}
+	return len(b)
+}
+
+// badChar finds a control character other than tab (1-based column).
+func badChar(s string) (rune, int) {
+	col := 0
+	for _, r := range s {
+		col++
+		if r != '\t' && (unicode.IsControl(r) || r == '\u2028' || r == '\u2029') {
+			return r, col
+		}
+	}
+	return -1, 0
+}
+
+func isSpace(r rune) bool { return r == ' ' || r == '\t' }
+
+func skipSpace(l []rune, p int) int {
+	for p < len(l) && isSpace(l[p]) {
+		p++
+	}
+	return p
+}
+
+func checkKeyword(name string, ln, col int, key string, byName map[string]Keyword, keys []Keyword) error {
+	if key == PathsFrom {
+		return nil
+	}
+	if _, ok := byName[key]; ok {
+		return nil
+	}
+	msg := fmt.Sprintf("unknown keyword %q", key)
+	switch {
+	case strings.HasPrefix(key, "-"):
+		bare := strings.TrimLeft(key, "-")
+		if k, v, ok := strings.Cut(bare, "="); ok {
+			bare = k + " " + v
+		}
+		return &Error{File: name, Line: ln, Col: col, Msg: msg + fmt.Sprintf("; write keywords without dashes, e.g. %q", bare)}
+	case strings.Contains(key, "="):
+		k, v, _ := strings.Cut(key, "=")
+		if _, ok := byName[k]; ok {
+			return &Error{File: name, Line: ln, Col: col, Msg: msg + fmt.Sprintf("; separate keyword and value by a space: %q", k+" "+v)}
+		}
+		key = k
+	}
+	if s := Nearest(key, keys); s != "" {
+		msg += fmt.Sprintf(" (did you mean %q?)", s)
+	} else {
+		msg += "; see docs/command-files.md for the keywords"
+	}
+	return &Error{File: name, Line: ln, Col: col, Msg: msg}
+}
+
+// parseValue reads the value starting at p: one quoted string, or the rest
+// of the line up to a comment.
+func parseValue(name string, ln int, l []rune, p int) (string, bool, error) {
+	if p >= len(l) {
+		return "", false, nil
+	}
+	switch q := l[p]; q {
+	case '"', '\'':
+		var b strings.Builder
+		i := p + 1
+		for ; i < len(l); i++ {
+			r := l[i]
+			if r == q {
+				break
+			}
+			if q == '"' && r == '\\' && i+1 < len(l) && (l[i+1] == '"' || l[i+1] == '\\') {
+				i++
+				r = l[i]
+			}
+			b.WriteRune(r)
+		}
+		if i >= len(l) {
+			return "", false, &Error{File: name, Line: ln, Col: p + 1, Msg: fmt.Sprintf("quote %c is not closed on this line", q)}
+		}
+		rest := skipSpace(l, i+1)
+		if rest < len(l) && l[rest] != '#' {
+			return "", false, &Error{File: name, Line: ln, Col: rest + 1, Msg: "text after the quoted value; quote the whole value, or start a comment with #"}
+		}
+		if rest < len(l) && rest == i+1 {
+			return "", false, &Error{File: name, Line: ln, Col: rest + 1, Msg: "put a space before the # of a comment"}
+		}
+		return b.String(), true, nil
+	}
+	end := len(l)
+	for i := p; i < len(l); i++ {
+		if l[i] == '#' && isSpace(l[i-1]) {
+			end = i
+			break
+		}
+	}
+	for end > p && isSpace(l[end-1]) {
+		end--
+	}
+	return string(l[p:end]), false, nil
+}
+
+func example(k Keyword) string {
+	switch {
+	case k.Path == WritePath:
+		return k.Name + " results"
+	case k.Path == ReadPath:
+		return k.Name + " spectra.csv"
+	case len(k.Words) > 0:
+		return k.Name + " " + k.Words[0]
+	}
+	return k.Name + " VALUE"
+}
+
+func isWord(k Keyword, v string) bool {
+	for _, w := range k.Words {
+		if v == w || (strings.HasSuffix(w, ":") && strings.HasPrefix(v, w)) {
+			return true
+		}
+	}
+	return false
+}
+
+// remote says whether a path names something on a network.
+func remote(v string) bool {
+	if strings.HasPrefix(v, `\\`) || strings.HasPrefix(v, "//") {
+		return true
+	}
+	if i := strings.Index(v, "://"); i > 0 {
+		return true
+	}
+	// A scheme followed by ":" alone (mailto:, ftp:host) is not a path on
+	// any system this runs on, except a Windows drive letter ("C:").
+	if i := strings.IndexByte(v, ':'); i > 1 {
+		scheme := v[:i]
+		ok := true
+		for j, r := range scheme {
+			if !(r >= 'a' && r <= 'z' || r >= 'A' && r <= 'Z' || j > 0 && (r >= '0' && r <= '9' || r == '+' || r == '.' || r == '-')) {
+				ok = false
+				break
+			}
+		}
+		if ok && (strings.EqualFold(scheme, "http") || strings.EqualFold(scheme, "https") || strings.EqualFold(scheme, "ftp") || strings.EqualFold(scheme, "file") || strings.EqualFold(scheme, "smb")) {
+			return true
+		}
+	}
+	return false
+}
+
+func checkRead(name string, ln, col int, v string) error {
+	if remote(v) {
+		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("%q is a network address; a command file reads local files only: copy the file next to the command file", v)}
+	}
+	return nil
+}
+
+func checkWrite(name string, ln, col int, pathsFrom, v string) error {
+	if remote(v) {
+		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("%q is a network address; results go to a folder inside the command file's folder", v)}
+	}
+	if filepath.IsAbs(v) || filepath.VolumeName(v) != "" || strings.HasPrefix(v, "/") || strings.HasPrefix(v, `\`) {
+		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("out %q is absolute; in a command file the output folder is relative and inside the file's folder (give --out on the command line to write elsewhere)", v)}
+	}
+	rel := filepath.Clean(filepath.Join(filepath.FromSlash(pathsFrom), filepath.FromSlash(v)))
+	if pathsFrom != "" && filepath.IsAbs(filepath.FromSlash(pathsFrom)) {
+		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("out %q would be taken from the absolute %s %q, outside the file's folder; give --out on the command line instead", v, PathsFrom, pathsFrom)}
+	}
+	if rel == "." || rel == ".." || strings.HasPrefix(rel, ".."+string(filepath.Separator)) {
+		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("out %q leaves the command file's folder; name a folder inside it, e.g. out results (or give --out on the command line)", v)}
+	}
+	return nil
+}
+
+// Dir is the folder the file's relative paths are taken from, given the
+// folder the file itself lies in.
+func (f *File) Dir(fileDir string) string {
+	if f.PathsFrom == "" {
+		return fileDir
+	}
+	p := filepath.FromSlash(f.PathsFrom)
+	if filepath.IsAbs(p) {
+		return p
+	}
+	return filepath.Join(fileDir, p)
+}
+
+// Apply hands every setting to set in file order, and puts the line and
+// column of its value on any error set returns.
+func (f *File) Apply(set func(e Entry) error) error {
+	for _, e := range f.Entries {
+		if err := set(e); err != nil {
+			col := e.ValueCol
+			if col == 0 {
+				col = e.Col
+			}
+			return &Error{File: f.Name, Line: e.Line, Col: col, Msg: err.Error()}
+		}
+	}
+	return nil
+}
+
+// Inside checks, with symbolic links resolved, that target lies inside dir
+// (strictly: not dir itself). Parts of target that do not exist yet are
+// taken as written.
+func Inside(dir, target string) error {
+	d, err := resolve(dir)
+	if err != nil {
+		return err
+	}
+	t, err := resolve(target)
+	if err != nil {
+		return err
+	}
+	rel, err := filepath.Rel(d, t)
+	if err != nil || rel == "." || rel == ".." || strings.HasPrefix(rel, ".."+string(filepath.Separator)) || filepath.IsAbs(rel) {
+		return fmt.Errorf("output folder %s is not inside the command file's folder %s (a link may point outside it); give --out on the command line to write elsewhere", target, dir)
+	}
+	return nil
+}
+
+// resolve makes p absolute and resolves the links of its longest existing
+// prefix.
+func resolve(p string) (string, error) {
+	abs, err := filepath.Abs(p)
+	if err != nil {
+		return "", err
+	}
+	rest := ""
+	cur := abs
+	for {
+		if r, err := filepath.EvalSymlinks(cur); err == nil {
+			return filepath.Join(r, rest), nil
+		}
+		parent := filepath.Dir(cur)
+		if parent == cur {
+			return abs, nil
+		}
+		rest = filepath.Join(filepath.Base(cur), rest)
+		cur = parent
+	}
+}
+
+// Nearest returns the keyword closest to a misspelt one, "" if none is close.
+func Nearest(word string, keys []Keyword) string {
+	w := strings.ToLower(strings.ReplaceAll(word, "_", "-"))
+	best, bestD := "", 1<<30
+	cands := append([]string{PathsFrom}, names(keys)...)
+	for _, c := range cands {
+		d := distance(w, c)
+		if strings.HasPrefix(c, w) && len(w) >= 3 {
+			d = min(d, 1)
+		}
+		if d < bestD {
+			best, bestD = c, d
+		}
+	}
+	limit := max(2, len([]rune(w))/3)
+	if bestD > limit {
+		return ""
+	}
+	return best
+}
+
+func names(keys []Keyword) []string {
+	out := make([]string, len(keys))
+	for i, k := range keys {
+		out[i] = k.Name
+	}
+	return out
+}
+
+// distance is the Levenshtein edit distance (Levenshtein 1966) with
+// transpositions counted as one edit (Damerau 1964), since swapped letters
+// are the commonest typing slip.
+func distance(a, b string) int {
+	ra, rb := []rune(a), []rune(b)
+	d := make([][]int, len(ra)+1)
+	for i := range d {
+		d[i] = make([]int, len(rb)+1)
+		d[i][0] = i
+	}
+	for j := range d[0] {
+		d[0][j] = j
+	}
+	for i := 1; i <= len(ra); i++ {
+		for j := 1; j <= len(rb); j++ {
+			c := 1
+			if ra[i-1] == rb[j-1] {
+				c = 0
+			}
+			d[i][j] = min(d[i-1][j]+1, d[i][j-1]+1, d[i-1][j-1]+c)
+			if i > 1 && j > 1 && ra[i-1] == rb[j-2] && ra[i-2] == rb[j-1] {
+				d[i][j] = min(d[i][j], d[i-2][j-2]+1)
+			}
+		}
+	}
+	return d[len(ra)][len(rb)]
+}
