@@ -22,7 +22,7 @@ var written = map[string]bool{
 	"FIRSTY": true, "LASTY": true, "MINX": true, "MAXX": true, "MINY": true, "MAXY": true,
 	"XYDATA": true, "XYPOINTS": true, "PEAKTABLE": true, "PEAKASSIGNMENTS": true,
 	"NTUPLES": true, "ENDNTUPLES": true, "END": true, "BLOCKS": true, "BLOCKID": true,
-	"CROSSREFERENCE": true,
+	"CROSSREFERENCE": true, "ORIGIN": true, "OWNER": true,
 }
 
 // Write writes b as a JCAMP-DX 5.01 block. Equally spaced abscissae give
@@ -30,7 +30,8 @@ var written = map[string]bool{
 // (nine significant digits of the largest |Y|, so the integers fit 32 bits as
 // older readers expect; common practice); otherwise ##XYPOINTS=(XY..XY)
 // with exact decimal pairs. Labels of b other than those Write derives from
-// X, Y and the fields are carried over. An empty DataType is written as
+// X, Y and the fields are carried over, after the required TITLE,
+// JCAMP-DX, DATA TYPE, DATA CLASS, ORIGIN and OWNER. An empty DataType is written as
 // INFRARED SPECTRUM and empty units as ARBITRARY UNITS.
 func Write(w io.Writer, b Block) error {
 	n := len(b.X)
@@ -61,6 +62,17 @@ func Write(w io.Writer, b Block) error {
 	lw.label("TITLE", b.Title)
 	lw.label("JCAMP-DX", "5.01")
 	lw.label("DATA TYPE", orDefault(b.DataType, "INFRARED SPECTRUM"))
+	if even {
+		lw.label("DATA CLASS", "XYDATA")
+	} else {
+		lw.label("DATA CLASS", "XYPOINTS")
+	}
+	// Version 5.01 asks for ORIGIN and OWNER in every block (from memory);
+	// empty values are written when the block has none.
+	for _, name := range []string{"ORIGIN", "OWNER"} {
+		v, _ := b.Value(name)
+		lw.label(name, v)
+	}
 	for _, l := range b.Labels {
 		if !written[l.Name] {
 			lw.label(l.Name, l.Value)
