@@ -46,6 +46,7 @@ func TestDecodeForms(t *testing.T) {
 		{"DIF continues across lines without check", "0A0\n1J\n", []float64{10, 11}},
 		{"comment inside data", "0A0J $$ rise\n2A1\n", []float64{10, 11}},
 		{"X only line ignored", "0 1\n1\n1 2\n", []float64{1, 2}},
+		{"delimiters only line ignored", "0 1\n, ;\n1 2\n", []float64{1, 2}},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			blocks, err := Parse(strings.NewReader(spectrum("", c.data)), "t.jdx")

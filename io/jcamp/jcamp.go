@@ -329,6 +329,9 @@ func (p *parser) label(t string) error {
 		if len(p.stack) >= 8 {
 			return p.errf(p.line, nil, "blocks nested more than 8 deep; the file is corrupt")
 		}
+		if ob != nil {
+			ob.rec = recText // a nested block ends any record of the LINK block
+		}
 		ob = &openBlock{b: Block{Line: p.line}, lastText: -1, npoints: -1}
 		p.stack = append(p.stack, ob)
 	case ob == nil:
@@ -450,6 +453,9 @@ func (p *parser) xyDataLine(ob *openBlock, t string) error {
 	p.toks = toks
 	if err != nil {
 		return p.errf(p.line, err, "bad XYDATA line: %v; fix or re-export the file", err)
+	}
+	if len(toks) == 0 {
+		return nil // only delimiters
 	}
 	if toks[0].kind != tokAFFN {
 		return p.errf(p.line, nil, "XYDATA line does not start with its X value; each line begins with the abscissa of its first ordinate")
