@@ -1,0 +1,477 @@
+package mcr
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// BandOptions are the constraints a feasible rotation must keep. They mirror
+// the Options of the resolution that produced C and S.
+type BandOptions struct {
+	Mode           Mode
+	NonNegProfiles []bool // nil = the mode's default (as in Options)
+	NonNegSpectra  []bool
+	Closure        bool
+	ClosureWeights []float64 // nil = all 1
+	ZeroProfiles   [][]bool  // [k][n]
+	ZeroSpectra    [][]bool  // [k][m]
+	Known          []bool    // components whose spectrum is fixed exactly
+	// Tolerance is the largest relative violation ‖min(0, x_k)‖/‖x_k‖ of a
+	// component's non-negativity (or zero window) still counted as feasible;
+	// default 1e-3.
+	Tolerance float64
+	// MaxEvaluations bounds the function evaluations of each of the 2k
+	// searches; default 4000.
+	MaxEvaluations int
+}
+
+// Band is one component's range of signal contribution
+// f_k = ‖c_k s_kᵀ‖_F / ‖C Sᵀ‖_F over the feasible rotations.
+type Band struct {
+	Min, Max, Value float64 // Value at the solution given
+	// The component's profile and spectrum at the minimum and at the maximum,
+	// scaled as described at FeasibleBands.
+	MinProfile, MinSpectrum, MaxProfile, MaxSpectrum []float64
+	// Feasible says whether both extremes satisfy the constraints within
+	// Tolerance (false means the search could not stay feasible and the band
+	// is only the part it reached).
+	Feasible bool
+}
+
+// BandsResult holds the bands of every component.
+type BandsResult struct {
+	Bands       []Band
+	Evaluations int
+}
+
+// FeasibleBands computes, for every component k, the smallest and largest
+// signal contribution f_k = ‖c_k‖‖s_k‖/‖C Sᵀ‖_F among all resolutions
+// (C T, S T⁻ᵀ) that reproduce C Sᵀ exactly (so keep the fit) and keep every
+// constraint in opt (Tauler, J. Chemometrics 2001). For two components the
+// feasible set is the Lawton & Sylvestre (Technometrics 1971) region.
+//
+// Parametrisation: T = I + Δ. Without closure the diagonal of Δ is zero,
+// fixing the scale that f_k does not depend on; with closure Σ_j w_j c_j = t
+// the rows of Δ are orthogonal to w (then C T w = C w and closure holds
+// exactly); a known spectrum k fixes row k of T to e_kᵀ, since the k-th
+// column of S T⁻ᵀ equals s_k exactly when Tᵀ e_k = e_k. That leaves at most
+// k(k−1) unknowns. Non-negativity and zero windows enter as the quadratic
+// penalty μ Σ min(0, x)² (each component scaled by its norm at the given
+// solution), minimised by BFGS (minimiseBFGS) for μ = 10², 10⁴, … 10⁸,
+// each stage starting where the last ended, the first at the given
+// solution — a sequential penalty method (Fiacco & McCormick 1968). The
+// gradient is analytic: with A = C T and B = S T⁻ᵀ, ∂/∂T of a function of A
+// is Cᵀ ∂A and of B is −T⁻ᵀ ∂Bᵀ B.
+//
+// Cost: each evaluation is O((n + m)k²) on the n × k profiles and m × k
+// spectra only; the data matrix is not needed because C Sᵀ is unchanged.
+// Unimodality and hard kinetic models are not imposed on the rotations.
+//
+// The extreme profiles and spectra are returned with the scale of the
+// given solution: with closure as they come (closure fixes the scale);
+// otherwise the spectrum is rescaled to the norm of the given s_k and the
+// profile takes the inverse factor, which leaves c_k s_kᵀ unchanged.
+func FeasibleBands(c, s *mat.Dense, opt BandOptions) (*BandsResult, error) {
+	n, k := c.Dims()
+	m, ks := s.Dims()
+	if ks != k {
+		return nil, fmt.Errorf("bands: %d profiles but %d spectra", k, ks)
+	}
+	if k < 1 {
+		return nil, errors.New("bands: no components")
+	}
+	if opt.Tolerance <= 0 {
+		opt.Tolerance = 1e-3
+	}
+	if opt.MaxEvaluations <= 0 {
+		opt.MaxEvaluations = 4000
+	}
+	p := &bandProblem{c: c, s: s, n: n, m: m, k: k, opt: opt}
+	if err := p.setup(); err != nil {
+		return nil, err
+	}
+	out := &BandsResult{}
+	for j := 0; j < k; j++ {
+		b := Band{Value: p.contribution(identity(k), j)}
+		b.Min, b.Max = b.Value, b.Value
+		feasible := true
+		for _, sign := range []float64{1, -1} {
+			theta, f, ok, evals := p.extreme(j, sign)
+			out.Evaluations += evals
+			t := p.rotation(theta)
+			prof, spec, err := p.component(t, j)
+			if err != nil {
+				return nil, err
+			}
+			// The search's last stage ending infeasible means the band is
+			// only the feasible part it reached (an inner estimate).
+			feasible = feasible && ok
+			if sign > 0 {
+				b.Min, b.MinProfile, b.MinSpectrum = math.Min(f, b.Value), prof, spec
+			} else {
+				b.Max, b.MaxProfile, b.MaxSpectrum = math.Max(f, b.Value), prof, spec
+			}
+		}
+		b.Feasible = feasible
+		out.Bands = append(out.Bands, b)
+	}
+	return out, nil
+}
+
+type bandProblem struct {
+	c, s    *mat.Dense
+	n, m, k int
+	opt     BandOptions
+	nnC     []bool
+	nnS     []bool
+	// free lists, for each unknown, the row of Δ it belongs to and the
+	// direction of that row it moves along.
+	free []struct {
+		row int
+		dir []float64
+	}
+	wc, ws []float64 // 1/‖c_j‖², 1/‖s_j‖² at the given solution
+	norm   float64   // ‖C Sᵀ‖_F
+}
+
+func identity(k int) *mat.Dense {
+	t := mat.NewDense(k, k, nil)
+	for i := 0; i < k; i++ {
+		t.Set(i, i, 1)
+	}
+	return t
+}
+
+func (p *bandProblem) setup() error {
+	k := p.k
+	p.nnC = boolsOr(p.opt.NonNegProfiles, k, true)
+	p.nnS = boolsOr(p.opt.NonNegSpectra, k, p.opt.Mode == Species)
+	// ‖C Sᵀ‖² = tr(CᵀC SᵀS), on the small Gram matrices.
+	ss := traceProd2(gram(p.c), gram(p.s))
+	if !(ss > 0) {
+		return errors.New("bands: the resolved model C Sᵀ is zero")
+	}
+	p.norm = math.Sqrt(ss)
+	for j := 0; j < k; j++ {
+		cj, sj := colNormSq(p.c, j), colNormSq(p.s, j)
+		if cj == 0 || sj == 0 {
+			return fmt.Errorf("bands: component %d is zero", j+1)
+		}
+		p.wc = append(p.wc, 1/cj)
+		p.ws = append(p.ws, 1/sj)
+	}
+	var dirs [][]float64
+	if p.opt.Closure {
+		w := p.opt.ClosureWeights
+		if w == nil {
+			w = ones(k)
+		}
+		dirs = orthoComplement(w)
+	}
+	for r := 0; r < k; r++ {
+		if r < len(p.opt.Known) && p.opt.Known[r] {
+			continue
+		}
+		if p.opt.Closure {
+			for _, d := range dirs {
+				p.free = append(p.free, struct {
+					row int
+					dir []float64
+				}{r, d})
+			}
+			continue
+		}
+		for col := 0; col < k; col++ {
+			if col == r {
+				continue
+			}
+			d := make([]float64, k)
+			d[col] = 1
+			p.free = append(p.free, struct {
+				row int
+				dir []float64
+			}{r, d})
+		}
+	}
+	return nil
+}
+
+// orthoComplement returns an orthonormal basis of the vectors orthogonal to
+// w, by modified Gram–Schmidt of w, e_1, …, e_k (stable enough for k ≤ 64
+// and well-separated inputs; unit vectors that fall in the span are skipped).
+func orthoComplement(w []float64) [][]float64 {
+	k := len(w)
+	basis := [][]float64{normalised(w)}
+	for i := 0; i < k && len(basis) < k; i++ {
+		v := make([]float64, k)
+		v[i] = 1
+		for pass := 0; pass < 2; pass++ {
+			for _, b := range basis {
+				d := dot(v, b)
+				for j := range v {
+					v[j] -= d * b[j]
+				}
+			}
+		}
+		if math.Sqrt(dot(v, v)) > 1e-8 {
+			basis = append(basis, normalised(v))
+		}
+	}
+	return basis[1:]
+}
+
+func normalised(v []float64) []float64 {
+	n := math.Sqrt(dot(v, v))
+	out := make([]float64, len(v))
+	for i := range v {
+		out[i] = v[i] / n
+	}
+	return out
+}
+
+func dot(a, b []float64) float64 {
+	s := 0.0
+	for i := range a {
+		s += a[i] * b[i]
+	}
+	return s
+}
+
+func colNormSq(a *mat.Dense, j int) float64 {
+	r, _ := a.Dims()
+	s := 0.0
+	for i := 0; i < r; i++ {
+		v := a.At(i, j)
+		s += v * v
+	}
+	return s
+}
+
+func (p *bandProblem) rotation(theta []float64) *mat.Dense {
+	t := identity(p.k)
+	for q, f := range p.free {
+		for col, d := range f.dir {
+			if d != 0 {
+				t.Set(f.row, col, t.At(f.row, col)+theta[q]*d)
+			}
+		}
+	}
+	return t
+}
+
+// rotate returns A = C T, B = S T⁻ᵀ and T⁻ᵀ, or ok = false when T is too
+// close to singular for its inverse to mean anything.
+func (p *bandProblem) rotate(t *mat.Dense) (a, b, tinvT *mat.Dense, ok bool) {
+	var lu mat.LU
+	lu.Factorize(t)
+	if lu.Cond() > 1e10 {
+		return nil, nil, nil, false
+	}
+	var inv mat.Dense
+	if err := lu.SolveTo(&inv, false, identity(p.k)); err != nil {
+		return nil, nil, nil, false
+	}
+	tinvT = mat.DenseCopyOf(inv.T())
+	a, b = &mat.Dense{}, &mat.Dense{}
+	a.Mul(p.c, t)
+	b.Mul(p.s, tinvT)
+	return a, b, tinvT, true
+}
+
+func (p *bandProblem) contribution(t *mat.Dense, j int) float64 {
+	a, b, _, ok := p.rotate(t)
+	if !ok {
+		return math.NaN()
+	}
+	return math.Sqrt(colNormSq(a, j)*colNormSq(b, j)) / p.norm
+}
+
+// penalty returns Σ over constrained entries of the squared violation,
+// scaled per component, and its gradients with respect to A and B.
+func (p *bandProblem) penalty(a, b *mat.Dense, ga, gb *mat.Dense) float64 {
+	pen := 0.0
+	side := func(x *mat.Dense, nn []bool, zero [][]bool, w []float64, g *mat.Dense) {
+		r, k := x.Dims()
+		for j := 0; j < k; j++ {
+			var z []bool
+			if j < len(zero) {
+				z = zero[j]
+			}
+			for i := 0; i < r; i++ {
+				v := x.At(i, j)
+				viol := 0.0
+				switch {
+				case z != nil && z[i]:
+					viol = v
+				case nn[j] && v < 0:
+					viol = v
+				}
+				if viol != 0 {
+					pen += w[j] * viol * viol
+					if g != nil {
+						g.Set(i, j, g.At(i, j)+2*w[j]*viol)
+					}
+				}
+			}
+		}
+	}
+	side(a, p.nnC, p.opt.ZeroProfiles, p.wc, ga)
+	side(b, p.nnS, p.opt.ZeroSpectra, p.ws, gb)
+	return pen
+}
+
+// violation is the largest relative constraint violation of any component.
+func (p *bandProblem) violation(a, b *mat.Dense) float64 {
+	worst := 0.0
+	side := func(x *mat.Dense, nn []bool, zero [][]bool) {
+		r, k := x.Dims()
+		for j := 0; j < k; j++ {
+			var z []bool
+			if j < len(zero) {
+				z = zero[j]
+			}
+			bad, all := 0.0, 0.0
+			for i := 0; i < r; i++ {
+				v := x.At(i, j)
+				all += v * v
+				if z != nil && z[i] || nn[j] && v < 0 {
+					bad += v * v
+				}
+			}
+			if all > 0 {
+				worst = math.Max(worst, math.Sqrt(bad/all))
+			}
+		}
+	}
+	side(a, p.nnC, p.opt.ZeroProfiles)
+	side(b, p.nnS, p.opt.ZeroSpectra)
+	return worst
+}
+
+// extreme minimises sign·f_j by the penalty sequence and returns the end
+// point, f_j there, whether it is feasible and the evaluations used.
+func (p *bandProblem) extreme(j int, sign float64) ([]float64, float64, bool, int) {
+	nf := len(p.free)
+	theta := make([]float64, nf)
+	if nf == 0 {
+		return theta, p.contribution(identity(p.k), j), true, 0
+	}
+	evals, lastOK := 0, false
+	bestTheta := append([]float64(nil), theta...)
+	bestF := p.contribution(identity(p.k), j)
+	for _, mu := range []float64{1e2, 1e4, 1e6, 1e8} {
+		x, _, used := minimiseBFGS(func(th, g []float64) float64 {
+			v, _ := p.cost(j, sign, mu, th, g)
+			return v
+		}, theta, p.opt.MaxEvaluations/4)
+		evals += used
+		theta = append(theta[:0], x...)
+		t := p.rotation(theta)
+		a, b, _, ok := p.rotate(t)
+		if !ok {
+			break
+		}
+		lastOK = p.violation(a, b) <= p.opt.Tolerance
+		if lastOK {
+			f := math.Sqrt(colNormSq(a, j)*colNormSq(b, j)) / p.norm
+			if sign*f < sign*bestF {
+				bestF = f
+				bestTheta = append(bestTheta[:0], theta...)
+			}
+		}
+	}
+	return bestTheta, bestF, lastOK, evals
+}
+
+// cost is sign·log f_j + μ·penalty at θ, and its gradient into g when non-nil.
+func (p *bandProblem) cost(j int, sign, mu float64, theta, g []float64) (float64, bool) {
+	t := p.rotation(theta)
+	a, b, tinvT, ok := p.rotate(t)
+	if !ok {
+		// Outside the region where T is invertible: a high wall, flat so
+		// the line search steps back.
+		for i := range g {
+			g[i] = 0
+		}
+		return 1e6, false
+	}
+	k := p.k
+	var ga, gb *mat.Dense
+	if g != nil {
+		ga, gb = mat.NewDense(p.n, k, nil), mat.NewDense(p.m, k, nil)
+	}
+	pen := p.penalty(a, b, ga, gb)
+	na, nb := math.Sqrt(colNormSq(a, j)), math.Sqrt(colNormSq(b, j))
+	if na == 0 || nb == 0 {
+		for i := range g {
+			g[i] = 0
+		}
+		return 1e6, false
+	}
+	// log f rather than f: outside the feasible set f can grow like θ²
+	// and outrun a penalty of the same order, log f cannot; the extremes
+	// are the same.
+	v := sign*(math.Log(na)+math.Log(nb)-math.Log(p.norm)) + mu*pen
+	if g == nil {
+		return v, true
+	}
+	// ∂log f/∂a_j = a_j/‖a_j‖², ∂log f/∂b_j = b_j/‖b_j‖².
+	for i := 0; i < p.n; i++ {
+		ga.Set(i, j, mu*ga.At(i, j)+sign*a.At(i, j)/(na*na))
+	}
+	for i := 0; i < p.m; i++ {
+		gb.Set(i, j, mu*gb.At(i, j)+sign*b.At(i, j)/(nb*nb))
+	}
+	for jj := 0; jj < k; jj++ {
+		if jj == j {
+			continue
+		}
+		for i := 0; i < p.n; i++ {
+			ga.Set(i, jj, mu*ga.At(i, jj))
+		}
+		for i := 0; i < p.m; i++ {
+			gb.Set(i, jj, mu*gb.At(i, jj))
+		}
+	}
+	// dT = Cᵀ G_A − T⁻ᵀ G_Bᵀ B.
+	var gt, gbB, tmp mat.Dense
+	gt.Mul(p.c.T(), ga)
+	gbB.Mul(gb.T(), b)
+	tmp.Mul(tinvT, &gbB)
+	gt.Sub(&gt, &tmp)
+	for q, fr := range p.free {
+		s := 0.0
+		for col, d := range fr.dir {
+			s += gt.At(fr.row, col) * d
+		}
+		g[q] = s
+	}
+	return v, true
+}
+
+// component returns column j of C T and S T⁻ᵀ, scaled as FeasibleBands
+// documents.
+func (p *bandProblem) component(t *mat.Dense, j int) ([]float64, []float64, error) {
+	a, b, _, ok := p.rotate(t)
+	if !ok {
+		return nil, nil, errors.New("bands: the extreme rotation is singular")
+	}
+	prof, spec := mat.Col(nil, j, a), mat.Col(nil, j, b)
+	if !p.opt.Closure && !(j < len(p.opt.Known) && p.opt.Known[j]) {
+		ns := math.Sqrt(dot(spec, spec))
+		want := math.Sqrt(colNormSq(p.s, j))
+		if ns > 0 {
+			f := want / ns
+			for i := range spec {
+				spec[i] *= f
+			}
+			for i := range prof {
+				prof[i] /= f
+			}
+		}
+	}
+	return prof, spec, nil
+}

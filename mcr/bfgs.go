@@ -1,0 +1,113 @@
+package mcr
+
+import "math"
+
+// minimiseBFGS minimises f from x0 by the BFGS quasi-Newton method with an
+// Armijo backtracking line search (Nocedal & Wright, Numerical Optimization,
+// 2nd ed. 2006, algorithm 6.1 and §3.1). It is small on purpose: the band
+// searches have at most k(k−1) ≤ 30 unknowns, and a local implementation
+// keeps the arithmetic order fixed (deterministic) and the dependency set
+// to gonum's mat. The inverse-Hessian update is skipped when the curvature
+// condition sᵀy > 0 fails, which keeps the approximation positive definite.
+// It returns the best point, its value and the function evaluations used.
+func minimiseBFGS(f func(x, g []float64) float64, x0 []float64, maxEval int) ([]float64, float64, int) {
+	n := len(x0)
+	x := append([]float64(nil), x0...)
+	g := make([]float64, n)
+	fx := f(x, g)
+	evals := 1
+	h := make([]float64, n*n) // inverse Hessian, row-major
+	resetH := func() {
+		for i := range h {
+			h[i] = 0
+		}
+		// Scale the first step so it moves about 1 % of the way to f = 0
+		// along the gradient, a unit-free start (common practice).
+		gn := math.Sqrt(dot(g, g))
+		sc := 1.0
+		if gn > 0 {
+			sc = 0.01 / gn
+		}
+		for i := 0; i < n; i++ {
+			h[i*n+i] = sc
+		}
+	}
+	resetH()
+	d := make([]float64, n)
+	xn := make([]float64, n)
+	gn := make([]float64, n)
+	s := make([]float64, n)
+	y := make([]float64, n)
+	hy := make([]float64, n)
+	stall := 0
+	for evals < maxEval {
+		for i := 0; i < n; i++ {
+			v := 0.0
+			for j := 0; j < n; j++ {
+				v -= h[i*n+j] * g[j]
+			}
+			d[i] = v
+		}
+		slope := dot(d, g)
+		if !(slope < 0) {
+			resetH()
+			continue
+		}
+		step, accepted := 1.0, false
+		var fn float64
+		for ls := 0; ls < 40 && evals < maxEval; ls++ {
+			for i := range xn {
+				xn[i] = x[i] + step*d[i]
+			}
+			fn = f(xn, gn)
+			evals++
+			if fn <= fx+1e-4*step*slope {
+				accepted = true
+				break
+			}
+			step *= 0.5
+		}
+		if !accepted {
+			break
+		}
+		for i := 0; i < n; i++ {
+			s[i] = xn[i] - x[i]
+			y[i] = gn[i] - g[i]
+		}
+		rel := math.Abs(fx-fn) / math.Max(math.Abs(fx), 1e-300)
+		copy(x, xn)
+		copy(g, gn)
+		fx = fn
+		if rel < 1e-12 {
+			stall++
+			if stall >= 3 {
+				break
+			}
+		} else {
+			stall = 0
+		}
+		if math.Sqrt(dot(g, g)) < 1e-14 {
+			break
+		}
+		sy := dot(s, y)
+		if sy <= 1e-300 {
+			continue
+		}
+		// H ← (I − ρ s yᵀ) H (I − ρ y sᵀ) + ρ s sᵀ, expanded.
+		rho := 1 / sy
+		for i := 0; i < n; i++ {
+			v := 0.0
+			for j := 0; j < n; j++ {
+				v += h[i*n+j] * y[j]
+			}
+			hy[i] = v
+		}
+		yhy := dot(y, hy)
+		for i := 0; i < n; i++ {
+			for j := 0; j < n; j++ {
+				h[i*n+j] += -rho*(hy[i]*s[j]+s[i]*hy[j]) + (rho*rho*yhy+rho)*s[i]*s[j]
+			}
+		}
+	}
+	return x, fx, evals
+}
