@@ -142,7 +142,7 @@ func threeComponent(selective bool) (*mat.Dense, *mat.Dense) {
 }
 
 func contribution(c, s *mat.Dense, j int) float64 {
-	return math.Sqrt(colNormSq(c, j)*colNormSq(s, j)/traceProd2(gram(c), gram(s)))
+	return math.Sqrt(colNormSq(c, j) * colNormSq(s, j) / traceProd2(gram(c), gram(s)))
 }
 
 // With a selective time and a selective channel for every component, a
