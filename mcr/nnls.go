@@ -183,23 +183,40 @@ func SolveMany(p Problem) (*mat.Dense, error) {
 	return x, nil
 }
 
+// factorCache holds, for one passive set, the Cholesky factor of G_PP and
+// (with closure) G_PP⁻¹ a_P and aᵀ G_PP⁻¹ a, which depend on the set only.
+// Flat slices and hand-written triangular solves: the blocks are at most a
+// few components across, where gonum's general routines spend more time in
+// bookkeeping and allocation than in arithmetic.
 type factorCache struct {
-	chol *mat.Cholesky
-	idx  []int
-	ok   bool
+	idx []int
+	l   []float64 // np × np lower triangle, row-major
+	az  []float64 // G_PP⁻¹ a_P
+	den float64   // a_Pᵀ G_PP⁻¹ a_P
+	ok  bool
 }
 
 type solver struct {
 	p      Problem
 	k      int
+	g      []float64 // G row-major
 	cache  map[uint64]*factorCache
 	b, x   []float64
 	z, tmp []float64
+	rhs    []float64
+	fv     []float64
 }
 
 func newSolver(p Problem, k int) *solver {
-	return &solver{p: p, k: k, cache: map[uint64]*factorCache{},
-		b: make([]float64, k), x: make([]float64, k), z: make([]float64, k), tmp: make([]float64, k)}
+	g := make([]float64, k*k)
+	for i := 0; i < k; i++ {
+		for j := 0; j < k; j++ {
+			g[i*k+j] = p.G.At(i, j)
+		}
+	}
+	return &solver{p: p, k: k, g: g, cache: map[uint64]*factorCache{},
+		b: make([]float64, k), x: make([]float64, k), z: make([]float64, k), tmp: make([]float64, k),
+		rhs: make([]float64, k), fv: make([]float64, k)}
 }
 
 func (s *solver) nonneg(j int) bool { return s.p.NonNeg == nil || s.p.NonNeg[j] }
@@ -214,7 +231,51 @@ func (s *solver) total(c int) float64 {
 	return s.p.Total[c]
 }
 
+// cholesky factors the np × np symmetric matrix a (row-major, overwritten
+// by L in its lower triangle); false if it is not positive definite.
+func cholesky(a []float64, np int) bool {
+	for j := 0; j < np; j++ {
+		d := a[j*np+j]
+		for q := 0; q < j; q++ {
+			d -= a[j*np+q] * a[j*np+q]
+		}
+		if !(d > 0) {
+			return false
+		}
+		d = math.Sqrt(d)
+		a[j*np+j] = d
+		for i := j + 1; i < np; i++ {
+			v := a[i*np+j]
+			for q := 0; q < j; q++ {
+				v -= a[i*np+q] * a[j*np+q]
+			}
+			a[i*np+j] = v / d
+		}
+	}
+	return true
+}
+
+// cholSolve solves L Lᵀ x = b in place.
+func cholSolve(l []float64, np int, b []float64) {
+	for i := 0; i < np; i++ {
+		v := b[i]
+		for q := 0; q < i; q++ {
+			v -= l[i*np+q] * b[q]
+		}
+		b[i] = v / l[i*np+i]
+	}
+	for i := np - 1; i >= 0; i-- {
+		v := b[i]
+		for q := i + 1; q < np; q++ {
+			v -= l[q*np+i] * b[q]
+		}
+		b[i] = v / l[i*np+i]
+	}
+}
+
 // factor returns the Cholesky factor of G restricted to the passive set.
+// Cholesky is the stable choice here: G_PP is a small symmetric positive
+// definite Gram block whenever the passive components are independent.
 func (s *solver) factor(mask uint64) *factorCache {
 	if f, ok := s.cache[mask]; ok {
 		return f
@@ -225,27 +286,38 @@ func (s *solver) factor(mask uint64) *factorCache {
 			f.idx = append(f.idx, j)
 		}
 	}
-	if len(f.idx) > 0 {
-		sub := mat.NewSymDense(len(f.idx), nil)
-		for a, ja := range f.idx {
-			for b := a; b < len(f.idx); b++ {
-				sub.SetSym(a, b, s.p.G.At(ja, f.idx[b]))
+	np := len(f.idx)
+	if np > 0 {
+		load := func(ridge float64) {
+			f.l = make([]float64, np*np)
+			for a, ja := range f.idx {
+				for b, jb := range f.idx {
+					f.l[a*np+b] = s.g[ja*s.k+jb]
+				}
+				f.l[a*np+a] += ridge
 			}
 		}
-		f.chol = &mat.Cholesky{}
-		f.ok = f.chol.Factorize(sub)
+		load(0)
+		f.ok = cholesky(f.l, np)
 		if !f.ok {
 			// A singular block means collinear components: a tiny ridge keeps
 			// the solve defined; ALS reports collinearity separately.
 			tr := 0.0
-			for a := range f.idx {
-				tr += sub.At(a, a)
+			for _, ja := range f.idx {
+				tr += s.g[ja*s.k+ja]
 			}
-			ridge := 1e-10 * math.Max(tr/float64(len(f.idx)), 1e-300)
-			for a := range f.idx {
-				sub.SetSym(a, a, sub.At(a, a)+ridge)
+			load(1e-10 * math.Max(tr/float64(np), 1e-300))
+			f.ok = cholesky(f.l, np)
+		}
+		if f.ok && s.p.Equality != nil {
+			f.az = make([]float64, np)
+			for a, ja := range f.idx {
+				f.az[a] = s.p.Equality[ja]
 			}
-			f.ok = f.chol.Factorize(sub)
+			cholSolve(f.l, np, f.az)
+			for a, ja := range f.idx {
+				f.den += s.p.Equality[ja] * f.az[a]
+			}
 		}
 	}
 	if len(s.cache) > 4096 {
@@ -259,9 +331,7 @@ func (s *solver) factor(mask uint64) *factorCache {
 // fixed), and the multiplier of the equality constraint.
 func (s *solver) solvePassive(mask uint64, c int, fixedVal []float64) ([]float64, float64, error) {
 	f := s.factor(mask)
-	for j := range s.z {
-		s.z[j] = fixedVal[j]
-	}
+	copy(s.z, fixedVal)
 	if len(f.idx) == 0 {
 		return s.z, 0, nil
 	}
@@ -269,31 +339,20 @@ func (s *solver) solvePassive(mask uint64, c int, fixedVal []float64) ([]float64
 		return nil, 0, errors.New("solve: Gram block is singular (components are collinear)")
 	}
 	np := len(f.idx)
-	rhs := mat.NewVecDense(np, nil)
+	y := s.rhs[:np]
 	// b_P − G_{P,F} x_F moves the fixed variables to the right-hand side.
 	for a, ja := range f.idx {
 		v := s.b[ja]
 		for j := 0; j < s.k; j++ {
 			if fixedVal[j] != 0 {
-				v -= s.p.G.At(ja, j) * fixedVal[j]
+				v -= s.g[ja*s.k+j] * fixedVal[j]
 			}
 		}
-		rhs.SetVec(a, v)
+		y[a] = v
 	}
-	var y mat.VecDense
-	if err := f.chol.SolveVecTo(&y, rhs); err != nil {
-		return nil, 0, fmt.Errorf("solve: %w", err)
-	}
+	cholSolve(f.l, np, y)
 	mu := 0.0
 	if s.p.Equality != nil {
-		av := mat.NewVecDense(np, nil)
-		for a, ja := range f.idx {
-			av.SetVec(a, s.p.Equality[ja])
-		}
-		var zz mat.VecDense
-		if err := f.chol.SolveVecTo(&zz, av); err != nil {
-			return nil, 0, fmt.Errorf("solve: %w", err)
-		}
 		target := s.total(c)
 		for j := 0; j < s.k; j++ {
 			target -= s.p.Equality[j] * fixedVal[j]
@@ -301,13 +360,19 @@ func (s *solver) solvePassive(mask uint64, c int, fixedVal []float64) ([]float64
 		// den = aᵀ G_PP⁻¹ a is zero only when every passive variable has
 		// closure weight zero (an inert component): the closure then does
 		// not involve this passive set and there is no multiplier.
-		if den := mat.Dot(av, &zz); den > 0 {
-			mu = (mat.Dot(av, &y) - target) / den
-			y.AddScaledVec(&y, -mu, &zz)
+		if f.den > 0 {
+			ay := 0.0
+			for a, ja := range f.idx {
+				ay += s.p.Equality[ja] * y[a]
+			}
+			mu = (ay - target) / f.den
+			for a := range y {
+				y[a] -= mu * f.az[a]
+			}
 		}
 	}
 	for a, ja := range f.idx {
-		s.z[ja] = y.AtVec(a)
+		s.z[ja] = y[a]
 	}
 	return s.z, mu, nil
 }
@@ -328,7 +393,8 @@ func (s *solver) column(c int, x *mat.Dense) error {
 		}
 		free |= 1 << uint(j)
 	}
-	fv := append([]float64(nil), fixedVal...)
+	fv := s.fv
+	copy(fv, fixedVal)
 	cur := s.x
 	// A feasible start: zero for plain NNLS; for closure, the remaining total
 	// shared evenly over the free variables, which is strictly interior.
@@ -364,7 +430,7 @@ func (s *solver) column(c int, x *mat.Dense) error {
 	scale := 0.0
 	for j := 0; j < k; j++ {
 		scale = math.Max(scale, math.Abs(s.b[j]))
-		scale = math.Max(scale, s.p.G.At(j, j))
+		scale = math.Max(scale, s.g[j*k+j])
 	}
 	tol := 1e-12 * math.Max(scale, 1e-300)
 	limit := 6*k + 20
@@ -417,7 +483,7 @@ func (s *solver) column(c int, x *mat.Dense) error {
 			}
 			w := s.b[j]
 			for i := 0; i < k; i++ {
-				w -= s.p.G.At(j, i) * cur[i]
+				w -= s.g[j*k+i] * cur[i]
 			}
 			if s.p.Equality != nil {
 				w -= mu * s.p.Equality[j]
