@@ -3,6 +3,7 @@ package spectra
 import (
 	"fmt"
 	"math"
+	"sort"
 	"strconv"
 	"strings"
 
@@ -60,6 +61,9 @@ type Assembled struct {
 	// reference came from a file or with difference input).
 	ReferenceRows []int
 	Notes         []string
+	// Warnings are faults of the data that do not stop the analysis, such
+	// as a saturated band (see saturationWarnings).
+	Warnings []string
 }
 
 // AssembleOptions gather what assembly needs besides the series.
@@ -67,6 +71,8 @@ type AssembleOptions struct {
 	Kind      Kind
 	Blank     []float64 // single beam on the data's axis, nil if none
 	Reference Reference
+	// BlankSource names the blank's file in messages ("blank" if empty).
+	BlankSource string
 }
 
 // Assemble builds absorbance and difference matrices from the series.
@@ -95,21 +101,26 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 			return nil, err
 		}
 		if opt.Blank != nil {
+			src := opt.BlankSource
+			if src == "" {
+				src = "blank"
+			}
 			for j, v := range opt.Blank {
 				if !(v > 0) || math.IsInf(v, 0) {
-					return nil, fmt.Errorf("blank: intensity %g at %s %g; a single beam must be positive: check it is a single beam, not absorbance", v, s.AxisName, s.Axis[j])
+					return nil, inputErr(src, 0, "a blank must be a single beam (positive intensities), not absorbance; or exclude that region with --exclude LO:HI", "blank intensity %g at %s %g", v, s.AxisName, s.Axis[j])
 				}
 			}
 		}
 		if opt.Reference.File != nil {
 			for j, v := range ref {
 				if !(v > 0) {
-					return nil, fmt.Errorf("%s: reference intensity %g at %s %g; a single beam must be positive", opt.Reference.File.Source, v, s.AxisName, s.Axis[j])
+					return nil, inputErr(opt.Reference.File.Source, 0, "a reference for single beams must be a single beam too (positive intensities)", "reference intensity %g at %s %g", v, s.AxisName, s.Axis[j])
 				}
 			}
 		} else {
 			meanRows(s.Values, out.ReferenceRows, ref)
 		}
+		out.Warnings = append(out.Warnings, saturationWarnings(s, ref, opt.Blank)...)
 		out.Difference = mat.NewDense(n, m, nil)
 		for i := 0; i < n; i++ {
 			row := s.Values.RawRowView(i)
@@ -179,9 +190,81 @@ func checkPositive(v *mat.Dense, s *Series, what string) error {
 		row := v.RawRowView(i)
 		for j := 0; j < m; j++ {
 			if !(row[j] > 0) {
-				return fmt.Errorf("%s (time %g s): %s intensity %g at %s %g; single beams must be positive: check --kind (absorbance or difference data?) or exclude that region", s.Names[i], s.Times[i], what, row[j], s.AxisName, s.Axis[j])
+				name := s.Source
+				if i < len(s.Names) && s.Names[i] != "" {
+					name = s.Names[i]
+				}
+				return inputErr(name, 0, "single beams must be positive: if the file holds absorbance or differences give --kind absorbance or --kind difference, else drop that region with --exclude LO:HI",
+					"%s intensity %g at %s %g (spectrum at %g s)", what, row[j], s.AxisName, s.Axis[j], s.Times[i])
 			}
 		}
 	}
 	return nil
+}
+
+// Weak-beam threshold: below 1 % transmission (absorbance above 2) a
+// single beam is mostly detector noise, so −log10 of it amplifies noise
+// rather than measuring absorption (common practice in infrared and
+// UV-visible work; the 1 % figure is a rule of thumb, from memory).
+const weakBeamFraction = 0.01
+
+// saturationWarnings finds channels where every single beam (or the blank)
+// stays below weakBeamFraction of that beam's median: a saturated band or a
+// detector edge. Absorbance noise there is σ_I/(I ln 10), huge as I → 0.
+func saturationWarnings(s *Series, ref, blank []float64) []string {
+	m := len(ref)
+	if m == 0 {
+		return nil
+	}
+	weak := make([]bool, m)
+	refThr := weakBeamFraction * median(ref)
+	n, _ := s.Values.Dims()
+	for j := 0; j < m; j++ {
+		hi := ref[j]
+		for i := 0; i < n; i++ {
+			hi = math.Max(hi, s.Values.At(i, j))
+		}
+		weak[j] = hi < refThr
+	}
+	if blank != nil {
+		bThr := weakBeamFraction * median(blank)
+		for j, v := range blank {
+			if v < bThr {
+				weak[j] = true
+			}
+		}
+	}
+	var runs [][2]int
+	for j := 0; j < m; j++ {
+		if !weak[j] {
+			continue
+		}
+		if len(runs) > 0 && runs[len(runs)-1][1] == j-1 {
+			runs[len(runs)-1][1] = j
+		} else {
+			runs = append(runs, [2]int{j, j})
+		}
+	}
+	var out []string
+	const most = 3
+	for k, r := range runs {
+		if k == most {
+			out = append(out, fmt.Sprintf("%d more weak-beam region(s) not listed", len(runs)-most))
+			break
+		}
+		lo, hi := s.Axis[r[0]], s.Axis[r[1]]
+		out = append(out, fmt.Sprintf("%s: single beam below %g %% of its median at %s %g–%g (%d point(s)): a saturated band or a detector edge, where absorbance is mostly noise; consider --exclude %g:%g",
+			s.Source, 100*weakBeamFraction, s.AxisName, lo, hi, r[1]-r[0]+1, lo, hi))
+	}
+	return out
+}
+
+// median of v (a copy is sorted; v is left as it is).
+func median(v []float64) float64 {
+	c := append([]float64(nil), v...)
+	sort.Float64s(c)
+	if len(c)%2 == 1 {
+		return c[len(c)/2]
+	}
+	return (c[len(c)/2-1] + c[len(c)/2]) / 2
 }

@@ -12,7 +12,6 @@ import (
 	"strings"
 	"sync"
 
-	"github.com/gocarina/gocsv"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -36,35 +35,66 @@ type TimeRow struct {
 }
 
 // ReadTimes reads a times table (columns file,time_s) into file → seconds.
+// It is read with the same line rules as the spectra (BOM, CRLF, blank and
+// '#' lines, comma, semicolon or tab separators) so that line numbers in
+// messages are the editor's line numbers.
 func ReadTimes(path string) (map[string]float64, error) {
 	raw, err := readAll(path)
 	if err != nil {
 		return nil, err
 	}
-	var rows []TimeRow
-	if err := gocsv.UnmarshalBytes(raw, &rows); err != nil {
-		return nil, inputErr(path, 0, "the times table needs a header row 'file,time_s' and one row per spectrum file", "cannot read the table: %v", err)
+	const headHint = "the times table needs a header row 'file,time_s' and one row per spectrum file"
+	lines := splitLines(raw)
+	if len(lines) == 0 {
+		return nil, inputErr(path, 0, headHint, "is empty")
 	}
-	if len(rows) == 0 {
-		return nil, inputErr(path, 0, "add one row per spectrum file below the header 'file,time_s'", "times table has no rows")
-	}
-	out := make(map[string]float64, len(rows))
-	byTime := map[float64]string{}
-	for i, r := range rows {
-		ln := i + 2
-		name := strings.TrimSpace(r.File)
-		if name == "" {
-			return nil, inputErr(path, ln, "each row needs a file name in column 'file' (check the header is exactly 'file,time_s')", "empty file name")
+	head := lines[0]
+	sep := detectSeparator(head.text)
+	fileCol, timeCol := -1, -1
+	hf := fields(head.text, sep, nil)
+	for i, h := range hf {
+		switch strings.ToLower(string(h)) {
+		case "file":
+			fileCol = i
+		case "time_s":
+			timeCol = i
 		}
-		v, err := strconv.ParseFloat(strings.TrimSpace(r.TimeS), 64)
-		if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, inputErr(path, ln, "time_s must be a number of seconds", "time %q of %s is not a number", r.TimeS, name)
+	}
+	if fileCol < 0 || timeCol < 0 {
+		missing := "file"
+		if fileCol >= 0 {
+			missing = "time_s"
+		}
+		return nil, inputErr(path, head.n, headHint, "header has no column %q", missing)
+	}
+	if len(lines) == 1 {
+		return nil, inputErr(path, head.n, "add one row per spectrum file below the header 'file,time_s'", "times table has no rows")
+	}
+	out := make(map[string]float64, len(lines)-1)
+	byTime := map[float64]string{}
+	var buf [][]byte
+	for _, l := range lines[1:] {
+		buf = fields(l.text, sep, buf)
+		if len(buf) <= max(fileCol, timeCol) {
+			return nil, inputErr(path, l.n, headHint, "row has %d cell(s), the header has %d", len(buf), len(hf))
+		}
+		name := string(buf[fileCol])
+		if name == "" {
+			return nil, inputErr(path, l.n, "each row needs a file name in column 'file'", "empty file name")
+		}
+		v, err := parseNumber(buf[timeCol])
+		if err != nil {
+			hint := "time_s must be a number of seconds"
+			if looksLikeDecimalComma(buf[timeCol]) {
+				hint = "the table seems to use decimal commas: write times with decimal points"
+			}
+			return nil, inputErr(path, l.n, hint, "time of %s: %v", quoteCell(buf[fileCol]), err)
 		}
 		if _, dup := out[name]; dup {
-			return nil, inputErr(path, ln, "list each file once", "file %s is listed twice", name)
+			return nil, inputErr(path, l.n, "list each file once", "file %s is listed twice", quoteCell(buf[fileCol]))
 		}
 		if other, dup := byTime[v]; dup {
-			return nil, inputErr(path, ln, "each spectrum needs its own time", "%s has the same time %g s as %s", name, v, other)
+			return nil, inputErr(path, l.n, "each spectrum needs its own time", "%s has the same time %g s as %s", quoteCell(buf[fileCol]), v, quoteCell([]byte(other)))
 		}
 		out[name], byTime[v] = v, name
 	}

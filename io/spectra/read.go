@@ -127,12 +127,23 @@ func splitLines(raw []byte) []line {
 		}
 		l = bytes.TrimRight(l, "\r")
 		t := bytes.TrimSpace(l)
-		if len(t) == 0 || t[0] == '#' {
+		if len(t) == 0 || t[0] == '#' || onlySeparators(t) {
 			continue
 		}
 		out = append(out, line{n, l})
 	}
 	return out
+}
+
+// onlySeparators is true for lines such as ",,,," that spreadsheets write
+// below the data; they hold no cell and count as blank.
+func onlySeparators(t []byte) bool {
+	for _, c := range t {
+		if c != ',' && c != ';' && c != '\t' && c != ' ' {
+			return false
+		}
+	}
+	return true
 }
 
 // detectSeparator picks the field separator of a header or data line.
@@ -156,6 +167,20 @@ func fields(l []byte, sep byte, out [][]byte) [][]byte {
 		return out
 	}
 	for {
+		// A double-quoted cell may hold the separator ("run 7, cell B").
+		if t := bytes.TrimLeft(l, " "); len(t) > 0 && t[0] == '"' {
+			if end := bytes.IndexByte(t[1:], '"'); end >= 0 {
+				rest := bytes.TrimLeft(t[end+2:], " ")
+				if len(rest) == 0 || rest[0] == sep {
+					out = append(out, bytes.TrimSpace(t[1:end+1]))
+					if len(rest) == 0 {
+						break
+					}
+					l = rest[1:]
+					continue
+				}
+			}
+		}
 		i := bytes.IndexByte(l, sep)
 		var f []byte
 		if i < 0 {
@@ -184,12 +209,34 @@ func parseNumber(b []byte) (float64, error) {
 	}
 	v, err := strconv.ParseFloat(unsafe.String(&b[0], len(b)), 64)
 	if err != nil {
-		return 0, fmt.Errorf("%q is not a number", string(b))
+		var ne *strconv.NumError
+		if errors.As(err, &ne) && errors.Is(ne.Err, strconv.ErrRange) {
+			return 0, fmt.Errorf("%s is too large (or too small) to be a measured value", quoteCell(b))
+		}
+		return 0, fmt.Errorf("%s is not a number", quoteCell(b))
 	}
 	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return 0, fmt.Errorf("%q is not a finite number", string(b))
+		return 0, fmt.Errorf("%s is not a finite number", quoteCell(b))
+	}
+	if math.Abs(v) > maxMagnitude {
+		return 0, fmt.Errorf("%s is too large to be a measured value", quoteCell(b))
 	}
 	return v, nil
+}
+
+// maxMagnitude bounds accepted values: no intensity, absorbance, axis or time
+// comes near it, and squares of sums of such values stay finite, so a
+// corrupt cell cannot turn into Inf or NaN inside the factor analysis.
+const maxMagnitude = 1e100
+
+// quoteCell quotes a cell for a message, cut short so that a garbage line of
+// megabytes still gives a one-line error of readable length.
+func quoteCell(b []byte) string {
+	const most = 40
+	if len(b) > most {
+		return strconv.Quote(string(b[:most])) + "…"
+	}
+	return strconv.Quote(string(b))
 }
 
 func looksLikeDecimalComma(b []byte) bool {
@@ -214,6 +261,17 @@ func ReadMatrixCSV(path string) (*Series, error) {
 	lines := splitLines(raw)
 	if len(lines) == 0 {
 		return nil, inputErr(path, 0, "export the spectra with a header row: axis name, then one time per spectrum", "is empty")
+	}
+	// Single-cell lines before the header are titles (quoted or not).
+	for len(lines) > 1 {
+		hf := fields(lines[0].text, detectSeparator(lines[0].text), nil)
+		if len(hf) != 1 {
+			break
+		}
+		if _, err := parseNumber(hf[0]); err == nil {
+			break
+		}
+		lines = lines[1:]
 	}
 	head := lines[0]
 	sep := detectSeparator(head.text)
@@ -306,6 +364,9 @@ func ReadMatrixCSV(path string) (*Series, error) {
 	if err := checkAxis(path, axis, func(i int) int { return rows[i].n }); err != nil {
 		return nil, err
 	}
+	if axisName == "" {
+		axisName = guessAxisName(axis)
+	}
 	names := make([]string, n)
 	for j := range names {
 		names[j] = fmt.Sprintf("%s column %d", path, j+2)
@@ -318,7 +379,7 @@ func ReadMatrixCSV(path string) (*Series, error) {
 // checkAxis requires a strictly monotonic axis of at least two points.
 func checkAxis(path string, axis []float64, lineOf func(int) int) error {
 	if len(axis) < 2 {
-		return inputErr(path, 0, "a spectrum needs at least two axis points", "has only %d axis point(s)", len(axis))
+		return inputErr(path, 0, "a spectrum needs at least two axis points: is it a peak list or a single reading rather than a spectrum?", "has only %d axis point(s)", len(axis))
 	}
 	up := axis[1] > axis[0]
 	for i := 1; i < len(axis); i++ {
@@ -400,7 +461,9 @@ func ReadSpectrumFile(path string) (*Spectrum, error) {
 			start = i
 			break
 		}
-		if len(buf) >= 1 && axisName == "" && len(buf) <= 3 {
+		// The column titles are the last non-numeric line before the data;
+		// earlier lines are free-text titles.
+		if len(buf) >= 1 && len(buf) <= 3 && len(buf[0]) > 0 {
 			axisName = strings.ToLower(string(buf[0]))
 		}
 	}

@@ -1,0 +1,181 @@
+package pipeline
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"os"
+	"strings"
+
+	"github.com/bandsolve/bandsolve/io/spectra"
+	"github.com/bandsolve/bandsolve/mcr"
+	"gonum.org/v1/gonum/mat"
+)
+
+// inputContext names the experiment in an error unless the error already
+// names its own file (an InputError), so messages never say a path twice.
+func inputContext(source string, err error) error {
+	var ie *spectra.InputError
+	if errors.As(err, &ie) {
+		return err
+	}
+	return fmt.Errorf("%s: %w", source, err)
+}
+
+// needTimes refuses a folder of spectra without a source of acquisition
+// times before any file is read: the fix is an option, so it is a usage error.
+func needTimes(s *Settings, data string) error {
+	if s.Times != "" || s.TimesFromName {
+		return nil
+	}
+	if st, err := os.Stat(s.Path(data)); err == nil && st.IsDir() {
+		return usage("--data %s is a folder of spectra: give --times FILE (columns file,time_s) or --times-from-name", data)
+	}
+	return nil
+}
+
+// checkClosureRows refuses closure when a spectrum is all zero: its
+// concentrations cannot sum to a positive total while every species has a
+// non-negative spectrum, so the constraint contradicts the data.
+func checkClosureRows(r *Result) error {
+	n, m := r.D.Dims()
+	big := 0.0
+	for i := 0; i < n; i++ {
+		for _, v := range r.D.RawRowView(i)[:m] {
+			big = math.Max(big, math.Abs(v))
+		}
+	}
+	// Rows below 1e-12 of the largest value are zero to working precision
+	// of absorbance values written with ~10 digits.
+	tiny := 1e-12 * big
+	for i := 0; i < n; i++ {
+		mx := 0.0
+		for _, v := range r.D.RawRowView(i)[:m] {
+			mx = math.Max(mx, math.Abs(v))
+		}
+		if mx <= tiny {
+			e := r.Experiments[r.ExpOfRow[i]]
+			return usage("--closure %s: the spectrum at %g s in %s is zero at every point, so its concentrations cannot sum to %s; use --closure off, or leave that spectrum out of the data", r.Settings.Closure, r.Times[i], e.Source, r.Settings.Closure)
+		}
+	}
+	return nil
+}
+
+// checkFinite stops a run whose resolution produced a non-number rather
+// than writing it: output files never hold NaN or Inf.
+func checkFinite(res *mcr.Result) error {
+	for _, x := range []*mat.Dense{res.C, res.S} {
+		if x == nil {
+			continue
+		}
+		r, c := x.Dims()
+		for i := 0; i < r; i++ {
+			for _, v := range x.RawRowView(i)[:c] {
+				if math.IsNaN(v) || math.IsInf(v, 0) {
+					return errors.New("resolution failed numerically (a non-finite value appeared); try fewer components, --init efa, or --exclude the noisiest region")
+				}
+			}
+		}
+	}
+	return nil
+}
+
+// Thresholds for collinear components. A cosine of 0.999 between two
+// spectra or two profiles means they differ by less than 2.6° — one
+// component split in two (common practice; the exact figure is a choice).
+// A Gram matrix whose condition number exceeds 1e10 loses more than ten of
+// the sixteen digits in the least-squares steps (Golub & Van Loan, Matrix
+// Computations, §2.6: relative error ≈ κ·ε), so the split between those
+// components is arbitrary.
+const (
+	collinearCosine = 0.999
+	singularGram    = 1e10
+)
+
+// componentWarnings reports numerical faults of a finished resolution:
+// components with (nearly) the same spectrum or profile, and singular Gram
+// matrices CᵀC or SᵀS.
+func componentWarnings(res *mcr.Result) []string {
+	var out []string
+	_, k := res.C.Dims()
+	fewer := fmt.Sprintf("the data supports fewer components: try --components %d", max(k-1, 1))
+	for a := 0; a < k; a++ {
+		for b := a + 1; b < k; b++ {
+			cs := Cosine(mat.Col(nil, a, res.S), mat.Col(nil, b, res.S))
+			cp := Cosine(mat.Col(nil, a, res.C), mat.Col(nil, b, res.C))
+			switch {
+			case math.Abs(cs) > collinearCosine:
+				out = append(out, fmt.Sprintf("components %d and %d have nearly the same spectrum (cosine %.5f): %s", a+1, b+1, cs, fewer))
+			case math.Abs(cp) > collinearCosine:
+				out = append(out, fmt.Sprintf("components %d and %d have nearly the same time profile (cosine %.5f): %s, or a known spectrum to tell them apart", a+1, b+1, cp, fewer))
+			}
+		}
+	}
+	if k > 1 {
+		var bad []string
+		for _, x := range []struct {
+			name string
+			m    *mat.Dense
+		}{{"profiles (CᵀC)", res.C}, {"spectra (SᵀS)", res.S}} {
+			if c := conditionNumber(x.m); c > singularGram {
+				if math.IsInf(c, 1) {
+					bad = append(bad, x.name+" exactly singular")
+				} else {
+					bad = append(bad, fmt.Sprintf("%s condition %.2g", x.name, c))
+				}
+			}
+		}
+		if len(bad) > 0 {
+			out = append(out, fmt.Sprintf("singular Gram matrix: %s; the components are linearly dependent and their split is arbitrary: %s", strings.Join(bad, ", "), fewer))
+		}
+	}
+	return out
+}
+
+// conditionNumber of XᵀX, from the singular values of X (squared): the SVD
+// of the tall thin X avoids forming XᵀX, which would square the condition
+// before it is measured.
+func conditionNumber(x *mat.Dense) float64 {
+	var svd mat.SVD
+	if !svd.Factorize(x, mat.SVDNone) {
+		return math.Inf(1)
+	}
+	s := svd.Values(nil)
+	if len(s) == 0 || s[0] == 0 {
+		return math.Inf(1)
+	}
+	lo := s[len(s)-1]
+	if lo == 0 {
+		return math.Inf(1)
+	}
+	return (s[0] / lo) * (s[0] / lo)
+}
+
+// checkInitColumns refuses initial profiles that make the first
+// least-squares step singular: a column that is zero at every time, or two
+// columns with the same shape.
+func checkInitColumns(path string, names []string, c *mat.Dense) error {
+	_, k := c.Dims()
+	for j := 0; j < k; j++ {
+		col := mat.Col(nil, j, c)
+		if mat.Norm(mat.NewVecDense(len(col), col), math.Inf(1)) == 0 {
+			return fmt.Errorf("%s: profile column %d (%q) is zero at every time: ALS cannot start from an absent component; give it a non-zero guess, or resolve one component fewer", path, j+2, names[j])
+		}
+		for b := 0; b < j; b++ {
+			if cs := Cosine(mat.Col(nil, b, c), col); cs > 1-1e-9 {
+				return fmt.Errorf("%s: profile columns %d (%q) and %d (%q) have the same shape: the components could not be told apart; give distinct guesses, or resolve one component fewer", path, b+2, names[b], j+2, names[j])
+			}
+		}
+	}
+	return nil
+}
+
+// explainResolveError turns a singular least-squares step inside ALS into
+// what the user can do about it.
+func explainResolveError(r *Result, err error) error {
+	var cond mat.Condition
+	if errors.As(err, &cond) || strings.Contains(err.Error(), "singular") {
+		return fmt.Errorf("%v: the %d components became linearly dependent (one vanished or two coincide); ask for fewer with --components (the rank estimate is %d), or try --init efa", err, r.Components, r.Rank.Estimate)
+	}
+	return err
+}
