@@ -123,6 +123,9 @@ func Demo(out string, force bool, quiet, asJSON bool, st Streams) (*Result, erro
 	s.Pre = truth.Pre
 	s.Out = out
 	s.Quiet, s.JSON = quiet, asJSON
+	// The demo also fits its true scheme, so that its rate constants can be
+	// read next to the truth.
+	s.Model, s.T0 = "A -> B -> C", fmt.Sprint(truth.T0)
 	r, err := Run(s, st.progress(s))
 	if err != nil {
 		return fail(err)
@@ -139,7 +142,8 @@ func Demo(out string, force bool, quiet, asJSON bool, st Streams) (*Result, erro
 		for _, row := range check.Rows {
 			fmt.Fprintf(st.Out, "  %-20s -> %-10s spectrum cosine %s, profile cosine %s\n", row[0], row[1], row[2], row[3])
 		}
-		fmt.Fprintf(st.Out, "try: go run ./cmd/bandsolve resolve --data %s/input/series.csv --kind single-beam --blank %s/input/blank.csv --pre %d --out my-run\n", out, out, truth.Pre)
+		printDemoKinetics(r, []float64{truth.K1, truth.K2}, st.Out)
+		fmt.Fprintf(st.Out, "try: go run ./cmd/bandsolve resolve --data %s/input/series.csv --kind single-beam --blank %s/input/blank.csv --pre %d --model 'A -> B -> C' --t0 %g --out my-run\n", out, out, truth.Pre, truth.T0)
 	}
 	s.Dir = ""
 	return r, stage.Commit()

@@ -52,6 +52,10 @@ type Result struct {
 	Components int
 	Names      []string
 	ALS        *mcr.Result
+	// SoftALS is the soft solution a hard–soft run (--hard-model) started from.
+	SoftALS *mcr.Result
+	// Kinetics is the kinetic fit of --model (nil without one).
+	Kinetics   *Kinetics
 	Residual   *mat.Dense
 	LackOfFit  float64 // on the full data
 	Explained  float64
@@ -74,6 +78,9 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	}
 	if s.Times != "" && s.TimesFromName {
 		return nil, usage("--times and --times-from-name both give the times: use one")
+	}
+	if err := checkKineticsSettings(s); err != nil {
+		return nil, err
 	}
 	r := &Result{Settings: s}
 	kind := spectra.Kind(s.Kind)
@@ -298,6 +305,9 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	if err := resolve(r, log); err != nil {
 		return nil, err
 	}
+	if err := fitKinetics(r, log); err != nil {
+		return nil, err
+	}
 	return r, nil
 }
 
@@ -415,8 +425,18 @@ func resolve(r *Result, log io.Writer) error {
 	if r.Mode == mcr.Reactions {
 		scaleExtents(res.C, res.S)
 	}
-	orderComponents(r, res)
+	order := orderComponents(r, res)
 	r.ALS = res
+	if s.Model != "" && s.HardModel {
+		// Hard–soft: the soft solution fixes the map, then ALS restarts from
+		// it with mcr.Options.HardModel set (see hardSoft).
+		hard, err := hardSoft(r, data, opt, order, log)
+		if err != nil {
+			return err
+		}
+		r.SoftALS, res = res, hard
+		r.ALS = res
+	}
 	r.Residual, r.LackOfFit = mcr.Residuals(r.D, res.C, res.S)
 	tot := frob2(r.D)
 	r.Explained = 100 * (1 - sq(r.LackOfFit/100))
@@ -585,8 +605,9 @@ func scaleExtents(c, s *mat.Dense) {
 
 // orderComponents sorts components by when they matter: species by the
 // time of their largest concentration, reactions by the time their extent
-// first reaches half its largest value. Ties keep the ALS order.
-func orderComponents(r *Result, res *mcr.Result) {
+// first reaches half its largest value. Ties keep the ALS order. It returns
+// the permutation: new column j is old column idx[j].
+func orderComponents(r *Result, res *mcr.Result) []int {
 	n, k := res.C.Dims()
 	key := make([]float64, k)
 	for j := 0; j < k; j++ {
@@ -620,4 +641,5 @@ func orderComponents(r *Result, res *mcr.Result) {
 		sp.SetCol(to, mat.Col(nil, from, res.S))
 	}
 	res.C, res.S = c, sp
+	return idx
 }

@@ -38,6 +38,11 @@ type Settings struct {
 	T0            string
 	Map           string
 	HardModel     bool
+	KineticFit    string
+	C0            string
+	FitC0         bool
+	KStart        string
+	KFixed        string
 	Bands         string
 	Replicates    int
 	Seed          uint64
@@ -61,6 +66,7 @@ func NewSettings() *Settings {
 		TimeUnit:   "s",
 		Components: "auto",
 		Closure:    "1",
+		KineticFit: "data",
 		Bands:      "on",
 		Seed:       1,
 		Init:       "purest",
@@ -291,6 +297,16 @@ var options = func() []Option {
 	add(opt("map", "A=1,B=2", "which resolved component is which species of the model (default: by time behaviour)", false, true, s16, g16))
 	s17, g17 := boolean(func(s *Settings) *bool { return &s.HardModel })
 	add(opt("hard-model", "", "replace the profiles by their kinetic fit inside every ALS cycle (hard–soft)", false, true, s17, g17))
+	sk1, gk1 := choice(func(s *Settings) *string { return &s.KineticFit }, "profiles", "data")
+	add(opt("kinetic-fit", "profiles|data", "rate constants reported: data (fit of the data matrix itself by variable projection; honest standard errors) or profiles (fit of the resolved profiles, hard–soft with --hard-model); both are computed", false, true, sk1, gk1))
+	sk2, gk2 := str(func(s *Settings) *string { return &s.C0 })
+	add(opt("c0", "A=1,B=0", "initial concentrations of the model's species (default: starting species share the closure total, or 1 each)", false, true, sk2, gk2))
+	sk3, gk3 := boolean(func(s *Settings) *bool { return &s.FitC0 })
+	add(opt("fit-c0", "", "also fit the non-zero initial concentrations", false, true, sk3, gk3))
+	sk4, gk4 := str(func(s *Settings) *string { return &s.KStart })
+	add(opt("k-start", "1=4e-3,2=1e-3", "starting rate constants per step (number in the order written, or the step's text) in 1/s", false, true, sk4, gk4))
+	sk5, gk5 := str(func(s *Settings) *string { return &s.KFixed })
+	add(opt("k-fixed", "1=4e-3", "rate constants held fixed, per step (number or text), in 1/s", false, true, sk5, gk5))
 	s18, g18 := choice(func(s *Settings) *string { return &s.Bands }, "on", "off")
 	add(opt("bands", "on|off", "compute feasible bands (rotational ambiguity) of each component", false, true, s18, g18))
 	s19, g19 := integer(func(s *Settings) *int { return &s.Replicates }, 0)

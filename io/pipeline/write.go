@@ -64,6 +64,18 @@ type BandJSON struct {
 type KineticsJSON struct {
 	Model         string         `json:"model"`
 	RateConstants []RateConstant `json:"rate_constants"`
+	// Method is the fit behind rate_constants: profiles, hard-soft or data
+	// (--kinetic-fit); every fit made is in Fits.
+	Method            string           `json:"method"`
+	RateLaw           string           `json:"rate_law"`
+	Fitted            string           `json:"fitted"`
+	ConcentrationUnit string           `json:"concentration_unit"`
+	T0                float64          `json:"t0_s"`
+	Map               []KineticMapJSON `json:"map"`
+	MapSource         string           `json:"map_source"`
+	Correlation       [][]float64      `json:"correlation"`
+	Stiff             bool             `json:"stiff"`
+	Fits              []KineticFitJSON `json:"fits"`
 }
 
 // RateConstant of one step, in the order the steps are written.
@@ -73,6 +85,10 @@ type RateConstant struct {
 	StdErr   float64 `json:"stderr_per_s"`
 	HalfLife float64 `json:"half_life_s,omitempty"`
 	Unit     string  `json:"unit,omitempty"`
+	// HalfLifeNote says which half-life formula applies; Fixed marks a
+	// constant held at --k-fixed.
+	HalfLifeNote string `json:"half_life_note,omitempty"`
+	Fixed        bool   `json:"fixed,omitempty"`
 }
 
 // round keeps summary numbers to 10 significant digits, as the CSVs do.
@@ -122,6 +138,9 @@ func MakeSummary(r *Result) *Summary {
 	if r.DiffRank != nil {
 		v := r.DiffRank.Estimate
 		s.DifferenceRank = &v
+	}
+	if r.Kinetics != nil {
+		s.Kinetics = kineticsSummary(r)
 	}
 	if r.ALS != nil {
 		s.Iterations, s.Converged = r.ALS.Iterations, r.ALS.Converged
@@ -193,6 +212,15 @@ func WriteResults(r *Result, st *output.Stage) error {
 			return err
 		}
 	}
+	if r.Kinetics != nil && r.Kinetics.Reported() != nil {
+		t, err := kineticsTable(r)
+		if err != nil {
+			return err
+		}
+		if err := st.Write("kinetics.csv", t.CSV()); err != nil {
+			return err
+		}
+	}
 	sum, err := output.JSON(MakeSummary(r))
 	if err != nil {
 		return err
@@ -260,6 +288,9 @@ func PrintTable(r *Result, w io.Writer) {
 			}
 			fmt.Fprintf(w, "  %-12s profile max %.4g at t = %g s\n", name, mx, r.Times[at])
 		}
+	}
+	if r.Kinetics != nil {
+		printKinetics(r, w)
 	}
 	for _, a := range r.Advice {
 		fmt.Fprintf(w, "advice: %s\n", a)

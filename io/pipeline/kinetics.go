@@ -1,0 +1,952 @@
+package pipeline
+
+// Kinetic analysis of a resolution (--model): the resolved profiles, or the
+// data matrix itself, are fitted by a reaction scheme in the chemist's
+// notation, and with --hard-model the scheme becomes a constraint inside ALS.
+//
+// Rate laws are mass action with the IUPAC rate of reaction r_j = k_j Π c_i^ν_ij
+// (mcr/kinetics): 2 A -> P has r = k[A]² and d[A]/dt = −2k[A]², so
+// 1/[A] − 1/[A]0 = 2kt and t½ = 1/(2k[A]0).
+//
+// Species mode fits concentrations; with closure they are in units of the
+// closure total and no scale is free. Without closure, and in reactions mode
+// (extents, scaled to a largest value of 1 by resolve), each profile is a free
+// multiple of its model column (amplitudes, solved linearly). Hard–soft
+// resolution follows de Juan, Maeder, Martínez & Tauler (Chemom. Intell. Lab.
+// Syst. 2000): in every ALS cycle the mapped profiles are replaced by their
+// kinetic fit, which removes the rotational ambiguity a soft resolution keeps.
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"strconv"
+	"strings"
+
+	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/mcr"
+	"github.com/bandsolve/bandsolve/mcr/kinetics"
+	"gonum.org/v1/gonum/mat"
+)
+
+// Kinetics is the kinetic analysis of one resolution.
+type Kinetics struct {
+	Scheme *kinetics.Scheme
+	T0     float64
+	// Extents: reactions mode fits the extents ξ_j of the steps, species
+	// mode the species' concentrations.
+	Extents bool
+	// Amplitudes: each profile is a free multiple of its model column.
+	Amplitudes bool
+	// Components[j] (0-based, profiles.csv order) is described by model
+	// column Columns[j] (a species, or a step with Extents).
+	Components, Columns []int
+	MapSource           string
+	C0                  []float64
+	FitC0               bool
+	// KStart and KFixed per step; NaN in KStart means "choose".
+	KStart []float64
+	KFixed []bool
+	// UnitName is the concentration unit in words ("closure total", "[A]0").
+	UnitName string
+	Unit     string
+	// Fits are every fit made; Fits[Primary] is the one reported as
+	// rate_constants.
+	Fits    []*KineticFit
+	Primary int
+}
+
+// KineticFit is one fit of the scheme.
+type KineticFit struct {
+	// Method is "profiles" (the resolved profiles), "soft-profiles" (the soft
+	// solution of a hard–soft run), "hard-soft" (the kinetic fit inside the
+	// last hard–soft ALS cycle) or "data" (the data matrix, variable projection).
+	Method string
+	Fit    *kinetics.FitResult
+	// Observed are the profile columns fitted (n × mapped), nil for "data".
+	Observed *mat.Dense
+	// Spectra of the data fit (m × model columns), nil otherwise.
+	Spectra *mat.Dense
+}
+
+// Reported returns the fit behind rate_constants.
+func (kn *Kinetics) Reported() *KineticFit {
+	if kn == nil || len(kn.Fits) == 0 {
+		return nil
+	}
+	return kn.Fits[kn.Primary]
+}
+
+// Find returns the fit made by method, nil if none.
+func (kn *Kinetics) Find(method string) *KineticFit {
+	if kn == nil {
+		return nil
+	}
+	for _, f := range kn.Fits {
+		if f.Method == method {
+			return f
+		}
+	}
+	return nil
+}
+
+type assignment struct{ key, value string }
+
+// parseAssignments reads "KEY=VALUE,KEY=VALUE". A step's text may hold '=>'
+// as its arrow, so each pair splits at its last '='.
+func parseAssignments(flag, v, example string) ([]assignment, error) {
+	var out []assignment
+	for _, part := range strings.Split(v, ",") {
+		part = strings.TrimSpace(part)
+		if part == "" {
+			continue
+		}
+		i := strings.LastIndex(part, "=")
+		if i <= 0 || i == len(part)-1 {
+			return nil, usage("--%s %q: want NAME=VALUE pairs separated by commas, e.g. --%s %s", flag, part, flag, example)
+		}
+		out = append(out, assignment{strings.TrimSpace(part[:i]), strings.TrimSpace(part[i+1:])})
+	}
+	if len(out) == 0 {
+		return nil, usage("--%s is empty: want NAME=VALUE pairs, e.g. --%s %s", flag, flag, example)
+	}
+	return out, nil
+}
+
+func normStep(t string) string {
+	t = strings.ReplaceAll(t, "→", "->")
+	t = strings.ReplaceAll(t, "=>", "->")
+	return strings.Join(strings.Fields(t), "")
+}
+
+// stepIndex finds a step by its number (1-based, in the order written) or
+// its text.
+func stepIndex(sch *kinetics.Scheme, key string) (int, bool) {
+	if n, err := strconv.Atoi(key); err == nil {
+		if n >= 1 && n <= len(sch.Steps) {
+			return n - 1, true
+		}
+		return -1, false
+	}
+	for j, st := range sch.Steps {
+		if normStep(st.Text) == normStep(key) {
+			return j, true
+		}
+	}
+	return -1, false
+}
+
+func stepList(sch *kinetics.Scheme) string {
+	var parts []string
+	for j, st := range sch.Steps {
+		parts = append(parts, fmt.Sprintf("%d = %s", j+1, st.Text))
+	}
+	return strings.Join(parts, ", ")
+}
+
+func parseScheme(s *Settings) (*kinetics.Scheme, error) {
+	sch, err := kinetics.ParseScheme(s.Model)
+	if err != nil {
+		msg := strings.TrimPrefix(err.Error(), "kinetics: reaction scheme: ")
+		return nil, usage("--model %q: %s; write steps like 'A -> B -> C', 'A -> B; A -> C' or '2 A -> P'", s.Model, msg)
+	}
+	return sch, nil
+}
+
+// checkKineticsSettings finds mistakes in the kinetic settings before any
+// data is read.
+func checkKineticsSettings(s *Settings) error {
+	if s.Model == "" {
+		for _, x := range []struct {
+			on   bool
+			name string
+		}{{s.Map != "", "--map"}, {s.HardModel, "--hard-model"}, {s.C0 != "", "--c0"}, {s.FitC0, "--fit-c0"},
+			{s.KStart != "", "--k-start"}, {s.KFixed != "", "--k-fixed"}} {
+			if x.on {
+				return usage("%s needs --model, e.g. --model 'A -> B -> C'", x.name)
+			}
+		}
+		return nil
+	}
+	sch, err := parseScheme(s)
+	if err != nil {
+		return err
+	}
+	if len(s.Data) > 1 {
+		return usage("--model fits one experiment at a time: give one --data, or fit each experiment in a run of its own")
+	}
+	if _, _, _, err := kineticValues(s, sch, 1); err != nil {
+		return err
+	}
+	if s.Map != "" {
+		pairs, err := parseAssignments("map", s.Map, "A=1,B=2")
+		if err != nil {
+			return err
+		}
+		for _, p := range pairs {
+			_, isStep := stepIndex(sch, p.key)
+			if sch.SpeciesIndex(p.key) < 0 && !isStep {
+				return usage("--map %s=%s: %q is not a species of the model %q (species: %s)", p.key, p.value, p.key, s.Model, strings.Join(sch.Species, ", "))
+			}
+			if n, err := strconv.Atoi(p.value); err != nil || n < 1 {
+				return usage("--map %s=%s: want a component number ≥ 1 (the column of profiles.csv after time)", p.key, p.value)
+			}
+		}
+	}
+	return nil
+}
+
+// kineticValues reads --c0, --k-start and --k-fixed. Without --c0 the
+// starting species (those no step forms) share total; with --c0 the species
+// not named start at 0.
+func kineticValues(s *Settings, sch *kinetics.Scheme, total float64) (c0, kstart []float64, kfixed []bool, err error) {
+	ns, nr := len(sch.Species), len(sch.Steps)
+	c0 = make([]float64, ns)
+	if s.C0 == "" {
+		formed := make([]bool, ns)
+		for _, st := range sch.Steps {
+			for _, t := range st.Products {
+				formed[t.Species] = true
+			}
+		}
+		var start []int
+		for i := range sch.Species {
+			if !formed[i] {
+				start = append(start, i)
+			}
+		}
+		if len(start) == 0 {
+			start = []int{0}
+		}
+		for _, i := range start {
+			c0[i] = total / float64(len(start))
+		}
+	} else {
+		pairs, err := parseAssignments("c0", s.C0, "A=1,B=0")
+		if err != nil {
+			return nil, nil, nil, err
+		}
+		any := false
+		for _, p := range pairs {
+			i := sch.SpeciesIndex(p.key)
+			if i < 0 {
+				return nil, nil, nil, usage("--c0 %s=%s: %q is not a species of the model (species: %s)", p.key, p.value, p.key, strings.Join(sch.Species, ", "))
+			}
+			v, err := strconv.ParseFloat(p.value, 64)
+			if err != nil || !(v >= 0) || math.IsInf(v, 0) {
+				return nil, nil, nil, usage("--c0 %s=%s: want a concentration ≥ 0", p.key, p.value)
+			}
+			c0[i] = v
+			any = any || v > 0
+		}
+		if !any {
+			return nil, nil, nil, usage("--c0 %s: every initial concentration is zero, so nothing can react", s.C0)
+		}
+	}
+	kstart = make([]float64, nr)
+	for j := range kstart {
+		kstart[j] = math.NaN()
+	}
+	kfixed = make([]bool, nr)
+	for _, which := range []struct {
+		flag, v string
+		fixed   bool
+	}{{"k-start", s.KStart, false}, {"k-fixed", s.KFixed, true}} {
+		if which.v == "" {
+			continue
+		}
+		pairs, err := parseAssignments(which.flag, which.v, "1=4e-3")
+		if err != nil {
+			return nil, nil, nil, err
+		}
+		for _, p := range pairs {
+			j, ok := stepIndex(sch, p.key)
+			if !ok {
+				return nil, nil, nil, usage("--%s %s=%s: %q is not a step of the model (steps: %s)", which.flag, p.key, p.value, p.key, stepList(sch))
+			}
+			v, err := strconv.ParseFloat(p.value, 64)
+			if err != nil || math.IsInf(v, 0) || !(v > 0 || (which.fixed && v == 0)) {
+				return nil, nil, nil, usage("--%s %s=%s: want a rate constant > 0", which.flag, p.key, p.value)
+			}
+			if which.fixed {
+				kfixed[j] = true
+			} else if kfixed[j] {
+				continue
+			}
+			kstart[j] = v
+		}
+	}
+	return c0, kstart, kfixed, nil
+}
+
+// newKinetics sets the fit up on the resolved profiles c (profiles.csv
+// order) and fixes the map: --map, or the best fit over every assignment
+// (kinetics.AutoMap).
+func newKinetics(r *Result, c *mat.Dense) (*Kinetics, error) {
+	s := r.Settings
+	sch, err := parseScheme(s)
+	if err != nil {
+		return nil, err
+	}
+	kn := &Kinetics{Scheme: sch, T0: r.Experiments[0].T0, Extents: r.Mode == mcr.Reactions, FitC0: s.FitC0}
+	closure := r.Mode == mcr.Species && s.Closure != "off"
+	total := 1.0
+	if closure {
+		total, _ = strconv.ParseFloat(s.Closure, 64)
+	}
+	kn.Amplitudes = !closure
+	if kn.C0, kn.KStart, kn.KFixed, err = kineticValues(s, sch, total); err != nil {
+		return nil, err
+	}
+	switch {
+	case closure:
+		kn.UnitName = "closure total"
+		kn.Unit = fmt.Sprintf("concentrations in units of the closure total (the species sum to %s)", s.Closure)
+	default:
+		kn.UnitName = "c0 unit"
+		start := -1
+		for i, v := range kn.C0 {
+			if v > 0 {
+				if start >= 0 {
+					start = -2
+					break
+				}
+				start = i
+			}
+		}
+		if start >= 0 && kn.C0[start] == 1 {
+			kn.UnitName = "[" + sch.Species[start] + "]0"
+		}
+		kn.Unit = fmt.Sprintf("concentrations relative to the initial ones (%s); the profiles' own scale is free (one amplitude per profile), so a second-order k is per %s per second: divide by %s in mol/L for L mol^-1 s^-1", c0Text(sch, kn.C0), kn.UnitName, kn.UnitName)
+	}
+	_, k := c.Dims()
+	nModel, what := len(sch.Species), "species"
+	if kn.Extents {
+		nModel, what = len(sch.Steps), "steps"
+	}
+	if s.Map != "" {
+		pairs, err := parseAssignments("map", s.Map, "A=1,B=2")
+		if err != nil {
+			return nil, err
+		}
+		usedComp := map[int]string{}
+		usedCol := map[int]string{}
+		for _, p := range pairs {
+			col := -1
+			if kn.Extents {
+				j, ok := stepIndex(sch, p.key)
+				if !ok {
+					return nil, usage("--map %s=%s: in reactions mode the components are reactions: map steps by number or text (%s), e.g. --map 1=1,2=2", p.key, p.value, stepList(sch))
+				}
+				col = j
+			} else {
+				col = sch.SpeciesIndex(p.key)
+				if col < 0 {
+					return nil, usage("--map %s=%s: %q is not a species of the model %q (species: %s)", p.key, p.value, p.key, s.Model, strings.Join(sch.Species, ", "))
+				}
+			}
+			n, err := strconv.Atoi(p.value)
+			if err != nil || n < 1 || n > k {
+				return nil, usage("--map %s=%s: component %s does not exist; the resolution has %d component(s), numbered 1..%d as in profiles.csv", p.key, p.value, p.value, k, k)
+			}
+			if prev, ok := usedComp[n-1]; ok {
+				return nil, usage("--map: component %d is given to both %s and %s; each component is one %s", n, prev, p.key, strings.TrimSuffix(what, "s"))
+			}
+			if prev, ok := usedCol[col]; ok {
+				return nil, usage("--map: %s and %s name the same %s", prev, p.key, strings.TrimSuffix(what, "s"))
+			}
+			usedComp[n-1], usedCol[col] = p.key, p.key
+			kn.Components = append(kn.Components, n-1)
+			kn.Columns = append(kn.Columns, col)
+		}
+		kn.MapSource = "--map"
+		return kn, nil
+	}
+	if k > nModel {
+		return nil, usage("the resolution has %d components and the model %q only %d %s: say which components it describes with --map", k, s.Model, nModel, what)
+	}
+	obs := mat.DenseCopyOf(c)
+	cols, err := kinetics.AutoMap(sch, r.Times, obs, kn.options(kn.firstStart(r.Times)))
+	if err != nil {
+		return nil, fmt.Errorf("kinetics: %w", err)
+	}
+	for j := 0; j < k; j++ {
+		kn.Components = append(kn.Components, j)
+	}
+	kn.Columns = cols
+	kn.MapSource = "auto: the assignment of components to " + what + " with the lowest residual"
+	return kn, nil
+}
+
+func c0Text(sch *kinetics.Scheme, c0 []float64) string {
+	var parts []string
+	for i, v := range c0 {
+		if v > 0 {
+			parts = append(parts, fmt.Sprintf("[%s]0 = %s", sch.Species[i], strconv.FormatFloat(v, 'g', -1, 64)))
+		}
+	}
+	return strings.Join(parts, ", ")
+}
+
+func (kn *Kinetics) hasFixed() bool {
+	for _, f := range kn.KFixed {
+		if f {
+			return true
+		}
+	}
+	return false
+}
+
+func (kn *Kinetics) options(initialK []float64) kinetics.FitOptions {
+	opt := kinetics.FitOptions{T0: kn.T0, InitialK: initialK, C0: kn.C0, FitC0: kn.FitC0,
+		Amplitudes: kn.Amplitudes, UseExtents: kn.Extents}
+	if kn.hasFixed() {
+		opt.FixedK = kn.KFixed
+	}
+	return opt
+}
+
+// starts gives the starting rate constants: nil (the kinetics package's own
+// grid) when none is given, the user's values, or a grid of k·T ∈ {0.5, 2,
+// 8, 32} (T the time span after t0) over the steps left open.
+func (kn *Kinetics) starts(times []float64) [][]float64 {
+	var open []int
+	for j, v := range kn.KStart {
+		if math.IsNaN(v) {
+			open = append(open, j)
+		}
+	}
+	if len(open) == len(kn.KStart) && !kn.hasFixed() {
+		return [][]float64{nil}
+	}
+	span := 0.0
+	for _, t := range times {
+		span = math.Max(span, t-kn.T0)
+	}
+	cmax := 0.0
+	for _, v := range kn.C0 {
+		cmax = math.Max(cmax, v)
+	}
+	base := append([]float64(nil), kn.KStart...)
+	if len(open) == 0 || len(open) > 3 {
+		for _, j := range open {
+			base[j] = 2 / span / math.Pow(cmax, float64(kn.Scheme.Steps[j].Order-1))
+		}
+		return [][]float64{base}
+	}
+	factors := []float64{0.5, 2, 8, 32}
+	total := 1
+	for range open {
+		total *= len(factors)
+	}
+	var out [][]float64
+	for code := 0; code < total; code++ {
+		k := append([]float64(nil), base...)
+		c := code
+		for _, j := range open {
+			k[j] = factors[c%len(factors)] / span / math.Pow(cmax, float64(kn.Scheme.Steps[j].Order-1))
+			c /= len(factors)
+		}
+		out = append(out, k)
+	}
+	return out
+}
+
+func (kn *Kinetics) firstStart(times []float64) []float64 { return kn.starts(times)[0] }
+
+// observed picks the mapped components' columns out of c.
+func (kn *Kinetics) observed(c *mat.Dense) *mat.Dense {
+	n, _ := c.Dims()
+	o := mat.NewDense(n, len(kn.Components), nil)
+	for j, comp := range kn.Components {
+		o.SetCol(j, mat.Col(nil, comp, c))
+	}
+	return o
+}
+
+// fitProfiles fits the mapped columns of c from every start and keeps the
+// lowest sum of squares (the earliest start on ties).
+func (kn *Kinetics) fitProfiles(times []float64, c *mat.Dense, starts [][]float64) (*kinetics.FitResult, *mat.Dense, error) {
+	obs := kn.observed(c)
+	var best *kinetics.FitResult
+	var firstErr error
+	for _, k0 := range starts {
+		fit, err := kinetics.FitProfiles(kn.Scheme, times, obs, kn.Columns, kn.options(k0))
+		if err != nil {
+			if firstErr == nil {
+				firstErr = err
+			}
+			continue
+		}
+		if best == nil || fit.SSR < best.SSR*(1-1e-12) {
+			best = fit
+		}
+	}
+	if best == nil {
+		return nil, nil, fmt.Errorf("kinetic fit of the profiles: %w", firstErr)
+	}
+	return best, obs, nil
+}
+
+// warm returns options that start from an earlier fit (its rate constants
+// and, when fitted, its initial concentrations).
+func (kn *Kinetics) warm(prev *kinetics.FitResult) kinetics.FitOptions {
+	opt := kn.options(append([]float64(nil), prev.K...))
+	if kn.FitC0 {
+		opt.C0 = append([]float64(nil), prev.C0...)
+	}
+	return opt
+}
+
+// permuteOptions reorders the per-component options of ALS the way
+// orderComponents reordered the components (new j = old order[j]).
+func permuteOptions(opt mcr.Options, order []int) mcr.Options {
+	out := opt
+	if opt.ZeroProfiles != nil {
+		out.ZeroProfiles = make([][]bool, len(order))
+		for j, from := range order {
+			if from < len(opt.ZeroProfiles) {
+				out.ZeroProfiles[j] = opt.ZeroProfiles[from]
+			}
+		}
+	}
+	permB := func(b []bool) []bool {
+		if b == nil {
+			return nil
+		}
+		o := make([]bool, len(order))
+		for j, from := range order {
+			if from < len(b) {
+				o[j] = b[from]
+			}
+		}
+		return o
+	}
+	out.NonNegProfiles, out.NonNegSpectra, out.Unimodal = permB(opt.NonNegProfiles), permB(opt.NonNegSpectra), permB(opt.Unimodal)
+	if opt.KnownSpectra != nil {
+		out.KnownSpectra = make([][]float64, len(order))
+		for j, from := range order {
+			if from < len(opt.KnownSpectra) {
+				out.KnownSpectra[j] = opt.KnownSpectra[from]
+			}
+		}
+	}
+	if opt.ClosureWeights != nil {
+		out.ClosureWeights = make([]float64, len(order))
+		for j, from := range order {
+			out.ClosureWeights[j] = opt.ClosureWeights[from]
+		}
+	}
+	return out
+}
+
+// hardSoft is the hard–soft resolution (de Juan, Maeder, Martínez & Tauler
+// 2000). The map is fixed on the soft solution r.ALS, then ALS restarts from
+// it and, in every cycle after the constrained least-squares profiles step,
+// mcr.Options.HardModel replaces the mapped profiles by their kinetic fit
+// (warm-started from the previous cycle's rate constants, so the cycles stay
+// cheap and the path is deterministic). Unmapped components stay soft.
+func hardSoft(r *Result, data mcr.Data, opt mcr.Options, order []int, log io.Writer) (*mcr.Result, error) {
+	kn, err := newKinetics(r, r.ALS.C)
+	if err != nil {
+		return nil, err
+	}
+	soft, softObs, err := kn.fitProfiles(r.Times, r.ALS.C, kn.starts(r.Times))
+	if err != nil {
+		return nil, err
+	}
+	last, lastObs := soft, softObs
+	hopt := permuteOptions(opt, order)
+	hopt.HardModel = func(c *mat.Dense) (*mat.Dense, error) {
+		obs := kn.observed(c)
+		fit, err := kinetics.FitProfiles(kn.Scheme, r.Times, obs, kn.Columns, kn.warm(last))
+		if err != nil {
+			return nil, err
+		}
+		last, lastObs = fit, obs
+		out := mat.DenseCopyOf(c)
+		for j, comp := range kn.Components {
+			out.SetCol(comp, mat.Col(nil, j, fit.Fitted))
+		}
+		return out, nil
+	}
+	fmt.Fprintf(log, "hard–soft resolution with %s\n", kn.Scheme.Text)
+	res, err := mcr.Resolve(data, r.ALS.C, hopt)
+	if err != nil {
+		return nil, fmt.Errorf("hard–soft: %w", err)
+	}
+	if r.Mode == mcr.Reactions {
+		// Rescale as resolve does, and the last cycle's soft profiles with
+		// them, so the hard–soft fit is reported on profiles.csv's scale.
+		n, _ := res.C.Dims()
+		for j, comp := range kn.Components {
+			mx := 0.0
+			for i := 0; i < n; i++ {
+				mx = math.Max(mx, res.C.At(i, comp))
+			}
+			if mx > 0 {
+				for i := 0; i < n; i++ {
+					lastObs.Set(i, j, lastObs.At(i, j)/mx)
+				}
+			}
+		}
+		scaleExtents(res.C, res.S)
+		// Refit the rescaled profiles once: per-column scales change the
+		// weights of the columns, so the fit is redone rather than rescaled.
+		fit, err := kinetics.FitProfiles(kn.Scheme, r.Times, lastObs, kn.Columns, kn.warm(last))
+		if err != nil {
+			return nil, fmt.Errorf("hard–soft: final fit: %w", err)
+		}
+		last = fit
+	}
+	kn.Fits = []*KineticFit{{Method: "hard-soft", Fit: last, Observed: lastObs}, {Method: "soft-profiles", Fit: soft, Observed: softObs}}
+	r.Kinetics = kn
+	return res, nil
+}
+
+// fitKinetics fits --model after resolve: the resolved profiles (unless a
+// hard–soft run already did) and the data matrix, and chooses the fit
+// reported by --kinetic-fit.
+func fitKinetics(r *Result, log io.Writer) error {
+	s := r.Settings
+	if s.Model == "" {
+		return nil
+	}
+	if r.ALS == nil {
+		r.Notes = append(r.Notes, "--model: nothing was resolved, so there are no profiles to fit")
+		return nil
+	}
+	kn := r.Kinetics
+	if kn == nil {
+		var err error
+		if kn, err = newKinetics(r, r.ALS.C); err != nil {
+			return err
+		}
+		fit, obs, err := kn.fitProfiles(r.Times, r.ALS.C, kn.starts(r.Times))
+		if err != nil {
+			return err
+		}
+		kn.Fits = []*KineticFit{{Method: "profiles", Fit: fit, Observed: obs}}
+		r.Kinetics = kn
+	}
+	fmt.Fprintf(log, "fitting %s to the data matrix\n", kn.Scheme.Text)
+	// Start from the profile fit: the data alone cannot always tell which
+	// step is fast (for A -> B -> C the model columns span the same space
+	// with k1 and k2 swapped, the "slow–fast" ambiguity), the non-negative,
+	// closed profiles can.
+	dopt := kn.warm(kn.Fits[0].Fit)
+	dopt.Amplitudes = false
+	dfit, spectra, err := kinetics.FitData(kn.Scheme, r.Times, r.D, dopt)
+	if err != nil {
+		r.Warnings = append(r.Warnings, "kinetics: the fit of the data matrix failed: "+oneLineText(err.Error()))
+	} else {
+		kn.Fits = append(kn.Fits, &KineticFit{Method: "data", Fit: dfit, Spectra: spectra})
+	}
+	kn.Primary = 0
+	if s.KineticFit == "data" {
+		if f := len(kn.Fits) - 1; kn.Fits[f].Method == "data" {
+			kn.Primary = f
+		}
+	}
+	for _, f := range kn.Fits {
+		if f.Observed == nil {
+			continue
+		}
+		if rho, ok := lag1(f.Fit.Residual); ok && rho > 0.5 {
+			f.Fit.Warnings = append(f.Fit.Warnings, fmt.Sprintf("the residuals are correlated in time (lag-1 autocorrelation %.2f; white noise gives about 0): the profiles carry a systematic error, e.g. rotational ambiguity, so these standard errors understate the uncertainty; the data fit's are the ones to quote, or try --hard-model", rho))
+		}
+		if f.Method == "hard-soft" {
+			f.Fit.Warnings = append(f.Fit.Warnings, "the standard errors of the hard–soft fit treat the last cycle's spectra as known and so come out too small; the data fit (variable projection) gives the honest ones")
+		}
+	}
+	for _, f := range kn.Fits {
+		for _, w := range f.Fit.Warnings {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("kinetics (%s fit): %s", f.Method, w))
+		}
+	}
+	return nil
+}
+
+// lag1 is the lag-1 autocorrelation of the residuals down each column,
+// pooled over columns, Σ r_i r_{i+1} / Σ r_i² (Durbin & Watson 1950:
+// d ≈ 2(1 − ρ)); about 0 ± 1/√n for independent noise.
+func lag1(res *mat.Dense) (float64, bool) {
+	if res == nil {
+		return 0, false
+	}
+	n, q := res.Dims()
+	if n < 10 {
+		return 0, false
+	}
+	var num, den float64
+	for j := 0; j < q; j++ {
+		for i := 0; i < n; i++ {
+			v := res.At(i, j)
+			den += v * v
+			if i+1 < n {
+				num += v * res.At(i+1, j)
+			}
+		}
+	}
+	if !(den > 0) {
+		return 0, false
+	}
+	return num / den, true
+}
+
+func oneLineText(s string) string { return strings.Join(strings.Fields(s), " ") }
+
+// finite keeps NaN and ±Inf out of the outputs.
+func finite(v float64) float64 {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return 0
+	}
+	return v
+}
+
+// KineticMapJSON says which component a species (or step) is.
+type KineticMapJSON struct {
+	Name      string `json:"name"`
+	Component int    `json:"component"`
+}
+
+// InitialConcentration of one species in the fit.
+type InitialConcentration struct {
+	Species string  `json:"species"`
+	C0      float64 `json:"c0"`
+	StdErr  float64 `json:"stderr"`
+	Fitted  bool    `json:"fitted"`
+}
+
+// KineticFitJSON is one fit in summary.json's kinetics.fits.
+type KineticFitJSON struct {
+	Method                string                 `json:"method"`
+	RateConstants         []RateConstant         `json:"rate_constants"`
+	Correlation           [][]float64            `json:"correlation"`
+	InitialConcentrations []InitialConcentration `json:"initial_concentrations"`
+	Amplitudes            []float64              `json:"amplitudes,omitempty"`
+	RMS                   float64                `json:"rms"`
+	Sigma                 float64                `json:"sigma"`
+	DegreesOfFreedom      int                    `json:"degrees_of_freedom"`
+	Iterations            int                    `json:"iterations"`
+	Converged             bool                   `json:"converged"`
+	Stiff                 bool                   `json:"stiff"`
+	Warnings              []string               `json:"warnings"`
+}
+
+// rateUnit states a step's unit: s^-1 times (concentration unit)^-(order-1).
+func (kn *Kinetics) rateUnit(order int) string {
+	switch order {
+	case 1:
+		return "s^-1"
+	case 2:
+		return "(" + kn.UnitName + ")^-1 s^-1"
+	}
+	return fmt.Sprintf("(%s)^-%d s^-1", kn.UnitName, order-1)
+}
+
+func (kn *Kinetics) fitJSON(f *KineticFit) KineticFitJSON {
+	fr := f.Fit
+	out := KineticFitJSON{Method: f.Method, RMS: round(finite(fr.RMS)), Sigma: round(finite(fr.Sigma)),
+		DegreesOfFreedom: fr.DegreesOfFreedom, Iterations: fr.Iterations, Converged: fr.Converged, Stiff: fr.Stiff,
+		Warnings: nonNil(fr.Warnings)}
+	for j, st := range kn.Scheme.Steps {
+		rc := RateConstant{Step: st.Text, K: round(finite(fr.K[j])), StdErr: round(finite(fr.KStdErr[j])),
+			HalfLife: round(finite(fr.HalfLife[j])), HalfLifeNote: fr.HalfLifeNote[j], Unit: kn.rateUnit(st.Order), Fixed: kn.KFixed[j]}
+		out.RateConstants = append(out.RateConstants, rc)
+		row := make([]float64, len(kn.Scheme.Steps))
+		for l := range row {
+			row[l] = round(finite(fr.Corr.At(j, l)))
+		}
+		out.Correlation = append(out.Correlation, row)
+	}
+	for i, name := range kn.Scheme.Species {
+		out.InitialConcentrations = append(out.InitialConcentrations, InitialConcentration{Species: name,
+			C0: round(finite(fr.C0[i])), StdErr: round(finite(fr.C0StdErr[i])), Fitted: kn.FitC0 && kn.C0[i] > 0})
+	}
+	for _, a := range fr.Amplitudes {
+		out.Amplitudes = append(out.Amplitudes, round(finite(a)))
+	}
+	return out
+}
+
+// mapNames names the model column of each mapped component.
+func (kn *Kinetics) mapName(j int) string {
+	if kn.Extents {
+		return kn.Scheme.Steps[kn.Columns[j]].Text
+	}
+	return kn.Scheme.Species[kn.Columns[j]]
+}
+
+// kineticsSummary fills summary.json's "kinetics".
+func kineticsSummary(r *Result) *KineticsJSON {
+	kn := r.Kinetics
+	rep := kn.Reported()
+	if rep == nil {
+		return nil
+	}
+	main := kn.fitJSON(rep)
+	out := &KineticsJSON{
+		Model: kn.Scheme.Text, RateConstants: main.RateConstants, Method: rep.Method,
+		RateLaw:           "mass action, IUPAC rate of reaction r = k Π c^ν: 2 A -> P has r = k[A]^2 and d[A]/dt = -2k[A]^2",
+		Fitted:            "concentrations",
+		ConcentrationUnit: kn.Unit, T0: round(kn.T0), MapSource: kn.MapSource,
+		Correlation: main.Correlation, Stiff: rep.Fit.Stiff,
+	}
+	if kn.Extents {
+		out.Fitted = "extents"
+	}
+	for j, comp := range kn.Components {
+		out.Map = append(out.Map, KineticMapJSON{Name: kn.mapName(j), Component: comp + 1})
+	}
+	for _, f := range kn.Fits {
+		out.Fits = append(out.Fits, kn.fitJSON(f))
+	}
+	return out
+}
+
+// kineticsTable is kinetics.csv: time, then per model column (species, or
+// step with extents, in the scheme's order) the observed profile (mapped
+// columns only), the profile fit and the data fit. With free amplitudes the
+// data fit's column is put on the observed profile's scale by one
+// least-squares factor so the two can be compared.
+func kineticsTable(r *Result) (output.Table, error) {
+	kn := r.Kinetics
+	prof := kn.Fits[0]
+	data := kn.Find("data")
+	n := len(r.Times)
+	nModel := len(kn.Scheme.Species)
+	if kn.Extents {
+		nModel = len(kn.Scheme.Steps)
+	}
+	name := func(col int) string {
+		if kn.Extents {
+			return fmt.Sprintf("extent_%d", col+1)
+		}
+		return kn.Scheme.Species[col]
+	}
+	mapped := make([]int, nModel)
+	for i := range mapped {
+		mapped[i] = -1
+	}
+	for j, col := range kn.Columns {
+		mapped[col] = j
+	}
+	multi := len(r.Experiments) > 1
+	t := output.Table{Header: []string{"time"}}
+	if multi {
+		t.Header = []string{"experiment", "time"}
+	}
+	type column func(i int) float64
+	var cols []column
+	for col := 0; col < nModel; col++ {
+		col := col
+		j := mapped[col]
+		if j >= 0 {
+			t.Header = append(t.Header, name(col)+"_observed", name(col)+"_fitted")
+			cols = append(cols, func(i int) float64 { return prof.Observed.At(i, j) },
+				func(i int) float64 { return prof.Fit.Fitted.At(i, j) })
+		} else {
+			t.Header = append(t.Header, name(col)+"_fitted")
+			cols = append(cols, func(i int) float64 { return prof.Fit.Model.At(i, col) })
+		}
+		if data != nil {
+			scale := 1.0
+			if j >= 0 && kn.Amplitudes {
+				var num, den float64
+				for i := 0; i < n; i++ {
+					m := data.Fit.Model.At(i, col)
+					num += m * prof.Observed.At(i, j)
+					den += m * m
+				}
+				if den > 0 {
+					scale = num / den
+				}
+			}
+			t.Header = append(t.Header, name(col)+"_data_fit")
+			cols = append(cols, func(i int) float64 { return scale * data.Fit.Model.At(i, col) })
+		}
+	}
+	for i, tm := range r.Times {
+		var row []string
+		if multi {
+			row = append(row, strconv.Itoa(r.ExpOfRow[i]+1))
+		}
+		row = append(row, output.Float(tm))
+		for _, c := range cols {
+			v := c(i)
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return t, errors.New("kinetics.csv: a fitted value is not finite")
+			}
+			row = append(row, output.Float(v))
+		}
+		t.Rows = append(t.Rows, row)
+	}
+	return t, nil
+}
+
+// printKinetics adds the rate constants to the human summary.
+func printKinetics(r *Result, w io.Writer) {
+	kn := r.Kinetics
+	rep := kn.Reported()
+	if rep == nil {
+		return
+	}
+	var m []string
+	for j, comp := range kn.Components {
+		m = append(m, fmt.Sprintf("%s=%d", kn.mapName(j), comp+1))
+	}
+	what := "concentrations"
+	if kn.Extents {
+		what = "extents"
+	}
+	fmt.Fprintf(w, "kinetics       %s (%s), t0 = %g s, map %s\n", kn.Scheme.Text, what, kn.T0, strings.Join(m, ", "))
+	for _, f := range kn.Fits {
+		mark := " "
+		if f == rep {
+			mark = "*"
+		}
+		fmt.Fprintf(w, "  %s %-13s", mark, f.Method)
+		for j, st := range kn.Scheme.Steps {
+			if j > 0 {
+				fmt.Fprintf(w, "\n    %-13s", "")
+			}
+			fmt.Fprintf(w, " %-10s k = %.4g ± %.2g %s", st.Text, f.Fit.K[j], f.Fit.KStdErr[j], kn.rateUnit(st.Order))
+			if hl := f.Fit.HalfLife[j]; hl > 0 {
+				fmt.Fprintf(w, ", t½ = %.4g s", hl)
+			}
+		}
+		fmt.Fprintln(w)
+	}
+	if kn.Amplitudes {
+		for _, st := range kn.Scheme.Steps {
+			if st.Order > 1 {
+				fmt.Fprintf(w, "  (%s)\n", kn.Unit)
+				break
+			}
+		}
+	}
+}
+
+// printDemoKinetics sets the demo's rate constants beside the truth it was
+// made from, with the deviation in standard errors.
+func printDemoKinetics(r *Result, truth []float64, w io.Writer) {
+	kn := r.Kinetics
+	if kn == nil || len(kn.Fits) == 0 {
+		return
+	}
+	fmt.Fprintf(w, "rate constants of %s (t0 = %g s) vs truth:\n", kn.Scheme.Text, kn.T0)
+	for _, f := range kn.Fits {
+		for j, st := range kn.Scheme.Steps {
+			if j >= len(truth) {
+				break
+			}
+			dev := "n/a"
+			if se := f.Fit.KStdErr[j]; se > 0 {
+				dev = fmt.Sprintf("%+.1f", (f.Fit.K[j]-truth[j])/se)
+			}
+			fmt.Fprintf(w, "  %-13s %-8s k = %.6g ± %.2g /s   truth %g /s   (%s standard errors)\n", f.Method, st.Text, f.Fit.K[j], f.Fit.KStdErr[j], truth[j], dev)
+		}
+	}
+}
