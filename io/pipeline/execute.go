@@ -22,7 +22,7 @@ func (st Streams) progress(s *Settings) io.Writer {
 	if s.Quiet || st.Err == nil {
 		return io.Discard
 	}
-	return st.Err
+	return newProgress(st.Err)
 }
 
 // Execute runs one analysis and writes its output folder. The folder is
@@ -35,7 +35,9 @@ func Execute(s *Settings, st Streams) (*Result, error) {
 	if err := output.Check(out, s.Force); err != nil {
 		return nil, err
 	}
-	r, err := Run(s, st.progress(s))
+	log := st.progress(s)
+	r, err := Run(s, log)
+	endProgress(log)
 	if err != nil {
 		return nil, err
 	}
@@ -67,6 +69,11 @@ func finish(r *Result, stage *output.Stage, extra Extra, st Streams) error {
 			return err
 		}
 	}
+	for _, h := range lastWrite {
+		if err := h(r, stage); err != nil {
+			return err
+		}
+	}
 	s := r.Settings
 	switch {
 	case s.JSON:
@@ -85,6 +92,10 @@ func finish(r *Result, stage *output.Stage, extra Extra, st Streams) error {
 // afterWrite are the writers other files of the package register (report,
 // as-run record) so Execute stays one path for every command.
 var afterWrite []func(r *Result, stage *output.Stage) error
+
+// lastWrite run after every afterWrite writer: the report, which is built
+// from the staged files and must see all of them.
+var lastWrite []func(r *Result, stage *output.Stage) error
 
 // Demo makes the invented data set, writes it into out/input, resolves it
 // exactly as `resolve` would and compares the answer with the truth.
@@ -126,7 +137,9 @@ func Demo(out string, force bool, quiet, asJSON bool, st Streams) (*Result, erro
 	// The demo also fits its true scheme, so that its rate constants can be
 	// read next to the truth.
 	s.Model, s.T0 = "A -> B -> C", fmt.Sprint(truth.T0)
-	r, err := Run(s, st.progress(s))
+	log := st.progress(s)
+	r, err := Run(s, log)
+	endProgress(log)
 	if err != nil {
 		return fail(err)
 	}

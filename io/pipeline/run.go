@@ -249,6 +249,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	if n*m > 2_000_000 {
 		maxF = 24
 	}
+	fmt.Fprintf(log, "factor analysis\n")
 	f, err := svd.Decompose(r.D, svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed})
 	if err != nil {
 		return nil, fmt.Errorf("factor analysis: %w", err)
@@ -386,6 +387,7 @@ func resolve(r *Result, log io.Writer) error {
 	}
 	r.Init = how
 	opt := mcr.Options{Mode: r.Mode, MaxIter: s.MaxIter, Tolerance: s.Tolerance}
+	opt.Observe = alsProgress(log, s.MaxIter)
 	if r.Mode == mcr.Species && s.Closure != "off" {
 		total, _ := strconv.ParseFloat(s.Closure, 64)
 		opt.Closure, opt.Total = true, []float64{total}

@@ -1,0 +1,70 @@
+package pipeline
+
+import (
+	"fmt"
+
+	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/io/report"
+	"gonum.org/v1/gonum/mat"
+)
+
+// The report comes in two steps: maps.csv (the downsampled matrices its
+// figures need, which only a run's memory holds) is written with the other
+// results; report.html is built last, from the staged files alone, so that
+// it shows what every other writer added (as-run record, manifest) and so
+// that `bandsolve report OUT` rebuilds the same bytes from the folder.
+func init() {
+	afterWrite = append(afterWrite, writeMaps)
+	lastWrite = append(lastWrite, writeReport)
+}
+
+func writeMaps(r *Result, stage *output.Stage) error {
+	if r.Settings.Report == "off" || r.D == nil {
+		return nil
+	}
+	var mats []report.MapMatrix
+	at := func(m *mat.Dense) func(i, j int) float64 { return m.At }
+	mats = append(mats, report.MapMatrix{Name: "data", At: at(r.D)})
+	if diff := differenceMatrix(r); diff != nil {
+		mats = append(mats, report.MapMatrix{Name: "difference", At: at(diff)})
+	}
+	if r.Residual != nil {
+		mats = append(mats, report.MapMatrix{Name: "residual", At: at(r.Residual)})
+	}
+	return stage.Write(report.MapsFile, report.MapsCSV(r.Axis, r.Times, r.ExpOfRow, mats))
+}
+
+// differenceMatrix stacks the experiments' difference spectra when the
+// resolved matrix is absolute absorbance (species mode); in reactions mode
+// the resolved matrix is already the difference one.
+func differenceMatrix(r *Result) *mat.Dense {
+	if r.Mode.String() != "species" {
+		return nil
+	}
+	var parts []*mat.Dense
+	for _, e := range r.Experiments {
+		if e.Assembled == nil || e.Assembled.Difference == nil {
+			return nil
+		}
+		parts = append(parts, e.Assembled.Difference)
+	}
+	if len(parts) == 0 {
+		return nil
+	}
+	d := stack(parts)
+	if n, m := d.Dims(); n != len(r.Times) || m != len(r.Axis) {
+		return nil
+	}
+	return d
+}
+
+func writeReport(r *Result, stage *output.Stage) error {
+	if r.Settings.Report == "off" {
+		return nil
+	}
+	b, err := report.BuildDir(stage.Dir)
+	if err != nil {
+		return fmt.Errorf("report: %w", err)
+	}
+	return stage.Write("report.html", b)
+}

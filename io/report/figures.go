@@ -1,0 +1,740 @@
+package report
+
+import (
+	"fmt"
+	"image/color"
+	"math"
+	"strings"
+
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/plotter"
+)
+
+// Figures draws every figure the folder's files allow, in reading order.
+// A figure whose file is missing is simply absent; one that cannot be drawn
+// is reported in problems.
+func Figures(f *Folder) (figs []Figure, problems []string) {
+	add := func(fig *Figure, err error) {
+		if err != nil {
+			problems = append(problems, err.Error())
+			return
+		}
+		if fig != nil {
+			figs = append(figs, *fig)
+		}
+	}
+	ax := spectralAxis(f.axisName())
+	if f.Maps != nil {
+		if m := f.Maps.Matrices["data"]; m != nil && f.Maps.Matrices["difference"] != nil {
+			add(overlayFigure(f, m, ax, "fig-absorbance", "Absorbance spectra, coloured by time", "absorbance",
+				"The absolute absorbance spectra that were resolved (species mode)."))
+		}
+		if m := f.inputDifference(); m != nil {
+			add(overlayFigure(f, m, ax, "fig-input", "Difference spectra, coloured by time", "ΔA (absorbance)",
+				"Each spectrum minus the reference state: bands that grow are formed, bands that go negative are consumed."))
+			add(mapFigure(f, m, ax, "fig-map", "Difference spectra as a time × axis map", "ΔA", 1,
+				"Blue: absorbance lost; white: no change; vermilion: absorbance gained. Colour limits are ± the largest |ΔA|."))
+		}
+	}
+	add(singularFigure(f))
+	add(efaFigure(f))
+	add(spectraFigure(f, ax))
+	add(profilesFigure(f))
+	add(iterationsFigure(f))
+	if f.Maps != nil {
+		if m := f.Maps.Matrices["residual"]; m != nil {
+			add(mapFigure(f, m, ax, "fig-residual-map", "Residuals D − C Sᵀ as a time × axis map", "residual", 0.995,
+				"What the model leaves unexplained. Noise looks like fine speckle; structure along time or at a band means a missing component or a violated constraint. Colour limits are ± the 99.5th percentile of |residual|."))
+			add(residualSpectrumFigure(f, m, ax))
+		}
+	}
+	return figs, problems
+}
+
+func (f *Folder) axisName() string {
+	if f.Spectra != nil && len(f.Spectra.Header) > 0 {
+		return f.Spectra.Header[0]
+	}
+	if f.Summary != nil {
+		return f.Summary.Axis
+	}
+	return ""
+}
+
+// inputDifference is the difference matrix: its own entry in species mode,
+// the resolved data itself in reactions mode.
+func (f *Folder) inputDifference() *Matrix {
+	if m := f.Maps.Matrices["difference"]; m != nil {
+		return m
+	}
+	if f.Summary.Mode != "species" {
+		return f.Maps.Matrices["data"]
+	}
+	return nil
+}
+
+// components returns the component columns of a table: the summary's names
+// where the header has them, else every numeric column after the first
+// that is not a bound or the experiment number.
+func (f *Folder) components(t *Table, skip int) []int {
+	var out []int
+	if f.Summary != nil {
+		for _, n := range f.Summary.ComponentNames {
+			if j := t.Index(n); j >= 0 {
+				out = append(out, j)
+			}
+		}
+	}
+	if len(out) > 0 {
+		return out
+	}
+	for j := skip; j < len(t.Header); j++ {
+		h := strings.ToLower(t.Header[j])
+		if h == "experiment" || h == "time" || boundSuffix(h) != "" {
+			continue
+		}
+		if t.Numeric(j) {
+			out = append(out, j)
+		}
+	}
+	return out
+}
+
+// boundSuffix recognises lower/upper bound columns written as NAME_min,
+// NAME_lower, NAME_lo, NAME_low (and max/upper/hi/high), returning "lo" or "hi".
+func boundSuffix(h string) string {
+	h = strings.ToLower(h)
+	for _, s := range []string{"_min", "_lower", "_lo", "_low", "_ci_lo", "_q025", "_minimum"} {
+		if strings.HasSuffix(h, s) {
+			return "lo"
+		}
+	}
+	for _, s := range []string{"_max", "_upper", "_hi", "_high", "_ci_hi", "_q975", "_maximum"} {
+		if strings.HasSuffix(h, s) {
+			return "hi"
+		}
+	}
+	return ""
+}
+
+// bounds finds NAME_lo/NAME_hi pairs for a component in t (case-insensitive),
+// restricted to columns whose name also holds word when word is not "".
+func bounds(t *Table, name, word string) (lo, hi int) {
+	lo, hi = -1, -1
+	if t == nil {
+		return
+	}
+	n := strings.ToLower(name)
+	for j, h := range t.Header {
+		l := strings.ToLower(h)
+		if !strings.HasPrefix(l, n+"_") || (word != "" && !strings.Contains(l, word)) {
+			continue
+		}
+		switch boundSuffix(l) {
+		case "lo":
+			if lo < 0 {
+				lo = j
+			}
+		case "hi":
+			if hi < 0 {
+				hi = j
+			}
+		}
+	}
+	if lo < 0 || hi < 0 {
+		return -1, -1
+	}
+	return lo, hi
+}
+
+func timeLegend(times []float64, t0, t1 float64) []LegendItem {
+	var items []LegendItem
+	for _, q := range []float64{0, 0.25, 0.5, 0.75, 1} {
+		tv := t0 + q*(t1-t0)
+		items = append(items, LegendItem{Label: "t = " + trimFloat(tv, 4) + " s", Colour: ramp(timeRamp, q)})
+	}
+	return items
+}
+
+// overlayFigure draws up to 24 spectra of the first experiment, evenly
+// spread in time, coloured from dark (early) to light (late).
+func overlayFigure(f *Folder, m *Matrix, ax axisStyle, id, title, ylabel, caption string) (*Figure, error) {
+	var rows []int
+	for i, e := range m.Experiment {
+		if e == m.Experiment[0] {
+			rows = append(rows, i)
+		}
+	}
+	if len(rows) == 0 {
+		return nil, nil
+	}
+	sel := pick(len(rows), 24)
+	p := newPlot("", ylabel)
+	ax.apply(p)
+	t0, t1 := m.Times[rows[0]], m.Times[rows[len(rows)-1]]
+	xlo, xhi := span(f.Maps.Axis)
+	hline(p, xlo, xhi, 0, grey, nil)
+	for _, s := range sel {
+		i := rows[s]
+		q := 0.0
+		if t1 > t0 {
+			q = (m.Times[i] - t0) / (t1 - t0)
+		}
+		if err := addLine(p, f.Maps.Axis, m.Rows[i], ramp(timeRamp, q), 0.9, nil); err != nil {
+			return nil, fmt.Errorf("%s: %w", id, err)
+		}
+	}
+	svg, err := render(p, nil, figW, figH)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", id, err)
+	}
+	cap := fmt.Sprintf("%s %d of %d spectra shown, from t = %s s (dark) to t = %s s (light).", caption, len(sel), len(rows), trimFloat(t0, 4), trimFloat(t1, 4))
+	return &Figure{ID: id, Title: title, Caption: cap, SVG: svg, Legend: timeLegend(nil, t0, t1)}, nil
+}
+
+// mapFigure draws a matrix as a time × axis image with a signed colour scale.
+func mapFigure(f *Folder, m *Matrix, ax axisStyle, id, title, unit string, q float64, caption string) (*Figure, error) {
+	if len(m.Rows) < 2 || len(f.Maps.Axis) < 2 {
+		return nil, nil
+	}
+	lim := quantileAbs(m.Rows, q)
+	if !(lim > 0) {
+		lim = 1e-12
+	}
+	y := m.Times
+	ylabel := "time / s"
+	multi := false
+	for _, e := range m.Experiment {
+		if e != m.Experiment[0] {
+			multi = true
+		}
+	}
+	if multi {
+		// Experiments share times: stack them by spectrum number instead.
+		y = make([]float64, len(m.Times))
+		for i := range y {
+			y[i] = float64(i + 1)
+		}
+		ylabel = "spectrum number (experiments stacked)"
+	}
+	img, r := mapImage(f.Maps.Axis, y, m.Rows, ax.Reversed, func(v float64) color.RGBA {
+		return ramp(divergingRamp, 0.5+0.5*v/lim)
+	})
+	p := newPlot("", ylabel)
+	ax.apply(p)
+	p.Add(raster{img: img, xmin: r[0], xmax: r[1], ymin: r[2], ymax: r[3]})
+	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = r[0], r[1], r[2], r[3]
+	svg, err := render(p, colourBar(lim, unit+" (absorbance)"), figW, figH)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", id, err)
+	}
+	return &Figure{ID: id, Title: title, Caption: caption, SVG: svg}, nil
+}
+
+// singularFigure: singular values on a log scale, the noise edge and the rank.
+func singularFigure(f *Folder) (*Figure, error) {
+	t := f.Singular
+	if t == nil {
+		return nil, nil
+	}
+	kj, sj := t.Index("factor"), t.Index("singular_value")
+	if kj < 0 || sj < 0 {
+		return nil, fmt.Errorf("singular_values.csv: no factor and singular_value columns")
+	}
+	ks, sv := t.Col(kj), t.Col(sj)
+	n := min(len(ks), max(30, 2*f.Summary.RankEstimate+10))
+	var in, out plotter.XYs
+	for i := 0; i < n; i++ {
+		if !(sv[i] > 0) || !finite(ks[i]) {
+			continue
+		}
+		pt := plotter.XY{X: ks[i], Y: sv[i]}
+		if int(ks[i]) <= f.Summary.RankEstimate {
+			in = append(in, pt)
+		} else {
+			out = append(out, pt)
+		}
+	}
+	if len(in)+len(out) == 0 {
+		return nil, nil
+	}
+	p := newPlot("factor number", "singular value (absorbance)")
+	p.Y.Scale = plot.LogScale{}
+	p.Y.Tick.Marker = plot.LogTicks{Prec: -1}
+	all := append(append(plotter.XYs{}, in...), out...)
+	_, ymax := span(xsOf(all, false))
+	ymin, _ := span(xsOf(all, false))
+	edge := f.Summary.NoiseEdge
+	if edge > 0 {
+		ymin, ymax = math.Min(ymin, edge), math.Max(ymax, edge)
+		hline(p, 0.5, float64(n)+0.5, edge, okabeVermilion, []float64{5, 3})
+	}
+	if r := f.Summary.RankEstimate; r > 0 {
+		vline(p, float64(r)+0.5, ymin, ymax, grey, []float64{2, 2})
+	}
+	addPoints(p, in, okabeBlue, false)
+	addPoints(p, out, grey, true)
+	p.X.Min, p.X.Max = 0.5, float64(n)+0.5
+	p.Y.Min, p.Y.Max = ymin/1.5, ymax*1.5
+	svg, err := render(p, nil, figW, figH)
+	if err != nil {
+		return nil, fmt.Errorf("singular values: %w", err)
+	}
+	cap := fmt.Sprintf("Filled: the %d factor(s) counted as signal; rings: the rest.", f.Summary.RankEstimate)
+	legend := []LegendItem{{Label: "signal factor", Colour: okabeBlue, Marker: true}, {Label: "noise factor", Colour: grey, Marker: true}}
+	if edge > 0 {
+		cap += fmt.Sprintf(" Dashed: the noise edge σ(√n + √m) = %s for σ = %s (%s).", trimFloat(edge, 4), trimFloat(f.Summary.NoiseSigma, 3), f.Summary.NoiseSource)
+		legend = append(legend, LegendItem{Label: "noise edge", Colour: okabeVermilion, Dash: []float64{5, 3}})
+	}
+	if n < len(ks) {
+		cap += fmt.Sprintf(" First %d of %d shown.", n, len(ks))
+	}
+	return &Figure{ID: "fig-singular", Title: "Singular values and the rank", Caption: cap, SVG: svg, Legend: legend}, nil
+}
+
+func xsOf(xy plotter.XYs, x bool) []float64 {
+	out := make([]float64, len(xy))
+	for i, p := range xy {
+		out[i] = p.Y
+		if x {
+			out[i] = p.X
+		}
+	}
+	return out
+}
+
+// efaFigure reads efa.csv tolerantly: a time (or row) column and columns
+// whose names say forward or backward. Values are taken as log10 singular
+// values when a name says "log" or any value is ≤ 0, else their log10 is
+// drawn.
+func efaFigure(f *Folder) (*Figure, error) {
+	t := f.EFA
+	if t == nil || len(t.Header) < 2 {
+		return nil, nil
+	}
+	xj := -1
+	for _, n := range []string{"time", "time_s", "row", "spectrum", "index"} {
+		if xj = t.Index(n); xj >= 0 {
+			break
+		}
+	}
+	if xj < 0 {
+		xj = 0
+	}
+	x := t.Col(xj)
+	var fwd, bwd []int
+	isLog := false
+	var threshold []int
+	for j, h := range t.Header {
+		l := strings.ToLower(h)
+		if j == xj || !t.Numeric(j) {
+			continue
+		}
+		switch {
+		case strings.Contains(l, "forward") || strings.HasPrefix(l, "fwd") || strings.HasPrefix(l, "f_"):
+			fwd = append(fwd, j)
+		case strings.Contains(l, "backward") || strings.HasPrefix(l, "bwd") || strings.HasPrefix(l, "b_"):
+			bwd = append(bwd, j)
+		case strings.Contains(l, "threshold") || strings.Contains(l, "noise"):
+			threshold = append(threshold, j)
+		default:
+			continue
+		}
+		if strings.Contains(l, "log") {
+			isLog = true
+		}
+	}
+	if len(fwd)+len(bwd) == 0 {
+		return nil, fmt.Errorf("efa.csv: no forward or backward columns in its header")
+	}
+	if !isLog {
+		for _, j := range append(append([]int{}, fwd...), bwd...) {
+			for _, v := range t.Col(j) {
+				if v <= 0 {
+					isLog = true
+				}
+			}
+		}
+	}
+	val := func(j int) []float64 {
+		c := t.Col(j)
+		if !isLog {
+			for i := range c {
+				c[i] = math.Log10(c[i])
+			}
+		}
+		return c
+	}
+	xl := "time / s"
+	if h := strings.ToLower(t.Header[xj]); !strings.HasPrefix(h, "time") {
+		xl = "spectrum number"
+	}
+	p := newPlot(xl, "log₁₀ singular value")
+	var legend []LegendItem
+	for k, j := range fwd {
+		if err := addLine(p, x, val(j), componentColour(k), 1.2, nil); err != nil {
+			return nil, err
+		}
+	}
+	for k, j := range bwd {
+		if err := addLine(p, x, val(j), componentColour(k), 1.2, []float64{5, 3}); err != nil {
+			return nil, err
+		}
+	}
+	for _, j := range threshold {
+		if err := addLine(p, x, val(j), grey, 0.8, []float64{2, 2}); err != nil {
+			return nil, err
+		}
+	}
+	for k := 0; k < max(len(fwd), len(bwd)); k++ {
+		legend = append(legend, LegendItem{Label: fmt.Sprintf("value %d", k+1), Colour: componentColour(k)})
+	}
+	legend = append(legend, LegendItem{Label: "forward (solid)", Colour: okabeBlack}, LegendItem{Label: "backward (dashed)", Colour: okabeBlack, Dash: []float64{5, 3}})
+	svg, err := render(p, nil, figW, figH)
+	if err != nil {
+		return nil, fmt.Errorf("evolving factor analysis: %w", err)
+	}
+	return &Figure{ID: "fig-efa", Title: "Evolving factor analysis", SVG: svg, Legend: legend,
+		Caption: "Singular values of the first spectra up to each time (forward, solid) and of the last ones from each time on (backward, dashed). A component appears where a new forward value rises out of the noise and disappears where its backward value sinks into it (Gampp et al. 1985; Maeder 1987)."}, nil
+}
+
+// spectraFigure: resolved spectra around a zero line, with feasible-band
+// and bootstrap envelopes when the files hold them.
+func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
+	t := f.Spectra
+	if t == nil || len(t.Header) < 2 {
+		return nil, nil
+	}
+	x := t.Col(0)
+	comps := f.components(t, 1)
+	if len(comps) == 0 {
+		return nil, nil
+	}
+	reactions := f.Summary.Mode == "reactions"
+	ylabel := "absorbance (per unit concentration)"
+	if reactions {
+		ylabel = "ΔA (absorbance, at extent 1)"
+	}
+	p := newPlot("", ylabel)
+	ax.apply(p)
+	var legend []LegendItem
+	envelopes := 0
+	bx, bandsSameAxis := f.bandAxis(len(x))
+	for k, j := range comps {
+		name := t.Header[j]
+		c := componentColour(k)
+		if bandsSameAxis {
+			if lo, hi := bounds(f.Bands, name, "spec"); lo >= 0 {
+				band(p, bx, f.Bands.Col(lo), f.Bands.Col(hi), tint(c, 0.7))
+				envelopes++
+			} else if lo, hi := bounds(f.Bands, name, ""); lo >= 0 {
+				band(p, bx, f.Bands.Col(lo), f.Bands.Col(hi), tint(c, 0.7))
+				envelopes++
+			}
+		}
+		if lo, hi := bounds(t, name, ""); lo >= 0 {
+			band(p, x, t.Col(lo), t.Col(hi), tint(c, 0.55))
+			envelopes++
+		}
+		if lo, hi := bounds(f.Intervals, name, "spec"); lo >= 0 && f.Intervals.Rows() == len(x) {
+			band(p, x, f.Intervals.Col(lo), f.Intervals.Col(hi), tint(c, 0.55))
+			envelopes++
+		}
+	}
+	xlo, xhi := span(x)
+	hline(p, xlo, xhi, 0, okabeBlack, nil)
+	for k, j := range comps {
+		if err := addLine(p, x, t.Col(j), componentColour(k), 1.4, dashOf(k)); err != nil {
+			return nil, err
+		}
+		legend = append(legend, LegendItem{Label: t.Header[j], Colour: componentColour(k), Dash: dashOf(k)})
+	}
+	svg, err := render(p, nil, figW, figH)
+	if err != nil {
+		return nil, fmt.Errorf("spectra: %w", err)
+	}
+	cap := "Resolved spectra of the species."
+	title := "Resolved spectra"
+	if reactions {
+		title = "Reaction spectra"
+		cap = "Each reaction's signed spectrum: positive lobes are bands of what forms, negative lobes bands of what is consumed; the black line is zero."
+	}
+	if envelopes > 0 {
+		cap += " Shaded: the range of spectra that fit the data and keep every constraint (feasible bands) or the bootstrap interval, where computed."
+		legend = append(legend, LegendItem{Label: "feasible range / interval", Colour: tint(okabeBlue, 0.6), Fill: true})
+	}
+	return &Figure{ID: "fig-spectra", Title: title, Caption: cap, SVG: svg, Legend: legend}, nil
+}
+
+// bandAxis returns bands.csv's first column when it is the spectral axis
+// (its row count matches spectra.csv), for envelopes of the spectra.
+func (f *Folder) bandAxis(n int) ([]float64, bool) {
+	if f.Bands == nil || f.Bands.Rows() != n || len(f.Bands.Header) == 0 || !f.Bands.Numeric(0) {
+		return nil, false
+	}
+	h := strings.ToLower(f.Bands.Header[0])
+	if strings.HasPrefix(h, "time") {
+		return nil, false
+	}
+	return f.Bands.Col(0), true
+}
+
+// profilesFigure: concentration or extent profiles, with the kinetic fit
+// (kinetics.csv) drawn as lines over the resolved points when a model ran.
+func profilesFigure(f *Folder) (*Figure, error) {
+	t := f.Profiles
+	if t == nil {
+		return nil, nil
+	}
+	tj := t.Index("time")
+	if tj < 0 {
+		return nil, fmt.Errorf("profiles.csv: no time column")
+	}
+	ej := t.Index("experiment")
+	tm := t.Col(tj)
+	var exp []float64
+	if ej >= 0 {
+		exp = t.Col(ej)
+	}
+	comps := f.components(t, tj+1)
+	if len(comps) == 0 {
+		return nil, nil
+	}
+	reactions := f.Summary.Mode == "reactions"
+	ylabel := "concentration (relative)"
+	switch {
+	case reactions:
+		ylabel = "extent (largest = 1)"
+	case f.Summary.Closure == "1":
+		ylabel = "fraction of the total (closure = 1)"
+	case f.Summary.Closure != "" && f.Summary.Closure != "off":
+		ylabel = "concentration (closure total " + f.Summary.Closure + ")"
+	}
+	p := newPlot("time / s", ylabel)
+	fit := f.kineticCurves()
+	var legend []LegendItem
+	// Segments per experiment, so lines never join two experiments.
+	segments := func(col []float64, draw func(x, y []float64) error) error {
+		start := 0
+		for i := 1; i <= len(tm); i++ {
+			if i == len(tm) || (exp != nil && exp[i] != exp[start]) {
+				if err := draw(tm[start:i], col[start:i]); err != nil {
+					return err
+				}
+				start = i
+			}
+		}
+		return nil
+	}
+	xlo, xhi := span(tm)
+	hline(p, xlo, xhi, 0, grey, nil)
+	for k, j := range comps {
+		c := componentColour(k)
+		name := t.Header[j]
+		if lo, hi := bounds(f.Intervals, name, "prof"); lo >= 0 && f.Intervals.Rows() == len(tm) {
+			band(p, tm, f.Intervals.Col(lo), f.Intervals.Col(hi), tint(c, 0.6))
+		}
+		if f.Bands != nil && !isSpectral(f.Bands) {
+			if lo, hi := bounds(f.Bands, name, ""); lo >= 0 && f.Bands.Rows() == len(tm) {
+				band(p, tm, f.Bands.Col(lo), f.Bands.Col(hi), tint(c, 0.7))
+			}
+		}
+		col := t.Col(j)
+		if len(fit) > 0 {
+			var pts plotter.XYs
+			for i := range tm {
+				if finite(tm[i]) && finite(col[i]) {
+					pts = append(pts, plotter.XY{X: tm[i], Y: col[i]})
+				}
+			}
+			addPoints(p, pts, c, false)
+			legend = append(legend, LegendItem{Label: name + " (resolved)", Colour: c, Marker: true})
+		} else {
+			if err := segments(col, func(x, y []float64) error { return addLine(p, x, y, c, 1.4, dashOf(k)) }); err != nil {
+				return nil, err
+			}
+			legend = append(legend, LegendItem{Label: name, Colour: c, Dash: dashOf(k)})
+		}
+	}
+	for i, cv := range fit {
+		c := okabeBlack
+		if cv.comp >= 0 {
+			c = componentColour(cv.comp)
+		}
+		if err := addLine(p, cv.x, cv.y, c, 1.2, nil); err != nil {
+			return nil, err
+		}
+		if cv.comp < 0 || i == 0 {
+			legend = append(legend, LegendItem{Label: cv.label, Colour: c})
+		}
+	}
+	svg, err := render(p, nil, figW, figH)
+	if err != nil {
+		return nil, fmt.Errorf("profiles: %w", err)
+	}
+	title, cap := "Concentration profiles", "Resolved concentration of each species against time."
+	if reactions {
+		title, cap = "Extent profiles", "How far each reaction has gone, scaled so its largest extent is 1; zero at the reference and before the reaction starts."
+	}
+	if len(fit) > 0 {
+		cap += " Points: resolved; lines: the kinetic model fitted to them."
+		if f.Summary.Kinetics != nil && f.Summary.Kinetics.Model != "" {
+			cap += " Model: " + f.Summary.Kinetics.Model + "."
+		}
+	}
+	return &Figure{ID: "fig-profiles", Title: title, Caption: cap, SVG: svg, Legend: legend}, nil
+}
+
+func isSpectral(t *Table) bool {
+	return len(t.Header) > 0 && !strings.HasPrefix(strings.ToLower(t.Header[0]), "time")
+}
+
+type curve struct {
+	x, y  []float64
+	comp  int // index of the matching component, −1 none
+	label string
+}
+
+// kineticCurves reads kinetics.csv tolerantly: a time column and model
+// curves named after a component (NAME, NAME_fit, fit_NAME, model_NAME) or
+// anything else numeric (drawn in black with its own name). Rows with a
+// "step" or "k" column are a rate-constant table instead, with no curves.
+func (f *Folder) kineticCurves() []curve {
+	t := f.Kinetics
+	if t == nil {
+		return nil
+	}
+	tj := -1
+	for _, n := range []string{"time", "time_s"} {
+		if tj = t.Index(n); tj >= 0 {
+			break
+		}
+	}
+	if tj < 0 {
+		return nil
+	}
+	x := t.Col(tj)
+	names := []string{}
+	if f.Summary != nil {
+		names = f.Summary.ComponentNames
+	}
+	var out []curve
+	for j, h := range t.Header {
+		if j == tj || !t.Numeric(j) || strings.EqualFold(h, "experiment") {
+			continue
+		}
+		l := strings.ToLower(h)
+		comp := -1
+		for k, n := range names {
+			n = strings.ToLower(n)
+			if l == n || l == n+"_fit" || l == "fit_"+n || l == "model_"+n || l == n+"_model" {
+				comp = k
+			}
+		}
+		label := h
+		if comp >= 0 {
+			label = "kinetic fit"
+		}
+		out = append(out, curve{x: x, y: t.Col(j), comp: comp, label: label})
+	}
+	return out
+}
+
+// iterationsFigure: lack of fit per ALS iteration on a log scale, with the
+// level noise alone would give.
+func iterationsFigure(f *Folder) (*Figure, error) {
+	t := f.Iterations
+	if t == nil {
+		return nil, nil
+	}
+	ij, lj := t.Index("iteration"), t.Index("lack_of_fit_percent")
+	if ij < 0 || lj < 0 {
+		return nil, fmt.Errorf("iterations.csv: no iteration and lack_of_fit_percent columns")
+	}
+	it, lof := t.Col(ij), t.Col(lj)
+	var pts plotter.XYs
+	for i := range it {
+		if finite(it[i]) && lof[i] > 0 {
+			pts = append(pts, plotter.XY{X: it[i], Y: lof[i]})
+		}
+	}
+	if len(pts) == 0 {
+		return nil, nil
+	}
+	p := newPlot("iteration", "lack of fit / %")
+	p.Y.Scale = plot.LogScale{}
+	p.Y.Tick.Marker = plot.LogTicks{Prec: -1}
+	ylo, yhi := span(xsOf(pts, false))
+	xlo, xhi := span(xsOf(pts, true))
+	if xhi == xlo {
+		xhi = xlo + 1
+	}
+	legend := []LegendItem{{Label: "lack of fit", Colour: okabeBlue}}
+	if nl := f.Summary.NoiseLackOfFitPercent; nl > 0 {
+		hline(p, xlo, xhi, nl, okabeVermilion, []float64{5, 3})
+		ylo, yhi = math.Min(ylo, nl), math.Max(yhi, nl)
+		legend = append(legend, LegendItem{Label: "noise alone", Colour: okabeVermilion, Dash: []float64{5, 3}})
+	}
+	if err := addLine(p, xsOf(pts, true), xsOf(pts, false), okabeBlue, 1.4, nil); err != nil {
+		return nil, err
+	}
+	p.Y.Min, p.Y.Max = ylo/1.3, yhi*1.3
+	svg, err := render(p, nil, figW, 7*figH/9)
+	if err != nil {
+		return nil, fmt.Errorf("iterations: %w", err)
+	}
+	conv := "converged"
+	if !f.Summary.Converged {
+		conv = "stopped at the iteration limit without converging"
+	}
+	return &Figure{ID: "fig-iterations", Title: "Lack of fit per iteration", SVG: svg, Legend: legend,
+		Caption: fmt.Sprintf("Alternating least squares %s after %d iterations at %s %% lack of fit. The dashed line is what noise alone would leave.", conv, f.Summary.Iterations, trimFloat(f.Summary.LackOfFitPercent, 4))}, nil
+}
+
+// residualSpectrumFigure: root-mean-square residual per point over the
+// spectra in maps.csv, its signed mean, and the noise level.
+func residualSpectrumFigure(f *Folder, m *Matrix, ax axisStyle) (*Figure, error) {
+	x := f.Maps.Axis
+	if len(m.Rows) == 0 || len(x) < 2 {
+		return nil, nil
+	}
+	rms := make([]float64, len(x))
+	mean := make([]float64, len(x))
+	for j := range x {
+		var s, s2 float64
+		n := 0
+		for _, r := range m.Rows {
+			if finite(r[j]) {
+				s += r[j]
+				s2 += r[j] * r[j]
+				n++
+			}
+		}
+		if n > 0 {
+			mean[j], rms[j] = s/float64(n), math.Sqrt(s2/float64(n))
+		} else {
+			mean[j], rms[j] = math.NaN(), math.NaN()
+		}
+	}
+	p := newPlot("", "residual (absorbance)")
+	ax.apply(p)
+	xlo, xhi := span(x)
+	hline(p, xlo, xhi, 0, okabeBlack, nil)
+	legend := []LegendItem{{Label: "root-mean-square over time", Colour: okabeBlue}, {Label: "mean over time (signed)", Colour: okabeGreen, Dash: []float64{6, 3}}}
+	if sg := f.Summary.NoiseSigma; sg > 0 {
+		hline(p, xlo, xhi, sg, okabeVermilion, []float64{5, 3})
+		legend = append(legend, LegendItem{Label: "noise σ", Colour: okabeVermilion, Dash: []float64{5, 3}})
+	}
+	if err := addLine(p, x, rms, okabeBlue, 1.2, nil); err != nil {
+		return nil, err
+	}
+	if err := addLine(p, x, mean, okabeGreen, 1.0, []float64{6, 3}); err != nil {
+		return nil, err
+	}
+	svg, err := render(p, nil, figW, 7*figH/9)
+	if err != nil {
+		return nil, fmt.Errorf("residual spectrum: %w", err)
+	}
+	return &Figure{ID: "fig-residual-spectrum", Title: "Residual spectrum", SVG: svg, Legend: legend,
+		Caption: fmt.Sprintf("Residual at each point over the %d spectra kept in %s. Where the root-mean-square residual stays at the noise σ the model fits; a peak marks a band the components do not explain, and a mean away from zero a systematic misfit.", len(m.Rows), MapsFile)}, nil
+}

@@ -1,0 +1,439 @@
+package report
+
+import (
+	"bytes"
+	"encoding/json"
+	"fmt"
+	"html/template"
+	"math"
+	"os"
+	"path/filepath"
+	"regexp"
+	"sort"
+	"strings"
+)
+
+// Rebuild reads the output folder dir and writes dir/report.html from its
+// files (the `bandsolve report OUT` command). The new report replaces the
+// old one in a rename, so a failure leaves the old one whole.
+func Rebuild(dir string) error {
+	b, err := BuildDir(dir)
+	if err != nil {
+		return err
+	}
+	tmp, err := os.CreateTemp(dir, ".report-*.html")
+	if err != nil {
+		return fmt.Errorf("writing report: %w", err)
+	}
+	name := tmp.Name()
+	if _, err := tmp.Write(b); err != nil {
+		tmp.Close()
+		os.Remove(name)
+		return fmt.Errorf("writing report: %w", err)
+	}
+	if err := tmp.Close(); err != nil {
+		os.Remove(name)
+		return fmt.Errorf("writing report: %w", err)
+	}
+	if err := os.Chmod(name, 0o644); err != nil {
+		os.Remove(name)
+		return fmt.Errorf("writing report: %w", err)
+	}
+	if err := os.Rename(name, filepath.Join(dir, "report.html")); err != nil {
+		os.Remove(name)
+		return fmt.Errorf("writing report: %w", err)
+	}
+	return nil
+}
+
+// BuildDir reads dir and returns its report.html.
+func BuildDir(dir string) ([]byte, error) {
+	f, err := Load(dir)
+	if err != nil {
+		return nil, err
+	}
+	return Build(f)
+}
+
+// Build renders the report of a folder. It depends only on the files'
+// contents (never on the folder's name, the clock or the host), so the
+// same files always give the same bytes.
+func Build(f *Folder) ([]byte, error) {
+	figs, problems := Figures(f)
+	v := view{F: f, S: f.Summary, Problems: append(append([]string{}, f.Problems...), problems...)}
+	v.Findings, v.Checks = findings(f)
+	groups := []struct {
+		title string
+		ids   []string
+	}{
+		{"The data", []string{"fig-absorbance", "fig-input", "fig-map"}},
+		{"How many components", []string{"fig-singular", "fig-efa"}},
+		{"What was resolved", []string{"fig-spectra", "fig-profiles"}},
+		{"How well it fits", []string{"fig-iterations", "fig-residual-map", "fig-residual-spectrum"}},
+	}
+	used := map[string]bool{}
+	for _, g := range groups {
+		sec := section{Title: g.title}
+		for _, id := range g.ids {
+			for _, fg := range figs {
+				if fg.ID == id {
+					sec.Figures = append(sec.Figures, figView(fg))
+					used[id] = true
+				}
+			}
+		}
+		if len(sec.Figures) > 0 {
+			v.Sections = append(v.Sections, sec)
+		}
+	}
+	for _, fg := range figs {
+		if !used[fg.ID] {
+			v.Sections = append(v.Sections, section{Title: fg.Title, Figures: []figureView{figView(fg)}})
+		}
+	}
+	v.FigureCount = len(figs)
+	v.Extra = extraKeys(f.SummaryRaw)
+	if f.AsRun != nil {
+		v.AsRun, v.AsRunDropped = dropTimes(f.AsRun.Body)
+	}
+	if f.Manifest != nil {
+		v.ManifestRows, v.ManifestText, v.ManifestDropped = manifestView(f.Manifest)
+	}
+	var b bytes.Buffer
+	if err := page.Execute(&b, v); err != nil {
+		return nil, fmt.Errorf("rendering report: %w", err)
+	}
+	return b.Bytes(), nil
+}
+
+type view struct {
+	F               *Folder
+	S               *Summary
+	Findings        []string
+	Checks          []string
+	Sections        []section
+	FigureCount     int
+	Problems        []string
+	Extra           [][2]string
+	AsRun           string
+	AsRunDropped    int
+	ManifestRows    [][2]string
+	ManifestText    string
+	ManifestDropped int
+}
+
+type section struct {
+	Title   string
+	Figures []figureView
+}
+
+type figureView struct {
+	Figure
+	SVGHTML template.HTML
+	Items   []legendView
+}
+
+type legendView struct {
+	Label  string
+	Sample template.HTML
+}
+
+func figView(f Figure) figureView {
+	fv := figureView{Figure: f, SVGHTML: template.HTML(f.SVG)} // drawn by us with escaped text
+	for _, it := range f.Legend {
+		fv.Items = append(fv.Items, legendView{Label: it.Label, Sample: template.HTML(sample(it))})
+	}
+	return fv
+}
+
+// sample is the little drawing of a legend entry.
+func sample(it LegendItem) string {
+	c := fmt.Sprintf("#%02x%02x%02x", it.Colour.R, it.Colour.G, it.Colour.B)
+	switch {
+	case it.Marker:
+		return fmt.Sprintf(`<svg class="key" viewBox="0 0 28 10" width="28" height="10"><circle cx="14" cy="5" r="3.2" fill="%s"/></svg>`, c)
+	case it.Fill:
+		return fmt.Sprintf(`<svg class="key" viewBox="0 0 28 10" width="28" height="10"><rect x="1" y="1" width="26" height="8" fill="%s"/></svg>`, c)
+	}
+	dash := ""
+	if it.Dash != nil {
+		var parts []string
+		for _, d := range it.Dash {
+			parts = append(parts, fmt.Sprintf("%g", d))
+		}
+		dash = fmt.Sprintf(` stroke-dasharray="%s"`, strings.Join(parts, " "))
+	}
+	return fmt.Sprintf(`<svg class="key" viewBox="0 0 28 10" width="28" height="10"><line x1="1" y1="5" x2="27" y2="5" stroke="%s" stroke-width="2.2"%s/></svg>`, c, dash)
+}
+
+// extraKeys lists summary.json keys the report does not present in its own
+// words, as compact JSON, sorted by key.
+func extraKeys(raw map[string]json.RawMessage) [][2]string {
+	var keys []string
+	for k := range raw {
+		if !knownKeys[k] {
+			keys = append(keys, k)
+		}
+	}
+	sort.Strings(keys)
+	var out [][2]string
+	for _, k := range keys {
+		var b bytes.Buffer
+		if err := json.Compact(&b, raw[k]); err != nil {
+			continue
+		}
+		out = append(out, [2]string{k, b.String()})
+	}
+	return out
+}
+
+// timestamp matches dates and clock times (RFC 3339 and similar).
+var timestamp = regexp.MustCompile(`\d{4}-\d{2}-\d{2}[T ]\d{2}:\d{2}`)
+
+// dropTimes removes lines holding a date or clock time: a rerun differs in
+// them only, and the report must be the same bytes for the same results.
+func dropTimes(s string) (string, int) {
+	var keep []string
+	n := 0
+	for _, l := range strings.Split(s, "\n") {
+		if timestamp.MatchString(l) {
+			n++
+			continue
+		}
+		keep = append(keep, l)
+	}
+	return strings.TrimRight(strings.Join(keep, "\n"), "\n"), n
+}
+
+// volatile are manifest keys that change from one rerun to the next.
+var volatile = map[string]bool{"start": true, "started": true, "date": true, "time": true, "timestamp": true,
+	"elapsed": true, "duration": true, "host": true, "hostname": true, "user": true, "when": true, "end": true, "finished": true}
+
+func isVolatile(key, value string) bool {
+	for _, tok := range strings.FieldsFunc(strings.ToLower(key), func(r rune) bool { return r == '_' || r == '.' || r == '-' || r == ' ' }) {
+		if volatile[tok] {
+			return true
+		}
+	}
+	return timestamp.MatchString(value)
+}
+
+// manifestView flattens a JSON manifest into key/value rows (volatile ones
+// left out); any other manifest is shown as text.
+func manifestView(t *Text) (rows [][2]string, text string, dropped int) {
+	var v any
+	if err := json.Unmarshal([]byte(t.Body), &v); err != nil {
+		text, dropped = dropTimes(t.Body)
+		return nil, text, dropped
+	}
+	var walk func(prefix string, v any)
+	walk = func(prefix string, v any) {
+		switch x := v.(type) {
+		case map[string]any:
+			keys := make([]string, 0, len(x))
+			for k := range x {
+				keys = append(keys, k)
+			}
+			sort.Strings(keys)
+			for _, k := range keys {
+				p := k
+				if prefix != "" {
+					p = prefix + "." + k
+				}
+				walk(p, x[k])
+			}
+		case []any:
+			for i, e := range x {
+				walk(fmt.Sprintf("%s[%d]", prefix, i), e)
+			}
+		default:
+			b, _ := json.Marshal(x)
+			val := strings.Trim(string(b), `"`)
+			if isVolatile(prefix, val) {
+				dropped++
+				return
+			}
+			rows = append(rows, [2]string{prefix, val})
+		}
+	}
+	walk("", v)
+	return rows, "", dropped
+}
+
+// findings says in words what was found and how sure it is; checks are
+// the warnings the report itself derives from the files.
+func findings(f *Folder) (find, checks []string) {
+	s := f.Summary
+	what := "species"
+	if s.Mode == "reactions" {
+		what = "independent reaction(s)"
+	}
+	find = append(find, fmt.Sprintf("%d %s resolved from %d spectra × %d points (%s).", s.Components, what, s.Spectra, s.Points, spectralAxis(f.axisName()).Label))
+	if s.ModeReason != "" {
+		find = append(find, "Mode — "+s.ModeReason+".")
+	}
+	// Rank evidence.
+	if len(s.RankCriteria) > 0 {
+		agree := 0
+		var each []string
+		for _, c := range s.RankCriteria {
+			if c.Estimate == s.RankEstimate {
+				agree++
+			}
+			each = append(each, fmt.Sprintf("%s %d", c.Name, c.Estimate))
+		}
+		if agree == len(s.RankCriteria) {
+			find = append(find, fmt.Sprintf("Rank %d: all %d criteria agree (%s).", s.RankEstimate, len(s.RankCriteria), strings.Join(each, ", ")))
+		} else {
+			find = append(find, fmt.Sprintf("Rank %d, but the criteria disagree (%s): look at the singular values and treat the count with care.", s.RankEstimate, strings.Join(each, ", ")))
+		}
+	}
+	if s.DifferenceRank != nil && s.Mode == "species" {
+		if *s.DifferenceRank < s.RankEstimate {
+			find = append(find, fmt.Sprintf("The difference spectra have rank %d, below the %d of the absolute absorbance: a rank deficiency from mass balance — %d species take part in %d independent reaction(s).", *s.DifferenceRank, s.RankEstimate, s.RankEstimate, *s.DifferenceRank))
+		}
+	}
+	if s.Components > 0 {
+		fit := fmt.Sprintf("Lack of fit %s %% (explained variance %s %%)", trimFloat(s.LackOfFitPercent, 4), trimFloat(s.ExplainedVariancePercent, 7))
+		if nl := s.NoiseLackOfFitPercent; nl > 0 {
+			r := s.LackOfFitPercent / nl
+			switch {
+			case r <= 1.2:
+				fit += fmt.Sprintf(", the %s %% noise alone would give: the model explains everything but the noise.", trimFloat(nl, 3))
+			case r <= 3:
+				fit += fmt.Sprintf(", somewhat above the %s %% noise alone would give: small systematic misfit; see the residual map.", trimFloat(nl, 3))
+			default:
+				fit += fmt.Sprintf(", %s times the %s %% noise alone would give: part of the data is not explained.", trimFloat(r, 2), trimFloat(nl, 3))
+			}
+		} else {
+			fit += "."
+		}
+		find = append(find, fit)
+		if s.Converged {
+			find = append(find, fmt.Sprintf("Alternating least squares converged in %d iterations.", s.Iterations))
+		} else {
+			checks = append(checks, fmt.Sprintf("Alternating least squares did not converge within %d iterations: the last spectra and profiles are shown, but rerun with a higher --max-iter before relying on them.", s.Iterations))
+		}
+	}
+	for _, b := range s.FeasibleBands {
+		w := b.Max - b.Min
+		if w <= 0.05*math.Max(b.Max, 1e-12) {
+			find = append(find, fmt.Sprintf("%s is essentially unique within the constraints: every rotation that still fits gives it a signal contribution between %s and %s.", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
+		} else {
+			find = append(find, fmt.Sprintf("%s is not unique: rotations that fit the data and keep every constraint give it a signal contribution from %s to %s.", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
+		}
+	}
+	if k := s.Kinetics; k != nil && len(k.RateConstants) > 0 {
+		var ks []string
+		for _, rc := range k.RateConstants {
+			t := fmt.Sprintf("%s: k = %s ± %s s⁻¹", rc.Step, trimFloat(rc.K, 4), trimFloat(rc.StdErr, 2))
+			if rc.K > 0 {
+				t += fmt.Sprintf(" (half-life %s s)", trimFloat(math.Ln2/rc.K, 3))
+			}
+			ks = append(ks, t)
+		}
+		find = append(find, fmt.Sprintf("Kinetic model %s: %s.", k.Model, strings.Join(ks, "; ")))
+	}
+	if t := f.DemoCheck; t != nil && t.Index("spectrum_cosine") >= 0 {
+		sc, pc := t.Col(t.Index("spectrum_cosine")), t.Col(t.Index("profile_cosine"))
+		lo, _ := span(sc, pc)
+		find = append(find, fmt.Sprintf("Against the invented truth of the demo every resolved spectrum and profile has a cosine of at least %s with the true one (1 = identical shape).", trimFloat(lo, 5)))
+	}
+	checks = append(checks, derivedChecks(f)...)
+	return find, checks
+}
+
+// derivedChecks looks at the files for what a chemist should be warned of.
+func derivedChecks(f *Folder) []string {
+	var out []string
+	s := f.Summary
+	// A component that vanished: its profile never rises above 1 % of the
+	// largest one's.
+	if t := f.Profiles; t != nil {
+		comps := f.components(t, 1)
+		maxes := make([]float64, len(comps))
+		top := 0.0
+		for k, j := range comps {
+			_, maxes[k] = span(t.Col(j))
+			top = math.Max(top, maxes[k])
+		}
+		for k, j := range comps {
+			if top > 0 && maxes[k] < 0.01*top {
+				out = append(out, fmt.Sprintf("%s has vanished: its profile never exceeds 1 %% of the largest one's. Fewer components may describe the data as well (--components %d).", t.Header[j], len(comps)-1))
+			}
+		}
+		// Closure: rows should sum to the total.
+		if s.Mode == "species" && s.Closure != "" && s.Closure != "off" {
+			var total float64
+			if _, err := fmt.Sscan(s.Closure, &total); err == nil && total > 0 && len(comps) > 0 {
+				worst := 0.0
+				for i := 0; i < t.Rows(); i++ {
+					sum := 0.0
+					for _, j := range comps {
+						sum += t.Col(j)[i]
+					}
+					worst = math.Max(worst, math.Abs(sum-total)/total)
+				}
+				if worst > 0.01 {
+					out = append(out, fmt.Sprintf("Closure is violated: the concentrations of some spectra sum to a value %s %% away from the total %s. Dilution, sampling or a species without bands can cause this; compare with --closure off.", trimFloat(100*worst, 2), s.Closure))
+				}
+			}
+		}
+	}
+	// Saturated regions: absorbance above 2 means under 1 % of the light
+	// reaches the detector, where noise explodes and bands flatten (common
+	// practice).
+	if f.Maps != nil && s.Mode == "species" {
+		if m := f.Maps.Matrices["data"]; m != nil {
+			var ranges []string
+			start := -1
+			hot := func(j int) bool {
+				for _, r := range m.Rows {
+					if r[j] > 2 {
+						return true
+					}
+				}
+				return false
+			}
+			for j := 0; j <= len(f.Maps.Axis); j++ {
+				if j < len(f.Maps.Axis) && hot(j) {
+					if start < 0 {
+						start = j
+					}
+					continue
+				}
+				if start >= 0 {
+					ranges = append(ranges, fmt.Sprintf("%s–%s", trimFloat(f.Maps.Axis[start], 5), trimFloat(f.Maps.Axis[j-1], 5)))
+					start = -1
+				}
+			}
+			if len(ranges) > 0 {
+				out = append(out, fmt.Sprintf("Absorbance exceeds 2 (under 1 %% of the light transmitted) at %s %s: such regions are often saturated; consider --exclude LO:HI for them.", strings.Join(ranges, ", "), spectralAxis(f.axisName()).Unit))
+			}
+		}
+	}
+	return out
+}
+
+func fmtNum(v float64) string { return trimFloat(v, 4) }
+
+func yesNo(b bool) string {
+	if b {
+		return "yes"
+	}
+	return "no"
+}
+
+var page = template.Must(template.New("report").Funcs(template.FuncMap{
+	"num":   fmtNum,
+	"num7":  func(v float64) string { return trimFloat(v, 7) },
+	"yesno": yesNo,
+	"verdict": func(c Criterion, rank int) string {
+		if c.Estimate == rank {
+			return "agrees"
+		}
+		return "differs"
+	},
+	"deref":     func(p *int) int { return *p },
+	"figAnchor": func(f figureView) string { return "sec-" + f.ID },
+}).Parse(pageTemplate))

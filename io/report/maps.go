@@ -1,0 +1,86 @@
+package report
+
+import (
+	"bytes"
+	"math"
+	"strconv"
+)
+
+// Limits of maps.csv: enough rows and points for a figure at print size,
+// small enough that the file stays around a megabyte.
+const (
+	MapTimes  = 200
+	MapPoints = 400
+)
+
+// MapMatrix is one matrix given to MapsCSV, read through At.
+type MapMatrix struct {
+	Name string // "data", "difference", "residual"
+	At   func(i, j int) float64
+}
+
+// MapsCSV renders maps.csv from full matrices of len(times) rows ×
+// len(axis) points: at most MapTimes rows and MapPoints points, picked at
+// evenly spaced indices (the first and last always kept). Picking rather
+// than averaging keeps true values, so the residual map shows the real
+// noise level and narrow bands are not smeared. Values have 6 significant
+// digits: the file feeds figures only, the full values are in the other
+// result files.
+func MapsCSV(axis, times []float64, experiment []int, mats []MapMatrix) []byte {
+	rows := pick(len(times), MapTimes)
+	cols := pick(len(axis), MapPoints)
+	var b bytes.Buffer
+	b.WriteString("matrix,experiment,time")
+	for _, j := range cols {
+		b.WriteByte(',')
+		b.WriteString(num(axis[j], 10))
+	}
+	b.WriteByte('\n')
+	for _, m := range mats {
+		for _, i := range rows {
+			b.WriteString(m.Name)
+			b.WriteByte(',')
+			e := 1
+			if i < len(experiment) {
+				e = experiment[i] + 1
+			}
+			b.WriteString(strconv.Itoa(e))
+			b.WriteByte(',')
+			b.WriteString(num(times[i], 10))
+			for _, j := range cols {
+				b.WriteByte(',')
+				b.WriteString(num(m.At(i, j), 6))
+			}
+			b.WriteByte('\n')
+		}
+	}
+	return b.Bytes()
+}
+
+// pick returns at most max indices of 0..n−1, evenly spaced, first and last included.
+func pick(n, max int) []int {
+	if n <= max {
+		out := make([]int, n)
+		for i := range out {
+			out[i] = i
+		}
+		return out
+	}
+	out := make([]int, max)
+	for i := range out {
+		// Integer arithmetic keeps the choice identical on every platform.
+		out[i] = (i*(n-1) + (max-1)/2) / (max - 1)
+	}
+	return out
+}
+
+// num formats v with digits significant digits; never NaN, Inf or −0.
+func num(v float64, digits int) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return ""
+	}
+	if v == 0 {
+		return "0"
+	}
+	return strconv.FormatFloat(v, 'g', digits, 64)
+}

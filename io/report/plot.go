@@ -1,0 +1,472 @@
+package report
+
+import (
+	"bytes"
+	"fmt"
+	"image"
+	"image/color"
+	"math"
+	"sort"
+	"strconv"
+	"strings"
+
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/font"
+	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
+	"gonum.org/v1/plot/vg/vgsvg"
+)
+
+// Figure is one figure of the report: an SVG drawing with its words.
+type Figure struct {
+	ID      string // anchor in the report, e.g. "fig-spectra"
+	Title   string
+	Caption string
+	Legend  []LegendItem
+	SVG     string // <svg …>…</svg>, without the XML prolog
+}
+
+// LegendItem is one entry of a figure's legend, drawn in the HTML beside
+// the figure so it never hides data.
+type LegendItem struct {
+	Label  string
+	Colour color.RGBA
+	Dash   []float64 // nil: solid
+	Marker bool      // a point rather than a line
+	Fill   bool      // a shaded area
+}
+
+// Figures are drawn 16 cm × 9 cm, the width of a printed page's text
+// column, with 10–12 pt text: readable when printed at that size.
+const (
+	figW = 16 * vg.Centimeter
+	figH = 9 * vg.Centimeter
+)
+
+var sans = font.Font{Typeface: "Liberation", Variant: "Sans"}
+
+// dashes per component, so lines stay apart in grey print.
+var dashes = [][]float64{nil, {6, 3}, {2, 2}, {8, 3, 2, 3}, {4, 4}, {10, 2}, {1, 3}}
+
+func dashOf(k int) []float64 { return dashes[k%len(dashes)] }
+
+func lengths(d []float64) []vg.Length {
+	if d == nil {
+		return nil
+	}
+	out := make([]vg.Length, len(d))
+	for i, v := range d {
+		out[i] = vg.Points(v)
+	}
+	return out
+}
+
+// newPlot makes a plot in the report's style: sans-serif text, light grid.
+func newPlot(xlabel, ylabel string) *plot.Plot {
+	p := plot.New()
+	p.Title.TextStyle.Font = font.From(sans, 12)
+	for _, a := range []*plot.Axis{&p.X, &p.Y} {
+		a.Label.TextStyle.Font = font.From(sans, 11)
+		a.Tick.Label.Font = font.From(sans, 10)
+		a.Padding = vg.Points(2)
+	}
+	p.X.Label.Text, p.Y.Label.Text = xlabel, ylabel
+	p.X.Tick.Marker, p.Y.Tick.Marker = niceTicks{}, niceTicks{}
+	p.Legend.TextStyle.Font = font.From(sans, 10)
+	g := plotter.NewGrid()
+	g.Vertical.Color, g.Horizontal.Color = lightGrey, lightGrey
+	g.Vertical.Width, g.Horizontal.Width = vg.Points(0.4), vg.Points(0.4)
+	p.Add(g)
+	return p
+}
+
+// axisStyle is how a spectral axis is labelled and which way it runs.
+type axisStyle struct {
+	Label    string
+	Reversed bool // high → low left to right
+	Unit     string
+}
+
+// spectralAxis reads the axis column's name. Infrared wavenumber axes run
+// high → low left to right, and so do chemical shifts (common practice).
+func spectralAxis(name string) axisStyle {
+	n := strings.ToLower(name)
+	switch {
+	case strings.Contains(n, "wavenumber") || strings.Contains(n, "cm-1") || strings.Contains(n, "cm^-1") || strings.Contains(n, "cm⁻¹"):
+		return axisStyle{Label: "wavenumber / cm⁻¹", Reversed: true, Unit: "cm⁻¹"}
+	case strings.Contains(n, "wavelength") || n == "nm" || strings.Contains(n, "(nm)"):
+		return axisStyle{Label: "wavelength / nm", Unit: "nm"}
+	case strings.Contains(n, "ppm") || strings.Contains(n, "shift"):
+		return axisStyle{Label: "chemical shift / ppm", Reversed: true, Unit: "ppm"}
+	case strings.Contains(n, "raman"):
+		return axisStyle{Label: "Raman shift / cm⁻¹", Unit: "cm⁻¹"}
+	}
+	if name == "" {
+		name = "axis"
+	}
+	return axisStyle{Label: name + " (unit as in the input)"}
+}
+
+func (a axisStyle) apply(p *plot.Plot) {
+	p.X.Label.Text = a.Label
+	if a.Reversed {
+		p.X.Scale = plot.InvertedScale{Normalizer: plot.LinearScale{}}
+	}
+}
+
+// addLine adds x,y as a line, split at missing values (NaN).
+func addLine(p *plot.Plot, x, y []float64, c color.RGBA, width float64, dash []float64) error {
+	var seg plotter.XYs
+	flush := func() error {
+		if len(seg) >= 2 {
+			l, err := plotter.NewLine(seg)
+			if err != nil {
+				return err
+			}
+			l.Color, l.Width, l.Dashes = c, vg.Points(width), lengths(dash)
+			p.Add(l)
+		} else if len(seg) == 1 {
+			addPoints(p, seg, c, false)
+		}
+		seg = nil
+		return nil
+	}
+	for i := range x {
+		if i >= len(y) || !finite(x[i]) || !finite(y[i]) {
+			if err := flush(); err != nil {
+				return err
+			}
+			continue
+		}
+		seg = append(seg, plotter.XY{X: x[i], Y: y[i]})
+	}
+	return flush()
+}
+
+func addPoints(p *plot.Plot, xy plotter.XYs, c color.RGBA, hollow bool) {
+	s, err := plotter.NewScatter(xy)
+	if err != nil {
+		return
+	}
+	s.GlyphStyle.Color = c
+	s.GlyphStyle.Radius = vg.Points(2.2)
+	s.GlyphStyle.Shape = draw.CircleGlyph{}
+	if hollow {
+		s.GlyphStyle.Shape = draw.RingGlyph{}
+	}
+	p.Add(s)
+}
+
+// hline draws a horizontal reference line across [x0, x1].
+func hline(p *plot.Plot, x0, x1, y float64, c color.RGBA, dash []float64) {
+	l, err := plotter.NewLine(plotter.XYs{{X: x0, Y: y}, {X: x1, Y: y}})
+	if err != nil {
+		return
+	}
+	l.Color, l.Width, l.Dashes = c, vg.Points(0.8), lengths(dash)
+	p.Add(l)
+}
+
+func vline(p *plot.Plot, x, y0, y1 float64, c color.RGBA, dash []float64) {
+	l, err := plotter.NewLine(plotter.XYs{{X: x, Y: y0}, {X: x, Y: y1}})
+	if err != nil {
+		return
+	}
+	l.Color, l.Width, l.Dashes = c, vg.Points(0.8), lengths(dash)
+	p.Add(l)
+}
+
+// band shades the area between lo and hi.
+func band(p *plot.Plot, x, lo, hi []float64, c color.RGBA) {
+	var pts plotter.XYs
+	for i := range x {
+		if finite(x[i]) && finite(lo[i]) && finite(hi[i]) {
+			pts = append(pts, plotter.XY{X: x[i], Y: hi[i]})
+		}
+	}
+	for i := len(x) - 1; i >= 0; i-- {
+		if finite(x[i]) && finite(lo[i]) && finite(hi[i]) {
+			pts = append(pts, plotter.XY{X: x[i], Y: lo[i]})
+		}
+	}
+	if len(pts) < 3 {
+		return
+	}
+	poly, err := plotter.NewPolygon(pts)
+	if err != nil {
+		return
+	}
+	poly.Color = c
+	poly.LineStyle.Width = 0
+	p.Add(poly)
+}
+
+// raster draws an image into a data rectangle. It maps the corners through
+// the plot's transforms, so it stays right on an inverted axis (the gonum
+// heat map assumes a forward one).
+type raster struct {
+	img                    image.Image
+	xmin, xmax, ymin, ymax float64
+}
+
+func (r raster) Plot(c draw.Canvas, p *plot.Plot) {
+	trX, trY := p.Transforms(&c)
+	x0, x1 := trX(r.xmin), trX(r.xmax)
+	y0, y1 := trY(r.ymin), trY(r.ymax)
+	if x0 > x1 {
+		x0, x1 = x1, x0
+	}
+	if y0 > y1 {
+		y0, y1 = y1, y0
+	}
+	c.DrawImage(vg.Rectangle{Min: vg.Point{X: x0, Y: y0}, Max: vg.Point{X: x1, Y: y1}}, r.img)
+}
+
+func (r raster) DataRange() (xmin, xmax, ymin, ymax float64) { return r.xmin, r.xmax, r.ymin, r.ymax }
+
+// render draws the plot as SVG. A second plot, when given, is a colour bar
+// drawn in a strip on the right.
+func render(p, bar *plot.Plot, w, h vg.Length) (svg string, err error) {
+	// gonum/plot panics on some degenerate inputs (an empty log axis, say);
+	// a figure that cannot be drawn is left out with the reason, it must
+	// not stop the report.
+	defer func() {
+		if e := recover(); e != nil {
+			svg, err = "", fmt.Errorf("drawing failed: %v", e)
+		}
+	}()
+	c := vgsvg.New(w, h)
+	dc := draw.New(c)
+	if bar != nil {
+		barW := 2.6 * vg.Centimeter
+		p.Draw(draw.Crop(dc, 0, -barW, 0, 0))
+		bar.Draw(draw.Crop(dc, w-barW+0.3*vg.Centimeter, 0, 1.15*vg.Centimeter, 0))
+	} else {
+		p.Draw(dc)
+	}
+	var b bytes.Buffer
+	if _, err := c.WriteTo(&b); err != nil {
+		return "", fmt.Errorf("writing SVG: %w", err)
+	}
+	s := b.String()
+	if i := strings.Index(s, "<svg"); i >= 0 {
+		s = s[i:]
+	}
+	// vgsvg labels its embedded PNG images as JPEG; say what they are.
+	s = strings.ReplaceAll(s, "data:image/jpg;base64,", "data:image/png;base64,")
+	return s, nil
+}
+
+func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
+
+// span is the finite min and max of xs (0, 1 if none).
+func span(xs ...[]float64) (lo, hi float64) {
+	lo, hi = math.Inf(1), math.Inf(-1)
+	for _, x := range xs {
+		for _, v := range x {
+			if finite(v) {
+				lo, hi = math.Min(lo, v), math.Max(hi, v)
+			}
+		}
+	}
+	if lo > hi {
+		return 0, 1
+	}
+	return lo, hi
+}
+
+// quantileAbs is the q-quantile of |v| over finite values (sorted copy, so
+// the same data always gives the same limit).
+func quantileAbs(rows [][]float64, q float64) float64 {
+	var a []float64
+	for _, r := range rows {
+		for _, v := range r {
+			if finite(v) {
+				a = append(a, math.Abs(v))
+			}
+		}
+	}
+	if len(a) == 0 {
+		return 0
+	}
+	sort.Float64s(a)
+	i := int(math.Round(q * float64(len(a)-1)))
+	return a[i]
+}
+
+// mapImage paints a time × axis matrix as pixels: columns on an even grid
+// of the axis in display order, rows on an even grid of y, top = largest y.
+// Each pixel takes the nearest measured point; pixels in a gap of the axis
+// (an excluded region) are pale grey.
+func mapImage(axis, y []float64, rows [][]float64, reversed bool, colour func(v float64) color.RGBA) (image.Image, [4]float64) {
+	const W, H = 480, 260
+	xlo, xhi := span(axis)
+	ylo, yhi := span(y)
+	if ylo == yhi {
+		ylo, yhi = ylo-0.5, yhi+0.5
+	}
+	ax := sortedIndex(axis)
+	yi := sortedIndex(y)
+	step := medianStep(axis, ax)
+	img := image.NewRGBA(image.Rect(0, 0, W, H))
+	for px := 0; px < W; px++ {
+		f := (float64(px) + 0.5) / W
+		xv := xlo + f*(xhi-xlo)
+		if reversed {
+			xv = xhi - f*(xhi-xlo)
+		}
+		j := nearest(axis, ax, xv)
+		gap := step > 0 && math.Abs(axis[j]-xv) > 1.5*step
+		for py := 0; py < H; py++ {
+			yv := yhi - (float64(py)+0.5)/H*(yhi-ylo)
+			i := nearest(y, yi, yv)
+			c := gapGrey
+			if !gap {
+				c = colour(rows[i][j])
+			}
+			img.SetRGBA(px, py, c)
+		}
+	}
+	return img, [4]float64{xlo, xhi, ylo, yhi}
+}
+
+func sortedIndex(v []float64) []int {
+	idx := make([]int, len(v))
+	for i := range idx {
+		idx[i] = i
+	}
+	sort.SliceStable(idx, func(a, b int) bool { return v[idx[a]] < v[idx[b]] })
+	return idx
+}
+
+func nearest(v []float64, idx []int, x float64) int {
+	k := sort.Search(len(idx), func(i int) bool { return v[idx[i]] >= x })
+	best := -1
+	for _, c := range []int{k - 1, k} {
+		if c >= 0 && c < len(idx) && (best < 0 || math.Abs(v[idx[c]]-x) < math.Abs(v[best]-x)) {
+			best = idx[c]
+		}
+	}
+	if best < 0 {
+		return 0
+	}
+	return best
+}
+
+func medianStep(v []float64, idx []int) float64 {
+	if len(idx) < 2 {
+		return 0
+	}
+	d := make([]float64, 0, len(idx)-1)
+	for i := 1; i < len(idx); i++ {
+		d = append(d, v[idx[i]]-v[idx[i-1]])
+	}
+	sort.Float64s(d)
+	return d[len(d)/2]
+}
+
+// colourBar is a narrow plot showing the diverging scale from −lim to lim.
+func colourBar(lim float64, label string) *plot.Plot {
+	const H = 256
+	img := image.NewRGBA(image.Rect(0, 0, 1, H))
+	for py := 0; py < H; py++ {
+		f := 1 - (float64(py)+0.5)/H
+		img.SetRGBA(0, py, ramp(divergingRamp, f))
+	}
+	p := plot.New()
+	p.HideX()
+	p.Y.Label.Text = label
+	p.Y.Label.TextStyle.Font = font.From(sans, 10)
+	p.Y.Tick.Label.Font = font.From(sans, 9)
+	p.Y.Tick.Marker = plot.TickerFunc(func(min, max float64) []plot.Tick {
+		return []plot.Tick{{Value: -lim, Label: tickLabel(-lim)}, {Value: 0, Label: "0"}, {Value: lim, Label: tickLabel(lim)}}
+	})
+	p.Add(raster{img: img, xmin: 0, xmax: 1, ymin: -lim, ymax: lim})
+	return p
+}
+
+func tickLabel(v float64) string { return trimFloat(v, 2) }
+
+// trimFloat formats with the given significant digits, plainly.
+func trimFloat(v float64, digits int) string {
+	if !finite(v) {
+		return "–"
+	}
+	if v == 0 {
+		return "0"
+	}
+	s := fmt.Sprintf("%.*g", digits, v)
+	if strings.Contains(s, "e") {
+		m, e, _ := strings.Cut(s, "e")
+		exp := strings.TrimLeft(strings.TrimPrefix(e, "+"), "0")
+		if strings.HasPrefix(e, "-") {
+			exp = "-" + strings.TrimLeft(e[1:], "0")
+		}
+		return m + "×10" + superscript(exp)
+	}
+	return s
+}
+
+func superscript(s string) string {
+	r := strings.NewReplacer("-", "⁻", "0", "⁰", "1", "¹", "2", "²", "3", "³", "4", "⁴", "5", "⁵", "6", "⁶", "7", "⁷", "8", "⁸", "9", "⁹")
+	return r.Replace(s)
+}
+
+// niceTicks labels about six round values (1, 2, 2.5 or 5 × 10ⁿ apart)
+// with unlabelled ticks between them: denser than gonum's default three,
+// so band positions can be read off the axis.
+type niceTicks struct{}
+
+func (niceTicks) Ticks(lo, hi float64) []plot.Tick {
+	if !(hi > lo) || !finite(lo) || !finite(hi) {
+		return []plot.Tick{{Value: lo, Label: trimFloat(lo, 4)}}
+	}
+	raw := (hi - lo) / 6
+	mag := math.Pow(10, math.Floor(math.Log10(raw)))
+	step := mag
+	for _, m := range []float64{1, 2, 2.5, 5, 10} {
+		if m*mag >= raw {
+			step = m * mag
+			break
+		}
+	}
+	minor := step / 2
+	if step/mag == 2.5 || step/mag == 5 {
+		minor = step / 5
+	}
+	var ticks []plot.Tick
+	start := math.Ceil(lo/minor-1e-9) * minor
+	for i := 0; ; i++ {
+		v := start + float64(i)*minor
+		if v > hi+1e-9*step {
+			break
+		}
+		// Snap round-off so 0.30000000000000004 prints as 0.3.
+		v = math.Round(v/minor) * minor
+		t := plot.Tick{Value: v}
+		if r := v / step; math.Abs(r-math.Round(r)) < 1e-6 {
+			t.Label = tickText(v, step)
+		}
+		ticks = append(ticks, t)
+	}
+	return ticks
+}
+
+// tickText prints v with just the decimals step needs.
+func tickText(v, step float64) string {
+	if math.Abs(v) < step*1e-9 {
+		return "0"
+	}
+	if math.Abs(v) >= 1e5 || math.Abs(v) < 1e-3 {
+		return trimFloat(v, 3)
+	}
+	dec := 0
+	for s := step; s < 1-1e-9 && dec < 8; s *= 10 {
+		dec++
+	}
+	if step/math.Pow(10, -float64(dec)) == 2.5 {
+		dec++
+	}
+	return strconv.FormatFloat(v, 'f', dec, 64)
+}

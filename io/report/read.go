@@ -1,0 +1,322 @@
+package report
+
+import (
+	"bytes"
+	"encoding/csv"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"sort"
+	"strconv"
+	"strings"
+)
+
+// Folder is what an output folder holds, read back from its files. Every
+// file but summary.json is optional: a figure whose file is missing or
+// unreadable is left out and the reason is listed in Problems.
+type Folder struct {
+	Files      []string // names in the folder, sorted (report.html excluded)
+	Summary    *Summary
+	SummaryRaw map[string]json.RawMessage // every key, for the ones Summary does not know
+	Spectra    *Table                     // spectra.csv
+	Profiles   *Table                     // profiles.csv
+	Singular   *Table                     // singular_values.csv
+	Rank       *Table                     // rank.csv
+	Iterations *Table                     // iterations.csv
+	EFA        *Table                     // efa.csv
+	Bands      *Table                     // bands.csv
+	Kinetics   *Table                     // kinetics.csv
+	Intervals  *Table                     // intervals.csv (bootstrap), if a run wrote one
+	DemoCheck  *Table                     // demo_check.csv
+	Maps       *Maps                      // maps.csv
+	AsRun      *Text                      // as-run.*
+	Manifest   *Text                      // manifest.*
+	Problems   []string
+}
+
+// Text is a text file shown as it is.
+type Text struct {
+	Name string
+	Body string
+}
+
+// Summary is the part of summary.json the report interprets. Key names are
+// those of the public contract.
+type Summary struct {
+	Tool                     string      `json:"tool"`
+	RankEstimate             int         `json:"rank_estimate"`
+	Components               int         `json:"components"`
+	Mode                     string      `json:"mode"`
+	ModeReason               string      `json:"mode_reason"`
+	LackOfFitPercent         float64     `json:"lack_of_fit_percent"`
+	ExplainedVariancePercent float64     `json:"explained_variance_percent"`
+	NoiseLackOfFitPercent    float64     `json:"noise_lack_of_fit_percent"`
+	Iterations               int         `json:"iterations"`
+	Converged                bool        `json:"converged"`
+	NoiseSigma               float64     `json:"noise_sigma"`
+	NoiseSource              string      `json:"noise_source"`
+	NoiseEdge                float64     `json:"noise_edge"`
+	RankReason               string      `json:"rank_reason"`
+	RankCriteria             []Criterion `json:"rank_criteria"`
+	DifferenceRank           *int        `json:"difference_rank_estimate"`
+	SVDMethod                string      `json:"svd_method"`
+	Compressed               bool        `json:"compressed_iterations"`
+	InitialEstimate          string      `json:"initial_estimate"`
+	Closure                  string      `json:"closure"`
+	Spectra                  int         `json:"spectra"`
+	Points                   int         `json:"points"`
+	Axis                     string      `json:"axis"`
+	Experiments              []string    `json:"experiments"`
+	ComponentNames           []string    `json:"component_names"`
+	FeasibleBands            []Band      `json:"feasible_bands"`
+	Kinetics                 *Kinetics   `json:"kinetics"`
+	Advice                   []string    `json:"advice"`
+	Notes                    []string    `json:"notes"`
+	Warnings                 []string    `json:"warnings"`
+}
+
+// Criterion is one rank criterion's verdict.
+type Criterion struct {
+	Name     string `json:"name"`
+	Estimate int    `json:"estimate"`
+	Source   string `json:"source"`
+	Detail   string `json:"detail"`
+}
+
+// Band is one component's feasible band of signal contribution.
+type Band struct {
+	Component string  `json:"component"`
+	Min       float64 `json:"min"`
+	Max       float64 `json:"max"`
+}
+
+// Kinetics is the kinetic fit in summary.json.
+type Kinetics struct {
+	Model         string `json:"model"`
+	RateConstants []struct {
+		Step     string  `json:"step"`
+		K        float64 `json:"k_per_s"`
+		StdErr   float64 `json:"stderr_per_s"`
+		HalfLife float64 `json:"half_life_s"`
+	} `json:"rate_constants"`
+}
+
+// knownKeys are the summary keys the report presents in its own words;
+// any other key is listed as it is so new results still show.
+var knownKeys = map[string]bool{}
+
+func init() {
+	for _, k := range []string{"tool", "rank_estimate", "components", "mode", "mode_reason", "lack_of_fit_percent",
+		"explained_variance_percent", "noise_lack_of_fit_percent", "iterations", "converged", "noise_sigma",
+		"noise_source", "noise_edge", "rank_reason", "rank_criteria", "difference_rank_estimate", "svd_method",
+		"compressed_iterations", "initial_estimate", "closure", "spectra", "points", "axis", "experiments",
+		"component_names", "feasible_bands", "kinetics", "advice", "notes", "warnings"} {
+		knownKeys[k] = true
+	}
+}
+
+// Table is a CSV file: its header and each column, parsed as numbers where
+// the cell is one (NaN otherwise) and kept as text.
+type Table struct {
+	Name   string
+	Header []string
+	Text   [][]string // rows of cells
+}
+
+// Rows is the number of data rows.
+func (t *Table) Rows() int { return len(t.Text) }
+
+// Index returns the column named name (case-insensitive), −1 if none.
+func (t *Table) Index(name string) int {
+	for i, h := range t.Header {
+		if strings.EqualFold(strings.TrimSpace(h), name) {
+			return i
+		}
+	}
+	return -1
+}
+
+// Col returns column j as numbers; cells that are not numbers are NaN.
+func (t *Table) Col(j int) []float64 {
+	out := make([]float64, len(t.Text))
+	for i, r := range t.Text {
+		out[i] = math.NaN()
+		if j >= 0 && j < len(r) {
+			if v, err := strconv.ParseFloat(strings.TrimSpace(r[j]), 64); err == nil && !math.IsInf(v, 0) {
+				out[i] = v
+			}
+		}
+	}
+	return out
+}
+
+// Numeric says whether every cell of column j is a number.
+func (t *Table) Numeric(j int) bool {
+	if len(t.Text) == 0 {
+		return false
+	}
+	for _, v := range t.Col(j) {
+		if math.IsNaN(v) {
+			return false
+		}
+	}
+	return true
+}
+
+// Maps is maps.csv: a downsampled copy of the matrices the figures need
+// (the data matrix, the difference spectra, the residuals), one row per
+// kept time.
+type Maps struct {
+	Axis     []float64
+	Matrices map[string]*Matrix
+}
+
+// Matrix is one matrix of maps.csv.
+type Matrix struct {
+	Experiment []int
+	Times      []float64
+	Rows       [][]float64
+}
+
+// Load reads an output folder. Only a missing or unreadable summary.json is
+// an error: without it there is no result to report.
+func Load(dir string) (*Folder, error) {
+	ents, err := os.ReadDir(dir)
+	if err != nil {
+		return nil, fmt.Errorf("reading output folder: %w", err)
+	}
+	f := &Folder{}
+	for _, e := range ents {
+		if e.Type().IsRegular() && e.Name() != "report.html" && !strings.HasPrefix(e.Name(), ".") {
+			f.Files = append(f.Files, e.Name())
+		}
+	}
+	sort.Strings(f.Files)
+	b, err := os.ReadFile(filepath.Join(dir, "summary.json"))
+	if err != nil {
+		if errors.Is(err, os.ErrNotExist) {
+			return nil, fmt.Errorf("%s: has no summary.json, so it holds no bandsolve results to report", dir)
+		}
+		return nil, fmt.Errorf("reading summary: %w", err)
+	}
+	f.Summary = &Summary{}
+	if err := json.Unmarshal(b, f.Summary); err != nil {
+		return nil, fmt.Errorf("%s: summary.json is not valid: %w", dir, err)
+	}
+	if err := json.Unmarshal(b, &f.SummaryRaw); err != nil {
+		return nil, fmt.Errorf("%s: summary.json is not valid: %w", dir, err)
+	}
+	table := func(name string) *Table {
+		t, err := readTable(filepath.Join(dir, name))
+		if err != nil {
+			if !errors.Is(err, os.ErrNotExist) {
+				f.Problems = append(f.Problems, fmt.Sprintf("%s left out: %v", name, err))
+			}
+			return nil
+		}
+		t.Name = name
+		return t
+	}
+	f.Spectra = table("spectra.csv")
+	f.Profiles = table("profiles.csv")
+	f.Singular = table("singular_values.csv")
+	f.Rank = table("rank.csv")
+	f.Iterations = table("iterations.csv")
+	f.EFA = table("efa.csv")
+	f.Bands = table("bands.csv")
+	f.Kinetics = table("kinetics.csv")
+	f.Intervals = table("intervals.csv")
+	f.DemoCheck = table("demo_check.csv")
+	if m, err := readMaps(filepath.Join(dir, MapsFile)); err == nil {
+		f.Maps = m
+	} else if !errors.Is(err, os.ErrNotExist) {
+		f.Problems = append(f.Problems, fmt.Sprintf("%s left out: %v", MapsFile, err))
+	}
+	for _, name := range f.Files {
+		switch {
+		case f.AsRun == nil && strings.HasPrefix(name, "as-run."):
+			f.AsRun = readText(dir, name)
+		case f.Manifest == nil && strings.HasPrefix(name, "manifest."):
+			f.Manifest = readText(dir, name)
+		}
+	}
+	return f, nil
+}
+
+func readText(dir, name string) *Text {
+	b, err := os.ReadFile(filepath.Join(dir, name))
+	if err != nil {
+		return nil
+	}
+	return &Text{Name: name, Body: strings.ToValidUTF8(string(b), "\uFFFD")}
+}
+
+func readTable(path string) (*Table, error) {
+	b, err := os.ReadFile(path)
+	if err != nil {
+		return nil, err
+	}
+	r := csv.NewReader(bytes.NewReader(b))
+	r.FieldsPerRecord = -1
+	r.Comment = '#'
+	recs, err := r.ReadAll()
+	if err != nil {
+		return nil, fmt.Errorf("not a CSV table: %w", err)
+	}
+	if len(recs) == 0 {
+		return nil, fmt.Errorf("empty")
+	}
+	return &Table{Header: recs[0], Text: recs[1:]}, nil
+}
+
+// MapsFile is the name of the downsampled matrices file.
+const MapsFile = "maps.csv"
+
+// readMaps reads maps.csv: header matrix,experiment,time,<axis values…>.
+func readMaps(path string) (*Maps, error) {
+	t, err := readTable(path)
+	if err != nil {
+		return nil, err
+	}
+	if len(t.Header) < 4 || t.Header[0] != "matrix" || t.Header[1] != "experiment" || t.Header[2] != "time" {
+		return nil, fmt.Errorf("header should start matrix,experiment,time")
+	}
+	m := &Maps{Matrices: map[string]*Matrix{}}
+	for _, h := range t.Header[3:] {
+		v, err := strconv.ParseFloat(h, 64)
+		if err != nil {
+			return nil, fmt.Errorf("axis value %q in the header is not a number", h)
+		}
+		m.Axis = append(m.Axis, v)
+	}
+	for i, r := range t.Text {
+		if len(r) != len(t.Header) {
+			return nil, fmt.Errorf("line %d has %d cells, the header %d", i+2, len(r), len(t.Header))
+		}
+		mx := m.Matrices[r[0]]
+		if mx == nil {
+			mx = &Matrix{}
+			m.Matrices[r[0]] = mx
+		}
+		e, err1 := strconv.Atoi(r[1])
+		tm, err2 := strconv.ParseFloat(r[2], 64)
+		if err1 != nil || err2 != nil {
+			return nil, fmt.Errorf("line %d: experiment or time is not a number", i+2)
+		}
+		row := make([]float64, len(m.Axis))
+		for j := range row {
+			v, err := strconv.ParseFloat(r[3+j], 64)
+			if err != nil || math.IsInf(v, 0) {
+				v = math.NaN()
+			}
+			row[j] = v
+		}
+		mx.Experiment = append(mx.Experiment, e)
+		mx.Times = append(mx.Times, tm)
+		mx.Rows = append(mx.Rows, row)
+	}
+	return m, nil
+}
