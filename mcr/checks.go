@@ -1,0 +1,106 @@
+package mcr
+
+import "fmt"
+
+// ConstraintCheck is what one group of constraints costs in fit: the
+// resolution is repeated without it, from the constrained solution, and the
+// two lacks of fit compared. Starting from the constrained solution, ALS can
+// only lower the residual, so Without ≤ With up to the convergence
+// tolerance; a large gap says the data disagree with the constraint.
+type ConstraintCheck struct {
+	Name               string
+	With, Without      float64 // lack of fit %, with and without the constraint
+	ResidualSSWith     float64
+	ResidualSSWithout  float64
+	Iterations         int // of the refit
+	ComponentsAffected []int
+}
+
+// CheckConstraints refits without each active group of constraints in opt:
+// closure, non-negative spectra, non-negative profiles, unimodality, known
+// spectra, zero windows of profiles and of spectra. The mode's defaults of
+// non-negativity count as constraints. maxIter bounds each refit (0 = 200).
+func CheckConstraints(d Data, fit *Result, opt Options, maxIter int) ([]ConstraintCheck, error) {
+	if maxIter <= 0 {
+		maxIter = 200
+	}
+	_, k := fit.C.Dims()
+	opt.Observe = nil
+	opt.MaxIter = maxIter
+	type group struct {
+		name  string
+		drop  func(o *Options)
+		comps []int
+	}
+	var groups []group
+	if opt.Closure {
+		groups = append(groups, group{"closure", func(o *Options) { o.Closure = false }, nil})
+	}
+	nnS := boolsOr(opt.NonNegSpectra, k, opt.Mode == Species)
+	nnP := boolsOr(opt.NonNegProfiles, k, true)
+	if c := trueIndices(nnS); len(c) > 0 {
+		groups = append(groups, group{"non-negative spectra", func(o *Options) { o.NonNegSpectra = make([]bool, k) }, c})
+	}
+	if c := trueIndices(nnP); len(c) > 0 {
+		groups = append(groups, group{"non-negative profiles", func(o *Options) { o.NonNegProfiles = make([]bool, k) }, c})
+	}
+	if c := trueIndices(opt.Unimodal); len(c) > 0 {
+		groups = append(groups, group{"unimodal profiles", func(o *Options) { o.Unimodal = nil }, c})
+	}
+	var known []int
+	for j, s := range opt.KnownSpectra {
+		if s != nil {
+			known = append(known, j)
+		}
+	}
+	if len(known) > 0 {
+		groups = append(groups, group{"known spectra", func(o *Options) { o.KnownSpectra, o.KnownWeights = nil, nil }, known})
+	}
+	if c := anyMask(opt.ZeroProfiles); len(c) > 0 {
+		groups = append(groups, group{"zero windows of profiles", func(o *Options) { o.ZeroProfiles = nil }, c})
+	}
+	if c := anyMask(opt.ZeroSpectra); len(c) > 0 {
+		groups = append(groups, group{"zero windows of spectra", func(o *Options) { o.ZeroSpectra = nil }, c})
+	}
+	var out []ConstraintCheck
+	for _, g := range groups {
+		o := opt
+		g.drop(&o)
+		res, err := Resolve(d, fit.C, o)
+		if err != nil {
+			return out, fmt.Errorf("check without %s: %w", g.name, err)
+		}
+		cc := ConstraintCheck{Name: g.name, With: fit.LackOfFitPercent, Without: res.LackOfFitPercent,
+			ResidualSSWith: fit.ResidualSS, ResidualSSWithout: res.ResidualSS, Iterations: res.Iterations, ComponentsAffected: g.comps}
+		// A refit that did not get below the constrained fit (within the
+		// tolerance) means the constraint costs nothing.
+		if cc.ResidualSSWithout > cc.ResidualSSWith {
+			cc.ResidualSSWithout, cc.Without = cc.ResidualSSWith, cc.With
+		}
+		out = append(out, cc)
+	}
+	return out, nil
+}
+
+func trueIndices(b []bool) []int {
+	var out []int
+	for j, v := range b {
+		if v {
+			out = append(out, j)
+		}
+	}
+	return out
+}
+
+func anyMask(m [][]bool) []int {
+	var out []int
+	for j, row := range m {
+		for _, v := range row {
+			if v {
+				out = append(out, j)
+				break
+			}
+		}
+	}
+	return out
+}

@@ -1,0 +1,63 @@
+package mcr
+
+import (
+	"math"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Dilution: the sample is diluted by 30 % over the run, so c_A + c_B falls
+// from 1 to 0.7 and closure to a constant total is false for these data. The
+// refit without closure must fit to the noise-free level, the closed fit
+// must not (a model that cannot represent the data cannot fit it; Beer–
+// Lambert with c scaled by the dilution factor). Closure that holds costs
+// nothing.
+func TestClosureCheckSeesDilution(t *testing.T) {
+	n, m := 40, 50
+	build := func(dilute float64) *mat.Dense {
+		c := mat.NewDense(n, 2, nil)
+		for i := 0; i < n; i++ {
+			u := float64(i) / float64(n-1)
+			a := math.Exp(-3 * u)
+			f := 1 - dilute*u
+			c.SetRow(i, []float64{f * a, f * (1 - a)})
+		}
+		s := mat.NewDense(m, 2, nil)
+		for i := 0; i < m; i++ {
+			x := float64(i) / float64(m-1)
+			s.SetRow(i, []float64{bump(x, -0.1, 0.55), bump(x, 0.4, 1.1)})
+		}
+		var d mat.Dense
+		d.Mul(c, s.T())
+		return &d
+	}
+	c0 := mat.NewDense(n, 2, nil)
+	for i := 0; i < n; i++ {
+		u := float64(i) / float64(n-1)
+		c0.SetRow(i, []float64{1 - u, u})
+	}
+	opt := Options{Mode: Species, Closure: true, Total: []float64{1}}
+	for _, dil := range []float64{0, 0.3} {
+		d := build(dil)
+		fit, err := Resolve(Dense{d}, c0, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		checks, err := CheckConstraints(Dense{d}, fit, opt, 500)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(checks) != 3 || checks[0].Name != "closure" {
+			t.Fatalf("checks %+v: want closure, non-negative spectra, non-negative profiles", checks)
+		}
+		cl := checks[0]
+		t.Logf("dilution %.1f: lack of fit %.4g %% with closure, %.4g %% without", dil, cl.With, cl.Without)
+		switch {
+		case dil == 0 && cl.With > 1e-3:
+			t.Errorf("closure holds but the closed fit has lack of fit %.3g %%", cl.With)
+		case dil > 0 && (cl.With < 1 || cl.Without > 0.1):
+			t.Errorf("diluted: closure %.3g %% vs free %.3g %%; closure should be visibly worse", cl.With, cl.Without)
+		}
+	}
+}
