@@ -83,7 +83,9 @@ func NewStage(out string, force bool) (*Stage, error) {
 	if err != nil {
 		return nil, fmt.Errorf("%s: cannot create a staging folder: %w", out, err)
 	}
-	return &Stage{Final: clean, Dir: dir, Force: force}, nil
+	s := &Stage{Final: clean, Dir: dir, Force: force}
+	track(s)
+	return s, nil
 }
 
 // Path returns where a result file goes inside the staging folder.
@@ -102,11 +104,14 @@ func (s *Stage) Write(name string, data []byte) error {
 }
 
 // Abort removes the staging folder, leaving the output folder as it was.
-func (s *Stage) Abort() { os.RemoveAll(s.Dir) }
+func (s *Stage) Abort() { untrack(s); os.RemoveAll(s.Dir) }
 
 // Commit replaces the output folder by the staging folder. Earlier results
 // are moved aside first and deleted only once the new ones are in place.
 func (s *Stage) Commit() error {
+	committing.Lock()
+	defer committing.Unlock()
+	defer untrack(s)
 	var old string
 	if st, err := os.Stat(s.Final); err == nil && st.IsDir() {
 		ents, _ := os.ReadDir(s.Final)

@@ -56,6 +56,7 @@ func Execute(s *Settings, st Streams) (*Result, error) {
 type Extra func(stage *output.Stage) error
 
 func finish(r *Result, stage *output.Stage, extra Extra, st Streams) error {
+	r.Supplied = stage.Files()
 	if extra != nil {
 		if err := extra(stage); err != nil {
 			return err

@@ -103,6 +103,9 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 		if p == "" {
 			return nil, usage("--data is empty: give a matrix CSV, a folder of spectra or a JCAMP-DX file")
 		}
+		if err := needTimes(s, p); err != nil {
+			return nil, err
+		}
 		fmt.Fprintf(log, "reading %s\n", p)
 		ser, err := spectra.Load(s.Path(p), folder)
 		if err != nil {
@@ -199,10 +202,13 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 		if s.Pre >= n {
 			return nil, usage("--pre %d: %s has only %d spectra", s.Pre, ser.Source, n)
 		}
+		if refFile == "" && kind != spectra.Difference && refMean > n {
+			return nil, usage("--reference mean:%d: %s has only %d spectra; average at most %d", refMean, ser.Source, n, n)
+		}
 		as, err := spectra.Assemble(sub, spectra.AssembleOptions{Kind: kind, Blank: blank,
-			Reference: spectra.Reference{Mean: refMean, File: refSpec}})
+			Reference: spectra.Reference{Mean: refMean, File: refSpec}, BlankSource: s.Blank})
 		if err != nil {
-			return nil, fmt.Errorf("%s: %w", ser.Source, err)
+			return nil, inputContext(ser.Source, err)
 		}
 		e := &Experiment{Source: s.Data[ei], Series: sub, Assembled: as, FirstRow: row, Rows: n, RefRows: as.ReferenceRows}
 		e.T0 = sub.Times[0]
@@ -217,6 +223,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 		}
 		r.Experiments = append(r.Experiments, e)
 		r.Notes = append(r.Notes, as.Notes...)
+		r.Warnings = append(r.Warnings, as.Warnings...)
 		for i := 0; i < n; i++ {
 			r.Times = append(r.Times, sub.Times[i])
 			r.ExpOfRow = append(r.ExpOfRow, len(r.Experiments)-1)
@@ -419,9 +426,17 @@ func resolve(r *Result, log io.Writer) error {
 		data = mcr.Compressed{U: sliceCols(r.Factors.U, rr), Sigma: r.Factors.S[:rr], V: sliceCols(r.Factors.V, rr), FrobSq: r.Factors.FrobeniusSq}
 		r.Compressed = true
 	}
+	if opt.Closure {
+		if err := checkClosureRows(r); err != nil {
+			return err
+		}
+	}
 	fmt.Fprintf(log, "resolving %d component(s)\n", k)
 	res, err := mcr.Resolve(data, c0, opt)
 	if err != nil {
+		return explainResolveError(r, err)
+	}
+	if err := checkFinite(res); err != nil {
 		return err
 	}
 	if r.Mode == mcr.Reactions {
@@ -449,6 +464,7 @@ func resolve(r *Result, log io.Writer) error {
 		}
 	}
 	r.Warnings = append(r.Warnings, res.Warnings...)
+	r.Warnings = append(r.Warnings, componentWarnings(res)...)
 	prefix := "species"
 	if r.Mode == mcr.Reactions {
 		prefix = "reaction"
@@ -488,6 +504,9 @@ func initialProfiles(r *Result, k int) (*mat.Dense, string, error) {
 	case "purest", "":
 		idx, err := svd.Purest(r.D, k, 5, r.Mode == mcr.Reactions)
 		if err != nil {
+			if s.Components != "auto" {
+				return nil, "", usage("--components %d: %v; the data does not hold that many independent components (rank estimate %d): ask for fewer", k, err, r.Rank.Estimate)
+			}
 			return nil, "", fmt.Errorf("initial estimate: %w", err)
 		}
 		c := mat.NewDense(n, k, nil)
@@ -555,30 +574,31 @@ func addEFAWindows(r *Result, opt *mcr.Options) error {
 
 // readProfiles reads an initial profiles CSV (time, one column per component).
 func readProfiles(path string, times []float64, k int) (*mat.Dense, error) {
-	ser, err := spectra.ReadMatrixCSV(path)
+	p, err := spectra.ReadProfiles(path)
 	if err != nil {
 		return nil, err
 	}
-	// The profiles file is "time,c1,c2…": ReadMatrixCSV reads it transposed,
-	// with times as its axis and components as its columns.
-	if len(ser.Times) != k {
-		return nil, fmt.Errorf("%s: has %d profile columns, %d components are being resolved", path, len(ser.Times), k)
+	if len(p.Names) != k {
+		return nil, usage("--init %s: has %d profile columns, %d components are being resolved; give --components %d or one column per component", path, len(p.Names), k, len(p.Names))
 	}
 	c := mat.NewDense(len(times), k, nil)
 	for i, t := range times {
 		found := -1
-		for a, v := range ser.Axis {
+		for a, v := range p.Times {
 			if math.Abs(v-t) <= 1e-6*math.Max(1, math.Abs(t)) {
 				found = a
 				break
 			}
 		}
 		if found < 0 {
-			return nil, fmt.Errorf("%s: has no row for time %g s", path, t)
+			return nil, fmt.Errorf("%s: has no row for time %g s; add one row per spectrum's time", path, t)
 		}
 		for j := 0; j < k; j++ {
-			c.Set(i, j, ser.Values.At(j, found))
+			c.Set(i, j, p.Values.At(found, j))
 		}
+	}
+	if err := checkInitColumns(path, p.Names, c); err != nil {
+		return nil, err
 	}
 	return c, nil
 }

@@ -88,7 +88,7 @@ blank = "wavenumber,intensity\n" + "".join("%d,%.3f\n" % (x, 1000.0) for x in ax
 write("blank_good.csv", blank)
 write("bad_blank_short.csv", "wavenumber,intensity\n" + "".join("%d,%.3f\n" % (x, 1000.0) for x in axis[:7]))
 write("bad_blank_shifted.csv", "wavenumber,intensity\n" + "".join("%d,%.3f\n" % (x + 1, 1000.0) for x in axis))
-write("bad_blank_absorbance.csv", "wavenumber,absorbance\n" + "".join("%d,%.3f\n" % (x, -0.01 * i) for i, x in enumerate(axis)))
+write("bad_blank_absorbance.csv", "wavenumber,absorbance\n" + "".join("%d,%.3f\n" % (x, -0.01 * (i + 1)) for i, x in enumerate(axis)))
 # second experiment on another axis
 write("bad_other_axis.csv", matrix(axis=[x + 0.5 for x in axis]))
 # absorbance with all-zero rows before anything is present (closure cannot hold)

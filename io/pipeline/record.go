@@ -1,0 +1,389 @@
+package pipeline
+
+import (
+	"crypto/sha256"
+	"encoding/hex"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"runtime"
+	"strings"
+	"time"
+
+	"github.com/bandsolve/bandsolve/io/cmdfile"
+	"github.com/bandsolve/bandsolve/io/output"
+)
+
+// Names of the reproducibility files in an output folder.
+const (
+	// CommandExt is the ending of bandsolve command files.
+	CommandExt = ".bsr"
+	// RecordName is the as-run record: a complete command file.
+	RecordName = "as-run" + CommandExt
+	// ManifestName holds what the record cannot: tool and platform, start
+	// time and the inputs' SHA-256. It is the one file verify does not
+	// compare, because its start time differs on every run.
+	ManifestName = "manifest.json"
+)
+
+// pathOptions are the settings whose values name files, with the words
+// that name a choice instead (more come from the option's placeholder, as
+// "auto|purest|efa|FILE" gives auto, purest and efa).
+var pathOptions = map[string]cmdfile.Keyword{
+	"data":      {Path: cmdfile.ReadPath},
+	"blank":     {Path: cmdfile.ReadPath},
+	"times":     {Path: cmdfile.ReadPath},
+	"reference": {Path: cmdfile.ReadPath, Words: []string{"first", "mean:"}},
+	"init":      {Path: cmdfile.ReadPath, Words: []string{"auto", "purest", "efa"}},
+	"out":       {Path: cmdfile.WritePath},
+}
+
+func keyword(o Option) cmdfile.Keyword {
+	k := pathOptions[o.Name]
+	k.Name, k.Multi, k.Switch = o.Name, o.Multi, o.IsSwitch()
+	k.Words = append([]string(nil), k.Words...)
+	if k.Path != cmdfile.NotPath && strings.Contains(o.Value, "|") {
+		for _, w := range strings.Split(o.Value, "|") {
+			if w != "" && w != strings.ToUpper(w) {
+				k.Words = append(k.Words, w)
+			}
+		}
+	}
+	return k
+}
+
+// Keywords is the command-file vocabulary: every option of Options().
+func Keywords() []cmdfile.Keyword {
+	var ks []cmdfile.Keyword
+	for _, o := range Options() {
+		ks = append(ks, keyword(o))
+	}
+	return ks
+}
+
+// IsPath says whether value, given to option name, names a file or folder
+// (and so is taken relative to a folder).
+func IsPath(name, value string) bool {
+	o, ok := Lookup(name)
+	if !ok || value == "" {
+		return false
+	}
+	k := keyword(o)
+	if k.Path == cmdfile.NotPath {
+		return false
+	}
+	for _, w := range k.Words {
+		if value == w || (strings.HasSuffix(w, ":") && strings.HasPrefix(value, w)) {
+			return false
+		}
+	}
+	return true
+}
+
+// LoadCommandFile applies the command file at path to s: s.Dir becomes the
+// folder its relative paths are taken from. Settings named in skip are left
+// alone (the command line gives them). An empty value of a repeatable
+// setting stands for none.
+func LoadCommandFile(path string, s *Settings, skip map[string]bool) (*cmdfile.File, error) {
+	f, err := cmdfile.ReadFile(path, Keywords())
+	if err != nil {
+		return nil, err
+	}
+	s.Dir = f.Dir(filepath.Dir(path))
+	err = f.Apply(func(e cmdfile.Entry) error {
+		if skip[e.Key] {
+			return nil
+		}
+		if o, _ := Lookup(e.Key); o.Multi && e.Value == "" {
+			return nil
+		}
+		if err := s.Set(e.Key, e.Value); err != nil {
+			// Set names the option; the place is enough here.
+			return errors.New(strings.TrimPrefix(err.Error(), e.Key+": "))
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	return f, nil
+}
+
+func init() {
+	afterWrite = append(afterWrite, writeRecord)
+}
+
+// folders works out, for a run being written into stage, the output folder
+// and the folder relative paths were taken from, both absolute. A settings
+// folder that is the staging folder itself (the demo reads its inputs from
+// the stage) stands for the output folder, which the stage becomes.
+func folders(s *Settings, stage *output.Stage) (out, base string, err error) {
+	if out, err = filepath.Abs(stage.Final); err != nil {
+		return "", "", err
+	}
+	dir := s.Dir
+	if dir == "" {
+		dir = "."
+	}
+	if base, err = filepath.Abs(dir); err != nil {
+		return "", "", err
+	}
+	if sd, err := filepath.Abs(stage.Dir); err == nil {
+		if rel, err := filepath.Rel(sd, base); err == nil && !escapes(rel) {
+			base = filepath.Join(out, rel)
+		}
+	}
+	return out, base, nil
+}
+
+func escapes(rel string) bool {
+	return rel == ".." || strings.HasPrefix(rel, ".."+string(filepath.Separator)) || filepath.IsAbs(rel)
+}
+
+// relSlash is target relative to from, with forward slashes so that a
+// record reads the same on every system; absolute when no relative path
+// exists (another drive).
+func relSlash(from, target string) string {
+	rel, err := filepath.Rel(from, target)
+	if err != nil {
+		return filepath.ToSlash(target)
+	}
+	return filepath.ToSlash(rel)
+}
+
+// writeRecord writes the as-run record and the manifest.
+func writeRecord(r *Result, stage *output.Stage) error {
+	s := r.Settings
+	out, base, err := folders(s, stage)
+	if err != nil {
+		return fmt.Errorf("as-run record: %w", err)
+	}
+	rec, err := Record(r, relSlash(out, base))
+	if err != nil {
+		return fmt.Errorf("as-run record: %w", err)
+	}
+	if err := stage.Write(RecordName, rec); err != nil {
+		return err
+	}
+	m, err := makeManifest(r, stage, out, base)
+	if err != nil {
+		return err
+	}
+	b, err := json.MarshalIndent(m, "", "  ")
+	if err != nil {
+		return fmt.Errorf("manifest: %w", err)
+	}
+	return stage.Write(ManifestName, append(b, '\n'))
+}
+
+// Record renders the settings of r as a complete command file, every
+// default written out, with relative paths taken from pathsFrom (relative
+// to the folder the record is stored in). Only deterministic content goes
+// in: the record is compared byte for byte by verify.
+func Record(r *Result, pathsFrom string) ([]byte, error) {
+	s := r.Settings
+	w := &cmdfile.Writer{Width: 17}
+	w.Comment("bandsolve as-run record: every setting of the run, defaults included.",
+		"Rerun it:   bandsolve run "+RecordName+" --out NEW_FOLDER",
+		"Check it:   bandsolve verify THIS_FOLDER   (inputs' SHA-256 are in "+ManifestName+")",
+		"Syntax: one 'keyword value' per line; see docs/command-files.md.",
+		"Not recorded, as they do not change results: out, force, quiet, json.")
+	w.Blank()
+	if pathsFrom != "" && pathsFrom != "." {
+		w.Comment("Relative paths below are taken from this folder (relative to this file's folder).")
+		if err := w.Set(cmdfile.PathsFrom, pathsFrom, ""); err != nil {
+			return nil, err
+		}
+		w.Blank()
+	}
+	for _, o := range Options() {
+		if !o.Record {
+			continue
+		}
+		vals := s.Get(o.Name)
+		note := ""
+		switch o.Name {
+		case "kind":
+			// The kind Run settled on, so that a rerun needs no guess; no
+			// note, so that the record of a rerun is this record again.
+			if len(vals) == 1 && vals[0] == "" {
+				vals = []string{effectiveKind(r)}
+			}
+		case "components":
+			if len(vals) == 1 && vals[0] == "auto" {
+				note = fmt.Sprintf("the rank estimate gave %d", r.Components)
+			}
+		case "t0":
+			if len(vals) == 1 && vals[0] == "" {
+				note = "empty: the time of the reference spectrum"
+			}
+		}
+		if len(vals) == 0 {
+			vals, note = []string{""}, "none"
+		} else if len(vals) == 1 && vals[0] == "" && note == "" {
+			note = "not given"
+		}
+		for _, v := range vals {
+			if err := w.Set(o.Name, v, note); err != nil {
+				return nil, err
+			}
+		}
+	}
+	return w.Bytes(), nil
+}
+
+// effectiveKind is the kind Run used when none was given.
+func effectiveKind(r *Result) string {
+	if len(r.Experiments) > 0 && r.Experiments[0].Series != nil && r.Experiments[0].Series.Kind != "" {
+		return r.Experiments[0].Series.Kind
+	}
+	return "single-beam"
+}
+
+// Manifest is manifest.json. What differs legitimately from one machine or
+// one run to the next (start time, platform, build) sits in Started and
+// Host, which a report leaves out; verify compares no part of this file.
+type Manifest struct {
+	Tool    string `json:"tool"`
+	Version string `json:"version"`
+	Record  string `json:"record"`
+	Seed    uint64 `json:"seed"`
+	Started string `json:"started"`
+	Host    Host   `json:"host"`
+	// Inputs are every file the analysis read, relative to the output folder.
+	Inputs []InputFile `json:"inputs"`
+	// Supplied are files the command put into the folder before the
+	// results (the demo's data and its check against the truth); verify
+	// checks them and puts them into its rerun, as a report may read them.
+	Supplied []InputFile `json:"supplied"`
+	Note     string      `json:"note"`
+}
+
+// Host is what ran the analysis: the bandsolve build and the platform.
+type Host struct {
+	Commit    string `json:"commit"`
+	GoVersion string `json:"go_version"`
+	OS        string `json:"os"`
+	Arch      string `json:"arch"`
+}
+
+// InputFile is one input's fingerprint.
+type InputFile struct {
+	Path   string `json:"path"`
+	Bytes  int64  `json:"bytes"`
+	SHA256 string `json:"sha256"`
+}
+
+func makeManifest(r *Result, stage *output.Stage, out, base string) (*Manifest, error) {
+	s := r.Settings
+	started := r.Started
+	if started.IsZero() {
+		started = time.Now()
+	}
+	m := &Manifest{Tool: "bandsolve", Version: Version, Record: RecordName, Seed: s.Seed,
+		Started: started.UTC().Format(time.RFC3339),
+		Host:    Host{Commit: Commit(), GoVersion: runtime.Version(), OS: runtime.GOOS, Arch: runtime.GOARCH},
+		Note: "bandsolve verify compares every file of this folder byte for byte except this manifest and the " +
+			"inputs and supplied files listed here, whose SHA-256 it checks instead"}
+	sd, _ := filepath.Abs(stage.Dir)
+	seen := map[string]bool{}
+	list := &m.Inputs
+	add := func(p string) error {
+		abs, err := filepath.Abs(p)
+		if err != nil {
+			return err
+		}
+		// Inputs inside the stage (the demo's) are read from where they will be.
+		if rel, err := filepath.Rel(sd, abs); err == nil && !escapes(rel) {
+			abs = filepath.Join(out, rel)
+			p = filepath.Join(sd, rel)
+		}
+		name := relSlash(out, abs)
+		if seen[name] {
+			return nil
+		}
+		seen[name] = true
+		n, sum, err := HashFile(p)
+		if err != nil {
+			return fmt.Errorf("manifest: %w", err)
+		}
+		*list = append(*list, InputFile{Path: name, Bytes: n, SHA256: sum})
+		return nil
+	}
+	for i, d := range s.Data {
+		p := s.Path(d)
+		st, err := os.Stat(p)
+		if err != nil {
+			return nil, fmt.Errorf("manifest: %w", err)
+		}
+		if st.IsDir() && i < len(r.Experiments) && r.Experiments[i].Series != nil {
+			for _, f := range r.Experiments[i].Series.Names {
+				if err := add(f); err != nil {
+					return nil, err
+				}
+			}
+			continue
+		}
+		if err := add(p); err != nil {
+			return nil, err
+		}
+	}
+	for _, name := range []string{"blank", "times", "reference", "init"} {
+		for _, v := range s.Get(name) {
+			if IsPath(name, v) {
+				if err := add(s.Path(v)); err != nil {
+					return nil, err
+				}
+			}
+		}
+	}
+	// Supplied files are listed whether or not the analysis read them.
+	seen = map[string]bool{}
+	list = &m.Supplied
+	for _, f := range r.Supplied {
+		if err := add(filepath.Join(stage.Dir, f)); err != nil {
+			return nil, err
+		}
+	}
+	if m.Inputs == nil {
+		m.Inputs = []InputFile{}
+	}
+	if m.Supplied == nil {
+		m.Supplied = []InputFile{}
+	}
+	return m, nil
+}
+
+// HashFile returns a file's size and SHA-256 (hex).
+func HashFile(path string) (int64, string, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return 0, "", err
+	}
+	defer f.Close()
+	h := sha256.New()
+	n, err := io.Copy(h, f)
+	if err != nil {
+		return 0, "", fmt.Errorf("%s: %w", path, err)
+	}
+	return n, hex.EncodeToString(h.Sum(nil)), nil
+}
+
+// ReadManifest reads an output folder's manifest.json.
+func ReadManifest(dir string) (*Manifest, error) {
+	b, err := os.ReadFile(filepath.Join(dir, ManifestName))
+	if err != nil {
+		if errors.Is(err, os.ErrNotExist) {
+			return nil, fmt.Errorf("%s: has no %s; it is not a complete bandsolve output folder", dir, ManifestName)
+		}
+		return nil, err
+	}
+	var m Manifest
+	if err := json.Unmarshal(b, &m); err != nil {
+		return nil, fmt.Errorf("%s: %w", filepath.Join(dir, ManifestName), err)
+	}
+	return &m, nil
+}
