@@ -8,6 +8,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"time"
 
 	"github.com/bandsolve/bandsolve/io/spectra"
 	"github.com/bandsolve/bandsolve/mcr"
@@ -36,6 +37,8 @@ type Experiment struct {
 // Result holds everything an analysis computed.
 type Result struct {
 	Settings    *Settings
+	Started     time.Time // when Run began (for the manifest)
+	Supplied    []string  // files the command staged before the results (the demo's data)
 	Experiments []*Experiment
 	AxisName    string
 	Axis        []float64
@@ -82,7 +85,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	if err := checkKineticsSettings(s); err != nil {
 		return nil, err
 	}
-	r := &Result{Settings: s}
+	r := &Result{Settings: s, Started: time.Now()}
 	kind := spectra.Kind(s.Kind)
 	folder := spectra.FolderOptions{TimesFile: s.Path(s.Times), TimesFromName: s.TimesFromName, TimeUnit: s.TimeUnit, Resample: s.Resample}
 	if s.Times != "" {
