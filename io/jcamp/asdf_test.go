@@ -3,6 +3,9 @@ package jcamp
 import (
 	"errors"
 	"fmt"
+	"math"
+	"os"
+	"path/filepath"
 	"strings"
 	"testing"
 )
@@ -144,6 +147,86 @@ func TestTokenResolution(t *testing.T) {
 		}
 		if r := toks[0].resolution(); r < c.want*(1-1e-12) || r > c.want*(1+1e-12) {
 			t.Errorf("%q: resolution %v, want %v", c.s, r, c.want)
+		}
+	}
+}
+
+// TestDamagedFixtures damages the cross-checked fixtures the way files get
+// damaged (a lost line, a wrong factor, truncation) and expects each check
+// to name the line.
+func TestDamagedFixtures(t *testing.T) {
+	read := func(name string) []string {
+		data, err := os.ReadFile(filepath.Join(fixtures, name))
+		if err != nil {
+			t.Fatal(err)
+		}
+		return strings.Split(string(data), "\n")
+	}
+	find := func(lines []string, prefix string) int {
+		for i, l := range lines {
+			if strings.HasPrefix(l, prefix) {
+				return i
+			}
+		}
+		t.Fatalf("no line starting %q", prefix)
+		return -1
+	}
+	dropLine := func(lines []string, i int) string {
+		return strings.Join(append(append([]string{}, lines[:i]...), lines[i+1:]...), "\n")
+	}
+	dif := read("ir_dif.jdx")
+	d0 := find(dif, "##XYDATA=")
+	affn := read("ir_affn.jdx")
+	a0 := find(affn, "##XYDATA=")
+	yf := find(affn, "##YFACTOR=")
+	wrongFactor := append([]string{}, affn...)
+	wrongFactor[yf] = "##YFACTOR=0.0001"
+	difdup := read("ir_difdup.jdx")
+	for _, c := range []struct {
+		name, src string
+		line      int // 1-based
+		want      string
+	}{
+		// The fourth data line is dropped; the line that takes its place
+		// (1-based line d0+5) fails its check.
+		{"DIF line lost", dropLine(dif, d0+4), d0 + 5, "Y check failed"},
+		{"AFFN line lost", dropLine(affn, a0+5), a0 + 6, "X check failed"},
+		{"wrong YFACTOR", strings.Join(wrongFactor, "\n"), a0 + 1, "FIRSTY="},
+		{"truncated", strings.Join(difdup[:len(difdup)/2], "\n"), len(difdup) / 2, "has no ##END="},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			_, err := Parse(strings.NewReader(c.src), "damaged.jdx")
+			want := fmt.Sprintf("damaged.jdx:%d: ", c.line)
+			if err == nil || !strings.HasPrefix(err.Error(), want) || !strings.Contains(err.Error(), c.want) {
+				t.Errorf("got %v, want %q…%q", err, want, c.want)
+			}
+		})
+	}
+}
+
+func TestLabelNumber(t *testing.T) {
+	// Numeric label values are single decimal numbers; the resolution is one
+	// unit in the last printed digit.
+	for _, c := range []struct {
+		s       string
+		v, res  float64
+		isValid bool
+	}{
+		{"1E1", 10, 10, true},
+		{" -7.5 ", -7.5, 0.1, true},
+		{"1.0E-03", 1e-3, 1e-4, true},
+		{"+4000", 4000, 1, true},
+		{".5", 0.5, 0.1, true},
+		{"0x1p3", 0, 0, false},
+		{"NaN", 0, 0, false},
+		{"1e999", 0, 0, false},
+		{"", 0, 0, false},
+		{"1 2", 0, 0, false},
+		{"1E", 0, 0, false},
+	} {
+		v, res, ok := labelNumber(c.s)
+		if ok != c.isValid || (ok && (v != c.v || math.Abs(res-c.res) > 1e-12*c.res)) {
+			t.Errorf("labelNumber(%q) = %v, %v, %v; want %v, %v, %v", c.s, v, res, ok, c.v, c.res, c.isValid)
 		}
 	}
 }

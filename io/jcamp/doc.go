@@ -1,7 +1,9 @@
 // Package jcamp reads and writes spectra in JCAMP-DX, the open text format
-// for spectra of the IUPAC (R. S. McDonald and P. A. Wilks, "JCAMP-DX: A
-// Standard Form for Exchange of Infrared Spectra in Computer Readable Form",
-// Appl. Spectrosc. 42 (1988) 151–162; revised as JCAMP-DX 4.24 and 5.01).
+// for spectra now kept by IUPAC, defined by R. S. McDonald and P. A. Wilks,
+// "JCAMP-DX: A Standard Form for Exchange of Infrared Spectra in Computer
+// Readable Form", Appl. Spectrosc. 42 (1988) 151–162 (version 4.24; later
+// files say 5.01). Page numbers and section details here are from memory;
+// the decoding was checked against an independent reader, see the tests.
 //
 // # Format
 //

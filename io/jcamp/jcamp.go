@@ -125,8 +125,9 @@ func ReadFile(path string) ([]Block, error) {
 // Parse reads every spectrum block (##XYDATA or ##XYPOINTS) of a JCAMP-DX
 // stream; a LINK file gives several. Blocks that hold only a peak table or
 // NTUPLES are skipped, and are an error when the input holds nothing else.
-// name is used in error messages, which have the form
-// "name:line: what is wrong; what to do".
+// name is used in error messages, which are *ParseError values of the form
+// "name:line: what is wrong; what to do". Reading stops at the first error:
+// a file whose checks fail gives no blocks at all.
 func Parse(r io.Reader, name string) ([]Block, error) {
 	p := &parser{name: name}
 	sc := bufio.NewScanner(r)
@@ -332,7 +333,7 @@ func (p *parser) label(t string) error {
 		if ob != nil {
 			ob.rec = recText // a nested block ends any record of the LINK block
 		}
-		ob = &openBlock{b: Block{Line: p.line}, lastText: -1, npoints: -1}
+		ob = &openBlock{b: Block{Title: value, Line: p.line}, lastText: -1, npoints: -1}
 		p.stack = append(p.stack, ob)
 	case ob == nil:
 		return p.errf(p.line, nil, "##%s= before any ##TITLE=; a block starts with ##TITLE=", name)
@@ -433,16 +434,57 @@ func (p *parser) numberRes(ob *openBlock, name string) (v, res float64, ok bool,
 		if l.Name != name {
 			continue
 		}
-		toks, terr := tokenize(l.Value, nil)
-		if terr != nil || len(toks) != 1 || toks[0].kind != tokAFFN {
-			return 0, 0, false, p.errf(l.Line, terr, "##%s=%s is not a number; write a plain decimal number", name, clip(l.Value))
+		lv, lres, good := labelNumber(l.Value)
+		if !good {
+			return 0, 0, false, p.errf(l.Line, nil, "##%s=%s is not a number; write a plain decimal number", name, clip(l.Value))
 		}
-		if ok && toks[0].v != v {
-			return 0, 0, false, p.errf(l.Line, nil, "##%s= given twice with different values (%v and %v); keep one", name, v, toks[0].v)
+		if ok && lv != v {
+			return 0, 0, false, p.errf(l.Line, nil, "##%s= given twice with different values (%v and %v); keep one", name, v, lv)
 		}
-		v, res, ok = toks[0].v, toks[0].resolution(), true
+		v, res, ok = lv, lres, true
 	}
 	return v, res, ok, nil
+}
+
+// labelNumber reads the value of a numeric label: one decimal number, with
+// an exponent signed or not (no SQZ ambiguity here), and its resolution.
+func labelNumber(s string) (v, res float64, ok bool) {
+	s = strings.TrimSpace(s)
+	i := 0
+	if i < len(s) && (s[i] == '+' || s[i] == '-') {
+		i++
+	}
+	end, dec := scanDigits(s, i)
+	if end == i || (end == i+1 && s[i] == '.') {
+		return 0, 0, false
+	}
+	exp := 0
+	if end < len(s) && (s[end] == 'E' || s[end] == 'e') {
+		j := end + 1
+		if j < len(s) && (s[j] == '+' || s[j] == '-') {
+			j++
+		}
+		k := j
+		for k < len(s) && isDigit(s[k]) {
+			k++
+		}
+		if k == j || k != len(s) {
+			return 0, 0, false
+		}
+		e, err := strconv.Atoi(s[end+1 : k])
+		if err != nil || e > 400 || e < -400 {
+			return 0, 0, false
+		}
+		exp, end = e, k
+	}
+	if end != len(s) {
+		return 0, 0, false
+	}
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil || math.IsInf(v, 0) || math.IsNaN(v) {
+		return 0, 0, false
+	}
+	return v, math.Pow10(exp - dec), true
 }
 
 func (p *parser) xyDataLine(ob *openBlock, t string) error {

@@ -124,8 +124,11 @@ func writeXYData(lw *lineWriter, b Block, dx, minY, maxY float64) {
 		k = int(math.Ceil(math.Log10(maxAbs))) - 9
 		k = max(k, -300) // keeps 10^k a normal number
 	}
+	// A signed exponent, as in data lines (see the package doc).
 	yfText := "1"
-	if k != 0 {
+	if k > 0 {
+		yfText = "1E+" + strconv.Itoa(k)
+	} else if k < 0 {
 		yfText = "1E" + strconv.Itoa(k)
 	}
 	// Parsing the text gives the very factor a reader will multiply by.
