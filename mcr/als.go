@@ -286,6 +286,8 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 	res := &Result{}
 	var s *mat.Dense
 	prev := math.Inf(1)
+	// Passive sets carried from one iteration to the next (warm start).
+	passS, passC := make([]uint64, m), make([]uint64, n)
 	for it := 1; it <= opt.MaxIter; it++ {
 		// Spectra step: Gram CᵀC, right-hand sides Cᵀ D.
 		g := gram(c)
@@ -293,7 +295,7 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		if softRef != nil {
 			g, b = softKnown(g, b, softRef, softW)
 		}
-		st, err := SolveMany(Problem{G: g, B: b, NonNeg: nnS, FixMask: knownMask, Fixed: knownS})
+		st, err := SolveMany(Problem{G: g, B: b, NonNeg: nnS, FixMask: knownMask, Fixed: knownS, Passive: passS})
 		if err != nil {
 			return nil, fmt.Errorf("resolve: spectra step, iteration %d: %w", it, err)
 		}
@@ -304,7 +306,7 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		// Profiles step: Gram SᵀS, right-hand sides Sᵀ Dᵀ.
 		ds := d.MulSpectra(s) // n × k
 		g = gram(s)
-		pr := Problem{G: g, B: transpose(ds), NonNeg: nnP, FixMask: zeroMask, Fixed: zerosKN}
+		pr := Problem{G: g, B: transpose(ds), NonNeg: nnP, FixMask: zeroMask, Fixed: zerosKN, Passive: passC}
 		if opt.Closure {
 			pr.Equality, pr.Total = eq, opt.Total
 		}

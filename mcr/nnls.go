@@ -128,6 +128,13 @@ type Problem struct {
 	// FixMask[j][c] is true (zero windows, known values).
 	FixMask [][]bool
 	Fixed   *mat.Dense
+	// Passive, if non-nil (length p), holds each column's final passive set
+	// on return and, when non-zero on entry, the set to try first. ALS
+	// passes the sets of the previous iteration: late in a resolution they
+	// rarely change, so most columns then need one solve instead of several
+	// active-set steps (warm start, as in Bro & De Jong 1997). The answer is
+	// the same unique minimiser either way (strictly convex problem).
+	Passive []uint64
 }
 
 // SolveMany solves every column of p by the primal active-set method,
@@ -427,6 +434,24 @@ func (s *solver) column(c int, x *mat.Dense) error {
 		}
 	}
 	passive := free
+	if s.p.Passive != nil && s.p.Passive[c]&free != 0 {
+		// Warm start: accept the previous passive set if its minimiser is
+		// feasible; the KKT check below decides whether it is optimal.
+		warm := s.p.Passive[c] & free
+		if z, _, err := s.solvePassive(warm, c, fv); err == nil {
+			feasible := true
+			for j := 0; j < k; j++ {
+				if warm&(1<<uint(j)) != 0 && s.nonneg(j) && z[j] < 0 {
+					feasible = false
+					break
+				}
+			}
+			if feasible {
+				copy(cur, z)
+				passive = warm
+			}
+		}
+	}
 	scale := 0.0
 	for j := 0; j < k; j++ {
 		scale = math.Max(scale, math.Abs(s.b[j]))
@@ -495,6 +520,9 @@ func (s *solver) column(c int, x *mat.Dense) error {
 		if best < 0 {
 			for j := 0; j < k; j++ {
 				x.Set(j, c, cur[j])
+			}
+			if s.p.Passive != nil {
+				s.p.Passive[c] = passive
 			}
 			return nil
 		}

@@ -1,0 +1,46 @@
+package mcr
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+)
+
+// A warm start from any passive sets must reach the same minimiser as a cold
+// start: the problem is strictly convex, so its KKT point is unique
+// (Lawson & Hanson 1974, ch. 23).
+func TestWarmStartSameMinimiser(t *testing.T) {
+	rng := rand.New(rand.NewPCG(21, 22))
+	for trial := 0; trial < 10; trial++ {
+		k := 2 + trial%5
+		_, g, b := randomProblem(rng, 25, k, 200)
+		for _, closure := range []bool{false, true} {
+			p := Problem{G: g, B: b}
+			if closure {
+				p.Equality, p.Total = ones(k), []float64{1}
+			}
+			cold, err := SolveMany(p)
+			if err != nil {
+				t.Fatal(err)
+			}
+			p.Passive = make([]uint64, 200)
+			for c := range p.Passive {
+				p.Passive[c] = rng.Uint64() & (1<<uint(k) - 1) // arbitrary, often wrong
+			}
+			warm, err := SolveMany(p)
+			if err != nil {
+				t.Fatal(err)
+			}
+			for c := 0; c < 200; c++ {
+				for j := 0; j < k; j++ {
+					if d := math.Abs(cold.At(j, c) - warm.At(j, c)); d > 1e-9*math.Max(1, math.Abs(cold.At(j, c))) {
+						t.Fatalf("trial %d column %d var %d: cold %v warm %v", trial, c, j, cold.At(j, c), warm.At(j, c))
+					}
+				}
+				if p.Passive[c] == 0 && cold.At(0, c) != 0 {
+					t.Fatalf("column %d: passive set not returned", c)
+				}
+			}
+		}
+	}
+}
