@@ -42,6 +42,7 @@ type Spectrum struct {
 	Values   []float64
 	Source   string
 	Kind     string
+	Title    string // JCAMP-DX ##TITLE, "" for other formats
 }
 
 // InputError is an error in a user's file, reported with its place.
@@ -504,10 +505,13 @@ func ReadSpectrumFile(path string) (*Spectrum, error) {
 	if err := checkAxis(path, axis, lineOf); err != nil {
 		return nil, err
 	}
-	if axisName == "" || strings.ContainsAny(axisName, "0123456789") {
-		axisName = guessAxisName(axis)
+	name := cleanAxisName(axisName, axis)
+	// A title with digits that names no known axis ("run 7") is not a
+	// column title; "Wavenumber (cm-1)" is, digits and all.
+	if name != "wavenumber" && name != "wavelength" && strings.ContainsAny(axisName, "0123456789") {
+		name = guessAxisName(axis)
 	}
-	return &Spectrum{AxisName: cleanAxisName(axisName, axis), Axis: axis, Values: vals, Source: path}, nil
+	return &Spectrum{AxisName: name, Axis: axis, Values: vals, Source: path}, nil
 }
 
 // cleanAxisName maps a column title such as "Wavenumber (cm-1)" to the
