@@ -642,6 +642,7 @@ func fitKinetics(r *Result, log io.Writer) error {
 		r.Warnings = append(r.Warnings, "kinetics: the fit of the data matrix failed: "+oneLineText(err.Error()))
 	} else {
 		kn.Fits = append(kn.Fits, &KineticFit{Method: "data", Fit: dfit, Spectra: spectra})
+		kn.swapCheck(r, dfit, dopt)
 	}
 	kn.Primary = 0
 	if s.KineticFit == "data" {
@@ -666,6 +667,50 @@ func fitKinetics(r *Result, log io.Writer) error {
 		}
 	}
 	return nil
+}
+
+// swapCheck refits the data with the rate constants of two free steps
+// exchanged. For consecutive first-order steps the model columns span the
+// same space either way (the slow–fast ambiguity), so with free spectra the
+// data cannot choose; a warning then says which choice was taken and why.
+// Only schemes with at most three free steps are checked (≤ 3 extra fits).
+func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, opt kinetics.FitOptions) {
+	var free []int
+	for j := range kn.Scheme.Steps {
+		if !kn.KFixed[j] {
+			free = append(free, j)
+		}
+	}
+	if len(free) < 2 || len(free) > 3 {
+		return
+	}
+	for a := 0; a < len(free); a++ {
+		for b := a + 1; b < len(free); b++ {
+			i, j := free[a], free[b]
+			if math.Abs(best.K[i]-best.K[j]) <= 0.01*math.Max(best.K[i], best.K[j]) {
+				continue
+			}
+			o := opt
+			o.InitialK = append([]float64(nil), best.K...)
+			o.InitialK[i], o.InitialK[j] = best.K[j], best.K[i]
+			alt, _, err := kinetics.FitData(kn.Scheme, r.Times, r.D, o)
+			if err != nil || alt.SSR > best.SSR*(1+1e-6) {
+				continue
+			}
+			same := true
+			for l := range alt.K {
+				same = same && math.Abs(alt.K[l]-best.K[l]) <= 0.01*best.K[l]
+			}
+			if same {
+				continue
+			}
+			var ks []string
+			for l, st := range kn.Scheme.Steps {
+				ks = append(ks, fmt.Sprintf("%s %.4g", st.Text, alt.K[l]))
+			}
+			best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell which of %q and %q is faster: k = %s fits equally well (slow–fast ambiguity, free spectra); the reported values are the ones the resolved profiles point to", kn.Scheme.Steps[i].Text, kn.Scheme.Steps[j].Text, strings.Join(ks, ", ")))
+		}
+	}
 }
 
 // lag1 is the lag-1 autocorrelation of the residuals down each column,

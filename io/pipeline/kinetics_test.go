@@ -140,6 +140,18 @@ func TestKineticsDemoSpeciesMode(t *testing.T) {
 		t.Errorf("the profile fit's residuals are systematic (its k2 is %.4g vs truth %g) but no warning says so", prof.Fit.K[1], truth.K2)
 	}
 
+	// Slow–fast ambiguity: in the Bateman solution b and c = 1 − a − b are
+	// combinations of 1, e^{−k1 t} and e^{−k2 t}, so with free spectra the
+	// swapped constants fit the data matrix exactly as well; the data fit
+	// must say so rather than pretend the data chose.
+	swapped := false
+	for _, w := range rep.Fit.Warnings {
+		swapped = swapped || strings.Contains(w, "cannot tell which of \"A -> B\" and \"B -> C\" is faster")
+	}
+	if !swapped {
+		t.Errorf("the data fit does not report the slow–fast ambiguity; warnings %q", rep.Fit.Warnings)
+	}
+
 	b, err := output.JSON(MakeSummary(r))
 	if err != nil {
 		t.Fatal(err)
