@@ -95,6 +95,7 @@ func leftovers(out string) []string {
 // badCase is one row of the table in docs/errors.md.
 type badCase struct {
 	name string
+	cmd  string // "resolve" unless given
 	// args with "B/" standing for testdata/bad/ and "W/" for the case's
 	// own scratch folder; --quiet and --out W/out are added.
 	args  []string
@@ -216,6 +217,12 @@ func badCases() []badCase {
 		{name: "missing data path", args: []string{"--data", "W/nothing.csv"}, code: 1, want: []string{"nothing.csv: cannot read: no such file or directory", "check the --data path"}},
 		{name: "axis differs between experiments", args: []string{"--data", "B/good.csv", "--data", "B/bad_other_axis.csv"}, code: 1, want: []string{"bad_other_axis.csv: its axis differs from", "good.csv", "--resample"}},
 		{name: "malformed JCAMP-DX record", args: []string{"--data", "B/bad_record.jdx"}, code: 1, want: []string{"bad_record.jdx"}},
+
+		// Command files: settings, so their faults are usage errors.
+		{name: "command file with a bad value", cmd: "run", args: []string{"B/bad_command.txt"}, code: 2, want: []string{"bad_command.txt:3:12:", `"three"`, "want auto or a whole number"}},
+		{name: "command file with a misspelt keyword", cmd: "run", args: []string{"W/misspelt.bsr"}, setup: func(t *testing.T, w string) {
+			writeFile(t, filepath.Join(w, "misspelt.bsr"), "# run 7\ndata "+filepath.Join(badDir, "good.csv")+"\nkindd single-beam\n")
+		}, code: 2, want: []string{"misspelt.bsr:3:1:", `unknown keyword "kindd"`, `did you mean "kind"?`}},
 
 		// Blanks.
 		{name: "blank of another length", args: []string{"--data", "B/good.csv", "--blank", "B/bad_blank_short.csv"}, code: 1, want: []string{"bad_blank_short.csv: has 7 axis points", "good.csv has 12", "--resample"}},
@@ -348,6 +355,15 @@ func badCases() []badCase {
 	}
 }
 
+func hasCommand(name string) bool {
+	for _, c := range commands {
+		if c.name == name {
+			return true
+		}
+	}
+	return false
+}
+
 var oneLineRe = regexp.MustCompile(`^bandsolve resolve: [^\n]+\n$`)
 
 func TestBadInputTable(t *testing.T) {
@@ -366,7 +382,14 @@ func TestBadInputTable(t *testing.T) {
 			if c.setup != nil {
 				c.setup(t, w)
 			}
-			args := append([]string{"resolve"}, expand(c.args, w)...)
+			cmd := c.cmd
+			if cmd == "" {
+				cmd = "resolve"
+			}
+			if !hasCommand(cmd) {
+				t.Skipf("no %q command in this build", cmd)
+			}
+			args := append([]string{cmd}, expand(c.args, w)...)
 			out := filepath.Join(w, "out")
 			hasOut := false
 			for i, a := range args {
@@ -389,8 +412,8 @@ func TestBadInputTable(t *testing.T) {
 			if r.code != c.code {
 				t.Errorf("exit code %d, want %d (stderr %q)", r.code, c.code, r.stderr)
 			}
-			if !oneLineRe.MatchString(r.stderr) {
-				t.Errorf("stderr is not exactly one 'bandsolve resolve: …' line: %q", r.stderr)
+			if !regexp.MustCompile(`^bandsolve ` + cmd + `: [^\n]+\n$`).MatchString(r.stderr) {
+				t.Errorf("stderr is not exactly one 'bandsolve %s: …' line: %q", cmd, r.stderr)
 			}
 			for _, s := range c.want {
 				if !strings.Contains(r.stderr, s) {
