@@ -114,6 +114,9 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 		if err != nil {
 			return nil, err
 		}
+		if err := spectra.CheckKind(kind, ser); err != nil {
+			return nil, usage("%v", err)
+		}
 		series = append(series, ser)
 	}
 	if kind == "" {

@@ -1,19 +1,223 @@
 package spectra
 
 import (
+	"errors"
+	"fmt"
+	"math"
 	"path/filepath"
+	"sort"
+	"strconv"
 	"strings"
+
+	"github.com/bandsolve/bandsolve/io/jcamp"
+	"gonum.org/v1/gonum/mat"
 )
+
+// JCAMP-DX input (IUPAC; McDonald & Wilks, Appl. Spectrosc. 42 (1988) 151),
+// parsed by io/jcamp. The ordinates' ##YUNITS give the kind of data:
+// absorbance is read as it is, transmittance T is converted to absorbance
+// A = −log10 T (IUPAC Gold Book, "absorbance"; percent transmittance is
+// divided by 100 first), and arbitrary units or counts are single beams.
 
 func isJCAMP(path string) bool {
 	e := strings.ToLower(filepath.Ext(path))
 	return e == ".jdx" || e == ".dx" || e == ".jcamp"
 }
 
+// readJCAMPSeries reads every spectrum block of a JCAMP-DX file (a LINK
+// file holds several).
 func readJCAMPSeries(path string) ([]*Spectrum, error) {
-	return nil, inputErr(path, 0, "export as CSV for now", "JCAMP-DX reading is not wired in yet")
+	blocks, err := jcamp.ReadFile(path)
+	if err != nil {
+		var pe *jcamp.ParseError
+		if errors.As(err, &pe) {
+			msg, hint, _ := strings.Cut(pe.Msg, "; ")
+			return nil, &InputError{File: path, Line: pe.Line, Msg: msg, Hint: hint}
+		}
+		return nil, inputErr(path, 0, "check the path and permissions", "cannot read: %v", unwrapPathErr(err))
+	}
+	out := make([]*Spectrum, 0, len(blocks))
+	for i, b := range blocks {
+		src := path
+		if len(blocks) > 1 {
+			src = fmt.Sprintf("%s block %d", path, i+1)
+		}
+		sp, err := blockSpectrum(path, src, b)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, sp)
+	}
+	return out, nil
 }
 
+func blockSpectrum(path, src string, b jcamp.Block) (*Spectrum, error) {
+	x := append([]float64(nil), b.X...)
+	y := append([]float64(nil), b.Y...)
+	if err := checkAxis(path, x, func(int) int { return b.Line }); err != nil {
+		return nil, err
+	}
+	kind := b.Kind()
+	if kind == "transmittance" {
+		scale := 1.0
+		u := strings.ToUpper(b.YUnits)
+		if strings.Contains(u, "%") || strings.Contains(u, "PERCENT") {
+			scale = 0.01
+		}
+		for i, t := range y {
+			t *= scale
+			if !(t > 0) {
+				return nil, inputErr(path, b.Line, "absorbance −log10 T needs T > 0: cut that range with --exclude LO:HI, or export absorbance",
+					"%s: transmittance %g at %g is not positive", blockName(b), y[i], x[i])
+			}
+			y[i] = -math.Log10(t)
+		}
+		kind = string(Absorbance)
+	}
+	return &Spectrum{AxisName: jcampAxisName(b.XUnits, x), Axis: x, Values: y, Source: src, Kind: kind, Title: b.Title}, nil
+}
+
+func blockName(b jcamp.Block) string {
+	if b.Title != "" {
+		return fmt.Sprintf("block %q", b.Title)
+	}
+	return fmt.Sprintf("block at line %d", b.Line)
+}
+
+// jcampAxisName maps ##XUNITS to the trade's axis names.
+func jcampAxisName(units string, x []float64) string {
+	u := strings.ToUpper(strings.ReplaceAll(units, " ", ""))
+	switch {
+	case u == "1/CM" || strings.Contains(u, "CM-1") || strings.Contains(u, "CM^-1") || strings.Contains(u, "WAVENUMBER"):
+		return "wavenumber"
+	case u == "NM" || u == "UM" || u == "MICROMETERS" || strings.Contains(u, "NANOMETER") || strings.Contains(u, "WAVELENGTH"):
+		return "wavelength"
+	case u == "":
+		return guessAxisName(x)
+	}
+	return cleanAxisName(strings.ToLower(units), x)
+}
+
+// seriesFromSpectra makes the series of one JCAMP-DX file. Several blocks
+// (a LINK file) need their times, as a folder does: from --times (rows
+// naming each block's ##TITLE) or from the last number in each ##TITLE.
+// A file with one spectrum takes its time from the table or the file name
+// when asked, else 0.
 func seriesFromSpectra(path string, sps []*Spectrum, opt FolderOptions) (*Series, error) {
-	return nil, inputErr(path, 0, "export as CSV for now", "JCAMP-DX reading is not wired in yet")
+	if len(sps) == 0 {
+		return nil, inputErr(path, 0, "export the spectra as ##XYDATA or ##XYPOINTS", "holds no spectrum")
+	}
+	// Messages are about path already: name blocks by number and title.
+	name := func(sp *Spectrum) string {
+		n := strings.TrimPrefix(sp.Source, path+" ")
+		if n == path {
+			n = "the spectrum"
+		}
+		if sp.Title != "" {
+			n += fmt.Sprintf(" (##TITLE=%s)", sp.Title)
+		}
+		return n
+	}
+	times := make([]float64, len(sps))
+	key := func(i int) string {
+		if len(sps) == 1 {
+			return filepath.Base(path)
+		}
+		return strings.TrimSpace(sps[i].Title)
+	}
+	switch {
+	case opt.TimesFile != "":
+		table, err := ReadTimes(opt.TimesFile)
+		if err != nil {
+			return nil, err
+		}
+		for i := range sps {
+			t, ok := table[key(i)]
+			if !ok && len(sps) == 1 {
+				t, ok = table[strings.TrimSpace(sps[i].Title)]
+			}
+			if !ok {
+				return nil, inputErr(opt.TimesFile, 0, "add a row whose file column is the block's ##TITLE", "has no time for %s", name(sps[i]))
+			}
+			times[i] = t
+		}
+	case opt.TimesFromName:
+		seen := map[float64]string{}
+		for i, sp := range sps {
+			t, err := timeFromTitle(sp.Title, opt.TimeUnit)
+			if len(sps) == 1 {
+				t, err = TimeFromName(path, opt.TimeUnit)
+			}
+			if err != nil {
+				return nil, inputErr(path, 0, "put each spectrum's time in its ##TITLE (e.g. scan 120 s), or give --times FILE", "%s: %v", name(sp), err)
+			}
+			if other, dup := seen[t]; dup {
+				return nil, inputErr(path, 0, "give each spectrum its own time, or use --times FILE", "%s has the same time %g s as %s", name(sp), t, other)
+			}
+			seen[t], times[i] = name(sp), t
+		}
+	case len(sps) > 1:
+		return nil, inputErr(path, 0, "give --times FILE (columns file,time_s; file = each block's ##TITLE) or --times-from-name (the last number in each ##TITLE)",
+			"holds %d spectra and needs their acquisition times", len(sps))
+	}
+	first := sps[0]
+	order := make([]int, len(sps))
+	for i := range order {
+		order[i] = i
+	}
+	sort.SliceStable(order, func(a, b int) bool { return times[order[a]] < times[order[b]] })
+	s := &Series{AxisName: first.AxisName, Axis: first.Axis, Source: path, Kind: first.Kind}
+	s.Values = mat.NewDense(len(sps), len(first.Axis), nil)
+	for r, i := range order {
+		sp := sps[i]
+		vals := sp.Values
+		if !sameAxis(sp.Axis, first.Axis) {
+			if !opt.Resample {
+				return nil, inputErr(path, 0, "use --resample to interpolate onto the first block's axis, or export every block on one axis", "%s: %s", name(sp), describeAxisMismatch(sp.Axis, first.Axis, name(first)))
+			}
+			var err error
+			if vals, err = Resample(sp.Axis, sp.Values, first.Axis); err != nil {
+				return nil, inputErr(path, 0, "export the spectra over overlapping ranges", "%s: cannot resample: %v", name(sp), err)
+			}
+		}
+		if sp.Kind != first.Kind {
+			return nil, inputErr(path, 0, "give blocks of one kind", "%s holds %s data, %s holds %s", name(sp), orUnknown(sp.Kind), name(first), orUnknown(first.Kind))
+		}
+		if r > 0 && times[i] == times[order[r-1]] {
+			return nil, inputErr(path, 0, "give each spectrum its own time", "%s has the same time %g s as %s", name(sp), times[i], name(sps[order[r-1]]))
+		}
+		s.Values.SetRow(r, vals)
+		s.Times = append(s.Times, times[i])
+		s.Names = append(s.Names, sp.Source)
+	}
+	return s, nil
+}
+
+// timeFromTitle is TimeFromName for a block's ##TITLE.
+func timeFromTitle(title, unit string) (float64, error) {
+	all := numberInName.FindAllString(title, -1)
+	if len(all) == 0 {
+		return 0, fmt.Errorf("no number in the ##TITLE %q", title)
+	}
+	v, err := strconv.ParseFloat(all[len(all)-1], 64)
+	if err != nil {
+		return 0, err
+	}
+	f, err := UnitFactor(unit)
+	if err != nil {
+		return 0, err
+	}
+	return v * f, nil
+}
+
+// CheckKind refuses a --kind that contradicts what a JCAMP-DX file says its
+// ordinates are. Only definite units count: absorbance (and transmittance,
+// read as absorbance) is not a single beam. Arbitrary units say nothing
+// certain (instruments export differences and absorbance in them too).
+func CheckKind(asked Kind, s *Series) error {
+	if asked == "" || s.Kind != string(Absorbance) || asked != SingleBeam {
+		return nil
+	}
+	return inputErr(s.Source, 0, "use --kind absorbance (or --kind difference if the spectra are already differences against a reference), or leave --kind out",
+		"its JCAMP-DX ##YUNITS say absorbance or transmittance (read as absorbance A = −log10 T), which contradicts --kind single-beam")
 }

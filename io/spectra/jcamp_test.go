@@ -1,0 +1,102 @@
+package spectra
+
+import (
+	"encoding/json"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+type expectedBlocks struct {
+	Blocks []struct {
+		Title  string    `json:"title"`
+		YUnits string    `json:"yUnits"`
+		X      []float64 `json:"x"`
+		Y      []float64 `json:"y"`
+	} `json:"blocks"`
+}
+
+func readExpected(t *testing.T, name string) expectedBlocks {
+	t.Helper()
+	b, err := os.ReadFile(filepath.Join("..", "..", "testdata", "jcamp", name+".expected.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var e expectedBlocks
+	if err := json.Unmarshal(b, &e); err != nil {
+		t.Fatal(err)
+	}
+	return e
+}
+
+// The stored fixtures, parsed once by jcampconverter 12.5.3 (npm; see
+// testdata/jcamp/gen.sh), read through the spectra readers.
+func TestReadSpectrumJCAMPAgainstJcampconverter(t *testing.T) {
+	for _, name := range []string{"ir_affn", "ir_pac", "ir_sqz", "ir_dif", "ir_difdup", "ir_xypoints"} {
+		t.Run(name, func(t *testing.T) {
+			want := readExpected(t, name).Blocks[0]
+			sp, err := ReadSpectrum(filepath.Join("..", "..", "testdata", "jcamp", name+".jdx"))
+			if err != nil {
+				t.Fatal(err)
+			}
+			if sp.AxisName != "wavenumber" {
+				t.Errorf("axis %q, want wavenumber (##XUNITS=1/CM)", sp.AxisName)
+			}
+			wantKind := "single-beam"
+			u := strings.ToUpper(want.YUnits)
+			if strings.Contains(u, "ABSORBANCE") {
+				wantKind = "absorbance"
+			}
+			if strings.Contains(u, "TRANSMITTANCE") {
+				// Read as absorbance: A = −log10 T (IUPAC Gold Book, "absorbance").
+				wantKind = "absorbance"
+				for i, v := range want.Y {
+					want.Y[i] = -math.Log10(v)
+				}
+			}
+			if sp.Kind != wantKind {
+				t.Errorf("kind %q, want %q (##YUNITS=%s)", sp.Kind, wantKind, want.YUnits)
+			}
+			if len(sp.Values) != len(want.Y) {
+				t.Fatalf("%d points, jcampconverter reads %d", len(sp.Values), len(want.Y))
+			}
+			for i := range want.Y {
+				if !nearly(sp.Axis[i], want.X[i]) || !nearly(sp.Values[i], want.Y[i]) {
+					t.Fatalf("point %d: (%v, %v), jcampconverter (%v, %v)", i, sp.Axis[i], sp.Values[i], want.X[i], want.Y[i])
+				}
+			}
+		})
+	}
+}
+
+func nearly(a, b float64) bool { return math.Abs(a-b) <= 1e-9*math.Max(1, math.Abs(b)) }
+
+func TestJCAMPSeriesErrors(t *testing.T) {
+	link := filepath.Join("..", "..", "testdata", "jcamp", "ir_link.jdx")
+	if _, err := Load(link, FolderOptions{}); err == nil || !strings.Contains(err.Error(), "needs their acquisition times") {
+		t.Errorf("LINK file without times: %v", err)
+	}
+	dir := t.TempDir()
+	times := filepath.Join(dir, "times.csv")
+	os.WriteFile(times, []byte("file,time_s\nbackground single beam,0\nsample single beam,10\nsample absorbance,20\n"), 0o644)
+	if _, err := Load(link, FolderOptions{TimesFile: times}); err == nil || !strings.Contains(err.Error(), "give blocks of one kind") {
+		t.Errorf("LINK file of mixed kinds: %v", err)
+	}
+	bad := filepath.Join(dir, "t.jdx")
+	os.WriteFile(bad, []byte("##TITLE=t\n##JCAMP-DX=4.24\n##XUNITS=1/CM\n##YUNITS=TRANSMITTANCE\n##XFACTOR=1\n##YFACTOR=1\n##FIRSTX=3\n##LASTX=1\n##NPOINTS=3\n##XYDATA=(X++(Y..Y))\n3 0.5 0 0.25\n##END=\n"), 0o644)
+	if _, err := ReadSpectrum(bad); err == nil || !strings.Contains(err.Error(), "transmittance 0 at 2 is not positive") {
+		t.Errorf("zero transmittance: %v", err)
+	}
+	pct := filepath.Join(dir, "p.jdx")
+	os.WriteFile(pct, []byte("##TITLE=p\n##JCAMP-DX=4.24\n##XUNITS=1/CM\n##YUNITS=% TRANSMITTANCE\n##XFACTOR=1\n##YFACTOR=1\n##FIRSTX=2\n##LASTX=1\n##NPOINTS=2\n##XYDATA=(X++(Y..Y))\n2 10 100\n##END=\n"), 0o644)
+	sp, err := ReadSpectrum(pct)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// 10 % transmittance is absorbance 1, 100 % is 0 (definition of absorbance).
+	if sp.Kind != "absorbance" || !nearly(sp.Values[0], 1) || sp.Values[1] != 0 {
+		t.Errorf("percent transmittance read as %v (%s), want [1 0] absorbance", sp.Values, sp.Kind)
+	}
+}
