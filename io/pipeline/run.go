@@ -68,6 +68,9 @@ type Result struct {
 	Warnings   []string
 	Notes      []string
 	Advice     []string
+	// Constraints: per-component constraints, their checks, feasible
+	// bands and bootstrap intervals (constraints.go).
+	Constraints *ConstraintReport
 }
 
 // Run carries out the analysis described by s. Progress lines go to log
@@ -426,6 +429,9 @@ func resolve(r *Result, log io.Writer) error {
 			return err
 		}
 	}
+	if err := applyConstraints(r, c0, &opt); err != nil {
+		return err
+	}
 	var data mcr.Data = mcr.Dense{D: r.D}
 	if n*m > 2_000_000 && len(r.Factors.S) >= k {
 		rr := min(len(r.Factors.S), k+8)
@@ -448,7 +454,13 @@ func resolve(r *Result, log io.Writer) error {
 	if r.Mode == mcr.Reactions {
 		scaleExtents(res.C, res.S)
 	}
-	order := orderComponents(r, res)
+	order := make([]int, k)
+	for j := range order {
+		order[j] = j
+	}
+	if !r.Constraints.FixedOrder {
+		order = orderComponents(r, res)
+	}
 	r.ALS = res
 	if s.Model != "" && s.HardModel {
 		// Hard–soft: the soft solution fixes the map, then ALS restarts from
@@ -481,7 +493,7 @@ func resolve(r *Result, log io.Writer) error {
 	if r.NoiseLOF > 0 && r.LackOfFit > 3*r.NoiseLOF && r.LackOfFit > 0.5 {
 		r.Warnings = append(r.Warnings, fmt.Sprintf("lack of fit %.3g %% is well above the %.3g %% noise alone would give: a component may be missing, or a constraint (closure?) does not hold for this data", r.LackOfFit, r.NoiseLOF))
 	}
-	return nil
+	return afterResolve(r, data, opt, log)
 }
 
 func sq(x float64) float64 { return x * x }

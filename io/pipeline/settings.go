@@ -56,6 +56,16 @@ type Settings struct {
 	Force         bool
 	Quiet         bool
 	JSON          bool
+
+	// Per-component constraints (see constraints.go, docs/constraints.md).
+	NonNeg            []string
+	Unimodal          []string
+	UnimodalTolerance float64
+	KnownSpectra      []string
+	ZeroWindows       []string
+	ZeroRegions       []string
+	ClosureWeights    string
+	Checks            string
 }
 
 // NewSettings returns the defaults.
@@ -68,6 +78,7 @@ func NewSettings() *Settings {
 		Closure:    "1",
 		KineticFit: "data",
 		Bands:      "on",
+		Checks:     "on",
 		Seed:       1,
 		Init:       "purest",
 		EFAWindows: "off",
@@ -274,11 +285,9 @@ var options = func() []Option {
 		return s12(s, v)
 	}, g12))
 	s13, g13 := str(func(s *Settings) *string { return &s.Closure })
-	add(opt("closure", "off|VALUE", "species mode: concentrations of every spectrum sum to VALUE (mass balance), or off", false, true, func(s *Settings, v string) error {
-		if v != "off" {
-			if x, err := strconv.ParseFloat(v, 64); err != nil || !(x > 0) || x > 1e300 {
-				return fmt.Errorf("%q: want off or a positive total", v)
-			}
+	add(opt("closure", "off|VALUE[,VALUE…]", "species mode: concentrations of every spectrum sum to VALUE (mass balance), one VALUE per experiment if they differ, or off", false, true, func(s *Settings, v string) error {
+		if _, err := parseTotals(v); err != nil {
+			return err
 		}
 		return s13(s, v)
 	}, g13))
@@ -309,6 +318,52 @@ var options = func() []Option {
 	add(opt("k-fixed", "1=4e-3", "rate constants held fixed, per step (number or text), in 1/s", false, true, sk5, gk5))
 	s18, g18 := choice(func(s *Settings) *string { return &s.Bands }, "on", "off")
 	add(opt("bands", "on|off", "compute feasible bands (rotational ambiguity) of each component", false, true, s18, g18))
+	sc1, gc1 := list(func(s *Settings) *[]string { return &s.NonNeg })
+	add(opt("nonneg", "COMPONENT=SIDE", "which side of a component is non-negative: both, profile, spectrum or none (COMPONENT is a number or all; repeatable)", true, true, func(s *Settings, v string) error {
+		if err := checkComponentSpec(checkSide)(s, v); err != nil {
+			return err
+		}
+		return sc1(s, v)
+	}, gc1))
+	sc2, gc2 := list(func(s *Settings) *[]string { return &s.Unimodal })
+	add(opt("unimodal", "COMPONENTS", "profiles with a single maximum, e.g. 2 or 1,3 or all (repeatable)", true, true, func(s *Settings, v string) error {
+		if _, err := componentList(v, 0); err != nil {
+			return err
+		}
+		return sc2(s, v)
+	}, gc2))
+	sc3, gc3 := number(func(s *Settings) *float64 { return &s.UnimodalTolerance }, func(x float64) bool { return x >= 0 && x < 1 }, "a fraction between 0 and 1")
+	add(opt("unimodal-tolerance", "T", "leave departures from unimodality smaller than T × the profile's maximum", false, true, sc3, gc3))
+	sc4, gc4 := list(func(s *Settings) *[]string { return &s.KnownSpectra })
+	add(opt("known-spectrum", "COMPONENT=FILE[:WEIGHT]", "fix a component's spectrum to a measured one (resampled onto the data axis); with WEIGHT a soft equality (repeatable)", true, true, func(s *Settings, v string) error {
+		if err := checkComponentSpec(checkKnown)(s, v); err != nil {
+			return err
+		}
+		return sc4(s, v)
+	}, gc4))
+	sc5, gc5 := list(func(s *Settings) *[]string { return &s.ZeroWindows })
+	add(opt("zero-window", "COMPONENT=T1:T2", "the component is absent between times T1 and T2 seconds, in every experiment (repeatable)", true, true, func(s *Settings, v string) error {
+		if err := checkComponentSpec(checkWindow)(s, v); err != nil {
+			return err
+		}
+		return sc5(s, v)
+	}, gc5))
+	sc6, gc6 := list(func(s *Settings) *[]string { return &s.ZeroRegions })
+	add(opt("zero-region", "COMPONENT=LO:HI", "the component does not absorb in this axis range (repeatable)", true, true, func(s *Settings, v string) error {
+		if err := checkComponentSpec(checkWindow)(s, v); err != nil {
+			return err
+		}
+		return sc6(s, v)
+	}, gc6))
+	sc7, gc7 := str(func(s *Settings) *string { return &s.ClosureWeights })
+	add(opt("closure-weights", "W1,W2,…", "stoichiometric closure Σ w_k c_k = total, one weight ≥ 0 per component", false, true, func(s *Settings, v string) error {
+		if _, err := parseWeights(v); err != nil {
+			return err
+		}
+		return sc7(s, v)
+	}, gc7))
+	sc8, gc8 := choice(func(s *Settings) *string { return &s.Checks }, "on", "off")
+	add(opt("checks", "on|off", "refit without each constraint to show what it costs in lack of fit", false, true, sc8, gc8))
 	s19, g19 := integer(func(s *Settings) *int { return &s.Replicates }, 0)
 	add(opt("replicates", "N", "resampled replicates for confidence intervals (0 = none)", false, true, s19, g19))
 	add(opt("seed", "S", "seed of every random choice (replicates, randomized SVD)", false, true, func(s *Settings, v string) error {

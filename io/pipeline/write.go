@@ -43,6 +43,13 @@ type Summary struct {
 	Advice                   []string        `json:"advice"`
 	Notes                    []string        `json:"notes"`
 	Warnings                 []string        `json:"warnings"`
+
+	// Constraints, their checks, the bands' note and the bootstrap
+	// (constraints.go; keys in docs/constraints.md).
+	BandsNote        string           `json:"feasible_bands_note,omitempty"`
+	Constraints      []string         `json:"constraints,omitempty"`
+	ConstraintChecks []ConstraintJSON `json:"constraint_checks,omitempty"`
+	Bootstrap        *BootstrapJSON   `json:"bootstrap,omitempty"`
 }
 
 // CriterionJSON is one rank criterion's verdict.
@@ -132,6 +139,7 @@ func MakeSummary(r *Result) *Summary {
 	for _, e := range r.Experiments {
 		s.Experiments = append(s.Experiments, e.Source)
 	}
+	constraintSummary(r, s)
 	for _, c := range r.Rank.Criteria {
 		s.RankCriteria = append(s.RankCriteria, CriterionJSON{Name: c.Name, Estimate: c.Estimate, Source: c.Source, Detail: c.Detail})
 	}
@@ -289,6 +297,10 @@ func PrintTable(r *Result, w io.Writer) {
 			fmt.Fprintf(w, "  %-12s profile max %.4g at t = %g s\n", name, mx, r.Times[at])
 		}
 	}
+	if r.Kinetics != nil {
+		printKinetics(r, w)
+	}
+	printConstraints(r, w)
 	if r.Kinetics != nil {
 		printKinetics(r, w)
 	}

@@ -1,0 +1,614 @@
+package pipeline
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"sort"
+	"strconv"
+	"strings"
+
+	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/io/spectra"
+	"github.com/bandsolve/bandsolve/mcr"
+	"gonum.org/v1/gonum/mat"
+)
+
+// ConstraintReport is what the per-component constraints, the checks, the
+// feasible bands and the bootstrap produced for one analysis.
+type ConstraintReport struct {
+	Options mcr.Options // as used by the resolution
+	// FixedOrder: per-component constraints name components by number, so
+	// the initial estimate is put in time order before ALS and the resolved
+	// order is kept (no reordering after ALS).
+	FixedOrder bool
+	Described  []string // one line per active constraint, in words
+	Checks     []mcr.ConstraintCheck
+	Bands      *mcr.BandsResult
+	BandsNote  string
+	Intervals  *mcr.Intervals
+	Level      float64
+}
+
+// Side names for --nonneg.
+const (
+	sideBoth     = "both"
+	sideProfile  = "profile"
+	sideSpectrum = "spectrum"
+	sideNone     = "none"
+)
+
+// componentSpec splits "COMPONENTS=REST" where COMPONENTS is "all" or a
+// comma list of 1-based component numbers.
+func componentSpec(v string, k int) ([]int, string, error) {
+	left, rest, ok := strings.Cut(v, "=")
+	if !ok {
+		return nil, "", fmt.Errorf("%q: want COMPONENT=VALUE, e.g. 2=%s", v, "…")
+	}
+	comps, err := componentList(left, k)
+	return comps, strings.TrimSpace(rest), err
+}
+
+func componentList(v string, k int) ([]int, error) {
+	v = strings.TrimSpace(v)
+	if v == "all" {
+		out := make([]int, k)
+		for j := range out {
+			out[j] = j
+		}
+		return out, nil
+	}
+	var out []int
+	for _, f := range strings.Split(v, ",") {
+		n, err := strconv.Atoi(strings.TrimSpace(f))
+		if err != nil || n < 1 {
+			return nil, fmt.Errorf("%q: components are numbered 1, 2, … or all", f)
+		}
+		if k > 0 && n > k {
+			return nil, fmt.Errorf("component %d: only %d components are being resolved", n, k)
+		}
+		out = append(out, n-1)
+	}
+	return out, nil
+}
+
+// checkComponentSpec validates a setting's syntax before the number of
+// components is known.
+func checkComponentSpec(value func(rest string) error) func(*Settings, string) error {
+	return func(_ *Settings, v string) error {
+		_, rest, err := componentSpec(v, 0)
+		if err != nil {
+			return err
+		}
+		return value(rest)
+	}
+}
+
+func checkSide(rest string) error {
+	switch rest {
+	case sideBoth, sideProfile, sideSpectrum, sideNone:
+		return nil
+	}
+	return fmt.Errorf("%q: the side is both, profile, spectrum or none", rest)
+}
+
+func checkKnown(rest string) error {
+	file, _, err := splitWeight(rest)
+	if file == "" {
+		return fmt.Errorf("%q: want FILE or FILE:WEIGHT", rest)
+	}
+	return err
+}
+
+// splitWeight reads FILE[:WEIGHT]; a colon followed by something that is
+// not a number belongs to the file name.
+func splitWeight(rest string) (string, float64, error) {
+	i := strings.LastIndex(rest, ":")
+	if i < 0 {
+		return rest, 0, nil
+	}
+	w, err := strconv.ParseFloat(rest[i+1:], 64)
+	if err != nil {
+		return rest, 0, nil
+	}
+	if !(w > 0) || w > 1e12 {
+		return rest[:i], 0, fmt.Errorf("weight %q: want a positive number (larger = closer to the reference)", rest[i+1:])
+	}
+	return rest[:i], w, nil
+}
+
+func checkWindow(rest string) error {
+	_, err := ParseRange(rest)
+	return err
+}
+
+// parseTotals reads the closure setting: off, one total, or one per
+// experiment separated by commas.
+func parseTotals(v string) ([]float64, error) {
+	if v == "off" {
+		return nil, nil
+	}
+	var out []float64
+	for _, f := range strings.Split(v, ",") {
+		x, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
+		if err != nil || !(x > 0) || x > 1e300 {
+			return nil, fmt.Errorf("%q: want off, a positive total, or one positive total per experiment (comma-separated)", v)
+		}
+		out = append(out, x)
+	}
+	return out, nil
+}
+
+func parseWeights(v string) ([]float64, error) {
+	if strings.TrimSpace(v) == "" {
+		return nil, nil
+	}
+	var out []float64
+	pos := false
+	for _, f := range strings.Split(v, ",") {
+		x, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
+		if err != nil || x < 0 || x > 1e300 {
+			return nil, fmt.Errorf("%q: want one weight ≥ 0 per component, comma-separated, e.g. 1,1,2", v)
+		}
+		pos = pos || x > 0
+		out = append(out, x)
+	}
+	if !pos {
+		return nil, fmt.Errorf("%q: at least one weight must be positive", v)
+	}
+	return out, nil
+}
+
+// hasComponentConstraints says whether any setting names a component.
+func hasComponentConstraints(s *Settings) bool {
+	return len(s.NonNeg) > 0 || len(s.Unimodal) > 0 || len(s.KnownSpectra) > 0 ||
+		len(s.ZeroWindows) > 0 || len(s.ZeroRegions) > 0 || s.ClosureWeights != "" || s.EFAWindows == "on"
+}
+
+// applyConstraints turns the settings into the resolution's constraints:
+// closure totals per row (one per experiment), stoichiometric weights,
+// non-negativity per component and side, unimodality, known spectra on the
+// data axis, zero windows in time and on the axis, and the experiment
+// blocks. With per-component constraints it also puts c0 in time order.
+func applyConstraints(r *Result, c0 *mat.Dense, opt *mcr.Options) error {
+	s := r.Settings
+	n, m := r.D.Dims()
+	k := r.Components
+	rep := &ConstraintReport{FixedOrder: hasComponentConstraints(s)}
+	r.Constraints = rep
+	if rep.FixedOrder {
+		sortByTime(r, c0)
+	}
+	for _, e := range r.Experiments {
+		opt.Blocks = append(opt.Blocks, e.FirstRow)
+	}
+	// Closure: one total, or one per experiment.
+	opt.Closure, opt.Total = false, nil
+	totals, err := parseTotals(s.Closure)
+	if err != nil {
+		return usage("--closure %v", err)
+	}
+	if r.Mode == mcr.Species && totals != nil {
+		switch {
+		case len(totals) == 1:
+			opt.Total = totals
+		case len(totals) == len(r.Experiments):
+			opt.Total = make([]float64, n)
+			for i := range opt.Total {
+				opt.Total[i] = totals[r.ExpOfRow[i]]
+			}
+		default:
+			return usage("--closure %s gives %d totals for %d experiments: give one, or one per experiment", s.Closure, len(totals), len(r.Experiments))
+		}
+		opt.Closure = true
+		w, err := parseWeights(s.ClosureWeights)
+		if err != nil {
+			return usage("--closure-weights %v", err)
+		}
+		if w != nil && len(w) != k {
+			return usage("--closure-weights %s has %d weights for %d components", s.ClosureWeights, len(w), k)
+		}
+		opt.ClosureWeights = w
+		what := "closure: Σ c_k = " + s.Closure
+		if w != nil {
+			what = "closure with weights " + s.ClosureWeights + ": Σ w_k c_k = " + s.Closure
+		}
+		if len(totals) > 1 {
+			what += " (one total per experiment)"
+		}
+		rep.Described = append(rep.Described, what)
+	} else if r.Mode == mcr.Reactions && totals != nil && s.Closure != NewSettings().Closure {
+		r.Notes = append(r.Notes, "closure applies to species (absolute absorbance); difference data resolves reactions, so it was not used")
+	}
+	if s.ClosureWeights != "" && !opt.Closure {
+		r.Notes = append(r.Notes, "--closure-weights has no effect without closure")
+	}
+	// Non-negativity per component and side.
+	nnP := make([]bool, k)
+	nnS := make([]bool, k)
+	for j := 0; j < k; j++ {
+		nnP[j], nnS[j] = true, r.Mode == mcr.Species
+	}
+	for _, v := range s.NonNeg {
+		comps, side, err := componentSpec(v, k)
+		if err != nil {
+			return usage("--nonneg %v", err)
+		}
+		for _, j := range comps {
+			nnP[j] = side == sideBoth || side == sideProfile
+			nnS[j] = side == sideBoth || side == sideSpectrum
+		}
+		rep.Described = append(rep.Described, "non-negative "+v)
+	}
+	opt.NonNegProfiles, opt.NonNegSpectra = nnP, nnS
+	// Unimodality.
+	for _, v := range s.Unimodal {
+		comps, err := componentList(v, k)
+		if err != nil {
+			return usage("--unimodal %v", err)
+		}
+		if opt.Unimodal == nil {
+			opt.Unimodal = make([]bool, k)
+		}
+		for _, j := range comps {
+			opt.Unimodal[j] = true
+		}
+	}
+	if opt.Unimodal != nil {
+		opt.UnimodalTolerance = s.UnimodalTolerance
+		rep.Described = append(rep.Described, fmt.Sprintf("unimodal profiles %s (tolerance %g)", strings.Join(s.Unimodal, ","), s.UnimodalTolerance))
+	}
+	// Known spectra, put on the data's axis.
+	for _, v := range s.KnownSpectra {
+		comps, rest, err := componentSpec(v, k)
+		if err != nil {
+			return usage("--known-spectrum %v", err)
+		}
+		file, w, err := splitWeight(rest)
+		if err != nil {
+			return usage("--known-spectrum %v", err)
+		}
+		sp, err := spectra.ReadSpectrum(s.Path(file))
+		if err != nil {
+			return err
+		}
+		vals, err := spectra.OnAxis(sp, r.Axis, r.Experiments[0].Source, true)
+		if err != nil {
+			return err
+		}
+		if opt.KnownSpectra == nil {
+			opt.KnownSpectra, opt.KnownWeights = make([][]float64, k), make([]float64, k)
+		}
+		for _, j := range comps {
+			opt.KnownSpectra[j], opt.KnownWeights[j] = vals, w
+		}
+		how := "exactly"
+		if w > 0 {
+			how = fmt.Sprintf("as a soft equality, weight %g", w)
+		}
+		rep.Described = append(rep.Described, fmt.Sprintf("known spectrum of component %s from %s (%s)", strings.Split(v, "=")[0], file, how))
+	}
+	// Zero windows in time (every experiment) and on the axis.
+	for _, v := range s.ZeroWindows {
+		comps, rest, err := componentSpec(v, k)
+		if err != nil {
+			return usage("--zero-window %v", err)
+		}
+		win, err := ParseRange(rest)
+		if err != nil {
+			return usage("--zero-window %v", err)
+		}
+		lo, hi := math.Min(win[0], win[1]), math.Max(win[0], win[1])
+		if opt.ZeroProfiles == nil {
+			opt.ZeroProfiles = make([][]bool, k)
+		}
+		hit := 0
+		for _, j := range comps {
+			z := make([]bool, n)
+			if opt.ZeroProfiles[j] != nil {
+				copy(z, opt.ZeroProfiles[j])
+			}
+			for i, t := range r.Times {
+				if t >= lo && t <= hi {
+					z[i] = true
+					hit++
+				}
+			}
+			opt.ZeroProfiles[j] = z
+		}
+		if hit == 0 {
+			return usage("--zero-window %s: no spectrum was taken between %g and %g s", v, lo, hi)
+		}
+		rep.Described = append(rep.Described, "zero profile "+v+" s")
+	}
+	for _, v := range s.ZeroRegions {
+		comps, rest, err := componentSpec(v, k)
+		if err != nil {
+			return usage("--zero-region %v", err)
+		}
+		win, err := ParseRange(rest)
+		if err != nil {
+			return usage("--zero-region %v", err)
+		}
+		lo, hi := math.Min(win[0], win[1]), math.Max(win[0], win[1])
+		if opt.ZeroSpectra == nil {
+			opt.ZeroSpectra = make([][]bool, k)
+		}
+		hit := 0
+		for _, j := range comps {
+			z := make([]bool, m)
+			if opt.ZeroSpectra[j] != nil {
+				copy(z, opt.ZeroSpectra[j])
+			}
+			for i, x := range r.Axis {
+				if x >= lo && x <= hi {
+					z[i] = true
+					hit++
+				}
+			}
+			opt.ZeroSpectra[j] = z
+		}
+		if hit == 0 {
+			return usage("--zero-region %s: the %s axis has no point between %g and %g", v, r.AxisName, lo, hi)
+		}
+		rep.Described = append(rep.Described, "zero spectrum "+v+" ("+r.AxisName+")")
+	}
+	return nil
+}
+
+// sortByTime puts the initial profiles in the order orderComponents would
+// give the resolved ones, so that component numbers in the settings mean
+// "first to peak", "second to peak", … before and after ALS.
+func sortByTime(r *Result, c0 *mat.Dense) {
+	n, k := c0.Dims()
+	key := make([]float64, k)
+	for j := 0; j < k; j++ {
+		at, mx := 0, math.Inf(-1)
+		for i := 0; i < n; i++ {
+			if v := c0.At(i, j); v > mx {
+				mx, at = v, i
+			}
+		}
+		key[j] = r.Times[at] + 1e9*float64(r.ExpOfRow[at])
+	}
+	idx := make([]int, k)
+	for j := range idx {
+		idx[j] = j
+	}
+	sort.SliceStable(idx, func(a, b int) bool { return key[idx[a]] < key[idx[b]] })
+	tmp := mat.DenseCopyOf(c0)
+	for to, from := range idx {
+		c0.SetCol(to, mat.Col(nil, from, tmp))
+	}
+}
+
+// afterResolve runs what comes after the resolution: the constraint
+// checks, the feasible bands and the bootstrap.
+func afterResolve(r *Result, data mcr.Data, opt mcr.Options, log io.Writer) error {
+	rep := r.Constraints
+	if rep == nil {
+		rep = &ConstraintReport{}
+		r.Constraints = rep
+	}
+	rep.Options = opt
+	s := r.Settings
+	if s.Checks == "on" {
+		fmt.Fprintf(log, "checking what each constraint costs\n")
+		checks, err := mcr.CheckConstraints(data, r.ALS, opt, 300)
+		if err != nil {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("constraint checks stopped: %v", err))
+		}
+		rep.Checks = checks
+		judgeChecks(r)
+	}
+	if s.Bands == "on" {
+		computeBands(r, opt, log)
+	} else {
+		rep.BandsNote = "feasible bands not computed (--bands off)"
+	}
+	if s.Replicates > 0 {
+		if s.Replicates < 2 {
+			return usage("--replicates %d: need at least 2 for an interval", s.Replicates)
+		}
+		fmt.Fprintf(log, "resolving %d bootstrap replicates\n", s.Replicates)
+		keep := opt.Closure
+		for _, ks := range opt.KnownSpectra {
+			keep = keep || ks != nil
+		}
+		iv, err := mcr.Bootstrap(r.D, r.ALS, opt, mcr.BootstrapOptions{Replicates: s.Replicates, Seed: s.Seed, Blocks: opt.Blocks, KeepScale: keep})
+		if err != nil {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("no confidence intervals: %v", err))
+		} else {
+			rep.Intervals = iv
+			if iv.Failed > 0 {
+				r.Warnings = append(r.Warnings, fmt.Sprintf("%d of %d bootstrap replicates failed to resolve and were left out", iv.Failed, s.Replicates))
+			}
+		}
+	}
+	return nil
+}
+
+// judgeChecks turns the refits into warnings. A constraint that holds
+// costs about σ² per value it pins (common practice for nested least
+// squares: the residual grows by its degrees of freedom times σ²); the
+// warning asks for four times that (and 5 % of the lack of fit), so noise
+// alone rarely triggers it.
+func judgeChecks(r *Result) {
+	n, m := r.D.Dims()
+	sigma2 := r.Rank.Sigma * r.Rank.Sigma
+	for _, c := range r.Constraints.Checks {
+		rise := c.ResidualSSWith - c.ResidualSSWithout
+		dof := float64(n)
+		if strings.Contains(c.Name, "spectra") {
+			dof = float64(m)
+		}
+		if rise <= 4*sigma2*dof || c.With <= 1.05*c.Without {
+			continue
+		}
+		msg := fmt.Sprintf("%s raises the lack of fit from %.3g %% to %.3g %%: the data disagree with it", c.Name, c.Without, c.With)
+		if c.Name == "closure" {
+			msg += "; the total of the concentrations is not constant (sampling, dilution, evaporation, a species left out?): try --closure off, or one total per experiment"
+		}
+		r.Warnings = append(r.Warnings, msg)
+	}
+}
+
+// bandsCostLimit bounds (n + m)·k³, the work of one band search in units of
+// one evaluation's flops per unknown: about a few seconds at the limit.
+const bandsCostLimit = 4e6
+
+func computeBands(r *Result, opt mcr.Options, log io.Writer) {
+	rep := r.Constraints
+	n, m := r.D.Dims()
+	k := r.Components
+	switch {
+	case k < 2:
+		rep.BandsNote = "one component: no rotational ambiguity, the band is a single value"
+	case k > 4:
+		rep.BandsNote = fmt.Sprintf("feasible bands not computed: %d components (the search grows as k³; at most 4 are computed by default)", k)
+		return
+	case float64(n+m)*float64(k*k*k) > bandsCostLimit:
+		rep.BandsNote = fmt.Sprintf("feasible bands not computed: %d × %d data with %d components would take long", n, m, k)
+		return
+	}
+	if opt.HardModel != nil || opt.Unimodal != nil {
+		rep.BandsNote = "feasible bands keep non-negativity, closure, known spectra and zero windows; unimodality and the kinetic model are not imposed on the rotations, so the bands may be wider than the constraints allow"
+	}
+	fmt.Fprintf(log, "computing feasible bands\n")
+	known := make([]bool, k)
+	for j, ks := range opt.KnownSpectra {
+		known[j] = ks != nil && (j >= len(opt.KnownWeights) || opt.KnownWeights[j] == 0)
+	}
+	b, err := mcr.FeasibleBands(r.ALS.C, r.ALS.S, mcr.BandOptions{
+		Mode: r.Mode, NonNegProfiles: opt.NonNegProfiles, NonNegSpectra: opt.NonNegSpectra,
+		Closure: opt.Closure, ClosureWeights: opt.ClosureWeights,
+		ZeroProfiles: opt.ZeroProfiles, ZeroSpectra: opt.ZeroSpectra, Known: known,
+	})
+	if err != nil {
+		rep.BandsNote = fmt.Sprintf("feasible bands not computed: %v", err)
+		return
+	}
+	rep.Bands = b
+	for j, band := range b.Bands {
+		if !band.Feasible {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("feasible band of %s: the search could not stay within the constraints; the band shown is the part reached", r.Names[j]))
+		}
+	}
+}
+
+// ConstraintJSON is one constraint check in summary.json.
+type ConstraintJSON struct {
+	Constraint       string   `json:"constraint"`
+	LackOfFitWith    float64  `json:"lack_of_fit_percent_with"`
+	LackOfFitWithout float64  `json:"lack_of_fit_percent_without"`
+	Components       []string `json:"components,omitempty"`
+}
+
+// BootstrapJSON describes the resampling in summary.json.
+type BootstrapJSON struct {
+	Method     string  `json:"method"`
+	Replicates int     `json:"replicates"`
+	Resolved   int     `json:"resolved"`
+	Seed       uint64  `json:"seed"`
+	Level      float64 `json:"level"`
+}
+
+// constraintSummary fills the summary keys this file owns.
+func constraintSummary(r *Result, s *Summary) {
+	rep := r.Constraints
+	if rep == nil {
+		return
+	}
+	s.Constraints = nonNil(rep.Described)
+	s.BandsNote = rep.BandsNote
+	for _, c := range rep.Checks {
+		cj := ConstraintJSON{Constraint: c.Name, LackOfFitWith: round(c.With), LackOfFitWithout: round(c.Without)}
+		if len(c.ComponentsAffected) < r.Components {
+			for _, j := range c.ComponentsAffected {
+				cj.Components = append(cj.Components, r.Names[j])
+			}
+		}
+		s.ConstraintChecks = append(s.ConstraintChecks, cj)
+	}
+	if rep.Bands != nil {
+		for j, b := range rep.Bands.Bands {
+			s.FeasibleBands = append(s.FeasibleBands, BandJSON{Component: r.Names[j], Min: round(b.Min), Max: round(b.Max)})
+		}
+	}
+	if iv := rep.Intervals; iv != nil {
+		s.Bootstrap = &BootstrapJSON{Method: "residual bootstrap (whole spectra drawn within each experiment)", Replicates: r.Settings.Replicates, Resolved: iv.Replicates, Seed: r.Settings.Seed, Level: iv.Level}
+	}
+}
+
+func init() {
+	afterWrite = append(afterWrite, writeBandsAndIntervals)
+}
+
+// writeBandsAndIntervals writes bands.csv and intervals.csv (columns in
+// docs/constraints.md).
+func writeBandsAndIntervals(r *Result, st *output.Stage) error {
+	rep := r.Constraints
+	if rep == nil || r.ALS == nil {
+		return nil
+	}
+	multi := len(r.Experiments) > 1
+	exp := func(i int) string {
+		if !multi {
+			return "1"
+		}
+		return strconv.Itoa(r.ExpOfRow[i] + 1)
+	}
+	if b := rep.Bands; b != nil {
+		t := output.Table{Header: []string{"component", "side", "experiment", "position", "solution", "at_min", "at_max"}}
+		for j, band := range b.Bands {
+			for i, x := range r.Axis {
+				t.Rows = append(t.Rows, []string{r.Names[j], "spectrum", "", output.Float(x), output.Float(r.ALS.S.At(i, j)), output.Float(band.MinSpectrum[i]), output.Float(band.MaxSpectrum[i])})
+			}
+			for i, tm := range r.Times {
+				t.Rows = append(t.Rows, []string{r.Names[j], "profile", exp(i), output.Float(tm), output.Float(r.ALS.C.At(i, j)), output.Float(band.MinProfile[i]), output.Float(band.MaxProfile[i])})
+			}
+		}
+		if err := st.Write("bands.csv", t.CSV()); err != nil {
+			return err
+		}
+	}
+	if iv := rep.Intervals; iv != nil {
+		t := output.Table{Header: []string{"component", "side", "experiment", "position", "estimate", "low", "high", "sd"}}
+		for j := 0; j < r.Components; j++ {
+			for i, x := range r.Axis {
+				t.Rows = append(t.Rows, []string{r.Names[j], "spectrum", "", output.Float(x), output.Float(r.ALS.S.At(i, j)), output.Float(iv.SpectraLow.At(i, j)), output.Float(iv.SpectraHigh.At(i, j)), output.Float(iv.SpectraSD.At(i, j))})
+			}
+			for i, tm := range r.Times {
+				t.Rows = append(t.Rows, []string{r.Names[j], "profile", exp(i), output.Float(tm), output.Float(r.ALS.C.At(i, j)), output.Float(iv.ProfilesLow.At(i, j)), output.Float(iv.ProfilesHigh.At(i, j)), output.Float(iv.ProfilesSD.At(i, j))})
+			}
+		}
+		if err := st.Write("intervals.csv", t.CSV()); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// printConstraints adds the constraints, checks and bands to the table.
+func printConstraints(r *Result, w io.Writer) {
+	rep := r.Constraints
+	if rep == nil {
+		return
+	}
+	for _, d := range rep.Described {
+		fmt.Fprintf(w, "constraint     %s\n", d)
+	}
+	for _, c := range rep.Checks {
+		fmt.Fprintf(w, "  without %-22s lack of fit %.4g %% (with: %.4g %%)\n", c.Name, c.Without, c.With)
+	}
+	if rep.Bands != nil {
+		for j, b := range rep.Bands.Bands {
+			fmt.Fprintf(w, "  %-12s feasible band %.4f – %.4f (solution %.4f)\n", r.Names[j], b.Min, b.Max, b.Value)
+		}
+	} else if rep.BandsNote != "" {
+		fmt.Fprintf(w, "note: %s\n", rep.BandsNote)
+	}
+	if rep.Intervals != nil {
+		fmt.Fprintf(w, "intervals      %d bootstrap replicates, %.0f %% level (intervals.csv)\n", rep.Intervals.Replicates, 100*rep.Intervals.Level)
+	}
+}
