@@ -258,9 +258,9 @@ func singularFigure(f *Folder) (*Figure, error) {
 	if len(in)+len(out) == 0 {
 		return nil, nil
 	}
-	p := newPlot("factor number", "singular value (absorbance)")
+	p := newPlot("factor number", "singular value")
 	p.Y.Scale = plot.LogScale{}
-	p.Y.Tick.Marker = plot.LogTicks{Prec: -1}
+	p.Y.Tick.Marker = logTicks{}
 	all := append(append(plotter.XYs{}, in...), out...)
 	_, ymax := span(xsOf(all, false))
 	ymin, _ := span(xsOf(all, false))
@@ -280,7 +280,7 @@ func singularFigure(f *Folder) (*Figure, error) {
 	if err != nil {
 		return nil, fmt.Errorf("singular values: %w", err)
 	}
-	cap := fmt.Sprintf("Filled: the %d factor(s) counted as signal; rings: the rest.", f.Summary.RankEstimate)
+	cap := fmt.Sprintf("Singular values of the data matrix (absorbance units). Filled: the %d factor(s) counted as signal; rings: the rest.", f.Summary.RankEstimate)
 	legend := []LegendItem{{Label: "signal factor", Colour: okabeBlue, Marker: true}, {Label: "noise factor", Colour: grey, Marker: true}}
 	if edge > 0 {
 		cap += fmt.Sprintf(" Dashed: the noise edge σ(√n + √m) = %s for σ = %s (%s).", trimFloat(edge, 4), trimFloat(f.Summary.NoiseSigma, 3), f.Summary.NoiseSource)
@@ -419,25 +419,19 @@ func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 	ax.apply(p)
 	var legend []LegendItem
 	envelopes := 0
-	bx, bandsSameAxis := f.bandAxis(len(x))
 	for k, j := range comps {
 		name := t.Header[j]
 		c := componentColour(k)
-		if bandsSameAxis {
-			if lo, hi := bounds(f.Bands, name, "spec"); lo >= 0 {
-				band(p, bx, f.Bands.Col(lo), f.Bands.Col(hi), tint(c, 0.7))
-				envelopes++
-			} else if lo, hi := bounds(f.Bands, name, ""); lo >= 0 {
-				band(p, bx, f.Bands.Col(lo), f.Bands.Col(hi), tint(c, 0.7))
-				envelopes++
-			}
-		}
-		if lo, hi := bounds(t, name, ""); lo >= 0 {
-			band(p, x, t.Col(lo), t.Col(hi), tint(c, 0.55))
+		if bx, lo, hi := longEnvelope(f.Bands, name, "spectrum", "at_min", "at_max"); bx != nil {
+			band(p, bx, lo, hi, tint(c, 0.72))
 			envelopes++
 		}
-		if lo, hi := bounds(f.Intervals, name, "spec"); lo >= 0 && f.Intervals.Rows() == len(x) {
-			band(p, x, f.Intervals.Col(lo), f.Intervals.Col(hi), tint(c, 0.55))
+		if ix, lo, hi := longEnvelope(f.Intervals, name, "spectrum", "low", "high"); ix != nil {
+			band(p, ix, lo, hi, tint(c, 0.5))
+			envelopes++
+		}
+		if lo, hi := bounds(t, name, ""); lo >= 0 {
+			band(p, x, t.Col(lo), t.Col(hi), tint(c, 0.6))
 			envelopes++
 		}
 	}
@@ -460,23 +454,49 @@ func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 		cap = "Each reaction's signed spectrum: positive lobes are bands of what forms, negative lobes bands of what is consumed; the black line is zero."
 	}
 	if envelopes > 0 {
-		cap += " Shaded: the range of spectra that fit the data and keep every constraint (feasible bands) or the bootstrap interval, where computed."
+		cap += " Shaded: " + envelopeWords(f) + "."
 		legend = append(legend, LegendItem{Label: "feasible range / interval", Colour: tint(okabeBlue, 0.6), Fill: true})
 	}
 	return &Figure{ID: "fig-spectra", Title: title, Caption: cap, SVG: svg, Legend: legend}, nil
 }
 
-// bandAxis returns bands.csv's first column when it is the spectral axis
-// (its row count matches spectra.csv), for envelopes of the spectra.
-func (f *Folder) bandAxis(n int) ([]float64, bool) {
-	if f.Bands == nil || f.Bands.Rows() != n || len(f.Bands.Header) == 0 || !f.Bands.Numeric(0) {
-		return nil, false
+// longEnvelope reads the long tables bands.csv and intervals.csv
+// (component, side, experiment, position, …, low column, high column): the
+// rows of one component and side, first experiment only, as position and
+// the pointwise lower and upper of the two bound columns. For feasible
+// bands these are the solutions at the smallest and largest contribution;
+// the band between them is drawn.
+func longEnvelope(t *Table, comp, side, loName, hiName string) (x, lo, hi []float64) {
+	if t == nil {
+		return nil, nil, nil
 	}
-	h := strings.ToLower(f.Bands.Header[0])
-	if strings.HasPrefix(h, "time") {
-		return nil, false
+	cj, sj, ej, pj := t.Index("component"), t.Index("side"), t.Index("experiment"), t.Index("position")
+	lj, hj := t.Index(loName), t.Index(hiName)
+	if cj < 0 || sj < 0 || pj < 0 || lj < 0 || hj < 0 {
+		return nil, nil, nil
 	}
-	return f.Bands.Col(0), true
+	pos, l, h := t.Col(pj), t.Col(lj), t.Col(hj)
+	first := ""
+	for i, r := range t.Text {
+		if len(r) <= max(cj, sj, pj, lj, hj) || r[cj] != comp || r[sj] != side {
+			continue
+		}
+		if ej >= 0 && ej < len(r) {
+			if first == "" {
+				first = r[ej] + "\x00"
+			}
+			if r[ej]+"\x00" != first {
+				continue
+			}
+		}
+		x = append(x, pos[i])
+		lo = append(lo, math.Min(l[i], h[i]))
+		hi = append(hi, math.Max(l[i], h[i]))
+	}
+	if len(x) < 2 {
+		return nil, nil, nil
+	}
+	return x, lo, hi
 }
 
 // profilesFigure: concentration or extent profiles, with the kinetic fit
@@ -513,6 +533,7 @@ func profilesFigure(f *Folder) (*Figure, error) {
 	p := newPlot("time / s", ylabel)
 	fit := f.kineticCurves()
 	var legend []LegendItem
+	envelopes := 0
 	// Segments per experiment, so lines never join two experiments.
 	segments := func(col []float64, draw func(x, y []float64) error) error {
 		start := 0
@@ -531,13 +552,13 @@ func profilesFigure(f *Folder) (*Figure, error) {
 	for k, j := range comps {
 		c := componentColour(k)
 		name := t.Header[j]
-		if lo, hi := bounds(f.Intervals, name, "prof"); lo >= 0 && f.Intervals.Rows() == len(tm) {
-			band(p, tm, f.Intervals.Col(lo), f.Intervals.Col(hi), tint(c, 0.6))
+		if bx, lo, hi := longEnvelope(f.Bands, name, "profile", "at_min", "at_max"); bx != nil {
+			band(p, bx, lo, hi, tint(c, 0.72))
+			envelopes++
 		}
-		if f.Bands != nil && !isSpectral(f.Bands) {
-			if lo, hi := bounds(f.Bands, name, ""); lo >= 0 && f.Bands.Rows() == len(tm) {
-				band(p, tm, f.Bands.Col(lo), f.Bands.Col(hi), tint(c, 0.7))
-			}
+		if ix, lo, hi := longEnvelope(f.Intervals, name, "profile", "low", "high"); ix != nil {
+			band(p, ix, lo, hi, tint(c, 0.5))
+			envelopes++
 		}
 		col := t.Col(j)
 		if len(fit) > 0 {
@@ -556,16 +577,22 @@ func profilesFigure(f *Folder) (*Figure, error) {
 			legend = append(legend, LegendItem{Label: name, Colour: c, Dash: dashOf(k)})
 		}
 	}
-	for i, cv := range fit {
+	seen := map[string]bool{}
+	for _, cv := range fit {
 		c := okabeBlack
 		if cv.comp >= 0 {
 			c = componentColour(cv.comp)
 		}
-		if err := addLine(p, cv.x, cv.y, c, 1.2, nil); err != nil {
+		if err := addLine(p, cv.x, cv.y, c, cv.width, cv.dash); err != nil {
 			return nil, err
 		}
-		if cv.comp < 0 || i == 0 {
-			legend = append(legend, LegendItem{Label: cv.label, Colour: c})
+		if !seen[cv.label] {
+			seen[cv.label] = true
+			lc := c
+			if cv.comp >= 0 {
+				lc = okabeBlack
+			}
+			legend = append(legend, LegendItem{Label: cv.label, Colour: lc, Dash: cv.dash})
 		}
 	}
 	svg, err := render(p, nil, figW, figH)
@@ -576,6 +603,10 @@ func profilesFigure(f *Folder) (*Figure, error) {
 	if reactions {
 		title, cap = "Extent profiles", "How far each reaction has gone, scaled so its largest extent is 1; zero at the reference and before the reaction starts."
 	}
+	if envelopes > 0 {
+		cap += " Shaded: " + envelopeWords(f) + "."
+		legend = append(legend, LegendItem{Label: "feasible range / interval", Colour: tint(okabeBlue, 0.6), Fill: true})
+	}
 	if len(fit) > 0 {
 		cap += " Points: resolved; lines: the kinetic model fitted to them."
 		if f.Summary.Kinetics != nil && f.Summary.Kinetics.Model != "" {
@@ -585,20 +616,36 @@ func profilesFigure(f *Folder) (*Figure, error) {
 	return &Figure{ID: "fig-profiles", Title: title, Caption: cap, SVG: svg, Legend: legend}, nil
 }
 
-func isSpectral(t *Table) bool {
-	return len(t.Header) > 0 && !strings.HasPrefix(strings.ToLower(t.Header[0]), "time")
+func envelopeWords(f *Folder) string {
+	var w []string
+	if f.Bands != nil {
+		w = append(w, "pale, the feasible band — between the solutions of smallest and largest signal contribution that still fit the data and keep every constraint (Tauler 2001)")
+	}
+	if f.Intervals != nil {
+		w = append(w, "darker, the resampling interval (intervals.csv)")
+	}
+	if len(w) == 0 {
+		return "bounds given in the file"
+	}
+	return strings.Join(w, "; ")
 }
 
 type curve struct {
 	x, y  []float64
 	comp  int // index of the matching component, −1 none
 	label string
+	dash  []float64
+	width float64
 }
 
-// kineticCurves reads kinetics.csv tolerantly: a time column and model
-// curves named after a component (NAME, NAME_fit, fit_NAME, model_NAME) or
-// anything else numeric (drawn in black with its own name). Rows with a
-// "step" or "k" column are a rate-constant table instead, with no curves.
+// kineticCurves reads kinetics.csv tolerantly: a time column, then per
+// model species S the columns S_observed (the resolved profile, already
+// drawn), S_fitted (model fitted to the profiles) and S_data_fit (model
+// fitted to the data). The species is matched to its component through the
+// summary's kinetics map (1-based component numbers), or by name. The fit
+// the summary says it used is drawn solid, the other dashed. Columns named
+// NAME_fit, fit_NAME or model_NAME after a component are taken as its fit;
+// any other numeric column is drawn in black under its own name.
 func (f *Folder) kineticCurves() []curve {
 	t := f.Kinetics
 	if t == nil {
@@ -614,9 +661,30 @@ func (f *Folder) kineticCurves() []curve {
 		return nil
 	}
 	x := t.Col(tj)
-	names := []string{}
+	var names []string
+	species := map[string]int{}
+	primary := "_data_fit"
 	if f.Summary != nil {
 		names = f.Summary.ComponentNames
+		if k := f.Summary.Kinetics; k != nil {
+			for _, m := range k.Map {
+				species[strings.ToLower(m.Name)] = m.Component - 1
+			}
+			if k.Method == "profiles" {
+				primary = "_fitted"
+			}
+		}
+	}
+	compOf := func(base string) int {
+		if c, ok := species[base]; ok {
+			return c
+		}
+		for k, n := range names {
+			if strings.EqualFold(n, base) {
+				return k
+			}
+		}
+		return -1
 	}
 	var out []curve
 	for j, h := range t.Header {
@@ -624,18 +692,34 @@ func (f *Folder) kineticCurves() []curve {
 			continue
 		}
 		l := strings.ToLower(h)
-		comp := -1
-		for k, n := range names {
-			n = strings.ToLower(n)
-			if l == n || l == n+"_fit" || l == "fit_"+n || l == "model_"+n || l == n+"_model" {
-				comp = k
+		var c curve
+		switch {
+		case strings.HasSuffix(l, "_observed"):
+			continue
+		case strings.HasSuffix(l, "_data_fit"), strings.HasSuffix(l, "_fitted"):
+			suffix := "_fitted"
+			if strings.HasSuffix(l, "_data_fit") {
+				suffix = "_data_fit"
+			}
+			c = curve{comp: compOf(strings.TrimSuffix(l, suffix)), width: 1.3}
+			c.label = "model fitted to the profiles"
+			if suffix == "_data_fit" {
+				c.label = "model fitted to the data"
+			}
+			if suffix != primary {
+				c.dash, c.width = []float64{4, 3}, 0.9
+			}
+		default:
+			c = curve{comp: -1, label: h, width: 1.2}
+			for k, n := range names {
+				n = strings.ToLower(n)
+				if l == n+"_fit" || l == "fit_"+n || l == "model_"+n || l == n+"_model" {
+					c.comp, c.label = k, "kinetic fit"
+				}
 			}
 		}
-		label := h
-		if comp >= 0 {
-			label = "kinetic fit"
-		}
-		out = append(out, curve{x: x, y: t.Col(j), comp: comp, label: label})
+		c.x, c.y = x, t.Col(j)
+		out = append(out, c)
 	}
 	return out
 }
@@ -663,7 +747,7 @@ func iterationsFigure(f *Folder) (*Figure, error) {
 	}
 	p := newPlot("iteration", "lack of fit / %")
 	p.Y.Scale = plot.LogScale{}
-	p.Y.Tick.Marker = plot.LogTicks{Prec: -1}
+	p.Y.Tick.Marker = logTicks{}
 	ylo, yhi := span(xsOf(pts, false))
 	xlo, xhi := span(xsOf(pts, true))
 	if xhi == xlo {

@@ -327,8 +327,8 @@ func findings(f *Folder) (find, checks []string) {
 		var ks []string
 		for _, rc := range k.RateConstants {
 			t := fmt.Sprintf("%s: k = %s ± %s s⁻¹", rc.Step, trimFloat(rc.K, 4), trimFloat(rc.StdErr, 2))
-			if rc.K > 0 {
-				t += fmt.Sprintf(" (half-life %s s)", trimFloat(math.Ln2/rc.K, 3))
+			if rc.HalfLife > 0 {
+				t += fmt.Sprintf(" (half-life %s s)", trimFloat(rc.HalfLife, 3))
 			}
 			ks = append(ks, t)
 		}
@@ -434,6 +434,14 @@ var page = template.Must(template.New("report").Funcs(template.FuncMap{
 		}
 		return "differs"
 	},
-	"deref":     func(p *int) int { return *p },
+	"deref":   func(p *int) int { return *p },
+	"deref64": func(p *float64) float64 { return *p },
+	"sub":     func(a, b float64) float64 { return a - b },
+	"unit": func(u string) string {
+		if u == "" || u == "s^-1" {
+			return "s⁻¹"
+		}
+		return strings.NewReplacer("^-1", "⁻¹", "^-2", "⁻²", "^2", "²").Replace(u)
+	},
 	"figAnchor": func(f figureView) string { return "sec-" + f.ID },
 }).Parse(pageTemplate))

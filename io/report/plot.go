@@ -239,7 +239,7 @@ func render(p, bar *plot.Plot, w, h vg.Length) (svg string, err error) {
 	c := vgsvg.New(w, h)
 	dc := draw.New(c)
 	if bar != nil {
-		barW := 2.6 * vg.Centimeter
+		barW := 3 * vg.Centimeter
 		p.Draw(draw.Crop(dc, 0, -barW, 0, 0))
 		bar.Draw(draw.Crop(dc, w-barW+0.3*vg.Centimeter, 0, 1.15*vg.Centimeter, 0))
 	} else {
@@ -255,6 +255,9 @@ func render(p, bar *plot.Plot, w, h vg.Length) (svg string, err error) {
 	}
 	// vgsvg labels its embedded PNG images as JPEG; say what they are.
 	s = strings.ReplaceAll(s, "data:image/jpg;base64,", "data:image/png;base64,")
+	// The image must fill its data rectangle exactly, not keep the pixel
+	// grid's aspect ratio (SVG's default would letterbox it).
+	s = strings.ReplaceAll(s, "<image ", `<image preserveAspectRatio="none" style="image-rendering:pixelated" `)
 	return s, nil
 }
 
@@ -386,7 +389,15 @@ func colourBar(lim float64, label string) *plot.Plot {
 	return p
 }
 
-func tickLabel(v float64) string { return trimFloat(v, 2) }
+// tickLabel writes small limits as m×10ⁿ, which stays narrow.
+func tickLabel(v float64) string {
+	if a := math.Abs(v); a > 0 && (a < 0.01 || a >= 1e5) {
+		e := math.Floor(math.Log10(a))
+		m := v / math.Pow(10, e)
+		return strconv.FormatFloat(m, 'g', 2, 64) + "×10" + superscript(strconv.Itoa(int(e)))
+	}
+	return trimFloat(v, 2)
+}
 
 // trimFloat formats with the given significant digits, plainly.
 func trimFloat(v float64, digits int) string {
@@ -469,4 +480,22 @@ func tickText(v, step float64) string {
 		dec++
 	}
 	return strconv.FormatFloat(v, 'f', dec, 64)
+}
+
+// logTicks are gonum's decade ticks kept to the axis range: gonum's own
+// run to the next decade, and the label beyond the top pushes the whole
+// plot down.
+type logTicks struct{}
+
+func (logTicks) Ticks(lo, hi float64) []plot.Tick {
+	if !(lo > 0) || !(hi > lo) {
+		return nil
+	}
+	var out []plot.Tick
+	for _, t := range (plot.LogTicks{Prec: -1}).Ticks(lo, hi) {
+		if t.Value >= lo*(1-1e-9) && t.Value <= hi*(1+1e-9) {
+			out = append(out, t)
+		}
+	}
+	return out
 }

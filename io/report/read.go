@@ -76,6 +76,12 @@ type Summary struct {
 	Advice                   []string    `json:"advice"`
 	Notes                    []string    `json:"notes"`
 	Warnings                 []string    `json:"warnings"`
+	Constraints              []string    `json:"constraints"`
+	ConstraintChecks         []struct {
+		Constraint string   `json:"constraint"`
+		With       *float64 `json:"lack_of_fit_percent_with"`
+		Without    *float64 `json:"lack_of_fit_percent_without"`
+	} `json:"constraint_checks"`
 }
 
 // Criterion is one rank criterion's verdict.
@@ -95,12 +101,20 @@ type Band struct {
 
 // Kinetics is the kinetic fit in summary.json.
 type Kinetics struct {
-	Model         string `json:"model"`
+	Model             string `json:"model"`
+	Method            string `json:"method"`
+	MapSource         string `json:"map_source"`
+	ConcentrationUnit string `json:"concentration_unit"`
+	Map               []struct {
+		Name      string `json:"name"`
+		Component int    `json:"component"`
+	} `json:"map"`
 	RateConstants []struct {
 		Step     string  `json:"step"`
 		K        float64 `json:"k_per_s"`
 		StdErr   float64 `json:"stderr_per_s"`
 		HalfLife float64 `json:"half_life_s"`
+		Unit     string  `json:"unit"`
 	} `json:"rate_constants"`
 }
 
@@ -113,7 +127,7 @@ func init() {
 		"explained_variance_percent", "noise_lack_of_fit_percent", "iterations", "converged", "noise_sigma",
 		"noise_source", "noise_edge", "rank_reason", "rank_criteria", "difference_rank_estimate", "svd_method",
 		"compressed_iterations", "initial_estimate", "closure", "spectra", "points", "axis", "experiments",
-		"component_names", "feasible_bands", "kinetics", "advice", "notes", "warnings"} {
+		"component_names", "feasible_bands", "kinetics", "advice", "notes", "warnings", "constraints", "constraint_checks"} {
 		knownKeys[k] = true
 	}
 }

@@ -85,7 +85,7 @@ func fixture(t *testing.T, all bool) string {
 	bands, kinJSON := "[]", ""
 	if all {
 		bands = `[{"component": "species_1", "min": 0.5, "max": 0.52}, {"component": "species_2", "min": 0.3, "max": 0.6}]`
-		kinJSON = `"kinetics": {"model": "A -> B", "rate_constants": [{"step": "A -> B", "k_per_s": 0.01, "stderr_per_s": 0.0002}]},`
+		kinJSON = `"kinetics": {"model": "A -> B", "rate_constants": [{"step": "A -> B", "k_per_s": 0.01, "stderr_per_s": 0.0002, "half_life_s": 69.31471806}]},`
 		write("kinetics.csv", kin.String())
 		var efa strings.Builder
 		efa.WriteString("time,forward_1,forward_2,backward_1,backward_2\n")
@@ -94,12 +94,26 @@ func fixture(t *testing.T, all bool) string {
 			fmt.Fprintf(&efa, "%g,%g,%g,%g,%g\n", tm, 1+0.01*float64(i), f2, 1.5, -3.0)
 		}
 		write("efa.csv", efa.String())
-		var bb strings.Builder
-		bb.WriteString("wavenumber,species_1_min,species_1_max,species_2_min,species_2_max\n")
-		for _, x := range axis {
-			fmt.Fprintf(&bb, "%g,%g,%g,%g,%g\n", x, 0.95*sa(x), 1.05*sa(x), 0.8*sb(x), 1.2*sb(x))
+		// bands.csv and intervals.csv in the long layout the pipeline writes.
+		var bb, iv strings.Builder
+		bb.WriteString("component,side,experiment,position,solution,at_min,at_max\n")
+		iv.WriteString("component,side,experiment,position,estimate,low,high,sd\n")
+		for ci, s := range []func(float64) float64{sa, sb} {
+			name := fmt.Sprintf("species_%d", ci+1)
+			for _, x := range axis {
+				fmt.Fprintf(&bb, "%s,spectrum,,%g,%g,%g,%g\n", name, x, s(x), 0.95*s(x), 1.05*s(x))
+				fmt.Fprintf(&iv, "%s,spectrum,,%g,%g,%g,%g,0\n", name, x, s(x), 0.99*s(x), 1.01*s(x))
+			}
+			for _, tm := range times {
+				a := math.Exp(-k * tm)
+				if ci == 1 {
+					a = 1 - a
+				}
+				fmt.Fprintf(&bb, "%s,profile,1,%g,%g,%g,%g\n", name, tm, a, 0.97*a, 1.03*a)
+			}
 		}
 		write("bands.csv", bb.String())
+		write("intervals.csv", iv.String())
 		write("as-run.bsr", "# as run\ndata input/series.csv\nkind single-beam\n")
 		write("manifest.json", `{"tool": "bandsolve test", "started": "2030-01-02T03:04:05Z", "inputs": [{"file": "input/series.csv", "sha256": "abc"}]}`)
 	}
@@ -232,7 +246,7 @@ func TestReportFiguresForEverythingComputed(t *testing.T) {
 			}
 		}
 		if all {
-			for _, w := range []string{"A -&gt; B", "half-life 69.3 s", "species_2 is not unique", "species_1 is essentially unique", "kind single-beam", "sha256", "inputs[0].file"} {
+			for _, w := range []string{"A -&gt; B", "half-life 69.3 s", "species_2 is not unique", "species_1 is essentially unique", "feasible range / interval", "the feasible band", "resampling interval", "kind single-beam", "sha256", "inputs[0].file"} {
 				if !strings.Contains(s, w) {
 					t.Errorf("report lacks %q", w)
 				}

@@ -27,7 +27,7 @@ th { background: var(--panel); font-weight: 600; }
 td.n { font-variant-numeric: tabular-nums; white-space: nowrap; }
 .small { font-size: .85rem; color: var(--muted); }
 figure { margin: .6rem 0 1.6rem; page-break-inside: avoid; break-inside: avoid; }
-figure svg.plot, figure > svg { width: 100%; height: auto; display: block; }
+figure > svg { width: 100%; max-width: 820px; height: auto; display: block; }
 figcaption { font-size: .92rem; }
 figcaption b { display: block; font-size: 1rem; margin-bottom: .15rem; }
 .legend { display: flex; flex-wrap: wrap; gap: .2rem 1.1rem; margin: .2rem 0 .3rem; font-size: .9rem; }
@@ -72,7 +72,7 @@ nav a { color: #0072b2; margin-right: .8rem; }
 <tr><th>explained variance</th><td class="n">{{num7 .S.ExplainedVariancePercent}} %</td></tr>
 <tr><th>iterations</th><td>{{.S.Iterations}}, {{if .S.Converged}}converged{{else}}<b>not converged</b>{{end}}</td></tr>
 <tr><th>noise σ</th><td class="n">{{num .S.NoiseSigma}} absorbance <span class="small">({{.S.NoiseSource}}; noise edge {{num .S.NoiseEdge}})</span></td></tr>
-<tr><th>constraints</th><td>{{if eq .S.Mode "species"}}non-negative spectra and concentrations; closure {{.S.Closure}}{{else}}non-negative extents, zero at the reference and before the reaction; signed reaction spectra{{end}}</td></tr>
+<tr><th>constraints</th><td>{{if .S.Constraints}}{{range $i, $c := .S.Constraints}}{{if $i}}; {{end}}{{$c}}{{end}}{{else if eq .S.Mode "species"}}non-negative spectra and concentrations; closure {{.S.Closure}}{{else}}non-negative extents, zero at the reference and before the reaction; signed reaction spectra{{end}}</td></tr>
 <tr><th>initial estimate</th><td>{{.S.InitialEstimate}}</td></tr>
 <tr><th>factor analysis</th><td>{{.S.SVDMethod}} SVD{{if .S.Compressed}}; iterations on the compressed matrix{{end}}</td></tr>
 </table>
@@ -82,12 +82,20 @@ nav a { color: #0072b2; margin-right: .8rem; }
 <tr><th>criterion</th><th>estimate</th><th>verdict</th><th>evidence</th><th>method</th></tr>
 {{range .S.RankCriteria}}<tr><td>{{.Name}}</td><td class="n">{{.Estimate}}</td><td>{{verdict . $.S.RankEstimate}}</td><td>{{.Detail}}</td><td class="small">{{.Source}}</td></tr>
 {{end}}</table>{{end}}
+{{if .S.ConstraintChecks}}
+<h3>What each constraint cost</h3>
+<table>
+<tr><th>constraint</th><th>lack of fit with it / %</th><th>without it / %</th><th>cost / percentage points</th></tr>
+{{range .S.ConstraintChecks}}<tr><td>{{.Constraint}}</td><td class="n">{{if .With}}{{num (deref64 .With)}}{{else}}–{{end}}</td><td class="n">{{if .Without}}{{num (deref64 .Without)}}{{else}}–{{end}}</td><td class="n">{{if and .With .Without}}{{num (sub (deref64 .With) (deref64 .Without))}}{{else}}–{{end}}</td></tr>
+{{end}}</table>
+<p class="small">A constraint the data obey costs next to nothing; a large cost means the data disagree with it (for closure: dilution, sampling, a species without bands).</p>{{end}}
 {{if .S.Kinetics}}{{with .S.Kinetics}}
 <h3>Kinetics: {{.Model}}</h3>
 <table>
-<tr><th>step</th><th>k / s⁻¹</th><th>standard error / s⁻¹</th></tr>
-{{range .RateConstants}}<tr><td>{{.Step}}</td><td class="n">{{num .K}}</td><td class="n">{{num .StdErr}}</td></tr>
-{{end}}</table>{{end}}{{end}}
+<tr><th>step</th><th>k</th><th>standard error</th><th>half-life / s</th></tr>
+{{range .RateConstants}}<tr><td>{{.Step}}</td><td class="n">{{num .K}} {{unit .Unit}}</td><td class="n">{{num .StdErr}} {{unit .Unit}}</td><td class="n">{{if gt .HalfLife 0.0}}{{num .HalfLife}}{{else}}–{{end}}</td></tr>
+{{end}}</table>
+<p class="small">{{if .Method}}Rate constants from the fit to the {{.Method}}. {{end}}{{if .MapSource}}Species ↔ components: {{range $i, $m := .Map}}{{if $i}}, {{end}}{{$m.Name}} = component {{$m.Component}}{{end}} ({{.MapSource}}). {{end}}{{.ConcentrationUnit}}</p>{{end}}{{end}}
 {{if .S.FeasibleBands}}
 <h3>Feasible bands (signal contribution ‖c sᵀ‖ / ‖C Sᵀ‖)</h3>
 <table>
