@@ -348,6 +348,7 @@ func badCases() []badCase {
 			return ""
 		}, code: 1, want: []string{"/proc/bandsolve-test-out: cannot write in /proc", "choose a writable --out"}},
 		{name: "output path is a file", args: []string{"--data", "B/good.csv", "--out", "W/out.txt"}, setup: func(t *testing.T, w string) { writeFile(t, filepath.Join(w, "out.txt"), "keep me\n") }, code: 1, want: []string{"out.txt: is a file, not a folder", "choose another --out"}},
+		{name: "output path under a file", args: []string{"--data", "B/good.csv", "--out", "W/out.txt/results"}, setup: func(t *testing.T, w string) { writeFile(t, filepath.Join(w, "out.txt"), "keep me\n") }, code: 1, want: []string{"out.txt/results: part of the path is a file", "choose another --out"}},
 		{name: "output folder holds earlier results", args: []string{"--data", "B/good.csv", "--out", "W/old"}, setup: func(t *testing.T, w string) {
 			os.Mkdir(filepath.Join(w, "old"), 0o755)
 			writeFile(t, filepath.Join(w, "old", "summary.json"), "{}\n")

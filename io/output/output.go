@@ -14,6 +14,7 @@ import (
 	"path/filepath"
 	"strconv"
 	"strings"
+	"syscall"
 )
 
 // Stage is a folder being filled with results.
@@ -38,8 +39,12 @@ func Check(out string, force bool) error {
 		}
 		return writable(parent, out)
 	}
+	if errors.Is(err, syscall.ENOTDIR) {
+		// A file stands where a folder of the path should be.
+		return fmt.Errorf("%s: part of the path is a file, not a folder; choose another --out", out)
+	}
 	if err != nil {
-		return fmt.Errorf("%s: %w", out, err)
+		return fmt.Errorf("%s: %w", out, unwrap(err))
 	}
 	if !st.IsDir() {
 		return fmt.Errorf("%s: is a file, not a folder; choose another --out", out)
