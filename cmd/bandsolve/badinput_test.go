@@ -216,7 +216,10 @@ func badCases() []badCase {
 		{name: "negative single beam", args: []string{"--data", "B/bad_negative_beam.csv", "--kind", "single-beam"}, code: 1, want: []string{"bad_negative_beam.csv column 7", "intensity -12.5 at wavenumber 1014", "single beams must be positive"}},
 		{name: "missing data path", args: []string{"--data", "W/nothing.csv"}, code: 1, want: []string{"nothing.csv: cannot read: no such file or directory", "check the --data path"}},
 		{name: "axis differs between experiments", args: []string{"--data", "B/good.csv", "--data", "B/bad_other_axis.csv"}, code: 1, want: []string{"bad_other_axis.csv: its axis differs from", "good.csv", "--resample"}},
-		{name: "malformed JCAMP-DX record", args: []string{"--data", "B/bad_record.jdx"}, code: 1, want: []string{"bad_record.jdx"}},
+		{name: "malformed JCAMP-DX record", args: []string{"--data", "B/bad_record.jdx"}, code: 1, want: []string{"bad_record.jdx:7:", "no ##END="}},
+		{name: "JCAMP-DX data longer than NPOINTS", args: []string{"--data", "W/long.jdx"}, setup: func(t *testing.T, w string) {
+			writeFile(t, filepath.Join(w, "long.jdx"), "##TITLE=x\n##JCAMP-DX=4.24\n##XUNITS=1/CM\n##YUNITS=TRANSMITTANCE\n##NPOINTS=3\n##FIRSTX=1000\n##LASTX=1004\n##XFACTOR=1\n##YFACTOR=1\n##XYDATA=(X++(Y..Y))\n1000 0.5 0.6 0.7 0.8\n##END=\n")
+		}, code: 1, want: []string{"long.jdx:11:", "NPOINTS=3", "correct ##NPOINTS="}},
 
 		// Command files: settings, so their faults are usage errors.
 		{name: "command file with a bad value", cmd: "run", args: []string{"B/bad_command.txt"}, code: 2, want: []string{"bad_command.txt:3:12:", `"three"`, "want auto or a whole number"}},
