@@ -22,9 +22,12 @@ Example:
 Flags:
 `
 
-func init() {
+// Registered in a variable initializer, which runs before main.go's init
+// reads extraCommands (an init of this file would run after it).
+var _ = func() bool {
 	extraCommands = append(extraCommands, command{"report", "rebuild OUT/report.html from the files in OUT", reportHelp, runReport})
-}
+	return true
+}()
 
 func runReport(args []string, st pipeline.Streams) int {
 	fs := newFlagSet("report", reportHelp, st)

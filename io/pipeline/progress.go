@@ -45,6 +45,7 @@ type progress struct {
 	total   int
 	detail  string
 	drawn   bool
+	last    time.Time // last redraw by count
 	stop    chan struct{}
 	stopped chan struct{}
 }
@@ -96,7 +97,12 @@ func (p *progress) count(done, total int, detail string) {
 	p.mu.Lock()
 	defer p.mu.Unlock()
 	p.done, p.total, p.detail = done, total, detail
-	p.draw()
+	// A redraw per ALS iteration would cost more than the iteration on
+	// small data: the display is refreshed at most every 50 ms.
+	if now := time.Now(); done == total || now.Sub(p.last) >= 50*time.Millisecond {
+		p.last = now
+		p.draw()
+	}
 }
 
 // finish ends the display: stops the ticker and clears the status line.
