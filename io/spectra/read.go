@@ -443,6 +443,8 @@ func ReadSpectrumFile(path string) (*Spectrum, error) {
 	}
 	var buf [][]byte
 	axisName := ""
+	var titleSep byte
+	titleCells := 0
 	start := -1
 	// Title lines: anything before the first line whose cells are all numbers.
 	for i, l := range lines {
@@ -466,6 +468,7 @@ func ReadSpectrumFile(path string) (*Spectrum, error) {
 		// earlier lines are free-text titles.
 		if len(buf) >= 1 && len(buf) <= 3 && len(buf[0]) > 0 {
 			axisName = strings.ToLower(string(buf[0]))
+			titleSep, titleCells = sep, len(buf)
 		}
 	}
 	if start < 0 {
@@ -506,9 +509,11 @@ func ReadSpectrumFile(path string) (*Spectrum, error) {
 		return nil, err
 	}
 	name := cleanAxisName(axisName, axis)
-	// A title with digits that names no known axis ("run 7") is not a
-	// column title; "Wavenumber (cm-1)" is, digits and all.
-	if name != "wavenumber" && name != "wavelength" && strings.ContainsAny(axisName, "0123456789") {
+	// A line that names no known axis is a column title only if it is laid
+	// out like the data (two cells, same separator) and has no digits:
+	// "x,y" is, "Run 7" is not; "Wavenumber (cm-1)" is, digits and all.
+	if name != "wavenumber" && name != "wavelength" &&
+		(strings.ContainsAny(axisName, "0123456789") || titleSep != sep || titleCells != 2) {
 		name = guessAxisName(axis)
 	}
 	return &Spectrum{AxisName: name, Axis: axis, Values: vals, Source: path}, nil
