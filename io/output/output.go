@@ -101,6 +101,8 @@ func (s *Stage) Files() []string { return append([]string(nil), s.files...) }
 
 // Write stores one file.
 func (s *Stage) Write(name string, data []byte) error {
+	writing.RLock()
+	defer writing.RUnlock()
 	if err := os.WriteFile(s.Path(name), data, 0o644); err != nil {
 		return fmt.Errorf("writing %s: %w", name, err)
 	}

@@ -291,7 +291,9 @@ func makeManifest(r *Result, stage *output.Stage, out, base string) (*Manifest, 
 	sd, _ := filepath.Abs(stage.Dir)
 	seen := map[string]bool{}
 	list := &m.Inputs
-	add := func(p string) error {
+	// An input named by an absolute path is listed by it, as the record
+	// names it: such a folder verifies only where that path exists.
+	add := func(p string, absolute bool) error {
 		abs, err := filepath.Abs(p)
 		if err != nil {
 			return err
@@ -302,6 +304,9 @@ func makeManifest(r *Result, stage *output.Stage, out, base string) (*Manifest, 
 			p = filepath.Join(sd, rel)
 		}
 		name := relSlash(out, abs)
+		if absolute {
+			name = filepath.ToSlash(abs)
+		}
 		if seen[name] {
 			return nil
 		}
@@ -321,20 +326,23 @@ func makeManifest(r *Result, stage *output.Stage, out, base string) (*Manifest, 
 		}
 		if st.IsDir() && i < len(r.Experiments) && r.Experiments[i].Series != nil {
 			for _, f := range r.Experiments[i].Series.Names {
-				if err := add(f); err != nil {
+				if err := add(f, filepath.IsAbs(d)); err != nil {
 					return nil, err
 				}
 			}
 			continue
 		}
-		if err := add(p); err != nil {
+		if err := add(p, filepath.IsAbs(d)); err != nil {
 			return nil, err
 		}
 	}
-	for _, name := range []string{"blank", "times", "reference", "init"} {
-		for _, v := range s.Get(name) {
-			if IsPath(name, v) {
-				if err := add(s.Path(v)); err != nil {
+	for _, o := range Options() {
+		if o.Name == "data" || keyword(o).Path != cmdfile.ReadPath {
+			continue
+		}
+		for _, v := range s.Get(o.Name) {
+			if IsPath(o.Name, v) {
+				if err := add(s.Path(v), filepath.IsAbs(v)); err != nil {
 					return nil, err
 				}
 			}
@@ -344,7 +352,7 @@ func makeManifest(r *Result, stage *output.Stage, out, base string) (*Manifest, 
 	seen = map[string]bool{}
 	list = &m.Supplied
 	for _, f := range r.Supplied {
-		if err := add(filepath.Join(stage.Dir, f)); err != nil {
+		if err := add(filepath.Join(stage.Dir, f), false); err != nil {
 			return nil, err
 		}
 	}

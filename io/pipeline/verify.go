@@ -78,7 +78,10 @@ func Verify(dir string, log io.Writer) (*Verification, error) {
 			continue
 		}
 		inputs[in.Path] = true
-		p := filepath.Join(dir, filepath.FromSlash(in.Path))
+		p := filepath.FromSlash(in.Path)
+		if !filepath.IsAbs(p) {
+			p = filepath.Join(dir, p)
+		}
 		n, sum, err := HashFile(p)
 		if err != nil {
 			v.Differences = append(v.Differences, &Difference{File: in.Path, InputError: fmt.Sprintf("input %s: cannot be read (%v); put it back where the record says (relative to %s)", in.Path, unwrapPath(err), dir)})
@@ -103,6 +106,17 @@ func Verify(dir string, log io.Writer) (*Verification, error) {
 		return nil, err
 	}
 	s.Out, s.Force, s.Quiet, s.JSON = abs, false, true, false
+	var absolute []string
+	for _, o := range Options() {
+		for _, val := range s.Get(o.Name) {
+			if o.Name != "out" && IsPath(o.Name, val) && filepath.IsAbs(val) {
+				absolute = append(absolute, val)
+			}
+		}
+	}
+	if len(absolute) > 0 {
+		v.Notes = append(v.Notes, fmt.Sprintf("the record names inputs by absolute path (%s): this folder reproduces only where those paths exist; give relative paths to keep a folder movable", strings.Join(absolute, ", ")))
+	}
 	fmt.Fprintf(log, "rerunning %s\n", record)
 	r, err := Run(s, log)
 	if err != nil {

@@ -1,0 +1,354 @@
+package main
+
+// Command files, batches, verify and interruption, tried through the real
+// commands as a user would.
+
+import (
+	"bytes"
+	"encoding/json"
+	"errors"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/bandsolve/bandsolve/io/demo"
+	"github.com/bandsolve/bandsolve/io/pipeline"
+)
+
+// writeDemoInputs writes the invented demo series and blank into dir.
+func writeDemoInputs(t *testing.T, dir string) {
+	t.Helper()
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	for name, b := range demo.Make(1).Files() {
+		if err := os.WriteFile(filepath.Join(dir, name), b, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+}
+
+func writeText(t *testing.T, path, text string) {
+	t.Helper()
+	if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(path, []byte(text), 0o644); err != nil {
+		t.Fatal(err)
+	}
+}
+
+func summaryOf(t *testing.T, dir string) map[string]any {
+	t.Helper()
+	b, err := os.ReadFile(filepath.Join(dir, "summary.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var m map[string]any
+	if err := json.Unmarshal(b, &m); err != nil {
+		t.Fatal(err)
+	}
+	return m
+}
+
+const quickSettings = "kind single-beam\npre 3\nreport off\nbands off\n"
+
+func TestRunCommandFile(t *testing.T) {
+	root := t.TempDir()
+	writeDemoInputs(t, filepath.Join(root, "data"))
+	file := filepath.Join(root, "exp", "exp1.bsr")
+	writeText(t, file, "# demo data, two components forced\npaths-from ../data\ndata series.csv\nblank 'blank.csv'\n"+quickSettings+"components 2   # fewer than the rank\n")
+	r := run("run", file, "--quiet")
+	if r.code != 0 {
+		t.Fatalf("exit %d: %s", r.code, r.stderr)
+	}
+	// No out in the file and none given: NAME-results beside the file.
+	out := filepath.Join(root, "exp", "exp1-results")
+	if got := summaryOf(t, out)["components"]; got != 2.0 {
+		t.Errorf("components = %v, the file says 2", got)
+	}
+	// The record is a command file that gives the same analysis.
+	rec, err := os.ReadFile(filepath.Join(out, pipeline.RecordName))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, line := range []string{"paths-from       ../../data", "data             series.csv", "components       2", "seed             1", "tolerance        "} {
+		if !strings.Contains(string(rec), line) {
+			t.Errorf("as-run record lacks %q:\n%s", line, rec)
+		}
+	}
+	// Flags override the file; paths on the command line are relative to
+	// the working folder.
+	out2 := filepath.Join(root, "over")
+	r = run("run", file, "--components", "3", "--blank", filepath.Join(root, "data", "blank.csv"), "--out", out2, "--quiet")
+	if r.code != 0 {
+		t.Fatalf("exit %d: %s", r.code, r.stderr)
+	}
+	if got := summaryOf(t, out2)["components"]; got != 3.0 {
+		t.Errorf("components = %v, --components 3 should override the file", got)
+	}
+	// Rerunning the record reproduces the results (outside the record,
+	// whose paths-from depends on where the folder is).
+	out3 := filepath.Join(root, "again")
+	r = run("run", filepath.Join(out, pipeline.RecordName), "--out", out3, "--quiet")
+	if r.code != 0 {
+		t.Fatalf("rerun of the record: exit %d: %s", r.code, r.stderr)
+	}
+	for _, f := range []string{"spectra.csv", "profiles.csv", "summary.json"} {
+		a, _ := os.ReadFile(filepath.Join(out, f))
+		b, _ := os.ReadFile(filepath.Join(out3, f))
+		if len(a) == 0 || !bytes.Equal(a, b) {
+			t.Errorf("%s differs between the run and the rerun of its record", f)
+		}
+	}
+}
+
+func TestRunCommandFileErrors(t *testing.T) {
+	root := t.TempDir()
+	for _, c := range []struct{ name, text, want string }{
+		{"misspelt.bsr", "data x.csv\ncomponets 2\n", "misspelt.bsr:2:1: unknown keyword \"componets\" (did you mean \"components\"?)"},
+		{"value.bsr", "data x.csv\nclosure  maybe\n", "value.bsr:2:10: \"maybe\": want off"},
+		{"escape.bsr", "data x.csv\nout ../../elsewhere\n", "escape.bsr:2:5: out \"../../elsewhere\" leaves the command file's folder"},
+		{"network.bsr", "data https://example.org/x.jdx\n", "is a network address"},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			p := filepath.Join(root, c.name)
+			writeText(t, p, c.text)
+			r := run("run", p)
+			if r.code != exitUsage {
+				t.Errorf("exit %d, want %d", r.code, exitUsage)
+			}
+			if !strings.Contains(r.stderr, c.want) {
+				t.Errorf("stderr %q\nwant it to contain %q", r.stderr, c.want)
+			}
+		})
+	}
+	if r := run("run"); r.code != exitUsage {
+		t.Errorf("run without files: exit %d", r.code)
+	}
+}
+
+// A link inside the file's folder that points outside it does not let a
+// command file write elsewhere.
+func TestRunOutThroughLink(t *testing.T) {
+	root := t.TempDir()
+	elsewhere := t.TempDir()
+	writeDemoInputs(t, root)
+	if err := os.Symlink(elsewhere, filepath.Join(root, "link")); err != nil {
+		t.Skip("no symbolic links:", err)
+	}
+	p := filepath.Join(root, "l.bsr")
+	writeText(t, p, "data series.csv\nblank blank.csv\n"+quickSettings+"out link/results\n")
+	r := run("run", p, "--quiet")
+	if r.code != exitUsage || !strings.Contains(r.stderr, "not inside the command file's folder") {
+		t.Errorf("exit %d, stderr %q", r.code, r.stderr)
+	}
+	if ents, _ := os.ReadDir(elsewhere); len(ents) != 0 {
+		t.Errorf("something was written through the link: %v", ents)
+	}
+}
+
+// Several files: each runs on its own, one failure stops none of the
+// others, a table lists every outcome, the exit status says one failed.
+func TestRunBatchIsolation(t *testing.T) {
+	root := t.TempDir()
+	writeDemoInputs(t, root)
+	writeText(t, filepath.Join(root, "runs", "a.bsr"), "paths-from ..\ndata series.csv\nblank blank.csv\n"+quickSettings)
+	writeText(t, filepath.Join(root, "runs", "b.bsr"), "paths-from ..\ndata series.csv\nblnak blank.csv\n")
+	writeText(t, filepath.Join(root, "runs", "c.bsr"), "paths-from ..\ndata series.csv\n"+quickSettings+"components 2\n")
+	writeText(t, filepath.Join(root, "runs", "d.bsr"), "paths-from ..\ndata missing.csv\n")
+	out := filepath.Join(root, "batch")
+	r := run("run", filepath.Join(root, "runs", "*.bsr"), "--out", out, "--quiet")
+	if r.code != exitRun {
+		t.Errorf("exit %d, want %d when one file fails", r.code, exitRun)
+	}
+	for _, want := range []string{"4 command file(s): 2 ok, 2 failed", "a.bsr", "b.bsr:3:1: unknown keyword \"blnak\" (did you mean \"blank\"?)", "missing.csv"} {
+		if !strings.Contains(r.stdout, want) {
+			t.Errorf("summary table lacks %q:\n%s", want, r.stdout)
+		}
+	}
+	if got := summaryOf(t, filepath.Join(out, "a"))["components"]; got != 3.0 {
+		t.Errorf("a: components %v, want 3 (rank estimate)", got)
+	}
+	// c's "components 2" stays in c: the runs share no settings.
+	if got := summaryOf(t, filepath.Join(out, "c"))["components"]; got != 2.0 {
+		t.Errorf("c: components %v, want 2", got)
+	}
+	for _, f := range []string{"b", "d"} {
+		if _, err := os.Stat(filepath.Join(out, f)); !errors.Is(err, os.ErrNotExist) {
+			t.Errorf("failed run %s left an output folder", f)
+		}
+	}
+	// a alone gives the same bytes as a in the batch.
+	alone := filepath.Join(root, "alone")
+	if r := run("run", filepath.Join(root, "runs", "a.bsr"), "--out", alone, "--quiet"); r.code != 0 {
+		t.Fatal(r.stderr)
+	}
+	// (Not the record: its paths-from depends on where the folder is.)
+	for _, f := range []string{"spectra.csv", "profiles.csv", "summary.json", "rank.csv", "iterations.csv"} {
+		a, _ := os.ReadFile(filepath.Join(alone, f))
+		b, _ := os.ReadFile(filepath.Join(out, "a", f))
+		if len(a) == 0 || !bytes.Equal(a, b) {
+			t.Errorf("%s of a differs between the batch and a run on its own", f)
+		}
+	}
+}
+
+// The demo's folder holds its inputs and its check against the truth;
+// verify reproduces every file of it.
+func TestVerifyDemo(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "demo")
+	if r := run("demo", "--out", out, "--quiet"); r.code != 0 {
+		t.Fatal(r.stderr)
+	}
+	r := run("verify", out)
+	if r.code != 0 || !strings.Contains(r.stdout, "is reproduced exactly") || !strings.Contains(r.stdout, "report.html") {
+		t.Fatalf("untouched demo folder: exit %d\n%s\n%s", r.code, r.stdout, r.stderr)
+	}
+}
+
+func TestVerifyFindsChanges(t *testing.T) {
+	root := t.TempDir()
+	writeDemoInputs(t, filepath.Join(root, "data"))
+	if err := os.Mkdir(filepath.Join(root, "results"), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	// Relative paths, as typed in a shell: they keep the folder movable.
+	t.Chdir(root)
+	out := filepath.Join("results", "r1")
+	if r := run("resolve", "--data", "data/series.csv", "--blank", "data/blank.csv",
+		"--pre", "3", "--report", "off", "--bands", "off", "--out", out, "--quiet"); r.code != 0 {
+		t.Fatal(r.stderr)
+	}
+	if r := run("verify", out, "--quiet"); r.code != 0 {
+		t.Fatalf("untouched folder: exit %d: %s", r.code, r.stderr)
+	}
+	// A changed result file is named with its first differing line.
+	spectra := filepath.Join(out, "spectra.csv")
+	orig, err := os.ReadFile(spectra)
+	if err != nil {
+		t.Fatal(err)
+	}
+	lines := strings.SplitAfter(string(orig), "\n")
+	lines[6] = strings.Replace(lines[6], ",", ",9", 1)
+	writeText(t, spectra, strings.Join(lines, ""))
+	r := run("verify", out, "--quiet")
+	if r.code != exitRun || !strings.Contains(r.stderr, "spectra.csv:7: differs") {
+		t.Errorf("tampered spectra.csv: exit %d, stderr %q", r.code, r.stderr)
+	}
+	writeText(t, spectra, string(orig))
+	// A changed input is caught by its SHA-256 before any rerun.
+	blank := filepath.Join(root, "data", "blank.csv")
+	b, _ := os.ReadFile(blank)
+	writeText(t, blank, string(b)+"\n")
+	r = run("verify", out, "--quiet")
+	if r.code != exitRun || !strings.Contains(r.stderr, "input ../../data/blank.csv: SHA-256 mismatch") {
+		t.Errorf("tampered input: exit %d, stderr %q", r.code, r.stderr)
+	}
+	writeText(t, blank, string(b))
+	// The folder moves with its inputs: same relative places, same bytes.
+	moved := filepath.Join(t.TempDir(), "elsewhere")
+	if err := os.Rename(root, moved); err != nil {
+		t.Skip("cannot move the folder:", err)
+	}
+	if r := run("verify", filepath.Join(moved, "results", "r1"), "--quiet"); r.code != 0 {
+		t.Errorf("moved folder: exit %d: %s", r.code, r.stderr)
+	}
+	if r := run("verify", filepath.Join(moved, "nowhere")); r.code != exitUsage {
+		t.Errorf("verify of a missing folder: exit %d", r.code)
+	}
+}
+
+// Inputs named by absolute paths are checked where they are, and verify
+// says that the folder is tied to them.
+func TestVerifyAbsoluteInputs(t *testing.T) {
+	root := t.TempDir()
+	writeDemoInputs(t, root)
+	out := filepath.Join(root, "r")
+	if r := run("resolve", "--data", filepath.Join(root, "series.csv"), "--blank", filepath.Join(root, "blank.csv"),
+		"--pre", "3", "--report", "off", "--bands", "off", "--out", out, "--quiet"); r.code != 0 {
+		t.Fatal(r.stderr)
+	}
+	r := run("verify", out)
+	if r.code != 0 || !strings.Contains(r.stdout, "names inputs by absolute path") {
+		t.Errorf("exit %d, stdout %q, stderr %q", r.code, r.stdout, r.stderr)
+	}
+}
+
+// TestMainProcess is not a test: TestInterrupt runs the test binary as the
+// bandsolve command through it.
+func TestMainProcess(t *testing.T) {
+	if os.Getenv("BANDSOLVE_TEST_MAIN") != "1" {
+		t.Skip("helper process only")
+	}
+	args := os.Args
+	for i, a := range args {
+		if a == "--" {
+			args = args[i+1:]
+			break
+		}
+	}
+	os.Exit(mainArgs(args, pipeline.Streams{Out: os.Stdout, Err: os.Stderr}))
+}
+
+// An interrupted run leaves the earlier results as they were and removes
+// its staging folder.
+func TestInterrupt(t *testing.T) {
+	root := t.TempDir()
+	out := filepath.Join(root, "demo")
+	// Earlier results, which the interrupted run was told to replace.
+	writeText(t, filepath.Join(out, "summary.json"), "{\"earlier\": true}\n")
+	cmd := exec.Command(os.Args[0], "-test.run=^TestMainProcess$", "--", "demo", "--out", out, "--force", "--quiet")
+	cmd.Env = append(os.Environ(), "BANDSOLVE_TEST_MAIN=1")
+	var stderr bytes.Buffer
+	cmd.Stderr = &stderr
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	// Wait until the run has its staging folder (the demo stages before it
+	// computes), then interrupt it.
+	partial := func() []string {
+		m, _ := filepath.Glob(filepath.Join(root, ".demo.partial-*"))
+		return m
+	}
+	done := make(chan error, 1)
+	go func() { done <- cmd.Wait() }()
+	var exited error
+	signalled := false
+wait:
+	for {
+		select {
+		case exited = <-done:
+			break wait
+		default:
+		}
+		if !signalled && len(partial()) > 0 {
+			cmd.Process.Signal(os.Interrupt)
+			signalled = true
+		}
+		time.Sleep(time.Millisecond)
+	}
+	if !signalled || exited == nil {
+		t.Skip("the run completed before it could be interrupted")
+	}
+	var ee *exec.ExitError
+	if !errors.As(exited, &ee) || ee.ExitCode() != exitInterrupted {
+		t.Fatalf("exit %v, want %d; stderr %s", exited, exitInterrupted, stderr.String())
+	}
+	if !strings.Contains(stderr.String(), "earlier results are untouched") {
+		t.Errorf("stderr %q does not say what was kept", stderr.String())
+	}
+	if p := partial(); len(p) > 0 {
+		t.Errorf("staging folder left behind: %v", p)
+	}
+	after, err := os.ReadFile(filepath.Join(out, "summary.json"))
+	if err != nil || string(after) != "{\"earlier\": true}\n" {
+		t.Errorf("earlier results changed by the interrupted run: %q (%v)", after, err)
+	}
+	if ents, _ := os.ReadDir(out); len(ents) != 1 {
+		t.Errorf("the output folder holds %d entries, want only the earlier file", len(ents))
+	}
+}

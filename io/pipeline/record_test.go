@@ -1,0 +1,187 @@
+package pipeline
+
+import (
+	"bytes"
+	"fmt"
+	"os"
+	"path/filepath"
+	"reflect"
+	"runtime"
+	"strings"
+	"testing"
+
+	"github.com/bandsolve/bandsolve/io/demo"
+	"github.com/bandsolve/bandsolve/io/output"
+)
+
+// writeScans writes a subset of the demo's single beams as a folder of
+// two-column files named by their time, plus the blank.
+func writeScans(t *testing.T, dir string, every int) {
+	t.Helper()
+	tr := demo.Make(1)
+	for i := 0; i < len(tr.Times); i += every {
+		tab := output.Table{Header: []string{"wavenumber", "intensity"}}
+		for j, x := range tr.Axis {
+			tab.Rows = append(tab.Rows, []string{output.Float(x), output.Float(tr.Beams.At(i, j))})
+		}
+		writeFile(t, filepath.Join(dir, "scans", fmt.Sprintf("scan_%04g.csv", tr.Times[i])), tab.CSV())
+	}
+	tab := output.Table{Header: []string{"wavenumber", "intensity"}}
+	for j, x := range tr.Axis {
+		tab.Rows = append(tab.Rows, []string{output.Float(x), output.Float(tr.Blank[j])})
+	}
+	writeFile(t, filepath.Join(dir, "blank.csv"), tab.CSV())
+}
+
+func scanSettings(dir, out string) *Settings {
+	s := NewSettings()
+	s.Dir = dir
+	s.Data = []string{"scans"}
+	s.TimesFromName = true
+	s.Kind = "single-beam"
+	s.Blank = "blank.csv"
+	s.Pre = 1
+	s.Model = "A -> B -> C"
+	s.Out = out
+	s.Quiet = true
+	return s
+}
+
+func folderFiles(t *testing.T, dir string) map[string][]byte {
+	t.Helper()
+	names, err := listFiles(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := map[string][]byte{}
+	for _, n := range names {
+		b, err := os.ReadFile(filepath.Join(dir, n))
+		if err != nil {
+			t.Fatal(err)
+		}
+		got[n] = b
+	}
+	return got
+}
+
+// Same inputs, same bytes: two runs, and GOMAXPROCS 1 against 2 (the
+// readers, the factor analysis and the report work in parallel chunks).
+// Every file is compared except the manifest, whose start time differs.
+func TestDeterministicAcrossRunsAndThreads(t *testing.T) {
+	dir := t.TempDir()
+	writeScans(t, dir, 4)
+	prev := runtime.GOMAXPROCS(0)
+	defer runtime.GOMAXPROCS(prev)
+	var ref map[string][]byte
+	for i, procs := range []int{2, 1, 2} {
+		runtime.GOMAXPROCS(procs)
+		out := fmt.Sprintf("out%d", i)
+		if _, err := Execute(scanSettings(dir, out), Streams{Out: &bytes.Buffer{}, Err: &bytes.Buffer{}}); err != nil {
+			t.Fatal(err)
+		}
+		got := folderFiles(t, filepath.Join(dir, out))
+		delete(got, ManifestName)
+		if ref == nil {
+			ref = got
+			for _, f := range []string{"spectra.csv", "profiles.csv", "summary.json", RecordName, "report.html"} {
+				if _, ok := got[f]; !ok {
+					t.Fatalf("the run wrote no %s", f)
+				}
+			}
+			continue
+		}
+		if len(got) != len(ref) {
+			t.Errorf("run %d (GOMAXPROCS %d) wrote %d files, the first %d", i+1, procs, len(got), len(ref))
+		}
+		for name, want := range ref {
+			if d := firstDifference(name, want, got[name]); d != nil {
+				t.Errorf("run %d (GOMAXPROCS %d): %s", i+1, procs, d)
+			}
+		}
+	}
+}
+
+// The as-run record read back gives every recorded setting its value.
+func TestRecordReadsBack(t *testing.T) {
+	dir := t.TempDir()
+	writeScans(t, dir, 10)
+	s := scanSettings(dir, "out")
+	s.Kind = "" // the record makes the kind explicit
+	s.Regions = []string{"1850:1050"}
+	s.Excludes = []string{"1400:1350", "1300:1290"}
+	s.Map = "A=1,B=2,C=3"
+	s.Report, s.Bands = "off", "off"
+	s.MaxIter = 500
+	if _, err := Execute(s, Streams{Out: &bytes.Buffer{}, Err: &bytes.Buffer{}}); err != nil {
+		t.Fatal(err)
+	}
+	rec := filepath.Join(dir, "out", RecordName)
+	back := NewSettings()
+	if _, err := LoadCommandFile(rec, back, nil); err != nil {
+		t.Fatal(err)
+	}
+	if filepath.Clean(back.Dir) != filepath.Clean(dir) {
+		t.Errorf("record's folder %s, the run's %s", back.Dir, dir)
+	}
+	s.Kind = "single-beam"
+	for _, o := range Options() {
+		if !o.Record {
+			continue
+		}
+		if got, want := back.Get(o.Name), s.Get(o.Name); !reflect.DeepEqual(got, want) {
+			t.Errorf("%s: record gives %q, the run had %q", o.Name, got, want)
+		}
+	}
+	text, _ := os.ReadFile(rec)
+	for _, o := range Options() {
+		if o.Record != strings.Contains(string(text), "\n"+o.Name+" ") {
+			t.Errorf("%s: recorded %v, want %v", o.Name, !o.Record, o.Record)
+		}
+	}
+	m, err := ReadManifest(filepath.Join(dir, "out"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Every scan file read (11 of the demo's 101 times), then the blank,
+	// each with its SHA-256, named relative to the output folder.
+	if len(m.Inputs) != 12 || m.Inputs[0].Path != "../scans/scan_0000.csv" || m.Inputs[11].Path != "../blank.csv" {
+		t.Fatalf("manifest inputs %+v", m.Inputs)
+	}
+	_, sum, _ := HashFile(filepath.Join(dir, "blank.csv"))
+	if m.Inputs[11].SHA256 != sum || len(sum) != 64 {
+		t.Errorf("blank's SHA-256 %s, recorded %s", sum, m.Inputs[11].SHA256)
+	}
+	if m.Seed != 1 || m.Version != Version || m.Host.OS != runtime.GOOS || m.Started == "" {
+		t.Errorf("manifest %+v", m)
+	}
+}
+
+func TestFirstDifference(t *testing.T) {
+	for _, c := range []struct {
+		a, b string
+		line int
+	}{
+		{"x\ny\n", "x\ny\n", 0},
+		{"x\ny\n", "x\nz\n", 2},
+		{"x\ny\n", "x\ny\nz\n", 3},
+		{"x\ny\n", "x\ny", 2},
+	} {
+		d := firstDifference("f", []byte(c.a), []byte(c.b))
+		switch {
+		case c.line == 0 && d != nil:
+			t.Errorf("%q vs %q: %v", c.a, c.b, d)
+		case c.line > 0 && (d == nil || d.Line != c.line):
+			t.Errorf("%q vs %q: %v, want line %d", c.a, c.b, d, c.line)
+		}
+	}
+}
+
+// SHA-256 of "abc": FIPS 180-2, Appendix B.1.
+func TestHashFileKnownVector(t *testing.T) {
+	p := filepath.Join(t.TempDir(), "abc")
+	writeFile(t, p, []byte("abc"))
+	n, sum, err := HashFile(p)
+	if err != nil || n != 3 || sum != "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad" {
+		t.Errorf("HashFile(abc) = %d, %s, %v", n, sum, err)
+	}
+}
