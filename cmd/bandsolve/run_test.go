@@ -7,6 +7,7 @@ import (
 	"bytes"
 	"encoding/json"
 	"errors"
+	"fmt"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -249,6 +250,29 @@ func TestVerifyFindsChanges(t *testing.T) {
 		t.Errorf("tampered input: exit %d, stderr %q", r.code, r.stderr)
 	}
 	writeText(t, blank, string(b))
+	// A spectrum added to a data folder is named as an input not listed.
+	tr := demo.Make(1)
+	scans := filepath.Join(root, "scans")
+	for i := 0; i < len(tr.Times); i += 10 {
+		var b strings.Builder
+		b.WriteString("wavenumber,intensity\n")
+		for j, x := range tr.Axis {
+			fmt.Fprintf(&b, "%g,%g\n", x, tr.Beams.At(i, j))
+		}
+		writeText(t, filepath.Join(scans, fmt.Sprintf("scan_%04g.csv", tr.Times[i])), b.String())
+	}
+	if r := run("resolve", "--data", "scans", "--times-from-name", "--blank", "data/blank.csv", "--pre", "1",
+		"--report", "off", "--bands", "off", "--out", "results/r2", "--quiet"); r.code != 0 {
+		t.Fatal(r.stderr)
+	}
+	extra, _ := os.ReadFile(filepath.Join(scans, "scan_3000.csv"))
+	writeText(t, filepath.Join(scans, "scan_3600.csv"), string(extra))
+	r = run("verify", filepath.Join("results", "r2"), "--quiet")
+	if r.code != exitRun || !strings.Contains(r.stderr, "the rerun also read ../../scans/scan_3600.csv, which the manifest does not list") {
+		t.Errorf("added spectrum: exit %d, stderr %q", r.code, r.stderr)
+	}
+	os.RemoveAll(scans)
+	os.RemoveAll(filepath.Join(root, "results", "r2"))
 	// The folder moves with its inputs: same relative places, same bytes.
 	moved := filepath.Join(t.TempDir(), "elsewhere")
 	if err := os.Rename(root, moved); err != nil {

@@ -148,6 +148,14 @@ func Verify(dir string, log io.Writer) (*Verification, error) {
 	if err := finish(r, stage, nil, Streams{Out: io.Discard, Err: io.Discard}); err != nil {
 		return nil, fmt.Errorf("rerun: %w", err)
 	}
+	// The rerun must have read exactly the files the manifest lists (a file
+	// added to a data folder, or a record edited to name other inputs,
+	// shows here with its name).
+	if rm, err := ReadManifest(stage.Dir); err == nil {
+		if d := inputsDiffer(m.Inputs, rm.Inputs); d != "" {
+			v.Differences = append(v.Differences, &Difference{File: ManifestName, InputError: d})
+		}
+	}
 	written := stage.Files()[len(m.Supplied):]
 	all, err := listFiles(stage.Dir)
 	if err != nil {
@@ -202,6 +210,33 @@ func Verify(dir string, log io.Writer) (*Verification, error) {
 		v.Notes = append(v.Notes, fmt.Sprintf("not compared, as no analysis writes them (the command that made the folder did): %s", strings.Join(extra, ", ")))
 	}
 	return v, nil
+}
+
+// inputsDiffer describes the first difference between the inputs a run
+// read and those its rerun read, "" when they are the same.
+func inputsDiffer(was, now []InputFile) string {
+	wasSum, nowSum := map[string]string{}, map[string]string{}
+	for _, f := range was {
+		wasSum[f.Path] = f.SHA256
+	}
+	for _, f := range now {
+		nowSum[f.Path] = f.SHA256
+	}
+	for _, f := range now {
+		if _, ok := wasSum[f.Path]; !ok {
+			return fmt.Sprintf("the rerun also read %s, which the manifest does not list (a file added to a data folder, or a record naming other inputs?)", f.Path)
+		}
+	}
+	for _, f := range was {
+		sum, ok := nowSum[f.Path]
+		switch {
+		case !ok:
+			return fmt.Sprintf("the rerun did not read %s, which the manifest lists (a file removed from a data folder, or a record naming other inputs?)", f.Path)
+		case sum != f.SHA256:
+			return fmt.Sprintf("input %s changed during the rerun", f.Path)
+		}
+	}
+	return ""
 }
 
 func unwrapPath(err error) error {
