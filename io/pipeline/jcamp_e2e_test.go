@@ -348,3 +348,44 @@ func TestJCAMPTransmittance(t *testing.T) {
 		t.Error("a refused run left an output folder")
 	}
 }
+
+// spectra.jdx holds every resolved spectrum, and io/jcamp reads it back to
+// the values of spectra.csv (nine significant digits of the largest |Y|,
+// as the writer promises).
+func TestSpectraWrittenAsJCAMP(t *testing.T) {
+	dir := t.TempDir()
+	writeScans(t, dir, 10)
+	s := scanSettings(dir, "out")
+	s.Report, s.Bands, s.Model = "off", "off", ""
+	r, err := Execute(s, Streams{Out: &bytes.Buffer{}, Err: &bytes.Buffer{}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	blocks, err := jcamp.ReadFile(filepath.Join(dir, "out", SpectraJCAMP))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(blocks) != r.Components || r.Components < 2 {
+		t.Fatalf("%d blocks for %d components", len(blocks), r.Components)
+	}
+	for k, b := range blocks {
+		if b.Title != r.Names[k] || b.Kind() != "absorbance" || b.XUnits != "1/CM" {
+			t.Errorf("block %d: title %q kind %q x units %q", k+1, b.Title, b.Kind(), b.XUnits)
+		}
+		big := 0.0
+		for i := range r.Axis {
+			big = math.Max(big, math.Abs(r.ALS.S.At(i, k)))
+		}
+		for i, x := range r.Axis {
+			if b.X[i] != x && math.Abs(b.X[i]-x) > 1e-9*math.Abs(x) {
+				t.Fatalf("block %d point %d: x %v, axis %v", k+1, i, b.X[i], x)
+			}
+			if d := math.Abs(b.Y[i] - r.ALS.S.At(i, k)); d > 1e-8*big {
+				t.Fatalf("block %d point %d: y %v, resolved %v", k+1, i, b.Y[i], r.ALS.S.At(i, k))
+			}
+		}
+	}
+	if _, err := os.Stat(filepath.Join(dir, "out", SpectraJCAMP)); err != nil {
+		t.Fatal(err)
+	}
+}
