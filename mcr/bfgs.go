@@ -40,6 +40,7 @@ func minimiseBFGS(f func(x, g []float64) float64, x0 []float64, maxEval int) ([]
 	y := make([]float64, n)
 	hy := make([]float64, n)
 	stall := 0
+	fresh := true // h was just reset
 	for evals < maxEval {
 		for i := 0; i < n; i++ {
 			v := 0.0
@@ -50,9 +51,16 @@ func minimiseBFGS(f func(x, g []float64) float64, x0 []float64, maxEval int) ([]
 		}
 		slope := dot(d, g)
 		if !(slope < 0) {
+			// No descent direction even along the gradient (a zero or
+			// non-finite gradient): this point is as good as it gets.
+			if fresh {
+				break
+			}
 			resetH()
+			fresh = true
 			continue
 		}
+		fresh = false
 		step, accepted := 1.0, false
 		var fn float64
 		for ls := 0; ls < 40 && evals < maxEval; ls++ {
