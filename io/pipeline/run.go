@@ -444,7 +444,7 @@ func resolve(r *Result, log io.Writer) error {
 		}
 	}
 	fmt.Fprintf(log, "resolving %d component(s)\n", k)
-	res, err := mcr.Resolve(data, c0, opt)
+	res, err := startALS(r, data, c0, opt)
 	if err != nil {
 		return explainResolveError(r, err)
 	}
@@ -519,7 +519,7 @@ func initialProfiles(r *Result, k int) (*mat.Dense, string, error) {
 	s := r.Settings
 	n, _ := r.D.Dims()
 	switch s.Init {
-	case "purest", "":
+	case "purest", "auto", "":
 		idx, err := svd.Purest(r.D, k, 5, r.Mode == mcr.Reactions)
 		if err != nil {
 			if s.Components != "auto" {

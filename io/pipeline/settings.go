@@ -80,7 +80,7 @@ func NewSettings() *Settings {
 		Bands:      "on",
 		Checks:     "on",
 		Seed:       1,
-		Init:       "purest",
+		Init:       "auto",
 		EFAWindows: "off",
 		Alpha:      0.05,
 		MaxIter:    1000,
@@ -375,7 +375,7 @@ var options = func() []Option {
 		return nil
 	}, func(s *Settings) []string { return []string{strconv.FormatUint(s.Seed, 10)} }))
 	s21, g21 := str(func(s *Settings) *string { return &s.Init })
-	add(opt("init", "purest|efa|FILE", "initial profiles: purest variables, evolving factor analysis, or a profiles CSV", false, true, s21, g21))
+	add(opt("init", "auto|purest|efa|FILE", "initial profiles: auto (resolve from purest variables and from EFA, keep the better final fit), purest, efa, or a profiles CSV", false, true, s21, g21))
 	s22, g22 := choice(func(s *Settings) *string { return &s.EFAWindows }, "on", "off")
 	add(opt("efa-windows", "on|off", "pin profiles to zero where evolving factor analysis finds a component absent", false, true, s22, g22))
 	s23, g23 := number(func(s *Settings) *float64 { return &s.Alpha }, func(x float64) bool { return x > 0 && x < 1 }, "a significance level between 0 and 1")

@@ -1,0 +1,184 @@
+package pipeline
+
+import (
+	"bufio"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"runtime"
+	"strconv"
+	"testing"
+
+	"github.com/bandsolve/bandsolve/io/spectra"
+	"github.com/bandsolve/bandsolve/mcr"
+	"gonum.org/v1/gonum/mat"
+)
+
+// writeLarge writes an n × m single-beam series with nsp species in
+// sequential first-order steps, plus a blank, as matrix CSV files.
+func writeLarge(tb testing.TB, dir string, n, m, nsp int) (series, blank string) {
+	tb.Helper()
+	axis := make([]float64, m)
+	for j := range axis {
+		axis[j] = 4000 - float64(j)*3000/float64(m-1)
+	}
+	spec := mat.NewDense(m, nsp, nil)
+	for k := 0; k < nsp; k++ {
+		for j, x := range axis {
+			v := 0.0
+			for b := 0; b < 3; b++ {
+				c := 1000 + float64((k*3+b)*197%2900)
+				d := (x - c) / (12 + float64(b*5))
+				v += (0.2 + 0.1*float64(b)) * math.Exp(-0.5*d*d)
+			}
+			spec.Set(j, k, v)
+		}
+	}
+	conc := mat.NewDense(n, nsp, nil)
+	for i := 0; i < n; i++ {
+		// Sequential first-order chain solved step by step (Euler on a fine
+		// grid is plenty for benchmark data).
+		t := float64(i)
+		c := make([]float64, nsp)
+		c[0] = 1
+		const dt = 0.25
+		for s := 0.0; s < t; s += dt {
+			for k := nsp - 2; k >= 0; k-- {
+				f := 4.0 / float64(n) * float64(k+1) * c[k] * dt
+				c[k] -= f
+				c[k+1] += f
+			}
+		}
+		conc.SetRow(i, c)
+	}
+	var a mat.Dense
+	a.Mul(conc, spec.T())
+	rng := rand.New(rand.NewPCG(1, 2))
+	series, blank = filepath.Join(dir, "series.csv"), filepath.Join(dir, "blank.csv")
+	f, err := os.Create(series)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	w := bufio.NewWriterSize(f, 1<<20)
+	w.WriteString("wavenumber")
+	for i := 0; i < n; i++ {
+		fmt.Fprintf(w, ",%d", i)
+	}
+	w.WriteByte('\n')
+	env := func(x float64) float64 { u := (x - 2200) / 1800; return 3e4 * math.Exp(-u*u) }
+	buf := make([]byte, 0, 32)
+	for j, x := range axis {
+		w.WriteString(strconv.FormatFloat(x, 'g', 8, 64))
+		for i := 0; i < n; i++ {
+			v := env(x) * math.Pow(10, -a.At(i, j)) * (1 + 1e-3*rng.NormFloat64())
+			w.WriteByte(',')
+			buf = strconv.AppendFloat(buf[:0], v, 'g', 8, 64)
+			w.Write(buf)
+		}
+		w.WriteByte('\n')
+	}
+	w.Flush()
+	f.Close()
+	bf, err := os.Create(blank)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	bw := bufio.NewWriter(bf)
+	bw.WriteString("wavenumber,intensity\n")
+	for _, x := range axis {
+		fmt.Fprintf(bw, "%g,%g\n", x, env(x)*(1+1e-3*rng.NormFloat64()))
+	}
+	bw.Flush()
+	bf.Close()
+	return series, blank
+}
+
+func benchResolve(b *testing.B, n, m int) {
+	dir := b.TempDir()
+	series, blank := writeLarge(b, dir, n, m, 5)
+	s := NewSettings()
+	s.Data, s.Kind, s.Blank = []string{series}, "single-beam", blank
+	s.Bands = "off"
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		r, err := Run(s, nil)
+		if err != nil {
+			b.Fatal(err)
+		}
+		b.ReportMetric(float64(r.ALS.Iterations), "iterations")
+		b.ReportMetric(float64(r.Components), "components")
+	}
+	reportPeakMemory(b)
+}
+
+func reportPeakMemory(b *testing.B) {
+	var ms runtime.MemStats
+	runtime.ReadMemStats(&ms)
+	b.ReportMetric(float64(ms.Sys)/(1<<20), "MB-sys")
+}
+
+// BenchmarkResolve100x1000 and BenchmarkResolve2000x3001 run the whole
+// analysis (read, assemble, SVD, rank, ALS) on single beams plus a blank.
+func BenchmarkResolve100x1000(b *testing.B)  { benchResolve(b, 100, 1000) }
+func BenchmarkResolve2000x3001(b *testing.B) { benchResolve(b, 2000, 3001) }
+
+// BenchmarkParse2000x3001 is the floor a whole resolve is compared with:
+// merely reading the same CSV.
+func BenchmarkParse2000x3001(b *testing.B) {
+	dir := b.TempDir()
+	series, _ := writeLarge(b, dir, 2000, 3001, 5)
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if _, err := spectra.ReadMatrixCSV(series); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkALSBaseline2000x3001 is the practitioner's script: ALS on the
+// full matrix with NNLS solved row by row and column by column (Lawson–
+// Hanson on the data, no compression, no shared Gram matrix), for the
+// speed-up ratio reported in docs/performance.md. It runs a fixed 10
+// iterations; divide by 10 for the cost of one.
+func BenchmarkALSBaseline2000x3001(b *testing.B) {
+	dir := b.TempDir()
+	series, blank := writeLarge(b, dir, 2000, 3001, 5)
+	s := NewSettings()
+	s.Data, s.Kind, s.Blank, s.MaxIter, s.Components = []string{series}, "single-beam", blank, 1, "5"
+	r, err := Run(s, nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	d := r.D
+	c := mat.DenseCopyOf(r.ALS.C)
+	b.ResetTimer()
+	for it := 0; it < b.N; it++ {
+		for iter := 0; iter < 10; iter++ {
+			c = baselineIteration(b, d, c)
+		}
+	}
+}
+
+func baselineIteration(b *testing.B, d, c *mat.Dense) *mat.Dense {
+	n, m := d.Dims()
+	_, k := c.Dims()
+	st := mat.NewDense(m, k, nil)
+	for j := 0; j < m; j++ {
+		x, err := mcr.NNLS(c, mat.Col(nil, j, d))
+		if err != nil {
+			b.Fatal(err)
+		}
+		st.SetRow(j, x)
+	}
+	cn := mat.NewDense(n, k, nil)
+	for i := 0; i < n; i++ {
+		x, err := mcr.NNLS(st, d.RawRowView(i))
+		if err != nil {
+			b.Fatal(err)
+		}
+		cn.SetRow(i, x)
+	}
+	return cn
+}
