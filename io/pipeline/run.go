@@ -64,6 +64,7 @@ type Result struct {
 	Explained  float64
 	NoiseLOF   float64 // lack of fit % that noise alone would give
 	Compressed bool
+	EFA        *EFAReport
 	Init       string
 	Warnings   []string
 	Notes      []string
@@ -322,6 +323,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	if err := resolve(r, log); err != nil {
 		return nil, err
 	}
+	computeEFA(r)
 	if err := fitKinetics(r, log); err != nil {
 		return nil, err
 	}

@@ -40,6 +40,7 @@ type Summary struct {
 	ComponentNames           []string        `json:"component_names"`
 	FeasibleBands            []BandJSON      `json:"feasible_bands"`
 	Kinetics                 *KineticsJSON   `json:"kinetics,omitempty"`
+	EFA                      *EFAJSON        `json:"efa,omitempty"`
 	Advice                   []string        `json:"advice"`
 	Notes                    []string        `json:"notes"`
 	Warnings                 []string        `json:"warnings"`
@@ -149,6 +150,9 @@ func MakeSummary(r *Result) *Summary {
 	}
 	if r.Kinetics != nil {
 		s.Kinetics = kineticsSummary(r)
+	}
+	if r.EFA != nil {
+		s.EFA = r.EFA.summary(r)
 	}
 	if r.ALS != nil {
 		s.Iterations, s.Converged = r.ALS.Iterations, r.ALS.Converged
@@ -296,9 +300,6 @@ func PrintTable(r *Result, w io.Writer) {
 			}
 			fmt.Fprintf(w, "  %-12s profile max %.4g at t = %g s\n", name, mx, r.Times[at])
 		}
-	}
-	if r.Kinetics != nil {
-		printKinetics(r, w)
 	}
 	printConstraints(r, w)
 	if r.Kinetics != nil {

@@ -365,6 +365,26 @@ func efaFigure(f *Folder) (*Figure, error) {
 		}
 		return c
 	}
+	// Windows smaller than the rank have exact zeros (log10 of rounding,
+	// around −14): they would squash the curves that matter, so values
+	// more than 1.5 decades below the noise threshold are drawn at that
+	// floor.
+	floor := math.Inf(-1)
+	for _, j := range threshold {
+		for _, v := range val(j) {
+			floor = math.Max(floor, v-1.5)
+		}
+	}
+	if !math.IsInf(floor, -1) {
+		raw := val
+		val = func(j int) []float64 {
+			c := raw(j)
+			for i := range c {
+				c[i] = math.Max(c[i], floor)
+			}
+			return c
+		}
+	}
 	xl := "time / s"
 	if h := strings.ToLower(t.Header[xj]); !strings.HasPrefix(h, "time") {
 		xl = "spectrum number"
@@ -390,6 +410,9 @@ func efaFigure(f *Folder) (*Figure, error) {
 		legend = append(legend, LegendItem{Label: fmt.Sprintf("value %d", k+1), Colour: componentColour(k)})
 	}
 	legend = append(legend, LegendItem{Label: "forward (solid)", Colour: okabeBlack}, LegendItem{Label: "backward (dashed)", Colour: okabeBlack, Dash: []float64{5, 3}})
+	if len(threshold) > 0 {
+		legend = append(legend, LegendItem{Label: "noise level", Colour: grey, Dash: []float64{2, 2}})
+	}
 	svg, err := render(p, nil, figW, figH)
 	if err != nil {
 		return nil, fmt.Errorf("evolving factor analysis: %w", err)

@@ -1,0 +1,128 @@
+package pipeline
+
+import (
+	"fmt"
+	"math"
+	"strconv"
+
+	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/svd"
+)
+
+// EFAReport is evolving factor analysis of the resolved matrix (Gampp,
+// Maeder, Meyer & Zuberbühler, Talanta 1985; Maeder, Anal. Chem. 1987): where
+// in time each component appears and disappears, and the local rank.
+type EFAReport struct {
+	Result  *svd.EFAResult
+	Windows *svd.EFAWindows
+	Factors int
+	// Threshold[i] is log10 of the noise level a singular value of the
+	// first (or last) i+1 rows must pass: σ(√(i+1) + √m), the random-matrix
+	// edge of that block (Geman 1980).
+	Threshold []float64
+}
+
+// EFAJSON is the summary's "efa" entry.
+type EFAJSON struct {
+	Factors     int        `json:"factors"`
+	Components  []EFAEntry `json:"components"`
+	Method      string     `json:"method"`
+	Experiments int        `json:"experiments_joined"`
+}
+
+// EFAEntry gives one component's window in seconds (null when not found).
+type EFAEntry struct {
+	Component  string   `json:"component"`
+	AppearS    *float64 `json:"appear_s"`
+	DisappearS *float64 `json:"disappear_s"`
+}
+
+func init() { afterWrite = append(afterWrite, writeEFA) }
+
+// computeEFA runs EFA with one factor more than the components, so the
+// noise level shows as the first curve that stays flat.
+func computeEFA(r *Result) {
+	if r.Components < 1 {
+		return
+	}
+	n, m := r.D.Dims()
+	f := min(r.Components+1, n, m)
+	e, err := svd.EFA(r.D, f)
+	if err != nil {
+		r.Warnings = append(r.Warnings, fmt.Sprintf("evolving factor analysis skipped: %v", err))
+		return
+	}
+	rep := &EFAReport{Result: e, Factors: f, Windows: e.Windows(r.Components, r.Rank.Sigma)}
+	sigma := r.Rank.Sigma
+	if !(sigma > 0) {
+		sigma = e.Sigma
+	}
+	rep.Threshold = make([]float64, n)
+	for i := range rep.Threshold {
+		v := sigma * (math.Sqrt(float64(i+1)) + math.Sqrt(float64(m)))
+		rep.Threshold[i] = math.Log10(math.Max(v, e.Floor))
+	}
+	r.EFA = rep
+}
+
+func (rep *EFAReport) summary(r *Result) *EFAJSON {
+	out := &EFAJSON{Factors: rep.Factors, Experiments: len(r.Experiments), Method: "exact"}
+	if !rep.Result.Exact {
+		out.Method = fmt.Sprintf("projection on %d leading right singular vectors", rep.Result.Columns)
+	}
+	w := rep.Windows
+	for j, name := range r.Names {
+		e := EFAEntry{Component: name}
+		if j < len(w.Appear) && w.Appear[j] >= 0 {
+			t := round(r.Times[w.Appear[j]])
+			e.AppearS = &t
+		}
+		if j < len(w.Disappear) && w.Disappear[j] >= 0 {
+			t := round(r.Times[w.Disappear[j]])
+			e.DisappearS = &t
+		}
+		out.Components = append(out.Components, e)
+	}
+	return out
+}
+
+// writeEFA writes efa.csv: time, the log10 singular values of the forward
+// and backward windows, the noise threshold and the local rank.
+func writeEFA(r *Result, st *output.Stage) error {
+	rep := r.EFA
+	if rep == nil {
+		return nil
+	}
+	h := []string{"time"}
+	if len(r.Experiments) > 1 {
+		h = []string{"experiment", "time"}
+	}
+	for k := 1; k <= rep.Factors; k++ {
+		h = append(h, "log10_forward_"+strconv.Itoa(k))
+	}
+	for k := 1; k <= rep.Factors; k++ {
+		h = append(h, "log10_backward_"+strconv.Itoa(k))
+	}
+	h = append(h, "log10_noise_threshold", "local_rank")
+	t := output.Table{Header: h}
+	for i, tm := range r.Times {
+		var row []string
+		if len(r.Experiments) > 1 {
+			row = append(row, strconv.Itoa(r.ExpOfRow[i]+1))
+		}
+		row = append(row, output.Float(tm))
+		for k := 0; k < rep.Factors; k++ {
+			row = append(row, output.Float(rep.Result.Forward.At(i, k)))
+		}
+		for k := 0; k < rep.Factors; k++ {
+			row = append(row, output.Float(rep.Result.Backward.At(i, k)))
+		}
+		lr := 0
+		if i < len(rep.Windows.LocalRank) {
+			lr = rep.Windows.LocalRank[i]
+		}
+		row = append(row, output.Float(rep.Threshold[i]), strconv.Itoa(lr))
+		t.Rows = append(t.Rows, row)
+	}
+	return st.Write("efa.csv", t.CSV())
+}
