@@ -64,7 +64,7 @@ func runVerify(args []string, st pipeline.Streams) int {
 	}
 	if !*quiet {
 		fmt.Fprintf(st.Out, "inputs     %d file(s), SHA-256 as recorded\n", v.Inputs)
-		fmt.Fprintf(st.Out, "compared   %d file(s), byte for byte: %s\n", len(v.Compared), joinMax(v.Compared, 12))
+		fmt.Fprintf(st.Out, "compared   %d file(s), byte for byte: %s\n", len(v.Compared), joinMax(v.Compared, 40))
 		fmt.Fprintf(st.Out, "verified   %s is reproduced exactly\n", dir)
 	}
 	return exitOK
