@@ -131,6 +131,15 @@ type Options struct {
 	// cycle (hard–soft MCR, de Juan et al. 2000). It gets the soft profiles
 	// and returns the profiles to use.
 	HardModel func(c *mat.Dense) (*mat.Dense, error)
+	// Ridge, when positive, adds Ridge·tr(SᵀS)/k to the diagonal of the
+	// profiles step's Gram matrix (Tikhonov regularisation). Reactions mode
+	// uses it: with signed spectra and only X ≥ 0, ALS can drift toward a
+	// degenerate pair of nearly equal extents with huge, cancelling spectra
+	// that fits no better; a tiny ridge makes that drift uphill (the
+	// "swamp" remedy of Navasca, De Lathauwer & Kindermann 2008, from
+	// memory) while changing a well-conditioned solution by far less than
+	// the noise.
+	Ridge float64
 	// NoExtrapolation turns off the line search between iterations (plain
 	// ALS, for comparison and tests).
 	NoExtrapolation bool
@@ -330,7 +339,11 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		// Profiles step: Gram SᵀS, right-hand sides Sᵀ Dᵀ.
 		ds := d.MulSpectra(s) // n × k
 		g = gram(s)
-		pr := Problem{G: g, B: transpose(ds), NonNeg: nnP, FixMask: zeroMask, Fixed: zerosKN, Passive: passC}
+		gp := g
+		if opt.Ridge > 0 {
+			gp = ridged(g, opt.Ridge)
+		}
+		pr := Problem{G: gp, B: transpose(ds), NonNeg: nnP, FixMask: zeroMask, Fixed: zerosKN, Passive: passC}
 		if opt.Closure {
 			pr.Equality, pr.Total = eq, opt.Total
 		}
@@ -550,4 +563,19 @@ func floatsMaxAbs(x []float64) float64 {
 		m = math.Max(m, math.Abs(v))
 	}
 	return m
+}
+
+// ridged returns g + λ·(tr g / k)·I.
+func ridged(g *mat.SymDense, lambda float64) *mat.SymDense {
+	k, _ := g.Dims()
+	tr := 0.0
+	for i := 0; i < k; i++ {
+		tr += g.At(i, i)
+	}
+	out := mat.NewSymDense(k, nil)
+	out.CopySym(g)
+	for i := 0; i < k; i++ {
+		out.SetSym(i, i, g.At(i, i)+lambda*tr/float64(k))
+	}
+	return out
 }

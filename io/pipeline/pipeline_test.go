@@ -307,3 +307,55 @@ func TestNoChangeIsNotAnError(t *testing.T) {
 		t.Errorf("notes %q do not say that nothing changed", r.Notes)
 	}
 }
+
+// Reactions mode must not drift into a two-factor degeneracy (two nearly
+// equal extents with huge, cancelling spectra — a known failure of
+// alternating least squares, Harshman & Lundy 1984, from memory). On the
+// demo's difference data each reaction spectrum must stay the size of the
+// data (common practice: a reaction spectrum at extent 1 cannot exceed the
+// largest absorbance change by orders of magnitude) and the extents must
+// stay distinct.
+func TestReactionsModeNoDegeneracy(t *testing.T) {
+	truth := demo.Make(1)
+	dir := t.TempDir()
+	files := truth.Files()
+	path := filepath.Join(dir, "series.csv")
+	if err := os.WriteFile(path, files["series.csv"], 0o644); err != nil {
+		t.Fatal(err)
+	}
+	s := NewSettings()
+	s.Data, s.Kind, s.Pre, s.Bands = []string{path}, "single-beam", truth.Pre, "off"
+	r, err := Run(s, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Mode.String() != "reactions" || r.Components != 2 {
+		t.Fatalf("mode %s components %d; want reactions, 2", r.Mode, r.Components)
+	}
+	largest := 0.0
+	n, m := r.D.Dims()
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			largest = math.Max(largest, math.Abs(r.D.At(i, j)))
+		}
+	}
+	for j := 0; j < 2; j++ {
+		if mx := floatsMaxAbs(mat.Col(nil, j, r.ALS.S)); mx > 5*largest {
+			t.Errorf("reaction spectrum %d reaches %.3g, the data only %.3g: degenerate", j+1, mx, largest)
+		}
+	}
+	if c := Cosine(mat.Col(nil, 0, r.ALS.C), mat.Col(nil, 1, r.ALS.C)); c > 0.99 {
+		t.Errorf("extents have cosine %.5f: degenerate pair", c)
+	}
+	if r.LackOfFit > 1.3*r.NoiseLOF {
+		t.Errorf("lack of fit %.4g %% above the noise level %.4g %%", r.LackOfFit, r.NoiseLOF)
+	}
+}
+
+func floatsMaxAbs(x []float64) float64 {
+	m := 0.0
+	for _, v := range x {
+		m = math.Max(m, math.Abs(v))
+	}
+	return m
+}
