@@ -5,6 +5,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 
 	"github.com/bandsolve/bandsolve/io/demo"
@@ -212,6 +213,20 @@ func TestReactionsModeOneReaction(t *testing.T) {
 	}
 	if r.Mode.String() != "reactions" || r.Rank.Estimate != 1 {
 		t.Fatalf("mode %s rank %d (%s); want reactions, 1 — the reference's own noise must not count", r.Mode, r.Rank.Estimate, r.Rank.Reason)
+	}
+	// The reference's noise, −log10 of one noise draw in every row, has
+	// singular value ≈ σ√(nm), far above the noise edge σ(√n+√m): it must be
+	// recognised and explained, not silently dropped (PRIMER §1: the fixed
+	// pattern is flat in time and white across the axis).
+	if r.Rank.ReferencePatternFactor < 0 {
+		t.Errorf("the reference-noise pattern was not recognised (%s)", r.Rank.Reason)
+	}
+	explained := false
+	for _, a := range r.Advice {
+		explained = explained || strings.Contains(a, "reference spectrum's own noise")
+	}
+	if !explained {
+		t.Errorf("advice %q does not explain the reference-noise factor", r.Advice)
 	}
 	want := add(mat.Col(nil, 1, d.spectra))
 	sa := mat.Col(nil, 0, d.spectra)

@@ -303,6 +303,9 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 		r.Advice = append(r.Advice, fmt.Sprintf("difference data has rank %d = the number of independent reactions; to resolve species give a blank single beam (--blank) or absorbance input", rank.Estimate))
 	}
 	r.Warnings = append(r.Warnings, rank.Warnings...)
+	if rank.ReferencePatternFactor >= 0 {
+		r.Advice = append(r.Advice, fmt.Sprintf("factor %d is the reference spectrum's own noise (flat in time, white across the axis): one fixed pattern in every difference spectrum, not a reaction, so it is not counted; averaging several pre-reaction spectra as the reference (--pre N --reference mean:N) shrinks it by √N", rank.ReferencePatternFactor+1))
+	}
 
 	k := rank.Estimate
 	if s.Components != "auto" {
