@@ -2,6 +2,8 @@ package pipeline
 
 import (
 	"fmt"
+	"os"
+	"sort"
 
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/report"
@@ -62,9 +64,31 @@ func writeReport(r *Result, stage *output.Stage) error {
 	if r.Settings.Report == "off" {
 		return nil
 	}
-	b, err := report.BuildDir(stage.Dir)
+	f, err := report.Load(stage.Dir)
 	if err != nil {
 		return fmt.Errorf("report: %w", err)
+	}
+	b, err := report.Build(f)
+	if err != nil {
+		return fmt.Errorf("report: %w", err)
+	}
+	// The figures as files too (SVG and PNG, legend included), for papers
+	// and slides; sorted so the files are written in a fixed order.
+	files, _ := report.FigureFiles(f)
+	if len(files) > 0 {
+		if err := os.MkdirAll(stage.Path("figures"), 0o755); err != nil {
+			return fmt.Errorf("report: %w", err)
+		}
+		names := make([]string, 0, len(files))
+		for name := range files {
+			names = append(names, name)
+		}
+		sort.Strings(names)
+		for _, name := range names {
+			if err := stage.Write(name, files[name]); err != nil {
+				return err
+			}
+		}
 	}
 	return stage.Write("report.html", b)
 }

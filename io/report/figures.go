@@ -184,12 +184,12 @@ func overlayFigure(f *Folder, m *Matrix, ax axisStyle, id, title, ylabel, captio
 			return nil, fmt.Errorf("%s: %w", id, err)
 		}
 	}
-	svg, err := render(p, nil, figW, figH)
+	svg, dr, err := render(p, nil, figW, figH)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", id, err)
 	}
 	cap := fmt.Sprintf("%s %d of %d spectra shown, from t = %s s (dark) to t = %s s (light).", caption, len(sel), len(rows), trimFloat(t0, 4), trimFloat(t1, 4))
-	return &Figure{ID: id, Title: title, Caption: cap, SVG: svg, Legend: timeLegend(nil, t0, t1)}, nil
+	return &Figure{ID: id, Title: title, Caption: cap, SVG: svg, drawing: dr, Legend: timeLegend(nil, t0, t1)}, nil
 }
 
 // mapFigure draws a matrix as a time × axis image with a signed colour scale.
@@ -224,11 +224,11 @@ func mapFigure(f *Folder, m *Matrix, ax axisStyle, id, title, unit string, q flo
 	ax.apply(p)
 	p.Add(raster{img: img, xmin: r[0], xmax: r[1], ymin: r[2], ymax: r[3]})
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = r[0], r[1], r[2], r[3]
-	svg, err := render(p, colourBar(lim, unit+" (absorbance)"), figW, figH)
+	svg, dr, err := render(p, colourBar(lim, unit+" (absorbance)"), figW, figH)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", id, err)
 	}
-	return &Figure{ID: id, Title: title, Caption: caption, SVG: svg}, nil
+	return &Figure{ID: id, Title: title, Caption: caption, SVG: svg, drawing: dr}, nil
 }
 
 // singularFigure: singular values on a log scale, the noise edge and the rank.
@@ -276,7 +276,7 @@ func singularFigure(f *Folder) (*Figure, error) {
 	addPoints(p, out, grey, true)
 	p.X.Min, p.X.Max = 0.5, float64(n)+0.5
 	p.Y.Min, p.Y.Max = ymin/1.5, ymax*1.5
-	svg, err := render(p, nil, figW, figH)
+	svg, dr, err := render(p, nil, figW, figH)
 	if err != nil {
 		return nil, fmt.Errorf("singular values: %w", err)
 	}
@@ -289,7 +289,7 @@ func singularFigure(f *Folder) (*Figure, error) {
 	if n < len(ks) {
 		cap += fmt.Sprintf(" First %d of %d shown.", n, len(ks))
 	}
-	return &Figure{ID: "fig-singular", Title: "Singular values and the rank", Caption: cap, SVG: svg, Legend: legend}, nil
+	return &Figure{ID: "fig-singular", Title: "Singular values and the rank", Caption: cap, SVG: svg, drawing: dr, Legend: legend}, nil
 }
 
 func xsOf(xy plotter.XYs, x bool) []float64 {
@@ -413,11 +413,11 @@ func efaFigure(f *Folder) (*Figure, error) {
 	if len(threshold) > 0 {
 		legend = append(legend, LegendItem{Label: "noise level", Colour: grey, Dash: []float64{2, 2}})
 	}
-	svg, err := render(p, nil, figW, figH)
+	svg, dr, err := render(p, nil, figW, figH)
 	if err != nil {
 		return nil, fmt.Errorf("evolving factor analysis: %w", err)
 	}
-	return &Figure{ID: "fig-efa", Title: "Evolving factor analysis", SVG: svg, Legend: legend,
+	return &Figure{ID: "fig-efa", Title: "Evolving factor analysis", SVG: svg, drawing: dr, Legend: legend,
 		Caption: "Singular values of the first spectra up to each time (forward, solid) and of the last ones from each time on (backward, dashed). A component appears where a new forward value rises out of the noise and disappears where its backward value sinks into it (Gampp et al. 1985; Maeder 1987)."}, nil
 }
 
@@ -466,7 +466,7 @@ func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 		}
 		legend = append(legend, LegendItem{Label: t.Header[j], Colour: componentColour(k), Dash: dashOf(k)})
 	}
-	svg, err := render(p, nil, figW, figH)
+	svg, dr, err := render(p, nil, figW, figH)
 	if err != nil {
 		return nil, fmt.Errorf("spectra: %w", err)
 	}
@@ -480,7 +480,7 @@ func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 		cap += " Shaded: " + envelopeWords(f) + "."
 		legend = append(legend, LegendItem{Label: "feasible range / interval", Colour: tint(okabeBlue, 0.6), Fill: true})
 	}
-	return &Figure{ID: "fig-spectra", Title: title, Caption: cap, SVG: svg, Legend: legend}, nil
+	return &Figure{ID: "fig-spectra", Title: title, Caption: cap, SVG: svg, drawing: dr, Legend: legend}, nil
 }
 
 // longEnvelope reads the long tables bands.csv and intervals.csv
@@ -618,7 +618,7 @@ func profilesFigure(f *Folder) (*Figure, error) {
 			legend = append(legend, LegendItem{Label: cv.label, Colour: lc, Dash: cv.dash})
 		}
 	}
-	svg, err := render(p, nil, figW, figH)
+	svg, dr, err := render(p, nil, figW, figH)
 	if err != nil {
 		return nil, fmt.Errorf("profiles: %w", err)
 	}
@@ -636,7 +636,7 @@ func profilesFigure(f *Folder) (*Figure, error) {
 			cap += " Model: " + f.Summary.Kinetics.Model + "."
 		}
 	}
-	return &Figure{ID: "fig-profiles", Title: title, Caption: cap, SVG: svg, Legend: legend}, nil
+	return &Figure{ID: "fig-profiles", Title: title, Caption: cap, SVG: svg, drawing: dr, Legend: legend}, nil
 }
 
 func envelopeWords(f *Folder) string {
@@ -786,7 +786,7 @@ func iterationsFigure(f *Folder) (*Figure, error) {
 		return nil, err
 	}
 	p.Y.Min, p.Y.Max = ylo/1.3, yhi*1.3
-	svg, err := render(p, nil, figW, 7*figH/9)
+	svg, dr, err := render(p, nil, figW, 7*figH/9)
 	if err != nil {
 		return nil, fmt.Errorf("iterations: %w", err)
 	}
@@ -794,7 +794,7 @@ func iterationsFigure(f *Folder) (*Figure, error) {
 	if !f.Summary.Converged {
 		conv = "stopped at the iteration limit without converging"
 	}
-	return &Figure{ID: "fig-iterations", Title: "Lack of fit per iteration", SVG: svg, Legend: legend,
+	return &Figure{ID: "fig-iterations", Title: "Lack of fit per iteration", SVG: svg, drawing: dr, Legend: legend,
 		Caption: fmt.Sprintf("Alternating least squares %s after %d iterations at %s %% lack of fit. The dashed line is what noise alone would leave.", conv, f.Summary.Iterations, trimFloat(f.Summary.LackOfFitPercent, 4))}, nil
 }
 
@@ -838,10 +838,10 @@ func residualSpectrumFigure(f *Folder, m *Matrix, ax axisStyle) (*Figure, error)
 	if err := addLine(p, x, mean, okabeGreen, 1.0, []float64{6, 3}); err != nil {
 		return nil, err
 	}
-	svg, err := render(p, nil, figW, 7*figH/9)
+	svg, dr, err := render(p, nil, figW, 7*figH/9)
 	if err != nil {
 		return nil, fmt.Errorf("residual spectrum: %w", err)
 	}
-	return &Figure{ID: "fig-residual-spectrum", Title: "Residual spectrum", SVG: svg, Legend: legend,
+	return &Figure{ID: "fig-residual-spectrum", Title: "Residual spectrum", SVG: svg, drawing: dr, Legend: legend,
 		Caption: fmt.Sprintf("Residual at each point over the %d spectra kept in %s. Where the root-mean-square residual stays at the noise σ the model fits; a peak marks a band the components do not explain, and a mean away from zero a systematic misfit.", len(m.Rows), MapsFile)}, nil
 }

@@ -25,6 +25,14 @@ type Figure struct {
 	Caption string
 	Legend  []LegendItem
 	SVG     string // <svg …>…</svg>, without the XML prolog
+	drawing drawing
+}
+
+// drawing redraws a figure on any canvas, for the stand-alone figure files.
+type drawing struct {
+	draw  func(dc draw.Canvas)
+	w, h  vg.Length
+	plots []*plot.Plot
 }
 
 // LegendItem is one entry of a figure's legend, drawn in the HTML beside
@@ -226,8 +234,9 @@ func (r raster) Plot(c draw.Canvas, p *plot.Plot) {
 func (r raster) DataRange() (xmin, xmax, ymin, ymax float64) { return r.xmin, r.xmax, r.ymin, r.ymax }
 
 // render draws the plot as SVG. A second plot, when given, is a colour bar
-// drawn in a strip on the right.
-func render(p, bar *plot.Plot, w, h vg.Length) (svg string, err error) {
+// drawn in a strip on the right. It also returns the drawing itself, which
+// FigureFiles replays onto PNG and stand-alone SVG canvases.
+func render(p, bar *plot.Plot, w, h vg.Length) (svg string, dr drawing, err error) {
 	// gonum/plot panics on some degenerate inputs (an empty log axis, say);
 	// a figure that cannot be drawn is left out with the reason, it must
 	// not stop the report.
@@ -236,20 +245,25 @@ func render(p, bar *plot.Plot, w, h vg.Length) (svg string, err error) {
 			svg, err = "", fmt.Errorf("drawing failed: %v", e)
 		}
 	}()
+	dr = drawing{w: w, h: h, plots: []*plot.Plot{p, bar}, draw: func(dc draw.Canvas) {
+		if bar != nil {
+			barW := 3 * vg.Centimeter
+			p.Draw(draw.Crop(dc, 0, -barW, 0, 0))
+			bar.Draw(draw.Crop(dc, w-barW+0.3*vg.Centimeter, 0, 1.15*vg.Centimeter, 0))
+		} else {
+			p.Draw(dc)
+		}
+	}}
 	c := vgsvg.New(w, h)
-	dc := draw.New(c)
-	if bar != nil {
-		barW := 3 * vg.Centimeter
-		p.Draw(draw.Crop(dc, 0, -barW, 0, 0))
-		bar.Draw(draw.Crop(dc, w-barW+0.3*vg.Centimeter, 0, 1.15*vg.Centimeter, 0))
-	} else {
-		p.Draw(dc)
-	}
+	dr.draw(draw.New(c))
 	var b bytes.Buffer
 	if _, err := c.WriteTo(&b); err != nil {
-		return "", fmt.Errorf("writing SVG: %w", err)
+		return "", dr, fmt.Errorf("writing SVG: %w", err)
 	}
-	s := b.String()
+	return cleanSVG(b.String()), dr, nil
+}
+
+func cleanSVG(s string) string {
 	if i := strings.Index(s, "<svg"); i >= 0 {
 		s = s[i:]
 	}
@@ -258,7 +272,7 @@ func render(p, bar *plot.Plot, w, h vg.Length) (svg string, err error) {
 	// The image must fill its data rectangle exactly, not keep the pixel
 	// grid's aspect ratio (SVG's default would letterbox it).
 	s = strings.ReplaceAll(s, "<image ", `<image preserveAspectRatio="none" style="image-rendering:pixelated" `)
-	return s, nil
+	return s
 }
 
 func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }

@@ -1,0 +1,133 @@
+package report
+
+import (
+	"bytes"
+	"fmt"
+	"image/color"
+	"strings"
+
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/font"
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
+	"gonum.org/v1/plot/vg/vgimg"
+	"gonum.org/v1/plot/vg/vgsvg"
+)
+
+// FigureDPI is the resolution of the PNG figure files: 16 cm at 150 dpi is
+// 945 pixels across, sharp on screen and readable when printed at size.
+const FigureDPI = 150
+
+// FigureFiles renders every figure of the folder as stand-alone files for
+// papers and slides: figures/<id>.svg and figures/<id>.png, each with its
+// legend drawn under the plot (in report.html the legend is HTML beside it).
+// Like the report, they depend only on the folder's files.
+func FigureFiles(f *Folder) (map[string][]byte, []string) {
+	figs, problems := Figures(f)
+	out := map[string][]byte{}
+	for _, fig := range figs {
+		if fig.drawing.draw == nil {
+			continue
+		}
+		svg, png, err := standalone(fig)
+		if err != nil {
+			problems = append(problems, fmt.Sprintf("%s: %v", fig.ID, err))
+			continue
+		}
+		out["figures/"+fig.ID+".svg"] = svg
+		out["figures/"+fig.ID+".png"] = png
+	}
+	return out, problems
+}
+
+// legendRowH is the height of one row of the legend strip.
+const legendRowH = 0.55 * vg.Centimeter
+
+func standalone(fig Figure) (svg, png []byte, err error) {
+	defer func() {
+		if e := recover(); e != nil {
+			err = fmt.Errorf("drawing failed: %v", e)
+		}
+	}()
+	d := fig.drawing
+	perRow := 3
+	rows := (len(fig.Legend) + perRow - 1) / perRow
+	h := d.h + vg.Length(rows)*legendRowH
+	paint := func(c draw.Canvas) {
+		c.SetColor(color.White)
+		c.Fill(c.Rectangle.Path())
+		top := draw.Crop(c, 0, 0, vg.Length(rows)*legendRowH, 0)
+		d.draw(top)
+		drawLegend(c, fig.Legend, perRow, d.w)
+	}
+	sc := vgsvg.New(d.w, h)
+	paint(draw.New(sc))
+	var sb bytes.Buffer
+	sb.WriteString("<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n")
+	var raw bytes.Buffer
+	if _, err := sc.WriteTo(&raw); err != nil {
+		return nil, nil, err
+	}
+	sb.WriteString(cleanSVG(raw.String()))
+	ic := vgimg.NewWith(vgimg.UseWH(d.w, h), vgimg.UseDPI(FigureDPI))
+	// The raster font has no superscript minus: "cm⁻¹" would print as
+	// "cm¹". Axis texts are written "cm-1" in the PNG only.
+	restore := plainMinus(d.plots)
+	paint(draw.New(ic))
+	restore()
+	var pb bytes.Buffer
+	if _, err := (vgimg.PngCanvas{Canvas: ic}).WriteTo(&pb); err != nil {
+		return nil, nil, err
+	}
+	return sb.Bytes(), pb.Bytes(), nil
+}
+
+// drawLegend lays the items out in rows at the bottom of the canvas.
+func drawLegend(c draw.Canvas, items []LegendItem, perRow int, w vg.Length) {
+	if len(items) == 0 {
+		return
+	}
+	colW := (w - 1*vg.Centimeter) / vg.Length(perRow)
+	rows := (len(items) + perRow - 1) / perRow
+	sty := draw.TextStyle{Color: color.Black, Font: font.From(sans, 9), Handler: plot.DefaultTextHandler}
+	sty.YAlign = draw.YCenter
+	for i, it := range items {
+		row, col := i/perRow, i%perRow
+		x := c.Min.X + 0.5*vg.Centimeter + vg.Length(col)*colW
+		y := c.Min.Y + vg.Length(rows-row)*legendRowH - legendRowH/2
+		sw := 0.9 * vg.Centimeter
+		if it.Fill {
+			box := vg.Rectangle{Min: vg.Point{X: x, Y: y - 0.12*vg.Centimeter}, Max: vg.Point{X: x + sw, Y: y + 0.12*vg.Centimeter}}
+			c.SetColor(it.Colour)
+			c.Fill(box.Path())
+		} else {
+			ls := draw.LineStyle{Color: it.Colour, Width: vg.Points(1.6), Dashes: lengths(it.Dash)}
+			c.StrokeLine2(ls, x, y, x+sw, y)
+		}
+		c.FillText(sty, vg.Point{X: x + sw + 0.15*vg.Centimeter, Y: y}, it.Label)
+	}
+}
+
+// plainMinus replaces the superscript minus in the plots' titles and axis
+// labels and returns a function that puts the texts back.
+func plainMinus(plots []*plot.Plot) func() {
+	var undo []func()
+	swap := func(t *string) {
+		old := *t
+		*t = strings.ReplaceAll(strings.ReplaceAll(old, "⁻¹", "-1"), "⁻", "-")
+		undo = append(undo, func() { *t = old })
+	}
+	for _, p := range plots {
+		if p == nil {
+			continue
+		}
+		swap(&p.Title.Text)
+		swap(&p.X.Label.Text)
+		swap(&p.Y.Label.Text)
+	}
+	return func() {
+		for _, u := range undo {
+			u()
+		}
+	}
+}
