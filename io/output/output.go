@@ -88,6 +88,12 @@ func NewStage(out string, force bool) (*Stage, error) {
 	if err != nil {
 		return nil, fmt.Errorf("%s: cannot create a staging folder: %w", out, err)
 	}
+	// MkdirTemp makes the folder private (0700); results are ordinary
+	// files a colleague may read, like any folder made with mkdir.
+	if err := os.Chmod(dir, 0o755); err != nil {
+		os.RemoveAll(dir)
+		return nil, fmt.Errorf("%s: %w", out, err)
+	}
 	s := &Stage{Final: clean, Dir: dir, Force: force}
 	track(s)
 	return s, nil
