@@ -20,6 +20,7 @@ type EFAResult struct {
 	Columns           int        // dimension of the row space used (min(n,m) when exact)
 	Sigma             float64    // noise standard deviation estimated from D (used by Windows when noiseLevel ≤ 0)
 	n, m              int
+	fac               *Factors // the factors the sweeps used, handed on to InitialProfiles
 }
 
 // efaExactBudget bounds the flops of exact EFA: about a second of small SVDs.
@@ -64,6 +65,58 @@ func EFA(d *mat.Dense, maxFactors int) (*EFAResult, error) {
 	if err != nil {
 		return nil, fmt.Errorf("svd: EFA: %w", err)
 	}
+	return efaFromFactors(d, fac, nf, exact)
+}
+
+// EFAFrom is EFA with the factors of d already at hand (from Decompose), so
+// that a large matrix is not decomposed once more: a randomized SVD is
+// several passes over the data, the sweeps themselves only touch the n × p
+// scores. Full factors give the exact sweep where EFA would use it; otherwise
+// the leading min(len(f.S), max(2·maxFactors, maxFactors+20)) factors give
+// the projected sweep, with the same guarantees as in EFA (signal values
+// unchanged when they lie in the span, noise values lower bounds).
+func EFAFrom(d *mat.Dense, f *Factors, maxFactors int) (*EFAResult, error) {
+	if err := checkMatrix(d); err != nil {
+		return nil, fmt.Errorf("svd: EFA: %w", err)
+	}
+	n, m := d.Dims()
+	c := min(n, m)
+	if maxFactors < 0 {
+		return nil, fmt.Errorf("svd: EFA: maxFactors %d is negative", maxFactors)
+	}
+	if f == nil || f.U == nil || f.V == nil {
+		return nil, fmt.Errorf("svd: EFA: no factors given")
+	}
+	if un, _ := f.U.Dims(); un != n {
+		return nil, fmt.Errorf("svd: EFA: factors have %d rows, the data %d", un, n)
+	}
+	if vm, _ := f.V.Dims(); vm != m {
+		return nil, fmt.Errorf("svd: EFA: factors have %d columns, the data %d", vm, m)
+	}
+	nf := maxFactors
+	if nf == 0 {
+		nf = min(c, 8)
+	}
+	nf = min(nf, c)
+	exact := f.Full() && float64(n)*float64(m)*float64(c) <= exactWork && efaCost(n, c) <= efaExactBudget
+	p := len(f.S)
+	if !exact {
+		p = min(p, max(2*nf, nf+20))
+	}
+	if p < nf {
+		return nil, fmt.Errorf("svd: EFA: %d factors given, %d curves asked", len(f.S), nf)
+	}
+	fac := f
+	if p < len(f.S) {
+		fac = truncate(f.U, f.S, f.V, p)
+		fac.Method, fac.FrobeniusSq = f.Method, f.FrobeniusSq
+	}
+	return efaFromFactors(d, fac, nf, exact)
+}
+
+func efaFromFactors(d *mat.Dense, fac *Factors, nf int, exact bool) (*EFAResult, error) {
+	n, m := d.Dims()
+	var err error
 	p := len(fac.S)
 	y := mat.NewDense(n, p, nil)
 	for i := 0; i < n; i++ {
@@ -75,7 +128,7 @@ func EFA(d *mat.Dense, maxFactors int) (*EFAResult, error) {
 	if len(fac.S) > 0 && fac.S[0] > 0 {
 		floor = fac.S[0] * 1e-15
 	}
-	res := &EFAResult{Floor: floor, Exact: exact, Columns: p, n: n, m: m}
+	res := &EFAResult{Floor: floor, Exact: exact, Columns: p, n: n, m: m, fac: fac}
 	if res.Forward, err = evolve(y, nf, floor, false); err != nil {
 		return nil, fmt.Errorf("svd: EFA forward: %w", err)
 	}
@@ -184,6 +237,7 @@ type EFAWindows struct {
 	threshold         []float64
 	sigma             float64
 	fwd, bwd          *mat.Dense
+	fac               *Factors
 }
 
 // Windows turns the EFA curves into presence windows for rank components. noiseLevel is the
@@ -217,7 +271,7 @@ func (e *EFAResult) Windows(rank int, noiseLevel float64) *EFAWindows {
 	w := &EFAWindows{
 		Appear: make([]int, rank), Disappear: make([]int, rank),
 		LocalRank: make([]int, n), Present: make([][]bool, n),
-		threshold: thr, sigma: sigma, fwd: e.Forward, bwd: e.Backward,
+		threshold: thr, sigma: sigma, fwd: e.Forward, bwd: e.Backward, fac: e.fac,
 	}
 	for i := range w.Present {
 		w.Present[i] = make([]bool, rank)
@@ -279,11 +333,23 @@ func (w *EFAWindows) InitialProfiles(d *mat.Dense, rank int) *mat.Dense {
 	if rank <= 0 || rank > len(w.Appear) || len(w.Present) != n {
 		return nil
 	}
-	fac, err := Decompose(d, DecomposeOptions{MaxFactors: rank})
-	if err != nil {
-		return nil
+	// The factors EFA already computed serve when they are of this matrix:
+	// on large data a fresh randomized SVD would cost more than the rest.
+	fac := w.fac
+	if fac != nil {
+		un, _ := fac.U.Dims()
+		vm, _ := fac.V.Dims()
+		if _, m := d.Dims(); un != n || vm != m || len(fac.S) < rank {
+			fac = nil
+		}
 	}
-	r := len(fac.S)
+	if fac == nil {
+		var err error
+		if fac, err = Decompose(d, DecomposeOptions{MaxFactors: rank}); err != nil {
+			return nil
+		}
+	}
+	r := min(len(fac.S), rank)
 	y := mat.NewDense(n, r, nil)
 	for i := 0; i < n; i++ {
 		for k := 0; k < r; k++ {
@@ -388,7 +454,8 @@ func (w *EFAWindows) zeroDirection(y *mat.Dense, absent []int, g []float64) []fl
 		sub.SetRow(a, y.RawRowView(i))
 	}
 	var sv mat.SVD
-	if !sv.Factorize(sub, mat.SVDFull) {
+	// Only V is needed: the full U of a block of up to n rows would be n × n.
+	if !sv.Factorize(sub, mat.SVDFullV) {
 		return nil
 	}
 	vals := sv.Values(nil)

@@ -41,13 +41,23 @@ func init() { afterWrite = append(afterWrite, writeEFA) }
 
 // computeEFA runs EFA with one factor more than the components, so the
 // noise level shows as the first curve that stays flat.
+// It runs once per analysis: the second ALS start (--init auto) and --init
+// efa take their windows from it, and it works from the factors already
+// computed (r.Factors), since on large data a decomposition costs more than
+// the sweeps.
 func computeEFA(r *Result) {
-	if r.Components < 1 {
+	if r.Components < 1 || r.EFA != nil {
 		return
 	}
 	n, m := r.D.Dims()
 	f := min(r.Components+1, n, m)
-	e, err := svd.EFA(r.D, f)
+	var e *svd.EFAResult
+	var err error
+	if r.Factors != nil && len(r.Factors.S) >= f {
+		e, err = svd.EFAFrom(r.D, r.Factors, f)
+	} else {
+		e, err = svd.EFA(r.D, f)
+	}
 	if err != nil {
 		r.Warnings = append(r.Warnings, fmt.Sprintf("evolving factor analysis skipped: %v", err))
 		return

@@ -2,7 +2,6 @@ package pipeline
 
 import (
 	"github.com/bandsolve/bandsolve/mcr"
-	"github.com/bandsolve/bandsolve/svd"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -26,11 +25,11 @@ func startALS(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options) (*mcr.Re
 		return best, err
 	}
 	k := r.Components
-	e, err := svd.EFA(r.D, k)
-	if err != nil {
+	computeEFA(r)
+	if r.EFA == nil {
 		return best, nil
 	}
-	ce := e.Windows(k, r.Rank.Sigma).InitialProfiles(r.D, k)
+	ce := r.EFA.Windows.InitialProfiles(r.D, k)
 	if ce == nil {
 		return best, nil
 	}
