@@ -4,8 +4,10 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"runtime"
 	"strconv"
 	"strings"
+	"sync"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -122,23 +124,10 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 		}
 		out.Warnings = append(out.Warnings, saturationWarnings(s, ref, opt.Blank)...)
 		out.Difference = mat.NewDense(n, m, nil)
-		for i := 0; i < n; i++ {
-			row := s.Values.RawRowView(i)
-			dst := out.Difference.RawRowView(i)
-			for j := range row {
-				dst[j] = math.Log10(ref[j] / row[j])
-			}
-		}
 		if opt.Blank != nil {
 			out.Absolute = mat.NewDense(n, m, nil)
-			for i := 0; i < n; i++ {
-				row := s.Values.RawRowView(i)
-				dst := out.Absolute.RawRowView(i)
-				for j := range row {
-					dst[j] = math.Log10(opt.Blank[j] / row[j])
-				}
-			}
 		}
+		absorbances(s.Values, ref, opt.Blank, out.Difference, out.Absolute)
 	case Absorbance:
 		if opt.Blank != nil {
 			return nil, fmt.Errorf("a blank single beam goes with --kind single-beam; absorbance input is already ratioed")
@@ -219,12 +208,18 @@ func saturationWarnings(s *Series, ref, blank []float64) []string {
 	weak := make([]bool, m)
 	refThr := weakBeamFraction * median(ref)
 	n, _ := s.Values.Dims()
-	for j := 0; j < m; j++ {
-		hi := ref[j]
-		for i := 0; i < n; i++ {
-			hi = math.Max(hi, s.Values.At(i, j))
+	// Row by row (the matrix is stored by rows); a maximum does not depend
+	// on the order it is taken in.
+	hi := append([]float64(nil), ref...)
+	for i := 0; i < n; i++ {
+		for j, v := range s.Values.RawRowView(i) {
+			if v > hi[j] {
+				hi[j] = v
+			}
 		}
-		weak[j] = hi < refThr
+	}
+	for j := 0; j < m; j++ {
+		weak[j] = hi[j] < refThr
 	}
 	if blank != nil {
 		bThr := weakBeamFraction * median(blank)
@@ -267,4 +262,58 @@ func median(v []float64) float64 {
 		return c[len(c)/2]
 	}
 	return (c[len(c)/2-1] + c[len(c)/2]) / 2
+}
+
+// absorbances fills diff with log10(ref/I) and, when blank is given, abs with
+// log10(blank/I), for every single beam I (row of v). Each value is
+// log10(x) − log10(I) with log10(x) taken once per channel: one logarithm
+// per value instead of two, and identical beams still give exactly zero.
+// The difference of logarithms is accurate to a few units of 1e−16 in
+// absorbance, far below any measured noise. Rows are independent and are
+// shared out in fixed chunks, so the result does not depend on GOMAXPROCS.
+func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense) {
+	n, m := v.Dims()
+	lref := make([]float64, m)
+	for j, x := range ref {
+		lref[j] = math.Log10(x)
+	}
+	var lblank []float64
+	if blank != nil {
+		lblank = make([]float64, m)
+		for j, x := range blank {
+			lblank[j] = math.Log10(x)
+		}
+	}
+	const chunk = 64
+	nch := (n + chunk - 1) / chunk
+	work := make(chan int, nch)
+	for c := 0; c < nch; c++ {
+		work <- c
+	}
+	close(work)
+	var wg sync.WaitGroup
+	for w := 0; w < min(runtime.GOMAXPROCS(0), nch); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for c := range work {
+				for i := c * chunk; i < min(n, (c+1)*chunk); i++ {
+					row := v.RawRowView(i)
+					d := diff.RawRowView(i)
+					var a []float64
+					if abs != nil {
+						a = abs.RawRowView(i)
+					}
+					for j, x := range row {
+						l := math.Log10(x)
+						d[j] = lref[j] - l
+						if a != nil {
+							a[j] = lblank[j] - l
+						}
+					}
+				}
+			}
+		}()
+	}
+	wg.Wait()
 }

@@ -86,7 +86,13 @@ func SelectChannels(axis []float64, keep, exclude []Range) ([]int, error) {
 
 // Keep returns the series restricted to the given channel indices.
 func (s *Series) Keep(idx []int) *Series {
-	n, _ := s.Values.Dims()
+	n, m := s.Values.Dims()
+	if len(idx) == m && isIdentity(idx) {
+		// Every channel in order: share the values rather than copy a
+		// matrix that may be gigabytes (nothing downstream writes to it).
+		out := *s
+		return &out
+	}
 	v := mat.NewDense(n, len(idx), nil)
 	axis := make([]float64, len(idx))
 	for j, c := range idx {
@@ -102,6 +108,15 @@ func (s *Series) Keep(idx []int) *Series {
 	out := *s
 	out.Axis, out.Values = axis, v
 	return &out
+}
+
+func isIdentity(idx []int) bool {
+	for j, c := range idx {
+		if c != j {
+			return false
+		}
+	}
+	return true
 }
 
 // KeepValues restricts a spectrum to channel indices.
