@@ -3,8 +3,8 @@ package spectra
 import (
 	"fmt"
 	"math"
-	"sort"
 	"runtime"
+	"sort"
 	"strconv"
 	"strings"
 	"sync"
