@@ -283,7 +283,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	r.Rank = rank
 	if r.Mode == mcr.Species {
 		dd := stack(diffRows)
-		fd, err := svd.Decompose(dd, svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed})
+		fd, err := differenceFactors(r, dd, f, maxF)
 		if err == nil {
 			ref := -1
 			if len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
