@@ -254,11 +254,23 @@ func looksLikeDecimalComma(b []byte) bool {
 // seconds), then one row per axis point. Rows are parsed in parallel chunks;
 // each value lands at a fixed place, so the result does not depend on the
 // number of threads.
+//
+// A large file is mapped rather than copied (readMapped), so memory is the
+// values matrix plus the page cache, about the size of the data.
 func ReadMatrixCSV(path string) (*Series, error) {
-	raw, err := readAll(path)
+	raw, release, err := readMapped(path)
 	if err != nil {
 		return nil, err
 	}
+	defer release()
+	var s *Series
+	if ferr := guardFault(func() { s, err = parseMatrixCSV(path, raw) }); ferr != nil {
+		return nil, inputErr(path, 0, "do not change the file while it is read", "%v", ferr)
+	}
+	return s, err
+}
+
+func parseMatrixCSV(path string, raw []byte) (*Series, error) {
 	lines := splitLines(raw)
 	if len(lines) == 0 {
 		return nil, inputErr(path, 0, "export the spectra with a header row: axis name, then one time per spectrum", "is empty")
@@ -315,48 +327,60 @@ func ReadMatrixCSV(path string) (*Series, error) {
 		work <- c
 	}
 	close(work)
-	for w := 0; w < min(runtime.GOMAXPROCS(0), nch); w++ {
+	// parseRows is one worker's loop; a fault on the mapped file inside it
+	// becomes an error (guardFault) rather than a crash.
+	parseRows := func() {
+		var buf [][]byte
+		for c := range work {
+			for i := c * chunk; i < min(m, (c+1)*chunk); i++ {
+				l := rows[i]
+				buf = fields(l.text, sep, buf)
+				if len(buf) != n+1 {
+					hint := fmt.Sprintf("every row needs %d cells (axis + %d spectra) like the header", n+1, n)
+					if sep == ',' && len(buf) > n+1 {
+						hint += "; if the file uses decimal commas, export with decimal points"
+					}
+					errs[c] = inputErr(path, l.n, hint, "row has %d cells, header has %d", len(buf), n+1)
+					break
+				}
+				var err error
+				if axis[i], err = parseNumber(buf[0]); err != nil {
+					errs[c] = inputErr(path, l.n, "the first column must be the axis value", "axis cell: %v", err)
+					break
+				}
+				for j := 0; j < n; j++ {
+					v, err := parseNumber(buf[j+1])
+					if err != nil {
+						hint := "replace it with a number, or remove the row"
+						if looksLikeDecimalComma(buf[j+1]) {
+							hint = "the file seems to use decimal commas: export with decimal points"
+						}
+						errs[c] = inputErr(path, l.n, hint, "column %d (time %g s): %v", j+2, times[j], err)
+						break
+					}
+					raw2.Data[j*raw2.Stride+i] = v
+				}
+				if errs[c] != nil {
+					break
+				}
+			}
+		}
+	}
+	workers := min(runtime.GOMAXPROCS(0), nch)
+	faults := make([]error, workers)
+	for w := 0; w < workers; w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			var buf [][]byte
-			for c := range work {
-				for i := c * chunk; i < min(m, (c+1)*chunk); i++ {
-					l := rows[i]
-					buf = fields(l.text, sep, buf)
-					if len(buf) != n+1 {
-						hint := fmt.Sprintf("every row needs %d cells (axis + %d spectra) like the header", n+1, n)
-						if sep == ',' && len(buf) > n+1 {
-							hint += "; if the file uses decimal commas, export with decimal points"
-						}
-						errs[c] = inputErr(path, l.n, hint, "row has %d cells, header has %d", len(buf), n+1)
-						break
-					}
-					var err error
-					if axis[i], err = parseNumber(buf[0]); err != nil {
-						errs[c] = inputErr(path, l.n, "the first column must be the axis value", "axis cell: %v", err)
-						break
-					}
-					for j := 0; j < n; j++ {
-						v, err := parseNumber(buf[j+1])
-						if err != nil {
-							hint := "replace it with a number, or remove the row"
-							if looksLikeDecimalComma(buf[j+1]) {
-								hint = "the file seems to use decimal commas: export with decimal points"
-							}
-							errs[c] = inputErr(path, l.n, hint, "column %d (time %g s): %v", j+2, times[j], err)
-							break
-						}
-						raw2.Data[j*raw2.Stride+i] = v
-					}
-					if errs[c] != nil {
-						break
-					}
-				}
-			}
+			faults[w] = guardFault(parseRows)
 		}()
 	}
 	wg.Wait()
+	for _, err := range faults {
+		if err != nil {
+			return nil, inputErr(path, 0, "do not change the file while it is read", "%v", err)
+		}
+	}
 	for _, err := range errs {
 		if err != nil {
 			return nil, err
