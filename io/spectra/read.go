@@ -208,6 +208,9 @@ func parseNumber(b []byte) (float64, error) {
 	if len(b) == 0 {
 		return 0, errors.New("empty cell")
 	}
+	if v, ok := fastFloat(b); ok {
+		return v, nil
+	}
 	v, err := strconv.ParseFloat(unsafe.String(&b[0], len(b)), 64)
 	if err != nil {
 		var ne *strconv.NumError
