@@ -129,11 +129,21 @@ func efaFromFactors(d *mat.Dense, fac *Factors, nf int, exact bool) (*EFAResult,
 		floor = fac.S[0] * 1e-15
 	}
 	res := &EFAResult{Floor: floor, Exact: exact, Columns: p, n: n, m: m, fac: fac}
-	if res.Forward, err = evolve(y, nf, floor, false); err != nil {
+	// The two sweeps share nothing but y (read only): one goroutine each,
+	// and each sweep's arithmetic is the same whichever runs first.
+	var errB error
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		res.Backward, errB = evolve(y, nf, floor, true)
+	}()
+	res.Forward, err = evolve(y, nf, floor, false)
+	<-done
+	if err != nil {
 		return nil, fmt.Errorf("svd: EFA forward: %w", err)
 	}
-	if res.Backward, err = evolve(y, nf, floor, true); err != nil {
-		return nil, fmt.Errorf("svd: EFA backward: %w", err)
+	if errB != nil {
+		return nil, fmt.Errorf("svd: EFA backward: %w", errB)
 	}
 	if fac.FrobeniusSq > 0 {
 		res.Sigma = noiseSigma(d, fac)

@@ -39,20 +39,28 @@ func needTimes(s *Settings, data string) error {
 // non-negative spectrum, so the constraint contradicts the data.
 func checkClosureRows(r *Result) error {
 	n, m := r.D.Dims()
+	// One pass: each row's largest |value|, then the largest of them (the
+	// data are finite here, so plain comparisons do what math.Max does).
+	rowMax := make([]float64, n)
 	big := 0.0
 	for i := 0; i < n; i++ {
+		mx := 0.0
 		for _, v := range r.D.RawRowView(i)[:m] {
-			big = math.Max(big, math.Abs(v))
+			if v < 0 {
+				v = -v
+			}
+			if v > mx {
+				mx = v
+			}
 		}
+		rowMax[i] = mx
+		big = max(big, mx)
 	}
 	// Rows below 1e-12 of the largest value are zero to working precision
 	// of absorbance values written with ~10 digits.
 	tiny := 1e-12 * big
 	for i := 0; i < n; i++ {
-		mx := 0.0
-		for _, v := range r.D.RawRowView(i)[:m] {
-			mx = math.Max(mx, math.Abs(v))
-		}
+		mx := rowMax[i]
 		if mx <= tiny {
 			e := r.Experiments[r.ExpOfRow[i]]
 			return usage("--closure %s: the spectrum at %g s in %s is zero at every point, so its concentrations cannot sum to %s; use --closure off, or leave that spectrum out of the data", r.Settings.Closure, r.Times[i], e.Source, r.Settings.Closure)
