@@ -216,7 +216,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 			return nil, usage("--reference mean:%d: %s has only %d spectra; average at most %d", refMean, ser.Source, n, n)
 		}
 		as, err := spectra.Assemble(sub, spectra.AssembleOptions{Kind: kind, Blank: blank,
-			Reference: spectra.Reference{Mean: refMean, File: refSpec}, BlankSource: s.Blank})
+			Reference: spectra.Reference{Mean: refMean, File: refSpec}, BlankSource: s.Blank, Consume: true})
 		if err != nil {
 			return nil, inputContext(ser.Source, err)
 		}

@@ -75,6 +75,11 @@ type AssembleOptions struct {
 	Reference Reference
 	// BlankSource names the blank's file in messages ("blank" if empty).
 	BlankSource string
+	// Consume lets the result take over the series' values matrix (the
+	// absolute or the difference matrix is computed in its place) and sets
+	// s.Values to nil: one matrix fewer in memory, which matters when the
+	// data are gigabytes and the single beams are not needed afterwards.
+	Consume bool
 }
 
 // Assemble builds absorbance and difference matrices from the series.
@@ -126,13 +131,20 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 		out.Difference = mat.NewDense(n, m, nil)
 		if opt.Blank != nil {
 			out.Absolute = mat.NewDense(n, m, nil)
+			if opt.Consume {
+				out.Absolute = s.Values // each value is read before it is overwritten
+			}
 		}
 		absorbances(s.Values, ref, opt.Blank, out.Difference, out.Absolute)
 	case Absorbance:
 		if opt.Blank != nil {
 			return nil, fmt.Errorf("a blank single beam goes with --kind single-beam; absorbance input is already ratioed")
 		}
-		out.Absolute = mat.DenseCopyOf(s.Values)
+		if opt.Consume {
+			out.Absolute = s.Values
+		} else {
+			out.Absolute = mat.DenseCopyOf(s.Values)
+		}
 		if opt.Reference.File == nil {
 			meanRows(s.Values, out.ReferenceRows, ref)
 		}
@@ -148,12 +160,19 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 		if opt.Blank != nil {
 			return nil, fmt.Errorf("a blank single beam goes with --kind single-beam; difference input is already ratioed")
 		}
-		out.Difference = mat.DenseCopyOf(s.Values)
+		if opt.Consume {
+			out.Difference = s.Values
+		} else {
+			out.Difference = mat.DenseCopyOf(s.Values)
+		}
 		if opt.Reference.File != nil {
 			out.Notes = append(out.Notes, "difference input: the reference file is not used")
 		}
 	default:
 		return nil, fmt.Errorf("kind %q: use single-beam, absorbance or difference", opt.Kind)
+	}
+	if opt.Consume {
+		s.Values = nil
 	}
 	return out, nil
 }

@@ -1,0 +1,42 @@
+package spectra
+
+import (
+	"testing"
+)
+
+// Consume gives the same matrices as a copying assembly (definition of
+// absorbance and difference absorbance, as in TestAbsorbanceDefinition) for
+// every kind, and hands the values over instead of keeping them.
+func TestAssembleConsumeSameValues(t *testing.T) {
+	rows := [][]float64{{100, 10, 1000, 400}, {90, 12, 800, 410}, {80, 15, 700, 420}}
+	for _, kind := range []Kind{SingleBeam, Absorbance, Difference} {
+		var blank []float64
+		if kind == SingleBeam {
+			blank = []float64{1000, 1000, 1000, 900}
+		}
+		opt := AssembleOptions{Kind: kind, Blank: blank, Reference: Reference{Mean: 1}}
+		want, err := Assemble(series(rows...), opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		s := series(rows...)
+		opt.Consume = true
+		got, err := Assemble(s, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if s.Values != nil {
+			t.Errorf("%s: values kept after Consume", kind)
+		}
+		for i := range rows {
+			for j := range rows[0] {
+				if want.Difference.At(i, j) != got.Difference.At(i, j) {
+					t.Errorf("%s: ΔA %d,%d: %v consumed, %v copied", kind, i, j, got.Difference.At(i, j), want.Difference.At(i, j))
+				}
+				if want.Absolute != nil && want.Absolute.At(i, j) != got.Absolute.At(i, j) {
+					t.Errorf("%s: A %d,%d: %v consumed, %v copied", kind, i, j, got.Absolute.At(i, j), want.Absolute.At(i, j))
+				}
+			}
+		}
+	}
+}
