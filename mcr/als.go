@@ -147,6 +147,9 @@ type Options struct {
 	Tolerance       float64 // relative change of the residual sum of squares, default 1e-8
 	// Observe, when set, is told the lack of fit after every iteration.
 	Observe func(iter int, lackOfFitPercent float64)
+	// stopAtRoundingFloor ends ALS at the first plain iteration that
+	// raises the residual (see exactSteps in Resolve).
+	stopAtRoundingFloor bool
 }
 
 // Result of a resolution.
@@ -312,6 +315,17 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 	var cPrev *mat.Dense
 	step := 1.0
 	accelerate := opt.HardModel == nil && !opt.NoExtrapolation
+	// exactSteps: both half steps minimise the residual itself (no
+	// projection, model, ridge or soft reference in the objective), and the
+	// caller asked to stop at the rounding floor (constraint checks: a
+	// refit without a constraint can free a rotation whose Gram blocks are
+	// so ill-conditioned that it never meets the tolerance). A resolution
+	// proper keeps iterating there, since in a flat valley tiny genuine
+	// decreases alternate with rounding rises and decide between starts.
+	exactSteps := opt.stopAtRoundingFloor && opt.HardModel == nil && softRef == nil && opt.Ridge == 0
+	for _, u := range opt.Unimodal {
+		exactSteps = exactSteps && !u
+	}
 	for it := 1; it <= opt.MaxIter; it++ {
 		cPlain, sPlain, extrapolated := c, s, false
 		if accelerate && cPrev != nil {
@@ -386,6 +400,18 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 			c, s, cPrev, step = cPlain, sPlain, nil, 1
 			res.Iterations = it
 			continue
+		}
+		if !extrapolated && exactSteps && it > 1 && ssr > prev {
+			// Each half step is the exact constrained minimiser for its
+			// block, so a plain iteration cannot raise the residual: a rise
+			// means the changes have sunk below rounding (ill-conditioned
+			// Gram blocks, as when a dropped constraint frees a rotation)
+			// and more iterations would only stir rounding noise. Keep the
+			// last iterate, which fits better.
+			c, s = cPlain, sPlain
+			res.Converged = true
+			res.Iterations = it
+			break
 		}
 		if extrapolated {
 			step = math.Min(step*1.3, 20)

@@ -27,6 +27,7 @@ func CheckConstraints(d Data, fit *Result, opt Options, maxIter int) ([]Constrai
 	_, k := fit.C.Dims()
 	opt.Observe = nil
 	opt.MaxIter = maxIter
+	opt.stopAtRoundingFloor = true
 	type group struct {
 		name  string
 		drop  func(o *Options)

@@ -284,25 +284,14 @@ func median(v []float64) float64 {
 }
 
 // absorbances fills diff with log10(ref/I) and, when blank is given, abs with
-// log10(blank/I), for every single beam I (row of v). Each value is
-// log10(x) − log10(I) with log10(x) taken once per channel: one logarithm
-// per value instead of two, and identical beams still give exactly zero.
-// The difference of logarithms is accurate to a few units of 1e−16 in
-// absorbance, far below any measured noise. Rows are independent and are
-// shared out in fixed chunks, so the result does not depend on GOMAXPROCS.
+// log10(blank/I), for every single beam I (row of v); abs may be v itself
+// (each value is read before it is overwritten). The logarithm of the ratio
+// rather than a difference of logarithms: exact zero for identical beams and
+// no cancellation when I is close to the reference. Rows are independent and
+// are shared out in fixed chunks, so the result does not depend on
+// GOMAXPROCS.
 func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense) {
-	n, m := v.Dims()
-	lref := make([]float64, m)
-	for j, x := range ref {
-		lref[j] = math.Log10(x)
-	}
-	var lblank []float64
-	if blank != nil {
-		lblank = make([]float64, m)
-		for j, x := range blank {
-			lblank[j] = math.Log10(x)
-		}
-	}
+	n, _ := v.Dims()
 	const chunk = 64
 	nch := (n + chunk - 1) / chunk
 	work := make(chan int, nch)
@@ -324,10 +313,9 @@ func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense) {
 						a = abs.RawRowView(i)
 					}
 					for j, x := range row {
-						l := math.Log10(x)
-						d[j] = lref[j] - l
+						d[j] = math.Log10(ref[j] / x)
 						if a != nil {
-							a[j] = lblank[j] - l
+							a[j] = math.Log10(blank[j] / x)
 						}
 					}
 				}
