@@ -1,0 +1,84 @@
+package output
+
+import (
+	"errors"
+	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+	"testing"
+)
+
+// A stage replaces the output folder only on Commit; earlier results are
+// refused without force and kept intact when a run is aborted (the "never
+// overwrite without --force, writes atomic" rule).
+func TestStageLifecycle(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "results")
+	st, err := NewStage(out, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := st.Write("a.csv", []byte("first\n")); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := os.Stat(out); !errors.Is(err, os.ErrNotExist) {
+		t.Fatalf("the output folder exists before Commit: %v", err)
+	}
+	if err := st.Commit(); err != nil {
+		t.Fatal(err)
+	}
+	if fi, err := os.Stat(out); err != nil || fi.Mode().Perm() != 0o755 {
+		t.Fatalf("committed folder: %v, mode %v", err, fi.Mode())
+	}
+	if err := Check(out, false); !errors.Is(err, ErrExists) {
+		t.Fatalf("earlier results not refused: %v", err)
+	}
+	// An aborted forced run leaves the earlier results as they were.
+	st2, err := NewStage(out, true)
+	if err != nil {
+		t.Fatal(err)
+	}
+	st2.Write("a.csv", []byte("second\n"))
+	st2.Abort()
+	if b, _ := os.ReadFile(filepath.Join(out, "a.csv")); string(b) != "first\n" {
+		t.Fatalf("aborted run changed earlier results: %q", b)
+	}
+	// A committed forced run replaces them and leaves no staging folder.
+	st3, _ := NewStage(out, true)
+	st3.Write("a.csv", []byte("third\n"))
+	if err := st3.Commit(); err != nil {
+		t.Fatal(err)
+	}
+	if b, _ := os.ReadFile(filepath.Join(out, "a.csv")); string(b) != "third\n" {
+		t.Fatalf("forced run did not replace: %q", b)
+	}
+	ents, _ := os.ReadDir(filepath.Dir(out))
+	if len(ents) != 1 {
+		t.Fatalf("left beside the output: %v", ents)
+	}
+}
+
+// Float writes 10 significant digits that read back within half a unit in
+// the 10th digit (IEEE 754 round-to-nearest), never NaN or Inf, and +0 for
+// zeros of either sign.
+func TestFloat(t *testing.T) {
+	for _, v := range []float64{1, -2.5, 0.1234567890123, 6.02214076e23, 1e-300, 123456789012} {
+		got, err := strconv.ParseFloat(Float(v), 64)
+		if err != nil || math.Abs(got-v) > 5e-10*math.Abs(v) {
+			t.Errorf("Float(%v) = %q", v, Float(v))
+		}
+	}
+	if Float(math.Copysign(0, -1)) != "0" || Float(math.NaN()) != "" || Float(math.Inf(1)) != "" {
+		t.Error("zero, NaN or Inf formatted wrongly")
+	}
+}
+
+// CSV quoting follows RFC 4180: cells with separators, quotes or line
+// breaks are quoted, quotes doubled.
+func TestTableCSV(t *testing.T) {
+	got := string(Table{Header: []string{"a", "b"}, Rows: [][]string{{`x,y`, `say "hi"`}}}.CSV())
+	want := "a,b\n\"x,y\",\"say \"\"hi\"\"\"\n"
+	if got != want {
+		t.Errorf("got %q want %q", got, want)
+	}
+}
