@@ -263,8 +263,8 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 
 	// Factor analysis.
 	maxF := 0
-	if n*m > 2_000_000 {
-		maxF = 24
+	if largeData(n, m) {
+		maxF = largeFactors
 	}
 	fmt.Fprintf(log, "factor analysis\n")
 	f, err := svd.Decompose(r.D, svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed})
@@ -446,7 +446,7 @@ func resolve(r *Result, log io.Writer) error {
 		return err
 	}
 	var data mcr.Data = mcr.Dense{D: r.D}
-	if n*m > 2_000_000 && len(r.Factors.S) >= k {
+	if largeData(n, m) && len(r.Factors.S) >= k {
 		rr := min(len(r.Factors.S), k+8)
 		data = mcr.Compressed{U: sliceCols(r.Factors.U, rr), Sigma: r.Factors.S[:rr], V: sliceCols(r.Factors.V, rr), FrobSq: r.Factors.FrobeniusSq}
 		r.Compressed = true
