@@ -391,7 +391,7 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		}
 		// ‖D − C Sᵀ‖² = ‖D‖² − 2 tr(Cᵀ D S) + tr(CᵀC SᵀS) (trace identity;
 		// D S is reused from the profiles step, valid for the current S).
-		ssr := total - 2*traceProd(c, ds) + traceProd2(gram(c), g)
+		ssr := total - 2*traceProd(c, ds) + traceProd(gram(c), g)
 		if ssr < 0 {
 			ssr = 0
 		}
@@ -548,24 +548,13 @@ func transpose(a *mat.Dense) *mat.Dense {
 	return mat.DenseCopyOf(a.T())
 }
 
-// traceProd returns tr(Aᵀ B) = Σ a_ij b_ij.
-func traceProd(a, b *mat.Dense) float64 {
+// traceProd returns tr(Aᵀ B) = Σ a_ij b_ij (for symmetric B also tr(A B)).
+func traceProd(a, b mat.Matrix) float64 {
 	r, c := a.Dims()
 	s := 0.0
 	for i := 0; i < r; i++ {
 		for j := 0; j < c; j++ {
 			s += a.At(i, j) * b.At(i, j)
-		}
-	}
-	return s
-}
-
-func traceProd2(a, b *mat.SymDense) float64 {
-	k, _ := a.Dims()
-	s := 0.0
-	for i := 0; i < k; i++ {
-		for j := 0; j < k; j++ {
-			s += a.At(i, j) * b.At(j, i)
 		}
 	}
 	return s

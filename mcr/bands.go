@@ -150,7 +150,7 @@ func (p *bandProblem) setup() error {
 	p.nnC = boolsOr(p.opt.NonNegProfiles, k, true)
 	p.nnS = boolsOr(p.opt.NonNegSpectra, k, p.opt.Mode == Species)
 	// ‖C Sᵀ‖² = tr(CᵀC SᵀS), on the small Gram matrices.
-	ss := traceProd2(gram(p.c), gram(p.s))
+	ss := traceProd(gram(p.c), gram(p.s))
 	if !(ss > 0) {
 		return errors.New("bands: the resolved model C Sᵀ is zero")
 	}

@@ -49,7 +49,7 @@ func lawtonSylvestre(c, s *mat.Dense, comp int) (lo, hi float64) {
 	l21, u21 := -minRatio(c, 0, 1), minRatio(s, 1, 0)
 	l12, u12 := -minRatio(c, 1, 0), minRatio(s, 0, 1)
 	gc, gs := gram(c), gram(s)
-	norm := math.Sqrt(traceProd2(gc, gs))
+	norm := math.Sqrt(traceProd(gc, gs))
 	// ‖c1 + t21 c2‖² and ‖s1 − t12 s2‖² in closed form; f_2 symmetric.
 	f := func(t12, t21 float64) float64 {
 		det := 1 - t12*t21
@@ -142,7 +142,7 @@ func threeComponent(selective bool) (*mat.Dense, *mat.Dense) {
 }
 
 func contribution(c, s *mat.Dense, j int) float64 {
-	return math.Sqrt(colNormSq(c, j) * colNormSq(s, j) / traceProd2(gram(c), gram(s)))
+	return math.Sqrt(colNormSq(c, j) * colNormSq(s, j) / traceProd(gram(c), gram(s)))
 }
 
 // With a selective time and a selective channel for every component, a
