@@ -2,6 +2,8 @@ package spectra
 
 import (
 	"fmt"
+	"github.com/gocarina/gocsv"
+	"io"
 	"math"
 	"os"
 	"path/filepath"
@@ -70,31 +72,52 @@ func ReadTimes(path string) (map[string]float64, error) {
 	if len(lines) == 1 {
 		return nil, inputErr(path, head.n, "add one row per spectrum file below the header 'file,time_s'", "times table has no rows")
 	}
-	out := make(map[string]float64, len(lines)-1)
-	byTime := map[float64]string{}
+	// gocsv maps the header's column names onto the record fields; the
+	// records come from our own line splitter, which keeps each row's line
+	// number for messages and accepts ';' and tab separators too.
+	recs := make([][]string, 0, len(lines))
 	var buf [][]byte
-	for _, l := range lines[1:] {
+	for i, l := range lines {
 		buf = fields(l.text, sep, buf)
-		if len(buf) <= max(fileCol, timeCol) {
+		if i > 0 && len(buf) <= max(fileCol, timeCol) {
 			return nil, inputErr(path, l.n, headHint, "row has %d cell(s), the header has %d", len(buf), len(hf))
 		}
-		name := string(buf[fileCol])
-		if name == "" {
-			return nil, inputErr(path, l.n, "each row needs a file name in column 'file'", "empty file name")
+		rec := make([]string, len(hf))
+		for j := 0; j < len(hf) && j < len(buf); j++ {
+			rec[j] = string(buf[j])
 		}
-		v, err := parseNumber(buf[timeCol])
+		if i == 0 {
+			for j := range rec {
+				rec[j] = strings.ToLower(rec[j])
+			}
+		}
+		recs = append(recs, rec)
+	}
+	var rows []TimeRow
+	if err := gocsv.UnmarshalCSV(&records{recs: recs}, &rows); err != nil {
+		return nil, inputErr(path, head.n, headHint, "cannot read the table: %v", err)
+	}
+	out := make(map[string]float64, len(rows))
+	byTime := map[float64]string{}
+	for i, r := range rows {
+		ln := lines[i+1].n
+		name := r.File
+		if name == "" {
+			return nil, inputErr(path, ln, "each row needs a file name in column 'file'", "empty file name")
+		}
+		v, err := parseNumber([]byte(r.TimeS))
 		if err != nil {
 			hint := "time_s must be a number of seconds"
-			if looksLikeDecimalComma(buf[timeCol]) {
+			if looksLikeDecimalComma([]byte(r.TimeS)) {
 				hint = "the table seems to use decimal commas: write times with decimal points"
 			}
-			return nil, inputErr(path, l.n, hint, "time of %s: %v", quoteCell(buf[fileCol]), err)
+			return nil, inputErr(path, ln, hint, "time of %s: %v", quoteCell([]byte(name)), err)
 		}
 		if _, dup := out[name]; dup {
-			return nil, inputErr(path, l.n, "list each file once", "file %s is listed twice", quoteCell(buf[fileCol]))
+			return nil, inputErr(path, ln, "list each file once", "file %s is listed twice", quoteCell([]byte(name)))
 		}
 		if other, dup := byTime[v]; dup {
-			return nil, inputErr(path, l.n, "each spectrum needs its own time", "%s has the same time %g s as %s", quoteCell(buf[fileCol]), v, quoteCell([]byte(other)))
+			return nil, inputErr(path, ln, "each spectrum needs its own time", "%s has the same time %g s as %s", quoteCell([]byte(name)), v, quoteCell([]byte(other)))
 		}
 		out[name], byTime[v] = v, name
 	}
@@ -323,4 +346,24 @@ func Load(path string, opt FolderOptions) (*Series, error) {
 		return seriesFromSpectra(path, sps, opt)
 	}
 	return ReadMatrixCSV(path)
+}
+
+// records feeds already-split rows to gocsv (its CSVReader interface).
+type records struct {
+	recs [][]string
+	i    int
+}
+
+func (r *records) Read() ([]string, error) {
+	if r.i >= len(r.recs) {
+		return nil, io.EOF
+	}
+	r.i++
+	return r.recs[r.i-1], nil
+}
+
+func (r *records) ReadAll() ([][]string, error) {
+	rest := r.recs[r.i:]
+	r.i = len(r.recs)
+	return rest, nil
 }
