@@ -478,6 +478,36 @@ func Residuals(d *mat.Dense, c, s *mat.Dense) (*mat.Dense, float64) {
 	return &e, 100 * math.Sqrt(frobSq(&e)/tot)
 }
 
+// LackOfFit returns 100 ‖D − C Sᵀ‖_F / ‖D‖_F on the full data without
+// storing the residual matrix: rows are taken in blocks, so the extra memory
+// is one block, not another data-sized matrix. The squares are summed in
+// the same row-by-row order as frobSq, so the value is the same to the bit
+// as Residuals'.
+func LackOfFit(d, c, s *mat.Dense) float64 {
+	n, m := d.Dims()
+	const block = 256
+	var e mat.Dense
+	ssr := 0.0
+	for lo := 0; lo < n; lo += block {
+		hi := min(n, lo+block)
+		e.Reset()
+		e.Mul(c.Slice(lo, hi, 0, c.RawMatrix().Cols), s.T())
+		for i := lo; i < hi; i++ {
+			drow := d.RawRowView(i)[:m]
+			erow := e.RawRowView(i - lo)
+			for j, v := range drow {
+				r := v - erow[j]
+				ssr += r * r
+			}
+		}
+	}
+	tot := frobSq(d)
+	if tot == 0 {
+		return 0
+	}
+	return 100 * math.Sqrt(ssr/tot)
+}
+
 func boolsOr(b []bool, k int, def bool) []bool {
 	out := make([]bool, k)
 	for j := range out {

@@ -4,6 +4,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"gonum.org/v1/gonum/mat"
 )
 
 // A warm start from any passive sets must reach the same minimiser as a cold
@@ -41,6 +43,34 @@ func TestWarmStartSameMinimiser(t *testing.T) {
 					t.Fatalf("column %d: passive set not returned", c)
 				}
 			}
+		}
+	}
+}
+
+// LackOfFit streams the residual: it must equal, to the bit, the lack of
+// fit of the stored residual matrix (definition 100‖D − CSᵀ‖/‖D‖).
+func TestLackOfFitStreamsExactly(t *testing.T) {
+	rng := rand.New(rand.NewPCG(8, 9))
+	for _, n := range []int{1, 255, 256, 257, 700} {
+		d := mat.NewDense(n, 40, nil)
+		c := mat.NewDense(n, 3, nil)
+		s := mat.NewDense(40, 3, nil)
+		for i := 0; i < n; i++ {
+			for j := 0; j < 40; j++ {
+				d.Set(i, j, rng.NormFloat64())
+			}
+			for k := 0; k < 3; k++ {
+				c.Set(i, k, rng.Float64())
+			}
+		}
+		for j := 0; j < 40; j++ {
+			for k := 0; k < 3; k++ {
+				s.Set(j, k, rng.Float64())
+			}
+		}
+		_, want := Residuals(d, c, s)
+		if got := LackOfFit(d, c, s); got != want {
+			t.Errorf("n=%d: streamed %v, stored %v", n, got, want)
 		}
 	}
 }

@@ -30,8 +30,18 @@ func writeMaps(r *Result, stage *output.Stage) error {
 	if diff := differenceMatrix(r); diff != nil {
 		mats = append(mats, report.MapMatrix{Name: "difference", At: at(diff)})
 	}
-	if r.Residual != nil {
-		mats = append(mats, report.MapMatrix{Name: "residual", At: at(r.Residual)})
+	if r.ALS != nil {
+		// Residuals only at the points maps.csv keeps, computed on demand
+		// rather than stored for the whole matrix.
+		c, s := r.ALS.C, r.ALS.S
+		_, k := c.Dims()
+		mats = append(mats, report.MapMatrix{Name: "residual", At: func(i, j int) float64 {
+			v := r.D.At(i, j)
+			for q := 0; q < k; q++ {
+				v -= c.At(i, q) * s.At(j, q)
+			}
+			return v
+		}})
 	}
 	return stage.Write(report.MapsFile, report.MapsCSV(r.Axis, r.Times, r.ExpOfRow, mats))
 }

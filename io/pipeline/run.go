@@ -59,7 +59,6 @@ type Result struct {
 	SoftALS *mcr.Result
 	// Kinetics is the kinetic fit of --model (nil without one).
 	Kinetics   *Kinetics
-	Residual   *mat.Dense
 	LackOfFit  float64 // on the full data
 	Explained  float64
 	NoiseLOF   float64 // lack of fit % that noise alone would give
@@ -485,7 +484,9 @@ func resolve(r *Result, log io.Writer) error {
 		r.SoftALS, res = res, hard
 		r.ALS = res
 	}
-	r.Residual, r.LackOfFit = mcr.Residuals(r.D, res.C, res.S)
+	// Lack of fit on the full data, streamed: the residual matrix itself
+	// would be one more data-sized matrix (480 MB at 20 000 × 3000).
+	r.LackOfFit = mcr.LackOfFit(r.D, res.C, res.S)
 	tot := frob2(r.D)
 	r.Explained = 100 * (1 - sq(r.LackOfFit/100))
 	if tot > 0 && r.Rank.Sigma > 0 {
