@@ -41,7 +41,7 @@ func sameResults(t *testing.T, want, got string) {
 
 func TestAwkwardButValidMatrix(t *testing.T) {
 	ref := goodRun(t)
-	for _, f := range []string{"ok_bom_crlf.csv", "ok_comments_blank.csv", "ok_trailing_sep.csv", "ok_semicolon.csv", "ok_tab.tsv", "ok_quoted_title.csv"} {
+	for _, f := range []string{"ok_bom_crlf.csv", "ok_comments_blank.csv", "ok_trailing_sep.csv", "ok_semicolon.csv", "ok_tab.tsv", "ok_quoted_title.csv", "ok_decimal_comma_semicolon.csv"} {
 		t.Run(f, func(t *testing.T) {
 			before := hashTree(t, badDir, "")
 			out := filepath.Join(t.TempDir(), "out")

@@ -228,6 +228,29 @@ func parseNumber(b []byte) (float64, error) {
 	return v, nil
 }
 
+// parseCell reads a number from a file whose field separator is sep. When
+// the separator is not a comma, a decimal comma is unambiguous ("1234,5;0,12",
+// the export of many European instrument and spreadsheet settings) and is
+// read as a point; in comma-separated files it cannot be told from a field
+// separator and stays an error with advice.
+func parseCell(b []byte, sep byte) (float64, error) {
+	v, err := parseNumber(b)
+	if err == nil || sep == ',' {
+		return v, err
+	}
+	i := bytes.IndexByte(b, ',')
+	if i < 0 || bytes.IndexByte(b[i+1:], ',') >= 0 || bytes.IndexByte(b, '.') >= 0 || len(b) > 64 {
+		return v, err
+	}
+	var tmp [64]byte
+	c := append(tmp[:0], b...)
+	c[i] = '.'
+	if w, err2 := parseNumber(c); err2 == nil {
+		return w, nil
+	}
+	return v, err
+}
+
 // maxMagnitude bounds accepted values: no intensity, absorbance, axis or time
 // comes near it, and squares of sums of such values stay finite, so a
 // corrupt cell cannot turn into Inf or NaN inside the factor analysis.
@@ -303,7 +326,7 @@ func parseMatrixCSV(path string, raw []byte) (*Series, error) {
 	times := make([]float64, n)
 	seen := map[float64]int{}
 	for j := 0; j < n; j++ {
-		v, err := parseNumber(hf[j+1])
+		v, err := parseCell(hf[j+1], sep)
 		if err != nil {
 			return nil, inputErr(path, head.n, "header cells after the axis name must be acquisition times in seconds", "column %d: %v", j+2, err)
 		}
@@ -347,12 +370,12 @@ func parseMatrixCSV(path string, raw []byte) (*Series, error) {
 					break
 				}
 				var err error
-				if axis[i], err = parseNumber(buf[0]); err != nil {
+				if axis[i], err = parseCell(buf[0], sep); err != nil {
 					errs[c] = inputErr(path, l.n, "the first column must be the axis value", "axis cell: %v", err)
 					break
 				}
 				for j := 0; j < n; j++ {
-					v, err := parseNumber(buf[j+1])
+					v, err := parseCell(buf[j+1], sep)
 					if err != nil {
 						hint := "replace it with a number, or remove the row"
 						if looksLikeDecimalComma(buf[j+1]) {
@@ -482,7 +505,7 @@ func ReadSpectrumFile(path string) (*Spectrum, error) {
 		buf = fields(l.text, sep, buf)
 		allNum := len(buf) > 0
 		for _, f := range buf {
-			if _, err := parseNumber(f); err != nil {
+			if _, err := parseCell(f, sep); err != nil {
 				allNum = false
 				break
 			}
@@ -516,11 +539,11 @@ func ReadSpectrumFile(path string) (*Spectrum, error) {
 			}
 			return nil, inputErr(path, l.n, hint, "row has %d columns", len(buf))
 		}
-		x, err := parseNumber(buf[0])
+		x, err := parseCell(buf[0], sep)
 		if err != nil {
 			return nil, inputErr(path, l.n, "the first column must be the axis value", "axis cell: %v", err)
 		}
-		y, err := parseNumber(buf[1])
+		y, err := parseCell(buf[1], sep)
 		if err != nil {
 			hint := "replace it with a number, or remove the row"
 			if looksLikeDecimalComma(buf[1]) {
@@ -551,9 +574,10 @@ func ReadSpectrumFile(path string) (*Spectrum, error) {
 func cleanAxisName(name string, axis []float64) string {
 	n := strings.ToLower(name)
 	switch {
-	case strings.Contains(n, "wavenumber") || strings.Contains(n, "cm-1") || strings.Contains(n, "cm^-1"):
+	case strings.Contains(n, "wavenumber") || strings.Contains(n, "wellenzahl") || strings.Contains(n, "nombre d'onde") ||
+		strings.Contains(n, "cm-1") || strings.Contains(n, "cm^-1"):
 		return "wavenumber"
-	case strings.Contains(n, "wavelength") || strings.Contains(n, "nm"):
+	case strings.Contains(n, "wavelength") || strings.Contains(n, "wellenlänge") || strings.Contains(n, "longueur d'onde") || strings.Contains(n, "nm"):
 		return "wavelength"
 	case n == "":
 		return guessAxisName(axis)

@@ -67,7 +67,8 @@ l = list(lines); c = l[5].split(","); c[2] = "NaN"; l[5] = ",".join(c); write("b
 l = list(lines); c = l[5].split(","); c[6] = "-Inf"; l[5] = ",".join(c); write("bad_inf.csv", "\n".join(l))
 l = list(lines); c = l[6].split(","); c[4] = "1e400"; l[6] = ",".join(c); write("bad_huge.csv", "\n".join(l))
 l = list(lines); c = l[3].split(","); c[1] = ""; l[3] = ",".join(c); write("bad_empty_cell.csv", "\n".join(l))
-write("bad_decimal_comma.csv", matrix(sep=";", cell=lambda v: ("%.6f" % v).replace(".", ",")))
+# Decimal commas are unambiguous with ";" separators, so this one is valid.
+write("ok_decimal_comma_semicolon.csv", matrix(sep=";", cell=lambda v: ("%.6f" % v).replace(".", ",")))
 write("bad_decimal_comma_commas.csv", matrix(sep=",", cell=lambda v: ("%.6f" % v).replace(".", ",")))
 # axis faults
 ax = list(axis); ax[5] = ax[4]; write("bad_dup_axis.csv", matrix(axis=ax))
