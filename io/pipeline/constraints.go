@@ -493,8 +493,19 @@ func computeBands(r *Result, opt mcr.Options, log io.Writer) {
 		if !band.Feasible {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("feasible band of %s: the search could not stay within the constraints; the band shown is the part reached", r.Names[j]))
 		}
+		// A contribution far above the whole signal is reached only by
+		// components that cancel each other: the constraints do not bound
+		// the rotation at all, and the maximum is wherever the search stopped.
+		if band.Max > unboundedBand {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("feasible band of %s is unbounded (its maximum %.3g is where the search stopped): the constraints allow rotations in which components cancel each other, and the answer shown is one of them; a known spectrum (--known-spectrum) or zero windows (--zero-window) bound the rotation, and a kinetic model (--model with --hard-model) picks the one that obeys it", r.Names[j], band.Max))
+		}
 	}
 }
+
+// unboundedBand: a signal contribution ‖c_k s_kᵀ‖/‖C Sᵀ‖ above this is
+// read as "no upper bound" (a single component can exceed 1 only when others
+// partly cancel it; a hundredfold needs near-total cancellation).
+const unboundedBand = 100.0
 
 // ConstraintJSON is one constraint check in summary.json.
 type ConstraintJSON struct {

@@ -374,3 +374,28 @@ func floatsMaxAbs(x []float64) float64 {
 	}
 	return m
 }
+
+// Difference data with free-sign reaction spectra and only X ≥ 0 leaves the
+// rotation unbounded (two reactions: Lawton & Sylvestre 1971 give a bounded
+// region only when both sides are non-negative). The summary must say so in
+// words instead of printing the search's stopping point as a bound.
+func TestUnboundedBandsAreSaid(t *testing.T) {
+	truth := demo.Make(1)
+	path := filepath.Join(t.TempDir(), "series.csv")
+	if err := os.WriteFile(path, truth.Files()["series.csv"], 0o644); err != nil {
+		t.Fatal(err)
+	}
+	s := NewSettings()
+	s.Data, s.Kind, s.Pre, s.Checks = []string{path}, "single-beam", truth.Pre, "off"
+	r, err := Run(s, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	said := false
+	for _, w := range r.Warnings {
+		said = said || strings.Contains(w, "is unbounded")
+	}
+	if !said {
+		t.Errorf("no warning that the reaction bands are unbounded: %q", r.Warnings)
+	}
+}
