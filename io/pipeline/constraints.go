@@ -14,6 +14,13 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
+// Types of summary.json, defined in io/output so that the report reads
+// the file with the same types the run writes it with.
+type (
+	ConstraintJSON = output.ConstraintJSON
+	BootstrapJSON  = output.BootstrapJSON
+)
+
 // ConstraintReport is what the per-component constraints, the checks, the
 // feasible bands and the bootstrap produced for one analysis.
 type ConstraintReport struct {
@@ -506,23 +513,6 @@ func computeBands(r *Result, opt mcr.Options, log io.Writer) {
 // read as "no upper bound" (a single component can exceed 1 only when others
 // partly cancel it; a hundredfold needs near-total cancellation).
 const unboundedBand = 100.0
-
-// ConstraintJSON is one constraint check in summary.json.
-type ConstraintJSON struct {
-	Constraint       string   `json:"constraint"`
-	LackOfFitWith    float64  `json:"lack_of_fit_percent_with"`
-	LackOfFitWithout float64  `json:"lack_of_fit_percent_without"`
-	Components       []string `json:"components,omitempty"`
-}
-
-// BootstrapJSON describes the resampling in summary.json.
-type BootstrapJSON struct {
-	Method     string  `json:"method"`
-	Replicates int     `json:"replicates"`
-	Resolved   int     `json:"resolved"`
-	Seed       uint64  `json:"seed"`
-	Level      float64 `json:"level"`
-}
 
 // constraintSummary fills the summary keys this file owns.
 func constraintSummary(r *Result, s *Summary) {

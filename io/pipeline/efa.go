@@ -9,6 +9,13 @@ import (
 	"github.com/bandsolve/bandsolve/svd"
 )
 
+// Types of summary.json, defined in io/output so that the report reads
+// the file with the same types the run writes it with.
+type (
+	EFAJSON  = output.EFAJSON
+	EFAEntry = output.EFAEntry
+)
+
 // EFAReport is evolving factor analysis of the resolved matrix (Gampp,
 // Maeder, Meyer & Zuberbühler, Talanta 1985; Maeder, Anal. Chem. 1987): where
 // in time each component appears and disappears, and the local rank.
@@ -20,21 +27,6 @@ type EFAReport struct {
 	// first (or last) i+1 rows must pass: σ(√(i+1) + √m), the random-matrix
 	// edge of that block (Geman 1980).
 	Threshold []float64
-}
-
-// EFAJSON is the summary's "efa" entry.
-type EFAJSON struct {
-	Factors     int        `json:"factors"`
-	Components  []EFAEntry `json:"components"`
-	Method      string     `json:"method"`
-	Experiments int        `json:"experiments_joined"`
-}
-
-// EFAEntry gives one component's window in seconds (null when not found).
-type EFAEntry struct {
-	Component  string   `json:"component"`
-	AppearS    *float64 `json:"appear_s"`
-	DisappearS *float64 `json:"disappear_s"`
 }
 
 func init() { afterWrite = append(afterWrite, writeEFA) }

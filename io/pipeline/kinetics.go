@@ -30,6 +30,14 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
+// Types of summary.json, defined in io/output so that the report reads
+// the file with the same types the run writes it with.
+type (
+	KineticMapJSON       = output.KineticMapJSON
+	InitialConcentration = output.InitialConcentration
+	KineticFitJSON       = output.KineticFitJSON
+)
+
 // Kinetics is the kinetic analysis of one resolution.
 type Kinetics struct {
 	Scheme *kinetics.Scheme
@@ -748,36 +756,6 @@ func finite(v float64) float64 {
 		return 0
 	}
 	return v
-}
-
-// KineticMapJSON says which component a species (or step) is.
-type KineticMapJSON struct {
-	Name      string `json:"name"`
-	Component int    `json:"component"`
-}
-
-// InitialConcentration of one species in the fit.
-type InitialConcentration struct {
-	Species string  `json:"species"`
-	C0      float64 `json:"c0"`
-	StdErr  float64 `json:"stderr"`
-	Fitted  bool    `json:"fitted"`
-}
-
-// KineticFitJSON is one fit in summary.json's kinetics.fits.
-type KineticFitJSON struct {
-	Method                string                 `json:"method"`
-	RateConstants         []RateConstant         `json:"rate_constants"`
-	Correlation           [][]float64            `json:"correlation"`
-	InitialConcentrations []InitialConcentration `json:"initial_concentrations"`
-	Amplitudes            []float64              `json:"amplitudes,omitempty"`
-	RMS                   float64                `json:"rms"`
-	Sigma                 float64                `json:"sigma"`
-	DegreesOfFreedom      int                    `json:"degrees_of_freedom"`
-	Iterations            int                    `json:"iterations"`
-	Converged             bool                   `json:"converged"`
-	Stiff                 bool                   `json:"stiff"`
-	Warnings              []string               `json:"warnings"`
 }
 
 // rateUnit states a step's unit: s^-1 times (concentration unit)^-(order-1).

@@ -11,93 +11,15 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
-// Summary is summary.json. Key names are part of the public contract.
-type Summary struct {
-	Tool                     string          `json:"tool"`
-	RankEstimate             int             `json:"rank_estimate"`
-	Components               int             `json:"components"`
-	Mode                     string          `json:"mode"`
-	ModeReason               string          `json:"mode_reason"`
-	LackOfFitPercent         float64         `json:"lack_of_fit_percent"`
-	ExplainedVariancePercent float64         `json:"explained_variance_percent"`
-	NoiseLackOfFitPercent    float64         `json:"noise_lack_of_fit_percent"`
-	Iterations               int             `json:"iterations"`
-	Converged                bool            `json:"converged"`
-	NoiseSigma               float64         `json:"noise_sigma"`
-	NoiseSource              string          `json:"noise_source"`
-	NoiseEdge                float64         `json:"noise_edge"`
-	RankReason               string          `json:"rank_reason"`
-	RankCriteria             []CriterionJSON `json:"rank_criteria"`
-	DifferenceRank           *int            `json:"difference_rank_estimate,omitempty"`
-	SVDMethod                string          `json:"svd_method"`
-	Compressed               bool            `json:"compressed_iterations"`
-	InitialEstimate          string          `json:"initial_estimate"`
-	Closure                  string          `json:"closure"`
-	Spectra                  int             `json:"spectra"`
-	Points                   int             `json:"points"`
-	Axis                     string          `json:"axis"`
-	Experiments              []string        `json:"experiments"`
-	ComponentNames           []string        `json:"component_names"`
-	FeasibleBands            []BandJSON      `json:"feasible_bands"`
-	Kinetics                 *KineticsJSON   `json:"kinetics,omitempty"`
-	EFA                      *EFAJSON        `json:"efa,omitempty"`
-	Advice                   []string        `json:"advice"`
-	Notes                    []string        `json:"notes"`
-	Warnings                 []string        `json:"warnings"`
-
-	// Constraints, their checks, the bands' note and the bootstrap
-	// (constraints.go; keys in docs/constraints.md).
-	BandsNote        string           `json:"feasible_bands_note,omitempty"`
-	Constraints      []string         `json:"constraints,omitempty"`
-	ConstraintChecks []ConstraintJSON `json:"constraint_checks,omitempty"`
-	Bootstrap        *BootstrapJSON   `json:"bootstrap,omitempty"`
-}
-
-// CriterionJSON is one rank criterion's verdict.
-type CriterionJSON struct {
-	Name     string `json:"name"`
-	Estimate int    `json:"estimate"`
-	Source   string `json:"source"`
-	Detail   string `json:"detail"`
-}
-
-// BandJSON is one component's feasible band.
-type BandJSON struct {
-	Component string  `json:"component"`
-	Min       float64 `json:"min"`
-	Max       float64 `json:"max"`
-}
-
-// KineticsJSON is the kinetic fit.
-type KineticsJSON struct {
-	Model         string         `json:"model"`
-	RateConstants []RateConstant `json:"rate_constants"`
-	// Method is the fit behind rate_constants: profiles, hard-soft or data
-	// (--kinetic-fit); every fit made is in Fits.
-	Method            string           `json:"method"`
-	RateLaw           string           `json:"rate_law"`
-	Fitted            string           `json:"fitted"`
-	ConcentrationUnit string           `json:"concentration_unit"`
-	T0                float64          `json:"t0_s"`
-	Map               []KineticMapJSON `json:"map"`
-	MapSource         string           `json:"map_source"`
-	Correlation       [][]float64      `json:"correlation"`
-	Stiff             bool             `json:"stiff"`
-	Fits              []KineticFitJSON `json:"fits"`
-}
-
-// RateConstant of one step, in the order the steps are written.
-type RateConstant struct {
-	Step     string  `json:"step"`
-	K        float64 `json:"k_per_s"`
-	StdErr   float64 `json:"stderr_per_s"`
-	HalfLife float64 `json:"half_life_s,omitempty"`
-	Unit     string  `json:"unit,omitempty"`
-	// HalfLifeNote says which half-life formula applies; Fixed marks a
-	// constant held at --k-fixed.
-	HalfLifeNote string `json:"half_life_note,omitempty"`
-	Fixed        bool   `json:"fixed,omitempty"`
-}
+// Types of summary.json, defined in io/output so that the report reads
+// the file with the same types the run writes it with.
+type (
+	Summary       = output.Summary
+	CriterionJSON = output.CriterionJSON
+	BandJSON      = output.BandJSON
+	KineticsJSON  = output.KineticsJSON
+	RateConstant  = output.RateConstant
+)
 
 // round keeps summary numbers to 10 significant digits, as the CSVs do.
 func round(v float64) float64 {

@@ -435,7 +435,6 @@ var page = template.Must(template.New("report").Funcs(template.FuncMap{
 		return "differs"
 	},
 	"deref":   func(p *int) int { return *p },
-	"deref64": func(p *float64) float64 { return *p },
 	"sub":     func(a, b float64) float64 { return a - b },
 	"unit": func(u string) string {
 		if u == "" || u == "s^-1" {

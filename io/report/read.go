@@ -6,6 +6,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"github.com/bandsolve/bandsolve/io/output"
 	"math"
 	"os"
 	"path/filepath"
@@ -43,80 +44,14 @@ type Text struct {
 	Body string
 }
 
-// Summary is the part of summary.json the report interprets. Key names are
-// those of the public contract.
-type Summary struct {
-	Tool                     string      `json:"tool"`
-	RankEstimate             int         `json:"rank_estimate"`
-	Components               int         `json:"components"`
-	Mode                     string      `json:"mode"`
-	ModeReason               string      `json:"mode_reason"`
-	LackOfFitPercent         float64     `json:"lack_of_fit_percent"`
-	ExplainedVariancePercent float64     `json:"explained_variance_percent"`
-	NoiseLackOfFitPercent    float64     `json:"noise_lack_of_fit_percent"`
-	Iterations               int         `json:"iterations"`
-	Converged                bool        `json:"converged"`
-	NoiseSigma               float64     `json:"noise_sigma"`
-	NoiseSource              string      `json:"noise_source"`
-	NoiseEdge                float64     `json:"noise_edge"`
-	RankReason               string      `json:"rank_reason"`
-	RankCriteria             []Criterion `json:"rank_criteria"`
-	DifferenceRank           *int        `json:"difference_rank_estimate"`
-	SVDMethod                string      `json:"svd_method"`
-	Compressed               bool        `json:"compressed_iterations"`
-	InitialEstimate          string      `json:"initial_estimate"`
-	Closure                  string      `json:"closure"`
-	Spectra                  int         `json:"spectra"`
-	Points                   int         `json:"points"`
-	Axis                     string      `json:"axis"`
-	Experiments              []string    `json:"experiments"`
-	ComponentNames           []string    `json:"component_names"`
-	FeasibleBands            []Band      `json:"feasible_bands"`
-	Kinetics                 *Kinetics   `json:"kinetics"`
-	Advice                   []string    `json:"advice"`
-	Notes                    []string    `json:"notes"`
-	Warnings                 []string    `json:"warnings"`
-	Constraints              []string    `json:"constraints"`
-	ConstraintChecks         []struct {
-		Constraint string   `json:"constraint"`
-		With       *float64 `json:"lack_of_fit_percent_with"`
-		Without    *float64 `json:"lack_of_fit_percent_without"`
-	} `json:"constraint_checks"`
-}
-
-// Criterion is one rank criterion's verdict.
-type Criterion struct {
-	Name     string `json:"name"`
-	Estimate int    `json:"estimate"`
-	Source   string `json:"source"`
-	Detail   string `json:"detail"`
-}
-
-// Band is one component's feasible band of signal contribution.
-type Band struct {
-	Component string  `json:"component"`
-	Min       float64 `json:"min"`
-	Max       float64 `json:"max"`
-}
-
-// Kinetics is the kinetic fit in summary.json.
-type Kinetics struct {
-	Model             string `json:"model"`
-	Method            string `json:"method"`
-	MapSource         string `json:"map_source"`
-	ConcentrationUnit string `json:"concentration_unit"`
-	Map               []struct {
-		Name      string `json:"name"`
-		Component int    `json:"component"`
-	} `json:"map"`
-	RateConstants []struct {
-		Step     string  `json:"step"`
-		K        float64 `json:"k_per_s"`
-		StdErr   float64 `json:"stderr_per_s"`
-		HalfLife float64 `json:"half_life_s"`
-		Unit     string  `json:"unit"`
-	} `json:"rate_constants"`
-}
+// The summary's types are the ones the run writes summary.json with
+// (io/output), so the report and the writer cannot drift apart.
+type (
+	Summary   = output.Summary
+	Criterion = output.CriterionJSON
+	Band      = output.BandJSON
+	Kinetics  = output.KineticsJSON
+)
 
 // knownKeys are the summary keys the report presents in its own words;
 // any other key is listed as it is so new results still show.

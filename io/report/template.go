@@ -86,7 +86,7 @@ nav a { color: #0072b2; margin-right: .8rem; }
 <h3>What each constraint cost</h3>
 <table>
 <tr><th>constraint</th><th>lack of fit with it / %</th><th>without it / %</th><th>cost / percentage points</th></tr>
-{{range .S.ConstraintChecks}}<tr><td>{{.Constraint}}</td><td class="n">{{if .With}}{{num (deref64 .With)}}{{else}}–{{end}}</td><td class="n">{{if .Without}}{{num (deref64 .Without)}}{{else}}–{{end}}</td><td class="n">{{if and .With .Without}}{{num (sub (deref64 .With) (deref64 .Without))}}{{else}}–{{end}}</td></tr>
+{{range .S.ConstraintChecks}}<tr><td>{{.Constraint}}</td><td class="n">{{num .LackOfFitWith}}</td><td class="n">{{num .LackOfFitWithout}}</td><td class="n">{{num (sub .LackOfFitWith .LackOfFitWithout)}}</td></tr>
 {{end}}</table>
 <p class="small">A constraint the data obey costs next to nothing; a large cost means the data disagree with it (for closure: dilution, sampling, a species without bands).</p>{{end}}
 {{if .S.Kinetics}}{{with .S.Kinetics}}

@@ -1,0 +1,155 @@
+package output
+
+// The types of summary.json. Key names are part of the public contract
+// (CONTRACT.md): add keys freely, never rename or remove one. io/pipeline
+// fills them; io/report reads the file back into the same types.
+
+// Summary is summary.json. Key names are part of the public contract.
+type Summary struct {
+	Tool                     string          `json:"tool"`
+	RankEstimate             int             `json:"rank_estimate"`
+	Components               int             `json:"components"`
+	Mode                     string          `json:"mode"`
+	ModeReason               string          `json:"mode_reason"`
+	LackOfFitPercent         float64         `json:"lack_of_fit_percent"`
+	ExplainedVariancePercent float64         `json:"explained_variance_percent"`
+	NoiseLackOfFitPercent    float64         `json:"noise_lack_of_fit_percent"`
+	Iterations               int             `json:"iterations"`
+	Converged                bool            `json:"converged"`
+	NoiseSigma               float64         `json:"noise_sigma"`
+	NoiseSource              string          `json:"noise_source"`
+	NoiseEdge                float64         `json:"noise_edge"`
+	RankReason               string          `json:"rank_reason"`
+	RankCriteria             []CriterionJSON `json:"rank_criteria"`
+	DifferenceRank           *int            `json:"difference_rank_estimate,omitempty"`
+	SVDMethod                string          `json:"svd_method"`
+	Compressed               bool            `json:"compressed_iterations"`
+	InitialEstimate          string          `json:"initial_estimate"`
+	Closure                  string          `json:"closure"`
+	Spectra                  int             `json:"spectra"`
+	Points                   int             `json:"points"`
+	Axis                     string          `json:"axis"`
+	Experiments              []string        `json:"experiments"`
+	ComponentNames           []string        `json:"component_names"`
+	FeasibleBands            []BandJSON      `json:"feasible_bands"`
+	Kinetics                 *KineticsJSON   `json:"kinetics,omitempty"`
+	EFA                      *EFAJSON        `json:"efa,omitempty"`
+	Advice                   []string        `json:"advice"`
+	Notes                    []string        `json:"notes"`
+	Warnings                 []string        `json:"warnings"`
+
+	// Constraints, their checks, the bands' note and the bootstrap
+	// (constraints.go; keys in docs/constraints.md).
+	BandsNote        string           `json:"feasible_bands_note,omitempty"`
+	Constraints      []string         `json:"constraints,omitempty"`
+	ConstraintChecks []ConstraintJSON `json:"constraint_checks,omitempty"`
+	Bootstrap        *BootstrapJSON   `json:"bootstrap,omitempty"`
+}
+
+// CriterionJSON is one rank criterion's verdict.
+type CriterionJSON struct {
+	Name     string `json:"name"`
+	Estimate int    `json:"estimate"`
+	Source   string `json:"source"`
+	Detail   string `json:"detail"`
+}
+
+// BandJSON is one component's feasible band.
+type BandJSON struct {
+	Component string  `json:"component"`
+	Min       float64 `json:"min"`
+	Max       float64 `json:"max"`
+}
+
+// KineticsJSON is the kinetic fit.
+type KineticsJSON struct {
+	Model         string         `json:"model"`
+	RateConstants []RateConstant `json:"rate_constants"`
+	// Method is the fit behind rate_constants: profiles, hard-soft or data
+	// (--kinetic-fit); every fit made is in Fits.
+	Method            string           `json:"method"`
+	RateLaw           string           `json:"rate_law"`
+	Fitted            string           `json:"fitted"`
+	ConcentrationUnit string           `json:"concentration_unit"`
+	T0                float64          `json:"t0_s"`
+	Map               []KineticMapJSON `json:"map"`
+	MapSource         string           `json:"map_source"`
+	Correlation       [][]float64      `json:"correlation"`
+	Stiff             bool             `json:"stiff"`
+	Fits              []KineticFitJSON `json:"fits"`
+}
+
+// RateConstant of one step, in the order the steps are written.
+type RateConstant struct {
+	Step     string  `json:"step"`
+	K        float64 `json:"k_per_s"`
+	StdErr   float64 `json:"stderr_per_s"`
+	HalfLife float64 `json:"half_life_s,omitempty"`
+	Unit     string  `json:"unit,omitempty"`
+	// HalfLifeNote says which half-life formula applies; Fixed marks a
+	// constant held at --k-fixed.
+	HalfLifeNote string `json:"half_life_note,omitempty"`
+	Fixed        bool   `json:"fixed,omitempty"`
+}
+
+// KineticMapJSON says which component a species (or step) is.
+type KineticMapJSON struct {
+	Name      string `json:"name"`
+	Component int    `json:"component"`
+}
+
+// InitialConcentration of one species in the fit.
+type InitialConcentration struct {
+	Species string  `json:"species"`
+	C0      float64 `json:"c0"`
+	StdErr  float64 `json:"stderr"`
+	Fitted  bool    `json:"fitted"`
+}
+
+// KineticFitJSON is one fit in summary.json's kinetics.fits.
+type KineticFitJSON struct {
+	Method                string                 `json:"method"`
+	RateConstants         []RateConstant         `json:"rate_constants"`
+	Correlation           [][]float64            `json:"correlation"`
+	InitialConcentrations []InitialConcentration `json:"initial_concentrations"`
+	Amplitudes            []float64              `json:"amplitudes,omitempty"`
+	RMS                   float64                `json:"rms"`
+	Sigma                 float64                `json:"sigma"`
+	DegreesOfFreedom      int                    `json:"degrees_of_freedom"`
+	Iterations            int                    `json:"iterations"`
+	Converged             bool                   `json:"converged"`
+	Stiff                 bool                   `json:"stiff"`
+	Warnings              []string               `json:"warnings"`
+}
+
+// ConstraintJSON is one constraint check in summary.json.
+type ConstraintJSON struct {
+	Constraint       string   `json:"constraint"`
+	LackOfFitWith    float64  `json:"lack_of_fit_percent_with"`
+	LackOfFitWithout float64  `json:"lack_of_fit_percent_without"`
+	Components       []string `json:"components,omitempty"`
+}
+
+// BootstrapJSON describes the resampling in summary.json.
+type BootstrapJSON struct {
+	Method     string  `json:"method"`
+	Replicates int     `json:"replicates"`
+	Resolved   int     `json:"resolved"`
+	Seed       uint64  `json:"seed"`
+	Level      float64 `json:"level"`
+}
+
+// EFAJSON is the summary's "efa" entry.
+type EFAJSON struct {
+	Factors     int        `json:"factors"`
+	Components  []EFAEntry `json:"components"`
+	Method      string     `json:"method"`
+	Experiments int        `json:"experiments_joined"`
+}
+
+// EFAEntry gives one component's window in seconds (null when not found).
+type EFAEntry struct {
+	Component  string   `json:"component"`
+	AppearS    *float64 `json:"appear_s"`
+	DisappearS *float64 `json:"disappear_s"`
+}
