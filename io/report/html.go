@@ -434,8 +434,8 @@ var page = template.Must(template.New("report").Funcs(template.FuncMap{
 		}
 		return "differs"
 	},
-	"deref":   func(p *int) int { return *p },
-	"sub":     func(a, b float64) float64 { return a - b },
+	"deref": func(p *int) int { return *p },
+	"sub":   func(a, b float64) float64 { return a - b },
 	"unit": func(u string) string {
 		if u == "" || u == "s^-1" {
 			return "s⁻¹"
