@@ -399,3 +399,48 @@ func TestUnboundedBandsAreSaid(t *testing.T) {
 		t.Errorf("no warning that the reaction bands are unbounded: %q", r.Warnings)
 	}
 }
+
+// Absorbance given without --kind is read as single beams; that must not pass
+// silently. Values all within −1…5 are absorbance-like (common practice:
+// detector single beams are counts far above that), so a warning names the
+// flag to give.
+func TestAbsorbanceWithoutKindWarns(t *testing.T) {
+	d := makeBateman(t, 3e-3, 1e-3, 0, 5, 3)
+	var a mat.Dense
+	a.Mul(d.profiles, d.spectra.T())
+	n, m := a.Dims()
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			a.Set(i, j, a.At(i, j)+0.05) // a baseline keeps every value positive
+		}
+	}
+	d.beams = &a
+	series, _ := d.write(t)
+	s := NewSettings()
+	s.Data = []string{series}
+	r, err := Run(s, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	warned := false
+	for _, w := range r.Warnings {
+		warned = warned || strings.Contains(w, "--kind absorbance")
+	}
+	if !warned {
+		t.Errorf("absorbance read as single beams without a warning: %q", r.Warnings)
+	}
+	// Real single beams (the same test's Bateman beams) give no such warning.
+	d2 := makeBateman(t, 3e-3, 1e-3, 2e-4, 5, 3)
+	series2, _ := d2.write(t)
+	s2 := NewSettings()
+	s2.Data = []string{series2}
+	r2, err := Run(s2, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, w := range r2.Warnings {
+		if strings.Contains(w, "--kind absorbance") {
+			t.Errorf("single beams flagged as absorbance: %s", w)
+		}
+	}
+}
