@@ -293,7 +293,7 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 			rep.Table[main].ReferencePattern = true
 			rep.ReferencePatternFactor = main
 		case refRow < 0 && white && flatness(d0.time, -1) >= 0.8:
-			warn("the span of the significant factors holds a direction with a flat time vector and a white spectrum, like the reference noise of difference data; set ReferenceRow if these are difference spectra")
+			warn("the significant factors hold a direction that is flat in time and white across the axis, like the reference spectrum's own noise in difference data; it was counted, since no single reference row was known (several experiments, or difference input): average more reference spectra (--reference mean:N) to shrink it")
 		}
 	}
 	pat := rep.ReferencePatternFactor

@@ -444,3 +444,32 @@ func TestAbsorbanceWithoutKindWarns(t *testing.T) {
 		}
 	}
 }
+
+// Several experiments: the noise comes from the pre-reaction spectra of all
+// of them (successive differences, variance 2σ²). Absorbance noise from a
+// relative intensity noise ε is ε/ln 10 (propagation of error through
+// A = −log10 I, PRIMER §1); the estimate must be within 10 % of it.
+func TestNoiseFromEveryExperiment(t *testing.T) {
+	const rel = 2e-4
+	a := makeBateman(t, 3e-3, 1e-3, rel, 11, 3)
+	b := makeBateman(t, 3e-3, 1e-3, rel, 12, 3)
+	sa, blank := a.write(t)
+	sb, _ := b.write(t)
+	s := NewSettings()
+	s.Data, s.Blank, s.Pre, s.Bands, s.Checks = []string{sa, sb}, blank, 3, "off", "off"
+	s.Closure = "1"
+	r, err := Run(s, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Rank.SigmaSource != "pre-reaction rows of every experiment" {
+		t.Errorf("σ from %q", r.Rank.SigmaSource)
+	}
+	want := rel / math.Ln10
+	if math.Abs(r.Rank.Sigma-want) > 0.1*want {
+		t.Errorf("σ = %.4g, want %.4g ± 10 %%", r.Rank.Sigma, want)
+	}
+	if r.Rank.Estimate != 3 {
+		t.Errorf("rank %d of two A → B → C runs, want 3", r.Rank.Estimate)
+	}
+}

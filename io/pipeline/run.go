@@ -277,11 +277,14 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	if r.Mode == mcr.Reactions && len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
 		refRow = r.Experiments[0].RefRows[0]
 	}
-	rank, err := svd.EstimateRank(r.D, f, svd.RankOptions{PreRows: preRowsFor(s, r), Alpha: s.Alpha, ReferenceRow: refRow})
+	rank, err := svd.EstimateRank(r.D, f, svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooledSigma(s, r, r.D), Alpha: s.Alpha, ReferenceRow: refRow})
 	if err != nil {
 		return nil, fmt.Errorf("rank: %w", err)
 	}
 	r.Rank = rank
+	if pooledSigma(s, r, r.D) > 0 {
+		rank.SigmaSource = "pre-reaction rows of every experiment"
+	}
 	if r.Mode == mcr.Species {
 		dd := stack(diffRows)
 		fd, err := differenceFactors(r, dd, f, maxF)
@@ -290,7 +293,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 			if len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
 				ref = r.Experiments[0].RefRows[0]
 			}
-			r.DiffRank, _ = svd.EstimateRank(dd, fd, svd.RankOptions{PreRows: preRowsFor(s, r), Alpha: s.Alpha, ReferenceRow: ref})
+			r.DiffRank, _ = svd.EstimateRank(dd, fd, svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooledSigma(s, r, dd), Alpha: s.Alpha, ReferenceRow: ref})
 		}
 		if r.DiffRank != nil {
 			switch {
@@ -354,6 +357,33 @@ func looksLikeAbsorbance(ser *spectra.Series) bool {
 		}
 	}
 	return lo >= -1 && hi <= 5 && lo < 1
+}
+
+// pooledSigma estimates the noise of several experiments from all their
+// pre-reaction spectra: successive differences of rows that should be
+// equal, whose variance is 2σ² whatever the common level (a difference
+// removes the constant; common practice for replicate spectra). With one
+// experiment svd does this itself from PreRows; 0 means "let svd estimate".
+func pooledSigma(s *Settings, r *Result, d *mat.Dense) float64 {
+	if len(r.Experiments) < 2 || s.Pre < 2 {
+		return 0
+	}
+	_, m := d.Dims()
+	ss, cnt := 0.0, 0
+	for _, e := range r.Experiments {
+		for i := e.FirstRow + 1; i < e.FirstRow+s.Pre && i < e.FirstRow+e.Rows; i++ {
+			a, b := d.RawRowView(i-1)[:m], d.RawRowView(i)[:m]
+			for j := range a {
+				v := b[j] - a[j]
+				ss += v * v
+			}
+			cnt += m
+		}
+	}
+	if cnt == 0 || !(ss > 0) {
+		return 0
+	}
+	return math.Sqrt(ss / float64(cnt) / 2)
 }
 
 func preRowsFor(s *Settings, r *Result) int {
