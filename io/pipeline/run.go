@@ -372,7 +372,7 @@ func pooledSigma(s *Settings, r *Result, d *mat.Dense) float64 {
 	ss, cnt := 0.0, 0
 	for _, e := range r.Experiments {
 		for i := e.FirstRow + 1; i < e.FirstRow+s.Pre && i < e.FirstRow+e.Rows; i++ {
-			a, b := d.RawRowView(i-1)[:m], d.RawRowView(i)[:m]
+			a, b := d.RawRowView(i - 1)[:m], d.RawRowView(i)[:m]
 			for j := range a {
 				v := b[j] - a[j]
 				ss += v * v
