@@ -14,12 +14,6 @@ var (
 	writing    sync.RWMutex // read-held by every Write; Interrupt takes it for good
 )
 
-func track(s *Stage) {
-	activeMu.Lock()
-	active[s] = true
-	activeMu.Unlock()
-}
-
 func untrack(s *Stage) {
 	activeMu.Lock()
 	delete(active, s)

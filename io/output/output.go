@@ -84,6 +84,11 @@ func NewStage(out string, force bool) (*Stage, error) {
 		return nil, err
 	}
 	clean := filepath.Clean(out)
+	// Creating and tracking the folder is one step for Interrupt, which
+	// takes the same lock: a signal in between would otherwise leave an
+	// untracked staging folder behind.
+	activeMu.Lock()
+	defer activeMu.Unlock()
 	dir, err := os.MkdirTemp(filepath.Dir(clean), "."+filepath.Base(clean)+".partial-*")
 	if err != nil {
 		return nil, fmt.Errorf("%s: cannot create a staging folder: %w", out, err)
@@ -95,8 +100,19 @@ func NewStage(out string, force bool) (*Stage, error) {
 		return nil, fmt.Errorf("%s: %w", out, err)
 	}
 	s := &Stage{Final: clean, Dir: dir, Force: force}
-	track(s)
+	active[s] = true // track(s), under the lock already held
 	return s, nil
+}
+
+// Mkdir makes a sub-folder of the stage. Unlike os.MkdirAll it never
+// re-creates a staging folder that Interrupt has removed.
+func (s *Stage) Mkdir(name string) error {
+	writing.RLock()
+	defer writing.RUnlock()
+	if err := os.Mkdir(s.Path(name), 0o755); err != nil && !errors.Is(err, os.ErrExist) {
+		return fmt.Errorf("making %s: %w", name, err)
+	}
+	return nil
 }
 
 // Path returns where a result file goes inside the staging folder.

@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"path/filepath"
 	"sort"
 
@@ -113,7 +112,7 @@ func Demo(out string, force bool, quiet, asJSON bool, st Streams) (*Result, erro
 		return nil, err
 	}
 	fail := func(err error) (*Result, error) { stage.Abort(); return nil, err }
-	if err := os.Mkdir(stage.Path("input"), 0o755); err != nil {
+	if err := stage.Mkdir("input"); err != nil {
 		return fail(err)
 	}
 	files := truth.Files()

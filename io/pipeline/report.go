@@ -2,7 +2,6 @@ package pipeline
 
 import (
 	"fmt"
-	"os"
 	"sort"
 
 	"github.com/bandsolve/bandsolve/io/output"
@@ -86,7 +85,7 @@ func writeReport(r *Result, stage *output.Stage) error {
 	// and slides; sorted so the files are written in a fixed order.
 	files, _ := report.FigureFiles(f)
 	if len(files) > 0 {
-		if err := os.MkdirAll(stage.Path("figures"), 0o755); err != nil {
+		if err := stage.Mkdir("figures"); err != nil {
 			return fmt.Errorf("report: %w", err)
 		}
 		names := make([]string, 0, len(files))
