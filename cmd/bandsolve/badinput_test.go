@@ -32,11 +32,10 @@ var badDir = func() string {
 }()
 
 type runResult struct {
-	code          int
-	stdout        string
-	stderr        string
-	panicked      any
-	panickedStack string
+	code     int
+	stdout   string
+	stderr   string
+	panicked any
 }
 
 // run calls the command as main would, turning a panic into a result so

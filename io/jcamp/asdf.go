@@ -30,15 +30,12 @@ type token struct {
 // resolution is one unit in the last printed digit of t.
 func (t token) resolution() float64 { return math.Pow10(t.exp - t.dec) }
 
-// Pseudo-digit tables of the ASDF forms (JCAMP-DX 4.24, ASCII squeezed
-// difference form): the index in the string is the digit value.
-const (
-	sqzPos = "@ABCDEFGHI"
-	sqzNeg = "@abcdefghi"
-	difPos = "%JKLMNOPQR"
-	difNeg = "%jklmnopqr"
-	dupDig = " STUVWXYZs" // index 0 unused: a repeat count starts at 1
-)
+// Pseudo-digits of the ASDF forms (JCAMP-DX 4.24, ASCII squeezed
+// difference form), the position in each string being the digit value:
+//
+//	SQZ positive  @ABCDEFGHI     SQZ negative  @abcdefghi
+//	DIF positive  %JKLMNOPQR     DIF negative  %jklmnopqr
+//	DUP count      STUVWXYZs (1…9)
 
 // pseudo classifies c: kind, leading digit and sign. ok is false for anything
 // that is not a pseudo-digit.
