@@ -187,14 +187,7 @@ func TestDilutionBreaksClosureWarning(t *testing.T) {
 	}
 }
 
-func hasWarning(r *Result, part string) bool {
-	for _, w := range r.Warnings {
-		if strings.Contains(w, part) {
-			return true
-		}
-	}
-	return false
-}
+func hasWarning(r *Result, part string) bool { return anyContains(r.Warnings, part) }
 
 // A reference spectrum on a finer axis is resampled (linear interpolation)
 // onto the data axis and held exactly; unimodality and the per-component

@@ -221,11 +221,7 @@ func TestReactionsModeOneReaction(t *testing.T) {
 	if r.Rank.ReferencePatternFactor < 0 {
 		t.Errorf("the reference-noise pattern was not recognised (%s)", r.Rank.Reason)
 	}
-	explained := false
-	for _, a := range r.Advice {
-		explained = explained || strings.Contains(a, "reference spectrum's own noise")
-	}
-	if !explained {
+	if !anyContains(r.Advice, "reference spectrum's own noise") {
 		t.Errorf("advice %q does not explain the reference-noise factor", r.Advice)
 	}
 	want := add(mat.Col(nil, 1, d.spectra))
@@ -331,15 +327,8 @@ func TestNoChangeIsNotAnError(t *testing.T) {
 // largest absorbance change by orders of magnitude) and the extents must
 // stay distinct.
 func TestReactionsModeNoDegeneracy(t *testing.T) {
-	truth := demo.Make(1)
-	dir := t.TempDir()
-	files := truth.Files()
-	path := filepath.Join(dir, "series.csv")
-	if err := os.WriteFile(path, files["series.csv"], 0o644); err != nil {
-		t.Fatal(err)
-	}
-	s := NewSettings()
-	s.Data, s.Kind, s.Pre, s.Bands = []string{path}, "single-beam", truth.Pre, "off"
+	s := demoDifferenceSettings(t)
+	s.Bands = "off"
 	r, err := Run(s, nil)
 	if err != nil {
 		t.Fatal(err)
@@ -380,22 +369,13 @@ func floatsMaxAbs(x []float64) float64 {
 // region only when both sides are non-negative). The summary must say so in
 // words instead of printing the search's stopping point as a bound.
 func TestUnboundedBandsAreSaid(t *testing.T) {
-	truth := demo.Make(1)
-	path := filepath.Join(t.TempDir(), "series.csv")
-	if err := os.WriteFile(path, truth.Files()["series.csv"], 0o644); err != nil {
-		t.Fatal(err)
-	}
-	s := NewSettings()
-	s.Data, s.Kind, s.Pre, s.Checks = []string{path}, "single-beam", truth.Pre, "off"
+	s := demoDifferenceSettings(t)
+	s.Checks = "off"
 	r, err := Run(s, nil)
 	if err != nil {
 		t.Fatal(err)
 	}
-	said := false
-	for _, w := range r.Warnings {
-		said = said || strings.Contains(w, "is unbounded")
-	}
-	if !said {
+	if !hasWarning(r, "is unbounded") {
 		t.Errorf("no warning that the reaction bands are unbounded: %q", r.Warnings)
 	}
 }
@@ -422,11 +402,7 @@ func TestAbsorbanceWithoutKindWarns(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	warned := false
-	for _, w := range r.Warnings {
-		warned = warned || strings.Contains(w, "--kind absorbance")
-	}
-	if !warned {
+	if !hasWarning(r, "--kind absorbance") {
 		t.Errorf("absorbance read as single beams without a warning: %q", r.Warnings)
 	}
 	// Real single beams (the same test's Bateman beams) give no such warning.
@@ -438,10 +414,8 @@ func TestAbsorbanceWithoutKindWarns(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	for _, w := range r2.Warnings {
-		if strings.Contains(w, "--kind absorbance") {
-			t.Errorf("single beams flagged as absorbance: %s", w)
-		}
+	if hasWarning(r2, "--kind absorbance") {
+		t.Errorf("single beams flagged as absorbance: %q", r2.Warnings)
 	}
 }
 
@@ -472,4 +446,24 @@ func TestNoiseFromEveryExperiment(t *testing.T) {
 	if r.Rank.Estimate != 3 {
 		t.Errorf("rank %d of two A → B → C runs, want 3", r.Rank.Estimate)
 	}
+}
+
+// demoDifferenceSettings: the demo's single beams without their blank, so
+// difference spectra (reactions mode), with the demo's pre-reaction count.
+func demoDifferenceSettings(t *testing.T) *Settings {
+	t.Helper()
+	truth, dir := writeDemo(t)
+	s := demoSettings(dir, false)
+	s.Model, s.T0, s.Pre = "", "", truth.Pre
+	return s
+}
+
+// anyContains says whether any line holds part.
+func anyContains(lines []string, part string) bool {
+	for _, l := range lines {
+		if strings.Contains(l, part) {
+			return true
+		}
+	}
+	return false
 }
