@@ -5,7 +5,6 @@ package main
 
 import (
 	"bytes"
-	"encoding/json"
 	"errors"
 	"fmt"
 	"os"
@@ -42,19 +41,6 @@ func writeText(t *testing.T, path, text string) {
 	}
 }
 
-func summaryOf(t *testing.T, dir string) map[string]any {
-	t.Helper()
-	b, err := os.ReadFile(filepath.Join(dir, "summary.json"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	var m map[string]any
-	if err := json.Unmarshal(b, &m); err != nil {
-		t.Fatal(err)
-	}
-	return m
-}
-
 const quickSettings = "kind single-beam\npre 3\nreport off\nbands off\n"
 
 func TestRunCommandFile(t *testing.T) {
@@ -68,7 +54,7 @@ func TestRunCommandFile(t *testing.T) {
 	}
 	// No out in the file and none given: NAME-results beside the file.
 	out := filepath.Join(root, "exp", "exp1-results")
-	if got := summaryOf(t, out)["components"]; got != 2.0 {
+	if got := readSummary(t, out)["components"]; got != 2.0 {
 		t.Errorf("components = %v, the file says 2", got)
 	}
 	// The record is a command file that gives the same analysis.
@@ -88,7 +74,7 @@ func TestRunCommandFile(t *testing.T) {
 	if r.code != 0 {
 		t.Fatalf("exit %d: %s", r.code, r.stderr)
 	}
-	if got := summaryOf(t, out2)["components"]; got != 3.0 {
+	if got := readSummary(t, out2)["components"]; got != 3.0 {
 		t.Errorf("components = %v, --components 3 should override the file", got)
 	}
 	// Rerunning the record reproduces the results (outside the record,
@@ -171,11 +157,11 @@ func TestRunBatchIsolation(t *testing.T) {
 			t.Errorf("summary table lacks %q:\n%s", want, r.stdout)
 		}
 	}
-	if got := summaryOf(t, filepath.Join(out, "a"))["components"]; got != 3.0 {
+	if got := readSummary(t, filepath.Join(out, "a"))["components"]; got != 3.0 {
 		t.Errorf("a: components %v, want 3 (rank estimate)", got)
 	}
 	// c's "components 2" stays in c: the runs share no settings.
-	if got := summaryOf(t, filepath.Join(out, "c"))["components"]; got != 2.0 {
+	if got := readSummary(t, filepath.Join(out, "c"))["components"]; got != 2.0 {
 		t.Errorf("c: components %v, want 2", got)
 	}
 	for _, f := range []string{"b", "d"} {
