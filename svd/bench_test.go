@@ -11,8 +11,7 @@ import (
 
 func benchMatrix(n, m int) *mat.Dense {
 	rng := newRNG(uint64(n*7919 + m))
-	d := product(randomProfiles(rng, n, 4, 0), randomSpectra(rng, m, 4))
-	addNoise(rng, d, 1e-3)
+	d := noisyBilinear(rng, n, m, 4, 1e-3)
 	return d
 }
 

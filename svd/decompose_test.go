@@ -210,8 +210,7 @@ func TestDecomposeAutoAndErrors(t *testing.T) {
 // Determinism rule of the project: byte-identical output whatever GOMAXPROCS.
 func TestDeterministicAcrossGOMAXPROCS(t *testing.T) {
 	rng := newRNG(5)
-	d := product(randomProfiles(rng, 300, 3, 0), randomSpectra(rng, 700, 3))
-	addNoise(rng, d, 1e-2)
+	d := noisyBilinear(rng, 300, 700, 3, 1e-2)
 	run := func() (string, string, string) {
 		g, err := Decompose(d, DecomposeOptions{Method: MethodGram, MaxFactors: 6})
 		if err != nil {

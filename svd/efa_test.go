@@ -13,8 +13,7 @@ import (
 func TestEFAAgainstBlockSVDs(t *testing.T) {
 	rng := newRNG(1985)
 	n, m := 30, 50
-	d := product(randomProfiles(rng, n, 3, 0), randomSpectra(rng, m, 3))
-	addNoise(rng, d, 1e-3)
+	d := noisyBilinear(rng, n, m, 3, 1e-3)
 	e, err := EFA(d, 5)
 	if err != nil {
 		t.Fatal(err)
@@ -47,8 +46,7 @@ func TestEFAAgainstBlockSVDs(t *testing.T) {
 func TestEFAProjected(t *testing.T) {
 	rng := newRNG(1987)
 	n, m := 300, 600
-	d := product(randomProfiles(rng, n, 3, 0), randomSpectra(rng, m, 3))
-	addNoise(rng, d, 1e-3)
+	d := noisyBilinear(rng, n, m, 3, 1e-3)
 	e, err := EFA(d, 5)
 	if err != nil {
 		t.Fatal(err)

@@ -13,8 +13,7 @@ import (
 func TestEFAFromExactFactors(t *testing.T) {
 	rng := newRNG(2004)
 	n, m := 40, 70
-	d := product(randomProfiles(rng, n, 3, 0), randomSpectra(rng, m, 3))
-	addNoise(rng, d, 1e-3)
+	d := noisyBilinear(rng, n, m, 3, 1e-3)
 	want, err := EFA(d, 4)
 	if err != nil {
 		t.Fatal(err)
@@ -64,8 +63,7 @@ func TestEFAFromExactFactors(t *testing.T) {
 func TestEFAFromTruncatedFactors(t *testing.T) {
 	rng := newRNG(2011)
 	n, m := 300, 600
-	d := product(randomProfiles(rng, n, 3, 0), randomSpectra(rng, m, 3))
-	addNoise(rng, d, 1e-3)
+	d := noisyBilinear(rng, n, m, 3, 1e-3)
 	f, err := Decompose(d, DecomposeOptions{Method: MethodRandomized, MaxFactors: 24})
 	if err != nil {
 		t.Fatal(err)

@@ -71,8 +71,7 @@ func bruteSimplisma(d *mat.Dense, k int, f float64, signed bool) []int {
 
 func TestPurestDefinition(t *testing.T) {
 	rng := newRNG(1991)
-	d := product(randomProfiles(rng, 25, 3, 0), randomSpectra(rng, 40, 3))
-	addNoise(rng, d, 1e-3)
+	d := noisyBilinear(rng, 25, 40, 3, 1e-3)
 	for _, signed := range []bool{false, true} {
 		for _, f := range []float64{1, 5, 20} {
 			got, err := Purest(d, 3, f, signed)

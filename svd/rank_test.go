@@ -170,8 +170,7 @@ func criterion(r *RankReport, name string) Criterion {
 func TestFTestDefinition(t *testing.T) {
 	rng := newRNG(1989)
 	n, m := 30, 80
-	d := product(randomProfiles(rng, n, 2, 0), randomSpectra(rng, m, 2))
-	addNoise(rng, d, 1e-2)
+	d := noisyBilinear(rng, n, m, 2, 1e-2)
 	r, err := EstimateRank(d, nil, RankOptions{Sigma: 1e-2, ReferenceRow: -1})
 	if err != nil {
 		t.Fatal(err)
@@ -384,8 +383,7 @@ func TestEstimateRankErrors(t *testing.T) {
 // factors it has, since tails come from FrobeniusSq (identity Σ_j s_j² = ‖D‖²_F).
 func TestEstimateRankTruncatedFactors(t *testing.T) {
 	rng := newRNG(42)
-	d := product(randomProfiles(rng, 60, 3, 0), randomSpectra(rng, 300, 3))
-	addNoise(rng, d, 1e-3)
+	d := noisyBilinear(rng, 60, 300, 3, 1e-3)
 	full, _ := Decompose(d, DecomposeOptions{Method: MethodExact})
 	part, _ := Decompose(d, DecomposeOptions{Method: MethodRandomized, MaxFactors: 8})
 	a, err := EstimateRank(d, full, RankOptions{Sigma: 1e-3, ReferenceRow: -1})

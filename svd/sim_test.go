@@ -70,6 +70,14 @@ func randomProfiles(rng *rand.Rand, n, k, pre int) *mat.Dense {
 	return c
 }
 
+// noisyBilinear is n × m data of k smooth species (random profiles and
+// spectra) plus white noise of standard deviation sigma.
+func noisyBilinear(rng *rand.Rand, n, m, k int, sigma float64) *mat.Dense {
+	d := product(randomProfiles(rng, n, k, 0), randomSpectra(rng, m, k))
+	addNoise(rng, d, sigma)
+	return d
+}
+
 func product(c, s *mat.Dense) *mat.Dense {
 	var d mat.Dense
 	d.Mul(c, s.T())
