@@ -545,7 +545,6 @@ func clampColumns(c *mat.Dense, nonneg []bool) {
 // unit Euclidean norm of each free spectrum; the profile takes the scale.
 func normaliseSpectra(s, c *mat.Dense, known [][]bool) {
 	m, k := s.Dims()
-	n, _ := c.Dims()
 	for j := 0; j < k; j++ {
 		if known != nil && known[j] != nil {
 			continue
@@ -558,12 +557,37 @@ func normaliseSpectra(s, c *mat.Dense, known [][]bool) {
 		if norm == 0 {
 			continue
 		}
-		for i := 0; i < m; i++ {
-			s.Set(i, j, s.At(i, j)/norm)
-		}
+		moveScale(s, c, j, norm)
+	}
+}
+
+// ScaleExtentsToOne makes each profile's largest value 1, the spectrum
+// taking the scale: in reactions mode a reaction spectrum then reads as the
+// absorbance change at the largest extent reached.
+func ScaleExtentsToOne(c, s *mat.Dense) {
+	n, k := c.Dims()
+	for j := 0; j < k; j++ {
+		mx := 0.0
 		for i := 0; i < n; i++ {
-			c.Set(i, j, c.At(i, j)*norm)
+			mx = math.Max(mx, c.At(i, j))
 		}
+		if mx != 0 {
+			moveScale(c, s, j, mx)
+		}
+	}
+}
+
+// moveScale divides column j of a by f and multiplies column j of b by f,
+// which leaves the product a_j b_jᵀ unchanged (the scale ambiguity of a
+// bilinear model).
+func moveScale(a, b *mat.Dense, j int, f float64) {
+	na, _ := a.Dims()
+	nb, _ := b.Dims()
+	for i := 0; i < na; i++ {
+		a.Set(i, j, a.At(i, j)/f)
+	}
+	for i := 0; i < nb; i++ {
+		b.Set(i, j, b.At(i, j)*f)
 	}
 }
 

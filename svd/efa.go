@@ -39,23 +39,12 @@ const efaExactBudget = 1.5e9
 // bounds of the exact ones (a projection cannot raise singular values), so Windows' noise
 // threshold, taken from the full m columns, stays conservative.
 func EFA(d *mat.Dense, maxFactors int) (*EFAResult, error) {
-	if err := checkMatrix(d); err != nil {
-		return nil, fmt.Errorf("svd: EFA: %w", err)
+	n, m, c, nf, err := efaArgs(d, maxFactors)
+	if err != nil {
+		return nil, err
 	}
-	n, m := d.Dims()
-	c := min(n, m)
-	if maxFactors < 0 {
-		return nil, fmt.Errorf("svd: EFA: maxFactors %d is negative", maxFactors)
-	}
-	nf := maxFactors
-	if nf == 0 {
-		nf = min(c, 8)
-	}
-	nf = min(nf, c)
-
 	exact := float64(n)*float64(m)*float64(c) <= exactWork && efaCost(n, c) <= efaExactBudget
 	var fac *Factors
-	var err error
 	if exact {
 		fac, err = Decompose(d, DecomposeOptions{Method: MethodExact})
 	} else {
@@ -76,13 +65,9 @@ func EFA(d *mat.Dense, maxFactors int) (*EFAResult, error) {
 // the projected sweep, with the same guarantees as in EFA (signal values
 // unchanged when they lie in the span, noise values lower bounds).
 func EFAFrom(d *mat.Dense, f *Factors, maxFactors int) (*EFAResult, error) {
-	if err := checkMatrix(d); err != nil {
-		return nil, fmt.Errorf("svd: EFA: %w", err)
-	}
-	n, m := d.Dims()
-	c := min(n, m)
-	if maxFactors < 0 {
-		return nil, fmt.Errorf("svd: EFA: maxFactors %d is negative", maxFactors)
+	n, m, c, nf, err := efaArgs(d, maxFactors)
+	if err != nil {
+		return nil, err
 	}
 	if f == nil || f.U == nil || f.V == nil {
 		return nil, fmt.Errorf("svd: EFA: no factors given")
@@ -93,11 +78,6 @@ func EFAFrom(d *mat.Dense, f *Factors, maxFactors int) (*EFAResult, error) {
 	if vm, _ := f.V.Dims(); vm != m {
 		return nil, fmt.Errorf("svd: EFA: factors have %d columns, the data %d", vm, m)
 	}
-	nf := maxFactors
-	if nf == 0 {
-		nf = min(c, 8)
-	}
-	nf = min(nf, c)
 	exact := f.Full() && float64(n)*float64(m)*float64(c) <= exactWork && efaCost(n, c) <= efaExactBudget
 	p := len(f.S)
 	if !exact {
@@ -112,6 +92,24 @@ func EFAFrom(d *mat.Dense, f *Factors, maxFactors int) (*EFAResult, error) {
 		fac.Method, fac.FrobeniusSq = f.Method, f.FrobeniusSq
 	}
 	return efaFromFactors(d, fac, nf, exact)
+}
+
+// efaArgs checks EFA's arguments and returns the sizes and the number of
+// curves: maxFactors, or 8 when 0, never more than min(n, m).
+func efaArgs(d *mat.Dense, maxFactors int) (n, m, c, nf int, err error) {
+	if err := checkMatrix(d); err != nil {
+		return 0, 0, 0, 0, fmt.Errorf("svd: EFA: %w", err)
+	}
+	if maxFactors < 0 {
+		return 0, 0, 0, 0, fmt.Errorf("svd: EFA: maxFactors %d is negative", maxFactors)
+	}
+	n, m = d.Dims()
+	c = min(n, m)
+	nf = maxFactors
+	if nf == 0 {
+		nf = min(c, 8)
+	}
+	return n, m, c, min(nf, c), nil
 }
 
 func efaFromFactors(d *mat.Dense, fac *Factors, nf int, exact bool) (*EFAResult, error) {

@@ -599,7 +599,7 @@ func hardSoft(r *Result, data mcr.Data, opt mcr.Options, order []int, log io.Wri
 				}
 			}
 		}
-		scaleExtents(res.C, res.S)
+		mcr.ScaleExtentsToOne(res.C, res.S)
 		// Refit the rescaled profiles once: per-column scales change the
 		// weights of the columns, so the fit is redone rather than rescaled.
 		fit, err := kinetics.FitProfiles(kn.Scheme, r.Times, lastObs, kn.Columns, kn.warm(last))

@@ -511,7 +511,7 @@ func resolve(r *Result, log io.Writer) error {
 		return err
 	}
 	if r.Mode == mcr.Reactions {
-		scaleExtents(res.C, res.S)
+		mcr.ScaleExtentsToOne(res.C, res.S)
 	}
 	order := make([]int, k)
 	for j := range order {
@@ -680,28 +680,6 @@ func readProfiles(path string, times []float64, k int) (*mat.Dense, error) {
 		return nil, err
 	}
 	return c, nil
-}
-
-// scaleExtents makes each extent's largest value 1 so a reaction spectrum
-// reads as the absorbance change at the largest extent reached.
-func scaleExtents(c, s *mat.Dense) {
-	n, k := c.Dims()
-	m, _ := s.Dims()
-	for j := 0; j < k; j++ {
-		mx := 0.0
-		for i := 0; i < n; i++ {
-			mx = math.Max(mx, c.At(i, j))
-		}
-		if mx == 0 {
-			continue
-		}
-		for i := 0; i < n; i++ {
-			c.Set(i, j, c.At(i, j)/mx)
-		}
-		for i := 0; i < m; i++ {
-			s.Set(i, j, s.At(i, j)*mx)
-		}
-	}
 }
 
 // orderComponents sorts components by when they matter: species by the

@@ -129,9 +129,15 @@ var numberInName = regexp.MustCompile(`[0-9]+(?:\.[0-9]+)?`)
 // TimeFromName returns the last number in a file's base name, in seconds.
 func TimeFromName(name, unit string) (float64, error) {
 	base := strings.TrimSuffix(filepath.Base(name), filepath.Ext(name))
-	all := numberInName.FindAllString(base, -1)
+	return lastNumberTime(base, unit, "the file name "+strconv.Quote(filepath.Base(name)))
+}
+
+// lastNumberTime reads the last number in text as a time in unit; where
+// says what text is, for the message.
+func lastNumberTime(text, unit, where string) (float64, error) {
+	all := numberInName.FindAllString(text, -1)
 	if len(all) == 0 {
-		return 0, fmt.Errorf("no number in the file name %q", filepath.Base(name))
+		return 0, fmt.Errorf("no number in %s", where)
 	}
 	v, err := strconv.ParseFloat(all[len(all)-1], 64)
 	if err != nil {

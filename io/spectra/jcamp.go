@@ -195,19 +195,7 @@ func seriesFromSpectra(path string, sps []*Spectrum, opt FolderOptions) (*Series
 
 // timeFromTitle is TimeFromName for a block's ##TITLE.
 func timeFromTitle(title, unit string) (float64, error) {
-	all := numberInName.FindAllString(title, -1)
-	if len(all) == 0 {
-		return 0, fmt.Errorf("no number in the ##TITLE %q", title)
-	}
-	v, err := strconv.ParseFloat(all[len(all)-1], 64)
-	if err != nil {
-		return 0, err
-	}
-	f, err := UnitFactor(unit)
-	if err != nil {
-		return 0, err
-	}
-	return v * f, nil
+	return lastNumberTime(title, unit, "the ##TITLE "+strconv.Quote(title))
 }
 
 // CheckKind refuses a --kind that contradicts what a JCAMP-DX file says its
