@@ -277,12 +277,13 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	if r.Mode == mcr.Reactions && len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
 		refRow = r.Experiments[0].RefRows[0]
 	}
-	rank, err := svd.EstimateRank(r.D, f, svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooledSigma(s, r, r.D), Alpha: s.Alpha, ReferenceRow: refRow})
+	pooled := pooledSigma(s, r, r.D)
+	rank, err := svd.EstimateRank(r.D, f, svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooled, Alpha: s.Alpha, ReferenceRow: refRow})
 	if err != nil {
 		return nil, fmt.Errorf("rank: %w", err)
 	}
 	r.Rank = rank
-	if pooledSigma(s, r, r.D) > 0 {
+	if pooled > 0 {
 		rank.SigmaSource = "pre-reaction rows of every experiment"
 	}
 	if r.Mode == mcr.Species {
