@@ -351,10 +351,14 @@ func derivedChecks(f *Folder) []string {
 	// largest one's.
 	if t := f.Profiles; t != nil {
 		comps := f.components(t, 1)
+		// Each column parsed once: Col parses the whole column, so calling
+		// it per row made this step quadratic in the number of spectra.
+		cols := make([][]float64, len(comps))
 		maxes := make([]float64, len(comps))
 		top := 0.0
 		for k, j := range comps {
-			_, maxes[k] = span(t.Col(j))
+			cols[k] = t.Col(j)
+			_, maxes[k] = span(cols[k])
 			top = math.Max(top, maxes[k])
 		}
 		for k, j := range comps {
@@ -369,8 +373,8 @@ func derivedChecks(f *Folder) []string {
 				worst := 0.0
 				for i := 0; i < t.Rows(); i++ {
 					sum := 0.0
-					for _, j := range comps {
-						sum += t.Col(j)[i]
+					for _, c := range cols {
+						sum += c[i]
 					}
 					worst = math.Max(worst, math.Abs(sum-total)/total)
 				}

@@ -11,11 +11,13 @@ package spectra
 
 import (
 	"bytes"
+	"cmp"
 	"errors"
 	"fmt"
 	"math"
 	"os"
 	"runtime"
+	"slices"
 	"strconv"
 	"strings"
 	"sync"
@@ -458,7 +460,9 @@ func (s *Series) sortByTime() {
 	if sorted {
 		return
 	}
-	sortStable(idx, func(a, b int) bool { return s.Times[a] < s.Times[b] })
+	// Stable, so spectra recorded at the same time keep their file order;
+	// O(n log n) (an insertion sort took minutes on 3·10⁵ descending times).
+	slices.SortStableFunc(idx, func(a, b int) int { return cmp.Compare(s.Times[a], s.Times[b]) })
 	_, m := s.Values.Dims()
 	v := mat.NewDense(n, m, nil)
 	t := make([]float64, n)
@@ -468,16 +472,6 @@ func (s *Series) sortByTime() {
 		t[r], nm[r] = s.Times[i], s.Names[i]
 	}
 	s.Values, s.Times, s.Names = v, t, nm
-}
-
-func sortStable(idx []int, less func(a, b int) bool) {
-	// Insertion sort is stable and fine for the few thousand spectra here;
-	// sort.SliceStable would do too but needs a closure over idx anyway.
-	for i := 1; i < len(idx); i++ {
-		for j := i; j > 0 && less(idx[j], idx[j-1]); j-- {
-			idx[j], idx[j-1] = idx[j-1], idx[j]
-		}
-	}
 }
 
 // ReadSpectrumFile reads a one-spectrum export: two numeric columns (axis,
