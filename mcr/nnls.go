@@ -173,7 +173,11 @@ func SolveMany(p Problem) (*mat.Dense, error) {
 			for c := range next {
 				lo, hi := c*chunk, min(cols, (c+1)*chunk)
 				for j := lo; j < hi; j++ {
-					if err := s.column(j, x); err != nil {
+					err := s.column(j, x)
+					if errors.Is(err, ErrNotConverged) {
+						err = s.recover(j, x, err)
+					}
+					if err != nil {
 						errs[c] = err
 						break
 					}
@@ -460,6 +464,13 @@ func (s *solver) column(c int, x *mat.Dense) error {
 	tol := 1e-12 * math.Max(scale, 1e-300)
 	limit := 6*k + 20
 	mu := 0.0
+	// banned holds variables that were just freed and at once wanted to
+	// turn negative: with nearly collinear components rounding makes the
+	// KKT test and the passive solve disagree, and freeing the same
+	// variable again would cycle. Lawson & Hanson (1974, ch. 23, step 6)
+	// guard against it the same way; the ban lasts until the point moves.
+	var banned uint64
+	added := -1
 	for outer := 0; outer < limit; outer++ {
 		// Inner loop: move toward the passive-set minimiser, dropping the
 		// variables that would turn negative (Lawson & Hanson's step).
@@ -470,6 +481,13 @@ func (s *solver) column(c int, x *mat.Dense) error {
 			z, m, err := s.solvePassive(passive, c, fv)
 			if err != nil {
 				return err
+			}
+			if inner == 0 && added >= 0 && s.nonneg(added) && z[added] <= 0 {
+				passive &^= 1 << uint(added)
+				banned |= 1 << uint(added)
+				if z, m, err = s.solvePassive(passive, c, fv); err != nil {
+					return err
+				}
 			}
 			mu = m
 			alpha, blocker := 1.0, -1
@@ -482,8 +500,14 @@ func (s *solver) column(c int, x *mat.Dense) error {
 				}
 			}
 			if blocker < 0 {
+				if movedFrom(cur, z, passive) {
+					banned = 0
+				}
 				copy(cur, z)
 				break
+			}
+			if alpha > 0 {
+				banned = 0
 			}
 			for j := 0; j < k; j++ {
 				if passive&(1<<uint(j)) != 0 {
@@ -503,7 +527,7 @@ func (s *solver) column(c int, x *mat.Dense) error {
 		best, bestW := -1, tol
 		for j := 0; j < k; j++ {
 			bit := uint64(1) << uint(j)
-			if free&bit == 0 || passive&bit != 0 {
+			if free&bit == 0 || passive&bit != 0 || banned&bit != 0 {
 				continue
 			}
 			w := s.b[j]
@@ -527,6 +551,165 @@ func (s *solver) column(c int, x *mat.Dense) error {
 			return nil
 		}
 		passive |= 1 << uint(best)
+		added = best
 	}
 	return fmt.Errorf("solve column %d (%d passive): %w", c, bits.OnesCount64(passive), ErrNotConverged)
+}
+
+// movedFrom reports whether z differs from cur on the passive set.
+func movedFrom(cur, z []float64, passive uint64) bool {
+	for j := range cur {
+		if passive&(1<<uint(j)) != 0 && cur[j] != z[j] {
+			return true
+		}
+	}
+	return false
+}
+
+// recover solves column c again after the active-set method reached its
+// iteration limit, which happens only when rounding makes nearly collinear
+// components (real baselines, a rank set too high) cycle between passive
+// sets. First the exact Lawson–Hanson solver (NNLS) on a square factor of
+// the Gram block, G = L Lᵀ, so ‖Lᵀx − L⁻¹b‖² = xᵀGx − 2bᵀx + const, with
+// closure added as a heavily weighted row (the weighting method of Lawson &
+// Hanson 1974, ch. 22) and the result then polished on its passive set so
+// that closure holds exactly; then, if that fails too, the same problem
+// with a tiny ridge on G. Either answer is feasible, and the first is the
+// minimiser to rounding.
+func (s *solver) recover(c int, x *mat.Dense, cause error) error {
+	if s.recoverExact(c, x) {
+		return nil
+	}
+	for _, rel := range []float64{1e-12, 1e-9, 1e-6} {
+		p := s.p
+		p.G = ridged(s.p.G, rel)
+		p.Passive = nil
+		r := newSolver(p, s.k)
+		if err := r.column(c, x); err == nil {
+			if s.p.Passive != nil {
+				s.p.Passive[c] = 0
+			}
+			return nil
+		}
+	}
+	return cause
+}
+
+// recoverExact is recover's Lawson–Hanson step; false when it does not
+// apply (unconstrained variables) or fails.
+func (s *solver) recoverExact(c int, x *mat.Dense) bool {
+	k := s.k
+	var idx []int
+	fv := make([]float64, k)
+	for j := 0; j < k; j++ {
+		if s.p.FixMask != nil && s.p.FixMask[j] != nil && s.p.FixMask[j][c] {
+			fv[j] = s.p.Fixed.At(j, c)
+			continue
+		}
+		if !s.nonneg(j) {
+			return false
+		}
+		idx = append(idx, j)
+	}
+	np := len(idx)
+	if np == 0 {
+		return false
+	}
+	l := make([]float64, np*np)
+	rhs := make([]float64, np)
+	diag := 0.0
+	for a, ja := range idx {
+		for b, jb := range idx {
+			l[a*np+b] = s.g[ja*k+jb]
+		}
+		diag = math.Max(diag, s.g[ja*k+ja])
+		rhs[a] = s.b[ja]
+		for j := 0; j < k; j++ {
+			rhs[a] -= s.g[ja*k+j] * fv[j]
+		}
+	}
+	if !(diag > 0) {
+		return false
+	}
+	g0 := append([]float64(nil), l...)
+	ok := cholesky(l, np)
+	for ridge := 1e-14; !ok && ridge <= 1e-8; ridge *= 100 {
+		copy(l, g0)
+		for a := 0; a < np; a++ {
+			l[a*np+a] += ridge * diag
+		}
+		ok = cholesky(l, np)
+	}
+	if !ok {
+		return false
+	}
+	// d = L⁻¹ b (forward substitution); A = Lᵀ.
+	rows := np
+	if s.p.Equality != nil {
+		rows++
+	}
+	a := mat.NewDense(rows, np, nil)
+	d := make([]float64, rows)
+	for i := 0; i < np; i++ {
+		v := rhs[i]
+		for q := 0; q < i; q++ {
+			v -= l[i*np+q] * d[q]
+		}
+		d[i] = v / l[i*np+i]
+		for j := 0; j <= i; j++ {
+			a.Set(j, i, l[i*np+j])
+		}
+	}
+	if s.p.Equality != nil {
+		target := s.total(c)
+		amax := 0.0
+		for j := 0; j < k; j++ {
+			target -= s.p.Equality[j] * fv[j]
+		}
+		for _, j := range idx {
+			amax = math.Max(amax, s.p.Equality[j])
+		}
+		if !(amax > 0) {
+			return false
+		}
+		w := 1e4 * math.Sqrt(diag) / amax
+		for q, j := range idx {
+			a.Set(np, q, w*s.p.Equality[j])
+		}
+		d[np] = w * target
+	}
+	sol, err := NNLS(a, d)
+	if err != nil {
+		return false
+	}
+	out := append([]float64(nil), fv...)
+	var mask uint64
+	for q, j := range idx {
+		out[j] = sol[q]
+		if sol[q] > 0 {
+			mask |= 1 << uint(j)
+		}
+	}
+	if s.p.Equality != nil && mask != 0 {
+		// Polish: the exact closure-constrained minimiser on LH's passive
+		// set, kept when it stays feasible.
+		if z, _, err := s.solvePassive(mask, c, fv); err == nil {
+			feasible := true
+			for j := 0; j < k; j++ {
+				if mask&(1<<uint(j)) != 0 && z[j] < 0 {
+					feasible = false
+				}
+			}
+			if feasible {
+				copy(out, z)
+			}
+		}
+	}
+	for j := 0; j < k; j++ {
+		x.Set(j, c, out[j])
+	}
+	if s.p.Passive != nil {
+		s.p.Passive[c] = mask
+	}
+	return true
 }
