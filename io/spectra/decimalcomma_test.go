@@ -44,3 +44,18 @@ func TestDecimalCommaWithSemicolons(t *testing.T) {
 		t.Error("a cell with two commas was accepted")
 	}
 }
+
+// A times table with ';' or tab separators takes decimal commas as spectrum
+// files do (common practice: European locale spreadsheet exports write
+// "12,5" for twelve and a half).
+func TestReadTimesDecimalComma(t *testing.T) {
+	for _, text := range []string{
+		"file;time_s\r\na.csv;0\r\nb.csv;12,5\r\nc.csv;1,25e2\r\n",
+		"file\ttime_s\na.csv\t0\nb.csv\t12,5\nc.csv\t125,0\n",
+	} {
+		tab, err := ReadTimes(fuzzFile(t, "times.csv", []byte(text)))
+		if err != nil || tab["a.csv"] != 0 || tab["b.csv"] != 12.5 || tab["c.csv"] != 125 {
+			t.Errorf("%q: %v %v, want a 0, b 12.5, c 125", text, tab, err)
+		}
+	}
+}

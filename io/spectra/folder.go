@@ -20,7 +20,7 @@ import (
 // FolderOptions say where the acquisition times of a folder's files come from.
 type FolderOptions struct {
 	TimesFile     string   // CSV with columns file,time_s
-	TimesFromName bool     // the last number in each file name
+	TimesFromName bool     // a date-time stamp or the last number in each file name
 	TimeUnit      string   // unit of numbers in names: s, min or h (default s)
 	Resample      bool     // interpolate every file onto the first file's axis
 	Exclude       []string // paths not to treat as spectra (the times table, a blank)
@@ -38,8 +38,9 @@ type TimeRow struct {
 
 // ReadTimes reads a times table (columns file,time_s) into file → seconds.
 // It is read with the same line rules as the spectra (BOM, CRLF, blank and
-// '#' lines, comma, semicolon or tab separators) so that line numbers in
-// messages are the editor's line numbers.
+// '#' lines, comma, semicolon or tab separators, decimal commas where the
+// separator is not a comma) so that line numbers in messages are the
+// editor's line numbers.
 func ReadTimes(path string) (map[string]float64, error) {
 	raw, err := readAll(path)
 	if err != nil {
@@ -105,11 +106,12 @@ func ReadTimes(path string) (map[string]float64, error) {
 		if name == "" {
 			return nil, inputErr(path, ln, "each row needs a file name in column 'file'", "empty file name")
 		}
-		v, err := parseNumber([]byte(r.TimeS))
+		// Decimal commas are read where the separator is ';' or a tab, as in spectrum files.
+		v, err := parseCell([]byte(r.TimeS), sep)
 		if err != nil {
 			hint := "time_s must be a number of seconds"
 			if looksLikeDecimalComma([]byte(r.TimeS)) {
-				hint = "the table seems to use decimal commas: write times with decimal points"
+				hint = "with ',' as the separator a decimal comma cannot be told apart: separate the columns with ';' or write times with decimal points"
 			}
 			return nil, inputErr(path, ln, hint, "time of %s: %v", quoteCell([]byte(name)), err)
 		}
@@ -125,12 +127,6 @@ func ReadTimes(path string) (map[string]float64, error) {
 }
 
 var numberInName = regexp.MustCompile(`[0-9]+(?:\.[0-9]+)?`)
-
-// TimeFromName returns the last number in a file's base name, in seconds.
-func TimeFromName(name, unit string) (float64, error) {
-	base := strings.TrimSuffix(filepath.Base(name), filepath.Ext(name))
-	return lastNumberTime(base, unit, "the file name "+strconv.Quote(filepath.Base(name)))
-}
 
 // lastNumberTime reads the last number in text as a time in unit; where
 // says what text is, for the message.
@@ -188,6 +184,7 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 		files = append(files, p)
 	}
 	times := make([]float64, len(files))
+	fromHeaders := false
 	switch {
 	case opt.TimesFile != "":
 		table, err := ReadTimes(opt.TimesFile)
@@ -213,19 +210,28 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 			return nil, inputErr(opt.TimesFile, 0, "remove the row or put the file in the folder", "names %s, which is not a spectrum file in %s", absent[0], dir)
 		}
 	case opt.TimesFromName:
-		seen := map[float64]string{}
+		labels := make([]string, len(files))
 		for i, f := range files {
-			t, err := TimeFromName(f, opt.TimeUnit)
-			if err != nil {
-				return nil, inputErr(f, 0, "name files with their time (e.g. scan_0120.csv), or give --times FILE", "%v", err)
-			}
+			labels[i] = strings.TrimSuffix(filepath.Base(f), filepath.Ext(f))
+		}
+		what := func(i int) string { return "the file name " + strconv.Quote(filepath.Base(files[i])) }
+		ts, bad, err := timesFromLabels(labels, opt.TimeUnit, what)
+		if err != nil {
+			return nil, inputErr(files[bad], 0, "name files with their time (e.g. scan_0120.csv or a date-time stamp such as 2019-07-29T13-20-49), or give --times FILE", "%v", err)
+		}
+		seen := map[float64]string{}
+		for i, t := range ts {
 			if other, dup := seen[t]; dup {
-				return nil, inputErr(f, 0, "give each file its own time, or use --times FILE", "same time %g s as %s", t, other)
+				return nil, inputErr(files[i], 0, "give each file its own time, or use --times FILE", "same time %g s as %s", t, other)
 			}
-			seen[t], times[i] = f, t
+			seen[t], times[i] = files[i], t
 		}
 	default:
-		return nil, inputErr(dir, 0, "give --times FILE (columns file,time_s) or --times-from-name", "a folder of spectra needs acquisition times")
+		// JCAMP-DX exports may carry their acquisition times: read first, look after.
+		if len(files) == 0 || !allJCAMP(files) {
+			return nil, noTimes(dir)
+		}
+		fromHeaders = true
 	}
 	if len(files) == 0 {
 		return nil, inputErr(dir, 0, "put one file per spectrum in it (.csv, .txt, .dat, .jdx …)", "holds no spectrum files")
@@ -249,6 +255,24 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 		}()
 	}
 	wg.Wait()
+	if fromHeaders {
+		for _, err := range errs {
+			if err != nil {
+				return nil, err
+			}
+		}
+		if !allAcquired(specs) {
+			return nil, noTimes(dir)
+		}
+		times = acquiredSeconds(specs)
+		seen := map[float64]string{}
+		for i, t := range times {
+			if other, dup := seen[t]; dup {
+				return nil, inputErr(files[i], 0, "give each file its own time with --times FILE", "its JCAMP-DX acquisition time is the same as that of %s", other)
+			}
+			seen[t] = files[i]
+		}
+	}
 	order := make([]int, len(files))
 	for i := range order {
 		order[i] = i
@@ -295,6 +319,19 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 		s.Names = append(s.Names, files[i])
 	}
 	return s, nil
+}
+
+func noTimes(dir string) error {
+	return inputErr(dir, 0, "give --times FILE (columns file,time_s) or --times-from-name", "a folder of spectra needs acquisition times")
+}
+
+func allJCAMP(files []string) bool {
+	for _, f := range files {
+		if !isJCAMP(f) {
+			return false
+		}
+	}
+	return true
 }
 
 func orUnknown(k string) string {

@@ -8,6 +8,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"time"
 
 	"github.com/bandsolve/bandsolve/io/jcamp"
 	"gonum.org/v1/gonum/mat"
@@ -74,7 +75,8 @@ func blockSpectrum(path, src string, b jcamp.Block) (*Spectrum, error) {
 		}
 		kind = string(Absorbance)
 	}
-	return &Spectrum{AxisName: jcampAxisName(b.XUnits, x), Axis: x, Values: y, Source: src, Kind: kind, Title: b.Title}, nil
+	acq, _ := jcampAcquired(b)
+	return &Spectrum{AxisName: jcampAxisName(b.XUnits, x), Axis: x, Values: y, Source: src, Kind: kind, Title: b.Title, Acquired: acq}, nil
 }
 
 func blockName(b jcamp.Block) string {
@@ -100,8 +102,9 @@ func jcampAxisName(units string, x []float64) string {
 
 // seriesFromSpectra makes the series of one JCAMP-DX file. Several blocks
 // (a LINK file) need their times, as a folder does: from --times (rows
-// naming each block's ##TITLE) or from the last number in each ##TITLE.
-// A file with one spectrum takes its time from the table or the file name
+// naming each block's ##TITLE), from a date-time stamp or the last number
+// in each ##TITLE, or else from the blocks' acquisition times in their
+// headers when every block has one. A file with one spectrum takes its time from the table or the file name
 // when asked, else 0.
 func seriesFromSpectra(path string, sps []*Spectrum, opt FolderOptions) (*Series, error) {
 	if len(sps) == 0 {
@@ -142,20 +145,28 @@ func seriesFromSpectra(path string, sps []*Spectrum, opt FolderOptions) (*Series
 			times[i] = t
 		}
 	case opt.TimesFromName:
-		seen := map[float64]string{}
+		labels := make([]string, len(sps))
 		for i, sp := range sps {
-			t, err := timeFromTitle(sp.Title, opt.TimeUnit)
-			if len(sps) == 1 {
-				t, err = TimeFromName(path, opt.TimeUnit)
-			}
-			if err != nil {
-				return nil, inputErr(path, 0, "put each spectrum's time in its ##TITLE (e.g. scan 120 s), or give --times FILE", "%s: %v", name(sp), err)
-			}
-			if other, dup := seen[t]; dup {
-				return nil, inputErr(path, 0, "give each spectrum its own time, or use --times FILE", "%s has the same time %g s as %s", name(sp), t, other)
-			}
-			seen[t], times[i] = name(sp), t
+			labels[i] = sp.Title
 		}
+		what := func(i int) string { return "the ##TITLE " + strconv.Quote(sps[i].Title) }
+		if len(sps) == 1 {
+			labels[0] = strings.TrimSuffix(filepath.Base(path), filepath.Ext(path))
+			what = func(int) string { return "the file name " + strconv.Quote(filepath.Base(path)) }
+		}
+		ts, bad, err := timesFromLabels(labels, opt.TimeUnit, what)
+		if err != nil {
+			return nil, inputErr(path, 0, "put each spectrum's time in its ##TITLE (e.g. scan 120 s, or a date-time stamp), or give --times FILE", "%s: %v", name(sps[bad]), err)
+		}
+		seen := map[float64]string{}
+		for i, t := range ts {
+			if other, dup := seen[t]; dup {
+				return nil, inputErr(path, 0, "give each spectrum its own time, or use --times FILE", "%s has the same time %g s as %s", name(sps[i]), t, other)
+			}
+			seen[t], times[i] = name(sps[i]), t
+		}
+	case len(sps) > 1 && allAcquired(sps):
+		times = acquiredSeconds(sps)
 	case len(sps) > 1:
 		return nil, inputErr(path, 0, "give --times FILE (columns file,time_s; file = each block's ##TITLE) or --times-from-name (the last number in each ##TITLE)",
 			"holds %d spectra and needs their acquisition times", len(sps))
@@ -193,9 +204,25 @@ func seriesFromSpectra(path string, sps []*Spectrum, opt FolderOptions) (*Series
 	return s, nil
 }
 
-// timeFromTitle is TimeFromName for a block's ##TITLE.
-func timeFromTitle(title, unit string) (float64, error) {
-	return lastNumberTime(title, unit, "the ##TITLE "+strconv.Quote(title))
+// allAcquired tells whether every spectrum carries its acquisition time
+// (JCAMP-DX ##LONGDATE, or ##DATE with ##TIME).
+func allAcquired(sps []*Spectrum) bool {
+	for _, sp := range sps {
+		if sp == nil || sp.Acquired.IsZero() {
+			return false
+		}
+	}
+	return len(sps) > 0
+}
+
+// acquiredSeconds gives the spectra's acquisition times as seconds after
+// the first.
+func acquiredSeconds(sps []*Spectrum) []float64 {
+	ts := make([]time.Time, len(sps))
+	for i, sp := range sps {
+		ts[i] = sp.Acquired
+	}
+	return relativeSeconds(ts)
 }
 
 // CheckKind refuses a --kind that contradicts what a JCAMP-DX file says its

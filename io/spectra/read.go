@@ -21,6 +21,7 @@ import (
 	"strconv"
 	"strings"
 	"sync"
+	"time"
 	"unsafe"
 
 	"gonum.org/v1/gonum/mat"
@@ -44,7 +45,8 @@ type Spectrum struct {
 	Values   []float64
 	Source   string
 	Kind     string
-	Title    string // JCAMP-DX ##TITLE, "" for other formats
+	Title    string    // JCAMP-DX ##TITLE, "" for other formats
+	Acquired time.Time // JCAMP-DX ##LONGDATE (or ##DATE and ##TIME); zero when not given
 }
 
 // InputError is an error in a user's file, reported with its place.
