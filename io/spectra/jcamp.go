@@ -28,8 +28,20 @@ func isJCAMP(path string) bool {
 // readJCAMPSeries reads every spectrum block of a JCAMP-DX file (a LINK
 // file holds several).
 func readJCAMPSeries(path string) ([]*Spectrum, error) {
-	blocks, err := jcamp.ReadFile(path)
+	f, size, err := openRegular(path)
 	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	if size > maxFileBytes {
+		return nil, tooLarge(path, size, maxFileBytes)
+	}
+	blocks, err := jcamp.Parse(&limitedReader{r: f, name: path, left: maxFileBytes, limit: maxFileBytes}, path)
+	if err != nil {
+		var ie *InputError
+		if errors.As(err, &ie) {
+			return nil, ie
+		}
 		var pe *jcamp.ParseError
 		if errors.As(err, &pe) {
 			msg, hint, _ := strings.Cut(pe.Msg, "; ")

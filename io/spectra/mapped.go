@@ -18,7 +18,7 @@ const mappedMin = 1 << 20
 // bytes any more; the parser copies every string it keeps.
 func readMapped(path string) (raw []byte, release func(), err error) {
 	st, err := os.Stat(path)
-	if err != nil || st.IsDir() || st.Size() < mappedMin || st.Size() > maxFileBytes {
+	if err != nil || !st.Mode().IsRegular() || st.Size() < mappedMin || st.Size() > maxFileBytes {
 		raw, err := readAll(path) // its messages for every unusual case
 		return raw, func() {}, err
 	}
@@ -31,6 +31,8 @@ func readMapped(path string) (raw []byte, release func(), err error) {
 		raw = bytes.TrimPrefix(raw, []byte("\xef\xbb\xbf"))
 		if bytes.IndexByte(raw, 0) >= 0 {
 			err = inputErr(path, 0, "give a text export (CSV or JCAMP-DX)", "is a binary file, not text")
+		} else {
+			err = longestLineCheck(path, raw, MaxLineBytes)
 		}
 	}); err != nil {
 		release()

@@ -81,19 +81,17 @@ func inputErr(file string, line int, hint, format string, a ...any) error {
 const maxFileBytes = 4 << 30
 
 func readAll(path string) ([]byte, error) {
-	st, err := os.Stat(path)
+	f, size, err := openRegular(path)
 	if err != nil {
-		return nil, inputErr(path, 0, "check the path", "cannot read: %v", unwrapPathErr(err))
+		return nil, err
 	}
-	if st.IsDir() {
-		return nil, inputErr(path, 0, "give a file here", "is a folder")
+	defer f.Close()
+	if size > maxFileBytes {
+		return nil, inputErr(path, 0, "split the file", "is %d bytes, more than the %d accepted", size, int64(maxFileBytes))
 	}
-	if st.Size() > maxFileBytes {
-		return nil, inputErr(path, 0, "split the file", "is %d bytes, more than the %d accepted", st.Size(), int64(maxFileBytes))
-	}
-	raw, err := os.ReadFile(path)
+	raw, err := readText(f, path, size, maxFileBytes, MaxLineBytes)
 	if err != nil {
-		return nil, inputErr(path, 0, "check the file's permissions", "cannot read: %v", unwrapPathErr(err))
+		return nil, err
 	}
 	raw = bytes.TrimPrefix(raw, []byte("\xef\xbb\xbf"))
 	if bytes.IndexByte(raw, 0) >= 0 {
