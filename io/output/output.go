@@ -104,6 +104,24 @@ func NewStage(out string, force bool) (*Stage, error) {
 	return s, nil
 }
 
+// NewPrivateStage makes a stage in a new private folder of the system's
+// temporary folder (os.MkdirTemp: mode 0700, an unpredictable name), for
+// work that is never committed, such as verify's rerun. Nothing that
+// already exists in the temporary folder, a file or a link planted under a
+// fixed name, can stand in its way or receive its files. final is what the
+// stage stands for (relative paths in records are taken from it).
+func NewPrivateStage(prefix, final string) (*Stage, error) {
+	activeMu.Lock()
+	defer activeMu.Unlock()
+	dir, err := os.MkdirTemp("", prefix+"-*")
+	if err != nil {
+		return nil, fmt.Errorf("cannot create a temporary folder: %w", err)
+	}
+	s := &Stage{Final: final, Dir: dir}
+	active[s] = true
+	return s, nil
+}
+
 // Mkdir makes a sub-folder of the stage. Unlike os.MkdirAll it never
 // re-creates a staging folder that Interrupt has removed.
 func (s *Stage) Mkdir(name string) error {

@@ -15,6 +15,7 @@ import (
 
 	"github.com/bandsolve/bandsolve/io/cmdfile"
 	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/io/spectra"
 )
 
 // Names of the reproducibility files in an output folder.
@@ -92,7 +93,23 @@ func LoadCommandFile(path string, s *Settings, skip map[string]bool) (*cmdfile.F
 	if err != nil {
 		return nil, err
 	}
+	return applyCommandFile(f, path, s, skip)
+}
+
+// loadRecord applies an as-run record already read (verify reads it from
+// inside its folder only); path names it in messages and gives the folder.
+func loadRecord(path string, src []byte, s *Settings) error {
+	f, err := cmdfile.Parse(path, src, Keywords())
+	if err != nil {
+		return err
+	}
+	_, err = applyCommandFile(f, path, s, nil)
+	return err
+}
+
+func applyCommandFile(f *cmdfile.File, path string, s *Settings, skip map[string]bool) (*cmdfile.File, error) {
 	s.Dir = f.Dir(filepath.Dir(path))
+	var err error
 	err = f.Apply(func(e cmdfile.Entry) error {
 		if skip[e.Key] {
 			return nil
@@ -365,13 +382,24 @@ func makeManifest(r *Result, stage *output.Stage, out, base string) (*Manifest, 
 	return m, nil
 }
 
-// HashFile returns a file's size and SHA-256 (hex).
+// HashFile returns a regular file's size and SHA-256 (hex). A device,
+// FIFO or socket is refused by name: /dev/zero would never end.
 func HashFile(path string) (int64, string, error) {
+	st, err := os.Stat(path)
+	if err != nil {
+		return 0, "", err
+	}
+	if !st.Mode().IsRegular() {
+		return 0, "", fmt.Errorf("%s: is %s, not a regular file; refused", path, spectra.KindOf(st.Mode()))
+	}
 	f, err := os.Open(path)
 	if err != nil {
 		return 0, "", err
 	}
 	defer f.Close()
+	if st, err := f.Stat(); err != nil || !st.Mode().IsRegular() {
+		return 0, "", fmt.Errorf("%s: not a regular file; refused", path)
+	}
 	h := sha256.New()
 	n, err := io.Copy(h, f)
 	if err != nil {
@@ -380,18 +408,43 @@ func HashFile(path string) (int64, string, error) {
 	return n, hex.EncodeToString(h.Sum(nil)), nil
 }
 
-// ReadManifest reads an output folder's manifest.json.
+// maxManifestBytes bounds manifest.json: it lists one line per input, and
+// a folder of 10⁵ spectrum files gives a few MB.
+const maxManifestBytes = 64 << 20
+
+// ReadManifest reads an output folder's manifest.json (never through a
+// link leading outside the folder; see readManifest).
 func ReadManifest(dir string) (*Manifest, error) {
-	b, err := os.ReadFile(filepath.Join(dir, ManifestName))
+	root, err := os.OpenRoot(dir)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", dir, unwrapPath(err))
+	}
+	defer root.Close()
+	return readManifest(root, dir)
+}
+
+// readManifest reads manifest.json from the folder root (named dir in
+// messages). It is untrusted: it must be a regular file inside the folder,
+// of bounded size, and valid JSON of the Manifest type.
+func readManifest(root *os.Root, dir string) (*Manifest, error) {
+	b, err := readInside(root, ManifestName, maxManifestBytes)
 	if err != nil {
 		if errors.Is(err, os.ErrNotExist) {
 			return nil, fmt.Errorf("%s: has no %s; it is not a complete bandsolve output folder", dir, ManifestName)
 		}
-		return nil, err
+		return nil, fmt.Errorf("%s: %w", dir, err)
 	}
+	return parseManifest(filepath.Join(dir, ManifestName), b)
+}
+
+// parseManifest decodes a manifest; name is used in messages.
+func parseManifest(name string, b []byte) (*Manifest, error) {
 	var m Manifest
 	if err := json.Unmarshal(b, &m); err != nil {
-		return nil, fmt.Errorf("%s: %w", filepath.Join(dir, ManifestName), err)
+		return nil, fmt.Errorf("%s: not a valid manifest: %w", name, err)
+	}
+	if m.Tool != "bandsolve" {
+		return nil, fmt.Errorf("%s: not a bandsolve manifest (its tool is %q)", name, clip(m.Tool))
 	}
 	return &m, nil
 }

@@ -2,6 +2,8 @@ package pipeline
 
 import (
 	"bytes"
+	"crypto/sha256"
+	"encoding/hex"
 	"errors"
 	"fmt"
 	"io"
@@ -11,7 +13,9 @@ import (
 	"sort"
 	"strings"
 
+	"github.com/bandsolve/bandsolve/io/cmdfile"
 	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/io/spectra"
 )
 
 // Difference is the first place a rerun's file departs from the folder's.
@@ -57,6 +61,12 @@ func (v *Verification) OK() bool { return len(v.Differences) == 0 }
 // Verify reruns the analysis recorded in the output folder dir into a
 // temporary folder and compares every file byte for byte. The inputs'
 // SHA-256 are checked first: a changed input is reported and nothing is rerun.
+//
+// Nothing in dir is trusted (docs/security.md): its files are read through
+// an os.Root, so no name, ".." or link leads outside it; only regular files
+// are read; a manifest may list as inputs only files its as-run record
+// names, and as supplied files only plain paths inside dir; the rerun is
+// written into a private temporary folder and nowhere else.
 func Verify(dir string, log io.Writer) (*Verification, error) {
 	if log == nil {
 		log = io.Discard
@@ -65,47 +75,75 @@ func Verify(dir string, log io.Writer) (*Verification, error) {
 	if st, err := os.Stat(dir); err != nil || !st.IsDir() {
 		return nil, usage("%s: not a folder; give an output folder of bandsolve (it holds %s and %s)", dir, RecordName, ManifestName)
 	}
-	m, err := ReadManifest(dir)
+	abs, err := filepath.Abs(dir)
+	if err != nil {
+		return nil, err
+	}
+	root, err := os.OpenRoot(abs)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", dir, unwrapPath(err))
+	}
+	defer root.Close()
+	m, err := readManifest(root, dir)
 	if err != nil {
 		return nil, err
 	}
 	if m.Version != Version || m.Host.Commit != Commit() {
 		v.Notes = append(v.Notes, fmt.Sprintf("the folder was written by bandsolve %s (commit %s), this is %s (commit %s): a difference may come from the change of version", m.Version, m.Host.Commit, Version, Commit()))
 	}
-	inputs := map[string]bool{}
-	for _, in := range append(append([]InputFile(nil), m.Inputs...), m.Supplied...) {
-		if inputs[in.Path] {
-			continue
-		}
-		inputs[in.Path] = true
-		p := filepath.FromSlash(in.Path)
-		if !filepath.IsAbs(p) {
-			p = filepath.Join(dir, p)
-		}
-		n, sum, err := HashFile(p)
-		if err != nil {
-			v.Differences = append(v.Differences, &Difference{File: in.Path, InputError: fmt.Sprintf("input %s: cannot be read (%v); put it back where the record says (relative to %s)", in.Path, unwrapPath(err), dir)})
-			continue
-		}
-		if sum != in.SHA256 {
-			v.Differences = append(v.Differences, &Difference{File: in.Path, InputError: fmt.Sprintf("input %s: SHA-256 mismatch: it is %s (%d bytes), the run read %s (%d bytes); the input changed since the run", in.Path, sum, n, in.SHA256, in.Bytes)})
-			continue
-		}
-		v.Inputs++
+	record := filepath.Join(dir, RecordName)
+	src, err := readInside(root, RecordName, cmdfile.MaxBytes)
+	if err != nil {
+		return nil, fmt.Errorf("as-run record: %w", err)
 	}
+	s := NewSettings()
+	if err := loadRecord(record, src, s); err != nil {
+		return nil, fmt.Errorf("as-run record: %w", err)
+	}
+	inputs, supplied := checkInputs(v, root, abs, m, s)
 	if !v.OK() {
 		return v, nil
 	}
-	record := filepath.Join(dir, RecordName)
-	s := NewSettings()
-	if _, err := LoadCommandFile(record, s, nil); err != nil {
-		return nil, fmt.Errorf("as-run record: %w", err)
+	s.Out, s.Force, s.Quiet, s.JSON = abs, false, true, false
+	if n := absoluteInputs(s); n != "" {
+		v.Notes = append(v.Notes, fmt.Sprintf("the record names inputs by absolute path (%s): this folder reproduces only where those paths exist; give relative paths to keep a folder movable", n))
 	}
-	abs, err := filepath.Abs(dir)
+	fmt.Fprintf(log, "rerunning %s\n", record)
+	r, err := Run(s, log)
 	if err != nil {
+		return nil, fmt.Errorf("rerun: %w", err)
+	}
+	// The rerun is staged in a private temporary folder; with Final naming
+	// the folder being verified, the record's relative paths come out as in
+	// the original. It is never committed.
+	stage, err := output.NewPrivateStage("bandsolve-verify", abs)
+	if err != nil {
+		return nil, fmt.Errorf("rerun: %w", err)
+	}
+	defer stage.Abort()
+	for _, f := range m.Supplied {
+		// Each path passed filepath.IsLocal in checkInputs: it stays inside the stage.
+		p := filepath.FromSlash(f.Path)
+		if d := filepath.Dir(p); d != "." {
+			if err := os.MkdirAll(stage.Path(d), 0o755); err != nil {
+				return nil, err
+			}
+		}
+		if err := stage.Write(p, supplied[f.Path]); err != nil {
+			return nil, err
+		}
+	}
+	if err := finish(r, stage, nil, Streams{Out: io.Discard, Err: io.Discard}); err != nil {
+		return nil, fmt.Errorf("rerun: %w", err)
+	}
+	if err := compareRerun(v, root, m, stage, inputs); err != nil {
 		return nil, err
 	}
-	s.Out, s.Force, s.Quiet, s.JSON = abs, false, true, false
+	return v, nil
+}
+
+// absoluteInputs lists the record's input paths that are absolute.
+func absoluteInputs(s *Settings) string {
 	var absolute []string
 	for _, o := range Options() {
 		for _, val := range s.Get(o.Name) {
@@ -114,40 +152,11 @@ func Verify(dir string, log io.Writer) (*Verification, error) {
 			}
 		}
 	}
-	if len(absolute) > 0 {
-		v.Notes = append(v.Notes, fmt.Sprintf("the record names inputs by absolute path (%s): this folder reproduces only where those paths exist; give relative paths to keep a folder movable", strings.Join(absolute, ", ")))
-	}
-	fmt.Fprintf(log, "rerunning %s\n", record)
-	r, err := Run(s, log)
-	if err != nil {
-		return nil, fmt.Errorf("rerun: %w", err)
-	}
-	// The rerun is staged in the temporary folder; with Final naming the
-	// folder being verified, the record's relative paths come out as in the
-	// original. It is never committed.
-	stage, err := output.NewStage(filepath.Join(os.TempDir(), "bandsolve-verify"), true)
-	if err != nil {
-		return nil, err
-	}
-	defer stage.Abort()
-	stage.Final = abs
-	for _, f := range m.Supplied {
-		b, err := os.ReadFile(filepath.Join(dir, filepath.FromSlash(f.Path)))
-		if err != nil {
-			return nil, err
-		}
-		if d := filepath.Dir(filepath.FromSlash(f.Path)); d != "." {
-			if err := os.MkdirAll(stage.Path(d), 0o755); err != nil {
-				return nil, err
-			}
-		}
-		if err := stage.Write(filepath.FromSlash(f.Path), b); err != nil {
-			return nil, err
-		}
-	}
-	if err := finish(r, stage, nil, Streams{Out: io.Discard, Err: io.Discard}); err != nil {
-		return nil, fmt.Errorf("rerun: %w", err)
-	}
+	return strings.Join(absolute, ", ")
+}
+
+// compareRerun compares the rerun's files in stage with the folder's.
+func compareRerun(v *Verification, root *os.Root, m *Manifest, stage *output.Stage, inputs map[string]bool) error {
 	// The rerun must have read exactly the files the manifest lists (a file
 	// added to a data folder, or a record edited to name other inputs,
 	// shows here with its name).
@@ -159,14 +168,12 @@ func Verify(dir string, log io.Writer) (*Verification, error) {
 	written := stage.Files()[len(m.Supplied):]
 	all, err := listFiles(stage.Dir)
 	if err != nil {
-		return nil, err
+		return err
 	}
 	seen := map[string]bool{}
-	for _, f := range written {
-		seen[filepath.ToSlash(f)] = true
-	}
 	order := []string{}
 	for _, f := range written {
+		seen[filepath.ToSlash(f)] = true
 		order = append(order, filepath.ToSlash(f))
 	}
 	for _, f := range all {
@@ -179,26 +186,27 @@ func Verify(dir string, log io.Writer) (*Verification, error) {
 		if name == ManifestName {
 			continue
 		}
-		want, err := os.ReadFile(filepath.Join(dir, filepath.FromSlash(name)))
-		if os.IsNotExist(err) {
+		want, err := readInside(root, name, maxResultBytes)
+		if errors.Is(err, os.ErrNotExist) {
 			v.Differences = append(v.Differences, &Difference{File: name, Missing: true})
 			continue
 		}
 		if err != nil {
-			return nil, err
+			v.Differences = append(v.Differences, &Difference{File: name, InputError: fmt.Sprintf("%s: refused: %v", name, err)})
+			continue
 		}
 		got, err := os.ReadFile(filepath.Join(stage.Dir, filepath.FromSlash(name)))
 		if err != nil {
-			return nil, err
+			return err
 		}
 		v.Compared = append(v.Compared, name)
 		if d := firstDifference(name, want, got); d != nil {
 			v.Differences = append(v.Differences, d)
 		}
 	}
-	have, err := listFiles(dir)
+	have, err := listFiles(root.Name())
 	if err != nil {
-		return nil, err
+		return err
 	}
 	var extra []string
 	for _, f := range have {
@@ -209,7 +217,158 @@ func Verify(dir string, log io.Writer) (*Verification, error) {
 	if len(extra) > 0 {
 		v.Notes = append(v.Notes, fmt.Sprintf("not compared, as no analysis writes them (the command that made the folder did): %s", strings.Join(extra, ", ")))
 	}
-	return v, nil
+	return nil
+}
+
+// checkInputs checks the SHA-256 of the manifest's inputs and supplied
+// files, adding a Difference for each that changed or is refused. It
+// returns the set of their names and the supplied files' contents. An
+// input must be a file the record names (or a file inside a folder it
+// names), so that a tampered manifest cannot make verify read, or print
+// anything about, any other file; a supplied file must lie inside the
+// folder, where it is read through root.
+func checkInputs(v *Verification, root *os.Root, abs string, m *Manifest, s *Settings) (map[string]bool, map[string][]byte) {
+	named := recordPaths(s)
+	inputs := map[string]bool{}
+	supplied := map[string][]byte{}
+	refuse := func(in InputFile, why string) {
+		v.Differences = append(v.Differences, &Difference{File: in.Path, InputError: fmt.Sprintf("manifest entry %q: refused: %s; nothing was read", clip(in.Path), why)})
+	}
+	for _, in := range m.Inputs {
+		if inputs[in.Path] {
+			continue
+		}
+		inputs[in.Path] = true
+		p := filepath.FromSlash(in.Path)
+		if !filepath.IsAbs(p) {
+			p = filepath.Join(abs, p)
+		}
+		if !named.covers(filepath.Clean(p)) {
+			refuse(in, "the as-run record names no such input")
+			continue
+		}
+		var b []byte
+		var err error
+		if rel := filepath.FromSlash(in.Path); filepath.IsLocal(rel) {
+			b, err = readInside(root, in.Path, spectra.MaxFileBytes)
+		} else {
+			b, err = spectra.ReadRegular(p, spectra.MaxFileBytes)
+		}
+		if err != nil {
+			v.Differences = append(v.Differences, &Difference{File: in.Path, InputError: fmt.Sprintf("input %s: cannot be read (%v); put it back where the record says (relative to %s)", in.Path, unwrapPath(err), root.Name())})
+			continue
+		}
+		checkSum(v, in, b)
+	}
+	for _, in := range m.Supplied {
+		if !filepath.IsLocal(filepath.FromSlash(in.Path)) {
+			refuse(in, "a supplied file must be a plain path inside the folder (not absolute, no ..)")
+			continue
+		}
+		b, err := readInside(root, in.Path, spectra.MaxFileBytes)
+		if err != nil {
+			v.Differences = append(v.Differences, &Difference{File: in.Path, InputError: fmt.Sprintf("supplied file %s: cannot be read (%v)", in.Path, unwrapPath(err))})
+			continue
+		}
+		if !inputs[in.Path] {
+			inputs[in.Path] = true
+			checkSum(v, in, b)
+		}
+		supplied[in.Path] = b
+	}
+	return inputs, supplied
+}
+
+// checkSum compares a file's SHA-256 with the manifest's. The message
+// gives sizes, never the file's own digest: the manifest is not trusted to
+// name a file whose fingerprint may be shown.
+func checkSum(v *Verification, in InputFile, b []byte) {
+	sum := sha256.Sum256(b)
+	if hex.EncodeToString(sum[:]) != in.SHA256 {
+		v.Differences = append(v.Differences, &Difference{File: in.Path, InputError: fmt.Sprintf("input %s: SHA-256 mismatch with the manifest (%d bytes now, %d recorded); the input changed since the run", in.Path, len(b), in.Bytes)})
+		return
+	}
+	v.Inputs++
+}
+
+// pathSet is the files and folders a record names, absolute and clean.
+type pathSet struct{ files, folders []string }
+
+func recordPaths(s *Settings) pathSet {
+	var ps pathSet
+	for _, o := range Options() {
+		if keyword(o).Path != cmdfile.ReadPath {
+			continue
+		}
+		for _, val := range s.Get(o.Name) {
+			if !IsPath(o.Name, val) {
+				continue
+			}
+			p, err := filepath.Abs(s.Path(val))
+			if err != nil {
+				continue
+			}
+			ps.files = append(ps.files, p)
+			if o.Name == "data" {
+				ps.folders = append(ps.folders, p)
+			}
+		}
+	}
+	return ps
+}
+
+// covers says whether p is a named file or lies inside a named data folder.
+func (ps pathSet) covers(p string) bool {
+	for _, f := range ps.files {
+		if p == f {
+			return true
+		}
+	}
+	for _, d := range ps.folders {
+		if rel, err := filepath.Rel(d, p); err == nil && filepath.IsLocal(rel) {
+			return true
+		}
+	}
+	return false
+}
+
+// maxResultBytes bounds a result file verify compares: far above any
+// result a bandsolve run writes (maps.csv is downsampled).
+const maxResultBytes = 1 << 30
+
+// readInside reads the regular file name (a slash path) from the folder
+// root. os.Root refuses a name or link leading outside the folder; a
+// device, FIFO or socket is refused before it is opened, and more than
+// limit bytes are refused while reading.
+func readInside(root *os.Root, name string, limit int64) ([]byte, error) {
+	p := filepath.FromSlash(name)
+	if !filepath.IsLocal(p) {
+		return nil, fmt.Errorf("%s is not a plain path inside %s (absolute, or climbing out with ..)", clip(name), root.Name())
+	}
+	st, err := root.Stat(p)
+	if err != nil {
+		return nil, outside(err, name, root)
+	}
+	if !st.Mode().IsRegular() {
+		return nil, fmt.Errorf("%s is not a regular file (%s)", name, spectra.KindOf(st.Mode()))
+	}
+	f, err := root.Open(p)
+	if err != nil {
+		return nil, outside(err, name, root)
+	}
+	defer f.Close()
+	return spectra.ReadAllLimited(f, name, limit)
+}
+
+// outside words os.Root's refusal of a path leading out of the folder.
+func outside(err error, name string, root *os.Root) error {
+	if errors.Is(err, os.ErrNotExist) {
+		return err
+	}
+	if strings.Contains(err.Error(), "escapes") {
+		return fmt.Errorf("%s leads outside %s (through a link or ..)", name, root.Name())
+	}
+	return unwrapPath(err)
 }
 
 // inputsDiffer describes the first difference between the inputs a run

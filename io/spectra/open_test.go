@@ -13,7 +13,7 @@ import (
 // `every` bytes (never, when every is 0): a 2 GB file without writing one.
 type hostile struct {
 	n, read, every int64
-	fill       byte
+	fill           byte
 }
 
 func (h *hostile) Read(p []byte) (int, error) {
