@@ -296,6 +296,9 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 	}
 	zerosKN := mat.NewDense(k, n, nil)
 
+	// Row × column weights (Weighted data): the Gram matrices become CᵀAC
+	// and SᵀBS; the right-hand sides come weighted from d.
+	rowW, colW := weightsOf(d)
 	c := mat.DenseCopyOf(c0)
 	clampColumns(c, nnP)
 	res := &Result{}
@@ -336,8 +339,8 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 			clampColumns(ce, nnP)
 			c, extrapolated = ce, true
 		}
-		// Spectra step: Gram CᵀC, right-hand sides Cᵀ D.
-		g := gram(c)
+		// Spectra step: Gram CᵀAC, right-hand sides Cᵀ A D.
+		g := gramW(c, rowW)
 		b := transpose(d.MulProfiles(c)) // k × m
 		if softRef != nil {
 			g, b = softKnown(g, b, softRef, softW)
@@ -350,9 +353,9 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		if !opt.Closure {
 			normaliseSpectra(s, c, scaleSet)
 		}
-		// Profiles step: Gram SᵀS, right-hand sides Sᵀ Dᵀ.
+		// Profiles step: Gram SᵀBS, right-hand sides Sᵀ B Dᵀ.
 		ds := d.MulSpectra(s) // n × k
-		g = gram(s)
+		g = gramW(s, colW)
 		gp := g
 		if opt.Ridge > 0 {
 			gp = ridged(g, opt.Ridge)
@@ -391,7 +394,8 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		}
 		// ‖D − C Sᵀ‖² = ‖D‖² − 2 tr(Cᵀ D S) + tr(CᵀC SᵀS) (trace identity;
 		// D S is reused from the profiles step, valid for the current S).
-		ssr := total - 2*traceProd(c, ds) + traceProd(gram(c), g)
+		// Weighted: Σ a_i b_j e_ij² = ‖D‖²_w − 2 tr(Cᵀ A D B S) + tr(CᵀAC SᵀBS).
+		ssr := total - 2*traceProd(scaleRowsOrSame(c, rowW), ds) + traceProd(gramW(c, rowW), g)
 		if ssr < 0 {
 			ssr = 0
 		}

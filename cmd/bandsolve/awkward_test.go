@@ -287,3 +287,24 @@ func TestDemoOutputsFinite(t *testing.T) {
 	out := filepath.Join(t.TempDir(), "demo")
 	runOK(t, "demo", "--quiet", "--out", out)
 }
+
+// A single beam at or below zero is a point without light (an opaque band,
+// a detector fault): by A = −log10(I/I₀) its absorbance is undefined, so it
+// is missing, not a reason to stop (PRIMER §8; common practice). The run
+// goes on and the notes name the spectrum's time and the axis point.
+func TestBlindPointsDoNotStop(t *testing.T) {
+	for _, c := range []struct {
+		file  string
+		where string // axis point in the note (from the fixture, testdata/bad/make_bad.py)
+	}{
+		{"bad_zero_beam.csv", "wavenumber 1008 in 1 spectra"},
+		{"bad_negative_beam.csv", "wavenumber 1014 in 1 spectra"},
+	} {
+		out := filepath.Join(t.TempDir(), "out")
+		runOK(t, "resolve", "--quiet", "--data", filepath.Join(badDir, c.file), "--kind", "single-beam", "--out", out)
+		notes := joined(readSummary(t, out), "notes")
+		if !strings.Contains(notes, "1 blind point(s)") || !strings.Contains(notes, c.where) {
+			t.Errorf("%s: notes %q do not name the blind point at %s", c.file, notes, c.where)
+		}
+	}
+}

@@ -210,8 +210,6 @@ func badCases() []badCase {
 		{name: "binary garbage", args: []string{"--data", "B/bad_binary.csv"}, code: 1, want: []string{"bad_binary.csv: is a binary file", "give a text export"}},
 		{name: "one-point spectrum", args: []string{"--data", "B/bad_one_point.csv"}, code: 1, want: []string{"bad_one_point.csv: has only 1 axis point", "at least two axis points"}},
 		{name: "one spectrum where differences need two", args: []string{"--data", "B/bad_one_spectrum.csv"}, code: 1, want: []string{"bad_one_spectrum.csv: holds one spectrum only", "at least two"}},
-		{name: "zero single beam", args: []string{"--data", "B/bad_zero_beam.csv"}, code: 1, want: []string{"bad_zero_beam.csv column 4", "intensity 0 at wavenumber 1008", "--kind absorbance", "--exclude"}},
-		{name: "negative single beam", args: []string{"--data", "B/bad_negative_beam.csv", "--kind", "single-beam"}, code: 1, want: []string{"bad_negative_beam.csv column 7", "intensity -12.5 at wavenumber 1014", "single beams must be positive"}},
 		{name: "missing data path", args: []string{"--data", "W/nothing.csv"}, code: 1, want: []string{"nothing.csv: cannot read: no such file or directory", "check the --data path"}},
 		{name: "axis differs between experiments", args: []string{"--data", "B/good.csv", "--data", "B/bad_other_axis.csv"}, code: 1, want: []string{"bad_other_axis.csv: its axis differs from", "good.csv", "--resample"}},
 		{name: "malformed JCAMP-DX record", args: []string{"--data", "B/bad_record.jdx"}, code: 1, want: []string{"bad_record.jdx:7:", "no ##END="}},

@@ -47,8 +47,13 @@ type Result struct {
 	Mode        mcr.Mode
 	ModeReason  string
 	D           *mat.Dense // the matrix resolved
-	Factors     *svd.Factors
-	Rank        *svd.RankReport
+	// Weights are D's noise weights (row × column, spectra.Weights) and
+	// Blind its missing points; DiffWeights those of the difference matrix
+	// in species mode.
+	Weights, DiffWeights *spectra.Weights
+	Blind                *spectra.Blind
+	Factors              *svd.Factors
+	Rank                 *svd.RankReport
 	// DiffRank is the rank of the difference matrix when the absolute one
 	// was resolved (species mode), nil otherwise.
 	DiffRank   *svd.RankReport
@@ -195,6 +200,9 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	}
 	// Assemble each experiment on the common channels and stack the rows.
 	var absRows, diffRows []*mat.Dense
+	var absW, diffW []*spectra.Weights
+	var blinds []*spectra.Blind
+	var rowsOf []int
 	row := 0
 	for ei, ser := range series {
 		var sub *spectra.Series
@@ -217,7 +225,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 			return nil, usage("--reference mean:%d: %s has only %d spectra; average at most %d", refMean, ser.Source, n, n)
 		}
 		as, err := spectra.Assemble(sub, spectra.AssembleOptions{Kind: kind, Blank: blank,
-			Reference: spectra.Reference{Mean: refMean, File: refSpec}, BlankSource: s.Blank, Consume: true})
+			Reference: spectra.Reference{Mean: refMean, File: refSpec}, BlankSource: s.Blank, Consume: true, Pre: s.Pre})
 		if err != nil {
 			return nil, inputContext(ser.Source, err)
 		}
@@ -244,7 +252,10 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 			absRows = append(absRows, as.Absolute)
 		}
 		diffRows = append(diffRows, as.Difference)
+		absW, diffW = append(absW, as.AbsoluteWeights), append(diffW, as.DifferenceWeights)
+		blinds, rowsOf = append(blinds, as.Blind), append(rowsOf, n)
 	}
+	r.Blind = spectra.StackBlind(blinds, rowsOf)
 	r.AxisName, r.Axis = first.AxisName, axis
 	if len(absRows) == len(series) {
 		r.Mode = mcr.Species
@@ -254,11 +265,14 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 			r.ModeReason = "species: the input is absolute absorbance, so each component is one species"
 		}
 		r.D = stack(absRows)
+		r.Weights, r.DiffWeights = spectra.StackWeights(absW), spectra.StackWeights(diffW)
 	} else {
 		r.Mode = mcr.Reactions
 		r.ModeReason = "reactions: difference spectra alone resolve independent reactions (extents and signed reaction spectra), not species; a blank single beam (--blank) or a known spectrum is what separates the species"
 		r.D = stack(diffRows)
+		r.Weights = spectra.StackWeights(diffW)
 	}
+	r.Notes = append(r.Notes, spectra.NoiseNotes(first.AxisName, axis, r.Weights.ChannelSigma())...)
 	n, m := r.D.Dims()
 	fmt.Fprintf(log, "data: %d spectra × %d points, %s mode\n", n, m, r.Mode)
 

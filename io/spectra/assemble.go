@@ -66,6 +66,14 @@ type Assembled struct {
 	// Warnings are faults of the data that do not stop the analysis, such
 	// as a saturated band (see saturationWarnings).
 	Warnings []string
+	// AbsoluteWeights and DifferenceWeights are the noise weights of
+	// Absolute and Difference (noise.go); nil when that matrix is nil.
+	AbsoluteWeights, DifferenceWeights *Weights
+	// Blind holds the points with no usable light (missing, weight zero);
+	// their values in Absolute and Difference are placeholders.
+	Blind *Blind
+	// Noise says how the noise was estimated.
+	Noise Noise
 }
 
 // AssembleOptions gather what assembly needs besides the series.
@@ -75,6 +83,9 @@ type AssembleOptions struct {
 	Reference Reference
 	// BlankSource names the blank's file in messages ("blank" if empty).
 	BlankSource string
+	// Pre is the number of spectra recorded before the reaction started
+	// (--pre): their successive differences give the noise when ≥ 2.
+	Pre int
 	// Consume lets the result take over the series' values matrix (the
 	// absolute or the difference matrix is computed in its place) and sets
 	// s.Values to nil: one matrix fewer in memory, which matters when the
@@ -104,42 +115,17 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 	}
 	switch opt.Kind {
 	case SingleBeam:
-		if err := checkPositive(s.Values, s, "single beam"); err != nil {
+		if err := assembleSingleBeams(s, opt, ref, out); err != nil {
 			return nil, err
 		}
-		if opt.Blank != nil {
-			src := opt.BlankSource
-			if src == "" {
-				src = "blank"
-			}
-			for j, v := range opt.Blank {
-				if !(v > 0) || math.IsInf(v, 0) {
-					return nil, inputErr(src, 0, "a blank must be a single beam (positive intensities), not absorbance; or exclude that region with --exclude LO:HI", "blank intensity %g at %s %g", v, s.AxisName, s.Axis[j])
-				}
-			}
-		}
-		if opt.Reference.File != nil {
-			for j, v := range ref {
-				if !(v > 0) {
-					return nil, inputErr(opt.Reference.File.Source, 0, "a reference for single beams must be a single beam too (positive intensities)", "reference intensity %g at %s %g", v, s.AxisName, s.Axis[j])
-				}
-			}
-		} else {
-			meanRows(s.Values, out.ReferenceRows, ref)
-		}
-		out.Warnings = append(out.Warnings, saturationWarnings(s, ref, opt.Blank)...)
-		out.Difference = mat.NewDense(n, m, nil)
-		if opt.Blank != nil {
-			out.Absolute = mat.NewDense(n, m, nil)
-			if opt.Consume {
-				out.Absolute = s.Values // each value is read before it is overwritten
-			}
-		}
-		absorbances(s.Values, ref, opt.Blank, out.Difference, out.Absolute)
 	case Absorbance:
 		if opt.Blank != nil {
 			return nil, fmt.Errorf("a blank single beam goes with --kind single-beam; absorbance input is already ratioed")
 		}
+		sigma, q, src := channelNoise(s.Values, opt.Pre, nil)
+		out.Noise = Noise{Level: median(sigma), Unit: "absorbance", Source: src, Channel: sigma, Quantum: q}
+		out.AbsoluteWeights = channelWeights(n, sigma, nil)
+		out.DifferenceWeights = out.AbsoluteWeights
 		if opt.Consume {
 			out.Absolute = s.Values
 		} else {
@@ -160,6 +146,9 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 		if opt.Blank != nil {
 			return nil, fmt.Errorf("a blank single beam goes with --kind single-beam; difference input is already ratioed")
 		}
+		sigma, q, src := channelNoise(s.Values, opt.Pre, nil)
+		out.Noise = Noise{Level: median(sigma), Unit: "absorbance", Source: src, Channel: sigma, Quantum: q}
+		out.DifferenceWeights = channelWeights(n, sigma, nil)
 		if opt.Consume {
 			out.Difference = s.Values
 		} else {
@@ -267,7 +256,7 @@ func saturationWarnings(s *Series, ref, blank []float64) []string {
 			break
 		}
 		lo, hi := s.Axis[r[0]], s.Axis[r[1]]
-		out = append(out, fmt.Sprintf("%s: single beam below %g %% of its median at %s %g–%g (%d point(s)): a saturated band or a detector edge, where absorbance is mostly noise; consider --exclude %g:%g",
+		out = append(out, fmt.Sprintf("%s: single beam below %g %% of its median at %s %g–%g (%d point(s)): a saturated band or a detector edge, where absorbance is mostly noise: weighted down by its noise, or cut with --exclude %g:%g",
 			s.Source, 100*weakBeamFraction, s.AxisName, lo, hi, r[1]-r[0]+1, lo, hi))
 	}
 	return out

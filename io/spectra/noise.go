@@ -1,0 +1,760 @@
+package spectra
+
+import (
+	"fmt"
+	"math"
+	"sort"
+	"strings"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// The noise model of the assembled matrix (docs/measurement.md).
+//
+// Single beams: the detector's noise is about constant in counts, so by
+// propagation of error (A = −log10(I/I₀), dA = −dI/(I ln 10)) the absorbance
+// of point (i, j) has
+//
+//	σ_A,ij = (1/ln 10)·√((σ_I,j/I_ij)² + (σ_0,j/I_0,j)²)
+//
+// with I₀ the blank (absolute absorbance) or the reference (differences), and
+// σ_0 its own noise: σ_I for one recorded beam, σ_I/√N for the mean of N.
+// σ_I,j, the detector's noise at channel j, comes from the data: from
+// successive differences of the pre-reaction spectra ((I_{i+1}−I_i)/√2) when
+// there are some, else from second differences in time,
+// (I_{i+1} − 2I_i + I_{i−1})/√6, which cancel any change that is linear over
+// three spectra (slow chemistry, drift). Differences in time do not see
+// noise correlated along the axis (smoothing, interpolation by the
+// instrument). The scale is the median absolute value × 1.4826 (the MAD of
+// a zero-mean normal; common practice), robust to the few large differences
+// of fast chemistry or a spike, then a running median along the axis makes
+// it smooth enough for 50 spectra. Exports round to a few digits: rounding
+// to a step q adds q²/12 of variance (Sheppard), so σ is never taken below
+// q/√12.
+//
+// Absorbance or difference input: the same time differences give σ_A,j per
+// channel directly.
+//
+// Weights: maximum-likelihood weighting (Wentzell, Andrews, Hamilton, Faber
+// & Kowalski, J. Chemometrics 1997) minimises Σ w_ij e_ij² with w = 1/σ².
+// The weights kept are the row × column fit w_ij ≈ a_i·b_j (log w fitted by
+// row and column means, the two-way additive model) so that every ALS half
+// step keeps one shared Gram matrix; they are scaled so that the weighted
+// noise has unit variance on average over the observed points.
+//
+// Blind points: a single beam that is not finite, at or below 3σ_I (no light
+// above the noise: an opaque band, a detector edge) or at the detector's
+// ceiling (a flat top) holds no absorbance information. Such points are
+// missing (weight zero) rather than errors; their values in the matrices are
+// placeholders (interpolated in time within the channel), to be replaced by
+// the low-rank model where the matrix is factored.
+
+// Weights are the row × column maximum-likelihood weights w_ij = Row[i]·Col[j]
+// ≈ 1/σ²_ij, scaled so that w·σ² averages 1 over the observed points.
+type Weights struct {
+	Row []float64 // a_i, one per spectrum
+	Col []float64 // b_j, one per channel
+}
+
+// ChannelSigma returns the noise standard deviation per channel of a typical
+// spectrum (median row weight), in the matrix's units: 1/√(b_j·median a).
+func (w *Weights) ChannelSigma() []float64 {
+	if w == nil {
+		return nil
+	}
+	ma := median(w.Row)
+	out := make([]float64, len(w.Col))
+	for j, b := range w.Col {
+		if b > 0 && ma > 0 {
+			out[j] = 1 / math.Sqrt(b*ma)
+		}
+	}
+	return out
+}
+
+// Blind lists the points with no usable light.
+type Blind struct {
+	Rows  [][]int // Rows[i]: the blind channels of spectrum i, ascending (nil: none)
+	Count int
+}
+
+// Has reports whether point (i, j) is blind.
+func (b *Blind) Has(i, j int) bool {
+	if b == nil || i >= len(b.Rows) {
+		return false
+	}
+	r := b.Rows[i]
+	k := sort.SearchInts(r, j)
+	return k < len(r) && r[k] == j
+}
+
+// Noise says how the noise was estimated.
+type Noise struct {
+	// Level is the median over channels of the estimated σ: of the single
+	// beams (counts) for single-beam input, else of absorbance.
+	Level float64
+	Unit  string // "single-beam units" or "absorbance"
+	// Source names the estimate ("pre-reaction spectra …" or "second differences in time").
+	Source string
+	// Channel is σ per channel (single beams: σ_I,j; absorbance: σ_A,j).
+	Channel []float64
+	// Quantum is the rounding step seen in the export (0 if none).
+	Quantum float64
+}
+
+// madScale is 1/Φ⁻¹(3/4): the median absolute value of a zero-mean normal
+// sample times this is its standard deviation (common practice).
+const madScale = 1.482602218505602
+
+// channelNoise estimates σ per channel from differences in time of v's rows,
+// skipping blind points: successive differences over rows [0, pre) when
+// pre ≥ 2 (repeats of one state), else second differences over all rows.
+// It returns σ per channel, the rounding step and the source in words.
+func channelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, string) {
+	n, m := v.Dims()
+	q := quantum(v, blind)
+	var diffs [][]float64 // per channel
+	diffs = make([][]float64, m)
+	src := fmt.Sprintf("second differences in time of all %d spectra", n)
+	if pre >= 2 {
+		src = fmt.Sprintf("successive differences of the %d pre-reaction spectra", pre)
+		for i := 1; i < pre; i++ {
+			a, b := v.RawRowView(i-1), v.RawRowView(i)
+			for j := 0; j < m; j++ {
+				if !blind.Has(i-1, j) && !blind.Has(i, j) {
+					diffs[j] = append(diffs[j], math.Abs(b[j]-a[j])/math.Sqrt2)
+				}
+			}
+		}
+	} else {
+		const r6 = 2.449489742783178 // √6: the variance of x_{i+1} − 2x_i + x_{i−1} is 6σ²
+		for i := 1; i+1 < n; i++ {
+			a, b, c := v.RawRowView(i-1), v.RawRowView(i), v.RawRowView(i+1)
+			for j := 0; j < m; j++ {
+				if !blind.Has(i-1, j) && !blind.Has(i, j) && !blind.Has(i+1, j) {
+					diffs[j] = append(diffs[j], math.Abs(c[j]-2*b[j]+a[j])/r6)
+				}
+			}
+		}
+	}
+	sig := pooledRunningMAD(diffs)
+	floor := q / math.Sqrt(12)
+	for j := range sig {
+		sig[j] = math.Max(sig[j], floor)
+	}
+	return sig, q, src
+}
+
+// pooledRunningMAD gives each channel madScale × the median of the absolute
+// differences of the channels within a window around it. The window grows
+// until it holds at least 400 differences (about 5 % relative error of the
+// scale of a normal sample; common practice), at least 5 channels each side
+// when every channel has many.
+func pooledRunningMAD(diffs [][]float64) []float64 {
+	m := len(diffs)
+	out := make([]float64, m)
+	per := make([]float64, m) // per-channel median, for channels with plenty
+	total := 0
+	for j, d := range diffs {
+		total += len(d)
+		if len(d) > 0 {
+			per[j] = madScale * median(d)
+		}
+	}
+	if total == 0 {
+		return out
+	}
+	avg := float64(total) / float64(m)
+	const want = 400
+	h := 5
+	if avg > 0 {
+		h = max(h, int(math.Ceil(want/avg/2)))
+	}
+	h = min(h, m)
+	if avg >= 30 {
+		// Enough per channel: a running median of the channels' own scales
+		// (cheap at thousands of spectra).
+		for j := 0; j < m; j++ {
+			var w []float64
+			for l := max(0, j-h); l <= min(m-1, j+h); l++ {
+				if len(diffs[l]) > 0 {
+					w = append(w, per[l])
+				}
+			}
+			if len(w) > 0 {
+				out[j] = median(w)
+			}
+		}
+		return out
+	}
+	for j := 0; j < m; j++ {
+		var w []float64
+		for l := max(0, j-h); l <= min(m-1, j+h); l++ {
+			w = append(w, diffs[l]...)
+		}
+		if len(w) > 0 {
+			out[j] = madScale * median(w)
+		}
+	}
+	return out
+}
+
+// quantum is the export's rounding step: the smallest non-zero change
+// between successive spectra in one channel. Rounded values are multiples
+// of the step, so their differences are too; for unrounded data it is tiny
+// and the floor it sets does not matter.
+func quantum(v *mat.Dense, blind *Blind) float64 {
+	n, m := v.Dims()
+	q := math.Inf(1)
+	for i := 1; i < n; i++ {
+		a, b := v.RawRowView(i-1), v.RawRowView(i)
+		for j := 0; j < m; j++ {
+			if d := math.Abs(b[j] - a[j]); d > 0 && d < q && !blind.Has(i-1, j) && !blind.Has(i, j) {
+				q = d
+			}
+		}
+	}
+	if math.IsInf(q, 1) {
+		return 0
+	}
+	return q
+}
+
+// detectorCeiling returns the single beams' largest value when it is a flat
+// top (the same value in at least 3 neighbouring channels of one spectrum):
+// the detector or its converter saturated there. 0 when there is none.
+func detectorCeiling(v *mat.Dense) float64 {
+	n, m := v.Dims()
+	top := math.Inf(-1)
+	for i := 0; i < n; i++ {
+		for _, x := range v.RawRowView(i)[:m] {
+			if x > top && !math.IsInf(x, 0) {
+				top = x
+			}
+		}
+	}
+	if !(top > 0) {
+		return 0
+	}
+	for i := 0; i < n; i++ {
+		run := 0
+		for _, x := range v.RawRowView(i)[:m] {
+			if x == top {
+				run++
+				if run >= 3 {
+					return top
+				}
+			} else {
+				run = 0
+			}
+		}
+	}
+	return 0
+}
+
+// findBlind marks the single beams that carry no light: not finite, at or
+// below zero, or at the detector's ceiling. Where a reference or blank
+// channel is itself unusable, that channel is blind in every spectrum.
+func findBlind(v *mat.Dense, badChannel []bool) *Blind {
+	n, m := v.Dims()
+	ceil := detectorCeiling(v)
+	b := &Blind{Rows: make([][]int, n)}
+	for i := 0; i < n; i++ {
+		for j, x := range v.RawRowView(i)[:m] {
+			if !(x > 0) || math.IsInf(x, 0) || (ceil > 0 && x == ceil) || (badChannel != nil && badChannel[j]) {
+				b.Rows[i] = append(b.Rows[i], j)
+				b.Count++
+			}
+		}
+	}
+	return b
+}
+
+// addWeak marks single beams at or below weakSigmas·σ_I,j as blind too: the
+// light left there is not above the detector's noise, so −log10 of it is
+// noise with a heavy tail, not absorbance. Only beams also below
+// weakBeamFraction of the channel's brightest spectrum count: with a few
+// spectra of fast chemistry σ_I is overestimated, and a beam at 10 % of its
+// channel's light is absorbance, not darkness.
+func (b *Blind) addWeak(v *mat.Dense, sigma []float64) {
+	n, m := v.Dims()
+	top := make([]float64, m)
+	for i := 0; i < n; i++ {
+		for j, x := range v.RawRowView(i)[:m] {
+			if x > top[j] && !b.Has(i, j) {
+				top[j] = x
+			}
+		}
+	}
+	for i := 0; i < n; i++ {
+		row := v.RawRowView(i)[:m]
+		var extra bool
+		for j, x := range row {
+			if x <= weakSigmas*sigma[j] && x < weakBeamFraction*top[j] && !b.Has(i, j) {
+				b.Rows[i] = append(b.Rows[i], j)
+				b.Count++
+				extra = true
+			}
+		}
+		if extra {
+			sort.Ints(b.Rows[i])
+		}
+	}
+}
+
+// weakSigmas: a beam within 3 standard deviations of zero is not
+// distinguishable from no light (common practice: the 3σ detection limit).
+const weakSigmas = 3
+
+// fillBlind puts placeholders at the blind points of d: linear
+// interpolation in time between the nearest observed spectra of the same
+// channel (constant beyond the ends), 0 where the channel has none. They
+// only start the imputation by the low-rank model.
+func fillBlind(d *mat.Dense, b *Blind, times []float64) {
+	if b == nil || b.Count == 0 {
+		return
+	}
+	n, m := d.Dims()
+	cols := map[int]bool{}
+	for _, r := range b.Rows {
+		for _, j := range r {
+			cols[j] = true
+		}
+	}
+	for j := 0; j < m; j++ {
+		if !cols[j] {
+			continue
+		}
+		var obs []int
+		for i := 0; i < n; i++ {
+			if !b.Has(i, j) {
+				obs = append(obs, i)
+			}
+		}
+		for i := 0; i < n; i++ {
+			if !b.Has(i, j) {
+				continue
+			}
+			d.Set(i, j, interpAt(d, j, obs, i, times))
+		}
+	}
+}
+
+func interpAt(d *mat.Dense, j int, obs []int, i int, times []float64) float64 {
+	if len(obs) == 0 {
+		return 0
+	}
+	k := sort.SearchInts(obs, i)
+	switch {
+	case k == 0:
+		return d.At(obs[0], j)
+	case k == len(obs):
+		return d.At(obs[len(obs)-1], j)
+	}
+	lo, hi := obs[k-1], obs[k]
+	t := float64(i - lo)
+	span := float64(hi - lo)
+	if times != nil && times[hi] != times[lo] {
+		t, span = times[i]-times[lo], times[hi]-times[lo]
+	}
+	f := t / span
+	return (1-f)*d.At(lo, j) + f*d.At(hi, j)
+}
+
+// fitWeights fits log w_ij = α_i + β_j to the weights w = 1/var(i, j) of
+// the observed points by row and column means (the two-way additive model;
+// exact in one pass when nothing is blind, the usual approximation with a
+// few blind points), then scales it so that Σ w·var = number of observed
+// points: the weighted noise then has unit variance on average.
+func fitWeights(n, m int, variance func(i int, out []float64), blind *Blind) *Weights {
+	rowSum := make([]float64, n)
+	rowCnt := make([]int, n)
+	colSum := make([]float64, m)
+	colCnt := make([]int, m)
+	buf := make([]float64, m)
+	grand, cnt := 0.0, 0
+	for i := 0; i < n; i++ {
+		variance(i, buf)
+		for j, v := range buf {
+			if blind.Has(i, j) || !(v > 0) || math.IsInf(v, 0) {
+				continue
+			}
+			l := -math.Log(v)
+			rowSum[i] += l
+			rowCnt[i]++
+			colSum[j] += l
+			colCnt[j]++
+			grand += l
+			cnt++
+		}
+	}
+	w := &Weights{Row: make([]float64, n), Col: make([]float64, m)}
+	if cnt == 0 {
+		for i := range w.Row {
+			w.Row[i] = 1
+		}
+		for j := range w.Col {
+			w.Col[j] = 1
+		}
+		return w
+	}
+	g := grand / float64(cnt)
+	for j := range w.Col {
+		if colCnt[j] > 0 {
+			w.Col[j] = math.Exp(colSum[j] / float64(colCnt[j]))
+		}
+	}
+	for i := range w.Row {
+		if rowCnt[i] > 0 {
+			w.Row[i] = math.Exp(rowSum[i]/float64(rowCnt[i]) - g)
+		}
+	}
+	// Scale: mean of a_i b_j var_ij over the observed points = 1.
+	s, c := 0.0, 0
+	for i := 0; i < n; i++ {
+		variance(i, buf)
+		for j, v := range buf {
+			if blind.Has(i, j) || !(v > 0) || math.IsInf(v, 0) {
+				continue
+			}
+			s += w.Row[i] * w.Col[j] * v
+			c++
+		}
+	}
+	if s > 0 {
+		f := float64(c) / s
+		for j := range w.Col {
+			w.Col[j] *= f
+		}
+	}
+	floorWeights(w.Row)
+	floorWeights(w.Col)
+	return w
+}
+
+// floorWeights keeps every weight positive (1e-12 of the largest): a row or
+// channel with no observed point then carries no weight in practice while
+// the scaled matrix √A D √B stays invertible.
+func floorWeights(w []float64) {
+	mx := 0.0
+	for _, v := range w {
+		mx = math.Max(mx, v)
+	}
+	if mx == 0 {
+		mx = 1
+	}
+	for i, v := range w {
+		if !(v > 1e-12*mx) {
+			w[i] = 1e-12 * mx
+		}
+	}
+}
+
+// channelWeights are the weights of absorbance or difference input: one σ
+// per channel, every spectrum alike.
+func channelWeights(n int, sigma []float64, blind *Blind) *Weights {
+	m := len(sigma)
+	return fitWeights(n, m, func(i int, out []float64) {
+		for j, s := range sigma {
+			out[j] = s * s
+		}
+	}, blind)
+}
+
+// NoiseNotes says, in the user's words, how far from uniform the noise is
+// across the axis and where: channels whose σ exceeds nonUniform × the
+// median, as axis ranges.
+func NoiseNotes(axisName string, axis, sigma []float64) []string {
+	if len(sigma) == 0 {
+		return nil
+	}
+	med := median(sigma)
+	if !(med > 0) {
+		return nil
+	}
+	mx := 0.0
+	for _, s := range sigma {
+		mx = math.Max(mx, s)
+	}
+	if mx <= nonUniform*med {
+		return nil
+	}
+	var ranges []string
+	for _, r := range runsOf(len(sigma), func(j int) bool { return sigma[j] > nonUniform*med }) {
+		ranges = append(ranges, fmt.Sprintf("%s %g–%g", axisName, axis[r[0]], axis[r[1]]))
+	}
+	return []string{fmt.Sprintf("noise is far from uniform across the axis: up to %.3g× the median at %s (strong absorption or a detector edge, where little light reaches the detector); those points are weighted down by 1/σ² and matter little to the answer",
+		mx/med, listSome(ranges, 4))}
+}
+
+// nonUniform: a channel whose noise σ is 10× the median has 1 % of the
+// median weight (1/σ²).
+const nonUniform = 10
+
+// runsOf returns the index runs [lo, hi] where f holds.
+func runsOf(m int, f func(int) bool) [][2]int {
+	var runs [][2]int
+	for j := 0; j < m; j++ {
+		if !f(j) {
+			continue
+		}
+		if len(runs) > 0 && runs[len(runs)-1][1] == j-1 {
+			runs[len(runs)-1][1] = j
+		} else {
+			runs = append(runs, [2]int{j, j})
+		}
+	}
+	return runs
+}
+
+func listSome(items []string, most int) string {
+	if len(items) <= most {
+		return strings.Join(items, ", ")
+	}
+	return strings.Join(items[:most], ", ") + fmt.Sprintf(" and %d more range(s)", len(items)-most)
+}
+
+// BlindNotes describes the blind points compactly: channel ranges that
+// hold any, with how many spectra and which times, e.g. "wavenumber
+// 2290–2270 in 5 spectra (120–240 s)".
+func BlindNotes(source, axisName string, axis, times []float64, b *Blind) []string {
+	if b == nil || b.Count == 0 {
+		return nil
+	}
+	m := len(axis)
+	any := make([]bool, m)
+	for _, r := range b.Rows {
+		for _, j := range r {
+			any[j] = true
+		}
+	}
+	var parts []string
+	for _, r := range runsOf(m, func(j int) bool { return any[j] }) {
+		tlo, thi, ns := math.Inf(1), math.Inf(-1), 0
+		for i, row := range b.Rows {
+			k := sort.SearchInts(row, r[0])
+			if k < len(row) && row[k] <= r[1] {
+				ns++
+				tlo, thi = math.Min(tlo, times[i]), math.Max(thi, times[i])
+			}
+		}
+		where := fmt.Sprintf("%s %g–%g", axisName, axis[r[0]], axis[r[1]])
+		if r[0] == r[1] {
+			where = fmt.Sprintf("%s %g", axisName, axis[r[0]])
+		}
+		when := fmt.Sprintf("%g s", tlo)
+		if thi > tlo {
+			when = fmt.Sprintf("%g–%g s", tlo, thi)
+		}
+		if ns == len(b.Rows) {
+			parts = append(parts, fmt.Sprintf("%s in every spectrum", where))
+		} else {
+			parts = append(parts, fmt.Sprintf("%s in %d spectra (%s)", where, ns, when))
+		}
+	}
+	return []string{fmt.Sprintf("%s: %d blind point(s) (single beam not finite, at or below its noise, or at the detector's ceiling: no usable light) at %s; they are left out of the fit (weight zero) and filled from the low-rank model; --exclude LO:HI cuts a range on purpose",
+		source, b.Count, listSome(parts, 5))}
+}
+
+// assembleSingleBeams is Assemble for single beams: blind points, the
+// detector's noise, the weights of both matrices, then the absorbances.
+func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Assembled) error {
+	n, m := s.Values.Dims()
+	bad := make([]bool, m)
+	if opt.Blank != nil {
+		src := opt.BlankSource
+		if src == "" {
+			src = "blank"
+		}
+		if j := mostlyUnusable(opt.Blank, bad); j >= 0 {
+			return inputErr(src, 0, "a blank must be a single beam (positive intensities), not absorbance", "blank intensity %g at %s %g", opt.Blank[j], s.AxisName, s.Axis[j])
+		}
+	}
+	if opt.Reference.File != nil {
+		if j := mostlyUnusable(ref, bad); j >= 0 {
+			return inputErr(opt.Reference.File.Source, 0, "a reference for single beams must be a single beam too (positive intensities)", "reference intensity %g at %s %g", ref[j], s.AxisName, s.Axis[j])
+		}
+	}
+	blind := findBlind(s.Values, bad)
+	if blind.Count > n*m/4 {
+		// Not a few blind points but the wrong kind of data.
+		return checkPositive(s.Values, s, "single beam")
+	}
+	sigI, q, src := channelNoise(s.Values, opt.Pre, blind)
+	blind.addWeak(s.Values, sigI)
+	nref := make([]float64, m)
+	if opt.Reference.File != nil {
+		for j := range nref {
+			nref[j] = 1
+		}
+	} else {
+		meanObserved(s.Values, out.ReferenceRows, blind, ref, nref)
+	}
+	med, medBlank := median(ref), 0.0
+	if opt.Blank != nil {
+		medBlank = median(opt.Blank)
+	}
+	for j := 0; j < m; j++ {
+		weakRef := nref[j] == 0 || !(ref[j] > weakSigmas*sigI[j]/math.Sqrt(nref[j]) || ref[j] > weakBeamFraction*med)
+		weakBlank := opt.Blank != nil && !(opt.Blank[j] > weakSigmas*sigI[j] || opt.Blank[j] > weakBeamFraction*medBlank)
+		if weakRef || weakBlank {
+			blind.addChannel(j)
+		}
+	}
+	out.Warnings = append(out.Warnings, saturationWarnings(s, ref, opt.Blank)...)
+	out.Blind = blind
+	out.Noise = Noise{Level: median(sigI), Unit: "single-beam units", Source: src, Channel: sigI, Quantum: q}
+	const ln10sq = math.Ln10 * math.Ln10
+	out.DifferenceWeights = fitWeights(n, m, func(i int, o []float64) {
+		row := s.Values.RawRowView(i)
+		for j := range o {
+			o[j] = (sq(sigI[j]/row[j]) + sq(sigI[j]/ref[j])/nref[j]) / ln10sq
+		}
+	}, blind)
+	if opt.Blank != nil {
+		out.AbsoluteWeights = fitWeights(n, m, func(i int, o []float64) {
+			row := s.Values.RawRowView(i)
+			for j := range o {
+				o[j] = (sq(sigI[j]/row[j]) + sq(sigI[j]/opt.Blank[j])) / ln10sq
+			}
+		}, blind)
+	}
+	out.Difference = mat.NewDense(n, m, nil)
+	if opt.Blank != nil {
+		out.Absolute = mat.NewDense(n, m, nil)
+		if opt.Consume {
+			out.Absolute = s.Values // each value is read before it is overwritten
+		}
+	}
+	absorbances(s.Values, ref, opt.Blank, out.Difference, out.Absolute)
+	fillBlind(out.Difference, blind, s.Times)
+	if out.Absolute != nil {
+		fillBlind(out.Absolute, blind, s.Times)
+	}
+	out.Notes = append(out.Notes, BlindNotes(s.Source, s.AxisName, s.Axis, s.Times, blind)...)
+	return nil
+}
+
+func sq(x float64) float64 { return x * x }
+
+// mostlyUnusable marks the channels where a blank or reference beam is not
+// a positive finite number in bad; when more than a quarter are, it is not
+// a single beam at all and the index of the first such value is returned
+// (else −1).
+func mostlyUnusable(beam []float64, bad []bool) int {
+	first, cnt := -1, 0
+	for j, v := range beam {
+		if !(v > 0) || math.IsInf(v, 0) {
+			bad[j] = true
+			cnt++
+			if first < 0 {
+				first = j
+			}
+		}
+	}
+	if cnt > len(beam)/4 {
+		return first
+	}
+	return -1
+}
+
+// meanObserved averages the observed values of the given rows per channel
+// into dst, and their count into cnt (0 where every one is blind).
+func meanObserved(v *mat.Dense, rows []int, b *Blind, dst, cnt []float64) {
+	for j := range dst {
+		dst[j], cnt[j] = 0, 0
+	}
+	for _, i := range rows {
+		row := v.RawRowView(i)
+		for j := range dst {
+			if !b.Has(i, j) {
+				dst[j] += row[j]
+				cnt[j]++
+			}
+		}
+	}
+	for j := range dst {
+		if cnt[j] > 0 {
+			dst[j] /= cnt[j]
+		} else {
+			dst[j] = 1 // placeholder: the channel is blind everywhere
+		}
+	}
+}
+
+// addChannel makes channel j blind in every spectrum.
+func (b *Blind) addChannel(j int) {
+	for i, r := range b.Rows {
+		k := sort.SearchInts(r, j)
+		if k < len(r) && r[k] == j {
+			continue
+		}
+		r = append(r, 0)
+		copy(r[k+1:], r[k:])
+		r[k] = j
+		b.Rows[i] = r
+		b.Count++
+	}
+}
+
+// StackWeights joins the weights of experiments stacked by rows (a
+// column-wise augmented matrix). Experiments share the channels, so one
+// column weight is kept: log b_j is the row-weighted mean of theirs, and
+// each experiment's row weights take over the difference on average
+// (exp of the mean over channels of log(b_j^(e)/b_j)); the result is the
+// row × column fit of the experiments' own fits. nil when any is nil.
+func StackWeights(parts []*Weights) *Weights {
+	if len(parts) == 0 {
+		return nil
+	}
+	for _, p := range parts {
+		if p == nil {
+			return nil
+		}
+	}
+	if len(parts) == 1 {
+		return parts[0]
+	}
+	m := len(parts[0].Col)
+	out := &Weights{Col: make([]float64, m)}
+	tot := 0
+	for _, p := range parts {
+		tot += len(p.Row)
+	}
+	for j := 0; j < m; j++ {
+		s := 0.0
+		for _, p := range parts {
+			s += float64(len(p.Row)) * math.Log(p.Col[j])
+		}
+		out.Col[j] = math.Exp(s / float64(tot))
+	}
+	for _, p := range parts {
+		d := 0.0
+		for j := 0; j < m; j++ {
+			d += math.Log(p.Col[j] / out.Col[j])
+		}
+		f := math.Exp(d / float64(m))
+		for _, a := range p.Row {
+			out.Row = append(out.Row, a*f)
+		}
+	}
+	return out
+}
+
+// StackBlind joins the blind points of experiments stacked by rows; nil
+// when none has any.
+func StackBlind(parts []*Blind, rows []int) *Blind {
+	out := &Blind{}
+	for e, p := range parts {
+		if p == nil {
+			out.Rows = append(out.Rows, make([][]int, rows[e])...)
+			continue
+		}
+		out.Rows = append(out.Rows, p.Rows...)
+		out.Count += p.Count
+	}
+	if out.Count == 0 {
+		return nil
+	}
+	return out
+}

@@ -1,0 +1,146 @@
+package spectra
+
+import (
+	"math"
+	"math/rand/v2"
+	"strings"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// beams simulates n single beams × m channels of a slow A → B change under
+// a source envelope with a strong solvent band (transmission down to 1 %),
+// with detector noise constant in counts (σ_I; PRIMER §8): the case where
+// absorbance noise σ_I/(I ln 10) is 100× larger under the band.
+func beams(rng *rand.Rand, n, m int, sigI float64, smooth int, step float64) *Series {
+	s := &Series{AxisName: "wavenumber", Values: mat.NewDense(n, m, nil), Source: "sim"}
+	for j := 0; j < m; j++ {
+		s.Axis = append(s.Axis, 2000-float64(j))
+	}
+	for i := 0; i < n; i++ {
+		s.Times = append(s.Times, 30*float64(i))
+		s.Names = append(s.Names, "sim")
+	}
+	noise := make([]float64, m+smooth)
+	for i := 0; i < n; i++ {
+		x := 1 - math.Exp(-float64(i)/float64(n/3))
+		for l := range noise {
+			noise[l] = rng.NormFloat64()
+		}
+		for j := 0; j < m; j++ {
+			u := float64(j) / float64(m)
+			env := 1e4 * (0.6 + 0.4*math.Sin(3*u))
+			solvent := 2 * math.Exp(-0.5*sq((u-0.7)/0.02)) // A = 2: 1 % transmission
+			a := 0.4*(1-x)*math.Exp(-0.5*sq((u-0.3)/0.03)) + 0.5*x*math.Exp(-0.5*sq((u-0.45)/0.03))
+			e := noise[j]
+			if smooth > 1 {
+				// A moving average over smooth channels, rescaled to unit
+				// variance: noise correlated along the axis.
+				e = 0
+				for l := 0; l < smooth; l++ {
+					e += noise[j+l]
+				}
+				e /= math.Sqrt(float64(smooth))
+			}
+			v := env*math.Pow(10, -a-solvent) + sigI*e
+			if step > 0 {
+				v = step * math.Round(v/step)
+			}
+			s.Values.Set(i, j, v)
+		}
+	}
+	return s
+}
+
+// The detector's noise is recovered from the beams themselves within 10 %:
+// white, correlated along the axis (time differences do not see that), and
+// rounded in the export (rounding to a step q adds q²/12 of variance:
+// Sheppard's correction, common practice).
+func TestNoiseRecoversDetectorSigma(t *testing.T) {
+	const sigI = 5.0
+	for _, c := range []struct {
+		name   string
+		smooth int
+		step   float64
+		want   float64
+	}{
+		{"white", 1, 0, sigI},
+		{"correlated along the axis", 5, 0, sigI},
+		{"rounded to 2σ", 1, 10, math.Sqrt(sigI*sigI + 100.0/12)},
+	} {
+		rng := rand.New(rand.NewPCG(8, 1997))
+		s := beams(rng, 50, 400, sigI, c.smooth, c.step)
+		a, err := Assemble(s, AssembleOptions{Kind: SingleBeam, Reference: Reference{Mean: 1}})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if r := a.Noise.Level / c.want; r < 0.9 || r > 1.1 {
+			t.Errorf("%s: σ_I estimated %.4g, simulated %.4g (ratio %.3f)", c.name, a.Noise.Level, c.want, r)
+		}
+	}
+}
+
+// Propagation of error (PRIMER §1, §8): σ_A = σ_I/(I ln 10) combined with
+// the reference's own σ. The per-channel noise the weights imply must follow
+// 1/I: under the solvent band (I at 1 % of the rest) it is about 100×
+// larger, and the note says where.
+func TestWeightsFollowTheLight(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 1997))
+	s := beams(rng, 60, 400, 5, 1, 0)
+	i0 := mat.Row(nil, 0, s.Values)
+	a, err := Assemble(s, AssembleOptions{Kind: SingleBeam, Reference: Reference{Mean: 1}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sig := a.DifferenceWeights.ChannelSigma()
+	// Channel 100 (u = 0.25, bright) against 280 (u = 0.7, band centre).
+	want := i0[100] / i0[280]
+	if r := (sig[280] / sig[100]) / want; r < 0.8 || r > 1.25 {
+		t.Errorf("σ ratio band/bright %.4g, 1/I gives %.4g", sig[280]/sig[100], want)
+	}
+	notes := NoiseNotes(s.AxisName, s.Axis, sig)
+	if len(notes) != 1 || !strings.Contains(notes[0], "wavenumber 17") {
+		t.Errorf("noise note %q should name the band near wavenumber 1720", notes)
+	}
+}
+
+// Points without light (a single beam at or below zero, not finite, or at
+// the detector's flat ceiling) are blind: the assembly goes on, the
+// matrices stay finite, the points are listed and named in a note.
+func TestBlindPoints(t *testing.T) {
+	rng := rand.New(rand.NewPCG(10, 1997))
+	s := beams(rng, 30, 200, 5, 1, 0)
+	s.Values.Set(10, 50, 0)
+	s.Values.Set(11, 50, -3)
+	s.Values.Set(12, 51, math.Inf(1))
+	a, err := Assemble(s, AssembleOptions{Kind: SingleBeam, Reference: Reference{Mean: 1}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, p := range [][2]int{{10, 50}, {11, 50}, {12, 51}} {
+		if !a.Blind.Has(p[0], p[1]) {
+			t.Errorf("point %v not blind", p)
+		}
+	}
+	if a.Blind.Has(9, 50) {
+		t.Errorf("point (9, 50) is lit but marked blind")
+	}
+	n, m := a.Difference.Dims()
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			if v := a.Difference.At(i, j); math.IsNaN(v) || math.IsInf(v, 0) {
+				t.Fatalf("ΔA[%d,%d] = %v", i, j, v)
+			}
+		}
+	}
+	if len(a.Notes) == 0 || !strings.Contains(a.Notes[len(a.Notes)-1], "wavenumber 1950–1949 in 3 spectra (300–360 s)") {
+		t.Errorf("notes %q", a.Notes)
+	}
+	// Mostly non-positive values are not single beams at all: the old
+	// message naming --kind stays.
+	bad := series([]float64{0.1, -0.2, 0.3}, []float64{-0.1, 0.2, -0.3})
+	if _, err := Assemble(bad, AssembleOptions{Kind: SingleBeam, Reference: Reference{Mean: 1}}); err == nil || !strings.Contains(err.Error(), "--kind absorbance") {
+		t.Errorf("absorbance-like values as single beams: %v", err)
+	}
+}

@@ -1,0 +1,202 @@
+package mcr
+
+import (
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Weighted is Data whose least-squares problems carry row × column noise
+// weights w_ij = a_i·b_j ≈ 1/σ²_ij: maximum-likelihood resolution
+// (Wentzell, Andrews, Hamilton, Faber & Kowalski, J. Chemometrics 1997)
+// minimises Σ_ij a_i b_j (d_ij − c_i·s_j)². Its products are the weighted
+// ones ALS needs: MulSpectra returns D B S, MulProfiles returns Dᵀ A C and
+// FrobeniusSq returns Σ a_i b_j d_ij² (A = diag(a), B = diag(b)).
+//
+// Why row × column: the profiles step for row i minimises
+// Σ_j b_j (d_ij − c_i·s_j)², the normal equations (SᵀBS) c_i = (D B S)_i,
+// one Gram matrix SᵀBS for every row (a_i scales row i's whole objective and
+// does not move its minimiser); the spectra step likewise has the one Gram
+// matrix CᵀAC. So the shared-Gram active-set solver (SolveMany) keeps
+// non-negativity, closure and every other constraint exact, as unweighted.
+// Per-point weights would need a Gram matrix per row and per channel.
+type Weighted interface {
+	Data
+	// Weights returns a (n) and b (m).
+	Weights() (row, col []float64)
+}
+
+// WeightedDense is Weighted held in full.
+type WeightedDense struct {
+	D        *mat.Dense
+	Row, Col []float64
+}
+
+func (w WeightedDense) Dims() (int, int)                { return w.D.Dims() }
+func (w WeightedDense) Weights() ([]float64, []float64) { return w.Row, w.Col }
+func (w WeightedDense) MulSpectra(s *mat.Dense) *mat.Dense {
+	var out mat.Dense
+	out.Mul(w.D, scaleRows(s, w.Col, 1))
+	return &out
+}
+func (w WeightedDense) MulProfiles(c *mat.Dense) *mat.Dense {
+	var out mat.Dense
+	out.Mul(w.D.T(), scaleRows(c, w.Row, 1))
+	return &out
+}
+func (w WeightedDense) FrobeniusSq() float64 {
+	n, m := w.D.Dims()
+	s := 0.0
+	for i := 0; i < n; i++ {
+		r := 0.0
+		for j, v := range w.D.RawRowView(i)[:m] {
+			r += w.Col[j] * v * v
+		}
+		s += w.Row[i] * r
+	}
+	return s
+}
+
+// WeightedCompressed is Weighted as a truncated SVD of the scaled matrix
+// √A D √B ≈ U diag(Σ) Vᵀ (the scaled matrix's noise is white with unit
+// variance, so truncating it drops noise in the metric of the fit). Then
+// D B S = A^{-1/2} U Σ Vᵀ B^{1/2} S and Dᵀ A C = B^{-1/2} V Σ Uᵀ A^{1/2} C,
+// O((n + m)·r·k) as unweighted. FrobSq is ‖√A D √B‖²_F of the full matrix.
+type WeightedCompressed struct {
+	U        *mat.Dense // n × r
+	Sigma    []float64
+	V        *mat.Dense // m × r
+	FrobSq   float64
+	Row, Col []float64
+}
+
+func (c WeightedCompressed) Dims() (int, int) {
+	return Compressed{U: c.U, V: c.V}.Dims()
+}
+func (c WeightedCompressed) Weights() ([]float64, []float64) { return c.Row, c.Col }
+func (c WeightedCompressed) MulSpectra(s *mat.Dense) *mat.Dense {
+	out := Compressed{U: c.U, Sigma: c.Sigma, V: c.V}.MulSpectra(scaleRows(s, c.Col, 0.5))
+	return scaleRows(out, c.Row, -0.5)
+}
+func (c WeightedCompressed) MulProfiles(p *mat.Dense) *mat.Dense {
+	out := Compressed{U: c.U, Sigma: c.Sigma, V: c.V}.MulProfiles(scaleRows(p, c.Row, 0.5))
+	return scaleRows(out, c.Col, -0.5)
+}
+func (c WeightedCompressed) FrobeniusSq() float64 { return c.FrobSq }
+
+// scaleRows returns diag(w)^p x (a new matrix).
+func scaleRows(x *mat.Dense, w []float64, p float64) *mat.Dense {
+	r, k := x.Dims()
+	out := mat.NewDense(r, k, nil)
+	for i := 0; i < r; i++ {
+		f := w[i]
+		switch p {
+		case 0.5:
+			f = math.Sqrt(f)
+		case -0.5:
+			f = 1 / math.Sqrt(f)
+		}
+		src, dst := x.RawRowView(i), out.RawRowView(i)
+		for j, v := range src[:k] {
+			dst[j] = f * v
+		}
+	}
+	return out
+}
+
+// weightsOf returns d's row and column weights, nil for unweighted data.
+func weightsOf(d Data) (row, col []float64) {
+	if w, ok := d.(Weighted); ok {
+		return w.Weights()
+	}
+	return nil, nil
+}
+
+// gramW returns XᵀWX with W = diag(w) (XᵀX when w is nil).
+func gramW(x *mat.Dense, w []float64) *mat.SymDense {
+	if w == nil {
+		return gram(x)
+	}
+	r, k := x.Dims()
+	y := mat.NewDense(r, k, nil)
+	for i := 0; i < r; i++ {
+		f := math.Sqrt(w[i])
+		src, dst := x.RawRowView(i), y.RawRowView(i)
+		for j, v := range src[:k] {
+			dst[j] = f * v
+		}
+	}
+	return gram(y)
+}
+
+// WeightedFit is the fit of C Sᵀ to D at the observed points: the lack of
+// fit % as before (100 ‖E‖/‖D‖, unweighted) and the weighted residual sum
+// of squares Σ a_i b_j e_ij² with the number of observed points.
+type WeightedFit struct {
+	LackOfFitPercent float64
+	WeightedSS       float64
+	Observed         int
+}
+
+// ResidualToNoise is √(χ²/ν) with ν = observed points − k(n + m − k), the
+// degrees of freedom of a rank-k bilinear fit (each of C and S has k columns,
+// less the k² of the rotation T in C Sᵀ = C T T⁻¹ Sᵀ): 1 when the model fits
+// to the noise. 0 when ν ≤ 0.
+func (f WeightedFit) ResidualToNoise(n, m, k int) float64 {
+	dof := float64(f.Observed) - float64(k)*float64(n+m-k)
+	if dof <= 0 {
+		return 0
+	}
+	return math.Sqrt(f.WeightedSS / dof)
+}
+
+// FitWeighted streams the residual D − C Sᵀ over row blocks (no data-sized
+// residual matrix) skipping the points missing(i, j) reports (nil: none), and
+// sums it plain and weighted by row[i]·col[j] (nil weights: 1).
+func FitWeighted(d, c, s *mat.Dense, row, col []float64, missing func(i, j int) bool) WeightedFit {
+	n, m := d.Dims()
+	const block = 256
+	var e mat.Dense
+	ssr, tot, wss := 0.0, 0.0, 0.0
+	obs := 0
+	for lo := 0; lo < n; lo += block {
+		hi := min(n, lo+block)
+		e.Reset()
+		e.Mul(c.Slice(lo, hi, 0, c.RawMatrix().Cols), s.T())
+		for i := lo; i < hi; i++ {
+			drow := d.RawRowView(i)[:m]
+			erow := e.RawRowView(i - lo)
+			a := 1.0
+			if row != nil {
+				a = row[i]
+			}
+			for j, v := range drow {
+				if missing != nil && missing(i, j) {
+					continue
+				}
+				r := v - erow[j]
+				b := 1.0
+				if col != nil {
+					b = col[j]
+				}
+				ssr += r * r
+				tot += v * v
+				wss += a * b * r * r
+				obs++
+			}
+		}
+	}
+	out := WeightedFit{WeightedSS: wss, Observed: obs}
+	if tot > 0 {
+		out.LackOfFitPercent = 100 * math.Sqrt(ssr/tot)
+	}
+	return out
+}
+
+// scaleRowsOrSame returns diag(w) x, or x itself when w is nil.
+func scaleRowsOrSame(x *mat.Dense, w []float64) *mat.Dense {
+	if w == nil {
+		return x
+	}
+	return scaleRows(x, w, 1)
+}
