@@ -352,6 +352,28 @@ func badCases() []badCase {
 			os.Mkdir(filepath.Join(w, "old"), 0o755)
 			writeFile(t, filepath.Join(w, "old", "summary.json"), "{}\n")
 		}, code: 1, want: []string{"old: output folder holds earlier results", "add --force"}},
+		// --force replaces only what bandsolve made, never through a link,
+		// never a folder holding an input, never . or .. — refused before
+		// any input is read (the missing data below is never reached).
+		{name: "force on a folder bandsolve did not make", args: []string{"--data", "W/missing.csv", "--out", "W/thesis", "--force"}, setup: func(t *testing.T, w string) {
+			os.Mkdir(filepath.Join(w, "thesis"), 0o755)
+			writeFile(t, filepath.Join(w, "thesis", "chapter1.tex"), "keep me\n")
+		}, code: 1, want: []string{"thesis: holds files bandsolve did not write", "--force replaces only an output folder of bandsolve or an empty folder"}},
+		{name: "force through a symbolic link", args: []string{"--data", "W/missing.csv", "--out", "W/link", "--force"}, setup: func(t *testing.T, w string) {
+			os.Mkdir(filepath.Join(w, "real"), 0o755)
+			writeFile(t, filepath.Join(w, "real", "manifest.json"), `{"tool": "bandsolve"}`)
+			if err := os.Symlink(filepath.Join(w, "real"), filepath.Join(w, "link")); err != nil {
+				t.Skip("no symbolic links")
+			}
+		}, code: 1, want: []string{"link: is a symbolic link", "never writes through a link"}},
+		{name: "force on a folder holding the run's input", args: []string{"--data", "W/d/series.csv", "--out", "W/d", "--force"}, setup: func(t *testing.T, w string) {
+			os.Mkdir(filepath.Join(w, "d"), 0o755)
+			writeFile(t, filepath.Join(w, "d", "manifest.json"), `{"tool": "bandsolve"}`)
+			b, _ := os.ReadFile(filepath.Join(badDir, "good.csv"))
+			writeFile(t, filepath.Join(w, "d", "series.csv"), string(b))
+		}, code: 1, want: []string{"d: holds", "series.csv, an input of this run", "choose another --out"}},
+		{name: "output folder . (the working folder)", args: []string{"--data", "W/missing.csv", "--out", ".", "--force"}, code: 1, want: []string{".: is the working folder or a folder above it", "give a new folder"}},
+		{name: "output folder ..", args: []string{"--data", "W/missing.csv", "--out", ".."}, code: 1, want: []string{"..: is the working folder or a folder above it"}},
 	}
 }
 

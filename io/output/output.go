@@ -28,16 +28,23 @@ type Stage struct {
 // ErrExists says the output folder holds earlier results.
 var ErrExists = errors.New("output folder holds earlier results")
 
+// ManifestName is the file every output folder of bandsolve holds; --force
+// recognises a folder bandsolve made by it (see Made).
+const ManifestName = "manifest.json"
+
 // Check reports whether out may receive results: it must not exist, be an
-// empty folder, or force must be set.
+// empty folder, or (with force) be an output folder bandsolve made. It is
+// never the working folder or one above it, and never a symbolic link: a
+// commit replaces the folder as a whole, and through a link it would
+// replace the link. Folders missing above out are made by NewStage.
 func Check(out string, force bool) error {
-	st, err := os.Stat(out)
+	clean := filepath.Clean(out)
+	if err := notAboveHere(out, clean); err != nil {
+		return err
+	}
+	st, err := os.Lstat(clean)
 	if errors.Is(err, os.ErrNotExist) {
-		parent := filepath.Dir(filepath.Clean(out))
-		if pst, err := os.Stat(parent); err != nil || !pst.IsDir() {
-			return fmt.Errorf("%s: the folder above it, %s, does not exist; create it first", out, parent)
-		}
-		return writable(parent, out)
+		return checkNew(out, clean)
 	}
 	if errors.Is(err, syscall.ENOTDIR) {
 		// A file stands where a folder of the path should be.
@@ -46,17 +53,133 @@ func Check(out string, force bool) error {
 	if err != nil {
 		return fmt.Errorf("%s: %w", out, unwrap(err))
 	}
+	if err := replaceable(out, clean, st, force); err != nil {
+		return err
+	}
+	return writable(filepath.Dir(clean), out)
+}
+
+// replaceable checks an existing out (st from Lstat) against the rules of
+// Check: Commit checks again, as the folder may change during a run.
+func replaceable(out, clean string, st os.FileInfo, force bool) error {
+	if st.Mode()&os.ModeSymlink != 0 {
+		return fmt.Errorf("%s: is a symbolic link; bandsolve never writes through a link (it would replace the link, not the folder it points to): give the folder itself, or another --out", out)
+	}
 	if !st.IsDir() {
 		return fmt.Errorf("%s: is a file, not a folder; choose another --out", out)
 	}
-	ents, err := os.ReadDir(out)
+	ents, err := os.ReadDir(clean)
 	if err != nil {
-		return fmt.Errorf("%s: cannot list: %w", out, err)
+		return fmt.Errorf("%s: cannot list: %w", out, unwrap(err))
 	}
-	if len(ents) > 0 && !force {
+	if len(ents) == 0 {
+		return nil
+	}
+	if !force {
 		return fmt.Errorf("%s: %w; add --force to replace them, or choose another --out", out, ErrExists)
 	}
-	return writable(filepath.Dir(filepath.Clean(out)), out)
+	if !Made(clean) {
+		return fmt.Errorf("%s: holds files bandsolve did not write (it has no %s of bandsolve); --force replaces only an output folder of bandsolve or an empty folder: choose another --out", out, ManifestName)
+	}
+	return nil
+}
+
+// Made says whether dir is an output folder bandsolve made: it holds a
+// regular file manifest.json whose "tool" is bandsolve.
+func Made(dir string) bool {
+	p := filepath.Join(dir, ManifestName)
+	st, err := os.Lstat(p)
+	if err != nil || !st.Mode().IsRegular() || st.Size() > 64<<20 {
+		return false
+	}
+	b, err := os.ReadFile(p)
+	if err != nil {
+		return false
+	}
+	var m struct {
+		Tool string `json:"tool"`
+	}
+	return json.Unmarshal(b, &m) == nil && m.Tool == "bandsolve"
+}
+
+// notAboveHere refuses ".", ".." and any folder that holds the working
+// folder: replacing it would pull the floor from under the user.
+func notAboveHere(out, clean string) error {
+	refuse := fmt.Errorf("%s: is the working folder or a folder above it; bandsolve replaces its output folder as a whole, so give a new folder, e.g. --out results", out)
+	if b := filepath.Base(clean); b == "." || b == ".." || clean == string(filepath.Separator) {
+		return refuse
+	}
+	wd, err := os.Getwd()
+	if err != nil {
+		return nil
+	}
+	if Within(resolved(clean), resolved(wd)) {
+		return refuse
+	}
+	return nil
+}
+
+// Within says whether p is dir or lies inside it (both absolute and clean).
+func Within(dir, p string) bool {
+	rel, err := filepath.Rel(dir, p)
+	return err == nil && (rel == "." || filepath.IsLocal(rel))
+}
+
+// resolved makes p absolute with the links of its longest existing prefix
+// resolved, so that two names of one folder compare equal.
+func resolved(p string) string {
+	abs, err := filepath.Abs(p)
+	if err != nil {
+		return filepath.Clean(p)
+	}
+	rest := ""
+	for cur := abs; ; {
+		if r, err := filepath.EvalSymlinks(cur); err == nil {
+			return filepath.Join(r, rest)
+		}
+		parent := filepath.Dir(cur)
+		if parent == cur {
+			return abs
+		}
+		rest = filepath.Join(filepath.Base(cur), rest)
+		cur = parent
+	}
+}
+
+// Protect refuses an output folder that is, or holds, one of the run's
+// inputs: --force must never delete what the run reads.
+func Protect(out string, inputs []string) error {
+	o := resolved(out)
+	for _, in := range inputs {
+		if Within(o, resolved(in)) {
+			return fmt.Errorf("%s: holds %s, an input of this run; bandsolve never replaces a folder holding its inputs: choose another --out", out, in)
+		}
+	}
+	return nil
+}
+
+// checkNew checks a path that does not exist yet: the nearest existing
+// folder above it must be a folder bandsolve can write in (the missing
+// ones are made, as mkdir -p would).
+func checkNew(out, clean string) error {
+	parent := filepath.Dir(clean)
+	for {
+		st, err := os.Stat(parent)
+		if err == nil {
+			if !st.IsDir() {
+				return fmt.Errorf("%s: %s is a file, not a folder; choose another --out", out, parent)
+			}
+			return writable(parent, out)
+		}
+		if !errors.Is(err, os.ErrNotExist) {
+			return fmt.Errorf("%s: %s: %w", out, parent, unwrap(err))
+		}
+		up := filepath.Dir(parent)
+		if up == parent {
+			return fmt.Errorf("%s: no folder of the path exists; choose another --out", out)
+		}
+		parent = up
+	}
 }
 
 func writable(dir, out string) error {
@@ -84,6 +207,9 @@ func NewStage(out string, force bool) (*Stage, error) {
 		return nil, err
 	}
 	clean := filepath.Clean(out)
+	if err := os.MkdirAll(filepath.Dir(clean), 0o755); err != nil {
+		return nil, fmt.Errorf("%s: cannot make the folders above it: %w", out, unwrap(err))
+	}
 	// Creating and tracking the folder is one step for Interrupt, which
 	// takes the same lock: a signal in between would otherwise leave an
 	// untracked staging folder behind.
@@ -160,11 +286,10 @@ func (s *Stage) Commit() error {
 	defer committing.Unlock()
 	defer untrack(s)
 	var old string
-	if st, err := os.Stat(s.Final); err == nil && st.IsDir() {
-		ents, _ := os.ReadDir(s.Final)
-		if len(ents) > 0 && !s.Force {
+	if st, err := os.Lstat(s.Final); err == nil {
+		if err := replaceable(s.Final, s.Final, st, s.Force); err != nil {
 			s.Abort()
-			return fmt.Errorf("%s: %w; add --force", s.Final, ErrExists)
+			return err
 		}
 		old = s.Dir + ".old"
 		if err := os.Rename(s.Final, old); err != nil {

@@ -21,6 +21,8 @@ func TestStageLifecycle(t *testing.T) {
 	if err := st.Write("a.csv", []byte("first\n")); err != nil {
 		t.Fatal(err)
 	}
+	// The manifest is what lets --force recognise the folder as bandsolve's.
+	st.Write(ManifestName, []byte(`{"tool": "bandsolve"}`))
 	if _, err := os.Stat(out); !errors.Is(err, os.ErrNotExist) {
 		t.Fatalf("the output folder exists before Commit: %v", err)
 	}

@@ -7,6 +7,7 @@ import (
 	"path/filepath"
 	"sort"
 
+	"github.com/bandsolve/bandsolve/io/cmdfile"
 	"github.com/bandsolve/bandsolve/io/demo"
 	"github.com/bandsolve/bandsolve/io/output"
 	"gonum.org/v1/gonum/mat"
@@ -34,6 +35,9 @@ func Execute(s *Settings, st Streams) (*Result, error) {
 	if err := output.Check(out, s.Force); err != nil {
 		return nil, err
 	}
+	if err := output.Protect(out, inputPaths(s)); err != nil {
+		return nil, err
+	}
 	log := st.progress(s)
 	r, err := Run(s, log)
 	endProgress(log)
@@ -49,6 +53,22 @@ func Execute(s *Settings, st Streams) (*Result, error) {
 		return nil, err
 	}
 	return r, stage.Commit()
+}
+
+// inputPaths lists every file or folder the settings name for reading.
+func inputPaths(s *Settings) []string {
+	var in []string
+	for _, o := range Options() {
+		if keyword(o).Path != cmdfile.ReadPath {
+			continue
+		}
+		for _, v := range s.Get(o.Name) {
+			if IsPath(o.Name, v) {
+				in = append(in, s.Path(v))
+			}
+		}
+	}
+	return in
 }
 
 // Extra writes files of its own into the stage before the results.

@@ -27,7 +27,7 @@ const (
 	// ManifestName holds what the record cannot: tool and platform, start
 	// time and the inputs' SHA-256. It is the one file verify does not
 	// compare, because its start time differs on every run.
-	ManifestName = "manifest.json"
+	ManifestName = output.ManifestName
 )
 
 // pathOptions are the settings whose values name files, with the words

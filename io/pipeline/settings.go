@@ -389,7 +389,7 @@ var options = func() []Option {
 	s27, g27 := str(func(s *Settings) *string { return &s.Out })
 	add(opt("out", "DIR", "output folder (refused if it holds earlier results, unless --force)", false, false, s27, g27))
 	s28, g28 := boolean(func(s *Settings) *bool { return &s.Force })
-	add(opt("force", "", "replace earlier results in the output folder", false, false, s28, g28))
+	add(opt("force", "", "replace earlier results in the output folder (only a folder bandsolve made, never one holding an input)", false, false, s28, g28))
 	s29, g29 := boolean(func(s *Settings) *bool { return &s.Quiet })
 	add(opt("quiet", "", "print nothing but errors", false, false, s29, g29))
 	s30, g30 := boolean(func(s *Settings) *bool { return &s.JSON })

@@ -1,0 +1,97 @@
+package output
+
+import (
+	"errors"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+func mustWrite(t *testing.T, p, text string) {
+	t.Helper()
+	if err := os.MkdirAll(filepath.Dir(p), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// --force replaces only a folder bandsolve made (it holds bandsolve's
+// manifest) or an empty one; never a folder of other files, never through
+// a symbolic link, never the working folder or one above it.
+func TestForceReplacesOnlyOwnFolders(t *testing.T) {
+	w := t.TempDir()
+	t.Chdir(w)
+	own := filepath.Join(w, "own")
+	mustWrite(t, filepath.Join(own, ManifestName), `{"tool": "bandsolve", "version": "x"}`)
+	mustWrite(t, filepath.Join(own, "spectra.csv"), "x\n")
+	thesis := filepath.Join(w, "thesis")
+	mustWrite(t, filepath.Join(thesis, "chapter1.tex"), "keep me\n")
+	fake := filepath.Join(w, "fake")
+	mustWrite(t, filepath.Join(fake, ManifestName), `{"tool": "something else"}`)
+	empty := filepath.Join(w, "empty")
+	os.Mkdir(empty, 0o755)
+	for _, c := range []struct {
+		out, want string
+	}{
+		{own, ""},
+		{empty, ""},
+		{filepath.Join(w, "new", "deeper"), ""},
+		{thesis, "holds files bandsolve did not write"},
+		{fake, "holds files bandsolve did not write"},
+		{".", "is the working folder or a folder above it"},
+		{"..", "is the working folder or a folder above it"},
+		{"own/..", "is the working folder or a folder above it"},
+		{w, "is the working folder or a folder above it"},
+		{filepath.Dir(w), "is the working folder or a folder above it"},
+	} {
+		err := Check(c.out, true)
+		if c.want == "" && err != nil || c.want != "" && (err == nil || !strings.Contains(err.Error(), c.want)) {
+			t.Errorf("Check(%q, force) = %v, want %q", c.out, err, c.want)
+		}
+	}
+	if err := Check(thesis, false); !errors.Is(err, ErrExists) {
+		t.Errorf("without force: %v", err)
+	}
+	if err := os.Symlink(own, filepath.Join(w, "link")); err != nil {
+		t.Skip("no symbolic links:", err)
+	}
+	if err := Check("link", true); err == nil || !strings.Contains(err.Error(), "is a symbolic link") {
+		t.Errorf("--out link --force: %v", err)
+	}
+}
+
+// A folder holding an input of the run is never an output folder, even
+// one bandsolve made (a rerun of OUT/as-run.bsr into OUT reads OUT/input).
+func TestProtectInputs(t *testing.T) {
+	w := t.TempDir()
+	d := filepath.Join(w, "d")
+	mustWrite(t, filepath.Join(d, "input", "series.csv"), "x\n")
+	if err := Protect(d, []string{filepath.Join(d, "input", "series.csv")}); err == nil || !strings.Contains(err.Error(), "an input of this run") {
+		t.Errorf("input inside: %v", err)
+	}
+	if err := Protect(filepath.Join(d, "input"), []string{filepath.Join(d, "input")}); err == nil {
+		t.Error("the data folder itself accepted as output folder")
+	}
+	if err := Protect(filepath.Join(w, "out"), []string{filepath.Join(d, "input", "series.csv")}); err != nil {
+		t.Errorf("input elsewhere: %v", err)
+	}
+}
+
+// Missing folders above --out are made, as mkdir -p would.
+func TestStageMakesMissingParents(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "a", "b", "results")
+	st, err := NewStage(out, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	st.Write("x.csv", []byte("1\n"))
+	if err := st.Commit(); err != nil {
+		t.Fatal(err)
+	}
+	if b, err := os.ReadFile(filepath.Join(out, "x.csv")); err != nil || string(b) != "1\n" {
+		t.Errorf("committed file: %q, %v", b, err)
+	}
+}
