@@ -155,13 +155,142 @@ type Options struct {
 // Result of a resolution.
 type Result struct {
 	C, S             *mat.Dense // n × k profiles, m × k spectra
-	LackOfFitPercent float64    // 100 ‖D − C Sᵀ‖_F / ‖D‖_F, from the trace identity
+	LackOfFitPercent float64    // 100 ‖D − C Sᵀ‖_F / ‖D‖_F, computed directly at the end
 	ExplainedPercent float64    // 100 (1 − ‖E‖²/‖D‖²)
 	ResidualSS       float64
 	Iterations       int
 	Converged        bool
 	History          []float64 // lack of fit % per iteration
 	Warnings         []string
+	// Degenerate: ALS was stopped because the components grew far beyond
+	// the data's size while cancelling each other (see driftLimit).
+	Degenerate bool
+}
+
+// driftLimit is the ratio Σ_k ‖c_k‖‖s_k‖ / ‖D‖_F above which components are
+// taken to cancel each other: a resolution of real data has each component
+// no larger than the data (ratio about k at most).
+const driftLimit = 1e3
+
+// componentSize returns Σ_k ‖c_k‖ ‖s_k‖, which bounds ‖C Sᵀ‖_F.
+func componentSize(c, s *mat.Dense) float64 {
+	_, k := c.Dims()
+	sum := 0.0
+	for j := 0; j < k; j++ {
+		sum += mat.Norm(c.ColView(j), 2) * mat.Norm(s.ColView(j), 2)
+	}
+	return sum
+}
+
+// directResidual is implemented by Data that can form D − C Sᵀ itself.
+type directResidual interface {
+	ResidualSS(c, s *mat.Dense) float64
+}
+
+// ResidualSS returns ‖D − C Sᵀ‖²_F summed directly, row block by row block.
+func (d Dense) ResidualSS(c, s *mat.Dense) float64 { return residualSSDense(d.D, c, s) }
+
+// ResidualSS returns Σ a_i b_j (D − C Sᵀ)²_ij summed directly.
+func (w WeightedDense) ResidualSS(c, s *mat.Dense) float64 {
+	return residualSSWeighted(w.D, c, s, w.Row, w.Col)
+}
+
+// residualSS returns ‖D − C Sᵀ‖²_F (weighted for Weighted data): directly
+// when the data can form it, else through orthonormal bases of the factors,
+// C = Q_c R_c and S = Q_s R_s (QR), as ‖D‖² − 2⟨Q_cᵀ D Q_s, M⟩ + ‖M‖² with
+// M = R_c R_sᵀ. M holds C Sᵀ in those bases, so its rounding scales with
+// ‖C Sᵀ‖ and not with the factors' sizes as the trace identity's
+// tr(CᵀC SᵀS) does. With weights the same holds for √A C and √B S; a zero
+// weight leaves no such form, and then fallback (the identity's value) is
+// returned.
+func residualSS(d Data, c, s *mat.Dense, total, fallback float64) float64 {
+	if dr, ok := d.(directResidual); ok {
+		return dr.ResidualSS(c, s)
+	}
+	row, col := weightsOf(d)
+	for _, w := range append(append([]float64(nil), row...), col...) {
+		if !(w > 0) {
+			return math.Max(fallback, 0)
+		}
+	}
+	cw, sw := c, s
+	if row != nil {
+		cw, sw = scaleRows(c, row, 0.5), scaleRows(s, col, 0.5)
+	}
+	qc, rc := thinQR(cw)
+	qs, rs := thinQR(sw)
+	var mm mat.Dense
+	mm.Mul(rc, rs.T())
+	if row != nil {
+		// d.MulProfiles(X) = Dᵀ A X; √B Dᵀ √A Q_c = √B · d.MulProfiles(A^{-1/2} Q_c).
+		qc = scaleRows(qc, row, -0.5)
+	}
+	dq := d.MulProfiles(qc) // m × k
+	if col != nil {
+		dq = scaleRows(dq, col, 0.5)
+	}
+	var p mat.Dense
+	p.Mul(qs.T(), dq) // k × k: (Q_cᵀ D Q_s)ᵀ, weighted
+	ssr := total - 2*traceProd(p.T(), &mm) + frobSq(&mm)
+	return math.Max(ssr, 0)
+}
+
+// thinQR returns the thin QR factors of a tall matrix.
+func thinQR(a *mat.Dense) (*mat.Dense, *mat.Dense) {
+	r, k := a.Dims()
+	var qr mat.QR
+	qr.Factorize(a)
+	var q, rr mat.Dense
+	qr.QTo(&q)
+	qr.RTo(&rr)
+	return mat.DenseCopyOf(q.Slice(0, r, 0, k)), mat.DenseCopyOf(rr.Slice(0, k, 0, k))
+}
+
+// residualSSWeighted sums a_i b_j (D − C Sᵀ)²_ij in row blocks.
+func residualSSWeighted(d, c, s *mat.Dense, row, col []float64) float64 {
+	n, m := d.Dims()
+	const block = 256
+	var e mat.Dense
+	ssr := 0.0
+	for lo := 0; lo < n; lo += block {
+		hi := min(n, lo+block)
+		e.Reset()
+		e.Mul(c.Slice(lo, hi, 0, c.RawMatrix().Cols), s.T())
+		for i := lo; i < hi; i++ {
+			drow := d.RawRowView(i)[:m]
+			erow := e.RawRowView(i - lo)
+			r := 0.0
+			for j, v := range drow {
+				x := v - erow[j]
+				r += col[j] * x * x
+			}
+			ssr += row[i] * r
+		}
+	}
+	return ssr
+}
+
+// residualSSDense sums (D − C Sᵀ)² in row blocks, in the same order as
+// LackOfFit, so the two agree to the bit.
+func residualSSDense(d, c, s *mat.Dense) float64 {
+	n, m := d.Dims()
+	const block = 256
+	var e mat.Dense
+	ssr := 0.0
+	for lo := 0; lo < n; lo += block {
+		hi := min(n, lo+block)
+		e.Reset()
+		e.Mul(c.Slice(lo, hi, 0, c.RawMatrix().Cols), s.T())
+		for i := lo; i < hi; i++ {
+			drow := d.RawRowView(i)[:m]
+			erow := e.RawRowView(i - lo)
+			for j, v := range drow {
+				r := v - erow[j]
+				ssr += r * r
+			}
+		}
+	}
+	return ssr
 }
 
 // Resolve runs alternating least squares from the initial profiles c0
@@ -351,6 +480,9 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		}
 		s = transpose(st)
 		if !opt.Closure {
+			// On a copy: c may still be cPlain, the profiles that go with
+			// sPlain if this iteration is undone.
+			c = mat.DenseCopyOf(c)
 			normaliseSpectra(s, c, scaleSet)
 		}
 		// Profiles step: Gram SᵀBS, right-hand sides Sᵀ B Dᵀ.
@@ -395,9 +527,30 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		// ‖D − C Sᵀ‖² = ‖D‖² − 2 tr(Cᵀ D S) + tr(CᵀC SᵀS) (trace identity;
 		// D S is reused from the profiles step, valid for the current S).
 		// Weighted: Σ a_i b_j e_ij² = ‖D‖²_w − 2 tr(Cᵀ A D B S) + tr(CᵀAC SᵀBS).
-		ssr := total - 2*traceProd(scaleRowsOrSame(c, rowW), ds) + traceProd(gramW(c, rowW), g)
-		if ssr < 0 {
-			ssr = 0
+		tcd := traceProd(scaleRowsOrSame(c, rowW), ds)
+		tcs := traceProd(gramW(c, rowW), g)
+		ssr := total - 2*tcd + tcs
+		if ssr < 1e-6*(total+2*math.Abs(tcd)+math.Abs(tcs)) {
+			// The identity's terms cancel to within a millionth: rounding
+			// could be most of what is left, so compute the residual in a
+			// form whose error scales with the fit, not with the factors.
+			ssr = residualSS(d, c, s, total, ssr)
+		}
+		if drift := componentSize(c, s) / math.Sqrt(total); drift > driftLimit && sPlain != nil {
+			// Components far larger than the data that cancel in C Sᵀ: a
+			// degenerate drift (the fit gains nothing by it; Navasca, De
+			// Lathauwer & Kindermann 2008, from memory). Keep the last
+			// iterate before it and stop.
+			if extrapolated {
+				c, s, cPrev, step = cPlain, sPlain, nil, 1
+				res.Iterations = it
+				continue
+			}
+			c, s = cPlain, sPlain
+			res.Degenerate = true
+			res.Iterations = it
+			res.Warnings = append(res.Warnings, fmt.Sprintf("components grew to %.3g times the data's size and cancel each other (a degenerate drift): stopped at iteration %d, where they were still of the data's size", drift, it))
+			break
 		}
 		if extrapolated && !(ssr < prev) {
 			// Rejected: back to the last accepted iterate, plain step next.
@@ -435,6 +588,9 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		prev = ssr
 	}
 	res.C, res.S = c, s
+	// The reported residual is computed directly, never carried over from
+	// the trace identity: it is what a chemist quotes.
+	prev = residualSS(d, c, s, total, prev)
 	res.ResidualSS = prev
 	res.LackOfFitPercent = 100 * math.Sqrt(prev/total)
 	res.ExplainedPercent = 100 * (1 - prev/total)
@@ -488,23 +644,7 @@ func Residuals(d *mat.Dense, c, s *mat.Dense) (*mat.Dense, float64) {
 // the same row-by-row order as frobSq, so the value is the same to the bit
 // as Residuals'.
 func LackOfFit(d, c, s *mat.Dense) float64 {
-	n, m := d.Dims()
-	const block = 256
-	var e mat.Dense
-	ssr := 0.0
-	for lo := 0; lo < n; lo += block {
-		hi := min(n, lo+block)
-		e.Reset()
-		e.Mul(c.Slice(lo, hi, 0, c.RawMatrix().Cols), s.T())
-		for i := lo; i < hi; i++ {
-			drow := d.RawRowView(i)[:m]
-			erow := e.RawRowView(i - lo)
-			for j, v := range drow {
-				r := v - erow[j]
-				ssr += r * r
-			}
-		}
-	}
+	ssr := residualSSDense(d, c, s)
 	tot := frobSq(d)
 	if tot == 0 {
 		return 0
