@@ -1,15 +1,20 @@
 package main
 
 import (
+	"bytes"
 	"errors"
 	"fmt"
+	"io"
 	"os"
 	"os/signal"
 	"path/filepath"
+	"runtime"
+	"strconv"
 	"strings"
 	"syscall"
 	"text/tabwriter"
 
+	"github.com/bandsolve/bandsolve/io/campaign"
 	"github.com/bandsolve/bandsolve/io/cmdfile"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/pipeline"
@@ -72,6 +77,20 @@ Example (exp1.bsr):
   bandsolve run exp1.bsr
   bandsolve run 'runs/*.bsr' --out batch/ --replicates 50
 
+Campaigns: -j N runs N command files at once (default: the number of cores;
+memory adds up, so lower it for large series); each run writes the same bytes
+as it would alone, and the log is printed in file order. --shard I/N runs only
+a fixed share of the batch: file k (counted from 0, in the order given, a
+glob sorted by name) when k mod N = I. The N shares together are the whole
+batch, so a job array of a batch scheduler can split it; with Slurm
+(docs/campaigns.md has the whole script):
+
+  #SBATCH --array=0-3
+  bandsolve run 'runs/*.bsr' --out batch/ -j 1 --shard "$SLURM_ARRAY_TASK_ID/4"
+
+  bandsolve run 'runs/*.bsr' --out batch/ -j 2      # two at a time
+  bandsolve collect batch/*/ --out batch.csv        # then one table of all
+
 Flags:
 `
 
@@ -85,12 +104,31 @@ func runRun(args []string, st pipeline.Streams) int {
 	flags := pipeline.NewSettings()
 	fs := newFlagSet("run", runHelp, st)
 	settingsFlags(fs, flags)
+	jobsText := fs.StringP("jobs", "j", "", "run `N` command files at once (default: the number of cores)")
+	shardText := fs.String("shard", "", "run share `I/N` only: file k (from 0) when k mod N = I")
 	if ok, code := parse(fs, args, runHelp, st); !ok {
 		return code
 	}
 	if fs.NArg() == 0 {
 		fmt.Fprintf(st.Err, "bandsolve run: give one or more command files, e.g. bandsolve run exp1.bsr; see bandsolve run --help\n")
 		return exitUsage
+	}
+	workers := runtime.NumCPU()
+	if fs.Changed("jobs") {
+		n, err := strconv.Atoi(strings.TrimSpace(*jobsText))
+		if err != nil || n < 1 {
+			fmt.Fprintf(st.Err, "bandsolve run: -j %q: give a whole number of command files to run at once, 1 or more\n", *jobsText)
+			return exitUsage
+		}
+		workers = n
+	}
+	shard := campaign.All
+	if fs.Changed("shard") {
+		var err error
+		if shard, err = campaign.ParseShard(*shardText); err != nil {
+			fmt.Fprintf(st.Err, "bandsolve run: %v\n", err)
+			return exitUsage
+		}
 	}
 	changed := map[string]bool{}
 	fs.Visit(func(f *pflag.Flag) { changed[f.Name] = true })
@@ -108,21 +146,19 @@ func runRun(args []string, st pipeline.Streams) int {
 		}
 		files = append(files, a)
 	}
+	// Batch, output folders and their names are decided over the whole
+	// batch, so a file writes to the same folder whichever shard runs it.
 	batch := len(files)+len(results) > 1
 	outs := map[string]int{}
-	for i, f := range files {
-		if batch && !flags.Quiet && !flags.JSON {
-			if i > 0 {
-				fmt.Fprintln(st.Out)
-			}
-			fmt.Fprintf(st.Out, "== %s\n", f)
+	var mine []*prepared
+	for k, f := range files {
+		p := &prepared{file: f}
+		p.s, p.err = settingsFor(f, flags, changed, batch, outs)
+		if shard.Has(k) {
+			mine = append(mine, p)
 		}
-		o := runOne(f, flags, changed, batch, outs, st)
-		if o.code != exitOK && !batch {
-			fmt.Fprintf(st.Err, "bandsolve run: %s\n", oneLine(o.detail))
-		}
-		results = append(results, o)
 	}
+	results = append(results, runBatch(mine, workers, batch, flags, st)...)
 	code := exitOK
 	failed := 0
 	for _, o := range results {
@@ -143,7 +179,11 @@ func runRun(args []string, st pipeline.Streams) int {
 	if flags.Quiet && failed == 0 {
 		return exitOK
 	}
-	fmt.Fprintf(w, "\n%d command file(s): %d ok, %d failed\n", len(results), len(results)-failed, failed)
+	what := fmt.Sprintf("%d command file(s)", len(results))
+	if shard.N > 1 {
+		what += fmt.Sprintf(" (shard %s of %d file(s))", shard, len(files))
+	}
+	fmt.Fprintf(w, "\n%s: %d ok, %d failed\n", what, len(results)-failed, failed)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "file\tstatus\toutput\tdetail")
 	for _, o := range results {
@@ -156,6 +196,56 @@ func runRun(args []string, st pipeline.Streams) int {
 	return exitOK
 }
 
+// prepared is one command file with its settings (or why it has none).
+type prepared struct {
+	file string
+	s    *pipeline.Settings
+	err  error
+}
+
+// runBatch runs the files on workers at once (campaign.Run). One worker
+// prints as each run goes (progress included); several hold each run's
+// output and print it in batch order when the runs before it are done.
+func runBatch(files []*prepared, workers int, batch bool, flags *pipeline.Settings, st pipeline.Streams) []outcome {
+	res := make([]outcome, len(files))
+	direct := workers == 1 || len(files) == 1
+	bufs := make([]struct{ out, err bytes.Buffer }, len(files))
+	header := func(i int, w io.Writer) {
+		if batch && !flags.Quiet && !flags.JSON {
+			if i > 0 {
+				fmt.Fprintln(w)
+			}
+			fmt.Fprintf(w, "== %s\n", files[i].file)
+		}
+	}
+	jobs := make([]campaign.Job, len(files))
+	for i, p := range files {
+		if p.s != nil {
+			jobs[i].Key = p.s.Path(p.s.Out)
+		}
+		jobs[i].Do = func() {
+			rs := st
+			if direct {
+				header(i, st.Out)
+			} else {
+				rs = pipeline.Streams{Out: &bufs[i].out, Err: &bufs[i].err}
+			}
+			res[i] = runOne(p, rs)
+		}
+	}
+	campaign.Run(jobs, workers, func(i int) {
+		if !direct {
+			header(i, st.Out)
+			st.Out.Write(bufs[i].out.Bytes())
+			st.Err.Write(bufs[i].err.Bytes())
+		}
+		if o := res[i]; o.code != exitOK && !batch {
+			fmt.Fprintf(st.Err, "bandsolve run: %s\n", oneLine(o.detail))
+		}
+	})
+	return res
+}
+
 func orDash(s string) string {
 	if s == "" {
 		return "-"
@@ -165,18 +255,18 @@ func orDash(s string) string {
 
 // runOne runs one command file; a panic is caught so that one broken run
 // cannot take the rest of a batch with it.
-func runOne(file string, flags *pipeline.Settings, changed map[string]bool, batch bool, outs map[string]int, st pipeline.Streams) (o outcome) {
-	o = outcome{file: file}
+func runOne(p *prepared, st pipeline.Streams) (o outcome) {
+	o = outcome{file: p.file}
 	defer func() {
 		if p := recover(); p != nil {
 			o.status, o.code = "failed", exitRun
 			o.detail = fmt.Sprintf("internal error: %v (please report it with this command file)", p)
 		}
 	}()
-	s, err := settingsFor(file, flags, changed, batch, outs)
-	if err != nil {
-		return fail(o, err)
+	if p.err != nil {
+		return fail(o, p.err)
 	}
+	s := p.s
 	o.out = s.Path(s.Out)
 	r, err := pipeline.Execute(s, st)
 	if err != nil {

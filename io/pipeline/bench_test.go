@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"flag"
 	"fmt"
+	"io"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -14,6 +15,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/spectra"
 	"github.com/bandsolve/bandsolve/mcr"
 	"gonum.org/v1/gonum/mat"
@@ -346,4 +348,192 @@ func BenchmarkSpeedup2000x3001(b *testing.B) {
 		b.ReportMetric(perIter/oursIter, "speedup-per-iter")
 		b.ReportMetric(oursIter*float64(ours.Iterations), "als-s")
 	}
+}
+
+// phaseLog timestamps the phase lines Run prints with the wall time and the
+// process's CPU time, so a benchmark can say where one run's time went. CPU
+// time is what the scaling exponents use: on a machine shared with other
+// work the wall time of a phase says more about the neighbours than about
+// the phase.
+type phaseLog struct {
+	start, cpu0 float64
+	names       []string
+	wall, cpu   []float64 // at the start of each phase
+}
+
+func newPhaseLog() *phaseLog {
+	return &phaseLog{start: wallNow(), cpu0: cpuNow()}
+}
+
+func wallNow() float64 { return float64(time.Now().UnixNano()) / 1e9 }
+
+func (p *phaseLog) Write(b []byte) (int, error) {
+	w, c := wallNow()-p.start, cpuNow()-p.cpu0
+	for _, l := range strings.Split(strings.TrimSpace(string(b)), "\n") {
+		// Phases are named by their first word or two; "reading FILE" and
+		// "data: n × m" are one phase with what follows them.
+		f := strings.Fields(l)
+		if len(f) == 0 {
+			continue
+		}
+		name := f[0]
+		if len(f) > 1 && !strings.HasPrefix(l, "reading") && !strings.HasPrefix(l, "data:") {
+			name += " " + f[1]
+		}
+		if strings.HasPrefix(l, "data:") {
+			continue
+		}
+		p.names, p.wall, p.cpu = append(p.names, name), append(p.wall, w), append(p.cpu, c)
+	}
+	return len(b), nil
+}
+
+// durations gives each phase's wall and CPU seconds (a phase lasts until the
+// next one starts; the last line closes the log).
+func (p *phaseLog) durations() (names []string, wall, cpu []float64) {
+	for i := 0; i+1 < len(p.names); i++ {
+		names = append(names, p.names[i])
+		wall = append(wall, p.wall[i+1]-p.wall[i])
+		cpu = append(cpu, p.cpu[i+1]-p.cpu[i])
+	}
+	return names, wall, cpu
+}
+
+func (p *phaseLog) String() string {
+	names, wall, cpu := p.durations()
+	var b strings.Builder
+	for i := range names {
+		fmt.Fprintf(&b, "  %-32s %7.3f s wall %7.3f s CPU\n", names[i], wall[i], cpu[i])
+	}
+	return b.String()
+}
+
+// wholeRun is what `bandsolve resolve` does with the default settings,
+// report included (read, resolve, write the folder, draw the report),
+// preceded in the same process by merely parsing the CSV: whole/parse is
+// the figure of merit, since both suffer alike from other load on a shared
+// machine.
+func wholeRun(b *testing.B, series, blank, out string) (parse, whole float64, log *phaseLog, r *Result) {
+	t0 := time.Now()
+	if _, err := spectra.ReadMatrixCSV(series); err != nil {
+		b.Fatal(err)
+	}
+	parse = time.Since(t0).Seconds()
+	runtime.GC()
+	s := NewSettings()
+	s.Data, s.Kind, s.Blank = []string{series}, "single-beam", blank
+	s.Out, s.Force, s.Quiet = out, true, true
+	t0 = time.Now()
+	log = newPhaseLog()
+	r, err := Run(s, log)
+	if err != nil {
+		b.Fatal(err)
+	}
+	log.Write([]byte("writing results\n"))
+	stage, err := output.NewStage(s.Out, true)
+	if err != nil {
+		b.Fatal(err)
+	}
+	if err := finish(r, stage, nil, Streams{Out: io.Discard}); err != nil {
+		b.Fatal(err)
+	}
+	if err := stage.Commit(); err != nil {
+		b.Fatal(err)
+	}
+	whole = time.Since(t0).Seconds()
+	log.Write([]byte("done\n"))
+	return parse, whole, log, r
+}
+
+func benchWhole(b *testing.B, n, m int) {
+	dir := b.TempDir()
+	series, blank := writeLarge(b, dir, n, m, 5)
+	runtime.GC()
+	resetPeakRSS()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		parse, whole, log, r := wholeRun(b, series, blank, filepath.Join(dir, "out"))
+		b.Logf("parse alone %.3f s; phases of the whole run:\n%s", parse, log)
+		b.ReportMetric(parse, "parse-s")
+		b.ReportMetric(whole, "whole-s")
+		b.ReportMetric(whole/parse, "whole/parse")
+		b.ReportMetric(float64(r.ALS.Iterations), "iterations")
+	}
+	b.StopTimer()
+	reportPeakMemory(b)
+}
+
+// BenchmarkWhole2000x3001 is the target of the default answer: the whole
+// resolve, report on, against the parse of the same file.
+func BenchmarkWhole2000x3001(b *testing.B) { benchWhole(b, 2000, 3001) }
+
+// BenchmarkWhole20000x3000: the same on a 60-million-value series. Only
+// when asked for: -bench Whole20000x3000.
+func BenchmarkWhole20000x3000(b *testing.B) {
+	explicitly(b, "Whole20000")
+	benchWhole(b, 20000, 3000)
+}
+
+// BenchmarkScalingPhases runs the whole resolve at n = 1000, 2000, 4000
+// spectra × 3000 points and at 2000 spectra × m = 1500, 3000, 6000 points,
+// and prints for every phase its CPU time and the exponent of its growth,
+// log₂ of the ratio per doubling (1 = linear, 2 = quadratic), fitted by
+// least squares over the three sizes. Only when asked for: -bench
+// ScalingPhases.
+func BenchmarkScalingPhases(b *testing.B) {
+	explicitly(b, "ScalingPhases")
+	series := map[string][][2]int{
+		"n": {{1000, 3000}, {2000, 3000}, {4000, 3000}},
+		"m": {{2000, 1500}, {2000, 3000}, {2000, 6000}},
+	}
+	for _, dim := range []string{"n", "m"} {
+		var names []string
+		cpu := map[string][]float64{}
+		for _, sz := range series[dim] {
+			dir := b.TempDir()
+			s, bl := writeLarge(b, dir, sz[0], sz[1], 5)
+			parse, whole, log, _ := wholeRun(b, s, bl, filepath.Join(dir, "out"))
+			ph, _, c := log.durations()
+			if names == nil {
+				names = ph
+			}
+			for i, name := range ph {
+				cpu[name] = append(cpu[name], c[i])
+			}
+			cpu["(parse alone, wall)"] = append(cpu["(parse alone, wall)"], parse)
+			cpu["(whole, wall)"] = append(cpu["(whole, wall)"], whole)
+			os.RemoveAll(dir)
+		}
+		names = append(names, "(parse alone, wall)", "(whole, wall)")
+		var out strings.Builder
+		fmt.Fprintf(&out, "doubling %s over %v:\n", dim, series[dim])
+		for _, name := range names {
+			t := cpu[name]
+			fmt.Fprintf(&out, "  %-32s", name)
+			for _, v := range t {
+				fmt.Fprintf(&out, " %7.3f s", v)
+			}
+			fmt.Fprintf(&out, "   exponent %5.2f\n", doublingExponent(t))
+		}
+		// Printed, not logged: the benchmark log is cut after a few lines.
+		fmt.Print(out.String())
+	}
+}
+
+// doublingExponent fits log₂ t = a + e·i over sizes that double with i and
+// returns e; NaN when a time is missing or not positive.
+func doublingExponent(t []float64) float64 {
+	if len(t) < 2 {
+		return math.NaN()
+	}
+	var sx, sy, sxx, sxy float64
+	for i, v := range t {
+		if !(v > 0) {
+			return math.NaN()
+		}
+		x, y := float64(i), math.Log2(v)
+		sx, sy, sxx, sxy = sx+x, sy+y, sxx+x*x, sxy+x*y
+	}
+	k := float64(len(t))
+	return (k*sxy - sx*sy) / (k*sxx - sx*sx)
 }

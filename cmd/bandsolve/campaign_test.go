@@ -1,0 +1,247 @@
+package main
+
+// Campaigns: -j, --shard and collect through the real commands.
+
+import (
+	"bytes"
+	"encoding/csv"
+	"io/fs"
+	"os"
+	"path/filepath"
+	"regexp"
+	"slices"
+	"strconv"
+	"strings"
+	"testing"
+
+	"github.com/bandsolve/bandsolve/io/pipeline"
+)
+
+// folderBytes maps every file under dir (relative name) to its bytes,
+// except the manifest, which records when and where the run was made.
+func folderBytes(t *testing.T, dir string) map[string][]byte {
+	t.Helper()
+	got := map[string][]byte{}
+	err := filepath.WalkDir(dir, func(p string, d fs.DirEntry, err error) error {
+		if err != nil || !d.Type().IsRegular() || d.Name() == pipeline.ManifestName {
+			return err
+		}
+		rel, _ := filepath.Rel(dir, p)
+		got[rel], err = os.ReadFile(p)
+		return err
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return got
+}
+
+func sameFolders(t *testing.T, what, want, got string) {
+	t.Helper()
+	a, b := folderBytes(t, want), folderBytes(t, got)
+	if len(a) < 5 || len(a) != len(b) {
+		t.Errorf("%s: %d files, want %d (%s)", what, len(b), len(a), want)
+	}
+	for name, w := range a {
+		if !bytes.Equal(w, b[name]) {
+			t.Errorf("%s: %s differs from the run on its own", what, name)
+		}
+	}
+}
+
+// campaignFiles writes the demo data and n command files runs/r0.bsr … that
+// differ in their settings; the first draws the report.
+func campaignFiles(t *testing.T, n int) string {
+	root := t.TempDir()
+	writeDemoInputs(t, root)
+	for i := 0; i < n; i++ {
+		extra := "report off\nchecks off\n" // quick
+		if i == 0 {
+			extra = "report on\n"
+		}
+		writeText(t, filepath.Join(root, "runs", "r"+strconv.Itoa(i)+".bsr"),
+			"paths-from ..\ndata series.csv\nblank blank.csv\nkind single-beam\npre 3\nbands off\n"+extra+"components "+strconv.Itoa(2+i%2)+"\n")
+	}
+	return root
+}
+
+// -j 3 gives each run the bytes it gives alone (CONTRACT.md: "same bytes
+// as one by one"), and the log of the batch is the one -j 1 prints.
+func TestRunParallelSameBytes(t *testing.T) {
+	root := campaignFiles(t, 3)
+	glob := filepath.Join(root, "runs", "*.bsr")
+	seq := run("run", glob, "--out", filepath.Join(root, "seq"), "-j", "1")
+	par := run("run", glob, "--out", filepath.Join(root, "par"), "-j", "3")
+	if seq.code != 0 || par.code != 0 {
+		t.Fatalf("exit %d / %d: %s %s", seq.code, par.code, seq.stderr, par.stderr)
+	}
+	if want := strings.ReplaceAll(seq.stdout, "seq", "par"); par.stdout != want {
+		t.Errorf("-j 3 printed\n%s\nwhile -j 1 printed\n%s", par.stdout, seq.stdout)
+	}
+	if err := os.Mkdir(filepath.Join(root, "one"), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	for i := 0; i < 3; i++ {
+		name := "r" + strconv.Itoa(i)
+		alone := filepath.Join(root, "one", name)
+		if r := run("run", filepath.Join(root, "runs", name+".bsr"), "--out", alone, "--quiet"); r.code != 0 {
+			t.Fatal(r.stderr)
+		}
+		sameFolders(t, name+" with -j 3", alone, filepath.Join(root, "par", name))
+	}
+	if _, err := os.Stat(filepath.Join(root, "par", "r0", "report.html")); err != nil {
+		t.Errorf("the run with the report wrote none: %v", err)
+	}
+}
+
+// Two files naming the same output folder run one after the other, as
+// without -j: the first writes it, the second is refused (earlier results).
+func TestRunParallelSameFolder(t *testing.T) {
+	for _, j := range []string{"1", "2"} {
+		root := t.TempDir()
+		writeDemoInputs(t, root)
+		for _, n := range []string{"a", "b"} {
+			writeText(t, filepath.Join(root, n+".bsr"), "data series.csv\nblank blank.csv\n"+quickSettings+"out shared\n")
+		}
+		r := run("run", filepath.Join(root, "a.bsr"), filepath.Join(root, "b.bsr"), "-j", j, "--quiet")
+		if r.code != exitRun || !regexp.MustCompile(`a\.bsr +ok`).MatchString(r.stdout) || !regexp.MustCompile(`b\.bsr +failed`).MatchString(r.stdout) {
+			t.Errorf("-j %s: exit %d, want a ok and b failed:\n%s", j, r.code, r.stdout)
+		}
+	}
+}
+
+func TestRunFlagsRefused(t *testing.T) {
+	for _, c := range []struct{ args, want string }{
+		{"-j 0", "-j \"0\": give a whole number"},
+		{"--jobs two", "give a whole number"},
+		{"--shard 4/4", "I counts from 0"},
+		{"--shard 1", "give I/N"},
+	} {
+		r := run(append([]string{"run", "x.bsr"}, strings.Fields(c.args)...)...)
+		if r.code != exitUsage || !strings.Contains(r.stderr, c.want) || strings.Count(r.stderr, "\n") != 1 {
+			t.Errorf("%s: exit %d, %q; want exit 2 and one line with %q", c.args, r.code, r.stderr, c.want)
+		}
+	}
+}
+
+// shellWords splits one command line as a POSIX shell would for the
+// quoting used in docs/campaigns.md: single quotes literal, double quotes
+// with $VAR expanded, words apart at blanks (POSIX Shell Command Language,
+// §2.2 Quoting, §2.6.2 Parameter Expansion).
+func shellWords(line string) []string {
+	var words []string
+	var w strings.Builder
+	in, inWord := byte(0), false
+	for i := 0; i < len(line); i++ {
+		c := line[i]
+		switch {
+		case in == '\'' && c == '\'', in == '"' && c == '"':
+			in = 0
+		case in == '\'':
+			w.WriteByte(c)
+		case in == '"' && c == '$':
+			j := i + 1
+			for j < len(line) && (line[j] == '_' || line[j] >= 'A' && line[j] <= 'Z' || line[j] >= '0' && line[j] <= '9') {
+				j++
+			}
+			w.WriteString(os.Getenv(line[i+1 : j]))
+			i = j - 1
+		case in == '"':
+			w.WriteByte(c)
+		case c == '\'' || c == '"':
+			in, inWord = c, true
+		case c == ' ' || c == '\t':
+			if inWord {
+				words = append(words, w.String())
+				w.Reset()
+			}
+			inWord = false
+		default:
+			w.WriteByte(c)
+			inWord = true
+		}
+	}
+	if inWord {
+		words = append(words, w.String())
+	}
+	return words
+}
+
+// docCommands returns the bandsolve command lines of docs/campaigns.md's
+// shell blocks, in order.
+func docCommands(t *testing.T) []string {
+	b, err := os.ReadFile(filepath.Join("..", "..", "docs", "campaigns.md"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var lines []string
+	inBlock := false
+	for _, l := range strings.Split(string(b), "\n") {
+		switch {
+		case strings.HasPrefix(l, "```"):
+			inBlock = !inBlock
+		case inBlock && strings.HasPrefix(l, "bandsolve "):
+			lines = append(lines, l)
+		}
+	}
+	return lines
+}
+
+// The Slurm example of docs/campaigns.md, run as written with the array
+// index set by hand as Slurm would set it (0 … 3 for --array=0-3): the
+// shares give every file exactly once, each with the bytes of the whole
+// batch run at once, and collect then tabulates all of them.
+func TestSlurmArrayExample(t *testing.T) {
+	cmds := docCommands(t)
+	if len(cmds) != 2 || !strings.Contains(cmds[0], "SLURM_ARRAY_TASK_ID") || !strings.Contains(cmds[1], "collect") {
+		t.Fatalf("docs/campaigns.md's shell blocks hold %q; the test expects the array task, then collect", cmds)
+	}
+	root := campaignFiles(t, 5)
+	t.Chdir(root)
+	for task := 0; task < 4; task++ {
+		t.Setenv("SLURM_ARRAY_TASK_ID", strconv.Itoa(task))
+		args := shellWords(cmds[0])
+		if r := run(args[1:]...); r.code != 0 {
+			t.Fatalf("task %d: %v: exit %d: %s", task, args, r.code, r.stderr)
+		}
+		// Round robin: after task i, files k ≤ … with k mod 4 ≤ i exist.
+		for k := 0; k < 5; k++ {
+			_, err := os.Stat(filepath.Join("batch", "r"+strconv.Itoa(k), "summary.json"))
+			if done := k%4 <= task; done != (err == nil) {
+				t.Errorf("after task %d: r%d written = %v, want %v", task, k, err == nil, done)
+			}
+		}
+	}
+	if r := run("run", "runs/*.bsr", "--out", "whole", "--quiet"); r.code != 0 {
+		t.Fatal(r.stderr)
+	}
+	for k := 0; k < 5; k++ {
+		name := "r" + strconv.Itoa(k)
+		sameFolders(t, name+" from its shard", filepath.Join("whole", name), filepath.Join("batch", name))
+	}
+	args := shellWords(cmds[1])
+	// The shell expands batch/*/ before bandsolve sees it (sorted, as a
+	// shell's pathname expansion is: POSIX §2.13.3).
+	dirs, _ := filepath.Glob("batch/*")
+	for i := range dirs {
+		dirs[i] += "/"
+	}
+	args = slices.Concat(args[1:2], dirs, args[3:])
+	if r := run(args...); r.code != 0 {
+		t.Fatalf("%v: exit %d: %s", args, r.code, r.stderr)
+	}
+	b, err := os.ReadFile("batch.csv")
+	if err != nil {
+		t.Fatal(err)
+	}
+	rows, err := csv.NewReader(bytes.NewReader(b)).ReadAll()
+	if err != nil || len(rows) != 6 {
+		t.Fatalf("batch.csv: %d rows, %v; want a header and 5", len(rows), err)
+	}
+	for k := 1; k <= 5; k++ {
+		want := readSummary(t, rows[k][0])["components"]
+		if rows[k][1] != "ok" || rows[k][2] != strconv.Itoa(int(want.(float64))) {
+			t.Errorf("batch.csv row %d = %q; summary.json says components %v", k, rows[k], want)
+		}
+	}
+}

@@ -1,0 +1,95 @@
+package main
+
+import (
+	"fmt"
+	"os"
+	"path/filepath"
+
+	"github.com/bandsolve/bandsolve/io/campaign"
+	"github.com/bandsolve/bandsolve/io/pipeline"
+)
+
+const collectHelp = `Usage: bandsolve collect OUT… [--out FILE]
+
+Writes one CSV table of the key results of many output folders, a row per
+folder in the order given, to compare a series of experiments (say, a rate
+constant against the catalyst loading). Columns: folder, status (ok, or why
+the folder has no readable summary.json), components, rank_estimate, mode,
+spectra, points, noise_sigma, lack_of_fit_percent, noise_lack_of_fit_percent,
+residual_to_noise (lack of fit over the noise's: 1 = fits to the noise),
+kinetics_model, then k_per_s[STEP] and stderr_per_s[STEP] for every
+kinetic step met, then warnings (how many). A value a folder lacks is an
+empty cell. The exit status is 1 if any folder had no readable summary.
+
+Example:
+
+  bandsolve run 'runs/*.bsr' --out batch/
+  bandsolve collect batch/*/ --out batch.csv
+  bandsolve collect loading-1 loading-2 loading-5 > loadings.csv
+
+Flags:
+`
+
+var _ = func() bool {
+	extraCommands = append(extraCommands, command{"collect", "one CSV table of the key results of many output folders", collectHelp, runCollect})
+	return true
+}()
+
+func runCollect(args []string, st pipeline.Streams) int {
+	fs := newFlagSet("collect", collectHelp, st)
+	out := fs.String("out", "", "write the table to FILE instead of standard output")
+	force := fs.Bool("force", false, "replace FILE if it exists")
+	if ok, code := parse(fs, args, collectHelp, st); !ok {
+		return code
+	}
+	if fs.NArg() == 0 {
+		fmt.Fprintf(st.Err, "bandsolve collect: give one or more output folders, e.g. bandsolve collect batch/*/; see bandsolve collect --help\n")
+		return exitUsage
+	}
+	t, problems := campaign.Collect(fs.Args())
+	b := t.CSV()
+	if *out == "" {
+		st.Out.Write(b)
+	} else if err := writeNew(*out, b, *force); err != nil {
+		fmt.Fprintf(st.Err, "bandsolve collect: %v\n", err)
+		return exitRun
+	}
+	for _, p := range problems {
+		fmt.Fprintf(st.Err, "bandsolve collect: %s\n", p)
+	}
+	if len(problems) > 0 {
+		return exitRun
+	}
+	return exitOK
+}
+
+// writeNew writes a file through a temporary one beside it and a rename,
+// so a reader never sees half a table; an existing file is replaced only
+// with force, and never when it is not a regular file.
+func writeNew(path string, b []byte, force bool) error {
+	if st, err := os.Lstat(path); err == nil {
+		switch {
+		case !st.Mode().IsRegular():
+			return fmt.Errorf("--out %s: exists and is not a regular file; name a new file", path)
+		case !force:
+			return fmt.Errorf("--out %s: exists; add --force to replace it, or name a new file", path)
+		}
+	}
+	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".partial-*")
+	if err != nil {
+		return fmt.Errorf("--out %s: %w", path, err)
+	}
+	_, werr := tmp.Write(b)
+	cerr := tmp.Close()
+	if werr == nil {
+		werr = cerr
+	}
+	if werr == nil {
+		werr = os.Rename(tmp.Name(), path)
+	}
+	if werr != nil {
+		os.Remove(tmp.Name())
+		return fmt.Errorf("--out %s: %w", path, werr)
+	}
+	return nil
+}

@@ -1,0 +1,197 @@
+package campaign
+
+import (
+	"bytes"
+	"encoding/json"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strconv"
+
+	"github.com/bandsolve/bandsolve/io/output"
+)
+
+// SummaryName is the file of an output folder Collect reads.
+const SummaryName = "summary.json"
+
+// maxSummary bounds what is read of a summary.json: a real one is a few
+// kB, and a folder from elsewhere is not trusted to be one.
+const maxSummary = 16 << 20
+
+// The fixed columns of the collected table, each a key of summary.json
+// (CONTRACT.md) except folder, status and residual_to_noise.
+var fixedColumns = []string{"folder", "status", "components", "rank_estimate", "mode", "spectra", "points",
+	"noise_sigma", "lack_of_fit_percent", "noise_lack_of_fit_percent", "residual_to_noise", "kinetics_model"}
+
+// Collect reads summary.json of every folder and returns one table: a row
+// per folder in the order given, the fixed columns, then for each kinetic
+// step met (in order of first appearance) the pair k_per_s[STEP],
+// stderr_per_s[STEP], then warnings (how many). A key a summary lacks is an
+// empty cell; a folder without a readable summary.json keeps its row, with
+// the reason in status, and is listed in problems.
+//
+// residual_to_noise is lack_of_fit_percent ÷ noise_lack_of_fit_percent:
+// both are 100·‖·‖/‖D‖ of the same data, so the ratio is the root mean
+// square residual over the noise level (1 = the model fits to the noise).
+func Collect(folders []string) (t output.Table, problems []string) {
+	type row struct {
+		cells map[string]string
+		steps map[string][2]string
+	}
+	var rows []row
+	var steps []string
+	seen := map[string]bool{}
+	for _, dir := range folders {
+		r := row{cells: map[string]string{"folder": dir}, steps: map[string][2]string{}}
+		s, err := readSummary(dir)
+		if err != nil {
+			r.cells["status"] = err.Error()
+			problems = append(problems, fmt.Sprintf("%s: %v", dir, err))
+			rows = append(rows, r)
+			continue
+		}
+		r.cells["status"] = "ok"
+		for _, k := range fixedColumns[2:] {
+			if v, ok := s.scalar(k); ok {
+				r.cells[k] = v
+			}
+		}
+		if q := s.ratio("lack_of_fit_percent", "noise_lack_of_fit_percent"); q != "" {
+			r.cells["residual_to_noise"] = q
+		}
+		if kin := s.object("kinetics"); kin != nil {
+			if v, ok := kin.scalar("model"); ok {
+				r.cells["kinetics_model"] = v
+			}
+			for _, rc := range kin.list("rate_constants") {
+				step, _ := rc.scalar("step")
+				k, _ := rc.scalar("k_per_s")
+				se, _ := rc.scalar("stderr_per_s")
+				if !seen[step] {
+					seen[step] = true
+					steps = append(steps, step)
+				}
+				r.steps[step] = [2]string{k, se}
+			}
+		}
+		r.cells["warnings"] = strconv.Itoa(len(s.list("warnings")))
+		rows = append(rows, r)
+	}
+	t.Header = append([]string(nil), fixedColumns...)
+	for _, st := range steps {
+		t.Header = append(t.Header, "k_per_s["+st+"]", "stderr_per_s["+st+"]")
+	}
+	t.Header = append(t.Header, "warnings")
+	for _, r := range rows {
+		var cells []string
+		for _, k := range fixedColumns {
+			cells = append(cells, r.cells[k])
+		}
+		for _, st := range steps {
+			p := r.steps[st]
+			cells = append(cells, p[0], p[1])
+		}
+		t.Rows = append(t.Rows, append(cells, r.cells["warnings"]))
+	}
+	return t, problems
+}
+
+// object is a JSON object read loosely: any key may be missing or of
+// another type than expected, and is then simply absent.
+type object map[string]json.RawMessage
+
+func readSummary(dir string) (object, error) {
+	p := filepath.Join(dir, SummaryName)
+	st, err := os.Stat(p)
+	switch {
+	case err != nil:
+		return nil, fmt.Errorf("no %s (not a bandsolve output folder, or its run failed)", SummaryName)
+	case !st.Mode().IsRegular():
+		return nil, fmt.Errorf("%s is not a regular file", SummaryName)
+	case st.Size() > maxSummary:
+		return nil, fmt.Errorf("%s is %d bytes, more than a summary can be (%d)", SummaryName, st.Size(), maxSummary)
+	}
+	f, err := os.Open(p)
+	if err != nil {
+		return nil, fmt.Errorf("cannot read %s: %v", SummaryName, err)
+	}
+	defer f.Close()
+	raw, err := io.ReadAll(io.LimitReader(f, maxSummary+1))
+	if err != nil {
+		return nil, fmt.Errorf("cannot read %s: %v", SummaryName, err)
+	}
+	var o object
+	if err := json.Unmarshal(raw, &o); err != nil {
+		return nil, fmt.Errorf("%s is not a JSON object: %v", SummaryName, err)
+	}
+	return o, nil
+}
+
+// scalar gives a string, number or boolean value as its text (a number
+// exactly as summary.json wrote it).
+func (o object) scalar(key string) (string, bool) {
+	raw, ok := o[key]
+	if !ok {
+		return "", false
+	}
+	d := json.NewDecoder(bytes.NewReader(raw))
+	d.UseNumber()
+	var v any
+	if d.Decode(&v) != nil {
+		return "", false
+	}
+	switch x := v.(type) {
+	case string:
+		return x, true
+	case json.Number:
+		return x.String(), true
+	case bool:
+		return strconv.FormatBool(x), true
+	}
+	return "", false
+}
+
+func (o object) number(key string) (float64, bool) {
+	var v float64
+	raw, ok := o[key]
+	if !ok || json.Unmarshal(raw, &v) != nil {
+		return 0, false
+	}
+	return v, true
+}
+
+// ratio is a/b when both are present and positive, else "".
+func (o object) ratio(a, b string) string {
+	x, ok1 := o.number(a)
+	y, ok2 := o.number(b)
+	if !ok1 || !ok2 || !(x >= 0) || !(y > 0) {
+		return ""
+	}
+	return output.Float(x / y)
+}
+
+func (o object) object(key string) object {
+	var v object
+	if raw, ok := o[key]; !ok || json.Unmarshal(raw, &v) != nil {
+		return nil
+	}
+	return v
+}
+
+func (o object) list(key string) []object {
+	var raws []json.RawMessage
+	if raw, ok := o[key]; !ok || json.Unmarshal(raw, &raws) != nil {
+		return nil
+	}
+	var out []object
+	for _, r := range raws {
+		var v object
+		if json.Unmarshal(r, &v) == nil {
+			out = append(out, v)
+		} else {
+			out = append(out, object{}) // a warning is a string: counted all the same
+		}
+	}
+	return out
+}

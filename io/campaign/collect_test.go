@@ -1,0 +1,98 @@
+package campaign
+
+import (
+	"bytes"
+	"encoding/csv"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"testing"
+)
+
+func writeSummary(t *testing.T, dir, text string) string {
+	t.Helper()
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	if text != "" {
+		if err := os.WriteFile(filepath.Join(dir, SummaryName), []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	return dir
+}
+
+// Each cell is the summary.json value of the key its column is named after
+// (keys: CONTRACT.md), a missing key an empty cell, each step's rate
+// constant and standard error in their own pair of columns, and a folder
+// without a summary keeps its row with the reason.
+func TestCollect(t *testing.T) {
+	root := t.TempDir()
+	full := writeSummary(t, filepath.Join(root, "loading-1"), `{
+  "tool": "bandsolve", "rank_estimate": 3, "components": 3, "mode": "species",
+  "spectra": 120, "points": 900, "noise_sigma": 0.00021,
+  "lack_of_fit_percent": 1.25, "noise_lack_of_fit_percent": 1.0,
+  "kinetics": {"model": "A -> B -> C", "rate_constants": [
+    {"step": "A -> B", "k_per_s": 0.0042, "stderr_per_s": 1.1e-05},
+    {"step": "B -> C", "k_per_s": 0.00093, "stderr_per_s": 4e-06}]},
+  "warnings": ["one", "two"]}`)
+	// An older or partial summary: no noise, no kinetics, no warnings key.
+	part := writeSummary(t, filepath.Join(root, "loading-2"), `{"components": 2, "mode": "reactions", "lack_of_fit_percent": 3.5,
+  "kinetics": {"model": "A -> C", "rate_constants": [{"step": "A -> C", "k_per_s": 0.01}]}}`)
+	none := writeSummary(t, filepath.Join(root, "failed"), "")
+	bad := writeSummary(t, filepath.Join(root, "bad"), `[1, 2]`)
+	tab, problems := Collect([]string{full, part, none, bad})
+	if len(problems) != 2 || !strings.Contains(problems[0], "failed") || !strings.Contains(problems[1], "bad") {
+		t.Errorf("problems = %q, want the folder without and the one with a broken summary", problems)
+	}
+	rows, err := csv.NewReader(bytes.NewReader(tab.CSV())).ReadAll()
+	if err != nil {
+		t.Fatalf("the table is not CSV (RFC 4180): %v", err)
+	}
+	head := rows[0]
+	cell := func(r int, col string) string {
+		for j, h := range head {
+			if h == col {
+				return rows[r][j]
+			}
+		}
+		t.Fatalf("no column %q in %q", col, head)
+		return ""
+	}
+	if len(rows) != 5 {
+		t.Fatalf("%d rows, want a header and 4", len(rows))
+	}
+	for _, c := range []struct {
+		row       int
+		col, want string
+	}{
+		{1, "folder", full}, {1, "status", "ok"}, {1, "components", "3"}, {1, "mode", "species"},
+		{1, "noise_sigma", "0.00021"}, {1, "lack_of_fit_percent", "1.25"}, {1, "kinetics_model", "A -> B -> C"},
+		{1, "k_per_s[A -> B]", "0.0042"}, {1, "stderr_per_s[A -> B]", "1.1e-05"},
+		{1, "k_per_s[B -> C]", "0.00093"}, {1, "stderr_per_s[B -> C]", "4e-06"},
+		{1, "k_per_s[A -> C]", ""}, {1, "warnings", "2"},
+		{2, "components", "2"}, {2, "noise_sigma", ""}, {2, "residual_to_noise", ""},
+		{2, "k_per_s[A -> C]", "0.01"}, {2, "stderr_per_s[A -> C]", ""}, {2, "k_per_s[A -> B]", ""},
+		{2, "warnings", "0"},
+		{3, "folder", none}, {3, "components", ""},
+		{4, "folder", bad},
+	} {
+		if got := cell(c.row, c.col); got != c.want {
+			t.Errorf("row %d, %s = %q, want %q", c.row, c.col, got, c.want)
+		}
+	}
+	if s := cell(3, "status"); !strings.Contains(s, "no summary.json") {
+		t.Errorf("status of a folder without summary = %q", s)
+	}
+	// residual_to_noise recomputed from its definition: the two lack-of-fit
+	// percentages of the same data divided.
+	if got, err := strconv.ParseFloat(cell(1, "residual_to_noise"), 64); err != nil || got != 1.25/1.0 {
+		t.Errorf("residual_to_noise = %q, want 1.25 / 1.0", cell(1, "residual_to_noise"))
+	}
+	// Steps in the order first met: the first folder's two, then A -> C.
+	want := []string{"k_per_s[A -> B]", "stderr_per_s[A -> B]", "k_per_s[B -> C]", "stderr_per_s[B -> C]", "k_per_s[A -> C]", "stderr_per_s[A -> C]", "warnings"}
+	if got := head[len(head)-len(want):]; strings.Join(got, "|") != strings.Join(want, "|") {
+		t.Errorf("last columns %q, want %q", got, want)
+	}
+}
