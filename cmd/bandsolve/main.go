@@ -142,6 +142,13 @@ func settingsFlags(fs *pflag.FlagSet, s *pipeline.Settings) {
 			fs.Lookup(o.Name).NoOptDefVal = "on"
 		}
 	}
+	// Old names still work, hidden from --help; Set records them for a note.
+	for old := range pipeline.Renamed {
+		o, _ := pipeline.Lookup(old)
+		o.Name = old
+		fs.Var(&settingValue{s: s, o: o}, old, usageOf(o))
+		fs.MarkHidden(old)
+	}
 }
 
 func usageOf(o pipeline.Option) string {

@@ -207,7 +207,7 @@ func TestVerifyFindsChanges(t *testing.T) {
 	t.Chdir(root)
 	out := filepath.Join("results", "r1")
 	if r := run("resolve", "--data", "data/series.csv", "--blank", "data/blank.csv",
-		"--pre", "3", "--report", "off", "--bands", "off", "--out", out, "--quiet"); r.code != 0 {
+		"--pre", "3", "--report", "off", "--uniqueness", "off", "--out", out, "--quiet"); r.code != 0 {
 		t.Fatal(r.stderr)
 	}
 	if r := run("verify", out, "--quiet"); r.code != 0 {
@@ -248,7 +248,7 @@ func TestVerifyFindsChanges(t *testing.T) {
 		writeText(t, filepath.Join(scans, fmt.Sprintf("scan_%04g.csv", tr.Times[i])), b.String())
 	}
 	if r := run("resolve", "--data", "scans", "--times-from-name", "--blank", "data/blank.csv", "--pre", "1",
-		"--report", "off", "--bands", "off", "--out", "results/r2", "--quiet"); r.code != 0 {
+		"--report", "off", "--uniqueness", "off", "--out", "results/r2", "--quiet"); r.code != 0 {
 		t.Fatal(r.stderr)
 	}
 	extra, _ := os.ReadFile(filepath.Join(scans, "scan_3000.csv"))
@@ -279,7 +279,7 @@ func TestVerifyAbsoluteInputs(t *testing.T) {
 	writeDemoInputs(t, root)
 	out := filepath.Join(root, "r")
 	if r := run("resolve", "--data", filepath.Join(root, "series.csv"), "--blank", filepath.Join(root, "blank.csv"),
-		"--pre", "3", "--report", "off", "--bands", "off", "--out", out, "--quiet"); r.code != 0 {
+		"--pre", "3", "--report", "off", "--uniqueness", "off", "--out", out, "--quiet"); r.code != 0 {
 		t.Fatal(r.stderr)
 	}
 	r := run("verify", out)
@@ -360,5 +360,37 @@ wait:
 	}
 	if ents, _ := os.ReadDir(out); len(ents) != 1 {
 		t.Errorf("the output folder holds %d entries, want only the earlier file", len(ents))
+	}
+}
+
+// --bands was renamed --uniqueness; the old name still works until 1.0 on
+// the command line and in command files (CONTRACT.md), prints a one-line
+// note, is hidden from --help, and the as-run record writes the new name, so
+// verify reproduces the folder.
+func TestOldBandsNameStillWorks(t *testing.T) {
+	root := t.TempDir()
+	writeDemoInputs(t, filepath.Join(root, "data"))
+	t.Chdir(root)
+	r := run("resolve", "--data", "data/series.csv", "--blank", "data/blank.csv", "--pre", "3",
+		"--report", "off", "--bands", "off", "--out", "flag")
+	if r.code != 0 || strings.Count(r.stderr, "--bands is now --uniqueness") != 1 {
+		t.Fatalf("--bands off: exit %d, stderr %q", r.code, r.stderr)
+	}
+	rec, err := os.ReadFile(filepath.Join("flag", "as-run.bsr"))
+	if err != nil || !strings.Contains(string(rec), "\nuniqueness       off") || strings.Contains(string(rec), "\nbands") {
+		t.Errorf("as-run record (err %v) should say 'uniqueness off':\n%s", err, rec)
+	}
+	if _, err := os.Stat(filepath.Join("flag", "uniqueness.csv")); err == nil {
+		t.Error("uniqueness.csv written with --bands off")
+	}
+	if v := run("verify", "flag", "--quiet"); v.code != 0 {
+		t.Errorf("verify after --bands: exit %d: %s", v.code, v.stderr)
+	}
+	writeText(t, "old.bsr", "data data/series.csv\nblank data/blank.csv\npre 3\nreport off\nbands off\nout cmdfile\n")
+	if r := run("run", "old.bsr"); r.code != 0 || !strings.Contains(r.stderr, "--bands is now --uniqueness") {
+		t.Errorf("command file with 'bands off': exit %d, stderr %q", r.code, r.stderr)
+	}
+	if h := run("resolve", "--help"); strings.Contains(h.stdout, "--bands") || !strings.Contains(h.stdout, "--uniqueness") {
+		t.Error("--help should show --uniqueness and hide --bands")
 	}
 }

@@ -31,19 +31,32 @@ type Summary struct {
 	Axis                     string          `json:"axis"`
 	Experiments              []string        `json:"experiments"`
 	ComponentNames           []string        `json:"component_names"`
-	FeasibleBands            []BandJSON      `json:"feasible_bands"`
-	Kinetics                 *KineticsJSON   `json:"kinetics,omitempty"`
-	EFA                      *EFAJSON        `json:"efa,omitempty"`
-	Advice                   []string        `json:"advice"`
-	Notes                    []string        `json:"notes"`
-	Warnings                 []string        `json:"warnings"`
+	UniquenessRanges         []BandJSON      `json:"uniqueness_ranges"`
+	// FeasibleBands is uniqueness_ranges under its old name, written
+	// until 1.0 for scripts that read it (CONTRACT.md).
+	FeasibleBands []BandJSON    `json:"feasible_bands"`
+	Kinetics      *KineticsJSON `json:"kinetics,omitempty"`
+	EFA           *EFAJSON      `json:"efa,omitempty"`
+	Advice        []string      `json:"advice"`
+	Notes         []string      `json:"notes"`
+	Warnings      []string      `json:"warnings"`
 
 	// Constraints, their checks, the bands' note and the bootstrap
 	// (constraints.go; keys in docs/constraints.md).
-	BandsNote        string           `json:"feasible_bands_note,omitempty"`
+	UniquenessNote   string           `json:"uniqueness_note,omitempty"`
+	BandsNote        string           `json:"feasible_bands_note,omitempty"` // old name of uniqueness_note, until 1.0
 	Constraints      []string         `json:"constraints,omitempty"`
 	ConstraintChecks []ConstraintJSON `json:"constraint_checks,omitempty"`
 	Bootstrap        *BootstrapJSON   `json:"bootstrap,omitempty"`
+}
+
+// Uniqueness returns the uniqueness ranges, read from the old key
+// feasible_bands in folders written before the rename.
+func (s Summary) Uniqueness() []BandJSON {
+	if len(s.UniquenessRanges) > 0 {
+		return s.UniquenessRanges
+	}
+	return s.FeasibleBands
 }
 
 // CriterionJSON is one rank criterion's verdict.
@@ -54,7 +67,9 @@ type CriterionJSON struct {
 	Detail   string `json:"detail"`
 }
 
-// BandJSON is one component's feasible band.
+// BandJSON is one component's uniqueness range: the smallest and largest
+// share of the signal, ‖c sᵀ‖ / ‖C Sᵀ‖, over every rotation of the
+// solution that fits as well and keeps the constraints (Tauler 2001).
 type BandJSON struct {
 	Component string  `json:"component"`
 	Min       float64 `json:"min"`

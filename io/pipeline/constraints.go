@@ -22,7 +22,7 @@ type (
 )
 
 // ConstraintReport is what the per-component constraints, the checks, the
-// feasible bands and the bootstrap produced for one analysis.
+// uniqueness ranges and the bootstrap produced for one analysis.
 type ConstraintReport struct {
 	Options mcr.Options // as used by the resolution
 	// FixedOrder: per-component constraints name components by number, so
@@ -390,7 +390,7 @@ func sortByTime(r *Result, c0 *mat.Dense) {
 }
 
 // afterResolve runs what comes after the resolution: the constraint
-// checks, the feasible bands and the bootstrap.
+// checks, the uniqueness ranges and the bootstrap.
 func afterResolve(r *Result, data mcr.Data, opt mcr.Options, log io.Writer) error {
 	rep := r.Constraints
 	if rep == nil {
@@ -411,7 +411,7 @@ func afterResolve(r *Result, data mcr.Data, opt mcr.Options, log io.Writer) erro
 	if s.Bands == "on" {
 		computeBands(r, opt, log)
 	} else {
-		rep.BandsNote = "feasible bands not computed (--bands off)"
+		rep.BandsNote = "uniqueness ranges not computed (--uniqueness off)"
 	}
 	if s.Replicates > 0 {
 		if s.Replicates < 2 {
@@ -460,7 +460,7 @@ func judgeChecks(r *Result) {
 	}
 }
 
-// bandsCostLimit bounds (n + m)·k³, the work of one band search in units of
+// bandsCostLimit bounds (n + m)·k³, the work of one range search in units of
 // one evaluation's flops per unknown: about a few seconds at the limit.
 const bandsCostLimit = 4e6
 
@@ -470,18 +470,18 @@ func computeBands(r *Result, opt mcr.Options, log io.Writer) {
 	k := r.Components
 	switch {
 	case k < 2:
-		rep.BandsNote = "one component: no rotational ambiguity, the band is a single value"
+		rep.BandsNote = "one component: no rotational ambiguity, the uniqueness range is a single value"
 	case k > 4:
-		rep.BandsNote = fmt.Sprintf("feasible bands not computed: %d components (the search grows as k³; at most 4 are computed by default)", k)
+		rep.BandsNote = fmt.Sprintf("uniqueness ranges not computed: %d components (the search grows as k³; at most 4 are computed)", k)
 		return
 	case float64(n+m)*float64(k*k*k) > bandsCostLimit:
-		rep.BandsNote = fmt.Sprintf("feasible bands not computed: %d × %d data with %d components would take long", n, m, k)
+		rep.BandsNote = fmt.Sprintf("uniqueness ranges not computed: %d × %d data with %d components would take long", n, m, k)
 		return
 	}
 	if opt.HardModel != nil || opt.Unimodal != nil {
-		rep.BandsNote = "feasible bands keep non-negativity, closure, known spectra and zero windows; unimodality and the kinetic model are not imposed on the rotations, so the bands may be wider than the constraints allow"
+		rep.BandsNote = "uniqueness ranges keep non-negativity, closure, known spectra and zero windows; unimodality and the kinetic model are not imposed on the rotations, so the ranges may be wider than the constraints allow"
 	}
-	fmt.Fprintf(log, "computing feasible bands\n")
+	fmt.Fprintf(log, "computing uniqueness ranges\n")
 	known := make([]bool, k)
 	for j, ks := range opt.KnownSpectra {
 		known[j] = ks != nil && (j >= len(opt.KnownWeights) || opt.KnownWeights[j] == 0)
@@ -492,24 +492,24 @@ func computeBands(r *Result, opt mcr.Options, log io.Writer) {
 		ZeroProfiles: opt.ZeroProfiles, ZeroSpectra: opt.ZeroSpectra, Known: known,
 	})
 	if err != nil {
-		rep.BandsNote = fmt.Sprintf("feasible bands not computed: %v", err)
+		rep.BandsNote = fmt.Sprintf("uniqueness ranges not computed: %v", err)
 		return
 	}
 	rep.Bands = b
 	for j, band := range b.Bands {
 		if !band.Feasible {
-			r.Warnings = append(r.Warnings, fmt.Sprintf("feasible band of %s: the search could not stay within the constraints; the band shown is the part reached", r.Names[j]))
+			r.Warnings = append(r.Warnings, fmt.Sprintf("uniqueness range of %s: the search could not stay within the constraints; the range shown is the part reached", r.Names[j]))
 		}
 		// A contribution far above the whole signal is reached only by
 		// components that cancel each other: the constraints do not bound
 		// the rotation at all, and the maximum is wherever the search stopped.
 		if band.Max > unboundedBand {
-			r.Warnings = append(r.Warnings, fmt.Sprintf("feasible band of %s is unbounded (its maximum %.3g is where the search stopped): the constraints allow rotations in which components cancel each other, and the answer shown is one of them; a known spectrum (--known-spectrum) or zero windows (--zero-window) bound the rotation, and a kinetic model (--model with --hard-model) picks the one that obeys it", r.Names[j], band.Max))
+			r.Warnings = append(r.Warnings, fmt.Sprintf("uniqueness range of %s is unbounded (its largest share %.3g is where the search stopped): the constraints allow rotations in which components cancel each other, and the answer shown is one of them; a known spectrum (--known-spectrum) or zero windows (--zero-window) bound the rotation, and a kinetic model (--model with --hard-model) picks the one that obeys it", r.Names[j], band.Max))
 		}
 	}
 }
 
-// unboundedBand: a signal contribution ‖c_k s_kᵀ‖/‖C Sᵀ‖ above this is
+// unboundedBand: a share of the signal ‖c_k s_kᵀ‖/‖C Sᵀ‖ above this is
 // read as "no upper bound" (a single component can exceed 1 only when others
 // partly cancel it; a hundredfold needs near-total cancellation).
 const unboundedBand = 100.0
@@ -521,7 +521,7 @@ func constraintSummary(r *Result, s *Summary) {
 		return
 	}
 	s.Constraints = nonNil(rep.Described)
-	s.BandsNote = rep.BandsNote
+	s.UniquenessNote, s.BandsNote = rep.BandsNote, rep.BandsNote
 	for _, c := range rep.Checks {
 		cj := ConstraintJSON{Constraint: c.Name, LackOfFitWith: round(c.With), LackOfFitWithout: round(c.Without)}
 		if len(c.ComponentsAffected) < r.Components {
@@ -533,8 +533,9 @@ func constraintSummary(r *Result, s *Summary) {
 	}
 	if rep.Bands != nil {
 		for j, b := range rep.Bands.Bands {
-			s.FeasibleBands = append(s.FeasibleBands, BandJSON{Component: r.Names[j], Min: round(b.Min), Max: round(b.Max)})
+			s.UniquenessRanges = append(s.UniquenessRanges, BandJSON{Component: r.Names[j], Min: round(b.Min), Max: round(b.Max)})
 		}
+		s.FeasibleBands = s.UniquenessRanges
 	}
 	if iv := rep.Intervals; iv != nil {
 		s.Bootstrap = &BootstrapJSON{Method: "residual bootstrap (whole spectra drawn within each experiment)", Replicates: r.Settings.Replicates, Resolved: iv.Replicates, Seed: r.Settings.Seed, Level: iv.Level}
@@ -545,8 +546,9 @@ func init() {
 	afterWrite = append(afterWrite, writeBandsAndIntervals)
 }
 
-// writeBandsAndIntervals writes bands.csv and intervals.csv (columns in
-// docs/constraints.md).
+// writeBandsAndIntervals writes uniqueness.csv and intervals.csv (columns
+// in docs/constraints.md). uniqueness.csv is also written as bands.csv, its
+// name before the rename, until 1.0 (CONTRACT.md).
 func writeBandsAndIntervals(r *Result, st *output.Stage) error {
 	rep := r.Constraints
 	if rep == nil || r.ALS == nil {
@@ -569,7 +571,11 @@ func writeBandsAndIntervals(r *Result, st *output.Stage) error {
 				t.Rows = append(t.Rows, []string{r.Names[j], "profile", exp(i), output.Float(tm), output.Float(r.ALS.C.At(i, j)), output.Float(band.MinProfile[i]), output.Float(band.MaxProfile[i])})
 			}
 		}
-		if err := st.Write("bands.csv", t.CSV()); err != nil {
+		csv := t.CSV()
+		if err := st.Write("uniqueness.csv", csv); err != nil {
+			return err
+		}
+		if err := st.Write("bands.csv", csv); err != nil {
 			return err
 		}
 	}
@@ -590,7 +596,7 @@ func writeBandsAndIntervals(r *Result, st *output.Stage) error {
 	return nil
 }
 
-// printConstraints adds the constraints, checks and bands to the table.
+// printConstraints adds the constraints, checks and uniqueness ranges to the table.
 func printConstraints(r *Result, w io.Writer) {
 	rep := r.Constraints
 	if rep == nil {
@@ -604,7 +610,7 @@ func printConstraints(r *Result, w io.Writer) {
 	}
 	if rep.Bands != nil {
 		for j, b := range rep.Bands.Bands {
-			fmt.Fprintf(w, "  %-12s feasible band %.4f – %.4f (solution %.4f)\n", r.Names[j], b.Min, b.Max, b.Value)
+			fmt.Fprintf(w, "  %-12s uniqueness range %.4f – %.4f of the signal (solution %.4f)\n", r.Names[j], b.Min, b.Max, b.Value)
 		}
 	} else if rep.BandsNote != "" {
 		fmt.Fprintf(w, "note: %s\n", rep.BandsNote)

@@ -7,6 +7,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"reflect"
 	"strings"
 	"testing"
 
@@ -256,8 +257,10 @@ func TestKnownSpectrumUnimodalAndSettings(t *testing.T) {
 	}
 }
 
-// Execute writes bands.csv and intervals.csv; the bootstrap is the same for
-// the same seed (determinism rule), and summary.json carries the bands.
+// Execute writes uniqueness.csv (and the same bytes as bands.csv, its old
+// name, until 1.0: CONTRACT.md) and intervals.csv; the bootstrap is the same
+// for the same seed (determinism rule), and summary.json carries the ranges
+// under uniqueness_ranges and the old key feasible_bands alike.
 func TestBandsAndIntervalsFiles(t *testing.T) {
 	dir := t.TempDir()
 	p := makeFirstOrder(1, 0, 2.5e-3, 0).write(t, dir, "run.csv", 1e-3, 6)
@@ -269,7 +272,7 @@ func TestBandsAndIntervalsFiles(t *testing.T) {
 			t.Fatal(err)
 		}
 		files := map[string][]byte{}
-		for _, name := range []string{"bands.csv", "intervals.csv", "summary.json"} {
+		for _, name := range []string{"uniqueness.csv", "bands.csv", "intervals.csv", "summary.json"} {
 			b, err := os.ReadFile(filepath.Join(s.Out, name))
 			if err != nil {
 				t.Fatal(err)
@@ -284,8 +287,14 @@ func TestBandsAndIntervalsFiles(t *testing.T) {
 	}
 	a, sa := run("a")
 	b, _ := run("b")
-	if string(a["intervals.csv"]) != string(b["intervals.csv"]) || string(a["bands.csv"]) != string(b["bands.csv"]) {
-		t.Error("same seed, different bands.csv or intervals.csv")
+	if string(a["intervals.csv"]) != string(b["intervals.csv"]) || string(a["uniqueness.csv"]) != string(b["uniqueness.csv"]) {
+		t.Error("same seed, different uniqueness.csv or intervals.csv")
+	}
+	if string(a["bands.csv"]) != string(a["uniqueness.csv"]) {
+		t.Error("bands.csv (old name, CONTRACT.md) differs from uniqueness.csv")
+	}
+	if !reflect.DeepEqual(sa.UniquenessRanges, sa.FeasibleBands) {
+		t.Errorf("uniqueness_ranges %+v, feasible_bands (old key, CONTRACT.md) %+v", sa.UniquenessRanges, sa.FeasibleBands)
 	}
 	if len(sa.FeasibleBands) != 2 || sa.Bootstrap == nil || sa.Bootstrap.Resolved != 8 {
 		t.Fatalf("summary bands %+v bootstrap %+v", sa.FeasibleBands, sa.Bootstrap)

@@ -31,6 +31,11 @@ func Execute(s *Settings, st Streams) (*Result, error) {
 	if s.Out == "" {
 		s.Out = "bandsolve-results"
 	}
+	if !s.Quiet && st.Err != nil {
+		for _, old := range s.RenamedUsed() {
+			fmt.Fprintln(st.Err, RenameNote(old))
+		}
+	}
 	out := s.Path(s.Out)
 	if err := output.Check(out, s.Force); err != nil {
 		return nil, err

@@ -157,7 +157,7 @@ func endProgress(log io.Writer) {
 	}
 }
 
-// stepCounter is for long loops of the pipeline (feasible bands,
+// stepCounter is for long loops of the pipeline (uniqueness ranges,
 // replicates): it announces the phase and returns a function to call with
 // the number of steps done. On anything but a live display it costs
 // nothing.

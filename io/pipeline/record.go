@@ -7,9 +7,11 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"maps"
 	"os"
 	"path/filepath"
 	"runtime"
+	"slices"
 	"strings"
 	"time"
 
@@ -61,6 +63,12 @@ func Keywords() []cmdfile.Keyword {
 	var ks []cmdfile.Keyword
 	for _, o := range Options() {
 		ks = append(ks, keyword(o))
+	}
+	for _, old := range slices.Sorted(maps.Keys(Renamed)) {
+		o, _ := Lookup(old)
+		k := keyword(o)
+		k.Name = old
+		ks = append(ks, k)
 	}
 	return ks
 }

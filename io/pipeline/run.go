@@ -73,8 +73,8 @@ type Result struct {
 	Warnings   []string
 	Notes      []string
 	Advice     []string
-	// Constraints: per-component constraints, their checks, feasible
-	// bands and bootstrap intervals (constraints.go).
+	// Constraints: per-component constraints, their checks, uniqueness
+	// ranges and bootstrap intervals (constraints.go).
 	Constraints *ConstraintReport
 }
 

@@ -8,6 +8,7 @@ package pipeline
 import (
 	"fmt"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -43,7 +44,7 @@ type Settings struct {
 	FitC0         bool
 	KStart        string
 	KFixed        string
-	Bands         string
+	Bands         string // --uniqueness (named --bands before 1.0)
 	Replicates    int
 	Seed          uint64
 	Init          string
@@ -66,6 +67,8 @@ type Settings struct {
 	ZeroRegions       []string
 	ClosureWeights    string
 	Checks            string
+
+	renamedUsed []string // old option names given (see Renamed)
 }
 
 // NewSettings returns the defaults.
@@ -105,8 +108,21 @@ type Option struct {
 // Options lists every setting in the order they are documented and recorded.
 func Options() []Option { return options }
 
-// Lookup finds an option by name.
+// Renamed maps each old option name to the name that replaced it. The old
+// names keep working, on the command line and in command files, until 1.0
+// (CONTRACT.md); the as-run record writes the new name.
+var Renamed = map[string]string{"bands": "uniqueness"}
+
+// RenameNote is the one line printed when an old name is used.
+func RenameNote(old string) string {
+	return fmt.Sprintf("note: --%s is now --%s (same values; the old name works until 1.0)", old, Renamed[old])
+}
+
+// Lookup finds an option by name (or by its name before a rename).
 func Lookup(name string) (Option, bool) {
+	if n, ok := Renamed[name]; ok {
+		name = n
+	}
 	for _, o := range options {
 		if o.Name == name {
 			return o, true
@@ -124,8 +140,16 @@ func (s *Settings) Set(name, value string) error {
 	if err := o.set(s, value); err != nil {
 		return fmt.Errorf("%s: %w", name, err)
 	}
+	if _, old := Renamed[name]; old && !slices.Contains(s.renamedUsed, name) {
+		s.renamedUsed = append(s.renamedUsed, name)
+	}
 	return nil
 }
+
+// RenamedUsed lists the old option names this run was given, for a note
+// on the terminal (never in the results: a rerun from the record uses the
+// new names and must give the same bytes).
+func (s *Settings) RenamedUsed() []string { return s.renamedUsed }
 
 // Get returns an option's values in text form (several for Multi options).
 func (s *Settings) Get(name string) []string {
@@ -317,7 +341,7 @@ var options = func() []Option {
 	sk5, gk5 := str(func(s *Settings) *string { return &s.KFixed })
 	add(opt("k-fixed", "1=4e-3", "rate constants held fixed, per step (number or text), in 1/s", false, true, sk5, gk5))
 	s18, g18 := choice(func(s *Settings) *string { return &s.Bands }, "on", "off")
-	add(opt("bands", "on|off", "compute feasible bands (rotational ambiguity) of each component", false, true, s18, g18))
+	add(opt("uniqueness", "on|off", "compute each component's uniqueness range: the smallest and largest share of the signal over every solution that fits as well and keeps the constraints", false, true, s18, g18))
 	sc1, gc1 := list(func(s *Settings) *[]string { return &s.NonNeg })
 	add(opt("nonneg", "COMPONENT=SIDE", "which side of a component is non-negative: both, profile, spectrum or none (COMPONENT is a number or all; repeatable)", true, true, func(s *Settings, v string) error {
 		if err := checkComponentSpec(checkSide)(s, v); err != nil {

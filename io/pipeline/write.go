@@ -51,6 +51,7 @@ func MakeSummary(r *Result) *Summary {
 		Points:                   m,
 		Axis:                     r.AxisName,
 		ComponentNames:           nonNil(r.Names),
+		UniquenessRanges:         []BandJSON{},
 		FeasibleBands:            []BandJSON{},
 		Advice:                   nonNil(r.Advice),
 		Notes:                    nonNil(r.Notes),

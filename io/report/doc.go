@@ -4,7 +4,7 @@
 //
 // The report is built from the folder's files only — summary.json,
 // spectra.csv, profiles.csv, singular_values.csv, iterations.csv and,
-// when present, efa.csv, bands.csv, kinetics.csv, intervals.csv,
+// when present, efa.csv, uniqueness.csv (bands.csv in older folders), kinetics.csv, intervals.csv,
 // demo_check.csv, maps.csv, the as-run record and the manifest — never from
 // a run's memory, so `bandsolve report OUT` rebuilds the very same bytes.
 // Every optional file is read tolerantly: a missing one removes its figure,

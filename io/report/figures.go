@@ -421,7 +421,7 @@ func efaFigure(f *Folder) (*Figure, error) {
 		Caption: "Singular values of the first spectra up to each time (forward, solid) and of the last ones from each time on (backward, dashed). A component appears where a new forward value rises out of the noise and disappears where its backward value sinks into it (Gampp et al. 1985; Maeder 1987)."}, nil
 }
 
-// spectraFigure: resolved spectra around a zero line, with feasible-band
+// spectraFigure: resolved spectra around a zero line, with uniqueness-range
 // and bootstrap envelopes when the files hold them.
 func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 	t := f.Spectra
@@ -440,21 +440,24 @@ func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 	}
 	p := newPlot("", ylabel)
 	ax.apply(p)
-	var legend []LegendItem
+	var legend, shades []LegendItem
 	envelopes := 0
 	for k, j := range comps {
 		name := t.Header[j]
 		c := componentColour(k)
 		if bx, lo, hi := longEnvelope(f.Bands, name, "spectrum", "at_min", "at_max"); bx != nil {
 			band(p, bx, lo, hi, tint(c, 0.72))
+			shades = append(shades, LegendItem{Label: name + " uniqueness range", Colour: tint(c, 0.72), Fill: true})
 			envelopes++
 		}
 		if ix, lo, hi := longEnvelope(f.Intervals, name, "spectrum", "low", "high"); ix != nil {
 			band(p, ix, lo, hi, tint(c, 0.5))
+			shades = append(shades, LegendItem{Label: name + " interval", Colour: tint(c, 0.5), Fill: true})
 			envelopes++
 		}
 		if lo, hi := bounds(t, name, ""); lo >= 0 {
 			band(p, x, t.Col(lo), t.Col(hi), tint(c, 0.6))
+			shades = append(shades, LegendItem{Label: name + " bounds", Colour: tint(c, 0.6), Fill: true})
 			envelopes++
 		}
 	}
@@ -478,16 +481,16 @@ func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 	}
 	if envelopes > 0 {
 		cap += " Shaded: " + envelopeWords(f) + "."
-		legend = append(legend, LegendItem{Label: "feasible range / interval", Colour: tint(okabeBlue, 0.6), Fill: true})
+		legend = append(legend, shades...)
 	}
 	return &Figure{ID: "fig-spectra", Title: title, Caption: cap, SVG: svg, drawing: dr, Legend: legend}, nil
 }
 
-// longEnvelope reads the long tables bands.csv and intervals.csv
+// longEnvelope reads the long tables uniqueness.csv and intervals.csv
 // (component, side, experiment, position, …, low column, high column): the
 // rows of one component and side, first experiment only, as position and
-// the pointwise lower and upper of the two bound columns. For feasible
-// bands these are the solutions at the smallest and largest contribution;
+// the pointwise lower and upper of the two bound columns. For uniqueness
+// ranges these are the solutions at the smallest and largest share;
 // the band between them is drawn.
 func longEnvelope(t *Table, comp, side, loName, hiName string) (x, lo, hi []float64) {
 	if t == nil {
@@ -555,7 +558,7 @@ func profilesFigure(f *Folder) (*Figure, error) {
 	}
 	p := newPlot("time / s", ylabel)
 	fit := f.kineticCurves()
-	var legend []LegendItem
+	var legend, shades []LegendItem
 	envelopes := 0
 	// Segments per experiment, so lines never join two experiments.
 	segments := func(col []float64, draw func(x, y []float64) error) error {
@@ -577,10 +580,12 @@ func profilesFigure(f *Folder) (*Figure, error) {
 		name := t.Header[j]
 		if bx, lo, hi := longEnvelope(f.Bands, name, "profile", "at_min", "at_max"); bx != nil {
 			band(p, bx, lo, hi, tint(c, 0.72))
+			shades = append(shades, LegendItem{Label: name + " uniqueness range", Colour: tint(c, 0.72), Fill: true})
 			envelopes++
 		}
 		if ix, lo, hi := longEnvelope(f.Intervals, name, "profile", "low", "high"); ix != nil {
 			band(p, ix, lo, hi, tint(c, 0.5))
+			shades = append(shades, LegendItem{Label: name + " interval", Colour: tint(c, 0.5), Fill: true})
 			envelopes++
 		}
 		col := t.Col(j)
@@ -628,7 +633,7 @@ func profilesFigure(f *Folder) (*Figure, error) {
 	}
 	if envelopes > 0 {
 		cap += " Shaded: " + envelopeWords(f) + "."
-		legend = append(legend, LegendItem{Label: "feasible range / interval", Colour: tint(okabeBlue, 0.6), Fill: true})
+		legend = append(legend, shades...)
 	}
 	if len(fit) > 0 {
 		cap += " Points: resolved; lines: the kinetic model fitted to them."
@@ -642,7 +647,7 @@ func profilesFigure(f *Folder) (*Figure, error) {
 func envelopeWords(f *Folder) string {
 	var w []string
 	if f.Bands != nil {
-		w = append(w, "pale, the feasible band — between the solutions of smallest and largest signal contribution that still fit the data and keep every constraint (Tauler 2001)")
+		w = append(w, "pale, the uniqueness range — between the solutions with the smallest and largest share of the signal that still fit the data and keep every constraint (the method of Tauler 2001)")
 	}
 	if f.Intervals != nil {
 		w = append(w, "darker, the resampling interval (intervals.csv)")

@@ -315,12 +315,12 @@ func findings(f *Folder) (find, checks []string) {
 			checks = append(checks, fmt.Sprintf("Alternating least squares did not converge within %d iterations: the last spectra and profiles are shown, but rerun with a higher --max-iter before relying on them.", s.Iterations))
 		}
 	}
-	for _, b := range s.FeasibleBands {
+	for _, b := range s.Uniqueness() {
 		w := b.Max - b.Min
 		if w <= 0.05*math.Max(b.Max, 1e-12) {
-			find = append(find, fmt.Sprintf("%s is essentially unique within the constraints: every rotation that still fits gives it a signal contribution between %s and %s.", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
+			find = append(find, fmt.Sprintf("%s is essentially unique within the constraints: every rotation that still fits gives it a share of the signal between %s and %s.", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
 		} else {
-			find = append(find, fmt.Sprintf("%s is not unique: rotations that fit the data and keep every constraint give it a signal contribution from %s to %s.", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
+			find = append(find, fmt.Sprintf("%s is not unique: rotations that fit the data and keep every constraint give it a share of the signal from %s to %s.", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
 		}
 	}
 	if k := s.Kinetics; k != nil && len(k.RateConstants) > 0 {

@@ -28,7 +28,7 @@ type Folder struct {
 	Rank       *Table                     // rank.csv
 	Iterations *Table                     // iterations.csv
 	EFA        *Table                     // efa.csv
-	Bands      *Table                     // bands.csv
+	Bands      *Table                     // uniqueness.csv (bands.csv in folders before its rename)
 	Kinetics   *Table                     // kinetics.csv
 	Intervals  *Table                     // intervals.csv (bootstrap), if a run wrote one
 	DemoCheck  *Table                     // demo_check.csv
@@ -62,7 +62,7 @@ func init() {
 		"explained_variance_percent", "noise_lack_of_fit_percent", "iterations", "converged", "noise_sigma",
 		"noise_source", "noise_edge", "rank_reason", "rank_criteria", "difference_rank_estimate", "svd_method",
 		"compressed_iterations", "initial_estimate", "closure", "spectra", "points", "axis", "experiments",
-		"component_names", "feasible_bands", "kinetics", "advice", "notes", "warnings", "constraints", "constraint_checks"} {
+		"component_names", "uniqueness_ranges", "feasible_bands", "feasible_bands_note", "kinetics", "advice", "notes", "warnings", "constraints", "constraint_checks"} {
 		knownKeys[k] = true
 	}
 }
@@ -175,7 +175,9 @@ func Load(dir string) (*Folder, error) {
 	f.Rank = table("rank.csv")
 	f.Iterations = table("iterations.csv")
 	f.EFA = table("efa.csv")
-	f.Bands = table("bands.csv")
+	if f.Bands = table("uniqueness.csv"); f.Bands == nil {
+		f.Bands = table("bands.csv")
+	}
 	f.Kinetics = table("kinetics.csv")
 	f.Intervals = table("intervals.csv")
 	f.DemoCheck = table("demo_check.csv")

@@ -246,7 +246,7 @@ func TestReportFiguresForEverythingComputed(t *testing.T) {
 			}
 		}
 		if all {
-			for _, w := range []string{"A -&gt; B", "half-life 69.3 s", "species_2 is not unique", "species_1 is essentially unique", "feasible range / interval", "the feasible band", "resampling interval", "kind single-beam", "sha256", "inputs[0].file"} {
+			for _, w := range []string{"A -&gt; B", "half-life 69.3 s", "species_2 is not unique", "species_1 is essentially unique", "species_1 uniqueness range", "the uniqueness range", "resampling interval", "kind single-beam", "sha256", "inputs[0].file"} {
 				if !strings.Contains(s, w) {
 					t.Errorf("report lacks %q", w)
 				}

@@ -96,11 +96,11 @@ nav a { color: #0072b2; margin-right: .8rem; }
 {{range .RateConstants}}<tr><td>{{.Step}}</td><td class="n">{{num .K}} {{unit .Unit}}</td><td class="n">{{num .StdErr}} {{unit .Unit}}</td><td class="n">{{if gt .HalfLife 0.0}}{{num .HalfLife}}{{else}}–{{end}}</td></tr>
 {{end}}</table>
 <p class="small">{{if .Method}}Rate constants from the fit to the {{.Method}}. {{end}}{{if .MapSource}}Species ↔ components: {{range $i, $m := .Map}}{{if $i}}, {{end}}{{$m.Name}} = component {{$m.Component}}{{end}} ({{.MapSource}}). {{end}}{{.ConcentrationUnit}}</p>{{end}}{{end}}
-{{if .S.FeasibleBands}}
-<h3>Feasible bands (signal contribution ‖c sᵀ‖ / ‖C Sᵀ‖)</h3>
+{{if .S.Uniqueness}}
+<h3>Uniqueness ranges (share of the signal ‖c sᵀ‖ / ‖C Sᵀ‖)</h3>
 <table>
-<tr><th>component</th><th>minimum</th><th>maximum</th></tr>
-{{range .S.FeasibleBands}}<tr><td>{{.Component}}</td><td class="n">{{num .Min}}</td><td class="n">{{num .Max}}</td></tr>
+<tr><th>component</th><th>smallest share</th><th>largest share</th></tr>
+{{range .S.Uniqueness}}<tr><td>{{.Component}}</td><td class="n">{{num .Min}}</td><td class="n">{{num .Max}}</td></tr>
 {{end}}</table>{{end}}
 {{if .Extra}}
 <h3>More results</h3>
