@@ -1,6 +1,10 @@
 package mcr
 
-import "fmt"
+import (
+	"fmt"
+
+	"gonum.org/v1/gonum/mat"
+)
 
 // ConstraintCheck is what one group of constraints costs in fit: the
 // resolution is repeated without it, from the constrained solution, and the
@@ -14,6 +18,9 @@ type ConstraintCheck struct {
 	ResidualSSWithout  float64
 	Iterations         int // of the refit
 	ComponentsAffected []int
+	// Restarted: the constrained fit restarted from the freer solution
+	// reached a lower residual than the resolution had; With is that one.
+	Restarted bool
 }
 
 // CheckConstraints refits without each active group of constraints in opt:
@@ -77,6 +84,23 @@ func CheckConstraints(d Data, fit *Result, opt Options, maxIter int) ([]Constrai
 		// tolerance) means the constraint costs nothing.
 		if cc.ResidualSSWithout > cc.ResidualSSWith {
 			cc.ResidualSSWithout, cc.Without = cc.ResidualSSWith, cc.With
+		} else {
+			// Before the gap is blamed on the constraint, try to reach the
+			// freer fit's level under it: ALS with the constraint again,
+			// started from the freer solution projected onto it (negative
+			// profile values set to zero). A lower constrained fit means the
+			// first one was a local minimum, not the constraint's price.
+			c0 := mat.DenseCopyOf(res.C)
+			clampColumns(c0, boolsOr(opt.NonNegProfiles, k, true))
+			ro := opt
+			ro.stopAtRoundingFloor = false
+			if again, err := Resolve(d, c0, ro); err == nil && again.ResidualSS < cc.ResidualSSWith {
+				cc.ResidualSSWith, cc.With = again.ResidualSS, again.LackOfFitPercent
+				cc.Restarted = true
+				if cc.ResidualSSWithout > cc.ResidualSSWith {
+					cc.ResidualSSWithout, cc.Without = cc.ResidualSSWith, cc.With
+				}
+			}
 		}
 		out = append(out, cc)
 	}

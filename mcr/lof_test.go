@@ -128,7 +128,7 @@ func TestReportedLackOfFitIsDirect(t *testing.T) {
 // D → E (k₃ = 0.03), Bateman's solution for the consecutive pair (Bateman
 // 1910): five species whose profiles span only four dimensions, since
 // a + b + c = d + e = 1.
-func twoSubsystems(rng *rand.Rand, n, m int) (*mat.Dense, *mat.Dense, *mat.Dense) {
+func twoSubsystems(_ *rand.Rand, n, m int) (*mat.Dense, *mat.Dense, *mat.Dense) {
 	k1, k2, k3 := 0.05, 0.02, 0.03
 	c := mat.NewDense(n, 5, nil)
 	for i := 0; i < n; i++ {

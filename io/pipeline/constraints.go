@@ -445,14 +445,23 @@ func judgeChecks(r *Result) {
 	sigma2 := r.Rank.Sigma * r.Rank.Sigma
 	for _, c := range r.Constraints.Checks {
 		rise := c.ResidualSSWith - c.ResidualSSWithout
+		// What the constraint can pin: one value per row for closure, one
+		// per row (channel) for each component it applies to otherwise.
 		dof := float64(n)
-		if strings.Contains(c.Name, "spectra") {
-			dof = float64(m)
+		if c.Name != "closure" {
+			per := n
+			if strings.Contains(c.Name, "spectra") {
+				per = m
+			}
+			dof = float64(per * max(1, len(c.ComponentsAffected)))
+		}
+		if c.Restarted {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (lack of fit %.3g %%, the resolution's %.3g %%): found from the fit without %s; the resolution stopped in a local minimum, try another --init or --seed", c.With, r.LackOfFit, c.Name))
 		}
 		if rise <= 4*sigma2*dof || c.With <= 1.05*c.Without {
 			continue
 		}
-		msg := fmt.Sprintf("%s raises the lack of fit from %.3g %% to %.3g %%: the data disagree with it", c.Name, c.Without, c.With)
+		msg := fmt.Sprintf("%s raises the lack of fit from %.3g %% to %.3g %%, also when started from the fit without it: the data disagree with it", c.Name, c.Without, c.With)
 		if c.Name == "closure" {
 			msg += "; the total of the concentrations is not constant (sampling, dilution, evaporation, a species left out?): try --closure off, or one total per experiment"
 		}

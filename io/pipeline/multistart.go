@@ -1,6 +1,8 @@
 package pipeline
 
 import (
+	"fmt"
+
 	"github.com/bandsolve/bandsolve/mcr"
 	"gonum.org/v1/gonum/mat"
 )
@@ -36,8 +38,36 @@ func startALS(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options) (*mcr.Re
 	alt, err := mcr.Resolve(data, ce, opt)
 	if err == nil && alt.ResidualSS < (1-switchMargin)*best.ResidualSS {
 		r.Init = "evolving factor analysis windows (a better final fit than from " + r.Init + ")"
-		return alt, nil
+		best = alt
+	} else {
+		r.Init += " (a better final fit than from evolving factor analysis windows)"
 	}
-	r.Init += " (a better final fit than from evolving factor analysis windows)"
-	return best, nil
+	return moreStarts(r, data, best, opt), nil
+}
+
+// moreStarts runs mcr.SearchStarts (seeded random rotations of the SVD
+// basis) when the best of the two starts still fits worse than the noise
+// allows or lost a component; the seed is --seed, so runs repeat exactly.
+func moreStarts(r *Result, data mcr.Data, best *mcr.Result, opt mcr.Options) *mcr.Result {
+	n, m := r.D.Dims()
+	k := r.Components
+	if r.Factors == nil || r.Factors.U == nil || r.Rank == nil {
+		return best
+	}
+	if _, cols := r.Factors.U.Dims(); cols < k {
+		return best
+	}
+	noiseSS := 0.0
+	if dof := float64(n*m - k*(n+m-k)); dof > 0 {
+		noiseSS = r.Rank.Sigma * r.Rank.Sigma * dof
+	}
+	if _, ok := data.(mcr.Weighted); ok {
+		noiseSS = 0 // the noise estimate is in plain units, the residual weighted
+	}
+	got, improved, err := mcr.SearchStarts(data, best, opt, mcr.StartSearch{Basis: r.Factors.U, Seed: r.Settings.Seed, NoiseSS: noiseSS})
+	if err != nil || improved == 0 {
+		return best
+	}
+	r.Init += fmt.Sprintf("; %d of the seeded random starts fitted better, the best kept", improved)
+	return got
 }
