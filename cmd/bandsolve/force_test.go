@@ -2,6 +2,7 @@ package main
 
 import (
 	"os"
+	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -38,5 +39,34 @@ func TestForceNeverDeletesInputsOrOthersFiles(t *testing.T) {
 	sameHashes(t, "refused --force", before, hashTree(t, w, ""))
 	if after := hashTree(t, w, ""); len(after) != len(before) {
 		t.Errorf("files in the project: %d before, %d after", len(before), len(after))
+	}
+}
+
+// A closed stdout (bandsolve resolve … | head -1) used to kill the run
+// with SIGPIPE before its commit: exit 141, no results. The summary is now
+// printed after the commit and a broken pipe ends nothing: exit 0, results
+// in place, no staging folder left.
+func TestClosedStdoutKeepsResults(t *testing.T) {
+	w := t.TempDir()
+	out := filepath.Join(w, "out")
+	cmd := exec.Command(os.Args[0], "-test.run=^TestMainProcess$", "--", "resolve", "--data", filepath.Join(badDir, "good.csv"), "--out", out)
+	cmd.Env = append(os.Environ(), "BANDSOLVE_TEST_MAIN=1")
+	stdout, err := cmd.StdoutPipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	stdout.Close() // the reader is gone before anything is written
+	err = cmd.Wait()
+	if err != nil {
+		t.Fatalf("exit: %v, want 0", err)
+	}
+	if _, err := os.Stat(filepath.Join(out, "summary.json")); err != nil {
+		t.Errorf("results missing: %v", err)
+	}
+	if ents, _ := os.ReadDir(w); len(ents) != 1 {
+		t.Errorf("beside the results: %d entries, want only out", len(ents))
 	}
 }

@@ -37,7 +37,11 @@ func init() {
 	// An interrupted run removes its staging folder, so the output folder
 	// keeps its earlier results and no half-written file remains.
 	ch := make(chan os.Signal, 1)
-	signal.Notify(ch, os.Interrupt, syscall.SIGTERM)
+	signal.Notify(ch, os.Interrupt, syscall.SIGTERM, syscall.SIGHUP)
+	// A closed stdout (bandsolve … | head -1) makes writes fail with EPIPE
+	// instead of killing the process: results are committed before the
+	// summary is printed, and the run exits 0 whether or not it was read.
+	signal.Ignore(syscall.SIGPIPE)
 	go func() {
 		sig := <-ch
 		output.Interrupt()

@@ -311,6 +311,8 @@ func TestInterrupt(t *testing.T) {
 	out := filepath.Join(root, "demo")
 	// Earlier results, which the interrupted run was told to replace.
 	writeText(t, filepath.Join(out, "summary.json"), "{\"earlier\": true}\n")
+	// The manifest marks the folder as bandsolve's, which --force requires.
+	writeText(t, filepath.Join(out, "manifest.json"), "{\"tool\": \"bandsolve\"}\n")
 	cmd := exec.Command(os.Args[0], "-test.run=^TestMainProcess$", "--", "demo", "--out", out, "--force", "--quiet")
 	cmd.Env = append(os.Environ(), "BANDSOLVE_TEST_MAIN=1")
 	var stderr bytes.Buffer
@@ -358,8 +360,8 @@ wait:
 	if err != nil || string(after) != "{\"earlier\": true}\n" {
 		t.Errorf("earlier results changed by the interrupted run: %q (%v)", after, err)
 	}
-	if ents, _ := os.ReadDir(out); len(ents) != 1 {
-		t.Errorf("the output folder holds %d entries, want only the earlier file", len(ents))
+	if ents, _ := os.ReadDir(out); len(ents) != 2 {
+		t.Errorf("the output folder holds %d entries, want only the earlier two files", len(ents))
 	}
 }
 

@@ -95,3 +95,23 @@ func TestStageMakesMissingParents(t *testing.T) {
 		t.Errorf("committed file: %q, %v", b, err)
 	}
 }
+
+// A read-only output folder cannot be replaced: --force fails up front,
+// non-zero, and leaves nothing beside it (it used to return 0 and leave
+// the earlier results in a .old folder).
+func TestForceOnReadOnlyFolder(t *testing.T) {
+	if os.Geteuid() == 0 {
+		t.Skip("root may remove files from any folder")
+	}
+	w := t.TempDir()
+	out := filepath.Join(w, "out")
+	mustWrite(t, filepath.Join(out, ManifestName), `{"tool": "bandsolve"}`)
+	os.Chmod(out, 0o555)
+	t.Cleanup(func() { os.Chmod(out, 0o755) })
+	if _, err := NewStage(out, true); err == nil || !strings.Contains(err.Error(), "--force cannot remove the earlier results") {
+		t.Errorf("read-only folder with --force: %v", err)
+	}
+	if ents, _ := os.ReadDir(w); len(ents) != 1 {
+		t.Errorf("beside the output: %d entries", len(ents))
+	}
+}

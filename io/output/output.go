@@ -23,6 +23,7 @@ type Stage struct {
 	Dir   string // staging folder beside it
 	Force bool
 	files []string
+	alive *os.File // the staging folder, locked while the run lives (see cleanStale)
 }
 
 // ErrExists says the output folder holds earlier results.
@@ -80,6 +81,9 @@ func replaceable(out, clean string, st os.FileInfo, force bool) error {
 	}
 	if !Made(clean) {
 		return fmt.Errorf("%s: holds files bandsolve did not write (it has no %s of bandsolve); --force replaces only an output folder of bandsolve or an empty folder: choose another --out", out, ManifestName)
+	}
+	if err := removable(clean); err != nil {
+		return fmt.Errorf("%s: --force cannot remove the earlier results (%v); make the folder writable, or choose another --out", out, unwrap(err))
 	}
 	return nil
 }
@@ -183,7 +187,9 @@ func checkNew(out, clean string) error {
 }
 
 func writable(dir, out string) error {
-	f, err := os.CreateTemp(dir, ".bandsolve-probe-*")
+	// Named like a staging folder of out, so that the next run's tidy
+	// removes it if this process is killed before it does.
+	f, err := os.CreateTemp(dir, stagePrefix(out)+"probe-*")
 	if err != nil {
 		return fmt.Errorf("%s: cannot write in %s (%v); choose a writable --out", out, dir, unwrap(err))
 	}
@@ -210,12 +216,15 @@ func NewStage(out string, force bool) (*Stage, error) {
 	if err := os.MkdirAll(filepath.Dir(clean), 0o755); err != nil {
 		return nil, fmt.Errorf("%s: cannot make the folders above it: %w", out, unwrap(err))
 	}
+	if err := tidy(clean); err != nil {
+		return nil, err
+	}
 	// Creating and tracking the folder is one step for Interrupt, which
 	// takes the same lock: a signal in between would otherwise leave an
 	// untracked staging folder behind.
 	activeMu.Lock()
 	defer activeMu.Unlock()
-	dir, err := os.MkdirTemp(filepath.Dir(clean), "."+filepath.Base(clean)+".partial-*")
+	dir, err := os.MkdirTemp(filepath.Dir(clean), stagePrefix(clean)+"*")
 	if err != nil {
 		return nil, fmt.Errorf("%s: cannot create a staging folder: %w", out, err)
 	}
@@ -226,6 +235,13 @@ func NewStage(out string, force bool) (*Stage, error) {
 		return nil, fmt.Errorf("%s: %w", out, err)
 	}
 	s := &Stage{Final: clean, Dir: dir, Force: force}
+	// The lock says "a live run owns this folder": cleanStale leaves it be.
+	if s.alive, err = os.Open(dir); err == nil {
+		if !tryLock(s.alive) {
+			s.alive.Close()
+			s.alive = nil
+		}
+	}
 	active[s] = true // track(s), under the lock already held
 	return s, nil
 }
@@ -277,37 +293,14 @@ func (s *Stage) Write(name string, data []byte) error {
 }
 
 // Abort removes the staging folder, leaving the output folder as it was.
-func (s *Stage) Abort() { untrack(s); os.RemoveAll(s.Dir) }
+func (s *Stage) Abort() { untrack(s); os.RemoveAll(s.Dir); s.release() }
 
-// Commit replaces the output folder by the staging folder. Earlier results
-// are moved aside first and deleted only once the new ones are in place.
-func (s *Stage) Commit() error {
-	committing.Lock()
-	defer committing.Unlock()
-	defer untrack(s)
-	var old string
-	if st, err := os.Lstat(s.Final); err == nil {
-		if err := replaceable(s.Final, s.Final, st, s.Force); err != nil {
-			s.Abort()
-			return err
-		}
-		old = s.Dir + ".old"
-		if err := os.Rename(s.Final, old); err != nil {
-			s.Abort()
-			return fmt.Errorf("%s: cannot move earlier results aside: %w", s.Final, err)
-		}
+// release drops the staging folder's liveness lock.
+func (s *Stage) release() {
+	if s.alive != nil {
+		s.alive.Close()
+		s.alive = nil
 	}
-	if err := os.Rename(s.Dir, s.Final); err != nil {
-		if old != "" {
-			os.Rename(old, s.Final)
-		}
-		s.Abort()
-		return fmt.Errorf("%s: cannot move results into place: %w", s.Final, err)
-	}
-	if old != "" {
-		os.RemoveAll(old)
-	}
-	return nil
 }
 
 // Float formats a number for result files: 10 significant digits, enough

@@ -57,7 +57,13 @@ func Execute(s *Settings, st Streams) (*Result, error) {
 		stage.Abort()
 		return nil, err
 	}
-	return r, stage.Commit()
+	// Printing comes after the commit: a closed stdout (| head -1) or a
+	// signal while printing can no longer lose the results.
+	if err := stage.Commit(); err != nil {
+		return nil, err
+	}
+	printSummary(r, st)
+	return r, nil
 }
 
 // inputPaths lists every file or folder the settings name for reading.
@@ -99,19 +105,29 @@ func finish(r *Result, stage *output.Stage, extra Extra, st Streams) error {
 			return err
 		}
 	}
-	s := r.Settings
-	switch {
-	case s.JSON:
+	if r.Settings.JSON {
+		// Made now so that a summary encoding cannot fail after the commit.
 		b, err := output.JSON(MakeSummary(r))
 		if err != nil {
 			return err
 		}
-		st.Out.Write(b)
+		r.summaryJSON = b
+	}
+	return nil
+}
+
+// printSummary prints the summary table or JSON of a committed run.
+// Write errors are ignored: the results are in place whatever happens to
+// stdout.
+func printSummary(r *Result, st Streams) {
+	s := r.Settings
+	switch {
+	case s.JSON:
+		st.Out.Write(r.summaryJSON)
 	case !s.Quiet:
 		PrintTable(r, st.Out)
 		fmt.Fprintf(st.Out, "results        %s\n", s.Out)
 	}
-	return nil
 }
 
 // afterWrite are the writers other files of the package register (report,
@@ -175,6 +191,11 @@ func Demo(out string, force bool, quiet, asJSON bool, st Streams) (*Result, erro
 	if err := finish(r, stage, nil, st); err != nil {
 		return fail(err)
 	}
+	if err := stage.Commit(); err != nil {
+		return nil, err
+	}
+	s.Dir = ""
+	printSummary(r, st)
 	if !quiet && !asJSON {
 		fmt.Fprintf(st.Out, "\ndemo: invented A → B → C hydrolysis in an ATR cell (k1 = %g /s, k2 = %g /s); resolved vs truth:\n", truth.K1, truth.K2)
 		for _, row := range check.Rows {
@@ -183,8 +204,7 @@ func Demo(out string, force bool, quiet, asJSON bool, st Streams) (*Result, erro
 		printDemoKinetics(r, []float64{truth.K1, truth.K2}, st.Out)
 		fmt.Fprintf(st.Out, "try: go run ./cmd/bandsolve resolve --data %s/input/series.csv --kind single-beam --blank %s/input/blank.csv --pre %d --model 'A -> B -> C' --t0 %g --out my-run\n", out, out, truth.Pre, truth.T0)
 	}
-	s.Dir = ""
-	return r, stage.Commit()
+	return r, nil
 }
 
 // compareWithTruth matches each true species to its best resolved component.

@@ -39,6 +39,7 @@ type Result struct {
 	Settings    *Settings
 	Started     time.Time // when Run began (for the manifest)
 	Supplied    []string  // files the command staged before the results (the demo's data)
+	summaryJSON []byte    // summary printed with --json, made before the commit
 	Experiments []*Experiment
 	AxisName    string
 	Axis        []float64

@@ -1,0 +1,291 @@
+package output
+
+import (
+	"errors"
+	"fmt"
+	"io/fs"
+	"os"
+	"path/filepath"
+	"strings"
+	"sync"
+	"time"
+)
+
+// The commit, safe against kill -9 and a second run at any instant
+// (docs/security.md):
+//
+//  1. every staged file and folder is flushed to disk (fsync), so a crash
+//     after the rename cannot leave the new names pointing at empty files;
+//  2. under an exclusive lock on PARENT/.OUT.lock (flock; a second run
+//     waits its turn), a swap a killed run left half done is completed or
+//     rolled back (tidy), and the output folder is checked again;
+//  3. with no output folder, one rename puts the stage in place; with one,
+//     renameat2(RENAME_EXCHANGE) swaps the two folders in one step, so OUT
+//     always holds either the earlier or the new results, complete. Where
+//     the system has no exchange, the two renames are recorded first in
+//     PARENT/.OUT.swap, which the next run reads to complete or roll back;
+//  4. the parent folder is flushed, and the earlier results removed.
+
+// started is when this process began: a staging folder not touched since
+// then, and whose run holds no lock on it, belongs to a dead run.
+var started = time.Now()
+
+// exchange is renameExchange; a variable so that a test can take the
+// two-step path.
+var exchange = renameExchange
+
+// Commit replaces the output folder by the staging folder.
+func (s *Stage) Commit() error {
+	committing.Lock()
+	defer committing.Unlock()
+	defer untrack(s)
+	defer s.release()
+	fail := func(err error) error { os.RemoveAll(s.Dir); return err }
+	// Flushing needs no lock: the stage is this run's alone.
+	if err := syncTree(s.Dir); err != nil {
+		return fail(fmt.Errorf("%s: cannot flush the results to disk: %w", s.Final, err))
+	}
+	unlock, err := lockParent(s.Final)
+	if err != nil {
+		return fail(err)
+	}
+	defer unlock()
+	if err := recoverSwap(s.Final); err != nil {
+		return fail(err)
+	}
+	parent := filepath.Dir(s.Final)
+	st, err := os.Lstat(s.Final)
+	if errors.Is(err, os.ErrNotExist) {
+		if err := os.Rename(s.Dir, s.Final); err != nil {
+			return fail(fmt.Errorf("%s: cannot move results into place: %w", s.Final, unwrap(err)))
+		}
+		return syncDir(parent)
+	}
+	if err != nil {
+		return fail(fmt.Errorf("%s: %w", s.Final, unwrap(err)))
+	}
+	if err := replaceable(s.Final, s.Final, st, s.Force); err != nil {
+		return fail(err)
+	}
+	if err := exchange(s.Dir, s.Final); err == nil {
+		// The stage's name now holds the earlier results.
+		syncDir(parent)
+		os.RemoveAll(s.Dir)
+		return nil
+	}
+	return s.swapInTwoSteps()
+}
+
+// swapInTwoSteps moves the earlier results aside and the stage in, having
+// recorded both names in the swap file so that the next run can finish or
+// undo a swap cut short (recoverSwap).
+func (s *Stage) swapInTwoSteps() error {
+	old := s.Dir + ".old"
+	parent := filepath.Dir(s.Final)
+	j := swapPath(s.Final)
+	rec := filepath.Base(s.Dir) + "\n" + filepath.Base(old) + "\n"
+	if err := writeSynced(j, []byte(rec)); err != nil {
+		os.RemoveAll(s.Dir)
+		return fmt.Errorf("%s: cannot record the swap in %s: %w", s.Final, j, unwrap(err))
+	}
+	syncDir(parent)
+	if err := os.Rename(s.Final, old); err != nil {
+		os.Remove(j)
+		os.RemoveAll(s.Dir)
+		return fmt.Errorf("%s: cannot move earlier results aside: %w", s.Final, unwrap(err))
+	}
+	if err := os.Rename(s.Dir, s.Final); err != nil {
+		os.Rename(old, s.Final)
+		os.Remove(j)
+		os.RemoveAll(s.Dir)
+		return fmt.Errorf("%s: cannot move results into place: %w", s.Final, unwrap(err))
+	}
+	syncDir(parent)
+	os.Remove(j)
+	syncDir(parent)
+	os.RemoveAll(old)
+	return nil
+}
+
+func stagePrefix(final string) string { return "." + filepath.Base(final) + ".partial-" }
+func swapPath(final string) string {
+	return filepath.Join(filepath.Dir(final), "."+filepath.Base(final)+".swap")
+}
+
+// recoverSwap finishes or rolls back a two-step swap that a killed run
+// recorded. Call it holding the parent lock: then no live run is swapping.
+// The record is not trusted beyond naming two staging folders of final.
+func recoverSwap(final string) error {
+	j := swapPath(final)
+	b, err := os.ReadFile(j)
+	if errors.Is(err, os.ErrNotExist) {
+		return nil
+	}
+	if err != nil {
+		return fmt.Errorf("%s: cannot read %s: %w", final, j, unwrap(err))
+	}
+	names := strings.Fields(string(b))
+	prefix := stagePrefix(final)
+	if len(names) != 2 || names[1] != names[0]+".old" || !strings.HasPrefix(names[0], prefix) || strings.ContainsAny(names[0], `/\`) {
+		return fmt.Errorf("%s: %s is not a swap record of bandsolve; remove it if no bandsolve run is writing here", final, j)
+	}
+	parent := filepath.Dir(final)
+	stage, old := filepath.Join(parent, names[0]), filepath.Join(parent, names[1])
+	exists := func(p string) bool { _, err := os.Lstat(p); return err == nil }
+	switch {
+	case !exists(final) && exists(stage):
+		// Killed between the two renames: the stage was complete.
+		if err = os.Rename(stage, final); err == nil {
+			err = os.RemoveAll(old)
+		}
+	case !exists(final) && exists(old):
+		err = os.Rename(old, final)
+	case exists(old):
+		// Both renames were done; the earlier results were still to go.
+		err = os.RemoveAll(old)
+	default:
+		// Killed before the first rename: OUT is as it was.
+		err = os.RemoveAll(stage)
+	}
+	if err != nil {
+		return fmt.Errorf("%s: cannot finish the swap a stopped run left (%s): %w", final, j, unwrap(err))
+	}
+	syncDir(parent)
+	os.Remove(j)
+	return syncDir(parent)
+}
+
+// tidy, before a run stages, finishes a swap a killed run left and removes
+// the staging folders of dead runs: older than this process, and not
+// locked by a live one.
+func tidy(final string) error {
+	unlock, err := lockParent(final)
+	if err != nil {
+		return err
+	}
+	defer unlock()
+	if err := recoverSwap(final); err != nil {
+		return err
+	}
+	parent := filepath.Dir(final)
+	ents, err := os.ReadDir(parent)
+	if err != nil {
+		return nil
+	}
+	for _, e := range ents {
+		if !strings.HasPrefix(e.Name(), stagePrefix(final)) || !(e.IsDir() || e.Type().IsRegular()) {
+			continue
+		}
+		p := filepath.Join(parent, e.Name())
+		if info, err := e.Info(); err != nil || !info.ModTime().Before(started) {
+			continue
+		}
+		if e.Type().IsRegular() {
+			// A write probe of Check (output.go) that a kill left behind.
+			os.Remove(p)
+			continue
+		}
+		if f, err := os.Open(p); err == nil {
+			dead := tryLock(f)
+			f.Close()
+			if dead {
+				os.RemoveAll(p)
+			}
+		}
+	}
+	return nil
+}
+
+// lockParent takes the exclusive lock of final's parent folder, waiting
+// for another run to finish its commit. The lock file is removed on unlock;
+// a run that locked a file just removed tries again.
+func lockParent(final string) (unlock func(), err error) {
+	p := filepath.Join(filepath.Dir(final), "."+filepath.Base(final)+".lock")
+	for try := 0; try < 100; try++ {
+		f, err := openNoFollow(p)
+		if err != nil {
+			return nil, fmt.Errorf("%s: cannot create the lock file %s: %w", final, p, unwrap(err))
+		}
+		if err := lock(f); err != nil {
+			f.Close()
+			return nil, fmt.Errorf("%s: cannot lock %s: %w", final, p, err)
+		}
+		fst, err1 := f.Stat()
+		pst, err2 := os.Lstat(p)
+		if err1 == nil && err2 == nil && os.SameFile(fst, pst) {
+			return func() { os.Remove(p); f.Close() }, nil
+		}
+		f.Close()
+	}
+	return nil, fmt.Errorf("%s: cannot take the lock %s (it keeps changing)", final, p)
+}
+
+// syncTree flushes every file and folder below dir to disk, several at a
+// time (the file system batches them into few journal commits).
+func syncTree(dir string) error {
+	var paths []string
+	err := filepath.WalkDir(dir, func(p string, d fs.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		paths = append(paths, p)
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	errs := make([]error, len(paths))
+	var wg sync.WaitGroup
+	work := make(chan int)
+	for w := 0; w < 8; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range work {
+				errs[i] = syncPath(paths[i])
+			}
+		}()
+	}
+	for i := range paths {
+		work <- i
+	}
+	close(work)
+	wg.Wait()
+	return errors.Join(errs...)
+}
+
+func syncPath(p string) error {
+	f, err := os.Open(p)
+	if err != nil {
+		return err
+	}
+	defer f.Close()
+	if err := f.Sync(); err != nil && !ignorableSyncError(err) {
+		return err
+	}
+	return nil
+}
+
+// syncDir flushes a folder's entries (a rename's new name) to disk.
+func syncDir(dir string) error {
+	if err := syncPath(dir); err != nil {
+		return fmt.Errorf("%s: cannot flush to disk: %w", dir, unwrap(err))
+	}
+	return nil
+}
+
+func writeSynced(p string, b []byte) error {
+	f, err := os.OpenFile(p, os.O_WRONLY|os.O_CREATE|os.O_TRUNC|noFollow, 0o644)
+	if err != nil {
+		return err
+	}
+	if _, err := f.Write(b); err != nil {
+		f.Close()
+		return err
+	}
+	if err := f.Sync(); err != nil {
+		f.Close()
+		return err
+	}
+	return f.Close()
+}

@@ -1,0 +1,226 @@
+package output
+
+import (
+	"bytes"
+	"fmt"
+	"math/rand/v2"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"runtime"
+	"strings"
+	"syscall"
+	"testing"
+	"time"
+)
+
+var committedFiles = []string{"a.csv", "b.csv", "c.csv", "d.csv"}
+
+// TestCommitLoopProcess is the child of TestKillDuringCommit: it commits
+// generation after generation into $BANDSOLVE_COMMIT_LOOP until killed.
+func TestCommitLoopProcess(t *testing.T) {
+	out := os.Getenv("BANDSOLVE_COMMIT_LOOP")
+	if out == "" {
+		t.Skip("run by TestKillDuringCommit")
+	}
+	if os.Getenv("BANDSOLVE_COMMIT_TWO_STEP") != "" {
+		exchange = func(a, b string) error { return errNoExchange }
+	}
+	for gen := 1; ; gen++ {
+		st, err := NewStage(out, true)
+		if err != nil {
+			fmt.Fprintln(os.Stderr, err)
+			os.Exit(3)
+		}
+		body := []byte(fmt.Sprintf("generation %d\n", gen))
+		for _, n := range committedFiles {
+			st.Write(n, body)
+		}
+		st.Write(ManifestName, []byte(`{"tool": "bandsolve"}`))
+		if err := st.Commit(); err != nil {
+			fmt.Fprintln(os.Stderr, err)
+			os.Exit(3)
+		}
+	}
+}
+
+// complete says whether out holds one whole generation: every file, all
+// of the same generation, and nothing else.
+func complete(out string) error {
+	ents, err := os.ReadDir(out)
+	if err != nil {
+		return err
+	}
+	if len(ents) != len(committedFiles)+1 {
+		return fmt.Errorf("%d entries", len(ents))
+	}
+	first, _ := os.ReadFile(filepath.Join(out, committedFiles[0]))
+	for _, n := range committedFiles {
+		b, err := os.ReadFile(filepath.Join(out, n))
+		if err != nil || !bytes.Equal(b, first) || len(b) == 0 {
+			return fmt.Errorf("%s: %q (%v), %s has %q", n, b, err, committedFiles[0], first)
+		}
+	}
+	return nil
+}
+
+// kill -9 at random moments of a loop of commits: the output folder always
+// holds either the earlier or the new results, complete. With the atomic
+// exchange it does so at every instant; with the recorded two-step swap it
+// may be missing only until the next run finishes the swap (tidy). Either
+// way the next run leaves nothing else beside it.
+func TestKillDuringCommit(t *testing.T) {
+	if runtime.GOOS != "linux" {
+		t.Skip("flock and renameat2 are tested on Linux")
+	}
+	for _, mode := range []string{"exchange", "two-step"} {
+		t.Run(mode, func(t *testing.T) {
+			dir := t.TempDir()
+			out := filepath.Join(dir, "out")
+			rng := rand.New(rand.NewPCG(13, uint64(len(mode))))
+			seen := false
+			for kill := 0; kill < 12; kill++ {
+				cmd := exec.Command(os.Args[0], "-test.run=^TestCommitLoopProcess$")
+				cmd.Env = append(os.Environ(), "BANDSOLVE_COMMIT_LOOP="+out)
+				if mode == "two-step" {
+					cmd.Env = append(cmd.Env, "BANDSOLVE_COMMIT_TWO_STEP=1")
+				}
+				var stderr bytes.Buffer
+				cmd.Stderr = &stderr
+				if err := cmd.Start(); err != nil {
+					t.Fatal(err)
+				}
+				time.Sleep(time.Duration(20+rng.IntN(60)) * time.Millisecond)
+				cmd.Process.Signal(syscall.SIGKILL)
+				cmd.Wait()
+				if strings.Contains(stderr.String(), "\n") && !strings.Contains(stderr.String(), "PASS") {
+					t.Fatalf("child failed: %s", stderr.String())
+				}
+				_, err := os.Lstat(out)
+				switch {
+				case err == nil:
+					if e := complete(out); e != nil {
+						t.Fatalf("kill %d: incomplete results right after kill -9: %v", kill, e)
+					}
+					seen = true
+				case seen && mode == "exchange":
+					t.Fatalf("kill %d: output folder missing after kill -9 with the atomic exchange", kill)
+				}
+				// The next run: finishes any swap, removes dead stages.
+				started = time.Now()
+				if err := tidy(out); err != nil {
+					t.Fatal(err)
+				}
+				if seen {
+					if e := complete(out); e != nil {
+						t.Fatalf("kill %d: after the next run's tidy: %v", kill, e)
+					}
+				}
+				if ents, _ := os.ReadDir(dir); len(ents) > 1 {
+					var names []string
+					for _, e := range ents {
+						names = append(names, e.Name())
+					}
+					t.Fatalf("kill %d: left beside the output: %v", kill, names)
+				}
+			}
+			if !seen {
+				t.Fatal("no commit completed before a kill: the test tested nothing")
+			}
+		})
+	}
+}
+
+// Each state a kill can leave a recorded two-step swap in is completed or
+// rolled back by the next run, to whole results and nothing beside them.
+func TestRecoverSwap(t *testing.T) {
+	for _, c := range []struct {
+		name              string
+		final, stage, old bool   // which folders the kill left
+		want              string // generation in out afterwards
+	}{
+		{"killed before the first rename", true, true, false, "earlier"},
+		{"killed between the renames", false, true, true, "new"},
+		{"killed before removing the earlier results", true, false, true, "new"},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			dir := t.TempDir()
+			out := filepath.Join(dir, "out")
+			stage := filepath.Join(dir, stagePrefix(out)+"123")
+			old := stage + ".old"
+			put := func(p, gen string) {
+				for _, n := range committedFiles {
+					mustWrite(t, filepath.Join(p, n), gen)
+				}
+				mustWrite(t, filepath.Join(p, ManifestName), "{}")
+			}
+			switch {
+			case c.final && c.old:
+				put(out, "new")
+				put(old, "earlier")
+			case c.final:
+				put(out, "earlier")
+			default:
+				put(old, "earlier")
+			}
+			if c.stage {
+				put(stage, "new")
+			}
+			mustWrite(t, swapPath(out), filepath.Base(stage)+"\n"+filepath.Base(old)+"\n")
+			if err := recoverSwap(out); err != nil {
+				t.Fatal(err)
+			}
+			if err := complete(out); err != nil {
+				t.Fatal(err)
+			}
+			if b, _ := os.ReadFile(filepath.Join(out, "a.csv")); string(b) != c.want {
+				t.Errorf("out holds %q, want %q", b, c.want)
+			}
+			if ents, _ := os.ReadDir(dir); len(ents) != 1 {
+				t.Errorf("left beside the output: %d entries", len(ents))
+			}
+		})
+	}
+	// A swap record naming anything but out's staging folders is refused.
+	dir := t.TempDir()
+	out := filepath.Join(dir, "out")
+	mustWrite(t, swapPath(out), "../../etc\n../../etc.old\n")
+	if err := recoverSwap(out); err == nil || !strings.Contains(err.Error(), "is not a swap record of bandsolve") {
+		t.Errorf("hostile swap record: %v", err)
+	}
+}
+
+// tidy removes the staging folder of a dead run and leaves a live run's
+// (locked, as NewStage locks it) alone.
+func TestTidyRemovesOnlyDeadStages(t *testing.T) {
+	if runtime.GOOS != "linux" {
+		t.Skip("flock is tested on Linux")
+	}
+	dir := t.TempDir()
+	out := filepath.Join(dir, "out")
+	live, err := NewStage(out, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer live.Abort()
+	dead := filepath.Join(dir, stagePrefix(out)+"dead")
+	mustWrite(t, filepath.Join(dead, "a.csv"), "x")
+	other := filepath.Join(dir, "notes")
+	mustWrite(t, filepath.Join(other, "keep.txt"), "x")
+	past := time.Now().Add(-time.Hour)
+	os.Chtimes(dead, past, past)
+	os.Chtimes(live.Dir, past, past)
+	started = time.Now()
+	if err := tidy(out); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := os.Stat(dead); err == nil {
+		t.Error("a dead run's staging folder was kept")
+	}
+	if _, err := os.Stat(live.Dir); err != nil {
+		t.Error("a live run's staging folder was removed")
+	}
+	if _, err := os.Stat(filepath.Join(other, "keep.txt")); err != nil {
+		t.Error("tidy removed a folder bandsolve did not make")
+	}
+}
