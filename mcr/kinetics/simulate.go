@@ -145,6 +145,15 @@ func (s *Scheme) SimulateWith(k, c0, times []float64, t0 float64, set SimSetting
 	switch method {
 	case "expm":
 		m := sys.linearMatrix()
+		if ex := newEigenExp(m, ns, y0); ex != nil {
+			buf := make([]float64, ns+nr)
+			for _, i := range order {
+				ex.at(times[i]-t0, buf)
+				store(i, buf)
+			}
+			sim.Stiff = sim.StiffnessRatio >= 1e3 && lmax*span >= 1e3
+			break
+		}
 		var e mat.Dense
 		yv := mat.NewVecDense(ns+nr, y0)
 		out := mat.NewVecDense(ns+nr, nil)
@@ -658,4 +667,93 @@ func (r *rosen) step(sys odeSys, y, f0 []float64, h, rtol, atol float64) (float6
 		}
 	}
 	return errNorm(r.errv, y, r.ynew, rtol, atol), true
+}
+
+// eigenExp is the exact solution of a first-order network through the
+// eigendecomposition of its species block K = V Λ V⁻¹ (a compartmental
+// matrix: real eigenvalues ≤ 0 for networks without oscillating cycles):
+//
+//	c(t) = V e^{Λt} w,  ξ(t) = R V φ(Λ, t) w,  w = V⁻¹ c0,  φ(λ, t) = (e^{λt} − 1)/λ,
+//
+// with R the rates' matrix (dξ/dt = R c) and φ(0, t) = t. Each time costs
+// k exponentials and the error is that of w, about cond(V)·ε, at any k·t,
+// whereas scaling and squaring the whole exponential (gonum's Padé) loses
+// accuracy as the squarings grow with ‖K‖·t (2.4·10⁻⁷ relative at
+// k = 3·10⁵ s⁻¹, t = 10⁴ s). Nearly equal rates make V ill-conditioned
+// (the defective limit, b = k t e^{−kt}): newEigenExp then returns nil and
+// the Padé exponential is used.
+type eigenExp struct {
+	ns, nr  int
+	lambda  []float64
+	v, rv   *mat.Dense // V (ns × ns) and R V (nr × ns)
+	w       []float64
+	scratch *mat.VecDense
+}
+
+func newEigenExp(m *mat.Dense, ns int, y0 []float64) *eigenExp {
+	d, _ := m.Dims()
+	nr := d - ns
+	var eig mat.Eigen
+	if !eig.Factorize(mat.DenseCopyOf(m.Slice(0, ns, 0, ns)), mat.EigenRight) {
+		return nil
+	}
+	vals := eig.Values(nil)
+	scale := 0.0
+	for _, l := range vals {
+		scale = math.Max(scale, math.Abs(real(l)))
+	}
+	lambda := make([]float64, ns)
+	for i, l := range vals {
+		if math.Abs(imag(l)) > 1e-12*math.Max(scale, 1e-300) {
+			return nil // oscillating modes
+		}
+		lambda[i] = real(l)
+		if math.Abs(lambda[i]) <= 1e-12*float64(ns)*scale {
+			lambda[i] = 0 // a conserved total: exactly zero, not rounding
+		}
+	}
+	var vc mat.CDense
+	eig.VectorsTo(&vc)
+	v := mat.NewDense(ns, ns, nil)
+	for i := 0; i < ns; i++ {
+		for j := 0; j < ns; j++ {
+			v.Set(i, j, real(vc.At(i, j)))
+		}
+	}
+	var lu mat.LU
+	lu.Factorize(v)
+	if c := lu.Cond(); !(c < 1e4) {
+		return nil
+	}
+	var wv mat.VecDense
+	if err := lu.SolveVecTo(&wv, false, mat.NewVecDense(ns, append([]float64(nil), y0[:ns]...))); err != nil {
+		return nil
+	}
+	ex := &eigenExp{ns: ns, nr: nr, lambda: lambda, v: v, w: wv.RawVector().Data, scratch: mat.NewVecDense(ns, nil)}
+	if nr > 0 {
+		ex.rv = mat.NewDense(nr, ns, nil)
+		ex.rv.Mul(m.Slice(ns, d, 0, ns), v)
+	}
+	return ex
+}
+
+// at writes [c(t); ξ(t)] into y.
+func (ex *eigenExp) at(t float64, y []float64) {
+	g := ex.scratch
+	for i, l := range ex.lambda {
+		g.SetVec(i, math.Exp(l*t)*ex.w[i])
+	}
+	for i := 0; i < ex.ns; i++ {
+		y[i] = mat.Dot(ex.v.RowView(i), g)
+	}
+	for i, l := range ex.lambda {
+		phi := t
+		if l != 0 {
+			phi = math.Expm1(l*t) / l
+		}
+		g.SetVec(i, phi*ex.w[i])
+	}
+	for q := 0; q < ex.nr; q++ {
+		y[ex.ns+q] = mat.Dot(ex.rv.RowView(q), g)
+	}
 }
