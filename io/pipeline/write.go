@@ -190,7 +190,20 @@ func rankTable(rk *svd.RankReport) output.Table {
 	return t
 }
 
-// PrintTable writes the short human summary to w.
+// residualToNoise is the residual's root mean square per degree of freedom
+// over the noise σ: lack of fit ÷ the lack of fit noise alone would give,
+// √(‖D − C Sᵀ‖² / (σ² (nm − k(n+m−k)))). 1 means the model explains all but
+// the noise; above 1, something systematic is left; well below 1, σ is
+// overestimated (or the model fits the noise).
+func residualToNoise(r *Result) (float64, bool) {
+	if r.NoiseLOF <= 0 {
+		return 0, false
+	}
+	return r.LackOfFit / r.NoiseLOF, true
+}
+
+// PrintTable writes the short human summary to w; explained variance is in
+// summary.json and the report only (it reads near 100 % for any fit).
 func PrintTable(r *Result, w io.Writer) {
 	n, m := r.D.Dims()
 	fmt.Fprintf(w, "data           %d spectra × %d points (%s)\n", n, m, r.AxisName)
@@ -210,8 +223,10 @@ func PrintTable(r *Result, w io.Writer) {
 		if !r.ALS.Converged {
 			conv = "NOT converged"
 		}
+		if q, ok := residualToNoise(r); ok {
+			fmt.Fprintf(w, "fit            residual %.3g × the noise  (1.0 = fits to the noise)\n", q)
+		}
 		fmt.Fprintf(w, "lack of fit    %.4g %%  (noise alone: %.3g %%)\n", r.LackOfFit, r.NoiseLOF)
-		fmt.Fprintf(w, "explained      %.6g %%\n", r.Explained)
 		fmt.Fprintf(w, "iterations     %d, %s\n", r.ALS.Iterations, conv)
 		for j, name := range r.Names {
 			col := mat.Col(nil, j, r.ALS.C)

@@ -108,14 +108,29 @@ func drawLegend(c draw.Canvas, items []LegendItem, perRow int, w vg.Length) {
 	}
 }
 
-// plainMinus replaces the superscript minus in the plots' titles and axis
-// labels and returns a function that puts the texts back.
+// plainMinus replaces the superscript minus in the plots' titles, axis
+// labels and tick labels (8×10⁻⁵ becomes 8e-5: without it the raster font
+// prints 8×10⁵) and returns a function that puts the texts back.
 func plainMinus(plots []*plot.Plot) func() {
 	var undo []func()
 	swap := func(t *string) {
 		old := *t
 		*t = strings.ReplaceAll(strings.ReplaceAll(old, "⁻¹", "-1"), "⁻", "-")
 		undo = append(undo, func() { *t = old })
+	}
+	ticks := func(m *plot.Ticker) {
+		old := *m
+		if old == nil {
+			return
+		}
+		*m = plot.TickerFunc(func(lo, hi float64) []plot.Tick {
+			ts := old.Ticks(lo, hi)
+			for i := range ts {
+				ts[i].Label = plainExponent(ts[i].Label)
+			}
+			return ts
+		})
+		undo = append(undo, func() { *m = old })
 	}
 	for _, p := range plots {
 		if p == nil {
@@ -124,10 +139,24 @@ func plainMinus(plots []*plot.Plot) func() {
 		swap(&p.Title.Text)
 		swap(&p.X.Label.Text)
 		swap(&p.Y.Label.Text)
+		ticks(&p.X.Tick.Marker)
+		ticks(&p.Y.Tick.Marker)
 	}
 	return func() {
 		for _, u := range undo {
 			u()
 		}
 	}
+}
+
+var superDigits = strings.NewReplacer("⁻", "-", "⁰", "0", "¹", "1", "²", "2", "³", "3", "⁴", "4", "⁵", "5", "⁶", "6", "⁷", "7", "⁸", "8", "⁹", "9")
+
+// plainExponent writes a tick label m×10ⁿ as men, which the raster font can
+// print whole; other labels are returned as they are.
+func plainExponent(label string) string {
+	m, e, ok := strings.Cut(label, "×10")
+	if !ok || e == "" {
+		return label
+	}
+	return m + "e" + superDigits.Replace(e)
 }
