@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 
+	"gonum.org/v1/gonum/lapack/lapack64"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -235,15 +236,30 @@ func residualSS(d Data, c, s *mat.Dense, total, fallback float64) float64 {
 	return math.Max(ssr, 0)
 }
 
-// thinQR returns the thin QR factors of a tall matrix.
+// thinQR returns the thin QR factors of a tall r × k matrix: Q (r × k)
+// generated from the k Householder reflectors alone, O(r·k²). (mat.QR's
+// QTo forms the full r × r Q, O(r²·k) time and r² memory: quadratic in the
+// number of spectra and of points.)
 func thinQR(a *mat.Dense) (*mat.Dense, *mat.Dense) {
-	r, k := a.Dims()
-	var qr mat.QR
-	qr.Factorize(a)
-	var q, rr mat.Dense
-	qr.QTo(&q)
-	qr.RTo(&rr)
-	return mat.DenseCopyOf(q.Slice(0, r, 0, k)), mat.DenseCopyOf(rr.Slice(0, k, 0, k))
+	_, k := a.Dims()
+	q := mat.DenseCopyOf(a)
+	raw := q.RawMatrix()
+	tau := make([]float64, k)
+	work := []float64{0}
+	lapack64.Geqrf(raw, tau, work, -1)
+	work = make([]float64, max(int(work[0]), k))
+	lapack64.Geqrf(raw, tau, work, len(work))
+	rr := mat.NewDense(k, k, nil)
+	for i := 0; i < k; i++ {
+		for j := i; j < k; j++ {
+			rr.Set(i, j, raw.Data[i*raw.Stride+j])
+		}
+	}
+	work = []float64{0}
+	lapack64.Orgqr(raw, tau, work, -1)
+	work = make([]float64, max(int(work[0]), k))
+	lapack64.Orgqr(raw, tau, work, len(work))
+	return q, rr
 }
 
 // residualSSWeighted sums a_i b_j (D − C Sᵀ)²_ij in row blocks.

@@ -77,13 +77,12 @@ func writeReport(r *Result, stage *output.Stage) error {
 	if err != nil {
 		return fmt.Errorf("report: %w", err)
 	}
-	b, err := report.Build(f)
+	// The figures as files too (SVG and PNG, legend included), for papers
+	// and slides; sorted so the files are written in a fixed order.
+	b, files, err := report.BuildWithFiles(f)
 	if err != nil {
 		return fmt.Errorf("report: %w", err)
 	}
-	// The figures as files too (SVG and PNG, legend included), for papers
-	// and slides; sorted so the files are written in a fixed order.
-	files, _ := report.FigureFiles(f)
 	if len(files) > 0 {
 		if err := stage.Mkdir("figures"); err != nil {
 			return fmt.Errorf("report: %w", err)

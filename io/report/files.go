@@ -4,7 +4,10 @@ import (
 	"bytes"
 	"fmt"
 	"image/color"
+	"image/png"
+	"runtime"
 	"strings"
+	"sync"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/font"
@@ -24,18 +27,48 @@ const FigureDPI = 150
 // Like the report, they depend only on the folder's files.
 func FigureFiles(f *Folder) (map[string][]byte, []string) {
 	figs, problems := Figures(f)
+	files, more := filesOf(figs)
+	return files, append(problems, more...)
+}
+
+// filesOf draws the figures' files, several figures at once: each figure
+// is drawn from its own plots by one goroutine, so the bytes do not depend
+// on the order the figures finish in.
+func filesOf(figs []Figure) (map[string][]byte, []string) {
+	type drawn struct {
+		svg, pngb []byte
+		err      error
+	}
+	res := make([]drawn, len(figs))
+	next := make(chan int)
+	var wg sync.WaitGroup
+	for w := 0; w < min(runtime.GOMAXPROCS(0), len(figs)); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range next {
+				res[i].svg, res[i].pngb, res[i].err = standalone(figs[i])
+			}
+		}()
+	}
+	for i, fig := range figs {
+		if fig.drawing.draw != nil {
+			next <- i
+		}
+	}
+	close(next)
+	wg.Wait()
 	out := map[string][]byte{}
-	for _, fig := range figs {
-		if fig.drawing.draw == nil {
-			continue
+	var problems []string
+	for i, fig := range figs {
+		switch {
+		case fig.drawing.draw == nil:
+		case res[i].err != nil:
+			problems = append(problems, fmt.Sprintf("%s: %v", fig.ID, res[i].err))
+		default:
+			out["figures/"+fig.ID+".svg"] = res[i].svg
+			out["figures/"+fig.ID+".png"] = res[i].pngb
 		}
-		svg, png, err := standalone(fig)
-		if err != nil {
-			problems = append(problems, fmt.Sprintf("%s: %v", fig.ID, err))
-			continue
-		}
-		out["figures/"+fig.ID+".svg"] = svg
-		out["figures/"+fig.ID+".png"] = png
 	}
 	return out, problems
 }
@@ -43,7 +76,7 @@ func FigureFiles(f *Folder) (map[string][]byte, []string) {
 // legendRowH is the height of one row of the legend strip.
 const legendRowH = 0.55 * vg.Centimeter
 
-func standalone(fig Figure) (svg, png []byte, err error) {
+func standalone(fig Figure) (svg, pngb []byte, err error) {
 	defer func() {
 		if e := recover(); e != nil {
 			err = fmt.Errorf("drawing failed: %v", e)
@@ -75,8 +108,11 @@ func standalone(fig Figure) (svg, png []byte, err error) {
 	restore := plainMinus(d.plots)
 	paint(draw.New(ic))
 	restore()
+	// The fastest deflate level: the default one took a fifth of the whole
+	// run on 2000 × 3001 data, for files about a third smaller.
 	var pb bytes.Buffer
-	if _, err := (vgimg.PngCanvas{Canvas: ic}).WriteTo(&pb); err != nil {
+	enc := png.Encoder{CompressionLevel: png.BestSpeed}
+	if err := enc.Encode(&pb, ic.Image()); err != nil {
 		return nil, nil, err
 	}
 	return sb.Bytes(), pb.Bytes(), nil

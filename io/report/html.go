@@ -60,6 +60,23 @@ func BuildDir(dir string) ([]byte, error) {
 // same files always give the same bytes.
 func Build(f *Folder) ([]byte, error) {
 	figs, problems := Figures(f)
+	return buildFrom(f, figs, problems)
+}
+
+// BuildWithFiles gives both the report and the figure files (FigureFiles)
+// from one drawing of the figures: the same bytes as Build and FigureFiles
+// called one after the other, in about half the time.
+func BuildWithFiles(f *Folder) (html []byte, files map[string][]byte, err error) {
+	figs, problems := Figures(f)
+	html, err = buildFrom(f, figs, problems)
+	if err != nil {
+		return nil, nil, err
+	}
+	files, _ = filesOf(figs)
+	return html, files, nil
+}
+
+func buildFrom(f *Folder, figs []Figure, problems []string) ([]byte, error) {
 	v := view{F: f, S: f.Summary, Problems: append(append([]string{}, f.Problems...), problems...)}
 	v.Findings, v.Checks = findings(f)
 	groups := []struct {
