@@ -37,7 +37,7 @@ func FigureFiles(f *Folder) (map[string][]byte, []string) {
 func filesOf(figs []Figure) (map[string][]byte, []string) {
 	type drawn struct {
 		svg, pngb []byte
-		err      error
+		err       error
 	}
 	res := make([]drawn, len(figs))
 	next := make(chan int)
