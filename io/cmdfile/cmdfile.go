@@ -37,6 +37,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"unicode"
 	"unicode/utf8"
@@ -87,6 +88,30 @@ type Error struct {
 	File      string
 	Line, Col int
 	Msg       string
+}
+
+// MaxShown is how many characters of a value a message quotes: a
+// hostile 1 MB value must not make a 1 MB error line.
+const MaxShown = 80
+
+// Clip shortens v to MaxShown characters, marking the cut with "…".
+func Clip(v string) string {
+	if r := []rune(v); len(r) > MaxShown {
+		return string(r[:MaxShown]) + "…"
+	}
+	return v
+}
+
+// Show quotes v for a message, clipped.
+func Show(v string) string { return strconv.Quote(Clip(v)) }
+
+// clipValue replaces a long value quoted or written in msg by its clipped form.
+func clipValue(msg, v string) string {
+	if len([]rune(v)) <= MaxShown {
+		return msg
+	}
+	msg = strings.ReplaceAll(msg, strconv.Quote(v), Show(v))
+	return strings.ReplaceAll(msg, v, Clip(v))
 }
 
 func (e *Error) Error() string {
@@ -247,18 +272,18 @@ func checkKeyword(name string, ln, col int, key string, byName map[string]Keywor
 	if _, ok := byName[key]; ok {
 		return nil
 	}
-	msg := fmt.Sprintf("unknown keyword %q", key)
+	msg := fmt.Sprintf("unknown keyword %s", Show(key))
 	switch {
 	case strings.HasPrefix(key, "-"):
 		bare := strings.TrimLeft(key, "-")
 		if k, v, ok := strings.Cut(bare, "="); ok {
 			bare = k + " " + v
 		}
-		return &Error{File: name, Line: ln, Col: col, Msg: msg + fmt.Sprintf("; write keywords without dashes, e.g. %q", bare)}
+		return &Error{File: name, Line: ln, Col: col, Msg: msg + fmt.Sprintf("; write keywords without dashes, e.g. %s", Show(bare))}
 	case strings.Contains(key, "="):
 		k, v, _ := strings.Cut(key, "=")
 		if _, ok := byName[k]; ok {
-			return &Error{File: name, Line: ln, Col: col, Msg: msg + fmt.Sprintf("; separate keyword and value by a space: %q", k+" "+v)}
+			return &Error{File: name, Line: ln, Col: col, Msg: msg + fmt.Sprintf("; separate keyword and value by a space: %s", Show(k+" "+v))}
 		}
 		key = k
 	}
@@ -365,24 +390,24 @@ func remote(v string) bool {
 
 func checkRead(name string, ln, col int, v string) error {
 	if remote(v) {
-		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("%q is a network address; a command file reads local files only: copy the file next to the command file", v)}
+		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("%s is a network address; a command file reads local files only: copy the file next to the command file", Show(v))}
 	}
 	return nil
 }
 
 func checkWrite(name string, ln, col int, pathsFrom, v string) error {
 	if remote(v) {
-		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("%q is a network address; results go to a folder inside the command file's folder", v)}
+		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("%s is a network address; results go to a folder inside the command file's folder", Show(v))}
 	}
 	if filepath.IsAbs(v) || filepath.VolumeName(v) != "" || strings.HasPrefix(v, "/") || strings.HasPrefix(v, `\`) {
-		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("out %q is absolute; in a command file the output folder is relative and inside the file's folder (give --out on the command line to write elsewhere)", v)}
+		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("out %s is absolute; in a command file the output folder is relative and inside the file's folder (give --out on the command line to write elsewhere)", Show(v))}
 	}
 	rel := filepath.Clean(filepath.Join(filepath.FromSlash(pathsFrom), filepath.FromSlash(v)))
 	if pathsFrom != "" && filepath.IsAbs(filepath.FromSlash(pathsFrom)) {
-		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("out %q would be taken from the absolute %s %q, outside the file's folder; give --out on the command line instead", v, PathsFrom, pathsFrom)}
+		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("out %s would be taken from the absolute %s %s, outside the file's folder; give --out on the command line instead", Show(v), PathsFrom, Show(pathsFrom))}
 	}
 	if rel == "." || rel == ".." || strings.HasPrefix(rel, ".."+string(filepath.Separator)) {
-		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("out %q leaves the command file's folder; name a folder inside it, e.g. out results (or give --out on the command line)", v)}
+		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("out %s leaves the command file's folder; name a folder inside it, e.g. out results (or give --out on the command line)", Show(v))}
 	}
 	return nil
 }
@@ -409,7 +434,7 @@ func (f *File) Apply(set func(e Entry) error) error {
 			if col == 0 {
 				col = e.Col
 			}
-			return &Error{File: f.Name, Line: e.Line, Col: col, Msg: err.Error()}
+			return &Error{File: f.Name, Line: e.Line, Col: col, Msg: clipValue(err.Error(), e.Value)}
 		}
 	}
 	return nil
@@ -458,6 +483,11 @@ func resolve(p string) (string, error) {
 
 // Nearest returns the keyword closest to a misspelt one, "" if none is close.
 func Nearest(word string, keys []Keyword) string {
+	if len(word) > MaxShown {
+		// No keyword is near a word this long, and the edit distance
+		// costs its length times each keyword's.
+		return ""
+	}
 	w := strings.ToLower(strings.ReplaceAll(word, "_", "-"))
 	best, bestD := "", 1<<30
 	cands := append([]string{PathsFrom}, names(keys)...)

@@ -79,6 +79,9 @@ func inputPaths(s *Settings) []string {
 			}
 		}
 	}
+	for _, f := range knownSpectrumFiles(s) {
+		in = append(in, s.Path(f))
+	}
 	return in
 }
 

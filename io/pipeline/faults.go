@@ -69,6 +69,27 @@ func checkClosureRows(r *Result) error {
 	return nil
 }
 
+// checkAssembledFinite refuses absorbance that double precision cannot
+// hold: single beams near 1e-307 (or 1e308) give −log10(I/I0) of ±Inf or
+// NaN, which would otherwise surface later as "non-finite value at row 0"
+// with no file named.
+func checkAssembledFinite(source string, sub *spectra.Series, as *spectra.Assembled) error {
+	for _, x := range []*mat.Dense{as.Absolute, as.Difference} {
+		if x == nil {
+			continue
+		}
+		r, c := x.Dims()
+		for i := 0; i < r; i++ {
+			for j, v := range x.RawRowView(i)[:c] {
+				if math.IsNaN(v) || math.IsInf(v, 0) {
+					return fmt.Errorf("%s: the absorbance of the spectrum at %g s, %s %g, is %v: the intensities are too close to zero (or too large) for −log10(I/I0) in double precision; rescale them (e.g. multiply the file by 1e6) or check the export", source, sub.Times[i], sub.AxisName, sub.Axis[j], v)
+				}
+			}
+		}
+	}
+	return nil
+}
+
 // checkFinite stops a run whose resolution produced a non-number rather
 // than writing it: output files never hold NaN or Inf.
 func checkFinite(res *mcr.Result) error {

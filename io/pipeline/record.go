@@ -373,6 +373,11 @@ func makeManifest(r *Result, stage *output.Stage, out, base string) (*Manifest, 
 			}
 		}
 	}
+	for _, f := range knownSpectrumFiles(s) {
+		if err := add(s.Path(f), filepath.IsAbs(f)); err != nil {
+			return nil, err
+		}
+	}
 	// Supplied files are listed whether or not the analysis read them.
 	seen = map[string]bool{}
 	list = &m.Supplied
@@ -388,6 +393,20 @@ func makeManifest(r *Result, stage *output.Stage, out, base string) (*Manifest, 
 		m.Supplied = []InputFile{}
 	}
 	return m, nil
+}
+
+// knownSpectrumFiles are the files --known-spectrum COMPONENT=FILE[:WEIGHT]
+// names, as written (relative to the settings' folder).
+func knownSpectrumFiles(s *Settings) []string {
+	var files []string
+	for _, v := range s.KnownSpectra {
+		if _, rest, ok := strings.Cut(v, "="); ok {
+			if f, _, err := splitWeight(rest); err == nil && f != "" {
+				files = append(files, f)
+			}
+		}
+	}
+	return files
 }
 
 // HashFile returns a regular file's size and SHA-256 (hex). A device,

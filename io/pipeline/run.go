@@ -230,6 +230,9 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 		if err != nil {
 			return nil, inputContext(ser.Source, err)
 		}
+		if err := checkAssembledFinite(ser.Source, sub, as); err != nil {
+			return nil, err
+		}
 		e := &Experiment{Source: s.Data[ei], Series: sub, Assembled: as, FirstRow: row, Rows: n, RefRows: as.ReferenceRows}
 		e.T0 = sub.Times[0]
 		if len(as.ReferenceRows) > 0 {
@@ -337,9 +340,19 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 			r.Notes = append(r.Notes, fmt.Sprintf("%d components as asked; the rank estimate is %d", k, rank.Estimate))
 		}
 	}
+	unchanged := k > 0 && s.Components == "auto" && r.DiffRank != nil && r.DiffRank.Estimate == 0
+	if unchanged {
+		// Absorbance of rank k but differences of rank 0: nothing changed,
+		// and a profile that never varies cannot be resolved (purest
+		// variables and EFA both look for change over time).
+		k = 0
+		r.Notes = append(r.Notes, fmt.Sprintf("no change: every spectrum equals the first within noise (the difference spectra have rank 0; the absorbance's rank %d is the unchanging spectrum itself); nothing to resolve", rank.Estimate))
+	}
 	r.Components = k
 	if k == 0 {
-		r.Notes = append(r.Notes, "no change: every spectrum equals the reference within noise, a flat line at zero absorbance; nothing to resolve")
+		if !unchanged {
+			r.Notes = append(r.Notes, "no change: every spectrum equals the reference within noise, a flat line at zero absorbance; nothing to resolve")
+		}
 		r.LackOfFit, r.Explained = 0, 100
 		return r, nil
 	}

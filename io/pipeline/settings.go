@@ -172,6 +172,9 @@ func suggest(name string) string {
 
 // Suggest returns the nearest option name to a misspelt one, "" if none is close.
 func Suggest(name string) string {
+	if len(name) > 64 {
+		return "" // nothing is near it, and the distance costs its length
+	}
 	best, bestD := "", 4
 	for _, o := range options {
 		if d := editDistance(name, o.Name); d < bestD {

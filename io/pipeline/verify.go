@@ -314,6 +314,11 @@ func recordPaths(s *Settings) pathSet {
 			}
 		}
 	}
+	for _, f := range knownSpectrumFiles(s) {
+		if p, err := filepath.Abs(s.Path(f)); err == nil {
+			ps.files = append(ps.files, p)
+		}
+	}
 	return ps
 }
 
