@@ -645,12 +645,21 @@ func fitKinetics(r *Result, log io.Writer) error {
 	// closed profiles can.
 	dopt := kn.warm(kn.Fits[0].Fit)
 	dopt.Amplitudes = false
+	n, m := r.D.Dims()
+	if w := r.Weights; w != nil && len(w.Row) == n && len(w.Col) == m {
+		// The noise weights of the data (maximum likelihood): the
+		// standard errors then follow the noise of each point.
+		dopt.RowWeights, dopt.ColWeights = w.Row, w.Col
+	}
 	dfit, spectra, err := kinetics.FitData(kn.Scheme, r.Times, r.D, dopt)
 	if err != nil {
 		r.Warnings = append(r.Warnings, "kinetics: the fit of the data matrix failed: "+oneLineText(err.Error()))
 	} else {
 		kn.Fits = append(kn.Fits, &KineticFit{Method: "data", Fit: dfit, Spectra: spectra})
 		kn.swapCheck(r, dfit, dopt)
+		if ratio := dataFitToNoise(r, dfit); ratio > 2 {
+			dfit.Warnings = append(dfit.Warnings, fmt.Sprintf("the model leaves a residual %.3g times the noise: it does not describe the data (a missing step or species, wrong starting concentrations, drift?); the standard errors include that misfit but the rate constants may be biased", ratio))
+		}
 	}
 	kn.Primary = 0
 	if s.KineticFit == "data" {
@@ -662,7 +671,7 @@ func fitKinetics(r *Result, log io.Writer) error {
 		if f.Observed == nil {
 			continue
 		}
-		if rho, ok := lag1(f.Fit.Residual); ok && rho > 0.5 {
+		if rho, ok := kinetics.Lag1(f.Fit.Residual); ok && rho > 0.5 {
 			f.Fit.Warnings = append(f.Fit.Warnings, fmt.Sprintf("the residuals are correlated in time (lag-1 autocorrelation %.2f; white noise gives about 0): the profiles carry a systematic error, e.g. rotational ambiguity, so these standard errors understate the uncertainty; the data fit's are the ones to quote, or try --hard-model", rho))
 		}
 		if f.Method == "hard-soft" {
@@ -721,31 +730,17 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, opt kinetics.
 	}
 }
 
-// lag1 is the lag-1 autocorrelation of the residuals down each column,
-// pooled over columns, Σ r_i r_{i+1} / Σ r_i² (Durbin & Watson 1950:
-// d ≈ 2(1 − ρ)); about 0 ± 1/√n for independent noise.
-func lag1(res *mat.Dense) (float64, bool) {
-	if res == nil {
-		return 0, false
+// dataFitToNoise is the data fit's residual standard deviation over the
+// noise: Sigma itself when the fit was weighted (its units are the noise),
+// else over the noise the rank step estimated. 0 when unknown.
+func dataFitToNoise(r *Result, f *kinetics.FitResult) float64 {
+	if f.Weighted {
+		return f.Sigma
 	}
-	n, q := res.Dims()
-	if n < 10 {
-		return 0, false
+	if r.Rank == nil || !(r.Rank.Sigma > 0) {
+		return 0
 	}
-	var num, den float64
-	for j := 0; j < q; j++ {
-		for i := 0; i < n; i++ {
-			v := res.At(i, j)
-			den += v * v
-			if i+1 < n {
-				num += v * res.At(i+1, j)
-			}
-		}
-	}
-	if !(den > 0) {
-		return 0, false
-	}
-	return num / den, true
+	return f.Sigma / r.Rank.Sigma
 }
 
 func oneLineText(s string) string { return strings.Join(strings.Fields(s), " ") }

@@ -30,6 +30,13 @@ type FitOptions struct {
 	// UseExtents compares the observed columns with reaction extents ξ_j instead of
 	// concentrations (difference data resolve reactions, not species).
 	UseExtents bool
+	// RowWeights and ColWeights, for FitData, are noise weights a_i (per
+	// spectrum) and b_j (per channel), about 1/σ²: the fit then minimises
+	// Σ a_i b_j (d_ij − (C Sᵀ)_ij)², the maximum-likelihood fit for noise of
+	// those variances (Wentzell et al., J. Chemometrics 1997). Since S is
+	// free, √B is absorbed into it: the data are scaled to √A D √B and the
+	// model to √A C, and the spectra scaled back. nil = 1.
+	RowWeights, ColWeights []float64
 	// Sim tunes the simulation used inside the fit.
 	Sim SimSettings
 	// LM tunes the Levenberg–Marquardt iteration.
@@ -59,7 +66,14 @@ type FitResult struct {
 	Residual *mat.Dense
 	// RMS is sqrt(SSR / number of data points); Sigma = sqrt(SSR / DegreesOfFreedom) is the
 	// noise estimate behind the standard errors.
-	RMS, SSR, Sigma  float64
+	RMS, SSR, Sigma float64
+	// Weighted: FitData had noise weights, so Fitted, Residual, RMS and
+	// Sigma are in units of the noise (Sigma ≈ 1 when the model fits).
+	Weighted bool
+	// Lag1 is the residuals' lag-1 autocorrelation down the time axis and
+	// Inflation the factor the standard errors were multiplied by for it
+	// (1 = none); see honestErrors.
+	Lag1, Inflation  float64
 	DegreesOfFreedom int
 	Iterations       int
 	Converged        bool
@@ -127,10 +141,27 @@ func (p *fitProblem) model(theta []float64) (*Simulation, *mat.Dense, error) {
 	if err != nil {
 		return nil, nil, err
 	}
+	out := sim.C
 	if p.opt.UseExtents {
-		return sim, sim.Extents, nil
+		out = sim.Extents
 	}
-	return sim, sim.C, nil
+	if p.dred != nil && p.opt.RowWeights != nil {
+		out = scaleRowsSqrt(out, p.opt.RowWeights)
+	}
+	return sim, out, nil
+}
+
+// scaleRowsSqrt returns diag(√w) x.
+func scaleRowsSqrt(x *mat.Dense, w []float64) *mat.Dense {
+	out := mat.DenseCopyOf(x)
+	r, c := out.Dims()
+	for i := 0; i < r; i++ {
+		f := math.Sqrt(w[i])
+		for j := 0; j < c; j++ {
+			out.Set(i, j, f*out.At(i, j))
+		}
+	}
+	return out
 }
 
 // amplitudes solves each a_j = ⟨y_j, m_j⟩/⟨m_j, m_j⟩ (one-column least squares).
@@ -661,6 +692,24 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 	if opt.Amplitudes {
 		return nil, nil, errors.New("kinetics: fit data: Amplitudes does not apply (the spectra carry the scale)")
 	}
+	if err := checkWeights(opt.RowWeights, n, "row"); err != nil {
+		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+	}
+	if err := checkWeights(opt.ColWeights, m, "column"); err != nil {
+		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+	}
+	if opt.RowWeights != nil || opt.ColWeights != nil {
+		// Σ a_i b_j e_ij² = ‖√A (D − C Sᵀ) √B‖²: fit √A D √B.
+		if p.opt.RowWeights == nil {
+			p.opt.RowWeights = ones(n)
+		}
+		d = scaleRowsSqrt(d, p.opt.RowWeights)
+		if opt.ColWeights != nil {
+			var dt mat.Dense
+			dt.CloneFrom(scaleRowsSqrt(mat.DenseCopyOf(d.T()), opt.ColWeights).T())
+			d = &dt
+		}
+	}
 	p.dred = d
 	if m > n {
 		var svd mat.SVD
@@ -710,7 +759,49 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 	fitted.Mul(model, spectra.T())
 	resid.Sub(d, &fitted)
 	res.Fitted, res.Residual = &fitted, &resid
+	if opt.RowWeights != nil || opt.ColWeights != nil {
+		// Back to the data's units: the spectra lose √B, the model √A;
+		// Fitted and Residual stay weighted (units of the noise), which is
+		// what the checks on them need.
+		res.Model = mat.DenseCopyOf(sim.C)
+		if opt.UseExtents {
+			res.Model = mat.DenseCopyOf(sim.Extents)
+		}
+		if opt.ColWeights != nil {
+			inv := make([]float64, m)
+			for j, b := range opt.ColWeights {
+				inv[j] = 1 / b
+			}
+			spectra = scaleRowsSqrt(spectra, inv)
+		}
+		res.Weighted = true
+	}
+	honestErrors(res)
 	return res, spectra, nil
+}
+
+// checkWeights accepts nil or len positive finite weights.
+func checkWeights(w []float64, want int, what string) error {
+	if w == nil {
+		return nil
+	}
+	if len(w) != want {
+		return fmt.Errorf("%d %s weights for %d %ss", len(w), what, want, what)
+	}
+	for i, v := range w {
+		if !(v > 0) || math.IsInf(v, 0) {
+			return fmt.Errorf("%s weight %d is %v: weights must be positive", what, i+1, v)
+		}
+	}
+	return nil
+}
+
+func ones(n int) []float64 {
+	o := make([]float64, n)
+	for i := range o {
+		o[i] = 1
+	}
+	return o
 }
 
 // pseudoSolve returns S (m × q) with Sᵀ = C⁺ D.
@@ -740,4 +831,66 @@ func pseudoSolve(c, d *mat.Dense) (*mat.Dense, error) {
 		}
 	}
 	return mat.DenseCopyOf(st.T()), nil
+}
+
+// honestErrors widens the standard errors of a data fit whose residuals are
+// correlated in time. The usual se = σ̂ √diag((JᵀJ)⁻¹) already grows with a
+// residual above the noise (σ̂² = SSR/ν), but assumes independent residuals;
+// for residuals that follow an AR(1) process with lag-1 autocorrelation
+// ρ > 0, the variance of a least-squares estimate grows by about
+// (1 + ρ)/(1 − ρ) (the effective number of observations n(1 − ρ)/(1 + ρ);
+// common practice, from memory), ρ ≈ 1 − d/2 with d the Durbin–Watson
+// statistic (Durbin & Watson, Biometrika 1950). Only ρ above 2/√n, twice
+// its standard deviation for white noise, counts.
+func honestErrors(res *FitResult) {
+	res.Inflation = 1
+	if res.Residual == nil {
+		return
+	}
+	rho, ok := Lag1(res.Residual)
+	if !ok {
+		return
+	}
+	res.Lag1 = rho
+	n, _ := res.Residual.Dims()
+	if rho <= 2/math.Sqrt(float64(n)) {
+		return
+	}
+	f := math.Sqrt((1 + rho) / (1 - math.Min(rho, 0.99)))
+	res.Inflation = f
+	for j := range res.KStdErr {
+		res.KStdErr[j] *= f
+	}
+	for i := range res.C0StdErr {
+		res.C0StdErr[i] *= f
+	}
+	res.Warnings = append(res.Warnings, fmt.Sprintf("the residuals are correlated in time (lag-1 autocorrelation %.2f, Durbin–Watson d = %.2f; independent noise gives 0 and 2): the model does not describe the data fully, so the standard errors were multiplied by %.2f", rho, 2*(1-rho), f))
+}
+
+// Lag1 is the lag-1 autocorrelation of the residuals down each column,
+// pooled over columns, Σ r_i r_{i+1} / Σ r_i² (Durbin & Watson 1950:
+// d ≈ 2(1 − ρ)); about 0 ± 1/√n for independent noise. false when there are
+// fewer than 10 rows or no residual.
+func Lag1(res *mat.Dense) (float64, bool) {
+	if res == nil {
+		return 0, false
+	}
+	n, q := res.Dims()
+	if n < 10 {
+		return 0, false
+	}
+	var num, den float64
+	for j := 0; j < q; j++ {
+		for i := 0; i < n; i++ {
+			v := res.At(i, j)
+			den += v * v
+			if i+1 < n {
+				num += v * res.At(i+1, j)
+			}
+		}
+	}
+	if !(den > 0) {
+		return 0, false
+	}
+	return num / den, true
 }
