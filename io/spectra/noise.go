@@ -115,6 +115,17 @@ func channelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, stri
 	q := quantum(v, blind)
 	var diffs [][]float64 // per channel
 	diffs = make([][]float64, m)
+	// One buffer for all channels, cut in capacity-limited slices: appends
+	// never reallocate (growing m slices by doubling made twice the data
+	// in garbage).
+	per := max(n-2, 0)
+	if pre >= 2 {
+		per = pre - 1
+	}
+	buf := make([]float64, m*per)
+	for j := range diffs {
+		diffs[j] = buf[j*per : j*per : (j+1)*per]
+	}
 	src := fmt.Sprintf("second differences in time of all %d spectra", n)
 	if pre >= 2 {
 		src = fmt.Sprintf("successive differences of the %d pre-reaction spectra", pre)

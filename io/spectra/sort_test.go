@@ -2,6 +2,9 @@ package spectra
 
 import (
 	"fmt"
+	"math"
+	"math/rand/v2"
+	"sort"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -52,5 +55,49 @@ func BenchmarkSortByTime(b *testing.B) {
 		s := descendingSeries(300000)
 		b.StartTimer()
 		s.sortByTime()
+	}
+}
+
+// median by selection equals the median by its definition (the middle value
+// of the sorted sample, or the mean of the two middle ones; common
+// practice), on random samples with many ties, sorted and reversed runs and
+// sizes around the point where selection hands over to a sort.
+func TestMedianMatchesSortedDefinition(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	for n := 1; n < 300; n += 1 + n/7 {
+		for trial := 0; trial < 6; trial++ {
+			v := make([]float64, n)
+			for i := range v {
+				switch trial {
+				case 0:
+					v[i] = rng.NormFloat64()
+				case 1:
+					v[i] = float64(rng.IntN(4)) // ties
+				case 2:
+					v[i] = float64(i)
+				case 3:
+					v[i] = float64(n - i)
+				case 4:
+					v[i] = 7
+				default:
+					v[i] = math.Abs(rng.NormFloat64()) * 1e-3
+				}
+			}
+			s := append([]float64(nil), v...)
+			sort.Float64s(s)
+			want := s[n/2]
+			if n%2 == 0 {
+				want = (s[n/2-1] + s[n/2]) / 2
+			}
+			in := append([]float64(nil), v...)
+			if got := median(v); got != want {
+				t.Fatalf("n=%d trial %d: median %g, sorted definition %g", n, trial, got, want)
+			}
+			for i := range v {
+				if v[i] != in[i] {
+					t.Fatalf("n=%d: median changed its argument", n)
+				}
+			}
+		}
 	}
 }
