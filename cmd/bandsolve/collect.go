@@ -16,7 +16,7 @@ folder in the order given, to compare a series of experiments (say, a rate
 constant against the catalyst loading). Columns: folder, status (ok, or why
 the folder has no readable summary.json), components, rank_estimate, mode,
 spectra, points, noise_sigma, lack_of_fit_percent, noise_lack_of_fit_percent,
-residual_to_noise (lack of fit over the noise's: 1 = fits to the noise),
+residual_to_noise (the residual over the noise: 1 = fits to the noise),
 kinetics_model, then k_per_s[STEP] and stderr_per_s[STEP] for every
 kinetic step met, then warnings (how many). A value a folder lacks is an
 empty cell. The exit status is 1 if any folder had no readable summary.

@@ -20,7 +20,7 @@ const SummaryName = "summary.json"
 const maxSummary = 16 << 20
 
 // The fixed columns of the collected table, each a key of summary.json
-// (CONTRACT.md) except folder, status and residual_to_noise.
+// (CONTRACT.md) except folder and status.
 var fixedColumns = []string{"folder", "status", "components", "rank_estimate", "mode", "spectra", "points",
 	"noise_sigma", "lack_of_fit_percent", "noise_lack_of_fit_percent", "residual_to_noise", "kinetics_model"}
 
@@ -31,7 +31,8 @@ var fixedColumns = []string{"folder", "status", "components", "rank_estimate", "
 // empty cell; a folder without a readable summary.json keeps its row, with
 // the reason in status, and is listed in problems.
 //
-// residual_to_noise is lack_of_fit_percent ÷ noise_lack_of_fit_percent:
+// residual_to_noise is the summary's own key when the run wrote one (the
+// noise-weighted fit), else lack_of_fit_percent ÷ noise_lack_of_fit_percent:
 // both are 100·‖·‖/‖D‖ of the same data, so the ratio is the root mean
 // square residual over the noise level (1 = the model fits to the noise).
 func Collect(folders []string) (t output.Table, problems []string) {
@@ -57,7 +58,9 @@ func Collect(folders []string) (t output.Table, problems []string) {
 				r.cells[k] = v
 			}
 		}
-		if q := s.ratio("lack_of_fit_percent", "noise_lack_of_fit_percent"); q != "" {
+		if v, ok := s.scalar("residual_to_noise"); ok {
+			r.cells["residual_to_noise"] = v
+		} else if q := s.ratio("lack_of_fit_percent", "noise_lack_of_fit_percent"); q != "" {
 			r.cells["residual_to_noise"] = q
 		}
 		if kin := s.object("kinetics"); kin != nil {

@@ -42,7 +42,8 @@ func TestCollect(t *testing.T) {
   "kinetics": {"model": "A -> C", "rate_constants": [{"step": "A -> C", "k_per_s": 0.01}]}}`)
 	none := writeSummary(t, filepath.Join(root, "failed"), "")
 	bad := writeSummary(t, filepath.Join(root, "bad"), `[1, 2]`)
-	tab, problems := Collect([]string{full, part, none, bad})
+	own := writeSummary(t, filepath.Join(root, "weighted"), `{"lack_of_fit_percent": 2, "noise_lack_of_fit_percent": 1, "residual_to_noise": 1.03}`)
+	tab, problems := Collect([]string{full, part, none, bad, own})
 	if len(problems) != 2 || !strings.Contains(problems[0], "failed") || !strings.Contains(problems[1], "bad") {
 		t.Errorf("problems = %q, want the folder without and the one with a broken summary", problems)
 	}
@@ -60,8 +61,8 @@ func TestCollect(t *testing.T) {
 		t.Fatalf("no column %q in %q", col, head)
 		return ""
 	}
-	if len(rows) != 5 {
-		t.Fatalf("%d rows, want a header and 4", len(rows))
+	if len(rows) != 6 {
+		t.Fatalf("%d rows, want a header and 5", len(rows))
 	}
 	for _, c := range []struct {
 		row       int
@@ -77,6 +78,8 @@ func TestCollect(t *testing.T) {
 		{2, "warnings", "0"},
 		{3, "folder", none}, {3, "components", ""},
 		{4, "folder", bad},
+		// A summary's own residual_to_noise is taken as written.
+		{5, "residual_to_noise", "1.03"},
 	} {
 		if got := cell(c.row, c.col); got != c.want {
 			t.Errorf("row %d, %s = %q, want %q", c.row, c.col, got, c.want)
