@@ -161,8 +161,12 @@ type Result struct {
 	ResidualSS       float64
 	Iterations       int
 	Converged        bool
-	History          []float64 // lack of fit % per iteration
-	Warnings         []string
+	History          []float64 // lack of fit % of each accepted iteration
+	// HistoryAt is the iteration number of each History entry: an
+	// extrapolated step that did not lower the residual is undone and
+	// leaves a gap, so the last number, not len(History), is Iterations.
+	HistoryAt []int
+	Warnings  []string
 	// Degenerate: ALS was stopped because the components grew far beyond
 	// the data's size while cancelling each other (see driftLimit).
 	Degenerate bool
@@ -592,6 +596,7 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		cPrev = cPlain
 		lof := 100 * math.Sqrt(ssr/total)
 		res.History = append(res.History, lof)
+		res.HistoryAt = append(res.HistoryAt, it)
 		res.Iterations = it
 		if opt.Observe != nil {
 			opt.Observe(it, lof)

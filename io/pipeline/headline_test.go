@@ -3,8 +3,13 @@ package pipeline
 import (
 	"fmt"
 	"math"
+	"os"
+	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
+
+	"github.com/bandsolve/bandsolve/io/output"
 )
 
 // The terminal headline leads with the residual relative to the noise,
@@ -42,5 +47,50 @@ func TestHeadlineResidualToNoise(t *testing.T) {
 	}
 	if strings.Contains(out, "explained") {
 		t.Errorf("explained variance on the terminal:\n%s", out)
+	}
+}
+
+// iterations.csv lists each accepted ALS iteration under its own number, so
+// its last row is the iteration count of summary.json and of the terminal
+// (the figure plots that column). Definition: an iteration is one profiles
+// step plus one spectra step; an extrapolated step that did not lower the
+// residual is undone, and its number is skipped rather than renumbered.
+func TestIterationsFileAgreesWithSummary(t *testing.T) {
+	_, r := demoSpecies(t)
+	out := filepath.Join(t.TempDir(), "out")
+	st, err := output.NewStage(out, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Abort()
+	if err := WriteResults(r, st); err != nil {
+		t.Fatal(err)
+	}
+	if err := st.Commit(); err != nil {
+		t.Fatal(err)
+	}
+	b, err := os.ReadFile(filepath.Join(out, "iterations.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	rows := strings.Split(strings.TrimSpace(string(b)), "\n")[1:]
+	if len(rows) != len(r.ALS.History) {
+		t.Fatalf("%d rows, %d accepted iterations", len(rows), len(r.ALS.History))
+	}
+	last, prev := 0, 0
+	for _, row := range rows {
+		it, err := strconv.Atoi(strings.Split(row, ",")[0])
+		if err != nil || it <= prev {
+			t.Fatalf("row %q: iteration numbers must rise", row)
+		}
+		prev, last = it, it
+	}
+	if s := MakeSummary(r); last != s.Iterations || s.Iterations != r.ALS.Iterations {
+		t.Errorf("iterations.csv ends at %d, summary says %d", last, s.Iterations)
+	}
+	var tb strings.Builder
+	PrintTable(r, &tb)
+	if !strings.Contains(tb.String(), fmt.Sprintf("iterations     %d,", last)) {
+		t.Errorf("terminal does not say %d iterations:\n%s", last, tb.String())
 	}
 }

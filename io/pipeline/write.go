@@ -140,8 +140,14 @@ func WriteResults(r *Result, st *output.Stage) error {
 	}
 	if r.ALS != nil {
 		t := output.Table{Header: []string{"iteration", "lack_of_fit_percent"}}
+		// Each accepted iteration under its own number, so the last row is
+		// the iteration count of summary.json (undone extrapolations leave gaps).
 		for i, v := range r.ALS.History {
-			t.Rows = append(t.Rows, []string{strconv.Itoa(i + 1), output.Float(v)})
+			at := i + 1
+			if i < len(r.ALS.HistoryAt) {
+				at = r.ALS.HistoryAt[i]
+			}
+			t.Rows = append(t.Rows, []string{strconv.Itoa(at), output.Float(v)})
 		}
 		if err := st.Write("iterations.csv", t.CSV()); err != nil {
 			return err
