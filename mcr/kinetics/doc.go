@@ -43,7 +43,8 @@
 // refined. Half-lives are ln 2/k for first-order steps, 1/(2k[A]0) for 2A → … and 1/(k[A]0)
 // for A + B → … (assuming [A]0 = [B]0); FitResult.HalfLifeNote states which was used.
 //
-// AutoMap fits every assignment of observed columns to species (or steps) and keeps the best.
+// AutoMap scores every assignment of observed columns to species (or steps) by the cosines of
+// their shapes at the starting rate constants and fits only the few best, keeping the best fit.
 //
 // All computations are serial with a fixed summation order, so results are bit-identical
 // from run to run.

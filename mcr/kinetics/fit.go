@@ -6,6 +6,7 @@ import (
 	"math"
 	"sort"
 
+	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -616,11 +617,17 @@ func halfLives(s *Scheme, k, c0 []float64, c *mat.Dense) ([]float64, []string) {
 // is, by fitting every injective assignment (at most 5040) and keeping the lowest RMS.
 // Assignments are tried in lexicographic order and a later one replaces the best only when its
 // RMS is lower by more than a relative 1e-9, so ties go to the lexicographically first.
+//
+// Not every assignment is fitted: the model is simulated once at the
+// starting rate constants, each assignment is scored by the summed cosine
+// between its observed and model columns (shapes, since observed columns
+// have arbitrary scale), and only the autoMapFits best-scoring ones get a
+// full fit. Five species give 120 assignments but 4 fits.
 func AutoMap(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions) ([]int, error) {
 	if s == nil || observed == nil {
 		return nil, errors.New("kinetics: auto map: missing scheme or data")
 	}
-	_, q := observed.Dims()
+	n, q := observed.Dims()
 	nModel := len(s.Species)
 	if opt.UseExtents {
 		nModel = len(s.Steps)
@@ -631,44 +638,91 @@ func AutoMap(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions) ([
 	count := 1
 	for i := 0; i < q; i++ {
 		count *= nModel - i
-		if count > 5040 {
-			return nil, fmt.Errorf("kinetics: auto map: more than 5040 assignments; give the map explicitly")
+		if count > 40320 {
+			return nil, fmt.Errorf("kinetics: auto map: more than 40320 assignments; give the map explicitly")
 		}
 	}
-	var best []int
-	bestRMS := math.Inf(1)
-	var firstErr error
+	cos := shapeScores(s, times, observed, opt, n, q, nModel)
+	type cand struct {
+		cols  []int
+		score float64
+	}
+	var cands []cand
 	cur := make([]int, q)
 	used := make([]bool, nModel)
-	var rec func(pos int)
-	rec = func(pos int) {
+	var rec func(pos int, score float64)
+	rec = func(pos int, score float64) {
 		if pos == q {
-			res, err := FitProfiles(s, times, observed, cur, opt)
-			if err != nil {
-				if firstErr == nil {
-					firstErr = err
-				}
-				return
-			}
-			if best == nil || res.RMS < bestRMS*(1-1e-9) {
-				best, bestRMS = append([]int(nil), cur...), res.RMS
-			}
+			cands = append(cands, cand{append([]int(nil), cur...), score})
 			return
 		}
 		for c := 0; c < nModel; c++ {
 			if !used[c] {
 				used[c] = true
 				cur[pos] = c
-				rec(pos + 1)
+				rec(pos+1, score+cos[pos][c])
 				used[c] = false
 			}
 		}
 	}
-	rec(0)
+	rec(0, 0)
+	// Stable: ties keep enumeration order, so the choice is deterministic.
+	sort.SliceStable(cands, func(a, b int) bool { return cands[a].score > cands[b].score })
+	var best []int
+	bestRMS := math.Inf(1)
+	var firstErr error
+	for i := 0; i < len(cands) && i < autoMapFits; i++ {
+		res, err := FitProfiles(s, times, observed, cands[i].cols, opt)
+		if err != nil {
+			if firstErr == nil {
+				firstErr = err
+			}
+			continue
+		}
+		if best == nil || res.RMS < bestRMS*(1-1e-9) {
+			best, bestRMS = cands[i].cols, res.RMS
+		}
+	}
 	if best == nil {
 		return nil, fmt.Errorf("kinetics: auto map: no assignment could be fitted: %w", firstErr)
 	}
 	return best, nil
+}
+
+// autoMapFits is how many of the best-scoring assignments AutoMap fits.
+const autoMapFits = 4
+
+// shapeScores returns cos[j][c], the cosine between observed column j and
+// model column c simulated at the starting rate constants (0 when the
+// simulation fails, so every assignment ties and enumeration order rules).
+func shapeScores(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions, n, q, nModel int) [][]float64 {
+	cos := make([][]float64, q)
+	for j := range cos {
+		cos[j] = make([]float64, nModel)
+	}
+	p, err := newFitProblem(s, times, opt, n)
+	if err != nil {
+		return cos
+	}
+	sim, err := s.SimulateWith(p.k0, p.c00, times, opt.T0, p.opt.Sim)
+	if err != nil {
+		return cos
+	}
+	model := sim.C
+	if opt.UseExtents {
+		model = sim.Extents
+	}
+	for j := 0; j < q; j++ {
+		o := mat.Col(nil, j, observed)
+		for c := 0; c < nModel; c++ {
+			mc := mat.Col(nil, c, model)
+			no, nm := floats.Norm(o, 2), floats.Norm(mc, 2)
+			if no > 0 && nm > 0 {
+				cos[j][c] = floats.Dot(o, mc) / (no * nm)
+			}
+		}
+	}
+	return cos
 }
 
 // FitData fits the data matrix directly, D (n × m) ≈ C(k) Sᵀ, with the spectra S solved by
