@@ -401,13 +401,35 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 	}
 	if f.FrobeniusSq > 0 {
 		if kInd != est && nF != est {
-			warn("Malinowski's IND (%d) and F-test (%d) both differ from the consensus %d: check σ and the noise model", kInd, nF, est)
+			warn("%s", disagreement(rep.Criteria, est))
 		}
 		if nFloor == maxRank && est == maxRank {
 			warn("the estimate reached MaxRank %d: the rank may be higher or σ too small", maxRank)
 		}
 	}
 	return rep, nil
+}
+
+// disagreement says which rank criteria differ from the estimate and which
+// agree with it, so that "both differ" is not read as "all the others say
+// the estimate".
+func disagreement(crit []Criterion, est int) string {
+	var agree, differ []string
+	for _, c := range crit {
+		e := fmt.Sprintf("%s %d", c.Name, c.Estimate)
+		if c.Estimate == est {
+			agree = append(agree, e)
+		} else {
+			differ = append(differ, e)
+		}
+	}
+	msg := fmt.Sprintf("rank criteria disagree: the estimate is %d, but %s", est, strings.Join(differ, ", "))
+	if len(agree) > 0 {
+		msg += fmt.Sprintf("; only %s give(s) %d", strings.Join(agree, ", "), est)
+	} else {
+		msg += fmt.Sprintf("; no single criterion gives %d (it counts the smooth factors above the noise floor)", est)
+	}
+	return msg + ": check the noise level (--pre names the spectra taken before the reaction) and look at the singular values in the report"
 }
 
 // fSignificance is the upper-tail probability of Malinowski's F(1, dof) statistic for an

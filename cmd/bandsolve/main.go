@@ -129,7 +129,7 @@ Example:
 
   bandsolve demo --out demo-results
   bandsolve resolve --data demo-results/input/series.csv --kind single-beam \
-      --blank demo-results/input/blank.csv --pre 4 --out my-run
+      --blank demo-results/input/blank.csv --pre 3 --out my-run
 
 Flags:
 `

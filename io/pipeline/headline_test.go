@@ -2,6 +2,7 @@ package pipeline
 
 import (
 	"fmt"
+	"io"
 	"math"
 	"os"
 	"path/filepath"
@@ -92,5 +93,26 @@ func TestIterationsFileAgreesWithSummary(t *testing.T) {
 	PrintTable(r, &tb)
 	if !strings.Contains(tb.String(), fmt.Sprintf("iterations     %d,", last)) {
 		t.Errorf("terminal does not say %d iterations:\n%s", last, tb.String())
+	}
+}
+
+// A --pre that counts a spectrum of the reaction inflates σ: the demo has 3
+// spectra before the reagent (demo.Truth.Pre) and its noise is constant in
+// detector counts; with --pre 4 the fourth, already changing, spectrum
+// makes σ about 65 times the residual (a fit cannot be that much better
+// than its noise: definition of σ as the noise's standard deviation).
+func TestWrongPreIsWarned(t *testing.T) {
+	truth, dir := writeDemo(t)
+	for _, pre := range []int{truth.Pre, truth.Pre + 1} {
+		s := demoSettings(dir, true)
+		s.Pre, s.Model, s.T0, s.Bands, s.Checks = pre, "", "", "off", "off"
+		r, err := Run(s, io.Discard)
+		if err != nil {
+			t.Fatal(err)
+		}
+		warned := hasWarning(r, "--pre")
+		if q, _ := residualToNoise(r); warned != (pre > truth.Pre) {
+			t.Errorf("--pre %d (truth %d): residual/noise %.3g, warned %v", pre, truth.Pre, q, warned)
+		}
 	}
 }

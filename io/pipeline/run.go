@@ -583,6 +583,9 @@ func resolve(r *Result, log io.Writer) error {
 	if r.NoiseLOF > 0 && r.LackOfFit > 3*r.NoiseLOF && r.LackOfFit > 0.5 {
 		r.Warnings = append(r.Warnings, fmt.Sprintf("lack of fit %.3g %% is well above the %.3g %% noise alone would give: a component may be missing, or a constraint (closure?) does not hold for this data", r.LackOfFit, r.NoiseLOF))
 	}
+	if q, ok := residualToNoise(r); ok && q < 0.5 && r.Settings.Pre > 0 && strings.HasPrefix(r.Rank.SigmaSource, "pre-reaction") {
+		r.Warnings = append(r.Warnings, fmt.Sprintf("the fit's residual is %.3g times smaller than the noise σ = %.3g that the %d spectra before the reaction imply (--pre %d): some of them probably changed already, which inflates σ; give --pre the number of spectra taken before the reaction started", 1/q, r.Rank.Sigma, r.Settings.Pre, r.Settings.Pre))
+	}
 	return afterResolve(r, data, opt, log)
 }
 
