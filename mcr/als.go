@@ -148,6 +148,15 @@ type Options struct {
 	Tolerance       float64 // relative change of the residual sum of squares, default 1e-8
 	// Observe, when set, is told the lack of fit after every iteration.
 	Observe func(iter int, lackOfFitPercent float64)
+	// Baseline, when set (m × b), adds b baseline terms with these fixed
+	// shapes and free-sign coefficients per spectrum, fitted jointly with
+	// the components (see baseline.go); Result.Baseline holds the
+	// coefficients and C, S only the components.
+	Baseline *mat.Dense
+	// baselineTerms: the last baselineTerms components are baseline terms
+	// (set by resolveWithBaseline; they may vanish without a warning).
+	baselineTerms int
+	baselineBasis *mat.Dense // orthonormal basis of the baseline shapes (species mode)
 	// stopAtRoundingFloor ends ALS at the first plain iteration that
 	// raises the residual (see exactSteps in Resolve).
 	stopAtRoundingFloor bool
@@ -170,6 +179,9 @@ type Result struct {
 	// Degenerate: ALS was stopped because the components grew far beyond
 	// the data's size while cancelling each other (see driftLimit).
 	Degenerate bool
+	// Baseline holds the n × b baseline coefficients when Options.Baseline
+	// was set (nil otherwise).
+	Baseline *mat.Dense
 }
 
 // driftLimit is the ratio Σ_k ‖c_k‖‖s_k‖ / ‖D‖_F above which components are
@@ -321,6 +333,9 @@ func residualSSDense(d, c, s *mat.Dense) float64 {
 // block (SolveMany), so the residual never increases except through the
 // normalisation, which leaves C Sᵀ unchanged.
 func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
+	if opt.Baseline != nil {
+		return resolveWithBaseline(d, c0, opt)
+	}
 	n, m := d.Dims()
 	rc, k := c0.Dims()
 	if rc != n {
@@ -499,6 +514,9 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 			return nil, fmt.Errorf("resolve: spectra step, iteration %d: %w", it, err)
 		}
 		s = transpose(st)
+		if opt.baselineBasis != nil {
+			lowerSpectra(s, k-opt.baselineTerms, nnS, opt.baselineBasis)
+		}
 		if !opt.Closure {
 			// On a copy: c may still be cPlain, the profiles that go with
 			// sPlain if this iteration is undone.
@@ -615,7 +633,7 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 	res.ResidualSS = prev
 	res.LackOfFitPercent = 100 * math.Sqrt(prev/total)
 	res.ExplainedPercent = 100 * (1 - prev/total)
-	for j := 0; j < k; j++ {
+	for j := 0; j < k-opt.baselineTerms; j++ {
 		if floatsMaxAbs(mat.Col(nil, j, c)) == 0 {
 			res.Warnings = append(res.Warnings, fmt.Sprintf("component %d vanished: its profile is zero everywhere; try one component fewer", j+1))
 		}

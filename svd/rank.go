@@ -78,6 +78,11 @@ type RankReport struct {
 	// reference-noise pattern, -1 none.
 	ReferencePatternFactor int
 	Warnings               []string
+	// consensusWarnings: Warnings from this index on judge the consensus
+	// count (replaced when ApplyChemical changes it); ind, fTest are those
+	// criteria's counts.
+	consensusWarnings int
+	ind, fTest        int
 }
 
 // EstimateRank estimates how many factors of D carry chemistry. f may be nil (then D is
@@ -145,13 +150,13 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 		return nil, fmt.Errorf("svd: estimate rank: Alpha %v outside (0, 1)", opt.Alpha)
 	}
 	if opt.Sigma < 0 || math.IsNaN(opt.Sigma) || math.IsInf(opt.Sigma, 0) {
-		return nil, fmt.Errorf("svd: estimate rank: Sigma %v must be finite and ≥ 0", opt.Sigma)
+		return nil, fmt.Errorf("svd: estimate rank: noise level %v must be finite and ≥ 0", opt.Sigma)
 	}
 	if opt.PreRows < 0 || opt.PreRows > n {
-		return nil, fmt.Errorf("svd: estimate rank: PreRows %d outside 0..%d", opt.PreRows, n)
+		return nil, fmt.Errorf("svd: estimate rank: %d pre-reaction spectra, outside 0..%d", opt.PreRows, n)
 	}
 	if opt.MaxRank < 0 {
-		return nil, fmt.Errorf("svd: estimate rank: MaxRank %d is negative", opt.MaxRank)
+		return nil, fmt.Errorf("svd: estimate rank: largest rank %d is negative", opt.MaxRank)
 	}
 	if opt.ReferenceRow < -1 || opt.ReferenceRow >= n {
 		return nil, fmt.Errorf("svd: estimate rank: ReferenceRow %d outside -1..%d", opt.ReferenceRow, n-1)
@@ -222,10 +227,10 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 			}
 		}
 		if c < 20 {
-			warn("σ estimated from a matrix with only %d rows or columns: the noise floor is uncertain; give Sigma or PreRows", c)
+			warn("σ estimated from a matrix with only %d rows or columns: the noise floor is uncertain; give the noise level or the pre-reaction spectra (--pre N)", c)
 		}
 		if opt.PreRows == 1 {
-			warn("PreRows = 1 gives no successive difference: σ estimated from the whole matrix")
+			warn("one pre-reaction spectrum gives no successive difference: σ estimated from the whole matrix")
 		}
 	}
 	rep.Sigma, rep.SigmaSource = sigma, src
@@ -346,7 +351,7 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 	}
 	// consensus: the factors above the threshold, re-diagonalized without the pattern
 	// direction, that have a structured spectrum and a time vector that is not white.
-	var est, rough int
+	var est, rough, beyond int
 	for _, sf := range signalFactors(f, kAbove, dirs, patDir) {
 		aU, aV := Autocorrelation(sf.u), Autocorrelation(sf.v)
 		switch {
@@ -354,13 +359,17 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 			if est < maxRank {
 				est++
 			} else {
-				warn("a structured factor above the noise exceeds MaxRank %d", maxRank)
+				beyond++
 			}
 		default:
 			rough++
 		}
 	}
 	rep.Estimate = est
+	rep.consensusWarnings = len(rep.Warnings)
+	if beyond > 0 {
+		warn("%d more structured factor(s) above the noise lie beyond the %d examined", beyond, maxRank)
+	}
 
 	patNote := ""
 	if pat >= 0 {
@@ -399,12 +408,13 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 		fmt.Fprintf(&b, ": estimate %d.", est)
 		rep.Reason = b.String()
 	}
+	rep.ind, rep.fTest = kInd, nF
 	if f.FrobeniusSq > 0 {
 		if kInd != est && nF != est {
 			warn("%s", disagreement(rep.Criteria, est))
 		}
 		if nFloor == maxRank && est == maxRank {
-			warn("the estimate reached MaxRank %d: the rank may be higher or σ too small", maxRank)
+			warn("the estimate reached the %d factors examined: the rank may be higher or σ too small", maxRank)
 		}
 	}
 	return rep, nil

@@ -37,9 +37,17 @@ type Summary struct {
 	FeasibleBands []BandJSON    `json:"feasible_bands"`
 	Kinetics      *KineticsJSON `json:"kinetics,omitempty"`
 	EFA           *EFAJSON      `json:"efa,omitempty"`
-	Advice        []string      `json:"advice"`
-	Notes         []string      `json:"notes"`
-	Warnings      []string      `json:"warnings"`
+	// Baseline is the baseline model used (off, offset, linear, poly:N);
+	// BaselineReason says how it was chosen.
+	Baseline       string `json:"baseline"`
+	BaselineReason string `json:"baseline_reason,omitempty"`
+	// OutlierSpectra are the spectra set aside (weight zero); NuisanceFactors
+	// the factors above the noise that are not chemical components.
+	OutlierSpectra  []OutlierJSON  `json:"outlier_spectra"`
+	NuisanceFactors []NuisanceJSON `json:"nuisance_factors"`
+	Advice          []string       `json:"advice"`
+	Notes           []string       `json:"notes"`
+	Warnings        []string       `json:"warnings"`
 
 	// Constraints, their checks, the bands' note and the bootstrap
 	// (constraints.go; keys in docs/constraints.md).
@@ -167,4 +175,21 @@ type EFAEntry struct {
 	Component  string   `json:"component"`
 	AppearS    *float64 `json:"appear_s"`
 	DisappearS *float64 `json:"disappear_s"`
+}
+
+// OutlierJSON is one spectrum set aside.
+type OutlierJSON struct {
+	Time       float64 `json:"time_s"`
+	Experiment string  `json:"experiment"`
+	Source     string  `json:"source"`
+	Reason     string  `json:"reason"`
+}
+
+// NuisanceJSON is one factor above the noise that is not a chemical component.
+type NuisanceJSON struct {
+	Factor       int       `json:"factor"`
+	Kind         string    `json:"kind"`
+	Looks        string    `json:"looks_like"`
+	SharePercent float64   `json:"share_of_signal_percent"`
+	TimesS       []float64 `json:"times_s,omitempty"`
 }

@@ -77,6 +77,17 @@ type Result struct {
 	// Constraints: per-component constraints, their checks, uniqueness
 	// ranges and bootstrap intervals (constraints.go).
 	Constraints *ConstraintReport
+	// Nuisances (nuisance.go): the baseline order (−1 none) and how it was
+	// chosen, its coefficients (n × b) on its shapes (m × b), the
+	// classification of the factors above the noise, and the spectra set
+	// aside.
+	BaselineOrder    int
+	BaselineReason   string
+	BaselineProfiles *mat.Dense
+	BaselineShapes   *mat.Dense
+	Chemical         *svd.ChemicalRank
+	DiffChemical     *svd.ChemicalRank
+	SetAside         []SetAside
 }
 
 // Run carries out the analysis described by s. Progress lines go to log
@@ -94,7 +105,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	if err := checkKineticsSettings(s); err != nil {
 		return nil, err
 	}
-	r := &Result{Settings: s, Started: time.Now()}
+	r := &Result{Settings: s, Started: time.Now(), BaselineOrder: -1}
 	kind := spectra.Kind(s.Kind)
 	folder := spectra.FolderOptions{TimesFile: s.Path(s.Times), TimesFromName: s.TimesFromName, TimeUnit: s.TimeUnit, Resample: s.Resample}
 	if s.Times != "" {
@@ -280,6 +291,15 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	n, m := r.D.Dims()
 	fmt.Fprintf(log, "data: %d spectra × %d points, %s mode\n", n, m, r.Mode)
 
+	drops, err := parseDrops(r)
+	if err != nil {
+		return nil, err
+	}
+	if len(drops) > 0 {
+		r.SetAside = drops
+		imputeRows(r, drops, nil, nil)
+	}
+
 	// Factor analysis.
 	maxF := 0
 	if largeData(n, m) {
@@ -296,35 +316,38 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 		refRow = r.Experiments[0].RefRows[0]
 	}
 	pooled := pooledSigma(s, r, r.D)
-	rank, err := svd.EstimateRank(r.D, f, svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooled, Alpha: s.Alpha, ReferenceRow: refRow})
-	if err != nil {
-		return nil, fmt.Errorf("rank: %w", err)
+	in := rankInputs{opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooled, Alpha: s.Alpha, ReferenceRow: refRow}, maxF: maxF, noise: pooled}
+	if err := chooseBaseline(r, f, in); err != nil {
+		return nil, err
 	}
-	r.Rank = rank
+	rank := r.Rank
 	if pooled > 0 {
 		rank.SigmaSource = "pre-reaction rows of every experiment"
 	}
 	if r.Mode == mcr.Species {
 		dd := stack(diffRows)
-		fd, err := differenceFactors(r, dd, f, maxF)
-		if err == nil {
-			ref := -1
-			if len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
-				ref = r.Experiments[0].RefRows[0]
-			}
-			r.DiffRank, _ = svd.EstimateRank(dd, fd, svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooledSigma(s, r, dd), Alpha: s.Alpha, ReferenceRow: ref})
+		ref := -1
+		if len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
+			ref = r.Experiments[0].RefRows[0]
+		}
+		din := rankInputs{opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooledSigma(s, r, dd), Alpha: s.Alpha, ReferenceRow: ref}, maxF: maxF, noise: pooledSigma(s, r, dd)}
+		if r.BaselineOrder >= 0 {
+			r.DiffRank, r.DiffChemical, _ = chemicalRank(r, dd, nil, r.BaselineOrder, din, false)
+		} else if fd, err := differenceFactors(r, dd, f, maxF); err == nil {
+			r.DiffRank, r.DiffChemical, _ = chemicalRank(r, dd, fd, -1, din, false)
 		}
 		if r.DiffRank != nil {
 			switch {
 			case r.DiffRank.Estimate == 0:
 				r.Advice = append(r.Advice, "the difference spectra show no change beyond noise: nothing reacted")
 			case r.DiffRank.Estimate < rank.Estimate:
-				r.Advice = append(r.Advice, fmt.Sprintf("absolute absorbance has rank %d and the differences rank %d: %d species take part in %d independent reaction(s)", rank.Estimate, r.DiffRank.Estimate, rank.Estimate, r.DiffRank.Estimate))
+				r.Advice = append(r.Advice, fmt.Sprintf("absolute absorbance has %d chemical component(s) and the differences %d: at least %d species take part in %d independent reaction(s) (species whose amounts stay in a fixed ratio, or several closed subsystems, add no rank and can hide)", rank.Estimate, r.DiffRank.Estimate, rank.Estimate, r.DiffRank.Estimate))
 			}
 		}
 	} else if rank.Estimate > 0 {
-		r.Advice = append(r.Advice, fmt.Sprintf("difference data has rank %d = the number of independent reactions; to resolve species give a blank single beam (--blank) or absorbance input", rank.Estimate))
+		r.Advice = append(r.Advice, fmt.Sprintf("difference data has rank %d = the number of independent reactions it shows (at least %d species take part; a rank deficiency can hide more); to resolve species give a blank single beam (--blank) or absorbance input", rank.Estimate, rank.Estimate+1))
 	}
+	nuisanceAdvice(r)
 	r.Warnings = append(r.Warnings, rank.Warnings...)
 	if rank.ReferencePatternFactor >= 0 {
 		r.Advice = append(r.Advice, fmt.Sprintf("factor %d is the reference spectrum's own noise (flat in time, white across the axis): one fixed pattern in every difference spectrum, not a reaction, so it is not counted; averaging several pre-reaction spectra as the reference (--pre N --reference mean:N) shrinks it by √N", rank.ReferencePatternFactor+1))
@@ -532,9 +555,9 @@ func resolve(r *Result, log io.Writer) error {
 		}
 	}
 	fmt.Fprintf(log, "resolving %d component(s)\n", k)
-	res, err := startALS(r, data, c0, opt)
+	res, data, err := resolveNuisance(r, data, c0, opt, log)
 	if err != nil {
-		return explainResolveError(r, err)
+		return err
 	}
 	if err := checkFinite(res); err != nil {
 		return err

@@ -33,6 +33,9 @@ type Settings struct {
 	Regions       []string
 	Excludes      []string
 	Resample      bool
+	Baseline      string
+	KeepOutliers  bool
+	Drops         []string
 	Components    string
 	Closure       string
 	Model         string
@@ -78,6 +81,7 @@ func NewSettings() *Settings {
 		Reference:  "first",
 		TimeUnit:   "s",
 		Components: "auto",
+		Baseline:   "auto",
 		Closure:    "1",
 		KineticFit: "data",
 		Bands:      "on",
@@ -302,6 +306,17 @@ var options = func() []Option {
 	add(opt("exclude", "LO:HI", "drop this axis range (repeatable), e.g. a saturated band", true, true, checkRange(s10), g10))
 	s11, g11 := boolean(func(s *Settings) *bool { return &s.Resample })
 	add(opt("resample", "", "interpolate spectra on other axes onto the first one (common range only)", false, true, s11, g11))
+	sb1, gb1 := str(func(s *Settings) *string { return &s.Baseline })
+	add(opt("baseline", "off|offset|linear|poly:N|auto", "baseline drift fitted with the components as a nuisance (never counted as one): a polynomial of the axis per spectrum; auto chooses the order by an F-test at --alpha", false, true, func(s *Settings, v string) error {
+		if _, _, err := parseBaseline(v); err != nil {
+			return err
+		}
+		return sb1(s, v)
+	}, gb1))
+	sb2, gb2 := boolean(func(s *Settings) *bool { return &s.KeepOutliers })
+	add(opt("keep-outliers", "", "keep spectra whose residual is far above the others' and structured (gas lines, a bubble); by default they are set aside and named", false, true, sb2, gb2))
+	sb3, gb3 := list(func(s *Settings) *[]string { return &s.Drops })
+	add(opt("drop", "TIME|FILE", "set a spectrum aside by hand: its time in seconds or its file name (repeatable)", true, true, sb3, gb3))
 	s12, g12 := str(func(s *Settings) *string { return &s.Components })
 	add(opt("components", "N|auto", "number of components, or auto to take the rank estimate", false, true, func(s *Settings, v string) error {
 		if v != "auto" {

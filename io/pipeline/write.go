@@ -53,6 +53,10 @@ func MakeSummary(r *Result) *Summary {
 		ComponentNames:           nonNil(r.Names),
 		UniquenessRanges:         []BandJSON{},
 		FeasibleBands:            []BandJSON{},
+		Baseline:                 baselineName(r.BaselineOrder),
+		BaselineReason:           r.BaselineReason,
+		OutlierSpectra:           setAsideSummary(r),
+		NuisanceFactors:          nuisanceSummary(r),
 		Advice:                   nonNil(r.Advice),
 		Notes:                    nonNil(r.Notes),
 		Warnings:                 nonNil(r.Warnings),
@@ -224,6 +228,10 @@ func PrintTable(r *Result, w io.Writer) {
 		fmt.Fprintf(w, "rank of ΔA     %d\n", r.DiffRank.Estimate)
 	}
 	fmt.Fprintf(w, "components     %d\n", r.Components)
+	fmt.Fprintf(w, "baseline       %s\n", baselineName(r.BaselineOrder))
+	for _, o := range setAsideSummary(r) {
+		fmt.Fprintf(w, "set aside      t = %g s (%s): %s\n", o.Time, o.Source, o.Reason)
+	}
 	if r.ALS != nil {
 		conv := "converged"
 		if !r.ALS.Converged {

@@ -1,0 +1,389 @@
+package pipeline
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"path/filepath"
+	"strconv"
+	"strings"
+
+	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/mcr"
+	"github.com/bandsolve/bandsolve/svd"
+	"gonum.org/v1/gonum/mat"
+)
+
+// Wiring of the nuisances (docs/measurement.md): the baseline model (svd.RemovePolynomial,
+// svd.ChooseBaselineOrder, mcr.Options.Baseline), the chemical count (svd.ClassifyFactors)
+// and the spectra set aside (mcr.FindOutliers, --drop).
+
+// autoBaselineOrder is the highest order --baseline auto tries: an offset, a slope and
+// two curvatures cover the drift of ATR crystals, cells and lamps (common practice); a
+// higher order starts to model broad bands.
+const autoBaselineOrder = 3
+
+// parseBaseline reads --baseline: the highest order to consider and whether the
+// order is chosen by the F-test.
+func parseBaseline(v string) (order int, auto bool, err error) {
+	switch v {
+	case "off":
+		return -1, false, nil
+	case "offset":
+		return 0, false, nil
+	case "linear":
+		return 1, false, nil
+	case "auto", "":
+		return autoBaselineOrder, true, nil
+	}
+	if rest, ok := strings.CutPrefix(v, "poly:"); ok {
+		n, err := strconv.Atoi(rest)
+		if err == nil && n >= 0 && n <= 8 {
+			return n, false, nil
+		}
+	}
+	return 0, false, fmt.Errorf("%q: use off, offset, linear, poly:N (N from 0 to 8) or auto", v)
+}
+
+// baselineName is the model's name for an order.
+func baselineName(order int) string {
+	switch order {
+	case -1:
+		return "off"
+	case 0:
+		return "offset"
+	case 1:
+		return "linear"
+	}
+	return fmt.Sprintf("poly:%d", order)
+}
+
+// rankOptions are the rank options of the resolved matrix (see Run).
+type rankInputs struct {
+	opt   svd.RankOptions
+	maxF  int
+	noise float64 // trusted noise level for the classification, 0 = let svd decide
+}
+
+// chemicalRank estimates the rank of d with a polynomial baseline of the given order
+// projected out, then classifies the factors above the noise; Estimate becomes the
+// chemical count. It returns the report, the factors it was computed on and the
+// classification.
+func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInputs, meanLevel bool) (*svd.RankReport, *svd.ChemicalRank, error) {
+	dc := d
+	if order >= 0 {
+		var err error
+		if dc, err = svd.RemovePolynomial(d, r.Axis, order); err != nil {
+			return nil, nil, err
+		}
+		if f, err = svd.Decompose(dc, svd.DecomposeOptions{MaxFactors: in.maxF, Seed: r.Settings.Seed}); err != nil {
+			return nil, nil, fmt.Errorf("factor analysis without the baseline: %w", err)
+		}
+	}
+	rep, err := svd.EstimateRank(dc, f, in.opt)
+	if err != nil {
+		return nil, nil, err
+	}
+	cr := svd.ClassifyFactors(dc, f, rep, svd.NuisanceOptions{Axis: r.Axis, Noise: in.noise, MeanLevel: meanLevel})
+	svd.ApplyChemical(rep, cr)
+	return rep, cr, nil
+}
+
+// chooseBaseline settles the baseline order and the chemical rank of r.D.
+func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
+	maxOrder, auto, err := parseBaseline(r.Settings.Baseline)
+	if err != nil {
+		return usage("--baseline %v", err)
+	}
+	_, m := r.D.Dims()
+	if maxOrder+3 >= m {
+		maxOrder = -1
+		r.Notes = append(r.Notes, fmt.Sprintf("no baseline model: %d points are too few", m))
+	}
+	rep, cr, err := chemicalRank(r, r.D, f, maxOrder, in, r.Mode == mcr.Species)
+	if err != nil {
+		return fmt.Errorf("rank: %w", err)
+	}
+	order := maxOrder
+	if auto && maxOrder >= 0 {
+		// Every factor of the model but the baseline and the noise is fitted in the
+		// F-test's rank-k fits: a nuisance left in the residual (the reference
+		// pattern, present in every row) would otherwise pass for a baseline.
+		kf := rep.Estimate
+		for _, nf := range cr.Nuisance {
+			if nf.Kind != svd.NuisanceBaseline {
+				kf++
+			}
+		}
+		ch, err := svd.ChooseBaselineOrder(r.D, f, r.Axis, kf, maxOrder, r.Settings.Alpha)
+		if err != nil {
+			return fmt.Errorf("baseline: %w", err)
+		}
+		order = ch.Order
+		var steps []string
+		for _, st := range ch.Steps[1:] {
+			steps = append(steps, fmt.Sprintf("%s p = %.2g", baselineName(st.Order), st.Significance))
+		}
+		r.BaselineReason = fmt.Sprintf("chosen by the extra-sum-of-squares F-test of each order against the one below at level %g (Draper & Smith 1998), with %d factor(s) besides the baseline: %s", r.Settings.Alpha, kf, strings.Join(steps, ", "))
+		if order != maxOrder {
+			if rep, cr, err = chemicalRank(r, r.D, f, order, in, r.Mode == mcr.Species); err != nil {
+				return fmt.Errorf("rank: %w", err)
+			}
+		}
+	} else if maxOrder >= 0 {
+		r.BaselineReason = "as asked (--baseline " + r.Settings.Baseline + ")"
+	}
+	r.BaselineOrder = order
+	r.Rank, r.Chemical = rep, cr
+	return nil
+}
+
+// nuisanceAdvice says what the factors that are not chemistry look like.
+func nuisanceAdvice(r *Result) {
+	cr := r.Chemical
+	if cr == nil {
+		return
+	}
+	for _, nf := range cr.Nuisance {
+		if nf.Kind == svd.NuisancePattern {
+			continue // has its own advice
+		}
+		at := ""
+		if len(nf.Spectra) > 0 {
+			var ts []string
+			for _, i := range nf.Spectra {
+				ts = append(ts, output.Float(r.Times[i]))
+			}
+			at = " (at t = " + strings.Join(ts, ", ") + " s)"
+		}
+		r.Advice = append(r.Advice, fmt.Sprintf("factor %d (%.2g %% of the signal) is not counted as a species: %s%s", nf.Factor, nf.SharePercent, nf.Looks, at))
+	}
+	if cr.NoiseLike > 0 {
+		r.Notes = append(r.Notes, fmt.Sprintf("%d factor(s) above the white-noise level have a time vector as white as noise: noise correlated along the axis (instrument smoothing or interpolation), not counted", cr.NoiseLike))
+	}
+}
+
+// SetAside is one spectrum set aside (weight zero): an outlier or a --drop.
+type SetAside struct {
+	Row    int
+	Reason string
+}
+
+// parseDrops finds the rows --drop names: a time in seconds (nearest spectrum within
+// 1e-6 relative) or a file name (base name, as listed in the folder).
+func parseDrops(r *Result) ([]SetAside, error) {
+	var out []SetAside
+	seen := map[int]bool{}
+	for _, v := range r.Settings.Drops {
+		row := -1
+		if t, err := strconv.ParseFloat(strings.TrimSpace(v), 64); err == nil {
+			for i, ti := range r.Times {
+				if math.Abs(ti-t) <= 1e-6*math.Max(1, math.Abs(t)) {
+					row = i
+					break
+				}
+			}
+		}
+		if row < 0 {
+			for _, e := range r.Experiments {
+				for i, name := range e.Series.Names {
+					if name == v || filepath.Base(name) == filepath.Base(v) {
+						row = e.FirstRow + i
+					}
+				}
+			}
+		}
+		if row < 0 {
+			return nil, usage("--drop %s: no spectrum has that time (s) or file name; give a time from the times table or a file name", v)
+		}
+		if !seen[row] {
+			seen[row] = true
+			out = append(out, SetAside{Row: row, Reason: "dropped by hand (--drop " + v + ")"})
+		}
+	}
+	return out, nil
+}
+
+// imputeRows replaces the rows set aside by the model C Sᵀ (+ B Pᵀ): a row equal to its
+// fit has zero residual and so no weight in the next fit, the expectation step for
+// missing rows (Dempster, Laird & Rubin, J. R. Stat. Soc. B 1977; for PCA with missing
+// values Walczak & Massart, Chemom. Intell. Lab. Syst. 2001). Without a model yet
+// (model nil), a row takes the mean of its kept neighbours in the same experiment.
+func imputeRows(r *Result, rows []SetAside, res *mcr.Result, shapes *mat.Dense) {
+	_, m := r.D.Dims()
+	for _, sa := range rows {
+		i := sa.Row
+		vals := make([]float64, m)
+		if res != nil {
+			for j := 0; j < m; j++ {
+				v := 0.0
+				for a := 0; a < r.Components; a++ {
+					v += res.C.At(i, a) * res.S.At(j, a)
+				}
+				if res.Baseline != nil && shapes != nil {
+					_, nb := shapes.Dims()
+					for q := 0; q < nb; q++ {
+						v += res.Baseline.At(i, q) * shapes.At(j, q)
+					}
+				}
+				vals[j] = v
+			}
+		} else {
+			e := r.Experiments[r.ExpOfRow[i]]
+			var nb []int
+			for _, di := range []int{-1, 1} {
+				for k := i + di; k >= e.FirstRow && k < e.FirstRow+e.Rows; k += di {
+					if !setAside(rows, k) {
+						nb = append(nb, k)
+						break
+					}
+				}
+			}
+			for _, k := range nb {
+				for j, v := range r.D.RawRowView(k)[:m] {
+					vals[j] += v / float64(len(nb))
+				}
+			}
+		}
+		r.D.SetRow(i, vals)
+	}
+}
+
+func setAside(rows []SetAside, i int) bool {
+	for _, sa := range rows {
+		if sa.Row == i {
+			return true
+		}
+	}
+	return false
+}
+
+// resolveNuisance runs ALS with the baseline terms, sets outlier spectra aside and
+// refits, then leaves r.D without the baseline and returns the species-only result and
+// the data the later steps (checks, bands, kinetics) work on.
+func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, log io.Writer) (*mcr.Result, mcr.Data, error) {
+	var shapes *mat.Dense
+	if r.BaselineOrder >= 0 {
+		shapes = svd.Legendre(r.Axis, r.BaselineOrder)
+		opt.Baseline = shapes
+	}
+	res, err := startALS(r, data, c0, opt)
+	if err != nil {
+		return nil, nil, explainResolveError(r, err)
+	}
+	if len(r.SetAside) > 0 || !r.Settings.KeepOutliers {
+		skip := make([]bool, len(r.Times))
+		for _, sa := range r.SetAside {
+			skip[sa.Row] = true
+		}
+		var found []SetAside
+		if !r.Settings.KeepOutliers {
+			for _, o := range mcr.FindOutliers(r.D, res.C, res.S, res.Baseline, shapes, r.Axis, r.Rank.Sigma, skip) {
+				found = append(found, SetAside{Row: o.Row, Reason: o.Reason})
+			}
+		}
+		r.SetAside = append(r.SetAside, found...)
+		if len(r.SetAside) > 0 {
+			fmt.Fprintf(log, "setting %d spectrum(s) aside and resolving again\n", len(r.SetAside))
+			imputeRows(r, r.SetAside, res, shapes)
+			if data, err = refreshData(r, data); err != nil {
+				return nil, nil, err
+			}
+			// One warm start from the fit that found them: the rows set aside
+			// now equal that fit, so they pull on nothing.
+			if res, err = mcr.Resolve(data, res.C, opt); err != nil {
+				return nil, nil, explainResolveError(r, err)
+			}
+		}
+	}
+	if shapes != nil && res.Baseline != nil {
+		r.BaselineProfiles = res.Baseline
+		r.BaselineShapes = shapes
+		r.D = mcr.SubtractBaseline(r.D, res.Baseline, shapes)
+		data = mcr.LessBaseline{Data: data, B: res.Baseline, P: shapes}
+		if _, ok := data.(mcr.LessBaseline).Data.(mcr.Dense); ok {
+			data = mcr.Dense{D: r.D}
+		}
+	}
+	return res, data, nil
+}
+
+// refreshData rebuilds the ALS data after rows of r.D changed.
+func refreshData(r *Result, data mcr.Data) (mcr.Data, error) {
+	if _, ok := data.(mcr.Compressed); !ok {
+		return mcr.Dense{D: r.D}, nil
+	}
+	k := r.Components
+	f, err := svd.Decompose(r.D, svd.DecomposeOptions{MaxFactors: largeFactors, Seed: r.Settings.Seed})
+	if err != nil {
+		return nil, fmt.Errorf("factor analysis after setting spectra aside: %w", err)
+	}
+	rr := min(len(f.S), k+8+max(r.BaselineOrder+1, 0))
+	return mcr.Compressed{U: sliceCols(f.U, rr), Sigma: f.S[:rr], V: sliceCols(f.V, rr), FrobSq: f.FrobeniusSq}, nil
+}
+
+// setAsideSummary lists the spectra set aside for summary.json, the terminal and the
+// report.
+func setAsideSummary(r *Result) []output.OutlierJSON {
+	out := []output.OutlierJSON{}
+	for _, sa := range r.SetAside {
+		e := r.Experiments[r.ExpOfRow[sa.Row]]
+		src := ""
+		if i := sa.Row - e.FirstRow; i >= 0 && i < len(e.Series.Names) {
+			src = filepath.Base(e.Series.Names[i])
+		}
+		out = append(out, output.OutlierJSON{Time: round(r.Times[sa.Row]), Experiment: e.Source, Source: src, Reason: sa.Reason})
+	}
+	return out
+}
+
+// nuisanceSummary lists the nuisance factors for summary.json.
+func nuisanceSummary(r *Result) []output.NuisanceJSON {
+	out := []output.NuisanceJSON{}
+	if r.Chemical == nil {
+		return out
+	}
+	for _, nf := range r.Chemical.Nuisance {
+		j := output.NuisanceJSON{Factor: nf.Factor, Kind: nf.Kind, Looks: nf.Looks, SharePercent: round(nf.SharePercent)}
+		for _, i := range nf.Spectra {
+			if i < len(r.Times) {
+				j.TimesS = append(j.TimesS, round(r.Times[i]))
+			}
+		}
+		out = append(out, j)
+	}
+	return out
+}
+
+func init() { afterWrite = append(afterWrite, writeBaseline) }
+
+// writeBaseline writes baseline.csv: each spectrum's baseline coefficients on the
+// Legendre polynomials of the axis scaled to [−1, 1] (column P0 is the offset, P1 the
+// slope from one end of the axis to the middle, …).
+func writeBaseline(r *Result, st *output.Stage) error {
+	if r.BaselineProfiles == nil {
+		return nil
+	}
+	_, nb := r.BaselineProfiles.Dims()
+	multi := len(r.Experiments) > 1
+	h := []string{"time"}
+	if multi {
+		h = []string{"experiment", "time"}
+	}
+	for q := 0; q < nb; q++ {
+		h = append(h, fmt.Sprintf("P%d", q))
+	}
+	t := output.Table{Header: h}
+	for i, tm := range r.Times {
+		var row []string
+		if multi {
+			row = append(row, strconv.Itoa(r.ExpOfRow[i]+1))
+		}
+		row = append(row, output.Float(tm))
+		for q := 0; q < nb; q++ {
+			row = append(row, output.Float(r.BaselineProfiles.At(i, q)))
+		}
+		t.Rows = append(t.Rows, row)
+	}
+	return st.Write("baseline.csv", t.CSV())
+}

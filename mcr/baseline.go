@@ -1,0 +1,219 @@
+package mcr
+
+import (
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Baseline as a nuisance (PRIMER §8): D = C Sᵀ + B Pᵀ + E, where the columns of P (m × b)
+// are fixed baseline shapes (polynomials 1, x, x², … of the axis, see svd.Legendre) and
+// B (n × b) holds each spectrum's baseline coefficients, of either sign. ALS fits B with
+// C in the profiles step, so the baseline is estimated jointly with the species and not
+// afterwards from a guess of where the bands are not. The baseline terms are excluded
+// from closure (weight 0), non-negativity, normalisation and the component count.
+//
+// The split between a species spectrum's own polynomial part and the baseline is not
+// fixed by the fit: s_k + Pβ with B − c_k βᵀ fits the same, and non-negativity only
+// stops the spectra from going down, not up. In species mode each non-negative spectrum
+// is therefore lowered after every spectra step by its lower polynomial envelope
+// (iterated polynomial fit clipped from above, the "modified polynomial" baseline of
+// Lieber & Mahadevan-Jansen, Appl. Spectrosc. 2003), then by its remaining minimum, so
+// that it touches zero: the common practice of zero absorbance between bands. The
+// profiles step that follows refits C and B for the lowered spectra, so the residual
+// still never rises. Signed reaction spectra keep the split their start gives.
+
+// resolveWithBaseline runs Resolve with opt.Baseline's columns appended as components
+// with fixed spectra and free-sign profiles, then returns the species part in C and S
+// and the baseline coefficients in Result.Baseline.
+func resolveWithBaseline(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
+	n, m := d.Dims()
+	bm, nb := opt.Baseline.Dims()
+	if bm != m {
+		return nil, fmt.Errorf("resolve: baseline shapes have %d points, data has %d", bm, m)
+	}
+	_, k := c0.Dims()
+	kk := k + nb
+	c := mat.NewDense(n, kk, nil)
+	c.Slice(0, n, 0, k).(*mat.Dense).Copy(c0)
+
+	ext := opt
+	ext.Baseline = nil
+	ext.baselineTerms = nb
+	if opt.Mode == Species {
+		ext.baselineBasis = orthonormalColumns(opt.Baseline)
+	}
+	ext.KnownSpectra = make([][]float64, kk)
+	copy(ext.KnownSpectra, opt.KnownSpectra)
+	for q := 0; q < nb; q++ {
+		ext.KnownSpectra[k+q] = mat.Col(nil, q, opt.Baseline)
+	}
+	ext.NonNegProfiles = append(boolsOr(opt.NonNegProfiles, k, true), make([]bool, nb)...)
+	ext.NonNegSpectra = append(boolsOr(opt.NonNegSpectra, k, opt.Mode == Species), make([]bool, nb)...)
+	if opt.Closure {
+		w := opt.ClosureWeights
+		if w == nil {
+			w = ones(k)
+		}
+		ext.ClosureWeights = append(append([]float64(nil), w[:min(k, len(w))]...), make([]float64, kk-min(k, len(w)))...)
+	}
+	if opt.ZeroProfiles != nil {
+		ext.ZeroProfiles = make([][]bool, kk)
+		copy(ext.ZeroProfiles, opt.ZeroProfiles[:min(k, len(opt.ZeroProfiles))])
+	}
+	if opt.ZeroSpectra != nil {
+		ext.ZeroSpectra = make([][]bool, kk)
+		copy(ext.ZeroSpectra, opt.ZeroSpectra[:min(k, len(opt.ZeroSpectra))])
+	}
+	if opt.HardModel != nil {
+		hard := opt.HardModel
+		ext.HardModel = func(cc *mat.Dense) (*mat.Dense, error) {
+			hc, err := hard(mat.DenseCopyOf(cc.Slice(0, n, 0, k)))
+			if err != nil {
+				return nil, err
+			}
+			out := mat.DenseCopyOf(cc)
+			out.Slice(0, n, 0, k).(*mat.Dense).Copy(hc)
+			return out, nil
+		}
+	}
+	res, err := Resolve(d, c, ext)
+	if err != nil {
+		return nil, err
+	}
+	res.Baseline = mat.DenseCopyOf(res.C.Slice(0, n, k, kk))
+	res.C = mat.DenseCopyOf(res.C.Slice(0, n, 0, k))
+	res.S = mat.DenseCopyOf(res.S.Slice(0, m, 0, k))
+	return res, nil
+}
+
+// LessBaseline is Data minus a fitted baseline, D − B Pᵀ, seen through the same
+// products: what the constraint checks, feasible bands and kinetics work on once the
+// baseline has been fitted jointly with the species.
+type LessBaseline struct {
+	Data
+	B *mat.Dense // n × b baseline coefficients
+	P *mat.Dense // m × b baseline shapes
+}
+
+// MulSpectra returns (D − B Pᵀ) S = D S − B (Pᵀ S).
+func (l LessBaseline) MulSpectra(s *mat.Dense) *mat.Dense {
+	out := l.Data.MulSpectra(s)
+	var ps, bps mat.Dense
+	ps.Mul(l.P.T(), s)
+	bps.Mul(l.B, &ps)
+	out.Sub(out, &bps)
+	return out
+}
+
+// MulProfiles returns (D − B Pᵀ)ᵀ C = Dᵀ C − P (Bᵀ C).
+func (l LessBaseline) MulProfiles(c *mat.Dense) *mat.Dense {
+	out := l.Data.MulProfiles(c)
+	var bc, pbc mat.Dense
+	bc.Mul(l.B.T(), c)
+	pbc.Mul(l.P, &bc)
+	out.Sub(out, &pbc)
+	return out
+}
+
+// FrobeniusSq returns ‖D − B Pᵀ‖² = ‖D‖² − 2 tr(Bᵀ D P) + tr(BᵀB PᵀP).
+func (l LessBaseline) FrobeniusSq() float64 {
+	dp := l.Data.MulSpectra(l.P)
+	v := l.Data.FrobeniusSq() - 2*traceProd(l.B, dp) + traceProd(gram(l.B), gram(l.P))
+	if v < 0 {
+		return 0
+	}
+	return v
+}
+
+// SubtractBaseline returns D − B Pᵀ as a new matrix.
+func SubtractBaseline(d, b, p *mat.Dense) *mat.Dense {
+	var bp mat.Dense
+	bp.Mul(b, p.T())
+	out := mat.DenseCopyOf(d)
+	out.Sub(out, &bp)
+	return out
+}
+
+// lowerSpectra lowers columns j < k of s (m × K) with a non-negative spectrum by their
+// lower polynomial envelope in the span of q (m × b, orthonormal columns) and then by
+// their remaining minimum; see the comment at the top of the file.
+func lowerSpectra(s *mat.Dense, k int, nonneg []bool, q *mat.Dense) {
+	m, _ := s.Dims()
+	_, b := q.Dims()
+	y := make([]float64, m)
+	fit := make([]float64, m)
+	coef := make([]float64, b)
+	for j := 0; j < k; j++ {
+		if !nonneg[j] {
+			continue
+		}
+		orig := mat.Col(nil, j, s)
+		copy(y, orig)
+		for it := 0; it < 50; it++ {
+			for a := 0; a < b; a++ {
+				coef[a] = 0
+				for i := 0; i < m; i++ {
+					coef[a] += q.At(i, a) * y[i]
+				}
+			}
+			changed := false
+			for i := 0; i < m; i++ {
+				v := 0.0
+				for a := 0; a < b; a++ {
+					v += q.At(i, a) * coef[a]
+				}
+				fit[i] = v
+				if v < y[i] {
+					y[i] = v
+					changed = true
+				}
+			}
+			if !changed {
+				break
+			}
+		}
+		low := 0.0
+		for i := range orig {
+			low = min(low, orig[i]-fit[i])
+		}
+		for i := range orig {
+			orig[i] -= fit[i] + low
+		}
+		s.SetCol(j, orig)
+	}
+}
+
+// orthonormalColumns returns an orthonormal basis of a's columns (modified Gram–Schmidt,
+// two passes; a has few columns).
+func orthonormalColumns(a *mat.Dense) *mat.Dense {
+	m, c := a.Dims()
+	out := mat.NewDense(m, c, nil)
+	for j := 0; j < c; j++ {
+		v := mat.Col(nil, j, a)
+		for pass := 0; pass < 2; pass++ {
+			for k := 0; k < j; k++ {
+				p := 0.0
+				for i := 0; i < m; i++ {
+					p += out.At(i, k) * v[i]
+				}
+				for i := range v {
+					v[i] -= p * out.At(i, k)
+				}
+			}
+		}
+		nv := 0.0
+		for _, x := range v {
+			nv += x * x
+		}
+		if nv > 0 {
+			nv = 1 / math.Sqrt(nv)
+			for i := range v {
+				v[i] *= nv
+			}
+		}
+		out.SetCol(j, v)
+	}
+	return out
+}

@@ -1,0 +1,149 @@
+package mcr
+
+import (
+	"fmt"
+	"math"
+	"sort"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Outlier spectra (PRIMER §8): water-vapour or CO₂ lines from a purge that failed, a
+// bubble over an ATR crystal, a cosmic spike. Such a spectrum has a residual far above
+// the others' and structured along the axis, where the residual of a good spectrum is
+// the noise. The test is robust, so the outliers cannot hide by inflating the scale:
+//
+//  1. far: the root-mean-square residual r_i of spectrum i exceeds
+//     median(r) + OutlierK · 1.4826 · MAD(r) (the Hampel identifier; Davies & Gather,
+//     J. Am. Stat. Assoc. 1993; 1.4826 makes the MAD a standard deviation for normal
+//     data), and, when the noise level σ is known, 2σ;
+//  2. structured: either sharp lines (the largest |e_ij| exceeds √(2 ln m) + 3 robust
+//     standard deviations of the row's own residual, where √(2 ln m) is the usual largest
+//     value of m normal draws; Cramér, Mathematical Methods of Statistics, 1946) or a broad
+//     feature (the lag-1 autocorrelation of the residual along the axis exceeds the
+//     median over spectra by 3 robust standard deviations and 0.2).
+//
+// OutlierK = 5: with a few hundred spectra a normal scale would flag none by chance,
+// and gas lines or a bubble sit tens of robust deviations out.
+const OutlierK = 5
+
+// Outlier is one spectrum set aside.
+type Outlier struct {
+	Row    int
+	RMS    float64 // root-mean-square residual of the spectrum
+	Typ    float64 // median over spectra of the same
+	Reason string
+}
+
+// FindOutliers applies the test to the residual D − C Sᵀ − B Pᵀ (b, p may be nil).
+// sigma > 0 is the per-point noise level (0 = unknown); skip marks rows not to test
+// (already set aside). Rows are returned in order.
+func FindOutliers(d, c, s, b, p *mat.Dense, axis []float64, sigma float64, skip []bool) []Outlier {
+	n, m := d.Dims()
+	if n < 5 || m < 8 {
+		return nil
+	}
+	rms := make([]float64, n)
+	lag := make([]float64, n)
+	peak := make([]float64, n)
+	peakAt := make([]int, n)
+	e := make([]float64, m)
+	for i := 0; i < n; i++ {
+		row := d.RawRowView(i)
+		for j := 0; j < m; j++ {
+			v := row[j]
+			for a := 0; a < c.RawMatrix().Cols; a++ {
+				v -= c.At(i, a) * s.At(j, a)
+			}
+			if b != nil {
+				for a := 0; a < b.RawMatrix().Cols; a++ {
+					v -= b.At(i, a) * p.At(j, a)
+				}
+			}
+			e[j] = v
+		}
+		var ss, num float64
+		for j, v := range e {
+			ss += v * v
+			if j+1 < m {
+				num += v * e[j+1]
+			}
+		}
+		rms[i] = math.Sqrt(ss / float64(m))
+		if ss > 0 {
+			lag[i] = num / ss
+		}
+		rs := robustSD(e)
+		for j, v := range e {
+			if rs > 0 && math.Abs(v)/rs > peak[i] {
+				peak[i], peakAt[i] = math.Abs(v)/rs, j
+			}
+		}
+	}
+	kept := func(x []float64) []float64 {
+		var out []float64
+		for i, v := range x {
+			if skip == nil || !skip[i] {
+				out = append(out, v)
+			}
+		}
+		return out
+	}
+	medR, sdR := medianMAD(kept(rms))
+	medL, sdL := medianMAD(kept(lag))
+	sharp := math.Sqrt(2*math.Log(float64(m))) + 3
+	var out []Outlier
+	for i := 0; i < n; i++ {
+		if skip != nil && skip[i] {
+			continue
+		}
+		far := rms[i] > medR+OutlierK*sdR && rms[i] > 2*sigma && rms[i] > 0
+		if !far {
+			continue
+		}
+		o := Outlier{Row: i, RMS: rms[i], Typ: medR}
+		where := ""
+		if len(axis) == m {
+			where = fmt.Sprintf(" (largest at %.6g on the axis)", axis[peakAt[i]])
+		}
+		switch {
+		case peak[i] > sharp:
+			o.Reason = fmt.Sprintf("residual %.3g× the typical spectrum's, with sharp lines%s: gas lines, a spike or a bad point", rms[i]/medR, where)
+		case lag[i] > medL+3*sdL && lag[i] > medL+0.2:
+			o.Reason = fmt.Sprintf("residual %.3g× the typical spectrum's, smooth along the axis (lag-1 autocorrelation %.2f, typical %.2f)%s: a broad feature such as a bubble or a baseline jump", rms[i]/medR, lag[i], medL, where)
+		default:
+			continue
+		}
+		out = append(out, o)
+	}
+	return out
+}
+
+// medianMAD returns the median and 1.4826·MAD (a robust standard deviation).
+func medianMAD(x []float64) (float64, float64) {
+	if len(x) == 0 {
+		return 0, 0
+	}
+	med := median(x)
+	dev := make([]float64, len(x))
+	for i, v := range x {
+		dev[i] = math.Abs(v - med)
+	}
+	return med, 1.4826 * median(dev)
+}
+
+// robustSD is 1.4826·MAD of x about its median.
+func robustSD(x []float64) float64 {
+	_, sd := medianMAD(x)
+	return sd
+}
+
+func median(x []float64) float64 {
+	s := append([]float64(nil), x...)
+	sort.Float64s(s)
+	h := len(s) / 2
+	if len(s)%2 == 1 {
+		return s[h]
+	}
+	return 0.5 * (s[h-1] + s[h])
+}

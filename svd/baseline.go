@@ -1,0 +1,195 @@
+package svd
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat/distuv"
+)
+
+// Baseline drift of a spectrometer (an ATR crystal warming, a lamp ageing, a cell
+// shifting) adds to each spectrum a smooth curve b_i(x) ≈ Σ_q β_iq P_q(x): in the bilinear
+// model D = C Sᵀ + B Pᵀ, extra factors whose spectra are the columns of P and whose
+// profiles B have either sign (PRIMER §8; common practice in FTIR to model baselines by
+// low-order polynomials). P_q are Legendre polynomials of the axis scaled to [−1, 1], which
+// are nearly orthogonal on an evenly spaced axis and keep the least-squares problem well
+// conditioned where plain powers 1, x, x², … are not.
+
+// Legendre returns the m × (order+1) matrix whose column q is the Legendre polynomial
+// P_q evaluated on the axis scaled linearly to [−1, 1] (three-term recurrence
+// (q+1) P_{q+1} = (2q+1) x P_q − q P_{q−1}; Abramowitz & Stegun 22.7.10). order < 0 gives
+// nil.
+func Legendre(axis []float64, order int) *mat.Dense {
+	m := len(axis)
+	if order < 0 || m == 0 {
+		return nil
+	}
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, a := range axis {
+		lo, hi = math.Min(lo, a), math.Max(hi, a)
+	}
+	p := mat.NewDense(m, order+1, nil)
+	for j, a := range axis {
+		x := 0.0
+		if hi > lo {
+			x = 2*(a-lo)/(hi-lo) - 1
+		}
+		p0, p1 := 1.0, x
+		p.Set(j, 0, 1)
+		if order >= 1 {
+			p.Set(j, 1, x)
+		}
+		for q := 1; q < order; q++ {
+			p2 := (float64(2*q+1)*x*p1 - float64(q)*p0) / float64(q+1)
+			p.Set(j, q+1, p2)
+			p0, p1 = p1, p2
+		}
+	}
+	return p
+}
+
+// orthoBasis returns an orthonormal basis (m × (order+1)) of the polynomials up to order
+// on the axis (thin Q of the Legendre matrix).
+func orthoBasis(axis []float64, order int) *mat.Dense {
+	p := Legendre(axis, order)
+	if p == nil {
+		return nil
+	}
+	orthonormalize(p)
+	return p
+}
+
+// RemovePolynomial returns D (I − Q Qᵀ), the data with every polynomial of the axis up to
+// order projected out of each spectrum: whatever the baseline profiles, a polynomial
+// baseline of that order is gone, and the rank of what remains counts the other factors.
+// order < 0 returns d itself.
+func RemovePolynomial(d *mat.Dense, axis []float64, order int) (*mat.Dense, error) {
+	if order < 0 {
+		return d, nil
+	}
+	_, m := d.Dims()
+	if len(axis) != m {
+		return nil, fmt.Errorf("svd: remove polynomial: axis has %d points, data %d", len(axis), m)
+	}
+	if order+1 >= m {
+		return nil, fmt.Errorf("svd: remove polynomial: order %d needs more than %d points", order, m)
+	}
+	q := orthoBasis(axis, order)
+	var dq, out mat.Dense
+	dq.Mul(d, q)
+	out.Mul(&dq, q.T())
+	out.Sub(d, &out)
+	return &out, nil
+}
+
+// BaselineStep is one step of the choice of baseline order: the residual sum of squares
+// of the best fit with K factors plus a polynomial baseline of Order (−1 = none), and the
+// F-test of that order against the one below.
+type BaselineStep struct {
+	Order        int
+	ResidualSS   float64
+	F            float64 // 0 for order −1
+	Significance float64 // upper-tail probability of F; 1 for order −1
+}
+
+// BaselineChoice is the outcome of ChooseBaselineOrder.
+type BaselineChoice struct {
+	Order int // chosen order, −1 = no baseline
+	Steps []BaselineStep
+}
+
+// ChooseBaselineOrder picks the polynomial baseline order by the extra-sum-of-squares
+// F-test for nested linear models (Draper & Smith, Applied Regression Analysis, 3rd ed.
+// 1998, §6; from memory): with RSS_q the residual of the best fit of k factors plus a
+// baseline of order q (the rank-k tail of D with polynomials up to q projected out), going
+// from order q−1 to q adds one coefficient per spectrum (n), and
+//
+//	F = [(RSS_{q−1} − RSS_q)/n] / [RSS_q/dof_q],  dof_q = n(m−q−1) − k(n + m − q − 1 − k),
+//
+// is F(n, dof_q) distributed when order q is not needed. Orders are added forward while
+// they are significant at level alpha; one non-significant order is stepped over (so a
+// pure slope is found even when the offset alone is not significant), two in a row end
+// the search: the chosen order is the last significant one. f, when given, holds
+// leading factors of d (at least k + maxOrder + 2 of them, else d is decomposed here): the
+// rank-k fits are then taken inside their span, exact when the baseline and the chemistry
+// lie in it, which is when the baseline matters.
+func ChooseBaselineOrder(d *mat.Dense, f *Factors, axis []float64, k, maxOrder int, alpha float64) (*BaselineChoice, error) {
+	n, m := d.Dims()
+	if len(axis) != m {
+		return nil, fmt.Errorf("svd: baseline order: axis has %d points, data %d", len(axis), m)
+	}
+	if k < 0 || maxOrder < 0 || !(alpha > 0 && alpha < 1) {
+		return nil, fmt.Errorf("svd: baseline order: k %d, maximum order %d, alpha %v out of range", k, maxOrder, alpha)
+	}
+	if n < 2 || m <= maxOrder+k+2 {
+		return nil, errors.New("svd: baseline order: too few spectra or points for the test")
+	}
+	r := min(k+maxOrder+2+4, n, m)
+	if f == nil || len(f.S) < r {
+		var err error
+		if f, err = Decompose(d, DecomposeOptions{MaxFactors: r}); err != nil {
+			return nil, fmt.Errorf("svd: baseline order: %w", err)
+		}
+	}
+	r = min(r, len(f.S))
+	// W = Σ_r V_rᵀ (r × m): the data in its leading factors' coordinates.
+	w := mat.NewDense(r, m, nil)
+	for a := 0; a < r; a++ {
+		for j := 0; j < m; j++ {
+			w.Set(a, j, f.S[a]*f.V.At(j, a))
+		}
+	}
+	rss := func(q int) float64 {
+		energy, wq := f.FrobeniusSq, mat.DenseCopyOf(w)
+		if q >= 0 {
+			basis := orthoBasis(axis, q)
+			var dq mat.Dense
+			dq.Mul(d, basis) // n × (q+1): the polynomial part's energy is ‖D Q‖²
+			energy -= frobeniusSq(&dq)
+			var wqq, proj mat.Dense
+			wqq.Mul(w, basis)
+			proj.Mul(&wqq, basis.T())
+			wq.Sub(w, &proj)
+		}
+		if k > 0 {
+			var sv mat.SVD
+			if sv.Factorize(wq, mat.SVDNone) {
+				for _, s := range sv.Values(nil)[:min(k, r)] {
+					energy -= s * s
+				}
+			}
+		}
+		return math.Max(energy, 0)
+	}
+	ch := &BaselineChoice{Order: -1}
+	prev := rss(-1)
+	ch.Steps = append(ch.Steps, BaselineStep{Order: -1, ResidualSS: prev, Significance: 1})
+	for q := 0; q <= maxOrder; q++ {
+		cur := rss(q)
+		dof := float64(n*(m-q-1) - k*(n+m-q-1-k))
+		st := BaselineStep{Order: q, ResidualSS: cur, Significance: 1}
+		switch {
+		case dof < 1:
+		case cur <= 0:
+			if prev > 0 {
+				st.Significance = 0
+			}
+		default:
+			st.F = (math.Max(prev-cur, 0) / float64(n)) / (cur / dof)
+			p := 1 - distuv.F{D1: float64(n), D2: dof}.CDF(st.F)
+			if !math.IsNaN(p) {
+				st.Significance = math.Min(math.Max(p, 0), 1)
+			}
+		}
+		ch.Steps = append(ch.Steps, st)
+		prev = cur
+		if st.Significance < alpha {
+			ch.Order = q
+		} else if q > ch.Order+1 {
+			break // two orders in a row add nothing
+		}
+	}
+	return ch, nil
+}

@@ -1,0 +1,317 @@
+package svd
+
+import (
+	"fmt"
+	"math"
+	"sort"
+	"strings"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Kinds of NuisanceFactor: factors above the noise that are not a chemical component.
+const (
+	NuisanceBaseline  = "baseline"          // smooth, broad spectrum: a polynomial of the axis
+	NuisanceOutlier   = "outlier"           // time vector concentrated in a few spectra
+	NuisancePattern   = "reference-pattern" // the reference spectrum's own noise (difference data)
+	NuisanceBandShift = "band-shift"        // spectrum ≈ derivative of the chemical spectra
+	NuisanceMinor     = "minor"             // smooth, but the fit already reaches the noise without it
+)
+
+// NuisanceFactor is one factor above the noise that is not counted as a chemical
+// component.
+type NuisanceFactor struct {
+	Factor       int     // 1-based factor of the decomposition
+	Kind         string  // one of the Nuisance* kinds
+	Looks        string  // what it looks like, in words
+	SharePercent float64 // 100 s²/‖D‖²: its share of the signal
+	Spectra      []int   // outlier: the rows (0-based) holding most of its time vector
+}
+
+// ChemicalRank is the count of chemical components among the factors above the noise,
+// with everything else named.
+type ChemicalRank struct {
+	Estimate int
+	Nuisance []NuisanceFactor
+	// NoiseLike counts factors above the white-noise threshold whose time vector is as
+	// white as noise: noise correlated along the axis (apodisation, interpolation) lifts
+	// its largest singular values above the white-noise edge without being signal.
+	NoiseLike int
+	Sigma     float64 // noise level of the "fits to the noise" test
+	// ResidualRatio is √(tail(Estimate)/((n−k)(m−k)σ²)): 1 means the chemical factors fit
+	// the data to the noise.
+	ResidualRatio float64
+}
+
+// NuisanceOptions control ClassifyFactors.
+type NuisanceOptions struct {
+	Axis []float64 // the spectra's axis: needed for the baseline and band-shift tests (nil skips them)
+	// MeanLevel says the first factor is the data's mean level (absorbance, not
+	// difference data): the size test of minor factors then compares with the chemical
+	// factors after it.
+	MeanLevel bool
+	// Noise is the per-point noise level for the "fits to the noise" test; 0 takes the
+	// rank report's level when it was given or came from pre-reaction spectra, else the
+	// larger of that and the robust successive-spectra estimate (noise seen from one
+	// spectrum to the next, whatever its colour along the axis).
+	Noise float64
+}
+
+// Thresholds of the classification (documented in docs/measurement.md).
+const (
+	// outlierEnergy: a time vector with this share of its energy in a few spectra is
+	// concentrated there; "few" is at most max(3, n/10) spectra.
+	outlierEnergy = 0.8
+	// baselineShare: share of a (lightly smoothed) spectrum vector described by
+	// polynomials up to baselineOrder.
+	baselineShare = 0.9
+	baselineOrder = 3
+	// derivativeShare: share of a spectrum vector described by the derivatives of the
+	// chemical spectra found before it (a band shift s(x+δ) − s(x) ≈ δ s'(x)).
+	derivativeShare = 0.8
+	// fitsNoise: the leading factors fit to the noise when the root-mean-square residual
+	// is within 10 % of the noise level; a further smooth factor then does not lower the
+	// fit significantly and is called minor. 10 % allows for the uncertainty of a noise
+	// level estimated from the data (common practice: "real error" compared with the
+	// experimental error, Malinowski, Factor Analysis in Chemistry, 3rd ed. 2002; from
+	// memory).
+	fitsNoise = 1.1
+	// minorEnergy: a smooth factor with less than 2 % of the energy of the smallest
+	// chemical factor before it (not counting the first, which in absorbance data is the
+	// mean level) is minor even when the noise level says it is real (a
+	// temperature or hydrogen-bonding change of band shapes, a mixing transient): a species
+	// that small beside the others is below what a resolution can tell from such effects.
+	minorEnergy = 0.02
+)
+
+// ClassifyFactors looks at each factor above the noise threshold of rep, in order of
+// size, and says what it is:
+//   - reference-pattern: recognised by EstimateRank;
+//   - outlier: its time vector holds ≥ 80 % of its energy in at most max(3, n/10)
+//     spectra and is not smooth in time (lag-1 autocorrelation < 0.5): a few spectra
+//     that differ from the rest (gas lines, a bubble, a spike), not a component;
+//   - noise: its time vector is white (Shrager & Hendler's structure test fails on it):
+//     counted in NoiseLike only;
+//   - baseline: its spectrum vector, smoothed over 5 points, is ≥ 90 % a polynomial of
+//     order ≤ 3 of the axis;
+//   - band-shift: ≥ 80 % of its spectrum vector lies in the span of the derivatives of the
+//     chemical spectrum vectors before it;
+//   - minor: smooth, but the factors before it already fit the data to the noise
+//     (residual/noise ≤ 1.1), so adding it cannot lower the fit significantly;
+//   - chemical otherwise.
+//
+// Estimate is the number of chemical factors, never more than rep.Estimate (the
+// consensus of the rank criteria).
+func ClassifyFactors(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOptions) *ChemicalRank {
+	n, m := d.Dims()
+	out := &ChemicalRank{}
+	if rep == nil || f == nil || f.FrobeniusSq == 0 {
+		return out
+	}
+	sigma := opt.Noise
+	if sigma <= 0 {
+		sigma = rep.Sigma
+		if rep.SigmaSource != SigmaGiven && rep.SigmaSource != SigmaPreRows && n >= 3 {
+			sigma = math.Max(sigma, sigmaFromRowPairs(d, 0, n, true))
+		}
+	}
+	out.Sigma = sigma
+	ratio := func(k int) float64 {
+		dof := float64(n-k) * float64(m-k)
+		if sigma <= 0 || dof <= 0 {
+			return math.Inf(1)
+		}
+		return math.Sqrt(f.TailSq(k) / (dof * sigma * sigma))
+	}
+	var chemV [][]float64
+	var chem int
+	var smallest float64 // s² of the smallest chemical factor so far (not the mean level)
+	for j, row := range rep.Table {
+		if !row.AboveNoiseEdge || j >= len(f.S) {
+			break
+		}
+		u, v := column(f.U, j), column(f.V, j)
+		nf := NuisanceFactor{Factor: j + 1, SharePercent: 100 * f.S[j] * f.S[j] / f.FrobeniusSq}
+		if row.ReferencePattern {
+			nf.Kind, nf.Looks = NuisancePattern, "flat in time and white across the axis: the reference spectrum's own noise"
+			out.Nuisance = append(out.Nuisance, nf)
+			continue
+		}
+		if rows, ok := concentrated(u); ok {
+			nf.Kind, nf.Spectra = NuisanceOutlier, rows
+			nf.Looks = fmt.Sprintf("concentrated in %d spectrum(s) (%.0f %% of its time vector): spectra unlike the rest, not a component", len(rows), 100*outlierEnergy)
+			out.Nuisance = append(out.Nuisance, nf)
+			continue
+		}
+		if n >= minStructureLen && !structured(row.AutocorrU, n) && !structured(Autocorrelation(u), n) {
+			out.NoiseLike++
+			continue
+		}
+		if opt.Axis != nil && len(opt.Axis) == m {
+			if sh := polyShare(smooth5(v), opt.Axis); sh >= baselineShare {
+				nf.Kind = NuisanceBaseline
+				nf.Looks = fmt.Sprintf("smooth and broad across the axis: %.0f %% described by a polynomial of order ≤ %d (baseline drift)", 100*sh, baselineOrder)
+				out.Nuisance = append(out.Nuisance, nf)
+				continue
+			}
+			if len(chemV) > 0 {
+				if sh := derivShare(v, chemV); sh >= derivativeShare {
+					nf.Kind = NuisanceBandShift
+					nf.Looks = fmt.Sprintf("%.0f %% like the derivative of the chemical spectra: a band shift (temperature, a settling cell), not a species", 100*sh)
+					out.Nuisance = append(out.Nuisance, nf)
+					continue
+				}
+			}
+		}
+		if chem > 0 && (ratio(j) <= fitsNoise || smallest > 0 && f.S[j]*f.S[j] < minorEnergy*smallest) {
+			nf.Kind = NuisanceMinor
+			nf.Looks = minorLooks(u, v, opt.Axis, ratio(j), chem, 100*f.S[j]*f.S[j]/smallest)
+			out.Nuisance = append(out.Nuisance, nf)
+			continue
+		}
+		chem++
+		chemV = append(chemV, v)
+		if chem >= 2 || !opt.MeanLevel {
+			smallest = f.S[j] * f.S[j]
+		}
+	}
+	out.Estimate = min(chem, rep.Estimate)
+	out.ResidualRatio = ratio(out.Estimate)
+	if math.IsInf(out.ResidualRatio, 0) {
+		out.ResidualRatio = 0
+	}
+	return out
+}
+
+// ApplyChemical makes the chemical count rep's estimate: the reason says so and the
+// warnings that judged the consensus count (which counted the nuisance factors) are
+// dropped, since the classification has accounted for every factor above the noise.
+func ApplyChemical(rep *RankReport, cr *ChemicalRank) {
+	if rep == nil || cr == nil || cr.Estimate == rep.Estimate {
+		return
+	}
+	rep.Reason += fmt.Sprintf(" Of these, %d are chemical components (Malinowski's IND %d, F-test %d); the others are nuisance factors or noise correlated along the axis.", cr.Estimate, rep.ind, rep.fTest)
+	rep.Estimate = cr.Estimate
+	if rep.consensusWarnings <= len(rep.Warnings) {
+		rep.Warnings = rep.Warnings[:rep.consensusWarnings]
+	}
+}
+
+// concentrated reports the rows holding outlierEnergy of u's energy when they are few
+// (at most max(3, n/10)) and u is not smooth in time.
+func concentrated(u []float64) ([]int, bool) {
+	n := len(u)
+	if n < 10 || Autocorrelation(u) >= 0.5 {
+		return nil, false
+	}
+	idx := make([]int, n)
+	for i := range idx {
+		idx[i] = i
+	}
+	sort.SliceStable(idx, func(a, b int) bool { return u[idx[a]]*u[idx[a]] > u[idx[b]]*u[idx[b]] })
+	var tot, acc float64
+	for _, x := range u {
+		tot += x * x
+	}
+	few := max(3, n/10)
+	for c := 0; c < few; c++ {
+		acc += u[idx[c]] * u[idx[c]]
+		if acc >= outlierEnergy*tot {
+			rows := append([]int(nil), idx[:c+1]...)
+			sort.Ints(rows)
+			return rows, true
+		}
+	}
+	return nil, false
+}
+
+// polyShare is the share of ‖v‖² in the span of the polynomials up to baselineOrder.
+func polyShare(v, axis []float64) float64 {
+	if len(v) <= baselineOrder+1 {
+		return 0
+	}
+	return spanShare(v, orthoBasis(axis, baselineOrder))
+}
+
+// derivShare is the share of ‖v‖² in the span of the central differences of the vectors
+// in chem (derivatives up to a constant factor of the axis spacing).
+func derivShare(v []float64, chem [][]float64) float64 {
+	m := len(v)
+	if m < 3 {
+		return 0
+	}
+	x := mat.NewDense(m, len(chem), nil)
+	for c, w := range chem {
+		for j := 0; j < m; j++ {
+			x.Set(j, c, w[min(j+1, m-1)]-w[max(j-1, 0)])
+		}
+	}
+	orthonormalize(x)
+	return spanShare(v, x)
+}
+
+// spanShare is ‖Qᵀv‖²/‖v‖² for Q with orthonormal columns.
+func spanShare(v []float64, q *mat.Dense) float64 {
+	if q == nil {
+		return 0
+	}
+	vv := mat.NewVecDense(len(v), v)
+	var c mat.VecDense
+	c.MulVec(q.T(), vv)
+	den := mat.Dot(vv, vv)
+	if den == 0 {
+		return 0
+	}
+	return mat.Dot(&c, &c) / den
+}
+
+// smooth5 is a 5-point moving average: the noise on a singular vector would otherwise
+// hide how well its shape follows a polynomial.
+func smooth5(v []float64) []float64 {
+	out := make([]float64, len(v))
+	for j := range v {
+		s, c := 0.0, 0
+		for i := max(j-2, 0); i <= min(j+2, len(v)-1); i++ {
+			s += v[i]
+			c++
+		}
+		out[j] = s / float64(c)
+	}
+	return out
+}
+
+// minorLooks describes a minor factor: where its spectrum is largest, how its time
+// vector runs, and why it is not counted.
+func minorLooks(u, v, axis []float64, ratio float64, chem int, relPercent float64) string {
+	var b strings.Builder
+	b.WriteString("smooth in time and along the axis")
+	if len(axis) == len(v) && len(v) > 0 {
+		at := 0
+		for j := range v {
+			if math.Abs(v[j]) > math.Abs(v[at]) {
+				at = j
+			}
+		}
+		fmt.Fprintf(&b, ", largest near %.4g on the axis", axis[at])
+	}
+	if len(u) > 2 {
+		peak := 0
+		for i := range u {
+			if math.Abs(u[i]) > math.Abs(u[peak]) {
+				peak = i
+			}
+		}
+		switch {
+		case peak == 0 || peak == len(u)-1:
+			b.WriteString(", drifting steadily in time")
+		default:
+			fmt.Fprintf(&b, ", largest at spectrum %d of %d (a transient)", peak+1, len(u))
+		}
+	}
+	if ratio <= fitsNoise {
+		fmt.Fprintf(&b, "; %d component(s) already fit to the noise (residual/noise %.3g), so it does not lower the fit significantly and is not counted as a species", chem, ratio)
+	} else {
+		fmt.Fprintf(&b, "; it carries %.2g %% of the signal of the smallest of the %d component(s) before it (residual/noise without it %.3g): too small beside them to tell a species from a change of band shape, so it is not counted", relPercent, chem, ratio)
+	}
+	return b.String()
+}
