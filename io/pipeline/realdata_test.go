@@ -37,14 +37,14 @@ func ncoArea(axis, y []float64) float64 {
 	return area
 }
 
-// TestUrethaneRealSeries runs the real series as a user would (absorbance input, the
-// times table, every other setting at its default) and checks it against what is known
+// TestUrethaneRealSeries runs the real series as a user would (absorbance input, times
+// from the date-time stamps in the file names, every other setting at its default) and checks it against what is known
 // independently of any resolution (source: testdata/urethane-atr/README.md, from
 // jevandezande/spectra, MIT).
 func TestUrethaneRealSeries(t *testing.T) {
 	dir := filepath.Join(urethaneDir, "catalyst-1.00")
 	s := NewSettings()
-	s.Data, s.Kind, s.Times = []string{dir}, "absorbance", filepath.Join(urethaneDir, "times-catalyst-1.00.csv")
+	s.Data, s.Kind, s.TimesFromName = []string{dir}, "absorbance", true
 	s.Bands, s.Checks = "off", "off" // not what is tested here; they only add time
 	r, err := Run(s, nil)
 	if err != nil {
@@ -60,7 +60,7 @@ func TestUrethaneRealSeries(t *testing.T) {
 	}
 	// The isocyanate is the component whose spectrum is largest at the N=C=O band;
 	// its profile must follow the band's area, |r| ≥ 0.98 (README's independent check).
-	ser, err := spectra.Load(dir, spectra.FolderOptions{TimesFile: s.Times})
+	ser, err := spectra.Load(dir, spectra.FolderOptions{TimesFromName: true})
 	if err != nil {
 		t.Fatal(err)
 	}
