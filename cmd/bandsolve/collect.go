@@ -37,7 +37,7 @@ var _ = func() bool {
 
 func runCollect(args []string, st pipeline.Streams) int {
 	fs := newFlagSet("collect", collectHelp, st)
-	out := fs.String("out", "", "write the table to FILE instead of standard output")
+	out := fs.String("out", "", "write the table to `FILE` instead of standard output")
 	force := fs.Bool("force", false, "replace FILE if it exists")
 	if ok, code := parse(fs, args, collectHelp, st); !ok {
 		return code

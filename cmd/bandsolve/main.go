@@ -52,10 +52,10 @@ func mainArgs(args []string, st pipeline.Streams) int {
 	switch args[0] {
 	case "-h", "--help", "help":
 		if len(args) > 1 {
+			// "help X" is "X --help": the same text, flags included.
 			for _, c := range commands {
 				if c.name == args[1] {
-					fmt.Fprint(st.Out, c.help)
-					return exitOK
+					return c.run([]string{"--help"}, st)
 				}
 			}
 		}
@@ -194,8 +194,7 @@ func parse(fs *pflag.FlagSet, args []string, help string, st pipeline.Streams) (
 	err := fs.Parse(args)
 	if errors.Is(err, pflag.ErrHelp) {
 		fmt.Fprint(st.Out, help)
-		fs.SetOutput(st.Out)
-		fs.PrintDefaults()
+		printFlags(st.Out, fs)
 		return false, exitOK
 	}
 	if err != nil {
@@ -229,7 +228,7 @@ func runResolve(args []string, st pipeline.Streams) int {
 
 func runDemo(args []string, st pipeline.Streams) int {
 	fs := newFlagSet("demo", demoHelp, st)
-	out := fs.String("out", "bandsolve-demo", "output folder")
+	out := fs.String("out", "bandsolve-demo", "write the invented data (`DIR`/input) and the results here")
 	force := fs.Bool("force", false, "replace earlier results in the output folder")
 	quiet := fs.Bool("quiet", false, "print nothing but errors")
 	asJSON := fs.Bool("json", false, "print the summary as JSON on stdout")

@@ -336,7 +336,7 @@ var options = func() []Option {
 	s14, g14 := str(func(s *Settings) *string { return &s.Model })
 	add(opt("model", "SCHEME", "reaction scheme to fit to the profiles, e.g. 'A -> B -> C'", false, true, s14, g14))
 	s15, g15 := str(func(s *Settings) *string { return &s.T0 })
-	add(opt("t0", "SECONDS", "time the reaction starts (default: time of the reference spectrum)", false, true, func(s *Settings, v string) error {
+	add(opt("t0", "SECONDS", "time the reaction starts, in seconds (default: the time of the last spectrum before it with --pre N, else of the reference spectrum)", false, true, func(s *Settings, v string) error {
 		if v != "" {
 			if _, err := strconv.ParseFloat(v, 64); err != nil {
 				return fmt.Errorf("%q: want a time in seconds", v)
