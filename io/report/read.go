@@ -123,6 +123,36 @@ type Maps struct {
 	Matrices map[string]*Matrix
 }
 
+// maxFileBytes bounds one file of an output folder read for the report.
+const maxFileBytes = 1 << 30
+
+// readInFolder reads the regular file path through an os.Root opened on
+// its folder: nothing in an output folder is trusted (docs/security.md),
+// so a result file that is a link leading out of the folder, a device or a
+// FIFO is refused rather than copied into the report.
+func readInFolder(path string) ([]byte, error) {
+	root, err := os.OpenRoot(filepath.Dir(path))
+	if err != nil {
+		return nil, err
+	}
+	defer root.Close()
+	name := filepath.Base(path)
+	st, err := root.Stat(name)
+	if err != nil {
+		if errors.Is(err, os.ErrNotExist) {
+			return nil, err
+		}
+		return nil, fmt.Errorf("%s: refused: it leads outside the folder (%v)", name, err)
+	}
+	if !st.Mode().IsRegular() {
+		return nil, fmt.Errorf("%s: refused: not a regular file", name)
+	}
+	if st.Size() > maxFileBytes {
+		return nil, fmt.Errorf("%s: refused: %d bytes, more than the %d accepted", name, st.Size(), maxFileBytes)
+	}
+	return root.ReadFile(name)
+}
+
 // Matrix is one matrix of maps.csv.
 type Matrix struct {
 	Experiment []int
@@ -144,7 +174,7 @@ func Load(dir string) (*Folder, error) {
 		}
 	}
 	sort.Strings(f.Files)
-	b, err := os.ReadFile(filepath.Join(dir, "summary.json"))
+	b, err := readInFolder(filepath.Join(dir, "summary.json"))
 	if err != nil {
 		if errors.Is(err, os.ErrNotExist) {
 			return nil, fmt.Errorf("%s: has no summary.json, so it holds no bandsolve results to report", dir)
@@ -198,7 +228,7 @@ func Load(dir string) (*Folder, error) {
 }
 
 func readText(dir, name string) *Text {
-	b, err := os.ReadFile(filepath.Join(dir, name))
+	b, err := readInFolder(filepath.Join(dir, name))
 	if err != nil {
 		return nil
 	}
@@ -206,7 +236,7 @@ func readText(dir, name string) *Text {
 }
 
 func readTable(path string) (*Table, error) {
-	b, err := os.ReadFile(path)
+	b, err := readInFolder(path)
 	if err != nil {
 		return nil, err
 	}
