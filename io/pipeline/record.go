@@ -427,10 +427,15 @@ func HashFile(path string) (int64, string, error) {
 	if st, err := f.Stat(); err != nil || !st.Mode().IsRegular() {
 		return 0, "", fmt.Errorf("%s: not a regular file; refused", path)
 	}
+	return hashStream(f, path)
+}
+
+// hashStream returns the size and SHA-256 (hex) of what f holds.
+func hashStream(f io.Reader, name string) (int64, string, error) {
 	h := sha256.New()
 	n, err := io.Copy(h, f)
 	if err != nil {
-		return 0, "", fmt.Errorf("%s: %w", path, err)
+		return 0, "", fmt.Errorf("%s: %w", name, err)
 	}
 	return n, hex.EncodeToString(h.Sum(nil)), nil
 }

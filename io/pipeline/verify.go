@@ -247,18 +247,24 @@ func checkInputs(v *Verification, root *os.Root, abs string, m *Manifest, s *Set
 			refuse(in, "the as-run record names no such input")
 			continue
 		}
-		var b []byte
+		// Hashed as it is read: an input may be as large as the data.
+		var n int64
+		var sum string
 		var err error
 		if rel := filepath.FromSlash(in.Path); filepath.IsLocal(rel) {
-			b, err = readInside(root, in.Path, spectra.MaxFileBytes)
+			var f *os.File
+			if f, err = openInside(root, in.Path); err == nil {
+				n, sum, err = hashStream(f, in.Path)
+				f.Close()
+			}
 		} else {
-			b, err = spectra.ReadRegular(p, spectra.MaxFileBytes)
+			n, sum, err = HashFile(p)
 		}
 		if err != nil {
 			v.Differences = append(v.Differences, &Difference{File: in.Path, InputError: fmt.Sprintf("input %s: cannot be read (%v); put it back where the record says (relative to %s)", in.Path, unwrapPath(err), root.Name())})
 			continue
 		}
-		checkSum(v, in, b)
+		checkSum(v, in, n, sum)
 	}
 	for _, in := range m.Supplied {
 		if !filepath.IsLocal(filepath.FromSlash(in.Path)) {
@@ -272,7 +278,8 @@ func checkInputs(v *Verification, root *os.Root, abs string, m *Manifest, s *Set
 		}
 		if !inputs[in.Path] {
 			inputs[in.Path] = true
-			checkSum(v, in, b)
+			sum := sha256.Sum256(b)
+			checkSum(v, in, int64(len(b)), hex.EncodeToString(sum[:]))
 		}
 		supplied[in.Path] = b
 	}
@@ -282,10 +289,9 @@ func checkInputs(v *Verification, root *os.Root, abs string, m *Manifest, s *Set
 // checkSum compares a file's SHA-256 with the manifest's. The message
 // gives sizes, never the file's own digest: the manifest is not trusted to
 // name a file whose fingerprint may be shown.
-func checkSum(v *Verification, in InputFile, b []byte) {
-	sum := sha256.Sum256(b)
-	if hex.EncodeToString(sum[:]) != in.SHA256 {
-		v.Differences = append(v.Differences, &Difference{File: in.Path, InputError: fmt.Sprintf("input %s: SHA-256 mismatch with the manifest (%d bytes now, %d recorded); the input changed since the run", in.Path, len(b), in.Bytes)})
+func checkSum(v *Verification, in InputFile, n int64, sum string) {
+	if sum != in.SHA256 {
+		v.Differences = append(v.Differences, &Difference{File: in.Path, InputError: fmt.Sprintf("input %s: SHA-256 mismatch with the manifest (%d bytes now, %d recorded); the input changed since the run", in.Path, n, in.Bytes)})
 		return
 	}
 	v.Inputs++
@@ -346,6 +352,17 @@ const maxResultBytes = 1 << 30
 // device, FIFO or socket is refused before it is opened, and more than
 // limit bytes are refused while reading.
 func readInside(root *os.Root, name string, limit int64) ([]byte, error) {
+	f, err := openInside(root, name)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	return spectra.ReadAllLimited(f, name, limit)
+}
+
+// openInside opens the regular file name (a slash path) of the folder root;
+// see readInside.
+func openInside(root *os.Root, name string) (*os.File, error) {
 	p := filepath.FromSlash(name)
 	if !filepath.IsLocal(p) {
 		return nil, fmt.Errorf("%s is not a plain path inside %s (absolute, or climbing out with ..)", clip(name), root.Name())
@@ -361,8 +378,11 @@ func readInside(root *os.Root, name string, limit int64) ([]byte, error) {
 	if err != nil {
 		return nil, outside(err, name, root)
 	}
-	defer f.Close()
-	return spectra.ReadAllLimited(f, name, limit)
+	if st, err := f.Stat(); err != nil || !st.Mode().IsRegular() {
+		f.Close()
+		return nil, fmt.Errorf("%s is not a regular file", name)
+	}
+	return f, nil
 }
 
 // outside words os.Root's refusal of a path leading out of the folder.

@@ -33,10 +33,10 @@ func readJCAMPSeries(path string) ([]*Spectrum, error) {
 		return nil, err
 	}
 	defer f.Close()
-	if size > maxFileBytes {
-		return nil, tooLarge(path, size, maxFileBytes)
+	if size > fileLimit {
+		return nil, tooLarge(path, size, fileLimit)
 	}
-	blocks, err := jcamp.Parse(&limitedReader{r: f, name: path, left: maxFileBytes, limit: maxFileBytes}, path)
+	blocks, err := jcamp.Parse(&limitedReader{r: f, name: path, left: fileLimit, limit: fileLimit}, path)
 	if err != nil {
 		var ie *InputError
 		if errors.As(err, &ie) {

@@ -18,7 +18,7 @@ const mappedMin = 1 << 20
 // bytes any more; the parser copies every string it keeps.
 func readMapped(path string) (raw []byte, release func(), err error) {
 	st, err := os.Stat(path)
-	if err != nil || !st.Mode().IsRegular() || st.Size() < mappedMin || st.Size() > maxFileBytes {
+	if err != nil || !st.Mode().IsRegular() || st.Size() < mappedMin || st.Size() > fileLimit {
 		raw, err := readAll(path) // its messages for every unusual case
 		return raw, func() {}, err
 	}

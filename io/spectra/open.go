@@ -95,8 +95,25 @@ func ReadAllLimited(r io.Reader, name string, limit int64) ([]byte, error) {
 	return b, nil
 }
 
+// fileLimit is what a reader accepts on this machine: MaxFileBytes, or a
+// third of the physical memory when that is less, as the text and the
+// numbers parsed from it must fit in memory together. Running out of
+// memory is never how a run ends: a larger file is refused, with its size.
+var fileLimit = memoryLimit(physicalMemory())
+
+func memoryLimit(ram int64) int64 {
+	if ram > 0 && ram/3 < MaxFileBytes {
+		return ram / 3
+	}
+	return MaxFileBytes
+}
+
 func tooLarge(name string, size, limit int64) error {
-	return inputErr(name, 0, "split the file, or check that this is the right path", "is at least %d bytes, more than the %d accepted", size, limit)
+	why := ""
+	if limit < MaxFileBytes {
+		why = " (a third of this machine's memory)"
+	}
+	return inputErr(name, 0, "split the file, or check that this is the right path", "is at least %d bytes, more than the %d accepted%s", size, limit, why)
 }
 
 // readChunk is how much readText asks the reader for at a time.

@@ -101,3 +101,21 @@ func TestReadRefusesDevices(t *testing.T) {
 		t.Errorf("JCAMP-DX link to /dev/zero: %v", err)
 	}
 }
+
+// The byte limit follows the machine: a third of its memory when that is
+// below MaxFileBytes, and the message says so.
+func TestFileLimitFollowsMemory(t *testing.T) {
+	for _, c := range []struct{ ram, want int64 }{
+		{0, MaxFileBytes}, {3 << 30, 1 << 30}, {64 << 30, MaxFileBytes},
+	} {
+		if got := memoryLimit(c.ram); got != c.want {
+			t.Errorf("memory %d: limit %d, want %d", c.ram, got, c.want)
+		}
+	}
+	if fileLimit <= 0 || fileLimit > MaxFileBytes {
+		t.Errorf("this machine's limit %d", fileLimit)
+	}
+	if err := tooLarge("big.csv", 2<<30, 1<<30); !strings.Contains(err.Error(), "big.csv: is at least 2147483648 bytes, more than the 1073741824 accepted (a third of this machine's memory)") {
+		t.Errorf("message %v", err)
+	}
+}

@@ -86,10 +86,10 @@ func readAll(path string) ([]byte, error) {
 		return nil, err
 	}
 	defer f.Close()
-	if size > maxFileBytes {
-		return nil, inputErr(path, 0, "split the file", "is %d bytes, more than the %d accepted", size, int64(maxFileBytes))
+	if size > fileLimit {
+		return nil, tooLarge(path, size, fileLimit)
 	}
-	raw, err := readText(f, path, size, maxFileBytes, MaxLineBytes)
+	raw, err := readText(f, path, size, fileLimit, MaxLineBytes)
 	if err != nil {
 		return nil, err
 	}
