@@ -396,3 +396,36 @@ func TestOldBandsNameStillWorks(t *testing.T) {
 		t.Error("--help should show --uniqueness and hide --bands")
 	}
 }
+
+// A --model whose species cannot be given components (here two species on
+// one component) does not throw the resolution away: the folder is written
+// with the reason in summary.json and on the terminal, and the exit code
+// says the run did not do all it was asked (2: a setting is at fault).
+func TestUnmappableModelKeepsTheResolution(t *testing.T) {
+	root := t.TempDir()
+	writeDemoInputs(t, filepath.Join(root, "data"))
+	t.Chdir(root)
+	r := run("resolve", "--data", "data/series.csv", "--blank", "data/blank.csv", "--pre", "3",
+		"--report", "off", "--uniqueness", "off", "--model", "A -> B -> C", "--map", "A=1,B=1,C=2", "--out", "res")
+	if r.code != exitUsage || !strings.Contains(r.stderr, "kinetics not done") || !strings.Contains(r.stderr, "component 1 is given to both A and B") {
+		t.Fatalf("exit %d, stderr %q", r.code, r.stderr)
+	}
+	if !strings.Contains(r.stdout, "warning: kinetics not done") {
+		t.Errorf("terminal summary lacks the reason:\n%s", r.stdout)
+	}
+	for _, f := range []string{"spectra.csv", "profiles.csv", "summary.json", "as-run.bsr"} {
+		if _, err := os.Stat(filepath.Join("res", f)); err != nil {
+			t.Errorf("%s not written: %v", f, err)
+		}
+	}
+	if _, err := os.Stat(filepath.Join("res", "kinetics.csv")); err == nil {
+		t.Error("kinetics.csv written for kinetics that were not done")
+	}
+	sum := readSummary(t, "res")
+	if why, _ := sum["kinetics_not_done"].(string); !strings.Contains(why, "given to both") {
+		t.Errorf("summary kinetics_not_done = %q", why)
+	}
+	if _, ok := sum["kinetics"]; ok {
+		t.Error("summary has a kinetics key for kinetics that were not done")
+	}
+}

@@ -36,7 +36,10 @@ type Summary struct {
 	// until 1.0 for scripts that read it (CONTRACT.md).
 	FeasibleBands []BandJSON    `json:"feasible_bands"`
 	Kinetics      *KineticsJSON `json:"kinetics,omitempty"`
-	EFA           *EFAJSON      `json:"efa,omitempty"`
+	// KineticsNotDone says why --model was not fitted; the resolution is
+	// in the folder all the same.
+	KineticsNotDone string   `json:"kinetics_not_done,omitempty"`
+	EFA             *EFAJSON `json:"efa,omitempty"`
 	// Baseline is the baseline model used (off, offset, linear, poly:N);
 	// BaselineReason says how it was chosen.
 	Baseline       string `json:"baseline"`

@@ -1,6 +1,7 @@
 package pipeline
 
 import (
+	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -63,7 +64,22 @@ func Execute(s *Settings, st Streams) (*Result, error) {
 		return nil, err
 	}
 	printSummary(r, st)
+	if r.KineticsErr != nil {
+		// The resolution stands on its own: it is written, and the run
+		// still fails so that scripts see the kinetics were not done.
+		return r, kineticsNotDone(r.KineticsErr, s.Out)
+	}
 	return r, nil
+}
+
+// kineticsNotDone keeps the kind of the cause (a usage error exits 2).
+func kineticsNotDone(err error, out string) error {
+	msg := fmt.Sprintf("kinetics not done (the resolution is written to %s): %v", out, err)
+	var ue *UsageError
+	if errors.As(err, &ue) {
+		return &UsageError{Msg: msg}
+	}
+	return errors.New(msg)
 }
 
 // inputPaths lists every file or folder the settings name for reading.

@@ -64,16 +64,19 @@ type Result struct {
 	// SoftALS is the soft solution a hard–soft run (--hard-model) started from.
 	SoftALS *mcr.Result
 	// Kinetics is the kinetic fit of --model (nil without one).
-	Kinetics   *Kinetics
-	LackOfFit  float64 // on the full data
-	Explained  float64
-	NoiseLOF   float64 // lack of fit % that noise alone would give
-	Compressed bool
-	EFA        *EFAReport
-	Init       string
-	Warnings   []string
-	Notes      []string
-	Advice     []string
+	Kinetics *Kinetics
+	// KineticsErr says why --model was not fitted (nil when it was or
+	// there is none); the resolution is written all the same.
+	KineticsErr error
+	LackOfFit   float64 // on the full data
+	Explained   float64
+	NoiseLOF    float64 // lack of fit % that noise alone would give
+	Compressed  bool
+	EFA         *EFAReport
+	Init        string
+	Warnings    []string
+	Notes       []string
+	Advice      []string
 	// Constraints: per-component constraints, their checks, uniqueness
 	// ranges and bootstrap intervals (constraints.go).
 	Constraints *ConstraintReport
@@ -384,7 +387,10 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	}
 	computeEFA(r)
 	if err := fitKinetics(r, log); err != nil {
-		return nil, err
+		// The resolution does not depend on the model: keep it, say why the
+		// kinetics are missing, and let Execute fail after writing.
+		r.Kinetics, r.KineticsErr = nil, err
+		r.Warnings = append(r.Warnings, "kinetics not done: "+err.Error())
 	}
 	return r, nil
 }

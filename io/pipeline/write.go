@@ -64,6 +64,9 @@ func MakeSummary(r *Result) *Summary {
 	if r.Mode.String() == "species" && r.Settings.Closure != "off" {
 		s.Closure = r.Settings.Closure
 	}
+	if r.KineticsErr != nil {
+		s.KineticsNotDone = r.KineticsErr.Error()
+	}
 	for _, e := range r.Experiments {
 		s.Experiments = append(s.Experiments, e.Source)
 	}
