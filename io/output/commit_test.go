@@ -64,7 +64,8 @@ func complete(out string) error {
 	return nil
 }
 
-// kill -9 at random moments of a loop of commits: the output folder always
+// kill -9 at random moments of two concurrent loops of commits into the
+// same folder: the output folder always
 // holds either the earlier or the new results, complete. With the atomic
 // exchange it does so at every instant; with the recorded two-step swap it
 // may be missing only until the next run finishes the swap (tidy). Either
@@ -80,21 +81,30 @@ func TestKillDuringCommit(t *testing.T) {
 			rng := rand.New(rand.NewPCG(13, uint64(len(mode))))
 			seen := false
 			for kill := 0; kill < 12; kill++ {
-				cmd := exec.Command(os.Args[0], "-test.run=^TestCommitLoopProcess$")
-				cmd.Env = append(os.Environ(), "BANDSOLVE_COMMIT_LOOP="+out)
-				if mode == "two-step" {
-					cmd.Env = append(cmd.Env, "BANDSOLVE_COMMIT_TWO_STEP=1")
-				}
-				var stderr bytes.Buffer
-				cmd.Stderr = &stderr
-				if err := cmd.Start(); err != nil {
-					t.Fatal(err)
+				// Two runs at once, both replacing out: the second run
+				// of the audit, at every instant of the other's commit.
+				var cmds []*exec.Cmd
+				var errs []*bytes.Buffer
+				for range 2 {
+					cmd := exec.Command(os.Args[0], "-test.run=^TestCommitLoopProcess$")
+					cmd.Env = append(os.Environ(), "BANDSOLVE_COMMIT_LOOP="+out)
+					if mode == "two-step" {
+						cmd.Env = append(cmd.Env, "BANDSOLVE_COMMIT_TWO_STEP=1")
+					}
+					errs = append(errs, &bytes.Buffer{})
+					cmd.Stderr = errs[len(errs)-1]
+					if err := cmd.Start(); err != nil {
+						t.Fatal(err)
+					}
+					cmds = append(cmds, cmd)
 				}
 				time.Sleep(time.Duration(20+rng.IntN(60)) * time.Millisecond)
-				cmd.Process.Signal(syscall.SIGKILL)
-				cmd.Wait()
-				if strings.Contains(stderr.String(), "\n") && !strings.Contains(stderr.String(), "PASS") {
-					t.Fatalf("child failed: %s", stderr.String())
+				for i, cmd := range cmds {
+					cmd.Process.Signal(syscall.SIGKILL)
+					cmd.Wait()
+					if e := errs[i].String(); strings.Contains(e, "\n") && !strings.Contains(e, "PASS") {
+						t.Fatalf("child failed: %s", e)
+					}
 				}
 				_, err := os.Lstat(out)
 				switch {
