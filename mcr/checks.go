@@ -94,7 +94,7 @@ func CheckConstraints(d Data, fit *Result, opt Options, maxIter int) ([]Constrai
 			clampColumns(c0, boolsOr(opt.NonNegProfiles, k, true))
 			ro := opt
 			ro.stopAtRoundingFloor = false
-			if again, err := Resolve(d, c0, ro); err == nil && again.ResidualSS < cc.ResidualSSWith {
+			if again, err := Resolve(d, c0, ro); err == nil && again.ResidualSS < (1-1e-6)*cc.ResidualSSWith {
 				cc.ResidualSSWith, cc.With = again.ResidualSS, again.LackOfFitPercent
 				cc.Restarted = true
 				if cc.ResidualSSWithout > cc.ResidualSSWith {
