@@ -184,7 +184,9 @@ func sample(it LegendItem) string {
 }
 
 // extraKeys lists summary.json keys the report does not present in its own
-// words, as compact JSON, sorted by key.
+// words as rows of a table, sorted by key: nested objects and lists are
+// spread into one row per value (key.field, key[1].field), so a reader
+// sees values rather than JSON.
 func extraKeys(raw map[string]json.RawMessage) [][2]string {
 	var keys []string
 	for k := range raw {
@@ -195,13 +197,80 @@ func extraKeys(raw map[string]json.RawMessage) [][2]string {
 	sort.Strings(keys)
 	var out [][2]string
 	for _, k := range keys {
-		var b bytes.Buffer
-		if err := json.Compact(&b, raw[k]); err != nil {
+		d := json.NewDecoder(bytes.NewReader(raw[k]))
+		d.UseNumber()
+		var v any
+		if err := d.Decode(&v); err != nil {
 			continue
 		}
-		out = append(out, [2]string{k, b.String()})
+		out = flatten(out, k, v, 0)
 	}
 	return out
+}
+
+// flatten adds one row per scalar of v under the path name; lists of
+// scalars stay on one row. Deep nesting is shown as compact JSON.
+func flatten(out [][2]string, name string, v any, depth int) [][2]string {
+	switch x := v.(type) {
+	case map[string]any:
+		if len(x) == 0 || depth > 3 {
+			break
+		}
+		keys := make([]string, 0, len(x))
+		for k := range x {
+			keys = append(keys, k)
+		}
+		sort.Strings(keys)
+		for _, k := range keys {
+			out = flatten(out, name+"."+k, x[k], depth+1)
+		}
+		return out
+	case []any:
+		scalars := true
+		for _, e := range x {
+			switch e.(type) {
+			case map[string]any, []any:
+				scalars = false
+			}
+		}
+		if !scalars && depth <= 3 {
+			for i, e := range x {
+				out = flatten(out, fmt.Sprintf("%s[%d]", name, i+1), e, depth+1)
+			}
+			return out
+		}
+		if scalars {
+			parts := make([]string, len(x))
+			for i, e := range x {
+				parts[i] = scalarText(e)
+			}
+			if len(parts) == 0 {
+				return append(out, [2]string{name, "none"})
+			}
+			return append(out, [2]string{name, strings.Join(parts, ", ")})
+		}
+	default:
+		return append(out, [2]string{name, scalarText(x)})
+	}
+	b, _ := json.Marshal(v)
+	return append(out, [2]string{name, string(b)})
+}
+
+func scalarText(v any) string {
+	switch x := v.(type) {
+	case nil:
+		return "–"
+	case string:
+		return x
+	case bool:
+		if x {
+			return "yes"
+		}
+		return "no"
+	case json.Number:
+		return x.String()
+	}
+	return fmt.Sprint(v)
 }
 
 // timestamp matches dates and clock times (RFC 3339 and similar).

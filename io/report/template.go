@@ -108,7 +108,7 @@ nav a { color: #0072b2; margin-right: .8rem; }
 {{if .Extra}}
 <h3>More results</h3>
 <table>
-{{range .Extra}}<tr><th>{{index . 0}}</th><td><code>{{index . 1}}</code></td></tr>
+{{range .Extra}}<tr><th>{{index . 0}}</th><td>{{index . 1}}</td></tr>
 {{end}}</table>{{end}}
 {{with .F.DemoCheck}}
 <h3>Demo: resolved against the invented truth</h3>

@@ -1,6 +1,7 @@
 package report
 
 import (
+	"encoding/json"
 	"math"
 	"strconv"
 	"strings"
@@ -59,5 +60,33 @@ func TestPNGTickLabelsKeepTheExponentSign(t *testing.T) {
 	}
 	if got := plainExponent(tickLabel(8e-5)); got != "8e-5" {
 		t.Errorf("PNG form of 8×10⁻⁵ = %q, want 8e-5", got)
+	}
+}
+
+// "More results" shows values, not JSON: nested keys are spread into one
+// row per value (the dotted path names it), lists of numbers stay on a row.
+func TestExtraKeysAsTable(t *testing.T) {
+	raw := map[string]json.RawMessage{
+		"residual_to_noise": json.RawMessage(`1.02`),
+		"baseline":          json.RawMessage(`{"model":"linear","terms":[0.1,2e-5]}`),
+		"outlier_spectra":   json.RawMessage(`[{"time_s":30,"reason":"spike"}]`),
+		"rank_estimate":     json.RawMessage(`3`), // shown elsewhere
+	}
+	got := map[string]string{}
+	for _, r := range extraKeys(raw) {
+		got[r[0]] = r[1]
+		if strings.ContainsAny(r[1], "{[\"") {
+			t.Errorf("row %s shows JSON: %q", r[0], r[1])
+		}
+	}
+	want := map[string]string{"residual_to_noise": "1.02", "baseline.model": "linear", "baseline.terms": "0.1, 2e-5",
+		"outlier_spectra[1].time_s": "30", "outlier_spectra[1].reason": "spike"}
+	for k, v := range want {
+		if got[k] != v {
+			t.Errorf("%s = %q, want %q (all rows %v)", k, got[k], v, got)
+		}
+	}
+	if _, ok := got["rank_estimate"]; ok || len(got) != len(want) {
+		t.Errorf("rows %v, want exactly %v", got, want)
 	}
 }
