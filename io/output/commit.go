@@ -84,7 +84,15 @@ func (s *Stage) swapInTwoSteps() error {
 	parent := filepath.Dir(s.Final)
 	j := swapPath(s.Final)
 	rec := filepath.Base(s.Dir) + "\n" + filepath.Base(old) + "\n"
-	if err := writeSynced(j, []byte(rec)); err != nil {
+	// Written aside and renamed into place, so that a kill while writing
+	// leaves no half record that would stop every later run.
+	if err := writeSynced(j+".tmp", []byte(rec)); err != nil {
+		os.Remove(j + ".tmp")
+		os.RemoveAll(s.Dir)
+		return fmt.Errorf("%s: cannot record the swap in %s: %w", s.Final, j, unwrap(err))
+	}
+	if err := os.Rename(j+".tmp", j); err != nil {
+		os.Remove(j + ".tmp")
 		os.RemoveAll(s.Dir)
 		return fmt.Errorf("%s: cannot record the swap in %s: %w", s.Final, j, unwrap(err))
 	}
@@ -164,6 +172,14 @@ func tidy(final string) error {
 		return err
 	}
 	defer unlock()
+	return tidyLocked(final)
+}
+
+// tidyLocked is tidy for a caller that holds the parent lock.
+func tidyLocked(final string) error {
+	// A swap record is written under the lock and renamed into place
+	// whole; a temporary one seen under the lock is a killed run's.
+	os.Remove(swapPath(final) + ".tmp")
 	if err := recoverSwap(final); err != nil {
 		return err
 	}

@@ -216,7 +216,15 @@ func NewStage(out string, force bool) (*Stage, error) {
 	if err := os.MkdirAll(filepath.Dir(clean), 0o755); err != nil {
 		return nil, fmt.Errorf("%s: cannot make the folders above it: %w", out, unwrap(err))
 	}
-	if err := tidy(clean); err != nil {
+	// The parent lock is held from tidying to locking the new stage: a
+	// second run's tidy could otherwise take the stage, created but not
+	// yet locked, for a dead run's and remove it.
+	unlock, err := lockParent(clean)
+	if err != nil {
+		return nil, err
+	}
+	defer unlock()
+	if err := tidyLocked(clean); err != nil {
 		return nil, err
 	}
 	// Creating and tracking the folder is one step for Interrupt, which
