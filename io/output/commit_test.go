@@ -98,6 +98,15 @@ func TestKillDuringCommit(t *testing.T) {
 					}
 					cmds = append(cmds, cmd)
 				}
+				// Until a first commit is seen, wait for one (a loaded
+				// machine can take longer than the random delay to start
+				// the children); then kill at random moments.
+				for wait := 0; !seen && wait < 500; wait++ {
+					if _, err := os.Lstat(out); err == nil {
+						break
+					}
+					time.Sleep(10 * time.Millisecond)
+				}
 				time.Sleep(time.Duration(20+rng.IntN(60)) * time.Millisecond)
 				for i, cmd := range cmds {
 					cmd.Process.Signal(syscall.SIGKILL)
