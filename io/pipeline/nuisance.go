@@ -304,6 +304,11 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, l
 		if _, ok := data.(mcr.LessBaseline).Data.(mcr.Dense); ok {
 			data = mcr.Dense{D: r.D}
 		}
+		// The fit's figures are now those of the data without the baseline,
+		// which the checks and the report compare with.
+		res.LackOfFitPercent = mcr.LackOfFit(r.D, res.C, res.S)
+		res.ResidualSS = sq(res.LackOfFitPercent/100) * frob2(r.D)
+		res.ExplainedPercent = 100 * (1 - sq(res.LackOfFitPercent/100))
 	}
 	return res, data, nil
 }

@@ -1,0 +1,106 @@
+package svd
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Legendre polynomials against their closed forms P2 = (3x²−1)/2, P3 = (5x³−3x)/2
+// (Abramowitz & Stegun, Handbook of Mathematical Functions, Table 22.9; from memory), on
+// an axis given in descending order as spectra often are.
+func TestLegendreClosedForms(t *testing.T) {
+	axis := []float64{4000, 3000, 2500, 1000}
+	p := Legendre(axis, 3)
+	for j, a := range axis {
+		x := 2*(a-1000)/3000 - 1
+		want := []float64{1, x, (3*x*x - 1) / 2, (5*x*x*x - 3*x) / 2}
+		for q, w := range want {
+			if got := p.At(j, q); math.Abs(got-w) > 1e-14 {
+				t.Errorf("P%d(%g) = %v, want %v", q, x, got, w)
+			}
+		}
+	}
+	if Legendre(axis, -1) != nil {
+		t.Error("order −1 should give no baseline")
+	}
+}
+
+// nuisanceData: two species with Gaussian bands and smooth profiles plus white noise of
+// σ = 1e-3 (the analytic model D = C Sᵀ + E), with extra(i, j) added.
+func nuisanceData(seed uint64, extra func(i, j int, x float64) float64) (*mat.Dense, []float64) {
+	const n, m = 40, 300
+	rng := rand.New(rand.NewPCG(seed, 3))
+	axis := make([]float64, m)
+	d := mat.NewDense(n, m, nil)
+	for j := range axis {
+		axis[j] = 1000 + 2*float64(j)
+	}
+	for i := 0; i < n; i++ {
+		a := math.Exp(-float64(i) / 12)
+		for j, x := range axis {
+			s1 := math.Exp(-0.5 * math.Pow((x-1200)/15, 2))
+			s2 := math.Exp(-0.5 * math.Pow((x-1450)/20, 2))
+			v := a*s1 + (1-a)*s2 + 1e-3*rng.NormFloat64()
+			if extra != nil {
+				v += extra(i, j, 2*(x-1000)/598-1)
+			}
+			d.Set(i, j, v)
+		}
+	}
+	return d, axis
+}
+
+// The extra-sum-of-squares F-test (Draper & Smith 1998, §6) picks a linear baseline when
+// each spectrum has an offset and a slope, and none when there is none.
+func TestChooseBaselineOrder(t *testing.T) {
+	drift, axis := nuisanceData(1, func(i, j int, x float64) float64 {
+		return 0.01*math.Sin(float64(i)) + 0.005*math.Cos(float64(i)/3)*x
+	})
+	ch, err := ChooseBaselineOrder(drift, nil, axis, 2, 3, 0.05)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if ch.Order != 1 {
+		t.Errorf("offset and slope per spectrum: order %d, want 1 (steps %+v)", ch.Order, ch.Steps)
+	}
+	clean, _ := nuisanceData(2, nil)
+	if ch, err = ChooseBaselineOrder(clean, nil, axis, 2, 3, 0.05); err != nil {
+		t.Fatal(err)
+	}
+	if ch.Order != -1 {
+		t.Errorf("no baseline: order %d, want none (steps %+v)", ch.Order, ch.Steps)
+	}
+}
+
+// A spectrum with sharp lines makes a factor whose time vector sits in that one spectrum:
+// named an outlier, not counted; the two species are (definition of the classes in
+// ClassifyFactors; data built from the model).
+func TestClassifyOutlierFactor(t *testing.T) {
+	d, axis := nuisanceData(3, func(i, j int, x float64) float64 {
+		if i == 17 && j%37 == 5 {
+			return 0.05
+		}
+		return 0
+	})
+	rep, err := EstimateRank(d, nil, RankOptions{ReferenceRow: -1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	f, _ := Decompose(d, DecomposeOptions{})
+	cr := ClassifyFactors(d, f, rep, NuisanceOptions{Axis: axis, MeanLevel: true})
+	if cr.Estimate != 2 {
+		t.Errorf("chemical count %d, want 2 (nuisance %+v)", cr.Estimate, cr.Nuisance)
+	}
+	found := false
+	for _, nf := range cr.Nuisance {
+		if nf.Kind == NuisanceOutlier && len(nf.Spectra) == 1 && nf.Spectra[0] == 17 {
+			found = true
+		}
+	}
+	if !found {
+		t.Errorf("no outlier factor on spectrum 17: %+v", cr.Nuisance)
+	}
+}
