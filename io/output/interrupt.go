@@ -31,8 +31,9 @@ func Interrupt() []string {
 	committing.Lock()
 	defer committing.Unlock()
 	writing.Lock() // never released: the process is about to exit
+	// Never released either: a stage made after this sweep, between its
+	// end and the exit, would be left behind.
 	activeMu.Lock()
-	defer activeMu.Unlock()
 	var dirs []string
 	for s := range active {
 		for try := 0; try < 3; try++ {

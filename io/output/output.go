@@ -188,7 +188,10 @@ func checkNew(out, clean string) error {
 
 func writable(dir, out string) error {
 	// Named like a staging folder of out, so that the next run's tidy
-	// removes it if this process is killed before it does.
+	// removes it if this process is killed before it does. Made and
+	// removed under Interrupt's lock, so that an interrupt never leaves it.
+	activeMu.Lock()
+	defer activeMu.Unlock()
 	f, err := os.CreateTemp(dir, stagePrefix(out)+"probe-*")
 	if err != nil {
 		return fmt.Errorf("%s: cannot write in %s (%v); choose a writable --out", out, dir, unwrap(err))
