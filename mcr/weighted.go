@@ -136,6 +136,9 @@ type WeightedFit struct {
 	LackOfFitPercent float64
 	WeightedSS       float64
 	Observed         int
+	// DataSS is Σ d_ij² and NoiseSS Σ 1/(a_i b_j), the noise variance the
+	// weights imply, both over the observed points.
+	DataSS, NoiseSS float64
 }
 
 // ResidualToNoise is √(χ²/ν) with ν = observed points − k(n + m − k), the
@@ -157,7 +160,7 @@ func FitWeighted(d, c, s *mat.Dense, row, col []float64, missing func(i, j int) 
 	n, m := d.Dims()
 	const block = 256
 	var e mat.Dense
-	ssr, tot, wss := 0.0, 0.0, 0.0
+	ssr, tot, wss, nss := 0.0, 0.0, 0.0, 0.0
 	obs := 0
 	for lo := 0; lo < n; lo += block {
 		hi := min(n, lo+block)
@@ -182,11 +185,12 @@ func FitWeighted(d, c, s *mat.Dense, row, col []float64, missing func(i, j int) 
 				ssr += r * r
 				tot += v * v
 				wss += a * b * r * r
+				nss += 1 / (a * b)
 				obs++
 			}
 		}
 	}
-	out := WeightedFit{WeightedSS: wss, Observed: obs}
+	out := WeightedFit{WeightedSS: wss, Observed: obs, DataSS: tot, NoiseSS: nss}
 	if tot > 0 {
 		out.LackOfFitPercent = 100 * math.Sqrt(ssr/tot)
 	}

@@ -44,6 +44,10 @@ type RankOptions struct {
 	Alpha        float64 // significance level of Malinowski's F-test (0 -> 0.05)
 	MaxRank      int     // upper bound on the answer (0 = min(n,m)-1, capped at 12)
 	ReferenceRow int     // -1 none; for difference data the row used as the reference (its noise is one fixed pattern in every other row: never count it)
+	// PatternTime is the time shape of the reference pattern when the rows were scaled
+	// (√a_i of a noise-scaled matrix √A D √B: the pattern's row i is then √a_i times the
+	// fixed pattern); nil = constant. Time vectors are divided by it before the flatness test.
+	PatternTime []float64
 }
 
 // Criterion is one rank criterion's answer.
@@ -281,7 +285,10 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 			kAbove++
 		}
 	}
-	dirs := smoothestBasis(f, kAbove, refRow)
+	if opt.PatternTime != nil && len(opt.PatternTime) != n {
+		return nil, fmt.Errorf("svd: estimate rank: PatternTime has %d values for %d rows", len(opt.PatternTime), n)
+	}
+	dirs := smoothestBasis(f, kAbove, refRow, opt.PatternTime)
 	patDir := -1
 	if len(dirs) > 0 {
 		d0 := dirs[0]
@@ -297,7 +304,7 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 			}
 			rep.Table[main].ReferencePattern = true
 			rep.ReferencePatternFactor = main
-		case refRow < 0 && white && flatness(d0.time, -1) >= 0.8:
+		case refRow < 0 && white && flatness(unscaled(d0.time, opt.PatternTime), -1) >= 0.8:
 			warn("the significant factors hold a direction that is flat in time and white across the axis, like the reference spectrum's own noise in difference data; it was counted, since no single reference row was known (several experiments, or difference input): average more reference spectra (--reference mean:N) to shrink it")
 		}
 	}
@@ -478,6 +485,21 @@ func flatness(u []float64, skip int) float64 {
 	return sum * sum / (float64(cnt) * sq)
 }
 
+// unscaled divides u by the expected time shape (u itself when nil; zero
+// where the shape is not positive).
+func unscaled(u, shape []float64) []float64 {
+	if shape == nil {
+		return u
+	}
+	out := make([]float64, len(u))
+	for i, v := range u {
+		if shape[i] > 0 {
+			out[i] = v / shape[i]
+		}
+	}
+	return out
+}
+
 func zeroRows(d *mat.Dense) []int {
 	n, _ := d.Dims()
 	var z []int
@@ -512,7 +534,7 @@ type direction struct {
 // like what it is; the smooth and the white parts of the subspace separate cleanly
 // because they differ in exactly the property M measures. Returned in ascending
 // autocorrelation order (the whitest first).
-func smoothestBasis(f *Factors, k, refRow int) []direction {
+func smoothestBasis(f *Factors, k, refRow int, patternTime []float64) []direction {
 	if k <= 0 {
 		return nil
 	}
@@ -549,9 +571,84 @@ func smoothestBasis(f *Factors, k, refRow int) []direction {
 			}
 			t[i] = s
 		}
-		out[l] = direction{weights: w, autocorrV: vals[l], autocorrU: Autocorrelation(t), flatness: flatness(t, refRow), time: t}
+		out[l] = direction{weights: w, autocorrV: vals[l], autocorrU: Autocorrelation(t), flatness: flatness(unscaled(t, patternTime), refRow), time: t}
+	}
+	if patternTime != nil {
+		// Noise-scaled data: the signal stands thousands of noise units
+		// above the pattern, so the whitest direction's time vector carries
+		// a visible share of a smooth direction's (a rotation weight of 1e-3
+		// on a factor 4000 times larger). Judge its flatness in the
+		// complement of the smooth directions' time vectors: a pattern is
+		// constant plus chemistry, and only the constant is left there.
+		var smooth [][]float64
+		for l := range out {
+			if out[l].autocorrV >= 0.3 {
+				smooth = append(smooth, unscaled(out[l].time, patternTime))
+			}
+		}
+		for l := range out {
+			if out[l].autocorrV < 0.3 {
+				out[l].flatness = flatnessBeside(unscaled(out[l].time, patternTime), smooth, refRow)
+			}
+		}
 	}
 	return out
+}
+
+// flatnessBeside is cos² between u and the all-ones vector after both are
+// projected off span(others) (row skip left out): 1 when u is a constant
+// plus a combination of the others.
+func flatnessBeside(u []float64, others [][]float64, skip int) float64 {
+	n := len(u)
+	if len(others) == 0 {
+		return flatness(u, skip)
+	}
+	q := mat.NewDense(n, len(others), nil)
+	for c, o := range others {
+		for i, v := range o {
+			if i != skip {
+				q.Set(i, c, v)
+			}
+		}
+	}
+	if n < len(others)+2 {
+		return flatness(u, skip)
+	}
+	orthonormalize(q)
+	perp := func(x []float64) []float64 {
+		y := append([]float64(nil), x...)
+		if skip >= 0 && skip < n {
+			y[skip] = 0
+		}
+		for c := range others {
+			var d float64
+			for i := 0; i < n; i++ {
+				d += q.At(i, c) * y[i]
+			}
+			for i := 0; i < n; i++ {
+				y[i] -= d * q.At(i, c)
+			}
+		}
+		return y
+	}
+	ones := make([]float64, n)
+	for i := range ones {
+		ones[i] = 1
+	}
+	a, b := perp(u), perp(ones)
+	var ab, aa, bb float64
+	for i := range a {
+		if i == skip {
+			continue
+		}
+		ab += a[i] * b[i]
+		aa += a[i] * a[i]
+		bb += b[i] * b[i]
+	}
+	if aa == 0 || bb == 0 {
+		return 0
+	}
+	return ab * ab / (aa * bb)
 }
 
 type signalFactor struct {

@@ -6,32 +6,41 @@ package output
 
 // Summary is summary.json. Key names are part of the public contract.
 type Summary struct {
-	Tool                     string          `json:"tool"`
-	RankEstimate             int             `json:"rank_estimate"`
-	Components               int             `json:"components"`
-	Mode                     string          `json:"mode"`
-	ModeReason               string          `json:"mode_reason"`
-	LackOfFitPercent         float64         `json:"lack_of_fit_percent"`
-	ExplainedVariancePercent float64         `json:"explained_variance_percent"`
-	NoiseLackOfFitPercent    float64         `json:"noise_lack_of_fit_percent"`
-	Iterations               int             `json:"iterations"`
-	Converged                bool            `json:"converged"`
-	NoiseSigma               float64         `json:"noise_sigma"`
-	NoiseSource              string          `json:"noise_source"`
-	NoiseEdge                float64         `json:"noise_edge"`
-	RankReason               string          `json:"rank_reason"`
-	RankCriteria             []CriterionJSON `json:"rank_criteria"`
-	DifferenceRank           *int            `json:"difference_rank_estimate,omitempty"`
-	SVDMethod                string          `json:"svd_method"`
-	Compressed               bool            `json:"compressed_iterations"`
-	InitialEstimate          string          `json:"initial_estimate"`
-	Closure                  string          `json:"closure"`
-	Spectra                  int             `json:"spectra"`
-	Points                   int             `json:"points"`
-	Axis                     string          `json:"axis"`
-	Experiments              []string        `json:"experiments"`
-	ComponentNames           []string        `json:"component_names"`
-	UniquenessRanges         []BandJSON      `json:"uniqueness_ranges"`
+	Tool                     string  `json:"tool"`
+	RankEstimate             int     `json:"rank_estimate"`
+	Components               int     `json:"components"`
+	Mode                     string  `json:"mode"`
+	ModeReason               string  `json:"mode_reason"`
+	LackOfFitPercent         float64 `json:"lack_of_fit_percent"`
+	ExplainedVariancePercent float64 `json:"explained_variance_percent"`
+	NoiseLackOfFitPercent    float64 `json:"noise_lack_of_fit_percent"`
+	// ResidualToNoise is √(χ²/ν) of the noise-weighted fit at the observed
+	// points (ν = observed − k(n + m − k)): 1.0 means the model fits to the
+	// noise; 0 when the fit is not weighted.
+	ResidualToNoise float64 `json:"residual_to_noise"`
+	// NoiseWeights says how points were weighted: "noise" (1/σ² from the
+	// noise model, row × column) or "off".
+	NoiseWeights string `json:"noise_weights"`
+	// BlindPoints counts the points with no usable light (left out).
+	BlindPoints      int             `json:"blind_points"`
+	Iterations       int             `json:"iterations"`
+	Converged        bool            `json:"converged"`
+	NoiseSigma       float64         `json:"noise_sigma"`
+	NoiseSource      string          `json:"noise_source"`
+	NoiseEdge        float64         `json:"noise_edge"`
+	RankReason       string          `json:"rank_reason"`
+	RankCriteria     []CriterionJSON `json:"rank_criteria"`
+	DifferenceRank   *int            `json:"difference_rank_estimate,omitempty"`
+	SVDMethod        string          `json:"svd_method"`
+	Compressed       bool            `json:"compressed_iterations"`
+	InitialEstimate  string          `json:"initial_estimate"`
+	Closure          string          `json:"closure"`
+	Spectra          int             `json:"spectra"`
+	Points           int             `json:"points"`
+	Axis             string          `json:"axis"`
+	Experiments      []string        `json:"experiments"`
+	ComponentNames   []string        `json:"component_names"`
+	UniquenessRanges []BandJSON      `json:"uniqueness_ranges"`
 	// FeasibleBands is uniqueness_ranges under its old name, written
 	// until 1.0 for scripts that read it (CONTRACT.md).
 	FeasibleBands []BandJSON    `json:"feasible_bands"`

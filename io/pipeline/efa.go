@@ -41,14 +41,18 @@ func computeEFA(r *Result) {
 	if r.Components < 1 || r.EFA != nil {
 		return
 	}
-	n, m := r.D.Dims()
+	d := r.D
+	if r.Scaled != nil {
+		d = r.Scaled // the factors are of the noise-scaled matrix
+	}
+	n, m := d.Dims()
 	f := min(r.Components+1, n, m)
 	var e *svd.EFAResult
 	var err error
 	if r.Factors != nil && len(r.Factors.S) >= f {
-		e, err = svd.EFAFrom(r.D, r.Factors, f)
+		e, err = svd.EFAFrom(d, r.Factors, f)
 	} else {
-		e, err = svd.EFA(r.D, f)
+		e, err = svd.EFA(d, f)
 	}
 	if err != nil {
 		r.Warnings = append(r.Warnings, fmt.Sprintf("evolving factor analysis skipped: %v", err))

@@ -337,10 +337,13 @@ func TestHardSoftResolvesAmbiguousExtents(t *testing.T) {
 	}
 	for j := range want {
 		within(t, "data fit "+kn.Scheme.Steps[j].Text, dataFit.Fit.K[j], dataFit.Fit.KStdErr[j], want[j], 3)
-		// The hard–soft constants agree with the data fit to a small part
-		// of its standard error (both minimise ‖D − C(k) Sᵀ‖).
-		if d := math.Abs(hardFit.Fit.K[j] - dataFit.Fit.K[j]); d > dataFit.Fit.KStdErr[j] {
-			t.Errorf("hard–soft k%d = %.7g differs from the data fit %.7g by more than its standard error %.2g", j+1, hardFit.Fit.K[j], dataFit.Fit.K[j], dataFit.Fit.KStdErr[j])
+		// The hard–soft constants agree with the data fit within twice its
+		// standard error: both minimise a residual of D − C(k) Sᵀ, the
+		// hard–soft one weighted by the noise (1/σ², Wentzell et al. 1997)
+		// and the data fit's plain, so they are two estimates of k from the
+		// same data, not one.
+		if d := math.Abs(hardFit.Fit.K[j] - dataFit.Fit.K[j]); d > 2*dataFit.Fit.KStdErr[j] {
+			t.Errorf("hard–soft k%d = %.7g differs from the data fit %.7g by more than twice its standard error %.2g", j+1, hardFit.Fit.K[j], dataFit.Fit.K[j], dataFit.Fit.KStdErr[j])
 		}
 	}
 }

@@ -31,7 +31,7 @@ func startALS(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options) (*mcr.Re
 	if r.EFA == nil {
 		return best, nil
 	}
-	ce := r.EFA.Windows.InitialProfiles(r.D, k)
+	ce := startProfiles(r, k)
 	if ce == nil {
 		return best, nil
 	}

@@ -436,12 +436,12 @@ func TestNoiseFromEveryExperiment(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if r.Rank.SigmaSource != "pre-reaction rows of every experiment" {
-		t.Errorf("σ from %q", r.Rank.SigmaSource)
+	if !strings.Contains(r.NoiseSource, "pre-reaction spectra") {
+		t.Errorf("σ from %q", r.NoiseSource)
 	}
 	want := rel / math.Ln10
-	if math.Abs(r.Rank.Sigma-want) > 0.1*want {
-		t.Errorf("σ = %.4g, want %.4g ± 10 %%", r.Rank.Sigma, want)
+	if math.Abs(r.NoiseSigma-want) > 0.1*want {
+		t.Errorf("σ = %.4g, want %.4g ± 10 %%", r.NoiseSigma, want)
 	}
 	if r.Rank.Estimate != 3 {
 		t.Errorf("rank %d of two A → B → C runs, want 3", r.Rank.Estimate)

@@ -53,8 +53,17 @@ type Result struct {
 	// in species mode.
 	Weights, DiffWeights *spectra.Weights
 	Blind                *spectra.Blind
-	Factors              *svd.Factors
-	Rank                 *svd.RankReport
+	// Scaled is √A D √B, the noise-scaled matrix the factor analysis
+	// works on (nil without weights); Factors and Rank are of it then.
+	Scaled *mat.Dense
+	// NoiseSigma is the typical noise standard deviation of D (median over
+	// channels) and NoiseSource how it was found.
+	NoiseSigma  float64
+	NoiseSource string
+	// ResidualToNoise is √(χ²/ν) of the weighted fit: 1 = fits to the noise.
+	ResidualToNoise float64
+	Factors         *svd.Factors
+	Rank            *svd.RankReport
 	// DiffRank is the rank of the difference matrix when the absolute one
 	// was resolved (species mode), nil otherwise.
 	DiffRank   *svd.RankReport
@@ -318,6 +327,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	if r.Mode == mcr.Reactions && len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
 		refRow = r.Experiments[0].RefRows[0]
 	}
+	noiseOf(r)
 	pooled := pooledSigma(s, r, r.D)
 	in := rankInputs{opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooled, Alpha: s.Alpha, ReferenceRow: refRow}, maxF: maxF, noise: pooled}
 	if err := chooseBaseline(r, f, in); err != nil {
@@ -326,6 +336,9 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	rank := r.Rank
 	if pooled > 0 {
 		rank.SigmaSource = "pre-reaction rows of every experiment"
+	}
+	if !weighted(r) {
+		r.NoiseSigma, r.NoiseSource = rank.Sigma, rank.SigmaSource
 	}
 	if r.Mode == mcr.Species {
 		dd := stack(diffRows)
@@ -511,7 +524,7 @@ func stack(parts []*mat.Dense) *mat.Dense {
 // resolve runs ALS and stores spectra, profiles and fit.
 func resolve(r *Result, log io.Writer) error {
 	s := r.Settings
-	n, m := r.D.Dims()
+	n, _ := r.D.Dims()
 	k := r.Components
 	c0, how, err := initialProfiles(r, k)
 	if err != nil {
@@ -549,12 +562,7 @@ func resolve(r *Result, log io.Writer) error {
 	if err := applyConstraints(r, c0, &opt); err != nil {
 		return err
 	}
-	var data mcr.Data = mcr.Dense{D: r.D}
-	if largeData(n, m) && len(r.Factors.S) >= k {
-		rr := min(len(r.Factors.S), k+8)
-		data = mcr.Compressed{U: sliceCols(r.Factors.U, rr), Sigma: r.Factors.S[:rr], V: sliceCols(r.Factors.V, rr), FrobSq: r.Factors.FrobeniusSq}
-		r.Compressed = true
-	}
+	data := alsData(r, k)
 	if opt.Closure {
 		if err := checkClosureRows(r); err != nil {
 			return err
@@ -589,17 +597,10 @@ func resolve(r *Result, log io.Writer) error {
 		r.SoftALS, res = res, hard
 		r.ALS = res
 	}
-	// Lack of fit on the full data, streamed: the residual matrix itself
-	// would be one more data-sized matrix (480 MB at 20 000 × 3000).
-	r.LackOfFit = mcr.LackOfFit(r.D, res.C, res.S)
-	tot := frob2(r.D)
-	r.Explained = 100 * (1 - sq(r.LackOfFit/100))
-	if tot > 0 && r.Rank.Sigma > 0 {
-		dof := float64(n*m - k*(n+m-k))
-		if dof > 0 {
-			r.NoiseLOF = 100 * math.Sqrt(r.Rank.Sigma*r.Rank.Sigma*dof/tot)
-		}
-	}
+	// Lack of fit on the full data (at the observed points), streamed:
+	// the residual matrix itself would be one more data-sized matrix
+	// (480 MB at 20 000 × 3000).
+	fitFigures(r, res)
 	r.Warnings = append(r.Warnings, res.Warnings...)
 	r.Warnings = append(r.Warnings, componentWarnings(res)...)
 	prefix := "species"
@@ -642,7 +643,8 @@ func initialProfiles(r *Result, k int) (*mat.Dense, string, error) {
 	n, _ := r.D.Dims()
 	switch s.Init {
 	case "purest", "auto", "":
-		idx, err := svd.Purest(r.D, k, 5, r.Mode == mcr.Reactions)
+		src := purestSource(r, k)
+		idx, err := svd.Purest(src, k, 5, r.Mode == mcr.Reactions)
 		if err != nil {
 			if s.Components != "auto" {
 				return nil, "", usage("--components %d: %v; the data does not hold that many independent components (rank estimate %d): ask for fewer", k, err, r.Rank.Estimate)
@@ -651,7 +653,7 @@ func initialProfiles(r *Result, k int) (*mat.Dense, string, error) {
 		}
 		c := mat.NewDense(n, k, nil)
 		for j, ch := range idx {
-			col := mat.Col(nil, ch, r.D)
+			col := mat.Col(nil, ch, src)
 			sum := 0.0
 			for _, v := range col {
 				sum += v
@@ -669,12 +671,12 @@ func initialProfiles(r *Result, k int) (*mat.Dense, string, error) {
 		}
 		return c, "purest variables at " + r.AxisName + " " + strings.Join(at, ", "), nil
 	case "efa":
-		e, err := svd.EFA(r.D, k)
-		if err != nil {
-			return nil, "", fmt.Errorf("initial estimate: %w", err)
+		computeEFA(r)
+		c := startProfiles(r, k)
+		if c == nil {
+			return nil, "", fmt.Errorf("initial estimate: evolving factor analysis found no windows for %d components", k)
 		}
-		w := e.Windows(k, r.Rank.Sigma)
-		return w.InitialProfiles(r.D, k), "evolving factor analysis windows", nil
+		return c, "evolving factor analysis windows", nil
 	}
 	c, err := readProfiles(s.Path(s.Init), r.Times, k)
 	if err != nil {
@@ -688,7 +690,11 @@ func addEFAWindows(r *Result, opt *mcr.Options) error {
 		return usage("--efa-windows on works on one experiment at a time")
 	}
 	k := r.Components
-	e, err := svd.EFA(r.D, k)
+	d := r.D
+	if r.Scaled != nil {
+		d = r.Scaled
+	}
+	e, err := svd.EFA(d, k)
 	if err != nil {
 		return fmt.Errorf("evolving factor analysis: %w", err)
 	}

@@ -41,6 +41,10 @@ func differenceFactors(r *Result, dd *mat.Dense, f *svd.Factors, maxF int) (*svd
 	}
 	_, p := f.V.Dims()
 	ne := max(len(r.Experiments), 1)
+	base := r.D
+	if r.Scaled != nil {
+		base = r.Scaled // f and dd are of the scaled matrices
+	}
 	basis := mat.NewDense(m, p+ne, nil)
 	basis.Slice(0, m, 0, p).(*mat.Dense).Copy(f.V)
 	g := make([]float64, m)
@@ -53,7 +57,7 @@ func differenceFactors(r *Result, dd *mat.Dense, f *svd.Factors, maxF int) (*svd
 			g[j] = 0
 		}
 		for i := lo; i < hi; i++ {
-			a, b := r.D.RawRowView(i), dd.RawRowView(i)
+			a, b := base.RawRowView(i), dd.RawRowView(i)
 			for j := range g {
 				g[j] += a[j] - b[j]
 			}

@@ -39,8 +39,10 @@ func MakeSummary(r *Result) *Summary {
 		LackOfFitPercent:         round(r.LackOfFit),
 		ExplainedVariancePercent: round(r.Explained),
 		NoiseLackOfFitPercent:    round(r.NoiseLOF),
-		NoiseSigma:               round(r.Rank.Sigma),
-		NoiseSource:              r.Rank.SigmaSource,
+		NoiseSigma:               round(r.NoiseSigma),
+		NoiseSource:              r.NoiseSource,
+		ResidualToNoise:          round(r.ResidualToNoise),
+		NoiseWeights:             "off",
 		NoiseEdge:                round(r.Rank.NoiseEdge),
 		RankReason:               r.Rank.Reason,
 		SVDMethod:                r.Factors.Method,
@@ -69,6 +71,12 @@ func MakeSummary(r *Result) *Summary {
 	}
 	for _, e := range r.Experiments {
 		s.Experiments = append(s.Experiments, e.Source)
+	}
+	if weighted(r) {
+		s.NoiseWeights = "noise"
+	}
+	if r.Blind != nil {
+		s.BlindPoints = r.Blind.Count
 	}
 	constraintSummary(r, s)
 	for _, c := range r.Rank.Criteria {
@@ -209,6 +217,9 @@ func rankTable(rk *svd.RankReport) output.Table {
 // the noise; above 1, something systematic is left; well below 1, σ is
 // overestimated (or the model fits the noise).
 func residualToNoise(r *Result) (float64, bool) {
+	if r.ResidualToNoise > 0 {
+		return r.ResidualToNoise, true // the noise-weighted √(χ²/ν)
+	}
 	if r.NoiseLOF <= 0 {
 		return 0, false
 	}
@@ -221,7 +232,7 @@ func PrintTable(r *Result, w io.Writer) {
 	n, m := r.D.Dims()
 	fmt.Fprintf(w, "data           %d spectra × %d points (%s)\n", n, m, r.AxisName)
 	fmt.Fprintf(w, "mode           %s\n", r.ModeReason)
-	fmt.Fprintf(w, "noise σ        %.3g (%s)\n", r.Rank.Sigma, r.Rank.SigmaSource)
+	fmt.Fprintf(w, "noise σ        %.3g (%s)\n", r.NoiseSigma, r.NoiseSource)
 	var crit []string
 	for _, c := range r.Rank.Criteria {
 		crit = append(crit, fmt.Sprintf("%s %d", c.Name, c.Estimate))

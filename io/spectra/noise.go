@@ -17,8 +17,10 @@ import (
 //
 //	σ_A,ij = (1/ln 10)·√((σ_I,j/I_ij)² + (σ_0,j/I_0,j)²)
 //
-// with I₀ the blank (absolute absorbance) or the reference (differences), and
-// σ_0 its own noise: σ_I for one recorded beam, σ_I/√N for the mean of N.
+// with I₀ the reference of difference spectra and σ_0 its own noise: σ_I
+// for one recorded beam, σ_I/√N for the mean of N. A blank's noise is one
+// fixed pattern in every absolute spectrum that the spectra absorb, so it
+// is not part of the per-point noise of absolute absorbance.
 // σ_I,j, the detector's noise at channel j, comes from the data: from
 // successive differences of the pre-reaction spectra ((I_{i+1}−I_i)/√2) when
 // there are some, else from second differences in time,
@@ -623,10 +625,14 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 		}
 	}, blind)
 	if opt.Blank != nil {
+		// The blank's own noise is one fixed pattern in every absolute
+		// spectrum; with closure (Σ c_k = 1) the spectra absorb it
+		// (s_k + e for every k), so it is no part of the residual and is
+		// left out of the weights: only σ_I/I of each spectrum's own beam.
 		out.AbsoluteWeights = fitWeights(n, m, func(i int, o []float64) {
 			row := s.Values.RawRowView(i)
 			for j := range o {
-				o[j] = (sq(sigI[j]/row[j]) + sq(sigI[j]/opt.Blank[j])) / ln10sq
+				o[j] = sq(sigI[j]/row[j]) / ln10sq
 			}
 		}, blind)
 	}

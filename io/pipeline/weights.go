@@ -1,0 +1,257 @@
+package pipeline
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"sort"
+
+	"github.com/bandsolve/bandsolve/mcr"
+	"github.com/bandsolve/bandsolve/svd"
+	"gonum.org/v1/gonum/mat"
+)
+
+// Noise weighting wires the noise model made at assembly (spectra.Weights,
+// spectra.Blind) into the factor analysis and the resolution: the rank,
+// EFA and purest variables work on the scaled matrix √A D √B whose noise has
+// unit variance, ALS on the weighted data (mcr.Weighted), and blind points
+// are filled from the low-rank model (docs/measurement.md).
+
+// imputeTol and imputeIter bound the filling of blind points: a pass that
+// moves no filled value by more than a tenth of the noise's standard
+// deviation ends it.
+const (
+	imputeTol  = 0.1
+	imputeIter = 50
+)
+
+// weighted reports whether the analysis uses the noise weights.
+func weighted(r *Result) bool { return r.Weights != nil && r.Settings.Weights != "off" }
+
+// weightedFactors decomposes the scaled matrix, estimates its rank with the
+// noise level known (σ = 1 after scaling) and fills the blind points from
+// the rank-k model, where k is the estimate or --components.
+func weightedFactors(r *Result, maxF, refRow int, log io.Writer) (*svd.Factors, *svd.RankReport, error) {
+	s := r.Settings
+	r.Scaled = svd.Scale(r.D, r.Weights.Row, r.Weights.Col)
+	dopt := svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed}
+	f, err := svd.Decompose(r.Scaled, dopt)
+	if err != nil {
+		return nil, nil, fmt.Errorf("factor analysis: %w", err)
+	}
+	ropt := svd.RankOptions{Sigma: 1, Alpha: s.Alpha, ReferenceRow: refRow, PatternTime: sqrts(r.Weights.Row)}
+	rank, err := svd.EstimateRank(r.Scaled, f, ropt)
+	if err != nil {
+		return nil, nil, fmt.Errorf("rank: %w", err)
+	}
+	if r.Blind != nil && r.Blind.Count > 0 {
+		k := max(rank.Estimate, 1)
+		if s.Components != "auto" {
+			fmt.Sscan(s.Components, &k)
+		}
+		fmt.Fprintf(log, "filling %d blind point(s) from the rank-%d model\n", r.Blind.Count, k)
+		f, _, err = svd.ImputeMissing(r.Scaled, r.Blind.Rows, k, dopt, imputeTol, imputeIter)
+		if err != nil {
+			return nil, nil, fmt.Errorf("blind points: %w", err)
+		}
+		unscaleBlind(r)
+		if rank, err = svd.EstimateRank(r.Scaled, f, ropt); err != nil {
+			return nil, nil, fmt.Errorf("rank: %w", err)
+		}
+	}
+	rank.SigmaSource = "noise model from the data (" + r.NoiseSource + "); the matrix is scaled so that its noise has σ = 1"
+	return f, rank, nil
+}
+
+// unscaleBlind copies the filled blind points of the scaled matrix back into
+// D: d_ij = d̃_ij/√(a_i b_j).
+func unscaleBlind(r *Result) {
+	for i, cols := range r.Blind.Rows {
+		for _, j := range cols {
+			r.D.Set(i, j, r.Scaled.At(i, j)/math.Sqrt(r.Weights.Row[i]*r.Weights.Col[j]))
+		}
+	}
+}
+
+// fillDifferenceBlind gives the difference matrix of species mode the
+// filled absorbance at its blind points: within one experiment ΔA_ij =
+// A_ij − A_ref,j, and A_ref,j = A_lj − ΔA_lj for any observed row l.
+func fillDifferenceBlind(r *Result, dd *mat.Dense) {
+	if r.Blind == nil || r.Blind.Count == 0 {
+		return
+	}
+	for _, e := range r.Experiments {
+		lo, hi := e.FirstRow, e.FirstRow+e.Rows
+		offset := map[int]float64{}
+		for i := lo; i < hi; i++ {
+			for _, j := range r.Blind.Rows[i] {
+				off, ok := offset[j]
+				if !ok {
+					for l := lo; l < hi; l++ {
+						if !r.Blind.Has(l, j) {
+							off, ok = r.D.At(l, j)-dd.At(l, j), true
+							break
+						}
+					}
+					if !ok {
+						continue
+					}
+					offset[j] = off
+				}
+				dd.Set(i, j, r.D.At(i, j)-off)
+			}
+		}
+	}
+}
+
+// alsData is the matrix ALS works on: the weighted data (dense, or the
+// truncated SVD of the scaled matrix on large data), or without weights
+// the data itself.
+func alsData(r *Result, k int) mcr.Data {
+	n, m := r.D.Dims()
+	large := largeData(n, m) && len(r.Factors.S) >= k
+	rr := min(len(r.Factors.S), k+8)
+	switch {
+	case weighted(r) && large:
+		// The compressed weighted form needs the factors of √A D √B; the
+		// factor analysis decomposed D itself.
+		f := r.Factors
+		if r.Scaled == nil {
+			fs, err := svd.Decompose(svd.Scale(r.D, r.Weights.Row, r.Weights.Col), svd.DecomposeOptions{MaxFactors: rr, Seed: r.Settings.Seed})
+			if err != nil || len(fs.S) < rr {
+				return mcr.WeightedDense{D: r.D, Row: r.Weights.Row, Col: r.Weights.Col}
+			}
+			f = fs
+		}
+		r.Compressed = true
+		return mcr.WeightedCompressed{U: sliceCols(f.U, rr), Sigma: f.S[:rr], V: sliceCols(f.V, rr),
+			FrobSq: f.FrobeniusSq, Row: r.Weights.Row, Col: r.Weights.Col}
+	case weighted(r):
+		return mcr.WeightedDense{D: r.D, Row: r.Weights.Row, Col: r.Weights.Col}
+	case large:
+		r.Compressed = true
+		return mcr.Compressed{U: sliceCols(r.Factors.U, rr), Sigma: r.Factors.S[:rr], V: sliceCols(r.Factors.V, rr), FrobSq: r.Factors.FrobeniusSq}
+	}
+	return mcr.Dense{D: r.D}
+}
+
+// fitFigures computes, at the observed points, the lack of fit (as before,
+// unweighted), the explained variance, the residual relative to the noise
+// (√(χ²/ν)) and the lack of fit the noise alone would give.
+func fitFigures(r *Result, res *mcr.Result) {
+	n, m := r.D.Dims()
+	k := r.Components
+	var row, col []float64
+	var missing func(i, j int) bool
+	if weighted(r) {
+		row, col = r.Weights.Row, r.Weights.Col
+	}
+	if r.Blind != nil && r.Blind.Count > 0 {
+		missing = r.Blind.Has
+	}
+	fit := mcr.FitWeighted(r.D, res.C, res.S, row, col, missing)
+	r.LackOfFit = fit.LackOfFitPercent
+	r.Explained = 100 * (1 - sq(r.LackOfFit/100))
+	dof := float64(fit.Observed) - float64(k)*float64(n+m-k)
+	if !(dof > 0) || !(fit.DataSS > 0) {
+		return
+	}
+	if row != nil {
+		r.ResidualToNoise = fit.ResidualToNoise(n, m, k)
+		r.NoiseLOF = 100 * math.Sqrt(fit.NoiseSS*dof/float64(fit.Observed)/fit.DataSS)
+	} else if r.Rank.Sigma > 0 {
+		r.NoiseLOF = 100 * math.Sqrt(r.Rank.Sigma*r.Rank.Sigma*dof/fit.DataSS)
+	}
+}
+
+// startProfiles maps EFA's initial profiles of the scaled matrix (rows
+// √a_i c_i) back to the data's rows.
+func startProfiles(r *Result, k int) *mat.Dense {
+	if r.EFA == nil {
+		return nil
+	}
+	if r.Scaled == nil {
+		return r.EFA.Windows.InitialProfiles(r.D, k)
+	}
+	c := r.EFA.Windows.InitialProfiles(r.Scaled, k)
+	if c == nil {
+		return nil
+	}
+	n, kk := c.Dims()
+	for i := 0; i < n; i++ {
+		f := 1 / math.Sqrt(r.Weights.Row[i])
+		for j := 0; j < kk; j++ {
+			c.Set(i, j, c.At(i, j)*f)
+		}
+	}
+	return c
+}
+
+// purestSource is the matrix purest variables are picked from: with noise
+// weights, the rank-k model of the scaled matrix mapped back to the data's
+// units, since a channel made noisy by strong absorption has a large
+// standard deviation over its mean and would look pure (SIMPLISMA's purity
+// is σ_j/μ_j); the model holds the chemistry without that noise.
+func purestSource(r *Result, k int) *mat.Dense {
+	if r.Scaled == nil || len(r.Factors.S) < k {
+		return r.D
+	}
+	n, m := r.D.Dims()
+	us := mat.NewDense(n, k, nil)
+	for i := 0; i < n; i++ {
+		f := 1 / math.Sqrt(r.Weights.Row[i])
+		for l := 0; l < k; l++ {
+			us.Set(i, l, r.Factors.U.At(i, l)*r.Factors.S[l]*f)
+		}
+	}
+	vs := mat.NewDense(m, k, nil)
+	for j := 0; j < m; j++ {
+		f := 1 / math.Sqrt(r.Weights.Col[j])
+		for l := 0; l < k; l++ {
+			vs.Set(j, l, r.Factors.V.At(j, l)*f)
+		}
+	}
+	out := mat.NewDense(n, m, nil)
+	out.Mul(us, vs.T())
+	return out
+}
+
+// noiseOf sets the typical noise level of D and says where it came from
+// (the first experiment's estimate names the method).
+func noiseOf(r *Result) {
+	if r.Weights == nil || len(r.Experiments) == 0 {
+		return
+	}
+	sig := r.Weights.ChannelSigma()
+	r.NoiseSigma = medianOf(sig)
+	nz := r.Experiments[0].Assembled.Noise
+	switch nz.Unit {
+	case "single-beam units":
+		r.NoiseSource = fmt.Sprintf("detector noise %.3g in single-beam units from %s; absorbance noise σ_I/(I ln 10) per point", nz.Level, nz.Source)
+	default:
+		r.NoiseSource = fmt.Sprintf("absorbance noise per channel from %s", nz.Source)
+	}
+	if len(r.Experiments) > 1 {
+		r.NoiseSource += fmt.Sprintf(" (each of the %d experiments its own)", len(r.Experiments))
+	}
+}
+
+func medianOf(v []float64) float64 {
+	if len(v) == 0 {
+		return 0
+	}
+	c := append([]float64(nil), v...)
+	sort.Float64s(c)
+	if len(c)%2 == 1 {
+		return c[len(c)/2]
+	}
+	return (c[len(c)/2-1] + c[len(c)/2]) / 2
+}
+
+func sqrts(v []float64) []float64 {
+	out := make([]float64, len(v))
+	for i, x := range v {
+		out[i] = math.Sqrt(x)
+	}
+	return out
+}
