@@ -31,19 +31,31 @@ func Scale(d *mat.Dense, row, col []float64) *mat.Dense {
 }
 
 // ImputeMissing fills the missing points of the scaled matrix ds (missing[i]:
-// the missing columns of row i) with its own rank-k model, in place: the
-// expectation–maximisation iteration for a low-rank model with missing
-// values (fill, decompose, refill from U_k Σ_k V_kᵀ; e.g. Troyanskaya et al.,
-// Bioinformatics 2001, "SVDimpute", and Kiers, Psychometrika 1997, for the
-// weighted least-squares view). Each pass lowers the rank-k residual at the
-// observed points; it stops when no filled value moves by more than tol (in
-// the scaled matrix, tol is in units of the noise's standard deviation) or
-// after maxIter passes. It returns the factors of the completed matrix and
-// the number of passes.
+// the missing columns of row i) with its own rank-k model, in place, and
+// returns the factors of the completed matrix and the passes made. The
+// model is the rank-k least-squares fit to the observed points only (the
+// weighted low-rank approximation with 0/1 weights; Gabriel & Zamir,
+// Technometrics 1979, criss-cross regression): alternately each row's
+// scores from its observed points, L_i = argmin Σ_{j obs} (d_ij − L_i·R_j)²,
+// and each channel's loadings from its observed rows, then the missing
+// points are refilled from L Rᵀ. Plain refilling from an SVD of the filled
+// matrix (EM) converges the same way but crawls when a block of the matrix
+// is missing, since the filled values then steer the loadings of their own
+// columns. Stops when no filled value moves by more than tol (in the scaled
+// matrix, units of the noise's standard deviation) or after maxIter passes.
 func ImputeMissing(ds *mat.Dense, missing [][]int, k int, opt DecomposeOptions, tol float64, maxIter int) (*Factors, int, error) {
 	n, m := ds.Dims()
 	if len(missing) != n {
 		return nil, 0, fmt.Errorf("svd: impute: %d rows of missing points for %d rows", len(missing), n)
+	}
+	byCol := make([][]int, m)
+	for i, cols := range missing {
+		for _, j := range cols {
+			if j < 0 || j >= m {
+				return nil, 0, fmt.Errorf("svd: impute: column %d outside 0..%d", j, m-1)
+			}
+			byCol[j] = append(byCol[j], i)
+		}
 	}
 	f, err := Decompose(ds, opt)
 	if err != nil {
@@ -53,28 +65,82 @@ func ImputeMissing(ds *mat.Dense, missing [][]int, k int, opt DecomposeOptions, 
 	if k < 1 {
 		return f, 0, nil
 	}
+	l := mat.NewDense(n, k, nil)
+	for i := 0; i < n; i++ {
+		for a := 0; a < k; a++ {
+			l.Set(i, a, f.U.At(i, a)*f.S[a])
+		}
+	}
+	r := mat.DenseCopyOf(f.V.Slice(0, m, 0, k))
 	it := 0
 	for it = 1; it <= maxIter; it++ {
+		observedLS(ds, r, l, missing, false)
+		observedLS(ds, l, r, byCol, true)
 		moved := 0.0
 		for i, cols := range missing {
 			for _, j := range cols {
-				if j < 0 || j >= m {
-					return nil, it, fmt.Errorf("svd: impute: column %d outside 0..%d", j, m-1)
-				}
 				v := 0.0
-				for l := 0; l < k; l++ {
-					v += f.U.At(i, l) * f.S[l] * f.V.At(j, l)
+				for a := 0; a < k; a++ {
+					v += l.At(i, a) * r.At(j, a)
 				}
 				moved = math.Max(moved, math.Abs(v-ds.At(i, j)))
 				ds.Set(i, j, v)
 			}
 		}
-		if f, err = Decompose(ds, opt); err != nil {
-			return nil, it, fmt.Errorf("svd: impute: %w", err)
-		}
 		if moved <= tol {
 			break
 		}
 	}
+	if f, err = Decompose(ds, opt); err != nil {
+		return nil, it, fmt.Errorf("svd: impute: %w", err)
+	}
 	return f, min(it, maxIter), nil
+}
+
+// observedLS sets each row of out (the scores of D's rows, or with trans
+// the loadings of its columns) to the least-squares fit of that row (column)
+// of D on the other factor x, over its observed entries: the normal
+// equations (XᵀX − Σ_miss x xᵀ) y = Xᵀd − Σ_miss d x, solved by Cholesky
+// (k × k, positive definite while the observed entries determine y; a row
+// whose system is singular keeps its previous value).
+func observedLS(d, x, out *mat.Dense, miss [][]int, trans bool) {
+	p, k := out.Dims()
+	var g mat.SymDense
+	g.SymOuterK(1, x.T())
+	var rhs mat.Dense
+	if trans {
+		rhs.Mul(d.T(), x)
+	} else {
+		rhs.Mul(d, x)
+	}
+	gi := mat.NewSymDense(k, nil)
+	b := make([]float64, k)
+	var ch mat.Cholesky
+	var y mat.VecDense
+	for q := 0; q < p; q++ {
+		gi.CopySym(&g)
+		copy(b, rhs.RawRowView(q))
+		for _, o := range miss[q] {
+			var dv float64
+			if trans {
+				dv = d.At(o, q)
+			} else {
+				dv = d.At(q, o)
+			}
+			xr := x.RawRowView(o)
+			for a := 0; a < k; a++ {
+				b[a] -= dv * xr[a]
+				for c := a; c < k; c++ {
+					gi.SetSym(a, c, gi.At(a, c)-xr[a]*xr[c])
+				}
+			}
+		}
+		if !ch.Factorize(gi) || ch.Cond() > 1e12 {
+			continue
+		}
+		if err := ch.SolveVecTo(&y, mat.NewVecDense(k, b)); err != nil {
+			continue
+		}
+		out.SetRow(q, y.RawVector().Data)
+	}
 }

@@ -573,6 +573,9 @@ func resolve(r *Result, log io.Writer) error {
 	if err != nil {
 		return err
 	}
+	if res, err = refineBlind(r, data, res, opt, log); err != nil {
+		return explainResolveError(r, err)
+	}
 	if err := checkFinite(res); err != nil {
 		return err
 	}

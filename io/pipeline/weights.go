@@ -45,18 +45,33 @@ func weightedFactors(r *Result, maxF, refRow int, log io.Writer) (*svd.Factors, 
 		return nil, nil, fmt.Errorf("rank: %w", err)
 	}
 	if r.Blind != nil && r.Blind.Count > 0 {
+		// The rank that fills the blind points comes from the channels
+		// without any: the placeholders (interpolated in time) are not
+		// data, and a rank counted with them counts their errors too.
 		k := max(rank.Estimate, 1)
+		lit, nlit := litRank(r, ropt)
+		if lit != nil {
+			k = max(lit.Estimate, 1)
+		}
 		if s.Components != "auto" {
 			fmt.Sscan(s.Components, &k)
 		}
-		fmt.Fprintf(log, "filling %d blind point(s) from the rank-%d model\n", r.Blind.Count, k)
-		f, _, err = svd.ImputeMissing(r.Scaled, r.Blind.Rows, k, dopt, imputeTol, imputeIter)
+		var passes int
+		f, passes, err = svd.ImputeMissing(r.Scaled, r.Blind.Rows, k, dopt, imputeTol, imputeIter)
 		if err != nil {
 			return nil, nil, fmt.Errorf("blind points: %w", err)
 		}
+		fmt.Fprintf(log, "filled %d blind point(s) from the rank-%d model (%d passes)\n", r.Blind.Count, k, passes)
 		unscaleBlind(r)
 		if rank, err = svd.EstimateRank(r.Scaled, f, ropt); err != nil {
 			return nil, nil, fmt.Errorf("rank: %w", err)
+		}
+		if lit != nil {
+			// The count stands on the channels the filling did not touch:
+			// a block filled by extrapolating a noisy low-rank fit can hold
+			// errors that look like one more smooth factor.
+			lit.Reason = fmt.Sprintf("counted on the %d channels without blind points: %s", nlit, lit.Reason)
+			rank = lit
 		}
 	}
 	rank.SigmaSource = "noise model from the data (" + r.NoiseSource + "); the matrix is scaled so that its noise has σ = 1"
@@ -255,3 +270,63 @@ func sqrts(v []float64) []float64 {
 	}
 	return out
 }
+
+// litRank estimates the rank of the scaled matrix on the channels that hold
+// no blind point, when they are at least half of them (nil otherwise), and
+// says how many channels that is.
+func litRank(r *Result, ropt svd.RankOptions) (*svd.RankReport, int) {
+	n, m := r.Scaled.Dims()
+	lit := make([]bool, m)
+	for j := range lit {
+		lit[j] = true
+	}
+	for _, cols := range r.Blind.Rows {
+		for _, j := range cols {
+			lit[j] = false
+		}
+	}
+	var idx []int
+	for j, ok := range lit {
+		if ok {
+			idx = append(idx, j)
+		}
+	}
+	if len(idx) < max(2, m/2) || len(idx) == m {
+		return nil, 0
+	}
+	sub := mat.NewDense(n, len(idx), nil)
+	for i := 0; i < n; i++ {
+		row, dst := r.Scaled.RawRowView(i), sub.RawRowView(i)
+		for c, j := range idx {
+			dst[c] = row[j]
+		}
+	}
+	rk, err := svd.EstimateRank(sub, nil, ropt)
+	if err != nil {
+		return nil, 0
+	}
+	return rk, len(idx)
+}
+
+// refineBlind resolves again with the blind points refilled from the
+// resolved model until they settle (mcr.RefineMissing), on data held in
+// full; the compressed path of large data keeps the filling made at the
+// factor analysis.
+func refineBlind(r *Result, data mcr.Data, res *mcr.Result, opt mcr.Options, log io.Writer) (*mcr.Result, error) {
+	if r.Blind == nil || r.Blind.Count == 0 || r.Compressed {
+		return res, nil
+	}
+	var row, col []float64
+	if weighted(r) {
+		row, col = r.Weights.Row, r.Weights.Col
+	}
+	out, passes, err := mcr.RefineMissing(r.D, row, col, r.Blind.Rows, res, opt, imputeTol, refinePasses)
+	if err != nil {
+		return nil, err
+	}
+	fmt.Fprintf(log, "blind points refilled from the resolved model (%d passes)\n", passes)
+	return out, nil
+}
+
+// refinePasses bounds the resolutions of refineBlind.
+const refinePasses = 30

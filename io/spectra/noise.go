@@ -565,7 +565,7 @@ func BlindNotes(source, axisName string, axis, times []float64, b *Blind) []stri
 			parts = append(parts, fmt.Sprintf("%s in %d spectra (%s)", where, ns, when))
 		}
 	}
-	return []string{fmt.Sprintf("%s: %d blind point(s) (single beam not finite, at or below its noise, or at the detector's ceiling: no usable light) at %s; they are left out of the fit (weight zero) and filled from the low-rank model; --exclude LO:HI cuts a range on purpose",
+	return []string{fmt.Sprintf("%s: %d blind point(s) (no usable light: a single beam not finite, at or below its noise, at the detector's ceiling, or ten times noisier than its channel's weight allows) at %s; they are left out of the fit (weight zero) and filled from the low-rank model; --exclude LO:HI cuts a range on purpose",
 		source, b.Count, listSome(parts, 5))}
 }
 
@@ -618,23 +618,28 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	out.Blind = blind
 	out.Noise = Noise{Level: median(sigI), Unit: "single-beam units", Source: src, Channel: sigI, Quantum: q}
 	const ln10sq = math.Ln10 * math.Ln10
-	out.DifferenceWeights = fitWeights(n, m, func(i int, o []float64) {
+	diffVar := func(i int, o []float64) {
 		row := s.Values.RawRowView(i)
 		for j := range o {
 			o[j] = (sq(sigI[j]/row[j]) + sq(sigI[j]/ref[j])/nref[j]) / ln10sq
 		}
-	}, blind)
+	}
+	// The blank's own noise is one fixed pattern in every absolute
+	// spectrum; with closure (Σ c_k = 1) the spectra absorb it (s_k + e for
+	// every k), so it is no part of the residual and is left out of the
+	// weights: only σ_I/I of each spectrum's own beam.
+	absVar := func(i int, o []float64) {
+		row := s.Values.RawRowView(i)
+		for j := range o {
+			o[j] = sq(sigI[j]/row[j]) / ln10sq
+		}
+	}
+	out.DifferenceWeights = fitWeights(n, m, diffVar, blind)
+	if blind.addOverweighted(out.DifferenceWeights, absVar) {
+		out.DifferenceWeights = fitWeights(n, m, diffVar, blind)
+	}
 	if opt.Blank != nil {
-		// The blank's own noise is one fixed pattern in every absolute
-		// spectrum; with closure (Σ c_k = 1) the spectra absorb it
-		// (s_k + e for every k), so it is no part of the residual and is
-		// left out of the weights: only σ_I/I of each spectrum's own beam.
-		out.AbsoluteWeights = fitWeights(n, m, func(i int, o []float64) {
-			row := s.Values.RawRowView(i)
-			for j := range o {
-				o[j] = sq(sigI[j]/row[j]) / ln10sq
-			}
-		}, blind)
+		out.AbsoluteWeights = fitWeights(n, m, absVar, blind)
 	}
 	out.Difference = mat.NewDense(n, m, nil)
 	if opt.Blank != nil {
@@ -774,4 +779,36 @@ func StackBlind(parts []*Blind, rows []int) *Blind {
 		return nil
 	}
 	return out
+}
+
+// overweighted: a point whose noise variance is this many times what its
+// row × column weight assumes (σ 10× larger) would be counted a hundred times
+// too much. Such points are a nearly dark corner of the matrix (a band
+// that grows to absorbance 2 or more late in the run: 1 % of the light);
+// they carry little information, and the shared weights cannot describe
+// them, so they are left out like blind points.
+const overweighted = 100
+
+// addOverweighted marks the points whose variance (from variance) exceeds
+// overweighted/(a_i b_j) as blind, and says whether there were any.
+func (b *Blind) addOverweighted(w *Weights, variance func(i int, out []float64)) bool {
+	m := len(w.Col)
+	buf := make([]float64, m)
+	var added bool
+	for i := range w.Row {
+		variance(i, buf)
+		var extra bool
+		for j, v := range buf {
+			if w.Row[i]*w.Col[j]*v > overweighted && !b.Has(i, j) {
+				b.Rows[i] = append(b.Rows[i], j)
+				b.Count++
+				extra = true
+			}
+		}
+		if extra {
+			sort.Ints(b.Rows[i])
+			added = true
+		}
+	}
+	return added
 }
