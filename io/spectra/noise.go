@@ -52,7 +52,8 @@ import (
 // the low-rank model where the matrix is factored.
 
 // Weights are the row × column maximum-likelihood weights w_ij = Row[i]·Col[j]
-// ≈ 1/σ²_ij, scaled so that w·σ² averages 1 over the observed points.
+// ≈ 1/σ²_ij, scaled so that w·σ² averages 1 over the observed points. nil
+// when no noise could be measured (noiseless or identical spectra).
 type Weights struct {
 	Row []float64 // a_i, one per spectrum
 	Col []float64 // b_j, one per channel
@@ -151,7 +152,10 @@ func channelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, stri
 		}
 	}
 	sig := pooledRunningMAD(diffs)
-	floor := q / math.Sqrt(12)
+	// A channel with no change at all (synthetic data, a clipped region)
+	// gets a thousandth of the typical σ, not zero: its weight is large but
+	// finite.
+	floor := math.Max(q/math.Sqrt(12), 1e-3*median(sig))
 	for j := range sig {
 		sig[j] = math.Max(sig[j], floor)
 	}
@@ -401,16 +405,12 @@ func fitWeights(n, m int, variance func(i int, out []float64), blind *Blind) *We
 			cnt++
 		}
 	}
-	w := &Weights{Row: make([]float64, n), Col: make([]float64, m)}
 	if cnt == 0 {
-		for i := range w.Row {
-			w.Row[i] = 1
-		}
-		for j := range w.Col {
-			w.Col[j] = 1
-		}
-		return w
+		// No noise measured (identical or noiseless spectra): no weights,
+		// and the factor analysis estimates σ itself.
+		return nil
 	}
+	w := &Weights{Row: make([]float64, n), Col: make([]float64, m)}
 	g := grand / float64(cnt)
 	for j := range w.Col {
 		if colCnt[j] > 0 {
@@ -635,7 +635,7 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 		}
 	}
 	out.DifferenceWeights = fitWeights(n, m, diffVar, blind)
-	if blind.addOverweighted(out.DifferenceWeights, absVar) {
+	if out.DifferenceWeights != nil && blind.addOverweighted(out.DifferenceWeights, absVar) {
 		out.DifferenceWeights = fitWeights(n, m, diffVar, blind)
 	}
 	if opt.Blank != nil {
