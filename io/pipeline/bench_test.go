@@ -134,12 +134,15 @@ func writeLarge(tb testing.TB, dir string, n, m, nsp int) (series, blank string)
 	return series, blank
 }
 
-func benchResolve(b *testing.B, n, m int) {
+func benchResolve(b *testing.B, n, m int) { benchResolveWeights(b, n, m, "noise") }
+
+func benchResolveWeights(b *testing.B, n, m int, weights string) {
 	dir := b.TempDir()
 	series, blank := writeLarge(b, dir, n, m, 5)
 	_, spec, _ := largeTruth(n, m, 5)
 	s := NewSettings() // the defaults, as a user would run it
 	s.Data, s.Kind, s.Blank = []string{series}, "single-beam", blank
+	s.Weights = weights
 	runtime.GC()
 	resetPeakRSS()
 	b.ResetTimer()
@@ -215,6 +218,11 @@ func explicitly(b *testing.B, want string) {
 // checks) with the default settings on single beams plus a blank.
 func BenchmarkResolve100x1000(b *testing.B)  { benchResolve(b, 100, 1000) }
 func BenchmarkResolve2000x3001(b *testing.B) { benchResolve(b, 2000, 3001) }
+
+// BenchmarkResolve2000x3001Unweighted is the same with --weights off (every
+// point alike, as before the noise model): the weighted default is measured
+// against it (docs/performance.md).
+func BenchmarkResolve2000x3001Unweighted(b *testing.B) { benchResolveWeights(b, 2000, 3001, "off") }
 
 // BenchmarkResolve20000x3000 is a long in-situ run: 60 million values,
 // a 650 MB file. Only when asked for: -bench Resolve20000x3000.

@@ -14,7 +14,9 @@ import (
 )
 
 // The terminal headline leads with the residual relative to the noise,
-// recomputed here directly from its definition: √(‖D − C Sᵀ‖²_F / (σ² ν)) with
+// recomputed here directly from its definition: √(Σ w_ij e_ij² / ν) with the
+// noise weights w_ij = a_i b_j = 1/σ²_ij (docs/measurement.md; w = 1/σ² for
+// every point without weights) and
 // ν = nm − k(n + m − k) degrees of freedom (common practice: a rank-k n × m
 // matrix has k(n + m − k) free parameters). The demo's noise is constant in detector counts and its
 // model is exact, so the ratio is near 1; explained variance stays off the
@@ -30,11 +32,15 @@ func TestHeadlineResidualToNoise(t *testing.T) {
 			for c := 0; c < k; c++ {
 				fit += r.ALS.C.At(i, c) * r.ALS.S.At(j, c)
 			}
-			ss += (r.D.At(i, j) - fit) * (r.D.At(i, j) - fit)
+			w := 1 / (r.Rank.Sigma * r.Rank.Sigma)
+			if weighted(r) {
+				w = r.Weights.Row[i] * r.Weights.Col[j]
+			}
+			ss += w * (r.D.At(i, j) - fit) * (r.D.At(i, j) - fit)
 		}
 	}
 	nu := float64(n*m - k*(n+m-k))
-	want := math.Sqrt(ss / (r.Rank.Sigma * r.Rank.Sigma * nu))
+	want := math.Sqrt(ss / nu)
 	if want < 0.8 || want > 1.25 {
 		t.Errorf("demo residual / noise = %.3f, want about 1 (exact model, known noise)", want)
 	}
