@@ -443,6 +443,9 @@ func afterResolve(r *Result, data mcr.Data, opt mcr.Options, log io.Writer) erro
 func judgeChecks(r *Result) {
 	n, m := r.D.Dims()
 	sigma2 := r.Rank.Sigma * r.Rank.Sigma
+	if weighted(r) {
+		sigma2 = 1 // the refits' residuals are weighted: in units of the noise
+	}
 	// The blank's (or reference's) own noise, one white pattern in every
 	// row, is what a freer refit folds into the spectra: its share of the
 	// residual is allowed on top of the pinned values (as the rank step

@@ -161,6 +161,7 @@ func TestResidualToNoiseFromFiles(t *testing.T) {
 	st.Data, st.Blank, st.Kind = []string{series}, blank, "single-beam"
 	st.Out = filepath.Join(t.TempDir(), "out")
 	st.Report, st.Bands, st.Checks = "off", "off", "off"
+	st.Baseline = "off" // D − C Sᵀ is then the whole residual (no baseline term)
 	if _, err := Execute(st, Streams{Out: new(strings.Builder), Err: new(strings.Builder)}); err != nil {
 		t.Fatal(err)
 	}

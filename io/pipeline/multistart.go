@@ -64,13 +64,13 @@ func moreStarts(r *Result, data mcr.Data, best *mcr.Result, opt mcr.Options) *mc
 	}
 	if dof := float64(obs - k*(n+m-k)); dof > 0 {
 		noiseSS = r.Rank.Sigma * r.Rank.Sigma * dof
+		if weighted(r) {
+			// With noise weights the residual is in units of the noise
+			// (weights 1/σ², scaled to unit variance): ν is what noise
+			// alone leaves.
+			noiseSS = dof
+		}
 	}
-	if _, ok := data.(mcr.Weighted); ok && !weighted(r) {
-		noiseSS = 0 // a noise estimate in plain units, the residual weighted
-	}
-	// With noise weights the residual is in units of the noise (weights
-	// 1/σ², scaled to unit variance; Rank.Sigma is then 1), so σ²·ν is
-	// the weighted residual noise alone leaves.
 	got, improved, err := mcr.SearchStarts(data, best, opt, mcr.StartSearch{Basis: r.Factors.U, Seed: r.Settings.Seed, NoiseSS: noiseSS})
 	if err != nil || improved == 0 {
 		return best

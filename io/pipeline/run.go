@@ -318,6 +318,14 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 		maxF = largeFactors
 	}
 	fmt.Fprintf(log, "factor analysis\n")
+	if weighted(r) && r.Blind != nil && r.Blind.Count > 0 {
+		// Fill the blind points from the noise-scaled low-rank model before
+		// the rank is counted: the placeholders are not data.
+		if _, _, err := weightedFactors(r, maxF, -1, log); err != nil {
+			return nil, err
+		}
+		r.Scaled = nil // the factor analysis below is of D itself
+	}
 	f, err := svd.Decompose(r.D, svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed})
 	if err != nil {
 		return nil, fmt.Errorf("factor analysis: %w", err)
