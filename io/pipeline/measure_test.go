@@ -82,6 +82,7 @@ func TestStrongSolventBand(t *testing.T) {
 	series, blank := s.write(t)
 	st := NewSettings()
 	st.Data, st.Blank, st.Kind = []string{series}, blank, "single-beam"
+	st.Weights = "noise"
 	r, err := Run(st, nil)
 	if err != nil {
 		t.Fatal(err)
@@ -125,6 +126,7 @@ func TestSaturatedBandDoesNotStop(t *testing.T) {
 	series, blank := s.write(t)
 	st := NewSettings()
 	st.Data, st.Blank, st.Kind = []string{series}, blank, "single-beam"
+	st.Weights = "noise"
 	r, err := Run(st, nil)
 	if err != nil {
 		t.Fatalf("a saturated band stopped the run: %v", err)
@@ -159,6 +161,7 @@ func TestResidualToNoiseFromFiles(t *testing.T) {
 	series, blank := s.write(t)
 	st := NewSettings()
 	st.Data, st.Blank, st.Kind = []string{series}, blank, "single-beam"
+	st.Weights = "noise"
 	st.Out = filepath.Join(t.TempDir(), "out")
 	st.Report, st.Bands, st.Checks = "off", "off", "off"
 	st.Baseline = "off" // D − C Sᵀ is then the whole residual (no baseline term)

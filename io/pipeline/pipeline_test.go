@@ -436,7 +436,7 @@ func TestNoiseFromEveryExperiment(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !strings.Contains(r.NoiseSource, "pre-reaction spectra") {
+	if !strings.Contains(r.NoiseSource, "pre-reaction") {
 		t.Errorf("σ from %q", r.NoiseSource)
 	}
 	want := rel / math.Ln10
