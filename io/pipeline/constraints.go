@@ -468,10 +468,14 @@ func judgeChecks(r *Result) {
 			}
 			dof = float64(per * max(1, len(c.ComponentsAffected)))
 		}
-		if c.Restarted && c.With < 0.99*r.ALS.LackOfFitPercent {
+		resolved := r.LackOfFit
+		if weighted(r) {
+			resolved = r.ALS.LackOfFitPercent // the refits' figures are weighted too
+		}
+		if c.Restarted && c.With < 0.99*resolved {
 			// Only a gain a chemist would see (1 % of the lack of fit);
 			// smaller ones are the refit polishing a flat valley.
-			r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (lack of fit %.3g %%, the resolution's %.3g %%): found from the fit without %s; the resolution stopped in a local minimum, try another --init or --seed", c.With, r.ALS.LackOfFitPercent, c.Name))
+			r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (lack of fit %.3g %%, the resolution's %.3g %%): found from the fit without %s; the resolution stopped in a local minimum, try another --init or --seed", c.With, resolved, c.Name))
 		}
 		if rise <= 4*sigma2*dof+pattern || c.With <= 1.05*c.Without {
 			continue
