@@ -646,7 +646,7 @@ func fitKinetics(r *Result, log io.Writer) error {
 	dopt := kn.warm(kn.Fits[0].Fit)
 	dopt.Amplitudes = false
 	n, m := r.D.Dims()
-	if w := r.Weights; weighted(r) && len(w.Row) == n && len(w.Col) == m {
+	if w := r.Weights; w != nil && len(w.Row) == n && len(w.Col) == m {
 		// The noise weights of the data (maximum likelihood): the
 		// standard errors then follow the noise of each point.
 		dopt.RowWeights, dopt.ColWeights = w.Row, w.Col
