@@ -155,8 +155,8 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 		kind = spectra.SingleBeam
 		if series[0].Kind != "" {
 			kind = spectra.Kind(series[0].Kind)
-		} else if looksLikeAbsorbance(series[0]) {
-			r.Warnings = append(r.Warnings, fmt.Sprintf("%s: no --kind was given, so the values were taken as single beams, but they all lie between −1 and 5 like absorbances; if they are absorbance or difference spectra, rerun with --kind absorbance or --kind difference", s.Data[0]))
+		} else if why := absorbanceLook(series[0]); why != "" {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("%s: no --kind was given, so the values were taken as single beams, but %s, as absorbances do; if they are absorbance or difference spectra, rerun with --kind absorbance or --kind difference", s.Data[0], why))
 		}
 	}
 	first := series[0]
@@ -299,6 +299,11 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 		r.D = stack(diffRows)
 		r.Weights = spectra.StackWeights(diffW)
 	}
+	if r.Mode == mcr.Species {
+		if w := saturationWarning(r); w != "" {
+			r.Warnings = append(r.Warnings, w)
+		}
+	}
 	r.Notes = append(r.Notes, spectra.NoiseNotes(first.AxisName, axis, r.Weights.ChannelSigma())...)
 	n, m := r.D.Dims()
 	fmt.Fprintf(log, "data: %d spectra × %d points, %s mode\n", n, m, r.Mode)
@@ -422,21 +427,6 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 // ±17 absorbance; 1e-6 keeps the fit at the noise level (0.0742 %) with
 // spectra of the data's own size, and 1e-4 already biased the fit.
 const reactionsRidge = 1e-6
-
-// looksLikeAbsorbance: detector single beams are counts or volts with an
-// envelope spanning orders of magnitude above a few units; absorbance
-// rarely leaves −1…5 (common practice: above A ≈ 3 almost no light is left).
-// Values all inside that range and some below 1 suggest a wrong --kind.
-func looksLikeAbsorbance(ser *spectra.Series) bool {
-	n, m := ser.Values.Dims()
-	lo, hi := math.Inf(1), math.Inf(-1)
-	for i := 0; i < n; i++ {
-		for _, v := range ser.Values.RawRowView(i)[:m] {
-			lo, hi = math.Min(lo, v), math.Max(hi, v)
-		}
-	}
-	return lo >= -1 && hi <= 5 && lo < 1
-}
 
 // pooledSigma estimates the noise of several experiments from all their
 // pre-reaction spectra: successive differences of rows that should be

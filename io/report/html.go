@@ -470,39 +470,70 @@ func derivedChecks(f *Folder) []string {
 			}
 		}
 	}
-	// Saturated regions: absorbance above 2 means under 1 % of the light
-	// reaches the detector, where noise explodes and bands flatten (common
-	// practice).
-	if f.Maps != nil && s.Mode == "species" {
+	// Saturated regions; a run since the check moved into the pipeline
+	// already lists it among the summary's warnings.
+	if f.Maps != nil && s.Mode == "species" && !hasWarning(s.Warnings, "absorbance exceeds 2") {
 		if m := f.Maps.Matrices["data"]; m != nil {
-			var ranges []string
-			start := -1
-			hot := func(j int) bool {
-				for _, r := range m.Rows {
-					if r[j] > 2 {
-						return true
-					}
-				}
-				return false
-			}
-			for j := 0; j <= len(f.Maps.Axis); j++ {
-				if j < len(f.Maps.Axis) && hot(j) {
-					if start < 0 {
-						start = j
-					}
-					continue
-				}
-				if start >= 0 {
-					ranges = append(ranges, fmt.Sprintf("%s–%s", trimFloat(f.Maps.Axis[start], 5), trimFloat(f.Maps.Axis[j-1], 5)))
-					start = -1
-				}
-			}
-			if len(ranges) > 0 {
-				out = append(out, fmt.Sprintf("Absorbance exceeds 2 (under 1 %% of the light transmitted) at %s %s: such regions are often saturated; consider --exclude LO:HI for them.", strings.Join(ranges, ", "), spectralAxis(f.axisName()).Unit))
+			if w := HighAbsorbanceWarning(f.Maps.Axis, f.axisName(), m.Rows); w != "" {
+				out = append(out, strings.ToUpper(w[:1])+w[1:])
 			}
 		}
 	}
 	return out
+}
+
+func hasWarning(ws []string, part string) bool {
+	for _, w := range ws {
+		if strings.Contains(strings.ToLower(w), part) {
+			return true
+		}
+	}
+	return false
+}
+
+// SaturatedAbsorbance: above absorbance 2 under 1 % of the light reaches
+// the detector, where noise explodes and bands flatten (common practice;
+// the 1 % figure is a rule of thumb, from memory).
+const SaturatedAbsorbance = 2.0
+
+// HighAbsorbanceWarning names the axis ranges where some spectrum (a row
+// of rows, one value per axis point) exceeds SaturatedAbsorbance, or
+// returns "" when none does. The run prints it and the report shows it.
+func HighAbsorbanceWarning(axis []float64, axisName string, rows [][]float64) string {
+	var ranges []string
+	start := -1
+	hot := func(j int) bool {
+		for _, r := range rows {
+			if j < len(r) && r[j] > SaturatedAbsorbance {
+				return true
+			}
+		}
+		return false
+	}
+	for j := 0; j <= len(axis); j++ {
+		if j < len(axis) && hot(j) {
+			if start < 0 {
+				start = j
+			}
+			continue
+		}
+		if start >= 0 {
+			r := trimFloat(axis[start], 5)
+			if j-1 > start {
+				r += "–" + trimFloat(axis[j-1], 5)
+			}
+			ranges = append(ranges, r)
+			start = -1
+		}
+	}
+	if len(ranges) == 0 {
+		return ""
+	}
+	unit := spectralAxis(axisName).Unit
+	if unit == "" {
+		unit = "(" + axisName + ")"
+	}
+	return fmt.Sprintf("absorbance exceeds 2 (under 1 %% of the light transmitted) at %s %s: such regions are often saturated; consider --exclude LO:HI for them", strings.Join(ranges, ", "), unit)
 }
 
 func fmtNum(v float64) string { return trimFloat(v, 4) }

@@ -1,0 +1,96 @@
+package pipeline
+
+import (
+	"fmt"
+	"math"
+	"sort"
+
+	"github.com/bandsolve/bandsolve/io/report"
+	"github.com/bandsolve/bandsolve/io/spectra"
+)
+
+// absorbanceLook says why a series with no declared kind, about to be read
+// as single beams, looks like absorbance instead, or "" when it does not.
+// The range alone is no evidence: single beams in arbitrary units can lie
+// in 0…2 as well. What tells them apart (Beer–Lambert, A = −log10(I/I0),
+// common practice):
+//   - a single beam is a positive intensity, absorbance dips below zero in
+//     noise around its baseline;
+//   - a single beam is an instrument's throughput curve, well above zero
+//     over most of the axis, absorbance is a baseline near zero with bands;
+//   - single beams of one series differ by the light the reaction absorbs,
+//     a few tens of per cent at most at a typical point, while absorbance
+//     spectra ratioed to the first change by large factors where the first
+//     is near zero.
+//
+// Counts or volts beyond −1…5 are never taken for absorbance (above A ≈ 3
+// almost no light is left; common practice).
+func absorbanceLook(ser *spectra.Series) string {
+	n, m := ser.Values.Dims()
+	if n == 0 || m == 0 {
+		return ""
+	}
+	lo, hi, nonPositive := math.Inf(1), math.Inf(-1), 0
+	for i := 0; i < n; i++ {
+		for _, v := range ser.Values.RawRowView(i)[:m] {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				continue
+			}
+			lo, hi = math.Min(lo, v), math.Max(hi, v)
+			if v <= 0 {
+				nonPositive++
+			}
+		}
+	}
+	if !(lo >= -1 && hi <= 5 && lo < 1) {
+		return ""
+	}
+	if nonPositive > 0 {
+		return fmt.Sprintf("%d of their values are zero or negative (%.3g at the lowest), which an intensity cannot be, and all lie between %.3g and %.3g", nonPositive, lo, lo, hi)
+	}
+	first := ser.Values.RawRowView(0)[:m]
+	if med, top := middle(first), maxOf(first); med < 0.1*top {
+		return fmt.Sprintf("the first spectrum lies near zero (median %.3g, maximum %.3g) with bands rising from it, where a single beam is a throughput curve well above zero over most of the axis", med, top)
+	}
+	if n > 1 {
+		last := ser.Values.RawRowView(n - 1)[:m]
+		logs := make([]float64, m)
+		for j := range logs {
+			logs[j] = math.Abs(math.Log10(last[j] / first[j]))
+		}
+		if f := middle(logs); f > 0.3 {
+			return fmt.Sprintf("the last spectrum differs from the first by a factor of %.3g at the median point, where single beams differ only by the light the reaction absorbs", math.Pow(10, f))
+		}
+	}
+	return ""
+}
+
+// saturationWarning names the ranges where the absolute absorbance of a
+// species-mode run exceeds 2, so that it reaches the terminal and
+// summary.json and not only the report.
+func saturationWarning(r *Result) string {
+	n, _ := r.D.Dims()
+	rows := make([][]float64, n)
+	for i := range rows {
+		rows[i] = r.D.RawRowView(i)
+	}
+	return report.HighAbsorbanceWarning(r.Axis, r.AxisName, rows)
+}
+
+func middle(v []float64) float64 {
+	s := append([]float64(nil), v...)
+	sort.Float64s(s)
+	k := len(s) / 2
+	if len(s)%2 == 1 {
+		return s[k]
+	}
+	return (s[k-1] + s[k]) / 2
+}
+
+func maxOf(v []float64) float64 {
+	top := math.Inf(-1)
+	for _, x := range v {
+		top = math.Max(top, x)
+	}
+	return top
+}

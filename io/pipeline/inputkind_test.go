@@ -1,0 +1,173 @@
+package pipeline
+
+import (
+	"encoding/json"
+	"math"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/io/spectra"
+	"gonum.org/v1/gonum/mat"
+)
+
+// uvSeries simulates a UV-visible run: a lamp throughput curve in
+// arbitrary units 0.15…1.95 (scale), two bands exchanging intensity, and
+// detector noise constant in counts (σ_I), as single beams
+// I = I0·10^(−A) (Beer–Lambert, definition). It returns the single beams
+// and the absorbance A = −log10(I/I_blank) against a separately measured
+// noisy blank, whose noise is then ∝ 1/I.
+func uvSeries(scale, sigmaI float64) (beams, absorbance *spectra.Series) {
+	var axis []float64
+	for x := 200.0; x <= 800; x += 2 {
+		axis = append(axis, x)
+	}
+	n, m := 21, len(axis)
+	rng := rand.New(rand.NewPCG(16, 5))
+	throughput := func(x float64) float64 {
+		u := (x - 450) / 200
+		return scale * (1.8*math.Exp(-u*u) + 0.15)
+	}
+	bi, ba := mat.NewDense(n, m, nil), mat.NewDense(n, m, nil)
+	for i := 0; i < n; i++ {
+		c := math.Exp(-0.2 * float64(i))
+		for j, x := range axis {
+			a := c*0.8*math.Exp(-0.5*sq((x-350)/30)) + (1-c)*0.6*math.Exp(-0.5*sq((x-500)/40))
+			i0 := throughput(x)
+			beam := i0*math.Pow(10, -a) + sigmaI*rng.NormFloat64()
+			blank := i0 + sigmaI*rng.NormFloat64()
+			bi.Set(i, j, beam)
+			ba.Set(i, j, -math.Log10(beam/blank))
+		}
+	}
+	times := make([]float64, n)
+	for i := range times {
+		times[i] = 60 * float64(i)
+	}
+	mk := func(v *mat.Dense) *spectra.Series {
+		return &spectra.Series{AxisName: "wavelength (nm)", Axis: axis, Times: times, Values: v, Source: "uv.csv"}
+	}
+	return mk(bi), mk(ba)
+}
+
+// Absorbance read as single beams must be told apart from single beams in
+// arbitrary units that happen to lie in 0…2 too: the range alone (the old
+// rule, −1…5 with values below 1) flags both. The evidence is physical
+// (Beer–Lambert, A = −log10(I/I0); common practice): intensities are
+// positive and well above zero over a throughput curve, and single beams
+// of one run differ by the light absorbed; absorbance has a baseline near
+// zero with negative noise excursions.
+func TestAbsorbanceLook(t *testing.T) {
+	beams, abs := uvSeries(1, 1e-3)
+	noiseless, _ := uvSeries(1, 0)
+	_, clean := uvSeries(1, 0)
+	n, m := clean.Values.Dims()
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			clean.Values.Set(i, j, clean.Values.At(i, j)+0.02) // positive baseline, no negative values
+		}
+	}
+	counts, _ := uvSeries(2e4, 20)
+	cases := []struct {
+		name string
+		ser  *spectra.Series
+		want string // part of the reason, "" for no warning
+	}{
+		{"single beams, arbitrary units 0–2, noise constant in counts", beams, ""},
+		{"single beams without noise", noiseless, ""},
+		{"single beams in counts", counts, ""},
+		{"absorbance with noise ∝ 1/I", abs, "zero or negative"},
+		{"absorbance on a positive baseline", clean, "lies near zero"},
+	}
+	for _, c := range cases {
+		got := absorbanceLook(c.ser)
+		if c.want == "" && got != "" {
+			t.Errorf("%s: flagged as absorbance: %s", c.name, got)
+		}
+		if c.want != "" && !strings.Contains(got, c.want) {
+			t.Errorf("%s: reason %q, want one saying %q", c.name, got, c.want)
+		}
+	}
+	// The single beams in 0…2 are exactly what the range rule alone
+	// flagged: otherwise this test could not fail for the old rule.
+	lo, hi := mat.Min(beams.Values), mat.Max(beams.Values)
+	if !(lo >= -1 && hi <= 5 && lo < 1) {
+		t.Fatalf("single beams span %g…%g, outside the range that used to warn", lo, hi)
+	}
+}
+
+// The ratio evidence on its own: absorbance spectra whose first spectrum is
+// well above zero everywhere (a broad band over the whole axis) but which
+// change by large factors, as absorbance of a growing product does; single
+// beams change only by the fraction of light absorbed (Beer–Lambert).
+func TestAbsorbanceLookRatio(t *testing.T) {
+	_, abs := uvSeries(1, 0)
+	n, m := abs.Values.Dims()
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			abs.Values.Set(i, j, 0.1+0.2*float64(i))
+		}
+	}
+	if got := absorbanceLook(abs); !strings.Contains(got, "factor") {
+		t.Errorf("absorbance rising 0.1 → 4.1 not flagged by its ratio: %q", got)
+	}
+}
+
+// An absolute absorbance above 2 (under 1 % of the light transmitted;
+// common practice) is named in the run's warnings, so the terminal and
+// summary.json carry it, not only the report.
+func TestSaturationReachesSummary(t *testing.T) {
+	_, abs := uvSeries(1, 1e-4)
+	n, m := abs.Values.Dims()
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			abs.Values.Set(i, j, 3*abs.Values.At(i, j)) // band at 350 nm reaches 2.4 at first
+		}
+	}
+	var b strings.Builder
+	b.WriteString("wavelength (nm)")
+	for _, tm := range abs.Times {
+		b.WriteString("," + output.Float(tm))
+	}
+	b.WriteString("\n")
+	for j, x := range abs.Axis {
+		b.WriteString(output.Float(x))
+		for i := 0; i < n; i++ {
+			b.WriteString("," + output.Float(abs.Values.At(i, j)))
+		}
+		b.WriteString("\n")
+	}
+	dir := t.TempDir()
+	p := filepath.Join(dir, "abs.csv")
+	if err := os.WriteFile(p, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	s := NewSettings()
+	s.Data, s.Kind, s.Out, s.Report = []string{p}, "absorbance", filepath.Join(dir, "out"), "off"
+	var out strings.Builder
+	if _, err := Execute(s, Streams{Out: &out, Err: new(strings.Builder)}); err != nil {
+		t.Fatal(err)
+	}
+	// Where the simulated absorbance exceeds 2: 2.4·exp(−d²/2) > 2 for
+	// |x − 350| < 30·√(2 ln 1.2) ≈ 18.1 nm, so 332–368 nm on a 2 nm grid
+	// (only the first spectrum, c = 1, gets there; the next peaks at
+	// 2.4·e^(−0.2) = 1.96).
+	want := "absorbance exceeds 2 (under 1 % of the light transmitted) at 332–368 nm"
+	if !strings.Contains(out.String(), "warning: "+want) {
+		t.Errorf("terminal lacks %q:\n%s", want, out.String())
+	}
+	raw, err := os.ReadFile(filepath.Join(s.Out, "summary.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var sum struct{ Warnings []string }
+	if err := json.Unmarshal(raw, &sum); err != nil {
+		t.Fatal(err)
+	}
+	if !anyContains(sum.Warnings, want) {
+		t.Errorf("summary.json warnings lack %q: %q", want, sum.Warnings)
+	}
+}
