@@ -6,6 +6,7 @@ import (
 	"math"
 
 	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat/distuv"
 )
 
 // BandOptions are the constraints a feasible rotation must keep. They mirror
@@ -26,6 +27,13 @@ type BandOptions struct {
 	// MaxEvaluations bounds the function evaluations of each of the 2k
 	// searches; default 4000.
 	MaxEvaluations int
+	// ResidualSS is ‖D − C Sᵀ‖²_F of the solution on its n·m data values.
+	// When positive, a rotation counts when its fit is statistically no
+	// worse than the solution's (see FeasibleBands); zero keeps the exact
+	// fit (the noise-free ranges).
+	ResidualSS float64
+	// Alpha is the significance level of that comparison; default 0.05.
+	Alpha float64
 }
 
 // Band is one component's range of signal contribution
@@ -45,6 +53,9 @@ type Band struct {
 type BandsResult struct {
 	Bands       []Band
 	Evaluations int
+	// Allowance is the rise of the residual sum of squares a rotation may
+	// cause and still count (0 for the exact-fit ranges).
+	Allowance float64
 }
 
 // FeasibleBands computes, for every component k, the smallest and largest
@@ -70,6 +81,30 @@ type BandsResult struct {
 // spectra only; the data matrix is not needed because C Sᵀ is unchanged.
 // Unimodality and hard kinetic models are not imposed on the rotations.
 //
+// Within the noise (opt.ResidualSS > 0): the solution itself is noisy, so
+// the true resolution is not one of its exact rotations. A rotation T then
+// counts when the pair it gives with the constraints imposed — A₊ = C T and
+// B₊ = S T⁻ᵀ with negative entries (where non-negative) and zero-window
+// entries set to zero — fits no worse than the solution by an F test: the
+// rise ‖C Sᵀ − A₊B₊ᵀ‖² may be at most RSS·p/(N−p)·F_{1−α}(p, N−p), with
+// N = n·m data values and p = k(n+m−k) parameters of a rank-k bilinear
+// model. This is the likelihood-ratio confidence region of a nonlinear
+// least-squares fit (Beale, J. R. Stat. Soc. B 1960; Draper & Smith,
+// Applied Regression Analysis, 3rd ed. 1998, §24.5). The rise of the
+// residual is taken as ‖C Sᵀ − A₊B₊ᵀ‖², leaving out the cross term
+// 2⟨E, C Sᵀ − A₊B₊ᵀ⟩ with the residual E, which is zero to first order at
+// a least-squares solution (E is orthogonal to the model's tangent space);
+// that keeps every evaluation free of the data. The search replaces the
+// violation penalty by the penalty μ·max(0, rise/allowance − 1)², and the
+// extremes returned are the pair with the constraints imposed, its f_k
+// recomputed. Closure holds for C T exactly and for A₊ to within the
+// allowance. Rotations keep each component's amplitude, and noise moves it
+// too: each extreme is widened by scaling component k alone, c_k → (1+ε)c_k
+// with ε²‖c_k s_kᵀ‖² ≤ allowance (the same F bound on that move alone), in
+// the direction that moves f_k outwards; f_k(ε) is evaluated exactly on the
+// Gram matrices. The range is thus the union of two moves each within the
+// bound, an outer estimate of the region's extremes.
+//
 // The extreme profiles and spectra are returned with the scale of the
 // given solution: with closure as they come (closure fixes the scale);
 // otherwise the spectrum is rescaled to the norm of the given s_k and the
@@ -89,11 +124,17 @@ func FeasibleBands(c, s *mat.Dense, opt BandOptions) (*BandsResult, error) {
 	if opt.MaxEvaluations <= 0 {
 		opt.MaxEvaluations = 4000
 	}
+	if opt.Alpha <= 0 || opt.Alpha >= 1 {
+		opt.Alpha = 0.05
+	}
 	p := &bandProblem{c: c, s: s, n: n, m: m, k: k, opt: opt}
 	if err := p.setup(); err != nil {
 		return nil, err
 	}
-	out := &BandsResult{}
+	if opt.ResidualSS > 0 {
+		p.allow = noiseAllowance(opt.ResidualSS, n, m, k, opt.Alpha)
+	}
+	out := &BandsResult{Allowance: p.allow}
 	for j := 0; j < k; j++ {
 		b := Band{Value: p.contribution(identity(k), j)}
 		b.Min, b.Max = b.Value, b.Value
@@ -105,6 +146,13 @@ func FeasibleBands(c, s *mat.Dense, opt BandOptions) (*BandsResult, error) {
 			prof, spec, err := p.component(t, j)
 			if err != nil {
 				return nil, err
+			}
+			if p.allow > 0 {
+				var amp float64
+				f, amp = p.amplitude(t, j, -sign)
+				for i := range prof {
+					prof[i] *= amp
+				}
 			}
 			// The search's last stage ending infeasible means the band is
 			// only the feasible part it reached (an inner estimate).
@@ -135,6 +183,23 @@ type bandProblem struct {
 	}
 	wc, ws []float64 // 1/‖c_j‖², 1/‖s_j‖² at the given solution
 	norm   float64   // ‖C Sᵀ‖_F
+	allow  float64   // rise of the residual allowed (0: exact fit)
+}
+
+// noiseAllowance is RSS·p/(N−p)·F_{1−α}(p, N−p), the rise of the residual
+// sum of squares inside the F confidence region (Beale 1960; see
+// FeasibleBands), with N = n·m and p = k(n+m−k). With no degrees of freedom
+// left it is 0 (the exact-fit ranges).
+func noiseAllowance(rss float64, n, m, k int, alpha float64) float64 {
+	nObs, par := float64(n)*float64(m), float64(k)*float64(n+m-k)
+	if par <= 0 || nObs-par < 1 {
+		return 0
+	}
+	q := distuv.F{D1: par, D2: nObs - par}.Quantile(1 - alpha)
+	if math.IsNaN(q) || math.IsInf(q, 0) {
+		return 0
+	}
+	return rss * par / (nObs - par) * q
 }
 
 func identity(k int) *mat.Dense {
@@ -353,20 +418,40 @@ func (p *bandProblem) violation(a, b *mat.Dense) float64 {
 
 // extreme minimises sign·f_j by the penalty sequence and returns the end
 // point, f_j there, whether it is feasible and the evaluations used.
+//
+// Within the noise the exact-fit extreme comes first (it lies inside the
+// allowance) and one residual-penalty stage (μ = 10⁵, a sixteenth of the
+// evaluations) carries it outwards: this bounds the cost on large data,
+// where the clipped pair's kinks slow BFGS. μ = 10⁵ lets the rise exceed
+// the allowance by about 1/(2μ) of it, well inside Tolerance.
 func (p *bandProblem) extreme(j int, sign float64) ([]float64, float64, bool, int) {
-	nf := len(p.free)
-	theta := make([]float64, nf)
-	if nf == 0 {
+	theta := make([]float64, len(p.free))
+	if len(theta) == 0 {
 		return theta, p.contribution(identity(p.k), j), true, 0
 	}
+	allow := p.allow
+	p.allow = 0
+	th, f, ok, evals := p.stages(j, sign, theta, []float64{1e2, 1e4, 1e6, 1e8}, p.opt.MaxEvaluations/4)
+	p.allow = allow
+	if allow == 0 {
+		return th, f, ok, evals
+	}
+	th, f, ok, more := p.stages(j, sign, th, []float64{1e5}, p.opt.MaxEvaluations/16)
+	return th, f, ok, evals + more
+}
+
+// stages runs the penalty sequence mus from theta with budget evaluations
+// per stage (see extreme).
+func (p *bandProblem) stages(j int, sign float64, theta0, mus []float64, budget int) ([]float64, float64, bool, int) {
+	theta := append([]float64(nil), theta0...)
 	evals, lastOK := 0, false
 	bestTheta := append([]float64(nil), theta...)
-	bestF := p.contribution(identity(p.k), j)
-	for _, mu := range []float64{1e2, 1e4, 1e6, 1e8} {
+	bestF := p.contribution(p.rotation(theta), j)
+	for _, mu := range mus {
 		x, _, used := minimiseBFGS(func(th, g []float64) float64 {
 			v, _ := p.cost(j, sign, mu, th, g)
 			return v
-		}, theta, p.opt.MaxEvaluations/4)
+		}, theta, budget)
 		evals += used
 		theta = append(theta[:0], x...)
 		t := p.rotation(theta)
@@ -374,7 +459,12 @@ func (p *bandProblem) extreme(j int, sign float64) ([]float64, float64, bool, in
 		if !ok {
 			break
 		}
-		lastOK = p.violation(a, b) <= p.opt.Tolerance
+		if p.allow > 0 {
+			lastOK = p.rise(a, b, nil, nil) <= p.allow*(1+p.opt.Tolerance)
+			a, b = p.constrainedPair(a, b)
+		} else {
+			lastOK = p.violation(a, b) <= p.opt.Tolerance
+		}
 		if lastOK {
 			f := math.Sqrt(colNormSq(a, j)*colNormSq(b, j)) / p.norm
 			if sign*f < sign*bestF {
@@ -403,7 +493,12 @@ func (p *bandProblem) cost(j int, sign, mu float64, theta, g []float64) (float64
 	if g != nil {
 		ga, gb = mat.NewDense(p.n, k, nil), mat.NewDense(p.m, k, nil)
 	}
-	pen := p.penalty(a, b, ga, gb)
+	var pen float64
+	if p.allow > 0 {
+		pen = p.residualPenalty(a, b, ga, gb)
+	} else {
+		pen = p.penalty(a, b, ga, gb)
+	}
 	na, nb := math.Sqrt(colNormSq(a, j)), math.Sqrt(colNormSq(b, j))
 	if na == 0 || nb == 0 {
 		for i := range g {
@@ -459,6 +554,9 @@ func (p *bandProblem) component(t *mat.Dense, j int) ([]float64, []float64, erro
 	if !ok {
 		return nil, nil, errors.New("bands: the extreme rotation is singular")
 	}
+	if p.allow > 0 {
+		a, b = p.constrainedPair(a, b)
+	}
 	prof, spec := mat.Col(nil, j, a), mat.Col(nil, j, b)
 	if !p.opt.Closure && !(j < len(p.opt.Known) && p.opt.Known[j]) {
 		ns := math.Sqrt(dot(spec, spec))
@@ -474,4 +572,120 @@ func (p *bandProblem) component(t *mat.Dense, j int) ([]float64, []float64, erro
 		}
 	}
 	return prof, spec, nil
+}
+
+// clip returns x with the constraints imposed (negative entries of
+// non-negative components and zero-window entries set to zero) and the
+// mask of the entries kept.
+func (p *bandProblem) clip(x *mat.Dense, nn []bool, zero [][]bool) (*mat.Dense, *mat.Dense) {
+	r, k := x.Dims()
+	out, mask := mat.NewDense(r, k, nil), mat.NewDense(r, k, nil)
+	for j := 0; j < k; j++ {
+		var z []bool
+		if j < len(zero) {
+			z = zero[j]
+		}
+		for i := 0; i < r; i++ {
+			v := x.At(i, j)
+			if z != nil && z[i] || nn[j] && v < 0 {
+				continue
+			}
+			out.Set(i, j, v)
+			mask.Set(i, j, 1)
+		}
+	}
+	return out, mask
+}
+
+// rise returns ‖A Bᵀ − A₊B₊ᵀ‖²_F, the change of the model when the
+// constraints are imposed on the rotated pair, and adds its gradients with
+// respect to A and B into ga and gb when non-nil. It is formed as
+// ‖[A₋ A₊][B B₋]ᵀ‖² with A₋ = A − A₊, B₋ = B − B₊ (small terms, no
+// cancellation), on Gram matrices: O((n + m)k²).
+func (p *bandProblem) rise(a, b, ga, gb *mat.Dense) float64 {
+	k := p.k
+	ap, ma := p.clip(a, p.nnC, p.opt.ZeroProfiles)
+	bp, mb := p.clip(b, p.nnS, p.opt.ZeroSpectra)
+	var am, bm mat.Dense
+	am.Sub(a, ap)
+	bm.Sub(b, bp)
+	x := mat.NewDense(p.n, 2*k, nil)
+	x.Slice(0, p.n, 0, k).(*mat.Dense).Copy(&am)
+	x.Slice(0, p.n, k, 2*k).(*mat.Dense).Copy(ap)
+	y := mat.NewDense(p.m, 2*k, nil)
+	y.Slice(0, p.m, 0, k).(*mat.Dense).Copy(b)
+	y.Slice(0, p.m, k, 2*k).(*mat.Dense).Copy(&bm)
+	var gx, gy mat.Dense
+	gx.Mul(x.T(), x)
+	gy.Mul(y.T(), y)
+	d := 0.0
+	for i := 0; i < 2*k; i++ {
+		for j := 0; j < 2*k; j++ {
+			d += gx.At(i, j) * gy.At(i, j)
+		}
+	}
+	if ga == nil {
+		return d
+	}
+	// ∂‖X Yᵀ‖²/∂X = 2 X (YᵀY), ∂/∂Y = 2 Y (XᵀX); then through the masks.
+	var dx, dy mat.Dense
+	dx.Mul(x, &gy)
+	dy.Mul(y, &gx)
+	for i := 0; i < p.n; i++ {
+		for j := 0; j < k; j++ {
+			w := ma.At(i, j)
+			ga.Set(i, j, ga.At(i, j)+2*((1-w)*dx.At(i, j)+w*dx.At(i, k+j)))
+		}
+	}
+	for i := 0; i < p.m; i++ {
+		for j := 0; j < k; j++ {
+			gb.Set(i, j, gb.At(i, j)+2*(dy.At(i, j)+(1-mb.At(i, j))*dy.At(i, k+j)))
+		}
+	}
+	return d
+}
+
+// constrainedPair is the rotated pair with the constraints imposed.
+func (p *bandProblem) constrainedPair(a, b *mat.Dense) (*mat.Dense, *mat.Dense) {
+	ap, _ := p.clip(a, p.nnC, p.opt.ZeroProfiles)
+	bp, _ := p.clip(b, p.nnS, p.opt.ZeroSpectra)
+	return ap, bp
+}
+
+// residualPenalty is max(0, rise/allowance − 1)², the search's penalty
+// within the noise, with its gradients (into ga, gb when non-nil).
+func (p *bandProblem) residualPenalty(a, b, ga, gb *mat.Dense) float64 {
+	h := p.rise(a, b, ga, gb)/p.allow - 1
+	if h <= 0 {
+		h = 0
+	}
+	if ga != nil {
+		ga.Scale(2*h/p.allow, ga)
+		gb.Scale(2*h/p.allow, gb)
+	}
+	return h * h
+}
+
+// amplitude returns f_j of the constrained pair at rotation t with
+// component j scaled by 1+ε, ε = dir·√(allowance)/‖a_j b_jᵀ‖ (see
+// FeasibleBands), and the factor 1+ε.
+func (p *bandProblem) amplitude(t *mat.Dense, j int, dir float64) (float64, float64) {
+	a, b, _, ok := p.rotate(t)
+	if !ok {
+		return math.NaN(), 1
+	}
+	a, b = p.constrainedPair(a, b)
+	ga, gb := gram(a), gram(b)
+	norm2 := traceProd(ga, gb)
+	own := ga.At(j, j) * gb.At(j, j) // ‖a_j b_jᵀ‖²
+	if !(own > 0) || !(norm2 > 0) {
+		return 0, 1
+	}
+	cross := 0.0 // ⟨A Bᵀ, a_j b_jᵀ⟩ = Σ_l (a_jᵀa_l)(b_lᵀb_j)
+	for l := 0; l < p.k; l++ {
+		cross += ga.At(j, l) * gb.At(l, j)
+	}
+	eps := dir * math.Min(math.Sqrt(p.allow/own), 0.5)
+	total := norm2 + 2*eps*cross + eps*eps*own
+	return (1 + eps) * math.Sqrt(own/total), 1 + eps
 }

@@ -94,6 +94,9 @@ type BandJSON struct {
 	Component string  `json:"component"`
 	Min       float64 `json:"min"`
 	Max       float64 `json:"max"`
+	// NotDetermined: the search could not stay within the constraints and
+	// the noise allowance, so Min and Max are only the part it reached.
+	NotDetermined bool `json:"not_determined,omitempty"`
 }
 
 // KineticsJSON is the kinetic fit.

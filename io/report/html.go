@@ -403,10 +403,12 @@ func findings(f *Folder) (find, checks []string) {
 	}
 	for _, b := range s.Uniqueness() {
 		w := b.Max - b.Min
-		if w <= 0.05*math.Max(b.Max, 1e-12) {
-			find = append(find, fmt.Sprintf("%s is essentially unique within the constraints: every rotation that still fits gives it a share of the signal between %s and %s.", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
+		if b.NotDetermined {
+			checks = append(checks, fmt.Sprintf("The uniqueness range of %s was not determined: the search could not stay within the constraints (it reached shares of the signal from %s to %s, which bound nothing).", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
+		} else if w <= 0.05*math.Max(b.Max, 1e-12) {
+			find = append(find, fmt.Sprintf("%s is essentially unique within the constraints and the noise: every solution that fits as well gives it a share of the signal between %s and %s.", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
 		} else {
-			find = append(find, fmt.Sprintf("%s is not unique: rotations that fit the data and keep every constraint give it a share of the signal from %s to %s.", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
+			find = append(find, fmt.Sprintf("%s is not unique: solutions that fit the data as well and keep every constraint give it a share of the signal from %s to %s.", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
 		}
 	}
 	if k := s.Kinetics; k != nil && len(k.RateConstants) > 0 {
