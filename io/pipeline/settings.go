@@ -425,7 +425,7 @@ var options = func() []Option {
 	sw, gw := choice(func(s *Settings) *string { return &s.Weights }, "noise", "off")
 	add(opt("weights", "noise|off", "weight each point by 1/σ² of its noise, estimated from the data (noise), or all alike (off, the default for now)", false, true, sw, gw))
 	s23, g23 := number(func(s *Settings) *float64 { return &s.Alpha }, func(x float64) bool { return x > 0 && x < 1 }, "a significance level between 0 and 1")
-	add(opt("alpha", "P", "significance level of the F-test on the rank", false, true, s23, g23))
+	add(opt("alpha", "P", "significance level of the F-tests: on the rank, and on the fit a uniqueness range may lose", false, true, s23, g23))
 	s24, g24 := integer(func(s *Settings) *int { return &s.MaxIter }, 1)
 	add(opt("max-iter", "N", "most ALS iterations", false, true, s24, g24))
 	s25, g25 := number(func(s *Settings) *float64 { return &s.Tolerance }, func(x float64) bool { return x > 0 && x < 1 }, "a relative change between 0 and 1")
