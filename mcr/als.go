@@ -278,50 +278,47 @@ func thinQR(a *mat.Dense) (*mat.Dense, *mat.Dense) {
 	return q, rr
 }
 
-// residualSSWeighted sums a_i b_j (D − C Sᵀ)²_ij in row blocks.
-func residualSSWeighted(d, c, s *mat.Dense, row, col []float64) float64 {
+// eachResidualRow hands visit each row of D and of C Sᵀ in turn, computing
+// C Sᵀ in blocks of rows so that no data-sized model is held. Every
+// residual sum goes through it, so all of them add in the same order.
+func eachResidualRow(d, c, s *mat.Dense, visit func(i int, drow, model []float64)) {
 	n, m := d.Dims()
 	const block = 256
 	var e mat.Dense
-	ssr := 0.0
 	for lo := 0; lo < n; lo += block {
 		hi := min(n, lo+block)
 		e.Reset()
 		e.Mul(c.Slice(lo, hi, 0, c.RawMatrix().Cols), s.T())
 		for i := lo; i < hi; i++ {
-			drow := d.RawRowView(i)[:m]
-			erow := e.RawRowView(i - lo)
-			r := 0.0
-			for j, v := range drow {
-				x := v - erow[j]
-				r += col[j] * x * x
-			}
-			ssr += row[i] * r
+			visit(i, d.RawRowView(i)[:m], e.RawRowView(i-lo))
 		}
 	}
+}
+
+// residualSSWeighted sums a_i b_j (D − C Sᵀ)²_ij in row blocks.
+func residualSSWeighted(d, c, s *mat.Dense, row, col []float64) float64 {
+	ssr := 0.0
+	eachResidualRow(d, c, s, func(i int, drow, erow []float64) {
+		r := 0.0
+		for j, v := range drow {
+			x := v - erow[j]
+			r += col[j] * x * x
+		}
+		ssr += row[i] * r
+	})
 	return ssr
 }
 
 // residualSSDense sums (D − C Sᵀ)² in row blocks, in the same order as
 // LackOfFit, so the two agree to the bit.
 func residualSSDense(d, c, s *mat.Dense) float64 {
-	n, m := d.Dims()
-	const block = 256
-	var e mat.Dense
 	ssr := 0.0
-	for lo := 0; lo < n; lo += block {
-		hi := min(n, lo+block)
-		e.Reset()
-		e.Mul(c.Slice(lo, hi, 0, c.RawMatrix().Cols), s.T())
-		for i := lo; i < hi; i++ {
-			drow := d.RawRowView(i)[:m]
-			erow := e.RawRowView(i - lo)
-			for j, v := range drow {
-				r := v - erow[j]
-				ssr += r * r
-			}
+	eachResidualRow(d, c, s, func(_ int, drow, erow []float64) {
+		for j, v := range drow {
+			r := v - erow[j]
+			ssr += r * r
 		}
-	}
+	})
 	return ssr
 }
 

@@ -157,39 +157,29 @@ func (f WeightedFit) ResidualToNoise(n, m, k int) float64 {
 // residual matrix) skipping the points missing(i, j) reports (nil: none), and
 // sums it plain and weighted by row[i]·col[j] (nil weights: 1).
 func FitWeighted(d, c, s *mat.Dense, row, col []float64, missing func(i, j int) bool) WeightedFit {
-	n, m := d.Dims()
-	const block = 256
-	var e mat.Dense
 	ssr, tot, wss, nss := 0.0, 0.0, 0.0, 0.0
 	obs := 0
-	for lo := 0; lo < n; lo += block {
-		hi := min(n, lo+block)
-		e.Reset()
-		e.Mul(c.Slice(lo, hi, 0, c.RawMatrix().Cols), s.T())
-		for i := lo; i < hi; i++ {
-			drow := d.RawRowView(i)[:m]
-			erow := e.RawRowView(i - lo)
-			a := 1.0
-			if row != nil {
-				a = row[i]
-			}
-			for j, v := range drow {
-				if missing != nil && missing(i, j) {
-					continue
-				}
-				r := v - erow[j]
-				b := 1.0
-				if col != nil {
-					b = col[j]
-				}
-				ssr += r * r
-				tot += v * v
-				wss += a * b * r * r
-				nss += 1 / (a * b)
-				obs++
-			}
+	eachResidualRow(d, c, s, func(i int, drow, erow []float64) {
+		a := 1.0
+		if row != nil {
+			a = row[i]
 		}
-	}
+		for j, v := range drow {
+			if missing != nil && missing(i, j) {
+				continue
+			}
+			r := v - erow[j]
+			b := 1.0
+			if col != nil {
+				b = col[j]
+			}
+			ssr += r * r
+			tot += v * v
+			wss += a * b * r * r
+			nss += 1 / (a * b)
+			obs++
+		}
+	})
 	out := WeightedFit{WeightedSS: wss, Observed: obs, DataSS: tot, NoiseSS: nss}
 	if tot > 0 {
 		out.LackOfFitPercent = 100 * math.Sqrt(ssr/tot)
