@@ -147,11 +147,11 @@ func bounds(t *Table, name, word string) (lo, hi int) {
 	return lo, hi
 }
 
-func timeLegend(times []float64, t0, t1 float64) []LegendItem {
+func timeLegend(t0, t1 float64, unit string) []LegendItem {
 	var items []LegendItem
 	for _, q := range []float64{0, 0.25, 0.5, 0.75, 1} {
 		tv := t0 + q*(t1-t0)
-		items = append(items, LegendItem{Label: "t = " + trimFloat(tv, 4) + " s", Colour: ramp(timeRamp, q)})
+		items = append(items, LegendItem{Label: "t = " + fmtTime(tv, unit), Colour: ramp(timeRamp, q)})
 	}
 	return items
 }
@@ -180,16 +180,19 @@ func overlayFigure(f *Folder, m *Matrix, ax axisStyle, id, title, ylabel, captio
 		if t1 > t0 {
 			q = (m.Times[i] - t0) / (t1 - t0)
 		}
-		if err := addLine(p, f.Maps.Axis, m.Rows[i], ramp(timeRamp, q), 0.9, nil); err != nil {
+		gx, gy := splitAtGaps(f.Maps.Axis, m.Rows[i])
+		if err := addLine(p, gx, gy, ramp(timeRamp, q), 0.9, nil); err != nil {
 			return nil, fmt.Errorf("%s: %w", id, err)
 		}
 	}
+	addHeadroom(p)
 	svg, dr, err := render(p, nil, figW, figH)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", id, err)
 	}
-	cap := fmt.Sprintf("%s %d of %d spectra shown, from t = %s s (dark) to t = %s s (light).", caption, len(sel), len(rows), trimFloat(t0, 4), trimFloat(t1, 4))
-	return &Figure{ID: id, Title: title, Caption: cap, SVG: svg, drawing: dr, Legend: timeLegend(nil, t0, t1)}, nil
+	unit := f.timeUnit(t1 - t0)
+	cap := fmt.Sprintf("%s %d of %d spectra shown, from t = %s (dark) to t = %s (light).", caption, len(sel), len(rows), fmtTime(t0, unit), fmtTime(t1, unit))
+	return &Figure{ID: id, Title: title, Caption: cap, SVG: svg, drawing: dr, Legend: timeLegend(t0, t1, unit)}, nil
 }
 
 // mapFigure draws a matrix as a time × axis image with a signed colour scale.
@@ -222,6 +225,10 @@ func mapFigure(f *Folder, m *Matrix, ax axisStyle, id, title, unit string, q flo
 	})
 	p := newPlot("", ylabel)
 	ax.apply(p)
+	if !multi {
+		lo, hi := span(m.Times)
+		f.timeAxis(&p.Y, lo, hi)
+	}
 	p.Add(raster{img: img, xmin: r[0], xmax: r[1], ymin: r[2], ymax: r[3]})
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = r[0], r[1], r[2], r[3]
 	svg, dr, err := render(p, colourBar(lim, unit+" (absorbance)"), figW, figH)
@@ -390,6 +397,10 @@ func efaFigure(f *Folder) (*Figure, error) {
 		xl = "spectrum number"
 	}
 	p := newPlot(xl, "log₁₀ singular value")
+	if xl != "spectrum number" {
+		lo, hi := span(x)
+		f.timeAxis(&p.X, lo, hi)
+	}
 	var legend []LegendItem
 	for k, j := range fwd {
 		if err := addLine(p, x, val(j), componentColour(k), 1.2, nil); err != nil {
@@ -464,11 +475,13 @@ func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 	xlo, xhi := span(x)
 	hline(p, xlo, xhi, 0, okabeBlack, nil)
 	for k, j := range comps {
-		if err := addLine(p, x, t.Col(j), componentColour(k), 1.4, dashOf(k)); err != nil {
+		gx, gy := splitAtGaps(x, t.Col(j))
+		if err := addLine(p, gx, gy, componentColour(k), 1.4, dashOf(k)); err != nil {
 			return nil, err
 		}
 		legend = append(legend, LegendItem{Label: t.Header[j], Colour: componentColour(k), Dash: dashOf(k)})
 	}
+	addHeadroom(p)
 	svg, dr, err := render(p, nil, figW, figH)
 	if err != nil {
 		return nil, fmt.Errorf("spectra: %w", err)
@@ -623,6 +636,8 @@ func profilesFigure(f *Folder) (*Figure, error) {
 			legend = append(legend, LegendItem{Label: cv.label, Colour: lc, Dash: cv.dash})
 		}
 	}
+	f.timeAxis(&p.X, xlo, xhi)
+	addHeadroom(p)
 	svg, dr, err := render(p, nil, figW, figH)
 	if err != nil {
 		return nil, fmt.Errorf("profiles: %w", err)
@@ -837,12 +852,15 @@ func residualSpectrumFigure(f *Folder, m *Matrix, ax axisStyle) (*Figure, error)
 		hline(p, xlo, xhi, sg, okabeVermilion, []float64{5, 3})
 		legend = append(legend, LegendItem{Label: "noise σ", Colour: okabeVermilion, Dash: []float64{5, 3}})
 	}
-	if err := addLine(p, x, rms, okabeBlue, 1.2, nil); err != nil {
+	gx, grms := splitAtGaps(x, rms)
+	if err := addLine(p, gx, grms, okabeBlue, 1.2, nil); err != nil {
 		return nil, err
 	}
-	if err := addLine(p, x, mean, okabeGreen, 1.0, []float64{6, 3}); err != nil {
+	gx, gmean := splitAtGaps(x, mean)
+	if err := addLine(p, gx, gmean, okabeGreen, 1.0, []float64{6, 3}); err != nil {
 		return nil, err
 	}
+	addHeadroom(p)
 	svg, dr, err := render(p, nil, figW, 7*figH/9)
 	if err != nil {
 		return nil, fmt.Errorf("residual spectrum: %w", err)

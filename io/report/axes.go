@@ -1,0 +1,122 @@
+package report
+
+import (
+	"math"
+	"sort"
+	"strings"
+
+	"gonum.org/v1/plot"
+)
+
+// gapFactor: a step along the spectral axis more than this many times the
+// median step is a cut (--exclude, or regions kept apart), drawn as a gap
+// rather than a straight line across it. Instrument axes are uniform or
+// nearly so (common practice), so 3 leaves room for a slightly uneven one.
+const gapFactor = 3
+
+// splitAtGaps returns x and y with a NaN pair inserted wherever the axis
+// step jumps, so addLine breaks the line there.
+func splitAtGaps(x, y []float64) ([]float64, []float64) {
+	if len(x) < 3 {
+		return x, y
+	}
+	steps := make([]float64, 0, len(x)-1)
+	for i := 1; i < len(x); i++ {
+		steps = append(steps, math.Abs(x[i]-x[i-1]))
+	}
+	sorted := append([]float64(nil), steps...)
+	sort.Float64s(sorted)
+	med := sorted[len(sorted)/2]
+	if !(med > 0) {
+		return x, y
+	}
+	var ox, oy []float64
+	for i := range x {
+		if i > 0 && steps[i-1] > gapFactor*med {
+			ox, oy = append(ox, math.NaN()), append(oy, math.NaN())
+		}
+		ox = append(ox, x[i])
+		if i < len(y) {
+			oy = append(oy, y[i])
+		}
+	}
+	return ox, oy
+}
+
+// headroomFraction of the data's range is left above its maximum, so the
+// highest band is not drawn on the frame.
+const headroomFraction = 0.05
+
+// addHeadroom raises the top of p's y axis once all data are added (plot.Add
+// has widened the axis to the data by then).
+func addHeadroom(p *plot.Plot) {
+	if r := p.Y.Max - p.Y.Min; r > 0 && !math.IsInf(r, 0) {
+		p.Y.Max += headroomFraction * r
+	}
+}
+
+// timeScale picks the unit times are shown in: the one the data came in
+// when known (s, min or h), else from the run's length in seconds: hours
+// beyond 2 h, minutes beyond 2 min, seconds otherwise. div converts
+// seconds into that unit.
+func timeScale(span float64, given string) (unit string, div float64) {
+	switch given {
+	case "min":
+		return "min", 60
+	case "h":
+		return "h", 3600
+	case "s":
+		return "s", 1
+	}
+	switch {
+	case span > 2*3600:
+		return "h", 3600
+	case span > 2*60:
+		return "min", 60
+	}
+	return "s", 1
+}
+
+// scaledTicks places and labels ticks in the display unit (value/div)
+// while the data stay in seconds, so every curve, band and fit on a
+// time axis follows without being converted.
+type scaledTicks struct{ div float64 }
+
+func (s scaledTicks) Ticks(min, max float64) []plot.Tick {
+	ts := niceTicks{}.Ticks(min/s.div, max/s.div)
+	for i := range ts {
+		ts[i].Value *= s.div
+	}
+	return ts
+}
+
+// fmtTime writes t (seconds) in the unit timeScale chose.
+func fmtTime(t float64, unit string) string {
+	_, div := timeScale(0, unit)
+	return trimFloat(t/div, 4) + " " + unit
+}
+
+// timeUnit is the unit to show times of a run spanning span seconds in:
+// the one its as-run record says the data came in (min or h), else one
+// chosen from the span (the record's default s says nothing either way).
+func (f *Folder) timeUnit(span float64) string {
+	given := ""
+	if f.AsRun != nil {
+		for _, line := range strings.Split(f.AsRun.Body, "\n") {
+			if w := strings.Fields(line); len(w) >= 2 && w[0] == "time-unit" && (w[1] == "min" || w[1] == "h") {
+				given = w[1]
+			}
+		}
+	}
+	unit, _ := timeScale(span, given)
+	return unit
+}
+
+// timeAxis sets a's ticks and label for times in seconds spanning lo…hi.
+func (f *Folder) timeAxis(a *plot.Axis, lo, hi float64) {
+	unit, div := timeScale(0, f.timeUnit(hi-lo))
+	if div != 1 {
+		a.Tick.Marker = scaledTicks{div: div}
+	}
+	a.Label.Text = "time / " + unit
+}

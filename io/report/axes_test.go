@@ -1,0 +1,97 @@
+package report
+
+import (
+	"math"
+	"testing"
+
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/plotter"
+)
+
+// An axis cut by --exclude 1400:1500 on a 2 cm⁻¹ grid: the one step of
+// 102 cm⁻¹ is a gap and the line must break there; uneven steps within a
+// factor 3 of the median (an instrument's slightly uneven axis; common
+// practice) must not break it.
+func TestSplitAtGaps(t *testing.T) {
+	x := []float64{1600, 1598, 1596, 1500, 1498, 1496, 1495}
+	y := []float64{1, 2, 3, 4, 5, 6, 7}
+	gx, gy := splitAtGaps(x, y)
+	if len(gx) != 8 || len(gy) != 8 || !math.IsNaN(gx[3]) || !math.IsNaN(gy[3]) || gx[4] != 1500 || gy[4] != 4 {
+		t.Fatalf("no single break between 1596 and 1500: %v %v", gx, gy)
+	}
+	// Every piece between NaNs (what addLine draws as one line) stays
+	// within the median step's factor.
+	for i := 1; i < len(gx); i++ {
+		if !math.IsNaN(gx[i]) && !math.IsNaN(gx[i-1]) && math.Abs(gx[i]-gx[i-1]) > 6 {
+			t.Errorf("a drawn piece crosses the gap: %v → %v", gx[i-1], gx[i])
+		}
+	}
+	even := []float64{1, 2, 3.5, 4, 5, 6}
+	if gx, _ := splitAtGaps(even, even); len(gx) != len(even) {
+		t.Errorf("uneven but unbroken axis split: %v", gx)
+	}
+}
+
+// Headroom: 5 % of the data's range above its maximum, so a band's top is
+// not drawn on the frame (common practice in plotting).
+func TestAddHeadroom(t *testing.T) {
+	p := plot.New()
+	l, err := plotter.NewLine(plotter.XYs{{X: 0, Y: -0.2}, {X: 1, Y: 1.8}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	p.Add(l)
+	addHeadroom(p)
+	if want := 1.8 + 0.05*2.0; math.Abs(p.Y.Max-want) > 1e-12 || p.Y.Min != -0.2 {
+		t.Errorf("y axis %g…%g, want -0.2…%g", p.Y.Min, p.Y.Max, want)
+	}
+}
+
+// The display unit: the input's when the as-run record names min or h;
+// else hours beyond 2 h, minutes beyond 2 min, seconds otherwise (the
+// thresholds of issue 16). Ticks carry the unit's values at positions in
+// seconds.
+func TestTimeUnit(t *testing.T) {
+	cases := []struct {
+		span  float64
+		given string
+		want  string
+	}{
+		{90, "", "s"},
+		{120, "", "s"},
+		{121, "", "min"},
+		{7200, "", "min"},
+		{7201, "", "h"},
+		{86400, "", "h"},
+		{90, "min", "min"},
+		{86400, "min", "min"},
+		{30, "h", "h"},
+		{86400, "s", "s"},
+	}
+	for _, c := range cases {
+		if got, _ := timeScale(c.span, c.given); got != c.want {
+			t.Errorf("span %g s, given %q: %s, want %s", c.span, c.given, got, c.want)
+		}
+	}
+	f := &Folder{AsRun: &Text{Body: "data  run.csv\ntime-unit        min\n"}}
+	if u := f.timeUnit(30); u != "min" {
+		t.Errorf("as-run time-unit min shown as %s", u)
+	}
+	f.AsRun.Body = "time-unit        s\n"
+	if u := f.timeUnit(3 * 3600); u != "h" {
+		t.Errorf("a 3 h run with the default unit shown in %s, want h", u)
+	}
+	if got := fmtTime(5400, "h"); got != "1.5 h" {
+		t.Errorf("5400 s in hours: %q", got)
+	}
+	ticks := scaledTicks{div: 60}.Ticks(0, 600)
+	found := false
+	for _, tk := range ticks {
+		if tk.Label == "4" {
+			found = tk.Value == 240
+		}
+	}
+	if !found {
+		t.Errorf("no tick labelled 4 (min) at 240 s: %+v", ticks)
+	}
+}
