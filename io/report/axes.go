@@ -1,6 +1,7 @@
 package report
 
 import (
+	"image/color"
 	"math"
 	"sort"
 	"strings"
@@ -119,4 +120,28 @@ func (f *Folder) timeAxis(a *plot.Axis, lo, hi float64) {
 		a.Tick.Marker = scaledTicks{div: div}
 	}
 	a.Label.Text = "time / " + unit
+}
+
+// spectralBand shades lo…hi along a spectral axis piece by piece, so an
+// excluded range is left blank as the lines are.
+func spectralBand(p *plot.Plot, x, lo, hi []float64, c color.RGBA) {
+	for _, r := range gapRuns(x) {
+		band(p, x[r[0]:r[1]], lo[r[0]:r[1]], hi[r[0]:r[1]], c)
+	}
+}
+
+// gapRuns returns the [start, end) index runs of x between gaps.
+func gapRuns(x []float64) [][2]int {
+	gx, _ := splitAtGaps(x, x)
+	var runs [][2]int
+	start, k := 0, 0
+	for _, v := range gx {
+		if math.IsNaN(v) {
+			runs = append(runs, [2]int{start, k})
+			start = k
+			continue
+		}
+		k++
+	}
+	return append(runs, [2]int{start, k})
 }

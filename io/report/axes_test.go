@@ -95,3 +95,15 @@ func TestTimeUnit(t *testing.T) {
 		t.Errorf("no tick labelled 4 (min) at 240 s: %+v", ticks)
 	}
 }
+
+// The shaded uniqueness ranges break at the same gap as the lines.
+func TestGapRuns(t *testing.T) {
+	x := []float64{1600, 1598, 1596, 1500, 1498, 1496, 1495}
+	got := gapRuns(x)
+	if len(got) != 2 || got[0] != [2]int{0, 3} || got[1] != [2]int{3, 7} {
+		t.Errorf("runs %v, want [0,3) and [3,7)", got)
+	}
+	if got := gapRuns([]float64{1, 2, 3}); len(got) != 1 || got[0] != [2]int{0, 3} {
+		t.Errorf("unbroken axis: %v", got)
+	}
+}

@@ -457,17 +457,17 @@ func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 		name := t.Header[j]
 		c := componentColour(k)
 		if bx, lo, hi := longEnvelope(f.Bands, name, "spectrum", "at_min", "at_max"); bx != nil {
-			band(p, bx, lo, hi, tint(c, 0.72))
+			spectralBand(p, bx, lo, hi, tint(c, 0.72))
 			shades = append(shades, LegendItem{Label: name + " uniqueness range", Colour: tint(c, 0.72), Fill: true})
 			envelopes++
 		}
 		if ix, lo, hi := longEnvelope(f.Intervals, name, "spectrum", "low", "high"); ix != nil {
-			band(p, ix, lo, hi, tint(c, 0.5))
+			spectralBand(p, ix, lo, hi, tint(c, 0.5))
 			shades = append(shades, LegendItem{Label: name + " interval", Colour: tint(c, 0.5), Fill: true})
 			envelopes++
 		}
 		if lo, hi := bounds(t, name, ""); lo >= 0 {
-			band(p, x, t.Col(lo), t.Col(hi), tint(c, 0.6))
+			spectralBand(p, x, t.Col(lo), t.Col(hi), tint(c, 0.6))
 			shades = append(shades, LegendItem{Label: name + " bounds", Colour: tint(c, 0.6), Fill: true})
 			envelopes++
 		}
