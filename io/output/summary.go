@@ -14,9 +14,11 @@ type Summary struct {
 	LackOfFitPercent         float64 `json:"lack_of_fit_percent"`
 	ExplainedVariancePercent float64 `json:"explained_variance_percent"`
 	NoiseLackOfFitPercent    float64 `json:"noise_lack_of_fit_percent"`
-	// ResidualToNoise is √(χ²/ν) of the noise-weighted fit at the observed
-	// points (ν = observed − k(n + m − k)): 1.0 means the model fits to the
-	// noise; 0 when the fit is not weighted.
+	// ResidualToNoise is √(χ²/ν) of the fit at the observed points
+	// (ν = observed − k(n + m − k)), with the noise weights, or without
+	// them every point weighted 1/σ² (lack of fit over the lack of fit of
+	// noise alone): 1.0 means the model fits to the noise; 0 when no noise
+	// level is known.
 	ResidualToNoise float64 `json:"residual_to_noise"`
 	// NoiseWeights says how points were weighted: "noise" (1/σ² from the
 	// noise model, row × column) or "off".

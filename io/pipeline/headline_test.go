@@ -55,6 +55,11 @@ func TestHeadlineResidualToNoise(t *testing.T) {
 	if strings.Contains(out, "explained") {
 		t.Errorf("explained variance on the terminal:\n%s", out)
 	}
+	// summary.json carries the same figure, weighted or not (a 0 would
+	// read as a perfect fit).
+	if got := MakeSummary(r).ResidualToNoise; math.Abs(got-want) > 1e-3*want {
+		t.Errorf("summary.json residual_to_noise %.6g, recomputed %.6g", got, want)
+	}
 }
 
 // iterations.csv lists each accepted ALS iteration under its own number, so

@@ -726,7 +726,7 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 			}
 			var ks []string
 			for l, st := range kn.Scheme.Steps {
-				ks = append(ks, fmt.Sprintf("%s %.4g", st.Text, alt.K[l]))
+				ks = append(ks, fmt.Sprintf("%s k = %.4g %s", st.Text, alt.K[l], kn.rateUnit(st.Order)))
 			}
 			// The difference in residual in units of the noise variance
 			// behind the standard errors: a few units is noise (an F test
@@ -740,9 +740,9 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 			case alt.SSR < best.SSR*(1-1e-6) && units < -4:
 				// The exchanged rates fit clearly better: report them.
 				*best, *spectra = *alt, *altSpectra
-				best.Warnings = append(best.Warnings, fmt.Sprintf("with the rate constants of %s exchanged the data fit better (residual sum of squares %.4g times lower, %.3g noise variances): the exchanged values k = %s are reported; the resolved profiles pointed the other way", pair, best.SSR/alt.SSR, -units, strings.Join(ks, ", ")))
+				best.Warnings = append(best.Warnings, fmt.Sprintf("with the rate constants of %s exchanged the data fit better (residual sum of squares %.4g times lower, %.3g noise variances): the exchanged values (%s) are reported; the resolved profiles pointed the other way", pair, best.SSR/alt.SSR, -units, strings.Join(ks, ", ")))
 			case math.Abs(units) <= 4 || math.Abs(alt.SSR-best.SSR) <= 1e-6*best.SSR:
-				best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell which of %s is faster: k = %s fits as well (residual sum of squares ratio %.6f, %.2g noise variances; slow–fast ambiguity, free spectra); the reported values are the ones the resolved profiles point to", pair, strings.Join(ks, ", "), alt.SSR/best.SSR, units))
+				best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell which of %s is faster: %s fits as well (residual sum of squares ratio %.6f, %.2g noise variances; slow–fast ambiguity, free spectra); the reported values are the ones the resolved profiles point to", pair, strings.Join(ks, ", "), alt.SSR/best.SSR, units))
 			default:
 				r.Notes = append(r.Notes, fmt.Sprintf("kinetics: with the rate constants of %s exchanged (k = %s) the data fit worse (residual sum of squares %.4g times higher, %.3g noise variances), so the data choose the reported order", pair, strings.Join(ks, ", "), alt.SSR/best.SSR, units))
 			}
@@ -939,7 +939,8 @@ func printKinetics(r *Result, w io.Writer) {
 	if kn.Extents {
 		what = "extents"
 	}
-	fmt.Fprintf(w, "kinetics       %s (%s), t0 = %g s, map %s\n", kn.Scheme.Text, what, kn.T0, strings.Join(m, ", "))
+	tu := shownTimeUnit(r.Settings)
+	fmt.Fprintf(w, "kinetics       %s (%s), t0 = %s %s, map %s\n", kn.Scheme.Text, what, tu.T(kn.T0), tu.Unit, strings.Join(m, ", "))
 	for _, f := range kn.Fits {
 		mark := " "
 		if f == rep {
@@ -950,9 +951,11 @@ func printKinetics(r *Result, w io.Writer) {
 			if j > 0 {
 				fmt.Fprintf(w, "\n    %-13s", "")
 			}
-			fmt.Fprintf(w, " %-10s k = %.4g ± %.2g %s", st.Text, f.Fit.K[j], f.Fit.KStdErr[j], kn.rateUnit(st.Order))
+			k, unit := tu.Rate(f.Fit.K[j], kn.rateUnit(st.Order))
+			se, _ := tu.Rate(f.Fit.KStdErr[j], "")
+			fmt.Fprintf(w, " %-10s k = %.4g ± %.2g %s", st.Text, k, se, unit)
 			if hl := f.Fit.HalfLife[j]; hl > 0 {
-				fmt.Fprintf(w, ", t½ = %.4g s", hl)
+				fmt.Fprintf(w, ", t½ = %.4g %s", hl/tu.Div, tu.Unit)
 			}
 		}
 		fmt.Fprintln(w)
@@ -960,7 +963,7 @@ func printKinetics(r *Result, w io.Writer) {
 	if kn.Amplitudes {
 		for _, st := range kn.Scheme.Steps {
 			if st.Order > 1 {
-				fmt.Fprintf(w, "  (%s)\n", kn.Unit)
+				fmt.Fprintf(w, "  (%s)\n", shownTimeUnit(r.Settings).Text(kn.Unit))
 				break
 			}
 		}

@@ -119,7 +119,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	}
 	r := &Result{Settings: s, Started: time.Now(), BaselineOrder: -1}
 	kind := spectra.Kind(s.Kind)
-	folder := spectra.FolderOptions{TimesFile: s.Path(s.Times), TimesFromName: s.TimesFromName, TimeUnit: s.TimeUnit, Resample: s.Resample}
+	folder := spectra.FolderOptions{TimesFile: s.Path(s.Times), TimesFromName: s.TimesFromName, TimeUnit: inputTimeUnit(s), Resample: s.Resample}
 	if s.Times != "" {
 		folder.Exclude = append(folder.Exclude, s.Path(s.Times))
 	}

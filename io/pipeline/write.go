@@ -30,6 +30,7 @@ func round(v float64) float64 {
 // MakeSummary fills summary.json's content from a result.
 func MakeSummary(r *Result) *Summary {
 	n, m := r.D.Dims()
+	rtn, _ := residualToNoise(r) // the terminal's headline, weighted or not
 	s := &Summary{
 		Tool:                     "bandsolve " + Version,
 		RankEstimate:             r.Rank.Estimate,
@@ -41,7 +42,7 @@ func MakeSummary(r *Result) *Summary {
 		NoiseLackOfFitPercent:    round(r.NoiseLOF),
 		NoiseSigma:               round(r.NoiseSigma),
 		NoiseSource:              r.NoiseSource,
-		ResidualToNoise:          round(r.ResidualToNoise),
+		ResidualToNoise:          round(rtn),
 		NoiseWeights:             "off",
 		NoiseEdge:                round(r.Rank.NoiseEdge),
 		RankReason:               r.Rank.Reason,
@@ -243,8 +244,9 @@ func PrintTable(r *Result, w io.Writer) {
 	}
 	fmt.Fprintf(w, "components     %d\n", r.Components)
 	fmt.Fprintf(w, "baseline       %s\n", baselineName(r.BaselineOrder))
+	tu := shownTimeUnit(r.Settings)
 	for _, o := range setAsideSummary(r) {
-		fmt.Fprintf(w, "set aside      t = %g s (%s): %s\n", o.Time, o.Source, o.Reason)
+		fmt.Fprintf(w, "set aside      t = %s %s (%s): %s\n", tu.T(o.Time), tu.Unit, o.Source, o.Reason)
 	}
 	if r.ALS != nil {
 		conv := "converged"
@@ -264,7 +266,7 @@ func PrintTable(r *Result, w io.Writer) {
 					mx, at = v, i
 				}
 			}
-			fmt.Fprintf(w, "  %-12s profile max %.4g at t = %g s\n", name, mx, r.Times[at])
+			fmt.Fprintf(w, "  %-12s profile max %.4g at t = %s %s\n", name, mx, tu.T(r.Times[at]), tu.Unit)
 		}
 	}
 	printConstraints(r, w)

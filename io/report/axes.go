@@ -1,6 +1,7 @@
 package report
 
 import (
+	"fmt"
 	"image/color"
 	"math"
 	"sort"
@@ -97,20 +98,71 @@ func fmtTime(t float64, unit string) string {
 	return trimFloat(t/div, 4) + " " + unit
 }
 
-// timeUnit is the unit to show times of a run spanning span seconds in:
-// the one its as-run record says the data came in (min or h), else one
-// chosen from the span (the record's default s says nothing either way).
-func (f *Folder) timeUnit(span float64) string {
-	given := ""
-	if f.AsRun != nil {
-		for _, line := range strings.Split(f.AsRun.Body, "\n") {
-			if w := strings.Fields(line); len(w) >= 2 && w[0] == "time-unit" && (w[1] == "min" || w[1] == "h") {
-				given = w[1]
+// chosenTimeUnit is the --time-unit the run's as-run record names when one
+// was chosen (s, min or h); "" for the default auto, or with no record.
+func (f *Folder) chosenTimeUnit() string {
+	if f.AsRun == nil {
+		return ""
+	}
+	for _, line := range strings.Split(f.AsRun.Body, "\n") {
+		if w := strings.Fields(line); len(w) >= 2 && w[0] == "time-unit" {
+			switch w[1] {
+			case "s", "min", "h":
+				return w[1]
 			}
 		}
 	}
-	unit, _ := timeScale(span, given)
+	return ""
+}
+
+// timeUnit is the unit the figures show times of a run spanning span
+// seconds in: the chosen --time-unit, else one picked from the span.
+func (f *Folder) timeUnit(span float64) string {
+	unit, _ := timeScale(span, f.chosenTimeUnit())
 	return unit
+}
+
+// tableTimeUnit is the unit of times, half-lives and rate constants in
+// the report's text and tables: the chosen --time-unit, else seconds, as
+// on the terminal and in the files.
+func (f *Folder) tableTimeUnit() (unit string, div float64) {
+	if u := f.chosenTimeUnit(); u != "" {
+		return timeScale(0, u)
+	}
+	return "s", 1
+}
+
+// timeUnitNote says in which unit the report shows times and why, so a
+// reader can tell the default from a choice.
+func (f *Folder) timeUnitNote(span float64) string {
+	if u := f.chosenTimeUnit(); u != "" {
+		return fmt.Sprintf("%s everywhere (--time-unit %s); the files hold seconds", u, u)
+	}
+	if u := f.timeUnit(span); u != "s" {
+		return fmt.Sprintf("s in text and tables; figures in %s, picked for a run of %s (--time-unit auto, the default; s, min or h chooses one); the files hold seconds", u, fmtTime(span, u))
+	}
+	return "s (--time-unit auto, the default; s, min or h chooses one); the files hold seconds"
+}
+
+// timeSpan is the run's length in seconds, from profiles.csv (0 without).
+func (f *Folder) timeSpan() float64 {
+	if f.Profiles == nil || f.Profiles.Index("time") < 0 {
+		return 0
+	}
+	lo, hi := span(f.Profiles.Col(f.Profiles.Index("time")))
+	return hi - lo
+}
+
+// rateIn converts a rate constant per second (and its unit text) into per
+// unit: s^-1 becomes min^-1 or h^-1; a concentration part is kept.
+func rateIn(k float64, unit, to string, div float64) (float64, string) {
+	if unit == "" {
+		unit = "s^-1"
+	}
+	if div == 1 || !strings.HasSuffix(unit, "s^-1") {
+		return k, unit
+	}
+	return k * div, strings.TrimSuffix(unit, "s^-1") + to + "^-1"
 }
 
 // timeAxis sets a's ticks and label for times in seconds spanning lo…hi.
@@ -144,4 +196,14 @@ func gapRuns(x []float64) [][2]int {
 		k++
 	}
 	return append(runs, [2]int{start, k})
+}
+
+// perTime rewrites the per-second units of a note ("per second", "s^-1")
+// into unit.
+func perTime(note, unit string) string {
+	long := map[string]string{"min": "minute", "h": "hour"}[unit]
+	if long == "" {
+		return note
+	}
+	return strings.NewReplacer("per second", "per "+long, " s^-1", " "+unit+"^-1").Replace(note)
 }

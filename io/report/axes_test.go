@@ -2,10 +2,13 @@ package report
 
 import (
 	"math"
+	"strings"
 	"testing"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
+
+	"github.com/bandsolve/bandsolve/io/output"
 )
 
 // An axis cut by --exclude 1400:1500 on a 2 cm⁻¹ grid: the one step of
@@ -77,9 +80,13 @@ func TestTimeUnit(t *testing.T) {
 	if u := f.timeUnit(30); u != "min" {
 		t.Errorf("as-run time-unit min shown as %s", u)
 	}
-	f.AsRun.Body = "time-unit        s\n"
+	f.AsRun.Body = "time-unit        auto\n"
 	if u := f.timeUnit(3 * 3600); u != "h" {
 		t.Errorf("a 3 h run with the default unit shown in %s, want h", u)
+	}
+	f.AsRun.Body = "time-unit        s\n"
+	if u := f.timeUnit(3 * 3600); u != "s" {
+		t.Errorf("a 3 h run with time-unit s chosen shown in %s, want s", u)
 	}
 	if got := fmtTime(5400, "h"); got != "1.5 h" {
 		t.Errorf("5400 s in hours: %q", got)
@@ -105,5 +112,46 @@ func TestGapRuns(t *testing.T) {
 	}
 	if got := gapRuns([]float64{1, 2, 3}); len(got) != 1 || got[0] != [2]int{0, 3} {
 		t.Errorf("unbroken axis: %v", got)
+	}
+}
+
+// Text and tables show rate constants and half-lives in the chosen unit
+// (k per min = 60 × k per s, t½ in min = t½ in s / 60: 1 min = 60 s, SI
+// Brochure 9th ed. Table 8), in seconds by default; the "times shown in"
+// note tells the default (auto) from a chosen unit.
+func TestTimeUnitOfTables(t *testing.T) {
+	f := &Folder{Summary: &Summary{Kinetics: &Kinetics{RateConstants: []output.RateConstant{
+		{Step: "A -> B", K: 0.004, StdErr: 1e-5, HalfLife: math.Ln2 / 0.004},
+		{Step: "2 A -> B", K: 0.5, StdErr: 0.01, Unit: "(M)^-1 s^-1"},
+	}}}}
+	for _, c := range []struct {
+		record, unit string
+		div          float64
+		note         string
+	}{
+		{"", "s", 1, "--time-unit auto, the default"},
+		{"time-unit auto\n", "s", 1, "--time-unit auto, the default"},
+		{"time-unit s\n", "s", 1, "s everywhere (--time-unit s)"},
+		{"time-unit min\n", "min", 60, "min everywhere (--time-unit min)"},
+		{"time-unit h\n", "h", 3600, "h everywhere (--time-unit h)"},
+	} {
+		f.AsRun = &Text{Body: c.record}
+		rs := f.rates()
+		if rs[0].K != 0.004*c.div || rs[0].StdErr != 1e-5*c.div || math.Abs(rs[0].HalfLife-math.Ln2/0.004/c.div) > 1e-9 {
+			t.Errorf("%q: first order %+v", c.record, rs[0])
+		}
+		if want := c.unit + "^-1"; rs[0].Unit != want || rs[0].TimeUnit != c.unit {
+			t.Errorf("%q: unit %q, time unit %q, want %q", c.record, rs[0].Unit, rs[0].TimeUnit, want)
+		}
+		if want := "(M)^-1 " + c.unit + "^-1"; rs[1].Unit != want || rs[1].K != 0.5*c.div {
+			t.Errorf("%q: second order k = %g %s, want %g %s", c.record, rs[1].K, rs[1].Unit, 0.5*c.div, want)
+		}
+		if n := f.timeUnitNote(3000); !strings.Contains(n, c.note) {
+			t.Errorf("%q: note %q lacks %q", c.record, n, c.note)
+		}
+	}
+	f.AsRun = nil
+	if n := f.timeUnitNote(3000); !strings.Contains(n, "figures in min, picked for a run of 50 min") {
+		t.Errorf("a 50 min run by default: %q", n)
 	}
 }

@@ -10,7 +10,10 @@ import (
 	"path/filepath"
 	"regexp"
 	"sort"
+	"strconv"
 	"strings"
+
+	"github.com/bandsolve/bandsolve/io/output"
 )
 
 // Rebuild reads the output folder dir and writes dir/report.html from its
@@ -109,6 +112,9 @@ func buildFrom(f *Folder, figs []Figure, problems []string) ([]byte, error) {
 		}
 	}
 	v.FigureCount = len(figs)
+	v.TimeUnit, _ = f.tableTimeUnit()
+	v.TimeNote = f.timeUnitNote(f.timeSpan())
+	v.Rates = f.rates()
 	v.Extra = extraKeys(f.SummaryRaw)
 	if f.AsRun != nil {
 		v.AsRun, v.AsRunDropped = dropTimes(f.AsRun.Body)
@@ -137,6 +143,9 @@ type view struct {
 	ManifestRows    [][2]string
 	ManifestText    string
 	ManifestDropped int
+	TimeUnit        string     // of text and tables
+	TimeNote        string     // which unit, and whether chosen
+	Rates           []rateView // rate constants in TimeUnit
 }
 
 type section struct {
@@ -413,10 +422,10 @@ func findings(f *Folder) (find, checks []string) {
 	}
 	if k := s.Kinetics; k != nil && len(k.RateConstants) > 0 {
 		var ks []string
-		for _, rc := range k.RateConstants {
-			t := fmt.Sprintf("%s: k = %s ± %s s⁻¹", rc.Step, trimFloat(rc.K, 4), trimFloat(rc.StdErr, 2))
+		for _, rc := range f.rates() {
+			t := fmt.Sprintf("%s: k = %s ± %s %s", rc.Step, trimFloat(rc.K, 4), trimFloat(rc.StdErr, 2), unitText(rc.Unit))
 			if rc.HalfLife > 0 {
-				t += fmt.Sprintf(" (half-life %s s)", trimFloat(rc.HalfLife, 3))
+				t += fmt.Sprintf(" (half-life %s %s)", trimFloat(rc.HalfLife, 3), rc.TimeUnit)
 			}
 			ks = append(ks, t)
 		}
@@ -538,6 +547,37 @@ func HighAbsorbanceWarning(axis []float64, axisName string, rows [][]float64) st
 	return fmt.Sprintf("absorbance exceeds 2 (under 1 %% of the light transmitted) at %s %s: such regions are often saturated; consider --exclude LO:HI for them", strings.Join(ranges, ", "), unit)
 }
 
+// unitText writes a unit with superscript exponents (s^-1 as s⁻¹).
+func unitText(u string) string {
+	if u == "" {
+		u = "s^-1"
+	}
+	return strings.NewReplacer("^-1", "⁻¹", "^-2", "⁻²", "^2", "²").Replace(u)
+}
+
+// rateView is a rate constant as shown: per TimeUnit, half-life in it.
+type rateView struct {
+	output.RateConstant
+	TimeUnit string
+}
+
+// rates are the summary's rate constants in the report's time unit.
+func (f *Folder) rates() []rateView {
+	if f.Summary == nil || f.Summary.Kinetics == nil {
+		return nil
+	}
+	unit, div := f.tableTimeUnit()
+	var out []rateView
+	for _, rc := range f.Summary.Kinetics.RateConstants {
+		v := rateView{RateConstant: rc, TimeUnit: unit}
+		v.K, v.Unit = rateIn(rc.K, rc.Unit, unit, div)
+		v.StdErr, _ = rateIn(rc.StdErr, rc.Unit, unit, div)
+		v.HalfLife = rc.HalfLife / div
+		out = append(out, v)
+	}
+	return out
+}
+
 func fmtNum(v float64) string { return trimFloat(v, 4) }
 
 func yesNo(b bool) string {
@@ -557,13 +597,16 @@ var page = template.Must(template.New("report").Funcs(template.FuncMap{
 		}
 		return "differs"
 	},
-	"deref": func(p *int) int { return *p },
-	"sub":   func(a, b float64) float64 { return a - b },
-	"unit": func(u string) string {
-		if u == "" || u == "s^-1" {
-			return "s⁻¹"
+	"deref":   func(p *int) int { return *p },
+	"sub":     func(a, b float64) float64 { return a - b },
+	"unit":    unitText,
+	"perTime": perTime,
+	"tm": func(t float64, unit string) string {
+		_, div := timeScale(0, unit)
+		if div == 1 {
+			return strconv.FormatFloat(t, 'g', -1, 64)
 		}
-		return strings.NewReplacer("^-1", "⁻¹", "^-2", "⁻²", "^2", "²").Replace(u)
+		return trimFloat(t/div, 4)
 	},
 	"figAnchor": func(f figureView) string { return "sec-" + f.ID },
 }).Parse(pageTemplate))

@@ -58,7 +58,7 @@ nav a { color: #0072b2; margin-right: .8rem; }
 {{end}}</ul></div>
 {{end}}
 {{if .S.OutlierSpectra}}<h3>Spectra set aside</h3>
-<ul>{{range .S.OutlierSpectra}}<li>t = {{.Time}} s{{if .Source}} ({{.Source}}){{end}}: {{.Reason}}</li>{{end}}</ul>{{end}}
+<ul>{{range .S.OutlierSpectra}}<li>t = {{tm .Time $.TimeUnit}} {{$.TimeUnit}}{{if .Source}} ({{.Source}}){{end}}: {{.Reason}}</li>{{end}}</ul>{{end}}
 {{if .S.Advice}}<h3>Advice</h3>
 <ul>{{range .S.Advice}}<li>{{.}}</li>{{end}}</ul>{{end}}
 {{if .S.Notes}}<h3>Notes</h3>
@@ -77,6 +77,7 @@ nav a { color: #0072b2; margin-right: .8rem; }
 <tr><th>noise σ</th><td class="n">{{num .S.NoiseSigma}} absorbance <span class="small">({{.S.NoiseSource}}; noise edge {{num .S.NoiseEdge}})</span></td></tr>
 <tr><th>constraints</th><td>{{if .S.Constraints}}{{range $i, $c := .S.Constraints}}{{if $i}}; {{end}}{{$c}}{{end}}{{else if eq .S.Mode "species"}}non-negative spectra and concentrations; closure {{.S.Closure}}{{else}}non-negative extents, zero at the reference and before the reaction; signed reaction spectra{{end}}</td></tr>
 <tr><th>initial estimate</th><td>{{.S.InitialEstimate}}</td></tr>
+<tr><th>times shown in</th><td>{{.TimeNote}}</td></tr>
 <tr><th>factor analysis</th><td>{{.S.SVDMethod}} SVD{{if .S.Compressed}}; iterations on the compressed matrix{{end}}</td></tr>
 </table>
 {{if .S.RankCriteria}}
@@ -95,10 +96,10 @@ nav a { color: #0072b2; margin-right: .8rem; }
 {{if .S.Kinetics}}{{with .S.Kinetics}}
 <h3>Kinetics: {{.Model}}</h3>
 <table>
-<tr><th>step</th><th>k</th><th>standard error</th><th>half-life / s</th></tr>
-{{range .RateConstants}}<tr><td>{{.Step}}</td><td class="n">{{num .K}} {{unit .Unit}}</td><td class="n">{{num .StdErr}} {{unit .Unit}}</td><td class="n">{{if gt .HalfLife 0.0}}{{num .HalfLife}}{{else}}–{{end}}</td></tr>
+<tr><th>step</th><th>k</th><th>standard error</th><th>half-life / {{$.TimeUnit}}</th></tr>
+{{range $.Rates}}<tr><td>{{.Step}}</td><td class="n">{{num .K}} {{unit .Unit}}</td><td class="n">{{num .StdErr}} {{unit .Unit}}</td><td class="n">{{if gt .HalfLife 0.0}}{{num .HalfLife}}{{else}}–{{end}}</td></tr>
 {{end}}</table>
-<p class="small">{{if .Method}}Rate constants from the fit to the {{.Method}}. {{end}}{{if .MapSource}}Species ↔ components: {{range $i, $m := .Map}}{{if $i}}, {{end}}{{$m.Name}} = component {{$m.Component}}{{end}} ({{.MapSource}}). {{end}}{{.ConcentrationUnit}}</p>{{end}}{{end}}
+<p class="small">{{if .Method}}Rate constants from the fit to the {{.Method}}. {{end}}{{if .MapSource}}Species ↔ components: {{range $i, $m := .Map}}{{if $i}}, {{end}}{{$m.Name}} = component {{$m.Component}}{{end}} ({{.MapSource}}). {{end}}{{perTime .ConcentrationUnit $.TimeUnit}}</p>{{end}}{{end}}
 {{if .S.Uniqueness}}
 <h3>Uniqueness ranges (share of the signal ‖c sᵀ‖ / ‖C Sᵀ‖)</h3>
 <table>
