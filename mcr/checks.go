@@ -2,6 +2,7 @@ package mcr
 
 import (
 	"fmt"
+	"math"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -141,14 +142,36 @@ func anyMask(m [][]bool) []int {
 // reference's own noise is such a pattern (A = −log₁₀(I/I_blank) carries the
 // blank's noise into every row alike): a freer refit can fold it into the
 // spectra, which lowers the residual without any constraint being wrong.
-func TimeConstantPattern(d, c, s *mat.Dense) (ss float64, white bool) {
+//
+// With row × column noise weights w_ij = a_i·b_j (row, col non-nil) the
+// pattern is the weighted mean ē_j = Σ_i a_i E_ij / Σ_i a_i, the
+// constant-in-time term that least-squares in the weighted metric removes,
+// and the sum is Σ_i a_i · Σ_j b_j ē_j² (in units of the noise variance
+// when the weights are 1/σ²); whiteness is judged on √b_j ē_j, the pattern
+// in units of its noise.
+func TimeConstantPattern(d, c, s *mat.Dense, row, col []float64) (ss float64, white bool) {
 	n, m := d.Dims()
 	var fit mat.Dense
 	fit.Mul(c, s.T())
 	mean := make([]float64, m)
+	wsum := 0.0
 	for i := 0; i < n; i++ {
+		a := 1.0
+		if row != nil {
+			a = row[i]
+		}
+		wsum += a
 		for j := 0; j < m; j++ {
-			mean[j] += (d.At(i, j) - fit.At(i, j)) / float64(n)
+			mean[j] += a * (d.At(i, j) - fit.At(i, j))
+		}
+	}
+	if !(wsum > 0) {
+		return 0, false
+	}
+	for j := range mean {
+		mean[j] /= wsum
+		if col != nil {
+			mean[j] *= math.Sqrt(col[j])
 		}
 	}
 	// Whiteness about ē's own mean: where the spectra are pinned at zero
@@ -169,5 +192,5 @@ func TimeConstantPattern(d, c, s *mat.Dense) (ss float64, white bool) {
 	if !(cs > 0) {
 		return 0, false
 	}
-	return float64(n) * sq, lag/cs < 0.5
+	return wsum * sq, lag/cs < 0.5
 }

@@ -61,3 +61,30 @@ func TestClosureCheckSeesDilution(t *testing.T) {
 		}
 	}
 }
+
+// A residual that is one fixed white pattern p in every row: the term a
+// constant-in-time spectrum removes is, by the least-squares solution of
+// min Σ a_i b_j (e_ij − q_j)² (q_j = weighted row mean, here p_j itself),
+// Σ_i a_i · Σ_j b_j p_j²; without weights n·‖p‖². Computed by hand.
+func TestTimeConstantPatternWeighted(t *testing.T) {
+	n, m := 4, 6
+	p := []float64{1, -1, 2, -2, 0.5, -0.5} // alternating: lag-1 correlation < 0
+	d := mat.NewDense(n, m, nil)
+	for i := 0; i < n; i++ {
+		d.SetRow(i, p)
+	}
+	c := mat.NewDense(n, 1, nil) // zero fit: the residual is d itself
+	s := mat.NewDense(m, 1, nil)
+	row := []float64{1, 2, 3, 4}
+	col := []float64{1, 1, 2, 2, 4, 4}
+	ss, white := TimeConstantPattern(d, c, s, row, col)
+	want := 10.0 * (1 + 1 + 8 + 8 + 1 + 1) // Σa = 10, Σ b p² = 20
+	if math.Abs(ss-want) > 1e-12*want || !white {
+		t.Errorf("weighted: ss %g white %v, want %g true", ss, white, want)
+	}
+	ss, white = TimeConstantPattern(d, c, s, nil, nil)
+	want = 4.0 * (1 + 1 + 4 + 4 + 0.25 + 0.25)
+	if math.Abs(ss-want) > 1e-12*want || !white {
+		t.Errorf("unweighted: ss %g white %v, want %g true", ss, white, want)
+	}
+}

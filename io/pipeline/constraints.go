@@ -435,11 +435,18 @@ func afterResolve(r *Result, data mcr.Data, opt mcr.Options, log io.Writer) erro
 	return nil
 }
 
-// judgeChecks turns the refits into warnings. A constraint that holds
-// costs about σ² per value it pins (common practice for nested least
-// squares: the residual grows by its degrees of freedom times σ²); the
-// warning asks for four times that (and 5 % of the lack of fit), so noise
-// alone rarely triggers it.
+// judgeChecks turns the refits into warnings. It is a χ² test of the rise
+// of the residual sum of squares in units of the noise variance: weighted
+// residuals with the noise weights (σ² = 1 by construction), or the
+// unweighted ones over the rank step's σ². A constraint that holds costs at
+// most one noise variance per value it can pin (common practice for nested
+// least squares: the rise is χ² with that many degrees of freedom p); the
+// warning asks for a rise above 4p, which χ²_p exceeds with probability
+// below 5 % for every p ≥ 1 (χ²₁'s 95 % point is 3.84, and the ratio of the
+// point to p falls as p grows; standard tables), and for 5 % of the lack of
+// fit besides. p counts what the constraint can pin: one value per row for
+// closure, one per row or channel of each component it applies to (k·m for
+// non-negative spectra of k components), not one per row or channel.
 func judgeChecks(r *Result) {
 	n, m := r.D.Dims()
 	sigma2 := r.Rank.Sigma * r.Rank.Sigma
@@ -452,7 +459,11 @@ func judgeChecks(r *Result) {
 	// sets the reference's pattern aside in reactions mode).
 	pattern := 0.0
 	if r.ALS != nil {
-		if ss, white := mcr.TimeConstantPattern(r.D, r.ALS.C, r.ALS.S); white {
+		var row, col []float64
+		if weighted(r) {
+			row, col = r.Weights.Row, r.Weights.Col
+		}
+		if ss, white := mcr.TimeConstantPattern(r.D, r.ALS.C, r.ALS.S, row, col); white {
 			pattern = ss
 		}
 	}
