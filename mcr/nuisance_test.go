@@ -109,3 +109,26 @@ func TestFindOutliersSharpLines(t *testing.T) {
 		t.Errorf("clean data: outliers %+v, want none", out)
 	}
 }
+
+// SplitSpread: a spectrum of q equal values among zeros has ‖s‖₁/‖s‖₂ = q/√q = √q
+// whatever its height (definition of the norms); lifting it by an offset raises the
+// measure, a scale does not.
+func TestSplitSpread(t *testing.T) {
+	s := mat.NewDense(16, 2, nil)
+	for i := 0; i < 4; i++ {
+		s.Set(i, 0, 3)
+	}
+	for i := 0; i < 9; i++ {
+		s.Set(i, 1, -0.5)
+	}
+	if got, want := SplitSpread(s), 2.0+3.0; math.Abs(got-want) > 1e-12 {
+		t.Errorf("spread %g, want √4 + √9 = %g", got, want)
+	}
+	lifted := mat.DenseCopyOf(s)
+	for i := 0; i < 16; i++ {
+		lifted.Set(i, 0, lifted.At(i, 0)+0.3)
+	}
+	if SplitSpread(lifted) <= SplitSpread(s) {
+		t.Errorf("an offset did not widen the spread: %g ≤ %g", SplitSpread(lifted), SplitSpread(s))
+	}
+}

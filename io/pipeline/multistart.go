@@ -2,6 +2,7 @@ package pipeline
 
 import (
 	"fmt"
+	"math"
 
 	"github.com/bandsolve/bandsolve/mcr"
 	"gonum.org/v1/gonum/mat"
@@ -36,13 +37,41 @@ func startALS(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options) (*mcr.Re
 		return best, nil
 	}
 	alt, err := mcr.Resolve(data, ce, opt)
-	if err == nil && alt.ResidualSS < (1-switchMargin)*best.ResidualSS {
+	switch {
+	case err == nil && alt.ResidualSS < (1-switchMargin)*best.ResidualSS && !sameFitWiderSplit(r, opt, alt, best):
 		r.Init = "evolving factor analysis windows (a better final fit than from " + r.Init + ")"
 		best = alt
-	} else {
+	case err == nil && sameFitWiderSplit(r, opt, best, alt):
+		r.Init = "evolving factor analysis windows (the same fit as from " + r.Init + ", with the species spectra nearer zero between bands and the rest in the baseline)"
+		best = alt
+	default:
 		r.Init += " (a better final fit than from evolving factor analysis windows)"
 	}
 	return moreStarts(r, data, best, opt), nil
+}
+
+// sameFitWiderSplit reports whether, with a baseline fitted, a and b fit the data
+// equally well (their residual sums of squares differ by less than one noise variance:
+// the weighted sums are in units of the noise, the unweighted ones are divided by the
+// rank step's σ²) while a's species spectra hold more of a baseline than b's
+// (mcr.SplitSpread larger by more than rounding). Such fits differ only in the split
+// between species and baseline, which the fit cannot tell; zero absorbance between
+// bands can.
+func sameFitWiderSplit(r *Result, opt mcr.Options, a, b *mcr.Result) bool {
+	if opt.Baseline == nil || a == nil || b == nil {
+		return false
+	}
+	unit := 1.0
+	if !weighted(r) {
+		if r.Rank == nil || !(r.Rank.Sigma > 0) {
+			return false
+		}
+		unit = r.Rank.Sigma * r.Rank.Sigma
+	}
+	if math.Abs(a.ResidualSS-b.ResidualSS) >= unit {
+		return false
+	}
+	return mcr.SplitSpread(a.S) > (1+1e-6)*mcr.SplitSpread(b.S)
 }
 
 // moreStarts runs mcr.SearchStarts (seeded random rotations of the SVD
