@@ -107,11 +107,12 @@ func TestIterationsFileAgreesWithSummary(t *testing.T) {
 	}
 }
 
-// A --pre that counts a spectrum of the reaction inflates σ: the demo has 3
-// spectra before the reagent (demo.Truth.Pre) and its noise is constant in
-// detector counts; with --pre 4 the fourth, already changing, spectrum
-// makes σ about 65 times the residual (a fit cannot be that much better
-// than its noise: definition of σ as the noise's standard deviation).
+// A --pre that counts a spectrum of the reaction: the demo has 3 spectra
+// before the reagent (demo.Truth.Pre) and its noise is constant in detector
+// counts; with --pre 4 the fourth, already changing, spectrum differs from
+// the third by about 79 times the noise the noise model gives, where repeats
+// of one state differ by about 1 (Σ z² over m points is χ²_m, whose mean
+// over m is 1: definition), so --pre 4 must be warned about and --pre 3 not.
 func TestWrongPreIsWarned(t *testing.T) {
 	truth, dir := writeDemo(t)
 	for _, pre := range []int{truth.Pre, truth.Pre + 1} {

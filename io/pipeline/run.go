@@ -10,10 +10,12 @@ import (
 	"strings"
 	"time"
 
+	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/spectra"
 	"github.com/bandsolve/bandsolve/mcr"
 	"github.com/bandsolve/bandsolve/svd"
 	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat/distuv"
 )
 
 // UsageError is a problem with the settings themselves (exit code 2).
@@ -614,9 +616,7 @@ func resolve(r *Result, log io.Writer) error {
 	if r.NoiseLOF > 0 && r.LackOfFit > 3*r.NoiseLOF && r.LackOfFit > 0.5 {
 		r.Warnings = append(r.Warnings, fmt.Sprintf("lack of fit %.3g %% is well above the %.3g %% noise alone would give: a component may be missing, or a constraint (closure?) does not hold for this data", r.LackOfFit, r.NoiseLOF))
 	}
-	if q, ok := residualToNoise(r); ok && q < 0.5 && r.Settings.Pre > 0 && strings.HasPrefix(r.Rank.SigmaSource, "pre-reaction") {
-		r.Warnings = append(r.Warnings, fmt.Sprintf("the fit's residual is %.3g times smaller than the noise σ = %.3g that the %d spectra before the reaction imply (--pre %d): some of them probably changed already, which inflates σ; give --pre the number of spectra taken before the reaction started", 1/q, r.Rank.Sigma, r.Settings.Pre, r.Settings.Pre))
-	}
+	r.Warnings = append(r.Warnings, preWarnings(r)...)
 	return afterResolve(r, data, opt, log)
 }
 
@@ -789,4 +789,43 @@ func orderComponents(r *Result, res *mcr.Result) []int {
 	}
 	res.C, res.S = c, sp
 	return idx
+}
+
+// preWarnings checks --pre: the spectra it counts as taken before the reaction must be
+// repeats of one state. With the noise model, each step between them is measured in
+// units of its noise (spectra.StepToNoise: ρ ≈ 1 for repeats) and a step whose ρ² is
+// above both twice the noise variance (room for the noise model's own error, a few
+// repeats pooled over neighbouring channels) and the 99.9 % point of χ²_m/m is a change.
+// Without a noise model, the old figure: a fit whose residual is far below the σ the
+// pre-reaction rows imply says they changed (a fit cannot be much better than its noise).
+func preWarnings(r *Result) []string {
+	s := r.Settings
+	if s.Pre < 2 {
+		return nil
+	}
+	if r.Weights == nil {
+		if q, ok := residualToNoise(r); ok && q < 0.5 && strings.HasPrefix(r.Rank.SigmaSource, "pre-reaction") {
+			return []string{fmt.Sprintf("the fit's residual is %.3g times smaller than the noise σ = %.3g that the %d spectra before the reaction imply (--pre %d): some of them probably changed already, which inflates σ; give --pre the number of spectra taken before the reaction started", 1/q, r.Rank.Sigma, s.Pre, s.Pre)}
+		}
+		return nil
+	}
+	_, m := r.D.Dims()
+	limit := math.Max(2, distuv.ChiSquared{K: float64(m)}.Quantile(0.999)/float64(m))
+	var out []string
+	for _, e := range r.Experiments {
+		steps := spectra.StepToNoise(r.D, e.FirstRow, e.FirstRow+min(s.Pre, e.Rows), r.Weights, r.Blind)
+		for a, rho := range steps {
+			if rho*rho <= limit {
+				continue
+			}
+			i := e.FirstRow + a + 1
+			where := ""
+			if len(r.Experiments) > 1 {
+				where = " of " + e.Source
+			}
+			out = append(out, fmt.Sprintf("spectrum %d%s (t = %s s), counted as before the reaction by --pre %d, differs from the one before it by %.3g times the noise (repeats of one state differ by about 1): it probably changed already; give --pre the number of spectra taken before the reaction started", a+2, where, output.Float(r.Times[i]), s.Pre, rho))
+			break
+		}
+	}
+	return out
 }

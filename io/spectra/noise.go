@@ -75,6 +75,41 @@ func (w *Weights) ChannelSigma() []float64 {
 	return out
 }
 
+// StepToNoise measures how far each spectrum of rows lo+1 … hi−1 of d moved from the
+// one before it, in units of the noise the weights give: ρ_i = √(Σ_j z²_ij / m_i) with
+// z_ij = (d_ij − d_{i−1,j}) / √((1/a_i + 1/a_{i−1})/b_j) over the m_i points observed in
+// both (the variance of a difference of independent points is the sum of theirs). For
+// repeats of one state Σ_j z²_ij is χ² with m_i degrees of freedom and ρ_i ≈ 1; a
+// spectrum that already changed gives ρ_i well above 1. Out[i−lo−1] is ρ_i (0 when no
+// point is observed in both). A difference cancels any pattern common to both rows (a
+// reference's noise), so ρ_i can only be lower than the per-point weights imply.
+func StepToNoise(d *mat.Dense, lo, hi int, w *Weights, blind *Blind) []float64 {
+	if w == nil || hi-lo < 2 {
+		return nil
+	}
+	out := make([]float64, hi-lo-1)
+	for i := lo + 1; i < hi; i++ {
+		if !(w.Row[i] > 0 && w.Row[i-1] > 0) {
+			continue // a spectrum set aside has no noise scale
+		}
+		a, b := d.RawRowView(i-1), d.RawRowView(i)
+		va := 1/w.Row[i] + 1/w.Row[i-1]
+		ss, cnt := 0.0, 0
+		for j, bj := range w.Col {
+			if blind.Has(i, j) || blind.Has(i-1, j) || !(bj > 0) {
+				continue
+			}
+			e := b[j] - a[j]
+			ss += e * e * bj / va
+			cnt++
+		}
+		if cnt > 0 {
+			out[i-lo-1] = math.Sqrt(ss / float64(cnt))
+		}
+	}
+	return out
+}
+
 // Blind lists the points with no usable light.
 type Blind struct {
 	Rows  [][]int // Rows[i]: the blind channels of spectrum i, ascending (nil: none)

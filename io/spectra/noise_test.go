@@ -144,3 +144,41 @@ func TestBlindPoints(t *testing.T) {
 		t.Errorf("absorbance-like values as single beams: %v", err)
 	}
 }
+
+// StepToNoise on repeats with known noise σ_ij = 1/√(a_i b_j): each step's Σ z² is χ²
+// with m degrees of freedom, so ρ² = χ²_m/m lies within 1 ± 4√(2/m) (mean 1, standard
+// deviation √(2/m): definition of χ²); a spectrum lifted by δ everywhere moves by
+// ρ² ≈ 1 + δ²·mean(b)/(1/a_i + 1/a_{i−1}).
+func TestStepToNoise(t *testing.T) {
+	n, m := 5, 4000
+	rng := rand.New(rand.NewPCG(3, 11))
+	w := &Weights{Row: []float64{1, 2, 1, 4, 1}, Col: make([]float64, m)}
+	for j := range w.Col {
+		w.Col[j] = 0.5 + float64(j%7)
+	}
+	d := mat.NewDense(n, m, nil)
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			d.Set(i, j, 0.3+rng.NormFloat64()/math.Sqrt(w.Row[i]*w.Col[j]))
+		}
+	}
+	const delta = 0.2
+	for j := 0; j < m; j++ {
+		d.Set(4, j, d.At(4, j)+delta)
+	}
+	rho := StepToNoise(d, 0, n, w, nil)
+	tol := 4 * math.Sqrt(2/float64(m))
+	for i, r := range rho[:3] {
+		if math.Abs(r*r-1) > tol {
+			t.Errorf("step %d between repeats: ρ² = %.4f, want 1 ± %.3f", i+1, r*r, tol)
+		}
+	}
+	meanB := 0.0
+	for _, b := range w.Col {
+		meanB += b / float64(m)
+	}
+	want := 1 + delta*delta*meanB/(1/w.Row[4]+1/w.Row[3])
+	if got := rho[3] * rho[3]; math.Abs(got-want) > 0.05*want {
+		t.Errorf("lifted spectrum: ρ² = %.4f, want about %.4f", got, want)
+	}
+}
