@@ -131,6 +131,7 @@ func FeasibleBands(c, s *mat.Dense, opt BandOptions) (*BandsResult, error) {
 	if err := p.setup(); err != nil {
 		return nil, err
 	}
+	p.newWork()
 	if opt.ResidualSS > 0 {
 		p.allow = noiseAllowance(opt.ResidualSS, n, m, k, opt.Alpha)
 	}
@@ -184,6 +185,7 @@ type bandProblem struct {
 	wc, ws []float64 // 1/‖c_j‖², 1/‖s_j‖² at the given solution
 	norm   float64   // ‖C Sᵀ‖_F
 	allow  float64   // rise of the residual allowed (0: exact fit)
+	work   *bandWork
 }
 
 // noiseAllowance is RSS·p/(N−p)·F_{1−α}(p, N−p), the rise of the residual
@@ -354,40 +356,6 @@ func (p *bandProblem) contribution(t *mat.Dense, j int) float64 {
 	return math.Sqrt(colNormSq(a, j)*colNormSq(b, j)) / p.norm
 }
 
-// penalty returns Σ over constrained entries of the squared violation,
-// scaled per component, and its gradients with respect to A and B.
-func (p *bandProblem) penalty(a, b *mat.Dense, ga, gb *mat.Dense) float64 {
-	pen := 0.0
-	side := func(x *mat.Dense, nn []bool, zero [][]bool, w []float64, g *mat.Dense) {
-		r, k := x.Dims()
-		for j := 0; j < k; j++ {
-			var z []bool
-			if j < len(zero) {
-				z = zero[j]
-			}
-			for i := 0; i < r; i++ {
-				v := x.At(i, j)
-				viol := 0.0
-				switch {
-				case z != nil && z[i]:
-					viol = v
-				case nn[j] && v < 0:
-					viol = v
-				}
-				if viol != 0 {
-					pen += w[j] * viol * viol
-					if g != nil {
-						g.Set(i, j, g.At(i, j)+2*w[j]*viol)
-					}
-				}
-			}
-		}
-	}
-	side(a, p.nnC, p.opt.ZeroProfiles, p.wc, ga)
-	side(b, p.nnS, p.opt.ZeroSpectra, p.ws, gb)
-	return pen
-}
-
 // violation is the largest relative constraint violation of any component.
 func (p *bandProblem) violation(a, b *mat.Dense) float64 {
 	worst := 0.0
@@ -449,8 +417,7 @@ func (p *bandProblem) stages(j int, sign float64, theta0, mus []float64, budget 
 	bestF := p.contribution(p.rotation(theta), j)
 	for _, mu := range mus {
 		x, _, used := minimiseBFGS(func(th, g []float64) float64 {
-			v, _ := p.cost(j, sign, mu, th, g)
-			return v
+			return p.costWork(j, sign, mu, th, g)
 		}, theta, budget)
 		evals += used
 		theta = append(theta[:0], x...)
@@ -474,77 +441,6 @@ func (p *bandProblem) stages(j int, sign float64, theta0, mus []float64, budget 
 		}
 	}
 	return bestTheta, bestF, lastOK, evals
-}
-
-// cost is sign·log f_j + μ·penalty at θ, and its gradient into g when non-nil.
-func (p *bandProblem) cost(j int, sign, mu float64, theta, g []float64) (float64, bool) {
-	t := p.rotation(theta)
-	a, b, tinvT, ok := p.rotate(t)
-	if !ok {
-		// Outside the region where T is invertible: a high wall, flat so
-		// the line search steps back.
-		for i := range g {
-			g[i] = 0
-		}
-		return 1e6, false
-	}
-	k := p.k
-	var ga, gb *mat.Dense
-	if g != nil {
-		ga, gb = mat.NewDense(p.n, k, nil), mat.NewDense(p.m, k, nil)
-	}
-	var pen float64
-	if p.allow > 0 {
-		pen = p.residualPenalty(a, b, ga, gb)
-	} else {
-		pen = p.penalty(a, b, ga, gb)
-	}
-	na, nb := math.Sqrt(colNormSq(a, j)), math.Sqrt(colNormSq(b, j))
-	if na == 0 || nb == 0 {
-		for i := range g {
-			g[i] = 0
-		}
-		return 1e6, false
-	}
-	// log f rather than f: outside the feasible set f can grow like θ²
-	// and outrun a penalty of the same order, log f cannot; the extremes
-	// are the same.
-	v := sign*(math.Log(na)+math.Log(nb)-math.Log(p.norm)) + mu*pen
-	if g == nil {
-		return v, true
-	}
-	// ∂log f/∂a_j = a_j/‖a_j‖², ∂log f/∂b_j = b_j/‖b_j‖².
-	for i := 0; i < p.n; i++ {
-		ga.Set(i, j, mu*ga.At(i, j)+sign*a.At(i, j)/(na*na))
-	}
-	for i := 0; i < p.m; i++ {
-		gb.Set(i, j, mu*gb.At(i, j)+sign*b.At(i, j)/(nb*nb))
-	}
-	for jj := 0; jj < k; jj++ {
-		if jj == j {
-			continue
-		}
-		for i := 0; i < p.n; i++ {
-			ga.Set(i, jj, mu*ga.At(i, jj))
-		}
-		for i := 0; i < p.m; i++ {
-			gb.Set(i, jj, mu*gb.At(i, jj))
-		}
-	}
-	// dT = Cᵀ G_A − T⁻ᵀ G_Bᵀ B.
-	var gt, gbB, tmp mat.Dense
-	gt.Mul(p.c.T(), ga)
-	gbB.Mul(gb.T(), b)
-	tmp.Mul(tinvT, &gbB)
-	gt.Sub(&gt, &tmp)
-	for q, fr := range p.free {
-		s := 0.0
-		for col, d := range fr.dir {
-			s += gt.At(fr.row, col) * d
-		}
-		g[q] = s
-	}
-	return v, true
 }
 
 // component returns column j of C T and S T⁻ᵀ, scaled as FeasibleBands
@@ -650,20 +546,6 @@ func (p *bandProblem) constrainedPair(a, b *mat.Dense) (*mat.Dense, *mat.Dense) 
 	ap, _ := p.clip(a, p.nnC, p.opt.ZeroProfiles)
 	bp, _ := p.clip(b, p.nnS, p.opt.ZeroSpectra)
 	return ap, bp
-}
-
-// residualPenalty is max(0, rise/allowance − 1)², the search's penalty
-// within the noise, with its gradients (into ga, gb when non-nil).
-func (p *bandProblem) residualPenalty(a, b, ga, gb *mat.Dense) float64 {
-	h := p.rise(a, b, ga, gb)/p.allow - 1
-	if h <= 0 {
-		h = 0
-	}
-	if ga != nil {
-		ga.Scale(2*h/p.allow, ga)
-		gb.Scale(2*h/p.allow, gb)
-	}
-	return h * h
 }
 
 // amplitude returns f_j of the constrained pair at rotation t with

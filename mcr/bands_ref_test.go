@@ -1,0 +1,205 @@
+package mcr
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// The range search's objective written out directly on gonum matrices, as
+// FeasibleBands' documentation states it (the form the search used before
+// costWork): the reference the fast evaluation is checked against.
+
+// cost is the reference: sign·log f_j + μ·penalty at θ, and its gradient into g when non-nil.
+func (p *bandProblem) cost(j int, sign, mu float64, theta, g []float64) (float64, bool) {
+	t := p.rotation(theta)
+	a, b, tinvT, ok := p.rotate(t)
+	if !ok {
+		// Outside the region where T is invertible: a high wall, flat so
+		// the line search steps back.
+		for i := range g {
+			g[i] = 0
+		}
+		return 1e6, false
+	}
+	k := p.k
+	var ga, gb *mat.Dense
+	if g != nil {
+		ga, gb = mat.NewDense(p.n, k, nil), mat.NewDense(p.m, k, nil)
+	}
+	var pen float64
+	if p.allow > 0 {
+		pen = p.residualPenalty(a, b, ga, gb)
+	} else {
+		pen = p.penalty(a, b, ga, gb)
+	}
+	na, nb := math.Sqrt(colNormSq(a, j)), math.Sqrt(colNormSq(b, j))
+	if na == 0 || nb == 0 {
+		for i := range g {
+			g[i] = 0
+		}
+		return 1e6, false
+	}
+	// log f rather than f: outside the feasible set f can grow like θ²
+	// and outrun a penalty of the same order, log f cannot; the extremes
+	// are the same.
+	v := sign*(math.Log(na)+math.Log(nb)-math.Log(p.norm)) + mu*pen
+	if g == nil {
+		return v, true
+	}
+	// ∂log f/∂a_j = a_j/‖a_j‖², ∂log f/∂b_j = b_j/‖b_j‖².
+	for i := 0; i < p.n; i++ {
+		ga.Set(i, j, mu*ga.At(i, j)+sign*a.At(i, j)/(na*na))
+	}
+	for i := 0; i < p.m; i++ {
+		gb.Set(i, j, mu*gb.At(i, j)+sign*b.At(i, j)/(nb*nb))
+	}
+	for jj := 0; jj < k; jj++ {
+		if jj == j {
+			continue
+		}
+		for i := 0; i < p.n; i++ {
+			ga.Set(i, jj, mu*ga.At(i, jj))
+		}
+		for i := 0; i < p.m; i++ {
+			gb.Set(i, jj, mu*gb.At(i, jj))
+		}
+	}
+	// dT = Cᵀ G_A − T⁻ᵀ G_Bᵀ B.
+	var gt, gbB, tmp mat.Dense
+	gt.Mul(p.c.T(), ga)
+	gbB.Mul(gb.T(), b)
+	tmp.Mul(tinvT, &gbB)
+	gt.Sub(&gt, &tmp)
+	for q, fr := range p.free {
+		s := 0.0
+		for col, d := range fr.dir {
+			s += gt.At(fr.row, col) * d
+		}
+		g[q] = s
+	}
+	return v, true
+}
+
+// penalty returns Σ over constrained entries of the squared violation,
+// scaled per component, and its gradients with respect to A and B.
+func (p *bandProblem) penalty(a, b *mat.Dense, ga, gb *mat.Dense) float64 {
+	pen := 0.0
+	side := func(x *mat.Dense, nn []bool, zero [][]bool, w []float64, g *mat.Dense) {
+		r, k := x.Dims()
+		for j := 0; j < k; j++ {
+			var z []bool
+			if j < len(zero) {
+				z = zero[j]
+			}
+			for i := 0; i < r; i++ {
+				v := x.At(i, j)
+				viol := 0.0
+				switch {
+				case z != nil && z[i]:
+					viol = v
+				case nn[j] && v < 0:
+					viol = v
+				}
+				if viol != 0 {
+					pen += w[j] * viol * viol
+					if g != nil {
+						g.Set(i, j, g.At(i, j)+2*w[j]*viol)
+					}
+				}
+			}
+		}
+	}
+	side(a, p.nnC, p.opt.ZeroProfiles, p.wc, ga)
+	side(b, p.nnS, p.opt.ZeroSpectra, p.ws, gb)
+	return pen
+}
+
+// residualPenalty is max(0, rise/allowance − 1)², the search's penalty
+// within the noise, with its gradients (into ga, gb when non-nil).
+func (p *bandProblem) residualPenalty(a, b, ga, gb *mat.Dense) float64 {
+	h := p.rise(a, b, ga, gb)/p.allow - 1
+	if h <= 0 {
+		h = 0
+	}
+	if ga != nil {
+		ga.Scale(2*h/p.allow, ga)
+		gb.Scale(2*h/p.allow, gb)
+	}
+	return h * h
+}
+
+// The fast evaluation (costWork: Gram matrices, margins that skip entries
+// provably inside the constraints, no allocation) must give the objective
+// and gradient of the direct formula to rounding, with zero windows,
+// closure and a known spectrum, exactly and within the noise; and its
+// gradient must match central differences (the definition of the
+// derivative) where the objective is smooth.
+func TestCostWorkMatchesDirectFormula(t *testing.T) {
+	const n, m, k = 50, 70, 4
+	c, s := bandsBenchPair(n, m, k)
+	zp := make([][]bool, k)
+	zp[2] = make([]bool, n)
+	for i := 0; i < 6; i++ {
+		zp[2][i] = true
+	}
+	zs := make([][]bool, k)
+	zs[0] = make([]bool, m)
+	for i := 60; i < m; i++ {
+		zs[0][i] = true
+	}
+	rng := rand.New(rand.NewPCG(1, 2))
+	for _, o := range []BandOptions{
+		{Mode: Species},
+		{Mode: Species, ZeroProfiles: zp, ZeroSpectra: zs},
+		{Mode: Species, Closure: true, Known: []bool{false, true, false, false}},
+		{Mode: Reactions, NonNegProfiles: []bool{true, false, true, true}},
+	} {
+		for _, allow := range []float64{0, 1e-3} {
+			o.Tolerance = 1e-3
+			p := &bandProblem{c: c, s: s, n: n, m: m, k: k, opt: o}
+			if err := p.setup(); err != nil {
+				t.Fatal(err)
+			}
+			p.newWork()
+			p.allow = allow
+			for trial := 0; trial < 8; trial++ {
+				th := make([]float64, len(p.free))
+				for i := range th {
+					// Small and large moves: the margins hold some
+					// entries back and the reference moves.
+					th[i] = 0.02 * float64(1+trial%4*10) * rng.NormFloat64()
+				}
+				want, got := make([]float64, len(th)), make([]float64, len(th))
+				j := trial % k
+				v1, _ := p.cost(j, 1, 1e4, th, want)
+				v2 := p.costWork(j, 1, 1e4, th, got)
+				if math.Abs(v1-v2) > 1e-9*math.Max(1, math.Abs(v1)) {
+					t.Errorf("%+v allowance %g: objective %.15g, direct %.15g", o.Known, allow, v2, v1)
+				}
+				for i := range want {
+					if math.Abs(want[i]-got[i]) > 1e-7*(1+math.Abs(want[i])) {
+						t.Errorf("%+v allowance %g: gradient %d %.12g, direct %.12g", o.Known, allow, i, got[i], want[i])
+					}
+				}
+				if allow > 0 || trial > 0 {
+					continue
+				}
+				// Central differences at the identity's neighbourhood.
+				for i := range th {
+					h := 1e-6
+					th[i] += h
+					fp := p.costWork(j, 1, 1e4, th, nil)
+					th[i] -= 2 * h
+					fm := p.costWork(j, 1, 1e4, th, nil)
+					th[i] += h
+					if fd := (fp - fm) / (2 * h); math.Abs(fd-got[i]) > 1e-4*(1+math.Abs(fd)) {
+						t.Errorf("gradient %d: %.8g, central difference %.8g", i, got[i], fd)
+					}
+				}
+			}
+		}
+	}
+}
