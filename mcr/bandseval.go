@@ -1,8 +1,6 @@
 package mcr
 
-import (
-	"math"
-)
+import "math"
 
 // bandWork holds the row-major copies of the profiles and spectra and the
 // buffers one evaluation of the range search writes into, so that the tens
@@ -13,12 +11,10 @@ type bandWork struct {
 	c, s          []float64 // n × k, m × k
 	t, inv, tinvT []float64 // k × k
 	lu            []float64 // k × k scratch of the inversion
-	a, b, ga, gb  []float64 // n × k, m × k
 	gt, gbB       []float64 // k × k
 	gc, gs        []float64 // CᵀC, SᵀS (k × k)
-	x, y, dx, dy  []float64 // n × 2k, m × 2k (the residual's rise)
-	gx, gy        []float64 // 2k × 2k
-	maskA, maskB  []bool    // entries kept when the constraints are imposed
+	gx, gy        []float64 // 2k × 2k Gram matrices of the rise
+	rows          []float64 // scratch rows (riseSparse)
 	zeroC, zeroS  []bool    // zero windows, n × k and m × k (nil: none)
 	sideC, sideS  *marginSide
 	piv           []int
@@ -29,7 +25,7 @@ func (p *bandProblem) newWork() {
 	w := &bandWork{
 		c: rawCopy(p.c), s: rawCopy(p.s),
 		t: make([]float64, k*k), inv: make([]float64, k*k), tinvT: make([]float64, k*k), lu: make([]float64, k*k),
-		a: make([]float64, n*k), b: make([]float64, m*k), ga: make([]float64, n*k), gb: make([]float64, m*k),
+		gx: make([]float64, 4*k*k), gy: make([]float64, 4*k*k), rows: make([]float64, 6*k),
 		gt: make([]float64, k*k), gbB: make([]float64, k*k),
 		piv: make([]int, k),
 	}
@@ -74,10 +70,10 @@ func rawMask(zero [][]bool, rows, k int) []bool {
 	return out
 }
 
-// rotateWork forms T from θ, its inverse transpose, A = C T and B = S T⁻ᵀ in
-// the work buffers; false when T is too close to singular (1-norm condition
+// rotateWork forms T from θ, its inverse and inverse transpose in the work
+// buffers; false when T is too close to singular (1-norm condition
 // number above 10¹⁰) for its inverse to mean anything.
-func (p *bandProblem) rotateWork(theta []float64, dense bool) bool {
+func (p *bandProblem) rotateWork(theta []float64) bool {
 	w, k := p.work, p.k
 	for i := range w.t {
 		w.t[i] = 0
@@ -100,30 +96,7 @@ func (p *bandProblem) rotateWork(theta []float64, dense bool) bool {
 			w.tinvT[r*k+c] = w.inv[c*k+r]
 		}
 	}
-	if dense {
-		mulSmall(w.a, w.c, w.t, k)
-		mulSmall(w.b, w.s, w.tinvT, k)
-	}
 	return true
-}
-
-// mulSmall sets out = x·t for row-major x (rows × k) and t (k × k).
-func mulSmall(out, x, t []float64, k int) {
-	for i := 0; i+k <= len(x); i += k {
-		xr, or := x[i:i+k], out[i:i+k]
-		for c := range or {
-			or[c] = 0
-		}
-		for l, v := range xr {
-			if v == 0 {
-				continue
-			}
-			tr := t[l*k : l*k+k]
-			for c, tv := range tr {
-				or[c] += v * tv
-			}
-		}
-	}
 }
 
 // invertSmall inverts the k × k matrix t into inv by Gaussian elimination
@@ -191,67 +164,15 @@ func norm1(a []float64, k int) float64 {
 	return out
 }
 
-// costWork is cost (see there) on the work buffers: the same function and
-// gradient, without allocating.
+// costWork is cost (see the reference in bands_ref_test.go) on the work
+// buffers: the same function and gradient, without allocating and without
+// forming C T and S T⁻ᵀ whole (see costGram).
 func (p *bandProblem) costWork(j int, sign, mu float64, theta, g []float64) float64 {
-	w, k := p.work, p.k
-	wall := func() float64 {
-		for i := range g {
-			g[i] = 0
-		}
+	if !p.rotateWork(theta) {
+		clear(g)
 		return 1e6
 	}
-	if !p.rotateWork(theta, p.allow > 0) {
-		return wall()
-	}
-	grad := g != nil
-	if grad {
-		clear(w.ga)
-		clear(w.gb)
-	}
-	if p.allow == 0 {
-		return p.costExact(j, sign, mu, theta, g)
-	}
-	pen := p.riseWork(grad)/p.allow - 1
-	if pen <= 0 {
-		pen = 0
-	}
-	if grad {
-		f := 2 * pen / p.allow
-		for i := range w.ga {
-			w.ga[i] *= f
-		}
-		for i := range w.gb {
-			w.gb[i] *= f
-		}
-	}
-	pen *= pen
-	na2, nb2 := colSq(w.a, k, j), colSq(w.b, k, j)
-	if na2 == 0 || nb2 == 0 {
-		return wall()
-	}
-	v := sign*(0.5*math.Log(na2)+0.5*math.Log(nb2)-math.Log(p.norm)) + mu*pen
-	if !grad {
-		return v
-	}
-	// ∂log f/∂a_j = a_j/‖a_j‖², ∂log f/∂b_j = b_j/‖b_j‖².
-	for i := range w.ga {
-		w.ga[i] *= mu
-	}
-	for i := range w.gb {
-		w.gb[i] *= mu
-	}
-	for i := j; i < len(w.a); i += k {
-		w.ga[i] += sign * w.a[i] / na2
-	}
-	for i := j; i < len(w.b); i += k {
-		w.gb[i] += sign * w.b[i] / nb2
-	}
-	// dT = Cᵀ G_A − T⁻ᵀ (G_Bᵀ B).
-	gramCross(w.gt, w.c, w.ga, k)
-	gramCross(w.gbB, w.gb, w.b, k)
-	p.projectGradient(g)
-	return v
+	return p.costGram(j, sign, mu, g)
 }
 
 // projectGradient finishes dT = w.gt − T⁻ᵀ·w.gbB and writes its component
@@ -276,13 +197,14 @@ func (p *bandProblem) projectGradient(g []float64) {
 	}
 }
 
-// costExact is the exact-fit cost after rotateWork. Only the violated
-// entries of A and B enter the penalty, so its gradient is a sparse sum;
-// the objective's own terms need only the Gram matrices: ‖a_j‖² =
-// (Tᵀ CᵀC T)_jj, Cᵀa_j = CᵀC t_j, ‖b_j‖² = (BᵀB)_jj and b_jᵀB is row j
-// of BᵀB = T⁻¹ SᵀS T⁻ᵀ. The dense work per evaluation is then the two
-// products forming A and B (for the signs), O((n + m)k²) once.
-func (p *bandProblem) costExact(j int, sign, mu float64, theta, g []float64) float64 {
+// costGram is the cost after rotateWork. The objective's own terms need
+// only the Gram matrices: ‖a_j‖² = (Tᵀ CᵀC T)_jj, Cᵀa_j = CᵀC t_j,
+// ‖b_j‖² = (BᵀB)_jj and b_jᵀB is row j of BᵀB = T⁻¹ SᵀS T⁻ᵀ. Only the
+// entries of A = C T and B = S T⁻ᵀ that break a constraint enter the
+// penalty (marginSide finds them without forming A and B), so the
+// violation penalty and its gradient are sparse sums, and so is the rise
+// of the residual within the noise (riseSparse).
+func (p *bandProblem) costGram(j int, sign, mu float64, g []float64) float64 {
 	w, k := p.work, p.k
 	// Cᵀ a_j = CᵀC t_j and ‖a_j‖² = t_jᵀ CᵀC t_j.
 	ctA := make([]float64, k) // small: k values
@@ -322,8 +244,13 @@ func (p *bandProblem) costExact(j int, sign, mu float64, theta, g []float64) flo
 		clear(w.gt)
 		clear(w.gbB)
 	}
-	pen := w.sideC.violations(w.t, k, p.wc, mu, w.gt, grad, nil)
-	pen += w.sideS.violations(w.tinvT, k, p.ws, mu, w.gbB, grad, w.tinvT)
+	var pen float64
+	if p.allow > 0 {
+		pen = p.riseSparse(mu, grad)
+	} else {
+		pen = w.sideC.violations(w.t, k, p.wc, mu, w.gt, grad, nil)
+		pen += w.sideS.violations(w.tinvT, k, p.ws, mu, w.gbB, grad, w.tinvT)
+	}
 	v := sign*(0.5*math.Log(na2)+0.5*math.Log(nb2)-math.Log(p.norm)) + mu*pen
 	if !grad {
 		return v
@@ -353,85 +280,6 @@ func gramCross(out, x, y []float64, k int) {
 	}
 }
 
-func colSq(x []float64, k, j int) float64 {
-	s := 0.0
-	for i := j; i < len(x); i += k {
-		s += x[i] * x[i]
-	}
-	return s
-}
-
-// riseWork is rise (see there) on the work buffers, with the gradients
-// added into ga and gb when grad.
-func (p *bandProblem) riseWork(grad bool) float64 {
-	w, k, n, m := p.work, p.k, p.n, p.m
-	k2 := 2 * k
-	if w.x == nil {
-		w.x, w.y = make([]float64, n*k2), make([]float64, m*k2)
-		w.dx, w.dy = make([]float64, n*k2), make([]float64, m*k2)
-		w.gx, w.gy = make([]float64, k2*k2), make([]float64, k2*k2)
-		w.maskA, w.maskB = make([]bool, n*k), make([]bool, m*k)
-	}
-	// X = [A₋ A₊], Y = [B B₋] with A₊, B₊ the pair with the constraints
-	// imposed and A₋ = A − A₊, B₋ = B − B₊.
-	for i := 0; i < n; i++ {
-		for j := 0; j < k; j++ {
-			v := w.a[i*k+j]
-			keep := !(w.zeroC != nil && w.zeroC[i*k+j]) && !(p.nnC[j] && v < 0)
-			w.maskA[i*k+j] = keep
-			if keep {
-				w.x[i*k2+j], w.x[i*k2+k+j] = 0, v
-			} else {
-				w.x[i*k2+j], w.x[i*k2+k+j] = v, 0
-			}
-		}
-	}
-	for i := 0; i < m; i++ {
-		for j := 0; j < k; j++ {
-			v := w.b[i*k+j]
-			keep := !(w.zeroS != nil && w.zeroS[i*k+j]) && !(p.nnS[j] && v < 0)
-			w.maskB[i*k+j] = keep
-			w.y[i*k2+j] = v
-			if keep {
-				w.y[i*k2+k+j] = 0
-			} else {
-				w.y[i*k2+k+j] = v
-			}
-		}
-	}
-	gramCross(w.gx, w.x, w.x, k2)
-	gramCross(w.gy, w.y, w.y, k2)
-	d := 0.0
-	for i := range w.gx {
-		d += w.gx[i] * w.gy[i]
-	}
-	if !grad {
-		return d
-	}
-	// ∂‖X Yᵀ‖²/∂X = 2 X (YᵀY), ∂/∂Y = 2 Y (XᵀX); then through the masks.
-	mulSmall(w.dx, w.x, w.gy, k2)
-	mulSmall(w.dy, w.y, w.gx, k2)
-	for i := 0; i < n; i++ {
-		for j := 0; j < k; j++ {
-			if w.maskA[i*k+j] {
-				w.ga[i*k+j] += 2 * w.dx[i*k2+k+j]
-			} else {
-				w.ga[i*k+j] += 2 * w.dx[i*k2+j]
-			}
-		}
-	}
-	for i := 0; i < m; i++ {
-		for j := 0; j < k; j++ {
-			v := w.dy[i*k2+j]
-			if !w.maskB[i*k+j] {
-				v += w.dy[i*k2+k+j]
-			}
-			w.gb[i*k+j] += 2 * v
-		}
-	}
-	return d
-}
-
 // marginSide finds the entries of X·V (X = C and V = T for the profiles,
 // X = S and V = T⁻ᵀ for the spectra) that break a constraint without
 // forming the whole product. At a reference V₀ each entry's margin
@@ -441,7 +289,9 @@ func (p *bandProblem) riseWork(grad bool) float64 {
 // (a comparison per entry instead of a k-term product). Exact, not an
 // approximation: the entries left out provably keep the constraint. The
 // reference moves to V when more than a quarter of the entries had to be
-// formed beyond those violated at the reference.
+// formed beyond those violated at the reference. (Keeping each column
+// sorted by the ratio and bisecting was tried: the line search's far trial
+// points make the re-sorting cost more than the scan.)
 type marginSide struct {
 	x     []float64 // rows × k
 	k     int
@@ -454,6 +304,7 @@ type marginSide struct {
 	row   []float64 // scratch: one row of X·V
 	delta []float64
 	based bool
+	list  []clipped
 }
 
 func newMarginSide(x []float64, k int, nn, zero []bool) *marginSide {
@@ -473,7 +324,6 @@ func (ms *marginSide) rebase(v []float64) {
 	copy(ms.ref, v)
 	ms.atRef = 0
 	for i, nrm := range ms.norm {
-		xr := ms.x[i*k : i*k+k]
 		for j := 0; j < k; j++ {
 			e := i*k + j
 			switch {
@@ -483,11 +333,7 @@ func (ms *marginSide) rebase(v []float64) {
 				ms.ratio[e] = math.Inf(1)
 				continue
 			default:
-				val := 0.0
-				for l, xv := range xr {
-					val += xv * v[l*k+j]
-				}
-				ms.ratio[e] = val / nrm
+				ms.ratio[e] = ms.entry(i, j, v) / nrm
 			}
 			if ms.ratio[e] <= 0 {
 				ms.atRef++
@@ -497,12 +343,16 @@ func (ms *marginSide) rebase(v []float64) {
 	ms.based = true
 }
 
-// violations returns Σ_j w_j Σ_i viol_ij² over the entries of X·V breaking
-// non-negativity or a zero window and, with grad, accumulates μ times the
-// gradient's product: for the profiles (full nil) out += Xᵀ G
-// (out[r][j] += x_ir·g_ij); for the spectra out += Gᵀ B with B = X·full
-// (out[j][c] += g_ij·b_ic, the whole row of B formed on demand).
-func (ms *marginSide) violations(v []float64, k int, wt []float64, mu float64, out []float64, grad bool, full []float64) float64 {
+// clipped is one entry of X·V that breaks a constraint.
+type clipped struct {
+	i, j int
+	val  float64
+}
+
+// collect returns the entries of X·V that break non-negativity or lie in a
+// zero window, in row-major order, reusing out's storage.
+func (ms *marginSide) collect(v []float64, out []clipped) []clipped {
+	k := ms.k
 	if !ms.based {
 		ms.rebase(v)
 	}
@@ -514,29 +364,47 @@ func (ms *marginSide) violations(v []float64, k int, wt []float64, mu float64, o
 		}
 		ms.delta[j] = math.Sqrt(d)
 	}
-	pen, formed := 0.0, 0
+	out = out[:0]
+	formed := 0
 	for i := range ms.norm {
-		xr := ms.x[i*k : i*k+k]
 		for j, r := range ms.ratio[i*k : i*k+k] {
 			if r > ms.delta[j] {
 				continue
 			}
 			formed++
-			val := 0.0
-			for l, xv := range xr {
-				val += xv * v[l*k+j]
-			}
-			if !math.IsInf(r, -1) && !(val < 0) {
-				continue
-			}
-			pen += wt[j] * val * val
-			if grad {
-				ms.addGradient(xr, j, mu*2*wt[j]*val, k, out, full)
+			if val := ms.entry(i, j, v); math.IsInf(r, -1) || val < 0 {
+				out = append(out, clipped{i, j, val})
 			}
 		}
 	}
 	if formed > ms.atRef+len(ms.ratio)/4 {
 		ms.rebase(v)
+	}
+	return out
+}
+
+func (ms *marginSide) entry(i, j int, v []float64) float64 {
+	k := ms.k
+	val := 0.0
+	for l, xv := range ms.x[i*k : i*k+k] {
+		val += xv * v[l*k+j]
+	}
+	return val
+}
+
+// violations returns Σ_j w_j Σ_i viol_ij² over the entries of X·V breaking
+// non-negativity or a zero window and, with grad, accumulates μ times the
+// gradient's product: for the profiles (full nil) out += Xᵀ G
+// (out[r][j] += x_ir·g_ij); for the spectra out += Gᵀ B with B = X·full
+// (out[j][c] += g_ij·b_ic, the whole row of B formed on demand).
+func (ms *marginSide) violations(v []float64, k int, wt []float64, mu float64, out []float64, grad bool, full []float64) float64 {
+	ms.list = ms.collect(v, ms.list)
+	pen := 0.0
+	for _, e := range ms.list {
+		pen += wt[e.j] * e.val * e.val
+		if grad {
+			ms.addGradient(ms.x[e.i*k:e.i*k+k], e.j, mu*2*wt[e.j]*e.val, k, out, full)
+		}
 	}
 	return pen
 }
@@ -560,4 +428,200 @@ func (ms *marginSide) addGradient(xr []float64, j int, gv float64, k int, out, f
 	for c, bv := range ms.row {
 		out[j*k+c] += gv * bv
 	}
+}
+
+// riseSparse is μ·max(0, rise/allowance − 1)² without μ (the caller
+// multiplies), with the rise ‖A Bᵀ − A₊B₊ᵀ‖² = ‖X Yᵀ‖², X = [A₋ A₊],
+// Y = [B B₋] (see rise), formed from the Gram matrices and the clipped
+// entries only: with A₋ and B₋ sparse,
+//
+//	XᵀX = [A₋ᵀA₋, A₋ᵀA − A₋ᵀA₋; ·, AᵀA − A₋ᵀA − AᵀA₋ + A₋ᵀA₋],
+//	YᵀY = [BᵀB, (B₋ᵀB)ᵀ; B₋ᵀB, B₋ᵀB₋],
+//
+// AᵀA = Tᵀ CᵀC T, BᵀB = T⁻¹ SᵀS T⁻ᵀ, and rise = Σ (XᵀX)∘(YᵀY). The
+// gradient 2 X YᵀY (through the masks) enters Cᵀ G_A as
+// CᵀA₋ (YᵀY)₁₂ + (CᵀC T − CᵀA₋)(YᵀY)₂₂ plus a correction at each clipped
+// entry, and G_Bᵀ B likewise; μ times it is added into w.gt and w.gbB.
+func (p *bandProblem) riseSparse(mu float64, grad bool) float64 {
+	w, k := p.work, p.k
+	k2 := 2 * k
+	w.sideC.list = w.sideC.collect(w.t, w.sideC.list)
+	w.sideS.list = w.sideS.collect(w.tinvT, w.sideS.list)
+	la, lb := w.sideC.list, w.sideS.list
+	gx, gy := w.gx, w.gy
+	clear(gx)
+	clear(gy)
+	// Blocks of X'X: [0:k,0:k] A₋ᵀA₋, [0:k,k:2k] A₋ᵀA (then − A₋ᵀA₋),
+	// [k:2k,k:2k] AᵀA − A₋ᵀA − AᵀA₋ + A₋ᵀA₋; Y'Y likewise.
+	ctam := make([]float64, k*k) // CᵀA₋
+	full, minus := w.rows[:k], w.rows[k:k2]
+	eachRow(la, k, w.c, w.t, full, minus, func(i int) {
+		cr := w.c[i*k : i*k+k]
+		for p := 0; p < k; p++ {
+			if minus[p] == 0 {
+				continue
+			}
+			for q := 0; q < k; q++ {
+				gx[p*k2+q] += minus[p] * minus[q]
+				gx[p*k2+k+q] += minus[p] * full[q]
+			}
+			for r := 0; r < k; r++ {
+				ctam[r*k+p] += cr[r] * minus[p]
+			}
+		}
+	})
+	eachRow(lb, k, w.s, w.tinvT, full, minus, func(int) {
+		for p := 0; p < k; p++ {
+			if minus[p] == 0 {
+				continue
+			}
+			for q := 0; q < k; q++ {
+				gy[(k+p)*k2+k+q] += minus[p] * minus[q]
+				gy[(k+p)*k2+q] += minus[p] * full[q]
+			}
+		}
+	})
+	ata, btb := congruence(w.gc, w.t, k), congruence(w.gs, w.tinvT, k)
+	for p := 0; p < k; p++ {
+		for q := 0; q < k; q++ {
+			amam, amA, aAm := gx[p*k2+q], gx[p*k2+k+q], gx[q*k2+k+p]
+			gx[(k+p)*k2+k+q] = ata[p*k+q] - amA - aAm + amam
+			gy[p*k2+q] = btb[p*k+q]
+			gy[p*k2+k+q] = gy[(k+q)*k2+p] // BᵀB₋ = (B₋ᵀB)ᵀ
+		}
+	}
+	for p := 0; p < k; p++ {
+		for q := 0; q < k; q++ {
+			gx[p*k2+k+q] -= gx[p*k2+q] // A₋ᵀA₊ = A₋ᵀA − A₋ᵀA₋
+		}
+	}
+	for p := 0; p < k; p++ {
+		for q := 0; q < k; q++ {
+			gx[(k+q)*k2+p] = gx[p*k2+k+q]
+		}
+	}
+	rise := 0.0
+	for i := range gx {
+		rise += gx[i] * gy[i]
+	}
+	h := rise/p.allow - 1
+	if h <= 0 {
+		return 0
+	}
+	if !grad {
+		return h * h
+	}
+	f := mu * 2 * h / p.allow * 2 // μ·∂(h²)/∂rise times the 2 of ∂‖XYᵀ‖²
+	// Cᵀ G_A: CᵀA₋ GY₁₂ + (CᵀC T − CᵀA₋) GY₂₂.
+	ctap := congruenceLeft(w.gc, w.t, k) // CᵀC T
+	for r := 0; r < k; r++ {
+		for c := 0; c < k; c++ {
+			ctap[r*k+c] -= ctam[r*k+c]
+		}
+	}
+	for r := 0; r < k; r++ {
+		for c := 0; c < k; c++ {
+			s := 0.0
+			for l := 0; l < k; l++ {
+				s += ctam[r*k+l]*gy[l*k2+k+c] + ctap[r*k+l]*gy[(k+l)*k2+k+c]
+			}
+			w.gt[r*k+c] += f * s
+		}
+	}
+	// At a clipped entry (i, j) of A the gradient is (x_i YᵀY)_j, not
+	// (x_i YᵀY)_{k+j}: add the difference times c_i.
+	eachRow(la, k, w.c, w.t, full, minus, func(i int) {
+		cr := w.c[i*k : i*k+k]
+		for j := 0; j < k; j++ {
+			if minus[j] == 0 && !w.sideC.zeroAt(i, j) {
+				continue
+			}
+			d := 0.0
+			for l := 0; l < k; l++ {
+				d += minus[l]*(gy[l*k2+j]-gy[l*k2+k+j]) + (full[l]-minus[l])*(gy[(k+l)*k2+j]-gy[(k+l)*k2+k+j])
+			}
+			for r := 0; r < k; r++ {
+				w.gt[r*k+j] += f * cr[r] * d
+			}
+		}
+	})
+	// G_Bᵀ B: GX₁₁ᵀ BᵀB + GX₂₁ᵀ B₋ᵀB, plus at a clipped entry (i, j) of B
+	// (x_i-free part) (y_i XᵀX)_{k+j} times b_i.
+	for j := 0; j < k; j++ {
+		for c := 0; c < k; c++ {
+			s := 0.0
+			for l := 0; l < k; l++ {
+				s += gx[l*k2+j]*btb[l*k+c] + gx[(k+l)*k2+j]*gy[(k+l)*k2+c]
+			}
+			w.gbB[j*k+c] += f * s
+		}
+	}
+	eachRow(lb, k, w.s, w.tinvT, full, minus, func(i int) {
+		for j := 0; j < k; j++ {
+			if minus[j] == 0 && !w.sideS.zeroAt(i, j) {
+				continue
+			}
+			d := 0.0
+			for l := 0; l < k; l++ {
+				d += full[l]*gx[l*k2+k+j] + minus[l]*gx[(k+l)*k2+k+j]
+			}
+			for c := 0; c < k; c++ {
+				w.gbB[j*k+c] += f * d * full[c]
+			}
+		}
+	})
+	return h * h
+}
+
+// eachRow calls visit once per row holding clipped entries, with full set
+// to the row x_iᵀV and minus to its clipped entries (zero elsewhere).
+func eachRow(list []clipped, k int, x, v, full, minus []float64, visit func(i int)) {
+	for q := 0; q < len(list); {
+		i := list[q].i
+		xr := x[i*k : i*k+k]
+		clear(full)
+		for l, xv := range xr {
+			for c := 0; c < k; c++ {
+				full[c] += xv * v[l*k+c]
+			}
+		}
+		clear(minus)
+		for ; q < len(list) && list[q].i == i; q++ {
+			minus[list[q].j] = full[list[q].j]
+		}
+		visit(i)
+	}
+}
+
+func (ms *marginSide) zeroAt(i, j int) bool { return ms.zero != nil && ms.zero[i*ms.k+j] }
+
+// congruence returns Vᵀ G V (k × k).
+func congruence(g, v []float64, k int) []float64 {
+	gv := congruenceLeft(g, v, k)
+	out := make([]float64, k*k)
+	for r := 0; r < k; r++ {
+		for c := 0; c < k; c++ {
+			s := 0.0
+			for l := 0; l < k; l++ {
+				s += v[l*k+r] * gv[l*k+c]
+			}
+			out[r*k+c] = s
+		}
+	}
+	return out
+}
+
+// congruenceLeft returns G V (k × k).
+func congruenceLeft(g, v []float64, k int) []float64 {
+	out := make([]float64, k*k)
+	for r := 0; r < k; r++ {
+		for c := 0; c < k; c++ {
+			s := 0.0
+			for l := 0; l < k; l++ {
+				s += g[r*k+l] * v[l*k+c]
+			}
+			out[r*k+c] = s
+		}
+	}
+	return out
 }
