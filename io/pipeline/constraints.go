@@ -499,10 +499,10 @@ func judgeChecks(r *Result) {
 	}
 }
 
-// maxBandsComponents is the most components whose ranges are searched: 6
-// took 20 s for the exact-fit search alone on 2000 × 3001 (shared machine),
-// so the limit stays at 4 (7 s there).
-const maxBandsComponents = 4
+// maxBandsComponents is the most components whose ranges are searched by
+// default: 6 take about 5 s CPU with the noise allowance on 2000 × 3001
+// (mcr.BenchmarkFeasibleBands, docs/performance.md).
+const maxBandsComponents = 6
 
 // bandsCostLimit bounds (n + m)·k³, the work of one range search in units of
 // one evaluation's flops per unknown: about a few seconds at the limit.
