@@ -386,6 +386,9 @@ func hasCommand(name string) bool {
 	return false
 }
 
+// goIdentifier matches a CamelCase word (PreRows, MaxRank, ReferenceRow).
+var goIdentifier = regexp.MustCompile(`\b[A-Z][a-z]+[A-Z][a-z]+[A-Za-z]*\b`)
+
 var oneLineRe = regexp.MustCompile(`^bandsolve resolve: [^\n]+\n$`)
 
 func TestBadInputTable(t *testing.T) {
@@ -436,6 +439,11 @@ func TestBadInputTable(t *testing.T) {
 			}
 			if !regexp.MustCompile(`^bandsolve ` + cmd + `: [^\n]+\n$`).MatchString(r.stderr) {
 				t.Errorf("stderr is not exactly one 'bandsolve %s: …' line: %q", cmd, r.stderr)
+			}
+			// Messages name flags and files, never a Go identifier of the
+			// code (MaxRank, PreRows: issue 16).
+			if id := goIdentifier.FindString(strings.ReplaceAll(r.stderr, w, "W")); id != "" {
+				t.Errorf("message names %q, a name inside the program: %q", id, r.stderr)
 			}
 			for _, s := range c.want {
 				if !strings.Contains(r.stderr, s) {

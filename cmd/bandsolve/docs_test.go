@@ -44,7 +44,7 @@ func TestDocsExamplesRun(t *testing.T) {
 		}
 		name := filepath.Base(f)
 		doc := docBlocks(string(b))
-		dir := ""
+		dir, lastRun := "", ""
 		for _, blk := range doc.blocks {
 			if dir == "" || !blk.continues() {
 				dir = t.TempDir()
@@ -56,8 +56,10 @@ func TestDocsExamplesRun(t *testing.T) {
 			for _, ex := range blk.cmds {
 				checked += runExample(t, name, dir, ex)
 				ran[strings.Fields(ex.command)[1]]++
+				lastRun = dir
 			}
 		}
+		checked += checkQuotedSummary(t, name, string(b), lastRun)
 	}
 	if checked < 5 {
 		t.Errorf("%d printed lines checked, want docs/kinetics.md's 5 at least", checked)
@@ -99,6 +101,41 @@ func runExample(t *testing.T, doc, dir string, ex docExample) (checked int) {
 		}
 	}
 	return len(ex.prints)
+}
+
+// A fenced block of summary.json keys (its first line starts with a quoted
+// key, after prose naming summary.json) quotes numbers of the documented
+// run: each decimal number in it must be one a summary.json of that run's
+// folder holds, written the same way. It returns how many were checked.
+func checkQuotedSummary(t *testing.T, doc, md, dir string) int {
+	t.Helper()
+	lines := strings.Split(md, "\n")
+	number := regexp.MustCompile(`-?\d+\.\d+(e-?\d+)?`)
+	checked := 0
+	for i := 1; i < len(lines); i++ {
+		if !strings.HasPrefix(lines[i-1], "```") || !strings.HasPrefix(lines[i], `"`) || !strings.Contains(strings.Join(lines[max(0, i-4):i], " "), "summary.json") {
+			continue
+		}
+		sums, _ := filepath.Glob(filepath.Join(dir, "*", "summary.json"))
+		if dir == "" || len(sums) == 0 {
+			t.Errorf("%s: a summary.json example at line %d, but no documented run wrote one", doc, i+1)
+			return checked
+		}
+		var all strings.Builder
+		for _, f := range sums {
+			b, _ := os.ReadFile(f)
+			all.Write(b)
+		}
+		for k := i; k < len(lines) && !strings.HasPrefix(lines[k], "```"); k++ {
+			for _, n := range number.FindAllString(lines[k], -1) {
+				checked++
+				if !regexp.MustCompile(`[^\d.]` + regexp.QuoteMeta(n) + `[^\d.e]`).MatchString(all.String()) {
+					t.Errorf("%s:%d quotes %s, which no summary.json of the documented run holds", doc, k+1, n)
+				}
+			}
+		}
+	}
+	return checked
 }
 
 // exampleInputs writes the files the docs' examples read, all made from

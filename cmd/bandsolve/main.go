@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"slices"
 	"strings"
 
 	"github.com/bandsolve/bandsolve/io/pipeline"
@@ -35,6 +36,19 @@ func init() {
 		{"demo", "invented data, resolved", demoHelp, runDemo},
 	}
 	commands = append(commands, extraCommands...)
+	// Listed in the order a user meets them (as README.md and CONTRACT.md do).
+	order := []string{"resolve", "run", "verify", "demo", "report", "collect"}
+	slices.SortStableFunc(commands, func(a, b command) int {
+		return cmpIndex(order, a.name) - cmpIndex(order, b.name)
+	})
+}
+
+// cmpIndex is name's place in order, after all of them when absent.
+func cmpIndex(order []string, name string) int {
+	if i := slices.Index(order, name); i >= 0 {
+		return i
+	}
+	return len(order)
 }
 
 // extraCommands are registered by other files of this package.

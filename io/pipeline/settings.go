@@ -433,7 +433,7 @@ var options = func() []Option {
 	s26, g26 := choice(func(s *Settings) *string { return &s.Report }, "on", "off")
 	add(opt("report", "on|off", "write report.html", false, true, s26, g26))
 	s27, g27 := str(func(s *Settings) *string { return &s.Out })
-	add(opt("out", "DIR", "output folder (refused if it holds earlier results, unless --force)", false, false, s27, g27))
+	add(opt("out", "DIR", "output folder, made with any missing folders above it (refused if it holds earlier results, unless --force)", false, false, s27, g27))
 	s28, g28 := boolean(func(s *Settings) *bool { return &s.Force })
 	add(opt("force", "", "replace earlier results in the output folder (only a folder bandsolve made, never one holding an input)", false, false, s28, g28))
 	s29, g29 := boolean(func(s *Settings) *bool { return &s.Quiet })

@@ -273,13 +273,14 @@ func PrintTable(r *Result, w io.Writer) {
 	if r.Kinetics != nil {
 		printKinetics(r, w)
 	}
+	// Warnings first: they say when a figure above cannot be trusted.
+	for _, a := range r.Warnings {
+		fmt.Fprintf(w, "warning: %s\n", a)
+	}
 	for _, a := range r.Advice {
 		fmt.Fprintf(w, "advice: %s\n", a)
 	}
 	for _, a := range r.Notes {
 		fmt.Fprintf(w, "note: %s\n", a)
-	}
-	for _, a := range r.Warnings {
-		fmt.Fprintf(w, "warning: %s\n", a)
 	}
 }
