@@ -47,7 +47,13 @@ type Band struct {
 	// Tolerance (false means the search could not stay feasible and the band
 	// is only the part it reached).
 	Feasible bool
+	// Reason says why the range is not determined when Feasible is false.
+	Reason string
 }
+
+// SearchLeftConstraints is the Reason of a band whose search ended outside
+// the constraints or the noise allowance.
+const SearchLeftConstraints = "the search could not stay within the constraints and the noise allowance"
 
 // BandsResult holds the bands of every component.
 type BandsResult struct {
@@ -165,6 +171,9 @@ func FeasibleBands(c, s *mat.Dense, opt BandOptions) (*BandsResult, error) {
 			}
 		}
 		b.Feasible = feasible
+		if !feasible {
+			b.Reason = SearchLeftConstraints
+		}
 		out.Bands = append(out.Bands, b)
 	}
 	return out, nil

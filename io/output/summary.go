@@ -99,6 +99,8 @@ type BandJSON struct {
 	// NotDetermined: the search could not stay within the constraints and
 	// the noise allowance, so Min and Max are only the part it reached.
 	NotDetermined bool `json:"not_determined,omitempty"`
+	// Reason says why, when NotDetermined.
+	Reason string `json:"not_determined_reason,omitempty"`
 }
 
 // KineticsJSON is the kinetic fit.

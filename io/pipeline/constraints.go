@@ -545,6 +545,9 @@ func computeBands(r *Result, opt mcr.Options, log io.Writer) {
 		return
 	}
 	rep.Bands = b
+	if rankDeficientBands(r, b) {
+		return
+	}
 	for j, band := range b.Bands {
 		if !band.Feasible {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("uniqueness range of %s not determined: the search could not stay within the constraints and the noise allowance; the range shown (%.3g to %.3g) is only the part reached", r.Names[j], band.Min, band.Max))
@@ -582,7 +585,7 @@ func constraintSummary(r *Result, s *Summary) {
 	}
 	if rep.Bands != nil {
 		for j, b := range rep.Bands.Bands {
-			s.UniquenessRanges = append(s.UniquenessRanges, BandJSON{Component: r.Names[j], Min: round(b.Min), Max: round(b.Max), NotDetermined: !b.Feasible})
+			s.UniquenessRanges = append(s.UniquenessRanges, BandJSON{Component: r.Names[j], Min: round(b.Min), Max: round(b.Max), NotDetermined: !b.Feasible, Reason: b.Reason})
 		}
 		s.FeasibleBands = s.UniquenessRanges
 	}
@@ -660,7 +663,7 @@ func printConstraints(r *Result, w io.Writer) {
 	if rep.Bands != nil {
 		for j, b := range rep.Bands.Bands {
 			if !b.Feasible {
-				fmt.Fprintf(w, "  %-12s uniqueness range not determined (the search left the constraints; reached %.4f – %.4f, solution %.4f)\n", r.Names[j], b.Min, b.Max, b.Value)
+				fmt.Fprintf(w, "  %-12s uniqueness range not determined (%s; reached %.4f – %.4f, solution %.4f)\n", r.Names[j], b.Reason, b.Min, b.Max, b.Value)
 				continue
 			}
 			fmt.Fprintf(w, "  %-12s uniqueness range %.4f – %.4f of the signal (solution %.4f)\n", r.Names[j], b.Min, b.Max, b.Value)

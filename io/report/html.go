@@ -413,7 +413,11 @@ func findings(f *Folder) (find, checks []string) {
 	for _, b := range s.Uniqueness() {
 		w := b.Max - b.Min
 		if b.NotDetermined {
-			checks = append(checks, fmt.Sprintf("The uniqueness range of %s was not determined: the search could not stay within the constraints (it reached shares of the signal from %s to %s, which bound nothing).", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
+			why := b.Reason
+			if why == "" {
+				why = "the search could not stay within the constraints"
+			}
+			checks = append(checks, fmt.Sprintf("The uniqueness range of %s was not determined: %s (it reached shares of the signal from %s to %s, which bound nothing).", b.Component, why, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
 		} else if w <= 0.05*math.Max(b.Max, 1e-12) {
 			find = append(find, fmt.Sprintf("%s is essentially unique within the constraints and the noise: every solution that fits as well gives it a share of the signal between %s and %s.", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
 		} else {
