@@ -25,7 +25,7 @@ Example:
 
   bandsolve run 'runs/*.bsr' --out batch/
   bandsolve collect batch/*/ --out batch.csv
-  bandsolve collect loading-1 loading-2 loading-5 > loadings.csv
+  bandsolve collect batch/r0 batch/r2 > two.csv   # to standard output
 
 Flags:
 `

@@ -14,7 +14,8 @@ import (
 )
 
 // The worked examples of the docs run as written: every `bandsolve`
-// command in a code block of README.md and docs/*.md runs, in a temporary
+// command in a code block of README.md and docs/*.md, and in the examples
+// of every command's --help, runs in a temporary
 // folder holding the files the examples name (exampleInputs), and must exit
 // 0. The command files a document shows (a block starting "# NAME.bsr") are
 // written there as shown. A block of commands runs in order in one folder;
@@ -25,10 +26,18 @@ import (
 func TestDocsExamplesRun(t *testing.T) {
 	files, _ := filepath.Glob(filepath.Join("..", "..", "docs", "*.md"))
 	files = append(files, filepath.Join("..", "..", "README.md"))
-	for i, f := range files {
-		if a, err := filepath.Abs(f); err == nil {
-			files[i] = a // the examples run in folders of their own
+	type source struct{ name, text string }
+	var sources []source
+	for _, f := range files {
+		b, err := os.ReadFile(f)
+		if err != nil {
+			t.Fatal(err)
 		}
+		sources = append(sources, source{filepath.Base(f), string(b)})
+	}
+	// Every command's --help teaches with examples too (indented by two).
+	for _, c := range commands {
+		sources = append(sources, source{c.name + " --help", helpAsMarkdown(run(c.name, "--help").stdout)})
 	}
 	// The Slurm example of docs/campaigns.md reads its share from the
 	// environment, as a job array's task does (TestSlurmArrayExample runs
@@ -37,15 +46,24 @@ func TestDocsExamplesRun(t *testing.T) {
 	inputs := t.TempDir()
 	exampleInputs(t, inputs)
 	ran, checked := map[string]int{}, 0
-	for _, f := range files {
-		b, err := os.ReadFile(f)
-		if err != nil {
-			t.Fatal(err)
-		}
-		name := filepath.Base(f)
-		doc := docBlocks(string(b))
-		dir, lastRun := "", ""
+	done := map[string]bool{} // a block shown twice (docs and help) runs once
+	for _, src := range sources {
+		doc := docBlocks(src.text)
+		dir, lastRun, prev := "", "", ""
 		for _, blk := range doc.blocks {
+			key := prev + blk.key(doc)
+			if !blk.continues() {
+				key = blk.key(doc)
+			}
+			prev = key
+			for _, ex := range blk.cmds {
+				ran[strings.Fields(ex.command)[1]]++
+			}
+			if done[key] {
+				dir = ""
+				continue
+			}
+			done[key] = true
 			if dir == "" || !blk.continues() {
 				dir = t.TempDir()
 				copyTree(t, inputs, dir)
@@ -54,12 +72,11 @@ func TestDocsExamplesRun(t *testing.T) {
 				}
 			}
 			for _, ex := range blk.cmds {
-				checked += runExample(t, name, dir, ex)
-				ran[strings.Fields(ex.command)[1]]++
+				checked += runExample(t, src.name, dir, ex)
 				lastRun = dir
 			}
 		}
-		checked += checkQuotedSummary(t, name, string(b), lastRun)
+		checked += checkQuotedSummary(t, src.name, src.text, lastRun)
 	}
 	if checked < 5 {
 		t.Errorf("%d printed lines checked, want docs/kinetics.md's 5 at least", checked)
@@ -71,6 +88,18 @@ func TestDocsExamplesRun(t *testing.T) {
 			t.Errorf("no worked example of 'bandsolve %s' found in the docs (ran %v)", c, ran)
 		}
 	}
+}
+
+// helpAsMarkdown indents a help text's examples (two spaces in help) as a
+// Markdown code block (four), so docBlocks reads both alike.
+func helpAsMarkdown(help string) string {
+	lines := strings.Split(help, "\n")
+	for i, l := range lines {
+		if strings.HasPrefix(l, "  ") && !strings.HasPrefix(l, "   ") {
+			lines[i] = "  " + l
+		}
+	}
+	return strings.Join(lines, "\n")
 }
 
 // runExample runs one documented command in dir and checks what the docs
@@ -215,6 +244,23 @@ type docExample struct {
 
 // docBlock is one code block's commands, run in order in one folder.
 type docBlock struct{ cmds []docExample }
+
+var trailingComment = regexp.MustCompile(`\s+#[^'"]*$`)
+
+// key identifies what the block runs: the command files of its document
+// that it names and its commands.
+func (b docBlock) key(doc document) string {
+	var k []string
+	for _, ex := range b.cmds {
+		k = append(k, trailingComment.ReplaceAllString(ex.command, ""))
+		for n, text := range doc.files {
+			if strings.Contains(ex.command, strings.TrimSuffix(n, ".bsr")) {
+				k = append(k, text)
+			}
+		}
+	}
+	return strings.Join(k, "\n")
+}
 
 // continues says whether the block only reads results the block before it
 // made (verify, report or collect), so it runs in that block's folder.

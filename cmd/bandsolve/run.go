@@ -67,11 +67,11 @@ without .bsr). Without --out, results go to the file's 'out' setting, else
 to NAME-results beside the file. In a file, 'out' must name a folder inside
 the file's folder.
 
-Example (exp1.bsr):
+Example:
 
-  # ketene acetal hydrolysis, run 1
+  # exp1.bsr: ketene acetal hydrolysis, run 1
   data     scans/
-  times    scans/times.csv
+  times    times.csv
   kind     single-beam
   blank    blank.csv
   pre      3
@@ -92,8 +92,10 @@ batch, so a job array of a batch scheduler can split it; with Slurm
   #SBATCH --array=0-3
   bandsolve run 'runs/*.bsr' --out batch/ -j 1 --shard "$SLURM_ARRAY_TASK_ID/4"
 
-  bandsolve run 'runs/*.bsr' --out batch/ -j 2      # two at a time
-  bandsolve collect batch/*/ --out batch.csv        # then one table of all
+On one machine, two at a time, then one table of all:
+
+  bandsolve run 'runs/*.bsr' --out batch/ -j 2
+  bandsolve collect batch/*/ --out batch.csv
 
 Flags:
 `
