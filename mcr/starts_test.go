@@ -9,12 +9,12 @@ import (
 )
 
 // narrowSubsystems is twoSubsystems with one separate band per species, so
-// that each species has channels of its own (which fix its profile's shape)
-// and at every channel some species of each subsystem absorbs nothing: then
-// the spectra are unique despite the rank deficiency, since
-// a + b + c − d − e = 0 lets S + x·(1,1,1,−1,−1) fit equally well only
-// where every species absorbs (Manne, Chemom. Intell. Lab. Syst. 1995, from
-// memory, for the zero-region argument).
+// that each species has channels of its own and at every channel some
+// species of each subsystem absorbs nothing: a + b + c − d − e = 0 then
+// lets S + x·(1,1,1,−1,−1) fit equally well only where every species
+// absorbs. That pins the spectra against that move, not against the pair
+// resolution of TestClosedSubsystemsAdmitPairResolution, which stays exact
+// and non-negative here too.
 func narrowSubsystems(n, m int) (*mat.Dense, *mat.Dense, *mat.Dense) {
 	_, c, _ := twoSubsystems(nil, n, m)
 	s := mat.NewDense(m, 5, nil)

@@ -111,13 +111,13 @@ func moreStarts(r *Result, data mcr.Data, best *mcr.Result, opt mcr.Options) *mc
 // rankDeficientBands marks every uniqueness range not determined when more
 // components were resolved than the data's rank estimate, and says why in
 // one warning. The ranges are rotations C T, S T⁻ᵀ of the solution; with
-// k components on data of rank r < k the profiles (or spectra) span fewer
-// than k dimensions within the noise, C v ≈ 0 for some v, and then
-// S + w vᵀ fits as well for any w that keeps S non-negative: resolutions
-// that are no rotation of this one (two closed subsystems, A → B → C
-// beside D → E, are the usual cause; Manne, Chemom. Intell. Lab. Syst.
-// 1995, from memory, for the zero-region argument). The search cannot
-// bound those, so it must not call any range unique.
+// k components on data of rank r < k other resolutions fit as well that
+// are no rotation of it: C v ≈ 0 for some v, so S + w vᵀ fits for any w
+// that keeps S non-negative, and closed subsystems (A → B → C beside
+// D → E, the usual cause) admit exact non-negative resolutions whose
+// spectra are sums of one species from each subsystem
+// (mcr.TestClosedSubsystemsAdmitPairResolution). The search cannot bound
+// those, so it must not call any range unique.
 func rankDeficientBands(r *Result, b *mcr.BandsResult) bool {
 	if r.Rank == nil || r.Rank.Estimate <= 0 || r.Components <= r.Rank.Estimate {
 		return false
@@ -126,6 +126,6 @@ func rankDeficientBands(r *Result, b *mcr.BandsResult) bool {
 	for j := range b.Bands {
 		b.Bands[j].Feasible, b.Bands[j].Reason = false, why
 	}
-	r.Warnings = append(r.Warnings, fmt.Sprintf("uniqueness ranges not determined: %d components on data whose rank estimate is %d, so the profiles span fewer dimensions than there are components and spectra that are not rotations of these (one component's spectrum moved into another's, as closed subsystems allow) fit as well; only where non-negativity pins every such move (each species absorbing alone somewhere) is the answer unique, and the ranges cannot tell; a known spectrum (--known-spectrum) or a kinetic model (--model with --hard-model) pins those moves", r.Components, r.Rank.Estimate))
+	r.Warnings = append(r.Warnings, fmt.Sprintf("uniqueness ranges not determined: %d components on data whose rank estimate is %d, so resolutions that are no rotation of this one fit as well: closed subsystems (e.g. A -> B -> C beside D -> E) admit exact non-negative resolutions whose spectra are sums of one species from each subsystem, whatever the bands, and non-negativity and closure cannot tell them from the truth; a kinetic model (--model with --hard-model) or known spectra (--known-spectrum) can", r.Components, r.Rank.Estimate))
 	return true
 }

@@ -16,9 +16,7 @@ import (
 // whose profiles span only four dimensions, since a + b + c = d + e = 1 at
 // every time. Each species has a band of its own (1760, 1700, 1640, 1560,
 // 1500 cm⁻¹) and one shared with a neighbour, on a zero baseline, as IR
-// spectra do: at every channel some species of each subsystem absorbs
-// (almost) nothing, the condition under which non-negativity can pin the
-// spectra despite the rank deficiency.
+// spectra do.
 func makeSubsystems(nTimes int, step float64) *synth {
 	s := &synth{}
 	for x := 1800.0; x >= 1000; x -= step {
@@ -65,10 +63,11 @@ func makeSubsystems(nTimes int, step float64) *synth {
 //     as unique: its uniqueness range is wide (over 5 % of its share, the
 //     report's threshold for "essentially unique") or not determined.
 //
-// At this size and noise the spectra are not unique within the noise: ALS
-// started from the truth drifts to spectra at cosines 0.6–0.85 with a lower
-// residual (noted in docs/constraints.md), so the test asks for the honest
-// report, not for the true spectra.
+// The true spectra cannot be asked for: closed subsystems admit exact
+// non-negative resolutions whose spectra are sums of one species from each
+// subsystem (mcr.TestClosedSubsystemsAdmitPairResolution), so
+// non-negativity and closure cannot single out the truth at any size or
+// noise; the test asks for the fit and the honest report.
 func TestTwoSubsystemsFitAndHonesty(t *testing.T) {
 	s := makeSubsystems(61, 4)
 	countsNoise(s, 20, 3, nil)
