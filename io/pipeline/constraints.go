@@ -666,7 +666,11 @@ func printConstraints(r *Result, w io.Writer) {
 				fmt.Fprintf(w, "  %-12s uniqueness range not determined (%s; reached %.4f – %.4f, solution %.4f)\n", r.Names[j], b.Reason, b.Min, b.Max, b.Value)
 				continue
 			}
-			fmt.Fprintf(w, "  %-12s uniqueness range %.4f – %.4f of the signal (solution %.4f)\n", r.Names[j], b.Min, b.Max, b.Value)
+			hi, stop := fmt.Sprintf("%.4f", b.Max), ""
+			if b.Max > unboundedBand { // where the search stopped, not a bound
+				hi, stop = "no bound", fmt.Sprintf("; the search stopped at %.3g", b.Max)
+			}
+			fmt.Fprintf(w, "  %-12s uniqueness range %.4f – %s of the signal (solution %.4f%s)\n", r.Names[j], b.Min, hi, b.Value, stop)
 		}
 	} else if rep.BandsNote != "" {
 		fmt.Fprintf(w, "note: %s\n", rep.BandsNote)

@@ -7,6 +7,8 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"github.com/bandsolve/bandsolve/mcr"
 )
 
 // --time-unit changes what the terminal shows, never the numbers: on the
@@ -99,5 +101,26 @@ func TestTimeUnitDefaultRecorded(t *testing.T) {
 	}
 	if err := s.Set("time-unit", "days"); err == nil || !strings.Contains(err.Error(), "auto or s or min or h") {
 		t.Errorf("time-unit days: %v", err)
+	}
+}
+
+// A largest share above unboundedBand is where the search stopped, reached
+// only by components cancelling each other (the run warns so): the
+// terminal says "no bound" rather than printing it as the range's end, and
+// a bounded range keeps its number.
+func TestUnboundedRangeOnTheTerminal(t *testing.T) {
+	r := &Result{Names: []string{"reaction_1", "reaction_2"}, Constraints: &ConstraintReport{Bands: &mcr.BandsResult{Bands: []mcr.Band{
+		{Min: 0.2504, Max: 0.3799, Value: 0.3799, Feasible: true},
+		{Min: 0.7564, Max: 2.02e7, Value: 1.0552, Feasible: true},
+	}}}}
+	var b bytes.Buffer
+	printConstraints(r, &b)
+	for _, want := range []string{
+		"reaction_1   uniqueness range 0.2504 – 0.3799 of the signal (solution 0.3799)\n",
+		"reaction_2   uniqueness range 0.7564 – no bound of the signal (solution 1.0552; the search stopped at 2.02e+07)\n",
+	} {
+		if !strings.Contains(b.String(), want) {
+			t.Errorf("no line %q in\n%s", want, b.String())
+		}
 	}
 }

@@ -155,3 +155,19 @@ func TestTimeUnitOfTables(t *testing.T) {
 		t.Errorf("a 50 min run by default: %q", n)
 	}
 }
+
+// A largest share above 100 times the whole signal is where the search
+// stopped (components cancelling each other), not a bound: the report's
+// findings and table say "no bound" and keep the stopping point in words;
+// a bounded share keeps its number.
+func TestUnboundedShareInTheReport(t *testing.T) {
+	if got := shareText(0.3799); got != "0.38" {
+		t.Errorf("bounded share: %q", got)
+	}
+	if got := shareText(2.02e7); got != "no bound (the search stopped at 2.02×10⁷)" {
+		t.Errorf("unbounded share: %q", got)
+	}
+	if got := shareText(unboundedShare); got != "100" {
+		t.Errorf("share at the limit: %q", got)
+	}
+}

@@ -421,7 +421,7 @@ func findings(f *Folder) (find, checks []string) {
 		} else if w <= 0.05*math.Max(b.Max, 1e-12) {
 			find = append(find, fmt.Sprintf("%s is essentially unique within the constraints and the noise: every solution that fits as well gives it a share of the signal between %s and %s.", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
 		} else {
-			find = append(find, fmt.Sprintf("%s is not unique: solutions that fit the data as well and keep every constraint give it a share of the signal from %s to %s.", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
+			find = append(find, fmt.Sprintf("%s is not unique: solutions that fit the data as well and keep every constraint give it a share of the signal from %s to %s.", b.Component, trimFloat(b.Min, 3), shareText(b.Max)))
 		}
 	}
 	if k := s.Kinetics; k != nil && len(k.RateConstants) > 0 {
@@ -551,6 +551,20 @@ func HighAbsorbanceWarning(axis []float64, axisName string, rows [][]float64) st
 	return fmt.Sprintf("absorbance exceeds 2 (under 1 %% of the light transmitted) at %s %s: such regions are often saturated; consider --exclude LO:HI for them", strings.Join(ranges, ", "), unit)
 }
 
+// unboundedShare: a largest share above 100 times the whole signal is
+// reached only by components cancelling each other, so it is where the
+// search stopped, not a bound (the run warns so; io/pipeline uses the same
+// limit).
+const unboundedShare = 100
+
+// shareText writes a largest share, or says it is unbounded.
+func shareText(v float64) string {
+	if v > unboundedShare {
+		return "no bound (the search stopped at " + trimFloat(v, 3) + ")"
+	}
+	return trimFloat(v, 3)
+}
+
 // unitText writes a unit with superscript exponents (s^-1 as s⁻¹).
 func unitText(u string) string {
 	if u == "" {
@@ -604,6 +618,7 @@ var page = template.Must(template.New("report").Funcs(template.FuncMap{
 	"deref":   func(p *int) int { return *p },
 	"sub":     func(a, b float64) float64 { return a - b },
 	"unit":    unitText,
+	"share":   shareText,
 	"perTime": perTime,
 	"tm": func(t float64, unit string) string {
 		_, div := timeScale(0, unit)

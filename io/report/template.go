@@ -104,7 +104,7 @@ nav a { color: #0072b2; margin-right: .8rem; }
 <h3>Uniqueness ranges (share of the signal ‖c sᵀ‖ / ‖C Sᵀ‖)</h3>
 <table>
 <tr><th>component</th><th>smallest share</th><th>largest share</th></tr>
-{{range .S.Uniqueness}}<tr><td>{{.Component}}</td><td class="n">{{num .Min}}</td><td class="n">{{num .Max}}</td></tr>
+{{range .S.Uniqueness}}<tr><td>{{.Component}}</td><td class="n">{{num .Min}}</td><td class="n">{{share .Max}}</td></tr>
 {{end}}</table>{{end}}
 {{if .Extra}}
 <h3>More results</h3>
