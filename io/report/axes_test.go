@@ -7,6 +7,7 @@ import (
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/vg"
 
 	"github.com/bandsolve/bandsolve/io/output"
 )
@@ -169,5 +170,34 @@ func TestUnboundedShareInTheReport(t *testing.T) {
 	}
 	if got := shareText(unboundedShare); got != "100" {
 		t.Errorf("share at the limit: %q", got)
+	}
+}
+
+// The legend strip under a figure file never lets a label run into the
+// next column's sample: each column is at least as wide as the widest
+// item (sample, gap, label as the font measures it, gap). The profiles
+// figure's eight labels ("species_2 uniqueness range" …) overlapped at a
+// fixed three per row.
+func TestLegendColumnsFit(t *testing.T) {
+	var items []LegendItem
+	for _, l := range []string{"species_1 (resolved)", "model fitted to the profiles", "species_2 uniqueness range", "root-mean-square over time"} {
+		items = append(items, LegendItem{Label: l})
+	}
+	short := []LegendItem{{Label: "a"}, {Label: "b"}, {Label: "c"}, {Label: "d"}}
+	sty := legendStyle()
+	for _, c := range []struct {
+		items []LegendItem
+		want  int
+	}{{items, 2}, {short, 3}} {
+		n := legendColumns(c.items, figW)
+		if n != c.want {
+			t.Errorf("%d columns, want %d", n, c.want)
+		}
+		colW := (figW - vg.Centimeter) / vg.Length(n)
+		for _, it := range c.items {
+			if need := swatchW + swatchGap + sty.Width(it.Label) + itemGap; need > colW {
+				t.Errorf("%q needs %v, the column is %v", it.Label, need, colW)
+			}
+		}
 	}
 }

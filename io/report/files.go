@@ -83,7 +83,7 @@ func standalone(fig Figure) (svg, pngb []byte, err error) {
 		}
 	}()
 	d := fig.drawing
-	perRow := 3
+	perRow := legendColumns(fig.Legend, d.w)
 	rows := (len(fig.Legend) + perRow - 1) / perRow
 	h := d.h + vg.Length(rows)*legendRowH
 	paint := func(c draw.Canvas) {
@@ -118,6 +118,36 @@ func standalone(fig Figure) (svg, pngb []byte, err error) {
 	return sb.Bytes(), pb.Bytes(), nil
 }
 
+// Legend geometry: a sample swatchW wide, the label swatchGap after it,
+// and at least itemGap before the next column.
+const (
+	swatchW   = 0.9 * vg.Centimeter
+	swatchGap = 0.15 * vg.Centimeter
+	itemGap   = 0.4 * vg.Centimeter
+)
+
+func legendStyle() draw.TextStyle {
+	sty := draw.TextStyle{Color: color.Black, Font: font.From(sans, 9), Handler: plot.DefaultTextHandler}
+	sty.YAlign = draw.YCenter
+	return sty
+}
+
+// legendColumns is how many items fit side by side on a figure w wide (at
+// most 3, at least 1): every column is as wide as the widest item, so no
+// label runs into the next item's sample.
+func legendColumns(items []LegendItem, w vg.Length) int {
+	sty := legendStyle()
+	widest := vg.Length(0)
+	for _, it := range items {
+		widest = max(widest, swatchW+swatchGap+sty.Width(it.Label)+itemGap)
+	}
+	n := 3
+	for n > 1 && vg.Length(n)*widest > w-1*vg.Centimeter {
+		n--
+	}
+	return n
+}
+
 // drawLegend lays the items out in rows at the bottom of the canvas.
 func drawLegend(c draw.Canvas, items []LegendItem, perRow int, w vg.Length) {
 	if len(items) == 0 {
@@ -125,13 +155,12 @@ func drawLegend(c draw.Canvas, items []LegendItem, perRow int, w vg.Length) {
 	}
 	colW := (w - 1*vg.Centimeter) / vg.Length(perRow)
 	rows := (len(items) + perRow - 1) / perRow
-	sty := draw.TextStyle{Color: color.Black, Font: font.From(sans, 9), Handler: plot.DefaultTextHandler}
-	sty.YAlign = draw.YCenter
+	sty := legendStyle()
 	for i, it := range items {
 		row, col := i/perRow, i%perRow
 		x := c.Min.X + 0.5*vg.Centimeter + vg.Length(col)*colW
 		y := c.Min.Y + vg.Length(rows-row)*legendRowH - legendRowH/2
-		sw := 0.9 * vg.Centimeter
+		sw := swatchW
 		if it.Fill {
 			box := vg.Rectangle{Min: vg.Point{X: x, Y: y - 0.12*vg.Centimeter}, Max: vg.Point{X: x + sw, Y: y + 0.12*vg.Centimeter}}
 			c.SetColor(it.Colour)
@@ -140,7 +169,7 @@ func drawLegend(c draw.Canvas, items []LegendItem, perRow int, w vg.Length) {
 			ls := draw.LineStyle{Color: it.Colour, Width: vg.Points(1.6), Dashes: lengths(it.Dash)}
 			c.StrokeLine2(ls, x, y, x+sw, y)
 		}
-		c.FillText(sty, vg.Point{X: x + sw + 0.15*vg.Centimeter, Y: y}, it.Label)
+		c.FillText(sty, vg.Point{X: x + sw + swatchGap, Y: y}, it.Label)
 	}
 }
 
