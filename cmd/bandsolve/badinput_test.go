@@ -324,6 +324,8 @@ func badCases() []badCase {
 		{name: "reference mean over more spectra than there are", args: []string{"--data", "B/good.csv", "--reference", "mean:20"}, code: 2, want: []string{"--reference mean:20", "only 8 spectra", "average at most 8"}},
 		{name: "pre-reaction count too large", args: []string{"--data", "B/good.csv", "--pre", "8"}, code: 2, want: []string{"--pre 8", "only 8 spectra"}},
 		{name: "bad --kind value", args: []string{"--data", "B/good.csv", "--kind", "transmittance"}, code: 2, want: []string{`"transmittance"`, "use single-beam, absorbance or difference"}},
+		// The option and the value named once, not in pflag's "invalid argument … for … flag" wrapper.
+		{name: "bad --time-unit value", args: []string{"--data", "B/good.csv", "--time-unit", "days"}, code: 2, want: []string{`resolve: --time-unit "days": use auto, s, min or h; see`}},
 		{name: "misspelt flag", args: []string{"--data", "B/good.csv", "--blnk", "B/blank_good.csv"}, code: 2, want: []string{"unknown flag: --blnk", "did you mean --blank?"}},
 		{name: "bad region syntax", args: []string{"--data", "B/good.csv", "--region", "1000-1010"}, code: 2, want: []string{`"1000-1010"`, "LO:HI"}},
 		{name: "initial profiles with a zero column", args: []string{"--data", "B/good.csv", "--components", "2", "--init", "B/bad_init_zero_column.csv"}, code: 1, want: []string{"bad_init_zero_column.csv: profile column 3", "zero at every time", "one component fewer"}},

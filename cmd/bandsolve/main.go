@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"regexp"
 	"slices"
 	"strings"
 
@@ -203,6 +204,8 @@ func newFlagSet(name, help string, st pipeline.Streams) *pflag.FlagSet {
 	return fs
 }
 
+var flagValueErr = regexp.MustCompile(`^invalid argument ".*" for "(?:-\w, )?(--[\w-]+)" flag: (?:[\w-]+: )?(.*)$`)
+
 // parse handles --help and errors the same way for every command.
 func parse(fs *pflag.FlagSet, args []string, help string, st pipeline.Streams) (ok bool, code int) {
 	err := fs.Parse(args)
@@ -213,6 +216,11 @@ func parse(fs *pflag.FlagSet, args []string, help string, st pipeline.Streams) (
 	}
 	if err != nil {
 		msg := err.Error()
+		// pflag says `invalid argument "x" for "--opt" flag: opt: "x": why`;
+		// the option and value once are enough: `--opt "x": why`.
+		if m := flagValueErr.FindStringSubmatch(msg); m != nil {
+			msg = m[1] + " " + m[2]
+		}
 		if strings.HasPrefix(msg, "unknown flag: --") {
 			name := strings.TrimPrefix(msg, "unknown flag: --")
 			if s := pipeline.Suggest(name); s != "" {

@@ -270,7 +270,7 @@ func choice(f func(s *Settings) *string, allowed ...string) (func(*Settings, str
 				return nil
 			}
 		}
-		return fmt.Errorf("%q: use %s", v, strings.Join(allowed, " or "))
+		return fmt.Errorf("%q: use %s or %s", v, strings.Join(allowed[:len(allowed)-1], ", "), allowed[len(allowed)-1])
 	}, func(s *Settings) []string { return []string{*f(s)} }
 }
 

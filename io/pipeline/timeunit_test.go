@@ -99,7 +99,7 @@ func TestTimeUnitDefaultRecorded(t *testing.T) {
 			t.Errorf("time-unit %s reads names in %q", u, got)
 		}
 	}
-	if err := s.Set("time-unit", "days"); err == nil || !strings.Contains(err.Error(), "auto or s or min or h") {
+	if err := s.Set("time-unit", "days"); err == nil || !strings.Contains(err.Error(), "use auto, s, min or h") {
 		t.Errorf("time-unit days: %v", err)
 	}
 }
