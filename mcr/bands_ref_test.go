@@ -203,3 +203,26 @@ func TestCostWorkMatchesDirectFormula(t *testing.T) {
 		}
 	}
 }
+
+// One evaluation of the search allocates nothing (the point of bandWork),
+// exactly and within the noise.
+func TestCostWorkAllocatesNothing(t *testing.T) {
+	c, s := bandsBenchPair(50, 70, 4)
+	for _, allow := range []float64{0, 1e-3} {
+		p := &bandProblem{c: c, s: s, n: 50, m: 70, k: 4, opt: BandOptions{Mode: Species, Tolerance: 1e-3}}
+		if err := p.setup(); err != nil {
+			t.Fatal(err)
+		}
+		p.newWork()
+		p.allow = allow
+		th := make([]float64, len(p.free))
+		for i := range th {
+			th[i] = 0.05 * float64(i%3-1)
+		}
+		g := make([]float64, len(th))
+		p.costWork(1, 1, 1e4, th, g) // the reference is set on the first call
+		if a := testing.AllocsPerRun(50, func() { p.costWork(1, 1, 1e4, th, g) }); a != 0 {
+			t.Errorf("allowance %g: %v allocations per evaluation", allow, a)
+		}
+	}
+}

@@ -8,14 +8,16 @@ import "math"
 // spends its time on the O((n + m)k²) products, not on the allocator (a
 // fourfold gain on 2000 × 3001, docs/performance.md).
 type bandWork struct {
-	c, s          []float64 // n × k, m × k
-	t, inv, tinvT []float64 // k × k
-	lu            []float64 // k × k scratch of the inversion
-	gt, gbB       []float64 // k × k
-	gc, gs        []float64 // CᵀC, SᵀS (k × k)
-	gx, gy        []float64 // 2k × 2k Gram matrices of the rise
-	rows          []float64 // scratch rows (riseSparse)
-	zeroC, zeroS  []bool    // zero windows, n × k and m × k (nil: none)
+	c, s          []float64    // n × k, m × k
+	t, inv, tinvT []float64    // k × k
+	lu            []float64    // k × k scratch of the inversion
+	gt, gbB       []float64    // k × k
+	gc, gs        []float64    // CᵀC, SᵀS (k × k)
+	sq            [5][]float64 // k × k scratch
+	vec           [3][]float64 // k scratch
+	gx, gy        []float64    // 2k × 2k Gram matrices of the rise
+	rows          []float64    // scratch rows (riseSparse)
+	zeroC, zeroS  []bool       // zero windows, n × k and m × k (nil: none)
 	sideC, sideS  *marginSide
 	piv           []int
 }
@@ -30,6 +32,12 @@ func (p *bandProblem) newWork() {
 		piv: make([]int, k),
 	}
 	w.gc, w.gs = make([]float64, k*k), make([]float64, k*k)
+	for q := range w.sq {
+		w.sq[q] = make([]float64, k*k)
+	}
+	for q := range w.vec {
+		w.vec[q] = make([]float64, k)
+	}
 	gramCross(w.gc, w.c, w.c, k)
 	gramCross(w.gs, w.s, w.s, k)
 	w.zeroC = rawMask(p.opt.ZeroProfiles, n, k)
@@ -207,7 +215,7 @@ func (p *bandProblem) projectGradient(g []float64) {
 func (p *bandProblem) costGram(j int, sign, mu float64, g []float64) float64 {
 	w, k := p.work, p.k
 	// Cᵀ a_j = CᵀC t_j and ‖a_j‖² = t_jᵀ CᵀC t_j.
-	ctA := make([]float64, k) // small: k values
+	ctA := w.vec[0]
 	na2 := 0.0
 	for r := 0; r < k; r++ {
 		s := 0.0
@@ -218,7 +226,7 @@ func (p *bandProblem) costGram(j int, sign, mu float64, g []float64) float64 {
 		na2 += w.t[r*k+j] * s
 	}
 	// Row j of BᵀB = T⁻¹ SᵀS T⁻ᵀ: (T⁻¹)_j· SᵀS T⁻ᵀ.
-	uS := make([]float64, k)
+	uS := w.vec[1]
 	for c := 0; c < k; c++ {
 		s := 0.0
 		for l := 0; l < k; l++ {
@@ -226,7 +234,7 @@ func (p *bandProblem) costGram(j int, sign, mu float64, g []float64) float64 {
 		}
 		uS[c] = s
 	}
-	bjB := make([]float64, k)
+	bjB := w.vec[2]
 	for c := 0; c < k; c++ {
 		s := 0.0
 		for l := 0; l < k; l++ {
@@ -453,7 +461,8 @@ func (p *bandProblem) riseSparse(mu float64, grad bool) float64 {
 	clear(gy)
 	// Blocks of X'X: [0:k,0:k] A₋ᵀA₋, [0:k,k:2k] A₋ᵀA (then − A₋ᵀA₋),
 	// [k:2k,k:2k] AᵀA − A₋ᵀA − AᵀA₋ + A₋ᵀA₋; Y'Y likewise.
-	ctam := make([]float64, k*k) // CᵀA₋
+	ctam := w.sq[0] // CᵀA₋
+	clear(ctam)
 	full, minus := w.rows[:k], w.rows[k:k2]
 	eachRow(la, k, w.c, w.t, full, minus, func(i int) {
 		cr := w.c[i*k : i*k+k]
@@ -481,7 +490,7 @@ func (p *bandProblem) riseSparse(mu float64, grad bool) float64 {
 			}
 		}
 	})
-	ata, btb := congruence(w.gc, w.t, k), congruence(w.gs, w.tinvT, k)
+	ata, btb := congruence(w.sq[1], w.sq[2], w.gc, w.t, k), congruence(w.sq[3], w.sq[2], w.gs, w.tinvT, k)
 	for p := 0; p < k; p++ {
 		for q := 0; q < k; q++ {
 			amam, amA, aAm := gx[p*k2+q], gx[p*k2+k+q], gx[q*k2+k+p]
@@ -513,7 +522,7 @@ func (p *bandProblem) riseSparse(mu float64, grad bool) float64 {
 	}
 	f := mu * 2 * h / p.allow * 2 // μ·∂(h²)/∂rise times the 2 of ∂‖XYᵀ‖²
 	// Cᵀ G_A: CᵀA₋ GY₁₂ + (CᵀC T − CᵀA₋) GY₂₂.
-	ctap := congruenceLeft(w.gc, w.t, k) // CᵀC T
+	ctap := congruenceLeft(w.sq[4], w.gc, w.t, k) // CᵀC T
 	for r := 0; r < k; r++ {
 		for c := 0; c < k; c++ {
 			ctap[r*k+c] -= ctam[r*k+c]
@@ -595,10 +604,9 @@ func eachRow(list []clipped, k int, x, v, full, minus []float64, visit func(i in
 
 func (ms *marginSide) zeroAt(i, j int) bool { return ms.zero != nil && ms.zero[i*ms.k+j] }
 
-// congruence returns Vᵀ G V (k × k).
-func congruence(g, v []float64, k int) []float64 {
-	gv := congruenceLeft(g, v, k)
-	out := make([]float64, k*k)
+// congruence sets out = Vᵀ G V (k × k), with scratch for G V.
+func congruence(out, scratch, g, v []float64, k int) []float64 {
+	gv := congruenceLeft(scratch, g, v, k)
 	for r := 0; r < k; r++ {
 		for c := 0; c < k; c++ {
 			s := 0.0
@@ -611,9 +619,8 @@ func congruence(g, v []float64, k int) []float64 {
 	return out
 }
 
-// congruenceLeft returns G V (k × k).
-func congruenceLeft(g, v []float64, k int) []float64 {
-	out := make([]float64, k*k)
+// congruenceLeft sets out = G V (k × k).
+func congruenceLeft(out, g, v []float64, k int) []float64 {
 	for r := 0; r < k; r++ {
 		for c := 0; c < k; c++ {
 			s := 0.0
