@@ -651,6 +651,22 @@ func fitKinetics(r *Result, log io.Writer) error {
 		// standard errors then follow the noise of each point.
 		dopt.RowWeights, dopt.ColWeights = w.Row, w.Col
 	}
+	if len(r.SetAside) > 0 {
+		// A spectrum set aside holds the resolution's model, not data
+		// (imputeRows): weight zero, so it neither pulls on the rate
+		// constants nor counts as an observation in their standard errors.
+		row := make([]float64, n)
+		for i := range row {
+			row[i] = 1
+			if dopt.RowWeights != nil {
+				row[i] = dopt.RowWeights[i]
+			}
+		}
+		for _, sa := range r.SetAside {
+			row[sa.Row] = 0
+		}
+		dopt.RowWeights = row
+	}
 	dfit, spectra, err := kinetics.FitData(kn.Scheme, r.Times, r.D, dopt)
 	if err != nil {
 		r.Warnings = append(r.Warnings, "kinetics: the fit of the data matrix failed: "+oneLineText(err.Error()))
@@ -754,7 +770,7 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 // noise: Sigma itself when the fit was weighted (its units are the noise),
 // else over the noise the rank step estimated. 0 when unknown.
 func dataFitToNoise(r *Result, f *kinetics.FitResult) float64 {
-	if f.Weighted {
+	if f.Weighted && r.Weights != nil { // weights of ones and zeros (set-aside rows only) keep the data's units
 		return f.Sigma
 	}
 	if r.Rank == nil || !(r.Rank.Sigma > 0) {

@@ -32,7 +32,8 @@ type FitOptions struct {
 	// concentrations (difference data resolve reactions, not species).
 	UseExtents bool
 	// RowWeights and ColWeights, for FitData, are noise weights a_i (per
-	// spectrum) and b_j (per channel), about 1/σ²: the fit then minimises
+	// spectrum; 0 leaves the spectrum out) and b_j (per channel), about
+	// 1/σ²: the fit then minimises
 	// Σ a_i b_j (d_ij − (C Sᵀ)_ij)², the maximum-likelihood fit for noise of
 	// those variances (Wentzell et al., J. Chemometrics 1997). Since S is
 	// free, √B is absorbed into it: the data are scaled to √A D √B and the
@@ -746,7 +747,8 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 	if opt.Amplitudes {
 		return nil, nil, errors.New("kinetics: fit data: Amplitudes does not apply (the spectra carry the scale)")
 	}
-	if err := checkWeights(opt.RowWeights, n, "row"); err != nil {
+	kept, err := checkRowWeights(opt.RowWeights, n)
+	if err != nil {
 		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
 	}
 	if err := checkWeights(opt.ColWeights, m, "column"); err != nil {
@@ -784,8 +786,10 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 	_, w := p.dred.Dims()
 	mres := n * w
 	q := p.nModel
-	if n*m < p.nParams()+q*m {
-		return nil, nil, fmt.Errorf("kinetics: fit data: %d data points for %d parameters", n*m, p.nParams()+q*m)
+	// Observed points: a spectrum of row weight zero (set aside) is no data.
+	nObs := kept * m
+	if nObs < p.nParams()+q*m {
+		return nil, nil, fmt.Errorf("kinetics: fit data: %d data points for %d parameters", nObs, p.nParams()+q*m)
 	}
 	lm, err := p.solve(mres)
 	if err != nil {
@@ -799,8 +803,8 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 	if err != nil {
 		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
 	}
-	res := p.result(lm, sim, model, n*m, rank*m)
-	res.RMS = math.Sqrt(lm.SSR / float64(n*m))
+	res := p.result(lm, sim, model, nObs, rank*m)
+	res.RMS = math.Sqrt(lm.SSR / float64(nObs))
 	if rank < q {
 		res.Warnings = append(res.Warnings, fmt.Sprintf("the model columns have rank %d < %d: the spectra are a minimum-norm solution and not unique", rank, q))
 	}
@@ -835,6 +839,31 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 }
 
 // checkWeights accepts nil or len positive finite weights.
+// checkRowWeights checks FitData's row weights, where zero leaves a spectrum out
+// (one set aside as an outlier): positive or zero, finite, at least one positive. It
+// returns the number of rows with a positive weight (n when w is nil).
+func checkRowWeights(w []float64, n int) (int, error) {
+	if w == nil {
+		return n, nil
+	}
+	if len(w) != n {
+		return 0, fmt.Errorf("%d row weights for %d rows", len(w), n)
+	}
+	kept := 0
+	for i, v := range w {
+		if !(v >= 0) || math.IsInf(v, 0) {
+			return 0, fmt.Errorf("row weight %d is %v: weights must be positive, or zero to leave a spectrum out", i+1, v)
+		}
+		if v > 0 {
+			kept++
+		}
+	}
+	if kept == 0 {
+		return 0, errors.New("every row weight is zero: no spectrum left to fit")
+	}
+	return kept, nil
+}
+
 func checkWeights(w []float64, want int, what string) error {
 	if w == nil {
 		return nil

@@ -451,3 +451,64 @@ func TestAutoMapFiveSpecies(t *testing.T) {
 		}
 	}
 }
+
+// A spectrum with row weight zero is left out of the data fit: the rate constants,
+// their standard errors and the degrees of freedom equal those of the fit of the data
+// without that row (definition of a weighted least-squares sum: a zero weight removes
+// the term), however wrong the row's values are.
+func TestFitDataZeroWeightRowIsLeftOut(t *testing.T) {
+	s := mustParse(t, "A -> B")
+	k := []float64{0.08}
+	times := linspace(0, 60, 31)
+	sim, err := s.Simulate(k, []float64{1, 0}, times, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	const m = 40
+	spec := mat.NewDense(m, 2, nil)
+	for j := 0; j < m; j++ {
+		x := float64(j)
+		spec.Set(j, 0, math.Exp(-0.5*math.Pow((x-12)/4, 2)))
+		spec.Set(j, 1, math.Exp(-0.5*math.Pow((x-27)/5, 2)))
+	}
+	var d mat.Dense
+	d.Mul(sim.C, spec.T())
+	rng := rand.New(rand.NewPCG(8, 2))
+	n, _ := d.Dims()
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			d.Set(i, j, d.At(i, j)+0.003*rng.NormFloat64())
+		}
+	}
+	const bad = 9
+	keepTimes := append(append([]float64(nil), times[:bad]...), times[bad+1:]...)
+	kept := mat.NewDense(n-1, m, nil)
+	for i, at := 0, 0; i < n; i++ {
+		if i != bad {
+			kept.SetRow(at, d.RawRowView(i))
+			at++
+		}
+	}
+	ref, _, err := FitData(s, keepTimes, kept, FitOptions{InitialK: []float64{0.05}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for j := 0; j < m; j++ {
+		d.Set(bad, j, d.At(bad, j)+0.5) // a spectrum nothing like the others
+	}
+	row := make([]float64, n)
+	for i := range row {
+		row[i] = 1
+	}
+	row[bad] = 0
+	got, _, err := FitData(s, times, &d, FitOptions{InitialK: []float64{0.05}, RowWeights: row})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if math.Abs(got.K[0]-ref.K[0]) > 1e-6*ref.K[0] || math.Abs(got.KStdErr[0]-ref.KStdErr[0]) > 1e-4*ref.KStdErr[0] {
+		t.Errorf("k %.8g ± %.6g with the row at weight zero, %.8g ± %.6g without the row", got.K[0], got.KStdErr[0], ref.K[0], ref.KStdErr[0])
+	}
+	if got.DegreesOfFreedom != ref.DegreesOfFreedom {
+		t.Errorf("degrees of freedom %d, without the row %d", got.DegreesOfFreedom, ref.DegreesOfFreedom)
+	}
+}
