@@ -89,37 +89,47 @@ func resolveWithBaseline(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 
 // LessBaseline is Data minus a fitted baseline, D − B Pᵀ, seen through the same
 // products: what the constraint checks, feasible bands and kinetics work on once the
-// baseline has been fitted jointly with the species.
+// baseline has been fitted jointly with the species. When Data is Weighted (row × column
+// weights a_i b_j) the products are the weighted ones of D − B Pᵀ, and LessBaseline is
+// Weighted with the same weights; otherwise Weights returns nil, nil (unweighted).
 type LessBaseline struct {
 	Data
 	B *mat.Dense // n × b baseline coefficients
 	P *mat.Dense // m × b baseline shapes
 }
 
-// MulSpectra returns (D − B Pᵀ) S = D S − B (Pᵀ S).
+// Weights returns the weights of the underlying data (nil, nil when unweighted).
+func (l LessBaseline) Weights() (row, col []float64) { return weightsOf(l.Data) }
+
+// MulSpectra returns (D − B Pᵀ) W_col S = D W_col S − B (Pᵀ W_col S), W_col = diag(b)
+// (the identity without weights).
 func (l LessBaseline) MulSpectra(s *mat.Dense) *mat.Dense {
 	out := l.Data.MulSpectra(s)
+	_, col := l.Weights()
 	var ps, bps mat.Dense
-	ps.Mul(l.P.T(), s)
+	ps.Mul(l.P.T(), scaleRowsOrSame(s, col))
 	bps.Mul(l.B, &ps)
 	out.Sub(out, &bps)
 	return out
 }
 
-// MulProfiles returns (D − B Pᵀ)ᵀ C = Dᵀ C − P (Bᵀ C).
+// MulProfiles returns (D − B Pᵀ)ᵀ W_row C = Dᵀ W_row C − P (Bᵀ W_row C), W_row = diag(a).
 func (l LessBaseline) MulProfiles(c *mat.Dense) *mat.Dense {
 	out := l.Data.MulProfiles(c)
+	row, _ := l.Weights()
 	var bc, pbc mat.Dense
-	bc.Mul(l.B.T(), c)
+	bc.Mul(l.B.T(), scaleRowsOrSame(c, row))
 	pbc.Mul(l.P, &bc)
 	out.Sub(out, &pbc)
 	return out
 }
 
-// FrobeniusSq returns ‖D − B Pᵀ‖² = ‖D‖² − 2 tr(Bᵀ D P) + tr(BᵀB PᵀP).
+// FrobeniusSq returns ‖D − B Pᵀ‖² = ‖D‖² − 2 tr(Bᵀ W_row D W_col P) + tr(Bᵀ W_row B ·
+// Pᵀ W_col P), weighted as the data are.
 func (l LessBaseline) FrobeniusSq() float64 {
-	dp := l.Data.MulSpectra(l.P)
-	v := l.Data.FrobeniusSq() - 2*traceProd(l.B, dp) + traceProd(gram(l.B), gram(l.P))
+	row, col := l.Weights()
+	dp := l.Data.MulSpectra(l.P) // D W_col P
+	v := l.Data.FrobeniusSq() - 2*traceProd(l.B, scaleRowsOrSame(dp, row)) + traceProd(gramW(l.B, row), gramW(l.P, col))
 	if v < 0 {
 		return 0
 	}

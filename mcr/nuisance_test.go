@@ -132,3 +132,44 @@ func TestSplitSpread(t *testing.T) {
 		t.Errorf("an offset did not widen the spread: %g ≤ %g", SplitSpread(lifted), SplitSpread(s))
 	}
 }
+
+// LessBaseline over weighted data gives the weighted products of D − B Pᵀ itself: the
+// same as WeightedDense of the subtracted matrix (definition of the products, checked
+// to rounding), and carries the weights.
+func TestLessBaselineWeighted(t *testing.T) {
+	n, m, k, b := 7, 11, 2, 2
+	rng := rand.New(rand.NewPCG(4, 4))
+	fill := func(r, c int) *mat.Dense {
+		x := mat.NewDense(r, c, nil)
+		for i := 0; i < r; i++ {
+			for j := 0; j < c; j++ {
+				x.Set(i, j, rng.NormFloat64())
+			}
+		}
+		return x
+	}
+	d, bb, p, c, s := fill(n, m), fill(n, b), fill(m, b), fill(n, k), fill(m, k)
+	row, col := make([]float64, n), make([]float64, m)
+	for i := range row {
+		row[i] = 0.5 + rng.Float64()
+	}
+	for j := range col {
+		col[j] = 0.5 + 3*rng.Float64()
+	}
+	lb := LessBaseline{Data: WeightedDense{D: d, Row: row, Col: col}, B: bb, P: p}
+	ref := WeightedDense{D: SubtractBaseline(d, bb, p), Row: row, Col: col}
+	if r, cw := lb.Weights(); r == nil || cw == nil {
+		t.Fatal("LessBaseline of weighted data lost its weights")
+	}
+	for _, pair := range [][2]*mat.Dense{{lb.MulSpectra(s), ref.MulSpectra(s)}, {lb.MulProfiles(c), ref.MulProfiles(c)}} {
+		if !mat.EqualApprox(pair[0], pair[1], 1e-10) {
+			t.Errorf("products differ:\n%v\n%v", mat.Formatted(pair[0]), mat.Formatted(pair[1]))
+		}
+	}
+	if a, want := lb.FrobeniusSq(), ref.FrobeniusSq(); math.Abs(a-want) > 1e-10*want {
+		t.Errorf("FrobeniusSq %g, want %g", a, want)
+	}
+	if r, cw := (LessBaseline{Data: Dense{D: d}, B: bb, P: p}).Weights(); r != nil || cw != nil {
+		t.Error("LessBaseline of plain data reports weights")
+	}
+}

@@ -486,12 +486,12 @@ func judgeChecks(r *Result) {
 		if c.Restarted && c.With < 0.99*resolved {
 			// Only a gain a chemist would see (1 % of the lack of fit);
 			// smaller ones are the refit polishing a flat valley.
-			r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (lack of fit %.3g %%, the resolution's %.3g %%): found from the fit without %s; the resolution stopped in a local minimum, try another --init or --seed", c.With, resolved, c.Name))
+			r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (%s %.3g %%, the resolution's %.3g %%): found from the fit without %s; the resolution stopped in a local minimum, try another --init or --seed", checkMetric(r), c.With, resolved, c.Name))
 		}
 		if rise <= 4*sigma2*dof+pattern || c.With <= 1.05*c.Without {
 			continue
 		}
-		msg := fmt.Sprintf("%s raises the lack of fit from %.3g %% to %.3g %%, also when started from the fit without it: the data disagree with it", c.Name, c.Without, c.With)
+		msg := fmt.Sprintf("%s raises the lack of fit from %.3g %% to %.3g %%%s, also when started from the fit without it: the data disagree with it", c.Name, c.Without, c.With, weightedNote(r))
 		if c.Name == "closure" {
 			msg += "; the total of the concentrations is not constant (sampling, dilution, evaporation, a species left out?): try --closure off, or one total per experiment"
 		}
@@ -538,7 +538,7 @@ func computeBands(r *Result, opt mcr.Options, log io.Writer) {
 		Mode: r.Mode, NonNegProfiles: opt.NonNegProfiles, NonNegSpectra: opt.NonNegSpectra,
 		Closure: opt.Closure, ClosureWeights: opt.ClosureWeights,
 		ZeroProfiles: opt.ZeroProfiles, ZeroSpectra: opt.ZeroSpectra, Known: known,
-		ResidualSS: r.ALS.ResidualSS, Alpha: alpha,
+		ResidualSS: bandsRSS(r), Alpha: alpha,
 	})
 	if err != nil {
 		rep.BandsNote = fmt.Sprintf("uniqueness ranges not computed: %v", err)
@@ -559,6 +559,17 @@ func computeBands(r *Result, opt mcr.Options, log io.Writer) {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("uniqueness range of %s is unbounded (its largest share %.3g is where the search stopped): the constraints allow rotations in which components cancel each other, and the answer shown is one of them; a known spectrum (--known-spectrum) or zero windows (--zero-window) bound the rotation, and a kinetic model (--model with --hard-model) picks the one that obeys it", r.Names[j], band.Max))
 		}
 	}
+}
+
+// bandsRSS is the residual sum of squares the uniqueness ranges' noise
+// allowance scales: unweighted, as the rise they measure (‖C Sᵀ − A₊B₊ᵀ‖²)
+// is; with noise weights the fit's own sum is weighted (units of the noise)
+// and would make the allowance meaningless.
+func bandsRSS(r *Result) float64 {
+	if weighted(r) && r.PlainRSS > 0 {
+		return r.PlainRSS
+	}
+	return r.ALS.ResidualSS
 }
 
 // unboundedBand: a share of the signal ‖c_k s_kᵀ‖/‖C Sᵀ‖ above this is
@@ -648,6 +659,23 @@ func writeBandsAndIntervals(r *Result, st *output.Stage) error {
 	return nil
 }
 
+// checkMetric names the lack of fit the constraint checks compare: with the
+// noise weights it is the weighted one, 100·√(χ²/Σ w d²), not the headline's
+// unweighted figure.
+func checkMetric(r *Result) string {
+	if weighted(r) {
+		return "weighted lack of fit"
+	}
+	return "lack of fit"
+}
+
+func weightedNote(r *Result) string {
+	if weighted(r) {
+		return " (weighted by the noise)"
+	}
+	return ""
+}
+
 // printConstraints adds the constraints, checks and uniqueness ranges to the table.
 func printConstraints(r *Result, w io.Writer) {
 	rep := r.Constraints
@@ -658,7 +686,7 @@ func printConstraints(r *Result, w io.Writer) {
 		fmt.Fprintf(w, "constraint     %s\n", d)
 	}
 	for _, c := range rep.Checks {
-		fmt.Fprintf(w, "  without %-22s lack of fit %.4g %% (with: %.4g %%)\n", c.Name, c.Without, c.With)
+		fmt.Fprintf(w, "  without %-22s %s %.4g %% (with: %.4g %%)\n", c.Name, checkMetric(r), c.Without, c.With)
 	}
 	if rep.Bands != nil {
 		for j, b := range rep.Bands.Bands {

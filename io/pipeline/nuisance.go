@@ -300,30 +300,57 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, l
 		r.BaselineProfiles = res.Baseline
 		r.BaselineShapes = shapes
 		r.D = mcr.SubtractBaseline(r.D, res.Baseline, shapes)
-		data = mcr.LessBaseline{Data: data, B: res.Baseline, P: shapes}
-		if _, ok := data.(mcr.LessBaseline).Data.(mcr.Dense); ok {
+		switch in := data.(type) {
+		case mcr.Dense:
 			data = mcr.Dense{D: r.D}
+		case mcr.WeightedDense:
+			data = mcr.WeightedDense{D: r.D, Row: in.Row, Col: in.Col}
+		default:
+			data = mcr.LessBaseline{Data: data, B: res.Baseline, P: shapes}
 		}
 		// The fit's figures are now those of the data without the baseline,
-		// which the checks and the report compare with.
-		res.LackOfFitPercent = mcr.LackOfFit(r.D, res.C, res.S)
-		res.ResidualSS = sq(res.LackOfFitPercent/100) * frob2(r.D)
-		res.ExplainedPercent = 100 * (1 - sq(res.LackOfFitPercent/100))
+		// in the metric ALS works in (weighted with the noise weights), which
+		// the checks and their refits compare with.
+		row, col := weightsOfData(data)
+		fit := mcr.FitWeighted(r.D, res.C, res.S, row, col, nil)
+		res.ResidualSS = sq(fit.LackOfFitPercent/100) * fit.DataSS
+		total := fit.DataSS
+		if row != nil {
+			res.ResidualSS, total = fit.WeightedSS, data.FrobeniusSq()
+		}
+		if total > 0 {
+			res.LackOfFitPercent = 100 * math.Sqrt(res.ResidualSS/total)
+			res.ExplainedPercent = 100 * (1 - res.ResidualSS/total)
+		}
 	}
 	return res, data, nil
 }
 
 // refreshData rebuilds the ALS data after rows of r.D changed.
+// Weighted data stay weighted with the same weights.
 func refreshData(r *Result, data mcr.Data) (mcr.Data, error) {
-	if _, ok := data.(mcr.Compressed); !ok {
+	row, col := weightsOfData(data)
+	switch data.(type) {
+	case mcr.Compressed, mcr.WeightedCompressed:
+	default:
+		if row != nil {
+			return mcr.WeightedDense{D: r.D, Row: row, Col: col}, nil
+		}
 		return mcr.Dense{D: r.D}, nil
 	}
 	k := r.Components
-	f, err := svd.Decompose(r.D, svd.DecomposeOptions{MaxFactors: largeFactors, Seed: r.Settings.Seed})
+	src := r.D
+	if row != nil {
+		src = svd.Scale(r.D, row, col) // the compressed weighted form factors √A D √B
+	}
+	f, err := svd.Decompose(src, svd.DecomposeOptions{MaxFactors: largeFactors, Seed: r.Settings.Seed})
 	if err != nil {
 		return nil, fmt.Errorf("factor analysis after setting spectra aside: %w", err)
 	}
 	rr := min(len(f.S), k+8+max(r.BaselineOrder+1, 0))
+	if row != nil {
+		return mcr.WeightedCompressed{U: sliceCols(f.U, rr), Sigma: f.S[:rr], V: sliceCols(f.V, rr), FrobSq: f.FrobeniusSq, Row: row, Col: col}, nil
+	}
 	return mcr.Compressed{U: sliceCols(f.U, rr), Sigma: f.S[:rr], V: sliceCols(f.V, rr), FrobSq: f.FrobeniusSq}, nil
 }
 
@@ -391,4 +418,12 @@ func writeBaseline(r *Result, st *output.Stage) error {
 		t.Rows = append(t.Rows, row)
 	}
 	return st.Write("baseline.csv", t.CSV())
+}
+
+// weightsOfData returns the noise weights ALS uses on data (nil, nil unweighted).
+func weightsOfData(data mcr.Data) (row, col []float64) {
+	if w, ok := data.(mcr.Weighted); ok {
+		return w.Weights()
+	}
+	return nil, nil
 }

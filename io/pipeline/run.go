@@ -80,14 +80,18 @@ type Result struct {
 	// there is none); the resolution is written all the same.
 	KineticsErr error
 	LackOfFit   float64 // on the full data
-	Explained   float64
-	NoiseLOF    float64 // lack of fit % that noise alone would give
-	Compressed  bool
-	EFA         *EFAReport
-	Init        string
-	Warnings    []string
-	Notes       []string
-	Advice      []string
+	// PlainRSS is ‖D − C Sᵀ‖² at the observed points, unweighted: the
+	// metric of the uniqueness ranges' rise (mcr.FeasibleBands), whatever
+	// the metric of the fit.
+	PlainRSS   float64
+	Explained  float64
+	NoiseLOF   float64 // lack of fit % that noise alone would give
+	Compressed bool
+	EFA        *EFAReport
+	Init       string
+	Warnings   []string
+	Notes      []string
+	Advice     []string
 	// Constraints: per-component constraints, their checks, uniqueness
 	// ranges and bootstrap intervals (constraints.go).
 	Constraints *ConstraintReport

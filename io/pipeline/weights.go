@@ -167,6 +167,7 @@ func fitFigures(r *Result, res *mcr.Result) {
 	fit := mcr.FitWeighted(r.D, res.C, res.S, row, col, missing)
 	r.LackOfFit = fit.LackOfFitPercent
 	r.Explained = 100 * (1 - sq(r.LackOfFit/100))
+	r.PlainRSS = sq(fit.LackOfFitPercent/100) * fit.DataSS
 	dof := float64(fit.Observed) - float64(k)*float64(n+m-k)
 	if !(dof > 0) || !(fit.DataSS > 0) {
 		return
