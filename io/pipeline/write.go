@@ -238,7 +238,7 @@ func PrintTable(r *Result, w io.Writer) {
 	for _, c := range r.Rank.Criteria {
 		crit = append(crit, fmt.Sprintf("%s %d", c.Name, c.Estimate))
 	}
-	fmt.Fprintf(w, "rank           %d  (%s)\n", r.Rank.Estimate, strings.Join(crit, ", "))
+	fmt.Fprintf(w, "rank           %d%s\n", r.Rank.Estimate, rankDetail(r, crit))
 	if r.DiffRank != nil {
 		fmt.Fprintf(w, "rank of ΔA     %d\n", r.DiffRank.Estimate)
 	}
@@ -283,4 +283,26 @@ func PrintTable(r *Result, w io.Writer) {
 	for _, a := range r.Notes {
 		fmt.Fprintf(w, "note: %s\n", a)
 	}
+}
+
+// rankDetail says, beside the chemical count, what the criteria's larger counts hold:
+// the nuisance factors by number (described in the advice) and the factors that are noise
+// correlated along the axis, so that "noise-floor 12" beside 2 is not read as 12 species.
+func rankDetail(r *Result, crit []string) string {
+	cr := r.Chemical
+	if cr == nil || (len(cr.Nuisance) == 0 && cr.NoiseLike == 0) {
+		return "  (" + strings.Join(crit, ", ") + ")"
+	}
+	var parts []string
+	if len(cr.Nuisance) > 0 {
+		var fs []string
+		for _, nf := range cr.Nuisance {
+			fs = append(fs, strconv.Itoa(nf.Factor))
+		}
+		parts = append(parts, fmt.Sprintf("factor(s) %s not chemistry, see the advice", strings.Join(fs, ", ")))
+	}
+	if cr.NoiseLike > 0 {
+		parts = append(parts, fmt.Sprintf("%d more above the white-noise level are noise correlated along the axis", cr.NoiseLike))
+	}
+	return fmt.Sprintf(" chemical  (%s; the criteria count every factor above the noise: %s)", strings.Join(parts, "; "), strings.Join(crit, ", "))
 }
