@@ -81,7 +81,12 @@ func TestTwoSubsystemsFitAndHonesty(t *testing.T) {
 	}
 	opt := r.Constraints.Options
 	opt.Observe = nil
-	fromTruth, err := mcr.Resolve(mcr.Dense{D: r.D}, s.profiles, opt)
+	// The same data the run resolved, in its metric (noise-weighted by default).
+	var data mcr.Data = mcr.Dense{D: r.D}
+	if weighted(r) {
+		data = mcr.WeightedDense{D: r.D, Row: r.Weights.Row, Col: r.Weights.Col}
+	}
+	fromTruth, err := mcr.Resolve(data, s.profiles, opt)
 	if err != nil {
 		t.Fatal(err)
 	}
