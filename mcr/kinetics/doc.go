@@ -15,10 +15,16 @@
 // # Simulation
 //
 // A first-order network is linear, d/dt [c; ξ] = M [c; ξ] with constant M, and is solved
-// exactly as [c; ξ](t) = exp(M (t − t0)) [c0; 0], through the eigendecomposition of the species
-// block K = V Λ V⁻¹ (c = V e^{Λt} V⁻¹ c0, ξ through (e^{λt} − 1)/λ), accurate to 1e-12 at any
-// k·t; when rate constants are nearly equal (V ill-conditioned, the limit b = k t e^{−kt} of
-// the Bateman (1910) formula) gonum's Padé scaling-and-squaring exponential is used instead. Other networks are integrated by the embedded
+// exactly as [c; ξ](t) = exp(M (t − t0)) [c0; 0], through the eigendecomposition of the
+// species block K = V Λ V⁻¹ (c = V e^{Λt} V⁻¹ c0, ξ through (e^{λt} − 1)/λ) when V is well
+// conditioned. Nearly equal rate constants make V ill-conditioned (the limit k t e^{−kt} of the
+// Bateman (1910) formula); without cycles (no reversible step) K is then taken as triangular in
+// a topological order and exp(Kt) as a sum over reaction paths of products of rate constants
+// times divided differences of e^{xt} at the paths' decay rates (Davis 1973), computed by a
+// Taylor series over clusters of nearly equal rates and by the recurrence elsewhere (McCurdy,
+// Ng & Parlett 1984): every term is positive, so the solution is accurate to 1e-12 at any k·t
+// and for equal rate constants. Only networks with cycles and a nearly defective K use gonum's
+// Padé scaling and squaring. Other networks are integrated by the embedded
 // Dormand & Prince (1980) 5(4) Runge–Kutta pair with local error control (RMS norm of
 // e/(atol + rtol·|y|), step factor 0.9·err^(−1/5)) and the starting step of Hairer, Nørsett &
 // Wanner (Solving ODEs I, 1993). Stiffness is detected as Hairer & Wanner do for DOPRI5

@@ -39,6 +39,11 @@ type FitOptions struct {
 	// free, √B is absorbed into it: the data are scaled to √A D √B and the
 	// model to √A C, and the spectra scaled back. nil = 1.
 	RowWeights, ColWeights []float64
+	// Reduced, for FitData, is the reduction of the same (weighted) data
+	// an earlier FitData returned in FitResult.Reduced: refits of one data
+	// matrix (other starting constants, other orders) then skip the
+	// randomized SVD. Ignored unless it has one row per spectrum.
+	Reduced *mat.Dense
 	// Sim tunes the simulation used inside the fit.
 	Sim SimSettings
 	// LM tunes the Levenberg–Marquardt iteration.
@@ -77,7 +82,10 @@ type FitResult struct {
 	// (1 = none); see honestErrors.
 	Lag1, Inflation  float64
 	DegreesOfFreedom int
-	Iterations       int
+	// Reduced is the reduction of the (weighted) data FitData worked on
+	// (reduceData), to pass back in FitOptions.Reduced.
+	Reduced    *mat.Dense
+	Iterations int
 	Converged        bool
 	Stiff            bool
 	Warnings         []string
@@ -729,9 +737,11 @@ func shapeScores(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions
 // FitData fits the data matrix directly, D (n × m) ≈ C(k) Sᵀ, with the spectra S solved by
 // linear least squares inside each residual evaluation (variable projection, Golub & Pereyra
 // 1973): the residual is (I − P_C) D with P_C the orthogonal projector on the columns of C.
-// When m > n, D is first replaced by U Σ from its thin SVD D = U Σ Vᵀ; since V has orthonormal
-// columns ‖(I − P_C) D‖ = ‖(I − P_C) U Σ‖ for every C, so the fit is unchanged and costs n×n
-// instead of n×m per evaluation. The spectra (m × q, q = species or steps) are returned.
+// D is first replaced by its reduction U Σ on the leading singular vectors (reduceData): since
+// V has orthonormal columns, ‖(I − P_C) D‖ = ‖(I − P_C) U Σ‖ for every C when nothing is left
+// out, and what a truncation leaves out is noise. The reported residual, σ̂ and standard errors
+// are those of the whole D at the fitted rate constants. The spectra (m × q, q = species or
+// steps) are returned.
 func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResult, *mat.Dense, error) {
 	if d == nil {
 		return nil, nil, errors.New("kinetics: fit data: no data")
@@ -766,23 +776,13 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 			d = &dt
 		}
 	}
-	p.dred = d
-	if m > n {
-		var svd mat.SVD
-		if !svd.Factorize(d, mat.SVDThin) {
-			return nil, nil, errors.New("kinetics: fit data: SVD of the data failed")
+	red := opt.Reduced
+	if r, _ := dimsOrZero(red); r != n {
+		if red, err = reduceData(d, p.nModel); err != nil {
+			return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
 		}
-		var u mat.Dense
-		svd.UTo(&u)
-		sv := svd.Values(nil)
-		red := mat.NewDense(n, len(sv), nil)
-		for i := 0; i < n; i++ {
-			for j := range sv {
-				red.Set(i, j, u.At(i, j)*sv[j])
-			}
-		}
-		p.dred = red
 	}
+	p.dred = red
 	_, w := p.dred.Dims()
 	mres := n * w
 	q := p.nModel
@@ -803,11 +803,6 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 	if err != nil {
 		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
 	}
-	res := p.result(lm, sim, model, nObs, rank*m)
-	res.RMS = math.Sqrt(lm.SSR / float64(nObs))
-	if rank < q {
-		res.Warnings = append(res.Warnings, fmt.Sprintf("the model columns have rank %d < %d: the spectra are a minimum-norm solution and not unique", rank, q))
-	}
 	// Spectra Sᵀ = C⁺ D by the SVD pseudo-inverse (minimum norm when C is rank deficient).
 	spectra, err := pseudoSolve(model, d)
 	if err != nil {
@@ -816,6 +811,16 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 	var fitted, resid mat.Dense
 	fitted.Mul(model, spectra.T())
 	resid.Sub(d, &fitted)
+	// The residual sum of squares of the whole data at the fitted rate
+	// constants, not of its reduction: σ̂ and every figure built on it
+	// count the noise the reduction left out.
+	lm.SSR = sumSquares(&resid)
+	res := p.result(lm, sim, model, nObs, rank*m)
+	res.Reduced = red
+	res.RMS = math.Sqrt(lm.SSR / float64(nObs))
+	if rank < q {
+		res.Warnings = append(res.Warnings, fmt.Sprintf("the model columns have rank %d < %d: the spectra are a minimum-norm solution and not unique", rank, q))
+	}
 	res.Fitted, res.Residual = &fitted, &resid
 	if opt.RowWeights != nil || opt.ColWeights != nil {
 		// Back to the data's units: the spectra lose √B, the model √A;
@@ -976,4 +981,22 @@ func Lag1(res *mat.Dense) (float64, bool) {
 		return 0, false
 	}
 	return num / den, true
+}
+
+func sumSquares(a *mat.Dense) float64 {
+	var s float64
+	r, _ := a.Dims()
+	for i := 0; i < r; i++ {
+		for _, v := range a.RawRowView(i) {
+			s += v * v
+		}
+	}
+	return s
+}
+
+func dimsOrZero(a *mat.Dense) (int, int) {
+	if a == nil {
+		return 0, 0
+	}
+	return a.Dims()
 }
