@@ -63,6 +63,9 @@ type Kinetics struct {
 	// rate_constants.
 	Fits    []*KineticFit
 	Primary int
+	// reduced is the data fits' reduction of the data (kinetics.FitData),
+	// kept so that refits of the same data do not repeat it.
+	reduced *mat.Dense
 }
 
 // KineticFit is one fit of the scheme.
@@ -384,7 +387,114 @@ func newKinetics(r *Result, c *mat.Dense) (*Kinetics, error) {
 	}
 	kn.Columns = cols
 	kn.MapSource = "auto: the assignment of components to " + what + " with the lowest residual"
+	if seen, note := kn.c0FromProfiles(r, c); seen != nil {
+		kn.tryC0(r, c, obs, seen, note)
+	}
 	return kn, nil
+}
+
+// tryC0 compares the profile fits with the default initial concentrations
+// and with those the pre-reaction profiles show (the map chosen again for
+// them), and keeps the better fit; the note records both residuals either
+// way, so the choice is checked, not assumed.
+func (kn *Kinetics) tryC0(r *Result, c, obs *mat.Dense, seen []float64, note string) {
+	defC0, defCols := kn.C0, kn.Columns
+	defFit, _, errDef := kn.fitProfiles(r.Times, c, kn.starts(r.Times))
+	kn.C0 = seen
+	if cols, err := kinetics.AutoMap(kn.Scheme, r.Times, obs, kn.options(kn.firstStart(r.Times))); err == nil {
+		kn.Columns = cols
+	}
+	newFit, _, errNew := kn.fitProfiles(r.Times, c, kn.starts(r.Times))
+	switch {
+	case errNew == nil && (errDef != nil || newFit.SSR < defFit.SSR*(1-1e-6)):
+		if errDef == nil {
+			note += fmt.Sprintf(": the profiles fit better with them (residual sum of squares %.4g against %.4g with the default), so the fits use them", newFit.SSR, defFit.SSR)
+		}
+		r.Notes = append(r.Notes, note+"; give --c0 to set them, or --fit-c0 to fit them")
+	default:
+		kn.C0, kn.Columns = defC0, defCols
+		if errNew == nil && errDef == nil {
+			r.Notes = append(r.Notes, note+fmt.Sprintf(", but the profiles fit no better with them (residual sum of squares %.4g against %.4g with the default), so the default is kept; give --c0 to set them", newFit.SSR, defFit.SSR))
+		}
+	}
+}
+
+// c0FromPreTolerance is how far (as a fraction of the closure total) the
+// pre-reaction profiles may lie from the scheme's default initial
+// concentrations before the default is taken as contradicted: resolved
+// profiles carry a few per cent of rotational ambiguity and noise.
+const c0FromPreTolerance = 0.05
+
+// c0FromProfiles replaces the scheme's default initial concentrations (the
+// species no step forms share the closure total) by those the resolved
+// profiles show before the reaction starts (the mean of the rows at
+// t ≤ t0), when they contradict the default by more than
+// c0FromPreTolerance of the total: a sample that holds some intermediate,
+// or a reversible A -> B; B -> A started from a mixture, is not A alone,
+// and fitted from A = 1 its rate constants go wherever the misfit pushes
+// them. Only in species mode with closure (concentrations in known units),
+// without --c0, with every species mapped to a component and at least two
+// spectra before t0 (one row cannot tell a start from a stray value).
+// Values under 2 % of the total are taken as zero (noise); the rest is
+// scaled to the total. Returns the candidate and the start of its note,
+// nil when the profiles agree with the default.
+func (kn *Kinetics) c0FromProfiles(r *Result, c *mat.Dense) ([]float64, string) {
+	if r.Settings.C0 != "" || kn.Extents || kn.Amplitudes || len(kn.Columns) != len(kn.Scheme.Species) {
+		return nil, ""
+	}
+	var pre []int
+	for i, t := range r.Times {
+		if t <= kn.T0 {
+			pre = append(pre, i)
+		}
+	}
+	if len(pre) < 2 {
+		return nil, ""
+	}
+	total := 0.0
+	for _, v := range kn.C0 {
+		total += v
+	}
+	seen := make([]float64, len(kn.C0))
+	for j, comp := range kn.Components {
+		var sum float64
+		for _, i := range pre {
+			sum += c.At(i, comp)
+		}
+		seen[kn.Columns[j]] = math.Max(0, sum/float64(len(pre)))
+	}
+	off := 0.0
+	for i, v := range seen {
+		off = math.Max(off, math.Abs(v-kn.C0[i]))
+	}
+	if !(off > c0FromPreTolerance*total) {
+		return nil, ""
+	}
+	var kept float64
+	for i, v := range seen {
+		if v < 0.02*total {
+			seen[i] = 0
+		}
+		kept += seen[i]
+	}
+	if !(kept > 0) {
+		return nil, ""
+	}
+	for i := range seen {
+		seen[i] *= total / kept
+	}
+	return seen, fmt.Sprintf("kinetics: the resolved profiles before the reaction (%d spectra at t ≤ t0 = %g s) show %s, not the scheme's default %s (off by %.2g of the closure total, more than %.2g)", len(pre), kn.T0, c0TextG(kn.Scheme, seen), c0Text(kn.Scheme, kn.C0), off/total, c0FromPreTolerance)
+}
+
+// c0TextG is c0Text with 3 significant digits.
+func c0TextG(sch *kinetics.Scheme, c0 []float64) string {
+	var parts []string
+	for i, v := range c0 {
+		if v > 0 {
+			parts = append(parts, fmt.Sprintf("[%s]0 = %.3g", sch.Species[i], v))
+		}
+	}
+	return strings.Join(parts, ", ")
 }
 
 func c0Text(sch *kinetics.Scheme, c0 []float64) string {
@@ -555,17 +665,29 @@ func permuteOptions(opt mcr.Options, order []int) mcr.Options {
 // mcr.Options.HardModel replaces the mapped profiles by their kinetic fit
 // (warm-started from the previous cycle's rate constants, so the cycles stay
 // cheap and the path is deterministic). Unmapped components stay soft.
-func hardSoft(r *Result, data mcr.Data, opt mcr.Options, order []int, log io.Writer) (*mcr.Result, error) {
+func hardSoft(r *Result, data mcr.Data, opt mcr.Options, order []int, log io.Writer) (*mcr.Result, mcr.Data, error) {
 	kn, err := newKinetics(r, r.ALS.C)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	soft, softObs, err := kn.fitProfiles(r.Times, r.ALS.C, kn.starts(r.Times))
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	last, lastObs := soft, softObs
 	hopt := permuteOptions(opt, order)
+	start := r.ALS.C
+	if pre := kn.dataStart(r, soft, opt); pre != nil {
+		// Every component is one model column: start from the data fit's
+		// concentrations (or extents), the map is the scheme's order.
+		k := len(kn.Components)
+		for j := 0; j < k; j++ {
+			kn.Components[j], kn.Columns[j] = j, j
+		}
+		kn.MapSource = "auto: the " + kn.columnWord() + " in the scheme's order, hard–soft started from the fit of the data matrix"
+		start, last, hopt = pre.Model, pre, opt
+		fmt.Fprintf(log, "hard–soft starts from the data fit, k = %s\n", kn.kList(pre.K))
+	}
 	hopt.HardModel = func(c *mat.Dense) (*mat.Dense, error) {
 		obs := kn.observed(c)
 		fit, err := kinetics.FitProfiles(kn.Scheme, r.Times, obs, kn.Columns, kn.warm(last))
@@ -580,9 +702,45 @@ func hardSoft(r *Result, data mcr.Data, opt mcr.Options, order []int, log io.Wri
 		return out, nil
 	}
 	fmt.Fprintf(log, "hard–soft resolution with %s\n", kn.Scheme.Text)
-	res, err := mcr.Resolve(data, r.ALS.C, hopt)
+	var withBaseline *mat.Dense
+	var inner mcr.Data // the data as read, when resolve wrapped it
+	if r.BaselineShapes != nil && r.BaselineProfiles != nil {
+		// resolve subtracted the baseline the soft solution came with;
+		// a soft solution stuck in a local minimum takes chemistry into
+		// it. Hard–soft estimates the baseline again, jointly with the
+		// model's profiles, from the data as read.
+		switch d := data.(type) {
+		case mcr.Dense:
+			var bp mat.Dense
+			bp.Mul(r.BaselineProfiles, r.BaselineShapes.T())
+			withBaseline = mat.DenseCopyOf(r.D)
+			withBaseline.Add(withBaseline, &bp)
+			data = mcr.Dense{D: withBaseline}
+			hopt.Baseline = r.BaselineShapes
+		case mcr.LessBaseline:
+			var bp mat.Dense
+			bp.Mul(r.BaselineProfiles, r.BaselineShapes.T())
+			withBaseline = mat.DenseCopyOf(r.D)
+			withBaseline.Add(withBaseline, &bp)
+			inner = d.Data
+			data = d.Data
+			hopt.Baseline = r.BaselineShapes
+		}
+	}
+	res, err := mcr.Resolve(data, start, hopt)
 	if err != nil {
-		return nil, fmt.Errorf("hard–soft: %w", err)
+		return nil, nil, fmt.Errorf("hard–soft: %w", err)
+	}
+	if withBaseline != nil && res.Baseline != nil {
+		r.BaselineProfiles = res.Baseline
+		r.D = mcr.SubtractBaseline(withBaseline, res.Baseline, r.BaselineShapes)
+		res.LackOfFitPercent = mcr.LackOfFit(r.D, res.C, res.S)
+		res.ResidualSS = sq(res.LackOfFitPercent/100) * frob2(r.D)
+		res.ExplainedPercent = 100 * (1 - sq(res.LackOfFitPercent/100))
+		data = mcr.Dense{D: r.D}
+		if inner != nil {
+			data = mcr.LessBaseline{Data: inner, B: res.Baseline, P: r.BaselineShapes}
+		}
 	}
 	if r.Mode == mcr.Reactions {
 		// Rescale as resolve does, and the last cycle's soft profiles with
@@ -604,13 +762,13 @@ func hardSoft(r *Result, data mcr.Data, opt mcr.Options, order []int, log io.Wri
 		// weights of the columns, so the fit is redone rather than rescaled.
 		fit, err := kinetics.FitProfiles(kn.Scheme, r.Times, lastObs, kn.Columns, kn.warm(last))
 		if err != nil {
-			return nil, fmt.Errorf("hard–soft: final fit: %w", err)
+			return nil, nil, fmt.Errorf("hard–soft: final fit: %w", err)
 		}
 		last = fit
 	}
 	kn.Fits = []*KineticFit{{Method: "hard-soft", Fit: last, Observed: lastObs}, {Method: "soft-profiles", Fit: soft, Observed: softObs}}
 	r.Kinetics = kn
-	return res, nil
+	return res, data, nil
 }
 
 // fitKinetics fits --model after resolve: the resolved profiles (unless a
@@ -643,36 +801,13 @@ func fitKinetics(r *Result, log io.Writer) error {
 	// step is fast (for A -> B -> C the model columns span the same space
 	// with k1 and k2 swapped, the "slow–fast" ambiguity), the non-negative,
 	// closed profiles can.
-	dopt := kn.warm(kn.Fits[0].Fit)
-	dopt.Amplitudes = false
-	n, m := r.D.Dims()
-	if w := r.Weights; w != nil && len(w.Row) == n && len(w.Col) == m {
-		// The noise weights of the data (maximum likelihood): the
-		// standard errors then follow the noise of each point.
-		dopt.RowWeights, dopt.ColWeights = w.Row, w.Col
-	}
-	if len(r.SetAside) > 0 {
-		// A spectrum set aside holds the resolution's model, not data
-		// (imputeRows): weight zero, so it neither pulls on the rate
-		// constants nor counts as an observation in their standard errors.
-		row := make([]float64, n)
-		for i := range row {
-			row[i] = 1
-			if dopt.RowWeights != nil {
-				row[i] = dopt.RowWeights[i]
-			}
-		}
-		for _, sa := range r.SetAside {
-			row[sa.Row] = 0
-		}
-		dopt.RowWeights = row
-	}
-	dfit, spectra, err := kinetics.FitData(kn.Scheme, r.Times, r.D, dopt)
+	dopt := kn.dataOptions(r, kn.warm(kn.Fits[0].Fit))
+	dfit, spectra, err := kn.fitData(r, dopt)
 	if err != nil {
 		r.Warnings = append(r.Warnings, "kinetics: the fit of the data matrix failed: "+oneLineText(err.Error()))
 	} else {
 		kn.Fits = append(kn.Fits, &KineticFit{Method: "data", Fit: dfit, Spectra: spectra})
-		kn.swapCheck(r, dfit, spectra, dopt)
+		kn.swapCheck(r, dfit, spectra, dopt, &r.Notes)
 		if ratio := dataFitToNoise(r, dfit); ratio > 2 {
 			dfit.Warnings = append(dfit.Warnings, fmt.Sprintf("the model leaves a residual %.3g times the noise: it does not describe the data (a missing step or species, wrong starting concentrations, drift?); the standard errors include that misfit but the rate constants may be biased", ratio))
 		}
@@ -702,68 +837,365 @@ func fitKinetics(r *Result, log io.Writer) error {
 	return nil
 }
 
-// swapCheck refits the data with the rate constants of two free steps
-// exchanged. For consecutive first-order steps the model columns span the
-// same space either way (the slow–fast ambiguity), so with free spectra the
-// data often cannot choose. Each exchange is compared with the reported fit
-// in noise variances: clearly better, it replaces the reported one (with a
-// warning); as good, a warning names the ambiguity; clearly worse, a note
-// says the data choose.
-// Only schemes with at most three free steps are checked (≤ 3 extra fits).
-func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.Dense, opt kinetics.FitOptions) {
-	var free []int
-	for j := range kn.Scheme.Steps {
-		if !kn.KFixed[j] {
-			free = append(free, j)
+// dataOptions are the options of a fit of the data matrix: no amplitudes
+// (the spectra carry the scale) and the noise weights of the data when
+// there are any (maximum likelihood: the standard errors then follow the
+// noise of each point).
+func (kn *Kinetics) dataOptions(r *Result, opt kinetics.FitOptions) kinetics.FitOptions {
+	opt.Amplitudes = false
+	n, m := r.D.Dims()
+	if w := r.Weights; w != nil && len(w.Row) == n && len(w.Col) == m {
+		opt.RowWeights, opt.ColWeights = keptValues(r, w.Row), w.Col
+	}
+	return opt
+}
+
+// keptRows lists the rows of r.D that are data: spectra set aside as
+// outliers were replaced by the resolution's fit (imputeRows), so a fit of
+// the data matrix that kept them would partly fit the resolution — and a
+// soft resolution stuck in a local minimum sets aside exactly the spectra
+// it fits worst, often the first ones of the reaction, where the fastest
+// step shows.
+func keptRows(r *Result) []int {
+	aside := map[int]bool{}
+	for _, sa := range r.SetAside {
+		aside[sa.Row] = true
+	}
+	var rows []int
+	for i := range r.Times {
+		if !aside[i] {
+			rows = append(rows, i)
 		}
 	}
-	if len(free) < 2 || len(free) > 3 {
+	return rows
+}
+
+func keptValues(r *Result, v []float64) []float64 {
+	if len(r.SetAside) == 0 {
+		return v
+	}
+	var out []float64
+	for _, i := range keptRows(r) {
+		out = append(out, v[i])
+	}
+	return out
+}
+
+// fitData is kinetics.FitData on the rows of r.D that are data (keptRows),
+// with the model columns then simulated at every time, so that Model has
+// one row per spectrum as everywhere else.
+func (kn *Kinetics) fitData(r *Result, opt kinetics.FitOptions) (*kinetics.FitResult, *mat.Dense, error) {
+	times, d := r.Times, r.D
+	if r.BaselineShapes != nil {
+		// The baseline resolve subtracted came with its own (soft)
+		// solution; fitted jointly instead, it leaves the data's
+		// component along the baseline shapes out (projectOutShapes).
+		d = projectOutShapes(d, r.BaselineShapes)
+	}
+	if len(r.SetAside) > 0 {
+		rows := keptRows(r)
+		_, m := d.Dims()
+		all := d
+		d = mat.NewDense(len(rows), m, nil)
+		times = make([]float64, len(rows))
+		for a, i := range rows {
+			d.SetRow(a, all.RawRowView(i))
+			times[a] = r.Times[i]
+		}
+	}
+	if opt.Reduced == nil {
+		opt.Reduced = kn.reduced
+	}
+	fit, spectra, err := kinetics.FitData(kn.Scheme, times, d, opt)
+	if err == nil {
+		kn.reduced = fit.Reduced
+	}
+	if err != nil || len(r.SetAside) == 0 {
+		return fit, spectra, err
+	}
+	sim, err := kn.Scheme.Simulate(fit.K, fit.C0, r.Times, kn.T0)
+	if err != nil {
+		return nil, nil, err
+	}
+	fit.Model = sim.C
+	if kn.Extents {
+		fit.Model = sim.Extents
+	}
+	return fit, spectra, nil
+}
+
+// nonNegativeCost is kinetics.NonNegativeCost on the rows fitData fits.
+func (kn *Kinetics) nonNegativeCost(r *Result, k []float64, opt kinetics.FitOptions) (float64, error) {
+	times, d := r.Times, r.D
+	if len(r.SetAside) > 0 {
+		rows := keptRows(r)
+		_, m := r.D.Dims()
+		d = mat.NewDense(len(rows), m, nil)
+		times = make([]float64, len(rows))
+		for a, i := range rows {
+			d.SetRow(a, r.D.RawRowView(i))
+			times[a] = r.Times[i]
+		}
+	}
+	return kinetics.NonNegativeCost(kn.Scheme, times, d, k, opt)
+}
+
+// dataStart fits the data matrix before hard–soft ALS, so that a soft
+// resolution stuck in a local minimum (two closed subsystems leave the data
+// rank below the number of species, and the soft profiles then mix them)
+// cannot choose the map and the start: variable projection from the
+// kinetics package's grid of starting constants and from the soft profiles'
+// fit, the lower residual kept, and every other order of the constants
+// compared with non-negative spectra (swapCheck). Only when every
+// component is one model column, the map is automatic and the
+// per-component options are alike (they then do not depend on the order);
+// nil otherwise or when the fit fails.
+func (kn *Kinetics) dataStart(r *Result, soft *kinetics.FitResult, opt mcr.Options) *kinetics.FitResult {
+	nModel := len(kn.Scheme.Species)
+	if kn.Extents {
+		nModel = len(kn.Scheme.Steps)
+	}
+	if r.Settings.Map != "" || len(kn.Components) != nModel || r.Components != nModel || !alikeOptions(opt) {
+		return nil
+	}
+	var best *kinetics.FitResult
+	var bestSpectra *mat.Dense
+	var bestOpt kinetics.FitOptions
+	for _, base := range []kinetics.FitOptions{kn.options(kn.firstStart(r.Times)), kn.warm(soft)} {
+		o := kn.dataOptions(r, base)
+		f, sp, err := kn.fitData(r, o)
+		if err != nil {
+			continue
+		}
+		if best == nil || f.SSR < best.SSR*(1-1e-9) {
+			best, bestSpectra, bestOpt = f, sp, o
+		}
+	}
+	if best == nil {
+		return nil
+	}
+	var discard []string
+	kn.swapCheck(r, best, bestSpectra, bestOpt, &discard)
+	return best
+}
+
+// alikeOptions reports whether every per-component option of ALS is the
+// same for all components (or unset), so that starting ALS from columns in
+// another order changes nothing.
+func alikeOptions(opt mcr.Options) bool {
+	alike := func(b []bool) bool {
+		for _, v := range b {
+			if v != b[0] {
+				return false
+			}
+		}
+		return true
+	}
+	if !alike(opt.NonNegProfiles) || !alike(opt.NonNegSpectra) || !alike(opt.Unimodal) {
+		return false
+	}
+	for _, w := range opt.ClosureWeights {
+		if w != opt.ClosureWeights[0] {
+			return false
+		}
+	}
+	for _, z := range opt.ZeroProfiles {
+		if len(z) != len(opt.ZeroProfiles[0]) {
+			return false
+		}
+		for i, v := range z {
+			if v != opt.ZeroProfiles[0][i] {
+				return false
+			}
+		}
+	}
+	return opt.KnownSpectra == nil && opt.ZeroSpectra == nil
+}
+
+func (kn *Kinetics) columnWord() string {
+	if kn.Extents {
+		return "steps"
+	}
+	return "species"
+}
+
+// swapCheck refits the data with the free rate constants of steps of one
+// order put in every other order (each exchanged pair, and for three or
+// four such steps every permutation). With free spectra the model columns
+// often span the same space either way (the slow–fast ambiguity of
+// consecutive steps; for independent subsystems such as A -> B -> C; D -> E
+// the span {1, e^{−k1 t}, e^{−k2 t}, e^{−k3 t}} ignores the order
+// altogether), so each alternative is compared with the reported fit first
+// with free spectra and, when that cannot choose, with non-negative spectra
+// (kinetics.NonNegativeCost), in noise variances: a difference of more than
+// 4 is beyond noise (an F test with one degree of freedom; common
+// practice). The better fit is reported, and the message says which fits
+// better and by how much.
+func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.Dense, opt kinetics.FitOptions, notes *[]string) {
+	alts := kn.exchanges(best.K)
+	if len(alts) == 0 {
 		return
 	}
-	for a := 0; a < len(free); a++ {
-		for b := a + 1; b < len(free); b++ {
-			i, j := free[a], free[b]
-			if math.Abs(best.K[i]-best.K[j]) <= 0.01*math.Max(best.K[i], best.K[j]) {
-				continue
+	nnCost := func(k []float64) (float64, bool) {
+		o := opt
+		if kn.FitC0 {
+			o.C0 = best.C0
+		}
+		v, err := kn.nonNegativeCost(r, k, o)
+		return v, err == nil
+	}
+	bestNN, bestNNok := 0.0, false
+	bestNNdone := false
+	var worseFree, worseNN []string
+	defer func() {
+		// One note each for the alternatives the data reject, with the
+		// figures of every one, against the values finally reported.
+		if len(worseFree) > 0 {
+			*notes = append(*notes, fmt.Sprintf("kinetics: the data fit worse with the rate constants in another order than k = %s (free spectra): %s", kn.kList(best.K), strings.Join(worseFree, "; ")))
+		}
+		if len(worseNN) > 0 {
+			*notes = append(*notes, fmt.Sprintf("kinetics: other orders of the rate constants fit the data as well as k = %s with free spectra but worse with non-negative spectra, which choose the reported order: %s", kn.kList(best.K), strings.Join(worseNN, "; ")))
+		}
+	}()
+	for _, start := range alts {
+		o := opt
+		o.InitialK = start
+		alt, altSpectra, err := kn.fitData(r, o)
+		if err != nil || !(best.Sigma > 0) {
+			continue
+		}
+		if sameK(alt.K, best.K) {
+			continue // the exchanged start led back to the same answer
+		}
+		s2 := best.Sigma * best.Sigma
+		free := (alt.SSR - best.SSR) / s2
+		ks := kn.kList(alt.K)
+		what := fmt.Sprintf("k = %s instead of %s", ks, kn.kList(best.K))
+		if free < -4 {
+			old, oldSSR := kn.kList(best.K), best.SSR
+			*best, *spectra = *alt, *altSpectra
+			worseFree, worseNN = nil, nil // their figures were against the old values
+			best.Warnings = append(best.Warnings, fmt.Sprintf("the data fit better with k = %s than with %s, the order the resolved profiles pointed to (free spectra: residual sum of squares %.4g times lower, %.3g noise variances); the better values are reported", ks, old, oldSSR/best.SSR, -free))
+			bestNNdone = false
+			continue
+		}
+		if free > 4 {
+			worseFree = append(worseFree, fmt.Sprintf("%s: residual sum of squares %.4g times higher (%.3g noise variances)", ks, alt.SSR/best.SSR, free))
+			continue
+		}
+		// Free spectra cannot choose: non-negative spectra may.
+		if !bestNNdone {
+			bestNN, bestNNok = nnCost(best.K)
+			bestNNdone = true
+		}
+		altNN, ok := nnCost(alt.K)
+		if !ok || !bestNNok {
+			best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell the order of the rate constants: %s fits as well with free spectra (%.2g noise variances); the reported values are the ones the resolved profiles point to", what, free))
+			continue
+		}
+		nn := (alt.SSR + altNN - best.SSR - bestNN) / s2
+		switch {
+		case nn < -4:
+			old := kn.kList(best.K)
+			oldNN := best.SSR + bestNN
+			*best, *spectra = *alt, *altSpectra
+			bestNN = altNN
+			worseFree, worseNN = nil, nil
+			best.Warnings = append(best.Warnings, fmt.Sprintf("with free spectra k = %s and %s fit the data as well (%.2g noise variances), but with non-negative spectra k = %s fits better (residual sum of squares %.4g times lower, %.3g noise variances): it is reported; the resolved profiles pointed the other way", ks, old, free, ks, oldNN/(best.SSR+altNN), -nn))
+		case nn > 4:
+			worseNN = append(worseNN, fmt.Sprintf("%s: %.2g noise variances with free spectra, with non-negative spectra a residual sum of squares %.4g times higher (%.3g noise variances)", ks, free, (alt.SSR+altNN)/(best.SSR+bestNN), nn))
+		default:
+			best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell the order of the rate constants: %s fits as well, with free spectra (%.2g noise variances) and with non-negative ones (%.2g noise variances; slow–fast ambiguity); the reported values are the ones the resolved profiles point to", what, free, nn))
+		}
+	}
+}
+
+// exchanges lists the other orders of the free rate constants among steps
+// of equal order: every exchanged pair, and with three or four such steps
+// every permutation (at most 23 alternatives); k of steps with equal
+// values (within 1 %) are not told apart.
+func (kn *Kinetics) exchanges(k []float64) [][]float64 {
+	byOrder := map[int][]int{}
+	var orders []int
+	for j, st := range kn.Scheme.Steps {
+		if kn.KFixed[j] {
+			continue
+		}
+		if _, ok := byOrder[st.Order]; !ok {
+			orders = append(orders, st.Order)
+		}
+		byOrder[st.Order] = append(byOrder[st.Order], j)
+	}
+	var out [][]float64
+	seen := map[string]bool{kFingerprint(k): true}
+	for _, ord := range orders {
+		steps := byOrder[ord]
+		if len(steps) < 2 || len(steps) > 4 {
+			continue
+		}
+		perm := make([]int, len(steps))
+		for i := range perm {
+			perm[i] = i
+		}
+		for nextPermutation(perm) {
+			alt := append([]float64(nil), k...)
+			for a, b := range perm {
+				alt[steps[a]] = k[steps[b]]
 			}
-			o := opt
-			o.InitialK = append([]float64(nil), best.K...)
-			o.InitialK[i], o.InitialK[j] = best.K[j], best.K[i]
-			alt, altSpectra, err := kinetics.FitData(kn.Scheme, r.Times, r.D, o)
-			if err != nil {
-				continue
-			}
-			same := true
-			for l := range alt.K {
-				same = same && math.Abs(alt.K[l]-best.K[l]) <= 0.01*best.K[l]
-			}
-			if same {
-				continue // the exchanged start led back to the same answer
-			}
-			var ks []string
-			for l, st := range kn.Scheme.Steps {
-				ks = append(ks, fmt.Sprintf("%s k = %.4g %s", st.Text, alt.K[l], kn.rateUnit(st.Order)))
-			}
-			// The difference in residual in units of the noise variance
-			// behind the standard errors: a few units is noise (an F test
-			// with one degree of freedom; common practice).
-			units := 0.0
-			if best.Sigma > 0 {
-				units = (alt.SSR - best.SSR) / (best.Sigma * best.Sigma)
-			}
-			pair := fmt.Sprintf("%q and %q", kn.Scheme.Steps[i].Text, kn.Scheme.Steps[j].Text)
-			switch {
-			case alt.SSR < best.SSR*(1-1e-6) && units < -4:
-				// The exchanged rates fit clearly better: report them.
-				*best, *spectra = *alt, *altSpectra
-				best.Warnings = append(best.Warnings, fmt.Sprintf("with the rate constants of %s exchanged the data fit better (residual sum of squares %.4g times lower, %.3g noise variances): the exchanged values (%s) are reported; the resolved profiles pointed the other way", pair, best.SSR/alt.SSR, -units, strings.Join(ks, ", ")))
-			case math.Abs(units) <= 4 || math.Abs(alt.SSR-best.SSR) <= 1e-6*best.SSR:
-				best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell which of %s is faster: %s fits as well (residual sum of squares ratio %.6f, %.2g noise variances; slow–fast ambiguity, free spectra); the reported values are the ones the resolved profiles point to", pair, strings.Join(ks, ", "), alt.SSR/best.SSR, units))
-			default:
-				r.Notes = append(r.Notes, fmt.Sprintf("kinetics: with the rate constants of %s exchanged (k = %s) the data fit worse (residual sum of squares %.4g times higher, %.3g noise variances), so the data choose the reported order", pair, strings.Join(ks, ", "), alt.SSR/best.SSR, units))
+			if f := kFingerprint(alt); !seen[f] {
+				seen[f] = true
+				out = append(out, alt)
 			}
 		}
 	}
+	return out
+}
+
+// kFingerprint identifies a set of rate constants to 1 %.
+func kFingerprint(k []float64) string {
+	var b strings.Builder
+	for _, v := range k {
+		fmt.Fprintf(&b, "%.0f,", math.Round(math.Log(v)*100))
+	}
+	return b.String()
+}
+
+// nextPermutation advances p to the next permutation in lexicographic
+// order; false after the last.
+func nextPermutation(p []int) bool {
+	i := len(p) - 2
+	for i >= 0 && p[i] >= p[i+1] {
+		i--
+	}
+	if i < 0 {
+		return false
+	}
+	j := len(p) - 1
+	for p[j] <= p[i] {
+		j--
+	}
+	p[i], p[j] = p[j], p[i]
+	for a, b := i+1, len(p)-1; a < b; a, b = a+1, b-1 {
+		p[a], p[b] = p[b], p[a]
+	}
+	return true
+}
+
+func sameK(a, b []float64) bool {
+	for l := range a {
+		if math.Abs(a[l]-b[l]) > 0.01*b[l] {
+			return false
+		}
+	}
+	return true
+}
+
+func (kn *Kinetics) kList(k []float64) string {
+	var ks []string
+	for l, st := range kn.Scheme.Steps {
+		ks = append(ks, fmt.Sprintf("%s %.4g %s", st.Text, k[l], kn.rateUnit(st.Order)))
+	}
+	return "(" + strings.Join(ks, ", ") + ")"
 }
 
 // dataFitToNoise is the data fit's residual standard deviation over the
@@ -1005,5 +1437,56 @@ func printDemoKinetics(r *Result, truth []float64, w io.Writer) {
 			}
 			fmt.Fprintf(w, "  %-13s %-8s k = %.6g ± %.2g /s   truth %g /s   (%s standard errors)\n", f.Method, st.Text, f.Fit.K[j], f.Fit.KStdErr[j], truth[j], dev)
 		}
+	}
+}
+
+// projectOutShapes returns D (I − P(PᵀP)⁻¹Pᵀ): each spectrum without its
+// least-squares component along the axis shapes P (m × b, the baseline's
+// Legendre polynomials). With a baseline D ≈ C Sᵀ + B Pᵀ whose
+// coefficients B are free per spectrum and spectra S free, fitting C(k)
+// to D (I − P P⁺) gives the same rate constants as fitting C(k) Sᵀ + B Pᵀ
+// to D jointly (separable least squares, Golub & Pereyra 1973), and does
+// not depend on the baseline ALS subtracted (its rows lie in span P).
+func projectOutShapes(d, p *mat.Dense) *mat.Dense {
+	var q mat.Dense
+	q.CloneFrom(p)
+	orthonormalizeCols(&q)
+	var dq, out mat.Dense
+	dq.Mul(d, &q)       // n × b
+	out.Mul(&dq, q.T()) // n × m
+	out.Sub(d, &out)
+	return &out
+}
+
+// orthonormalizeCols replaces the columns of a by an orthonormal basis of
+// their span (modified Gram–Schmidt, twice).
+func orthonormalizeCols(a *mat.Dense) {
+	_, c := a.Dims()
+	cols := make([][]float64, c)
+	for j := range cols {
+		cols[j] = mat.Col(nil, j, a)
+	}
+	for j := range cols {
+		for pass := 0; pass < 2; pass++ {
+			for l := 0; l < j; l++ {
+				var dot float64
+				for i, v := range cols[l] {
+					dot += v * cols[j][i]
+				}
+				for i, v := range cols[l] {
+					cols[j][i] -= dot * v
+				}
+			}
+		}
+		var nrm float64
+		for _, v := range cols[j] {
+			nrm += v * v
+		}
+		if nrm = math.Sqrt(nrm); nrm > 0 {
+			for i := range cols[j] {
+				cols[j][i] /= nrm
+			}
+		}
+		a.SetCol(j, cols[j])
 	}
 }

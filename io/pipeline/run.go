@@ -597,10 +597,11 @@ func resolve(r *Result, log io.Writer) error {
 	if s.Model != "" && s.HardModel {
 		// Hard–soft: the soft solution fixes the map, then ALS restarts from
 		// it with mcr.Options.HardModel set (see hardSoft).
-		hard, err := hardSoft(r, data, opt, order, log)
+		hard, hdata, err := hardSoft(r, data, opt, order, log)
 		if err != nil {
 			return err
 		}
+		data = hdata
 		r.SoftALS, res = res, hard
 		r.ALS = res
 	}

@@ -73,8 +73,9 @@ func TestTimeUnitOnTheTerminal(t *testing.T) {
 			t.Errorf("%s: no 't0 = %s' in\n%s", c.unit, t0, out)
 		}
 		for _, l := range strings.Split(out, "\n") {
-			// Warnings are summary.json's text, in seconds with the unit said.
-			if c.div > 1 && strings.Contains(l, " s^-1") && !strings.HasPrefix(l, "warning:") {
+			// Warnings and notes are summary.json's text, in seconds with
+			// the unit said.
+			if c.div > 1 && strings.Contains(l, " s^-1") && !strings.HasPrefix(l, "warning:") && !strings.HasPrefix(l, "note:") {
 				t.Errorf("%s: a rate still per second: %s", c.unit, l)
 			}
 		}
