@@ -86,9 +86,9 @@ type FitResult struct {
 	// (reduceData), to pass back in FitOptions.Reduced.
 	Reduced    *mat.Dense
 	Iterations int
-	Converged        bool
-	Stiff            bool
-	Warnings         []string
+	Converged  bool
+	Stiff      bool
+	Warnings   []string
 }
 
 type fitProblem struct {
