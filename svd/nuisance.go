@@ -309,9 +309,9 @@ func minorLooks(u, v, axis []float64, ratio float64, chem int, relPercent float6
 		}
 	}
 	if ratio <= fitsNoise {
-		fmt.Fprintf(&b, "; %d component(s) already fit to the noise (residual/noise %.3g), so it does not lower the fit significantly and is not counted as a species", chem, ratio)
+		fmt.Fprintf(&b, "; %d component(s) already fit to the noise (their SVD residual, before any constraint or baseline, is %.3g × the noise), so it does not lower the fit significantly and is not counted as a species", chem, ratio)
 	} else {
-		fmt.Fprintf(&b, "; it carries %.2g %% of the signal of the smallest of the %d component(s) before it (residual/noise without it %.3g): too small beside them to tell a species from a change of band shape, so it is not counted", relPercent, chem, ratio)
+		fmt.Fprintf(&b, "; it carries %.2g %% of the signal of the smallest of the %d component(s) before it (without it their SVD residual, before any constraint or baseline, is %.3g × the noise): too small beside them to tell a species from a change of band shape, so it is not counted", relPercent, chem, ratio)
 	}
 	return b.String()
 }
