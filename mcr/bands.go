@@ -4,6 +4,9 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"runtime"
+	"sync"
+	"sync/atomic"
 
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat/distuv"
@@ -142,41 +145,89 @@ func FeasibleBands(c, s *mat.Dense, opt BandOptions) (*BandsResult, error) {
 		p.allow = noiseAllowance(opt.ResidualSS, n, m, k, opt.Alpha)
 	}
 	out := &BandsResult{Allowance: p.allow}
+	ends, err := p.allExtremes()
+	if err != nil {
+		return nil, err
+	}
 	for j := 0; j < k; j++ {
 		b := Band{Value: p.contribution(identity(k), j)}
 		b.Min, b.Max = b.Value, b.Value
-		feasible := true
-		for _, sign := range []float64{1, -1} {
-			theta, f, ok, evals := p.extreme(j, sign)
-			out.Evaluations += evals
-			t := p.rotation(theta)
-			prof, spec, err := p.component(t, j)
-			if err != nil {
-				return nil, err
-			}
-			if p.allow > 0 {
-				var amp float64
-				f, amp = p.amplitude(t, j, -sign)
-				for i := range prof {
-					prof[i] *= amp
-				}
-			}
-			// The search's last stage ending infeasible means the band is
-			// only the feasible part it reached (an inner estimate).
-			feasible = feasible && ok
-			if sign > 0 {
-				b.Min, b.MinProfile, b.MinSpectrum = math.Min(f, b.Value), prof, spec
-			} else {
-				b.Max, b.MaxProfile, b.MaxSpectrum = math.Max(f, b.Value), prof, spec
-			}
-		}
-		b.Feasible = feasible
-		if !feasible {
+		lo, hi := ends[2*j], ends[2*j+1]
+		out.Evaluations += lo.evals + hi.evals
+		b.Min, b.MinProfile, b.MinSpectrum = math.Min(lo.f, b.Value), lo.profile, lo.spectrum
+		b.Max, b.MaxProfile, b.MaxSpectrum = math.Max(hi.f, b.Value), hi.profile, hi.spectrum
+		// The search's last stage ending infeasible means the band is
+		// only the feasible part it reached (an inner estimate).
+		b.Feasible = lo.ok && hi.ok
+		if !b.Feasible {
 			b.Reason = SearchLeftConstraints
 		}
 		out.Bands = append(out.Bands, b)
 	}
 	return out, nil
+}
+
+// bandEnd is one end of one component's range: the extreme share f and the
+// profile and spectrum that reach it.
+type bandEnd struct {
+	f                 float64
+	profile, spectrum []float64
+	ok                bool
+	evals             int
+	err               error
+}
+
+// allExtremes searches the 2k ends (component j's minimum at 2j, maximum at
+// 2j+1) on up to GOMAXPROCS workers. Each search starts from a fresh copy of
+// the problem with its own work buffers, so its result depends on nothing
+// but (j, sign): the ranges are the same bytes whatever the number of
+// workers or the order they run in.
+func (p *bandProblem) allExtremes() ([]bandEnd, error) {
+	ends := make([]bandEnd, 2*p.k)
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for range min(runtime.GOMAXPROCS(0), len(ends)) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for t := int(next.Add(1)) - 1; t < len(ends); t = int(next.Add(1)) - 1 {
+				q := *p
+				q.newWork()
+				sign := 1.0
+				if t%2 == 1 {
+					sign = -1
+				}
+				ends[t] = q.end(t/2, sign)
+			}
+		}()
+	}
+	wg.Wait()
+	for _, e := range ends {
+		if e.err != nil {
+			return nil, e.err
+		}
+	}
+	return ends, nil
+}
+
+// end searches one end of component j's range: sign +1 the minimum share,
+// −1 the maximum. Within the noise, the profile is rescaled to the
+// amplitude that keeps the fit inside the allowance.
+func (p *bandProblem) end(j int, sign float64) bandEnd {
+	theta, f, ok, evals := p.extreme(j, sign)
+	t := p.rotation(theta)
+	prof, spec, err := p.component(t, j)
+	if err != nil {
+		return bandEnd{err: err}
+	}
+	if p.allow > 0 {
+		var amp float64
+		f, amp = p.amplitude(t, j, -sign)
+		for i := range prof {
+			prof[i] *= amp
+		}
+	}
+	return bandEnd{f: f, profile: prof, spectrum: spec, ok: ok, evals: evals}
 }
 
 type bandProblem struct {

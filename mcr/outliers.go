@@ -3,7 +3,6 @@ package mcr
 import (
 	"fmt"
 	"math"
-	"sort"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -138,12 +137,59 @@ func robustSD(x []float64) float64 {
 	return sd
 }
 
+// median is the sample median of x (x is not changed). It selects the
+// middle order statistic in linear expected time (Hoare's selection, pivot
+// the median of three) instead of sorting: the outlier test takes one
+// median and one MAD per spectrum, which sorting made the largest cost of a
+// default run after the uniqueness ranges. The value is the same as from a
+// sort.
 func median(x []float64) float64 {
+	if len(x) == 0 {
+		return 0
+	}
 	s := append([]float64(nil), x...)
-	sort.Float64s(s)
 	h := len(s) / 2
+	selectKth(s, h)
 	if len(s)%2 == 1 {
 		return s[h]
 	}
-	return 0.5 * (s[h-1] + s[h])
+	lower := s[0]
+	for _, v := range s[1:h] {
+		lower = math.Max(lower, v)
+	}
+	return 0.5 * (lower + s[h])
+}
+
+// selectKth reorders s so that s[k] holds the value a sort would put there,
+// every element before it is ≤ s[k] and every element after it ≥ s[k]. The
+// three-way partition keeps it linear when many values are equal (an export
+// rounded to few digits, a MAD whose deviations are mostly zero).
+func selectKth(s []float64, k int) {
+	lo, hi := 0, len(s)-1
+	for hi > lo {
+		a, b, c := s[lo], s[lo+(hi-lo)/2], s[hi]
+		pivot := max(min(a, b), min(max(a, b), c)) // median of three
+		lt, i, gt := lo, lo, hi
+		for i <= gt {
+			switch {
+			case s[i] < pivot:
+				s[lt], s[i] = s[i], s[lt]
+				lt++
+				i++
+			case s[i] > pivot:
+				s[i], s[gt] = s[gt], s[i]
+				gt--
+			default:
+				i++
+			}
+		}
+		switch {
+		case k < lt:
+			hi = lt - 1
+		case k > gt:
+			lo = gt + 1
+		default:
+			return
+		}
+	}
 }
