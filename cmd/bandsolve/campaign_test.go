@@ -9,7 +9,6 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
-	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -124,49 +123,6 @@ func TestRunFlagsRefused(t *testing.T) {
 	}
 }
 
-// shellWords splits one command line as a POSIX shell would for the
-// quoting used in docs/campaigns.md: single quotes literal, double quotes
-// with $VAR expanded, words apart at blanks (POSIX Shell Command Language,
-// §2.2 Quoting, §2.6.2 Parameter Expansion).
-func shellWords(line string) []string {
-	var words []string
-	var w strings.Builder
-	in, inWord := byte(0), false
-	for i := 0; i < len(line); i++ {
-		c := line[i]
-		switch {
-		case in == '\'' && c == '\'', in == '"' && c == '"':
-			in = 0
-		case in == '\'':
-			w.WriteByte(c)
-		case in == '"' && c == '$':
-			j := i + 1
-			for j < len(line) && (line[j] == '_' || line[j] >= 'A' && line[j] <= 'Z' || line[j] >= '0' && line[j] <= '9') {
-				j++
-			}
-			w.WriteString(os.Getenv(line[i+1 : j]))
-			i = j - 1
-		case in == '"':
-			w.WriteByte(c)
-		case c == '\'' || c == '"':
-			in, inWord = c, true
-		case c == ' ' || c == '\t':
-			if inWord {
-				words = append(words, w.String())
-				w.Reset()
-			}
-			inWord = false
-		default:
-			w.WriteByte(c)
-			inWord = true
-		}
-	}
-	if inWord {
-		words = append(words, w.String())
-	}
-	return words
-}
-
 // docCommands returns the bandsolve command lines of docs/campaigns.md's
 // shell blocks, in order.
 func docCommands(t *testing.T) []string {
@@ -200,7 +156,7 @@ func TestSlurmArrayExample(t *testing.T) {
 	t.Chdir(root)
 	for task := 0; task < 4; task++ {
 		t.Setenv("SLURM_ARRAY_TASK_ID", strconv.Itoa(task))
-		args := shellWords(cmds[0])
+		args := shellArgs(t, cmds[0])
 		if r := run(args[1:]...); r.code != 0 {
 			t.Fatalf("task %d: %v: exit %d: %s", task, args, r.code, r.stderr)
 		}
@@ -219,14 +175,9 @@ func TestSlurmArrayExample(t *testing.T) {
 		name := "r" + strconv.Itoa(k)
 		sameFolders(t, name+" from its shard", filepath.Join("whole", name), filepath.Join("batch", name))
 	}
-	args := shellWords(cmds[1])
-	// The shell expands batch/*/ before bandsolve sees it (sorted, as a
-	// shell's pathname expansion is: POSIX §2.13.3).
-	dirs, _ := filepath.Glob("batch/*")
-	for i := range dirs {
-		dirs[i] += "/"
-	}
-	args = slices.Concat(args[1:2], dirs, args[3:])
+	// shellLine expands batch/*/ to the sorted folders before bandsolve
+	// sees them, as a shell's pathname expansion does (POSIX §2.13.3).
+	args := shellArgs(t, cmds[1])[1:]
 	if r := run(args...); r.code != 0 {
 		t.Fatalf("%v: exit %d: %s", args, r.code, r.stderr)
 	}
@@ -244,4 +195,15 @@ func TestSlurmArrayExample(t *testing.T) {
 			t.Errorf("batch.csv row %d = %q; summary.json says components %v", k, rows[k], want)
 		}
 	}
+}
+
+// shellArgs splits a docs command line as a POSIX shell would (shellLine,
+// docs_test.go), failing the test on a line the splitter refuses.
+func shellArgs(t *testing.T, line string) []string {
+	t.Helper()
+	args, stdout, err := shellLine(line)
+	if err != nil || stdout != "" {
+		t.Fatalf("docs command %q: %v (redirect %q)", line, err, stdout)
+	}
+	return args
 }
