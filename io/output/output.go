@@ -43,6 +43,28 @@ func Check(out string, force bool) error {
 	if err := notAboveHere(out, clean); err != nil {
 		return err
 	}
+	// Another run committing into the same out may replace the folder while
+	// this one looks into it (listing a folder removed after it was opened
+	// fails with "no such file"; a two-step swap leaves out missing for a
+	// moment). A verdict counts only if out is the same folder before and
+	// after it; else look again. Commit checks once more under the lock.
+	var err error
+	for try := 0; try < 4; try++ {
+		before, errBefore := os.Lstat(clean)
+		if err = checkOnce(out, clean, force); err == nil {
+			return nil
+		}
+		after, errAfter := os.Lstat(clean)
+		stable := errBefore == nil && errAfter == nil && os.SameFile(before, after) ||
+			errors.Is(errBefore, os.ErrNotExist) && errors.Is(errAfter, os.ErrNotExist)
+		if stable {
+			return err
+		}
+	}
+	return err
+}
+
+func checkOnce(out, clean string, force bool) error {
 	st, err := os.Lstat(clean)
 	if errors.Is(err, os.ErrNotExist) {
 		return checkNew(out, clean)
