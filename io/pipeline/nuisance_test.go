@@ -54,14 +54,7 @@ func TestBaselineDriftIsNotASpecies(t *testing.T) {
 		f := float64(i) / float64(n-1)
 		return 0.03*f + 0.02*math.Sin(3*f)*x
 	})
-	series, blank := s.write(t)
-	st := NewSettings()
-	st.Data, st.Kind, st.Blank, st.Pre = []string{series}, "single-beam", blank, 3
-	st.Bands, st.Checks = "off", "off"
-	r, err := Run(st, nil)
-	if err != nil {
-		t.Fatal(err)
-	}
+	r, st := runNuisanceCase(t, s)
 	if r.Rank.Estimate != 2 || r.Components != 2 {
 		t.Fatalf("rank %d, components %d; want 2 species, the drift not counted (%s)", r.Rank.Estimate, r.Components, r.Rank.Reason)
 	}
@@ -100,14 +93,7 @@ func TestGasLinesSetAside(t *testing.T) {
 		}
 		return v
 	})
-	series, blank := s.write(t)
-	st := NewSettings()
-	st.Data, st.Kind, st.Blank, st.Pre = []string{series}, "single-beam", blank, 3
-	st.Bands, st.Checks = "off", "off"
-	r, err := Run(st, nil)
-	if err != nil {
-		t.Fatal(err)
-	}
+	r, st := runNuisanceCase(t, s)
 	if r.Rank.Estimate != 3 || r.Components != 3 {
 		t.Fatalf("rank %d, components %d; want 3 species (%s)", r.Rank.Estimate, r.Components, r.Rank.Reason)
 	}
@@ -141,4 +127,21 @@ func TestGasLinesSetAside(t *testing.T) {
 	if len(kept.SetAside) != 0 {
 		t.Errorf("--keep-outliers: %d spectra set aside, want none", len(kept.SetAside))
 	}
+}
+
+// runNuisanceCase writes s as single beams with their blank and resolves
+// them with the defaults, three pre-reaction spectra, and no uniqueness
+// ranges or constraint checks (what these tests look at is the rank and
+// the split between species and nuisance). The settings come back for a rerun.
+func runNuisanceCase(t *testing.T, s *synth) (*Result, *Settings) {
+	t.Helper()
+	series, blank := s.write(t)
+	st := NewSettings()
+	st.Data, st.Kind, st.Blank, st.Pre = []string{series}, "single-beam", blank, 3
+	st.Bands, st.Checks = "off", "off"
+	r, err := Run(st, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return r, st
 }
