@@ -451,7 +451,10 @@ func (p *bandProblem) violation(a, b *mat.Dense) float64 {
 // allowance) and one residual-penalty stage (μ = 10⁵, a sixteenth of the
 // evaluations) carries it outwards: this bounds the cost on large data,
 // where the clipped pair's kinks slow BFGS. μ = 10⁵ lets the rise exceed
-// the allowance by about 1/(2μ) of it, well inside Tolerance.
+// the allowance by about 1/(2μ) of it, well inside Tolerance. That stage's
+// line search starts from the last accepted step (minimiseBFGS): from the
+// full step it used its whole budget backtracking on the kinks, and now
+// ends converged in a quarter of it (docs/performance.md).
 func (p *bandProblem) extreme(j int, sign float64) ([]float64, float64, bool, int) {
 	theta := make([]float64, len(p.free))
 	if len(theta) == 0 {
@@ -459,18 +462,29 @@ func (p *bandProblem) extreme(j int, sign float64) ([]float64, float64, bool, in
 	}
 	allow := p.allow
 	p.allow = 0
-	th, f, ok, evals := p.stages(j, sign, theta, []float64{1e2, 1e4, 1e6, 1e8}, p.opt.MaxEvaluations/4)
+	th, f, ok, evals := p.stages(j, sign, theta, []float64{1e2, 1e4, 1e6, 1e8}, p.opt.MaxEvaluations/4, false)
 	p.allow = allow
 	if allow == 0 {
 		return th, f, ok, evals
 	}
-	th, f, ok, more := p.stages(j, sign, th, []float64{1e5}, p.opt.MaxEvaluations/16)
+	th, f, ok, more := p.stages(j, sign, th, []float64{1e5}, p.opt.MaxEvaluations/16, true)
 	return th, f, ok, evals + more
 }
 
 // stages runs the penalty sequence mus from theta with budget evaluations
-// per stage (see extreme).
-func (p *bandProblem) stages(j int, sign float64, theta0, mus []float64, budget int) ([]float64, float64, bool, int) {
+// per stage (see extreme; carryStep as in minimiseBFGS).
+//
+// The sequence stops at the first stage that converges (ends within its
+// budget) at a point keeping the constraints within Tolerance. The
+// minimisers of a quadratic penalty approach the constrained extreme from
+// outside as μ grows (Nocedal & Wright, Numerical Optimization, 2nd ed.,
+// §17.1, Framework 17.1 stops once the tolerance is met), so a larger μ
+// would only pull that point back towards the interior, and the most
+// extreme feasible end, which is what is kept, is the one in hand. On
+// data whose resolution is nearly unique the first stage already ends
+// feasible, and the three stiffer ones took two thirds of the evaluations
+// for the same ranges to the last digit (docs/performance.md).
+func (p *bandProblem) stages(j int, sign float64, theta0, mus []float64, budget int, carryStep bool) ([]float64, float64, bool, int) {
 	theta := append([]float64(nil), theta0...)
 	evals, lastOK := 0, false
 	bestTheta := append([]float64(nil), theta...)
@@ -478,7 +492,7 @@ func (p *bandProblem) stages(j int, sign float64, theta0, mus []float64, budget 
 	for _, mu := range mus {
 		x, _, used := minimiseBFGS(func(th, g []float64) float64 {
 			return p.costWork(j, sign, mu, th, g)
-		}, theta, budget)
+		}, theta, budget, carryStep)
 		evals += used
 		theta = append(theta[:0], x...)
 		t := p.rotation(theta)
@@ -497,6 +511,9 @@ func (p *bandProblem) stages(j int, sign float64, theta0, mus []float64, budget 
 			if sign*f < sign*bestF {
 				bestF = f
 				bestTheta = append(bestTheta[:0], theta...)
+			}
+			if used < budget {
+				break
 			}
 		}
 	}

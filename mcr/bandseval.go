@@ -309,7 +309,7 @@ type marginSide struct {
 	ref   []float64 // V₀, k × k
 	ratio []float64 // rows × k: x_iᵀv₀_j/‖x_i‖ (−∞ in a zero window, +∞ when free)
 	atRef int       // entries formed at the reference itself
-	row   []float64 // scratch: one row of X·V
+	gx    []float64 // k × k scratch: Gᵀ X (violations)
 	delta []float64
 	based bool
 	list  []clipped
@@ -318,7 +318,7 @@ type marginSide struct {
 func newMarginSide(x []float64, k int, nn, zero []bool) *marginSide {
 	rows := len(x) / k
 	ms := &marginSide{x: x, k: k, nn: nn, zero: zero, norm: make([]float64, rows),
-		ref: make([]float64, k*k), ratio: make([]float64, len(x)), row: make([]float64, k), delta: make([]float64, k)}
+		ref: make([]float64, k*k), ratio: make([]float64, len(x)), gx: make([]float64, k*k), delta: make([]float64, k)}
 	for i := 0; i < rows; i++ {
 		xr := x[i*k : i*k+k]
 		ms.norm[i] = math.Sqrt(dot(xr, xr))
@@ -403,39 +403,47 @@ func (ms *marginSide) entry(i, j int, v []float64) float64 {
 // violations returns Σ_j w_j Σ_i viol_ij² over the entries of X·V breaking
 // non-negativity or a zero window and, with grad, accumulates μ times the
 // gradient's product: for the profiles (full nil) out += Xᵀ G
-// (out[r][j] += x_ir·g_ij); for the spectra out += Gᵀ B with B = X·full
-// (out[j][c] += g_ij·b_ic, the whole row of B formed on demand).
+// (out[r][j] += x_ir·g_ij); for the spectra out += Gᵀ B with B = X·full,
+// formed as (Gᵀ X)·full: the k × k sum Gᵀ X costs k flops per violated
+// entry, and the one product with full k³ per evaluation, where forming
+// each violated row of B would cost k² per entry.
 func (ms *marginSide) violations(v []float64, k int, wt []float64, mu float64, out []float64, grad bool, full []float64) float64 {
 	ms.list = ms.collect(v, ms.list)
 	pen := 0.0
+	gx := ms.gx
+	if grad && full != nil {
+		clear(gx)
+	}
 	for _, e := range ms.list {
 		pen += wt[e.j] * e.val * e.val
-		if grad {
-			ms.addGradient(ms.x[e.i*k:e.i*k+k], e.j, mu*2*wt[e.j]*e.val, k, out, full)
+		if !grad {
+			continue
+		}
+		gv := mu * 2 * wt[e.j] * e.val
+		xr := ms.x[e.i*k : e.i*k+k]
+		if full == nil {
+			for r, xv := range xr {
+				out[r*k+e.j] += xv * gv
+			}
+			continue
+		}
+		row := gx[e.j*k : e.j*k+k]
+		for l, xv := range xr {
+			row[l] += gv * xv
+		}
+	}
+	if grad && full != nil {
+		for j := 0; j < k; j++ {
+			for c := 0; c < k; c++ {
+				s := 0.0
+				for l := 0; l < k; l++ {
+					s += gx[j*k+l] * full[l*k+c]
+				}
+				out[j*k+c] += s
+			}
 		}
 	}
 	return pen
-}
-
-// addGradient adds the gradient's product of one violated entry (i, j) with
-// derivative gv: x_i·gv into column j of out for the profiles (full nil),
-// gv·b_i into row j for the spectra (b_i = x_iᵀ·full).
-func (ms *marginSide) addGradient(xr []float64, j int, gv float64, k int, out, full []float64) {
-	if full == nil {
-		for r, xv := range xr {
-			out[r*k+j] += xv * gv
-		}
-		return
-	}
-	clear(ms.row)
-	for l, xv := range xr {
-		for c := 0; c < k; c++ {
-			ms.row[c] += xv * full[l*k+c]
-		}
-	}
-	for c, bv := range ms.row {
-		out[j*k+c] += gv * bv
-	}
 }
 
 // riseSparse is μ·max(0, rise/allowance − 1)² without μ (the caller

@@ -10,7 +10,15 @@ import "math"
 // to gonum's mat. The inverse-Hessian update is skipped when the curvature
 // condition sᵀy > 0 fails, which keeps the approximation positive definite.
 // It returns the best point, its value and the function evaluations used.
-func minimiseBFGS(f func(x, g []float64) float64, x0 []float64, maxEval int) ([]float64, float64, int) {
+//
+// With carryStep the line search tries first twice the step accepted at
+// the previous iteration (at most 1) instead of the full quasi-Newton step:
+// an initial step taken from the last iteration (Nocedal & Wright §3.5).
+// On an objective whose curvature jumps (a penalty switching on at a kink)
+// the inverse-Hessian estimate stays badly scaled, the full step overshoots
+// by orders of magnitude at every iteration, and backtracking from 1 then
+// spends most of the evaluations.
+func minimiseBFGS(f func(x, g []float64) float64, x0 []float64, maxEval int, carryStep bool) ([]float64, float64, int) {
 	n := len(x0)
 	x := append([]float64(nil), x0...)
 	g := make([]float64, n)
@@ -40,6 +48,7 @@ func minimiseBFGS(f func(x, g []float64) float64, x0 []float64, maxEval int) ([]
 	y := make([]float64, n)
 	hy := make([]float64, n)
 	stall := 0
+	lastStep := 1.0
 	fresh := true // h was just reset
 	for evals < maxEval {
 		for i := 0; i < n; i++ {
@@ -62,6 +71,9 @@ func minimiseBFGS(f func(x, g []float64) float64, x0 []float64, maxEval int) ([]
 		}
 		fresh = false
 		step, accepted := 1.0, false
+		if carryStep {
+			step = math.Min(1, 2*lastStep)
+		}
 		var fn float64
 		for ls := 0; ls < 40 && evals < maxEval; ls++ {
 			for i := range xn {
@@ -78,6 +90,7 @@ func minimiseBFGS(f func(x, g []float64) float64, x0 []float64, maxEval int) ([]
 		if !accepted {
 			break
 		}
+		lastStep = step
 		for i := 0; i < n; i++ {
 			s[i] = xn[i] - x[i]
 			y[i] = gn[i] - g[i]
