@@ -40,6 +40,11 @@ import (
 //     by the unshifted and the shifted band, a second non-negative spectrum whose only news
 //     is a derivative with lobes of both signs (the band-shift test of svd.ClassifyFactors,
 //     applied to the refitted spectrum);
+//   - what its spectrum adds is not mostly (≥ 80 %) under the other spectra's bands (where
+//     one of them is at least a tenth of its maximum): a change of band shape beyond a shift
+//     (broadening, hydrogen bonding of a carbonyl, a temperature change) is fitted by one more
+//     non-negative spectrum as well, and a species hidden entirely under another's band
+//     cannot be told from it; a species is counted when it brings a band of its own;
 //   - it does not vanish (its share of the fitted signal is above 10⁻⁶).
 
 // MinorTest is the outcome of TestMinorFactor.
@@ -59,6 +64,10 @@ type MinorTest struct {
 	// Novel is ‖(I − P_S) s_new‖² / ‖s_new‖²: the part of the new spectrum the other
 	// spectra do not explain.
 	Novel float64
+	// InBandShare is the share of that same news (the new spectrum less its projection on
+	// the others) at points where another spectrum is at least a tenth of its maximum:
+	// 1 = it only reshapes bands that are already there.
+	InBandShare float64
 	// Spectra lists the rows holding most of the new profile when it is concentrated.
 	Spectra []int
 	// FitShare is ‖c_new s_newᵀ‖²_F / ‖C Sᵀ‖²_F of the refit (unweighted).
@@ -77,6 +86,7 @@ const (
 	minorConcentrated = 0.8
 	minorShiftShare   = 0.8
 	minorVanished     = 1e-6
+	minorInBand       = 0.8
 )
 
 // TestMinorFactor refits fit (k components on d under opt) with one more component started
@@ -118,6 +128,7 @@ func TestMinorFactor(d Data, fit *Result, opt Options, u []float64, alpha float6
 	cNew, sNew := mat.Col(nil, k, with.C), mat.Col(nil, k, with.S)
 	t.FitShare = componentShare(with.C, with.S, k)
 	t.Novel, t.ShiftShare = shiftShare(sNew, with.S, k)
+	t.InBandShare = inBandShare(sNew, with.S, k)
 	t.Spectra, _ = concentratedRows(cNew)
 	t.EarlyShare, t.PeakRow = earlyShare(cNew)
 	t.verdict(alpha)
@@ -277,21 +288,23 @@ func edgeSignificance(x float64, p, q int) float64 {
 func (t *MinorTest) verdict(alpha float64) {
 	switch {
 	case !t.Significant:
-		t.Verdict = fmt.Sprintf("one more component lowers the weighted fit by %.3g σ², where noise alone would let it take about %.3g σ² (p = %.2g ≥ %g): not significantly, so not a species", t.drop(), t.NoiseEdge, t.Significance, alpha)
+		t.Verdict = fmt.Sprintf("one more component lowers the weighted fit by %.3g σ², where noise alone would let it take about %.3g σ² (p = %.2g ≥ %g): not significantly, so not a species", t.Drop(), t.NoiseEdge, t.Significance, alpha)
 	case t.FitShare < minorVanished:
 		t.Verdict = "the extra component vanishes in the refit: not a species"
 	case len(t.Spectra) > 0:
 		t.Verdict = fmt.Sprintf("its profile lives in %d spectrum(s): spectra unlike the rest, not a species", len(t.Spectra))
 	case t.ShiftShare >= minorShiftShare:
 		t.Verdict = fmt.Sprintf("it lowers the fit significantly (p = %.2g), but %.0f %% of what its spectrum adds to the others is their derivative: a band shift or change of band shape, which a species cannot be (it needs lobes of both signs), so not a species", t.Significance, 100*t.ShiftShare)
+	case t.InBandShare >= minorInBand:
+		t.Verdict = fmt.Sprintf("it lowers the fit significantly (p = %.2g), but %.0f %% of what its spectrum adds to the others lies under their bands: a change of those bands' shape (a shift, broadening, hydrogen bonding) that no resolution can tell from a species hidden there, so not counted", t.Significance, 100*t.InBandShare)
 	default:
 		t.Species = true
-		t.Verdict = fmt.Sprintf("a non-negative spectrum and profile that lower the fit by %.3g σ² where noise alone would give about %.3g σ² (p = %.2g < %g), with a spectrum of its own (%.0f %% of what it adds is not a band shift): counted as a species", t.drop(), t.NoiseEdge, t.Significance, alpha, 100*(1-t.ShiftShare))
+		t.Verdict = fmt.Sprintf("a non-negative spectrum and profile that lower the fit by %.3g σ² where noise alone would give about %.3g σ² (p = %.2g < %g), with a spectrum of its own (%.0f %% of what it adds is not a band shift): a species by this test", t.Drop(), t.NoiseEdge, t.Significance, alpha, 100*(1-t.ShiftShare))
 	}
 }
 
-// drop is RSS_k − RSS_{k+1} in units of the noise variance RSS_{k+1}/DF2.
-func (t *MinorTest) drop() float64 {
+// Drop is RSS_k − RSS_{k+1} in units of the noise variance RSS_{k+1}/DF2.
+func (t *MinorTest) Drop() float64 {
 	if !(t.ResidualSSWith > 0) || t.DF2 < 1 {
 		return 0
 	}
@@ -360,6 +373,46 @@ func shiftShare(sNew []float64, s *mat.Dense, j int) (novel, shift float64) {
 	}
 	rest := removeSpan(r, qd)
 	return novel, 1 - dot(rest, rest)/rr
+}
+
+// inBandShare returns the share of ‖r‖² at the points where some other spectrum (column
+// ≠ j of s) reaches a tenth of its own maximum, r = smoothed s_new less its projection on
+// the other spectra.
+func inBandShare(sNew []float64, s *mat.Dense, j int) float64 {
+	m, k := s.Dims()
+	if k < 2 {
+		return 0
+	}
+	base := mat.NewDense(m, k-1, nil)
+	in := make([]bool, m)
+	c := 0
+	for a := 0; a < k; a++ {
+		if a == j {
+			continue
+		}
+		col := mat.Col(nil, a, s)
+		base.SetCol(c, col)
+		c++
+		top := 0.0
+		for _, v := range col {
+			top = math.Max(top, math.Abs(v))
+		}
+		for x, v := range col {
+			in[x] = in[x] || top > 0 && math.Abs(v) >= 0.1*top
+		}
+	}
+	r := removeSpan(smooth5(sNew), orthonormalColumns(base))
+	var tot, inside float64
+	for x, v := range r {
+		tot += v * v
+		if in[x] {
+			inside += v * v
+		}
+	}
+	if !(tot > 0) {
+		return 0
+	}
+	return inside / tot
 }
 
 // removeSpan returns (I − Q Qᵀ) v for Q with orthonormal columns (nil = v).

@@ -99,7 +99,7 @@ func TestMinorBandShiftIsNotASpecies(t *testing.T) {
 	for _, shift := range []float64{1, 2} {
 		d, col, _ := minorCase(3, shift, 0)
 		mt := minorRefit(t, d, col)
-		t.Logf("shift %g: F %.3g p %.2g shift share %.3f novel %.3g fit share %.3g: %s", shift, mt.F, mt.Significance, mt.ShiftShare, mt.Novel, mt.FitShare, mt.Verdict)
+		t.Logf("shift %g: F %.3g p %.2g shift share %.3f in band %.3f novel %.3g fit share %.3g: %s", shift, mt.F, mt.Significance, mt.ShiftShare, mt.InBandShare, mt.Novel, mt.FitShare, mt.Verdict)
 		if mt.Species {
 			t.Errorf("shift of %g points: counted as a species: %s", shift, mt.Verdict)
 		}
@@ -118,7 +118,7 @@ func TestMinorSpeciesIsKept(t *testing.T) {
 		t.Fatalf("test data: minor species is %.3g of the signal, want about 0.01", share)
 	}
 	mt := minorRefit(t, d, col)
-	t.Logf("share %.3g: F %.3g p %.2g shift share %.3f novel %.3g fit share %.3g: %s", share, mt.F, mt.Significance, mt.ShiftShare, mt.Novel, mt.FitShare, mt.Verdict)
+	t.Logf("share %.3g: F %.3g p %.2g shift share %.3f in band %.3f novel %.3g fit share %.3g: %s", share, mt.F, mt.Significance, mt.ShiftShare, mt.InBandShare, mt.Novel, mt.FitShare, mt.Verdict)
 	if !mt.Species {
 		t.Errorf("minor species (%.2g %% of the signal) not kept: %s", 100*share, mt.Verdict)
 	}

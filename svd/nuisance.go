@@ -26,6 +26,9 @@ type NuisanceFactor struct {
 	Looks        string  // what it looks like, in words
 	SharePercent float64 // 100 s²/‖D‖²: its share of the signal
 	Spectra      []int   // outlier: the rows (0-based) holding most of its time vector
+	// Time is the factor's time vector (unit length, one value per row): where a refit
+	// with one more component starts its profile (mcr.TestMinorFactor).
+	Time []float64
 }
 
 // ChemicalRank is the count of chemical components among the factors above the noise,
@@ -131,7 +134,7 @@ func ClassifyFactors(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOpti
 			break
 		}
 		u, v := column(f.U, j), column(f.V, j)
-		nf := NuisanceFactor{Factor: j + 1, SharePercent: 100 * f.S[j] * f.S[j] / f.FrobeniusSq}
+		nf := NuisanceFactor{Factor: j + 1, SharePercent: 100 * f.S[j] * f.S[j] / f.FrobeniusSq, Time: u}
 		if row.ReferencePattern {
 			nf.Kind, nf.Looks = NuisancePattern, "flat in time and white across the axis: the reference spectrum's own noise"
 			out.Nuisance = append(out.Nuisance, nf)
@@ -309,7 +312,7 @@ func minorLooks(u, v, axis []float64, ratio float64, chem int, relPercent float6
 		}
 	}
 	if ratio <= fitsNoise {
-		fmt.Fprintf(&b, "; %d component(s) already fit to the noise (their SVD residual, before any constraint or baseline, is %.3g × the noise), so it does not lower the fit significantly and is not counted as a species", chem, ratio)
+		fmt.Fprintf(&b, "; %d component(s) already fit to the noise (their SVD residual, before any constraint or baseline, is %.3g × the noise), so by its size alone it is not counted as a species", chem, ratio)
 	} else {
 		fmt.Fprintf(&b, "; it carries %.2g %% of the signal of the smallest of the %d component(s) before it (without it their SVD residual, before any constraint or baseline, is %.3g × the noise): too small beside them to tell a species from a change of band shape, so it is not counted", relPercent, chem, ratio)
 	}

@@ -59,9 +59,12 @@ type Summary struct {
 	// the factors above the noise that are not chemical components.
 	OutlierSpectra  []OutlierJSON  `json:"outlier_spectra"`
 	NuisanceFactors []NuisanceJSON `json:"nuisance_factors"`
-	Advice          []string       `json:"advice"`
-	Notes           []string       `json:"notes"`
-	Warnings        []string       `json:"warnings"`
+	// MinorSpecies are minor factors that the refit test counted as species (they
+	// left nuisance_factors and raised rank_estimate and components).
+	MinorSpecies []NuisanceJSON `json:"minor_species,omitempty"`
+	Advice       []string       `json:"advice"`
+	Notes        []string       `json:"notes"`
+	Warnings     []string       `json:"warnings"`
 
 	// Constraints, their checks, the bands' note and the bootstrap
 	// (constraints.go; keys in docs/constraints.md).
@@ -211,4 +214,30 @@ type NuisanceJSON struct {
 	Looks        string    `json:"looks_like"`
 	SharePercent float64   `json:"share_of_signal_percent"`
 	TimesS       []float64 `json:"times_s,omitempty"`
+	// Refit is the test of a minor factor as one more component (docs/rank.md).
+	Refit *MinorRefitJSON `json:"refit,omitempty"`
+}
+
+// MinorRefitJSON is the outcome of refitting with a minor factor as one more component
+// under the same constraints (mcr.TestMinorFactor).
+type MinorRefitJSON struct {
+	Species bool `json:"species"`
+	// DropNoiseVariances is RSS_k − RSS_{k+1} in units of the noise variance;
+	// NoiseEdge what one more component takes from noise alone in the same units.
+	DropNoiseVariances float64 `json:"drop_noise_variances"`
+	NoiseEdge          float64 `json:"noise_edge_noise_variances"`
+	Significance       float64 `json:"p_value"`
+	F                  float64 `json:"f_statistic"`
+	// BandShiftPercent: how much of what its spectrum adds to the others is their
+	// derivative; EarlyPercent: its profile's energy in the first fifth of the spectra.
+	BandShiftPercent float64 `json:"band_shift_percent"`
+	EarlyPercent     float64 `json:"profile_early_percent"`
+	// InBandPercent: how much of what its spectrum adds lies under the other spectra's
+	// bands (a change of band shape when large).
+	InBandPercent float64 `json:"in_band_percent"`
+	PeakTimeS     float64 `json:"profile_peak_time_s"`
+	Looks         string  `json:"looks_like"`
+	Verdict       string  `json:"verdict"`
+	// Held says why a factor the refit called a species was not counted (species false).
+	Held string `json:"held,omitempty"`
 }

@@ -156,7 +156,10 @@ func nuisanceAdvice(r *Result) {
 			}
 			at = " (at t = " + strings.Join(ts, ", ") + " s)"
 		}
-		r.Advice = append(r.Advice, fmt.Sprintf("factor %d (%.2g %% of the signal) is not counted as a species: %s%s", nf.Factor, nf.SharePercent, nf.Looks, at))
+		r.Advice = append(r.Advice, fmt.Sprintf("factor %d (%.2g %% of the signal) is not counted as a species: %s%s%s", nf.Factor, nf.SharePercent, nf.Looks, at, minorAdvice(r, nf.Factor)))
+	}
+	for _, nf := range r.MinorSpecies {
+		r.Advice = append(r.Advice, fmt.Sprintf("factor %d (%.2g %% of the signal) is counted as a species although its size alone would not count it%s", nf.Factor, nf.SharePercent, minorAdvice(r, nf.Factor)))
 	}
 	if cr.NoiseLike > 0 {
 		r.Notes = append(r.Notes, fmt.Sprintf("%d factor(s) above the white-noise level have a time vector as white as noise: noise correlated along the axis (instrument smoothing or interpolation), not counted", cr.NoiseLike))
@@ -296,6 +299,7 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, l
 			}
 		}
 	}
+	testMinor(r, data, res, opt, log)
 	if shapes != nil && res.Baseline != nil {
 		r.BaselineProfiles = res.Baseline
 		r.BaselineShapes = shapes
@@ -376,7 +380,7 @@ func nuisanceSummary(r *Result) []output.NuisanceJSON {
 		return out
 	}
 	for _, nf := range r.Chemical.Nuisance {
-		j := output.NuisanceJSON{Factor: nf.Factor, Kind: nf.Kind, Looks: nf.Looks, SharePercent: round(nf.SharePercent)}
+		j := output.NuisanceJSON{Factor: nf.Factor, Kind: nf.Kind, Looks: nf.Looks, SharePercent: round(nf.SharePercent), Refit: minorRefitJSON(r, nf.Factor)}
 		for _, i := range nf.Spectra {
 			if i < len(r.Times) {
 				j.TimesS = append(j.TimesS, round(r.Times[i]))

@@ -106,6 +106,11 @@ type Result struct {
 	Chemical         *svd.ChemicalRank
 	DiffChemical     *svd.ChemicalRank
 	SetAside         []SetAside
+	// Minor factors (minor.go): the refit verdicts, whether they ran, and the minor
+	// factors counted as species.
+	MinorTests   []MinorVerdict
+	MinorTested  bool
+	MinorSpecies []svd.NuisanceFactor
 }
 
 // Run carries out the analysis described by s. Progress lines go to log
@@ -382,7 +387,6 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	} else if rank.Estimate > 0 {
 		r.Advice = append(r.Advice, fmt.Sprintf("difference data has rank %d = the number of independent reactions it shows (at least %d species take part; a rank deficiency can hide more); to resolve species give a blank single beam (--blank) or absorbance input", rank.Estimate, rank.Estimate+1))
 	}
-	nuisanceAdvice(r)
 	r.Warnings = append(r.Warnings, rank.Warnings...)
 	if rank.ReferencePatternFactor >= 0 {
 		r.Advice = append(r.Advice, fmt.Sprintf("factor %d is the reference spectrum's own noise (flat in time, white across the axis): one fixed pattern in every difference spectrum, not a reaction, so it is not counted; averaging several pre-reaction spectra as the reference (--pre N --reference mean:N) shrinks it by √N", rank.ReferencePatternFactor+1))
@@ -412,11 +416,13 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 			r.Notes = append(r.Notes, "no change: every spectrum equals the reference within noise, a flat line at zero absorbance; nothing to resolve")
 		}
 		r.LackOfFit, r.Explained = 0, 100
+		nuisanceAdvice(r)
 		return r, nil
 	}
 	if err := resolve(r, log); err != nil {
 		return nil, err
 	}
+	nuisanceAdvice(r) // after the refit test of minor factors, whose verdicts it gives
 	computeEFA(r)
 	if err := fitKinetics(r, log); err != nil {
 		// The resolution does not depend on the model: keep it, say why the
@@ -573,9 +579,13 @@ func resolve(r *Result, log io.Writer) error {
 		}
 	}
 	fmt.Fprintf(log, "resolving %d component(s)\n", k)
+	saved := saveForMinor(r)
 	res, data, err := resolveNuisance(r, data, c0, opt, log)
 	if err != nil {
 		return err
+	}
+	if promoteMinor(r, saved) {
+		return resolve(r, log)
 	}
 	if res, err = refineBlind(r, data, res, opt, log); err != nil {
 		return explainResolveError(r, err)

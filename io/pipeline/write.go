@@ -60,6 +60,7 @@ func MakeSummary(r *Result) *Summary {
 		BaselineReason:           r.BaselineReason,
 		OutlierSpectra:           setAsideSummary(r),
 		NuisanceFactors:          nuisanceSummary(r),
+		MinorSpecies:             minorSpeciesSummary(r),
 		Advice:                   nonNil(r.Advice),
 		Notes:                    nonNil(r.Notes),
 		Warnings:                 nonNil(r.Warnings),

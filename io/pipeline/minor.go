@@ -1,0 +1,189 @@
+package pipeline
+
+import (
+	"fmt"
+	"io"
+
+	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/mcr"
+	"github.com/bandsolve/bandsolve/svd"
+	"gonum.org/v1/gonum/mat"
+)
+
+// Wiring of the refit test of minor factors (mcr.TestMinorFactor, docs/rank.md): a
+// factor that the size test set aside as minor or as a band shift is refitted as one more
+// component under the same constraints and baseline; when the refit says it is a
+// species, the count goes up by one and the resolution is run again with it
+// (--components still overrides, and then nothing is tested).
+
+// maxMinorTests bounds the refits: the largest candidates first. Each costs two ALS
+// runs from a converged start; real series show a dozen factors just above the noise
+// whose size falls fast.
+const maxMinorTests = 3
+
+// minorRefitIter bounds each refit's iterations (from a converged start).
+const minorRefitIter = 300
+
+// MinorVerdict is the refit test of one minor factor.
+type MinorVerdict struct {
+	Factor int // 1-based factor of the decomposition
+	Test   *mcr.MinorTest
+	Err    error // the refit failed (no verdict)
+	// Held says why a factor the refit called a species was not counted all the same.
+	Held string
+}
+
+// minorState carries what a second resolution with one more component needs: the data
+// as it was before the first (which subtracts the baseline and fills the rows set aside).
+type minorState struct {
+	d        *mat.Dense
+	setAside int
+}
+
+// minorCandidates are the factors the refit tests: minor and band-shift factors with a
+// time vector, largest first, at most maxMinorTests; none when --components is given, a
+// hard model is asked for, or the test has run already.
+func minorCandidates(r *Result) []svd.NuisanceFactor {
+	if r.Chemical == nil || r.Settings.Components != "auto" || r.MinorTested || (r.Settings.Model != "" && r.Settings.HardModel) {
+		return nil
+	}
+	var out []svd.NuisanceFactor
+	for _, nf := range r.Chemical.Nuisance {
+		if (nf.Kind == svd.NuisanceMinor || nf.Kind == svd.NuisanceBandShift) && len(nf.Time) == len(r.Times) && len(out) < maxMinorTests {
+			out = append(out, nf)
+		}
+	}
+	return out
+}
+
+// saveForMinor keeps r.D when there is something to test.
+func saveForMinor(r *Result) *minorState {
+	if len(minorCandidates(r)) == 0 {
+		return nil
+	}
+	return &minorState{d: mat.DenseCopyOf(r.D), setAside: len(r.SetAside)}
+}
+
+// testMinor refits res (on data, under opt with the baseline shapes) with each candidate
+// as one more component and records the verdicts in r.MinorTests.
+func testMinor(r *Result, data mcr.Data, res *mcr.Result, opt mcr.Options, log io.Writer) {
+	cands := minorCandidates(r)
+	if len(cands) == 0 {
+		return
+	}
+	r.MinorTested = true
+	fmt.Fprintf(log, "testing %d minor factor(s) as one more component\n", len(cands))
+	for _, nf := range cands {
+		mt, err := mcr.TestMinorFactor(data, res, opt, nf.Time, r.Settings.Alpha, minorRefitIter)
+		r.MinorTests = append(r.MinorTests, MinorVerdict{Factor: nf.Factor, Test: mt, Err: err})
+	}
+}
+
+// promoteMinor counts the first minor factor the refit called a species: the rank and
+// the count go up by one, the factor leaves the nuisance list, and r is put back as it
+// was before the resolution so that it can run again with one more component. It
+// reports whether it did.
+func promoteMinor(r *Result, st *minorState) bool {
+	if st == nil {
+		return false
+	}
+	for i := range r.MinorTests {
+		v := &r.MinorTests[i]
+		if v.Test == nil || !v.Test.Species {
+			continue
+		}
+		// A species whose amount changes adds a factor to the difference spectra too
+		// (unless it keeps a fixed ratio to another, when no resolution can separate
+		// it): absorbance with k species that change shows differences of rank k − 1.
+		if r.Mode == mcr.Species && r.DiffRank != nil && r.Components+1 > r.DiffRank.Estimate+1 {
+			v.Held = fmt.Sprintf("but the difference spectra show %d independent change(s), too few for %d species that change, so it is not counted (--components %d resolves it)", r.DiffRank.Estimate, r.Components+1, r.Components+1)
+			continue
+		}
+		for i, nf := range r.Chemical.Nuisance {
+			if nf.Factor == v.Factor {
+				r.MinorSpecies = append(r.MinorSpecies, nf)
+				r.Chemical.Nuisance = append(r.Chemical.Nuisance[:i:i], r.Chemical.Nuisance[i+1:]...)
+				break
+			}
+		}
+		r.Chemical.Estimate++
+		r.Rank.Estimate++
+		r.Components++
+		r.D = st.d
+		r.SetAside = r.SetAside[:st.setAside]
+		r.EFA, r.Compressed = nil, false
+		r.Notes = append(r.Notes, fmt.Sprintf("factor %d, first set aside as minor by its size, is counted as a species: %s; resolved again with %d components (--components N overrides)", v.Factor, v.Test.Verdict, r.Components))
+		return true
+	}
+	return false
+}
+
+// minorOf returns the refit verdict of a factor (nil when it was not tested).
+func minorOf(r *Result, factor int) *MinorVerdict {
+	for i := range r.MinorTests {
+		if r.MinorTests[i].Factor == factor {
+			return &r.MinorTests[i]
+		}
+	}
+	return nil
+}
+
+// minorLooks says what the refitted component looks like: where its profile lives in
+// time and how much of its spectrum is a band shift.
+func minorLooks(r *Result, mt *mcr.MinorTest) string {
+	n := len(r.Times)
+	shape := "spread over the run"
+	switch {
+	case mt.EarlyShare >= 0.5:
+		shape = fmt.Sprintf("concentrated early (%.0f %% of its profile in the first fifth of the spectra: a mixing or settling transient)", 100*mt.EarlyShare)
+	case mt.PeakRow >= n-max(1, n/10):
+		shape = "growing to the end of the run (a slow product or drift)"
+	case mt.PeakRow > 0:
+		shape = fmt.Sprintf("rising then falling, largest at t = %s s (a transient)", output.Float(r.Times[mt.PeakRow]))
+	}
+	return fmt.Sprintf("as one more component its profile is %s; of what its spectrum adds to the others, %.0f %% is their derivative (a band shift when large) and %.0f %% lies under their bands", shape, 100*mt.ShiftShare, 100*mt.InBandShare)
+}
+
+// minorRefitJSON is the refit verdict of a factor for summary.json (nil when untested).
+func minorRefitJSON(r *Result, factor int) *output.MinorRefitJSON {
+	v := minorOf(r, factor)
+	if v == nil {
+		return nil
+	}
+	if v.Err != nil || v.Test == nil {
+		return &output.MinorRefitJSON{Verdict: "not tested: " + v.Err.Error()}
+	}
+	mt := v.Test
+	j := &output.MinorRefitJSON{Species: mt.Species && v.Held == "", Held: v.Held, DropNoiseVariances: round(mt.Drop()), NoiseEdge: round(mt.NoiseEdge),
+		Significance: round(mt.Significance), F: round(mt.F), BandShiftPercent: round(100 * mt.ShiftShare),
+		EarlyPercent: round(100 * mt.EarlyShare), InBandPercent: round(100 * mt.InBandShare), Looks: minorLooks(r, mt), Verdict: mt.Verdict}
+	if mt.PeakRow < len(r.Times) {
+		j.PeakTimeS = round(r.Times[mt.PeakRow])
+	}
+	return j
+}
+
+// minorAdvice is the refit's sentence for a factor's advice line ("" when untested).
+func minorAdvice(r *Result, factor int) string {
+	v := minorOf(r, factor)
+	switch {
+	case v == nil:
+		return ""
+	case v.Err != nil || v.Test == nil:
+		return fmt.Sprintf("; the refit with it as one more component failed (%v)", v.Err)
+	}
+	held := ""
+	if v.Held != "" {
+		held = "; " + v.Held
+	}
+	return fmt.Sprintf("; refitted as one more component under the same constraints and baseline, %s; %s%s", minorLooks(r, v.Test), v.Test.Verdict, held)
+}
+
+// minorSpeciesSummary lists the minor factors counted as species for summary.json.
+func minorSpeciesSummary(r *Result) []output.NuisanceJSON {
+	var out []output.NuisanceJSON
+	for _, nf := range r.MinorSpecies {
+		out = append(out, output.NuisanceJSON{Factor: nf.Factor, Kind: "species", Looks: nf.Looks, SharePercent: round(nf.SharePercent), Refit: minorRefitJSON(r, nf.Factor)})
+	}
+	return out
+}
