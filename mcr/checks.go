@@ -149,11 +149,14 @@ func anyMask(m [][]bool) []int {
 // and the sum is Σ_i a_i · Σ_j b_j ē_j² (in units of the noise variance
 // when the weights are 1/σ²); whiteness is judged on √b_j ē_j, the pattern
 // in units of its noise.
+//
+// The weighted mean of the fit is (aᵀC) Sᵀ, so only D is read row by row
+// and C Sᵀ is never formed: O(nm + (n + m)k) and no n × m matrix.
 func TimeConstantPattern(d, c, s *mat.Dense, row, col []float64) (ss float64, white bool) {
 	n, m := d.Dims()
-	var fit mat.Dense
-	fit.Mul(c, s.T())
+	_, k := c.Dims()
 	mean := make([]float64, m)
+	ac := make([]float64, k) // Σ_i a_i c_i
 	wsum := 0.0
 	for i := 0; i < n; i++ {
 		a := 1.0
@@ -161,15 +164,22 @@ func TimeConstantPattern(d, c, s *mat.Dense, row, col []float64) (ss float64, wh
 			a = row[i]
 		}
 		wsum += a
-		for j := 0; j < m; j++ {
-			mean[j] += a * (d.At(i, j) - fit.At(i, j))
+		for j, v := range d.RawRowView(i)[:m] {
+			mean[j] += a * v
+		}
+		for l := 0; l < k; l++ {
+			ac[l] += a * c.At(i, l)
 		}
 	}
 	if !(wsum > 0) {
 		return 0, false
 	}
 	for j := range mean {
-		mean[j] /= wsum
+		fit := 0.0
+		for l := 0; l < k; l++ {
+			fit += ac[l] * s.At(j, l)
+		}
+		mean[j] = (mean[j] - fit) / wsum
 		if col != nil {
 			mean[j] *= math.Sqrt(col[j])
 		}

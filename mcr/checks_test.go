@@ -87,4 +87,15 @@ func TestTimeConstantPatternWeighted(t *testing.T) {
 	if math.Abs(ss-want) > 1e-12*want || !white {
 		t.Errorf("unweighted: ss %g white %v, want %g true", ss, white, want)
 	}
+	// With a model C Sᵀ of two components on top, the residual and so the
+	// answer are the same (the fit is subtracted, by definition of E).
+	c2 := mat.NewDense(n, 2, []float64{1, 0, 0.5, 0.5, 0, 1, 2, 3})
+	s2 := mat.NewDense(m, 2, []float64{1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12})
+	var d2 mat.Dense
+	d2.Mul(c2, s2.T())
+	d2.Add(&d2, d)
+	ss, white = TimeConstantPattern(&d2, c2, s2, row, col)
+	if want := 200.0; math.Abs(ss-want) > 1e-12*want || !white {
+		t.Errorf("weighted, with a model: ss %g white %v, want %g true", ss, white, want)
+	}
 }

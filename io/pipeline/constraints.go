@@ -457,15 +457,21 @@ func judgeChecks(r *Result) {
 	// row, is what a freer refit folds into the spectra: its share of the
 	// residual is allowed on top of the pinned values (as the rank step
 	// sets the reference's pattern aside in reactions mode).
-	pattern := 0.0
-	if r.ALS != nil {
-		var row, col []float64
-		if weighted(r) {
-			row, col = r.Weights.Row, r.Weights.Col
+	// It is measured only when a check's rise exceeds what the pinned
+	// values alone allow (a pass over the data, needless otherwise).
+	pattern, measured := 0.0, false
+	blankPattern := func() float64 {
+		if !measured && r.ALS != nil {
+			var row, col []float64
+			if weighted(r) {
+				row, col = r.Weights.Row, r.Weights.Col
+			}
+			if ss, white := mcr.TimeConstantPattern(r.D, r.ALS.C, r.ALS.S, row, col); white {
+				pattern = ss
+			}
 		}
-		if ss, white := mcr.TimeConstantPattern(r.D, r.ALS.C, r.ALS.S, row, col); white {
-			pattern = ss
-		}
+		measured = true
+		return pattern
 	}
 	for _, c := range r.Constraints.Checks {
 		rise := c.ResidualSSWith - c.ResidualSSWithout
@@ -488,7 +494,7 @@ func judgeChecks(r *Result) {
 			// smaller ones are the refit polishing a flat valley.
 			r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (%s %.3g %%, the resolution's %.3g %%): found from the fit without %s; the resolution stopped in a local minimum, try another --init or --seed", checkMetric(r), c.With, resolved, c.Name))
 		}
-		if rise <= 4*sigma2*dof+pattern || c.With <= 1.05*c.Without {
+		if rise <= 4*sigma2*dof || c.With <= 1.05*c.Without || rise <= 4*sigma2*dof+blankPattern() {
 			continue
 		}
 		msg := fmt.Sprintf("%s raises the lack of fit from %.3g %% to %.3g %%%s, also when started from the fit without it: the data disagree with it", c.Name, c.Without, c.With, weightedNote(r))
