@@ -6,6 +6,7 @@ import (
 	"image"
 	"image/color"
 	"math"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -133,7 +134,7 @@ func addLine(p *plot.Plot, x, y []float64, c color.RGBA, width float64, dash []f
 				return err
 			}
 			l.Color, l.Width, l.Dashes = c, vg.Points(width), lengths(dash)
-			p.Add(l)
+			p.Add(edgeLine{l})
 		} else if len(seg) == 1 {
 			addPoints(p, seg, c, false)
 		}
@@ -150,6 +151,52 @@ func addLine(p *plot.Plot, x, y []float64, c color.RGBA, width float64, dash []f
 		seg = append(seg, plotter.XY{X: x[i], Y: y[i]})
 	}
 	return flush()
+}
+
+// edgeLine is a line whose glyph boxes are only those the plot's padding
+// can use. plotter.Line gives one box, half its width square, per point
+// (3001 per spectrum, three times per figure); the plot keeps those inside
+// the axes and pads for the outermost one in each direction, and as all are
+// the same size only the points at the least and greatest x and y inside
+// the axes decide it. The padding, and so every byte drawn, is the same.
+type edgeLine struct{ *plotter.Line }
+
+func (l edgeLine) GlyphBoxes(plt *plot.Plot) []plot.GlyphBox {
+	r := 0.5 * l.LineStyle.Width
+	if !(r > 0) {
+		return nil // boxes of no size never pad
+	}
+	rect := vg.Rectangle{Min: vg.Point{X: -r, Y: -r}, Max: vg.Point{X: r, Y: r}}
+	var ext [4]int // least x, greatest x, least y, greatest y
+	var val [4]float64
+	found := false
+	for i := range l.XYs {
+		x, y := plt.X.Norm(l.XYs[i].X), plt.Y.Norm(l.XYs[i].Y)
+		// What plot.GlyphBoxes keeps (a NaN position never pads either).
+		if !(x >= 0 && x <= 1 && y >= 0 && y <= 1) {
+			continue
+		}
+		if !found {
+			found, ext, val = true, [4]int{i, i, i, i}, [4]float64{x, -x, y, -y}
+			continue
+		}
+		for q, v := range [4]float64{x, -x, y, -y} {
+			if v < val[q] {
+				ext[q], val[q] = i, v
+			}
+		}
+	}
+	if !found {
+		return nil
+	}
+	out := make([]plot.GlyphBox, 0, 4)
+	for q, i := range ext {
+		if q > 0 && slices.Contains(ext[:q], i) {
+			continue
+		}
+		out = append(out, plot.GlyphBox{X: plt.X.Norm(l.XYs[i].X), Y: plt.Y.Norm(l.XYs[i].Y), Rectangle: rect})
+	}
+	return out
 }
 
 func addPoints(p *plot.Plot, xy plotter.XYs, c color.RGBA, hollow bool) {
