@@ -265,7 +265,11 @@ func saturationWarnings(s *Series, ref, blank []float64) []string {
 
 // median of v (a copy is sorted; v is left as it is).
 func median(v []float64) float64 {
-	c := append([]float64(nil), v...)
+	return medianInPlace(append([]float64(nil), v...))
+}
+
+// medianInPlace is median for a slice the caller lets it reorder.
+func medianInPlace(c []float64) float64 {
 	h := len(c) / 2
 	// Selection instead of a sort: the same value (an element, or the mean
 	// of the two middle ones), in linear time; the noise model takes one

@@ -149,44 +149,13 @@ const madScale = 1.482602218505602
 // pre ≥ 2 (repeats of one state), else second differences over all rows.
 // It returns σ per channel, the rounding step and the source in words.
 func channelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, string) {
-	n, m := v.Dims()
+	n, _ := v.Dims()
 	q := quantum(v, blind)
-	var diffs [][]float64 // per channel
-	diffs = make([][]float64, m)
-	// One buffer for all channels, cut in capacity-limited slices: appends
-	// never reallocate (growing m slices by doubling made twice the data
-	// in garbage).
-	per := max(n-2, 0)
-	if pre >= 2 {
-		per = pre - 1
-	}
-	buf := make([]float64, m*per)
-	for j := range diffs {
-		diffs[j] = buf[j*per : j*per : (j+1)*per]
-	}
 	src := fmt.Sprintf("second differences in time of all %d spectra", n)
 	if pre >= 2 {
 		src = fmt.Sprintf("successive differences of the %d pre-reaction spectra", pre)
-		for i := 1; i < pre; i++ {
-			a, b := v.RawRowView(i-1), v.RawRowView(i)
-			for j := 0; j < m; j++ {
-				if !blind.Has(i-1, j) && !blind.Has(i, j) {
-					diffs[j] = append(diffs[j], math.Abs(b[j]-a[j])/math.Sqrt2)
-				}
-			}
-		}
-	} else {
-		const r6 = 2.449489742783178 // √6: the variance of x_{i+1} − 2x_i + x_{i−1} is 6σ²
-		for i := 1; i+1 < n; i++ {
-			a, b, c := v.RawRowView(i-1), v.RawRowView(i), v.RawRowView(i+1)
-			for j := 0; j < m; j++ {
-				if !blind.Has(i-1, j) && !blind.Has(i, j) && !blind.Has(i+1, j) {
-					diffs[j] = append(diffs[j], math.Abs(c[j]-2*b[j]+a[j])/r6)
-				}
-			}
-		}
 	}
-	sig := pooledRunningMAD(diffs)
+	sig := pooledRunningMAD(timeDiffs{v: v, pre: pre, blind: blind})
 	// A channel with no change at all (synthetic data, a clipped region)
 	// gets a thousandth of the typical σ, not zero: its weight is large but
 	// finite.
@@ -197,21 +166,98 @@ func channelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, stri
 	return sig, q, src
 }
 
+// timeDiffs are the absolute differences in time channelNoise pools, one
+// list per channel, made on demand for a block of channels at a time: held
+// whole they would be one more data-sized array (480 MB at 20 000 × 3000)
+// for a median per channel.
+type timeDiffs struct {
+	v     *mat.Dense
+	pre   int
+	blind *Blind
+}
+
+// perChannel is the most differences a channel can have.
+func (d timeDiffs) perChannel() int {
+	n, _ := d.v.Dims()
+	if d.pre >= 2 {
+		return d.pre - 1
+	}
+	return max(n-2, 0)
+}
+
+// fill writes the differences of channels j0 … j1−1 into buf, channel c's
+// at buf[(c−j0)·per:], in time order, and their counts into cnt[c−j0]:
+// |x_i − x_{i−1}|/√2 over rows [0, pre) when pre ≥ 2, else
+// |x_{i+1} − 2x_i + x_{i−1}|/√6, leaving out any difference that touches a
+// blind point.
+func (d timeDiffs) fill(j0, j1 int, buf []float64, cnt []int) {
+	n, _ := d.v.Dims()
+	per := d.perChannel()
+	for c := range cnt[:j1-j0] {
+		cnt[c] = 0
+	}
+	noneBlind := func(i int) bool { return d.blind == nil || i >= len(d.blind.Rows) || len(d.blind.Rows[i]) == 0 }
+	if d.pre >= 2 {
+		for i := 1; i < d.pre; i++ {
+			a, b := d.v.RawRowView(i - 1)[j0:j1], d.v.RawRowView(i)[j0:j1]
+			all := noneBlind(i-1) && noneBlind(i)
+			for c := range a {
+				if all || !d.blind.Has(i-1, j0+c) && !d.blind.Has(i, j0+c) {
+					buf[c*per+cnt[c]] = math.Abs(b[c]-a[c]) / math.Sqrt2
+					cnt[c]++
+				}
+			}
+		}
+		return
+	}
+	const r6 = 2.449489742783178 // √6: the variance of x_{i+1} − 2x_i + x_{i−1} is 6σ²
+	for i := 1; i+1 < n; i++ {
+		a, b, e := d.v.RawRowView(i - 1)[j0:j1], d.v.RawRowView(i)[j0:j1], d.v.RawRowView(i + 1)[j0:j1]
+		all := noneBlind(i-1) && noneBlind(i) && noneBlind(i+1)
+		for c := range a {
+			if all || !d.blind.Has(i-1, j0+c) && !d.blind.Has(i, j0+c) && !d.blind.Has(i+1, j0+c) {
+				buf[c*per+cnt[c]] = math.Abs(e[c]-2*b[c]+a[c]) / r6
+				cnt[c]++
+			}
+		}
+	}
+}
+
+// diffBlock is how many channels timeDiffs.fill makes at once: a buffer of
+// about a megabyte (it stays in cache and is reused), and at least a cache
+// line of each row.
+func diffBlock(per int) int {
+	return max(8, min(64, (1<<17)/max(per, 1)))
+}
+
 // pooledRunningMAD gives each channel madScale × the median of the absolute
 // differences of the channels within a window around it. The window grows
 // until it holds at least 400 differences (about 5 % relative error of the
 // scale of a normal sample; common practice), at least 5 channels each side
 // when every channel has many.
-func pooledRunningMAD(diffs [][]float64) []float64 {
-	m := len(diffs)
+func pooledRunningMAD(d timeDiffs) []float64 {
+	_, m := d.v.Dims()
 	out := make([]float64, m)
-	per := make([]float64, m) // per-channel median, for channels with plenty
-	total := 0
-	for j, d := range diffs {
-		total += len(d)
-		if len(d) > 0 {
-			per[j] = madScale * median(d)
+	// Each channel's own median and count, a block of channels at a time.
+	per := d.perChannel()
+	own := make([]float64, m) // per-channel median, for channels with plenty
+	cnt := make([]int, m)
+	bl := diffBlock(per)
+	buf := make([]float64, bl*per)
+	for j0 := 0; j0 < m; j0 += bl {
+		j1 := min(m, j0+bl)
+		d.fill(j0, j1, buf, cnt[j0:j1])
+		for c := 0; c < j1-j0; c++ {
+			if k := cnt[j0+c]; k > 0 {
+				// The median is a value of the sample, whatever its order:
+				// select in place in the buffer the block owns.
+				own[j0+c] = madScale * medianInPlace(buf[c*per:c*per+k])
+			}
 		}
+	}
+	total := 0
+	for _, k := range cnt {
+		total += k
 	}
 	if total == 0 {
 		return out
@@ -226,26 +272,32 @@ func pooledRunningMAD(diffs [][]float64) []float64 {
 	if avg >= 30 {
 		// Enough per channel: a running median of the channels' own scales
 		// (cheap at thousands of spectra).
+		w := make([]float64, 0, 2*h+1)
 		for j := 0; j < m; j++ {
-			var w []float64
+			w = w[:0]
 			for l := max(0, j-h); l <= min(m-1, j+h); l++ {
-				if len(diffs[l]) > 0 {
-					w = append(w, per[l])
+				if cnt[l] > 0 {
+					w = append(w, own[l])
 				}
 			}
 			if len(w) > 0 {
-				out[j] = median(w)
+				out[j] = medianInPlace(w)
 			}
 		}
 		return out
 	}
+	// Few spectra: pool the differences themselves over the window (fewer
+	// than 30 per channel on average, so all of them are small).
+	all := make([]float64, m*per)
+	d.fill(0, m, all, cnt)
+	var w []float64
 	for j := 0; j < m; j++ {
-		var w []float64
+		w = w[:0]
 		for l := max(0, j-h); l <= min(m-1, j+h); l++ {
-			w = append(w, diffs[l]...)
+			w = append(w, all[l*per:l*per+cnt[l]]...)
 		}
 		if len(w) > 0 {
-			out[j] = madScale * median(w)
+			out[j] = madScale * medianInPlace(w)
 		}
 	}
 	return out
@@ -332,23 +384,31 @@ func (b *Blind) addWeak(v *mat.Dense, sigma []float64) {
 	n, m := v.Dims()
 	top := make([]float64, m)
 	for i := 0; i < n; i++ {
+		bl, next := b.Rows[i], 0
 		for j, x := range v.RawRowView(i)[:m] {
-			if x > top[j] && !b.Has(i, j) {
+			for next < len(bl) && bl[next] < j {
+				next++
+			}
+			if x > top[j] && !(next < len(bl) && bl[next] == j) {
 				top[j] = x
 			}
 		}
 	}
 	for i := 0; i < n; i++ {
 		row := v.RawRowView(i)[:m]
-		var extra bool
+		// Membership against the row's blind channels as they were
+		// (ascending); the points added go after them.
+		bl, next := b.Rows[i], 0
 		for j, x := range row {
-			if x <= weakSigmas*sigma[j] && x < weakBeamFraction*top[j] && !b.Has(i, j) {
+			for next < len(bl) && bl[next] < j {
+				next++
+			}
+			if x <= weakSigmas*sigma[j] && x < weakBeamFraction*top[j] && !(next < len(bl) && bl[next] == j) {
 				b.Rows[i] = append(b.Rows[i], j)
 				b.Count++
-				extra = true
 			}
 		}
-		if extra {
+		if len(b.Rows[i]) > len(bl) {
 			sort.Ints(b.Rows[i])
 		}
 	}
@@ -417,67 +477,122 @@ func interpAt(d *mat.Dense, j int, obs []int, i int, times []float64) float64 {
 // the observed points by row and column means (the two-way additive model;
 // exact in one pass when nothing is blind, the usual approximation with a
 // few blind points), then scales it so that Σ w·var = number of observed
-// points: the weighted noise then has unit variance on average.
-func fitWeights(n, m int, variance func(i int, out []float64), blind *Blind) *Weights {
-	rowSum := make([]float64, n)
-	rowCnt := make([]int, n)
-	colSum := make([]float64, m)
-	colCnt := make([]int, m)
-	buf := make([]float64, m)
-	grand, cnt := 0.0, 0
+// points: the weighted noise then has unit variance on average. It fits one
+// set of weights per variance function, all in the same two passes over the
+// points; each fit's sums run in the same order as a fit of its own.
+func fitWeights(n, m int, blind *Blind, variances ...func(i int, out []float64)) []*Weights {
+	type sums struct {
+		rowSum, colSum []float64
+		rowCnt, colCnt []int
+		grand          float64
+		cnt            int
+		buf            []float64
+	}
+	acc := make([]sums, len(variances))
+	for f := range acc {
+		acc[f] = sums{rowSum: make([]float64, n), colSum: make([]float64, m), rowCnt: make([]int, n), colCnt: make([]int, m), buf: make([]float64, m)}
+	}
 	for i := 0; i < n; i++ {
-		variance(i, buf)
-		for j, v := range buf {
-			if blind.Has(i, j) || !(v > 0) || math.IsInf(v, 0) {
-				continue
+		bl := blind.row(i)
+		for f, variance := range variances {
+			a := &acc[f]
+			variance(i, a.buf)
+			next := 0 // bl[next] is the first blind channel not yet passed
+			for j, v := range a.buf {
+				if next < len(bl) && bl[next] <= j {
+					for next < len(bl) && bl[next] < j {
+						next++
+					}
+					if next < len(bl) && bl[next] == j {
+						continue
+					}
+				}
+				if !(v > 0) || math.IsInf(v, 0) {
+					continue
+				}
+				l := -math.Log(v)
+				a.rowSum[i] += l
+				a.rowCnt[i]++
+				a.colSum[j] += l
+				a.colCnt[j]++
+				a.grand += l
+				a.cnt++
 			}
-			l := -math.Log(v)
-			rowSum[i] += l
-			rowCnt[i]++
-			colSum[j] += l
-			colCnt[j]++
-			grand += l
-			cnt++
 		}
 	}
-	if cnt == 0 {
-		// No noise measured (identical or noiseless spectra): no weights,
-		// and the factor analysis estimates σ itself.
-		return nil
-	}
-	w := &Weights{Row: make([]float64, n), Col: make([]float64, m)}
-	g := grand / float64(cnt)
-	for j := range w.Col {
-		if colCnt[j] > 0 {
-			w.Col[j] = math.Exp(colSum[j] / float64(colCnt[j]))
+	out := make([]*Weights, len(variances))
+	for f := range acc {
+		a := &acc[f]
+		if a.cnt == 0 {
+			// No noise measured (identical or noiseless spectra): no weights,
+			// and the factor analysis estimates σ itself.
+			continue
 		}
-	}
-	for i := range w.Row {
-		if rowCnt[i] > 0 {
-			w.Row[i] = math.Exp(rowSum[i]/float64(rowCnt[i]) - g)
+		w := &Weights{Row: make([]float64, n), Col: make([]float64, m)}
+		g := a.grand / float64(a.cnt)
+		for j := range w.Col {
+			if a.colCnt[j] > 0 {
+				w.Col[j] = math.Exp(a.colSum[j] / float64(a.colCnt[j]))
+			}
 		}
+		for i := range w.Row {
+			if a.rowCnt[i] > 0 {
+				w.Row[i] = math.Exp(a.rowSum[i]/float64(a.rowCnt[i]) - g)
+			}
+		}
+		out[f] = w
+		a.grand, a.cnt = 0, 0 // the scale pass's sum and count
 	}
 	// Scale: mean of a_i b_j var_ij over the observed points = 1.
-	s, c := 0.0, 0
 	for i := 0; i < n; i++ {
-		variance(i, buf)
-		for j, v := range buf {
-			if blind.Has(i, j) || !(v > 0) || math.IsInf(v, 0) {
+		bl := blind.row(i)
+		for f, variance := range variances {
+			w, a := out[f], &acc[f]
+			if w == nil {
 				continue
 			}
-			s += w.Row[i] * w.Col[j] * v
-			c++
+			variance(i, a.buf)
+			next := 0
+			for j, v := range a.buf {
+				if next < len(bl) && bl[next] <= j {
+					for next < len(bl) && bl[next] < j {
+						next++
+					}
+					if next < len(bl) && bl[next] == j {
+						continue
+					}
+				}
+				if !(v > 0) || math.IsInf(v, 0) {
+					continue
+				}
+				a.grand += w.Row[i] * w.Col[j] * v
+				a.cnt++
+			}
 		}
 	}
-	if s > 0 {
-		f := float64(c) / s
-		for j := range w.Col {
-			w.Col[j] *= f
+	for f, w := range out {
+		if w == nil {
+			continue
 		}
+		if s, c := acc[f].grand, acc[f].cnt; s > 0 {
+			sc := float64(c) / s
+			for j := range w.Col {
+				w.Col[j] *= sc
+			}
+		}
+		floorWeights(w.Row)
+		floorWeights(w.Col)
 	}
-	floorWeights(w.Row)
-	floorWeights(w.Col)
-	return w
+	return out
+}
+
+// row returns the blind channels of spectrum i (nil when none, or when b is
+// nil), ascending.
+func (b *Blind) row(i int) []int {
+	if b == nil || i >= len(b.Rows) {
+		return nil
+	}
+	return b.Rows[i]
 }
 
 // floorWeights keeps every weight positive (1e-12 of the largest): a row or
@@ -502,11 +617,11 @@ func floorWeights(w []float64) {
 // per channel, every spectrum alike.
 func channelWeights(n int, sigma []float64, blind *Blind) *Weights {
 	m := len(sigma)
-	return fitWeights(n, m, func(i int, out []float64) {
+	return fitWeights(n, m, blind, func(i int, out []float64) {
 		for j, s := range sigma {
 			out[j] = s * s
 		}
-	}, blind)
+	})[0]
 }
 
 // NoiseNotes says, in the user's words, how far from uniform the noise is
@@ -653,10 +768,14 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	out.Blind = blind
 	out.Noise = Noise{Level: median(sigI), Unit: "single-beam units", Source: src, Channel: sigI, Quantum: q}
 	const ln10sq = math.Ln10 * math.Ln10
+	refVar := make([]float64, m) // the reference's share, the same in every spectrum
+	for j := range refVar {
+		refVar[j] = sq(sigI[j]/ref[j]) / nref[j]
+	}
 	diffVar := func(i int, o []float64) {
 		row := s.Values.RawRowView(i)
 		for j := range o {
-			o[j] = (sq(sigI[j]/row[j]) + sq(sigI[j]/ref[j])/nref[j]) / ln10sq
+			o[j] = (sq(sigI[j]/row[j]) + refVar[j]) / ln10sq
 		}
 	}
 	// The blank's own noise is one fixed pattern in every absolute
@@ -669,12 +788,19 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 			o[j] = sq(sigI[j]/row[j]) / ln10sq
 		}
 	}
-	out.DifferenceWeights = fitWeights(n, m, diffVar, blind)
-	if out.DifferenceWeights != nil && blind.addOverweighted(out.DifferenceWeights, absVar) {
-		out.DifferenceWeights = fitWeights(n, m, diffVar, blind)
-	}
+	// Both sets of weights in the same passes; the points the difference
+	// weights overweight become blind, and then both are fitted again.
+	vars := []func(int, []float64){diffVar}
 	if opt.Blank != nil {
-		out.AbsoluteWeights = fitWeights(n, m, absVar, blind)
+		vars = append(vars, absVar)
+	}
+	w := fitWeights(n, m, blind, vars...)
+	if w[0] != nil && blind.addOverweighted(w[0], absVar) {
+		w = fitWeights(n, m, blind, vars...)
+	}
+	out.DifferenceWeights = w[0]
+	if opt.Blank != nil {
+		out.AbsoluteWeights = w[1]
 	}
 	out.Difference = mat.NewDense(n, m, nil)
 	if opt.Blank != nil {
@@ -832,17 +958,22 @@ func (b *Blind) addOverweighted(w *Weights, variance func(i int, out []float64))
 	var added bool
 	for i := range w.Row {
 		variance(i, buf)
-		var extra bool
+		// Membership is tested against the row's blind channels as they
+		// were (ascending); the points added go after them.
+		bl := b.Rows[i]
+		next := 0
 		for j, v := range buf {
-			if w.Row[i]*w.Col[j]*v > overweighted && !b.Has(i, j) {
+			for next < len(bl) && bl[next] < j {
+				next++
+			}
+			if w.Row[i]*w.Col[j]*v > overweighted && !(next < len(bl) && bl[next] == j) {
 				b.Rows[i] = append(b.Rows[i], j)
 				b.Count++
-				extra = true
+				added = true
 			}
 		}
-		if extra {
+		if len(b.Rows[i]) > len(bl) {
 			sort.Ints(b.Rows[i])
-			added = true
 		}
 	}
 	return added

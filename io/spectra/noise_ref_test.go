@@ -1,0 +1,384 @@
+package spectra
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// The direct forms of the noise model, as first written: every difference in
+// time held at once, a median per channel of a copy. They are the reference
+// the block-wise forms in noise.go are checked against, value for value.
+
+// channelNoise estimates σ per channel from differences in time of v's rows,
+// skipping blind points: successive differences over rows [0, pre) when
+// pre ≥ 2 (repeats of one state), else second differences over all rows.
+// It returns σ per channel, the rounding step and the source in words.
+func refChannelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, string) {
+	n, m := v.Dims()
+	q := quantum(v, blind)
+	var diffs [][]float64 // per channel
+	diffs = make([][]float64, m)
+	// One buffer for all channels, cut in capacity-limited slices: appends
+	// never reallocate (growing m slices by doubling made twice the data
+	// in garbage).
+	per := max(n-2, 0)
+	if pre >= 2 {
+		per = pre - 1
+	}
+	buf := make([]float64, m*per)
+	for j := range diffs {
+		diffs[j] = buf[j*per : j*per : (j+1)*per]
+	}
+	src := fmt.Sprintf("second differences in time of all %d spectra", n)
+	if pre >= 2 {
+		src = fmt.Sprintf("successive differences of the %d pre-reaction spectra", pre)
+		for i := 1; i < pre; i++ {
+			a, b := v.RawRowView(i-1), v.RawRowView(i)
+			for j := 0; j < m; j++ {
+				if !blind.Has(i-1, j) && !blind.Has(i, j) {
+					diffs[j] = append(diffs[j], math.Abs(b[j]-a[j])/math.Sqrt2)
+				}
+			}
+		}
+	} else {
+		const r6 = 2.449489742783178 // √6: the variance of x_{i+1} − 2x_i + x_{i−1} is 6σ²
+		for i := 1; i+1 < n; i++ {
+			a, b, c := v.RawRowView(i-1), v.RawRowView(i), v.RawRowView(i+1)
+			for j := 0; j < m; j++ {
+				if !blind.Has(i-1, j) && !blind.Has(i, j) && !blind.Has(i+1, j) {
+					diffs[j] = append(diffs[j], math.Abs(c[j]-2*b[j]+a[j])/r6)
+				}
+			}
+		}
+	}
+	sig := refPooledRunningMAD(diffs)
+	// A channel with no change at all (synthetic data, a clipped region)
+	// gets a thousandth of the typical σ, not zero: its weight is large but
+	// finite.
+	floor := math.Max(q/math.Sqrt(12), 1e-3*median(sig))
+	for j := range sig {
+		sig[j] = math.Max(sig[j], floor)
+	}
+	return sig, q, src
+}
+
+// pooledRunningMAD gives each channel madScale × the median of the absolute
+// differences of the channels within a window around it. The window grows
+// until it holds at least 400 differences (about 5 % relative error of the
+// scale of a normal sample; common practice), at least 5 channels each side
+// when every channel has many.
+func refPooledRunningMAD(diffs [][]float64) []float64 {
+	m := len(diffs)
+	out := make([]float64, m)
+	per := make([]float64, m) // per-channel median, for channels with plenty
+	total := 0
+	for j, d := range diffs {
+		total += len(d)
+		if len(d) > 0 {
+			per[j] = madScale * median(d)
+		}
+	}
+	if total == 0 {
+		return out
+	}
+	avg := float64(total) / float64(m)
+	const want = 400
+	h := 5
+	if avg > 0 {
+		h = max(h, int(math.Ceil(want/avg/2)))
+	}
+	h = min(h, m)
+	if avg >= 30 {
+		// Enough per channel: a running median of the channels' own scales
+		// (cheap at thousands of spectra).
+		for j := 0; j < m; j++ {
+			var w []float64
+			for l := max(0, j-h); l <= min(m-1, j+h); l++ {
+				if len(diffs[l]) > 0 {
+					w = append(w, per[l])
+				}
+			}
+			if len(w) > 0 {
+				out[j] = median(w)
+			}
+		}
+		return out
+	}
+	for j := 0; j < m; j++ {
+		var w []float64
+		for l := max(0, j-h); l <= min(m-1, j+h); l++ {
+			w = append(w, diffs[l]...)
+		}
+		if len(w) > 0 {
+			out[j] = madScale * median(w)
+		}
+	}
+	return out
+}
+
+// noiseCases are single beams for the comparisons: many spectra, few
+// spectra (the differences pooled over a window), pre-reaction repeats,
+// blind points scattered and in whole channels, and channel counts that do
+// not fill the last block.
+func noiseCases(t *testing.T) []struct {
+	name  string
+	v     *mat.Dense
+	pre   int
+	blind *Blind
+} {
+	t.Helper()
+	type c = struct {
+		name  string
+		v     *mat.Dense
+		pre   int
+		blind *Blind
+	}
+	var out []c
+	for _, sz := range [][2]int{{60, 400}, {12, 333}, {3, 70}, {300, 130}, {2500, 9}} {
+		rng := rand.New(rand.NewPCG(uint64(sz[0]), uint64(sz[1])))
+		s := beams(rng, sz[0], sz[1], 5, 1, 0)
+		out = append(out, c{fmt.Sprintf("%dx%d", sz[0], sz[1]), s.Values, 0, nil})
+		out = append(out, c{fmt.Sprintf("%dx%d pre 3", sz[0], sz[1]), s.Values, min(3, sz[0]), nil})
+		// Blind points: a few beams at or below zero, and a dark channel.
+		w := mat.DenseCopyOf(s.Values)
+		for k := 0; k < sz[0]*sz[1]/50+1; k++ {
+			w.Set(rng.IntN(sz[0]), rng.IntN(sz[1]), -1)
+		}
+		// and a few nearly dark ones, for the weak-beam test.
+		for k := 0; k < sz[0]*sz[1]/100+1; k++ {
+			i, j := rng.IntN(sz[0]), rng.IntN(sz[1])
+			w.Set(i, j, 1e-4*w.At(i, j))
+		}
+		b := findBlind(w, nil)
+		b.addChannel(sz[1] / 2)
+		out = append(out, c{fmt.Sprintf("%dx%d blind", sz[0], sz[1]), w, 0, b})
+		out = append(out, c{fmt.Sprintf("%dx%d blind pre 3", sz[0], sz[1]), w, min(3, sz[0]), b})
+	}
+	return out
+}
+
+// The block-wise noise model gives the same σ per channel, bit for bit, as
+// the direct form that holds every difference (a median is a value of the
+// sample whatever order it is taken in).
+func TestChannelNoiseMatchesDirectForm(t *testing.T) {
+	for _, c := range noiseCases(t) {
+		sig, q, src := channelNoise(c.v, c.pre, c.blind)
+		want, wq, wsrc := refChannelNoise(c.v, c.pre, c.blind)
+		if q != wq || src != wsrc {
+			t.Errorf("%s: step %g %q, direct form %g %q", c.name, q, src, wq, wsrc)
+		}
+		for j := range want {
+			if sig[j] != want[j] {
+				t.Fatalf("%s: channel %d: σ %v, direct form %v", c.name, j, sig[j], want[j])
+			}
+		}
+	}
+}
+
+// fitWeights fits log w_ij = α_i + β_j to the weights w = 1/var(i, j) of
+// the observed points by row and column means (the two-way additive model;
+// exact in one pass when nothing is blind, the usual approximation with a
+// few blind points), then scales it so that Σ w·var = number of observed
+// points: the weighted noise then has unit variance on average.
+func refFitWeights(n, m int, variance func(i int, out []float64), blind *Blind) *Weights {
+	rowSum := make([]float64, n)
+	rowCnt := make([]int, n)
+	colSum := make([]float64, m)
+	colCnt := make([]int, m)
+	buf := make([]float64, m)
+	grand, cnt := 0.0, 0
+	for i := 0; i < n; i++ {
+		variance(i, buf)
+		for j, v := range buf {
+			if blind.Has(i, j) || !(v > 0) || math.IsInf(v, 0) {
+				continue
+			}
+			l := -math.Log(v)
+			rowSum[i] += l
+			rowCnt[i]++
+			colSum[j] += l
+			colCnt[j]++
+			grand += l
+			cnt++
+		}
+	}
+	if cnt == 0 {
+		// No noise measured (identical or noiseless spectra): no weights,
+		// and the factor analysis estimates σ itself.
+		return nil
+	}
+	w := &Weights{Row: make([]float64, n), Col: make([]float64, m)}
+	g := grand / float64(cnt)
+	for j := range w.Col {
+		if colCnt[j] > 0 {
+			w.Col[j] = math.Exp(colSum[j] / float64(colCnt[j]))
+		}
+	}
+	for i := range w.Row {
+		if rowCnt[i] > 0 {
+			w.Row[i] = math.Exp(rowSum[i]/float64(rowCnt[i]) - g)
+		}
+	}
+	// Scale: mean of a_i b_j var_ij over the observed points = 1.
+	s, c := 0.0, 0
+	for i := 0; i < n; i++ {
+		variance(i, buf)
+		for j, v := range buf {
+			if blind.Has(i, j) || !(v > 0) || math.IsInf(v, 0) {
+				continue
+			}
+			s += w.Row[i] * w.Col[j] * v
+			c++
+		}
+	}
+	if s > 0 {
+		f := float64(c) / s
+		for j := range w.Col {
+			w.Col[j] *= f
+		}
+	}
+	floorWeights(w.Row)
+	floorWeights(w.Col)
+	return w
+}
+
+// The weights of several variance models fitted in shared passes are, bit
+// for bit, those of each fitted on its own by the direct form, with and
+// without blind points.
+func TestFitWeightsMatchesDirectForm(t *testing.T) {
+	for _, c := range noiseCases(t) {
+		n, m := c.v.Dims()
+		sig, _, _ := channelNoise(c.v, c.pre, c.blind)
+		beam := func(i int, o []float64) {
+			row := c.v.RawRowView(i)
+			for j := range o {
+				o[j] = sq(sig[j]/row[j]) / 5.3
+			}
+		}
+		flat := func(i int, o []float64) {
+			for j := range o {
+				o[j] = sig[j] * sig[j] * float64(1+i%3)
+			}
+		}
+		got := fitWeights(n, m, c.blind, beam, flat)
+		for f, v := range []func(int, []float64){beam, flat} {
+			want := refFitWeights(n, m, v, c.blind)
+			if (want == nil) != (got[f] == nil) {
+				t.Fatalf("%s, model %d: weights %v, direct form %v", c.name, f, got[f], want)
+			}
+			for i := range want.Row {
+				if got[f].Row[i] != want.Row[i] {
+					t.Fatalf("%s, model %d: row %d: %v, direct form %v", c.name, f, i, got[f].Row[i], want.Row[i])
+				}
+			}
+			for j := range want.Col {
+				if got[f].Col[j] != want.Col[j] {
+					t.Fatalf("%s, model %d: channel %d: %v, direct form %v", c.name, f, j, got[f].Col[j], want.Col[j])
+				}
+			}
+		}
+	}
+}
+
+// Weak and overweighted points are added by their definitions: a point is
+// added when it meets the test and is not blind already, and every row stays
+// ascending without repeats.
+func TestBlindAdditionsByDefinition(t *testing.T) {
+	for _, c := range noiseCases(t) {
+		if c.blind == nil {
+			continue
+		}
+		n, m := c.v.Dims()
+		sig, _, _ := channelNoise(c.v, c.pre, c.blind)
+		before := &Blind{Rows: make([][]int, n), Count: c.blind.Count}
+		for i, r := range c.blind.Rows {
+			before.Rows[i] = append([]int(nil), r...)
+		}
+		b := &Blind{Rows: make([][]int, n), Count: before.Count}
+		for i, r := range before.Rows {
+			b.Rows[i] = append([]int(nil), r...)
+		}
+		// Thresholds raised so that the tests pick some points.
+		loud := make([]float64, m)
+		for j := range loud {
+			loud[j] = 3e3 * sig[j]
+		}
+		b.addWeak(c.v, loud)
+		top := make([]float64, m)
+		for i := 0; i < n; i++ {
+			for j := 0; j < m; j++ {
+				if x := c.v.At(i, j); x > top[j] && !before.Has(i, j) {
+					top[j] = x
+				}
+			}
+		}
+		count := before.Count
+		for i := 0; i < n; i++ {
+			for j := 0; j < m; j++ {
+				x := c.v.At(i, j)
+				weak := x <= weakSigmas*loud[j] && x < weakBeamFraction*top[j]
+				if weak && !before.Has(i, j) {
+					count++
+				}
+				if want := before.Has(i, j) || weak; b.Has(i, j) != want {
+					t.Fatalf("%s: point %d,%d blind %v after addWeak, want %v", c.name, i, j, b.Has(i, j), want)
+				}
+			}
+			for k := 1; k < len(b.Rows[i]); k++ {
+				if b.Rows[i][k] <= b.Rows[i][k-1] {
+					t.Fatalf("%s: row %d not ascending: %v", c.name, i, b.Rows[i])
+				}
+			}
+		}
+		if b.Count != count {
+			t.Errorf("%s: count %d after addWeak, want %d", c.name, b.Count, count)
+		}
+		w := &Weights{Row: make([]float64, n), Col: make([]float64, m)}
+		for i := range w.Row {
+			w.Row[i] = 1 + float64(i%5)
+		}
+		for j := range w.Col {
+			w.Col[j] = 1 / sq(sig[j])
+		}
+		variance := func(i int, o []float64) {
+			for j := range o {
+				o[j] = sq(sig[j]) * float64(1+(i*7+j)%300) / 10
+			}
+		}
+		mid := &Blind{Rows: make([][]int, n), Count: b.Count}
+		for i, r := range b.Rows {
+			mid.Rows[i] = append([]int(nil), r...)
+		}
+		added := b.addOverweighted(w, variance)
+		count, any := mid.Count, false
+		buf := make([]float64, m)
+		for i := 0; i < n; i++ {
+			variance(i, buf)
+			for j := 0; j < m; j++ {
+				over := w.Row[i]*w.Col[j]*buf[j] > overweighted
+				if over && !mid.Has(i, j) {
+					count++
+					any = true
+				}
+				if want := mid.Has(i, j) || over; b.Has(i, j) != want {
+					t.Fatalf("%s: point %d,%d blind %v after addOverweighted, want %v", c.name, i, j, b.Has(i, j), want)
+				}
+			}
+			for k := 1; k < len(b.Rows[i]); k++ {
+				if b.Rows[i][k] <= b.Rows[i][k-1] {
+					t.Fatalf("%s: row %d not ascending: %v", c.name, i, b.Rows[i])
+				}
+			}
+		}
+		if mid.Count == before.Count || b.Count == mid.Count && n*m > 1000 {
+			t.Errorf("%s: %d blind points before, %d after addWeak, %d after addOverweighted: the case tests nothing", c.name, before.Count, mid.Count, b.Count)
+		}
+		if b.Count != count || added != any {
+			t.Errorf("%s: count %d (added %v) after addOverweighted, want %d (%v)", c.name, b.Count, added, count, any)
+		}
+	}
+}
