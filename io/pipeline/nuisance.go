@@ -303,7 +303,7 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, l
 	if shapes != nil && res.Baseline != nil {
 		r.BaselineProfiles = res.Baseline
 		r.BaselineShapes = shapes
-		r.D = mcr.SubtractBaseline(r.D, res.Baseline, shapes)
+		subtractBaselineInPlace(r.D, res.Baseline, shapes)
 		switch in := data.(type) {
 		case mcr.Dense:
 			data = mcr.Dense{D: r.D}

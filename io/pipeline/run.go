@@ -49,7 +49,12 @@ type Result struct {
 	ExpOfRow    []int
 	Mode        mcr.Mode
 	ModeReason  string
-	D           *mat.Dense // the matrix resolved
+	// D is the matrix resolved. It is the assembled matrix itself, not a
+	// copy (at 20 000 × 3000 each copy is 480 MB): rows set aside are
+	// imputed and the fitted baseline is subtracted in place, and the
+	// experiment's Assembled.Absolute (or .Difference) that it was stacked
+	// from shares the change when there is one experiment.
+	D *mat.Dense
 	// Weights are D's noise weights (row × column, spectra.Weights) and
 	// Blind its missing points; DiffWeights those of the difference matrix
 	// in species mode.
