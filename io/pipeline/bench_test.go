@@ -194,14 +194,8 @@ func reportPeakMemory(b *testing.B) {
 	var ms runtime.MemStats
 	runtime.ReadMemStats(&ms)
 	b.ReportMetric(float64(ms.Sys)/(1<<20), "MB-sys")
-	if raw, err := os.ReadFile("/proc/self/status"); err == nil {
-		for _, l := range strings.Split(string(raw), "\n") {
-			if f := strings.Fields(l); len(f) >= 2 && f[0] == "VmHWM:" {
-				if kb, err := strconv.ParseFloat(f[1], 64); err == nil {
-					b.ReportMetric(kb/1024, "MB-peak-rss")
-				}
-			}
-		}
+	if mb := peakRSS(); mb > 0 {
+		b.ReportMetric(mb, "MB-peak-rss")
 	}
 }
 
@@ -368,6 +362,9 @@ type phaseLog struct {
 	start, cpu0 float64
 	names       []string
 	wall, cpu   []float64 // at the start of each phase
+	// hwm is the process's peak resident set (MB) when each phase ended:
+	// where a run's memory peak falls.
+	hwm []float64
 }
 
 func newPhaseLog() *phaseLog {
@@ -393,8 +390,25 @@ func (p *phaseLog) Write(b []byte) (int, error) {
 			continue
 		}
 		p.names, p.wall, p.cpu = append(p.names, name), append(p.wall, w), append(p.cpu, c)
+		p.hwm = append(p.hwm, peakRSS())
 	}
 	return len(b), nil
+}
+
+// peakRSS is the process's peak resident set so far in MB (VmHWM; 0 where
+// /proc is not there).
+func peakRSS() float64 {
+	raw, err := os.ReadFile("/proc/self/status")
+	if err != nil {
+		return 0
+	}
+	for _, l := range strings.Split(string(raw), "\n") {
+		if f := strings.Fields(l); len(f) >= 2 && f[0] == "VmHWM:" {
+			kb, _ := strconv.ParseFloat(f[1], 64)
+			return kb / 1024
+		}
+	}
+	return 0
 }
 
 // durations gives each phase's wall and CPU seconds (a phase lasts until the
@@ -412,13 +426,14 @@ func (p *phaseLog) String() string {
 	names, wall, cpu := p.durations()
 	var b strings.Builder
 	for i := range names {
-		fmt.Fprintf(&b, "  %-32s %7.3f s wall %7.3f s CPU\n", names[i], wall[i], cpu[i])
+		fmt.Fprintf(&b, "  %-32s %7.3f s wall %7.3f s CPU %6.0f MB peak RSS\n", names[i], wall[i], cpu[i], p.hwm[i+1])
 	}
 	return b.String()
 }
 
-// parseCPU is the CPU time of the last parse wholeRun timed.
-var parseCPU float64
+// parseCPU is the CPU time of the last parse wholeRun timed, parseHWM the
+// peak resident set (MB) after it.
+var parseCPU, parseHWM float64
 
 // wholeRun is what `bandsolve resolve` does with the default settings,
 // report included (read, resolve, write the folder, draw the report),
@@ -431,7 +446,7 @@ func wholeRun(b *testing.B, series, blank, out string) (parse, whole float64, lo
 		b.Fatal(err)
 	}
 	parse = time.Since(t0).Seconds()
-	parseCPU = cpuNow() - c0
+	parseCPU, parseHWM = cpuNow()-c0, peakRSS()
 	runtime.GC()
 	s := NewSettings()
 	s.Data, s.Kind, s.Blank = []string{series}, "single-beam", blank
@@ -466,7 +481,7 @@ func benchWhole(b *testing.B, n, m int) {
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
 		parse, whole, log, r := wholeRun(b, series, blank, filepath.Join(dir, "out"))
-		b.Logf("parse alone %.3f s; phases of the whole run:\n%s", parse, log)
+		b.Logf("parse alone %.3f s wall %.3f s CPU %.0f MB peak RSS; phases of the whole run:\n%s", parse, parseCPU, parseHWM, log)
 		b.ReportMetric(parse, "parse-s")
 		b.ReportMetric(whole, "whole-s")
 		b.ReportMetric(whole/parse, "whole/parse")
