@@ -506,8 +506,8 @@ func judgeChecks(r *Result) {
 }
 
 // maxBandsComponents is the most components whose ranges are searched by
-// default: 6 take about 5 s CPU with the noise allowance on 2000 × 3001
-// (mcr.BenchmarkFeasibleBands, docs/performance.md).
+// default: 6 take about 1.1–1.4 s CPU with the noise allowance on
+// 2000 × 3001 (mcr.BenchmarkFeasibleBands, docs/performance.md).
 const maxBandsComponents = 6
 
 // bandsCostLimit bounds (n + m)·k³, the work of one range search in units of
