@@ -512,7 +512,7 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		}
 		s = transpose(st)
 		if opt.baselineBasis != nil {
-			lowerSpectra(s, k-opt.baselineTerms, nnS, opt.baselineBasis)
+			lowerSpectra(s, k-opt.baselineTerms, lowerable(nnS, knownMask), opt.baselineBasis)
 		}
 		if !opt.Closure {
 			// On a copy: c may still be cPlain, the profiles that go with
@@ -834,6 +834,24 @@ func ridged(g *mat.SymDense, lambda float64) *mat.SymDense {
 	out.CopySym(g)
 	for i := 0; i < k; i++ {
 		out.SetSym(i, i, g.At(i, i)+lambda*tr/float64(k))
+	}
+	return out
+}
+
+// lowerable marks the non-negative spectra that the baseline split may lower: not those
+// with values held fixed (a known spectrum, a zero window), which lowering would move off
+// the values they are held at.
+func lowerable(nonneg []bool, fixed [][]bool) []bool {
+	out := append([]bool(nil), nonneg...)
+	for j := range out {
+		if j < len(fixed) {
+			for _, f := range fixed[j] {
+				if f {
+					out[j] = false
+					break
+				}
+			}
+		}
 	}
 	return out
 }

@@ -53,9 +53,31 @@ func Legendre(axis []float64, order int) *mat.Dense {
 // orthoBasis returns an orthonormal basis (m × (order+1)) of the polynomials up to order
 // on the axis (thin Q of the Legendre matrix).
 func orthoBasis(axis []float64, order int) *mat.Dense {
+	return PolyBasis(axis, order, nil)
+}
+
+// PolyBasis returns an orthonormal basis (m × (order+1)) of span(√B X), X the Legendre
+// polynomials up to order on the axis and B = diag(col) the column noise weights (nil:
+// B = I). The projector I − Q Qᵀ onto its complement, applied to a row of the scaled
+// matrix √a_i d_i √B, leaves √a_i (d_i − X β_i)√B with β_i the weighted least-squares
+// fit of the polynomial to d_i with weights b_j (normal equations XᵀBX β = XᵀB d_i;
+// Draper & Smith, Applied Regression Analysis, 3rd ed. 1998, §9): the baseline is
+// removed in the metric the noise weights define, and the scaled matrix keeps white
+// noise of unit variance on the remaining m − order − 1 dimensions. The QR is nested:
+// the first q+1 columns are the basis of order q.
+func PolyBasis(axis []float64, order int, col []float64) *mat.Dense {
 	p := Legendre(axis, order)
 	if p == nil {
 		return nil
+	}
+	if col != nil {
+		m, c := p.Dims()
+		for j := 0; j < m; j++ {
+			sb := math.Sqrt(col[j])
+			for q := 0; q < c; q++ {
+				p.Set(j, q, p.At(j, q)*sb)
+			}
+		}
 	}
 	orthonormalize(p)
 	return p
@@ -66,17 +88,24 @@ func orthoBasis(axis []float64, order int) *mat.Dense {
 // baseline of that order is gone, and the rank of what remains counts the other factors.
 // order < 0 returns d itself.
 func RemovePolynomial(d *mat.Dense, axis []float64, order int) (*mat.Dense, error) {
+	return RemovePolynomialWeighted(d, axis, order, nil)
+}
+
+// RemovePolynomialWeighted is RemovePolynomial on the noise-scaled matrix √A D √B with
+// column weights col (nil: unweighted): it returns D̃ (I − Q Qᵀ), Q = PolyBasis(axis,
+// order, col), each spectrum's baseline fitted by weighted least squares (see PolyBasis).
+func RemovePolynomialWeighted(d *mat.Dense, axis []float64, order int, col []float64) (*mat.Dense, error) {
 	if order < 0 {
 		return d, nil
 	}
 	_, m := d.Dims()
-	if len(axis) != m {
-		return nil, fmt.Errorf("svd: remove polynomial: axis has %d points, data %d", len(axis), m)
+	if len(axis) != m || (col != nil && len(col) != m) {
+		return nil, fmt.Errorf("svd: remove polynomial: axis has %d points, weights %d, data %d", len(axis), len(col), m)
 	}
 	if order+1 >= m {
 		return nil, fmt.Errorf("svd: remove polynomial: order %d needs more than %d points", order, m)
 	}
-	q := orthoBasis(axis, order)
+	q := PolyBasis(axis, order, col)
 	var dq, out mat.Dense
 	dq.Mul(d, q)
 	out.Mul(&dq, q.T())
@@ -116,9 +145,19 @@ type BaselineChoice struct {
 // rank-k fits are then taken inside their span, exact when the baseline and the chemistry
 // lie in it, which is when the baseline matters.
 func ChooseBaselineOrder(d *mat.Dense, f *Factors, axis []float64, k, maxOrder int, alpha float64) (*BaselineChoice, error) {
+	return ChooseBaselineOrderWeighted(d, f, axis, nil, k, maxOrder, alpha)
+}
+
+// ChooseBaselineOrderWeighted is ChooseBaselineOrder on the noise-scaled matrix
+// d = √A D √B with column weights col (nil: unweighted; f then holds factors of d): each
+// order's baseline is fitted by weighted least squares (PolyBasis), so the residual sums
+// are χ² in units of the noise. The polynomial parts of every order come from one
+// product D Q_max, since the nested basis of order q is the first q+1 columns of
+// that of maxOrder.
+func ChooseBaselineOrderWeighted(d *mat.Dense, f *Factors, axis, col []float64, k, maxOrder int, alpha float64) (*BaselineChoice, error) {
 	n, m := d.Dims()
-	if len(axis) != m {
-		return nil, fmt.Errorf("svd: baseline order: axis has %d points, data %d", len(axis), m)
+	if len(axis) != m || (col != nil && len(col) != m) {
+		return nil, fmt.Errorf("svd: baseline order: axis has %d points, weights %d, data %d", len(axis), len(col), m)
 	}
 	if k < 0 || maxOrder < 0 || !(alpha > 0 && alpha < 1) {
 		return nil, fmt.Errorf("svd: baseline order: k %d, maximum order %d, alpha %v out of range", k, maxOrder, alpha)
@@ -141,16 +180,26 @@ func ChooseBaselineOrder(d *mat.Dense, f *Factors, axis []float64, k, maxOrder i
 			w.Set(a, j, f.S[a]*f.V.At(j, a))
 		}
 	}
+	// The polynomial part's energy of order q is Σ_{c≤q} ‖(D Q)_c‖², and the projection
+	// of W on the first q+1 basis columns is (W Q)_{:,≤q} Q_{:,≤q}ᵀ.
+	basis := PolyBasis(axis, maxOrder, col)
+	var dq, wqAll mat.Dense
+	dq.Mul(d, basis)
+	wqAll.Mul(w, basis)
+	polyEnergy := make([]float64, maxOrder+1)
+	for c := 0; c <= maxOrder; c++ {
+		for i := 0; i < n; i++ {
+			polyEnergy[c] += dq.At(i, c) * dq.At(i, c)
+		}
+	}
 	rss := func(q int) float64 {
 		energy, wq := f.FrobeniusSq, mat.DenseCopyOf(w)
 		if q >= 0 {
-			basis := orthoBasis(axis, q)
-			var dq mat.Dense
-			dq.Mul(d, basis) // n × (q+1): the polynomial part's energy is ‖D Q‖²
-			energy -= frobeniusSq(&dq)
-			var wqq, proj mat.Dense
-			wqq.Mul(w, basis)
-			proj.Mul(&wqq, basis.T())
+			for c := 0; c <= q; c++ {
+				energy -= polyEnergy[c]
+			}
+			var proj mat.Dense
+			proj.Mul(wqAll.Slice(0, r, 0, q+1), basis.Slice(0, m, 0, q+1).T())
 			wq.Sub(w, &proj)
 		}
 		if k > 0 {

@@ -58,6 +58,13 @@ type NuisanceOptions struct {
 	// larger of that and the robust successive-spectra estimate (noise seen from one
 	// spectrum to the next, whatever its colour along the axis).
 	Noise float64
+	// Row and Col are the noise weights a_i, b_j when d is the noise-scaled matrix
+	// √A D √B (nil: d is the data itself). The tests of shape then look at the unscaled
+	// vectors u_i/√a_i (time) and v_j/√b_j (spectrum), the shapes the factor has in the
+	// data, since a baseline of D is smooth along the axis and √b_j is not; the
+	// polynomial and derivative shares are measured with the weights b_j, so that the
+	// noisy channels (small b_j) count as little as in the fit.
+	Row, Col []float64
 }
 
 // Thresholds of the classification (documented in docs/measurement.md).
@@ -133,7 +140,8 @@ func ClassifyFactors(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOpti
 		if !row.AboveNoiseEdge || j >= len(f.S) {
 			break
 		}
-		u, v := column(f.U, j), column(f.V, j)
+		us, v := column(f.U, j), column(f.V, j)
+		u, vu := unscaleVec(us, opt.Row), unscaleVec(v, opt.Col)
 		nf := NuisanceFactor{Factor: j + 1, SharePercent: 100 * f.S[j] * f.S[j] / f.FrobeniusSq, Time: u}
 		if row.ReferencePattern {
 			nf.Kind, nf.Looks = NuisancePattern, "flat in time and white across the axis: the reference spectrum's own noise"
@@ -151,14 +159,14 @@ func ClassifyFactors(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOpti
 			continue
 		}
 		if opt.Axis != nil && len(opt.Axis) == m {
-			if sh := polyShare(smooth5(v), opt.Axis); sh >= baselineShare {
+			if sh := polyShareWeighted(vu, opt.Axis, opt.Col); sh >= baselineShare {
 				nf.Kind = NuisanceBaseline
 				nf.Looks = fmt.Sprintf("smooth and broad across the axis: %.0f %% described by a polynomial of order ≤ %d (baseline drift)", 100*sh, baselineOrder)
 				out.Nuisance = append(out.Nuisance, nf)
 				continue
 			}
 			if len(chemV) > 0 {
-				if sh := derivShare(v, chemV); sh >= derivativeShare {
+				if sh := derivShareWeighted(v, chemV, opt.Col); sh >= derivativeShare {
 					nf.Kind = NuisanceBandShift
 					nf.Looks = fmt.Sprintf("%.0f %% like the derivative of the chemical spectra: a band shift (temperature, a settling cell), not a species", 100*sh)
 					out.Nuisance = append(out.Nuisance, nf)
@@ -168,12 +176,12 @@ func ClassifyFactors(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOpti
 		}
 		if chem > 0 && (ratio(j) <= fitsNoise || smallest > 0 && f.S[j]*f.S[j] < minorEnergy*smallest) {
 			nf.Kind = NuisanceMinor
-			nf.Looks = minorLooks(u, v, opt.Axis, ratio(j), chem, 100*f.S[j]*f.S[j]/smallest)
+			nf.Looks = minorLooks(u, vu, opt.Axis, ratio(j), chem, 100*f.S[j]*f.S[j]/smallest)
 			out.Nuisance = append(out.Nuisance, nf)
 			continue
 		}
 		chem++
-		chemV = append(chemV, v)
+		chemV = append(chemV, vu)
 		if chem >= 2 || !opt.MeanLevel {
 			smallest = f.S[j] * f.S[j]
 		}
@@ -222,10 +230,102 @@ func concentrated(u []float64) ([]int, bool) {
 		if acc >= outlierEnergy*tot {
 			rows := append([]int(nil), idx[:c+1]...)
 			sort.Ints(rows)
+			if smoothRest(u, rows) {
+				return nil, false
+			}
 			return rows, true
 		}
 	}
 	return nil, false
+}
+
+// unscaleVec returns x_i/√w_i scaled to unit length (x itself when w is nil): a singular
+// vector of the scaled matrix as the shape it has in the data.
+func unscaleVec(x, w []float64) []float64 {
+	if w == nil || len(w) != len(x) {
+		return x
+	}
+	out := make([]float64, len(x))
+	ss := 0.0
+	for i, v := range x {
+		if w[i] > 0 {
+			out[i] = v / math.Sqrt(w[i])
+		}
+		ss += out[i] * out[i]
+	}
+	if ss > 0 {
+		for i := range out {
+			out[i] /= math.Sqrt(ss)
+		}
+	}
+	return out
+}
+
+// polyShareWeighted is the share of the (lightly smoothed) unscaled spectrum vector vu
+// described by polynomials up to baselineOrder, in the metric of the column weights col:
+// ‖P_w x‖²/‖x‖² with x = √B smooth(vu) and P_w the projector on span(√B X). The smoothing
+// is the 5-point moving average weighted by b_j (a channel's noise counts as in the fit).
+// With col nil it is polyShare(smooth5(vu)).
+func polyShareWeighted(vu, axis, col []float64) float64 {
+	if col == nil {
+		return polyShare(smooth5(vu), axis)
+	}
+	if len(vu) <= baselineOrder+1 {
+		return 0
+	}
+	x := make([]float64, len(vu))
+	for j := range vu {
+		s, w := 0.0, 0.0
+		for i := max(j-2, 0); i <= min(j+2, len(vu)-1); i++ {
+			s += col[i] * vu[i]
+			w += col[i]
+		}
+		if w > 0 {
+			x[j] = math.Sqrt(col[j]) * s / w
+		}
+	}
+	return spanShare(x, PolyBasis(axis, baselineOrder, col))
+}
+
+// derivShareWeighted is derivShare in the metric of the column weights: the share of the
+// scaled spectrum vector v in the span of √B times the central differences of the
+// unscaled chemical spectrum vectors chem (derivShare(v, chem) when col is nil).
+func derivShareWeighted(v []float64, chem [][]float64, col []float64) float64 {
+	if col == nil {
+		return derivShare(v, chem)
+	}
+	m := len(v)
+	if m < 3 {
+		return 0
+	}
+	x := mat.NewDense(m, len(chem), nil)
+	for c, w := range chem {
+		for j := 0; j < m; j++ {
+			x.Set(j, c, math.Sqrt(col[j])*(w[min(j+1, m-1)]-w[max(j-1, 0)]))
+		}
+	}
+	orthonormalize(x)
+	return spanShare(v, x)
+}
+
+// smoothRest reports whether u outside the given rows (sorted) still runs smoothly
+// (lag-1 autocorrelation about zero ≥ 0.5, as concentrated asks of u itself) with at least
+// 5 % of u's energy: a profile that falls fast from the first spectra and then levels off
+// (a species consumed within two spectra of a short series) has most of its energy in a
+// few rows too, but the rest is its tail, not noise. The rest of a factor made by a few
+// odd spectra is the noise of the others.
+func smoothRest(u []float64, rows []int) bool {
+	rest := make([]float64, 0, len(u))
+	var tot, rs float64
+	for i, x := range u {
+		tot += x * x
+		if k := sort.SearchInts(rows, i); k < len(rows) && rows[k] == i {
+			continue
+		}
+		rest = append(rest, x)
+		rs += x * x
+	}
+	return len(rest) >= 3 && rs >= 0.05*tot && Autocorrelation(rest) >= 0.5
 }
 
 // polyShare is the share of ‖v‖² in the span of the polynomials up to baselineOrder.

@@ -320,7 +320,7 @@ func badCases() []badCase {
 		{name: "more components than the data holds", args: []string{"--data", "B/good.csv", "--components", "6"}, code: 2, want: []string{"--components 6", "ask for fewer"}},
 		{name: "region that selects nothing", args: []string{"--data", "B/good.csv", "--region", "2000:2100"}, code: 2, want: []string{"--region/--exclude", "select no axis point", "1000–1022"}},
 		{name: "exclusion of everything", args: []string{"--data", "B/good.csv", "--exclude", "900:1100"}, code: 2, want: []string{"select no axis point"}},
-		{name: "closure on rows that are all zero", args: []string{"--data", "B/bad_closure_zero_rows.csv", "--kind", "absorbance"}, code: 2, want: []string{"--closure 1", "spectrum at 0 s", "bad_closure_zero_rows.csv", "--closure off"}},
+		{name: "closure on rows that are all zero", args: []string{"--data", "B/bad_closure_zero_rows.csv", "--kind", "absorbance", "--components", "1"}, code: 2, want: []string{"--closure 1", "spectrum at 0 s", "bad_closure_zero_rows.csv", "--closure off"}},
 		{name: "reference mean over more spectra than there are", args: []string{"--data", "B/good.csv", "--reference", "mean:20"}, code: 2, want: []string{"--reference mean:20", "only 8 spectra", "average at most 8"}},
 		{name: "pre-reaction count too large", args: []string{"--data", "B/good.csv", "--pre", "8"}, code: 2, want: []string{"--pre 8", "only 8 spectra"}},
 		{name: "bad --kind value", args: []string{"--data", "B/good.csv", "--kind", "transmittance"}, code: 2, want: []string{`"transmittance"`, "use single-beam, absorbance or difference"}},

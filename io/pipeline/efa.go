@@ -58,8 +58,8 @@ func computeEFA(r *Result) {
 		r.Warnings = append(r.Warnings, fmt.Sprintf("evolving factor analysis skipped: %v", err))
 		return
 	}
-	rep := &EFAReport{Result: e, Factors: f, Windows: e.Windows(r.Components, r.Rank.Sigma)}
-	sigma := r.Rank.Sigma
+	rep := &EFAReport{Result: e, Factors: f, Windows: e.Windows(r.Components, plainSigma(r))}
+	sigma := plainSigma(r)
 	if !(sigma > 0) {
 		sigma = e.Sigma
 	}

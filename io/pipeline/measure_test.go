@@ -27,6 +27,14 @@ func countsSeries(t *testing.T, sigI, solventA, satA float64, seed uint64) *synt
 		col := mat.Col(nil, 1, s.spectra)
 		s.spectra.SetCol(1, add(col, gaussian(s.axis, 1250, 5, satA)))
 	}
+	solventBeams(s, sigI, solventA, seed)
+	return s
+}
+
+// solventBeams sets s.beams and s.blank from s's species as countsSeries
+// describes: noise σ_I constant in counts, a solvent band of absorbance
+// solventA between 1560 and 1500 cm⁻¹, a blank of 64 co-added scans.
+func solventBeams(s *synth, sigI, solventA float64, seed uint64) {
 	n, m := len(s.times), len(s.axis)
 	rng := rand.New(rand.NewPCG(seed, 1997))
 	env, solvent := make([]float64, m), make([]float64, m)
@@ -49,7 +57,6 @@ func countsSeries(t *testing.T, sigI, solventA, satA float64, seed uint64) *synt
 	for j := range env {
 		s.blank[j] = env[j]*math.Pow(10, -solvent[j]) + sigI/8*rng.NormFloat64()
 	}
-	return s
 }
 
 // litCosines compares true and resolved spectra on the channels keep

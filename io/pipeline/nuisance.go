@@ -58,24 +58,46 @@ func baselineName(order int) string {
 	return fmt.Sprintf("poly:%d", order)
 }
 
-// rankOptions are the rank options of the resolved matrix (see Run).
+// rankInputs are the rank options of the resolved matrix (see Run).
 type rankInputs struct {
+	d     *mat.Dense // the matrix the rank is counted on: D, or √A D √B with weights
 	opt   svd.RankOptions
 	maxF  int
 	noise float64 // trusted noise level for the classification, 0 = let svd decide
+	// row, col are the noise weights when the matrix is the scaled √A D √B (nil: D
+	// itself): the baseline is then removed by weighted least squares and the shape
+	// tests look at the unscaled vectors (docs/measurement.md §2).
+	row, col []float64
+}
+
+// weightedRankInputs are the rank inputs of a matrix scaled by the weights w: the noise
+// level is known, σ = 1, and a reference pattern's time shape in the scaled rows is √a_i.
+func weightedRankInputs(r *Result, scaled *mat.Dense, row, col []float64, refRow, maxF int) rankInputs {
+	return rankInputs{
+		d:     scaled,
+		opt:   svd.RankOptions{Sigma: 1, Alpha: r.Settings.Alpha, ReferenceRow: refRow, PatternTime: sqrts(row)},
+		maxF:  maxF,
+		noise: 1,
+		row:   row,
+		col:   col,
+	}
 }
 
 // chemicalRank estimates the rank of d with a polynomial baseline of the given order
-// projected out, then classifies the factors above the noise; Estimate becomes the
-// chemical count. It returns the report, the factors it was computed on and the
-// classification.
+// projected out (by weighted least squares when in carries weights), then classifies
+// the factors above the noise; Estimate becomes the chemical count. f holds factors of
+// d (nil: d is decomposed here). It returns the report and the classification.
 func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInputs, meanLevel bool) (*svd.RankReport, *svd.ChemicalRank, error) {
 	dc := d
 	if order >= 0 {
 		var err error
-		if dc, err = svd.RemovePolynomial(d, r.Axis, order); err != nil {
+		if dc, err = svd.RemovePolynomialWeighted(d, r.Axis, order, in.col); err != nil {
 			return nil, nil, err
 		}
+		f = nil
+	}
+	if f == nil {
+		var err error
 		if f, err = svd.Decompose(dc, svd.DecomposeOptions{MaxFactors: in.maxF, Seed: r.Settings.Seed}); err != nil {
 			return nil, nil, fmt.Errorf("factor analysis without the baseline: %w", err)
 		}
@@ -84,23 +106,25 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 	if err != nil {
 		return nil, nil, err
 	}
-	cr := svd.ClassifyFactors(dc, f, rep, svd.NuisanceOptions{Axis: r.Axis, Noise: in.noise, MeanLevel: meanLevel})
+	cr := svd.ClassifyFactors(dc, f, rep, svd.NuisanceOptions{Axis: r.Axis, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col})
 	svd.ApplyChemical(rep, cr)
 	return rep, cr, nil
 }
 
-// chooseBaseline settles the baseline order and the chemical rank of r.D.
+// chooseBaseline settles the baseline order and the chemical rank of in.d (r.D, or
+// the scaled √A D √B when weighted); f holds its factors.
 func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 	maxOrder, auto, err := parseBaseline(r.Settings.Baseline)
 	if err != nil {
 		return usage("--baseline %v", err)
 	}
-	_, m := r.D.Dims()
+	d := in.d
+	_, m := d.Dims()
 	if maxOrder+3 >= m {
 		maxOrder = -1
 		r.Notes = append(r.Notes, fmt.Sprintf("no baseline model: %d points are too few", m))
 	}
-	rep, cr, err := chemicalRank(r, r.D, f, maxOrder, in, r.Mode == mcr.Species)
+	rep, cr, err := chemicalRank(r, d, f, maxOrder, in, r.Mode == mcr.Species)
 	if err != nil {
 		return fmt.Errorf("rank: %w", err)
 	}
@@ -115,7 +139,7 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 				kf++
 			}
 		}
-		ch, err := svd.ChooseBaselineOrder(r.D, f, r.Axis, kf, maxOrder, r.Settings.Alpha)
+		ch, err := svd.ChooseBaselineOrderWeighted(d, f, r.Axis, in.col, kf, maxOrder, r.Settings.Alpha)
 		if err != nil {
 			return fmt.Errorf("baseline: %w", err)
 		}
@@ -124,9 +148,13 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 		for _, st := range ch.Steps[1:] {
 			steps = append(steps, fmt.Sprintf("%s p = %.2g", baselineName(st.Order), st.Significance))
 		}
-		r.BaselineReason = fmt.Sprintf("chosen by the extra-sum-of-squares F-test of each order against the one below at level %g (Draper & Smith 1998), with %d factor(s) besides the baseline: %s", r.Settings.Alpha, kf, strings.Join(steps, ", "))
+		metric := ""
+		if in.col != nil {
+			metric = ", each baseline fitted by least squares weighted with the noise"
+		}
+		r.BaselineReason = fmt.Sprintf("chosen by the extra-sum-of-squares F-test of each order against the one below at level %g (Draper & Smith 1998), with %d factor(s) besides the baseline%s: %s", r.Settings.Alpha, kf, metric, strings.Join(steps, ", "))
 		if order != maxOrder {
-			if rep, cr, err = chemicalRank(r, r.D, f, order, in, r.Mode == mcr.Species); err != nil {
+			if rep, cr, err = chemicalRank(r, d, f, order, in, r.Mode == mcr.Species); err != nil {
 				return fmt.Errorf("rank: %w", err)
 			}
 		}
@@ -281,7 +309,7 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, l
 		}
 		var found []SetAside
 		if !r.Settings.KeepOutliers {
-			for _, o := range mcr.FindOutliers(r.D, res.C, res.S, res.Baseline, shapes, r.Axis, r.Rank.Sigma, skip) {
+			for _, o := range mcr.FindOutliers(r.D, res.C, res.S, res.Baseline, shapes, r.Axis, plainSigma(r), skip) {
 				found = append(found, SetAside{Row: o.Row, Reason: o.Reason})
 			}
 		}
@@ -430,4 +458,36 @@ func weightsOfData(data mcr.Data) (row, col []float64) {
 		return w.Weights()
 	}
 	return nil, nil
+}
+
+// plainSigma is the per-point noise level of D in its own units, as the outlier test
+// compares a spectrum's root-mean-square residual with it and EFA of D its singular
+// values: the rank step's σ without weights; with them (the rank's σ is then 1, in units
+// of the noise) the level the rank of D itself estimates (PlainSigma), else the
+// root-mean-square noise of a typical spectrum, √(median_i(1/a_i) · mean_j(1/b_j)).
+func plainSigma(r *Result) float64 {
+	if !weighted(r) {
+		return r.Rank.Sigma
+	}
+	if r.PlainSigma > 0 {
+		return r.PlainSigma
+	}
+	inv := func(v []float64) []float64 {
+		out := make([]float64, 0, len(v))
+		for _, x := range v {
+			if x > 0 {
+				out = append(out, 1/x)
+			}
+		}
+		return out
+	}
+	cb := inv(r.Weights.Col)
+	if len(cb) == 0 {
+		return 0
+	}
+	mean := 0.0
+	for _, x := range cb {
+		mean += x / float64(len(cb))
+	}
+	return math.Sqrt(medianOf(inv(r.Weights.Row)) * mean)
 }

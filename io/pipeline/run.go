@@ -63,6 +63,13 @@ type Result struct {
 	// Scaled is √A D √B, the noise-scaled matrix the factor analysis
 	// works on (nil without weights); Factors and Rank are of it then.
 	Scaled *mat.Dense
+	// ScaledFactors are the factors of √A D √B (nil without weights): the
+	// rank is counted on that matrix, and the compressed weighted ALS of
+	// large data works from them.
+	ScaledFactors *svd.Factors
+	// PlainSigma is the per-point noise of D in its own units as the rank
+	// of D itself estimates it (with weights; see plainSigma).
+	PlainSigma float64
 	// NoiseSigma is the typical noise standard deviation of D (median over
 	// channels) and NoiseSource how it was found.
 	NoiseSigma  float64
@@ -339,31 +346,58 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 		maxF = largeFactors
 	}
 	fmt.Fprintf(log, "factor analysis\n")
-	if weighted(r) && r.Blind != nil && r.Blind.Count > 0 {
-		// Fill the blind points from the noise-scaled low-rank model before
-		// the rank is counted: the placeholders are not data.
-		if _, _, err := weightedFactors(r, maxF, -1, log); err != nil {
-			return nil, err
+	refRow := -1
+	if r.Mode == mcr.Reactions && len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
+		refRow = r.Experiments[0].RefRows[0]
+	}
+	var in rankInputs
+	rf := (*svd.Factors)(nil) // factors of the matrix the rank is counted on
+	if weighted(r) {
+		// Rank, baseline order and the nuisance classification on the
+		// noise-scaled matrix √A D √B, whose noise is white with σ = 1
+		// (docs/measurement.md §2).
+		if r.Blind != nil && r.Blind.Count > 0 {
+			// Fill the blind points from the noise-scaled low-rank model
+			// before the rank is counted: the placeholders are not data.
+			if rf, _, err = weightedFactors(r, maxF, -1, log); err != nil {
+				return nil, err
+			}
+			in = weightedRankInputs(r, r.Scaled, r.Weights.Row, r.Weights.Col, refRow, maxF)
+			r.Scaled = nil // EFA and purest variables below work on D itself
+		} else {
+			in = weightedRankInputs(r, svd.Scale(r.D, r.Weights.Row, r.Weights.Col), r.Weights.Row, r.Weights.Col, refRow, maxF)
 		}
-		r.Scaled = nil // the factor analysis below is of D itself
+		if rf == nil {
+			if rf, err = svd.Decompose(in.d, svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed}); err != nil {
+				return nil, fmt.Errorf("factor analysis: %w", err)
+			}
+		}
+		r.ScaledFactors = rf
 	}
 	f, err := svd.Decompose(r.D, svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed})
 	if err != nil {
 		return nil, fmt.Errorf("factor analysis: %w", err)
 	}
 	r.Factors = f
-	refRow := -1
-	if r.Mode == mcr.Reactions && len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
-		refRow = r.Experiments[0].RefRows[0]
+	pooled := pooledSigma(s, r, r.D)
+	plain := rankInputs{d: r.D, opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooled, Alpha: s.Alpha, ReferenceRow: refRow}, maxF: maxF, noise: pooled}
+	if !weighted(r) {
+		in, rf = plain, f
+	} else if rp, err := svd.EstimateRank(r.D, f, plain.opt); err == nil {
+		// EFA and the outlier test work on D and compare with its noise in
+		// D's units, estimated as without weights (pre-reaction spectra, or
+		// the singular values).
+		r.PlainSigma = rp.Sigma
 	}
 	noiseOf(r)
-	pooled := pooledSigma(s, r, r.D)
-	in := rankInputs{opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooled, Alpha: s.Alpha, ReferenceRow: refRow}, maxF: maxF, noise: pooled}
-	if err := chooseBaseline(r, f, in); err != nil {
+	if err := chooseBaseline(r, rf, in); err != nil {
 		return nil, err
 	}
 	rank := r.Rank
-	if pooled > 0 {
+	switch {
+	case weighted(r):
+		rank.SigmaSource = "noise model from the data (" + r.NoiseSource + "); the matrix is scaled so that its noise has σ = 1"
+	case in.noise > 0:
 		rank.SigmaSource = "pre-reaction rows of every experiment"
 	}
 	if !weighted(r) {
@@ -376,7 +410,13 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 			ref = r.Experiments[0].RefRows[0]
 		}
 		din := rankInputs{opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooledSigma(s, r, dd), Alpha: s.Alpha, ReferenceRow: ref}, maxF: maxF, noise: pooledSigma(s, r, dd)}
-		if r.BaselineOrder >= 0 {
+		if weighted(r) && r.DiffWeights != nil {
+			// The differences have their own noise (the reference's added):
+			// scaled with their own weights, their noise is white with σ = 1.
+			fillDifferenceBlind(r, dd)
+			din = weightedRankInputs(r, svd.Scale(dd, r.DiffWeights.Row, r.DiffWeights.Col), r.DiffWeights.Row, r.DiffWeights.Col, ref, maxF)
+			r.DiffRank, r.DiffChemical, _ = chemicalRank(r, din.d, nil, r.BaselineOrder, din, false)
+		} else if r.BaselineOrder >= 0 {
 			r.DiffRank, r.DiffChemical, _ = chemicalRank(r, dd, nil, r.BaselineOrder, din, false)
 		} else if fd, err := differenceFactors(r, dd, f, maxF); err == nil {
 			r.DiffRank, r.DiffChemical, _ = chemicalRank(r, dd, fd, -1, din, false)
@@ -719,7 +759,7 @@ func addEFAWindows(r *Result, opt *mcr.Options) error {
 	if err != nil {
 		return fmt.Errorf("evolving factor analysis: %w", err)
 	}
-	w := e.Windows(k, r.Rank.Sigma)
+	w := e.Windows(k, plainSigma(r))
 	n, _ := r.D.Dims()
 	if opt.ZeroProfiles == nil {
 		opt.ZeroProfiles = make([][]bool, k)

@@ -131,7 +131,9 @@ func alsData(r *Result, k int) mcr.Data {
 		// The compressed weighted form needs the factors of √A D √B; the
 		// factor analysis decomposed D itself.
 		f := r.Factors
-		if r.Scaled == nil {
+		if r.Scaled == nil && r.ScaledFactors != nil && len(r.ScaledFactors.S) >= rr {
+			f = r.ScaledFactors // decomposed for the rank
+		} else if r.Scaled == nil {
 			fs, err := svd.Decompose(svd.Scale(r.D, r.Weights.Row, r.Weights.Col), svd.DecomposeOptions{MaxFactors: rr, Seed: r.Settings.Seed})
 			if err != nil || len(fs.S) < rr {
 				return mcr.WeightedDense{D: r.D, Row: r.Weights.Row, Col: r.Weights.Col}
