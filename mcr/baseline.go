@@ -174,31 +174,49 @@ func lowerSpectra(s *mat.Dense, k int, nonneg []bool, q *mat.Dense) {
 func lowerEnvelope(orig []float64, q *mat.Dense) []float64 {
 	m := len(orig)
 	_, b := q.Dims()
+	// One pass over the rows per iteration: the fit at row i, the clip, and
+	// row i's term of the next iteration's coefficients (which needs only
+	// the clipped y_i). Every sum runs in the same order as two separate
+	// passes would (bit-identical results), rows are read from q's raw
+	// storage instead of through At, and the data are read once instead of
+	// twice: this loop runs for every spectrum in every ALS iteration with a
+	// baseline, up to 200 times each.
+	raw := q.RawMatrix()
 	y := append([]float64(nil), orig...)
 	fit := make([]float64, m)
 	coef := make([]float64, b)
+	next := make([]float64, b)
+	for i := 0; i < m; i++ {
+		row := raw.Data[i*raw.Stride : i*raw.Stride+b]
+		for a, v := range row {
+			coef[a] += v * y[i]
+		}
+	}
 	for it := 0; it < 200; it++ {
-		for a := 0; a < b; a++ {
-			coef[a] = 0
-			for i := 0; i < m; i++ {
-				coef[a] += q.At(i, a) * y[i]
-			}
+		for a := range next {
+			next[a] = 0
 		}
 		changed := false
 		for i := 0; i < m; i++ {
+			row := raw.Data[i*raw.Stride : i*raw.Stride+b]
 			v := 0.0
-			for a := 0; a < b; a++ {
-				v += q.At(i, a) * coef[a]
+			for a, qa := range row {
+				v += qa * coef[a]
 			}
 			fit[i] = v
 			if v < y[i] {
 				y[i] = v
 				changed = true
 			}
+			yi := y[i]
+			for a, qa := range row {
+				next[a] += qa * yi
+			}
 		}
 		if !changed {
 			break
 		}
+		coef, next = next, coef
 	}
 	return fit
 }

@@ -1,7 +1,10 @@
 package pipeline
 
 import (
+	"math"
 	"math/rand/v2"
+	"sort"
+	"strings"
 	"runtime"
 	"testing"
 	"time"
@@ -18,7 +21,8 @@ import (
 // their ratio (the target of hard–soft with 5–6 species: within 30× the
 // parse), and checks the reported rate constants against the truth (3 %
 // and 4 standard errors, as TestTwoSubsystemsHardModel does at a small
-// size). Timings belong here and in docs/performance.md, never in a test.
+// size; see checkSubsystemsAtScale for when the data cannot tell their
+// order). Timings belong here and in docs/performance.md, never in a test.
 func BenchmarkHardModelSubsystems(b *testing.B) {
 	c := newSubsystems(2000, 3001, 5000)
 	dir := b.TempDir()
@@ -49,6 +53,54 @@ func BenchmarkHardModelSubsystems(b *testing.B) {
 		}
 		b.ReportMetric(float64(r.ALS.Iterations), "hard-soft-iterations")
 		b.ReportMetric(worstCosine(r.ALS.S, c.Spectra), "worst-spectrum-cosine")
-		checkSubsystems(b, r, c)
+		checkSubsystemsAtScale(b, r, c)
+	}
+}
+
+// orderUndetermined is the start of the warning the exchange check gives
+// when another order of the rate constants fits as well with free and
+// with non-negative spectra (swapCheck).
+const orderUndetermined = "the data alone cannot tell the order of the rate constants"
+
+// checkSubsystemsAtScale is checkSubsystems unless the run warns that the
+// data cannot tell the order of the rate constants. For A -> B -> C; D -> E
+// that can be the truth: the model columns span {1, e^{−k1 t}, e^{−k2 t},
+// e^{−k3 t}} in any order of the three constants (the concentrations are
+// sums of these exponentials, Bateman 1910), and with two closed subsystems
+// non-negative spectra need not choose either (a spectrum direction is
+// free, see docs/kinetics.md). Then the data determine the set of rate
+// constants and not which step has which, so the set is checked: the
+// reported constants in increasing order against the true ones in
+// increasing order, each within 3 % and 4 of its standard errors. Without
+// the warning the order must be right (checkSubsystems), so a wrong order
+// the run does not own up to still fails.
+func checkSubsystemsAtScale(tb testing.TB, r *Result, c *seriesCase) {
+	warned := false
+	for _, w := range r.Warnings {
+		warned = warned || strings.Contains(w, orderUndetermined)
+	}
+	if !warned {
+		checkSubsystems(tb, r, c)
+		return
+	}
+	kn := r.Kinetics
+	if kn == nil || kn.Reported() == nil || kn.Reported().Method != "data" {
+		tb.Fatalf("no data fit reported; warnings %q", r.Warnings)
+	}
+	rep := kn.Reported().Fit
+	got := make([]int, len(rep.K))
+	for j := range got {
+		got[j] = j
+	}
+	sort.Slice(got, func(a, b int) bool { return rep.K[got[a]] < rep.K[got[b]] })
+	truth := append([]float64(nil), c.K...)
+	sort.Float64s(truth)
+	tb.Logf("the run warns that the order is not determined by the data; checking the set of rate constants")
+	for a, j := range got {
+		k, se := rep.K[j], rep.KStdErr[j]
+		tb.Logf("%s: k = %.6g ± %.2g against the %d. smallest true value %g (%+.2f %%, %+.1f standard errors)", kn.Scheme.Steps[j].Text, k, se, a+1, truth[a], 100*(k/truth[a]-1), (k-truth[a])/se)
+		if !(se > 0) || math.Abs(k-truth[a]) > 4*se || math.Abs(k/truth[a]-1) > 0.03 {
+			tb.Errorf("%s: k = %.6g ± %.2g, want within 3 %% and 4 standard errors of %g, the true value of the same rank", kn.Scheme.Steps[j].Text, k, se, truth[a])
+		}
 	}
 }
