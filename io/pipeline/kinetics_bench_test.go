@@ -3,9 +3,9 @@ package pipeline
 import (
 	"math"
 	"math/rand/v2"
+	"runtime"
 	"sort"
 	"strings"
-	"runtime"
 	"testing"
 	"time"
 
