@@ -132,6 +132,16 @@ type Options struct {
 	// cycle (hard–soft MCR, de Juan et al. 2000). It gets the soft profiles
 	// and returns the profiles to use.
 	HardModel func(c *mat.Dense) (*mat.Dense, error)
+	// HardKept, when set with HardModel, is told after every iteration
+	// whether ALS kept the profiles HardModel returned in it (an
+	// extrapolated iteration that does not lower the residual is undone,
+	// and so is one that starts a degenerate drift), so that the caller's
+	// record of the model matches the profiles ALS goes on from. It returns
+	// true when the model has settled (its parameters no longer change
+	// beyond their uncertainty); ALS then stops, converged. With HardKept
+	// set, hard–soft ALS extrapolates between iterations as soft ALS does;
+	// without it, it cannot (the caller could not tell which fit was kept).
+	HardKept func(kept bool) (settled bool)
 	// Ridge, when positive, adds Ridge·tr(SᵀS)/k to the diagonal of the
 	// profiles step's Gram matrix (Tikhonov regularisation). Reactions mode
 	// uses it: with signed spectra and only X ≥ 0, ALS can drift toward a
@@ -179,10 +189,22 @@ type Result struct {
 	// Degenerate: ALS was stopped because the components grew far beyond
 	// the data's size while cancelling each other (see driftLimit).
 	Degenerate bool
+	// HardCreep: hard–soft ALS stopped because its residual crept uphill
+	// (see hardRises); the last iterate is kept, and Converged is set.
+	HardCreep bool
 	// Baseline holds the n × b baseline coefficients when Options.Baseline
 	// was set (nil otherwise).
 	Baseline *mat.Dense
 }
+
+// hardRises and hardCreep define the uphill creep of hard–soft ALS (see
+// Resolve): that many kept iterations in a row that each raised the
+// residual, by less than that fraction of it in all (a transient rise while
+// the model's parameters move far is larger).
+const (
+	hardRises = 10
+	hardCreep = 1e-4
+)
 
 // driftLimit is the ratio Σ_k ‖c_k‖‖s_k‖ / ‖D‖_F above which components are
 // taken to cancel each other: a resolution of real data has each component
@@ -478,7 +500,14 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 	// iterations instead of 560 for the same lack of fit.
 	var cPrev *mat.Dense
 	step := 1.0
-	accelerate := opt.HardModel == nil && !opt.NoExtrapolation
+	accelerate := (opt.HardModel == nil || opt.HardKept != nil) && !opt.NoExtrapolation
+	rises, riseFrom := 0, 0.0
+	kept := func(k bool) bool {
+		if opt.HardModel == nil || opt.HardKept == nil {
+			return false
+		}
+		return opt.HardKept(k)
+	}
 	// exactSteps: both half steps minimise the residual itself (no
 	// projection, model, ridge or soft reference in the objective), and the
 	// caller asked to stop at the rounding floor (constraint checks: a
@@ -576,6 +605,7 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 			// degenerate drift (the fit gains nothing by it; Navasca, De
 			// Lathauwer & Kindermann 2008, from memory). Keep the last
 			// iterate before it and stop.
+			kept(false)
 			if extrapolated {
 				c, s, cPrev, step = cPlain, sPlain, nil, 1
 				res.Iterations = it
@@ -589,6 +619,7 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		}
 		if extrapolated && !(ssr < prev) {
 			// Rejected: back to the last accepted iterate, plain step next.
+			kept(false)
 			c, s, cPrev, step = cPlain, sPlain, nil, 1
 			res.Iterations = it
 			continue
@@ -608,6 +639,27 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		if extrapolated {
 			step = math.Min(step*1.3, 20)
 		}
+		settled := kept(true)
+		if opt.HardKept != nil {
+			// Hard–soft ALS is no descent method (the model is fitted to
+			// the soft profiles, not to the data), and once it has passed
+			// its best fit it can creep uphill for hundreds of iterations
+			// along a direction the data hardly determine. A run of
+			// hardRises kept iterations that each raised the residual, by
+			// less than hardCreep of it in all, is that creep: stop there.
+			if ssr > prev && !math.IsInf(prev, 1) {
+				if rises == 0 {
+					riseFrom = prev
+				}
+				rises++
+			} else {
+				rises = 0
+			}
+			if rises >= hardRises && ssr-riseFrom < hardCreep*ssr {
+				settled = true
+				res.HardCreep = true
+			}
+		}
 		cPrev = cPlain
 		lof := 100 * math.Sqrt(ssr/total)
 		res.History = append(res.History, lof)
@@ -616,7 +668,7 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		if opt.Observe != nil {
 			opt.Observe(it, lof)
 		}
-		if math.Abs(prev-ssr) <= opt.Tolerance*math.Max(ssr, 1e-300*total) || ssr <= 1e-28*total {
+		if settled || math.Abs(prev-ssr) <= opt.Tolerance*math.Max(ssr, 1e-300*total) || ssr <= 1e-28*total {
 			res.Converged = true
 			prev = ssr
 			break

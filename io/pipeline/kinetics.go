@@ -688,18 +688,36 @@ func hardSoft(r *Result, data mcr.Data, opt mcr.Options, order []int, log io.Wri
 		start, last, hopt = pre.Model, pre, opt
 		fmt.Fprintf(log, "hard–soft starts from the data fit, k = %s\n", kn.kList(pre.K))
 	}
+	// pending is the fit of the iteration under way; ALS says whether it
+	// kept it (HardKept), and only a kept fit becomes last, the start of
+	// the next cycle's fit and the hard–soft fit reported.
+	var pending *kinetics.FitResult
+	var pendingObs *mat.Dense
 	hopt.HardModel = func(c *mat.Dense) (*mat.Dense, error) {
 		obs := kn.observed(c)
 		fit, err := kinetics.FitProfiles(kn.Scheme, r.Times, obs, kn.Columns, kn.warm(last))
 		if err != nil {
 			return nil, err
 		}
-		last, lastObs = fit, obs
+		pending, pendingObs = fit, obs
 		out := mat.DenseCopyOf(c)
 		for j, comp := range kn.Components {
 			out.SetCol(comp, mat.Col(nil, j, fit.Fitted))
 		}
 		return out, nil
+	}
+	allModel := len(kn.Components) == r.Components
+	var settle settling
+	hopt.HardKept = func(kept bool) bool {
+		if !kept || pending == nil {
+			return false
+		}
+		prev := last
+		last, lastObs = pending, pendingObs
+		pending = nil
+		// Only when every component is a model column does the model fix
+		// the whole solution; soft components may still be moving.
+		return allModel && settle.step(prev, last)
 	}
 	fmt.Fprintf(log, "hard–soft resolution with %s\n", kn.Scheme.Text)
 	var withBaseline *mat.Dense
@@ -769,6 +787,49 @@ func hardSoft(r *Result, data mcr.Data, opt mcr.Options, order []int, log io.Wri
 	kn.Fits = []*KineticFit{{Method: "hard-soft", Fit: last, Observed: lastObs}, {Method: "soft-profiles", Fit: soft, Observed: softObs}}
 	r.Kinetics = kn
 	return res, data, nil
+}
+
+// settleChange and settleLeft bound when hard–soft ALS has settled: the
+// rate constants (and fitted initial concentrations) changed in the last
+// kept cycle by less than settleChange of their standard errors, and the
+// change still to come, estimated from the rate at which the changes
+// shrink (a geometric series: d ρ/(1 − ρ) with ρ the ratio of the last two
+// changes), is below settleLeft of them. The standard errors are those of
+// the cycle's profile fit, which treat the spectra as known and so are
+// smaller than the honest ones: the bound errs on the side of iterating.
+const settleChange, settleLeft = 1e-2, 1e-2
+
+// settling follows the changes of the hard–soft fit from cycle to cycle.
+type settling struct{ prevChange float64 }
+
+// step records the change from a to b, in standard errors of b, and says
+// whether the fit has settled.
+func (st *settling) step(a, b *kinetics.FitResult) bool {
+	d := 0.0
+	for j := range b.K {
+		if b.KStdErr[j] == 0 {
+			continue // a fixed step
+		}
+		if !(b.KStdErr[j] > 0) {
+			return false
+		}
+		d = math.Max(d, math.Abs(b.K[j]-a.K[j])/b.KStdErr[j])
+	}
+	for i := range b.C0 {
+		if b.C0StdErr[i] > 0 && i < len(a.C0) {
+			d = math.Max(d, math.Abs(b.C0[i]-a.C0[i])/b.C0StdErr[i])
+		}
+	}
+	prev := st.prevChange
+	st.prevChange = d
+	if d == 0 {
+		return true // nothing moved
+	}
+	if !(d < settleChange) || !(prev > 0) {
+		return false
+	}
+	rho := d / prev
+	return rho < 1 && d*rho/(1-rho) < settleLeft
 }
 
 // fitKinetics fits --model after resolve: the resolved profiles (unless a
@@ -1111,8 +1172,8 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 }
 
 // exchanges lists the other orders of the free rate constants among steps
-// of equal order: every exchanged pair, and with three or four such steps
-// every permutation (at most 23 alternatives); k of steps with equal
+// of equal order: with two to four such steps every permutation (at most 23
+// alternatives), with more every exchanged pair; k of steps with equal
 // values (within 1 %) are not told apart.
 func (kn *Kinetics) exchanges(k []float64) [][]float64 {
 	byOrder := map[int][]int{}
@@ -1130,7 +1191,22 @@ func (kn *Kinetics) exchanges(k []float64) [][]float64 {
 	seen := map[string]bool{kFingerprint(k): true}
 	for _, ord := range orders {
 		steps := byOrder[ord]
-		if len(steps) < 2 || len(steps) > 4 {
+		if len(steps) < 2 {
+			continue
+		}
+		if len(steps) > 4 {
+			// Every permutation would be 119 or more refits: each
+			// exchanged pair instead (10 for five steps).
+			for a := range steps {
+				for b := a + 1; b < len(steps); b++ {
+					alt := append([]float64(nil), k...)
+					alt[steps[a]], alt[steps[b]] = k[steps[b]], k[steps[a]]
+					if f := kFingerprint(alt); !seen[f] {
+						seen[f] = true
+						out = append(out, alt)
+					}
+				}
+			}
 			continue
 		}
 		perm := make([]int, len(steps))

@@ -235,4 +235,7 @@ func checkRates(tb testing.TB, r *Result, truth []float64) {
 			tb.Errorf("%s: k = %.6g ± %.2g, want within 3 %% and 4 standard errors of %g", kn.Scheme.Steps[j].Text, k, se, want)
 		}
 	}
+	if tb.Failed() {
+		tb.Logf("warnings %q\nnotes %q", r.Warnings, r.Notes)
+	}
 }
