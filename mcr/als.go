@@ -189,20 +189,21 @@ type Result struct {
 	// Degenerate: ALS was stopped because the components grew far beyond
 	// the data's size while cancelling each other (see driftLimit).
 	Degenerate bool
-	// HardCreep: hard–soft ALS stopped because its residual crept uphill
-	// (see hardRises); the last iterate is kept, and Converged is set.
+	// HardCreep: hard–soft ALS stopped because its residual no longer
+	// reached a new low (see hardRises); the last iterate is kept, and
+	// Converged is set.
 	HardCreep bool
 	// Baseline holds the n × b baseline coefficients when Options.Baseline
 	// was set (nil otherwise).
 	Baseline *mat.Dense
 }
 
-// hardRises and hardCreep define the uphill creep of hard–soft ALS (see
-// Resolve): that many kept iterations in a row that each raised the
-// residual, by less than that fraction of it in all (a transient rise while
-// the model's parameters move far is larger).
+// hardRises and hardCreep define the creep of hard–soft ALS (see
+// Resolve): that many kept iterations without a new lowest residual, the
+// last within that fraction of the lowest (a transient rise while the
+// model's parameters move far is larger).
 const (
-	hardRises = 10
+	hardRises = 20
 	hardCreep = 1e-4
 )
 
@@ -501,7 +502,7 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 	var cPrev *mat.Dense
 	step := 1.0
 	accelerate := (opt.HardModel == nil || opt.HardKept != nil) && !opt.NoExtrapolation
-	rises, riseFrom := 0, 0.0
+	best, sinceBest := math.Inf(1), 0
 	kept := func(k bool) bool {
 		if opt.HardModel == nil || opt.HardKept == nil {
 			return false
@@ -643,19 +644,17 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		if opt.HardKept != nil {
 			// Hard–soft ALS is no descent method (the model is fitted to
 			// the soft profiles, not to the data), and once it has passed
-			// its best fit it can creep uphill for hundreds of iterations
-			// along a direction the data hardly determine. A run of
-			// hardRises kept iterations that each raised the residual, by
-			// less than hardCreep of it in all, is that creep: stop there.
-			if ssr > prev && !math.IsInf(prev, 1) {
-				if rises == 0 {
-					riseFrom = prev
-				}
-				rises++
+			// its best fit it can creep for hundreds of iterations along a
+			// direction the data hardly determine, extrapolated steps
+			// down and plain ones up. hardRises kept iterations without a
+			// new lowest residual, all within hardCreep of it, are that
+			// creep: stop there.
+			if ssr < best {
+				best, sinceBest = ssr, 0
 			} else {
-				rises = 0
+				sinceBest++
 			}
-			if rises >= hardRises && ssr-riseFrom < hardCreep*ssr {
+			if sinceBest >= hardRises && ssr-best < hardCreep*ssr {
 				settled = true
 				res.HardCreep = true
 			}
