@@ -510,6 +510,14 @@ func BenchmarkWhole20000x3000(b *testing.B) {
 	benchWhole(b, 20000, 3000)
 }
 
+// BenchmarkWhole50000x3000: the same on 150 million values (a 1.5 GB file,
+// written to a temporary folder first), for the peak resident memory of the
+// largest series issue 15 names. Only when asked for: -bench Whole50000x3000.
+func BenchmarkWhole50000x3000(b *testing.B) {
+	explicitly(b, "Whole50000")
+	benchWhole(b, 50000, 3000)
+}
+
 // BenchmarkScalingPhases runs the whole resolve at n = 1000, 2000, 4000
 // spectra × 3000 points and at 2000 spectra × m = 1500, 3000, 6000 points,
 // and prints for every phase its CPU time and the exponent of its growth,
