@@ -90,11 +90,26 @@ func weightedRankInputs(r *Result, scaled *mat.Dense, row, col []float64, refRow
 func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInputs, meanLevel bool) (*svd.RankReport, *svd.ChemicalRank, error) {
 	dc := d
 	if order >= 0 {
-		var err error
-		if dc, err = svd.RemovePolynomialWeighted(d, r.Axis, order, in.col); err != nil {
-			return nil, nil, err
+		_, m := d.Dims()
+		if order+1 >= m {
+			return nil, nil, fmt.Errorf("baseline of order %d needs more than %d points", order, m)
 		}
-		f = nil
+		// D Q⊥ = D − (D Q) Qᵀ; with truncated factors of D (large data) those of
+		// D Q⊥ follow from them (svd.ProjectFactors) instead of a new decomposition.
+		q := svd.PolyBasis(r.Axis, order, in.col)
+		var dq mat.Dense
+		dq.Mul(d, q)
+		dc = mat.NewDense(d.RawMatrix().Rows, m, nil)
+		dc.Mul(&dq, q.T())
+		dc.Sub(d, dc)
+		if f != nil && !f.Full() {
+			var err error
+			if f, err = svd.ProjectFactors(f, q, &dq); err != nil {
+				return nil, nil, fmt.Errorf("factor analysis without the baseline: %w", err)
+			}
+		} else {
+			f = nil
+		}
 	}
 	if f == nil {
 		var err error
