@@ -154,7 +154,13 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 				kf++
 			}
 		}
-		ch, err := svd.ChooseBaselineOrderWeighted(d, f, r.Axis, in.col, kf, maxOrder, r.Settings.Alpha)
+		// The search tests up to maxOrder+1 orders, each a chance of a false alarm:
+		// each is tested at alpha/(maxOrder+1), so the chance that data without a
+		// baseline get one stays below alpha (Bonferroni's inequality, common
+		// practice for a family of tests). At alpha per order, two closed subsystems
+		// with no baseline got a linear one (p = 0.04, TestBaselineAutoChoosesNone…).
+		level := r.Settings.Alpha / float64(maxOrder+1)
+		ch, err := svd.ChooseBaselineOrderWeighted(d, f, r.Axis, in.col, kf, maxOrder, level)
 		if err != nil {
 			return fmt.Errorf("baseline: %w", err)
 		}
@@ -167,7 +173,7 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 		if in.col != nil {
 			metric = ", each baseline fitted by least squares weighted with the noise"
 		}
-		r.BaselineReason = fmt.Sprintf("chosen by the extra-sum-of-squares F-test of each order against the one below at level %g (Draper & Smith 1998), with %d factor(s) besides the baseline%s: %s", r.Settings.Alpha, kf, metric, strings.Join(steps, ", "))
+		r.BaselineReason = fmt.Sprintf("chosen by the extra-sum-of-squares F-test of each order against the one below at level %.3g (Draper & Smith 1998; --alpha %g shared by the %d orders tried, Bonferroni), with %d factor(s) besides the baseline%s: %s", level, r.Settings.Alpha, maxOrder+1, kf, metric, strings.Join(steps, ", "))
 		if order != maxOrder {
 			if rep, cr, err = chemicalRank(r, d, f, order, in, r.Mode == mcr.Species); err != nil {
 				return fmt.Errorf("rank: %w", err)
