@@ -209,17 +209,39 @@ const (
 
 // driftLimit is the ratio Σ_k ‖c_k‖‖s_k‖ / ‖D‖_F above which components are
 // taken to cancel each other: a resolution of real data has each component
-// no larger than the data (ratio about k at most).
+// no larger than the data (ratio about k at most). With weights both sides
+// are taken in the weighted metric (componentSizeW over √(Σ a_i b_j d²_ij)):
+// the weighted norm of noise-scaled data is ‖D‖/σ, so an unweighted size
+// over it moved the limit by 1/σ (to about 10⁶ at σ = 10⁻³).
 const driftLimit = 1e3
 
 // componentSize returns Σ_k ‖c_k‖ ‖s_k‖, which bounds ‖C Sᵀ‖_F.
-func componentSize(c, s *mat.Dense) float64 {
+func componentSize(c, s *mat.Dense) float64 { return componentSizeW(c, s, nil, nil) }
+
+// componentSizeW returns Σ_k ‖√A c_k‖ ‖√B s_k‖, which bounds the weighted
+// norm ‖√A C Sᵀ √B‖_F (triangle inequality and ‖x yᵀ‖_F = ‖x‖‖y‖); nil
+// weights are ones.
+func componentSizeW(c, s *mat.Dense, row, col []float64) float64 {
 	_, k := c.Dims()
 	sum := 0.0
 	for j := 0; j < k; j++ {
-		sum += mat.Norm(c.ColView(j), 2) * mat.Norm(s.ColView(j), 2)
+		sum += normW(c, j, row) * normW(s, j, col)
 	}
 	return sum
+}
+
+// normW returns ‖√W x_j‖ for column j of x (‖x_j‖ when w is nil).
+func normW(x *mat.Dense, j int, w []float64) float64 {
+	if w == nil {
+		return mat.Norm(x.ColView(j), 2)
+	}
+	r, _ := x.Dims()
+	ss := 0.0
+	for i := 0; i < r; i++ {
+		v := x.At(i, j)
+		ss += w[i] * v * v
+	}
+	return math.Sqrt(ss)
 }
 
 // directResidual is implemented by Data that can form D − C Sᵀ itself.
@@ -601,7 +623,7 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 			// form whose error scales with the fit, not with the factors.
 			ssr = residualSS(d, c, s, total, ssr)
 		}
-		if drift := componentSize(c, s) / math.Sqrt(total); drift > driftLimit && sPlain != nil {
+		if drift := componentSizeW(c, s, rowW, colW) / math.Sqrt(total); drift > driftLimit && sPlain != nil {
 			// Components far larger than the data that cancel in C Sᵀ: a
 			// degenerate drift (the fit gains nothing by it; Navasca, De
 			// Lathauwer & Kindermann 2008, from memory). Keep the last
