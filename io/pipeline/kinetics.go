@@ -66,6 +66,27 @@ type Kinetics struct {
 	// reduced is the data fits' reduction of the data (kinetics.FitData),
 	// kept so that refits of the same data do not repeat it.
 	reduced *mat.Dense
+	// batch, while set, keeps the data the fits of one batch (dataStart,
+	// fitKinetics: a fit and its other orders) share, see dataBatch.
+	batch *dataBatch
+}
+
+// dataBatch is what the data fits of one batch share: the rows fitData
+// fits (the baseline projected out, spectra set aside left out) and their
+// noise-weighted form. Forming each is a pass over the whole data, and a
+// batch makes up to 25 fits of one matrix. It lives only for one batch, so
+// that a change of r.D between batches (hard–soft re-estimates the
+// baseline) is always seen.
+type dataBatch struct {
+	d      *mat.Dense
+	times  []float64
+	scaled *mat.Dense
+}
+
+// startBatch begins a batch of data fits; the returned function ends it.
+func (kn *Kinetics) startBatch() func() {
+	kn.batch = &dataBatch{}
+	return func() { kn.batch = nil }
 }
 
 // KineticFit is one fit of the scheme.
@@ -863,6 +884,8 @@ func fitKinetics(r *Result, log io.Writer) error {
 	// with k1 and k2 swapped, the "slow–fast" ambiguity), the non-negative,
 	// closed profiles can.
 	dopt := kn.dataOptions(r, kn.warm(kn.Fits[0].Fit))
+	endBatch := kn.startBatch()
+	defer endBatch()
 	dfit, spectra, err := kn.fitData(r, dopt)
 	if err != nil {
 		r.Warnings = append(r.Warnings, "kinetics: the fit of the data matrix failed: "+oneLineText(err.Error()))
@@ -946,30 +969,19 @@ func keptValues(r *Result, v []float64) []float64 {
 // with the model columns then simulated at every time, so that Model has
 // one row per spectrum as everywhere else.
 func (kn *Kinetics) fitData(r *Result, opt kinetics.FitOptions) (*kinetics.FitResult, *mat.Dense, error) {
-	times, d := r.Times, r.D
-	if r.BaselineShapes != nil {
-		// The baseline resolve subtracted came with its own (soft)
-		// solution; fitted jointly instead, it leaves the data's
-		// component along the baseline shapes out (projectOutShapes).
-		d = projectOutShapes(d, r.BaselineShapes)
-	}
-	if len(r.SetAside) > 0 {
-		rows := keptRows(r)
-		_, m := d.Dims()
-		all := d
-		d = mat.NewDense(len(rows), m, nil)
-		times = make([]float64, len(rows))
-		for a, i := range rows {
-			d.SetRow(a, all.RawRowView(i))
-			times[a] = r.Times[i]
-		}
-	}
+	times, d := kn.fitRows(r)
 	if opt.Reduced == nil {
 		opt.Reduced = kn.reduced
+	}
+	if b := kn.batch; b != nil && opt.Scaled == nil {
+		opt.Scaled = b.scaled
 	}
 	fit, spectra, err := kinetics.FitData(kn.Scheme, times, d, opt)
 	if err == nil {
 		kn.reduced = fit.Reduced
+		if kn.batch != nil {
+			kn.batch.scaled = fit.Scaled
+		}
 	}
 	if err != nil || len(r.SetAside) == 0 {
 		return fit, spectra, err
@@ -983,6 +995,36 @@ func (kn *Kinetics) fitData(r *Result, opt kinetics.FitOptions) (*kinetics.FitRe
 		fit.Model = sim.Extents
 	}
 	return fit, spectra, nil
+}
+
+// fitRows returns the times and rows of r.D the data fits work on: with a
+// baseline, the data's component along the baseline shapes left out (the
+// baseline resolve subtracted came with its own, soft, solution; fitted
+// jointly instead, projectOutShapes), and without the spectra set aside
+// (keptRows). Within a batch they are formed once.
+func (kn *Kinetics) fitRows(r *Result) ([]float64, *mat.Dense) {
+	if b := kn.batch; b != nil && b.d != nil {
+		return b.times, b.d
+	}
+	times, d := r.Times, r.D
+	if r.BaselineShapes != nil {
+		d = projectOutShapes(d, r.BaselineShapes)
+	}
+	if len(r.SetAside) > 0 {
+		rows := keptRows(r)
+		_, m := d.Dims()
+		all := d
+		d = mat.NewDense(len(rows), m, nil)
+		times = make([]float64, len(rows))
+		for a, i := range rows {
+			d.SetRow(a, all.RawRowView(i))
+			times[a] = r.Times[i]
+		}
+	}
+	if b := kn.batch; b != nil {
+		b.times, b.d = times, d
+	}
+	return times, d
 }
 
 // nonNegativeCost is kinetics.NonNegativeCost on the rows fitData fits.
@@ -1019,6 +1061,7 @@ func (kn *Kinetics) dataStart(r *Result, soft *kinetics.FitResult, opt mcr.Optio
 	if r.Settings.Map != "" || len(kn.Components) != nModel || r.Components != nModel || !alikeOptions(opt) {
 		return nil
 	}
+	defer kn.startBatch()()
 	var best *kinetics.FitResult
 	var bestSpectra *mat.Dense
 	var bestOpt kinetics.FitOptions

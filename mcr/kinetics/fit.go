@@ -44,6 +44,11 @@ type FitOptions struct {
 	// matrix (other starting constants, other orders) then skip the
 	// randomized SVD. Ignored unless it has one row per spectrum.
 	Reduced *mat.Dense
+	// Scaled, for FitData with noise weights, is the weighted data
+	// √A D √B of the same data and weights, as an earlier FitData returned
+	// it in FitResult.Scaled: refits skip the pass that forms it. Ignored
+	// unless it has the data's dimensions.
+	Scaled *mat.Dense
 	// Sim tunes the simulation used inside the fit.
 	Sim SimSettings
 	// LM tunes the Levenberg–Marquardt iteration.
@@ -84,7 +89,10 @@ type FitResult struct {
 	DegreesOfFreedom int
 	// Reduced is the reduction of the (weighted) data FitData worked on
 	// (reduceData), to pass back in FitOptions.Reduced.
-	Reduced    *mat.Dense
+	Reduced *mat.Dense
+	// Scaled is the weighted data √A D √B FitData worked on (nil without
+	// weights), to pass back in FitOptions.Scaled.
+	Scaled     *mat.Dense
 	Iterations int
 	Converged  bool
 	Stiff      bool
@@ -169,6 +177,37 @@ func scaleRowsSqrt(x *mat.Dense, w []float64) *mat.Dense {
 		f := math.Sqrt(w[i])
 		for j := 0; j < c; j++ {
 			out.Set(i, j, f*out.At(i, j))
+		}
+	}
+	return out
+}
+
+// weightData returns √A D √B (a_i the row weights, b_j the column weights,
+// nil = 1) in one pass over d, each entry √b_j (√a_i d_ij) as scaling the
+// rows and then the columns would give it. FitData runs on a data matrix
+// many times (starts, other orders of the rate constants): four passes and
+// a transposed copy per fit were most of its time at 2000 × 3001.
+func weightData(d *mat.Dense, row, col []float64) *mat.Dense {
+	n, m := d.Dims()
+	out := mat.NewDense(n, m, nil)
+	var g []float64
+	if col != nil {
+		g = make([]float64, m)
+		for j, b := range col {
+			g[j] = math.Sqrt(b)
+		}
+	}
+	for i := 0; i < n; i++ {
+		f := 1.0
+		if row != nil {
+			f = math.Sqrt(row[i])
+		}
+		src, dst := d.RawRowView(i), out.RawRowView(i)
+		for j, v := range src {
+			dst[j] = f * v
+			if g != nil {
+				dst[j] = g[j] * dst[j]
+			}
 		}
 	}
 	return out
@@ -270,6 +309,8 @@ func newFitProblem(s *Scheme, times []float64, opt FitOptions, nobs int) (*fitPr
 	if opt.Sim.MaxSteps == 0 {
 		p.opt.Sim.MaxSteps = 100000
 	}
+	// A fit of concentrations never reads the extents.
+	p.opt.Sim.concentrationsOnly = !opt.UseExtents
 	if math.IsNaN(opt.T0) || math.IsInf(opt.T0, 0) {
 		return nil, fmt.Errorf("t0 is %v", opt.T0)
 	}
@@ -448,10 +489,10 @@ func (p *fitProblem) solve(m int) (*LMResult, error) {
 }
 
 func checkFinite(d *mat.Dense, what string) error {
-	r, c := d.Dims()
+	r, _ := d.Dims()
 	for i := 0; i < r; i++ {
-		for j := 0; j < c; j++ {
-			if v := d.At(i, j); math.IsNaN(v) || math.IsInf(v, 0) {
+		for j, v := range d.RawRowView(i) {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
 				return fmt.Errorf("%s[%d][%d] is %v", what, i, j, v)
 			}
 		}
@@ -769,11 +810,10 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 		if p.opt.RowWeights == nil {
 			p.opt.RowWeights = ones(n)
 		}
-		d = scaleRowsSqrt(d, p.opt.RowWeights)
-		if opt.ColWeights != nil {
-			var dt mat.Dense
-			dt.CloneFrom(scaleRowsSqrt(mat.DenseCopyOf(d.T()), opt.ColWeights).T())
-			d = &dt
+		if r, c := dimsOrZero(opt.Scaled); r == n && c == m {
+			d = opt.Scaled
+		} else {
+			d = weightData(d, p.opt.RowWeights, opt.ColWeights)
 		}
 	}
 	red := opt.Reduced
@@ -808,20 +848,29 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 	if err != nil {
 		return nil, nil, fmt.Errorf("kinetics: fit data: spectra: %w", err)
 	}
-	var fitted, resid mat.Dense
+	var fitted mat.Dense
 	fitted.Mul(model, spectra.T())
-	resid.Sub(d, &fitted)
 	// The residual sum of squares of the whole data at the fitted rate
 	// constants, not of its reduction: σ̂ and every figure built on it
-	// count the noise the reduction left out.
-	lm.SSR = sumSquares(&resid)
+	// count the noise the reduction left out. One pass forms the residual
+	// and sums its squares in the order sumSquares would.
+	resid := mat.NewDense(n, m, nil)
+	lm.SSR = 0
+	for i := 0; i < n; i++ {
+		dr, fr, rr := d.RawRowView(i), fitted.RawRowView(i), resid.RawRowView(i)
+		for j, v := range dr {
+			e := v - fr[j]
+			rr[j] = e
+			lm.SSR += e * e
+		}
+	}
 	res := p.result(lm, sim, model, nObs, rank*m)
 	res.Reduced = red
 	res.RMS = math.Sqrt(lm.SSR / float64(nObs))
 	if rank < q {
 		res.Warnings = append(res.Warnings, fmt.Sprintf("the model columns have rank %d < %d: the spectra are a minimum-norm solution and not unique", rank, q))
 	}
-	res.Fitted, res.Residual = &fitted, &resid
+	res.Fitted, res.Residual = &fitted, resid
 	if opt.RowWeights != nil || opt.ColWeights != nil {
 		// Back to the data's units: the spectra lose √B, the model √A;
 		// Fitted and Residual stay weighted (units of the noise), which is
@@ -837,7 +886,7 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 			}
 			spectra = scaleRowsSqrt(spectra, inv)
 		}
-		res.Weighted = true
+		res.Weighted, res.Scaled = true, d
 	}
 	honestErrors(res)
 	return res, spectra, nil
@@ -967,13 +1016,18 @@ func Lag1(res *mat.Dense) (float64, bool) {
 	if n < 10 {
 		return 0, false
 	}
+	// Row by row (the storage order: a data fit's residual is n × m, and
+	// down the columns every access would miss the cache).
 	var num, den float64
-	for j := 0; j < q; j++ {
-		for i := 0; i < n; i++ {
-			v := res.At(i, j)
+	for i := 0; i < n; i++ {
+		row := res.RawRowView(i)
+		for _, v := range row[:q] {
 			den += v * v
-			if i+1 < n {
-				num += v * res.At(i+1, j)
+		}
+		if i+1 < n {
+			next := res.RawRowView(i + 1)
+			for j, v := range row[:q] {
+				num += v * next[j]
 			}
 		}
 	}

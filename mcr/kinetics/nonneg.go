@@ -58,25 +58,21 @@ func NonNegativeCost(s *Scheme, times []float64, d *mat.Dense, k []float64, opt 
 	basis := mat.DenseCopyOf(c)
 	orthonormalize(basis)
 	var r, qd mat.Dense
-	r.Mul(basis.T(), c)  // q × q
-	qd.Mul(basis.T(), d) // q × m
-	rowScale := make([]float64, n)
-	for i := range rowScale {
-		rowScale[i] = 1
-		if opt.RowWeights != nil {
-			rowScale[i] = math.Sqrt(opt.RowWeights[i])
-		}
-	}
+	r.Mul(basis.T(), c) // q × q
 	if opt.RowWeights != nil {
-		// Qᵀ √A D, the data weighted as the model is.
-		wd := mat.DenseCopyOf(d)
+		// Qᵀ √A D, the data weighted as the model is: (√A Q)ᵀ D, which
+		// scales n × q numbers instead of copying the n × m data.
+		wq := mat.DenseCopyOf(basis)
 		for i := 0; i < n; i++ {
-			row := wd.RawRowView(i)
-			for j := range row {
-				row[j] *= rowScale[i]
+			f := math.Sqrt(opt.RowWeights[i])
+			row := wq.RawRowView(i)
+			for a := range row {
+				row[a] *= f
 			}
 		}
-		qd.Mul(basis.T(), wd)
+		qd.Mul(wq.T(), d)
+	} else {
+		qd.Mul(basis.T(), d) // q × m
 	}
 	var cost float64
 	b := make([]float64, q)

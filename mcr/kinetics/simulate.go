@@ -42,6 +42,11 @@ type SimSettings struct {
 	Method string
 	// MaxSteps bounds the number of integrator steps (default 500000).
 	MaxSteps int
+	// concentrationsOnly: the caller uses Simulation.C alone (a fit of
+	// concentrations), so the exact first-order solutions skip the extents,
+	// which cost as much again as the concentrations; Extents is left zero.
+	// The concentrations are the same numbers either way.
+	concentrationsOnly bool
 }
 
 // Simulate computes concentrations at the given times for rate constants k (one per step, ≥ 0)
@@ -140,15 +145,23 @@ func (s *Scheme) SimulateWith(k, c0, times []float64, t0 float64, set SimSetting
 
 	store := func(i int, y []float64) {
 		sim.C.SetRow(i, y[:ns])
-		sim.Extents.SetRow(i, y[ns:])
+		if len(y) > ns {
+			sim.Extents.SetRow(i, y[ns:])
+		}
 	}
 	switch method {
 	case "expm":
 		m := sys.linearMatrix()
 		// The eigendecomposition when its vectors are well conditioned
 		// (cheapest per time), else the path sums for acyclic networks.
-		if ex := newEigenExp(m, ns, y0); ex != nil {
-			buf := make([]float64, ns+nr)
+		// Both solve the species block on its own, so without the extents'
+		// rows the concentrations come out bit for bit the same.
+		exact, nx := m, ns+nr
+		if set.concentrationsOnly {
+			exact, nx = mat.DenseCopyOf(m.Slice(0, ns, 0, ns)), ns
+		}
+		if ex := newEigenExp(exact, ns, y0); ex != nil {
+			buf := make([]float64, nx)
 			for _, i := range order {
 				ex.at(times[i]-t0, buf)
 				store(i, buf)
@@ -156,8 +169,8 @@ func (s *Scheme) SimulateWith(k, c0, times []float64, t0 float64, set SimSetting
 			sim.Stiff = sim.StiffnessRatio >= 1e3 && lmax*span >= 1e3
 			break
 		}
-		if pe := newPathExp(m, ns, y0); pe != nil {
-			buf := make([]float64, ns+nr)
+		if pe := newPathExp(exact, ns, y0); pe != nil {
+			buf := make([]float64, nx)
 			for _, i := range order {
 				pe.at(times[i]-t0, buf)
 				store(i, buf)
