@@ -69,6 +69,8 @@ type Kinetics struct {
 	// batch, while set, keeps the data the fits of one batch (dataStart,
 	// fitKinetics: a fit and its other orders) share, see dataBatch.
 	batch *dataBatch
+	// refits are swapCheck's refits from exchanged starts (refitMemo).
+	refits []*refitMemo
 }
 
 // dataBatch is what the data fits of one batch share: the rows fitData
@@ -1164,7 +1166,7 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 	for _, start := range alts {
 		o := opt
 		o.InitialK = start
-		alt, altSpectra, err := kn.fitData(r, o)
+		alt, altSpectra, err := kn.refit(r, best, o)
 		if err != nil || !(best.Sigma > 0) {
 			continue
 		}
@@ -1178,6 +1180,7 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 		if free < -4 {
 			old, oldSSR := kn.kList(best.K), best.SSR
 			*best, *spectra = *alt, *altSpectra
+			best.Warnings = append([]string(nil), alt.Warnings...) // alt may be kept for the next check
 			worseFree, worseNN = nil, nil // their figures were against the old values
 			best.Warnings = append(best.Warnings, fmt.Sprintf("the data fit better with k = %s than with %s, the order the resolved profiles pointed to (free spectra: residual sum of squares %.4g times lower, %.3g noise variances); the better values are reported", ks, old, oldSSR/best.SSR, -free))
 			bestNNdone = false
@@ -1192,7 +1195,7 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 			bestNN, bestNNok = nnCost(best.K)
 			bestNNdone = true
 		}
-		altNN, ok := nnCost(alt.K)
+		altNN, ok := kn.recallCost(alt, func() (float64, bool) { return nnCost(alt.K) })
 		if !ok || !bestNNok {
 			best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell the order of the rate constants: %s fits as well with free spectra (%.2g noise variances); the reported values are the ones the resolved profiles point to", what, free))
 			continue
@@ -1203,6 +1206,7 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 			old := kn.kList(best.K)
 			oldNN := best.SSR + bestNN
 			*best, *spectra = *alt, *altSpectra
+			best.Warnings = append([]string(nil), alt.Warnings...)
 			bestNN = altNN
 			worseFree, worseNN = nil, nil
 			best.Warnings = append(best.Warnings, fmt.Sprintf("with free spectra k = %s and %s fit the data as well (%.2g noise variances), but with non-negative spectra k = %s fits better (residual sum of squares %.4g times lower, %.3g noise variances): it is reported; the resolved profiles pointed the other way", ks, old, free, ks, oldNN/(best.SSR+altNN), -nn))
@@ -1212,6 +1216,94 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 			best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell the order of the rate constants: %s fits as well, with free spectra (%.2g noise variances) and with non-negative ones (%.2g noise variances; slow–fast ambiguity); the reported values are the ones the resolved profiles point to", what, free, nn))
 		}
 	}
+}
+
+// refitTol is how close, in standard errors of the fit being checked, an
+// exchanged start must be to one refitted before for swapCheck to take that
+// refit again: Levenberg–Marquardt from starts a hundredth of a standard
+// error apart ends at the same minimum within its own tolerance (10⁻¹⁰
+// relative), and the cost moves by about 10⁻⁴ noise variances, against a
+// threshold of 4.
+const refitTol = 1e-2
+
+// refitMemo is one refit of the data from an exchanged start (swapCheck),
+// kept for the next check: the fit before hard–soft (dataStart) and the one
+// reported after it (fitKinetics) end at the same rate constants, so their
+// checks refit from the same starts. Only on the same data matrix (r.D, not
+// replaced in between) and with the same options.
+type refitMemo struct {
+	d          *mat.Dense
+	nAside     int
+	start, c0  []float64
+	fit        *kinetics.FitResult
+	spectra    *mat.Dense
+	nn         float64
+	nnOK, done bool
+}
+
+// refit is fitData from the exchanged start o.InitialK, or the refit made
+// before from a start within refitTol standard errors of best's.
+func (kn *Kinetics) refit(r *Result, best *kinetics.FitResult, o kinetics.FitOptions) (*kinetics.FitResult, *mat.Dense, error) {
+	if kn.FitC0 {
+		// The non-negative cost takes the reported fit's initial
+		// concentrations, which move with it: refit every time.
+		return kn.fitData(r, o)
+	}
+	for _, m := range kn.refits {
+		if m.d == r.D && m.nAside == len(r.SetAside) && sameC0(m.c0, o.C0) && closeStart(m.start, o.InitialK, best.KStdErr) {
+			return m.fit, m.spectra, nil
+		}
+	}
+	fit, spectra, err := kn.fitData(r, o)
+	if err != nil {
+		return nil, nil, err
+	}
+	// Kept without its n × m fitted values and residuals (two data-sized
+	// matrices per refit; nothing reads them of a data fit once FitData
+	// has taken the residuals' autocorrelation).
+	kept := *fit
+	kept.Fitted, kept.Residual = nil, nil
+	kn.refits = append(kn.refits, &refitMemo{d: r.D, nAside: len(r.SetAside), start: o.InitialK, c0: o.C0, fit: &kept, spectra: spectra})
+	return &kept, spectra, nil
+}
+
+// recallCost returns the non-negative cost of a refit's rate constants,
+// computed once per refit kept by refit.
+func (kn *Kinetics) recallCost(fit *kinetics.FitResult, cost func() (float64, bool)) (float64, bool) {
+	for _, m := range kn.refits {
+		if m.fit == fit {
+			if !m.done {
+				m.nn, m.nnOK = cost()
+				m.done = true
+			}
+			return m.nn, m.nnOK
+		}
+	}
+	return cost()
+}
+
+func closeStart(a, b, se []float64) bool {
+	if len(a) != len(b) || len(se) != len(a) {
+		return false
+	}
+	for j := range a {
+		if !(math.Abs(a[j]-b[j]) <= refitTol*se[j]) && a[j] != b[j] {
+			return false
+		}
+	}
+	return true
+}
+
+func sameC0(a, b []float64) bool {
+	if len(a) != len(b) {
+		return false
+	}
+	for i := range a {
+		if a[i] != b[i] {
+			return false
+		}
+	}
+	return true
 }
 
 // exchanges lists the other orders of the free rate constants among steps
