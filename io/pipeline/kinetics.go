@@ -1180,7 +1180,8 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 		if free < -4 {
 			old, oldSSR := kn.kList(best.K), best.SSR
 			*best, *spectra = *alt, *altSpectra
-			best.Warnings = append([]string(nil), alt.Warnings...) // alt may be kept for the next check
+			// alt may be kept for the next check: best's warnings are its own.
+			best.Warnings = append([]string(nil), alt.Warnings...)
 			worseFree, worseNN = nil, nil // their figures were against the old values
 			best.Warnings = append(best.Warnings, fmt.Sprintf("the data fit better with k = %s than with %s, the order the resolved profiles pointed to (free spectra: residual sum of squares %.4g times lower, %.3g noise variances); the better values are reported", ks, old, oldSSR/best.SSR, -free))
 			bestNNdone = false
