@@ -99,12 +99,18 @@ func TestMinorBandShiftIsNotASpecies(t *testing.T) {
 	for _, shift := range []float64{1, 2} {
 		d, col, _ := minorCase(3, shift, 0)
 		mt := minorRefit(t, d, col)
-		t.Logf("shift %g: F %.3g p %.2g shift share %.3f in band %.3f novel %.3g fit share %.3g: %s", shift, mt.F, mt.Significance, mt.ShiftShare, mt.InBandShare, mt.Novel, mt.FitShare, mt.Verdict)
+		t.Logf("shift %g: F %.3g p %.2g shift share %.3f in band %.3f out drop %.3g (%.2f) peak %.2f edge %.3g p %.2g q %d novel %.3g fit share %.3g: %s", shift, mt.F, mt.Significance, mt.ShiftShare, mt.InBandShare, mt.OutBandDrop, mt.OutBandShare(), mt.OutBandPeak, mt.OutBandEdge, mt.OutBandSignificance, mt.OutBandChannels, mt.Novel, mt.FitShare, mt.Verdict)
 		if mt.Species {
 			t.Errorf("shift of %g points: counted as a species: %s", shift, mt.Verdict)
 		}
 		if mt.Significant && mt.ShiftShare < minorShiftShare {
 			t.Errorf("shift of %g points: significant but its spectrum's news is only %.2f derivative", shift, mt.ShiftShare)
+		}
+		// The own-band rule holds it too, by itself: a shift changes the bands that are
+		// there, and only the wings of s′ lie beyond the tenth-height points (2.7 % of a
+		// Gaussian's s′² energy: ∫ x² e^{−x²} over |x| > 2.146 over the whole, analytic).
+		if mt.ownBand(0.05) {
+			t.Errorf("shift of %g points: %s", shift, mt.ownBandWords())
 		}
 	}
 }
@@ -118,9 +124,14 @@ func TestMinorSpeciesIsKept(t *testing.T) {
 		t.Fatalf("test data: minor species is %.3g of the signal, want about 0.01", share)
 	}
 	mt := minorRefit(t, d, col)
-	t.Logf("share %.3g: F %.3g p %.2g shift share %.3f in band %.3f novel %.3g fit share %.3g: %s", share, mt.F, mt.Significance, mt.ShiftShare, mt.InBandShare, mt.Novel, mt.FitShare, mt.Verdict)
+	t.Logf("share %.3g: F %.3g p %.2g shift share %.3f in band %.3f out drop %.3g (%.2f) peak %.2f edge %.3g p %.2g q %d novel %.3g fit share %.3g: %s", share, mt.F, mt.Significance, mt.ShiftShare, mt.InBandShare, mt.OutBandDrop, mt.OutBandShare(), mt.OutBandPeak, mt.OutBandEdge, mt.OutBandSignificance, mt.OutBandChannels, mt.Novel, mt.FitShare, mt.Verdict)
 	if !mt.Species {
 		t.Errorf("minor species (%.2g %% of the signal) not kept: %s", 100*share, mt.Verdict)
+	}
+	// Its band at 175 lies where B's (130, width 12) is below a tenth of its height (from
+	// 155.8 on: 130 + 12·√(2 ln 10)), so the drop there is its own (analytic).
+	if !mt.ownBand(0.05) || mt.OutBandPeak < 0.99 {
+		t.Errorf("minor species: no band of its own found: %s", mt.ownBandWords())
 	}
 }
 
@@ -177,5 +188,59 @@ func TestEdgeSignificanceCalibrated(t *testing.T) {
 	}
 	if math.Abs(mean/want-1) > 0.02 {
 		t.Errorf("mean largest eigenvalue %.2f, Tracy–Widom mean %.2f", mean, want)
+	}
+}
+
+// fitTerms: the difference of two fits' terms at a channel is the difference of their
+// weighted residual sums there, Σ_i a_i b_j [(d_ij − (C₁S₁ᵀ)_ij)² − (d_ij − (C₂S₂ᵀ)_ij)²],
+// computed directly (the definition), for full, weighted and compressed data.
+func TestFitTermsAreChannelResiduals(t *testing.T) {
+	d, col, _ := minorCase(4, 0, 0.04)
+	n, m := d.Dims()
+	rng := rand.New(rand.NewPCG(2, 3))
+	rnd := func(r, c int) *mat.Dense {
+		x := mat.NewDense(r, c, nil)
+		for i := 0; i < r; i++ {
+			for j := 0; j < c; j++ {
+				x.Set(i, j, rng.Float64())
+			}
+		}
+		return x
+	}
+	c1, s1, c2, s2 := rnd(n, 2), rnd(m, 2), rnd(n, 3), rnd(m, 3)
+	row := make([]float64, n)
+	for i := range row {
+		row[i] = 0.5 + rng.Float64()
+	}
+	var sv mat.SVD
+	sv.Factorize(d, mat.SVDThin)
+	var u, v mat.Dense
+	sv.UTo(&u)
+	sv.VTo(&v)
+	for _, c := range []struct {
+		name     string
+		data     Data
+		row, col []float64
+	}{
+		{"dense", Dense{D: d}, nil, nil},
+		{"weighted", WeightedDense{D: d, Row: row, Col: col}, row, col},
+		{"compressed (all factors)", Compressed{U: &u, Sigma: sv.Values(nil), V: &v, FrobSq: frobSq(d)}, nil, nil},
+	} {
+		f1, f2 := fitTerms(c.data, c1, s1), fitTerms(c.data, c2, s2)
+		e1, _ := Residuals(d, c1, s1)
+		e2, _ := Residuals(d, c2, s2)
+		for j := 0; j < m; j += 17 {
+			want := 0.0
+			for i := 0; i < n; i++ {
+				w := 1.0
+				if c.row != nil {
+					w = c.row[i] * c.col[j]
+				}
+				want += w * (e1.At(i, j)*e1.At(i, j) - e2.At(i, j)*e2.At(i, j))
+			}
+			if got := f1[j] - f2[j]; math.Abs(got-want) > 1e-8*math.Max(1, math.Abs(want)) {
+				t.Errorf("%s, channel %d: %g, direct %g", c.name, j, got, want)
+			}
+		}
 	}
 }

@@ -235,9 +235,19 @@ type MinorRefitJSON struct {
 	// InBandPercent: how much of what its spectrum adds lies under the other spectra's
 	// bands (a change of band shape when large).
 	InBandPercent float64 `json:"in_band_percent"`
-	PeakTimeS     float64 `json:"profile_peak_time_s"`
-	Looks         string  `json:"looks_like"`
-	Verdict       string  `json:"verdict"`
-	// Held says why a factor the refit called a species was not counted (species false).
-	Held string `json:"held,omitempty"`
+	// The part of the drop at channels outside the other spectra's bands (a band of its
+	// own lowers the fit there; a change of band shape hardly does), in units of the
+	// noise variance, its share of the whole drop, what noise alone gives on those
+	// channels, the probability of the drop there under noise alone, and their number.
+	OutBandDrop         float64 `json:"out_of_band_drop_noise_variances"`
+	OutBandDropPercent  float64 `json:"out_of_band_drop_percent"`
+	OutBandEdge         float64 `json:"out_of_band_noise_edge_noise_variances"`
+	OutBandSignificance float64 `json:"out_of_band_p_value"`
+	OutBandChannels     int     `json:"out_of_band_channels"`
+	// OutBandPeakPercent: the largest drop per channel outside the bands in % of the
+	// largest anywhere (a band of its own peaks there).
+	OutBandPeakPercent float64 `json:"out_of_band_peak_percent"`
+	PeakTimeS          float64 `json:"profile_peak_time_s"`
+	Looks              string  `json:"looks_like"`
+	Verdict            string  `json:"verdict"`
 }

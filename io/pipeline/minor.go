@@ -29,8 +29,6 @@ type MinorVerdict struct {
 	Factor int // 1-based factor of the decomposition
 	Test   *mcr.MinorTest
 	Err    error // the refit failed (no verdict)
-	// Held says why a factor the refit called a species was not counted all the same.
-	Held string
 }
 
 // minorState carries what a second resolution with one more component needs: the data
@@ -79,7 +77,7 @@ func testMinor(r *Result, data mcr.Data, res *mcr.Result, opt mcr.Options, log i
 	}
 }
 
-// promoteMinor counts the first minor factor the refit called a species: the rank and
+// promoteMinor counts the first (largest) minor factor the refit called a species: the rank and
 // the count go up by one, the factor leaves the nuisance list, and r is put back as it
 // was before the resolution so that it can run again with one more component. It
 // reports whether it did.
@@ -87,16 +85,8 @@ func promoteMinor(r *Result, st *minorState) bool {
 	if st == nil {
 		return false
 	}
-	for i := range r.MinorTests {
-		v := &r.MinorTests[i]
+	for _, v := range r.MinorTests {
 		if v.Test == nil || !v.Test.Species {
-			continue
-		}
-		// A species whose amount changes adds a factor to the difference spectra too
-		// (unless it keeps a fixed ratio to another, when no resolution can separate
-		// it): absorbance with k species that change shows differences of rank k − 1.
-		if r.Mode == mcr.Species && r.DiffRank != nil && r.Components+1 > r.DiffRank.Estimate+1 {
-			v.Held = fmt.Sprintf("but the difference spectra show %d independent change(s), too few for %d species that change, so it is not counted (--components %d resolves it)", r.DiffRank.Estimate, r.Components+1, r.Components+1)
 			continue
 		}
 		for i, nf := range r.Chemical.Nuisance {
@@ -154,9 +144,12 @@ func minorRefitJSON(r *Result, factor int) *output.MinorRefitJSON {
 		return &output.MinorRefitJSON{Verdict: "not tested: " + v.Err.Error()}
 	}
 	mt := v.Test
-	j := &output.MinorRefitJSON{Species: mt.Species && v.Held == "", Held: v.Held, DropNoiseVariances: round(mt.Drop()), NoiseEdge: round(mt.NoiseEdge),
+	j := &output.MinorRefitJSON{Species: mt.Species, DropNoiseVariances: round(mt.Drop()), NoiseEdge: round(mt.NoiseEdge),
 		Significance: round(mt.Significance), F: round(mt.F), BandShiftPercent: round(100 * mt.ShiftShare),
 		EarlyPercent: round(100 * mt.EarlyShare), InBandPercent: round(100 * mt.InBandShare), Looks: minorLooks(r, mt), Verdict: mt.Verdict}
+	j.OutBandDrop, j.OutBandEdge, j.OutBandSignificance = round(mt.OutBandDrop), round(mt.OutBandEdge), round(mt.OutBandSignificance)
+	j.OutBandDropPercent, j.OutBandChannels = round(100*mt.OutBandShare()), mt.OutBandChannels
+	j.OutBandPeakPercent = round(100 * mt.OutBandPeak)
 	if mt.PeakRow < len(r.Times) {
 		j.PeakTimeS = round(r.Times[mt.PeakRow])
 	}
@@ -172,11 +165,7 @@ func minorAdvice(r *Result, factor int) string {
 	case v.Err != nil || v.Test == nil:
 		return fmt.Sprintf("; the refit with it as one more component failed (%v)", v.Err)
 	}
-	held := ""
-	if v.Held != "" {
-		held = "; " + v.Held
-	}
-	return fmt.Sprintf("; refitted as one more component under the same constraints and baseline, %s; %s%s", minorLooks(r, v.Test), v.Test.Verdict, held)
+	return fmt.Sprintf("; refitted as one more component under the same constraints and baseline, %s; %s", minorLooks(r, v.Test), v.Test.Verdict)
 }
 
 // minorSpeciesSummary lists the minor factors counted as species for summary.json.

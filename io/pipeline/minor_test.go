@@ -1,0 +1,195 @@
+package pipeline
+
+import (
+	"math"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// shiftedAbsorbance returns, for spectrum i and point j, what a band shift of δ_i axis
+// points adds to the absorbance of s: Σ_k c_k(t_i) [s_k(x_j − δ_i) − s_k(x_j)], with s_k
+// between axis points by linear interpolation.
+func shiftedAbsorbance(s *synth, delta func(i int) float64) func(i, j int) float64 {
+	m := len(s.axis)
+	at := func(k int, pos float64) float64 {
+		pos = math.Min(math.Max(pos, 0), float64(m-1))
+		lo := int(math.Floor(pos))
+		hi := min(lo+1, m-1)
+		f := pos - float64(lo)
+		return (1-f)*s.spectra.At(lo, k) + f*s.spectra.At(hi, k)
+	}
+	_, ns := s.spectra.Dims()
+	return func(i, j int) float64 {
+		v := 0.0
+		for k := 0; k < ns; k++ {
+			v += s.profiles.At(i, k) * (at(k, float64(j)-delta(i)) - s.spectra.At(j, k))
+		}
+		return v
+	}
+}
+
+// broadenedAbsorbance returns what widening every band of s by the factor 1 + g_i (the
+// same area: height over 1 + g_i) adds to the absorbance of spectrum i, for s built from
+// Gaussians of the given centres and widths (heights read from s at the centres).
+func broadenedAbsorbance(s *synth, bands [][2]float64, g func(i int) float64) func(i, j int) float64 {
+	_, ns := s.spectra.Dims()
+	return func(i, j int) float64 {
+		f := 1 + g(i)
+		v := 0.0
+		for k := 0; k < ns; k++ {
+			for _, b := range bands {
+				h := peakAt(s, k, b[0])
+				d0, d1 := (s.axis[j]-b[0])/b[1], (s.axis[j]-b[0])/(b[1]*f)
+				v += s.profiles.At(i, k) * h * (math.Exp(-0.5*d1*d1)/f - math.Exp(-0.5*d0*d0))
+			}
+		}
+		return v
+	}
+}
+
+// peakAt is the value of spectrum k of s at the axis point nearest x.
+func peakAt(s *synth, k int, x float64) float64 {
+	best := 0
+	for j, a := range s.axis {
+		if math.Abs(a-x) < math.Abs(s.axis[best]-x) {
+			best = j
+		}
+	}
+	return s.spectra.At(best, k)
+}
+
+// logMinor logs every factor the size test set aside, with what the refit said.
+func logMinor(t *testing.T, r *Result) {
+	t.Helper()
+	for _, nf := range r.Chemical.Nuisance {
+		t.Logf("factor %d %s %.3g %%: %s%s", nf.Factor, nf.Kind, nf.SharePercent, nf.Looks, minorAdvice(r, nf.Factor))
+	}
+	for _, nf := range r.MinorSpecies {
+		t.Logf("factor %d counted %.3g %%:%s", nf.Factor, nf.SharePercent, minorAdvice(r, nf.Factor))
+	}
+}
+
+// stayAtTwo checks the chemical count of A -> B and, when want is set, that the refit
+// test looked at some factor (else the case does not exercise it) and counted none.
+func stayAtTwo(t *testing.T, r *Result, tested bool) {
+	t.Helper()
+	logMinor(t, r)
+	if r.Components != 2 || r.Rank.Estimate != 2 {
+		t.Errorf("rank %d, components %d; want the two species of A -> B", r.Rank.Estimate, r.Components)
+	}
+	if tested && len(r.MinorTests) == 0 {
+		t.Errorf("no factor refitted: the case does not reach the refit test")
+	}
+	for _, v := range r.MinorTests {
+		if v.Test != nil && v.Test.Species {
+			t.Errorf("factor %d: the refit counted it as a species: %s", v.Factor, v.Test.Verdict)
+		}
+	}
+}
+
+// A band shift growing to 1–2 axis points early in the run (a cell settling) on A -> B
+// (first order, Bateman 1910), detector noise constant in counts: a factor above the
+// noise, which the refit must not make a species (a shifted band is s(x − δ) − s(x) ≈
+// −δ s′(x), Taylor's theorem: it changes the bands that are there and adds none).
+func TestBandShiftIsNotASpecies(t *testing.T) {
+	for _, shift := range []float64{1, 2} {
+		s := makeBateman(t, 6e-3, 2e-3, 0, 1, 2)
+		countsNoise(s, 20, 8, shiftedAbsorbance(s, func(i int) float64 {
+			return shift * (1 - math.Exp(-float64(i)/6))
+		}))
+		r, _ := runNuisanceCase(t, s)
+		t.Logf("shift %g points", shift)
+		stayAtTwo(t, r, true)
+	}
+}
+
+// Every band of A -> B widening by up to 6 % at constant area as the run goes on (a
+// temperature rise: common practice, bands broaden as a liquid warms), noise constant in
+// counts: a change of band shape under the bands that are there, not a species.
+func TestBandBroadeningIsNotASpecies(t *testing.T) {
+	s := makeBateman(t, 6e-3, 2e-3, 0, 1, 2)
+	bands := [][2]float64{{1700, 14}, {1450, 20}, {1660, 14}, {1400, 18}}
+	n := len(s.times)
+	countsNoise(s, 20, 10, broadenedAbsorbance(s, bands, func(i int) float64 {
+		return 0.06 * float64(i) / float64(n-1)
+	}))
+	r, _ := runNuisanceCase(t, s)
+	stayAtTwo(t, r, true)
+}
+
+// A -> B with nothing but detector noise constant in counts: two species, and no refit
+// may add a third (the refit's null law: Tracy–Widom, Johnstone 2001).
+func TestNoiseOnlyStaysAtTwo(t *testing.T) {
+	s := makeBateman(t, 6e-3, 2e-3, 0, 1, 2)
+	countsNoise(s, 20, 11, nil)
+	r, _ := runNuisanceCase(t, s)
+	stayAtTwo(t, r, false)
+}
+
+// withMinorSpecies adds to A -> B (s, two species) a species C with a band of its own
+// (1250 cm⁻¹, width 12, where A and B do not absorb) and the amount x_i = amount(a_i, i)
+// taken out of B so that the amounts still add up to one (closure). It returns C's share
+// of the signal, ‖x s_Cᵀ‖_F / ‖C Sᵀ‖_F.
+func withMinorSpecies(s *synth, amount func(a float64, i int) float64) float64 {
+	n, m := len(s.times), len(s.axis)
+	spectra := mat.NewDense(m, 3, nil)
+	profiles := mat.NewDense(n, 3, nil)
+	own := gaussian(s.axis, 1250, 12, 0.5)
+	for j := 0; j < m; j++ {
+		spectra.SetRow(j, []float64{s.spectra.At(j, 0), s.spectra.At(j, 1), own[j]})
+	}
+	for i := 0; i < n; i++ {
+		a := s.profiles.At(i, 0)
+		x := amount(a, i)
+		profiles.SetRow(i, []float64{a, s.profiles.At(i, 1) - x, x})
+	}
+	s.spectra, s.profiles = spectra, profiles
+	var all mat.Dense
+	all.Mul(profiles, spectra.T())
+	c, sp := profiles.ColView(2), spectra.ColView(2)
+	return mat.Norm(c, 2) * mat.Norm(sp, 2) / mat.Norm(&all, 2)
+}
+
+// A genuine minor species, 0.8–1 % of the signal, with a band of its own, beside A -> B
+// (Bateman 1910), noise constant in counts: the default run must count three species, the
+// summary list it under minor_species with the refit's reasons, and C's profile follow the
+// analytic truth (cosine ≥ 0.99) where the data fix it. Transient: formed and used up,
+// x = 4·x₀·a(1 − a); slowly formed: x = x₀ (1 − a)² t/T, a product that lags behind B.
+// Left open (docs/rank.md): C's spectrum. Closure and non-negativity let a component this
+// small carry part of A's and B's bands at the same fit (s_C' = (s_C − α s_A − β s_B)/(1 −
+// α − β) with the profiles shifted to match; rotational ambiguity, Tauler 2001); the runs
+// gave cosines 0.49 and 0.02.
+func TestMinorSpeciesIsCounted(t *testing.T) {
+	n := 121.0
+	for _, c := range []struct {
+		name   string
+		amount func(a float64, i int) float64
+	}{
+		{"transient", func(a float64, _ int) float64 { return 0.04 * 4 * a * (1 - a) }},
+		{"slowly formed", func(a float64, i int) float64 { return 0.02 * (1 - a) * (1 - a) * float64(i) / n }},
+	} {
+		s := makeBateman(t, 6e-3, 2e-3, 0, 1, 2)
+		share := withMinorSpecies(s, c.amount)
+		if share < 0.006 || share > 0.012 {
+			t.Fatalf("%s: test data: the minor species is %.3g of the signal, want 0.8–1 %%", c.name, share)
+		}
+		countsNoise(s, 20, 9, nil)
+		r, _ := runNuisanceCase(t, s)
+		logMinor(t, r)
+		t.Logf("%s: share %.3g; rank %d, components %d, minor species %d", c.name, share, r.Rank.Estimate, r.Components, len(r.MinorSpecies))
+		if r.Components != 3 {
+			t.Errorf("%s: %d components; want 3 (the minor species, %.2g %% of the signal, counted)", c.name, r.Components, 100*share)
+			continue
+		}
+		sum := MakeSummary(r)
+		if len(sum.MinorSpecies) != 1 || sum.MinorSpecies[0].Refit == nil || !sum.MinorSpecies[0].Refit.Species {
+			t.Errorf("%s: summary minor_species %+v; want the counted factor with its refit", c.name, sum.MinorSpecies)
+		}
+		cs, cp := bestCosines(s.spectra, r.ALS.S), bestCosines(s.profiles, r.ALS.C)
+		t.Logf("%s: cosines to the truth: spectra %.4f, profiles %.4f", c.name, cs, cp)
+		if c.name == "transient" && cp[2] < 0.99 {
+			t.Errorf("%s: C's profile at cosine %.4f to the truth, want ≥ 0.99", c.name, cp[2])
+		}
+	}
+}
