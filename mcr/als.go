@@ -163,6 +163,10 @@ type Options struct {
 	// the components (see baseline.go); Result.Baseline holds the
 	// coefficients and C, S only the components.
 	Baseline *mat.Dense
+	// LeastOthers marks spectra held at the lower edge of their feasible range: after
+	// every spectra step they give up as much of the other spectra as non-negativity
+	// allows (see lowest.go; for a minor species beside major ones, species mode).
+	LeastOthers []bool
 	// baselineTerms: the last baselineTerms components are baseline terms
 	// (set by resolveWithBaseline; they may vanish without a warning).
 	baselineTerms int
@@ -565,6 +569,9 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		s = transpose(st)
 		if opt.baselineBasis != nil {
 			lowerSpectra(s, k-opt.baselineTerms, lowerable(nnS, knownMask), opt.baselineBasis)
+		}
+		if opt.LeastOthers != nil {
+			takeOthers(s, opt.LeastOthers, k-opt.baselineTerms)
 		}
 		if !opt.Closure {
 			// On a copy: c may still be cPlain, the profiles that go with

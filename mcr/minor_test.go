@@ -244,3 +244,33 @@ func TestFitTermsAreChannelResiduals(t *testing.T) {
 		}
 	}
 }
+
+// takeOthers on the family a closed resolution cannot tell apart: from s_C' = (s_C +
+// α s_A + β s_B)/(1 + α + β), with s_C zero at A's and B's band cores, it must return s_C
+// (up to scale), and leave s_C itself as it is (the definitions in lowest.go; Gaussian
+// bands, analytic).
+func TestTakeOthersFindsTheLowerEdge(t *testing.T) {
+	const m = 200
+	s := mat.NewDense(m, 3, nil)
+	for j := 0; j < m; j++ {
+		x := float64(j)
+		sc := 0.6 * gauss(x, 175, 6)
+		s.SetRow(j, []float64{0.5 * gauss(x, 60, 12), 0.4 * gauss(x, 130, 12), sc})
+	}
+	truth := mat.Col(nil, 2, s)
+	for _, ab := range [][2]float64{{0, 0}, {0.3, 0.2}, {5, 40}} {
+		mix := mat.DenseCopyOf(s)
+		for j := 0; j < m; j++ {
+			v := (truth[j] + ab[0]*s.At(j, 0) + ab[1]*s.At(j, 1)) / (1 + ab[0] + ab[1])
+			mix.Set(j, 2, v)
+		}
+		takeOthers(mix, []bool{false, false, true}, 3)
+		got := mat.Col(nil, 2, mix)
+		if c := dot(got, truth) / math.Sqrt(dot(got, got)*dot(truth, truth)); c < 1-1e-9 {
+			t.Errorf("α, β = %v: cosine %.12f to s_C", ab, c)
+		}
+		if f := floatsMax(got) / floatsMax(truth); math.Abs(f-1) > 1e-6 {
+			t.Errorf("α, β = %v: scale %g of s_C, want 1 (closure keeps it)", ab, f)
+		}
+	}
+}

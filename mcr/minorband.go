@@ -167,3 +167,20 @@ func (t *MinorTest) ownBandWords() string {
 	return fmt.Sprintf("%.0f %% of the drop lies outside the other spectra's bands (%.3g σ² on %d channels, where noise alone gives about %.3g σ², p = %.2g; a species needs ≥ %.0f %%), and per channel it reaches there %.0f %% of its largest value (needs ≥ %.0f %%)",
 		100*t.OutBandShare(), t.OutBandDrop, t.OutBandChannels, t.OutBandEdge, t.OutBandSignificance, 100*minorOutBand, 100*t.OutBandPeak, 100*minorOutPeak)
 }
+
+// NoiseEdgeSS is what one more component would take from noise alone beside the k of
+// res, in the units of res.ResidualSS: largestNoiseEigen on the rows and channels with
+// weight, times σ̂² = RSS/(N − k(n + m − k)). Two fits closer than that cannot be told
+// apart by the data.
+func NoiseEdgeSS(d Data, res *Result) float64 {
+	n, m := d.Dims()
+	if row, col := weightsOf(d); row != nil {
+		n, m = countPositive(row), countPositive(col)
+	}
+	_, k := res.C.Dims()
+	df := float64(n*m - k*(n+m-k))
+	if df < 1 {
+		return 0
+	}
+	return largestNoiseEigen(n-k, m-k) * res.ResidualSS / df
+}

@@ -635,6 +635,7 @@ func resolve(r *Result, log io.Writer) error {
 	if res, err = refineBlind(r, data, res, opt, log); err != nil {
 		return explainResolveError(r, err)
 	}
+	res = lowerMinor(r, data, res, opt)
 	if err := checkFinite(res); err != nil {
 		return err
 	}
