@@ -972,6 +972,10 @@ func keptValues(r *Result, v []float64) []float64 {
 // one row per spectrum as everywhere else.
 func (kn *Kinetics) fitData(r *Result, opt kinetics.FitOptions) (*kinetics.FitResult, *mat.Dense, error) {
 	times, d := kn.fitRows(r)
+	// Nothing reads a data fit's n × m fitted values and residuals once
+	// FitData has taken their figures (the residual sum of squares, the
+	// lag-1 autocorrelation): two data-sized matrices per fit saved.
+	opt.NoResidual = true
 	if opt.Reduced == nil {
 		opt.Reduced = kn.reduced
 	}
@@ -1259,13 +1263,8 @@ func (kn *Kinetics) refit(r *Result, best *kinetics.FitResult, o kinetics.FitOpt
 	if err != nil {
 		return nil, nil, err
 	}
-	// Kept without its n × m fitted values and residuals (two data-sized
-	// matrices per refit; nothing reads them of a data fit once FitData
-	// has taken the residuals' autocorrelation).
-	kept := *fit
-	kept.Fitted, kept.Residual = nil, nil
-	kn.refits = append(kn.refits, &refitMemo{d: r.D, nAside: len(r.SetAside), start: o.InitialK, c0: o.C0, fit: &kept, spectra: spectra})
-	return &kept, spectra, nil
+	kn.refits = append(kn.refits, &refitMemo{d: r.D, nAside: len(r.SetAside), start: o.InitialK, c0: o.C0, fit: fit, spectra: spectra})
+	return fit, spectra, nil
 }
 
 // recallCost returns the non-negative cost of a refit's rate constants,

@@ -49,6 +49,13 @@ type FitOptions struct {
 	// it in FitResult.Scaled: refits skip the pass that forms it. Ignored
 	// unless it has the data's dimensions.
 	Scaled *mat.Dense
+	// NoResidual, for FitData, leaves FitResult.Fitted and Residual nil:
+	// two data-sized matrices a caller that reads neither (a refit from
+	// another start, compared by its residual sum of squares) need not
+	// pay for. The residual sum of squares, σ̂, the standard errors and
+	// the residuals' lag-1 autocorrelation are computed all the same, from
+	// the same residuals, a block of rows at a time.
+	NoResidual bool
 	// Sim tunes the simulation used inside the fit.
 	Sim SimSettings
 	// LM tunes the Levenberg–Marquardt iteration.
@@ -792,8 +799,11 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 	if err != nil {
 		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
 	}
-	if err := checkFinite(d, "data"); err != nil {
-		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+	if r, c := dimsOrZero(opt.Scaled); r != n || c != m {
+		// (Scaled was formed from the same data, checked then.)
+		if err := checkFinite(d, "data"); err != nil {
+			return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+		}
 	}
 	if opt.Amplitudes {
 		return nil, nil, errors.New("kinetics: fit data: Amplitudes does not apply (the spectra carry the scale)")
@@ -848,29 +858,24 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 	if err != nil {
 		return nil, nil, fmt.Errorf("kinetics: fit data: spectra: %w", err)
 	}
-	var fitted mat.Dense
-	fitted.Mul(model, spectra.T())
 	// The residual sum of squares of the whole data at the fitted rate
 	// constants, not of its reduction: σ̂ and every figure built on it
-	// count the noise the reduction left out. One pass forms the residual
-	// and sums its squares in the order sumSquares would.
-	resid := mat.NewDense(n, m, nil)
-	lm.SSR = 0
-	for i := 0; i < n; i++ {
-		dr, fr, rr := d.RawRowView(i), fitted.RawRowView(i), resid.RawRowView(i)
-		for j, v := range dr {
-			e := v - fr[j]
-			rr[j] = e
-			lm.SSR += e * e
-		}
+	// count the noise the reduction left out.
+	var fitted, resid *mat.Dense
+	if !opt.NoResidual {
+		fitted, resid = mat.NewDense(n, m, nil), mat.NewDense(n, m, nil)
 	}
+	var lag lagSums
+	lm.SSR, lag = residualSums(d, model, spectra, fitted, resid)
 	res := p.result(lm, sim, model, nObs, rank*m)
 	res.Reduced = red
 	res.RMS = math.Sqrt(lm.SSR / float64(nObs))
 	if rank < q {
 		res.Warnings = append(res.Warnings, fmt.Sprintf("the model columns have rank %d < %d: the spectra are a minimum-norm solution and not unique", rank, q))
 	}
-	res.Fitted, res.Residual = &fitted, resid
+	if fitted != nil {
+		res.Fitted, res.Residual = fitted, resid
+	}
 	if opt.RowWeights != nil || opt.ColWeights != nil {
 		// Back to the data's units: the spectra lose √B, the model √A;
 		// Fitted and Residual stay weighted (units of the noise), which is
@@ -888,7 +893,7 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 		}
 		res.Weighted, res.Scaled = true, d
 	}
-	honestErrors(res)
+	honestErrors(res, lag, n)
 	return res, spectra, nil
 }
 
@@ -979,17 +984,13 @@ func pseudoSolve(c, d *mat.Dense) (*mat.Dense, error) {
 // common practice, from memory), ρ ≈ 1 − d/2 with d the Durbin–Watson
 // statistic (Durbin & Watson, Biometrika 1950). Only ρ above 2/√n, twice
 // its standard deviation for white noise, counts.
-func honestErrors(res *FitResult) {
+func honestErrors(res *FitResult, lag lagSums, n int) {
 	res.Inflation = 1
-	if res.Residual == nil {
-		return
-	}
-	rho, ok := Lag1(res.Residual)
+	rho, ok := lag.rho(n)
 	if !ok {
 		return
 	}
 	res.Lag1 = rho
-	n, _ := res.Residual.Dims()
 	if rho <= 2/math.Sqrt(float64(n)) {
 		return
 	}
@@ -1002,6 +1003,65 @@ func honestErrors(res *FitResult) {
 		res.C0StdErr[i] *= f
 	}
 	res.Warnings = append(res.Warnings, fmt.Sprintf("the residuals are correlated in time (lag-1 autocorrelation %.2f, Durbin–Watson d = %.2f; independent noise gives 0 and 2): the model does not describe the data fully, so the standard errors were multiplied by %.2f", rho, 2*(1-rho), f))
+}
+
+// lagSums are the sums behind Lag1: Σ r_ij r_(i+1)j and Σ r_ij².
+type lagSums struct{ num, den float64 }
+
+// rho is Lag1 from the sums of n rows.
+func (l lagSums) rho(n int) (float64, bool) {
+	if n < 10 || !(l.den > 0) {
+		return 0, false
+	}
+	return l.num / l.den, true
+}
+
+// residualSums returns the sum of squares of E = D − C Sᵀ and its lag-1
+// sums, in the order Lag1 and a row-by-row sum of squares take them,
+// forming E a block of rows at a time (C Sᵀ by the matrix product, as a
+// whole-matrix product would). When fitted and resid are non-nil (n × m)
+// they receive C Sᵀ and E.
+func residualSums(d, c, s, fitted, resid *mat.Dense) (float64, lagSums) {
+	n, m := d.Dims()
+	_, q := c.Dims()
+	const block = 64
+	var fb, eb *mat.Dense
+	if fitted == nil {
+		fb, eb = mat.NewDense(min(block, n), m, nil), mat.NewDense(min(block, n), m, nil)
+	}
+	var ssr float64
+	var lag lagSums
+	var prev []float64
+	for lo := 0; lo < n; lo += block {
+		hi := min(lo+block, n)
+		var f, e *mat.Dense
+		if fitted != nil {
+			f, e = fitted.Slice(lo, hi, 0, m).(*mat.Dense), resid.Slice(lo, hi, 0, m).(*mat.Dense)
+		} else {
+			f, e = fb.Slice(0, hi-lo, 0, m).(*mat.Dense), eb.Slice(0, hi-lo, 0, m).(*mat.Dense)
+		}
+		f.Mul(c.Slice(lo, hi, 0, q), s.T())
+		for i := lo; i < hi; i++ {
+			dr, fr, er := d.RawRowView(i), f.RawRowView(i-lo), e.RawRowView(i-lo)
+			for j, v := range dr {
+				x := v - fr[j]
+				er[j] = x
+				ssr += x * x
+			}
+			if prev != nil {
+				for j, x := range er {
+					lag.num += prev[j] * x
+				}
+			}
+			prev = er
+		}
+		if fitted == nil && hi < n {
+			// The next block overwrites eb: keep this block's last row.
+			prev = append([]float64(nil), prev...)
+		}
+	}
+	lag.den = ssr // Lag1's denominator: the same squares in the same order
+	return ssr, lag
 }
 
 // Lag1 is the lag-1 autocorrelation of the residuals down each column,

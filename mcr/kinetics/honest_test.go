@@ -85,3 +85,49 @@ func TestDataFitStandardErrorsMatchSpread(t *testing.T) {
 		t.Errorf("mean k %.5g, truth 0.05 (3 standard errors of the mean: %.2g)", meanK, 3*math.Sqrt(v/draws))
 	}
 }
+
+// TestDataFitWithoutResidualSameFigures: FitData with NoResidual forms the
+// residuals a block of rows at a time instead of keeping them, and must
+// report the same figures: the residual sum of squares summed directly
+// from the residuals FitData keeps otherwise, and the lag-1 autocorrelation
+// of those residuals (Lag1, the definition of Durbin & Watson 1950) behind
+// the widened standard errors. The series is countsSeries (noise constant
+// in counts) with a slow drift the model lacks added, so that the
+// residuals are correlated and the standard errors are widened; 150 rows
+// are not a whole number of blocks.
+func TestDataFitWithoutResidualSameFigures(t *testing.T) {
+	s := mustParse(t, "A -> B")
+	d, w, times := countsSeries(rand.New(rand.NewPCG(3, 9)), 150, 120)
+	n, m := d.Dims()
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			d.Set(i, j, d.At(i, j)+2e-4*math.Sin(float64(i)/20)*float64(j%7))
+		}
+	}
+	opt := FitOptions{InitialK: []float64{0.04}, ColWeights: w}
+	full, _, err := FitData(s, times, d, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	opt.NoResidual = true
+	lite, _, err := FitData(s, times, d, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if lite.Fitted != nil || lite.Residual != nil {
+		t.Fatal("NoResidual kept the data-sized matrices")
+	}
+	direct := sumSquares(full.Residual)
+	rho, ok := Lag1(full.Residual)
+	if !ok || !(full.Inflation > 1) {
+		t.Fatalf("the residuals should be correlated (lag-1 %v, inflation %v)", rho, full.Inflation)
+	}
+	t.Logf("SSR %.10g (direct %.10g), lag-1 %.6f, inflation %.4f", lite.SSR, direct, lite.Lag1, lite.Inflation)
+	if math.Abs(full.SSR-direct) > 1e-12*direct || math.Abs(full.Lag1-rho) > 1e-12 {
+		t.Errorf("kept residuals: SSR %v, lag-1 %v; from the residual matrix %v, %v", full.SSR, full.Lag1, direct, rho)
+	}
+	if lite.SSR != full.SSR || lite.Lag1 != full.Lag1 || lite.Inflation != full.Inflation || lite.KStdErr[0] != full.KStdErr[0] || lite.K[0] != full.K[0] {
+		t.Errorf("NoResidual: SSR %v, lag-1 %v, inflation %v, k %v ± %v; with the residuals kept %v, %v, %v, %v ± %v",
+			lite.SSR, lite.Lag1, lite.Inflation, lite.K[0], lite.KStdErr[0], full.SSR, full.Lag1, full.Inflation, full.K[0], full.KStdErr[0])
+	}
+}
