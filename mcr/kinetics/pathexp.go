@@ -153,6 +153,10 @@ func withZero(s *ddScratch, pts []float64) []float64 {
 // ddScratch holds the buffers of expDD so that a simulation allocates once.
 type ddScratch struct {
 	table []float64
+	done  []bool
+	x     []float64 // the points and time of the expDD under way
+	t     float64
+	n     int
 	h     []float64
 	pts   []float64
 	integ []float64
@@ -184,7 +188,8 @@ const ddTaylorTerms = 30
 // absolute sum is at most e^{1/2}·e^{μt}t^L/L!, so no cancellation), and
 // otherwise the recurrence (e[x1..xL] − e[x0..x(L−1)])/(xL − x0), whose two
 // terms are positive and ordered, so that a spread of more than 1/t keeps
-// the difference from cancelling. Ranges are tabulated, O(L²) each.
+// the difference from cancelling. Ranges are tabulated as the recurrence
+// reaches them, O(L²) at most.
 func (s *ddScratch) expDD(x []float64, t float64) float64 {
 	n := len(x)
 	if n == 1 {
@@ -192,23 +197,37 @@ func (s *ddScratch) expDD(x []float64, t float64) float64 {
 	}
 	if cap(s.table) < n*n {
 		s.table = make([]float64, n*n)
+		s.done = make([]bool, n*n)
 	}
-	tab := s.table[:n*n]
-	// tab[a*n+b] = e_t[x_a..x_b], filled by increasing length.
-	for l := 0; l < n; l++ {
-		for a := 0; a+l < n; a++ {
-			b := a + l
-			switch {
-			case l == 0:
-				tab[a*n+b] = math.Exp(x[a] * t)
-			case (x[b]-x[a])*t <= 1:
-				tab[a*n+b] = s.taylor(x[a:b+1], t)
-			default:
-				tab[a*n+b] = (tab[(a+1)*n+b] - tab[a*n+b-1]) / (x[b] - x[a])
-			}
-		}
+	s.x, s.t, s.n = x, t, n
+	done := s.done[:n*n]
+	for i := range done {
+		done[i] = false
 	}
-	return tab[n-1]
+	return s.entry(0, n-1)
+}
+
+// entry is e_t[x_a..x_b], tabulated on demand: a range spread by at most
+// 1/t is summed as a cluster and needs none of its sub-ranges, so only the
+// ranges the recurrence reaches are formed (at small t only the whole one).
+// Each is the same expression as in a table filled by increasing length.
+func (s *ddScratch) entry(a, b int) float64 {
+	k := a*s.n + b
+	if s.done[k] {
+		return s.table[k]
+	}
+	var v float64
+	x, t := s.x, s.t
+	switch {
+	case a == b:
+		v = math.Exp(x[a] * t)
+	case (x[b]-x[a])*t <= 1:
+		v = s.taylor(x[a:b+1], t)
+	default:
+		v = (s.entry(a+1, b) - s.entry(a, b-1)) / (x[b] - x[a])
+	}
+	s.table[k], s.done[k] = v, true
+	return v
 }
 
 // taylor sums the series of expDD for a cluster of points.
