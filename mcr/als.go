@@ -167,6 +167,9 @@ type Options struct {
 	// every spectra step they give up as much of the other spectra as non-negativity
 	// allows (see lowest.go; for a minor species beside major ones, species mode).
 	LeastOthers []bool
+	// stopAt: stop (converged) once the residual is at or below it (0: never); the
+	// refits of minor factors stop where an earlier refit got to (TestMinorFactors).
+	stopAt float64
 	// baselineTerms: the last baselineTerms components are baseline terms
 	// (set by resolveWithBaseline; they may vanish without a warning).
 	baselineTerms int
@@ -696,7 +699,7 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		if opt.Observe != nil {
 			opt.Observe(it, lof)
 		}
-		if settled || math.Abs(prev-ssr) <= opt.Tolerance*math.Max(ssr, 1e-300*total) || ssr <= 1e-28*total {
+		if settled || math.Abs(prev-ssr) <= opt.Tolerance*math.Max(ssr, 1e-300*total) || ssr <= 1e-28*total || ssr <= opt.stopAt {
 			res.Converged = true
 			prev = ssr
 			break

@@ -50,16 +50,12 @@ func minorCase(seed uint64, shift, minor float64) (d *mat.Dense, col []float64, 
 	return d, col, math.Sqrt(xs / all)
 }
 
-// minorRefit resolves two components with closure on the weighted data, then tests the
-// leading factor of the weighted residual (the minor factor as the fit leaves it).
-func minorRefit(t *testing.T, d *mat.Dense, col []float64) *MinorTest {
+// minorFitAndFactors resolves two components with closure on the weighted data and
+// returns the fit, its options and the leading q time vectors of the weighted residual
+// (the minor factors as the fit leaves them).
+func minorFitAndFactors(t *testing.T, data WeightedDense, q int) (*Result, Options, [][]float64) {
 	t.Helper()
-	n, m := d.Dims()
-	row := make([]float64, n)
-	for i := range row {
-		row[i] = 1
-	}
-	data := WeightedDense{D: d, Row: row, Col: col}
+	n, m := data.D.Dims()
 	c0 := mat.NewDense(n, 2, nil)
 	for i := 0; i < n; i++ {
 		c0.Set(i, 0, 1-float64(i)/float64(n))
@@ -70,9 +66,9 @@ func minorRefit(t *testing.T, d *mat.Dense, col []float64) *MinorTest {
 	if err != nil {
 		t.Fatal(err)
 	}
-	e, _ := Residuals(d, fit.C, fit.S)
+	e, _ := Residuals(data.D, fit.C, fit.S)
 	for j := 0; j < m; j++ {
-		w := math.Sqrt(col[j])
+		w := math.Sqrt(data.Col[j])
 		for i := 0; i < n; i++ {
 			e.Set(i, j, e.At(i, j)*w)
 		}
@@ -83,7 +79,24 @@ func minorRefit(t *testing.T, d *mat.Dense, col []float64) *MinorTest {
 	}
 	var u mat.Dense
 	sv.UTo(&u)
-	mt, err := TestMinorFactor(data, fit, opt, mat.Col(nil, 0, &u), 0.05, 0)
+	var us [][]float64
+	for a := 0; a < q; a++ {
+		us = append(us, mat.Col(nil, a, &u))
+	}
+	return fit, opt, us
+}
+
+// minorRefit tests the leading factor of the weighted residual of a two-component fit.
+func minorRefit(t *testing.T, d *mat.Dense, col []float64) *MinorTest {
+	t.Helper()
+	n, _ := d.Dims()
+	row := make([]float64, n)
+	for i := range row {
+		row[i] = 1
+	}
+	data := WeightedDense{D: d, Row: row, Col: col}
+	fit, opt, us := minorFitAndFactors(t, data, 1)
+	mt, err := TestMinorFactor(data, fit, opt, us[0], 0.05, 0)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -272,5 +285,36 @@ func TestTakeOthersFindsTheLowerEdge(t *testing.T) {
 		if f := floatsMax(got) / floatsMax(truth); math.Abs(f-1) > 1e-6 {
 			t.Errorf("α, β = %v: scale %g of s_C, want 1 (closure keeps it)", ab, f)
 		}
+	}
+}
+
+// TestMinorFactors on two time vectors: the first verdict is the one TestMinorFactor gives
+// alone (same refits, bit for bit), and the second reaches the decision its own refit
+// reaches, stopping no later than one noise edge above the first fit (the stop rule).
+func TestMinorFactorsShareTheRefit(t *testing.T) {
+	d, col, _ := minorCase(3, 0, 0.04)
+	n, _ := d.Dims()
+	row := make([]float64, n)
+	for i := range row {
+		row[i] = 1
+	}
+	data := WeightedDense{D: d, Row: row, Col: col}
+	fit, opt, us := minorFitAndFactors(t, data, 2)
+	ts, errs := TestMinorFactors(data, fit, opt, us, 0.05, 0)
+	for i, u := range us {
+		alone, err := TestMinorFactor(data, fit, opt, u, 0.05, 0)
+		if err != nil || errs[i] != nil {
+			t.Fatal(err, errs[i])
+		}
+		t.Logf("factor %d: together %v RSS %.6g, alone %v RSS %.6g", i+1, ts[i].Species, ts[i].ResidualSSWith, alone.Species, alone.ResidualSSWith)
+		if ts[i].Species != alone.Species {
+			t.Errorf("factor %d: species %v together, %v alone", i+1, ts[i].Species, alone.Species)
+		}
+		if i == 0 && ts[i].ResidualSSWith != alone.ResidualSSWith {
+			t.Errorf("first factor: RSS %v together, %v alone", ts[i].ResidualSSWith, alone.ResidualSSWith)
+		}
+	}
+	if lim := ts[0].ResidualSSWith * (1 + ts[0].NoiseEdge/ts[0].DF2); ts[1].ResidualSSWith > lim*(1+1e-12) && ts[1].Refit.Iterations < 500 {
+		t.Errorf("second refit stopped at RSS %g above the first fit's %g plus one noise edge", ts[1].ResidualSSWith, ts[0].ResidualSSWith)
 	}
 }

@@ -77,9 +77,13 @@ func testMinor(r *Result, data mcr.Data, res *mcr.Result, opt mcr.Options, log i
 	}
 	r.MinorTested = true
 	fmt.Fprintf(log, "testing %d minor factor(s) as one more component\n", len(cands))
-	for _, nf := range cands {
-		mt, err := mcr.TestMinorFactor(data, res, opt, nf.Time, r.Settings.Alpha, minorRefitIter)
-		r.MinorTests = append(r.MinorTests, MinorVerdict{Factor: nf.Factor, Test: mt, Err: err})
+	us := make([][]float64, len(cands))
+	for i, nf := range cands {
+		us[i] = nf.Time
+	}
+	mts, errs := mcr.TestMinorFactors(data, res, opt, us, r.Settings.Alpha, minorRefitIter)
+	for i, nf := range cands {
+		r.MinorTests = append(r.MinorTests, MinorVerdict{Factor: nf.Factor, Test: mts[i], Err: errs[i]})
 	}
 }
 
