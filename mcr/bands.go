@@ -628,23 +628,63 @@ func (p *bandProblem) constrainedPair(a, b *mat.Dense) (*mat.Dense, *mat.Dense) 
 // amplitude returns f_j of the constrained pair at rotation t with
 // component j scaled by 1+ε, ε = dir·√(allowance)/‖a_j b_jᵀ‖ (see
 // FeasibleBands), and the factor 1+ε.
+//
+// The pair's model is A₊B₊ᵀ = C Sᵀ − Δ with Δ = A₋Bᵀ + A₊B₋ᵀ (A Bᵀ = C Sᵀ
+// for any rotation; A₋ = A − A₊, B₋ = B − B₊ the clipped parts), and its
+// norm and its product with a_j b_jᵀ are formed from that: ‖C Sᵀ‖² is the
+// solution's, and every other term pairs a small factor (C, S, A₋, B₋)
+// with a rotated one. The plain Gram form tr(A₊ᵀA₊ B₊ᵀB₊) sums terms of
+// size ‖a_l‖²‖b_l‖² that cancel to ‖C Sᵀ‖², so its rounding grows as the
+// square of the rotation's size: where the search of an unbounded range
+// stops (components far larger than the data, cancelling each other) it
+// swamped the value, the share came out below the solution's, and the
+// demo's unbounded reaction range was reported as bounded.
 func (p *bandProblem) amplitude(t *mat.Dense, j int, dir float64) (float64, float64) {
 	a, b, _, ok := p.rotate(t)
 	if !ok {
 		return math.NaN(), 1
 	}
-	a, b = p.constrainedPair(a, b)
-	ga, gb := gram(a), gram(b)
-	norm2 := traceProd(ga, gb)
-	own := ga.At(j, j) * gb.At(j, j) // ‖a_j b_jᵀ‖²
-	if !(own > 0) || !(norm2 > 0) {
+	ap, bp := p.constrainedPair(a, b)
+	var am, bm mat.Dense
+	am.Sub(a, ap)
+	bm.Sub(b, bp)
+	aj, bj := ap.ColView(j), bp.ColView(j)
+	own := mat.Dot(aj, aj) * mat.Dot(bj, bj) // ‖a_j b_jᵀ‖²
+	if !(own > 0) {
 		return 0, 1
 	}
-	cross := 0.0 // ⟨A Bᵀ, a_j b_jᵀ⟩ = Σ_l (a_jᵀa_l)(b_lᵀb_j)
-	for l := 0; l < p.k; l++ {
-		cross += ga.At(j, l) * gb.At(l, j)
+	// ⟨C Sᵀ, Δ⟩ = Σ (CᵀA₋)∘(SᵀB) + Σ (CᵀA₊)∘(SᵀB₋).
+	inner := func(x, y, u, v mat.Matrix) float64 {
+		var g, h mat.Dense
+		g.Mul(x.T(), y)
+		h.Mul(u.T(), v)
+		r, c := g.Dims()
+		s := 0.0
+		for i := 0; i < r; i++ {
+			for l := 0; l < c; l++ {
+				s += g.At(i, l) * h.At(i, l)
+			}
+		}
+		return s
 	}
+	csD := inner(p.c, &am, p.s, b) + inner(p.c, ap, p.s, &bm)
+	dd := p.rise(a, b, nil, nil) // ‖Δ‖²
+	norm2 := p.norm*p.norm - 2*csD + dd
+	if !(norm2 > 0) {
+		return 0, 1
+	}
+	// ⟨A₊B₊ᵀ, a_j b_jᵀ⟩ = (Cᵀa_j)·(Sᵀb_j) − (A₋ᵀa_j)·(Bᵀb_j) − (A₊ᵀa_j)·(B₋ᵀb_j).
+	vecDot := func(x, u mat.Matrix, xv, uv mat.Vector) float64 {
+		var g, h mat.VecDense
+		g.MulVec(x.T(), xv)
+		h.MulVec(u.T(), uv)
+		return mat.Dot(&g, &h)
+	}
+	cross := vecDot(p.c, p.s, aj, bj) - vecDot(&am, b, aj, bj) - vecDot(ap, &bm, aj, bj)
 	eps := dir * math.Min(math.Sqrt(p.allow/own), 0.5)
 	total := norm2 + 2*eps*cross + eps*eps*own
+	if !(total > 0) {
+		return 0, 1 + eps
+	}
 	return (1 + eps) * math.Sqrt(own/total), 1 + eps
 }
