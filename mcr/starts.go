@@ -19,6 +19,15 @@ type StartSearch struct {
 	// true solution (σ²·degrees of freedom); the search stops as soon as a
 	// fit reaches 1.02 × this, and does not start when the given one has.
 	NoiseSS float64
+	// MinGain is the least drop of the residual sum of squares that makes
+	// a start's fit better (0: any drop beyond rounding). One noise
+	// variance (1 with noise weights, σ² without) is the natural unit: two
+	// fits whose χ² differ by less than 1 fit the data equally well
+	// (Δχ² = 1 bounds one standard error of one parameter; Bevington &
+	// Robinson, Data Reduction and Error Analysis, 2003, from memory), and
+	// with a baseline such a tie can still move the split between species
+	// and baseline far.
+	MinGain float64
 }
 
 // SearchStarts looks for a better constrained fit than best when best
@@ -78,7 +87,7 @@ func SearchStarts(d Data, best *Result, opt Options, ss StartSearch) (*Result, i
 		if err != nil {
 			continue // a start that fails says nothing about the others
 		}
-		if better(res, best, ss.NoiseSS) {
+		if better(res, best, ss.NoiseSS, ss.MinGain) {
 			best = res
 			improved++
 			if ss.NoiseSS > 0 && best.ResidualSS <= 1.02*ss.NoiseSS && vanished(best) == 0 {
@@ -89,18 +98,18 @@ func SearchStarts(d Data, best *Result, opt Options, ss StartSearch) (*Result, i
 	return best, improved, nil
 }
 
-// better says whether a fit beats the best so far: a lower residual, or,
-// when both fit to within the noise (1.02 × NoiseSS), fewer vanished
-// components. Rank-deficient data (closed subsystems) are fitted to the
-// noise with a component dropped as well as with all of them, so the
-// residual alone cannot choose there.
-func better(a, b *Result, noiseSS float64) bool {
+// better says whether a fit beats the best so far: a residual lower by
+// more than minGain (and than rounding), or, when both fit to within the
+// noise (1.02 × NoiseSS), fewer vanished components. Rank-deficient data
+// (closed subsystems) are fitted to the noise with a component dropped as
+// well as with all of them, so the residual alone cannot choose there.
+func better(a, b *Result, noiseSS, minGain float64) bool {
 	if noiseSS > 0 && a.ResidualSS <= 1.02*noiseSS && b.ResidualSS <= 1.02*noiseSS {
 		if va, vb := vanished(a), vanished(b); va != vb {
 			return va < vb
 		}
 	}
-	return a.ResidualSS < (1-1e-9)*b.ResidualSS
+	return a.ResidualSS < b.ResidualSS-math.Max(minGain, 1e-9*b.ResidualSS)
 }
 
 // vanished counts components whose profile or spectrum is zero everywhere.

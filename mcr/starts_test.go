@@ -129,3 +129,29 @@ func TestSearchStartsLeavesLocalMinimum(t *testing.T) {
 		t.Errorf("not deterministic: %v then %v", best.ResidualSS, again.ResidualSS)
 	}
 }
+
+// A start's fit is better only when its residual is lower by more than
+// MinGain: with noise weights the residual sum of squares is χ², and fits
+// whose χ² differ by less than 1 (one noise variance) fit equally well
+// (Δχ² = 1 bounds one standard error of one parameter; Bevington &
+// Robinson 2003, from memory). Lower by 0.014 (what replaced the fit of a
+// real urethane series) is a tie; lower by 2 is better; without MinGain
+// only rounding (10⁻⁹ relative) separates them.
+func TestStartBetterByMoreThanOneNoiseVariance(t *testing.T) {
+	c := mat.NewDense(2, 1, []float64{1, 1})
+	fit := func(rss float64) *Result { return &Result{C: c, S: c, ResidualSS: rss} }
+	const best = 1638392.431
+	for _, tc := range []struct {
+		rss, gain float64
+		want      bool
+	}{
+		{best - 0.014, 1, false},
+		{best - 2, 1, true},
+		{best - 0.014, 0, true},
+		{best - 1e-4, 0, false},
+	} {
+		if got := better(fit(tc.rss), fit(best), 0, tc.gain); got != tc.want {
+			t.Errorf("residual %.4f against %.4f, MinGain %g: better %v, want %v", tc.rss, best, tc.gain, got, tc.want)
+		}
+	}
+}

@@ -94,6 +94,42 @@ func EFAFrom(d *mat.Dense, f *Factors, maxFactors int) (*EFAResult, error) {
 	return efaFromFactors(d, fac, nf, exact)
 }
 
+// EFAOfFactors is EFAFrom without the matrix: the sweeps need only the
+// scores U S and the dimensions, so factors of a matrix that is no longer
+// held (the noise-scaled √A D √B of weighted data, Wentzell et al.,
+// J. Chemometrics 1997) serve as well. Without the matrix no noise level
+// is estimated (Sigma is 0): give it to Windows (1 for noise-scaled data).
+func EFAOfFactors(f *Factors, maxFactors int) (*EFAResult, error) {
+	if f == nil || f.U == nil || f.V == nil {
+		return nil, fmt.Errorf("svd: EFA: no factors given")
+	}
+	if maxFactors < 0 {
+		return nil, fmt.Errorf("svd: EFA: maxFactors %d is negative", maxFactors)
+	}
+	n, _ := f.U.Dims()
+	m, _ := f.V.Dims()
+	c := min(n, m)
+	nf := maxFactors
+	if nf == 0 {
+		nf = min(c, 8)
+	}
+	nf = min(nf, c)
+	exact := f.Full() && float64(n)*float64(m)*float64(c) <= exactWork && efaCost(n, c) <= efaExactBudget
+	p := len(f.S)
+	if !exact {
+		p = min(p, max(2*nf, nf+20))
+	}
+	if p < nf {
+		return nil, fmt.Errorf("svd: EFA: %d factors given, %d curves asked", len(f.S), nf)
+	}
+	fac := f
+	if p < len(f.S) {
+		fac = truncate(f.U, f.S, f.V, p)
+		fac.Method, fac.FrobeniusSq = f.Method, f.FrobeniusSq
+	}
+	return efaSweeps(fac, n, m, nf, exact)
+}
+
 // efaArgs checks EFA's arguments and returns the sizes and the number of
 // curves: maxFactors, or 8 when 0, never more than min(n, m).
 func efaArgs(d *mat.Dense, maxFactors int) (n, m, c, nf int, err error) {
@@ -114,6 +150,19 @@ func efaArgs(d *mat.Dense, maxFactors int) (n, m, c, nf int, err error) {
 
 func efaFromFactors(d *mat.Dense, fac *Factors, nf int, exact bool) (*EFAResult, error) {
 	n, m := d.Dims()
+	res, err := efaSweeps(fac, n, m, nf, exact)
+	if err != nil {
+		return nil, err
+	}
+	if fac.FrobeniusSq > 0 {
+		res.Sigma = noiseSigma(d, fac)
+	}
+	return res, nil
+}
+
+// efaSweeps runs the forward and backward sweeps on the scores of fac, the
+// factors of an n × m matrix.
+func efaSweeps(fac *Factors, n, m, nf int, exact bool) (*EFAResult, error) {
 	var err error
 	p := len(fac.S)
 	y := mat.NewDense(n, p, nil)
@@ -142,9 +191,6 @@ func efaFromFactors(d *mat.Dense, fac *Factors, nf int, exact bool) (*EFAResult,
 	}
 	if errB != nil {
 		return nil, fmt.Errorf("svd: EFA backward: %w", errB)
-	}
-	if fac.FrobeniusSq > 0 {
-		res.Sigma = noiseSigma(d, fac)
 	}
 	return res, nil
 }
@@ -357,6 +403,25 @@ func (w *EFAWindows) InitialProfiles(d *mat.Dense, rank int) *mat.Dense {
 			return nil
 		}
 	}
+	return w.profiles(fac, n, rank)
+}
+
+// FactorProfiles is InitialProfiles from the factors the EFA curves were
+// computed from (EFAOfFactors), when the matrix itself is not held; nil when
+// the windows came without factors or hold fewer than rank.
+func (w *EFAWindows) FactorProfiles(rank int) *mat.Dense {
+	if w == nil || w.fac == nil || rank <= 0 || rank > len(w.Appear) || len(w.fac.S) < rank {
+		return nil
+	}
+	n, _ := w.fac.U.Dims()
+	if len(w.Present) != n {
+		return nil
+	}
+	return w.profiles(w.fac, n, rank)
+}
+
+// profiles is InitialProfiles with the factors settled.
+func (w *EFAWindows) profiles(fac *Factors, n, rank int) *mat.Dense {
 	r := min(len(fac.S), rank)
 	y := mat.NewDense(n, r, nil)
 	for i := 0; i < n; i++ {

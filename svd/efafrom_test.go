@@ -95,3 +95,40 @@ func TestEFAFromTruncatedFactors(t *testing.T) {
 		t.Error("factors of another matrix: want an error")
 	}
 }
+
+// EFAOfFactors needs only the factors: the block singular values of D are
+// those of its scores U S (D_i = (U S)_i Vᵀ with V orthonormal; definition,
+// Gampp et al. 1985), so its curves and FactorProfiles equal EFAFrom's and
+// InitialProfiles' on the same factors, bit for bit, and it estimates no
+// noise level (Sigma 0: the caller gives it, 1 for noise-scaled data).
+func TestEFAOfFactorsEqualsEFAFrom(t *testing.T) {
+	rng := newRNG(1991)
+	n, m := 40, 70
+	d := noisyBilinear(rng, n, m, 3, 1e-3)
+	f, err := Decompose(d, DecomposeOptions{Method: MethodExact})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want, err := EFAFrom(d, f, 4)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, err := EFAOfFactors(f, 4)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got.Sigma != 0 || got.Exact != want.Exact || got.Columns != want.Columns {
+		t.Fatalf("sigma %g exact %v columns %d; EFAFrom: exact %v columns %d", got.Sigma, got.Exact, got.Columns, want.Exact, want.Columns)
+	}
+	if !mat.Equal(got.Forward, want.Forward) || !mat.Equal(got.Backward, want.Backward) {
+		t.Fatal("curves differ from EFAFrom's on the same factors")
+	}
+	pw := want.Windows(3, 1e-3).InitialProfiles(d, 3)
+	pg := got.Windows(3, 1e-3).FactorProfiles(3)
+	if pw == nil || pg == nil || !mat.Equal(pw, pg) {
+		t.Fatal("FactorProfiles differs from InitialProfiles on the same factors")
+	}
+	if _, err := EFAOfFactors(nil, 3); err == nil {
+		t.Error("no factors: no error")
+	}
+}

@@ -363,7 +363,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 				return nil, err
 			}
 			in = weightedRankInputs(r, r.Scaled, r.Weights.Row, r.Weights.Col, refRow, maxF)
-			r.Scaled = nil // EFA and purest variables below work on D itself
+			r.Scaled = nil // not held further: EFA and purest variables use its factors
 		} else {
 			in = weightedRankInputs(r, svd.Scale(r.D, r.Weights.Row, r.Weights.Col), r.Weights.Row, r.Weights.Col, refRow, maxF)
 		}
@@ -384,9 +384,9 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	if !weighted(r) {
 		in, rf = plain, f
 	} else if rp, err := svd.EstimateRank(r.D, f, plain.opt); err == nil {
-		// EFA and the outlier test work on D and compare with its noise in
-		// D's units, estimated as without weights (pre-reaction spectra, or
-		// the singular values).
+		// The outlier test works on D and compares with its noise in D's
+		// units, estimated as without weights (pre-reaction spectra, or the
+		// singular values).
 		r.PlainSigma = rp.Sigma
 	}
 	noiseOf(r)
@@ -752,15 +752,11 @@ func addEFAWindows(r *Result, opt *mcr.Options) error {
 		return usage("--efa-windows on works on one experiment at a time")
 	}
 	k := r.Components
-	d := r.D
-	if r.Scaled != nil {
-		d = r.Scaled
-	}
-	e, err := svd.EFA(d, k)
+	e, sigma, _, err := evolvingFactors(r, k)
 	if err != nil {
 		return fmt.Errorf("evolving factor analysis: %w", err)
 	}
-	w := e.Windows(k, plainSigma(r))
+	w := e.Windows(k, sigma)
 	n, _ := r.D.Dims()
 	if opt.ZeroProfiles == nil {
 		opt.ZeroProfiles = make([][]bool, k)

@@ -182,22 +182,22 @@ func fitFigures(r *Result, res *mcr.Result) {
 	}
 }
 
-// startProfiles maps EFA's initial profiles of the scaled matrix (rows
-// √a_i c_i) back to the data's rows.
+// startProfiles gives EFA's initial profiles in the data's rows: with noise
+// weights EFA ran on the scaled matrix, whose profiles have rows √a_i c_i.
 func startProfiles(r *Result, k int) *mat.Dense {
 	if r.EFA == nil {
 		return nil
 	}
-	if r.Scaled == nil {
+	if !r.EFA.NoiseUnits {
 		return r.EFA.Windows.InitialProfiles(r.D, k)
 	}
-	c := r.EFA.Windows.InitialProfiles(r.Scaled, k)
+	c := r.EFA.Windows.FactorProfiles(k)
 	if c == nil {
 		return nil
 	}
 	n, kk := c.Dims()
 	for i := 0; i < n; i++ {
-		f := 1 / math.Sqrt(r.Weights.Row[i])
+		f := invSqrt(r.Weights.Row[i])
 		for j := 0; j < kk; j++ {
 			c.Set(i, j, c.At(i, j)*f)
 		}
@@ -207,26 +207,29 @@ func startProfiles(r *Result, k int) *mat.Dense {
 
 // purestSource is the matrix purest variables are picked from: with noise
 // weights, the rank-k model of the scaled matrix mapped back to the data's
-// units, since a channel made noisy by strong absorption has a large
-// standard deviation over its mean and would look pure (SIMPLISMA's purity
-// is σ_j/μ_j); the model holds the chemistry without that noise.
+// units, (1/√A) U_k S_k V_kᵀ (1/√B), since a channel made noisy by strong
+// absorption has a large standard deviation over its mean and would look
+// pure (SIMPLISMA's purity is σ_j/μ_j); the truncated SVD of the scaled
+// matrix is the maximum-likelihood rank-k model for this noise (Wentzell et
+// al., J. Chemometrics 1997) and holds the chemistry without that noise.
 func purestSource(r *Result, k int) *mat.Dense {
-	if r.Scaled == nil || len(r.Factors.S) < k {
+	f := r.ScaledFactors
+	if !weighted(r) || f == nil || len(f.S) < k {
 		return r.D
 	}
 	n, m := r.D.Dims()
 	us := mat.NewDense(n, k, nil)
 	for i := 0; i < n; i++ {
-		f := 1 / math.Sqrt(r.Weights.Row[i])
+		g := invSqrt(r.Weights.Row[i])
 		for l := 0; l < k; l++ {
-			us.Set(i, l, r.Factors.U.At(i, l)*r.Factors.S[l]*f)
+			us.Set(i, l, f.U.At(i, l)*f.S[l]*g)
 		}
 	}
 	vs := mat.NewDense(m, k, nil)
 	for j := 0; j < m; j++ {
-		f := 1 / math.Sqrt(r.Weights.Col[j])
+		g := invSqrt(r.Weights.Col[j])
 		for l := 0; l < k; l++ {
-			vs.Set(j, l, r.Factors.V.At(j, l)*f)
+			vs.Set(j, l, f.V.At(j, l)*g)
 		}
 	}
 	out := mat.NewDense(n, m, nil)
@@ -264,6 +267,15 @@ func medianOf(v []float64) float64 {
 		return c[len(c)/2]
 	}
 	return (c[len(c)/2-1] + c[len(c)/2]) / 2
+}
+
+// invSqrt is 1/√w, 0 for a weight of zero (a point with no information
+// contributes nothing rather than an infinity).
+func invSqrt(w float64) float64 {
+	if !(w > 0) {
+		return 0
+	}
+	return 1 / math.Sqrt(w)
 }
 
 func sqrts(v []float64) []float64 {
