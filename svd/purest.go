@@ -61,21 +61,7 @@ func Purest(d *mat.Dense, k int, offsetPercent float64, signed bool) ([]int, err
 	for j := range sd {
 		sd[j] = math.Sqrt(sd[j] / float64(n))
 	}
-	alpha := offsetPercent / 100 * muMax
-	purity := make([]float64, m)
-	scale := make([]float64, m)
-	for j := range purity {
-		if den := mu[j] + alpha; den > 0 {
-			purity[j] = sd[j] / den
-		}
-		if l := math.Hypot(mu[j], sd[j]+alpha); l > 0 {
-			scale[j] = 1 / l
-		}
-	}
-	// cross[l][j] = R[p_l, j]; computed once per chosen channel (n·m work each).
-	var cross [][]float64
-	chosen := make([]int, 0, k)
-	taken := make([]bool, m)
+	purity, scale := purityScale(mu, sd, offsetPercent/100*muMax)
 	diag := make([]float64, m) // R_jj
 	for i := 0; i < n; i++ {
 		for j, v := range d.RawRowView(i) {
@@ -86,6 +72,143 @@ func Purest(d *mat.Dense, k int, offsetPercent float64, signed bool) ([]int, err
 	for j := range diag {
 		diag[j] /= float64(n)
 	}
+	// cross(best)[j] = R[best, j]: n·m work per chosen channel.
+	cross := func(best int) []float64 {
+		row := make([]float64, m)
+		for i := 0; i < n; i++ {
+			dr := d.RawRowView(i)
+			yb := dr[best] * scale[best]
+			for j, v := range dr {
+				row[j] += yb * v * scale[j]
+			}
+		}
+		for j := range row {
+			row[j] /= float64(n)
+		}
+		return row
+	}
+	return choosePurest(k, purity, diag, cross)
+}
+
+// purityScale returns SIMPLISMA's purity σ_j/(μ_j + α) and the column
+// scale 1/√(μ_j² + (σ_j + α)²) of each channel.
+func purityScale(mu, sd []float64, alpha float64) (purity, scale []float64) {
+	purity, scale = make([]float64, len(mu)), make([]float64, len(mu))
+	for j := range purity {
+		if den := mu[j] + alpha; den > 0 {
+			purity[j] = sd[j] / den
+		}
+		if l := math.Hypot(mu[j], sd[j]+alpha); l > 0 {
+			scale[j] = 1 / l
+		}
+	}
+	return purity, scale
+}
+
+// PurestLowRank is Purest of the n × m matrix P Qᵀ (P n × r, Q m × r)
+// without forming it: every statistic SIMPLISMA needs is a quadratic form
+// in the r × r Gram matrix of the centred P, so the cost is O((n + m) r²)
+// instead of O(n m) per chosen channel and no n × m matrix is held (the
+// rank-k model of noise-weighted data, mapped back, is such a product).
+// With signed data the mean absolute value of each column takes one pass
+// over the rows of P Qᵀ, a block at a time. Same definitions as Purest,
+// so the same channels up to rounding.
+func PurestLowRank(p, q *mat.Dense, k int, offsetPercent float64, signed bool) ([]int, error) {
+	n, r := p.Dims()
+	m, rq := q.Dims()
+	if rq != r || n == 0 || m == 0 || r == 0 {
+		return nil, fmt.Errorf("svd: purest variables: factors %d × %d and %d × %d do not fit", n, r, m, rq)
+	}
+	if k < 1 || k > m {
+		return nil, fmt.Errorf("svd: purest variables: k = %d outside 1..%d", k, m)
+	}
+	if offsetPercent < 0 || math.IsNaN(offsetPercent) || math.IsInf(offsetPercent, 0) {
+		return nil, fmt.Errorf("svd: purest variables: offset %v%% must be finite and ≥ 0", offsetPercent)
+	}
+	if err := checkMatrix(p); err != nil {
+		return nil, fmt.Errorf("svd: purest variables: %w", err)
+	}
+	if err := checkMatrix(q); err != nil {
+		return nil, fmt.Errorf("svd: purest variables: %w", err)
+	}
+	// Column means mean_j = p̄ · q_j, and the centred Gram Gc = (P − 1p̄ᵀ)ᵀ(P − 1p̄ᵀ)/n,
+	// so σ_j² = q_jᵀ Gc q_j without the cancellation of E[x²] − mean².
+	pbar := make([]float64, r)
+	for i := 0; i < n; i++ {
+		for l, v := range p.RawRowView(i) {
+			pbar[l] += v
+		}
+	}
+	for l := range pbar {
+		pbar[l] /= float64(n)
+	}
+	pc := mat.DenseCopyOf(p)
+	for i := 0; i < n; i++ {
+		row := pc.RawRowView(i)
+		for l := range row {
+			row[l] -= pbar[l]
+		}
+	}
+	var gc mat.Dense
+	gc.Mul(pc.T(), pc)
+	gc.Scale(1/float64(n), &gc)
+	mean, mu, sd, sq := make([]float64, m), make([]float64, m), make([]float64, m), make([]float64, m)
+	gq := mat.NewDense(m, r, nil)
+	gq.Mul(q, &gc) // row j: (Gc q_j)ᵀ
+	for j := 0; j < m; j++ {
+		qj := q.RawRowView(j)
+		mean[j] = dot(pbar, qj)
+		v := math.Max(0, dot(gq.RawRowView(j), qj))
+		sd[j] = math.Sqrt(v)
+		sq[j] = v + mean[j]*mean[j] // E[x²]
+	}
+	if signed {
+		const block = 64
+		buf := mat.NewDense(min(block, n), m, nil)
+		for i0 := 0; i0 < n; i0 += block {
+			i1 := min(i0+block, n)
+			b := buf.Slice(0, i1-i0, 0, m).(*mat.Dense)
+			b.Mul(p.Slice(i0, i1, 0, r), q.T())
+			for i := 0; i < i1-i0; i++ {
+				for j, v := range b.RawRowView(i) {
+					mu[j] += math.Abs(v)
+				}
+			}
+		}
+		for j := range mu {
+			mu[j] /= float64(n)
+		}
+	} else {
+		copy(mu, mean)
+	}
+	muMax := 0.0
+	for _, v := range mu {
+		muMax = math.Max(muMax, v)
+	}
+	purity, scale := purityScale(mu, sd, offsetPercent/100*muMax)
+	diag := make([]float64, m)
+	for j := range diag {
+		diag[j] = scale[j] * scale[j] * sq[j]
+	}
+	// R[b, j] = s_b s_j E[x_b x_j] = s_b s_j (q_bᵀ Gc q_j + mean_b mean_j).
+	cross := func(best int) []float64 {
+		row := make([]float64, m)
+		gb := gq.RawRowView(best)
+		for j := range row {
+			row[j] = scale[best] * scale[j] * (dot(gb, q.RawRowView(j)) + mean[best]*mean[j])
+		}
+		return row
+	}
+	return choosePurest(k, purity, diag, cross)
+}
+
+// choosePurest is SIMPLISMA's selection (see Purest) from the purities, the
+// diagonal of R and its rows for chosen channels.
+func choosePurest(k int, purity, diag []float64, crossRow func(best int) []float64) ([]int, error) {
+	m := len(purity)
+	var cross [][]float64
+	chosen := make([]int, 0, k)
+	taken := make([]bool, m)
 	for len(chosen) < k {
 		l := len(chosen)
 		var chol mat.Cholesky
@@ -135,18 +258,15 @@ func Purest(d *mat.Dense, k int, offsetPercent float64, signed bool) ([]int, err
 		}
 		chosen = append(chosen, best)
 		taken[best] = true
-		row := make([]float64, m)
-		for i := 0; i < n; i++ {
-			dr := d.RawRowView(i)
-			yb := dr[best] * scale[best]
-			for j, v := range dr {
-				row[j] += yb * v * scale[j]
-			}
-		}
-		for j := range row {
-			row[j] /= float64(n)
-		}
-		cross = append(cross, row)
+		cross = append(cross, crossRow(best))
 	}
 	return chosen, nil
+}
+
+func dot(a, b []float64) float64 {
+	s := 0.0
+	for i := range a {
+		s += a[i] * b[i]
+	}
+	return s
 }

@@ -170,3 +170,45 @@ func TestPurestTiesAndErrors(t *testing.T) {
 		}
 	}
 }
+
+// PurestLowRank on the factors P, Q picks the channels Purest picks on the
+// matrix P Qᵀ itself (the same SIMPLISMA definitions, Windig & Guilment
+// 1991, formed as quadratic forms instead of sums over rows), for absorbance
+// (unsigned) and difference (signed) data.
+func TestPurestLowRankEqualsDense(t *testing.T) {
+	rng := newRNG(1991)
+	n, m, r := 50, 120, 3
+	for _, signed := range []bool{false, true} {
+		p, q := mat.NewDense(n, r, nil), mat.NewDense(m, r, nil)
+		for i := 0; i < n; i++ {
+			for l := 0; l < r; l++ {
+				p.Set(i, l, rng.Float64())
+			}
+		}
+		for j := 0; j < m; j++ {
+			for l := 0; l < r; l++ {
+				v := math.Exp(-0.5 * math.Pow((float64(j)-30*float64(l+1))/8, 2))
+				if signed && l == 1 {
+					v = -v
+				}
+				q.Set(j, l, v+0.01*rng.Float64())
+			}
+		}
+		var d mat.Dense
+		d.Mul(p, q.T())
+		want, err := Purest(&d, r, 5, signed)
+		if err != nil {
+			t.Fatal(err)
+		}
+		got, err := PurestLowRank(p, q, r, 5, signed)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for i := range want {
+			if got[i] != want[i] {
+				t.Errorf("signed %v: low-rank picks %v, dense %v", signed, got, want)
+				break
+			}
+		}
+	}
+}

@@ -705,8 +705,8 @@ func initialProfiles(r *Result, k int) (*mat.Dense, string, error) {
 	n, _ := r.D.Dims()
 	switch s.Init {
 	case "purest", "auto", "":
-		src := purestSource(r, k)
-		idx, err := svd.Purest(src, k, 5, r.Mode == mcr.Reactions)
+		src := purestSourceOf(r, k)
+		idx, err := src.pick(k, r.Mode == mcr.Reactions)
 		if err != nil {
 			if s.Components != "auto" {
 				return nil, "", usage("--components %d: %v; the data does not hold that many independent components (rank estimate %d): ask for fewer", k, err, r.Rank.Estimate)
@@ -715,7 +715,7 @@ func initialProfiles(r *Result, k int) (*mat.Dense, string, error) {
 		}
 		c := mat.NewDense(n, k, nil)
 		for j, ch := range idx {
-			col := mat.Col(nil, ch, src)
+			col := src.column(ch)
 			sum := 0.0
 			for _, v := range col {
 				sum += v

@@ -205,36 +205,59 @@ func startProfiles(r *Result, k int) *mat.Dense {
 	return c
 }
 
-// purestSource is the matrix purest variables are picked from: with noise
-// weights, the rank-k model of the scaled matrix mapped back to the data's
-// units, (1/√A) U_k S_k V_kᵀ (1/√B), since a channel made noisy by strong
-// absorption has a large standard deviation over its mean and would look
-// pure (SIMPLISMA's purity is σ_j/μ_j); the truncated SVD of the scaled
-// matrix is the maximum-likelihood rank-k model for this noise (Wentzell et
-// al., J. Chemometrics 1997) and holds the chemistry without that noise.
-func purestSource(r *Result, k int) *mat.Dense {
+// purestSource is what purest variables are picked from: D, or with noise
+// weights the rank-k model of the scaled matrix mapped back to the data's
+// units, P Qᵀ with P = (1/√A) Ũ_k S̃_k and Q = (1/√B) Ṽ_k, held as its
+// factors (svd.PurestLowRank; no n × m matrix). A channel made noisy by
+// strong absorption has a large standard deviation over its mean and would
+// look pure (SIMPLISMA's purity is σ_j/μ_j); the truncated SVD of the
+// scaled matrix is the maximum-likelihood rank-k model for this noise
+// (Wentzell et al., J. Chemometrics 1997) and holds the chemistry without
+// that noise.
+type purestSource struct {
+	d    *mat.Dense
+	p, q *mat.Dense
+}
+
+func purestSourceOf(r *Result, k int) purestSource {
 	f := r.ScaledFactors
 	if !weighted(r) || f == nil || len(f.S) < k {
-		return r.D
+		return purestSource{d: r.D}
 	}
 	n, m := r.D.Dims()
-	us := mat.NewDense(n, k, nil)
+	p := mat.NewDense(n, k, nil)
 	for i := 0; i < n; i++ {
 		g := invSqrt(r.Weights.Row[i])
 		for l := 0; l < k; l++ {
-			us.Set(i, l, f.U.At(i, l)*f.S[l]*g)
+			p.Set(i, l, f.U.At(i, l)*f.S[l]*g)
 		}
 	}
-	vs := mat.NewDense(m, k, nil)
+	q := mat.NewDense(m, k, nil)
 	for j := 0; j < m; j++ {
 		g := invSqrt(r.Weights.Col[j])
 		for l := 0; l < k; l++ {
-			vs.Set(j, l, f.V.At(j, l)*g)
+			q.Set(j, l, f.V.At(j, l)*g)
 		}
 	}
-	out := mat.NewDense(n, m, nil)
-	out.Mul(us, vs.T())
-	return out
+	return purestSource{p: p, q: q}
+}
+
+// pick returns the k purest channels.
+func (src purestSource) pick(k int, signed bool) ([]int, error) {
+	if src.d != nil {
+		return svd.Purest(src.d, k, 5, signed)
+	}
+	return svd.PurestLowRank(src.p, src.q, k, 5, signed)
+}
+
+// column returns channel j of the source over time.
+func (src purestSource) column(j int) []float64 {
+	if src.d != nil {
+		return mat.Col(nil, j, src.d)
+	}
+	var c mat.VecDense
+	c.MulVec(src.p, src.q.RowView(j))
+	return c.RawVector().Data
 }
 
 // noiseOf sets the typical noise level of D and says where it came from
