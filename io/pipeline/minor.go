@@ -170,12 +170,24 @@ func minorRefitJSON(r *Result, factor int) *output.MinorRefitJSON {
 func minorAdvice(r *Result, factor int) string {
 	v := minorOf(r, factor)
 	switch {
+	case v == nil && r.MinorTested && refittable(r, factor):
+		return fmt.Sprintf("; not refitted as one more component (only the %d largest minor factors are)", maxMinorTests)
 	case v == nil:
 		return ""
 	case v.Err != nil || v.Test == nil:
 		return fmt.Sprintf("; the refit with it as one more component failed (%v)", v.Err)
 	}
 	return fmt.Sprintf("; refitted as one more component under the same constraints and baseline, %s; %s", minorLooks(r, v.Test), v.Test.Verdict)
+}
+
+// refittable reports whether a factor is of a kind the refit tests (minor or band shift).
+func refittable(r *Result, factor int) bool {
+	for _, nf := range r.Chemical.Nuisance {
+		if nf.Factor == factor {
+			return nf.Kind == svd.NuisanceMinor || nf.Kind == svd.NuisanceBandShift
+		}
+	}
+	return false
 }
 
 // minorSpeciesSummary lists the minor factors counted as species for summary.json.
