@@ -99,6 +99,7 @@ type MinorTest struct {
 	PeakRow    int
 	Species    bool
 	Verdict    string // why, in words
+	reactions  bool   // components are reactions (spectra of either sign)
 	Refit      *Result
 }
 
@@ -193,6 +194,7 @@ func minorUsable(d Data, fit *Result, opt Options, alpha float64) error {
 func judgeMinor(d Data, fit, without, with *Result, opt Options, alpha float64) *MinorTest {
 	_, k := fit.C.Dims()
 	t := &MinorTest{ResidualSSWith: with.ResidualSS, ResidualSSWithout: math.Min(without.ResidualSS, fit.ResidualSS), Refit: with}
+	t.reactions = opt.Mode == Reactions
 	t.fTest(d, k, opt, alpha)
 	if fit.ResidualSS < without.ResidualSS {
 		without = fit
@@ -372,8 +374,16 @@ func (t *MinorTest) verdict(alpha float64) {
 		t.Verdict = fmt.Sprintf("it lowers the fit significantly (p = %.2g), but not with a band of its own: %s; a change of those bands' shape (a shift, broadening, hydrogen bonding) that no resolution can tell from a species hidden there, so not counted", t.Significance, t.ownBandWords())
 	default:
 		t.Species = true
-		t.Verdict = fmt.Sprintf("a non-negative spectrum and profile that lower the fit by %.3g σ² where noise alone would give about %.3g σ² (p = %.2g < %g), with a band of its own (%s), and %.0f %% of what its spectrum adds is not a band shift: a species by this test", t.Drop(), t.NoiseEdge, t.Significance, alpha, t.ownBandWords(), 100*(1-t.ShiftShare))
+		t.Verdict = fmt.Sprintf("%s the fit by %.3g σ² where noise alone would give about %.3g σ² (p = %.2g < %g), with a band of its own (%s), and %.0f %% of what its spectrum adds is not a band shift: a species by this test", t.what(), t.Drop(), t.NoiseEdge, t.Significance, alpha, t.ownBandWords(), 100*(1-t.ShiftShare))
 	}
+}
+
+// what names the extra component for the verdict.
+func (t *MinorTest) what() string {
+	if t.reactions {
+		return "one more reaction (a non-negative extent) that lowers"
+	}
+	return "a non-negative spectrum and profile that lower"
 }
 
 // Drop is RSS_k − RSS_{k+1} in units of the noise variance RSS_{k+1}/DF2.

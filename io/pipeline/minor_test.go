@@ -2,8 +2,10 @@ package pipeline
 
 import (
 	"math"
+	"slices"
 	"testing"
 
+	"github.com/bandsolve/bandsolve/mcr"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -211,4 +213,105 @@ func TestMinorSpeciesIsCounted(t *testing.T) {
 			}
 		}
 	}
+}
+
+// runDifferenceCase writes s as single beams without a blank, so that the run is in
+// reactions mode on differences from the first spectra (three before the reaction).
+func runDifferenceCase(t *testing.T, s *synth) *Result {
+	t.Helper()
+	series, _ := s.write(t)
+	st := NewSettings()
+	st.Data, st.Kind, st.Pre = []string{series}, "single-beam", 3
+	st.Bands, st.Checks = "off", "off"
+	r, err := Run(st, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return r
+}
+
+// The minor species of TestMinorSpeciesIsCounted seen through differences: ΔA(t) = (1 −
+// a)(s_B − s_A) + x (s_C − s_B) (mass balance, from A = a s_A + (1 − a − x) s_B + x s_C), so
+// two reactions. The default run must count them, and its reaction spectra must lie in the
+// span of the true ones (outside it by at most 2 %, or 1 % more than least squares on the
+// true extents leaves: the noise on a 1 % reaction's spectrum; extents alone are
+// rotationally ambiguous in reactions mode). A
+// band shift of 2 points on A -> B alone stays one reaction.
+func TestMinorSpeciesInDifferences(t *testing.T) {
+	n := 121.0
+	for _, c := range []struct {
+		name   string
+		amount func(a float64, i int) float64
+	}{
+		{"transient", func(a float64, _ int) float64 { return 0.04 * 4 * a * (1 - a) }},
+		{"slowly formed", func(a float64, i int) float64 { return 0.02 * (1 - a) * (1 - a) * float64(i) / n }},
+	} {
+		s := makeBateman(t, 6e-3, 2e-3, 0, 1, 2)
+		withMinorSpecies(s, c.amount)
+		countsNoise(s, 20, 9, nil)
+		r := runDifferenceCase(t, s)
+		logMinor(t, r)
+		if r.Mode != mcr.Reactions || r.Components != 2 {
+			t.Errorf("%s: mode %s, %d components; want 2 reactions", c.name, r.Mode, r.Components)
+			continue
+		}
+		m, _ := s.spectra.Dims()
+		basis := mat.NewDense(m, 2, nil)
+		for j := 0; j < m; j++ {
+			basis.Set(j, 0, s.spectra.At(j, 1)-s.spectra.At(j, 0))
+			basis.Set(j, 1, s.spectra.At(j, 2)-s.spectra.At(j, 1))
+		}
+		// What noise leaves: the reaction spectra by least squares on the true extents
+		// (1 − a and x; Gauss–Markov), and how far outside the span they lie.
+		ns, _ := s.profiles.Dims()
+		xi := mat.NewDense(ns, 2, nil)
+		for i := 0; i < ns; i++ {
+			xi.Set(i, 0, 1-s.profiles.At(i, 0))
+			xi.Set(i, 1, s.profiles.At(i, 2))
+		}
+		var g, gi, dx, oracle mat.Dense
+		g.Mul(xi.T(), xi)
+		if err := gi.Inverse(&g); err != nil {
+			t.Fatal(err)
+		}
+		dx.Mul(r.D.T(), xi)
+		oracle.Mul(&dx, &gi)
+		// Matched smallest to smallest (the order of reactions is the run's own).
+		var rels, limits []float64
+		for j := 0; j < 2; j++ {
+			rels = append(rels, outsideSpan(basis, mat.Col(nil, j, r.ALS.S)))
+			limits = append(limits, outsideSpan(basis, mat.Col(nil, j, &oracle)))
+		}
+		slices.Sort(rels)
+		slices.Sort(limits)
+		t.Logf("%s: reaction spectra %.3f outside the span of the true ones; from the true extents %.3f", c.name, rels, limits)
+		for j := range rels {
+			if rels[j] > max(0.02, limits[j]+0.01) {
+				t.Errorf("%s: a reaction spectrum lies %.3f outside the span of the true ones, want ≤ %.3f (noise leaves %.3f)", c.name, rels[j], max(0.02, limits[j]+0.01), limits[j])
+			}
+		}
+	}
+	s := makeBateman(t, 6e-3, 2e-3, 0, 1, 2)
+	countsNoise(s, 20, 8, shiftedAbsorbance(s, func(i int) float64 {
+		return 2 * (1 - math.Exp(-float64(i)/6))
+	}))
+	r := runDifferenceCase(t, s)
+	logMinor(t, r)
+	if r.Components != 1 {
+		t.Errorf("band shift of 2 points in differences: %d components, want the one reaction", r.Components)
+	}
+}
+
+// outsideSpan is ‖(I − P) v‖/‖v‖ for P the projector onto the columns of basis (QR).
+func outsideSpan(basis *mat.Dense, v []float64) float64 {
+	var qr mat.QR
+	qr.Factorize(basis)
+	col := mat.NewVecDense(len(v), v)
+	var coef, proj mat.VecDense
+	if err := qr.SolveVecTo(&coef, false, col); err != nil {
+		return math.Inf(1)
+	}
+	proj.MulVec(basis, &coef)
+	proj.SubVec(col, &proj)
+	return mat.Norm(&proj, 2) / mat.Norm(col, 2)
 }
