@@ -15,7 +15,16 @@ import (
 // (Wentzell, Andrews, Hamilton, Faber & Kowalski, J. Chemometrics 1997).
 func Scale(d *mat.Dense, row, col []float64) *mat.Dense {
 	n, m := d.Dims()
-	out := mat.NewDense(n, m, nil)
+	return ScaleInto(mat.NewDense(n, m, nil), d, row, col)
+}
+
+// ScaleInto writes √A D √B into out (n × m, which may be d itself: each
+// value is read before it is overwritten) and returns out, the same values
+// as Scale bit for bit. On large data it lets a caller rebuild the scaled
+// matrix in a buffer it already holds instead of allocating one more
+// data-sized matrix.
+func ScaleInto(out, d *mat.Dense, row, col []float64) *mat.Dense {
+	n, m := d.Dims()
 	sb := make([]float64, m)
 	for j, b := range col {
 		sb[j] = math.Sqrt(b)

@@ -68,6 +68,12 @@ type rankInputs struct {
 	// itself): the baseline is then removed by weighted least squares and the shape
 	// tests look at the unscaled vectors (docs/measurement.md §2).
 	row, col []float64
+	// reuse says d is the caller's own copy, which the projection of the
+	// baseline may overwrite in place (D Q⊥ needs no data-sized matrix of
+	// its own: 1.2 GB at 50 000 × 3000); rebuild, when set, writes d again
+	// afterwards, the same values bit for bit (svd.ScaleInto from D).
+	reuse   bool
+	rebuild func(*mat.Dense)
 }
 
 // weightedRankInputs are the rank inputs of a matrix scaled by the weights w: the noise
@@ -99,9 +105,17 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 		q := svd.PolyBasis(r.Axis, order, in.col)
 		var dq mat.Dense
 		dq.Mul(d, q)
-		dc = mat.NewDense(d.RawMatrix().Rows, m, nil)
-		dc.Mul(&dq, q.T())
-		dc.Sub(d, dc)
+		if in.reuse {
+			subtractBaselineInPlace(d, &dq, q) // the same values as below
+			dc = d
+			if in.rebuild != nil {
+				defer in.rebuild(d)
+			}
+		} else {
+			dc = mat.NewDense(d.RawMatrix().Rows, m, nil)
+			dc.Mul(&dq, q.T())
+			dc.Sub(d, dc)
+		}
 		if f != nil && !f.Full() {
 			var err error
 			if f, err = svd.ProjectFactors(f, q, &dq); err != nil {
@@ -139,7 +153,11 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 		maxOrder = -1
 		r.Notes = append(r.Notes, fmt.Sprintf("no baseline model: %d points are too few", m))
 	}
-	rep, cr, err := chemicalRank(r, d, f, maxOrder, in, r.Mode == mcr.Species)
+	first := in
+	if !auto || maxOrder < 0 {
+		first.rebuild = nil // d's last use
+	}
+	rep, cr, err := chemicalRank(r, d, f, maxOrder, first, r.Mode == mcr.Species)
 	if err != nil {
 		return fmt.Errorf("rank: %w", err)
 	}
@@ -175,6 +193,7 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 		}
 		r.BaselineReason = fmt.Sprintf("chosen by the extra-sum-of-squares F-test of each order against the one below at level %.3g (Draper & Smith 1998; --alpha %g shared by the %d orders tried, Bonferroni), with %d factor(s) besides the baseline%s: %s", level, r.Settings.Alpha, maxOrder+1, kf, metric, strings.Join(steps, ", "))
 		if order != maxOrder {
+			in.rebuild = nil // d's last use
 			if rep, cr, err = chemicalRank(r, d, f, order, in, r.Mode == mcr.Species); err != nil {
 				return fmt.Errorf("rank: %w", err)
 			}

@@ -26,7 +26,9 @@ func writeMaps(r *Result, stage *output.Stage) error {
 	var mats []report.MapMatrix
 	at := func(m *mat.Dense) func(i, j int) float64 { return m.At }
 	mats = append(mats, report.MapMatrix{Name: "data", At: at(r.D)})
-	if diff := differenceMatrix(r); diff != nil {
+	if r.diffMapRows != nil {
+		mats = append(mats, report.MapMatrix{Name: "difference", At: func(i, j int) float64 { return r.diffMapRows[i][j] }})
+	} else if diff := differenceMatrix(r); diff != nil {
 		mats = append(mats, report.MapMatrix{Name: "difference", At: at(diff)})
 	}
 	if r.ALS != nil {
@@ -67,6 +69,24 @@ func differenceMatrix(r *Result) *mat.Dense {
 		return nil
 	}
 	return d
+}
+
+// mapRows copies the rows of d (the stacked difference matrix, n × m) that
+// the report's maps show (report.MapRows), so that d itself need not be
+// kept until the results are written; nil when d is not of the data's
+// shape, as differenceMatrix would give none.
+func mapRows(r *Result, d *mat.Dense) map[int][]float64 {
+	if d == nil {
+		return nil
+	}
+	if n, m := d.Dims(); n != len(r.Times) || m != len(r.Axis) {
+		return nil
+	}
+	rows := map[int][]float64{}
+	for _, i := range report.MapRows(len(r.Times)) {
+		rows[i] = append([]float64(nil), d.RawRowView(i)...)
+	}
+	return rows
 }
 
 func writeReport(r *Result, stage *output.Stage) error {

@@ -67,6 +67,9 @@ type Result struct {
 	// rank is counted on that matrix, and the compressed weighted ALS of
 	// large data works from them.
 	ScaledFactors *svd.Factors
+	// diffMapRows are the rows of the difference matrix (species mode) the
+	// report's maps show, kept when the matrix itself is let go (mapRows).
+	diffMapRows map[int][]float64
 	// PlainSigma is the per-point noise of D in its own units as the rank
 	// of D itself estimates it (with weights; see plainSigma).
 	PlainSigma float64
@@ -366,6 +369,10 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 			r.Scaled = nil // not held further: EFA and purest variables use its factors
 		} else {
 			in = weightedRankInputs(r, svd.Scale(r.D, r.Weights.Row, r.Weights.Col), r.Weights.Row, r.Weights.Col, refRow, maxF)
+			// The baseline's projection overwrites this copy and
+			// rebuilds it from D: one scaled matrix instead of two.
+			in.reuse = true
+			in.rebuild = func(d *mat.Dense) { svd.ScaleInto(d, r.D, r.Weights.Row, r.Weights.Col) }
 		}
 		if rf == nil {
 			if rf, err = svd.Decompose(in.d, svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed}); err != nil {
@@ -410,11 +417,31 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 			ref = r.Experiments[0].RefRows[0]
 		}
 		din := rankInputs{opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooledSigma(s, r, dd), Alpha: s.Alpha, ReferenceRow: ref}, maxF: maxF, noise: pooledSigma(s, r, dd)}
-		if weighted(r) && r.DiffWeights != nil {
+		// The difference matrix's last use: the report keeps its map rows,
+		// and the experiments let go of it, so that it is no longer held
+		// beside D (1.2 GB at 50 000 × 3000) and may be worked in place.
+		// The maps show the experiments' own matrices, which the blind
+		// points' filling below reaches only when dd is the one of a
+		// single experiment (stack copies several).
+		weightedDiff := weighted(r) && r.DiffWeights != nil
+		if len(r.Experiments) > 1 {
+			r.diffMapRows = mapRows(r, dd)
+		}
+		if weightedDiff {
+			fillDifferenceBlind(r, dd)
+		}
+		if len(r.Experiments) == 1 {
+			r.diffMapRows = mapRows(r, dd)
+		}
+		for _, e := range r.Experiments {
+			e.Assembled.Difference = nil
+		}
+		if weightedDiff {
 			// The differences have their own noise (the reference's added):
 			// scaled with their own weights, their noise is white with σ = 1.
-			fillDifferenceBlind(r, dd)
-			din = weightedRankInputs(r, svd.Scale(dd, r.DiffWeights.Row, r.DiffWeights.Col), r.DiffWeights.Row, r.DiffWeights.Col, ref, maxF)
+			// Scaled and then projected in place: dd is not used again.
+			din = weightedRankInputs(r, svd.ScaleInto(dd, dd, r.DiffWeights.Row, r.DiffWeights.Col), r.DiffWeights.Row, r.DiffWeights.Col, ref, maxF)
+			din.reuse = true
 			r.DiffRank, r.DiffChemical, _ = chemicalRank(r, din.d, nil, r.BaselineOrder, din, false)
 		} else if r.BaselineOrder >= 0 {
 			r.DiffRank, r.DiffChemical, _ = chemicalRank(r, dd, nil, r.BaselineOrder, din, false)
@@ -436,6 +463,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	if rank.ReferencePatternFactor >= 0 {
 		r.Advice = append(r.Advice, fmt.Sprintf("factor %d is the reference spectrum's own noise (flat in time, white across the axis): one fixed pattern in every difference spectrum, not a reaction, so it is not counted; averaging several pre-reaction spectra as the reference (--pre N --reference mean:N) shrinks it by √N", rank.ReferencePatternFactor+1))
 	}
+	collectAfterFactorAnalysis(n, m)
 
 	k := rank.Estimate
 	if s.Components != "auto" {

@@ -57,6 +57,10 @@ func MapsCSV(axis, times []float64, experiment []int, mats []MapMatrix) []byte {
 	return b.Bytes()
 }
 
+// MapRows are the rows (of n times) that MapsCSV shows, so that a caller
+// can keep those rows of a large matrix and let the rest go.
+func MapRows(n int) []int { return pick(n, MapTimes) }
+
 // pick returns at most max indices of 0..n−1, evenly spaced, first and last included.
 func pick(n, max int) []int {
 	if n <= max {
