@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 
+	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -182,6 +183,15 @@ func lowerEnvelope(orig []float64, q *mat.Dense) []float64 {
 	// twice: this loop runs for every spectrum in every ALS iteration with a
 	// baseline, up to 200 times each.
 	raw := q.RawMatrix()
+	if b == 4 && raw.Stride == 4 {
+		return lowerEnvelope4(orig, raw.Data[:4*m])
+	}
+	return lowerEnvelopeAny(orig, raw, b)
+}
+
+// lowerEnvelopeAny is lowerEnvelope for any number b of basis columns.
+func lowerEnvelopeAny(orig []float64, raw blas64.General, b int) []float64 {
+	m := len(orig)
 	y := append([]float64(nil), orig...)
 	fit := make([]float64, m)
 	coef := make([]float64, b)
@@ -217,6 +227,53 @@ func lowerEnvelope(orig []float64, q *mat.Dense) []float64 {
 			break
 		}
 		coef, next = next, coef
+	}
+	return fit
+}
+
+// lowerEnvelope4 is lowerEnvelope for a cubic basis (b = 4, the highest order
+// --baseline auto tries), q holding its rows back to back. The coefficients are
+// kept in registers instead of slices; every sum runs in the same order as in
+// lowerEnvelope, so the results are bit-identical. On the 58 × 6950 ATR series
+// this loop was two thirds of the resolve's CPU time.
+func lowerEnvelope4(orig, q []float64) []float64 {
+	m := len(orig)
+	y := append([]float64(nil), orig...)
+	fit := make([]float64, m)
+	var c0, c1, c2, c3 float64
+	for i, yi := range y {
+		r := q[4*i : 4*i+4 : 4*i+4]
+		c0 += r[0] * yi
+		c1 += r[1] * yi
+		c2 += r[2] * yi
+		c3 += r[3] * yi
+	}
+	for it := 0; it < 200; it++ {
+		var n0, n1, n2, n3 float64
+		changed := false
+		for i := range y {
+			r := q[4*i : 4*i+4 : 4*i+4]
+			v := 0.0
+			v += r[0] * c0
+			v += r[1] * c1
+			v += r[2] * c2
+			v += r[3] * c3
+			fit[i] = v
+			yi := y[i]
+			if v < yi {
+				yi = v
+				y[i] = v
+				changed = true
+			}
+			n0 += r[0] * yi
+			n1 += r[1] * yi
+			n2 += r[2] * yi
+			n3 += r[3] * yi
+		}
+		if !changed {
+			break
+		}
+		c0, c1, c2, c3 = n0, n1, n2, n3
 	}
 	return fit
 }
