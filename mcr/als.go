@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 
+	"github.com/bandsolve/bandsolve/internal/product"
 	"gonum.org/v1/gonum/lapack/lapack64"
 	"gonum.org/v1/gonum/mat"
 )
@@ -43,14 +44,10 @@ type Dense struct{ D *mat.Dense }
 
 func (d Dense) Dims() (int, int) { return d.D.Dims() }
 func (d Dense) MulSpectra(s *mat.Dense) *mat.Dense {
-	var out mat.Dense
-	out.Mul(d.D, s)
-	return &out
+	return product.Mul(d.D, s)
 }
 func (d Dense) MulProfiles(c *mat.Dense) *mat.Dense {
-	var out mat.Dense
-	out.Mul(d.D.T(), c)
-	return &out
+	return product.MulT(d.D, c)
 }
 func (d Dense) FrobeniusSq() float64 { return frobSq(d.D) }
 

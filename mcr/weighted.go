@@ -3,6 +3,7 @@ package mcr
 import (
 	"math"
 
+	"github.com/bandsolve/bandsolve/internal/product"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -35,14 +36,10 @@ type WeightedDense struct {
 func (w WeightedDense) Dims() (int, int)                { return w.D.Dims() }
 func (w WeightedDense) Weights() ([]float64, []float64) { return w.Row, w.Col }
 func (w WeightedDense) MulSpectra(s *mat.Dense) *mat.Dense {
-	var out mat.Dense
-	out.Mul(w.D, scaleRows(s, w.Col, 1))
-	return &out
+	return product.Mul(w.D, scaleRows(s, w.Col, 1))
 }
 func (w WeightedDense) MulProfiles(c *mat.Dense) *mat.Dense {
-	var out mat.Dense
-	out.Mul(w.D.T(), scaleRows(c, w.Row, 1))
-	return &out
+	return product.MulT(w.D, scaleRows(c, w.Row, 1))
 }
 func (w WeightedDense) FrobeniusSq() float64 {
 	n, m := w.D.Dims()

@@ -1,0 +1,266 @@
+// Package product forms the matrix products the analysis makes over its data
+// with few columns on one side: D S and Dᵀ C for an n × m data matrix D and
+// k ≤ 8 columns, the products of alternating least squares (k components and
+// baseline terms) every iteration.
+//
+// Each entry is the same sum as gonum's Dgemm forms it, term by term in
+// ascending order of the inner index, each product rounded before it is added
+// and terms with a zero factor from D skipped, so the results are
+// bit-identical to mat.Dense.Mul (on amd64 without fused multiply–add, the Go
+// toolchain's default). What differs is the loop: gonum calls a vector kernel
+// once per entry of D with a vector of k entries, whose call costs more than
+// the work when k is small (one to ten components); here the k sums of a row
+// are kept in registers four at a time. The work is split into fixed blocks of
+// output rows, each computed by one goroutine in the same order, so the bytes
+// do not depend on GOMAXPROCS.
+package product
+
+import (
+	"runtime"
+	"sync"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// maxK is the most columns the loops here take: from about nine on, gonum's
+// vector kernel, which works on two entries at a time, is as fast or faster
+// (BenchmarkProducts2000x3001k9, k34), and Mul and MulT hand the product to it.
+const maxK = 8
+
+// minWork is the number of multiply–adds below which a product runs on the
+// calling goroutine (starting workers costs more).
+const minWork = 1 << 16
+
+// Mul returns a b for an n × m matrix a and an m × k matrix b (n × k).
+func Mul(a, b *mat.Dense) *mat.Dense {
+	n, m := a.Dims()
+	bm, k := b.Dims()
+	if bm != m {
+		panic(mat.ErrShape)
+	}
+	if k > maxK {
+		var out mat.Dense
+		out.Mul(a, b)
+		return &out
+	}
+	out := mat.NewDense(n, k, nil)
+	ra, rb, ro := a.RawMatrix(), b.RawMatrix(), out.RawMatrix()
+	// Blocks of the inner index small enough that their rows of b stay in
+	// cache while a block of rows of a passes over them; the sums carry on
+	// from one block to the next in the same order.
+	blk := max(64, min(m, (1<<12)/max(k, 1)))
+	InBlocks(n, n*m*k, 8, func(i0, i1 int) {
+		for l0 := 0; l0 < m; l0 += blk {
+			l1 := min(l0+blk, m)
+			i := i0
+			for ; i+1 < i1; i += 2 {
+				mulRows2(ro.Data[i*ro.Stride:i*ro.Stride+k], ro.Data[(i+1)*ro.Stride:(i+1)*ro.Stride+k],
+					ra.Data[i*ra.Stride+l0:i*ra.Stride+l1], ra.Data[(i+1)*ra.Stride+l0:(i+1)*ra.Stride+l1], rb.Data[l0*rb.Stride:], rb.Stride, k)
+			}
+			if i < i1 {
+				mulRow(ro.Data[i*ro.Stride:i*ro.Stride+k], ra.Data[i*ra.Stride+l0:i*ra.Stride+l1], rb.Data[l0*rb.Stride:], rb.Stride, k)
+			}
+		}
+	})
+	return out
+}
+
+// mulRow adds Σ_l x_l b_l to o (k), b_l the rows of b (stride st), l
+// ascending, terms with x_l = 0 skipped.
+func mulRow(o, x, b []float64, st, k int) {
+	c := 0
+	for ; c+4 <= k; c += 4 {
+		s0, s1, s2, s3 := o[c], o[c+1], o[c+2], o[c+3]
+		for l, v := range x {
+			if v != 0 {
+				r := b[l*st+c : l*st+c+4 : l*st+c+4]
+				s0 += v * r[0]
+				s1 += v * r[1]
+				s2 += v * r[2]
+				s3 += v * r[3]
+			}
+		}
+		o[c], o[c+1], o[c+2], o[c+3] = s0, s1, s2, s3
+	}
+	switch k - c {
+	case 3:
+		s0, s1, s2 := o[c], o[c+1], o[c+2]
+		for l, v := range x {
+			if v != 0 {
+				r := b[l*st+c : l*st+c+3 : l*st+c+3]
+				s0 += v * r[0]
+				s1 += v * r[1]
+				s2 += v * r[2]
+			}
+		}
+		o[c], o[c+1], o[c+2] = s0, s1, s2
+	case 2:
+		s0, s1 := o[c], o[c+1]
+		for l, v := range x {
+			if v != 0 {
+				r := b[l*st+c : l*st+c+2 : l*st+c+2]
+				s0 += v * r[0]
+				s1 += v * r[1]
+			}
+		}
+		o[c], o[c+1] = s0, s1
+	case 1:
+		s0 := o[c]
+		for l, v := range x {
+			if v != 0 {
+				s0 += v * b[l*st+c]
+			}
+		}
+		o[c] = s0
+	}
+}
+
+// mulRows2 is mulRow for two rows at once (x into o, y into p): twice as
+// many independent sums in flight, each still in its own order.
+func mulRows2(o, p, x, y, b []float64, st, k int) {
+	y = y[:len(x)]
+	for c := 0; c < k; c += 2 {
+		if c+1 == k {
+			s0, t0 := o[c], p[c]
+			for l, v := range x {
+				w := y[l]
+				r := b[l*st+c]
+				if v != 0 {
+					s0 += v * r
+				}
+				if w != 0 {
+					t0 += w * r
+				}
+			}
+			o[c], p[c] = s0, t0
+			break
+		}
+		s0, s1, t0, t1 := o[c], o[c+1], p[c], p[c+1]
+		for l, v := range x {
+			w := y[l]
+			r := b[l*st+c : l*st+c+2 : l*st+c+2]
+			if v != 0 {
+				s0 += v * r[0]
+				s1 += v * r[1]
+			}
+			if w != 0 {
+				t0 += w * r[0]
+				t1 += w * r[1]
+			}
+		}
+		o[c], o[c+1], p[c], p[c+1] = s0, s1, t0, t1
+	}
+}
+
+// MulT returns aᵀ b for an n × m matrix a and an n × k matrix b (m × k).
+func MulT(a, b *mat.Dense) *mat.Dense {
+	n, m := a.Dims()
+	bn, k := b.Dims()
+	if bn != n {
+		panic(mat.ErrShape)
+	}
+	if k > maxK {
+		var out mat.Dense
+		out.Mul(a.T(), b)
+		return &out
+	}
+	out := mat.NewDense(m, k, nil)
+	ra, rb, ro := a.RawMatrix(), b.RawMatrix(), out.RawMatrix()
+	// Blocks of output rows (columns of a) small enough that their k sums
+	// stay in cache while every row of a passes over them.
+	blk := max(16, min(512, (1<<15)/max(k, 1)))
+	InBlocks(m, n*m*k, blk, func(j0, j1 int) {
+		for j := j0; j < j1; j += blk {
+			je := min(j+blk, j1)
+			o := ro.Data[j*ro.Stride : (je-1)*ro.Stride+k]
+			for i := 0; i < n; i++ {
+				mulTRow(o, ro.Stride, ra.Data[i*ra.Stride+j:i*ra.Stride+je], rb.Data[i*rb.Stride:i*rb.Stride+k])
+			}
+		}
+	})
+	return out
+}
+
+// mulTRow adds x_j y to row j of o (stride st) for every j with x_j ≠ 0.
+func mulTRow(o []float64, st int, x, y []float64) {
+	k := len(y)
+	switch k {
+	case 1:
+		y0 := y[0]
+		for j, v := range x {
+			if v != 0 {
+				o[j*st] += v * y0
+			}
+		}
+	case 2:
+		y0, y1 := y[0], y[1]
+		for j, v := range x {
+			if v != 0 {
+				r := o[j*st : j*st+2 : j*st+2]
+				r[0] += v * y0
+				r[1] += v * y1
+			}
+		}
+	case 3:
+		y0, y1, y2 := y[0], y[1], y[2]
+		for j, v := range x {
+			if v != 0 {
+				r := o[j*st : j*st+3 : j*st+3]
+				r[0] += v * y0
+				r[1] += v * y1
+				r[2] += v * y2
+			}
+		}
+	case 4:
+		y0, y1, y2, y3 := y[0], y[1], y[2], y[3]
+		for j, v := range x {
+			if v != 0 {
+				r := o[j*st : j*st+4 : j*st+4]
+				r[0] += v * y0
+				r[1] += v * y1
+				r[2] += v * y2
+				r[3] += v * y3
+			}
+		}
+	default:
+		for j, v := range x {
+			if v != 0 {
+				r := o[j*st : j*st+k : j*st+k]
+				for c, w := range y {
+					r[c] += v * w
+				}
+			}
+		}
+	}
+}
+
+// inParallel runs f over [0, rows) in fixed blocks of a multiple of unit
+// rows, on up to GOMAXPROCS goroutines; work is the product's number of
+// multiply–adds. Each row is done by one call, so the result does not depend
+// on how many goroutines ran.
+func InBlocks(rows, work, unit int, f func(r0, r1 int)) {
+	w := runtime.GOMAXPROCS(0)
+	if w < 2 || work < minWork || rows < 2*unit {
+		f(0, rows)
+		return
+	}
+	nb := min(w*4, (rows+unit-1)/unit)
+	size := (rows + nb - 1) / nb
+	size = (size + unit - 1) / unit * unit
+	var wg sync.WaitGroup
+	next := make(chan int, nb)
+	for r := 0; r < rows; r += size {
+		next <- r
+	}
+	close(next)
+	for g := 0; g < w; g++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for r0 := range next {
+				f(r0, min(r0+size, rows))
+			}
+		}()
+	}
+	wg.Wait()
+}

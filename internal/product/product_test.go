@@ -1,0 +1,104 @@
+package product
+
+import (
+	"math"
+	"math/rand/v2"
+	"runtime"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// randomDense has entries of widely different sizes and signs, some exactly
+// zero (the terms gonum skips), so that any change in the order of the sums
+// or in the rounding of a term shows in the last bits.
+func randomDense(rng *rand.Rand, r, c int) *mat.Dense {
+	d := mat.NewDense(r, c, nil)
+	for i := 0; i < r; i++ {
+		for j := 0; j < c; j++ {
+			if rng.IntN(10) == 0 {
+				continue
+			}
+			d.Set(i, j, rng.NormFloat64()*math.Pow(10, float64(rng.IntN(9)-4)))
+		}
+	}
+	return d
+}
+
+func sameBits(t *testing.T, what string, got, want *mat.Dense) {
+	t.Helper()
+	r, c := want.Dims()
+	if gr, gc := got.Dims(); gr != r || gc != c {
+		t.Fatalf("%s: %d × %d, want %d × %d", what, gr, gc, r, c)
+	}
+	for i := 0; i < r; i++ {
+		for j := 0; j < c; j++ {
+			if math.Float64bits(got.At(i, j)) != math.Float64bits(want.At(i, j)) {
+				t.Fatalf("%s: entry (%d, %d) = %v, gonum's Dgemm gives %v", what, i, j, got.At(i, j), want.At(i, j))
+			}
+		}
+	}
+}
+
+// The reference is gonum's mat.Dense.Mul (its Dgemm): both products must give
+// it bit for bit, on shapes that go serial and parallel, with k from 1 to past
+// a multiple of four, on a sub-matrix view (stride wider than the columns),
+// at GOMAXPROCS 1 and 2.
+func TestProductsEqualGonumBitForBit(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 11))
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	for _, procs := range []int{1, 2, 3} {
+		runtime.GOMAXPROCS(procs)
+		for _, sh := range [][2]int{{3, 5}, {58, 695}, {300, 257}, {1000, 90}} {
+			n, m := sh[0], sh[1]
+			a := randomDense(rng, n, m+3).Slice(0, n, 1, m+1).(*mat.Dense)
+			for _, k := range []int{1, 2, 3, 4, 5, 7, 9, 34} {
+				b := randomDense(rng, m, k)
+				var want mat.Dense
+				want.Mul(a, b)
+				sameBits(t, "Mul", Mul(a, b), &want)
+				c := randomDense(rng, n, k)
+				var wantT mat.Dense
+				wantT.Mul(a.T(), c)
+				sameBits(t, "MulT", MulT(a, c), &wantT)
+			}
+		}
+	}
+}
+
+func benchShapes(b *testing.B, n, m, k int) {
+	rng := rand.New(rand.NewPCG(1, 2))
+	a, s, c := randomDense(rng, n, m), randomDense(rng, m, k), randomDense(rng, n, k)
+	b.Run("Mul", func(b *testing.B) {
+		for i := 0; i < b.N; i++ {
+			Mul(a, s)
+		}
+	})
+	b.Run("gonum-Mul", func(b *testing.B) {
+		for i := 0; i < b.N; i++ {
+			var o mat.Dense
+			o.Mul(a, s)
+		}
+	})
+	b.Run("MulT", func(b *testing.B) {
+		for i := 0; i < b.N; i++ {
+			MulT(a, c)
+		}
+	})
+	b.Run("gonum-MulT", func(b *testing.B) {
+		for i := 0; i < b.N; i++ {
+			var o mat.Dense
+			o.Mul(a.T(), c)
+		}
+	})
+}
+
+// The ATR series' shape with two components, the benchmark's with five
+// species and a cubic baseline, and the randomized SVD's sketch (24 + 10).
+func BenchmarkProducts58x6950k2(b *testing.B)    { benchShapes(b, 58, 6950, 2) }
+func BenchmarkProducts2000x3001k9(b *testing.B)  { benchShapes(b, 2000, 3001, 9) }
+func BenchmarkProducts2000x3001k34(b *testing.B) { benchShapes(b, 2000, 3001, 34) }
+
+func BenchmarkProducts58x6950k1(b *testing.B) { benchShapes(b, 58, 6950, 1) }
+func BenchmarkProducts58x6950k6(b *testing.B) { benchShapes(b, 58, 6950, 6) }
+func BenchmarkProducts58x6950k8(b *testing.B) { benchShapes(b, 58, 6950, 8) }
