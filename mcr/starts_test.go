@@ -155,3 +155,58 @@ func TestStartBetterByMoreThanOneNoiseVariance(t *testing.T) {
 		}
 	}
 }
+
+// With one component the random starts are one profile at different
+// scales (T is a number; the sign fix and the clipping leave |T| max(±u₁, 0)),
+// and ALS, whose spectra step undoes a common scale of the profiles (least
+// squares is equivariant under it; a definition), ends every start at the
+// same fit up to rounding: SearchStarts runs only the first. Checked on a
+// one-species decay with noise constant in counts, with closure and
+// without, against ALS run from each of the eight starts.
+func TestSearchStartsOneComponentStartsAreOneStart(t *testing.T) {
+	const n, m = 40, 120
+	clean := mat.NewDense(n, m, nil)
+	for i := 0; i < n; i++ {
+		c := math.Exp(-float64(i) / 15)
+		for j := 0; j < m; j++ {
+			u := (float64(j) - 60) / 12
+			clean.Set(i, j, 0.5*c*math.Exp(-u*u))
+		}
+	}
+	d := countsNoise(rand.New(rand.NewPCG(3, 9)), clean, 1e4, 1)
+	basis := leftBasis(t, d, 3)
+	c0 := randomStart(basis, 1, 1, 0)
+	for _, opt := range []Options{{}, {Mode: Species, Closure: true, Total: []float64{1}}} {
+		first, err := Resolve(Dense{D: d}, c0, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var fit0 mat.Dense
+		fit0.Mul(first.C, first.S.T())
+		for i := 1; i < 8; i++ {
+			ci := randomStart(basis, 1, 1, i)
+			a := ci.At(0, 0) / c0.At(0, 0)
+			if !(a > 0) {
+				t.Fatalf("start %d: scale %v against start 0, want a positive number", i, a)
+			}
+			for r := 0; r < n; r++ {
+				if diff := math.Abs(ci.At(r, 0) - a*c0.At(r, 0)); diff > 1e-12*math.Abs(ci.At(r, 0)) {
+					t.Fatalf("start %d, row %d: %v is not %v × start 0's %v", i, r, ci.At(r, 0), a, c0.At(r, 0))
+				}
+			}
+			res, err := Resolve(Dense{D: d}, ci, opt)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if math.Abs(res.ResidualSS-first.ResidualSS) > 1e-9*first.ResidualSS {
+				t.Errorf("closure %v, start %d: residual %v, start 0 %v", opt.Closure, i, res.ResidualSS, first.ResidualSS)
+			}
+			var fit mat.Dense
+			fit.Mul(res.C, res.S.T())
+			fit.Sub(&fit, &fit0)
+			if rel := mat.Norm(&fit, 2) / mat.Norm(&fit0, 2); rel > 1e-9 {
+				t.Errorf("closure %v, start %d: fit differs from start 0's by %.3g relative", opt.Closure, i, rel)
+			}
+		}
+	}
+}

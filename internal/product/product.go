@@ -222,12 +222,18 @@ func mulTRow(o []float64, st int, x, y []float64) {
 				r[3] += v * y3
 			}
 		}
-	default:
+	default: // 5 to 8: the first four from registers, the rest from y
+		y0, y1, y2, y3 := y[0], y[1], y[2], y[3]
+		rest := y[4:]
 		for j, v := range x {
 			if v != 0 {
 				r := o[j*st : j*st+k : j*st+k]
-				for c, w := range y {
-					r[c] += v * w
+				r[0] += v * y0
+				r[1] += v * y1
+				r[2] += v * y2
+				r[3] += v * y3
+				for c, w := range rest {
+					r[4+c] += v * w
 				}
 			}
 		}

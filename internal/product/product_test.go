@@ -102,3 +102,5 @@ func BenchmarkProducts2000x3001k34(b *testing.B) { benchShapes(b, 2000, 3001, 34
 func BenchmarkProducts58x6950k1(b *testing.B) { benchShapes(b, 58, 6950, 1) }
 func BenchmarkProducts58x6950k6(b *testing.B) { benchShapes(b, 58, 6950, 6) }
 func BenchmarkProducts58x6950k8(b *testing.B) { benchShapes(b, 58, 6950, 8) }
+
+func BenchmarkProducts58x6950k5(b *testing.B) { benchShapes(b, 58, 6950, 5) }
