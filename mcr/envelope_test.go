@@ -2,6 +2,7 @@ package mcr
 
 import (
 	"math"
+	"runtime"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -132,4 +133,35 @@ func BenchmarkLowerEnvelopeCubic(b *testing.B) {
 			lowerEnvelopeAny(y, q.RawMatrix(), 4)
 		}
 	})
+}
+
+// lowerSpectra shares the spectra out to workers: the same bits at
+// GOMAXPROCS 1 and 2 (the project's determinism rule).
+func TestLowerSpectraSameAtAnyGOMAXPROCS(t *testing.T) {
+	const m, k = 2000, 3
+	p := mat.NewDense(m, 4, nil)
+	s := mat.NewDense(m, k, nil)
+	for i := 0; i < m; i++ {
+		x := -1 + 2*float64(i)/float64(m-1)
+		p.SetRow(i, []float64{1, x, x * x, x * x * x})
+		for j := 0; j < k; j++ {
+			u := (x - 0.3*float64(j-1)) / 0.05
+			s.Set(i, j, 0.2+0.1*x*float64(j)+math.Exp(-u*u)+0.01*math.Sin(float64(7*i+j)))
+		}
+	}
+	q := orthonormalColumns(p)
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	var got [2]*mat.Dense
+	for w, procs := range []int{1, 2} {
+		runtime.GOMAXPROCS(procs)
+		got[w] = mat.DenseCopyOf(s)
+		lowerSpectra(got[w], k, []bool{true, true, true}, q)
+	}
+	for i := 0; i < m; i++ {
+		for j := 0; j < k; j++ {
+			if math.Float64bits(got[0].At(i, j)) != math.Float64bits(got[1].At(i, j)) {
+				t.Fatalf("(%d, %d): %v at GOMAXPROCS 1, %v at 2", i, j, got[0].At(i, j), got[1].At(i, j))
+			}
+		}
+	}
 }
