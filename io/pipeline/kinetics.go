@@ -21,6 +21,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -71,6 +72,8 @@ type Kinetics struct {
 	batch *dataBatch
 	// refits are swapCheck's refits from exchanged starts (refitMemo).
 	refits []*refitMemo
+	// profileFits are the fits of profiles made so far (profileFit).
+	profileFits []profileFit
 }
 
 // dataBatch is what the data fits of one batch share: the rows fitData
@@ -401,10 +404,12 @@ func newKinetics(r *Result, c *mat.Dense) (*Kinetics, error) {
 		return nil, usage("the resolution has %d components and the model %q only %d %s: say which components it describes with --map", k, s.Model, nModel, what)
 	}
 	obs := mat.DenseCopyOf(c)
-	cols, err := kinetics.AutoMap(sch, r.Times, obs, kn.options(kn.firstStart(r.Times)))
+	first := kn.firstStart(r.Times)
+	cols, fit, err := kinetics.AutoMapFit(sch, r.Times, obs, kn.options(first))
 	if err != nil {
 		return nil, fmt.Errorf("kinetics: %w", err)
 	}
+	kn.remember(obs, cols, [][]float64{first}, fit)
 	for j := 0; j < k; j++ {
 		kn.Components = append(kn.Components, j)
 	}
@@ -424,8 +429,10 @@ func (kn *Kinetics) tryC0(r *Result, c, obs *mat.Dense, seen []float64, note str
 	defC0, defCols := kn.C0, kn.Columns
 	defFit, _, errDef := kn.fitProfiles(r.Times, c, kn.starts(r.Times))
 	kn.C0 = seen
-	if cols, err := kinetics.AutoMap(kn.Scheme, r.Times, obs, kn.options(kn.firstStart(r.Times))); err == nil {
+	first := kn.firstStart(r.Times)
+	if cols, fit, err := kinetics.AutoMapFit(kn.Scheme, r.Times, obs, kn.options(first)); err == nil {
 		kn.Columns = cols
+		kn.remember(obs, cols, [][]float64{first}, fit)
 	}
 	newFit, _, errNew := kn.fitProfiles(r.Times, c, kn.starts(r.Times))
 	switch {
@@ -610,6 +617,9 @@ func (kn *Kinetics) observed(c *mat.Dense) *mat.Dense {
 // lowest sum of squares (the earliest start on ties).
 func (kn *Kinetics) fitProfiles(times []float64, c *mat.Dense, starts [][]float64) (*kinetics.FitResult, *mat.Dense, error) {
 	obs := kn.observed(c)
+	if fit := kn.recall(obs, starts); fit != nil {
+		return fit, obs, nil
+	}
 	var best *kinetics.FitResult
 	var firstErr error
 	for _, k0 := range starts {
@@ -627,7 +637,47 @@ func (kn *Kinetics) fitProfiles(times []float64, c *mat.Dense, starts [][]float6
 	if best == nil {
 		return nil, nil, fmt.Errorf("kinetic fit of the profiles: %w", firstErr)
 	}
+	kn.remember(obs, kn.Columns, starts, best)
 	return best, obs, nil
+}
+
+// profileFit is a fit of the profiles made before, with what determines
+// it: the observed columns (compared by value), the map, the initial
+// concentrations and the starting constants (the fit is deterministic).
+// The automatic map fits the assignment it chooses, and the soft
+// solution's fit then fits it again with the same options: one fit of 3
+// Levenberg–Marquardt runs (from the best of the grid of starts) saved, two
+// when the initial concentrations seen in the profiles are tried.
+type profileFit struct {
+	obs    *mat.Dense
+	cols   []int
+	c0     []float64
+	starts [][]float64
+	fit    *kinetics.FitResult
+}
+
+func (kn *Kinetics) remember(obs *mat.Dense, cols []int, starts [][]float64, fit *kinetics.FitResult) {
+	if fit == nil {
+		return
+	}
+	kn.profileFits = append(kn.profileFits, profileFit{obs: mat.DenseCopyOf(obs), cols: append([]int(nil), cols...), c0: append([]float64(nil), kn.C0...), starts: starts, fit: fit})
+}
+
+// recall returns the fit remembered for these observed columns, starts and
+// the present map and initial concentrations, or nil.
+func (kn *Kinetics) recall(obs *mat.Dense, starts [][]float64) *kinetics.FitResult {
+	for _, p := range kn.profileFits {
+		if slices.Equal(p.cols, kn.Columns) && slices.Equal(p.c0, kn.C0) && len(p.starts) == len(starts) && mat.Equal(p.obs, obs) {
+			same := true
+			for i := range starts {
+				same = same && slices.Equal(p.starts[i], starts[i])
+			}
+			if same {
+				return p.fit
+			}
+		}
+	}
+	return nil
 }
 
 // warm returns options that start from an earlier fit (its rate constants

@@ -681,8 +681,16 @@ func halfLives(s *Scheme, k, c0 []float64, c *mat.Dense) ([]float64, []string) {
 // have arbitrary scale), and only the autoMapFits best-scoring ones get a
 // full fit. Five species give 120 assignments but 4 fits.
 func AutoMap(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions) ([]int, error) {
+	cols, _, err := AutoMapFit(s, times, observed, opt)
+	return cols, err
+}
+
+// AutoMapFit is AutoMap that also returns the fit of the assignment chosen,
+// FitProfiles(s, times, observed, cols, opt), so that a caller about to fit
+// that assignment with the same options need not fit it again.
+func AutoMapFit(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions) ([]int, *FitResult, error) {
 	if s == nil || observed == nil {
-		return nil, errors.New("kinetics: auto map: missing scheme or data")
+		return nil, nil, errors.New("kinetics: auto map: missing scheme or data")
 	}
 	n, q := observed.Dims()
 	nModel := len(s.Species)
@@ -690,13 +698,13 @@ func AutoMap(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions) ([
 		nModel = len(s.Steps)
 	}
 	if q > nModel {
-		return nil, fmt.Errorf("kinetics: auto map: %d observed columns for %d model columns", q, nModel)
+		return nil, nil, fmt.Errorf("kinetics: auto map: %d observed columns for %d model columns", q, nModel)
 	}
 	count := 1
 	for i := 0; i < q; i++ {
 		count *= nModel - i
 		if count > 40320 {
-			return nil, fmt.Errorf("kinetics: auto map: more than 40320 assignments; give the map explicitly")
+			return nil, nil, fmt.Errorf("kinetics: auto map: more than 40320 assignments; give the map explicitly")
 		}
 	}
 	cos := shapeScores(s, times, observed, opt, n, q, nModel)
@@ -726,6 +734,7 @@ func AutoMap(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions) ([
 	// Stable: ties keep enumeration order, so the choice is deterministic.
 	sort.SliceStable(cands, func(a, b int) bool { return cands[a].score > cands[b].score })
 	var best []int
+	var bestFit *FitResult
 	bestRMS := math.Inf(1)
 	var firstErr error
 	for i := 0; i < len(cands) && i < autoMapFits; i++ {
@@ -737,13 +746,13 @@ func AutoMap(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions) ([
 			continue
 		}
 		if best == nil || res.RMS < bestRMS*(1-1e-9) {
-			best, bestRMS = cands[i].cols, res.RMS
+			best, bestFit, bestRMS = cands[i].cols, res, res.RMS
 		}
 	}
 	if best == nil {
-		return nil, fmt.Errorf("kinetics: auto map: no assignment could be fitted: %w", firstErr)
+		return nil, nil, fmt.Errorf("kinetics: auto map: no assignment could be fitted: %w", firstErr)
 	}
-	return best, nil
+	return best, bestFit, nil
 }
 
 // autoMapFits is how many of the best-scoring assignments AutoMap fits.

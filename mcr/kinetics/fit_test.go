@@ -165,6 +165,37 @@ func TestFitProfilesAmplitudesAndAutoMap(t *testing.T) {
 	}
 }
 
+// TestAutoMapFitIsTheFit: AutoMapFit returns, with the assignment, the fit
+// FitProfiles makes of it with the same options (callers reuse it instead
+// of fitting again), here the simulated assignment of the test above; the
+// fit is deterministic, so the numbers must be the same bit for bit.
+func TestAutoMapFitIsTheFit(t *testing.T) {
+	s := mustParse(t, "A -> B -> C")
+	times := linspace(0, 60, 50)
+	sim, err := s.Simulate([]float64{0.25, 0.08}, []float64{1, 0, 0}, times, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	obs := noisy(t, sim.C, []int{2, 1}, []float64{0.7, 2.5}, 0.004, 7)
+	opt := FitOptions{Amplitudes: true}
+	cols, fit, err := AutoMapFit(s, times, obs, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	again, err := FitProfiles(s, times, obs, cols, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for j := range again.K {
+		if fit.K[j] != again.K[j] || fit.KStdErr[j] != again.KStdErr[j] {
+			t.Errorf("k%d: AutoMapFit %v ± %v, FitProfiles %v ± %v", j+1, fit.K[j], fit.KStdErr[j], again.K[j], again.KStdErr[j])
+		}
+	}
+	if fit.SSR != again.SSR {
+		t.Errorf("residual sum of squares %v from AutoMapFit, %v from FitProfiles", fit.SSR, again.SSR)
+	}
+}
+
 func TestFitSecondOrderScheme(t *testing.T) {
 	// Mass action integrated by DOPRI5 inside the fit; several seeds within 3 se.
 	s := mustParse(t, "A + B -> C; C -> D")
