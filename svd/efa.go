@@ -78,18 +78,9 @@ func EFAFrom(d *mat.Dense, f *Factors, maxFactors int) (*EFAResult, error) {
 	if vm, _ := f.V.Dims(); vm != m {
 		return nil, fmt.Errorf("svd: EFA: factors have %d columns, the data %d", vm, m)
 	}
-	exact := f.Full() && float64(n)*float64(m)*float64(c) <= exactWork && efaCost(n, c) <= efaExactBudget
-	p := len(f.S)
-	if !exact {
-		p = min(p, max(2*nf, nf+20))
-	}
-	if p < nf {
-		return nil, fmt.Errorf("svd: EFA: %d factors given, %d curves asked", len(f.S), nf)
-	}
-	fac := f
-	if p < len(f.S) {
-		fac = truncate(f.U, f.S, f.V, p)
-		fac.Method, fac.FrobeniusSq = f.Method, f.FrobeniusSq
+	fac, exact, err := efaFactors(f, n, m, c, nf)
+	if err != nil {
+		return nil, err
 	}
 	return efaFromFactors(d, fac, nf, exact)
 }
@@ -114,20 +105,31 @@ func EFAOfFactors(f *Factors, maxFactors int) (*EFAResult, error) {
 		nf = min(c, 8)
 	}
 	nf = min(nf, c)
-	exact := f.Full() && float64(n)*float64(m)*float64(c) <= exactWork && efaCost(n, c) <= efaExactBudget
+	fac, exact, err := efaFactors(f, n, m, c, nf)
+	if err != nil {
+		return nil, err
+	}
+	return efaSweeps(fac, n, m, nf, exact)
+}
+
+// efaFactors decides whether the sweeps can afford every factor (exact)
+// and otherwise keeps the leading max(2nf, nf+20) factors, shared by EFA
+// of a held matrix and of factors alone.
+func efaFactors(f *Factors, n, m, c, nf int) (fac *Factors, exact bool, err error) {
+	exact = f.Full() && float64(n)*float64(m)*float64(c) <= exactWork && efaCost(n, c) <= efaExactBudget
 	p := len(f.S)
 	if !exact {
 		p = min(p, max(2*nf, nf+20))
 	}
 	if p < nf {
-		return nil, fmt.Errorf("svd: EFA: %d factors given, %d curves asked", len(f.S), nf)
+		return nil, false, fmt.Errorf("svd: EFA: %d factors given, %d curves asked", len(f.S), nf)
 	}
-	fac := f
+	fac = f
 	if p < len(f.S) {
 		fac = truncate(f.U, f.S, f.V, p)
 		fac.Method, fac.FrobeniusSq = f.Method, f.FrobeniusSq
 	}
-	return efaSweeps(fac, n, m, nf, exact)
+	return fac, exact, nil
 }
 
 // efaArgs checks EFA's arguments and returns the sizes and the number of
