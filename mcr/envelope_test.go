@@ -28,31 +28,7 @@ func TestLowerEnvelopeIsIteratedClippedPolynomialFit(t *testing.T) {
 	}
 	got := lowerEnvelope(y, orthonormalColumns(p))
 
-	var qr mat.QR
-	qr.Factorize(p)
-	cur := mat.NewVecDense(m, append([]float64(nil), y...))
-	var coef, fit mat.VecDense
-	for it := 0; it < 200; it++ {
-		if err := qr.SolveVecTo(&coef, false, cur); err != nil {
-			t.Fatal(err)
-		}
-		fit.MulVec(p, &coef)
-		changed := false
-		for i := 0; i < m; i++ {
-			if fit.AtVec(i) < cur.AtVec(i) {
-				cur.SetVec(i, fit.AtVec(i))
-				changed = true
-			}
-		}
-		if !changed {
-			break
-		}
-	}
-	worst := 0.0
-	for i := 0; i < m; i++ {
-		worst = math.Max(worst, math.Abs(got[i]-fit.AtVec(i)))
-	}
-	if worst > 1e-9 {
+	if worst := clippedFitGap(t, p, y, got); worst > 1e-9 {
 		t.Errorf("envelope differs from the iterated clipped least-squares fit by %.3g", worst)
 	}
 }
@@ -82,34 +58,44 @@ func TestLowerEnvelopeCubicMatchesGeneralLoop(t *testing.T) {
 			}
 		}
 		// The definition: iterated clipped least-squares fit on the monomials.
-		var qr mat.QR
-		qr.Factorize(p)
-		cur := mat.NewVecDense(m, append([]float64(nil), y...))
-		var coef, fit mat.VecDense
-		for it := 0; it < 200; it++ {
-			if err := qr.SolveVecTo(&coef, false, cur); err != nil {
-				t.Fatal(err)
-			}
-			fit.MulVec(p, &coef)
-			changed := false
-			for i := 0; i < m; i++ {
-				if fit.AtVec(i) < cur.AtVec(i) {
-					cur.SetVec(i, fit.AtVec(i))
-					changed = true
-				}
-			}
-			if !changed {
-				break
-			}
-		}
-		worst := 0.0
-		for i := 0; i < m; i++ {
-			worst = math.Max(worst, math.Abs(got[i]-fit.AtVec(i)))
-		}
-		if worst > 1e-9 {
+		if worst := clippedFitGap(t, p, y, got); worst > 1e-9 {
 			t.Errorf("m = %d: envelope differs from the iterated clipped least-squares fit by %.3g", m, worst)
 		}
 	}
+}
+
+// clippedFitGap runs the definition (Lieber & Mahadevan-Jansen 2003): a
+// least-squares fit of y on the columns of p by gonum's QR, y replaced by
+// the fit wherever the fit lies below it, at most 200 times; it returns the
+// largest gap between got and that fit.
+func clippedFitGap(t *testing.T, p *mat.Dense, y, got []float64) float64 {
+	t.Helper()
+	m := len(y)
+	var qr mat.QR
+	qr.Factorize(p)
+	cur := mat.NewVecDense(m, append([]float64(nil), y...))
+	var coef, fit mat.VecDense
+	for it := 0; it < 200; it++ {
+		if err := qr.SolveVecTo(&coef, false, cur); err != nil {
+			t.Fatal(err)
+		}
+		fit.MulVec(p, &coef)
+		changed := false
+		for i := 0; i < m; i++ {
+			if fit.AtVec(i) < cur.AtVec(i) {
+				cur.SetVec(i, fit.AtVec(i))
+				changed = true
+			}
+		}
+		if !changed {
+			break
+		}
+	}
+	worst := 0.0
+	for i := 0; i < m; i++ {
+		worst = math.Max(worst, math.Abs(got[i]-fit.AtVec(i)))
+	}
+	return worst
 }
 
 func BenchmarkLowerEnvelopeCubic(b *testing.B) {
