@@ -658,14 +658,7 @@ func (p *bandProblem) amplitude(t *mat.Dense, j int, dir float64) (float64, floa
 		var g, h mat.Dense
 		g.Mul(x.T(), y)
 		h.Mul(u.T(), v)
-		r, c := g.Dims()
-		s := 0.0
-		for i := 0; i < r; i++ {
-			for l := 0; l < c; l++ {
-				s += g.At(i, l) * h.At(i, l)
-			}
-		}
-		return s
+		return traceProd(&g, &h)
 	}
 	csD := inner(p.c, &am, p.s, b) + inner(p.c, ap, p.s, &bm)
 	dd := p.rise(a, b, nil, nil) // ‖Δ‖²
