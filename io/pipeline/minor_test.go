@@ -153,6 +153,16 @@ func withMinorSpecies(s *synth, amount func(a float64, i int) float64) float64 {
 	return mat.Norm(c, 2) * mat.Norm(sp, 2) / mat.Norm(&all, 2)
 }
 
+// minorSpeciesCases are the two ways the minor species' amount x runs over the 121 spectra
+// of makeBateman's A -> B, given A's share a and the spectrum's index i.
+var minorSpeciesCases = []struct {
+	name   string
+	amount func(a float64, i int) float64
+}{
+	{"transient", func(a float64, _ int) float64 { return 0.04 * 4 * a * (1 - a) }},
+	{"slowly formed", func(a float64, i int) float64 { return 0.02 * (1 - a) * (1 - a) * float64(i) / 121 }},
+}
+
 // A genuine minor species, 0.8–1 % of the signal, with a band of its own, beside A -> B
 // (Bateman 1910), noise constant in counts: the default run must count three species, the
 // summary list it under minor_species with the refit's reasons, and the spectra and
@@ -163,14 +173,7 @@ func withMinorSpecies(s *synth, amount func(a float64, i int) float64) float64 {
 // alone let a component this small carry part of A's and B's bands at the same fit:
 // without mcr.Options.LeastOthers C's spectrum came out at cosines 0.49 and 0.02.)
 func TestMinorSpeciesIsCounted(t *testing.T) {
-	n := 121.0
-	for _, c := range []struct {
-		name   string
-		amount func(a float64, i int) float64
-	}{
-		{"transient", func(a float64, _ int) float64 { return 0.04 * 4 * a * (1 - a) }},
-		{"slowly formed", func(a float64, i int) float64 { return 0.02 * (1 - a) * (1 - a) * float64(i) / n }},
-	} {
+	for _, c := range minorSpeciesCases {
 		s := makeBateman(t, 6e-3, 2e-3, 0, 1, 2)
 		share := withMinorSpecies(s, c.amount)
 		if share < 0.006 || share > 0.012 {
@@ -238,14 +241,7 @@ func runDifferenceCase(t *testing.T, s *synth) *Result {
 // rotationally ambiguous in reactions mode). A
 // band shift of 2 points on A -> B alone stays one reaction.
 func TestMinorSpeciesInDifferences(t *testing.T) {
-	n := 121.0
-	for _, c := range []struct {
-		name   string
-		amount func(a float64, i int) float64
-	}{
-		{"transient", func(a float64, _ int) float64 { return 0.04 * 4 * a * (1 - a) }},
-		{"slowly formed", func(a float64, i int) float64 { return 0.02 * (1 - a) * (1 - a) * float64(i) / n }},
-	} {
+	for _, c := range minorSpeciesCases {
 		s := makeBateman(t, 6e-3, 2e-3, 0, 1, 2)
 		withMinorSpecies(s, c.amount)
 		countsNoise(s, 20, 9, nil)
