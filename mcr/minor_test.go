@@ -86,15 +86,20 @@ func minorFitAndFactors(t *testing.T, data WeightedDense, q int) (*Result, Optio
 	return fit, opt, us
 }
 
-// minorRefit tests the leading factor of the weighted residual of a two-component fit.
-func minorRefit(t *testing.T, d *mat.Dense, col []float64) *MinorTest {
-	t.Helper()
+// unitRows is d weighted by channel only: every spectrum's row weight 1.
+func unitRows(d *mat.Dense, col []float64) WeightedDense {
 	n, _ := d.Dims()
 	row := make([]float64, n)
 	for i := range row {
 		row[i] = 1
 	}
-	data := WeightedDense{D: d, Row: row, Col: col}
+	return WeightedDense{D: d, Row: row, Col: col}
+}
+
+// minorRefit tests the leading factor of the weighted residual of a two-component fit.
+func minorRefit(t *testing.T, d *mat.Dense, col []float64) *MinorTest {
+	t.Helper()
+	data := unitRows(d, col)
 	fit, opt, us := minorFitAndFactors(t, data, 1)
 	mt, err := TestMinorFactor(data, fit, opt, us[0], 0.05, 0)
 	if err != nil {
@@ -293,12 +298,7 @@ func TestTakeOthersFindsTheLowerEdge(t *testing.T) {
 // reaches, stopping no later than one noise edge above the first fit (the stop rule).
 func TestMinorFactorsShareTheRefit(t *testing.T) {
 	d, col, _ := minorCase(3, 0, 0.04)
-	n, _ := d.Dims()
-	row := make([]float64, n)
-	for i := range row {
-		row[i] = 1
-	}
-	data := WeightedDense{D: d, Row: row, Col: col}
+	data := unitRows(d, col)
 	fit, opt, us := minorFitAndFactors(t, data, 2)
 	ts, errs := TestMinorFactors(data, fit, opt, us, 0.05, 0)
 	for i, u := range us {
