@@ -275,6 +275,14 @@ func medianInPlace(c []float64) float64 {
 	// of the two middle ones), in linear time; the noise model takes one
 	// median per channel of every spectrum, where sorting cost more than
 	// parsing the file.
+	if len(c) >= radixMin {
+		if hi, lo, ok := radixOrder(c, h, len(c)%2 == 0); ok {
+			if len(c)%2 == 1 {
+				return hi
+			}
+			return (lo + hi) / 2
+		}
+	}
 	hi := selectKth(c, h)
 	if len(c)%2 == 1 {
 		return hi

@@ -243,18 +243,21 @@ func pooledRunningMAD(d timeDiffs) []float64 {
 	own := make([]float64, m) // per-channel median, for channels with plenty
 	cnt := make([]int, m)
 	bl := diffBlock(per)
-	buf := make([]float64, bl*per)
-	for j0 := 0; j0 < m; j0 += bl {
-		j1 := min(m, j0+bl)
-		d.fill(j0, j1, buf, cnt[j0:j1])
-		for c := 0; c < j1-j0; c++ {
-			if k := cnt[j0+c]; k > 0 {
-				// The median is a value of the sample, whatever its order:
-				// select in place in the buffer the block owns.
-				own[j0+c] = madScale * medianInPlace(buf[c*per:c*per+k])
+	// Blocks of channels on the workers: each channel's median is its own.
+	inBlocks((m+bl-1)/bl, 1, func(b0, b1 int) {
+		buf := make([]float64, bl*per)
+		for b := b0; b < b1; b++ {
+			j0, j1 := b*bl, min(m, (b+1)*bl)
+			d.fill(j0, j1, buf, cnt[j0:j1])
+			for c := 0; c < j1-j0; c++ {
+				if k := cnt[j0+c]; k > 0 {
+					// The median is a value of the sample, whatever its
+					// order: select in place in the buffer the block owns.
+					own[j0+c] = madScale * medianInPlace(buf[c*per:c*per+k])
+				}
 			}
 		}
-	}
+	})
 	total := 0
 	for _, k := range cnt {
 		total += k
@@ -481,46 +484,56 @@ func interpAt(d *mat.Dense, j int, obs []int, i int, times []float64) float64 {
 // set of weights per variance function, all in the same two passes over the
 // points; each fit's sums run in the same order as a fit of its own.
 func fitWeights(n, m int, blind *Blind, variances ...func(i int, out []float64)) []*Weights {
+	return fitWeightsJoint(n, m, len(variances), blind, func(i int, out []float64) {
+		for f, variance := range variances {
+			variance(i, out[f*m:(f+1)*m])
+		}
+	})
+}
+
+// fitWeightsJoint is fitWeights for nf variance functions computed together:
+// variances(i, out) writes function f's variances of row i to out[f·m:(f+1)·m]
+// (work they share, such as σ/I, is then done once). It is called from
+// several goroutines at once, for different rows.
+func fitWeightsJoint(n, m, nf int, blind *Blind, variances func(i int, out []float64)) []*Weights {
 	type sums struct {
 		rowSum, colSum []float64
 		rowCnt, colCnt []int
 		grand          float64
 		cnt            int
-		buf            []float64
 	}
-	acc := make([]sums, len(variances))
+	acc := make([]sums, nf)
 	for f := range acc {
-		acc[f] = sums{rowSum: make([]float64, n), colSum: make([]float64, m), rowCnt: make([]int, n), colCnt: make([]int, m), buf: make([]float64, m)}
+		acc[f] = sums{rowSum: make([]float64, n), colSum: make([]float64, m), rowCnt: make([]int, n), colCnt: make([]int, m)}
 	}
-	for i := 0; i < n; i++ {
-		bl := blind.row(i)
-		for f, variance := range variances {
+	// The logarithms on the workers, a row at a time (NaN marks a point left
+	// out: −log v of a positive finite v is never NaN); the sums here, in
+	// the order of a loop over rows then channels.
+	mapRowsInOrder(n, nf*m, func(i int, out []float64) {
+		variances(i, out)
+		for f := 0; f < nf; f++ {
+			observedOnly(out[f*m:(f+1)*m], blind.row(i), true)
+		}
+	}, func(i int, out []float64) {
+		for f := range acc {
 			a := &acc[f]
-			variance(i, a.buf)
-			next := 0 // bl[next] is the first blind channel not yet passed
-			for j, v := range a.buf {
-				if next < len(bl) && bl[next] <= j {
-					for next < len(bl) && bl[next] < j {
-						next++
-					}
-					if next < len(bl) && bl[next] == j {
-						continue
-					}
-				}
-				if !(v > 0) || math.IsInf(v, 0) {
+			colSum, colCnt := a.colSum[:m], a.colCnt[:m]
+			rs, rc, g, c := 0.0, 0, a.grand, a.cnt
+			for j, l := range out[f*m : (f+1)*m] {
+				if l != l {
 					continue
 				}
-				l := -math.Log(v)
-				a.rowSum[i] += l
-				a.rowCnt[i]++
-				a.colSum[j] += l
-				a.colCnt[j]++
-				a.grand += l
-				a.cnt++
+				rs += l
+				rc++
+				colSum[j] += l
+				colCnt[j]++
+				g += l
+				c++
 			}
+			a.rowSum[i], a.rowCnt[i], a.grand, a.cnt = rs, rc, g, c
 		}
-	}
-	out := make([]*Weights, len(variances))
+	})
+	out := make([]*Weights, nf)
 	for f := range acc {
 		a := &acc[f]
 		if a.cnt == 0 {
@@ -544,32 +557,36 @@ func fitWeights(n, m int, blind *Blind, variances ...func(i int, out []float64))
 		a.grand, a.cnt = 0, 0 // the scale pass's sum and count
 	}
 	// Scale: mean of a_i b_j var_ij over the observed points = 1.
-	for i := 0; i < n; i++ {
-		bl := blind.row(i)
-		for f, variance := range variances {
-			w, a := out[f], &acc[f]
+	mapRowsInOrder(n, nf*m, func(i int, buf []float64) {
+		variances(i, buf)
+		for f, w := range out {
 			if w == nil {
 				continue
 			}
-			variance(i, a.buf)
-			next := 0
-			for j, v := range a.buf {
-				if next < len(bl) && bl[next] <= j {
-					for next < len(bl) && bl[next] < j {
-						next++
-					}
-					if next < len(bl) && bl[next] == j {
-						continue
-					}
-				}
-				if !(v > 0) || math.IsInf(v, 0) {
-					continue
-				}
-				a.grand += w.Row[i] * w.Col[j] * v
-				a.cnt++
+			o := buf[f*m : (f+1)*m]
+			ai := w.Row[i]
+			col := w.Col[:m]
+			observedOnly(o, blind.row(i), false)
+			for j, v := range o {
+				o[j] = ai * col[j] * v // NaN stays NaN
 			}
 		}
-	}
+	}, func(i int, buf []float64) {
+		for f, w := range out {
+			if w == nil {
+				continue
+			}
+			a := &acc[f]
+			g, c := a.grand, a.cnt
+			for _, t := range buf[f*m : (f+1)*m] {
+				if t == t {
+					g += t
+					c++
+				}
+			}
+			a.grand, a.cnt = g, c
+		}
+	})
 	for f, w := range out {
 		if w == nil {
 			continue
@@ -584,6 +601,30 @@ func fitWeights(n, m int, blind *Blind, variances ...func(i int, out []float64))
 		floorWeights(w.Col)
 	}
 	return out
+}
+
+// observedOnly replaces the variances in o that are left out of a fit (the
+// blind channels bl, ascending, and values that are not positive and finite)
+// by NaN, and the others by −log v when negLog.
+func observedOnly(o []float64, bl []int, negLog bool) {
+	next := 0 // bl[next] is the first blind channel not yet passed
+	for j, v := range o {
+		if next < len(bl) && bl[next] <= j {
+			for next < len(bl) && bl[next] < j {
+				next++
+			}
+			if next < len(bl) && bl[next] == j {
+				o[j] = math.NaN()
+				continue
+			}
+		}
+		switch {
+		case !(v > 0) || math.IsInf(v, 0):
+			o[j] = math.NaN()
+		case negLog:
+			o[j] = -math.Log(v)
+		}
+	}
 }
 
 // row returns the blind channels of spectrum i (nil when none, or when b is
@@ -788,15 +829,26 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 			o[j] = sq(sigI[j]/row[j]) / ln10sq
 		}
 	}
-	// Both sets of weights in the same passes; the points the difference
-	// weights overweight become blind, and then both are fitted again.
-	vars := []func(int, []float64){diffVar}
+	// Both sets of weights in the same passes, σ_I/I taken once for both;
+	// the points the difference weights overweight become blind, and then
+	// both are fitted again.
+	nf := 1
+	vars := diffVar
 	if opt.Blank != nil {
-		vars = append(vars, absVar)
+		nf = 2
+		vars = func(i int, o []float64) {
+			row := s.Values.RawRowView(i)
+			d, a := o[:m], o[m:2*m]
+			for j, x := range row[:m] {
+				r := sq(sigI[j] / x)
+				d[j] = (r + refVar[j]) / ln10sq // diffVar's value
+				a[j] = r / ln10sq               // absVar's value
+			}
+		}
 	}
-	w := fitWeights(n, m, blind, vars...)
+	w := fitWeightsJoint(n, m, nf, blind, vars)
 	if w[0] != nil && blind.addOverweighted(w[0], absVar) {
-		w = fitWeights(n, m, blind, vars...)
+		w = fitWeightsJoint(n, m, nf, blind, vars)
 	}
 	out.DifferenceWeights = w[0]
 	if opt.Blank != nil {
@@ -953,28 +1005,34 @@ const overweighted = 100
 // addOverweighted marks the points whose variance (from variance) exceeds
 // overweighted/(a_i b_j) as blind, and says whether there were any.
 func (b *Blind) addOverweighted(w *Weights, variance func(i int, out []float64)) bool {
-	m := len(w.Col)
-	buf := make([]float64, m)
-	var added bool
-	for i := range w.Row {
-		variance(i, buf)
-		// Membership is tested against the row's blind channels as they
-		// were (ascending); the points added go after them.
-		bl := b.Rows[i]
-		next := 0
-		for j, v := range buf {
-			for next < len(bl) && bl[next] < j {
-				next++
+	n, m := len(w.Row), len(w.Col)
+	added := make([]int, n) // per row, so that rows can be done in parallel
+	eachRowBlock(n, m, func(r0, r1 int) {
+		buf := make([]float64, m)
+		for i := r0; i < r1; i++ {
+			variance(i, buf)
+			// Membership is tested against the row's blind channels as they
+			// were (ascending); the points added go after them.
+			bl := b.Rows[i]
+			next := 0
+			for j, v := range buf {
+				for next < len(bl) && bl[next] < j {
+					next++
+				}
+				if w.Row[i]*w.Col[j]*v > overweighted && !(next < len(bl) && bl[next] == j) {
+					b.Rows[i] = append(b.Rows[i], j)
+					added[i]++
+				}
 			}
-			if w.Row[i]*w.Col[j]*v > overweighted && !(next < len(bl) && bl[next] == j) {
-				b.Rows[i] = append(b.Rows[i], j)
-				b.Count++
-				added = true
+			if len(b.Rows[i]) > len(bl) {
+				sort.Ints(b.Rows[i])
 			}
 		}
-		if len(b.Rows[i]) > len(bl) {
-			sort.Ints(b.Rows[i])
-		}
+	})
+	total := 0
+	for _, k := range added {
+		total += k
 	}
-	return added
+	b.Count += total
+	return total > 0
 }

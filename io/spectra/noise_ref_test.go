@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"runtime"
+	"slices"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -379,6 +381,70 @@ func TestBlindAdditionsByDefinition(t *testing.T) {
 		}
 		if b.Count != count || added != any {
 			t.Errorf("%s: count %d (added %v) after addOverweighted, want %d (%v)", c.name, b.Count, added, count, any)
+		}
+	}
+}
+
+// The noise model's parallel parts (channels in blocks for the medians, rows
+// in blocks for the weights' logarithms and the overweighted points) give
+// the direct forms' values bit for bit at GOMAXPROCS 1, 2 and 3, on a case
+// large enough to be cut into several blocks, with blind points.
+func TestNoiseModelSameAtAnyGOMAXPROCS(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 4))
+	n, m := 300, 1000
+	s := beams(rng, n, m, 5, 1, 0)
+	w := mat.DenseCopyOf(s.Values)
+	for k := 0; k < n*m/200; k++ {
+		w.Set(rng.IntN(n), rng.IntN(m), -1)
+	}
+	if rowBlock(m) >= n || diffBlock(n-2) >= m {
+		t.Fatalf("case too small for several blocks: %d rows, %d channels per block", rowBlock(m), diffBlock(n-2))
+	}
+	blind := findBlind(w, nil)
+	wantSig, _, _ := refChannelNoise(w, 0, blind)
+	beam := func(i int, o []float64) {
+		row := w.RawRowView(i)
+		for j := range o {
+			o[j] = sq(wantSig[j]/row[j]) / 5.3
+		}
+	}
+	flat := func(i int, o []float64) {
+		for j := range o {
+			o[j] = wantSig[j] * wantSig[j] * float64(1+i%3)
+		}
+	}
+	want := []*Weights{refFitWeights(n, m, beam, blind), refFitWeights(n, m, flat, blind)}
+	var wantOver *Blind
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	for _, procs := range []int{1, 2, 3} {
+		runtime.GOMAXPROCS(procs)
+		sig, _, _ := channelNoise(w, 0, blind)
+		if !slices.Equal(sig, wantSig) {
+			t.Fatalf("GOMAXPROCS %d: σ per channel differs from the direct form", procs)
+		}
+		got := fitWeights(n, m, blind, beam, flat)
+		for f := range want {
+			if !slices.Equal(got[f].Row, want[f].Row) || !slices.Equal(got[f].Col, want[f].Col) {
+				t.Fatalf("GOMAXPROCS %d, model %d: weights differ from the direct form", procs, f)
+			}
+		}
+		b := &Blind{Rows: make([][]int, n), Count: blind.Count}
+		for i, r := range blind.Rows {
+			b.Rows[i] = slices.Clone(r)
+		}
+		// A threshold low enough to mark some points.
+		lo := &Weights{Row: got[0].Row, Col: make([]float64, m)}
+		for j := range lo.Col {
+			lo.Col[j] = 30 * got[0].Col[j]
+		}
+		b.addOverweighted(lo, beam)
+		if wantOver == nil {
+			wantOver = b
+			if b.Count == blind.Count {
+				t.Fatal("no point overweighted: the case tests nothing")
+			}
+		} else if b.Count != wantOver.Count || !slices.EqualFunc(b.Rows, wantOver.Rows, slices.Equal) {
+			t.Fatalf("GOMAXPROCS %d: overweighted points differ from GOMAXPROCS 1", procs)
 		}
 	}
 }

@@ -1,0 +1,125 @@
+package spectra
+
+import (
+	"math"
+	"slices"
+)
+
+// radixMin is the shortest sample medianInPlace hands to radixOrder: below
+// it, clearing the counters costs more than selection by partitioning.
+const radixMin = 256
+
+// radixOrder finds the k-th smallest value of c (0-based) and, when below
+// is set, the (k−1)-th, by their bits: for values ≥ +0 the IEEE 754 bit
+// patterns, read as unsigned integers, sort as the values do (the layout was
+// chosen for that: IEEE 754-2008 §3.4). Counting the exponent fields, then
+// the next 11 bits of the fraction among the values with the chosen exponent,
+// narrows the k-th down to the few values that share its first 23 bits,
+// which are sorted. Each pass over c is a count without comparisons to get
+// wrong (the branch-heavy partitions of selectKth mispredict about half the
+// time on noise), and the result is the same value, whatever the method.
+// ok is false, and c untouched, when c holds a negative value, −0 or a NaN.
+func radixOrder(c []float64, k int, below bool) (kth, prev float64, ok bool) {
+	const (
+		inf  = 0x7ff0000000000000 // +Inf: every larger pattern is negative or NaN
+		low  = 41                 // bits under the 23 that are counted
+		size = 1 << 11
+	)
+	// Two sets of counters, for alternate values: successive values mostly
+	// share a counter, and one set would make each count wait for the last.
+	var cnt, alt [size + 1]int32 // the last counter takes what is not counted
+	half := len(c) &^ 1
+	for i := 0; i < half; i += 2 {
+		u, v := math.Float64bits(c[i]), math.Float64bits(c[i+1])
+		if u > inf || v > inf {
+			return 0, 0, false
+		}
+		cnt[u>>52]++
+		alt[v>>52]++
+	}
+	if half < len(c) {
+		u := math.Float64bits(c[half])
+		if u > inf {
+			return 0, 0, false
+		}
+		cnt[u>>52]++
+	}
+	for i := range cnt {
+		cnt[i] += alt[i]
+	}
+	b1, under := bucketOf(cnt[:size], k)
+	cnt, alt = [size + 1]int32{}, [size + 1]int32{}
+	sub := func(u uint64) uint64 {
+		if u>>52 != b1 {
+			return size
+		}
+		return (u >> low) & (size - 1)
+	}
+	for i := 0; i < half; i += 2 {
+		cnt[sub(math.Float64bits(c[i]))]++
+		alt[sub(math.Float64bits(c[i+1]))]++
+	}
+	if half < len(c) {
+		cnt[sub(math.Float64bits(c[half]))]++
+	}
+	for i := range cnt {
+		cnt[i] += alt[i]
+	}
+	b2, under2 := bucketOf(cnt[:size], k-under)
+	under += under2
+	prefix := b1<<11 | b2
+	// When the k-th is the first of its bucket, the (k−1)-th is the largest
+	// of the nearest bucket below it with any value: gathered in the same
+	// pass when that bucket has the same exponent.
+	other := prefix
+	first := k == under && below
+	if first {
+		for b := int(b2) - 1; b >= 0; b-- {
+			if cnt[b] > 0 {
+				other = b1<<11 | uint64(b)
+				break
+			}
+		}
+	}
+	var small [64]float64
+	pick := small[:0]
+	for _, x := range c {
+		if p := math.Float64bits(x) >> low; p == prefix || p == other {
+			pick = append(pick, x)
+		}
+	}
+	slices.Sort(pick)
+	r := k - under
+	if other != prefix {
+		r += int(cnt[other&(size-1)]) // the lower bucket's values come first
+	}
+	kth = pick[r]
+	switch {
+	case !below:
+		return kth, 0, true
+	case r > 0:
+		return kth, pick[r-1], true
+	}
+	// The k-th is the first value of its exponent: the (k−1)-th is the
+	// largest value under it.
+	lim := prefix << low
+	var top uint64
+	for _, x := range c {
+		if u := math.Float64bits(x); u < lim && u > top {
+			top = u
+		}
+	}
+	return kth, math.Float64frombits(top), true
+}
+
+// bucketOf returns the counter b holding rank k (the k-th value falls in
+// bucket b) and how many values lie in the buckets before it.
+func bucketOf(cnt []int32, k int) (b uint64, under int) {
+	for i, n := range cnt {
+		if under+int(n) > k {
+			return uint64(i), under
+		}
+		under += int(n)
+	}
+	panic("radixOrder: rank beyond the sample")
+}

@@ -1,0 +1,114 @@
+package spectra
+
+import (
+	"runtime"
+	"sync"
+)
+
+// Work on the rows of a data-sized matrix on up to GOMAXPROCS goroutines,
+// with results that do not depend on how many ran: each row is done by one
+// call, and sums across rows are taken afterwards in row order by one
+// goroutine (a floating-point sum depends on its order).
+
+// rowBlock is how many rows one piece of parallel work covers: enough that
+// handing a piece out costs little next to it, few enough that the buffers
+// in flight stay small (4 × GOMAXPROCS pieces of rowBlock × m values).
+func rowBlock(m int) int {
+	return max(1, min(64, (1<<16)/max(m, 1)))
+}
+
+// eachRowBlock runs f on [r0, r1) blocks covering [0, n), on up to
+// GOMAXPROCS goroutines. f must only write what belongs to its rows.
+func eachRowBlock(n, m int, f func(r0, r1 int)) {
+	inBlocks(n, rowBlock(m), f)
+}
+
+// inBlocks runs f on the fixed blocks [k·b, min((k+1)·b, n)) on up to
+// GOMAXPROCS goroutines.
+func inBlocks(n, b int, f func(r0, r1 int)) {
+	w := min(runtime.GOMAXPROCS(0), (n+b-1)/b)
+	if w < 2 {
+		f(0, n)
+		return
+	}
+	next := make(chan int, (n+b-1)/b)
+	for r := 0; r < n; r += b {
+		next <- r
+	}
+	close(next)
+	var wg sync.WaitGroup
+	for g := 0; g < w; g++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for r0 := range next {
+				f(r0, min(r0+b, n))
+			}
+		}()
+	}
+	wg.Wait()
+}
+
+// mapRowsInOrder computes, for every row i of [0, n), width values per row
+// with mapRow(i, out) on up to GOMAXPROCS goroutines, and hands them to
+// reduce(i, out) on the calling goroutine in ascending i: the per-value work
+// (logarithms, divisions) runs in parallel, the sums over rows in one fixed
+// order. out is only valid during the call.
+func mapRowsInOrder(n, width int, mapRow func(i int, out []float64), reduce func(i int, out []float64)) {
+	b := rowBlock(width)
+	w := runtime.GOMAXPROCS(0)
+	if w < 2 || n <= b {
+		buf := make([]float64, width)
+		for i := 0; i < n; i++ {
+			mapRow(i, buf)
+			reduce(i, buf)
+		}
+		return
+	}
+	type piece struct {
+		r0, r1 int
+		buf    []float64
+		done   chan struct{}
+	}
+	slots := 4 * w
+	free := make(chan []float64, slots)
+	for k := 0; k < slots; k++ {
+		free <- make([]float64, b*width)
+	}
+	work := make(chan *piece, slots)
+	ordered := make(chan *piece, slots)
+	go func() {
+		// Pieces are handed out in row order and queued for the reduction
+		// in the same order; a buffer is reused only once reduced.
+		for r := 0; r < n; r += b {
+			p := &piece{r0: r, r1: min(r+b, n), buf: <-free, done: make(chan struct{})}
+			work <- p
+			ordered <- p
+		}
+		close(work)
+		close(ordered)
+	}()
+	var wg sync.WaitGroup
+	for g := 0; g < w; g++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for p := range work {
+				for i := p.r0; i < p.r1; i++ {
+					o := (i - p.r0) * width
+					mapRow(i, p.buf[o:o+width])
+				}
+				close(p.done)
+			}
+		}()
+	}
+	for p := range ordered {
+		<-p.done
+		for i := p.r0; i < p.r1; i++ {
+			o := (i - p.r0) * width
+			reduce(i, p.buf[o:o+width])
+		}
+		free <- p.buf
+	}
+	wg.Wait()
+}
