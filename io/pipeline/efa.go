@@ -83,7 +83,7 @@ func evolvingFactors(r *Result, f int) (e *svd.EFAResult, sigma float64, scaled 
 		e, err = svd.EFAOfFactors(r.ScaledFactors, f)
 		return e, math.Sqrt(noiseModelSlack), true, err
 	}
-	if r.Factors != nil && len(r.Factors.S) >= f {
+	if !weighted(r) && r.Factors != nil && len(r.Factors.S) >= f { // with weights they are D̃'s
 		e, err = svd.EFAFrom(r.D, r.Factors, f)
 	} else {
 		e, err = svd.EFA(r.D, f)

@@ -503,14 +503,12 @@ func weightsOfData(data mcr.Data) (row, col []float64) {
 // plainSigma is the per-point noise level of D in its own units, as the outlier test
 // compares a spectrum's root-mean-square residual with it and EFA of D its singular
 // values: the rank step's σ without weights; with them (the rank's σ is then 1, in units
-// of the noise) the level the rank of D itself estimates (PlainSigma), else the
-// root-mean-square noise of a typical spectrum, √(median_i(1/a_i) · mean_j(1/b_j)).
+// of the noise) the root-mean-square noise the noise model gives a typical spectrum,
+// √(median_i(1/a_i) · mean_j(1/b_j)) (the expected root-mean-square residual of a
+// spectrum fitted to its noise, which is what the outlier test compares).
 func plainSigma(r *Result) float64 {
 	if !weighted(r) {
 		return r.Rank.Sigma
-	}
-	if r.PlainSigma > 0 {
-		return r.PlainSigma
 	}
 	inv := func(v []float64) []float64 {
 		out := make([]float64, 0, len(v))

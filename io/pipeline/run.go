@@ -61,7 +61,8 @@ type Result struct {
 	Weights, DiffWeights *spectra.Weights
 	Blind                *spectra.Blind
 	// Scaled is √A D √B, the noise-scaled matrix the factor analysis
-	// works on (nil without weights); Factors and Rank are of it then.
+	// works on (nil without weights); Factors and Rank are of it then
+	// (Factors is ScaledFactors, D itself is not decomposed).
 	Scaled *mat.Dense
 	// ScaledFactors are the factors of √A D √B (nil without weights): the
 	// rank is counted on that matrix, and the compressed weighted ALS of
@@ -70,9 +71,6 @@ type Result struct {
 	// diffMapRows are the rows of the difference matrix (species mode) the
 	// report's maps show, kept when the matrix itself is let go (mapRows).
 	diffMapRows map[int][]float64
-	// PlainSigma is the per-point noise of D in its own units as the rank
-	// of D itself estimates it (with weights; see plainSigma).
-	PlainSigma float64
 	// NoiseSigma is the typical noise standard deviation of D (median over
 	// channels) and NoiseSource how it was found.
 	NoiseSigma  float64
@@ -355,6 +353,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	}
 	var in rankInputs
 	rf := (*svd.Factors)(nil) // factors of the matrix the rank is counted on
+	f := (*svd.Factors)(nil)  // factors of D itself (without weights)
 	if weighted(r) {
 		// Rank, baseline order and the nuisance classification on the
 		// noise-scaled matrix √A D √B, whose noise is white with σ = 1
@@ -379,22 +378,19 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 				return nil, fmt.Errorf("factor analysis: %w", err)
 			}
 		}
-		r.ScaledFactors = rf
-	}
-	f, err := svd.Decompose(r.D, svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed})
-	if err != nil {
-		return nil, fmt.Errorf("factor analysis: %w", err)
-	}
-	r.Factors = f
-	pooled := pooledSigma(s, r, r.D)
-	plain := rankInputs{d: r.D, opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooled, Alpha: s.Alpha, ReferenceRow: refRow}, maxF: maxF, noise: pooled}
-	if !weighted(r) {
-		in, rf = plain, f
-	} else if rp, err := svd.EstimateRank(r.D, f, plain.opt); err == nil {
-		// The outlier test works on D and compares with its noise in D's
-		// units, estimated as without weights (pre-reaction spectra, or the
-		// singular values).
-		r.PlainSigma = rp.Sigma
+		// Every later step reads the factors of √A D √B: the singular
+		// values written and drawn beside the rank's noise edge (in the
+		// same units), EFA, purest variables and the starts. D itself is
+		// not decomposed: the outlier test's noise level in D's units
+		// comes from the noise model (plainSigma).
+		r.ScaledFactors, r.Factors = rf, rf
+	} else {
+		if f, err = svd.Decompose(r.D, svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed}); err != nil {
+			return nil, fmt.Errorf("factor analysis: %w", err)
+		}
+		rf, r.Factors = f, f
+		pooled := pooledSigma(s, r, r.D)
+		in = rankInputs{d: r.D, opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooled, Alpha: s.Alpha, ReferenceRow: refRow}, maxF: maxF, noise: pooled}
 	}
 	noiseOf(r)
 	if err := chooseBaseline(r, rf, in); err != nil {

@@ -287,10 +287,16 @@ func singularFigure(f *Folder) (*Figure, error) {
 	if err != nil {
 		return nil, fmt.Errorf("singular values: %w", err)
 	}
-	cap := fmt.Sprintf("Singular values of the data matrix (absorbance units). Filled: the %d factor(s) counted as signal; rings: the rest.", f.Summary.RankEstimate)
+	// With noise weights the rank is counted on √A D √B, whose noise has σ = 1,
+	// and singular_values.csv holds that matrix's values (docs/measurement.md).
+	what, sigma := "the data matrix (absorbance units)", trimFloat(f.Summary.NoiseSigma, 3)
+	if f.Summary.NoiseWeights == "noise" {
+		what, sigma = "the noise-scaled matrix √A D √B (units of the noise)", "1"
+	}
+	cap := fmt.Sprintf("Singular values of %s. Filled: the %d factor(s) counted as signal; rings: the rest.", what, f.Summary.RankEstimate)
 	legend := []LegendItem{{Label: "signal factor", Colour: okabeBlue, Marker: true}, {Label: "noise factor", Colour: grey, Marker: true}}
 	if edge > 0 {
-		cap += fmt.Sprintf(" Dashed: the noise edge σ(√n + √m) = %s for σ = %s (%s).", trimFloat(edge, 4), trimFloat(f.Summary.NoiseSigma, 3), f.Summary.NoiseSource)
+		cap += fmt.Sprintf(" Dashed: the noise edge σ(√n + √m) = %s for σ = %s (%s).", trimFloat(edge, 4), sigma, f.Summary.NoiseSource)
 		legend = append(legend, LegendItem{Label: "noise edge", Colour: okabeVermilion, Dash: []float64{5, 3}})
 	}
 	if n < len(ks) {
