@@ -76,6 +76,13 @@ type DecomposeOptions struct {
 	MaxFactors int    // 0 = all
 	Method     string // "" or "auto", "exact", "gram", "randomized"
 	Seed       uint64 // seed of the randomized method; 0 = DefaultSeed
+	// Start (m × p) holds directions the leading row space of D is known to lie
+	// close to, such as another matrix's leading right singular vectors when D
+	// differs from it by a known low-rank change. The randomized method then
+	// opens its sketch with them, fills it up to MaxFactors + 10 columns with
+	// random ones, and takes one power iteration instead of two (see
+	// randomizedSVD). Ignored by the other methods; nil: a random sketch.
+	Start *mat.Dense
 }
 
 // Decompose picks by size: exact (gonum mat.SVD) for small matrices; for large ones the eigen-decomposition
@@ -127,7 +134,7 @@ func Decompose(d *mat.Dense, opt DecomposeOptions) (*Factors, error) {
 	case MethodGram:
 		f, err = gramSVD(d, r)
 	case MethodRandomized:
-		f, err = randomizedSVD(d, r, seed)
+		f, err = randomizedSVD(d, r, seed, opt.Start)
 	}
 	if err != nil {
 		return nil, fmt.Errorf("svd: decompose (%s): %w", method, err)
@@ -256,23 +263,44 @@ const eps = 0x1p-52
 // randomizedSVD is Algorithm 4.4 (randomized subspace iteration) followed by Algorithm 5.1
 // of Halko, Martinsson & Tropp (2011). Each power step re-orthonormalizes by Householder QR
 // because plain powers (D Dᵀ)^q D Ω lose the smaller directions to rounding.
-func randomizedSVD(d *mat.Dense, r int, seed uint64) (*Factors, error) {
+//
+// start (m × p, may be nil) replaces the first p random columns of the test matrix Ω.
+// The error of the range found is bounded through ‖Ω₂ Ω₁⁺‖, Ω₁ and Ω₂ being Ω's
+// coordinates in the leading right singular vectors and in the rest (Halko et al.,
+// Theorems 9.1 and 9.2; from memory), and each power iteration multiplies the part
+// of the bound from Ω₂ by (σ_{k+1}/σ_k)²: a start that already spans the leading
+// directions makes Ω₂ Ω₁⁺ as small as its misalignment, which is what a power
+// iteration of a random start is for, so one iteration is taken instead of two and
+// the random columns keep the oversampling for what the start misses.
+func randomizedSVD(d *mat.Dense, r int, seed uint64, start *mat.Dense) (*Factors, error) {
 	n, m := d.Dims()
 	l := min(r+randOversample, min(n, m))
 	rng := rand.New(rand.NewPCG(seed, 0x9e3779b97f4a7c15))
 	omega := mat.NewDense(m, l, nil)
 	raw := omega.RawMatrix()
+	p, iters := 0, randPowerIters
+	if start != nil {
+		sm, sp := start.Dims()
+		if sm != m {
+			return nil, fmt.Errorf("start has %d rows for %d columns", sm, m)
+		}
+		p, iters = min(sp, l-randOversample/2), randPowerIters-1
+	}
 	for i := 0; i < m; i++ {
 		row := raw.Data[i*raw.Stride : i*raw.Stride+l]
 		for j := range row {
-			row[j] = rng.NormFloat64()
+			if j < p {
+				row[j] = start.At(i, j)
+			} else {
+				row[j] = rng.NormFloat64()
+			}
 		}
 	}
 	y := mat.NewDense(n, l, nil)
 	y.Mul(d, omega)
 	orthonormalize(y)
 	z := mat.NewDense(m, l, nil)
-	for it := 0; it < randPowerIters; it++ {
+	for it := 0; it < iters; it++ {
 		z.Mul(d.T(), y)
 		orthonormalize(z)
 		y.Mul(d, z)

@@ -241,3 +241,54 @@ func TestDeterministicAcrossGOMAXPROCS(t *testing.T) {
 		t.Error("results differ between GOMAXPROCS 1 and 2")
 	}
 }
+
+// A randomized SVD started from a basis the row space is known to lie near
+// (DecomposeOptions.Start) against gonum's LAPACK SVD (the reference): difference rows
+// ΔD = D − 1 gᵀ of a bilinear + noise matrix D lie in D's row space plus g, so the
+// start is D's leading right singular vectors and g. With one power iteration the leading
+// values and vectors must agree with the exact ones as closely as the random start's two
+// (TestDecomposeMethodsAgree's tolerances). A start whose rows do not match is an error.
+func TestDecomposeWarmStart(t *testing.T) {
+	rng := newRNG(17)
+	n, m := 400, 600
+	d := noisyBilinear(rng, n, m, 4, 1e-3)
+	g := mat.Row(nil, 0, d)
+	dd := mat.NewDense(n, m, nil)
+	for i := 0; i < n; i++ {
+		row := dd.RawRowView(i)
+		for j, v := range d.RawRowView(i) {
+			row[j] = v - g[j]
+		}
+	}
+	fd, err := Decompose(d, DecomposeOptions{Method: MethodRandomized, MaxFactors: 6})
+	if err != nil {
+		t.Fatal(err)
+	}
+	start := mat.NewDense(m, 7, nil)
+	start.Slice(0, m, 0, 6).(*mat.Dense).Copy(fd.V)
+	start.SetCol(6, g)
+	ws, err := Decompose(dd, DecomposeOptions{Method: MethodRandomized, MaxFactors: 6, Start: start})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ex, err := Decompose(dd, DecomposeOptions{Method: MethodExact})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for k := 0; k < 4; k++ {
+		if !(math.Abs(ws.S[k]-ex.S[k]) <= 1e-9*ex.S[k]) {
+			t.Errorf("warm start s_%d = %.15g, exact %.15g", k+1, ws.S[k], ex.S[k])
+		}
+		for _, p := range []struct {
+			name string
+			a, b *mat.Dense
+		}{{"U", ws.U, ex.U}, {"V", ws.V, ex.V}} {
+			if dot := mat.Dot(p.a.ColView(k), p.b.ColView(k)); !(math.Abs(dot-1) <= 1e-6) {
+				t.Errorf("warm start %s_%d · exact = %g", p.name, k+1, dot)
+			}
+		}
+	}
+	if _, err := Decompose(dd, DecomposeOptions{Method: MethodRandomized, MaxFactors: 6, Start: mat.NewDense(m-1, 3, nil)}); err == nil {
+		t.Error("a start with the wrong number of rows was accepted")
+	}
+}

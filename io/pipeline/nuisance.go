@@ -74,6 +74,9 @@ type rankInputs struct {
 	// afterwards, the same values bit for bit (svd.ScaleInto from D).
 	reuse   bool
 	rebuild func(*mat.Dense)
+	// start (m × p, may be nil) holds directions d's leading row space lies
+	// close to, where its randomized SVD starts (svd.DecomposeOptions.Start).
+	start *mat.Dense
 }
 
 // weightedRankInputs are the rank inputs of a matrix scaled by the weights w: the noise
@@ -124,10 +127,19 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 		} else {
 			f = nil
 		}
+		if in.start != nil {
+			// D Q⊥'s rows lie in the start's span projected the same way.
+			var sq, proj mat.Dense
+			sq.Mul(q.T(), in.start)
+			proj.Mul(q, &sq)
+			start := mat.DenseCopyOf(in.start)
+			start.Sub(start, &proj)
+			in.start = start
+		}
 	}
 	if f == nil {
 		var err error
-		if f, err = svd.Decompose(dc, svd.DecomposeOptions{MaxFactors: in.maxF, Seed: r.Settings.Seed}); err != nil {
+		if f, err = svd.Decompose(dc, svd.DecomposeOptions{MaxFactors: in.maxF, Seed: r.Settings.Seed, Start: in.start}); err != nil {
 			return nil, nil, fmt.Errorf("factor analysis without the baseline: %w", err)
 		}
 	}

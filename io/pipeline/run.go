@@ -436,8 +436,11 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 			// The differences have their own noise (the reference's added):
 			// scaled with their own weights, their noise is white with σ = 1.
 			// Scaled and then projected in place: dd is not used again.
+			// Its randomized SVD starts from the row space the factors of
+			// √A D √B already found (weightedDifferenceStart).
+			start := weightedDifferenceStart(r, dd, rf)
 			din = weightedRankInputs(r, svd.ScaleInto(dd, dd, r.DiffWeights.Row, r.DiffWeights.Col), r.DiffWeights.Row, r.DiffWeights.Col, ref, maxF)
-			din.reuse = true
+			din.reuse, din.start = true, start
 			r.DiffRank, r.DiffChemical, _ = chemicalRank(r, din.d, nil, r.BaselineOrder, din, false)
 		} else if r.BaselineOrder >= 0 {
 			r.DiffRank, r.DiffChemical, _ = chemicalRank(r, dd, nil, r.BaselineOrder, din, false)

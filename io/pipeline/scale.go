@@ -1,6 +1,8 @@
 package pipeline
 
 import (
+	"math"
+
 	"github.com/bandsolve/bandsolve/svd"
 	"gonum.org/v1/gonum/mat"
 )
@@ -39,14 +41,19 @@ func differenceFactors(r *Result, dd *mat.Dense, f *svd.Factors, maxF int) (*svd
 	if maxF == 0 || f == nil || f.V == nil || !largeData(n, m) {
 		return svd.Decompose(dd, svd.DecomposeOptions{MaxFactors: maxF, Seed: r.Settings.Seed})
 	}
-	_, p := f.V.Dims()
+	return svd.DecomposeInSpan(dd, differenceBasis(r, dd, f.V))
+}
+
+// differenceBasis returns [v, g_1, …]: the directions v that D's row space lies
+// close to (m × p) and each experiment's fixed spectrum g_e = A_i − ΔA_i (summed
+// over the experiment's rows), between which the rows of the difference matrix dd
+// lie (see differenceFactors). D and dd are taken unscaled.
+func differenceBasis(r *Result, dd, v *mat.Dense) *mat.Dense {
+	n, m := dd.Dims()
+	_, p := v.Dims()
 	ne := max(len(r.Experiments), 1)
-	base := r.D
-	if r.Scaled != nil {
-		base = r.Scaled // f and dd are of the scaled matrices
-	}
 	basis := mat.NewDense(m, p+ne, nil)
-	basis.Slice(0, m, 0, p).(*mat.Dense).Copy(f.V)
+	basis.Slice(0, m, 0, p).(*mat.Dense).Copy(v)
 	g := make([]float64, m)
 	for e := 0; e < ne; e++ {
 		lo, hi := 0, n
@@ -57,12 +64,44 @@ func differenceFactors(r *Result, dd *mat.Dense, f *svd.Factors, maxF int) (*svd
 			g[j] = 0
 		}
 		for i := lo; i < hi; i++ {
-			a, b := base.RawRowView(i), dd.RawRowView(i)
+			a, b := r.D.RawRowView(i), dd.RawRowView(i)
 			for j := range g {
 				g[j] += a[j] - b[j]
 			}
 		}
 		basis.SetCol(p+e, g)
 	}
-	return svd.DecomposeInSpan(dd, basis)
+	return basis
+}
+
+// weightedDifferenceStart is where the randomized SVD of the scaled difference
+// matrix √A′ ΔA √B′ starts (svd.DecomposeOptions.Start): with D ≈ (1/√A) Ũ Σ Ṽᵀ
+// (1/√B) from the factors f of √A D √B, D's row space lies close to span((1/√B) Ṽ),
+// the difference matrix's within that plus the fixed spectra g_e, and the scaled
+// one's is that span times √B′ (the row weights change no row space). dd is the
+// difference matrix before it is scaled. nil on small data (every factor kept:
+// the exact method takes no start).
+func weightedDifferenceStart(r *Result, dd *mat.Dense, f *svd.Factors) *mat.Dense {
+	n, m := dd.Dims()
+	if f == nil || f.V == nil || f.Full() || !largeData(n, m) {
+		return nil
+	}
+	_, p := f.V.Dims()
+	v := mat.NewDense(m, p, nil)
+	for j := 0; j < m; j++ {
+		g := invSqrt(r.Weights.Col[j])
+		for l := 0; l < p; l++ {
+			v.Set(j, l, f.V.At(j, l)*g)
+		}
+	}
+	start := differenceBasis(r, dd, v)
+	_, q := start.Dims()
+	for j := 0; j < m; j++ {
+		g := math.Sqrt(max(r.DiffWeights.Col[j], 0))
+		row := start.RawRowView(j)[:q]
+		for l := range row {
+			row[l] *= g
+		}
+	}
+	return start
 }
