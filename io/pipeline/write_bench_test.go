@@ -1,0 +1,58 @@
+package pipeline
+
+import (
+	"fmt"
+	"path/filepath"
+	"reflect"
+	"runtime"
+	"strings"
+	"testing"
+
+	"github.com/bandsolve/bandsolve/io/output"
+)
+
+// BenchmarkWrite2000x3001 times the writing phase alone (result files,
+// maps.csv, JCAMP-DX, record and manifest, report.html and the figure
+// files) of the default resolve of BenchmarkWhole2000x3001's series: the
+// resolve runs once, outside the timer, then each iteration writes a fresh
+// folder. Each writer's CPU time (getrusage) is logged, and the writing's
+// CPU time against a parse of the same file measured in the same process.
+// Only when asked for: -bench Write2000x3001.
+func BenchmarkWrite2000x3001(b *testing.B) {
+	explicitly(b, "Write2000x3001")
+	dir := b.TempDir()
+	series, blank := writeLarge(b, dir, 2000, 3001, 5)
+	_, _, _, r := wholeRun(b, series, blank, filepath.Join(dir, "first"))
+	runtime.GC()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		stage, err := output.NewStage(filepath.Join(dir, fmt.Sprintf("out%d", i)), true)
+		if err != nil {
+			b.Fatal(err)
+		}
+		r.Supplied = stage.Files()
+		var log strings.Builder
+		total, c0 := 0.0, cpuNow()
+		step := func(name string, f func() error) {
+			c := cpuNow()
+			if err := f(); err != nil {
+				b.Fatal(err)
+			}
+			fmt.Fprintf(&log, "  %-28s %7.3f s CPU\n", name, cpuNow()-c)
+		}
+		step("WriteResults", func() error { return WriteResults(r, stage) })
+		for _, hs := range [][]func(*Result, *output.Stage) error{afterWrite, lastWrite} {
+			for _, h := range hs {
+				name := runtime.FuncForPC(reflect.ValueOf(h).Pointer()).Name()
+				step(name[strings.LastIndex(name, ".")+1:], func() error { return h(r, stage) })
+			}
+		}
+		total = cpuNow() - c0
+		if err := stage.Commit(); err != nil {
+			b.Fatal(err)
+		}
+		b.Logf("writing %.3f s CPU, %.2f × the parse's %.3f s CPU:\n%s", total, total/parseCPU, parseCPU, log.String())
+		b.ReportMetric(total, "write-cpu-s")
+		b.ReportMetric(total/parseCPU, "write/parse-cpu")
+	}
+}
