@@ -2,7 +2,6 @@ package report
 
 import (
 	"fmt"
-	"image/color"
 	"math"
 	"strings"
 
@@ -220,16 +219,14 @@ func mapFigure(f *Folder, m *Matrix, ax axisStyle, id, title, unit string, q flo
 		}
 		ylabel = "spectrum number (experiments stacked)"
 	}
-	img, r := mapImage(f.Maps.Axis, y, m.Rows, ax.Reversed, func(v float64) color.RGBA {
-		return ramp(divergingRamp, 0.5+0.5*v/lim)
-	})
+	img, r := mapImage(f.Maps.Axis, y, m.Rows, ax.Reversed, func(v float64) uint8 { return signedLevel(v, lim) })
 	p := newPlot("", ylabel)
 	ax.apply(p)
 	if !multi {
 		lo, hi := span(m.Times)
 		f.timeAxis(&p.Y, lo, hi)
 	}
-	p.Add(raster{img: img, xmin: r[0], xmax: r[1], ymin: r[2], ymax: r[3]})
+	p.Add(newRaster(img, r))
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = r[0], r[1], r[2], r[3]
 	svg, dr, err := render(p, colourBar(lim, unit+" (absorbance)"), figW, figH)
 	if err != nil {
@@ -520,9 +517,11 @@ func longEnvelope(t *Table, comp, side, loName, hiName string) (x, lo, hi []floa
 	if cj < 0 || sj < 0 || pj < 0 || lj < 0 || hj < 0 {
 		return nil, nil, nil
 	}
-	pos, l, h := t.Col(pj), t.Col(lj), t.Col(hj)
+	// Only the rows of this component and side are parsed: the table holds
+	// every component's (parsing whole columns once per component and side
+	// was a tenth of the report's time).
 	first := ""
-	for i, r := range t.Text {
+	for _, r := range t.Text {
 		if len(r) <= max(cj, sj, pj, lj, hj) || r[cj] != comp || r[sj] != side {
 			continue
 		}
@@ -534,9 +533,10 @@ func longEnvelope(t *Table, comp, side, loName, hiName string) (x, lo, hi []floa
 				continue
 			}
 		}
-		x = append(x, pos[i])
-		lo = append(lo, math.Min(l[i], h[i]))
-		hi = append(hi, math.Max(l[i], h[i]))
+		l, h := cell(r, lj), cell(r, hj)
+		x = append(x, cell(r, pj))
+		lo = append(lo, math.Min(l, h))
+		hi = append(hi, math.Max(l, h))
 	}
 	if len(x) < 2 {
 		return nil, nil, nil

@@ -259,10 +259,18 @@ func band(p *plot.Plot, x, lo, hi []float64, c color.RGBA) {
 
 // raster draws an image into a data rectangle. It maps the corners through
 // the plot's transforms, so it stays right on an inverted axis (the gonum
-// heat map assumes a forward one).
+// heat map assumes a forward one). SVG canvases get the paletted image (its
+// PNG is 1 byte a pixel, unfiltered, and so cheap to encode); raster
+// canvases the same pixels in full colour.
 type raster struct {
-	img                    image.Image
+	pal                    *image.Paletted
+	img                    *image.RGBA
 	xmin, xmax, ymin, ymax float64
+}
+
+// newRaster draws p over the data rectangle r (xmin, xmax, ymin, ymax).
+func newRaster(p *image.Paletted, r [4]float64) raster {
+	return raster{pal: p, img: rgbaOf(p), xmin: r[0], xmax: r[1], ymin: r[2], ymax: r[3]}
 }
 
 func (r raster) Plot(c draw.Canvas, p *plot.Plot) {
@@ -275,7 +283,11 @@ func (r raster) Plot(c draw.Canvas, p *plot.Plot) {
 	if y0 > y1 {
 		y0, y1 = y1, y0
 	}
-	c.DrawImage(vg.Rectangle{Min: vg.Point{X: x0, Y: y0}, Max: vg.Point{X: x1, Y: y1}}, r.img)
+	var img image.Image = r.img
+	if _, ok := c.Canvas.(*vgsvg.Canvas); ok {
+		img = r.pal
+	}
+	c.DrawImage(vg.Rectangle{Min: vg.Point{X: x0, Y: y0}, Max: vg.Point{X: x1, Y: y1}}, img)
 }
 
 func (r raster) DataRange() (xmin, xmax, ymin, ymax float64) { return r.xmin, r.xmax, r.ymin, r.ymax }
@@ -354,16 +366,48 @@ func quantileAbs(rows [][]float64, q float64) float64 {
 	if len(a) == 0 {
 		return 0
 	}
-	sort.Float64s(a)
-	i := int(math.Round(q * float64(len(a)-1)))
-	return a[i]
+	return kth(a, int(math.Round(q*float64(len(a)-1))))
+}
+
+// kth is the k-th smallest of a (0-based), found by selection (Hoare,
+// "Algorithm 65: FIND", CACM 1961) in linear time on average rather than
+// by sorting; a is reordered. The value is the same whatever the order of
+// a, so the map's colour limit is too.
+func kth(a []float64, k int) float64 {
+	lo, hi := 0, len(a)-1
+	for lo < hi {
+		x, y, z := a[lo], a[lo+(hi-lo)/2], a[hi]
+		pivot := max(min(x, y), min(max(x, y), z)) // median of three
+		i, j := lo, hi
+		for i <= j {
+			for a[i] < pivot {
+				i++
+			}
+			for a[j] > pivot {
+				j--
+			}
+			if i <= j {
+				a[i], a[j] = a[j], a[i]
+				i, j = i+1, j-1
+			}
+		}
+		switch {
+		case k <= j:
+			hi = j
+		case k >= i:
+			lo = i
+		default:
+			return a[k] // between the parts: equal to the pivot
+		}
+	}
+	return a[k]
 }
 
 // mapImage paints a time × axis matrix as pixels: columns on an even grid
 // of the axis in display order, rows on an even grid of y, top = largest y.
-// Each pixel takes the nearest measured point; pixels in a gap of the axis
-// (an excluded region) are pale grey.
-func mapImage(axis, y []float64, rows [][]float64, reversed bool, colour func(v float64) color.RGBA) (image.Image, [4]float64) {
+// Each pixel takes the nearest measured point, coloured by its level on
+// mapPalette; pixels in a gap of the axis (an excluded region) are pale grey.
+func mapImage(axis, y []float64, rows [][]float64, reversed bool, level func(v float64) uint8) (*image.Paletted, [4]float64) {
 	const W, H = 480, 260
 	xlo, xhi := span(axis)
 	ylo, yhi := span(y)
@@ -373,7 +417,12 @@ func mapImage(axis, y []float64, rows [][]float64, reversed bool, colour func(v 
 	ax := sortedIndex(axis)
 	yi := sortedIndex(y)
 	step := medianStep(axis, ax)
-	img := image.NewRGBA(image.Rect(0, 0, W, H))
+	// The nearest row of each pixel row, found once rather than per pixel.
+	row := make([]int, H)
+	for py := range row {
+		row[py] = nearest(y, yi, yhi-(float64(py)+0.5)/H*(yhi-ylo))
+	}
+	img := image.NewPaletted(image.Rect(0, 0, W, H), mapPalette)
 	for px := 0; px < W; px++ {
 		f := (float64(px) + 0.5) / W
 		xv := xlo + f*(xhi-xlo)
@@ -382,17 +431,57 @@ func mapImage(axis, y []float64, rows [][]float64, reversed bool, colour func(v 
 		}
 		j := nearest(axis, ax, xv)
 		gap := step > 0 && math.Abs(axis[j]-xv) > 1.5*step
-		for py := 0; py < H; py++ {
-			yv := yhi - (float64(py)+0.5)/H*(yhi-ylo)
-			i := nearest(y, yi, yv)
-			c := gapGrey
+		for py, i := range row {
+			k := uint8(gapLevel)
 			if !gap {
-				c = colour(rows[i][j])
+				k = level(rows[i][j])
 			}
-			img.SetRGBA(px, py, c)
+			img.Pix[py*img.Stride+px] = k
 		}
 	}
 	return img, [4]float64{xlo, xhi, ylo, yhi}
+}
+
+// mapLevels is how many steps of the diverging scale the maps use: an odd
+// number, so that one step is zero (white) exactly. Adjacent steps differ
+// by at most 3 of 255 in any channel, below what the eye tells apart, and
+// with the gap grey they fit a PNG palette (at most 256 colours), which
+// encodes in a quarter of the bytes of full colour.
+const mapLevels = 255
+
+// gapLevel is the palette index of the gap grey.
+const gapLevel = mapLevels
+
+// mapPalette is the maps' colours: mapLevels steps of divergingRamp from
+// the most negative (index 0) to the most positive, then the gap grey.
+var mapPalette = func() color.Palette {
+	p := make(color.Palette, 0, mapLevels+1)
+	for k := 0; k < mapLevels; k++ {
+		p = append(p, ramp(divergingRamp, float64(k)/(mapLevels-1)))
+	}
+	return append(p, gapGrey)
+}()
+
+// signedLevel is the palette step of v on the scale −lim … lim (clamped);
+// NaN is drawn as a gap.
+func signedLevel(v, lim float64) uint8 {
+	f := 0.5 + 0.5*v/lim
+	if math.IsNaN(f) {
+		return gapLevel
+	}
+	return uint8(math.Round(math.Max(0, math.Min(1, f)) * (mapLevels - 1)))
+}
+
+// rgbaOf is p in full colour: the raster canvas scales full-colour images
+// on a fast path (and paletted ones pixel by pixel).
+func rgbaOf(p *image.Paletted) *image.RGBA {
+	out := image.NewRGBA(p.Rect)
+	for i, k := range p.Pix {
+		c := p.Palette[k].(color.RGBA)
+		o := out.Pix[4*i : 4*i+4 : 4*i+4]
+		o[0], o[1], o[2], o[3] = c.R, c.G, c.B, c.A
+	}
+	return out
 }
 
 func sortedIndex(v []float64) []int {
@@ -430,13 +519,12 @@ func medianStep(v []float64, idx []int) float64 {
 	return d[len(d)/2]
 }
 
-// colourBar is a narrow plot showing the diverging scale from −lim to lim.
+// colourBar is a narrow plot showing the diverging scale from −lim to lim:
+// the maps' palette steps, most positive at the top.
 func colourBar(lim float64, label string) *plot.Plot {
-	const H = 256
-	img := image.NewRGBA(image.Rect(0, 0, 1, H))
-	for py := 0; py < H; py++ {
-		f := 1 - (float64(py)+0.5)/H
-		img.SetRGBA(0, py, ramp(divergingRamp, f))
+	img := image.NewPaletted(image.Rect(0, 0, 1, mapLevels), mapPalette)
+	for py := range mapLevels {
+		img.Pix[py*img.Stride] = uint8(mapLevels - 1 - py)
 	}
 	p := plot.New()
 	p.HideX()
@@ -446,7 +534,7 @@ func colourBar(lim float64, label string) *plot.Plot {
 	p.Y.Tick.Marker = plot.TickerFunc(func(min, max float64) []plot.Tick {
 		return []plot.Tick{{Value: -lim, Label: tickLabel(-lim)}, {Value: 0, Label: "0"}, {Value: lim, Label: tickLabel(lim)}}
 	})
-	p.Add(raster{img: img, xmin: 0, xmax: 1, ymin: -lim, ymax: lim})
+	p.Add(newRaster(img, [4]float64{0, 1, -lim, lim}))
 	return p
 }
 

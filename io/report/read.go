@@ -92,14 +92,19 @@ func (t *Table) Index(name string) int {
 func (t *Table) Col(j int) []float64 {
 	out := make([]float64, len(t.Text))
 	for i, r := range t.Text {
-		out[i] = math.NaN()
-		if j >= 0 && j < len(r) {
-			if v, err := strconv.ParseFloat(strings.TrimSpace(r[j]), 64); err == nil && !math.IsInf(v, 0) {
-				out[i] = v
-			}
-		}
+		out[i] = cell(r, j)
 	}
 	return out
+}
+
+// cell is cell j of row r as a number, NaN when it is not one (or infinite).
+func cell(r []string, j int) float64 {
+	if j >= 0 && j < len(r) {
+		if v, err := strconv.ParseFloat(strings.TrimSpace(r[j]), 64); err == nil && !math.IsInf(v, 0) {
+			return v
+		}
+	}
+	return math.NaN()
 }
 
 // Numeric says whether every cell of column j is a number.

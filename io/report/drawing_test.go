@@ -1,0 +1,177 @@
+package report
+
+import (
+	"bytes"
+	"fmt"
+	"image"
+	"image/color"
+	"image/png"
+	"math"
+	"math/rand/v2"
+	"slices"
+	"strings"
+	"testing"
+)
+
+// kth is the k-th order statistic: by definition the k-th element (0-based)
+// of the values sorted ascending; checked against a full sort on random
+// values, on values with many ties and on sorted and reversed input.
+func TestKthIsTheOrderStatistic(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 4))
+	cases := map[string][]float64{}
+	for _, n := range []int{1, 2, 3, 10, 1001} {
+		a := make([]float64, n)
+		ties := make([]float64, n)
+		for i := range a {
+			a[i] = rng.NormFloat64()
+			ties[i] = float64(rng.IntN(4))
+		}
+		up := slices.Clone(a)
+		slices.Sort(up)
+		down := slices.Clone(up)
+		slices.Reverse(down)
+		cases[fmt.Sprint("random ", n)] = a
+		cases[fmt.Sprint("ties ", n)] = ties
+		cases[fmt.Sprint("ascending ", n)] = up
+		cases[fmt.Sprint("descending ", n)] = down
+	}
+	for name, a := range cases {
+		sorted := slices.Clone(a)
+		slices.Sort(sorted)
+		for _, k := range []int{0, len(a) / 3, len(a) / 2, len(a) - 1} {
+			if got := kth(slices.Clone(a), k); got != sorted[k] {
+				t.Errorf("%s (n = %d): kth(%d) = %g, sorted gives %g", name, len(a), k, got, sorted[k])
+			}
+		}
+	}
+}
+
+// The maps are drawn in mapLevels steps of the diverging scale: zero is
+// white exactly, ± the limit the ends of the scale, and every value's
+// colour is within 3 of 255 per channel of the continuous scale (ramp) at
+// that value — the steps are finer than the eye separates (common
+// practice: 8-bit colour channels, 256 levels).
+func TestMapLevelsFollowTheScale(t *testing.T) {
+	const lim = 0.37
+	if c := mapPalette[signedLevel(0, lim)]; c != (color.RGBA{255, 255, 255, 255}) {
+		t.Errorf("zero is drawn %v, want white", c)
+	}
+	if c := mapPalette[signedLevel(-lim, lim)]; c != divergingRamp[0] {
+		t.Errorf("−limit is drawn %v, want %v", c, divergingRamp[0])
+	}
+	if c := mapPalette[signedLevel(2*lim, lim)]; c != divergingRamp[len(divergingRamp)-1] {
+		t.Errorf("beyond the limit is drawn %v, want %v", c, divergingRamp[len(divergingRamp)-1])
+	}
+	if c := mapPalette[signedLevel(math.NaN(), lim)]; c != gapGrey {
+		t.Errorf("a missing value is drawn %v, want the gap grey", c)
+	}
+	if len(mapPalette) > 256 {
+		t.Errorf("%d colours do not fit a PNG palette (at most 256, PNG specification 11.2.3)", len(mapPalette))
+	}
+	worst := 0
+	for i := 0; i <= 10000; i++ {
+		v := lim * (2*float64(i)/10000 - 1)
+		want := ramp(divergingRamp, 0.5+0.5*v/lim)
+		got := mapPalette[signedLevel(v, lim)].(color.RGBA)
+		for _, d := range []int{int(got.R) - int(want.R), int(got.G) - int(want.G), int(got.B) - int(want.B)} {
+			worst = max(worst, d, -d)
+		}
+	}
+	if worst > 3 {
+		t.Errorf("a map colour is %d of 255 away from the continuous scale, want at most 3", worst)
+	}
+}
+
+// The PNG files draw a map in full colour, the SVGs in palette indices:
+// both must hold the same colour at every pixel.
+func TestMapImageSameInBothForms(t *testing.T) {
+	axis := []float64{1800, 1700, 1600, 1500, 1200, 1100} // a gap between 1500 and 1200
+	y := []float64{0, 10, 20}
+	rows := [][]float64{{-1, -0.5, 0, 0.5, 1, math.NaN()}, {0, 0, 0, 0, 0, 0}, {1, 1, -1, -1, 0.2, 0.1}}
+	p, _ := mapImage(axis, y, rows, true, func(v float64) uint8 { return signedLevel(v, 1) })
+	full := rgbaOf(p)
+	gaps := 0
+	for py := p.Rect.Min.Y; py < p.Rect.Max.Y; py++ {
+		for px := p.Rect.Min.X; px < p.Rect.Max.X; px++ {
+			if full.RGBAAt(px, py) != p.Palette[p.ColorIndexAt(px, py)] {
+				t.Fatalf("pixel %d,%d: full colour %v, palette %v", px, py, full.RGBAAt(px, py), p.Palette[p.ColorIndexAt(px, py)])
+			}
+			if p.ColorIndexAt(px, py) == gapLevel {
+				gaps++
+			}
+		}
+	}
+	if gaps == 0 {
+		t.Error("the excluded region 1500–1200 is not drawn as a gap")
+	}
+}
+
+// A figure's SVG file holds the report's drawing of it unchanged (it is
+// laid in, not drawn again) and its legend under it.
+func TestFigureFileHoldsTheReportDrawing(t *testing.T) {
+	f, err := Load(fixture(t, true))
+	if err != nil {
+		t.Fatal(err)
+	}
+	figs, _ := Figures(f)
+	files, _ := FigureFiles(f)
+	for _, fig := range figs {
+		s := string(files["figures/"+fig.ID+".svg"])
+		inner := fig.SVG[strings.Index(fig.SVG, ">")+1 : strings.LastIndex(fig.SVG, "</svg>")]
+		if !strings.Contains(s, strings.TrimPrefix(inner, "\n")) {
+			t.Errorf("%s.svg does not hold the report's drawing", fig.ID)
+		}
+		if n := strings.Count(s, "<svg"); n != 1 {
+			t.Errorf("%s.svg has %d <svg> elements, want 1", fig.ID, n)
+		}
+	}
+}
+
+// encodePNG's files decode, with Go's image/png (a reference decoder of
+// the PNG specification, ISO/IEC 15948), to the very pixels encoded: an
+// opaque picture with runs, gradients (the Up filter's differences wrap
+// modulo 256) and noise; and one with transparency, which it leaves to
+// image/png.
+func TestEncodePNGRoundTrip(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	for _, alpha := range []uint8{255, 128} {
+		img := image.NewRGBA(image.Rect(0, 0, 37, 23))
+		for y := range 23 {
+			for x := range 37 {
+				c := color.RGBA{uint8(7 * x), uint8(250 - 11*y), uint8(rng.IntN(256)), 255}
+				if x < 10 {
+					c = color.RGBA{255, 255, 255, 255}
+				}
+				if x == 20 && y == 5 && alpha < 255 {
+					c = color.RGBA{60, 30, 90, alpha} // premultiplied: no channel above alpha
+				}
+				img.SetRGBA(x, y, c)
+			}
+		}
+		var b bytes.Buffer
+		if err := encodePNG(&b, img); err != nil {
+			t.Fatal(err)
+		}
+		back, err := png.Decode(&b)
+		if err != nil {
+			t.Fatalf("alpha %d: does not decode: %v", alpha, err)
+		}
+		for y := range 23 {
+			for x := range 37 {
+				c1 := color.RGBAModel.Convert(back.At(x, y)).(color.RGBA)
+				c2 := img.RGBAAt(x, y)
+				// A translucent pixel goes through straight alpha in the
+				// file: ±1 of rounding each way.
+				tol := 0
+				if c2.A < 255 {
+					tol = 1
+				}
+				if d := max(absDiff(c1.R, c2.R), absDiff(c1.G, c2.G), absDiff(c1.B, c2.B), absDiff(c1.A, c2.A)); d > tol {
+					t.Fatalf("alpha %d: pixel %d,%d decodes as %v, was %v", alpha, x, y, back.At(x, y), img.At(x, y))
+				}
+			}
+		}
+	}
+}
+
+func absDiff(a, b uint8) int { return max(int(a)-int(b), int(b)-int(a)) }
