@@ -11,6 +11,8 @@ import (
 	"slices"
 	"strings"
 	"testing"
+
+	"gonum.org/v1/plot/vg"
 )
 
 // kth is the k-th order statistic: by definition the k-th element (0-based)
@@ -175,3 +177,67 @@ func TestEncodePNGRoundTrip(t *testing.T) {
 }
 
 func absDiff(a, b uint8) int { return max(int(a)-int(b), int(b)-int(a)) }
+
+// thin keeps, of each pixel column, the lowest and highest point (so a
+// peak one sample wide keeps its height), the first and last points, and
+// nothing that was not a point; a line with under one point per column
+// comes back whole. Reference: the extremes of each column, found here by
+// a direct scan (min/max per column is common practice for drawing series
+// longer than the picture is wide).
+func TestThinKeepsEachColumnsExtremes(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	var ps []vg.Point
+	for i := range 3001 {
+		y := rng.NormFloat64()
+		if i == 1234 {
+			y = 50 // a spike one point wide
+		}
+		ps = append(ps, vg.Point{X: vg.Length(i) * pixelColumn / 7, Y: vg.Length(y)})
+	}
+	out := thin(ps)
+	if len(out) >= len(ps)/2 {
+		t.Errorf("%d of %d points kept at 7 per column", len(out), len(ps))
+	}
+	if out[0] != ps[0] || out[len(out)-1] != ps[len(ps)-1] {
+		t.Error("the first or last point was dropped")
+	}
+	lo, hi := map[float64]vg.Length{}, map[float64]vg.Length{}
+	for _, p := range ps {
+		c := math.Floor(float64(p.X / pixelColumn))
+		if l, ok := lo[c]; !ok || p.Y < l {
+			lo[c] = p.Y
+		}
+		if h, ok := hi[c]; !ok || p.Y > h {
+			hi[c] = p.Y
+		}
+	}
+	gotLo, gotHi := map[float64]vg.Length{}, map[float64]vg.Length{}
+	k := 0
+	for _, p := range out {
+		for k < len(ps) && ps[k] != p {
+			k++
+		}
+		if k == len(ps) {
+			t.Fatalf("%v is not one of the points, in order", p)
+		}
+		c := math.Floor(float64(p.X / pixelColumn))
+		if l, ok := gotLo[c]; !ok || p.Y < l {
+			gotLo[c] = p.Y
+		}
+		if h, ok := gotHi[c]; !ok || p.Y > h {
+			gotHi[c] = p.Y
+		}
+	}
+	for c := range lo {
+		if gotLo[c] != lo[c] || gotHi[c] != hi[c] {
+			t.Fatalf("column %g spans %g … %g after thinning, %g … %g before", c, gotLo[c], gotHi[c], lo[c], hi[c])
+		}
+	}
+	if gotHi[math.Floor(float64(ps[1234].X/pixelColumn))] != 50 {
+		t.Error("the one-point spike lost its height")
+	}
+	sparse := []vg.Point{{X: 0, Y: 1}, {X: 2 * pixelColumn, Y: 3}, {X: 4 * pixelColumn, Y: 2}, {X: 6 * pixelColumn, Y: 5}, {X: 8 * pixelColumn, Y: 0}}
+	if got := thin(sparse); !slices.Equal(got, sparse) {
+		t.Errorf("a line with a point every other column came back as %v", got)
+	}
+}

@@ -199,6 +199,98 @@ func (l edgeLine) GlyphBoxes(plt *plot.Plot) []plot.GlyphBox {
 	return out
 }
 
+// Plot draws the line reduced to what the figure's pixels can show (thin):
+// a 3001-point spectrum is otherwise stroked point by point three times
+// per figure at resolutions where several points share one pixel column.
+func (l edgeLine) Plot(c draw.Canvas, plt *plot.Plot) {
+	if l.LineStyle.Width == 0 {
+		return
+	}
+	trX, trY := plt.Transforms(&c)
+	ps := make([]vg.Point, len(l.XYs))
+	for i, p := range l.XYs {
+		ps[i] = vg.Point{X: trX(p.X), Y: trY(p.Y)}
+	}
+	lines := c.ClipLinesXY(ps)
+	for i := range lines {
+		lines[i] = thin(lines[i])
+	}
+	c.StrokeLines(l.LineStyle, lines...)
+}
+
+// pixelColumn is the width of the columns lines and shaded bands are
+// reduced to before they are drawn: one pixel of the PNG files (1/FigureDPI
+// inch, about half a point), under the width of every line drawn.
+const pixelColumn = vg.Inch / FigureDPI
+
+// thin reduces a polyline to what columns pixelColumn wide can show: of
+// each run of consecutive points in one column only the lowest and the
+// highest are kept, in their order, and the first and last points of all.
+// A peak narrower than a column keeps its full height (it is not averaged
+// away); what goes is the path within a column, hidden under the stroke.
+// The result depends only on the points, so the drawing stays
+// deterministic.
+func thin(ps []vg.Point) []vg.Point {
+	if len(ps) < 4 {
+		return ps
+	}
+	col := func(p vg.Point) float64 { return math.Floor(float64(p.X / pixelColumn)) }
+	out := make([]vg.Point, 0, min(len(ps), 2048))
+	out = append(out, ps[0])
+	for i := 0; i < len(ps); {
+		c, lo, hi := col(ps[i]), i, i
+		j := i + 1
+		for ; j < len(ps) && col(ps[j]) == c; j++ {
+			if ps[j].Y < ps[lo].Y {
+				lo = j
+			}
+			if ps[j].Y > ps[hi].Y {
+				hi = j
+			}
+		}
+		first, second := min(lo, hi), max(lo, hi)
+		if first > 0 {
+			out = append(out, ps[first])
+		}
+		if second != first {
+			out = append(out, ps[second])
+		}
+		i = j
+	}
+	if last := ps[len(ps)-1]; out[len(out)-1] != last {
+		out = append(out, last)
+	}
+	return out
+}
+
+// thinPolygon is a shaded area whose outline is thinned like a line
+// before it is filled; it has no outline stroke.
+type thinPolygon struct{ *plotter.Polygon }
+
+func (pg thinPolygon) Plot(c draw.Canvas, plt *plot.Plot) {
+	trX, trY := plt.Transforms(&c)
+	var pa vg.Path
+	for _, ring := range pg.XYs {
+		ps := make([]vg.Point, len(ring))
+		for i, p := range ring {
+			ps[i] = vg.Point{X: trX(p.X), Y: trY(p.Y)}
+		}
+		ps = c.ClipPolygonXY(thin(ps))
+		if len(ps) == 0 {
+			continue
+		}
+		pa.Move(ps[0])
+		for _, p := range ps[1:] {
+			pa.Line(p)
+		}
+		pa.Close()
+	}
+	if pg.Color != nil && len(pa) > 0 {
+		c.SetColor(pg.Color)
+		c.Fill(pa)
+	}
+}
+
 func addPoints(p *plot.Plot, xy plotter.XYs, c color.RGBA, hollow bool) {
 	s, err := plotter.NewScatter(xy)
 	if err != nil {
@@ -254,7 +346,7 @@ func band(p *plot.Plot, x, lo, hi []float64, c color.RGBA) {
 	}
 	poly.Color = c
 	poly.LineStyle.Width = 0
-	p.Add(poly)
+	p.Add(thinPolygon{poly})
 }
 
 // raster draws an image into a data rectangle. It maps the corners through
