@@ -396,7 +396,11 @@ func newFitProblem(s *Scheme, times []float64, opt FitOptions, nobs int) (*fitPr
 
 // starts returns starting parameter vectors: the user's InitialK, or the best few points of a
 // grid of k·T ∈ {0.5, 2, 8, 32} per free step (T the time span), ranked by sum of squares
-// (ties by grid order, so the choice is deterministic).
+// (ties by grid order, so the choice is deterministic). Each later step's grid is 5 % slower
+// (startTilt), so that no start has two equal rate constants: for consecutive steps
+// (A -> B -> C) the fit is symmetric in the order of the constants with free spectra or
+// amplitudes (the slow–fast ambiguity), equal constants are a saddle between the two orders,
+// and the direction Levenberg–Marquardt leaves it in would be decided by rounding.
 func (p *fitProblem) starts(m int) ([][]float64, error) {
 	base := p.pack(p.k0, p.c00)
 	if p.opt.InitialK != nil || len(p.kFree) == 0 {
@@ -414,7 +418,7 @@ func (p *fitProblem) starts(m int) ([][]float64, error) {
 			th := append([]float64(nil), base...)
 			c := code
 			for a := 0; a < nf; a++ {
-				th[a] += math.Log(factors[c%len(factors)])
+				th[a] += math.Log(factors[c%len(factors)]) - float64(a)*math.Log(startTilt)
 				c /= len(factors)
 			}
 			cands = append(cands, th)
@@ -457,6 +461,9 @@ func (p *fitProblem) starts(m int) ([][]float64, error) {
 	return out, nil
 }
 
+// startTilt is the factor each later step's grid of starts is slower by.
+const startTilt = 1.05
+
 // solve runs Levenberg–Marquardt from each start and keeps the lowest sum of squares (the
 // earliest start on ties).
 func (p *fitProblem) solve(m int) (*LMResult, error) {
@@ -478,7 +485,7 @@ func (p *fitProblem) solve(m int) (*LMResult, error) {
 			}
 			return &LMResult{X: th, Residual: r, SSR: ssr, Jacobian: mat.NewDense(m, 1, nil), Converged: true, Reason: "no free parameters"}, nil
 		}
-		res, err := LevenbergMarquardt(p.residual, nil, th, m, p.opt.LM)
+		res, err := LevenbergMarquardt(p.residual, p.jacobianFunc(), th, m, p.opt.LM)
 		if err != nil {
 			if firstErr == nil {
 				firstErr = err

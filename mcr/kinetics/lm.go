@@ -16,8 +16,14 @@ import (
 // it is returned.
 type ResidualFunc func(x, r []float64) error
 
-// JacobianFunc writes ∂r_i/∂x_j into jac (m × n).
+// JacobianFunc writes ∂r_i/∂x_j into jac (m × n). Returning ErrUseDifferences
+// asks for central differences at this x instead (a model whose exact
+// derivatives do not cover every point).
 type JacobianFunc func(x []float64, jac *mat.Dense) error
+
+// ErrUseDifferences, from a JacobianFunc, makes LevenbergMarquardt form that
+// Jacobian by central differences.
+var ErrUseDifferences = errors.New("kinetics: no analytic jacobian here: use central differences")
 
 // LMSettings tunes LevenbergMarquardt; zero fields take the defaults of MINPACK's lmder.
 type LMSettings struct {
@@ -102,7 +108,9 @@ func LevenbergMarquardt(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, s
 	rm := make([]float64, m)
 	jacobian := func(x []float64) error {
 		if jac != nil {
-			return jac(x, J)
+			if err := jac(x, J); !errors.Is(err, ErrUseDifferences) {
+				return err
+			}
 		}
 		xt := append([]float64(nil), x...)
 		for j := 0; j < n; j++ {

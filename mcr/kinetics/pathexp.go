@@ -40,6 +40,9 @@ type pathTerm struct {
 	to     int
 	weight float64
 	pts    []float64
+	// path is the species along the path, from its start to `to`
+	// (sensitivities differentiate the weight and the points along it).
+	path []int
 }
 
 // newPathExp returns nil when the network has a cycle (a reversible step)
@@ -86,21 +89,22 @@ func newPathExp(m *mat.Dense, ns int, y0 []float64) *pathExp {
 	if pe.nr > 0 {
 		pe.r = mat.DenseCopyOf(m.Slice(ns, d, 0, ns))
 	}
-	var walk func(s int, w float64, pts []float64)
-	walk = func(s int, w float64, pts []float64) {
+	var walk func(s int, w float64, pts []float64, path []int)
+	walk = func(s int, w float64, pts []float64, path []int) {
 		pts = append(pts, k.At(s, s))
+		path = append(path, s)
 		sorted := append([]float64(nil), pts...)
 		sort.Float64s(sorted)
-		pe.terms = append(pe.terms, pathTerm{to: s, weight: w, pts: sorted})
+		pe.terms = append(pe.terms, pathTerm{to: s, weight: w, pts: sorted, path: append([]int(nil), path...)})
 		for i := 0; i < ns; i++ {
 			if v := k.At(i, s); i != s && v > 0 {
-				walk(i, w*v, pts)
+				walk(i, w*v, pts, path)
 			}
 		}
 	}
 	for _, j := range order {
 		if pe.c0[j] > 0 {
-			walk(j, pe.c0[j], nil)
+			walk(j, pe.c0[j], nil, nil)
 		}
 	}
 	return pe
