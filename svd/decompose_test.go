@@ -245,7 +245,7 @@ func TestDeterministicAcrossGOMAXPROCS(t *testing.T) {
 // A randomized SVD started from a basis the row space is known to lie near
 // (DecomposeOptions.Start) against gonum's LAPACK SVD (the reference): difference rows
 // ΔD = D − 1 gᵀ of a bilinear + noise matrix D lie in D's row space plus g, so the
-// start is D's leading right singular vectors and g. With one power iteration the leading
+// start is D's leading right singular vectors and g. With no power iteration the leading
 // values and vectors must agree with the exact ones as closely as the random start's two
 // (TestDecomposeMethodsAgree's tolerances). A start whose rows do not match is an error.
 func TestDecomposeWarmStart(t *testing.T) {
