@@ -2,6 +2,7 @@ package mcr
 
 import (
 	"math"
+	"math/rand/v2"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -97,5 +98,90 @@ func TestTimeConstantPatternWeighted(t *testing.T) {
 	ss, white = TimeConstantPattern(&d2, c2, s2, row, col)
 	if want := 200.0; math.Abs(ss-want) > 1e-12*want || !white {
 		t.Errorf("weighted, with a model: ss %g white %v, want %g true", ss, white, want)
+	}
+}
+
+// The restart under a constraint is the caller's choice: asked only after a
+// refit that got below the constrained fit, and when declined the check
+// keeps the resolution's own fit as "with" (the definition of the check:
+// the fit with the constraint is the resolution's unless a restart under it
+// found a lower one). Asked every time, the checks are CheckConstraints'
+// bit for bit. Data: the diluted two-species series above (closure false,
+// so its refit drops the residual far) with noise constant in counts
+// (absorbance noise ∝ 1/I, I = 10^−A; the demo's model, common practice).
+func TestCheckRestartChosenByCaller(t *testing.T) {
+	n, m := 40, 50
+	c := mat.NewDense(n, 2, nil)
+	for i := 0; i < n; i++ {
+		u := float64(i) / float64(n-1)
+		a := math.Exp(-3 * u)
+		f := 1 - 0.3*u
+		c.SetRow(i, []float64{f * a, f * (1 - a)})
+	}
+	s := mat.NewDense(m, 2, nil)
+	for i := 0; i < m; i++ {
+		x := float64(i) / float64(m-1)
+		s.SetRow(i, []float64{bump(x, -0.1, 0.55), bump(x, 0.4, 1.1)})
+	}
+	var d mat.Dense
+	d.Mul(c, s.T())
+	rng := rand.New(rand.NewPCG(3, 15))
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			v := d.At(i, j)
+			d.Set(i, j, v+1e-3*math.Pow(10, v)*rng.NormFloat64())
+		}
+	}
+	c0 := mat.NewDense(n, 2, nil)
+	for i := 0; i < n; i++ {
+		u := float64(i) / float64(n-1)
+		c0.SetRow(i, []float64{1 - u, u})
+	}
+	opt := Options{Mode: Species, Closure: true, Total: []float64{1}}
+	fit, err := Resolve(Dense{&d}, c0, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	all, err := CheckConstraints(Dense{&d}, fit, opt, 500)
+	if err != nil {
+		t.Fatal(err)
+	}
+	asked := 0
+	always, err := CheckConstraintsWith(Dense{&d}, fit, opt, CheckOptions{MaxIter: 500, Restart: func(cc ConstraintCheck) bool {
+		asked++
+		if cc.With != fit.LackOfFitPercent || cc.ResidualSSWithout > cc.ResidualSSWith {
+			t.Errorf("asked about %s with %+v: want the resolution's fit and a refit below it", cc.Name, cc)
+		}
+		return true
+	}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := range all {
+		if all[i].With != always[i].With || all[i].Without != always[i].Without || all[i].Restarted != always[i].Restarted {
+			t.Errorf("%s: restart always asked for gives %+v, CheckConstraints %+v", all[i].Name, always[i], all[i])
+		}
+	}
+	never, err := CheckConstraintsWith(Dense{&d}, fit, opt, CheckOptions{MaxIter: 500, Restart: func(ConstraintCheck) bool { return false }})
+	if err != nil {
+		t.Fatal(err)
+	}
+	below := 0
+	for i, cc := range never {
+		if cc.Restarted || cc.With != fit.LackOfFitPercent || cc.ResidualSSWith != fit.ResidualSS {
+			t.Errorf("%s without restarts: %+v, want the resolution's fit %.6g %% as with", cc.Name, cc, fit.LackOfFitPercent)
+		}
+		if cc.Without != all[i].Without && !all[i].Restarted {
+			t.Errorf("%s: the refit changed with the restart declined: %.6g %%, was %.6g %%", cc.Name, cc.Without, all[i].Without)
+		}
+		if cc.ResidualSSWithout <= cc.ResidualSSWith {
+			below++
+		}
+	}
+	if asked == 0 || asked != below {
+		t.Errorf("asked %d times, %d refits got below the constrained fit", asked, below)
+	}
+	if cl := never[0]; cl.Name != "closure" || !(cl.Without < 0.9*cl.With) {
+		t.Errorf("closure check %+v: dilution should cost visibly", cl)
 	}
 }
