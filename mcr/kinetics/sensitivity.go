@@ -150,32 +150,43 @@ func newEigenSens(ex *eigenExp, dirs []*mat.Dense, job sensitivityJob) *eigenSen
 	return es
 }
 
-// at writes c(t) into y and ∂c/∂ln θ into d[a].
+// at writes c(t) into y and ∂c/∂ln θ into d[a]. c is V (e^{Λt} ∘ w) as
+// eigenExp.at forms it (the same products and sums, so the same bits).
+// P_ab = Φ_ab w_b is formed once per time for every parameter; Φ is
+// symmetric, and when the exponents differ by more than 1/2 the direct
+// difference loses at most a factor 1/(1 − e^{−1/2}) ≈ 2.5 of ε, so
+// expm1 is needed only for close pairs.
 func (es *eigenSens) at(t float64, y []float64, d [][]float64) {
 	ex := es.ex
 	ns := ex.ns
-	ex.at(t, y)
 	for a, l := range ex.lambda {
 		es.e[a] = math.Exp(l * t)
+		es.tmp[a] = es.e[a] * ex.w[a]
 	}
+	mulRaw(ex.v, es.tmp, y[:ns])
 	for a, la := range ex.lambda {
-		for b, lb := range ex.lambda {
+		es.phi[a*ns+a] = t * es.e[a] * ex.w[a]
+		for b := a + 1; b < ns; b++ {
+			lb := ex.lambda[b]
 			var v float64
-			switch {
-			case a == b || la == lb:
+			switch x := (la - lb) * t; {
+			case la == lb:
 				v = t * es.e[a]
+			case math.Abs(x) > 0.5:
+				v = (es.e[a] - es.e[b]) / (la - lb)
 			default:
-				v = es.e[b] * math.Expm1((la-lb)*t) / (la - lb)
+				v = es.e[b] * math.Expm1(x) / (la - lb)
 			}
-			es.phi[a*ns+b] = v
+			es.phi[a*ns+b] = v * ex.w[b]
+			es.phi[b*ns+a] = v * ex.w[a]
 		}
 	}
 	for p, g := range es.g {
 		for a := 0; a < ns; a++ {
-			row := g.RawRowView(a)
+			row, pa := g.RawRowView(a), es.phi[a*ns:(a+1)*ns]
 			var v float64
 			for b, gab := range row {
-				v += gab * es.phi[a*ns+b] * ex.w[b]
+				v += gab * pa[b]
 			}
 			es.tmp[a] = v
 		}
