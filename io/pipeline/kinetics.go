@@ -1190,7 +1190,13 @@ func (kn *Kinetics) columnWord() string {
 // (kinetics.NonNegativeCost), in noise variances: a difference of more than
 // 4 is beyond noise (an F test with one degree of freedom; common
 // practice). The better fit is reported, and the message says which fits
-// better and by how much.
+// better and by how much. After the first such exchange the check starts
+// over from the exchanges of the order now reported, so that every
+// alternative it lists is one of that order's (before, those of the
+// discarded order were compared after it); a fit of the same data that ends
+// at the same constants, as the one after hard–soft does the one before it,
+// then finds every refit made (refit) and checks at the cost of one
+// non-negative fit.
 func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.Dense, opt kinetics.FitOptions, notes *[]string) {
 	alts := kn.exchanges(best.K)
 	if len(alts) == 0 {
@@ -1217,9 +1223,17 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 			*notes = append(*notes, fmt.Sprintf("kinetics: other orders of the rate constants fit the data as well as k = %s with free spectra but worse with non-negative spectra, which choose the reported order: %s", kn.kList(best.K), strings.Join(worseNN, "; ")))
 		}
 	}()
-	for _, start := range alts {
+	restarted := false
+	var i int
+	again := func() {
+		if !restarted {
+			restarted = true
+			alts, i = kn.exchanges(best.K), -1
+		}
+	}
+	for i = 0; i < len(alts); i++ {
 		o := opt
-		o.InitialK = start
+		o.InitialK = alts[i]
 		alt, altSpectra, err := kn.refit(r, best, o)
 		if err != nil || !(best.Sigma > 0) {
 			continue
@@ -1239,6 +1253,7 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 			worseFree, worseNN = nil, nil // their figures were against the old values
 			best.Warnings = append(best.Warnings, fmt.Sprintf("the data fit better with k = %s than with %s, the order the resolved profiles pointed to (free spectra: residual sum of squares %.4g times lower, %.3g noise variances); the better values are reported", ks, old, oldSSR/best.SSR, -free))
 			bestNNdone = false
+			again()
 			continue
 		}
 		if free > 4 {
@@ -1265,6 +1280,7 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 			bestNN = altNN
 			worseFree, worseNN = nil, nil
 			best.Warnings = append(best.Warnings, fmt.Sprintf("with free spectra k = %s and %s fit the data as well (%.2g noise variances), but with non-negative spectra k = %s fits better (residual sum of squares %.4g times lower, %.3g noise variances): it is reported; the resolved profiles pointed the other way", ks, old, free, ks, oldNN/(best.SSR+altNN), -nn))
+			again()
 		case nn > 4:
 			worseNN = append(worseNN, fmt.Sprintf("%s: %.2g noise variances with free spectra, with non-negative spectra a residual sum of squares %.4g times higher (%.3g noise variances)", ks, free, (alt.SSR+altNN)/(best.SSR+bestNN), nn))
 		default:
