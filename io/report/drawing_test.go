@@ -2,6 +2,7 @@ package report
 
 import (
 	"bytes"
+	"encoding/csv"
 	"fmt"
 	"image"
 	"image/color"
@@ -239,5 +240,30 @@ func TestThinKeepsEachColumnsExtremes(t *testing.T) {
 	sparse := []vg.Point{{X: 0, Y: 1}, {X: 2 * pixelColumn, Y: 3}, {X: 4 * pixelColumn, Y: 2}, {X: 6 * pixelColumn, Y: 5}, {X: 8 * pixelColumn, Y: 0}}
 	if got := thin(sparse); !slices.Equal(got, sparse) {
 		t.Errorf("a line with a point every other column came back as %v", got)
+	}
+}
+
+// parseCSV gives the records encoding/csv (the standard library's reader
+// of RFC 4180 CSV, the reference here) gives with '#' comments and any
+// number of fields: on files without quotes, which it splits itself, and
+// on files with them.
+func TestParseCSVAsTheStandardReader(t *testing.T) {
+	for _, in := range []string{
+		"a,b,c\n1,2,3\n",
+		"a,b,c\n1,2,3",
+		"matrix,experiment,time,1800,1799\n\ndata,1,0,0.5,-1e-05\n# note\ndata,1,10,,0.25\n\n",
+		"x\n \n,\n,,\nµ,ΔA,ppm\n",
+		"name,value\n\"a, b\",1\n\"say \"\"hi\"\"\",2\n",
+		"a,b\r\n1,2\r\n",
+		"",
+		"\n\n",
+	} {
+		r := csv.NewReader(strings.NewReader(in))
+		r.FieldsPerRecord, r.Comment = -1, '#'
+		want, werr := r.ReadAll()
+		got, gerr := parseCSV([]byte(in))
+		if (werr != nil) != (gerr != nil) || !slices.EqualFunc(got, want, slices.Equal) {
+			t.Errorf("%q: got %q (%v), encoding/csv %q (%v)", in, got, gerr, want, werr)
+		}
 	}
 }

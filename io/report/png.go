@@ -31,6 +31,7 @@ func encodePNG(w io.Writer, img *image.RGBA) error {
 	hdr[8], hdr[9] = 8, 2 // bit depth 8, colour type 2 (RGB); methods 0 (deflate, the five filters), no interlace
 	pngChunk(&b, "IHDR", hdr[:])
 	var z bytes.Buffer
+	z.Grow(len(img.Pix) / 8) // figures deflate to about a tenth
 	zw, err := zlib.NewWriterLevel(&z, zlib.BestSpeed)
 	if err != nil {
 		return err

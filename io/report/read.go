@@ -245,10 +245,7 @@ func readTable(path string) (*Table, error) {
 	if err != nil {
 		return nil, err
 	}
-	r := csv.NewReader(bytes.NewReader(b))
-	r.FieldsPerRecord = -1
-	r.Comment = '#'
-	recs, err := r.ReadAll()
+	recs, err := parseCSV(b)
 	if err != nil {
 		return nil, fmt.Errorf("not a CSV table: %w", err)
 	}
@@ -256,6 +253,32 @@ func readTable(path string) (*Table, error) {
 		return nil, fmt.Errorf("empty")
 	}
 	return &Table{Header: recs[0], Text: recs[1:]}, nil
+}
+
+// parseCSV reads CSV records (RFC 4180) with '#' comment lines and any
+// number of fields per line, as encoding/csv does. Text without quotes or
+// carriage returns — every file bandsolve writes but for names with
+// commas — is split on commas and line feeds directly, into cells that
+// share one string: the same records without a string allocated per cell
+// (maps.csv has a quarter of a million).
+func parseCSV(b []byte) ([][]string, error) {
+	if bytes.ContainsAny(b, "\"\r") {
+		r := csv.NewReader(bytes.NewReader(b))
+		r.FieldsPerRecord = -1
+		r.Comment = '#'
+		return r.ReadAll()
+	}
+	text := string(b)
+	var recs [][]string
+	for len(text) > 0 {
+		line, rest, _ := strings.Cut(text, "\n")
+		text = rest
+		if line == "" || line[0] == '#' {
+			continue // as encoding/csv: empty lines and comments are skipped
+		}
+		recs = append(recs, strings.Split(line, ","))
+	}
+	return recs, nil
 }
 
 // MapsFile is the name of the downsampled matrices file.
