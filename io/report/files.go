@@ -9,6 +9,7 @@ import (
 	"strings"
 	"sync"
 
+	"git.sr.ht/~sbinet/gg"
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/font"
 	"gonum.org/v1/plot/vg"
@@ -94,8 +95,8 @@ func standalone(fig Figure) (svg, pngb []byte, err error) {
 	}
 	// The canvas starts white, so the plots' own white backgrounds are not
 	// filled again (a fill of the whole picture each).
-	ic := vgimg.NewWith(vgimg.UseWH(d.w, d.h+legH), vgimg.UseDPI(FigureDPI))
-	c := draw.New(ic)
+	ic, rgba := rasterCanvas(d.w, d.h+legH)
+	c := draw.Canvas{Canvas: ic, Rectangle: vg.Rectangle{Max: vg.Point{X: d.w, Y: d.h + legH}}}
 	// The raster font has no superscript minus: "cm⁻¹" would print as
 	// "cm¹". Axis texts are written "cm-1" in the PNG only.
 	restore := plainMinus(d.plots)
@@ -104,15 +105,26 @@ func standalone(fig Figure) (svg, pngb []byte, err error) {
 	restoreBg()
 	restore()
 	drawLegend(c, fig.Legend, perRow, d.w)
-	rgba, ok := ic.Image().(*image.RGBA)
-	if !ok {
-		return nil, nil, fmt.Errorf("the raster canvas is not RGBA")
-	}
 	var pb bytes.Buffer
 	if err := encodePNG(&pb, rgba); err != nil {
 		return nil, nil, err
 	}
 	return svg, pb.Bytes(), nil
+}
+
+// rasterCanvas is a white FigureDPI canvas for a drawing w × h, drawing
+// straight into the image it returns. vgimg.NewWith(UseWH) makes an image
+// and then a copy of it for its drawing context (gg.NewContextForImage):
+// two 2.4 MB images a figure, a tenth of the figure files' time. The
+// context is set up as NewWith sets up its own (butt line caps, y up).
+// The image is the size NewWith gives (w and h in pixels, rounded).
+func rasterCanvas(w, h vg.Length) (*vgimg.Canvas, *image.RGBA) {
+	px := func(l vg.Length) int { return int(l/vg.Inch*FigureDPI + 0.5) }
+	img := image.NewRGBA(image.Rect(0, 0, px(w), px(h)))
+	ctx := gg.NewContextForRGBA(img)
+	ctx.SetLineCapButt()
+	ctx.InvertY()
+	return vgimg.NewWith(vgimg.UseImageWithContext(img, ctx), vgimg.UseDPI(FigureDPI)), img
 }
 
 // noBackground takes the plots' background colours away (for a canvas
