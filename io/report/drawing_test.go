@@ -2,6 +2,7 @@ package report
 
 import (
 	"bytes"
+	"encoding/base64"
 	"encoding/csv"
 	"fmt"
 	"image"
@@ -9,11 +10,13 @@ import (
 	"image/png"
 	"math"
 	"math/rand/v2"
+	"regexp"
 	"slices"
 	"strings"
 	"testing"
 
 	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
 )
 
 // kth is the k-th order statistic: by definition the k-th element (0-based)
@@ -264,6 +267,68 @@ func TestParseCSVAsTheStandardReader(t *testing.T) {
 		got, gerr := parseCSV([]byte(in))
 		if (werr != nil) != (gerr != nil) || !slices.EqualFunc(got, want, slices.Equal) {
 			t.Errorf("%q: got %q (%v), encoding/csv %q (%v)", in, got, gerr, want, werr)
+		}
+	}
+}
+
+// The maps reach the canvases under the crops the plot makes: the SVG
+// embeds them as paletted PNG (PNG specification colour type 3), and the
+// PNG file paints each cell as a block of the image pixel under it
+// (nearest neighbour), the colours the palette gives.
+func TestMapsReachTheirCanvases(t *testing.T) {
+	f, err := Load(fixture(t, true))
+	if err != nil {
+		t.Fatal(err)
+	}
+	figs, _ := Figures(f)
+	found := false
+	for _, fig := range figs {
+		if fig.ID != "fig-map" {
+			continue
+		}
+		found = true
+		uri := regexp.MustCompile(`data:image/png;base64,([A-Za-z0-9+/=]+)`).FindAllStringSubmatch(fig.SVG, -1)
+		if len(uri) == 0 {
+			t.Fatal("the map's SVG embeds no image")
+		}
+		for _, u := range uri {
+			raw, err := base64.StdEncoding.DecodeString(u[1])
+			if err != nil {
+				t.Fatal(err)
+			}
+			img, err := png.Decode(bytes.NewReader(raw))
+			if err != nil {
+				t.Fatal(err)
+			}
+			if _, ok := img.(*image.Paletted); !ok {
+				t.Errorf("the map's SVG embeds a %T, want a paletted image", img)
+			}
+		}
+	}
+	if !found {
+		t.Fatal("the fixture has no fig-map")
+	}
+	// A 4 × 2 image over a rectangle of 12 × 6 pixels: blocks of 3 × 3.
+	src := image.NewPaletted(image.Rect(0, 0, 4, 2), mapPalette)
+	for i := range src.Pix {
+		src.Pix[i] = uint8(i * 30)
+	}
+	pc, img := rasterCanvas(20*pixelColumn, 10*pixelColumn)
+	c := draw.Canvas{Canvas: pc, Rectangle: vg.Rectangle{Max: vg.Point{X: 20 * pixelColumn, Y: 10 * pixelColumn}}}
+	if got := baseCanvas(draw.Crop(draw.Crop(c, 1, 0, 0, 0), 0, 0, 1, 0)); got != vg.Canvas(pc) {
+		t.Fatalf("under two crops the canvas is a %T, want the pixel canvas", got)
+	}
+	// Canvas y counts from the bottom: rows 3–8 from the top of 10.
+	pc.paint(vg.Rectangle{Min: vg.Point{X: 2 * pixelColumn, Y: 1 * pixelColumn}, Max: vg.Point{X: 14 * pixelColumn, Y: 7 * pixelColumn}}, src)
+	for py := range 10 {
+		for px := range 20 {
+			want := color.RGBA{255, 255, 255, 255}
+			if px >= 2 && px < 14 && py >= 3 && py < 9 {
+				want = mapPalette[src.Pix[(py-3)/3*src.Stride+(px-2)/3]].(color.RGBA)
+			}
+			if got := img.RGBAAt(px, py); got != want {
+				t.Fatalf("pixel %d,%d is %v, want %v", px, py, got, want)
+			}
 		}
 	}
 }

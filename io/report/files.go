@@ -118,13 +118,13 @@ func standalone(fig Figure) (svg, pngb []byte, err error) {
 // two 2.4 MB images a figure, a tenth of the figure files' time. The
 // context is set up as NewWith sets up its own (butt line caps, y up).
 // The image is the size NewWith gives (w and h in pixels, rounded).
-func rasterCanvas(w, h vg.Length) (*vgimg.Canvas, *image.RGBA) {
+func rasterCanvas(w, h vg.Length) (*pixelCanvas, *image.RGBA) {
 	px := func(l vg.Length) int { return int(l/vg.Inch*FigureDPI + 0.5) }
 	img := image.NewRGBA(image.Rect(0, 0, px(w), px(h)))
 	ctx := gg.NewContextForRGBA(img)
 	ctx.SetLineCapButt()
 	ctx.InvertY()
-	return vgimg.NewWith(vgimg.UseImageWithContext(img, ctx), vgimg.UseDPI(FigureDPI)), img
+	return &pixelCanvas{Canvas: vgimg.NewWith(vgimg.UseImageWithContext(img, ctx), vgimg.UseDPI(FigureDPI)), img: img}, img
 }
 
 // noBackground takes the plots' background colours away (for a canvas

@@ -16,6 +16,7 @@ import (
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
+	"gonum.org/v1/plot/vg/vgimg"
 	"gonum.org/v1/plot/vg/vgsvg"
 )
 
@@ -352,17 +353,16 @@ func band(p *plot.Plot, x, lo, hi []float64, c color.RGBA) {
 // raster draws an image into a data rectangle. It maps the corners through
 // the plot's transforms, so it stays right on an inverted axis (the gonum
 // heat map assumes a forward one). SVG canvases get the paletted image (its
-// PNG is 1 byte a pixel, unfiltered, and so cheap to encode); raster
-// canvases the same pixels in full colour.
+// PNG is 1 byte a pixel, unfiltered, and so cheap to encode); the figure
+// files' raster canvas paints it pixel by pixel (pixelCanvas.paint).
 type raster struct {
 	pal                    *image.Paletted
-	img                    *image.RGBA
 	xmin, xmax, ymin, ymax float64
 }
 
 // newRaster draws p over the data rectangle r (xmin, xmax, ymin, ymax).
 func newRaster(p *image.Paletted, r [4]float64) raster {
-	return raster{pal: p, img: rgbaOf(p), xmin: r[0], xmax: r[1], ymin: r[2], ymax: r[3]}
+	return raster{pal: p, xmin: r[0], xmax: r[1], ymin: r[2], ymax: r[3]}
 }
 
 func (r raster) Plot(c draw.Canvas, p *plot.Plot) {
@@ -375,11 +375,72 @@ func (r raster) Plot(c draw.Canvas, p *plot.Plot) {
 	if y0 > y1 {
 		y0, y1 = y1, y0
 	}
-	var img image.Image = r.img
-	if _, ok := c.Canvas.(*vgsvg.Canvas); ok {
-		img = r.pal
+	rect := vg.Rectangle{Min: vg.Point{X: x0, Y: y0}, Max: vg.Point{X: x1, Y: y1}}
+	switch cv := baseCanvas(c).(type) {
+	case *vgsvg.Canvas:
+		cv.DrawImage(rect, r.pal)
+	case *pixelCanvas:
+		cv.paint(rect, r.pal)
+	default:
+		c.DrawImage(rect, rgbaOf(r.pal))
 	}
-	c.DrawImage(vg.Rectangle{Min: vg.Point{X: x0, Y: y0}, Max: vg.Point{X: x1, Y: y1}}, img)
+}
+
+// baseCanvas is the canvas c draws on: draw.Crop wraps a draw.Canvas in
+// another, once per crop.
+func baseCanvas(c draw.Canvas) vg.Canvas {
+	var cv vg.Canvas = c
+	for {
+		d, ok := cv.(draw.Canvas)
+		if !ok {
+			return cv
+		}
+		cv = d.Canvas
+	}
+}
+
+// pixelCanvas is the figure files' raster canvas together with the image
+// it draws into, so that maps can be painted straight into it.
+type pixelCanvas struct {
+	*vgimg.Canvas
+	img *image.RGBA
+}
+
+// paint draws p over rect (canvas coordinates): every pixel whose centre
+// lies inside takes the colour of the image pixel under that centre
+// (nearest neighbour), the sharp cells the report's SVG shows
+// (image-rendering: pixelated). The drawing context would resample the
+// image bilinearly instead, at a tenth of the figure files' time.
+func (pc *pixelCanvas) paint(rect vg.Rectangle, p *image.Paletted) {
+	dpi := pc.DPI()
+	w, h := pc.img.Rect.Dx(), pc.img.Rect.Dy()
+	// Image rows count down from the top; canvas y counts up from the bottom.
+	x0, x1 := rect.Min.X.Dots(dpi), rect.Max.X.Dots(dpi)
+	top, bottom := float64(h)-rect.Max.Y.Dots(dpi), float64(h)-rect.Min.Y.Dots(dpi)
+	if !(x1 > x0 && bottom > top) {
+		return
+	}
+	colours := make([]color.RGBA, len(p.Palette))
+	for i, c := range p.Palette {
+		colours[i] = color.RGBAModel.Convert(c).(color.RGBA)
+	}
+	sw, sh := p.Rect.Dx(), p.Rect.Dy()
+	first := func(a float64) int { return int(math.Ceil(a - 0.5)) } // first pixel whose centre is ≥ a
+	pxLo, pxHi := max(0, first(x0)), min(w, first(x1))
+	src := make([]int, max(0, pxHi-pxLo))
+	for i := range src {
+		src[i] = min(sw-1, int((float64(pxLo+i)+0.5-x0)/(x1-x0)*float64(sw)))
+	}
+	for py := max(0, first(top)); py < min(h, first(bottom)); py++ {
+		sy := min(sh-1, int((float64(py)+0.5-top)/(bottom-top)*float64(sh)))
+		row := p.Pix[sy*p.Stride:]
+		out := pc.img.Pix[py*pc.img.Stride+4*pxLo:]
+		for i, sx := range src {
+			c := colours[row[sx]]
+			o := out[4*i : 4*i+4 : 4*i+4]
+			o[0], o[1], o[2], o[3] = c.R, c.G, c.B, c.A
+		}
+	}
 }
 
 func (r raster) DataRange() (xmin, xmax, ymin, ymax float64) { return r.xmin, r.xmax, r.ymin, r.ymax }
