@@ -354,6 +354,13 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	var in rankInputs
 	rf := (*svd.Factors)(nil) // factors of the matrix the rank is counted on
 	f := (*svd.Factors)(nil)  // factors of D itself (without weights)
+	// spare is the difference matrix's memory lent to √A D √B, refs the
+	// experiments' fixed spectra it is rebuilt from (borrowDifference).
+	var spare *mat.Dense
+	var refs [][]float64
+	if weighted(r) && r.Mode == mcr.Species && r.DiffWeights != nil {
+		spare, refs = borrowDifference(r, diffRows)
+	}
 	if weighted(r) {
 		// Rank, baseline order and the nuisance classification on the
 		// noise-scaled matrix √A D √B, whose noise is white with σ = 1
@@ -367,7 +374,11 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 			in = weightedRankInputs(r, r.Scaled, r.Weights.Row, r.Weights.Col, refRow, maxF)
 			r.Scaled = nil // not held further: EFA and purest variables use its factors
 		} else {
-			in = weightedRankInputs(r, svd.Scale(r.D, r.Weights.Row, r.Weights.Col), r.Weights.Row, r.Weights.Col, refRow, maxF)
+			scaled := spare
+			if scaled == nil {
+				scaled = mat.NewDense(n, m, nil)
+			}
+			in = weightedRankInputs(r, svd.ScaleInto(scaled, r.D, r.Weights.Row, r.Weights.Col), r.Weights.Row, r.Weights.Col, refRow, maxF)
 			// The baseline's projection overwrites this copy and
 			// rebuilds it from D: one scaled matrix instead of two.
 			in.reuse = true
@@ -406,7 +417,22 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	if !weighted(r) {
 		r.NoiseSigma, r.NoiseSource = rank.Sigma, rank.SigmaSource
 	}
-	if r.Mode == mcr.Species {
+	if spare != nil {
+		// The differences have their own noise (the reference's added):
+		// scaled with their own weights, their noise is white with σ = 1.
+		// Rebuilt from D in the lent memory, their randomized SVD starting
+		// from the row space √A D √B's factors already found
+		// (weightedDifferenceStart).
+		ref := -1
+		if len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
+			ref = r.Experiments[0].RefRows[0]
+		}
+		start := weightedDifferenceStart(r, refs, rf)
+		din := weightedRankInputs(r, scaledDifferenceInto(spare, r, refs), r.DiffWeights.Row, r.DiffWeights.Col, ref, maxF)
+		din.reuse, din.start = true, start
+		r.DiffRank, r.DiffChemical, _ = chemicalRank(r, din.d, nil, r.BaselineOrder, din, false)
+		diffAdvice(r, rank)
+	} else if r.Mode == mcr.Species {
 		dd := stack(diffRows)
 		ref := -1
 		if len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
@@ -438,7 +464,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 			// Scaled and then projected in place: dd is not used again.
 			// Its randomized SVD starts from the row space the factors of
 			// √A D √B already found (weightedDifferenceStart).
-			start := weightedDifferenceStart(r, dd, rf)
+			start := weightedDifferenceStart(r, referenceSpectra(r, dd), rf)
 			din = weightedRankInputs(r, svd.ScaleInto(dd, dd, r.DiffWeights.Row, r.DiffWeights.Col), r.DiffWeights.Row, r.DiffWeights.Col, ref, maxF)
 			din.reuse, din.start = true, start
 			r.DiffRank, r.DiffChemical, _ = chemicalRank(r, din.d, nil, r.BaselineOrder, din, false)
@@ -447,14 +473,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 		} else if fd, err := differenceFactors(r, dd, f, maxF); err == nil {
 			r.DiffRank, r.DiffChemical, _ = chemicalRank(r, dd, fd, -1, din, false)
 		}
-		if r.DiffRank != nil {
-			switch {
-			case r.DiffRank.Estimate == 0:
-				r.Advice = append(r.Advice, "the difference spectra show no change beyond noise: nothing reacted")
-			case r.DiffRank.Estimate < rank.Estimate:
-				r.Advice = append(r.Advice, fmt.Sprintf("absolute absorbance has %d chemical component(s) and the differences %d: at least %d species take part in %d independent reaction(s) (species whose amounts stay in a fixed ratio, or several closed subsystems, add no rank and can hide)", rank.Estimate, r.DiffRank.Estimate, rank.Estimate, r.DiffRank.Estimate))
-			}
-		}
+		diffAdvice(r, rank)
 	} else if rank.Estimate > 0 {
 		r.Advice = append(r.Advice, fmt.Sprintf("difference data has rank %d = the number of independent reactions it shows (at least %d species take part; a rank deficiency can hide more); to resolve species give a blank single beam (--blank) or absorbance input", rank.Estimate, rank.Estimate+1))
 	}
@@ -503,6 +522,19 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 		r.Warnings = append(r.Warnings, "kinetics not done: "+err.Error())
 	}
 	return r, nil
+}
+
+// diffAdvice says what the difference rank adds to the absorbance's rank.
+func diffAdvice(r *Result, rank *svd.RankReport) {
+	if r.DiffRank == nil {
+		return
+	}
+	switch {
+	case r.DiffRank.Estimate == 0:
+		r.Advice = append(r.Advice, "the difference spectra show no change beyond noise: nothing reacted")
+	case r.DiffRank.Estimate < rank.Estimate:
+		r.Advice = append(r.Advice, fmt.Sprintf("absolute absorbance has %d chemical component(s) and the differences %d: at least %d species take part in %d independent reaction(s) (species whose amounts stay in a fixed ratio, or several closed subsystems, add no rank and can hide)", rank.Estimate, r.DiffRank.Estimate, rank.Estimate, r.DiffRank.Estimate))
+	}
 }
 
 // reactionsRidge is the relative Tikhonov term of the extents step in

@@ -41,34 +41,40 @@ func differenceFactors(r *Result, dd *mat.Dense, f *svd.Factors, maxF int) (*svd
 	if maxF == 0 || f == nil || f.V == nil || !largeData(n, m) {
 		return svd.Decompose(dd, svd.DecomposeOptions{MaxFactors: maxF, Seed: r.Settings.Seed})
 	}
-	return svd.DecomposeInSpan(dd, differenceBasis(r, dd, f.V))
+	return svd.DecomposeInSpan(dd, differenceBasis(f.V, referenceSpectra(r, dd)))
 }
 
-// differenceBasis returns [v, g_1, …]: the directions v that D's row space lies
-// close to (m × p) and each experiment's fixed spectrum g_e = A_i − ΔA_i (summed
-// over the experiment's rows), between which the rows of the difference matrix dd
-// lie (see differenceFactors). D and dd are taken unscaled.
-func differenceBasis(r *Result, dd, v *mat.Dense) *mat.Dense {
+// referenceSpectra returns each experiment's fixed spectrum g_e = A_i − ΔA_i
+// (summed over the experiment's rows), from D and the difference matrix dd.
+func referenceSpectra(r *Result, dd *mat.Dense) [][]float64 {
 	n, m := dd.Dims()
-	_, p := v.Dims()
 	ne := max(len(r.Experiments), 1)
-	basis := mat.NewDense(m, p+ne, nil)
-	basis.Slice(0, m, 0, p).(*mat.Dense).Copy(v)
-	g := make([]float64, m)
-	for e := 0; e < ne; e++ {
+	gs := make([][]float64, ne)
+	for e := range gs {
 		lo, hi := 0, n
 		if e < len(r.Experiments) {
 			lo, hi = r.Experiments[e].FirstRow, r.Experiments[e].FirstRow+r.Experiments[e].Rows
 		}
-		for j := range g {
-			g[j] = 0
-		}
+		g := make([]float64, m)
 		for i := lo; i < hi; i++ {
 			a, b := r.D.RawRowView(i), dd.RawRowView(i)
 			for j := range g {
 				g[j] += a[j] - b[j]
 			}
 		}
+		gs[e] = g
+	}
+	return gs
+}
+
+// differenceBasis returns [v, g_1, …]: the directions v that D's row space lies
+// close to (m × p) and the experiments' fixed spectra, between which the rows of
+// the difference matrix lie (see differenceFactors). Both are taken unscaled.
+func differenceBasis(v *mat.Dense, gs [][]float64) *mat.Dense {
+	m, p := v.Dims()
+	basis := mat.NewDense(m, p+len(gs), nil)
+	basis.Slice(0, m, 0, p).(*mat.Dense).Copy(v)
+	for e, g := range gs {
 		basis.SetCol(p+e, g)
 	}
 	return basis
@@ -78,11 +84,11 @@ func differenceBasis(r *Result, dd, v *mat.Dense) *mat.Dense {
 // matrix √A′ ΔA √B′ starts (svd.DecomposeOptions.Start): with D ≈ (1/√A) Ũ Σ Ṽᵀ
 // (1/√B) from the factors f of √A D √B, D's row space lies close to span((1/√B) Ṽ),
 // the difference matrix's within that plus the fixed spectra g_e, and the scaled
-// one's is that span times √B′ (the row weights change no row space). dd is the
-// difference matrix before it is scaled. nil on small data (every factor kept:
-// the exact method takes no start).
-func weightedDifferenceStart(r *Result, dd *mat.Dense, f *svd.Factors) *mat.Dense {
-	n, m := dd.Dims()
+// one's is that span times √B′ (the row weights change no row space). gs are the
+// experiments' fixed spectra (referenceSpectra). nil on small data
+// (every factor kept: the exact method takes no start).
+func weightedDifferenceStart(r *Result, gs [][]float64, f *svd.Factors) *mat.Dense {
+	n, m := r.D.Dims()
 	if f == nil || f.V == nil || f.Full() || !largeData(n, m) {
 		return nil
 	}
@@ -94,7 +100,7 @@ func weightedDifferenceStart(r *Result, dd *mat.Dense, f *svd.Factors) *mat.Dens
 			v.Set(j, l, f.V.At(j, l)*g)
 		}
 	}
-	start := differenceBasis(r, dd, v)
+	start := differenceBasis(v, gs)
 	_, q := start.Dims()
 	for j := 0; j < m; j++ {
 		g := math.Sqrt(max(r.DiffWeights.Col[j], 0))

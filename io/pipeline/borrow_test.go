@@ -1,0 +1,87 @@
+package pipeline
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"github.com/bandsolve/bandsolve/io/spectra"
+	"github.com/bandsolve/bandsolve/svd"
+	"gonum.org/v1/gonum/mat"
+)
+
+// TestBorrowedDifferenceIsTheAssembledOne: the difference matrix rebuilt from the
+// absorbance and each experiment's fixed spectrum (borrowDifference,
+// scaledDifferenceInto) is the assembled one to rounding. Reference: the definitions
+// A_i = −log10(I_i/I_blank) and ΔA_i = −log10(I_i/I_ref), whose difference
+// A_i − ΔA_i = log10(I_blank/I_ref) is the same for every spectrum (Beer–Lambert
+// absorbance; PRIMER §1), so ΔA_i = A_i − g with g = A_0 − ΔA_0. Single beams with
+// detector noise constant in counts (σ_I = 4 on about 10⁴ counts, 1 % of the light
+// through the band at 1200 points); spectra assembled by spectra.Assemble, scaled with
+// their own weights for the reference (svd.Scale). A difference matrix that is not
+// A − 1 gᵀ (one point moved by 10⁻⁹ absorbance) must not be borrowed, and stays where
+// it was.
+func TestBorrowedDifferenceIsTheAssembledOne(t *testing.T) {
+	n, m := 40, 300
+	rng := rand.New(rand.NewPCG(3, 5))
+	axis, times := make([]float64, m), make([]float64, n)
+	blank := make([]float64, m)
+	for j := range axis {
+		axis[j] = 1000 + 2*float64(j)
+		blank[j] = 1e4 + rng.NormFloat64()*4
+	}
+	beams := mat.NewDense(n, m, nil)
+	for i := range times {
+		times[i] = 10 * float64(i)
+		for j := range axis {
+			band := 2 * math.Exp(-sq((axis[j]-1200)/20)) // absorbance 2 at the band's top
+			a := band + 0.3*(1-math.Exp(-times[i]/100))*math.Exp(-sq((axis[j]-1400)/30))
+			beams.Set(i, j, 1e4*math.Pow(10, -a)+rng.NormFloat64()*4)
+		}
+	}
+	assemble := func() *spectra.Assembled {
+		as, err := spectra.Assemble(&spectra.Series{Axis: axis, Times: times, Values: mat.DenseCopyOf(beams)}, spectra.AssembleOptions{Kind: spectra.SingleBeam, Blank: blank, Pre: 3})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if as.Absolute == nil || as.Difference == nil || as.DifferenceWeights == nil {
+			t.Fatal("assembly gave no absorbance, difference or weights")
+		}
+		return as
+	}
+	result := func(as *spectra.Assembled) *Result {
+		return &Result{D: as.Absolute, DiffWeights: as.DifferenceWeights, Times: times, Axis: axis,
+			Experiments: []*Experiment{{Assembled: as, Rows: n}}}
+	}
+
+	as := assemble()
+	r := result(as)
+	w := as.DifferenceWeights
+	want := svd.Scale(as.Difference, w.Row, w.Col)
+	dd := as.Difference
+	spare, g := borrowDifference(r, []*mat.Dense{dd})
+	if spare == nil {
+		t.Fatal("the assembled difference matrix was not recognized as A − 1 gᵀ")
+	}
+	if as.Difference != nil || r.diffMapRows == nil {
+		t.Error("the experiment still holds its difference matrix, or the map rows were not kept")
+	}
+	got := scaledDifferenceInto(spare, r, g)
+	worst := 0.0
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			s := math.Sqrt(w.Row[i] * w.Col[j])
+			worst = math.Max(worst, math.Abs(got.At(i, j)-want.At(i, j))/s)
+		}
+	}
+	if worst > 1e-13 {
+		t.Errorf("rebuilt differences differ from the assembled ones by %g absorbance", worst)
+	}
+
+	as = assemble()
+	as.Difference.Set(n/2, m/3, as.Difference.At(n/2, m/3)+1e-9)
+	r = result(as)
+	if spare, _ := borrowDifference(r, []*mat.Dense{as.Difference}); spare != nil || as.Difference == nil {
+		t.Error("a difference matrix that is not A − 1 gᵀ was borrowed")
+	}
+}
