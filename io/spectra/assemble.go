@@ -270,28 +270,48 @@ func median(v []float64) float64 {
 
 // medianInPlace is median for a slice the caller lets it reorder.
 func medianInPlace(c []float64) float64 {
+	lo, hi := middlePair(c)
+	if len(c)%2 == 1 {
+		return hi
+	}
+	return (lo + hi) / 2
+}
+
+// medianOver is the median of the values c[k]/div (div > 0) without the
+// divisions: rounding is monotonic (a ≤ b gives fl(a/div) ≤ fl(b/div)), so
+// the middle values of the quotients are the quotients of the middle values,
+// and the result has the same bits as medianInPlace of the quotients.
+func medianOver(c []float64, div float64) float64 {
+	lo, hi := middlePair(c)
+	if len(c)%2 == 1 {
+		return hi / div
+	}
+	return (lo/div + hi/div) / 2
+}
+
+// middlePair returns the order statistics of c (reordered) that its median
+// is made of: hi the value at rank len(c)/2 (0-based), lo the one before it
+// (meaningful for an even count).
+func middlePair(c []float64) (lo, hi float64) {
 	h := len(c) / 2
+	if len(c) >= radixMin {
+		if hi, lo, ok := radixOrder(c, h, len(c)%2 == 0); ok {
+			return lo, hi
+		}
+	}
 	// Selection instead of a sort: the same value (an element, or the mean
 	// of the two middle ones), in linear time; the noise model takes one
 	// median per channel of every spectrum, where sorting cost more than
 	// parsing the file.
-	if len(c) >= radixMin {
-		if hi, lo, ok := radixOrder(c, h, len(c)%2 == 0); ok {
-			if len(c)%2 == 1 {
-				return hi
-			}
-			return (lo + hi) / 2
-		}
-	}
-	hi := selectKth(c, h)
+	hi = selectKth(c, h)
 	if len(c)%2 == 1 {
-		return hi
+		return hi, hi
 	}
-	lo := c[0]
+	lo = c[0]
 	for _, x := range c[1:h] {
 		lo = math.Max(lo, x)
 	}
-	return (lo + hi) / 2
+	return lo, hi
 }
 
 // selectKth reorders c so that c[k] is the value a sort would put there,
@@ -338,8 +358,8 @@ func selectKth(c []float64, k int) float64 {
 }
 
 // absorbances fills diff with log10(ref/I) and, when blank is given, abs with
-// log10(blank/I), for every single beam I (row of v); abs may be v itself
-// (each value is read before it is overwritten). The logarithm of the ratio
+// log10(blank/I), for every single beam I (row of v); abs, or diff when abs
+// is nil, may be v itself (each value is read before it is overwritten). The logarithm of the ratio
 // rather than a difference of logarithms: exact zero for identical beams and
 // no cancellation when I is close to the reference. Rows are independent and
 // are shared out in fixed chunks, so the result does not depend on

@@ -6,12 +6,15 @@ import (
 
 // Consume gives the same matrices as a copying assembly (definition of
 // absorbance and difference absorbance, as in TestAbsorbanceDefinition) for
-// every kind, and hands the values over instead of keeping them.
+// every kind, with and without a blank, and hands the values over instead of
+// keeping them.
 func TestAssembleConsumeSameValues(t *testing.T) {
 	rows := [][]float64{{100, 10, 1000, 400}, {90, 12, 800, 410}, {80, 15, 700, 420}}
-	for _, kind := range []Kind{SingleBeam, Absorbance, Difference} {
+	// Single beams twice: with a blank (the absolute matrix takes the
+	// values' place) and without (the differences do).
+	for c, kind := range []Kind{SingleBeam, SingleBeam, Absorbance, Difference} {
 		var blank []float64
-		if kind == SingleBeam {
+		if c == 0 {
 			blank = []float64{1000, 1000, 1000, 900}
 		}
 		opt := AssembleOptions{Kind: kind, Blank: blank, Reference: Reference{Mean: 1}}
