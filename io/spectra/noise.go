@@ -5,6 +5,7 @@ import (
 	"math"
 	"sort"
 	"strings"
+	"sync"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -322,15 +323,24 @@ func pooledRunningMAD(d timeDiffs) []float64 {
 // and the floor it sets does not matter.
 func quantum(v *mat.Dense, blind *Blind) float64 {
 	n, m := v.Dims()
+	// The smallest change of each block of rows, then of the blocks: a
+	// minimum is the same whatever order it is taken in.
 	q := math.Inf(1)
-	for i := 1; i < n; i++ {
-		a, b := v.RawRowView(i-1), v.RawRowView(i)
-		for j := 0; j < m; j++ {
-			if d := math.Abs(b[j] - a[j]); d > 0 && d < q && !blind.Has(i-1, j) && !blind.Has(i, j) {
-				q = d
+	var mu sync.Mutex
+	eachRowBlock(n, m, func(r0, r1 int) {
+		bq := math.Inf(1)
+		for i := max(r0, 1); i < r1; i++ {
+			a, b := v.RawRowView(i-1)[:m], v.RawRowView(i)[:m]
+			for j := range a {
+				if d := math.Abs(b[j] - a[j]); d > 0 && d < bq && !blind.Has(i-1, j) && !blind.Has(i, j) {
+					bq = d
+				}
 			}
 		}
-	}
+		mu.Lock()
+		q = math.Min(q, bq)
+		mu.Unlock()
+	})
 	if math.IsInf(q, 1) {
 		return 0
 	}
@@ -343,28 +353,44 @@ func quantum(v *mat.Dense, blind *Blind) float64 {
 func detectorCeiling(v *mat.Dense) float64 {
 	n, m := v.Dims()
 	top := math.Inf(-1)
-	for i := 0; i < n; i++ {
-		for _, x := range v.RawRowView(i)[:m] {
-			if x > top && !math.IsInf(x, 0) {
-				top = x
+	var mu sync.Mutex
+	eachRowBlock(n, m, func(r0, r1 int) {
+		bt := math.Inf(-1)
+		for i := r0; i < r1; i++ {
+			for _, x := range v.RawRowView(i)[:m] {
+				if x > bt && !math.IsInf(x, 0) {
+					bt = x
+				}
 			}
 		}
-	}
+		mu.Lock()
+		top = math.Max(top, bt) // a maximum does not depend on the order
+		mu.Unlock()
+	})
 	if !(top > 0) {
 		return 0
 	}
-	for i := 0; i < n; i++ {
-		run := 0
-		for _, x := range v.RawRowView(i)[:m] {
-			if x == top {
-				run++
-				if run >= 3 {
-					return top
+	flat := false
+	eachRowBlock(n, m, func(r0, r1 int) {
+		for i := r0; i < r1; i++ {
+			run := 0
+			for _, x := range v.RawRowView(i)[:m] {
+				if x == top {
+					run++
+					if run >= 3 {
+						mu.Lock()
+						flat = true
+						mu.Unlock()
+						return
+					}
+				} else {
+					run = 0
 				}
-			} else {
-				run = 0
 			}
 		}
+	})
+	if flat {
+		return top
 	}
 	return 0
 }
@@ -376,13 +402,17 @@ func findBlind(v *mat.Dense, badChannel []bool) *Blind {
 	n, m := v.Dims()
 	ceil := detectorCeiling(v)
 	b := &Blind{Rows: make([][]int, n)}
-	for i := 0; i < n; i++ {
-		for j, x := range v.RawRowView(i)[:m] {
-			if !(x > 0) || math.IsInf(x, 0) || (ceil > 0 && x == ceil) || (badChannel != nil && badChannel[j]) {
-				b.Rows[i] = append(b.Rows[i], j)
-				b.Count++
+	eachRowBlock(n, m, func(r0, r1 int) {
+		for i := r0; i < r1; i++ {
+			for j, x := range v.RawRowView(i)[:m] {
+				if !(x > 0) || math.IsInf(x, 0) || (ceil > 0 && x == ceil) || (badChannel != nil && badChannel[j]) {
+					b.Rows[i] = append(b.Rows[i], j)
+				}
 			}
 		}
+	})
+	for _, r := range b.Rows {
+		b.Count += len(r)
 	}
 	return b
 }
@@ -395,35 +425,54 @@ func findBlind(v *mat.Dense, badChannel []bool) *Blind {
 // channel's light is absorbance, not darkness.
 func (b *Blind) addWeak(v *mat.Dense, sigma []float64) {
 	n, m := v.Dims()
+	// Each channel's brightest observed beam: per block of rows, then the
+	// largest of the blocks' (the same whatever the order).
 	top := make([]float64, m)
-	for i := 0; i < n; i++ {
-		bl, next := b.Rows[i], 0
-		for j, x := range v.RawRowView(i)[:m] {
-			for next < len(bl) && bl[next] < j {
-				next++
+	var mu sync.Mutex
+	eachRowBlock(n, m, func(r0, r1 int) {
+		bt := make([]float64, m)
+		for i := r0; i < r1; i++ {
+			bl, next := b.Rows[i], 0
+			for j, x := range v.RawRowView(i)[:m] {
+				for next < len(bl) && bl[next] < j {
+					next++
+				}
+				if x > bt[j] && !(next < len(bl) && bl[next] == j) {
+					bt[j] = x
+				}
 			}
-			if x > top[j] && !(next < len(bl) && bl[next] == j) {
+		}
+		mu.Lock()
+		for j, x := range bt {
+			if x > top[j] {
 				top[j] = x
 			}
 		}
-	}
-	for i := 0; i < n; i++ {
-		row := v.RawRowView(i)[:m]
-		// Membership against the row's blind channels as they were
-		// (ascending); the points added go after them.
-		bl, next := b.Rows[i], 0
-		for j, x := range row {
-			for next < len(bl) && bl[next] < j {
-				next++
+		mu.Unlock()
+	})
+	added := make([]int, n)
+	eachRowBlock(n, m, func(r0, r1 int) {
+		for i := r0; i < r1; i++ {
+			row := v.RawRowView(i)[:m]
+			// Membership against the row's blind channels as they were
+			// (ascending); the points added go after them.
+			bl, next := b.Rows[i], 0
+			for j, x := range row {
+				for next < len(bl) && bl[next] < j {
+					next++
+				}
+				if x <= weakSigmas*sigma[j] && x < weakBeamFraction*top[j] && !(next < len(bl) && bl[next] == j) {
+					b.Rows[i] = append(b.Rows[i], j)
+					added[i]++
+				}
 			}
-			if x <= weakSigmas*sigma[j] && x < weakBeamFraction*top[j] && !(next < len(bl) && bl[next] == j) {
-				b.Rows[i] = append(b.Rows[i], j)
-				b.Count++
+			if len(b.Rows[i]) > len(bl) {
+				sort.Ints(b.Rows[i])
 			}
 		}
-		if len(b.Rows[i]) > len(bl) {
-			sort.Ints(b.Rows[i])
-		}
+	})
+	for _, k := range added {
+		b.Count += k
 	}
 }
 
