@@ -217,16 +217,28 @@ func saturationWarnings(s *Series, ref, blank []float64) []string {
 	weak := make([]bool, m)
 	refThr := weakBeamFraction * median(ref)
 	n, _ := s.Values.Dims()
-	// Row by row (the matrix is stored by rows); a maximum does not depend
-	// on the order it is taken in.
+	// Row by row (the matrix is stored by rows), in blocks of rows on the
+	// workers; a maximum does not depend on the order it is taken in.
 	hi := append([]float64(nil), ref...)
-	for i := 0; i < n; i++ {
-		for j, v := range s.Values.RawRowView(i) {
+	var mu sync.Mutex
+	eachRowBlock(n, m, func(r0, r1 int) {
+		bh := make([]float64, m)
+		copy(bh, ref)
+		for i := r0; i < r1; i++ {
+			for j, v := range s.Values.RawRowView(i)[:m] {
+				if v > bh[j] {
+					bh[j] = v
+				}
+			}
+		}
+		mu.Lock()
+		for j, v := range bh {
 			if v > hi[j] {
 				hi[j] = v
 			}
 		}
-	}
+		mu.Unlock()
+	})
 	for j := 0; j < m; j++ {
 		weak[j] = hi[j] < refThr
 	}
