@@ -221,8 +221,10 @@ func saturationWarnings(s *Series, ref, blank []float64) []string {
 	// workers; a maximum does not depend on the order it is taken in.
 	hi := append([]float64(nil), ref...)
 	var mu sync.Mutex
+	bufs := newScratch(m)
 	eachRowBlock(n, m, func(r0, r1 int) {
-		bh := make([]float64, m)
+		bh := bufs.get()
+		defer bufs.put(bh)
 		copy(bh, ref)
 		for i := r0; i < r1; i++ {
 			for j, v := range s.Values.RawRowView(i)[:m] {

@@ -255,8 +255,10 @@ func pooledRunningMAD(d timeDiffs) []float64 {
 	cnt := make([]int, m)
 	bl := diffBlock(per)
 	// Blocks of channels on the workers: each channel's median is its own.
+	bufs := newScratch(bl * per)
 	inBlocks((m+bl-1)/bl, 1, func(b0, b1 int) {
-		buf := make([]float64, bl*per)
+		buf := bufs.get()
+		defer bufs.put(buf)
 		for b := b0; b < b1; b++ {
 			j0, j1 := b*bl, min(m, (b+1)*bl)
 			div := d.fill(j0, j1, buf, cnt[j0:j1])
@@ -429,8 +431,11 @@ func (b *Blind) addWeak(v *mat.Dense, sigma []float64) {
 	// largest of the blocks' (the same whatever the order).
 	top := make([]float64, m)
 	var mu sync.Mutex
+	bufs := newScratch(m)
 	eachRowBlock(n, m, func(r0, r1 int) {
-		bt := make([]float64, m)
+		bt := bufs.get()
+		defer bufs.put(bt)
+		clear(bt)
 		for i := r0; i < r1; i++ {
 			bl, next := b.Rows[i], 0
 			for j, x := range v.RawRowView(i)[:m] {
@@ -1072,8 +1077,10 @@ const overweighted = 100
 func (b *Blind) addOverweighted(w *Weights, variance func(i int, out []float64)) bool {
 	n, m := len(w.Row), len(w.Col)
 	added := make([]int, n) // per row, so that rows can be done in parallel
+	bufs := newScratch(m)
 	eachRowBlock(n, m, func(r0, r1 int) {
-		buf := make([]float64, m)
+		buf := bufs.get()
+		defer bufs.put(buf)
 		for i := r0; i < r1; i++ {
 			variance(i, buf)
 			// Membership is tested against the row's blind channels as they

@@ -112,3 +112,34 @@ func mapRowsInOrder(n, width int, mapRow func(i int, out []float64), reduce func
 	}
 	wg.Wait()
 }
+
+// scratch hands out buffers of one length for the blocks of inBlocks and
+// takes them back, so that a pass over the data allocates one per worker
+// rather than one per block (at 20 000 × 3000 the noise model's blocks
+// alone made 0.5 GB of garbage, which let the heap grow by as much).
+type scratch struct {
+	free chan []float64
+	size int
+}
+
+func newScratch(size int) *scratch {
+	return &scratch{free: make(chan []float64, runtime.GOMAXPROCS(0)), size: size}
+}
+
+// get returns a buffer of the scratch's length; its values are left over
+// from its last use.
+func (s *scratch) get() []float64 {
+	select {
+	case b := <-s.free:
+		return b
+	default:
+		return make([]float64, s.size)
+	}
+}
+
+func (s *scratch) put(b []float64) {
+	select {
+	case s.free <- b:
+	default:
+	}
+}
