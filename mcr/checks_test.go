@@ -8,6 +8,27 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
+// dilutedPair is A -> B (first order, c_A = e^{−3u}) over n spectra of m points, both
+// concentrations scaled by 1 − dilute·u as the run goes on (u from 0 to 1): Beer–Lambert
+// with the amounts diluted, D = C Sᵀ.
+func dilutedPair(n, m int, dilute float64) *mat.Dense {
+	c := mat.NewDense(n, 2, nil)
+	for i := 0; i < n; i++ {
+		u := float64(i) / float64(n-1)
+		a := math.Exp(-3 * u)
+		f := 1 - dilute*u
+		c.SetRow(i, []float64{f * a, f * (1 - a)})
+	}
+	s := mat.NewDense(m, 2, nil)
+	for i := 0; i < m; i++ {
+		x := float64(i) / float64(m-1)
+		s.SetRow(i, []float64{bump(x, -0.1, 0.55), bump(x, 0.4, 1.1)})
+	}
+	var d mat.Dense
+	d.Mul(c, s.T())
+	return &d
+}
+
 // Dilution: the sample is diluted by 30 % over the run, so c_A + c_B falls
 // from 1 to 0.7 and closure to a constant total is false for these data. The
 // refit without closure must fit to the noise-free level, the closed fit
@@ -16,23 +37,7 @@ import (
 // nothing.
 func TestClosureCheckSeesDilution(t *testing.T) {
 	n, m := 40, 50
-	build := func(dilute float64) *mat.Dense {
-		c := mat.NewDense(n, 2, nil)
-		for i := 0; i < n; i++ {
-			u := float64(i) / float64(n-1)
-			a := math.Exp(-3 * u)
-			f := 1 - dilute*u
-			c.SetRow(i, []float64{f * a, f * (1 - a)})
-		}
-		s := mat.NewDense(m, 2, nil)
-		for i := 0; i < m; i++ {
-			x := float64(i) / float64(m-1)
-			s.SetRow(i, []float64{bump(x, -0.1, 0.55), bump(x, 0.4, 1.1)})
-		}
-		var d mat.Dense
-		d.Mul(c, s.T())
-		return &d
-	}
+	build := func(dilute float64) *mat.Dense { return dilutedPair(n, m, dilute) }
 	c0 := mat.NewDense(n, 2, nil)
 	for i := 0; i < n; i++ {
 		u := float64(i) / float64(n-1)
@@ -111,20 +116,7 @@ func TestTimeConstantPatternWeighted(t *testing.T) {
 // (absorbance noise ∝ 1/I, I = 10^−A; the demo's model, common practice).
 func TestCheckRestartChosenByCaller(t *testing.T) {
 	n, m := 40, 50
-	c := mat.NewDense(n, 2, nil)
-	for i := 0; i < n; i++ {
-		u := float64(i) / float64(n-1)
-		a := math.Exp(-3 * u)
-		f := 1 - 0.3*u
-		c.SetRow(i, []float64{f * a, f * (1 - a)})
-	}
-	s := mat.NewDense(m, 2, nil)
-	for i := 0; i < m; i++ {
-		x := float64(i) / float64(m-1)
-		s.SetRow(i, []float64{bump(x, -0.1, 0.55), bump(x, 0.4, 1.1)})
-	}
-	var d mat.Dense
-	d.Mul(c, s.T())
+	d := dilutedPair(n, m, 0.3)
 	rng := rand.New(rand.NewPCG(3, 15))
 	for i := 0; i < n; i++ {
 		for j := 0; j < m; j++ {
@@ -138,16 +130,16 @@ func TestCheckRestartChosenByCaller(t *testing.T) {
 		c0.SetRow(i, []float64{1 - u, u})
 	}
 	opt := Options{Mode: Species, Closure: true, Total: []float64{1}}
-	fit, err := Resolve(Dense{&d}, c0, opt)
+	fit, err := Resolve(Dense{d}, c0, opt)
 	if err != nil {
 		t.Fatal(err)
 	}
-	all, err := CheckConstraints(Dense{&d}, fit, opt, 500)
+	all, err := CheckConstraints(Dense{d}, fit, opt, 500)
 	if err != nil {
 		t.Fatal(err)
 	}
 	asked := 0
-	always, err := CheckConstraintsWith(Dense{&d}, fit, opt, CheckOptions{MaxIter: 500, Restart: func(cc ConstraintCheck) bool {
+	always, err := CheckConstraintsWith(Dense{d}, fit, opt, CheckOptions{MaxIter: 500, Restart: func(cc ConstraintCheck) bool {
 		asked++
 		if cc.With != fit.LackOfFitPercent || cc.ResidualSSWithout > cc.ResidualSSWith {
 			t.Errorf("asked about %s with %+v: want the resolution's fit and a refit below it", cc.Name, cc)
@@ -162,7 +154,7 @@ func TestCheckRestartChosenByCaller(t *testing.T) {
 			t.Errorf("%s: restart always asked for gives %+v, CheckConstraints %+v", all[i].Name, always[i], all[i])
 		}
 	}
-	never, err := CheckConstraintsWith(Dense{&d}, fit, opt, CheckOptions{MaxIter: 500, Restart: func(ConstraintCheck) bool { return false }})
+	never, err := CheckConstraintsWith(Dense{d}, fit, opt, CheckOptions{MaxIter: 500, Restart: func(ConstraintCheck) bool { return false }})
 	if err != nil {
 		t.Fatal(err)
 	}
