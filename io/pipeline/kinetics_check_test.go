@@ -1,9 +1,6 @@
 package pipeline
 
-import (
-	"math/rand/v2"
-	"testing"
-)
+import "testing"
 
 // TestExchangeCheckCoversReportedOrder: the exchange check compares the
 // reported rate constants with the other orders of them, for five steps of
@@ -15,13 +12,7 @@ import (
 // check of a fit at the same constants (the one after hard–soft) then
 // finds every refit made and refits nothing.
 func TestExchangeCheckCoversReportedOrder(t *testing.T) {
-	c := newChain(150, 401, 6000)
-	dir := t.TempDir()
-	series, blank := c.write(t, dir, 30, rand.New(rand.NewPCG(7, 11)))
-	r, err := Run(chainSettings(series, blank), nil)
-	if err != nil {
-		t.Fatal(err)
-	}
+	_, r := runSmallChain(t)
 	kn := r.Kinetics
 	if kn == nil || kn.Reported() == nil || kn.Reported().Method != "data" {
 		t.Fatalf("no data fit reported; warnings %q", r.Warnings)
