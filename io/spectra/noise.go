@@ -332,7 +332,7 @@ func quantum(v *mat.Dense, blind *Blind) float64 {
 	eachRowBlock(n, m, func(r0, r1 int) {
 		bq := math.Inf(1)
 		for i := max(r0, 1); i < r1; i++ {
-			a, b := v.RawRowView(i-1)[:m], v.RawRowView(i)[:m]
+			a, b := v.RawRowView(i - 1)[:m], v.RawRowView(i)[:m]
 			for j := range a {
 				if d := math.Abs(b[j] - a[j]); d > 0 && d < bq && !blind.Has(i-1, j) && !blind.Has(i, j) {
 					bq = d
