@@ -240,10 +240,10 @@ func mulTRow(o []float64, st int, x, y []float64) {
 	}
 }
 
-// inParallel runs f over [0, rows) in fixed blocks of a multiple of unit
-// rows, on up to GOMAXPROCS goroutines; work is the product's number of
-// multiply–adds. Each row is done by one call, so the result does not depend
-// on how many goroutines ran.
+// InBlocks runs f over [0, rows) in blocks of a multiple of unit rows, on up
+// to GOMAXPROCS goroutines; work is the product's number of multiply–adds,
+// below minWork it runs on the calling goroutine. Each row is done by one
+// call, so the result does not depend on how many goroutines ran.
 func InBlocks(rows, work, unit int, f func(r0, r1 int)) {
 	w := runtime.GOMAXPROCS(0)
 	if w < 2 || work < minWork || rows < 2*unit {
@@ -253,18 +253,31 @@ func InBlocks(rows, work, unit int, f func(r0, r1 int)) {
 	nb := min(w*4, (rows+unit-1)/unit)
 	size := (rows + nb - 1) / nb
 	size = (size + unit - 1) / unit * unit
-	var wg sync.WaitGroup
-	next := make(chan int, nb)
-	for r := 0; r < rows; r += size {
+	FixedBlocks(rows, size, f)
+}
+
+// FixedBlocks runs f on the blocks [k·b, min((k+1)·b, n)) covering [0, n),
+// on up to GOMAXPROCS goroutines: the blocks are the same whatever the
+// number of goroutines, so work that depends on a block's bounds (a buffer
+// per block, a maximum per block) gives the same result too.
+func FixedBlocks(n, b int, f func(r0, r1 int)) {
+	w := min(runtime.GOMAXPROCS(0), (n+b-1)/b)
+	if w < 2 {
+		f(0, n)
+		return
+	}
+	next := make(chan int, (n+b-1)/b)
+	for r := 0; r < n; r += b {
 		next <- r
 	}
 	close(next)
+	var wg sync.WaitGroup
 	for g := 0; g < w; g++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
 			for r0 := range next {
-				f(r0, min(r0+size, rows))
+				f(r0, min(r0+b, n))
 			}
 		}()
 	}

@@ -7,6 +7,7 @@ import (
 	"strings"
 	"sync"
 
+	"github.com/bandsolve/bandsolve/internal/product"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -256,7 +257,7 @@ func pooledRunningMAD(d timeDiffs) []float64 {
 	bl := diffBlock(per)
 	// Blocks of channels on the workers: each channel's median is its own.
 	bufs := newScratch(bl * per)
-	inBlocks((m+bl-1)/bl, 1, func(b0, b1 int) {
+	product.FixedBlocks((m+bl-1)/bl, 1, func(b0, b1 int) {
 		buf := bufs.get()
 		defer bufs.put(buf)
 		for b := b0; b < b1; b++ {

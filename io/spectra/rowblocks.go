@@ -3,6 +3,8 @@ package spectra
 import (
 	"runtime"
 	"sync"
+
+	"github.com/bandsolve/bandsolve/internal/product"
 )
 
 // Work on the rows of a data-sized matrix on up to GOMAXPROCS goroutines,
@@ -20,33 +22,7 @@ func rowBlock(m int) int {
 // eachRowBlock runs f on [r0, r1) blocks covering [0, n), on up to
 // GOMAXPROCS goroutines. f must only write what belongs to its rows.
 func eachRowBlock(n, m int, f func(r0, r1 int)) {
-	inBlocks(n, rowBlock(m), f)
-}
-
-// inBlocks runs f on the fixed blocks [k·b, min((k+1)·b, n)) on up to
-// GOMAXPROCS goroutines.
-func inBlocks(n, b int, f func(r0, r1 int)) {
-	w := min(runtime.GOMAXPROCS(0), (n+b-1)/b)
-	if w < 2 {
-		f(0, n)
-		return
-	}
-	next := make(chan int, (n+b-1)/b)
-	for r := 0; r < n; r += b {
-		next <- r
-	}
-	close(next)
-	var wg sync.WaitGroup
-	for g := 0; g < w; g++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for r0 := range next {
-				f(r0, min(r0+b, n))
-			}
-		}()
-	}
-	wg.Wait()
+	product.FixedBlocks(n, rowBlock(m), f)
 }
 
 // mapRowsInOrder computes, for every row i of [0, n), width values per row
@@ -113,7 +89,7 @@ func mapRowsInOrder(n, width int, mapRow func(i int, out []float64), reduce func
 	wg.Wait()
 }
 
-// scratch hands out buffers of one length for the blocks of inBlocks and
+// scratch hands out buffers of one length for the blocks of product.FixedBlocks and
 // takes them back, so that a pass over the data allocates one per worker
 // rather than one per block (at 20 000 × 3000 the noise model's blocks
 // alone made 0.5 GB of garbage, which let the heap grow by as much).
