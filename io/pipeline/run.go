@@ -157,31 +157,9 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	if refFile != "" {
 		folder.Exclude = append(folder.Exclude, s.Path(refFile))
 	}
-	var series []*spectra.Series
-	for _, p := range s.Data {
-		if p == "" {
-			return nil, usage("--data is empty: give a matrix CSV, a folder of spectra or a JCAMP-DX file")
-		}
-		if err := needTimes(s, p); err != nil {
-			return nil, err
-		}
-		fmt.Fprintf(log, "reading %s\n", p)
-		ser, err := spectra.Load(s.Path(p), folder)
-		if err != nil {
-			return nil, err
-		}
-		if err := spectra.CheckKind(kind, ser); err != nil {
-			return nil, usage("%v", err)
-		}
-		series = append(series, ser)
-	}
-	if kind == "" {
-		kind = spectra.SingleBeam
-		if series[0].Kind != "" {
-			kind = spectra.Kind(series[0].Kind)
-		} else if why := absorbanceLook(series[0]); why != "" {
-			r.Warnings = append(r.Warnings, fmt.Sprintf("%s: no --kind was given, so the values were taken as single beams, but %s, as absorbances do; if they are absorbance or difference spectra, rerun with --kind absorbance or --kind difference", s.Data[0], why))
-		}
+	series, kind, err := loadSeries(s, r, folder, kind, log)
+	if err != nil {
+		return nil, err
 	}
 	first := series[0]
 	for _, ser := range series[1:] {
@@ -252,6 +230,8 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	var blinds []*spectra.Blind
 	var rowsOf []int
 	row := 0
+	opt := spectra.AssembleOptions{Kind: kind, Blank: blank,
+		Reference: spectra.Reference{Mean: refMean, File: refSpec}, BlankSource: s.Blank, Consume: true, Pre: s.Pre}
 	for ei, ser := range series {
 		var sub *spectra.Series
 		if sameAxis(ser.Axis, first.Axis) && !(s.Resample && len(series) > 1) {
@@ -262,42 +242,11 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 				return nil, err
 			}
 		}
-		n, _ := sub.Values.Dims()
-		if n < 2 && kind != spectra.Difference && refSpec == nil {
-			return nil, fmt.Errorf("%s: holds one spectrum only; difference data needs at least two (a reference and a later one)", ser.Source)
-		}
-		if s.Pre >= n {
-			return nil, usage("--pre %d: %s has only %d spectra", s.Pre, ser.Source, n)
-		}
-		if refFile == "" && kind != spectra.Difference && refMean > n {
-			return nil, usage("--reference mean:%d: %s has only %d spectra; average at most %d", refMean, ser.Source, n, n)
-		}
-		as, err := spectra.Assemble(sub, spectra.AssembleOptions{Kind: kind, Blank: blank,
-			Reference: spectra.Reference{Mean: refMean, File: refSpec}, BlankSource: s.Blank, Consume: true, Pre: s.Pre})
+		as, err := addExperiment(s, r, s.Data[ei], ser, sub, opt, refFile, row)
 		if err != nil {
-			return nil, inputContext(ser.Source, err)
-		}
-		if err := checkAssembledFinite(ser.Source, sub, as); err != nil {
 			return nil, err
 		}
-		e := &Experiment{Source: s.Data[ei], Series: sub, Assembled: as, FirstRow: row, Rows: n, RefRows: as.ReferenceRows}
-		e.T0 = sub.Times[0]
-		if len(as.ReferenceRows) > 0 {
-			e.T0 = sub.Times[as.ReferenceRows[len(as.ReferenceRows)-1]]
-		}
-		if s.Pre > 0 {
-			e.T0 = sub.Times[s.Pre-1]
-		}
-		if s.T0 != "" {
-			e.T0, _ = strconv.ParseFloat(s.T0, 64)
-		}
-		r.Experiments = append(r.Experiments, e)
-		r.Notes = append(r.Notes, as.Notes...)
-		r.Warnings = append(r.Warnings, as.Warnings...)
-		for i := 0; i < n; i++ {
-			r.Times = append(r.Times, sub.Times[i])
-			r.ExpOfRow = append(r.ExpOfRow, len(r.Experiments)-1)
-		}
+		n := r.Experiments[len(r.Experiments)-1].Rows
 		row += n
 		if as.Absolute != nil {
 			absRows = append(absRows, as.Absolute)
@@ -418,61 +367,10 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 		r.NoiseSigma, r.NoiseSource = rank.Sigma, rank.SigmaSource
 	}
 	if spare != nil {
-		// The differences have their own noise (the reference's added):
-		// scaled with their own weights, their noise is white with σ = 1.
-		// Rebuilt from D in the lent memory, their randomized SVD starting
-		// from the row space √A D √B's factors already found
-		// (weightedDifferenceStart).
-		ref := -1
-		if len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
-			ref = r.Experiments[0].RefRows[0]
-		}
-		start := weightedDifferenceStart(r, refs, rf)
-		din := weightedRankInputs(r, scaledDifferenceInto(spare, r, refs), r.DiffWeights.Row, r.DiffWeights.Col, ref, maxF)
-		din.reuse, din.start = true, start
-		r.DiffRank, r.DiffChemical, _ = chemicalRank(r, din.d, nil, r.BaselineOrder, din, false)
+		lentDifferenceRank(r, spare, refs, rf, maxF)
 		diffAdvice(r, rank)
 	} else if r.Mode == mcr.Species {
-		dd := stack(diffRows)
-		ref := -1
-		if len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
-			ref = r.Experiments[0].RefRows[0]
-		}
-		din := rankInputs{opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooledSigma(s, r, dd), Alpha: s.Alpha, ReferenceRow: ref}, maxF: maxF, noise: pooledSigma(s, r, dd)}
-		// The difference matrix's last use: the report keeps its map rows,
-		// and the experiments let go of it, so that it is no longer held
-		// beside D (1.2 GB at 50 000 × 3000) and may be worked in place.
-		// The maps show the experiments' own matrices, which the blind
-		// points' filling below reaches only when dd is the one of a
-		// single experiment (stack copies several).
-		weightedDiff := weighted(r) && r.DiffWeights != nil
-		if len(r.Experiments) > 1 {
-			r.diffMapRows = mapRows(r, dd)
-		}
-		if weightedDiff {
-			fillDifferenceBlind(r, dd)
-		}
-		if len(r.Experiments) == 1 {
-			r.diffMapRows = mapRows(r, dd)
-		}
-		for _, e := range r.Experiments {
-			e.Assembled.Difference = nil
-		}
-		if weightedDiff {
-			// The differences have their own noise (the reference's added):
-			// scaled with their own weights, their noise is white with σ = 1.
-			// Scaled and then projected in place: dd is not used again.
-			// Its randomized SVD starts from the row space the factors of
-			// √A D √B already found (weightedDifferenceStart).
-			start := weightedDifferenceStart(r, referenceSpectra(r, dd), rf)
-			din = weightedRankInputs(r, svd.ScaleInto(dd, dd, r.DiffWeights.Row, r.DiffWeights.Col), r.DiffWeights.Row, r.DiffWeights.Col, ref, maxF)
-			din.reuse, din.start = true, start
-			r.DiffRank, r.DiffChemical, _ = chemicalRank(r, din.d, nil, r.BaselineOrder, din, false)
-		} else if r.BaselineOrder >= 0 {
-			r.DiffRank, r.DiffChemical, _ = chemicalRank(r, dd, nil, r.BaselineOrder, din, false)
-		} else if fd, err := differenceFactors(r, dd, f, maxF); err == nil {
-			r.DiffRank, r.DiffChemical, _ = chemicalRank(r, dd, fd, -1, din, false)
-		}
+		copiedDifferenceRank(r, s, diffRows, rf, f, maxF)
 		diffAdvice(r, rank)
 	} else if rank.Estimate > 0 {
 		r.Advice = append(r.Advice, fmt.Sprintf("difference data has rank %d = the number of independent reactions it shows (at least %d species take part; a rank deficiency can hide more); to resolve species give a blank single beam (--blank) or absorbance input", rank.Estimate, rank.Estimate+1))
@@ -524,6 +422,73 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	return r, nil
 }
 
+// singleReferenceRow is the row of the reference spectrum when there is one
+// experiment with one reference row, else -1.
+func singleReferenceRow(r *Result) int {
+	if len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
+		return r.Experiments[0].RefRows[0]
+	}
+	return -1
+}
+
+// lentDifferenceRank counts the difference matrix's chemical rank (species
+// mode with noise weights) on the scaled differences rebuilt from D and the
+// references refs in the memory √A D √B borrowed (borrowDifference).
+func lentDifferenceRank(r *Result, spare *mat.Dense, refs [][]float64, rf *svd.Factors, maxF int) {
+	// The differences have their own noise (the reference's added):
+	// scaled with their own weights, their noise is white with σ = 1.
+	// Rebuilt from D in the lent memory, their randomized SVD starting
+	// from the row space √A D √B's factors already found
+	// (weightedDifferenceStart).
+	ref := singleReferenceRow(r)
+	start := weightedDifferenceStart(r, refs, rf)
+	din := weightedRankInputs(r, scaledDifferenceInto(spare, r, refs), r.DiffWeights.Row, r.DiffWeights.Col, ref, maxF)
+	din.reuse, din.start = true, start
+	r.DiffRank, r.DiffChemical, _ = chemicalRank(r, din.d, nil, r.BaselineOrder, din, false)
+}
+
+// copiedDifferenceRank counts the difference matrix's chemical rank (species
+// mode) on the stacked differences of the experiments, which it lets go of.
+func copiedDifferenceRank(r *Result, s *Settings, diffRows []*mat.Dense, rf, f *svd.Factors, maxF int) {
+	dd := stack(diffRows)
+	ref := singleReferenceRow(r)
+	din := rankInputs{opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooledSigma(s, r, dd), Alpha: s.Alpha, ReferenceRow: ref}, maxF: maxF, noise: pooledSigma(s, r, dd)}
+	// The difference matrix's last use: the report keeps its map rows,
+	// and the experiments let go of it, so that it is no longer held
+	// beside D (1.2 GB at 50 000 × 3000) and may be worked in place.
+	// The maps show the experiments' own matrices, which the blind
+	// points' filling below reaches only when dd is the one of a
+	// single experiment (stack copies several).
+	weightedDiff := weighted(r) && r.DiffWeights != nil
+	if len(r.Experiments) > 1 {
+		r.diffMapRows = mapRows(r, dd)
+	}
+	if weightedDiff {
+		fillDifferenceBlind(r, dd)
+	}
+	if len(r.Experiments) == 1 {
+		r.diffMapRows = mapRows(r, dd)
+	}
+	for _, e := range r.Experiments {
+		e.Assembled.Difference = nil
+	}
+	if weightedDiff {
+		// The differences have their own noise (the reference's added):
+		// scaled with their own weights, their noise is white with σ = 1.
+		// Scaled and then projected in place: dd is not used again.
+		// Its randomized SVD starts from the row space the factors of
+		// √A D √B already found (weightedDifferenceStart).
+		start := weightedDifferenceStart(r, referenceSpectra(r, dd), rf)
+		din = weightedRankInputs(r, svd.ScaleInto(dd, dd, r.DiffWeights.Row, r.DiffWeights.Col), r.DiffWeights.Row, r.DiffWeights.Col, ref, maxF)
+		din.reuse, din.start = true, start
+		r.DiffRank, r.DiffChemical, _ = chemicalRank(r, din.d, nil, r.BaselineOrder, din, false)
+	} else if r.BaselineOrder >= 0 {
+		r.DiffRank, r.DiffChemical, _ = chemicalRank(r, dd, nil, r.BaselineOrder, din, false)
+	} else if fd, err := differenceFactors(r, dd, f, maxF); err == nil {
+		r.DiffRank, r.DiffChemical, _ = chemicalRank(r, dd, fd, -1, din, false)
+	}
+}
+
 // diffAdvice says what the difference rank adds to the absorbance's rank.
 func diffAdvice(r *Result, rank *svd.RankReport) {
 	if r.DiffRank == nil {
@@ -535,6 +500,83 @@ func diffAdvice(r *Result, rank *svd.RankReport) {
 	case r.DiffRank.Estimate < rank.Estimate:
 		r.Advice = append(r.Advice, fmt.Sprintf("absolute absorbance has %d chemical component(s) and the differences %d: at least %d species take part in %d independent reaction(s) (species whose amounts stay in a fixed ratio, or several closed subsystems, add no rank and can hide)", rank.Estimate, r.DiffRank.Estimate, rank.Estimate, r.DiffRank.Estimate))
 	}
+}
+
+// addExperiment assembles one experiment's series on the common channels
+// (its absorbances or differences, noise model and weights) and appends it
+// to r: the experiment, its rows' times and experiment index, its notes and
+// warnings. row is its first row in the stacked matrix.
+func addExperiment(s *Settings, r *Result, source string, ser, sub *spectra.Series, opt spectra.AssembleOptions, refFile string, row int) (*spectra.Assembled, error) {
+	kind, refMean := opt.Kind, opt.Reference.Mean
+	n, _ := sub.Values.Dims()
+	if n < 2 && kind != spectra.Difference && opt.Reference.File == nil {
+		return nil, fmt.Errorf("%s: holds one spectrum only; difference data needs at least two (a reference and a later one)", ser.Source)
+	}
+	if s.Pre >= n {
+		return nil, usage("--pre %d: %s has only %d spectra", s.Pre, ser.Source, n)
+	}
+	if refFile == "" && kind != spectra.Difference && refMean > n {
+		return nil, usage("--reference mean:%d: %s has only %d spectra; average at most %d", refMean, ser.Source, n, n)
+	}
+	as, err := spectra.Assemble(sub, opt)
+	if err != nil {
+		return nil, inputContext(ser.Source, err)
+	}
+	if err := checkAssembledFinite(ser.Source, sub, as); err != nil {
+		return nil, err
+	}
+	e := &Experiment{Source: source, Series: sub, Assembled: as, FirstRow: row, Rows: n, RefRows: as.ReferenceRows}
+	e.T0 = sub.Times[0]
+	if len(as.ReferenceRows) > 0 {
+		e.T0 = sub.Times[as.ReferenceRows[len(as.ReferenceRows)-1]]
+	}
+	if s.Pre > 0 {
+		e.T0 = sub.Times[s.Pre-1]
+	}
+	if s.T0 != "" {
+		e.T0, _ = strconv.ParseFloat(s.T0, 64)
+	}
+	r.Experiments = append(r.Experiments, e)
+	r.Notes = append(r.Notes, as.Notes...)
+	r.Warnings = append(r.Warnings, as.Warnings...)
+	for i := 0; i < n; i++ {
+		r.Times = append(r.Times, sub.Times[i])
+		r.ExpOfRow = append(r.ExpOfRow, len(r.Experiments)-1)
+	}
+	return as, nil
+}
+
+// loadSeries reads every --data input with its times and checks its kind;
+// without --kind the kind is the first input's own (JCAMP-DX says it), else
+// single beams, with a warning when the values look like absorbances.
+func loadSeries(s *Settings, r *Result, folder spectra.FolderOptions, kind spectra.Kind, log io.Writer) ([]*spectra.Series, spectra.Kind, error) {
+	var series []*spectra.Series
+	for _, p := range s.Data {
+		if p == "" {
+			return nil, "", usage("--data is empty: give a matrix CSV, a folder of spectra or a JCAMP-DX file")
+		}
+		if err := needTimes(s, p); err != nil {
+			return nil, "", err
+		}
+		fmt.Fprintf(log, "reading %s\n", p)
+		ser, err := spectra.Load(s.Path(p), folder)
+		if err != nil {
+			return nil, "", err
+		}
+		if err := spectra.CheckKind(kind, ser); err != nil {
+			return nil, "", usage("%v", err)
+		}
+		series = append(series, ser)
+	}
+	if kind == "" {
+		kind = spectra.SingleBeam
+		if series[0].Kind != "" {
+			kind = spectra.Kind(series[0].Kind)
+		} else if why := absorbanceLook(series[0]); why != "" {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("%s: no --kind was given, so the values were taken as single beams, but %s, as absorbances do; if they are absorbance or difference spectra, rerun with --kind absorbance or --kind difference", s.Data[0], why))
+		}
+	}
+	return series, kind, nil
 }
 
 // reactionsRidge is the relative Tikhonov term of the extents step in
