@@ -162,40 +162,10 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 		return nil, err
 	}
 	first := series[0]
-	for _, ser := range series[1:] {
-		if len(ser.Axis) != len(first.Axis) || !sameAxis(ser.Axis, first.Axis) {
-			if !s.Resample {
-				return nil, fmt.Errorf("%s: its axis differs from %s's; use --resample or export both on one axis", ser.Source, first.Source)
-			}
-		}
-	}
-	// Channels: regions and exclusions on the first experiment's axis.
-	var keep, excl []spectra.Range
-	for _, v := range s.Regions {
-		x, _ := ParseRange(v)
-		keep = append(keep, spectra.Range{Lo: x[0], Hi: x[1]})
-	}
-	for _, v := range s.Excludes {
-		x, _ := ParseRange(v)
-		excl = append(excl, spectra.Range{Lo: x[0], Hi: x[1]})
-	}
-	axis := first.Axis
-	if s.Resample && len(series) > 1 {
-		var others [][]float64
-		for _, ser := range series[1:] {
-			others = append(others, ser.Axis)
-		}
-		idx := spectra.CommonRange(axis, others...)
-		if len(idx) < 2 {
-			return nil, fmt.Errorf("%s: the experiments' axes have no common range", first.Source)
-		}
-		axis = spectra.KeepValues(axis, idx)
-	}
-	chans, err := spectra.SelectChannels(axis, keep, excl)
+	axis, chans, err := commonChannels(s, series)
 	if err != nil {
-		return nil, usage("--region/--exclude: %v", err)
+		return nil, err
 	}
-	axis = spectra.KeepValues(axis, chans)
 	var blank []float64
 	if s.Blank != "" {
 		if kind != spectra.SingleBeam {
@@ -544,6 +514,48 @@ func addExperiment(s *Settings, r *Result, source string, ser, sub *spectra.Seri
 		r.ExpOfRow = append(r.ExpOfRow, len(r.Experiments)-1)
 	}
 	return as, nil
+}
+
+// commonChannels checks that the experiments share one axis (or --resample
+// is given, then their common range is taken) and returns the axis values
+// kept by --region and --exclude with their indices into the common axis
+// (the first experiment's own without --resample).
+func commonChannels(s *Settings, series []*spectra.Series) ([]float64, []int, error) {
+	first := series[0]
+	for _, ser := range series[1:] {
+		if len(ser.Axis) != len(first.Axis) || !sameAxis(ser.Axis, first.Axis) {
+			if !s.Resample {
+				return nil, nil, fmt.Errorf("%s: its axis differs from %s's; use --resample or export both on one axis", ser.Source, first.Source)
+			}
+		}
+	}
+	// Channels: regions and exclusions on the first experiment's axis.
+	var keep, excl []spectra.Range
+	for _, v := range s.Regions {
+		x, _ := ParseRange(v)
+		keep = append(keep, spectra.Range{Lo: x[0], Hi: x[1]})
+	}
+	for _, v := range s.Excludes {
+		x, _ := ParseRange(v)
+		excl = append(excl, spectra.Range{Lo: x[0], Hi: x[1]})
+	}
+	axis := first.Axis
+	if s.Resample && len(series) > 1 {
+		var others [][]float64
+		for _, ser := range series[1:] {
+			others = append(others, ser.Axis)
+		}
+		idx := spectra.CommonRange(axis, others...)
+		if len(idx) < 2 {
+			return nil, nil, fmt.Errorf("%s: the experiments' axes have no common range", first.Source)
+		}
+		axis = spectra.KeepValues(axis, idx)
+	}
+	chans, err := spectra.SelectChannels(axis, keep, excl)
+	if err != nil {
+		return nil, nil, usage("--region/--exclude: %v", err)
+	}
+	return spectra.KeepValues(axis, chans), chans, nil
 }
 
 // loadSeries reads every --data input with its times and checks its kind;
