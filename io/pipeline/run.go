@@ -166,81 +166,18 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 	if err != nil {
 		return nil, err
 	}
-	var blank []float64
-	if s.Blank != "" {
-		if kind != spectra.SingleBeam {
-			return nil, usage("--blank is a single beam and goes with --kind single-beam (the data is %s)", kind)
-		}
-		bs, err := spectra.ReadSpectrum(s.Path(s.Blank))
-		if err != nil {
-			return nil, err
-		}
-		if blank, err = axisValues(bs, first, axis, chans, s.Resample); err != nil {
-			return nil, err
-		}
-	}
-	var refSpec *spectra.Spectrum
-	if refFile != "" {
-		rs, err := spectra.ReadSpectrum(s.Path(refFile))
-		if err != nil {
-			return nil, err
-		}
-		v, err := axisValues(rs, first, axis, chans, s.Resample)
-		if err != nil {
-			return nil, err
-		}
-		refSpec = &spectra.Spectrum{Axis: axis, Values: v, Source: refFile}
+	blank, refSpec, err := fixedSpectra(s, first, axis, chans, kind, refFile)
+	if err != nil {
+		return nil, err
 	}
 	if s.Pre > 0 && refMean > 1 && refMean > s.Pre {
 		return nil, usage("--reference mean:%d averages more spectra than the %d before the reaction (--pre %d)", refMean, s.Pre, s.Pre)
 	}
-	// Assemble each experiment on the common channels and stack the rows.
-	var absRows, diffRows []*mat.Dense
-	var absW, diffW []*spectra.Weights
-	var blinds []*spectra.Blind
-	var rowsOf []int
-	row := 0
 	opt := spectra.AssembleOptions{Kind: kind, Blank: blank,
 		Reference: spectra.Reference{Mean: refMean, File: refSpec}, BlankSource: s.Blank, Consume: true, Pre: s.Pre}
-	for ei, ser := range series {
-		var sub *spectra.Series
-		if sameAxis(ser.Axis, first.Axis) && !(s.Resample && len(series) > 1) {
-			sub = ser.Keep(chans)
-		} else {
-			sub, err = resampleSeries(ser, axis)
-			if err != nil {
-				return nil, err
-			}
-		}
-		as, err := addExperiment(s, r, s.Data[ei], ser, sub, opt, refFile, row)
-		if err != nil {
-			return nil, err
-		}
-		n := r.Experiments[len(r.Experiments)-1].Rows
-		row += n
-		if as.Absolute != nil {
-			absRows = append(absRows, as.Absolute)
-		}
-		diffRows = append(diffRows, as.Difference)
-		absW, diffW = append(absW, as.AbsoluteWeights), append(diffW, as.DifferenceWeights)
-		blinds, rowsOf = append(blinds, as.Blind), append(rowsOf, n)
-	}
-	r.Blind = spectra.StackBlind(blinds, rowsOf)
-	r.AxisName, r.Axis = first.AxisName, axis
-	if len(absRows) == len(series) {
-		r.Mode = mcr.Species
-		if s.Blank != "" {
-			r.ModeReason = "species: a blank single beam gives absolute absorbance A = −log10(I/I_blank), so each component is one species"
-		} else {
-			r.ModeReason = "species: the input is absolute absorbance, so each component is one species"
-		}
-		r.D = stack(absRows)
-		r.Weights, r.DiffWeights = spectra.StackWeights(absW), spectra.StackWeights(diffW)
-	} else {
-		r.Mode = mcr.Reactions
-		r.ModeReason = "reactions: difference spectra alone resolve independent reactions (extents and signed reaction spectra), not species; a blank single beam (--blank) or a known spectrum is what separates the species"
-		r.D = stack(diffRows)
-		r.Weights = spectra.StackWeights(diffW)
+	diffRows, err := assembleExperiments(s, r, series, axis, chans, opt, refFile)
+	if err != nil {
+		return nil, err
 	}
 	if r.Mode == mcr.Species {
 		if w := saturationWarning(r); w != "" {
@@ -556,6 +493,92 @@ func commonChannels(s *Settings, series []*spectra.Series) ([]float64, []int, er
 		return nil, nil, usage("--region/--exclude: %v", err)
 	}
 	return spectra.KeepValues(axis, chans), chans, nil
+}
+
+// fixedSpectra reads the blank single beam and the reference spectrum, when
+// given, onto the common channels.
+func fixedSpectra(s *Settings, first *spectra.Series, axis []float64, chans []int, kind spectra.Kind, refFile string) ([]float64, *spectra.Spectrum, error) {
+	var blank []float64
+	if s.Blank != "" {
+		if kind != spectra.SingleBeam {
+			return nil, nil, usage("--blank is a single beam and goes with --kind single-beam (the data is %s)", kind)
+		}
+		bs, err := spectra.ReadSpectrum(s.Path(s.Blank))
+		if err != nil {
+			return nil, nil, err
+		}
+		if blank, err = axisValues(bs, first, axis, chans, s.Resample); err != nil {
+			return nil, nil, err
+		}
+	}
+	var refSpec *spectra.Spectrum
+	if refFile != "" {
+		rs, err := spectra.ReadSpectrum(s.Path(refFile))
+		if err != nil {
+			return nil, nil, err
+		}
+		v, err := axisValues(rs, first, axis, chans, s.Resample)
+		if err != nil {
+			return nil, nil, err
+		}
+		refSpec = &spectra.Spectrum{Axis: axis, Values: v, Source: refFile}
+	}
+	return blank, refSpec, nil
+}
+
+// assembleExperiments assembles each experiment on the common channels and
+// stacks the rows into r.D: absolute absorbance when every experiment has
+// it (species mode), the difference spectra otherwise (reactions mode). It
+// returns the experiments' difference rows, which the difference rank reads.
+func assembleExperiments(s *Settings, r *Result, series []*spectra.Series, axis []float64, chans []int, opt spectra.AssembleOptions, refFile string) ([]*mat.Dense, error) {
+	first := series[0]
+	var absRows, diffRows []*mat.Dense
+	var absW, diffW []*spectra.Weights
+	var blinds []*spectra.Blind
+	var rowsOf []int
+	var err error
+	row := 0
+	for ei, ser := range series {
+		var sub *spectra.Series
+		if sameAxis(ser.Axis, first.Axis) && !(s.Resample && len(series) > 1) {
+			sub = ser.Keep(chans)
+		} else {
+			sub, err = resampleSeries(ser, axis)
+			if err != nil {
+				return nil, err
+			}
+		}
+		as, err := addExperiment(s, r, s.Data[ei], ser, sub, opt, refFile, row)
+		if err != nil {
+			return nil, err
+		}
+		n := r.Experiments[len(r.Experiments)-1].Rows
+		row += n
+		if as.Absolute != nil {
+			absRows = append(absRows, as.Absolute)
+		}
+		diffRows = append(diffRows, as.Difference)
+		absW, diffW = append(absW, as.AbsoluteWeights), append(diffW, as.DifferenceWeights)
+		blinds, rowsOf = append(blinds, as.Blind), append(rowsOf, n)
+	}
+	r.Blind = spectra.StackBlind(blinds, rowsOf)
+	r.AxisName, r.Axis = first.AxisName, axis
+	if len(absRows) == len(series) {
+		r.Mode = mcr.Species
+		if s.Blank != "" {
+			r.ModeReason = "species: a blank single beam gives absolute absorbance A = −log10(I/I_blank), so each component is one species"
+		} else {
+			r.ModeReason = "species: the input is absolute absorbance, so each component is one species"
+		}
+		r.D = stack(absRows)
+		r.Weights, r.DiffWeights = spectra.StackWeights(absW), spectra.StackWeights(diffW)
+	} else {
+		r.Mode = mcr.Reactions
+		r.ModeReason = "reactions: difference spectra alone resolve independent reactions (extents and signed reaction spectra), not species; a blank single beam (--blank) or a known spectrum is what separates the species"
+		r.D = stack(diffRows)
+		r.Weights = spectra.StackWeights(diffW)
+	}
+	return diffRows, nil
 }
 
 // loadSeries reads every --data input with its times and checks its kind;
