@@ -202,32 +202,53 @@ func SolveMany(p Problem) (*mat.Dense, error) {
 type factorCache struct {
 	idx []int
 	l   []float64 // np × np lower triangle, row-major
+	u   []float64 // its transpose Lᵀ, row-major, so both sweeps run along rows
 	az  []float64 // G_PP⁻¹ a_P
 	den float64   // a_Pᵀ G_PP⁻¹ a_P
 	ok  bool
 }
 
 type solver struct {
-	p      Problem
-	k      int
-	g      []float64 // G row-major
-	cache  map[uint64]*factorCache
-	b, x   []float64
-	z, tmp []float64
-	rhs    []float64
-	fv     []float64
+	p     Problem
+	k     int
+	g     []float64 // G row-major
+	gDiag float64   // the largest diagonal entry of G (part of every column's scale)
+	cache map[uint64]*factorCache
+	// last and lastMask: the factor used last. Late in ALS most columns keep
+	// one passive set, so this spares the map lookup of nearly every solve.
+	last     *factorCache
+	lastMask uint64
+	b, x     []float64
+	z, tmp   []float64
+	rhs      []float64
+	fv       []float64
+	// nz lists the variables whose fixed value is not zero (setFixed), the
+	// only ones solvePassive moves to the right-hand side.
+	nz []int
 }
 
 func newSolver(p Problem, k int) *solver {
 	g := make([]float64, k*k)
+	diag := 0.0
 	for i := 0; i < k; i++ {
 		for j := 0; j < k; j++ {
 			g[i*k+j] = p.G.At(i, j)
 		}
+		diag = math.Max(diag, g[i*k+i])
 	}
-	return &solver{p: p, k: k, g: g, cache: map[uint64]*factorCache{},
+	return &solver{p: p, k: k, g: g, gDiag: diag, cache: map[uint64]*factorCache{},
 		b: make([]float64, k), x: make([]float64, k), z: make([]float64, k), tmp: make([]float64, k),
-		rhs: make([]float64, k), fv: make([]float64, k)}
+		rhs: make([]float64, k), fv: make([]float64, k), nz: make([]int, 0, k)}
+}
+
+// setFixed records which entries of fixedVal are not zero, for solvePassive.
+func (s *solver) setFixed(fixedVal []float64) {
+	s.nz = s.nz[:0]
+	for j, v := range fixedVal[:s.k] {
+		if v != 0 {
+			s.nz = append(s.nz, j)
+		}
+	}
 }
 
 func (s *solver) nonneg(j int) bool { return s.p.NonNeg == nil || s.p.NonNeg[j] }
@@ -266,29 +287,51 @@ func cholesky(a []float64, np int) bool {
 	return true
 }
 
-// cholSolve solves L Lᵀ x = b in place.
-func cholSolve(l []float64, np int, b []float64) {
-	for i := 0; i < np; i++ {
+// cholSolve solves L Lᵀ x = b in place, given L and u = Lᵀ (both row-major
+// np × np). Each sweep reads one row at a time: the forward sweep of L, the
+// backward sweep of Lᵀ (the column of L it needs), with the same products in
+// the same order as reading L's columns.
+func cholSolve(l, u []float64, np int, b []float64) {
+	b = b[:np]
+	for i := range b {
+		row := l[i*np : i*np+i+1]
 		v := b[i]
-		for q := 0; q < i; q++ {
-			v -= l[i*np+q] * b[q]
+		for q, lq := range row[:i] {
+			v -= lq * b[q]
 		}
-		b[i] = v / l[i*np+i]
+		b[i] = v / row[i]
 	}
 	for i := np - 1; i >= 0; i-- {
+		row := u[i*np+i : (i+1)*np]
+		rest := b[i+1:]
 		v := b[i]
-		for q := i + 1; q < np; q++ {
-			v -= l[q*np+i] * b[q]
+		for q, uq := range row[1:] {
+			v -= uq * rest[q]
 		}
-		b[i] = v / l[i*np+i]
+		b[i] = v / row[0]
 	}
+}
+
+// transposeSquare returns the transpose of the np × np row-major matrix a.
+func transposeSquare(a []float64, np int) []float64 {
+	t := make([]float64, np*np)
+	for i := 0; i < np; i++ {
+		for j := 0; j < np; j++ {
+			t[j*np+i] = a[i*np+j]
+		}
+	}
+	return t
 }
 
 // factor returns the Cholesky factor of G restricted to the passive set.
 // Cholesky is the stable choice here: G_PP is a small symmetric positive
 // definite Gram block whenever the passive components are independent.
 func (s *solver) factor(mask uint64) *factorCache {
+	if s.last != nil && s.lastMask == mask {
+		return s.last
+	}
 	if f, ok := s.cache[mask]; ok {
+		s.last, s.lastMask = f, mask
 		return f
 	}
 	f := &factorCache{}
@@ -320,12 +363,15 @@ func (s *solver) factor(mask uint64) *factorCache {
 			load(1e-10 * math.Max(tr/float64(np), 1e-300))
 			f.ok = cholesky(f.l, np)
 		}
+		if f.ok {
+			f.u = transposeSquare(f.l, np)
+		}
 		if f.ok && s.p.Equality != nil {
 			f.az = make([]float64, np)
 			for a, ja := range f.idx {
 				f.az[a] = s.p.Equality[ja]
 			}
-			cholSolve(f.l, np, f.az)
+			cholSolve(f.l, f.u, np, f.az)
 			for a, ja := range f.idx {
 				f.den += s.p.Equality[ja] * f.az[a]
 			}
@@ -335,11 +381,13 @@ func (s *solver) factor(mask uint64) *factorCache {
 		clear(s.cache)
 	}
 	s.cache[mask] = f
+	s.last, s.lastMask = f, mask
 	return f
 }
 
 // solvePassive returns z, the minimiser on the passive set (others zero or
-// fixed), and the multiplier of the equality constraint.
+// fixed), and the multiplier of the equality constraint. s.nz must list the
+// non-zero entries of fixedVal (setFixed).
 func (s *solver) solvePassive(mask uint64, c int, fixedVal []float64) ([]float64, float64, error) {
 	f := s.factor(mask)
 	copy(s.z, fixedVal)
@@ -354,14 +402,12 @@ func (s *solver) solvePassive(mask uint64, c int, fixedVal []float64) ([]float64
 	// b_P − G_{P,F} x_F moves the fixed variables to the right-hand side.
 	for a, ja := range f.idx {
 		v := s.b[ja]
-		for j := 0; j < s.k; j++ {
-			if fixedVal[j] != 0 {
-				v -= s.g[ja*s.k+j] * fixedVal[j]
-			}
+		for _, j := range s.nz {
+			v -= s.g[ja*s.k+j] * fixedVal[j]
 		}
 		y[a] = v
 	}
-	cholSolve(f.l, np, y)
+	cholSolve(f.l, f.u, np, y)
 	mu := 0.0
 	if s.p.Equality != nil {
 		target := s.total(c)
@@ -406,6 +452,7 @@ func (s *solver) column(c int, x *mat.Dense) error {
 	}
 	fv := s.fv
 	copy(fv, fixedVal)
+	s.setFixed(fv)
 	cur := s.x
 	// A feasible start: zero for plain NNLS; for closure, the remaining total
 	// shared evenly over the free variables, which is strictly interior.
@@ -438,28 +485,35 @@ func (s *solver) column(c int, x *mat.Dense) error {
 		}
 	}
 	passive := free
+	// warmMu is the multiplier of the warm start's solve, valid while warm
+	// is set: the first passive solve below would repeat that solve (same
+	// set, same right-hand side) and is skipped, its z still in s.z.
+	warm, warmMu := false, 0.0
 	if s.p.Passive != nil && s.p.Passive[c]&free != 0 {
 		// Warm start: accept the previous passive set if its minimiser is
 		// feasible; the KKT check below decides whether it is optimal.
-		warm := s.p.Passive[c] & free
-		if z, _, err := s.solvePassive(warm, c, fv); err == nil {
+		set := s.p.Passive[c] & free
+		if z, m, err := s.solvePassive(set, c, fv); err == nil {
 			feasible := true
 			for j := 0; j < k; j++ {
-				if warm&(1<<uint(j)) != 0 && s.nonneg(j) && z[j] < 0 {
+				if set&(1<<uint(j)) != 0 && s.nonneg(j) && z[j] < 0 {
 					feasible = false
 					break
 				}
 			}
 			if feasible {
 				copy(cur, z)
-				passive = warm
+				passive, warm, warmMu = set, true, m
 			}
 		}
 	}
-	scale := 0.0
-	for j := 0; j < k; j++ {
-		scale = math.Max(scale, math.Abs(s.b[j]))
-		scale = math.Max(scale, s.g[j*k+j])
+	// The largest of |b_j| and G_jj; math.Max's order does not matter (it
+	// selects), and a NaN stays NaN as it would there.
+	scale := s.gDiag
+	for _, v := range s.b[:k] {
+		if v = math.Abs(v); v > scale || v != v {
+			scale = v
+		}
 	}
 	tol := 1e-12 * math.Max(scale, 1e-300)
 	limit := 6*k + 20
@@ -478,7 +532,11 @@ func (s *solver) column(c int, x *mat.Dense) error {
 			if inner > limit {
 				return fmt.Errorf("solve column %d: %w", c, ErrNotConverged)
 			}
-			z, m, err := s.solvePassive(passive, c, fv)
+			z, m, err := s.z, warmMu, error(nil)
+			if !warm {
+				z, m, err = s.solvePassive(passive, c, fv)
+			}
+			warm = false
 			if err != nil {
 				return err
 			}
@@ -693,6 +751,7 @@ func (s *solver) recoverExact(c int, x *mat.Dense) bool {
 	if s.p.Equality != nil && mask != 0 {
 		// Polish: the exact closure-constrained minimiser on LH's passive
 		// set, kept when it stays feasible.
+		s.setFixed(fv)
 		if z, _, err := s.solvePassive(mask, c, fv); err == nil {
 			feasible := true
 			for j := 0; j < k; j++ {

@@ -47,6 +47,53 @@ func TestWarmStartSameMinimiser(t *testing.T) {
 	}
 }
 
+// Started from its own final passive sets, a column ends at the same bits:
+// the active-set method's answer is the minimiser on the final passive set
+// (Lawson & Hanson 1974, ch. 23, the solution is the unconstrained one on
+// the passive variables), and the warm start solves that very system once
+// instead of twice. Checked with and without closure and with variables
+// pinned to non-zero values (the right-hand side then carries them).
+func TestWarmStartFromFinalSetsSameBits(t *testing.T) {
+	rng := rand.New(rand.NewPCG(23, 24))
+	for trial := 0; trial < 12; trial++ {
+		k := 2 + trial%6
+		_, g, b := randomProblem(rng, 25, k, 300)
+		for _, variant := range []string{"plain", "closure", "pinned"} {
+			p := Problem{G: g, B: b, Passive: make([]uint64, 300)}
+			switch variant {
+			case "closure":
+				p.Equality, p.Total = ones(k), []float64{1}
+			case "pinned":
+				p.FixMask, p.Fixed = make([][]bool, k), mat.NewDense(k, 300, nil)
+				p.FixMask[0] = make([]bool, 300)
+				for c := 0; c < 300; c += 3 {
+					p.FixMask[0][c] = true
+					p.Fixed.Set(0, c, 0.1+rng.Float64())
+				}
+			}
+			cold, err := SolveMany(p)
+			if err != nil {
+				t.Fatal(err)
+			}
+			sets := append([]uint64(nil), p.Passive...)
+			warm, err := SolveMany(p)
+			if err != nil {
+				t.Fatal(err)
+			}
+			for c := 0; c < 300; c++ {
+				if p.Passive[c] != sets[c] {
+					t.Fatalf("trial %d %s column %d: passive set %b after the warm start, %b before", trial, variant, c, p.Passive[c], sets[c])
+				}
+				for j := 0; j < k; j++ {
+					if math.Float64bits(cold.At(j, c)) != math.Float64bits(warm.At(j, c)) {
+						t.Fatalf("trial %d %s column %d var %d: cold %v warm %v", trial, variant, c, j, cold.At(j, c), warm.At(j, c))
+					}
+				}
+			}
+		}
+	}
+}
+
 // LackOfFit streams the residual: it must equal, to the bit, the lack of
 // fit of the stored residual matrix (definition 100‖D − CSᵀ‖/‖D‖).
 func TestLackOfFitStreamsExactly(t *testing.T) {
