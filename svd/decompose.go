@@ -7,6 +7,7 @@ import (
 	"math/rand/v2"
 	"sort"
 
+	products "github.com/bandsolve/bandsolve/internal/product"
 	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/lapack/lapack64"
 	"gonum.org/v1/gonum/mat"
@@ -300,18 +301,23 @@ func randomizedSVD(d *mat.Dense, r int, seed uint64, start *mat.Dense) (*Factors
 			}
 		}
 	}
+	// The passes over D take internal/product's register-tiled kernels:
+	// gonum's Dgemm's sums term for term (the same bits), without its
+	// vector-kernel call per entry of D.
 	y := mat.NewDense(n, l, nil)
-	y.Mul(d, omega)
+	products.MulTo(y, d, omega)
 	orthonormalize(y)
 	z := mat.NewDense(m, l, nil)
 	for it := 0; it < iters; it++ {
-		z.Mul(d.T(), y)
+		products.MulTTo(z, d, y)
 		orthonormalize(z)
-		y.Mul(d, z)
+		products.MulTo(y, d, z)
 		orthonormalize(y)
 	}
-	b := mat.NewDense(l, m, nil)
-	b.Mul(y.T(), d)
+	// B = Yᵀ D is (Dᵀ Y)ᵀ entry for entry: each sum runs over the rows
+	// of D in ascending order either way.
+	products.MulTTo(z, d, y)
+	b := mat.DenseCopyOf(z.T())
 	var s mat.SVD
 	if !s.Factorize(b, mat.SVDThin) {
 		return nil, errors.New("SVD of the sketch did not converge")

@@ -1,7 +1,8 @@
 // Package product forms the matrix products the analysis makes over its data
 // with few columns on one side: D S and Dᵀ C for an n × m data matrix D and
 // k ≤ 8 columns, the products of alternating least squares (k components and
-// baseline terms) every iteration.
+// baseline terms) every iteration, and the same for ten to forty columns,
+// the passes of a randomized SVD over the data (wide.go).
 //
 // Each entry is the same sum as gonum's Dgemm forms it, term by term in
 // ascending order of the inner index, each product rounded before it is added
@@ -22,9 +23,9 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
-// maxK is the most columns the loops here take: from about nine on, gonum's
-// vector kernel, which works on two entries at a time, is as fast or faster
-// (BenchmarkProducts2000x3001k9, k34), and Mul and MulT hand the product to it.
+// maxK is the most columns the loops here take; past it the register tiles
+// of wide.go (two rows by three columns) do the work, which beat gonum's
+// vector kernel there (BenchmarkProducts2000x3001k9, k34).
 const maxK = 8
 
 // minWork is the number of multiply–adds below which a product runs on the
@@ -33,17 +34,31 @@ const minWork = 1 << 16
 
 // Mul returns a b for an n × m matrix a and an m × k matrix b (n × k).
 func Mul(a, b *mat.Dense) *mat.Dense {
+	n, _ := a.Dims()
+	_, k := b.Dims()
+	out := mat.NewDense(n, k, nil)
+	MulTo(out, a, b)
+	return out
+}
+
+// MulTo is Mul into out (n × k, overwritten), so that repeated products of
+// one shape reuse its memory.
+func MulTo(out, a, b *mat.Dense) {
 	n, m := a.Dims()
 	bm, k := b.Dims()
-	if bm != m {
+	if on, ok := out.Dims(); bm != m || on != n || ok != k {
 		panic(mat.ErrShape)
 	}
 	if k > maxK {
-		var out mat.Dense
-		out.Mul(a, b)
-		return &out
+		if !wideOK(b) {
+			out.Mul(a, b)
+			return
+		}
+		out.Zero()
+		mulWide(out, a, b)
+		return
 	}
-	out := mat.NewDense(n, k, nil)
+	out.Zero()
 	ra, rb, ro := a.RawMatrix(), b.RawMatrix(), out.RawMatrix()
 	// Blocks of the inner index small enough that their rows of b stay in
 	// cache while a block of rows of a passes over them; the sums carry on
@@ -62,7 +77,6 @@ func Mul(a, b *mat.Dense) *mat.Dense {
 			}
 		}
 	})
-	return out
 }
 
 // mulRow adds Σ_l x_l b_l to o (k), b_l the rows of b (stride st), l
@@ -154,17 +168,30 @@ func mulRows2(o, p, x, y, b []float64, st, k int) {
 
 // MulT returns aᵀ b for an n × m matrix a and an n × k matrix b (m × k).
 func MulT(a, b *mat.Dense) *mat.Dense {
+	_, m := a.Dims()
+	_, k := b.Dims()
+	out := mat.NewDense(m, k, nil)
+	MulTTo(out, a, b)
+	return out
+}
+
+// MulTTo is MulT into out (m × k, overwritten).
+func MulTTo(out, a, b *mat.Dense) {
 	n, m := a.Dims()
 	bn, k := b.Dims()
-	if bn != n {
+	if om, ok := out.Dims(); bn != n || om != m || ok != k {
 		panic(mat.ErrShape)
 	}
 	if k > maxK {
-		var out mat.Dense
-		out.Mul(a.T(), b)
-		return &out
+		if !wideOK(b) {
+			out.Mul(a.T(), b)
+			return
+		}
+		out.Zero()
+		mulTWide(out, a, b)
+		return
 	}
-	out := mat.NewDense(m, k, nil)
+	out.Zero()
 	ra, rb, ro := a.RawMatrix(), b.RawMatrix(), out.RawMatrix()
 	// Blocks of output rows (columns of a) small enough that their k sums
 	// stay in cache while every row of a passes over them.
@@ -178,7 +205,6 @@ func MulT(a, b *mat.Dense) *mat.Dense {
 			}
 		}
 	})
-	return out
 }
 
 // mulTRow adds x_j y to row j of o (stride st) for every j with x_j ≠ 0.

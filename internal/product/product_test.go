@@ -42,8 +42,11 @@ func sameBits(t *testing.T, what string, got, want *mat.Dense) {
 
 // The reference is gonum's mat.Dense.Mul (its Dgemm): both products must give
 // it bit for bit, on shapes that go serial and parallel, with k from 1 to past
-// a multiple of four, on a sub-matrix view (stride wider than the columns),
-// at GOMAXPROCS 1 and 2.
+// a multiple of four and, past eight (the register tiles of wide.go), every
+// remainder of three, on a sub-matrix view (stride wider than the columns),
+// at GOMAXPROCS 1 and 2. The transposed product read the other way round,
+// MulT(a, c)ᵀ, must give gonum's cᵀ a too: the randomized SVD forms its
+// last pass so.
 func TestProductsEqualGonumBitForBit(t *testing.T) {
 	rng := rand.New(rand.NewPCG(7, 11))
 	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
@@ -52,15 +55,59 @@ func TestProductsEqualGonumBitForBit(t *testing.T) {
 		for _, sh := range [][2]int{{3, 5}, {58, 695}, {300, 257}, {1000, 90}} {
 			n, m := sh[0], sh[1]
 			a := randomDense(rng, n, m+3).Slice(0, n, 1, m+1).(*mat.Dense)
-			for _, k := range []int{1, 2, 3, 4, 5, 7, 9, 34} {
+			for _, k := range []int{1, 2, 3, 4, 5, 7, 9, 10, 11, 34} {
 				b := randomDense(rng, m, k)
 				var want mat.Dense
 				want.Mul(a, b)
 				sameBits(t, "Mul", Mul(a, b), &want)
+				reused := randomDense(rng, n, k) // MulTo overwrites what was there
+				MulTo(reused, a, b)
+				sameBits(t, "MulTo", reused, &want)
 				c := randomDense(rng, n, k)
 				var wantT mat.Dense
 				wantT.Mul(a.T(), c)
-				sameBits(t, "MulT", MulT(a, c), &wantT)
+				got := MulT(a, c)
+				sameBits(t, "MulT", got, &wantT)
+				reusedT := randomDense(rng, m, k)
+				MulTTo(reusedT, a, c)
+				sameBits(t, "MulTTo", reusedT, &wantT)
+				var wantTT mat.Dense
+				wantTT.Mul(c.T(), a)
+				sameBits(t, "MulT transposed", mat.DenseCopyOf(got.T()), &wantTT)
+			}
+		}
+	}
+}
+
+// A factor with an infinite or NaN entry takes gonum's loops: there the
+// terms whose entry of a is zero are skipped, 0·Inf is not formed, and the
+// products must still be gonum's (NaN where gonum has NaN).
+func TestWideProductsWithNonFiniteFactor(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 5))
+	a := randomDense(rng, 40, 50)
+	for _, bad := range []float64{math.Inf(1), math.NaN()} {
+		b := randomDense(rng, 50, 12)
+		b.Set(7, 3, bad)
+		var want mat.Dense
+		want.Mul(a, b)
+		got := Mul(a, b)
+		c := randomDense(rng, 40, 12)
+		c.Set(9, 4, bad)
+		var wantT mat.Dense
+		wantT.Mul(a.T(), c)
+		gotT := MulT(a, c)
+		for _, pr := range []struct {
+			what      string
+			got, want *mat.Dense
+		}{{"Mul", got, &want}, {"MulT", gotT, &wantT}} {
+			r, cc := pr.want.Dims()
+			for i := 0; i < r; i++ {
+				for j := 0; j < cc; j++ {
+					g, w := pr.got.At(i, j), pr.want.At(i, j)
+					if math.IsNaN(w) != math.IsNaN(g) || (!math.IsNaN(w) && math.Float64bits(g) != math.Float64bits(w)) {
+						t.Fatalf("%s with %v in the factor: entry (%d, %d) = %v, gonum's Dgemm gives %v", pr.what, bad, i, j, g, w)
+					}
+				}
 			}
 		}
 	}
