@@ -292,3 +292,30 @@ func TestDecomposeWarmStart(t *testing.T) {
 		t.Error("a start with the wrong number of rows was accepted")
 	}
 }
+
+// Every non-finite value (IEEE 754: +Inf, −Inf and NaN) is refused with its
+// position, wherever it sits in the row (the check sums four columns at a
+// time, so the positions cover each of the four and the tail past them),
+// and the largest finite values pass.
+func TestCheckMatrixFindsEveryNonFinite(t *testing.T) {
+	for _, v := range []float64{math.Inf(1), math.Inf(-1), math.NaN()} {
+		for _, at := range [][2]int{{0, 0}, {1, 1}, {2, 2}, {2, 3}, {1, 4}, {0, 8}, {2, 9}} {
+			d := mat.NewDense(3, 10, nil)
+			for i := 0; i < 3; i++ {
+				for j := 0; j < 10; j++ {
+					d.Set(i, j, float64(i*10+j)-7.5)
+				}
+			}
+			d.Set(at[0], at[1], v)
+			err := checkMatrix(d)
+			want := fmt.Sprintf("non-finite value %v at row %d, column %d", v, at[0], at[1])
+			if err == nil || err.Error() != want {
+				t.Errorf("%v at (%d, %d): got %v, want %q", v, at[0], at[1], err, want)
+			}
+		}
+	}
+	ok := mat.NewDense(2, 5, []float64{math.MaxFloat64, -math.MaxFloat64, math.SmallestNonzeroFloat64, 0, math.Copysign(0, -1), 1, 2, 3, 4, 5})
+	if err := checkMatrix(ok); err != nil {
+		t.Errorf("finite extremes refused: %v", err)
+	}
+}
