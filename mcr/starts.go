@@ -45,7 +45,7 @@ func SearchStarts(d Data, best *Result, opt Options, ss StartSearch) (*Result, i
 	if best == nil || ss.Basis == nil {
 		return best, 0, nil
 	}
-	if ss.NoiseSS > 0 && best.ResidualSS <= 1.02*ss.NoiseSS && vanished(best) == 0 {
+	if FitsWithinNoise(best, ss.NoiseSS) {
 		return best, 0, nil
 	}
 	_, r := ss.Basis.Dims()
@@ -76,12 +76,21 @@ func SearchStarts(d Data, best *Result, opt Options, ss StartSearch) (*Result, i
 		if better(res, best, ss.NoiseSS, ss.MinGain) {
 			best = res
 			improved++
-			if ss.NoiseSS > 0 && best.ResidualSS <= 1.02*ss.NoiseSS && vanished(best) == 0 {
+			if FitsWithinNoise(best, ss.NoiseSS) {
 				break
 			}
 		}
 	}
 	return best, improved, nil
+}
+
+// FitsWithinNoise reports whether res fits to within the noise, its residual
+// sum of squares at most 1.02 × noiseSS (the sum noise alone leaves, as in
+// StartSearch), with no component vanished: then no further start can fit
+// better by more than the noise, and SearchStarts tries none. False when
+// noiseSS is not positive (not known).
+func FitsWithinNoise(res *Result, noiseSS float64) bool {
+	return noiseSS > 0 && res.ResidualSS <= 1.02*noiseSS && vanished(res) == 0
 }
 
 // randomStart is start i of SearchStarts: U_k T with T Gaussian from the

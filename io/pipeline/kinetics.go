@@ -1139,6 +1139,28 @@ func (kn *Kinetics) dataStart(r *Result, soft *kinetics.FitResult, opt mcr.Optio
 	return best
 }
 
+// startsFromDataFit reports, before the soft resolution, whether hard–soft
+// ALS will start from the fit of the data matrix rather than from that
+// resolution: --model with --hard-model, the map automatic and every
+// component one model column, and the per-component options alike (the
+// conditions of dataStart, which then sets the map and the start; only a
+// failed data fit falls back on the soft resolution).
+func startsFromDataFit(r *Result, opt mcr.Options) bool {
+	s := r.Settings
+	if s.Model == "" || !s.HardModel || s.Map != "" || !alikeOptions(opt) {
+		return false
+	}
+	sch, err := parseScheme(s)
+	if err != nil {
+		return false
+	}
+	nModel := len(sch.Species)
+	if r.Mode == mcr.Reactions {
+		nModel = len(sch.Steps)
+	}
+	return r.Components == nModel
+}
+
 // alikeOptions reports whether every per-component option of ALS is the
 // same for all components (or unset), so that starting ALS from columns in
 // another order changes nothing.
