@@ -179,3 +179,51 @@ func TestEFAZeroAndErrors(t *testing.T) {
 		t.Error("negative maxFactors: no error")
 	}
 }
+
+// The sweeps' own route to a window's singular values (squareValues: the
+// steps of LAPACK's Dgesvd for a square matrix without vectors) must give
+// gonum's mat.SVD (Dgesvd itself, the reference library) to the bit: on
+// triangular factors as the sweeps build them, from 2 to 40 columns, with
+// entries over twelve decades, a zero row and repeated rows; matrices that
+// Dgesvd would scale first are left to mat.SVD (values reports false).
+func TestSquareValuesAreDgesvdsBitForBit(t *testing.T) {
+	rng := newRNG(85)
+	for _, p := range []int{2, 3, 8, 24, 25, 40} {
+		for trial := 0; trial < 20; trial++ {
+			r := mat.NewDense(p, p, nil)
+			row := make([]float64, p)
+			for i := 0; i < p+3; i++ {
+				for j := range row {
+					row[j] = rng.NormFloat64() * math.Pow(10, float64(rng.IntN(13)-6))
+				}
+				switch {
+				case trial%4 == 1 && i == 2:
+					for j := range row {
+						row[j] = 0
+					}
+				case trial%4 == 2 && i > 0 && i%3 == 0:
+					copy(row, r.RawRowView(0))
+				}
+				givensAppend(r, row)
+			}
+			got := make([]float64, p)
+			if !newSquareValues(p).values(r, got) {
+				t.Fatalf("p = %d, trial %d: values refused an ordinary matrix", p, trial)
+			}
+			var sv mat.SVD
+			if !sv.Factorize(r, mat.SVDNone) {
+				t.Fatal("mat.SVD did not converge")
+			}
+			want := sv.Values(nil)
+			for k := range want {
+				if math.Float64bits(got[k]) != math.Float64bits(want[k]) {
+					t.Fatalf("p = %d, trial %d: value %d = %v, mat.SVD gives %v", p, trial, k, got[k], want[k])
+				}
+			}
+		}
+	}
+	tiny := mat.NewDense(3, 3, []float64{1e-120, 2e-120, 0, 0, 1e-121, 0, 0, 0, 3e-122})
+	if newSquareValues(3).values(tiny, make([]float64, 3)) {
+		t.Error("values took a matrix Dgesvd scales first")
+	}
+}
