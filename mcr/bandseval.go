@@ -1,6 +1,9 @@
 package mcr
 
-import "math"
+import (
+	"math"
+	"math/bits"
+)
 
 // bandWork holds the row-major copies of the profiles and spectra and the
 // buffers one evaluation of the range search writes into, so that the tens
@@ -16,7 +19,7 @@ type bandWork struct {
 	sq            [5][]float64 // k × k scratch
 	vec           [3][]float64 // k scratch
 	gx, gy        []float64    // 2k × 2k Gram matrices of the rise
-	rows          []float64    // scratch rows (riseSparse)
+	rowsC, rowsS  clippedRows  // the clipped rows (riseSparse)
 	zeroC, zeroS  []bool       // zero windows, n × k and m × k (nil: none)
 	sideC, sideS  *marginSide
 	piv           []int
@@ -27,7 +30,7 @@ func (p *bandProblem) newWork() {
 	w := &bandWork{
 		c: rawCopy(p.c), s: rawCopy(p.s),
 		t: make([]float64, k*k), inv: make([]float64, k*k), tinvT: make([]float64, k*k), lu: make([]float64, k*k),
-		gx: make([]float64, 4*k*k), gy: make([]float64, 4*k*k), rows: make([]float64, 6*k),
+		gx: make([]float64, 4*k*k), gy: make([]float64, 4*k*k),
 		gt: make([]float64, k*k), gbB: make([]float64, k*k),
 		piv: make([]int, k),
 	}
@@ -293,13 +296,21 @@ func gramCross(out, x, y []float64, k int) {
 // forming the whole product. At a reference V₀ each entry's margin
 // x_iᵀv₀_j is known; since |x_iᵀv_j − x_iᵀv₀_j| ≤ ‖x_i‖‖v_j − v₀_j‖
 // (Cauchy–Schwarz), an entry whose margin per unit ‖x_i‖ exceeds
-// ‖v_j − v₀_j‖ still keeps the constraint, and only the others are formed
-// (a comparison per entry instead of a k-term product). Exact, not an
-// approximation: the entries left out provably keep the constraint. The
-// reference moves to V when more than a quarter of the entries had to be
-// formed beyond those violated at the reference. (Keeping each column
-// sorted by the ratio and bisecting was tried: the line search's far trial
-// points make the re-sorting cost more than the scan.)
+// ‖v_j − v₀_j‖ still keeps the constraint, and only the others are formed.
+// Exact, not an approximation: the entries left out provably keep the
+// constraint. The reference moves to V when more than a quarter of the
+// entries had to be formed beyond those violated at the reference.
+//
+// The entries are not scanned one by one: at each reference, each
+// column's entries are grouped by the binary exponent of their ratio (a
+// counting sort), so an evaluation forms the groups lying
+// wholly below ‖v_j − v₀_j‖ without a comparison, compares only in the
+// group straddling it and never touches the groups above. The entries
+// found are marked in a bitmap and read back in row-major order, the
+// order of the scan this replaced, so every sum over them is the same to
+// the last bit. (A full sort per reference was tried earlier: the line
+// search's far trial points move the reference often enough that the
+// sorting cost more than the scan; the grouping is linear.)
 type marginSide struct {
 	x     []float64 // rows × k
 	k     int
@@ -311,14 +322,34 @@ type marginSide struct {
 	atRef int       // entries formed at the reference itself
 	gx    []float64 // k × k scratch: Gᵀ X (violations)
 	delta []float64
+	vt    []float64 // Vᵀ (k × k): column j of V contiguous
 	based bool
 	list  []clipped
+	// rows lists, column after column, the rows of each column's
+	// entries by group: group 0 holds the ratios ≤ 0 (formed always),
+	// group g ≥ 1 those in [2^(e_j+g−2), 2^(e_j+g−1)) with e_j set per
+	// column (the lowest group takes every smaller ratio too); free
+	// entries (+∞) are in none. start[j·(groups+2)+g] is where group g of
+	// column j begins.
+	rows  []int32
+	start []int32
+	next  []int32   // scratch of group: the next free place per group
+	tag   []int32   // scratch of group: each row's group in the column
+	exp   []int     // e_j
+	hit   []uint64  // bitmap of the entries found in this evaluation
+	val   []float64 // their values, by entry
 }
+
+// groups is the number of exponent groups of positive ratios per column:
+// 2⁴⁰ between the largest and the smallest one kept apart.
+const groups = 40
 
 func newMarginSide(x []float64, k int, nn, zero []bool) *marginSide {
 	rows := len(x) / k
 	ms := &marginSide{x: x, k: k, nn: nn, zero: zero, norm: make([]float64, rows),
-		ref: make([]float64, k*k), ratio: make([]float64, len(x)), gx: make([]float64, k*k), delta: make([]float64, k)}
+		ref: make([]float64, k*k), ratio: make([]float64, len(x)), gx: make([]float64, k*k), delta: make([]float64, k),
+		vt: make([]float64, k*k), rows: make([]int32, 0, len(x)), start: make([]int32, k*(groups+2)), next: make([]int32, groups+2), tag: make([]int32, len(x)/k),
+		exp: make([]int, k), hit: make([]uint64, (len(x)+63)/64), val: make([]float64, len(x))}
 	for i := 0; i < rows; i++ {
 		xr := x[i*k : i*k+k]
 		ms.norm[i] = math.Sqrt(dot(xr, xr))
@@ -326,7 +357,7 @@ func newMarginSide(x []float64, k int, nn, zero []bool) *marginSide {
 	return ms
 }
 
-// rebase makes v the reference.
+// rebase makes v the reference (ms.vt must hold vᵀ).
 func (ms *marginSide) rebase(v []float64) {
 	k := ms.k
 	copy(ms.ref, v)
@@ -341,14 +372,68 @@ func (ms *marginSide) rebase(v []float64) {
 				ms.ratio[e] = math.Inf(1)
 				continue
 			default:
-				ms.ratio[e] = ms.entry(i, j, v) / nrm
+				ms.ratio[e] = ms.entry(i, j) / nrm
 			}
 			if ms.ratio[e] <= 0 {
 				ms.atRef++
 			}
 		}
 	}
+	ms.group()
 	ms.based = true
+}
+
+// group sorts each column's entries into the exponent groups (see
+// marginSide), rows ascending within a group: the binary exponent of each
+// ratio is read from its bits once (ms.tag), then counted and placed.
+func (ms *marginSide) group() {
+	k, nrows := ms.k, len(ms.norm)
+	ms.rows = ms.rows[:0]
+	tag := ms.tag
+	for j := 0; j < k; j++ {
+		top := -1
+		for i := 0; i < nrows; i++ {
+			r := ms.ratio[i*k+j]
+			switch {
+			case !(r > 0): // ≤ 0, −∞ and NaN: formed at every evaluation
+				tag[i] = 0
+			case math.IsInf(r, 1): // free
+				tag[i] = -1
+			default: // r ∈ [2^(ex−1), 2^ex) with ex the biased exponent − 1022
+				ex := int32(math.Float64bits(r)>>52) + 1 // 1 … 2047, subnormals 1
+				tag[i] = ex
+				top = max(top, int(ex))
+			}
+		}
+		low := top - groups + 1 // the biased exponent of group 1
+		ms.exp[j] = low - 1023
+		st := ms.start[j*(groups+2) : (j+1)*(groups+2)]
+		clear(st)
+		for i := 0; i < nrows; i++ {
+			switch t := tag[i]; {
+			case t == 0:
+			case t < 0:
+				continue
+			default:
+				t = 1 + min(max(t-int32(low), 0), groups-1)
+				tag[i] = t
+			}
+			st[tag[i]+1]++
+		}
+		st[0] = int32(len(ms.rows))
+		for g := 1; g < len(st); g++ {
+			st[g] += st[g-1]
+		}
+		ms.rows = ms.rows[:st[len(st)-1]]
+		next := ms.next
+		copy(next, st)
+		for i := 0; i < nrows; i++ {
+			if g := tag[i]; g >= 0 {
+				ms.rows[next[g]] = int32(i)
+				next[g]++
+			}
+		}
+	}
 }
 
 // clipped is one entry of X·V that breaks a constraint.
@@ -361,6 +446,11 @@ type clipped struct {
 // zero window, in row-major order, reusing out's storage.
 func (ms *marginSide) collect(v []float64, out []clipped) []clipped {
 	k := ms.k
+	for l := 0; l < k; l++ {
+		for j := 0; j < k; j++ {
+			ms.vt[j*k+l] = v[l*k+j]
+		}
+	}
 	if !ms.based {
 		ms.rebase(v)
 	}
@@ -372,18 +462,18 @@ func (ms *marginSide) collect(v []float64, out []clipped) []clipped {
 		}
 		ms.delta[j] = math.Sqrt(d)
 	}
-	out = out[:0]
 	formed := 0
-	for i := range ms.norm {
-		for j, r := range ms.ratio[i*k : i*k+k] {
-			if r > ms.delta[j] {
-				continue
-			}
-			formed++
-			if val := ms.entry(i, j, v); math.IsInf(r, -1) || val < 0 {
-				out = append(out, clipped{i, j, val})
-			}
+	for j := 0; j < k; j++ {
+		formed += ms.formColumn(j)
+	}
+	out = out[:0]
+	for w, word := range ms.hit {
+		for word != 0 {
+			e := w*64 + bits.TrailingZeros64(word)
+			word &= word - 1
+			out = append(out, clipped{e / k, e % k, ms.val[e]})
 		}
+		ms.hit[w] = 0
 	}
 	if formed > ms.atRef+len(ms.ratio)/4 {
 		ms.rebase(v)
@@ -391,11 +481,99 @@ func (ms *marginSide) collect(v []float64, out []clipped) []clipped {
 	return out
 }
 
-func (ms *marginSide) entry(i, j int, v []float64) float64 {
+// formColumn forms the entries of column j whose ratio is at most
+// ‖v_j − v₀_j‖, marks those breaking a constraint, and returns how many it
+// formed.
+func (ms *marginSide) formColumn(j int) int {
+	k, d := ms.k, ms.delta[j]
+	st := ms.start[j*(groups+2) : (j+1)*(groups+2)]
+	formed := 0
+	for g := 0; g <= groups; g++ {
+		lo, hi := st[g], st[g+1]
+		if lo == hi {
+			continue
+		}
+		if g == 0 {
+			// Ratios ≤ 0, formed always, and the zero windows (−∞).
+			ms.formAll(ms.rows[lo:hi], j, ms.zero != nil)
+			formed += int(hi - lo)
+			continue
+		}
+		// Group g lies in [2^(e_j+g−2), 2^(e_j+g−1)): wholly below d, or
+		// the one straddling it (the groups above start beyond d).
+		if math.Ldexp(1, ms.exp[j]+g-1) <= d {
+			ms.formAll(ms.rows[lo:hi], j, false)
+			formed += int(hi - lo)
+			continue
+		}
+		for _, i := range ms.rows[lo:hi] {
+			e := int(i)*k + j
+			if ms.ratio[e] > d {
+				continue
+			}
+			formed++
+			if val := ms.entry(int(i), j); val < 0 {
+				ms.mark(e, val)
+			}
+		}
+		break
+	}
+	return formed
+}
+
+// formAll forms column j's entries of the given rows and marks those
+// that are negative or, with window, lie in a zero window. Four rows at a
+// time: each entry is summed in its own order (the same as entry's), and
+// the four sums overlap in the processor instead of waiting on each other.
+func (ms *marginSide) formAll(rows []int32, j int, window bool) {
 	k := ms.k
+	vj := ms.vt[j*k : j*k+k]
+	q := 0
+	for ; q+3 < len(rows); q += 4 {
+		i0, i1, i2, i3 := int(rows[q]), int(rows[q+1]), int(rows[q+2]), int(rows[q+3])
+		x0, x1, x2, x3 := ms.x[i0*k:i0*k+k], ms.x[i1*k:i1*k+k], ms.x[i2*k:i2*k+k], ms.x[i3*k:i3*k+k]
+		x0, x1, x2, x3 = x0[:len(vj)], x1[:len(vj)], x2[:len(vj)], x3[:len(vj)]
+		v0, v1, v2, v3 := 0.0, 0.0, 0.0, 0.0
+		for l, vv := range vj {
+			v0 += x0[l] * vv
+			v1 += x1[l] * vv
+			v2 += x2[l] * vv
+			v3 += x3[l] * vv
+		}
+		ms.markIf(i0*k+j, v0, window)
+		ms.markIf(i1*k+j, v1, window)
+		ms.markIf(i2*k+j, v2, window)
+		ms.markIf(i3*k+j, v3, window)
+	}
+	for ; q < len(rows); q++ {
+		i := int(rows[q])
+		ms.markIf(i*k+j, ms.entry(i, j), window)
+	}
+}
+
+// markIf marks entry e of value val when it breaks a constraint: negative,
+// or, with window, in a zero window.
+func (ms *marginSide) markIf(e int, val float64, window bool) {
+	if val < 0 || window && ms.zero[e] {
+		ms.mark(e, val)
+	}
+}
+
+// mark records entry e, of value val, as breaking a constraint.
+func (ms *marginSide) mark(e int, val float64) {
+	ms.hit[e>>6] |= 1 << (e & 63)
+	ms.val[e] = val
+}
+
+// entry is x_iᵀv_j (ms.vt holds Vᵀ), summed in the order of l.
+func (ms *marginSide) entry(i, j int) float64 {
+	k := ms.k
+	xr := ms.x[i*k : i*k+k]
+	vj := ms.vt[j*k : j*k+k]
+	vj = vj[:len(xr)]
 	val := 0.0
-	for l, xv := range ms.x[i*k : i*k+k] {
-		val += xv * v[l*k+j]
+	for l, xv := range xr {
+		val += xv * vj[l]
 	}
 	return val
 }
@@ -471,8 +649,9 @@ func (p *bandProblem) riseSparse(mu float64, grad bool) float64 {
 	// [k:2k,k:2k] AᵀA − A₋ᵀA − AᵀA₋ + A₋ᵀA₋; Y'Y likewise.
 	ctam := w.sq[0] // CᵀA₋
 	clear(ctam)
-	full, minus := w.rows[:k], w.rows[k:k2]
-	eachRow(la, k, w.c, w.t, full, minus, func(i int) {
+	w.rowsC.form(la, k, w.c, w.t)
+	w.rowsS.form(lb, k, w.s, w.tinvT)
+	w.rowsC.each(k, func(i int, full, minus []float64) {
 		cr := w.c[i*k : i*k+k]
 		for p := 0; p < k; p++ {
 			if minus[p] == 0 {
@@ -487,7 +666,7 @@ func (p *bandProblem) riseSparse(mu float64, grad bool) float64 {
 			}
 		}
 	})
-	eachRow(lb, k, w.s, w.tinvT, full, minus, func(int) {
+	w.rowsS.each(k, func(_ int, full, minus []float64) {
 		for p := 0; p < k; p++ {
 			if minus[p] == 0 {
 				continue
@@ -547,7 +726,7 @@ func (p *bandProblem) riseSparse(mu float64, grad bool) float64 {
 	}
 	// At a clipped entry (i, j) of A the gradient is (x_i YᵀY)_j, not
 	// (x_i YᵀY)_{k+j}: add the difference times c_i.
-	eachRow(la, k, w.c, w.t, full, minus, func(i int) {
+	w.rowsC.each(k, func(i int, full, minus []float64) {
 		cr := w.c[i*k : i*k+k]
 		for j := 0; j < k; j++ {
 			if minus[j] == 0 && !w.sideC.zeroAt(i, j) {
@@ -573,7 +752,7 @@ func (p *bandProblem) riseSparse(mu float64, grad bool) float64 {
 			w.gbB[j*k+c] += f * s
 		}
 	}
-	eachRow(lb, k, w.s, w.tinvT, full, minus, func(i int) {
+	w.rowsS.each(k, func(i int, full, minus []float64) {
 		for j := 0; j < k; j++ {
 			if minus[j] == 0 && !w.sideS.zeroAt(i, j) {
 				continue
@@ -590,23 +769,41 @@ func (p *bandProblem) riseSparse(mu float64, grad bool) float64 {
 	return h * h
 }
 
-// eachRow calls visit once per row holding clipped entries, with full set
-// to the row x_iᵀV and minus to its clipped entries (zero elsewhere).
-func eachRow(list []clipped, k int, x, v, full, minus []float64, visit func(i int)) {
+// clippedRows holds, for each row of X·V with clipped entries, the row
+// x_iᵀV and its clipped entries (zero elsewhere): riseSparse visits them
+// twice per evaluation (the Gram blocks, then the gradient's correction)
+// and they are formed once.
+type clippedRows struct {
+	idx         []int
+	full, minus []float64 // len(idx) × k
+}
+
+// form fills cr from the clipped entries in list (row-major) of X·V.
+func (cr *clippedRows) form(list []clipped, k int, x, v []float64) {
+	cr.idx, cr.full, cr.minus = cr.idx[:0], cr.full[:0], cr.minus[:0]
 	for q := 0; q < len(list); {
 		i := list[q].i
 		xr := x[i*k : i*k+k]
-		clear(full)
+		at := len(cr.full)
+		cr.full = append(cr.full, make([]float64, k)...)
+		cr.minus = append(cr.minus, make([]float64, k)...)
+		full, minus := cr.full[at:at+k], cr.minus[at:at+k]
 		for l, xv := range xr {
 			for c := 0; c < k; c++ {
 				full[c] += xv * v[l*k+c]
 			}
 		}
-		clear(minus)
 		for ; q < len(list) && list[q].i == i; q++ {
 			minus[list[q].j] = full[list[q].j]
 		}
-		visit(i)
+		cr.idx = append(cr.idx, i)
+	}
+}
+
+// each calls visit once per row, in order, with its full and clipped rows.
+func (cr *clippedRows) each(k int, visit func(i int, full, minus []float64)) {
+	for r, i := range cr.idx {
+		visit(i, cr.full[r*k:r*k+k], cr.minus[r*k:r*k+k])
 	}
 }
 
