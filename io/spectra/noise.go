@@ -670,24 +670,40 @@ func fitWeightsJoint(n, m, nf int, blind *Blind, variances func(i int, out []flo
 
 // observedOnly replaces the variances in o that are left out of a fit (the
 // blind channels bl, ascending, and values that are not positive and finite)
-// by NaN, and the others by −log v when negLog.
+// by NaN, and the others by −log v when negLog. The stretches between blind
+// channels go through a loop with no look-up (one test of v per value), the
+// blind channels are set on their own: it runs on every value of the matrix.
 func observedOnly(o []float64, bl []int, negLog bool) {
-	next := 0 // bl[next] is the first blind channel not yet passed
-	for j, v := range o {
-		if next < len(bl) && bl[next] <= j {
-			for next < len(bl) && bl[next] < j {
-				next++
-			}
-			if next < len(bl) && bl[next] == j {
-				o[j] = math.NaN()
-				continue
+	nan := math.NaN()
+	start := 0
+	for _, j := range bl {
+		if j < start || j >= len(o) {
+			continue
+		}
+		observedRun(o[start:j], negLog)
+		o[j] = nan
+		start = j + 1
+	}
+	observedRun(o[start:], negLog)
+}
+
+// observedRun is observedOnly for a stretch with no blind channel:
+// !(v > 0 && v < +Inf) is !(v > 0) || IsInf(v, 0), and NaN fails both.
+func observedRun(o []float64, negLog bool) {
+	nan, inf := math.NaN(), math.Inf(1)
+	if !negLog {
+		for j, v := range o {
+			if !(v > 0 && v < inf) {
+				o[j] = nan
 			}
 		}
-		switch {
-		case !(v > 0) || math.IsInf(v, 0):
-			o[j] = math.NaN()
-		case negLog:
+		return
+	}
+	for j, v := range o {
+		if v > 0 && v < inf {
 			o[j] = -math.Log(v)
+		} else {
+			o[j] = nan
 		}
 	}
 }

@@ -3,6 +3,7 @@ package spectra
 import (
 	"math"
 	"math/rand/v2"
+	"slices"
 	"strings"
 	"testing"
 
@@ -180,5 +181,32 @@ func TestStepToNoise(t *testing.T) {
 	want := 1 + delta*delta*meanB/(1/w.Row[4]+1/w.Row[3])
 	if got := rho[3] * rho[3]; math.Abs(got-want) > 0.05*want {
 		t.Errorf("lifted spectrum: ρ² = %.4f, want about %.4f", got, want)
+	}
+}
+
+// TestObservedOnly checks the values a weight fit keeps against the
+// definition in observedOnly's comment: NaN at the blind channels and at
+// every value that is not positive and finite, −log v (Go's math.Log, the
+// reference) or v itself elsewhere; blind lists with a channel at either
+// end, repeated or beyond the row change nothing else.
+func TestObservedOnly(t *testing.T) {
+	row := []float64{2, 0, -1, math.Inf(1), math.NaN(), 0.5, 1e-300, math.Inf(-1), 3}
+	for _, bl := range [][]int{nil, {0}, {8}, {0, 5, 8}, {3, 3, 6}, {1, 20}} {
+		for _, negLog := range []bool{false, true} {
+			got := append([]float64(nil), row...)
+			observedOnly(got, bl, negLog)
+			for j, v := range row {
+				want := v
+				switch {
+				case slices.Contains(bl, j) || !(v > 0) || math.IsInf(v, 0):
+					want = math.NaN()
+				case negLog:
+					want = -math.Log(v)
+				}
+				if math.Float64bits(got[j]) != math.Float64bits(want) && !(math.IsNaN(got[j]) && math.IsNaN(want)) {
+					t.Errorf("blind %v, negLog %v: value %d (%g) became %g, want %g", bl, negLog, j, v, got[j], want)
+				}
+			}
+		}
 	}
 }
