@@ -210,37 +210,30 @@ const weakBeamFraction = 0.01
 // stays below weakBeamFraction of that beam's median: a saturated band or a
 // detector edge. Absorbance noise there is σ_I/(I ln 10), huge as I → 0.
 func saturationWarnings(s *Series, ref, blank []float64) []string {
+	if len(ref) == 0 {
+		return nil
+	}
+	_, channelMax := beamMaxima(s.Values)
+	return saturationWarningsAt(s, ref, blank, channelMax)
+}
+
+// saturationWarningsAt is saturationWarnings given each channel's largest
+// single beam (beamMaxima), taken with the pass that finds the blind points.
+func saturationWarningsAt(s *Series, ref, blank, channelMax []float64) []string {
 	m := len(ref)
 	if m == 0 {
 		return nil
 	}
 	weak := make([]bool, m)
 	refThr := weakBeamFraction * median(ref)
-	n, _ := s.Values.Dims()
-	// Row by row (the matrix is stored by rows), in blocks of rows on the
-	// workers; a maximum does not depend on the order it is taken in.
+	// The largest of the reference and the beams: a maximum does not depend
+	// on the order it is taken in.
 	hi := append([]float64(nil), ref...)
-	var mu sync.Mutex
-	bufs := newScratch(m)
-	eachRowBlock(n, m, func(r0, r1 int) {
-		bh := bufs.get()
-		defer bufs.put(bh)
-		copy(bh, ref)
-		for i := r0; i < r1; i++ {
-			for j, v := range s.Values.RawRowView(i)[:m] {
-				if v > bh[j] {
-					bh[j] = v
-				}
-			}
+	for j, v := range channelMax[:m] {
+		if v > hi[j] {
+			hi[j] = v
 		}
-		mu.Lock()
-		for j, v := range bh {
-			if v > hi[j] {
-				hi[j] = v
-			}
-		}
-		mu.Unlock()
-	})
+	}
 	for j := 0; j < m; j++ {
 		weak[j] = hi[j] < refThr
 	}

@@ -354,25 +354,60 @@ func quantum(v *mat.Dense, blind *Blind) float64 {
 // top (the same value in at least 3 neighbouring channels of one spectrum):
 // the detector or its converter saturated there. 0 when there is none.
 func detectorCeiling(v *mat.Dense) float64 {
+	top, _ := beamMaxima(v)
+	return flatTop(v, top)
+}
+
+// beamMaxima returns the largest finite single beam, and the largest beam
+// per channel (+Inf counts there, NaN never does; −Inf for a channel with
+// none) that saturationWarnings needs, in one pass over the rows.
+func beamMaxima(v *mat.Dense) (top float64, channel []float64) {
 	n, m := v.Dims()
-	top := math.Inf(-1)
+	top = math.Inf(-1)
+	channel = make([]float64, m)
+	for j := range channel {
+		channel[j] = math.Inf(-1)
+	}
 	var mu sync.Mutex
+	bufs := newScratch(m)
 	eachRowBlock(n, m, func(r0, r1 int) {
-		bt := math.Inf(-1)
+		bc := bufs.get()
+		defer bufs.put(bc)
+		for j := range bc {
+			bc[j] = math.Inf(-1)
+		}
+		bt, inf := math.Inf(-1), math.Inf(1)
 		for i := r0; i < r1; i++ {
-			for _, x := range v.RawRowView(i)[:m] {
-				if x > bt && !math.IsInf(x, 0) {
+			for j, x := range v.RawRowView(i)[:m] {
+				if x > bc[j] {
+					bc[j] = x
+				}
+				if x > bt && x < inf {
 					bt = x
 				}
 			}
 		}
+		// A maximum does not depend on the order it is taken in.
 		mu.Lock()
-		top = math.Max(top, bt) // a maximum does not depend on the order
+		top = math.Max(top, bt)
+		for j, x := range bc {
+			if x > channel[j] {
+				channel[j] = x
+			}
+		}
 		mu.Unlock()
 	})
+	return top, channel
+}
+
+// flatTop is top when it is a flat top of v's rows (see detectorCeiling),
+// else 0.
+func flatTop(v *mat.Dense, top float64) float64 {
 	if !(top > 0) {
 		return 0
 	}
+	n, m := v.Dims()
+	var mu sync.Mutex
 	flat := false
 	eachRowBlock(n, m, func(r0, r1 int) {
 		for i := r0; i < r1; i++ {
@@ -402,22 +437,46 @@ func detectorCeiling(v *mat.Dense) float64 {
 // below zero, or at the detector's ceiling. Where a reference or blank
 // channel is itself unusable, that channel is blind in every spectrum.
 func findBlind(v *mat.Dense, badChannel []bool) *Blind {
+	top, _ := beamMaxima(v)
+	b, _ := findBlindTops(v, badChannel, flatTop(v, top))
+	return b
+}
+
+// findBlindTops is findBlind given the detector's ceiling (0: none), and
+// returns besides each channel's brightest beam that is not blind (0 when
+// none is), which addWeak needs: both in one pass over the rows.
+func findBlindTops(v *mat.Dense, badChannel []bool, ceil float64) (*Blind, []float64) {
 	n, m := v.Dims()
-	ceil := detectorCeiling(v)
 	b := &Blind{Rows: make([][]int, n)}
+	top := make([]float64, m)
+	var mu sync.Mutex
+	bufs := newScratch(m)
 	eachRowBlock(n, m, func(r0, r1 int) {
+		bt := bufs.get()
+		defer bufs.put(bt)
+		clear(bt)
 		for i := r0; i < r1; i++ {
 			for j, x := range v.RawRowView(i)[:m] {
 				if !(x > 0) || math.IsInf(x, 0) || (ceil > 0 && x == ceil) || (badChannel != nil && badChannel[j]) {
 					b.Rows[i] = append(b.Rows[i], j)
+				} else if x > bt[j] {
+					bt[j] = x
 				}
 			}
 		}
+		// The largest of the blocks' (the same whatever the order).
+		mu.Lock()
+		for j, x := range bt {
+			if x > top[j] {
+				top[j] = x
+			}
+		}
+		mu.Unlock()
 	})
 	for _, r := range b.Rows {
 		b.Count += len(r)
 	}
-	return b
+	return b, top
 }
 
 // addWeak marks single beams at or below weakSigmas·σ_I,j as blind too: the
@@ -456,6 +515,12 @@ func (b *Blind) addWeak(v *mat.Dense, sigma []float64) {
 		}
 		mu.Unlock()
 	})
+	b.addWeakBelow(v, sigma, top)
+}
+
+// addWeakBelow is addWeak given each channel's brightest observed beam top.
+func (b *Blind) addWeakBelow(v *mat.Dense, sigma, top []float64) {
+	n, m := v.Dims()
 	added := make([]int, n)
 	eachRowBlock(n, m, func(r0, r1 int) {
 		for i := r0; i < r1; i++ {
@@ -860,13 +925,16 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 			return inputErr(opt.Reference.File.Source, 0, "a reference for single beams must be a single beam too (positive intensities)", "reference intensity %g at %s %g", ref[j], s.AxisName, s.Axis[j])
 		}
 	}
-	blind := findBlind(s.Values, bad)
+	// The maxima, the blind points and the channels' brightest observed
+	// beams in two passes over the beams rather than five.
+	maxFinite, channelMax := beamMaxima(s.Values)
+	blind, top := findBlindTops(s.Values, bad, flatTop(s.Values, maxFinite))
 	if blind.Count > n*m/4 {
 		// Not a few blind points but the wrong kind of data.
 		return checkPositive(s.Values, s, "single beam")
 	}
 	sigI, q, src := channelNoise(s.Values, opt.Pre, blind)
-	blind.addWeak(s.Values, sigI)
+	blind.addWeakBelow(s.Values, sigI, top)
 	nref := make([]float64, m)
 	if opt.Reference.File != nil {
 		for j := range nref {
@@ -886,7 +954,7 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 			blind.addChannel(j)
 		}
 	}
-	out.Warnings = append(out.Warnings, saturationWarnings(s, ref, opt.Blank)...)
+	out.Warnings = append(out.Warnings, saturationWarningsAt(s, ref, opt.Blank, channelMax)...)
 	out.Blind = blind
 	out.Noise = Noise{Level: median(sigI), Unit: "single-beam units", Source: src, Channel: sigI, Quantum: q}
 	const ln10sq = math.Ln10 * math.Ln10

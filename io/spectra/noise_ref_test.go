@@ -448,3 +448,59 @@ func TestNoiseModelSameAtAnyGOMAXPROCS(t *testing.T) {
 		}
 	}
 }
+
+// The maxima and brightest observed beams taken in the pass that finds the
+// blind points are those of the direct forms (a loop over every value, as
+// saturationWarnings and addWeak first took them), with beams at or below
+// zero, a flat top at the detector's ceiling and an unusable channel.
+func TestBlindPassMaximaMatchDirectForm(t *testing.T) {
+	for _, c := range noiseCases(t) {
+		n, m := c.v.Dims()
+		w := mat.DenseCopyOf(c.v)
+		bad := make([]bool, m)
+		bad[m/3] = true
+		ceil := 0.0
+		if m >= 8 {
+			// A flat top: the largest beam in three neighbouring channels.
+			ceil = 2 * mat.Max(w)
+			for j := 2; j < 5; j++ {
+				w.Set(n/2, j, ceil)
+			}
+		}
+		top, channel := beamMaxima(w)
+		if got := flatTop(w, top); got != ceil {
+			t.Fatalf("%s: ceiling %g, want %g", c.name, got, ceil)
+		}
+		b, bright := findBlindTops(w, bad, ceil)
+		wantTop, wantBright := math.Inf(-1), make([]float64, m)
+		for i := 0; i < n; i++ {
+			for j := 0; j < m; j++ {
+				x := w.At(i, j)
+				if x > wantTop && !math.IsInf(x, 0) {
+					wantTop = x
+				}
+				blind := !(x > 0) || math.IsInf(x, 0) || (ceil > 0 && x == ceil) || bad[j]
+				if b.Has(i, j) != blind {
+					t.Fatalf("%s: point %d,%d blind %v, want %v", c.name, i, j, b.Has(i, j), blind)
+				}
+				if !blind && x > wantBright[j] {
+					wantBright[j] = x
+				}
+			}
+		}
+		if top != wantTop {
+			t.Errorf("%s: largest beam %g, want %g", c.name, top, wantTop)
+		}
+		for j := 0; j < m; j++ {
+			want := math.Inf(-1)
+			for i := 0; i < n; i++ {
+				if x := w.At(i, j); x > want {
+					want = x
+				}
+			}
+			if channel[j] != want || bright[j] != wantBright[j] {
+				t.Fatalf("%s: channel %d largest %g and brightest observed %g, want %g and %g", c.name, j, channel[j], bright[j], want, wantBright[j])
+			}
+		}
+	}
+}
