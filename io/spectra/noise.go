@@ -3,6 +3,7 @@ package spectra
 import (
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 	"strings"
 	"sync"
@@ -614,18 +615,25 @@ func interpAt(d *mat.Dense, j int, obs []int, i int, times []float64) float64 {
 // set of weights per variance function, all in the same two passes over the
 // points; each fit's sums run in the same order as a fit of its own.
 func fitWeights(n, m int, blind *Blind, variances ...func(i int, out []float64)) []*Weights {
-	return fitWeightsJoint(n, m, len(variances), blind, func(i int, out []float64) {
+	w, _ := fitWeightsJoint(n, m, len(variances), blind, func(i int, out []float64) {
 		for f, variance := range variances {
 			variance(i, out[f*m:(f+1)*m])
 		}
 	})
+	return w
 }
 
 // fitWeightsJoint is fitWeights for nf variance functions computed together:
 // variances(i, out) writes function f's variances of row i to out[f·m:(f+1)·m]
 // (work they share, such as σ/I, is then done once). It is called from
 // several goroutines at once, for different rows.
-func fitWeightsJoint(n, m, nf int, blind *Blind, variances func(i int, out []float64)) []*Weights {
+//
+// It returns besides, from the scale pass, an upper bound per row of
+// a_i·b_j·var_ij over the row's observed points for the first fit's final
+// weights and variances (peak; NaN for a row it cannot bound, nil when it
+// bounds none): with it addOverweighted passes over the rows that cannot
+// hold an overweighted point without computing their variances again.
+func fitWeightsJoint(n, m, nf int, blind *Blind, variances func(i int, out []float64)) (fits []*Weights, peak []float64) {
 	type sums struct {
 		rowSum, colSum []float64
 		rowCnt, colCnt []int
@@ -687,6 +695,9 @@ func fitWeightsJoint(n, m, nf int, blind *Blind, variances func(i int, out []flo
 		a.grand, a.cnt = 0, 0 // the scale pass's sum and count
 	}
 	// Scale: mean of a_i b_j var_ij over the observed points = 1.
+	if out[0] != nil {
+		peak = make([]float64, n)
+	}
 	mapRowsInOrder(n, nf*m, func(i int, buf []float64) {
 		variances(i, buf)
 		for f, w := range out {
@@ -699,6 +710,9 @@ func fitWeightsJoint(n, m, nf int, blind *Blind, variances func(i int, out []flo
 			observedOnly(o, blind.row(i), false)
 			for j, v := range o {
 				o[j] = ai * col[j] * v // NaN stays NaN
+			}
+			if f == 0 {
+				peak[i] = peakObserved(o, blind.row(i))
 			}
 		}
 	}, func(i int, buf []float64) {
@@ -721,16 +735,97 @@ func fitWeightsJoint(n, m, nf int, blind *Blind, variances func(i int, out []flo
 		if w == nil {
 			continue
 		}
+		sc := 1.0
 		if s, c := acc[f].grand, acc[f].cnt; s > 0 {
-			sc := float64(c) / s
+			sc = float64(c) / s
 			for j := range w.Col {
 				w.Col[j] *= sc
 			}
 		}
+		var row0, col0 []float64
+		if f == 0 {
+			row0, col0 = slices.Clone(w.Row), slices.Clone(w.Col)
+		}
 		floorWeights(w.Row)
 		floorWeights(w.Col)
+		if f == 0 {
+			peak = scalePeaks(peak, sc)
+			unboundRaised(peak, blind, row0, w.Row, col0, w.Col)
+		}
 	}
-	return out
+	return out, peak
+}
+
+// peakObserved is the largest of the products t in o (all ≥ 0 or NaN)
+// outside the blind channels bl (ascending, as observedOnly takes them);
+// NaN when one of them is NaN: a point left out of the fit though not
+// blind, which no bound then covers.
+func peakObserved(o []float64, bl []int) float64 {
+	mx, start := 0.0, 0
+	run := func(t []float64) bool {
+		for _, v := range t {
+			if v > mx {
+				mx = v
+			} else if v != v {
+				return false
+			}
+		}
+		return true
+	}
+	for _, j := range bl {
+		if j < start || j >= len(o) {
+			continue
+		}
+		if !run(o[start:j]) {
+			return math.NaN()
+		}
+		start = j + 1
+	}
+	if !run(o[start:]) {
+		return math.NaN()
+	}
+	return mx
+}
+
+// scalePeaks turns the peaks of a_i·b_j·var_ij taken before the column
+// weights were scaled by sc into bounds for the final weights: the final
+// product (a_i·fl(b_j·sc))·v, for any v ≤ var_ij, exceeds peak·sc by a few
+// roundings (relative 2⁻⁵³ each) at most, which the factor 1 + 10⁻⁹ covers,
+// and a product that underflowed before scaling (below 10⁻³⁰⁰) is at most
+// 10⁻³⁰⁰·sc after. nil when sc is so large that the underflow term counts.
+func scalePeaks(peak []float64, sc float64) []float64 {
+	if peak == nil || !(sc > 0 && sc <= 1e200) {
+		return nil
+	}
+	for i, p := range peak {
+		peak[i] = (p + 1e-300) * sc * (1 + 1e-9) // NaN stays NaN
+	}
+	return peak
+}
+
+// unboundRaised sets the bound of every row to NaN whose products used a
+// weight floorWeights raised (row0 and col0 the weights before, row and col
+// after): a raised row, and each row in which a raised channel is observed
+// (a channel blind in every spectrum, the usual case, touches none).
+func unboundRaised(peak []float64, blind *Blind, row0, row, col0, col []float64) {
+	if peak == nil {
+		return
+	}
+	for i := range row {
+		if row[i] != row0[i] {
+			peak[i] = math.NaN()
+		}
+	}
+	for j := range col {
+		if col[j] == col0[j] {
+			continue
+		}
+		for i := range peak {
+			if !blind.Has(i, j) {
+				peak[i] = math.NaN()
+			}
+		}
+	}
 }
 
 // observedOnly replaces the variances in o that are left out of a fit (the
@@ -995,9 +1090,12 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 			}
 		}
 	}
-	w := fitWeightsJoint(n, m, nf, blind, vars)
-	if w[0] != nil && blind.addOverweighted(w[0], absVar) {
-		w = fitWeightsJoint(n, m, nf, blind, vars)
+	// absVar ≤ diffVar at every point (refVar ≥ 0, and rounding keeps the
+	// order), so the first fit's peaks bound the products addOverweighted
+	// tests: only rows whose bound reaches the threshold are looked at.
+	w, peak := fitWeightsJoint(n, m, nf, blind, vars)
+	if w[0] != nil && blind.addOverweightedIn(w[0], absVar, peak) {
+		w, _ = fitWeightsJoint(n, m, nf, blind, vars)
 	}
 	out.DifferenceWeights = w[0]
 	if opt.Blank != nil {
@@ -1160,6 +1258,13 @@ const overweighted = 100
 // addOverweighted marks the points whose variance (from variance) exceeds
 // overweighted/(a_i b_j) as blind, and says whether there were any.
 func (b *Blind) addOverweighted(w *Weights, variance func(i int, out []float64)) bool {
+	return b.addOverweightedIn(w, variance, nil)
+}
+
+// addOverweightedIn is addOverweighted over the rows whose bound peak[i] on
+// w.Row[i]·w.Col[j]·variance does not rule an overweighted point out (every
+// row when peak is nil).
+func (b *Blind) addOverweightedIn(w *Weights, variance func(i int, out []float64), peak []float64) bool {
 	n, m := len(w.Row), len(w.Col)
 	added := make([]int, n) // per row, so that rows can be done in parallel
 	bufs := newScratch(m)
@@ -1167,6 +1272,9 @@ func (b *Blind) addOverweighted(w *Weights, variance func(i int, out []float64))
 		buf := bufs.get()
 		defer bufs.put(buf)
 		for i := r0; i < r1; i++ {
+			if peak != nil && peak[i] <= overweighted {
+				continue // no product in the row can exceed it
+			}
 			variance(i, buf)
 			// Membership is tested against the row's blind channels as they
 			// were (ascending); the points added go after them.

@@ -504,3 +504,67 @@ func TestBlindPassMaximaMatchDirectForm(t *testing.T) {
 		}
 	}
 }
+
+// The bound per row that the scale pass of fitWeightsJoint leaves lets
+// addOverweighted pass over rows without changing what it marks: on the
+// noise cases, with single-beam variances as assembleSingleBeams makes them
+// (absorbance σ²: (σ_I/I)²/ln²10, plus a reference's share for differences),
+// every observed point's a_i·b_j·var_ij with the final weights is within its
+// row's bound, and the blind points added are those of the pass over every
+// row (the direct form).
+func TestOverweightedBoundKeepsTheMarks(t *testing.T) {
+	const ln10sq = math.Ln10 * math.Ln10
+	marked, skipped := false, false
+	for _, c := range noiseCases(t) {
+		if c.blind == nil {
+			continue
+		}
+		n, m := c.v.Dims()
+		sig, _, _ := channelNoise(c.v, c.pre, c.blind)
+		refVar := make([]float64, m)
+		for j := range refVar {
+			refVar[j] = sq(sig[j]/math.Abs(c.v.At(0, j))) / 3
+		}
+		absVar := func(i int, o []float64) {
+			for j, x := range c.v.RawRowView(i) {
+				o[j] = sq(sig[j]/x) / ln10sq
+			}
+		}
+		vars := func(i int, o []float64) {
+			for j, x := range c.v.RawRowView(i) {
+				r := sq(sig[j] / x)
+				o[j], o[m+j] = (r+refVar[j])/ln10sq, r/ln10sq
+			}
+		}
+		w, peak := fitWeightsJoint(n, m, 2, c.blind, vars)
+		if w[0] == nil || peak == nil {
+			t.Fatalf("%s: no weights or no bounds", c.name)
+		}
+		buf := make([]float64, m)
+		for i := 0; i < n; i++ {
+			absVar(i, buf)
+			for j, v := range buf {
+				if p := w[0].Row[i] * w[0].Col[j] * v; !c.blind.Has(i, j) && v > 0 && p > peak[i] {
+					t.Fatalf("%s: point %d,%d product %g above its row's bound %g", c.name, i, j, p, peak[i])
+				}
+			}
+			skipped = skipped || peak[i] <= overweighted
+		}
+		copyBlind := func() *Blind {
+			b := &Blind{Rows: make([][]int, n), Count: c.blind.Count}
+			for i, r := range c.blind.Rows {
+				b.Rows[i] = append([]int(nil), r...)
+			}
+			return b
+		}
+		all, bounded := copyBlind(), copyBlind()
+		a1, a2 := all.addOverweighted(w[0], absVar), bounded.addOverweightedIn(w[0], absVar, peak)
+		if a1 != a2 || all.Count != bounded.Count || !slices.EqualFunc(all.Rows, bounded.Rows, slices.Equal[[]int]) {
+			t.Fatalf("%s: bounded pass added %v (%d blind), the pass over every row %v (%d)", c.name, a2, bounded.Count, a1, all.Count)
+		}
+		marked = marked || a1
+	}
+	if !marked || !skipped {
+		t.Errorf("no case marked a point (%v) or let a row be passed over (%v): the test tests nothing", marked, skipped)
+	}
+}
