@@ -332,3 +332,31 @@ func TestMapsReachTheirCanvases(t *testing.T) {
 		}
 	}
 }
+
+// upFilter's differences are those of the Up filter's definition (PNG
+// specification, ISO/IEC 15948, 9.2: Raw(x) − Prior(x) modulo 256) for every
+// pair of byte values, in each of a pixel's colour bytes, with the
+// neighbouring bytes at values that would borrow from them in a plain
+// 32-bit subtraction; the alpha bytes are dropped.
+func TestUpFilterEveryBytePair(t *testing.T) {
+	row, above := make([]byte, 4*256), make([]byte, 4*256)
+	dst := make([]byte, 3*256+1)
+	for a := range 256 {
+		for pos := range 3 {
+			for x := range 256 {
+				for k := range 4 {
+					row[4*x+k], above[4*x+k] = 0, 255 // every other byte borrows
+				}
+				row[4*x+pos], above[4*x+pos] = byte(a), byte(x)
+			}
+			upFilter(dst, row, above)
+			for x := range 256 {
+				for k := range 3 {
+					if want := row[4*x+k] - above[4*x+k]; dst[3*x+k] != want {
+						t.Fatalf("byte %d of pixel: %d − %d gave %d, want %d", k, row[4*x+k], above[4*x+k], dst[3*x+k], want)
+					}
+				}
+			}
+		}
+	}
+}
