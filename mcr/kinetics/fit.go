@@ -1056,7 +1056,7 @@ func residualSums(d, c, s, fitted, resid *mat.Dense) (float64, lagSums) {
 		} else {
 			f, e = fb.Slice(0, hi-lo, 0, m).(*mat.Dense), eb.Slice(0, hi-lo, 0, m).(*mat.Dense)
 		}
-		f.Mul(c.Slice(lo, hi, 0, q), s.T())
+		mulByTranspose(f, c.Slice(lo, hi, 0, q).(*mat.Dense), s)
 		for i := lo; i < hi; i++ {
 			dr, fr, er := d.RawRowView(i), f.RawRowView(i-lo), e.RawRowView(i-lo)
 			for j, v := range dr {
@@ -1078,6 +1078,56 @@ func residualSums(d, c, s, fitted, resid *mat.Dense) (float64, lagSums) {
 	}
 	lag.den = ssr // Lag1's denominator: the same squares in the same order
 	return ssr, lag
+}
+
+// mulByTranspose sets f (r × m) to c sᵀ for c (r × q) and s (m × q), each
+// entry the sum f.Mul(c, s.T()) forms, bit for bit: gonum's Dgemm takes that
+// product one dot product per entry (its vector kernel DotUnitary, which
+// keeps four partial sums, terms l ≡ 0, 1, 2, 3 mod 4 of each run of four
+// with the tail added to the first, and returns (p0 + p2) + (p1 + p3)),
+// called once per entry with a vector of q, the number of species: at q = 6
+// the calls cost more than the products. Here the same four sums run
+// inline. Go does not fuse multiply–adds on amd64 by default, nor does
+// gonum's kernel, so every product is rounded before it is added in both.
+func mulByTranspose(f, c, s *mat.Dense) {
+	r, q := c.Dims()
+	m, _ := s.Dims()
+	sr := s.RawMatrix()
+	for i := 0; i < r; i++ {
+		x, out := c.RawRowView(i)[:q], f.RawRowView(i)[:m]
+		if q == 6 {
+			// Six species (the chain of the benchmark): the row of c in
+			// registers, the same sums.
+			x0, x1, x2, x3, x4, x5 := x[0], x[1], x[2], x[3], x[4], x[5]
+			for j := range out {
+				y := sr.Data[j*sr.Stride : j*sr.Stride+6 : j*sr.Stride+6]
+				s0, s1, s2, s3 := 0.0, 0.0, 0.0, 0.0
+				s0 += x0 * y[0]
+				s1 += x1 * y[1]
+				s2 += x2 * y[2]
+				s3 += x3 * y[3]
+				s0 += x4 * y[4]
+				s0 += x5 * y[5]
+				out[j] = (s0 + s2) + (s1 + s3)
+			}
+			continue
+		}
+		for j := range out {
+			y := sr.Data[j*sr.Stride : j*sr.Stride+q]
+			var s0, s1, s2, s3 float64
+			l := 0
+			for ; l+4 <= q; l += 4 {
+				s0 += x[l] * y[l]
+				s1 += x[l+1] * y[l+1]
+				s2 += x[l+2] * y[l+2]
+				s3 += x[l+3] * y[l+3]
+			}
+			for ; l < q; l++ {
+				s0 += x[l] * y[l]
+			}
+			out[j] = (s0 + s2) + (s1 + s3)
+		}
+	}
 }
 
 // Lag1 is the lag-1 autocorrelation of the residuals down each column,
