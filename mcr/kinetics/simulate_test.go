@@ -3,6 +3,7 @@ package kinetics
 import (
 	"encoding/json"
 	"math"
+	"math/big"
 	"os"
 	"path/filepath"
 	"testing"
@@ -364,6 +365,26 @@ func TestConcentrationsOnlySameNumbers(t *testing.T) {
 				if got := conc.C.At(i, j); got != full.C.At(i, j) || math.Abs(got-want) > 1e-12 {
 					t.Fatalf("k=%v t=%g species %d: %.17g without extents, %.17g with, Bateman %.17g", ks, tt, j, got, full.C.At(i, j), want)
 				}
+			}
+		}
+	}
+}
+
+// The factors of the clusters' Taylor sums are 1/(L+m)! (definition; the
+// factorial exact in big integers), formed once per L and reused.
+func TestTaylorFactorsAreInverseFactorials(t *testing.T) {
+	var s ddScratch
+	for L := 0; L <= 12; L++ {
+		f := s.taylorFactors(L)
+		if g := s.taylorFactors(L); &g[0] != &f[0] {
+			t.Fatalf("L = %d: factors formed twice", L)
+		}
+		for m := 0; m <= ddTaylorTerms; m++ {
+			var fact big.Int
+			fact.MulRange(1, int64(L+m))
+			want, _ := new(big.Float).Quo(big.NewFloat(1), new(big.Float).SetInt(&fact)).Float64()
+			if math.Abs(f[m]/want-1) > 1e-13 {
+				t.Errorf("L = %d, m = %d: %.17g, 1/(L+m)! = %.17g", L, m, f[m], want)
 			}
 		}
 	}
