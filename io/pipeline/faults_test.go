@@ -5,6 +5,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/bandsolve/bandsolve/io/spectra"
 	"github.com/bandsolve/bandsolve/mcr"
 	"gonum.org/v1/gonum/mat"
 )
@@ -61,5 +62,54 @@ func TestCheckInitColumns(t *testing.T) {
 	}
 	if err := checkInitColumns("p.csv", names, mat.NewDense(3, 2, []float64{1, 0, 0.5, 0.5, 0, 1})); err != nil {
 		t.Errorf("distinct columns refused: %v", err)
+	}
+}
+
+// allFinite agrees with Go's math.IsNaN and math.IsInf (the reference) on
+// rows of every length up to 9 with one NaN, +Inf or −Inf at any position,
+// and with none among the largest, smallest and subnormal finite values.
+func TestAllFinite(t *testing.T) {
+	edge := []float64{math.MaxFloat64, -math.MaxFloat64, math.SmallestNonzeroFloat64, -0.0, 1e-310, 3}
+	for n := 0; n <= 9; n++ {
+		row := make([]float64, n)
+		for j := range row {
+			row[j] = edge[j%len(edge)]
+		}
+		if !allFinite(row) {
+			t.Fatalf("finite row %v reported as not finite", row)
+		}
+		for j := range row {
+			for _, bad := range []float64{math.NaN(), math.Inf(1), math.Inf(-1)} {
+				r := append([]float64(nil), row...)
+				r[j] = bad
+				if allFinite(r) {
+					t.Fatalf("row %v reported as finite", r)
+				}
+			}
+		}
+	}
+}
+
+// checkAssembledFinite names the first non-finite value in row order (the
+// time and axis point of the spectrum that holds it), whichever block of
+// rows the workers found it in.
+func TestCheckAssembledFiniteNamesTheFirst(t *testing.T) {
+	n, m := 300, 2000 // blocks of 32 rows
+	sub := &spectra.Series{AxisName: "wavenumber"}
+	for i := 0; i < n; i++ {
+		sub.Times = append(sub.Times, float64(10*i))
+	}
+	for j := 0; j < m; j++ {
+		sub.Axis = append(sub.Axis, float64(1000+j))
+	}
+	d := mat.NewDense(n, m, nil)
+	d.Set(250, 7, math.Inf(1))
+	d.Set(180, 30, math.NaN())
+	err := checkAssembledFinite("s.csv", sub, &spectra.Assembled{Difference: d})
+	if err == nil || !strings.Contains(err.Error(), "at 1800 s, wavenumber 1030, is NaN") {
+		t.Fatalf("got %v, want the NaN at 1800 s, wavenumber 1030", err)
+	}
+	if err := checkAssembledFinite("s.csv", sub, &spectra.Assembled{Difference: mat.NewDense(n, m, nil)}); err != nil {
+		t.Fatalf("finite data refused: %v", err)
 	}
 }
