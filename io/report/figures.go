@@ -3,7 +3,9 @@ package report
 import (
 	"fmt"
 	"math"
+	"runtime"
 	"strings"
+	"sync"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
@@ -13,38 +15,78 @@ import (
 // A figure whose file is missing is simply absent; one that cannot be drawn
 // is reported in problems.
 func Figures(f *Folder) (figs []Figure, problems []string) {
-	add := func(fig *Figure, err error) {
-		if err != nil {
-			problems = append(problems, err.Error())
-			return
-		}
-		if fig != nil {
-			figs = append(figs, *fig)
-		}
-	}
+	type job func() (*Figure, error)
+	var jobs []job
 	ax := spectralAxis(f.axisName())
 	if f.Maps != nil {
 		if m := f.Maps.Matrices["data"]; m != nil && f.Maps.Matrices["difference"] != nil {
-			add(overlayFigure(f, m, ax, "fig-absorbance", "Absorbance spectra, coloured by time", "absorbance",
-				"The absolute absorbance spectra that were resolved (species mode)."))
+			jobs = append(jobs, func() (*Figure, error) {
+				return overlayFigure(f, m, ax, "fig-absorbance", "Absorbance spectra, coloured by time", "absorbance",
+					"The absolute absorbance spectra that were resolved (species mode).")
+			})
 		}
 		if m := f.inputDifference(); m != nil {
-			add(overlayFigure(f, m, ax, "fig-input", "Difference spectra, coloured by time", "ΔA (absorbance)",
-				"Each spectrum minus the reference state: bands that grow are formed, bands that go negative are consumed."))
-			add(mapFigure(f, m, ax, "fig-map", "Difference spectra as a time × axis map", "ΔA", 1,
-				"Blue: absorbance lost; white: no change; vermilion: absorbance gained. Colour limits are ± the largest |ΔA|."))
+			jobs = append(jobs, func() (*Figure, error) {
+				return overlayFigure(f, m, ax, "fig-input", "Difference spectra, coloured by time", "ΔA (absorbance)",
+					"Each spectrum minus the reference state: bands that grow are formed, bands that go negative are consumed.")
+			}, func() (*Figure, error) {
+				return mapFigure(f, m, ax, "fig-map", "Difference spectra as a time × axis map", "ΔA", 1,
+					"Blue: absorbance lost; white: no change; vermilion: absorbance gained. Colour limits are ± the largest |ΔA|.")
+			})
 		}
 	}
-	add(singularFigure(f))
-	add(efaFigure(f))
-	add(spectraFigure(f, ax))
-	add(profilesFigure(f))
-	add(iterationsFigure(f))
+	jobs = append(jobs, func() (*Figure, error) { return singularFigure(f) },
+		func() (*Figure, error) { return efaFigure(f) },
+		func() (*Figure, error) { return spectraFigure(f, ax) },
+		func() (*Figure, error) { return profilesFigure(f) },
+		func() (*Figure, error) { return iterationsFigure(f) })
 	if f.Maps != nil {
 		if m := f.Maps.Matrices["residual"]; m != nil {
-			add(mapFigure(f, m, ax, "fig-residual-map", "Residuals D − C Sᵀ as a time × axis map", "residual", 0.995,
-				"What the model leaves unexplained. Noise looks like fine speckle; structure along time or at a band means a missing component or a violated constraint. Colour limits are ± the 99.5th percentile of |residual|."))
-			add(residualSpectrumFigure(f, m, ax))
+			jobs = append(jobs, func() (*Figure, error) {
+				return mapFigure(f, m, ax, "fig-residual-map", "Residuals D − C Sᵀ as a time × axis map", "residual", 0.995,
+					"What the model leaves unexplained. Noise looks like fine speckle; structure along time or at a band means a missing component or a violated constraint. Colour limits are ± the 99.5th percentile of |residual|.")
+			}, func() (*Figure, error) { return residualSpectrumFigure(f, m, ax) })
+		}
+	}
+	// Each figure is built from the folder alone (read, never changed) by
+	// one goroutine, several at once; they are collected in reading order,
+	// so the figures and problems do not depend on which finished first.
+	type built struct {
+		fig      *Figure
+		err      error
+		panicked any
+	}
+	res := make([]built, len(jobs))
+	next := make(chan int, len(jobs))
+	for k := range jobs {
+		next <- k
+	}
+	close(next)
+	var wg sync.WaitGroup
+	for w := 0; w < min(runtime.GOMAXPROCS(0), len(jobs)); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for k := range next {
+				func() {
+					// A panic is raised again on the caller, as when the
+					// figures were built one after another.
+					defer func() { res[k].panicked = recover() }()
+					res[k].fig, res[k].err = jobs[k]()
+				}()
+			}
+		}()
+	}
+	wg.Wait()
+	for _, r := range res {
+		if r.panicked != nil {
+			panic(r.panicked)
+		}
+		switch {
+		case r.err != nil:
+			problems = append(problems, r.err.Error())
+		case r.fig != nil:
+			figs = append(figs, *r.fig)
 		}
 	}
 	return figs, problems

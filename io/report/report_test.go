@@ -7,6 +7,7 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"runtime"
 	"strconv"
 	"strings"
 	"testing"
@@ -401,5 +402,47 @@ func TestDerivedWarnings(t *testing.T) {
 	s := string(b)
 	if !strings.Contains(s, "Closure is violated") || !strings.Contains(s, "species_2 has vanished") {
 		t.Errorf("closure and vanished-component warnings missing")
+	}
+}
+
+// The figures are built several at once: the report and the figure files
+// are the same bytes at GOMAXPROCS 1, 2 and 3, and the figures come in
+// reading order.
+func TestFiguresSameAtAnyGOMAXPROCS(t *testing.T) {
+	dir := fixture(t, true)
+	f, err := Load(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	var first []byte
+	var firstFiles map[string][]byte
+	for _, procs := range []int{1, 2, 3} {
+		runtime.GOMAXPROCS(procs)
+		b, files, err := BuildWithFiles(f)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if first == nil {
+			first, firstFiles = b, files
+			figs, _ := Figures(f)
+			var ids []string
+			for _, fg := range figs {
+				ids = append(ids, fg.ID)
+			}
+			want := "fig-absorbance fig-input fig-map fig-singular fig-efa fig-spectra fig-profiles fig-iterations fig-residual-map fig-residual-spectrum"
+			if got := strings.Join(ids, " "); got != want {
+				t.Errorf("figures in the order %s, want %s", got, want)
+			}
+			continue
+		}
+		if !bytes.Equal(b, first) || len(files) != len(firstFiles) {
+			t.Fatalf("GOMAXPROCS %d: report differs from GOMAXPROCS 1's", procs)
+		}
+		for name, data := range files {
+			if !bytes.Equal(data, firstFiles[name]) {
+				t.Fatalf("GOMAXPROCS %d: %s differs from GOMAXPROCS 1's", procs, name)
+			}
+		}
 	}
 }
