@@ -323,6 +323,7 @@ type marginSide struct {
 	gx    []float64 // k × k scratch: Gᵀ X (violations)
 	delta []float64
 	vt    []float64 // Vᵀ (k × k): column j of V contiguous
+	row   []float64 // k scratch (rebase)
 	based bool
 	list  []clipped
 	// rows lists, column after column, the rows of each column's
@@ -348,7 +349,7 @@ func newMarginSide(x []float64, k int, nn, zero []bool) *marginSide {
 	rows := len(x) / k
 	ms := &marginSide{x: x, k: k, nn: nn, zero: zero, norm: make([]float64, rows),
 		ref: make([]float64, k*k), ratio: make([]float64, len(x)), gx: make([]float64, k*k), delta: make([]float64, k),
-		vt: make([]float64, k*k), rows: make([]int32, 0, len(x)), start: make([]int32, k*(groups+2)), next: make([]int32, groups+2), tag: make([]int32, len(x)/k),
+		vt: make([]float64, k*k), row: make([]float64, k), rows: make([]int32, 0, len(x)), start: make([]int32, k*(groups+2)), next: make([]int32, groups+2), tag: make([]int32, len(x)/k),
 		exp: make([]int, k), hit: make([]uint64, (len(x)+63)/64), val: make([]float64, len(x))}
 	for i := 0; i < rows; i++ {
 		xr := x[i*k : i*k+k]
@@ -357,12 +358,22 @@ func newMarginSide(x []float64, k int, nn, zero []bool) *marginSide {
 	return ms
 }
 
-// rebase makes v the reference (ms.vt must hold vᵀ).
+// rebase makes v the reference.
 func (ms *marginSide) rebase(v []float64) {
 	k := ms.k
 	copy(ms.ref, v)
 	ms.atRef = 0
+	row := ms.row
 	for i, nrm := range ms.norm {
+		// The row x_iᵀV at once: k sums in flight, each in entry's order.
+		clear(row)
+		for l, xv := range ms.x[i*k : i*k+k] {
+			vr := v[l*k : l*k+k]
+			vr = vr[:len(row)]
+			for c, vv := range vr {
+				row[c] += xv * vv
+			}
+		}
 		for j := 0; j < k; j++ {
 			e := i*k + j
 			switch {
@@ -372,7 +383,7 @@ func (ms *marginSide) rebase(v []float64) {
 				ms.ratio[e] = math.Inf(1)
 				continue
 			default:
-				ms.ratio[e] = ms.entry(i, j) / nrm
+				ms.ratio[e] = row[j] / nrm
 			}
 			if ms.ratio[e] <= 0 {
 				ms.atRef++
@@ -780,17 +791,24 @@ type clippedRows struct {
 
 // form fills cr from the clipped entries in list (row-major) of X·V.
 func (cr *clippedRows) form(list []clipped, k int, x, v []float64) {
-	cr.idx, cr.full, cr.minus = cr.idx[:0], cr.full[:0], cr.minus[:0]
+	cr.idx = cr.idx[:0]
+	if need := len(list) * k; cap(cr.full) < need { // at most one row per entry
+		cr.full, cr.minus = make([]float64, need), make([]float64, need)
+	}
+	cr.full, cr.minus = cr.full[:cap(cr.full)], cr.minus[:cap(cr.minus)]
+	at := 0
 	for q := 0; q < len(list); {
 		i := list[q].i
 		xr := x[i*k : i*k+k]
-		at := len(cr.full)
-		cr.full = append(cr.full, make([]float64, k)...)
-		cr.minus = append(cr.minus, make([]float64, k)...)
 		full, minus := cr.full[at:at+k], cr.minus[at:at+k]
+		at += k
+		clear(full)
+		clear(minus)
 		for l, xv := range xr {
-			for c := 0; c < k; c++ {
-				full[c] += xv * v[l*k+c]
+			vr := v[l*k : l*k+k]
+			vr = vr[:len(full)]
+			for c, vv := range vr {
+				full[c] += xv * vv
 			}
 		}
 		for ; q < len(list) && list[q].i == i; q++ {
