@@ -111,6 +111,10 @@ func finish(r *Result, stage *output.Stage, extra Extra, st Streams) error {
 			return err
 		}
 	}
+	// The manifest's hashes of the data files read every byte of them
+	// again; begun now, they run while the result files are written.
+	r.inputSums = startInputSums(dataFiles(r))
+	defer r.inputSums.wait()
 	if err := WriteResults(r, stage); err != nil {
 		return err
 	}

@@ -336,7 +336,7 @@ func makeManifest(r *Result, stage *output.Stage, out, base string) (*Manifest, 
 			return nil
 		}
 		seen[name] = true
-		n, sum, err := HashFile(p)
+		n, sum, err := r.inputSums.hash(p)
 		if err != nil {
 			return fmt.Errorf("manifest: %w", err)
 		}
@@ -428,6 +428,83 @@ func HashFile(path string) (int64, string, error) {
 		return 0, "", fmt.Errorf("%s: not a regular file; refused", path)
 	}
 	return hashStream(f, path)
+}
+
+// inputSums are the size and SHA-256 of data files, hashed on one goroutine
+// from startInputSums on: makeManifest lists the same files later, after
+// other writers, and takes their sums from here (waiting for them) rather
+// than reading the files again then.
+type inputSums struct {
+	done chan struct{}
+	sums map[string]fileSum // by absolute path; read only once done is closed
+}
+
+type fileSum struct {
+	n   int64
+	sum string
+	err error
+}
+
+// startInputSums begins hashing paths (absolute), one after another.
+func startInputSums(paths []string) *inputSums {
+	h := &inputSums{done: make(chan struct{}), sums: make(map[string]fileSum, len(paths))}
+	go func() {
+		defer close(h.done)
+		for _, p := range paths {
+			if _, ok := h.sums[p]; !ok {
+				n, sum, err := HashFile(p)
+				h.sums[p] = fileSum{n, sum, err}
+			}
+		}
+	}()
+	return h
+}
+
+// wait returns once every file begun is hashed (at once for nil).
+func (h *inputSums) wait() {
+	if h != nil {
+		<-h.done
+	}
+}
+
+// hash is HashFile(p), taken from the sums begun when p is among them.
+func (h *inputSums) hash(p string) (int64, string, error) {
+	if h != nil {
+		if abs, err := filepath.Abs(p); err == nil {
+			h.wait()
+			if s, ok := h.sums[abs]; ok {
+				return s.n, s.sum, s.err
+			}
+		}
+	}
+	return HashFile(p)
+}
+
+// dataFiles are the files makeManifest hashes for --data, as absolute
+// paths: a file as given, a folder's spectrum files (the series' names).
+func dataFiles(r *Result) []string {
+	var out []string
+	add := func(p string) {
+		if abs, err := filepath.Abs(p); err == nil {
+			out = append(out, abs)
+		}
+	}
+	s := r.Settings
+	for i, d := range s.Data {
+		p := s.Path(d)
+		st, err := os.Stat(p)
+		if err != nil {
+			continue
+		}
+		if st.IsDir() && i < len(r.Experiments) && r.Experiments[i].Series != nil {
+			for _, f := range r.Experiments[i].Series.Names {
+				add(f)
+			}
+			continue
+		}
+		add(p)
+	}
+	return out
 }
 
 // hashStream returns the size and SHA-256 (hex) of what f holds.

@@ -185,3 +185,39 @@ func TestHashFileKnownVector(t *testing.T) {
 		t.Errorf("HashFile(abc) = %d, %s, %v", n, sum, err)
 	}
 }
+
+// The sums begun ahead of the manifest are SHA-256's: "abc" gives the
+// digest of FIPS 180-2's first example (appendix B.1); a file not begun is
+// hashed when asked for, a path given relative to the working folder finds
+// the sum begun under its absolute path, and a file that is missing gives
+// HashFile's own error.
+func TestInputSumsAheadOfTheManifest(t *testing.T) {
+	dir := t.TempDir()
+	abc, other, missing := filepath.Join(dir, "abc.csv"), filepath.Join(dir, "other.csv"), filepath.Join(dir, "gone.csv")
+	if err := os.WriteFile(abc, []byte("abc"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(other, []byte(""), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	h := startInputSums([]string{abc, missing})
+	const fips = "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
+	wd, _ := os.Getwd()
+	rel, err := filepath.Rel(wd, abc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, p := range []string{abc, rel} {
+		if n, sum, err := h.hash(p); err != nil || n != 3 || sum != fips {
+			t.Errorf("%s: %d bytes, %s, %v; want 3 bytes, %s", p, n, sum, err, fips)
+		}
+	}
+	// SHA-256 of no bytes (the empty message's widely published digest; from memory).
+	if n, sum, err := h.hash(other); err != nil || n != 0 || sum != "e3b0c44298fc1c149afbf4c8996fb92427ae41e4649b934ca495991b7852b855" {
+		t.Errorf("file not begun: %d bytes, %s, %v", n, sum, err)
+	}
+	_, _, want := HashFile(missing)
+	if _, _, err := h.hash(missing); err == nil || want == nil || err.Error() != want.Error() {
+		t.Errorf("missing file: %v, want %v", err, want)
+	}
+}

@@ -39,9 +39,10 @@ type Experiment struct {
 // Result holds everything an analysis computed.
 type Result struct {
 	Settings    *Settings
-	Started     time.Time // when Run began (for the manifest)
-	Supplied    []string  // files the command staged before the results (the demo's data)
-	summaryJSON []byte    // summary printed with --json, made before the commit
+	Started     time.Time  // when Run began (for the manifest)
+	Supplied    []string   // files the command staged before the results (the demo's data)
+	summaryJSON []byte     // summary printed with --json, made before the commit
+	inputSums   *inputSums // the inputs' SHA-256, hashed beside the writers (finish)
 	Experiments []*Experiment
 	AxisName    string
 	Axis        []float64
