@@ -465,14 +465,7 @@ func findBlindTops(v *mat.Dense, badChannel []bool, ceil float64) (*Blind, []flo
 				}
 			}
 		}
-		// The largest of the blocks' (the same whatever the order).
-		mu.Lock()
-		for j, x := range bt {
-			if x > top[j] {
-				top[j] = x
-			}
-		}
-		mu.Unlock()
+		raiseTo(&mu, top, bt)
 	})
 	for _, r := range b.Rows {
 		b.Count += len(r)
@@ -508,13 +501,7 @@ func (b *Blind) addWeak(v *mat.Dense, sigma []float64) {
 				}
 			}
 		}
-		mu.Lock()
-		for j, x := range bt {
-			if x > top[j] {
-				top[j] = x
-			}
-		}
-		mu.Unlock()
+		raiseTo(&mu, top, bt)
 	})
 	b.addWeakBelow(v, sigma, top)
 }
@@ -1300,4 +1287,16 @@ func (b *Blind) addOverweightedIn(w *Weights, variance func(i int, out []float64
 	}
 	b.Count += total
 	return total > 0
+}
+
+// raiseTo raises each entry of top to the block's maximum bt under mu: the
+// largest of the blocks' maxima is the same whatever order they come in.
+func raiseTo(mu *sync.Mutex, top, bt []float64) {
+	mu.Lock()
+	defer mu.Unlock()
+	for j, x := range bt {
+		if x > top[j] {
+			top[j] = x
+		}
+	}
 }
