@@ -21,9 +21,12 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"runtime"
 	"slices"
 	"strconv"
 	"strings"
+	"sync"
+	"sync/atomic"
 
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/mcr"
@@ -1021,6 +1024,26 @@ func keptValues(r *Result, v []float64) []float64 {
 // with the model columns then simulated at every time, so that Model has
 // one row per spectrum as everywhere else.
 func (kn *Kinetics) fitData(r *Result, opt kinetics.FitOptions) (*kinetics.FitResult, *mat.Dense, error) {
+	f := kn.dataFitJob(r, opt)
+	f.run()
+	return kn.keep(f)
+}
+
+// dataFitJob is one fit of the data matrix made ready by fitData: the rows
+// and the shared reductions taken from kn beforehand, so that run reads
+// and writes nothing of kn and several jobs may run at once (refitAll).
+type dataFitJob struct {
+	kn      *Kinetics
+	r       *Result
+	times   []float64
+	d       *mat.Dense
+	opt     kinetics.FitOptions
+	fit     *kinetics.FitResult
+	spectra *mat.Dense
+	err     error
+}
+
+func (kn *Kinetics) dataFitJob(r *Result, opt kinetics.FitOptions) *dataFitJob {
 	times, d := kn.fitRows(r)
 	// Nothing reads a data fit's n × m fitted values and residuals once
 	// FitData has taken their figures (the residual sum of squares, the
@@ -1032,25 +1055,41 @@ func (kn *Kinetics) fitData(r *Result, opt kinetics.FitOptions) (*kinetics.FitRe
 	if b := kn.batch; b != nil && opt.Scaled == nil {
 		opt.Scaled = b.scaled
 	}
-	fit, spectra, err := kinetics.FitData(kn.Scheme, times, d, opt)
-	if err == nil {
-		kn.reduced = fit.Reduced
+	return &dataFitJob{kn: kn, r: r, times: times, d: d, opt: opt}
+}
+
+// run makes the fit; it only reads kn.Scheme, kn.T0 and kn.Extents.
+func (f *dataFitJob) run() {
+	kn, r := f.kn, f.r
+	f.fit, f.spectra, f.err = kinetics.FitData(kn.Scheme, f.times, f.d, f.opt)
+	if f.err != nil || len(r.SetAside) == 0 {
+		return
+	}
+	sim, err := kn.Scheme.Simulate(f.fit.K, f.fit.C0, r.Times, kn.T0)
+	if err != nil {
+		// (keep still takes the fit's reductions, as before.)
+		f.err = err
+		return
+	}
+	f.fit.Model = sim.C
+	if kn.Extents {
+		f.fit.Model = sim.Extents
+	}
+}
+
+// keep takes a finished job's reductions for the next fits, as fitData
+// always did, and returns its result.
+func (kn *Kinetics) keep(f *dataFitJob) (*kinetics.FitResult, *mat.Dense, error) {
+	if f.fit != nil {
+		kn.reduced = f.fit.Reduced
 		if kn.batch != nil {
-			kn.batch.scaled = fit.Scaled
+			kn.batch.scaled = f.fit.Scaled
 		}
 	}
-	if err != nil || len(r.SetAside) == 0 {
-		return fit, spectra, err
+	if f.err != nil {
+		return nil, nil, f.err
 	}
-	sim, err := kn.Scheme.Simulate(fit.K, fit.C0, r.Times, kn.T0)
-	if err != nil {
-		return nil, nil, err
-	}
-	fit.Model = sim.C
-	if kn.Extents {
-		fit.Model = sim.Extents
-	}
-	return fit, spectra, nil
+	return f.fit, f.spectra, nil
 }
 
 // fitRows returns the times and rows of r.D the data fits work on: with a
@@ -1247,16 +1286,18 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 	}()
 	restarted := false
 	var i int
+	jobs := kn.refitAll(r, best, opt, alts)
 	again := func() {
 		if !restarted {
 			restarted = true
 			alts, i = kn.exchanges(best.K), -1
+			jobs = kn.refitAll(r, best, opt, alts)
 		}
 	}
 	for i = 0; i < len(alts); i++ {
 		o := opt
 		o.InitialK = alts[i]
-		alt, altSpectra, err := kn.refit(r, best, o)
+		alt, altSpectra, err := kn.refit(r, best, o, jobs[i])
 		if err != nil || !(best.Sigma > 0) {
 			continue
 		}
@@ -1336,23 +1377,101 @@ type refitMemo struct {
 
 // refit is fitData from the exchanged start o.InitialK, or the refit made
 // before from a start within refitTol standard errors of best's.
-func (kn *Kinetics) refit(r *Result, best *kinetics.FitResult, o kinetics.FitOptions) (*kinetics.FitResult, *mat.Dense, error) {
+// A job made by refitAll for this start is taken instead of fitting again.
+func (kn *Kinetics) refit(r *Result, best *kinetics.FitResult, o kinetics.FitOptions, job *dataFitJob) (*kinetics.FitResult, *mat.Dense, error) {
+	fitData := func() (*kinetics.FitResult, *mat.Dense, error) {
+		if job != nil {
+			return kn.keep(job)
+		}
+		return kn.fitData(r, o)
+	}
 	if kn.FitC0 {
 		// The non-negative cost takes the reported fit's initial
 		// concentrations, which move with it: refit every time.
-		return kn.fitData(r, o)
+		return fitData()
 	}
-	for _, m := range kn.refits {
-		if m.d == r.D && m.nAside == len(r.SetAside) && sameC0(m.c0, o.C0) && closeStart(m.start, o.InitialK, best.KStdErr) {
-			return m.fit, m.spectra, nil
-		}
+	if m := kn.recalled(r, best, o); m != nil {
+		return m.fit, m.spectra, nil
 	}
-	fit, spectra, err := kn.fitData(r, o)
+	fit, spectra, err := fitData()
 	if err != nil {
 		return nil, nil, err
 	}
 	kn.refits = append(kn.refits, &refitMemo{d: r.D, nAside: len(r.SetAside), start: o.InitialK, c0: o.C0, fit: fit, spectra: spectra})
 	return fit, spectra, nil
+}
+
+// recalled is the refit kept from a start within refitTol standard errors
+// of o.InitialK on the same data, or nil.
+func (kn *Kinetics) recalled(r *Result, best *kinetics.FitResult, o kinetics.FitOptions) *refitMemo {
+	for _, m := range kn.refits {
+		if m.d == r.D && m.nAside == len(r.SetAside) && sameC0(m.c0, o.C0) && closeStart(m.start, o.InitialK, best.KStdErr) {
+			return m
+		}
+	}
+	return nil
+}
+
+// refitAll makes at once the fits swapCheck's refit will need from the
+// exchanged starts alts, one job per start in alts' order (nil where refit
+// will recall a fit instead: one kept, or one from an earlier start of alts
+// within refitTol standard errors, which refit then recalls when it
+// succeeded and fits itself otherwise). The refits are independent of each
+// other and of the order they are made in, so that swapCheck, taking them
+// in alts' order, reaches every figure and every choice a refit at a time
+// did, whatever the number of processors.
+func (kn *Kinetics) refitAll(r *Result, best *kinetics.FitResult, opt kinetics.FitOptions, alts [][]float64) []*dataFitJob {
+	jobs := make([]*dataFitJob, len(alts))
+	var todo []func()
+	for i, a := range alts {
+		o := opt
+		o.InitialK = a
+		if !kn.FitC0 && (kn.recalled(r, best, o) != nil || nearEarlier(jobs[:i], a, best.KStdErr)) {
+			continue
+		}
+		jobs[i] = kn.dataFitJob(r, o)
+		todo = append(todo, jobs[i].run)
+	}
+	runAll(todo)
+	return jobs
+}
+
+func nearEarlier(jobs []*dataFitJob, start, se []float64) bool {
+	for _, j := range jobs {
+		if j != nil && closeStart(j.opt.InitialK, start, se) {
+			return true
+		}
+	}
+	return false
+}
+
+// runAll runs the independent tasks on up to GOMAXPROCS goroutines and
+// returns when all are done. Each task writes only its own result, so the
+// outcome does not depend on which goroutine ran which.
+func runAll(tasks []func()) {
+	workers := min(runtime.GOMAXPROCS(0), len(tasks))
+	if workers <= 1 {
+		for _, t := range tasks {
+			t()
+		}
+		return
+	}
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for {
+				i := int(next.Add(1)) - 1
+				if i >= len(tasks) {
+					return
+				}
+				tasks[i]()
+			}
+		}()
+	}
+	wg.Wait()
 }
 
 // recallCost returns the non-negative cost of a refit's rate constants,
