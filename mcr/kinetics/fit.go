@@ -4,7 +4,10 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"runtime"
 	"sort"
+	"sync"
+	"sync/atomic"
 
 	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
@@ -465,11 +468,37 @@ func (p *fitProblem) starts(m int) ([][]float64, error) {
 const startTilt = 1.05
 
 // solve runs Levenberg–Marquardt from each start and keeps the lowest sum of squares (the
-// earliest start on ties).
+// earliest start on ties). The runs from several starts are independent (the problem is only
+// read): they run at once (eachAtOnce) and are then compared in the starts' order, so that the
+// answer is the same whatever the number of processors.
 func (p *fitProblem) solve(m int) (*LMResult, error) {
 	starts, err := p.starts(m)
 	if err != nil {
 		return nil, err
+	}
+	if len(starts) > 1 && len(starts[0]) > 0 {
+		runs := make([]*LMResult, len(starts))
+		errs := make([]error, len(starts))
+		eachAtOnce(len(starts), func(i int) {
+			runs[i], errs[i] = LevenbergMarquardt(p.residual, p.jacobianFunc(), starts[i], m, p.opt.LM)
+		})
+		var best *LMResult
+		var firstErr error
+		for i, res := range runs {
+			if errs[i] != nil {
+				if firstErr == nil {
+					firstErr = errs[i]
+				}
+				continue
+			}
+			if best == nil || res.SSR < best.SSR*(1-1e-12) {
+				best = res
+			}
+		}
+		if best == nil {
+			return nil, firstErr
+		}
+		return best, nil
 	}
 	var best *LMResult
 	var firstErr error
@@ -1179,4 +1208,28 @@ func dimsOrZero(a *mat.Dense) (int, int) {
 		return 0, 0
 	}
 	return a.Dims()
+}
+
+// eachAtOnce calls task(0), …, task(n−1) on up to GOMAXPROCS goroutines and returns when all
+// are done. Each task writes only its own results, so nothing depends on which goroutine ran it.
+func eachAtOnce(n int, task func(i int)) {
+	workers := min(runtime.GOMAXPROCS(0), n)
+	if workers <= 1 {
+		for i := 0; i < n; i++ {
+			task(i)
+		}
+		return
+	}
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := int(next.Add(1)) - 1; i < n; i = int(next.Add(1)) - 1 {
+				task(i)
+			}
+		}()
+	}
+	wg.Wait()
 }
