@@ -1287,12 +1287,23 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 	restarted := false
 	var i int
 	jobs := kn.refitAll(r, best, opt, alts)
+	// The non-negative costs the loop will ask for while best stays as it
+	// is, made at once; taken only while it does (fresh).
+	pre, fresh := kn.costsAhead(r, best, opt, alts, jobs, nnCost), true
 	again := func() {
+		fresh = false
 		if !restarted {
 			restarted = true
 			alts, i = kn.exchanges(best.K), -1
 			jobs = kn.refitAll(r, best, opt, alts)
+			pre, fresh = kn.costsAhead(r, best, opt, alts, jobs, nnCost), true
 		}
+	}
+	cost := func(fit *kinetics.FitResult) (float64, bool) {
+		if v, ok := pre[fit]; ok && fresh {
+			return v.v, v.ok
+		}
+		return nnCost(fit.K)
 	}
 	for i = 0; i < len(alts); i++ {
 		o := opt
@@ -1316,6 +1327,7 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 			worseFree, worseNN = nil, nil // their figures were against the old values
 			best.Warnings = append(best.Warnings, fmt.Sprintf("the data fit better with k = %s than with %s, the order the resolved profiles pointed to (free spectra: residual sum of squares %.4g times lower, %.3g noise variances); the better values are reported", ks, old, oldSSR/best.SSR, -free))
 			bestNNdone = false
+			fresh = false
 			again()
 			continue
 		}
@@ -1325,10 +1337,10 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 		}
 		// Free spectra cannot choose: non-negative spectra may.
 		if !bestNNdone {
-			bestNN, bestNNok = nnCost(best.K)
+			bestNN, bestNNok = cost(best)
 			bestNNdone = true
 		}
-		altNN, ok := kn.recallCost(alt, func() (float64, bool) { return nnCost(alt.K) })
+		altNN, ok := kn.recallCost(alt, func() (float64, bool) { return cost(alt) })
 		if !ok || !bestNNok {
 			best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell the order of the rate constants: %s fits as well with free spectra (%.2g noise variances); the reported values are the ones the resolved profiles point to", what, free))
 			continue
@@ -1341,6 +1353,7 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 			*best, *spectra = *alt, *altSpectra
 			best.Warnings = append([]string(nil), alt.Warnings...)
 			bestNN = altNN
+			fresh = false
 			worseFree, worseNN = nil, nil
 			best.Warnings = append(best.Warnings, fmt.Sprintf("with free spectra k = %s and %s fit the data as well (%.2g noise variances), but with non-negative spectra k = %s fits better (residual sum of squares %.4g times lower, %.3g noise variances): it is reported; the resolved profiles pointed the other way", ks, old, free, ks, oldNN/(best.SSR+altNN), -nn))
 			again()
@@ -1410,6 +1423,58 @@ func (kn *Kinetics) recalled(r *Result, best *kinetics.FitResult, o kinetics.Fit
 		}
 	}
 	return nil
+}
+
+// costValue is a non-negative cost (kinetics.NonNegativeCost) and whether it
+// could be computed.
+type costValue struct {
+	v  float64
+	ok bool
+}
+
+// costsAhead makes at once the non-negative costs swapCheck's loop over
+// alts will ask for if best stays the reported fit: best's own and those of
+// the refits (taken as refit will take them: kept, or jobs') that fit as
+// well as best with free spectra, within 4 noise variances, and have no
+// cost kept yet. Each is cost(k) of the fit's own rate constants, the same
+// whichever goroutine computes it; keyed by the fit, best under itself.
+func (kn *Kinetics) costsAhead(r *Result, best *kinetics.FitResult, opt kinetics.FitOptions, alts [][]float64, jobs []*dataFitJob, cost func(k []float64) (float64, bool)) map[*kinetics.FitResult]costValue {
+	if !(best.Sigma > 0) {
+		return nil
+	}
+	s2 := best.Sigma * best.Sigma
+	fits := []*kinetics.FitResult{best}
+	for i, a := range alts {
+		o := opt
+		o.InitialK = a
+		var fit *kinetics.FitResult
+		if m := kn.recalled(r, best, o); !kn.FitC0 && m != nil {
+			if m.done {
+				continue
+			}
+			fit = m.fit
+		} else if j := jobs[i]; j != nil && j.err == nil {
+			fit = j.fit
+		}
+		if fit == nil || sameK(fit.K, best.K) || math.Abs(fit.SSR-best.SSR)/s2 > 4 || slices.Contains(fits, fit) {
+			continue
+		}
+		fits = append(fits, fit)
+	}
+	if len(fits) == 1 {
+		return nil
+	}
+	vals := make([]costValue, len(fits))
+	tasks := make([]func(), len(fits))
+	for a, f := range fits {
+		tasks[a] = func() { vals[a].v, vals[a].ok = cost(f.K) }
+	}
+	runAll(tasks)
+	out := make(map[*kinetics.FitResult]costValue, len(fits))
+	for a, f := range fits {
+		out[f] = vals[a]
+	}
+	return out
 }
 
 // refitAll makes at once the fits swapCheck's refit will need from the
