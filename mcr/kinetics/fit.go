@@ -769,12 +769,19 @@ func AutoMapFit(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions)
 	rec(0, 0)
 	// Stable: ties keep enumeration order, so the choice is deterministic.
 	sort.SliceStable(cands, func(a, b int) bool { return cands[a].score > cands[b].score })
+	// The fits are independent: made at once, compared in score order.
+	nFit := min(len(cands), autoMapFits)
+	fits := make([]*FitResult, nFit)
+	errs := make([]error, nFit)
+	eachAtOnce(nFit, func(i int) {
+		fits[i], errs[i] = FitProfiles(s, times, observed, cands[i].cols, opt)
+	})
 	var best []int
 	var bestFit *FitResult
 	bestRMS := math.Inf(1)
 	var firstErr error
-	for i := 0; i < len(cands) && i < autoMapFits; i++ {
-		res, err := FitProfiles(s, times, observed, cands[i].cols, opt)
+	for i := 0; i < nFit; i++ {
+		res, err := fits[i], errs[i]
 		if err != nil {
 			if firstErr == nil {
 				firstErr = err
