@@ -19,6 +19,7 @@ package product
 import (
 	"runtime"
 	"sync"
+	"sync/atomic"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -280,6 +281,32 @@ func InBlocks(rows, work, unit int, f func(r0, r1 int)) {
 	size := (rows + nb - 1) / nb
 	size = (size + unit - 1) / unit * unit
 	FixedBlocks(rows, size, f)
+}
+
+// Each calls task(0), …, task(n−1) on up to GOMAXPROCS goroutines and
+// returns when all are done: for independent jobs of unequal size (whole
+// fits), taken in turn by whichever goroutine is free. Each task must write
+// only its own results, so nothing depends on which goroutine ran it.
+func Each(n int, task func(i int)) {
+	workers := min(runtime.GOMAXPROCS(0), n)
+	if workers <= 1 {
+		for i := 0; i < n; i++ {
+			task(i)
+		}
+		return
+	}
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := int(next.Add(1)) - 1; i < n; i = int(next.Add(1)) - 1 {
+				task(i)
+			}
+		}()
+	}
+	wg.Wait()
 }
 
 // FixedBlocks runs f on the blocks [k·b, min((k+1)·b, n)) covering [0, n),

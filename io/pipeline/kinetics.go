@@ -21,13 +21,11 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"runtime"
 	"slices"
 	"strconv"
 	"strings"
-	"sync"
-	"sync/atomic"
 
+	"github.com/bandsolve/bandsolve/internal/product"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/mcr"
 	"github.com/bandsolve/bandsolve/mcr/kinetics"
@@ -1469,7 +1467,7 @@ func (kn *Kinetics) costsAhead(r *Result, best *kinetics.FitResult, opt kinetics
 	for a, f := range fits {
 		tasks[a] = func() { vals[a].v, vals[a].ok = cost(f.K) }
 	}
-	runAll(tasks)
+	product.Each(len(tasks), func(i int) { tasks[i]() })
 	out := make(map[*kinetics.FitResult]costValue, len(fits))
 	for a, f := range fits {
 		out[f] = vals[a]
@@ -1497,7 +1495,7 @@ func (kn *Kinetics) refitAll(r *Result, best *kinetics.FitResult, opt kinetics.F
 		jobs[i] = kn.dataFitJob(r, o)
 		todo = append(todo, jobs[i].run)
 	}
-	runAll(todo)
+	product.Each(len(todo), func(i int) { todo[i]() })
 	return jobs
 }
 
@@ -1508,35 +1506,6 @@ func nearEarlier(jobs []*dataFitJob, start, se []float64) bool {
 		}
 	}
 	return false
-}
-
-// runAll runs the independent tasks on up to GOMAXPROCS goroutines and
-// returns when all are done. Each task writes only its own result, so the
-// outcome does not depend on which goroutine ran which.
-func runAll(tasks []func()) {
-	workers := min(runtime.GOMAXPROCS(0), len(tasks))
-	if workers <= 1 {
-		for _, t := range tasks {
-			t()
-		}
-		return
-	}
-	var next atomic.Int64
-	var wg sync.WaitGroup
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for {
-				i := int(next.Add(1)) - 1
-				if i >= len(tasks) {
-					return
-				}
-				tasks[i]()
-			}
-		}()
-	}
-	wg.Wait()
 }
 
 // recallCost returns the non-negative cost of a refit's rate constants,

@@ -4,11 +4,9 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"runtime"
 	"sort"
-	"sync"
-	"sync/atomic"
 
+	"github.com/bandsolve/bandsolve/internal/product"
 	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
 )
@@ -469,55 +467,27 @@ const startTilt = 1.05
 
 // solve runs Levenberg–Marquardt from each start and keeps the lowest sum of squares (the
 // earliest start on ties). The runs from several starts are independent (the problem is only
-// read): they run at once (eachAtOnce) and are then compared in the starts' order, so that the
+// read): they run at once (product.Each) and are then compared in the starts' order, so that the
 // answer is the same whatever the number of processors.
 func (p *fitProblem) solve(m int) (*LMResult, error) {
 	starts, err := p.starts(m)
 	if err != nil {
 		return nil, err
 	}
-	if len(starts) > 1 && len(starts[0]) > 0 {
-		runs := make([]*LMResult, len(starts))
-		errs := make([]error, len(starts))
-		eachAtOnce(len(starts), func(i int) {
-			runs[i], errs[i] = LevenbergMarquardt(p.residual, p.jacobianFunc(), starts[i], m, p.opt.LM)
-		})
-		var best *LMResult
-		var firstErr error
-		for i, res := range runs {
-			if errs[i] != nil {
-				if firstErr == nil {
-					firstErr = errs[i]
-				}
-				continue
-			}
-			if best == nil || res.SSR < best.SSR*(1-1e-12) {
-				best = res
-			}
-		}
-		if best == nil {
-			return nil, firstErr
-		}
-		return best, nil
+	if len(starts) > 0 && len(starts[0]) == 0 {
+		return p.noFreeParameters(starts[0], m)
 	}
+	runs := make([]*LMResult, len(starts))
+	errs := make([]error, len(starts))
+	product.Each(len(starts), func(i int) {
+		runs[i], errs[i] = LevenbergMarquardt(p.residual, p.jacobianFunc(), starts[i], m, p.opt.LM)
+	})
 	var best *LMResult
 	var firstErr error
-	for _, th := range starts {
-		if len(th) == 0 {
-			r := make([]float64, m)
-			if err := p.residual(th, r); err != nil {
-				return nil, err
-			}
-			var ssr float64
-			for _, v := range r {
-				ssr += v * v
-			}
-			return &LMResult{X: th, Residual: r, SSR: ssr, Jacobian: mat.NewDense(m, 1, nil), Converged: true, Reason: "no free parameters"}, nil
-		}
-		res, err := LevenbergMarquardt(p.residual, p.jacobianFunc(), th, m, p.opt.LM)
-		if err != nil {
+	for i, res := range runs {
+		if errs[i] != nil {
 			if firstErr == nil {
-				firstErr = err
+				firstErr = errs[i]
 			}
 			continue
 		}
@@ -529,6 +499,20 @@ func (p *fitProblem) solve(m int) (*LMResult, error) {
 		return nil, firstErr
 	}
 	return best, nil
+}
+
+// noFreeParameters is the "fit" when every parameter is fixed: the
+// residual at them.
+func (p *fitProblem) noFreeParameters(th []float64, m int) (*LMResult, error) {
+	r := make([]float64, m)
+	if err := p.residual(th, r); err != nil {
+		return nil, err
+	}
+	var ssr float64
+	for _, v := range r {
+		ssr += v * v
+	}
+	return &LMResult{X: th, Residual: r, SSR: ssr, Jacobian: mat.NewDense(m, 1, nil), Converged: true, Reason: "no free parameters"}, nil
 }
 
 func checkFinite(d *mat.Dense, what string) error {
@@ -773,7 +757,7 @@ func AutoMapFit(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions)
 	nFit := min(len(cands), autoMapFits)
 	fits := make([]*FitResult, nFit)
 	errs := make([]error, nFit)
-	eachAtOnce(nFit, func(i int) {
+	product.Each(nFit, func(i int) {
 		fits[i], errs[i] = FitProfiles(s, times, observed, cands[i].cols, opt)
 	})
 	var best []int
@@ -1215,28 +1199,4 @@ func dimsOrZero(a *mat.Dense) (int, int) {
 		return 0, 0
 	}
 	return a.Dims()
-}
-
-// eachAtOnce calls task(0), …, task(n−1) on up to GOMAXPROCS goroutines and returns when all
-// are done. Each task writes only its own results, so nothing depends on which goroutine ran it.
-func eachAtOnce(n int, task func(i int)) {
-	workers := min(runtime.GOMAXPROCS(0), n)
-	if workers <= 1 {
-		for i := 0; i < n; i++ {
-			task(i)
-		}
-		return
-	}
-	var next atomic.Int64
-	var wg sync.WaitGroup
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for i := int(next.Add(1)) - 1; i < n; i = int(next.Add(1)) - 1 {
-				task(i)
-			}
-		}()
-	}
-	wg.Wait()
 }
