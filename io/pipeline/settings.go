@@ -9,9 +9,10 @@ import (
 	"fmt"
 	"path/filepath"
 	"slices"
-	"sort"
 	"strconv"
 	"strings"
+
+	"github.com/bandsolve/bandsolve/io/spectra"
 )
 
 // Settings are every option of an analysis, with the defaults of
@@ -285,8 +286,10 @@ var options = func() []Option {
 	add(opt("data", "PATH", "matrix CSV, folder of spectrum files or JCAMP-DX file; repeat for several experiments", true, true, s1, g1))
 	s2, g2 := str(func(s *Settings) *string { return &s.Kind })
 	add(opt("kind", "KIND", "single-beam, absorbance or difference (default: from JCAMP-DX units, else single-beam)", false, true, func(s *Settings, v string) error {
-		if v != "" && v != "single-beam" && v != "absorbance" && v != "difference" {
-			return fmt.Errorf("%q: use single-beam, absorbance or difference", v)
+		if v != "" {
+			if _, err := spectra.ParseKind(v); err != nil {
+				return err
+			}
 		}
 		return s2(s, v)
 	}, g2))
@@ -472,14 +475,4 @@ func (s *Settings) Path(p string) string {
 		return p
 	}
 	return filepath.Join(s.Dir, p)
-}
-
-// Names returns the option names, sorted, for help and suggestions.
-func Names() []string {
-	var out []string
-	for _, o := range options {
-		out = append(out, o.Name)
-	}
-	sort.Strings(out)
-	return out
 }

@@ -28,7 +28,7 @@ func ParseKind(s string) (Kind, error) {
 	case SingleBeam, Absorbance, Difference:
 		return Kind(s), nil
 	}
-	return "", fmt.Errorf("kind %q: use single-beam, absorbance or difference", s)
+	return "", fmt.Errorf("%q: use single-beam, absorbance or difference", s)
 }
 
 // Reference says which state difference spectra are taken against.
@@ -159,7 +159,8 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 			out.Notes = append(out.Notes, "difference input: the reference file is not used")
 		}
 	default:
-		return nil, fmt.Errorf("kind %q: use single-beam, absorbance or difference", opt.Kind)
+		_, err := ParseKind(string(opt.Kind))
+		return nil, fmt.Errorf("kind %w", err)
 	}
 	if opt.Consume {
 		s.Values = nil

@@ -351,14 +351,6 @@ func quantum(v *mat.Dense, blind *Blind) float64 {
 	return q
 }
 
-// detectorCeiling returns the single beams' largest value when it is a flat
-// top (the same value in at least 3 neighbouring channels of one spectrum):
-// the detector or its converter saturated there. 0 when there is none.
-func detectorCeiling(v *mat.Dense) float64 {
-	top, _ := beamMaxima(v)
-	return flatTop(v, top)
-}
-
 // beamMaxima returns the largest finite single beam, and the largest beam
 // per channel (+Inf counts there, NaN never does; −Inf for a channel with
 // none) that saturationWarnings needs, in one pass over the rows.
@@ -401,8 +393,9 @@ func beamMaxima(v *mat.Dense) (top float64, channel []float64) {
 	return top, channel
 }
 
-// flatTop is top when it is a flat top of v's rows (see detectorCeiling),
-// else 0.
+// flatTop is top when it is a flat top of v's rows (the same value in at
+// least 3 neighbouring channels of one spectrum: the detector or its
+// converter saturated there), else 0.
 func flatTop(v *mat.Dense, top float64) float64 {
 	if !(top > 0) {
 		return 0
@@ -434,18 +427,12 @@ func flatTop(v *mat.Dense, top float64) float64 {
 	return 0
 }
 
-// findBlind marks the single beams that carry no light: not finite, at or
-// below zero, or at the detector's ceiling. Where a reference or blank
-// channel is itself unusable, that channel is blind in every spectrum.
-func findBlind(v *mat.Dense, badChannel []bool) *Blind {
-	top, _ := beamMaxima(v)
-	b, _ := findBlindTops(v, badChannel, flatTop(v, top))
-	return b
-}
-
-// findBlindTops is findBlind given the detector's ceiling (0: none), and
-// returns besides each channel's brightest beam that is not blind (0 when
-// none is), which addWeak needs: both in one pass over the rows.
+// findBlindTops marks the single beams that carry no light: not finite, at
+// or below zero, or at the detector's ceiling ceil (0: none). Where a
+// reference or blank channel is itself unusable, that channel is blind in
+// every spectrum. It returns besides each channel's brightest beam that is
+// not blind (0 when none is), which addWeakBelow needs: both in one pass
+// over the rows.
 func findBlindTops(v *mat.Dense, badChannel []bool, ceil float64) (*Blind, []float64) {
 	n, m := v.Dims()
 	b := &Blind{Rows: make([][]int, n)}
@@ -473,40 +460,12 @@ func findBlindTops(v *mat.Dense, badChannel []bool, ceil float64) (*Blind, []flo
 	return b, top
 }
 
-// addWeak marks single beams at or below weakSigmas·σ_I,j as blind too: the
-// light left there is not above the detector's noise, so −log10 of it is
-// noise with a heavy tail, not absorbance. Only beams also below
-// weakBeamFraction of the channel's brightest spectrum count: with a few
-// spectra of fast chemistry σ_I is overestimated, and a beam at 10 % of its
-// channel's light is absorbance, not darkness.
-func (b *Blind) addWeak(v *mat.Dense, sigma []float64) {
-	n, m := v.Dims()
-	// Each channel's brightest observed beam: per block of rows, then the
-	// largest of the blocks' (the same whatever the order).
-	top := make([]float64, m)
-	var mu sync.Mutex
-	bufs := newScratch(m)
-	eachRowBlock(n, m, func(r0, r1 int) {
-		bt := bufs.get()
-		defer bufs.put(bt)
-		clear(bt)
-		for i := r0; i < r1; i++ {
-			bl, next := b.Rows[i], 0
-			for j, x := range v.RawRowView(i)[:m] {
-				for next < len(bl) && bl[next] < j {
-					next++
-				}
-				if x > bt[j] && !(next < len(bl) && bl[next] == j) {
-					bt[j] = x
-				}
-			}
-		}
-		raiseTo(&mu, top, bt)
-	})
-	b.addWeakBelow(v, sigma, top)
-}
-
-// addWeakBelow is addWeak given each channel's brightest observed beam top.
+// addWeakBelow marks single beams at or below weakSigmas·σ_I,j as blind
+// too: the light left there is not above the detector's noise, so −log10
+// of it is noise with a heavy tail, not absorbance. Only beams also below
+// weakBeamFraction of the channel's brightest observed beam top[j] count:
+// with a few spectra of fast chemistry σ_I is overestimated, and a beam at
+// 10 % of its channel's light is absorbance, not darkness.
 func (b *Blind) addWeakBelow(v *mat.Dense, sigma, top []float64) {
 	n, m := v.Dims()
 	added := make([]int, n)

@@ -69,19 +69,6 @@ func notRegular(path string, m fs.FileMode) error {
 	return inputErr(path, 0, "give a spectrum file (plain text) instead", "is %s, not a regular file; refused", KindOf(m))
 }
 
-// ReadRegular reads the regular file at path, refusing more than limit bytes.
-func ReadRegular(path string, limit int64) ([]byte, error) {
-	f, size, err := openRegular(path)
-	if err != nil {
-		return nil, err
-	}
-	defer f.Close()
-	if size > limit {
-		return nil, tooLarge(path, size, limit)
-	}
-	return ReadAllLimited(f, path, limit)
-}
-
 // ReadAllLimited reads r to its end, refusing more than limit bytes while
 // reading (a file may grow after its size was checked).
 func ReadAllLimited(r io.Reader, name string, limit int64) ([]byte, error) {
