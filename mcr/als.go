@@ -404,108 +404,12 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 	if !(total > 0) {
 		return nil, errors.New("resolve: the data matrix is all zeros: nothing to resolve")
 	}
-	nnP := boolsOr(opt.NonNegProfiles, k, true)
-	nnS := boolsOr(opt.NonNegSpectra, k, opt.Mode == Species)
-	var eq []float64
-	if opt.Closure {
-		eq = opt.ClosureWeights
-		if eq == nil {
-			eq = ones(k)
-		}
-		if len(opt.Total) == 0 {
-			opt.Total = []float64{1}
-		}
+	cs, err := resolveConstraints(&opt, n, m, k)
+	if err != nil {
+		return nil, err
 	}
-	known := false
-	for _, s := range opt.KnownSpectra {
-		if s != nil {
-			known = true
-		}
-	}
-	var knownS, softRef *mat.Dense
-	var knownMask [][]bool
-	var softW []float64
-	if known {
-		knownS = mat.NewDense(k, m, nil)
-		knownMask = make([][]bool, k)
-		for j, s := range opt.KnownSpectra {
-			if s == nil {
-				continue
-			}
-			if j >= k {
-				return nil, fmt.Errorf("resolve: known spectrum for component %d but only %d components", j+1, k)
-			}
-			if len(s) != m {
-				return nil, fmt.Errorf("resolve: known spectrum %d has %d points, data has %d", j+1, len(s), m)
-			}
-			if j < len(opt.KnownWeights) && opt.KnownWeights[j] > 0 {
-				if softRef == nil {
-					softRef, softW = mat.NewDense(k, m, nil), make([]float64, k)
-				}
-				softW[j] = opt.KnownWeights[j]
-				softRef.SetRow(j, s)
-				// Soft: keep the component out of normalisation, since
-				// the reference sets its scale.
-				knownMask[j] = make([]bool, m)
-				continue
-			}
-			knownMask[j] = make([]bool, m)
-			for i, v := range s {
-				knownS.Set(j, i, v)
-				knownMask[j][i] = true
-			}
-		}
-	}
-	if opt.ZeroSpectra != nil {
-		if knownMask == nil {
-			knownMask = make([][]bool, k)
-			knownS = mat.NewDense(k, m, nil)
-		}
-		for j := 0; j < k && j < len(opt.ZeroSpectra); j++ {
-			z := opt.ZeroSpectra[j]
-			if z == nil || (known && j < len(opt.KnownSpectra) && opt.KnownSpectra[j] != nil && (softW == nil || softW[j] == 0)) {
-				continue
-			}
-			if len(z) != m {
-				return nil, fmt.Errorf("resolve: zero window of spectrum %d has %d points, data has %d", j+1, len(z), m)
-			}
-			if knownMask[j] == nil {
-				knownMask[j] = make([]bool, m)
-			}
-			for i, v := range z {
-				knownMask[j][i] = knownMask[j][i] || v
-			}
-		}
-	}
-	// normaliseSpectra must leave alone only the components whose scale is
-	// set from outside (known spectra, exact or soft), not the ones that
-	// merely have zero windows.
-	var scaleSet [][]bool
-	if known {
-		scaleSet = make([][]bool, k)
-		for j, s := range opt.KnownSpectra {
-			if s != nil && j < k {
-				scaleSet[j] = knownMask[j]
-			}
-		}
-	}
-	blocks := opt.Blocks
-	if len(blocks) == 0 {
-		blocks = []int{0}
-	}
-	for b, f := range blocks {
-		if f < 0 || f >= n || b > 0 && f <= blocks[b-1] {
-			return nil, fmt.Errorf("resolve: experiment blocks %v are not increasing row indices below %d", blocks, n)
-		}
-	}
-	var zeroMask [][]bool
-	if opt.ZeroProfiles != nil {
-		zeroMask = make([][]bool, k)
-		for j := 0; j < k && j < len(opt.ZeroProfiles); j++ {
-			zeroMask[j] = opt.ZeroProfiles[j]
-		}
-	}
-	zerosKN := mat.NewDense(k, n, nil)
+	nnP, nnS, softRef, knownMask, scaleSet := cs.nnP, cs.nnS, cs.softRef, cs.knownMask, cs.scaleSet
+	eq, blocks, zeroMask, zerosKN := cs.eq, cs.blocks, cs.zeroMask, cs.zerosKN
 
 	// Row × column weights (Weighted data): the Gram matrices become CᵀAC
 	// and SᵀBS; the right-hand sides come weighted from d.
@@ -558,17 +462,10 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 			clampColumns(ce, nnP)
 			c, extrapolated = ce, true
 		}
-		// Spectra step: Gram CᵀAC, right-hand sides Cᵀ A D.
-		g := gramW(c, rowW)
-		b := transpose(d.MulProfiles(c)) // k × m
-		if softRef != nil {
-			g, b = softKnown(g, b, softRef, softW)
-		}
-		st, err := SolveMany(Problem{G: g, B: b, NonNeg: nnS, FixMask: knownMask, Fixed: knownS, Passive: passS})
+		s, err = spectraStep(d, c, rowW, cs, passS, it)
 		if err != nil {
-			return nil, fmt.Errorf("resolve: spectra step, iteration %d: %w", it, err)
+			return nil, err
 		}
-		s = transpose(st)
 		if opt.baselineBasis != nil {
 			lowerSpectra(s, k-opt.baselineTerms, lowerable(nnS, knownMask), opt.baselineBasis)
 		}
@@ -583,7 +480,7 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		}
 		// Profiles step: Gram SᵀBS, right-hand sides Sᵀ B Dᵀ.
 		ds := d.MulSpectra(s) // n × k
-		g = gramW(s, colW)
+		g := gramW(s, colW)
 		gp := g
 		if opt.Ridge > 0 {
 			gp = ridged(g, opt.Ridge)
@@ -722,6 +619,146 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 		res.Warnings = append(res.Warnings, fmt.Sprintf("not converged after %d iterations (last relative change above %.1g)", res.Iterations, opt.Tolerance))
 	}
 	return res, nil
+}
+
+// alsConstraints are the constraints of Resolve in the form its half steps
+// take them: non-negativity per component, the closure row, fixed values
+// (known spectra, zero windows) and the soft references.
+type alsConstraints struct {
+	nnP, nnS        []bool
+	eq              []float64
+	knownS, softRef *mat.Dense
+	knownMask       [][]bool
+	softW           []float64
+	scaleSet        [][]bool // components whose scale is set from outside
+	blocks          []int
+	zeroMask        [][]bool
+	zerosKN         *mat.Dense
+}
+
+// resolveConstraints checks opt's constraints against the data's shape
+// (n × m, k components) and forms them; it also sets opt.Total's default.
+func resolveConstraints(opt *Options, n, m, k int) (*alsConstraints, error) {
+	nnP := boolsOr(opt.NonNegProfiles, k, true)
+	nnS := boolsOr(opt.NonNegSpectra, k, opt.Mode == Species)
+	var eq []float64
+	if opt.Closure {
+		eq = opt.ClosureWeights
+		if eq == nil {
+			eq = ones(k)
+		}
+		if len(opt.Total) == 0 {
+			opt.Total = []float64{1}
+		}
+	}
+	known := false
+	for _, s := range opt.KnownSpectra {
+		if s != nil {
+			known = true
+		}
+	}
+	var knownS, softRef *mat.Dense
+	var knownMask [][]bool
+	var softW []float64
+	if known {
+		knownS = mat.NewDense(k, m, nil)
+		knownMask = make([][]bool, k)
+		for j, s := range opt.KnownSpectra {
+			if s == nil {
+				continue
+			}
+			if j >= k {
+				return nil, fmt.Errorf("resolve: known spectrum for component %d but only %d components", j+1, k)
+			}
+			if len(s) != m {
+				return nil, fmt.Errorf("resolve: known spectrum %d has %d points, data has %d", j+1, len(s), m)
+			}
+			if j < len(opt.KnownWeights) && opt.KnownWeights[j] > 0 {
+				if softRef == nil {
+					softRef, softW = mat.NewDense(k, m, nil), make([]float64, k)
+				}
+				softW[j] = opt.KnownWeights[j]
+				softRef.SetRow(j, s)
+				// Soft: keep the component out of normalisation, since
+				// the reference sets its scale.
+				knownMask[j] = make([]bool, m)
+				continue
+			}
+			knownMask[j] = make([]bool, m)
+			for i, v := range s {
+				knownS.Set(j, i, v)
+				knownMask[j][i] = true
+			}
+		}
+	}
+	if opt.ZeroSpectra != nil {
+		if knownMask == nil {
+			knownMask = make([][]bool, k)
+			knownS = mat.NewDense(k, m, nil)
+		}
+		for j := 0; j < k && j < len(opt.ZeroSpectra); j++ {
+			z := opt.ZeroSpectra[j]
+			if z == nil || (known && j < len(opt.KnownSpectra) && opt.KnownSpectra[j] != nil && (softW == nil || softW[j] == 0)) {
+				continue
+			}
+			if len(z) != m {
+				return nil, fmt.Errorf("resolve: zero window of spectrum %d has %d points, data has %d", j+1, len(z), m)
+			}
+			if knownMask[j] == nil {
+				knownMask[j] = make([]bool, m)
+			}
+			for i, v := range z {
+				knownMask[j][i] = knownMask[j][i] || v
+			}
+		}
+	}
+	// normaliseSpectra must leave alone only the components whose scale is
+	// set from outside (known spectra, exact or soft), not the ones that
+	// merely have zero windows.
+	var scaleSet [][]bool
+	if known {
+		scaleSet = make([][]bool, k)
+		for j, s := range opt.KnownSpectra {
+			if s != nil && j < k {
+				scaleSet[j] = knownMask[j]
+			}
+		}
+	}
+	blocks := opt.Blocks
+	if len(blocks) == 0 {
+		blocks = []int{0}
+	}
+	for b, f := range blocks {
+		if f < 0 || f >= n || b > 0 && f <= blocks[b-1] {
+			return nil, fmt.Errorf("resolve: experiment blocks %v are not increasing row indices below %d", blocks, n)
+		}
+	}
+	var zeroMask [][]bool
+	if opt.ZeroProfiles != nil {
+		zeroMask = make([][]bool, k)
+		for j := 0; j < k && j < len(opt.ZeroProfiles); j++ {
+			zeroMask[j] = opt.ZeroProfiles[j]
+		}
+	}
+	zerosKN := mat.NewDense(k, n, nil)
+	return &alsConstraints{nnP: nnP, nnS: nnS, eq: eq, knownS: knownS, softRef: softRef, knownMask: knownMask,
+		softW: softW, scaleSet: scaleSet, blocks: blocks, zeroMask: zeroMask, zerosKN: zerosKN}, nil
+}
+
+// spectraStep is ALS's half step for the spectra: S = argmin ‖D − C Sᵀ‖
+// (weighted) under the spectra's constraints, with the Gram matrix CᵀAC and
+// the right-hand sides Cᵀ A D.
+func spectraStep(d Data, c *mat.Dense, rowW []float64, cs *alsConstraints, passS []uint64, it int) (*mat.Dense, error) {
+	g := gramW(c, rowW)
+	b := transpose(d.MulProfiles(c)) // k × m
+	if cs.softRef != nil {
+		g, b = softKnown(g, b, cs.softRef, cs.softW)
+	}
+	st, err := SolveMany(Problem{G: g, B: b, NonNeg: cs.nnS, FixMask: cs.knownMask, Fixed: cs.knownS, Passive: passS})
+	if err != nil {
+		return nil, fmt.Errorf("resolve: spectra step, iteration %d: %w", it, err)
+	}
+	return transpose(st), nil
 }
 
 // extrapolation is the step of ALS's extrapolation (see Resolve). Each kept
