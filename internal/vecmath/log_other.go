@@ -1,0 +1,9 @@
+//go:build !amd64 || purego
+
+package vecmath
+
+// useAVX2 is false: every value goes through math.Log.
+const useAVX2 = false
+
+func logAVX2(dst, src []float64)   { panic("vecmath: no vector logarithm on this build") }
+func log10AVX2(dst, src []float64) { panic("vecmath: no vector logarithm on this build") }
