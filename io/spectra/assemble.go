@@ -10,6 +10,7 @@ import (
 	"strings"
 	"sync"
 
+	"github.com/bandsolve/bandsolve/internal/vecmath"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -394,12 +395,19 @@ func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense) {
 					if abs != nil {
 						a = abs.RawRowView(i)
 					}
-					for j, x := range row {
-						d[j] = math.Log10(ref[j] / x)
-						if a != nil {
-							a[j] = math.Log10(blank[j] / x)
+					// The ratios first, then their logarithms a row at a
+					// time (vecmath: bit for bit math.Log10, four at once).
+					if a == nil {
+						for j, x := range row {
+							d[j] = ref[j] / x
 						}
+					} else {
+						for j, x := range row {
+							d[j], a[j] = ref[j]/x, blank[j]/x
+						}
+						vecmath.Log10(a, a)
 					}
+					vecmath.Log10(d, d)
 				}
 			}
 		}()

@@ -9,6 +9,7 @@ import (
 	"sync"
 
 	"github.com/bandsolve/bandsolve/internal/product"
+	"github.com/bandsolve/bandsolve/internal/vecmath"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -805,9 +806,14 @@ func observedRun(o []float64, negLog bool) {
 		}
 		return
 	}
-	for j, v := range o {
-		if v > 0 && v < inf {
-			o[j] = -math.Log(v)
+	// The logarithms of the whole stretch at once (vecmath: bit for bit
+	// math.Log, four at a time), then the test on them: log v is finite
+	// exactly when v > 0 and v < +Inf (−Inf for ±0, NaN below 0 and for
+	// NaN, +Inf for +Inf).
+	vecmath.Log(o, o)
+	for j, l := range o {
+		if l > -inf && l < inf {
+			o[j] = -l
 		} else {
 			o[j] = nan
 		}
