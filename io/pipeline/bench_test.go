@@ -79,6 +79,14 @@ func largeTruth(n, m, nsp int) (axis []float64, spec, conc *mat.Dense) {
 func writeLarge(tb testing.TB, dir string, n, m, nsp int) (series, blank string) {
 	tb.Helper()
 	axis, spec, conc := largeTruth(n, m, nsp)
+	return writeTruth(tb, dir, axis, spec, conc)
+}
+
+// writeTruth writes the single beams of absorbance conc specᵀ on axis, with
+// writeLarge's noise, and their blank.
+func writeTruth(tb testing.TB, dir string, axis []float64, spec, conc *mat.Dense) (series, blank string) {
+	tb.Helper()
+	n, nsp := conc.Dims()
 	// One file row (axis point) at a time, so that writing a 20 000 × 3000
 	// series does not hold its matrix in memory and the peak measured for
 	// the run is the run's own.
@@ -483,6 +491,10 @@ func wholeRun(b *testing.B, series, blank, out string) (parse, whole float64, lo
 func benchWhole(b *testing.B, n, m int) {
 	dir := b.TempDir()
 	series, blank := writeLarge(b, dir, n, m, 5)
+	benchWholeOn(b, dir, series, blank)
+}
+
+func benchWholeOn(b *testing.B, dir, series, blank string) {
 	runtime.GC()
 	resetPeakRSS()
 	b.ResetTimer()
@@ -509,6 +521,22 @@ func benchWhole(b *testing.B, n, m int) {
 // BenchmarkWhole2000x3001 is the target of the default answer: the whole
 // resolve, report on, against the parse of the same file.
 func BenchmarkWhole2000x3001(b *testing.B) { benchWhole(b, 2000, 3001) }
+
+// BenchmarkWholeMinor2000x3001 is BenchmarkWhole2000x3001 with a sixth species
+// whose amount grows from 0 to 1 % over the run: a factor the size test sets
+// aside as minor and the refit test refits, so the resolution keeps what a
+// second one would need (the rows it fills, not a copy of D). Only when asked
+// for: -bench WholeMinor.
+func BenchmarkWholeMinor2000x3001(b *testing.B) {
+	explicitly(b, "WholeMinor")
+	dir := b.TempDir()
+	axis, spec, conc := largeTruth(2000, 3001, 6)
+	for i := 0; i < 2000; i++ {
+		conc.Set(i, 5, 0.01*float64(i)/2000)
+	}
+	series, blank := writeTruth(b, dir, axis, spec, conc)
+	benchWholeOn(b, dir, series, blank)
+}
 
 // BenchmarkWhole20000x3000: the same on a 60-million-value series. Only
 // when asked for: -bench Whole20000x3000.

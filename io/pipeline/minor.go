@@ -3,6 +3,7 @@ package pipeline
 import (
 	"fmt"
 	"io"
+	"slices"
 
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/mcr"
@@ -38,10 +39,41 @@ type MinorVerdict struct {
 }
 
 // minorState carries what a second resolution with one more component needs: the data
-// as it was before the first (which subtracts the baseline and fills the rows set aside).
+// as it was before the first. Before the refit's verdict the first changes only the rows
+// it sets aside (filled with its fit, imputeRows); it subtracts the baseline after the
+// verdict (withoutBaseline), when no second resolution follows. So the rows it fills, as
+// they were, put the data back: m values a row instead of a copy of all n × m
+// (TestMinorPromotionRestoresData).
 type minorState struct {
-	d        *mat.Dense
+	rows     []keptRow
 	setAside int
+}
+
+// keptRow is one row of the data as it was before the first resolution changed it.
+type keptRow struct {
+	i    int
+	vals []float64
+}
+
+// keep records the rows about to be filled that are not recorded yet: the first record
+// of a row is the one from before the resolution.
+func (st *minorState) keep(d *mat.Dense, rows []SetAside) {
+	if st == nil {
+		return
+	}
+	_, m := d.Dims()
+	for _, sa := range rows {
+		if !slices.ContainsFunc(st.rows, func(k keptRow) bool { return k.i == sa.Row }) {
+			st.rows = append(st.rows, keptRow{i: sa.Row, vals: slices.Clone(d.RawRowView(sa.Row)[:m])})
+		}
+	}
+}
+
+// restore writes the recorded rows back into d.
+func (st *minorState) restore(d *mat.Dense) {
+	for _, k := range st.rows {
+		d.SetRow(k.i, k.vals)
+	}
 }
 
 // minorCandidates are the factors the refit tests: minor and band-shift factors with a
@@ -60,12 +92,13 @@ func minorCandidates(r *Result) []svd.NuisanceFactor {
 	return out
 }
 
-// saveForMinor keeps r.D when there is something to test.
+// saveForMinor starts the record of what the first resolution changes when there is
+// something to test (nil otherwise).
 func saveForMinor(r *Result) *minorState {
 	if len(minorCandidates(r)) == 0 {
 		return nil
 	}
-	return &minorState{d: mat.DenseCopyOf(r.D), setAside: len(r.SetAside)}
+	return &minorState{setAside: len(r.SetAside)}
 }
 
 // testMinor refits res (on data, under opt with the baseline shapes) with each candidate
@@ -109,7 +142,7 @@ func promoteMinor(r *Result, st *minorState) bool {
 		r.Chemical.Estimate++
 		r.Rank.Estimate++
 		r.Components++
-		r.D = st.d
+		st.restore(r.D)
 		r.SetAside = r.SetAside[:st.setAside]
 		r.EFA, r.Compressed = nil, false
 		r.Notes = append(r.Notes, fmt.Sprintf("factor %d, first set aside as minor by its size, is counted as a species: %s; resolved again with %d components (--components N overrides)", v.Factor, v.Test.Verdict, r.Components))

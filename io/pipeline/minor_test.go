@@ -7,6 +7,7 @@ import (
 	"path/filepath"
 	"runtime"
 	"slices"
+	"strings"
 	"testing"
 
 	"github.com/bandsolve/bandsolve/mcr"
@@ -353,6 +354,76 @@ func TestMinorSpeciesSameAtAnyGOMAXPROCS(t *testing.T) {
 		for name, want := range ref {
 			if d := firstDifference(name, want, got[name]); d != nil {
 				t.Errorf("GOMAXPROCS 1 against 2: %s", d)
+			}
+		}
+	}
+}
+
+// A resolution that counts a minor species runs again with one more component on the data
+// as they were before the first (promoteMinor), but keeps only the rows the first fills
+// (minorState), not a copy of the data. The transient case of TestMinorSpeciesIsCounted
+// with a drifting baseline (as in TestBaselineDriftIsNotASpecies) and sharp gas lines in
+// two spectra (as in TestGasLinesSetAside), so that the first resolution both fills rows
+// set aside and fits a baseline. The kept rows of the final data must then be, to the
+// last bit, the data before any resolution less the final baseline: the same data read
+// with --baseline off, --keep-outliers and --components 2 (which nothing changes in
+// place), less B Pᵀ as subtractBaselineInPlace forms it. A row left filled by the first
+// resolution, or its baseline left in, breaks the equality; so does a row the first
+// resolution set aside that the second no longer finds.
+func TestMinorPromotionRestoresData(t *testing.T) {
+	s := makeBateman(t, 6e-3, 2e-3, 0, 1, 2)
+	withMinorSpecies(s, minorSpeciesCases[0].amount)
+	n := len(s.times)
+	lo, hi := s.axis[len(s.axis)-1], s.axis[0]
+	bad := map[int]bool{40: true, 85: true}
+	lines := []float64{1790, 1750, 1698, 1652, 1558, 1540, 1508, 1472, 1436, 1396}
+	countsNoise(s, 20, 9, func(i, j int) float64 {
+		x := 2*(s.axis[j]-lo)/(hi-lo) - 1
+		f := float64(i) / float64(n-1)
+		v := 0.01*f + 0.005*math.Sin(3*f)*x
+		if bad[i] {
+			for q, c := range lines {
+				d := (s.axis[j] - c) / 1.5
+				v += (0.02 + 0.004*float64(q)) * math.Exp(-0.5*d*d)
+			}
+		}
+		return v
+	})
+	series, blank := s.write(t)
+	st := NewSettings()
+	st.Data, st.Kind, st.Blank, st.Pre = []string{series}, "single-beam", blank, 3
+	st.Bands, st.Checks = "off", "off"
+	var log bytes.Buffer
+	r, err := Run(st, &log)
+	if err != nil {
+		t.Fatal(err)
+	}
+	logMinor(t, r)
+	t.Logf("components %d, baseline %s, %d spectra set aside; log:\n%s", r.Components, baselineName(r.BaselineOrder), len(r.SetAside), log.String())
+	before, _, _ := strings.Cut(log.String(), "testing")
+	if len(r.MinorSpecies) != 1 || !strings.Contains(before, "aside") || r.BaselineShapes == nil {
+		t.Fatalf("%d minor species counted, baseline %s: the case must count one, set spectra aside before the refit and fit a baseline to test the restored data",
+			len(r.MinorSpecies), baselineName(r.BaselineOrder))
+	}
+	if len(r.SetAside) == 0 {
+		t.Errorf("the second resolution set no spectrum aside where the first did: the rows the first filled with its fit were not put back")
+	}
+	st.Baseline, st.KeepOutliers, st.Components = "off", true, "2"
+	plain, err := Run(st, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := mat.DenseCopyOf(plain.D)
+	subtractBaselineInPlace(want, r.BaselineProfiles, r.BaselineShapes)
+	_, m := want.Dims()
+	for i := 0; i < n; i++ {
+		if setAside(r.SetAside, i) {
+			continue
+		}
+		got, w := r.D.RawRowView(i)[:m], want.RawRowView(i)[:m]
+		for j := range w {
+			if math.Float64bits(got[j]) != math.Float64bits(w[j]) {
+				t.Fatalf("spectrum %d, point %d: %v after the second resolution, want %v (the data before any resolution less the final baseline)", i, j, got[j], w[j])
 			}
 		}
 	}

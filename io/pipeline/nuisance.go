@@ -342,9 +342,10 @@ func setAside(rows []SetAside, i int) bool {
 }
 
 // resolveNuisance runs ALS with the baseline terms, sets outlier spectra aside and
-// refits, then leaves r.D without the baseline and returns the species-only result and
-// the data the later steps (checks, bands, kinetics) work on.
-func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, log io.Writer) (*mcr.Result, mcr.Data, error) {
+// refits, and tests the minor factors (recording in st the rows it fills). It returns the
+// result with its baseline, the data it was fitted to and the baseline shapes (nil
+// without a baseline), which withoutBaseline takes out.
+func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, st *minorState, log io.Writer) (*mcr.Result, mcr.Data, *mat.Dense, error) {
 	var shapes *mat.Dense
 	if r.BaselineOrder >= 0 {
 		shapes = svd.Legendre(r.Axis, r.BaselineOrder)
@@ -352,7 +353,7 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, l
 	}
 	res, err := startALS(r, data, c0, opt)
 	if err != nil {
-		return nil, nil, explainResolveError(r, err)
+		return nil, nil, nil, explainResolveError(r, err)
 	}
 	if len(r.SetAside) > 0 || !r.Settings.KeepOutliers {
 		skip := make([]bool, len(r.Times))
@@ -368,18 +369,25 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, l
 		r.SetAside = append(r.SetAside, found...)
 		if len(r.SetAside) > 0 {
 			fmt.Fprintf(log, "setting %d spectrum(s) aside and resolving again\n", len(r.SetAside))
+			st.keep(r.D, r.SetAside)
 			imputeRows(r, r.SetAside, res, shapes)
 			if data, err = refreshData(r, data); err != nil {
-				return nil, nil, err
+				return nil, nil, nil, err
 			}
 			// One warm start from the fit that found them: the rows set aside
 			// now equal that fit, so they pull on nothing.
 			if res, err = mcr.Resolve(data, res.C, opt); err != nil {
-				return nil, nil, explainResolveError(r, err)
+				return nil, nil, nil, explainResolveError(r, err)
 			}
 		}
 	}
 	testMinor(r, data, res, opt, log)
+	return res, data, shapes, nil
+}
+
+// withoutBaseline leaves r.D without the baseline of res and returns the species-only
+// result and the data the later steps (checks, bands, kinetics) work on.
+func withoutBaseline(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dense) (*mcr.Result, mcr.Data) {
 	if shapes != nil && res.Baseline != nil {
 		r.BaselineProfiles = res.Baseline
 		r.BaselineShapes = shapes
@@ -407,7 +415,7 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, l
 			res.ExplainedPercent = 100 * (1 - res.ResidualSS/total)
 		}
 	}
-	return res, data, nil
+	return res, data
 }
 
 // refreshData rebuilds the ALS data after rows of r.D changed.

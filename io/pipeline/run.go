@@ -762,13 +762,14 @@ func resolve(r *Result, log io.Writer) error {
 	}
 	fmt.Fprintf(log, "resolving %d component(s)\n", k)
 	saved := saveForMinor(r)
-	res, data, err := resolveNuisance(r, data, c0, opt, log)
+	res, data, shapes, err := resolveNuisance(r, data, c0, opt, saved, log)
 	if err != nil {
 		return err
 	}
 	if promoteMinor(r, saved) {
 		return resolve(r, log)
 	}
+	res, data = withoutBaseline(r, data, res, shapes)
 	if res, err = refineBlind(r, data, res, opt, log); err != nil {
 		return explainResolveError(r, err)
 	}
