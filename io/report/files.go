@@ -124,7 +124,7 @@ func rasterCanvas(w, h vg.Length) (*pixelCanvas, *image.RGBA) {
 	ctx := gg.NewContextForRGBA(img)
 	ctx.SetLineCapButt()
 	ctx.InvertY()
-	return &pixelCanvas{Canvas: vgimg.NewWith(vgimg.UseImageWithContext(img, ctx), vgimg.UseDPI(FigureDPI)), img: img}, img
+	return &pixelCanvas{Canvas: vgimg.NewWith(vgimg.UseImageWithContext(img, ctx), vgimg.UseDPI(FigureDPI)), img: img, ctx: ctx}, img
 }
 
 // noBackground takes the plots' background colours away (for a canvas

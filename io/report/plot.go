@@ -11,6 +11,8 @@ import (
 	"strconv"
 	"strings"
 
+	"git.sr.ht/~sbinet/gg"
+	ftraster "github.com/golang/freetype/raster"
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/font"
 	"gonum.org/v1/plot/plotter"
@@ -216,6 +218,10 @@ func (l edgeLine) Plot(c draw.Canvas, plt *plot.Plot) {
 	for i := range lines {
 		lines[i] = thin(lines[i])
 	}
+	if pc, ok := baseCanvas(c).(*pixelCanvas); ok {
+		pc.strokeLines(c, l.LineStyle, lines)
+		return
+	}
 	c.StrokeLines(l.LineStyle, lines...)
 }
 
@@ -404,6 +410,8 @@ func baseCanvas(c draw.Canvas) vg.Canvas {
 type pixelCanvas struct {
 	*vgimg.Canvas
 	img *image.RGBA
+	ctx *gg.Context        // the canvas's drawing context
+	ras *ftraster.Rasterizer // for strokeLines, made on first use
 }
 
 // paint draws p over rect (canvas coordinates): every pixel whose centre

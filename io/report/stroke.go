@@ -1,0 +1,265 @@
+package report
+
+import (
+	"image"
+	"image/color"
+	"math"
+
+	"git.sr.ht/~sbinet/gg"
+	ftraster "github.com/golang/freetype/raster"
+	"golang.org/x/image/math/fixed"
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
+)
+
+// The figure files' long lines (spectra, profiles) are stroked here rather
+// than by the drawing context, with the same path, the same stroker and the
+// same rasterizer, so that every pixel is the one the context would paint
+// (checked against it in a test). What differs is the order of the work.
+// The rasterizer keeps each pixel row's cells in a list sorted by column
+// and walks it from the left for every cell a path's outline adds, so a
+// line across the whole figure costs the square of its width in every row
+// it stays in; this took a seventh of the report's time. Stroked one band
+// of bandColumns pixel columns at a time, each row's list stays short.
+//
+// Why a band's pixels are the same: the rasterizer gives a pixel the area
+// under the outline in the pixel's own cell plus the cover (the signed
+// height crossed) of every cell to its left in the row. A band is stroked
+// with the runs of segments that come within bandMargin of it; what the
+// whole line has beyond a run's ends is a chain of outline lying wholly to
+// the left (or right) of the band, and in place of it the band's stroke has
+// the run's butt cap, a chain between the same two points. Two chains
+// between the same points cross every row by the same height, and cells
+// wholly to the left of the band add only their cover to the band's pixels,
+// so the band's pixels get the same sums; cells to the right never reach
+// them. Each band is painted only over its own columns.
+
+// bandColumns is the width, in pixels, of the bands a long line is stroked
+// in: a row's list then holds a few dozen cells rather than up to a
+// figure's 945, and a band's fixed costs (a pass over the rows) stay small.
+const bandColumns = 64
+
+// strokeLines strokes lines with sty as draw.Canvas.StrokeLines does on the
+// figure files' raster canvas c (whose base canvas is pc): each line is one
+// stroke, drawn over what is already there.
+func (pc *pixelCanvas) strokeLines(c draw.Canvas, sty draw.LineStyle, lines [][]vg.Point) {
+	// The context's state as StrokeLines would leave it.
+	c.SetLineStyle(sty)
+	if len(lines) == 0 || sty.Width <= 0 {
+		return
+	}
+	dpi := pc.DPI()
+	var dashes []float64
+	for _, d := range sty.Dashes {
+		dashes = append(dashes, d.Dots(dpi))
+	}
+	st := strokeStyle{width: fix(sty.Width.Dots(dpi)), dashes: dashes, offset: sty.DashOffs.Dots(dpi)}
+	painter := ftraster.NewRGBAPainter(pc.img)
+	var colour color.Color = color.Black // what the canvas takes for none
+	if sty.Color != nil {
+		colour = sty.Color
+	}
+	painter.SetColor(colour)
+	for _, l := range lines {
+		if len(l) == 0 {
+			continue
+		}
+		pts := make([]fixed.Point26_6, len(l))
+		for i, p := range l {
+			x, y := pc.ctx.TransformPoint(p.X.Dots(dpi), p.Y.Dots(dpi))
+			pts[i] = gg.Point{X: x, Y: y}.Fixed()
+		}
+		pc.strokeBands(st.subpaths(pts), st.width, painter)
+	}
+}
+
+// strokeStyle is a stroke's width (26.6 pixels) and dash pattern (pixels).
+type strokeStyle struct {
+	width  fixed.Int26_6
+	dashes []float64
+	offset float64
+}
+
+// fix is the drawing context's conversion of a length in pixels.
+func fix(x float64) fixed.Int26_6 { return fixed.Int26_6(math.Round(x * 64)) }
+
+// subpaths is the path the drawing context strokes for the polyline pts
+// (device pixels, 26.6): cut into dashes when the style has some, and with
+// every point within 4/64 pixel (in |dx| + |dy|) of the last kept one left
+// out, as the context leaves them out.
+func (st strokeStyle) subpaths(pts []fixed.Point26_6) [][]fixed.Point26_6 {
+	if len(st.dashes) == 0 {
+		return [][]fixed.Point26_6{keepApart(pts)}
+	}
+	fl := make([]gg.Point, len(pts))
+	for i, p := range pts {
+		// The context keeps the path in 26.6 and dashes it in float64:
+		// x/64 exactly.
+		fl[i] = gg.Point{X: float64(p.X) / 64, Y: float64(p.Y) / 64}
+	}
+	var out [][]fixed.Point26_6
+	for _, d := range dashPolyline(fl, st.dashes, st.offset) {
+		f := make([]fixed.Point26_6, len(d))
+		for i, p := range d {
+			f[i] = p.Fixed()
+		}
+		out = append(out, keepApart(f))
+	}
+	return out
+}
+
+// keepApart leaves out each point within 4/64 pixel (|dx| + |dy|) of the
+// last point kept, the drawing context's guard against degenerate joins.
+func keepApart(pts []fixed.Point26_6) []fixed.Point26_6 {
+	const cut = 4
+	out := make([]fixed.Point26_6, 0, len(pts))
+	for i, p := range pts {
+		if i > 0 {
+			q := out[len(out)-1]
+			if abs26(p.X-q.X)+abs26(p.Y-q.Y) <= cut {
+				continue
+			}
+		}
+		out = append(out, p)
+	}
+	return out
+}
+
+func abs26(v fixed.Int26_6) fixed.Int26_6 {
+	if v < 0 {
+		return -v
+	}
+	return v
+}
+
+// dashPolyline cuts a polyline into dashes as the drawing context does:
+// on, off, on, … along the path, starting offset into the pattern; a
+// pattern of one length is that length on and off.
+func dashPolyline(path []gg.Point, dashes []float64, offset float64) [][]gg.Point {
+	if len(path) < 2 {
+		return nil
+	}
+	if len(dashes) == 1 {
+		dashes = []float64{dashes[0], dashes[0]}
+	}
+	dash, done := 0, 0.0 // the pattern's entry, and how much of it is drawn
+	if offset != 0 {
+		total := 0.0
+		for _, d := range dashes {
+			total += d
+		}
+		offset = math.Mod(offset, total)
+		if offset < 0 {
+			offset += total
+		}
+		for i, d := range dashes {
+			offset -= d
+			if offset < 0 {
+				dash, done = i, d+offset
+				break
+			}
+		}
+	}
+	var out [][]gg.Point
+	prev := path[0]
+	seg := []gg.Point{prev}
+	for next := 1; next < len(path); {
+		p := path[next]
+		d := prev.Distance(p)
+		if left := dashes[dash] - done; d > left {
+			q := prev.Interpolate(p, left/d)
+			seg = append(seg, q)
+			if dash%2 == 0 && len(seg) > 1 {
+				out = append(out, seg)
+			}
+			seg = []gg.Point{q}
+			done, prev = 0, q
+			dash = (dash + 1) % len(dashes)
+			continue
+		}
+		seg = append(seg, p)
+		prev, done = p, done+d
+		next++
+	}
+	if dash%2 == 0 && len(seg) > 1 {
+		out = append(out, seg)
+	}
+	return out
+}
+
+// strokeBands strokes the subpaths (one stroke: butt caps, round joins,
+// non-zero winding, as the drawing context strokes) in bands of
+// bandColumns pixel columns, or whole when they span fewer than three.
+func (pc *pixelCanvas) strokeBands(subpaths [][]fixed.Point26_6, width fixed.Int26_6, painter *ftraster.RGBAPainter) {
+	lo, hi := fixed.Int26_6(math.MaxInt32), fixed.Int26_6(math.MinInt32)
+	for _, sp := range subpaths {
+		if len(sp) < 2 {
+			continue
+		}
+		for _, p := range sp {
+			lo, hi = min(lo, p.X), max(hi, p.X)
+		}
+	}
+	if lo > hi {
+		return
+	}
+	w := pc.img.Rect.Dx()
+	// Everything the stroke of a segment paints lies within half the width
+	// of it (joins and caps included); a pixel more covers the rounding.
+	margin := width/2 + 2*64
+	first := max(0, int((lo-margin)>>6)/bandColumns)
+	last := min((w-1)/bandColumns, int((hi+margin)>>6)/bandColumns)
+	if last-first < 2 {
+		pc.rasterizeStroke(pathOf(subpaths, 0, 0, false), width, painter, image.Rect(0, 0, w, pc.img.Rect.Dy()))
+		return
+	}
+	for b := first; b <= last; b++ {
+		x0, x1 := b*bandColumns, min(w, (b+1)*bandColumns)
+		from, to := fixed.Int26_6(x0*64)-margin, fixed.Int26_6(x1*64)+margin
+		pc.rasterizeStroke(pathOf(subpaths, from, to, true), width, painter, image.Rect(x0, 0, x1, pc.img.Rect.Dy()))
+	}
+}
+
+// pathOf is the rasterizer's path of the subpaths; with near, only the
+// runs of consecutive segments whose x extent meets [from, to], each run a
+// subpath of its own.
+func pathOf(subpaths [][]fixed.Point26_6, from, to fixed.Int26_6, near bool) ftraster.Path {
+	var p ftraster.Path
+	for _, sp := range subpaths {
+		if len(sp) < 2 {
+			continue
+		}
+		open := false
+		for i := 1; i < len(sp); i++ {
+			a, b := sp[i-1], sp[i]
+			if near && (max(a.X, b.X) < from || min(a.X, b.X) > to) {
+				open = false
+				continue
+			}
+			if !open {
+				p.Start(a)
+				open = true
+			}
+			p.Add1(b)
+		}
+	}
+	return p
+}
+
+// rasterizeStroke strokes path and paints its pixels inside clip.
+func (pc *pixelCanvas) rasterizeStroke(path ftraster.Path, width fixed.Int26_6, painter *ftraster.RGBAPainter, clip image.Rectangle) {
+	if len(path) == 0 {
+		return
+	}
+	if pc.ras == nil {
+		pc.ras = ftraster.NewRasterizer(pc.img.Rect.Dx(), pc.img.Rect.Dy())
+	}
+	r := pc.ras
+	r.UseNonZeroWinding = true
+	r.Clear()
+	r.AddStroke(path, width, ftraster.ButtCapper, ftraster.RoundJoiner)
+	// The context's painter for a solid colour, on the band's columns only
+	// (it paints nothing outside its image's bounds).
+	painter.Image = pc.img.SubImage(clip).(*image.RGBA)
+	r.Rasterize(painter)
+}
