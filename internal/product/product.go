@@ -25,7 +25,8 @@ import (
 )
 
 // maxK is the most columns the loops here take; past it the register tiles
-// of wide.go (two rows by three columns) do the work, which beat gonum's
+// of wide.go (two rows by three columns, or four rows by twelve columns in
+// ymm registers with AVX2: widevec.go) do the work, which beat gonum's
 // vector kernel there (BenchmarkProducts2000x3001k9, k34).
 const maxK = 8
 

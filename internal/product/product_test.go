@@ -113,31 +113,40 @@ func TestWideProductsWithNonFiniteFactor(t *testing.T) {
 	}
 }
 
+// benchOne runs f b.N times and reports, besides the wall time, the
+// process CPU time per run (getrusage), the figure that stays honest on a
+// shared machine.
+func benchOne(b *testing.B, f func()) {
+	c0 := cpuNow()
+	for i := 0; i < b.N; i++ {
+		f()
+	}
+	b.ReportMetric((cpuNow()-c0)*1e9/float64(b.N), "cpu-ns/op")
+}
+
 func benchShapes(b *testing.B, n, m, k int) {
 	rng := rand.New(rand.NewPCG(1, 2))
 	a, s, c := randomDense(rng, n, m), randomDense(rng, m, k), randomDense(rng, n, k)
-	b.Run("Mul", func(b *testing.B) {
-		for i := 0; i < b.N; i++ {
-			Mul(a, s)
-		}
-	})
+	b.Run("Mul", func(b *testing.B) { benchOne(b, func() { Mul(a, s) }) })
 	b.Run("gonum-Mul", func(b *testing.B) {
-		for i := 0; i < b.N; i++ {
+		benchOne(b, func() {
 			var o mat.Dense
 			o.Mul(a, s)
-		}
+		})
 	})
-	b.Run("MulT", func(b *testing.B) {
-		for i := 0; i < b.N; i++ {
-			MulT(a, c)
-		}
-	})
+	b.Run("MulT", func(b *testing.B) { benchOne(b, func() { MulT(a, c) }) })
 	b.Run("gonum-MulT", func(b *testing.B) {
-		for i := 0; i < b.N; i++ {
+		benchOne(b, func() {
 			var o mat.Dense
 			o.Mul(a.T(), c)
-		}
+		})
 	})
+	if k <= maxK {
+		return
+	}
+	// The Go loops of wide.go, the path without AVX2, in the same run.
+	b.Run("Mul-go", func(b *testing.B) { benchOne(b, func() { mulWideGo(mat.NewDense(n, k, nil), a, s) }) })
+	b.Run("MulT-go", func(b *testing.B) { benchOne(b, func() { mulTWideGo(mat.NewDense(m, k, nil), a, c) }) })
 }
 
 // The ATR series' shape with two components, the benchmark's with five

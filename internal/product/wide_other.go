@@ -1,0 +1,12 @@
+//go:build !amd64 || purego
+
+package product
+
+// haveAVX2 is false off amd64 and under the purego build tag: the Go loops
+// of wide.go do the wide products.
+const haveAVX2 = false
+
+// tile4 is never called without haveAVX2.
+func tile4(o []float64, so int, a []float64, ar, al int, b []float64, bl, n, w int) {
+	panic("product: no vector tiles in this build")
+}
