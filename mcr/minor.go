@@ -99,8 +99,13 @@ type MinorTest struct {
 	PeakRow    int
 	Species    bool
 	Verdict    string // why, in words
-	reactions  bool   // components are reactions (spectra of either sign)
-	Refit      *Result
+	// Rule and Finding split Verdict for a report of several factors: Rule is the
+	// reasoning of the outcome with the test's limits and the noise edges, which every
+	// factor refitted from one fit shares, so that it can be said once for all with the
+	// same outcome; Finding is what differs, this factor's own figures.
+	Rule, Finding string
+	reactions     bool // components are reactions (spectra of either sign)
+	Refit         *Result
 }
 
 // Limits of the verdict (see the package comment above).
@@ -364,17 +369,29 @@ func (t *MinorTest) verdict(alpha float64) {
 	switch {
 	case !t.Significant:
 		t.Verdict = fmt.Sprintf("one more component lowers the weighted fit by %.3g σ², where noise alone would let it take about %.3g σ² (p = %.2g ≥ %g): not significantly, so not a species", t.Drop(), t.NoiseEdge, t.Significance, alpha)
+		t.Rule = fmt.Sprintf("noise alone would let one more component take about %.3g σ² from the weighted fit; a drop with p ≥ %g is not significant, so not a species", t.NoiseEdge, alpha)
+		t.Finding = fmt.Sprintf("it lowers the weighted fit by %.3g σ² (p = %.2g)", t.Drop(), t.Significance)
 	case t.FitShare < minorVanished:
 		t.Verdict = "the extra component vanishes in the refit: not a species"
+		t.Rule = "an extra component that vanishes in the refit is not a species"
+		t.Finding = "the extra component vanishes in the refit"
 	case len(t.Spectra) > 0:
 		t.Verdict = fmt.Sprintf("its profile lives in %d spectrum(s): spectra unlike the rest, not a species", len(t.Spectra))
+		t.Rule = "a profile that lives in a few spectra marks spectra unlike the rest, not a species"
+		t.Finding = fmt.Sprintf("its profile lives in %d spectrum(s)", len(t.Spectra))
 	case t.ShiftShare >= minorShiftShare:
 		t.Verdict = fmt.Sprintf("it lowers the fit significantly (p = %.2g), but %.0f %% of what its spectrum adds to the others is their derivative: a band shift or change of band shape, which a species cannot be (it needs lobes of both signs), so not a species", t.Significance, 100*t.ShiftShare)
+		t.Rule = fmt.Sprintf("a component that lowers the fit significantly but adds to the others' spectra mostly (≥ %.0f %%) their derivative is a band shift or change of band shape, which a species cannot be (it needs lobes of both signs), so not a species", 100*minorShiftShare)
+		t.Finding = fmt.Sprintf("it lowers the fit by %.3g σ² (p = %.2g), and %.0f %% of what its spectrum adds to the others is their derivative", t.Drop(), t.Significance, 100*t.ShiftShare)
 	case !t.ownBand(alpha):
 		t.Verdict = fmt.Sprintf("it lowers the fit significantly (p = %.2g), but not with a band of its own: %s; a change of those bands' shape (a shift, broadening, hydrogen bonding) that no resolution can tell from a species hidden there, so not counted", t.Significance, t.ownBandWords())
+		t.Rule = fmt.Sprintf("a component that lowers the fit significantly is a species only with a band of its own: %s; without one it is a change of those bands' shape (a shift, broadening, hydrogen bonding) that no resolution can tell from a species hidden there, so not counted", t.ownBandRule(alpha))
+		t.Finding = fmt.Sprintf("it lowers the fit by %.3g σ² (p = %.2g); %s", t.Drop(), t.Significance, t.ownBandFigures())
 	default:
 		t.Species = true
 		t.Verdict = fmt.Sprintf("%s the fit by %.3g σ² where noise alone would give about %.3g σ² (p = %.2g < %g), with a band of its own (%s), and %.0f %% of what its spectrum adds is not a band shift: a species by this test", t.what(), t.Drop(), t.NoiseEdge, t.Significance, alpha, t.ownBandWords(), 100*(1-t.ShiftShare))
+		t.Rule = fmt.Sprintf("%s the fit by more than noise alone would give (about %.3g σ², p < %g), with a band of its own (%s), and less than %.0f %% of it a band shift: a species by this test", t.what(), t.NoiseEdge, alpha, t.ownBandRule(alpha), 100*minorShiftShare)
+		t.Finding = fmt.Sprintf("it lowers the fit by %.3g σ² (p = %.2g); %s; %.0f %% of what its spectrum adds is not a band shift", t.Drop(), t.Significance, t.ownBandFigures(), 100*(1-t.ShiftShare))
 	}
 }
 

@@ -1,8 +1,10 @@
 package mcr
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -316,5 +318,73 @@ func TestMinorFactorsShareTheRefit(t *testing.T) {
 	}
 	if lim := ts[0].ResidualSSWith * (1 + ts[0].NoiseEdge/ts[0].DF2); ts[1].ResidualSSWith > lim*(1+1e-12) && ts[1].Refit.Iterations < 500 {
 		t.Errorf("second refit stopped at RSS %g above the first fit's %g plus one noise edge", ts[1].ResidualSSWith, ts[0].ResidualSSWith)
+	}
+}
+
+// The verdict splits into Rule, the reasoning with the test's limits (the package
+// comment's definition: p < alpha, ≥ 80 % derivative for a band shift, ≥ 25 % of the drop
+// and ≥ 50 % of its peak outside the other spectra's bands) and the noise edges every refit
+// from one fit shares, and Finding, the factor's own figures. Two factors with the same
+// outcome and edges but different figures must get the same Rule, which states none of
+// their figures, and each a Finding with its own drop; Verdict keeps them all.
+func TestMinorVerdictRuleAndFinding(t *testing.T) {
+	type own struct {
+		drop, p, fitShare, shift, outShare, outP, outPeak float64
+		spectra                                           []int
+	}
+	cases := []struct {
+		name    string
+		species bool
+		limits  []string // the definition's limits the Rule must state
+		a, b    own
+	}{
+		{"not significant", false, []string{"p ≥ 0.05"},
+			own{drop: 500, p: 0.3, fitShare: 0.01}, own{drop: 650, p: 0.2, fitShare: 0.02}},
+		{"vanishes", false, nil,
+			own{drop: 4480, fitShare: 1e-9}, own{drop: 5120, fitShare: 1e-8}},
+		{"few spectra", false, nil,
+			own{drop: 4480, fitShare: 0.01, spectra: []int{3, 4}}, own{drop: 5120, fitShare: 0.02, spectra: []int{7}}},
+		{"band shift", false, []string{"≥ 80 %"},
+			own{drop: 4480, fitShare: 0.01, shift: 0.9}, own{drop: 5120, fitShare: 0.02, shift: 0.85}},
+		{"no band of its own", false, []string{"≥ 25 %", "≥ 50 %", "p < 0.05"},
+			own{drop: 4480, fitShare: 0.01, shift: 0.01, outShare: 0.18, outPeak: 0.26}, own{drop: 5120, fitShare: 0.02, shift: 0.04, outShare: 0.19, outPeak: 0.33}},
+		{"species", true, []string{"≥ 25 %", "≥ 50 %", "p < 0.05", "less than 80 %"},
+			own{drop: 4480, fitShare: 0.01, shift: 0.01, outShare: 0.6, outPeak: 1}, own{drop: 5120, fitShare: 0.02, shift: 0.04, outShare: 0.7, outPeak: 0.8}},
+	}
+	refit := func(o own) *MinorTest {
+		// σ̂² = RSS_{k+1}/DF2 = 1, so the drop in σ² is RSS_k − RSS_{k+1} (Drop's definition).
+		mt := &MinorTest{ResidualSSWith: 1000, DF2: 1000, ResidualSSWithout: 1000 + o.drop,
+			NoiseEdge: 788, OutBandEdge: 603, OutBandChannels: 190,
+			Significance: o.p, Significant: o.p < 0.05, FitShare: o.fitShare, Spectra: o.spectra,
+			ShiftShare: o.shift, OutBandDrop: o.outShare * o.drop, OutBandSignificance: o.outP, OutBandPeak: o.outPeak}
+		mt.verdict(0.05)
+		return mt
+	}
+	for _, c := range cases {
+		a, b := refit(c.a), refit(c.b)
+		if a.Species != c.species || b.Species != c.species {
+			t.Errorf("%s: species %v and %v, want %v: %s", c.name, a.Species, b.Species, c.species, a.Verdict)
+		}
+		if a.Rule != b.Rule {
+			t.Errorf("%s: the rules differ:\n%s\n%s", c.name, a.Rule, b.Rule)
+		}
+		// A vanished component has no figure of its own to state.
+		if (a.Finding == b.Finding) != (c.name == "vanishes") {
+			t.Errorf("%s: findings %q and %q for different figures", c.name, a.Finding, b.Finding)
+		}
+		for _, l := range c.limits {
+			if !strings.Contains(a.Rule, l) {
+				t.Errorf("%s: rule %q does not state the limit %q", c.name, a.Rule, l)
+			}
+		}
+		for _, mt := range []*MinorTest{a, b} {
+			drop := fmt.Sprintf("%.3g σ²", mt.Drop())
+			if strings.Contains(mt.Rule, drop) {
+				t.Errorf("%s: the rule states the factor's drop %s: %s", c.name, drop, mt.Rule)
+			}
+			if strings.Contains(mt.Verdict, drop) && !strings.Contains(mt.Finding, drop) {
+				t.Errorf("%s: the verdict states the drop %s, the finding does not:\n%s\n%s", c.name, drop, mt.Verdict, mt.Finding)
+			}
+		}
 	}
 }

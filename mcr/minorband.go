@@ -168,6 +168,19 @@ func (t *MinorTest) ownBandWords() string {
 		100*t.OutBandShare(), t.OutBandDrop, t.OutBandChannels, t.OutBandEdge, t.OutBandSignificance, 100*minorOutBand, 100*t.OutBandPeak, 100*minorOutPeak)
 }
 
+// ownBandRule states the limits of ownBand with the noise edge outside the bands, which
+// every refit from one fit shares.
+func (t *MinorTest) ownBandRule(alpha float64) string {
+	return fmt.Sprintf("≥ %.0f %% of the drop outside the other spectra's bands, significant there (on %d channels noise alone gives about %.3g σ², p < %g), and reaching there, per channel, ≥ %.0f %% of its largest value",
+		100*minorOutBand, t.OutBandChannels, t.OutBandEdge, alpha, 100*minorOutPeak)
+}
+
+// ownBandFigures gives this factor's figures of ownBand.
+func (t *MinorTest) ownBandFigures() string {
+	return fmt.Sprintf("%.0f %% of the drop lies outside the other spectra's bands (%.3g σ², p = %.2g), and per channel it reaches there %.0f %% of its largest value",
+		100*t.OutBandShare(), t.OutBandDrop, t.OutBandSignificance, 100*t.OutBandPeak)
+}
+
 // NoiseEdgeSS is what one more component would take from noise alone beside the k of
 // res, in the units of res.ResidualSS: largestNoiseEigen on the rows and channels with
 // weight, times σ̂² = RSS/(N − k(n + m − k)). Two fits closer than that cannot be told

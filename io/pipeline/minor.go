@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"io"
 	"slices"
+	"strconv"
+	"strings"
 
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/mcr"
@@ -164,17 +166,21 @@ func minorOf(r *Result, factor int) *MinorVerdict {
 // minorLooks says what the refitted component looks like: where its profile lives in
 // time and how much of its spectrum is a band shift.
 func minorLooks(r *Result, mt *mcr.MinorTest) string {
+	return fmt.Sprintf("as one more component its profile is %s; of what its spectrum adds to the others, %.0f %% is their derivative (a band shift when large) and %.0f %% lies under their bands", minorShape(r, mt), 100*mt.ShiftShare, 100*mt.InBandShare)
+}
+
+// minorShape says where the refitted component's profile lives in time.
+func minorShape(r *Result, mt *mcr.MinorTest) string {
 	n := len(r.Times)
-	shape := "spread over the run"
 	switch {
 	case mt.EarlyShare >= 0.5:
-		shape = fmt.Sprintf("concentrated early (%.0f %% of its profile in the first fifth of the spectra: a mixing or settling transient)", 100*mt.EarlyShare)
+		return fmt.Sprintf("concentrated early (%.0f %% of its profile in the first fifth of the spectra: a mixing or settling transient)", 100*mt.EarlyShare)
 	case mt.PeakRow >= n-max(1, n/10):
-		shape = "growing to the end of the run (a slow product or drift)"
+		return "growing to the end of the run (a slow product or drift)"
 	case mt.PeakRow > 0:
-		shape = fmt.Sprintf("rising then falling, largest at t = %s s (a transient)", output.Float(r.Times[mt.PeakRow]))
+		return fmt.Sprintf("rising then falling, largest at t = %s s (a transient)", output.Float(r.Times[mt.PeakRow]))
 	}
-	return fmt.Sprintf("as one more component its profile is %s; of what its spectrum adds to the others, %.0f %% is their derivative (a band shift when large) and %.0f %% lies under their bands", shape, 100*mt.ShiftShare, 100*mt.InBandShare)
+	return "spread over the run"
 }
 
 // minorRefitJSON is the refit verdict of a factor for summary.json (nil when untested).
@@ -200,6 +206,8 @@ func minorRefitJSON(r *Result, factor int) *output.MinorRefitJSON {
 }
 
 // minorAdvice is the refit's sentence for a factor's advice line ("" when untested).
+// When other factors' refits reached the same verdict, their common reasoning is said
+// once (sharedMinorAdvice) and this line keeps only what differs.
 func minorAdvice(r *Result, factor int) string {
 	v := minorOf(r, factor)
 	switch {
@@ -210,7 +218,60 @@ func minorAdvice(r *Result, factor int) string {
 	case v.Err != nil || v.Test == nil:
 		return fmt.Sprintf("; the refit with it as one more component failed (%v)", v.Err)
 	}
-	return fmt.Sprintf("; refitted as one more component under the same constraints and baseline, %s; %s", minorLooks(r, v.Test), v.Test.Verdict)
+	mt := v.Test
+	if same := sameVerdict(r, factor); same != nil {
+		return fmt.Sprintf("; refitted as one more component (the verdict shared by factors %s is above): its profile is %s; %.0f %% of what its spectrum adds to the others is their derivative and %.0f %% lies under their bands; %s",
+			factorList(same), minorShape(r, mt), 100*mt.ShiftShare, 100*mt.InBandShare, mt.Finding)
+	}
+	return fmt.Sprintf("; refitted as one more component under the same constraints and baseline, %s; %s", minorLooks(r, mt), mt.Verdict)
+}
+
+// sharedMinorAdvice is the advice line that says once the verdict a factor's refit shares
+// with others, when factor is the first of them to be advised on (said records the
+// verdicts said); nil otherwise.
+func sharedMinorAdvice(r *Result, factor int, said map[string]bool) []string {
+	same := sameVerdict(r, factor)
+	if same == nil {
+		return nil
+	}
+	rule := minorOf(r, factor).Test.Rule
+	if said[rule] {
+		return nil
+	}
+	said[rule] = true
+	return []string{fmt.Sprintf("factors %s, each refitted as one more component under the same constraints and baseline, share one verdict: %s", factorList(same), rule)}
+}
+
+// sameVerdict lists, in order, the refitted factors whose verdict has the same reasoning
+// (mcr.MinorTest.Rule) as factor's, factor included; nil when no other shares it.
+func sameVerdict(r *Result, factor int) []int {
+	v := minorOf(r, factor)
+	if v == nil || v.Err != nil || v.Test == nil {
+		return nil
+	}
+	var out []int
+	for _, w := range r.MinorTests {
+		if w.Err == nil && w.Test != nil && w.Test.Rule == v.Test.Rule {
+			out = append(out, w.Factor)
+		}
+	}
+	if len(out) < 2 {
+		return nil
+	}
+	slices.Sort(out)
+	return out
+}
+
+// factorList writes factor numbers as "3 and 5" or "3, 5 and 7".
+func factorList(fs []int) string {
+	var ss []string
+	for _, f := range fs {
+		ss = append(ss, strconv.Itoa(f))
+	}
+	if len(ss) < 2 {
+		return strings.Join(ss, "")
+	}
+	return strings.Join(ss[:len(ss)-1], ", ") + " and " + ss[len(ss)-1]
 }
 
 // refittable reports whether a factor is of a kind the refit tests (minor or band shift).

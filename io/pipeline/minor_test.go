@@ -11,6 +11,7 @@ import (
 	"testing"
 
 	"github.com/bandsolve/bandsolve/mcr"
+	"github.com/bandsolve/bandsolve/svd"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -426,5 +427,87 @@ func TestMinorPromotionRestoresData(t *testing.T) {
 				t.Fatalf("spectrum %d, point %d: %v after the second resolution, want %v (the data before any resolution less the final baseline)", i, j, got[j], w[j])
 			}
 		}
+	}
+}
+
+// checkSharedVerdicts checks the advice on the refitted minor factors: reasoning of a
+// verdict (mcr.MinorTest.Rule) that several factors share is said in exactly one line,
+// which names them all, and each factor's own line keeps its own figures (Finding)
+// without that reasoning or the full verdict; a verdict of one factor alone stays whole
+// on its line. It returns how many reasonings were shared.
+func checkSharedVerdicts(t *testing.T, r *Result) int {
+	t.Helper()
+	lineOf := func(f int) string {
+		for _, a := range r.Advice {
+			if strings.HasPrefix(a, fmt.Sprintf("factor %d (", f)) {
+				return a
+			}
+		}
+		t.Errorf("no advice line for factor %d: %q", f, r.Advice)
+		return ""
+	}
+	groups := map[string][]int{}
+	for _, v := range r.MinorTests {
+		if v.Test != nil && v.Err == nil {
+			groups[v.Test.Rule] = append(groups[v.Test.Rule], v.Factor)
+		}
+	}
+	shared := 0
+	for rule, fs := range groups {
+		slices.Sort(fs)
+		if len(fs) == 1 {
+			if v := minorOf(r, fs[0]); !strings.Contains(lineOf(fs[0]), v.Test.Verdict) {
+				t.Errorf("factor %d, refitted alone to its verdict: its line lacks the verdict %q", fs[0], v.Test.Verdict)
+			}
+			continue
+		}
+		shared++
+		var lines []string
+		for _, a := range r.Advice {
+			if strings.Contains(a, rule) {
+				lines = append(lines, a)
+			}
+		}
+		if len(lines) != 1 || !strings.HasPrefix(lines[0], "factors "+factorList(fs)+",") {
+			t.Errorf("the verdict of factors %v is said in %d lines (want 1, naming them): %q", fs, len(lines), lines)
+		}
+		for _, f := range fs {
+			v, line := minorOf(r, f), lineOf(f)
+			if !strings.Contains(line, v.Test.Finding) || strings.Contains(line, rule) || strings.Contains(line, v.Test.Verdict) {
+				t.Errorf("factor %d: want its own figures %q without the common verdict; line %q", f, v.Test.Finding, line)
+			}
+		}
+	}
+	return shared
+}
+
+// The advice says a verdict that several refits share once: three minor factors and an
+// outlier, two of the refits with the same reasoning and one with another (the strings
+// stand for mcr.MinorTest's; TestMinorVerdictRuleAndFinding checks how it forms them).
+func TestMinorAdviceSaysSharedVerdictOnce(t *testing.T) {
+	r := &Result{Times: []float64{0, 60, 120, 180, 240}, MinorTested: true}
+	r.Chemical = &svd.ChemicalRank{Estimate: 2, Nuisance: []svd.NuisanceFactor{
+		{Factor: 3, Kind: svd.NuisanceMinor, Looks: "smooth, small", SharePercent: 0.0087},
+		{Factor: 4, Kind: svd.NuisanceOutlier, Looks: "one spectrum", SharePercent: 0.0012, Spectra: []int{2}},
+		{Factor: 5, Kind: svd.NuisanceMinor, Looks: "smooth, smaller", SharePercent: 0.0009},
+		{Factor: 6, Kind: svd.NuisanceBandShift, Looks: "a derivative", SharePercent: 0.0005},
+	}}
+	test := func(rule, finding string) *mcr.MinorTest {
+		return &mcr.MinorTest{Rule: rule, Finding: finding, Verdict: finding + "; " + rule, ShiftShare: 0.04, InBandShare: 0.7}
+	}
+	r.MinorTests = []MinorVerdict{
+		{Factor: 3, Test: test("no band of its own, so not counted", "18 % outside the bands")},
+		{Factor: 5, Test: test("no band of its own, so not counted", "19 % outside the bands")},
+		{Factor: 6, Test: test("mostly a derivative, so not a species", "85 % derivative")},
+	}
+	nuisanceAdvice(r)
+	for _, a := range r.Advice {
+		t.Log(a)
+	}
+	if n := checkSharedVerdicts(t, r); n != 1 {
+		t.Errorf("%d verdicts said once for several factors, want 1 (factors 3 and 5)", n)
+	}
+	if len(r.Advice) != 5 {
+		t.Errorf("%d advice lines, want 5 (the common verdict and one per factor)", len(r.Advice))
 	}
 }

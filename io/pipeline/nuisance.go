@@ -224,10 +224,12 @@ func nuisanceAdvice(r *Result) {
 	if cr == nil {
 		return
 	}
+	said := map[string]bool{}
 	for _, nf := range cr.Nuisance {
 		if nf.Kind == svd.NuisancePattern {
 			continue // has its own advice
 		}
+		r.Advice = append(r.Advice, sharedMinorAdvice(r, nf.Factor, said)...)
 		at := ""
 		if len(nf.Spectra) > 0 {
 			var ts []string
@@ -239,6 +241,7 @@ func nuisanceAdvice(r *Result) {
 		r.Advice = append(r.Advice, fmt.Sprintf("factor %d (%.2g %% of the signal) is not counted as a species: %s%s%s", nf.Factor, nf.SharePercent, nf.Looks, at, minorAdvice(r, nf.Factor)))
 	}
 	for _, nf := range r.MinorSpecies {
+		r.Advice = append(r.Advice, sharedMinorAdvice(r, nf.Factor, said)...)
 		r.Advice = append(r.Advice, fmt.Sprintf("factor %d (%.2g %% of the signal) is counted as a species although its size alone would not count it%s", nf.Factor, nf.SharePercent, minorAdvice(r, nf.Factor)))
 	}
 	if cr.NoiseLike > 0 {
