@@ -44,7 +44,12 @@ func writeMaps(r *Result, stage *output.Stage) error {
 			return v
 		}})
 	}
-	return stage.Write(report.MapsFile, report.MapsCSV(r.Axis, r.Times, r.ExpOfRow, mats))
+	b, m := report.FormatMaps(r.Axis, r.Times, r.ExpOfRow, mats)
+	if err := stage.Write(report.MapsFile, b); err != nil {
+		return err
+	}
+	r.reportMaps = m
+	return nil
 }
 
 // differenceMatrix stacks the experiments' difference spectra when the
@@ -93,7 +98,8 @@ func writeReport(r *Result, stage *output.Stage) error {
 	if r.Settings.Report == "off" {
 		return nil
 	}
-	f, err := report.Load(stage.Dir)
+	// maps.csv as writeMaps formed it rather than read back: the same Maps.
+	f, err := report.LoadWith(stage.Dir, r.reportMaps)
 	if err != nil {
 		return fmt.Errorf("report: %w", err)
 	}

@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/io/report"
 	"github.com/bandsolve/bandsolve/io/spectra"
 	"github.com/bandsolve/bandsolve/mcr"
 	"github.com/bandsolve/bandsolve/svd"
@@ -72,6 +73,8 @@ type Result struct {
 	// diffMapRows are the rows of the difference matrix (species mode) the
 	// report's maps show, kept when the matrix itself is let go (mapRows).
 	diffMapRows map[int][]float64
+	// reportMaps is maps.csv as the report reads it, from writeMaps.
+	reportMaps *report.Maps
 	// NoiseSigma is the typical noise standard deviation of D (median over
 	// channels) and NoiseSource how it was found.
 	NoiseSigma  float64

@@ -26,32 +26,174 @@ type MapMatrix struct {
 // digits: the file feeds figures only, the full values are in the other
 // result files.
 func MapsCSV(axis, times []float64, experiment []int, mats []MapMatrix) []byte {
+	b, _ := FormatMaps(axis, times, experiment, mats)
+	return b
+}
+
+// FormatMaps is MapsCSV together with the Maps that Load reads back from
+// those bytes (every number the value of its text), so that the run's own
+// report need not read and parse the file it has just written. The Maps
+// is nil when Load would not take the file as it is (no axis points, an
+// axis value or time that is not a number): Load then reads it and says why.
+func FormatMaps(axis, times []float64, experiment []int, mats []MapMatrix) ([]byte, *Maps) {
 	rows := pick(len(times), MapTimes)
 	cols := pick(len(axis), MapPoints)
+	m := &Maps{Matrices: map[string]*Matrix{}}
 	// One buffer, numbers appended in place (no string per value): about
 	// 12 bytes a value, sized once.
 	b := make([]byte, 0, (len(mats)*len(rows)+1)*(len(cols)+3)*12)
 	b = append(b, "matrix,experiment,time"...)
+	var ok bool
 	for _, j := range cols {
-		b = appendNum(append(b, ','), axis[j], 10)
+		b = append(b, ',')
+		var v float64
+		b, v, ok = appendValue(b, axis[j], 10)
+		if !ok {
+			m = nil
+		}
+		if m != nil {
+			m.Axis = append(m.Axis, v)
+		}
+	}
+	if len(cols) == 0 {
+		m = nil
 	}
 	b = append(b, '\n')
-	for _, m := range mats {
+	for _, mm := range mats {
+		var mx *Matrix
+		if m != nil {
+			if mx = m.Matrices[mm.Name]; mx == nil {
+				mx = &Matrix{}
+				m.Matrices[mm.Name] = mx
+			}
+		}
 		for _, i := range rows {
 			e := 1
 			if i < len(experiment) {
 				e = experiment[i] + 1
 			}
-			b = append(append(b, m.Name...), ',')
+			b = append(append(b, mm.Name...), ',')
 			b = append(strconv.AppendInt(b, int64(e), 10), ',')
-			b = appendNum(b, times[i], 10)
+			var tm float64
+			if b, tm, ok = appendValue(b, times[i], 10); !ok {
+				m, mx = nil, nil
+			}
+			var row []float64
+			if mx != nil {
+				row = make([]float64, 0, len(cols))
+			}
 			for _, j := range cols {
-				b = appendNum(append(b, ','), m.At(i, j), 6)
+				var v float64
+				b, v, _ = appendValue(append(b, ','), mm.At(i, j), 6)
+				if mx != nil {
+					row = append(row, v)
+				}
 			}
 			b = append(b, '\n')
+			if mx != nil {
+				mx.Experiment = append(mx.Experiment, e)
+				mx.Times = append(mx.Times, tm)
+				mx.Rows = append(mx.Rows, row)
+			}
 		}
 	}
-	return b
+	return b, m
+}
+
+// appendValue appends v as appendNum does and returns the value Load reads
+// back from the text (readMaps: NaN for an empty cell, ok false then).
+func appendValue(b []byte, v float64, digits int) ([]byte, float64, bool) {
+	n := len(b)
+	b = appendNum(b, v, digits)
+	if len(b) == n {
+		return b, math.NaN(), false
+	}
+	r, err := parseNumber(b[n:])
+	if err != nil || math.IsInf(r, 0) {
+		return b, math.NaN(), false
+	}
+	return b, r, true
+}
+
+// pow10 are the powers of ten a float64 holds exactly.
+var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10,
+	1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
+
+// parseNumber is strconv.ParseFloat(string(s), 64) for the text
+// strconv.AppendFloat writes, without the string. A decimal m·10^e with m
+// below 10^15 (so exact in a float64) and |e| ≤ 22 (so 10^|e| exact) is
+// one multiplication or division of two exact values, which IEEE 754
+// rounds correctly, as ParseFloat rounds (Clinger's fast path, W. D.
+// Clinger, "How to read floating point numbers accurately", PLDI 1990);
+// any other text goes to ParseFloat.
+func parseNumber(s []byte) (float64, error) {
+	i, neg := 0, false
+	if i < len(s) && (s[i] == '-' || s[i] == '+') {
+		neg, i = s[i] == '-', i+1
+	}
+	var m uint64
+	digits, exp, dot, any := 0, 0, false, false
+digits:
+	for ; i < len(s); i++ {
+		c := s[i]
+		switch {
+		case c >= '0' && c <= '9':
+			any = true
+			if m == 0 && c == '0' {
+				if dot {
+					exp--
+				}
+				continue
+			}
+			digits++
+			m = m*10 + uint64(c-'0')
+			if dot {
+				exp--
+			}
+		case c == '.' && !dot:
+			dot = true
+		default:
+			break digits
+		}
+	}
+	if i < len(s) {
+		if (s[i] != 'e' && s[i] != 'E') || i+1 == len(s) {
+			return strconv.ParseFloat(string(s), 64)
+		}
+		i++
+		eneg := false
+		if s[i] == '-' || s[i] == '+' {
+			eneg, i = s[i] == '-', i+1
+		}
+		e, n := 0, 0
+		for ; i < len(s) && s[i] >= '0' && s[i] <= '9' && n < 4; i, n = i+1, n+1 {
+			e = e*10 + int(s[i]-'0')
+		}
+		if n == 0 || i < len(s) {
+			return strconv.ParseFloat(string(s), 64)
+		}
+		if eneg {
+			e = -e
+		}
+		exp += e
+	}
+	if !any || digits > 15 {
+		return strconv.ParseFloat(string(s), 64)
+	}
+	f := float64(m)
+	switch {
+	case m == 0:
+	case exp >= 0 && exp < len(pow10):
+		f *= pow10[exp]
+	case exp < 0 && -exp < len(pow10):
+		f /= pow10[-exp]
+	default:
+		return strconv.ParseFloat(string(s), 64)
+	}
+	if neg {
+		f = -f
+	}
+	return f, nil
 }
 
 // MapRows are the rows (of n times) that MapsCSV shows, so that a caller

@@ -410,7 +410,7 @@ func baseCanvas(c draw.Canvas) vg.Canvas {
 type pixelCanvas struct {
 	*vgimg.Canvas
 	img *image.RGBA
-	ctx *gg.Context        // the canvas's drawing context
+	ctx *gg.Context          // the canvas's drawing context
 	ras *ftraster.Rasterizer // for strokeLines, made on first use
 }
 

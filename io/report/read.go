@@ -167,7 +167,13 @@ type Matrix struct {
 
 // Load reads an output folder. Only a missing or unreadable summary.json is
 // an error: without it there is no result to report.
-func Load(dir string) (*Folder, error) {
+func Load(dir string) (*Folder, error) { return LoadWith(dir, nil) }
+
+// LoadWith is Load with maps.csv already read: maps, when not nil, is what
+// readMaps gives for the folder's maps.csv (FormatMaps returns it beside
+// the file's bytes), so a run that has just written the file need not read
+// and parse it again; the Folder is the same.
+func LoadWith(dir string, maps *Maps) (*Folder, error) {
 	ents, err := os.ReadDir(dir)
 	if err != nil {
 		return nil, fmt.Errorf("reading output folder: %w", err)
@@ -216,7 +222,9 @@ func Load(dir string) (*Folder, error) {
 	f.Kinetics = table("kinetics.csv")
 	f.Intervals = table("intervals.csv")
 	f.DemoCheck = table("demo_check.csv")
-	if m, err := readMaps(filepath.Join(dir, MapsFile)); err == nil {
+	if maps != nil {
+		f.Maps = maps
+	} else if m, err := readMaps(filepath.Join(dir, MapsFile)); err == nil {
 		f.Maps = m
 	} else if !errors.Is(err, os.ErrNotExist) {
 		f.Problems = append(f.Problems, fmt.Sprintf("%s left out: %v", MapsFile, err))
