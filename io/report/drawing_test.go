@@ -133,6 +133,40 @@ func TestFigureFileHoldsTheReportDrawing(t *testing.T) {
 	}
 }
 
+// A figure file drawn in the image of a figure drawn before (filesOf
+// gives each goroutine one image) is the file drawn in a fresh image, byte
+// for byte: every figure after every other, the earlier one's pixels left
+// in the image, larger or smaller.
+func TestFigureFileSameInAUsedImage(t *testing.T) {
+	f, err := Load(fixture(t, true))
+	if err != nil {
+		t.Fatal(err)
+	}
+	figs, _ := Figures(f)
+	fresh := map[string][]byte{}
+	for _, fig := range figs {
+		_, png, _, err := standalone(fig, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		fresh[fig.ID] = png
+	}
+	if len(figs) < 2 {
+		t.Fatalf("%d figures: nothing to compare", len(figs))
+	}
+	for _, before := range figs {
+		for _, fig := range figs {
+			_, _, pix, err := standalone(before, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if _, png, _, err := standalone(fig, pix); err != nil || !bytes.Equal(png, fresh[fig.ID]) {
+				t.Errorf("%s drawn after %s differs from %s drawn alone (%v)", fig.ID, before.ID, fig.ID, err)
+			}
+		}
+	}
+}
+
 // encodePNG's files decode, with Go's image/png (a reference decoder of
 // the PNG specification, ISO/IEC 15948), to the very pixels encoded: an
 // opaque picture with runs, gradients (the Up filter's differences wrap
@@ -313,7 +347,7 @@ func TestMapsReachTheirCanvases(t *testing.T) {
 	for i := range src.Pix {
 		src.Pix[i] = uint8(i * 30)
 	}
-	pc, img := rasterCanvas(20*pixelColumn, 10*pixelColumn)
+	pc, img := rasterCanvas(20*pixelColumn, 10*pixelColumn, nil)
 	c := draw.Canvas{Canvas: pc, Rectangle: vg.Rectangle{Max: vg.Point{X: 20 * pixelColumn, Y: 10 * pixelColumn}}}
 	if got := baseCanvas(draw.Crop(draw.Crop(c, 1, 0, 0, 0), 0, 0, 1, 0)); got != vg.Canvas(pc) {
 		t.Fatalf("under two crops the canvas is a %T, want the pixel canvas", got)

@@ -47,8 +47,11 @@ func filesOf(figs []Figure) (map[string][]byte, []string) {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
+			// One image for all the figures this goroutine draws: a fresh
+			// 2.4 MB image per figure costs its pages' first touch.
+			var pix []byte
 			for i := range next {
-				res[i].svg, res[i].pngb, res[i].err = standalone(figs[i])
+				res[i].svg, res[i].pngb, pix, res[i].err = standalone(figs[i], pix)
 			}
 		}()
 	}
@@ -79,8 +82,9 @@ const legendRowH = 0.55 * vg.Centimeter
 
 // standalone gives a figure's files: the SVG is the report's drawing with
 // the legend under it (standaloneSVG), the PNG a drawing of both at
-// FigureDPI.
-func standalone(fig Figure) (svg, pngb []byte, err error) {
+// FigureDPI. The PNG is drawn in pix when it is large enough (its content
+// does not matter); the pixels drawn are returned for the next figure.
+func standalone(fig Figure, pix []byte) (svg, pngb, pixOut []byte, err error) {
 	defer func() {
 		if e := recover(); e != nil {
 			err = fmt.Errorf("drawing failed: %v", e)
@@ -91,11 +95,11 @@ func standalone(fig Figure) (svg, pngb []byte, err error) {
 	rows := (len(fig.Legend) + perRow - 1) / perRow
 	legH := vg.Length(rows) * legendRowH
 	if svg, err = standaloneSVG(fig, perRow, legH); err != nil {
-		return nil, nil, err
+		return nil, nil, pix, err
 	}
 	// The canvas starts white, so the plots' own white backgrounds are not
 	// filled again (a fill of the whole picture each).
-	ic, rgba := rasterCanvas(d.w, d.h+legH)
+	ic, rgba := rasterCanvas(d.w, d.h+legH, pix)
 	c := draw.Canvas{Canvas: ic, Rectangle: vg.Rectangle{Max: vg.Point{X: d.w, Y: d.h + legH}}}
 	// The raster font has no superscript minus: "cm⁻¹" would print as
 	// "cm¹". Axis texts are written "cm-1" in the PNG only.
@@ -107,9 +111,9 @@ func standalone(fig Figure) (svg, pngb []byte, err error) {
 	drawLegend(c, fig.Legend, perRow, d.w)
 	var pb bytes.Buffer
 	if err := encodePNG(&pb, rgba); err != nil {
-		return nil, nil, err
+		return nil, nil, rgba.Pix, err
 	}
-	return svg, pb.Bytes(), nil
+	return svg, pb.Bytes(), rgba.Pix, nil
 }
 
 // rasterCanvas is a white FigureDPI canvas for a drawing w × h, drawing
@@ -117,10 +121,17 @@ func standalone(fig Figure) (svg, pngb []byte, err error) {
 // and then a copy of it for its drawing context (gg.NewContextForImage):
 // two 2.4 MB images a figure, a tenth of the figure files' time. The
 // context is set up as NewWith sets up its own (butt line caps, y up).
-// The image is the size NewWith gives (w and h in pixels, rounded).
-func rasterCanvas(w, h vg.Length) (*pixelCanvas, *image.RGBA) {
+// The image is the size NewWith gives (w and h in pixels, rounded); it is
+// drawn in pix when that is large enough (NewWith paints it all white).
+func rasterCanvas(w, h vg.Length, pix []byte) (*pixelCanvas, *image.RGBA) {
 	px := func(l vg.Length) int { return int(l/vg.Inch*FigureDPI + 0.5) }
-	img := image.NewRGBA(image.Rect(0, 0, px(w), px(h)))
+	r := image.Rect(0, 0, px(w), px(h))
+	var img *image.RGBA
+	if n := 4 * r.Dx() * r.Dy(); cap(pix) >= n {
+		img = &image.RGBA{Pix: pix[:n], Stride: 4 * r.Dx(), Rect: r}
+	} else {
+		img = image.NewRGBA(r)
+	}
 	ctx := gg.NewContextForRGBA(img)
 	ctx.SetLineCapButt()
 	ctx.InvertY()

@@ -137,7 +137,7 @@ func addLine(p *plot.Plot, x, y []float64, c color.RGBA, width float64, dash []f
 				return err
 			}
 			l.Color, l.Width, l.Dashes = c, vg.Points(width), lengths(dash)
-			p.Add(edgeLine{l})
+			p.Add(edgeLine{Line: l, boxes: &glyphBoxCache{}})
 		} else if len(seg) == 1 {
 			addPoints(p, seg, c, false)
 		}
@@ -162,9 +162,36 @@ func addLine(p *plot.Plot, x, y []float64, c color.RGBA, width float64, dash []f
 // the axes and pads for the outermost one in each direction, and as all are
 // the same size only the points at the least and greatest x and y inside
 // the axes decide it. The padding, and so every byte drawn, is the same.
-type edgeLine struct{ *plotter.Line }
+// The plot asks four times a drawing (padding each axis, and the data area
+// for both), and a figure is drawn twice (report and PNG file) with the
+// same axes: the boxes are kept for the axes' ranges they were found for.
+type edgeLine struct {
+	*plotter.Line
+	boxes *glyphBoxCache
+}
+
+// glyphBoxCache is an edgeLine's glyph boxes for one plot and axis ranges.
+type glyphBoxCache struct {
+	plt   *plot.Plot
+	rng   [4]float64 // x min, x max, y min, y max
+	boxes []plot.GlyphBox
+}
 
 func (l edgeLine) GlyphBoxes(plt *plot.Plot) []plot.GlyphBox {
+	// The boxes depend on the points (fixed once added) and on the axes'
+	// normalization: the plot's scales (set before it is drawn) and ranges.
+	rng := [4]float64{plt.X.Min, plt.X.Max, plt.Y.Min, plt.Y.Max}
+	if c := l.boxes; c != nil && c.plt == plt && c.rng == rng {
+		return slices.Clone(c.boxes)
+	}
+	boxes := l.glyphBoxes(plt)
+	if l.boxes != nil {
+		*l.boxes = glyphBoxCache{plt: plt, rng: rng, boxes: slices.Clone(boxes)}
+	}
+	return boxes
+}
+
+func (l edgeLine) glyphBoxes(plt *plot.Plot) []plot.GlyphBox {
 	r := 0.5 * l.LineStyle.Width
 	if !(r > 0) {
 		return nil // boxes of no size never pad

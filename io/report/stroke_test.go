@@ -7,6 +7,8 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
 )
@@ -59,10 +61,10 @@ func TestStrokeLinesAsTheDrawingContext(t *testing.T) {
 				lines = append(lines, walk(n, k%2 == 1))
 			}
 			t.Run(fmt.Sprintf("style %d, %d points", k, n), func(t *testing.T) {
-				want, wantImg := rasterCanvas(w, h)
+				want, wantImg := rasterCanvas(w, h, nil)
 				wc := draw.New(want)
 				wc.StrokeLines(sty, lines...)
-				got, gotImg := rasterCanvas(w, h)
+				got, gotImg := rasterCanvas(w, h, nil)
 				got.strokeLines(draw.New(got), sty, lines)
 				if !bytes.Equal(gotImg.Pix, wantImg.Pix) {
 					diff := 0
@@ -77,6 +79,70 @@ func TestStrokeLinesAsTheDrawingContext(t *testing.T) {
 					t.Errorf("nothing drawn: the comparison would show nothing")
 				}
 			})
+		}
+	}
+}
+
+// refLine is an edgeLine whose glyph boxes are gonum/plot's own for a line
+// (plotter.Line: one per point), the reference for edgeLine's four.
+type refLine struct{ edgeLine }
+
+func (l refLine) GlyphBoxes(plt *plot.Plot) []plot.GlyphBox { return l.Line.GlyphBoxes(plt) }
+
+// edgeLine's glyph boxes pad the plot as gonum/plot's boxes for the same
+// line do: a plot of lines drawn with each gives the same SVG bytes, drawn
+// again (the boxes kept) and after the axes' ranges change (lines then
+// partly outside them), on a forward and an inverted x axis.
+func TestEdgeLineBoxesPadAsTheLines(t *testing.T) {
+	rng := rand.New(rand.NewPCG(11, 12))
+	var lines []*plotter.Line
+	for range 3 {
+		xy := make(plotter.XYs, 500)
+		for i := range xy {
+			xy[i] = plotter.XY{X: float64(i) + rng.Float64(), Y: rng.NormFloat64() * 40}
+		}
+		l, err := plotter.NewLine(xy)
+		if err != nil {
+			t.Fatal(err)
+		}
+		l.Width = vg.Points(1 + 5*rng.Float64()) // boxes half the width: wide enough to pad visibly
+		lines = append(lines, l)
+	}
+	build := func(ref, inverted bool) *plot.Plot {
+		p := newPlot("x", "y")
+		if inverted {
+			p.X.Scale = plot.InvertedScale{Normalizer: plot.LinearScale{}}
+		}
+		for _, l := range lines {
+			e := edgeLine{Line: l, boxes: &glyphBoxCache{}}
+			if ref {
+				p.Add(refLine{e})
+			} else {
+				p.Add(e)
+			}
+		}
+		return p
+	}
+	svg := func(p *plot.Plot) string {
+		s, _, err := render(p, nil, figW, figH)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return s
+	}
+	for _, inverted := range []bool{false, true} {
+		got, want := build(false, inverted), build(true, inverted)
+		for step, change := range []func(p *plot.Plot){
+			func(*plot.Plot) {},
+			func(*plot.Plot) {},
+			func(p *plot.Plot) { p.X.Min, p.X.Max = 100, 420 },
+			func(p *plot.Plot) { p.Y.Min, p.Y.Max = -30, 25 },
+		} {
+			change(got)
+			change(want)
+			if svg(got) != svg(want) {
+				t.Errorf("inverted %v, drawing %d: the plot is padded otherwise than with the line's own boxes", inverted, step)
+			}
 		}
 	}
 }
