@@ -303,26 +303,38 @@ type thinPolygon struct{ *plotter.Polygon }
 
 func (pg thinPolygon) Plot(c draw.Canvas, plt *plot.Plot) {
 	trX, trY := plt.Transforms(&c)
-	var pa vg.Path
+	var rings [][]vg.Point
 	for _, ring := range pg.XYs {
 		ps := make([]vg.Point, len(ring))
 		for i, p := range ring {
 			ps[i] = vg.Point{X: trX(p.X), Y: trY(p.Y)}
 		}
-		ps = c.ClipPolygonXY(thin(ps))
-		if len(ps) == 0 {
-			continue
+		if ps = c.ClipPolygonXY(thin(ps)); len(ps) > 0 {
+			rings = append(rings, ps)
 		}
+	}
+	if pg.Color == nil || len(rings) == 0 {
+		return
+	}
+	c.SetColor(pg.Color)
+	if pc, ok := baseCanvas(c).(*pixelCanvas); ok {
+		pc.fillRings(rings, pg.Color)
+		return
+	}
+	c.Fill(ringsPath(rings))
+}
+
+// ringsPath is the path of closed polygons.
+func ringsPath(rings [][]vg.Point) vg.Path {
+	var pa vg.Path
+	for _, ps := range rings {
 		pa.Move(ps[0])
 		for _, p := range ps[1:] {
 			pa.Line(p)
 		}
 		pa.Close()
 	}
-	if pg.Color != nil && len(pa) > 0 {
-		c.SetColor(pg.Color)
-		c.Fill(pa)
-	}
+	return pa
 }
 
 func addPoints(p *plot.Plot, xy plotter.XYs, c color.RGBA, hollow bool) {

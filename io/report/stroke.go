@@ -25,10 +25,11 @@ import (
 // Why a band's pixels are the same: the rasterizer gives a pixel the area
 // under the outline in the pixel's own cell plus the cover (the signed
 // height crossed) of every cell to its left in the row. A band is stroked
-// with the runs of segments that come within bandMargin of it; what the
-// whole line has beyond a run's ends is a chain of outline lying wholly to
-// the left (or right) of the band, and in place of it the band's stroke has
-// the run's butt cap, a chain between the same two points. Two chains
+// with the runs of segments that come within half the line width and two
+// pixels of it; what the whole line has beyond a run's ends is a chain of
+// outline lying wholly to the left (or right) of the band, and in place of
+// it the band's stroke has the run's butt cap, a chain between the same
+// two points. Two chains
 // between the same points cross every row by the same height, and cells
 // wholly to the left of the band add only their cover to the band's pixels,
 // so the band's pixels get the same sums; cells to the right never reach
@@ -260,6 +261,126 @@ func (pc *pixelCanvas) rasterizeStroke(path ftraster.Path, width fixed.Int26_6, 
 	r.AddStroke(path, width, ftraster.ButtCapper, ftraster.RoundJoiner)
 	// The context's painter for a solid colour, on the band's columns only
 	// (it paints nothing outside its image's bounds).
+	painter.Image = pc.img.SubImage(clip).(*image.RGBA)
+	r.Rasterize(painter)
+}
+
+// fillRings fills the closed polygons rings (canvas coordinates) in colour
+// as the drawing context fills a path of them (non-zero winding, one fill),
+// a band of bandColumns pixel columns at a time, for the same reason and
+// with the same pixels as strokeLines (tested against the context). A
+// band's path is each ring's runs of edges that come within two pixels of
+// it, joined by chords: the edges a chord stands for lie wholly to one
+// side of the band, as does the chord, and both go from the same point to
+// the same point, so they cross every row by the same height.
+func (pc *pixelCanvas) fillRings(rings [][]vg.Point, colour color.Color) {
+	dpi := pc.DPI()
+	var fixedRings [][]fixed.Point26_6
+	lo, hi := fixed.Int26_6(math.MaxInt32), fixed.Int26_6(math.MinInt32)
+	for _, ring := range rings {
+		if len(ring) == 0 {
+			continue
+		}
+		pts := make([]fixed.Point26_6, len(ring))
+		for i, p := range ring {
+			x, y := pc.ctx.TransformPoint(p.X.Dots(dpi), p.Y.Dots(dpi))
+			pts[i] = gg.Point{X: x, Y: y}.Fixed()
+			lo, hi = min(lo, pts[i].X), max(hi, pts[i].X)
+		}
+		fixedRings = append(fixedRings, pts)
+	}
+	if len(fixedRings) == 0 {
+		return
+	}
+	if colour == nil {
+		colour = color.Black
+	}
+	painter := ftraster.NewRGBAPainter(pc.img)
+	painter.SetColor(colour)
+	w, h := pc.img.Rect.Dx(), pc.img.Rect.Dy()
+	// The cells an edge touches lie within its x extent and the pixel
+	// either side (26.6 coordinates are cut to pixels toward zero).
+	const margin = 2 * 64
+	first := max(0, int((lo-margin)>>6)/bandColumns)
+	last := min((w-1)/bandColumns, int((hi+margin)>>6)/bandColumns)
+	if last-first < 2 {
+		var p ftraster.Path
+		for _, ring := range fixedRings {
+			p.Start(ring[0])
+			for _, q := range ring[1:] {
+				p.Add1(q)
+			}
+			p.Add1(ring[0])
+		}
+		pc.rasterizeFill(p, painter, image.Rect(0, 0, w, h))
+		return
+	}
+	for b := first; b <= last; b++ {
+		x0, x1 := b*bandColumns, min(w, (b+1)*bandColumns)
+		from, to := fixed.Int26_6(x0*64)-margin, fixed.Int26_6(x1*64)+margin
+		var p ftraster.Path
+		for _, ring := range fixedRings {
+			bandRing(&p, ring, from, to)
+		}
+		pc.rasterizeFill(p, painter, image.Rect(x0, 0, x1, h))
+	}
+}
+
+// bandRing adds to p the closed ring's edges whose x extent meets
+// [from, to], the runs between them joined by chords; nothing when no edge
+// does (the ring then lies wholly to one side).
+func bandRing(p *ftraster.Path, ring []fixed.Point26_6, from, to fixed.Int26_6) {
+	n := len(ring)
+	near := func(k int) bool { // edge k: ring[k] → ring[k+1], the last one closing
+		a, b := ring[k], ring[(k+1)%n]
+		return max(a.X, b.X) >= from && min(a.X, b.X) <= to
+	}
+	// Start at a near edge that follows a far one (or at any near edge
+	// when all are near), so that the walk around the ring begins a run.
+	start := -1
+	for k := range n {
+		if near(k) {
+			if start < 0 {
+				start = k
+			}
+			if !near((k + n - 1) % n) {
+				start = k
+				break
+			}
+		}
+	}
+	if start < 0 {
+		return
+	}
+	p.Start(ring[start])
+	for k, walked := start, 0; walked < n; {
+		if near(k) {
+			k, walked = (k+1)%n, walked+1
+			p.Add1(ring[k])
+			continue
+		}
+		// Far edges up to the next near one (the first, at the latest):
+		// one chord from where they start to where they end.
+		for !near(k) {
+			k, walked = (k+1)%n, walked+1
+		}
+		p.Add1(ring[k])
+	}
+}
+
+// rasterizeFill fills path (non-zero winding) and paints its pixels inside
+// clip.
+func (pc *pixelCanvas) rasterizeFill(path ftraster.Path, painter *ftraster.RGBAPainter, clip image.Rectangle) {
+	if len(path) == 0 {
+		return
+	}
+	if pc.ras == nil {
+		pc.ras = ftraster.NewRasterizer(pc.img.Rect.Dx(), pc.img.Rect.Dy())
+	}
+	r := pc.ras
+	r.UseNonZeroWinding = true
+	r.Clear()
+	r.AddPath(path)
 	painter.Image = pc.img.SubImage(clip).(*image.RGBA)
 	r.Rasterize(painter)
 }

@@ -146,3 +146,62 @@ func TestEdgeLineBoxesPadAsTheLines(t *testing.T) {
 		}
 	}
 }
+
+// Shaded bands are filled in bands of pixel columns (pixelCanvas.fillRings)
+// with the pixels of the drawing context's own fill of the same path
+// (gg v0.7.0, the reference as above), byte for byte: bands between two
+// random walks across the figure (an upper edge forward, a lower one
+// back), several in one path and overlapping, rings turning back in x,
+// small and off the image, in opaque and translucent colours.
+func TestFillRingsAsTheDrawingContext(t *testing.T) {
+	rng := rand.New(rand.NewPCG(13, 14))
+	w, h := figW, figH
+	band := func(n int, turning bool) []vg.Point {
+		ring := make([]vg.Point, 2*n)
+		x, y := -w/50, h*vg.Length(0.2+0.6*rng.Float64())
+		for i := range n {
+			dx := w / vg.Length(n) * vg.Length(1+0.5*rng.NormFloat64())
+			if turning && rng.IntN(6) == 0 {
+				dx = -dx
+			}
+			x += dx
+			y += vg.Length(rng.NormFloat64()) * h / 40
+			thick := vg.Length(rng.Float64()) * h / 10
+			if rng.IntN(10) == 0 {
+				thick = -thick // the edges cross: a twisted ring
+			}
+			ring[i] = vg.Point{X: x, Y: y + thick}
+			ring[2*n-1-i] = vg.Point{X: x, Y: y - thick}
+		}
+		return ring
+	}
+	for k, colour := range []color.Color{tint(componentColour(0), 0.72), color.RGBA{R: 90, G: 20, B: 20, A: 120}, nil} {
+		for _, n := range []int{2, 30, 900} {
+			var rings [][]vg.Point
+			for range 1 + n%4 {
+				rings = append(rings, band(n, k == 1))
+			}
+			rings = append(rings, []vg.Point{{X: w / 2, Y: h / 2}, {X: w/2 + 3, Y: h / 2}, {X: w / 2, Y: h/2 + 3}})
+			t.Run(fmt.Sprintf("colour %d, %d points", k, n), func(t *testing.T) {
+				want, wantImg := rasterCanvas(w, h, nil)
+				wc := draw.New(want)
+				wc.SetColor(colour)
+				wc.Fill(ringsPath(rings))
+				got, gotImg := rasterCanvas(w, h, nil)
+				got.fillRings(rings, colour)
+				if !bytes.Equal(gotImg.Pix, wantImg.Pix) {
+					diff := 0
+					for i := range gotImg.Pix {
+						if gotImg.Pix[i] != wantImg.Pix[i] {
+							diff++
+						}
+					}
+					t.Errorf("%d of %d bytes differ from the drawing context's fill", diff, len(wantImg.Pix))
+				}
+				if bytes.Equal(wantImg.Pix, bytes.Repeat([]byte{255}, len(wantImg.Pix))) {
+					t.Errorf("nothing drawn: the comparison would show nothing")
+				}
+			})
+		}
+	}
+}
