@@ -436,12 +436,61 @@ func (s *solver) solvePassive(mask uint64, c int, fixedVal []float64) ([]float64
 
 // column solves problem column c and writes it into x.
 func (s *solver) column(c int, x *mat.Dense) error {
+	free, fv := s.loadColumn(c)
+	cur := s.x
+	if err := s.feasibleStart(c, free, fv, cur); err != nil {
+		return err
+	}
+	st := activeSet{passive: free, added: -1}
+	s.warmStart(c, free, fv, cur, &st)
+	tol := s.kktTolerance()
+	limit := 6*s.k + 20
+	for outer := 0; outer < limit; outer++ {
+		if err := s.toPassiveMinimiser(c, fv, cur, limit, &st); err != nil {
+			return err
+		}
+		best := s.mostViolated(free, cur, tol, &st)
+		if best < 0 {
+			for j := 0; j < s.k; j++ {
+				x.Set(j, c, cur[j])
+			}
+			if s.p.Passive != nil {
+				s.p.Passive[c] = st.passive
+			}
+			return nil
+		}
+		st.passive |= 1 << uint(best)
+		st.added = best
+	}
+	return fmt.Errorf("solve column %d (%d passive): %w", c, bits.OnesCount64(st.passive), ErrNotConverged)
+}
+
+// activeSet is where one column's solve stands between its steps.
+type activeSet struct {
+	passive uint64 // the variables off their bound
+	// banned holds variables that were just freed and at once wanted to
+	// turn negative: with nearly collinear components rounding makes the
+	// KKT test and the passive solve disagree, and freeing the same
+	// variable again would cycle. Lawson & Hanson (1974, ch. 23, step 6)
+	// guard against it the same way; the ban lasts until the point moves.
+	banned uint64
+	added  int // the variable the last KKT step freed (−1: none yet)
+	// warm says that s.z holds the solve on passive with multiplier warmMu
+	// (the warm start's): the first passive solve would repeat it (same
+	// set, same right-hand side) and is skipped.
+	warm   bool
+	warmMu float64
+	mu     float64 // the closure's multiplier at the last passive solve
+}
+
+// loadColumn loads column c's right-hand side into s.b and returns the
+// variables free to move and the values of the fixed ones (zero where free).
+func (s *solver) loadColumn(c int) (free uint64, fv []float64) {
 	k := s.k
 	for j := 0; j < k; j++ {
 		s.b[j] = s.p.B.At(j, c)
 	}
 	fixedVal := s.tmp
-	var free uint64
 	for j := 0; j < k; j++ {
 		fixedVal[j] = 0
 		if s.p.FixMask != nil && s.p.FixMask[j] != nil && s.p.FixMask[j][c] {
@@ -450,168 +499,164 @@ func (s *solver) column(c int, x *mat.Dense) error {
 		}
 		free |= 1 << uint(j)
 	}
-	fv := s.fv
+	fv = s.fv
 	copy(fv, fixedVal)
 	s.setFixed(fv)
-	cur := s.x
-	// A feasible start: zero for plain NNLS; for closure, the remaining total
-	// shared evenly over the free variables, which is strictly interior.
+	return free, fv
+}
+
+// feasibleStart writes into cur a feasible start: zero for plain NNLS; for
+// closure, the remaining total shared evenly over the free variables, which
+// is strictly interior.
+func (s *solver) feasibleStart(c int, free uint64, fv, cur []float64) error {
+	k := s.k
 	for j := 0; j < k; j++ {
 		cur[j] = fv[j]
 	}
-	if s.p.Equality != nil {
-		rest := s.total(c)
-		wsum := 0.0
-		for j := 0; j < k; j++ {
-			if free&(1<<uint(j)) != 0 {
-				wsum += s.p.Equality[j]
-			} else {
-				rest -= s.p.Equality[j] * fv[j]
-			}
-		}
-		if wsum == 0 {
-			if math.Abs(rest) > 1e-9*math.Max(1, math.Abs(s.total(c))) {
-				return fmt.Errorf("solve: closure cannot hold: every component is fixed in column %d", c)
-			}
+	if s.p.Equality == nil {
+		return nil
+	}
+	rest := s.total(c)
+	wsum := 0.0
+	for j := 0; j < k; j++ {
+		if free&(1<<uint(j)) != 0 {
+			wsum += s.p.Equality[j]
 		} else {
-			if rest < 0 {
-				rest = 0
-			}
-			for j := 0; j < k; j++ {
-				if free&(1<<uint(j)) != 0 {
-					cur[j] = rest / wsum
-				}
-			}
+			rest -= s.p.Equality[j] * fv[j]
 		}
 	}
-	passive := free
-	// warmMu is the multiplier of the warm start's solve, valid while warm
-	// is set: the first passive solve below would repeat that solve (same
-	// set, same right-hand side) and is skipped, its z still in s.z.
-	warm, warmMu := false, 0.0
-	if s.p.Passive != nil && s.p.Passive[c]&free != 0 {
-		// Warm start: accept the previous passive set if its minimiser is
-		// feasible; the KKT check below decides whether it is optimal.
-		set := s.p.Passive[c] & free
-		if z, m, err := s.solvePassive(set, c, fv); err == nil {
-			feasible := true
-			for j := 0; j < k; j++ {
-				if set&(1<<uint(j)) != 0 && s.nonneg(j) && z[j] < 0 {
-					feasible = false
-					break
-				}
-			}
-			if feasible {
-				copy(cur, z)
-				passive, warm, warmMu = set, true, m
-			}
+	if wsum == 0 {
+		if math.Abs(rest) > 1e-9*math.Max(1, math.Abs(s.total(c))) {
+			return fmt.Errorf("solve: closure cannot hold: every component is fixed in column %d", c)
+		}
+		return nil
+	}
+	if rest < 0 {
+		rest = 0
+	}
+	for j := 0; j < k; j++ {
+		if free&(1<<uint(j)) != 0 {
+			cur[j] = rest / wsum
 		}
 	}
-	// The largest of |b_j| and G_jj; math.Max's order does not matter (it
-	// selects), and a NaN stays NaN as it would there.
+	return nil
+}
+
+// warmStart accepts the previous passive set of column c if its minimiser
+// is feasible; the KKT check decides whether it is optimal.
+func (s *solver) warmStart(c int, free uint64, fv, cur []float64, st *activeSet) {
+	if s.p.Passive == nil || s.p.Passive[c]&free == 0 {
+		return
+	}
+	set := s.p.Passive[c] & free
+	z, m, err := s.solvePassive(set, c, fv)
+	if err != nil {
+		return
+	}
+	for j := 0; j < s.k; j++ {
+		if set&(1<<uint(j)) != 0 && s.nonneg(j) && z[j] < 0 {
+			return
+		}
+	}
+	copy(cur, z)
+	st.passive, st.warm, st.warmMu = set, true, m
+}
+
+// kktTolerance is the gradient a bound variable may have and stay bound:
+// 10⁻¹² of the largest of |b_j| and G_jj (math.Max's order does not matter,
+// it selects, and a NaN stays NaN as it would there).
+func (s *solver) kktTolerance() float64 {
 	scale := s.gDiag
-	for _, v := range s.b[:k] {
+	for _, v := range s.b[:s.k] {
 		if v = math.Abs(v); v > scale || v != v {
 			scale = v
 		}
 	}
-	tol := 1e-12 * math.Max(scale, 1e-300)
-	limit := 6*k + 20
-	mu := 0.0
-	// banned holds variables that were just freed and at once wanted to
-	// turn negative: with nearly collinear components rounding makes the
-	// KKT test and the passive solve disagree, and freeing the same
-	// variable again would cycle. Lawson & Hanson (1974, ch. 23, step 6)
-	// guard against it the same way; the ban lasts until the point moves.
-	var banned uint64
-	added := -1
-	for outer := 0; outer < limit; outer++ {
-		// Inner loop: move toward the passive-set minimiser, dropping the
-		// variables that would turn negative (Lawson & Hanson's step).
-		for inner := 0; ; inner++ {
-			if inner > limit {
-				return fmt.Errorf("solve column %d: %w", c, ErrNotConverged)
-			}
-			z, m, err := s.z, warmMu, error(nil)
-			if !warm {
-				z, m, err = s.solvePassive(passive, c, fv)
-			}
-			warm = false
-			if err != nil {
+	return 1e-12 * math.Max(scale, 1e-300)
+}
+
+// toPassiveMinimiser moves cur toward the passive-set minimiser, dropping
+// the variables that would turn negative (Lawson & Hanson's inner loop),
+// until the minimiser itself is feasible and cur is it.
+func (s *solver) toPassiveMinimiser(c int, fv, cur []float64, limit int, st *activeSet) error {
+	k := s.k
+	for inner := 0; ; inner++ {
+		if inner > limit {
+			return fmt.Errorf("solve column %d: %w", c, ErrNotConverged)
+		}
+		z, m, err := s.z, st.warmMu, error(nil)
+		if !st.warm {
+			z, m, err = s.solvePassive(st.passive, c, fv)
+		}
+		st.warm = false
+		if err != nil {
+			return err
+		}
+		if inner == 0 && st.added >= 0 && s.nonneg(st.added) && z[st.added] <= 0 {
+			st.passive &^= 1 << uint(st.added)
+			st.banned |= 1 << uint(st.added)
+			if z, m, err = s.solvePassive(st.passive, c, fv); err != nil {
 				return err
 			}
-			if inner == 0 && added >= 0 && s.nonneg(added) && z[added] <= 0 {
-				passive &^= 1 << uint(added)
-				banned |= 1 << uint(added)
-				if z, m, err = s.solvePassive(passive, c, fv); err != nil {
-					return err
-				}
-			}
-			mu = m
-			alpha, blocker := 1.0, -1
-			for j := 0; j < k; j++ {
-				if passive&(1<<uint(j)) != 0 && s.nonneg(j) && z[j] < 0 {
-					t := cur[j] / (cur[j] - z[j])
-					if t < alpha {
-						alpha, blocker = t, j
-					}
-				}
-			}
-			if blocker < 0 {
-				if movedFrom(cur, z, passive) {
-					banned = 0
-				}
-				copy(cur, z)
-				break
-			}
-			if alpha > 0 {
-				banned = 0
-			}
-			for j := 0; j < k; j++ {
-				if passive&(1<<uint(j)) != 0 {
-					cur[j] += alpha * (z[j] - cur[j])
-				}
-			}
-			cur[blocker] = 0
-			passive &^= 1 << uint(blocker)
-			for j := 0; j < k; j++ {
-				if passive&(1<<uint(j)) != 0 && s.nonneg(j) && cur[j] <= 0 && z[j] < 0 {
-					cur[j] = 0
-					passive &^= 1 << uint(j)
-				}
-			}
 		}
-		// KKT: the gradient w = b − G x − μ a must be ≤ 0 on the active bounds.
-		best, bestW := -1, tol
+		st.mu = m
+		alpha, blocker := 1.0, -1
 		for j := 0; j < k; j++ {
-			bit := uint64(1) << uint(j)
-			if free&bit == 0 || passive&bit != 0 || banned&bit != 0 {
-				continue
-			}
-			w := s.b[j]
-			for i := 0; i < k; i++ {
-				w -= s.g[j*k+i] * cur[i]
-			}
-			if s.p.Equality != nil {
-				w -= mu * s.p.Equality[j]
-			}
-			if w > bestW {
-				best, bestW = j, w
+			if st.passive&(1<<uint(j)) != 0 && s.nonneg(j) && z[j] < 0 {
+				t := cur[j] / (cur[j] - z[j])
+				if t < alpha {
+					alpha, blocker = t, j
+				}
 			}
 		}
-		if best < 0 {
-			for j := 0; j < k; j++ {
-				x.Set(j, c, cur[j])
+		if blocker < 0 {
+			if movedFrom(cur, z, st.passive) {
+				st.banned = 0
 			}
-			if s.p.Passive != nil {
-				s.p.Passive[c] = passive
-			}
+			copy(cur, z)
 			return nil
 		}
-		passive |= 1 << uint(best)
-		added = best
+		if alpha > 0 {
+			st.banned = 0
+		}
+		for j := 0; j < k; j++ {
+			if st.passive&(1<<uint(j)) != 0 {
+				cur[j] += alpha * (z[j] - cur[j])
+			}
+		}
+		cur[blocker] = 0
+		st.passive &^= 1 << uint(blocker)
+		for j := 0; j < k; j++ {
+			if st.passive&(1<<uint(j)) != 0 && s.nonneg(j) && cur[j] <= 0 && z[j] < 0 {
+				cur[j] = 0
+				st.passive &^= 1 << uint(j)
+			}
+		}
 	}
-	return fmt.Errorf("solve column %d (%d passive): %w", c, bits.OnesCount64(passive), ErrNotConverged)
+}
+
+// mostViolated returns the bound free variable whose gradient w = b − G x − μ a
+// (KKT: w ≤ 0 on the active bounds) is largest above tol, or −1 when none is.
+func (s *solver) mostViolated(free uint64, cur []float64, tol float64, st *activeSet) int {
+	k := s.k
+	best, bestW := -1, tol
+	for j := 0; j < k; j++ {
+		bit := uint64(1) << uint(j)
+		if free&bit == 0 || st.passive&bit != 0 || st.banned&bit != 0 {
+			continue
+		}
+		w := s.b[j]
+		for i := 0; i < k; i++ {
+			w -= s.g[j*k+i] * cur[i]
+		}
+		if s.p.Equality != nil {
+			w -= st.mu * s.p.Equality[j]
+		}
+		if w > bestW {
+			best, bestW = j, w
+		}
+	}
+	return best
 }
 
 // movedFrom reports whether z differs from cur on the passive set.
