@@ -6,14 +6,17 @@
 //
 // Each entry is the same sum as gonum's Dgemm forms it, term by term in
 // ascending order of the inner index, each product rounded before it is added
-// and terms with a zero factor from D skipped, so the results are
-// bit-identical to mat.Dense.Mul (on amd64 without fused multiply–add, the Go
-// toolchain's default). What differs is the loop: gonum calls a vector kernel
-// once per entry of D with a vector of k entries, whose call costs more than
-// the work when k is small (one to ten components); here the k sums of a row
-// are kept in registers four at a time. The work is split into fixed blocks of
-// output rows, each computed by one goroutine in the same order, so the bytes
-// do not depend on GOMAXPROCS.
+// and terms with a zero factor from D skipped (or added, which changes no bit
+// when the other factor is finite: wide.go), so the results are bit-identical
+// to mat.Dense.Mul (on amd64 without fused multiply–add, the Go toolchain's
+// default). What differs is the loop: gonum calls a vector kernel once per
+// entry of D with a vector of k entries, whose call costs more than the work
+// when k is small (one to ten components); here the k sums of a row are kept
+// in registers four at a time, or, on a processor with AVX2 and a finite
+// factor, in the register tiles of widevec.go at every k (four rows by up to
+// twelve columns, one output entry a lane). The work is split into fixed
+// blocks of output rows, each computed by one goroutine in the same order, so
+// the bytes do not depend on GOMAXPROCS.
 package product
 
 import (
@@ -24,10 +27,11 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
-// maxK is the most columns the loops here take; past it the register tiles
-// of wide.go (two rows by three columns, or four rows by twelve columns in
-// ymm registers with AVX2: widevec.go) do the work, which beat gonum's
-// vector kernel there (BenchmarkProducts2000x3001k9, k34).
+// maxK is the most columns the Go loops here take; past it the register
+// tiles of wide.go (two rows by three columns) do the work, which beat
+// gonum's vector kernel there (BenchmarkProducts2000x3001k9, k34). With
+// AVX2 the tiles of widevec.go take every k: at 58 × 6950 by 1–8 columns
+// they ran 3–10 times faster than the loops here.
 const maxK = 8
 
 // minWork is the number of multiply–adds below which a product runs on the
@@ -51,16 +55,27 @@ func MulTo(out, a, b *mat.Dense) {
 	if on, ok := out.Dims(); bm != m || on != n || ok != k {
 		panic(mat.ErrShape)
 	}
-	if k > maxK {
-		if !wideOK(b) {
+	if k > maxK || haveAVX2 {
+		if wideOK(b) {
+			out.Zero()
+			mulWide(out, a, b)
+			return
+		}
+		if k > maxK {
 			out.Mul(a, b)
 			return
 		}
-		out.Zero()
-		mulWide(out, a, b)
-		return
 	}
 	out.Zero()
+	mulSmall(out, a, b)
+}
+
+// mulSmall is MulTo for k ≤ maxK in Go, skipping the terms whose factor from
+// a is zero as gonum does: the path without AVX2, and with it when b has an
+// entry that is not finite.
+func mulSmall(out, a, b *mat.Dense) {
+	n, m := a.Dims()
+	_, k := b.Dims()
 	ra, rb, ro := a.RawMatrix(), b.RawMatrix(), out.RawMatrix()
 	// Blocks of the inner index small enough that their rows of b stay in
 	// cache while a block of rows of a passes over them; the sums carry on
@@ -184,16 +199,25 @@ func MulTTo(out, a, b *mat.Dense) {
 	if om, ok := out.Dims(); bn != n || om != m || ok != k {
 		panic(mat.ErrShape)
 	}
-	if k > maxK {
-		if !wideOK(b) {
+	if k > maxK || haveAVX2 {
+		if wideOK(b) {
+			out.Zero()
+			mulTWide(out, a, b)
+			return
+		}
+		if k > maxK {
 			out.Mul(a.T(), b)
 			return
 		}
-		out.Zero()
-		mulTWide(out, a, b)
-		return
 	}
 	out.Zero()
+	mulTSmall(out, a, b)
+}
+
+// mulTSmall is MulTTo for k ≤ maxK in Go (see mulSmall).
+func mulTSmall(out, a, b *mat.Dense) {
+	n, m := a.Dims()
+	_, k := b.Dims()
 	ra, rb, ro := a.RawMatrix(), b.RawMatrix(), out.RawMatrix()
 	// Blocks of output rows (columns of a) small enough that their k sums
 	// stay in cache while every row of a passes over them.

@@ -1,6 +1,7 @@
 package product
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"runtime"
@@ -79,20 +80,26 @@ func TestProductsEqualGonumBitForBit(t *testing.T) {
 	}
 }
 
-// A factor with an infinite or NaN entry takes gonum's loops: there the
-// terms whose entry of a is zero are skipped, 0·Inf is not formed, and the
+// A factor with an infinite or NaN entry takes loops that skip the terms
+// whose entry of a is zero, as gonum's do: 0·Inf is not formed, and the
 // products must still be gonum's (NaN where gonum has NaN).
-func TestWideProductsWithNonFiniteFactor(t *testing.T) {
+// At three columns that is the Go loop of product.go (mulSmall), at twelve
+// gonum's own.
+func TestProductsWithNonFiniteFactor(t *testing.T) {
 	rng := rand.New(rand.NewPCG(3, 5))
 	a := randomDense(rng, 40, 50)
-	for _, bad := range []float64{math.Inf(1), math.NaN()} {
-		b := randomDense(rng, 50, 12)
-		b.Set(7, 3, bad)
+	for _, tc := range []struct {
+		bad float64
+		k   int
+	}{{math.Inf(1), 12}, {math.NaN(), 12}, {math.Inf(-1), 3}, {math.NaN(), 3}} {
+		bad := tc.bad
+		b := randomDense(rng, 50, tc.k)
+		b.Set(7, 2, bad)
 		var want mat.Dense
 		want.Mul(a, b)
 		got := Mul(a, b)
-		c := randomDense(rng, 40, 12)
-		c.Set(9, 4, bad)
+		c := randomDense(rng, 40, tc.k)
+		c.Set(9, 1, bad)
 		var wantT mat.Dense
 		wantT.Mul(a.T(), c)
 		gotT := MulT(a, c)
@@ -105,7 +112,7 @@ func TestWideProductsWithNonFiniteFactor(t *testing.T) {
 				for j := 0; j < cc; j++ {
 					g, w := pr.got.At(i, j), pr.want.At(i, j)
 					if math.IsNaN(w) != math.IsNaN(g) || (!math.IsNaN(w) && math.Float64bits(g) != math.Float64bits(w)) {
-						t.Fatalf("%s with %v in the factor: entry (%d, %d) = %v, gonum's Dgemm gives %v", pr.what, bad, i, j, g, w)
+						t.Fatalf("%s with %v in a factor of %d columns: entry (%d, %d) = %v, gonum's Dgemm gives %v", pr.what, bad, tc.k, i, j, g, w)
 					}
 				}
 			}
@@ -116,6 +123,35 @@ func TestWideProductsWithNonFiniteFactor(t *testing.T) {
 // benchOne runs f b.N times and reports, besides the wall time, the
 // process CPU time per run (getrusage), the figure that stays honest on a
 // shared machine.
+// The Go loops for one to eight columns (mulSmall, mulTSmall), which a
+// processor with AVX2 takes only when a factor is not finite, must give
+// gonum's mat.Dense.Mul bit for bit on their own too: odd shapes, sub-matrix
+// views, sizes past the blocks of the inner index and the parallel split, at
+// GOMAXPROCS 1 and 2.
+func TestSmallPathEqualsGonumBitForBit(t *testing.T) {
+	rng := rand.New(rand.NewPCG(23, 29))
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	for _, procs := range []int{1, 2} {
+		runtime.GOMAXPROCS(procs)
+		for _, sh := range [][2]int{{1, 1}, {3, 5}, {7, 33}, {58, 695}, {301, 257}} {
+			n, m := sh[0], sh[1]
+			for k := 1; k <= maxK; k++ {
+				a, b, c := view(rng, n, m), view(rng, m, k), view(rng, n, k)
+				var want, wantT mat.Dense
+				want.Mul(a, b)
+				wantT.Mul(a.T(), c)
+				got, _ := zeroView(n, k)
+				gotT, _ := zeroView(m, k)
+				mulSmall(got, a, b)
+				mulTSmall(gotT, a, c)
+				what := fmt.Sprintf("%d × %d by %d columns, GOMAXPROCS %d", n, m, k, procs)
+				sameBits(t, "Go loop a b, "+what, got, &want)
+				sameBits(t, "Go loop aᵀ c, "+what, gotT, &wantT)
+			}
+		}
+	}
+}
+
 func benchOne(b *testing.B, f func()) {
 	c0 := cpuNow()
 	for i := 0; i < b.N; i++ {
@@ -141,12 +177,13 @@ func benchShapes(b *testing.B, n, m, k int) {
 			o.Mul(a.T(), c)
 		})
 	})
+	// The Go loops, the path without AVX2, in the same run.
+	mul, mulT := mulWideGo, mulTWideGo
 	if k <= maxK {
-		return
+		mul, mulT = mulSmall, mulTSmall
 	}
-	// The Go loops of wide.go, the path without AVX2, in the same run.
-	b.Run("Mul-go", func(b *testing.B) { benchOne(b, func() { mulWideGo(mat.NewDense(n, k, nil), a, s) }) })
-	b.Run("MulT-go", func(b *testing.B) { benchOne(b, func() { mulTWideGo(mat.NewDense(m, k, nil), a, c) }) })
+	b.Run("Mul-go", func(b *testing.B) { benchOne(b, func() { mul(mat.NewDense(n, k, nil), a, s) }) })
+	b.Run("MulT-go", func(b *testing.B) { benchOne(b, func() { mulT(mat.NewDense(m, k, nil), a, c) }) })
 }
 
 // The ATR series' shape with two components, the benchmark's with five

@@ -17,9 +17,38 @@ func view(rng *rand.Rand, r, c int) *mat.Dense {
 	return randomDense(rng, r+2, c+3).Slice(1, r+1, 1, c+1).(*mat.Dense)
 }
 
-// zeroView is view with every entry zero, for a result written in place.
-func zeroView(r, c int) *mat.Dense {
-	return mat.NewDense(r+2, c+5, nil).Slice(1, r+1, 2, c+2).(*mat.Dense)
+// zeroView is an r × c result of zeros, for a product written in place,
+// inside a larger matrix (the one returned with it) whose other entries are
+// a mark, border.
+func zeroView(r, c int) (v, parent *mat.Dense) {
+	parent = mat.NewDense(r+2, c+5, nil)
+	for i := 0; i < r+2; i++ {
+		for j := 0; j < c+5; j++ {
+			parent.Set(i, j, border)
+		}
+	}
+	v = parent.Slice(1, r+1, 2, c+2).(*mat.Dense)
+	v.Zero()
+	return v, parent
+}
+
+// border marks the entries around a result (zeroView).
+const border = -1234.5
+
+// untouchedAround fails unless every entry of parent (from zeroView) outside
+// its view is still the mark: a tile must not store past its columns or
+// rows.
+func untouchedAround(t *testing.T, what string, parent *mat.Dense) {
+	t.Helper()
+	pr, pc := parent.Dims()
+	for i := 0; i < pr; i++ {
+		for j := 0; j < pc; j++ {
+			inside := i >= 1 && i < pr-1 && j >= 2 && j < pc-3
+			if !inside && parent.At(i, j) != border {
+				t.Fatalf("%s: wrote %v outside the result, at (%d, %d) of the matrix under it", what, parent.At(i, j), i-1, j-2)
+			}
+		}
+	}
 }
 
 // The wide products, each path on its own (the AVX2 tiles of widevec.go and
@@ -29,7 +58,8 @@ func zeroView(r, c int) *mat.Dense {
 // numbers of rows (the rows past a multiple of four take the Go row loop)
 // and inner lengths, on sub-matrix views for every operand, and at sizes that
 // cross the blocks of the inner index, the bands of output rows and the
-// parallel split, at GOMAXPROCS 1, 2 and 3. gonum skips the terms whose
+// parallel split, at GOMAXPROCS 1, 2 and 3; nothing outside the result may
+// be written. gonum skips the terms whose
 // factor from a is zero and the paths here add them (randomDense has zeros):
 // the bits agree because the other factor is finite (wide.go).
 func TestWidePathsEqualGonumBitForBit(t *testing.T) {
@@ -66,12 +96,14 @@ func TestWidePathsEqualGonumBitForBit(t *testing.T) {
 						continue
 					}
 					what := fmt.Sprintf("%s path, %d × %d by %d columns, GOMAXPROCS %d", p.name, sh.n, sh.m, k, procs)
-					got := zeroView(sh.n, k)
+					got, under := zeroView(sh.n, k)
 					p.mul(got, a, b)
 					sameBits(t, "a b, "+what, got, &want)
-					gotT := zeroView(sh.m, k)
+					untouchedAround(t, "a b, "+what, under)
+					gotT, underT := zeroView(sh.m, k)
 					p.mtt(gotT, a, c)
 					sameBits(t, "aᵀ c, "+what, gotT, &wantT)
+					untouchedAround(t, "aᵀ c, "+what, underT)
 				}
 			}
 		}

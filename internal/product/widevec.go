@@ -7,49 +7,18 @@ import "gonum.org/v1/gonum/mat"
 // entry. Across the lanes the sums are independent, so each entry is still
 // the scalar sum of the Go loops and of gonum's Dgemm, term by term in
 // ascending order of the inner index, each product rounded before it is
-// added. The columns are taken four at a time; when k is not a multiple of
-// four, the factor b and the result are copied to and from buffers whose
-// rows are padded with zeros to the next multiple (the padding lanes are
-// computed and dropped). Rows past the last multiple of four take the Go
+// added. The columns past the last multiple of twelve take a tile of
+// twelve, eight or four columns whose last group of four is loaded and
+// stored under a mask (VMASKMOVPD), so that no padded copy of b or of the
+// result is needed; rows past the last multiple of four take the Go row
 // loop mulRow, the same sums.
 
-// padded returns the entries of the r × k matrix m with its rows widened to
-// kp ≥ k columns (zeros after the k-th) and their stride: m's own memory
-// when kp = k.
-func padded(m *mat.Dense, kp int) ([]float64, int) {
-	raw := m.RawMatrix()
-	if raw.Cols == kp {
-		return raw.Data, raw.Stride
-	}
-	d := make([]float64, raw.Rows*kp)
-	for i := 0; i < raw.Rows; i++ {
-		copy(d[i*kp:i*kp+raw.Cols], raw.Data[i*raw.Stride:i*raw.Stride+raw.Cols])
-	}
-	return d, kp
-}
-
-// unpad copies the first k columns of the padded rows d (stride kp) into
-// out.
-func unpad(out *mat.Dense, d []float64, kp int) {
-	raw := out.RawMatrix()
-	if &raw.Data[0] == &d[0] {
-		return
-	}
-	for i := 0; i < raw.Rows; i++ {
-		copy(raw.Data[i*raw.Stride:i*raw.Stride+raw.Cols], d[i*kp:i*kp+raw.Cols])
-	}
-}
-
 // tileRow4 adds, for four rows of sums o (stride so) and the inner index
-// l = 0…n−1, a_r(l) b(l) over kp columns (a multiple of four) in tiles of
-// 12, 8 or 4 columns.
-func tileRow4(o []float64, so int, a []float64, ar, al int, b []float64, bl, n, kp int) {
-	c := 0
-	for ; c+12 <= kp; c += 12 {
-		tile4(o[c:], so, a, ar, al, b[c:], bl, n, 12)
-	}
-	if w := kp - c; w > 0 {
-		tile4(o[c:], so, a, ar, al, b[c:], bl, n, w)
+// l = 0…n−1, a_r(l) b(l) over k columns in tiles of twelve, the last of
+// one to twelve.
+func tileRow4(o []float64, so int, a []float64, ar, al int, b []float64, bl, n, k int) {
+	for c := 0; c < k; c += 12 {
+		tile4(o[c:], so, a, ar, al, b[c:], bl, n, min(12, k-c))
 	}
 }
 
@@ -57,27 +26,23 @@ func tileRow4(o []float64, so int, a []float64, ar, al int, b []float64, bl, n, 
 func mulWideVec(out, a, b *mat.Dense) {
 	n, m := a.Dims()
 	_, k := b.Dims()
-	kp := (k + 3) &^ 3
-	ra := a.RawMatrix()
-	bd, bs := padded(b, kp)
-	od, os := padded(out, kp)
-	// Blocks of the inner index whose rows of b (blk × kp) stay in the
+	ra, rb, ro := a.RawMatrix(), b.RawMatrix(), out.RawMatrix()
+	// Blocks of the inner index whose rows of b (blk × k) stay in the
 	// cache while the rows of a pass over them, four at a time.
-	blk := max(32, min(m, (1<<13)/kp))
+	blk := max(32, min(m, (1<<13)/k))
 	InBlocks(n, n*m*k, 8, func(i0, i1 int) {
 		for l0 := 0; l0 < m; l0 += blk {
 			l1 := min(l0+blk, m)
-			bb := bd[l0*bs:]
+			bb := rb.Data[l0*rb.Stride:]
 			i := i0
 			for ; i+4 <= i1; i += 4 {
-				tileRow4(od[i*os:], os, ra.Data[i*ra.Stride+l0:], ra.Stride, 1, bb, bs, l1-l0, kp)
+				tileRow4(ro.Data[i*ro.Stride:], ro.Stride, ra.Data[i*ra.Stride+l0:], ra.Stride, 1, bb, rb.Stride, l1-l0, k)
 			}
 			for ; i < i1; i++ {
-				mulRow(od[i*os:i*os+kp], ra.Data[i*ra.Stride+l0:i*ra.Stride+l1], bb, bs, kp)
+				mulRow(ro.Data[i*ro.Stride:i*ro.Stride+k], ra.Data[i*ra.Stride+l0:i*ra.Stride+l1], bb, rb.Stride, k)
 			}
 		}
 	})
-	unpad(out, od, kp)
 }
 
 // mulTWideVec is mulTWideGo on the vector tiles: out (m × k, zero) = aᵀ b.
@@ -87,10 +52,7 @@ func mulWideVec(out, a, b *mat.Dense) {
 func mulTWideVec(out, a, b *mat.Dense) {
 	n, m := a.Dims()
 	_, k := b.Dims()
-	kp := (k + 3) &^ 3
-	ra := a.RawMatrix()
-	bd, bs := padded(b, kp)
-	od, os := padded(out, kp)
+	ra, rb, ro := a.RawMatrix(), b.RawMatrix(), out.RawMatrix()
 	const band = 64  // output rows (columns of a) per band
 	const rows = 128 // rows of a per pass of the tiles
 	InBlocks(m, n*m*k, band, func(j0, j1 int) {
@@ -99,16 +61,16 @@ func mulTWideVec(out, a, b *mat.Dense) {
 			for i0 := 0; i0 < n; i0 += rows {
 				h := min(rows, n-i0)
 				aa := ra.Data[i0*ra.Stride:]
-				bb := bd[i0*bs:]
+				bb := rb.Data[i0*rb.Stride:]
 				j := jb
 				for ; j+4 <= je; j += 4 {
-					tileRow4(od[j*os:], os, aa[j:], 1, ra.Stride, bb, bs, h, kp)
+					tileRow4(ro.Data[j*ro.Stride:], ro.Stride, aa[j:], 1, ra.Stride, bb, rb.Stride, h, k)
 				}
 				for ; j < je; j++ {
-					o := od[j*os : j*os+kp]
+					o := ro.Data[j*ro.Stride : j*ro.Stride+k]
 					for r := 0; r < h; r++ {
 						v := aa[r*ra.Stride+j]
-						for c, w := range bb[r*bs : r*bs+kp] {
+						for c, w := range bb[r*rb.Stride : r*rb.Stride+k] {
 							o[c] += v * w
 						}
 					}
@@ -116,5 +78,4 @@ func mulTWideVec(out, a, b *mat.Dense) {
 			}
 		}
 	})
-	unpad(out, od, kp)
 }
