@@ -748,10 +748,37 @@ func hardSoft(r *Result, data mcr.Data, opt mcr.Options, order []int, log io.Wri
 	if err != nil {
 		return nil, nil, err
 	}
-	last, lastObs := soft, softObs
+	cy := &hardSoftCycles{kn: kn, times: r.Times, last: soft, lastObs: softObs}
+	start, hopt := hardSoftStart(r, cy, opt, order, log)
+	cy.allModel = len(kn.Components) == r.Components
+	hopt.HardModel, hopt.HardKept = cy.model, cy.kept
+	fmt.Fprintf(log, "hard–soft resolution with %s\n", kn.Scheme.Text)
+	data, withBaseline, inner := baselineBack(r, data, &hopt)
+	res, err := mcr.Resolve(data, start, hopt)
+	if err != nil {
+		return nil, nil, fmt.Errorf("hard–soft: %w", err)
+	}
+	if withBaseline != nil && res.Baseline != nil {
+		data = baselineOutAgain(r, res, withBaseline, inner)
+	}
+	if r.Mode == mcr.Reactions {
+		if err := cy.rescaleReactions(res); err != nil {
+			return nil, nil, err
+		}
+	}
+	kn.Fits = []*KineticFit{{Method: "hard-soft", Fit: cy.last, Observed: cy.lastObs}, {Method: "soft-profiles", Fit: soft, Observed: softObs}}
+	r.Kinetics = kn
+	return res, data, nil
+}
+
+// hardSoftStart returns the profiles hard–soft ALS starts from and its options: the soft
+// solution with the options permuted to the map's order, or, when every component is one
+// model column, the data fit's concentrations (or extents) with the options as they are.
+func hardSoftStart(r *Result, cy *hardSoftCycles, opt mcr.Options, order []int, log io.Writer) (*mat.Dense, mcr.Options) {
+	kn := cy.kn
 	hopt := permuteOptions(opt, order)
 	start := r.ALS.C
-	if pre := kn.dataStart(r, soft, opt); pre != nil {
+	if pre := kn.dataStart(r, cy.last, opt); pre != nil {
 		// Every component is one model column: start from the data fit's
 		// concentrations (or extents), the map is the scheme's order.
 		k := len(kn.Components)
@@ -759,108 +786,127 @@ func hardSoft(r *Result, data mcr.Data, opt mcr.Options, order []int, log io.Wri
 			kn.Components[j], kn.Columns[j] = j, j
 		}
 		kn.MapSource = "auto: the " + kn.columnWord() + " in the scheme's order, hard–soft started from the fit of the data matrix"
-		start, last, hopt = pre.Model, pre, opt
+		start, cy.last, hopt = pre.Model, pre, opt
 		fmt.Fprintf(log, "hard–soft starts from the data fit, k = %s\n", kn.kList(pre.K))
 	}
-	// pending is the fit of the iteration under way; ALS says whether it
-	// kept it (HardKept), and only a kept fit becomes last, the start of
-	// the next cycle's fit and the hard–soft fit reported.
-	var pending *kinetics.FitResult
-	var pendingObs *mat.Dense
-	hopt.HardModel = func(c *mat.Dense) (*mat.Dense, error) {
-		obs := kn.observed(c)
-		fit, err := kinetics.FitProfiles(kn.Scheme, r.Times, obs, kn.Columns, kn.warm(last))
-		if err != nil {
-			return nil, err
-		}
-		pending, pendingObs = fit, obs
-		out := mat.DenseCopyOf(c)
-		for j, comp := range kn.Components {
-			out.SetCol(comp, mat.Col(nil, j, fit.Fitted))
-		}
-		return out, nil
-	}
-	allModel := len(kn.Components) == r.Components
-	var settle settling
-	hopt.HardKept = func(kept bool) bool {
-		if !kept || pending == nil {
-			return false
-		}
-		prev := last
-		last, lastObs = pending, pendingObs
-		pending = nil
-		// Only when every component is a model column does the model fix
-		// the whole solution; soft components may still be moving.
-		return allModel && settle.step(prev, last)
-	}
-	fmt.Fprintf(log, "hard–soft resolution with %s\n", kn.Scheme.Text)
-	var withBaseline *mat.Dense
-	var inner mcr.Data // the data as read, when resolve wrapped it
-	if r.BaselineShapes != nil && r.BaselineProfiles != nil {
-		// resolve subtracted the baseline the soft solution came with;
-		// a soft solution stuck in a local minimum takes chemistry into
-		// it. Hard–soft estimates the baseline again, jointly with the
-		// model's profiles, from the data as read.
-		switch d := data.(type) {
-		case mcr.Dense:
-			var bp mat.Dense
-			bp.Mul(r.BaselineProfiles, r.BaselineShapes.T())
-			withBaseline = mat.DenseCopyOf(r.D)
-			withBaseline.Add(withBaseline, &bp)
-			data = mcr.Dense{D: withBaseline}
-			hopt.Baseline = r.BaselineShapes
-		case mcr.LessBaseline:
-			var bp mat.Dense
-			bp.Mul(r.BaselineProfiles, r.BaselineShapes.T())
-			withBaseline = mat.DenseCopyOf(r.D)
-			withBaseline.Add(withBaseline, &bp)
-			inner = d.Data
-			data = d.Data
-			hopt.Baseline = r.BaselineShapes
-		}
-	}
-	res, err := mcr.Resolve(data, start, hopt)
+	return start, hopt
+}
+
+// hardSoftCycles carries the kinetic fits from one hard–soft ALS cycle to the next.
+// pending is the fit of the iteration under way; ALS says whether it kept it
+// (mcr.Options.HardKept), and only a kept fit becomes last, the start of the next
+// cycle's fit and the hard–soft fit reported.
+type hardSoftCycles struct {
+	kn                  *Kinetics
+	times               []float64
+	last, pending       *kinetics.FitResult
+	lastObs, pendingObs *mat.Dense
+	allModel            bool // every component is a model column
+	settle              settling
+}
+
+// model is mcr.Options.HardModel: the mapped profiles replaced by their kinetic fit,
+// warm-started from the last kept one.
+func (cy *hardSoftCycles) model(c *mat.Dense) (*mat.Dense, error) {
+	kn := cy.kn
+	obs := kn.observed(c)
+	fit, err := kinetics.FitProfiles(kn.Scheme, cy.times, obs, kn.Columns, kn.warm(cy.last))
 	if err != nil {
-		return nil, nil, fmt.Errorf("hard–soft: %w", err)
+		return nil, err
 	}
-	if withBaseline != nil && res.Baseline != nil {
-		r.BaselineProfiles = res.Baseline
-		r.D = mcr.SubtractBaseline(withBaseline, res.Baseline, r.BaselineShapes)
-		res.LackOfFitPercent = mcr.LackOfFit(r.D, res.C, res.S)
-		res.ResidualSS = sq(res.LackOfFitPercent/100) * frob2(r.D)
-		res.ExplainedPercent = 100 * (1 - sq(res.LackOfFitPercent/100))
-		data = mcr.Dense{D: r.D}
-		if inner != nil {
-			data = mcr.LessBaseline{Data: inner, B: res.Baseline, P: r.BaselineShapes}
+	cy.pending, cy.pendingObs = fit, obs
+	out := mat.DenseCopyOf(c)
+	for j, comp := range kn.Components {
+		out.SetCol(comp, mat.Col(nil, j, fit.Fitted))
+	}
+	return out, nil
+}
+
+// kept is mcr.Options.HardKept: a kept iteration's fit becomes the last one, and ALS may
+// stop once the fits have settled.
+func (cy *hardSoftCycles) kept(kept bool) bool {
+	if !kept || cy.pending == nil {
+		return false
+	}
+	prev := cy.last
+	cy.last, cy.lastObs = cy.pending, cy.pendingObs
+	cy.pending = nil
+	// Only when every component is a model column does the model fix
+	// the whole solution; soft components may still be moving.
+	return cy.allModel && cy.settle.step(prev, cy.last)
+}
+
+// baselineBack puts the baseline that resolve subtracted back into the data hard–soft
+// fits, with its shapes in hopt: a soft solution stuck in a local minimum takes chemistry
+// into it, so hard–soft estimates it again, jointly with the model's profiles, from the
+// data as read. It returns the data to fit, that data as a matrix (nil when the baseline
+// stays out) and the data as read when resolve wrapped them (nil otherwise).
+func baselineBack(r *Result, data mcr.Data, hopt *mcr.Options) (mcr.Data, *mat.Dense, mcr.Data) {
+	if r.BaselineShapes == nil || r.BaselineProfiles == nil {
+		return data, nil, nil
+	}
+	var withBaseline *mat.Dense
+	var inner mcr.Data
+	switch d := data.(type) {
+	case mcr.Dense:
+		var bp mat.Dense
+		bp.Mul(r.BaselineProfiles, r.BaselineShapes.T())
+		withBaseline = mat.DenseCopyOf(r.D)
+		withBaseline.Add(withBaseline, &bp)
+		data = mcr.Dense{D: withBaseline}
+		hopt.Baseline = r.BaselineShapes
+	case mcr.LessBaseline:
+		var bp mat.Dense
+		bp.Mul(r.BaselineProfiles, r.BaselineShapes.T())
+		withBaseline = mat.DenseCopyOf(r.D)
+		withBaseline.Add(withBaseline, &bp)
+		inner = d.Data
+		data = d.Data
+		hopt.Baseline = r.BaselineShapes
+	}
+	return data, withBaseline, inner
+}
+
+// baselineOutAgain takes hard–soft's own baseline out of the data (withBaseline, from
+// baselineBack) into r.D, gives res its figures on them and returns the data the later
+// steps work on.
+func baselineOutAgain(r *Result, res *mcr.Result, withBaseline *mat.Dense, inner mcr.Data) mcr.Data {
+	r.BaselineProfiles = res.Baseline
+	r.D = mcr.SubtractBaseline(withBaseline, res.Baseline, r.BaselineShapes)
+	res.LackOfFitPercent = mcr.LackOfFit(r.D, res.C, res.S)
+	res.ResidualSS = sq(res.LackOfFitPercent/100) * frob2(r.D)
+	res.ExplainedPercent = 100 * (1 - sq(res.LackOfFitPercent/100))
+	if inner != nil {
+		return mcr.LessBaseline{Data: inner, B: res.Baseline, P: r.BaselineShapes}
+	}
+	return mcr.Dense{D: r.D}
+}
+
+// rescaleReactions rescales the extents as resolve does, and the last cycle's soft
+// profiles with them, so that the hard–soft fit is reported on profiles.csv's scale.
+func (cy *hardSoftCycles) rescaleReactions(res *mcr.Result) error {
+	kn := cy.kn
+	n, _ := res.C.Dims()
+	for j, comp := range kn.Components {
+		mx := 0.0
+		for i := 0; i < n; i++ {
+			mx = math.Max(mx, res.C.At(i, comp))
 		}
-	}
-	if r.Mode == mcr.Reactions {
-		// Rescale as resolve does, and the last cycle's soft profiles with
-		// them, so the hard–soft fit is reported on profiles.csv's scale.
-		n, _ := res.C.Dims()
-		for j, comp := range kn.Components {
-			mx := 0.0
+		if mx > 0 {
 			for i := 0; i < n; i++ {
-				mx = math.Max(mx, res.C.At(i, comp))
-			}
-			if mx > 0 {
-				for i := 0; i < n; i++ {
-					lastObs.Set(i, j, lastObs.At(i, j)/mx)
-				}
+				cy.lastObs.Set(i, j, cy.lastObs.At(i, j)/mx)
 			}
 		}
-		mcr.ScaleExtentsToOne(res.C, res.S)
-		// Refit the rescaled profiles once: per-column scales change the
-		// weights of the columns, so the fit is redone rather than rescaled.
-		fit, err := kinetics.FitProfiles(kn.Scheme, r.Times, lastObs, kn.Columns, kn.warm(last))
-		if err != nil {
-			return nil, nil, fmt.Errorf("hard–soft: final fit: %w", err)
-		}
-		last = fit
 	}
-	kn.Fits = []*KineticFit{{Method: "hard-soft", Fit: last, Observed: lastObs}, {Method: "soft-profiles", Fit: soft, Observed: softObs}}
-	r.Kinetics = kn
-	return res, data, nil
+	mcr.ScaleExtentsToOne(res.C, res.S)
+	// Refit the rescaled profiles once: per-column scales change the
+	// weights of the columns, so the fit is redone rather than rescaled.
+	fit, err := kinetics.FitProfiles(kn.Scheme, cy.times, cy.lastObs, kn.Columns, kn.warm(cy.last))
+	if err != nil {
+		return fmt.Errorf("hard–soft: final fit: %w", err)
+	}
+	cy.last = fit
+	return nil
 }
 
 // settleChange and settleLeft bound when hard–soft ALS has settled: the
