@@ -2,6 +2,7 @@ package report
 
 import (
 	"fmt"
+	"image/color"
 	"math"
 	"runtime"
 	"strings"
@@ -364,53 +365,111 @@ func efaFigure(f *Folder) (*Figure, error) {
 	if t == nil || len(t.Header) < 2 {
 		return nil, nil
 	}
-	xj := -1
+	cols, err := efaColumnsOf(t)
+	if err != nil {
+		return nil, err
+	}
+	x := t.Col(cols.x)
+	val := efaValues(t, cols)
+	xl := "time / s"
+	if h := strings.ToLower(t.Header[cols.x]); !strings.HasPrefix(h, "time") {
+		xl = "spectrum number"
+	}
+	p := newPlot(xl, "log₁₀ singular value")
+	if xl != "spectrum number" {
+		lo, hi := span(x)
+		f.timeAxis(&p.X, lo, hi)
+	}
+	var legend []LegendItem
+	for k, j := range cols.fwd {
+		if err := addLine(p, x, val(j), componentColour(k), 1.2, nil); err != nil {
+			return nil, err
+		}
+	}
+	for k, j := range cols.bwd {
+		if err := addLine(p, x, val(j), componentColour(k), 1.2, []float64{5, 3}); err != nil {
+			return nil, err
+		}
+	}
+	for _, j := range cols.threshold {
+		if err := addLine(p, x, val(j), grey, 0.8, []float64{2, 2}); err != nil {
+			return nil, err
+		}
+	}
+	for k := 0; k < max(len(cols.fwd), len(cols.bwd)); k++ {
+		legend = append(legend, LegendItem{Label: fmt.Sprintf("value %d", k+1), Colour: componentColour(k)})
+	}
+	legend = append(legend, LegendItem{Label: "forward (solid)", Colour: okabeBlack}, LegendItem{Label: "backward (dashed)", Colour: okabeBlack, Dash: []float64{5, 3}})
+	if len(cols.threshold) > 0 {
+		legend = append(legend, LegendItem{Label: "noise level", Colour: grey, Dash: []float64{2, 2}})
+	}
+	svg, dr, err := render(p, nil, figW, figH)
+	if err != nil {
+		return nil, fmt.Errorf("evolving factor analysis: %w", err)
+	}
+	return &Figure{ID: "fig-efa", Title: "Evolving factor analysis", SVG: svg, drawing: dr, Legend: legend,
+		Caption: "Singular values of the first spectra up to each time (forward, solid) and of the last ones from each time on (backward, dashed). A component appears where a new forward value rises out of the noise and disappears where its backward value sinks into it (Gampp et al. 1985; Maeder 1987)."}, nil
+}
+
+// efaColumns are the columns of efa.csv by what their names say.
+type efaColumns struct {
+	x                   int // time, or row number
+	fwd, bwd, threshold []int
+	isLog               bool // the values are log10 singular values already
+}
+
+// efaColumnsOf sorts efa.csv's columns by their names; an error when none is
+// forward or backward.
+func efaColumnsOf(t *Table) (efaColumns, error) {
+	cols := efaColumns{x: -1}
 	for _, n := range []string{"time", "time_s", "row", "spectrum", "index"} {
-		if xj = t.Index(n); xj >= 0 {
+		if cols.x = t.Index(n); cols.x >= 0 {
 			break
 		}
 	}
-	if xj < 0 {
-		xj = 0
+	if cols.x < 0 {
+		cols.x = 0
 	}
-	x := t.Col(xj)
-	var fwd, bwd []int
-	isLog := false
-	var threshold []int
 	for j, h := range t.Header {
 		l := strings.ToLower(h)
-		if j == xj || !t.Numeric(j) {
+		if j == cols.x || !t.Numeric(j) {
 			continue
 		}
 		switch {
 		case strings.Contains(l, "forward") || strings.HasPrefix(l, "fwd") || strings.HasPrefix(l, "f_"):
-			fwd = append(fwd, j)
+			cols.fwd = append(cols.fwd, j)
 		case strings.Contains(l, "backward") || strings.HasPrefix(l, "bwd") || strings.HasPrefix(l, "b_"):
-			bwd = append(bwd, j)
+			cols.bwd = append(cols.bwd, j)
 		case strings.Contains(l, "threshold") || strings.Contains(l, "noise"):
-			threshold = append(threshold, j)
+			cols.threshold = append(cols.threshold, j)
 		default:
 			continue
 		}
 		if strings.Contains(l, "log") {
-			isLog = true
+			cols.isLog = true
 		}
 	}
-	if len(fwd)+len(bwd) == 0 {
-		return nil, fmt.Errorf("efa.csv: no forward or backward columns in its header")
+	if len(cols.fwd)+len(cols.bwd) == 0 {
+		return cols, fmt.Errorf("efa.csv: no forward or backward columns in its header")
 	}
-	if !isLog {
-		for _, j := range append(append([]int{}, fwd...), bwd...) {
+	if !cols.isLog {
+		for _, j := range append(append([]int{}, cols.fwd...), cols.bwd...) {
 			for _, v := range t.Col(j) {
 				if v <= 0 {
-					isLog = true
+					cols.isLog = true
 				}
 			}
 		}
 	}
+	return cols, nil
+}
+
+// efaValues returns column j of efa.csv as drawn: log10 singular values, held
+// at a floor when the file gives a noise threshold.
+func efaValues(t *Table, cols efaColumns) func(j int) []float64 {
 	val := func(j int) []float64 {
 		c := t.Col(j)
-		if !isLog {
+		if !cols.isLog {
 			for i := range c {
 				c[i] = math.Log10(c[i])
 			}
@@ -422,59 +481,21 @@ func efaFigure(f *Folder) (*Figure, error) {
 	// more than 1.5 decades below the noise threshold are drawn at that
 	// floor.
 	floor := math.Inf(-1)
-	for _, j := range threshold {
+	for _, j := range cols.threshold {
 		for _, v := range val(j) {
 			floor = math.Max(floor, v-1.5)
 		}
 	}
-	if !math.IsInf(floor, -1) {
-		raw := val
-		val = func(j int) []float64 {
-			c := raw(j)
-			for i := range c {
-				c[i] = math.Max(c[i], floor)
-			}
-			return c
+	if math.IsInf(floor, -1) {
+		return val
+	}
+	return func(j int) []float64 {
+		c := val(j)
+		for i := range c {
+			c[i] = math.Max(c[i], floor)
 		}
+		return c
 	}
-	xl := "time / s"
-	if h := strings.ToLower(t.Header[xj]); !strings.HasPrefix(h, "time") {
-		xl = "spectrum number"
-	}
-	p := newPlot(xl, "log₁₀ singular value")
-	if xl != "spectrum number" {
-		lo, hi := span(x)
-		f.timeAxis(&p.X, lo, hi)
-	}
-	var legend []LegendItem
-	for k, j := range fwd {
-		if err := addLine(p, x, val(j), componentColour(k), 1.2, nil); err != nil {
-			return nil, err
-		}
-	}
-	for k, j := range bwd {
-		if err := addLine(p, x, val(j), componentColour(k), 1.2, []float64{5, 3}); err != nil {
-			return nil, err
-		}
-	}
-	for _, j := range threshold {
-		if err := addLine(p, x, val(j), grey, 0.8, []float64{2, 2}); err != nil {
-			return nil, err
-		}
-	}
-	for k := 0; k < max(len(fwd), len(bwd)); k++ {
-		legend = append(legend, LegendItem{Label: fmt.Sprintf("value %d", k+1), Colour: componentColour(k)})
-	}
-	legend = append(legend, LegendItem{Label: "forward (solid)", Colour: okabeBlack}, LegendItem{Label: "backward (dashed)", Colour: okabeBlack, Dash: []float64{5, 3}})
-	if len(threshold) > 0 {
-		legend = append(legend, LegendItem{Label: "noise level", Colour: grey, Dash: []float64{2, 2}})
-	}
-	svg, dr, err := render(p, nil, figW, figH)
-	if err != nil {
-		return nil, fmt.Errorf("evolving factor analysis: %w", err)
-	}
-	return &Figure{ID: "fig-efa", Title: "Evolving factor analysis", SVG: svg, drawing: dr, Legend: legend,
-		Caption: "Singular values of the first spectra up to each time (forward, solid) and of the last ones from each time on (backward, dashed). A component appears where a new forward value rises out of the noise and disappears where its backward value sinks into it (Gampp et al. 1985; Maeder 1987)."}, nil
 }
 
 // spectraFigure: resolved spectra around a zero line, with uniqueness-range
@@ -497,24 +518,13 @@ func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 	p := newPlot("", ylabel)
 	ax.apply(p)
 	var legend, shades []LegendItem
-	envelopes := 0
 	for k, j := range comps {
 		name := t.Header[j]
 		c := componentColour(k)
-		if bx, lo, hi := longEnvelope(f.Bands, name, "spectrum", "at_min", "at_max"); bx != nil {
-			spectralBand(p, bx, lo, hi, tint(c, 0.72))
-			shades = append(shades, LegendItem{Label: name + " uniqueness range", Colour: tint(c, 0.72), Fill: true})
-			envelopes++
-		}
-		if ix, lo, hi := longEnvelope(f.Intervals, name, "spectrum", "low", "high"); ix != nil {
-			spectralBand(p, ix, lo, hi, tint(c, 0.5))
-			shades = append(shades, LegendItem{Label: name + " interval", Colour: tint(c, 0.5), Fill: true})
-			envelopes++
-		}
+		shades = append(shades, f.envelopes(name, "spectrum", c, func(x, lo, hi []float64, c color.RGBA) { spectralBand(p, x, lo, hi, c) })...)
 		if lo, hi := bounds(t, name, ""); lo >= 0 {
 			spectralBand(p, x, t.Col(lo), t.Col(hi), tint(c, 0.6))
 			shades = append(shades, LegendItem{Label: name + " bounds", Colour: tint(c, 0.6), Fill: true})
-			envelopes++
 		}
 	}
 	xlo, xhi := span(x)
@@ -537,7 +547,7 @@ func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 		title = "Reaction spectra"
 		cap = "Each reaction's signed spectrum: positive lobes are bands of what forms, negative lobes bands of what is consumed; the black line is zero."
 	}
-	if envelopes > 0 {
+	if len(shades) > 0 {
 		cap += " Shaded: " + envelopeWords(f) + "."
 		legend = append(legend, shades...)
 	}
@@ -597,58 +607,24 @@ func profilesFigure(f *Folder) (*Figure, error) {
 	if tj < 0 {
 		return nil, fmt.Errorf("profiles.csv: no time column")
 	}
-	ej := t.Index("experiment")
 	tm := t.Col(tj)
 	var exp []float64
-	if ej >= 0 {
+	if ej := t.Index("experiment"); ej >= 0 {
 		exp = t.Col(ej)
 	}
 	comps := f.components(t, tj+1)
 	if len(comps) == 0 {
 		return nil, nil
 	}
-	reactions := f.Summary.Mode == "reactions"
-	ylabel := "concentration (relative)"
-	switch {
-	case reactions:
-		ylabel = "extent (largest = 1)"
-	case f.Summary.Closure == "1":
-		ylabel = "fraction of the total (closure = 1)"
-	case f.Summary.Closure != "" && f.Summary.Closure != "off":
-		ylabel = "concentration (closure total " + f.Summary.Closure + ")"
-	}
-	p := newPlot("time / s", ylabel)
+	p := newPlot("time / s", profilesLabel(f))
 	fit := f.kineticCurves()
 	var legend, shades []LegendItem
-	envelopes := 0
-	// Segments per experiment, so lines never join two experiments.
-	segments := func(col []float64, draw func(x, y []float64) error) error {
-		start := 0
-		for i := 1; i <= len(tm); i++ {
-			if i == len(tm) || (exp != nil && exp[i] != exp[start]) {
-				if err := draw(tm[start:i], col[start:i]); err != nil {
-					return err
-				}
-				start = i
-			}
-		}
-		return nil
-	}
 	xlo, xhi := span(tm)
 	hline(p, xlo, xhi, 0, grey, nil)
 	for k, j := range comps {
 		c := componentColour(k)
 		name := t.Header[j]
-		if bx, lo, hi := longEnvelope(f.Bands, name, "profile", "at_min", "at_max"); bx != nil {
-			band(p, bx, lo, hi, tint(c, 0.72))
-			shades = append(shades, LegendItem{Label: name + " uniqueness range", Colour: tint(c, 0.72), Fill: true})
-			envelopes++
-		}
-		if ix, lo, hi := longEnvelope(f.Intervals, name, "profile", "low", "high"); ix != nil {
-			band(p, ix, lo, hi, tint(c, 0.5))
-			shades = append(shades, LegendItem{Label: name + " interval", Colour: tint(c, 0.5), Fill: true})
-			envelopes++
-		}
+		shades = append(shades, f.envelopes(name, "profile", c, func(x, lo, hi []float64, c color.RGBA) { band(p, x, lo, hi, c) })...)
 		col := t.Col(j)
 		if len(fit) > 0 {
 			var pts plotter.XYs
@@ -659,13 +635,79 @@ func profilesFigure(f *Folder) (*Figure, error) {
 			}
 			addPoints(p, pts, c, false)
 			legend = append(legend, LegendItem{Label: name + " (resolved)", Colour: c, Marker: true})
-		} else {
-			if err := segments(col, func(x, y []float64) error { return addLine(p, x, y, c, 1.4, dashOf(k)) }); err != nil {
-				return nil, err
-			}
-			legend = append(legend, LegendItem{Label: name, Colour: c, Dash: dashOf(k)})
+			continue
+		}
+		if err := bySegment(tm, exp, col, func(x, y []float64) error { return addLine(p, x, y, c, 1.4, dashOf(k)) }); err != nil {
+			return nil, err
+		}
+		legend = append(legend, LegendItem{Label: name, Colour: c, Dash: dashOf(k)})
+	}
+	fitLegend, err := drawCurves(p, fit)
+	if err != nil {
+		return nil, err
+	}
+	legend = append(legend, fitLegend...)
+	f.timeAxis(&p.X, xlo, xhi)
+	addHeadroom(p)
+	svg, dr, err := render(p, nil, figW, figH)
+	if err != nil {
+		return nil, fmt.Errorf("profiles: %w", err)
+	}
+	title, cap := profilesCaption(f, len(shades) > 0, len(fit) > 0)
+	legend = append(legend, shades...)
+	return &Figure{ID: "fig-profiles", Title: title, Caption: cap, SVG: svg, drawing: dr, Legend: legend}, nil
+}
+
+// profilesLabel names the profiles' axis by what closure or the mode makes them.
+func profilesLabel(f *Folder) string {
+	switch {
+	case f.Summary.Mode == "reactions":
+		return "extent (largest = 1)"
+	case f.Summary.Closure == "1":
+		return "fraction of the total (closure = 1)"
+	case f.Summary.Closure != "" && f.Summary.Closure != "off":
+		return "concentration (closure total " + f.Summary.Closure + ")"
+	}
+	return "concentration (relative)"
+}
+
+// profilesCaption gives the profiles figure's title and caption.
+func profilesCaption(f *Folder, shaded, fitted bool) (title, cap string) {
+	title, cap = "Concentration profiles", "Resolved concentration of each species against time."
+	if f.Summary.Mode == "reactions" {
+		title, cap = "Extent profiles", "How far each reaction has gone, scaled so its largest extent is 1; zero at the reference and before the reaction starts."
+	}
+	if shaded {
+		cap += " Shaded: " + envelopeWords(f) + "."
+	}
+	if fitted {
+		cap += " Points: resolved; lines: the kinetic model fitted to them."
+		if f.Summary.Kinetics != nil && f.Summary.Kinetics.Model != "" {
+			cap += " Model: " + f.Summary.Kinetics.Model + "."
 		}
 	}
+	return title, cap
+}
+
+// bySegment draws col against tm one experiment at a time (exp gives each
+// row's experiment; nil: one), so that lines never join two experiments.
+func bySegment(tm, exp, col []float64, draw func(x, y []float64) error) error {
+	start := 0
+	for i := 1; i <= len(tm); i++ {
+		if i == len(tm) || (exp != nil && exp[i] != exp[start]) {
+			if err := draw(tm[start:i], col[start:i]); err != nil {
+				return err
+			}
+			start = i
+		}
+	}
+	return nil
+}
+
+// drawCurves draws the kinetic fit's curves in their component's colour
+// (black when they match none) and returns one legend item per label.
+func drawCurves(p *plot.Plot, fit []curve) ([]LegendItem, error) {
+	var legend []LegendItem
 	seen := map[string]bool{}
 	for _, cv := range fit {
 		c := okabeBlack
@@ -684,27 +726,23 @@ func profilesFigure(f *Folder) (*Figure, error) {
 			legend = append(legend, LegendItem{Label: cv.label, Colour: lc, Dash: cv.dash})
 		}
 	}
-	f.timeAxis(&p.X, xlo, xhi)
-	addHeadroom(p)
-	svg, dr, err := render(p, nil, figW, figH)
-	if err != nil {
-		return nil, fmt.Errorf("profiles: %w", err)
+	return legend, nil
+}
+
+// envelopes draws with fill the uniqueness range and the resampling interval
+// of component name on side ("spectrum" or "profile"), where the folder holds
+// them, in tints of c, and returns their legend items.
+func (f *Folder) envelopes(name, side string, c color.RGBA, fill func(x, lo, hi []float64, c color.RGBA)) []LegendItem {
+	var shades []LegendItem
+	if bx, lo, hi := longEnvelope(f.Bands, name, side, "at_min", "at_max"); bx != nil {
+		fill(bx, lo, hi, tint(c, 0.72))
+		shades = append(shades, LegendItem{Label: name + " uniqueness range", Colour: tint(c, 0.72), Fill: true})
 	}
-	title, cap := "Concentration profiles", "Resolved concentration of each species against time."
-	if reactions {
-		title, cap = "Extent profiles", "How far each reaction has gone, scaled so its largest extent is 1; zero at the reference and before the reaction starts."
+	if ix, lo, hi := longEnvelope(f.Intervals, name, side, "low", "high"); ix != nil {
+		fill(ix, lo, hi, tint(c, 0.5))
+		shades = append(shades, LegendItem{Label: name + " interval", Colour: tint(c, 0.5), Fill: true})
 	}
-	if envelopes > 0 {
-		cap += " Shaded: " + envelopeWords(f) + "."
-		legend = append(legend, shades...)
-	}
-	if len(fit) > 0 {
-		cap += " Points: resolved; lines: the kinetic model fitted to them."
-		if f.Summary.Kinetics != nil && f.Summary.Kinetics.Model != "" {
-			cap += " Model: " + f.Summary.Kinetics.Model + "."
-		}
-	}
-	return &Figure{ID: "fig-profiles", Title: title, Caption: cap, SVG: svg, drawing: dr, Legend: legend}, nil
+	return shades
 }
 
 func envelopeWords(f *Folder) string {
