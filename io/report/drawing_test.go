@@ -170,11 +170,12 @@ func TestFigureFileSameInAUsedImage(t *testing.T) {
 // encodePNG's files decode, with Go's image/png (a reference decoder of
 // the PNG specification, ISO/IEC 15948), to the very pixels encoded: an
 // opaque picture with runs, gradients (the Up filter's differences wrap
-// modulo 256) and noise; and one with transparency, which it leaves to
-// image/png.
+// modulo 256) and noise, written as 8-bit RGB; and pictures with
+// transparency — one translucent pixel inside, the very last pixel clear,
+// a clear first row — which it leaves to image/png (the same bytes).
 func TestEncodePNGRoundTrip(t *testing.T) {
 	rng := rand.New(rand.NewPCG(5, 6))
-	for _, alpha := range []uint8{255, 128} {
+	for _, clear := range []string{"none", "inside", "last pixel", "first row"} {
 		img := image.NewRGBA(image.Rect(0, 0, 37, 23))
 		for y := range 23 {
 			for x := range 37 {
@@ -182,19 +183,33 @@ func TestEncodePNGRoundTrip(t *testing.T) {
 				if x < 10 {
 					c = color.RGBA{255, 255, 255, 255}
 				}
-				if x == 20 && y == 5 && alpha < 255 {
-					c = color.RGBA{60, 30, 90, alpha} // premultiplied: no channel above alpha
+				switch {
+				case clear == "inside" && x == 20 && y == 5:
+					c = color.RGBA{60, 30, 90, 128} // premultiplied: no channel above alpha
+				case clear == "last pixel" && x == 36 && y == 22, clear == "first row" && y == 0:
+					c = color.RGBA{}
 				}
 				img.SetRGBA(x, y, c)
 			}
 		}
-		var b bytes.Buffer
+		var b, ref bytes.Buffer
 		if err := encodePNG(&b, img); err != nil {
 			t.Fatal(err)
 		}
+		if err := (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(&ref, img); err != nil {
+			t.Fatal(err)
+		}
+		// Colour type, byte 25 of the file (signature 8, IHDR length,
+		// type, width, height, bit depth): 2 is RGB.
+		if rgb := b.Bytes()[25] == 2; rgb != (clear == "none") {
+			t.Errorf("transparency %s: written as RGB %v", clear, rgb)
+		}
+		if clear != "none" && !bytes.Equal(b.Bytes(), ref.Bytes()) {
+			t.Errorf("transparency %s: not image/png's file", clear)
+		}
 		back, err := png.Decode(&b)
 		if err != nil {
-			t.Fatalf("alpha %d: does not decode: %v", alpha, err)
+			t.Fatalf("transparency %s: does not decode: %v", clear, err)
 		}
 		for y := range 23 {
 			for x := range 37 {
@@ -207,7 +222,7 @@ func TestEncodePNGRoundTrip(t *testing.T) {
 					tol = 1
 				}
 				if d := max(absDiff(c1.R, c2.R), absDiff(c1.G, c2.G), absDiff(c1.B, c2.B), absDiff(c1.A, c2.A)); d > tol {
-					t.Fatalf("alpha %d: pixel %d,%d decodes as %v, was %v", alpha, x, y, back.At(x, y), img.At(x, y))
+					t.Fatalf("transparency %s: pixel %d,%d decodes as %v, was %v", clear, x, y, back.At(x, y), img.At(x, y))
 				}
 			}
 		}

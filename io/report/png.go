@@ -17,11 +17,8 @@ import (
 // figures are mostly rows like the one above, so this one filter comes
 // within a few per cent of the size of choosing the best filter per row
 // (as image/png does), in half the time. An image with any transparency is
-// left to image/png.
+// left to image/png (found while filtering, not by a pass of its own).
 func encodePNG(w io.Writer, img *image.RGBA) error {
-	if !img.Opaque() {
-		return (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(w, img)
-	}
 	width, height := img.Rect.Dx(), img.Rect.Dy()
 	var b bytes.Buffer
 	b.WriteString("\x89PNG\r\n\x1a\n")
@@ -43,12 +40,19 @@ func encodePNG(w io.Writer, img *image.RGBA) error {
 	line := make([]byte, 1+3*width+1) // one spare byte for the last pixel's 4-byte store
 	zeros := make([]byte, 1+3*width)
 	line[0], zeros[0] = 2, 2 // filter type Up
+	// The alpha bytes of every row, and-ed.
+	opaque := uint32(0xff000000)
 	for y := range height {
 		row := img.Pix[y*img.Stride : y*img.Stride+4*width]
 		out := zeros
 		if !bytes.Equal(row, above) {
-			upFilter(line[1:], row, above)
+			opaque &= upFilter(line[1:], row, above)
 			out = line[:1+3*width]
+		} else if y == 0 {
+			opaque = 0 // the same as the zero row above: alpha 0
+		}
+		if opaque != 0xff000000 {
+			return (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(w, img)
 		}
 		if _, err := zw.Write(out); err != nil {
 			return err
@@ -71,14 +75,18 @@ func encodePNG(w io.Writer, img *image.RGBA) error {
 // low seven bits with its top bit set (no byte goes below zero), and
 // ^ ((p ^ ^q) & H) puts the top bit the subtraction would have given (a
 // common SIMD-within-a-register method; the test checks every pair of
-// bytes against the plain difference).
-func upFilter(dst, row, above []byte) {
+// bytes against the plain difference). It returns the and of the row's
+// alpha bytes, in the top byte (0xff000000 when the row is opaque).
+func upFilter(dst, row, above []byte) uint32 {
 	const h = 0x80808080
+	alpha := uint32(0xff000000)
 	for x := 0; x+4 <= len(row); x += 4 {
 		p := binary.LittleEndian.Uint32(row[x:])
 		q := binary.LittleEndian.Uint32(above[x:])
 		binary.LittleEndian.PutUint32(dst[x/4*3:], ((p|h)-(q&^h))^((p^^q)&h))
+		alpha &= p
 	}
+	return alpha & 0xff000000
 }
 
 // pngChunk appends one chunk: length, type, data, CRC-32 of type and data.
