@@ -581,15 +581,48 @@ func fitWeights(n, m int, blind *Blind, variances ...func(i int, out []float64))
 // bounds none): with it addOverweighted passes over the rows that cannot
 // hold an overweighted point without computing their variances again.
 func fitWeightsJoint(n, m, nf int, blind *Blind, variances func(i int, out []float64)) (fits []*Weights, peak []float64) {
-	type sums struct {
-		rowSum, colSum []float64
-		rowCnt, colCnt []int
-		grand          float64
-		cnt            int
+	out := additiveWeights(n, m, logWeightSums(n, m, nf, blind, variances))
+	scale, peak := scaleSums(n, m, blind, variances, out)
+	for f, w := range out {
+		if w == nil {
+			continue
+		}
+		sc := 1.0
+		if s, c := scale[f].sum, scale[f].cnt; s > 0 {
+			sc = float64(c) / s
+			for j := range w.Col {
+				w.Col[j] *= sc
+			}
+		}
+		var row0, col0 []float64
+		if f == 0 {
+			row0, col0 = slices.Clone(w.Row), slices.Clone(w.Col)
+		}
+		floorWeights(w.Row)
+		floorWeights(w.Col)
+		if f == 0 {
+			peak = scalePeaks(peak, sc)
+			unboundRaised(peak, blind, row0, w.Row, col0, w.Col)
+		}
 	}
-	acc := make([]sums, nf)
+	return out, peak
+}
+
+// logSums are one fit's sums of log weights −log var_ij over the observed
+// points: per row, per channel and in all.
+type logSums struct {
+	rowSum, colSum []float64
+	rowCnt, colCnt []int
+	grand          float64
+	cnt            int
+}
+
+// logWeightSums forms the sums of log weights of each of the nf fits in one
+// pass over the rows.
+func logWeightSums(n, m, nf int, blind *Blind, variances func(i int, out []float64)) []logSums {
+	acc := make([]logSums, nf)
 	for f := range acc {
-		acc[f] = sums{rowSum: make([]float64, n), colSum: make([]float64, m), rowCnt: make([]int, n), colCnt: make([]int, m)}
+		acc[f] = logSums{rowSum: make([]float64, n), colSum: make([]float64, m), rowCnt: make([]int, n), colCnt: make([]int, m)}
 	}
 	// The logarithms on the workers, a row at a time (NaN marks a point left
 	// out: −log v of a positive finite v is never NaN); the sums here, in
@@ -618,7 +651,14 @@ func fitWeightsJoint(n, m, nf int, blind *Blind, variances func(i int, out []flo
 			a.rowSum[i], a.rowCnt[i], a.grand, a.cnt = rs, rc, g, c
 		}
 	})
-	out := make([]*Weights, nf)
+	return acc
+}
+
+// additiveWeights solves the two-way additive model log w_ij = α_i + β_j of
+// each fit by its row and column means (nil for a fit without an observed
+// point), before scaling.
+func additiveWeights(n, m int, acc []logSums) []*Weights {
+	out := make([]*Weights, len(acc))
 	for f := range acc {
 		a := &acc[f]
 		if a.cnt == 0 {
@@ -639,13 +679,27 @@ func fitWeightsJoint(n, m, nf int, blind *Blind, variances func(i int, out []flo
 			}
 		}
 		out[f] = w
-		a.grand, a.cnt = 0, 0 // the scale pass's sum and count
 	}
-	// Scale: mean of a_i b_j var_ij over the observed points = 1.
+	return out
+}
+
+// scaleSum is one fit's sum of a_i b_j var_ij over the observed points, and
+// their count.
+type scaleSum struct {
+	sum float64
+	cnt int
+}
+
+// scaleSums forms for each fit the sum whose mean the scale sets to one, in
+// a second pass over the rows, and the first fit's peak per row (see
+// fitWeightsJoint).
+func scaleSums(n, m int, blind *Blind, variances func(i int, out []float64), out []*Weights) ([]scaleSum, []float64) {
+	acc := make([]scaleSum, len(out))
+	var peak []float64
 	if out[0] != nil {
 		peak = make([]float64, n)
 	}
-	mapRowsInOrder(n, nf*m, func(i int, buf []float64) {
+	mapRowsInOrder(n, len(out)*m, func(i int, buf []float64) {
 		variances(i, buf)
 		for f, w := range out {
 			if w == nil {
@@ -668,39 +722,17 @@ func fitWeightsJoint(n, m, nf int, blind *Blind, variances func(i int, out []flo
 				continue
 			}
 			a := &acc[f]
-			g, c := a.grand, a.cnt
+			g, c := a.sum, a.cnt
 			for _, t := range buf[f*m : (f+1)*m] {
 				if t == t {
 					g += t
 					c++
 				}
 			}
-			a.grand, a.cnt = g, c
+			a.sum, a.cnt = g, c
 		}
 	})
-	for f, w := range out {
-		if w == nil {
-			continue
-		}
-		sc := 1.0
-		if s, c := acc[f].grand, acc[f].cnt; s > 0 {
-			sc = float64(c) / s
-			for j := range w.Col {
-				w.Col[j] *= sc
-			}
-		}
-		var row0, col0 []float64
-		if f == 0 {
-			row0, col0 = slices.Clone(w.Row), slices.Clone(w.Col)
-		}
-		floorWeights(w.Row)
-		floorWeights(w.Col)
-		if f == 0 {
-			peak = scalePeaks(peak, sc)
-			unboundRaised(peak, blind, row0, w.Row, col0, w.Col)
-		}
-	}
-	return out, peak
+	return acc, peak
 }
 
 // peakObserved is the largest of the products t in o (all ≥ 0 or NaN)
