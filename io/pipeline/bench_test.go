@@ -2,6 +2,7 @@ package pipeline
 
 import (
 	"bufio"
+	"context"
 	"flag"
 	"fmt"
 	"io"
@@ -10,6 +11,7 @@ import (
 	"os"
 	"path/filepath"
 	"runtime"
+	"runtime/pprof"
 	"strconv"
 	"strings"
 	"testing"
@@ -406,6 +408,10 @@ func (p *phaseLog) Write(b []byte) (int, error) {
 		}
 		p.names, p.wall, p.cpu = append(p.names, name), append(p.wall, w), append(p.cpu, c)
 		p.hwm = append(p.hwm, peakRSS())
+		// The phase's name labels the CPU profile's samples of Run's
+		// goroutine and of the goroutines it starts from now on (they
+		// inherit it): pprof -tagfocus phase=NAME shows one phase.
+		pprof.SetGoroutineLabels(pprof.WithLabels(context.Background(), pprof.Labels("phase", name)))
 	}
 	return len(b), nil
 }
