@@ -156,6 +156,14 @@ func ChooseBaselineOrder(d *mat.Dense, f *Factors, axis []float64, k, maxOrder i
 // product D Q_max, since the nested basis of order q is the first q+1 columns of
 // that of maxOrder.
 func ChooseBaselineOrderWeighted(d *mat.Dense, f *Factors, axis, col []float64, k, maxOrder int, alpha float64) (*BaselineChoice, error) {
+	return ChooseBaselineOrderFrom(d, nil, f, axis, col, k, maxOrder, alpha)
+}
+
+// ChooseBaselineOrderFrom is ChooseBaselineOrderWeighted given dq, the product of d and
+// PolyBasis(axis, maxOrder, col) as internal/product's Mul forms it (nil: formed here),
+// which a caller that has projected that basis out of d already holds: the choice then
+// makes no pass over d.
+func ChooseBaselineOrderFrom(d, dq *mat.Dense, f *Factors, axis, col []float64, k, maxOrder int, alpha float64) (*BaselineChoice, error) {
 	n, m := d.Dims()
 	if len(axis) != m || (col != nil && len(col) != m) {
 		return nil, fmt.Errorf("svd: baseline order: axis has %d points, weights %d, data %d", len(axis), len(col), m)
@@ -185,7 +193,11 @@ func ChooseBaselineOrderWeighted(d *mat.Dense, f *Factors, axis, col []float64, 
 	// of W on the first q+1 basis columns is (W Q)_{:,≤q} Q_{:,≤q}ᵀ.
 	basis := PolyBasis(axis, maxOrder, col)
 	var wqAll mat.Dense
-	dq := few.Mul(d, basis) // mat.Dense.Mul's bits, faster at a few columns
+	if dq == nil {
+		dq = few.Mul(d, basis) // mat.Dense.Mul's bits, faster at a few columns
+	} else if dn, dc := dq.Dims(); dn != n || dc != maxOrder+1 {
+		return nil, fmt.Errorf("svd: baseline order: D Q is %d × %d for %d spectra and order %d", dn, dc, n, maxOrder)
+	}
 	wqAll.Mul(w, basis)
 	polyEnergy := make([]float64, maxOrder+1)
 	for c := 0; c <= maxOrder; c++ {

@@ -158,14 +158,22 @@ func checkMatrix(d *mat.Dense) error {
 	}
 	n, _ := d.Dims()
 	for i := 0; i < n; i++ {
-		row := d.RawRowView(i)
-		if finiteRow(row) {
-			continue
+		if err := rowError(d.RawRowView(i), i); err != nil {
+			return err
 		}
-		for j, v := range row {
-			if math.IsNaN(v) || math.IsInf(v, 0) {
-				return fmt.Errorf("non-finite value %v at row %d, column %d", v, i, j)
-			}
+	}
+	return nil
+}
+
+// rowError is checkMatrix's error for the first non-finite entry of row i (nil when
+// all are finite).
+func rowError(row []float64, i int) error {
+	if finiteRow(row) {
+		return nil
+	}
+	for j, v := range row {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return fmt.Errorf("non-finite value %v at row %d, column %d", v, i, j)
 		}
 	}
 	return nil

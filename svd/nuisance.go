@@ -112,16 +112,25 @@ const (
 //
 // Estimate is the number of chemical factors, never more than rep.Estimate (the
 // consensus of the rank criteria).
+//
+// d's values are read only to estimate the noise (opt.Noise ≤ 0 and a level rep did not
+// get from outside); d may be nil, its dimensions then being f's and rep's level taken.
 func ClassifyFactors(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOptions) *ChemicalRank {
-	n, m := d.Dims()
 	out := &ChemicalRank{}
 	if rep == nil || f == nil || f.FrobeniusSq == 0 {
 		return out
 	}
+	var n, m int
+	if d != nil {
+		n, m = d.Dims()
+	} else {
+		n, _ = f.U.Dims()
+		m, _ = f.V.Dims()
+	}
 	sigma := opt.Noise
 	if sigma <= 0 {
 		sigma = rep.Sigma
-		if rep.SigmaSource != SigmaGiven && rep.SigmaSource != SigmaPreRows && n >= 3 {
+		if d != nil && rep.SigmaSource != SigmaGiven && rep.SigmaSource != SigmaPreRows && n >= 3 {
 			sigma = math.Max(sigma, sigmaFromRowPairs(d, 0, n, true))
 		}
 	}

@@ -78,6 +78,41 @@ type rankInputs struct {
 	// start (m × p, may be nil) holds directions d's leading row space lies
 	// close to, where its randomized SVD starts (svd.DecomposeOptions.Start).
 	start *mat.Dense
+	// basis and dq (may be nil) are the baseline basis of the highest order
+	// chooseBaseline tries and d times it: the basis of each lower order is
+	// its leading columns (svd.PolyBasis is nested), and so is that order's
+	// product, which is then taken from dq instead of a pass over d.
+	basis, dq *mat.Dense
+}
+
+// baselineProduct is d q for q = svd.PolyBasis(axis, order, in.col): the
+// leading columns of in.dq when q is, bit for bit, the leading columns of
+// in.basis (each entry of a product is its own sum over the row of d), else
+// formed here.
+func (in rankInputs) baselineProduct(d, q *mat.Dense) *mat.Dense {
+	if in.dq != nil && in.basis != nil && leadingColumns(q, in.basis) {
+		n, _ := in.dq.Dims()
+		_, c := q.Dims()
+		return in.dq.Slice(0, n, 0, c).(*mat.Dense)
+	}
+	return product.Mul(d, q) // mat.Dense.Mul's bits, without its per-entry kernel calls at 1–9 columns
+}
+
+// leadingColumns says whether q's columns are the first columns of b, bit for bit.
+func leadingColumns(q, b *mat.Dense) bool {
+	m, c := q.Dims()
+	bm, bc := b.Dims()
+	if bm != m || bc < c {
+		return false
+	}
+	for j := 0; j < m; j++ {
+		for l := 0; l < c; l++ {
+			if math.Float64bits(q.At(j, l)) != math.Float64bits(b.At(j, l)) {
+				return false
+			}
+		}
+	}
+	return true
 }
 
 // weightedRankInputs are the rank inputs of a matrix scaled by the weights w: the noise
@@ -107,7 +142,10 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 		// D Q⊥ = D − (D Q) Qᵀ; with truncated factors of D (large data) those of
 		// D Q⊥ follow from them (svd.ProjectFactors) instead of a new decomposition.
 		q := svd.PolyBasis(r.Axis, order, in.col)
-		dq := product.Mul(d, q) // mat.Dense.Mul's bits, without its per-entry kernel calls at 1–9 columns
+		dq := in.baselineProduct(d, q)
+		if f != nil && !f.Full() && in.opt.Sigma > 0 && in.noise > 0 {
+			return screenedRank(r, d, f, q, dq, in, meanLevel)
+		}
 		if in.reuse {
 			subtractBaselineInPlace(d, dq, q) // the same values as below
 			dc = d
@@ -116,8 +154,7 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 			}
 		} else {
 			dc = mat.NewDense(d.RawMatrix().Rows, m, nil)
-			dc.Mul(dq, q.T())
-			dc.Sub(d, dc)
+			lessBaseline(dc, d, dq, q) // D − (D Q) Qᵀ as Mul and Sub form it
 		}
 		if f != nil && !f.Full() {
 			var err error
@@ -152,6 +189,32 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 	return rep, cr, nil
 }
 
+// screenedRank is chemicalRank of D Q⊥ = D − (D Q) Qᵀ when its factors follow
+// from f (svd.ProjectFactors) and the noise level is known: the rank and the
+// classification then read of D Q⊥ only that it is finite and its rows of
+// zeros, which a screen of its rows formed one at a time tells
+// (svd.ScreenRows), so that D Q⊥ is neither stored nor written over d (and d
+// rebuilt afterwards).
+func screenedRank(r *Result, d *mat.Dense, f *svd.Factors, q, dq *mat.Dense, in rankInputs, meanLevel bool) (*svd.RankReport, *svd.ChemicalRank, error) {
+	pf, err := svd.ProjectFactors(f, q, dq)
+	if err != nil {
+		return nil, nil, fmt.Errorf("factor analysis without the baseline: %w", err)
+	}
+	n, m := d.Dims()
+	_, nb := q.Dims()
+	opt := in.opt
+	opt.Screen = svd.ScreenRows(n, m, func(i int, buf []float64) {
+		lessBaselineRow(buf, d.RawRowView(i)[:m], dq.RawRowView(i)[:nb], q)
+	})
+	rep, err := svd.EstimateRank(nil, pf, opt)
+	if err != nil {
+		return nil, nil, err
+	}
+	cr := svd.ClassifyFactors(nil, pf, rep, svd.NuisanceOptions{Axis: r.Axis, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col})
+	svd.ApplyChemical(rep, cr)
+	return rep, cr, nil
+}
+
 // chooseBaseline settles the baseline order and the chemical rank of in.d (r.D, or
 // the scaled √A D √B when weighted); f holds its factors.
 func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
@@ -164,6 +227,11 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 	if maxOrder+3 >= m {
 		maxOrder = -1
 		r.Notes = append(r.Notes, fmt.Sprintf("no baseline model: %d points are too few", m))
+	}
+	if auto && maxOrder >= 0 && maxOrder+1 < m {
+		// One product D Q for every order the choice looks at.
+		in.basis = svd.PolyBasis(r.Axis, maxOrder, in.col)
+		in.dq = product.Mul(d, in.basis)
 	}
 	first := in
 	if !auto || maxOrder < 0 {
@@ -190,7 +258,7 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 		// practice for a family of tests). At alpha per order, two closed subsystems
 		// with no baseline got a linear one (p = 0.04, TestBaselineAutoChoosesNone…).
 		level := r.Settings.Alpha / float64(maxOrder+1)
-		ch, err := svd.ChooseBaselineOrderWeighted(d, f, r.Axis, in.col, kf, maxOrder, level)
+		ch, err := svd.ChooseBaselineOrderFrom(d, in.dq, f, r.Axis, in.col, kf, maxOrder, level)
 		if err != nil {
 			return fmt.Errorf("baseline: %w", err)
 		}

@@ -1,0 +1,107 @@
+package svd
+
+import (
+	"math"
+	"reflect"
+	"testing"
+
+	few "github.com/bandsolve/bandsolve/internal/product"
+	"gonum.org/v1/gonum/mat"
+)
+
+// A screen of a matrix's rows stands for the matrix in EstimateRank and ClassifyFactors
+// when the factors and the noise level are given: the report and the classification
+// equal, field for field, those of the matrix itself (the definition of the screen: the
+// finiteness test and the rows of zeros EstimateRank reads), with a row of zeros (taken
+// for the reference row, with a warning) and without; a non-finite entry gives the
+// matrix's own error; without the noise level the screen is refused.
+func TestScreenStandsForTheMatrix(t *testing.T) {
+	rng := newRNG(11)
+	for _, zero := range []int{-1, 17} {
+		d := noisyBilinear(rng, 60, 300, 3, 1e-3)
+		if zero >= 0 {
+			d.SetRow(zero, make([]float64, 300))
+		}
+		f, err := Decompose(d, DecomposeOptions{Method: MethodRandomized, MaxFactors: 8})
+		if err != nil {
+			t.Fatal(err)
+		}
+		opt := RankOptions{Sigma: 1e-3, ReferenceRow: -1}
+		want, err := EstimateRank(d, f, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		opt.Screen = ScreenRows(60, 300, func(i int, buf []float64) { copy(buf, d.RawRowView(i)) })
+		got, err := EstimateRank(nil, f, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !reflect.DeepEqual(got, want) {
+			t.Errorf("zero row %d: screened %+v, matrix %+v", zero, got, want)
+		}
+		if zero >= 0 && len(got.Warnings) == 0 {
+			t.Errorf("zero row %d: no warning", zero)
+		}
+		nopt := NuisanceOptions{Noise: 1e-3}
+		if a, b := ClassifyFactors(nil, f, got, nopt), ClassifyFactors(d, f, want, nopt); !reflect.DeepEqual(a, b) {
+			t.Errorf("zero row %d: classification screened %+v, matrix %+v", zero, a, b)
+		}
+	}
+	d := noisyBilinear(rng, 60, 300, 3, 1e-3)
+	f, _ := Decompose(d, DecomposeOptions{Method: MethodRandomized, MaxFactors: 8})
+	d.Set(41, 7, math.Inf(-1))
+	d.Set(52, 3, math.NaN())
+	_, want := EstimateRank(d, f, RankOptions{Sigma: 1e-3, ReferenceRow: -1})
+	scr := ScreenRows(60, 300, func(i int, buf []float64) { copy(buf, d.RawRowView(i)) })
+	_, got := EstimateRank(nil, f, RankOptions{Sigma: 1e-3, ReferenceRow: -1, Screen: scr})
+	if want == nil || got == nil || got.Error() != want.Error() {
+		t.Errorf("non-finite entry: screened error %v, matrix error %v", got, want)
+	}
+	clean := ScreenRows(60, 300, func(i int, buf []float64) {})
+	if _, err := EstimateRank(nil, f, RankOptions{ReferenceRow: -1, Screen: clean}); err == nil {
+		t.Error("a screen without the noise level was taken")
+	}
+}
+
+// The baseline order chosen from a product D Q given by the caller is the one chosen
+// from D alone (ChooseBaselineOrderWeighted's definition: the same product formed
+// inside), and a product of the wrong width is refused.
+func TestChooseBaselineOrderFromProduct(t *testing.T) {
+	rng := newRNG(12)
+	n, m := 40, 200
+	axis := make([]float64, m)
+	col := make([]float64, m)
+	for j := range axis {
+		axis[j] = 4000 - 5*float64(j)
+		col[j] = math.Pow(10, -rng.Float64())
+	}
+	d := noisyBilinear(rng, n, m, 2, 1e-3)
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			x := float64(j) / float64(m)
+			d.Set(i, j, d.At(i, j)+1e-2*float64(i%5)*x)
+		}
+	}
+	f, err := Decompose(d, DecomposeOptions{Method: MethodRandomized, MaxFactors: 12})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want, err := ChooseBaselineOrderWeighted(d, f, axis, col, 2, 3, 0.05)
+	if err != nil {
+		t.Fatal(err)
+	}
+	dq := few.Mul(d, PolyBasis(axis, 3, col))
+	got, err := ChooseBaselineOrderFrom(d, dq, f, axis, col, 2, 3, 0.05)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !reflect.DeepEqual(got, want) {
+		t.Errorf("from the product %+v, from D %+v", got, want)
+	}
+	if want.Order < 1 {
+		t.Errorf("the drift of order 1 was not found (order %d)", want.Order)
+	}
+	if _, err := ChooseBaselineOrderFrom(d, dq.Slice(0, n, 0, 2).(*mat.Dense), f, axis, col, 2, 3, 0.05); err == nil {
+		t.Error("a product of two columns was taken for order 3")
+	}
+}
