@@ -85,6 +85,11 @@ type DecomposeOptions struct {
 	// passes over D instead of six. Ignored by the other methods; nil: a
 	// random sketch.
 	Start *mat.Dense
+	// Screen, when it is a complete screen of D as it is (see Screen), stands
+	// for the check that every entry is finite and, when summed, for the sum
+	// of squares FrobeniusSq: two passes over D fewer. Of other dimensions, or
+	// incomplete, it is not used.
+	Screen *Screen
 }
 
 // Decompose picks by size: exact (gonum mat.SVD) for small matrices; for large ones the eigen-decomposition
@@ -96,7 +101,19 @@ type DecomposeOptions struct {
 // The gram method squares the condition number: singular values below about 1e-8·s_1 lose
 // relative accuracy, which does not matter for factor analysis where they are noise.
 func Decompose(d *mat.Dense, opt DecomposeOptions) (*Factors, error) {
-	if err := checkMatrix(d); err != nil {
+	scr := opt.Screen
+	if d != nil && !d.IsEmpty() {
+		if n, m := d.Dims(); !scr.of(n, m) {
+			scr = nil
+		}
+	} else {
+		scr = nil
+	}
+	if scr != nil {
+		if scr.err != nil {
+			return nil, fmt.Errorf("svd: decompose: %w", scr.err)
+		}
+	} else if err := checkMatrix(d); err != nil {
 		return nil, fmt.Errorf("svd: decompose: %w", err)
 	}
 	n, m := d.Dims()
@@ -142,7 +159,11 @@ func Decompose(d *mat.Dense, opt DecomposeOptions) (*Factors, error) {
 		return nil, fmt.Errorf("svd: decompose (%s): %w", method, err)
 	}
 	f.Method = method
-	f.FrobeniusSq = frobeniusSq(d)
+	if scr != nil && scr.sum {
+		f.FrobeniusSq = scr.frob
+	} else {
+		f.FrobeniusSq = frobeniusSq(d)
+	}
 	fixSigns(f)
 	return f, nil
 }
@@ -206,9 +227,16 @@ func frobeniusSq(d *mat.Dense) float64 {
 	n, _ := d.Dims()
 	var s float64
 	for i := 0; i < n; i++ {
-		for _, v := range d.RawRowView(i) {
-			s += v * v
-		}
+		s = sumSquares(s, d.RawRowView(i))
+	}
+	return s
+}
+
+// sumSquares adds the squares of x to s in index order, the one loop frobeniusSq
+// and Screen share (so that their sums are the same bits).
+func sumSquares(s float64, x []float64) float64 {
+	for _, v := range x {
+		s += v * v
 	}
 	return s
 }

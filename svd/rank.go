@@ -48,39 +48,14 @@ type RankOptions struct {
 	// (√a_i of a noise-scaled matrix √A D √B: the pattern's row i is then √a_i times the
 	// fixed pattern); nil = constant. Time vectors are divided by it before the flatness test.
 	PatternTime []float64
-	// Screen, when set, stands for the matrix's values where EstimateRank reads them
-	// with the noise level given (Sigma > 0) and the factors supplied: that every entry
-	// is finite and which rows are exactly zero. The matrix may then be nil (its
-	// dimensions are the factors'), so that a matrix formed only to be screened (the
-	// data with a baseline projected out, whose factors follow from the data's,
-	// ProjectFactors) is never stored whole (ScreenRows).
+	// Screen, when set, stands for the matrix's values where EstimateRank checks
+	// them: that every entry is finite and which rows are exactly zero (see Screen).
+	// The matrix may then be nil when the factors and the noise level (Sigma > 0) are
+	// given, its dimensions being the screen's: a matrix formed only to be screened
+	// (the data with a baseline projected out, whose factors follow from the data's,
+	// ProjectFactors) is then never stored whole (ScreenRows). A screen of other
+	// dimensions than the matrix's is not used.
 	Screen *Screen
-}
-
-// Screen is what one pass over a matrix tells EstimateRank (RankOptions.Screen): the
-// error of the first non-finite entry, row by row (nil: all finite), and the rows of
-// exact zeros.
-type Screen struct {
-	Rows, Cols int
-	err        error
-	zero       []int
-}
-
-// ScreenRows screens the rows × cols matrix whose row i row(i, buf) writes into buf
-// (len cols), row after row, with the tests EstimateRank makes of a matrix it is given.
-func ScreenRows(rows, cols int, row func(i int, buf []float64)) *Screen {
-	s := &Screen{Rows: rows, Cols: cols}
-	buf := make([]float64, cols)
-	for i := 0; i < rows; i++ {
-		row(i, buf)
-		if s.err == nil {
-			s.err = rowError(buf, i)
-		}
-		if allZero(buf) {
-			s.zero = append(s.zero, i)
-		}
-	}
-	return s
 }
 
 // Criterion is one rank criterion's answer.
@@ -175,24 +150,24 @@ type RankReport struct {
 // An all-zero matrix (identical single beams: nothing happened) gives Estimate 0.
 func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error) {
 	var n, m int
-	if scr := opt.Screen; scr != nil {
+	scr := opt.Screen
+	if d == nil {
+		if !scr.complete() || f == nil || f.U == nil || f.V == nil || !(opt.Sigma > 0) {
+			return nil, fmt.Errorf("svd: estimate rank: no matrix: give its screen, its factors and the noise level")
+		}
+		n, m = scr.Rows, scr.Cols
+	} else {
+		n, m = d.Dims()
+		if !scr.of(n, m) {
+			scr = nil
+		}
+	}
+	if scr != nil {
 		if scr.err != nil {
 			return nil, fmt.Errorf("svd: estimate rank: %w", scr.err)
 		}
-		if f == nil || f.U == nil || f.V == nil || !(opt.Sigma > 0) {
-			return nil, fmt.Errorf("svd: estimate rank: a screened matrix needs its factors and the noise level")
-		}
-		n, m = scr.Rows, scr.Cols
-		if d != nil {
-			if dn, dm := d.Dims(); dn != n || dm != m {
-				return nil, fmt.Errorf("svd: estimate rank: the screen is of a %dx%d matrix, the data %dx%d", n, m, dn, dm)
-			}
-		}
-	} else {
-		if err := checkMatrix(d); err != nil {
-			return nil, fmt.Errorf("svd: estimate rank: %w", err)
-		}
-		n, m = d.Dims()
+	} else if err := checkMatrix(d); err != nil {
+		return nil, fmt.Errorf("svd: estimate rank: %w", err)
 	}
 	c, rr := min(n, m), max(n, m)
 	alpha := opt.Alpha
@@ -248,8 +223,10 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 
 	refRow := opt.ReferenceRow
 	if refRow < 0 {
-		z := opt.Screen.zeroRows()
-		if opt.Screen == nil {
+		var z []int
+		if scr != nil {
+			z = scr.zero
+		} else {
 			z = zeroRows(d)
 		}
 		if len(z) == 1 && n >= 3 && f.FrobeniusSq > 0 {
@@ -562,24 +539,6 @@ func zeroRows(d *mat.Dense) []int {
 		}
 	}
 	return z
-}
-
-// allZero says whether every entry of x is zero (of either sign).
-func allZero(x []float64) bool {
-	for _, v := range x {
-		if v != 0 {
-			return false
-		}
-	}
-	return true
-}
-
-// zeroRows are the rows of exact zeros the screen found (nil for a nil screen).
-func (s *Screen) zeroRows() []int {
-	if s == nil {
-		return nil
-	}
-	return s.zero
 }
 
 // direction is one vector w = V_K z of the smoothest basis of the leading K factors.

@@ -105,3 +105,60 @@ func TestChooseBaselineOrderFromProduct(t *testing.T) {
 		t.Error("a product of two columns was taken for order 3")
 	}
 }
+
+// A screen made as the matrix is written (ScaleIntoScreened, with the sum of squares)
+// stands for Decompose's own passes: the scaled matrix is ScaleInto's bit for bit and the
+// factors, FrobeniusSq included, equal those of Decompose reading the matrix (the
+// definition: ‖D‖²_F summed row by row in index order); a non-finite entry gives the
+// matrix's own error; a screen of other dimensions, or with a row screened out of order,
+// is not used (the matrix is read: the same factors).
+func TestDecomposeTakesTheScreen(t *testing.T) {
+	rng := newRNG(13)
+	n, m := 50, 400
+	d := noisyBilinear(rng, n, m, 3, 1e-3)
+	row, col := make([]float64, n), make([]float64, m)
+	for i := range row {
+		row[i] = 1e6 * (1 + rng.Float64())
+	}
+	for j := range col {
+		col[j] = math.Pow(10, -2*rng.Float64())
+	}
+	plain := ScaleInto(mat.NewDense(n, m, nil), d, row, col)
+	scaled, scr := ScaleIntoScreened(mat.NewDense(n, m, nil), d, row, col)
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			if math.Float64bits(scaled.At(i, j)) != math.Float64bits(plain.At(i, j)) {
+				t.Fatalf("entry %d,%d: screened scaling %v, ScaleInto %v", i, j, scaled.At(i, j), plain.At(i, j))
+			}
+		}
+	}
+	opt := DecomposeOptions{Method: MethodRandomized, MaxFactors: 6}
+	want, err := Decompose(scaled, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	broken := NewScreen(n, m, true)
+	broken.Row(1, scaled.RawRowView(1))
+	wrong := ScreenRows(n, m-1, func(i int, buf []float64) {})
+	for name, s := range map[string]*Screen{"screened": scr, "out of order": broken, "other dimensions": wrong} {
+		opt.Screen = s
+		got, err := Decompose(scaled, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !reflect.DeepEqual(got, want) || math.Float64bits(got.FrobeniusSq) != math.Float64bits(want.FrobeniusSq) {
+			t.Errorf("%s: factors differ from those of the matrix read (‖D‖² %v, want %v)", name, got.FrobeniusSq, want.FrobeniusSq)
+		}
+	}
+	bad := mat.DenseCopyOf(scaled)
+	bad.Set(7, 11, math.NaN())
+	_, wantErr := Decompose(bad, DecomposeOptions{})
+	s := NewScreen(n, m, true)
+	for i := 0; i < n; i++ {
+		s.Row(i, bad.RawRowView(i))
+	}
+	_, gotErr := Decompose(bad, DecomposeOptions{Screen: s})
+	if wantErr == nil || gotErr == nil || gotErr.Error() != wantErr.Error() {
+		t.Errorf("non-finite entry: with the screen %v, reading the matrix %v", gotErr, wantErr)
+	}
+}

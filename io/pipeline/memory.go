@@ -4,6 +4,7 @@ import (
 	"math"
 	"runtime"
 
+	"github.com/bandsolve/bandsolve/svd"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -101,14 +102,8 @@ func borrowDifference(r *Result, diffRows []*mat.Dense) (*mat.Dense, [][]float64
 			g[e][j] = a[j] - b[j]
 		}
 		for i := lo; i < hi; i++ {
-			a, b := r.D.RawRowView(i)[:m], dd.RawRowView(i)[:m]
-			for j, gj := range g[e] {
-				// A few roundings (64 ulps) of the terms' size, or of 1:
-				// logarithms of ratios near 1 err by about eps/ln 10 in
-				// absorbance whatever their own size.
-				if math.Abs(a[j]-gj-b[j]) > 0x1p-46*(1+math.Abs(a[j])+math.Abs(gj)+math.Abs(b[j])) {
-					return nil, nil
-				}
+			if !differenceRow(r.D.RawRowView(i)[:m], dd.RawRowView(i)[:m], g[e]) {
+				return nil, nil
 			}
 		}
 	}
@@ -119,11 +114,40 @@ func borrowDifference(r *Result, diffRows []*mat.Dense) (*mat.Dense, [][]float64
 	return dd, g
 }
 
+// differenceRow says whether the difference row b is the absorbance row a
+// less g to rounding: |a_j − g_j − b_j| ≤ 2⁻⁴⁶ (1 + |a_j| + |g_j| + |b_j|) at
+// every point, a few roundings (64 ulps) of the terms' size, or of 1:
+// logarithms of ratios near 1 err by about eps/ln 10 in absorbance whatever
+// their own size. The bound is never below 2⁻⁴⁶, so a row whose largest
+// |a_j − g_j − b_j| is within 2⁻⁴⁶ passes without it (a NaN passes either
+// way: it fails no comparison), one subtraction pair and a comparison per
+// point instead of four absolute values and three sums.
+func differenceRow(a, b, g []float64) bool {
+	a, b = a[:len(g)], b[:len(g)]
+	worst := 0.0
+	for j, gj := range g {
+		if x := math.Abs(a[j] - gj - b[j]); x > worst {
+			worst = x
+		}
+	}
+	if worst <= 0x1p-46 {
+		return true
+	}
+	for j, gj := range g {
+		if math.Abs(a[j]-gj-b[j]) > 0x1p-46*(1+math.Abs(a[j])+math.Abs(gj)+math.Abs(b[j])) {
+			return false
+		}
+	}
+	return true
+}
+
 // scaledDifferenceInto writes √A′ (D − 1 g_eᵀ) √B′ into out, the difference
 // matrix rebuilt from D and each experiment's fixed spectrum (borrowDifference)
-// and scaled with its own weights, as svd.ScaleInto scales it.
-func scaledDifferenceInto(out *mat.Dense, r *Result, g [][]float64) *mat.Dense {
-	_, m := r.D.Dims()
+// and scaled with its own weights, as svd.ScaleInto scales it, and screens
+// each row as it is written (svd.Screen, with the sum of squares).
+func scaledDifferenceInto(out *mat.Dense, r *Result, g [][]float64) (*mat.Dense, *svd.Screen) {
+	n, m := r.D.Dims()
+	screen := svd.NewScreen(n, m, true)
 	sb := make([]float64, m)
 	for j, b := range r.DiffWeights.Col {
 		sb[j] = math.Sqrt(b)
@@ -135,7 +159,8 @@ func scaledDifferenceInto(out *mat.Dense, r *Result, g [][]float64) *mat.Dense {
 			for j, v := range src {
 				dst[j] = sa * (v - g[e][j]) * sb[j]
 			}
+			screen.Row(i, dst)
 		}
 	}
-	return out
+	return out, screen
 }

@@ -78,6 +78,9 @@ type rankInputs struct {
 	// start (m × p, may be nil) holds directions d's leading row space lies
 	// close to, where its randomized SVD starts (svd.DecomposeOptions.Start).
 	start *mat.Dense
+	// screen (may be nil) is d's, made as d was written (svd.Screen): the
+	// decomposition and the rank of d itself take it instead of passes over d.
+	screen *svd.Screen
 	// basis and dq (may be nil) are the baseline basis of the highest order
 	// chooseBaseline tries and d times it: the basis of each lower order is
 	// its leading columns (svd.PolyBasis is nested), and so is that order's
@@ -133,7 +136,7 @@ func weightedRankInputs(r *Result, scaled *mat.Dense, row, col []float64, refRow
 // the factors above the noise; Estimate becomes the chemical count. f holds factors of
 // d (nil: d is decomposed here). It returns the report and the classification.
 func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInputs, meanLevel bool) (*svd.RankReport, *svd.ChemicalRank, error) {
-	dc := d
+	dc, screen := d, in.screen
 	if order >= 0 {
 		_, m := d.Dims()
 		if order+1 >= m {
@@ -147,14 +150,21 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 			return screenedRank(r, d, f, q, dq, in, meanLevel)
 		}
 		if in.reuse {
-			subtractBaselineInPlace(d, dq, q) // the same values as below
-			dc = d
+			dc = d // the same values as below
 			if in.rebuild != nil {
 				defer in.rebuild(d)
 			}
 		} else {
 			dc = mat.NewDense(d.RawMatrix().Rows, m, nil)
-			lessBaseline(dc, d, dq, q) // D − (D Q) Qᵀ as Mul and Sub form it
+		}
+		// D − (D Q) Qᵀ as Mul and Sub form it, each row screened as it is
+		// written.
+		screen = svd.NewScreen(d.RawMatrix().Rows, m, true)
+		_, nb := q.Dims()
+		for i := range d.RawMatrix().Rows {
+			row := dc.RawRowView(i)[:m]
+			lessBaselineRow(row, d.RawRowView(i)[:m], dq.RawRowView(i)[:nb], q)
+			screen.Row(i, row)
 		}
 		if f != nil && !f.Full() {
 			var err error
@@ -176,11 +186,13 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 	}
 	if f == nil {
 		var err error
-		if f, err = svd.Decompose(dc, svd.DecomposeOptions{MaxFactors: in.maxF, Seed: r.Settings.Seed, Start: in.start}); err != nil {
+		if f, err = svd.Decompose(dc, svd.DecomposeOptions{MaxFactors: in.maxF, Seed: r.Settings.Seed, Start: in.start, Screen: screen}); err != nil {
 			return nil, nil, fmt.Errorf("factor analysis without the baseline: %w", err)
 		}
 	}
-	rep, err := svd.EstimateRank(dc, f, in.opt)
+	opt := in.opt
+	opt.Screen = screen
+	rep, err := svd.EstimateRank(dc, f, opt)
 	if err != nil {
 		return nil, nil, err
 	}

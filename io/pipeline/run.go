@@ -238,14 +238,16 @@ func Run(s *Settings, log io.Writer) (*Result, error) {
 			if scaled == nil {
 				scaled = mat.NewDense(n, m, nil)
 			}
-			in = weightedRankInputs(r, svd.ScaleInto(scaled, r.D, r.Weights.Row, r.Weights.Col), r.Weights.Row, r.Weights.Col, refRow, maxF)
+			scaled, screen := svd.ScaleIntoScreened(scaled, r.D, r.Weights.Row, r.Weights.Col)
+			in = weightedRankInputs(r, scaled, r.Weights.Row, r.Weights.Col, refRow, maxF)
+			in.screen = screen
 			// The baseline's projection overwrites this copy and
 			// rebuilds it from D: one scaled matrix instead of two.
 			in.reuse = true
 			in.rebuild = func(d *mat.Dense) { svd.ScaleInto(d, r.D, r.Weights.Row, r.Weights.Col) }
 		}
 		if rf == nil {
-			if rf, err = svd.Decompose(in.d, svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed}); err != nil {
+			if rf, err = svd.Decompose(in.d, svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed, Screen: in.screen}); err != nil {
 				return nil, fmt.Errorf("factor analysis: %w", err)
 			}
 		}
@@ -353,8 +355,9 @@ func lentDifferenceRank(r *Result, spare *mat.Dense, refs [][]float64, rf *svd.F
 	// (weightedDifferenceStart).
 	ref := singleReferenceRow(r)
 	start := weightedDifferenceStart(r, refs, rf)
-	din := weightedRankInputs(r, scaledDifferenceInto(spare, r, refs), r.DiffWeights.Row, r.DiffWeights.Col, ref, maxF)
-	din.reuse, din.start = true, start
+	scaled, screen := scaledDifferenceInto(spare, r, refs)
+	din := weightedRankInputs(r, scaled, r.DiffWeights.Row, r.DiffWeights.Col, ref, maxF)
+	din.reuse, din.start, din.screen = true, start, screen
 	r.DiffRank, r.DiffChemical, _ = chemicalRank(r, din.d, nil, r.BaselineOrder, din, false)
 }
 
@@ -390,8 +393,9 @@ func copiedDifferenceRank(r *Result, s *Settings, diffRows []*mat.Dense, rf, f *
 		// Its randomized SVD starts from the row space the factors of
 		// √A D √B already found (weightedDifferenceStart).
 		start := weightedDifferenceStart(r, referenceSpectra(r, dd), rf)
-		din = weightedRankInputs(r, svd.ScaleInto(dd, dd, r.DiffWeights.Row, r.DiffWeights.Col), r.DiffWeights.Row, r.DiffWeights.Col, ref, maxF)
-		din.reuse, din.start = true, start
+		scaled, screen := svd.ScaleIntoScreened(dd, dd, r.DiffWeights.Row, r.DiffWeights.Col)
+		din = weightedRankInputs(r, scaled, r.DiffWeights.Row, r.DiffWeights.Col, ref, maxF)
+		din.reuse, din.start, din.screen = true, start, screen
 		r.DiffRank, r.DiffChemical, _ = chemicalRank(r, din.d, nil, r.BaselineOrder, din, false)
 	} else if r.BaselineOrder >= 0 {
 		r.DiffRank, r.DiffChemical, _ = chemicalRank(r, dd, nil, r.BaselineOrder, din, false)

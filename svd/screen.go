@@ -1,0 +1,98 @@
+package svd
+
+import (
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Screen is what one pass over a matrix tells the steps that check it before they
+// work from its factors: the error of its first non-finite entry, row by row (nil:
+// all finite), its rows of exact zeros, and when summed its squared Frobenius norm
+// summed as Decompose sums it (row by row, in index order: the same bits). A pass
+// that writes the matrix a row at a time screens each row as it leaves it, while it
+// is in cache (ScaleIntoScreened; Row for a caller's own pass), and
+// DecomposeOptions.Screen and RankOptions.Screen then stand for the passes
+// Decompose and EstimateRank would make over the matrix to learn the same. A screen
+// holds only while the matrix is as it was screened.
+type Screen struct {
+	Rows, Cols int
+	next       int // rows screened so far, in order; −1 after a row out of order
+	err        error
+	zero       []int
+	sum        bool
+	frob       float64
+}
+
+// NewScreen starts the screen of a rows × cols matrix, with its sum of squares
+// when sum is set; Row adds its rows in order.
+func NewScreen(rows, cols int, sum bool) *Screen {
+	return &Screen{Rows: rows, Cols: cols, sum: sum}
+}
+
+// Row screens row i (its cols entries); rows come in order from 0, and a row out
+// of order leaves the screen unusable (every step then reads the matrix itself).
+func (s *Screen) Row(i int, row []float64) {
+	if s.next != i || len(row) != s.Cols {
+		s.next = -1
+		return
+	}
+	if s.err == nil {
+		s.err = rowError(row, i)
+	}
+	if allZero(row) {
+		s.zero = append(s.zero, i)
+	}
+	if s.sum {
+		s.frob = sumSquares(s.frob, row)
+	}
+	s.next++
+}
+
+// ScreenRows screens the rows × cols matrix whose row i row(i, buf) writes into
+// buf (len cols), row after row, without its sum of squares.
+func ScreenRows(rows, cols int, row func(i int, buf []float64)) *Screen {
+	s := NewScreen(rows, cols, false)
+	buf := make([]float64, cols)
+	for i := 0; i < rows; i++ {
+		row(i, buf)
+		s.Row(i, buf)
+	}
+	return s
+}
+
+// ScaleIntoScreened is ScaleInto, screening each row of the scaled matrix as it
+// is written, with its sum of squares.
+func ScaleIntoScreened(out, d *mat.Dense, row, col []float64) (*mat.Dense, *Screen) {
+	n, m := d.Dims()
+	s := NewScreen(n, m, true)
+	sb := make([]float64, m)
+	for j, b := range col {
+		sb[j] = math.Sqrt(b)
+	}
+	for i := 0; i < n; i++ {
+		sa := math.Sqrt(row[i])
+		src, dst := d.RawRowView(i)[:m], out.RawRowView(i)[:m]
+		for j, v := range src {
+			dst[j] = sa * v * sb[j]
+		}
+		s.Row(i, dst)
+	}
+	return out, s
+}
+
+// complete says whether every row was screened in order (false for nil).
+func (s *Screen) complete() bool { return s != nil && s.next == s.Rows }
+
+// of says whether s is a complete screen of an n × m matrix.
+func (s *Screen) of(n, m int) bool { return s.complete() && s.Rows == n && s.Cols == m }
+
+// allZero says whether every entry of x is zero (of either sign).
+func allZero(x []float64) bool {
+	for _, v := range x {
+		if v != 0 {
+			return false
+		}
+	}
+	return true
+}
