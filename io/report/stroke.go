@@ -252,15 +252,26 @@ func (pc *pixelCanvas) rasterizeStroke(path ftraster.Path, width fixed.Int26_6, 
 	if len(path) == 0 {
 		return
 	}
+	r := pc.rasterizer()
+	r.AddStroke(path, width, ftraster.ButtCapper, ftraster.RoundJoiner)
+	pc.paintBand(r, painter, clip)
+}
+
+// rasterizer is the canvas's one rasterizer, emptied, set to non-zero
+// winding as the drawing context sets it.
+func (pc *pixelCanvas) rasterizer() *ftraster.Rasterizer {
 	if pc.ras == nil {
 		pc.ras = ftraster.NewRasterizer(pc.img.Rect.Dx(), pc.img.Rect.Dy())
 	}
-	r := pc.ras
-	r.UseNonZeroWinding = true
-	r.Clear()
-	r.AddStroke(path, width, ftraster.ButtCapper, ftraster.RoundJoiner)
-	// The context's painter for a solid colour, on the band's columns only
-	// (it paints nothing outside its image's bounds).
+	pc.ras.UseNonZeroWinding = true
+	pc.ras.Clear()
+	return pc.ras
+}
+
+// paintBand paints what r holds with the context's painter for a solid
+// colour, on the band's columns only (it paints nothing outside its
+// image's bounds).
+func (pc *pixelCanvas) paintBand(r *ftraster.Rasterizer, painter *ftraster.RGBAPainter, clip image.Rectangle) {
 	painter.Image = pc.img.SubImage(clip).(*image.RGBA)
 	r.Rasterize(painter)
 }
@@ -374,13 +385,7 @@ func (pc *pixelCanvas) rasterizeFill(path ftraster.Path, painter *ftraster.RGBAP
 	if len(path) == 0 {
 		return
 	}
-	if pc.ras == nil {
-		pc.ras = ftraster.NewRasterizer(pc.img.Rect.Dx(), pc.img.Rect.Dy())
-	}
-	r := pc.ras
-	r.UseNonZeroWinding = true
-	r.Clear()
+	r := pc.rasterizer()
 	r.AddPath(path)
-	painter.Image = pc.img.SubImage(clip).(*image.RGBA)
-	r.Rasterize(painter)
+	pc.paintBand(r, painter, clip)
 }
