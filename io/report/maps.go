@@ -3,6 +3,8 @@ package report
 import (
 	"math"
 	"strconv"
+
+	"github.com/bandsolve/bandsolve/internal/decimal"
 )
 
 // Limits of maps.csv: enough rows and points for a figure at print size,
@@ -115,85 +117,14 @@ func appendValue(b []byte, v float64, digits int) ([]byte, float64, bool) {
 	return b, r, true
 }
 
-// pow10 are the powers of ten a float64 holds exactly.
-var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10,
-	1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
-
 // parseNumber is strconv.ParseFloat(string(s), 64) for the text
-// strconv.AppendFloat writes, without the string. A decimal m·10^e with m
-// below 10^15 (so exact in a float64) and |e| ≤ 22 (so 10^|e| exact) is
-// one multiplication or division of two exact values, which IEEE 754
-// rounds correctly, as ParseFloat rounds (Clinger's fast path, W. D.
-// Clinger, "How to read floating point numbers accurately", PLDI 1990);
-// any other text goes to ParseFloat.
+// strconv.AppendFloat writes, without the string where decimal.Parse
+// reads it exactly (Clinger's fast path).
 func parseNumber(s []byte) (float64, error) {
-	i, neg := 0, false
-	if i < len(s) && (s[i] == '-' || s[i] == '+') {
-		neg, i = s[i] == '-', i+1
+	if v, ok := decimal.Parse(s); ok {
+		return v, nil
 	}
-	var m uint64
-	digits, exp, dot, any := 0, 0, false, false
-digits:
-	for ; i < len(s); i++ {
-		c := s[i]
-		switch {
-		case c >= '0' && c <= '9':
-			any = true
-			if m == 0 && c == '0' {
-				if dot {
-					exp--
-				}
-				continue
-			}
-			digits++
-			m = m*10 + uint64(c-'0')
-			if dot {
-				exp--
-			}
-		case c == '.' && !dot:
-			dot = true
-		default:
-			break digits
-		}
-	}
-	if i < len(s) {
-		if (s[i] != 'e' && s[i] != 'E') || i+1 == len(s) {
-			return strconv.ParseFloat(string(s), 64)
-		}
-		i++
-		eneg := false
-		if s[i] == '-' || s[i] == '+' {
-			eneg, i = s[i] == '-', i+1
-		}
-		e, n := 0, 0
-		for ; i < len(s) && s[i] >= '0' && s[i] <= '9' && n < 4; i, n = i+1, n+1 {
-			e = e*10 + int(s[i]-'0')
-		}
-		if n == 0 || i < len(s) {
-			return strconv.ParseFloat(string(s), 64)
-		}
-		if eneg {
-			e = -e
-		}
-		exp += e
-	}
-	if !any || digits > 15 {
-		return strconv.ParseFloat(string(s), 64)
-	}
-	f := float64(m)
-	switch {
-	case m == 0:
-	case exp >= 0 && exp < len(pow10):
-		f *= pow10[exp]
-	case exp < 0 && -exp < len(pow10):
-		f /= pow10[-exp]
-	default:
-		return strconv.ParseFloat(string(s), 64)
-	}
-	if neg {
-		f = -f
-	}
-	return f, nil
+	return strconv.ParseFloat(string(s), 64)
 }
 
 // MapRows are the rows (of n times) that MapsCSV shows, so that a caller

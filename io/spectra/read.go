@@ -24,6 +24,7 @@ import (
 	"time"
 	"unsafe"
 
+	"github.com/bandsolve/bandsolve/internal/decimal"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -210,7 +211,7 @@ func parseNumber(b []byte) (float64, error) {
 	if len(b) == 0 {
 		return 0, errors.New("empty cell")
 	}
-	if v, ok := fastFloat(b); ok {
+	if v, ok := decimal.Parse(b); ok {
 		return v, nil
 	}
 	v, err := strconv.ParseFloat(unsafe.String(&b[0], len(b)), 64)

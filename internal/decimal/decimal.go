@@ -1,11 +1,14 @@
-package spectra
+// Package decimal reads the plain decimal numbers that instruments and
+// strconv.AppendFloat write, bit for bit as strconv.ParseFloat reads them,
+// without its general algorithm where a correctly rounded shortcut exists.
+package decimal
 
 // pow10 holds the powers of ten that are exact in float64 (10^22 is the
 // largest: 5^22 < 2^53).
 var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10,
 	1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
 
-// fastFloat parses the plain decimals instruments write (optional sign,
+// Parse parses the plain decimals instruments write (optional sign,
 // digits with one optional point, optional exponent) when at most 15
 // digits are given and the decimal exponent is within ±22: the digits are
 // then an exact integer in float64 and 10^|e| an exact power, so one
@@ -13,7 +16,7 @@ var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10,
 // as strconv.ParseFloat (Clinger, PLDI 1990, "How to read floating point
 // numbers accurately"). Anything else returns ok = false and goes to
 // strconv.
-func fastFloat(b []byte) (v float64, ok bool) {
+func Parse(b []byte) (v float64, ok bool) {
 	i, neg := 0, false
 	if i < len(b) && (b[i] == '-' || b[i] == '+') {
 		neg = b[i] == '-'

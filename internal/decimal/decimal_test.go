@@ -1,4 +1,4 @@
-package spectra
+package decimal
 
 import (
 	"math"
@@ -7,10 +7,10 @@ import (
 	"testing"
 )
 
-// fastFloat must give exactly strconv.ParseFloat's bits whenever it accepts a
+// Parse must give exactly strconv.ParseFloat's bits whenever it accepts a
 // cell (the Go standard library is the reference: correctly rounded
 // decimal-to-binary conversion), and refuse what it cannot do exactly.
-func TestFastFloatSameBitsAsStrconv(t *testing.T) {
+func TestParseSameBitsAsStrconv(t *testing.T) {
 	cases := []string{"0", "-0", "+1", "1.", ".5", "24635.637", "4000", "-1.25e-3", "3E+2",
 		"123456789012345", "0.000000000000000000001", "9.99999999999999e22", "1e22", "1e-22",
 		"5e-324", "1e23", "1234567890123456", "1e", "e5", "1.2.3", "--1", "1e1000", "0x10", "inf", "NaN", "1_0", ""}
@@ -22,7 +22,7 @@ func TestFastFloatSameBitsAsStrconv(t *testing.T) {
 	}
 	accepted := 0
 	for _, c := range cases {
-		got, ok := fastFloat([]byte(c))
+		got, ok := Parse([]byte(c))
 		want, err := strconv.ParseFloat(c, 64)
 		if !ok {
 			continue
@@ -39,7 +39,7 @@ func TestFastFloatSameBitsAsStrconv(t *testing.T) {
 		t.Errorf("fast path took only %d of %d cells", accepted, len(cases))
 	}
 	for _, c := range []string{"1e23", "1234567890123456", "1e", "e5", "1.2.3", "--1", "0x10", "inf", "NaN", "1_0", ""} {
-		if v, ok := fastFloat([]byte(c)); ok {
+		if v, ok := Parse([]byte(c)); ok {
 			t.Errorf("%q: fast path accepted %v, must defer to strconv", c, v)
 		}
 	}
