@@ -170,18 +170,23 @@ func mulTWideGo(out, a, b *mat.Dense) {
 					}
 				}
 				if j < je {
-					o := ro.Data[j*ro.Stride : j*ro.Stride+k]
-					for r := 0; r < h; r++ {
-						v := aa[r*ra.Stride+j]
-						br := bb[r*rb.Stride : r*rb.Stride+k]
-						for c, w := range br {
-							o[c] += v * w
-						}
-					}
+					mulTColumn(ro.Data[j*ro.Stride:j*ro.Stride+k], aa[j:], ra.Stride, bb, rb.Stride, h)
 				}
 			}
 		}
 	})
+}
+
+// mulTColumn adds Σ_r x_r b_r to o over h rows r ascending, with
+// x_r = a[r·sa] and b_r = b[r·sb : r·sb+len(o)]: one output row of aᵀ b
+// that no tile covers.
+func mulTColumn(o, a []float64, sa int, b []float64, sb, h int) {
+	for r := 0; r < h; r++ {
+		v := a[r*sa]
+		for c, w := range b[r*sb : r*sb+len(o)] {
+			o[c] += v * w
+		}
+	}
 }
 
 // tileT2x3 adds Σ_r x_r b_r to o and Σ_r y_r b_r to p (three entries

@@ -67,13 +67,7 @@ func mulTWideVec(out, a, b *mat.Dense) {
 					tileRow4(ro.Data[j*ro.Stride:], ro.Stride, aa[j:], 1, ra.Stride, bb, rb.Stride, h, k)
 				}
 				for ; j < je; j++ {
-					o := ro.Data[j*ro.Stride : j*ro.Stride+k]
-					for r := 0; r < h; r++ {
-						v := aa[r*ra.Stride+j]
-						for c, w := range bb[r*rb.Stride : r*rb.Stride+k] {
-							o[c] += v * w
-						}
-					}
+					mulTColumn(ro.Data[j*ro.Stride:j*ro.Stride+k], aa[j:], ra.Stride, bb, rb.Stride, h)
 				}
 			}
 		}
