@@ -1,10 +1,6 @@
 package svd
 
-import (
-	"math"
-
-	"gonum.org/v1/gonum/mat"
-)
+import "gonum.org/v1/gonum/mat"
 
 // Screen is what one pass over a matrix tells the steps that check it before they
 // work from its factors: the error of its first non-finite entry, row by row (nil:
@@ -66,18 +62,7 @@ func ScreenRows(rows, cols int, row func(i int, buf []float64)) *Screen {
 func ScaleIntoScreened(out, d *mat.Dense, row, col []float64) (*mat.Dense, *Screen) {
 	n, m := d.Dims()
 	s := NewScreen(n, m, true)
-	sb := make([]float64, m)
-	for j, b := range col {
-		sb[j] = math.Sqrt(b)
-	}
-	for i := 0; i < n; i++ {
-		sa := math.Sqrt(row[i])
-		src, dst := d.RawRowView(i)[:m], out.RawRowView(i)[:m]
-		for j, v := range src {
-			dst[j] = sa * v * sb[j]
-		}
-		s.Row(i, dst)
-	}
+	scaleRows(out, d, row, col, s)
 	return out, s
 }
 

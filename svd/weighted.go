@@ -24,6 +24,13 @@ func Scale(d *mat.Dense, row, col []float64) *mat.Dense {
 // matrix in a buffer it already holds instead of allocating one more
 // data-sized matrix.
 func ScaleInto(out, d *mat.Dense, row, col []float64) *mat.Dense {
+	scaleRows(out, d, row, col, nil)
+	return out
+}
+
+// scaleRows writes out = diag(√row) d diag(√col) a row at a time, and hands
+// each written row to s while it is in cache (s nil: no screen).
+func scaleRows(out, d *mat.Dense, row, col []float64, s *Screen) {
 	n, m := d.Dims()
 	sb := make([]float64, m)
 	for j, b := range col {
@@ -31,12 +38,14 @@ func ScaleInto(out, d *mat.Dense, row, col []float64) *mat.Dense {
 	}
 	for i := 0; i < n; i++ {
 		sa := math.Sqrt(row[i])
-		src, dst := d.RawRowView(i)[:m], out.RawRowView(i)
+		src, dst := d.RawRowView(i)[:m], out.RawRowView(i)[:m]
 		for j, v := range src {
 			dst[j] = sa * v * sb[j]
 		}
+		if s != nil {
+			s.Row(i, dst)
+		}
 	}
-	return out
 }
 
 // ImputeMissing fills the missing points of the scaled matrix ds (missing[i]:
