@@ -65,12 +65,7 @@ func (pc *pixelCanvas) strokeLines(c draw.Canvas, sty draw.LineStyle, lines [][]
 		if len(l) == 0 {
 			continue
 		}
-		pts := make([]fixed.Point26_6, len(l))
-		for i, p := range l {
-			x, y := pc.ctx.TransformPoint(p.X.Dots(dpi), p.Y.Dots(dpi))
-			pts[i] = gg.Point{X: x, Y: y}.Fixed()
-		}
-		pc.strokeBands(st.subpaths(pts), st.width, painter)
+		pc.strokeBands(st.subpaths(pc.fixedPoints(l, dpi)), st.width, painter)
 	}
 }
 
@@ -257,6 +252,17 @@ func (pc *pixelCanvas) rasterizeStroke(path ftraster.Path, width fixed.Int26_6, 
 	pc.paintBand(r, painter, clip)
 }
 
+// fixedPoints are the points l (canvas coordinates) in the device's 26.6
+// fixed point, through the context's transform, as the context forms them.
+func (pc *pixelCanvas) fixedPoints(l []vg.Point, dpi float64) []fixed.Point26_6 {
+	pts := make([]fixed.Point26_6, len(l))
+	for i, p := range l {
+		x, y := pc.ctx.TransformPoint(p.X.Dots(dpi), p.Y.Dots(dpi))
+		pts[i] = gg.Point{X: x, Y: y}.Fixed()
+	}
+	return pts
+}
+
 // rasterizer is the canvas's one rasterizer, emptied, set to non-zero
 // winding as the drawing context sets it.
 func (pc *pixelCanvas) rasterizer() *ftraster.Rasterizer {
@@ -292,11 +298,9 @@ func (pc *pixelCanvas) fillRings(rings [][]vg.Point, colour color.Color) {
 		if len(ring) == 0 {
 			continue
 		}
-		pts := make([]fixed.Point26_6, len(ring))
-		for i, p := range ring {
-			x, y := pc.ctx.TransformPoint(p.X.Dots(dpi), p.Y.Dots(dpi))
-			pts[i] = gg.Point{X: x, Y: y}.Fixed()
-			lo, hi = min(lo, pts[i].X), max(hi, pts[i].X)
+		pts := pc.fixedPoints(ring, dpi)
+		for _, q := range pts {
+			lo, hi = min(lo, q.X), max(hi, q.X)
 		}
 		fixedRings = append(fixedRings, pts)
 	}
