@@ -474,7 +474,7 @@ func wholeRun(b *testing.B, series, blank, out string) (parse, whole float64, lo
 	s.Out, s.Force, s.Quiet = out, true, true
 	t0 = time.Now()
 	log = newPhaseLog()
-	r, err := Run(s, log)
+	r, err := runForFolder(s, log)
 	if err != nil {
 		b.Fatal(err)
 	}

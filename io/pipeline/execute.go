@@ -45,7 +45,7 @@ func Execute(s *Settings, st Streams) (*Result, error) {
 		return nil, err
 	}
 	log := st.progress(s)
-	r, err := Run(s, log)
+	r, err := runForFolder(s, log)
 	endProgress(log)
 	if err != nil {
 		return nil, err
@@ -112,8 +112,11 @@ func finish(r *Result, stage *output.Stage, extra Extra, st Streams) error {
 		}
 	}
 	// The manifest's hashes of the data files read every byte of them
-	// again; begun now, they run while the result files are written.
-	r.inputSums = startInputSums(dataFiles(r))
+	// again: begun by runForFolder when the data were read, else now, to
+	// run while the result files are written.
+	if r.inputSums == nil {
+		r.inputSums = startInputSums(dataFiles(r))
+	}
 	defer r.inputSums.wait()
 	if err := WriteResults(r, stage); err != nil {
 		return err
@@ -202,7 +205,7 @@ func Demo(out string, force bool, quiet, asJSON bool, st Streams) (*Result, erro
 	// read next to the truth.
 	s.Model, s.T0 = "A -> B -> C", fmt.Sprint(truth.T0)
 	log := st.progress(s)
-	r, err := Run(s, log)
+	r, err := runForFolder(s, log)
 	endProgress(log)
 	if err != nil {
 		return fail(err)

@@ -221,3 +221,38 @@ func TestInputSumsAheadOfTheManifest(t *testing.T) {
 		t.Errorf("missing file: %v, want %v", err, want)
 	}
 }
+
+// A run that writes a folder hashes its data files while it analyses them
+// and has finished hashing when it returns (no goroutine outlives it); the
+// sums are HashFile's (checked against FIPS 180-2 above) for every data
+// file. Run alone, which writes no manifest, hashes nothing.
+func TestFolderRunHashesItsDataBeforeReturning(t *testing.T) {
+	dir := t.TempDir()
+	writeScans(t, dir, 10)
+	r, err := runForFolder(scanSettings(dir, "out"), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	select {
+	case <-r.inputSums.done:
+	default:
+		t.Fatal("runForFolder returned before the data files were hashed")
+	}
+	files := dataFiles(r)
+	if len(files) != len(r.Experiments[0].Series.Names) || len(r.inputSums.sums) != len(files) {
+		t.Fatalf("%d data files, %d hashed; want one per spectrum file (%d)", len(files), len(r.inputSums.sums), len(r.Experiments[0].Series.Names))
+	}
+	for _, f := range files {
+		n, sum, err := HashFile(f)
+		if got := r.inputSums.sums[f]; err != nil || got.err != nil || got.n != n || got.sum != sum {
+			t.Errorf("%s: hashed %d bytes %s (%v), HashFile gives %d bytes %s (%v)", f, got.n, got.sum, got.err, n, sum, err)
+		}
+	}
+	plain, err := Run(scanSettings(dir, "out"), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if plain.inputSums != nil {
+		t.Error("Run hashed the data files, though it writes no manifest")
+	}
+}

@@ -109,7 +109,7 @@ func Verify(dir string, log io.Writer) (*Verification, error) {
 		v.Notes = append(v.Notes, fmt.Sprintf("the record names inputs by absolute path (%s): this folder reproduces only where those paths exist; give relative paths to keep a folder movable", n))
 	}
 	fmt.Fprintf(log, "rerunning %s\n", record)
-	r, err := Run(s, log)
+	r, err := runForFolder(s, log)
 	if err != nil {
 		return nil, fmt.Errorf("rerun: %w", err)
 	}
