@@ -1,0 +1,864 @@
+// The dqds singular values of this file follow gonum's Dlasq1–Dlasq6
+// (gonum.org/v1/gonum/lapack/gonum, v0.17.0), which carry this notice:
+//
+// Copyright ©2015 The Gonum Authors. All rights reserved.
+//
+// Redistribution and use in source and binary forms, with or without
+// modification, are permitted provided that the following conditions are met:
+//     * Redistributions of source code must retain the above copyright
+//       notice, this list of conditions and the following disclaimer.
+//     * Redistributions in binary form must reproduce the above copyright
+//       notice, this list of conditions and the following disclaimer in the
+//       documentation and/or other materials provided with the distribution.
+//     * Neither the name of the Gonum project nor the names of its authors and
+//       contributors may be used to endorse or promote products derived from this
+//       software without specific prior written permission.
+//
+// THIS SOFTWARE IS PROVIDED BY THE COPYRIGHT HOLDERS AND CONTRIBUTORS "AS IS" AND
+// ANY EXPRESS OR IMPLIED WARRANTIES, INCLUDING, BUT NOT LIMITED TO, THE IMPLIED
+// WARRANTIES OF MERCHANTABILITY AND FITNESS FOR A PARTICULAR PURPOSE ARE
+// DISCLAIMED. IN NO EVENT SHALL THE COPYRIGHT HOLDER OR CONTRIBUTORS BE LIABLE
+// FOR ANY DIRECT, INDIRECT, INCIDENTAL, SPECIAL, EXEMPLARY, OR CONSEQUENTIAL
+// DAMAGES (INCLUDING, BUT NOT LIMITED TO, PROCUREMENT OF SUBSTITUTE GOODS OR
+// SERVICES; LOSS OF USE, DATA, OR PROFITS; OR BUSINESS INTERRUPTION) HOWEVER
+// CAUSED AND ON ANY THEORY OF LIABILITY, WHETHER IN CONTRACT, STRICT LIABILITY,
+// OR TORT (INCLUDING NEGLIGENCE OR OTHERWISE) ARISING IN ANY WAY OUT OF THE USE
+// OF THIS SOFTWARE, EVEN IF ADVISED OF THE POSSIBILITY OF SUCH DAMAGE.
+
+package svd
+
+import (
+	"math"
+
+	"gonum.org/v1/gonum/lapack"
+	lapackgonum "gonum.org/v1/gonum/lapack/gonum"
+)
+
+// The dqds algorithm (Fernando & Parlett, Numer. Math. 1994; Parlett &
+// Marques, Linear Algebra Appl. 2000) takes the singular values of a
+// bidiagonal matrix to high relative accuracy. This is LAPACK's DLASQ1–6 as
+// gonum writes them, step for step and operation for operation, so that the
+// values are gonum's to the bit (TestBidiagonalValuesAreDlasq1s, and
+// TestDqdsStepsAreGonums step by step). What differs is only what costs
+// time in EFA, where it runs twice per row: the running minima are Go's
+// min and max (the same IEEE rules as math.Min and math.Max, but inlined:
+// math.Min is an assembly call on amd64 and took more than half of the
+// transform's time), and the state DLASQ3 passes through eighteen
+// arguments and results lives in one struct. Left out: DLASQ2's checks
+// for negative data (its input here is squares) and its performance
+// counts, and DLASQ1's hand-over to QR sweeps after the iteration limit.
+
+const (
+	qdEps    = 0x1p-52   // LAPACK's dlamch('P'): the relative spacing ε·β
+	qdSafmin = 0x1p-1022 // dlamch('S'): the smallest normal number
+	qdCbias  = 1.5       // DLASQ2's bias towards reversing the array
+)
+
+// bidiagonalValues puts the singular values of the n × n upper bidiagonal
+// matrix with diagonal d and superdiagonal e (length n−1 at least) into d,
+// descending, using work (length 4n at least); e may be overwritten. It
+// returns DLASQ1's info: 0 on success, 2 when dqds stopped at its
+// iteration limit, 1 or 3 on the failures LAPACK reports; d holds nothing
+// of use then. (After info 2 DLASQ1 leaves a bidiagonal with the same
+// values for DBDSQR's QR sweeps to finish; the one caller, squareValues,
+// hands the matrix to mat.SVD instead, which takes that path from the
+// start, so that state is not kept.)
+func bidiagonalValues(d, e, work []float64) int {
+	var impl lapackgonum.Implementation
+	n := len(d)
+	switch n {
+	case 0:
+		return 0
+	case 1:
+		d[0] = math.Abs(d[0])
+		return 0
+	case 2:
+		d[1], d[0] = impl.Dlas2(d[0], e[0], d[1])
+		return 0
+	}
+	var sigmx float64
+	for i := 0; i < n-1; i++ {
+		d[i] = math.Abs(d[i])
+		sigmx = max(sigmx, math.Abs(e[i]))
+	}
+	d[n-1] = math.Abs(d[n-1])
+	if sigmx == 0 { // already diagonal
+		impl.Dlasrt(lapack.SortDecreasing, n, d)
+		return 0
+	}
+	for i := 0; i < n; i++ {
+		sigmx = max(sigmx, d[i])
+	}
+	// Scale into the z format and square (squaring makes scaling by a
+	// power of the radix pointless).
+	scale := math.Sqrt(qdEps / qdSafmin)
+	for i := 0; i < n; i++ {
+		work[2*i] = d[i]
+	}
+	for i := 0; i < n-1; i++ {
+		work[2*i+1] = e[i]
+	}
+	impl.Dlascl(lapack.General, 0, 0, sigmx, scale, 2*n-1, 1, work, 1)
+	for i := 0; i < 2*n-1; i++ {
+		work[i] *= work[i]
+	}
+	work[2*n-1] = 0
+	info := qdEigenvalues(n, work)
+	if info == 0 {
+		for i := 0; i < n; i++ {
+			d[i] = math.Sqrt(work[i])
+		}
+		impl.Dlascl(lapack.General, 0, 0, scale, sigmx, n, 1, d, 1)
+	}
+	return info
+}
+
+// qdState is what DLASQ3 carries from one dqds step to the next.
+type qdState struct {
+	z                    []float64
+	i0, n0, pp           int
+	dmin, sigma, desig   float64
+	qmax                 float64
+	nFail, iter, nDiv    int
+	ttype                int
+	dmin1, dmin2         float64
+	dn, dn1, dn2, g, tau float64
+}
+
+// qdEigenvalues is DLASQ2 for n ≥ 3: the eigenvalues of the positive
+// definite tridiagonal of the qd array z (q1, e1, q2, e2, …; length 4n),
+// descending in z[0:n]. The data must be non-negative (squares).
+func qdEigenvalues(n int, z []float64) int {
+	tol := qdEps * 100
+	tol2 := tol * tol
+	z[2*n-1] = 0
+	var d, e float64
+	for k := 0; k < 2*(n-1); k += 2 {
+		d += z[k]
+		e += z[k+1]
+	}
+	d += z[2*(n-1)]
+	if e == 0 { // diagonal
+		for k := 1; k < n; k++ {
+			z[k] = z[2*k]
+		}
+		var impl lapackgonum.Implementation
+		impl.Dlasrt(lapack.SortDecreasing, n, z)
+		z[2*(n-1)] = d
+		return 0
+	}
+	if d+e == 0 { // zero
+		z[2*(n-1)] = 0
+		return 0
+	}
+	// Rearrange data for locality: z = (q1, qq1, e1, ee1, q2, qq2, e2, ee2, …).
+	for k := 2 * n; k >= 2; k -= 2 {
+		z[2*k-1] = 0
+		z[2*k-2] = z[k-1]
+		z[2*k-3] = 0
+		z[2*k-4] = z[k-2]
+	}
+	s := qdState{z: z, n0: n - 1}
+	if qdCbias*z[0] < z[4*s.n0] { // reverse the qd array, if warranted
+		ipn4 := 4*(s.n0+2) - 1
+		for i4loop := 4; i4loop <= 2*(s.n0+1); i4loop += 4 {
+			i4 := i4loop - 1
+			z[i4-3], z[ipn4-i4-4] = z[ipn4-i4-4], z[i4-3]
+			z[i4-1], z[ipn4-i4-6] = z[ipn4-i4-6], z[i4-1]
+		}
+	}
+	s.initialSplits(tol2)
+	s.iter = 2
+	s.nDiv = 2 * (s.n0 - s.i0)
+	return s.run(n, tol2)
+}
+
+// initialSplits is DLASQ2's initial split checking via dqd and Li's test.
+func (s *qdState) initialSplits(tol2 float64) {
+	z, i0, n0 := s.z, s.i0, s.n0
+	pp := 0
+	for k := 0; k < 2; k++ {
+		d := z[4*n0+pp]
+		for i4loop := 4*n0 + pp; i4loop >= 4*(i0+1)+pp; i4loop -= 4 {
+			i4 := i4loop - 1
+			if z[i4-1] <= tol2*d {
+				z[i4-1] = math.Copysign(0, -1)
+				d = z[i4-3]
+			} else {
+				d = z[i4-3] * (d / (d + z[i4-1]))
+			}
+		}
+		// dqd maps z to zz plus Li's test.
+		d = z[4*i0+pp]
+		for i4loop := 4*(i0+1) + pp; i4loop <= 4*n0+pp; i4loop += 4 {
+			i4 := i4loop - 1
+			z[i4-2*pp-2] = d + z[i4-1]
+			if z[i4-1] <= tol2*d {
+				z[i4-1] = math.Copysign(0, -1)
+				z[i4-2*pp-2] = d
+				z[i4-2*pp] = 0
+				d = z[i4+1]
+			} else if qdSafmin*z[i4+1] < z[i4-2*pp-2] && qdSafmin*z[i4-2*pp-2] < z[i4+1] {
+				tmp := z[i4+1] / z[i4-2*pp-2]
+				z[i4-2*pp] = z[i4-1] * tmp
+				d *= tmp
+			} else {
+				z[i4-2*pp] = z[i4+1] * (z[i4-1] / z[i4-2*pp-2])
+				d = z[i4+1] * (d / z[i4-2*pp-2])
+			}
+		}
+		z[4*(n0+1)-pp-3] = d
+		s.qmax = z[4*(i0+1)-pp-3]
+		for i4loop := 4*(i0+1) - pp + 2; i4loop <= 4*(n0+1)+pp-2; i4loop += 4 {
+			s.qmax = max(s.qmax, z[i4loop-1])
+		}
+		pp = 1 - pp
+	}
+}
+
+// run is DLASQ2's outer loop over the unreduced blocks.
+func (s *qdState) run(n int, tol2 float64) int {
+	z := s.z
+	for iwhila := 1; iwhila <= n+1; iwhila++ {
+		if s.n0 < 0 { // done: move the q's to the front and sort
+			for k := 1; k < n; k++ {
+				z[k] = z[4*k]
+			}
+			var impl lapackgonum.Implementation
+			impl.Dlasrt(lapack.SortDecreasing, n, z)
+			return 0
+		}
+		// e[n0] holds, negated, the value of sigma when the block i0:n0
+		// split from the rest of the array.
+		s.desig, s.sigma = 0, 0
+		if s.n0 != n-1 {
+			s.sigma = -z[4*(s.n0+1)-2]
+		}
+		if s.sigma < 0 {
+			return 1
+		}
+		s.findBlock()
+		nbig := 100 * (s.n0 - s.i0 + 1)
+		finished := false
+		for iwhilb := 0; iwhilb < nbig; iwhilb++ {
+			if s.i0 > s.n0 {
+				finished = true
+				break
+			}
+			s.step()
+			s.pp = 1 - s.pp
+			if s.pp == 0 && s.n0-s.i0 >= 3 {
+				s.splits(tol2)
+			}
+		}
+		if !finished {
+			return 2
+		}
+	}
+	return 3
+}
+
+// findBlock finds the last unreduced block's top index i0 and qmax, a
+// Gershgorin-type bound when the q's are much greater than the e's, flips
+// the block when that helps and puts −(initial shift) into dmin.
+func (s *qdState) findBlock() {
+	z, n0 := s.z, s.n0
+	var emax float64
+	qmin := z[4*(n0+1)-4]
+	s.qmax = qmin
+	i4 := 3
+	for i4loop := 4 * (n0 + 1); i4loop >= 8; i4loop -= 4 {
+		j := i4loop - 1
+		if z[j-5] <= 0 {
+			i4 = j
+			break
+		}
+		if qmin >= 4*emax {
+			qmin = min(qmin, z[j-3])
+			emax = max(emax, z[j-5])
+		}
+		s.qmax = max(s.qmax, z[j-7]+z[j-5])
+	}
+	s.i0 = (i4+1)/4 - 1
+	i0 := s.i0
+	s.pp = 0
+	if n0-i0 > 1 {
+		dee := z[4*i0]
+		deemin := dee
+		kmin := i0
+		for i4loop := 4*(i0+1) + 1; i4loop <= 4*(n0+1)-3; i4loop += 4 {
+			j := i4loop - 1
+			dee = z[j] * (dee / (dee + z[j-2]))
+			if dee <= deemin {
+				deemin = dee
+				kmin = (j+4)/4 - 1
+			}
+		}
+		if (kmin-i0)*2 < n0-kmin && deemin <= 0.5*z[4*n0] {
+			s.pp = 2
+			s.flip()
+		}
+	}
+	s.dmin = -max(0, qmin-2*math.Sqrt(qmin)*math.Sqrt(emax))
+}
+
+// flip reverses the block i0:n0 of the qd array, ping and pong halves.
+func (s *qdState) flip() {
+	z := s.z
+	ipn4 := 4*(s.i0+s.n0+2) - 1
+	for i4loop := 4 * (s.i0 + 1); i4loop <= 2*(s.i0+s.n0+1); i4loop += 4 {
+		i4 := i4loop - 1
+		z[i4-3], z[ipn4-i4-4] = z[ipn4-i4-4], z[i4-3]
+		z[i4-2], z[ipn4-i4-3] = z[ipn4-i4-3], z[i4-2]
+		z[i4-1], z[ipn4-i4-6] = z[ipn4-i4-6], z[i4-1]
+		z[i4], z[ipn4-i4-5] = z[ipn4-i4-5], z[i4]
+	}
+}
+
+// splits is DLASQ2's check for splits when emin is very small.
+func (s *qdState) splits(tol2 float64) {
+	z, i0, n0 := s.z, s.i0, s.n0
+	if !(z[4*(n0+1)-1] <= tol2*s.qmax || z[4*(n0+1)-2] <= tol2*s.sigma) {
+		return
+	}
+	splt := i0 - 1
+	s.qmax = z[4*i0]
+	emin := z[4*(i0+1)-2]
+	oldemn := z[4*(i0+1)-1]
+	for i4loop := 4 * (i0 + 1); i4loop <= 4*(n0-2); i4loop += 4 {
+		i4 := i4loop - 1
+		if z[i4] <= tol2*z[i4-3] || z[i4-1] <= tol2*s.sigma {
+			z[i4-1] = -s.sigma
+			splt = i4 / 4
+			s.qmax = 0
+			emin = z[i4+3]
+			oldemn = z[i4+4]
+		} else {
+			s.qmax = max(s.qmax, z[i4+1])
+			emin = min(emin, z[i4-1])
+			oldemn = min(oldemn, z[i4])
+		}
+	}
+	z[4*(n0+1)-2] = emin
+	z[4*(n0+1)-1] = oldemn
+	s.i0 = splt + 1
+}
+
+// step is DLASQ3: deflate what has converged at the bottom of the block,
+// flip the block when that helps, choose a shift and take one dqds
+// transform, with smaller shifts until the result is positive.
+func (s *qdState) step() {
+	tol := qdEps * 100
+	n0in := s.n0
+	if !s.deflate(tol * tol) {
+		return
+	}
+	if s.pp == 2 {
+		s.pp = 0
+	}
+	z := s.z
+	if s.dmin <= 0 || s.n0 < n0in {
+		i0, n0, pp := s.i0, s.n0, s.pp
+		if qdCbias*z[4*(i0+1)+pp-4] < z[4*(n0+1)+pp-4] {
+			s.flip()
+			if n0-i0 <= 4 {
+				z[4*(n0+1)+pp-2] = z[4*(i0+1)+pp-2]
+				z[4*(n0+1)-pp-1] = z[4*(i0+1)-pp-1]
+			}
+			s.dmin2 = min(s.dmin2, z[4*(i0+1)-pp-2])
+			z[4*(n0+1)+pp-2] = min(min(z[4*(n0+1)+pp-2], z[4*(i0+1)+pp-2]), z[4*(i0+1)+pp+2])
+			z[4*(n0+1)-pp-1] = min(min(z[4*(n0+1)-pp-1], z[4*(i0+1)-pp-1]), z[4*(i0+1)-pp+3])
+			s.qmax = max(max(s.qmax, z[4*(i0+1)+pp-4]), z[4*(i0+1)+pp])
+			s.dmin = math.Copysign(0, -1)
+		}
+	}
+	s.shift(n0in)
+	if !s.positiveTransform(tol) {
+		// Risk of underflow: a transform with zero shift and protection.
+		s.transformSafe()
+		s.nDiv += s.n0 - s.i0 + 2
+		s.iter++
+		s.tau = 0
+	}
+	// sigma += tau, with the rounding error kept in desig.
+	var t float64
+	if s.tau < s.sigma {
+		s.desig += s.tau
+		t = s.sigma + s.desig
+		s.desig -= t - s.sigma
+	} else {
+		t = s.sigma + s.tau
+		s.desig += s.sigma - (t - s.tau)
+	}
+	s.sigma = t
+}
+
+// positiveTransform calls dqds until dmin ≥ 0, lowering the shift after
+// each failure; false when DLASQ3 would go on to the protected transform.
+func (s *qdState) positiveTransform(tol float64) bool {
+	z := s.z
+	for {
+		s.transform()
+		s.nDiv += s.n0 - s.i0 + 2
+		s.iter++
+		switch {
+		case s.dmin >= 0 && s.dmin1 >= 0:
+			return true
+		case s.dmin < 0 && s.dmin1 > 0 && z[4*s.n0-s.pp-1] < tol*(s.sigma+s.dn1) && math.Abs(s.dn) < tol*s.sigma:
+			// Convergence hidden by a negative dn.
+			z[4*s.n0-s.pp+1] = 0
+			s.dmin = 0
+			return true
+		case s.dmin < 0: // tau too big: select a new tau and try again
+			s.nFail++
+			switch {
+			case s.ttype < -22: // failed twice: play it safe
+				s.tau = 0
+			case s.dmin1 > 0: // late failure: gives an excellent shift
+				s.tau = (s.tau + s.dmin) * (1 - 2*qdEps)
+				s.ttype -= 11
+			default: // early failure: divide by 4
+				s.tau = s.tau / 4
+				s.ttype -= 12
+			}
+		case math.IsNaN(s.dmin):
+			if s.tau == 0 {
+				return false
+			}
+			s.tau = 0
+		default: // possible underflow
+			return false
+		}
+	}
+}
+
+// deflate is DLASQ3's check for one or two negligible e's at the bottom of
+// the block; false when the block is used up.
+func (s *qdState) deflate(tol2 float64) bool {
+	z, pp := s.z, s.pp
+	for {
+		i0, n0 := s.i0, s.n0
+		if n0 < i0 {
+			return false
+		}
+		if n0 == i0 {
+			z[4*(n0+1)-4] = z[4*(n0+1)+pp-4] + s.sigma
+			s.n0--
+			continue
+		}
+		nn := 4*(n0+1) + pp - 1
+		if n0 != i0+1 {
+			// Is e[n0-1] negligible (one eigenvalue)?
+			if z[nn-5] > tol2*(s.sigma+z[nn-3]) && z[nn-2*pp-4] > tol2*z[nn-7] {
+				// Is e[n0-2] negligible (two eigenvalues)?
+				if z[nn-9] > tol2*s.sigma && z[nn-2*pp-8] > tol2*z[nn-11] {
+					return true
+				}
+			} else {
+				z[4*(n0+1)-4] = z[4*(n0+1)+pp-4] + s.sigma
+				s.n0--
+				continue
+			}
+		}
+		if z[nn-3] > z[nn-7] {
+			z[nn-3], z[nn-7] = z[nn-7], z[nn-3]
+		}
+		t := 0.5 * (z[nn-7] - z[nn-3] + z[nn-5])
+		if z[nn-5] > z[nn-3]*tol2 && t != 0 {
+			sv := z[nn-3] * (z[nn-5] / t)
+			if sv <= t {
+				sv = z[nn-3] * (z[nn-5] / (t * (1 + math.Sqrt(1+sv/t))))
+			} else {
+				sv = z[nn-3] * (z[nn-5] / (t + math.Sqrt(t)*math.Sqrt(t+sv)))
+			}
+			t = z[nn-7] + (sv + z[nn-5])
+			z[nn-3] *= z[nn-7] / t
+			z[nn-7] = t
+		}
+		z[4*(n0+1)-8] = z[nn-7] + s.sigma
+		z[4*(n0+1)-4] = z[nn-3] + s.sigma
+		s.n0 -= 2
+	}
+}
+
+// DLASQ4's constants.
+const (
+	qdCnst1     = 0.563
+	qdCnst2     = 1.01
+	qdCnst3     = 1.05
+	qdCnstThird = 0.333
+)
+
+// shift is DLASQ4: an approximation to the smallest eigenvalue from the d's
+// of the last transform, by what deflated since (n0in: n0 before).
+func (s *qdState) shift(n0in int) {
+	if s.dmin <= 0 { // a negative dmin forces the shift to take its absolute value
+		s.tau = -s.dmin
+		s.ttype = -1
+		return
+	}
+	nn := 4*(s.n0+1) + s.pp - 1
+	var sh float64
+	ok := true
+	switch {
+	case n0in == s.n0:
+		sh, ok = s.shiftNoneDeflated(nn)
+	case n0in == s.n0+1:
+		sh, ok = s.shiftOneDeflated(nn)
+	case n0in == s.n0+2:
+		sh, ok = s.shiftTwoDeflated(nn)
+	case n0in > s.n0+2: // more than two deflated: no information
+		sh = 0
+		s.ttype = -12
+	default:
+		sh = math.NaN()
+	}
+	if ok { // DLASQ4 leaves tau as it was where it gives up early
+		s.tau = sh
+	}
+}
+
+// shiftNoneDeflated is DLASQ4 when no eigenvalue deflated (cases 1–6).
+func (s *qdState) shiftNoneDeflated(nn int) (float64, bool) {
+	z, dmin, dn, dn1 := s.z, s.dmin, s.dn, s.dn1
+	if dmin == dn || dmin == dn1 {
+		b1 := math.Sqrt(z[nn-3]) * math.Sqrt(z[nn-5])
+		b2 := math.Sqrt(z[nn-7]) * math.Sqrt(z[nn-9])
+		a2 := z[nn-7] + z[nn-5]
+		if dmin == dn && s.dmin1 == dn1 { // cases 2 and 3
+			gap2 := s.dmin2 - a2 - s.dmin2/4
+			var gap1 float64
+			if gap2 > 0 && gap2 > b2 {
+				gap1 = a2 - dn - (b2/gap2)*b2
+			} else {
+				gap1 = a2 - dn - (b1 + b2)
+			}
+			if gap1 > 0 && gap1 > b1 {
+				s.ttype = -2
+				return max(dn-(b1/gap1)*b1, 0.5*dmin), true
+			}
+			var sh float64
+			if dn > b1 {
+				sh = dn - b1
+			}
+			if a2 > b1+b2 {
+				sh = min(sh, a2-(b1+b2))
+			}
+			s.ttype = -3
+			return max(sh, qdCnstThird*dmin), true
+		}
+		return s.shiftCase4(nn)
+	}
+	if dmin == s.dn2 {
+		return s.shiftCase5(nn)
+	}
+	// Case 6: no information to guide us.
+	switch s.ttype {
+	case -6:
+		s.g += qdCnstThird * (1 - s.g)
+	case -18:
+		s.g = qdCnstThird / 4
+	default:
+		s.g = 1.0 / 4
+	}
+	s.ttype = -6
+	return s.g * dmin, true
+}
+
+// shiftCase4 is DLASQ4's case 4: dmin is dn or dn1 but not both as in
+// cases 2–3; a Rayleigh quotient residual bound.
+func (s *qdState) shiftCase4(nn int) (float64, bool) {
+	z, pp, dmin := s.z, s.pp, s.dmin
+	s.ttype = -4
+	sh := dmin / 4
+	var gam, a2, b2 float64
+	var np int
+	if dmin == s.dn {
+		gam = s.dn
+		a2 = 0
+		if z[nn-5] > z[nn-7] {
+			return 0, false
+		}
+		b2 = z[nn-5] / z[nn-7]
+		np = nn - 9
+	} else {
+		np = nn - 2*pp
+		gam = s.dn1
+		if z[np-4] > z[np-2] {
+			return 0, false
+		}
+		a2 = z[np-4] / z[np-2]
+		if z[nn-9] > z[nn-11] {
+			return 0, false
+		}
+		b2 = z[nn-9] / z[nn-11]
+		np = nn - 13
+	}
+	// Approximate contribution to norm squared from i < nn-1.
+	a2 += b2
+	for i4loop := np + 1; i4loop >= 4*(s.i0+1)-1+pp; i4loop -= 4 {
+		i4 := i4loop - 1
+		if b2 == 0 {
+			break
+		}
+		b1 := b2
+		if z[i4] > z[i4-2] {
+			return 0, false
+		}
+		b2 *= z[i4] / z[i4-2]
+		a2 += b2
+		if 100*max(b2, b1) < a2 || qdCnst1 < a2 {
+			break
+		}
+	}
+	a2 *= qdCnst3
+	if a2 < qdCnst1 {
+		sh = gam * (1 - math.Sqrt(a2)) / (1 + a2)
+	}
+	return sh, true
+}
+
+// shiftCase5 is DLASQ4's case 5: dmin is dn2.
+func (s *qdState) shiftCase5(nn int) (float64, bool) {
+	z, pp := s.z, s.pp
+	s.ttype = -5
+	sh := s.dmin / 4
+	// Contribution to norm squared from i > nn-2.
+	np := nn - 2*pp
+	b1 := z[np-2]
+	b2 := z[np-6]
+	gam := s.dn2
+	if z[np-8] > b2 || z[np-4] > b1 {
+		return 0, false
+	}
+	a2 := (z[np-8] / b2) * (1 + z[np-4]/b1)
+	// Approximate contribution to norm squared from i < nn-2.
+	if s.n0-s.i0 > 2 {
+		b2 = z[nn-13] / z[nn-15]
+		a2 += b2
+		for i4loop := (nn + 1) - 17; i4loop >= 4*(s.i0+1)-1+pp; i4loop -= 4 {
+			i4 := i4loop - 1
+			if b2 == 0 {
+				break
+			}
+			b1 = b2
+			if z[i4] > z[i4-2] {
+				return 0, false
+			}
+			b2 *= z[i4] / z[i4-2]
+			a2 += b2
+			if 100*max(b2, b1) < a2 || qdCnst1 < a2 {
+				break
+			}
+		}
+		a2 *= qdCnst3
+	}
+	if a2 < qdCnst1 {
+		sh = gam * (1 - math.Sqrt(a2)) / (1 + a2)
+	}
+	return sh, true
+}
+
+// shiftOneDeflated is DLASQ4 after one eigenvalue deflated (cases 7–9):
+// dmin1 and dn1 stand for dmin and dn.
+func (s *qdState) shiftOneDeflated(nn int) (float64, bool) {
+	z, pp := s.z, s.pp
+	if !(s.dmin1 == s.dn1 && s.dmin2 == s.dn2) {
+		s.ttype = -9
+		if s.dmin1 == s.dn1 {
+			return 0.5 * s.dmin1, true
+		}
+		return s.dmin1 / 4, true
+	}
+	s.ttype = -7
+	sh := qdCnstThird * s.dmin1
+	if z[nn-5] > z[nn-7] {
+		return 0, false
+	}
+	b1 := z[nn-5] / z[nn-7]
+	b2 := b1
+	if b2 != 0 {
+		for i4loop := 4*(s.n0+1) - 9 + pp; i4loop >= 4*(s.i0+1)-1+pp; i4loop -= 4 {
+			i4 := i4loop - 1
+			a2 := b1
+			if z[i4] > z[i4-2] {
+				return 0, false
+			}
+			b1 *= z[i4] / z[i4-2]
+			b2 += b1
+			if 100*max(b1, a2) < b2 {
+				break
+			}
+		}
+	}
+	b2 = math.Sqrt(qdCnst3 * b2)
+	a2 := s.dmin1 / (1 + b2*b2)
+	gap2 := 0.5*s.dmin2 - a2
+	if gap2 > 0 && gap2 > b2*a2 {
+		return max(sh, a2*(1-qdCnst2*a2*(b2/gap2)*b2)), true
+	}
+	s.ttype = -8
+	return max(sh, a2*(1-qdCnst2*b2)), true
+}
+
+// shiftTwoDeflated is DLASQ4 after two eigenvalues deflated (cases 10–11):
+// dmin2 and dn2 stand for dmin and dn.
+func (s *qdState) shiftTwoDeflated(nn int) (float64, bool) {
+	z, pp := s.z, s.pp
+	if !(s.dmin2 == s.dn2 && 2*z[nn-5] < z[nn-7]) {
+		s.ttype = -11
+		return s.dmin2 / 4, true
+	}
+	s.ttype = -10
+	sh := qdCnstThird * s.dmin2
+	if z[nn-5] > z[nn-7] {
+		return 0, false
+	}
+	b1 := z[nn-5] / z[nn-7]
+	b2 := b1
+	if b2 != 0 {
+		for i4loop := 4*(s.n0+1) - 9 + pp; i4loop >= 4*(s.i0+1)-1+pp; i4loop -= 4 {
+			i4 := i4loop - 1
+			if z[i4] > z[i4-2] {
+				return 0, false
+			}
+			b1 *= z[i4] / z[i4-2]
+			b2 += b1
+			if 100*b1 < b2 {
+				break
+			}
+		}
+	}
+	b2 = math.Sqrt(qdCnst3 * b2)
+	a2 := s.dmin2 / (1 + b2*b2)
+	gap2 := z[nn-7] + z[nn-9] - math.Sqrt(z[nn-11])*math.Sqrt(z[nn-9]) - a2
+	if gap2 > 0 && gap2 > b2*a2 {
+		return max(sh, a2*(1-qdCnst2*a2*(b2/gap2)*b2)), true
+	}
+	return max(sh, a2*(1-qdCnst2*b2)), true
+}
+
+// transform is DLASQ5: one dqds transform with shift tau in ping-pong form
+// (pp picks which half of z is read and which written). With a negligible
+// shift (tau set to 0) d's below ε·sigma are set to zero.
+func (s *qdState) transform() {
+	z, i0, n0, pp := s.z, s.i0, s.n0, s.pp
+	s.dmin, s.dmin1, s.dmin2, s.dn, s.dn1, s.dn2 = 0, 0, 0, 0, 0, 0
+	if n0-i0-1 <= 0 {
+		return
+	}
+	tau := s.tau
+	dthresh := qdEps * (s.sigma + tau)
+	if tau < dthresh*0.5 {
+		tau = 0
+	}
+	s.tau = tau
+	// Written q at o, read e at o+1+2pp and q at o+3+2pp, written e at o+2.
+	j4 := 4*i0 + pp
+	emin := z[j4+4]
+	d := z[j4] - tau
+	dmin := d
+	r := 2 * pp
+	for j4loop := 4 * (i0 + 1); j4loop <= 4*((n0+1)-3); j4loop += 4 {
+		o := j4loop - 3 - pp
+		z[o] = d + z[o+1+r]
+		tmp := z[o+3+r] / z[o]
+		d = d*tmp - tau
+		if tau == 0 && d < dthresh {
+			d = 0
+		}
+		dmin = min(dmin, d)
+		z[o+2] = z[o+1+r] * tmp
+		emin = min(z[o+2], emin)
+	}
+	// The last two steps, unrolled.
+	dnm2 := d
+	s.dmin2 = dmin
+	j4 = 4*((n0+1)-2) - pp - 1
+	j4p2 := j4 + 2*pp - 1
+	z[j4-2] = dnm2 + z[j4p2]
+	z[j4] = z[j4p2+2] * (z[j4p2] / z[j4-2])
+	dnm1 := z[j4p2+2]*(dnm2/z[j4-2]) - tau
+	dmin = min(dmin, dnm1)
+	s.dmin1 = dmin
+	j4 += 4
+	j4p2 = j4 + 2*pp - 1
+	z[j4-2] = dnm1 + z[j4p2]
+	z[j4] = z[j4p2+2] * (z[j4p2] / z[j4-2])
+	dn := z[j4p2+2]*(dnm1/z[j4-2]) - tau
+	dmin = min(dmin, dn)
+	z[j4+2] = dn
+	z[4*(n0+1)-pp-1] = emin
+	s.dmin, s.dn, s.dn1, s.dn2 = dmin, dn, dnm1, dnm2
+}
+
+// transformSafe is DLASQ6: one dqd transform (no shift) in ping-pong form,
+// guarded against underflow and overflow.
+func (s *qdState) transformSafe() {
+	z, i0, n0, pp := s.z, s.i0, s.n0, s.pp
+	s.dmin, s.dmin1, s.dmin2, s.dn, s.dn1, s.dn2 = 0, 0, 0, 0, 0, 0
+	if n0-i0-1 <= 0 {
+		return
+	}
+	j4 := 4*(i0+1) + pp - 4
+	emin := z[j4+4]
+	d := z[j4]
+	dmin := d
+	r := 2 * pp
+	for j4loop := 4 * (i0 + 1); j4loop <= 4*((n0+1)-3); j4loop += 4 {
+		o := j4loop - 3 - pp // as in transform
+		z[o] = d + z[o+1+r]
+		if z[o] == 0 {
+			z[o+2] = 0
+			d = z[o+3+r]
+			dmin = d
+			emin = 0
+		} else if qdSafmin*z[o+3+r] < z[o] && qdSafmin*z[o] < z[o+3+r] {
+			tmp := z[o+3+r] / z[o]
+			z[o+2] = z[o+1+r] * tmp
+			d *= tmp
+		} else {
+			z[o+2] = z[o+3+r] * (z[o+1+r] / z[o])
+			d = z[o+3+r] * (d / z[o])
+		}
+		dmin = min(dmin, d)
+		emin = min(emin, z[o+2])
+	}
+	// The last two steps, unrolled.
+	dnm2 := d
+	s.dmin2 = dmin
+	j4 = 4*(n0-1) - pp - 1
+	dnm1, zeroed := qdSafeStep(z, j4, j4+2*pp-1, dnm2)
+	if zeroed {
+		dmin, emin = dnm1, 0
+	}
+	dmin = min(dmin, dnm1)
+	s.dmin1 = dmin
+	j4 += 4
+	dn, zeroed := qdSafeStep(z, j4, j4+2*pp-1, dnm1)
+	if zeroed {
+		dmin, emin = dn, 0
+	}
+	dmin = min(dmin, dn)
+	z[j4+2] = dn
+	z[4*(n0+1)-pp-1] = emin
+	s.dmin, s.dn, s.dn1, s.dn2 = dmin, dn, dnm1, dnm2
+}
+
+// qdSafeStep is one of DLASQ6's two unrolled last steps: the new q at
+// j4−2, the new e at j4, the next d returned; zeroed when the new q is zero.
+func qdSafeStep(z []float64, j4, j4p2 int, d float64) (float64, bool) {
+	z[j4-2] = d + z[j4p2]
+	switch {
+	case z[j4-2] == 0:
+		z[j4] = 0
+		return z[j4p2+2], true
+	case qdSafmin*z[j4p2+2] < z[j4-2] && qdSafmin*z[j4-2] < z[j4p2+2]:
+		tmp := z[j4p2+2] / z[j4-2]
+		z[j4] = z[j4p2] * tmp
+		return d * tmp, false
+	default:
+		z[j4] = z[j4p2+2] * (z[j4p2] / z[j4-2])
+		return z[j4p2+2] * (d / z[j4-2]), false
+	}
+}
