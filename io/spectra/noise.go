@@ -153,8 +153,13 @@ const madScale = 1.482602218505602
 // pre ≥ 2 (repeats of one state), else second differences over all rows.
 // It returns σ per channel, the rounding step and the source in words.
 func channelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, string) {
+	return channelNoiseStep(v, pre, blind, quantum(v, blind))
+}
+
+// channelNoiseStep is channelNoise given the rounding step q (quantum of v
+// and blind), taken in a pass that was made anyway.
+func channelNoiseStep(v *mat.Dense, pre int, blind *Blind, q float64) ([]float64, float64, string) {
 	n, _ := v.Dims()
-	q := quantum(v, blind)
 	src := fmt.Sprintf("second differences in time of all %d spectra", n)
 	if pre >= 2 {
 		src = fmt.Sprintf("successive differences of the %d pre-reaction spectra", pre)
@@ -459,6 +464,131 @@ func findBlindTops(v *mat.Dense, badChannel []bool, ceil float64) (*Blind, []flo
 		b.Count += len(r)
 	}
 	return b, top
+}
+
+// beamScan is what one pass over the single beams gathers for the noise
+// model (scanBeams).
+type beamScan struct {
+	maxFinite  float64   // the largest finite beam (beamMaxima's top)
+	channelMax []float64 // the largest beam per channel (beamMaxima's)
+	ceiling    float64   // the detector's ceiling (flatTop's answer)
+	blind      *Blind    // findBlindTops's blind points, for the ceiling
+	top        []float64 // findBlindTops's brightest observed beams
+	quantum    float64   // the rounding step (quantum), over those points
+}
+
+// scanBeams gives what beamMaxima, flatTop, findBlindTops (badChannel not
+// nil) and quantum give, in one pass over the rows instead of four: each
+// full pass reads the whole matrix again from memory. The blind points,
+// the brightest beams and the quantum are taken as if there were no
+// ceiling; only when a flat top is found (a saturated detector, rare) are
+// those two passes made again with it. Every result is a maximum, a
+// minimum or a per-point test, the same whatever the order of the blocks.
+//
+// The flat top needs no pass of its own: a run of 3 values equal to the
+// largest finite beam lies in a row whose own largest finite beam is that
+// value, so it is enough to know for each row whether its largest finite
+// value comes 3 times in a row, which the row's pass follows as it goes.
+func scanBeams(v *mat.Dense, badChannel []bool) beamScan {
+	n, m := v.Dims()
+	sc := beamScan{maxFinite: math.Inf(-1), channelMax: make([]float64, m), top: make([]float64, m), quantum: math.Inf(1)}
+	for j := range sc.channelMax {
+		sc.channelMax[j] = math.Inf(-1)
+	}
+	b := &Blind{Rows: make([][]int, n)}
+	rowMax := make([]float64, n) // each row's largest finite value
+	rowFlat := make([]bool, n)   // and whether it comes 3 times in a row
+	var mu sync.Mutex
+	bufs := newScratch(2 * m)
+	inf := math.Inf(1)
+	eachRowBlock(n, m, func(r0, r1 int) {
+		buf := bufs.get()
+		defer bufs.put(buf)
+		bc, bt := buf[:m], buf[m:2*m]
+		for j := range bc {
+			bc[j] = math.Inf(-1)
+		}
+		clear(bt)
+		bq := inf
+		for i := r0; i < r1; i++ {
+			row := v.RawRowView(i)[:m]
+			// The change from the row before (quantum); row 0 against
+			// itself, which gives no change.
+			prev := row
+			if i > 0 {
+				prev = v.RawRowView(i - 1)[:m]
+			}
+			rm, run, flat := math.Inf(-1), 0, false
+			for j, x := range row {
+				if x > bc[j] {
+					bc[j] = x
+				}
+				switch {
+				case x > rm && x < inf:
+					rm, run, flat = x, 1, false
+				case x == rm:
+					run++
+					flat = flat || run >= 3
+				default:
+					run = 0
+				}
+				if x > 0 && x < inf && !badChannel[j] {
+					if x > bt[j] {
+						bt[j] = x
+					}
+				} else {
+					b.Rows[i] = append(b.Rows[i], j)
+				}
+				if d := math.Abs(x - prev[j]); d > 0 && d < bq && observedBeam(x, j, badChannel) && observedBeam(prev[j], j, badChannel) {
+					bq = d
+				}
+			}
+			rowMax[i], rowFlat[i] = rm, flat
+		}
+		mu.Lock()
+		defer mu.Unlock()
+		sc.quantum = math.Min(sc.quantum, bq)
+		for j, x := range bc {
+			if x > sc.channelMax[j] {
+				sc.channelMax[j] = x
+			}
+		}
+		for j, x := range bt {
+			if x > sc.top[j] {
+				sc.top[j] = x
+			}
+		}
+	})
+	for _, x := range rowMax {
+		if x > sc.maxFinite {
+			sc.maxFinite = x
+		}
+	}
+	for i, x := range rowMax {
+		if sc.maxFinite > 0 && x == sc.maxFinite && rowFlat[i] {
+			sc.ceiling = sc.maxFinite
+			break
+		}
+	}
+	if sc.ceiling > 0 {
+		sc.blind, sc.top = findBlindTops(v, badChannel, sc.ceiling)
+		sc.quantum = quantum(v, sc.blind)
+		return sc
+	}
+	for _, r := range b.Rows {
+		b.Count += len(r)
+	}
+	sc.blind = b
+	if math.IsInf(sc.quantum, 1) {
+		sc.quantum = 0
+	}
+	return sc
+}
+
+// observedBeam is findBlindTops's test of an observed beam when there is no
+// ceiling.
+func observedBeam(x float64, j int, badChannel []bool) bool {
+	return x > 0 && x < math.Inf(1) && !badChannel[j]
 }
 
 // addWeakBelow marks single beams at or below weakSigmas·σ_I,j as blind
@@ -1004,15 +1134,15 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 			return inputErr(opt.Reference.File.Source, 0, "a reference for single beams must be a single beam too (positive intensities)", "reference intensity %g at %s %g", ref[j], s.AxisName, s.Axis[j])
 		}
 	}
-	// The maxima, the blind points and the channels' brightest observed
-	// beams in two passes over the beams rather than five.
-	maxFinite, channelMax := beamMaxima(s.Values)
-	blind, top := findBlindTops(s.Values, bad, flatTop(s.Values, maxFinite))
+	// The maxima, the blind points, the channels' brightest observed beams
+	// and the rounding step in one pass over the beams rather than four.
+	scan := scanBeams(s.Values, bad)
+	blind, top, channelMax := scan.blind, scan.top, scan.channelMax
 	if blind.Count > n*m/4 {
 		// Not a few blind points but the wrong kind of data.
 		return checkPositive(s.Values, s, "single beam")
 	}
-	sigI, q, src := channelNoise(s.Values, opt.Pre, blind)
+	sigI, q, src := channelNoiseStep(s.Values, opt.Pre, blind, scan.quantum)
 	blind.addWeakBelow(s.Values, sigI, top)
 	nref := make([]float64, m)
 	if opt.Reference.File != nil {

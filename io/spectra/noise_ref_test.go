@@ -576,3 +576,101 @@ func findBlind(v *mat.Dense, badChannel []bool) *Blind {
 	b, _ := findBlindTops(v, badChannel, flatTop(v, top))
 	return b
 }
+
+// The one pass of scanBeams gives what the separate passes give (beamMaxima,
+// flatTop, findBlindTops, quantum: the reference, each checked against a loop
+// over every value in TestBlindPassMaximaMatchDirectForm and
+// TestChannelNoiseMatchesDirectForm), value for value, at any GOMAXPROCS: on
+// the noise cases, rounded to a step (a quantum to find), with beams at or
+// below zero, +Inf and NaN, an unusable channel, a flat top at the largest
+// beam (the passes are made again with the ceiling) and a largest beam that
+// comes only twice in a row (no ceiling), or three times but not in a row.
+func TestScanBeamsMatchesSeparatePasses(t *testing.T) {
+	type variant struct {
+		name string
+		edit func(w *mat.Dense)
+	}
+	top := func(w *mat.Dense) float64 { return 2 * mat.Max(w) }
+	variants := []variant{
+		{"as is", func(w *mat.Dense) {}},
+		{"rounded", func(w *mat.Dense) {
+			w.Apply(func(_, _ int, x float64) float64 { return 0.25 * math.Round(4*x) }, w)
+		}},
+		{"odd values", func(w *mat.Dense) {
+			n, m := w.Dims()
+			w.Set(0, 0, math.Inf(1))
+			w.Set(n-1, m-1, math.NaN())
+			w.Set(n/2, m/2, 0)
+			w.Set(n/3, m/4, math.Inf(-1))
+		}},
+		{"steps at blind points", func(w *mat.Dense) {
+			// The smallest changes go from a beam at or below zero to a
+			// dim one and back: the step must not be taken from them.
+			n, m := w.Dims()
+			w.Set(n/2-1, m/2, -1e-9)
+			w.Set(n/2, m/2, 1e-9)
+			w.Set(n/2, m/2+1, 2e-9)
+			w.Set(n/2+1, m/2+1, -2e-9)
+		}},
+		{"flat top", func(w *mat.Dense) {
+			n, m := w.Dims()
+			c := top(w)
+			for j := m / 2; j < m/2+3; j++ {
+				w.Set(n/2, j, c)
+			}
+		}},
+		{"top twice", func(w *mat.Dense) {
+			n, m := w.Dims()
+			c := top(w)
+			w.Set(n-1, m-2, c)
+			w.Set(n-1, m-1, c)
+		}},
+		{"top thrice apart", func(w *mat.Dense) {
+			n, m := w.Dims()
+			c := top(w)
+			w.Set(n/2, 0, c)
+			w.Set(n/2, 1, c)
+			w.Set(n/2, 3, c)
+			w.Set(0, m-1, c) // and in another row
+		}},
+	}
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	for _, c := range noiseCases(t) {
+		_, m := c.v.Dims()
+		if m < 5 {
+			continue
+		}
+		for _, vr := range variants {
+			w := mat.DenseCopyOf(c.v)
+			vr.edit(w)
+			bad := make([]bool, m)
+			bad[m/3] = true
+			wantTop, wantChannel := beamMaxima(w)
+			ceil := flatTop(w, wantTop)
+			if (vr.name == "flat top") != (ceil > 0) {
+				t.Fatalf("%s %s: ceiling %g: the case does not test what it says", c.name, vr.name, ceil)
+			}
+			wantBlind, wantBright := findBlindTops(w, bad, ceil)
+			wantQ := quantum(w, wantBlind)
+			if vr.name == "rounded" && !(wantQ >= 0.25) {
+				t.Fatalf("%s: step %g of data rounded to 0.25", c.name, wantQ)
+			}
+			for _, procs := range []int{1, 2, 3} {
+				runtime.GOMAXPROCS(procs)
+				got := scanBeams(w, bad)
+				where := fmt.Sprintf("%s %s GOMAXPROCS %d", c.name, vr.name, procs)
+				if got.maxFinite != wantTop || got.ceiling != ceil || got.quantum != wantQ {
+					t.Fatalf("%s: largest %g, ceiling %g, step %g; separate passes %g, %g, %g", where, got.maxFinite, got.ceiling, got.quantum, wantTop, ceil, wantQ)
+				}
+				if got.blind.Count != wantBlind.Count || !slices.EqualFunc(got.blind.Rows, wantBlind.Rows, slices.Equal) {
+					t.Fatalf("%s: %d blind points, separate passes %d (or other points)", where, got.blind.Count, wantBlind.Count)
+				}
+				for j := 0; j < m; j++ {
+					if got.channelMax[j] != wantChannel[j] || got.top[j] != wantBright[j] {
+						t.Fatalf("%s: channel %d largest %g and brightest observed %g, separate passes %g and %g", where, j, got.channelMax[j], got.top[j], wantChannel[j], wantBright[j])
+					}
+				}
+			}
+		}
+	}
+}
