@@ -478,29 +478,37 @@ type beamScan struct {
 }
 
 // scanBeams gives what beamMaxima, flatTop, findBlindTops (badChannel not
-// nil) and quantum give, in one pass over the rows instead of four: each
-// full pass reads the whole matrix again from memory. The blind points,
-// the brightest beams and the quantum are taken as if there were no
-// ceiling; only when a flat top is found (a saturated detector, rare) are
-// those two passes made again with it. Every result is a maximum, a
-// minimum or a per-point test, the same whatever the order of the blocks.
+// nil) and quantum give, in one pass over the rows instead of four. The
+// blind points, the brightest beams and the quantum are taken as if there
+// were no ceiling; only when a flat top is found (a saturated detector,
+// rare) are those two passes made again with it. Every result is a maximum,
+// a minimum or a per-point test, the same whatever the order of the blocks.
 //
-// The flat top needs no pass of its own: a run of 3 values equal to the
-// largest finite beam lies in a row whose own largest finite beam is that
-// value, so it is enough to know for each row whether its largest finite
-// value comes 3 times in a row, which the row's pass follows as it goes.
+// A row of positive finite beams only, the usual row, goes through a loop
+// without a branch on the data: maxima taken with max (its NaN and signed
+// zero rules cannot apply to positive finite values), the unusable channels,
+// blind in every row, set aside at the end. The maxima of the separate
+// passes took a branch per value that went either way at random on noise
+// (is this beam the brightest so far?), which cost more than reading the
+// matrix. The flat top needs no pass of its own: a run of 3 values equal to
+// the largest finite beam lies in a row whose own largest finite beam is that
+// value, so only such rows are looked at again.
 func scanBeams(v *mat.Dense, badChannel []bool) beamScan {
 	n, m := v.Dims()
 	sc := beamScan{maxFinite: math.Inf(-1), channelMax: make([]float64, m), top: make([]float64, m), quantum: math.Inf(1)}
 	for j := range sc.channelMax {
 		sc.channelMax[j] = math.Inf(-1)
 	}
+	var badList []int
+	for j, bad := range badChannel {
+		if bad {
+			badList = append(badList, j)
+		}
+	}
 	b := &Blind{Rows: make([][]int, n)}
 	rowMax := make([]float64, n) // each row's largest finite value
-	rowFlat := make([]bool, n)   // and whether it comes 3 times in a row
 	var mu sync.Mutex
 	bufs := newScratch(2 * m)
-	inf := math.Inf(1)
 	eachRowBlock(n, m, func(r0, r1 int) {
 		buf := bufs.get()
 		defer bufs.put(buf)
@@ -509,7 +517,8 @@ func scanBeams(v *mat.Dense, badChannel []bool) beamScan {
 			bc[j] = math.Inf(-1)
 		}
 		clear(bt)
-		bq := inf
+		bq := math.Inf(1)
+		prevClean := false
 		for i := r0; i < r1; i++ {
 			row := v.RawRowView(i)[:m]
 			// The change from the row before (quantum); row 0 against
@@ -518,32 +527,19 @@ func scanBeams(v *mat.Dense, badChannel []bool) beamScan {
 			if i > 0 {
 				prev = v.RawRowView(i - 1)[:m]
 			}
-			rm, run, flat := math.Inf(-1), 0, false
-			for j, x := range row {
-				if x > bc[j] {
-					bc[j] = x
-				}
-				switch {
-				case x > rm && x < inf:
-					rm, run, flat = x, 1, false
-				case x == rm:
-					run++
-					flat = flat || run >= 3
-				default:
-					run = 0
-				}
-				if x > 0 && x < inf && !badChannel[j] {
-					if x > bt[j] {
-						bt[j] = x
-					}
-				} else {
-					b.Rows[i] = append(b.Rows[i], j)
-				}
-				if d := math.Abs(x - prev[j]); d > 0 && d < bq && observedBeam(x, j, badChannel) && observedBeam(prev[j], j, badChannel) {
-					bq = d
-				}
+			if i == r0 && i > 0 {
+				prevClean = positiveFinite(prev)
 			}
-			rowMax[i], rowFlat[i] = rm, flat
+			clean := positiveFinite(row)
+			if clean {
+				rowMax[i], bq = scanCleanRow(row, prev, prevClean, badChannel, bc, bt, bq)
+				if len(badList) > 0 {
+					b.Rows[i] = slices.Clone(badList)
+				}
+			} else {
+				rowMax[i], bq = scanRow(row, prev, badChannel, bc, bt, bq, &b.Rows[i])
+			}
+			prevClean = clean
 		}
 		mu.Lock()
 		defer mu.Unlock()
@@ -559,13 +555,18 @@ func scanBeams(v *mat.Dense, badChannel []bool) beamScan {
 			}
 		}
 	})
+	// The clean rows took every channel's beam into the brightest; an
+	// unusable channel is blind in every row and has none.
+	for _, j := range badList {
+		sc.top[j] = 0
+	}
 	for _, x := range rowMax {
 		if x > sc.maxFinite {
 			sc.maxFinite = x
 		}
 	}
 	for i, x := range rowMax {
-		if sc.maxFinite > 0 && x == sc.maxFinite && rowFlat[i] {
+		if sc.maxFinite > 0 && x == sc.maxFinite && hasRunOf(v.RawRowView(i)[:m], x, 3) {
 			sc.ceiling = sc.maxFinite
 			break
 		}
@@ -583,6 +584,88 @@ func scanBeams(v *mat.Dense, badChannel []bool) beamScan {
 		sc.quantum = 0
 	}
 	return sc
+}
+
+// positiveFinite says whether every value of row is positive and finite (a
+// branch that goes the same way for almost every value).
+func positiveFinite(row []float64) bool {
+	inf := math.Inf(1)
+	for _, x := range row {
+		if !(x > 0 && x < inf) {
+			return false
+		}
+	}
+	return true
+}
+
+// scanCleanRow is scanBeams's work on a row of positive finite beams: the
+// maxima per channel (bc, and bt, the unusable channels among them), the
+// row's largest value, returned, and the smallest change from the row
+// before, prev (positive finite too when prevClean), below bq, returned.
+func scanCleanRow(row, prev []float64, prevClean bool, bad []bool, bc, bt []float64, bq float64) (float64, float64) {
+	bc, bt, prev, bad = bc[:len(row)], bt[:len(row)], prev[:len(row)], bad[:len(row)]
+	// Four running maxima, so that each max does not wait for the last.
+	r0, r1, r2, r3 := math.Inf(-1), math.Inf(-1), math.Inf(-1), math.Inf(-1)
+	j := 0
+	for ; j+4 <= len(row); j += 4 {
+		x0, x1, x2, x3 := row[j], row[j+1], row[j+2], row[j+3]
+		r0, r1, r2, r3 = max(r0, x0), max(r1, x1), max(r2, x2), max(r3, x3)
+	}
+	for ; j < len(row); j++ {
+		r0 = max(r0, row[j])
+	}
+	for j, x := range row {
+		bc[j] = max(bc[j], x)
+		bt[j] = max(bt[j], x)
+		if d := math.Abs(x - prev[j]); d > 0 && d < bq && !bad[j] && (prevClean || observedBeam(prev[j], j, bad)) {
+			bq = d
+		}
+	}
+	return max(max(r0, r1), max(r2, r3)), bq
+}
+
+// scanRow is scanBeams's work on any row, a test per value: blind points
+// are appended to blind, the maxima per channel taken in bc (every beam but
+// NaN) and bt (observed beams), the smallest change below bq between
+// observed beams of row and prev returned with the row's largest finite
+// value.
+func scanRow(row, prev []float64, bad []bool, bc, bt []float64, bq float64, blind *[]int) (float64, float64) {
+	inf := math.Inf(1)
+	rm := math.Inf(-1)
+	for j, x := range row {
+		if x > bc[j] {
+			bc[j] = x
+		}
+		if x > rm && x < inf {
+			rm = x
+		}
+		if x > 0 && x < inf && !bad[j] {
+			if x > bt[j] {
+				bt[j] = x
+			}
+		} else {
+			*blind = append(*blind, j)
+		}
+		if d := math.Abs(x - prev[j]); d > 0 && d < bq && observedBeam(x, j, bad) && observedBeam(prev[j], j, bad) {
+			bq = d
+		}
+	}
+	return rm, bq
+}
+
+// hasRunOf says whether x comes at least k times in a row in row.
+func hasRunOf(row []float64, x float64, k int) bool {
+	run := 0
+	for _, y := range row {
+		if y != x {
+			run = 0
+			continue
+		}
+		if run++; run >= k {
+			return true
+		}
+	}
+	return false
 }
 
 // observedBeam is findBlindTops's test of an observed beam when there is no

@@ -612,6 +612,13 @@ func TestScanBeamsMatchesSeparatePasses(t *testing.T) {
 			w.Set(n/2, m/2+1, 2e-9)
 			w.Set(n/2+1, m/2+1, -2e-9)
 		}},
+		{"steps in the unusable channel", func(w *mat.Dense) {
+			// The smallest changes of all in the channel set aside.
+			n, m := w.Dims()
+			for i := 0; i < n; i++ {
+				w.Set(i, m/3, 1000+1e-6*float64(i))
+			}
+		}},
 		{"flat top", func(w *mat.Dense) {
 			n, m := w.Dims()
 			c := top(w)
