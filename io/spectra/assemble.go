@@ -396,15 +396,13 @@ func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense) {
 						a = abs.RawRowView(i)
 					}
 					// The ratios first, then their logarithms a row at a
-					// time (vecmath: bit for bit math.Log10, four at once).
-					if a == nil {
-						for j, x := range row {
-							d[j] = ref[j] / x
-						}
-					} else {
-						for j, x := range row {
-							d[j], a[j] = ref[j]/x, blank[j]/x
-						}
+					// time, four at once (vecmath: bit for bit Go's
+					// division and math.Log10). The differences' ratios
+					// before the absolute ones, which may overwrite the
+					// beams.
+					vecmath.Quo(d, ref, row)
+					if a != nil {
+						vecmath.Quo(a, blank, row)
 						vecmath.Log10(a, a)
 					}
 					vecmath.Log10(d, d)
