@@ -399,20 +399,24 @@ func afterResolve(r *Result, data mcr.Data, opt mcr.Options, log io.Writer) erro
 	}
 	rep.Options = opt
 	s := r.Settings
+	// The checks' refits and the uniqueness ranges read the resolution
+	// and nothing the other writes: the refits run on a goroutine while
+	// the ranges are searched (together they keep both cores busy, the
+	// refits alone about one), and their findings are recorded first, so
+	// that the warnings come in the order they came one after the other.
+	checked := func() {}
 	if s.Checks == "on" {
 		fmt.Fprintf(log, "checking what each constraint costs\n")
-		checks, err := mcr.CheckConstraintsWith(data, r.ALS, opt, mcr.CheckOptions{MaxIter: 300, Restart: restartCanMatter(r)})
-		if err != nil {
-			r.Warnings = append(r.Warnings, fmt.Sprintf("constraint checks stopped: %v", err))
-		}
-		rep.Checks = checks
-		judgeChecks(r)
+		checked = startChecks(r, data, opt)
 	}
+	var bandWarnings []string
 	if s.Bands == "on" {
-		computeBands(r, opt, log)
+		bandWarnings = computeBands(r, opt, log)
 	} else {
 		rep.BandsNote = "uniqueness ranges not computed (--uniqueness off)"
 	}
+	checked()
+	r.Warnings = append(r.Warnings, bandWarnings...)
 	if s.Replicates > 0 {
 		if s.Replicates < 2 {
 			return usage("--replicates %d: need at least 2 for an interval", s.Replicates)
@@ -433,6 +437,29 @@ func afterResolve(r *Result, data mcr.Data, opt mcr.Options, log io.Writer) erro
 		}
 	}
 	return nil
+}
+
+// startChecks begins mcr.CheckConstraintsWith on a goroutine and returns
+// the function that waits for it and records the checks and their
+// warnings. The goroutine reads only the resolution, the data and the
+// figures restartCanMatter judges by.
+func startChecks(r *Result, data mcr.Data, opt mcr.Options) func() {
+	var checks []mcr.ConstraintCheck
+	var err error
+	done := make(chan struct{})
+	co := mcr.CheckOptions{MaxIter: 300, Restart: restartCanMatter(r)}
+	go func() {
+		defer close(done)
+		checks, err = mcr.CheckConstraintsWith(data, r.ALS, opt, co)
+	}()
+	return func() {
+		<-done
+		if err != nil {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("constraint checks stopped: %v", err))
+		}
+		r.Constraints.Checks = checks
+		judgeChecks(r)
+	}
 }
 
 // judgeChecks turns the refits into warnings. It is a χ² test of the rise
@@ -555,7 +582,9 @@ const maxBandsComponents = 6
 // one evaluation's flops per unknown: about a few seconds at the limit.
 const bandsCostLimit = 4e6
 
-func computeBands(r *Result, opt mcr.Options, log io.Writer) {
+// computeBands searches the uniqueness ranges and returns their warnings,
+// for afterResolve to give after the checks'.
+func computeBands(r *Result, opt mcr.Options, log io.Writer) []string {
 	rep := r.Constraints
 	n, m := r.D.Dims()
 	k := r.Components
@@ -564,10 +593,10 @@ func computeBands(r *Result, opt mcr.Options, log io.Writer) {
 		rep.BandsNote = "one component: no rotational ambiguity, the uniqueness range is a single value"
 	case k > maxBandsComponents:
 		rep.BandsNote = fmt.Sprintf("uniqueness ranges not computed: %d components (the search grows as k³; at most %d are computed)", k, maxBandsComponents)
-		return
+		return nil
 	case float64(n+m)*float64(k*k*k) > bandsCostLimit:
 		rep.BandsNote = fmt.Sprintf("uniqueness ranges not computed: %d × %d data with %d components would take long", n, m, k)
-		return
+		return nil
 	}
 	if opt.HardModel != nil || opt.Unimodal != nil {
 		rep.BandsNote = "uniqueness ranges keep non-negativity, closure, known spectra and zero windows; unimodality and the kinetic model are not imposed on the rotations, so the ranges may be wider than the constraints allow"
@@ -589,23 +618,25 @@ func computeBands(r *Result, opt mcr.Options, log io.Writer) {
 	})
 	if err != nil {
 		rep.BandsNote = fmt.Sprintf("uniqueness ranges not computed: %v", err)
-		return
+		return nil
 	}
 	rep.Bands = b
-	if rankDeficientBands(r, b) {
-		return
+	if w := rankDeficientBands(r, b); w != "" {
+		return []string{w}
 	}
+	var warn []string
 	for j, band := range b.Bands {
 		if !band.Feasible {
-			r.Warnings = append(r.Warnings, fmt.Sprintf("uniqueness range of %s not determined: the search could not stay within the constraints and the noise allowance; the range shown (%.3g to %.3g) is only the part reached", r.Names[j], band.Min, band.Max))
+			warn = append(warn, fmt.Sprintf("uniqueness range of %s not determined: the search could not stay within the constraints and the noise allowance; the range shown (%.3g to %.3g) is only the part reached", r.Names[j], band.Min, band.Max))
 		}
 		// A contribution far above the whole signal is reached only by
 		// components that cancel each other: the constraints do not bound
 		// the rotation at all, and the maximum is wherever the search stopped.
 		if band.Max > unboundedBand {
-			r.Warnings = append(r.Warnings, fmt.Sprintf("uniqueness range of %s is unbounded (its largest share %.3g is where the search stopped): the constraints allow rotations in which components cancel each other, and the answer shown is one of them; a known spectrum (--known-spectrum) or zero windows (--zero-window) bound the rotation, and a kinetic model (--model with --hard-model) picks the one that obeys it", r.Names[j], band.Max))
+			warn = append(warn, fmt.Sprintf("uniqueness range of %s is unbounded (its largest share %.3g is where the search stopped): the constraints allow rotations in which components cancel each other, and the answer shown is one of them; a known spectrum (--known-spectrum) or zero windows (--zero-window) bound the rotation, and a kinetic model (--model with --hard-model) picks the one that obeys it", r.Names[j], band.Max))
 		}
 	}
+	return warn
 }
 
 // bandsRSS is the residual sum of squares the uniqueness ranges' noise

@@ -8,6 +8,8 @@ import (
 	"os"
 	"path/filepath"
 	"reflect"
+	"runtime"
+	"slices"
 	"strings"
 	"testing"
 
@@ -311,5 +313,48 @@ func TestBandsAndIntervalsFiles(t *testing.T) {
 	f := makeFirstOrder(1, 0, 2.5e-3, 0)
 	if want := 1 + 2*(len(f.axis)+len(f.times)); len(lines) != want {
 		t.Errorf("intervals.csv has %d lines, want %d", len(lines), want)
+	}
+}
+
+// The constraint checks run beside the uniqueness ranges (afterResolve);
+// their warnings must still come before the ranges', as when the two ran
+// one after the other, whatever GOMAXPROCS. The data make both warn: a
+// first-order A → B diluted by 25 % during the run breaks closure, and
+// spectra free in sign (--nonneg all=profile) leave the rotation unbounded
+// (Lawton & Sylvestre 1971: a bounded region needs both sides
+// non-negative). A run with both on must give the checks-only run's
+// warnings with the ranges-only run's own ones inserted after the checks'.
+func TestChecksWarnBeforeRanges(t *testing.T) {
+	p := makeFirstOrder(1, 0, 2.5e-3, 0.25).write(t, t.TempDir(), "diluted.csv", 1e-4, 3)
+	run := func(checks, bands string) []string {
+		s := NewSettings()
+		s.Data, s.Kind, s.Components, s.NonNeg = []string{p}, "absorbance", "2", []string{"all=profile"}
+		s.Checks, s.Bands = checks, bands
+		r, err := Run(s, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return r.Warnings
+	}
+	checks, bands := run("on", "off"), run("off", "on")
+	pre, post := 0, 0
+	for pre < min(len(checks), len(bands)) && checks[pre] == bands[pre] {
+		pre++
+	}
+	for post < min(len(checks), len(bands))-pre && checks[len(checks)-1-post] == bands[len(bands)-1-post] {
+		post++
+	}
+	own := bands[pre : len(bands)-post]
+	if len(checks)-pre-post == 0 || len(own) == 0 || !anyContains(checks, "closure raises") || !anyContains(own, "is unbounded") {
+		t.Fatalf("the data should make both warn: checks only %q, ranges only %q", checks, bands)
+	}
+	want := append(append(append([]string(nil), checks[:len(checks)-post]...), own...), checks[len(checks)-post:]...)
+	prev := runtime.GOMAXPROCS(0)
+	defer runtime.GOMAXPROCS(prev)
+	for _, procs := range []int{1, 2} {
+		runtime.GOMAXPROCS(procs)
+		if got := run("on", "on"); !slices.Equal(got, want) {
+			t.Errorf("GOMAXPROCS %d: warnings\n%q\nwant\n%q", procs, got, want)
+		}
 	}
 }

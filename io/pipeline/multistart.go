@@ -182,8 +182,8 @@ func startBasis(r *Result, k int) *mat.Dense {
 }
 
 // rankDeficientBands marks every uniqueness range not determined when more
-// components were resolved than the data's rank estimate, and says why in
-// one warning. The ranges are rotations C T, S T⁻ᵀ of the solution; with
+// components were resolved than the data's rank estimate, and returns the
+// one warning that says why ("" when the ranges stand). The ranges are rotations C T, S T⁻ᵀ of the solution; with
 // k components on data of rank r < k other resolutions fit as well that
 // are no rotation of it: C v ≈ 0 for some v, so S + w vᵀ fits for any w
 // that keeps S non-negative, and closed subsystems (A → B → C beside
@@ -191,14 +191,13 @@ func startBasis(r *Result, k int) *mat.Dense {
 // spectra are sums of one species from each subsystem
 // (mcr.TestClosedSubsystemsAdmitPairResolution). The search cannot bound
 // those, so it must not call any range unique.
-func rankDeficientBands(r *Result, b *mcr.BandsResult) bool {
+func rankDeficientBands(r *Result, b *mcr.BandsResult) string {
 	if r.Rank == nil || r.Rank.Estimate <= 0 || r.Components <= r.Rank.Estimate {
-		return false
+		return ""
 	}
 	why := fmt.Sprintf("%d components on data of rank %d: resolutions that are no rotation of this one fit as well", r.Components, r.Rank.Estimate)
 	for j := range b.Bands {
 		b.Bands[j].Feasible, b.Bands[j].Reason = false, why
 	}
-	r.Warnings = append(r.Warnings, fmt.Sprintf("uniqueness ranges not determined: %d components on data whose rank estimate is %d, so resolutions that are no rotation of this one fit as well: closed subsystems (e.g. A -> B -> C beside D -> E) admit exact non-negative resolutions whose spectra are sums of one species from each subsystem, whatever the bands, and non-negativity and closure cannot tell them from the truth; a kinetic model (--model with --hard-model) or known spectra (--known-spectrum) can", r.Components, r.Rank.Estimate))
-	return true
+	return fmt.Sprintf("uniqueness ranges not determined: %d components on data whose rank estimate is %d, so resolutions that are no rotation of this one fit as well: closed subsystems (e.g. A -> B -> C beside D -> E) admit exact non-negative resolutions whose spectra are sums of one species from each subsystem, whatever the bands, and non-negativity and closure cannot tell them from the truth; a kinetic model (--model with --hard-model) or known spectra (--known-spectrum) can", r.Components, r.Rank.Estimate)
 }
