@@ -509,9 +509,7 @@ func (p *bandProblem) stages(j int, sign float64, theta0 []float64, plan stagePl
 	bestTheta := append([]float64(nil), theta...)
 	bestF := p.contribution(p.rotation(theta), j)
 	for _, mu := range plan.mus {
-		x, _, used := minimiseBFGS(func(th, g []float64) float64 {
-			return p.costWork(j, sign, mu, th, g)
-		}, theta, plan.budget, plan.carryStep)
+		x, _, used := minimiseBFGS(bandObjective{p, j, sign, mu}, theta, plan.budget, plan.carryStep)
 		evals += used
 		theta = append(theta[:0], x...)
 		t := p.rotation(theta)

@@ -23,6 +23,7 @@ type bandWork struct {
 	zeroC, zeroS  []bool       // zero windows, n × k and m × k (nil: none)
 	sideC, sideS  *marginSide
 	piv           []int
+	at            evalPoint // the last evaluation (gradientWork)
 }
 
 func (p *bandProblem) newWork() {
@@ -177,13 +178,51 @@ func norm1(a []float64, k int) float64 {
 
 // costWork is cost (see the reference in bands_ref_test.go) on the work
 // buffers: the same function and gradient, without allocating and without
-// forming C T and S T⁻ᵀ whole (see costGram).
+// forming C T and S T⁻ᵀ whole (see valueGram). With g nil only the value.
 func (p *bandProblem) costWork(j int, sign, mu float64, theta, g []float64) float64 {
+	v := p.valueWork(j, sign, mu, theta)
+	if g != nil {
+		p.gradientWork(g)
+	}
+	return v
+}
+
+// valueWork is the search's objective at theta; gradientWork then gives
+// its gradient there from what the evaluation left in the work buffers.
+// The two are apart because the line search rejects most trial points
+// (two thirds on the default run's ranges) and needs the gradient only
+// at the one it accepts.
+func (p *bandProblem) valueWork(j int, sign, mu float64, theta []float64) float64 {
+	w := p.work
+	w.at = evalPoint{j: j, sign: sign, mu: mu}
 	if !p.rotateWork(theta) {
-		clear(g)
 		return 1e6
 	}
-	return p.costGram(j, sign, mu, g)
+	return p.valueGram()
+}
+
+// bandObjective is the search for one end of one range as minimiseBFGS
+// takes it.
+type bandObjective struct {
+	p    *bandProblem
+	j    int
+	sign float64
+	mu   float64
+}
+
+func (o bandObjective) value(x []float64) float64 { return o.p.valueWork(o.j, o.sign, o.mu, x) }
+func (o bandObjective) gradient(g []float64)      { o.p.gradientWork(g) }
+
+// evalPoint is what gradientWork needs of the last evaluation besides the
+// work buffers: the end searched, the penalty's weight, and whether the
+// penalty and the objective's own terms have a gradient there.
+type evalPoint struct {
+	j          int
+	sign, mu   float64
+	smooth     bool    // false: a wall (singular T, a zero column): gradient 0
+	na2, nb2   float64 // ‖a_j‖², ‖b_j‖²
+	rising     bool    // within the noise: the rise exceeds the allowance
+	riseFactor float64 // then μ·∂(h²)/∂rise times the 2 of ∂‖XYᵀ‖²
 }
 
 // projectGradient finishes dT = w.gt − T⁻ᵀ·w.gbB and writes its component
@@ -208,15 +247,16 @@ func (p *bandProblem) projectGradient(g []float64) {
 	}
 }
 
-// costGram is the cost after rotateWork. The objective's own terms need
-// only the Gram matrices: ‖a_j‖² = (Tᵀ CᵀC T)_jj, Cᵀa_j = CᵀC t_j,
+// valueGram is the objective after rotateWork. Its own terms need only
+// the Gram matrices: ‖a_j‖² = (Tᵀ CᵀC T)_jj, Cᵀa_j = CᵀC t_j,
 // ‖b_j‖² = (BᵀB)_jj and b_jᵀB is row j of BᵀB = T⁻¹ SᵀS T⁻ᵀ. Only the
 // entries of A = C T and B = S T⁻ᵀ that break a constraint enter the
 // penalty (marginSide finds them without forming A and B), so the
 // violation penalty and its gradient are sparse sums, and so is the rise
 // of the residual within the noise (riseSparse).
-func (p *bandProblem) costGram(j int, sign, mu float64, g []float64) float64 {
+func (p *bandProblem) valueGram() float64 {
 	w, k := p.work, p.k
+	j, sign, mu := w.at.j, w.at.sign, w.at.mu
 	// Cᵀ a_j = CᵀC t_j and ‖a_j‖² = t_jᵀ CᵀC t_j.
 	ctA := w.vec[0]
 	na2 := 0.0
@@ -247,31 +287,44 @@ func (p *bandProblem) costGram(j int, sign, mu float64, g []float64) float64 {
 	}
 	nb2 := bjB[j]
 	if !(na2 > 0) || !(nb2 > 0) {
-		clear(g)
 		return 1e6
 	}
-	grad := g != nil
-	if grad {
-		clear(w.gt)
-		clear(w.gbB)
-	}
+	w.at.smooth, w.at.na2, w.at.nb2 = true, na2, nb2
 	var pen float64
 	if p.allow > 0 {
-		pen = p.riseSparse(mu, grad)
+		pen = p.riseSparse()
 	} else {
-		pen = w.sideC.violations(w.t, k, p.wc, mu, w.gt, grad, nil)
-		pen += w.sideS.violations(w.tinvT, k, p.ws, mu, w.gbB, grad, w.tinvT)
+		pen = w.sideC.violations(w.t, k, p.wc)
+		pen += w.sideS.violations(w.tinvT, k, p.ws)
 	}
-	v := sign*(0.5*math.Log(na2)+0.5*math.Log(nb2)-math.Log(p.norm)) + mu*pen
-	if !grad {
-		return v
+	return sign*(0.5*math.Log(na2)+0.5*math.Log(nb2)-math.Log(p.norm)) + mu*pen
+}
+
+// gradientWork writes into g the gradient of the objective at the point
+// of the last valueWork.
+func (p *bandProblem) gradientWork(g []float64) {
+	w, k := p.work, p.k
+	at := w.at
+	if !at.smooth {
+		clear(g)
+		return
 	}
+	clear(w.gt)
+	clear(w.gbB)
+	if p.allow > 0 {
+		if at.rising {
+			p.riseGradient(at.riseFactor)
+		}
+	} else {
+		w.sideC.violationGradient(k, p.wc, at.mu, w.gt, nil)
+		w.sideS.violationGradient(k, p.ws, at.mu, w.gbB, w.tinvT)
+	}
+	ctA, bjB := w.vec[0], w.vec[2]
 	for r := 0; r < k; r++ {
-		w.gt[r*k+j] += sign * ctA[r] / na2
-		w.gbB[j*k+r] += sign * bjB[r] / nb2
+		w.gt[r*k+at.j] += at.sign * ctA[r] / at.na2
+		w.gbB[at.j*k+r] += at.sign * bjB[r] / at.nb2
 	}
 	p.projectGradient(g)
-	return v
 }
 
 // gramCross sets out = xᵀ y for row-major x, y with k columns (k × k).
@@ -590,24 +643,29 @@ func (ms *marginSide) entry(i, j int) float64 {
 }
 
 // violations returns Σ_j w_j Σ_i viol_ij² over the entries of X·V breaking
-// non-negativity or a zero window and, with grad, accumulates μ times the
-// gradient's product: for the profiles (full nil) out += Xᵀ G
+// non-negativity or a zero window, and keeps them (ms.list) for
+// violationGradient.
+func (ms *marginSide) violations(v []float64, k int, wt []float64) float64 {
+	ms.list = ms.collect(v, ms.list)
+	pen := 0.0
+	for _, e := range ms.list {
+		pen += wt[e.j] * e.val * e.val
+	}
+	return pen
+}
+
+// violationGradient accumulates μ times the gradient's product of the
+// entries violations found: for the profiles (full nil) out += Xᵀ G
 // (out[r][j] += x_ir·g_ij); for the spectra out += Gᵀ B with B = X·full,
 // formed as (Gᵀ X)·full: the k × k sum Gᵀ X costs k flops per violated
 // entry, and the one product with full k³ per evaluation, where forming
 // each violated row of B would cost k² per entry.
-func (ms *marginSide) violations(v []float64, k int, wt []float64, mu float64, out []float64, grad bool, full []float64) float64 {
-	ms.list = ms.collect(v, ms.list)
-	pen := 0.0
+func (ms *marginSide) violationGradient(k int, wt []float64, mu float64, out []float64, full []float64) {
 	gx := ms.gx
-	if grad && full != nil {
+	if full != nil {
 		clear(gx)
 	}
 	for _, e := range ms.list {
-		pen += wt[e.j] * e.val * e.val
-		if !grad {
-			continue
-		}
 		gv := mu * 2 * wt[e.j] * e.val
 		xr := ms.x[e.i*k : e.i*k+k]
 		if full == nil {
@@ -621,7 +679,7 @@ func (ms *marginSide) violations(v []float64, k int, wt []float64, mu float64, o
 			row[l] += gv * xv
 		}
 	}
-	if grad && full != nil {
+	if full != nil {
 		for j := 0; j < k; j++ {
 			for c := 0; c < k; c++ {
 				s := 0.0
@@ -632,7 +690,6 @@ func (ms *marginSide) violations(v []float64, k int, wt []float64, mu float64, o
 			}
 		}
 	}
-	return pen
 }
 
 // riseSparse is μ·max(0, rise/allowance − 1)² without μ (the caller
@@ -646,8 +703,9 @@ func (ms *marginSide) violations(v []float64, k int, wt []float64, mu float64, o
 // AᵀA = Tᵀ CᵀC T, BᵀB = T⁻¹ SᵀS T⁻ᵀ, and rise = Σ (XᵀX)∘(YᵀY). The
 // gradient 2 X YᵀY (through the masks) enters Cᵀ G_A as
 // CᵀA₋ (YᵀY)₁₂ + (CᵀC T − CᵀA₋)(YᵀY)₂₂ plus a correction at each clipped
-// entry, and G_Bᵀ B likewise; μ times it is added into w.gt and w.gbB.
-func (p *bandProblem) riseSparse(mu float64, grad bool) float64 {
+// entry, and G_Bᵀ B likewise; riseGradient adds μ times it into w.gt and
+// w.gbB.
+func (p *bandProblem) riseSparse() float64 {
 	w, k := p.work, p.k
 	k2 := 2 * k
 	w.sideC.list = w.sideC.collect(w.t, w.sideC.list)
@@ -712,13 +770,21 @@ func (p *bandProblem) riseSparse(mu float64, grad bool) float64 {
 		rise += gx[i] * gy[i]
 	}
 	h := rise/p.allow - 1
+	w.at.rising = h > 0
 	if h <= 0 {
 		return 0
 	}
-	if !grad {
-		return h * h
-	}
-	f := mu * 2 * h / p.allow * 2 // μ·∂(h²)/∂rise times the 2 of ∂‖XYᵀ‖²
+	w.at.riseFactor = w.at.mu * 2 * h / p.allow * 2 // μ·∂(h²)/∂rise times the 2 of ∂‖XYᵀ‖²
+	return h * h
+}
+
+// riseGradient adds f times the rise's gradient into w.gt and w.gbB (see
+// riseSparse, whose blocks it reads).
+func (p *bandProblem) riseGradient(f float64) {
+	w, k := p.work, p.k
+	k2 := 2 * k
+	gx, gy := w.gx, w.gy
+	ctam, btb := w.sq[0], w.sq[3]
 	// Cᵀ G_A: CᵀA₋ GY₁₂ + (CᵀC T − CᵀA₋) GY₂₂.
 	ctap := congruenceLeft(w.sq[4], w.gc, w.t, k) // CᵀC T
 	for r := 0; r < k; r++ {
@@ -777,7 +843,6 @@ func (p *bandProblem) riseSparse(mu float64, grad bool) float64 {
 			}
 		}
 	})
-	return h * h
 }
 
 // clippedRows holds, for each row of X·V with clipped entries, the row

@@ -18,11 +18,17 @@ import "math"
 // the inverse-Hessian estimate stays badly scaled, the full step overshoots
 // by orders of magnitude at every iteration, and backtracking from 1 then
 // spends most of the evaluations.
-func minimiseBFGS(f func(x, g []float64) float64, x0 []float64, maxEval int, carryStep bool) ([]float64, float64, int) {
+//
+// The gradient is asked for only at the points the line search accepts
+// (f.gradient after f.value there): Armijo backtracking decides on values
+// alone, and on the range searches it rejects more trial points than it
+// accepts.
+func minimiseBFGS(f smoothObjective, x0 []float64, maxEval int, carryStep bool) ([]float64, float64, int) {
 	n := len(x0)
 	x := append([]float64(nil), x0...)
 	g := make([]float64, n)
-	fx := f(x, g)
+	fx := f.value(x)
+	f.gradient(g)
 	evals := 1
 	h := make([]float64, n*n) // inverse Hessian, row-major
 	resetH := func() {
@@ -79,9 +85,10 @@ func minimiseBFGS(f func(x, g []float64) float64, x0 []float64, maxEval int, car
 			for i := range xn {
 				xn[i] = x[i] + step*d[i]
 			}
-			fn = f(xn, gn)
+			fn = f.value(xn)
 			evals++
 			if fn <= fx+1e-4*step*slope {
+				f.gradient(gn)
 				accepted = true
 				break
 			}
@@ -131,4 +138,11 @@ func minimiseBFGS(f func(x, g []float64) float64, x0 []float64, maxEval int, car
 		}
 	}
 	return x, fx, evals
+}
+
+// smoothObjective is a function minimiseBFGS minimises: value at x, and
+// the gradient at the x of the last value call.
+type smoothObjective interface {
+	value(x []float64) float64
+	gradient(g []float64)
 }
