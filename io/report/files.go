@@ -43,15 +43,17 @@ func filesOf(figs []Figure) (map[string][]byte, []string) {
 	res := make([]drawn, len(figs))
 	next := make(chan int)
 	var wg sync.WaitGroup
+	largest := largestImage(figs)
 	for w := 0; w < min(runtime.GOMAXPROCS(0), len(figs)); w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			// One image for all the figures this goroutine draws: a fresh
-			// 2.4 MB image per figure costs its pages' first touch.
-			var pix []byte
+			var s fileScratch
 			for i := range next {
-				res[i].svg, res[i].pngb, pix, res[i].err = standalone(figs[i], pix)
+				if s.pix == nil {
+					s.pix = make([]byte, largest)
+				}
+				res[i].svg, res[i].pngb, res[i].err = standalone(figs[i], &s)
 			}
 		}()
 	}
@@ -77,29 +79,64 @@ func filesOf(figs []Figure) (map[string][]byte, []string) {
 	return out, problems
 }
 
+// fileScratch is what one goroutine of filesOf keeps from figure to
+// figure: one image, and the PNG encoder's working memory. Memory a
+// process touches for the first time is dear (docs/performance.md,
+// Machine): a fresh 2.4 MB image per figure cost its pages' first touch,
+// and so did a fresh deflate state per file.
+type fileScratch struct {
+	pix []byte // the image the PNG is drawn in, when large enough; its content does not matter
+	png pngEncoder
+}
+
+// legendLayout is how a figure's legend is laid out under it: items per
+// row, and the strip's height.
+func legendLayout(fig Figure) (perRow int, legH vg.Length) {
+	perRow = legendColumns(fig.Legend, fig.drawing.w)
+	rows := (len(fig.Legend) + perRow - 1) / perRow
+	return perRow, vg.Length(rows) * legendRowH
+}
+
+// largestImage is the size in bytes of the largest PNG image of the
+// figures (rasterCanvas's), so that each goroutine makes its image once
+// at that size rather than again whenever a figure is taller.
+func largestImage(figs []Figure) int {
+	n := 0
+	for _, fig := range figs {
+		if d := fig.drawing; d.draw != nil {
+			_, legH := legendLayout(fig)
+			n = max(n, 4*figurePixels(d.w)*figurePixels(d.h+legH))
+		}
+	}
+	return n
+}
+
 // legendRowH is the height of one row of the legend strip.
 const legendRowH = 0.55 * vg.Centimeter
 
 // standalone gives a figure's files: the SVG is the report's drawing with
 // the legend under it (standaloneSVG), the PNG a drawing of both at
-// FigureDPI. The PNG is drawn in pix when it is large enough (its content
-// does not matter); the pixels drawn are returned for the next figure.
-func standalone(fig Figure, pix []byte) (svg, pngb, pixOut []byte, err error) {
+// FigureDPI. The PNG is drawn in s.pix when it is large enough (its content
+// does not matter; the pixels drawn are left there for the next figure) and
+// encoded with s.png; s may be nil.
+func standalone(fig Figure, s *fileScratch) (svg, pngb []byte, err error) {
 	defer func() {
 		if e := recover(); e != nil {
 			err = fmt.Errorf("drawing failed: %v", e)
 		}
 	}()
+	if s == nil {
+		s = &fileScratch{}
+	}
 	d := fig.drawing
-	perRow := legendColumns(fig.Legend, d.w)
-	rows := (len(fig.Legend) + perRow - 1) / perRow
-	legH := vg.Length(rows) * legendRowH
+	perRow, legH := legendLayout(fig)
 	if svg, err = standaloneSVG(fig, perRow, legH); err != nil {
-		return nil, nil, pix, err
+		return nil, nil, err
 	}
 	// The canvas starts white, so the plots' own white backgrounds are not
 	// filled again (a fill of the whole picture each).
-	ic, rgba := rasterCanvas(d.w, d.h+legH, pix)
+	ic, rgba := rasterCanvas(d.w, d.h+legH, s.pix)
+	s.pix = rgba.Pix
 	c := draw.Canvas{Canvas: ic, Rectangle: vg.Rectangle{Max: vg.Point{X: d.w, Y: d.h + legH}}}
 	// The raster font has no superscript minus: "cm⁻¹" would print as
 	// "cm¹". Axis texts are written "cm-1" in the PNG only.
@@ -109,12 +146,15 @@ func standalone(fig Figure, pix []byte) (svg, pngb, pixOut []byte, err error) {
 	restoreBg()
 	restore()
 	drawLegend(c, fig.Legend, perRow, d.w)
-	var pb bytes.Buffer
-	if err := encodePNG(&pb, rgba); err != nil {
-		return nil, nil, rgba.Pix, err
+	if pngb, err = s.png.encode(rgba); err != nil {
+		return nil, nil, err
 	}
-	return svg, pb.Bytes(), rgba.Pix, nil
+	return svg, pngb, nil
 }
+
+// figurePixels is a length in pixels of the PNG files, as vgimg.NewWith
+// rounds it (UseWH).
+func figurePixels(l vg.Length) int { return int(l/vg.Inch*FigureDPI + 0.5) }
 
 // rasterCanvas is a white FigureDPI canvas for a drawing w × h, drawing
 // straight into the image it returns. vgimg.NewWith(UseWH) makes an image
@@ -124,8 +164,7 @@ func standalone(fig Figure, pix []byte) (svg, pngb, pixOut []byte, err error) {
 // The image is the size NewWith gives (w and h in pixels, rounded); it is
 // drawn in pix when that is large enough (NewWith paints it all white).
 func rasterCanvas(w, h vg.Length, pix []byte) (*pixelCanvas, *image.RGBA) {
-	px := func(l vg.Length) int { return int(l/vg.Inch*FigureDPI + 0.5) }
-	r := image.Rect(0, 0, px(w), px(h))
+	r := image.Rect(0, 0, figurePixels(w), figurePixels(h))
 	var img *image.RGBA
 	if n := 4 * r.Dx() * r.Dy(); cap(pix) >= n {
 		img = &image.RGBA{Pix: pix[:n], Stride: 4 * r.Dx(), Rect: r}

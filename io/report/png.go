@@ -19,26 +19,49 @@ import (
 // (as image/png does), in half the time. An image with any transparency is
 // left to image/png (found while filtering, not by a pass of its own).
 func encodePNG(w io.Writer, img *image.RGBA) error {
-	width, height := img.Rect.Dx(), img.Rect.Dy()
-	var b bytes.Buffer
-	b.WriteString("\x89PNG\r\n\x1a\n")
-	var hdr [13]byte
-	binary.BigEndian.PutUint32(hdr[0:], uint32(width))
-	binary.BigEndian.PutUint32(hdr[4:], uint32(height))
-	hdr[8], hdr[9] = 8, 2 // bit depth 8, colour type 2 (RGB); methods 0 (deflate, the five filters), no interlace
-	pngChunk(&b, "IHDR", hdr[:])
-	var z bytes.Buffer
-	z.Grow(len(img.Pix) / 8) // figures deflate to about a tenth
-	zw, err := zlib.NewWriterLevel(&z, zlib.BestSpeed)
+	var e pngEncoder
+	b, err := e.encode(img)
 	if err != nil {
 		return err
+	}
+	_, err = w.Write(b)
+	return err
+}
+
+// pngEncoder is encodePNG with its working memory kept from one image to
+// the next (filesOf encodes every figure of a goroutine with one): the
+// deflate state (about 0.5 MB it writes to, a fresh one per image before)
+// is reset rather than made again, which zlib.Writer.Reset documents as
+// equivalent to a new writer, and the compressed data is gathered in one
+// buffer that is kept. Each file is returned in a slice of its own.
+type pngEncoder struct {
+	zw                 *zlib.Writer
+	idat               bytes.Buffer
+	above, line, zeros []byte
+}
+
+// encode returns img's PNG file, the bytes encodePNG writes.
+func (e *pngEncoder) encode(img *image.RGBA) ([]byte, error) {
+	width, height := img.Rect.Dx(), img.Rect.Dy()
+	e.idat.Reset()
+	e.idat.Grow(len(img.Pix) / 8) // figures deflate to about a tenth
+	if e.zw == nil {
+		zw, err := zlib.NewWriterLevel(&e.idat, zlib.BestSpeed)
+		if err != nil {
+			return nil, err
+		}
+		e.zw = zw
+	} else {
+		e.zw.Reset(&e.idat)
 	}
 	// The Up filter of a pixel's three bytes is the difference of its RGBA
 	// bytes from the pixel above (a zero row above the first), the alpha
 	// byte dropped; a row the same as the one above is all zeros.
-	above := make([]byte, 4*width)
-	line := make([]byte, 1+3*width+1) // one spare byte for the last pixel's 4-byte store
-	zeros := make([]byte, 1+3*width)
+	above := grown(&e.above, 4*width)
+	clear(above)
+	line := grown(&e.line, 1+3*width+1) // one spare byte for the last pixel's 4-byte store
+	zeros := grown(&e.zeros, 1+3*width)
+	clear(zeros)
 	line[0], zeros[0] = 2, 2 // filter type Up
 	// The alpha bytes of every row, and-ed.
 	opaque := uint32(0xff000000)
@@ -52,20 +75,36 @@ func encodePNG(w io.Writer, img *image.RGBA) error {
 			opaque = 0 // the same as the zero row above: alpha 0
 		}
 		if opaque != 0xff000000 {
-			return (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(w, img)
+			var b bytes.Buffer
+			err := (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(&b, img)
+			return b.Bytes(), err
 		}
-		if _, err := zw.Write(out); err != nil {
-			return err
+		if _, err := e.zw.Write(out); err != nil {
+			return nil, err
 		}
 		above = row
 	}
-	if err := zw.Close(); err != nil {
-		return err
+	if err := e.zw.Close(); err != nil {
+		return nil, err
 	}
-	pngChunk(&b, "IDAT", z.Bytes())
-	pngChunk(&b, "IEND", nil)
-	_, err = w.Write(b.Bytes())
-	return err
+	var hdr [13]byte
+	binary.BigEndian.PutUint32(hdr[0:], uint32(width))
+	binary.BigEndian.PutUint32(hdr[4:], uint32(height))
+	hdr[8], hdr[9] = 8, 2 // bit depth 8, colour type 2 (RGB); methods 0 (deflate, the five filters), no interlace
+	const signature = "\x89PNG\r\n\x1a\n"
+	b := make([]byte, 0, len(signature)+3*12+len(hdr)+e.idat.Len())
+	b = append(b, signature...)
+	b = pngChunk(b, "IHDR", hdr[:])
+	b = pngChunk(b, "IDAT", e.idat.Bytes())
+	return pngChunk(b, "IEND", nil), nil
+}
+
+// grown is *s resliced to n bytes, made anew when it is shorter.
+func grown(s *[]byte, n int) []byte {
+	if cap(*s) < n {
+		*s = make([]byte, n)
+	}
+	return (*s)[:n]
 }
 
 // upFilter writes the Up filter of an RGBA row (row minus above, byte by
@@ -89,16 +128,11 @@ func upFilter(dst, row, above []byte) uint32 {
 	return alpha & 0xff000000
 }
 
-// pngChunk appends one chunk: length, type, data, CRC-32 of type and data.
-func pngChunk(b *bytes.Buffer, typ string, data []byte) {
-	var n [4]byte
-	binary.BigEndian.PutUint32(n[:], uint32(len(data)))
-	b.Write(n[:])
-	b.WriteString(typ)
-	b.Write(data)
-	crc := crc32.NewIEEE()
-	io.WriteString(crc, typ)
-	crc.Write(data)
-	binary.BigEndian.PutUint32(n[:], crc.Sum32())
-	b.Write(n[:])
+// pngChunk appends one chunk to b: length, type, data, CRC-32 of type and
+// data.
+func pngChunk(b []byte, typ string, data []byte) []byte {
+	b = binary.BigEndian.AppendUint32(b, uint32(len(data)))
+	start := len(b)
+	b = append(append(b, typ...), data...)
+	return binary.BigEndian.AppendUint32(b, crc32.ChecksumIEEE(b[start:]))
 }
