@@ -174,7 +174,7 @@ func rasterCanvas(w, h vg.Length, pix []byte) (*pixelCanvas, *image.RGBA) {
 	ctx := gg.NewContextForRGBA(img)
 	ctx.SetLineCapButt()
 	ctx.InvertY()
-	return &pixelCanvas{Canvas: vgimg.NewWith(vgimg.UseImageWithContext(img, ctx), vgimg.UseDPI(FigureDPI)), img: img, ctx: ctx}, img
+	return &pixelCanvas{Canvas: vgimg.NewWith(vgimg.UseImageWithContext(img, ctx), vgimg.UseDPI(FigureDPI)), img: img, ctx: ctx, colours: []color.Color{color.Black}}, img
 }
 
 // noBackground takes the plots' background colours away (for a canvas

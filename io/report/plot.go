@@ -451,6 +451,9 @@ type pixelCanvas struct {
 	img *image.RGBA
 	ctx *gg.Context          // the canvas's drawing context
 	ras *ftraster.Rasterizer // for strokeLines, made on first use
+	// colours is the canvas's colour and those Push saved (vgimg keeps
+	// them, unexported), for FillString.
+	colours []color.Color
 }
 
 // paint draws p over rect (canvas coordinates): every pixel whose centre
