@@ -134,7 +134,7 @@ func TestFigureFileHoldsTheReportDrawing(t *testing.T) {
 }
 
 // A figure file drawn in the image of a figure drawn before and encoded
-// by the same PNG encoder (filesOf gives each goroutine one of each) is the
+// by the same PNG encoder (drawFigures gives each goroutine one of each) is the
 // file drawn in a fresh image by a fresh encoder, byte for byte: every
 // figure after every other, the earlier one's pixels left in the image,
 // larger or smaller, and its deflate state reset.

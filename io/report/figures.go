@@ -7,6 +7,7 @@ import (
 	"runtime"
 	"strings"
 	"sync"
+	"sync/atomic"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
@@ -16,8 +17,16 @@ import (
 // A figure whose file is missing is simply absent; one that cannot be drawn
 // is reported in problems.
 func Figures(f *Folder) (figs []Figure, problems []string) {
-	type job func() (*Figure, error)
-	var jobs []job
+	d := drawFigures(figureJobs(f), false, nil)
+	return d.figs, d.problems
+}
+
+// figureJob builds one figure from the folder.
+type figureJob func() (*Figure, error)
+
+// figureJobs are the figures the folder's files allow, in reading order.
+func figureJobs(f *Folder) []figureJob {
+	var jobs []figureJob
 	ax := spectralAxis(f.axisName())
 	if f.Maps != nil {
 		if m := f.Maps.Matrices["data"]; m != nil && f.Maps.Matrices["difference"] != nil {
@@ -49,48 +58,139 @@ func Figures(f *Folder) (figs []Figure, problems []string) {
 			}, func() (*Figure, error) { return residualSpectrumFigure(f, m, ax) })
 		}
 	}
-	// Each figure is built from the folder alone (read, never changed) by
-	// one goroutine, several at once; they are collected in reading order,
-	// so the figures and problems do not depend on which finished first.
-	type built struct {
-		fig      *Figure
-		err      error
-		panicked any
+	return jobs
+}
+
+// drawnFigures is what drawFigures gives: the figures in reading order and
+// the problems of those that could not be built; with the files, each
+// figure's files (figures/<id>.svg and .png) and the problems of those
+// that could not be drawn.
+type drawnFigures struct {
+	figs         []Figure
+	problems     []string
+	files        map[string][]byte
+	fileProblems []string
+}
+
+// drawFigures builds the figures of jobs, several at once: each figure is
+// built from the folder alone (read, never changed) by one goroutine, and
+// they are collected in reading order, so the figures and problems do not
+// depend on which finished first. With files, the same goroutines go on to
+// draw each built figure's files (standalone), from its own plots, as the
+// figures are done rather than after the last of them; built, when not
+// nil, is called on the caller's goroutine with the figures and problems
+// once every figure is built, while the files are still being drawn (the
+// report's HTML needs the figures only).
+func drawFigures(jobs []figureJob, files bool, built func(figs []Figure, problems []string)) drawnFigures {
+	type slot struct {
+		fig       *Figure
+		err       error
+		panicked  any
+		done      chan struct{} // closed when fig, err and panicked are set
+		svg, pngb []byte
+		fileErr   error
 	}
-	res := make([]built, len(jobs))
-	next := make(chan int, len(jobs))
-	for k := range jobs {
-		next <- k
+	n := len(jobs)
+	res := make([]slot, n)
+	tasks := make(chan int, 2*n) // building figure k is task k; its files, task n + k
+	for k := range res {
+		res[k].done = make(chan struct{})
+		tasks <- k
 	}
-	close(next)
-	var wg sync.WaitGroup
-	for w := 0; w < min(runtime.GOMAXPROCS(0), len(jobs)); w++ {
+	if files {
+		for k := range n {
+			tasks <- n + k
+		}
+	}
+	close(tasks)
+	// largestBuilt is the size in bytes of the largest PNG image of the
+	// figures built so far (rasterCanvas's): a goroutine makes its image
+	// once, when it draws its first file, at that size (by then all but the
+	// figures other goroutines are still building are known) rather than
+	// again whenever a figure is taller.
+	largestBuilt := func() int {
+		size := 0
+		for k := range res {
+			select {
+			case <-res[k].done:
+				if fig := res[k].fig; fig != nil && fig.drawing.draw != nil {
+					_, legH := legendLayout(*fig)
+					size = max(size, 4*figurePixels(fig.drawing.w)*figurePixels(fig.drawing.h+legH))
+				}
+			default:
+			}
+		}
+		return size
+	}
+	var stop atomic.Bool // a figure panicked: draw no more files
+	var figsBuilt, wg sync.WaitGroup
+	figsBuilt.Add(n)
+	for w := 0; w < min(runtime.GOMAXPROCS(0), n); w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			for k := range next {
-				func() {
-					// A panic is raised again on the caller, as when the
-					// figures were built one after another.
-					defer func() { res[k].panicked = recover() }()
-					res[k].fig, res[k].err = jobs[k]()
-				}()
+			var s *fileScratch
+			for t := range tasks {
+				if t < n {
+					func() {
+						// A panic is raised again on the caller, as when the
+						// figures were built one after another.
+						defer func() {
+							res[t].panicked = recover()
+							close(res[t].done)
+							figsBuilt.Done()
+						}()
+						res[t].fig, res[t].err = jobs[t]()
+					}()
+					continue
+				}
+				r := &res[t-n]
+				<-r.done
+				if stop.Load() || r.fig == nil || r.fig.drawing.draw == nil {
+					continue
+				}
+				if s == nil {
+					s = &fileScratch{pix: make([]byte, largestBuilt())}
+				}
+				r.svg, r.pngb, r.fileErr = standalone(*r.fig, s)
 			}
 		}()
 	}
-	wg.Wait()
-	for _, r := range res {
+	figsBuilt.Wait()
+	var d drawnFigures
+	for k := range res {
+		r := &res[k] // its files may be being drawn: read only what the figure's building set
 		if r.panicked != nil {
+			stop.Store(true)
+			wg.Wait()
 			panic(r.panicked)
 		}
 		switch {
 		case r.err != nil:
-			problems = append(problems, r.err.Error())
+			d.problems = append(d.problems, r.err.Error())
 		case r.fig != nil:
-			figs = append(figs, *r.fig)
+			d.figs = append(d.figs, *r.fig)
 		}
 	}
-	return figs, problems
+	if built != nil {
+		built(d.figs, d.problems)
+	}
+	wg.Wait()
+	if !files {
+		return d
+	}
+	d.files = map[string][]byte{}
+	for _, r := range res {
+		switch {
+		case r.fig == nil || r.fig.drawing.draw == nil:
+		case r.fileErr != nil:
+			d.fileProblems = append(d.fileProblems, fmt.Sprintf("%s: %v", r.fig.ID, r.fileErr))
+		default:
+			d.files["figures/"+r.fig.ID+".svg"] = r.svg
+			d.files["figures/"+r.fig.ID+".png"] = r.pngb
+		}
+	}
+	return d
 }
 
 func (f *Folder) axisName() string {

@@ -5,9 +5,7 @@ import (
 	"fmt"
 	"image"
 	"image/color"
-	"runtime"
 	"strings"
-	"sync"
 
 	"git.sr.ht/~sbinet/gg"
 	"gonum.org/v1/plot"
@@ -27,59 +25,11 @@ const FigureDPI = 150
 // legend drawn under the plot (in report.html the legend is HTML beside it).
 // Like the report, they depend only on the folder's files.
 func FigureFiles(f *Folder) (map[string][]byte, []string) {
-	figs, problems := Figures(f)
-	files, more := filesOf(figs)
-	return files, append(problems, more...)
+	d := drawFigures(figureJobs(f), true, nil)
+	return d.files, append(d.problems, d.fileProblems...)
 }
 
-// filesOf draws the figures' files, several figures at once: each figure
-// is drawn from its own plots by one goroutine, so the bytes do not depend
-// on the order the figures finish in.
-func filesOf(figs []Figure) (map[string][]byte, []string) {
-	type drawn struct {
-		svg, pngb []byte
-		err       error
-	}
-	res := make([]drawn, len(figs))
-	next := make(chan int)
-	var wg sync.WaitGroup
-	largest := largestImage(figs)
-	for w := 0; w < min(runtime.GOMAXPROCS(0), len(figs)); w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			var s fileScratch
-			for i := range next {
-				if s.pix == nil {
-					s.pix = make([]byte, largest)
-				}
-				res[i].svg, res[i].pngb, res[i].err = standalone(figs[i], &s)
-			}
-		}()
-	}
-	for i, fig := range figs {
-		if fig.drawing.draw != nil {
-			next <- i
-		}
-	}
-	close(next)
-	wg.Wait()
-	out := map[string][]byte{}
-	var problems []string
-	for i, fig := range figs {
-		switch {
-		case fig.drawing.draw == nil:
-		case res[i].err != nil:
-			problems = append(problems, fmt.Sprintf("%s: %v", fig.ID, res[i].err))
-		default:
-			out["figures/"+fig.ID+".svg"] = res[i].svg
-			out["figures/"+fig.ID+".png"] = res[i].pngb
-		}
-	}
-	return out, problems
-}
-
-// fileScratch is what one goroutine of filesOf keeps from figure to
+// fileScratch is what one goroutine of drawFigures keeps from figure to
 // figure: one image, and the PNG encoder's working memory. Memory a
 // process touches for the first time is dear (docs/performance.md,
 // Machine): a fresh 2.4 MB image per figure cost its pages' first touch,
@@ -95,20 +45,6 @@ func legendLayout(fig Figure) (perRow int, legH vg.Length) {
 	perRow = legendColumns(fig.Legend, fig.drawing.w)
 	rows := (len(fig.Legend) + perRow - 1) / perRow
 	return perRow, vg.Length(rows) * legendRowH
-}
-
-// largestImage is the size in bytes of the largest PNG image of the
-// figures (rasterCanvas's), so that each goroutine makes its image once
-// at that size rather than again whenever a figure is taller.
-func largestImage(figs []Figure) int {
-	n := 0
-	for _, fig := range figs {
-		if d := fig.drawing; d.draw != nil {
-			_, legH := legendLayout(fig)
-			n = max(n, 4*figurePixels(d.w)*figurePixels(d.h+legH))
-		}
-	}
-	return n
 }
 
 // legendRowH is the height of one row of the legend strip.

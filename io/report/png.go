@@ -29,7 +29,7 @@ func encodePNG(w io.Writer, img *image.RGBA) error {
 }
 
 // pngEncoder is encodePNG with its working memory kept from one image to
-// the next (filesOf encodes every figure of a goroutine with one): the
+// the next (drawFigures encodes every figure of a goroutine with one): the
 // deflate state (about 0.5 MB it writes to, a fresh one per image before)
 // is reset rather than made again, which zlib.Writer.Reset documents as
 // equivalent to a new writer, and the compressed data is gathered in one
