@@ -44,12 +44,26 @@ func computeEFA(r *Result) {
 	if r.Components < 1 || r.EFA != nil {
 		return
 	}
+	rep, err := efaReport(r)
+	if err != nil {
+		efaSkipped(r, err)
+		return
+	}
+	r.EFA = rep
+}
+
+func efaSkipped(r *Result, err error) {
+	r.Warnings = append(r.Warnings, fmt.Sprintf("evolving factor analysis skipped: %v", err))
+}
+
+// efaReport is computeEFA's report; it only reads r, so that startALS may
+// run it beside the first ALS start.
+func efaReport(r *Result) (*EFAReport, error) {
 	n, m := r.D.Dims()
 	f := min(r.Components+1, n, m)
 	e, sigma, scaled, err := evolvingFactors(r, f)
 	if err != nil {
-		r.Warnings = append(r.Warnings, fmt.Sprintf("evolving factor analysis skipped: %v", err))
-		return
+		return nil, err
 	}
 	rep := &EFAReport{Result: e, Factors: f, NoiseUnits: scaled, Windows: e.Windows(r.Components, sigma)}
 	if !(sigma > 0) {
@@ -60,7 +74,7 @@ func computeEFA(r *Result) {
 		v := sigma * (math.Sqrt(float64(i+1)) + math.Sqrt(float64(m)))
 		rep.Threshold[i] = math.Log10(math.Max(v, e.Floor))
 	}
-	r.EFA = rep
+	return rep, nil
 }
 
 // evolvingFactors runs EFA with f curves and returns the noise level its

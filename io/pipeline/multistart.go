@@ -38,35 +38,90 @@ const noiseModelSlack = 1.25
 // 2000 × 3001 the second start was 809 ALS iterations, 40 % of the soft
 // resolution, and fitted worse.
 func startALS(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options) (*mcr.Result, error) {
+	if r.Settings.Init != "auto" {
+		return mcr.Resolve(data, c0, opt)
+	}
+	// The second start (EFA, its windows, ALS from them) needs nothing of
+	// the first: it runs on a goroutine beside it (each keeps about one
+	// core busy), unless the first may be kept alone, which only its end
+	// can tell. The progress bar follows the first.
+	var second func() secondStart
+	if !startsFromDataFit(r, opt) {
+		quiet := opt
+		quiet.Observe = nil
+		second = beginSecondStart(r, data, quiet)
+	}
 	best, err := mcr.Resolve(data, c0, opt)
-	if err != nil || r.Settings.Init != "auto" {
+	if second == nil {
+		if err != nil {
+			return best, err
+		}
+		if noiseSS, _ := startNoise(r); mcr.FitsWithinNoise(best, noiseSS) {
+			r.Init += " (one start: it fits within the noise, and hard–soft starts from the fit of the data matrix)"
+			return best, nil
+		}
+		second = beginSecondStart(r, data, opt)
+	}
+	alt := second() // waited for on every path: no goroutine outlives the start
+	if err != nil {
 		return best, err
 	}
-	if noiseSS, _ := startNoise(r); startsFromDataFit(r, opt) && mcr.FitsWithinNoise(best, noiseSS) {
-		r.Init += " (one start: it fits within the noise, and hard–soft starts from the fit of the data matrix)"
+	if !alt.apply(r) {
 		return best, nil
 	}
-	k := r.Components
-	computeEFA(r)
-	if r.EFA == nil {
-		return best, nil
-	}
-	ce := startProfiles(r, k)
-	if ce == nil {
-		return best, nil
-	}
-	alt, err := mcr.Resolve(data, ce, opt)
-	switch {
-	case err == nil && alt.ResidualSS < (1-switchMargin)*best.ResidualSS && !sameFitWiderSplit(r, opt, alt, best):
+	switch err := alt.err; {
+	case err == nil && alt.res.ResidualSS < (1-switchMargin)*best.ResidualSS && !sameFitWiderSplit(r, opt, alt.res, best):
 		r.Init = "evolving factor analysis windows (a better final fit than from " + r.Init + ")"
-		best = alt
-	case err == nil && sameFitWiderSplit(r, opt, best, alt):
+		best = alt.res
+	case err == nil && sameFitWiderSplit(r, opt, best, alt.res):
 		r.Init = "evolving factor analysis windows (the same fit as from " + r.Init + ", with the species spectra nearer zero between bands and the rest in the baseline)"
-		best = alt
+		best = alt.res
 	default:
 		r.Init += " (a better final fit than from evolving factor analysis windows)"
 	}
 	return moreStarts(r, data, best, opt), nil
+}
+
+// secondStart is startALS's start from evolving factor analysis: the EFA
+// report (or why there is none) and the ALS from its windows, when it ran.
+type secondStart struct {
+	efa    *EFAReport
+	efaErr error
+	ran    bool
+	res    *mcr.Result
+	err    error
+}
+
+// beginSecondStart runs the second start on a goroutine and returns the
+// function that waits for it. The goroutine reads r (the factors, D, the
+// weights) and writes nothing of it: apply records its EFA afterwards.
+func beginSecondStart(r *Result, data mcr.Data, opt mcr.Options) func() secondStart {
+	var out secondStart
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		if out.efa = r.EFA; out.efa == nil {
+			out.efa, out.efaErr = efaReport(r)
+		}
+		if out.efa == nil {
+			return
+		}
+		if ce := startProfilesOf(r, out.efa, r.Components); ce != nil {
+			out.res, out.err = mcr.Resolve(data, ce, opt)
+			out.ran = true
+		}
+	}()
+	return func() secondStart { <-done; return out }
+}
+
+// apply records the EFA as computeEFA would have and reports whether the
+// second start's ALS ran.
+func (s secondStart) apply(r *Result) bool {
+	if s.efaErr != nil {
+		efaSkipped(r, s.efaErr)
+	}
+	r.EFA = s.efa
+	return s.ran
 }
 
 // sameFitWiderSplit reports whether, with a baseline fitted, a and b fit the data

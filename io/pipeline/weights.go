@@ -184,14 +184,17 @@ func fitFigures(r *Result, res *mcr.Result) {
 
 // startProfiles gives EFA's initial profiles in the data's rows: with noise
 // weights EFA ran on the scaled matrix, whose profiles have rows √a_i c_i.
-func startProfiles(r *Result, k int) *mat.Dense {
-	if r.EFA == nil {
+func startProfiles(r *Result, k int) *mat.Dense { return startProfilesOf(r, r.EFA, k) }
+
+// startProfilesOf is startProfiles from the EFA report rep.
+func startProfilesOf(r *Result, rep *EFAReport, k int) *mat.Dense {
+	if rep == nil {
 		return nil
 	}
-	if !r.EFA.NoiseUnits {
-		return r.EFA.Windows.InitialProfiles(r.D, k)
+	if !rep.NoiseUnits {
+		return rep.Windows.InitialProfiles(r.D, k)
 	}
-	c := r.EFA.Windows.FactorProfiles(k)
+	c := rep.Windows.FactorProfiles(k)
 	if c == nil {
 		return nil
 	}
