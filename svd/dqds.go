@@ -56,25 +56,73 @@ const (
 
 // bidiagonalValues puts the singular values of the n × n upper bidiagonal
 // matrix with diagonal d and superdiagonal e (length n−1 at least) into d,
-// descending, using work (length 4n at least); e may be overwritten. It
-// returns DLASQ1's info: 0 on success, 2 when dqds stopped at its
-// iteration limit, 1 or 3 on the failures LAPACK reports; d holds nothing
-// of use then. (After info 2 DLASQ1 leaves a bidiagonal with the same
-// values for DBDSQR's QR sweeps to finish; the one caller, squareValues,
-// hands the matrix to mat.SVD instead, which takes that path from the
-// start, so that state is not kept.)
+// descending, using work (length 4n at least). It returns DLASQ1's info:
+// 0 on success, 2 when dqds stopped at its iteration limit, 1 or 3 on the
+// failures LAPACK reports; d holds nothing of use then. (After info 2
+// DLASQ1 leaves a bidiagonal with the same values for DBDSQR's QR sweeps to
+// finish; the one caller, squareValues, hands the matrix to mat.SVD
+// instead, which takes that path from the start, so that state is not
+// kept.)
 func bidiagonalValues(d, e, work []float64) int {
+	var q qdRun
+	if q.begin(d, e, work) {
+		for q.s.next() {
+			q.s.transform()
+		}
+	}
+	return q.end()
+}
+
+// bidiagonalValuesPair is bidiagonalValues of two bidiagonals at once, each
+// to the same bits as alone. Each dqds transform is one long chain of
+// dependent operations (a division waits on the sum before it, the next
+// sum on the division), so a core mostly waits on its divider; two
+// independent transforms in one loop fill those waits (transformPair).
+func bidiagonalValuesPair(d1, e1, work1, d2, e2, work2 []float64) (info1, info2 int) {
+	var q1, q2 qdRun
+	a := q1.begin(d1, e1, work1) && q1.s.next()
+	b := q2.begin(d2, e2, work2) && q2.s.next()
+	for a || b {
+		switch {
+		case a && b:
+			transformPair(&q1.s, &q2.s)
+		case a:
+			q1.s.transform()
+		default:
+			q2.s.transform()
+		}
+		if a {
+			a = q1.s.next()
+		}
+		if b {
+			b = q2.s.next()
+		}
+	}
+	return q1.end(), q2.end()
+}
+
+// qdRun is DLASQ1 around the qd machine: the bidiagonal scaled and squared
+// into the qd array before, the square roots scaled back after.
+type qdRun struct {
+	d, work      []float64
+	sigmx, scale float64
+	running      bool // false: d was final without dqds (n ≤ 2 or diagonal)
+	s            qdState
+}
+
+// begin is DLASQ1 up to DLASQ2; false when d is final already.
+func (q *qdRun) begin(d, e, work []float64) bool {
 	var impl lapackgonum.Implementation
 	n := len(d)
 	switch n {
 	case 0:
-		return 0
+		return false
 	case 1:
 		d[0] = math.Abs(d[0])
-		return 0
+		return false
 	case 2:
 		d[1], d[0] = impl.Dlas2(d[0], e[0], d[1])
-		return 0
+		return false
 	}
 	var sigmx float64
 	for i := 0; i < n-1; i++ {
@@ -84,7 +132,7 @@ func bidiagonalValues(d, e, work []float64) int {
 	d[n-1] = math.Abs(d[n-1])
 	if sigmx == 0 { // already diagonal
 		impl.Dlasrt(lapack.SortDecreasing, n, d)
-		return 0
+		return false
 	}
 	for i := 0; i < n; i++ {
 		sigmx = max(sigmx, d[i])
@@ -103,19 +151,35 @@ func bidiagonalValues(d, e, work []float64) int {
 		work[i] *= work[i]
 	}
 	work[2*n-1] = 0
-	info := qdEigenvalues(n, work)
+	*q = qdRun{d: d, work: work, sigmx: sigmx, scale: scale, running: true}
+	q.s.start(n, work)
+	return true
+}
+
+// end is DLASQ1 after DLASQ2: the singular values from the eigenvalues.
+func (q *qdRun) end() int {
+	if !q.running {
+		return 0
+	}
+	info := q.s.info
 	if info == 0 {
+		var impl lapackgonum.Implementation
+		n := len(q.d)
 		for i := 0; i < n; i++ {
-			d[i] = math.Sqrt(work[i])
+			q.d[i] = math.Sqrt(q.work[i])
 		}
-		impl.Dlascl(lapack.General, 0, 0, scale, sigmx, n, 1, d, 1)
+		impl.Dlascl(lapack.General, 0, 0, q.scale, q.sigmx, n, 1, q.d, 1)
 	}
 	return info
 }
 
-// qdState is what DLASQ3 carries from one dqds step to the next.
+// qdState is DLASQ2 as a machine that stops wherever a dqds transform is
+// due (next), so that a caller can run two transforms side by side: the
+// state DLASQ3 carries from one step to the next, and where DLASQ2's loops
+// stand.
 type qdState struct {
 	z                    []float64
+	n                    int
 	i0, n0, pp           int
 	dmin, sigma, desig   float64
 	qmax                 float64
@@ -123,14 +187,30 @@ type qdState struct {
 	ttype                int
 	dmin1, dmin2         float64
 	dn, dn1, dn2, g, tau float64
+
+	tol, tol2      float64 // 100ε and its square, as DLASQ2–3 take them
+	phase          int
+	iwhila, iwhilb int // DLASQ2's loop counters: blocks, steps on the block
+	nbig           int // the step limit on the block
+	n0in           int // n0 when the step began (DLASQ3)
+	info           int
 }
 
-// qdEigenvalues is DLASQ2 for n ≥ 3: the eigenvalues of the positive
-// definite tridiagonal of the qd array z (q1, e1, q2, e2, …; length 4n),
-// descending in z[0:n]. The data must be non-negative (squares).
-func qdEigenvalues(n int, z []float64) int {
+// Where next resumes.
+const (
+	qdOuter = iota // top of DLASQ2's loop over the unreduced blocks
+	qdInner        // top of its loop of dqds steps on the block
+	qdCheck        // a transform has just been done (DLASQ3)
+	qdDone
+)
+
+// start is DLASQ2 for n ≥ 3 up to its main loop: the eigenvalues of the
+// positive definite tridiagonal of the qd array z (q1, e1, q2, e2, …;
+// length 4n, non-negative) will be in z[0:n], descending, when next says
+// false, with s.info DLASQ2's.
+func (s *qdState) start(n int, z []float64) {
 	tol := qdEps * 100
-	tol2 := tol * tol
+	*s = qdState{z: z, n: n, n0: n - 1, tol: tol, tol2: tol * tol, phase: qdDone}
 	z[2*n-1] = 0
 	var d, e float64
 	for k := 0; k < 2*(n-1); k += 2 {
@@ -145,11 +225,11 @@ func qdEigenvalues(n int, z []float64) int {
 		var impl lapackgonum.Implementation
 		impl.Dlasrt(lapack.SortDecreasing, n, z)
 		z[2*(n-1)] = d
-		return 0
+		return
 	}
 	if d+e == 0 { // zero
 		z[2*(n-1)] = 0
-		return 0
+		return
 	}
 	// Rearrange data for locality: z = (q1, qq1, e1, ee1, q2, qq2, e2, ee2, …).
 	for k := 2 * n; k >= 2; k -= 2 {
@@ -158,7 +238,6 @@ func qdEigenvalues(n int, z []float64) int {
 		z[2*k-3] = 0
 		z[2*k-4] = z[k-2]
 	}
-	s := qdState{z: z, n0: n - 1}
 	if qdCbias*z[0] < z[4*s.n0] { // reverse the qd array, if warranted
 		ipn4 := 4*(s.n0+2) - 1
 		for i4loop := 4; i4loop <= 2*(s.n0+1); i4loop += 4 {
@@ -167,10 +246,10 @@ func qdEigenvalues(n int, z []float64) int {
 			z[i4-1], z[ipn4-i4-6] = z[ipn4-i4-6], z[i4-1]
 		}
 	}
-	s.initialSplits(tol2)
+	s.initialSplits(s.tol2)
 	s.iter = 2
 	s.nDiv = 2 * (s.n0 - s.i0)
-	return s.run(n, tol2)
+	s.phase = qdOuter
 }
 
 // initialSplits is DLASQ2's initial split checking via dqd and Li's test.
@@ -216,46 +295,90 @@ func (s *qdState) initialSplits(tol2 float64) {
 	}
 }
 
-// run is DLASQ2's outer loop over the unreduced blocks.
-func (s *qdState) run(n int, tol2 float64) int {
-	z := s.z
-	for iwhila := 1; iwhila <= n+1; iwhila++ {
-		if s.n0 < 0 { // done: move the q's to the front and sort
-			for k := 1; k < n; k++ {
-				z[k] = z[4*k]
+// next runs DLASQ2 on until the next dqds transform is due, with its
+// shift in tau: true then, and the caller does s.transform() (or
+// transformPair) before calling next again; false when DLASQ2 is done.
+func (s *qdState) next() bool {
+	for {
+		switch s.phase {
+		case qdOuter:
+			s.outer()
+		case qdInner:
+			if s.inner() {
+				s.phase = qdCheck
+				return true
 			}
-			var impl lapackgonum.Implementation
-			impl.Dlasrt(lapack.SortDecreasing, n, z)
-			return 0
-		}
-		// e[n0] holds, negated, the value of sigma when the block i0:n0
-		// split from the rest of the array.
-		s.desig, s.sigma = 0, 0
-		if s.n0 != n-1 {
-			s.sigma = -z[4*(s.n0+1)-2]
-		}
-		if s.sigma < 0 {
-			return 1
-		}
-		s.findBlock()
-		nbig := 100 * (s.n0 - s.i0 + 1)
-		finished := false
-		for iwhilb := 0; iwhilb < nbig; iwhilb++ {
-			if s.i0 > s.n0 {
-				finished = true
-				break
+		case qdCheck:
+			if s.afterTransform() {
+				return true
 			}
-			s.step()
-			s.pp = 1 - s.pp
-			if s.pp == 0 && s.n0-s.i0 >= 3 {
-				s.splits(tol2)
-			}
-		}
-		if !finished {
-			return 2
+			s.endStep()
+		default:
+			return false
 		}
 	}
-	return 3
+}
+
+// outer is the top of DLASQ2's loop over the unreduced blocks.
+func (s *qdState) outer() {
+	z, n := s.z, s.n
+	s.iwhila++
+	if s.iwhila > n+1 {
+		s.info, s.phase = 3, qdDone
+		return
+	}
+	if s.n0 < 0 { // done: move the q's to the front and sort
+		for k := 1; k < n; k++ {
+			z[k] = z[4*k]
+		}
+		var impl lapackgonum.Implementation
+		impl.Dlasrt(lapack.SortDecreasing, n, z)
+		s.info, s.phase = 0, qdDone
+		return
+	}
+	// e[n0] holds, negated, the value of sigma when the block i0:n0
+	// split from the rest of the array.
+	s.desig, s.sigma = 0, 0
+	if s.n0 != n-1 {
+		s.sigma = -z[4*(s.n0+1)-2]
+	}
+	if s.sigma < 0 {
+		s.info, s.phase = 1, qdDone
+		return
+	}
+	s.findBlock()
+	s.nbig = 100 * (s.n0 - s.i0 + 1)
+	s.iwhilb = 0
+	s.phase = qdInner
+}
+
+// inner is the top of DLASQ2's loop of steps on the block and DLASQ3 up
+// to its first transform; true when that is due.
+func (s *qdState) inner() bool {
+	if s.iwhilb >= s.nbig { // the step limit on this block
+		s.info, s.phase = 2, qdDone
+		return false
+	}
+	if s.i0 > s.n0 {
+		s.phase = qdOuter
+		return false
+	}
+	if s.beginStep() {
+		return true
+	}
+	s.endStep()
+	return false
+}
+
+// endStep is DLASQ2 after each DLASQ3: flip ping and pong, check for
+// splits when emin is very small.
+func (s *qdState) endStep() {
+	s.pp = 1 - s.pp
+	if s.pp == 0 && s.n0-s.i0 >= 3 {
+		s.splits(s.tol2)
+	}
+	s.iwhilb++
+	s.phase = qdInner
 }
 
 // findBlock finds the last unreduced block's top index i0 and qmax, a
@@ -344,20 +467,32 @@ func (s *qdState) splits(tol2 float64) {
 	s.i0 = splt + 1
 }
 
-// step is DLASQ3: deflate what has converged at the bottom of the block,
-// flip the block when that helps, choose a shift and take one dqds
-// transform, with smaller shifts until the result is positive.
+// step is DLASQ3 in one call: deflate what has converged at the bottom of
+// the block, flip the block when that helps, choose a shift and take dqds
+// transforms, with smaller shifts until the result is positive. The
+// machine (next) takes the same steps in two halves around each transform.
 func (s *qdState) step() {
-	tol := qdEps * 100
-	n0in := s.n0
-	if !s.deflate(tol * tol) {
+	if !s.beginStep() {
 		return
+	}
+	s.transform()
+	for s.afterTransform() {
+		s.transform()
+	}
+}
+
+// beginStep is DLASQ3 up to the first transform, whose shift it leaves in
+// tau; false when the block is used up.
+func (s *qdState) beginStep() bool {
+	s.n0in = s.n0
+	if !s.deflate(s.tol2) {
+		return false
 	}
 	if s.pp == 2 {
 		s.pp = 0
 	}
 	z := s.z
-	if s.dmin <= 0 || s.n0 < n0in {
+	if s.dmin <= 0 || s.n0 < s.n0in {
 		i0, n0, pp := s.i0, s.n0, s.pp
 		if qdCbias*z[4*(i0+1)+pp-4] < z[4*(n0+1)+pp-4] {
 			s.flip()
@@ -372,9 +507,41 @@ func (s *qdState) step() {
 			s.dmin = math.Copysign(0, -1)
 		}
 	}
-	s.shift(n0in)
-	if !s.positiveTransform(tol) {
-		// Risk of underflow: a transform with zero shift and protection.
+	s.shift(s.n0in)
+	return true
+}
+
+// afterTransform is DLASQ3 after a transform: true when the shift was too
+// big and another transform is due with the smaller one now in tau; else
+// the step is finished (by the protected transform when DLASQ3 falls back
+// to it) and sigma takes the shift.
+func (s *qdState) afterTransform() bool {
+	z, tol := s.z, s.tol
+	s.nDiv += s.n0 - s.i0 + 2
+	s.iter++
+	switch {
+	case s.dmin >= 0 && s.dmin1 >= 0:
+	case s.dmin < 0 && s.dmin1 > 0 && z[4*s.n0-s.pp-1] < tol*(s.sigma+s.dn1) && math.Abs(s.dn) < tol*s.sigma:
+		// Convergence hidden by a negative dn.
+		z[4*s.n0-s.pp+1] = 0
+		s.dmin = 0
+	case s.dmin < 0: // tau too big: select a new tau and try again
+		s.nFail++
+		switch {
+		case s.ttype < -22: // failed twice: play it safe
+			s.tau = 0
+		case s.dmin1 > 0: // late failure: gives an excellent shift
+			s.tau = (s.tau + s.dmin) * (1 - 2*qdEps)
+			s.ttype -= 11
+		default: // early failure: divide by 4
+			s.tau = s.tau / 4
+			s.ttype -= 12
+		}
+		return true
+	case math.IsNaN(s.dmin) && s.tau != 0:
+		s.tau = 0
+		return true
+	default: // NaN with no shift, or possible underflow
 		s.transformSafe()
 		s.nDiv += s.n0 - s.i0 + 2
 		s.iter++
@@ -391,45 +558,7 @@ func (s *qdState) step() {
 		s.desig += s.sigma - (t - s.tau)
 	}
 	s.sigma = t
-}
-
-// positiveTransform calls dqds until dmin ≥ 0, lowering the shift after
-// each failure; false when DLASQ3 would go on to the protected transform.
-func (s *qdState) positiveTransform(tol float64) bool {
-	z := s.z
-	for {
-		s.transform()
-		s.nDiv += s.n0 - s.i0 + 2
-		s.iter++
-		switch {
-		case s.dmin >= 0 && s.dmin1 >= 0:
-			return true
-		case s.dmin < 0 && s.dmin1 > 0 && z[4*s.n0-s.pp-1] < tol*(s.sigma+s.dn1) && math.Abs(s.dn) < tol*s.sigma:
-			// Convergence hidden by a negative dn.
-			z[4*s.n0-s.pp+1] = 0
-			s.dmin = 0
-			return true
-		case s.dmin < 0: // tau too big: select a new tau and try again
-			s.nFail++
-			switch {
-			case s.ttype < -22: // failed twice: play it safe
-				s.tau = 0
-			case s.dmin1 > 0: // late failure: gives an excellent shift
-				s.tau = (s.tau + s.dmin) * (1 - 2*qdEps)
-				s.ttype -= 11
-			default: // early failure: divide by 4
-				s.tau = s.tau / 4
-				s.ttype -= 12
-			}
-		case math.IsNaN(s.dmin):
-			if s.tau == 0 {
-				return false
-			}
-			s.tau = 0
-		default: // possible underflow
-			return false
-		}
-	}
+	return false
 }
 
 // deflate is DLASQ3's check for one or two negligible e's at the bottom of
@@ -742,39 +871,63 @@ func (s *qdState) shiftTwoDeflated(nn int) (float64, bool) {
 // (pp picks which half of z is read and which written). With a negligible
 // shift (tau set to 0) d's below ε·sigma are set to zero.
 func (s *qdState) transform() {
+	d, dmin, emin, dthresh, o, ok := s.transformBegin()
+	if !ok {
+		return
+	}
+	d, dmin, emin = s.transformRun(d, dmin, emin, dthresh, o, s.n0-s.i0-2)
+	s.transformEnd(d, dmin, emin)
+}
+
+// transformBegin is DLASQ5 up to its loop: the first d, dmin and emin, the
+// threshold for zero d's and the offset o of the first step (see
+// transformRun); false, with the zero results DLASQ5 returns, when the
+// block is too short for a transform.
+func (s *qdState) transformBegin() (d, dmin, emin, dthresh float64, o int, ok bool) {
 	z, i0, n0, pp := s.z, s.i0, s.n0, s.pp
 	s.dmin, s.dmin1, s.dmin2, s.dn, s.dn1, s.dn2 = 0, 0, 0, 0, 0, 0
 	if n0-i0-1 <= 0 {
-		return
+		return 0, 0, 0, 0, 0, false
 	}
 	tau := s.tau
-	dthresh := qdEps * (s.sigma + tau)
+	dthresh = qdEps * (s.sigma + tau)
 	if tau < dthresh*0.5 {
 		tau = 0
 	}
 	s.tau = tau
-	// Written q at o, read e at o+1+2pp and q at o+3+2pp, written e at o+2.
 	j4 := 4*i0 + pp
-	emin := z[j4+4]
-	d := z[j4] - tau
-	dmin := d
-	r := 2 * pp
-	for j4loop := 4 * (i0 + 1); j4loop <= 4*((n0+1)-3); j4loop += 4 {
-		o := j4loop - 3 - pp
+	emin = z[j4+4]
+	d = z[j4] - tau
+	return d, d, emin, dthresh, 4*(i0+1) - 3 - pp, true
+}
+
+// transformRun is DLASQ5's loop, k steps from offset o: each writes the
+// new q at o and the new e at o+2 from the e at o+1+2pp and the q at
+// o+3+2pp.
+func (s *qdState) transformRun(d, dmin, emin, dthresh float64, o, k int) (float64, float64, float64) {
+	z, tau, r := s.z, s.tau, 2*s.pp
+	zero := tau == 0
+	for ; k > 0; k-- {
 		z[o] = d + z[o+1+r]
 		tmp := z[o+3+r] / z[o]
 		d = d*tmp - tau
-		if tau == 0 && d < dthresh {
+		if zero && d < dthresh {
 			d = 0
 		}
 		dmin = min(dmin, d)
 		z[o+2] = z[o+1+r] * tmp
 		emin = min(z[o+2], emin)
+		o += 4
 	}
-	// The last two steps, unrolled.
+	return d, dmin, emin
+}
+
+// transformEnd is DLASQ5's last two steps, unrolled, and its results.
+func (s *qdState) transformEnd(d, dmin, emin float64) {
+	z, n0, pp, tau := s.z, s.n0, s.pp, s.tau
 	dnm2 := d
 	s.dmin2 = dmin
-	j4 = 4*((n0+1)-2) - pp - 1
+	j4 := 4*((n0+1)-2) - pp - 1
 	j4p2 := j4 + 2*pp - 1
 	z[j4-2] = dnm2 + z[j4p2]
 	z[j4] = z[j4p2+2] * (z[j4p2] / z[j4-2])
@@ -790,6 +943,55 @@ func (s *qdState) transform() {
 	z[j4+2] = dn
 	z[4*(n0+1)-pp-1] = emin
 	s.dmin, s.dn, s.dn1, s.dn2 = dmin, dn, dnm1, dnm2
+}
+
+// transformPair is a.transform() and b.transform() with the steps of their
+// loops taken side by side while both last: two independent chains of
+// dependent operations in one loop, which the processor overlaps. Each
+// state sees the same operations in the same order as alone.
+func transformPair(a, b *qdState) {
+	da, dminA, eminA, thA, oa, okA := a.transformBegin()
+	db, dminB, eminB, thB, ob, okB := b.transformBegin()
+	ka, kb := 0, 0
+	if okA {
+		ka = a.n0 - a.i0 - 2
+	}
+	if okB {
+		kb = b.n0 - b.i0 - 2
+	}
+	za, tauA, ra, zeroA := a.z, a.tau, 2*a.pp, a.tau == 0
+	zb, tauB, rb, zeroB := b.z, b.tau, 2*b.pp, b.tau == 0
+	for k := min(ka, kb); k > 0; k-- {
+		za[oa] = da + za[oa+1+ra]
+		zb[ob] = db + zb[ob+1+rb]
+		tmpA := za[oa+3+ra] / za[oa]
+		tmpB := zb[ob+3+rb] / zb[ob]
+		da = da*tmpA - tauA
+		db = db*tmpB - tauB
+		if zeroA && da < thA {
+			da = 0
+		}
+		if zeroB && db < thB {
+			db = 0
+		}
+		dminA = min(dminA, da)
+		dminB = min(dminB, db)
+		za[oa+2] = za[oa+1+ra] * tmpA
+		zb[ob+2] = zb[ob+1+rb] * tmpB
+		eminA = min(za[oa+2], eminA)
+		eminB = min(zb[ob+2], eminB)
+		oa += 4
+		ob += 4
+	}
+	common := min(ka, kb)
+	if okA {
+		da, dminA, eminA = a.transformRun(da, dminA, eminA, thA, oa, ka-common)
+		a.transformEnd(da, dminA, eminA)
+	}
+	if okB {
+		db, dminB, eminB = b.transformRun(db, dminB, eminB, thB, ob, kb-common)
+		b.transformEnd(db, dminB, eminB)
+	}
 }
 
 // transformSafe is DLASQ6: one dqd transform (no shift) in ping-pong form,

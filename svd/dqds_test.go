@@ -14,28 +14,56 @@ import (
 // values near the underflow end (1e−150, so that the squares are 1e−300),
 // zero diagonal and off-diagonal entries (rank-deficient and split
 // matrices), repeated values, and the bidiagonals of triangular factors as
-// EFA builds them.
+// EFA builds them; each alone and in a pair with the one before
+// (bidiagonalValuesPair must give each the values it has alone).
 func TestBidiagonalValuesAreDlasq1s(t *testing.T) {
 	rng := newRNG(1994)
 	var impl lapackgonum.Implementation
+	type solved struct {
+		name       string
+		d, e, want []float64
+		info       int
+	}
+	var prev *solved
+	same := func(name string, n int, got []float64, c *solved) {
+		t.Helper()
+		for k := range got {
+			if math.Float64bits(got[k]) != math.Float64bits(c.want[k]) {
+				t.Fatalf("%s (n = %d): value %d = %v, Dlasq1 gives %v", name, n, k, got[k], c.want[k])
+			}
+		}
+	}
+	// Each bidiagonal alone, and in a pair with the one before
+	// (bidiagonalValuesPair, other kinds and sizes included).
 	check := func(name string, d, e []float64) {
 		t.Helper()
 		n := len(d)
-		d1, e1 := append([]float64(nil), d...), append(append([]float64(nil), e...), 0)
-		d2, e2 := append([]float64(nil), d...), append(append([]float64(nil), e...), 0)
-		info1 := bidiagonalValues(d1, e1, make([]float64, 4*n))
-		info2 := impl.Dlasq1(n, d2, e2, make([]float64, 4*n))
-		if info1 != info2 {
-			t.Fatalf("%s (n = %d): info %d, Dlasq1 %d", name, n, info1, info2)
+		c := &solved{name: name, d: append([]float64(nil), d...), e: append(append([]float64(nil), e...), 0)}
+		c.want = append([]float64(nil), d...)
+		c.info = impl.Dlasq1(n, c.want, append([]float64(nil), c.e...), make([]float64, 4*n))
+		d1, e1 := append([]float64(nil), c.d...), append([]float64(nil), c.e...)
+		if info := bidiagonalValues(d1, e1, make([]float64, 4*n)); info != c.info {
+			t.Fatalf("%s (n = %d): info %d, Dlasq1 %d", name, n, info, c.info)
 		}
-		if info1 != 0 {
-			return // then d holds nothing of use (see bidiagonalValues)
+		if c.info == 0 { // else d holds nothing of use (see bidiagonalValues)
+			same(name, n, d1, c)
 		}
-		for k := range d1 {
-			if math.Float64bits(d1[k]) != math.Float64bits(d2[k]) {
-				t.Fatalf("%s (n = %d): value %d = %v, Dlasq1 gives %v", name, n, k, d1[k], d2[k])
+		if prev != nil {
+			m := len(prev.d)
+			d0, e0 := append([]float64(nil), prev.d...), append([]float64(nil), prev.e...)
+			d1, e1 := append([]float64(nil), c.d...), append([]float64(nil), c.e...)
+			info0, info1 := bidiagonalValuesPair(d0, e0, make([]float64, 4*m), d1, e1, make([]float64, 4*n))
+			if info0 != prev.info || info1 != c.info {
+				t.Fatalf("pair of %s and %s: info %d, %d; Dlasq1 %d, %d", prev.name, name, info0, info1, prev.info, c.info)
+			}
+			if prev.info == 0 {
+				same(prev.name+" paired", m, d0, prev)
+			}
+			if c.info == 0 {
+				same(name+" paired", n, d1, c)
 			}
 		}
+		prev = c
 	}
 	for _, n := range []int{2, 3, 4, 5, 7, 12, 24, 25, 40, 60} {
 		for trial := 0; trial < 40; trial++ {
@@ -170,6 +198,8 @@ func randomQD(rng interface {
 		z[i] = v
 	}
 	s := &qdState{z: z, n0: n - 1, i0: rng.IntN(max(1, n-3)), pp: rng.IntN(2)}
+	s.tol = qdEps * 100
+	s.tol2 = s.tol * s.tol
 	s.sigma = math.Abs(rng.NormFloat64()) * float64(rng.IntN(2))
 	s.dmin = rng.NormFloat64()
 	s.dmin1, s.dmin2 = rng.NormFloat64(), rng.NormFloat64()

@@ -229,39 +229,21 @@ func efaCost(n, c int) float64 {
 }
 
 // evolve returns log10 singular values of growing leading (or trailing) row blocks of y.
+// Once the blocks have as many rows as columns, their singular values are those of the
+// triangular factor R, taken two rows at a time (squareValues.pair): R of the first row of
+// a pair is held while the second row is added.
 func evolve(y *mat.Dense, nf int, floor float64, backward bool) (*mat.Dense, error) {
 	n, p := y.Dims()
 	out := mat.NewDense(n, nf, nil)
 	r := mat.NewDense(p, p, nil) // upper-triangular factor of the rows seen so far
+	held := mat.NewDense(p, p, nil)
+	heldRow := -1 // the row whose R is held, waiting for the next one
 	row := make([]float64, p)
 	var sv mat.SVD
 	sq := newSquareValues(p)
-	buf := make([]float64, p)
+	buf, heldBuf := make([]float64, p), make([]float64, p)
 	logFloor := math.Log10(floor)
-	for step := 0; step < n; step++ {
-		i := step
-		if backward {
-			i = n - 1 - step
-		}
-		copy(row, y.RawRowView(i))
-		givensAppend(r, row)
-		// While fewer rows than columns have been seen, the block itself is the smaller
-		// matrix (Givens may park a row anywhere in R when R is rank-deficient).
-		var blk mat.Matrix = r
-		if step+1 < p {
-			if backward {
-				blk = y.Slice(i, n, 0, p)
-			} else {
-				blk = y.Slice(0, i+1, 0, p)
-			}
-		}
-		vals := buf
-		if blk != r || !sq.values(r, buf) {
-			if !sv.Factorize(blk, mat.SVDNone) {
-				return nil, errors.New("SVD of the triangular factor did not converge")
-			}
-			vals = sv.Values(nil)
-		}
+	put := func(i int, vals []float64) {
 		for k := 0; k < nf; k++ {
 			v := logFloor
 			if k < len(vals) && vals[k] > floor {
@@ -269,6 +251,55 @@ func evolve(y *mat.Dense, nf int, floor float64, backward bool) (*mat.Dense, err
 			}
 			out.Set(i, k, v)
 		}
+	}
+	// values are squareValues' when ok, else mat.SVD's of blk.
+	values := func(vals []float64, ok bool, blk mat.Matrix) ([]float64, error) {
+		if ok {
+			return vals, nil
+		}
+		if !sv.Factorize(blk, mat.SVDNone) {
+			return nil, errors.New("SVD of the triangular factor did not converge")
+		}
+		return sv.Values(nil), nil
+	}
+	for step := 0; step < n; step++ {
+		i := step
+		if backward {
+			i = n - 1 - step
+		}
+		copy(row, y.RawRowView(i))
+		givensAppend(r, row)
+		var vals []float64
+		var err error
+		switch {
+		case step+1 < p:
+			// While fewer rows than columns have been seen, the block itself is the
+			// smaller matrix (Givens may park a row anywhere in R when R is rank-deficient).
+			blk := y.Slice(0, i+1, 0, p)
+			if backward {
+				blk = y.Slice(i, n, 0, p)
+			}
+			vals, err = values(nil, false, blk)
+		case heldRow < 0 && step+1 < n: // wait for the next row
+			held.Copy(r)
+			heldRow = i
+			continue
+		case heldRow < 0: // the last row, alone
+			vals, err = values(buf, sq.values(r, buf), r)
+		default:
+			ok1, ok2 := sq.pair(held, r, heldBuf, buf)
+			var first []float64
+			if first, err = values(heldBuf, ok1, held); err != nil {
+				return nil, err
+			}
+			put(heldRow, first)
+			heldRow = -1
+			vals, err = values(buf, ok2, r)
+		}
+		if err != nil {
+			return nil, err
+		}
+		put(i, vals)
 	}
 	return out, nil
 }
@@ -281,21 +312,25 @@ func evolve(y *mat.Dense, nf int, floor float64, backward bool) (*mat.Dense, err
 // spared is per call: mat.SVD's copy of the matrix and its workspace query
 // (which sizes every path's subroutines), a third of EFA's time for the
 // 4000 windows of 24 columns at 2000 rows; and dqds is bidiagonalValues,
-// gonum's Dlasq1 with its minima inlined, a fifth of what remained.
+// gonum's Dlasq1 with its minima inlined, a fifth of what remained, run on
+// two matrices at once (pair), which overlaps their chains of divisions.
 type squareValues struct {
 	p       int
-	a, work []float64
+	a, work [2][]float64 // two of everything, for pair
 }
 
 func newSquareValues(p int) *squareValues {
-	q := &squareValues{p: p, a: make([]float64, p*p)}
+	q := &squareValues{p: p}
 	if p == 0 {
 		return q
 	}
 	work := []float64{0}
-	a := blas64.General{Rows: p, Cols: p, Stride: p, Data: q.a}
+	a := blas64.General{Rows: p, Cols: p, Stride: p, Data: make([]float64, p*p)}
 	lapack64.Gesvd(lapack.SVDNone, lapack.SVDNone, a, blas64.General{}, blas64.General{}, make([]float64, p), work, -1)
-	q.work = make([]float64, int(work[0]))
+	for k := range q.a {
+		q.a[k] = make([]float64, p*p)
+		q.work[k] = make([]float64, int(work[0]))
+	}
 	return q
 }
 
@@ -305,15 +340,44 @@ func newSquareValues(p int) *squareValues {
 // is left to mat.SVD, a margin on the safe side) or when dqds did not
 // converge, where mat.SVD's full routine decides.
 func (q *squareValues) values(r *mat.Dense, s []float64) bool {
+	if !q.bidiagonal(0, r, s) {
+		return false
+	}
+	return bidiagonalValues(s[:q.p], q.work[0][:q.p], q.work[0][q.p:]) == 0
+}
+
+// pair is values of r1 into s1 and of r2 into s2, with the two dqds runs
+// side by side (bidiagonalValuesPair); the values are each alone's.
+func (q *squareValues) pair(r1, r2 *mat.Dense, s1, s2 []float64) (ok1, ok2 bool) {
+	p := q.p
+	ok1, ok2 = q.bidiagonal(0, r1, s1), q.bidiagonal(1, r2, s2)
+	switch {
+	case ok1 && ok2:
+		info1, info2 := bidiagonalValuesPair(s1[:p], q.work[0][:p], q.work[0][p:], s2[:p], q.work[1][:p], q.work[1][p:])
+		return info1 == 0, info2 == 0
+	case ok1:
+		return bidiagonalValues(s1[:p], q.work[0][:p], q.work[0][p:]) == 0, false
+	case ok2:
+		return false, bidiagonalValues(s2[:p], q.work[1][:p], q.work[1][p:]) == 0
+	}
+	return false, false
+}
+
+// bidiagonal reduces a copy of r in slot k by Dgebrd, as Dgesvd's path 10
+// (ie = 0, itauq = p, itaup = 2p, iwork = 3p): the diagonal into s, the
+// superdiagonal into q.work[k][:p−1]; false (nothing done) when r is not
+// p × p or Dgesvd would scale it first (see values).
+func (q *squareValues) bidiagonal(k int, r *mat.Dense, s []float64) bool {
 	p := q.p
 	if rr, rc := r.Dims(); rr != p || rc != p || p < 2 || len(s) < p {
 		return false
 	}
 	raw := r.RawMatrix()
+	a := q.a[k]
 	big := 0.0
 	for i := 0; i < p; i++ {
 		src := raw.Data[i*raw.Stride : i*raw.Stride+p]
-		copy(q.a[i*p:(i+1)*p], src)
+		copy(a[i*p:(i+1)*p], src)
 		for _, v := range src {
 			if a := math.Abs(v); a > big {
 				big = a
@@ -324,13 +388,9 @@ func (q *squareValues) values(r *mat.Dense, s []float64) bool {
 		return false
 	}
 	var impl lapackgonum.Implementation
-	lwork := len(q.work)
-	// Dgesvd's path 10 with ie = 0, itauq = p, itaup = 2p, iwork = 3p;
-	// then what Dbdsqr does without vectors: Dlasq1, here bidiagonalValues.
-	// When dqds stops at its iteration limit Dbdsqr would go on with QR
-	// sweeps; mat.SVD takes that same path from the start.
-	impl.Dgebrd(p, p, q.a, p, s, q.work, q.work[p:], q.work[2*p:], q.work[3*p:], lwork-3*p)
-	return bidiagonalValues(s[:p], q.work[:p], q.work[p:]) == 0
+	w := q.work[k]
+	impl.Dgebrd(p, p, a, p, s, w, w[p:], w[2*p:], w[3*p:], len(w)-3*p)
+	return true
 }
 
 // givensAppend updates the triangular factor R of a row block to include one more row:

@@ -184,11 +184,14 @@ func TestEFAZeroAndErrors(t *testing.T) {
 // steps of LAPACK's Dgesvd for a square matrix without vectors) must give
 // gonum's mat.SVD (Dgesvd itself, the reference library) to the bit: on
 // triangular factors as the sweeps build them, from 2 to 40 columns, with
-// entries over twelve decades, a zero row and repeated rows; matrices that
-// Dgesvd would scale first are left to mat.SVD (values reports false).
+// entries over twelve decades, a zero row and repeated rows, alone and two
+// at a time (pair, as evolve takes them); matrices that Dgesvd would scale
+// first are left to mat.SVD (values reports false).
 func TestSquareValuesAreDgesvdsBitForBit(t *testing.T) {
 	rng := newRNG(85)
 	for _, p := range []int{2, 3, 8, 24, 25, 40} {
+		var prev *mat.Dense
+		var prevWant []float64
 		for trial := 0; trial < 20; trial++ {
 			r := mat.NewDense(p, p, nil)
 			row := make([]float64, p)
@@ -220,6 +223,19 @@ func TestSquareValuesAreDgesvdsBitForBit(t *testing.T) {
 					t.Fatalf("p = %d, trial %d: value %d = %v, mat.SVD gives %v", p, trial, k, got[k], want[k])
 				}
 			}
+			// Two at once (pair, as evolve takes them) give each the same.
+			if prev != nil {
+				g0, g1 := make([]float64, p), make([]float64, p)
+				if ok0, ok1 := newSquareValues(p).pair(prev, r, g0, g1); !ok0 || !ok1 {
+					t.Fatalf("p = %d, trial %d: pair refused ordinary matrices", p, trial)
+				}
+				for k := range want {
+					if math.Float64bits(g0[k]) != math.Float64bits(prevWant[k]) || math.Float64bits(g1[k]) != math.Float64bits(want[k]) {
+						t.Fatalf("p = %d, trial %d: value %d in a pair %v, %v; mat.SVD %v, %v", p, trial, k, g0[k], g1[k], prevWant[k], want[k])
+					}
+				}
+			}
+			prev, prevWant = r, want
 		}
 	}
 	tiny := mat.NewDense(3, 3, []float64{1e-120, 2e-120, 0, 0, 1e-121, 0, 0, 0, 3e-122})
