@@ -226,3 +226,91 @@ func TestCostWorkAllocatesNothing(t *testing.T) {
 		}
 	}
 }
+
+// Within the noise the clipped rows of C T and S T⁻ᵀ are found either
+// through the margin test or by forming the product whole (clippedRows);
+// the two must give the same rows, the same entries to the last bit (each
+// entry summed in the same order), and the rows and entries the
+// constraints define: a row is listed when an entry of a non-negative
+// column is below zero or lies in a zero window (FeasibleBands), its
+// entries are (C T)_ij to rounding (gonum's product).
+func TestClippedRowsBothWaysSame(t *testing.T) {
+	const n, m, k = 50, 70, 4
+	c, s := bandsBenchPair(n, m, k)
+	zp := make([][]bool, k)
+	zp[1] = make([]bool, n)
+	for i := 10; i < 16; i++ {
+		zp[1][i] = true
+	}
+	rng := rand.New(rand.NewPCG(3, 4))
+	for _, o := range []BandOptions{
+		{Mode: Species},
+		{Mode: Species, ZeroProfiles: zp},
+		{Mode: Reactions, NonNegProfiles: []bool{true, false, true, true}},
+	} {
+		p := &bandProblem{c: c, s: s, n: n, m: m, k: k, opt: o}
+		if err := p.setup(); err != nil {
+			t.Fatal(err)
+		}
+		p.newWork()
+		w := p.work
+		for trial := 0; trial < 12; trial++ {
+			th := make([]float64, len(p.free))
+			for i := range th {
+				th[i] = 0.03 * float64(1+trial%4*10) * rng.NormFloat64()
+			}
+			if !p.rotateWork(th) {
+				continue
+			}
+			for _, side := range []struct {
+				ms *marginSide
+				v  []float64
+				x  *mat.Dense
+				vm func() *mat.Dense
+			}{
+				{w.sideC, w.t, c, func() *mat.Dense { return mat.NewDense(k, k, append([]float64(nil), w.t...)) }},
+				{w.sideS, w.tinvT, s, func() *mat.Dense { return mat.NewDense(k, k, append([]float64(nil), w.tinvT...)) }},
+			} {
+				var list, dense clippedRows
+				list.form(side.ms, side.v) // sizes the storage; no rows yet: the margins
+				if list.dense {
+					t.Fatal("first evaluation formed whole")
+				}
+				dense.form(side.ms, side.v) // sizes the storage
+				dense.formDense(side.ms, side.v)
+				var want mat.Dense
+				want.Mul(side.x, side.vm())
+				rows, _ := side.x.Dims()
+				var wantIdx []int
+				for i := 0; i < rows; i++ {
+					for j := 0; j < k; j++ {
+						if side.ms.zeroAt(i, j) || side.ms.nn[j] && want.At(i, j) < 0 {
+							wantIdx = append(wantIdx, i)
+							break
+						}
+					}
+				}
+				if len(list.idx) != len(dense.idx) || len(list.idx) != len(wantIdx) {
+					t.Fatalf("%+v trial %d: %d rows by the margins, %d whole, %d by definition", o.Mode, trial, len(list.idx), len(dense.idx), len(wantIdx))
+				}
+				r := 0
+				list.each(k, func(i int, full, minus []float64) {
+					d := dense.idx[r]
+					df, dm := dense.full[d*k:d*k+k], dense.minus[d*k:d*k+k]
+					if i != d || i != wantIdx[r] {
+						t.Fatalf("row %d: %d by the margins, %d whole, %d by definition", r, i, d, wantIdx[r])
+					}
+					for j := 0; j < k; j++ {
+						if math.Float64bits(full[j]) != math.Float64bits(df[j]) || math.Float64bits(minus[j]) != math.Float64bits(dm[j]) {
+							t.Errorf("row %d entry %d: %v/%v by the margins, %v/%v whole", i, j, full[j], minus[j], df[j], dm[j])
+						}
+						if e := want.At(i, j); math.Abs(full[j]-e) > 1e-12*(1+math.Abs(e)) {
+							t.Errorf("row %d entry %d: %v, gonum %v", i, j, full[j], e)
+						}
+					}
+					r++
+				})
+			}
+		}
+	}
+}

@@ -708,9 +708,6 @@ func (ms *marginSide) violationGradient(k int, wt []float64, mu float64, out []f
 func (p *bandProblem) riseSparse() float64 {
 	w, k := p.work, p.k
 	k2 := 2 * k
-	w.sideC.list = w.sideC.collect(w.t, w.sideC.list)
-	w.sideS.list = w.sideS.collect(w.tinvT, w.sideS.list)
-	la, lb := w.sideC.list, w.sideS.list
 	gx, gy := w.gx, w.gy
 	clear(gx)
 	clear(gy)
@@ -718,8 +715,8 @@ func (p *bandProblem) riseSparse() float64 {
 	// [k:2k,k:2k] AᵀA − A₋ᵀA − AᵀA₋ + A₋ᵀA₋; Y'Y likewise.
 	ctam := w.sq[0] // CᵀA₋
 	clear(ctam)
-	w.rowsC.form(la, k, w.c, w.t)
-	w.rowsS.form(lb, k, w.s, w.tinvT)
+	w.rowsC.form(w.sideC, w.t)
+	w.rowsS.form(w.sideS, w.tinvT)
 	w.rowsC.each(k, func(i int, full, minus []float64) {
 		cr := w.c[i*k : i*k+k]
 		for p := 0; p < k; p++ {
@@ -849,22 +846,63 @@ func (p *bandProblem) riseGradient(f float64) {
 // x_iᵀV and its clipped entries (zero elsewhere): riseSparse visits them
 // twice per evaluation (the Gram blocks, then the gradient's correction)
 // and they are formed once.
+//
+// They are found one of two ways, whichever the last evaluation's share of
+// clipped rows says is cheaper; both give every entry summed in the order
+// of marginSide.entry, so the rows, the entries found and every sum over
+// them are the same whichever is taken. Few rows clipped: the margin test
+// (marginSide.collect) finds the clipped entries and only their rows are
+// formed. Many (more than denseShare of them; 1670 of the 2000 profiles'
+// rows on the default run's ranges within the noise): the margins would
+// form most entries and then their rows again, so X·V is formed whole,
+// eight sums in flight (rotatedRows), and read for its clipped entries.
 type clippedRows struct {
-	idx         []int
-	full, minus []float64 // len(idx) × k
+	idx   []int
+	dense bool      // X·V formed whole this time
+	full  []float64 // the rows: len(idx) × k, or X·V (rows × k) when dense
+	minus []float64 // their clipped entries, laid out as full
+	// For formDense: per row 1 when it has a clipped entry, per column 1
+	// when non-negative.
+	clipped, nn []uint64
 }
 
-// form fills cr from the clipped entries in list (row-major) of X·V.
-func (cr *clippedRows) form(list []clipped, k int, x, v []float64) {
-	cr.idx = cr.idx[:0]
-	if need := len(list) * k; cap(cr.full) < need { // at most one row per entry
-		cr.full, cr.minus = make([]float64, need), make([]float64, need)
+// denseShare is the share of rows with a clipped entry above which X·V is
+// formed whole (clippedRows). Within the noise, per evaluation (2000 × 3001,
+// GOMAXPROCS 1): 83 % and 43 % of the rows clipped (the default run's five
+// species), whole 220 µs against margins 350 µs; 40 % and 50 % (the
+// six-species chain) 270 against 377; 18 % and 14 % (BenchmarkFeasibleBands'
+// pair, k = 4) 113 against 75.
+const denseShare = 0.3
+
+// form fills cr with the clipped rows of X·V, X = ms.x and V = v (ms's
+// constraints).
+func (cr *clippedRows) form(ms *marginSide, v []float64) {
+	k, rows := ms.k, len(ms.norm)
+	if len(cr.full) != len(ms.x) {
+		cr.full, cr.minus = make([]float64, len(ms.x)), make([]float64, len(ms.x))
+		cr.idx, cr.clipped, cr.nn = make([]int, 0, rows), make([]uint64, rows), make([]uint64, k)
+		for j := range cr.nn {
+			cr.nn[j] = b2u(ms.nn[j])
+		}
 	}
-	cr.full, cr.minus = cr.full[:cap(cr.full)], cr.minus[:cap(cr.minus)]
+	if float64(len(cr.idx)) > denseShare*float64(rows) {
+		cr.formDense(ms, v)
+		return
+	}
+	cr.formList(ms, v)
+}
+
+// formList fills cr from the clipped entries the margin test finds.
+func (cr *clippedRows) formList(ms *marginSide, v []float64) {
+	k := ms.k
+	cr.dense = false
+	ms.list = ms.collect(v, ms.list)
+	list := ms.list
+	cr.idx = cr.idx[:0]
 	at := 0
 	for q := 0; q < len(list); {
 		i := list[q].i
-		xr := x[i*k : i*k+k]
+		xr := ms.x[i*k : i*k+k]
 		full, minus := cr.full[at:at+k], cr.minus[at:at+k]
 		at += k
 		clear(full)
@@ -883,10 +921,150 @@ func (cr *clippedRows) form(list []clipped, k int, x, v []float64) {
 	}
 }
 
+// formDense fills cr from X·V formed whole (storage sized by form).
+func (cr *clippedRows) formDense(ms *marginSide, v []float64) {
+	k, x := ms.k, ms.x
+	cr.dense = true
+	vt := ms.vt
+	for l := 0; l < k; l++ {
+		for j := 0; j < k; j++ {
+			vt[j*k+l] = v[l*k+j]
+		}
+	}
+	rotatedRows(cr.full, cr.minus, cr.clipped, x, vt, cr.nn, k)
+	for e, z := range ms.zero { // nil: no windows
+		if z {
+			cr.minus[e] = cr.full[e]
+			cr.clipped[e/k] = 1
+		}
+	}
+	cr.idx = cr.idx[:0]
+	for i, c := range cr.clipped {
+		if c != 0 {
+			cr.idx = append(cr.idx, i)
+		}
+	}
+}
+
+// b2u is 1 for true, 0 for false.
+func b2u(b bool) uint64 {
+	if b {
+		return 1
+	}
+	return 0
+}
+
+// clipNeg returns s where it breaks non-negativity (nn = 1 and s < 0),
+// else 0, and 1 or 0 for it. Without branches: the signs are as good as
+// random. The sign bit is the test: s is never −0, its sum starts at +0.
+func clipNeg(s float64, nn uint64) (float64, uint64) {
+	bits := math.Float64bits(s)
+	keep := bits >> 63 & nn
+	return math.Float64frombits(bits & -keep), keep
+}
+
+// rotatedRows sets out = X·V for row-major X (rows × k), given Vᵀ (k × k),
+// each entry summed in the order of marginSide.entry (l ascending from
+// +0), minus to its entries breaking non-negativity (0 elsewhere) and
+// clipped[i] to 1 for the rows with one. Four rows by two columns at a
+// time: eight sums in flight, where one entry's sum alone waits on each
+// addition.
+func rotatedRows(out, minus []float64, clipped []uint64, x, vt []float64, nn []uint64, k int) {
+	rows := len(x) / k
+	nn = nn[:k]
+	i := 0
+	for ; i+3 < rows; i += 4 {
+		x0, x1, x2, x3 := x[i*k:i*k+k], x[(i+1)*k:(i+1)*k+k], x[(i+2)*k:(i+2)*k+k], x[(i+3)*k:(i+3)*k+k]
+		o0, o1, o2, o3 := out[i*k:i*k+k], out[(i+1)*k:(i+1)*k+k], out[(i+2)*k:(i+2)*k+k], out[(i+3)*k:(i+3)*k+k]
+		m0, m1, m2, m3 := minus[i*k:i*k+k], minus[(i+1)*k:(i+1)*k+k], minus[(i+2)*k:(i+2)*k+k], minus[(i+3)*k:(i+3)*k+k]
+		var c0, c1, c2, c3, c uint64
+		j := 0
+		for ; j+1 < k; j += 2 {
+			va, vb := vt[j*k:j*k+k], vt[(j+1)*k:(j+1)*k+k]
+			vb = vb[:len(va)]
+			x0, x1, x2, x3 := x0[:len(va)], x1[:len(va)], x2[:len(va)], x3[:len(va)]
+			var a0, a1, a2, a3, b0, b1, b2, b3 float64
+			for l, av := range va {
+				bv := vb[l]
+				a0 += x0[l] * av
+				a1 += x1[l] * av
+				a2 += x2[l] * av
+				a3 += x3[l] * av
+				b0 += x0[l] * bv
+				b1 += x1[l] * bv
+				b2 += x2[l] * bv
+				b3 += x3[l] * bv
+			}
+			o0[j], o1[j], o2[j], o3[j] = a0, a1, a2, a3
+			o0[j+1], o1[j+1], o2[j+1], o3[j+1] = b0, b1, b2, b3
+			na, nb := nn[j], nn[j+1]
+			m0[j], c = clipNeg(a0, na)
+			c0 |= c
+			m1[j], c = clipNeg(a1, na)
+			c1 |= c
+			m2[j], c = clipNeg(a2, na)
+			c2 |= c
+			m3[j], c = clipNeg(a3, na)
+			c3 |= c
+			m0[j+1], c = clipNeg(b0, nb)
+			c0 |= c
+			m1[j+1], c = clipNeg(b1, nb)
+			c1 |= c
+			m2[j+1], c = clipNeg(b2, nb)
+			c2 |= c
+			m3[j+1], c = clipNeg(b3, nb)
+			c3 |= c
+		}
+		if j < k {
+			vj := vt[j*k : j*k+k]
+			x0, x1, x2, x3 := x0[:len(vj)], x1[:len(vj)], x2[:len(vj)], x3[:len(vj)]
+			var a0, a1, a2, a3 float64
+			for l, vv := range vj {
+				a0 += x0[l] * vv
+				a1 += x1[l] * vv
+				a2 += x2[l] * vv
+				a3 += x3[l] * vv
+			}
+			o0[j], o1[j], o2[j], o3[j] = a0, a1, a2, a3
+			na := nn[j]
+			m0[j], c = clipNeg(a0, na)
+			c0 |= c
+			m1[j], c = clipNeg(a1, na)
+			c1 |= c
+			m2[j], c = clipNeg(a2, na)
+			c2 |= c
+			m3[j], c = clipNeg(a3, na)
+			c3 |= c
+		}
+		cl := clipped[i : i+4]
+		cl[0], cl[1], cl[2], cl[3] = c0, c1, c2, c3
+	}
+	for ; i < rows; i++ {
+		xr, o, m := x[i*k:i*k+k], out[i*k:i*k+k], minus[i*k:i*k+k]
+		var ci, c uint64
+		for j := range o {
+			vj := vt[j*k : j*k+k]
+			vj = vj[:len(xr)]
+			s := 0.0
+			for l, xv := range xr {
+				s += xv * vj[l]
+			}
+			o[j] = s
+			m[j], c = clipNeg(s, nn[j])
+			ci |= c
+		}
+		clipped[i] = ci
+	}
+}
+
 // each calls visit once per row, in order, with its full and clipped rows.
 func (cr *clippedRows) each(k int, visit func(i int, full, minus []float64)) {
 	for r, i := range cr.idx {
-		visit(i, cr.full[r*k:r*k+k], cr.minus[r*k:r*k+k])
+		at := r * k
+		if cr.dense {
+			at = i * k
+		}
+		visit(i, cr.full[at:at+k], cr.minus[at:at+k])
 	}
 }
 
