@@ -695,24 +695,11 @@ func writeBandsAndIntervals(r *Result, st *output.Stage) error {
 	if rep == nil || r.ALS == nil {
 		return nil
 	}
-	multi := len(r.Experiments) > 1
-	exp := func(i int) string {
-		if !multi {
-			return "1"
+	if wantBands(r) {
+		csv, ok := r.early.bands.get()
+		if !ok {
+			csv = bandsCSV(r)
 		}
-		return strconv.Itoa(r.ExpOfRow[i] + 1)
-	}
-	if b := rep.Bands; b != nil {
-		t := output.Table{Header: []string{"component", "side", "experiment", "position", "solution", "at_min", "at_max"}}
-		for j, band := range b.Bands {
-			for i, x := range r.Axis {
-				t.Rows = append(t.Rows, []string{r.Names[j], "spectrum", "", output.Float(x), output.Float(r.ALS.S.At(i, j)), output.Float(band.MinSpectrum[i]), output.Float(band.MaxSpectrum[i])})
-			}
-			for i, tm := range r.Times {
-				t.Rows = append(t.Rows, []string{r.Names[j], "profile", exp(i), output.Float(tm), output.Float(r.ALS.C.At(i, j)), output.Float(band.MinProfile[i]), output.Float(band.MaxProfile[i])})
-			}
-		}
-		csv := t.CSV()
 		if err := st.Write("uniqueness.csv", csv); err != nil {
 			return err
 		}
@@ -721,6 +708,7 @@ func writeBandsAndIntervals(r *Result, st *output.Stage) error {
 		}
 	}
 	if iv := rep.Intervals; iv != nil {
+		exp := experimentOfRow(r)
 		t := output.Table{Header: []string{"component", "side", "experiment", "position", "estimate", "low", "high", "sd"}}
 		for j := 0; j < r.Components; j++ {
 			for i, x := range r.Axis {
@@ -735,6 +723,34 @@ func writeBandsAndIntervals(r *Result, st *output.Stage) error {
 		}
 	}
 	return nil
+}
+
+func wantBands(r *Result) bool {
+	return r.Constraints != nil && r.ALS != nil && r.Constraints.Bands != nil
+}
+
+// bandsCSV makes uniqueness.csv; it only reads r (see earlyFiles).
+func bandsCSV(r *Result) []byte {
+	exp := experimentOfRow(r)
+	t := output.Table{Header: []string{"component", "side", "experiment", "position", "solution", "at_min", "at_max"}}
+	for j, band := range r.Constraints.Bands.Bands {
+		for i, x := range r.Axis {
+			t.Rows = append(t.Rows, []string{r.Names[j], "spectrum", "", output.Float(x), output.Float(r.ALS.S.At(i, j)), output.Float(band.MinSpectrum[i]), output.Float(band.MaxSpectrum[i])})
+		}
+		for i, tm := range r.Times {
+			t.Rows = append(t.Rows, []string{r.Names[j], "profile", exp(i), output.Float(tm), output.Float(r.ALS.C.At(i, j)), output.Float(band.MinProfile[i]), output.Float(band.MaxProfile[i])})
+		}
+	}
+	return t.CSV()
+}
+
+// experimentOfRow gives the experiment column of a row: its number with
+// several experiments, "1" with one.
+func experimentOfRow(r *Result) func(i int) string {
+	if len(r.Experiments) <= 1 {
+		return func(int) string { return "1" }
+	}
+	return func(i int) string { return strconv.Itoa(r.ExpOfRow[i] + 1) }
 }
 
 // checkMetric names the lack of fit the constraint checks compare: with the

@@ -118,6 +118,8 @@ func finish(r *Result, stage *output.Stage, extra Extra, st Streams) error {
 		r.inputSums = startInputSums(dataFiles(r))
 	}
 	defer r.inputSums.wait()
+	r.early = startEarlyFiles(r)
+	defer r.early.wait()
 	if err := WriteResults(r, stage); err != nil {
 		return err
 	}

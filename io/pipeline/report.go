@@ -20,9 +20,24 @@ func init() {
 }
 
 func writeMaps(r *Result, stage *output.Stage) error {
-	if r.Settings.Report == "off" || r.D == nil {
+	if !wantMaps(r) {
 		return nil
 	}
+	f, ok := r.early.maps.get()
+	if !ok {
+		f = formatMaps(r)
+	}
+	if err := stage.Write(report.MapsFile, f.csv); err != nil {
+		return err
+	}
+	r.reportMaps = f.maps
+	return nil
+}
+
+func wantMaps(r *Result) bool { return r.Settings.Report != "off" && r.D != nil }
+
+// formatMaps makes maps.csv; it only reads r (see earlyFiles).
+func formatMaps(r *Result) mapsFile {
 	var mats []report.MapMatrix
 	at := func(m *mat.Dense) func(i, j int) float64 { return m.At }
 	mats = append(mats, report.MapMatrix{Name: "data", At: at(r.D)})
@@ -45,11 +60,7 @@ func writeMaps(r *Result, stage *output.Stage) error {
 		}})
 	}
 	b, m := report.FormatMaps(r.Axis, r.Times, r.ExpOfRow, mats)
-	if err := stage.Write(report.MapsFile, b); err != nil {
-		return err
-	}
-	r.reportMaps = m
-	return nil
+	return mapsFile{csv: b, maps: m}
 }
 
 // differenceMatrix stacks the experiments' difference spectra when the

@@ -75,6 +75,8 @@ type Result struct {
 	diffMapRows map[int][]float64
 	// reportMaps is maps.csv as the report reads it, from writeMaps.
 	reportMaps *report.Maps
+	// early are result files formatted ahead of their writers (finish).
+	early earlyFiles
 	// NoiseSigma is the typical noise standard deviation of D (median over
 	// channels) and NoiseSource how it was found.
 	NoiseSigma  float64
