@@ -127,6 +127,10 @@ func FeasibleBands(c, s *mat.Dense, opt BandOptions) (*BandsResult, error) {
 	if k < 1 {
 		return nil, errors.New("bands: no components")
 	}
+	if k > 64 {
+		// The search marks a row's clipped entries in one 64-bit word.
+		return nil, fmt.Errorf("bands: %d components; at most 64", k)
+	}
 	if opt.Tolerance <= 0 {
 		opt.Tolerance = 1e-3
 	}

@@ -230,7 +230,7 @@ func TestCostWorkAllocatesNothing(t *testing.T) {
 // Within the noise the clipped rows of C T and S T⁻ᵀ are found either
 // through the margin test or by forming the product whole (clippedRows);
 // the two must give the same rows, the same entries to the last bit (each
-// entry summed in the same order), and the rows and entries the
+// entry summed in the same order), and the rows and clipped entries the
 // constraints define: a row is listed when an entry of a non-negative
 // column is below zero or lies in a zero window (FeasibleBands), its
 // entries are (C T)_ij to rounding (gonum's product).
@@ -294,13 +294,19 @@ func TestClippedRowsBothWaysSame(t *testing.T) {
 					t.Fatalf("%+v trial %d: %d rows by the margins, %d whole, %d by definition", o.Mode, trial, len(list.idx), len(dense.idx), len(wantIdx))
 				}
 				r := 0
-				list.each(k, func(i int, full, minus []float64) {
+				list.each(k, func(i int, cols uint64, full, minus []float64) {
 					d := dense.idx[r]
 					df, dm := dense.full[d*k:d*k+k], dense.minus[d*k:d*k+k]
 					if i != d || i != wantIdx[r] {
 						t.Fatalf("row %d: %d by the margins, %d whole, %d by definition", r, i, d, wantIdx[r])
 					}
+					if cols != dense.cols[r] {
+						t.Errorf("row %d: clipped columns %b by the margins, %b whole", i, cols, dense.cols[r])
+					}
 					for j := 0; j < k; j++ {
+						if clip := side.ms.zeroAt(i, j) || side.ms.nn[j] && want.At(i, j) < 0; clip != (cols>>j&1 == 1) {
+							t.Errorf("row %d entry %d: clipped %v, by definition %v", i, j, cols>>j&1 == 1, clip)
+						}
 						if math.Float64bits(full[j]) != math.Float64bits(df[j]) || math.Float64bits(minus[j]) != math.Float64bits(dm[j]) {
 							t.Errorf("row %d entry %d: %v/%v by the margins, %v/%v whole", i, j, full[j], minus[j], df[j], dm[j])
 						}

@@ -717,10 +717,11 @@ func (p *bandProblem) riseSparse() float64 {
 	clear(ctam)
 	w.rowsC.form(w.sideC, w.t)
 	w.rowsS.form(w.sideS, w.tinvT)
-	w.rowsC.each(k, func(i int, full, minus []float64) {
+	w.rowsC.each(k, func(i int, cols uint64, full, minus []float64) {
 		cr := w.c[i*k : i*k+k]
-		for p := 0; p < k; p++ {
-			if minus[p] == 0 {
+		for ; cols != 0; cols &= cols - 1 {
+			p := bits.TrailingZeros64(cols)
+			if minus[p] == 0 { // a zero window's entry at exactly 0
 				continue
 			}
 			for q := 0; q < k; q++ {
@@ -732,8 +733,9 @@ func (p *bandProblem) riseSparse() float64 {
 			}
 		}
 	})
-	w.rowsS.each(k, func(_ int, full, minus []float64) {
-		for p := 0; p < k; p++ {
+	w.rowsS.each(k, func(_ int, cols uint64, full, minus []float64) {
+		for ; cols != 0; cols &= cols - 1 {
+			p := bits.TrailingZeros64(cols)
 			if minus[p] == 0 {
 				continue
 			}
@@ -800,12 +802,10 @@ func (p *bandProblem) riseGradient(f float64) {
 	}
 	// At a clipped entry (i, j) of A the gradient is (x_i YᵀY)_j, not
 	// (x_i YᵀY)_{k+j}: add the difference times c_i.
-	w.rowsC.each(k, func(i int, full, minus []float64) {
+	w.rowsC.each(k, func(i int, cols uint64, full, minus []float64) {
 		cr := w.c[i*k : i*k+k]
-		for j := 0; j < k; j++ {
-			if minus[j] == 0 && !w.sideC.zeroAt(i, j) {
-				continue
-			}
+		for ; cols != 0; cols &= cols - 1 {
+			j := bits.TrailingZeros64(cols)
 			d := 0.0
 			for l := 0; l < k; l++ {
 				d += minus[l]*(gy[l*k2+j]-gy[l*k2+k+j]) + (full[l]-minus[l])*(gy[(k+l)*k2+j]-gy[(k+l)*k2+k+j])
@@ -826,11 +826,9 @@ func (p *bandProblem) riseGradient(f float64) {
 			w.gbB[j*k+c] += f * s
 		}
 	}
-	w.rowsS.each(k, func(i int, full, minus []float64) {
-		for j := 0; j < k; j++ {
-			if minus[j] == 0 && !w.sideS.zeroAt(i, j) {
-				continue
-			}
+	w.rowsS.each(k, func(i int, cols uint64, full, minus []float64) {
+		for ; cols != 0; cols &= cols - 1 {
+			j := bits.TrailingZeros64(cols)
 			d := 0.0
 			for l := 0; l < k; l++ {
 				d += full[l]*gx[l*k2+k+j] + minus[l]*gx[(k+l)*k2+k+j]
@@ -858,11 +856,12 @@ func (p *bandProblem) riseGradient(f float64) {
 // eight sums in flight (rotatedRows), and read for its clipped entries.
 type clippedRows struct {
 	idx   []int
+	cols  []uint64  // per row listed: bit j set when entry j is clipped
 	dense bool      // X·V formed whole this time
 	full  []float64 // the rows: len(idx) × k, or X·V (rows × k) when dense
 	minus []float64 // their clipped entries, laid out as full
-	// For formDense: per row 1 when it has a clipped entry, per column 1
-	// when non-negative.
+	// For formDense: per row its clipped entries' bits, per column 1 when
+	// non-negative.
 	clipped, nn []uint64
 }
 
@@ -880,7 +879,8 @@ func (cr *clippedRows) form(ms *marginSide, v []float64) {
 	k, rows := ms.k, len(ms.norm)
 	if len(cr.full) != len(ms.x) {
 		cr.full, cr.minus = make([]float64, len(ms.x)), make([]float64, len(ms.x))
-		cr.idx, cr.clipped, cr.nn = make([]int, 0, rows), make([]uint64, rows), make([]uint64, k)
+		cr.idx, cr.cols = make([]int, 0, rows), make([]uint64, 0, rows)
+		cr.clipped, cr.nn = make([]uint64, rows), make([]uint64, k)
 		for j := range cr.nn {
 			cr.nn[j] = b2u(ms.nn[j])
 		}
@@ -898,7 +898,7 @@ func (cr *clippedRows) formList(ms *marginSide, v []float64) {
 	cr.dense = false
 	ms.list = ms.collect(v, ms.list)
 	list := ms.list
-	cr.idx = cr.idx[:0]
+	cr.idx, cr.cols = cr.idx[:0], cr.cols[:0]
 	at := 0
 	for q := 0; q < len(list); {
 		i := list[q].i
@@ -914,10 +914,12 @@ func (cr *clippedRows) formList(ms *marginSide, v []float64) {
 				full[c] += xv * vv
 			}
 		}
+		var cols uint64
 		for ; q < len(list) && list[q].i == i; q++ {
 			minus[list[q].j] = full[list[q].j]
+			cols |= 1 << list[q].j
 		}
-		cr.idx = append(cr.idx, i)
+		cr.idx, cr.cols = append(cr.idx, i), append(cr.cols, cols)
 	}
 }
 
@@ -935,13 +937,13 @@ func (cr *clippedRows) formDense(ms *marginSide, v []float64) {
 	for e, z := range ms.zero { // nil: no windows
 		if z {
 			cr.minus[e] = cr.full[e]
-			cr.clipped[e/k] = 1
+			cr.clipped[e/k] |= 1 << (e % k)
 		}
 	}
-	cr.idx = cr.idx[:0]
+	cr.idx, cr.cols = cr.idx[:0], cr.cols[:0]
 	for i, c := range cr.clipped {
 		if c != 0 {
-			cr.idx = append(cr.idx, i)
+			cr.idx, cr.cols = append(cr.idx, i), append(cr.cols, c)
 		}
 	}
 }
@@ -966,7 +968,7 @@ func clipNeg(s float64, nn uint64) (float64, uint64) {
 // rotatedRows sets out = X·V for row-major X (rows × k), given Vᵀ (k × k),
 // each entry summed in the order of marginSide.entry (l ascending from
 // +0), minus to its entries breaking non-negativity (0 elsewhere) and
-// clipped[i] to 1 for the rows with one. Four rows by two columns at a
+// clipped[i] to the bits of row i's (bit j for column j). Four rows by two columns at a
 // time: eight sums in flight, where one entry's sum alone waits on each
 // addition.
 func rotatedRows(out, minus []float64, clipped []uint64, x, vt []float64, nn []uint64, k int) {
@@ -999,21 +1001,21 @@ func rotatedRows(out, minus []float64, clipped []uint64, x, vt []float64, nn []u
 			o0[j+1], o1[j+1], o2[j+1], o3[j+1] = b0, b1, b2, b3
 			na, nb := nn[j], nn[j+1]
 			m0[j], c = clipNeg(a0, na)
-			c0 |= c
+			c0 |= c << j
 			m1[j], c = clipNeg(a1, na)
-			c1 |= c
+			c1 |= c << j
 			m2[j], c = clipNeg(a2, na)
-			c2 |= c
+			c2 |= c << j
 			m3[j], c = clipNeg(a3, na)
-			c3 |= c
+			c3 |= c << j
 			m0[j+1], c = clipNeg(b0, nb)
-			c0 |= c
+			c0 |= c << (j + 1)
 			m1[j+1], c = clipNeg(b1, nb)
-			c1 |= c
+			c1 |= c << (j + 1)
 			m2[j+1], c = clipNeg(b2, nb)
-			c2 |= c
+			c2 |= c << (j + 1)
 			m3[j+1], c = clipNeg(b3, nb)
-			c3 |= c
+			c3 |= c << (j + 1)
 		}
 		if j < k {
 			vj := vt[j*k : j*k+k]
@@ -1028,13 +1030,13 @@ func rotatedRows(out, minus []float64, clipped []uint64, x, vt []float64, nn []u
 			o0[j], o1[j], o2[j], o3[j] = a0, a1, a2, a3
 			na := nn[j]
 			m0[j], c = clipNeg(a0, na)
-			c0 |= c
+			c0 |= c << j
 			m1[j], c = clipNeg(a1, na)
-			c1 |= c
+			c1 |= c << j
 			m2[j], c = clipNeg(a2, na)
-			c2 |= c
+			c2 |= c << j
 			m3[j], c = clipNeg(a3, na)
-			c3 |= c
+			c3 |= c << j
 		}
 		cl := clipped[i : i+4]
 		cl[0], cl[1], cl[2], cl[3] = c0, c1, c2, c3
@@ -1051,20 +1053,21 @@ func rotatedRows(out, minus []float64, clipped []uint64, x, vt []float64, nn []u
 			}
 			o[j] = s
 			m[j], c = clipNeg(s, nn[j])
-			ci |= c
+			ci |= c << j
 		}
 		clipped[i] = ci
 	}
 }
 
 // each calls visit once per row, in order, with its full and clipped rows.
-func (cr *clippedRows) each(k int, visit func(i int, full, minus []float64)) {
+// cols has bit j set when entry j is clipped.
+func (cr *clippedRows) each(k int, visit func(i int, cols uint64, full, minus []float64)) {
 	for r, i := range cr.idx {
 		at := r * k
 		if cr.dense {
 			at = i * k
 		}
-		visit(i, cr.full[at:at+k], cr.minus[at:at+k])
+		visit(i, cr.cols[r], cr.full[at:at+k], cr.minus[at:at+k])
 	}
 }
 
