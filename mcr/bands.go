@@ -394,8 +394,60 @@ func (p *bandProblem) rotation(theta []float64) *mat.Dense {
 }
 
 // rotate returns A = C T, B = S T⁻ᵀ and T⁻ᵀ, or ok = false when T is too
-// close to singular for its inverse to mean anything.
+// close to singular for its inverse to mean anything. The last rotation is
+// kept (rotMemo): the callers must not change what it returns.
 func (p *bandProblem) rotate(t *mat.Dense) (a, b, tinvT *mat.Dense, ok bool) {
+	memo := p.memo()
+	if memo != nil && memo.t != nil && sameBits(memo.t, t) {
+		return memo.a, memo.b, memo.tinvT, memo.ok
+	}
+	a, b, tinvT, ok = p.rotateNew(t)
+	if memo != nil {
+		*memo = rotMemo{t: mat.DenseCopyOf(t), a: a, b: b, tinvT: tinvT, ok: ok}
+	}
+	return a, b, tinvT, ok
+}
+
+// rotMemo is the last rotation rotate formed, its pair with the
+// constraints imposed and the rise between the two: a search asks for
+// them at its stages' ends and again for its end (stages, component,
+// amplitude), at the same T, and each costs products and copies of the
+// n × k and m × k matrices. The same T gives the same matrices, so
+// keeping them changes nothing.
+type rotMemo struct {
+	t, a, b, tinvT *mat.Dense
+	ok             bool
+	ap, bp         *mat.Dense // constrainedPair(a, b), nil until asked
+	rise           float64
+	haveRise       bool
+}
+
+// sameBits says whether the k × k matrices x and y hold the same bits
+// (mat.Equal takes −0 for +0, and the products may then differ in sign).
+func sameBits(x, y *mat.Dense) bool {
+	r, c := x.Dims()
+	if rr, cc := y.Dims(); rr != r || cc != c {
+		return false
+	}
+	for i := 0; i < r; i++ {
+		for j := 0; j < c; j++ {
+			if math.Float64bits(x.At(i, j)) != math.Float64bits(y.At(i, j)) {
+				return false
+			}
+		}
+	}
+	return true
+}
+
+// memo is the search's rotMemo, nil before newWork.
+func (p *bandProblem) memo() *rotMemo {
+	if p.work == nil {
+		return nil
+	}
+	return &p.work.memo
+}
+
+func (p *bandProblem) rotateNew(t *mat.Dense) (a, b, tinvT *mat.Dense, ok bool) {
 	var lu mat.LU
 	lu.Factorize(t)
 	if lu.Cond() > 1e10 {
@@ -597,6 +649,18 @@ func (p *bandProblem) clip(x *mat.Dense, nn []bool, zero [][]bool) (*mat.Dense, 
 // ‖[A₋ A₊][B B₋]ᵀ‖² with A₋ = A − A₊, B₋ = B − B₊ (small terms, no
 // cancellation), on Gram matrices: O((n + m)k²).
 func (p *bandProblem) rise(a, b, ga, gb *mat.Dense) float64 {
+	memo := p.memo()
+	if ga != nil || memo == nil || memo.a != a || memo.b != b {
+		return p.riseNew(a, b, ga, gb)
+	}
+	if !memo.haveRise {
+		memo.rise, memo.haveRise = p.riseNew(a, b, nil, nil), true
+	}
+	return memo.rise
+}
+
+// riseNew is rise formed afresh.
+func (p *bandProblem) riseNew(a, b, ga, gb *mat.Dense) float64 {
 	k := p.k
 	ap, ma := p.clip(a, p.nnC, p.opt.ZeroProfiles)
 	bp, mb := p.clip(b, p.nnS, p.opt.ZeroSpectra)
@@ -639,10 +703,18 @@ func (p *bandProblem) rise(a, b, ga, gb *mat.Dense) float64 {
 	return d
 }
 
-// constrainedPair is the rotated pair with the constraints imposed.
+// constrainedPair is the rotated pair with the constraints imposed (kept
+// with the last rotation: the callers must not change it).
 func (p *bandProblem) constrainedPair(a, b *mat.Dense) (*mat.Dense, *mat.Dense) {
+	memo := p.memo()
+	if memo != nil && memo.a == a && memo.b == b && memo.ap != nil {
+		return memo.ap, memo.bp
+	}
 	ap, _ := p.clip(a, p.nnC, p.opt.ZeroProfiles)
 	bp, _ := p.clip(b, p.nnS, p.opt.ZeroSpectra)
+	if memo != nil && memo.a == a && memo.b == b {
+		memo.ap, memo.bp = ap, bp
+	}
 	return ap, bp
 }
 

@@ -24,6 +24,7 @@ type bandWork struct {
 	sideC, sideS  *marginSide
 	piv           []int
 	at            evalPoint // the last evaluation (gradientWork)
+	memo          rotMemo   // the last rotation formed whole (rotate)
 }
 
 func (p *bandProblem) newWork() {
