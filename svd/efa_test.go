@@ -243,3 +243,68 @@ func TestSquareValuesAreDgesvdsBitForBit(t *testing.T) {
 		t.Error("values took a matrix Dgesvd scales first")
 	}
 }
+
+// Windows whose triangular factor squareValues leaves to mat.SVD (largest
+// entry outside [1e−100, 1e100], where Dgesvd would scale first) mixed with
+// windows it takes, alone and in either place of a pair: scores whose rows
+// grow by a factor 10^0.25 from about 1e−105 (or 1e95), so that the forward
+// factor crosses 1e−100 (1e100) about row 20, at an odd or an even row by
+// the offset. The sweeps
+// must give each block's singular values as mat.SVD of the block itself
+// (the definition of EFA, Gampp et al. 1985; gonum's Dgesvd as the
+// reference) within what both routes guarantee, 64·ε·σ₁ of the block
+// (normwise backward stability, Golub & Van Loan §8.6; the constant from
+// memory, generous for 12 columns).
+func TestEFAAcrossTheScalingLimit(t *testing.T) {
+	for _, start := range []float64{-105, -105.25, 95, 94.75} {
+		rng := newRNG(100)
+		n, p := 40, 12
+		// U S = Y exactly: S a power of two, so that the scores are the rows below.
+		const two300 = 0x1p300
+		u := mat.NewDense(n, p, nil)
+		y := mat.NewDense(n, p, nil)
+		for i := 0; i < n; i++ {
+			for j := 0; j < p; j++ {
+				v := rng.NormFloat64() * math.Pow(10, start+0.25*float64(i))
+				y.Set(i, j, v)
+				u.Set(i, j, v*two300)
+			}
+		}
+		s := make([]float64, p)
+		for k := range s {
+			s[k] = 1 / two300
+		}
+		fac := &Factors{U: u, S: s, V: mat.NewDense(p, p, nil)}
+		e, err := efaSweeps(fac, n, p, 4, true)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for i := 0; i < n; i++ {
+			for _, c := range []struct {
+				name string
+				got  []float64
+				blk  mat.Matrix
+			}{
+				{"forward", e.Forward.RawRowView(i), y.Slice(0, i+1, 0, p)},
+				{"backward", e.Backward.RawRowView(i), y.Slice(i, n, 0, p)},
+			} {
+				vals := singularValues(t, c.blk)
+				for k, g := range c.got {
+					want := 0.0
+					if k < len(vals) {
+						want = vals[k]
+					}
+					// In log10, plus the rounding of the logarithm itself.
+					tol := 64*0x1p-52*vals[0]/(want*math.Ln10) + 8*0x1p-52*math.Abs(math.Log10(want))
+					ok := math.Abs(g-math.Log10(want)) <= tol
+					if want <= 2*e.Floor { // near or below the floor: reported as the floor
+						ok = ok || g == math.Log10(e.Floor)
+					}
+					if !ok {
+						t.Errorf("start 1e%g, %s row %d value %d: log10 %g, block SVD %g", start, c.name, i, k, g, math.Log10(want))
+					}
+				}
+			}
+		}
+	}
+}
