@@ -4,7 +4,6 @@
 package output
 
 import (
-	"bufio"
 	"bytes"
 	"encoding/json"
 	"errors"
@@ -12,6 +11,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 	"syscall"
@@ -339,15 +339,21 @@ func (s *Stage) release() {
 // Float formats a number for result files: 10 significant digits, enough
 // for any measured absorbance, and the same text on every platform.
 func Float(v float64) string {
+	var b [32]byte
+	return string(AppendFloat(b[:0], v))
+}
+
+// AppendFloat appends Float(v) to b.
+func AppendFloat(b []byte, v float64) []byte {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		// Never reached by valid results; written as empty rather than NaN
 		// so no output file ever holds a non-number.
-		return ""
+		return b
 	}
 	if v == 0 {
-		return "0"
+		return append(b, '0')
 	}
-	return strconv.FormatFloat(v, 'g', 10, 64)
+	return AppendG(b, v, 10)
 }
 
 // Table is a header and rows of cells, written as CSV.
@@ -359,30 +365,81 @@ type Table struct {
 // CSV renders the table with comma separators and LF line ends. Cells are
 // quoted only when they hold a separator, quote or line break.
 func (t Table) CSV() []byte {
-	var b bytes.Buffer
-	w := bufio.NewWriter(&b)
-	writeRow := func(r []string) {
-		for i, c := range r {
-			if i > 0 {
-				w.WriteByte(',')
-			}
-			if strings.ContainsAny(c, ",\"\n\r") {
-				w.WriteByte('"')
-				w.WriteString(strings.ReplaceAll(c, `"`, `""`))
-				w.WriteByte('"')
-			} else {
-				w.WriteString(c)
-			}
+	n := 0
+	for _, r := range append([][]string{t.Header}, t.Rows...) {
+		n += len(r) // separators and the line end
+		for _, c := range r {
+			n += len(c)
 		}
-		w.WriteByte('\n')
 	}
-	writeRow(t.Header)
-	for _, r := range t.Rows {
-		writeRow(r)
+	var w CSV
+	w.b = make([]byte, 0, n+n/16)
+	for _, r := range append([][]string{t.Header}, t.Rows...) {
+		for _, c := range r {
+			w.Text(c)
+		}
+		w.End()
 	}
-	w.Flush()
-	return b.Bytes()
+	return w.Bytes()
 }
+
+// CSV is a CSV file written cell by cell, the bytes Table.CSV gives for the
+// same cells, without a string per cell.
+type CSV struct {
+	b    []byte
+	open bool // a cell is on the current line
+}
+
+// Grow makes room for n more bytes.
+func (w *CSV) Grow(n int) { w.b = slices.Grow(w.b, n) }
+
+// sep starts a cell.
+func (w *CSV) sep() {
+	if w.open {
+		w.b = append(w.b, ',')
+	}
+	w.open = true
+}
+
+// Text writes a cell of text, quoted only when it holds a separator,
+// quote or line break (quotes doubled).
+func (w *CSV) Text(c string) {
+	w.sep()
+	if strings.ContainsAny(c, ",\"\n\r") {
+		w.b = append(w.b, '"')
+		w.b = append(w.b, strings.ReplaceAll(c, `"`, `""`)...)
+		w.b = append(w.b, '"')
+		return
+	}
+	w.b = append(w.b, c...)
+}
+
+// Float writes the cell Float(v).
+func (w *CSV) Float(v float64) {
+	w.sep()
+	w.b = AppendFloat(w.b, v)
+}
+
+// Raw writes a cell already formatted as a number (no quoting needed).
+func (w *CSV) Raw(c []byte) {
+	w.sep()
+	w.b = append(w.b, c...)
+}
+
+// Int writes the cell strconv.Itoa(i).
+func (w *CSV) Int(i int) {
+	w.sep()
+	w.b = strconv.AppendInt(w.b, int64(i), 10)
+}
+
+// End ends the line.
+func (w *CSV) End() {
+	w.b = append(w.b, '\n')
+	w.open = false
+}
+
+// Bytes is the file written so far.
+func (w *CSV) Bytes() []byte { return w.b }
 
 // JSON renders v indented, with a final newline. encoding/json refuses NaN
 // and Inf, which is the guarantee that summary.json holds none.

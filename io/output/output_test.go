@@ -84,3 +84,40 @@ func TestTableCSV(t *testing.T) {
 		t.Errorf("got %q want %q", got, want)
 	}
 }
+
+// The CSV writer gives, cell by cell, the bytes of Table.CSV with the same
+// cells (RFC 4180 quoting as above): text with separators, quotes, line
+// breaks and none, empty cells, numbers as Float writes them (NaN and Inf
+// empty) and integers, on lines of different lengths.
+func TestCSVWriterAsTable(t *testing.T) {
+	texts := []string{"a", "", "x,y", `say "hi"`, "two\nlines", "cr\r", "wavenumber / cm⁻¹"}
+	nums := []float64{0, 1, -2.5, 1e-7, 123456789.0123, math.NaN(), math.Inf(-1), 6.02214076e23}
+	var tab Table
+	var w CSV
+	for i := range 40 {
+		var row []string
+		for j := range i % 7 {
+			switch (i + j) % 3 {
+			case 0:
+				row = append(row, texts[(i*j)%len(texts)])
+				w.Text(row[len(row)-1])
+			case 1:
+				v := nums[(i+2*j)%len(nums)]
+				row = append(row, Float(v))
+				w.Float(v)
+			default:
+				row = append(row, strconv.Itoa(i*j-7))
+				w.Int(i*j - 7)
+			}
+		}
+		w.End()
+		if i == 0 {
+			tab.Header = row
+		} else {
+			tab.Rows = append(tab.Rows, row)
+		}
+	}
+	if got, want := string(w.Bytes()), string(tab.CSV()); got != want {
+		t.Errorf("CSV writer gives\n%q\nTable.CSV\n%q", got, want)
+	}
+}
