@@ -708,17 +708,19 @@ func writeBandsAndIntervals(r *Result, st *output.Stage) error {
 		}
 	}
 	if iv := rep.Intervals; iv != nil {
-		exp := experimentOfRow(r)
-		t := output.Table{Header: []string{"component", "side", "experiment", "position", "estimate", "low", "high", "sd"}}
+		sr := newSideRows(r)
+		var w output.CSV
+		w.Grow(sr.size())
+		header(&w, []string{"component", "side", "experiment", "position", "estimate", "low", "high", "sd"})
 		for j := 0; j < r.Components; j++ {
-			for i, x := range r.Axis {
-				t.Rows = append(t.Rows, []string{r.Names[j], "spectrum", "", output.Float(x), output.Float(r.ALS.S.At(i, j)), output.Float(iv.SpectraLow.At(i, j)), output.Float(iv.SpectraHigh.At(i, j)), output.Float(iv.SpectraSD.At(i, j))})
-			}
-			for i, tm := range r.Times {
-				t.Rows = append(t.Rows, []string{r.Names[j], "profile", exp(i), output.Float(tm), output.Float(r.ALS.C.At(i, j)), output.Float(iv.ProfilesLow.At(i, j)), output.Float(iv.ProfilesHigh.At(i, j)), output.Float(iv.ProfilesSD.At(i, j))})
-			}
+			sr.write(&w, j, "spectrum", func(i int) float64 { return r.ALS.S.At(i, j) },
+				func(i int) float64 { return iv.SpectraLow.At(i, j) }, func(i int) float64 { return iv.SpectraHigh.At(i, j) },
+				func(i int) float64 { return iv.SpectraSD.At(i, j) })
+			sr.write(&w, j, "profile", func(i int) float64 { return r.ALS.C.At(i, j) },
+				func(i int) float64 { return iv.ProfilesLow.At(i, j) }, func(i int) float64 { return iv.ProfilesHigh.At(i, j) },
+				func(i int) float64 { return iv.ProfilesSD.At(i, j) })
 		}
-		if err := st.Write("intervals.csv", t.CSV()); err != nil {
+		if err := st.Write("intervals.csv", w.Bytes()); err != nil {
 			return err
 		}
 	}
@@ -731,26 +733,78 @@ func wantBands(r *Result) bool {
 
 // bandsCSV makes uniqueness.csv; it only reads r (see earlyFiles).
 func bandsCSV(r *Result) []byte {
-	exp := experimentOfRow(r)
-	t := output.Table{Header: []string{"component", "side", "experiment", "position", "solution", "at_min", "at_max"}}
+	sr := newSideRows(r)
+	var w output.CSV
+	w.Grow(sr.size())
+	header(&w, []string{"component", "side", "experiment", "position", "solution", "at_min", "at_max"})
+	s, c := r.ALS.S, r.ALS.C
 	for j, band := range r.Constraints.Bands.Bands {
-		for i, x := range r.Axis {
-			t.Rows = append(t.Rows, []string{r.Names[j], "spectrum", "", output.Float(x), output.Float(r.ALS.S.At(i, j)), output.Float(band.MinSpectrum[i]), output.Float(band.MaxSpectrum[i])})
-		}
-		for i, tm := range r.Times {
-			t.Rows = append(t.Rows, []string{r.Names[j], "profile", exp(i), output.Float(tm), output.Float(r.ALS.C.At(i, j)), output.Float(band.MinProfile[i]), output.Float(band.MaxProfile[i])})
-		}
+		sr.write(&w, j, "spectrum", func(i int) float64 { return s.At(i, j) },
+			func(i int) float64 { return band.MinSpectrum[i] }, func(i int) float64 { return band.MaxSpectrum[i] })
+		sr.write(&w, j, "profile", func(i int) float64 { return c.At(i, j) },
+			func(i int) float64 { return band.MinProfile[i] }, func(i int) float64 { return band.MaxProfile[i] })
 	}
-	return t.CSV()
+	return w.Bytes()
 }
 
-// experimentOfRow gives the experiment column of a row: its number with
-// several experiments, "1" with one.
-func experimentOfRow(r *Result) func(i int) string {
-	if len(r.Experiments) <= 1 {
-		return func(int) string { return "1" }
+// sideRows writes the rows of uniqueness.csv and intervals.csv: per
+// component, one per axis point ("spectrum", no experiment) and one per
+// time ("profile", its experiment: the number with several, 1 with one).
+// The axis, times and experiments are the same in every component's rows:
+// each is formatted once. Cells go straight into the file (output.CSV:
+// Table.CSV's bytes without a string per cell).
+type sideRows struct {
+	names              []string
+	axis, times, exper [][]byte
+}
+
+func newSideRows(r *Result) sideRows {
+	sr := sideRows{names: r.Names, axis: formatted(r.Axis), times: formatted(r.Times), exper: make([][]byte, len(r.Times))}
+	for i := range sr.exper {
+		sr.exper[i] = []byte("1")
+		if len(r.Experiments) > 1 {
+			sr.exper[i] = strconv.AppendInt(nil, int64(r.ExpOfRow[i]+1), 10)
+		}
 	}
-	return func(i int) string { return strconv.Itoa(r.ExpOfRow[i] + 1) }
+	return sr
+}
+
+// size is about the bytes of a file of these rows.
+func (sr sideRows) size() int { return (len(sr.axis) + len(sr.times)) * len(sr.names) * 80 }
+
+// write writes component j's rows of one side, the cells after the
+// position given by cols.
+func (sr sideRows) write(w *output.CSV, j int, side string, cols ...func(i int) float64) {
+	pos, exp := sr.axis, [][]byte(nil)
+	if side == "profile" {
+		pos, exp = sr.times, sr.exper
+	}
+	for i := range pos {
+		w.Text(sr.names[j])
+		w.Text(side)
+		if exp != nil {
+			w.Raw(exp[i])
+		} else {
+			w.Text("")
+		}
+		w.Raw(pos[i])
+		for _, c := range cols {
+			w.Float(c(i))
+		}
+		w.End()
+	}
+}
+
+// formatted is each value as output.Float writes it.
+func formatted(vs []float64) [][]byte {
+	out := make([][]byte, len(vs))
+	buf := make([]byte, 0, 16*len(vs))
+	for i, v := range vs {
+		n := len(buf)
+		buf = output.AppendFloat(buf, v)
+		out[i] = buf[n:len(buf):len(buf)]
+	}
+	return out
 }
 
 // checkMetric names the lack of fit the constraint checks compare: with the

@@ -112,17 +112,20 @@ func nonNil(x []string) []string {
 // WriteResults writes every result file into the stage.
 func WriteResults(r *Result, st *output.Stage) error {
 	k := r.Components
-	// spectra.csv: axis column named as the input's axis.
+	// spectra.csv: axis column named as the input's axis. Written cell by
+	// cell (output.CSV: Table.CSV's bytes without a string per cell).
 	{
-		t := output.Table{Header: append([]string{r.AxisName}, r.Names...)}
+		var w output.CSV
+		w.Grow((len(r.Axis) + 1) * (k + 1) * 16)
+		header(&w, append([]string{r.AxisName}, r.Names...))
 		for i, x := range r.Axis {
-			row := []string{output.Float(x)}
+			w.Float(x)
 			for j := 0; j < k; j++ {
-				row = append(row, output.Float(r.ALS.S.At(i, j)))
+				w.Float(r.ALS.S.At(i, j))
 			}
-			t.Rows = append(t.Rows, row)
+			w.End()
 		}
-		if err := st.Write("spectra.csv", t.CSV()); err != nil {
+		if err := st.Write("spectra.csv", w.Bytes()); err != nil {
 			return err
 		}
 	}
@@ -133,19 +136,20 @@ func WriteResults(r *Result, st *output.Stage) error {
 		if multi {
 			h = []string{"experiment", "time"}
 		}
-		t := output.Table{Header: append(h, r.Names...)}
+		var w output.CSV
+		w.Grow((len(r.Times) + 1) * (k + 2) * 16)
+		header(&w, append(h, r.Names...))
 		for i, tm := range r.Times {
-			var row []string
 			if multi {
-				row = append(row, strconv.Itoa(r.ExpOfRow[i]+1))
+				w.Int(r.ExpOfRow[i] + 1)
 			}
-			row = append(row, output.Float(tm))
+			w.Float(tm)
 			for j := 0; j < k; j++ {
-				row = append(row, output.Float(r.ALS.C.At(i, j)))
+				w.Float(r.ALS.C.At(i, j))
 			}
-			t.Rows = append(t.Rows, row)
+			w.End()
 		}
-		if err := st.Write("profiles.csv", t.CSV()); err != nil {
+		if err := st.Write("profiles.csv", w.Bytes()); err != nil {
 			return err
 		}
 	}
@@ -184,6 +188,14 @@ func WriteResults(r *Result, st *output.Stage) error {
 		return err
 	}
 	return st.Write("summary.json", sum)
+}
+
+// header writes a CSV file's header line.
+func header(w *output.CSV, names []string) {
+	for _, h := range names {
+		w.Text(h)
+	}
+	w.End()
 }
 
 func singularTable(f *svd.Factors, rank *svd.RankReport) output.Table {
