@@ -2,9 +2,13 @@ package report
 
 import (
 	"math"
+	"runtime"
+	"slices"
 	"strconv"
+	"sync"
 
 	"github.com/bandsolve/bandsolve/internal/decimal"
+	"github.com/bandsolve/bandsolve/io/output"
 )
 
 // Limits of maps.csv: enough rows and points for a figure at print size,
@@ -37,14 +41,12 @@ func MapsCSV(axis, times []float64, experiment []int, mats []MapMatrix) []byte {
 // report need not read and parse the file it has just written. The Maps
 // is nil when Load would not take the file as it is (no axis points, an
 // axis value or time that is not a number): Load then reads it and says why.
+// The matrices' At are called from several goroutines at once.
 func FormatMaps(axis, times []float64, experiment []int, mats []MapMatrix) ([]byte, *Maps) {
 	rows := pick(len(times), MapTimes)
 	cols := pick(len(axis), MapPoints)
 	m := &Maps{Matrices: map[string]*Matrix{}}
-	// One buffer, numbers appended in place (no string per value): about
-	// 12 bytes a value, sized once.
-	b := make([]byte, 0, (len(mats)*len(rows)+1)*(len(cols)+3)*12)
-	b = append(b, "matrix,experiment,time"...)
+	b := []byte("matrix,experiment,time")
 	var ok bool
 	for _, j := range cols {
 		b = append(b, ',')
@@ -61,45 +63,93 @@ func FormatMaps(axis, times []float64, experiment []int, mats []MapMatrix) ([]by
 		m = nil
 	}
 	b = append(b, '\n')
-	for _, mm := range mats {
-		var mx *Matrix
-		if m != nil {
-			if mx = m.Matrices[mm.Name]; mx == nil {
-				mx = &Matrix{}
-				m.Matrices[mm.Name] = mx
-			}
-		}
-		for _, i := range rows {
-			e := 1
-			if i < len(experiment) {
-				e = experiment[i] + 1
-			}
-			b = append(append(b, mm.Name...), ',')
-			b = append(strconv.AppendInt(b, int64(e), 10), ',')
-			var tm float64
-			if b, tm, ok = appendValue(b, times[i], 10); !ok {
-				m, mx = nil, nil
-			}
-			var row []float64
-			if mx != nil {
-				row = make([]float64, 0, len(cols))
-			}
-			for _, j := range cols {
-				var v float64
-				b, v, _ = appendValue(append(b, ','), mm.At(i, j), 6)
-				if mx != nil {
-					row = append(row, v)
+	// The lines, one per matrix and kept row, are formatted several at
+	// once, each block of lines by one goroutine into its own buffer, and
+	// joined in order: the bytes do not depend on which finished first.
+	lines := make([]mapLine, len(mats)*len(rows))
+	blocks := make([][]byte, min(len(lines), 8*runtime.GOMAXPROCS(0)))
+	per := (len(lines) + len(blocks) - 1) / max(len(blocks), 1)
+	next := make(chan int, len(blocks))
+	for k := range blocks {
+		next <- k
+	}
+	close(next)
+	var wg sync.WaitGroup
+	for range min(runtime.GOMAXPROCS(0), len(blocks)) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for k := range next {
+				// About 12 bytes a value, sized once.
+				out := make([]byte, 0, per*(len(cols)+3)*12)
+				for l := k * per; l < min(len(lines), (k+1)*per); l++ {
+					mm, i := mats[l/len(rows)], rows[l%len(rows)]
+					out = lines[l].format(out, mm, i, times, experiment, cols, m != nil)
 				}
+				blocks[k] = out
 			}
-			b = append(b, '\n')
-			if mx != nil {
-				mx.Experiment = append(mx.Experiment, e)
-				mx.Times = append(mx.Times, tm)
-				mx.Rows = append(mx.Rows, row)
-			}
+		}()
+	}
+	wg.Wait()
+	n := len(b)
+	for _, blk := range blocks {
+		n += len(blk)
+	}
+	b = slices.Grow(b, n-len(b))
+	for _, blk := range blocks {
+		b = append(b, blk...)
+	}
+	for l, ln := range lines {
+		if m == nil {
+			break
 		}
+		if !ln.ok {
+			m = nil
+			break
+		}
+		name := mats[l/len(rows)].Name
+		mx := m.Matrices[name]
+		if mx == nil {
+			mx = &Matrix{}
+			m.Matrices[name] = mx
+		}
+		mx.Experiment = append(mx.Experiment, ln.experiment)
+		mx.Times = append(mx.Times, ln.time)
+		mx.Rows = append(mx.Rows, ln.row)
 	}
 	return b, m
+}
+
+// mapLine is one line of maps.csv as Load reads it back: the experiment,
+// the time and the row's values (ok false when the time is not a number).
+type mapLine struct {
+	experiment int
+	time       float64
+	row        []float64
+	ok         bool
+}
+
+// format appends the line of matrix mm's row i to b, and with values
+// keeps what Load reads back from it in l.
+func (l *mapLine) format(b []byte, mm MapMatrix, i int, times []float64, experiment []int, cols []int, values bool) []byte {
+	l.experiment = 1
+	if i < len(experiment) {
+		l.experiment = experiment[i] + 1
+	}
+	b = append(append(b, mm.Name...), ',')
+	b = append(strconv.AppendInt(b, int64(l.experiment), 10), ',')
+	b, l.time, l.ok = appendValue(b, times[i], 10)
+	if values {
+		l.row = make([]float64, 0, len(cols))
+	}
+	for _, j := range cols {
+		var v float64
+		b, v, _ = appendValue(append(b, ','), mm.At(i, j), 6)
+		if values {
+			l.row = append(l.row, v)
+		}
+	}
+	return append(b, '\n')
 }
 
 // appendValue appends v as appendNum does and returns the value Load reads
@@ -157,5 +207,5 @@ func appendNum(b []byte, v float64, digits int) []byte {
 	if v == 0 {
 		return append(b, '0')
 	}
-	return strconv.AppendFloat(b, v, 'g', digits, 64)
+	return output.AppendG(b, v, digits)
 }
