@@ -837,34 +837,79 @@ func logWeightSums(n, m, nf int, blind *Blind, variances func(i int, out []float
 	for f := range acc {
 		acc[f] = logSums{rowSum: make([]float64, n), colSum: make([]float64, m), rowCnt: make([]int, n), colCnt: make([]int, m)}
 	}
-	// The logarithms on the workers, a row at a time (NaN marks a point left
-	// out: −log v of a positive finite v is never NaN); the sums here, in
-	// the order of a loop over rows then channels.
+	// The logarithms on the workers, a row at a time; the sums here, in the
+	// order of a loop over rows then channels. A point is left out when its
+	// logarithm is not finite (a variance that is not positive and finite)
+	// or NaN (a blind channel). The log weight −log v is not formed: adding
+	// −l is subtracting l (IEEE 754 defines x − y as x + (−y)), so the sums
+	// take l away, one pass over the row fewer.
 	mapRowsInOrder(n, nf*m, func(i int, out []float64) {
 		variances(i, out)
 		for f := 0; f < nf; f++ {
-			observedOnly(out[f*m:(f+1)*m], blind.row(i), true)
+			logObserved(out[f*m:(f+1)*m], blind.row(i))
 		}
 	}, func(i int, out []float64) {
+		if nf == 2 {
+			addLogSumsPair(&acc[0], &acc[1], i, out[:m], out[m:2*m])
+			return
+		}
 		for f := range acc {
-			a := &acc[f]
-			colSum, colCnt := a.colSum[:m], a.colCnt[:m]
-			rs, rc, g, c := 0.0, 0, a.grand, a.cnt
-			for j, l := range out[f*m : (f+1)*m] {
-				if l != l {
-					continue
-				}
-				rs += l
-				rc++
-				colSum[j] += l
-				colCnt[j]++
-				g += l
-				c++
-			}
-			a.rowSum[i], a.rowCnt[i], a.grand, a.cnt = rs, rc, g, c
+			addLogSums(&acc[f], i, out[f*m:(f+1)*m])
 		}
 	})
 	return acc
+}
+
+// addLogSums takes the logarithms l of row i's variances away from a's
+// sums, leaving out those that are not finite.
+func addLogSums(a *logSums, i int, ls []float64) {
+	inf := math.Inf(1)
+	colSum, colCnt := a.colSum[:len(ls)], a.colCnt[:len(ls)]
+	rs, rc, g, c := 0.0, 0, a.grand, a.cnt
+	for j, l := range ls {
+		if !(l > -inf && l < inf) {
+			continue
+		}
+		rs -= l
+		rc++
+		colSum[j] -= l
+		colCnt[j]++
+		g -= l
+		c++
+	}
+	a.rowSum[i], a.rowCnt[i], a.grand, a.cnt = rs, rc, g, c
+}
+
+// addLogSumsPair is addLogSums for two fits at once, each with its own sums
+// in its own order: the running sums of the one do not wait for the
+// other's, where two loops in turn would wait for each in turn.
+func addLogSumsPair(a, b *logSums, i int, la, lb []float64) {
+	inf := math.Inf(1)
+	m := len(la)
+	lb = lb[:m]
+	aSum, aCnt, bSum, bCnt := a.colSum[:m], a.colCnt[:m], b.colSum[:m], b.colCnt[:m]
+	ra, rca, ga, ca := 0.0, 0, a.grand, a.cnt
+	rb, rcb, gb, cb := 0.0, 0, b.grand, b.cnt
+	for j, l := range la {
+		if l > -inf && l < inf {
+			ra -= l
+			rca++
+			aSum[j] -= l
+			aCnt[j]++
+			ga -= l
+			ca++
+		}
+		if k := lb[j]; k > -inf && k < inf {
+			rb -= k
+			rcb++
+			bSum[j] -= k
+			bCnt[j]++
+			gb -= k
+			cb++
+		}
+	}
+	a.rowSum[i], a.rowCnt[i], a.grand, a.cnt = ra, rca, ga, ca
+	b.rowSum[i], b.rowCnt[i], b.grand, b.cnt = rb, rcb, gb, cb
 }
 
 // additiveWeights solves the two-way additive model log w_ij = α_i + β_j of
@@ -921,7 +966,7 @@ func scaleSums(n, m int, blind *Blind, variances func(i int, out []float64), out
 			o := buf[f*m : (f+1)*m]
 			ai := w.Row[i]
 			col := w.Col[:m]
-			observedOnly(o, blind.row(i), false)
+			observedOnly(o, blind.row(i))
 			for j, v := range o {
 				o[j] = ai * col[j] * v // NaN stays NaN
 			}
@@ -930,6 +975,10 @@ func scaleSums(n, m int, blind *Blind, variances func(i int, out []float64), out
 			}
 		}
 	}, func(i int, buf []float64) {
+		if len(out) == 2 && out[0] != nil && out[1] != nil {
+			addScaleSumsPair(&acc[0], &acc[1], buf[:m], buf[m:2*m])
+			return
+		}
 		for f, w := range out {
 			if w == nil {
 				continue
@@ -946,6 +995,25 @@ func scaleSums(n, m int, blind *Blind, variances func(i int, out []float64), out
 		}
 	})
 	return acc, peak
+}
+
+// addScaleSumsPair adds the products ta and tb of one row that are not NaN
+// to the sums of two fits, each in its own order, in one loop: the running
+// sum of the one does not wait for the other's.
+func addScaleSumsPair(a, b *scaleSum, ta, tb []float64) {
+	tb = tb[:len(ta)]
+	ga, ca, gb, cb := a.sum, a.cnt, b.sum, b.cnt
+	for j, t := range ta {
+		if t == t {
+			ga += t
+			ca++
+		}
+		if u := tb[j]; u == u {
+			gb += u
+			cb++
+		}
+	}
+	a.sum, a.cnt, b.sum, b.cnt = ga, ca, gb, cb
 }
 
 // peakObserved is the largest of the products t in o (all ≥ 0 or NaN)
@@ -1022,44 +1090,44 @@ func unboundRaised(peak []float64, blind *Blind, row0, row, col0, col []float64)
 
 // observedOnly replaces the variances in o that are left out of a fit (the
 // blind channels bl, ascending, and values that are not positive and finite)
-// by NaN, and the others by −log v when negLog. The stretches between blind
-// channels go through a loop with no look-up (one test of v per value), the
-// blind channels are set on their own: it runs on every value of the matrix.
-func observedOnly(o []float64, bl []int, negLog bool) {
+// by NaN. The stretches between blind channels go through a loop with no
+// look-up (one test of v per value), the blind channels are set on their
+// own: it runs on every value of the matrix.
+func observedOnly(o []float64, bl []int) {
 	nan := math.NaN()
 	start := 0
 	for _, j := range bl {
 		if j < start || j >= len(o) {
 			continue
 		}
-		observedRun(o[start:j], negLog)
+		observedRun(o[start:j])
 		o[j] = nan
 		start = j + 1
 	}
-	observedRun(o[start:], negLog)
+	observedRun(o[start:])
 }
 
 // observedRun is observedOnly for a stretch with no blind channel:
 // !(v > 0 && v < +Inf) is !(v > 0) || IsInf(v, 0), and NaN fails both.
-func observedRun(o []float64, negLog bool) {
+func observedRun(o []float64) {
 	nan, inf := math.NaN(), math.Inf(1)
-	if !negLog {
-		for j, v := range o {
-			if !(v > 0 && v < inf) {
-				o[j] = nan
-			}
+	for j, v := range o {
+		if !(v > 0 && v < inf) {
+			o[j] = nan
 		}
-		return
 	}
-	// The logarithms of the whole stretch at once (vecmath: bit for bit
-	// math.Log, four at a time), then the test on them: log v is finite
-	// exactly when v > 0 and v < +Inf (−Inf for ±0, NaN below 0 and for
-	// NaN, +Inf for +Inf).
+}
+
+// logObserved replaces the variances v in o by log v, the whole row at once
+// (vecmath: bit for bit math.Log, four at a time), and those of the blind
+// channels bl (ascending) by NaN. log v is finite exactly when v is
+// positive and finite (−Inf for ±0, NaN below 0 and for NaN, +Inf for
+// +Inf), so a point is in the fit when its value here is finite.
+func logObserved(o []float64, bl []int) {
 	vecmath.Log(o, o)
-	for j, l := range o {
-		if l > -inf && l < inf {
-			o[j] = -l
-		} else {
+	nan := math.NaN()
+	for _, j := range bl {
+		if j < len(o) {
 			o[j] = nan
 		}
 	}

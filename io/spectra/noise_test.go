@@ -185,27 +185,37 @@ func TestStepToNoise(t *testing.T) {
 }
 
 // TestObservedOnly checks the values a weight fit keeps against the
-// definition in observedOnly's comment: NaN at the blind channels and at
-// every value that is not positive and finite, −log v (Go's math.Log, the
-// reference) or v itself elsewhere; blind lists with a channel at either
-// end, repeated or beyond the row change nothing else.
+// definitions in the comments of observedOnly and logObserved: NaN at the
+// blind channels and at every value that is not positive and finite, v
+// itself elsewhere (observedOnly); log v (Go's math.Log, the reference) at
+// every channel not blind, finite exactly at the positive finite values
+// (logObserved); blind lists with a channel at either end, repeated or
+// beyond the row change nothing else.
 func TestObservedOnly(t *testing.T) {
-	row := []float64{2, 0, -1, math.Inf(1), math.NaN(), 0.5, 1e-300, math.Inf(-1), 3}
-	for _, bl := range [][]int{nil, {0}, {8}, {0, 5, 8}, {3, 3, 6}, {1, 20}} {
-		for _, negLog := range []bool{false, true} {
-			got := append([]float64(nil), row...)
-			observedOnly(got, bl, negLog)
-			for j, v := range row {
-				want := v
-				switch {
-				case slices.Contains(bl, j) || !(v > 0) || math.IsInf(v, 0):
-					want = math.NaN()
-				case negLog:
-					want = -math.Log(v)
-				}
-				if math.Float64bits(got[j]) != math.Float64bits(want) && !(math.IsNaN(got[j]) && math.IsNaN(want)) {
-					t.Errorf("blind %v, negLog %v: value %d (%g) became %g, want %g", bl, negLog, j, v, got[j], want)
-				}
+	row := []float64{2, 0, -1, math.Inf(1), math.NaN(), 0.5, 1e-300, math.Inf(-1), 3, math.Copysign(0, -1), 1}
+	for _, bl := range [][]int{nil, {0}, {10}, {0, 5, 10}, {3, 3, 6}, {1, 20}} {
+		got := append([]float64(nil), row...)
+		observedOnly(got, bl)
+		logs := append([]float64(nil), row...)
+		logObserved(logs, bl)
+		for j, v := range row {
+			blind := slices.Contains(bl, j)
+			want := v
+			if blind || !(v > 0) || math.IsInf(v, 0) {
+				want = math.NaN()
+			}
+			if math.Float64bits(got[j]) != math.Float64bits(want) && !(math.IsNaN(got[j]) && math.IsNaN(want)) {
+				t.Errorf("blind %v: value %d (%g) became %g, want %g", bl, j, v, got[j], want)
+			}
+			wantLog := math.Log(v)
+			if blind {
+				wantLog = math.NaN()
+			}
+			if math.Float64bits(logs[j]) != math.Float64bits(wantLog) && !(math.IsNaN(logs[j]) && math.IsNaN(wantLog)) {
+				t.Errorf("blind %v: log of value %d (%g) is %g, want %g", bl, j, v, logs[j], wantLog)
+			}
+			if kept := !math.IsNaN(logs[j]) && !math.IsInf(logs[j], 0); kept != (v > 0 && !math.IsInf(v, 0) && !blind) {
+				t.Errorf("blind %v: value %d (%g) kept %v in the fit", bl, j, v, kept)
 			}
 		}
 	}
