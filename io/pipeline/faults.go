@@ -75,6 +75,9 @@ func checkClosureRows(r *Result) error {
 // NaN, which would otherwise surface later as "non-finite value at row 0"
 // with no file named.
 func checkAssembledFinite(source string, sub *spectra.Series, as *spectra.Assembled) error {
+	if as.Finite {
+		return nil // checked as the absorbances were formed
+	}
 	for _, x := range []*mat.Dense{as.Absolute, as.Difference} {
 		if x == nil {
 			continue
@@ -101,29 +104,10 @@ func firstNonFiniteRow(x *mat.Dense) int {
 	bad := make([]bool, r)
 	product.FixedBlocks(r, max(1, (1<<16)/max(c, 1)), func(r0, r1 int) {
 		for i := r0; i < r1; i++ {
-			bad[i] = !allFinite(x.RawRowView(i)[:c])
+			bad[i] = !spectra.AllFinite(x.RawRowView(i)[:c])
 		}
 	})
 	return slices.Index(bad, true)
-}
-
-// allFinite reports whether every value of v is finite: v − v is +0 for a
-// finite v and NaN for ±Inf and NaN, so the sum of them is 0 only when all
-// are finite. Four running sums, so that the additions do not wait on one
-// another, and no branch per value.
-func allFinite(v []float64) bool {
-	var s0, s1, s2, s3 float64
-	j := 0
-	for ; j+4 <= len(v); j += 4 {
-		s0 += v[j] - v[j]
-		s1 += v[j+1] - v[j+1]
-		s2 += v[j+2] - v[j+2]
-		s3 += v[j+3] - v[j+3]
-	}
-	for ; j < len(v); j++ {
-		s0 += v[j] - v[j]
-	}
-	return s0+s1+s2+s3 == 0
 }
 
 // checkFinite stops a run whose resolution produced a non-number rather

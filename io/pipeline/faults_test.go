@@ -65,31 +65,6 @@ func TestCheckInitColumns(t *testing.T) {
 	}
 }
 
-// allFinite agrees with Go's math.IsNaN and math.IsInf (the reference) on
-// rows of every length up to 9 with one NaN, +Inf or −Inf at any position,
-// and with none among the largest, smallest and subnormal finite values.
-func TestAllFinite(t *testing.T) {
-	edge := []float64{math.MaxFloat64, -math.MaxFloat64, math.SmallestNonzeroFloat64, -0.0, 1e-310, 3}
-	for n := 0; n <= 9; n++ {
-		row := make([]float64, n)
-		for j := range row {
-			row[j] = edge[j%len(edge)]
-		}
-		if !allFinite(row) {
-			t.Fatalf("finite row %v reported as not finite", row)
-		}
-		for j := range row {
-			for _, bad := range []float64{math.NaN(), math.Inf(1), math.Inf(-1)} {
-				r := append([]float64(nil), row...)
-				r[j] = bad
-				if allFinite(r) {
-					t.Fatalf("row %v reported as finite", r)
-				}
-			}
-		}
-	}
-}
-
 // checkAssembledFinite names the first non-finite value in row order (the
 // time and axis point of the spectrum that holds it), whichever block of
 // rows the workers found it in.

@@ -3,6 +3,7 @@ package pipeline
 import (
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 
 	"github.com/bandsolve/bandsolve/io/report"
@@ -77,6 +78,11 @@ func saturationWarning(r *Result) string {
 	for j := range top {
 		top[j] = math.Inf(-1)
 	}
+	// The assembly took each experiment's largest values as it formed
+	// them (D is their absolute matrices stacked); else one pass here.
+	if taken := assembledTops(r, m); taken != nil {
+		return report.HighAbsorbanceWarning(r.Axis, r.AxisName, [][]float64{taken})
+	}
 	for i := 0; i < n; i++ {
 		for j, v := range r.D.RawRowView(i)[:m] {
 			if v > top[j] {
@@ -85,6 +91,29 @@ func saturationWarning(r *Result) string {
 		}
 	}
 	return report.HighAbsorbanceWarning(r.Axis, r.AxisName, [][]float64{top})
+}
+
+// assembledTops is the largest absolute absorbance per channel of D from
+// the experiments' assembly (spectra.Assembled.AbsoluteTop), nil unless
+// every experiment has it.
+func assembledTops(r *Result, m int) []float64 {
+	var top []float64
+	for _, e := range r.Experiments {
+		t := e.Assembled.AbsoluteTop
+		if len(t) != m {
+			return nil
+		}
+		if top == nil {
+			top = slices.Clone(t)
+			continue
+		}
+		for j, v := range t {
+			if v > top[j] {
+				top[j] = v
+			}
+		}
+	}
+	return top
 }
 
 func middle(v []float64) float64 {

@@ -76,6 +76,13 @@ type Assembled struct {
 	Blind *Blind
 	// Noise says how the noise was estimated.
 	Noise Noise
+	// Finite is true when every value of Absolute and Difference is known
+	// to be finite (single beams: checked as the absorbances were formed);
+	// false says nothing either way.
+	Finite bool
+	// AbsoluteTop is the largest value of Absolute per channel (a NaN
+	// counts for nothing), taken as it was formed; nil when not taken.
+	AbsoluteTop []float64
 }
 
 // AssembleOptions gather what assembly needs besides the series.
@@ -373,8 +380,14 @@ func selectKth(c []float64, k int) float64 {
 // no cancellation when I is close to the reference. Rows are independent and
 // are shared out in fixed chunks, so the result does not depend on
 // GOMAXPROCS.
-func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense) {
-	n, _ := v.Dims()
+//
+// While each row is in cache it also says whether every value formed is
+// finite (finite), and takes the largest absolute absorbance per channel
+// over the points that are not blind (top, nil without abs): the pipeline
+// would otherwise read both matrices again for them. A maximum and a
+// conjunction are the same whatever the order of the rows.
+func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense, blind *Blind) (finite bool, top []float64) {
+	n, m := v.Dims()
 	const chunk = 64
 	nch := (n + chunk - 1) / chunk
 	work := make(chan int, nch)
@@ -382,33 +395,111 @@ func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense) {
 		work <- c
 	}
 	close(work)
+	finite = true
+	if abs != nil {
+		top = make([]float64, m)
+		for j := range top {
+			top[j] = math.Inf(-1)
+		}
+	}
+	var mu sync.Mutex
 	var wg sync.WaitGroup
 	for w := 0; w < min(runtime.GOMAXPROCS(0), nch); w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
+			wf := true
+			var wt []float64
+			if abs != nil {
+				wt = make([]float64, m)
+				for j := range wt {
+					wt[j] = math.Inf(-1)
+				}
+			}
 			for c := range work {
 				for i := c * chunk; i < min(n, (c+1)*chunk); i++ {
 					row := v.RawRowView(i)
 					d := diff.RawRowView(i)
-					var a []float64
-					if abs != nil {
-						a = abs.RawRowView(i)
-					}
 					// The ratios first, then their logarithms a row at a
 					// time, four at once (vecmath: bit for bit Go's
 					// division and math.Log10). The differences' ratios
 					// before the absolute ones, which may overwrite the
 					// beams.
 					vecmath.Quo(d, ref, row)
-					if a != nil {
+					vecmath.Log10(d, d)
+					rf := AllFinite(d)
+					if abs != nil {
+						a := abs.RawRowView(i)
 						vecmath.Quo(a, blank, row)
 						vecmath.Log10(a, a)
+						af := AllFinite(a)
+						observedMax(wt, a, blind.row(i), af)
+						rf = rf && af
 					}
-					vecmath.Log10(d, d)
+					wf = wf && rf
+				}
+			}
+			mu.Lock()
+			defer mu.Unlock()
+			finite = finite && wf
+			for j, x := range wt {
+				if x > top[j] {
+					top[j] = x
 				}
 			}
 		}()
 	}
 	wg.Wait()
+	return finite, top
+}
+
+// observedMax raises top[j] to a[j] at the channels j not in bl (ascending),
+// a maximum that leaves NaN out. When a is known finite (finite) the
+// stretches between blind channels take Go's max, without a branch that
+// goes either way at random; the largest value is the same, a zero's sign
+// aside (max(−0, +0) is +0).
+func observedMax(top, a []float64, bl []int, finite bool) {
+	top = top[:len(a)]
+	run := func(t, x []float64) {
+		t = t[:len(x)]
+		if finite {
+			for j, v := range x {
+				t[j] = max(t[j], v)
+			}
+			return
+		}
+		for j, v := range x {
+			if v > t[j] {
+				t[j] = v
+			}
+		}
+	}
+	start := 0
+	for _, j := range bl {
+		if j < start || j >= len(a) {
+			continue
+		}
+		run(top[start:j], a[start:j])
+		start = j + 1
+	}
+	run(top[start:], a[start:])
+}
+
+// AllFinite reports whether every value of v is finite: v − v is +0 for a
+// finite v and NaN for ±Inf and NaN, so the sum of them is 0 only when all
+// are finite. Four running sums, so that the additions do not wait on one
+// another, and no branch per value.
+func AllFinite(v []float64) bool {
+	var s0, s1, s2, s3 float64
+	j := 0
+	for ; j+4 <= len(v); j += 4 {
+		s0 += v[j] - v[j]
+		s1 += v[j+1] - v[j+1]
+		s2 += v[j+2] - v[j+2]
+		s3 += v[j+3] - v[j+3]
+	}
+	for ; j < len(v); j++ {
+		s0 += v[j] - v[j]
+	}
+	return s0+s1+s2+s3 == 0
 }

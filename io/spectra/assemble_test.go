@@ -93,3 +93,28 @@ func TestMeanReference(t *testing.T) {
 		t.Errorf("reference rows %v, want the first two", a.ReferenceRows)
 	}
 }
+
+// AllFinite agrees with Go's math.IsNaN and math.IsInf (the reference) on
+// rows of every length up to 9 with one NaN, +Inf or −Inf at any position,
+// and with none among the largest, smallest and subnormal finite values.
+func TestAllFinite(t *testing.T) {
+	edge := []float64{math.MaxFloat64, -math.MaxFloat64, math.SmallestNonzeroFloat64, -0.0, 1e-310, 3}
+	for n := 0; n <= 9; n++ {
+		row := make([]float64, n)
+		for j := range row {
+			row[j] = edge[j%len(edge)]
+		}
+		if !AllFinite(row) {
+			t.Fatalf("finite row %v reported as not finite", row)
+		}
+		for j := range row {
+			for _, bad := range []float64{math.NaN(), math.Inf(1), math.Inf(-1)} {
+				r := append([]float64(nil), row...)
+				r[j] = bad
+				if AllFinite(r) {
+					t.Fatalf("row %v reported as finite", r)
+				}
+			}
+		}
+	}
+}

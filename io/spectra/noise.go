@@ -1387,11 +1387,25 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	default:
 		out.Difference = mat.NewDense(n, m, nil)
 	}
-	absorbances(s.Values, ref, opt.Blank, out.Difference, out.Absolute)
+	finite, top := absorbances(s.Values, ref, opt.Blank, out.Difference, out.Absolute, blind)
 	fillBlind(out.Difference, blind, s.Times)
 	if out.Absolute != nil {
 		fillBlind(out.Absolute, blind, s.Times)
+		// The placeholders count in the largest value as the values they
+		// stand for did not.
+		for i, r := range blind.Rows {
+			a := out.Absolute.RawRowView(i)
+			for _, j := range r {
+				if a[j] > top[j] {
+					top[j] = a[j]
+				}
+			}
+		}
+		out.AbsoluteTop = top
 	}
+	// A placeholder is finite when the observed values it is made of are
+	// (they are absorbances, far from overflow), or 0: the check holds.
+	out.Finite = finite
 	out.Notes = append(out.Notes, BlindNotes(s.Source, s.AxisName, s.Axis, s.Times, blind)...)
 	return nil
 }

@@ -220,3 +220,82 @@ func TestObservedOnly(t *testing.T) {
 		}
 	}
 }
+
+// What the assembly says of its matrices as it forms them matches the
+// matrices themselves (the reference: a loop over every final value with
+// Go's math.IsNaN and math.IsInf, and the largest value per channel, NaN
+// left out): Finite only when every value of both is finite, and
+// AbsoluteTop the largest absolute absorbance per channel, placeholders of
+// blind points included and the values they replaced not. Cases: plain
+// beams with a blank (every value finite, so Finite must be set), beams at
+// or below zero (blind, their absorbances not finite until replaced), and a
+// beam so small that blank/I overflows (1e4/1e-305: beyond the largest
+// double, IEEE 754) at a point the weak-beam test makes blind.
+func TestAssembledFiniteAndTop(t *testing.T) {
+	rng := rand.New(rand.NewPCG(11, 12))
+	for _, c := range []string{"plain", "dark points", "overflow", "overflow in sight"} {
+		s := beams(rng, 70, 300, 5, 1, 0)
+		if c == "overflow in sight" {
+			s.Values.Scale(1e-4, s.Values) // a detector reading about 1
+		}
+		switch c {
+		case "dark points":
+			for k := 0; k < 40; k++ {
+				s.Values.Set(1+rng.IntN(69), rng.IntN(300), -1)
+			}
+			for i := 0; i < 70; i++ {
+				s.Values.Set(i, 200, -1) // a channel with no light: placeholders 0
+			}
+		case "overflow":
+			s.Values.Set(30, 100, 1e-305)
+		}
+		blank := make([]float64, 300)
+		for j := range blank {
+			blank[j] = 1.05 * s.Values.At(0, j)
+		}
+		if c == "overflow in sight" {
+			// A channel at half the beams' size, well above their noise
+			// (5·10⁻⁴), against a blank near the largest double: blank/I
+			// overflows in every spectrum, and the matrix keeps the
+			// infinities.
+			for i := 0; i < 70; i++ {
+				s.Values.Set(i, 100, 0.5*(1+1e-6*rng.NormFloat64()))
+			}
+			blank[100] = 1.7e308
+		}
+		a, err := Assemble(s, AssembleOptions{Kind: SingleBeam, Blank: blank, Reference: Reference{Mean: 1}, Consume: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if (c == "dark points" || c == "overflow") && a.Blind.Count == 0 {
+			t.Fatalf("%s: no blind point: the case tests nothing", c)
+		}
+		allFinite := true
+		for _, x := range []*mat.Dense{a.Absolute, a.Difference} {
+			for _, v := range x.RawMatrix().Data {
+				allFinite = allFinite && !math.IsNaN(v) && !math.IsInf(v, 0)
+			}
+		}
+		if a.Finite && !allFinite {
+			t.Errorf("%s: said finite, and a value is not", c)
+		}
+		if c == "overflow in sight" && allFinite {
+			t.Fatalf("%s: every value is finite: the case tests nothing", c)
+		}
+		if c == "plain" && !a.Finite {
+			t.Errorf("%s: every value is finite, and the assembly did not say so", c)
+		}
+		n, m := a.Absolute.Dims()
+		for j := 0; j < m; j++ {
+			want := math.Inf(-1)
+			for i := 0; i < n; i++ {
+				if v := a.Absolute.At(i, j); v > want {
+					want = v
+				}
+			}
+			if a.AbsoluteTop[j] != want {
+				t.Fatalf("%s: channel %d: largest absorbance %g, the matrix's %g", c, j, a.AbsoluteTop[j], want)
+			}
+		}
+	}
+}
