@@ -1379,13 +1379,13 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	// when there is a blank, else the differences.
 	switch {
 	case opt.Blank != nil && opt.Consume:
-		out.Absolute, out.Difference = s.Values, mat.NewDense(n, m, nil)
+		out.Absolute, out.Difference = s.Values, freshMatrix(n, m)
 	case opt.Blank != nil:
-		out.Absolute, out.Difference = mat.NewDense(n, m, nil), mat.NewDense(n, m, nil)
+		out.Absolute, out.Difference = freshMatrix(n, m), freshMatrix(n, m)
 	case opt.Consume:
 		out.Difference = s.Values
 	default:
-		out.Difference = mat.NewDense(n, m, nil)
+		out.Difference = freshMatrix(n, m)
 	}
 	finite, top := absorbances(s.Values, ref, opt.Blank, out.Difference, out.Absolute, blind)
 	fillBlind(out.Difference, blind, s.Times)
@@ -1411,6 +1411,14 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 }
 
 func sq(x float64) float64 { return x * x }
+
+// freshMatrix is a new n × m matrix that is about to be written in full,
+// in huge pages where the system gives them (adviseHugePages).
+func freshMatrix(n, m int) *mat.Dense {
+	data := make([]float64, n*m)
+	adviseHugePages(data)
+	return mat.NewDense(n, m, data)
+}
 
 // mostlyUnusable marks the channels where a blank or reference beam is not
 // a positive finite number in bad; when more than a quarter are, it is not
