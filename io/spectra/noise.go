@@ -794,8 +794,15 @@ func fitWeights(n, m int, blind *Blind, variances ...func(i int, out []float64))
 // bounds none): with it addOverweighted passes over the rows that cannot
 // hold an overweighted point without computing their variances again.
 func fitWeightsJoint(n, m, nf int, blind *Blind, variances func(i int, out []float64)) (fits []*Weights, peak []float64) {
-	out := additiveWeights(n, m, logWeightSums(n, m, nf, blind, variances))
-	scale, peak := scaleSums(n, m, blind, variances, out)
+	return fitWeightsReusing(newRowPieces(nf*m), n, m, nf, blind, variances)
+}
+
+// fitWeightsReusing is fitWeightsJoint with the buffers of its passes over
+// the rows from pieces (of width nf·m), shared by both passes and by a
+// caller's later fit.
+func fitWeightsReusing(pieces *rowPieces, n, m, nf int, blind *Blind, variances func(i int, out []float64)) (fits []*Weights, peak []float64) {
+	out := additiveWeights(n, m, logWeightSums(pieces, n, m, nf, blind, variances))
+	scale, peak := scaleSums(pieces, n, m, blind, variances, out)
 	for f, w := range out {
 		if w == nil {
 			continue
@@ -832,7 +839,7 @@ type logSums struct {
 
 // logWeightSums forms the sums of log weights of each of the nf fits in one
 // pass over the rows.
-func logWeightSums(n, m, nf int, blind *Blind, variances func(i int, out []float64)) []logSums {
+func logWeightSums(pieces *rowPieces, n, m, nf int, blind *Blind, variances func(i int, out []float64)) []logSums {
 	acc := make([]logSums, nf)
 	for f := range acc {
 		acc[f] = logSums{rowSum: make([]float64, n), colSum: make([]float64, m), rowCnt: make([]int, n), colCnt: make([]int, m)}
@@ -843,7 +850,7 @@ func logWeightSums(n, m, nf int, blind *Blind, variances func(i int, out []float
 	// or NaN (a blind channel). The log weight −log v is not formed: adding
 	// −l is subtracting l (IEEE 754 defines x − y as x + (−y)), so the sums
 	// take l away, one pass over the row fewer.
-	mapRowsInOrder(n, nf*m, func(i int, out []float64) {
+	mapRowsReusing(pieces, n, func(i int, out []float64) {
 		variances(i, out)
 		for f := 0; f < nf; f++ {
 			logObserved(out[f*m:(f+1)*m], blind.row(i))
@@ -951,13 +958,13 @@ type scaleSum struct {
 // scaleSums forms for each fit the sum whose mean the scale sets to one, in
 // a second pass over the rows, and the first fit's peak per row (see
 // fitWeightsJoint).
-func scaleSums(n, m int, blind *Blind, variances func(i int, out []float64), out []*Weights) ([]scaleSum, []float64) {
+func scaleSums(pieces *rowPieces, n, m int, blind *Blind, variances func(i int, out []float64), out []*Weights) ([]scaleSum, []float64) {
 	acc := make([]scaleSum, len(out))
 	var peak []float64
 	if out[0] != nil {
 		peak = make([]float64, n)
 	}
-	mapRowsInOrder(n, len(out)*m, func(i int, buf []float64) {
+	mapRowsReusing(pieces, n, func(i int, buf []float64) {
 		variances(i, buf)
 		for f, w := range out {
 			if w == nil {
@@ -1366,9 +1373,10 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	// absVar ≤ diffVar at every point (refVar ≥ 0, and rounding keeps the
 	// order), so the first fit's peaks bound the products addOverweighted
 	// tests: only rows whose bound reaches the threshold are looked at.
-	w, peak := fitWeightsJoint(n, m, nf, blind, vars)
+	pieces := newRowPieces(nf * m)
+	w, peak := fitWeightsReusing(pieces, n, m, nf, blind, vars)
 	if w[0] != nil && blind.addOverweightedIn(w[0], absVar, peak) {
-		w, _ = fitWeightsJoint(n, m, nf, blind, vars)
+		w, _ = fitWeightsReusing(pieces, n, m, nf, blind, vars)
 	}
 	out.DifferenceWeights = w[0]
 	if opt.Blank != nil {

@@ -25,16 +25,39 @@ func eachRowBlock(n, m int, f func(r0, r1 int)) {
 	product.FixedBlocks(n, rowBlock(m), f)
 }
 
-// mapRowsInOrder computes, for every row i of [0, n), width values per row
+// rowPieces are the buffers mapRowsReusing hands its pieces of rows round
+// in (4 × GOMAXPROCS of rowBlock rows), kept for the next pass over rows of
+// the same width: the weight fits make two or four such passes, and memory
+// new to the process costs more on first touch than the pass's writing.
+type rowPieces struct {
+	width int
+	bufs  [][]float64
+}
+
+func newRowPieces(width int) *rowPieces { return &rowPieces{width: width} }
+
+// take returns k buffers of size values each, made on first use.
+func (p *rowPieces) take(k, size int) [][]float64 {
+	for len(p.bufs) < k {
+		p.bufs = append(p.bufs, make([]float64, size))
+	}
+	return p.bufs[:k]
+}
+
+// mapRowsReusing computes, for every row i of [0, n), p.width values per row
 // with mapRow(i, out) on up to GOMAXPROCS goroutines, and hands them to
 // reduce(i, out) on the calling goroutine in ascending i: the per-value work
 // (logarithms, divisions) runs in parallel, the sums over rows in one fixed
 // order. out is only valid during the call.
-func mapRowsInOrder(n, width int, mapRow func(i int, out []float64), reduce func(i int, out []float64)) {
+//
+// Its buffers come from p; values left in them from an earlier pass are
+// never read, since mapRow writes a row's values before reduce reads them.
+func mapRowsReusing(p *rowPieces, n int, mapRow func(i int, out []float64), reduce func(i int, out []float64)) {
+	width := p.width
 	b := rowBlock(width)
 	w := runtime.GOMAXPROCS(0)
 	if w < 2 || n <= b {
-		buf := make([]float64, width)
+		buf := p.take(1, b*width)[0][:width]
 		for i := 0; i < n; i++ {
 			mapRow(i, buf)
 			reduce(i, buf)
@@ -48,8 +71,8 @@ func mapRowsInOrder(n, width int, mapRow func(i int, out []float64), reduce func
 	}
 	slots := 4 * w
 	free := make(chan []float64, slots)
-	for k := 0; k < slots; k++ {
-		free <- make([]float64, b*width)
+	for _, buf := range p.take(slots, b*width) {
+		free <- buf
 	}
 	work := make(chan *piece, slots)
 	ordered := make(chan *piece, slots)
