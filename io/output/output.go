@@ -24,6 +24,8 @@ type Stage struct {
 	Force bool
 	files []string
 	alive *os.File // the staging folder, locked while the run lives (see cleanStale)
+	// written is what each file was written with (Written).
+	written map[string][]byte
 }
 
 // ErrExists says the output folder holds earlier results.
@@ -322,7 +324,19 @@ func (s *Stage) Write(name string, data []byte) error {
 		return fmt.Errorf("writing %s: %w", name, err)
 	}
 	s.files = append(s.files, name)
+	if s.written == nil {
+		s.written = map[string][]byte{}
+	}
+	s.written[name] = data
 	return nil
+}
+
+// Written gives the bytes the file name was last written with by Write
+// (callers hand Write bytes they no longer change), so that a reader of
+// the stage in the same process need not read them back from the disk.
+func (s *Stage) Written(name string) ([]byte, bool) {
+	b, ok := s.written[name]
+	return b, ok
 }
 
 // Abort removes the staging folder, leaving the output folder as it was.

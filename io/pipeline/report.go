@@ -109,8 +109,9 @@ func writeReport(r *Result, stage *output.Stage) error {
 	if r.Settings.Report == "off" {
 		return nil
 	}
-	// maps.csv as writeMaps formed it rather than read back: the same Maps.
-	f, err := report.LoadWith(stage.Dir, r.reportMaps)
+	// maps.csv as writeMaps formed it rather than read back: the same Maps;
+	// the other files as they were written, not read back either.
+	f, err := report.LoadStaged(stage.Dir, r.reportMaps, stage.Written)
 	if err != nil {
 		return fmt.Errorf("report: %w", err)
 	}

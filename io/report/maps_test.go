@@ -127,3 +127,36 @@ func nanAs(m *Maps) *Maps {
 	}
 	return out
 }
+
+// LoadStaged with each file's bytes handed over (as a run's stage gives
+// them) is Load of the folder: the same Folder, field for field; and it
+// does take the handed-over bytes (every table, the summary and the
+// record), so the comparison is not of Load with itself.
+func TestLoadStagedAsLoad(t *testing.T) {
+	dir := fixture(t, true)
+	want, err := Load(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	asked := map[string]bool{}
+	staged := func(name string) ([]byte, bool) {
+		b, err := os.ReadFile(filepath.Join(dir, name))
+		asked[name] = err == nil
+		return b, err == nil
+	}
+	got, err := LoadStaged(dir, nil, staged)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !reflect.DeepEqual(got, want) {
+		t.Errorf("LoadStaged's Folder differs from Load's")
+	}
+	for _, name := range []string{"summary.json", "spectra.csv", "profiles.csv"} {
+		if !asked[name] {
+			t.Errorf("%s was not taken from the staged bytes", name)
+		}
+	}
+	if !asked["uniqueness.csv"] && !asked["bands.csv"] {
+		t.Errorf("the uniqueness ranges were not taken from the staged bytes")
+	}
+}

@@ -10,6 +10,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -173,7 +174,14 @@ func Load(dir string) (*Folder, error) { return LoadWith(dir, nil) }
 // readMaps gives for the folder's maps.csv (FormatMaps returns it beside
 // the file's bytes), so a run that has just written the file need not read
 // and parse it again; the Folder is the same.
-func LoadWith(dir string, maps *Maps) (*Folder, error) {
+func LoadWith(dir string, maps *Maps) (*Folder, error) { return LoadStaged(dir, maps, nil) }
+
+// LoadStaged is LoadWith for a folder being written by this process:
+// staged, when not nil, gives the bytes a file of the folder was written
+// with (output.Stage.Written), which are read instead of the file, so the
+// run's report does not read back, into new memory, what it holds
+// already. The Folder is the same (the bytes are the file's).
+func LoadStaged(dir string, maps *Maps, staged func(name string) ([]byte, bool)) (*Folder, error) {
 	ents, err := os.ReadDir(dir)
 	if err != nil {
 		return nil, fmt.Errorf("reading output folder: %w", err)
@@ -185,7 +193,17 @@ func LoadWith(dir string, maps *Maps) (*Folder, error) {
 		}
 	}
 	sort.Strings(f.Files)
-	b, err := readInFolder(filepath.Join(dir, "summary.json"))
+	read := func(name string) ([]byte, error) {
+		if staged != nil {
+			if _, found := slices.BinarySearch(f.Files, name); found {
+				if b, ok := staged(name); ok {
+					return b, nil
+				}
+			}
+		}
+		return readInFolder(filepath.Join(dir, name))
+	}
+	b, err := read("summary.json")
 	if err != nil {
 		if errors.Is(err, os.ErrNotExist) {
 			return nil, fmt.Errorf("%s: has no summary.json, so it holds no bandsolve results to report", dir)
@@ -200,7 +218,11 @@ func LoadWith(dir string, maps *Maps) (*Folder, error) {
 		return nil, fmt.Errorf("%s: summary.json is not valid: %w", dir, err)
 	}
 	table := func(name string) *Table {
-		t, err := readTable(filepath.Join(dir, name))
+		b, err := read(name)
+		var t *Table
+		if err == nil {
+			t, err = tableOf(b)
+		}
 		if err != nil {
 			if !errors.Is(err, os.ErrNotExist) {
 				f.Problems = append(f.Problems, fmt.Sprintf("%s left out: %v", name, err))
@@ -232,16 +254,16 @@ func LoadWith(dir string, maps *Maps) (*Folder, error) {
 	for _, name := range f.Files {
 		switch {
 		case f.AsRun == nil && strings.HasPrefix(name, "as-run."):
-			f.AsRun = readText(dir, name)
+			f.AsRun = readText(read, name)
 		case f.Manifest == nil && strings.HasPrefix(name, "manifest."):
-			f.Manifest = readText(dir, name)
+			f.Manifest = readText(read, name)
 		}
 	}
 	return f, nil
 }
 
-func readText(dir, name string) *Text {
-	b, err := readInFolder(filepath.Join(dir, name))
+func readText(read func(name string) ([]byte, error), name string) *Text {
+	b, err := read(name)
 	if err != nil {
 		return nil
 	}
@@ -253,6 +275,11 @@ func readTable(path string) (*Table, error) {
 	if err != nil {
 		return nil, err
 	}
+	return tableOf(b)
+}
+
+// tableOf is a CSV file's table.
+func tableOf(b []byte) (*Table, error) {
 	recs, err := parseCSV(b)
 	if err != nil {
 		return nil, fmt.Errorf("not a CSV table: %w", err)
