@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 
+	"github.com/bandsolve/bandsolve/internal/fresh"
+
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -15,7 +17,7 @@ import (
 // (Wentzell, Andrews, Hamilton, Faber & Kowalski, J. Chemometrics 1997).
 func Scale(d *mat.Dense, row, col []float64) *mat.Dense {
 	n, m := d.Dims()
-	return ScaleInto(mat.NewDense(n, m, nil), d, row, col)
+	return ScaleInto(fresh.Matrix(n, m), d, row, col)
 }
 
 // ScaleInto writes √A D √B into out (n × m, which may be d itself: each

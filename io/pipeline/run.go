@@ -10,6 +10,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/bandsolve/bandsolve/internal/fresh"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/report"
 	"github.com/bandsolve/bandsolve/io/spectra"
@@ -253,7 +254,7 @@ func run(s *Settings, log io.Writer, hashInputs bool) (*Result, error) {
 		} else {
 			scaled := spare
 			if scaled == nil {
-				scaled = mat.NewDense(n, m, nil)
+				scaled = fresh.Matrix(n, m)
 			}
 			scaled, screen := svd.ScaleIntoScreened(scaled, r.D, r.Weights.Row, r.Weights.Col)
 			in = weightedRankInputs(r, scaled, r.Weights.Row, r.Weights.Col, refRow, maxF)

@@ -10,6 +10,7 @@ import (
 	"strings"
 	"sync"
 
+	"github.com/bandsolve/bandsolve/internal/fresh"
 	"github.com/bandsolve/bandsolve/internal/vecmath"
 	"gonum.org/v1/gonum/mat"
 )
@@ -143,7 +144,7 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 		if opt.Reference.File == nil {
 			meanRows(s.Values, out.ReferenceRows, ref)
 		}
-		out.Difference = mat.NewDense(n, m, nil)
+		out.Difference = fresh.Matrix(n, m)
 		for i := 0; i < n; i++ {
 			row := s.Values.RawRowView(i)
 			dst := out.Difference.RawRowView(i)

@@ -4,6 +4,3 @@ package spectra
 
 // physicalMemory is unknown here: the fixed MaxFileBytes applies.
 func physicalMemory() int64 { return 0 }
-
-// adviseHugePages does nothing here: the advice is Linux's.
-func adviseHugePages(v []float64) {}

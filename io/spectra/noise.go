@@ -8,6 +8,7 @@ import (
 	"strings"
 	"sync"
 
+	"github.com/bandsolve/bandsolve/internal/fresh"
 	"github.com/bandsolve/bandsolve/internal/product"
 	"github.com/bandsolve/bandsolve/internal/vecmath"
 	"gonum.org/v1/gonum/mat"
@@ -1387,13 +1388,13 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	// when there is a blank, else the differences.
 	switch {
 	case opt.Blank != nil && opt.Consume:
-		out.Absolute, out.Difference = s.Values, freshMatrix(n, m)
+		out.Absolute, out.Difference = s.Values, fresh.Matrix(n, m)
 	case opt.Blank != nil:
-		out.Absolute, out.Difference = freshMatrix(n, m), freshMatrix(n, m)
+		out.Absolute, out.Difference = fresh.Matrix(n, m), fresh.Matrix(n, m)
 	case opt.Consume:
 		out.Difference = s.Values
 	default:
-		out.Difference = freshMatrix(n, m)
+		out.Difference = fresh.Matrix(n, m)
 	}
 	finite, top := absorbances(s.Values, ref, opt.Blank, out.Difference, out.Absolute, blind)
 	fillBlind(out.Difference, blind, s.Times)
@@ -1419,14 +1420,6 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 }
 
 func sq(x float64) float64 { return x * x }
-
-// freshMatrix is a new n × m matrix that is about to be written in full,
-// in huge pages where the system gives them (adviseHugePages).
-func freshMatrix(n, m int) *mat.Dense {
-	data := make([]float64, n*m)
-	adviseHugePages(data)
-	return mat.NewDense(n, m, data)
-}
 
 // mostlyUnusable marks the channels where a blank or reference beam is not
 // a positive finite number in bad; when more than a quarter are, it is not

@@ -25,6 +25,7 @@ import (
 	"unsafe"
 
 	"github.com/bandsolve/bandsolve/internal/decimal"
+	"github.com/bandsolve/bandsolve/internal/fresh"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -345,7 +346,7 @@ func parseMatrixCSV(path string, raw []byte) (*Series, error) {
 	}
 	m := len(rows)
 	axis := make([]float64, m)
-	vals := mat.NewDense(n, m, nil)
+	vals := fresh.Matrix(n, m)
 	raw2 := vals.RawMatrix()
 	const chunk = 512
 	nch := (m + chunk - 1) / chunk
@@ -465,7 +466,7 @@ func (s *Series) sortByTime() {
 	// O(n log n) (an insertion sort took minutes on 3·10⁵ descending times).
 	slices.SortStableFunc(idx, func(a, b int) int { return cmp.Compare(s.Times[a], s.Times[b]) })
 	_, m := s.Values.Dims()
-	v := mat.NewDense(n, m, nil)
+	v := fresh.Matrix(n, m)
 	t := make([]float64, n)
 	nm := make([]string, n)
 	for r, i := range idx {
