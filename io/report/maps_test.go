@@ -59,18 +59,24 @@ func TestFormatMapsAsReadBack(t *testing.T) {
 	for i := range times {
 		times[i], exp[i] = 7.3*float64(i)+rng.Float64(), i/200
 	}
+	// FormatMaps calls At from several goroutines at once: the values are
+	// drawn beforehand, so that At only reads.
 	val := func(scale float64) func(i, j int) float64 {
-		return func(i, j int) float64 {
-			switch (i*31 + j) % 97 {
-			case 0:
-				return math.NaN()
-			case 1:
-				return math.Inf(1)
-			case 2:
-				return 0
+		v := make([]float64, len(times)*len(axis))
+		for i := range times {
+			for j := range axis {
+				switch (i*31 + j) % 97 {
+				case 0:
+					v[i*len(axis)+j] = math.NaN()
+				case 1:
+					v[i*len(axis)+j] = math.Inf(1)
+				case 2:
+				default:
+					v[i*len(axis)+j] = scale * rng.NormFloat64()
+				}
 			}
-			return scale * rng.NormFloat64()
 		}
+		return func(i, j int) float64 { return v[i*len(axis)+j] }
 	}
 	mats := []MapMatrix{{Name: "data", At: val(1)}, {Name: "difference", At: val(1e-3)}, {Name: "residual", At: val(1e-9)}}
 	dir := t.TempDir()
