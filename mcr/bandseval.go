@@ -511,11 +511,7 @@ type clipped struct {
 // zero window, in row-major order, reusing out's storage.
 func (ms *marginSide) collect(v []float64, out []clipped) []clipped {
 	k := ms.k
-	for l := 0; l < k; l++ {
-		for j := 0; j < k; j++ {
-			ms.vt[j*k+l] = v[l*k+j]
-		}
-	}
+	ms.transposeV(v)
 	if !ms.based {
 		ms.rebase(v)
 	}
@@ -544,6 +540,17 @@ func (ms *marginSide) collect(v []float64, out []clipped) []clipped {
 		ms.rebase(v)
 	}
 	return out
+}
+
+// transposeV sets ms.vt to Vᵀ (column j of V contiguous), as entry and
+// rotatedRows read it.
+func (ms *marginSide) transposeV(v []float64) {
+	k := ms.k
+	for l := 0; l < k; l++ {
+		for j := 0; j < k; j++ {
+			ms.vt[j*k+l] = v[l*k+j]
+		}
+	}
 }
 
 // formColumn forms the entries of column j whose ratio is at most
@@ -928,13 +935,8 @@ func (cr *clippedRows) formList(ms *marginSide, v []float64) {
 func (cr *clippedRows) formDense(ms *marginSide, v []float64) {
 	k, x := ms.k, ms.x
 	cr.dense = true
-	vt := ms.vt
-	for l := 0; l < k; l++ {
-		for j := 0; j < k; j++ {
-			vt[j*k+l] = v[l*k+j]
-		}
-	}
-	rotatedRows(cr.full, cr.minus, cr.clipped, x, vt, cr.nn, k)
+	ms.transposeV(v)
+	rotatedRows(cr.full, cr.minus, cr.clipped, x, ms.vt, cr.nn, k)
 	for e, z := range ms.zero { // nil: no windows
 		if z {
 			cr.minus[e] = cr.full[e]
