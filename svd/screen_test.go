@@ -139,7 +139,12 @@ func TestDecomposeTakesTheScreen(t *testing.T) {
 	}
 	broken := NewScreen(n, m, true)
 	broken.Row(1, scaled.RawRowView(1))
-	wrong := ScreenRows(n, m-1, func(i int, buf []float64) {})
+	// With its sum of squares (of all but the last column), so that a screen of
+	// other dimensions taken would show in FrobeniusSq.
+	wrong := NewScreen(n, m-1, true)
+	for i := 0; i < n; i++ {
+		wrong.Row(i, scaled.RawRowView(i)[:m-1])
+	}
 	for name, s := range map[string]*Screen{"screened": scr, "out of order": broken, "other dimensions": wrong} {
 		opt.Screen = s
 		got, err := Decompose(scaled, opt)
