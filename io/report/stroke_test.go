@@ -3,6 +3,7 @@ package report
 import (
 	"bytes"
 	"fmt"
+	"image"
 	"image/color"
 	"math/rand/v2"
 	"testing"
@@ -66,18 +67,7 @@ func TestStrokeLinesAsTheDrawingContext(t *testing.T) {
 				wc.StrokeLines(sty, lines...)
 				got, gotImg := rasterCanvas(w, h, nil)
 				got.strokeLines(draw.New(got), sty, lines)
-				if !bytes.Equal(gotImg.Pix, wantImg.Pix) {
-					diff := 0
-					for i := range gotImg.Pix {
-						if gotImg.Pix[i] != wantImg.Pix[i] {
-							diff++
-						}
-					}
-					t.Errorf("%d of %d bytes differ from the drawing context's stroke", diff, len(wantImg.Pix))
-				}
-				if bytes.Equal(wantImg.Pix, bytes.Repeat([]byte{255}, len(wantImg.Pix))) {
-					t.Errorf("nothing drawn: the comparison would show nothing")
-				}
+				samePixels(t, gotImg, wantImg, "the drawing context's stroke")
 			})
 		}
 	}
@@ -189,19 +179,27 @@ func TestFillRingsAsTheDrawingContext(t *testing.T) {
 				wc.Fill(ringsPath(rings))
 				got, gotImg := rasterCanvas(w, h, nil)
 				got.fillRings(rings, colour)
-				if !bytes.Equal(gotImg.Pix, wantImg.Pix) {
-					diff := 0
-					for i := range gotImg.Pix {
-						if gotImg.Pix[i] != wantImg.Pix[i] {
-							diff++
-						}
-					}
-					t.Errorf("%d of %d bytes differ from the drawing context's fill", diff, len(wantImg.Pix))
-				}
-				if bytes.Equal(wantImg.Pix, bytes.Repeat([]byte{255}, len(wantImg.Pix))) {
-					t.Errorf("nothing drawn: the comparison would show nothing")
-				}
+				samePixels(t, gotImg, wantImg, "the drawing context's fill")
 			})
 		}
+	}
+}
+
+// samePixels fails t, saying how many bytes differ, unless got holds the
+// same pixels as want, the drawing made by ref; and fails when want is
+// all white, where the comparison would show nothing.
+func samePixels(t *testing.T, got, want *image.RGBA, ref string) {
+	t.Helper()
+	if !bytes.Equal(got.Pix, want.Pix) {
+		diff := 0
+		for i := range got.Pix {
+			if got.Pix[i] != want.Pix[i] {
+				diff++
+			}
+		}
+		t.Errorf("%d of %d bytes differ from %s", diff, len(want.Pix), ref)
+	}
+	if bytes.Equal(want.Pix, bytes.Repeat([]byte{255}, len(want.Pix))) {
+		t.Errorf("nothing drawn: the comparison would show nothing")
 	}
 }

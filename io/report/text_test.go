@@ -1,7 +1,6 @@
 package report
 
 import (
-	"bytes"
 	"fmt"
 	"image/color"
 	"math"
@@ -51,18 +50,7 @@ func TestFillStringAsTheDrawingContext(t *testing.T) {
 				wc.FillText(sty, pt, s)
 				gc.FillText(sty, pt, s)
 			}
-			if !bytes.Equal(gotImg.Pix, wantImg.Pix) {
-				diff := 0
-				for i := range gotImg.Pix {
-					if gotImg.Pix[i] != wantImg.Pix[i] {
-						diff++
-					}
-				}
-				t.Errorf("%d of %d bytes differ from vgimg's FillString", diff, len(wantImg.Pix))
-			}
-			if bytes.Equal(wantImg.Pix, bytes.Repeat([]byte{255}, len(wantImg.Pix))) {
-				t.Errorf("nothing drawn: the comparison would show nothing")
-			}
+			samePixels(t, gotImg, wantImg, "vgimg's FillString")
 		})
 	}
 }
