@@ -168,19 +168,16 @@ type Matrix struct {
 
 // Load reads an output folder. Only a missing or unreadable summary.json is
 // an error: without it there is no result to report.
-func Load(dir string) (*Folder, error) { return LoadWith(dir, nil) }
+func Load(dir string) (*Folder, error) { return LoadStaged(dir, nil, nil) }
 
-// LoadWith is Load with maps.csv already read: maps, when not nil, is what
-// readMaps gives for the folder's maps.csv (FormatMaps returns it beside
-// the file's bytes), so a run that has just written the file need not read
-// and parse it again; the Folder is the same.
-func LoadWith(dir string, maps *Maps) (*Folder, error) { return LoadStaged(dir, maps, nil) }
-
-// LoadStaged is LoadWith for a folder being written by this process:
-// staged, when not nil, gives the bytes a file of the folder was written
-// with (output.Stage.Written), which are read instead of the file, so the
-// run's report does not read back, into new memory, what it holds
-// already. The Folder is the same (the bytes are the file's).
+// LoadStaged is Load for a folder being written by this process. maps,
+// when not nil, is what readMaps gives for the folder's maps.csv
+// (FormatMaps returns it beside the file's bytes), so a run that has just
+// written the file need not read and parse it again. staged, when not nil,
+// gives the bytes a file of the folder was written with
+// (output.Stage.Written), which are read instead of the file, so the run's
+// report does not read back, into new memory, what it holds already. The
+// Folder is the same (the bytes are the file's).
 func LoadStaged(dir string, maps *Maps, staged func(name string) ([]byte, bool)) (*Folder, error) {
 	ents, err := os.ReadDir(dir)
 	if err != nil {
