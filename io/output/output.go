@@ -358,7 +358,11 @@ func Float(v float64) string {
 }
 
 // AppendFloat appends Float(v) to b.
-func AppendFloat(b []byte, v float64) []byte {
+func AppendFloat(b []byte, v float64) []byte { return AppendDigits(b, v, 10) }
+
+// AppendDigits appends v with digits significant digits (AppendG); never
+// NaN, Inf or −0: nothing for the first two, "0" for the last.
+func AppendDigits(b []byte, v float64, digits int) []byte {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		// Never reached by valid results; written as empty rather than NaN
 		// so no output file ever holds a non-number.
@@ -367,7 +371,7 @@ func AppendFloat(b []byte, v float64) []byte {
 	if v == 0 {
 		return append(b, '0')
 	}
-	return AppendG(b, v, 10)
+	return AppendG(b, v, digits)
 }
 
 // Table is a header and rows of cells, written as CSV.

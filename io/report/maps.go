@@ -152,11 +152,11 @@ func (l *mapLine) format(b []byte, mm MapMatrix, i int, times []float64, experim
 	return append(b, '\n')
 }
 
-// appendValue appends v as appendNum does and returns the value Load reads
+// appendValue appends v as output.AppendDigits does and returns the value Load reads
 // back from the text (readMaps: NaN for an empty cell, ok false then).
 func appendValue(b []byte, v float64, digits int) ([]byte, float64, bool) {
 	n := len(b)
-	b = appendNum(b, v, digits)
+	b = output.AppendDigits(b, v, digits)
 	if len(b) == n {
 		return b, math.NaN(), false
 	}
@@ -196,16 +196,4 @@ func pick(n, max int) []int {
 		out[i] = (i*(n-1) + (max-1)/2) / (max - 1)
 	}
 	return out
-}
-
-// appendNum appends v with digits significant digits; never NaN, Inf or
-// −0 (nothing for the first two, "0" for the last).
-func appendNum(b []byte, v float64, digits int) []byte {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return b
-	}
-	if v == 0 {
-		return append(b, '0')
-	}
-	return output.AppendG(b, v, digits)
 }
