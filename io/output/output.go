@@ -383,8 +383,9 @@ type Table struct {
 // CSV renders the table with comma separators and LF line ends. Cells are
 // quoted only when they hold a separator, quote or line break.
 func (t Table) CSV() []byte {
+	lines := append([][]string{t.Header}, t.Rows...)
 	n := 0
-	for _, r := range append([][]string{t.Header}, t.Rows...) {
+	for _, r := range lines {
 		n += len(r) // separators and the line end
 		for _, c := range r {
 			n += len(c)
@@ -392,7 +393,7 @@ func (t Table) CSV() []byte {
 	}
 	var w CSV
 	w.b = make([]byte, 0, n+n/16)
-	for _, r := range append([][]string{t.Header}, t.Rows...) {
+	for _, r := range lines {
 		for _, c := range r {
 			w.Text(c)
 		}
