@@ -37,8 +37,9 @@ func AppendG(b []byte, v float64, prec int) []byte {
 // place (dp digits from the left); false when it cannot be sure of them.
 func gDigits(a float64, prec int, d *[16]byte) (nd, dp int, ok bool) {
 	// x is the decimal exponent of a (10^x ≤ a < 10^(x+1)), estimated from
-	// the binary one, ⌊(e−1)·log₁₀ 2⌋ with log₁₀ 2 ≈ 78913/2¹⁸ (exact for
-	// |e| < 2¹⁰ and more), and set right on the scaled value.
+	// the binary one, ⌊(e−1)·log₁₀ 2⌋ with log₁₀ 2 ≈ 78913/2¹⁸ (the floor
+	// is exact for |e−1| ≤ 1600: Go's internal/strconv, mulLog10_2), and set
+	// right on the scaled value.
 	e2 := int(math.Float64bits(a)>>52) - 1022 // a = f·2^e2, ½ ≤ f < 1 (normal a)
 	x := ((e2 - 1) * 78913) >> 18
 	lo, hi := pow10[prec-1], pow10[prec]
