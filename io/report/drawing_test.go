@@ -168,7 +168,7 @@ func TestFigureFileSameInAUsedImage(t *testing.T) {
 	}
 }
 
-// encodePNG's files decode, with Go's image/png (a reference decoder of
+// pngEncoder's files decode, with Go's image/png (a reference decoder of
 // the PNG specification, ISO/IEC 15948), to the very pixels encoded: an
 // opaque picture with runs, gradients (the Up filter's differences wrap
 // modulo 256) and noise, written as 8-bit RGB; and pictures with
@@ -193,10 +193,12 @@ func TestEncodePNGRoundTrip(t *testing.T) {
 				img.SetRGBA(x, y, c)
 			}
 		}
-		var b, ref bytes.Buffer
-		if err := encodePNG(&b, img); err != nil {
+		file, err := new(pngEncoder).encode(img)
+		if err != nil {
 			t.Fatal(err)
 		}
+		b := bytes.NewBuffer(file)
+		var ref bytes.Buffer
 		if err := (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(&ref, img); err != nil {
 			t.Fatal(err)
 		}
@@ -208,7 +210,7 @@ func TestEncodePNGRoundTrip(t *testing.T) {
 		if clear != "none" && !bytes.Equal(b.Bytes(), ref.Bytes()) {
 			t.Errorf("transparency %s: not image/png's file", clear)
 		}
-		back, err := png.Decode(&b)
+		back, err := png.Decode(b)
 		if err != nil {
 			t.Fatalf("transparency %s: does not decode: %v", clear, err)
 		}

@@ -7,10 +7,9 @@ import (
 	"hash/crc32"
 	"image"
 	"image/png"
-	"io"
 )
 
-// encodePNG writes img as a PNG file (PNG specification, ISO/IEC 15948:
+// pngEncoder writes images as PNG files (PNG specification, ISO/IEC 15948:
 // signature, IHDR, IDAT, IEND chunks, each with its CRC-32). An opaque
 // image is written as 8-bit RGB with every row under the "Up" filter (the
 // difference from the row above) and deflated at the fastest level: the
@@ -18,29 +17,20 @@ import (
 // within a few per cent of the size of choosing the best filter per row
 // (as image/png does), in half the time. An image with any transparency is
 // left to image/png (found while filtering, not by a pass of its own).
-func encodePNG(w io.Writer, img *image.RGBA) error {
-	var e pngEncoder
-	b, err := e.encode(img)
-	if err != nil {
-		return err
-	}
-	_, err = w.Write(b)
-	return err
-}
-
-// pngEncoder is encodePNG with its working memory kept from one image to
-// the next (drawFigures encodes every figure of a goroutine with one): the
-// deflate state (about 0.5 MB it writes to, a fresh one per image before)
-// is reset rather than made again, which zlib.Writer.Reset documents as
-// equivalent to a new writer, and the compressed data is gathered in one
-// buffer that is kept. Each file is returned in a slice of its own.
+//
+// Its working memory is kept from one image to the next (drawFigures
+// encodes every figure of a goroutine with one): the deflate state (about
+// 0.5 MB it writes to, a fresh one per image before) is reset rather than
+// made again, which zlib.Writer.Reset documents as equivalent to a new
+// writer, and the compressed data is gathered in one buffer that is kept.
+// Each file is returned in a slice of its own.
 type pngEncoder struct {
 	zw                 *zlib.Writer
 	idat               bytes.Buffer
 	above, line, zeros []byte
 }
 
-// encode returns img's PNG file, the bytes encodePNG writes.
+// encode returns img's PNG file.
 func (e *pngEncoder) encode(img *image.RGBA) ([]byte, error) {
 	width, height := img.Rect.Dx(), img.Rect.Dy()
 	e.idat.Reset()
