@@ -394,10 +394,7 @@ func (t Table) CSV() []byte {
 	var w CSV
 	w.b = make([]byte, 0, n+n/16)
 	for _, r := range lines {
-		for _, c := range r {
-			w.Text(c)
-		}
-		w.End()
+		w.Row(r)
 	}
 	return w.Bytes()
 }
@@ -449,6 +446,14 @@ func (w *CSV) Raw(c []byte) {
 func (w *CSV) Int(i int) {
 	w.sep()
 	w.b = strconv.AppendInt(w.b, int64(i), 10)
+}
+
+// Row writes a line of text cells (a header, say).
+func (w *CSV) Row(cells []string) {
+	for _, c := range cells {
+		w.Text(c)
+	}
+	w.End()
 }
 
 // End ends the line.

@@ -711,7 +711,7 @@ func writeBandsAndIntervals(r *Result, st *output.Stage) error {
 		sr := newSideRows(r)
 		var w output.CSV
 		w.Grow(sr.size())
-		header(&w, []string{"component", "side", "experiment", "position", "estimate", "low", "high", "sd"})
+		w.Row([]string{"component", "side", "experiment", "position", "estimate", "low", "high", "sd"})
 		for j := 0; j < r.Components; j++ {
 			sr.write(&w, j, "spectrum", func(i int) float64 { return r.ALS.S.At(i, j) },
 				func(i int) float64 { return iv.SpectraLow.At(i, j) }, func(i int) float64 { return iv.SpectraHigh.At(i, j) },
@@ -736,7 +736,7 @@ func bandsCSV(r *Result) []byte {
 	sr := newSideRows(r)
 	var w output.CSV
 	w.Grow(sr.size())
-	header(&w, []string{"component", "side", "experiment", "position", "solution", "at_min", "at_max"})
+	w.Row([]string{"component", "side", "experiment", "position", "solution", "at_min", "at_max"})
 	s, c := r.ALS.S, r.ALS.C
 	for j, band := range r.Constraints.Bands.Bands {
 		sr.write(&w, j, "spectrum", func(i int) float64 { return s.At(i, j) },

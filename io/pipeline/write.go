@@ -117,7 +117,7 @@ func WriteResults(r *Result, st *output.Stage) error {
 	{
 		var w output.CSV
 		w.Grow((len(r.Axis) + 1) * (k + 1) * 16)
-		header(&w, append([]string{r.AxisName}, r.Names...))
+		w.Row(append([]string{r.AxisName}, r.Names...))
 		for i, x := range r.Axis {
 			w.Float(x)
 			for j := 0; j < k; j++ {
@@ -138,7 +138,7 @@ func WriteResults(r *Result, st *output.Stage) error {
 		}
 		var w output.CSV
 		w.Grow((len(r.Times) + 1) * (k + 2) * 16)
-		header(&w, append(h, r.Names...))
+		w.Row(append(h, r.Names...))
 		for i, tm := range r.Times {
 			if multi {
 				w.Int(r.ExpOfRow[i] + 1)
@@ -188,14 +188,6 @@ func WriteResults(r *Result, st *output.Stage) error {
 		return err
 	}
 	return st.Write("summary.json", sum)
-}
-
-// header writes a CSV file's header line.
-func header(w *output.CSV, names []string) {
-	for _, h := range names {
-		w.Text(h)
-	}
-	w.End()
 }
 
 func singularTable(f *svd.Factors, rank *svd.RankReport) output.Table {
