@@ -1,6 +1,8 @@
 package output
 
 import (
+	"bytes"
+	"encoding/csv"
 	"errors"
 	"math"
 	"os"
@@ -86,9 +88,11 @@ func TestTableCSV(t *testing.T) {
 }
 
 // The CSV writer gives, cell by cell, the bytes of Table.CSV with the same
-// cells (RFC 4180 quoting as above): text with separators, quotes, line
-// breaks and none, empty cells, numbers as Float writes them (NaN and Inf
-// empty) and integers, on lines of different lengths.
+// cells, and those of Go's encoding/csv Writer (RFC 4180 quoting, LF line
+// ends; a reference outside this package, as Table.CSV is written with the
+// CSV writer itself): text with separators, quotes, line breaks and none,
+// empty cells, numbers as Float writes them (NaN and Inf empty) and
+// integers, on lines of different lengths.
 func TestCSVWriterAsTable(t *testing.T) {
 	texts := []string{"a", "", "x,y", `say "hi"`, "two\nlines", "cr\r", "wavenumber / cm⁻¹"}
 	nums := []float64{0, 1, -2.5, 1e-7, 123456789.0123, math.NaN(), math.Inf(-1), 6.02214076e23}
@@ -119,5 +123,13 @@ func TestCSVWriterAsTable(t *testing.T) {
 	}
 	if got, want := string(w.Bytes()), string(tab.CSV()); got != want {
 		t.Errorf("CSV writer gives\n%q\nTable.CSV\n%q", got, want)
+	}
+	var ref bytes.Buffer
+	cw := csv.NewWriter(&ref)
+	if err := cw.WriteAll(append([][]string{tab.Header}, tab.Rows...)); err != nil {
+		t.Fatal(err)
+	}
+	if got, want := string(w.Bytes()), ref.String(); got != want {
+		t.Errorf("CSV writer gives\n%q\nencoding/csv\n%q", got, want)
 	}
 }
