@@ -120,9 +120,6 @@ func TestProductsWithNonFiniteFactor(t *testing.T) {
 	}
 }
 
-// benchOne runs f b.N times and reports, besides the wall time, the
-// process CPU time per run (getrusage), the figure that stays honest on a
-// shared machine.
 // The Go loops for one to eight columns (mulSmall, mulTSmall), which a
 // processor with AVX2 takes only when a factor is not finite, must give
 // gonum's mat.Dense.Mul bit for bit on their own too: odd shapes, sub-matrix
@@ -152,6 +149,9 @@ func TestSmallPathEqualsGonumBitForBit(t *testing.T) {
 	}
 }
 
+// benchOne runs f b.N times and reports, besides the wall time, the
+// process CPU time per run (getrusage), the figure that stays honest on a
+// shared machine.
 func benchOne(b *testing.B, f func()) {
 	c0 := cpuNow()
 	for i := 0; i < b.N; i++ {
