@@ -131,6 +131,18 @@ func (p *bandProblem) residualPenalty(a, b, ga, gb *mat.Dense) float64 {
 	return h * h
 }
 
+// costWork is cost (the reference above) on the work buffers, as the search
+// evaluates it (bandObjective: valueWork, then gradientWork): the same
+// function and gradient, without allocating and without forming C T and
+// S T⁻ᵀ whole (see valueGram). With g nil only the value.
+func (p *bandProblem) costWork(j int, sign, mu float64, theta, g []float64) float64 {
+	v := p.valueWork(j, sign, mu, theta)
+	if g != nil {
+		p.gradientWork(g)
+	}
+	return v
+}
+
 // The fast evaluation (costWork: Gram matrices, margins that skip entries
 // provably inside the constraints, no allocation) must give the objective
 // and gradient of the direct formula to rounding, with zero windows,

@@ -177,17 +177,6 @@ func norm1(a []float64, k int) float64 {
 	return out
 }
 
-// costWork is cost (see the reference in bands_ref_test.go) on the work
-// buffers: the same function and gradient, without allocating and without
-// forming C T and S T⁻ᵀ whole (see valueGram). With g nil only the value.
-func (p *bandProblem) costWork(j int, sign, mu float64, theta, g []float64) float64 {
-	v := p.valueWork(j, sign, mu, theta)
-	if g != nil {
-		p.gradientWork(g)
-	}
-	return v
-}
-
 // valueWork is the search's objective at theta; gradientWork then gives
 // its gradient there from what the evaluation left in the work buffers.
 // The two are apart because the line search rejects most trial points
