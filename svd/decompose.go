@@ -101,19 +101,8 @@ type DecomposeOptions struct {
 // The gram method squares the condition number: singular values below about 1e-8·s_1 lose
 // relative accuracy, which does not matter for factor analysis where they are noise.
 func Decompose(d *mat.Dense, opt DecomposeOptions) (*Factors, error) {
-	scr := opt.Screen
-	if d != nil && !d.IsEmpty() {
-		if n, m := d.Dims(); !scr.of(n, m) {
-			scr = nil
-		}
-	} else {
-		scr = nil
-	}
-	if scr != nil {
-		if scr.err != nil {
-			return nil, fmt.Errorf("svd: decompose: %w", scr.err)
-		}
-	} else if err := checkMatrix(d); err != nil {
+	scr := opt.Screen.of(d)
+	if err := scr.check(d); err != nil {
 		return nil, fmt.Errorf("svd: decompose: %w", err)
 	}
 	n, m := d.Dims()

@@ -158,15 +158,9 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 		n, m = scr.Rows, scr.Cols
 	} else {
 		n, m = d.Dims()
-		if !scr.of(n, m) {
-			scr = nil
-		}
+		scr = scr.of(d)
 	}
-	if scr != nil {
-		if scr.err != nil {
-			return nil, fmt.Errorf("svd: estimate rank: %w", scr.err)
-		}
-	} else if err := checkMatrix(d); err != nil {
+	if err := scr.check(d); err != nil {
 		return nil, fmt.Errorf("svd: estimate rank: %w", err)
 	}
 	c, rr := min(n, m), max(n, m)

@@ -69,8 +69,25 @@ func ScaleIntoScreened(out, d *mat.Dense, row, col []float64) (*mat.Dense, *Scre
 // complete says whether every row was screened in order (false for nil).
 func (s *Screen) complete() bool { return s != nil && s.next == s.Rows }
 
-// of says whether s is a complete screen of an n × m matrix.
-func (s *Screen) of(n, m int) bool { return s.complete() && s.Rows == n && s.Cols == m }
+// of is s when it is a complete screen of a matrix of d's dimensions, else nil
+// (for a nil or empty d too, which checkMatrix refuses).
+func (s *Screen) of(d *mat.Dense) *Screen {
+	if d == nil || d.IsEmpty() || !s.complete() {
+		return nil
+	}
+	if n, m := d.Dims(); s.Rows != n || s.Cols != m {
+		return nil
+	}
+	return s
+}
+
+// check is checkMatrix for the matrix s screens (s nil: d's own, read).
+func (s *Screen) check(d *mat.Dense) error {
+	if s != nil {
+		return s.err
+	}
+	return checkMatrix(d)
+}
 
 // allZero says whether every entry of x is zero (of either sign).
 func allZero(x []float64) bool {
