@@ -59,27 +59,7 @@ func TestSubtractBaselineInPlaceMatchesProduct(t *testing.T) {
 // and leaves the copy as it was: the definition D Q⊥ = D − (D Q) Qᵀ formed
 // by one product and one difference is the reference.
 func TestProjectionInPlaceMatchesCopy(t *testing.T) {
-	rng := rand.New(rand.NewPCG(7, 8))
-	n, m := 150, 120
-	axis := make([]float64, m)
-	for j := range axis {
-		axis[j] = 1000 + 2*float64(j)
-	}
-	d := mat.NewDense(n, m, nil)
-	for i := 0; i < n; i++ {
-		for j := 0; j < m; j++ {
-			x := float64(j) / float64(m)
-			c := float64(i) / float64(n)
-			d.Set(i, j, c*math.Exp(-sq((x-0.3)/0.05))+(1-c)*math.Exp(-sq((x-0.6)/0.07))+0.01*float64(i%7)*x+1e-3*rng.NormFloat64())
-		}
-	}
-	row, col := make([]float64, n), make([]float64, m)
-	for i := range row {
-		row[i] = 1e6 * (1 + 0.5*rng.Float64())
-	}
-	for j := range col {
-		col[j] = 1 + rng.Float64()
-	}
+	axis, d, row, col := twoBandsWeighted(rand.New(rand.NewPCG(7, 8)), 150, 120)
 	r := &Result{Settings: NewSettings(), Axis: axis}
 	scaled := svd.Scale(d, row, col)
 	in := weightedRankInputs(r, mat.DenseCopyOf(scaled), row, col, -1, 0)
@@ -112,27 +92,10 @@ func TestProjectionInPlaceMatchesCopy(t *testing.T) {
 func TestScreenedRankMatchesFormed(t *testing.T) {
 	rng := rand.New(rand.NewPCG(9, 10))
 	n, m := 160, 130
-	axis := make([]float64, m)
-	for j := range axis {
-		axis[j] = 1000 + 2*float64(j)
-	}
 	for _, zeroRow := range []int{-1, 37} {
-		d := mat.NewDense(n, m, nil)
-		for i := 0; i < n; i++ {
-			for j := 0; j < m; j++ {
-				x, c := float64(j)/float64(m), float64(i)/float64(n)
-				d.Set(i, j, c*math.Exp(-sq((x-0.3)/0.05))+(1-c)*math.Exp(-sq((x-0.6)/0.07))+0.01*float64(i%7)*x+1e-3*rng.NormFloat64())
-			}
-		}
+		axis, d, row, col := twoBandsWeighted(rng, n, m)
 		if zeroRow >= 0 {
 			d.SetRow(zeroRow, make([]float64, m))
-		}
-		row, col := make([]float64, n), make([]float64, m)
-		for i := range row {
-			row[i] = 1e6 * (1 + 0.5*rng.Float64())
-		}
-		for j := range col {
-			col[j] = 1 + rng.Float64()
 		}
 		r := &Result{Settings: NewSettings(), Axis: axis}
 		scaled := svd.Scale(d, row, col)
@@ -181,4 +144,30 @@ func TestScreenedRankMatchesFormed(t *testing.T) {
 			}
 		}
 	}
+}
+
+// twoBandsWeighted is the rank tests' series: two Gaussian bands trading
+// places over n spectra of m channels (axis 1000, 1002, …), a sloped
+// baseline whose slope repeats every seven spectra, and white noise,
+// with random noise weights per spectrum (row) and per channel (col).
+func twoBandsWeighted(rng *rand.Rand, n, m int) (axis []float64, d *mat.Dense, row, col []float64) {
+	axis = make([]float64, m)
+	for j := range axis {
+		axis[j] = 1000 + 2*float64(j)
+	}
+	d = mat.NewDense(n, m, nil)
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			x, c := float64(j)/float64(m), float64(i)/float64(n)
+			d.Set(i, j, c*math.Exp(-sq((x-0.3)/0.05))+(1-c)*math.Exp(-sq((x-0.6)/0.07))+0.01*float64(i%7)*x+1e-3*rng.NormFloat64())
+		}
+	}
+	row, col = make([]float64, n), make([]float64, m)
+	for i := range row {
+		row[i] = 1e6 * (1 + 0.5*rng.Float64())
+	}
+	for j := range col {
+		col[j] = 1 + rng.Float64()
+	}
+	return axis, d, row, col
 }
