@@ -1396,7 +1396,7 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	default:
 		out.Difference = fresh.Matrix(n, m)
 	}
-	finite, top := absorbances(s.Values, ref, opt.Blank, out.Difference, out.Absolute, blind)
+	finite, absTop := absorbances(s.Values, ref, opt.Blank, out.Difference, out.Absolute, blind)
 	fillBlind(out.Difference, blind, s.Times)
 	if out.Absolute != nil {
 		fillBlind(out.Absolute, blind, s.Times)
@@ -1405,12 +1405,12 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 		for i, r := range blind.Rows {
 			a := out.Absolute.RawRowView(i)
 			for _, j := range r {
-				if a[j] > top[j] {
-					top[j] = a[j]
+				if a[j] > absTop[j] {
+					absTop[j] = a[j]
 				}
 			}
 		}
-		out.AbsoluteTop = top
+		out.AbsoluteTop = absTop
 	}
 	// A placeholder is finite when the observed values it is made of are
 	// (they are absorbances, far from overflow), or 0: the check holds.
