@@ -74,14 +74,14 @@ func saturationWarning(r *Result) string {
 	// along the rows for the largest per channel, rather than the report's
 	// scan down every column (a cache miss per value at 20 000 spectra).
 	n, m := r.D.Dims()
-	top := make([]float64, m)
-	for j := range top {
-		top[j] = math.Inf(-1)
-	}
 	// The assembly took each experiment's largest values as it formed
 	// them (D is their absolute matrices stacked); else one pass here.
 	if taken := assembledTops(r, m); taken != nil {
 		return report.HighAbsorbanceWarning(r.Axis, r.AxisName, [][]float64{taken})
+	}
+	top := make([]float64, m)
+	for j := range top {
+		top[j] = math.Inf(-1)
 	}
 	for i := 0; i < n; i++ {
 		for j, v := range r.D.RawRowView(i)[:m] {
