@@ -556,6 +556,17 @@ func scanBeams(v *mat.Dense, badChannel []bool) beamScan {
 			}
 		}
 	})
+	sc.finish(v, badChannel, badList, b, rowMax)
+	return sc
+}
+
+// finish completes scanBeams from its pass over the rows: the blind points
+// b, each row's largest finite beam rowMax and the unusable channels
+// badList. It looks for the flat top only in the rows that can hold it and,
+// when there is one, takes the blind points, the brightest beams and the
+// quantum again with the ceiling.
+func (sc *beamScan) finish(v *mat.Dense, badChannel []bool, badList []int, b *Blind, rowMax []float64) {
+	_, m := v.Dims()
 	// The clean rows took every channel's beam into the brightest; an
 	// unusable channel is blind in every row and has none.
 	for _, j := range badList {
@@ -575,7 +586,7 @@ func scanBeams(v *mat.Dense, badChannel []bool) beamScan {
 	if sc.ceiling > 0 {
 		sc.blind, sc.top = findBlindTops(v, badChannel, sc.ceiling)
 		sc.quantum = quantum(v, sc.blind)
-		return sc
+		return
 	}
 	for _, r := range b.Rows {
 		b.Count += len(r)
@@ -584,7 +595,6 @@ func scanBeams(v *mat.Dense, badChannel []bool) beamScan {
 	if math.IsInf(sc.quantum, 1) {
 		sc.quantum = 0
 	}
-	return sc
 }
 
 // positiveFinite says whether every value of row is positive and finite (a
