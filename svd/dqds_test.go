@@ -5,6 +5,7 @@ import (
 	"testing"
 
 	lapackgonum "gonum.org/v1/gonum/lapack/gonum"
+	"gonum.org/v1/gonum/mat"
 )
 
 // bidiagonalValues must be gonum's Dlasq1 (the reference library's dqds,
@@ -133,6 +134,7 @@ func efaBidiagonal(rng interface {
 	IntN(int) int
 }, p, trial int) (d, e []float64) {
 	r := make([]float64, p*p)
+	rm := mat.NewDense(p, p, r) // R as evolve holds it, on r
 	row := make([]float64, p)
 	first := make([]float64, p)
 	for i := 0; i < p+3; i++ {
@@ -150,7 +152,7 @@ func efaBidiagonal(rng interface {
 		case trial%4 == 2 && i%3 == 0:
 			copy(row, first)
 		}
-		givensAppendRaw(r, p, row)
+		givensAppend(rm, row)
 	}
 	var impl lapackgonum.Implementation
 	d, e = make([]float64, p), make([]float64, p)
@@ -158,24 +160,6 @@ func efaBidiagonal(rng interface {
 	work := make([]float64, 64*p)
 	impl.Dgebrd(p, p, r, p, d, e, tq, tp, work, len(work))
 	return d, e[:p-1]
-}
-
-// givensAppendRaw is givensAppend on a row-major p × p slice.
-func givensAppendRaw(r []float64, p int, x []float64) {
-	for k := 0; k < p; k++ {
-		if x[k] == 0 {
-			continue
-		}
-		rk := r[k*p : (k+1)*p]
-		h := math.Hypot(rk[k], x[k])
-		cs, sn := rk[k]/h, x[k]/h
-		for j := k; j < p; j++ {
-			u, v := rk[j], x[j]
-			rk[j] = cs*u + sn*v
-			x[j] = -sn*u + cs*v
-		}
-		x[k] = 0
-	}
 }
 
 // randomQD is a qd array of n rows in DLASQ2's interleaved layout (4n
