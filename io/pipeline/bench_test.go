@@ -17,6 +17,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/bandsolve/bandsolve/internal/cputime"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/spectra"
 	"github.com/bandsolve/bandsolve/mcr"
@@ -385,13 +386,13 @@ type phaseLog struct {
 }
 
 func newPhaseLog() *phaseLog {
-	return &phaseLog{start: wallNow(), cpu0: cpuNow()}
+	return &phaseLog{start: wallNow(), cpu0: cputime.Process()}
 }
 
 func wallNow() float64 { return float64(time.Now().UnixNano()) / 1e9 }
 
 func (p *phaseLog) Write(b []byte) (int, error) {
-	w, c := wallNow()-p.start, cpuNow()-p.cpu0
+	w, c := wallNow()-p.start, cputime.Process()-p.cpu0
 	for _, l := range strings.Split(strings.TrimSpace(string(b)), "\n") {
 		// Phases are named by their first word or two; "reading FILE" and
 		// "data: n × m" are one phase with what follows them.
@@ -462,12 +463,12 @@ var parseCPU, parseHWM float64
 // the figure of merit, since both suffer alike from other load on a shared
 // machine.
 func wholeRun(b *testing.B, series, blank, out string) (parse, whole float64, log *phaseLog, r *Result) {
-	t0, c0 := time.Now(), cpuNow()
+	t0, c0 := time.Now(), cputime.Process()
 	if _, err := spectra.ReadMatrixCSV(series); err != nil {
 		b.Fatal(err)
 	}
 	parse = time.Since(t0).Seconds()
-	parseCPU, parseHWM = cpuNow()-c0, peakRSS()
+	parseCPU, parseHWM = cputime.Process()-c0, peakRSS()
 	runtime.GC()
 	s := NewSettings()
 	s.Data, s.Kind, s.Blank = []string{series}, "single-beam", blank
@@ -683,12 +684,12 @@ func BenchmarkScalingReading(b *testing.B) {
 // work on it (parse, blank, assembly as Run does it, the finiteness check).
 func readingCPU(b *testing.B, series, blank string) (parse, read float64) {
 	runtime.GC()
-	c0 := cpuNow()
+	c0 := cputime.Process()
 	ser, err := spectra.ReadMatrixCSV(series)
 	if err != nil {
 		b.Fatal(err)
 	}
-	parse = cpuNow() - c0
+	parse = cputime.Process() - c0
 	bs, err := spectra.ReadSpectrum(blank)
 	if err != nil {
 		b.Fatal(err)
@@ -701,5 +702,5 @@ func readingCPU(b *testing.B, series, blank string) (parse, read float64) {
 	if err := checkAssembledFinite(series, ser, as); err != nil {
 		b.Fatal(err)
 	}
-	return parse, cpuNow() - c0
+	return parse, cputime.Process() - c0
 }

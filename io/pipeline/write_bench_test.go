@@ -8,6 +8,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/bandsolve/bandsolve/internal/cputime"
 	"github.com/bandsolve/bandsolve/io/output"
 )
 
@@ -32,13 +33,13 @@ func BenchmarkWrite2000x3001(b *testing.B) {
 		}
 		r.Supplied = stage.Files()
 		var log strings.Builder
-		total, c0 := 0.0, cpuNow()
+		total, c0 := 0.0, cputime.Process()
 		step := func(name string, f func() error) {
-			c := cpuNow()
+			c := cputime.Process()
 			if err := f(); err != nil {
 				b.Fatal(err)
 			}
-			fmt.Fprintf(&log, "  %-28s %7.3f s CPU\n", name, cpuNow()-c)
+			fmt.Fprintf(&log, "  %-28s %7.3f s CPU\n", name, cputime.Process()-c)
 		}
 		step("WriteResults", func() error { return WriteResults(r, stage) })
 		for _, hs := range [][]func(*Result, *output.Stage) error{afterWrite, lastWrite} {
@@ -47,7 +48,7 @@ func BenchmarkWrite2000x3001(b *testing.B) {
 				step(name[strings.LastIndex(name, ".")+1:], func() error { return h(r, stage) })
 			}
 		}
-		total = cpuNow() - c0
+		total = cputime.Process() - c0
 		if err := stage.Commit(); err != nil {
 			b.Fatal(err)
 		}

@@ -1,11 +1,12 @@
 //go:build unix
 
-package product
+package cputime
 
 import "syscall"
 
-// cpuNow is the user plus system time of the process so far (getrusage).
-func cpuNow() float64 {
+// Process is the user plus system time of the process so far, in seconds
+// (getrusage(2), RUSAGE_SELF); 0 when the system does not say.
+func Process() float64 {
 	var ru syscall.Rusage
 	if syscall.Getrusage(syscall.RUSAGE_SELF, &ru) != nil {
 		return 0

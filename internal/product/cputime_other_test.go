@@ -1,6 +1,0 @@
-//go:build !unix
-
-package product
-
-// cpuNow is unknown here: the benchmarks report 0 CPU time.
-func cpuNow() float64 { return 0 }
