@@ -144,7 +144,7 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 		if opt.Reference.File == nil {
 			meanRows(s.Values, out.ReferenceRows, ref)
 		}
-		out.Difference = fresh.Matrix(n, m)
+		out.Difference = fresh.Overwritten(n, m) // every value is written below
 		for i := 0; i < n; i++ {
 			row := s.Values.RawRowView(i)
 			dst := out.Difference.RawRowView(i)

@@ -1395,16 +1395,17 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	}
 	// With Consume one of the two matrices is written in place of the single
 	// beams (each value is read before it is overwritten): the absolute one
-	// when there is a blank, else the differences.
+	// when there is a blank, else the differences. absorbances writes every
+	// value of both, so new ones need not be cleared first.
 	switch {
 	case opt.Blank != nil && opt.Consume:
-		out.Absolute, out.Difference = s.Values, fresh.Matrix(n, m)
+		out.Absolute, out.Difference = s.Values, fresh.Overwritten(n, m)
 	case opt.Blank != nil:
-		out.Absolute, out.Difference = fresh.Matrix(n, m), fresh.Matrix(n, m)
+		out.Absolute, out.Difference = fresh.Overwritten(n, m), fresh.Overwritten(n, m)
 	case opt.Consume:
 		out.Difference = s.Values
 	default:
-		out.Difference = fresh.Matrix(n, m)
+		out.Difference = fresh.Overwritten(n, m)
 	}
 	finite, absTop := absorbances(s.Values, ref, opt.Blank, out.Difference, out.Absolute, blind)
 	fillBlind(out.Difference, blind, s.Times)
