@@ -329,9 +329,32 @@ func thinQR(a *mat.Dense) (*mat.Dense, *mat.Dense) {
 }
 
 // eachResidualRow hands visit each row of D and of C Sᵀ in turn, computing
-// C Sᵀ in blocks of rows so that no data-sized model is held. Every
-// residual sum goes through it, so all of them add in the same order.
+// C Sᵀ a row at a time (modelRow: the values of mat.Dense.Mul) so that no
+// data-sized model is held. Every residual sum goes through it, so all of
+// them add in the same order.
 func eachResidualRow(d, c, s *mat.Dense, visit func(i int, drow, model []float64)) {
+	n, m := d.Dims()
+	_, k := c.Dims()
+	if k > maxModelK {
+		eachResidualRowGemm(d, c, s, visit)
+		return
+	}
+	e := make([]float64, m)
+	rs := s.RawMatrix()
+	for i := 0; i < n; i++ {
+		modelRow(e, c.RawRowView(i)[:k], rs.Data, rs.Stride)
+		visit(i, d.RawRowView(i)[:m], e)
+	}
+}
+
+// maxModelK is the most components modelRow takes: gonum's Dgemm sums the
+// inner index in blocks of 64 terms, each block's dot product added to the
+// entry in turn, which modelRow does not copy.
+const maxModelK = 64
+
+// eachResidualRowGemm is eachResidualRow with C Sᵀ from mat.Dense.Mul in
+// blocks of rows, for more than maxModelK components.
+func eachResidualRowGemm(d, c, s *mat.Dense, visit func(i int, drow, model []float64)) {
 	n, m := d.Dims()
 	const block = 256
 	var e mat.Dense

@@ -150,16 +150,44 @@ func (f WeightedFit) ResidualToNoise(n, m, k int) float64 {
 	return math.Sqrt(f.WeightedSS / dof)
 }
 
-// FitWeighted streams the residual D − C Sᵀ over row blocks (no data-sized
+// FitWeighted streams the residual D − C Sᵀ a row at a time (no data-sized
 // residual matrix) skipping the points missing(i, j) reports (nil: none), and
 // sums it plain and weighted by row[i]·col[j] (nil weights: 1).
+//
+// Each sum runs over the points in the order of the rows and, within a row,
+// of the channels, the model values those of mat.Dense.Mul (modelRow): the
+// sums of the residual on the calling goroutine, those of the data and the
+// weights alone (Σ d², Σ 1/(a b), the count), which do not depend on C and
+// S, on a second one beside it. Every sum is the same sequence of additions
+// whichever runs first, so the figures do not depend on GOMAXPROCS.
 func FitWeighted(d, c, s *mat.Dense, row, col []float64, missing func(i, j int) bool) WeightedFit {
-	ssr, tot, wss, nss := 0.0, 0.0, 0.0, 0.0
-	obs := 0
+	var tot, nss float64
+	var obs int
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		tot, nss, obs = dataSums(d, row, col, missing)
+	}()
+	ssr, wss := residualSums(d, c, s, row, col, missing)
+	<-done
+	out := WeightedFit{WeightedSS: wss, Observed: obs, DataSS: tot, NoiseSS: nss}
+	if tot > 0 {
+		out.LackOfFitPercent = 100 * math.Sqrt(ssr/tot)
+	}
+	return out
+}
+
+// residualSums returns Σ e_ij² and Σ a_i b_j e_ij² over the observed points
+// of E = D − C Sᵀ, in the order of FitWeighted.
+func residualSums(d, c, s *mat.Dense, row, col []float64, missing func(i, j int) bool) (ssr, wss float64) {
 	eachResidualRow(d, c, s, func(i int, drow, erow []float64) {
 		a := 1.0
 		if row != nil {
 			a = row[i]
+		}
+		if missing == nil && col != nil {
+			ssr, wss = residualRowSums(ssr, wss, a, drow, erow, col)
+			return
 		}
 		for j, v := range drow {
 			if missing != nil && missing(i, j) {
@@ -171,17 +199,65 @@ func FitWeighted(d, c, s *mat.Dense, row, col []float64, missing func(i, j int) 
 				b = col[j]
 			}
 			ssr += r * r
-			tot += v * v
 			wss += a * b * r * r
+		}
+	})
+	return ssr, wss
+}
+
+// residualRowSums adds row i's terms to the sums ssr and wss when every
+// point is observed and the channels are weighted: the loop of residualSums
+// with its tests taken out and the sums held in registers.
+func residualRowSums(ssr, wss, a float64, drow, erow, col []float64) (float64, float64) {
+	erow, col = erow[:len(drow)], col[:len(drow)]
+	for j, v := range drow {
+		r := v - erow[j]
+		ssr += r * r
+		wss += a * col[j] * r * r
+	}
+	return ssr, wss
+}
+
+// dataSums returns Σ d_ij², Σ 1/(a_i b_j) and the number of the observed
+// points, in the order of FitWeighted.
+func dataSums(d *mat.Dense, row, col []float64, missing func(i, j int) bool) (tot, nss float64, obs int) {
+	n, m := d.Dims()
+	for i := 0; i < n; i++ {
+		drow := d.RawRowView(i)[:m]
+		a := 1.0
+		if row != nil {
+			a = row[i]
+		}
+		if missing == nil && col != nil {
+			tot, nss = dataRowSums(tot, nss, a, drow, col)
+			obs += m
+			continue
+		}
+		for j, v := range drow {
+			if missing != nil && missing(i, j) {
+				continue
+			}
+			b := 1.0
+			if col != nil {
+				b = col[j]
+			}
+			tot += v * v
 			nss += 1 / (a * b)
 			obs++
 		}
-	})
-	out := WeightedFit{WeightedSS: wss, Observed: obs, DataSS: tot, NoiseSS: nss}
-	if tot > 0 {
-		out.LackOfFitPercent = 100 * math.Sqrt(ssr/tot)
 	}
-	return out
+	return tot, nss, obs
+}
+
+// dataRowSums is dataSums' row when every point is observed and the
+// channels are weighted.
+func dataRowSums(tot, nss, a float64, drow, col []float64) (float64, float64) {
+	col = col[:len(drow)]
+	for j, v := range drow {
+		tot += v * v
+		nss += 1 / (a * col[j])
+	}
+	return tot, nss
 }
 
 // scaleRowsOrSame returns diag(w) x, or x itself when w is nil.

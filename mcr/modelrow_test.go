@@ -1,0 +1,127 @@
+package mcr
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// modelFactors returns C (n × k) and S (m × k) with entries over many
+// decades and of both signs, some exact zeros and negative zeros, S held
+// with a stride wider than k (a column slice), as the resolution's are not.
+func modelFactors(rng *rand.Rand, n, m, k int) (c, s *mat.Dense) {
+	draw := func() float64 {
+		switch rng.IntN(20) {
+		case 0:
+			return 0
+		case 1:
+			return math.Copysign(0, -1)
+		}
+		return rng.NormFloat64() * math.Pow(10, 6*rng.Float64()-3)
+	}
+	c = mat.NewDense(n, k, nil)
+	wide := mat.NewDense(m, k+3, nil)
+	for i := 0; i < n; i++ {
+		for l := 0; l < k; l++ {
+			c.Set(i, l, draw())
+		}
+	}
+	for j := 0; j < m; j++ {
+		for l := 0; l < k+3; l++ {
+			wide.Set(j, l, draw())
+		}
+	}
+	return c, wide.Slice(0, m, 0, k).(*mat.Dense)
+}
+
+// The model rows are gonum's product C Sᵀ (mat.Dense.Mul, the reference
+// library) bit for bit at every number of components modelRow has its own
+// loop for and past them; −0 in gonum's product is +0 (its Dgemm adds each
+// dot product to a zeroed entry), the one difference allowed, which no
+// residual square sees.
+func TestModelRowIsGonumProduct(t *testing.T) {
+	rng := rand.New(rand.NewPCG(11, 64))
+	n, m := 9, 37
+	for _, k := range []int{1, 2, 3, 4, 5, 6, 7, 8, 9, 12, 13, 64} {
+		c, s := modelFactors(rng, n, m, k)
+		var want mat.Dense
+		want.Mul(c, s.T())
+		got := make([]float64, m)
+		rs := s.RawMatrix()
+		for i := 0; i < n; i++ {
+			modelRow(got, c.RawRowView(i)[:k], rs.Data, rs.Stride)
+			for j, g := range got {
+				w := want.At(i, j)
+				if math.Float64bits(g) != math.Float64bits(w) && !(g == 0 && w == 0) {
+					t.Fatalf("k = %d, entry (%d, %d): modelRow %v, mat.Dense.Mul %v", k, i, j, g, w)
+				}
+			}
+		}
+	}
+}
+
+// FitWeighted's figures are their definitions (WeightedFit) summed point by
+// point in the order of the rows and channels over the residual D − C Sᵀ of
+// gonum's product (mat.Dense.Mul, the reference library): the same bits,
+// with and without weights and missing points, and at 65 components, past
+// modelRow, where the residual comes from the product itself.
+func TestFitWeightedIsItsDefinition(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 1997))
+	n, m := 23, 41
+	for _, k := range []int{3, 5, 65} {
+		c, s := modelFactors(rng, n, m, k)
+		d := mat.NewDense(n, m, nil)
+		for i := 0; i < n; i++ {
+			for j := 0; j < m; j++ {
+				d.Set(i, j, rng.NormFloat64())
+			}
+		}
+		a, b := rowColWeights(rng, n, m)
+		gap := func(i, j int) bool { return (i+2*j)%7 == 0 }
+		for _, tc := range []struct {
+			name     string
+			row, col []float64
+			missing  func(i, j int) bool
+		}{{"plain", nil, nil, nil}, {"weighted", a, b, nil}, {"weighted, missing", a, b, gap}, {"plain, missing", nil, nil, gap}} {
+			got := FitWeighted(d, c, s, tc.row, tc.col, tc.missing)
+			want := fitByDefinition(d, c, s, tc.row, tc.col, tc.missing)
+			if got != want {
+				t.Errorf("k = %d, %s: FitWeighted %+v, definition %+v", k, tc.name, got, want)
+			}
+		}
+	}
+}
+
+// fitByDefinition is WeightedFit from D − C Sᵀ formed by mat.Dense.Mul and
+// Sub, each sum taken over the observed points in row-major order.
+func fitByDefinition(d, c, s *mat.Dense, row, col []float64, missing func(i, j int) bool) WeightedFit {
+	var e mat.Dense
+	e.Mul(c, s.T())
+	e.Sub(d, &e)
+	n, m := d.Dims()
+	var f WeightedFit
+	ssr := 0.0
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			if missing != nil && missing(i, j) {
+				continue
+			}
+			a, b := 1.0, 1.0
+			if row != nil {
+				a, b = row[i], col[j]
+			}
+			r, v := e.At(i, j), d.At(i, j)
+			ssr += r * r
+			f.DataSS += v * v
+			f.WeightedSS += a * b * r * r
+			f.NoiseSS += 1 / (a * b)
+			f.Observed++
+		}
+	}
+	if f.DataSS > 0 {
+		f.LackOfFitPercent = 100 * math.Sqrt(ssr/f.DataSS)
+	}
+	return f
+}
