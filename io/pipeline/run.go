@@ -78,6 +78,9 @@ type Result struct {
 	reportMaps *report.Maps
 	// early are result files formatted ahead of their writers (finish).
 	early earlyFiles
+	// earlyEFA is EFA of the noise-scaled factors begun when the factor
+	// analysis counted the components (startEFA); nil when not begun.
+	earlyEFA *later[efaOutcome]
 	// NoiseSigma is the typical noise standard deviation of D (median over
 	// channels) and NoiseSource how it was found.
 	NoiseSigma  float64
@@ -287,6 +290,8 @@ func run(s *Settings, log io.Writer, hashInputs bool) (*Result, error) {
 	if err := chooseBaseline(r, rf, in); err != nil {
 		return nil, err
 	}
+	startEFA(r, askedComponents(s, r.Rank.Estimate))
+	defer r.earlyEFA.get() // no goroutine outlives the run
 	rank := r.Rank
 	switch {
 	case weighted(r):
@@ -312,9 +317,8 @@ func run(s *Settings, log io.Writer, hashInputs bool) (*Result, error) {
 	}
 	collectAfterFactorAnalysis(n, m)
 
-	k := rank.Estimate
+	k := askedComponents(s, rank.Estimate)
 	if s.Components != "auto" {
-		k, _ = strconv.Atoi(s.Components)
 		if k > min(n, m) {
 			return nil, usage("--components %d: the data has only %d spectra × %d points; ask for at most %d", k, n, m, min(n, m))
 		}
@@ -351,6 +355,16 @@ func run(s *Settings, log io.Writer, hashInputs bool) (*Result, error) {
 		r.Warnings = append(r.Warnings, "kinetics not done: "+err.Error())
 	}
 	return r, nil
+}
+
+// askedComponents is the number of components to resolve before the check
+// for unchanged data: --components, or the rank estimate with auto.
+func askedComponents(s *Settings, estimate int) int {
+	if s.Components == "auto" {
+		return estimate
+	}
+	k, _ := strconv.Atoi(s.Components)
+	return k
 }
 
 // singleReferenceRow is the row of the reference spectrum when there is one
