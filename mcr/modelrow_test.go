@@ -125,3 +125,57 @@ func fitByDefinition(d, c, s *mat.Dense, row, col []float64, missing func(i, j i
 	}
 	return f
 }
+
+// The outlier test's residual rows are D − C Sᵀ − B Pᵀ by its definition,
+// entry by entry d_ij − Σ_l c_il s_jl − Σ_l b_il p_jl with the terms taken
+// away one at a time in order (a plain loop here), bit for bit at every
+// number of components subtractTerms has its own loop for and past them,
+// with and without baseline terms; and the squares and lag-1 products are
+// their sums in index order.
+func TestResidualRowIsItsDefinition(t *testing.T) {
+	rng := rand.New(rand.NewPCG(8, 1993))
+	n, m := 7, 29
+	d := mat.NewDense(n, m, nil)
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			d.Set(i, j, rng.NormFloat64())
+		}
+	}
+	for _, k := range []int{1, 2, 3, 4, 5, 6, 7, 9} {
+		c, s := modelFactors(rng, n, m, k)
+		bl, p := modelFactors(rng, n, m, 1+k%4)
+		for _, base := range []bool{false, true} {
+			b, pp := (*mat.Dense)(nil), (*mat.Dense)(nil)
+			if base {
+				b, pp = bl, p
+			}
+			e := make([]float64, m)
+			for i := 0; i < n; i++ {
+				residualRow(e, d, c, s, b, pp, i)
+				var ss, num float64
+				for j := range e {
+					v := d.At(i, j)
+					for l := 0; l < k; l++ {
+						v -= c.At(i, l) * s.At(j, l)
+					}
+					if base {
+						_, nb := bl.Dims()
+						for l := 0; l < nb; l++ {
+							v -= bl.At(i, l) * p.At(j, l)
+						}
+					}
+					if math.Float64bits(e[j]) != math.Float64bits(v) {
+						t.Fatalf("k = %d, baseline %v, entry (%d, %d): %v, definition %v", k, base, i, j, e[j], v)
+					}
+					ss += v * v
+					if j > 0 {
+						num += e[j-1] * v
+					}
+				}
+				if gs, gn := squaresAndLag(e); gs != ss || gn != num {
+					t.Fatalf("k = %d, row %d: squares %v and lag %v, in order %v and %v", k, i, gs, gn, ss, num)
+				}
+			}
+		}
+	}
+}

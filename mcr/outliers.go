@@ -5,7 +5,6 @@ import (
 	"math"
 
 	"github.com/bandsolve/bandsolve/internal/product"
-	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -55,13 +54,7 @@ func FindOutliers(d, c, s, b, p *mat.Dense, axis []float64, sigma float64, skip 
 		e := make([]float64, m)
 		for i := i0; i < i1; i++ {
 			residualRow(e, d, c, s, b, p, i)
-			var ss, num float64
-			for j, v := range e {
-				ss += v * v
-				if j+1 < m {
-					num += v * e[j+1]
-				}
-			}
+			ss, num := squaresAndLag(e)
 			rms[i] = math.Sqrt(ss / float64(m))
 			if ss > 0 {
 				lag[i] = num / ss
@@ -122,26 +115,100 @@ func FindOutliers(d, c, s, b, p *mat.Dense, axis []float64, sigma float64, skip 
 	return out
 }
 
+// squaresAndLag returns Σ e_j² and Σ e_j e_{j+1} (len(e) ≥ 1), each summed
+// in index order.
+func squaresAndLag(e []float64) (ss, num float64) {
+	last := len(e) - 1
+	next := e[1:]
+	for j, v := range e[:last] {
+		ss += v * v
+		num += v * next[j]
+	}
+	v := e[last]
+	ss += v * v
+	return ss, num
+}
+
 // residualRow sets e to row i of D − C Sᵀ − B Pᵀ (b, p may be nil), each
-// entry's terms subtracted in the order of the components.
+// entry's terms subtracted in the order of the components, then of the
+// baseline terms.
 func residualRow(e []float64, d, c, s, b, p *mat.Dense, i int) {
 	_, k := c.Dims()
-	ci := c.RawRowView(i)[:k]
 	rs := s.RawMatrix()
-	var bi []float64
-	var rp blas64.General
+	subtractTerms(e, d.RawRowView(i)[:len(e)], c.RawRowView(i)[:k], rs.Data, rs.Stride)
 	if b != nil {
 		_, nb := b.Dims()
-		bi, rp = b.RawRowView(i)[:nb], p.RawMatrix()
+		rp := p.RawMatrix()
+		subtractTerms(e, e, b.RawRowView(i)[:nb], rp.Data, rp.Stride)
 	}
-	for j, v := range d.RawRowView(i)[:len(e)] {
-		for a, ca := range ci {
-			v -= ca * rs.Data[j*rs.Stride+a]
+}
+
+// subtractTerms sets dst[j] = src[j] − x₀y_j0 − x₁y_j1 − … (dst may be
+// src), the products subtracted one at a time in index order, with y_jl =
+// y[j·stride + l]. Up to six terms the row of x is held in registers: the
+// loop over x cost more than its work at a few components.
+func subtractTerms(dst, src, x, y []float64, stride int) {
+	dst = dst[:len(src)]
+	switch len(x) {
+	case 1:
+		x0 := x[0]
+		for j, v := range src {
+			dst[j] = v - x0*y[j*stride]
 		}
-		for a, ba := range bi {
-			v -= ba * rp.Data[j*rp.Stride+a]
+	case 2:
+		x0, x1 := x[0], x[1]
+		for j, v := range src {
+			q := y[j*stride : j*stride+2 : j*stride+2]
+			v -= x0 * q[0]
+			dst[j] = v - x1*q[1]
 		}
-		e[j] = v
+	case 3:
+		x0, x1, x2 := x[0], x[1], x[2]
+		for j, v := range src {
+			q := y[j*stride : j*stride+3 : j*stride+3]
+			v -= x0 * q[0]
+			v -= x1 * q[1]
+			dst[j] = v - x2*q[2]
+		}
+	case 4:
+		x0, x1, x2, x3 := x[0], x[1], x[2], x[3]
+		for j, v := range src {
+			q := y[j*stride : j*stride+4 : j*stride+4]
+			v -= x0 * q[0]
+			v -= x1 * q[1]
+			v -= x2 * q[2]
+			dst[j] = v - x3*q[3]
+		}
+	case 5:
+		x0, x1, x2, x3, x4 := x[0], x[1], x[2], x[3], x[4]
+		for j, v := range src {
+			q := y[j*stride : j*stride+5 : j*stride+5]
+			v -= x0 * q[0]
+			v -= x1 * q[1]
+			v -= x2 * q[2]
+			v -= x3 * q[3]
+			dst[j] = v - x4*q[4]
+		}
+	case 6:
+		x0, x1, x2, x3, x4, x5 := x[0], x[1], x[2], x[3], x[4], x[5]
+		for j, v := range src {
+			q := y[j*stride : j*stride+6 : j*stride+6]
+			v -= x0 * q[0]
+			v -= x1 * q[1]
+			v -= x2 * q[2]
+			v -= x3 * q[3]
+			v -= x4 * q[4]
+			dst[j] = v - x5*q[5]
+		}
+	default:
+		k := len(x)
+		for j, v := range src {
+			q := y[j*stride : j*stride+k : j*stride+k]
+			for l, xl := range x {
+				v -= xl * q[l]
+			}
+			dst[j] = v
+		}
 	}
 }
 
