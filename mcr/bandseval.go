@@ -714,31 +714,57 @@ func (p *bandProblem) riseSparse() float64 {
 	clear(ctam)
 	w.rowsC.form(w.sideC, w.t)
 	w.rowsS.form(w.sideS, w.tinvT)
+	// The clipped entries' products with each other visit the clipped
+	// columns only: the others' terms are ±0, which leave a sum that
+	// started at +0 as it is. CᵀA₋ is summed transposed (row p holds
+	// column p), each entry in the same order, and turned at the end.
+	ctamT := w.sq[4]
+	clear(ctamT)
 	w.rowsC.each(k, func(i int, cols uint64, full, minus []float64) {
 		cr := w.c[i*k : i*k+k]
-		for ; cols != 0; cols &= cols - 1 {
-			p := bits.TrailingZeros64(cols)
-			if minus[p] == 0 { // a zero window's entry at exactly 0
+		for c := cols; c != 0; c &= c - 1 {
+			p := bits.TrailingZeros64(c)
+			mp := minus[p]
+			if mp == 0 { // a zero window's entry at exactly 0
 				continue
 			}
-			for q := 0; q < k; q++ {
-				gx[p*k2+q] += minus[p] * minus[q]
-				gx[p*k2+k+q] += minus[p] * full[q]
+			row := gx[p*k2 : p*k2+k2]
+			for d := cols; d != 0; d &= d - 1 {
+				q := bits.TrailingZeros64(d)
+				row[q] += mp * minus[q]
 			}
-			for r := 0; r < k; r++ {
-				ctam[r*k+p] += cr[r] * minus[p]
+			af := row[k:k2]
+			af = af[:len(full)]
+			for q, v := range full {
+				af[q] += mp * v
+			}
+			ct := ctamT[p*k : p*k+k]
+			ct = ct[:len(cr)]
+			for r, v := range cr {
+				ct[r] += v * mp
 			}
 		}
 	})
+	for p := 0; p < k; p++ {
+		for r := 0; r < k; r++ {
+			ctam[r*k+p] = ctamT[p*k+r]
+		}
+	}
 	w.rowsS.each(k, func(_ int, cols uint64, full, minus []float64) {
-		for ; cols != 0; cols &= cols - 1 {
-			p := bits.TrailingZeros64(cols)
-			if minus[p] == 0 {
+		for c := cols; c != 0; c &= c - 1 {
+			p := bits.TrailingZeros64(c)
+			mp := minus[p]
+			if mp == 0 {
 				continue
 			}
-			for q := 0; q < k; q++ {
-				gy[(k+p)*k2+k+q] += minus[p] * minus[q]
-				gy[(k+p)*k2+q] += minus[p] * full[q]
+			row := gy[(k+p)*k2 : (k+p)*k2+k2]
+			for d := cols; d != 0; d &= d - 1 {
+				q := bits.TrailingZeros64(d)
+				row[k+q] += mp * minus[q]
+			}
+			bf := row[:len(full)]
+			for q, v := range full {
+				bf[q] += mp * v
 			}
 		}
 	})
