@@ -518,7 +518,15 @@ func (p *bandProblem) violation(a, b *mat.Dense) float64 {
 // a larger μ pulls the end back towards the interior, and on the
 // six-species chain of io/pipeline's benchmark they never reached a more
 // extreme feasible end in any of its twelve searches (every range the same
-// to the last bit) while taking 29 % of its evaluations.
+// to the last bit) while taking 29 % of its evaluations. For the same
+// reason the seed's stages stop once three iterations in a row lower the
+// objective by less than 10⁻⁸ of it (seedStall) instead of 10⁻¹²: the
+// noise stage moves the end on by 10⁻⁵–10⁻⁴ of f_j, and the seed's last
+// iterations, each 10⁻¹⁰ of f_j or less, only moved its start.
+// On the five species of io/pipeline's 2000 × 3001 benchmark that took
+// a quarter of all evaluations (1396 → 1069); the ranges moved by at most
+// 1.4·10⁻⁷ of f_j, where a search run to 10⁻¹⁵ with sixteen times the
+// budget lies 2·10⁻⁶ beyond them (docs/performance.md).
 func (p *bandProblem) extreme(j int, sign float64) ([]float64, float64, bool, int) {
 	theta := make([]float64, len(p.free))
 	if len(theta) == 0 {
@@ -526,13 +534,16 @@ func (p *bandProblem) extreme(j int, sign float64) ([]float64, float64, bool, in
 	}
 	allow := p.allow
 	p.allow = 0
-	exact := stagePlan{mus: []float64{1e2, 1e4, 1e6, 1e8}, budget: p.opt.MaxEvaluations / 4, seed: allow > 0}
+	exact := stagePlan{mus: []float64{1e2, 1e4, 1e6, 1e8}, budget: p.opt.MaxEvaluations / 4, seed: allow > 0, stall: endStall}
+	if allow > 0 {
+		exact.stall = seedStall
+	}
 	th, f, ok, evals := p.stages(j, sign, theta, exact)
 	p.allow = allow
 	if allow == 0 {
 		return th, f, ok, evals
 	}
-	th, f, ok, more := p.stages(j, sign, th, stagePlan{mus: []float64{1e5}, budget: p.opt.MaxEvaluations / 16, carryStep: true})
+	th, f, ok, more := p.stages(j, sign, th, stagePlan{mus: []float64{1e5}, budget: p.opt.MaxEvaluations / 16, carryStep: true, stall: endStall})
 	return th, f, ok, evals + more
 }
 
@@ -544,7 +555,17 @@ type stagePlan struct {
 	mus             []float64
 	budget          int
 	carryStep, seed bool
+	stall           float64 // minimiseBFGS's stall
 }
+
+// The relative decrease of the objective per iteration below which a
+// stage counts as stalled (minimiseBFGS; three in a row end it): endStall
+// for the stages whose end is reported, seedStall for the exact-fit seed
+// of a range within the noise (see extreme).
+const (
+	endStall  = 1e-12
+	seedStall = 1e-8
+)
 
 // stages runs the penalty sequence of plan from theta (see extreme).
 //
@@ -565,7 +586,7 @@ func (p *bandProblem) stages(j int, sign float64, theta0 []float64, plan stagePl
 	bestTheta := append([]float64(nil), theta...)
 	bestF := p.contribution(p.rotation(theta), j)
 	for _, mu := range plan.mus {
-		x, _, used := minimiseBFGS(bandObjective{p, j, sign, mu}, theta, plan.budget, plan.carryStep)
+		x, _, used := minimiseBFGS(bandObjective{p, j, sign, mu}, theta, plan.budget, plan.carryStep, plan.stall)
 		evals += used
 		theta = append(theta[:0], x...)
 		t := p.rotation(theta)

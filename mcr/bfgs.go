@@ -19,11 +19,15 @@ import "math"
 // by orders of magnitude at every iteration, and backtracking from 1 then
 // spends most of the evaluations.
 //
+// It stops when three iterations in a row lower f by less than stall
+// relative to |f| (a stalled search), when the gradient vanishes, when the
+// line search finds no decrease, or after maxEval evaluations.
+//
 // The gradient is asked for only at the points the line search accepts
 // (f.gradient after f.value there): Armijo backtracking decides on values
 // alone, and on the range searches it rejects more trial points than it
 // accepts.
-func minimiseBFGS(f smoothObjective, x0 []float64, maxEval int, carryStep bool) ([]float64, float64, int) {
+func minimiseBFGS(f smoothObjective, x0 []float64, maxEval int, carryStep bool, stall float64) ([]float64, float64, int) {
 	n := len(x0)
 	x := append([]float64(nil), x0...)
 	g := make([]float64, n)
@@ -53,7 +57,7 @@ func minimiseBFGS(f smoothObjective, x0 []float64, maxEval int, carryStep bool) 
 	s := make([]float64, n)
 	y := make([]float64, n)
 	hy := make([]float64, n)
-	stall := 0
+	stalled := 0
 	lastStep := 1.0
 	fresh := true // h was just reset
 	for evals < maxEval {
@@ -106,13 +110,13 @@ func minimiseBFGS(f smoothObjective, x0 []float64, maxEval int, carryStep bool) 
 		copy(x, xn)
 		copy(g, gn)
 		fx = fn
-		if rel < 1e-12 {
-			stall++
-			if stall >= 3 {
+		if rel < stall {
+			stalled++
+			if stalled >= 3 {
 				break
 			}
 		} else {
-			stall = 0
+			stalled = 0
 		}
 		if math.Sqrt(dot(g, g)) < 1e-14 {
 			break
