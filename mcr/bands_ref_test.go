@@ -332,3 +332,57 @@ func TestClippedRowsBothWaysSame(t *testing.T) {
 		}
 	}
 }
+
+// rotatedPanels (the vector lanes of rotated_amd64.s) must give the bits
+// of the Go loops of rotatedRows: every entry the sum over l ascending from
+// +0 of the rounded products x_il·v_lj (IEEE 754 addition and
+// multiplication, each rounded; no fused multiply–add), its clipped part
+// where the sign bit is set in a non-negative column, and each row's word
+// of clipped columns. Signs are random, a sixth of the entries exactly 0
+// (so that +0 and −0 products meet), and k runs over 1 … 16, the widths
+// the lanes take; skipped where there is no vector path.
+func TestRotatedPanelsSameAsRows(t *testing.T) {
+	if !havePanels {
+		t.Skip("no vector path on this processor or build")
+	}
+	rng := rand.New(rand.NewPCG(5, 6))
+	for k := 1; k <= 16; k++ {
+		for _, rows := range []int{4, 9, 64} {
+			x, vt := make([]float64, rows*k), make([]float64, k*k)
+			for i := range x {
+				if rng.IntN(6) > 0 {
+					x[i] = rng.NormFloat64() * math.Exp2(float64(rng.IntN(20)-10))
+				}
+			}
+			for i := range vt {
+				vt[i] = rng.NormFloat64()
+			}
+			nn := make([]uint64, k)
+			nnm := make([]uint64, k)
+			for j := range nn {
+				nn[j] = uint64(rng.IntN(4)/3 ^ 1) // three in four non-negative
+				nnm[j] = -nn[j]
+			}
+			want, wantMinus, wantClip := make([]float64, rows*k), make([]float64, rows*k), make([]uint64, rows)
+			rotatedRows(want, wantMinus, wantClip, x, vt, nn, k)
+			got, gotMinus, gotClip := make([]float64, rows*k), make([]float64, rows*k), make([]uint64, rows)
+			xp := rowPanels(x, k)
+			rotatedPanels(&got[0], &gotMinus[0], &gotClip[0], &xp[0], &vt[0], &nnm[0], &spreadBits[0], k, rows/4)
+			for i := 0; i < rows/4*4; i++ {
+				if gotClip[i] != wantClip[i] {
+					t.Errorf("k %d row %d: clipped %b, want %b", k, i, gotClip[i], wantClip[i])
+				}
+				for j := 0; j < k; j++ {
+					e := i*k + j
+					s := 0.0
+					for l := 0; l < k; l++ {
+						s += x[i*k+l] * vt[j*k+l]
+					}
+					if math.Float64bits(got[e]) != math.Float64bits(want[e]) || math.Float64bits(got[e]) != math.Float64bits(s) || math.Float64bits(gotMinus[e]) != math.Float64bits(wantMinus[e]) {
+						t.Errorf("k %d entry (%d, %d): %v/%v, want %v/%v (sum %v)", k, i, j, got[e], gotMinus[e], want[e], wantMinus[e], s)
+					}
+				}
+			}
+		}
+	}
+}

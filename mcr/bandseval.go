@@ -886,6 +886,10 @@ type clippedRows struct {
 	// For formDense: per row its clipped entries' bits, per column 1 when
 	// non-negative.
 	clipped, nn []uint64
+	// With havePanels and k ≤ 16: X's rows in panels of four (rowPanels)
+	// and per column all ones when non-negative, for rotatedPanels.
+	xp  []float64
+	nnm []uint64
 }
 
 // denseShare is the share of rows with a clipped entry above which X·V is
@@ -906,6 +910,12 @@ func (cr *clippedRows) form(ms *marginSide, v []float64) {
 		cr.clipped, cr.nn = make([]uint64, rows), make([]uint64, k)
 		for j := range cr.nn {
 			cr.nn[j] = b2u(ms.nn[j])
+		}
+		if havePanels && k <= 16 && rows >= 4 {
+			cr.xp, cr.nnm = rowPanels(ms.x, k), make([]uint64, k)
+			for j := range cr.nnm {
+				cr.nnm[j] = -cr.nn[j]
+			}
 		}
 	}
 	if float64(len(cr.idx)) > denseShare*float64(rows) {
@@ -951,7 +961,16 @@ func (cr *clippedRows) formDense(ms *marginSide, v []float64) {
 	k, x := ms.k, ms.x
 	cr.dense = true
 	ms.transposeV(v)
-	rotatedRows(cr.full, cr.minus, cr.clipped, x, ms.vt, cr.nn, k)
+	if cr.xp != nil {
+		// Whole panels in the vector lanes, the last rows in Go: the
+		// same sums in the same order.
+		p := len(x) / k / 4
+		rotatedPanels(&cr.full[0], &cr.minus[0], &cr.clipped[0], &cr.xp[0], &ms.vt[0], &cr.nnm[0], &spreadBits[0], k, p)
+		at := 4 * p * k
+		rotatedRows(cr.full[at:], cr.minus[at:], cr.clipped[4*p:], x[at:], ms.vt, cr.nn, k)
+	} else {
+		rotatedRows(cr.full, cr.minus, cr.clipped, x, ms.vt, cr.nn, k)
+	}
 	for e, z := range ms.zero { // nil: no windows
 		if z {
 			cr.minus[e] = cr.full[e]
@@ -965,6 +984,35 @@ func (cr *clippedRows) formDense(ms *marginSide, v []float64) {
 		}
 	}
 }
+
+// rowPanels lays the rows of x (row-major, k columns) out four at a time
+// for rotatedPanels: entry l of rows 4p … 4p+3 at 4k·p + 4l + r. Rows
+// beyond the last whole four are left out.
+func rowPanels(x []float64, k int) []float64 {
+	p := len(x) / k / 4
+	out := make([]float64, 4*p*k)
+	for q := 0; q < p; q++ {
+		for r := 0; r < 4; r++ {
+			row := x[(4*q+r)*k : (4*q+r)*k+k]
+			for l, v := range row {
+				out[4*k*q+4*l+r] = v
+			}
+		}
+	}
+	return out
+}
+
+// spreadBits[m] has bit r of m at bit 16r: rotatedPanels turns the four
+// rows' signs of one column (VMOVMSKPD) into their places in four 16-bit
+// words of clipped columns at once.
+var spreadBits = func() (t [16]uint64) {
+	for m := range t {
+		for r := 0; r < 4; r++ {
+			t[m] |= uint64(m>>r&1) << (16 * r)
+		}
+	}
+	return t
+}()
 
 // b2u is 1 for true, 0 for false.
 func b2u(b bool) uint64 {
