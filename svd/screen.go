@@ -1,6 +1,10 @@
 package svd
 
-import "gonum.org/v1/gonum/mat"
+import (
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
 
 // Screen is what one pass over a matrix tells the steps that check it before they
 // work from its factors: the error of its first non-finite entry, row by row (nil:
@@ -55,6 +59,36 @@ func ScreenRows(rows, cols int, row func(i int, buf []float64)) *Screen {
 		s.Row(i, buf)
 	}
 	return s
+}
+
+// ScreenFinite is the screen of a rows × cols matrix that the caller knows to be
+// finite everywhere (Bound tells one way), whose row i is all zeros exactly when
+// zero(i) says so: the same screen as Row row after row, with no error and
+// without the sum of squares. A check for a row of zeros can stop at its first
+// entry that is not zero, so zero need form only the leading entries of a row
+// that is not zero instead of the whole row.
+func ScreenFinite(rows, cols int, zero func(i int) bool) *Screen {
+	s := NewScreen(rows, cols, false)
+	for i := 0; i < rows; i++ {
+		if zero(i) {
+			s.zero = append(s.zero, i)
+		}
+	}
+	s.next = rows
+	return s
+}
+
+// Bound is a bound on the magnitude of every entry of the rows × cols matrix s
+// screens: √(Σ d_ij²) when s is a complete screen of that size with its sum of
+// squares and every entry finite, else +Inf (nothing known). Every |d_ij| is at
+// most the square root of the sum of the squares, rounding aside (the sum of
+// n squares errs by at most n ε of itself, far less than the margin a caller
+// keeps from overflow).
+func (s *Screen) Bound(rows, cols int) float64 {
+	if !s.complete() || s.Rows != rows || s.Cols != cols || s.err != nil || !s.sum {
+		return math.Inf(1)
+	}
+	return math.Sqrt(s.frob)
 }
 
 // ScaleIntoScreened is ScaleInto, screening each row of the scaled matrix as it

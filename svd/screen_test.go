@@ -167,3 +167,52 @@ func TestDecomposeTakesTheScreen(t *testing.T) {
 		t.Errorf("non-finite entry: with the screen %v, reading the matrix %v", gotErr, wantErr)
 	}
 }
+
+// A screen of a matrix known to be finite, given its rows of zeros (ScreenFinite),
+// is the screen Row makes row after row (the definition: no error, the same rows
+// of zeros, no sum), with a row of zeros and without; Bound is √(Σ d_ij²), at least
+// every |d_ij| (Cauchy–Schwarz: one square is at most the sum), only for a
+// complete screen of the matrix's size with its sum and every entry finite.
+func TestScreenFiniteAndBound(t *testing.T) {
+	rng := newRNG(14)
+	n, m := 40, 120
+	for _, zero := range []int{-1, 0, 23} {
+		d := noisyBilinear(rng, n, m, 3, 1e-3)
+		if zero >= 0 {
+			d.SetRow(zero, make([]float64, m))
+		}
+		want := NewScreen(n, m, false)
+		for i := 0; i < n; i++ {
+			want.Row(i, d.RawRowView(i))
+		}
+		got := ScreenFinite(n, m, func(i int) bool { return allZero(d.RawRowView(i)) })
+		if !reflect.DeepEqual(got, want) {
+			t.Errorf("zero row %d: ScreenFinite %+v, row by row %+v", zero, got, want)
+		}
+	}
+	d := noisyBilinear(rng, n, m, 3, 1e-3)
+	d.Set(3, 5, 40) // the largest entry by far
+	s := NewScreen(n, m, true)
+	for i := 0; i < n; i++ {
+		s.Row(i, d.RawRowView(i))
+	}
+	b := s.Bound(n, m)
+	if want := math.Sqrt(frobeniusSq(d)); b != want || b < 40 {
+		t.Errorf("Bound %v, want √‖D‖² = %v ≥ 40", b, want)
+	}
+	unsummed := ScreenFinite(n, m, func(int) bool { return false })
+	bad := NewScreen(n, m, true)
+	for i := 0; i < n; i++ {
+		row := d.RawRowView(i)
+		if i == 7 {
+			row = append([]float64{math.NaN()}, row[1:]...)
+		}
+		bad.Row(i, row)
+	}
+	for name, c := range map[string]float64{"other size": s.Bound(n, m+1), "no sum": unsummed.Bound(n, m),
+		"non-finite entry": bad.Bound(n, m), "nil": (*Screen)(nil).Bound(n, m)} {
+		if !math.IsInf(c, 1) {
+			t.Errorf("%s: Bound %v, want +Inf", name, c)
+		}
+	}
+}

@@ -87,8 +87,8 @@ func TestProjectionInPlaceMatchesCopy(t *testing.T) {
 // projection formed in full by its definition D − (D Q) Qᵀ (one gonum product
 // each way, one difference) and handed to svd.EstimateRank and
 // svd.ClassifyFactors, the data are left untouched, and the product of a
-// lower order taken from the highest order's (rankInputs.dq) changes nothing.
-// One case has a spectrum of zeros, which the rank takes for the reference row.
+// lower order taken from the highest order's (rankInputs.dq), or the screen of
+// the data bounding D Q⊥'s entries (projectedScreen), changes nothing. One case has a spectrum of zeros, which the rank takes for the reference row.
 func TestScreenedRankMatchesFormed(t *testing.T) {
 	rng := rand.New(rand.NewPCG(9, 10))
 	n, m := 160, 130
@@ -103,7 +103,8 @@ func TestScreenedRankMatchesFormed(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		in := weightedRankInputs(r, mat.DenseCopyOf(scaled), row, col, -1, 12)
+		copied, screen := svd.ScaleIntoScreened(mat.NewDense(n, m, nil), d, row, col)
+		in := weightedRankInputs(r, copied, row, col, -1, 12)
 		in.basis = svd.PolyBasis(axis, 3, col)
 		in.dq = mat.NewDense(n, 4, nil)
 		in.dq.Mul(scaled, in.basis)
@@ -127,6 +128,8 @@ func TestScreenedRankMatchesFormed(t *testing.T) {
 				use := in
 				if !shared {
 					use.basis, use.dq = nil, nil
+				} else {
+					use.screen = screen // the rows of D Q⊥ formed only up to a first entry not zero
 				}
 				gotRep, gotCR, err := chemicalRank(r, use.d, f, order, use, true)
 				if err != nil {
@@ -141,6 +144,48 @@ func TestScreenedRankMatchesFormed(t *testing.T) {
 				if !mat.Equal(use.d, scaled) {
 					t.Errorf("zero row %d, order %d: the scaled matrix changed", zeroRow, order)
 				}
+			}
+		}
+	}
+}
+
+// The screen of D Q⊥ = D − (D Q) Qᵀ found from its rows' leading entries
+// (projectedScreen, with the screen of D bounding its entries) is the screen of
+// every row formed in full (svd.ScreenRows of lessBaselineRow, the definition):
+// with no row of zeros, with a spectrum of zeros (a row of zeros of D Q⊥ too),
+// and with a row whose first ten entries of D Q⊥ are zero and the rest not (a
+// basis zero on the first ten channels), so that a row is not taken for zeros
+// from its leading entries alone. Without a screen of D, or with a product D Q
+// that is not finite, every row is formed: the same screen, its error included.
+func TestProjectedScreenMatchesFormed(t *testing.T) {
+	rng := rand.New(rand.NewPCG(21, 22))
+	n, m := 50, 90
+	for _, c := range []string{"plain", "zero spectrum", "leading zeros"} {
+		axis, d, row, col := twoBandsWeighted(rng, n, m)
+		q := svd.PolyBasis(axis, 2, col)
+		switch c {
+		case "zero spectrum":
+			d.SetRow(11, make([]float64, m))
+		case "leading zeros":
+			for j := 0; j < 10; j++ {
+				q.SetRow(j, make([]float64, 3))
+				d.Set(29, j, 0)
+			}
+		}
+		scaled, screen := svd.ScaleIntoScreened(mat.NewDense(n, m, nil), d, row, col)
+		dq := mat.NewDense(n, 3, nil)
+		dq.Mul(scaled, q)
+		want := svd.ScreenRows(n, m, func(i int, buf []float64) { lessBaselineRow(buf, scaled.RawRowView(i), dq.RawRowView(i), q) })
+		for _, s := range []*svd.Screen{screen, nil} {
+			if got := projectedScreen(scaled, dq, q, s); !reflect.DeepEqual(got, want) {
+				t.Errorf("%s (screen of D given: %v): %+v, formed in full %+v", c, s != nil, got, want)
+			}
+		}
+		if c == "plain" {
+			dq.Set(17, 1, math.Inf(1))
+			want := svd.ScreenRows(n, m, func(i int, buf []float64) { lessBaselineRow(buf, scaled.RawRowView(i), dq.RawRowView(i), q) })
+			if got := projectedScreen(scaled, dq, q, screen); !reflect.DeepEqual(got, want) {
+				t.Errorf("D Q not finite: %+v, formed in full %+v", got, want)
 			}
 		}
 	}
