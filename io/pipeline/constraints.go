@@ -398,6 +398,7 @@ func afterResolve(r *Result, data mcr.Data, opt mcr.Options, log io.Writer) erro
 		r.Constraints = rep
 	}
 	rep.Options = opt
+	r.ahead.aheadFit(r)
 	s := r.Settings
 	// The checks' refits and the uniqueness ranges read the resolution
 	// and nothing the other writes: the refits run on a goroutine while

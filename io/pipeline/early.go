@@ -18,6 +18,13 @@ func startLater[T any](f func() T) *later[T] {
 	return l
 }
 
+// ready is a later whose value is v already.
+func ready[T any](v T) *later[T] {
+	l := &later[T]{done: make(chan struct{}), v: v}
+	close(l.done)
+	return l
+}
+
 // get waits for the value; ok is false for a nil later.
 func (l *later[T]) get() (v T, ok bool) {
 	if l == nil {
@@ -48,7 +55,11 @@ type mapsFile struct {
 func startEarlyFiles(r *Result) earlyFiles {
 	var e earlyFiles
 	if wantMaps(r) {
-		e.maps = startLater(func() mapsFile { return formatMaps(r) })
+		if f, ok := r.ahead.mapsFile(r); ok {
+			e.maps = ready(f)
+		} else {
+			e.maps = startLater(func() mapsFile { return formatMaps(r) })
+		}
 	}
 	if wantBands(r) {
 		e.bands = startLater(func() []byte { return bandsCSV(r) })

@@ -50,6 +50,7 @@ func computeEFA(r *Result) {
 		return
 	}
 	r.EFA = rep
+	r.ahead.aheadEFA(r)
 }
 
 func efaSkipped(r *Result, err error) {
@@ -171,12 +172,17 @@ func (rep *EFAReport) summary(r *Result) *EFAJSON {
 // writeEFA writes efa.csv: time, the log10 singular values of the forward
 // and backward windows, the noise threshold and the local rank.
 func writeEFA(r *Result, st *output.Stage) error {
-	rep := r.EFA
-	if rep == nil {
+	if r.EFA == nil {
 		return nil
 	}
+	return st.Write("efa.csv", efaTable(r.EFA, r.Times, r.ExpOfRow, len(r.Experiments) > 1).CSV())
+}
+
+// efaTable is efa.csv of rep for spectra at times (of the experiments
+// expOfRow, a column of their own with several).
+func efaTable(rep *EFAReport, times []float64, expOfRow []int, multi bool) output.Table {
 	h := []string{"time"}
-	if len(r.Experiments) > 1 {
+	if multi {
 		h = []string{"experiment", "time"}
 	}
 	for k := 1; k <= rep.Factors; k++ {
@@ -187,10 +193,10 @@ func writeEFA(r *Result, st *output.Stage) error {
 	}
 	h = append(h, "log10_noise_threshold", "local_rank")
 	t := output.Table{Header: h}
-	for i, tm := range r.Times {
+	for i, tm := range times {
 		var row []string
-		if len(r.Experiments) > 1 {
-			row = append(row, strconv.Itoa(r.ExpOfRow[i]+1))
+		if multi {
+			row = append(row, strconv.Itoa(expOfRow[i]+1))
 		}
 		row = append(row, output.Float(tm))
 		for k := 0; k < rep.Factors; k++ {
@@ -206,5 +212,5 @@ func writeEFA(r *Result, st *output.Stage) error {
 		row = append(row, output.Float(rep.Threshold[i]), strconv.Itoa(lr))
 		t.Rows = append(t.Rows, row)
 	}
-	return st.Write("efa.csv", t.CSV())
+	return t
 }

@@ -121,6 +121,7 @@ func (s secondStart) apply(r *Result) bool {
 		efaSkipped(r, s.efaErr)
 	}
 	r.EFA = s.efa
+	r.ahead.aheadEFA(r)
 	return s.ran
 }
 

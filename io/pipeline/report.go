@@ -38,6 +38,13 @@ func wantMaps(r *Result) bool { return r.Settings.Report != "off" && r.D != nil 
 
 // formatMaps makes maps.csv; it only reads r (see earlyFiles).
 func formatMaps(r *Result) mapsFile {
+	b, m := report.FormatMaps(r.Axis, r.Times, r.ExpOfRow, mapMatrices(r))
+	return mapsFile{csv: b, maps: m}
+}
+
+// mapMatrices are the matrices maps.csv shows: the data, the difference
+// spectra and, after a resolution, the residuals.
+func mapMatrices(r *Result) []report.MapMatrix {
 	var mats []report.MapMatrix
 	at := func(m *mat.Dense) func(i, j int) float64 { return m.At }
 	mats = append(mats, report.MapMatrix{Name: "data", At: at(r.D)})
@@ -47,20 +54,23 @@ func formatMaps(r *Result) mapsFile {
 		mats = append(mats, report.MapMatrix{Name: "difference", At: at(diff)})
 	}
 	if r.ALS != nil {
-		// Residuals only at the points maps.csv keeps, computed on demand
-		// rather than stored for the whole matrix.
-		c, s := r.ALS.C, r.ALS.S
-		_, k := c.Dims()
-		mats = append(mats, report.MapMatrix{Name: "residual", At: func(i, j int) float64 {
-			v := r.D.At(i, j)
-			for q := 0; q < k; q++ {
-				v -= c.At(i, q) * s.At(j, q)
-			}
-			return v
-		}})
+		mats = append(mats, residualMatrix(r))
 	}
-	b, m := report.FormatMaps(r.Axis, r.Times, r.ExpOfRow, mats)
-	return mapsFile{csv: b, maps: m}
+	return mats
+}
+
+// residualMatrix is D − C Sᵀ, computed on demand at the points maps.csv
+// keeps rather than stored for the whole matrix.
+func residualMatrix(r *Result) report.MapMatrix {
+	d, c, s := r.D, r.ALS.C, r.ALS.S
+	_, k := c.Dims()
+	return report.MapMatrix{Name: "residual", At: func(i, j int) float64 {
+		v := d.At(i, j)
+		for q := 0; q < k; q++ {
+			v -= c.At(i, q) * s.At(j, q)
+		}
+		return v
+	}}
 }
 
 // differenceMatrix stacks the experiments' difference spectra when the
@@ -117,7 +127,7 @@ func writeReport(r *Result, stage *output.Stage) error {
 	}
 	// The figures as files too (SVG and PNG, legend included), for papers
 	// and slides; sorted so the files are written in a fixed order.
-	b, files, err := report.BuildWithFiles(f)
+	b, files, err := report.BuildWithPredrawn(f, r.ahead.predrawn())
 	if err != nil {
 		return fmt.Errorf("report: %w", err)
 	}

@@ -81,6 +81,8 @@ type Result struct {
 	// earlyEFA is EFA of the noise-scaled factors begun when the factor
 	// analysis counted the components (startEFA); nil when not begun.
 	earlyEFA *later[efaOutcome]
+	// ahead draws the report's figures while the run computes (ahead.go).
+	ahead *ahead
 	// NoiseSigma is the typical noise standard deviation of D (median over
 	// channels) and NoiseSource how it was found.
 	NoiseSigma  float64
@@ -220,6 +222,10 @@ func run(s *Settings, log io.Writer, hashInputs bool) (*Result, error) {
 	if hashInputs {
 		r.inputSums = startInputSums(dataFiles(r))
 		defer r.inputSums.wait()
+		if s.Report != "off" {
+			r.ahead = startAhead()
+			defer r.ahead.wait()
+		}
 	}
 
 	// Factor analysis.
@@ -242,6 +248,7 @@ func run(s *Settings, log io.Writer, hashInputs bool) (*Result, error) {
 	if weighted(r) && r.Mode == mcr.Species && r.DiffWeights != nil {
 		spare, refs = borrowDifference(r, diffRows)
 	}
+	r.ahead.aheadData(r)
 	if weighted(r) {
 		// Rank, baseline order and the nuisance classification on the
 		// noise-scaled matrix √A D √B, whose noise is white with σ = 1
@@ -316,6 +323,8 @@ func run(s *Settings, log io.Writer, hashInputs bool) (*Result, error) {
 		r.Advice = append(r.Advice, fmt.Sprintf("factor %d is the reference spectrum's own noise (flat in time, white across the axis): one fixed pattern in every difference spectrum, not a reaction, so it is not counted; averaging several pre-reaction spectra as the reference (--pre N --reference mean:N) shrinks it by √N", rank.ReferencePatternFactor+1))
 	}
 	collectAfterFactorAnalysis(n, m)
+	r.ahead.aheadData(r)
+	r.ahead.aheadSingular(r)
 
 	k := askedComponents(s, rank.Estimate)
 	if s.Components != "auto" {

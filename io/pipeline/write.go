@@ -160,17 +160,7 @@ func WriteResults(r *Result, st *output.Stage) error {
 		return err
 	}
 	if r.ALS != nil {
-		t := output.Table{Header: []string{"iteration", "lack_of_fit_percent"}}
-		// Each accepted iteration under its own number, so the last row is
-		// the iteration count of summary.json (undone extrapolations leave gaps).
-		for i, v := range r.ALS.History {
-			at := i + 1
-			if i < len(r.ALS.HistoryAt) {
-				at = r.ALS.HistoryAt[i]
-			}
-			t.Rows = append(t.Rows, []string{strconv.Itoa(at), output.Float(v)})
-		}
-		if err := st.Write("iterations.csv", t.CSV()); err != nil {
+		if err := st.Write("iterations.csv", iterationsTable(r).CSV()); err != nil {
 			return err
 		}
 	}
@@ -188,6 +178,21 @@ func WriteResults(r *Result, st *output.Stage) error {
 		return err
 	}
 	return st.Write("summary.json", sum)
+}
+
+// iterationsTable is iterations.csv: each accepted iteration under its own
+// number, so the last row is the iteration count of summary.json (undone
+// extrapolations leave gaps).
+func iterationsTable(r *Result) output.Table {
+	t := output.Table{Header: []string{"iteration", "lack_of_fit_percent"}}
+	for i, v := range r.ALS.History {
+		at := i + 1
+		if i < len(r.ALS.HistoryAt) {
+			at = r.ALS.HistoryAt[i]
+		}
+		t.Rows = append(t.Rows, []string{strconv.Itoa(at), output.Float(v)})
+	}
+	return t
 }
 
 func singularTable(f *svd.Factors, rank *svd.RankReport) output.Table {

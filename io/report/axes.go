@@ -115,6 +115,15 @@ func (f *Folder) chosenTimeUnit() string {
 	return ""
 }
 
+// timeUnitView is the part of the as-run record the figures read, the
+// chosen --time-unit, as a record of that line alone (nil without one).
+func (f *Folder) timeUnitView() *Text {
+	if u := f.chosenTimeUnit(); u != "" {
+		return &Text{Body: "time-unit " + u}
+	}
+	return nil
+}
+
 // timeUnit is the unit the figures show times of a run spanning span
 // seconds in: the chosen --time-unit, else one picked from the span.
 func (f *Folder) timeUnit(span float64) string {

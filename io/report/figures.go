@@ -17,48 +17,78 @@ import (
 // A figure whose file is missing is simply absent; one that cannot be drawn
 // is reported in problems.
 func Figures(f *Folder) (figs []Figure, problems []string) {
-	d := drawFigures(figureJobs(f), false, nil)
+	d := drawFigures(figureJobs(f), false, nil, nil)
 	return d.figs, d.problems
 }
 
-// figureJob builds one figure from the folder.
-type figureJob func() (*Figure, error)
+// figureJob builds one figure from view, the part of the folder it reads:
+// build is given view alone, so that the figure is the same whenever the
+// view is (Predrawn takes a figure drawn ahead on that ground).
+type figureJob struct {
+	id    string
+	view  *Folder
+	build func(v *Folder) (*Figure, error)
+}
 
 // figureJobs are the figures the folder's files allow, in reading order.
 func figureJobs(f *Folder) []figureJob {
 	var jobs []figureJob
-	ax := spectralAxis(f.axisName())
 	if f.Maps != nil {
 		if m := f.Maps.Matrices["data"]; m != nil && f.Maps.Matrices["difference"] != nil {
-			jobs = append(jobs, func() (*Figure, error) {
-				return overlayFigure(f, m, ax, "fig-absorbance", "Absorbance spectra, coloured by time", "absorbance",
+			jobs = append(jobs, onMatrix(f, "fig-absorbance", m, false, func(v *Folder, m *Matrix, ax axisStyle) (*Figure, error) {
+				return overlayFigure(v, m, ax, "fig-absorbance", "Absorbance spectra, coloured by time", "absorbance",
 					"The absolute absorbance spectra that were resolved (species mode).")
-			})
+			}))
 		}
 		if m := f.inputDifference(); m != nil {
-			jobs = append(jobs, func() (*Figure, error) {
-				return overlayFigure(f, m, ax, "fig-input", "Difference spectra, coloured by time", "ΔA (absorbance)",
+			jobs = append(jobs, onMatrix(f, "fig-input", m, false, func(v *Folder, m *Matrix, ax axisStyle) (*Figure, error) {
+				return overlayFigure(v, m, ax, "fig-input", "Difference spectra, coloured by time", "ΔA (absorbance)",
 					"Each spectrum minus the reference state: bands that grow are formed, bands that go negative are consumed.")
-			}, func() (*Figure, error) {
-				return mapFigure(f, m, ax, "fig-map", "Difference spectra as a time × axis map", "ΔA", 1,
+			}), onMatrix(f, "fig-map", m, false, func(v *Folder, m *Matrix, ax axisStyle) (*Figure, error) {
+				return mapFigure(v, m, ax, "fig-map", "Difference spectra as a time × axis map", "ΔA", 1,
 					"Blue: absorbance lost; white: no change; vermilion: absorbance gained. Colour limits are ± the largest |ΔA|.")
-			})
+			}))
 		}
 	}
-	jobs = append(jobs, func() (*Figure, error) { return singularFigure(f) },
-		func() (*Figure, error) { return efaFigure(f) },
-		func() (*Figure, error) { return spectraFigure(f, ax) },
-		func() (*Figure, error) { return profilesFigure(f) },
-		func() (*Figure, error) { return iterationsFigure(f) })
+	var s Summary
+	if f.Summary != nil {
+		s = *f.Summary
+	}
+	tu := f.timeUnitView()
+	jobs = append(jobs,
+		figureJob{id: "fig-singular", build: singularFigure, view: &Folder{Singular: f.Singular,
+			Summary: &Summary{RankEstimate: s.RankEstimate, NoiseEdge: s.NoiseEdge, NoiseSigma: s.NoiseSigma, NoiseWeights: s.NoiseWeights, NoiseSource: s.NoiseSource}}},
+		figureJob{id: "fig-efa", build: efaFigure, view: &Folder{EFA: f.EFA, AsRun: tu}},
+		figureJob{id: "fig-spectra", view: &Folder{Spectra: f.Spectra, Bands: f.Bands, Intervals: f.Intervals,
+			Summary: &Summary{Axis: f.axisName(), ComponentNames: s.ComponentNames, Mode: s.Mode}},
+			build: func(v *Folder) (*Figure, error) { return spectraFigure(v, spectralAxis(v.axisName())) }},
+		figureJob{id: "fig-profiles", build: profilesFigure, view: &Folder{Profiles: f.Profiles, Bands: f.Bands, Intervals: f.Intervals,
+			Kinetics: f.Kinetics, AsRun: tu, Summary: &Summary{ComponentNames: s.ComponentNames, Mode: s.Mode, Closure: s.Closure, Kinetics: s.Kinetics}}},
+		figureJob{id: "fig-iterations", build: iterationsFigure, view: &Folder{Iterations: f.Iterations,
+			Summary: &Summary{NoiseLackOfFitPercent: s.NoiseLackOfFitPercent, Converged: s.Converged, Iterations: s.Iterations, LackOfFitPercent: s.LackOfFitPercent}}})
 	if f.Maps != nil {
 		if m := f.Maps.Matrices["residual"]; m != nil {
-			jobs = append(jobs, func() (*Figure, error) {
-				return mapFigure(f, m, ax, "fig-residual-map", "Residuals D − C Sᵀ as a time × axis map", "residual", 0.995,
+			jobs = append(jobs, onMatrix(f, "fig-residual-map", m, false, func(v *Folder, m *Matrix, ax axisStyle) (*Figure, error) {
+				return mapFigure(v, m, ax, "fig-residual-map", "Residuals D − C Sᵀ as a time × axis map", "residual", 0.995,
 					"What the model leaves unexplained. Noise looks like fine speckle; structure along time or at a band means a missing component or a violated constraint. Colour limits are ± the 99.5th percentile of |residual|.")
-			}, func() (*Figure, error) { return residualSpectrumFigure(f, m, ax) })
+			}), onMatrix(f, "fig-residual-spectrum", m, true, residualSpectrumFigure))
 		}
 	}
 	return jobs
+}
+
+// onMatrix is the job of a figure of matrix m of maps.csv: its view is m
+// (as the only matrix, "shown"), the map's axis, the axis name and the
+// time unit, and with noise the noise σ.
+func onMatrix(f *Folder, id string, m *Matrix, noise bool, draw func(v *Folder, m *Matrix, ax axisStyle) (*Figure, error)) figureJob {
+	s := &Summary{Axis: f.axisName()}
+	if noise && f.Summary != nil {
+		s.NoiseSigma = f.Summary.NoiseSigma
+	}
+	v := &Folder{Summary: s, AsRun: f.timeUnitView(), Maps: &Maps{Axis: f.Maps.Axis, Matrices: map[string]*Matrix{"shown": m}}}
+	return figureJob{id: id, view: v, build: func(v *Folder) (*Figure, error) {
+		return draw(v, v.Maps.Matrices["shown"], spectralAxis(v.axisName()))
+	}}
 }
 
 // drawnFigures is what drawFigures gives: the figures in reading order and
@@ -80,8 +110,9 @@ type drawnFigures struct {
 // figures are done rather than after the last of them; built, when not
 // nil, is called on the caller's goroutine with the figures and problems
 // once every figure is built, while the files are still being drawn (the
-// report's HTML needs the figures only).
-func drawFigures(jobs []figureJob, files bool, built func(figs []Figure, problems []string)) drawnFigures {
+// report's HTML needs the figures only). A figure pre holds for the same
+// view (with its files, when files are drawn) is taken as it is.
+func drawFigures(jobs []figureJob, files bool, built func(figs []Figure, problems []string), pre *Predrawn) drawnFigures {
 	type slot struct {
 		fig       *Figure
 		err       error
@@ -89,17 +120,31 @@ func drawFigures(jobs []figureJob, files bool, built func(figs []Figure, problem
 		done      chan struct{} // closed when fig, err and panicked are set
 		svg, pngb []byte
 		fileErr   error
+		ahead     bool // drawn ahead (pre): nothing to do
 	}
 	n := len(jobs)
 	res := make([]slot, n)
 	tasks := make(chan int, 2*n) // building figure k is task k; its files, task n + k
+	var figsBuilt, wg sync.WaitGroup
+	figsBuilt.Add(n)
+	todo := 0
 	for k := range res {
 		res[k].done = make(chan struct{})
+		if e := pre.match(jobs[k]); e != nil {
+			r := &res[k]
+			r.fig, r.err, r.svg, r.pngb, r.fileErr, r.ahead = e.fig, e.err, e.svg, e.pngb, e.fileErr, true
+			close(r.done)
+			figsBuilt.Done()
+			continue
+		}
 		tasks <- k
+		todo++
 	}
 	if files {
 		for k := range n {
-			tasks <- n + k
+			if !res[k].ahead {
+				tasks <- n + k
+			}
 		}
 	}
 	close(tasks)
@@ -113,7 +158,7 @@ func drawFigures(jobs []figureJob, files bool, built func(figs []Figure, problem
 		for k := range res {
 			select {
 			case <-res[k].done:
-				if fig := res[k].fig; fig != nil && fig.drawing.draw != nil {
+				if fig := res[k].fig; fig != nil && fig.drawing.draw != nil && !res[k].ahead {
 					_, legH := legendLayout(*fig)
 					size = max(size, 4*figurePixels(fig.drawing.w)*figurePixels(fig.drawing.h+legH))
 				}
@@ -123,9 +168,7 @@ func drawFigures(jobs []figureJob, files bool, built func(figs []Figure, problem
 		return size
 	}
 	var stop atomic.Bool // a figure panicked: draw no more files
-	var figsBuilt, wg sync.WaitGroup
-	figsBuilt.Add(n)
-	for w := 0; w < min(runtime.GOMAXPROCS(0), n); w++ {
+	for w := 0; w < min(runtime.GOMAXPROCS(0), todo); w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
@@ -140,7 +183,7 @@ func drawFigures(jobs []figureJob, files bool, built func(figs []Figure, problem
 							close(res[t].done)
 							figsBuilt.Done()
 						}()
-						res[t].fig, res[t].err = jobs[t]()
+						res[t].fig, res[t].err = jobs[t].build(jobs[t].view)
 					}()
 					continue
 				}

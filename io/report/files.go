@@ -25,7 +25,7 @@ const FigureDPI = 150
 // legend drawn under the plot (in report.html the legend is HTML beside it).
 // Like the report, they depend only on the folder's files.
 func FigureFiles(f *Folder) (map[string][]byte, []string) {
-	d := drawFigures(figureJobs(f), true, nil)
+	d := drawFigures(figureJobs(f), true, nil, nil)
 	return d.files, append(d.problems, d.fileProblems...)
 }
 

@@ -71,9 +71,15 @@ func Build(f *Folder) ([]byte, error) {
 // called one after the other, in about half the time. The HTML is made
 // while the figure files are drawn.
 func BuildWithFiles(f *Folder) (html []byte, files map[string][]byte, err error) {
+	return BuildWithPredrawn(f, nil)
+}
+
+// BuildWithPredrawn is BuildWithFiles taking from pre the figures drawn
+// ahead for the same inputs as f gives them (Predrawn): the same bytes.
+func BuildWithPredrawn(f *Folder, pre *Predrawn) (html []byte, files map[string][]byte, err error) {
 	d := drawFigures(figureJobs(f), true, func(figs []Figure, problems []string) {
 		html, err = buildFrom(f, figs, problems)
-	})
+	}, pre)
 	if err != nil {
 		return nil, nil, err
 	}

@@ -3,7 +3,6 @@ package report
 import (
 	"math"
 	"runtime"
-	"slices"
 	"strconv"
 	"sync"
 
@@ -43,6 +42,62 @@ func MapsCSV(axis, times []float64, experiment []int, mats []MapMatrix) []byte {
 // axis value or time that is not a number): Load then reads it and says why.
 // The matrices' At are called from several goroutines at once.
 func FormatMaps(axis, times []float64, experiment []int, mats []MapMatrix) ([]byte, *Maps) {
+	return JoinMaps(FormatMapsPart(axis, times, experiment, mats, 0))
+}
+
+// MapsPart is maps.csv for some of its matrices, to be joined with the
+// parts of the others (JoinMaps): a run formats each part as soon as its
+// matrices are final.
+type MapsPart struct {
+	head   []byte   // the header line
+	blocks [][]byte // the matrices' lines, in order
+	maps   *Maps    // what Load reads back from them; nil as for FormatMaps
+}
+
+// JoinMaps is maps.csv of the parts' matrices in the order given, the
+// header of the first part (every part of one file has the same), with
+// the Maps read back from it: FormatMaps of all their matrices at once.
+func JoinMaps(parts ...MapsPart) ([]byte, *Maps) {
+	if len(parts) == 0 {
+		return nil, nil
+	}
+	n := len(parts[0].head)
+	for _, p := range parts {
+		for _, blk := range p.blocks {
+			n += len(blk)
+		}
+	}
+	b := make([]byte, 0, n)
+	b = append(b, parts[0].head...)
+	m := &Maps{Matrices: map[string]*Matrix{}}
+	if parts[0].maps != nil {
+		m.Axis = parts[0].maps.Axis
+	}
+	for _, p := range parts {
+		for _, blk := range p.blocks {
+			b = append(b, blk...)
+		}
+		if p.maps == nil {
+			m = nil
+		}
+		if m != nil {
+			for name, mx := range p.maps.Matrices {
+				m.Matrices[name] = mx
+			}
+		}
+	}
+	return b, m
+}
+
+// Maps is what Load reads back from the part's lines (nil as for FormatMaps).
+func (p MapsPart) Maps() *Maps { return p.maps }
+
+// FormatMapsPart is the part of maps.csv that holds mats (JoinMaps),
+// formatted by as many goroutines as workers (GOMAXPROCS when ≤ 0).
+func FormatMapsPart(axis, times []float64, experiment []int, mats []MapMatrix, workers int) MapsPart {
+	if workers <= 0 {
+		workers = runtime.GOMAXPROCS(0)
+	}
 	rows := pick(len(times), MapTimes)
 	cols := pick(len(axis), MapPoints)
 	m := &Maps{Matrices: map[string]*Matrix{}}
@@ -75,7 +130,7 @@ func FormatMaps(axis, times []float64, experiment []int, mats []MapMatrix) ([]by
 	}
 	close(next)
 	var wg sync.WaitGroup
-	for range min(runtime.GOMAXPROCS(0), len(blocks)) {
+	for range min(workers, len(blocks)) {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
@@ -91,14 +146,6 @@ func FormatMaps(axis, times []float64, experiment []int, mats []MapMatrix) ([]by
 		}()
 	}
 	wg.Wait()
-	n := len(b)
-	for _, blk := range blocks {
-		n += len(blk)
-	}
-	b = slices.Grow(b, n-len(b))
-	for _, blk := range blocks {
-		b = append(b, blk...)
-	}
 	for l, ln := range lines {
 		if m == nil {
 			break
@@ -117,7 +164,7 @@ func FormatMaps(axis, times []float64, experiment []int, mats []MapMatrix) ([]by
 		mx.Times = append(mx.Times, ln.time)
 		mx.Rows = append(mx.Rows, ln.row)
 	}
-	return b, m
+	return MapsPart{head: b, blocks: blocks, maps: m}
 }
 
 // mapLine is one line of maps.csv as Load reads it back: the experiment,
@@ -180,6 +227,9 @@ func parseNumber(s []byte) (float64, error) {
 // MapRows are the rows (of n times) that MapsCSV shows, so that a caller
 // can keep those rows of a large matrix and let the rest go.
 func MapRows(n int) []int { return pick(n, MapTimes) }
+
+// MapCols are the points (of m) that MapsCSV shows.
+func MapCols(m int) []int { return pick(m, MapPoints) }
 
 // pick returns at most max indices of 0..n−1, evenly spaced, first and last included.
 func pick(n, max int) []int {

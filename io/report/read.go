@@ -275,6 +275,16 @@ func readTable(path string) (*Table, error) {
 	return tableOf(b)
 }
 
+// ParseTable is the table Load reads from a file name holding b.
+func ParseTable(name string, b []byte) (*Table, error) {
+	t, err := tableOf(b)
+	if err != nil {
+		return nil, err
+	}
+	t.Name = name
+	return t, nil
+}
+
 // tableOf is a CSV file's table.
 func tableOf(b []byte) (*Table, error) {
 	recs, err := parseCSV(b)

@@ -1,0 +1,312 @@
+package pipeline
+
+import (
+	"encoding/json"
+	"math"
+
+	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/io/report"
+	"github.com/bandsolve/bandsolve/mcr"
+)
+
+// ahead draws the report's figures while the run still computes: each as
+// soon as its inputs are known (the data maps when the factor analysis
+// begins, the singular values when it ends, the EFA curves beside the
+// resolution, the residuals and the iterations after it), on one goroutine
+// of its own, which takes a core the computation leaves idle for part of
+// each phase (the factor analysis keeps 1.56 of 2 busy, the resolution
+// 1.63). Only the uniqueness ranges' and the kinetics' figures, spectra
+// and profiles, are left for the report. It also formats the parts of
+// maps.csv the figures are drawn from.
+//
+// Nothing drawn ahead is trusted as it is: the report takes a figure only
+// where the folder it is built from gives that figure the same inputs
+// (report.Predrawn), and maps.csv is joined from its parts only where the
+// matrices still hold the values the parts were formatted from
+// (aheadMaps). So the folder's bytes are those the report would give
+// alone, whatever the run changed after a figure was drawn; a figure drawn
+// for nothing costs time, not correctness. The goroutine reads only what
+// the run's goroutine hands it (copies, or values no longer written); no
+// file is written before the folder's writers write theirs.
+type ahead struct {
+	tasks chan func()
+	done  chan struct{}
+	pre   report.Predrawn // written by the goroutine, read after done
+	// data and residual are maps.csv's parts: the data and difference
+	// matrices, and the residuals.
+	data, residual *aheadMaps
+	efa            *EFAReport // the EFA drawn
+}
+
+// startAhead begins the goroutine; a nil ahead does nothing.
+func startAhead() *ahead {
+	a := &ahead{tasks: make(chan func(), 8), done: make(chan struct{})}
+	go func() {
+		defer close(a.done)
+		for t := range a.tasks {
+			t()
+		}
+	}()
+	return a
+}
+
+// add queues f, which reads only what it was given.
+func (a *ahead) add(f func()) {
+	if a != nil {
+		a.tasks <- f
+	}
+}
+
+// wait ends the goroutine once its tasks are done; no drawing outlives the
+// run. It may be called more than once.
+func (a *ahead) wait() {
+	if a == nil {
+		return
+	}
+	select {
+	case <-a.done:
+		return
+	default:
+	}
+	close(a.tasks)
+	<-a.done
+}
+
+// predrawn are the figures drawn ahead (nil without).
+func (a *ahead) predrawn() *report.Predrawn {
+	if a == nil {
+		return nil
+	}
+	a.wait()
+	return &a.pre
+}
+
+// timeUnitRecord is the line of the as-run record the figures read
+// (report.Folder.AsRun): the chosen --time-unit.
+func timeUnitRecord(s *Settings) *report.Text {
+	return &report.Text{Body: "time-unit " + s.TimeUnit}
+}
+
+// summaryAhead is the summary.json keys in s as the report reads them back
+// (an encoding and decoding, as the file's).
+func summaryAhead(s *output.Summary) *report.Summary {
+	b, err := output.JSON(s)
+	if err != nil {
+		return nil
+	}
+	var out report.Summary
+	if json.Unmarshal(b, &out) != nil {
+		return nil
+	}
+	return &out
+}
+
+// aheadData snapshots the data (and difference) matrices at maps.csv's
+// points and draws the figures of the data from them. In species mode it
+// waits for the difference spectra's map rows (kept when the factor
+// analysis lends their memory).
+func (a *ahead) aheadData(r *Result) {
+	if a == nil || a.data != nil {
+		return
+	}
+	mats := dataMatrices(r)
+	if mats == nil {
+		return
+	}
+	m := snapMaps(r, mats)
+	a.data = m
+	folder := &report.Folder{Summary: &report.Summary{Axis: r.AxisName, Mode: r.Mode.String()}, AsRun: timeUnitRecord(r.Settings)}
+	a.add(func() {
+		m.format()
+		folder.Maps = m.part.Maps()
+		a.pre.Draw(folder, "fig-absorbance", "fig-input", "fig-map")
+	})
+}
+
+// aheadSingular draws the singular values' figure once the rank is counted.
+func (a *ahead) aheadSingular(r *Result) {
+	if a == nil {
+		return
+	}
+	csv := singularTable(r.Factors, r.Rank).CSV()
+	sum := &output.Summary{RankEstimate: r.Rank.Estimate, NoiseEdge: round(r.Rank.NoiseEdge), NoiseSigma: round(r.NoiseSigma),
+		NoiseWeights: "off", NoiseSource: r.NoiseSource}
+	if weighted(r) {
+		sum.NoiseWeights = "noise"
+	}
+	a.add(func() {
+		t, err := report.ParseTable("singular_values.csv", csv)
+		if s := summaryAhead(sum); err == nil && s != nil {
+			a.pre.Draw(&report.Folder{Singular: t, Summary: s}, "fig-singular")
+		}
+	})
+}
+
+// aheadEFA draws the EFA figure from r.EFA, which is not changed once set.
+func (a *ahead) aheadEFA(r *Result) {
+	if a == nil || r.EFA == nil || r.EFA == a.efa {
+		return
+	}
+	a.efa = r.EFA
+	rep, times, exp, multi := r.EFA, r.Times, r.ExpOfRow, len(r.Experiments) > 1
+	tu := timeUnitRecord(r.Settings)
+	a.add(func() {
+		if t, err := report.ParseTable("efa.csv", efaTable(rep, times, exp, multi).CSV()); err == nil {
+			a.pre.Draw(&report.Folder{EFA: t, AsRun: tu}, "fig-efa")
+		}
+	})
+}
+
+// aheadFit draws the residuals' and the iterations' figures once the
+// resolution is done.
+func (a *ahead) aheadFit(r *Result) {
+	if a == nil || r.ALS == nil || r.D == nil {
+		return
+	}
+	m := snapMaps(r, []report.MapMatrix{residualMatrix(r)})
+	a.residual = m
+	csv := iterationsTable(r).CSV()
+	sum := &output.Summary{Axis: r.AxisName, NoiseSigma: round(r.NoiseSigma), NoiseLackOfFitPercent: round(r.NoiseLOF),
+		LackOfFitPercent: round(r.LackOfFit), Iterations: r.ALS.Iterations, Converged: r.ALS.Converged}
+	tu := timeUnitRecord(r.Settings)
+	a.add(func() {
+		m.format()
+		t, err := report.ParseTable("iterations.csv", csv)
+		s := summaryAhead(sum)
+		if err != nil || s == nil {
+			return
+		}
+		a.pre.Draw(&report.Folder{Iterations: t, Summary: s, AsRun: tu, Maps: m.part.Maps()},
+			"fig-iterations", "fig-residual-map", "fig-residual-spectrum")
+	})
+}
+
+// aheadMaps is some matrices of maps.csv at its points (rows × cols),
+// copied when the run hands them over, and their part of the file,
+// formatted by the goroutine.
+type aheadMaps struct {
+	names      []string
+	vals       [][]float64 // per matrix, row-major over rows × cols
+	rows, cols []int
+	axis       []float64
+	times      []float64
+	exp        []int
+	part       report.MapsPart
+}
+
+// snapMaps copies mats at maps.csv's points, with the axis and times.
+func snapMaps(r *Result, mats []report.MapMatrix) *aheadMaps {
+	m := &aheadMaps{rows: report.MapRows(len(r.Times)), cols: report.MapCols(len(r.Axis)),
+		axis: append([]float64(nil), r.Axis...), times: append([]float64(nil), r.Times...), exp: append([]int(nil), r.ExpOfRow...)}
+	for _, mm := range mats {
+		m.names = append(m.names, mm.Name)
+		m.vals = append(m.vals, m.at(mm))
+	}
+	return m
+}
+
+// at is mm's values at the map's points.
+func (m *aheadMaps) at(mm report.MapMatrix) []float64 {
+	v := make([]float64, 0, len(m.rows)*len(m.cols))
+	for _, i := range m.rows {
+		for _, j := range m.cols {
+			v = append(v, mm.At(i, j))
+		}
+	}
+	return v
+}
+
+// format makes the part of maps.csv, on one goroutine.
+func (m *aheadMaps) format() {
+	ri := make(map[int]int, len(m.rows))
+	for k, i := range m.rows {
+		ri[i] = k * len(m.cols)
+	}
+	cj := make(map[int]int, len(m.cols))
+	for k, j := range m.cols {
+		cj[j] = k
+	}
+	mats := make([]report.MapMatrix, len(m.names))
+	for q := range mats {
+		v := m.vals[q]
+		mats[q] = report.MapMatrix{Name: m.names[q], At: func(i, j int) float64 { return v[ri[i]+cj[j]] }}
+	}
+	m.part = report.FormatMapsPart(m.axis, m.times, m.exp, mats, 1)
+}
+
+// holds says whether mats are m's matrices with m's values, and the run's
+// axis and times m's: then m's part is theirs. Values are compared bit for
+// bit (a NaN matches the same NaN).
+func (m *aheadMaps) holds(r *Result, mats []report.MapMatrix) bool {
+	if m == nil || len(mats) != len(m.names) || !sameBits(m.axis, r.Axis) || !sameBits(m.times, r.Times) || len(m.exp) != len(r.ExpOfRow) {
+		return false
+	}
+	for i, e := range m.exp {
+		if r.ExpOfRow[i] != e {
+			return false
+		}
+	}
+	for q, mm := range mats {
+		if mm.Name != m.names[q] || !sameBits(m.vals[q], m.at(mm)) {
+			return false
+		}
+	}
+	return true
+}
+
+func sameBits(a, b []float64) bool {
+	if len(a) != len(b) {
+		return false
+	}
+	for i := range a {
+		if math.Float64bits(a[i]) != math.Float64bits(b[i]) {
+			return false
+		}
+	}
+	return true
+}
+
+// mapsFile is maps.csv joined from the parts formatted ahead, when the
+// run's matrices still hold their values (ok false otherwise: formatMaps
+// makes it).
+func (a *ahead) mapsFile(r *Result) (mapsFile, bool) {
+	if a == nil || a.data == nil {
+		return mapsFile{}, false
+	}
+	a.wait()
+	data := dataMatrices(r)
+	if data == nil || !a.data.holds(r, data) {
+		return mapsFile{}, false
+	}
+	if r.ALS == nil {
+		if a.residual != nil {
+			return mapsFile{}, false
+		}
+		b, m := report.JoinMaps(a.data.part)
+		return mapsFile{csv: b, maps: m}, true
+	}
+	if !a.residual.holds(r, []report.MapMatrix{residualMatrix(r)}) {
+		return mapsFile{}, false
+	}
+	b, m := report.JoinMaps(a.data.part, a.residual.part)
+	return mapsFile{csv: b, maps: m}, true
+}
+
+// dataMatrices are the data and difference matrices of maps.csv as
+// formatMaps gives them when the difference is known without stacking the
+// experiments' own (its map rows kept, or reactions mode, where the data
+// are the differences); nil otherwise.
+func dataMatrices(r *Result) []report.MapMatrix {
+	if r.D == nil {
+		return nil
+	}
+	mats := []report.MapMatrix{{Name: "data", At: r.D.At}}
+	switch {
+	case r.diffMapRows != nil:
+		rows := r.diffMapRows
+		mats = append(mats, report.MapMatrix{Name: "difference", At: func(i, j int) float64 { return rows[i][j] }})
+	case r.Mode != mcr.Reactions:
+		return nil
+	}
+	return mats
+}

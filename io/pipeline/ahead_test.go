@@ -1,0 +1,104 @@
+package pipeline
+
+import (
+	"bytes"
+	"io"
+	"os"
+	"path/filepath"
+	"slices"
+	"testing"
+
+	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/io/report"
+)
+
+// sameAsFromFiles checks that the folder out holds the report and figure
+// files its own files give (report.BuildDir and report.FigureFiles, which
+// draw everything from the folder alone: the reference), and maps.csv as
+// formatMaps makes it from the result in one pass.
+func sameAsFromFiles(t *testing.T, r *Result, out string) {
+	t.Helper()
+	written, err := os.ReadFile(filepath.Join(out, "report.html"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rebuilt, err := report.BuildDir(out); err != nil || !bytes.Equal(written, rebuilt) {
+		t.Fatalf("report.html differs from the one its folder gives (%v)", err)
+	}
+	f, err := report.Load(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	files, _ := report.FigureFiles(f)
+	for name, b := range files {
+		if got, err := os.ReadFile(filepath.Join(out, name)); err != nil || !bytes.Equal(got, b) {
+			t.Errorf("%s differs from the one its folder gives (%v)", name, err)
+		}
+	}
+	maps, err := os.ReadFile(filepath.Join(out, report.MapsFile))
+	if err != nil || !bytes.Equal(maps, formatMaps(r).csv) {
+		t.Errorf("maps.csv differs from formatMaps' (%v)", err)
+	}
+}
+
+// The figures a run draws ahead are the ones its folder gives: on the
+// demo (no baseline, nothing set aside) every figure but the two that
+// wait for the uniqueness ranges is taken from those drawn ahead, and
+// maps.csv is joined from the parts formatted ahead.
+func TestFiguresDrawnAheadOnTheDemo(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "demo")
+	r, err := Demo(out, false, true, false, Streams{Out: io.Discard, Err: io.Discard})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sameAsFromFiles(t, r, out)
+	want := []string{"fig-absorbance", "fig-input", "fig-map", "fig-singular", "fig-efa", "fig-iterations", "fig-residual-map", "fig-residual-spectrum"}
+	if got := r.ahead.pre.Taken(); !slices.Equal(got, want) {
+		t.Errorf("taken ahead %v, want %v", got, want)
+	}
+	if _, ok := r.ahead.mapsFile(r); !ok {
+		t.Error("maps.csv was not joined from the parts formatted ahead")
+	}
+}
+
+// On the real urethane series (source in realdata_test.go) a polynomial
+// baseline is subtracted from the data after their map was copied: the
+// absorbance figure and maps.csv are made again from the final data, the
+// difference spectra's figures are taken, and the folder is the one its
+// files give all the same.
+func TestFiguresDrawnAheadRedrawnWhenTheDataChange(t *testing.T) {
+	s := NewSettings()
+	s.Data, s.Kind, s.TimesFromName = []string{filepath.Join(urethaneDir, "catalyst-1.00")}, "absorbance", true
+	s.Bands, s.Checks = "off", "off" // not what is tested here; they only add time
+	s.Out, s.Quiet = filepath.Join(t.TempDir(), "out"), true
+	r, err := runForFolder(s, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.BaselineOrder < 0 {
+		t.Fatalf("no baseline chosen: the test needs data changed after the factor analysis")
+	}
+	stage, err := output.NewStage(s.Out, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := finish(r, stage, nil, Streams{Out: io.Discard}); err != nil {
+		t.Fatal(err)
+	}
+	if err := stage.Commit(); err != nil {
+		t.Fatal(err)
+	}
+	sameAsFromFiles(t, r, s.Out)
+	taken := r.ahead.pre.Taken()
+	if slices.Contains(taken, "fig-absorbance") {
+		t.Error("the absorbance figure drawn before the baseline was subtracted was taken")
+	}
+	for _, id := range []string{"fig-input", "fig-map", "fig-singular", "fig-residual-map"} {
+		if !slices.Contains(taken, id) {
+			t.Errorf("%s was not taken (taken %v)", id, taken)
+		}
+	}
+	if _, ok := r.ahead.mapsFile(r); ok {
+		t.Error("maps.csv joined from data copied before the baseline was subtracted")
+	}
+}

@@ -1,0 +1,101 @@
+package report
+
+import (
+	"reflect"
+	"slices"
+)
+
+// Predrawn holds figures drawn ahead of the folder they belong to, with
+// their files. A run knows most figures' inputs long before its folder is
+// written (the data maps and the singular values after the factor
+// analysis, the residuals after the resolution) and draws each then, on a
+// core the computation leaves idle (Draw, on a partial Folder); the report
+// takes a figure drawn ahead (BuildWithPredrawn) only where the folder
+// gives it the same view, every part of the folder the figure reads, so
+// that it is the figure the folder itself would give. The rest are drawn
+// with the report, as before.
+//
+// A Predrawn is used by one goroutine at a time.
+type Predrawn struct {
+	figs    map[string]*predrawn
+	scratch fileScratch
+	taken   []string // the figures a report took, in reading order
+}
+
+// predrawn is one figure drawn ahead: its view, what building it gave, and
+// its files.
+type predrawn struct {
+	view      *Folder
+	fig       *Figure
+	err       error
+	svg, pngb []byte
+	fileErr   error
+}
+
+// Draw draws the figures named in ids that the partial folder f holds the
+// inputs of, with their files, and keeps them (in place of any drawn before
+// under the same name). A figure whose building panics is not kept: the
+// report builds it again and meets the panic where it did before.
+func (p *Predrawn) Draw(f *Folder, ids ...string) {
+	for _, j := range figureJobs(f) {
+		if !slices.Contains(ids, j.id) {
+			continue
+		}
+		if e := predraw(j, &p.scratch); e != nil {
+			if p.figs == nil {
+				p.figs = map[string]*predrawn{}
+			}
+			p.figs[j.id] = e
+		}
+	}
+}
+
+// Taken lists the names of the figures drawn ahead that the report took
+// (BuildWithPredrawn), in reading order.
+func (p *Predrawn) Taken() []string {
+	if p == nil {
+		return nil
+	}
+	return p.taken
+}
+
+// Drawn lists the names of the figures drawn ahead, sorted.
+func (p *Predrawn) Drawn() []string {
+	var ids []string
+	if p != nil {
+		for id := range p.figs {
+			ids = append(ids, id)
+		}
+	}
+	slices.Sort(ids)
+	return ids
+}
+
+func predraw(j figureJob, s *fileScratch) (e *predrawn) {
+	defer func() {
+		if recover() != nil {
+			e = nil
+		}
+	}()
+	e = &predrawn{view: j.view}
+	e.fig, e.err = j.build(j.view)
+	if e.fig != nil && e.fig.drawing.draw != nil {
+		e.svg, e.pngb, e.fileErr = standalone(*e.fig, s)
+	}
+	return e
+}
+
+// match is the figure drawn ahead for job, nil when there is none or its
+// view differs from the job's. Values are compared as reflect.DeepEqual
+// does: a NaN in a view never matches, and the figure is drawn again.
+func (p *Predrawn) match(job figureJob) *predrawn {
+	if p == nil {
+		return nil
+	}
+	e := p.figs[job.id]
+	if e == nil || !reflect.DeepEqual(e.view, job.view) {
+		return nil
+	}
+	p.taken = append(p.taken, job.id)
+	return e
+}
