@@ -179,3 +179,31 @@ func TestResidualRowIsItsDefinition(t *testing.T) {
 		}
 	}
 }
+
+// transpose gives aᵀ: every entry of gonum's transposed view a.T() (the
+// reference library's definition), bit for bit, for a matrix held in a wider
+// one (stride past its columns) and with a NaN among the values.
+func TestTransposeIsGonumsView(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 5))
+	for _, sh := range [][2]int{{1, 1}, {5, 37}, {37, 5}, {6, 6}} {
+		wide := mat.NewDense(sh[0], sh[1]+2, nil)
+		for i := 0; i < sh[0]; i++ {
+			for j := 0; j < sh[1]+2; j++ {
+				wide.Set(i, j, rng.NormFloat64())
+			}
+		}
+		wide.Set(sh[0]-1, 0, math.NaN())
+		a := wide.Slice(0, sh[0], 0, sh[1]).(*mat.Dense)
+		got, want := transpose(a), a.T()
+		if r, c := got.Dims(); r != sh[1] || c != sh[0] {
+			t.Fatalf("%v: transpose is %d × %d", sh, r, c)
+		}
+		for i := 0; i < sh[1]; i++ {
+			for j := 0; j < sh[0]; j++ {
+				if math.Float64bits(got.At(i, j)) != math.Float64bits(want.At(i, j)) {
+					t.Fatalf("%v: entry (%d, %d) %v, a.T() %v", sh, i, j, got.At(i, j), want.At(i, j))
+				}
+			}
+		}
+	}
+}
