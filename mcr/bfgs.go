@@ -19,6 +19,14 @@ import "math"
 // by orders of magnitude at every iteration, and backtracking from 1 then
 // spends most of the evaluations.
 //
+// With interpolate a rejected trial step α is followed by the minimiser
+// of the quadratic through f(x), the slope along the direction and the
+// trial value, kept within [α/10, α/2], instead of α/2 (Dennis & Schnabel,
+// Numerical Methods for Unconstrained Optimization and Nonlinear
+// Equations, 1983, §6.3.2; Nocedal & Wright §3.5): where the trial value
+// shows the step overshot by far, the next trial comes back in one step
+// instead of several halvings, and where it only just failed, nearer to it.
+//
 // It stops when three iterations in a row lower f by less than stall
 // relative to |f| (a stalled search), when the gradient vanishes, when the
 // line search finds no decrease, or after maxEval evaluations.
@@ -27,7 +35,8 @@ import "math"
 // (f.gradient after f.value there): Armijo backtracking decides on values
 // alone, and on the range searches it rejects more trial points than it
 // accepts.
-func minimiseBFGS(f smoothObjective, x0 []float64, maxEval int, carryStep bool, stall float64) ([]float64, float64, int) {
+func minimiseBFGS(f smoothObjective, x0 []float64, o bfgsOptions) ([]float64, float64, int) {
+	maxEval, stall := o.maxEval, o.stall
 	n := len(x0)
 	x := append([]float64(nil), x0...)
 	g := make([]float64, n)
@@ -81,7 +90,7 @@ func minimiseBFGS(f smoothObjective, x0 []float64, maxEval int, carryStep bool, 
 		}
 		fresh = false
 		step, accepted := 1.0, false
-		if carryStep {
+		if o.carryStep {
 			step = math.Min(1, 2*lastStep)
 		}
 		var fn float64
@@ -96,7 +105,7 @@ func minimiseBFGS(f smoothObjective, x0 []float64, maxEval int, carryStep bool, 
 				accepted = true
 				break
 			}
-			step *= 0.5
+			step = nextStep(step, slope, fx, fn, o.interpolate)
 		}
 		if !accepted {
 			break
@@ -142,6 +151,33 @@ func minimiseBFGS(f smoothObjective, x0 []float64, maxEval int, carryStep bool, 
 		}
 	}
 	return x, fx, evals
+}
+
+// bfgsOptions are minimiseBFGS's settings: the evaluations it may use, the
+// line search's first trial (carryStep) and its backtracking
+// (interpolate), and the relative decrease below which an iteration counts
+// as stalled.
+type bfgsOptions struct {
+	maxEval                int
+	carryStep, interpolate bool
+	stall                  float64
+}
+
+// nextStep is the line search's next trial after step was rejected with
+// value fn, from fx with the given slope (< 0) along the direction: half
+// of it, or with interpolate the minimiser of the quadratic q(0) = fx,
+// q'(0) = slope, q(step) = fn, within [step/10, step/2] (see
+// minimiseBFGS). A quadratic without a minimum (curvature ≤ 0, or fn not
+// finite) gives half.
+func nextStep(step, slope, fx, fn float64, interpolate bool) float64 {
+	if !interpolate {
+		return step / 2
+	}
+	next := step / 2
+	if curv := 2 * (fn - fx - slope*step); curv > 0 && !math.IsInf(curv, 0) {
+		next = -slope * step * step / curv
+	}
+	return math.Max(step/10, math.Min(step/2, next))
 }
 
 // smoothObjective is a function minimiseBFGS minimises: value at x, and
