@@ -249,6 +249,7 @@ type bandProblem struct {
 	wc, ws []float64 // 1/‖c_j‖², 1/‖s_j‖² at the given solution
 	norm   float64   // ‖C Sᵀ‖_F
 	allow  float64   // rise of the residual allowed (0: exact fit)
+	base   *bandBase // shared by the searches (newWork)
 	work   *bandWork
 }
 
@@ -510,17 +511,7 @@ func (p *bandProblem) violation(a, b *mat.Dense) float64 {
 // the allowance by about 1/(2μ) of it, well inside Tolerance. That stage's
 // line search starts from the last accepted step (minimiseBFGS): from the
 // full step it used its whole budget backtracking on the kinks, and now
-// ends converged in a quarter of it (docs/performance.md). It backtracks
-// by quadratic interpolation (minimiseBFGS): on the same benchmark its
-// evaluations fell by a quarter (672 → 501), and on it, the demo and the
-// urethane series 12 of the 18 range ends that moved went outwards, by up
-// to 3.5·10⁻³ of f_j (the urethane series, whose ends a search run to
-// 10⁻¹⁵ with sixteen times the budget carries up to 2.5 % further), the
-// other six inwards by at most 3.8·10⁻⁶ of f_j.
-// The exact-fit stages keep halving: from the solution the first of them
-// (μ = 10²) interpolated its way into a far region where components cancel
-// and whose rotations the stiffer stages then rejected, on the
-// three-component data of TestBandsWideAndContainTruth.
+// ends converged in a quarter of it (docs/performance.md).
 //
 // The exact-fit extreme is then only that stage's start, and its sequence
 // stops at the first stage ending feasible, converged or not (stages'
@@ -537,6 +528,17 @@ func (p *bandProblem) violation(a, b *mat.Dense) float64 {
 // a quarter of all evaluations (1396 → 1069); the ranges moved by at most
 // 1.4·10⁻⁷ of f_j, where a search run to 10⁻¹⁵ with sixteen times the
 // budget lies 2·10⁻⁶ beyond them (docs/performance.md).
+//
+// The noise stage backtracks by quadratic interpolation (minimiseBFGS):
+// on that benchmark its evaluations fell by a quarter (672 → 501), and on
+// it, the demo and the urethane series 12 of the 18 range ends that moved
+// went outwards, by up to 3.5·10⁻³ of f_j (the urethane series, whose ends
+// a search run to 10⁻¹⁵ with sixteen times the budget carries up to 2.5 %
+// further), the other six inwards by at most 3.8·10⁻⁶ of f_j. The
+// exact-fit stages keep halving: from the solution the first of them
+// (μ = 10²) interpolated its way into a far region where components cancel
+// and whose rotations the stiffer stages then rejected, on the
+// three-component data of TestBandsWideAndContainTruth.
 func (p *bandProblem) extreme(j int, sign float64) ([]float64, float64, bool, int) {
 	theta := make([]float64, len(p.free))
 	if len(theta) == 0 {

@@ -27,28 +27,69 @@ type bandWork struct {
 	memo          rotMemo   // the last rotation formed whole (rotate)
 }
 
-func (p *bandProblem) newWork() {
+// bandBase is what every search of one FeasibleBands call reads and none
+// writes: the row-major profiles and spectra, their Gram matrices, the zero
+// windows, the rows' norms and, for rotatedPanels, the rows in panels. It
+// is formed once, at the first newWork, and shared by the searches that
+// run on several goroutines; each search's own buffers are its bandWork.
+type bandBase struct {
+	c, s         []float64 // n × k, m × k
+	gc, gs       []float64 // CᵀC, SᵀS
+	zeroC, zeroS []bool
+	normC, normS []float64 // ‖c_i‖, ‖s_i‖
+	xpC, xpS     []float64 // rowPanels of c and s; nil without havePanels
+}
+
+func (p *bandProblem) newBase() *bandBase {
 	n, m, k := p.n, p.m, p.k
+	b := &bandBase{c: rawCopy(p.c), s: rawCopy(p.s), gc: make([]float64, k*k), gs: make([]float64, k*k)}
+	gramCross(b.gc, b.c, b.c, k)
+	gramCross(b.gs, b.s, b.s, k)
+	b.zeroC = rawMask(p.opt.ZeroProfiles, n, k)
+	b.zeroS = rawMask(p.opt.ZeroSpectra, m, k)
+	b.normC, b.normS = rowNorms(b.c, k), rowNorms(b.s, k)
+	if havePanels && k <= 16 {
+		if n >= 4 {
+			b.xpC = rowPanels(b.c, k)
+		}
+		if m >= 4 {
+			b.xpS = rowPanels(b.s, k)
+		}
+	}
+	return b
+}
+
+// rowNorms returns ‖x_i‖ for the rows of x (row-major, k columns).
+func rowNorms(x []float64, k int) []float64 {
+	out := make([]float64, len(x)/k)
+	for i := range out {
+		xr := x[i*k : i*k+k]
+		out[i] = math.Sqrt(dot(xr, xr))
+	}
+	return out
+}
+
+func (p *bandProblem) newWork() {
+	k := p.k
+	if p.base == nil {
+		p.base = p.newBase()
+	}
+	b := p.base
 	w := &bandWork{
-		c: rawCopy(p.c), s: rawCopy(p.s),
+		c: b.c, s: b.s, gc: b.gc, gs: b.gs, zeroC: b.zeroC, zeroS: b.zeroS,
 		t: make([]float64, k*k), inv: make([]float64, k*k), tinvT: make([]float64, k*k), lu: make([]float64, k*k),
 		gx: make([]float64, 4*k*k), gy: make([]float64, 4*k*k),
 		gt: make([]float64, k*k), gbB: make([]float64, k*k),
 		piv: make([]int, k),
 	}
-	w.gc, w.gs = make([]float64, k*k), make([]float64, k*k)
 	for q := range w.sq {
 		w.sq[q] = make([]float64, k*k)
 	}
 	for q := range w.vec {
 		w.vec[q] = make([]float64, k)
 	}
-	gramCross(w.gc, w.c, w.c, k)
-	gramCross(w.gs, w.s, w.s, k)
-	w.zeroC = rawMask(p.opt.ZeroProfiles, n, k)
-	w.zeroS = rawMask(p.opt.ZeroSpectra, m, k)
-	w.sideC = newMarginSide(w.c, k, p.nnC, w.zeroC)
-	w.sideS = newMarginSide(w.s, k, p.nnS, w.zeroS)
+	w.sideC = newMarginSide(b.c, b.normC, b.xpC, k, p.nnC, b.zeroC)
+	w.sideS = newMarginSide(b.s, b.normS, b.xpS, k, p.nnS, b.zeroS)
 	p.work = w
 }
 
@@ -356,6 +397,7 @@ func gramCross(out, x, y []float64, k int) {
 // sorting cost more than the scan; the grouping is linear.)
 type marginSide struct {
 	x     []float64 // rows × k
+	xp    []float64 // x in panels (rowPanels), or nil
 	k     int
 	nn    []bool
 	zero  []bool
@@ -388,16 +430,14 @@ type marginSide struct {
 // 2⁴⁰ between the largest and the smallest one kept apart.
 const groups = 40
 
-func newMarginSide(x []float64, k int, nn, zero []bool) *marginSide {
-	rows := len(x) / k
-	ms := &marginSide{x: x, k: k, nn: nn, zero: zero, norm: make([]float64, rows),
+// newMarginSide returns the marginSide of x (rows × k), whose rows' norms
+// and panels (rowPanels, or nil) are given and which none of the three
+// changes.
+func newMarginSide(x, norm, xp []float64, k int, nn, zero []bool) *marginSide {
+	ms := &marginSide{x: x, xp: xp, k: k, nn: nn, zero: zero, norm: norm,
 		ref: make([]float64, k*k), ratio: make([]float64, len(x)), gx: make([]float64, k*k), delta: make([]float64, k),
 		vt: make([]float64, k*k), row: make([]float64, k), rows: make([]int32, 0, len(x)), start: make([]int32, k*(groups+2)), next: make([]int32, groups+2), tag: make([]int32, len(x)/k),
 		exp: make([]int, k), hit: make([]uint64, (len(x)+63)/64), val: make([]float64, len(x))}
-	for i := 0; i < rows; i++ {
-		xr := x[i*k : i*k+k]
-		ms.norm[i] = math.Sqrt(dot(xr, xr))
-	}
 	return ms
 }
 
@@ -911,8 +951,8 @@ func (cr *clippedRows) form(ms *marginSide, v []float64) {
 		for j := range cr.nn {
 			cr.nn[j] = b2u(ms.nn[j])
 		}
-		if havePanels && k <= 16 && rows >= 4 {
-			cr.xp, cr.nnm = rowPanels(ms.x, k), make([]uint64, k)
+		if ms.xp != nil {
+			cr.xp, cr.nnm = ms.xp, make([]uint64, k)
 			for j := range cr.nnm {
 				cr.nnm[j] = -cr.nn[j]
 			}
