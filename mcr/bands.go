@@ -182,10 +182,11 @@ type bandEnd struct {
 }
 
 // allExtremes searches the 2k ends (component j's minimum at 2j, maximum at
-// 2j+1) on up to GOMAXPROCS workers. Each search starts from a fresh copy of
-// the problem with its own work buffers, so its result depends on nothing
-// but (j, sign): the ranges are the same bytes whatever the number of
-// workers or the order they run in.
+// 2j+1) on up to GOMAXPROCS workers. Each worker has its own copy of the
+// problem and work buffers, and each search starts from them reset
+// (bandWork.reset) as a fresh copy would be, so its result depends on
+// nothing but (j, sign): the ranges are the same bytes whatever the number
+// of workers or the order they run in.
 func (p *bandProblem) allExtremes() ([]bandEnd, error) {
 	ends := make([]bandEnd, 2*p.k)
 	var next atomic.Int64
@@ -194,9 +195,10 @@ func (p *bandProblem) allExtremes() ([]bandEnd, error) {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
+			q := *p
+			q.newWork()
 			for t := int(next.Add(1)) - 1; t < len(ends); t = int(next.Add(1)) - 1 {
-				q := *p
-				q.newWork()
+				q.work.reset()
 				sign := 1.0
 				if t%2 == 1 {
 					sign = -1
