@@ -163,7 +163,7 @@ func (a *ahead) aheadFit(r *Result) {
 	if a == nil || r.ALS == nil || r.D == nil {
 		return
 	}
-	m := snapMaps(r, []report.MapMatrix{residualMatrix(r)})
+	m := snapMaps(r, []mapSource{residualSource(r)})
 	a.residual = m
 	csv := iterationsTable(r).CSV()
 	sum := &output.Summary{Axis: r.AxisName, NoiseSigma: round(r.NoiseSigma), NoiseLackOfFitPercent: round(r.NoiseLOF),
@@ -194,24 +194,29 @@ type aheadMaps struct {
 	part       report.MapsPart
 }
 
+// mapSource is a matrix of maps.csv read a row at a time: fill appends
+// row i's values at cols to dst, the values its MapMatrix's At gives.
+type mapSource struct {
+	name string
+	fill func(dst []float64, i int, cols []int) []float64
+}
+
 // snapMaps copies mats at maps.csv's points, with the axis and times.
-func snapMaps(r *Result, mats []report.MapMatrix) *aheadMaps {
+func snapMaps(r *Result, mats []mapSource) *aheadMaps {
 	m := &aheadMaps{rows: report.MapRows(len(r.Times)), cols: report.MapCols(len(r.Axis)),
 		axis: append([]float64(nil), r.Axis...), times: append([]float64(nil), r.Times...), exp: append([]int(nil), r.ExpOfRow...)}
 	for _, mm := range mats {
-		m.names = append(m.names, mm.Name)
+		m.names = append(m.names, mm.name)
 		m.vals = append(m.vals, m.at(mm))
 	}
 	return m
 }
 
 // at is mm's values at the map's points.
-func (m *aheadMaps) at(mm report.MapMatrix) []float64 {
+func (m *aheadMaps) at(mm mapSource) []float64 {
 	v := make([]float64, 0, len(m.rows)*len(m.cols))
 	for _, i := range m.rows {
-		for _, j := range m.cols {
-			v = append(v, mm.At(i, j))
-		}
+		v = mm.fill(v, i, m.cols)
 	}
 	return v
 }
@@ -237,7 +242,7 @@ func (m *aheadMaps) format() {
 // holds says whether mats are m's matrices with m's values, and the run's
 // axis and times m's: then m's part is theirs. Values are compared bit for
 // bit (a NaN matches the same NaN).
-func (m *aheadMaps) holds(r *Result, mats []report.MapMatrix) bool {
+func (m *aheadMaps) holds(r *Result, mats []mapSource) bool {
 	if m == nil || len(mats) != len(m.names) || !sameBits(m.axis, r.Axis) || !sameBits(m.times, r.Times) || len(m.exp) != len(r.ExpOfRow) {
 		return false
 	}
@@ -247,7 +252,7 @@ func (m *aheadMaps) holds(r *Result, mats []report.MapMatrix) bool {
 		}
 	}
 	for q, mm := range mats {
-		if mm.Name != m.names[q] || !sameBits(m.vals[q], m.at(mm)) {
+		if mm.name != m.names[q] || !sameBits(m.vals[q], m.at(mm)) {
 			return false
 		}
 	}
@@ -285,7 +290,7 @@ func (a *ahead) mapsFile(r *Result) (mapsFile, bool) {
 		b, m := report.JoinMaps(a.data.part)
 		return mapsFile{csv: b, maps: m}, true
 	}
-	if !a.residual.holds(r, []report.MapMatrix{residualMatrix(r)}) {
+	if !a.residual.holds(r, []mapSource{residualSource(r)}) {
 		return mapsFile{}, false
 	}
 	b, m := report.JoinMaps(a.data.part, a.residual.part)
@@ -293,20 +298,45 @@ func (a *ahead) mapsFile(r *Result) (mapsFile, bool) {
 }
 
 // dataMatrices are the data and difference matrices of maps.csv as
-// formatMaps gives them when the difference is known without stacking the
+// mapMatrices gives them when the difference is known without stacking the
 // experiments' own (its map rows kept, or reactions mode, where the data
 // are the differences); nil otherwise.
-func dataMatrices(r *Result) []report.MapMatrix {
+func dataMatrices(r *Result) []mapSource {
 	if r.D == nil {
 		return nil
 	}
-	mats := []report.MapMatrix{{Name: "data", At: r.D.At}}
+	d := r.D
+	mats := []mapSource{{name: "data", fill: func(dst []float64, i int, cols []int) []float64 {
+		row := d.RawRowView(i)
+		for _, j := range cols {
+			dst = append(dst, row[j])
+		}
+		return dst
+	}}}
 	switch {
 	case r.diffMapRows != nil:
 		rows := r.diffMapRows
-		mats = append(mats, report.MapMatrix{Name: "difference", At: func(i, j int) float64 { return rows[i][j] }})
+		mats = append(mats, mapSource{name: "difference", fill: func(dst []float64, i int, cols []int) []float64 {
+			row := rows[i]
+			for _, j := range cols {
+				dst = append(dst, row[j])
+			}
+			return dst
+		}})
 	case r.Mode != mcr.Reactions:
 		return nil
 	}
 	return mats
+}
+
+// residualSource is residualMatrix read a row at a time.
+func residualSource(r *Result) mapSource {
+	d, c, s := r.D, r.ALS.C, r.ALS.S
+	return mapSource{name: "residual", fill: func(dst []float64, i int, cols []int) []float64 {
+		drow, crow := d.RawRowView(i), c.RawRowView(i)
+		for _, j := range cols {
+			dst = append(dst, residualAt(drow, crow, s.RawRowView(j), j))
+		}
+		return dst
+	}}
 }

@@ -18,13 +18,6 @@ func startLater[T any](f func() T) *later[T] {
 	return l
 }
 
-// ready is a later whose value is v already.
-func ready[T any](v T) *later[T] {
-	l := &later[T]{done: make(chan struct{}), v: v}
-	close(l.done)
-	return l
-}
-
 // get waits for the value; ok is false for a nil later.
 func (l *later[T]) get() (v T, ok bool) {
 	if l == nil {
@@ -55,11 +48,12 @@ type mapsFile struct {
 func startEarlyFiles(r *Result) earlyFiles {
 	var e earlyFiles
 	if wantMaps(r) {
-		if f, ok := r.ahead.mapsFile(r); ok {
-			e.maps = ready(f)
-		} else {
-			e.maps = startLater(func() mapsFile { return formatMaps(r) })
-		}
+		e.maps = startLater(func() mapsFile {
+			if f, ok := r.ahead.mapsFile(r); ok {
+				return f // joined from the parts formatted ahead
+			}
+			return formatMaps(r)
+		})
 	}
 	if wantBands(r) {
 		e.bands = startLater(func() []byte { return bandsCSV(r) })

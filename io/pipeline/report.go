@@ -63,14 +63,20 @@ func mapMatrices(r *Result) []report.MapMatrix {
 // keeps rather than stored for the whole matrix.
 func residualMatrix(r *Result) report.MapMatrix {
 	d, c, s := r.D, r.ALS.C, r.ALS.S
-	_, k := c.Dims()
 	return report.MapMatrix{Name: "residual", At: func(i, j int) float64 {
-		v := d.At(i, j)
-		for q := 0; q < k; q++ {
-			v -= c.At(i, q) * s.At(j, q)
-		}
-		return v
+		return residualAt(d.RawRowView(i), c.RawRowView(i), s.RawRowView(j), j)
 	}}
+}
+
+// residualAt is the residual at point j of the row of D drow whose row of
+// C is crow, with srow the row of S at j: d − Σ_q c_q s_q, subtracted in
+// the order of q (residualSource reads the same values a row at a time).
+func residualAt(drow, crow, srow []float64, j int) float64 {
+	v := drow[j]
+	for q, cq := range crow {
+		v -= cq * srow[q]
+	}
+	return v
 }
 
 // differenceMatrix stacks the experiments' difference spectra when the

@@ -424,6 +424,8 @@ func (r raster) Plot(c draw.Canvas, p *plot.Plot) {
 	switch cv := baseCanvas(c).(type) {
 	case *vgsvg.Canvas:
 		cv.DrawImage(rect, r.pal)
+	case *svgCanvas:
+		cv.Canvas.DrawImage(rect, r.pal)
 	case *pixelCanvas:
 		cv.paint(rect, r.pal)
 	default:
@@ -516,13 +518,32 @@ func render(p, bar *plot.Plot, w, h vg.Length) (svg string, dr drawing, err erro
 			p.Draw(dc)
 		}
 	}}
-	c := vgsvg.New(w, h)
-	dr.draw(draw.New(c))
+	s, ok, err := drawSVG(dr, true)
+	if err == nil && !ok {
+		s, _, err = drawSVG(dr, false)
+	}
+	if err != nil {
+		return "", dr, err
+	}
+	return cleanSVG(s), dr, nil
+}
+
+// drawSVG writes the drawing as SVG, with the long paths' data formatted
+// by svgCanvas when held; ok is false when they could not be put in place
+// (svgCanvas.fill), and the drawing must be written again without.
+func drawSVG(dr drawing, held bool) (s string, ok bool, err error) {
+	c := &svgCanvas{Canvas: vgsvg.New(dr.w, dr.h)}
+	var cv vg.CanvasSizer = c
+	if !held {
+		cv = c.Canvas
+	}
+	dr.draw(draw.New(cv))
 	var b bytes.Buffer
 	if _, err := c.WriteTo(&b); err != nil {
-		return "", dr, fmt.Errorf("writing SVG: %w", err)
+		return "", false, fmt.Errorf("writing SVG: %w", err)
 	}
-	return cleanSVG(b.String()), dr, nil
+	s, ok = c.fill(b.String())
+	return s, ok, nil
 }
 
 func cleanSVG(s string) string {

@@ -1,0 +1,86 @@
+package report
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"strings"
+	"testing"
+
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
+	"gonum.org/v1/plot/vg/vgsvg"
+)
+
+// appendPathData writes what vgsvg writes for a path of moves, lines and
+// closes: each coordinate as fmt's "%.*g" at vgsvg's 5 digits (the
+// reference: fmt itself, as vgsvg.Canvas.pathData calls it), over values
+// of every size and sign, ties of the fifth digit included.
+func TestPathDataIsFmts(t *testing.T) {
+	rng := rand.New(rand.NewPCG(1, 2))
+	var p vg.Path
+	var want strings.Builder
+	vals := []float64{0, math.Copysign(0, -1), 1, -1, 12.345, 123.455, 99999.5, 0.000123455, 1e-7, 5e21, -3.25e-300}
+	for range 2000 {
+		vals = append(vals, (rng.Float64()-0.5)*math.Pow(10, float64(rng.IntN(24)-12)), float64(rng.IntN(200000))/8)
+	}
+	for i := 0; i+1 < len(vals); i += 2 {
+		pt := vg.Point{X: vg.Length(vals[i]), Y: vg.Length(vals[i+1])}
+		switch {
+		case i%10 == 0:
+			p.Move(pt)
+			fmt.Fprintf(&want, "M%.*g,%.*g", 5, vals[i], 5, vals[i+1])
+		default:
+			p.Line(pt)
+			fmt.Fprintf(&want, "L%.*g,%.*g", 5, vals[i], 5, vals[i+1])
+		}
+		if i%14 == 0 {
+			p.Close()
+			want.WriteString("Z")
+		}
+	}
+	if got := string(appendPathData(nil, p)); got != want.String() {
+		t.Fatalf("path data differs from fmt's:\n%.200s\n%.200s", got, want.String())
+	}
+}
+
+// Every figure's SVG with the long paths' data formatted by svgCanvas is
+// the one vgsvg writes alone (the reference), and the figures with long
+// lines or bands hold them, rather than falling back.
+func TestHeldPathsAreVgsvgs(t *testing.T) {
+	f, err := Load(fixture(t, true))
+	if err != nil {
+		t.Fatal(err)
+	}
+	held := 0 // paths held over all figures
+	for _, j := range figureJobs(f) {
+		fig, err := j.build(j.view)
+		if err != nil || fig == nil {
+			continue
+		}
+		c := &svgCanvas{Canvas: vgsvg.New(fig.drawing.w, fig.drawing.h)}
+		fig.drawing.draw(draw.New(c))
+		held += len(c.held)
+		s, ok, err := drawSVG(fig.drawing, true)
+		if err != nil || !ok {
+			t.Errorf("%s: the long paths could not be held (%v)", j.id, err)
+			continue
+		}
+		plain, _, err := drawSVG(fig.drawing, false)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if s != plain {
+			t.Errorf("%s: SVG with held paths differs from vgsvg's own", j.id)
+		}
+		if cleanSVG(s) != fig.SVG {
+			t.Errorf("%s: the figure's SVG is not its drawing's", j.id)
+		}
+		if strings.Contains(plain, heldData) {
+			t.Errorf("%s: a path of its own writes the placeholder", j.id)
+		}
+	}
+	if held < 10 {
+		t.Errorf("%d paths held over all figures: the lines and bands should be", held)
+	}
+}
