@@ -17,3 +17,16 @@ func logAVX2(dst, src []float64)
 //
 //go:noescape
 func log10AVX2(dst, src []float64)
+
+// log10QuoAVX2 sets dst[i] = log10(x[i]/y[i]) four at a time, as quoAVX2
+// then log10AVX2 would, and reports whether every value set is finite;
+// len(x) is a multiple of 4 and dst and y are as long.
+//
+//go:noescape
+func log10QuoAVX2(dst, x, y []float64) (finite bool)
+
+// log10QuoMaxAVX2 is log10QuoAVX2 that also raises top[i] to dst[i] where
+// dst[i] > top[i]; top is as long as x.
+//
+//go:noescape
+func log10QuoMaxAVX2(dst, x, y, top []float64) (finite bool)

@@ -39,6 +39,10 @@ CONST4(invLn10, 0x3FDBCB7B1526E50E)   // 1/ln10 rounded, as math/log10.go
 // that routine's Go names). Y8 must be zero. Uses Y0–Y7.
 #define LOG4 \
 	VMOVUPD (SI), Y0 \
+	LOGY0
+
+// LOGY0 is LOG4 of the four doubles in Y0.
+#define LOGY0 \
 	\ // f1, ki := math.Frexp(x) by the bits; k := float64(ki)
 	VANDPD  fracMask<>(SB), Y0, Y2 \
 	VORPD   half<>(SB), Y2, Y2 \
@@ -139,5 +143,83 @@ log10Loop:
 	JNZ  log10Loop
 
 log10Done:
+	VZEROUPPER
+	RET
+
+// FINITE4 adds Y1 − Y1 to Y9: +0 for a finite value, NaN for ±Inf and NaN,
+// so Y9 stays zero in every lane only while every value has been finite.
+#define FINITE4 \
+	VSUBPD Y1, Y1, Y10 \
+	VADDPD Y10, Y9, Y9
+
+// ALLZERO9 sets ret to whether every lane of Y9 is zero (Y8 zero).
+#define ALLZERO9(ret) \
+	VCMPPD    $0, Y8, Y9, Y10 \ // EQ_OQ: false for NaN
+	VMOVMSKPD Y10, AX \
+	CMPQ      AX, $15 \
+	SETEQ     ret
+
+// func log10QuoAVX2(dst, x, y []float64) (finite bool)
+TEXT ·log10QuoAVX2(SB), NOSPLIT, $0-73
+	MOVQ dst_base+0(FP), DI
+	MOVQ x_base+24(FP), SI
+	MOVQ y_base+48(FP), DX
+	MOVQ x_len+32(FP), CX
+	VPXOR Y8, Y8, Y8
+	VPXOR Y9, Y9, Y9
+	SHRQ $2, CX
+	JZ   l10qDone
+
+l10qLoop:
+	VMOVUPD (SI), Y0
+	VDIVPD  (DX), Y0, Y0 // x / y, as quoAVX2
+	LOGY0
+	VMULPD  invLn10<>(SB), Y1, Y1 // as log10AVX2
+	VMOVUPD Y1, (DI)
+	FINITE4
+	ADDQ $32, SI
+	ADDQ $32, DX
+	ADDQ $32, DI
+	DECQ CX
+	JNZ  l10qLoop
+
+l10qDone:
+	ALLZERO9(finite+72(FP))
+	VZEROUPPER
+	RET
+
+// func log10QuoMaxAVX2(dst, x, y, top []float64) (finite bool)
+TEXT ·log10QuoMaxAVX2(SB), NOSPLIT, $0-97
+	MOVQ dst_base+0(FP), DI
+	MOVQ x_base+24(FP), SI
+	MOVQ y_base+48(FP), DX
+	MOVQ top_base+72(FP), R8
+	MOVQ x_len+32(FP), CX
+	VPXOR Y8, Y8, Y8
+	VPXOR Y9, Y9, Y9
+	SHRQ $2, CX
+	JZ   l10qmDone
+
+l10qmLoop:
+	VMOVUPD (SI), Y0
+	VDIVPD  (DX), Y0, Y0
+	LOGY0
+	VMULPD  invLn10<>(SB), Y1, Y1
+	VMOVUPD Y1, (DI)
+	FINITE4
+	// top = value > top ? value : top (MAXPD returns its second source,
+	// top, when either is NaN or both are zero): Go's if v > t { t = v }.
+	VMOVUPD (R8), Y11
+	VMAXPD  Y11, Y1, Y11
+	VMOVUPD Y11, (R8)
+	ADDQ $32, SI
+	ADDQ $32, DX
+	ADDQ $32, DI
+	ADDQ $32, R8
+	DECQ CX
+	JNZ  l10qmLoop
+
+l10qmDone:
+	ALLZERO9(finite+96(FP))
 	VZEROUPPER
 	RET

@@ -7,3 +7,11 @@ const useAVX2 = false
 
 func logAVX2(dst, src []float64)   { panic("vecmath: no vector logarithm on this build") }
 func log10AVX2(dst, src []float64) { panic("vecmath: no vector logarithm on this build") }
+
+func log10QuoAVX2(dst, x, y []float64) bool {
+	panic("vecmath: no vector logarithm on this build")
+}
+
+func log10QuoMaxAVX2(dst, x, y, top []float64) bool {
+	panic("vecmath: no vector logarithm on this build")
+}

@@ -421,20 +421,24 @@ func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense, blind
 				for i := c * chunk; i < min(n, (c+1)*chunk); i++ {
 					row := v.RawRowView(i)
 					d := diff.RawRowView(i)
-					// The ratios first, then their logarithms a row at a
-					// time, four at once (vecmath: bit for bit Go's
-					// division and math.Log10). The differences' ratios
+					// Each ratio and its logarithm four at once, checked
+					// for finiteness in the same pass (vecmath: bit for
+					// bit Go's division and math.Log10). The differences
 					// before the absolute ones, which may overwrite the
 					// beams.
-					vecmath.Quo(d, ref, row)
-					vecmath.Log10(d, d)
-					rf := AllFinite(d)
+					rf := vecmath.Log10Quo(d, ref, row)
 					if abs != nil {
 						a := abs.RawRowView(i)
-						vecmath.Quo(a, blank, row)
-						vecmath.Log10(a, a)
-						af := AllFinite(a)
-						observedMax(wt, a, blind.row(i), af)
+						var af bool
+						if bl := blind.row(i); len(bl) == 0 {
+							// The usual row: its maxima in the same pass,
+							// as observedMax takes them (a logarithm is
+							// never −0, so max and > agree).
+							af = vecmath.Log10QuoMax(a, blank, row, wt)
+						} else {
+							af = vecmath.Log10Quo(a, blank, row)
+							observedMax(wt, a, bl, af)
+						}
 						rf = rf && af
 					}
 					wf = wf && rf
