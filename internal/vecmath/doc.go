@@ -1,7 +1,10 @@
 // Package vecmath takes the natural and the decimal logarithm of a whole
 // slice at a time, with results bit-identical to the Go standard library's
 // math.Log and math.Log10 on every input, and the quotients of two slices
-// (or of a slice by one number), bit-identical to Go's division.
+// (or of a slice by one number), bit-identical to Go's division; and the
+// decimal logarithm of the quotients of two slices (Log10Quo), the division
+// and the logarithm in one pass, with a check that every result is finite
+// and, if asked, running maxima.
 //
 // Quotients: IEEE 754 division is correctly rounded, so on amd64 with AVX2
 // four lanes of VDIVPD give the bits of four divisions one at a time, at

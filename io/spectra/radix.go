@@ -2,6 +2,7 @@ package spectra
 
 import (
 	"math"
+	"math/bits"
 	"slices"
 )
 
@@ -13,22 +14,29 @@ const radixMin = 256
 // is set, the (k−1)-th, by their bits: for values ≥ +0 the IEEE 754 bit
 // patterns, read as unsigned integers, sort as the values do (the layout was
 // chosen for that: IEEE 754-2008 §3.4). Counting the exponent fields, then
-// the next 11 bits of the fraction among the values with the chosen exponent,
-// narrows the k-th down to the few values that share its first 23 bits,
-// which are sorted. Each pass over c is a count without comparisons to get
-// wrong (the branch-heavy partitions of selectKth mispredict about half the
-// time on noise), and the result is the same value, whatever the method.
-// ok is false, and c untouched, when c holds a negative value, −0 or a NaN.
+// the next few bits of the fraction among the values with the chosen
+// exponent, narrows the k-th down to the few values that share those first
+// bits, which are sorted. Each pass over c is a count without comparisons
+// to get wrong (the branch-heavy partitions of selectKth mispredict about
+// half the time on noise), and the result is the same value, whatever the
+// method. ok is false, and c untouched, when c holds a negative value, −0 or
+// a NaN.
+//
+// The counters cost as much as the counting when there are as many of them
+// as values: the first pass notes the range of exponents it met, and only
+// that range is summed, searched and cleared (a sample of noise spans a
+// dozen binades of the 2048); the second counts as many fraction bits as
+// give a few values per counter, at most 11.
 func radixOrder(c []float64, k int, below bool) (kth, prev float64, ok bool) {
 	const (
 		inf  = 0x7ff0000000000000 // +Inf: every larger pattern is negative or NaN
-		low  = 41                 // bits under the 23 that are counted
 		size = 1 << 11
 	)
 	// Two sets of counters, for alternate values: successive values mostly
 	// share a counter, and one set would make each count wait for the last.
 	var cnt, alt [size + 1]int32 // the last counter takes what is not counted
 	half := len(c) &^ 1
+	lo, hi := uint64(inf), uint64(0) // the least and largest pattern met
 	for i := 0; i < half; i += 2 {
 		u, v := math.Float64bits(c[i]), math.Float64bits(c[i+1])
 		if u > inf || v > inf {
@@ -36,6 +44,7 @@ func radixOrder(c []float64, k int, below bool) (kth, prev float64, ok bool) {
 		}
 		cnt[u>>52]++
 		alt[v>>52]++
+		lo, hi = min(lo, u, v), max(hi, u, v)
 	}
 	if half < len(c) {
 		u := math.Float64bits(c[half])
@@ -43,19 +52,28 @@ func radixOrder(c []float64, k int, below bool) (kth, prev float64, ok bool) {
 			return 0, 0, false
 		}
 		cnt[u>>52]++
+		lo, hi = min(lo, u), max(hi, u)
 	}
-	for i := range cnt {
+	e0, e1 := int(lo>>52), int(hi>>52)+1 // the exponents met: [e0, e1)
+	for i := e0; i < e1; i++ {
 		cnt[i] += alt[i]
 	}
-	b1, under := bucketOf(cnt[:size], k)
-	cnt, alt = [size + 1]int32{}, [size + 1]int32{}
-	// The next 11 bits of the values with exponent b1; the others go to the
-	// last counter. Without a branch: about half the values of noise share
-	// the median's exponent, and a branch on it would be a coin toss.
+	b1, under := bucketOf(cnt[e0:e1], k)
+	b1 += uint64(e0)
+	inB1 := int(cnt[b1])
+	clear(cnt[e0:e1])
+	clear(alt[e0:e1])
+	// The next bits of the values with exponent b1, about four values per
+	// counter; the others go to the counter after them. Without a branch:
+	// about half the values of noise share the median's exponent, and a
+	// branch on it would be a coin toss.
+	fb := uint(min(11, max(1, bits.Len(uint(inB1))-2)))
+	low := 52 - fb // the bits under the exponent and the fb counted
+	nb := uint64(1) << fb
 	sub := func(u uint64) uint64 {
 		e := u>>52 ^ b1
 		other := (e | -e) >> 63 // 1 when the exponent is not b1
-		return (u>>low)&(size-1)&(other-1) | other<<11
+		return (u>>low)&(nb-1)&(other-1) | other<<fb
 	}
 	for i := 0; i < half; i += 2 {
 		cnt[sub(math.Float64bits(c[i]))]++
@@ -64,12 +82,12 @@ func radixOrder(c []float64, k int, below bool) (kth, prev float64, ok bool) {
 	if half < len(c) {
 		cnt[sub(math.Float64bits(c[half]))]++
 	}
-	for i := range cnt {
+	for i := range cnt[:nb] {
 		cnt[i] += alt[i]
 	}
-	b2, under2 := bucketOf(cnt[:size], k-under)
+	b2, under2 := bucketOf(cnt[:nb], k-under)
 	under += under2
-	prefix := b1<<11 | b2
+	prefix := b1<<fb | b2
 	// When the k-th is the first of its bucket, the (k−1)-th is the largest
 	// of the nearest bucket below it with any value: gathered in the same
 	// pass when that bucket has the same exponent.
@@ -78,7 +96,7 @@ func radixOrder(c []float64, k int, below bool) (kth, prev float64, ok bool) {
 	if first {
 		for b := int(b2) - 1; b >= 0; b-- {
 			if cnt[b] > 0 {
-				other = b1<<11 | uint64(b)
+				other = b1<<fb | uint64(b)
 				break
 			}
 		}
@@ -93,7 +111,7 @@ func radixOrder(c []float64, k int, below bool) (kth, prev float64, ok bool) {
 	slices.Sort(pick)
 	r := k - under
 	if other != prefix {
-		r += int(cnt[other&(size-1)]) // the lower bucket's values come first
+		r += int(cnt[other&(nb-1)]) // the lower bucket's values come first
 	}
 	kth = pick[r]
 	switch {

@@ -30,7 +30,7 @@ func TestRadixOrderMatchesSort(t *testing.T) {
 		},
 	}
 	for name, f := range shapes {
-		for _, n := range []int{1, 2, 3, 64, 65, 256, 257, 1998, 4001} {
+		for _, n := range []int{1, 2, 3, 64, 65, 256, 257, 1998, 4001, 40001} {
 			v := make([]float64, n)
 			for i := range v {
 				v[i] = f(i)
