@@ -4,7 +4,12 @@
 // (or of a slice by one number), bit-identical to Go's division; and the
 // decimal logarithm of the quotients of two slices (Log10Quo), the division
 // and the logarithm in one pass, with a check that every result is finite
-// and, if asked, running maxima.
+// and, if asked, running maxima. For the noise model of single beams it
+// also forms squared quotients over a constant, with and without a share
+// added, and their logarithms (QuoSquares, LogQuoSquares), tests a slice
+// for positive finite values (AllPositiveFinite) and takes running maxima
+// with the smallest change from another slice (RaiseAndStep), each in one
+// pass; maxima and minima are the same in any order.
 //
 // Quotients: IEEE 754 division is correctly rounded, so on amd64 with AVX2
 // four lanes of VDIVPD give the bits of four divisions one at a time, at

@@ -30,3 +30,9 @@ func log10QuoAVX2(dst, x, y []float64) (finite bool)
 //
 //go:noescape
 func log10QuoMaxAVX2(dst, x, y, top []float64) (finite bool)
+
+// quoSquaresAVX2 is QuoSquares (logs false) or LogQuoSquares (logs true)
+// four at a time; len(x) is a multiple of 4 and d, a, y and e are as long.
+//
+//go:noescape
+func quoSquaresAVX2(d, a, x, y, e []float64, c float64, logs bool)

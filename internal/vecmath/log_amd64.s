@@ -223,3 +223,66 @@ l10qmDone:
 	ALLZERO9(finite+96(FP))
 	VZEROUPPER
 	RET
+
+// QUOSQ4 forms, for the four lanes at (SI) and (DX), q = x/y, r = q·q, then
+// Y13 = (r + e)/c with e at (R8) and Y12 = r/c, c in Y15: each operation
+// rounded on its own, in the order Go's QuoSquares writes them. The sum
+// takes e as its first source, as the Go compiler orders r + e (ADDSD's
+// first source gives a NaN its payload when both are NaN).
+#define QUOSQ4 \
+	VMOVUPD (SI), Y0 \
+	VDIVPD  (DX), Y0, Y0 \
+	VMULPD  Y0, Y0, Y12 \
+	VMOVUPD (R8), Y13 \
+	VADDPD  Y12, Y13, Y13 \
+	VDIVPD  Y15, Y13, Y13 \
+	VDIVPD  Y15, Y12, Y12
+
+// func quoSquaresAVX2(d, a, x, y, e []float64, c float64, logs bool)
+TEXT ·quoSquaresAVX2(SB), NOSPLIT, $0-129
+	MOVQ d_base+0(FP), DI
+	MOVQ a_base+24(FP), R9
+	MOVQ x_base+48(FP), SI
+	MOVQ x_len+56(FP), CX
+	MOVQ y_base+72(FP), DX
+	MOVQ e_base+96(FP), R8
+	VBROADCASTSD c+120(FP), Y15
+	MOVBLZX logs+128(FP), BX
+	VPXOR Y8, Y8, Y8
+	SHRQ $2, CX
+	JZ   qsDone
+	TESTQ BX, BX
+	JNZ  qsLogLoop
+
+qsLoop:
+	QUOSQ4
+	VMOVUPD Y13, (DI)
+	VMOVUPD Y12, (R9)
+	ADDQ $32, SI
+	ADDQ $32, DX
+	ADDQ $32, R8
+	ADDQ $32, DI
+	ADDQ $32, R9
+	DECQ CX
+	JNZ  qsLoop
+	JMP  qsDone
+
+qsLogLoop:
+	QUOSQ4
+	VMOVAPD Y13, Y0
+	LOGY0
+	VMOVUPD Y1, (DI)
+	VMOVAPD Y12, Y0
+	LOGY0
+	VMOVUPD Y1, (R9)
+	ADDQ $32, SI
+	ADDQ $32, DX
+	ADDQ $32, R8
+	ADDQ $32, DI
+	ADDQ $32, R9
+	DECQ CX
+	JNZ  qsLogLoop
+
+qsDone:
+	VZEROUPPER
+	RET

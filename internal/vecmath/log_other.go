@@ -15,3 +15,7 @@ func log10QuoAVX2(dst, x, y []float64) bool {
 func log10QuoMaxAVX2(dst, x, y, top []float64) bool {
 	panic("vecmath: no vector logarithm on this build")
 }
+
+func quoSquaresAVX2(d, a, x, y, e []float64, c float64, logs bool) {
+	panic("vecmath: no vector division on this build")
+}

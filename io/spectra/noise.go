@@ -533,7 +533,7 @@ func scanBeams(v *mat.Dense, badChannel []bool) beamScan {
 			}
 			clean := positiveFinite(row)
 			if clean {
-				rowMax[i], bq = scanCleanRow(row, prev, prevClean, badChannel, bc, bt, bq)
+				rowMax[i], bq = scanCleanRow(row, prev, prevClean, badChannel, len(badList) > 0, bc, bt, bq)
 				if len(badList) > 0 {
 					b.Rows[i] = slices.Clone(badList)
 				}
@@ -597,23 +597,25 @@ func (sc *beamScan) finish(v *mat.Dense, badChannel []bool, badList []int, b *Bl
 	}
 }
 
-// positiveFinite says whether every value of row is positive and finite (a
-// branch that goes the same way for almost every value).
+// positiveFinite says whether every value of row is positive and finite
+// (vecmath: four values to a test).
 func positiveFinite(row []float64) bool {
-	inf := math.Inf(1)
-	for _, x := range row {
-		if !(x > 0 && x < inf) {
-			return false
-		}
-	}
-	return true
+	return vecmath.AllPositiveFinite(row)
 }
 
 // scanCleanRow is scanBeams's work on a row of positive finite beams: the
 // maxima per channel (bc, and bt, the unusable channels among them), the
 // row's largest value, returned, and the smallest change from the row
 // before, prev (positive finite too when prevClean), below bq, returned.
-func scanCleanRow(row, prev []float64, prevClean bool, bad []bool, bc, bt []float64, bq float64) (float64, float64) {
+// anyBad says whether bad marks any channel.
+func scanCleanRow(row, prev []float64, prevClean bool, bad []bool, anyBad bool, bc, bt []float64, bq float64) (float64, float64) {
+	if prevClean && !anyBad {
+		// The usual row: every beam here and in the row before is observed,
+		// so every change above zero counts; maxima and a minimum, four
+		// lanes at a time in one pass (vecmath), the same values.
+		top, step := vecmath.RaiseAndStep(bc, bt, row, prev)
+		return top, min(bq, step)
+	}
 	bc, bt, prev, bad = bc[:len(row)], bt[:len(row)], prev[:len(row)], bad[:len(row)]
 	// Four running maxima, so that each max does not wait for the last.
 	r0, r1, r2, r3 := math.Inf(-1), math.Inf(-1), math.Inf(-1), math.Inf(-1)
@@ -805,14 +807,16 @@ func fitWeights(n, m int, blind *Blind, variances ...func(i int, out []float64))
 // bounds none): with it addOverweighted passes over the rows that cannot
 // hold an overweighted point without computing their variances again.
 func fitWeightsJoint(n, m, nf int, blind *Blind, variances func(i int, out []float64)) (fits []*Weights, peak []float64) {
-	return fitWeightsReusing(newRowPieces(nf*m), n, m, nf, blind, variances)
+	return fitWeightsReusing(newRowPieces(nf*m), n, m, nf, blind, variances, nil)
 }
 
 // fitWeightsReusing is fitWeightsJoint with the buffers of its passes over
 // the rows from pieces (of width nf·m), shared by both passes and by a
-// caller's later fit.
-func fitWeightsReusing(pieces *rowPieces, n, m, nf int, blind *Blind, variances func(i int, out []float64)) (fits []*Weights, peak []float64) {
-	out := additiveWeights(n, m, logWeightSums(pieces, n, m, nf, blind, variances))
+// caller's later fit. logVariances, when not nil, writes the natural
+// logarithms of what variances writes (bit for bit math.Log of them), for
+// the first pass: a caller that forms both in one pass.
+func fitWeightsReusing(pieces *rowPieces, n, m, nf int, blind *Blind, variances, logVariances func(i int, out []float64)) (fits []*Weights, peak []float64) {
+	out := additiveWeights(n, m, logWeightSums(pieces, n, m, nf, blind, variances, logVariances))
 	scale, peak := scaleSums(pieces, n, m, blind, variances, out)
 	for f, w := range out {
 		if w == nil {
@@ -849,8 +853,8 @@ type logSums struct {
 }
 
 // logWeightSums forms the sums of log weights of each of the nf fits in one
-// pass over the rows.
-func logWeightSums(pieces *rowPieces, n, m, nf int, blind *Blind, variances func(i int, out []float64)) []logSums {
+// pass over the rows (the logarithms from logVariances when not nil).
+func logWeightSums(pieces *rowPieces, n, m, nf int, blind *Blind, variances, logVariances func(i int, out []float64)) []logSums {
 	acc := make([]logSums, nf)
 	for f := range acc {
 		acc[f] = logSums{rowSum: make([]float64, n), colSum: make([]float64, m), rowCnt: make([]int, n), colCnt: make([]int, m)}
@@ -862,6 +866,13 @@ func logWeightSums(pieces *rowPieces, n, m, nf int, blind *Blind, variances func
 	// −l is subtracting l (IEEE 754 defines x − y as x + (−y)), so the sums
 	// take l away, one pass over the row fewer.
 	mapRowsReusing(pieces, n, func(i int, out []float64) {
+		if logVariances != nil {
+			logVariances(i, out)
+			for f := 0; f < nf; f++ {
+				blindNaN(out[f*m:(f+1)*m], blind.row(i))
+			}
+			return
+		}
 		variances(i, out)
 		for f := 0; f < nf; f++ {
 			logObserved(out[f*m:(f+1)*m], blind.row(i))
@@ -1143,6 +1154,11 @@ func observedRun(o []float64) {
 // +Inf), so a point is in the fit when its value here is finite.
 func logObserved(o []float64, bl []int) {
 	vecmath.Log(o, o)
+	blindNaN(o, bl)
+}
+
+// blindNaN sets o[j] to NaN at the blind channels bl.
+func blindNaN(o []float64, bl []int) {
 	nan := math.NaN()
 	for _, j := range bl {
 		if j < len(o) {
@@ -1368,26 +1384,26 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	// both are fitted again.
 	nf := 1
 	vars := diffVar
+	var logVars func(i int, o []float64)
 	if opt.Blank != nil {
 		nf = 2
+		// diffVar's values, then absVar's, in one pass (vecmath: the same
+		// roundings in the same order), and for the first pass of a fit
+		// their logarithms too.
 		vars = func(i int, o []float64) {
-			d, a := o[:m], o[m:2*m]
-			vecmath.Quo(a, sigI, s.Values.RawRowView(i))
-			for j, q := range a {
-				r := sq(q)
-				d[j] = r + refVar[j] // diffVar's value, before the division
-				a[j] = r             // absVar's
-			}
-			vecmath.QuoBy(o[:2*m], o[:2*m], ln10sq)
+			vecmath.QuoSquares(o[:m], o[m:2*m], sigI, s.Values.RawRowView(i), refVar, ln10sq)
+		}
+		logVars = func(i int, o []float64) {
+			vecmath.LogQuoSquares(o[:m], o[m:2*m], sigI, s.Values.RawRowView(i), refVar, ln10sq)
 		}
 	}
 	// absVar ≤ diffVar at every point (refVar ≥ 0, and rounding keeps the
 	// order), so the first fit's peaks bound the products addOverweighted
 	// tests: only rows whose bound reaches the threshold are looked at.
 	pieces := newRowPieces(nf * m)
-	w, peak := fitWeightsReusing(pieces, n, m, nf, blind, vars)
+	w, peak := fitWeightsReusing(pieces, n, m, nf, blind, vars, logVars)
 	if w[0] != nil && blind.addOverweightedIn(w[0], absVar, peak) {
-		w, _ = fitWeightsReusing(pieces, n, m, nf, blind, vars)
+		w, _ = fitWeightsReusing(pieces, n, m, nf, blind, vars, logVars)
 	}
 	out.DifferenceWeights = w[0]
 	if opt.Blank != nil {

@@ -1,0 +1,13 @@
+//go:build !purego
+
+package vecmath
+
+// allPositiveFiniteAVX2 is AllPositiveFinite for len(x) a multiple of 4.
+//
+//go:noescape
+func allPositiveFiniteAVX2(x []float64) bool
+
+// raiseAndStepAVX2 is RaiseAndStep for len(x) a positive multiple of 4.
+//
+//go:noescape
+func raiseAndStepAVX2(a, b, x, p []float64) (largest, step float64)

@@ -1,0 +1,90 @@
+//go:build !purego
+
+#include "textflag.h"
+
+DATA scanInf<>+0(SB)/8, $0x7FF0000000000000
+GLOBL scanInf<>(SB), RODATA|NOPTR, $8
+DATA scanNegInf<>+0(SB)/8, $0xFFF0000000000000
+GLOBL scanNegInf<>(SB), RODATA|NOPTR, $8
+DATA scanAbs<>+0(SB)/8, $0x7FFFFFFFFFFFFFFF
+GLOBL scanAbs<>(SB), RODATA|NOPTR, $8
+
+// func allPositiveFiniteAVX2(x []float64) bool
+TEXT ·allPositiveFiniteAVX2(SB), NOSPLIT, $0-25
+	MOVQ x_base+0(FP), SI
+	MOVQ x_len+8(FP), CX
+	VBROADCASTSD scanInf<>(SB), Y3
+	VXORPD Y2, Y2, Y2
+	SHRQ $2, CX
+	JZ   apfYes
+
+apfLoop:
+	VMOVUPD (SI), Y0
+	VCMPPD  $0x1E, Y2, Y0, Y1 // x > 0 (GT_OQ: false for NaN)
+	VCMPPD  $0x11, Y3, Y0, Y4 // x < +Inf (LT_OQ)
+	VANDPD  Y4, Y1, Y1
+	VMOVMSKPD Y1, AX
+	CMPQ AX, $15
+	JNE  apfNo
+	ADDQ $32, SI
+	DECQ CX
+	JNZ  apfLoop
+
+apfYes:
+	MOVB $1, ret+24(FP)
+	VZEROUPPER
+	RET
+
+apfNo:
+	MOVB $0, ret+24(FP)
+	VZEROUPPER
+	RET
+
+// func raiseAndStepAVX2(a, b, x, p []float64) (largest, step float64)
+TEXT ·raiseAndStepAVX2(SB), NOSPLIT, $0-112
+	MOVQ a_base+0(FP), DI
+	MOVQ b_base+24(FP), R9
+	MOVQ x_base+48(FP), SI
+	MOVQ x_len+56(FP), CX
+	MOVQ p_base+72(FP), DX
+	VBROADCASTSD scanNegInf<>(SB), Y5 // largest so far, per lane
+	VBROADCASTSD scanInf<>(SB), Y6    // smallest positive step, per lane
+	VBROADCASTSD scanAbs<>(SB), Y7
+	VMOVAPD Y6, Y8                    // +Inf, for the steps that are 0
+	VXORPD Y9, Y9, Y9
+	SHRQ $2, CX
+
+rasLoop:
+	VMOVUPD (SI), Y0
+	// MAXPD gives its first source when it is the larger, else its second:
+	// x > a ? x : a, as the loop of RaiseAndStep takes it.
+	VMAXPD  (DI), Y0, Y1
+	VMOVUPD Y1, (DI)
+	VMAXPD  (R9), Y0, Y1
+	VMOVUPD Y1, (R9)
+	VMAXPD  Y5, Y0, Y5
+	VSUBPD  (DX), Y0, Y1              // x − p
+	VANDPD  Y7, Y1, Y1                // |x − p|
+	VCMPPD  $0x1E, Y9, Y1, Y2         // d > 0
+	VBLENDVPD Y2, Y1, Y8, Y1          // d where d > 0, else +Inf
+	VMINPD  Y6, Y1, Y6
+	ADDQ $32, SI
+	ADDQ $32, DI
+	ADDQ $32, R9
+	ADDQ $32, DX
+	DECQ CX
+	JNZ  rasLoop
+
+	// The four lanes into one: maxima and minima in any order.
+	VEXTRACTF128 $1, Y5, X1
+	VMAXPD X1, X5, X5
+	VPERMILPD $1, X5, X1
+	VMAXSD X1, X5, X5
+	VMOVSD X5, largest+96(FP)
+	VEXTRACTF128 $1, Y6, X1
+	VMINPD X1, X6, X6
+	VPERMILPD $1, X6, X1
+	VMINSD X1, X6, X6
+	VMOVSD X6, step+104(FP)
+	VZEROUPPER
+	RET

@@ -1,0 +1,11 @@
+//go:build !amd64 || purego
+
+package vecmath
+
+func allPositiveFiniteAVX2(x []float64) bool {
+	panic("vecmath: no vector scan on this build")
+}
+
+func raiseAndStepAVX2(a, b, x, p []float64) (largest, step float64) {
+	panic("vecmath: no vector scan on this build")
+}

@@ -1,0 +1,93 @@
+package vecmath
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+)
+
+// The references are the definitions, one value at a time in Go: positive
+// and finite is 0 < x < +Inf (NaN compares false: IEEE 754-2008 §5.11);
+// a running maximum is raised by a larger value only; the step is the
+// smallest |x − p| above zero.
+
+func TestAllPositiveFinite(t *testing.T) {
+	bad := []float64{0, math.Copysign(0, -1), -1, -5e-324, math.Inf(1), math.Inf(-1), math.NaN(),
+		math.Float64frombits(0xFFF8000000000000), math.Float64frombits(0x7FF0000000000001)}
+	good := []float64{5e-324, 1e-310, 1, 3e4, math.MaxFloat64}
+	for n := 0; n <= 13; n++ {
+		x := make([]float64, n)
+		for i := range x {
+			x[i] = good[i%len(good)]
+		}
+		if !AllPositiveFinite(x) {
+			t.Fatalf("n=%d: %v refused", n, x)
+		}
+		// One value that is not positive and finite, in every place.
+		for at := 0; at < n; at++ {
+			for _, b := range bad {
+				keep := x[at]
+				x[at] = b
+				if AllPositiveFinite(x) {
+					t.Fatalf("n=%d: %v at %d accepted", n, b, at)
+				}
+				x[at] = keep
+			}
+		}
+	}
+}
+
+func checkRaiseAndStep(t *testing.T, a0, b0, x, p []float64) {
+	t.Helper()
+	wa, wb := append([]float64(nil), a0...), append([]float64(nil), b0...)
+	wl, ws := math.Inf(-1), math.Inf(1)
+	for i, v := range x {
+		if v > wa[i] {
+			wa[i] = v
+		}
+		if v > wb[i] {
+			wb[i] = v
+		}
+		if v > wl {
+			wl = v
+		}
+		if d := math.Abs(v - p[i]); d > 0 && d < ws {
+			ws = d
+		}
+	}
+	a, b := append([]float64(nil), a0...), append([]float64(nil), b0...)
+	l, s := RaiseAndStep(a, b, x, p)
+	sameBits(t, "RaiseAndStep a", a, wa)
+	sameBits(t, "RaiseAndStep b", b, wb)
+	sameBits(t, "RaiseAndStep largest and step", []float64{l, s}, []float64{wl, ws})
+}
+
+// Single beams against the row before, maxima from −Inf and from 0 as the
+// noise model starts them, rounded values with equal neighbours (steps of
+// 0 left out), infinities (an infinite difference is not a step), zeros of
+// either sign, and every length up to past a few vectors.
+func TestRaiseAndStep(t *testing.T) {
+	r := rand.New(rand.NewPCG(21, 4))
+	for _, n := range []int{0, 1, 2, 3, 4, 5, 7, 8, 9, 15, 16, 17, 3001, 4000} {
+		for _, shape := range []string{"beams", "rounded", "specials"} {
+			x, p := make([]float64, n), make([]float64, n)
+			a, b := make([]float64, n), make([]float64, n)
+			for i := range x {
+				switch shape {
+				case "beams":
+					p[i] = 3e4 * math.Exp(-3*r.Float64())
+					x[i] = p[i] * (1 + 1e-3*r.NormFloat64())
+				case "rounded":
+					p[i] = math.Round(100 * r.Float64())
+					x[i] = p[i] + math.Round(r.NormFloat64())
+				default:
+					s := []float64{0, math.Copysign(0, -1), 1, -1, math.Inf(1), math.Inf(-1), 5e-324, math.MaxFloat64}
+					x[i], p[i] = s[r.IntN(len(s))], s[r.IntN(len(s))]
+				}
+				a[i] = math.Inf(-1)
+				b[i] = []float64{0, math.Copysign(0, -1), 50, 1e300}[r.IntN(4)]
+			}
+			checkRaiseAndStep(t, a, b, x, p)
+		}
+	}
+}
