@@ -11,3 +11,8 @@ func allPositiveFiniteAVX2(x []float64) bool
 //
 //go:noescape
 func raiseAndStepAVX2(a, b, x, p []float64) (largest, step float64)
+
+// nextAtOrBelowAVX2 is NextAtOrBelow for len(x) a positive multiple of 4.
+//
+//go:noescape
+func nextAtOrBelowAVX2(x, a, b []float64) int

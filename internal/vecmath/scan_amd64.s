@@ -88,3 +88,33 @@ rasLoop:
 	VMOVSD X6, step+104(FP)
 	VZEROUPPER
 	RET
+
+// func nextAtOrBelowAVX2(x, a, b []float64) int
+TEXT ·nextAtOrBelowAVX2(SB), NOSPLIT, $0-80
+	MOVQ x_base+0(FP), SI
+	MOVQ x_len+8(FP), CX
+	MOVQ a_base+24(FP), DI
+	MOVQ b_base+48(FP), DX
+	XORQ BX, BX // index of the block
+
+nabLoop:
+	VMOVUPD (SI)(BX*8), Y0
+	VCMPPD  $0x12, (DI)(BX*8), Y0, Y1 // x ≤ a (LE_OQ: false for NaN)
+	VCMPPD  $0x11, (DX)(BX*8), Y0, Y2 // x < b (LT_OQ)
+	VANDPD  Y2, Y1, Y1
+	VMOVMSKPD Y1, AX
+	TESTQ AX, AX
+	JNZ  nabHit
+	ADDQ $4, BX
+	CMPQ BX, CX
+	JB   nabLoop
+	MOVQ CX, ret+72(FP)
+	VZEROUPPER
+	RET
+
+nabHit:
+	BSFQ AX, AX // the first lane that holds
+	ADDQ BX, AX
+	MOVQ AX, ret+72(FP)
+	VZEROUPPER
+	RET

@@ -9,3 +9,7 @@ func allPositiveFiniteAVX2(x []float64) bool {
 func raiseAndStepAVX2(a, b, x, p []float64) (largest, step float64) {
 	panic("vecmath: no vector scan on this build")
 }
+
+func nextAtOrBelowAVX2(x, a, b []float64) int {
+	panic("vecmath: no vector scan on this build")
+}

@@ -91,3 +91,40 @@ func TestRaiseAndStep(t *testing.T) {
 		}
 	}
 }
+
+// NextAtOrBelow against a loop over the definition, at every place of a hit
+// in slices of every length up to a few vectors, with NaN, ties (x = a
+// counts, x = b does not) and infinities.
+func TestNextAtOrBelow(t *testing.T) {
+	want := func(x, a, b []float64) int {
+		for i := range x {
+			if x[i] <= a[i] && x[i] < b[i] {
+				return i
+			}
+		}
+		return len(x)
+	}
+	r := rand.New(rand.NewPCG(8, 9))
+	for n := 0; n <= 19; n++ {
+		x, a, b := make([]float64, n), make([]float64, n), make([]float64, n)
+		for i := range x {
+			x[i], a[i], b[i] = 100+r.Float64(), 3, 50 // no hit
+		}
+		if got := NextAtOrBelow(x, a, b); got != n {
+			t.Fatalf("n=%d: no hit, got %d", n, got)
+		}
+		for at := 0; at < n; at++ {
+			for _, c := range [][3]float64{{3, 3, 50}, {3, 3, 3}, {1, 3, 50}, {math.NaN(), 3, 50}, {1, math.NaN(), 50},
+				{math.Inf(-1), 3, 50}, {1, math.Inf(1), math.Inf(1)}, {2, 3, 2.5}} {
+				x0, a0, b0 := x[at], a[at], b[at]
+				x[at], a[at], b[at] = c[0], c[1], c[2]
+				for _, from := range []int{0, at} {
+					if got, w := NextAtOrBelow(x[from:], a[from:], b[from:]), want(x[from:], a[from:], b[from:]); got != w {
+						t.Fatalf("n=%d, %v at %d, from %d: got %d, want %d", n, c, at, from, got, w)
+					}
+				}
+				x[at], a[at], b[at] = x0, a0, b0
+			}
+		}
+	}
+}

@@ -696,17 +696,28 @@ func observedBeam(x float64, j int, badChannel []bool) bool {
 func (b *Blind) addWeakBelow(v *mat.Dense, sigma, top []float64) {
 	n, m := v.Dims()
 	added := make([]int, n)
+	// The two limits of each channel, formed once (the same products the
+	// test formed per value); a row is searched four values to a test
+	// (vecmath), since weak beams are rare.
+	atMost, below := make([]float64, m), make([]float64, m)
+	for j := range atMost {
+		atMost[j], below[j] = weakSigmas*sigma[j], weakBeamFraction*top[j]
+	}
 	eachRowBlock(n, m, func(r0, r1 int) {
 		for i := r0; i < r1; i++ {
 			row := v.RawRowView(i)[:m]
 			// Membership against the row's blind channels as they were
 			// (ascending); the points added go after them.
 			bl, next := b.Rows[i], 0
-			for j, x := range row {
+			for j := 0; ; j++ {
+				j += vecmath.NextAtOrBelow(row[j:], atMost[j:], below[j:])
+				if j >= m {
+					break
+				}
 				for next < len(bl) && bl[next] < j {
 					next++
 				}
-				if x <= weakSigmas*sigma[j] && x < weakBeamFraction*top[j] && !(next < len(bl) && bl[next] == j) {
+				if !(next < len(bl) && bl[next] == j) {
 					b.Rows[i] = append(b.Rows[i], j)
 					added[i]++
 				}
