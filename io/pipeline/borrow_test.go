@@ -120,3 +120,45 @@ func TestDifferenceRowIsThePointTest(t *testing.T) {
 		}
 	}
 }
+
+// differenceRows over many blocks of rows answers as differenceRow row after
+// row does (its definition): true when every row of dd is d's less g, false
+// when one row anywhere fails, in the first block, a middle one or the last,
+// and for a range of rows that starts past the first row.
+func TestDifferenceRowsIsEveryRow(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	n, m := 300, 50
+	d, dd := mat.NewDense(n, m, nil), mat.NewDense(n, m, nil)
+	g := make([]float64, m)
+	for j := range g {
+		g[j] = rng.NormFloat64()
+	}
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			a := rng.NormFloat64()
+			d.Set(i, j, a)
+			dd.Set(i, j, a-g[j])
+		}
+	}
+	every := func(lo, hi int) bool {
+		for i := lo; i < hi; i++ {
+			if !differenceRow(d.RawRowView(i), dd.RawRowView(i), g) {
+				return false
+			}
+		}
+		return true
+	}
+	for _, bad := range []int{-1, 0, 130, 299} {
+		if bad >= 0 {
+			dd.Set(bad, 17, dd.At(bad, 17)+1e-9)
+		}
+		for _, span := range [][2]int{{0, n}, {70, n}, {0, 129}} {
+			if got, want := differenceRows(d, dd, g, span[0], span[1]), every(span[0], span[1]); got != want {
+				t.Errorf("row %d changed, rows %d…%d: %v, row by row %v", bad, span[0], span[1]-1, got, want)
+			}
+		}
+		if bad >= 0 {
+			dd.Set(bad, 17, d.At(bad, 17)-g[17])
+		}
+	}
+}

@@ -322,7 +322,7 @@ func run(s *Settings, log io.Writer, hashInputs bool) (*Result, error) {
 	if rank.ReferencePatternFactor >= 0 {
 		r.Advice = append(r.Advice, fmt.Sprintf("factor %d is the reference spectrum's own noise (flat in time, white across the axis): one fixed pattern in every difference spectrum, not a reaction, so it is not counted; averaging several pre-reaction spectra as the reference (--pre N --reference mean:N) shrinks it by √N", rank.ReferencePatternFactor+1))
 	}
-	collectAfterFactorAnalysis(n, m)
+	defer collectAfterFactorAnalysis(n, m).get()
 	r.ahead.aheadData(r)
 	r.ahead.aheadSingular(r)
 
