@@ -3,6 +3,7 @@ package pipeline
 import (
 	"encoding/json"
 	"math"
+	"slices"
 
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/report"
@@ -36,6 +37,9 @@ type ahead struct {
 	// matrices, and the residuals.
 	data, residual *aheadMaps
 	efa            *EFAReport // the EFA drawn
+	efaCSV         []byte     // efa.csv of efa for efaTimes, formatted by the goroutine
+	efaTimes       []float64
+	efaExp         []int
 }
 
 // startAhead begins the goroutine; a nil ahead does nothing.
@@ -148,13 +152,29 @@ func (a *ahead) aheadEFA(r *Result) {
 		return
 	}
 	a.efa = r.EFA
-	rep, times, exp, multi := r.EFA, r.Times, r.ExpOfRow, len(r.Experiments) > 1
+	rep, multi := r.EFA, len(r.Experiments) > 1
+	a.efaTimes, a.efaExp = append([]float64(nil), r.Times...), append([]int(nil), r.ExpOfRow...)
+	times, exp := a.efaTimes, a.efaExp
 	tu := timeUnitRecord(r.Settings)
 	a.add(func() {
-		if t, err := report.ParseTable("efa.csv", efaTable(rep, times, exp, multi).CSV()); err == nil {
+		a.efaCSV = efaTable(rep, times, exp, multi).CSV()
+		if t, err := report.ParseTable("efa.csv", a.efaCSV); err == nil {
 			a.pre.Draw(&report.Folder{EFA: t, AsRun: tu}, "fig-efa")
 		}
 	})
+}
+
+// efaFile is efa.csv as formatted ahead, when it is of r's EFA (not
+// changed once set) at r's times.
+func (a *ahead) efaFile(r *Result) ([]byte, bool) {
+	if a == nil || a.efa == nil || a.efa != r.EFA {
+		return nil, false
+	}
+	a.wait()
+	if a.efaCSV == nil || !sameBits(a.efaTimes, r.Times) || !slices.Equal(a.efaExp, r.ExpOfRow) {
+		return nil, false
+	}
+	return a.efaCSV, true
 }
 
 // aheadFit draws the residuals' and the iterations' figures once the

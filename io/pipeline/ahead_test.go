@@ -39,12 +39,19 @@ func sameAsFromFiles(t *testing.T, r *Result, out string) {
 	if err != nil || !bytes.Equal(maps, formatMaps(r).csv) {
 		t.Errorf("maps.csv differs from formatMaps' (%v)", err)
 	}
+	if r.EFA != nil {
+		efa, err := os.ReadFile(filepath.Join(out, "efa.csv"))
+		if err != nil || !bytes.Equal(efa, efaTable(r.EFA, r.Times, r.ExpOfRow, len(r.Experiments) > 1).CSV()) {
+			t.Errorf("efa.csv differs from efaTable's (%v)", err)
+		}
+	}
 }
 
 // The figures a run draws ahead are the ones its folder gives: on the
 // demo (no baseline, nothing set aside) every figure but the two that
-// wait for the uniqueness ranges is taken from those drawn ahead, and
-// maps.csv is joined from the parts formatted ahead.
+// wait for the uniqueness ranges is taken from those drawn ahead, maps.csv
+// is joined from the parts formatted ahead and efa.csv is the one
+// formatted ahead.
 func TestFiguresDrawnAheadOnTheDemo(t *testing.T) {
 	out := filepath.Join(t.TempDir(), "demo")
 	r, err := Demo(out, false, true, false, Streams{Out: io.Discard, Err: io.Discard})
@@ -58,6 +65,9 @@ func TestFiguresDrawnAheadOnTheDemo(t *testing.T) {
 	}
 	if _, ok := r.ahead.mapsFile(r); !ok {
 		t.Error("maps.csv was not joined from the parts formatted ahead")
+	}
+	if _, ok := r.ahead.efaFile(r); !ok {
+		t.Error("efa.csv was not the one formatted ahead")
 	}
 }
 

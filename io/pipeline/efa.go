@@ -175,6 +175,9 @@ func writeEFA(r *Result, st *output.Stage) error {
 	if r.EFA == nil {
 		return nil
 	}
+	if b, ok := r.ahead.efaFile(r); ok {
+		return st.Write("efa.csv", b) // formatted while the run computed
+	}
 	return st.Write("efa.csv", efaTable(r.EFA, r.Times, r.ExpOfRow, len(r.Experiments) > 1).CSV())
 }
 
