@@ -598,7 +598,7 @@ func (p *bandProblem) stages(j int, sign float64, theta0 []float64, plan stagePl
 	theta := append([]float64(nil), theta0...)
 	evals, lastOK := 0, false
 	bestTheta := append([]float64(nil), theta...)
-	bestF := p.contribution(p.rotation(theta), j)
+	bestF := p.startShare(theta, j)
 	for _, mu := range plan.mus {
 		x, _, used := minimiseBFGS(bandObjective{p, j, sign, mu}, theta, bfgsOptions{maxEval: plan.budget, carryStep: plan.carryStep, interpolate: plan.interpolate, stall: plan.stall})
 		evals += used
@@ -626,6 +626,19 @@ func (p *bandProblem) stages(j int, sign float64, theta0 []float64, plan stagePl
 		}
 	}
 	return bestTheta, bestF, lastOK, evals
+}
+
+// startShare is f_j at the stages' start theta. At θ = 0 (every first
+// stage) T is the identity, C T = C and S T⁻ᵀ = S exactly (the products
+// add only zero terms to each entry and the inverse of I is I), so f_j is
+// taken from C and S without forming the two products.
+func (p *bandProblem) startShare(theta []float64, j int) float64 {
+	for _, v := range theta {
+		if v != 0 {
+			return p.contribution(p.rotation(theta), j)
+		}
+	}
+	return math.Sqrt(colNormSq(p.c, j)*colNormSq(p.s, j)) / p.norm
 }
 
 // component returns column j of C T and S T⁻ᵀ, scaled as FeasibleBands
@@ -697,8 +710,16 @@ func (p *bandProblem) rise(a, b, ga, gb *mat.Dense) float64 {
 // riseNew is rise formed afresh.
 func (p *bandProblem) riseNew(a, b, ga, gb *mat.Dense) float64 {
 	k := p.k
-	ap, ma := p.clip(a, p.nnC, p.opt.ZeroProfiles)
-	bp, mb := p.clip(b, p.nnS, p.opt.ZeroSpectra)
+	var ap, bp, ma, mb *mat.Dense
+	if ga == nil {
+		// The value alone needs only the constrained pair, which the
+		// search's stage ends and amplitude ask for at the same rotation
+		// (constrainedPair keeps it): the same clip, formed once.
+		ap, bp = p.constrainedPair(a, b)
+	} else {
+		ap, ma = p.clip(a, p.nnC, p.opt.ZeroProfiles)
+		bp, mb = p.clip(b, p.nnS, p.opt.ZeroSpectra)
+	}
 	var am, bm mat.Dense
 	am.Sub(a, ap)
 	bm.Sub(b, bp)
