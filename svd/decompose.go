@@ -364,11 +364,12 @@ func randomizedSVD(d *mat.Dense, r int, seed uint64, start *mat.Dense) (*Factors
 		orthonormalize(y)
 	}
 	// B = Yᵀ D is (Dᵀ Y)ᵀ entry for entry: each sum runs over the rows
-	// of D in ascending order either way.
+	// of D in ascending order either way. Factorize copies the matrix it
+	// is given (LAPACK overwrites it), so zᵀ is handed over as it is: the
+	// same copy, without one of our own before it.
 	products.MulTTo(z, d, y)
-	b := mat.DenseCopyOf(z.T())
 	var s mat.SVD
-	if !s.Factorize(b, mat.SVDThin) {
+	if !s.Factorize(z.T(), mat.SVDThin) {
 		return nil, errors.New("SVD of the sketch did not converge")
 	}
 	vals := s.Values(nil)
