@@ -206,13 +206,16 @@ func ChooseBaselineOrderFrom(d, dq *mat.Dense, f *Factors, axis, col []float64, 
 		}
 	}
 	rss := func(q int) float64 {
-		energy, wq := f.FrobeniusSq, mat.DenseCopyOf(w)
+		// mat.SVD.Factorize copies the matrix it is given, so W itself (or
+		// W less its projection, formed once) goes to it without a copy.
+		energy, wq := f.FrobeniusSq, w
 		if q >= 0 {
 			for c := 0; c <= q; c++ {
 				energy -= polyEnergy[c]
 			}
 			var proj mat.Dense
 			proj.Mul(wqAll.Slice(0, r, 0, q+1), basis.Slice(0, m, 0, q+1).T())
+			wq = mat.NewDense(r, m, nil)
 			wq.Sub(w, &proj)
 		}
 		if k > 0 {
