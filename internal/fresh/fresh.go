@@ -14,6 +14,15 @@
 // clearing took the 4 KiB faults the advice is there to spare. Overwritten
 // hands out memory without that clearing, for a caller that writes every
 // value before it reads any.
+//
+// It reaches the runtime's allocator, runtime.mallocgc, by a linkname
+// (uncleared.go). The runtime's comment on it says not to remove it or
+// change its type signature (go.dev/issue/67401), a promise to the packages
+// that use it, not a part of Go's compatibility guarantee: should a Go
+// release drop it anyway, this package stops building (the linker names
+// runtime.mallocgc), and the purego build tag (go build -tags purego) builds
+// Overwritten on make instead, cleared memory, the same values written and
+// read.
 package fresh
 
 import "gonum.org/v1/gonum/mat"

@@ -1,3 +1,5 @@
+//go:build !purego
+
 package fresh
 
 import "unsafe"
