@@ -1,8 +1,10 @@
 package mcr
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
+	"runtime"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -385,4 +387,83 @@ func TestRotatedPanelsSameAsRows(t *testing.T) {
 			}
 		}
 	}
+}
+
+// Every range end must be the bits a search from a freshly made problem
+// gives (the project's rule: byte-identical outputs whatever GOMAXPROCS):
+// allExtremes' workers keep their buffers and reset them between ends
+// (bandWork.reset), so no state may pass from one end to the next, in
+// whatever order a worker takes them. Checked within the noise (the
+// allowance of a residual at 1 % lack of fit, as BenchmarkFeasibleBands),
+// with and without zero windows, at GOMAXPROCS 1 (one worker, ends in
+// order) and 2, and on one worker taking the ends in reverse order.
+func TestRangeEndsSameAsFreshSearches(t *testing.T) {
+	const n, m, k = 40, 60, 4
+	c, s := bandsBenchPair(n, m, k)
+	zs := make([][]bool, k)
+	zs[1] = make([]bool, m)
+	for i := 45; i < m; i++ {
+		zs[1][i] = true
+	}
+	rss := 1e-4 * traceProd(gram(c), gram(s))
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	for _, o := range []BandOptions{
+		{Mode: Species, ResidualSS: rss},
+		{Mode: Species, ResidualSS: rss, ZeroSpectra: zs},
+	} {
+		o.Tolerance, o.MaxEvaluations, o.Alpha = 1e-3, 4000, 0.05
+		p := &bandProblem{c: c, s: s, n: n, m: m, k: k, opt: o}
+		if err := p.setup(); err != nil {
+			t.Fatal(err)
+		}
+		p.newWork()
+		p.allow = noiseAllowance(rss, n, m, k, o.Alpha)
+		fresh := make([]bandEnd, 2*k)
+		for e := range fresh {
+			q := *p
+			q.newWork()
+			fresh[e] = q.end(e/2, 1-2*float64(e%2))
+		}
+		check := func(how string, got []bandEnd) {
+			for e, g := range got {
+				w := fresh[e]
+				if g.err != nil || w.err != nil || !sameEnd(g, w) {
+					t.Errorf("windows %v, %s: end %d: f %v ok %v (%d evaluations), fresh %v ok %v (%d)", o.ZeroSpectra != nil, how, e, g.f, g.ok, g.evals, w.f, w.ok, w.evals)
+				}
+			}
+		}
+		for _, procs := range []int{1, 2} {
+			runtime.GOMAXPROCS(procs)
+			got, err := p.allExtremes()
+			if err != nil {
+				t.Fatal(err)
+			}
+			check(fmt.Sprintf("GOMAXPROCS %d", procs), got)
+		}
+		q := *p
+		q.newWork()
+		rev := make([]bandEnd, 2*k)
+		for e := len(rev) - 1; e >= 0; e-- {
+			q.work.reset()
+			rev[e] = q.end(e/2, 1-2*float64(e%2))
+		}
+		check("reverse order", rev)
+	}
+}
+
+// sameEnd says whether two range ends hold the same bits.
+func sameEnd(a, b bandEnd) bool {
+	same := func(x, y []float64) bool {
+		if len(x) != len(y) {
+			return false
+		}
+		for i := range x {
+			if math.Float64bits(x[i]) != math.Float64bits(y[i]) {
+				return false
+			}
+		}
+		return true
+	}
+	return math.Float64bits(a.f) == math.Float64bits(b.f) && a.ok == b.ok && a.evals == b.evals &&
+		same(a.profile, b.profile) && same(a.spectrum, b.spectrum)
 }
