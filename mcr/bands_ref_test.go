@@ -342,14 +342,16 @@ func TestClippedRowsBothWaysSame(t *testing.T) {
 // where the sign bit is set in a non-negative column, and each row's word
 // of clipped columns. Signs are random, a sixth of the entries exactly 0
 // (so that +0 and −0 products meet), and k runs over 1 … 16, the widths
-// the lanes take; skipped where there is no vector path.
+// the lanes take; skipped where there is no vector path. Past the whole
+// panels (rows beyond the last four, and four rows more) out, minus and
+// clipped must keep what they held: the lanes write only the panels asked.
 func TestRotatedPanelsSameAsRows(t *testing.T) {
 	if !havePanels {
 		t.Skip("no vector path on this processor or build")
 	}
 	rng := rand.New(rand.NewPCG(5, 6))
 	for k := 1; k <= 16; k++ {
-		for _, rows := range []int{4, 9, 64} {
+		for _, rows := range []int{4, 7, 9, 64} {
 			x, vt := make([]float64, rows*k), make([]float64, k*k)
 			for i := range x {
 				if rng.IntN(6) > 0 {
@@ -367,9 +369,26 @@ func TestRotatedPanelsSameAsRows(t *testing.T) {
 			}
 			want, wantMinus, wantClip := make([]float64, rows*k), make([]float64, rows*k), make([]uint64, rows)
 			rotatedRows(want, wantMinus, wantClip, x, vt, nn, k)
-			got, gotMinus, gotClip := make([]float64, rows*k), make([]float64, rows*k), make([]uint64, rows)
+			const mark = 0x7ff8_dead_beef_0001 // a NaN no sum gives
+			got, gotMinus, gotClip := make([]float64, (rows+4)*k), make([]float64, (rows+4)*k), make([]uint64, rows+4)
+			for i := range got {
+				got[i], gotMinus[i] = math.Float64frombits(mark), math.Float64frombits(mark)
+			}
+			for i := range gotClip {
+				gotClip[i] = mark
+			}
 			xp := rowPanels(x, k)
 			rotatedPanels(&got[0], &gotMinus[0], &gotClip[0], &xp[0], &vt[0], &nnm[0], &spreadBits[0], k, rows/4)
+			for i := rows / 4 * 4; i < rows+4; i++ {
+				if gotClip[i] != mark {
+					t.Errorf("k %d rows %d: clipped word of row %d written past the panels", k, rows, i)
+				}
+				for j := 0; j < k; j++ {
+					if e := i*k + j; math.Float64bits(got[e]) != mark || math.Float64bits(gotMinus[e]) != mark {
+						t.Errorf("k %d rows %d: entry (%d, %d) written past the panels", k, rows, i, j)
+					}
+				}
+			}
 			for i := 0; i < rows/4*4; i++ {
 				if gotClip[i] != wantClip[i] {
 					t.Errorf("k %d row %d: clipped %b, want %b", k, i, gotClip[i], wantClip[i])
