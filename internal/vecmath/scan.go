@@ -26,8 +26,11 @@ func AllPositiveFinite(x []float64) bool {
 // returns the largest x[i] (−Inf for none) and the smallest positive
 // |x[i] − p[i]| (+Inf for none), for x, p, a and b without NaN: maxima and
 // a minimum, the same whatever order they are taken in, so four lanes at
-// a time give the values one at a time gives. a, b and p must be at least
-// as long as x.
+// a time give the values one at a time gives. One exception: when the
+// largest x[i] is a zero and x holds both −0 and +0, the lanes may return
+// +0 where the loop returns the first zero met (−0 > +0 is false either
+// way); a and b are raised bit for bit as the loop raises them. The noise
+// model passes positive beams. a, b and p must be at least as long as x.
 func RaiseAndStep(a, b, x, p []float64) (largest, step float64) {
 	a, b, p = a[:len(x)], b[:len(x)], p[:len(x)]
 	largest, step = math.Inf(-1), math.Inf(1)

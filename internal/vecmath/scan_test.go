@@ -92,6 +92,36 @@ func TestRaiseAndStep(t *testing.T) {
 	}
 }
 
+// The one difference RaiseAndStep documents: with −0 before +0 as the
+// largest values the lanes may give +0 where the loop gives −0; the value
+// is the same zero (IEEE 754-2008 §5.11: −0 = +0) and a, b and the step
+// are bit for bit the loop's.
+func TestRaiseAndStepZeroSign(t *testing.T) {
+	nz := math.Copysign(0, -1)
+	x, p := []float64{nz, 0, -1, -1, nz}, []float64{1, 1, 1, 1, 1}
+	a0 := []float64{math.Inf(-1), math.Inf(-1), nz, 0, math.Inf(-1)}
+	b0 := []float64{0, nz, -2, -2, 0}
+	wa, wb := append([]float64(nil), a0...), append([]float64(nil), b0...)
+	for i, v := range x {
+		wa[i], wb[i] = max2(wa[i], v), max2(wb[i], v)
+	}
+	a, b := append([]float64(nil), a0...), append([]float64(nil), b0...)
+	l, s := RaiseAndStep(a, b, x, p)
+	sameBits(t, "RaiseAndStep a", a, wa)
+	sameBits(t, "RaiseAndStep b", b, wb)
+	if l != 0 || s != 1 {
+		t.Errorf("largest %v, step %v; want a zero and 1", l, s)
+	}
+}
+
+// max2 is the loop's raise: t becomes v only when v > t.
+func max2(t, v float64) float64 {
+	if v > t {
+		return v
+	}
+	return t
+}
+
 // NextAtOrBelow against a loop over the definition, at every place of a hit
 // in slices of every length up to a few vectors, with NaN, ties (x = a
 // counts, x = b does not) and infinities.
