@@ -7,9 +7,12 @@
 // and, if asked, running maxima. For the noise model of single beams it
 // also forms squared quotients over a constant, with and without a share
 // added, and their logarithms (QuoSquares, LogQuoSquares), tests a slice
-// for positive finite values (AllPositiveFinite) and takes running maxima
-// with the smallest change from another slice (RaiseAndStep), each in one
-// pass; maxima and minima are the same in any order.
+// for positive finite values (AllPositiveFinite), takes running maxima
+// with the smallest change from another slice (RaiseAndStep) and finds the
+// first value at or below two limits (NextAtOrBelow), each in one pass;
+// maxima and minima are the same in any order (RaiseAndStep's zero sign
+// aside). These scans compare four lanes at a time on amd64 with AVX2, and
+// elsewhere, and with the purego build tag, take the Go loops.
 //
 // Quotients: IEEE 754 division is correctly rounded, so on amd64 with AVX2
 // four lanes of VDIVPD give the bits of four divisions one at a time, at
