@@ -940,9 +940,8 @@ type clippedRows struct {
 	// For formDense: per row its clipped entries' bits, per column 1 when
 	// non-negative.
 	clipped, nn []uint64
-	// With havePanels and k ≤ 16: X's rows in panels of four (rowPanels)
-	// and per column all ones when non-negative, for rotatedPanels.
-	xp  []float64
+	// With the rows in panels (marginSide.xp): per column all ones when
+	// non-negative, for rotatedPanels.
 	nnm []uint64
 }
 
@@ -966,7 +965,7 @@ func (cr *clippedRows) form(ms *marginSide, v []float64) {
 			cr.nn[j] = b2u(ms.nn[j])
 		}
 		if ms.xp != nil {
-			cr.xp, cr.nnm = ms.xp, make([]uint64, k)
+			cr.nnm = make([]uint64, k)
 			for j := range cr.nnm {
 				cr.nnm[j] = -cr.nn[j]
 			}
@@ -1015,11 +1014,11 @@ func (cr *clippedRows) formDense(ms *marginSide, v []float64) {
 	k, x := ms.k, ms.x
 	cr.dense = true
 	ms.transposeV(v)
-	if cr.xp != nil {
+	if ms.xp != nil {
 		// Whole panels in the vector lanes, the last rows in Go: the
 		// same sums in the same order.
 		p := len(x) / k / 4
-		rotatedPanels(&cr.full[0], &cr.minus[0], &cr.clipped[0], &cr.xp[0], &ms.vt[0], &cr.nnm[0], &spreadBits[0], k, p)
+		rotatedPanels(&cr.full[0], &cr.minus[0], &cr.clipped[0], &ms.xp[0], &ms.vt[0], &cr.nnm[0], &spreadBits[0], k, p)
 		at := 4 * p * k
 		rotatedRows(cr.full[at:], cr.minus[at:], cr.clipped[4*p:], x[at:], ms.vt, cr.nn, k)
 	} else {
