@@ -764,8 +764,7 @@ func (p *bandProblem) riseSparse() float64 {
 	clear(gy)
 	// Blocks of X'X: [0:k,0:k] A₋ᵀA₋, [0:k,k:2k] A₋ᵀA (then − A₋ᵀA₋),
 	// [k:2k,k:2k] AᵀA − A₋ᵀA − AᵀA₋ + A₋ᵀA₋; Y'Y likewise.
-	ctam := w.sq[0] // CᵀA₋
-	clear(ctam)
+	ctam := w.sq[0] // CᵀA₋, set whole from ctamT below
 	w.rowsC.form(w.sideC, w.t)
 	w.rowsS.form(w.sideS, w.tinvT)
 	// The clipped entries' products with each other visit the clipped
