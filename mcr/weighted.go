@@ -159,7 +159,9 @@ func (f WeightedFit) ResidualToNoise(n, m, k int) float64 {
 // sums of the residual on the calling goroutine, those of the data and the
 // weights alone (Σ d², Σ 1/(a b), the count), which do not depend on C and
 // S, on a second one beside it. Every sum is the same sequence of additions
-// whichever runs first, so the figures do not depend on GOMAXPROCS.
+// whichever runs first, so the figures do not depend on GOMAXPROCS. Both
+// goroutines call missing, at the same time, so it must be safe for
+// concurrent use (a lookup that only reads, as spectra.Blind.Has).
 func FitWeighted(d, c, s *mat.Dense, row, col []float64, missing func(i, j int) bool) WeightedFit {
 	var tot, nss float64
 	var obs int
