@@ -40,6 +40,9 @@ type ahead struct {
 	efaCSV         []byte     // efa.csv of efa for efaTimes, formatted by the goroutine
 	efaTimes       []float64
 	efaExp         []int
+	// failed says a task panicked (written by the goroutine, read after
+	// done): the parts and efa.csv are then made again by their writers.
+	failed bool
 }
 
 // startAhead begins the goroutine; a nil ahead does nothing.
@@ -48,10 +51,27 @@ func startAhead() *ahead {
 	go func() {
 		defer close(a.done)
 		for t := range a.tasks {
-			t()
+			if !a.failed {
+				a.failed = !runTask(t)
+			}
 		}
 	}()
 	return a
+}
+
+// runTask runs t, false when it panicked. A panic on this goroutine would
+// end the program, past the recovery a batch puts around each run on the
+// run's own goroutine (cmd/bandsolve runOne); it is dropped here instead,
+// what t would have made is made again by its writer, and the panic, if
+// any, is met there, where it was before figures were drawn ahead.
+func runTask(t func()) (ok bool) {
+	defer func() {
+		if recover() != nil {
+			ok = false
+		}
+	}()
+	t()
+	return true
 }
 
 // add queues f, which reads only what it was given.
@@ -171,7 +191,7 @@ func (a *ahead) efaFile(r *Result) ([]byte, bool) {
 		return nil, false
 	}
 	a.wait()
-	if a.efaCSV == nil || !sameBits(a.efaTimes, r.Times) || !slices.Equal(a.efaExp, r.ExpOfRow) {
+	if a.failed || a.efaCSV == nil || !sameBits(a.efaTimes, r.Times) || !slices.Equal(a.efaExp, r.ExpOfRow) {
 		return nil, false
 	}
 	return a.efaCSV, true
@@ -299,6 +319,9 @@ func (a *ahead) mapsFile(r *Result) (mapsFile, bool) {
 		return mapsFile{}, false
 	}
 	a.wait()
+	if a.failed {
+		return mapsFile{}, false
+	}
 	data := dataMatrices(r)
 	if data == nil || !a.data.holds(r, data) {
 		return mapsFile{}, false

@@ -10,6 +10,8 @@ import (
 
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/report"
+	"github.com/bandsolve/bandsolve/mcr"
+	"gonum.org/v1/gonum/mat"
 )
 
 // sameAsFromFiles checks that the folder out holds the report and figure
@@ -110,5 +112,33 @@ func TestFiguresDrawnAheadRedrawnWhenTheDataChange(t *testing.T) {
 	}
 	if _, ok := r.ahead.mapsFile(r); ok {
 		t.Error("maps.csv joined from data copied before the baseline was subtracted")
+	}
+}
+
+// A task of the goroutine that draws ahead which panics does not end the
+// program (the Go specification, "Handling panics": a panic not recovered
+// on its own goroutine does): the goroutine drops it and the rest of its
+// tasks, ends when waited for, and maps.csv and efa.csv, although formatted
+// before the panic from values the run still holds, are left to their
+// writers, as when nothing was drawn ahead.
+func TestAheadTaskPanicLeavesTheFilesToTheWriters(t *testing.T) {
+	r := &Result{Mode: mcr.Reactions, D: mat.NewDense(3, 2, []float64{1, 2, 3, 4, 5, 6}),
+		Axis: []float64{1000, 1002}, Times: []float64{0, 60, 120}, ExpOfRow: []int{0, 0, 0}, EFA: &EFAReport{}}
+	a := startAhead()
+	a.data = snapMaps(r, dataMatrices(r))
+	a.efa, a.efaTimes, a.efaExp = r.EFA, r.Times, r.ExpOfRow
+	a.add(func() { a.data.format(); a.efaCSV = []byte("time\n0\n60\n120\n") })
+	a.add(func() { panic("drawing failed") })
+	after := false
+	a.add(func() { after = true })
+	a.wait()
+	if !a.failed || after {
+		t.Fatalf("failed %v, task after the panic run %v: want true, false", a.failed, after)
+	}
+	if _, ok := a.mapsFile(r); ok {
+		t.Error("maps.csv joined from parts after a task panicked")
+	}
+	if _, ok := a.efaFile(r); ok {
+		t.Error("efa.csv taken as formatted ahead after a task panicked")
 	}
 }
