@@ -5,6 +5,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"reflect"
 	"slices"
 	"testing"
 
@@ -140,5 +141,28 @@ func TestAheadTaskPanicLeavesTheFilesToTheWriters(t *testing.T) {
 	}
 	if _, ok := a.efaFile(r); ok {
 		t.Error("efa.csv taken as formatted ahead after a task panicked")
+	}
+}
+
+// The EFA begun beside the factor analysis (startEFA) is the one efaReport
+// computes itself once the components are known (the reference:
+// evolvingFactors on the run's factors), on the demo, whose noise weights
+// make it EFA of the scaled factors.
+func TestEFABegunEarlyIsEFAReports(t *testing.T) {
+	r, err := Demo(filepath.Join(t.TempDir(), "demo"), false, true, false, Streams{Out: io.Discard, Err: io.Discard})
+	if err != nil {
+		t.Fatal(err)
+	}
+	early, ok := r.earlyEFA.get()
+	if !ok || early.k != r.Components || early.err != nil {
+		t.Fatalf("EFA begun early: %v, for %d components (%v); the run has %d", ok, early.k, early.err, r.Components)
+	}
+	r.earlyEFA = nil
+	rep, err := efaReport(r)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !reflect.DeepEqual(early.rep, rep) {
+		t.Error("EFA begun early differs from efaReport's own")
 	}
 }

@@ -107,17 +107,34 @@ type efaOutcome struct {
 func startEFA(r *Result, k int) {
 	n, m := r.D.Dims()
 	f := min(k+1, n, m)
-	fac := r.ScaledFactors
-	if k < 1 || !weighted(r) || fac == nil || len(fac.S) < f {
+	fac := scaledFactorsFor(r, f)
+	if k < 1 || fac == nil {
 		return
 	}
 	r.earlyEFA = startLater(func() efaOutcome {
-		e, err := svd.EFAOfFactors(fac, f)
+		e, sigma, err := scaledEFA(fac, f)
 		if err != nil {
 			return efaOutcome{k: k, err: err}
 		}
-		return efaOutcome{k: k, rep: newEFAReport(e, math.Sqrt(noiseModelSlack), true, k, n, m, f)}
+		return efaOutcome{k: k, rep: newEFAReport(e, sigma, true, k, n, m, f)}
 	})
+}
+
+// scaledFactorsFor are the factors of √A D √B that evolvingFactors takes
+// EFA of with f curves (with noise weights); nil when it takes EFA of D.
+// startEFA begins exactly the EFA evolvingFactors would run.
+func scaledFactorsFor(r *Result, f int) *svd.Factors {
+	if weighted(r) && r.ScaledFactors != nil && len(r.ScaledFactors.S) >= f {
+		return r.ScaledFactors
+	}
+	return nil
+}
+
+// scaledEFA is EFA with f curves of √A D √B from its factors fac, and the
+// noise level its windows are judged against (evolvingFactors says why).
+func scaledEFA(fac *svd.Factors, f int) (*svd.EFAResult, float64, error) {
+	e, err := svd.EFAOfFactors(fac, f)
+	return e, math.Sqrt(noiseModelSlack), err
 }
 
 // evolvingFactors runs EFA with f curves and returns the noise level its
@@ -136,9 +153,9 @@ func startEFA(r *Result, k int) {
 // 2–3 % above σ = 1 made a species appear 35 spectra before it was added.
 // Without weights, EFA of D with its noise from the rank step.
 func evolvingFactors(r *Result, f int) (e *svd.EFAResult, sigma float64, scaled bool, err error) {
-	if weighted(r) && r.ScaledFactors != nil && len(r.ScaledFactors.S) >= f {
-		e, err = svd.EFAOfFactors(r.ScaledFactors, f)
-		return e, math.Sqrt(noiseModelSlack), true, err
+	if fac := scaledFactorsFor(r, f); fac != nil {
+		e, sigma, err = scaledEFA(fac, f)
+		return e, sigma, true, err
 	}
 	if !weighted(r) && r.Factors != nil && len(r.Factors.S) >= f { // with weights they are D̃'s
 		e, err = svd.EFAFrom(r.D, r.Factors, f)
