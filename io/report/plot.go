@@ -518,19 +518,28 @@ func render(p, bar *plot.Plot, w, h vg.Length) (svg string, dr drawing, err erro
 			p.Draw(dc)
 		}
 	}}
+	s, err := svgOf(dr)
+	return s, dr, err
+}
+
+// svgOf is the drawing's SVG, vgsvg's bytes (cleanSVG aside), with the
+// long paths' data formatted by svgCanvas, or by vgsvg alone when they
+// could not be put in place.
+func svgOf(dr drawing) (string, error) {
 	s, ok, err := drawSVG(dr, true)
 	if err == nil && !ok {
 		s, _, err = drawSVG(dr, false)
 	}
 	if err != nil {
-		return "", dr, err
+		return "", err
 	}
-	return cleanSVG(s), dr, nil
+	return cleanSVG(s), nil
 }
 
 // drawSVG writes the drawing as SVG, with the long paths' data formatted
 // by svgCanvas when held; ok is false when they could not be put in place
-// (svgCanvas.fill), and the drawing must be written again without.
+// (svgCanvas.fill), and the drawing must be written again without (vgsvg
+// alone, whose bytes are taken as they are).
 func drawSVG(dr drawing, held bool) (s string, ok bool, err error) {
 	c := &svgCanvas{Canvas: vgsvg.New(dr.w, dr.h)}
 	var cv vg.CanvasSizer = c
@@ -541,6 +550,9 @@ func drawSVG(dr drawing, held bool) (s string, ok bool, err error) {
 	var b bytes.Buffer
 	if _, err := c.WriteTo(&b); err != nil {
 		return "", false, fmt.Errorf("writing SVG: %w", err)
+	}
+	if !held {
+		return b.String(), true, nil // a placeholder of the figure's own is its own
 	}
 	s, ok = c.fill(b.String())
 	return s, ok, nil

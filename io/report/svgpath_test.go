@@ -84,3 +84,53 @@ func TestHeldPathsAreVgsvgs(t *testing.T) {
 		t.Errorf("%d paths held over all figures: the lines and bands should be", held)
 	}
 }
+
+// When the held paths do not match the placeholders one to one (a long
+// line of zero width, which vgsvg leaves out; a path of a figure's own to
+// the placeholder's point), the SVG is the one vgsvg writes alone (the
+// reference), with every path it draws, not one with data in the wrong
+// places or none.
+func TestHeldPathsFallBackToVgsvg(t *testing.T) {
+	long := func(x0 float64) vg.Path {
+		var p vg.Path
+		p.Move(vg.Point{X: vg.Length(x0), Y: 10})
+		for i := 1; i < 2*heldMin; i++ {
+			p.Line(vg.Point{X: vg.Length(x0 + float64(i)), Y: vg.Length(10 + i%7)})
+		}
+		return p
+	}
+	var own vg.Path
+	own.Move(vg.Point{X: heldPoint, Y: heldPoint})
+	for _, c := range []struct {
+		name  string
+		paths int // the paths vgsvg writes
+		draw  func(dc draw.Canvas)
+	}{
+		{"zero width", 1, func(dc draw.Canvas) {
+			dc.SetLineWidth(0)
+			dc.Stroke(long(1))
+			dc.SetLineWidth(1)
+			dc.Stroke(long(40))
+		}},
+		{"placeholder of its own", 3, func(dc draw.Canvas) {
+			dc.Stroke(long(1))
+			dc.Stroke(own)
+			dc.Stroke(long(40))
+		}},
+	} {
+		dr := drawing{w: 100, h: 50, draw: c.draw}
+		if _, ok, err := drawSVG(dr, true); err != nil || ok {
+			t.Fatalf("%s: held paths put in place (%v, %v): the case does not test the fallback", c.name, ok, err)
+		}
+		plain, _, err := drawSVG(dr, false)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if n := strings.Count(plain, "<path "); n != c.paths || !strings.Contains(plain, "</svg>") {
+			t.Fatalf("%s: vgsvg's own SVG has %d paths, want %d:\n%s", c.name, n, c.paths, plain)
+		}
+		if got, err := svgOf(dr); err != nil || got != cleanSVG(plain) {
+			t.Errorf("%s: SVG differs from vgsvg's own (%v)", c.name, err)
+		}
+	}
+}
