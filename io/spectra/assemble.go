@@ -103,6 +103,24 @@ type AssembleOptions struct {
 	Consume bool
 }
 
+// onDataAxis checks that the blank and a reference file have one value per
+// channel of the data: the kernels that ratio a row against them run to the
+// row's length, and a shorter spectrum would be read as zeros (copy stops
+// early), a longer one would write past the row.
+func onDataAxis(m int, opt AssembleOptions) error {
+	if opt.Blank != nil && len(opt.Blank) != m {
+		src := opt.BlankSource
+		if src == "" {
+			src = "blank"
+		}
+		return fmt.Errorf("%s has %d points and the data %d: put it on the data's axis first (spectra.OnAxis)", src, len(opt.Blank), m)
+	}
+	if f := opt.Reference.File; f != nil && len(f.Values) != m {
+		return fmt.Errorf("reference spectrum has %d points and the data %d: put it on the data's axis first (spectra.OnAxis)", len(f.Values), m)
+	}
+	return nil
+}
+
 // Assemble builds absorbance and difference matrices from the series.
 // For single beams A = −log10(I/I_blank) and ΔA = −log10(I/I_ref) with I_ref
 // the reference single beam; the blank cancels in ΔA (a ratio of ratios), so
@@ -110,6 +128,9 @@ type AssembleOptions struct {
 // spectra give exactly zero, because log10(x/x) = log10(1) = 0 exactly.
 func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 	n, m := s.Values.Dims()
+	if err := onDataAxis(m, opt); err != nil {
+		return nil, err
+	}
 	out := &Assembled{}
 	ref := make([]float64, m)
 	if opt.Reference.File != nil {

@@ -1,6 +1,7 @@
 package spectra
 
 import (
+	"strings"
 	"testing"
 )
 
@@ -40,6 +41,28 @@ func TestAssembleConsumeSameValues(t *testing.T) {
 					t.Errorf("%s: A %d,%d: %v consumed, %v copied", kind, i, j, got.Absolute.At(i, j), want.Absolute.At(i, j))
 				}
 			}
+		}
+	}
+}
+
+// A blank or reference file with another number of points than the data is
+// refused with one line naming both counts, instead of being read as zeros
+// (shorter) or written past a row (longer): a ratio needs one value per
+// channel (absorbance definition, IUPAC Gold Book "absorbance").
+func TestAssembleRefusesSpectraOffTheDataAxis(t *testing.T) {
+	rows := [][]float64{{100, 10, 1000, 400}, {90, 12, 800, 410}}
+	for _, c := range []struct {
+		name string
+		opt  AssembleOptions
+		want string
+	}{
+		{"short blank", AssembleOptions{Kind: SingleBeam, Blank: []float64{1000, 1000, 1000}, BlankSource: "bg.csv"}, "bg.csv has 3 points and the data 4"},
+		{"long blank", AssembleOptions{Kind: SingleBeam, Blank: []float64{1, 2, 3, 4, 5}}, "blank has 5 points and the data 4"},
+		{"short reference", AssembleOptions{Kind: Absorbance, Reference: Reference{File: &Spectrum{Values: []float64{1, 2}}}}, "reference spectrum has 2 points and the data 4"},
+	} {
+		_, err := Assemble(series(rows...), c.opt)
+		if err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%s: error %v, want one containing %q", c.name, err, c.want)
 		}
 	}
 }
