@@ -283,13 +283,8 @@ func (m *aheadMaps) format() {
 // axis and times m's: then m's part is theirs. Values are compared bit for
 // bit (a NaN matches the same NaN).
 func (m *aheadMaps) holds(r *Result, mats []mapSource) bool {
-	if m == nil || len(mats) != len(m.names) || !sameBits(m.axis, r.Axis) || !sameBits(m.times, r.Times) || len(m.exp) != len(r.ExpOfRow) {
+	if m == nil || len(mats) != len(m.names) || !sameBits(m.axis, r.Axis) || !sameBits(m.times, r.Times) || !slices.Equal(m.exp, r.ExpOfRow) {
 		return false
-	}
-	for i, e := range m.exp {
-		if r.ExpOfRow[i] != e {
-			return false
-		}
 	}
 	for q, mm := range mats {
 		if mm.name != m.names[q] || !sameBits(m.vals[q], m.at(mm)) {
