@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 
+	"github.com/bandsolve/bandsolve/internal/product"
 	"github.com/bandsolve/bandsolve/mcr"
 	"gonum.org/v1/gonum/mat"
 )
@@ -27,6 +28,8 @@ import (
 // whatever order k1, k2, k3 come in, and consecutive steps have the
 // slow–fast ambiguity. Non-negative spectra (absorbance, common practice)
 // often can: the wrong order needs a negative band to fit.
+//
+// D must be finite, as FitData requires of the same data.
 func NonNegativeCost(s *Scheme, times []float64, d *mat.Dense, k []float64, opt FitOptions) (float64, error) {
 	if s == nil || d == nil {
 		return 0, errors.New("kinetics: non-negative cost: missing scheme or data")
@@ -57,8 +60,11 @@ func NonNegativeCost(s *Scheme, times []float64, d *mat.Dense, k []float64, opt 
 	_, q := c.Dims()
 	basis := mat.DenseCopyOf(c)
 	orthonormalize(basis)
-	var r, qd mat.Dense
+	var r mat.Dense
 	r.Mul(basis.T(), c) // q × q
+	// Qᵀ D as (Dᵀ Q)ᵀ: product.MulT forms the same sums as Dgemm bit for bit
+	// for finite data (see pseudoSolve), several times faster at q columns.
+	var dq *mat.Dense
 	if opt.RowWeights != nil {
 		// Qᵀ √A D, the data weighted as the model is: (√A Q)ᵀ D, which
 		// scales n × q numbers instead of copying the n × m data.
@@ -70,9 +76,9 @@ func NonNegativeCost(s *Scheme, times []float64, d *mat.Dense, k []float64, opt 
 				row[a] *= f
 			}
 		}
-		qd.Mul(wq.T(), d)
+		dq = product.MulT(d, wq)
 	} else {
-		qd.Mul(basis.T(), d) // q × m
+		dq = product.MulT(d, basis) // m × q
 	}
 	var cost float64
 	b := make([]float64, q)
@@ -82,7 +88,7 @@ func NonNegativeCost(s *Scheme, times []float64, d *mat.Dense, k []float64, opt 
 			f = math.Sqrt(opt.ColWeights[j])
 		}
 		for a := 0; a < q; a++ {
-			b[a] = f * qd.At(a, j)
+			b[a] = f * dq.At(j, a)
 		}
 		x, err := mcr.NNLS(&r, b)
 		if err != nil {
