@@ -274,9 +274,8 @@ func (p *fitProblem) residual(theta, r []float64) error {
 			return err
 		}
 		// r = (I − U Uᵀ) D_red
-		var ut, proj mat.Dense
-		ut.Mul(u.T(), p.dred)
-		proj.Mul(u, &ut)
+		// By internal/product: the sums of mat.Dense.Mul, bit for bit.
+		proj := product.Mul(u, product.MulT(u, p.dred))
 		_, w := p.dred.Dims()
 		for i := 0; i < p.n; i++ {
 			for j := 0; j < w; j++ {

@@ -5,6 +5,7 @@ import (
 	"math"
 	"sort"
 
+	"github.com/bandsolve/bandsolve/internal/product"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -348,26 +349,32 @@ func (p *fitProblem) dataJacobian(m *mat.Dense, dm []*mat.Dense, jac *mat.Dense)
 		jac.Zero()
 		return nil
 	}
-	var utd, s, res mat.Dense
-	utd.Mul(u.T(), d) // r × w
+	// The products with n rows by internal/product, bit for bit those of
+	// mat.Dense.Mul (the same sums in the same order) without Dgemm's
+	// goroutine per 64-row block and vector call per entry.
+	utd := product.MulT(u, d) // r × w
+	var s mat.Dense
 	sigInv := mat.NewDense(r, r, nil)
 	for a, x := range sv {
 		sigInv.Set(a, a, 1/x)
 	}
 	var vs mat.Dense
 	vs.Mul(v, sigInv) // q × r: V Σ⁻¹
-	s.Mul(&vs, &utd)  // q × w: S = M⁺ D
-	res.Mul(u, &utd)
-	res.Sub(d, &res) // n × w: R = (I − P) D
-	var ds, utdm, inner, t, z, col mat.Dense
+	s.Mul(&vs, utd)   // q × w: S = M⁺ D
+	res := product.Mul(u, utd)
+	res.Sub(d, res) // n × w: R = (I − P) D
+	q, _ := s.Dims()
+	ds, col := mat.NewDense(n, w, nil), mat.NewDense(n, w, nil)
+	utdm, t := mat.NewDense(r, q, nil), mat.NewDense(q, w, nil)
+	var inner, z mat.Dense
 	for a, dma := range dm {
-		ds.Mul(dma, &s)      // n × w
-		utdm.Mul(u.T(), dma) // r × q
-		inner.Mul(&utdm, &s) // r × w
-		t.Mul(dma.T(), &res) // q × w
-		z.Mul(vs.T(), &t)    // r × w: Σ⁻¹ Vᵀ (∂M)ᵀ R
+		product.MulTo(ds, dma, &s)   // n × w
+		product.MulTTo(utdm, u, dma) // r × q
+		inner.Mul(utdm, &s)          // r × w
+		product.MulTTo(t, dma, res)  // q × w
+		z.Mul(vs.T(), t)             // r × w: Σ⁻¹ Vᵀ (∂M)ᵀ R
 		inner.Sub(&inner, &z)
-		col.Mul(u, &inner) // n × w
+		product.MulTo(col, u, &inner) // n × w
 		for i := 0; i < n; i++ {
 			dsr, cr := ds.RawRowView(i), col.RawRowView(i)
 			for j := 0; j < w; j++ {
