@@ -105,12 +105,6 @@ func (a *ahead) predrawn() *report.Predrawn {
 	return &a.pre
 }
 
-// timeUnitRecord is the line of the as-run record the figures read
-// (report.Folder.AsRun): the chosen --time-unit.
-func timeUnitRecord(s *Settings) *report.Text {
-	return &report.Text{Body: "time-unit " + s.TimeUnit}
-}
-
 // summaryAhead is the summary.json keys in s as the report reads them back
 // (an encoding and decoding, as the file's).
 func summaryAhead(s *output.Summary) *report.Summary {
@@ -139,7 +133,7 @@ func (a *ahead) aheadData(r *Result) {
 	}
 	m := snapMaps(r, mats)
 	a.data = m
-	folder := &report.Folder{Summary: &report.Summary{Axis: r.AxisName, Mode: r.Mode.String()}, AsRun: timeUnitRecord(r.Settings)}
+	folder := &report.Folder{Summary: &report.Summary{Axis: r.AxisName, Mode: r.Mode.String()}, AsRun: report.TimeUnitRecord(r.Settings.TimeUnit)}
 	a.add(func() {
 		m.format()
 		folder.Maps = m.part.Maps()
@@ -175,7 +169,7 @@ func (a *ahead) aheadEFA(r *Result) {
 	rep, multi := r.EFA, len(r.Experiments) > 1
 	a.efaTimes, a.efaExp = append([]float64(nil), r.Times...), append([]int(nil), r.ExpOfRow...)
 	times, exp := a.efaTimes, a.efaExp
-	tu := timeUnitRecord(r.Settings)
+	tu := report.TimeUnitRecord(r.Settings.TimeUnit)
 	a.add(func() {
 		a.efaCSV = efaTable(rep, times, exp, multi).CSV()
 		if t, err := report.ParseTable("efa.csv", a.efaCSV); err == nil {
@@ -208,7 +202,7 @@ func (a *ahead) aheadFit(r *Result) {
 	csv := iterationsTable(r).CSV()
 	sum := &output.Summary{Axis: r.AxisName, NoiseSigma: round(r.NoiseSigma), NoiseLackOfFitPercent: round(r.NoiseLOF),
 		LackOfFitPercent: round(r.LackOfFit), Iterations: r.ALS.Iterations, Converged: r.ALS.Converged}
-	tu := timeUnitRecord(r.Settings)
+	tu := report.TimeUnitRecord(r.Settings.TimeUnit)
 	a.add(func() {
 		m.format()
 		t, err := report.ParseTable("iterations.csv", csv)

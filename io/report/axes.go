@@ -119,10 +119,15 @@ func (f *Folder) chosenTimeUnit() string {
 // chosen --time-unit, as a record of that line alone (nil without one).
 func (f *Folder) timeUnitView() *Text {
 	if u := f.chosenTimeUnit(); u != "" {
-		return &Text{Body: "time-unit " + u}
+		return TimeUnitRecord(u)
 	}
 	return nil
 }
+
+// TimeUnitRecord is an as-run record of the --time-unit line alone, the
+// part of the record the figures read: a caller that builds figures before
+// the record is written (Folder.AsRun) hands this in its place.
+func TimeUnitRecord(unit string) *Text { return &Text{Body: "time-unit " + unit} }
 
 // timeUnit is the unit the figures show times of a run spanning span
 // seconds in: the chosen --time-unit, else one picked from the span.
