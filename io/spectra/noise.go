@@ -529,9 +529,9 @@ func scanBeams(v *mat.Dense, badChannel []bool) beamScan {
 				prev = v.RawRowView(i - 1)[:m]
 			}
 			if i == r0 && i > 0 {
-				prevClean = positiveFinite(prev)
+				prevClean = vecmath.AllPositiveFinite(prev)
 			}
-			clean := positiveFinite(row)
+			clean := vecmath.AllPositiveFinite(row)
 			if clean {
 				rowMax[i], bq = scanCleanRow(row, prev, prevClean, badChannel, len(badList) > 0, bc, bt, bq)
 				if len(badList) > 0 {
@@ -595,12 +595,6 @@ func (sc *beamScan) finish(v *mat.Dense, badChannel []bool, badList []int, b *Bl
 	if math.IsInf(sc.quantum, 1) {
 		sc.quantum = 0
 	}
-}
-
-// positiveFinite says whether every value of row is positive and finite
-// (vecmath: four values to a test).
-func positiveFinite(row []float64) bool {
-	return vecmath.AllPositiveFinite(row)
 }
 
 // scanCleanRow is scanBeams's work on a row of positive finite beams: the
