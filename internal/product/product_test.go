@@ -178,6 +178,11 @@ func benchShapes(b *testing.B, n, m, k int) {
 			o.Mul(a.T(), c)
 		})
 	})
+	// The AVX2 tiles, the path without AVX-512, in the same run.
+	if haveAVX2 {
+		b.Run("Mul-avx2", func(b *testing.B) { benchOne(b, func() { mulWideVec(mat.NewDense(n, k, nil), a, s, tileRow4) }) })
+		b.Run("MulT-avx2", func(b *testing.B) { benchOne(b, func() { mulTWideVec(mat.NewDense(m, k, nil), a, c, tileRow4) }) })
+	}
 	// The Go loops, the path without AVX2, in the same run.
 	mul, mulT := mulWideGo, mulTWideGo
 	if k <= maxK {

@@ -53,7 +53,7 @@ func wideOK(b *mat.Dense) bool {
 // tiles of widevec.go where the processor has them.
 func mulWide(out, a, b *mat.Dense) {
 	if haveAVX2 {
-		mulWideVec(out, a, b)
+		mulWideVec(out, a, b, vecTiles())
 		return
 	}
 	mulWideGo(out, a, b)
@@ -63,7 +63,7 @@ func mulWide(out, a, b *mat.Dense) {
 // tiles where the processor has them.
 func mulTWide(out, a, b *mat.Dense) {
 	if haveAVX2 {
-		mulTWideVec(out, a, b)
+		mulTWideVec(out, a, b, vecTiles())
 		return
 	}
 	mulTWideGo(out, a, b)

@@ -54,7 +54,10 @@ func untouchedAround(t *testing.T, what string, parent *mat.Dense) {
 // The wide products, each path on its own (the AVX2 tiles of widevec.go and
 // the Go loops of wide.go), must give gonum's mat.Dense.Mul (its Dgemm) bit
 // for bit at every column count 1…40 (every width of the 12-, 8- and
-// 4-column tiles and every padding of a row to a multiple of four), at odd
+// 4-column tiles and every padding of a row to a multiple of four; every
+// width of the AVX-512 tiles of wide512_amd64.s, 9…40, and every mask of
+// their last group of eight) and at wider ones that split into several
+// AVX-512 tiles (41…48 as 32 and the rest, more as 40 and the rest), at odd
 // numbers of rows (the rows past a multiple of four take the Go row loop)
 // and inner lengths, on sub-matrix views for every operand, and at sizes that
 // cross the blocks of the inner index, the bands of output rows and the
@@ -69,8 +72,18 @@ func TestWidePathsEqualGonumBitForBit(t *testing.T) {
 		mul, mtt func(out, a, b *mat.Dense)
 	}{
 		{"go", true, mulWideGo, mulTWideGo},
-		{"avx2", haveAVX2, mulWideVec, mulTWideVec},
+		{"avx2", haveAVX2,
+			func(out, a, b *mat.Dense) { mulWideVec(out, a, b, tileRow4) },
+			func(out, a, b *mat.Dense) { mulTWideVec(out, a, b, tileRow4) }},
+		{"avx512", haveAVX512,
+			func(out, a, b *mat.Dense) { mulWideVec(out, a, b, tileRow4z) },
+			func(out, a, b *mat.Dense) { mulTWideVec(out, a, b, tileRow4z) }},
 	}
+	var widths []int
+	for k := 1; k <= 40; k++ {
+		widths = append(widths, k)
+	}
+	widths = append(widths, 41, 44, 48, 49, 57, 81, 88)
 	rng := rand.New(rand.NewPCG(17, 19))
 	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
 	type shape struct{ n, m int }
@@ -84,7 +97,7 @@ func TestWidePathsEqualGonumBitForBit(t *testing.T) {
 		}
 		shapes = append(shapes, large...)
 		for _, sh := range shapes {
-			for k := 1; k <= 40; k++ {
+			for _, k := range widths {
 				a := view(rng, sh.n, sh.m)
 				b := view(rng, sh.m, k)
 				c := view(rng, sh.n, k)
@@ -110,5 +123,8 @@ func TestWidePathsEqualGonumBitForBit(t *testing.T) {
 	}
 	if !haveAVX2 {
 		t.Log("no AVX2 on this processor or build: the vector path was not run")
+	}
+	if !haveAVX512 {
+		t.Log("no AVX-512 on this processor or build: its tiles were not run")
 	}
 }

@@ -11,7 +11,9 @@ import "gonum.org/v1/gonum/mat"
 // twelve, eight or four columns whose last group of four is loaded and
 // stored under a mask (VMASKMOVPD), so that no padded copy of b or of the
 // result is needed; rows past the last multiple of four take the Go row
-// loop mulRow, the same sums.
+// loop mulRow, the same sums. On a processor with AVX-512 the products of
+// more than twelve columns take tiles of four rows by up to forty columns,
+// eight to a zmm register (wide512_amd64.s), the same sums again.
 
 // tileRow4 adds, for four rows of sums o (stride so) and the inner index
 // l = 0…n−1, a_r(l) b(l) over k columns in tiles of twelve, the last of
@@ -22,8 +24,20 @@ func tileRow4(o []float64, so int, a []float64, ar, al int, b []float64, bl, n, 
 	}
 }
 
-// mulWideVec is mulWideGo on the vector tiles: out (n × k, zero) = a b.
-func mulWideVec(out, a, b *mat.Dense) {
+// rowTiles adds the products of four rows, as tileRow4 (AVX2) and tileRow4z
+// (AVX-512) do.
+type rowTiles func(o []float64, so int, a []float64, ar, al int, b []float64, bl, n, k int)
+
+// vecTiles is the widest vector tiles the processor has.
+func vecTiles() rowTiles {
+	if haveAVX512 {
+		return tileRow4z
+	}
+	return tileRow4
+}
+
+// mulWideVec is mulWideGo on the vector tiles given: out (n × k, zero) = a b.
+func mulWideVec(out, a, b *mat.Dense, tiles rowTiles) {
 	n, m := a.Dims()
 	_, k := b.Dims()
 	ra, rb, ro := a.RawMatrix(), b.RawMatrix(), out.RawMatrix()
@@ -36,7 +50,7 @@ func mulWideVec(out, a, b *mat.Dense) {
 			bb := rb.Data[l0*rb.Stride:]
 			i := i0
 			for ; i+4 <= i1; i += 4 {
-				tileRow4(ro.Data[i*ro.Stride:], ro.Stride, ra.Data[i*ra.Stride+l0:], ra.Stride, 1, bb, rb.Stride, l1-l0, k)
+				tiles(ro.Data[i*ro.Stride:], ro.Stride, ra.Data[i*ra.Stride+l0:], ra.Stride, 1, bb, rb.Stride, l1-l0, k)
 			}
 			for ; i < i1; i++ {
 				mulRow(ro.Data[i*ro.Stride:i*ro.Stride+k], ra.Data[i*ra.Stride+l0:i*ra.Stride+l1], bb, rb.Stride, k)
@@ -45,11 +59,11 @@ func mulWideVec(out, a, b *mat.Dense) {
 	})
 }
 
-// mulTWideVec is mulTWideGo on the vector tiles: out (m × k, zero) = aᵀ b.
+// mulTWideVec is mulTWideGo on the vector tiles given: out (m × k, zero) = aᵀ b.
 // The four output rows of a tile are four neighbouring columns of a, read
 // along the rows of a; the sums of a band of output rows stay in the cache
 // while blocks of rows of a pass.
-func mulTWideVec(out, a, b *mat.Dense) {
+func mulTWideVec(out, a, b *mat.Dense, tiles rowTiles) {
 	n, m := a.Dims()
 	_, k := b.Dims()
 	ra, rb, ro := a.RawMatrix(), b.RawMatrix(), out.RawMatrix()
@@ -64,7 +78,7 @@ func mulTWideVec(out, a, b *mat.Dense) {
 				bb := rb.Data[i0*rb.Stride:]
 				j := jb
 				for ; j+4 <= je; j += 4 {
-					tileRow4(ro.Data[j*ro.Stride:], ro.Stride, aa[j:], 1, ra.Stride, bb, rb.Stride, h, k)
+					tiles(ro.Data[j*ro.Stride:], ro.Stride, aa[j:], 1, ra.Stride, bb, rb.Stride, h, k)
 				}
 				for ; j < je; j++ {
 					mulTColumn(ro.Data[j*ro.Stride:j*ro.Stride+k], aa[j:], ra.Stride, bb, rb.Stride, h)
