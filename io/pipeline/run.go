@@ -165,7 +165,11 @@ func run(s *Settings, log io.Writer, hashInputs bool) (*Result, error) {
 	}
 	r := &Result{Settings: s, Started: time.Now(), BaselineOrder: -1}
 	kind := spectra.Kind(s.Kind)
-	folder := spectra.FolderOptions{TimesFile: s.Path(s.Times), TimesFromName: s.TimesFromName, TimeUnit: inputTimeUnit(s), Resample: s.Resample}
+	folder := spectra.FolderOptions{TimesFile: s.Path(s.Times), TimesFromName: s.TimesFromName, TimeUnit: inputTimeUnit(s), Resample: s.Resample,
+		// Single beams are scanned channel by channel as they are parsed
+		// (the assembly's maxima, blind points and noise scales, the same
+		// values), while each channel's values are in cache.
+		ScanBeams: kind == spectra.SingleBeam, Pre: s.Pre}
 	if s.Times != "" {
 		folder.Exclude = append(folder.Exclude, s.Path(s.Times))
 	}

@@ -24,6 +24,15 @@ type FolderOptions struct {
 	TimeUnit      string   // unit of numbers in names: s, min or h (default s)
 	Resample      bool     // interpolate every file onto the first file's axis
 	Exclude       []string // paths not to treat as spectra (the times table, a blank)
+	// ScanBeams says the data are single beams to be assembled with Pre
+	// spectra before the reaction (AssembleOptions.Pre): a matrix CSV's
+	// parse then takes, channel by channel while each is in cache, the
+	// beams' maxima, blind points, rounding step and the noise model's
+	// per-channel scales, which Assemble would otherwise gather from the
+	// matrix in passes of its own. Neither the series nor the assembly's
+	// results change.
+	ScanBeams bool
+	Pre       int
 }
 
 // spectrumExts are the endings treated as one-spectrum exports in a folder.
@@ -387,6 +396,9 @@ func Load(path string, opt FolderOptions) (*Series, error) {
 			return nil, err
 		}
 		return seriesFromSpectra(path, sps, opt)
+	}
+	if opt.ScanBeams {
+		return readMatrixCSV(path, max(opt.Pre, 0))
 	}
 	return ReadMatrixCSV(path)
 }

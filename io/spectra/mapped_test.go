@@ -49,7 +49,7 @@ func TestReadMatrixCSVMappedSameAsRead(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	want, err := parseMatrixCSV(p, raw)
+	want, err := parseMatrixCSV(p, raw, -1)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -160,12 +160,23 @@ func channelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, stri
 // channelNoiseStep is channelNoise given the rounding step q (quantum of v
 // and blind), taken in a pass that was made anyway.
 func channelNoiseStep(v *mat.Dense, pre int, blind *Blind, q float64) ([]float64, float64, string) {
+	return channelNoiseOwn(v, pre, blind, q, nil, nil)
+}
+
+// channelNoiseOwn is channelNoiseStep given each channel's own scale and
+// count of differences (channelScales), when the parse took them; nil
+// when it did not.
+func channelNoiseOwn(v *mat.Dense, pre int, blind *Blind, q float64, own []float64, cnt []int) ([]float64, float64, string) {
 	n, _ := v.Dims()
 	src := fmt.Sprintf("second differences in time of all %d spectra", n)
 	if pre >= 2 {
 		src = fmt.Sprintf("successive differences of the %d pre-reaction spectra", pre)
 	}
-	sig := pooledRunningMAD(timeDiffs{v: v, pre: pre, blind: blind})
+	d := timeDiffs{v: v, pre: pre, blind: blind}
+	if own == nil {
+		own, cnt = channelScales(d)
+	}
+	sig := runningMAD(d, own, cnt)
 	// A channel with no change at all (synthetic data, a clipped region)
 	// gets a thousandth of the typical σ, not zero: its weight is large but
 	// finite.
@@ -256,12 +267,18 @@ func diffBlock(per int) int {
 // scale of a normal sample; common practice), at least 5 channels each side
 // when every channel has many.
 func pooledRunningMAD(d timeDiffs) []float64 {
+	own, cnt := channelScales(d)
+	return runningMAD(d, own, cnt)
+}
+
+// channelScales gives each channel's own madScale × median of its
+// differences (0 for none) and how many it has, a block of channels at a
+// time on the workers.
+func channelScales(d timeDiffs) (own []float64, cnt []int) {
 	_, m := d.v.Dims()
-	out := make([]float64, m)
-	// Each channel's own median and count, a block of channels at a time.
 	per := d.perChannel()
-	own := make([]float64, m) // per-channel median, for channels with plenty
-	cnt := make([]int, m)
+	own = make([]float64, m) // per-channel median, for channels with plenty
+	cnt = make([]int, m)
 	bl := diffBlock(per)
 	// Blocks of channels on the workers: each channel's median is its own.
 	bufs := newScratch(bl * per)
@@ -280,6 +297,14 @@ func pooledRunningMAD(d timeDiffs) []float64 {
 			}
 		}
 	})
+	return own, cnt
+}
+
+// runningMAD is pooledRunningMAD from the channels' own scales and counts.
+func runningMAD(d timeDiffs, own []float64, cnt []int) []float64 {
+	_, m := d.v.Dims()
+	out := make([]float64, m)
+	per := d.perChannel()
 	total := 0
 	for _, k := range cnt {
 		total += k
@@ -1325,14 +1350,22 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 		}
 	}
 	// The maxima, the blind points, the channels' brightest observed beams
-	// and the rounding step in one pass over the beams rather than four.
-	scan := scanBeams(s.Values, bad)
+	// and the rounding step in one pass over the beams rather than four,
+	// or from the parse's scan of each channel with the noise model's own
+	// scales (the same values).
+	scan, own, cnt, scanned := s.scan.usable(s.Values, opt.Pre).complete(bad)
+	if !scanned {
+		scan, own, cnt = scanBeams(s.Values, bad), nil, nil
+	}
+	if opt.Consume {
+		s.scan = nil
+	}
 	blind, top, channelMax := scan.blind, scan.top, scan.channelMax
 	if blind.Count > n*m/4 {
 		// Not a few blind points but the wrong kind of data.
 		return checkPositive(s.Values, s, "single beam")
 	}
-	sigI, q, src := channelNoiseStep(s.Values, opt.Pre, blind, scan.quantum)
+	sigI, q, src := channelNoiseOwn(s.Values, opt.Pre, blind, scan.quantum, own, cnt)
 	blind.addWeakBelow(s.Values, sigI, top)
 	nref := make([]float64, m)
 	if opt.Reference.File != nil {

@@ -38,6 +38,12 @@ type Series struct {
 	Values   *mat.Dense
 	Source   string
 	Kind     string // kind declared by the file itself (JCAMP-DX), "" if none
+
+	// scan is what the parse took channel by channel for the single-beam
+	// assembly (FolderOptions.ScanBeams), nil when nothing was; it
+	// describes Values as parsed and must be dropped if they are changed
+	// in place (a new matrix, from Keep or resampling, disowns it).
+	scan *channelScan
 }
 
 // Spectrum is one axis/value pair of columns.
@@ -287,20 +293,25 @@ func looksLikeDecimalComma(b []byte) bool {
 //
 // A large file is mapped rather than copied (readMapped), so memory is the
 // values matrix plus the page cache, about the size of the data.
-func ReadMatrixCSV(path string) (*Series, error) {
+func ReadMatrixCSV(path string) (*Series, error) { return readMatrixCSV(path, -1) }
+
+// readMatrixCSV is ReadMatrixCSV; with pre ≥ 0 the parse also scans each
+// channel for the single-beam assembly with pre spectra before the reaction
+// (channelScan), when the times come in ascending order in the file.
+func readMatrixCSV(path string, pre int) (*Series, error) {
 	raw, release, err := readMapped(path)
 	if err != nil {
 		return nil, err
 	}
 	defer release()
 	var s *Series
-	if ferr := guardFault(func() { s, err = parseMatrixCSV(path, raw) }); ferr != nil {
+	if ferr := guardFault(func() { s, err = parseMatrixCSV(path, raw, pre) }); ferr != nil {
 		return nil, inputErr(path, 0, "do not change the file while it is read", "%v", ferr)
 	}
 	return s, err
 }
 
-func parseMatrixCSV(path string, raw []byte) (*Series, error) {
+func parseMatrixCSV(path string, raw []byte, pre int) (*Series, error) {
 	lines := splitLines(raw)
 	if len(lines) == 0 {
 		return nil, inputErr(path, 0, "export the spectra with a header row: axis name, then one time per spectrum", "is empty")
@@ -350,6 +361,12 @@ func parseMatrixCSV(path string, raw []byte) (*Series, error) {
 	// error, so it need not be cleared first.
 	vals := fresh.Overwritten(n, m)
 	raw2 := vals.RawMatrix()
+	// Each line is one channel in time order when the times ascend: the
+	// channel can be scanned while its values are in hand.
+	var scan *channelScan
+	if pre >= 0 && slices.IsSorted(times) {
+		scan = newChannelScan(n, m, pre)
+	}
 	const chunk = 512
 	nch := (m + chunk - 1) / chunk
 	errs := make([]error, nch)
@@ -363,6 +380,10 @@ func parseMatrixCSV(path string, raw []byte) (*Series, error) {
 	// becomes an error (guardFault) rather than a crash.
 	parseRows := func() {
 		var buf [][]byte
+		var line, diffs []float64 // one channel's values, and its time differences
+		if scan != nil {
+			line, diffs = make([]float64, n), make([]float64, n)
+		}
 		for c := range work {
 			for i := c * chunk; i < min(m, (c+1)*chunk); i++ {
 				l := rows[i]
@@ -390,10 +411,20 @@ func parseMatrixCSV(path string, raw []byte) (*Series, error) {
 						errs[c] = inputErr(path, l.n, hint, "column %d (time %g s): %v", j+2, times[j], err)
 						break
 					}
-					raw2.Data[j*raw2.Stride+i] = v
+					if line != nil {
+						line[j] = v
+					} else {
+						raw2.Data[j*raw2.Stride+i] = v
+					}
 				}
 				if errs[c] != nil {
 					break
+				}
+				if line != nil {
+					for j, v := range line {
+						raw2.Data[j*raw2.Stride+i] = v
+					}
+					scan.channel(i, line, diffs)
 				}
 			}
 		}
@@ -429,6 +460,10 @@ func parseMatrixCSV(path string, raw []byte) (*Series, error) {
 		names[j] = fmt.Sprintf("%s column %d", path, j+2)
 	}
 	s := &Series{AxisName: axisName, Axis: axis, Times: times, Names: names, Values: vals, Source: path}
+	if scan != nil {
+		scan.values = vals
+		s.scan = scan
+	}
 	s.sortByTime()
 	return s, nil
 }
