@@ -71,6 +71,12 @@ type Kinetics struct {
 	// batch, while set, keeps the data the fits of one batch (dataStart,
 	// fitKinetics: a fit and its other orders) share, see dataBatch.
 	batch *dataBatch
+	// lastScaled is the weighted data of the last batch, kept for the next
+	// one: a batch takes it when it is bit for bit what it would form
+	// (kinetics.ScaledFrom), as it is after hard–soft unless hard–soft
+	// re-estimated a baseline. One pass that reads instead of one that
+	// allocates and writes a data-sized matrix.
+	lastScaled *mat.Dense
 	// refits are swapCheck's refits from exchanged starts (refitMemo).
 	refits []*refitMemo
 	// profileFits are the fits of profiles made so far (profileFit).
@@ -318,10 +324,11 @@ func kineticValues(s *Settings, sch *kinetics.Scheme, total float64) (c0, kstart
 	return c0, kstart, kfixed, nil
 }
 
-// newKinetics sets the fit up on the resolved profiles c (profiles.csv
-// order) and fixes the map: --map, or the best fit over every assignment
-// (kinetics.AutoMap).
-func newKinetics(r *Result, c *mat.Dense) (*Kinetics, error) {
+// kineticsSettings is the part of the kinetic analysis the settings and
+// the data's times fix, before anything is resolved: the scheme, t0, the
+// initial concentrations, the starting and fixed rate constants and the
+// units. newKinetics adds the map.
+func kineticsSettings(r *Result) (*Kinetics, error) {
 	s := r.Settings
 	sch, err := parseScheme(s)
 	if err != nil {
@@ -358,6 +365,18 @@ func newKinetics(r *Result, c *mat.Dense) (*Kinetics, error) {
 		}
 		kn.Unit = fmt.Sprintf("concentrations relative to the initial ones (%s); the profiles' own scale is free (one amplitude per profile), so a second-order k is per %s per second: divide by %s in mol/L for L mol^-1 s^-1", c0Text(sch, kn.C0), kn.UnitName, kn.UnitName)
 	}
+	return kn, nil
+}
+
+// newKinetics sets the fit up on the resolved profiles c (profiles.csv
+// order) and fixes the map: --map, or the best fit over every assignment
+// (kinetics.AutoMap).
+func newKinetics(r *Result, c *mat.Dense) (*Kinetics, error) {
+	kn, err := kineticsSettings(r)
+	if err != nil {
+		return nil, err
+	}
+	s, sch := r.Settings, kn.Scheme
 	_, k := c.Dims()
 	nModel, what := len(sch.Species), "species"
 	if kn.Extents {
@@ -984,7 +1003,10 @@ func fitKinetics(r *Result, log io.Writer) error {
 	// closed profiles can.
 	dopt := kn.dataOptions(r, kn.warm(kn.Fits[0].Fit))
 	endBatch := kn.startBatch()
-	defer endBatch()
+	defer func() {
+		endBatch()
+		kn.lastScaled = nil // no later batch: the data-sized matrix is let go
+	}()
 	dfit, spectra, err := kn.fitData(r, dopt)
 	if err != nil {
 		r.Warnings = append(r.Warnings, "kinetics: the fit of the data matrix failed: "+oneLineText(err.Error()))
@@ -1097,6 +1119,9 @@ func (kn *Kinetics) dataFitJob(r *Result, opt kinetics.FitOptions) *dataFitJob {
 		opt.Reduced = kn.reduced
 	}
 	if b := kn.batch; b != nil && opt.Scaled == nil {
+		if b.scaled == nil && kn.lastScaled != nil && kinetics.ScaledFrom(kn.lastScaled, d, opt.RowWeights, opt.ColWeights) {
+			b.scaled = kn.lastScaled
+		}
 		opt.Scaled = b.scaled
 	}
 	return &dataFitJob{kn: kn, r: r, times: times, d: d, opt: opt}
@@ -1128,6 +1153,9 @@ func (kn *Kinetics) keep(f *dataFitJob) (*kinetics.FitResult, *mat.Dense, error)
 		kn.reduced = f.fit.Reduced
 		if kn.batch != nil {
 			kn.batch.scaled = f.fit.Scaled
+		}
+		if f.fit.Scaled != nil {
+			kn.lastScaled = f.fit.Scaled
 		}
 	}
 	if f.err != nil {
@@ -1204,9 +1232,20 @@ func (kn *Kinetics) dataStart(r *Result, soft *kinetics.FitResult, opt mcr.Optio
 	var best *kinetics.FitResult
 	var bestSpectra *mat.Dense
 	var bestOpt kinetics.FitOptions
-	for _, base := range []kinetics.FitOptions{kn.options(kn.firstStart(r.Times)), kn.warm(soft)} {
+	for a, base := range []kinetics.FitOptions{kn.options(kn.firstStart(r.Times)), kn.warm(soft)} {
 		o := kn.dataOptions(r, base)
-		f, sp, err := kn.fitData(r, o)
+		var f *kinetics.FitResult
+		var sp *mat.Dense
+		var err error
+		var job *dataFitJob
+		if a == 0 {
+			job = r.earlyFit.take(r, kn, o)
+		}
+		if job != nil {
+			f, sp, err = kn.keep(job) // the same fit, begun beside the soft resolution
+		} else {
+			f, sp, err = kn.fitData(r, o)
+		}
 		if err != nil {
 			continue
 		}

@@ -136,6 +136,9 @@ type Result struct {
 	MinorTests   []MinorVerdict
 	MinorTested  bool
 	MinorSpecies []svd.NuisanceFactor
+	// earlyFit is the first data fit of hard–soft, begun beside the soft
+	// resolution (earlyDataFit); nil outside resolve.
+	earlyFit *earlyDataFit
 }
 
 // Run carries out the analysis described by s. Progress lines go to log
@@ -813,6 +816,16 @@ func resolve(r *Result, log io.Writer) error {
 		}
 	}
 	fmt.Fprintf(log, "resolving %d component(s)\n", k)
+	// The first fit of the data matrix hard–soft may start from needs
+	// nothing of the soft resolution: it runs beside it (earlyDataFit).
+	early := beginEarlyDataFit(r, opt)
+	r.earlyFit = early
+	defer func() {
+		early.wait() // on every path: no fit outlives the resolution
+		if r.earlyFit == early {
+			r.earlyFit = nil
+		}
+	}()
 	saved := saveForMinor(r)
 	res, data, shapes, err := resolveNuisance(r, data, c0, opt, saved, log)
 	if err != nil {

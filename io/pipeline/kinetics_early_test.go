@@ -1,0 +1,106 @@
+package pipeline
+
+import (
+	"math"
+	"testing"
+
+	"github.com/bandsolve/bandsolve/mcr"
+	"github.com/bandsolve/bandsolve/mcr/kinetics"
+	"gonum.org/v1/gonum/mat"
+)
+
+// The first fit of the data matrix before hard–soft, begun beside the soft
+// resolution (earlyDataFit), is taken only when it is the fit dataStart
+// would make itself, and then it is that fit bit for bit: the same rate
+// constants, standard errors, residual and spectra as kinetics.FitData
+// (variable projection, Golub & Pereyra 1973) run again here on the run's
+// data. Data changed in one value, or a spectrum set aside, make dataStart
+// fit afresh. A later batch of fits takes the last batch's weighted data
+// only while the data are the same. The rate constants against the truth
+// are TestChainHardModel's.
+func TestEarlyDataFitIsDataStartsFit(t *testing.T) {
+	_, r := runSmallChain(t)
+	first := func(kn *Kinetics) kinetics.FitOptions {
+		return kn.dataOptions(r, kn.options(kn.firstStart(r.Times)))
+	}
+	begin := func() *earlyDataFit {
+		e := beginEarlyDataFit(r, mcr.Options{})
+		if e == nil {
+			t.Fatal("no early data fit on the chain's weighted data")
+		}
+		e.wait()
+		return e
+	}
+	settings := func() *Kinetics {
+		kn, err := kineticsSettings(r)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return kn
+	}
+
+	kn := settings()
+	end := kn.startBatch()
+	job := begin().take(r, kn, first(kn))
+	if job == nil {
+		t.Fatal("the early fit was not taken on the data it fitted")
+	}
+	got, gotSpectra, err := kn.keep(job)
+	end()
+	if err != nil {
+		t.Fatal(err)
+	}
+	ref := settings()
+	endRef := ref.startBatch()
+	want, wantSpectra, err := ref.fitData(r, first(ref))
+	endRef()
+	if err != nil {
+		t.Fatal(err)
+	}
+	for j := range want.K {
+		if got.K[j] != want.K[j] || got.KStdErr[j] != want.KStdErr[j] {
+			t.Errorf("%s: k = %v ± %v begun early, %v ± %v fitted afresh", kn.Scheme.Steps[j].Text, got.K[j], got.KStdErr[j], want.K[j], want.KStdErr[j])
+		}
+	}
+	if got.SSR != want.SSR || got.Sigma != want.Sigma || !mat.Equal(gotSpectra, wantSpectra) {
+		t.Errorf("residual sum of squares %v, σ̂ %v and spectra begun early; %v, %v fitted afresh", got.SSR, got.Sigma, want.SSR, want.Sigma)
+	}
+
+	// The weighted data carried to the next batch while the data stay.
+	end = kn.startBatch()
+	if j := kn.dataFitJob(r, first(kn)); j.opt.Scaled == nil || j.opt.Scaled != kn.lastScaled {
+		t.Error("a batch on the same data does not take the last batch's weighted data")
+	}
+	end()
+
+	// One value changed after the early fit began: not taken, not carried.
+	e := begin()
+	v := r.D.At(5, 7)
+	r.D.Set(5, 7, v+math.Abs(v)*1e-9+1e-12)
+	kn2 := settings()
+	end = kn2.startBatch()
+	if e.take(r, kn2, first(kn2)) != nil {
+		t.Error("the early fit was taken on data changed since")
+	}
+	end()
+	end = kn.startBatch()
+	if j := kn.dataFitJob(r, first(kn)); j.opt.Scaled != nil {
+		t.Error("a batch on changed data takes the last batch's weighted data")
+	}
+	end()
+	r.D.Set(5, 7, v)
+
+	// A spectrum set aside: the data fitted are other rows.
+	r.SetAside = []SetAside{{Row: 3, Reason: "test"}}
+	end = kn2.startBatch()
+	if e.take(r, kn2, first(kn2)) != nil {
+		t.Error("the early fit was taken with a spectrum set aside")
+	}
+	end()
+	r.SetAside = nil
+	end = kn2.startBatch()
+	if e.take(r, kn2, first(kn2)) == nil {
+		t.Error("the early fit was not taken once the data were as it found them")
+	}
+	end()
+}
