@@ -25,7 +25,6 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/bandsolve/bandsolve/internal/product"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/mcr"
 	"github.com/bandsolve/bandsolve/mcr/kinetics"
@@ -1346,14 +1345,15 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 	if len(alts) == 0 {
 		return
 	}
-	nnCost := func(k []float64) (float64, bool) {
+	nnCostAt := func(k, c0 []float64) (float64, bool) {
 		o := opt
 		if kn.FitC0 {
-			o.C0 = best.C0
+			o.C0 = c0
 		}
 		v, err := kn.nonNegativeCost(r, k, o)
 		return v, err == nil
 	}
+	nnCost := func(k []float64) (float64, bool) { return nnCostAt(k, best.C0) }
 	bestNN, bestNNok := 0.0, false
 	bestNNdone := false
 	var worseFree, worseNN []string
@@ -1369,21 +1369,32 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 	}()
 	restarted := false
 	var i int
-	jobs := kn.refitAll(r, best, opt, alts)
-	// The non-negative costs the loop will ask for while best stays as it
-	// is, made at once; taken only while it does (fresh).
-	pre, fresh := kn.costsAhead(r, best, opt, alts, jobs, nnCost), true
+	// The refits, and the non-negative costs the loop will ask for while
+	// best stays as it is, made ahead of the loop in its order
+	// (checkAhead); the costs are taken only while best stays (fresh).
+	ahead, fresh := kn.newCheckAhead(r, best, opt, alts, true, nnCostAt), true
+	defer func() { ahead.stop() }()
 	again := func() {
 		fresh = false
 		if !restarted {
 			restarted = true
+			ahead.stop()
 			alts, i = kn.exchanges(best.K), -1
-			jobs = kn.refitAll(r, best, opt, alts)
-			pre, fresh = kn.costsAhead(r, best, opt, alts, jobs, nnCost), true
+			ahead, fresh = kn.newCheckAhead(r, best, opt, alts, !bestNNdone, nnCostAt), true
 		}
 	}
-	cost := func(fit *kinetics.FitResult) (float64, bool) {
-		if v, ok := pre[fit]; ok && fresh {
+	bestCost := func() (float64, bool) {
+		if !fresh {
+			return nnCost(best.K)
+		}
+		v := ahead.bestCost(func() costValue {
+			v, ok := nnCost(best.K)
+			return costValue{v, ok}
+		})
+		return v.v, v.ok
+	}
+	altCost := func(fit *kinetics.FitResult) (float64, bool) {
+		if v, ok := ahead.cost(i, fit); ok && fresh {
 			return v.v, v.ok
 		}
 		return nnCost(fit.K)
@@ -1391,7 +1402,7 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 	for i = 0; i < len(alts); i++ {
 		o := opt
 		o.InitialK = alts[i]
-		alt, altSpectra, err := kn.refit(r, best, o, jobs[i])
+		alt, altSpectra, err := kn.refit(r, best, o, ahead.job(i))
 		if err != nil || !(best.Sigma > 0) {
 			continue
 		}
@@ -1420,10 +1431,10 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 		}
 		// Free spectra cannot choose: non-negative spectra may.
 		if !bestNNdone {
-			bestNN, bestNNok = cost(best)
+			bestNN, bestNNok = bestCost()
 			bestNNdone = true
 		}
-		altNN, ok := kn.recallCost(alt, func() (float64, bool) { return cost(alt) })
+		altNN, ok := kn.recallCost(alt, func() (float64, bool) { return altCost(alt) })
 		if !ok || !bestNNok {
 			best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell the order of the rate constants: %s fits as well with free spectra (%.2g noise variances); the reported values are the ones the resolved profiles point to", what, free))
 			continue
@@ -1513,75 +1524,6 @@ func (kn *Kinetics) recalled(r *Result, best *kinetics.FitResult, o kinetics.Fit
 type costValue struct {
 	v  float64
 	ok bool
-}
-
-// costsAhead makes at once the non-negative costs swapCheck's loop over
-// alts will ask for if best stays the reported fit: best's own and those of
-// the refits (taken as refit will take them: kept, or jobs') that fit as
-// well as best with free spectra, within 4 noise variances, and have no
-// cost kept yet. Each is cost(k) of the fit's own rate constants, the same
-// whichever goroutine computes it; keyed by the fit, best under itself.
-func (kn *Kinetics) costsAhead(r *Result, best *kinetics.FitResult, opt kinetics.FitOptions, alts [][]float64, jobs []*dataFitJob, cost func(k []float64) (float64, bool)) map[*kinetics.FitResult]costValue {
-	if !(best.Sigma > 0) {
-		return nil
-	}
-	s2 := best.Sigma * best.Sigma
-	fits := []*kinetics.FitResult{best}
-	for i, a := range alts {
-		o := opt
-		o.InitialK = a
-		var fit *kinetics.FitResult
-		if m := kn.recalled(r, best, o); !kn.FitC0 && m != nil {
-			if m.done {
-				continue
-			}
-			fit = m.fit
-		} else if j := jobs[i]; j != nil && j.err == nil {
-			fit = j.fit
-		}
-		if fit == nil || sameK(fit.K, best.K) || math.Abs(fit.SSR-best.SSR)/s2 > 4 || slices.Contains(fits, fit) {
-			continue
-		}
-		fits = append(fits, fit)
-	}
-	if len(fits) == 1 {
-		return nil
-	}
-	vals := make([]costValue, len(fits))
-	tasks := make([]func(), len(fits))
-	for a, f := range fits {
-		tasks[a] = func() { vals[a].v, vals[a].ok = cost(f.K) }
-	}
-	product.Each(len(tasks), func(i int) { tasks[i]() })
-	out := make(map[*kinetics.FitResult]costValue, len(fits))
-	for a, f := range fits {
-		out[f] = vals[a]
-	}
-	return out
-}
-
-// refitAll makes at once the fits swapCheck's refit will need from the
-// exchanged starts alts, one job per start in alts' order (nil where refit
-// will recall a fit instead: one kept, or one from an earlier start of alts
-// within refitTol standard errors, which refit then recalls when it
-// succeeded and fits itself otherwise). The refits are independent of each
-// other and of the order they are made in, so that swapCheck, taking them
-// in alts' order, reaches every figure and every choice a refit at a time
-// did, whatever the number of processors.
-func (kn *Kinetics) refitAll(r *Result, best *kinetics.FitResult, opt kinetics.FitOptions, alts [][]float64) []*dataFitJob {
-	jobs := make([]*dataFitJob, len(alts))
-	var todo []func()
-	for i, a := range alts {
-		o := opt
-		o.InitialK = a
-		if !kn.FitC0 && (kn.recalled(r, best, o) != nil || nearEarlier(jobs[:i], a, best.KStdErr)) {
-			continue
-		}
-		jobs[i] = kn.dataFitJob(r, o)
-		todo = append(todo, jobs[i].run)
-	}
-	product.Each(len(todo), func(i int) { todo[i]() })
-	return jobs
 }
 
 func nearEarlier(jobs []*dataFitJob, start, se []float64) bool {

@@ -1,0 +1,68 @@
+package pipeline
+
+import (
+	"runtime"
+	"sync"
+	"testing"
+)
+
+// inOrder's contract, checked on units that record when they run: every
+// unit the caller waits for has run once, none starts more than lead
+// units past the one waited for, the caller finds every result in the
+// order it asks, and after stop a unit no worker started is run on the
+// caller when it is waited for, and the others never (the guarantee
+// swapCheck's figures rest on: they are each unit's own, not the
+// schedule's).
+func TestInOrderRunsAheadWithinLead(t *testing.T) {
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	for _, procs := range []int{1, 2, 4} {
+		runtime.GOMAXPROCS(procs)
+		const n = 12
+		var mu sync.Mutex
+		waited := -1
+		runs := make([]int, n)
+		results := make([]int, n)
+		units := make([]func(), n)
+		for u := range units {
+			units[u] = func() {
+				mu.Lock()
+				runs[u]++
+				if lead := min(procs, n); u >= waited+lead && waited >= 0 {
+					t.Errorf("GOMAXPROCS %d: unit %d started while the caller waited for %d (lead %d)", procs, u, waited, lead)
+				}
+				mu.Unlock()
+				results[u] = u * u
+			}
+		}
+		o := startInOrder(units)
+		for u := 0; u < 7; u++ {
+			mu.Lock()
+			waited = u
+			mu.Unlock()
+			o.wait(u)
+			if results[u] != u*u {
+				t.Fatalf("GOMAXPROCS %d: unit %d's result %d after wait", procs, u, results[u])
+			}
+		}
+		o.stop()
+		mu.Lock()
+		waited = n // after stop no bound is checked: the caller runs what it waits for
+		mu.Unlock()
+		o.wait(10)
+		if results[10] != 100 {
+			t.Errorf("GOMAXPROCS %d: unit 10 waited for after stop did not run", procs)
+		}
+		o.stop()
+		for u, c := range runs {
+			if c > 1 {
+				t.Errorf("GOMAXPROCS %d: unit %d ran %d times", procs, u, c)
+			}
+			if u < 7 && c != 1 || u == 10 && c != 1 {
+				t.Errorf("GOMAXPROCS %d: unit %d ran %d times, waited for", procs, u, c)
+			}
+			if u >= 6+min(procs, n) && u != 10 && c != 0 {
+				t.Errorf("GOMAXPROCS %d: unit %d ran, beyond the lead of the last wait and never waited for", procs, u)
+			}
+		}
+	}
+}
