@@ -49,6 +49,37 @@ func (s *Screen) Row(i int, row []float64) {
 	s.next++
 }
 
+// Sum is the sum of squares of the rows screened so far, where the next row's
+// squares are to be added (0 without the sum): a pass that writes a row can add
+// them while it writes it, x·x for each entry x in index order, and hand the
+// total to Written.
+func (s *Screen) Sum() float64 { return s.frob }
+
+// Written screens row i (its cols entries), which the caller has just written:
+// sum is Sum() with the squares of the row's entries added in index order, the
+// additions Row would make (ignored without the sum), and finite says whether
+// the row's Σ (x − x) is +0, which it is exactly when every entry is finite
+// (finiteRow). The same screen as Row, without reading the row again for its
+// sum and its check (the row is read for its rows-of-zeros test, which stops
+// at its first entry that is not zero, and for the error's place when it is
+// not finite).
+func (s *Screen) Written(i int, row []float64, sum float64, finite bool) {
+	if s.next != i || len(row) != s.Cols {
+		s.next = -1
+		return
+	}
+	if s.err == nil && !finite {
+		s.err = rowError(row, i)
+	}
+	if allZero(row) {
+		s.zero = append(s.zero, i)
+	}
+	if s.sum {
+		s.frob = sum
+	}
+	s.next++
+}
+
 // ScreenRows screens the rows × cols matrix whose row i row(i, buf) writes into
 // buf (len cols), row after row, without its sum of squares.
 func ScreenRows(rows, cols int, row func(i int, buf []float64)) *Screen {

@@ -1,6 +1,7 @@
 package svd
 
 import (
+	"fmt"
 	"math"
 	"reflect"
 	"testing"
@@ -213,6 +214,49 @@ func TestScreenFiniteAndBound(t *testing.T) {
 		"non-finite entry": bad.Bound(n, m), "nil": (*Screen)(nil).Bound(n, m)} {
 		if !math.IsInf(c, 1) {
 			t.Errorf("%s: Bound %v, want +Inf", name, c)
+		}
+	}
+}
+
+// A screen made while the rows are written (ScaleIntoScreened, through
+// Screen.Written) is the screen Row makes reading the written rows again, bit
+// for bit: the sum of squares is the same additions in the same order (the
+// definition ‖D‖²_F = Σ_i Σ_j d_ij², summed row by row in index order), the
+// rows of zeros are the same, and the first non-finite entry gives the same
+// error. Rows of zeros, a NaN, an infinity and an entry whose square
+// overflows are placed among ordinary rows.
+func TestWrittenScreenIsRowByRow(t *testing.T) {
+	rng := newRNG(29)
+	n, m := 40, 301
+	d := noisyBilinear(rng, n, m, 3, 1e-3)
+	row, col := make([]float64, n), make([]float64, m)
+	for i := range row {
+		row[i] = 1e4 * (1 + rng.Float64())
+	}
+	for j := range col {
+		col[j] = math.Pow(10, -2*rng.Float64())
+	}
+	for j := 0; j < m; j++ {
+		d.Set(3, j, 0)
+		d.Set(4, j, math.Copysign(0, -1))
+	}
+	cases := map[string]func(d *mat.Dense){
+		"finite":          func(*mat.Dense) {},
+		"NaN":             func(d *mat.Dense) { d.Set(17, 250, math.NaN()) },
+		"infinity":        func(d *mat.Dense) { d.Set(21, 0, math.Inf(-1)) },
+		"square overflow": func(d *mat.Dense) { d.Set(30, 77, 1e300) },
+	}
+	for name, spoil := range cases {
+		dd := mat.DenseCopyOf(d)
+		spoil(dd)
+		scaled, got := ScaleIntoScreened(mat.NewDense(n, m, nil), dd, row, col)
+		want := NewScreen(n, m, true)
+		for i := 0; i < n; i++ {
+			want.Row(i, scaled.RawRowView(i))
+		}
+		if math.Float64bits(got.frob) != math.Float64bits(want.frob) || !reflect.DeepEqual(got.zero, want.zero) ||
+			fmt.Sprint(got.err) != fmt.Sprint(want.err) || got.next != want.next {
+			t.Errorf("%s: written screen %+v, row by row %+v", name, got, want)
 		}
 	}
 }

@@ -41,12 +41,23 @@ func scaleRows(out, d *mat.Dense, row, col []float64, s *Screen) {
 	for i := 0; i < n; i++ {
 		sa := math.Sqrt(row[i])
 		src, dst := d.RawRowView(i)[:m], out.RawRowView(i)[:m]
+		if s == nil {
+			for j, v := range src {
+				dst[j] = sa * v * sb[j]
+			}
+			continue
+		}
+		// Screened as written (Screen.Written): the squares added to the
+		// screen's sum in index order, one chain of additions whose
+		// latency the scaling runs under, and Σ (x − x) for the check.
+		sum, z := s.Sum(), 0.0
 		for j, v := range src {
-			dst[j] = sa * v * sb[j]
+			x := sa * v * sb[j]
+			dst[j] = x
+			sum += x * x
+			z += x - x
 		}
-		if s != nil {
-			s.Row(i, dst)
-		}
+		s.Written(i, dst, sum, z == 0)
 	}
 }
 

@@ -3,6 +3,7 @@ package pipeline
 import (
 	"math"
 	"math/rand/v2"
+	"reflect"
 	"testing"
 
 	"github.com/bandsolve/bandsolve/io/spectra"
@@ -66,7 +67,17 @@ func TestBorrowedDifferenceIsTheAssembledOne(t *testing.T) {
 	if as.Difference != nil || r.diffMapRows == nil {
 		t.Error("the experiment still holds its difference matrix, or the map rows were not kept")
 	}
-	got, _ := scaledDifferenceInto(spare, r, g)
+	got, scr := scaledDifferenceInto(spare, r, g)
+	// Its screen, made while the rows were written, is the one made by
+	// reading them again (svd.Screen.Row): the sum of squares in index order,
+	// bit for bit, and the same rows of zeros and check.
+	reread := svd.NewScreen(n, m, true)
+	for i := 0; i < n; i++ {
+		reread.Row(i, got.RawRowView(i))
+	}
+	if !reflect.DeepEqual(scr, reread) || math.Float64bits(scr.Sum()) != math.Float64bits(reread.Sum()) {
+		t.Errorf("screen made while writing %+v, by reading the rows again %+v", scr, reread)
+	}
 	worst := 0.0
 	for i := 0; i < n; i++ {
 		for j := 0; j < m; j++ {

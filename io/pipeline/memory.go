@@ -180,13 +180,20 @@ func scaledDifferenceInto(out *mat.Dense, r *Result, g [][]float64) (*mat.Dense,
 		sb[j] = math.Sqrt(b)
 	}
 	for e, ex := range r.Experiments {
+		ge := g[e][:m]
 		for i := ex.FirstRow; i < ex.FirstRow+ex.Rows; i++ {
 			sa := math.Sqrt(r.DiffWeights.Row[i])
 			src, dst := r.D.RawRowView(i)[:m], out.RawRowView(i)[:m]
+			// Screened as written (svd.Screen.Written): the squares added
+			// to the screen's sum in index order while the row is formed.
+			sum, z := screen.Sum(), 0.0
 			for j, v := range src {
-				dst[j] = sa * (v - g[e][j]) * sb[j]
+				x := sa * (v - ge[j]) * sb[j]
+				dst[j] = x
+				sum += x * x
+				z += x - x
 			}
-			screen.Row(i, dst)
+			screen.Written(i, dst, sum, z == 0)
 		}
 	}
 	return out, screen
