@@ -715,16 +715,19 @@ func longEnvelope(t *Table, comp, side, loName, hiName string) (x, lo, hi []floa
 	// Only the rows of this component and side are parsed: the table holds
 	// every component's (parsing whole columns once per component and side
 	// was a tenth of the report's time).
-	first := ""
+	// The experiment of the first row taken; first is set once it is
+	// (an empty experiment cell is an experiment too).
+	first, seen := "", false
+	need := max(cj, sj, pj, lj, hj)
 	for _, r := range t.Text {
-		if len(r) <= max(cj, sj, pj, lj, hj) || r[cj] != comp || r[sj] != side {
+		if len(r) <= need || r[cj] != comp || r[sj] != side {
 			continue
 		}
 		if ej >= 0 && ej < len(r) {
-			if first == "" {
-				first = r[ej] + "\x00"
+			if !seen {
+				first, seen = r[ej], true
 			}
-			if r[ej]+"\x00" != first {
+			if r[ej] != first {
 				continue
 			}
 		}

@@ -6,6 +6,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"github.com/bandsolve/bandsolve/internal/decimal"
 	"github.com/bandsolve/bandsolve/io/output"
 	"math"
 	"os"
@@ -101,7 +102,13 @@ func (t *Table) Col(j int) []float64 {
 // cell is cell j of row r as a number, NaN when it is not one (or infinite).
 func cell(r []string, j int) float64 {
 	if j >= 0 && j < len(r) {
-		if v, err := strconv.ParseFloat(strings.TrimSpace(r[j]), 64); err == nil && !math.IsInf(v, 0) {
+		s := strings.TrimSpace(r[j])
+		// The plain decimals the run writes are read by decimal.Parse's
+		// exact shortcut, strconv.ParseFloat's bits (a finite number).
+		if v, ok := decimal.Parse([]byte(s)); ok {
+			return v
+		}
+		if v, err := strconv.ParseFloat(s, 64); err == nil && !math.IsInf(v, 0) {
 			return v
 		}
 	}

@@ -1,0 +1,73 @@
+package report
+
+import (
+	"math"
+	"math/rand/v2"
+	"slices"
+	"strconv"
+	"strings"
+	"testing"
+)
+
+// TestCellIsParseFloat: a cell reads as strconv.ParseFloat reads its
+// trimmed text (the reference: Go's standard library, correctly rounded),
+// bit for bit, and as NaN when that fails or gives an infinity, whether or
+// not decimal.Parse's shortcut takes the text.
+func TestCellIsParseFloat(t *testing.T) {
+	want := func(s string) float64 {
+		v, err := strconv.ParseFloat(strings.TrimSpace(s), 64)
+		if err != nil || math.IsInf(v, 0) {
+			return math.NaN()
+		}
+		return v
+	}
+	texts := []string{"", " ", "0", "-0", "+5", "5.", ".5", ".", "-", "1e5", "1E+05", "1e-5", "1e", "1e400", "-1e400",
+		"1e-400", "inf", "-Inf", "nan", "NaN", "0x1p-2", "1_000", " 1.5 ", "\t-2.25\n", "1.5x", "x", "123456789012345",
+		"1234567890123456789", "9007199254740993", "0.1", "4.35", "1e22", "1e23", "1e-22", "1e-23", "2.2250738585072014e-308",
+		"1.7976931348623157e308", "1.7976931348623159e308", "species_1"}
+	rng := rand.New(rand.NewPCG(1, 2))
+	for i := 0; i < 20000; i++ {
+		v := math.Float64frombits(rng.Uint64())
+		texts = append(texts, strconv.FormatFloat(v, 'g', 1+rng.IntN(17), 64), strconv.FormatFloat(rng.NormFloat64()*math.Pow(10, float64(rng.IntN(40)-20)), 'g', 10, 64))
+	}
+	for _, s := range texts {
+		got, w := cell([]string{s}, 0), want(s)
+		if math.Float64bits(got) != math.Float64bits(w) && !(math.IsNaN(got) && math.IsNaN(w)) {
+			t.Errorf("cell(%q) = %v (%#x), strconv gives %v (%#x)", s, got, math.Float64bits(got), w, math.Float64bits(w))
+		}
+	}
+	if !math.IsNaN(cell([]string{"1"}, 1)) || !math.IsNaN(cell([]string{"1"}, -1)) {
+		t.Error("a cell beyond the row must read as NaN")
+	}
+}
+
+// TestLongEnvelopeFirstExperiment: the envelope of one component and side
+// is read from the first experiment's rows only (the one the first such
+// row names, an empty cell being one too), with the pointwise lower and
+// upper of the two bound columns (uniqueness.csv as docs/constraints.md
+// describes it; at_min and at_max may cross).
+func TestLongEnvelopeFirstExperiment(t *testing.T) {
+	text := "component,side,experiment,position,solution,at_min,at_max\n" +
+		"a,spectrum,2,10,0,1,3\n" +
+		"b,spectrum,1,10,0,9,9\n" +
+		"a,profile,2,10,0,9,9\n" +
+		"a,spectrum,1,11,0,7,7\n" +
+		"a,spectrum,2,11,0,5,4\n" +
+		"a,spectrum,2,12,0,6,8\n"
+	tab, err := ParseTable("uniqueness.csv", []byte(text))
+	if err != nil {
+		t.Fatal(err)
+	}
+	x, lo, hi := longEnvelope(tab, "a", "spectrum", "at_min", "at_max")
+	if !slices.Equal(x, []float64{10, 11, 12}) || !slices.Equal(lo, []float64{1, 4, 6}) || !slices.Equal(hi, []float64{3, 5, 8}) {
+		t.Errorf("got x %v lo %v hi %v, want x [10 11 12] lo [1 4 6] hi [3 5 8]", x, lo, hi)
+	}
+	empty := strings.ReplaceAll(text, ",2,", ",,")
+	tab, _ = ParseTable("uniqueness.csv", []byte(empty))
+	if x, _, _ := longEnvelope(tab, "a", "spectrum", "at_min", "at_max"); !slices.Equal(x, []float64{10, 11, 12}) {
+		t.Errorf("empty experiment cells: got x %v, want [10 11 12]", x)
+	}
+	if x, _, _ := longEnvelope(tab, "b", "spectrum", "at_min", "at_max"); x != nil {
+		t.Errorf("one row is no envelope: got %v", x)
+	}
+}
