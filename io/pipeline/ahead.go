@@ -4,6 +4,7 @@ import (
 	"encoding/json"
 	"math"
 	"slices"
+	"sync"
 
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/report"
@@ -16,9 +17,10 @@ import (
 // resolution, the residuals and the iterations after it), on one goroutine
 // of its own, which takes a core the computation leaves idle for part of
 // each phase (the factor analysis keeps 1.56 of 2 busy, the resolution
-// 1.63). Only the uniqueness ranges' and the kinetics' figures, spectra
-// and profiles, are left for the report. It also formats the parts of
-// maps.csv the figures are drawn from.
+// 1.63). The uniqueness ranges' and the kinetics' figures, spectra and
+// profiles, are drawn once the result files are formatted, beside their
+// writers (aheadResults). It also formats the parts of maps.csv the
+// figures are drawn from.
 //
 // Nothing drawn ahead is trusted as it is: the report takes a figure only
 // where the folder it is built from gives that figure the same inputs
@@ -43,6 +45,12 @@ type ahead struct {
 	// failed says a task panicked (written by the goroutine, read after
 	// done): the parts and efa.csv are then made again by their writers.
 	failed bool
+	// drawing are the goroutines drawing the spectra and profiles figures
+	// while the result files are written (aheadResults), into pre and
+	// second; second is adopted into pre once they are done.
+	drawing []*later[bool]
+	second  report.Predrawn
+	closing sync.Once // closes tasks
 }
 
 // startAhead begins the goroutine; a nil ahead does nothing.
@@ -87,12 +95,16 @@ func (a *ahead) wait() {
 	if a == nil {
 		return
 	}
-	select {
-	case <-a.done:
-		return
-	default:
+	a.waitTasks()
+	for _, d := range a.drawing {
+		d.get()
 	}
-	close(a.tasks)
+}
+
+// waitTasks ends the goroutine once its tasks are done, leaving the
+// drawing of aheadResults to go on.
+func (a *ahead) waitTasks() {
+	a.closing.Do(func() { close(a.tasks) })
 	<-a.done
 }
 
@@ -102,7 +114,82 @@ func (a *ahead) predrawn() *report.Predrawn {
 		return nil
 	}
 	a.wait()
+	a.pre.Adopt(&a.second)
+	a.second = report.Predrawn{}
 	return &a.pre
+}
+
+// aheadResults draws the spectra and profiles figures, the two that shade
+// the uniqueness ranges and so wait for the run's last phase, while the
+// other result files are written: from the bytes WriteResults gave
+// spectra.csv, profiles.csv, kinetics.csv and summary.json and those
+// formatted for uniqueness.csv (earlyFiles), parsed as the report parses
+// them, on two goroutines (the spectra in pre, whose goroutine's image is
+// already made; the profiles in second). Call it after WriteResults, once
+// run has ended the goroutine drawing ahead. Like every figure drawn
+// ahead, each is taken only where the folder gives it the same view. Not
+// done with intervals.csv (formatted at its writer's turn).
+func (a *ahead) aheadResults(r *Result, st *output.Stage) {
+	if a == nil || a.drawing != nil || r.ALS == nil || (r.Constraints != nil && r.Constraints.Intervals != nil) {
+		return
+	}
+	a.waitTasks() // pre is free: nothing else draws into it
+	files := map[string][]byte{}
+	for _, name := range []string{"spectra.csv", "profiles.csv", "kinetics.csv", "summary.json"} {
+		if b, ok := st.Written(name); ok {
+			files[name] = b
+		}
+	}
+	if files["summary.json"] == nil {
+		return
+	}
+	bands, tu := r.early.bands, report.TimeUnitRecord(r.Settings.TimeUnit)
+	folder := startLater(func() (f *report.Folder) {
+		runTask(func() {
+			if b, ok := bands.get(); ok {
+				files["uniqueness.csv"] = b
+			}
+			f = partFolder(files)
+			if f != nil {
+				f.AsRun = tu
+			}
+		})
+		return f
+	})
+	draw := func(p *report.Predrawn, id string) *later[bool] {
+		return startLater(func() bool {
+			return runTask(func() {
+				if f, _ := folder.get(); f != nil {
+					p.Draw(f, id)
+				}
+			})
+		})
+	}
+	a.drawing = []*later[bool]{draw(&a.pre, "fig-spectra"), draw(&a.second, "fig-profiles")}
+}
+
+// partFolder is the part of an output folder made of files (name →
+// bytes) as report.LoadStaged reads them: summary.json decoded, each
+// table parsed under its name (a table that does not parse is left out,
+// as LoadStaged leaves it out). Nil when summary.json does not decode.
+func partFolder(files map[string][]byte) *report.Folder {
+	f := &report.Folder{Summary: &report.Summary{}}
+	if json.Unmarshal(files["summary.json"], f.Summary) != nil {
+		return nil
+	}
+	table := func(name string) *report.Table {
+		b, ok := files[name]
+		if !ok {
+			return nil
+		}
+		t, err := report.ParseTable(name, b)
+		if err != nil {
+			return nil
+		}
+		return t
+	}
+	f.Spectra, f.Profiles, f.Kinetics, f.Bands = table("spectra.csv"), table("profiles.csv"), table("kinetics.csv"), table("uniqueness.csv")
+	return f
 }
 
 // summaryAhead is the summary.json keys in s as the report reads them back
@@ -184,7 +271,7 @@ func (a *ahead) efaFile(r *Result) ([]byte, bool) {
 	if a == nil || a.efa == nil || a.efa != r.EFA {
 		return nil, false
 	}
-	a.wait()
+	a.waitTasks()
 	if a.failed || a.efaCSV == nil || !sameBits(a.efaTimes, r.Times) || !slices.Equal(a.efaExp, r.ExpOfRow) {
 		return nil, false
 	}
@@ -307,7 +394,7 @@ func (a *ahead) mapsFile(r *Result) (mapsFile, bool) {
 	if a == nil || a.data == nil {
 		return mapsFile{}, false
 	}
-	a.wait()
+	a.waitTasks()
 	if a.failed {
 		return mapsFile{}, false
 	}

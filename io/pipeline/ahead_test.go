@@ -2,6 +2,7 @@ package pipeline
 
 import (
 	"bytes"
+	"fmt"
 	"io"
 	"os"
 	"path/filepath"
@@ -9,6 +10,7 @@ import (
 	"slices"
 	"testing"
 
+	"github.com/bandsolve/bandsolve/io/demo"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/report"
 	"github.com/bandsolve/bandsolve/mcr"
@@ -51,10 +53,10 @@ func sameAsFromFiles(t *testing.T, r *Result, out string) {
 }
 
 // The figures a run draws ahead are the ones its folder gives: on the
-// demo (no baseline, nothing set aside) every figure but the two that
-// wait for the uniqueness ranges is taken from those drawn ahead, maps.csv
-// is joined from the parts formatted ahead and efa.csv is the one
-// formatted ahead.
+// demo (no baseline, nothing set aside) every figure is taken from those
+// drawn ahead (the spectra and profiles, which wait for the uniqueness
+// ranges, drawn beside the writers), maps.csv is joined from the parts
+// formatted ahead and efa.csv is the one formatted ahead.
 func TestFiguresDrawnAheadOnTheDemo(t *testing.T) {
 	out := filepath.Join(t.TempDir(), "demo")
 	r, err := Demo(out, false, true, false, Streams{Out: io.Discard, Err: io.Discard})
@@ -62,7 +64,8 @@ func TestFiguresDrawnAheadOnTheDemo(t *testing.T) {
 		t.Fatal(err)
 	}
 	sameAsFromFiles(t, r, out)
-	want := []string{"fig-absorbance", "fig-input", "fig-map", "fig-singular", "fig-efa", "fig-iterations", "fig-residual-map", "fig-residual-spectrum"}
+	want := []string{"fig-absorbance", "fig-input", "fig-map", "fig-singular", "fig-efa", "fig-spectra", "fig-profiles",
+		"fig-iterations", "fig-residual-map", "fig-residual-spectrum"}
 	if got := r.ahead.pre.Taken(); !slices.Equal(got, want) {
 		t.Errorf("taken ahead %v, want %v", got, want)
 	}
@@ -106,7 +109,7 @@ func TestFiguresDrawnAheadRedrawnWhenTheDataChange(t *testing.T) {
 	if slices.Contains(taken, "fig-absorbance") {
 		t.Error("the absorbance figure drawn before the baseline was subtracted was taken")
 	}
-	for _, id := range []string{"fig-input", "fig-map", "fig-singular", "fig-residual-map"} {
+	for _, id := range []string{"fig-input", "fig-map", "fig-singular", "fig-spectra", "fig-profiles", "fig-residual-map"} {
 		if !slices.Contains(taken, id) {
 			t.Errorf("%s was not taken (taken %v)", id, taken)
 		}
@@ -164,5 +167,65 @@ func TestEFABegunEarlyIsEFAReports(t *testing.T) {
 	}
 	if !reflect.DeepEqual(early.rep, rep) {
 		t.Error("EFA begun early differs from efaReport's own")
+	}
+}
+
+// The spectra and profiles figures are drawn from the result files' bytes
+// as WriteResults wrote them (aheadResults). A file written again after
+// they were drawn is the folder's, and a figure drawn from the earlier
+// bytes is not taken: here spectra.csv changes in one value after the
+// drawing, on the demo's data and settings. The folder is the one its own
+// files give (report.BuildDir, report.FigureFiles); the spectra figure is
+// drawn again and the profiles figure, whose files did not change, taken.
+func TestResultFiguresRedrawnWhenTheirFilesChange(t *testing.T) {
+	dir := t.TempDir()
+	truth := demo.Make(1)
+	for name, b := range truth.Files() {
+		if err := os.WriteFile(filepath.Join(dir, name), b, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	s := NewSettings()
+	s.Dir, s.Data, s.Kind, s.Blank, s.Pre = dir, []string{"series.csv"}, "single-beam", "blank.csv", truth.Pre
+	s.Model, s.T0 = "A -> B -> C", fmt.Sprint(truth.T0)
+	s.Out, s.Quiet = filepath.Join(t.TempDir(), "out"), true
+	r, err := runForFolder(s, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	stage, err := output.NewStage(s.Out, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// finish, with spectra.csv written again once the figures are drawn.
+	r.Supplied = stage.Files()
+	r.early = startEarlyFiles(r)
+	defer r.early.wait()
+	if err := WriteResults(r, stage); err != nil {
+		t.Fatal(err)
+	}
+	r.ahead.aheadResults(r, stage)
+	r.ahead.wait()
+	if got := r.ahead.second.Drawn(); !slices.Equal(got, []string{"fig-profiles"}) {
+		t.Fatalf("drawn beside the writers %v, want [fig-profiles] (and fig-spectra in pre)", got)
+	}
+	old, _ := stage.Written("spectra.csv")
+	lines := bytes.SplitN(old, []byte("\n"), 3)
+	changed := bytes.Join([][]byte{lines[0], append(append([]byte(nil), lines[1]...), '1'), lines[2]}, []byte("\n"))
+	if err := stage.Write("spectra.csv", changed); err != nil {
+		t.Fatal(err)
+	}
+	for _, w := range append(append([]func(*Result, *output.Stage) error(nil), afterWrite...), lastWrite...) {
+		if err := w(r, stage); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := stage.Commit(); err != nil {
+		t.Fatal(err)
+	}
+	sameAsFromFiles(t, r, s.Out)
+	taken := r.ahead.pre.Taken()
+	if slices.Contains(taken, "fig-spectra") || !slices.Contains(taken, "fig-profiles") {
+		t.Errorf("taken %v: want fig-profiles and not fig-spectra", taken)
 	}
 }

@@ -123,6 +123,10 @@ func finish(r *Result, stage *output.Stage, extra Extra, st Streams) error {
 	if err := WriteResults(r, stage); err != nil {
 		return err
 	}
+	// The spectra and profiles figures are drawn from now on, beside the
+	// writers that follow (ahead.go).
+	r.ahead.aheadResults(r, stage)
+	defer r.ahead.wait()
 	for _, h := range afterWrite {
 		if err := h(r, stage); err != nil {
 			return err

@@ -50,6 +50,21 @@ func (p *Predrawn) Draw(f *Folder, ids ...string) {
 	}
 }
 
+// Adopt keeps the figures q drew (in place of any p drew under the same
+// names), so that figures drawn ahead on several goroutines, each with a
+// Predrawn of its own, are offered to one report. q is not used after.
+func (p *Predrawn) Adopt(q *Predrawn) {
+	if q == nil {
+		return
+	}
+	for id, e := range q.figs {
+		if p.figs == nil {
+			p.figs = map[string]*predrawn{}
+		}
+		p.figs[id] = e
+	}
+}
+
 // Taken lists the names of the figures drawn ahead that the report took
 // (BuildWithPredrawn), in reading order.
 func (p *Predrawn) Taken() []string {
