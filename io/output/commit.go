@@ -15,7 +15,9 @@ import (
 // (docs/security.md):
 //
 //  1. every staged file and folder is flushed to disk (fsync), so a crash
-//     after the rename cannot leave the new names pointing at empty files;
+//     after the rename cannot leave the new names pointing at empty files
+//     (the files Write stores are flushed as they are written, flush.go;
+//     the commit waits for those flushes and does the rest);
 //  2. under an exclusive lock on PARENT/.OUT.lock (flock; a second run
 //     waits its turn), a swap a killed run left half done is completed or
 //     rolled back (tidy), and the output folder is checked again;
@@ -41,8 +43,13 @@ func (s *Stage) Commit() error {
 	defer untrack(s)
 	defer s.release()
 	fail := func(err error) error { os.RemoveAll(s.Dir); return err }
-	// Flushing needs no lock: the stage is this run's alone.
-	if err := syncTree(s.Dir); err != nil {
+	// Flushing needs no lock: the stage is this run's alone. The files
+	// flushed since their last write (flush.go) are not flushed again.
+	var flushed map[string]bool
+	if s.flush != nil {
+		flushed = s.flush.finish()
+	}
+	if err := syncTree(s.Dir, flushed); err != nil {
 		return fail(fmt.Errorf("%s: cannot flush the results to disk: %w", s.Final, err))
 	}
 	unlock, err := lockParent(s.Final)
@@ -237,14 +244,17 @@ func lockParent(final string) (unlock func(), err error) {
 }
 
 // syncTree flushes every file and folder below dir to disk, several at a
-// time (the file system batches them into few journal commits).
-func syncTree(dir string) error {
+// time (the file system batches them into few journal commits), but the
+// regular files in flushed (flushed since their last write).
+func syncTree(dir string, flushed map[string]bool) error {
 	var paths []string
 	err := filepath.WalkDir(dir, func(p string, d fs.DirEntry, err error) error {
 		if err != nil {
 			return err
 		}
-		paths = append(paths, p)
+		if !(d.Type().IsRegular() && flushed[p]) {
+			paths = append(paths, p)
+		}
 		return nil
 	})
 	if err != nil {
@@ -270,7 +280,11 @@ func syncTree(dir string) error {
 	return errors.Join(errs...)
 }
 
-func syncPath(p string) error {
+// syncPath is flushPath; a variable so that a test can watch the flushes.
+var syncPath = flushPath
+
+// flushPath flushes the file or folder p to disk.
+func flushPath(p string) error {
 	f, err := os.Open(p)
 	if err != nil {
 		return err

@@ -26,6 +26,9 @@ type Stage struct {
 	alive *os.File // the staging folder, locked while the run lives (see cleanStale)
 	// written is what each file was written with (Written).
 	written map[string][]byte
+	// flush flushes each file to disk as it is written (flush.go), for a
+	// stage that is to be committed.
+	flush *flusher
 }
 
 // ErrExists says the output folder holds earlier results.
@@ -269,7 +272,7 @@ func NewStage(out string, force bool) (*Stage, error) {
 		os.RemoveAll(dir)
 		return nil, fmt.Errorf("%s: %w", out, err)
 	}
-	s := &Stage{Final: clean, Dir: dir, Force: force}
+	s := &Stage{Final: clean, Dir: dir, Force: force, flush: &flusher{}}
 	// The lock says "a live run owns this folder": cleanStale leaves it be.
 	if s.alive, err = os.Open(dir); err == nil {
 		if !tryLock(s.alive) {
@@ -323,6 +326,9 @@ func (s *Stage) Write(name string, data []byte) error {
 	if err := os.WriteFile(s.Path(name), data, 0o644); err != nil {
 		return fmt.Errorf("writing %s: %w", name, err)
 	}
+	if s.flush != nil {
+		s.flush.add(s.Path(name))
+	}
 	s.files = append(s.files, name)
 	if s.written == nil {
 		s.written = map[string][]byte{}
@@ -340,7 +346,14 @@ func (s *Stage) Written(name string) ([]byte, bool) {
 }
 
 // Abort removes the staging folder, leaving the output folder as it was.
-func (s *Stage) Abort() { untrack(s); os.RemoveAll(s.Dir); s.release() }
+func (s *Stage) Abort() {
+	untrack(s)
+	if s.flush != nil {
+		s.flush.abandon()
+	}
+	os.RemoveAll(s.Dir)
+	s.release()
+}
 
 // release drops the staging folder's liveness lock.
 func (s *Stage) release() {

@@ -1,0 +1,120 @@
+package output
+
+import (
+	"errors"
+	"os"
+	"path/filepath"
+	"slices"
+	"sync"
+	"testing"
+)
+
+// watchFlushes replaces syncPath for the test: fail says which paths fail
+// to flush (the call is still recorded). It returns the paths flushed so
+// far, in order.
+func watchFlushes(t *testing.T, fail func(p string) bool) func() []string {
+	var mu sync.Mutex
+	var calls []string
+	t.Cleanup(func() { syncPath = flushPath })
+	syncPath = func(p string) error {
+		mu.Lock()
+		calls = append(calls, p)
+		mu.Unlock()
+		if fail(p) {
+			return errors.New("flush refused by the test")
+		}
+		return flushPath(p)
+	}
+	return func() []string {
+		mu.Lock()
+		defer mu.Unlock()
+		return slices.Clone(calls)
+	}
+}
+
+// A flush covers a write only when queued after it: a path written again
+// while its first flush runs is flushed again, and a flush that fails
+// covers nothing (the definition in flush.go; commit.go step 1 needs every
+// file on disk before the rename).
+func TestFlusherCoversEachWrite(t *testing.T) {
+	dir := t.TempDir()
+	a, b := filepath.Join(dir, "a"), filepath.Join(dir, "b")
+	for _, p := range []string{a, b} {
+		if err := os.WriteFile(p, []byte("x"), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	started, release := make(chan struct{}), make(chan struct{})
+	var once sync.Once
+	watchFlushes(t, func(p string) bool {
+		if p == a {
+			once.Do(func() { close(started); <-release })
+		}
+		return p == b
+	})
+	var f flusher
+	f.add(a)
+	<-started // a's first flush has begun (and waits)
+	f.add(a)  // a written again: its first flush no longer covers it
+	f.add(b)
+	close(release)
+	got := f.finish()
+	if !got[a] || got[b] {
+		t.Errorf("flushed since the last write: %v; want %s and not %s (its flush failed)", got, a, b)
+	}
+	if f.written[a] != 2 || f.flushed[a] != 2 {
+		t.Errorf("a written %d times, last flush covers write %d: want 2, 2", f.written[a], f.flushed[a])
+	}
+}
+
+// The commit flushes again what the flushes beside the writes did not
+// cover (here a file whose flush failed) and every folder, and no file
+// twice that was covered.
+func TestCommitFlushesWhatWasNotFlushed(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "out")
+	st, err := NewStage(out, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	bad := st.Path("b.csv")
+	var failed sync.Once
+	calls := watchFlushes(t, func(p string) bool {
+		refuse := false
+		if p == bad {
+			failed.Do(func() { refuse = true }) // the first flush only
+		}
+		return refuse
+	})
+	if err := st.Mkdir("figures"); err != nil {
+		t.Fatal(err)
+	}
+	for _, n := range []string{"a.csv", "b.csv", filepath.Join("figures", "c.svg"), ManifestName} {
+		if err := st.Write(n, []byte(n)); err != nil {
+			t.Fatal(err)
+		}
+	}
+	st.flush.finish() // the flushes beside the writes are done
+	before := len(calls())
+	if err := st.Commit(); err != nil {
+		t.Fatal(err)
+	}
+	atCommit := calls()[before:]
+	want := []string{st.Dir, filepath.Join(st.Dir, "figures"), bad}
+	for _, p := range want {
+		if !slices.Contains(atCommit, p) {
+			t.Errorf("%s not flushed at the commit (flushed %v)", p, atCommit)
+		}
+	}
+	for _, n := range []string{"a.csv", filepath.Join("figures", "c.svg"), ManifestName} {
+		p := filepath.Join(st.Dir, n)
+		if slices.Contains(atCommit, p) {
+			t.Errorf("%s flushed again at the commit", p)
+		}
+		if !slices.Contains(calls()[:before], p) {
+			t.Errorf("%s not flushed beside the writes", p)
+		}
+	}
+	if b, err := os.ReadFile(filepath.Join(out, "b.csv")); err != nil || string(b) != "b.csv" {
+		t.Errorf("b.csv committed as %q (%v)", b, err)
+	}
+}
