@@ -38,8 +38,9 @@ type ahead struct {
 	// data and residual are maps.csv's parts: the data and difference
 	// matrices, and the residuals.
 	data, residual *aheadMaps
-	efa            *EFAReport // the EFA drawn
-	efaCSV         []byte     // efa.csv of efa for efaTimes, formatted by the goroutine
+	efa            *EFAReport    // the EFA drawn
+	efaCSV         []byte        // efa.csv of efa for efaTimes, formatted by the goroutine
+	efaTable       *report.Table // efaCSV parsed, the table of the figure drawn
 	efaTimes       []float64
 	efaExp         []int
 	// failed says a task panicked (written by the goroutine, read after
@@ -50,7 +51,8 @@ type ahead struct {
 	// second; second is adopted into pre once they are done.
 	drawing []*later[bool]
 	second  report.Predrawn
-	closing sync.Once // closes tasks
+	part    *later[partTables] // the tables they are drawn from
+	closing sync.Once          // closes tasks
 }
 
 // startAhead begins the goroutine; a nil ahead does nothing.
@@ -144,23 +146,22 @@ func (a *ahead) aheadResults(r *Result, st *output.Stage) {
 		return
 	}
 	bands, tu := r.early.bands, report.TimeUnitRecord(r.Settings.TimeUnit)
-	folder := startLater(func() (f *report.Folder) {
+	a.part = startLater(func() (p partTables) {
 		runTask(func() {
 			if b, ok := bands.get(); ok {
 				files["uniqueness.csv"] = b
 			}
-			f = partFolder(files)
-			if f != nil {
-				f.AsRun = tu
+			if p = partFolder(files); p.folder != nil {
+				p.folder.AsRun = tu
 			}
 		})
-		return f
+		return p
 	})
 	draw := func(p *report.Predrawn, id string) *later[bool] {
 		return startLater(func() bool {
 			return runTask(func() {
-				if f, _ := folder.get(); f != nil {
-					p.Draw(f, id)
+				if part, _ := a.part.get(); part.folder != nil {
+					p.Draw(part.folder, id)
 				}
 			})
 		})
@@ -168,14 +169,22 @@ func (a *ahead) aheadResults(r *Result, st *output.Stage) {
 	a.drawing = []*later[bool]{draw(&a.pre, "fig-spectra"), draw(&a.second, "fig-profiles")}
 }
 
+// partTables is the part of an output folder aheadResults draws from, and
+// its tables with the bytes each was parsed from.
+type partTables struct {
+	folder *report.Folder
+	parsed map[string]report.Parsed
+}
+
 // partFolder is the part of an output folder made of files (name →
 // bytes) as report.LoadStaged reads them: summary.json decoded, each
 // table parsed under its name (a table that does not parse is left out,
-// as LoadStaged leaves it out). Nil when summary.json does not decode.
-func partFolder(files map[string][]byte) *report.Folder {
-	f := &report.Folder{Summary: &report.Summary{}}
-	if json.Unmarshal(files["summary.json"], f.Summary) != nil {
-		return nil
+// as LoadStaged leaves it out). No folder when summary.json does not
+// decode.
+func partFolder(files map[string][]byte) partTables {
+	p := partTables{folder: &report.Folder{Summary: &report.Summary{}}, parsed: map[string]report.Parsed{}}
+	if json.Unmarshal(files["summary.json"], p.folder.Summary) != nil {
+		return partTables{}
 	}
 	table := func(name string) *report.Table {
 		b, ok := files[name]
@@ -186,10 +195,33 @@ func partFolder(files map[string][]byte) *report.Folder {
 		if err != nil {
 			return nil
 		}
+		p.parsed[name] = report.Parsed{Bytes: b, Table: t}
 		return t
 	}
+	f := p.folder
 	f.Spectra, f.Profiles, f.Kinetics, f.Bands = table("spectra.csv"), table("profiles.csv"), table("kinetics.csv"), table("uniqueness.csv")
-	return f
+	return p
+}
+
+// parsed are the tables parsed ahead (efa.csv, and those aheadResults
+// draws from) with the bytes each was parsed from, for the report to take
+// where the folder's files hold the same bytes (report.LoadParsed): the
+// figures drawn ahead and the report then share them.
+func (a *ahead) parsed() map[string]report.Parsed {
+	if a == nil {
+		return nil
+	}
+	a.waitTasks()
+	out := map[string]report.Parsed{}
+	if !a.failed && a.efaTable != nil {
+		out["efa.csv"] = report.Parsed{Bytes: a.efaCSV, Table: a.efaTable}
+	}
+	if p, ok := a.part.get(); ok {
+		for name, t := range p.parsed {
+			out[name] = t
+		}
+	}
+	return out
 }
 
 // summaryAhead is the summary.json keys in s as the report reads them back
@@ -260,6 +292,7 @@ func (a *ahead) aheadEFA(r *Result) {
 	a.add(func() {
 		a.efaCSV = efaTable(rep, times, exp, multi).CSV()
 		if t, err := report.ParseTable("efa.csv", a.efaCSV); err == nil {
+			a.efaTable = t
 			a.pre.Draw(&report.Folder{EFA: t, AsRun: tu}, "fig-efa")
 		}
 	})

@@ -211,7 +211,9 @@ func TestResultFiguresRedrawnWhenTheirFilesChange(t *testing.T) {
 	}
 	old, _ := stage.Written("spectra.csv")
 	lines := bytes.SplitN(old, []byte("\n"), 3)
-	changed := bytes.Join([][]byte{lines[0], append(append([]byte(nil), lines[1]...), '1'), lines[2]}, []byte("\n"))
+	cells := bytes.Split(lines[1], []byte(","))
+	cells[1] = []byte("1000") // far above every spectrum: the figure's scale changes
+	changed := bytes.Join([][]byte{lines[0], bytes.Join(cells, []byte(",")), lines[2]}, []byte("\n"))
 	if err := stage.Write("spectra.csv", changed); err != nil {
 		t.Fatal(err)
 	}
@@ -224,6 +226,9 @@ func TestResultFiguresRedrawnWhenTheirFilesChange(t *testing.T) {
 		t.Fatal(err)
 	}
 	sameAsFromFiles(t, r, s.Out)
+	if b, err := os.ReadFile(filepath.Join(s.Out, "figures", "fig-spectra.svg")); err != nil || len(r.ahead.pre.SVGFile("fig-spectra")) == 0 || bytes.Equal(b, r.ahead.pre.SVGFile("fig-spectra")) {
+		t.Errorf("fig-spectra.svg is the one drawn before spectra.csv changed (%v)", err)
+	}
 	taken := r.ahead.pre.Taken()
 	if slices.Contains(taken, "fig-spectra") || !slices.Contains(taken, "fig-profiles") {
 		t.Errorf("taken %v: want fig-profiles and not fig-spectra", taken)

@@ -126,8 +126,9 @@ func writeReport(r *Result, stage *output.Stage) error {
 		return nil
 	}
 	// maps.csv as writeMaps formed it rather than read back: the same Maps;
-	// the other files as they were written, not read back either.
-	f, err := report.LoadStaged(stage.Dir, r.reportMaps, stage.Written)
+	// the other files as they were written, not read back either, and the
+	// tables parsed ahead from the same bytes not parsed again.
+	f, err := report.LoadParsed(stage.Dir, r.reportMaps, stage.Written, r.ahead.parsed())
 	if err != nil {
 		return fmt.Errorf("report: %w", err)
 	}

@@ -74,6 +74,15 @@ func (p *Predrawn) Taken() []string {
 	return p.taken
 }
 
+// SVGFile is the SVG file of the figure drawn ahead under id (nil when
+// there is none).
+func (p *Predrawn) SVGFile(id string) []byte {
+	if p == nil || p.figs[id] == nil {
+		return nil
+	}
+	return p.figs[id].svg
+}
+
 // Drawn lists the names of the figures drawn ahead, sorted.
 func (p *Predrawn) Drawn() []string {
 	var ids []string

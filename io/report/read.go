@@ -186,6 +186,22 @@ func Load(dir string) (*Folder, error) { return LoadStaged(dir, nil, nil) }
 // report does not read back, into new memory, what it holds already. The
 // Folder is the same (the bytes are the file's).
 func LoadStaged(dir string, maps *Maps, staged func(name string) ([]byte, bool)) (*Folder, error) {
+	return LoadParsed(dir, maps, staged, nil)
+}
+
+// Parsed is a table parsed from the bytes of a file (ParseTable), kept
+// with them.
+type Parsed struct {
+	Bytes []byte
+	Table *Table
+}
+
+// LoadParsed is LoadStaged taking, for a file whose bytes are those a
+// table of parsed was parsed from (compared byte for byte), that table
+// rather than parsing them again: the same Table, which figures drawn
+// ahead from it then share (their views compare at once). The tables are
+// read, never changed, by the report.
+func LoadParsed(dir string, maps *Maps, staged func(name string) ([]byte, bool), parsed map[string]Parsed) (*Folder, error) {
 	ents, err := os.ReadDir(dir)
 	if err != nil {
 		return nil, fmt.Errorf("reading output folder: %w", err)
@@ -223,6 +239,9 @@ func LoadStaged(dir string, maps *Maps, staged func(name string) ([]byte, bool))
 	}
 	table := func(name string) *Table {
 		b, err := read(name)
+		if p, ok := parsed[name]; err == nil && ok && p.Table != nil && bytes.Equal(p.Bytes, b) {
+			return p.Table
+		}
 		var t *Table
 		if err == nil {
 			t, err = tableOf(b)

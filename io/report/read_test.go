@@ -1,8 +1,12 @@
 package report
 
 import (
+	"bytes"
 	"math"
 	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"reflect"
 	"slices"
 	"strconv"
 	"strings"
@@ -69,5 +73,42 @@ func TestLongEnvelopeFirstExperiment(t *testing.T) {
 	}
 	if x, _, _ := longEnvelope(tab, "b", "spectrum", "at_min", "at_max"); x != nil {
 		t.Errorf("one row is no envelope: got %v", x)
+	}
+}
+
+// LoadParsed takes a table parsed ahead only for the very bytes it was
+// parsed from: the folder is the one Load reads (the reference), the
+// table given is taken for a file with those bytes, and one given for
+// other bytes is not.
+func TestLoadParsedTakesOnlyTheSameBytes(t *testing.T) {
+	dir := t.TempDir()
+	spectra := []byte("wavenumber,a\n1000,0.5\n1002,0.25\n")
+	profiles := []byte("time,a\n0,1\n60,0.5\n")
+	for name, b := range map[string][]byte{"summary.json": []byte(`{"tool": "bandsolve", "component_names": ["a"]}`),
+		"spectra.csv": spectra, "profiles.csv": profiles} {
+		if err := os.WriteFile(filepath.Join(dir, name), b, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	same, _ := ParseTable("spectra.csv", bytes.Clone(spectra))
+	stale, _ := ParseTable("profiles.csv", []byte("time,a\n0,1\n60,0.75\n"))
+	parsed := map[string]Parsed{"spectra.csv": {Bytes: bytes.Clone(spectra), Table: same},
+		"profiles.csv": {Bytes: []byte("time,a\n0,1\n60,0.75\n"), Table: stale}}
+	got, err := LoadParsed(dir, nil, nil, parsed)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want, err := Load(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !reflect.DeepEqual(got, want) {
+		t.Error("LoadParsed's folder differs from Load's")
+	}
+	if got.Spectra != same {
+		t.Error("the table parsed from spectra.csv's bytes was not taken")
+	}
+	if got.Profiles == stale {
+		t.Error("a table parsed from other bytes than profiles.csv's was taken")
 	}
 }
