@@ -3,6 +3,7 @@ package spectra
 import (
 	"runtime"
 	"sync"
+	"sync/atomic"
 
 	"github.com/bandsolve/bandsolve/internal/product"
 )
@@ -46,12 +47,21 @@ func (p *rowPieces) take(k, size int) [][]float64 {
 
 // mapRowsReusing computes, for every row i of [0, n), p.width values per row
 // with mapRow(i, out) on up to GOMAXPROCS goroutines, and hands them to
-// reduce(i, out) on the calling goroutine in ascending i: the per-value work
+// reduce(i, out) in ascending i, one call at a time: the per-value work
 // (logarithms, divisions) runs in parallel, the sums over rows in one fixed
 // order. out is only valid during the call.
 //
-// Its buffers come from p; values left in them from an earlier pass are
-// never read, since mapRow writes a row's values before reduce reads them.
+// The reduction has no goroutine of its own: the worker that maps the
+// piece of rows next in order reduces it, and every piece after it already
+// mapped, while the others go on mapping. A reducer goroutine beside
+// GOMAXPROCS mappers waited for a processor while the mappers ran ahead
+// and filled every buffer, then reduced alone while they waited: the
+// passes kept 1.2–1.5 of 2 cores busy where the maps alone keep both.
+//
+// Its buffers come from p, piece k in buffer k mod slots; a piece is mapped
+// only once the piece slots before it is reduced. Values left in them from
+// an earlier pass are never read, since mapRow writes a row's values before
+// reduce reads them.
 func mapRowsReusing(p *rowPieces, n int, mapRow func(i int, out []float64), reduce func(i int, out []float64)) {
 	width := p.width
 	b := rowBlock(width)
@@ -64,51 +74,67 @@ func mapRowsReusing(p *rowPieces, n int, mapRow func(i int, out []float64), redu
 		}
 		return
 	}
-	type piece struct {
-		r0, r1 int
-		buf    []float64
-		done   chan struct{}
-	}
+	pieces := (n + b - 1) / b
 	slots := 4 * w
-	free := make(chan []float64, slots)
-	for _, buf := range p.take(slots, b*width) {
-		free <- buf
-	}
-	work := make(chan *piece, slots)
-	ordered := make(chan *piece, slots)
-	go func() {
-		// Pieces are handed out in row order and queued for the reduction
-		// in the same order; a buffer is reused only once reduced.
-		for r := 0; r < n; r += b {
-			p := &piece{r0: r, r1: min(r+b, n), buf: <-free, done: make(chan struct{})}
-			work <- p
-			ordered <- p
+	bufs := p.take(slots, b*width)
+	rows := func(k int, f func(i int, out []float64)) {
+		buf := bufs[k%slots]
+		for i := k * b; i < min(n, (k+1)*b); i++ {
+			o := (i - k*b) * width
+			f(i, buf[o:o+width])
 		}
-		close(work)
-		close(ordered)
-	}()
+	}
+	var (
+		mu       sync.Mutex
+		freed    = sync.NewCond(&mu)
+		mapped   = make([]bool, pieces)
+		next     int  // the next piece to reduce
+		reducing bool // a worker is reducing pieces next, next+1, …
+		claim    atomic.Int64
+	)
+	work := func() {
+		for {
+			k := int(claim.Add(1) - 1)
+			if k >= pieces {
+				return
+			}
+			mu.Lock()
+			for next <= k-slots { // its buffer still holds piece k − slots
+				freed.Wait()
+			}
+			mu.Unlock()
+			rows(k, mapRow)
+			mu.Lock()
+			mapped[k] = true
+			if reducing || next != k {
+				mu.Unlock()
+				continue
+			}
+			// Piece k is next: reduce it and the mapped pieces after it,
+			// outside the lock, in order; the mutex orders these calls
+			// after the maps they read and before later reductions.
+			reducing = true
+			for next < pieces && mapped[next] {
+				r := next
+				mu.Unlock()
+				rows(r, reduce)
+				mu.Lock()
+				next++
+				freed.Broadcast()
+			}
+			reducing = false
+			mu.Unlock()
+		}
+	}
 	var wg sync.WaitGroup
-	for g := 0; g < w; g++ {
+	for g := 1; g < w; g++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			for p := range work {
-				for i := p.r0; i < p.r1; i++ {
-					o := (i - p.r0) * width
-					mapRow(i, p.buf[o:o+width])
-				}
-				close(p.done)
-			}
+			work()
 		}()
 	}
-	for p := range ordered {
-		<-p.done
-		for i := p.r0; i < p.r1; i++ {
-			o := (i - p.r0) * width
-			reduce(i, p.buf[o:o+width])
-		}
-		free <- p.buf
-	}
+	work()
 	wg.Wait()
 }
 
