@@ -333,6 +333,15 @@ func (a *ahead) aheadFit(r *Result) {
 		a.pre.Draw(&report.Folder{Iterations: t, Summary: s, AsRun: tu, Maps: m.part.Maps()},
 			"fig-iterations", "fig-residual-map", "fig-residual-spectrum")
 	})
+	// The images the spectra and profiles figures will be drawn in
+	// (aheadResults), made and touched now, while the last phases leave
+	// this goroutine idle: for legends of a line and a range per component
+	// and two kinetic fits, two items a row (a larger figure makes its own).
+	rows := r.Components + 2
+	a.add(func() {
+		a.pre.Reserve(rows)
+		a.second.Reserve(rows)
+	})
 }
 
 // aheadMaps is some matrices of maps.csv at its points (rows × cols),

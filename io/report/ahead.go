@@ -1,8 +1,11 @@
 package report
 
 import (
+	"image"
 	"reflect"
 	"slices"
+
+	"gonum.org/v1/plot/vg"
 )
 
 // Predrawn holds figures drawn ahead of the folder they belong to, with
@@ -47,6 +50,28 @@ func (p *Predrawn) Draw(f *Folder, ids ...string) {
 			}
 			p.figs[j.id] = e
 		}
+	}
+}
+
+// Reserve readies p's drawing memory for a figure of the report's usual
+// size (the spectra's, the profiles') with up to rows rows of legend: the
+// image made now and painted, and the PNG encoder's working memory made
+// by encoding a small image, so that a figure drawn later does not wait
+// for memory new to the process, whose first touch is dear
+// (docs/performance.md, Machine: ≈ 10 ms for one figure's 2.6 MB image on
+// the shared machine). Call it on the goroutine that draws into p, where
+// it has time to spare.
+func (p *Predrawn) Reserve(rows int) {
+	n := 4 * figurePixels(figW) * figurePixels(figH+vg.Length(rows)*legendRowH)
+	if cap(p.scratch.pix) < n {
+		pix := make([]byte, n)
+		for i := range pix {
+			pix[i] = 0xff
+		}
+		p.scratch.pix = pix
+	}
+	if p.scratch.png.zw == nil {
+		p.scratch.png.encode(image.NewRGBA(image.Rect(0, 0, 64, 64)))
 	}
 }
 

@@ -90,3 +90,31 @@ func TestPredrawnTakenOnlyForTheSameView(t *testing.T) {
 		t.Errorf("taken %v: every figure but the two showing σ should be", pre.Taken())
 	}
 }
+
+// A Predrawn readied with Reserve draws the figures' files in the image it
+// made (no new one), and the files are FigureFiles' bytes (the reference:
+// the files drawn with fresh memory): what the image held before is
+// painted over.
+func TestReservedPredrawnDrawsTheSameFiles(t *testing.T) {
+	f, err := Load(fixture(t, true))
+	if err != nil {
+		t.Fatal(err)
+	}
+	want, _ := FigureFiles(f)
+	var p Predrawn
+	p.Reserve(len(f.Summary.ComponentNames) + 2)
+	img := &p.scratch.pix[:1][0]
+	for i := range p.scratch.pix {
+		p.scratch.pix[i] = byte(i) // not white: the drawing must not rely on it
+	}
+	p.Draw(f, "fig-spectra", "fig-profiles")
+	for _, id := range []string{"fig-spectra", "fig-profiles"} {
+		e := p.figs[id]
+		if e == nil || !bytes.Equal(e.svg, want["figures/"+id+".svg"]) || !bytes.Equal(e.pngb, want["figures/"+id+".png"]) {
+			t.Errorf("%s: the files drawn in a reserved Predrawn differ from FigureFiles'", id)
+		}
+	}
+	if &p.scratch.pix[:1][0] != img {
+		t.Error("a new image was made for figures the reserved one holds")
+	}
+}
