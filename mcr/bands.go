@@ -52,6 +52,11 @@ type Band struct {
 	Feasible bool
 	// Reason says why the range is not determined when Feasible is false.
 	Reason string
+	// MinConverged and MaxConverged say whether the search for each end
+	// met its stopping test rather than its budget (see FeasibleBands):
+	// false means the end is only as far out as the search got, an
+	// inner estimate of the range.
+	MinConverged, MaxConverged bool
 }
 
 // SearchLeftConstraints is the Reason of a band whose search ended outside
@@ -103,9 +108,11 @@ type BandsResult struct {
 // residual is taken as ‖C Sᵀ − A₊B₊ᵀ‖², leaving out the cross term
 // 2⟨E, C Sᵀ − A₊B₊ᵀ⟩ with the residual E, which is zero to first order at
 // a least-squares solution (E is orthogonal to the model's tangent space);
-// that keeps every evaluation free of the data. The search replaces the
-// violation penalty by the penalty μ·max(0, rise/allowance − 1)², and the
-// extremes returned are the pair with the constraints imposed, its f_k
+// that keeps every evaluation free of the data. From the exact-fit
+// extreme, the search then minimises sign·log f_k subject to the one
+// constraint √(rise/allowance) ≤ 1 by sequential quadratic programming
+// (minimiseSQP; Nocedal & Wright 2006, algorithm 18.3), and the extremes
+// returned are the pair with the constraints imposed, its f_k
 // recomputed. Closure holds for C T exactly and for A₊ to within the
 // allowance. Rotations keep each component's amplitude, and noise moves it
 // too: each extreme is widened by scaling component k alone, c_k → (1+ε)c_k
@@ -113,6 +120,17 @@ type BandsResult struct {
 // the direction that moves f_k outwards; f_k(ε) is evaluated exactly on the
 // Gram matrices. The range is thus the union of two moves each within the
 // bound, an outer estimate of the region's extremes.
+//
+// Convergence: each end records whether its search met its stopping test
+// (MinConverged, MaxConverged). Within the noise that test is that the
+// next step of the search promises to move f_k by less than sqpTol
+// (10⁻⁵) of itself, counting the return to the allowance's boundary;
+// for the exact fit, that the last penalty stage stopped on its own
+// stalling rule (minimiseBFGS) rather than its budget. An end that did
+// not converge is where the budget ran out: the range is at least that
+// wide. Both are local: a search ends at the extreme of the region it
+// starts in, and a feasible region of several pieces, or a share with
+// several local extremes, may hold ends further out.
 //
 // The extreme profiles and spectra are returned with the scale of the
 // given solution: with closure as they come (closure fixes the scale);
@@ -160,6 +178,7 @@ func FeasibleBands(c, s *mat.Dense, opt BandOptions) (*BandsResult, error) {
 		out.Evaluations += lo.evals + hi.evals
 		b.Min, b.MinProfile, b.MinSpectrum = math.Min(lo.f, b.Value), lo.profile, lo.spectrum
 		b.Max, b.MaxProfile, b.MaxSpectrum = math.Max(hi.f, b.Value), hi.profile, hi.spectrum
+		b.MinConverged, b.MaxConverged = lo.converged, hi.converged
 		// The search's last stage ending infeasible means the band is
 		// only the feasible part it reached (an inner estimate).
 		b.Feasible = lo.ok && hi.ok
@@ -176,7 +195,7 @@ func FeasibleBands(c, s *mat.Dense, opt BandOptions) (*BandsResult, error) {
 type bandEnd struct {
 	f                 float64
 	profile, spectrum []float64
-	ok                bool
+	ok, converged     bool
 	evals             int
 	err               error
 }
@@ -220,7 +239,7 @@ func (p *bandProblem) allExtremes() ([]bandEnd, error) {
 // −1 the maximum. Within the noise, the profile is rescaled to the
 // amplitude that keeps the fit inside the allowance.
 func (p *bandProblem) end(j int, sign float64) bandEnd {
-	theta, f, ok, evals := p.extreme(j, sign)
+	theta, f, ok, evals, conv := p.extreme(j, sign)
 	t := p.rotation(theta)
 	prof, spec, err := p.component(t, j)
 	if err != nil {
@@ -233,7 +252,7 @@ func (p *bandProblem) end(j int, sign float64) bandEnd {
 			prof[i] *= amp
 		}
 	}
-	return bandEnd{f: f, profile: prof, spectrum: spec, ok: ok, evals: evals}
+	return bandEnd{f: f, profile: prof, spectrum: spec, ok: ok, evals: evals, converged: conv}
 }
 
 type bandProblem struct {
@@ -503,48 +522,34 @@ func (p *bandProblem) violation(a, b *mat.Dense) float64 {
 	return worst
 }
 
-// extreme minimises sign·f_j by the penalty sequence and returns the end
-// point, f_j there, whether it is feasible and the evaluations used.
+// extreme minimises sign·f_j and returns the end point, f_j there,
+// whether it is feasible, the evaluations used and whether the search
+// converged (sqpTol within the noise; see stages for the exact fit).
+//
+// Exact fit (no allowance): the penalty sequence of stages.
 //
 // Within the noise the exact-fit extreme comes first (it lies inside the
-// allowance) and one residual-penalty stage (μ = 10⁵, a sixteenth of the
-// evaluations) carries it outwards: this bounds the cost on large data,
-// where the clipped pair's kinks slow BFGS. μ = 10⁵ lets the rise exceed
-// the allowance by about 1/(2μ) of it, well inside Tolerance. That stage's
-// line search starts from the last accepted step (minimiseBFGS): from the
-// full step it used its whole budget backtracking on the kinks, and now
-// ends converged in a quarter of it (docs/performance.md).
+// allowance) and minimiseSQP carries it out to the boundary of the
+// allowance (noiseSQP). The exact-fit extreme is then only that search's
+// start, and its sequence stops at the first stage ending feasible,
+// converged or not (stagePlan.seed), with stages stopped once three
+// iterations in a row lower the objective by less than 10⁻⁸ of it
+// (seedStall): the stiffer stages and the last digits only move the
+// start (docs/performance.md, fifth and eighth rounds of issue 15). The
+// seed also picks the local extreme the search ends in: started from the
+// solution itself SQP ended elsewhere on three of the demo's six ends,
+// two of them further in.
 //
-// The exact-fit extreme is then only that stage's start, and its sequence
-// stops at the first stage ending feasible, converged or not (stages'
-// seed): the stiffer stages after it start inside the constraints, where
-// a larger μ pulls the end back towards the interior, and on the
-// six-species chain of io/pipeline's benchmark they never reached a more
-// extreme feasible end in any of its twelve searches (every range the same
-// to the last bit) while taking 29 % of its evaluations. For the same
-// reason the seed's stages stop once three iterations in a row lower the
-// objective by less than 10⁻⁸ of it (seedStall) instead of 10⁻¹²: the
-// noise stage moves the end on by 10⁻⁵–10⁻⁴ of f_j, and the seed's last
-// iterations, each 10⁻¹⁰ of f_j or less, only moved its start.
-// On the five species of io/pipeline's 2000 × 3001 benchmark that took
-// a quarter of all evaluations (1396 → 1069); the ranges moved by at most
-// 1.4·10⁻⁷ of f_j, where a search run to 10⁻¹⁵ with sixteen times the
-// budget lies 2·10⁻⁶ beyond them (docs/performance.md).
-//
-// The noise stage backtracks by quadratic interpolation (minimiseBFGS):
-// on that benchmark its evaluations fell by a quarter (672 → 501), and on
-// it, the demo and the urethane series 12 of the 18 range ends that moved
-// went outwards, by up to 3.5·10⁻³ of f_j (the urethane series, whose ends
-// a search run to 10⁻¹⁵ with sixteen times the budget carries up to 2.5 %
-// further), the other six inwards by at most 3.8·10⁻⁶ of f_j. The
-// exact-fit stages keep halving: from the solution the first of them
-// (μ = 10²) interpolated its way into a far region where components cancel
-// and whose rotations the stiffer stages then rejected, on the
-// three-component data of TestBandsWideAndContainTruth.
-func (p *bandProblem) extreme(j int, sign float64) ([]float64, float64, bool, int) {
+// Until the ninth round the noise stage was a quadratic penalty
+// μ·max(0, rise/allowance − 1)², μ = 10⁵, minimised by BFGS within a
+// sixteenth of the budget: the extreme lies on the allowance's boundary,
+// where that penalty is a narrow curved valley, and BFGS zigzagged across
+// it in steps of 10⁻⁴ of the rotation and stopped on its budget 0.3–2.1 %
+// of f_j short of the extreme on the urethane series (docs/performance.md).
+func (p *bandProblem) extreme(j int, sign float64) ([]float64, float64, bool, int, bool) {
 	theta := make([]float64, len(p.free))
 	if len(theta) == 0 {
-		return theta, p.contribution(identity(p.k), j), true, 0
+		return theta, p.contribution(identity(p.k), j), true, 0, true
 	}
 	allow := p.allow
 	p.allow = 0
@@ -552,24 +557,53 @@ func (p *bandProblem) extreme(j int, sign float64) ([]float64, float64, bool, in
 	if allow > 0 {
 		exact.stall = seedStall
 	}
-	th, f, ok, evals := p.stages(j, sign, theta, exact)
+	th, f, ok, evals, conv := p.stages(j, sign, theta, exact)
 	p.allow = allow
 	if allow == 0 {
-		return th, f, ok, evals
+		return th, f, ok, evals, conv
 	}
-	th, f, ok, more := p.stages(j, sign, th, stagePlan{mus: []float64{1e5}, budget: p.opt.MaxEvaluations / 16, carryStep: true, interpolate: true, stall: endStall})
-	return th, f, ok, evals + more
+	th, f, ok, more, conv := p.noiseSQP(j, sign, th)
+	return th, f, ok, evals + more, conv
+}
+
+// sqpTol is the accuracy asked of sign·log f_j at a range's end within the
+// noise (minimiseSQP's tol): the search stops when its next step promises
+// to move f_j by less than 10⁻⁵ of itself. The ranges are printed to four
+// digits, a resolution of 10⁻⁴ of f_j or coarser, so the last printed
+// digit is the converged one but at a rounding boundary. The test is of
+// first order; measured, the ends it stops at lie within 5·10⁻⁷ of f_j of
+// a search run to 10⁻¹⁰ on the urethane series and on 2000 × 3001 and
+// within 4.4·10⁻⁶ on the demo (docs/performance.md).
+const sqpTol = 1e-5
+
+// noiseSQP carries the exact-fit end theta0 out to the boundary of the
+// noise allowance by minimiseSQP within a sixteenth of the budget, and
+// returns the end (theta0 itself when the search ends no further out),
+// f_j of its constrained pair, whether it keeps the allowance within
+// Tolerance, the evaluations and whether the search converged.
+func (p *bandProblem) noiseSQP(j int, sign float64, theta0 []float64) ([]float64, float64, bool, int, bool) {
+	startF := p.startShare(theta0, j)
+	r := minimiseSQP(bandNoise{p, j, sign}, theta0, sqpOptions{maxEval: p.opt.MaxEvaluations / 16, tol: sqpTol})
+	a, b, _, ok := p.rotate(p.rotation(r.x))
+	if !ok || p.rise(a, b, nil, nil) > p.allow*(1+p.opt.Tolerance) {
+		return theta0, startF, false, r.evals, false
+	}
+	a, b = p.constrainedPair(a, b)
+	if f := math.Sqrt(colNormSq(a, j)*colNormSq(b, j)) / p.norm; sign*f < sign*startF {
+		return r.x, f, true, r.evals, r.converged
+	}
+	return theta0, startF, true, r.evals, r.converged
 }
 
 // stagePlan is a penalty sequence: its weights μ, the evaluations of each
-// stage, the line search's start (carryStep as in minimiseBFGS), and seed:
-// the end only starts a later search, so the sequence stops at the first
-// feasible end even when that stage used its whole budget.
+// stage, and seed: the end only starts a later search, so the sequence
+// stops at the first feasible end even when that stage used its whole
+// budget.
 type stagePlan struct {
-	mus                          []float64
-	budget                       int
-	carryStep, interpolate, seed bool
-	stall                        float64 // minimiseBFGS's stall
+	mus    []float64
+	budget int
+	seed   bool
+	stall  float64 // minimiseBFGS's stall
 }
 
 // The relative decrease of the objective per iteration below which a
@@ -581,7 +615,10 @@ const (
 	seedStall = 1e-8
 )
 
-// stages runs the penalty sequence of plan from theta (see extreme).
+// stages runs the penalty sequence of plan from theta (see extreme):
+// non-negativity and zero windows as the quadratic penalty μ Σ min(0, x)²,
+// minimised by BFGS for each μ in turn, each stage starting where the last
+// ended (a sequential penalty method, Fiacco & McCormick 1968).
 //
 // The sequence stops at the first stage that converges (ends within its
 // budget) at a point keeping the constraints within Tolerance, or with
@@ -594,14 +631,22 @@ const (
 // data whose resolution is nearly unique the first stage already ends
 // feasible, and the three stiffer ones took two thirds of the evaluations
 // for the same ranges to the last digit (docs/performance.md).
-func (p *bandProblem) stages(j int, sign float64, theta0 []float64, plan stagePlan) ([]float64, float64, bool, int) {
+//
+// The end counts as converged when the last stage run stopped on
+// minimiseBFGS's own rule (stall, vanishing gradient, no decrease), not on
+// its budget: a minimum of that stage's penalty function to the stall's
+// accuracy, which is the constrained extreme to within the violation that
+// Tolerance allows.
+func (p *bandProblem) stages(j int, sign float64, theta0 []float64, plan stagePlan) ([]float64, float64, bool, int, bool) {
 	theta := append([]float64(nil), theta0...)
 	evals, lastOK := 0, false
 	bestTheta := append([]float64(nil), theta...)
 	bestF := p.startShare(theta, j)
+	lastConv := false
 	for _, mu := range plan.mus {
-		x, _, used := minimiseBFGS(bandObjective{p, j, sign, mu}, theta, bfgsOptions{maxEval: plan.budget, carryStep: plan.carryStep, interpolate: plan.interpolate, stall: plan.stall})
+		x, _, used, conv := minimiseBFGS(bandObjective{p, j, sign, mu}, theta, bfgsOptions{maxEval: plan.budget, stall: plan.stall})
 		evals += used
+		lastConv = conv
 		theta = append(theta[:0], x...)
 		t := p.rotation(theta)
 		a, b, _, ok := p.rotate(t)
@@ -625,7 +670,7 @@ func (p *bandProblem) stages(j int, sign float64, theta0 []float64, plan stagePl
 			}
 		}
 	}
-	return bestTheta, bestF, lastOK, evals
+	return bestTheta, bestF, lastOK, evals, lastConv && lastOK
 }
 
 // startShare is f_j at the stages' start theta. At θ = 0 (every first

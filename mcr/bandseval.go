@@ -266,6 +266,7 @@ type evalPoint struct {
 	sign, mu   float64
 	smooth     bool    // false: a wall (singular T, a zero column): gradient 0
 	na2, nb2   float64 // ‖a_j‖², ‖b_j‖²
+	rise       float64 // within the noise: the rise (riseSparse)
 	rising     bool    // within the noise: the rise exceeds the allowance
 	riseFactor float64 // then μ·∂(h²)/∂rise times the 2 of ∂‖XYᵀ‖²
 }
@@ -844,6 +845,7 @@ func (p *bandProblem) riseSparse() float64 {
 	for i := range gx {
 		rise += gx[i] * gy[i]
 	}
+	w.at.rise = rise
 	h := rise/p.allow - 1
 	w.at.rising = h > 0
 	if h <= 0 {
@@ -1218,4 +1220,48 @@ func congruenceLeft(out, g, v []float64, k int) []float64 {
 		}
 	}
 	return out
+}
+
+// bandNoise is the search for one end of a range within the noise as
+// minimiseSQP takes it: g = sign·log f_j (plus the constant log‖C Sᵀ‖,
+// as valueGram), c = √(rise/allowance) − 1. The square root makes c
+// about linear in the rotation's move past the entries it clips (the
+// rise is the square of a norm of them), so its linearisation, which
+// SQP steps on, holds over the steps it takes.
+type bandNoise struct {
+	p    *bandProblem
+	j    int
+	sign float64
+}
+
+func (o bandNoise) evaluate(x []float64) (float64, float64, bool) {
+	v := o.p.valueWork(o.j, o.sign, 0, x)
+	at := o.p.work.at
+	if !at.smooth {
+		return v, 0, false
+	}
+	return v, math.Sqrt(at.rise/o.p.allow) - 1, true
+}
+
+func (o bandNoise) gradients(gg, gc []float64) {
+	p := o.p
+	w, k, at := p.work, p.k, p.work.at
+	clear(w.gt)
+	clear(w.gbB)
+	ctA, bjB := w.vec[0], w.vec[2]
+	for r := 0; r < k; r++ {
+		w.gt[r*k+at.j] += at.sign * ctA[r] / at.na2
+		w.gbB[at.j*k+r] += at.sign * bjB[r] / at.nb2
+	}
+	p.projectGradient(gg)
+	clear(w.gt)
+	clear(w.gbB)
+	if !(at.rise > 0) {
+		clear(gc)
+		return
+	}
+	// ∂c/∂rise = 1/(2·allowance·√(rise/allowance)); riseGradient's
+	// factor carries the 2 of ∂‖X Yᵀ‖² (see riseSparse).
+	p.riseGradient(2 / (2 * p.allow * math.Sqrt(at.rise/p.allow)))
+	p.projectGradient(gc)
 }

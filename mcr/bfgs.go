@@ -9,33 +9,21 @@ import "math"
 // keeps the arithmetic order fixed (deterministic) and the dependency set
 // to gonum's mat. The inverse-Hessian update is skipped when the curvature
 // condition sᵀy > 0 fails, which keeps the approximation positive definite.
-// It returns the best point, its value and the function evaluations used.
-//
-// With carryStep the line search tries first twice the step accepted at
-// the previous iteration (at most 1) instead of the full quasi-Newton step:
-// an initial step taken from the last iteration (Nocedal & Wright §3.5).
-// On an objective whose curvature jumps (a penalty switching on at a kink)
-// the inverse-Hessian estimate stays badly scaled, the full step overshoots
-// by orders of magnitude at every iteration, and backtracking from 1 then
-// spends most of the evaluations.
-//
-// With interpolate a rejected trial step α is followed by the minimiser
-// of the quadratic through f(x), the slope along the direction and the
-// trial value, kept within [α/10, α/2], instead of α/2 (Dennis & Schnabel,
-// Numerical Methods for Unconstrained Optimization and Nonlinear
-// Equations, 1983, §6.3.2; Nocedal & Wright §3.5): where the trial value
-// shows the step overshot by far, the next trial comes back in one step
-// instead of several halvings, and where it only just failed, nearer to it.
+// It returns the best point, its value, the function evaluations used and
+// whether it converged (below).
 //
 // It stops when three iterations in a row lower f by less than stall
 // relative to |f| (a stalled search), when the gradient vanishes, when the
-// line search finds no decrease, or after maxEval evaluations.
+// line search finds no decrease, or after maxEval evaluations. The first
+// three count as converged: a local minimum to the stall's accuracy, or to
+// rounding where no step along a descent direction lowers f; the budget
+// does not.
 //
 // The gradient is asked for only at the points the line search accepts
 // (f.gradient after f.value there): Armijo backtracking decides on values
 // alone, and on the range searches it rejects more trial points than it
 // accepts.
-func minimiseBFGS(f smoothObjective, x0 []float64, o bfgsOptions) ([]float64, float64, int) {
+func minimiseBFGS(f smoothObjective, x0 []float64, o bfgsOptions) ([]float64, float64, int, bool) {
 	maxEval, stall := o.maxEval, o.stall
 	n := len(x0)
 	x := append([]float64(nil), x0...)
@@ -67,8 +55,8 @@ func minimiseBFGS(f smoothObjective, x0 []float64, o bfgsOptions) ([]float64, fl
 	y := make([]float64, n)
 	hy := make([]float64, n)
 	stalled := 0
-	lastStep := 1.0
 	fresh := true // h was just reset
+	converged := false
 	for evals < maxEval {
 		for i := 0; i < n; i++ {
 			v := 0.0
@@ -82,6 +70,7 @@ func minimiseBFGS(f smoothObjective, x0 []float64, o bfgsOptions) ([]float64, fl
 			// No descent direction even along the gradient (a zero or
 			// non-finite gradient): this point is as good as it gets.
 			if fresh {
+				converged = true
 				break
 			}
 			resetH()
@@ -90,9 +79,6 @@ func minimiseBFGS(f smoothObjective, x0 []float64, o bfgsOptions) ([]float64, fl
 		}
 		fresh = false
 		step, accepted := 1.0, false
-		if o.carryStep {
-			step = math.Min(1, 2*lastStep)
-		}
 		var fn float64
 		for ls := 0; ls < 40 && evals < maxEval; ls++ {
 			for i := range xn {
@@ -105,12 +91,12 @@ func minimiseBFGS(f smoothObjective, x0 []float64, o bfgsOptions) ([]float64, fl
 				accepted = true
 				break
 			}
-			step = nextStep(step, slope, fx, fn, o.interpolate)
+			step = nextStep(step, slope, fx, fn, false)
 		}
 		if !accepted {
+			converged = evals < maxEval
 			break
 		}
-		lastStep = step
 		for i := 0; i < n; i++ {
 			s[i] = xn[i] - x[i]
 			y[i] = gn[i] - g[i]
@@ -122,12 +108,14 @@ func minimiseBFGS(f smoothObjective, x0 []float64, o bfgsOptions) ([]float64, fl
 		if rel < stall {
 			stalled++
 			if stalled >= 3 {
+				converged = true
 				break
 			}
 		} else {
 			stalled = 0
 		}
 		if math.Sqrt(dot(g, g)) < 1e-14 {
+			converged = true
 			break
 		}
 		sy := dot(s, y)
@@ -150,25 +138,28 @@ func minimiseBFGS(f smoothObjective, x0 []float64, o bfgsOptions) ([]float64, fl
 			}
 		}
 	}
-	return x, fx, evals
+	return x, fx, evals, converged
 }
 
-// bfgsOptions are minimiseBFGS's settings: the evaluations it may use, the
-// line search's first trial (carryStep) and its backtracking
-// (interpolate), and the relative decrease below which an iteration counts
-// as stalled.
+// bfgsOptions are minimiseBFGS's settings: the evaluations it may use and
+// the relative decrease below which an iteration counts as stalled.
 type bfgsOptions struct {
-	maxEval                int
-	carryStep, interpolate bool
-	stall                  float64
+	maxEval int
+	stall   float64
 }
 
 // nextStep is the line search's next trial after step was rejected with
 // value fn, from fx with the given slope (< 0) along the direction: half
 // of it, or with interpolate the minimiser of the quadratic q(0) = fx,
-// q'(0) = slope, q(step) = fn, within [step/10, step/2] (see
-// minimiseBFGS). A quadratic without a minimum (curvature ≤ 0, or fn not
-// finite) gives half.
+// q'(0) = slope, q(step) = fn, within [step/10, step/2] (Dennis &
+// Schnabel, Numerical Methods for Unconstrained Optimization and
+// Nonlinear Equations, 1983, §6.3.2; Nocedal & Wright §3.5): where the
+// trial value shows the step overshot by far, the next trial comes back in
+// one step instead of several halvings. A quadratic without a minimum
+// (curvature ≤ 0, or fn not finite) gives half. minimiseBFGS halves (its
+// exact-fit stages from the solution interpolated their way into a far
+// region of cancelling components on TestBandsWideAndContainTruth's
+// data); minimiseSQP interpolates.
 func nextStep(step, slope, fx, fn float64, interpolate bool) float64 {
 	if !interpolate {
 		return step / 2

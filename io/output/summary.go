@@ -104,6 +104,12 @@ type BandJSON struct {
 	NotDetermined bool `json:"not_determined,omitempty"`
 	// Reason says why, when NotDetermined.
 	Reason string `json:"not_determined_reason,omitempty"`
+	// MinConverged and MaxConverged say whether the search for each end
+	// met its stopping test (false: it stopped on its budget, and the end
+	// is only as far out as it got). Nil in a summary written before they
+	// were added: unknown, not false.
+	MinConverged *bool `json:"min_converged,omitempty"`
+	MaxConverged *bool `json:"max_converged,omitempty"`
 }
 
 // KineticsJSON is the kinetic fit.

@@ -625,19 +625,44 @@ func computeBands(r *Result, opt mcr.Options, log io.Writer) []string {
 	if w := rankDeficientBands(r, b); w != "" {
 		return []string{w}
 	}
+	return rangeWarnings(r.Names, b)
+}
+
+// rangeWarnings are the warnings the uniqueness ranges give: a range not
+// determined, an end whose search stopped on its budget, an unbounded
+// range.
+func rangeWarnings(names []string, b *mcr.BandsResult) []string {
 	var warn []string
 	for j, band := range b.Bands {
 		if !band.Feasible {
-			warn = append(warn, fmt.Sprintf("uniqueness range of %s not determined: the search could not stay within the constraints and the noise allowance; the range shown (%.3g to %.3g) is only the part reached", r.Names[j], band.Min, band.Max))
+			warn = append(warn, fmt.Sprintf("uniqueness range of %s not determined: the search could not stay within the constraints and the noise allowance; the range shown (%.3g to %.3g) is only the part reached", names[j], band.Min, band.Max))
+		} else if ends := unconvergedEnds(band); ends != "" && band.Max <= unboundedBand {
+			// (An unbounded range's search stops on its budget: the
+			// warning below says so.)
+			warn = append(warn, fmt.Sprintf("uniqueness range of %s: the search for its %s stopped on its budget before converging; the range shown (%.4f to %.4f) is at least this wide and may be wider", names[j], ends, band.Min, band.Max))
 		}
 		// A contribution far above the whole signal is reached only by
 		// components that cancel each other: the constraints do not bound
 		// the rotation at all, and the maximum is wherever the search stopped.
 		if band.Max > unboundedBand {
-			warn = append(warn, fmt.Sprintf("uniqueness range of %s is unbounded (its largest share %.3g is where the search stopped): the constraints allow rotations in which components cancel each other, and the answer shown is one of them; a known spectrum (--known-spectrum) or zero windows (--zero-window) bound the rotation, and a kinetic model (--model with --hard-model) picks the one that obeys it", r.Names[j], band.Max))
+			warn = append(warn, fmt.Sprintf("uniqueness range of %s is unbounded (its largest share %.3g is where the search stopped): the constraints allow rotations in which components cancel each other, and the answer shown is one of them; a known spectrum (--known-spectrum) or zero windows (--zero-window) bound the rotation, and a kinetic model (--model with --hard-model) picks the one that obeys it", names[j], band.Max))
 		}
 	}
 	return warn
+}
+
+// unconvergedEnds names the ends of a range whose search did not converge
+// ("" when both did).
+func unconvergedEnds(b mcr.Band) string {
+	switch {
+	case !b.MinConverged && !b.MaxConverged:
+		return "smallest and largest shares"
+	case !b.MinConverged:
+		return "smallest share"
+	case !b.MaxConverged:
+		return "largest share"
+	}
+	return ""
 }
 
 // bandsRSS is the residual sum of squares the uniqueness ranges' noise
@@ -675,7 +700,8 @@ func constraintSummary(r *Result, s *Summary) {
 	}
 	if rep.Bands != nil {
 		for j, b := range rep.Bands.Bands {
-			s.UniquenessRanges = append(s.UniquenessRanges, BandJSON{Component: r.Names[j], Min: round(b.Min), Max: round(b.Max), NotDetermined: !b.Feasible, Reason: b.Reason})
+			lo, hi := b.MinConverged, b.MaxConverged
+			s.UniquenessRanges = append(s.UniquenessRanges, BandJSON{Component: r.Names[j], Min: round(b.Min), Max: round(b.Max), NotDetermined: !b.Feasible, Reason: b.Reason, MinConverged: &lo, MaxConverged: &hi})
 		}
 		s.FeasibleBands = s.UniquenessRanges
 	}
@@ -737,12 +763,13 @@ func bandsCSV(r *Result) []byte {
 	sr := newSideRows(r)
 	var w output.CSV
 	w.Grow(sr.size())
-	w.Row([]string{"component", "side", "experiment", "position", "solution", "at_min", "at_max"})
+	w.Row([]string{"component", "side", "experiment", "position", "solution", "at_min", "at_max", "min_converged", "max_converged"})
 	s, c := r.ALS.S, r.ALS.C
 	for j, band := range r.Constraints.Bands.Bands {
-		sr.write(&w, j, "spectrum", func(i int) float64 { return s.At(i, j) },
+		conv := []string{strconv.FormatBool(band.MinConverged), strconv.FormatBool(band.MaxConverged)}
+		sr.writeText(&w, j, "spectrum", conv, func(i int) float64 { return s.At(i, j) },
 			func(i int) float64 { return band.MinSpectrum[i] }, func(i int) float64 { return band.MaxSpectrum[i] })
-		sr.write(&w, j, "profile", func(i int) float64 { return c.At(i, j) },
+		sr.writeText(&w, j, "profile", conv, func(i int) float64 { return c.At(i, j) },
 			func(i int) float64 { return band.MinProfile[i] }, func(i int) float64 { return band.MaxProfile[i] })
 	}
 	return w.Bytes()
@@ -776,6 +803,12 @@ func (sr sideRows) size() int { return (len(sr.axis) + len(sr.times)) * len(sr.n
 // write writes component j's rows of one side, the cells after the
 // position given by cols.
 func (sr sideRows) write(w *output.CSV, j int, side string, cols ...func(i int) float64) {
+	sr.writeText(w, j, side, nil, cols...)
+}
+
+// writeText is write with the cells of text after those of cols, the same
+// in every row.
+func (sr sideRows) writeText(w *output.CSV, j int, side string, text []string, cols ...func(i int) float64) {
 	pos, exp := sr.axis, [][]byte(nil)
 	if side == "profile" {
 		pos, exp = sr.times, sr.exper
@@ -791,6 +824,9 @@ func (sr sideRows) write(w *output.CSV, j int, side string, cols ...func(i int) 
 		w.Raw(pos[i])
 		for _, c := range cols {
 			w.Float(c(i))
+		}
+		for _, t := range text {
+			w.Text(t)
 		}
 		w.End()
 	}
@@ -846,6 +882,9 @@ func printConstraints(r *Result, w io.Writer) {
 			hi, stop := fmt.Sprintf("%.4f", b.Max), ""
 			if b.Max > unboundedBand { // where the search stopped, not a bound
 				hi, stop = "no bound", fmt.Sprintf("; the search stopped at %.3g", b.Max)
+			}
+			if ends := unconvergedEnds(b); ends != "" && b.Max <= unboundedBand {
+				stop += fmt.Sprintf("; search for the %s not converged", ends)
 			}
 			fmt.Fprintf(w, "  %-12s uniqueness range %.4f – %s of the signal (solution %.4f%s)\n", r.Names[j], b.Min, hi, b.Value, stop)
 		}

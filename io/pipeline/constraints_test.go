@@ -10,10 +10,12 @@ import (
 	"reflect"
 	"runtime"
 	"slices"
+	"strconv"
 	"strings"
 	"testing"
 
 	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/mcr"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -306,6 +308,22 @@ func TestBandsAndIntervalsFiles(t *testing.T) {
 			t.Errorf("band %+v: want 0 < min ≤ max ≤ 1 (species mode: contributions of non-negative parts)", fb)
 		}
 	}
+	// uniqueness.csv: the columns of docs/constraints.md in their order
+	// (CONTRACT.md: scripts read them by name and place), the convergence
+	// of each end last, the same on every row as in summary.json.
+	rows := strings.Split(strings.TrimSpace(string(a["uniqueness.csv"])), "\n")
+	if rows[0] != "component,side,experiment,position,solution,at_min,at_max,min_converged,max_converged" {
+		t.Errorf("uniqueness.csv header %q", rows[0])
+	}
+	for _, row := range rows[1:] {
+		cells := strings.Split(row, ",")
+		for _, u := range sa.UniquenessRanges {
+			if cells[0] == u.Component && (u.MinConverged == nil || u.MaxConverged == nil ||
+				cells[7] != strconv.FormatBool(*u.MinConverged) || cells[8] != strconv.FormatBool(*u.MaxConverged)) {
+				t.Fatalf("uniqueness.csv row %q, summary %+v", row, u)
+			}
+		}
+	}
 	lines := strings.Split(strings.TrimSpace(string(a["intervals.csv"])), "\n")
 	if lines[0] != "component,side,experiment,position,estimate,low,high,sd" {
 		t.Errorf("intervals.csv header %q", lines[0])
@@ -356,5 +374,35 @@ func TestChecksWarnBeforeRanges(t *testing.T) {
 		if got := run("on", "on"); !slices.Equal(got, want) {
 			t.Errorf("GOMAXPROCS %d: warnings\n%q\nwant\n%q", procs, got, want)
 		}
+	}
+}
+
+// A range whose search stopped on its budget says so, in the warnings and
+// on the terminal, and only then (the project's rule: a warning fires only
+// when checked); a range not determined or unbounded keeps its own
+// warning alone. The bands are made up: what is checked is the wording's
+// condition, the search's own flag is tested in mcr
+// (TestRangeEndsSayWhenNotConverged).
+func TestRangeWarnsOnlyWhenNotConverged(t *testing.T) {
+	names := []string{"species_1", "species_2", "species_3", "species_4"}
+	b := &mcr.BandsResult{Bands: []mcr.Band{
+		{Min: 0.2, Max: 0.4, Value: 0.3, Feasible: true, MinConverged: true, MaxConverged: true},
+		{Min: 0.5, Max: 0.7, Value: 0.6, Feasible: true, MinConverged: true, MaxConverged: false},
+		{Min: 0.1, Max: 0.3, Value: 0.2, Feasible: false, Reason: mcr.SearchLeftConstraints},
+		{Min: 0.1, Max: 500, Value: 0.2, Feasible: true, MinConverged: true},
+	}}
+	warn := rangeWarnings(names, b)
+	joined := strings.Join(warn, "\n")
+	if len(warn) != 3 || !strings.Contains(warn[0], "species_2: the search for its largest share stopped on its budget") ||
+		strings.Contains(joined, "species_1") || strings.Count(joined, "before converging") != 1 {
+		t.Errorf("warnings:\n%s", joined)
+	}
+	r := &Result{Names: names, Constraints: &ConstraintReport{Bands: b}}
+	var out strings.Builder
+	printConstraints(r, &out)
+	lines := strings.Split(out.String(), "\n")
+	if strings.Contains(lines[0], "not converged") || !strings.Contains(lines[1], "search for the largest share not converged") ||
+		strings.Count(out.String(), "not converged") != 1 {
+		t.Errorf("terminal lines:\n%s", out.String())
 	}
 }

@@ -430,6 +430,9 @@ func findings(f *Folder) (find, checks []string) {
 		} else {
 			find = append(find, fmt.Sprintf("%s is not unique: solutions that fit the data as well and keep every constraint give it a share of the signal from %s to %s.", b.Component, trimFloat(b.Min, 3), shareText(b.Max)))
 		}
+		if ends := unconvergedEnds(b); !b.NotDetermined && ends != "" {
+			checks = append(checks, fmt.Sprintf("The search for the %s of %s stopped on its budget before converging: its range is at least as wide as shown and may be wider.", ends, b.Component))
+		}
 	}
 	if k := s.Kinetics; k != nil && len(k.RateConstants) > 0 {
 		var ks []string
@@ -636,3 +639,20 @@ var page = template.Must(template.New("report").Funcs(template.FuncMap{
 	},
 	"figAnchor": func(f figureView) string { return "sec-" + f.ID },
 }).Parse(pageTemplate))
+
+// unconvergedEnds names the ends of a range whose search the summary
+// records as not converged ("" when both converged or the summary predates
+// the record).
+func unconvergedEnds(b Band) string {
+	lo := b.MinConverged != nil && !*b.MinConverged
+	hi := b.MaxConverged != nil && !*b.MaxConverged
+	switch {
+	case lo && hi:
+		return "smallest and largest shares"
+	case lo:
+		return "smallest share"
+	case hi:
+		return "largest share"
+	}
+	return ""
+}

@@ -28,3 +28,23 @@ func TestNotDeterminedRangeIsNeverUnique(t *testing.T) {
 		t.Errorf("a determined narrow range is not called unique:\n%s", all)
 	}
 }
+
+// An end whose search stopped on its budget (summary.json's min_converged
+// or max_converged false) gets one sentence in the checks, and only then:
+// a converged end, or a summary written before the record (no key), gets
+// none (the project's rule: a warning fires only when checked).
+func TestUnconvergedRangeEndIsSaid(t *testing.T) {
+	yes, no := true, false
+	f := &Folder{Summary: &output.Summary{Components: 3, Spectra: 10, Points: 20,
+		UniquenessRanges: []output.BandJSON{
+			{Component: "species_1", Min: 0.2, Max: 0.4, MinConverged: &yes, MaxConverged: &yes},
+			{Component: "species_2", Min: 0.3, Max: 0.6, MinConverged: &no, MaxConverged: &yes},
+			{Component: "species_3", Min: 0.1, Max: 0.5},
+		}}}
+	_, checks := findings(f)
+	all := strings.Join(checks, "\n")
+	if !strings.Contains(all, "The search for the smallest share of species_2 stopped on its budget") ||
+		strings.Count(all, "stopped on its budget") != 1 {
+		t.Errorf("checks:\n%s", all)
+	}
+}
