@@ -111,7 +111,7 @@ func TestTimeUnitDefaultRecorded(t *testing.T) {
 // a bounded range keeps its number.
 func TestUnboundedRangeOnTheTerminal(t *testing.T) {
 	r := &Result{Names: []string{"reaction_1", "reaction_2"}, Constraints: &ConstraintReport{Bands: &mcr.BandsResult{Bands: []mcr.Band{
-		{Min: 0.2504, Max: 0.3799, Value: 0.3799, Feasible: true},
+		{Min: 0.2504, Max: 0.3799, Value: 0.3799, Feasible: true, MinConverged: true, MaxConverged: true},
 		{Min: 0.7564, Max: 2.02e7, Value: 1.0552, Feasible: true},
 	}}}}
 	var b bytes.Buffer
