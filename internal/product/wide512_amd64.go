@@ -12,7 +12,7 @@ import "golang.org/x/sys/cpu"
 // processor of the Zen 5 family, whose vector units are 512 bits wide;
 // GOMAXPROCS 1, 2000 × 3001 by 34 columns, process CPU per product): D X
 // 12.5–13.1 ms on the AVX2 tiles, 6.6–6.7 on these; Dᵀ Y 14.5–17.5 against
-// 8.1–9.5. Each row of a is read once per product instead of once per
+// 8.1–10.9. Each row of a is read once per product instead of once per
 // twelve columns, and each multiply and add does eight terms.
 var haveAVX512 = cpu.X86.HasAVX512F && cpu.X86.HasAVX2
 
