@@ -3,6 +3,7 @@ package kinetics
 import (
 	"errors"
 	"math"
+	"runtime"
 	"sort"
 
 	"github.com/bandsolve/bandsolve/internal/product"
@@ -75,34 +76,43 @@ func (job sensitivityJob) sensitivities() (c *mat.Dense, dc []*mat.Dense, ok boo
 	}
 	y0 := make([]float64, ns)
 	copy(y0, job.c0)
-	var eval func(t float64, y []float64, d [][]float64)
+	// One evaluator per half of the times: the evaluators' buffers are
+	// their own, what they read is shared, and each time's values are
+	// formed by the same operations whichever half holds it. Hard–soft ALS makes a
+	// profile fit per cycle, one after the other, and about a third of each
+	// was this loop on one core.
+	var evaluator func() func(t float64, y []float64, d [][]float64)
 	if ex := newEigenExp(kmat, ns, y0); ex != nil {
 		es := newEigenSens(ex, dirs, job)
 		if es == nil {
 			return nil, nil, false
 		}
-		eval = es.at
+		evaluator = func() func(t float64, y []float64, d [][]float64) { return es.clone().at }
 	} else if pe := newPathExp(kmat, ns, y0); pe != nil {
 		ps := newPathSens(pe, kmat, dirs, job)
-		eval = ps.at
+		evaluator = func() func(t float64, y []float64, d [][]float64) { return ps.clone().at }
 	} else {
 		return nil, nil, false
 	}
-	d := make([][]float64, np)
-	for i, t := range job.times {
-		if t <= job.t0 {
-			c.SetRow(i, job.c0)
-			// Before the start c = c0: only c0's own entries move.
-			for b, l := range job.c0Free {
-				dc[len(job.kFree)+b].Set(i, l, job.c0[l])
+	halves(n, sensBlock, func(r0, r1 int) {
+		eval := evaluator()
+		d := make([][]float64, np)
+		for i := r0; i < r1; i++ {
+			t := job.times[i]
+			if t <= job.t0 {
+				c.SetRow(i, job.c0)
+				// Before the start c = c0: only c0's own entries move.
+				for b, l := range job.c0Free {
+					dc[len(job.kFree)+b].Set(i, l, job.c0[l])
+				}
+				continue
 			}
-			continue
+			for a := range d {
+				d[a] = dc[a].RawRowView(i)
+			}
+			eval(t-job.t0, c.RawRowView(i), d)
 		}
-		for a := range d {
-			d[a] = dc[a].RawRowView(i)
-		}
-		eval(t-job.t0, c.RawRowView(i), d)
-	}
+	})
 	if !finiteDense(c) {
 		return nil, nil, false
 	}
@@ -114,6 +124,29 @@ func (job sensitivityJob) sensitivities() (c *mat.Dense, dc []*mat.Dense, ok boo
 	return c, dc, true
 }
 
+// sensBlock is the fewest times worth a second goroutine in sensitivities.
+const sensBlock = 256
+
+// halves runs f on [0, n) in two halves at once, the second on a goroutine
+// of its own, when there are two processors and at least 2·min times; on
+// the caller otherwise. One goroutine per call: a Jacobian takes about a
+// millisecond, and more blocks cost more in waking and parking than they
+// save.
+func halves(n, min int, f func(r0, r1 int)) {
+	if runtime.GOMAXPROCS(0) < 2 || n < 2*min {
+		f(0, n)
+		return
+	}
+	h := n / 2
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		f(h, n)
+	}()
+	f(0, h)
+	<-done
+}
+
 // eigenSens holds G = V⁻¹ E V per rate constant and V⁻¹ e_i per initial
 // concentration, each already multiplied by the parameter (∂/∂ln θ).
 type eigenSens struct {
@@ -123,6 +156,12 @@ type eigenSens struct {
 	e   []float64    // e^{λ_a t}
 	phi []float64    // Φ_ab(t), ns × ns
 	tmp []float64
+}
+
+// clone shares what es reads and has buffers of its own.
+func (es *eigenSens) clone() *eigenSens {
+	ns := es.ex.ns
+	return &eigenSens{ex: es.ex, g: es.g, h: es.h, e: make([]float64, ns), phi: make([]float64, ns*ns), tmp: make([]float64, ns)}
 }
 
 func newEigenSens(ex *eigenExp, dirs []*mat.Dense, job sensitivityJob) *eigenSens {
@@ -216,6 +255,14 @@ type sensTerm struct {
 	coef float64
 	term int       // index into pe.terms, or −1
 	pts  []float64 // the path's points with one repeated (term < 0)
+}
+
+// clone shares the paths and terms and has buffers of its own (pathExp's
+// divided differences keep theirs in pe.dd, reset by every call).
+func (ps *pathSens) clone() *pathSens {
+	pe := *ps.pe
+	pe.dd = ddScratch{}
+	return &pathSens{pe: &pe, terms: ps.terms, own: make([]float64, len(ps.own))}
 }
 
 func newPathSens(pe *pathExp, kmat *mat.Dense, dirs []*mat.Dense, job sensitivityJob) *pathSens {
