@@ -144,6 +144,16 @@ func ClassifyFactors(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOpti
 	}
 	var chemV [][]float64
 	var chem int
+	// The weighted polynomial basis every factor's baseline share is
+	// measured against, formed at its first use and then shared: the same
+	// matrix for each factor (it depends on the axis and the weights only).
+	var poly *mat.Dense
+	basis := func() *mat.Dense {
+		if poly == nil {
+			poly = PolyBasis(opt.Axis, baselineOrder, opt.Col)
+		}
+		return poly
+	}
 	var smallest float64 // s² of the smallest chemical factor so far (not the mean level)
 	for j, row := range rep.Table {
 		if !row.AboveNoiseEdge || j >= len(f.S) {
@@ -168,7 +178,7 @@ func ClassifyFactors(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOpti
 			continue
 		}
 		if opt.Axis != nil && len(opt.Axis) == m {
-			if sh := polyShareWeighted(vu, opt.Axis, opt.Col); sh >= baselineShare {
+			if sh := polyShareWeighted(vu, opt.Axis, opt.Col, basis); sh >= baselineShare {
 				nf.Kind = NuisanceBaseline
 				nf.Looks = fmt.Sprintf("smooth and broad across the axis: %.0f %% described by a polynomial of order ≤ %d (baseline drift)", 100*sh, baselineOrder)
 				out.Nuisance = append(out.Nuisance, nf)
@@ -274,8 +284,9 @@ func unscaleVec(x, w []float64) []float64 {
 // described by polynomials up to baselineOrder, in the metric of the column weights col:
 // ‖P_w x‖²/‖x‖² with x = √B smooth(vu) and P_w the projector on span(√B X). The smoothing
 // is the 5-point moving average weighted by b_j (a channel's noise counts as in the fit).
-// With col nil it is polyShare(smooth5(vu)).
-func polyShareWeighted(vu, axis, col []float64) float64 {
+// With col nil it is polyShare(smooth5(vu)). basis gives PolyBasis(axis, baselineOrder,
+// col).
+func polyShareWeighted(vu, axis, col []float64, basis func() *mat.Dense) float64 {
 	if col == nil {
 		return polyShare(smooth5(vu), axis)
 	}
@@ -293,7 +304,7 @@ func polyShareWeighted(vu, axis, col []float64) float64 {
 			x[j] = math.Sqrt(col[j]) * s / w
 		}
 	}
-	return spanShare(x, PolyBasis(axis, baselineOrder, col))
+	return spanShare(x, basis())
 }
 
 // derivShareWeighted is derivShare in the metric of the column weights: the share of the
