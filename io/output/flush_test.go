@@ -118,3 +118,42 @@ func TestCommitFlushesWhatWasNotFlushed(t *testing.T) {
 		t.Errorf("b.csv committed as %q (%v)", b, err)
 	}
 }
+
+// Prewrite puts a file in the stage ahead of its turn: Write with the
+// same bytes lists it where Write is called (Files keeps the order of the
+// Write calls), Write with other bytes replaces it, and a file no Write
+// lists is removed by DropUnlisted with the folder Prewrite made for it
+// when left empty; a folder holding a listed file stays. Every file
+// committed is flushed (TestCommitFlushesWhatWasNotFlushed's check).
+func TestPrewriteListedAtItsTurn(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "out")
+	st, err := NewStage(out, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	st.Prewrite(filepath.Join("figures", "a.svg"), []byte("a"))
+	st.Prewrite(filepath.Join("figures", "b.svg"), []byte("b ahead"))
+	st.Prewrite(filepath.Join("spare", "c.svg"), []byte("c"))
+	for _, f := range []struct{ name, body string }{{"first.csv", "1"}, {filepath.Join("figures", "b.svg"), "b"},
+		{filepath.Join("figures", "a.svg"), "a"}, {ManifestName, "{}"}} {
+		if err := st.Write(f.name, []byte(f.body)); err != nil {
+			t.Fatal(err)
+		}
+	}
+	st.DropUnlisted()
+	want := []string{"first.csv", filepath.Join("figures", "b.svg"), filepath.Join("figures", "a.svg"), ManifestName}
+	if got := st.Files(); !slices.Equal(got, want) {
+		t.Errorf("files listed %v, want %v", got, want)
+	}
+	if err := st.Commit(); err != nil {
+		t.Fatal(err)
+	}
+	for name, body := range map[string]string{"figures/a.svg": "a", "figures/b.svg": "b"} {
+		if b, err := os.ReadFile(filepath.Join(out, name)); err != nil || string(b) != body {
+			t.Errorf("%s holds %q (%v), want %q", name, b, err, body)
+		}
+	}
+	if _, err := os.Lstat(filepath.Join(out, "spare")); !os.IsNotExist(err) {
+		t.Errorf("the folder of a file prewritten and never listed is still there (%v)", err)
+	}
+}

@@ -14,6 +14,7 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+	"sync"
 	"syscall"
 )
 
@@ -29,6 +30,11 @@ type Stage struct {
 	// flush flushes each file to disk as it is written (flush.go), for a
 	// stage that is to be committed.
 	flush *flusher
+	// pre are the files Prewrite wrote and Write has not listed yet, with
+	// their bytes; made the folders Prewrite made.
+	preMu sync.Mutex
+	pre   map[string][]byte
+	made  []string
 }
 
 // ErrExists says the output folder holds earlier results.
@@ -319,22 +325,86 @@ func (s *Stage) Path(name string) string { return filepath.Join(s.Dir, name) }
 // Files lists the files written so far, in order.
 func (s *Stage) Files() []string { return append([]string(nil), s.files...) }
 
-// Write stores one file.
+// Write stores one file. A file Prewrite wrote with the same bytes is
+// only listed.
 func (s *Stage) Write(name string, data []byte) error {
 	writing.RLock()
 	defer writing.RUnlock()
+	s.preMu.Lock()
+	pre, ok := s.pre[name]
+	delete(s.pre, name)
+	s.preMu.Unlock()
+	if ok && bytes.Equal(pre, data) {
+		s.list(name, data)
+		return nil
+	}
 	if err := os.WriteFile(s.Path(name), data, 0o644); err != nil {
 		return fmt.Errorf("writing %s: %w", name, err)
 	}
 	if s.flush != nil {
 		s.flush.add(s.Path(name))
 	}
+	s.list(name, data)
+	return nil
+}
+
+func (s *Stage) list(name string, data []byte) {
 	s.files = append(s.files, name)
 	if s.written == nil {
 		s.written = map[string][]byte{}
 	}
 	s.written[name] = data
-	return nil
+}
+
+// Prewrite writes a file ahead of its turn, for Write to list at its turn
+// (Files keeps the order of the Write calls): a Write of name with the
+// same bytes then only lists it, other bytes replace it, and a file
+// prewritten that no Write lists is removed by DropUnlisted. The folder
+// above name is made if missing (and removed by DropUnlisted if left
+// empty). It may be called from another goroutine than Write's, never for
+// a name Write is writing at the same time. A file that cannot be written
+// is left to Write: the error is dropped.
+func (s *Stage) Prewrite(name string, data []byte) {
+	writing.RLock()
+	defer writing.RUnlock()
+	if dir := filepath.Dir(name); dir != "." {
+		if err := os.Mkdir(s.Path(dir), 0o755); err == nil {
+			s.preMu.Lock()
+			s.made = append(s.made, dir)
+			s.preMu.Unlock()
+		}
+	}
+	if os.WriteFile(s.Path(name), data, 0o644) != nil {
+		os.Remove(s.Path(name))
+		return
+	}
+	if s.flush != nil {
+		s.flush.add(s.Path(name))
+	}
+	s.preMu.Lock()
+	if s.pre == nil {
+		s.pre = map[string][]byte{}
+	}
+	s.pre[name] = data
+	s.preMu.Unlock()
+}
+
+// DropUnlisted removes the files Prewrite wrote that no Write listed, and
+// the folders it made that are left empty: the stage then holds what was
+// written at its turn. Call it once no Prewrite runs.
+func (s *Stage) DropUnlisted() {
+	writing.RLock()
+	defer writing.RUnlock()
+	s.preMu.Lock()
+	defer s.preMu.Unlock()
+	for name := range s.pre {
+		os.Remove(s.Path(name))
+	}
+	s.pre = nil
+	for i := len(s.made) - 1; i >= 0; i-- {
+		os.Remove(s.Path(s.made[i])) // fails, as it should, when not empty
+	}
+	s.made = nil
 }
 
 // Written gives the bytes the file name was last written with by Write

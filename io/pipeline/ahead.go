@@ -157,16 +157,35 @@ func (a *ahead) aheadResults(r *Result, st *output.Stage) {
 		})
 		return p
 	})
+	// The files of the figures drawn so far, and of each of the two once
+	// drawn, are written now (output.Stage.Prewrite), to be listed at the
+	// report's turn where it takes them: their writing and flushing leave
+	// the report's path.
+	early := a.pre.Files()
 	draw := func(p *report.Predrawn, id string) *later[bool] {
 		return startLater(func() bool {
 			return runTask(func() {
 				if part, _ := a.part.get(); part.folder != nil {
 					p.Draw(part.folder, id)
+					prewrite(st, p.Files(id))
 				}
 			})
 		})
 	}
-	a.drawing = []*later[bool]{draw(&a.pre, "fig-spectra"), draw(&a.second, "fig-profiles")}
+	a.drawing = []*later[bool]{draw(&a.pre, "fig-spectra"), draw(&a.second, "fig-profiles"),
+		startLater(func() bool { return runTask(func() { prewrite(st, early) }) })}
+}
+
+// prewrite writes files into the stage ahead of their turn, in name order.
+func prewrite(st *output.Stage, files map[string][]byte) {
+	names := make([]string, 0, len(files))
+	for name := range files {
+		names = append(names, name)
+	}
+	slices.Sort(names)
+	for _, name := range names {
+		st.Prewrite(name, files[name])
+	}
 }
 
 // partTables is the part of an output folder aheadResults draws from, and

@@ -40,6 +40,13 @@ func sameAsFromFiles(t *testing.T, r *Result, out string) {
 			t.Errorf("%s differs from the one its folder gives (%v)", name, err)
 		}
 	}
+	// and no other figure file (one written ahead and not taken).
+	ents, _ := os.ReadDir(filepath.Join(out, "figures"))
+	for _, e := range ents {
+		if files["figures/"+e.Name()] == nil {
+			t.Errorf("figures/%s is not a figure its folder gives", e.Name())
+		}
+	}
 	maps, err := os.ReadFile(filepath.Join(out, report.MapsFile))
 	if err != nil || !bytes.Equal(maps, formatMaps(r).csv) {
 		t.Errorf("maps.csv differs from formatMaps' (%v)", err)
@@ -222,6 +229,8 @@ func TestResultFiguresRedrawnWhenTheirFilesChange(t *testing.T) {
 			t.Fatal(err)
 		}
 	}
+	r.ahead.wait()
+	stage.DropUnlisted()
 	if err := stage.Commit(); err != nil {
 		t.Fatal(err)
 	}

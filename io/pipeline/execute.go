@@ -137,6 +137,10 @@ func finish(r *Result, stage *output.Stage, extra Extra, st Streams) error {
 			return err
 		}
 	}
+	// A figure file written ahead that the report did not take is not
+	// left in the folder.
+	r.ahead.wait()
+	stage.DropUnlisted()
 	if r.Settings.JSON {
 		// Made now so that a summary encoding cannot fail after the commit.
 		b, err := output.JSON(MakeSummary(r))

@@ -108,6 +108,26 @@ func (p *Predrawn) SVGFile(id string) []byte {
 	return p.figs[id].svg
 }
 
+// Files are the files of the figures drawn ahead (all, or those named in
+// ids), by their names in the folder (figures/<id>.svg and .png), as the
+// report would give them when it takes the figures.
+func (p *Predrawn) Files(ids ...string) map[string][]byte {
+	out := map[string][]byte{}
+	if p == nil {
+		return out
+	}
+	for id, e := range p.figs {
+		if len(ids) > 0 && !slices.Contains(ids, id) {
+			continue
+		}
+		if e.fig != nil && e.err == nil && e.fig.drawing.draw != nil && e.fileErr == nil && e.svg != nil && e.pngb != nil {
+			out["figures/"+id+".svg"] = e.svg
+			out["figures/"+id+".png"] = e.pngb
+		}
+	}
+	return out
+}
+
 // Drawn lists the names of the figures drawn ahead, sorted.
 func (p *Predrawn) Drawn() []string {
 	var ids []string
