@@ -9,6 +9,7 @@ import (
 	"strings"
 
 	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/io/report"
 	"github.com/bandsolve/bandsolve/io/spectra"
 	"github.com/bandsolve/bandsolve/mcr"
 	"gonum.org/v1/gonum/mat"
@@ -636,7 +637,7 @@ func rangeWarnings(names []string, b *mcr.BandsResult) []string {
 	for j, band := range b.Bands {
 		if !band.Feasible {
 			warn = append(warn, fmt.Sprintf("uniqueness range of %s not determined: the search could not stay within the constraints and the noise allowance; the range shown (%.3g to %.3g) is only the part reached", names[j], band.Min, band.Max))
-		} else if ends := unconvergedEnds(band); ends != "" && band.Max <= unboundedBand {
+		} else if ends := report.UnconvergedEnds(band.MinConverged, band.MaxConverged); ends != "" && band.Max <= unboundedBand {
 			// (An unbounded range's search stops on its budget: the
 			// warning below says so.)
 			warn = append(warn, fmt.Sprintf("uniqueness range of %s: the search for its %s stopped on its budget before converging; the range shown (%.4f to %.4f) is at least this wide and may be wider", names[j], ends, band.Min, band.Max))
@@ -649,20 +650,6 @@ func rangeWarnings(names []string, b *mcr.BandsResult) []string {
 		}
 	}
 	return warn
-}
-
-// unconvergedEnds names the ends of a range whose search did not converge
-// ("" when both did).
-func unconvergedEnds(b mcr.Band) string {
-	switch {
-	case !b.MinConverged && !b.MaxConverged:
-		return "smallest and largest shares"
-	case !b.MinConverged:
-		return "smallest share"
-	case !b.MaxConverged:
-		return "largest share"
-	}
-	return ""
 }
 
 // bandsRSS is the residual sum of squares the uniqueness ranges' noise
@@ -883,7 +870,7 @@ func printConstraints(r *Result, w io.Writer) {
 			if b.Max > unboundedBand { // where the search stopped, not a bound
 				hi, stop = "no bound", fmt.Sprintf("; the search stopped at %.3g", b.Max)
 			}
-			if ends := unconvergedEnds(b); ends != "" && b.Max <= unboundedBand {
+			if ends := report.UnconvergedEnds(b.MinConverged, b.MaxConverged); ends != "" && b.Max <= unboundedBand {
 				stop += fmt.Sprintf("; search for the %s not converged", ends)
 			}
 			fmt.Fprintf(w, "  %-12s uniqueness range %.4f – %s of the signal (solution %.4f%s)\n", r.Names[j], b.Min, hi, b.Value, stop)

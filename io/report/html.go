@@ -644,14 +644,18 @@ var page = template.Must(template.New("report").Funcs(template.FuncMap{
 // records as not converged ("" when both converged or the summary predates
 // the record).
 func unconvergedEnds(b Band) string {
-	lo := b.MinConverged != nil && !*b.MinConverged
-	hi := b.MaxConverged != nil && !*b.MaxConverged
+	return UnconvergedEnds(b.MinConverged == nil || *b.MinConverged, b.MaxConverged == nil || *b.MaxConverged)
+}
+
+// UnconvergedEnds names the ends of a range whose search did not converge
+// ("" when both did), as the report, the warnings and the terminal say it.
+func UnconvergedEnds(minConverged, maxConverged bool) string {
 	switch {
-	case lo && hi:
+	case !minConverged && !maxConverged:
 		return "smallest and largest shares"
-	case lo:
+	case !minConverged:
 		return "smallest share"
-	case hi:
+	case !maxConverged:
 		return "largest share"
 	}
 	return ""
