@@ -430,7 +430,9 @@ func findings(f *Folder) (find, checks []string) {
 		} else {
 			find = append(find, fmt.Sprintf("%s is not unique: solutions that fit the data as well and keep every constraint give it a share of the signal from %s to %s.", b.Component, trimFloat(b.Min, 3), shareText(b.Max)))
 		}
-		if ends := unconvergedEnds(b); !b.NotDetermined && ends != "" {
+		// An unbounded range's search stops on its budget: "no bound"
+		// already says more than this would (as on the terminal).
+		if ends := unconvergedEnds(b); !b.NotDetermined && ends != "" && b.Max <= unboundedShare {
 			checks = append(checks, fmt.Sprintf("The search for the %s of %s stopped on its budget before converging: its range is at least as wide as shown and may be wider.", ends, b.Component))
 		}
 	}

@@ -31,15 +31,17 @@ func TestNotDeterminedRangeIsNeverUnique(t *testing.T) {
 
 // An end whose search stopped on its budget (summary.json's min_converged
 // or max_converged false) gets one sentence in the checks, and only then:
-// a converged end, or a summary written before the record (no key), gets
-// none (the project's rule: a warning fires only when checked).
+// a converged end, a summary written before the record (no key), or an
+// unbounded range (whose "no bound" says more) gets none (the project's
+// rule: a warning fires only when checked).
 func TestUnconvergedRangeEndIsSaid(t *testing.T) {
 	yes, no := true, false
-	f := &Folder{Summary: &output.Summary{Components: 3, Spectra: 10, Points: 20,
+	f := &Folder{Summary: &output.Summary{Components: 4, Spectra: 10, Points: 20,
 		UniquenessRanges: []output.BandJSON{
 			{Component: "species_1", Min: 0.2, Max: 0.4, MinConverged: &yes, MaxConverged: &yes},
 			{Component: "species_2", Min: 0.3, Max: 0.6, MinConverged: &no, MaxConverged: &yes},
 			{Component: "species_3", Min: 0.1, Max: 0.5},
+			{Component: "species_4", Min: 0.1, Max: 500, MinConverged: &yes, MaxConverged: &no},
 		}}}
 	_, checks := findings(f)
 	all := strings.Join(checks, "\n")
