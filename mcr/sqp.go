@@ -32,7 +32,10 @@ type sqpResult struct {
 // programming with a damped BFGS model of the Lagrangian's Hessian and a
 // line search on the ℓ₁ merit function g + ν·max(0, c) (Nocedal & Wright,
 // Numerical Optimization, 2nd ed. 2006, algorithm 18.3, procedure 18.2 for
-// the damping, (18.33) for ν). With one constraint the quadratic
+// the damping). ν is kept above the step's multiplier λ (raised to 2λ
+// whenever it falls below 1.1λ): then the merit's slope along d is at most
+// −dᵀBd − (ν − λ)·max(0, c) < 0 (their theorem 18.2), so the line search
+// can always lower it. With one constraint the quadratic
 // programme min ∇gᵀd + ½dᵀBd subject to c + ∇cᵀd ≤ 0 has a closed-form
 // solution: d = −B⁻¹∇g when that keeps the linearised constraint, else
 // d = −B⁻¹(∇g + λ∇c) with λ = (c − ∇cᵀB⁻¹∇g)/(∇cᵀB⁻¹∇c) > 0.
@@ -40,7 +43,9 @@ type sqpResult struct {
 // It stops, converged, when the step it would take next promises less
 // than tol: |∇gᵀd| + λ|c| ≤ tol, the first-order change of g to the
 // constrained minimum (∇gᵀd along the step; λ|c| for putting c back to
-// zero, λ being the minimum's sensitivity to c), with c ≤ tol. Without it
+// zero, λ being the minimum's sensitivity to c), with c ≤ tol. The sum
+// is at least dᵀBd (with the constraint active ∇gᵀd = −dᵀBd + λc), so the
+// test cannot pass while the model still asks for a long step. Without it
 // the search ends on its budget or when the line search finds no
 // decrease (converged false).
 //
