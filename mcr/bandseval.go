@@ -1240,7 +1240,9 @@ func (o bandNoise) evaluate(x []float64) (float64, float64, bool) {
 	if !at.smooth {
 		return v, 0, false
 	}
-	return v, math.Sqrt(at.rise/o.p.allow) - 1, true
+	// The rise is a sum of products with cancelling terms: rounded below
+	// zero it counts as zero, as in gradients, not as √ of a negative (NaN).
+	return v, math.Sqrt(math.Max(at.rise, 0)/o.p.allow) - 1, true
 }
 
 func (o bandNoise) gradients(gg, gc []float64) {
