@@ -651,6 +651,9 @@ func (p *bandProblem) stages(j int, sign float64, theta0 []float64, plan stagePl
 		t := p.rotation(theta)
 		a, b, _, ok := p.rotate(t)
 		if !ok {
+			// The stage ended where the rotation is singular: its
+			// convergence is not the returned end's.
+			lastConv = false
 			break
 		}
 		if p.allow > 0 {
