@@ -46,10 +46,14 @@ func (s *Stage) Commit() error {
 	// Flushing needs no lock: the stage is this run's alone. The files
 	// flushed since their last write (flush.go) are not flushed again.
 	var flushed map[string]bool
+	var err error
 	if s.flush != nil {
-		flushed = s.flush.finish()
+		flushed, err = s.flush.finish()
 	}
-	if err := syncTree(s.Dir, flushed); err != nil {
+	if err == nil {
+		err = syncTree(s.Dir, flushed)
+	}
+	if err != nil {
 		return fail(fmt.Errorf("%s: cannot flush the results to disk: %w", s.Final, err))
 	}
 	unlock, err := lockParent(s.Final)

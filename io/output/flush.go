@@ -1,6 +1,10 @@
 package output
 
-import "sync"
+import (
+	"errors"
+	"os"
+	"sync"
+)
 
 // flusher flushes the files of a stage to disk (fsync) as they are
 // written, on a few goroutines, so that the commit, which must have every
@@ -15,17 +19,22 @@ import "sync"
 // A flush covers a write when it began after the write ended: each write of
 // a path is numbered, and a flush queued after write g records g once it
 // succeeds. A path written again after that is flushed again. A flush that
-// fails records nothing; the commit flushes the file itself and reports the
-// error. Files are opened read-only by their path inside the staging
-// folder, so a flush never creates anything, not even after Interrupt
-// removed the folder.
+// could not open its file records nothing, and the commit flushes the file
+// itself. A flush that failed after opening it is kept as an error the
+// commit reports: Linux reports a write-back error to one fsync only (the
+// error is marked seen, and a descriptor opened later is not told;
+// errseq_t, Documentation/filesystems/vfs.rst, from memory), so the
+// commit's own flush of that file could succeed with its data lost. Files
+// are opened read-only by their path inside the staging folder, so a flush
+// never creates anything, not even after Interrupt removed the folder.
 type flusher struct {
 	mu      sync.Mutex
 	written map[string]uint64 // path → writes so far
 	flushed map[string]uint64 // path → the write the last flush covered
 	queue   []flushJob
-	running int  // goroutines flushing
-	stop    bool // Abort: the queue is dropped
+	running int   // goroutines flushing
+	stop    bool  // Abort: the queue is dropped
+	err     error // the flushes that failed past opening their file
 	wg      sync.WaitGroup
 }
 
@@ -66,17 +75,27 @@ func (f *flusher) work() {
 		j := f.queue[0]
 		f.queue = f.queue[1:]
 		f.mu.Unlock()
-		if syncPath(j.path) == nil {
-			f.mu.Lock()
+		err := syncPath(j.path)
+		f.mu.Lock()
+		if err == nil {
 			f.flushed[j.path] = max(f.flushed[j.path], j.write)
-			f.mu.Unlock()
+		} else if !notOpened(err) {
+			f.err = errors.Join(f.err, err)
 		}
+		f.mu.Unlock()
 	}
 }
 
+// notOpened says err is flushPath's failure to open the file: nothing was
+// flushed, and no write-back error was taken from the file.
+func notOpened(err error) bool {
+	var pe *os.PathError
+	return errors.As(err, &pe) && pe.Op == "open"
+}
+
 // finish waits for the flushes queued and returns the paths flushed since
-// their last write.
-func (f *flusher) finish() map[string]bool {
+// their last write, and the flushes that failed past opening their file.
+func (f *flusher) finish() (map[string]bool, error) {
 	f.wg.Wait()
 	f.mu.Lock()
 	defer f.mu.Unlock()
@@ -86,7 +105,7 @@ func (f *flusher) finish() map[string]bool {
 			done[p] = true
 		}
 	}
-	return done
+	return done, f.err
 }
 
 // abandon drops the flushes not begun and waits for those running.

@@ -6,13 +6,14 @@ import (
 	"path/filepath"
 	"slices"
 	"sync"
+	"syscall"
 	"testing"
 )
 
-// watchFlushes replaces syncPath for the test: fail says which paths fail
-// to flush (the call is still recorded). It returns the paths flushed so
-// far, in order.
-func watchFlushes(t *testing.T, fail func(p string) bool) func() []string {
+// watchFlushes replaces syncPath for the test: fail gives the error of a
+// path that fails to flush, nil for one flushed (the call is recorded
+// either way). It returns the paths flushed so far, in order.
+func watchFlushes(t *testing.T, fail func(p string) error) func() []string {
 	var mu sync.Mutex
 	var calls []string
 	t.Cleanup(func() { syncPath = flushPath })
@@ -20,8 +21,8 @@ func watchFlushes(t *testing.T, fail func(p string) bool) func() []string {
 		mu.Lock()
 		calls = append(calls, p)
 		mu.Unlock()
-		if fail(p) {
-			return errors.New("flush refused by the test")
+		if err := fail(p); err != nil {
+			return err
 		}
 		return flushPath(p)
 	}
@@ -46,11 +47,14 @@ func TestFlusherCoversEachWrite(t *testing.T) {
 	}
 	started, release := make(chan struct{}), make(chan struct{})
 	var once sync.Once
-	watchFlushes(t, func(p string) bool {
+	watchFlushes(t, func(p string) error {
 		if p == a {
 			once.Do(func() { close(started); <-release })
 		}
-		return p == b
+		if p == b {
+			return notOpenable(p)
+		}
+		return nil
 	})
 	var f flusher
 	f.add(a)
@@ -58,7 +62,10 @@ func TestFlusherCoversEachWrite(t *testing.T) {
 	f.add(a)  // a written again: its first flush no longer covers it
 	f.add(b)
 	close(release)
-	got := f.finish()
+	got, err := f.finish()
+	if err != nil {
+		t.Errorf("a flush that could not open its file reported as %v; the commit flushes the file", err)
+	}
 	if !got[a] || got[b] {
 		t.Errorf("flushed since the last write: %v; want %s and not %s (its flush failed)", got, a, b)
 	}
@@ -67,8 +74,14 @@ func TestFlusherCoversEachWrite(t *testing.T) {
 	}
 }
 
+// notOpenable is the error of a flush that could not open p (too many
+// open files): nothing was flushed.
+func notOpenable(p string) error {
+	return &os.PathError{Op: "open", Path: p, Err: syscall.EMFILE}
+}
+
 // The commit flushes again what the flushes beside the writes did not
-// cover (here a file whose flush failed) and every folder, and no file
+// cover (here a file whose flush could not open it) and every folder, and no file
 // twice that was covered.
 func TestCommitFlushesWhatWasNotFlushed(t *testing.T) {
 	out := filepath.Join(t.TempDir(), "out")
@@ -78,12 +91,12 @@ func TestCommitFlushesWhatWasNotFlushed(t *testing.T) {
 	}
 	bad := st.Path("b.csv")
 	var failed sync.Once
-	calls := watchFlushes(t, func(p string) bool {
-		refuse := false
+	calls := watchFlushes(t, func(p string) error {
+		var err error
 		if p == bad {
-			failed.Do(func() { refuse = true }) // the first flush only
+			failed.Do(func() { err = notOpenable(p) }) // the first flush only
 		}
-		return refuse
+		return err
 	})
 	if err := st.Mkdir("figures"); err != nil {
 		t.Fatal(err)
@@ -93,7 +106,7 @@ func TestCommitFlushesWhatWasNotFlushed(t *testing.T) {
 			t.Fatal(err)
 		}
 	}
-	st.flush.finish() // the flushes beside the writes are done
+	st.flush.finish() // the flushes beside the writes are done; finish again in Commit
 	before := len(calls())
 	if err := st.Commit(); err != nil {
 		t.Fatal(err)
@@ -155,5 +168,43 @@ func TestPrewriteListedAtItsTurn(t *testing.T) {
 	}
 	if _, err := os.Lstat(filepath.Join(out, "spare")); !os.IsNotExist(err) {
 		t.Errorf("the folder of a file prewritten and never listed is still there (%v)", err)
+	}
+}
+
+// A flush beside the writes that failed once its file was open fails the
+// commit: Linux reports a file's write-back error to one fsync only
+// (errseq_t, Documentation/filesystems/vfs.rst, "Handling errors during
+// writeback"; from memory), so flushing the file again at the commit may
+// succeed with its data lost. The output folder is not made and the stage
+// is removed.
+func TestCommitReportsAFailedFlush(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "out")
+	st, err := NewStage(out, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	bad := st.Path("a.csv")
+	var failed sync.Once
+	watchFlushes(t, func(p string) error {
+		var err error
+		if p == bad {
+			failed.Do(func() { err = &os.PathError{Op: "sync", Path: p, Err: syscall.EIO} })
+		}
+		return err
+	})
+	for _, n := range []string{"a.csv", ManifestName} {
+		if err := st.Write(n, []byte(n)); err != nil {
+			t.Fatal(err)
+		}
+	}
+	err = st.Commit()
+	if !errors.Is(err, syscall.EIO) {
+		t.Errorf("commit after a failed flush: %v, want the flush's error", err)
+	}
+	if _, err := os.Lstat(out); !os.IsNotExist(err) {
+		t.Errorf("output folder made after a failed flush (%v)", err)
+	}
+	if _, err := os.Lstat(st.Dir); !os.IsNotExist(err) {
+		t.Errorf("stage left after a failed commit (%v)", err)
 	}
 }
