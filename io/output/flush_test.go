@@ -208,3 +208,29 @@ func TestCommitReportsAFailedFlush(t *testing.T) {
 		t.Errorf("stage left after a failed commit (%v)", err)
 	}
 }
+
+// A Prewrite that fails leaves the file to Write (Prewrite's doc), even
+// where an earlier Prewrite of the same name had written it: Write with
+// those earlier bytes then writes the file rather than listing one that
+// is not there. Here the second Prewrite meets a folder standing at the
+// file's name (open(2) gives EISDIR), so Write must fail.
+func TestFailedPrewriteLeavesTheFileToWrite(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "out")
+	st, err := NewStage(out, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Abort()
+	st.Prewrite("a.svg", []byte("a"))
+	p := st.Path("a.svg")
+	if err := os.Remove(p); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.MkdirAll(filepath.Join(p, "x"), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	st.Prewrite("a.svg", []byte("a"))
+	if err := st.Write("a.svg", []byte("a")); err == nil {
+		t.Errorf("Write listed a.svg without writing it (files %v)", st.Files())
+	}
+}

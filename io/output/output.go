@@ -376,6 +376,11 @@ func (s *Stage) Prewrite(name string, data []byte) {
 	}
 	if os.WriteFile(s.Path(name), data, 0o644) != nil {
 		os.Remove(s.Path(name))
+		// Nor is an earlier Prewrite of name, whose file is gone: Write
+		// must write it.
+		s.preMu.Lock()
+		delete(s.pre, name)
+		s.preMu.Unlock()
 		return
 	}
 	if s.flush != nil {
