@@ -17,7 +17,7 @@ import "math"
 // line search finds no decrease, or after maxEval evaluations. The first
 // three count as converged: a local minimum to the stall's accuracy, or to
 // rounding where no step along a descent direction lowers f; the budget
-// does not.
+// does not, nor a gradient that is not finite.
 //
 // The gradient is asked for only at the points the line search accepts
 // (f.gradient after f.value there): Armijo backtracking decides on values
@@ -67,10 +67,11 @@ func minimiseBFGS(f smoothObjective, x0 []float64, o bfgsOptions) ([]float64, fl
 		}
 		slope := dot(d, g)
 		if !(slope < 0) {
-			// No descent direction even along the gradient (a zero or
-			// non-finite gradient): this point is as good as it gets.
+			// No descent direction even along the gradient: a zero
+			// gradient (this point is as good as it gets, converged) or
+			// a non-finite one (nothing is known there, not converged).
 			if fresh {
-				converged = true
+				converged = dot(g, g) == 0
 				break
 			}
 			resetH()

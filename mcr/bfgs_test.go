@@ -37,3 +37,32 @@ func TestNextStepIsSafeguardedQuadratic(t *testing.T) {
 		}
 	}
 }
+
+// fixedObjective is a constant f with a given gradient at every point.
+type fixedObjective struct{ grad []float64 }
+
+func (o fixedObjective) value([]float64) float64 { return 1 }
+func (o fixedObjective) gradient(g []float64)    { copy(g, o.grad) }
+
+// minimiseBFGS's converged flag where even the gradient gives no descent
+// direction: a zero gradient is a stationary point, converged (the
+// first-order condition, Nocedal & Wright 2006, theorem 2.2, from
+// memory); a gradient that is not finite says nothing of the point, and
+// the search must not report it converged. Both stop at once, on their first evaluation.
+func TestBFGSConvergedOnlyAtAZeroGradient(t *testing.T) {
+	inf, nan := math.Inf(1), math.NaN()
+	for _, tc := range []struct {
+		name string
+		grad []float64
+		want bool
+	}{
+		{"zero", []float64{0, 0}, true},
+		{"NaN", []float64{nan, 1}, false},
+		{"infinite", []float64{inf, 0}, false},
+	} {
+		_, _, evals, conv := minimiseBFGS(fixedObjective{tc.grad}, []float64{0.5, -0.5}, bfgsOptions{maxEval: 100, stall: endStall})
+		if conv != tc.want || evals != 1 {
+			t.Errorf("%s gradient: converged %v after %d evaluations, want %v after 1", tc.name, conv, evals, tc.want)
+		}
+	}
+}
