@@ -51,12 +51,6 @@ func Legendre(axis []float64, order int) *mat.Dense {
 	return p
 }
 
-// orthoBasis returns an orthonormal basis (m × (order+1)) of the polynomials up to order
-// on the axis (thin Q of the Legendre matrix).
-func orthoBasis(axis []float64, order int) *mat.Dense {
-	return PolyBasis(axis, order, nil)
-}
-
 // PolyBasis returns an orthonormal basis (m × (order+1)) of span(√B X), X the Legendre
 // polynomials up to order on the axis and B = diag(col) the column noise weights (nil:
 // B = I). The projector I − Q Qᵀ onto its complement, applied to a row of the scaled

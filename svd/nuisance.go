@@ -144,9 +144,10 @@ func ClassifyFactors(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOpti
 	}
 	var chemV [][]float64
 	var chem int
-	// The weighted polynomial basis every factor's baseline share is
-	// measured against, formed at its first use and then shared: the same
-	// matrix for each factor (it depends on the axis and the weights only).
+	// The polynomial basis every factor's baseline share is measured
+	// against (in the metric of the column weights when there are any),
+	// formed at its first use and then shared: the same matrix for each
+	// factor (it depends on the axis and the weights only).
 	var poly *mat.Dense
 	basis := func() *mat.Dense {
 		if poly == nil {
@@ -285,10 +286,10 @@ func unscaleVec(x, w []float64) []float64 {
 // ‖P_w x‖²/‖x‖² with x = √B smooth(vu) and P_w the projector on span(√B X). The smoothing
 // is the 5-point moving average weighted by b_j (a channel's noise counts as in the fit).
 // With col nil it is polyShare(smooth5(vu)). basis gives PolyBasis(axis, baselineOrder,
-// col).
+// col), weighted or not.
 func polyShareWeighted(vu, axis, col []float64, basis func() *mat.Dense) float64 {
 	if col == nil {
-		return polyShare(smooth5(vu), axis)
+		return polyShare(smooth5(vu), basis)
 	}
 	if len(vu) <= baselineOrder+1 {
 		return 0
@@ -348,12 +349,13 @@ func smoothRest(u []float64, rows []int) bool {
 	return len(rest) >= 3 && rs >= 0.05*tot && Autocorrelation(rest) >= 0.5
 }
 
-// polyShare is the share of ‖v‖² in the span of the polynomials up to baselineOrder.
-func polyShare(v, axis []float64) float64 {
+// polyShare is the share of ‖v‖² in the span of the polynomials up to baselineOrder,
+// whose orthonormal basis (PolyBasis without weights) basis gives.
+func polyShare(v []float64, basis func() *mat.Dense) float64 {
 	if len(v) <= baselineOrder+1 {
 		return 0
 	}
-	return spanShare(v, orthoBasis(axis, baselineOrder))
+	return spanShare(v, basis())
 }
 
 // derivShare is the share of ‖v‖² in the span of the central differences of the vectors
