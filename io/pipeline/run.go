@@ -832,6 +832,12 @@ func resolve(r *Result, log io.Writer) error {
 		return err
 	}
 	if promoteMinor(r, saved) {
+		// The early fit was of the model with one component fewer, which
+		// dataStart no longer fits: it and its weighted copy of the data
+		// (480 MB at 20 000 × 3000) are let go before resolving again,
+		// not held through it.
+		early.wait()
+		early, r.earlyFit = nil, nil
 		return resolve(r, log)
 	}
 	res, data = withoutBaseline(r, data, res, shapes)
