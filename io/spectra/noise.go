@@ -154,18 +154,13 @@ const madScale = 1.482602218505602
 // pre ≥ 2 (repeats of one state), else second differences over all rows.
 // It returns σ per channel, the rounding step and the source in words.
 func channelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, string) {
-	return channelNoiseStep(v, pre, blind, quantum(v, blind))
+	return channelNoiseOwn(v, pre, blind, quantum(v, blind), nil, nil)
 }
 
-// channelNoiseStep is channelNoise given the rounding step q (quantum of v
-// and blind), taken in a pass that was made anyway.
-func channelNoiseStep(v *mat.Dense, pre int, blind *Blind, q float64) ([]float64, float64, string) {
-	return channelNoiseOwn(v, pre, blind, q, nil, nil)
-}
-
-// channelNoiseOwn is channelNoiseStep given each channel's own scale and
-// count of differences (channelScales), when the parse took them; nil
-// when it did not.
+// channelNoiseOwn is channelNoise given the rounding step q (quantum of v
+// and blind), taken in a pass that was made anyway, and each channel's own
+// scale and count of differences (channelScales) when the parse took them;
+// nil when it did not.
 func channelNoiseOwn(v *mat.Dense, pre int, blind *Blind, q float64, own []float64, cnt []int) ([]float64, float64, string) {
 	n, _ := v.Dims()
 	src := fmt.Sprintf("second differences in time of all %d spectra", n)
@@ -261,16 +256,6 @@ func diffBlock(per int) int {
 	return max(8, min(64, (1<<17)/max(per, 1)))
 }
 
-// pooledRunningMAD gives each channel madScale × the median of the absolute
-// differences of the channels within a window around it. The window grows
-// until it holds at least 400 differences (about 5 % relative error of the
-// scale of a normal sample; common practice), at least 5 channels each side
-// when every channel has many.
-func pooledRunningMAD(d timeDiffs) []float64 {
-	own, cnt := channelScales(d)
-	return runningMAD(d, own, cnt)
-}
-
 // channelScales gives each channel's own madScale × median of its
 // differences (0 for none) and how many it has, a block of channels at a
 // time on the workers.
@@ -300,7 +285,12 @@ func channelScales(d timeDiffs) (own []float64, cnt []int) {
 	return own, cnt
 }
 
-// runningMAD is pooledRunningMAD from the channels' own scales and counts.
+// runningMAD gives each channel madScale × the median of the absolute
+// differences of the channels within a window around it, from the
+// channels' own scales and counts (channelScales). The window grows until
+// it holds at least 400 differences (about 5 % relative error of the scale
+// of a normal sample; common practice), at least 5 channels each side when
+// every channel has many.
 func runningMAD(d timeDiffs, own []float64, cnt []int) []float64 {
 	_, m := d.v.Dims()
 	out := make([]float64, m)

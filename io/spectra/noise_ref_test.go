@@ -68,7 +68,7 @@ func refChannelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, s
 	return sig, q, src
 }
 
-// pooledRunningMAD gives each channel madScale × the median of the absolute
+// refPooledRunningMAD gives each channel madScale × the median of the absolute
 // differences of the channels within a window around it. The window grows
 // until it holds at least 400 differences (about 5 % relative error of the
 // scale of a normal sample; common practice), at least 5 channels each side

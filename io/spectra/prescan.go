@@ -21,7 +21,7 @@ import (
 
 // channelScan is what the parse of a single-beam matrix took channel by
 // channel (ScanBeams), for values: the same bits scanBeams and
-// pooledRunningMAD's blocks give, the unusable channels and a ceiling
+// channelScales give, the unusable channels and a ceiling
 // aside (complete adds the first; the second sends the assembly back to
 // its own passes).
 type channelScan struct {
@@ -101,7 +101,7 @@ func (c *channelScan) cleanChannel(j int, x, buf []float64) {
 
 // noise takes channel j's time differences as timeDiffs.fill makes them
 // (observed nil: every beam is observed) and their scaled median as
-// pooledRunningMAD's blocks take it.
+// channelScales takes it.
 func (c *channelScan) noise(j int, x, buf []float64, observed func(i int) bool) {
 	k := 0
 	div := math.Sqrt2
@@ -143,7 +143,7 @@ func (c *channelScan) usable(v *mat.Dense, pre int) *channelScan {
 
 // complete turns the scan (nil: none, ok false) into scanBeams's answer for the unusable channels
 // bad (blind in every spectrum, no brightest beam, no step), with the
-// channels' own noise scales and counts for pooledRunningMAD (zero for bad
+// channels' own noise scales and counts for runningMAD (zero for bad
 // channels, whose every difference touches a blind point). ok is false
 // when the beams reach a flat top (a detector ceiling: the blind points
 // and the noise must then be taken with it), and the assembly makes its
