@@ -131,8 +131,8 @@ func assembledDiff(a, b *Assembled) string {
 // and without a blank and --pre, rounded (a rounding step), with beams at
 // or below zero, a channel dark in every spectrum, a blank with unusable
 // channels, a detector ceiling (flat top), few spectra (pooled
-// differences), a mean reference, and times out of order in the file (no
-// scan: the same answer).
+// differences), a mean reference, a reference file with unusable channels,
+// and times out of order in the file (no scan: the same answer).
 func TestScannedParseAssemblesAsThePasses(t *testing.T) {
 	dir := t.TempDir()
 	type tc struct {
@@ -143,6 +143,7 @@ func TestScannedParseAssemblesAsThePasses(t *testing.T) {
 		pre     int
 		mean    int
 		noBlank bool
+		refFile bool // the reference a spectrum of its own (with unusable channels) rather than the first rows
 		scanned bool // the scan is expected to describe the matrix
 	}
 	dark := func(s *Series, _ []float64) {
@@ -171,6 +172,7 @@ func TestScannedParseAssemblesAsThePasses(t *testing.T) {
 			}
 		}},
 		{name: "few spectra", n: 6, m: 50, scanned: true},
+		{name: "reference file with unusable channels", n: 60, m: 50, refFile: true, noBlank: true, scanned: true},
 		{name: "times out of order", n: 60, m: 50, scanned: false, edit: func(s *Series, _ []float64) {
 			s.Times[4], s.Times[5] = s.Times[5], s.Times[4]
 		}},
@@ -192,6 +194,13 @@ func TestScannedParseAssemblesAsThePasses(t *testing.T) {
 		path := filepath.Join(dir, fmt.Sprintf("case%d.csv", k))
 		writeMatrixCSV(t, path, s)
 		opt := AssembleOptions{Kind: SingleBeam, Blank: blank, Reference: Reference{Mean: max(c.mean, 1)}, Pre: c.pre, Consume: true}
+		if c.refFile {
+			// A beam of its own, dark at two channels (unusable there,
+			// as a blank's are), the data's first beam elsewhere.
+			ref := slices.Clone(s.Values.RawRowView(0))
+			ref[4], ref[33] = 0, -1
+			opt.Reference = Reference{File: &Spectrum{Axis: s.Axis, Values: ref, Source: "reference.csv"}}
+		}
 		for _, procs := range []int{1, 2, 3} {
 			old := runtime.GOMAXPROCS(procs)
 			plain, err := ReadMatrixCSV(path)
