@@ -30,7 +30,10 @@ type FolderOptions struct {
 	// beams' maxima, blind points, rounding step and the noise model's
 	// per-channel scales, which Assemble would otherwise gather from the
 	// matrix in passes of its own. Neither the series nor the assembly's
-	// results change.
+	// results change. The scan describes Values as parsed and is known by
+	// the matrix alone: a caller that changes Values in place before
+	// Assemble (rather than putting a new matrix there) must leave
+	// ScanBeams unset, or the assembly would take the old values' scan.
 	ScanBeams bool
 	Pre       int
 }
