@@ -178,9 +178,18 @@ func LevenbergMarquardt(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, s
 			colNorm[j] = math.Sqrt(s)
 		}
 		if res.Iterations == 1 {
+			// A column at rounding level is a parameter the residual does not depend on (ln c0
+			// of a first-order model with free spectra): scaled by its own norm, any step
+			// along it would look short, the damped system would be singular for every λ and
+			// the trust region would close on the start. It gets scale 1, as a zero column
+			// does; the threshold is Covariance's for a zero singular value.
+			maxNorm := 0.0
+			for _, v := range colNorm {
+				maxNorm = math.Max(maxNorm, v)
+			}
 			for j := range diag {
 				diag[j] = colNorm[j]
-				if diag[j] == 0 {
+				if diag[j] <= 1e-12*maxNorm {
 					diag[j] = 1
 				}
 			}
