@@ -1027,7 +1027,11 @@ func fitKinetics(r *Result, log io.Writer) error {
 			continue
 		}
 		if rho, ok := kinetics.Lag1(f.Fit.Residual); ok && rho > 0.5 {
-			f.Fit.Warnings = append(f.Fit.Warnings, fmt.Sprintf("the residuals are correlated in time (lag-1 autocorrelation %.2f; white noise gives about 0): the profiles carry a systematic error, e.g. rotational ambiguity, so these standard errors understate the uncertainty; the data fit's are the ones to quote, or try --hard-model", rho))
+			try := ", or try --hard-model"
+			if s.HardModel {
+				try = "" // a run that has it is not told to try it
+			}
+			f.Fit.Warnings = append(f.Fit.Warnings, fmt.Sprintf("the residuals are correlated in time (lag-1 autocorrelation %.2f; white noise gives about 0): the profiles carry a systematic error, e.g. rotational ambiguity, so these standard errors understate the uncertainty; the data fit's are the ones to quote%s", rho, try))
 		}
 		if f.Method == "hard-soft" {
 			f.Fit.Warnings = append(f.Fit.Warnings, "the standard errors of the hard–soft fit treat the last cycle's spectra as known and so come out too small; the data fit (variable projection) gives the honest ones")

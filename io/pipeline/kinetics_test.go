@@ -356,6 +356,13 @@ func TestHardSoftResolvesAmbiguousExtents(t *testing.T) {
 			t.Errorf("hard–soft k%d = %.7g differs from the data fit %.7g by more than twice its standard error %.2g", j+1, hardFit.Fit.K[j], dataFit.Fit.K[j], dataFit.Fit.KStdErr[j])
 		}
 	}
+	// Advice names only what the run has not done (common practice for a
+	// tool's messages): this run already has --hard-model.
+	for _, w := range r.Warnings {
+		if strings.Contains(w, "try --hard-model") {
+			t.Errorf("a run with --hard-model is told to try it: %q", w)
+		}
+	}
 }
 
 // The same input gives byte-identical summary.json and kinetics.csv, also
