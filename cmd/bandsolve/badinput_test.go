@@ -223,6 +223,8 @@ func badCases() []badCase {
 			writeFile(t, filepath.Join(w, "misspelt.bsr"), "# run 7\ndata "+filepath.Join(badDir, "good.csv")+"\nkindd single-beam\n")
 		}, code: 2, want: []string{"misspelt.bsr:3:1:", `unknown keyword "kindd"`, `did you mean "kind"?`}},
 
+		{name: "command file that is not there", cmd: "run", args: []string{"W/nothing.bsr"}, code: 1, want: []string{"nothing.bsr: cannot read: no such file or directory", "check the command file's path"}},
+
 		// Blanks.
 		{name: "blank of another length", args: []string{"--data", "B/good.csv", "--blank", "B/bad_blank_short.csv"}, code: 1, want: []string{"bad_blank_short.csv: has 7 axis points", "good.csv has 12", "--resample"}},
 		{name: "blank on a shifted axis", args: []string{"--data", "B/good.csv", "--blank", "B/bad_blank_shifted.csv"}, code: 1, want: []string{"bad_blank_shifted.csv: axis point 1 is 1001", "it is 1000", "--resample"}},

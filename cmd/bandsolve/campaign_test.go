@@ -123,6 +123,30 @@ func TestRunFlagsRefused(t *testing.T) {
 	}
 }
 
+// collect --out names a file: a path through a file, or into a folder that
+// is not there, is refused in one line naming the path and what to do
+// (docs/errors.md), with no temporary name of the program in it.
+func TestCollectOutRefused(t *testing.T) {
+	w := t.TempDir()
+	writeFile(t, filepath.Join(w, "notes.txt"), "keep me\n")
+	for _, c := range []struct{ out, want string }{
+		{filepath.Join(w, "notes.txt", "table.csv"), "part of the path is a file, not a folder; name a file in an existing folder"},
+		{filepath.Join(w, "later", "table.csv"), "folder " + filepath.Join(w, "later") + " does not exist; make it, or name a file in an existing folder"},
+	} {
+		r := run("collect", w, "--out", c.out)
+		if r.panicked != nil {
+			t.Fatalf("%s: panic: %v", c.out, r.panicked)
+		}
+		if r.code != exitRun || !strings.HasPrefix(r.stderr, "bandsolve collect: --out "+c.out+": "+c.want+"\n") ||
+			strings.Contains(r.stderr, "partial") {
+			t.Errorf("--out %s: exit %d, %q; want exit 1 and first %q", c.out, r.code, r.stderr, c.want)
+		}
+	}
+	if b, err := os.ReadFile(filepath.Join(w, "notes.txt")); err != nil || string(b) != "keep me\n" {
+		t.Errorf("the file in the path changed: %q, %v", b, err)
+	}
+}
+
 // docCommands returns the bandsolve command lines of docs/campaigns.md's
 // shell blocks, in order.
 func docCommands(t *testing.T) []string {

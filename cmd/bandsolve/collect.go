@@ -1,9 +1,12 @@
 package main
 
 import (
+	"errors"
 	"fmt"
+	"io/fs"
 	"os"
 	"path/filepath"
+	"syscall"
 
 	"github.com/bandsolve/bandsolve/io/campaign"
 	"github.com/bandsolve/bandsolve/io/pipeline"
@@ -75,6 +78,9 @@ func writeNew(path string, b []byte, force bool) error {
 			return fmt.Errorf("--out %s: exists; add --force to replace it, or name a new file", path)
 		}
 	}
+	if err := folderOf(path); err != nil {
+		return err
+	}
 	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".partial-*")
 	if err != nil {
 		return fmt.Errorf("--out %s: %w", path, err)
@@ -92,4 +98,19 @@ func writeNew(path string, b []byte, force bool) error {
 		return fmt.Errorf("--out %s: %w", path, werr)
 	}
 	return nil
+}
+
+// folderOf checks that the folder --out names a file in is there, so that
+// a wrong path is told in the user's terms rather than through the name of
+// the temporary file the table is first written to.
+func folderOf(path string) error {
+	dir := filepath.Dir(path)
+	st, err := os.Stat(dir)
+	switch {
+	case errors.Is(err, syscall.ENOTDIR) || err == nil && !st.IsDir():
+		return fmt.Errorf("--out %s: part of the path is a file, not a folder; name a file in an existing folder", path)
+	case errors.Is(err, fs.ErrNotExist):
+		return fmt.Errorf("--out %s: folder %s does not exist; make it, or name a file in an existing folder", path, dir)
+	}
+	return nil // other faults are told by the write itself
 }

@@ -34,7 +34,9 @@ package cmdfile
 
 import (
 	"bytes"
+	"errors"
 	"fmt"
+	"io/fs"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -131,7 +133,7 @@ const MaxBytes = 1 << 20
 func ReadFile(path string, keys []Keyword) (*File, error) {
 	st, err := os.Stat(path)
 	if err != nil {
-		return nil, fmt.Errorf("command file: %w", err)
+		return nil, cannotRead(path, err)
 	}
 	if !st.Mode().IsRegular() {
 		return nil, &Error{File: path, Msg: "is not a regular file; give a command file (plain text, one setting per line)"}
@@ -141,9 +143,21 @@ func ReadFile(path string, keys []Keyword) (*File, error) {
 	}
 	src, err := os.ReadFile(path)
 	if err != nil {
-		return nil, fmt.Errorf("command file: %w", err)
+		return nil, cannotRead(path, err)
 	}
 	return Parse(path, src, keys)
+}
+
+// cannotRead says in one line that the command file at path could not be
+// read and why, without the system call's name (stat, open) that os puts in.
+// It is not an *Error: the fault is the disk's or the path's, not a setting's,
+// so the exit status stays that of a file that cannot be read, as for --data.
+func cannotRead(path string, err error) error {
+	var pe *fs.PathError
+	if errors.As(err, &pe) {
+		err = pe.Err
+	}
+	return fmt.Errorf("%s: cannot read: %v; check the command file's path", path, err)
 }
 
 // Parse reads a command file's text. name is used in messages.
