@@ -1228,6 +1228,9 @@ func (kn *Kinetics) dataStart(r *Result, soft *kinetics.FitResult, opt mcr.Optio
 	if kn.Extents {
 		nModel = len(kn.Scheme.Steps)
 	}
+	// The early data fit is asked for once, here, and let go whatever
+	// the answer (letGo).
+	defer r.earlyFit.letGo()
 	if r.Settings.Map != "" || len(kn.Components) != nModel || r.Components != nModel || !alikeOptions(opt) {
 		return nil
 	}
@@ -1243,6 +1246,7 @@ func (kn *Kinetics) dataStart(r *Result, soft *kinetics.FitResult, opt mcr.Optio
 		var job *dataFitJob
 		if a == 0 {
 			job = r.earlyFit.take(r, kn, o)
+			r.earlyFit.letGo()
 		}
 		if job != nil {
 			f, sp, err = kn.keep(job) // the same fit, begun beside the soft resolution

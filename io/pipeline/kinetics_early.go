@@ -59,10 +59,11 @@ func beginEarlyDataFit(r *Result, opt mcr.Options) *earlyDataFit {
 	// run's), copies of the times and weights, and the scaled data, which
 	// FitData fits in place of the data matrix.
 	jopt.RowWeights, jopt.ColWeights = slices.Clone(o.RowWeights), slices.Clone(o.ColWeights)
-	e.job = &dataFitJob{kn: kn, times: e.times, d: scaled, opt: jopt}
+	j := &dataFitJob{kn: kn, times: e.times, d: scaled, opt: jopt}
+	e.job = j
 	go func() {
+		// j, not e.job, which letGo may clear while the fit runs.
 		defer close(e.done)
-		j := e.job
 		j.fit, j.spectra, j.err = kinetics.FitData(kn.Scheme, j.times, j.d, j.opt)
 	}()
 	return e
@@ -81,7 +82,7 @@ func (e *earlyDataFit) wait() {
 // no baseline shapes), the options are the early fit's, and the data
 // weighted now are bit for bit the data it weighted. nil otherwise.
 func (e *earlyDataFit) take(r *Result, kn *Kinetics, o kinetics.FitOptions) *dataFitJob {
-	if e == nil || e.taken || kn.reduced != nil || kn.batch == nil || kn.batch.scaled != nil || kn.batch.d != nil {
+	if e == nil || e.taken || e.job == nil || kn.reduced != nil || kn.batch == nil || kn.batch.scaled != nil || kn.batch.d != nil {
 		return nil
 	}
 	if len(r.SetAside) > 0 || r.BaselineShapes != nil || r.D != e.d || !slices.Equal(r.Times, e.times) {
@@ -96,6 +97,17 @@ func (e *earlyDataFit) take(r *Result, kn *Kinetics, o kinetics.FitOptions) *dat
 	e.wait()
 	e.taken = true
 	return e.job
+}
+
+// letGo drops the fit once dataStart has asked for it (take), taken or not:
+// one it declined, with its weighted copy of the data (480 MB at
+// 20 000 × 3000), is then not held through hard–soft ALS and what follows
+// it until the resolution returns. A fit still running keeps what it works
+// on until it ends (wait still waits for it); nothing else does.
+func (e *earlyDataFit) letGo() {
+	if e != nil {
+		e.job, e.taken = nil, true
+	}
 }
 
 // sameFitOptions compares what of two data fits' options decides the fit
