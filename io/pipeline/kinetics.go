@@ -1100,7 +1100,8 @@ func (kn *Kinetics) fitData(r *Result, opt kinetics.FitOptions) (*kinetics.FitRe
 
 // dataFitJob is one fit of the data matrix made ready by fitData: the rows
 // and the shared reductions taken from kn beforehand, so that run reads
-// and writes nothing of kn and several jobs may run at once (refitAll).
+// and writes nothing of kn and several jobs may run at once (checkAhead;
+// earlyDataFit makes one of its own, before the resolution).
 type dataFitJob struct {
 	kn      *Kinetics
 	r       *Result
@@ -1492,7 +1493,8 @@ type refitMemo struct {
 
 // refit is fitData from the exchanged start o.InitialK, or the refit made
 // before from a start within refitTol standard errors of best's.
-// A job made by refitAll for this start is taken instead of fitting again.
+// A job checkAhead made for this start (job, nil if none) is taken
+// instead of fitting again.
 func (kn *Kinetics) refit(r *Result, best *kinetics.FitResult, o kinetics.FitOptions, job *dataFitJob) (*kinetics.FitResult, *mat.Dense, error) {
 	fitData := func() (*kinetics.FitResult, *mat.Dense, error) {
 		if job != nil {
