@@ -8,6 +8,9 @@ import (
 	"runtime"
 	"sync"
 
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/lapack/lapack64"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -19,21 +22,46 @@ var ErrNotConverged = errors.New("active-set iteration limit reached")
 // A itself (QR of the passive columns) rather than on AᵀA, so it is the
 // accurate reference for single problems; ALS uses SolveMany instead.
 func NNLS(a *mat.Dense, b []float64) ([]float64, error) {
+	var w NNLSWork
+	x, err := w.Solve(a, b)
+	return x, err // w is the caller's no longer: x is not shared
+}
+
+// NNLSWork holds NNLS's buffers, so that a caller solving many problems of
+// one size (kinetics.NonNegativeCost: one per channel, thousands per call)
+// makes no garbage per problem: the LAPACK calls of gonum's mat.QR
+// (Geqrf, Trcon, Ormqr, Trtrs), on buffers kept here instead of fresh ones.
+// The answers and errors are NNLS's bit for bit. The zero value is ready;
+// a NNLSWork is not for concurrent use.
+type NNLSWork struct {
+	x, z, res, w, bv []float64
+	passive          []bool
+	cols             []int
+	qr, tau, work    []float64
+	qtb              []float64
+	cwork            []float64
+	iwork            []int
+}
+
+// Solve is NNLS(a, b). The x returned is the workspace's own: valid until
+// the next Solve.
+func (ws *NNLSWork) Solve(a *mat.Dense, b []float64) ([]float64, error) {
 	m, n := a.Dims()
 	if len(b) != m {
 		return nil, fmt.Errorf("nnls: b has %d rows, A has %d", len(b), m)
 	}
-	x := make([]float64, n)
-	passive := make([]bool, n)
-	bv := mat.NewVecDense(m, append([]float64(nil), b...))
-	res := mat.NewVecDense(m, nil)
-	w := mat.NewVecDense(n, nil)
-	z := make([]float64, n)
+	ws.size(m, n)
+	x, z, passive := ws.x, ws.z, ws.passive
+	bv := mat.NewVecDense(m, ws.bv)
+	copy(ws.bv, b)
+	res := mat.NewVecDense(m, ws.res)
+	w := mat.NewVecDense(n, ws.w)
+	xv := mat.NewVecDense(n, x)
 	// Tolerance on the dual: scaled to the problem so that it is unit-free.
 	tol := 10 * eps * mat.Norm(a, 1) * math.Max(1, mat.Norm(bv, math.Inf(1))) * float64(max(m, n))
 	for outer := 0; outer < 3*n+10; outer++ {
 		// w = Aᵀ(b − A x)
-		res.MulVec(a, mat.NewVecDense(n, x))
+		res.MulVec(a, xv)
 		res.SubVec(bv, res)
 		w.MulVec(a.T(), res)
 		best, bestW := -1, tol
@@ -50,7 +78,7 @@ func NNLS(a *mat.Dense, b []float64) ([]float64, error) {
 			if inner > 3*n+10 {
 				return x, ErrNotConverged
 			}
-			if err := lsqPassive(a, bv, passive, z); err != nil {
+			if err := ws.lsqPassive(a, passive, z); err != nil {
 				return x, err
 			}
 			alpha, blocked := 1.0, false
@@ -80,33 +108,77 @@ func NNLS(a *mat.Dense, b []float64) ([]float64, error) {
 	return x, ErrNotConverged
 }
 
+// size readies the buffers for an m × n problem: x zero, every column
+// active. A fresh x per call unless the last one was of the same size;
+// NNLS's callers get theirs from a workspace of their own.
+func (ws *NNLSWork) size(m, n int) {
+	grow := func(s []float64, l int) []float64 {
+		if cap(s) < l {
+			return make([]float64, l)
+		}
+		return s[:l]
+	}
+	ws.x, ws.z, ws.w = grow(ws.x, n), grow(ws.z, n), grow(ws.w, n)
+	ws.res, ws.bv, ws.qtb = grow(ws.res, m), grow(ws.bv, m), grow(ws.qtb, m)
+	ws.qr, ws.tau, ws.cwork = grow(ws.qr, m*n), grow(ws.tau, n), grow(ws.cwork, 3*n)
+	clear(ws.x)
+	if cap(ws.passive) < n {
+		ws.passive, ws.cols, ws.iwork = make([]bool, n), make([]int, 0, n), make([]int, n)
+	}
+	ws.passive, ws.iwork = ws.passive[:n], ws.iwork[:n]
+	clear(ws.passive)
+}
+
 // lsqPassive solves the unconstrained least-squares problem on the passive
-// columns by QR, which keeps the conditioning of A rather than squaring it.
-func lsqPassive(a *mat.Dense, b *mat.VecDense, passive []bool, z []float64) error {
+// columns by QR, which keeps the conditioning of A rather than squaring it:
+// the calls mat.QR's Factorize and SolveVecTo make, in their order, with
+// their workspace sizes (so LAPACK takes the same paths), and their errors
+// (a zero pivot, or a condition number past mat.ConditionTolerance).
+func (ws *NNLSWork) lsqPassive(a *mat.Dense, passive []bool, z []float64) error {
 	m, n := a.Dims()
-	var cols []int
+	cols := ws.cols[:0]
 	for j := 0; j < n; j++ {
 		z[j] = 0
 		if passive[j] {
 			cols = append(cols, j)
 		}
 	}
-	sub := mat.NewDense(m, len(cols), nil)
-	for k, j := range cols {
-		for i := 0; i < m; i++ {
-			sub.Set(i, k, a.At(i, j))
+	k := len(cols)
+	qr := blas64.General{Rows: m, Cols: k, Stride: k, Data: ws.qr[:m*k]}
+	for i := 0; i < m; i++ {
+		for c, j := range cols {
+			qr.Data[i*k+c] = a.At(i, j)
 		}
 	}
-	var qr mat.QR
-	qr.Factorize(sub)
-	var sol mat.VecDense
-	if err := qr.SolveVecTo(&sol, false, b); err != nil {
-		return fmt.Errorf("nnls: passive columns are linearly dependent: %w", err)
+	tau := ws.tau[:k]
+	var query [1]float64
+	lapack64.Geqrf(qr, tau, query[:], -1)
+	lapack64.Geqrf(qr, tau, ws.workOf(int(query[0])), int(query[0]))
+	r := blas64.Triangular{N: k, Stride: k, Data: qr.Data, Uplo: blas.Upper, Diag: blas.NonUnit}
+	cond := 1 / lapack64.Trcon(mat.CondNorm, r, ws.cwork[:3*k], ws.iwork[:k])
+	c := blas64.General{Rows: m, Cols: 1, Stride: 1, Data: ws.qtb}
+	copy(c.Data, ws.bv)
+	lapack64.Ormqr(blas.Left, blas.Trans, qr, tau, c, query[:], -1)
+	lapack64.Ormqr(blas.Left, blas.Trans, qr, tau, c, ws.workOf(int(query[0])), int(query[0]))
+	if !lapack64.Trtrs(blas.NoTrans, r, c) {
+		return fmt.Errorf("nnls: passive columns are linearly dependent: %w", mat.Condition(math.Inf(1)))
 	}
-	for k, j := range cols {
-		z[j] = sol.AtVec(k)
+	if cond > mat.ConditionTolerance {
+		return fmt.Errorf("nnls: passive columns are linearly dependent: %w", mat.Condition(cond))
 	}
+	for c, j := range cols {
+		z[j] = ws.qtb[c]
+	}
+	ws.cols = cols
 	return nil
+}
+
+// workOf is LAPACK's workspace of length l.
+func (ws *NNLSWork) workOf(l int) []float64 {
+	if cap(ws.work) < l {
+		ws.work = make([]float64, l)
+	}
+	return ws.work[:l]
 }
 
 const eps = 2.220446049250313e-16
