@@ -46,6 +46,9 @@ type sensitivityJob struct {
 	t0           float64
 	kFree        []int
 	c0Free       []int
+	// buf, when set, lends c and dc (cleared first, as fresh ones are):
+	// they are then the caller's only until it gives buf back.
+	buf *fitScratch
 }
 
 // sensitivities returns c(t) at every time (n × ns) and, per parameter in
@@ -69,10 +72,18 @@ func (job sensitivityJob) sensitivities() (c *mat.Dense, dc []*mat.Dense, ok boo
 		dirs[a] = mat.DenseCopyOf(newNetwork(s, unit).linearMatrix().Slice(0, ns, 0, ns))
 	}
 	n := len(job.times)
-	c = mat.NewDense(n, ns, nil)
-	dc = make([]*mat.Dense, np)
-	for a := range dc {
-		dc[a] = mat.NewDense(n, ns, nil)
+	if b := job.buf; b != nil {
+		c, dc = sized(&b.c, n, ns), sizedList(&b.dc, np, n, ns)
+		c.Zero()
+		for _, m := range dc {
+			m.Zero()
+		}
+	} else {
+		c = mat.NewDense(n, ns, nil)
+		dc = make([]*mat.Dense, np)
+		for a := range dc {
+			dc[a] = mat.NewDense(n, ns, nil)
+		}
 	}
 	y0 := make([]float64, ns)
 	copy(y0, job.c0)
@@ -354,19 +365,24 @@ func (p *fitProblem) jacobian(theta []float64, jac *mat.Dense) error {
 	if err != nil {
 		return err
 	}
-	job := sensitivityJob{s: p.s, k: k, c0: c0, times: p.times, t0: p.opt.T0, kFree: p.kFree, c0Free: p.c0Free}
+	sc := p.getScratch()
+	defer p.putScratch(sc)
+	job := sensitivityJob{s: p.s, k: k, c0: c0, times: p.times, t0: p.opt.T0, kFree: p.kFree, c0Free: p.c0Free, buf: sc}
 	c, dc, ok := job.sensitivities()
 	if !ok {
 		return ErrUseDifferences
 	}
 	if p.dred != nil {
 		if p.opt.RowWeights != nil {
-			c = scaleRowsSqrt(c, p.opt.RowWeights)
+			n, q := c.Dims()
+			wc, wdc := sized(&sc.wc, n, q), sizedList(&sc.wdc, len(dc), n, q)
+			scaleRowsSqrtTo(wc, c, p.opt.RowWeights)
 			for a := range dc {
-				dc[a] = scaleRowsSqrt(dc[a], p.opt.RowWeights)
+				scaleRowsSqrtTo(wdc[a], dc[a], p.opt.RowWeights)
 			}
+			c, dc = wc, wdc
 		}
-		return p.dataJacobian(c, dc, jac)
+		return p.dataJacobianWith(sc, c, dc, jac)
 	}
 	p.profileJacobian(c, dc, jac)
 	return nil
@@ -385,6 +401,13 @@ func (p *fitProblem) jacobian(theta []float64, jac *mat.Dense) error {
 // it is kept here, so the Jacobian is the derivative itself and the
 // standard errors built on it are those of the differenced one.
 func (p *fitProblem) dataJacobian(m *mat.Dense, dm []*mat.Dense, jac *mat.Dense) error {
+	sc := p.getScratch()
+	defer p.putScratch(sc)
+	return p.dataJacobianWith(sc, m, dm, jac)
+}
+
+// dataJacobianWith is dataJacobian with its n-row matrices in sc.
+func (p *fitProblem) dataJacobianWith(sc *fitScratch, m *mat.Dense, dm []*mat.Dense, jac *mat.Dense) error {
 	u, sv, v, err := projection(m)
 	if err != nil {
 		return err
@@ -408,10 +431,11 @@ func (p *fitProblem) dataJacobian(m *mat.Dense, dm []*mat.Dense, jac *mat.Dense)
 	var vs mat.Dense
 	vs.Mul(v, sigInv) // q × r: V Σ⁻¹
 	s.Mul(&vs, utd)   // q × w: S = M⁺ D
-	res := product.Mul(u, utd)
+	res := sized(&sc.res, n, w)
+	product.MulTo(res, u, utd)
 	res.Sub(d, res) // n × w: R = (I − P) D
 	q, _ := s.Dims()
-	ds, col := mat.NewDense(n, w, nil), mat.NewDense(n, w, nil)
+	ds, col := sized(&sc.ds, n, w), sized(&sc.col, n, w)
 	utdm, t := mat.NewDense(r, q, nil), mat.NewDense(q, w, nil)
 	var inner, z mat.Dense
 	for a, dma := range dm {

@@ -259,3 +259,124 @@ func sameBits(a, b *mat.Dense) bool {
 	}
 	return true
 }
+
+// The residuals and Jacobians of a fit write their n-row matrices into
+// buffers kept between evaluations (fitScratch). An evaluation on buffers
+// another θ left dirty, then filled with NaN, must give, bit for bit, what one on fresh buffers
+// gives (the values the fresh, zeroed matrices of each evaluation gave
+// before): data and weighted data (variable projection, Golub & Pereyra
+// 1973) and profiles, a chain and a fitted initial concentration, with
+// times before t0, whose sensitivity rows are written only in part. The
+// derivatives themselves are held to central differences in
+// TestJacobianAgainstCentralDifferences.
+func TestFitScratchReusedAsFresh(t *testing.T) {
+	times := linspace(-2, 60, 45)
+	n := len(times)
+	rng := rand.New(rand.NewPCG(8, 13))
+	for _, tc := range []struct {
+		scheme string
+		k, c0  []float64
+		fitC0  bool
+	}{
+		{"A -> B -> C -> D -> E -> F", []float64{0.4, 0.22, 0.13, 0.08, 0.045}, nil, false},
+		{"A -> B -> C; D -> E", []float64{0.3, 0.08, 0.15}, []float64{1, 0, 0, 0.6, 0}, true},
+	} {
+		s := mustParse(t, tc.scheme)
+		ns := len(s.Species)
+		c0 := tc.c0
+		if c0 == nil {
+			c0 = make([]float64, ns)
+			c0[0] = 1
+		}
+		const m = 9
+		d := mat.NewDense(n, m, nil)
+		for i := 0; i < n; i++ {
+			for j := 0; j < m; j++ {
+				d.Set(i, j, rng.NormFloat64())
+			}
+		}
+		rowW := make([]float64, n)
+		for i := range rowW {
+			rowW[i] = 0.5 + rng.Float64()
+		}
+		sim, err := s.Simulate(tc.k, c0, times, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		obs := noisy(t, sim.C, []int{1, ns - 1}, []float64{2, 0.5}, 0.01, 3)
+		for _, mode := range []string{"data", "weighted data", "profiles"} {
+			newProblem := func() *fitProblem {
+				p, err := newFitProblem(s, times, FitOptions{InitialK: tc.k, C0: c0, FitC0: tc.fitC0}, n)
+				if err != nil {
+					t.Fatal(err)
+				}
+				switch mode {
+				case "data", "weighted data":
+					p.dred = d
+					if mode == "weighted data" {
+						p.opt.RowWeights = rowW
+					}
+				default:
+					p.observed, p.columns, p.q = obs, []int{1, ns - 1}, 2
+				}
+				return p
+			}
+			rows := n * 2
+			if mode != "profiles" {
+				rows = n * m
+			}
+			theta := newProblem().pack(tc.k, c0)
+			other := append([]float64(nil), theta...)
+			for a := range other {
+				other[a] += 0.7 * (rng.Float64() - 0.5)
+			}
+			eval := func(p *fitProblem, th []float64) ([]float64, *mat.Dense) {
+				r := make([]float64, rows)
+				if err := p.residual(th, r); err != nil {
+					t.Fatal(err)
+				}
+				j := mat.NewDense(rows, len(th), nil)
+				if err := p.jacobian(th, j); err != nil {
+					t.Fatal(err)
+				}
+				return r, j
+			}
+			wantR, wantJ := eval(newProblem(), theta)
+			p := newProblem()
+			eval(p, other) // leaves the buffers dirty
+			poison(p)
+			gotR, gotJ := eval(p, theta)
+			if !slicesSameBits(gotR, wantR) || !slicesSameBits(gotJ.RawMatrix().Data, wantJ.RawMatrix().Data) {
+				t.Errorf("%s, %s: residual or Jacobian on reused buffers differs from fresh ones", tc.scheme, mode)
+			}
+		}
+	}
+}
+
+// poison fills every buffer of p's scratch set with NaN, so that an entry
+// an evaluation reads before writing shows.
+func poison(p *fitProblem) {
+	sc := p.getScratch()
+	all := append([]*mat.Dense{sc.proj, sc.res, sc.ds, sc.col, sc.wc, sc.c}, append(sc.wdc, sc.dc...)...)
+	for _, m := range all {
+		if m != nil {
+			d := m.RawMatrix().Data
+			for i := range d {
+				d[i] = math.NaN()
+			}
+		}
+	}
+	p.putScratch(sc)
+}
+
+func slicesSameBits(a, b []float64) bool {
+	if len(a) != len(b) {
+		return false
+	}
+	for i := range a {
+		if math.Float64bits(a[i]) != math.Float64bits(b[i]) {
+			return false
+		}
+	}
+	return true
+}
