@@ -221,6 +221,34 @@ func BenchmarkHardModelChain(b *testing.B) {
 	}
 }
 
+// BenchmarkHardModelChain20000x3000 is BenchmarkHardModelChain on 20 000
+// spectra × 3000 points (newChain over the same span, a 650 MB file): the
+// peak resident memory of a --hard-model run at the size whose default run
+// issue 15 bounds (2.5 GB), each phase's peak in the log. No parse ratio,
+// the rate constants checked as there. Only when asked for: -bench
+// Chain20000.
+func BenchmarkHardModelChain20000x3000(b *testing.B) {
+	explicitly(b, "Chain20000")
+	c := newChain(20000, 3000, 6000)
+	dir := b.TempDir()
+	series, blank := c.write(b, dir, 30, rand.New(rand.NewPCG(7, 11)))
+	runtime.GC()
+	resetPeakRSS()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		log := newPhaseLog()
+		r, err := Run(chainSettings(series, blank), log)
+		if err != nil {
+			b.Fatal(err)
+		}
+		log.Write([]byte("done\n"))
+		b.Logf("phases of the run:\n%s", log)
+		checkRates(b, r, c.K)
+	}
+	b.StopTimer()
+	reportPeakMemory(b)
+}
+
 // checkRates holds each reported rate constant, in the order written, to
 // 3 % and 4 standard errors of the value the data were made from.
 func checkRates(tb testing.TB, r *Result, truth []float64) {
