@@ -434,8 +434,14 @@ func newKinetics(r *Result, c *mat.Dense) (*Kinetics, error) {
 	}
 	kn.Columns = cols
 	kn.MapSource = "auto: the assignment of components to " + what + " with the lowest residual"
+	passed := fit.MapNote
 	if seen, note := kn.c0FromProfiles(r, c); seen != nil {
-		kn.tryC0(r, c, obs, seen, note)
+		passed = kn.tryC0(r, c, obs, seen, note, passed)
+	}
+	if passed != "" {
+		// Said only when it decided, so that runs it did not change keep their bytes.
+		kn.MapSource += " among those whose profiles each move with their " + what
+		r.Notes = append(r.Notes, "kinetics: "+passed+"; --map chooses another")
 	}
 	return kn, nil
 }
@@ -443,14 +449,17 @@ func newKinetics(r *Result, c *mat.Dense) (*Kinetics, error) {
 // tryC0 compares the profile fits with the default initial concentrations
 // and with those the pre-reaction profiles show (the map chosen again for
 // them), and keeps the better fit; the note records both residuals either
-// way, so the choice is checked, not assumed.
-func (kn *Kinetics) tryC0(r *Result, c, obs *mat.Dense, seen []float64, note string) {
+// way, so the choice is checked, not assumed. It returns the map's note
+// (kinetics.FitResult.MapNote) of the initial concentrations kept, passed
+// being the default's.
+func (kn *Kinetics) tryC0(r *Result, c, obs *mat.Dense, seen []float64, note, passed string) string {
 	defC0, defCols := kn.C0, kn.Columns
 	defFit, _, errDef := kn.fitProfiles(r.Times, c, kn.starts(r.Times))
 	kn.C0 = seen
 	first := kn.firstStart(r.Times)
+	newPassed := passed
 	if cols, fit, err := kinetics.AutoMapFit(kn.Scheme, r.Times, obs, kn.options(first)); err == nil {
-		kn.Columns = cols
+		kn.Columns, newPassed = cols, fit.MapNote
 		kn.remember(obs, cols, [][]float64{first}, fit)
 	}
 	newFit, _, errNew := kn.fitProfiles(r.Times, c, kn.starts(r.Times))
@@ -460,11 +469,13 @@ func (kn *Kinetics) tryC0(r *Result, c, obs *mat.Dense, seen []float64, note str
 			note += fmt.Sprintf(": the profiles fit better with them (residual sum of squares %.4g against %.4g with the default), so the fits use them", newFit.SSR, defFit.SSR)
 		}
 		r.Notes = append(r.Notes, note+"; give --c0 to set them, or --fit-c0 to fit them")
+		return newPassed
 	default:
 		kn.C0, kn.Columns = defC0, defCols
 		if errNew == nil && errDef == nil {
 			r.Notes = append(r.Notes, note+fmt.Sprintf(", but the profiles fit no better with them (residual sum of squares %.4g against %.4g with the default), so the default is kept; give --c0 to set them", newFit.SSR, defFit.SSR))
 		}
+		return passed
 	}
 }
 

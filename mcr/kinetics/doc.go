@@ -51,7 +51,10 @@
 // for A + B → … (assuming [A]0 = [B]0); FitResult.HalfLifeNote states which was used.
 //
 // AutoMap scores every assignment of observed columns to species (or steps) by the cosines of
-// their shapes at the starting rate constants and fits only the few best, keeping the best fit.
+// their shapes at the starting rate constants and fits only the few best, keeping the best fit
+// among those whose every observed column correlates above −0.5 in time with its model column
+// (a profile that rises is not a reactant); FitResult.MapNote says when that passed over a
+// lower residual.
 //
 // All computations are serial with a fixed summation order, so results are bit-identical
 // from run to run.

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"strings"
 	"sync"
 	"sync/atomic"
 
@@ -107,6 +108,10 @@ type FitResult struct {
 	Converged  bool
 	Stiff      bool
 	Warnings   []string
+	// MapNote, set by AutoMapFit on the fit it returns, says which assignment
+	// with a lower residual it passed over and why (a profile moving against
+	// its species); empty when the lowest residual was kept.
+	MapNote string
 }
 
 type fitProblem struct {
@@ -902,9 +907,10 @@ func AutoMapFit(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions)
 	product.Each(nFit, func(i int) {
 		fits[i], errs[i] = FitProfiles(s, times, observed, cands[i].cols, opt)
 	})
-	var best []int
-	var bestFit *FitResult
-	bestRMS := math.Inf(1)
+	// best: the lowest RMS; kept: the lowest among assignments whose every
+	// profile moves with its model column (a profile that rises cannot be a
+	// reactant, however low the residual of a flat fit to it).
+	best, kept := -1, -1
 	var firstErr error
 	for i := 0; i < nFit; i++ {
 		res, err := fits[i], errs[i]
@@ -914,14 +920,74 @@ func AutoMapFit(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions)
 			}
 			continue
 		}
-		if best == nil || res.RMS < bestRMS*(1-1e-9) {
-			best, bestFit, bestRMS = cands[i].cols, res, res.RMS
+		if best < 0 || res.RMS < fits[best].RMS*(1-1e-9) {
+			best = i
+		}
+		if _, _, opp := opposed(observed, res.Model, cands[i].cols); !opp && (kept < 0 || res.RMS < fits[kept].RMS*(1-1e-9)) {
+			kept = i
 		}
 	}
-	if best == nil {
+	if best < 0 {
 		return nil, nil, fmt.Errorf("kinetics: auto map: no assignment could be fitted: %w", firstErr)
 	}
-	return best, bestFit, nil
+	if kept < 0 || kept == best {
+		return cands[best].cols, fits[best], nil
+	}
+	fits[kept].MapNote = passedOver(s, observed, fits[best].Model, cands[best].cols, opt.UseExtents)
+	return cands[kept].cols, fits[kept], nil
+}
+
+// opposed reports the first observed column j whose correlation in time with
+// its model column cols[j] is below −0.5 (the two move in opposite
+// directions), with that correlation. Columns constant in time have none.
+func opposed(observed, model *mat.Dense, cols []int) (int, float64, bool) {
+	for j, c := range cols {
+		o, m := mat.Col(nil, j, observed), mat.Col(nil, c, model)
+		if rho := correlation(o, m); rho < -0.5 {
+			return j, rho, true
+		}
+	}
+	return 0, 0, false
+}
+
+// correlation is Pearson's correlation coefficient of a and b, 0 when
+// either is constant.
+func correlation(a, b []float64) float64 {
+	ma, mb := floats.Sum(a)/float64(len(a)), floats.Sum(b)/float64(len(b))
+	var sab, saa, sbb float64
+	for i := range a {
+		da, db := a[i]-ma, b[i]-mb
+		sab += da * db
+		saa += da * da
+		sbb += db * db
+	}
+	if saa == 0 || sbb == 0 {
+		return 0
+	}
+	return sab / math.Sqrt(saa*sbb)
+}
+
+// passedOver says which assignment with a lower residual AutoMapFit passed
+// over (cols, fitted as model) and which profile moves against its species.
+func passedOver(s *Scheme, observed, model *mat.Dense, cols []int, extents bool) string {
+	name := func(c int) string {
+		if extents {
+			return s.Steps[c].Text
+		}
+		return s.Species[c]
+	}
+	parts := make([]string, len(cols))
+	for j, c := range cols {
+		parts[j] = fmt.Sprintf("%s=%d", name(c), j+1)
+	}
+	j, rho, _ := opposed(observed, model, cols)
+	n, _ := observed.Dims()
+	rises, falls := "rises", "falls"
+	if observed.At(n-1, j) < observed.At(0, j) {
+		rises, falls = "falls", "rises"
+	}
+	return fmt.Sprintf("the assignment with the lowest residual, %s, was passed over: component %d %s where %s %s (correlation %.2f in time), so it cannot be that species; kept: the lowest residual of the assignments whose profiles each move with their species. When no assignment fits well, the profiles do not start where the model does (initial concentrations, rotational ambiguity)",
+		strings.Join(parts, ", "), j+1, rises, name(cols[j]), falls, rho)
 }
 
 // autoMapFits is how many of the best-scoring assignments AutoMap fits.
