@@ -29,6 +29,9 @@ type earlyDataFit struct {
 	times []float64
 	done  chan struct{}
 	taken bool
+	// failed says the fit panicked (start); written by its goroutine,
+	// read after done.
+	failed bool
 }
 
 // beginEarlyDataFit starts the fit dataStart will make first, or returns
@@ -37,6 +40,17 @@ type earlyDataFit struct {
 // points), or without noise weights (FitData then reads the data matrix
 // itself, which the resolution may change while it runs).
 func beginEarlyDataFit(r *Result, opt mcr.Options) *earlyDataFit {
+	e := newEarlyDataFit(r, opt)
+	if e != nil {
+		e.start(func(j *dataFitJob) {
+			j.fit, j.spectra, j.err = kinetics.FitData(j.kn.Scheme, j.times, j.d, j.opt)
+		})
+	}
+	return e
+}
+
+// newEarlyDataFit makes beginEarlyDataFit's job ready, not started.
+func newEarlyDataFit(r *Result, opt mcr.Options) *earlyDataFit {
 	if !startsFromDataFit(r, opt) || len(r.SetAside) > 0 || r.BaselineOrder >= 0 || r.BaselineShapes != nil || (r.Blind != nil && r.Blind.Count > 0) {
 		return nil
 	}
@@ -59,14 +73,27 @@ func beginEarlyDataFit(r *Result, opt mcr.Options) *earlyDataFit {
 	// run's), copies of the times and weights, and the scaled data, which
 	// FitData fits in place of the data matrix.
 	jopt.RowWeights, jopt.ColWeights = slices.Clone(o.RowWeights), slices.Clone(o.ColWeights)
-	j := &dataFitJob{kn: kn, times: e.times, d: scaled, opt: jopt}
-	e.job = j
-	go func() {
-		// j, not e.job, which letGo may clear while the fit runs.
-		defer close(e.done)
-		j.fit, j.spectra, j.err = kinetics.FitData(kn.Scheme, j.times, j.d, j.opt)
-	}()
+	e.job = &dataFitJob{kn: kn, times: e.times, d: scaled, opt: jopt}
 	return e
+}
+
+// start makes the fit (fit(job)) on a goroutine of its own. A panic there
+// would end the program, past the recovery a batch puts around each run on
+// the run's own goroutine (cmd/bandsolve runOne); it is dropped here
+// instead and the fit declined (take), so that dataStart makes it again on
+// the run's goroutine, where the panic, if any, is met as it was before
+// the fit began early.
+func (e *earlyDataFit) start(fit func(*dataFitJob)) {
+	j := e.job // not e.job on the goroutine: letGo may clear it while the fit runs
+	go func() {
+		defer close(e.done)
+		defer func() {
+			if recover() != nil {
+				e.failed = true // read after done
+			}
+		}()
+		fit(j)
+	}()
 }
 
 // wait returns once the fit has ended (nil: at once).
@@ -80,7 +107,8 @@ func (e *earlyDataFit) wait() {
 // would make now as the first of dataStart's batch: nothing kept from an
 // earlier fit, the data fitted are r.D with its times (nothing set aside,
 // no baseline shapes), the options are the early fit's, and the data
-// weighted now are bit for bit the data it weighted. nil otherwise.
+// weighted now are bit for bit the data it weighted, and the fit did not
+// break off (start). nil otherwise.
 func (e *earlyDataFit) take(r *Result, kn *Kinetics, o kinetics.FitOptions) *dataFitJob {
 	if e == nil || e.taken || e.job == nil || kn.reduced != nil || kn.batch == nil || kn.batch.scaled != nil || kn.batch.d != nil {
 		return nil
@@ -96,6 +124,9 @@ func (e *earlyDataFit) take(r *Result, kn *Kinetics, o kinetics.FitOptions) *dat
 	}
 	e.wait()
 	e.taken = true
+	if e.failed {
+		return nil
+	}
 	return e.job
 }
 

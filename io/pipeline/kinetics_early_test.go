@@ -143,3 +143,29 @@ func TestDeclinedEarlyDataFitIsLetGo(t *testing.T) {
 	}
 	runtime.KeepAlive(e)
 }
+
+// A fault (a panic) in the early data fit, on its own goroutine, would end
+// the program: a panic not recovered on the goroutine it happens on ends
+// it (The Go Programming Language Specification, Handling panics), past
+// the recovery a batch puts around each run on the run's goroutine
+// (cmd/bandsolve runOne), where the fit ran before it began early. It must
+// instead leave the early fit declined, so that dataStart fits afresh on
+// the run's goroutine.
+func TestEarlyDataFitFaultIsDeclined(t *testing.T) {
+	_, r := runSmallChain(t)
+	e := newEarlyDataFit(r, mcr.Options{})
+	if e == nil {
+		t.Fatal("no early data fit on the chain's weighted data")
+	}
+	e.start(func(*dataFitJob) { panic("a fault in the early fit") })
+	e.wait()
+	kn, err := kineticsSettings(r)
+	if err != nil {
+		t.Fatal(err)
+	}
+	end := kn.startBatch()
+	defer end()
+	if e.take(r, kn, kn.dataOptions(r, kn.options(kn.firstStart(r.Times)))) != nil {
+		t.Error("an early fit that broke off was taken")
+	}
+}
