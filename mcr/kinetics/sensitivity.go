@@ -142,20 +142,26 @@ const sensBlock = 256
 // of its own, when there are two processors and at least 2·min times; on
 // the caller otherwise. One goroutine per call: a Jacobian takes about a
 // millisecond, and more blocks cost more in waking and parking than they
-// save.
+// save. It returns, or panics, once both halves have ended; a panic in the
+// second is raised again on the caller, where the caller's recovery sees
+// it (on its own goroutine it would end the program).
 func halves(n, min int, f func(r0, r1 int)) {
 	if runtime.GOMAXPROCS(0) < 2 || n < 2*min {
 		f(0, n)
 		return
 	}
 	h := n / 2
-	done := make(chan struct{})
+	fault := make(chan any, 1)
 	go func() {
-		defer close(done)
+		defer func() { fault <- recover() }()
 		f(h, n)
 	}()
+	defer func() {
+		if p := <-fault; p != nil {
+			panic(p)
+		}
+	}()
 	f(0, h)
-	<-done
 }
 
 // eigenSens holds G = V⁻¹ E V per rate constant and V⁻¹ e_i per initial

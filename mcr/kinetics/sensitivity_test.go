@@ -4,7 +4,9 @@ import (
 	"math"
 	"math/rand/v2"
 	"runtime"
+	"strconv"
 	"testing"
+	"time"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -379,4 +381,35 @@ func slicesSameBits(a, b []float64) bool {
 		}
 	}
 	return true
+}
+
+// A fault (a panic) in either half of the times reaches the caller of
+// halves, whose own recovery (the one a batch puts around each run) then
+// sees it, instead of ending the program from the second half's goroutine:
+// a panic not recovered on the goroutine it happens on ends the program
+// (The Go Programming Language Specification, Handling panics). Both
+// halves are waited for first.
+func TestHalvesFaultReachesTheCaller(t *testing.T) {
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(2))
+	n := 2 * sensBlock
+	for _, bad := range []int{0, n / 2} {
+		var ran [2]bool
+		got := func() (p any) {
+			defer func() { p = recover() }()
+			halves(n, sensBlock, func(r0, r1 int) {
+				if r0 == bad {
+					panic("a fault in the half from " + strconv.Itoa(bad))
+				}
+				time.Sleep(10 * time.Millisecond) // the other half ends after the fault
+				ran[r0/(n/2)] = true
+			})
+			return nil
+		}()
+		if want := "a fault in the half from " + strconv.Itoa(bad); got != want {
+			t.Errorf("the caller recovered %v, want %q", got, want)
+		}
+		if other := 1 - bad/(n/2); !ran[other] {
+			t.Errorf("halves returned before the half without the fault (from %d) ended", other*n/2)
+		}
+	}
 }
