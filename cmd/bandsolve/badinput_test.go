@@ -223,6 +223,7 @@ func badCases() []badCase {
 			writeFile(t, filepath.Join(w, "misspelt.bsr"), "# run 7\ndata "+filepath.Join(badDir, "good.csv")+"\nkindd single-beam\n")
 		}, code: 2, want: []string{"misspelt.bsr:3:1:", `unknown keyword "kindd"`, `did you mean "kind"?`}},
 
+		{name: "command file pattern that matches nothing", cmd: "run", args: []string{"W/runs/*.bsr"}, code: 2, want: []string{"runs/*.bsr: no file matches this pattern", "check the folder and the pattern"}},
 		{name: "command file that is not there", cmd: "run", args: []string{"W/nothing.bsr"}, code: 1, want: []string{"nothing.bsr: cannot read: no such file or directory", "check the command file's path"}},
 
 		// Blanks.

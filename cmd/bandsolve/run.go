@@ -144,7 +144,7 @@ func runRun(args []string, st pipeline.Streams) int {
 		if _, err := os.Stat(a); err != nil && strings.ContainsAny(a, "*?[") {
 			m, gerr := filepath.Glob(a)
 			if gerr != nil || len(m) == 0 {
-				results = append(results, outcome{file: a, status: "failed", detail: "no file matches this pattern", code: exitUsage})
+				results = append(results, outcome{file: a, status: "failed", detail: "no file matches this pattern; check the folder and the pattern", code: exitUsage})
 				continue
 			}
 			files = append(files, m...)
@@ -176,6 +176,10 @@ func runRun(args []string, st pipeline.Streams) int {
 		}
 	}
 	if !batch {
+		if len(files) == 0 && len(results) == 1 {
+			// A pattern that matched nothing: no run to tell it.
+			fmt.Fprintf(st.Err, "bandsolve run: %s: %s\n", results[0].file, results[0].detail)
+		}
 		return code
 	}
 	w := st.Out
