@@ -100,6 +100,20 @@ func TestEarlyDataFitIsDataStartsFit(t *testing.T) {
 	}
 	end()
 	r.SetAside = nil
+
+	// Other initial concentrations on the same data (newKinetics takes
+	// those the resolved profiles show before t0, tryC0): c(t) starts from
+	// c0 (the definition of the initial-value problem), so the model and
+	// its fit are others. Only the options tell (sameFitOptions).
+	kn3 := settings()
+	kn3.C0 = append([]float64(nil), kn3.C0...)
+	kn3.C0[0], kn3.C0[1] = 0.9*kn3.C0[0], 0.1*kn3.C0[0]
+	end = kn3.startBatch()
+	if e.take(r, kn3, first(kn3)) != nil {
+		t.Errorf("the early fit was taken for the initial concentrations %v", kn3.C0)
+	}
+	end()
+
 	end = kn2.startBatch()
 	if e.take(r, kn2, first(kn2)) == nil {
 		t.Error("the early fit was not taken once the data were as it found them")
