@@ -78,6 +78,23 @@ func TestBorrowedDifferenceIsTheAssembledOne(t *testing.T) {
 	if !reflect.DeepEqual(scr, reread) || math.Float64bits(scr.Sum()) != math.Float64bits(reread.Sum()) {
 		t.Errorf("screen made while writing %+v, by reading the rows again %+v", scr, reread)
 	}
+	// And with a value that is not finite, which the screen must report
+	// where it is, as reading the row again does (infinities: a NaN's sum of
+	// squares, NaN, would not compare equal; svd's TestWrittenScreenIsRowByRow
+	// has one).
+	for _, bad := range []float64{math.Inf(1), math.Inf(-1)} {
+		spoilt := *r
+		spoilt.D = mat.DenseCopyOf(r.D)
+		spoilt.D.Set(n/3, m/2, bad)
+		got, scr := scaledDifferenceInto(mat.NewDense(n, m, nil), &spoilt, g)
+		reread := svd.NewScreen(n, m, true)
+		for i := 0; i < n; i++ {
+			reread.Row(i, got.RawRowView(i))
+		}
+		if !reflect.DeepEqual(scr, reread) {
+			t.Errorf("%v in the data: screen made while writing %+v, by reading the rows again %+v", bad, scr, reread)
+		}
+	}
 	worst := 0.0
 	for i := 0; i < n; i++ {
 		for j := 0; j < m; j++ {
