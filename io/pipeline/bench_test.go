@@ -12,8 +12,10 @@ import (
 	"path/filepath"
 	"runtime"
 	"runtime/pprof"
+	"runtime/trace"
 	"strconv"
 	"strings"
+	"syscall"
 	"testing"
 	"time"
 
@@ -383,10 +385,24 @@ type phaseLog struct {
 	// hwm is the process's peak resident set (MB) when each phase ended:
 	// where a run's memory peak falls.
 	hwm []float64
+	// faults are the process's minor page faults at the start of each
+	// phase: memory touched for the first time (docs/performance.md,
+	// Machine), about 3.5 ms per MB (256 faults) on this kind of machine.
+	faults []float64
 }
 
 func newPhaseLog() *phaseLog {
 	return &phaseLog{start: wallNow(), cpu0: cputime.Process()}
+}
+
+// minorFaults is the process's count of minor page faults so far (0 where
+// getrusage fails).
+func minorFaults() float64 {
+	var u syscall.Rusage
+	if syscall.Getrusage(syscall.RUSAGE_SELF, &u) != nil {
+		return 0
+	}
+	return float64(u.Minflt)
 }
 
 func wallNow() float64 { return float64(time.Now().UnixNano()) / 1e9 }
@@ -409,10 +425,12 @@ func (p *phaseLog) Write(b []byte) (int, error) {
 		}
 		p.names, p.wall, p.cpu = append(p.names, name), append(p.wall, w), append(p.cpu, c)
 		p.hwm = append(p.hwm, peakRSS())
+		p.faults = append(p.faults, minorFaults())
 		// The phase's name labels the CPU profile's samples of Run's
 		// goroutine and of the goroutines it starts from now on (they
 		// inherit it): pprof -tagfocus phase=NAME shows one phase.
 		pprof.SetGoroutineLabels(pprof.WithLabels(context.Background(), pprof.Labels("phase", name)))
+		trace.Log(context.Background(), "phase", name)
 	}
 	return len(b), nil
 }
@@ -448,10 +466,13 @@ func (p *phaseLog) String() string {
 	names, wall, cpu := p.durations()
 	var b strings.Builder
 	for i := range names {
-		fmt.Fprintf(&b, "  %-32s %7.3f s wall %7.3f s CPU %6.0f MB peak RSS\n", names[i], wall[i], cpu[i], p.hwm[i+1])
+		fmt.Fprintf(&b, "  %-32s %7.3f s wall %7.3f s CPU %6.0f MB peak RSS %6.1f MB faulted\n", names[i], wall[i], cpu[i], p.hwm[i+1], (p.faults[i+1]-p.faults[i])*pageMB)
 	}
 	return b.String()
 }
+
+// pageMB is one page in MB.
+var pageMB = float64(os.Getpagesize()) / (1 << 20)
 
 // parseCPU is the CPU time of the last parse wholeRun timed, parseHWM the
 // peak resident set (MB) after it.
@@ -463,6 +484,7 @@ var parseCPU, parseHWM float64
 // the figure of merit, since both suffer alike from other load on a shared
 // machine.
 func wholeRun(b *testing.B, series, blank, out string) (parse, whole float64, log *phaseLog, r *Result) {
+	trace.Log(context.Background(), "phase", "parse alone")
 	t0, c0 := time.Now(), cputime.Process()
 	if _, err := spectra.ReadMatrixCSV(series); err != nil {
 		b.Fatal(err)
