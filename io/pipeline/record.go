@@ -412,22 +412,44 @@ func knownSpectrumFiles(s *Settings) []string {
 // HashFile returns a regular file's size and SHA-256 (hex). A device,
 // FIFO or socket is refused by name: /dev/zero would never end.
 func HashFile(path string) (int64, string, error) {
-	st, err := os.Stat(path)
-	if err != nil {
-		return 0, "", err
-	}
-	if !st.Mode().IsRegular() {
-		return 0, "", fmt.Errorf("%s: is %s, not a regular file; refused", path, spectra.KindOf(st.Mode()))
-	}
-	f, err := os.Open(path)
+	f, err := openRegular(path)
 	if err != nil {
 		return 0, "", err
 	}
 	defer f.Close()
-	if st, err := f.Stat(); err != nil || !st.Mode().IsRegular() {
-		return 0, "", fmt.Errorf("%s: not a regular file; refused", path)
-	}
 	return hashStream(f, path)
+}
+
+// hashFileYielding is HashFile, reading and hashing a piece at a time
+// with runtime.Gosched after each (hashYielding).
+func hashFileYielding(path string) (int64, string, error) {
+	f, err := openRegular(path)
+	if err != nil {
+		return 0, "", err
+	}
+	defer f.Close()
+	return hashYielding(f, path)
+}
+
+// openRegular opens path for reading when it is a regular file, checked
+// before and after the opening.
+func openRegular(path string) (*os.File, error) {
+	st, err := os.Stat(path)
+	if err != nil {
+		return nil, err
+	}
+	if !st.Mode().IsRegular() {
+		return nil, fmt.Errorf("%s: is %s, not a regular file; refused", path, spectra.KindOf(st.Mode()))
+	}
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	if st, err := f.Stat(); err != nil || !st.Mode().IsRegular() {
+		f.Close()
+		return nil, fmt.Errorf("%s: not a regular file; refused", path)
+	}
+	return f, nil
 }
 
 // inputSums are the size and SHA-256 of data files, hashed on one goroutine
@@ -435,8 +457,9 @@ func HashFile(path string) (int64, string, error) {
 // other writers, and takes their sums from here (waiting for them) rather
 // than reading the files again then.
 type inputSums struct {
-	done chan struct{}
-	sums map[string]fileSum // by absolute path; read only once done is closed
+	done  chan struct{}
+	paths []string           // the files begun, in order
+	sums  map[string]fileSum // by absolute path; read only once done is closed
 }
 
 type fileSum struct {
@@ -445,19 +468,51 @@ type fileSum struct {
 	err error
 }
 
-// startInputSums begins hashing paths (absolute), one after another.
+// startInputSums begins hashing paths (absolute), one after another, at a
+// low priority (hashYielding): the run needs the sums only for the manifest,
+// at its end, and the hashing is begun with the parse, whose serial scans
+// and last pieces, and the assembly's ordered sums after it, leave one core
+// idle for a while; a goroutine of the same standing would instead take a
+// third of both cores from the parse while it runs in parallel.
 func startInputSums(paths []string) *inputSums {
-	h := &inputSums{done: make(chan struct{}), sums: make(map[string]fileSum, len(paths))}
+	return startInputSumsAfter(nil, paths)
+}
+
+// startInputSumsAfter is startInputSums for the paths prev has not begun,
+// taking prev's sums once it is done (nil when prev began every path).
+func startInputSumsAfter(prev *inputSums, paths []string) *inputSums {
+	var todo []string
+	for _, p := range paths {
+		if prev == nil || !slices.Contains(prev.paths, p) {
+			todo = append(todo, p)
+		}
+	}
+	if prev != nil && len(todo) == 0 {
+		return prev
+	}
+	h := &inputSums{done: make(chan struct{}), paths: append(slices.Clone(prev.begun()), todo...), sums: make(map[string]fileSum, len(paths))}
 	go func() {
 		defer close(h.done)
-		for _, p := range paths {
+		if prev != nil {
+			prev.wait()
+			maps.Copy(h.sums, prev.sums)
+		}
+		for _, p := range todo {
 			if _, ok := h.sums[p]; !ok {
-				n, sum, err := HashFile(p)
+				n, sum, err := hashFileYielding(p)
 				h.sums[p] = fileSum{n, sum, err}
 			}
 		}
 	}()
 	return h
+}
+
+// begun are the paths h hashes (none for nil).
+func (h *inputSums) begun() []string {
+	if h == nil {
+		return nil
+	}
+	return h.paths
 }
 
 // wait returns once every file begun is hashed (at once for nil).
@@ -507,12 +562,57 @@ func dataFiles(r *Result) []string {
 	return out
 }
 
+// fileData are the --data paths that name files rather than folders, as
+// absolute paths: the files dataFiles gives that are known before the
+// series are read.
+func fileData(s *Settings) []string {
+	var out []string
+	for _, d := range s.Data {
+		p := s.Path(d)
+		if st, err := os.Stat(p); err == nil && !st.IsDir() {
+			if abs, err := filepath.Abs(p); err == nil {
+				out = append(out, abs)
+			}
+		}
+	}
+	return out
+}
+
 // hashStream returns the size and SHA-256 (hex) of what f holds.
 func hashStream(f io.Reader, name string) (int64, string, error) {
 	h := sha256.New()
 	n, err := io.Copy(h, f)
 	if err != nil {
 		return 0, "", fmt.Errorf("%s: %w", name, err)
+	}
+	return n, hex.EncodeToString(h.Sum(nil)), nil
+}
+
+// hashPiece is how much hashYielding reads and hashes between yields:
+// about 0.2 ms of SHA-256 on the benchmark machine.
+const hashPiece = 256 << 10
+
+// hashYielding is hashStream of f with runtime.Gosched after every piece,
+// which puts the goroutine on the scheduler's global queue: a processor
+// takes from there when it has nothing of its own to run (and on every
+// 61st turn otherwise), so the hashing proceeds in the time a core would
+// spend idle and gives way to the run's own goroutines. The same bytes in
+// the same order: the same sum.
+func hashYielding(f io.Reader, name string) (int64, string, error) {
+	h := sha256.New()
+	buf := make([]byte, hashPiece)
+	var n int64
+	for {
+		k, err := io.ReadFull(f, buf)
+		h.Write(buf[:k])
+		n += int64(k)
+		if err == io.EOF || err == io.ErrUnexpectedEOF {
+			break
+		}
+		if err != nil {
+			return 0, "", fmt.Errorf("%s: %w", name, err)
+		}
+		runtime.Gosched()
 	}
 	return n, hex.EncodeToString(h.Sum(nil)), nil
 }

@@ -2,11 +2,13 @@ package pipeline
 
 import (
 	"bytes"
+	"crypto/sha256"
 	"fmt"
 	"os"
 	"path/filepath"
 	"reflect"
 	"runtime"
+	"slices"
 	"strings"
 	"testing"
 
@@ -254,5 +256,60 @@ func TestFolderRunHashesItsDataBeforeReturning(t *testing.T) {
 	}
 	if plain.inputSums != nil {
 		t.Error("Run hashed the data files, though it writes no manifest")
+	}
+}
+
+// The low-priority hashing reads and hashes a piece at a time: a message
+// longer than several pieces gives its SHA-256 all the same. One million
+// times "a" is FIPS 180-2's third example (appendix B.3; digest quoted
+// from memory, and checked here against crypto/sha256 too), about 3.8
+// pieces; "abc" is its first (B.1), less than one piece.
+func TestHashYieldingIsSHA256(t *testing.T) {
+	million := bytes.Repeat([]byte("a"), 1_000_000)
+	cases := []struct {
+		name string
+		data []byte
+		want string
+	}{
+		{"abc", []byte("abc"), "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"},
+		{"a million a", million, "cdc76e5c9914fb9281a1c7e284d73e67f1809a48a497200e046d39ccc7112cd0"},
+		{"whole pieces", million[:2*hashPiece], fmt.Sprintf("%x", sha256.Sum256(million[:2*hashPiece]))},
+		{"empty", nil, "e3b0c44298fc1c149afbf4c8996fb92427ae41e4649b934ca495991b7852b855"},
+	}
+	for _, c := range cases {
+		if got := fmt.Sprintf("%x", sha256.Sum256(c.data)); got != c.want {
+			t.Fatalf("%s: crypto/sha256 gives %s, the quoted digest is %s", c.name, got, c.want)
+		}
+		p := filepath.Join(t.TempDir(), "data")
+		writeFile(t, p, c.data)
+		n, sum, err := hashFileYielding(p)
+		if err != nil || n != int64(len(c.data)) || sum != c.want {
+			t.Errorf("%s: %d bytes, %s, %v; want %d bytes, %s", c.name, n, sum, err, len(c.data), c.want)
+		}
+	}
+}
+
+// Sums begun after others take the earlier ones' and hash only the files
+// those did not begin; when every file was begun the earlier sums serve.
+// The digests are checked against HashFile's (FIPS 180-2 above).
+func TestInputSumsAfterTakeTheEarlierOnes(t *testing.T) {
+	dir := t.TempDir()
+	a, b := filepath.Join(dir, "a.csv"), filepath.Join(dir, "b.csv")
+	writeFile(t, a, []byte("abc"))
+	writeFile(t, b, []byte("abcd"))
+	first := startInputSums([]string{a})
+	if got := startInputSumsAfter(first, []string{a}); got != first {
+		t.Error("sums of files all begun were begun again")
+	}
+	both := startInputSumsAfter(first, []string{a, b})
+	both.wait()
+	if len(both.sums) != 2 || !slices.Equal(both.begun(), []string{a, b}) {
+		t.Fatalf("sums of %v, begun %v; want both files", both.sums, both.begun())
+	}
+	for _, p := range []string{a, b} {
+		n, sum, err := HashFile(p)
+		if got := both.sums[p]; err != nil || got.err != nil || got.n != n || got.sum != sum {
+			t.Errorf("%s: %d bytes %s (%v), HashFile gives %d bytes %s (%v)", p, got.n, got.sum, got.err, n, sum, err)
+		}
 	}
 }

@@ -44,7 +44,7 @@ type Result struct {
 	Started     time.Time  // when Run began (for the manifest)
 	Supplied    []string   // files the command staged before the results (the demo's data)
 	summaryJSON []byte     // summary printed with --json, made before the commit
-	inputSums   *inputSums // the inputs' SHA-256, hashed beside the writers (finish)
+	inputSums   *inputSums // the inputs' SHA-256, hashed beside the run (runForFolder) or the writers (finish)
 	Experiments []*Experiment
 	AxisName    string
 	Axis        []float64
@@ -146,11 +146,13 @@ type Result struct {
 func Run(s *Settings, log io.Writer) (*Result, error) { return run(s, log, false) }
 
 // runForFolder is Run for a command that writes an output folder, whose
-// manifest lists every data file's SHA-256. Reading them again is begun as
-// soon as the data are read, so that it takes the core the factor analysis
-// leaves idle (it keeps 1.2 of 2 busy) rather than a writer's; the run
-// waits for it before it returns, on every path, so that no hashing
-// outlives the run, and finish takes the sums.
+// manifest lists every data file's SHA-256. Reading them again is begun
+// with the parse, at a low priority (startInputSums): it takes the time a
+// core would be idle in the reading (the parse's serial scans and last
+// pieces, the assembly's ordered sums) rather than a share of the factor
+// analysis, which keeps both cores busy; the run waits for it before it
+// returns, on every path, so that no hashing outlives the run, and finish
+// takes the sums.
 func runForFolder(s *Settings, log io.Writer) (*Result, error) { return run(s, log, true) }
 
 func run(s *Settings, log io.Writer, hashInputs bool) (*Result, error) {
@@ -185,6 +187,11 @@ func run(s *Settings, log io.Writer, hashInputs bool) (*Result, error) {
 	}
 	if refFile != "" {
 		folder.Exclude = append(folder.Exclude, s.Path(refFile))
+	}
+	if hashInputs {
+		// Begun with the parse, at a low priority (startInputSums).
+		r.inputSums = startInputSums(fileData(s))
+		defer func() { r.inputSums.wait() }()
 	}
 	series, kind, err := loadSeries(s, r, folder, kind, log)
 	if err != nil {
@@ -227,8 +234,8 @@ func run(s *Settings, log io.Writer, hashInputs bool) (*Result, error) {
 	}
 
 	if hashInputs {
-		r.inputSums = startInputSums(dataFiles(r))
-		defer r.inputSums.wait()
+		// A folder's spectrum files are known now.
+		r.inputSums = startInputSumsAfter(r.inputSums, dataFiles(r))
 		if s.Report != "off" {
 			r.ahead = startAhead()
 			defer r.ahead.wait()
