@@ -1908,6 +1908,7 @@ func printKinetics(r *Result, w io.Writer) {
 		}
 		fmt.Fprintln(w)
 	}
+	fmt.Fprintf(w, "    (± one standard error; * the fit reported in summary.json)\n")
 	if kn.Amplitudes {
 		for _, st := range kn.Scheme.Steps {
 			if st.Order > 1 {

@@ -125,3 +125,20 @@ func TestUnboundedRangeOnTheTerminal(t *testing.T) {
 		}
 	}
 }
+
+// A ± figure says what it is: GUM (ISO/IEC Guide 98-3, 7.2.2, from memory)
+// asks that a result "± u" state that u is a standard uncertainty. The
+// kinetics block of the demo says its ± are one standard error, and what
+// the * beside a fit marks.
+func TestKineticsBlockSaysWhatPlusMinusIs(t *testing.T) {
+	_, r := demoSpecies(t)
+	var b bytes.Buffer
+	PrintTable(r, &b)
+	out := b.String()
+	if !strings.Contains(out, " ± ") {
+		t.Fatalf("no ± in the table:\n%s", out)
+	}
+	if !strings.Contains(out, "(± one standard error; * the fit reported in summary.json)") {
+		t.Errorf("the table does not say what ± and * mean:\n%s", out)
+	}
+}
