@@ -15,15 +15,18 @@ import (
 // changes) is then at most lead units, where running everything at once
 // made all of it; the processors stay busy as long as the units ahead
 // keep them so. Each unit must write only its own results: which
-// goroutine runs it changes nothing.
+// goroutine runs it changes nothing. A unit's panic on a worker is raised
+// again on the caller when it waits for that unit: on the worker's
+// goroutine it would end the program, past the caller's recovery.
 type inOrder struct {
 	mu      sync.Mutex
 	cond    *sync.Cond
 	units   []func()
 	started []bool
 	done    []bool
-	next    int // the first unit no worker has looked at
-	waited  int // the unit the caller waits for, or last waited for
+	fault   []any // a unit's panic on a worker, for wait
+	next    int   // the first unit no worker has looked at
+	waited  int   // the unit the caller waits for, or last waited for
 	lead    int
 	stopped bool
 	wg      sync.WaitGroup
@@ -33,7 +36,7 @@ type inOrder struct {
 // done with the units.
 func startInOrder(units []func()) *inOrder {
 	w := min(runtime.GOMAXPROCS(0), len(units))
-	o := &inOrder{units: units, started: make([]bool, len(units)), done: make([]bool, len(units)), lead: max(w, 1)}
+	o := &inOrder{units: units, started: make([]bool, len(units)), done: make([]bool, len(units)), fault: make([]any, len(units)), lead: max(w, 1)}
 	o.cond = sync.NewCond(&o.mu)
 	for g := 0; g < w; g++ {
 		o.wg.Add(1)
@@ -61,16 +64,23 @@ func (o *inOrder) work() {
 		}
 		o.started[u] = true
 		o.mu.Unlock()
-		o.units[u]()
+		p := runUnit(o.units[u])
 		o.mu.Lock()
-		o.done[u] = true
+		o.done[u], o.fault[u] = true, p
 		o.cond.Broadcast()
 		o.mu.Unlock()
 	}
 }
 
-// wait returns once unit u has run; a unit no worker will start (after
-// stop) is run on the caller.
+// runUnit runs f and returns its panic, nil when it returned.
+func runUnit(f func()) (p any) {
+	defer func() { p = recover() }()
+	f()
+	return nil
+}
+
+// wait returns once unit u has run, or panics with its panic; a unit no
+// worker will start (after stop) is run on the caller.
 func (o *inOrder) wait(u int) {
 	o.mu.Lock()
 	if u > o.waited {
@@ -82,7 +92,11 @@ func (o *inOrder) wait(u int) {
 	}
 	inline := !o.done[u]
 	o.started[u] = true
+	p := o.fault[u]
 	o.mu.Unlock()
+	if p != nil {
+		panic(p)
+	}
 	if inline {
 		o.units[u]()
 		o.mu.Lock()

@@ -66,3 +66,43 @@ func TestInOrderRunsAheadWithinLead(t *testing.T) {
 		}
 	}
 }
+
+// A fault (a panic) in a unit a worker runs reaches the caller when it
+// waits for that unit, where the run's recovery (the one a batch puts
+// around each run, cmd/bandsolve runOne) sees it, instead of ending the
+// program from the worker's goroutine: a panic not recovered on the
+// goroutine it happens on ends the program (The Go Programming Language
+// Specification, Handling panics). The units before it are taken as
+// usual, and stop still returns.
+func TestInOrderFaultReachesTheCaller(t *testing.T) {
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	for _, procs := range []int{1, 2} {
+		runtime.GOMAXPROCS(procs)
+		const n, bad = 6, 3
+		results := make([]int, n)
+		units := make([]func(), n)
+		for u := range units {
+			units[u] = func() {
+				if u == bad {
+					panic("a fault in unit 3")
+				}
+				results[u] = u + 1
+			}
+		}
+		o := startInOrder(units)
+		got := func() (p any) {
+			defer func() { p = recover() }()
+			for u := 0; u < n; u++ {
+				o.wait(u)
+				if results[u] != u+1 {
+					t.Errorf("GOMAXPROCS %d: unit %d's result %d after wait", procs, u, results[u])
+				}
+			}
+			return nil
+		}()
+		o.stop()
+		if got != "a fault in unit 3" {
+			t.Errorf("GOMAXPROCS %d: the caller recovered %v, want the fault of unit %d", procs, got, bad)
+		}
+	}
+}
