@@ -129,7 +129,15 @@ func buildFrom(f *Folder, figs []Figure, problems []string) ([]byte, error) {
 	if f.Manifest != nil {
 		v.ManifestRows, v.ManifestText, v.ManifestDropped = manifestView(f.Manifest)
 	}
+	// Room for the figures' drawings, which are most of the page, and some
+	// more: a buffer grown by doubling from nothing made and copied about
+	// twice the page's megabytes, memory new to the writing phase.
+	size := 64 << 10
+	for _, fg := range figs {
+		size += len(fg.SVG)
+	}
 	var b bytes.Buffer
+	b.Grow(size)
 	if err := page.Execute(&b, v); err != nil {
 		return nil, fmt.Errorf("rendering report: %w", err)
 	}
