@@ -148,11 +148,13 @@ func (a *ahead) aheadResults(r *Result, st *output.Stage) {
 	bands, tu := r.early.bands, report.TimeUnitRecord(r.Settings.TimeUnit)
 	a.part = startLater(func() (p partTables) {
 		runTask(func() {
-			if b, ok := bands.get(); ok {
-				files["uniqueness.csv"] = b
-			}
+			// The other tables are parsed while uniqueness.csv, which
+			// both figures shade, is still being formatted.
 			if p = partFolder(files); p.folder != nil {
 				p.folder.AsRun = tu
+				if b, ok := bands.get(); ok {
+					p.folder.Bands = p.table("uniqueness.csv", b)
+				}
 			}
 		})
 		return p
@@ -199,27 +201,32 @@ type partTables struct {
 // bytes) as report.LoadStaged reads them: summary.json decoded, each
 // table parsed under its name (a table that does not parse is left out,
 // as LoadStaged leaves it out). No folder when summary.json does not
-// decode.
+// decode. uniqueness.csv is added by the caller (table).
 func partFolder(files map[string][]byte) partTables {
 	p := partTables{folder: &report.Folder{Summary: &report.Summary{}}, parsed: map[string]report.Parsed{}}
 	if json.Unmarshal(files["summary.json"], p.folder.Summary) != nil {
 		return partTables{}
 	}
 	table := func(name string) *report.Table {
-		b, ok := files[name]
-		if !ok {
-			return nil
+		if b, ok := files[name]; ok {
+			return p.table(name, b)
 		}
-		t, err := report.ParseTable(name, b)
-		if err != nil {
-			return nil
-		}
-		p.parsed[name] = report.Parsed{Bytes: b, Table: t}
-		return t
+		return nil
 	}
 	f := p.folder
-	f.Spectra, f.Profiles, f.Kinetics, f.Bands = table("spectra.csv"), table("profiles.csv"), table("kinetics.csv"), table("uniqueness.csv")
+	f.Spectra, f.Profiles, f.Kinetics = table("spectra.csv"), table("profiles.csv"), table("kinetics.csv")
 	return p
+}
+
+// table is the file name holding b parsed as report.LoadStaged parses it,
+// kept with its bytes (nil when it does not parse).
+func (p partTables) table(name string, b []byte) *report.Table {
+	t, err := report.ParseTable(name, b)
+	if err != nil {
+		return nil
+	}
+	p.parsed[name] = report.Parsed{Bytes: b, Table: t}
+	return t
 }
 
 // parsed are the tables parsed ahead (efa.csv, and those aheadResults
