@@ -426,8 +426,9 @@ func (p *fitProblem) residual(theta, r []float64) error {
 		proj := sized(&sc.proj, p.n, w)
 		product.MulTo(proj, u, product.MulT(u, p.dred))
 		for i := 0; i < p.n; i++ {
-			for j := 0; j < w; j++ {
-				r[i*w+j] = p.dred.At(i, j) - proj.At(i, j)
+			dr, pr, ri := p.dred.RawRowView(i)[:w], proj.RawRowView(i)[:w], r[i*w:(i+1)*w]
+			for j, v := range dr {
+				ri[j] = v - pr[j]
 			}
 		}
 		return nil

@@ -146,11 +146,8 @@ func LevenbergMarquardt(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, s
 		}
 		res.Iterations++
 		// QR of J (Householder, LAPACK geqrf) and Qᵀr.
-		for i := 0; i < m; i++ {
-			for j := 0; j < n; j++ {
-				qrA[i*n+j] = J.At(i, j)
-			}
-		}
+		// J is m × n with stride n (NewDense): its raw data is qrA's layout.
+		copy(qrA, J.RawMatrix().Data[:m*n])
 		a := blas64.General{Rows: m, Cols: n, Stride: n, Data: qrA}
 		work := make([]float64, 1)
 		lapack64.Geqrf(a, tau, work, -1)
@@ -169,10 +166,11 @@ func LevenbergMarquardt(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, s
 			}
 		}
 		colNorm := make([]float64, n)
+		jd := J.RawMatrix().Data
 		for j := 0; j < n; j++ {
 			var s float64
 			for i := 0; i < m; i++ {
-				v := J.At(i, j)
+				v := jd[i*n+j]
 				s += v * v
 			}
 			colNorm[j] = math.Sqrt(s)
@@ -299,11 +297,15 @@ func LevenbergMarquardt(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, s
 	return finishLM(res, x, r, fnorm, J), nil
 }
 
+// finishLM fills res at x. The residuals and the Jacobian are handed over,
+// not copied: LevenbergMarquardt made them and reads neither once it
+// returns (at 2000 × 31 reduced data points and five parameters a copy was
+// 2.5 MB per run).
 func finishLM(res *LMResult, x, r []float64, fnorm float64, J *mat.Dense) *LMResult {
 	res.X = append([]float64(nil), x...)
-	res.Residual = append([]float64(nil), r...)
+	res.Residual = r
 	res.SSR = fnorm * fnorm
-	res.Jacobian = mat.DenseCopyOf(J)
+	res.Jacobian = J
 	return res
 }
 
