@@ -6,7 +6,6 @@ import (
 	"math"
 	"sort"
 	"strings"
-	"sync"
 	"sync/atomic"
 
 	"github.com/bandsolve/bandsolve/internal/product"
@@ -131,20 +130,15 @@ type fitProblem struct {
 	dred *mat.Dense
 
 	n, q int
-
-	// scratch holds *fitScratch: the n-row buffers of the residuals and
-	// Jacobians, one set per Levenberg–Marquardt run under way (solve runs
-	// its starts at once).
-	scratch sync.Pool
 }
 
 // fitScratch is the n-row matrices one residual or Jacobian evaluation
 // of a fit writes and lets go: in a data fit at 2000 rows about 4 MB per
-// iteration, all of it fresh memory the runtime cleared (and, after the
-// collector handed it back, faulted in again) for every evaluation.
-// Reused, each holds the same values as the fresh matrix it replaces:
-// every entry is overwritten, or cleared first where the writer leaves
-// some alone.
+// iteration, all of it fresh memory the runtime cleared for every
+// evaluation. Each Levenberg–Marquardt run has its own (solve runs its
+// starts at once) and drops it when it ends. Reused, each holds the same
+// values as the fresh matrix it replaces: every entry is overwritten, or
+// cleared first where the writer leaves some alone.
 type fitScratch struct {
 	proj, res, ds, col *mat.Dense // n × w, the reduced data's width
 	wc                 *mat.Dense // n × q: √A C
@@ -152,17 +146,6 @@ type fitScratch struct {
 	c                  *mat.Dense // the sensitivities' C and ∂C/∂ln θ
 	dc                 []*mat.Dense
 }
-
-// getScratch returns a scratch set for one evaluation; putScratch gives
-// it back once nothing it holds is read any more.
-func (p *fitProblem) getScratch() *fitScratch {
-	if sc, ok := p.scratch.Get().(*fitScratch); ok {
-		return sc
-	}
-	return &fitScratch{}
-}
-
-func (p *fitProblem) putScratch(sc *fitScratch) { p.scratch.Put(sc) }
 
 // sized returns *m as an r × c matrix, made when it is missing or of
 // another shape; its entries are whatever the last user left.
@@ -408,7 +391,14 @@ func projector(m *mat.Dense) (*mat.Dense, int, error) {
 	return mat.DenseCopyOf(u.Slice(0, r, 0, rank)), rank, nil
 }
 
+// residual writes the fit's residuals at theta into r, on buffers of its
+// own.
 func (p *fitProblem) residual(theta, r []float64) error {
+	return p.residualWith(&fitScratch{}, theta, r)
+}
+
+// residualWith is residual with its n-row matrices in sc.
+func (p *fitProblem) residualWith(sc *fitScratch, theta, r []float64) error {
 	_, m, err := p.model(theta)
 	if err != nil {
 		return err
@@ -421,8 +411,6 @@ func (p *fitProblem) residual(theta, r []float64) error {
 		// r = (I − U Uᵀ) D_red
 		// By internal/product: the sums of mat.Dense.Mul, bit for bit.
 		_, w := p.dred.Dims()
-		sc := p.getScratch()
-		defer p.putScratch(sc)
 		proj := sized(&sc.proj, p.n, w)
 		product.MulTo(proj, u, product.MulT(u, p.dred))
 		for i := 0; i < p.n; i++ {
@@ -587,8 +575,9 @@ func (p *fitProblem) starts(m int) ([][]float64, error) {
 	}
 	r := make([]float64, m)
 	var sc []scored
+	buf := &fitScratch{}
 	for i, th := range cands {
-		if err := p.residual(th, r); err != nil {
+		if err := p.residualWith(buf, th, r); err != nil {
 			continue
 		}
 		var ssr float64
@@ -628,7 +617,8 @@ func (p *fitProblem) solve(m int) (*LMResult, error) {
 	runs := make([]*LMResult, len(starts))
 	errs := make([]error, len(starts))
 	product.Each(len(starts), func(i int) {
-		runs[i], errs[i] = LevenbergMarquardt(p.residual, p.jacobianFunc(), starts[i], m, p.opt.LM)
+		sc := &fitScratch{} // this run's buffers, let go when it ends
+		runs[i], errs[i] = LevenbergMarquardt(func(x, r []float64) error { return p.residualWith(sc, x, r) }, p.jacobianFunc(sc), starts[i], m, p.opt.LM)
 	})
 	var best *LMResult
 	var firstErr error

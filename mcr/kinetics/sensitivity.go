@@ -353,26 +353,30 @@ func (ps *pathSens) at(t float64, y []float64, d [][]float64) {
 	}
 }
 
-// jacobianFunc returns the analytic Jacobian of the fit's residual, or nil
-// when the model is not solved exactly (higher orders, integrators forced,
-// extents): Levenberg–Marquardt then differences.
-func (p *fitProblem) jacobianFunc() JacobianFunc {
+// jacobianFunc returns the analytic Jacobian of the fit's residual, its
+// n-row matrices in sc, or nil when the model is not solved exactly
+// (higher orders, integrators forced, extents): Levenberg–Marquardt then
+// differences.
+func (p *fitProblem) jacobianFunc(sc *fitScratch) JacobianFunc {
 	if !p.s.FirstOrder() || p.opt.UseExtents || (p.opt.Sim.Method != "" && p.opt.Sim.Method != "expm") {
 		return nil
 	}
-	return p.jacobian
+	return func(theta []float64, jac *mat.Dense) error { return p.jacobianWith(sc, theta, jac) }
 }
 
 // jacobian writes ∂r/∂θ at theta into jac from the sensitivities of the
 // model columns (sensitivities), for either residual of the fit: the
 // projected data (dataJacobian) or the observed columns (profileJacobian).
 func (p *fitProblem) jacobian(theta []float64, jac *mat.Dense) error {
+	return p.jacobianWith(&fitScratch{}, theta, jac)
+}
+
+// jacobianWith is jacobian with its n-row matrices in sc.
+func (p *fitProblem) jacobianWith(sc *fitScratch, theta []float64, jac *mat.Dense) error {
 	k, c0, err := p.unpack(theta)
 	if err != nil {
 		return err
 	}
-	sc := p.getScratch()
-	defer p.putScratch(sc)
 	job := sensitivityJob{s: p.s, k: k, c0: c0, times: p.times, t0: p.opt.T0, kFree: p.kFree, c0Free: p.c0Free, buf: sc}
 	c, dc, ok := job.sensitivities()
 	if !ok {
@@ -388,7 +392,7 @@ func (p *fitProblem) jacobian(theta []float64, jac *mat.Dense) error {
 			}
 			c, dc = wc, wdc
 		}
-		return p.dataJacobianWith(sc, c, dc, jac)
+		return p.dataJacobian(sc, c, dc, jac)
 	}
 	p.profileJacobian(c, dc, jac)
 	return nil
@@ -406,14 +410,8 @@ func (p *fitProblem) jacobian(theta []float64, jac *mat.Dense) error {
 // Kaufman (BIT 1975) drops the second term, exact only at zero residual;
 // it is kept here, so the Jacobian is the derivative itself and the
 // standard errors built on it are those of the differenced one.
-func (p *fitProblem) dataJacobian(m *mat.Dense, dm []*mat.Dense, jac *mat.Dense) error {
-	sc := p.getScratch()
-	defer p.putScratch(sc)
-	return p.dataJacobianWith(sc, m, dm, jac)
-}
-
-// dataJacobianWith is dataJacobian with its n-row matrices in sc.
-func (p *fitProblem) dataJacobianWith(sc *fitScratch, m *mat.Dense, dm []*mat.Dense, jac *mat.Dense) error {
+// Its n-row matrices are written into sc.
+func (p *fitProblem) dataJacobian(sc *fitScratch, m *mat.Dense, dm []*mat.Dense, jac *mat.Dense) error {
 	u, sv, v, err := projection(m)
 	if err != nil {
 		return err

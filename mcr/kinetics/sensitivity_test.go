@@ -190,7 +190,7 @@ func TestJacobianAgainstCentralDifferences(t *testing.T) {
 				rows = n * m
 			}
 			theta := p.pack(p.k0, p.c00)
-			if p.jacobianFunc() == nil {
+			if p.jacobianFunc(&fitScratch{}) == nil {
 				t.Fatalf("%s %s: no analytic Jacobian for a first-order scheme", tc.scheme, mode)
 			}
 			got := mat.NewDense(rows, len(theta), nil)
@@ -332,22 +332,23 @@ func TestFitScratchReusedAsFresh(t *testing.T) {
 			for a := range other {
 				other[a] += 0.7 * (rng.Float64() - 0.5)
 			}
-			eval := func(p *fitProblem, th []float64) ([]float64, *mat.Dense) {
+			eval := func(p *fitProblem, sc *fitScratch, th []float64) ([]float64, *mat.Dense) {
 				r := make([]float64, rows)
-				if err := p.residual(th, r); err != nil {
+				if err := p.residualWith(sc, th, r); err != nil {
 					t.Fatal(err)
 				}
 				j := mat.NewDense(rows, len(th), nil)
-				if err := p.jacobian(th, j); err != nil {
+				if err := p.jacobianWith(sc, th, j); err != nil {
 					t.Fatal(err)
 				}
 				return r, j
 			}
-			wantR, wantJ := eval(newProblem(), theta)
 			p := newProblem()
-			eval(p, other) // leaves the buffers dirty
-			poison(p)
-			gotR, gotJ := eval(p, theta)
+			wantR, wantJ := eval(p, &fitScratch{}, theta)
+			sc := &fitScratch{}
+			eval(p, sc, other) // leaves the buffers dirty
+			poison(sc)
+			gotR, gotJ := eval(p, sc, theta)
 			if !slicesSameBits(gotR, wantR) || !slicesSameBits(gotJ.RawMatrix().Data, wantJ.RawMatrix().Data) {
 				t.Errorf("%s, %s: residual or Jacobian on reused buffers differs from fresh ones", tc.scheme, mode)
 			}
@@ -355,10 +356,9 @@ func TestFitScratchReusedAsFresh(t *testing.T) {
 	}
 }
 
-// poison fills every buffer of p's scratch set with NaN, so that an entry
-// an evaluation reads before writing shows.
-func poison(p *fitProblem) {
-	sc := p.getScratch()
+// poison fills every buffer of sc with NaN, so that an entry an
+// evaluation reads before writing shows.
+func poison(sc *fitScratch) {
 	all := append([]*mat.Dense{sc.proj, sc.res, sc.ds, sc.col, sc.wc, sc.c}, append(sc.wdc, sc.dc...)...)
 	for _, m := range all {
 		if m != nil {
@@ -368,7 +368,6 @@ func poison(p *fitProblem) {
 			}
 		}
 	}
-	p.putScratch(sc)
 }
 
 func slicesSameBits(a, b []float64) bool {
