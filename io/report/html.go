@@ -370,6 +370,32 @@ func manifestView(t *Text) (rows [][2]string, text string, dropped int) {
 	return rows, "", dropped
 }
 
+// noneBelow reports whether no criterion counts fewer than estimate.
+func noneBelow(cs []output.CriterionJSON, estimate int) bool {
+	for _, c := range cs {
+		if c.Estimate < estimate {
+			return false
+		}
+	}
+	return true
+}
+
+// nuisanceNumbers lists the nuisance factors' numbers in words with their
+// verb ("factor 3 is", "factors 3, 5 and 6 are"), or "" when there are none.
+func nuisanceNumbers(s *Summary) string {
+	var ns []string
+	for _, nf := range s.NuisanceFactors {
+		ns = append(ns, strconv.Itoa(nf.Factor))
+	}
+	switch len(ns) {
+	case 0:
+		return ""
+	case 1:
+		return "factor " + ns[0] + " is"
+	}
+	return "factors " + strings.Join(ns[:len(ns)-1], ", ") + " and " + ns[len(ns)-1] + " are"
+}
+
 // findings says in words what was found and how sure it is; checks are
 // the warnings the report itself derives from the files.
 func findings(f *Folder) (find, checks []string) {
@@ -394,6 +420,10 @@ func findings(f *Folder) (find, checks []string) {
 		}
 		if agree == len(s.RankCriteria) {
 			find = append(find, fmt.Sprintf("Rank %d: all %d criteria agree (%s).", s.RankEstimate, len(s.RankCriteria), strings.Join(each, ", ")))
+		} else if named := nuisanceNumbers(s); named != "" && noneBelow(s.RankCriteria, s.RankEstimate) {
+			// The criteria count every factor above the noise; the run
+			// examined the ones beyond the chemical count and named them.
+			find = append(find, fmt.Sprintf("Rank %d chemical: the criteria count every factor above the noise (%s); of the factors beyond, %s not chemistry (see the advice) and any others are noise correlated along the axis (see the notes).", s.RankEstimate, strings.Join(each, ", "), named))
 		} else {
 			find = append(find, fmt.Sprintf("Rank %d, but the criteria disagree (%s): look at the singular values and treat the count with care.", s.RankEstimate, strings.Join(each, ", ")))
 		}
