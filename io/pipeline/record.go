@@ -13,6 +13,7 @@ import (
 	"runtime"
 	"slices"
 	"strings"
+	"sync/atomic"
 	"time"
 
 	"github.com/bandsolve/bandsolve/io/cmdfile"
@@ -421,15 +422,19 @@ func HashFile(path string) (int64, string, error) {
 }
 
 // hashFileYielding is HashFile, reading and hashing a piece at a time
-// with runtime.Gosched after each (hashYielding).
-func hashFileYielding(path string) (int64, string, error) {
+// with runtime.Gosched after each (hashYielding), ended early with
+// errHashStopped once stop is set.
+func hashFileYielding(path string, stop *atomic.Bool) (int64, string, error) {
 	f, err := openRegular(path)
 	if err != nil {
 		return 0, "", err
 	}
 	defer f.Close()
-	return hashYielding(f, path)
+	return hashYielding(f, path, stop)
 }
+
+// errHashStopped is hashYielding's answer when it was told to stop.
+var errHashStopped = errors.New("hashing stopped")
 
 // openRegular opens path for reading when it is a regular file, checked
 // before and after the opening.
@@ -460,6 +465,9 @@ type inputSums struct {
 	done  chan struct{}
 	paths []string           // the files begun, in order
 	sums  map[string]fileSum // by absolute path; read only once done is closed
+	// stop, shared with the sums begun before, ends the hashing early
+	// (abandon): a file not finished gets no sum.
+	stop *atomic.Bool
 }
 
 type fileSum struct {
@@ -490,7 +498,10 @@ func startInputSumsAfter(prev *inputSums, paths []string) *inputSums {
 	if prev != nil && len(todo) == 0 {
 		return prev
 	}
-	h := &inputSums{done: make(chan struct{}), paths: append(slices.Clone(prev.begun()), todo...), sums: make(map[string]fileSum, len(paths))}
+	h := &inputSums{done: make(chan struct{}), paths: append(slices.Clone(prev.begun()), todo...), sums: make(map[string]fileSum, len(paths)), stop: new(atomic.Bool)}
+	if prev != nil {
+		h.stop = prev.stop
+	}
 	go func() {
 		defer close(h.done)
 		if prev != nil {
@@ -499,7 +510,10 @@ func startInputSumsAfter(prev *inputSums, paths []string) *inputSums {
 		}
 		for _, p := range todo {
 			if _, ok := h.sums[p]; !ok {
-				n, sum, err := hashFileYielding(p)
+				n, sum, err := hashFileYielding(p, h.stop)
+				if errors.Is(err, errHashStopped) {
+					return
+				}
 				h.sums[p] = fileSum{n, sum, err}
 			}
 		}
@@ -518,6 +532,16 @@ func (h *inputSums) begun() []string {
 // wait returns once every file begun is hashed (at once for nil).
 func (h *inputSums) wait() {
 	if h != nil {
+		<-h.done
+	}
+}
+
+// abandon ends the hashing at its next piece and waits for it: a run
+// that fails writes no manifest, and should not wait for a large file to
+// be read to the end first.
+func (h *inputSums) abandon() {
+	if h != nil {
+		h.stop.Store(true)
 		<-h.done
 	}
 }
@@ -598,7 +622,7 @@ const hashPiece = 256 << 10
 // 61st turn otherwise), so the hashing proceeds in the time a core would
 // spend idle and gives way to the run's own goroutines. The same bytes in
 // the same order: the same sum.
-func hashYielding(f io.Reader, name string) (int64, string, error) {
+func hashYielding(f io.Reader, name string, stop *atomic.Bool) (int64, string, error) {
 	h := sha256.New()
 	buf := make([]byte, hashPiece)
 	var n int64
@@ -613,6 +637,9 @@ func hashYielding(f io.Reader, name string) (int64, string, error) {
 			return 0, "", fmt.Errorf("%s: %w", name, err)
 		}
 		runtime.Gosched()
+		if stop.Load() {
+			return 0, "", errHashStopped
+		}
 	}
 	return n, hex.EncodeToString(h.Sum(nil)), nil
 }

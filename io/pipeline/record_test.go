@@ -10,6 +10,7 @@ import (
 	"runtime"
 	"slices"
 	"strings"
+	"sync/atomic"
 	"testing"
 
 	"github.com/bandsolve/bandsolve/io/demo"
@@ -282,7 +283,7 @@ func TestHashYieldingIsSHA256(t *testing.T) {
 		}
 		p := filepath.Join(t.TempDir(), "data")
 		writeFile(t, p, c.data)
-		n, sum, err := hashFileYielding(p)
+		n, sum, err := hashFileYielding(p, new(atomic.Bool))
 		if err != nil || n != int64(len(c.data)) || sum != c.want {
 			t.Errorf("%s: %d bytes, %s, %v; want %d bytes, %s", c.name, n, sum, err, len(c.data), c.want)
 		}
@@ -311,5 +312,26 @@ func TestInputSumsAfterTakeTheEarlierOnes(t *testing.T) {
 		if got := both.sums[p]; err != nil || got.err != nil || got.n != n || got.sum != sum {
 			t.Errorf("%s: %d bytes %s (%v), HashFile gives %d bytes %s (%v)", p, got.n, got.sum, got.err, n, sum, err)
 		}
+	}
+}
+
+// A run that fails abandons the hashing: told to stop, the hashing ends
+// after the piece it is on (a file of three pieces gives no sum), and a
+// sum asked for afterwards is HashFile's, read then (SHA-256 of three
+// pieces of "a" checked against crypto/sha256).
+func TestAbandonedSumsStopAndFallBack(t *testing.T) {
+	data := bytes.Repeat([]byte("a"), 3*hashPiece)
+	p := filepath.Join(t.TempDir(), "data.csv")
+	writeFile(t, p, data)
+	stop := new(atomic.Bool)
+	stop.Store(true)
+	if _, _, err := hashFileYielding(p, stop); err != errHashStopped {
+		t.Errorf("told to stop: %v, want errHashStopped", err)
+	}
+	h := startInputSums([]string{p})
+	h.abandon()
+	want := fmt.Sprintf("%x", sha256.Sum256(data))
+	if n, sum, err := h.hash(p); err != nil || n != int64(len(data)) || sum != want {
+		t.Errorf("after abandon: %d bytes, %s, %v; want %d bytes, %s", n, sum, err, len(data), want)
 	}
 }

@@ -155,7 +155,7 @@ func Run(s *Settings, log io.Writer) (*Result, error) { return run(s, log, false
 // takes the sums.
 func runForFolder(s *Settings, log io.Writer) (*Result, error) { return run(s, log, true) }
 
-func run(s *Settings, log io.Writer, hashInputs bool) (*Result, error) {
+func run(s *Settings, log io.Writer, hashInputs bool) (_ *Result, err error) {
 	if log == nil {
 		log = io.Discard
 	}
@@ -191,7 +191,12 @@ func run(s *Settings, log io.Writer, hashInputs bool) (*Result, error) {
 	if hashInputs {
 		// Begun with the parse, at a low priority (startInputSums).
 		r.inputSums = startInputSums(fileData(s))
-		defer func() { r.inputSums.wait() }()
+		defer func() {
+			if err != nil {
+				r.inputSums.abandon() // no manifest: do not read on
+			}
+			r.inputSums.wait()
+		}()
 	}
 	series, kind, err := loadSeries(s, r, folder, kind, log)
 	if err != nil {
