@@ -144,17 +144,7 @@ func ClassifyFactors(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOpti
 	}
 	var chemV [][]float64
 	var chem int
-	// The polynomial basis every factor's baseline share is measured
-	// against (in the metric of the column weights when there are any),
-	// formed at its first use and then shared: the same matrix for each
-	// factor (it depends on the axis and the weights only).
-	var poly *mat.Dense
-	basis := func() *mat.Dense {
-		if poly == nil {
-			poly = PolyBasis(opt.Axis, baselineOrder, opt.Col)
-		}
-		return poly
-	}
+	basis := polyBasisOnce(opt.Axis, opt.Col)
 	var smallest float64 // s² of the smallest chemical factor so far (not the mean level)
 	for j, row := range rep.Table {
 		if !row.AboveNoiseEdge || j >= len(f.S) {
@@ -279,6 +269,21 @@ func unscaleVec(x, w []float64) []float64 {
 		}
 	}
 	return out
+}
+
+// polyBasisOnce gives the polynomial basis every factor's baseline share is
+// measured against, PolyBasis(axis, baselineOrder, col) (in the metric of
+// the column weights when there are any), formed at its first use and then
+// shared: the same matrix for each factor (it depends on the axis and the
+// weights only).
+func polyBasisOnce(axis, col []float64) func() *mat.Dense {
+	var poly *mat.Dense
+	return func() *mat.Dense {
+		if poly == nil {
+			poly = PolyBasis(axis, baselineOrder, col)
+		}
+		return poly
+	}
 }
 
 // polyShareWeighted is the share of the (lightly smoothed) unscaled spectrum vector vu

@@ -104,3 +104,62 @@ func TestClassifyOutlierFactor(t *testing.T) {
 		t.Errorf("no outlier factor on spectrum 17: %+v", cr.Nuisance)
 	}
 }
+
+// The baseline share a classification measures every factor with is its
+// definition: ‖P x‖²/‖x‖², x = √B s(v) with s the 5-point moving average
+// weighted by b_j, and P the least-squares projector onto span(√B X), X the
+// polynomials up to baselineOrder on the axis (here the monomials of the
+// axis mapped to [−1, 1], which span what the Legendre polynomials span;
+// the projection solved by gonum's QR least squares, Golub & Van Loan,
+// Matrix Computations, §5.3). Column weights spread over four decades, and
+// none (b = 1); the basis the classification shares (polyBasisOnce) is
+// formed once and is the weighted one.
+func TestPolyShareIsItsDefinition(t *testing.T) {
+	rng := rand.New(rand.NewPCG(31, 37))
+	const m = 301
+	axis, v, col := make([]float64, m), make([]float64, m), make([]float64, m)
+	for j := range axis {
+		axis[j] = 1800 - 2*float64(j) // descending, as spectra often are
+		u := float64(j) / (m - 1)
+		v[j] = 0.3 - 0.5*u + 0.8*u*u*u + math.Exp(-0.5*math.Pow((axis[j]-1500)/15, 2)) + 0.01*rng.NormFloat64()
+		col[j] = math.Pow(10, 4*rng.Float64()-2)
+	}
+	for _, weights := range [][]float64{nil, col} {
+		b := weights
+		if b == nil {
+			b = make([]float64, m)
+			for j := range b {
+				b[j] = 1
+			}
+		}
+		x := mat.NewVecDense(m, nil)
+		a := mat.NewDense(m, baselineOrder+1, nil)
+		for j := range axis {
+			var s, w float64
+			for i := max(j-2, 0); i <= min(j+2, m-1); i++ {
+				s += b[i] * v[i]
+				w += b[i]
+			}
+			x.SetVec(j, math.Sqrt(b[j])*s/w)
+			tj := 2*(axis[j]-axis[m-1])/(axis[0]-axis[m-1]) - 1
+			for q := 0; q <= baselineOrder; q++ {
+				a.Set(j, q, math.Sqrt(b[j])*math.Pow(tj, float64(q)))
+			}
+		}
+		var beta, px mat.VecDense
+		if err := beta.SolveVec(a, x); err != nil {
+			t.Fatal(err)
+		}
+		px.MulVec(a, &beta)
+		want := mat.Dot(&px, &px) / mat.Dot(x, x)
+
+		basis := polyBasisOnce(axis, weights)
+		got := polyShareWeighted(v, axis, weights, basis)
+		if math.Abs(got-want) > 1e-10*want {
+			t.Errorf("weights %t: baseline share %.15g, its definition %.15g", weights != nil, got, want)
+		}
+		if basis() != basis() {
+			t.Errorf("weights %t: the shared basis is formed again at each use", weights != nil)
+		}
+	}
+}
