@@ -1430,7 +1430,7 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 			continue // the exchanged start led back to the same answer
 		}
 		s2 := best.Sigma * best.Sigma
-		free := (alt.SSR - best.SSR) / s2
+		free := tieToZero((alt.SSR-best.SSR)/s2, best.SSR/s2)
 		ks := kn.kList(alt.K)
 		what := fmt.Sprintf("k = %s instead of %s", ks, kn.kList(best.K))
 		if free < -4 {
@@ -1477,6 +1477,19 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 			best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell the order of the rate constants: %s fits as well, with free spectra (%.2g noise variances) and with non-negative ones (%.2g noise variances; slow–fast ambiguity); the reported values are the ones the resolved profiles point to", what, free, nn))
 		}
 	}
+}
+
+// tieToZero returns d, a difference of two residual sums of squares in
+// noise variances, or 0 when it is within rounding of sums of size total
+// (10⁻⁹ of it: double precision carries 16 digits, the fits' sums are built
+// from thousands of terms): exchanged rate constants with the same model
+// column span leave the same residual, and -7.6e-11 would read as a
+// negative variance.
+func tieToZero(d, total float64) float64 {
+	if math.Abs(d) <= 1e-9*math.Abs(total) {
+		return 0
+	}
+	return d
 }
 
 // refitTol is how close, in standard errors of the fit being checked, an
