@@ -127,13 +127,12 @@ func (o *inOrder) stop() {
 // The units read only what is fixed when they are made: a snapshot of
 // best, the jobs' own options and the data.
 type checkAhead struct {
-	jobs     []*dataFitJob
-	memo     []*kinetics.FitResult // the kept refit whose cost unit i makes
-	costs    []costValue
-	costed   []bool
-	best     costValue
-	bestOnce sync.Once
-	run      *inOrder
+	jobs   []*dataFitJob
+	memo   []*kinetics.FitResult // the kept refit whose cost unit i makes
+	costs  []costValue
+	costed []bool
+	best   onceCost // best's cost, made by a unit or the caller
+	run    *inOrder
 }
 
 // newCheckAhead makes the jobs (kn.dataFitJob, on the caller) and starts
@@ -174,7 +173,7 @@ func (kn *Kinetics) newCheckAhead(r *Result, best *kinetics.FitResult, opt kinet
 				return
 			}
 			if needBest {
-				ca.bestOnce.Do(func() { ca.best.v, ca.best.ok = cost(bestK, bestC0) })
+				ca.best.make(func() (v costValue) { v.v, v.ok = cost(bestK, bestC0); return v })
 			}
 			ca.costs[i].v, ca.costs[i].ok = cost(fit.K, bestC0)
 			ca.costed[i] = true
@@ -204,9 +203,34 @@ func (ca *checkAhead) cost(i int, fit *kinetics.FitResult) (costValue, bool) {
 
 // bestCost returns best's cost, made by a unit or now.
 func (ca *checkAhead) bestCost(compute func() costValue) costValue {
-	ca.bestOnce.Do(func() { ca.best = compute() })
-	return ca.best
+	return ca.best.get(compute)
 }
 
 // stop ends the units (the running ones run to their end).
 func (ca *checkAhead) stop() { ca.run.stop() }
+
+// onceCost is a cost made once, by whichever of the units and the caller
+// asks first. A unit that panicked while making it left it unmade: the
+// caller makes it then (get), where a panic is the caller's own; sync.Once
+// alone would count the call that panicked as done and leave a zero cost,
+// "not made", for the caller to take when it does not wait for that unit.
+type onceCost struct {
+	once sync.Once
+	v    costValue
+	made bool // written under once, read after it
+}
+
+// make makes the cost with f unless it was made or is being made.
+func (c *onceCost) make(f func() costValue) {
+	c.once.Do(func() { c.v = f(); c.made = true })
+}
+
+// get returns the cost, made now with compute if nothing made it before.
+// Only on the caller's goroutine.
+func (c *onceCost) get(compute func() costValue) costValue {
+	c.make(compute)
+	if !c.made {
+		c.v, c.made = compute(), true
+	}
+	return c.v
+}

@@ -106,3 +106,27 @@ func TestInOrderFaultReachesTheCaller(t *testing.T) {
 		}
 	}
 }
+
+// Best's non-negative cost is made once, by a unit run ahead or by the
+// caller (onceCost). A unit that panicked while making it must not leave it
+// made: sync.Once counts a call that panicked as done ("if f panics, Do
+// considers it to have returned", package sync documentation), and the
+// unit's panic reaches the caller only if it waits for that unit, which it
+// may not (the check starts over), so the caller would take a zero cost,
+// "not made", and say the data cannot tell the orders apart, at
+// GOMAXPROCS 2 and not at 1. The caller then makes it itself, where a
+// panic, if any, is its own.
+func TestOnceCostAfterAUnitPanicked(t *testing.T) {
+	var c onceCost
+	func() {
+		defer func() { _ = recover() }()
+		c.make(func() costValue { panic("a fault in a unit") })
+	}()
+	want := costValue{v: 12.5, ok: true}
+	if got := c.get(func() costValue { return want }); got != want {
+		t.Errorf("cost %+v after a unit's panic, want %+v made by the caller", got, want)
+	}
+	if got := c.get(func() costValue { return costValue{} }); got != want {
+		t.Errorf("cost %+v asked again, want %+v as made", got, want)
+	}
+}
