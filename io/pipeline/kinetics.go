@@ -1762,7 +1762,7 @@ func (kn *Kinetics) fitJSON(f *KineticFit) KineticFitJSON {
 	}
 	for i, name := range kn.Scheme.Species {
 		out.InitialConcentrations = append(out.InitialConcentrations, InitialConcentration{Species: name,
-			C0: round(finite(fr.C0[i])), StdErr: round(finite(fr.C0StdErr[i])), Fitted: kn.FitC0 && kn.C0[i] > 0})
+			C0: round(finite(fr.C0[i])), StdErr: round(finite(fr.C0StdErr[i])), Fitted: kn.FitC0 && kn.C0[i] > 0 && !(fr.C0Held != nil && fr.C0Held[i])})
 	}
 	for _, a := range fr.Amplitudes {
 		out.Amplitudes = append(out.Amplitudes, round(finite(a)))

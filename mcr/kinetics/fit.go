@@ -79,6 +79,11 @@ type FitResult struct {
 	// C0 is the initial concentrations used (fitted when FitC0) and C0StdErr their standard
 	// errors (0 when not fitted).
 	C0, C0StdErr []float64
+	// C0Held marks, per species, an initial concentration asked to be fitted
+	// that the residual does not depend on (with free spectra the spectra
+	// absorb its scale): Levenberg–Marquardt held it at its start, and it has
+	// no standard error. nil when none was held.
+	C0Held []bool
 	// Amplitudes has one factor per observed column (nil unless FitOptions.Amplitudes).
 	Amplitudes []float64
 	// Fitted holds the fitted observed columns (n × q), or C Sᵀ (n × m) for FitData.
@@ -730,6 +735,34 @@ func FitProfiles(s *Scheme, times []float64, observed *mat.Dense, columns []int,
 	return res, nil
 }
 
+// held reports the parameters Levenberg–Marquardt held at their start because the residual
+// does not depend on them (LMResult.Held): an initial concentration is given back as it was
+// set, marked in C0Held and said; a rate constant is said. Covariance gives them no variance
+// (their Jacobian columns are zero), so the others' standard errors are those of the fit
+// without them. It returns how many were held.
+func (p *fitProblem) held(lm *LMResult, res *FitResult) int {
+	count := 0
+	for a, h := range lm.Held {
+		if !h {
+			continue
+		}
+		count++
+		if a < len(p.kFree) {
+			j := p.kFree[a]
+			res.Warnings = append(res.Warnings, fmt.Sprintf("the rate constant of step %q is not determined by the data (the residual does not depend on it): it is held at its start %.4g and has no standard error", p.s.Steps[j].Text, res.K[j]))
+			continue
+		}
+		i := p.c0Free[a-len(p.kFree)]
+		if res.C0Held == nil {
+			res.C0Held = make([]bool, len(p.s.Species))
+		}
+		res.C0Held[i] = true
+		res.C0[i] = p.c00[i]
+		res.Warnings = append(res.Warnings, fmt.Sprintf("the initial concentration of %s is not determined by the data (the residual does not depend on it; with free spectra they absorb its scale): it is held at its start, %.4g, and has no standard error", p.s.Species[i], p.c00[i]))
+	}
+	return count
+}
+
 // result assembles everything but the fitted columns.
 func (p *fitProblem) result(lm *LMResult, sim *Simulation, model *mat.Dense, m, nLinear int) *FitResult {
 	k, c0, _ := p.unpack(lm.X)
@@ -741,6 +774,7 @@ func (p *fitProblem) result(lm *LMResult, sim *Simulation, model *mat.Dense, m, 
 	}
 	res.RMS = math.Sqrt(lm.SSR / float64(m))
 	np := p.nParams()
+	nHeld := p.held(lm, res)
 	res.DegreesOfFreedom = m - np - nLinear
 	if !lm.Converged {
 		res.Warnings = append(res.Warnings, "Levenberg–Marquardt did not converge: "+lm.Reason)
@@ -760,7 +794,7 @@ func (p *fitProblem) result(lm *LMResult, sim *Simulation, model *mat.Dense, m, 
 		if err != nil {
 			res.Warnings = append(res.Warnings, "covariance: "+err.Error())
 		} else {
-			if rank < np {
+			if rank < np-nHeld {
 				res.Warnings = append(res.Warnings, fmt.Sprintf("the Jacobian has rank %d for %d parameters: some parameter combinations are not determined by the data; their standard errors use a pseudo-inverse and are not meaningful", rank, np))
 			}
 			for a, j := range p.kFree {
@@ -774,7 +808,9 @@ func (p *fitProblem) result(lm *LMResult, sim *Simulation, model *mat.Dense, m, 
 			}
 			for b, i := range p.c0Free {
 				a := len(p.kFree) + b
-				res.C0StdErr[i] = c0[i] * math.Sqrt(math.Max(cov.At(a, a), 0))
+				if res.C0Held == nil || !res.C0Held[i] {
+					res.C0StdErr[i] = c0[i] * math.Sqrt(math.Max(cov.At(a, a), 0))
+				}
 			}
 		}
 	}

@@ -47,6 +47,11 @@ type LMResult struct {
 	Iterations, Evaluations int
 	Converged               bool
 	Reason                  string
+	// Held marks the parameters whose Jacobian column was at rounding level at x0
+	// (≤ 1e-12 × the largest column norm): the residual does not depend on them, so the
+	// iteration kept them at x0 and Jacobian holds zeros in their columns (Covariance then
+	// counts them out of the rank and gives them no variance). nil when none was.
+	Held []bool
 }
 
 // LevenbergMarquardt minimises Σ r_i(x)² from x0 with Moré's (1978) trust-region form of the
@@ -106,7 +111,8 @@ func LevenbergMarquardt(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, s
 	J := mat.NewDense(m, n, nil)
 	rp := make([]float64, m)
 	rm := make([]float64, m)
-	jacobian := func(x []float64) error {
+	var held []bool
+	jacobianAt := func(x []float64) error {
 		if jac != nil {
 			if err := jac(x, J); !errors.Is(err, ErrUseDifferences) {
 				return err
@@ -131,6 +137,14 @@ func LevenbergMarquardt(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, s
 		return nil
 	}
 
+	jacobian := func(x []float64) error {
+		if err := jacobianAt(x); err != nil {
+			return err
+		}
+		zeroHeld(J, held)
+		return nil
+	}
+
 	diag := make([]float64, n)
 	xnew := make([]float64, n)
 	rnew := make([]float64, m)
@@ -147,6 +161,11 @@ func LevenbergMarquardt(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, s
 		res.Iterations++
 		// QR of J (Householder, LAPACK geqrf) and Qᵀr.
 		// J is m × n with stride n (NewDense): its raw data is qrA's layout.
+		if res.Iterations == 1 {
+			held = heldColumns(J)
+			zeroHeld(J, held)
+			res.Held = held
+		}
 		copy(qrA, J.RawMatrix().Data[:m*n])
 		a := blas64.General{Rows: m, Cols: n, Stride: n, Data: qrA}
 		work := make([]float64, 1)
@@ -176,18 +195,10 @@ func LevenbergMarquardt(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, s
 			colNorm[j] = math.Sqrt(s)
 		}
 		if res.Iterations == 1 {
-			// A column at rounding level is a parameter the residual does not depend on (ln c0
-			// of a first-order model with free spectra): scaled by its own norm, any step
-			// along it would look short, the damped system would be singular for every λ and
-			// the trust region would close on the start. It gets scale 1, as a zero column
-			// does; the threshold is Covariance's for a zero singular value.
-			maxNorm := 0.0
-			for _, v := range colNorm {
-				maxNorm = math.Max(maxNorm, v)
-			}
+			// A held column (zeroed above) gets scale 1, as MINPACK gives a zero column.
 			for j := range diag {
 				diag[j] = colNorm[j]
-				if diag[j] <= 1e-12*maxNorm {
+				if diag[j] == 0 {
 					diag[j] = 1
 				}
 			}
@@ -233,6 +244,11 @@ func LevenbergMarquardt(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, s
 			iter++
 			var step []float64
 			par, step = lmPar(R, diag, qtr[:n], delta, par)
+			for j := range held {
+				if held[j] {
+					step[j] = 0 // rounding in the QR may leave a trace along a zero column
+				}
+			}
 			for j := range x {
 				xnew[j] = x[j] - step[j] // the step solves J δ ≈ −r with δ = −step
 			}
@@ -295,6 +311,46 @@ func LevenbergMarquardt(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, s
 		}
 	}
 	return finishLM(res, x, r, fnorm, J), nil
+}
+
+// heldColumns marks the columns of J at rounding level, ≤ 1e-12 × the largest column norm
+// (Covariance's threshold for a zero singular value): parameters the residual does not
+// depend on (ln c0 of a first-order model with free spectra, whose spectra absorb its
+// scale). Left in, such a column's rounding-level gradient walks its parameter anywhere
+// (c0 = 1e+230 and 1e-96 from the same data), and scaled by its own norm it made the damped
+// system singular for every λ, closing the trust region on the start. nil when none is.
+func heldColumns(J *mat.Dense) []bool {
+	m, n := J.Dims()
+	norm := make([]float64, n)
+	maxNorm := 0.0
+	for j := 0; j < n; j++ {
+		col := make([]float64, m)
+		mat.Col(col, j, J)
+		norm[j] = norm2(col)
+		maxNorm = math.Max(maxNorm, norm[j])
+	}
+	var held []bool
+	for j, v := range norm {
+		if maxNorm > 0 && v <= 1e-12*maxNorm {
+			if held == nil {
+				held = make([]bool, n)
+			}
+			held[j] = true
+		}
+	}
+	return held
+}
+
+// zeroHeld sets the held columns of J to zero.
+func zeroHeld(J *mat.Dense, held []bool) {
+	m, _ := J.Dims()
+	for j, h := range held {
+		if h {
+			for i := 0; i < m; i++ {
+				J.Set(i, j, 0)
+			}
+		}
+	}
 }
 
 // finishLM fills res at x. The residuals and the Jacobian are handed over,
