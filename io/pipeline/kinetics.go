@@ -438,7 +438,12 @@ func newKinetics(r *Result, c *mat.Dense) (*Kinetics, error) {
 	if seen, note := kn.c0FromProfiles(r, c); seen != nil {
 		passed = kn.tryC0(r, c, obs, seen, note, passed)
 	}
-	if passed != "" {
+	switch {
+	case strings.HasPrefix(passed, kinetics.MapNoteEveryOpposed):
+		// The rule found no assignment to keep: the map is the lowest residual's, and its
+		// profile moving against its species is a fault of the fit, not a choice.
+		r.Warnings = append(r.Warnings, "kinetics: "+passed+"; check the map with --map")
+	case passed != "":
 		// Said only when it decided, so that runs it did not change keep their bytes.
 		kn.MapSource += " among those whose profiles each move with their " + what
 		r.Notes = append(r.Notes, "kinetics: "+passed+"; --map chooses another")

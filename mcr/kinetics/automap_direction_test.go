@@ -1,6 +1,7 @@
 package kinetics
 
 import (
+	"math"
 	"strings"
 	"testing"
 
@@ -49,5 +50,29 @@ func TestAutoMapProfilesMoveWithTheirSpecies(t *testing.T) {
 	}
 	if !strings.Contains(fit.MapNote, "B=1, A=2") || !strings.Contains(fit.MapNote, "rises") {
 		t.Errorf("map note %q does not name the assignment passed over and why", fit.MapNote)
+	}
+}
+
+// TestAutoMapEveryAssignmentOpposedIsSaid: in A -> B, c_A = c0 e^(−kt) never
+// rises (the analytic first-order solution), so profiles that both rise give
+// every assignment a reactant whose profile rises. The rule that passes over
+// such assignments then has none left: the lowest residual is kept, and that
+// its map too has a profile moving against its species must be said, not
+// left as if the rule had found it sound.
+func TestAutoMapEveryAssignmentOpposedIsSaid(t *testing.T) {
+	s := mustParse(t, "A -> B")
+	times := linspace(0, 100, 40)
+	n := len(times)
+	obs := mat.NewDense(n, 2, nil)
+	for i, tt := range times {
+		obs.Set(i, 0, 0.2+0.3*(1-math.Exp(-0.03*tt)))
+		obs.Set(i, 1, 0.1+0.4*(1-math.Exp(-0.05*tt)))
+	}
+	_, fit, err := AutoMapFit(s, times, obs, FitOptions{C0: []float64{1, 0}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.HasPrefix(fit.MapNote, MapNoteEveryOpposed) || !strings.Contains(fit.MapNote, "rises where A falls") {
+		t.Errorf("map note %q: want it to say every assignment has a profile moving against its species", fit.MapNote)
 	}
 }

@@ -54,7 +54,8 @@
 // their shapes at the starting rate constants and fits only the few best, keeping the best fit
 // among those whose every observed column correlates above −0.5 in time with its model column
 // (a profile that rises is not a reactant); FitResult.MapNote says when that passed over a
-// lower residual.
+// lower residual, or (beginning MapNoteEveryOpposed) that every assignment fitted had such a
+// column and the lowest residual was kept regardless.
 //
 // All computations are serial with a fixed summation order, so results are bit-identical
 // from run to run.

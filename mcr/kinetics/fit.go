@@ -957,12 +957,22 @@ func AutoMapFit(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions)
 	if best < 0 {
 		return nil, nil, fmt.Errorf("kinetics: auto map: no assignment could be fitted: %w", firstErr)
 	}
-	if kept < 0 || kept == best {
+	if kept == best {
+		return cands[best].cols, fits[best], nil
+	}
+	if kept < 0 {
+		if _, _, opp := opposed(observed, fits[best].Model, cands[best].cols); opp {
+			fits[best].MapNote = everyOpposed(s, observed, fits[best].Model, cands[best].cols, opt.UseExtents)
+		}
 		return cands[best].cols, fits[best], nil
 	}
 	fits[kept].MapNote = passedOver(s, observed, fits[best].Model, cands[best].cols, opt.UseExtents)
 	return cands[kept].cols, fits[kept], nil
 }
+
+// MapNoteEveryOpposed begins FitResult.MapNote when every assignment fitted had a profile
+// moving against its species, so that AutoMapFit kept the lowest residual regardless.
+const MapNoteEveryOpposed = "every assignment fitted has a profile that moves against its species"
 
 // opposed reports the first observed column j whose correlation in time with
 // its model column cols[j] is below −0.5 (the two move in opposite
@@ -997,6 +1007,23 @@ func correlation(a, b []float64) float64 {
 // passedOver says which assignment with a lower residual AutoMapFit passed
 // over (cols, fitted as model) and which profile moves against its species.
 func passedOver(s *Scheme, observed, model *mat.Dense, cols []int, extents bool) string {
+	assignment, against := mapAgainst(s, observed, model, cols, extents)
+	return fmt.Sprintf("the assignment with the lowest residual, %s, was passed over: %s, so it cannot be that species; kept: the lowest residual of the assignments whose profiles each move with their species. When no assignment fits well, the profiles do not start where the model does (initial concentrations, rotational ambiguity)",
+		assignment, against)
+}
+
+// everyOpposed says that every assignment AutoMapFit fitted had a profile
+// moving against its species, so the lowest residual (cols, fitted as
+// model) was kept regardless.
+func everyOpposed(s *Scheme, observed, model *mat.Dense, cols []int, extents bool) string {
+	assignment, against := mapAgainst(s, observed, model, cols, extents)
+	return fmt.Sprintf("%s, so the lowest residual, %s, is kept although %s: the profiles do not follow the model (another scheme, other initial concentrations, or rotational ambiguity)",
+		MapNoteEveryOpposed, assignment, against)
+}
+
+// mapAgainst writes cols as an assignment (A=1, B=2) and the first of its
+// profiles that moves against its model column.
+func mapAgainst(s *Scheme, observed, model *mat.Dense, cols []int, extents bool) (assignment, against string) {
 	name := func(c int) string {
 		if extents {
 			return s.Steps[c].Text
@@ -1013,8 +1040,7 @@ func passedOver(s *Scheme, observed, model *mat.Dense, cols []int, extents bool)
 	if observed.At(n-1, j) < observed.At(0, j) {
 		rises, falls = "falls", "rises"
 	}
-	return fmt.Sprintf("the assignment with the lowest residual, %s, was passed over: component %d %s where %s %s (correlation %.2f in time), so it cannot be that species; kept: the lowest residual of the assignments whose profiles each move with their species. When no assignment fits well, the profiles do not start where the model does (initial concentrations, rotational ambiguity)",
-		strings.Join(parts, ", "), j+1, rises, name(cols[j]), falls, rho)
+	return strings.Join(parts, ", "), fmt.Sprintf("component %d %s where %s %s (correlation %.2f in time)", j+1, rises, name(cols[j]), falls, rho)
 }
 
 // autoMapFits is how many of the best-scoring assignments AutoMap fits.
