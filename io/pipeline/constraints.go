@@ -504,12 +504,16 @@ func judgeChecks(r *Result) {
 			// Only a gain a chemist would see (1 % of the lack of fit);
 			// smaller ones are the refit polishing a flat valley.
 			switch {
-			case r.SoftALS != nil:
+			case r.SoftALS != nil && c.With >= 0.99*r.SoftALS.LackOfFitPercent:
 				// The refits leave out the kinetic model the resolution
-				// holds: a lower fit without it is its cost, not a local minimum.
+				// holds: a lower fit without it is its cost, not a local
+				// minimum, when the soft resolution it started from (the
+				// same constraints, no kinetic model) fits as well.
 				if cost == nil || c.With < cost.With {
 					cost = &r.Constraints.Checks[i]
 				}
+			case r.SoftALS != nil:
+				r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (%s %.3g %%, the soft resolution --hard-model started from %.3g %%): found from the fit without %s; that resolution stopped in a local minimum, try another --init or --seed", checkMetric(r), c.With, r.SoftALS.LackOfFitPercent, c.Name))
 			default:
 				r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (%s %.3g %%, the resolution's %.3g %%): found from the fit without %s; the resolution stopped in a local minimum, try another --init or --seed", checkMetric(r), c.With, resolved, c.Name))
 			}
