@@ -451,6 +451,37 @@ func newKinetics(r *Result, c *mat.Dense) (*Kinetics, error) {
 	return kn, nil
 }
 
+// profileFitWarnings are the warnings on a fit to the resolved profiles f:
+// residuals correlated in time, and the hard–soft fit's standard errors.
+// Both send the reader to the data fit's standard errors, only when there
+// is one (dataFit: it may have failed, with a warning of its own); a run
+// with --hard-model (hardModel) is not told to try it.
+func profileFitWarnings(f *KineticFit, hardModel, dataFit bool) []string {
+	var out []string
+	if rho, ok := kinetics.Lag1(f.Fit.Residual); ok && rho > 0.5 {
+		quote := "; the data fit's are the ones to quote"
+		if !dataFit {
+			quote = ""
+		}
+		try := ", or try --hard-model"
+		switch {
+		case hardModel:
+			try = "" // a run that has it is not told to try it
+		case !dataFit:
+			try = "; try --hard-model"
+		}
+		out = append(out, fmt.Sprintf("the residuals are correlated in time (lag-1 autocorrelation %.2f; white noise gives about 0): the profiles carry a systematic error, e.g. rotational ambiguity, so these standard errors understate the uncertainty%s%s", rho, quote, try))
+	}
+	if f.Method == "hard-soft" {
+		honest := "; the data fit (variable projection) gives the honest ones"
+		if !dataFit {
+			honest = ""
+		}
+		out = append(out, "the standard errors of the hard–soft fit treat the last cycle's spectra as known and so come out too small"+honest)
+	}
+	return out
+}
+
 // tryC0 compares the profile fits with the default initial concentrations
 // and with those the pre-reaction profiles show (the map chosen again for
 // them), and keeps the better fit; the note records both residuals either
@@ -1038,19 +1069,10 @@ func fitKinetics(r *Result, log io.Writer) error {
 			kn.Primary = f
 		}
 	}
+	dataFit := kn.Fits[len(kn.Fits)-1].Method == "data"
 	for _, f := range kn.Fits {
-		if f.Observed == nil {
-			continue
-		}
-		if rho, ok := kinetics.Lag1(f.Fit.Residual); ok && rho > 0.5 {
-			try := ", or try --hard-model"
-			if s.HardModel {
-				try = "" // a run that has it is not told to try it
-			}
-			f.Fit.Warnings = append(f.Fit.Warnings, fmt.Sprintf("the residuals are correlated in time (lag-1 autocorrelation %.2f; white noise gives about 0): the profiles carry a systematic error, e.g. rotational ambiguity, so these standard errors understate the uncertainty; the data fit's are the ones to quote%s", rho, try))
-		}
-		if f.Method == "hard-soft" {
-			f.Fit.Warnings = append(f.Fit.Warnings, "the standard errors of the hard–soft fit treat the last cycle's spectra as known and so come out too small; the data fit (variable projection) gives the honest ones")
+		if f.Observed != nil {
+			f.Fit.Warnings = append(f.Fit.Warnings, profileFitWarnings(f, s.HardModel, dataFit)...)
 		}
 	}
 	for _, f := range kn.Fits {
