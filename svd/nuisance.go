@@ -40,7 +40,12 @@ type ChemicalRank struct {
 	// white as noise: noise correlated along the axis (apodisation, interpolation) lifts
 	// its largest singular values above the white-noise edge without being signal.
 	NoiseLike int
-	Sigma     float64 // noise level of the "fits to the noise" test
+	// Examined counts the factors above the noise threshold that were classified: each
+	// is chemical, in Nuisance, or in NoiseLike, so Examined − len(Nuisance) − NoiseLike
+	// is the number the classification found chemical (which may exceed Estimate, capped
+	// at the criteria's consensus).
+	Examined int
+	Sigma    float64 // noise level of the "fits to the noise" test
 	// ResidualRatio is √(tail(Estimate)/((n−k)(m−k)σ²)): 1 means the chemical factors fit
 	// the data to the noise.
 	ResidualRatio float64
@@ -150,6 +155,7 @@ func ClassifyFactors(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOpti
 		if !row.AboveNoiseEdge || j >= len(f.S) {
 			break
 		}
+		out.Examined++
 		us, v := column(f.U, j), column(f.V, j)
 		u, vu := unscaleVec(us, opt.Row), unscaleVec(v, opt.Col)
 		nf := NuisanceFactor{Factor: j + 1, SharePercent: 100 * f.S[j] * f.S[j] / f.FrobeniusSq, Time: u}

@@ -62,9 +62,17 @@ type Summary struct {
 	// MinorSpecies are minor factors that the refit test counted as species (they
 	// left nuisance_factors and raised rank_estimate and components).
 	MinorSpecies []NuisanceJSON `json:"minor_species,omitempty"`
-	Advice       []string       `json:"advice"`
-	Notes        []string       `json:"notes"`
-	Warnings     []string       `json:"warnings"`
+	// FactorsAboveNoise counts the factors above the noise threshold that the
+	// classification examined, NoiseLikeFactors those of them whose time vector is
+	// as white as noise (noise correlated along the axis). Every examined factor is
+	// chemical, in nuisance_factors or noise-like, so the report can check that the
+	// factors beyond rank_estimate are all accounted for. Nil: not classified, or a
+	// folder written before these keys.
+	FactorsAboveNoise *int     `json:"factors_above_noise,omitempty"`
+	NoiseLikeFactors  *int     `json:"noise_like_factors,omitempty"`
+	Advice            []string `json:"advice"`
+	Notes             []string `json:"notes"`
+	Warnings          []string `json:"warnings"`
 
 	// Constraints, their checks, the bands' note and the bootstrap
 	// (constraints.go; keys in docs/constraints.md).

@@ -68,6 +68,10 @@ func MakeSummary(r *Result) *Summary {
 	if r.Mode.String() == "species" && r.Settings.Closure != "off" {
 		s.Closure = r.Settings.Closure
 	}
+	if cr := r.Chemical; cr != nil {
+		above, noise := cr.Examined, cr.NoiseLike
+		s.FactorsAboveNoise, s.NoiseLikeFactors = &above, &noise
+	}
 	if r.KineticsErr != nil {
 		s.KineticsNotDone = r.KineticsErr.Error()
 	}

@@ -396,6 +396,28 @@ func nuisanceNumbers(s *Summary) string {
 	return "factors " + strings.Join(ns[:len(ns)-1], ", ") + " and " + ns[len(ns)-1] + " are"
 }
 
+// factorAccount says what the run's classification made of the factors above
+// the noise ("of the 14 factors above the noise, 2 are chemistry, factors 3
+// and 5 are not chemistry (see the advice) and the other 7 are noise
+// correlated along the axis (see the notes)"), or "" when the summary does
+// not show every one accounted for: some factor not named, or the
+// classification finding more chemical factors than rank_estimate, or a
+// folder written before factors_above_noise and noise_like_factors.
+func factorAccount(s *Summary) string {
+	named := nuisanceNumbers(s)
+	if named == "" || s.FactorsAboveNoise == nil || s.NoiseLikeFactors == nil {
+		return ""
+	}
+	above, noise := *s.FactorsAboveNoise, *s.NoiseLikeFactors
+	if above-len(s.NuisanceFactors)-noise != s.RankEstimate {
+		return ""
+	}
+	if noise == 0 {
+		return fmt.Sprintf("of the %d factors above the noise, %d are chemistry and %s not chemistry (see the advice)", above, s.RankEstimate, named)
+	}
+	return fmt.Sprintf("of the %d factors above the noise, %d are chemistry, %s not chemistry (see the advice) and the other %d are noise correlated along the axis (see the notes)", above, s.RankEstimate, named, noise)
+}
+
 // findings says in words what was found and how sure it is; checks are
 // the warnings the report itself derives from the files.
 func findings(f *Folder) (find, checks []string) {
@@ -420,10 +442,10 @@ func findings(f *Folder) (find, checks []string) {
 		}
 		if agree == len(s.RankCriteria) {
 			find = append(find, fmt.Sprintf("Rank %d: all %d criteria agree (%s).", s.RankEstimate, len(s.RankCriteria), strings.Join(each, ", ")))
-		} else if named := nuisanceNumbers(s); named != "" && noneBelow(s.RankCriteria, s.RankEstimate) {
-			// The criteria count every factor above the noise; the run
-			// examined the ones beyond the chemical count and named them.
-			find = append(find, fmt.Sprintf("Rank %d chemical: the criteria count every factor above the noise (%s); of the factors beyond, %s not chemistry (see the advice) and any others are noise correlated along the axis (see the notes).", s.RankEstimate, strings.Join(each, ", "), named))
+		} else if account := factorAccount(s); account != "" && noneBelow(s.RankCriteria, s.RankEstimate) {
+			// The criteria count factors above the noise whatever they are;
+			// the run's classification accounted for every one of them.
+			find = append(find, fmt.Sprintf("Rank %d chemical: the criteria count factors above the noise whether chemistry or not (%s); %s.", s.RankEstimate, strings.Join(each, ", "), account))
 		} else {
 			find = append(find, fmt.Sprintf("Rank %d, but the criteria disagree (%s): look at the singular values and treat the count with care.", s.RankEstimate, strings.Join(each, ", ")))
 		}
