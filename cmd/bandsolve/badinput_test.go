@@ -223,8 +223,13 @@ func badCases() []badCase {
 			writeFile(t, filepath.Join(w, "misspelt.bsr"), "# run 7\ndata "+filepath.Join(badDir, "good.csv")+"\nkindd single-beam\n")
 		}, code: 2, want: []string{"misspelt.bsr:3:1:", `unknown keyword "kindd"`, `did you mean "kind"?`}},
 
-		{name: "command file pattern that matches nothing", cmd: "run", args: []string{"W/runs/*.bsr"}, code: 2, want: []string{"runs/*.bsr: no file matches this pattern", "check the folder and the pattern"}},
+		// A missing file is a file that cannot be read: exit 1 (docs/errors.md,
+		// "Exit codes"), whether named as it is or by a pattern.
+		{name: "command file pattern that matches nothing", cmd: "run", args: []string{"W/runs/*.bsr"}, code: 1, want: []string{"runs/*.bsr: no file matches this pattern", "check the folder and the pattern"}},
 		{name: "command file that is not there", cmd: "run", args: []string{"W/nothing.bsr"}, code: 1, want: []string{"nothing.bsr: cannot read: no such file or directory", "check the command file's path"}},
+		{name: "command file naming a data file that is not there", cmd: "run", args: []string{"W/missing-data.bsr"}, setup: func(t *testing.T, w string) {
+			writeFile(t, filepath.Join(w, "missing-data.bsr"), "data nothing.csv\nkind absorbance\n")
+		}, code: 1, want: []string{"nothing.csv: cannot read: no such file or directory"}},
 
 		// Blanks.
 		{name: "blank of another length", args: []string{"--data", "B/good.csv", "--blank", "B/bad_blank_short.csv"}, code: 1, want: []string{"bad_blank_short.csv: has 7 axis points", "good.csv has 12", "--resample"}},

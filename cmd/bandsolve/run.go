@@ -144,7 +144,9 @@ func runRun(args []string, st pipeline.Streams) int {
 		if _, err := os.Stat(a); err != nil && strings.ContainsAny(a, "*?[") {
 			m, gerr := filepath.Glob(a)
 			if gerr != nil || len(m) == 0 {
-				results = append(results, outcome{file: a, status: "failed", detail: "no file matches this pattern; check the folder and the pattern", code: exitUsage})
+				// No command file there: a file that cannot be read, exit 1
+				// like a missing command file or --data (docs/errors.md).
+				results = append(results, outcome{file: a, status: "failed", detail: "no file matches this pattern; check the folder and the pattern", code: exitRun})
 				continue
 			}
 			files = append(files, m...)
