@@ -61,3 +61,27 @@ func TestHelpLayout(t *testing.T) {
 		}
 	}
 }
+
+// --time-unit converts the table's times, not the warnings, advice and
+// notes: they are summary.json's text, written once in seconds with the
+// unit beside each number, and their spectrum times are what --drop takes
+// (seconds). The behaviour is defined by TestTimeUnitOnTheTerminal
+// (io/pipeline); the help must say it, as the README does.
+func TestTimeUnitHelpSaysTextStaysInSeconds(t *testing.T) {
+	for _, cmd := range []string{"resolve", "run"} {
+		help := strings.Join(strings.Fields(run(cmd, "--help").stdout), " ")
+		i := strings.Index(help, "Flags:")
+		if j := strings.Index(help[max(i, 0):], "--time-unit"); i < 0 || j < 0 {
+			i = -1
+		} else {
+			i += j
+		}
+		if i < 0 {
+			t.Fatalf("%s --help has no --time-unit", cmd)
+		}
+		entry := help[i:min(len(help), i+400)]
+		if !strings.Contains(entry, "warnings, advice and notes stay in seconds") {
+			t.Errorf("%s --help: --time-unit does not say the warnings, advice and notes stay in seconds: %q", cmd, entry)
+		}
+	}
+}
