@@ -24,6 +24,7 @@ import (
 	"sync"
 	"sync/atomic"
 
+	"github.com/bandsolve/bandsolve/internal/fanout"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -311,7 +312,9 @@ func InBlocks(rows, work, unit int, f func(r0, r1 int)) {
 // Each calls task(0), …, task(n−1) on up to GOMAXPROCS goroutines and
 // returns when all are done: for independent jobs of unequal size (whole
 // fits), taken in turn by whichever goroutine is free. Each task must write
-// only its own results, so nothing depends on which goroutine ran it.
+// only its own results, so nothing depends on which goroutine ran it. A
+// task's panic is raised again here once all have ended (that of the lowest
+// i if several panic): on a worker's goroutine it would end the program.
 func Each(n int, task func(i int)) {
 	workers := min(runtime.GOMAXPROCS(0), n)
 	if workers <= 1 {
@@ -322,22 +325,28 @@ func Each(n int, task func(i int)) {
 	}
 	var next atomic.Int64
 	var wg sync.WaitGroup
+	var fault fanout.Fault
 	for w := 0; w < workers; w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			for i := int(next.Add(1)) - 1; i < n; i = int(next.Add(1)) - 1 {
+			i := 0
+			defer fault.Catch(&i)
+			for i = int(next.Add(1)) - 1; i < n; i = int(next.Add(1)) - 1 {
 				task(i)
 			}
 		}()
 	}
 	wg.Wait()
+	fault.Raise()
 }
 
 // FixedBlocks runs f on the blocks [k·b, min((k+1)·b, n)) covering [0, n),
 // on up to GOMAXPROCS goroutines: the blocks are the same whatever the
 // number of goroutines, so work that depends on a block's bounds (a buffer
-// per block, a maximum per block) gives the same result too.
+// per block, a maximum per block) gives the same result too. A panic in f
+// is raised again here once all blocks have ended (that of the lowest block
+// if several panic): on a worker's goroutine it would end the program.
 func FixedBlocks(n, b int, f func(r0, r1 int)) {
 	w := min(runtime.GOMAXPROCS(0), (n+b-1)/b)
 	if w < 2 {
@@ -350,14 +359,18 @@ func FixedBlocks(n, b int, f func(r0, r1 int)) {
 	}
 	close(next)
 	var wg sync.WaitGroup
+	var fault fanout.Fault
 	for g := 0; g < w; g++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			for r0 := range next {
+			r0 := 0
+			defer fault.Catch(&r0)
+			for r0 = range next {
 				f(r0, min(r0+b, n))
 			}
 		}()
 	}
 	wg.Wait()
+	fault.Raise()
 }
