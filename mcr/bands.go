@@ -8,6 +8,7 @@ import (
 	"sync"
 	"sync/atomic"
 
+	"github.com/bandsolve/bandsolve/internal/fanout"
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -210,13 +211,16 @@ func (p *bandProblem) allExtremes() ([]bandEnd, error) {
 	ends := make([]bandEnd, 2*p.k)
 	var next atomic.Int64
 	var wg sync.WaitGroup
+	var fault fanout.Fault // a search's panic, raised again below
 	for range min(runtime.GOMAXPROCS(0), len(ends)) {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
+			t := 0
+			defer fault.Catch(&t)
 			q := *p
 			q.newWork()
-			for t := int(next.Add(1)) - 1; t < len(ends); t = int(next.Add(1)) - 1 {
+			for t = int(next.Add(1)) - 1; t < len(ends); t = int(next.Add(1)) - 1 {
 				q.work.reset()
 				sign := 1.0
 				if t%2 == 1 {
@@ -227,6 +231,7 @@ func (p *bandProblem) allExtremes() ([]bandEnd, error) {
 		}()
 	}
 	wg.Wait()
+	fault.Raise()
 	for _, e := range ends {
 		if e.err != nil {
 			return nil, e.err

@@ -9,6 +9,7 @@ import (
 	"sort"
 	"sync"
 
+	"github.com/bandsolve/bandsolve/internal/fanout"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -78,11 +79,14 @@ func Bootstrap(d *mat.Dense, fit *Result, opt Options, bo BootstrapOptions) (*In
 	}
 	close(next)
 	workers := min(runtime.GOMAXPROCS(0), bo.Replicates)
+	var fault fanout.Fault // a replicate's panic, raised again below
 	for w := 0; w < workers; w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			for r := range next {
+			r := 0
+			defer fault.Catch(&r)
+			for r = range next {
 				rng := rand.New(rand.NewPCG(bo.Seed, uint64(r)+1))
 				ds := mat.DenseCopyOf(&model)
 				for b, lo := range blocks {
@@ -115,6 +119,7 @@ func Bootstrap(d *mat.Dense, fit *Result, opt Options, bo BootstrapOptions) (*In
 		}()
 	}
 	wg.Wait()
+	fault.Raise()
 	out := &Intervals{Level: bo.Level}
 	var good []rep
 	for _, r := range reps {

@@ -8,6 +8,7 @@ import (
 	"runtime"
 	"sync"
 
+	"github.com/bandsolve/bandsolve/internal/fanout"
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/lapack/lapack64"
@@ -237,12 +238,15 @@ func SolveMany(p Problem) (*mat.Dense, error) {
 		next <- c
 	}
 	close(next)
+	var fault fanout.Fault // a chunk's panic, raised again below
 	for w := 0; w < workers; w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
+			c := 0
+			defer fault.Catch(&c)
 			s := newSolver(p, k)
-			for c := range next {
+			for c = range next {
 				lo, hi := c*chunk, min(cols, (c+1)*chunk)
 				for j := lo; j < hi; j++ {
 					err := s.column(j, x)
@@ -258,6 +262,7 @@ func SolveMany(p Problem) (*mat.Dense, error) {
 		}()
 	}
 	wg.Wait()
+	fault.Raise()
 	for _, err := range errs {
 		if err != nil {
 			return x, err
