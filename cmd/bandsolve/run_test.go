@@ -267,8 +267,10 @@ func TestVerifyFindsChanges(t *testing.T) {
 	if r := run("verify", filepath.Join(moved, "results", "r1"), "--quiet"); r.code != 0 {
 		t.Errorf("moved folder: exit %d: %s", r.code, r.stderr)
 	}
-	if r := run("verify", filepath.Join(moved, "nowhere")); r.code != exitUsage {
-		t.Errorf("verify of a missing folder: exit %d", r.code)
+	// A folder that is not there cannot be read: exit 1, as a missing
+	// --data file or command file (docs/errors.md, "Exit codes").
+	if r := run("verify", filepath.Join(moved, "nowhere")); r.code != exitRun || !strings.Contains(r.stderr, "nowhere: cannot read: no such file or directory") {
+		t.Errorf("verify of a missing folder: exit %d, stderr %q", r.code, r.stderr)
 	}
 }
 

@@ -72,7 +72,13 @@ func Verify(dir string, log io.Writer) (*Verification, error) {
 		log = io.Discard
 	}
 	v := &Verification{}
-	if st, err := os.Stat(dir); err != nil || !st.IsDir() {
+	st, err := os.Stat(dir)
+	if err != nil {
+		// A folder that cannot be read is a run error (exit 1), as a
+		// missing --data file or command file is (docs/errors.md).
+		return nil, fmt.Errorf("%s: cannot read: %w; check the output folder's path", dir, unwrapPath(err))
+	}
+	if !st.IsDir() {
 		return nil, usage("%s: not a folder; give an output folder of bandsolve (it holds %s and %s)", dir, RecordName, ManifestName)
 	}
 	abs, err := filepath.Abs(dir)
