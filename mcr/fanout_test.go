@@ -77,3 +77,35 @@ func TestRangeSearchFaultReachesTheCaller(t *testing.T) {
 		}
 	}
 }
+
+// The same for FitWeighted, whose data sums run on a goroutine beside the
+// residual sums: a lookup of missing points that panics (on both, at the
+// point (3, 5)) reaches the caller, and the goroutine's panic is not left to
+// end the program, at GOMAXPROCS 1 and 2.
+func TestWeightedFitFaultReachesTheCaller(t *testing.T) {
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	const n, m = 8, 10
+	d, c, s := mat.NewDense(n, m, nil), mat.NewDense(n, 1, nil), mat.NewDense(m, 1, nil)
+	row, col := make([]float64, n), make([]float64, m)
+	for i := range row {
+		row[i] = 1
+	}
+	for j := range col {
+		col[j] = 1
+	}
+	missing := func(i, j int) bool {
+		if i == 3 && j == 5 {
+			panic("a fault in the lookup")
+		}
+		return false
+	}
+	for _, procs := range []int{1, 2} {
+		runtime.GOMAXPROCS(procs)
+		for rep := 0; rep < 20; rep++ {
+			got := caught(func() { FitWeighted(d, c, s, row, col, missing) })
+			if got != "a fault in the lookup" {
+				t.Fatalf("GOMAXPROCS %d: the caller recovered %v, want the lookup's fault", procs, got)
+			}
+		}
+	}
+}

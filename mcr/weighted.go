@@ -3,6 +3,7 @@ package mcr
 import (
 	"math"
 
+	"github.com/bandsolve/bandsolve/internal/fanout"
 	"github.com/bandsolve/bandsolve/internal/product"
 	"gonum.org/v1/gonum/mat"
 )
@@ -166,12 +167,15 @@ func FitWeighted(d, c, s *mat.Dense, row, col []float64, missing func(i, j int) 
 	var tot, nss float64
 	var obs int
 	done := make(chan struct{})
+	var fault fanout.Fault // the second goroutine's panic, raised again here
 	go func() {
 		defer close(done)
+		defer fault.Catch(nil)
 		tot, nss, obs = dataSums(d, row, col, missing)
 	}()
 	ssr, wss := residualSums(d, c, s, row, col, missing)
 	<-done
+	fault.Raise()
 	out := WeightedFit{WeightedSS: wss, Observed: obs, DataSS: tot, NoiseSS: nss}
 	if tot > 0 {
 		out.LackOfFitPercent = 100 * math.Sqrt(ssr/tot)

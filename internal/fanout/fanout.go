@@ -25,17 +25,22 @@ type Fault struct {
 }
 
 // Catch recovers a worker's panic and keeps it if *piece, the piece the worker
-// was on, is below those kept so far. It must be deferred directly on the
+// was on, is below those kept so far; a nil piece counts as piece 0 (a
+// single goroutine beside the caller). It must be deferred directly on the
 // worker goroutine (defer f.Catch(&piece)), for recover to see the panic.
 func (f *Fault) Catch(piece *int) {
 	p := recover()
 	if p == nil {
 		return
 	}
+	at := 0
+	if piece != nil {
+		at = *piece
+	}
 	f.mu.Lock()
 	defer f.mu.Unlock()
-	if !f.set || *piece < f.piece {
-		f.set, f.piece, f.value = true, *piece, p
+	if !f.set || at < f.piece {
+		f.set, f.piece, f.value = true, at, p
 	}
 }
 

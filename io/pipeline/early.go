@@ -1,29 +1,37 @@
 package pipeline
 
-import "github.com/bandsolve/bandsolve/io/report"
+import (
+	"github.com/bandsolve/bandsolve/internal/fanout"
+	"github.com/bandsolve/bandsolve/io/report"
+)
 
 // later is a value computed on its own goroutine from startLater on and taken
 // where it is used; a nil later has none.
 type later[T any] struct {
-	done chan struct{}
-	v    T
+	done  chan struct{}
+	v     T
+	fault fanout.Fault // f's panic, raised again by get
 }
 
 func startLater[T any](f func() T) *later[T] {
 	l := &later[T]{done: make(chan struct{})}
 	go func() {
 		defer close(l.done)
+		defer l.fault.Catch(nil)
 		l.v = f()
 	}()
 	return l
 }
 
-// get waits for the value; ok is false for a nil later.
+// get waits for the value, or panics with f's panic (on f's goroutine it
+// would end the program, past a batch's recovery per run); ok is false for
+// a nil later.
 func (l *later[T]) get() (v T, ok bool) {
 	if l == nil {
 		return v, false
 	}
 	<-l.done
+	l.fault.Raise()
 	return l.v, true
 }
 
