@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 
+	"github.com/bandsolve/bandsolve/internal/fanout"
 	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/lapack"
 	lapackgonum "gonum.org/v1/gonum/lapack/gonum"
@@ -186,12 +187,15 @@ func efaSweeps(fac *Factors, n, m, nf int, exact bool) (*EFAResult, error) {
 	// and each sweep's arithmetic is the same whichever runs first.
 	var errB error
 	done := make(chan struct{})
+	var fault fanout.Fault // the backward sweep's panic, raised again here
 	go func() {
 		defer close(done)
+		defer fault.Catch(nil)
 		res.Backward, errB = evolve(y, nf, floor, true)
 	}()
 	res.Forward, err = evolve(y, nf, floor, false)
 	<-done
+	fault.Raise()
 	if err != nil {
 		return nil, fmt.Errorf("svd: EFA forward: %w", err)
 	}

@@ -8,6 +8,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/bandsolve/bandsolve/internal/fanout"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/report"
 	"github.com/bandsolve/bandsolve/io/spectra"
@@ -443,19 +444,23 @@ func afterResolve(r *Result, data mcr.Data, opt mcr.Options, log io.Writer) erro
 
 // startChecks begins mcr.CheckConstraintsWith on a goroutine and returns
 // the function that waits for it and records the checks and their
-// warnings. The goroutine reads only the resolution, the data and the
-// figures restartCanMatter judges by.
+// warnings, or panics with the checks' panic (on their goroutine it would
+// end the program, past a batch's recovery per run). The goroutine reads
+// only the resolution, the data and the figures restartCanMatter judges by.
 func startChecks(r *Result, data mcr.Data, opt mcr.Options) func() {
 	var checks []mcr.ConstraintCheck
 	var err error
 	done := make(chan struct{})
 	co := mcr.CheckOptions{MaxIter: 300, Restart: restartCanMatter(r)}
+	var fault fanout.Fault // the checks' panic, raised again by the waiter
 	go func() {
 		defer close(done)
+		defer fault.Catch(nil)
 		checks, err = mcr.CheckConstraintsWith(data, r.ALS, opt, co)
 	}()
 	return func() {
 		<-done
+		fault.Raise()
 		if err != nil {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("constraint checks stopped: %v", err))
 		}
