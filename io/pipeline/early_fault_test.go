@@ -70,3 +70,22 @@ func TestChecksFaultReachesTheWaiter(t *testing.T) {
 		}
 	}
 }
+
+// The same for the second start (beginSecondStart): a result without its
+// data matrix makes the start's EFA fail on a nil pointer, a runtime error
+// the waiter recovers.
+func TestSecondStartFaultReachesTheWaiter(t *testing.T) {
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	for _, procs := range []int{1, 2} {
+		runtime.GOMAXPROCS(procs)
+		wait := beginSecondStart(&Result{Components: 2}, nil, mcr.Options{})
+		got := func() (p any) {
+			defer func() { p = recover() }()
+			wait()
+			return nil
+		}()
+		if _, ok := got.(runtime.Error); !ok {
+			t.Errorf("GOMAXPROCS %d: the waiter recovered %v, want a runtime error", procs, got)
+		}
+	}
+}

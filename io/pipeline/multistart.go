@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 
+	"github.com/bandsolve/bandsolve/internal/fanout"
 	"github.com/bandsolve/bandsolve/mcr"
 	"gonum.org/v1/gonum/mat"
 )
@@ -93,13 +94,17 @@ type secondStart struct {
 }
 
 // beginSecondStart runs the second start on a goroutine and returns the
-// function that waits for it. The goroutine reads r (the factors, D, the
+// function that waits for it, or panics with its panic (on its goroutine
+// it would end the program, past a batch's recovery per run, cmd/bandsolve
+// runOne). The goroutine reads r (the factors, D, the
 // weights) and writes nothing of it: apply records its EFA afterwards.
 func beginSecondStart(r *Result, data mcr.Data, opt mcr.Options) func() secondStart {
 	var out secondStart
 	done := make(chan struct{})
+	var fault fanout.Fault // the second start's panic, raised again by the waiter
 	go func() {
 		defer close(done)
+		defer fault.Catch(nil)
 		if out.efa = r.EFA; out.efa == nil {
 			out.efa, out.efaErr = efaReport(r)
 		}
@@ -111,7 +116,7 @@ func beginSecondStart(r *Result, data mcr.Data, opt mcr.Options) func() secondSt
 			out.ran = true
 		}
 	}()
-	return func() secondStart { <-done; return out }
+	return func() secondStart { <-done; fault.Raise(); return out }
 }
 
 // apply records the EFA as computeEFA would have and reports whether the
