@@ -7,6 +7,7 @@ import (
 	"sync"
 
 	"github.com/bandsolve/bandsolve/internal/decimal"
+	"github.com/bandsolve/bandsolve/internal/fanout"
 	"github.com/bandsolve/bandsolve/io/output"
 )
 
@@ -130,11 +131,14 @@ func FormatMapsPart(axis, times []float64, experiment []int, mats []MapMatrix, w
 	}
 	close(next)
 	var wg sync.WaitGroup
+	var fault fanout.Fault // a block's panic (an At's), raised again below
 	for range min(workers, len(blocks)) {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			for k := range next {
+			k := 0
+			defer fault.Catch(&k)
+			for k = range next {
 				// About 12 bytes a value, sized once.
 				out := make([]byte, 0, per*(len(cols)+3)*12)
 				for l := k * per; l < min(len(lines), (k+1)*per); l++ {
@@ -146,6 +150,7 @@ func FormatMapsPart(axis, times []float64, experiment []int, mats []MapMatrix, w
 		}()
 	}
 	wg.Wait()
+	fault.Raise()
 	for l, ln := range lines {
 		if m == nil {
 			break
