@@ -10,6 +10,7 @@ import (
 	"strings"
 	"sync"
 
+	"github.com/bandsolve/bandsolve/internal/fanout"
 	"github.com/bandsolve/bandsolve/internal/fresh"
 	"github.com/bandsolve/bandsolve/internal/vecmath"
 	"gonum.org/v1/gonum/mat"
@@ -407,7 +408,8 @@ func selectKth(c []float64, k int) float64 {
 // finite (finite), and takes the largest absolute absorbance per channel
 // over the points that are not blind (top, nil without abs): the pipeline
 // would otherwise read both matrices again for them. A maximum and a
-// conjunction are the same whatever the order of the rows.
+// conjunction are the same whatever the order of the rows. A chunk's panic
+// is raised again here once every worker has ended (the lowest chunk's).
 func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense, blind *Blind) (finite bool, top []float64) {
 	n, m := v.Dims()
 	const chunk = 64
@@ -426,10 +428,13 @@ func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense, blind
 	}
 	var mu sync.Mutex
 	var wg sync.WaitGroup
+	var fault fanout.Fault // a chunk's panic, raised again below
 	for w := 0; w < min(runtime.GOMAXPROCS(0), nch); w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
+			c := 0
+			defer fault.Catch(&c)
 			wf := true
 			var wt []float64
 			if abs != nil {
@@ -438,7 +443,7 @@ func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense, blind
 					wt[j] = math.Inf(-1)
 				}
 			}
-			for c := range work {
+			for c = range work {
 				for i := c * chunk; i < min(n, (c+1)*chunk); i++ {
 					row := v.RawRowView(i)
 					d := diff.RawRowView(i)
@@ -476,6 +481,7 @@ func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense, blind
 		}()
 	}
 	wg.Wait()
+	fault.Raise()
 	return finite, top
 }
 
