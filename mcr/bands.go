@@ -9,6 +9,7 @@ import (
 	"sync/atomic"
 
 	"github.com/bandsolve/bandsolve/internal/fanout"
+	"github.com/bandsolve/bandsolve/internal/vecmath"
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -425,7 +426,8 @@ func (p *bandProblem) rotation(theta []float64) *mat.Dense {
 // kept (rotMemo): the callers must not change what it returns.
 func (p *bandProblem) rotate(t *mat.Dense) (a, b, tinvT *mat.Dense, ok bool) {
 	memo := p.memo()
-	if memo != nil && memo.t != nil && sameBits(memo.t, t) {
+	// Bits, not mat.Equal: it takes −0 for +0, and the products may then differ in sign.
+	if memo != nil && memo.t != nil && vecmath.SameBitsMatrix(memo.t, t) {
 		return memo.a, memo.b, memo.tinvT, memo.ok
 	}
 	a, b, tinvT, ok = p.rotateNew(t)
@@ -447,23 +449,6 @@ type rotMemo struct {
 	ap, bp         *mat.Dense // constrainedPair(a, b), nil until asked
 	rise           float64
 	haveRise       bool
-}
-
-// sameBits says whether the k × k matrices x and y hold the same bits
-// (mat.Equal takes −0 for +0, and the products may then differ in sign).
-func sameBits(x, y *mat.Dense) bool {
-	r, c := x.Dims()
-	if rr, cc := y.Dims(); rr != r || cc != c {
-		return false
-	}
-	for i := 0; i < r; i++ {
-		for j := 0; j < c; j++ {
-			if math.Float64bits(x.At(i, j)) != math.Float64bits(y.At(i, j)) {
-				return false
-			}
-		}
-	}
-	return true
 }
 
 // memo is the search's rotMemo, nil before newWork.

@@ -8,6 +8,7 @@ import (
 	"os"
 	"testing"
 
+	"github.com/bandsolve/bandsolve/internal/vecmath"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -491,7 +492,7 @@ func TestNNLSWorkMatchesMatQR(t *testing.T) {
 				t.Fatalf("trial %d (%d × %d): x[%d] = %v, want %v bit for bit", trial, m, n, j, got[j], want[j])
 			}
 		}
-		if x, err := NNLS(a, b); (err == nil) != (werr == nil) || !slicesEqualBits(x, want) {
+		if x, err := NNLS(a, b); (err == nil) != (werr == nil) || !vecmath.SameBits(x, want) {
 			t.Fatalf("trial %d: NNLS differs from its reference", trial)
 		}
 	}
@@ -499,16 +500,4 @@ func TestNNLSWorkMatchesMatQR(t *testing.T) {
 	if solved == 0 {
 		t.Fatal("no problem solved: the comparison tested nothing")
 	}
-}
-
-func slicesEqualBits(a, b []float64) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if math.Float64bits(a[i]) != math.Float64bits(b[i]) {
-			return false
-		}
-	}
-	return true
 }

@@ -2,10 +2,10 @@ package pipeline
 
 import (
 	"encoding/json"
-	"math"
 	"slices"
 	"sync"
 
+	"github.com/bandsolve/bandsolve/internal/vecmath"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/report"
 	"github.com/bandsolve/bandsolve/mcr"
@@ -331,7 +331,7 @@ func (a *ahead) efaFile(r *Result) ([]byte, bool) {
 		return nil, false
 	}
 	a.waitTasks()
-	if a.failed || a.efaCSV == nil || !sameBits(a.efaTimes, r.Times) || !slices.Equal(a.efaExp, r.ExpOfRow) {
+	if a.failed || a.efaCSV == nil || !vecmath.SameBits(a.efaTimes, r.Times) || !slices.Equal(a.efaExp, r.ExpOfRow) {
 		return nil, false
 	}
 	return a.efaCSV, true
@@ -432,23 +432,11 @@ func (m *aheadMaps) format() {
 // axis and times m's: then m's part is theirs. Values are compared bit for
 // bit (a NaN matches the same NaN).
 func (m *aheadMaps) holds(r *Result, mats []mapSource) bool {
-	if m == nil || len(mats) != len(m.names) || !sameBits(m.axis, r.Axis) || !sameBits(m.times, r.Times) || !slices.Equal(m.exp, r.ExpOfRow) {
+	if m == nil || len(mats) != len(m.names) || !vecmath.SameBits(m.axis, r.Axis) || !vecmath.SameBits(m.times, r.Times) || !slices.Equal(m.exp, r.ExpOfRow) {
 		return false
 	}
 	for q, mm := range mats {
-		if mm.name != m.names[q] || !sameBits(m.vals[q], m.at(mm)) {
-			return false
-		}
-	}
-	return true
-}
-
-func sameBits(a, b []float64) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if math.Float64bits(a[i]) != math.Float64bits(b[i]) {
+		if mm.name != m.names[q] || !vecmath.SameBits(m.vals[q], m.at(mm)) {
 			return false
 		}
 	}

@@ -14,6 +14,7 @@ import (
 	"sync"
 	"testing"
 
+	"github.com/bandsolve/bandsolve/internal/vecmath"
 	"github.com/bandsolve/bandsolve/io/demo"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/mcr"
@@ -541,25 +542,8 @@ func TestHardSoftSameAtAnyGOMAXPROCS(t *testing.T) {
 		if !bytes.Equal(got.text, ref.text) {
 			t.Errorf("GOMAXPROCS %d: summary.json or kinetics.csv differ from GOMAXPROCS 1", procs)
 		}
-		if !denseBitsEqual(got.c, ref.c) || !denseBitsEqual(got.s, ref.s) {
+		if !vecmath.SameBitsMatrix(got.c, ref.c) || !vecmath.SameBitsMatrix(got.s, ref.s) {
 			t.Errorf("GOMAXPROCS %d: hard–soft profiles or spectra differ from GOMAXPROCS 1", procs)
 		}
 	}
-}
-
-// denseBitsEqual says whether a and b have the same dimensions and entries,
-// bit for bit.
-func denseBitsEqual(a, b *mat.Dense) bool {
-	r, c := a.Dims()
-	if rb, cb := b.Dims(); rb != r || cb != c {
-		return false
-	}
-	for i := 0; i < r; i++ {
-		for j := 0; j < c; j++ {
-			if math.Float64bits(a.At(i, j)) != math.Float64bits(b.At(i, j)) {
-				return false
-			}
-		}
-	}
-	return true
 }

@@ -8,6 +8,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/bandsolve/bandsolve/internal/vecmath"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -236,30 +237,15 @@ func TestSensitivitiesSameInBlocks(t *testing.T) {
 			if !ok {
 				t.Fatalf("k %v, GOMAXPROCS %d: no sensitivities", k, procs)
 			}
-			same := sameBits(c1, c2)
+			same := vecmath.SameBitsMatrix(c1, c2)
 			for a := range d1 {
-				same = same && sameBits(d1[a], d2[a])
+				same = same && vecmath.SameBitsMatrix(d1[a], d2[a])
 			}
 			if !same {
 				t.Errorf("k %v: sensitivities at GOMAXPROCS %d differ from GOMAXPROCS 1", k, procs)
 			}
 		}
 	}
-}
-
-func sameBits(a, b *mat.Dense) bool {
-	r, c := a.Dims()
-	if rb, cb := b.Dims(); rb != r || cb != c {
-		return false
-	}
-	for i := 0; i < r; i++ {
-		for j := 0; j < c; j++ {
-			if math.Float64bits(a.At(i, j)) != math.Float64bits(b.At(i, j)) {
-				return false
-			}
-		}
-	}
-	return true
 }
 
 // The residuals and Jacobians of a fit write their n-row matrices into
@@ -349,7 +335,7 @@ func TestFitScratchReusedAsFresh(t *testing.T) {
 			eval(p, sc, other) // leaves the buffers dirty
 			poison(sc)
 			gotR, gotJ := eval(p, sc, theta)
-			if !slicesSameBits(gotR, wantR) || !slicesSameBits(gotJ.RawMatrix().Data, wantJ.RawMatrix().Data) {
+			if !vecmath.SameBits(gotR, wantR) || !vecmath.SameBits(gotJ.RawMatrix().Data, wantJ.RawMatrix().Data) {
 				t.Errorf("%s, %s: residual or Jacobian on reused buffers differs from fresh ones", tc.scheme, mode)
 			}
 		}
@@ -368,18 +354,6 @@ func poison(sc *fitScratch) {
 			}
 		}
 	}
-}
-
-func slicesSameBits(a, b []float64) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if math.Float64bits(a[i]) != math.Float64bits(b[i]) {
-			return false
-		}
-	}
-	return true
 }
 
 // A fault (a panic) in either half of the times reaches the caller of
