@@ -39,4 +39,13 @@
 // routine: −Inf for ±0, NaN (bits 0x7FF8000000000001) for a set sign bit,
 // x itself for +Inf and for a NaN with a clear sign bit. Elsewhere, and
 // with the purego build tag, every value goes through math.Log.
+//
+// Where the processor also has AVX-512 (and the operating system saves its
+// registers), the logarithms and the quotients they are taken of run eight
+// lanes at a time: the same operations in the same order, so the same bits
+// (IEEE 754 rounds each lane's result alone, whatever the width of the
+// register), with the special cases picked by mask registers instead of
+// blends. On the Zen 5 processor of the shared benchmark machine, whose
+// vector units are 512 bits wide, that halves the time per value (a slice
+// of 3000: Log 5.2 → 2.4 µs, LogQuoSquares 14.8 → 7.3, Log10Quo 7.4 → 3.7).
 package vecmath

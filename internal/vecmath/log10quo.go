@@ -9,10 +9,13 @@ import "math"
 // a register. dst may be x or y; dst and y must be at least as long as x.
 func Log10Quo(dst, x, y []float64) (finite bool) {
 	dst, y = dst[:len(x)], y[:len(x)]
-	n, finite := 0, true
-	if useAVX2 {
-		n = len(x) &^ 3
-		finite = log10QuoAVX2(dst[:n], x[:n], y[:n])
+	n8, n := lanes(len(x))
+	finite = true
+	if n8 > 0 {
+		finite = log10QuoAVX512(dst[:n8], x[:n8], y[:n8])
+	}
+	if n > n8 {
+		finite = log10QuoAVX2(dst[n8:n], x[n8:n], y[n8:n]) && finite
 	}
 	for i := n; i < len(x); i++ {
 		v := math.Log10(x[i] / y[i])
@@ -26,10 +29,13 @@ func Log10Quo(dst, x, y []float64) (finite bool) {
 // dst[i] > top[i] (a NaN never raises it); top must be as long as x.
 func Log10QuoMax(dst, x, y, top []float64) (finite bool) {
 	dst, y, top = dst[:len(x)], y[:len(x)], top[:len(x)]
-	n, finite := 0, true
-	if useAVX2 {
-		n = len(x) &^ 3
-		finite = log10QuoMaxAVX2(dst[:n], x[:n], y[:n], top[:n])
+	n8, n := lanes(len(x))
+	finite = true
+	if n8 > 0 {
+		finite = log10QuoMaxAVX512(dst[:n8], x[:n8], y[:n8], top[:n8])
+	}
+	if n > n8 {
+		finite = log10QuoMaxAVX2(dst[n8:n], x[n8:n], y[n8:n], top[n8:n]) && finite
 	}
 	for i := n; i < len(x); i++ {
 		v := math.Log10(x[i] / y[i])

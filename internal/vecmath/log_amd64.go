@@ -36,3 +36,31 @@ func log10QuoMaxAVX2(dst, x, y, top []float64) (finite bool)
 //
 //go:noescape
 func quoSquaresAVX2(d, a, x, y, e []float64, c float64, logs bool)
+
+// useAVX512 says whether the eight-lane kernels below run instead of the
+// four-lane ones: the processor has AVX-512's foundation set and the
+// operating system saves the zmm and mask registers (cpu.X86.HasAVX512F
+// checks both).
+var useAVX512 = cpu.X86.HasAVX512F && useAVX2
+
+// logAVX512 is logAVX2 eight at a time; len(src) is a multiple of 8.
+//
+//go:noescape
+func logAVX512(dst, src []float64)
+
+// log10QuoAVX512 is log10QuoAVX2 eight at a time; len(x) is a multiple of 8.
+//
+//go:noescape
+func log10QuoAVX512(dst, x, y []float64) (finite bool)
+
+// log10QuoMaxAVX512 is log10QuoMaxAVX2 eight at a time; len(x) is a
+// multiple of 8.
+//
+//go:noescape
+func log10QuoMaxAVX512(dst, x, y, top []float64) (finite bool)
+
+// quoSquaresAVX512 is quoSquaresAVX2 eight at a time; len(x) is a multiple
+// of 8.
+//
+//go:noescape
+func quoSquaresAVX512(d, a, x, y, e []float64, c float64, logs bool)

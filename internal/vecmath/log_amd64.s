@@ -286,3 +286,224 @@ qsLogLoop:
 qsDone:
 	VZEROUPPER
 	RET
+
+
+// The kernels of log_amd64.s eight lanes at a time in zmm registers: the
+// same operations on the same operands in the same order, each rounded as
+// there (no operation is fused, and the rounding mode is the program's),
+// so every lane has the bits the four-lane kernels and math.Log give. The
+// constants are log_amd64.s's, read one lane and broadcast (.BCST); the
+// tests of the special cases set mask registers, and the blends are moves
+// under those masks, in the routine's order (later ones win).
+
+// LOGZ0 leaves in Z1 the logarithms of the eight doubles in Z0 (LOGY0 of
+// log_amd64.s, eight lanes). Z8 must be zero. Uses Z0–Z7 and K1–K4.
+#define LOGZ0 \
+	VPANDQ.BCST fracMask<>(SB), Z0, Z2 \
+	VPORQ.BCST  half<>(SB), Z2, Z2 \
+	VPSRLQ      $52, Z0, Z1 \
+	VPANDQ.BCST expMask<>(SB), Z1, Z1 \
+	VPORQ.BCST  magic<>(SB), Z1, Z1 \
+	VSUBPD.BCST magicBias<>(SB), Z1, Z1 \
+	VCMPPD.BCST $2, hSqrt2<>(SB), Z2, K1 \
+	VSUBPD.BCST one<>(SB), Z1, K1, Z1 \
+	VADDPD      Z2, Z2, K1, Z2 \
+	VSUBPD.BCST one<>(SB), Z2, Z2 \
+	VADDPD.BCST two<>(SB), Z2, Z4 \
+	VDIVPD      Z4, Z2, Z3 \
+	VMULPD      Z3, Z3, Z4 \
+	VMULPD      Z4, Z4, Z5 \
+	VMULPD.BCST l7<>(SB), Z5, Z6 \
+	VADDPD.BCST l5<>(SB), Z6, Z6 \
+	VMULPD      Z5, Z6, Z6 \
+	VADDPD.BCST l3<>(SB), Z6, Z6 \
+	VMULPD      Z5, Z6, Z6 \
+	VADDPD.BCST l1<>(SB), Z6, Z6 \
+	VMULPD      Z6, Z4, Z4 \
+	VMULPD.BCST l6<>(SB), Z5, Z6 \
+	VADDPD.BCST l4<>(SB), Z6, Z6 \
+	VMULPD      Z5, Z6, Z6 \
+	VADDPD.BCST l2<>(SB), Z6, Z6 \
+	VMULPD      Z6, Z5, Z5 \
+	VADDPD      Z5, Z4, Z4 \
+	VMULPD.BCST half<>(SB), Z2, Z6 \
+	VMULPD      Z2, Z6, Z6 \
+	VADDPD      Z6, Z4, Z4 \
+	VMULPD      Z4, Z3, Z3 \
+	VMULPD.BCST ln2Lo<>(SB), Z1, Z4 \
+	VADDPD      Z4, Z3, Z3 \
+	VSUBPD      Z3, Z6, Z6 \
+	VSUBPD      Z2, Z6, Z6 \
+	VMULPD.BCST ln2Hi<>(SB), Z1, Z1 \
+	VSUBPD      Z6, Z1, Z1 \
+	VPCMPGTQ.BCST maxFinite<>(SB), Z0, K2 \
+	VMOVAPD     Z0, K2, Z1 \
+	VPCMPGTQ    Z0, Z8, K3 \
+	VBROADCASTSD nan<>(SB), K3, Z1 \
+	VPTESTNMQ.BCST absMask<>(SB), Z0, K4 \
+	VBROADCASTSD negInf<>(SB), K4, Z1
+
+// The step of LOGZ0 where f1 < √2/2 (K1): k − 1 and f1·2, as LOGY0's
+// k − (1 or 0) and f1·(2 or 1); f1 + f1 is f1·2 exactly, and a lane left
+// alone is the product by 1 or the difference with 0 (k is a whole number,
+// never −0), so the bits agree.
+
+// FINITE8 adds Z1 − Z1 to Z9: zero in every lane only while every value has
+// been finite (FINITE4).
+#define FINITE8 \
+	VSUBPD Z1, Z1, Z10 \
+	VADDPD Z10, Z9, Z9
+
+// ALLZERO9Z sets ret to whether every lane of Z9 is zero (Z8 zero).
+#define ALLZERO9Z(ret) \
+	VCMPPD $0, Z8, Z9, K5 \
+	KMOVW  K5, AX \
+	CMPQ   AX, $0xFF \
+	SETEQ  ret
+
+// func logAVX512(dst, src []float64)
+TEXT ·logAVX512(SB), NOSPLIT, $0-48
+	MOVQ dst_base+0(FP), DI
+	MOVQ src_base+24(FP), SI
+	MOVQ src_len+32(FP), CX
+	SHRQ $3, CX
+	JZ   logzDone
+	VPXORQ Z8, Z8, Z8
+
+logzLoop:
+	VMOVUPD (SI), Z0
+	LOGZ0
+	VMOVUPD Z1, (DI)
+	ADDQ $64, SI
+	ADDQ $64, DI
+	DECQ CX
+	JNZ  logzLoop
+
+logzDone:
+	VZEROUPPER
+	RET
+
+// func log10QuoAVX512(dst, x, y []float64) (finite bool)
+TEXT ·log10QuoAVX512(SB), NOSPLIT, $0-73
+	MOVQ dst_base+0(FP), DI
+	MOVQ x_base+24(FP), SI
+	MOVQ y_base+48(FP), DX
+	MOVQ x_len+32(FP), CX
+	VPXORQ Z8, Z8, Z8
+	VPXORQ Z9, Z9, Z9
+	SHRQ $3, CX
+	JZ   l10qzDone
+
+l10qzLoop:
+	VMOVUPD (SI), Z0
+	VDIVPD  (DX), Z0, Z0
+	LOGZ0
+	VMULPD.BCST invLn10<>(SB), Z1, Z1
+	VMOVUPD Z1, (DI)
+	FINITE8
+	ADDQ $64, SI
+	ADDQ $64, DX
+	ADDQ $64, DI
+	DECQ CX
+	JNZ  l10qzLoop
+
+l10qzDone:
+	ALLZERO9Z(finite+72(FP))
+	VZEROUPPER
+	RET
+
+// func log10QuoMaxAVX512(dst, x, y, top []float64) (finite bool)
+TEXT ·log10QuoMaxAVX512(SB), NOSPLIT, $0-97
+	MOVQ dst_base+0(FP), DI
+	MOVQ x_base+24(FP), SI
+	MOVQ y_base+48(FP), DX
+	MOVQ top_base+72(FP), R8
+	MOVQ x_len+32(FP), CX
+	VPXORQ Z8, Z8, Z8
+	VPXORQ Z9, Z9, Z9
+	SHRQ $3, CX
+	JZ   l10qmzDone
+
+l10qmzLoop:
+	VMOVUPD (SI), Z0
+	VDIVPD  (DX), Z0, Z0
+	LOGZ0
+	VMULPD.BCST invLn10<>(SB), Z1, Z1
+	VMOVUPD Z1, (DI)
+	FINITE8
+	// MAXPD's rule as in log10QuoMaxAVX2: top when either is NaN or both
+	// are zero.
+	VMOVUPD (R8), Z11
+	VMAXPD  Z11, Z1, Z11
+	VMOVUPD Z11, (R8)
+	ADDQ $64, SI
+	ADDQ $64, DX
+	ADDQ $64, DI
+	ADDQ $64, R8
+	DECQ CX
+	JNZ  l10qmzLoop
+
+l10qmzDone:
+	ALLZERO9Z(finite+96(FP))
+	VZEROUPPER
+	RET
+
+// QUOSQ8 is QUOSQ4 of log_amd64.s, eight lanes: Z13 = (r + e)/c and
+// Z12 = r/c with c in Z15.
+#define QUOSQ8 \
+	VMOVUPD (SI), Z0 \
+	VDIVPD  (DX), Z0, Z0 \
+	VMULPD  Z0, Z0, Z12 \
+	VMOVUPD (R8), Z13 \
+	VADDPD  Z12, Z13, Z13 \
+	VDIVPD  Z15, Z13, Z13 \
+	VDIVPD  Z15, Z12, Z12
+
+// func quoSquaresAVX512(d, a, x, y, e []float64, c float64, logs bool)
+TEXT ·quoSquaresAVX512(SB), NOSPLIT, $0-129
+	MOVQ d_base+0(FP), DI
+	MOVQ a_base+24(FP), R9
+	MOVQ x_base+48(FP), SI
+	MOVQ x_len+56(FP), CX
+	MOVQ y_base+72(FP), DX
+	MOVQ e_base+96(FP), R8
+	VBROADCASTSD c+120(FP), Z15
+	MOVBLZX logs+128(FP), BX
+	VPXORQ Z8, Z8, Z8
+	SHRQ $3, CX
+	JZ   qszDone
+	TESTQ BX, BX
+	JNZ  qszLogLoop
+
+qszLoop:
+	QUOSQ8
+	VMOVUPD Z13, (DI)
+	VMOVUPD Z12, (R9)
+	ADDQ $64, SI
+	ADDQ $64, DX
+	ADDQ $64, R8
+	ADDQ $64, DI
+	ADDQ $64, R9
+	DECQ CX
+	JNZ  qszLoop
+	JMP  qszDone
+
+qszLogLoop:
+	QUOSQ8
+	VMOVAPD Z13, Z0
+	LOGZ0
+	VMOVUPD Z1, (DI)
+	VMOVAPD Z12, Z0
+	LOGZ0
+	VMOVUPD Z1, (R9)
+	ADDQ $64, SI
+	ADDQ $64, DX
+	ADDQ $64, R8
+	ADDQ $64, DI
+	ADDQ $64, R9
+	DECQ CX
+	JNZ  qszLogLoop
+
+qszDone:
+	VZEROUPPER
+	RET

@@ -132,6 +132,26 @@ func TestVectorPath(t *testing.T) {
 	check(t, "log10AVX2", src, dst, math.Log10)
 }
 
+// TestVectorPath512 is TestVectorPath for the eight-lane kernels, skipped
+// where the processor or the build has no AVX-512. The special values are
+// run at each of the eight positions of a register: the masks that pick
+// the special cases are per lane.
+func TestVectorPath512(t *testing.T) {
+	if !useAVX512 {
+		t.Skip("no AVX-512 path on this CPU or build")
+	}
+	var src []float64
+	for shift := range 8 {
+		src = append(src, make([]float64, shift)...)
+		src = append(src, specialValues()...)
+	}
+	src = append(src, randomValues(1<<20)...)
+	src = src[:len(src)&^7]
+	dst := make([]float64, len(src))
+	logAVX512(dst, src)
+	check(t, "logAVX512", src, dst, math.Log)
+}
+
 func BenchmarkLog(b *testing.B) {
 	src := make([]float64, 3001)
 	for i := range src {

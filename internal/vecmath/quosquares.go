@@ -23,10 +23,12 @@ func LogQuoSquares(d, a, x, y, e []float64, c float64) {
 
 func quoSquares(d, a, x, y, e []float64, c float64, logs bool) {
 	d, a, y, e = d[:len(x)], a[:len(x)], y[:len(x)], e[:len(x)]
-	n := 0
-	if useAVX2 {
-		n = len(x) &^ 3
-		quoSquaresAVX2(d[:n], a[:n], x[:n], y[:n], e[:n], c, logs)
+	n8, n := lanes(len(x))
+	if n8 > 0 {
+		quoSquaresAVX512(d[:n8], a[:n8], x[:n8], y[:n8], e[:n8], c, logs)
+	}
+	if n > n8 {
+		quoSquaresAVX2(d[n8:n], a[n8:n], x[n8:n], y[n8:n], e[n8:n], c, logs)
 	}
 	for i := n; i < len(x); i++ {
 		q := x[i] / y[i]
