@@ -199,23 +199,25 @@ func ChooseBaselineOrderFrom(d, dq *mat.Dense, f *Factors, axis, col []float64, 
 			polyEnergy[c] += dq.At(i, c) * dq.At(i, c)
 		}
 	}
+	// W less its projection is formed in the same memory for every order,
+	// and its values taken there (valuesInPlace: mat.SVD's LAPACK call
+	// without its copy of the matrix).
+	var proj mat.Dense
+	wq := mat.NewDense(r, m, nil)
 	rss := func(q int) float64 {
-		// mat.SVD.Factorize copies the matrix it is given, so W itself (or
-		// W less its projection, formed once) goes to it without a copy.
-		energy, wq := f.FrobeniusSq, w
+		energy := f.FrobeniusSq
 		if q >= 0 {
 			for c := 0; c <= q; c++ {
 				energy -= polyEnergy[c]
 			}
-			var proj mat.Dense
 			proj.Mul(wqAll.Slice(0, r, 0, q+1), basis.Slice(0, m, 0, q+1).T())
-			wq = mat.NewDense(r, m, nil)
 			wq.Sub(w, &proj)
+		} else {
+			wq.Copy(w)
 		}
 		if k > 0 {
-			var sv mat.SVD
-			if sv.Factorize(wq, mat.SVDNone) {
-				for _, s := range sv.Values(nil)[:min(k, r)] {
+			if vals, ok := valuesInPlace(wq.RawMatrix()); ok {
+				for _, s := range vals[:min(k, r)] {
 					energy -= s * s
 				}
 			}

@@ -151,13 +151,22 @@ func ClassifyFactors(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOpti
 	var chem int
 	basis := polyBasisOnce(opt.Axis, opt.Col)
 	var smallest float64 // s² of the smallest chemical factor so far (not the mean level)
+	var spareU, spareV []float64
 	for j, row := range rep.Table {
 		if !row.AboveNoiseEdge || j >= len(f.S) {
 			break
 		}
 		out.Examined++
-		us, v := column(f.U, j), column(f.V, j)
+		us, v := columnInto(spareU, f.U, j), columnInto(spareV, f.V, j)
 		u, vu := unscaleVec(us, opt.Row), unscaleVec(v, opt.Col)
+		// A column unscaled into a copy is not kept: its memory takes the next.
+		spareU, spareV = nil, nil
+		if rescaled(us, opt.Row) {
+			spareU = us
+		}
+		if rescaled(v, opt.Col) {
+			spareV = v
+		}
 		nf := NuisanceFactor{Factor: j + 1, SharePercent: 100 * f.S[j] * f.S[j] / f.FrobeniusSq, Time: u}
 		if row.ReferencePattern {
 			nf.Kind, nf.Looks = NuisancePattern, "flat in time and white across the axis: the reference spectrum's own noise"
@@ -258,7 +267,7 @@ func concentrated(u []float64) ([]int, bool) {
 // unscaleVec returns x_i/√w_i scaled to unit length (x itself when w is nil): a singular
 // vector of the scaled matrix as the shape it has in the data.
 func unscaleVec(x, w []float64) []float64 {
-	if w == nil || len(w) != len(x) {
+	if !rescaled(x, w) {
 		return x
 	}
 	out := make([]float64, len(x))
@@ -276,6 +285,9 @@ func unscaleVec(x, w []float64) []float64 {
 	}
 	return out
 }
+
+// rescaled says whether unscaleVec(x, w) is a new vector (not x itself).
+func rescaled(x, w []float64) bool { return w != nil && len(w) == len(x) }
 
 // polyBasisOnce gives the polynomial basis every factor's baseline share is
 // measured against, PolyBasis(axis, baselineOrder, col) (in the metric of

@@ -3,6 +3,7 @@ package svd
 import (
 	"fmt"
 
+	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -36,15 +37,25 @@ func ProjectFactors(f *Factors, q, dq *mat.Dense) (*Factors, error) {
 	wq.Mul(w, q)
 	proj.Mul(&wq, q.T())
 	w.Sub(w, &proj)
-	var sv mat.SVD
-	if !sv.Factorize(w, mat.SVDThin) {
+	// mat.SVD's thin factorization of W, on W itself (thinSVD), its right
+	// vectors' rows in the projection's memory, spent once subtracted.
+	k := min(r, m)
+	pr := proj.RawMatrix()
+	vt := blas64.General{Rows: k, Cols: m, Stride: m, Data: pr.Data[:k*m]}
+	vals, pl, ok := thinSVD(w.RawMatrix(), vt)
+	if !ok {
 		return nil, fmt.Errorf("svd: project factors: SVD of the %d × %d core did not converge", r, m)
 	}
-	var p, rv, u mat.Dense
-	sv.UTo(&p)
-	sv.VTo(&rv)
-	u.Mul(f.U, &p)
-	out := &Factors{U: &u, S: sv.Values(nil), V: mat.DenseCopyOf(&rv), Method: f.Method,
+	v := mat.NewDense(m, k, nil)
+	vr := v.RawMatrix()
+	for a := 0; a < k; a++ {
+		for j, x := range vt.Data[a*m : a*m+m] {
+			vr.Data[j*vr.Stride+a] = x
+		}
+	}
+	var u mat.Dense
+	u.Mul(f.U, mat.NewDense(r, k, pl.Data))
+	out := &Factors{U: &u, S: vals, V: v, Method: f.Method,
 		FrobeniusSq: max(f.FrobeniusSq-frobeniusSq(dq), 0)}
 	fixSigns(out)
 	return out, nil

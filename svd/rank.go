@@ -290,13 +290,15 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 		re = math.Sqrt(f.TailSq(k) / (float64(rr) * float64(c-k)))
 		return re, re / (float64(c-k) * float64(c-k))
 	}
+	var colU, colV []float64 // one column at a time, the memory kept
 	for k := 1; k <= kScan; k++ {
 		s := f.S[k-1]
 		row := CandidateRow{K: k, SingularValue: s}
 		row.RE, row.IND = ind(k)
 		row.FSignificance = fSignificance(s*s, f.TailSq(k), tailW[k], weights(k), c-k)
-		row.AutocorrU = Autocorrelation(column(f.U, k-1))
-		row.AutocorrV = Autocorrelation(column(f.V, k-1))
+		colU, colV = columnInto(colU, f.U, k-1), columnInto(colV, f.V, k-1)
+		row.AutocorrU = Autocorrelation(colU)
+		row.AutocorrV = Autocorrelation(colV)
 		row.AboveNoiseEdge = s > rep.Threshold && s > 0
 		row.Structured = s > numTol && s > 0 && structured(row.AutocorrU, n) && structured(row.AutocorrV, m)
 		rep.Table = append(rep.Table, row)

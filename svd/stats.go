@@ -45,12 +45,21 @@ func structured(a float64, l int) bool {
 const minStructureLen = 12
 
 func column(a *mat.Dense, k int) []float64 {
+	return columnInto(nil, a, k)
+}
+
+// columnInto is column k of a in buf's memory when it has room.
+func columnInto(buf []float64, a *mat.Dense, k int) []float64 {
 	r, _ := a.Dims()
-	out := make([]float64, r)
-	for i := range out {
-		out[i] = a.At(i, k)
+	if cap(buf) < r {
+		buf = make([]float64, r)
 	}
-	return out
+	buf = buf[:r]
+	raw := a.RawMatrix()
+	for i := range buf {
+		buf[i] = raw.Data[i*raw.Stride+k]
+	}
+	return buf
 }
 
 // mpMedian returns the median of the Marchenko–Pastur law with aspect ratio beta = c/r ∈ (0, 1]

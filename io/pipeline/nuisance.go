@@ -176,12 +176,13 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 		}
 		if in.start != nil {
 			// D Q⊥'s rows lie in the start's span projected the same way.
+			// The difference is written over the projection: no copy
+			// of the start (the caller's stays as it was).
 			var sq, proj mat.Dense
 			sq.Mul(q.T(), in.start)
 			proj.Mul(q, &sq)
-			start := mat.DenseCopyOf(in.start)
-			start.Sub(start, &proj)
-			in.start = start
+			proj.Sub(in.start, &proj)
+			in.start = &proj
 		}
 	}
 	if f == nil {

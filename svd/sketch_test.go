@@ -1,0 +1,69 @@
+package svd
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// TestSketchFactorsAreGonumSVDs checks the last step of the randomized SVD
+// against gonum's mat.SVD (reference library) used as its documentation
+// says: B = Zᵀ factorized with SVDThin, U = Y Ũ, V from VTo, the leading r
+// taken. sketchFactors skips the copies and writes into Z's memory; every
+// value must be the same bits.
+func TestSketchFactorsAreGonumSVDs(t *testing.T) {
+	for _, tc := range []struct{ n, m, l, r int }{
+		{40, 60, 12, 2}, {300, 200, 34, 24}, {200, 301, 34, 34}, {57, 90, 11, 1}, {120, 80, 20, 10},
+	} {
+		rng := rand.New(rand.NewPCG(uint64(tc.n), uint64(tc.m)))
+		y := mat.NewDense(tc.n, tc.l, nil)
+		z := mat.NewDense(tc.m, tc.l, nil)
+		for _, x := range []*mat.Dense{y, z} {
+			raw := x.RawMatrix()
+			for i := range raw.Data {
+				raw.Data[i] = rng.NormFloat64() * math.Exp(-float64(i%tc.l)/3)
+			}
+		}
+		// The reference, from copies of the inputs.
+		var sv mat.SVD
+		if !sv.Factorize(mat.DenseCopyOf(z).T(), mat.SVDThin) {
+			t.Fatalf("%v: reference SVD did not converge", tc)
+		}
+		var ub, v, u mat.Dense
+		sv.UTo(&ub)
+		sv.VTo(&v)
+		u.Mul(y, &ub)
+		vals := sv.Values(nil)
+
+		f, err := sketchFactors(mat.DenseCopyOf(y), mat.DenseCopyOf(z), tc.r)
+		if err != nil {
+			t.Fatalf("%v: %v", tc, err)
+		}
+		if len(f.S) != tc.r {
+			t.Fatalf("%v: %d values, want %d", tc, len(f.S), tc.r)
+		}
+		for k := 0; k < tc.r; k++ {
+			if math.Float64bits(f.S[k]) != math.Float64bits(vals[k]) {
+				t.Errorf("%v: s_%d = %v, reference %v", tc, k, f.S[k], vals[k])
+			}
+			for i := 0; i < tc.n; i++ {
+				if math.Float64bits(f.U.At(i, k)) != math.Float64bits(u.At(i, k)) {
+					t.Fatalf("%v: U[%d,%d] = %v, reference %v", tc, i, k, f.U.At(i, k), u.At(i, k))
+				}
+			}
+			for j := 0; j < tc.m; j++ {
+				if math.Float64bits(f.V.At(j, k)) != math.Float64bits(v.At(j, k)) {
+					t.Fatalf("%v: V[%d,%d] = %v, reference %v", tc, j, k, f.V.At(j, k), v.At(j, k))
+				}
+			}
+		}
+		if ur, uc := f.U.Dims(); ur != tc.n || uc != tc.r {
+			t.Errorf("%v: U is %d × %d", tc, ur, uc)
+		}
+		if vr, vc := f.V.Dims(); vr != tc.m || vc != tc.r {
+			t.Errorf("%v: V is %d × %d", tc, vr, vc)
+		}
+	}
+}
