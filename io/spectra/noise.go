@@ -1425,22 +1425,11 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 			vecmath.LogQuoSquares(o[:m], o[m:2*m], sigI, s.Values.RawRowView(i), refVar, ln10sq)
 		}
 	}
-	// absVar ≤ diffVar at every point (refVar ≥ 0, and rounding keeps the
-	// order), so the first fit's peaks bound the products addOverweighted
-	// tests: only rows whose bound reaches the threshold are looked at.
-	pieces := newRowPieces(nf * m)
-	w, peak := fitWeightsReusing(pieces, n, m, nf, blind, vars, logVars)
-	if w[0] != nil && blind.addOverweightedIn(w[0], absVar, peak) {
-		w, _ = fitWeightsReusing(pieces, n, m, nf, blind, vars, logVars)
-	}
-	out.DifferenceWeights = w[0]
-	if opt.Blank != nil {
-		out.AbsoluteWeights = w[1]
-	}
 	// With Consume one of the two matrices is written in place of the single
 	// beams (each value is read before it is overwritten): the absolute one
 	// when there is a blank, else the differences. absorbances writes every
-	// value of both, so new ones need not be cleared first.
+	// value of both, so new ones need not be cleared first, and until then
+	// the weight fits' buffers may use the differences' memory.
 	switch {
 	case opt.Blank != nil && opt.Consume:
 		out.Absolute, out.Difference = s.Values, fresh.Overwritten(n, m)
@@ -1450,6 +1439,21 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 		out.Difference = s.Values
 	default:
 		out.Difference = fresh.Overwritten(n, m)
+	}
+	pieces := newRowPieces(nf * m)
+	if out.Difference != s.Values {
+		pieces.borrow(out.Difference.RawMatrix().Data)
+	}
+	// absVar ≤ diffVar at every point (refVar ≥ 0, and rounding keeps the
+	// order), so the first fit's peaks bound the products addOverweighted
+	// tests: only rows whose bound reaches the threshold are looked at.
+	w, peak := fitWeightsReusing(pieces, n, m, nf, blind, vars, logVars)
+	if w[0] != nil && blind.addOverweightedIn(w[0], absVar, peak) {
+		w, _ = fitWeightsReusing(pieces, n, m, nf, blind, vars, logVars)
+	}
+	out.DifferenceWeights = w[0]
+	if opt.Blank != nil {
+		out.AbsoluteWeights = w[1]
 	}
 	finite, absTop := absorbances(s.Values, ref, opt.Blank, out.Difference, out.Absolute, blind)
 	fillBlind(out.Difference, blind, s.Times)

@@ -33,13 +33,27 @@ func eachRowBlock(n, m int, f func(r0, r1 int)) {
 type rowPieces struct {
 	width int
 	bufs  [][]float64
+	spare []float64 // memory to cut buffers from before making any (borrow)
 }
 
 func newRowPieces(width int) *rowPieces { return &rowPieces{width: width} }
 
+// borrow lends the pieces memory that the caller will overwrite in full
+// once they are no longer used: the buffers are cut from it while it
+// lasts. A data-sized matrix about to be written is such memory, already
+// the process's to fault in: the pieces then add no pages of their own
+// (4 MB of them at 2000 × 3001 with a blank, each page's first touch about
+// 10 µs on the benchmark machine).
+func (p *rowPieces) borrow(spare []float64) { p.spare = spare }
+
 // take returns k buffers of size values each, made on first use.
 func (p *rowPieces) take(k, size int) [][]float64 {
 	for len(p.bufs) < k {
+		if len(p.spare) >= size {
+			p.bufs = append(p.bufs, p.spare[:size:size])
+			p.spare = p.spare[size:]
+			continue
+		}
 		p.bufs = append(p.bufs, make([]float64, size))
 	}
 	return p.bufs[:k]

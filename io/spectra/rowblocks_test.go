@@ -21,6 +21,10 @@ func TestMapRowsReusingReducesInOrder(t *testing.T) {
 		for _, sz := range [][2]int{{1, 3}, {7, 9000}, {64, 1000}, {500, 700}, {2001, 301}} {
 			n, width := sz[0], sz[1]
 			p := newRowPieces(width)
+			if n%2 == 1 {
+				// Buffers cut from lent memory, enough for three pieces.
+				p.borrow(make([]float64, 3*rowBlock(width)*width+5))
+			}
 			for pass := 0; pass < 2; pass++ {
 				slow := rng.IntN(n) // a row whose map takes longer
 				next, inside := 0, 0
@@ -60,5 +64,36 @@ func TestMapRowsReusingReducesInOrder(t *testing.T) {
 				}
 			}
 		}
+	}
+}
+
+// take cuts its buffers from lent memory while it lasts (borrow), each its
+// own stretch of it, then makes the rest: buffers that overlapped would hand
+// one piece's values to another (the contract above).
+func TestRowPiecesBorrowDisjoint(t *testing.T) {
+	const size = 10
+	spare := make([]float64, 2*size+7)
+	p := newRowPieces(1)
+	p.borrow(spare)
+	bufs := p.take(4, size)
+	for k, b := range bufs {
+		if len(b) != size || cap(b) != size {
+			t.Fatalf("buffer %d has length %d capacity %d, want %d and %d", k, len(b), cap(b), size, size)
+		}
+		b[0] = float64(k + 1)
+	}
+	for k := 0; k < 2; k++ {
+		if &bufs[k][0] != &spare[k*size] {
+			t.Errorf("buffer %d is not the lent memory's stretch %d", k, k)
+		}
+	}
+	if spare[0] != 1 || spare[size] != 2 || spare[2*size] != 0 {
+		t.Errorf("lent memory holds %v, %v, %v at the buffers' starts, want 1, 2, 0", spare[0], spare[size], spare[2*size])
+	}
+	if bufs[2][0] != 3 || bufs[3][0] != 4 {
+		t.Errorf("made buffers hold %v, %v, want 3, 4", bufs[2][0], bufs[3][0])
+	}
+	if again := p.take(4, size); &again[3][0] != &bufs[3][0] {
+		t.Error("a second take made new buffers instead of reusing")
 	}
 }
