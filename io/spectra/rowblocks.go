@@ -5,6 +5,7 @@ import (
 	"sync"
 	"sync/atomic"
 
+	"github.com/bandsolve/bandsolve/internal/fanout"
 	"github.com/bandsolve/bandsolve/internal/product"
 )
 
@@ -76,6 +77,9 @@ func (p *rowPieces) take(k, size int) [][]float64 {
 // only once the piece slots before it is reduced. Values left in them from
 // an earlier pass are never read, since mapRow writes a row's values before
 // reduce reads them.
+//
+// A panic in mapRow or reduce is raised again here once every worker has
+// ended, the lowest piece's (rowPass.work).
 func mapRowsReusing(p *rowPieces, n int, mapRow func(i int, out []float64), reduce func(i int, out []float64)) {
 	width := p.width
 	b := rowBlock(width)
@@ -88,68 +92,120 @@ func mapRowsReusing(p *rowPieces, n int, mapRow func(i int, out []float64), redu
 		}
 		return
 	}
-	pieces := (n + b - 1) / b
 	slots := 4 * w
-	bufs := p.take(slots, b*width)
-	rows := func(k int, f func(i int, out []float64)) {
-		buf := bufs[k%slots]
-		for i := k * b; i < min(n, (k+1)*b); i++ {
-			o := (i - k*b) * width
-			f(i, buf[o:o+width])
-		}
-	}
-	var (
-		mu       sync.Mutex
-		freed    = sync.NewCond(&mu)
-		mapped   = make([]bool, pieces)
-		next     int  // the next piece to reduce
-		reducing bool // a worker is reducing pieces next, next+1, …
-		claim    atomic.Int64
-	)
-	work := func() {
-		for {
-			k := int(claim.Add(1) - 1)
-			if k >= pieces {
-				return
-			}
-			mu.Lock()
-			for next <= k-slots { // its buffer still holds piece k − slots
-				freed.Wait()
-			}
-			mu.Unlock()
-			rows(k, mapRow)
-			mu.Lock()
-			mapped[k] = true
-			if reducing || next != k {
-				mu.Unlock()
-				continue
-			}
-			// Piece k is next: reduce it and the mapped pieces after it,
-			// outside the lock, in order; the mutex orders these calls
-			// after the maps they read and before later reductions.
-			reducing = true
-			for next < pieces && mapped[next] {
-				r := next
-				mu.Unlock()
-				rows(r, reduce)
-				mu.Lock()
-				next++
-				freed.Broadcast()
-			}
-			reducing = false
-			mu.Unlock()
-		}
-	}
+	pieces := (n + b - 1) / b
+	pass := &rowPass{n: n, b: b, width: width, pieces: pieces, slots: slots,
+		bufs: p.take(slots, b*width), mapRow: mapRow, reduce: reduce,
+		mapped: make([]bool, pieces), stop: pieces}
+	pass.freed.L = &pass.mu
 	var wg sync.WaitGroup
 	for g := 1; g < w; g++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			work()
+			pass.work()
 		}()
 	}
-	work()
+	pass.work()
 	wg.Wait()
+	pass.fault.Raise()
+}
+
+// rowPass is what the workers of one parallel mapRowsReusing share.
+type rowPass struct {
+	n, b, width    int
+	pieces, slots  int
+	bufs           [][]float64
+	mapRow, reduce func(i int, out []float64)
+
+	mu       sync.Mutex
+	freed    sync.Cond // a buffer was freed, or stop lowered; L is &mu
+	mapped   []bool
+	next     int  // the next piece to reduce
+	reducing bool // a worker is reducing pieces next, next+1, …
+	claim    atomic.Int64
+	stop     int // the lowest piece whose map or reduction panicked
+	fault    fanout.Fault
+}
+
+// rows calls f on each row of piece k with the row's values in the
+// piece's buffer.
+func (s *rowPass) rows(k int, f func(i int, out []float64)) {
+	buf := s.bufs[k%s.slots]
+	for i := k * s.b; i < min(s.n, (k+1)*s.b); i++ {
+		o := (i - k*s.b) * s.width
+		f(i, buf[o:o+s.width])
+	}
+}
+
+// work is one worker's part of the pass. A panic in a map or a reduction
+// ends its worker; the others are woken and leave every piece from it on,
+// but finish those below, so that the lowest piece's panic is the one
+// raised whatever the scheduling (internal/fanout): pieces are claimed in
+// ascending order, and each below the one that failed, mapped and reduced
+// in turn, frees the buffer the next waits for. No worker is left waiting
+// on freed. Within one piece all maps come before its reductions, where
+// one goroutine (GOMAXPROCS 1) alternates them row by row.
+func (s *rowPass) work() {
+	at := -1 // the piece this worker maps or reduces
+	defer s.fault.Catch(&at)
+	ended := false
+	defer func() {
+		if !ended { // panicking: stop at this piece, wake the waiters
+			s.mu.Lock()
+			s.stop = min(s.stop, at)
+			s.freed.Broadcast()
+			s.mu.Unlock()
+		}
+	}()
+	s.mapAndReduce(&at)
+	ended = true
+}
+
+// mapAndReduce claims pieces in turn, maps each and, when it is next,
+// reduces it and those mapped after it; *at is the piece it is on. A piece
+// from stop on is left: its worker returns.
+func (s *rowPass) mapAndReduce(at *int) {
+	for {
+		k := int(s.claim.Add(1) - 1)
+		if k >= s.pieces {
+			return
+		}
+		s.mu.Lock()
+		for s.next <= k-s.slots && k < s.stop { // its buffer still holds piece k − slots
+			s.freed.Wait()
+		}
+		if k >= s.stop {
+			s.mu.Unlock()
+			return
+		}
+		s.mu.Unlock()
+		*at = k
+		s.rows(k, s.mapRow)
+		s.mu.Lock()
+		s.mapped[k] = true
+		if !s.reducing && s.next == k {
+			s.reduceMapped(at)
+		}
+		s.mu.Unlock()
+	}
+}
+
+// reduceMapped reduces piece next and the mapped pieces after it below
+// stop, outside the lock, in order; the mutex orders these calls after the
+// maps they read and before later reductions. Called with mu held.
+func (s *rowPass) reduceMapped(at *int) {
+	s.reducing = true
+	for s.next < s.stop && s.mapped[s.next] {
+		r := s.next
+		s.mu.Unlock()
+		*at = r
+		s.rows(r, s.reduce)
+		s.mu.Lock()
+		s.next++
+		s.freed.Broadcast()
+	}
+	s.reducing = false
 }
 
 // scratch hands out buffers of one length for the blocks of product.FixedBlocks and
