@@ -13,7 +13,10 @@
 // panic raised does not depend on scheduling or GOMAXPROCS.
 package fanout
 
-import "sync"
+import (
+	"fmt"
+	"sync"
+)
 
 // Fault keeps the panic of the lowest-numbered piece among a loop's workers.
 // Its zero value is ready; it is safe for concurrent use.
@@ -50,4 +53,16 @@ func (f *Fault) Raise() {
 	if f.set {
 		panic(f.value)
 	}
+}
+
+// Error is a recovered panic p as an error, for a loop whose caller
+// already returns errors and reports the panic as one (naming the file or
+// path the piece was on): p itself when it is an error (a runtime.Error,
+// mat.ErrShape …), so that errors.Is and errors.As still find it, else an
+// error with p's text.
+func Error(p any) error {
+	if err, ok := p.(error); ok {
+		return err
+	}
+	return fmt.Errorf("%v", p)
 }

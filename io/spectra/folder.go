@@ -14,6 +14,7 @@ import (
 	"strings"
 	"sync"
 
+	"github.com/bandsolve/bandsolve/internal/fanout"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -248,7 +249,8 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 	if len(files) == 0 {
 		return nil, inputErr(dir, 0, "put one file per spectrum in it (.csv, .txt, .dat, .jdx …)", "holds no spectrum files")
 	}
-	// Read in parallel; each result lands in its own slot (order-free).
+	// Read in parallel; each result lands in its own slot (order-free), a
+	// read's panic too (readInFolder).
 	specs := make([]*Spectrum, len(files))
 	errs := make([]error, len(files))
 	var wg sync.WaitGroup
@@ -262,7 +264,7 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 		go func() {
 			defer wg.Done()
 			for i := range work {
-				specs[i], errs[i] = ReadSpectrum(files[i])
+				specs[i], errs[i] = readInFolder(files[i])
 			}
 		}()
 	}
@@ -332,6 +334,27 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 	}
 	return s, nil
 }
+
+// readInFolder is ReadSpectrum for one file of a folder, on a worker
+// goroutine. A panic there, unrecovered, would end the program past a
+// batch's recovery per run (cmd/bandsolve runOne); it is a bug of this
+// program's readers (bad input gets an error), and becomes the file's
+// error rather than a panic raised again on the caller, because the error
+// names the file to report with it, and ReadFolder picks the error it
+// returns by the files' order (their times), whatever the scheduling. The
+// other files are read on: no worker ends early, and none waits on another.
+func readInFolder(path string) (sp *Spectrum, err error) {
+	defer func() {
+		if p := recover(); p != nil {
+			sp, err = nil, fmt.Errorf("%s: internal error while reading it: %w (please report it with this file)", path, fanout.Error(p))
+		}
+	}()
+	return readSpectrum(path)
+}
+
+// readSpectrum is ReadSpectrum; a variable so that a test can make a read
+// panic.
+var readSpectrum = ReadSpectrum
 
 func noTimes(dir string) error {
 	return inputErr(dir, 0, "give --times FILE (columns file,time_s) or --times-from-name", "a folder of spectra needs acquisition times")
