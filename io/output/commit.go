@@ -9,6 +9,8 @@ import (
 	"strings"
 	"sync"
 	"time"
+
+	"github.com/bandsolve/bandsolve/internal/fanout"
 )
 
 // The commit, safe against kill -9 and a second run at any instant
@@ -272,7 +274,7 @@ func syncTree(dir string, flushed map[string]bool) error {
 		go func() {
 			defer wg.Done()
 			for i := range work {
-				errs[i] = syncPath(paths[i])
+				errs[i] = flushOne(paths[i])
 			}
 		}()
 	}
@@ -282,6 +284,25 @@ func syncTree(dir string, flushed map[string]bool) error {
 	close(work)
 	wg.Wait()
 	return errors.Join(errs...)
+}
+
+// flushOne is syncPath(p) on a flushing goroutine (syncTree's, the
+// flusher's). A panic there, unrecovered, would end the program past a
+// batch's recovery per run (cmd/bandsolve runOne). It is a bug of this
+// program (a flush that fails gets an error), and becomes p's error rather
+// than a panic raised again on the caller: the commit already returns its
+// flushes' errors, and on an error it removes the staging folder and leaves
+// the output folder as it was, where a panic would leave the stage for the
+// next run's tidy. No flushing goroutine ends early, so syncTree's hand-out
+// never waits for a worker that is gone, and the errors are joined in the
+// paths' order whatever the scheduling.
+func flushOne(p string) (err error) {
+	defer func() {
+		if v := recover(); v != nil {
+			err = fmt.Errorf("%s: internal error while flushing it to disk: %w (please report it)", p, fanout.Error(v))
+		}
+	}()
+	return syncPath(p)
 }
 
 // syncPath is flushPath; a variable so that a test can watch the flushes.

@@ -75,7 +75,7 @@ func (f *flusher) work() {
 		j := f.queue[0]
 		f.queue = f.queue[1:]
 		f.mu.Unlock()
-		err := syncPath(j.path)
+		err := flushOne(j.path) // a panic too, as an error
 		f.mu.Lock()
 		if err == nil {
 			f.flushed[j.path] = max(f.flushed[j.path], j.write)
