@@ -16,6 +16,7 @@ import (
 	"sync/atomic"
 	"time"
 
+	"github.com/bandsolve/bandsolve/internal/fanout"
 	"github.com/bandsolve/bandsolve/io/cmdfile"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/spectra"
@@ -510,7 +511,7 @@ func startInputSumsAfter(prev *inputSums, paths []string) *inputSums {
 		}
 		for _, p := range todo {
 			if _, ok := h.sums[p]; !ok {
-				n, sum, err := hashFileYielding(p, h.stop)
+				n, sum, err := hashRecovered(p, h.stop)
 				if errors.Is(err, errHashStopped) {
 					return
 				}
@@ -520,6 +521,27 @@ func startInputSumsAfter(prev *inputSums, paths []string) *inputSums {
 	}()
 	return h
 }
+
+// hashRecovered is hashInput(p, stop) on the hashing goroutine. A panic
+// there, unrecovered, would end the program past a batch's recovery per
+// run (cmd/bandsolve runOne). It is a bug of this program (a file that
+// cannot be read gets an error), and becomes p's error rather than a panic
+// raised again where the sums are waited for: the manifest already returns
+// its files' errors, naming the file, and the run fails with it; waiters
+// (wait, abandon, the next startInputSumsAfter) are told by done being
+// closed whatever happened, and the files after p are hashed on.
+func hashRecovered(p string, stop *atomic.Bool) (n int64, sum string, err error) {
+	defer func() {
+		if v := recover(); v != nil {
+			n, sum, err = 0, "", fmt.Errorf("%s: internal error while hashing it: %w (please report it)", p, fanout.Error(v))
+		}
+	}()
+	return hashInput(p, stop)
+}
+
+// hashInput is hashFileYielding; a variable so that a test can make the
+// hashing panic.
+var hashInput = hashFileYielding
 
 // begun are the paths h hashes (none for nil).
 func (h *inputSums) begun() []string {
