@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"image/color"
 	"math"
-	"sort"
 	"strings"
 
 	"gonum.org/v1/plot"
@@ -18,24 +17,62 @@ const gapFactor = 3
 
 // splitAtGaps returns x and y with a NaN pair inserted wherever the axis
 // step jumps, so addLine breaks the line there.
-func splitAtGaps(x, y []float64) ([]float64, []float64) {
+func splitAtGaps(x, y []float64) ([]float64, []float64) { return splitAt(x, y, gapsOf(x)) }
+
+// gapsOf are the places where splitAtGaps breaks a line along x: the
+// indices i with a step from x[i−1] larger than gapFactor times the median
+// step (none when x has fewer than three points or the median step is not
+// positive). A figure of many lines along one axis finds them once.
+func gapsOf(x []float64) []int {
 	if len(x) < 3 {
-		return x, y
+		return nil
 	}
 	steps := make([]float64, 0, len(x)-1)
 	for i := 1; i < len(x); i++ {
 		steps = append(steps, math.Abs(x[i]-x[i-1]))
 	}
-	sorted := append([]float64(nil), steps...)
-	sort.Float64s(sorted)
-	med := sorted[len(sorted)/2]
+	med := medianOfSorted(steps)
 	if !(med > 0) {
+		return nil
+	}
+	var gaps []int
+	for i := 1; i < len(x); i++ {
+		if steps[i-1] > gapFactor*med {
+			gaps = append(gaps, i)
+		}
+	}
+	return gaps
+}
+
+// medianOfSorted is the element at len(v)/2 of v sorted as sort.Float64s
+// sorts it (NaNs first), found by selection (kth) on a copy rather than by
+// sorting one.
+func medianOfSorted(v []float64) float64 {
+	a := make([]float64, 0, len(v))
+	for _, s := range v {
+		if !math.IsNaN(s) {
+			a = append(a, s)
+		}
+	}
+	k := len(v)/2 - (len(v) - len(a)) // the NaNs come first
+	if k < 0 {
+		return math.NaN()
+	}
+	return kth(a, k)
+}
+
+// splitAt returns x and y with a NaN pair inserted before x[i] for each i
+// in gaps (gapsOf(x)); x and y as they are when there are none.
+func splitAt(x, y []float64, gaps []int) ([]float64, []float64) {
+	if len(gaps) == 0 {
 		return x, y
 	}
-	var ox, oy []float64
+	ox := make([]float64, 0, len(x)+len(gaps))
+	oy := make([]float64, 0, min(len(x), len(y))+len(gaps))
 	for i := range x {
-		if i > 0 && steps[i-1] > gapFactor*med {
+		if len(gaps) > 0 && gaps[0] == i {
 			ox, oy = append(ox, math.NaN()), append(oy, math.NaN())
+			gaps = gaps[1:]
 		}
 		ox = append(ox, x[i])
 		if i < len(y) {

@@ -52,6 +52,47 @@ func TestKthIsTheOrderStatistic(t *testing.T) {
 	}
 }
 
+// quantileAbs is the k-th smallest |v| over the finite values, k =
+// round(q·(n−1)), by definition of the order statistic: checked against a
+// full sort of |v| for the maps' quantiles (1 and 0.995, taken from a heap
+// of the largest values) and lower ones (taken by selection), on random
+// values, on values with many ties (±, so |v| ties across signs) and with
+// NaN and ±Inf among them (left out).
+func TestQuantileAbsIsTheOrderStatistic(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 10))
+	for _, n := range []int{1, 2, 7, 64, 65, 1000, 80000} {
+		for _, ties := range []bool{false, true} {
+			rows := make([][]float64, 0, n/50+1)
+			var abs []float64
+			for i := 0; i < n; {
+				r := make([]float64, min(50, n-i))
+				for j := range r {
+					r[j] = rng.NormFloat64()
+					if ties {
+						r[j] = float64(rng.IntN(7) - 3)
+					}
+					abs = append(abs, math.Abs(r[j]))
+				}
+				if i == 0 {
+					r = append(r, math.NaN(), math.Inf(1), math.Inf(-1))
+				}
+				rows = append(rows, r)
+				i += min(50, n-i)
+			}
+			slices.Sort(abs)
+			for _, q := range []float64{1, 0.995, 0.99, 0.9, 0.5, 0} {
+				want := abs[int(math.Round(q*float64(len(abs)-1)))]
+				if got := quantileAbs(rows, q); got != want {
+					t.Errorf("n = %d, ties %v, q = %g: %g, the sorted values give %g", n, ties, q, got, want)
+				}
+			}
+		}
+	}
+	if got := quantileAbs([][]float64{{math.NaN()}}, 1); got != 0 {
+		t.Errorf("no finite value: %g, want 0", got)
+	}
+}
+
 // The maps are drawn in mapLevels steps of the diverging scale: zero is
 // white exactly, ± the limit the ends of the scale, and every value's
 // colour is within 3 of 255 per channel of the continuous scale (ramp) at

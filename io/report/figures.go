@@ -359,13 +359,14 @@ func overlayFigure(f *Folder, m *Matrix, ax axisStyle, id, title, ylabel, captio
 	t0, t1 := m.Times[rows[0]], m.Times[rows[len(rows)-1]]
 	xlo, xhi := span(f.Maps.Axis)
 	hline(p, xlo, xhi, 0, grey, nil)
+	gaps := gapsOf(f.Maps.Axis)
 	for _, s := range sel {
 		i := rows[s]
 		q := 0.0
 		if t1 > t0 {
 			q = (m.Times[i] - t0) / (t1 - t0)
 		}
-		gx, gy := splitAtGaps(f.Maps.Axis, m.Rows[i])
+		gx, gy := splitAt(f.Maps.Axis, m.Rows[i], gaps)
 		if err := addLine(p, gx, gy, ramp(timeRamp, q), 0.9, nil); err != nil {
 			return nil, fmt.Errorf("%s: %w", id, err)
 		}
@@ -672,8 +673,9 @@ func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 	}
 	xlo, xhi := span(x)
 	hline(p, xlo, xhi, 0, okabeBlack, nil)
+	gaps := gapsOf(x)
 	for k, j := range comps {
-		gx, gy := splitAtGaps(x, t.Col(j))
+		gx, gy := splitAt(x, t.Col(j), gaps)
 		if err := addLine(p, gx, gy, componentColour(k), 1.4, dashOf(k)); err != nil {
 			return nil, err
 		}
@@ -1084,11 +1086,12 @@ func residualSpectrumFigure(f *Folder, m *Matrix, ax axisStyle) (*Figure, error)
 		hline(p, xlo, xhi, sg, okabeVermilion, []float64{5, 3})
 		legend = append(legend, LegendItem{Label: "noise σ", Colour: okabeVermilion, Dash: []float64{5, 3}})
 	}
-	gx, grms := splitAtGaps(x, rms)
+	gaps := gapsOf(x)
+	gx, grms := splitAt(x, rms, gaps)
 	if err := addLine(p, gx, grms, okabeBlue, 1.2, nil); err != nil {
 		return nil, err
 	}
-	gx, gmean := splitAtGaps(x, mean)
+	gx, gmean := splitAt(x, mean, gaps)
 	if err := addLine(p, gx, gmean, okabeGreen, 1.0, []float64{6, 3}); err != nil {
 		return nil, err
 	}

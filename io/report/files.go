@@ -35,8 +35,9 @@ func FigureFiles(f *Folder) (map[string][]byte, []string) {
 // Machine): a fresh 2.4 MB image per figure cost its pages' first touch,
 // and so did a fresh deflate state per file.
 type fileScratch struct {
-	pix []byte // the image the PNG is drawn in, when large enough; its content does not matter
-	png pngEncoder
+	pix   []byte // the image the PNG is drawn in, when large enough; its content does not matter
+	png   pngEncoder
+	lines lineScratch // what the figure's lines and bands are drawn with
 }
 
 // legendLayout is how a figure's legend is laid out under it: items per
@@ -73,6 +74,7 @@ func standalone(fig Figure, s *fileScratch) (svg, pngb []byte, err error) {
 	// filled again (a fill of the whole picture each).
 	ic, rgba := rasterCanvas(d.w, d.h+legH, s.pix)
 	s.pix = rgba.Pix
+	ic.scratch = &s.lines
 	c := draw.Canvas{Canvas: ic, Rectangle: vg.Rectangle{Max: vg.Point{X: d.w, Y: d.h + legH}}}
 	// The raster font has no superscript minus: "cm⁻¹" would print as
 	// "cm¹". Axis texts are written "cm-1" in the PNG only.

@@ -13,6 +13,7 @@ import (
 
 	"git.sr.ht/~sbinet/gg"
 	ftraster "github.com/golang/freetype/raster"
+	"golang.org/x/image/math/fixed"
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/font"
 	"gonum.org/v1/plot/plotter"
@@ -127,33 +128,34 @@ func (a axisStyle) apply(p *plot.Plot) {
 	}
 }
 
-// addLine adds x,y as a line, split at missing values (NaN).
+// addLine adds x,y as a line, split at missing values (NaN). The points
+// are copied once, into one array whose parts the segments' lines keep,
+// rather than gathered point by point and copied again by plotter.NewLine.
+// It gives no error: every point it keeps is finite, all NewLine checks.
 func addLine(p *plot.Plot, x, y []float64, c color.RGBA, width float64, dash []float64) error {
-	var seg plotter.XYs
-	flush := func() error {
+	all := make(plotter.XYs, 0, min(len(x), len(y)))
+	start := 0
+	flush := func() {
+		seg := all[start:len(all):len(all)]
 		if len(seg) >= 2 {
-			l, err := plotter.NewLine(seg)
-			if err != nil {
-				return err
-			}
+			// What plotter.NewLine gives for finite points, without its copy.
+			l := &plotter.Line{XYs: seg, LineStyle: plotter.DefaultLineStyle}
 			l.Color, l.Width, l.Dashes = c, vg.Points(width), lengths(dash)
 			p.Add(edgeLine{Line: l, boxes: &glyphBoxCache{}})
 		} else if len(seg) == 1 {
 			addPoints(p, seg, c, false)
 		}
-		seg = nil
-		return nil
+		start = len(all)
 	}
 	for i := range x {
 		if i >= len(y) || !finite(x[i]) || !finite(y[i]) {
-			if err := flush(); err != nil {
-				return err
-			}
+			flush()
 			continue
 		}
-		seg = append(seg, plotter.XY{X: x[i], Y: y[i]})
+		all = append(all, plotter.XY{X: x[i], Y: y[i]})
 	}
-	return flush()
+	flush()
+	return nil
 }
 
 // edgeLine is a line whose glyph boxes are only those the plot's padding
@@ -232,24 +234,77 @@ func (l edgeLine) glyphBoxes(plt *plot.Plot) []plot.GlyphBox {
 // Plot draws the line reduced to what the figure's pixels can show (thin):
 // a 3001-point spectrum is otherwise stroked point by point three times
 // per figure at resolutions where several points share one pixel column.
+// A line wholly inside the canvas (as every line of a figure whose axes
+// span its data) is thinned without clipping, which gives such a line back
+// as it is (draw.Canvas.ClipLinesXY: one line of the same points, none of
+// fewer than two) after four copies; its points are formed and thinned in
+// the canvas's scratch memory.
 func (l edgeLine) Plot(c draw.Canvas, plt *plot.Plot) {
 	if l.LineStyle.Width == 0 {
 		return
 	}
 	trX, trY := plt.Transforms(&c)
-	ps := make([]vg.Point, len(l.XYs))
+	s := scratchOf(c)
+	ps := grownPoints(&s.pts, len(l.XYs))
+	inside := true
 	for i, p := range l.XYs {
 		ps[i] = vg.Point{X: trX(p.X), Y: trY(p.Y)}
+		inside = inside && c.Contains(ps[i])
 	}
-	lines := c.ClipLinesXY(ps)
-	for i := range lines {
-		lines[i] = thin(lines[i])
+	var lines [][]vg.Point
+	switch {
+	case inside && len(ps) >= 2:
+		s.thinned = thinAppend(s.thinned[:0], ps)
+		s.lines = append(s.lines[:0], s.thinned)
+		lines = s.lines
+	case !inside:
+		lines = c.ClipLinesXY(ps)
+		for i := range lines {
+			lines[i] = thin(lines[i])
+		}
 	}
-	if pc, ok := baseCanvas(c).(*pixelCanvas); ok {
-		pc.strokeLines(c, l.LineStyle, lines)
-		return
+	switch cv := baseCanvas(c).(type) {
+	case *pixelCanvas:
+		cv.strokeLines(c, l.LineStyle, lines)
+	case *svgCanvas:
+		cv.strokeLines(c, l.LineStyle, lines)
+	default:
+		c.StrokeLines(l.LineStyle, lines...)
 	}
-	c.StrokeLines(l.LineStyle, lines...)
+}
+
+// lineScratch is memory that the lines and shaded bands drawn on one canvas
+// reuse, one after another: their points in canvas coordinates, thinned,
+// in the device's fixed point, and the rasterizer's path. Nothing drawn
+// keeps any of it: a stroke or a fill is done when its call returns (the
+// SVG data held back are bytes of their own).
+type lineScratch struct {
+	pts, thinned []vg.Point
+	lines        [][]vg.Point
+	fixed        []fixed.Point26_6
+	path         ftraster.Path
+}
+
+// scratchOf is the scratch memory of c's base canvas, or fresh memory for
+// a canvas that has none.
+func scratchOf(c draw.Canvas) *lineScratch {
+	switch cv := baseCanvas(c).(type) {
+	case *pixelCanvas:
+		if cv.scratch != nil {
+			return cv.scratch
+		}
+	case *svgCanvas:
+		return &cv.scratch
+	}
+	return &lineScratch{}
+}
+
+// grownPoints is *s resliced to n points, made anew when it is shorter.
+func grownPoints(s *[]vg.Point, n int) []vg.Point {
+	if cap(*s) < n {
+		*s = make([]vg.Point, n)
+	}
+	return (*s)[:n]
 }
 
 // pixelColumn is the width of the columns lines and shaded bands are
@@ -268,8 +323,15 @@ func thin(ps []vg.Point) []vg.Point {
 	if len(ps) < 4 {
 		return ps
 	}
+	return thinAppend(make([]vg.Point, 0, min(len(ps), 2048)), ps)
+}
+
+// thinAppend appends thin(ps) to out.
+func thinAppend(out, ps []vg.Point) []vg.Point {
+	if len(ps) < 4 {
+		return append(out, ps...)
+	}
 	col := func(p vg.Point) float64 { return math.Floor(float64(p.X / pixelColumn)) }
-	out := make([]vg.Point, 0, min(len(ps), 2048))
 	out = append(out, ps[0])
 	for i := 0; i < len(ps); {
 		c, lo, hi := col(ps[i]), i, i
@@ -301,32 +363,62 @@ func thin(ps []vg.Point) []vg.Point {
 // before it is filled; it has no outline stroke.
 type thinPolygon struct{ *plotter.Polygon }
 
+// Like a line, a ring wholly inside the canvas is not clipped, which would
+// give it back as it is (draw.Canvas.ClipPolygonXY) after four copies.
 func (pg thinPolygon) Plot(c draw.Canvas, plt *plot.Plot) {
 	trX, trY := plt.Transforms(&c)
+	s := scratchOf(c)
 	var rings [][]vg.Point
+	buf := s.thinned[:0] // the thinned rings, one after another
 	for _, ring := range pg.XYs {
-		ps := make([]vg.Point, len(ring))
+		ps := grownPoints(&s.pts, len(ring))
 		for i, p := range ring {
 			ps[i] = vg.Point{X: trX(p.X), Y: trY(p.Y)}
 		}
-		if ps = c.ClipPolygonXY(thin(ps)); len(ps) > 0 {
+		start := len(buf)
+		buf = thinAppend(buf, ps)
+		// A ring made by an earlier append keeps the array it was made in.
+		ps = buf[start:len(buf):len(buf)]
+		if !allInside(c, ps) {
+			ps = c.ClipPolygonXY(ps)
+		}
+		if len(ps) > 0 {
 			rings = append(rings, ps)
 		}
 	}
+	s.thinned = buf
 	if pg.Color == nil || len(rings) == 0 {
 		return
 	}
 	c.SetColor(pg.Color)
-	if pc, ok := baseCanvas(c).(*pixelCanvas); ok {
-		pc.fillRings(rings, pg.Color)
-		return
+	switch cv := baseCanvas(c).(type) {
+	case *pixelCanvas:
+		cv.fillRings(rings, pg.Color)
+	case *svgCanvas:
+		cv.fillRings(c, rings)
+	default:
+		c.Fill(ringsPath(rings))
 	}
-	c.Fill(ringsPath(rings))
+}
+
+// allInside says whether every point lies in c, as its clipping tests
+// them (draw.Canvas.Contains: the same bounds and slop).
+func allInside(c draw.Canvas, ps []vg.Point) bool {
+	for _, p := range ps {
+		if !c.Contains(p) {
+			return false
+		}
+	}
+	return true
 }
 
 // ringsPath is the path of closed polygons.
 func ringsPath(rings [][]vg.Point) vg.Path {
-	var pa vg.Path
+	n := 0
+	for _, ps := range rings {
+		n += len(ps) + 1
+	}
+	pa := make(vg.Path, 0, n)
 	for _, ps := range rings {
 		pa.Move(ps[0])
 		for _, p := range ps[1:] {
@@ -370,9 +462,11 @@ func vline(p *plot.Plot, x, y0, y1 float64, c color.RGBA, dash []float64) {
 	p.Add(l)
 }
 
-// band shades the area between lo and hi.
+// band shades the area between lo and hi. Its ring is gathered in one
+// array of the size it can reach and kept by the polygon as it is, rather
+// than grown point by point and copied by plotter.NewPolygon.
 func band(p *plot.Plot, x, lo, hi []float64, c color.RGBA) {
-	var pts plotter.XYs
+	pts := make(plotter.XYs, 0, 2*len(x))
 	for i := range x {
 		if finite(x[i]) && finite(lo[i]) && finite(hi[i]) {
 			pts = append(pts, plotter.XY{X: x[i], Y: hi[i]})
@@ -386,10 +480,8 @@ func band(p *plot.Plot, x, lo, hi []float64, c color.RGBA) {
 	if len(pts) < 3 {
 		return
 	}
-	poly, err := plotter.NewPolygon(pts)
-	if err != nil {
-		return
-	}
+	// What plotter.NewPolygon gives for finite points, without its copy.
+	poly := &plotter.Polygon{XYs: []plotter.XYs{pts}, LineStyle: plotter.DefaultLineStyle}
 	poly.Color = c
 	poly.LineStyle.Width = 0
 	p.Add(thinPolygon{poly})
@@ -453,6 +545,9 @@ type pixelCanvas struct {
 	img *image.RGBA
 	ctx *gg.Context          // the canvas's drawing context
 	ras *ftraster.Rasterizer // for strokeLines, made on first use
+	// scratch is the memory its lines and bands are drawn with (nil: each
+	// takes fresh memory); a figure's files lend theirs (fileScratch).
+	scratch *lineScratch
 	// colours is the canvas's colour and those Push saved (vgimg keeps
 	// them, unexported), for FillString.
 	colours []color.Color
@@ -588,10 +683,29 @@ func span(xs ...[]float64) (lo, hi float64) {
 	return lo, hi
 }
 
-// quantileAbs is the q-quantile of |v| over finite values (sorted copy, so
-// the same data always gives the same limit).
+// quantileAbs is the q-quantile of |v| over finite values: the k-th
+// smallest of them, k = round(q·(n−1)), so the same data always give the
+// same limit. The maps ask for the top of the range (q = 1, 0.995), where
+// the k-th smallest is the least of the n−k largest: those are kept in a
+// heap of their own (topAbs), a few hundred values, rather than a copy of
+// all n to select from (kth), which is left for quantiles lower down.
 func quantileAbs(rows [][]float64, q float64) float64 {
-	var a []float64
+	n := 0
+	for _, r := range rows {
+		for _, v := range r {
+			if finite(v) {
+				n++
+			}
+		}
+	}
+	if n == 0 {
+		return 0
+	}
+	k := int(math.Round(q * float64(n-1)))
+	if top := n - k; top <= max(1, n/64) {
+		return topAbs(rows, top)
+	}
+	a := make([]float64, 0, n)
 	for _, r := range rows {
 		for _, v := range r {
 			if finite(v) {
@@ -599,10 +713,52 @@ func quantileAbs(rows [][]float64, q float64) float64 {
 			}
 		}
 	}
-	if len(a) == 0 {
-		return 0
+	return kth(a, k)
+}
+
+// topAbs is the least of the m largest |v| over finite values (m ≥ 1, at
+// most their number), kept in a min-heap of m values (Williams,
+// "Algorithm 232: Heapsort", CACM 1964): a value above the heap's least
+// takes its place. Ties keep the value, whichever of them is kept.
+func topAbs(rows [][]float64, m int) float64 {
+	h := make([]float64, 0, m)
+	for _, r := range rows {
+		for _, v := range r {
+			if !finite(v) {
+				continue
+			}
+			a := math.Abs(v)
+			switch {
+			case len(h) < m:
+				h = append(h, a)
+				for i := len(h) - 1; i > 0 && h[(i-1)/2] > h[i]; i = (i - 1) / 2 {
+					h[i], h[(i-1)/2] = h[(i-1)/2], h[i]
+				}
+			case a > h[0]:
+				h[0] = a
+				siftDown(h)
+			}
+		}
 	}
-	return kth(a, int(math.Round(q*float64(len(a)-1))))
+	return h[0]
+}
+
+// siftDown restores the min-heap h after its root was raised.
+func siftDown(h []float64) {
+	for i := 0; ; {
+		c := 2*i + 1
+		if c >= len(h) {
+			return
+		}
+		if c+1 < len(h) && h[c+1] < h[c] {
+			c++
+		}
+		if h[i] <= h[c] {
+			return
+		}
+		h[i], h[c] = h[c], h[i]
+		i = c
+	}
 }
 
 // kth is the k-th smallest of a (0-based), found by selection (Hoare,

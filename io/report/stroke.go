@@ -61,12 +61,23 @@ func (pc *pixelCanvas) strokeLines(c draw.Canvas, sty draw.LineStyle, lines [][]
 		colour = sty.Color
 	}
 	painter.SetColor(colour)
+	s := pc.lineScratch()
 	for _, l := range lines {
 		if len(l) == 0 {
 			continue
 		}
-		pc.strokeBands(st.subpaths(pc.fixedPoints(l, dpi)), st.width, painter)
+		s.fixed = pc.appendFixed(s.fixed[:0], l, dpi)
+		pc.strokeBands(st.subpaths(s.fixed), st.width, painter)
 	}
+}
+
+// lineScratch is the canvas's scratch memory, made on first use when it
+// was lent none.
+func (pc *pixelCanvas) lineScratch() *lineScratch {
+	if pc.scratch == nil {
+		pc.scratch = &lineScratch{}
+	}
+	return pc.scratch
 }
 
 // strokeStyle is a stroke's width (26.6 pixels) and dash pattern (pixels).
@@ -82,7 +93,8 @@ func fix(x float64) fixed.Int26_6 { return fixed.Int26_6(math.Round(x * 64)) }
 // subpaths is the path the drawing context strokes for the polyline pts
 // (device pixels, 26.6): cut into dashes when the style has some, and with
 // every point within 4/64 pixel (in |dx| + |dy|) of the last kept one left
-// out, as the context leaves them out.
+// out, as the context leaves them out. Without dashes the one subpath is
+// pts itself, the points left out taken away in place.
 func (st strokeStyle) subpaths(pts []fixed.Point26_6) [][]fixed.Point26_6 {
 	if len(st.dashes) == 0 {
 		return [][]fixed.Point26_6{keepApart(pts)}
@@ -106,9 +118,11 @@ func (st strokeStyle) subpaths(pts []fixed.Point26_6) [][]fixed.Point26_6 {
 
 // keepApart leaves out each point within 4/64 pixel (|dx| + |dy|) of the
 // last point kept, the drawing context's guard against degenerate joins.
+// The points kept are moved to the front of pts (each to a place at or
+// before its own, already read), which is returned shortened.
 func keepApart(pts []fixed.Point26_6) []fixed.Point26_6 {
 	const cut = 4
-	out := make([]fixed.Point26_6, 0, len(pts))
+	out := pts[:0]
 	for i, p := range pts {
 		if i > 0 {
 			q := out[len(out)-1]
@@ -205,22 +219,26 @@ func (pc *pixelCanvas) strokeBands(subpaths [][]fixed.Point26_6, width fixed.Int
 	margin := width/2 + 2*64
 	first := max(0, int((lo-margin)>>6)/bandColumns)
 	last := min((w-1)/bandColumns, int((hi+margin)>>6)/bandColumns)
+	s := pc.lineScratch()
 	if last-first < 2 {
-		pc.rasterizeStroke(pathOf(subpaths, 0, 0, false), width, painter, image.Rect(0, 0, w, pc.img.Rect.Dy()))
+		s.path = appendPath(s.path[:0], subpaths, 0, 0, false)
+		pc.rasterizeStroke(s.path, width, painter, image.Rect(0, 0, w, pc.img.Rect.Dy()))
 		return
 	}
 	for b := first; b <= last; b++ {
 		x0, x1 := b*bandColumns, min(w, (b+1)*bandColumns)
 		from, to := fixed.Int26_6(x0*64)-margin, fixed.Int26_6(x1*64)+margin
-		pc.rasterizeStroke(pathOf(subpaths, from, to, true), width, painter, image.Rect(x0, 0, x1, pc.img.Rect.Dy()))
+		s.path = appendPath(s.path[:0], subpaths, from, to, true)
+		pc.rasterizeStroke(s.path, width, painter, image.Rect(x0, 0, x1, pc.img.Rect.Dy()))
 	}
 }
 
-// pathOf is the rasterizer's path of the subpaths; with near, only the
-// runs of consecutive segments whose x extent meets [from, to], each run a
-// subpath of its own.
-func pathOf(subpaths [][]fixed.Point26_6, from, to fixed.Int26_6, near bool) ftraster.Path {
-	var p ftraster.Path
+// appendPath appends to p the rasterizer's path of the subpaths; with
+// near, only the runs of consecutive segments whose x extent meets
+// [from, to], each run a subpath of its own. The rasterizer reads a path
+// only while it is added, so one band's path is made where the last one's
+// was.
+func appendPath(p ftraster.Path, subpaths [][]fixed.Point26_6, from, to fixed.Int26_6, near bool) ftraster.Path {
 	for _, sp := range subpaths {
 		if len(sp) < 2 {
 			continue
@@ -252,13 +270,13 @@ func (pc *pixelCanvas) rasterizeStroke(path ftraster.Path, width fixed.Int26_6, 
 	pc.paintBand(r, painter, clip)
 }
 
-// fixedPoints are the points l (canvas coordinates) in the device's 26.6
-// fixed point, through the context's transform, as the context forms them.
-func (pc *pixelCanvas) fixedPoints(l []vg.Point, dpi float64) []fixed.Point26_6 {
-	pts := make([]fixed.Point26_6, len(l))
-	for i, p := range l {
+// appendFixed appends to pts the points l (canvas coordinates) in the
+// device's 26.6 fixed point, through the context's transform, as the
+// context forms them.
+func (pc *pixelCanvas) appendFixed(pts []fixed.Point26_6, l []vg.Point, dpi float64) []fixed.Point26_6 {
+	for _, p := range l {
 		x, y := pc.ctx.TransformPoint(p.X.Dots(dpi), p.Y.Dots(dpi))
-		pts[i] = gg.Point{X: x, Y: y}.Fixed()
+		pts = append(pts, gg.Point{X: x, Y: y}.Fixed())
 	}
 	return pts
 }
@@ -292,18 +310,24 @@ func (pc *pixelCanvas) paintBand(r *ftraster.Rasterizer, painter *ftraster.RGBAP
 // the same point, so they cross every row by the same height.
 func (pc *pixelCanvas) fillRings(rings [][]vg.Point, colour color.Color) {
 	dpi := pc.DPI()
+	s := pc.lineScratch()
 	var fixedRings [][]fixed.Point26_6
+	buf := s.fixed[:0] // the rings' points, one ring after another
 	lo, hi := fixed.Int26_6(math.MaxInt32), fixed.Int26_6(math.MinInt32)
 	for _, ring := range rings {
 		if len(ring) == 0 {
 			continue
 		}
-		pts := pc.fixedPoints(ring, dpi)
+		start := len(buf)
+		buf = pc.appendFixed(buf, ring, dpi)
+		// A ring made by an earlier append keeps the array it was made in.
+		pts := buf[start:len(buf):len(buf)]
 		for _, q := range pts {
 			lo, hi = min(lo, q.X), max(hi, q.X)
 		}
 		fixedRings = append(fixedRings, pts)
 	}
+	s.fixed = buf
 	if len(fixedRings) == 0 {
 		return
 	}
@@ -319,7 +343,7 @@ func (pc *pixelCanvas) fillRings(rings [][]vg.Point, colour color.Color) {
 	first := max(0, int((lo-margin)>>6)/bandColumns)
 	last := min((w-1)/bandColumns, int((hi+margin)>>6)/bandColumns)
 	if last-first < 2 {
-		var p ftraster.Path
+		p := s.path[:0]
 		for _, ring := range fixedRings {
 			p.Start(ring[0])
 			for _, q := range ring[1:] {
@@ -327,16 +351,18 @@ func (pc *pixelCanvas) fillRings(rings [][]vg.Point, colour color.Color) {
 			}
 			p.Add1(ring[0])
 		}
+		s.path = p
 		pc.rasterizeFill(p, painter, image.Rect(0, 0, w, h))
 		return
 	}
 	for b := first; b <= last; b++ {
 		x0, x1 := b*bandColumns, min(w, (b+1)*bandColumns)
 		from, to := fixed.Int26_6(x0*64)-margin, fixed.Int26_6(x1*64)+margin
-		var p ftraster.Path
+		p := s.path[:0]
 		for _, ring := range fixedRings {
 			bandRing(&p, ring, from, to)
 		}
+		s.path = p
 		pc.rasterizeFill(p, painter, image.Rect(x0, 0, x1, h))
 	}
 }

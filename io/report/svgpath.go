@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
 	"gonum.org/v1/plot/vg/vgsvg"
 )
 
@@ -20,7 +21,8 @@ import (
 // vgsvg's own.
 type svgCanvas struct {
 	*vgsvg.Canvas
-	held [][]byte // the data of the paths held back, in the order drawn
+	held    [][]byte // the data of the paths held back, in the order drawn
+	scratch lineScratch
 }
 
 // heldPoint is the placeholder's point and heldData the data vgsvg writes
@@ -56,9 +58,99 @@ func (c *svgCanvas) hold(p vg.Path) vg.Path {
 		}
 	}
 	c.held = append(c.held, appendPathData(make([]byte, 0, 16*len(p)), p))
+	return placeholder()
+}
+
+// placeholder is the path handed to vgsvg in place of one held back.
+func placeholder() vg.Path {
 	var ph vg.Path
 	ph.Move(vg.Point{X: heldPoint, Y: heldPoint})
 	return ph
+}
+
+// strokeLines strokes lines with sty as draw.Canvas.StrokeLines does on c,
+// whose base canvas is sc: the data of a line hold would keep are
+// formatted from its points, rather than from a path made of them first
+// (a path's component is five times a point's size).
+func (sc *svgCanvas) strokeLines(c draw.Canvas, sty draw.LineStyle, lines [][]vg.Point) {
+	if len(lines) == 0 {
+		return
+	}
+	c.SetLineStyle(sty)
+	for _, l := range lines {
+		if len(l) == 0 {
+			continue
+		}
+		if len(l) < heldMin || !finitePoints(l) {
+			p := make(vg.Path, 0, len(l))
+			p.Move(l[0])
+			for _, pt := range l[1:] {
+				p.Line(pt)
+			}
+			c.Stroke(p)
+			continue
+		}
+		sc.held = append(sc.held, appendPolyline(make([]byte, 0, 16*len(l)), l, false))
+		sc.Canvas.Stroke(placeholder())
+	}
+}
+
+// fillRings fills the closed polygons rings as c.Fill(ringsPath(rings))
+// does on c, whose base canvas is sc, with their data formatted from their
+// points when hold would keep them.
+func (sc *svgCanvas) fillRings(c draw.Canvas, rings [][]vg.Point) {
+	n := 0 // the path's components: a move, the lines, a close per ring
+	for _, ps := range rings {
+		n += len(ps) + 1
+		if !finitePoints(ps) {
+			n = -1
+			break
+		}
+	}
+	if n < heldMin {
+		c.Fill(ringsPath(rings))
+		return
+	}
+	b := make([]byte, 0, 16*n)
+	for _, ps := range rings {
+		b = appendPolyline(b, ps, true)
+	}
+	sc.held = append(sc.held, b)
+	sc.Canvas.Fill(placeholder())
+}
+
+// finitePoints says whether every coordinate of ps is finite.
+func finitePoints(ps []vg.Point) bool {
+	for _, p := range ps {
+		if x, y := float64(p.X), float64(p.Y); math.IsNaN(x-x) || math.IsNaN(y-y) {
+			return false
+		}
+	}
+	return true
+}
+
+// appendPolyline appends the path data appendPathData gives for a move to
+// ps[0] and lines to the rest, closed with close.
+func appendPolyline(b []byte, ps []vg.Point, close bool) []byte {
+	for i, p := range ps {
+		if i == 0 {
+			b = append(b, 'M')
+		} else {
+			b = append(b, 'L')
+		}
+		b = appendPoint(b, p)
+	}
+	if close {
+		b = append(b, 'Z')
+	}
+	return b
+}
+
+// appendPoint appends a point's coordinates as appendPathData does.
+func appendPoint(b []byte, p vg.Point) []byte {
+	b = strconv.AppendFloat(b, p.X.Points(), 'g', 5, 64)
+	b = append(b, ',')
+	return strconv.AppendFloat(b, p.Y.Points(), 'g', 5, 64)
 }
 
 // appendPathData appends the SVG path data of a path of moves, lines and
@@ -77,9 +169,7 @@ func appendPathData(b []byte, p vg.Path) []byte {
 			b = append(b, 'Z')
 			continue
 		}
-		b = strconv.AppendFloat(b, comp.Pos.X.Points(), 'g', 5, 64)
-		b = append(b, ',')
-		b = strconv.AppendFloat(b, comp.Pos.Y.Points(), 'g', 5, 64)
+		b = appendPoint(b, comp.Pos)
 	}
 	return b
 }
