@@ -64,3 +64,9 @@ func log10QuoMaxAVX512(dst, x, y, top []float64) (finite bool)
 //
 //go:noescape
 func quoSquaresAVX512(d, a, x, y, e []float64, c float64, logs bool)
+
+// scaleObservedAVX512 is ScaleObserved eight at a time; len(o) is a
+// positive multiple of 8 and w is as long.
+//
+//go:noescape
+func scaleObservedAVX512(o, w []float64, a float64) (peak float64, nan bool)

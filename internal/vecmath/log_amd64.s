@@ -507,3 +507,51 @@ qszLogLoop:
 qszDone:
 	VZEROUPPER
 	RET
+
+// func scaleObservedAVX512(o, w []float64, a float64) (peak float64, nan bool)
+//
+// Z15 a, Z14 +Inf, Z13 NaN, Z8 zero; Z9 the lanes' largest products (MAXPD
+// keeps the running value when the product is NaN), K5 the lanes that met
+// a NaN.
+TEXT ·scaleObservedAVX512(SB), NOSPLIT, $0-65
+	MOVQ o_base+0(FP), DI
+	MOVQ o_len+8(FP), CX
+	MOVQ w_base+24(FP), SI
+	VBROADCASTSD a+48(FP), Z15
+	VBROADCASTSD negInf<>(SB), Z14
+	VPXORQ Z8, Z8, Z8
+	VSUBPD Z14, Z8, Z14 // 0 − (−Inf) = +Inf
+	VBROADCASTSD nan<>(SB), Z13
+	VPXORQ Z9, Z9, Z9
+	KXORW K5, K5, K5
+	SHRQ $3, CX
+
+soLoop:
+	VMOVUPD (DI), Z0
+	VMULPD  (SI), Z15, Z1          // a·w
+	VCMPPD  $0x1e, Z8, Z0, K1      // v > 0 (GT_OQ)
+	VCMPPD  $0x11, Z14, Z0, K1, K2 // and v < +Inf (LT_OQ)
+	KNOTW   K2, K3
+	VMULPD  Z0, Z1, Z2             // (a·w)·v
+	VMULPD  Z13, Z1, K3, Z2        // (a·w)·NaN where v is left out
+	VMOVUPD Z2, (DI)
+	VMAXPD  Z9, Z2, Z9
+	VCMPPD  $3, Z2, Z2, K4         // UNORD_Q: the product is NaN
+	KORW    K4, K5, K5
+	ADDQ $64, DI
+	ADDQ $64, SI
+	DECQ CX
+	JNZ  soLoop
+
+	VEXTRACTF64X4 $1, Z9, Y1
+	VMAXPD        Y1, Y9, Y9
+	VEXTRACTF128  $1, Y9, X1
+	VMAXPD        X1, X9, X9
+	VUNPCKHPD     X9, X9, X1
+	VMAXPD        X1, X9, X9
+	VMOVSD        X9, peak+56(FP)
+	KMOVW         K5, AX
+	TESTW         AX, AX
+	SETNE         nan+64(FP)
+	VZEROUPPER
+	RET

@@ -33,3 +33,7 @@ func log10QuoMaxAVX512(dst, x, y, top []float64) bool {
 func quoSquaresAVX512(d, a, x, y, e []float64, c float64, logs bool) {
 	panic("vecmath: no vector division on this build")
 }
+
+func scaleObservedAVX512(o, w []float64, a float64) (float64, bool) {
+	panic("vecmath: no vector scaling on this build")
+}

@@ -1012,15 +1012,9 @@ func scaleSums(pieces *rowPieces, n, m int, blind *Blind, variances func(i int, 
 			if w == nil {
 				continue
 			}
-			o := buf[f*m : (f+1)*m]
-			ai := w.Row[i]
-			col := w.Col[:m]
-			observedOnly(o, blind.row(i))
-			for j, v := range o {
-				o[j] = ai * col[j] * v // NaN stays NaN
-			}
+			p := scaleObserved(buf[f*m:(f+1)*m], w.Col[:m], w.Row[i], blind.row(i))
 			if f == 0 {
-				peak[i] = peakObserved(o, blind.row(i))
+				peak[i] = p
 			}
 		}
 	}, func(i int, buf []float64) {
@@ -1065,33 +1059,34 @@ func addScaleSumsPair(a, b *scaleSum, ta, tb []float64) {
 	a.sum, a.cnt, b.sum, b.cnt = ga, ca, gb, cb
 }
 
-// peakObserved is the largest of the products t in o (all ≥ 0 or NaN)
-// outside the blind channels bl (ascending, as observedOnly takes them);
-// NaN when one of them is NaN: a point left out of the fit though not
-// blind, which no bound then covers.
-func peakObserved(o []float64, bl []int) float64 {
-	mx, start := 0.0, 0
-	run := func(t []float64) bool {
-		for _, v := range t {
-			if v > mx {
-				mx = v
-			} else if v != v {
-				return false
-			}
-		}
-		return true
+// scaleObserved turns the variances o of a row into the products
+// a_i·b_j·var_ij with a_i = ai and b_j = col[j], NaN where the point is
+// left out of the fit (the blind channels bl, ascending, and variances that
+// are not positive and finite), and returns their peak, in one pass over each
+// stretch between blind channels (vecmath.ScaleObserved) instead of three
+// over the row: marking those points NaN, forming the products, and taking
+// the peak, the largest product of the observed points (NaN when one of
+// them is NaN: a point left out of the fit though not blind, which no bound
+// then covers).
+func scaleObserved(o, col []float64, ai float64, bl []int) float64 {
+	nan := math.NaN()
+	col = col[:len(o)]
+	mx, anyNaN, start := 0.0, false, 0
+	run := func(lo, hi int) {
+		p, q := vecmath.ScaleObserved(o[lo:hi], col[lo:hi], ai)
+		mx, anyNaN = max(mx, p), anyNaN || q // p ≥ +0, never NaN
 	}
 	for _, j := range bl {
 		if j < start || j >= len(o) {
 			continue
 		}
-		if !run(o[start:j]) {
-			return math.NaN()
-		}
+		run(start, j)
+		o[j] = ai * col[j] * nan
 		start = j + 1
 	}
-	if !run(o[start:]) {
-		return math.NaN()
+	run(start, len(o))
+	if anyNaN {
+		return nan
 	}
 	return mx
 }
@@ -1133,36 +1128,6 @@ func unboundRaised(peak []float64, blind *Blind, row0, row, col0, col []float64)
 			if !blind.Has(i, j) {
 				peak[i] = math.NaN()
 			}
-		}
-	}
-}
-
-// observedOnly replaces the variances in o that are left out of a fit (the
-// blind channels bl, ascending, and values that are not positive and finite)
-// by NaN. The stretches between blind channels go through a loop with no
-// look-up (one test of v per value), the blind channels are set on their
-// own: it runs on every value of the matrix.
-func observedOnly(o []float64, bl []int) {
-	nan := math.NaN()
-	start := 0
-	for _, j := range bl {
-		if j < start || j >= len(o) {
-			continue
-		}
-		observedRun(o[start:j])
-		o[j] = nan
-		start = j + 1
-	}
-	observedRun(o[start:])
-}
-
-// observedRun is observedOnly for a stretch with no blind channel:
-// !(v > 0 && v < +Inf) is !(v > 0) || IsInf(v, 0), and NaN fails both.
-func observedRun(o []float64) {
-	nan, inf := math.NaN(), math.Inf(1)
-	for j, v := range o {
-		if !(v > 0 && v < inf) {
-			o[j] = nan
 		}
 	}
 }

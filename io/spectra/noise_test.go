@@ -185,39 +185,63 @@ func TestStepToNoise(t *testing.T) {
 }
 
 // TestObservedOnly checks the values a weight fit keeps against the
-// definitions in the comments of observedOnly and logObserved: NaN at the
-// blind channels and at every value that is not positive and finite, v
-// itself elsewhere (observedOnly); log v (Go's math.Log, the reference) at
-// every channel not blind, finite exactly at the positive finite values
+// definitions in the comments of scaleObserved and logObserved: NaN at the
+// blind channels and at every value that is not positive and finite, the
+// product ai·col_j·v elsewhere (Go's own arithmetic, the reference; with
+// ai = col_j = 1 the product is v itself, IEEE 754), with the largest of
+// those products as the peak, NaN when one of the channels not blind is
+// NaN (scaleObserved); log v (Go's math.Log, the reference) at every
+// channel not blind, finite exactly at the positive finite values
 // (logObserved); blind lists with a channel at either end, repeated or
 // beyond the row change nothing else.
 func TestObservedOnly(t *testing.T) {
 	row := []float64{2, 0, -1, math.Inf(1), math.NaN(), 0.5, 1e-300, math.Inf(-1), 3, math.Copysign(0, -1), 1}
-	for _, bl := range [][]int{nil, {0}, {10}, {0, 5, 10}, {3, 3, 6}, {1, 20}} {
-		got := append([]float64(nil), row...)
-		observedOnly(got, bl)
-		logs := append([]float64(nil), row...)
-		logObserved(logs, bl)
-		for j, v := range row {
-			blind := slices.Contains(bl, j)
-			want := v
-			if blind || !(v > 0) || math.IsInf(v, 0) {
-				want = math.NaN()
-			}
-			if math.Float64bits(got[j]) != math.Float64bits(want) && !(math.IsNaN(got[j]) && math.IsNaN(want)) {
-				t.Errorf("blind %v: value %d (%g) became %g, want %g", bl, j, v, got[j], want)
-			}
-			wantLog := math.Log(v)
-			if blind {
-				wantLog = math.NaN()
-			}
-			if math.Float64bits(logs[j]) != math.Float64bits(wantLog) && !(math.IsNaN(logs[j]) && math.IsNaN(wantLog)) {
-				t.Errorf("blind %v: log of value %d (%g) is %g, want %g", bl, j, v, logs[j], wantLog)
-			}
-			if kept := !math.IsNaN(logs[j]) && !math.IsInf(logs[j], 0); kept != (v > 0 && !math.IsInf(v, 0) && !blind) {
-				t.Errorf("blind %v: value %d (%g) kept %v in the fit", bl, j, v, kept)
+	clean := []float64{2, 7, 0.5, 1e-300, 3, 1, 4.5, 9, 8, 2.5, 1}
+	col := []float64{1, 2, 3, 0.5, 0.25, 1e10, 1, 1, 7, 1, 3}
+	for _, r := range [][]float64{row, clean} {
+		for _, bl := range [][]int{nil, {0}, {10}, {0, 5, 10}, {3, 3, 6}, {1, 20}, {1, 2, 3, 4, 7, 9}} {
+			for _, sc := range []struct {
+				ai  float64
+				col []float64
+			}{{1, slices.Repeat([]float64{1}, len(r))}, {0.75, col}} {
+				checkObserved(t, r, bl, sc.ai, sc.col)
 			}
 		}
+	}
+}
+
+func checkObserved(t *testing.T, row []float64, bl []int, ai float64, col []float64) {
+	t.Helper()
+	got := append([]float64(nil), row...)
+	peak := scaleObserved(got, col, ai, bl)
+	logs := append([]float64(nil), row...)
+	logObserved(logs, bl)
+	wantPeak := 0.0
+	for j, v := range row {
+		blind := slices.Contains(bl, j)
+		want := ai * col[j] * v
+		if blind || !(v > 0) || math.IsInf(v, 0) {
+			want = math.NaN()
+		}
+		if !blind && (want > wantPeak || math.IsNaN(want)) && !math.IsNaN(wantPeak) {
+			wantPeak = want
+		}
+		if math.Float64bits(got[j]) != math.Float64bits(want) && !(math.IsNaN(got[j]) && math.IsNaN(want)) {
+			t.Errorf("blind %v, a %g: value %d (%g) became %g, want %g", bl, ai, j, v, got[j], want)
+		}
+		wantLog := math.Log(v)
+		if blind {
+			wantLog = math.NaN()
+		}
+		if math.Float64bits(logs[j]) != math.Float64bits(wantLog) && !(math.IsNaN(logs[j]) && math.IsNaN(wantLog)) {
+			t.Errorf("blind %v: log of value %d (%g) is %g, want %g", bl, j, v, logs[j], wantLog)
+		}
+		if kept := !math.IsNaN(logs[j]) && !math.IsInf(logs[j], 0); kept != (v > 0 && !math.IsInf(v, 0) && !blind) {
+			t.Errorf("blind %v: value %d (%g) kept %v in the fit", bl, j, v, kept)
+		}
+	}
+	if math.Float64bits(peak) != math.Float64bits(wantPeak) && !(math.IsNaN(peak) && math.IsNaN(wantPeak)) {
+		t.Errorf("blind %v, a %g: peak %g, want %g", bl, ai, peak, wantPeak)
 	}
 }
 
