@@ -48,12 +48,16 @@ func readMapped(path string) (raw []byte, release func(), err error) {
 // guardFault runs f with faults on mapped memory turned into an error
 // instead of a crash: a mapped file truncated by another program while it is
 // read raises SIGBUS on the missing pages (runtime/debug.SetPanicOnFault).
+// Only such a fault, a runtime error with an Addr method (SetPanicOnFault's
+// documentation), is the file's doing; any other panic, a runtime error of
+// a bug (an index out of range) included, is raised again, so that a bug is
+// not reported as a file changed while it was read.
 func guardFault(f func()) (err error) {
 	old := debug.SetPanicOnFault(true)
 	defer func() {
 		debug.SetPanicOnFault(old)
 		if p := recover(); p != nil {
-			if e, ok := p.(error); ok {
+			if e, ok := p.(memoryFault); ok {
 				err = fmt.Errorf("the file changed while it was read (%v)", e)
 				return
 			}
@@ -62,4 +66,11 @@ func guardFault(f func()) (err error) {
 	}()
 	f()
 	return nil
+}
+
+// memoryFault is the panic value of a fault on memory under
+// debug.SetPanicOnFault: a runtime.Error with the address that faulted.
+type memoryFault interface {
+	error
+	Addr() uintptr
 }

@@ -25,6 +25,7 @@ import (
 	"unsafe"
 
 	"github.com/bandsolve/bandsolve/internal/decimal"
+	"github.com/bandsolve/bandsolve/internal/fanout"
 	"github.com/bandsolve/bandsolve/internal/fresh"
 	"gonum.org/v1/gonum/mat"
 )
@@ -311,6 +312,10 @@ func readMatrixCSV(path string, pre int) (*Series, error) {
 	return s, err
 }
 
+// chunkStarts, when not nil, is called as each chunk of rows of a matrix
+// CSV is begun (a variable so that a test can make a chunk's parse panic).
+var chunkStarts func(c int)
+
 func parseMatrixCSV(path string, raw []byte, pre int) (*Series, error) {
 	lines := splitLines(raw)
 	if len(lines) == 0 {
@@ -376,15 +381,20 @@ func parseMatrixCSV(path string, raw []byte, pre int) (*Series, error) {
 		work <- c
 	}
 	close(work)
-	// parseRows is one worker's loop; a fault on the mapped file inside it
-	// becomes an error (guardFault) rather than a crash.
-	parseRows := func() {
+	// parseRows is one worker's loop, *at the chunk it is on; a fault on
+	// the mapped file inside it becomes an error (guardFault) rather than a
+	// crash.
+	parseRows := func(at *int) {
 		var buf [][]byte
 		var line, diffs []float64 // one channel's values, and its time differences
 		if scan != nil {
 			line, diffs = make([]float64, n), make([]float64, n)
 		}
 		for c := range work {
+			*at = c
+			if chunkStarts != nil {
+				chunkStarts(c)
+			}
 			for i := c * chunk; i < min(m, (c+1)*chunk); i++ {
 				l := rows[i]
 				buf = fields(l.text, sep, buf)
@@ -431,14 +441,20 @@ func parseMatrixCSV(path string, raw []byte, pre int) (*Series, error) {
 	}
 	workers := min(runtime.GOMAXPROCS(0), nch)
 	faults := make([]error, workers)
+	// Any other panic (a bug) ends its worker, the others drain the
+	// chunks, and the lowest chunk's is raised again here.
+	var fault fanout.Fault
 	for w := 0; w < workers; w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			faults[w] = guardFault(parseRows)
+			c := 0
+			defer fault.Catch(&c)
+			faults[w] = guardFault(func() { parseRows(&c) })
 		}()
 	}
 	wg.Wait()
+	fault.Raise()
 	for _, err := range faults {
 		if err != nil {
 			return nil, inputErr(path, 0, "do not change the file while it is read", "%v", err)
