@@ -91,6 +91,13 @@ type DecomposeOptions struct {
 	// of squares FrobeniusSq: two passes over D fewer. Of other dimensions, or
 	// incomplete, it is not used.
 	Screen *Screen
+	// Beside (m × c) and BesideInto (n × c), when both are given, ask for
+	// D Beside as well, written into BesideInto: internal/product's sums,
+	// mat.Dense.Mul's bits. The randomized method forms it in its first
+	// pass over D, as c more columns of the test matrix (each entry of a
+	// product is its own sum, so the sketch keeps its bits), instead of a
+	// pass of its own; the other methods form it apart.
+	Beside, BesideInto *mat.Dense
 }
 
 // Decompose picks by size: exact (gonum mat.SVD) for small matrices; for large ones the eigen-decomposition
@@ -135,15 +142,21 @@ func Decompose(d *mat.Dense, opt DecomposeOptions) (*Factors, error) {
 		seed = DefaultSeed
 	}
 
+	beside, besideInto, err := opt.besides(n, m)
+	if err != nil {
+		return nil, fmt.Errorf("svd: decompose: %w", err)
+	}
+	if beside != nil && method != MethodRandomized {
+		products.MulTo(besideInto, d, beside)
+	}
 	var f *Factors
-	var err error
 	switch method {
 	case MethodExact:
 		f, err = exactSVD(d, r)
 	case MethodGram:
 		f, err = gramSVD(d, r)
 	case MethodRandomized:
-		f, err = randomizedSVD(d, r, seed, opt.Start)
+		f, err = randomizedSVD(d, r, seed, opt.Start, beside, besideInto)
 	}
 	if err != nil {
 		return nil, fmt.Errorf("svd: decompose (%s): %w", method, err)
@@ -156,6 +169,20 @@ func Decompose(d *mat.Dense, opt DecomposeOptions) (*Factors, error) {
 	}
 	fixSigns(f)
 	return f, nil
+}
+
+// besides are Beside and BesideInto when both are given (nil, nil when
+// either is not), checked against D's n × m.
+func (opt DecomposeOptions) besides(n, m int) (beside, into *mat.Dense, err error) {
+	if opt.Beside == nil || opt.BesideInto == nil {
+		return nil, nil, nil
+	}
+	bm, c := opt.Beside.Dims()
+	in, ic := opt.BesideInto.Dims()
+	if bm != m || in != n || ic != c {
+		return nil, nil, fmt.Errorf("beside is %d × %d and its product %d × %d for %d × %d data", bm, c, in, ic, n, m)
+	}
+	return opt.Beside, opt.BesideInto, nil
 }
 
 // checkMatrix rejects inputs that would otherwise panic inside gonum or poison the
@@ -327,11 +354,18 @@ const eps = 0x1p-52
 // 2000 × 3001 benchmark's scaled differences the leading values agreed with the
 // random sketch's two iterations to six digits and the noise values came out
 // closer to the edge (67.1 against 65.6 for the sixth, edge 99.5).
-func randomizedSVD(d *mat.Dense, r int, seed uint64, start *mat.Dense) (*Factors, error) {
+//
+// beside (m × c, may be nil) rides along in the first pass as c more columns
+// of Ω, and D beside is copied out into besideInto (n × c).
+func randomizedSVD(d *mat.Dense, r int, seed uint64, start, beside, besideInto *mat.Dense) (*Factors, error) {
 	n, m := d.Dims()
 	l := min(r+randOversample, min(n, m))
 	rng := rand.New(rand.NewPCG(seed, 0x9e3779b97f4a7c15))
-	omega := mat.NewDense(m, l, nil)
+	c := 0
+	if beside != nil {
+		_, c = beside.Dims()
+	}
+	omega := mat.NewDense(m, l+c, nil)
 	raw := omega.RawMatrix()
 	p, iters := 0, randPowerIters
 	if start != nil {
@@ -350,17 +384,19 @@ func randomizedSVD(d *mat.Dense, r int, seed uint64, start *mat.Dense) (*Factors
 				row[j] = rng.NormFloat64()
 			}
 		}
+		if c > 0 {
+			copy(raw.Data[i*raw.Stride+l:i*raw.Stride+l+c], beside.RawRowView(i)[:c])
+		}
 	}
 	// The passes over D take internal/product's register-tiled kernels:
 	// gonum's Dgemm's sums term for term (the same bits), without its
 	// vector-kernel call per entry of D.
-	y := mat.NewDense(n, l, nil)
-	products.MulTo(y, d, omega)
+	y := firstPass(d, omega, l, besideInto)
 	var qr qrWork
 	qr.orthonormalize(y)
 	// Ω is spent once Y is formed: its memory takes the row space's
 	// sketches, and later the right vectors.
-	z := omega
+	z := mat.NewDense(m, l, raw.Data[:m*l])
 	for it := 0; it < iters; it++ {
 		products.MulTTo(z, d, y)
 		qr.orthonormalize(z)
@@ -371,6 +407,25 @@ func randomizedSVD(d *mat.Dense, r int, seed uint64, start *mat.Dense) (*Factors
 	// of D in ascending order either way.
 	products.MulTTo(z, d, y)
 	return sketchFactors(y, z, r)
+}
+
+// firstPass is Y = D Ω for the first l columns of omega (n × l); its
+// further columns, when there are any, are the product asked for beside
+// the sketch, copied into besideInto.
+func firstPass(d, omega *mat.Dense, l int, besideInto *mat.Dense) *mat.Dense {
+	n, _ := d.Dims()
+	_, k := omega.Dims()
+	if k == l {
+		y := mat.NewDense(n, l, nil)
+		products.MulTo(y, d, omega)
+		return y
+	}
+	both := mat.NewDense(n, k, nil)
+	products.MulTo(both, d, omega)
+	y := mat.NewDense(n, l, nil)
+	y.Copy(both.Slice(0, n, 0, l))
+	besideInto.Copy(both.Slice(0, n, l, k))
+	return y
 }
 
 // sketchFactors are the leading r factors of D from its range's basis Y

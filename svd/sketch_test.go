@@ -67,3 +67,64 @@ func TestSketchFactorsAreGonumSVDs(t *testing.T) {
 		}
 	}
 }
+
+// TestDecomposeBesideKeepsTheBits: asking for D Q beside the decomposition
+// changes no bit of the factors, and D Q is gonum's mat.Dense.Mul's
+// (reference library), whether it rides in the randomized method's first
+// pass (4 columns more than the 34 of the sketch: one register tile, and
+// 8 more: two) or is formed apart (the exact method).
+func TestDecomposeBesideKeepsTheBits(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 5))
+	d := mat.NewDense(300, 401, nil)
+	raw := d.RawMatrix()
+	for i := 0; i < 300; i++ {
+		for j := 0; j < 401; j++ {
+			raw.Data[i*raw.Stride+j] = math.Sin(float64(i)/40)*math.Cos(float64(j)/30) + 0.01*rng.NormFloat64()
+		}
+	}
+	for _, tc := range []struct {
+		method string
+		r, c   int
+	}{{MethodRandomized, 24, 4}, {MethodRandomized, 24, 8}, {MethodRandomized, 5, 1}, {MethodExact, 0, 3}} {
+		q := mat.NewDense(401, tc.c, nil)
+		for j := 0; j < 401; j++ {
+			for k := 0; k < tc.c; k++ {
+				q.Set(j, k, math.Pow(float64(j)/400, float64(k)))
+			}
+		}
+		plain, err := Decompose(d, DecomposeOptions{Method: tc.method, MaxFactors: tc.r})
+		if err != nil {
+			t.Fatal(err)
+		}
+		dq := mat.NewDense(300, tc.c, nil)
+		with, err := Decompose(d, DecomposeOptions{Method: tc.method, MaxFactors: tc.r, Beside: q, BesideInto: dq})
+		if err != nil {
+			t.Fatal(err)
+		}
+		var want mat.Dense
+		want.Mul(d, q)
+		sameMatrixBits(t, tc.method+" D Q", dq, &want)
+		sameMatrixBits(t, tc.method+" U", with.U, plain.U)
+		sameMatrixBits(t, tc.method+" V", with.V, plain.V)
+		for k := range plain.S {
+			if math.Float64bits(with.S[k]) != math.Float64bits(plain.S[k]) {
+				t.Fatalf("%s: s_%d = %v beside D Q, %v alone", tc.method, k, with.S[k], plain.S[k])
+			}
+		}
+	}
+}
+
+func sameMatrixBits(t *testing.T, what string, got, want mat.Matrix) {
+	t.Helper()
+	r, c := want.Dims()
+	if gr, gc := got.Dims(); gr != r || gc != c {
+		t.Fatalf("%s: %d × %d, want %d × %d", what, gr, gc, r, c)
+	}
+	for i := 0; i < r; i++ {
+		for j := 0; j < c; j++ {
+			if math.Float64bits(got.At(i, j)) != math.Float64bits(want.At(i, j)) {
+				t.Fatalf("%s[%d,%d] = %v, want %v", what, i, j, got.At(i, j), want.At(i, j))
+			}
+		}
+	}
+}

@@ -294,6 +294,23 @@ func zeroRow(x []float64) bool {
 	return true
 }
 
+// baselineBesides are the basis chooseBaseline takes D Q of and room for
+// that product (n × order+1), when it will form one: --baseline auto with
+// enough points; nil, nil otherwise. d is the matrix the rank is counted on,
+// col its column weights (nil: none).
+func baselineBesides(r *Result, d *mat.Dense, col []float64) (basis, dq *mat.Dense) {
+	maxOrder, auto, err := parseBaseline(r.Settings.Baseline)
+	n, m := d.Dims()
+	if err != nil || !auto || maxOrder < 0 || maxOrder+3 >= m {
+		return nil, nil
+	}
+	basis = svd.PolyBasis(r.Axis, maxOrder, col)
+	if basis == nil {
+		return nil, nil
+	}
+	return basis, mat.NewDense(n, maxOrder+1, nil)
+}
+
 // chooseBaseline settles the baseline order and the chemical rank of in.d (r.D, or
 // the scaled √A D √B when weighted); f holds its factors.
 func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
@@ -307,8 +324,9 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 		maxOrder = -1
 		r.Notes = append(r.Notes, fmt.Sprintf("no baseline model: %d points are too few", m))
 	}
-	if auto && maxOrder >= 0 && maxOrder+1 < m {
-		// One product D Q for every order the choice looks at.
+	if auto && maxOrder >= 0 && maxOrder+1 < m && in.dq == nil {
+		// One product D Q for every order the choice looks at (formed
+		// beside the decomposition when baselineBesides gave it).
 		in.basis = svd.PolyBasis(r.Axis, maxOrder, in.col)
 		in.dq = product.Mul(d, in.basis)
 	}

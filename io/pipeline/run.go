@@ -294,7 +294,11 @@ func run(s *Settings, log io.Writer, hashInputs bool) (_ *Result, err error) {
 			in.rebuild = func(d *mat.Dense) { svd.ScaleInto(d, r.D, r.Weights.Row, r.Weights.Col) }
 		}
 		if rf == nil {
-			if rf, err = svd.Decompose(in.d, svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed, Screen: in.screen}); err != nil {
+			// D Q for the baseline's choice rides along in the first
+			// pass over the scaled matrix instead of a pass of its own.
+			in.basis, in.dq = baselineBesides(r, in.d, in.col)
+			opt := svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed, Screen: in.screen, Beside: in.basis, BesideInto: in.dq}
+			if rf, err = svd.Decompose(in.d, opt); err != nil {
 				return nil, fmt.Errorf("factor analysis: %w", err)
 			}
 		}
