@@ -721,6 +721,13 @@ func longEnvelope(t *Table, comp, side, loName, hiName string) (x, lo, hi []floa
 	// (an empty experiment cell is an experiment too).
 	first, seen := "", false
 	need := max(cj, sj, pj, lj, hj)
+	n := 0 // the rows of the component and side: the most taken
+	for _, r := range t.Text {
+		if len(r) > need && r[cj] == comp && r[sj] == side {
+			n++
+		}
+	}
+	x, lo, hi = make([]float64, 0, n), make([]float64, 0, n), make([]float64, 0, n)
 	for _, r := range t.Text {
 		if len(r) <= need || r[cj] != comp || r[sj] != side {
 			continue

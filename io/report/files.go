@@ -156,12 +156,11 @@ func standaloneSVG(fig Figure, perRow int, legH vg.Length) ([]byte, error) {
 	if open < 0 || end < open || close < 0 {
 		return nil, fmt.Errorf("the figure's SVG has no <svg> element")
 	}
-	var b bytes.Buffer
-	b.WriteString("<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n")
-	b.WriteString(page[:close])
-	b.WriteString(strings.TrimPrefix(fig.SVG[open+1:end], "\n"))
-	b.WriteString(page[close:])
-	return b.Bytes(), nil
+	const prolog = "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n"
+	body := strings.TrimPrefix(fig.SVG[open+1:end], "\n")
+	b := make([]byte, 0, len(prolog)+len(page)+len(body))
+	b = append(append(append(append(b, prolog...), page[:close]...), body...), page[close:]...)
+	return b, nil
 }
 
 // Legend geometry: a sample swatchW wide, the label swatchGap after it,

@@ -1,7 +1,6 @@
 package report
 
 import (
-	"bytes"
 	"fmt"
 	"image"
 	"image/color"
@@ -17,6 +16,7 @@ import (
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/font"
 	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/text"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
 	"gonum.org/v1/plot/vg/vgimg"
@@ -91,7 +91,52 @@ func newPlot(xlabel, ylabel string) *plot.Plot {
 	g.Vertical.Color, g.Horizontal.Color = lightGrey, lightGrey
 	g.Vertical.Width, g.Horizontal.Width = vg.Points(0.4), vg.Points(0.4)
 	p.Add(g)
+	measureOnce(p)
 	return p
+}
+
+// measureOnce gives the plot's texts a handler that measures each text in
+// each font once (measuredText), in place of the plot's own, which it
+// asks.
+func measureOnce(p *plot.Plot) {
+	own := p.TextHandler
+	m := &measuredText{Handler: own}
+	for _, h := range []*text.Handler{&p.TextHandler, &p.Title.TextStyle.Handler, &p.Legend.TextStyle.Handler,
+		&p.X.Label.TextStyle.Handler, &p.X.Tick.Label.Handler, &p.Y.Label.TextStyle.Handler, &p.Y.Tick.Label.Handler} {
+		if *h == own {
+			*h = m
+		}
+	}
+}
+
+// measuredText is a text handler that keeps the box of each text in each
+// font it measured: gonum/plot measures a tick label several times a
+// drawing (the axes' sizes, their glyph boxes, the labels' places), and
+// each measure walks the font's tables for every glyph with a buffer of
+// its own, made anew (font.Face.Width). A box depends on the text and the
+// font alone, so it is the one the handler would give again. It is used by
+// one goroutine at a time, as its plot is.
+type measuredText struct {
+	text.Handler
+	boxes map[textKey][3]vg.Length
+}
+
+type textKey struct {
+	txt string
+	fnt font.Font
+}
+
+func (m *measuredText) Box(txt string, fnt font.Font) (width, height, depth vg.Length) {
+	k := textKey{txt, fnt}
+	if b, ok := m.boxes[k]; ok {
+		return b[0], b[1], b[2]
+	}
+	width, height, depth = m.Handler.Box(txt, fnt)
+	if m.boxes == nil {
+		m.boxes = map[textKey][3]vg.Length{}
+	}
+	m.boxes[k] = [3]vg.Length{width, height, depth}
+	return width, height, depth
 }
 
 // axisStyle is how a spectral axis is labelled and which way it runs.
@@ -642,7 +687,7 @@ func drawSVG(dr drawing, held bool) (s string, ok bool, err error) {
 		cv = c.Canvas
 	}
 	dr.draw(draw.New(cv))
-	var b bytes.Buffer
+	var b strings.Builder // its String is not a copy
 	if _, err := c.WriteTo(&b); err != nil {
 		return "", false, fmt.Errorf("writing SVG: %w", err)
 	}
@@ -927,6 +972,7 @@ func colourBar(lim float64, label string) *plot.Plot {
 		return []plot.Tick{{Value: -lim, Label: tickLabel(-lim)}, {Value: 0, Label: "0"}, {Value: lim, Label: tickLabel(lim)}}
 	})
 	p.Add(newRaster(img, [4]float64{0, 1, -lim, lim}))
+	measureOnce(p)
 	return p
 }
 

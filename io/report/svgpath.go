@@ -1,7 +1,6 @@
 package report
 
 import (
-	"bytes"
 	"math"
 	"strconv"
 	"strings"
@@ -189,7 +188,7 @@ func (c *svgCanvas) fill(s string) (string, bool) {
 	for _, d := range c.held {
 		n += len(d) + len(`d=""`) - len(heldData)
 	}
-	var b bytes.Buffer
+	var b strings.Builder // its String is not a copy
 	b.Grow(n)
 	for _, d := range c.held {
 		i := strings.Index(s, heldData)
