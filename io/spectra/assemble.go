@@ -328,6 +328,84 @@ func medianOver(c []float64, div float64) float64 {
 	return (lo/div + hi/div) / 2
 }
 
+// medianOverNear is medianOver with middlePairNear's first look near
+// *near, which it sets to the sample's middle value (before the division)
+// for the next channel.
+func medianOverNear(c []float64, div float64, near *float64) float64 {
+	lo, hi := middlePairNear(c, *near)
+	*near = hi
+	if len(c)%2 == 1 {
+		return hi / div
+	}
+	return (lo/div + hi/div) / 2
+}
+
+// nearWindow is the half-width, relative, of the window middlePairNear
+// looks in first, and nearPicks the most values it gathers there: the
+// median of 2000 absolute normal differences has a relative standard error
+// of about 2.6 %, so a neighbour's lies within 8 % of a channel's own nearly
+// always when the noise changes little from one channel to the next, and
+// about 7 % of such a sample lies in the window (the density of |N(0, σ)|
+// at its median 0.674σ is 0.64/σ).
+const (
+	nearWindow = 0.08
+	nearPicks  = 256
+)
+
+// middlePairNear is middlePair looking first among the values of c within
+// nearWindow of guess (the middle value of a neighbouring channel, whose
+// noise is much the same): one pass, without a branch on the data, counts
+// the values below the window and gathers those in it, and when the ranks
+// middlePair returns fall among those (rank h, and h − 1 for an even
+// count), selection among the few gives them. Else, or when c holds a
+// value radixOrder refuses (a negative value, −0, NaN), it is middlePair.
+// The order statistics are the same values whichever way they are found;
+// on the noise model's samples of 1998 the first look took 3.9 µs where
+// middlePair took 8.6 (load 7).
+func middlePairNear(c []float64, guess float64) (lo, hi float64) {
+	const inf = 0x7ff0000000000000 // every larger pattern is negative or NaN
+	if !(guess > 0 && guess < math.MaxFloat64/2) || len(c) < 2*nearPicks {
+		return middlePair(c)
+	}
+	lob := math.Float64bits(guess * (1 - nearWindow))
+	hib := math.Float64bits(guess * (1 + nearWindow))
+	// One slot more than is gathered: once nearPicks values are in, every
+	// further value is written to the last slot and the first nearPicks
+	// stay as they are.
+	var pick [nearPicks + 1]float64
+	below, in, top := 0, 0, uint64(0)
+	for _, x := range c {
+		// For patterns below 2⁶³ (values ≥ +0) the sign of u − lob says
+		// u < lob and that of hib − u says u > hib; a pattern above, any
+		// value refused, shows in top and sends c to middlePair.
+		u := math.Float64bits(x)
+		top = max(top, u)
+		under, over := int64(u-lob)>>63, int64(hib-u)>>63 // −1 or 0
+		below -= int(under)
+		pick[min(in, nearPicks)] = x
+		in += int(1 + (under | over))
+	}
+	h := len(c) / 2
+	lowest := h // the lowest rank wanted
+	if len(c)%2 == 0 {
+		lowest = h - 1
+	}
+	if top > inf || in > nearPicks || below > lowest || below+in <= h {
+		return middlePair(c)
+	}
+	p := pick[:in]
+	r := h - below
+	hi = selectKth(p, r)
+	if len(c)%2 == 1 {
+		return hi, hi
+	}
+	lo = p[0] // selectKth left nothing larger than p[r] before it
+	for _, x := range p[1:r] {
+		lo = math.Max(lo, x)
+	}
+	return lo, hi
+}
+
 // middlePair returns the order statistics of c (reordered) that its median
 // is made of: hi the value at rank len(c)/2 (0-based), lo the one before it
 // (meaningful for an even count).

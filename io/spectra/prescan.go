@@ -46,14 +46,17 @@ func newChannelScan(n, m, pre int) *channelScan {
 
 // channel scans channel j, whose beams in time order are x (all finite:
 // the parse accepts no other value), with buf (len(x) values) to hold its
-// time differences. Only one goroutine scans a given channel.
-func (c *channelScan) channel(j int, x, buf []float64) {
+// time differences. Only one goroutine scans a given channel. near is the
+// scanning goroutine's own: the middle of the last channel's differences
+// it scanned, where this channel's median is looked for first
+// (middlePairNear), replaced by this channel's.
+func (c *channelScan) channel(j int, x, buf []float64, near *float64) {
 	if len(x) == 0 {
 		c.chanMax[j], c.step[j] = math.Inf(-1), math.Inf(1)
 		return
 	}
 	if vecmath.AllPositiveFinite(x) {
-		c.cleanChannel(j, x, buf)
+		c.cleanChannel(j, x, buf, near)
 		return
 	}
 	// A channel with beams at or below zero, blind points: each test as
@@ -78,14 +81,14 @@ func (c *channelScan) channel(j int, x, buf []float64) {
 	}
 	c.chanMax[j], c.top[j], c.step[j] = hi, top, step
 	observed := func(i int) bool { return x[i] > 0 }
-	c.noise(j, x, buf, observed)
+	c.noise(j, x, buf, observed, near)
 }
 
 // cleanChannel is channel for positive beams only, the usual channel: its
 // largest beam and smallest change in one pass of four lanes
 // (vecmath.RaiseAndStep, the maxima and minimum scanCleanRow takes; what
 // it raises besides is scratch here).
-func (c *channelScan) cleanChannel(j int, x, buf []float64) {
+func (c *channelScan) cleanChannel(j int, x, buf []float64, near *float64) {
 	hi, step := x[0], math.Inf(1)
 	if len(x) > 1 {
 		// buf holds time differences or zeros, never a NaN, which is all
@@ -96,13 +99,13 @@ func (c *channelScan) cleanChannel(j int, x, buf []float64) {
 		hi = max(hi, h)
 	}
 	c.chanMax[j], c.top[j], c.step[j] = hi, hi, step
-	c.noise(j, x, buf, nil)
+	c.noise(j, x, buf, nil, near)
 }
 
 // noise takes channel j's time differences as timeDiffs.fill makes them
 // (observed nil: every beam is observed) and their scaled median as
 // channelScales takes it.
-func (c *channelScan) noise(j int, x, buf []float64, observed func(i int) bool) {
+func (c *channelScan) noise(j int, x, buf []float64, observed func(i int) bool, near *float64) {
 	k := 0
 	div := math.Sqrt2
 	if c.pre >= 2 {
@@ -124,7 +127,7 @@ func (c *channelScan) noise(j int, x, buf []float64, observed func(i int) bool) 
 	}
 	c.cnt[j] = k
 	if k > 0 {
-		c.own[j] = madScale * medianOver(buf[:k], div)
+		c.own[j] = madScale * medianOverNear(buf[:k], div, near)
 	}
 }
 

@@ -1,6 +1,7 @@
 package spectra
 
 import (
+	"maps"
 	"math"
 	"math/rand/v2"
 	"slices"
@@ -60,6 +61,72 @@ func TestRadixOrderMatchesSort(t *testing.T) {
 		c := slices.Clone(v)
 		if _, _, ok := radixOrder(c, 1, true); ok || !slices.Equal(c[:2], v[:2]) {
 			t.Errorf("sample with %v: ok %v, sample %v", bad, ok, c)
+		}
+	}
+}
+
+// middlePairNear returns the order statistics a sort gives (the definition,
+// as above) whatever its guess: near the median (the window holds the
+// middle ranks), off by more than the window, at an edge of the middle
+// ranks (the window starting at rank h of an even sample, where rank h − 1
+// lies below it), past the sample, zero, NaN or infinite; on samples
+// whose window holds more values than it gathers (ties); and on samples
+// radixOrder refuses (a NaN, −0, a negative value), where it must give
+// middlePair's answer.
+func TestMiddlePairNearMatchesSort(t *testing.T) {
+	rng := rand.New(rand.NewPCG(13, 14))
+	shapes := map[string]func(i int) float64{
+		"abs normal": func(int) float64 { return math.Abs(rng.NormFloat64()) * 3 },
+		"rounded":    func(int) float64 { return 0.5 * math.Round(math.Abs(rng.NormFloat64())*2) },
+		"two values": func(int) float64 { return float64(rng.IntN(2)) * 1e-3 },
+		"counting":   func(i int) float64 { return float64(i) },
+		"wide":       func(int) float64 { return math.Exp(40 * rng.NormFloat64()) },
+	}
+	// In the order of the names, so that every run draws the same samples.
+	for _, name := range slices.Sorted(maps.Keys(shapes)) {
+		f := shapes[name]
+		for _, n := range []int{511, 512, 513, 1998, 1999, 4001} {
+			v := make([]float64, n)
+			for i := range v {
+				v[i] = f(i)
+			}
+			rng.Shuffle(n, func(i, j int) { v[i], v[j] = v[j], v[i] })
+			s := slices.Clone(v)
+			slices.Sort(s)
+			h := n / 2
+			med := s[h]
+			guesses := []float64{med, med * 1.05, med * 0.95, med * 1.3, med * 0.7, s[n-1] * 3, 0, math.NaN(), math.Inf(1), 1e-300}
+			// The window's lower edge exactly at rank h: rank h − 1 below it.
+			guesses = append(guesses, s[h]/(1-nearWindow), s[h-1]/(1+nearWindow))
+			if name == "counting" {
+				// 0 … n−1: a window of exactly nearPicks values, the values
+				// read after the last of them written where it was.
+				v = v[:0]
+				for i := range 3201 {
+					v = append(v, float64(i))
+				}
+				rng.Shuffle(len(v), func(i, j int) { v[i], v[j] = v[j], v[i] })
+				n, h, s = len(v), len(v)/2, slices.Sorted(slices.Values(v))
+				guesses = append(guesses, 1600.5) // the window 1473 … 1728
+			}
+			for _, g := range guesses {
+				lo, hi := middlePairNear(slices.Clone(v), g)
+				if math.Float64bits(hi) != math.Float64bits(s[h]) || n%2 == 0 && math.Float64bits(lo) != math.Float64bits(s[h-1]) {
+					t.Fatalf("%s n=%d guess %g: (%v, %v), sorted (%v, %v)", name, n, g, lo, hi, s[h-1], s[h])
+				}
+			}
+		}
+	}
+	for _, bad := range []float64{math.NaN(), math.Copysign(0, -1), -1} {
+		v := make([]float64, 1998)
+		for i := range v {
+			v[i] = math.Abs(rng.NormFloat64())
+		}
+		v[700] = bad
+		wlo, whi := middlePair(slices.Clone(v))
+		lo, hi := middlePairNear(slices.Clone(v), 0.67)
+		if math.Float64bits(lo) != math.Float64bits(wlo) || math.Float64bits(hi) != math.Float64bits(whi) {
+			t.Errorf("sample with %v: (%v, %v), middlePair (%v, %v)", bad, lo, hi, wlo, whi)
 		}
 	}
 }

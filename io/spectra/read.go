@@ -387,6 +387,7 @@ func parseMatrixCSV(path string, raw []byte, pre int) (*Series, error) {
 	parseRows := func(at *int) {
 		var buf [][]byte
 		var line, diffs []float64 // one channel's values, and its time differences
+		var near float64          // the middle of the last channel's differences
 		if scan != nil {
 			line, diffs = make([]float64, n), make([]float64, n)
 		}
@@ -434,7 +435,7 @@ func parseMatrixCSV(path string, raw []byte, pre int) (*Series, error) {
 					for j, v := range line {
 						raw2.Data[j*raw2.Stride+i] = v
 					}
-					scan.channel(i, line, diffs)
+					scan.channel(i, line, diffs, &near)
 				}
 			}
 		}
