@@ -37,7 +37,7 @@ func TestSketchFactorsAreGonumSVDs(t *testing.T) {
 		u.Mul(y, &ub)
 		vals := sv.Values(nil)
 
-		f, err := sketchFactors(mat.DenseCopyOf(y), mat.DenseCopyOf(z), tc.r)
+		f, err := sketchFactors(mat.DenseCopyOf(y), mat.DenseCopyOf(z), tc.r, nil)
 		if err != nil {
 			t.Fatalf("%v: %v", tc, err)
 		}
@@ -127,4 +127,65 @@ func sameMatrixBits(t *testing.T, what string, got, want mat.Matrix) {
 			}
 		}
 	}
+}
+
+// TestWorkspaceKeepsTheBits: decompositions that hand a Workspace on (the
+// same shape twice, with and without a start and columns beside, then a
+// larger shape, then the first again) give the bits of each alone, and the
+// first's factors are not changed by the later ones (nothing returned lives
+// in the workspace).
+func TestWorkspaceKeepsTheBits(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 1))
+	data := func(n, m int) *mat.Dense {
+		d := mat.NewDense(n, m, nil)
+		for i := 0; i < n; i++ {
+			for j := 0; j < m; j++ {
+				d.Set(i, j, math.Sin(float64(i*(j%7))/50)+0.01*rng.NormFloat64())
+			}
+		}
+		return d
+	}
+	a, b, c := data(200, 301), data(200, 301), data(260, 340)
+	q := mat.NewDense(301, 3, nil)
+	for j := 0; j < 301; j++ {
+		q.Set(j, 0, 1)
+		q.Set(j, 1, float64(j))
+		q.Set(j, 2, float64(j*j))
+	}
+	start := mat.NewDense(301, 4, nil)
+	for j := 0; j < 301; j++ {
+		for k := 0; k < 4; k++ {
+			start.Set(j, k, math.Cos(float64(j*(k+1))/90))
+		}
+	}
+	opts := []DecomposeOptions{
+		{Method: MethodRandomized, MaxFactors: 12, Beside: q, BesideInto: mat.NewDense(200, 3, nil)},
+		{Method: MethodRandomized, MaxFactors: 12, Start: start},
+		{Method: MethodRandomized, MaxFactors: 20},
+		{Method: MethodRandomized, MaxFactors: 12},
+	}
+	mats := []*mat.Dense{a, b, c, a}
+	var work Workspace
+	var kept []*Factors
+	for k, d := range mats {
+		alone, err := Decompose(d, opts[k])
+		if err != nil {
+			t.Fatal(err)
+		}
+		o := opts[k]
+		o.Work = &work
+		shared, err := Decompose(d, o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		sameMatrixBits(t, "U", shared.U, alone.U)
+		sameMatrixBits(t, "V", shared.V, alone.V)
+		kept = append(kept, alone, shared)
+	}
+	first, err := Decompose(a, opts[0])
+	if err != nil {
+		t.Fatal(err)
+	}
+	sameMatrixBits(t, "first U after the others", kept[1].U, first.U)
+	sameMatrixBits(t, "first V after the others", kept[1].V, first.V)
 }

@@ -86,6 +86,9 @@ type rankInputs struct {
 	// its leading columns (svd.PolyBasis is nested), and so is that order's
 	// product, which is then taken from dq instead of a pass over d.
 	basis, dq *mat.Dense
+	// work (may be nil) is scratch memory the randomized SVDs of the
+	// factor analysis hand on, one after the other (svd.Workspace).
+	work *svd.Workspace
 }
 
 // baselineProduct is d q for q = svd.PolyBasis(axis, order, in.col): the
@@ -187,7 +190,7 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 	}
 	if f == nil {
 		var err error
-		if f, err = svd.Decompose(dc, svd.DecomposeOptions{MaxFactors: in.maxF, Seed: r.Settings.Seed, Start: in.start, Screen: screen}); err != nil {
+		if f, err = svd.Decompose(dc, svd.DecomposeOptions{MaxFactors: in.maxF, Seed: r.Settings.Seed, Start: in.start, Screen: screen, Work: in.work}); err != nil {
 			return nil, nil, fmt.Errorf("factor analysis without the baseline: %w", err)
 		}
 	}

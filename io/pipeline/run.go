@@ -297,7 +297,10 @@ func run(s *Settings, log io.Writer, hashInputs bool) (_ *Result, err error) {
 			// D Q for the baseline's choice rides along in the first
 			// pass over the scaled matrix instead of a pass of its own.
 			in.basis, in.dq = baselineBesides(r, in.d, in.col)
-			opt := svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed, Screen: in.screen, Beside: in.basis, BesideInto: in.dq}
+			// The scratch of its randomized SVD serves again for the
+			// difference matrix's (lentDifferenceRank), of the same shape.
+			in.work = new(svd.Workspace)
+			opt := svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed, Screen: in.screen, Beside: in.basis, BesideInto: in.dq, Work: in.work}
 			if rf, err = svd.Decompose(in.d, opt); err != nil {
 				return nil, fmt.Errorf("factor analysis: %w", err)
 			}
@@ -333,7 +336,7 @@ func run(s *Settings, log io.Writer, hashInputs bool) (_ *Result, err error) {
 		r.NoiseSigma, r.NoiseSource = rank.Sigma, rank.SigmaSource
 	}
 	if spare != nil {
-		lentDifferenceRank(r, spare, refs, rf, maxF)
+		lentDifferenceRank(r, spare, refs, rf, maxF, in.work)
 		diffAdvice(r, rank)
 	} else if r.Mode == mcr.Species {
 		copiedDifferenceRank(r, s, diffRows, rf, f, maxF)
@@ -411,7 +414,7 @@ func singleReferenceRow(r *Result) int {
 // lentDifferenceRank counts the difference matrix's chemical rank (species
 // mode with noise weights) on the scaled differences rebuilt from D and the
 // references refs in the memory √A D √B borrowed (borrowDifference).
-func lentDifferenceRank(r *Result, spare *mat.Dense, refs [][]float64, rf *svd.Factors, maxF int) {
+func lentDifferenceRank(r *Result, spare *mat.Dense, refs [][]float64, rf *svd.Factors, maxF int, work *svd.Workspace) {
 	// The differences have their own noise (the reference's added):
 	// scaled with their own weights, their noise is white with σ = 1.
 	// Rebuilt from D in the lent memory, their randomized SVD starting
@@ -421,7 +424,7 @@ func lentDifferenceRank(r *Result, spare *mat.Dense, refs [][]float64, rf *svd.F
 	start := weightedDifferenceStart(r, refs, rf)
 	scaled, screen := scaledDifferenceInto(spare, r, refs)
 	din := weightedRankInputs(r, scaled, r.DiffWeights.Row, r.DiffWeights.Col, ref, maxF)
-	din.reuse, din.start, din.screen = true, start, screen
+	din.reuse, din.start, din.screen, din.work = true, start, screen, work
 	r.DiffRank, r.DiffChemical, _ = chemicalRank(r, din.d, nil, r.BaselineOrder, din, false)
 }
 
