@@ -2,7 +2,6 @@ package report
 
 import (
 	"math"
-	"strconv"
 	"strings"
 
 	"gonum.org/v1/plot/vg"
@@ -145,11 +144,12 @@ func appendPolyline(b []byte, ps []vg.Point, close bool) []byte {
 	return b
 }
 
-// appendPoint appends a point's coordinates as appendPathData does.
+// appendPoint appends a point's coordinates as appendPathData does
+// (appendG5: strconv's %.5g, faster).
 func appendPoint(b []byte, p vg.Point) []byte {
-	b = strconv.AppendFloat(b, p.X.Points(), 'g', 5, 64)
+	b = appendG5(b, p.X.Points())
 	b = append(b, ',')
-	return strconv.AppendFloat(b, p.Y.Points(), 'g', 5, 64)
+	return appendG5(b, p.Y.Points())
 }
 
 // appendPathData appends the SVG path data of a path of moves, lines and
