@@ -33,9 +33,10 @@ func log10QuoMaxAVX2(dst, x, y, top []float64) (finite bool)
 
 // quoSquaresAVX2 is QuoSquares (logs false) or LogQuoSquares (logs true)
 // four at a time; len(x) is a multiple of 4 and d, a, y and e are as long.
+// finite is whether every logarithm set is finite (true without logs).
 //
 //go:noescape
-func quoSquaresAVX2(d, a, x, y, e []float64, c float64, logs bool)
+func quoSquaresAVX2(d, a, x, y, e []float64, c float64, logs bool) (finite bool)
 
 // useAVX512 says whether the eight-lane kernels below run instead of the
 // four-lane ones: the processor has AVX-512's foundation set and the
@@ -63,7 +64,7 @@ func log10QuoMaxAVX512(dst, x, y, top []float64) (finite bool)
 // of 8.
 //
 //go:noescape
-func quoSquaresAVX512(d, a, x, y, e []float64, c float64, logs bool)
+func quoSquaresAVX512(d, a, x, y, e []float64, c float64, logs bool) (finite bool)
 
 // scaleObservedAVX512 is ScaleObserved eight at a time; len(o) is a
 // positive multiple of 8 and w is as long.

@@ -238,8 +238,8 @@ l10qmDone:
 	VDIVPD  Y15, Y13, Y13 \
 	VDIVPD  Y15, Y12, Y12
 
-// func quoSquaresAVX2(d, a, x, y, e []float64, c float64, logs bool)
-TEXT ·quoSquaresAVX2(SB), NOSPLIT, $0-129
+// func quoSquaresAVX2(d, a, x, y, e []float64, c float64, logs bool) (finite bool)
+TEXT ·quoSquaresAVX2(SB), NOSPLIT, $0-137
 	MOVQ d_base+0(FP), DI
 	MOVQ a_base+24(FP), R9
 	MOVQ x_base+48(FP), SI
@@ -249,6 +249,7 @@ TEXT ·quoSquaresAVX2(SB), NOSPLIT, $0-129
 	VBROADCASTSD c+120(FP), Y15
 	MOVBLZX logs+128(FP), BX
 	VPXOR Y8, Y8, Y8
+	VPXOR Y9, Y9, Y9
 	SHRQ $2, CX
 	JZ   qsDone
 	TESTQ BX, BX
@@ -272,9 +273,11 @@ qsLogLoop:
 	VMOVAPD Y13, Y0
 	LOGY0
 	VMOVUPD Y1, (DI)
+	FINITE4
 	VMOVAPD Y12, Y0
 	LOGY0
 	VMOVUPD Y1, (R9)
+	FINITE4
 	ADDQ $32, SI
 	ADDQ $32, DX
 	ADDQ $32, R8
@@ -284,6 +287,7 @@ qsLogLoop:
 	JNZ  qsLogLoop
 
 qsDone:
+	ALLZERO9(finite+136(FP))
 	VZEROUPPER
 	RET
 
@@ -459,8 +463,8 @@ l10qmzDone:
 	VDIVPD  Z15, Z13, Z13 \
 	VDIVPD  Z15, Z12, Z12
 
-// func quoSquaresAVX512(d, a, x, y, e []float64, c float64, logs bool)
-TEXT ·quoSquaresAVX512(SB), NOSPLIT, $0-129
+// func quoSquaresAVX512(d, a, x, y, e []float64, c float64, logs bool) (finite bool)
+TEXT ·quoSquaresAVX512(SB), NOSPLIT, $0-137
 	MOVQ d_base+0(FP), DI
 	MOVQ a_base+24(FP), R9
 	MOVQ x_base+48(FP), SI
@@ -470,6 +474,7 @@ TEXT ·quoSquaresAVX512(SB), NOSPLIT, $0-129
 	VBROADCASTSD c+120(FP), Z15
 	MOVBLZX logs+128(FP), BX
 	VPXORQ Z8, Z8, Z8
+	VPXORQ Z9, Z9, Z9
 	SHRQ $3, CX
 	JZ   qszDone
 	TESTQ BX, BX
@@ -493,9 +498,11 @@ qszLogLoop:
 	VMOVAPD Z13, Z0
 	LOGZ0
 	VMOVUPD Z1, (DI)
+	FINITE8
 	VMOVAPD Z12, Z0
 	LOGZ0
 	VMOVUPD Z1, (R9)
+	FINITE8
 	ADDQ $64, SI
 	ADDQ $64, DX
 	ADDQ $64, R8
@@ -505,6 +512,7 @@ qszLogLoop:
 	JNZ  qszLogLoop
 
 qszDone:
+	ALLZERO9Z(finite+136(FP))
 	VZEROUPPER
 	RET
 

@@ -16,7 +16,7 @@ func log10QuoMaxAVX2(dst, x, y, top []float64) bool {
 	panic("vecmath: no vector logarithm on this build")
 }
 
-func quoSquaresAVX2(d, a, x, y, e []float64, c float64, logs bool) {
+func quoSquaresAVX2(d, a, x, y, e []float64, c float64, logs bool) bool {
 	panic("vecmath: no vector division on this build")
 }
 
@@ -30,7 +30,7 @@ func log10QuoMaxAVX512(dst, x, y, top []float64) bool {
 	panic("vecmath: no vector logarithm on this build")
 }
 
-func quoSquaresAVX512(d, a, x, y, e []float64, c float64, logs bool) {
+func quoSquaresAVX512(d, a, x, y, e []float64, c float64, logs bool) bool {
 	panic("vecmath: no vector division on this build")
 }
 

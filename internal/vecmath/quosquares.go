@@ -16,19 +16,22 @@ func QuoSquares(d, a, x, y, e []float64, c float64) {
 }
 
 // LogQuoSquares is QuoSquares followed by math.Log of every d[i] and a[i],
-// bit for bit (see Log), the values never leaving the registers between.
-func LogQuoSquares(d, a, x, y, e []float64, c float64) {
-	quoSquares(d, a, x, y, e, c, true)
+// bit for bit (see Log), the values never leaving the registers between,
+// and reports whether every logarithm it set is finite (checked there too,
+// as Log10Quo checks its values).
+func LogQuoSquares(d, a, x, y, e []float64, c float64) (finite bool) {
+	return quoSquares(d, a, x, y, e, c, true)
 }
 
-func quoSquares(d, a, x, y, e []float64, c float64, logs bool) {
+func quoSquares(d, a, x, y, e []float64, c float64, logs bool) (finite bool) {
 	d, a, y, e = d[:len(x)], a[:len(x)], y[:len(x)], e[:len(x)]
 	n8, n := lanes(len(x))
+	finite = true
 	if n8 > 0 {
-		quoSquaresAVX512(d[:n8], a[:n8], x[:n8], y[:n8], e[:n8], c, logs)
+		finite = quoSquaresAVX512(d[:n8], a[:n8], x[:n8], y[:n8], e[:n8], c, logs)
 	}
 	if n > n8 {
-		quoSquaresAVX2(d[n8:n], a[n8:n], x[n8:n], y[n8:n], e[n8:n], c, logs)
+		finite = quoSquaresAVX2(d[n8:n], a[n8:n], x[n8:n], y[n8:n], e[n8:n], c, logs) && finite
 	}
 	for i := n; i < len(x); i++ {
 		q := x[i] / y[i]
@@ -38,5 +41,7 @@ func quoSquares(d, a, x, y, e []float64, c float64, logs bool) {
 			dv, av = math.Log(dv), math.Log(av)
 		}
 		d[i], a[i] = dv, av
+		finite = finite && dv-dv == 0 && av-av == 0
 	}
+	return finite
 }

@@ -26,7 +26,14 @@ func checkQuoSquares(t *testing.T, x, y, e []float64, c float64) {
 	QuoSquares(d, a, x, y, e, c)
 	sameBits(t, "QuoSquares d", d, wd)
 	sameBits(t, "QuoSquares a", a, wa)
-	LogQuoSquares(d, a, x, y, e, c)
+	finite := true
+	for i := range ld {
+		// IEEE 754-2008 §5.7.2 isFinite: neither ±Inf nor NaN.
+		finite = finite && !math.IsInf(ld[i], 0) && !math.IsNaN(ld[i]) && !math.IsInf(la[i], 0) && !math.IsNaN(la[i])
+	}
+	if got := LogQuoSquares(d, a, x, y, e, c); got != finite {
+		t.Errorf("LogQuoSquares on %d values says finite %v, want %v", n, got, finite)
+	}
 	sameBits(t, "LogQuoSquares d", d, ld)
 	sameBits(t, "LogQuoSquares a", a, la)
 }
@@ -58,6 +65,20 @@ func TestQuoSquaresRandom(t *testing.T) {
 		e[i] = math.Pow(x[i]/3e4, 2)
 	}
 	checkQuoSquares(t, x, y, e, math.Ln10*math.Ln10)
+	// One zero beam (σ/0 = +Inf: a logarithm +Inf) in each lane of a
+	// register, in the four-lane rest and in Go's tail: the flag says so.
+	for _, at := range []int{0, 1, 2, 3, 4, 5, 6, 7, 4000, 4003, 4004} {
+		y0 := y[at]
+		y[at] = 0
+		checkQuoSquares(t, x[:4005], y[:4005], e[:4005], math.Ln10*math.Ln10)
+		y[at] = y0
+		// And a share e = +Inf, which leaves r/c and its logarithm finite:
+		// only the first of the two is not.
+		e0 := e[at]
+		e[at] = math.Inf(1)
+		checkQuoSquares(t, x[:4005], y[:4005], e[:4005], math.Ln10*math.Ln10)
+		e[at] = e0
+	}
 }
 
 func TestQuoSquaresLengths(t *testing.T) {

@@ -834,8 +834,9 @@ func fitWeightsJoint(n, m, nf int, blind *Blind, variances func(i int, out []flo
 // the rows from pieces (of width nf·m), shared by both passes and by a
 // caller's later fit. logVariances, when not nil, writes the natural
 // logarithms of what variances writes (bit for bit math.Log of them), for
-// the first pass: a caller that forms both in one pass.
-func fitWeightsReusing(pieces *rowPieces, n, m, nf int, blind *Blind, variances, logVariances func(i int, out []float64)) (fits []*Weights, peak []float64) {
+// the first pass, and reports whether every one is finite: a caller that
+// forms both in one pass.
+func fitWeightsReusing(pieces *rowPieces, n, m, nf int, blind *Blind, variances func(i int, out []float64), logVariances func(i int, out []float64) bool) (fits []*Weights, peak []float64) {
 	out := additiveWeights(n, m, logWeightSums(pieces, n, m, nf, blind, variances, logVariances))
 	scale, peak := scaleSums(pieces, n, m, blind, variances, out)
 	for f, w := range out {
@@ -874,7 +875,7 @@ type logSums struct {
 
 // logWeightSums forms the sums of log weights of each of the nf fits in one
 // pass over the rows (the logarithms from logVariances when not nil).
-func logWeightSums(pieces *rowPieces, n, m, nf int, blind *Blind, variances, logVariances func(i int, out []float64)) []logSums {
+func logWeightSums(pieces *rowPieces, n, m, nf int, blind *Blind, variances func(i int, out []float64), logVariances func(i int, out []float64) bool) []logSums {
 	acc := make([]logSums, nf)
 	for f := range acc {
 		acc[f] = logSums{rowSum: make([]float64, n), colSum: make([]float64, m), rowCnt: make([]int, n), colCnt: make([]int, m)}
@@ -885,28 +886,69 @@ func logWeightSums(pieces *rowPieces, n, m, nf int, blind *Blind, variances, log
 	// or NaN (a blind channel). The log weight −log v is not formed: adding
 	// −l is subtracting l (IEEE 754 defines x − y as x + (−y)), so the sums
 	// take l away, one pass over the row fewer.
+	//
+	// A row of two fits whose every logarithm is finite, the usual row, is
+	// found so on the workers (finite: logVariances says so, having checked
+	// each value in a register, else a pass over the row), and its sums are
+	// taken without a test per value; its points' counts per channel are
+	// added once for all such rows at the end (finiteRows): whole numbers,
+	// exact in any order.
+	finite := make([]bool, n)
+	finiteRows := 0
 	mapRowsReusing(pieces, n, func(i int, out []float64) {
 		if logVariances != nil {
-			logVariances(i, out)
+			all := logVariances(i, out)
 			for f := 0; f < nf; f++ {
 				blindNaN(out[f*m:(f+1)*m], blind.row(i))
 			}
+			finite[i] = nf == 2 && all && len(blind.row(i)) == 0
 			return
 		}
 		variances(i, out)
 		for f := 0; f < nf; f++ {
 			logObserved(out[f*m:(f+1)*m], blind.row(i))
 		}
+		finite[i] = nf == 2 && AllFinite(out[:2*m])
 	}, func(i int, out []float64) {
-		if nf == 2 {
+		switch {
+		case finite[i]:
+			addFiniteLogSumsPair(&acc[0], &acc[1], i, out[:m], out[m:2*m])
+			finiteRows++
+		case nf == 2:
 			addLogSumsPair(&acc[0], &acc[1], i, out[:m], out[m:2*m])
-			return
-		}
-		for f := range acc {
-			addLogSums(&acc[f], i, out[f*m:(f+1)*m])
+		default:
+			for f := range acc {
+				addLogSums(&acc[f], i, out[f*m:(f+1)*m])
+			}
 		}
 	})
+	for f := range acc {
+		for j := range acc[f].colCnt {
+			acc[f].colCnt[j] += finiteRows
+		}
+	}
 	return acc
+}
+
+// addFiniteLogSumsPair is addLogSumsPair for a row whose logarithms are all
+// finite: the same sums in the same order, without the tests, and the row's
+// counts; the channels' counts are the caller's to add.
+func addFiniteLogSumsPair(a, b *logSums, i int, la, lb []float64) {
+	m := len(la)
+	lb = lb[:m]
+	aSum, bSum := a.colSum[:m], b.colSum[:m]
+	ra, ga, rb, gb := 0.0, a.grand, 0.0, b.grand
+	for j, l := range la {
+		k := lb[j]
+		ra -= l
+		aSum[j] -= l
+		ga -= l
+		rb -= k
+		bSum[j] -= k
+		gb -= k
+	}
+	a.rowSum[i], a.rowCnt[i], a.grand, a.cnt = ra, m, ga, a.cnt+m
+	b.rowSum[i], b.rowCnt[i], b.grand, b.cnt = rb, m, gb, b.cnt+m
 }
 
 // addLogSums takes the logarithms l of row i's variances away from a's
@@ -1377,7 +1419,7 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	// both are fitted again.
 	nf := 1
 	vars := diffVar
-	var logVars func(i int, o []float64)
+	var logVars func(i int, o []float64) bool
 	if opt.Blank != nil {
 		nf = 2
 		// diffVar's values, then absVar's, in one pass (vecmath: the same
@@ -1386,8 +1428,8 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 		vars = func(i int, o []float64) {
 			vecmath.QuoSquares(o[:m], o[m:2*m], sigI, s.Values.RawRowView(i), refVar, ln10sq)
 		}
-		logVars = func(i int, o []float64) {
-			vecmath.LogQuoSquares(o[:m], o[m:2*m], sigI, s.Values.RawRowView(i), refVar, ln10sq)
+		logVars = func(i int, o []float64) bool {
+			return vecmath.LogQuoSquares(o[:m], o[m:2*m], sigI, s.Values.RawRowView(i), refVar, ln10sq)
 		}
 	}
 	// With Consume one of the two matrices is written in place of the single
