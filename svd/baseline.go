@@ -158,6 +158,13 @@ func ChooseBaselineOrderWeighted(d *mat.Dense, f *Factors, axis, col []float64, 
 // which a caller that has projected that basis out of d already holds: the choice then
 // makes no pass over d.
 func ChooseBaselineOrderFrom(d, dq *mat.Dense, f *Factors, axis, col []float64, k, maxOrder int, alpha float64) (*BaselineChoice, error) {
+	return ChooseBaselineOrderBasis(d, dq, nil, f, axis, col, k, maxOrder, alpha)
+}
+
+// ChooseBaselineOrderBasis is ChooseBaselineOrderFrom with the basis at hand as
+// well: basis, when not nil, is PolyBasis(axis, maxOrder, col) as the caller
+// formed it (the same call, so the same matrix), and is not formed again.
+func ChooseBaselineOrderBasis(d, dq, basis *mat.Dense, f *Factors, axis, col []float64, k, maxOrder int, alpha float64) (*BaselineChoice, error) {
 	n, m := d.Dims()
 	if len(axis) != m || (col != nil && len(col) != m) {
 		return nil, fmt.Errorf("svd: baseline order: axis has %d points, weights %d, data %d", len(axis), len(col), m)
@@ -185,7 +192,11 @@ func ChooseBaselineOrderFrom(d, dq *mat.Dense, f *Factors, axis, col []float64, 
 	}
 	// The polynomial part's energy of order q is Σ_{c≤q} ‖(D Q)_c‖², and the projection
 	// of W on the first q+1 basis columns is (W Q)_{:,≤q} Q_{:,≤q}ᵀ.
-	basis := PolyBasis(axis, maxOrder, col)
+	if basis == nil {
+		basis = PolyBasis(axis, maxOrder, col)
+	} else if bm, bc := basis.Dims(); bm != m || bc != maxOrder+1 {
+		return nil, fmt.Errorf("svd: baseline order: basis is %d × %d for %d points and order %d", bm, bc, m, maxOrder)
+	}
 	var wqAll mat.Dense
 	if dq == nil {
 		dq = few.Mul(d, basis) // mat.Dense.Mul's bits, faster at a few columns

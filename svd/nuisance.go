@@ -70,6 +70,11 @@ type NuisanceOptions struct {
 	// polynomial and derivative shares are measured with the weights b_j, so that the
 	// noisy channels (small b_j) count as little as in the fit.
 	Row, Col []float64
+	// Basis (may be nil) is PolyBasis(Axis, 3, Col), the basis of the
+	// baseline test, when the caller has formed it (the same call, so the
+	// same matrix); of other dimensions it is not used, and nil has it
+	// formed at its first use.
+	Basis *mat.Dense
 }
 
 // Thresholds of the classification (documented in docs/measurement.md).
@@ -150,6 +155,11 @@ func ClassifyFactors(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOpti
 	var chemV [][]float64
 	var chem int
 	basis := polyBasisOnce(opt.Axis, opt.Col)
+	if b := opt.Basis; b != nil {
+		if bm, bc := b.Dims(); bm == m && bc == baselineOrder+1 {
+			basis = func() *mat.Dense { return b }
+		}
+	}
 	var smallest float64 // s² of the smallest chemical factor so far (not the mean level)
 	var spareU, spareV []float64
 	for j, row := range rep.Table {

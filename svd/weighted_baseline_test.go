@@ -3,6 +3,7 @@ package svd
 import (
 	"math"
 	"math/rand/v2"
+	"reflect"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -139,5 +140,53 @@ func TestWeightedBaselineAndClassification(t *testing.T) {
 	}
 	if ch.Order != -1 {
 		t.Errorf("no baseline: order %d, want none (steps %+v)", ch.Order, ch.Steps)
+	}
+}
+
+// TestBasisGivenIsTheBasisFormed: a caller's PolyBasis handed to the baseline
+// choice and the classification (ChooseBaselineOrderBasis, NuisanceOptions.Basis)
+// changes nothing they report, down to the bits (the same call, made once);
+// a basis of the wrong order is refused by the choice and ignored by the
+// classification. Data as in TestWeightedBaselineAndClassification.
+func TestBasisGivenIsTheBasisFormed(t *testing.T) {
+	drift := func(i int, x float64) float64 {
+		return 0.01*math.Sin(float64(i)) + 0.005*math.Cos(float64(i)/3)*x
+	}
+	ds, axis, col := heteroData(1, drift)
+	basis := PolyBasis(axis, 3, col)
+	want, err := ChooseBaselineOrderFrom(ds, nil, nil, axis, col, 2, 3, 0.05)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, err := ChooseBaselineOrderBasis(ds, nil, basis, nil, axis, col, 2, 3, 0.05)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !reflect.DeepEqual(got, want) {
+		t.Errorf("with the basis given %+v, formed %+v", got, want)
+	}
+	if _, err := ChooseBaselineOrderBasis(ds, nil, PolyBasis(axis, 2, col), nil, axis, col, 2, 3, 0.05); err == nil {
+		t.Error("a basis of order 2 for order 3 was taken")
+	}
+	f, err := Decompose(ds, DecomposeOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	rep, err := EstimateRank(ds, f, RankOptions{Sigma: 1, ReferenceRow: -1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	n, _ := ds.Dims()
+	ones := make([]float64, n)
+	for i := range ones {
+		ones[i] = 1
+	}
+	opt := NuisanceOptions{Axis: axis, Noise: 1, MeanLevel: true, Row: ones, Col: col}
+	formed := ClassifyFactors(ds, f, rep, opt)
+	for _, b := range []*mat.Dense{basis, PolyBasis(axis, 1, col)} {
+		opt.Basis = b
+		if given := ClassifyFactors(ds, f, rep, opt); !reflect.DeepEqual(given, formed) {
+			t.Errorf("classification with a basis given %+v, formed %+v", given, formed)
+		}
 	}
 }

@@ -104,6 +104,17 @@ func (in rankInputs) baselineProduct(d, q *mat.Dense) *mat.Dense {
 	return product.Mul(d, q) // mat.Dense.Mul's bits, without its per-entry kernel calls at 1–9 columns
 }
 
+// polyBasis is svd.PolyBasis(axis, order, in.col): in.basis itself when it
+// is that order's (the same call, made once).
+func (in rankInputs) polyBasis(axis []float64, order int) *mat.Dense {
+	if in.basis != nil {
+		if _, c := in.basis.Dims(); c == order+1 {
+			return in.basis
+		}
+	}
+	return svd.PolyBasis(axis, order, in.col)
+}
+
 // leadingColumns says whether q's columns are the first columns of b, bit for bit.
 func leadingColumns(q, b *mat.Dense) bool {
 	m, c := q.Dims()
@@ -147,7 +158,7 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 		}
 		// D Q⊥ = D − (D Q) Qᵀ; with truncated factors of D (large data) those of
 		// D Q⊥ follow from them (svd.ProjectFactors) instead of a new decomposition.
-		q := svd.PolyBasis(r.Axis, order, in.col)
+		q := in.polyBasis(r.Axis, order)
 		dq := in.baselineProduct(d, q)
 		if f != nil && !f.Full() && in.opt.Sigma > 0 && in.noise > 0 {
 			return screenedRank(r, d, f, q, dq, in, meanLevel)
@@ -200,7 +211,7 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 	if err != nil {
 		return nil, nil, err
 	}
-	cr := svd.ClassifyFactors(dc, f, rep, svd.NuisanceOptions{Axis: r.Axis, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col})
+	cr := svd.ClassifyFactors(dc, f, rep, svd.NuisanceOptions{Axis: r.Axis, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis})
 	svd.ApplyChemical(rep, cr)
 	return rep, cr, nil
 }
@@ -222,7 +233,7 @@ func screenedRank(r *Result, d *mat.Dense, f *svd.Factors, q, dq *mat.Dense, in 
 	if err != nil {
 		return nil, nil, err
 	}
-	cr := svd.ClassifyFactors(nil, pf, rep, svd.NuisanceOptions{Axis: r.Axis, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col})
+	cr := svd.ClassifyFactors(nil, pf, rep, svd.NuisanceOptions{Axis: r.Axis, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis})
 	svd.ApplyChemical(rep, cr)
 	return rep, cr, nil
 }
@@ -358,7 +369,7 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 		// practice for a family of tests). At alpha per order, two closed subsystems
 		// with no baseline got a linear one (p = 0.04, TestBaselineAutoChoosesNone…).
 		level := r.Settings.Alpha / float64(maxOrder+1)
-		ch, err := svd.ChooseBaselineOrderFrom(d, in.dq, f, r.Axis, in.col, kf, maxOrder, level)
+		ch, err := svd.ChooseBaselineOrderBasis(d, in.dq, in.basis, f, r.Axis, in.col, kf, maxOrder, level)
 		if err != nil {
 			return fmt.Errorf("baseline: %w", err)
 		}
