@@ -92,15 +92,20 @@ func weightedDifferenceStart(r *Result, gs [][]float64, f *svd.Factors) *mat.Den
 	if f == nil || f.V == nil || f.Full() || !largeData(n, m) {
 		return nil
 	}
+	// [(1/√B) Ṽ, g_1, …] as differenceBasis lays it out, the unscaled
+	// directions written into the start itself, then each row times √b′_j.
 	_, p := f.V.Dims()
-	v := mat.NewDense(m, p, nil)
+	start := mat.NewDense(m, p+len(gs), nil)
 	for j := 0; j < m; j++ {
 		g := invSqrt(r.Weights.Col[j])
-		for l := 0; l < p; l++ {
-			v.Set(j, l, f.V.At(j, l)*g)
+		row, vj := start.RawRowView(j)[:p], f.V.RawRowView(j)[:p]
+		for l := range row {
+			row[l] = vj[l] * g
 		}
 	}
-	start := differenceBasis(v, gs)
+	for e, ge := range gs {
+		start.SetCol(p+e, ge)
+	}
 	_, q := start.Dims()
 	for j := 0; j < m; j++ {
 		g := math.Sqrt(max(r.DiffWeights.Col[j], 0))
