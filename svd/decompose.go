@@ -550,7 +550,7 @@ func orthonormalize(x *mat.Dense) {
 }
 
 // qrWork is orthonormalize's workspace, kept between the factorizations of
-// one randomized SVD (four of the same shape at 2000 × 3001).
+// one randomized SVD (five with the power iterations: three of Y, two of Z).
 type qrWork struct {
 	tau, work []float64
 }
