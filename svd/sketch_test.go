@@ -5,6 +5,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"github.com/bandsolve/bandsolve/internal/vecmath"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -116,16 +117,10 @@ func TestDecomposeBesideKeepsTheBits(t *testing.T) {
 
 func sameMatrixBits(t *testing.T, what string, got, want mat.Matrix) {
 	t.Helper()
-	r, c := want.Dims()
-	if gr, gc := got.Dims(); gr != r || gc != c {
-		t.Fatalf("%s: %d × %d, want %d × %d", what, gr, gc, r, c)
-	}
-	for i := 0; i < r; i++ {
-		for j := 0; j < c; j++ {
-			if math.Float64bits(got.At(i, j)) != math.Float64bits(want.At(i, j)) {
-				t.Fatalf("%s[%d,%d] = %v, want %v", what, i, j, got.At(i, j), want.At(i, j))
-			}
-		}
+	if !vecmath.SameBitsMatrix(got, want) {
+		gr, gc := got.Dims()
+		r, c := want.Dims()
+		t.Fatalf("%s (%d × %d) is not bit for bit the %d × %d wanted", what, gr, gc, r, c)
 	}
 }
 
