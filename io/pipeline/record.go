@@ -419,7 +419,7 @@ func HashFile(path string) (int64, string, error) {
 		return 0, "", err
 	}
 	defer f.Close()
-	return hashStream(f, path)
+	return hashUnchanged(f, path, func(r io.Reader) (int64, string, error) { return hashStream(r, path) })
 }
 
 // hashFileYielding is HashFile, reading and hashing a piece at a time
@@ -431,7 +431,44 @@ func hashFileYielding(path string, stop *atomic.Bool) (int64, string, error) {
 		return 0, "", err
 	}
 	defer f.Close()
-	return hashYielding(f, path, stop)
+	return hashUnchanged(f, path, func(r io.Reader) (int64, string, error) { return hashYielding(r, path, stop) })
+}
+
+// statReader is an open file: read to hash it, stated around the reading.
+type statReader interface {
+	io.Reader
+	Stat() (os.FileInfo, error)
+}
+
+// hashUnchanged is hash(f), refused when f changed while it was read: its
+// size or modification time differs between before and after, or the bytes
+// hashed are not its size when opened. The hashing runs beside the parse (a
+// matrix file) or just after it (a folder's files), so a file still being
+// written, an instrument's export that grows while the run reads it, would
+// otherwise be recorded in the manifest with a sum of contents other than
+// those analysed, and verify would later fail for no reason it could name.
+// A rewrite of the same length within one tick of the file system's clock
+// is not seen; a growing file is.
+func hashUnchanged(f statReader, path string, hash func(io.Reader) (int64, string, error)) (int64, string, error) {
+	before, err := f.Stat()
+	if err != nil {
+		return 0, "", fmt.Errorf("%s: %w", path, err)
+	}
+	n, sum, err := hash(f)
+	if err != nil {
+		return 0, "", err
+	}
+	after, err := f.Stat()
+	if err != nil {
+		return 0, "", fmt.Errorf("%s: %w", path, err)
+	}
+	if n != before.Size() || after.Size() != before.Size() || !after.ModTime().Equal(before.ModTime()) {
+		return 0, "", fmt.Errorf("%s: changed while it was read (%d bytes when opened, %d read, %d at the end; "+
+			"modified %s): the results and the SHA-256 recorded for it could describe different contents; "+
+			"run again once the file is no longer being written", path, before.Size(), n, after.Size(),
+			after.ModTime().UTC().Format(time.RFC3339Nano))
+	}
+	return n, sum, nil
 }
 
 // errHashStopped is hashYielding's answer when it was told to stop.
