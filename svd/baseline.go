@@ -166,30 +166,71 @@ func ChooseBaselineOrderFrom(d, dq *mat.Dense, f *Factors, axis, col []float64, 
 // formed it (the same call, so the same matrix), and is not formed again.
 func ChooseBaselineOrderBasis(d, dq, basis *mat.Dense, f *Factors, axis, col []float64, k, maxOrder int, alpha float64) (*BaselineChoice, error) {
 	n, m := d.Dims()
-	if len(axis) != m || (col != nil && len(col) != m) {
-		return nil, fmt.Errorf("svd: baseline order: axis has %d points, weights %d, data %d", len(axis), len(col), m)
+	if err := checkBaselineTest(n, m, len(axis), col, k, maxOrder, alpha); err != nil {
+		return nil, err
+	}
+	f, err := leadingFactors(d, f, min(k+maxOrder+2+4, n, m))
+	if err != nil {
+		return nil, err
+	}
+	fits, err := newBaselineFits(d, dq, basis, f, axis, col, k, maxOrder)
+	if err != nil {
+		return nil, err
+	}
+	return fits.forwardSelect(maxOrder, alpha), nil
+}
+
+// checkBaselineTest refuses arguments with which the F-test has no meaning: the
+// residual degrees of freedom need more points than factors plus baseline terms.
+func checkBaselineTest(n, m, axisLen int, col []float64, k, maxOrder int, alpha float64) error {
+	if axisLen != m || (col != nil && len(col) != m) {
+		return fmt.Errorf("svd: baseline order: axis has %d points, weights %d, data %d", axisLen, len(col), m)
 	}
 	if k < 0 || maxOrder < 0 || !(alpha > 0 && alpha < 1) {
-		return nil, fmt.Errorf("svd: baseline order: k %d, maximum order %d, alpha %v out of range", k, maxOrder, alpha)
+		return fmt.Errorf("svd: baseline order: k %d, maximum order %d, alpha %v out of range", k, maxOrder, alpha)
 	}
 	if n < 2 || m <= maxOrder+k+2 {
-		return nil, errors.New("svd: baseline order: too few spectra or points for the test")
+		return errors.New("svd: baseline order: too few spectra or points for the test")
 	}
-	r := min(k+maxOrder+2+4, n, m)
-	if f == nil || len(f.S) < r {
-		var err error
-		if f, err = Decompose(d, DecomposeOptions{MaxFactors: r}); err != nil {
-			return nil, fmt.Errorf("svd: baseline order: %w", err)
-		}
+	return nil
+}
+
+// leadingFactors returns f when it holds at least r factors, else decomposes d to r:
+// the rank-k fits of every order lie in the span of the leading k + maxOrder + 2
+// factors (with a margin of four) whenever the baseline matters.
+func leadingFactors(d *mat.Dense, f *Factors, r int) (*Factors, error) {
+	if f != nil && len(f.S) >= r {
+		return f, nil
 	}
-	r = min(r, len(f.S))
-	// W = Σ_r V_rᵀ (r × m): the data in its leading factors' coordinates.
-	w := mat.NewDense(r, m, nil)
-	for a := 0; a < r; a++ {
-		for j := 0; j < m; j++ {
-			w.Set(a, j, f.S[a]*f.V.At(j, a))
-		}
+	f, err := Decompose(d, DecomposeOptions{MaxFactors: r})
+	if err != nil {
+		return nil, fmt.Errorf("svd: baseline order: %w", err)
 	}
+	return f, nil
+}
+
+// baselineFits holds what the residual of every baseline order is computed from:
+// the data in its leading factors' coordinates, W = Σ_r V_rᵀ (r × m), its product
+// with the nested polynomial basis, and the polynomial part's energy per basis
+// column. Only r × m work is done per order, never a pass over d.
+type baselineFits struct {
+	n, m, r, k  int
+	frobeniusSq float64
+	w, wqAll    *mat.Dense
+	basis       *mat.Dense
+	polyEnergy  []float64 // ‖(D Q)_c‖² per basis column c
+	// W less its projection is formed in the same memory for every order,
+	// and its values taken there (valuesInPlace: mat.SVD's LAPACK call
+	// without its copy of the matrix).
+	proj mat.Dense
+	wq   *mat.Dense
+}
+
+// newBaselineFits forms W, the basis (unless given), D Q (unless given) and W Q.
+func newBaselineFits(d, dq, basis *mat.Dense, f *Factors, axis, col []float64, k, maxOrder int) (*baselineFits, error) {
+	n, m := d.Dims()
+	r := min(k+maxOrder+2+4, n, m, len(f.S))
+	w := factorCoordinates(f, r, m)
 	// The polynomial part's energy of order q is Σ_{c≤q} ‖(D Q)_c‖², and the projection
 	// of W on the first q+1 basis columns is (W Q)_{:,≤q} Q_{:,≤q}ᵀ.
 	if basis == nil {
@@ -197,64 +238,75 @@ func ChooseBaselineOrderBasis(d, dq, basis *mat.Dense, f *Factors, axis, col []f
 	} else if bm, bc := basis.Dims(); bm != m || bc != maxOrder+1 {
 		return nil, fmt.Errorf("svd: baseline order: basis is %d × %d for %d points and order %d", bm, bc, m, maxOrder)
 	}
-	var wqAll mat.Dense
 	if dq == nil {
 		dq = few.Mul(d, basis) // mat.Dense.Mul's bits, faster at a few columns
 	} else if dn, dc := dq.Dims(); dn != n || dc != maxOrder+1 {
 		return nil, fmt.Errorf("svd: baseline order: D Q is %d × %d for %d spectra and order %d", dn, dc, n, maxOrder)
 	}
-	wqAll.Mul(w, basis)
-	polyEnergy := make([]float64, maxOrder+1)
-	for c := 0; c <= maxOrder; c++ {
+	fits := &baselineFits{n: n, m: m, r: r, k: k, frobeniusSq: f.FrobeniusSq, w: w, basis: basis,
+		wqAll: &mat.Dense{}, wq: mat.NewDense(r, m, nil)}
+	fits.wqAll.Mul(w, basis)
+	fits.polyEnergy = columnEnergies(dq, n, maxOrder+1)
+	return fits, nil
+}
+
+// factorCoordinates returns W = Σ_r V_rᵀ (r × m): the data in its leading factors'
+// coordinates, whose singular values are the data's own.
+func factorCoordinates(f *Factors, r, m int) *mat.Dense {
+	w := mat.NewDense(r, m, nil)
+	for a := 0; a < r; a++ {
+		for j := 0; j < m; j++ {
+			w.Set(a, j, f.S[a]*f.V.At(j, a))
+		}
+	}
+	return w
+}
+
+// columnEnergies returns Σ_i x_ic² for each of the first c columns of x (n rows).
+func columnEnergies(x *mat.Dense, n, c int) []float64 {
+	e := make([]float64, c)
+	for j := 0; j < c; j++ {
 		for i := 0; i < n; i++ {
-			polyEnergy[c] += dq.At(i, c) * dq.At(i, c)
+			e[j] += x.At(i, j) * x.At(i, j)
 		}
 	}
-	// W less its projection is formed in the same memory for every order,
-	// and its values taken there (valuesInPlace: mat.SVD's LAPACK call
-	// without its copy of the matrix).
-	var proj mat.Dense
-	wq := mat.NewDense(r, m, nil)
-	rss := func(q int) float64 {
-		energy := f.FrobeniusSq
-		if q >= 0 {
-			for c := 0; c <= q; c++ {
-				energy -= polyEnergy[c]
-			}
-			proj.Mul(wqAll.Slice(0, r, 0, q+1), basis.Slice(0, m, 0, q+1).T())
-			wq.Sub(w, &proj)
-		} else {
-			wq.Copy(w)
+	return e
+}
+
+// rss is the residual sum of squares of the best fit of k factors plus a baseline of
+// order q (−1: none): the energy left after the polynomial part and the k largest
+// singular values of what remains of W.
+func (b *baselineFits) rss(q int) float64 {
+	energy := b.frobeniusSq
+	if q >= 0 {
+		for c := 0; c <= q; c++ {
+			energy -= b.polyEnergy[c]
 		}
-		if k > 0 {
-			if vals, ok := valuesInPlace(wq.RawMatrix()); ok {
-				for _, s := range vals[:min(k, r)] {
-					energy -= s * s
-				}
-			}
-		}
-		return math.Max(energy, 0)
+		b.proj.Mul(b.wqAll.Slice(0, b.r, 0, q+1), b.basis.Slice(0, b.m, 0, q+1).T())
+		b.wq.Sub(b.w, &b.proj)
+	} else {
+		b.wq.Copy(b.w)
 	}
+	if b.k > 0 {
+		if vals, ok := valuesInPlace(b.wq.RawMatrix()); ok {
+			for _, s := range vals[:min(b.k, b.r)] {
+				energy -= s * s
+			}
+		}
+	}
+	return math.Max(energy, 0)
+}
+
+// forwardSelect adds orders while they are significant at level alpha, stepping over
+// one that is not (a pure slope is found even when the offset alone is not
+// significant) and stopping at two in a row.
+func (b *baselineFits) forwardSelect(maxOrder int, alpha float64) *BaselineChoice {
 	ch := &BaselineChoice{Order: -1}
-	prev := rss(-1)
+	prev := b.rss(-1)
 	ch.Steps = append(ch.Steps, BaselineStep{Order: -1, ResidualSS: prev, Significance: 1})
 	for q := 0; q <= maxOrder; q++ {
-		cur := rss(q)
-		dof := float64(n*(m-q-1) - k*(n+m-q-1-k))
-		st := BaselineStep{Order: q, ResidualSS: cur, Significance: 1}
-		switch {
-		case dof < 1:
-		case cur <= 0:
-			if prev > 0 {
-				st.Significance = 0
-			}
-		default:
-			st.F = (math.Max(prev-cur, 0) / float64(n)) / (cur / dof)
-			p := 1 - distuv.F{D1: float64(n), D2: dof}.CDF(st.F)
-			if !math.IsNaN(p) {
-				st.Significance = math.Min(math.Max(p, 0), 1)
-			}
-		}
+		cur := b.rss(q)
+		st := b.fTest(q, prev, cur)
 		ch.Steps = append(ch.Steps, st)
 		prev = cur
 		if st.Significance < alpha {
@@ -263,5 +315,28 @@ func ChooseBaselineOrderBasis(d, dq, basis *mat.Dense, f *Factors, axis, col []f
 			break // two orders in a row add nothing
 		}
 	}
-	return ch, nil
+	return ch
+}
+
+// fTest is the extra-sum-of-squares F-test of order q against q−1. An exact fit
+// (cur = 0) after an inexact one is taken as significant without F, whose ratio
+// would be infinite; too few degrees of freedom leave the order not significant.
+func (b *baselineFits) fTest(q int, prev, cur float64) BaselineStep {
+	n, m, k := b.n, b.m, b.k
+	dof := float64(n*(m-q-1) - k*(n+m-q-1-k))
+	st := BaselineStep{Order: q, ResidualSS: cur, Significance: 1}
+	switch {
+	case dof < 1:
+	case cur <= 0:
+		if prev > 0 {
+			st.Significance = 0
+		}
+	default:
+		st.F = (math.Max(prev-cur, 0) / float64(n)) / (cur / dof)
+		p := 1 - distuv.F{D1: float64(n), D2: dof}.CDF(st.F)
+		if !math.IsNaN(p) {
+			st.Significance = math.Min(math.Max(p, 0), 1)
+		}
+	}
+	return st
 }
