@@ -130,103 +130,187 @@ func ClassifyFactors(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOpti
 	if rep == nil || f == nil || f.FrobeniusSq == 0 {
 		return out
 	}
-	var n, m int
-	if d != nil {
-		n, m = d.Dims()
-	} else {
-		n, _ = f.U.Dims()
-		m, _ = f.V.Dims()
-	}
-	sigma := opt.Noise
-	if sigma <= 0 {
-		sigma = rep.Sigma
-		if d != nil && rep.SigmaSource != SigmaGiven && rep.SigmaSource != SigmaPreRows && n >= 3 {
-			sigma = math.Max(sigma, sigmaFromRowPairs(d, 0, n, true))
-		}
-	}
-	out.Sigma = sigma
-	ratio := func(k int) float64 {
-		dof := float64(n-k) * float64(m-k)
-		if sigma <= 0 || dof <= 0 {
-			return math.Inf(1)
-		}
-		return math.Sqrt(f.TailSq(k) / (dof * sigma * sigma))
-	}
-	var chemV [][]float64
-	var chem int
-	basis := polyBasisOnce(opt.Axis, opt.Col)
-	if b := opt.Basis; b != nil {
-		if bm, bc := b.Dims(); bm == m && bc == baselineOrder+1 {
-			basis = func() *mat.Dense { return b }
-		}
-	}
-	var smallest float64 // s² of the smallest chemical factor so far (not the mean level)
-	var spareU, spareV []float64
+	c := newFactorClassifier(d, f, rep, opt, out)
 	for j, row := range rep.Table {
 		if !row.AboveNoiseEdge || j >= len(f.S) {
 			break
 		}
 		out.Examined++
-		us, v := columnInto(spareU, f.U, j), columnInto(spareV, f.V, j)
-		u, vu := unscaleVec(us, opt.Row), unscaleVec(v, opt.Col)
-		// A column unscaled into a copy is not kept: its memory takes the next.
-		spareU, spareV = nil, nil
-		if rescaled(us, opt.Row) {
-			spareU = us
-		}
-		if rescaled(v, opt.Col) {
-			spareV = v
-		}
-		nf := NuisanceFactor{Factor: j + 1, SharePercent: 100 * f.S[j] * f.S[j] / f.FrobeniusSq, Time: u}
-		if row.ReferencePattern {
-			nf.Kind, nf.Looks = NuisancePattern, "flat in time and white across the axis: the reference spectrum's own noise"
-			out.Nuisance = append(out.Nuisance, nf)
-			continue
-		}
-		if rows, ok := concentrated(u); ok {
-			nf.Kind, nf.Spectra = NuisanceOutlier, rows
-			nf.Looks = fmt.Sprintf("concentrated in %d spectrum(s) (%.0f %% of its time vector): spectra unlike the rest, not a component", len(rows), 100*outlierEnergy)
-			out.Nuisance = append(out.Nuisance, nf)
-			continue
-		}
-		if n >= minStructureLen && !structured(row.AutocorrU, n) && !structured(Autocorrelation(u), n) {
-			out.NoiseLike++
-			continue
-		}
-		if opt.Axis != nil && len(opt.Axis) == m {
-			if sh := polyShareWeighted(vu, opt.Axis, opt.Col, basis); sh >= baselineShare {
-				nf.Kind = NuisanceBaseline
-				nf.Looks = fmt.Sprintf("smooth and broad across the axis: %.0f %% described by a polynomial of order ≤ %d (baseline drift)", 100*sh, baselineOrder)
-				out.Nuisance = append(out.Nuisance, nf)
-				continue
-			}
-			if len(chemV) > 0 {
-				if sh := derivShareWeighted(v, chemV, opt.Col); sh >= derivativeShare {
-					nf.Kind = NuisanceBandShift
-					nf.Looks = fmt.Sprintf("%.0f %% like the derivative of the chemical spectra: a band shift (temperature, a settling cell), not a species", 100*sh)
-					out.Nuisance = append(out.Nuisance, nf)
-					continue
-				}
-			}
-		}
-		if chem > 0 && (ratio(j) <= fitsNoise || smallest > 0 && f.S[j]*f.S[j] < minorEnergy*smallest) {
-			nf.Kind = NuisanceMinor
-			nf.Looks = minorLooks(u, vu, opt.Axis, ratio(j), chem, 100*f.S[j]*f.S[j]/smallest)
-			out.Nuisance = append(out.Nuisance, nf)
-			continue
-		}
-		chem++
-		chemV = append(chemV, vu)
-		if chem >= 2 || !opt.MeanLevel {
-			smallest = f.S[j] * f.S[j]
-		}
+		c.classify(j, row)
 	}
-	out.Estimate = min(chem, rep.Estimate)
-	out.ResidualRatio = ratio(out.Estimate)
+	out.Estimate = min(c.chem, rep.Estimate)
+	out.ResidualRatio = c.residualRatio(out.Estimate)
 	if math.IsInf(out.ResidualRatio, 0) {
 		out.ResidualRatio = 0
 	}
 	return out
+}
+
+// factorClassifier carries what the classification of one factor learns for the
+// next: the chemical spectrum vectors found so far (a band shift is judged against
+// them), their count, and the size of the smallest (a minor factor is judged against
+// it).
+type factorClassifier struct {
+	f     *Factors
+	opt   NuisanceOptions
+	out   *ChemicalRank
+	n, m  int
+	sigma float64
+	basis func() *mat.Dense // the baseline test's polynomial basis, formed at first use
+	chemV [][]float64       // unscaled spectrum vectors of the chemical factors so far
+	chem  int
+	// smallest is s² of the smallest chemical factor so far (not the mean level).
+	smallest float64
+	// A column unscaled into a copy is not kept: its memory takes the next.
+	spareU, spareV []float64
+}
+
+// newFactorClassifier takes the dimensions from d, or from f when d is nil (d's values
+// are needed only for the noise level).
+func newFactorClassifier(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOptions, out *ChemicalRank) *factorClassifier {
+	c := &factorClassifier{f: f, opt: opt, out: out}
+	if d != nil {
+		c.n, c.m = d.Dims()
+	} else {
+		c.n, _ = f.U.Dims()
+		c.m, _ = f.V.Dims()
+	}
+	c.sigma = noiseForFit(d, rep, opt.Noise, c.n)
+	out.Sigma = c.sigma
+	c.basis = polyBasisOnce(opt.Axis, opt.Col)
+	if b := opt.Basis; b != nil {
+		if bm, bc := b.Dims(); bm == c.m && bc == baselineOrder+1 {
+			c.basis = func() *mat.Dense { return b }
+		}
+	}
+	return c
+}
+
+// noiseForFit is the noise level the "fits to the noise" test compares with. Unless
+// the rank report's level was given or came from pre-reaction spectra, the level seen
+// from one spectrum to the next is taken when larger: it sees the noise whatever its
+// colour along the axis.
+func noiseForFit(d *mat.Dense, rep *RankReport, given float64, n int) float64 {
+	if given > 0 {
+		return given
+	}
+	sigma := rep.Sigma
+	if d != nil && rep.SigmaSource != SigmaGiven && rep.SigmaSource != SigmaPreRows && n >= 3 {
+		sigma = math.Max(sigma, sigmaFromRowPairs(d, 0, n, true))
+	}
+	return sigma
+}
+
+// residualRatio is √(tail(k)/((n−k)(m−k)σ²)): 1 when k factors fit the data to the
+// noise; +Inf when there is no noise level or no degree of freedom to judge by.
+func (c *factorClassifier) residualRatio(k int) float64 {
+	dof := float64(c.n-k) * float64(c.m-k)
+	if c.sigma <= 0 || dof <= 0 {
+		return math.Inf(1)
+	}
+	return math.Sqrt(c.f.TailSq(k) / (dof * c.sigma * c.sigma))
+}
+
+// classify tests factor j in the order of ClassifyFactors's list, the first test it
+// meets deciding: a factor is chemical only when it is none of the others.
+func (c *factorClassifier) classify(j int, row CandidateRow) {
+	u, v, vu := c.factorVectors(j)
+	nf := NuisanceFactor{Factor: j + 1, SharePercent: 100 * c.f.S[j] * c.f.S[j] / c.f.FrobeniusSq, Time: u}
+	switch {
+	case c.artefact(&nf, row, u):
+	case c.noiseLike(row, u):
+		c.out.NoiseLike++
+		return
+	case c.smoothNuisance(&nf, v, vu):
+	case c.minor(&nf, j, u, vu):
+	default:
+		c.countChemical(j, vu)
+		return
+	}
+	c.out.Nuisance = append(c.out.Nuisance, nf)
+}
+
+// factorVectors returns factor j's time vector u and spectrum vector v as the
+// decomposition holds them, and v unscaled (vu): the shapes the factor has in the
+// data, which the shape tests look at.
+func (c *factorClassifier) factorVectors(j int) (u, v, vu []float64) {
+	us, v := columnInto(c.spareU, c.f.U, j), columnInto(c.spareV, c.f.V, j)
+	u, vu = unscaleVec(us, c.opt.Row), unscaleVec(v, c.opt.Col)
+	c.spareU, c.spareV = nil, nil
+	if rescaled(us, c.opt.Row) {
+		c.spareU = us
+	}
+	if rescaled(v, c.opt.Col) {
+		c.spareV = v
+	}
+	return u, v, vu
+}
+
+// artefact recognises a factor that comes from the measurement rather than the
+// sample: the reference spectrum's own noise, or a few spectra unlike the rest.
+func (c *factorClassifier) artefact(nf *NuisanceFactor, row CandidateRow, u []float64) bool {
+	if row.ReferencePattern {
+		nf.Kind, nf.Looks = NuisancePattern, "flat in time and white across the axis: the reference spectrum's own noise"
+		return true
+	}
+	if rows, ok := concentrated(u); ok {
+		nf.Kind, nf.Spectra = NuisanceOutlier, rows
+		nf.Looks = fmt.Sprintf("concentrated in %d spectrum(s) (%.0f %% of its time vector): spectra unlike the rest, not a component", len(rows), 100*outlierEnergy)
+		return true
+	}
+	return false
+}
+
+// noiseLike reports a time vector as white as noise, by the rank report's
+// autocorrelation and by that of the unscaled vector: both must fail the structure
+// test, as a short series says little.
+func (c *factorClassifier) noiseLike(row CandidateRow, u []float64) bool {
+	return c.n >= minStructureLen && !structured(row.AutocorrU, c.n) && !structured(Autocorrelation(u), c.n)
+}
+
+// smoothNuisance recognises a spectrum that is a baseline (a low-order polynomial of
+// the axis) or a band shift (the derivative of chemical spectra already found). Both
+// need the axis.
+func (c *factorClassifier) smoothNuisance(nf *NuisanceFactor, v, vu []float64) bool {
+	if c.opt.Axis == nil || len(c.opt.Axis) != c.m {
+		return false
+	}
+	if sh := polyShareWeighted(vu, c.opt.Axis, c.opt.Col, c.basis); sh >= baselineShare {
+		nf.Kind = NuisanceBaseline
+		nf.Looks = fmt.Sprintf("smooth and broad across the axis: %.0f %% described by a polynomial of order ≤ %d (baseline drift)", 100*sh, baselineOrder)
+		return true
+	}
+	if len(c.chemV) > 0 {
+		if sh := derivShareWeighted(v, c.chemV, c.opt.Col); sh >= derivativeShare {
+			nf.Kind = NuisanceBandShift
+			nf.Looks = fmt.Sprintf("%.0f %% like the derivative of the chemical spectra: a band shift (temperature, a settling cell), not a species", 100*sh)
+			return true
+		}
+	}
+	return false
+}
+
+// minor recognises a factor after the first chemical one that the fit does not need:
+// the factors before it already reach the noise, or it is too small beside them for
+// a resolution to tell it from a change of band shapes.
+func (c *factorClassifier) minor(nf *NuisanceFactor, j int, u, vu []float64) bool {
+	s2 := c.f.S[j] * c.f.S[j]
+	if c.chem == 0 || !(c.residualRatio(j) <= fitsNoise || c.smallest > 0 && s2 < minorEnergy*c.smallest) {
+		return false
+	}
+	nf.Kind = NuisanceMinor
+	nf.Looks = minorLooks(u, vu, c.opt.Axis, c.residualRatio(j), c.chem, 100*c.f.S[j]*c.f.S[j]/c.smallest)
+	return true
+}
+
+// countChemical records factor j as chemical. In absorbance data the first chemical
+// factor is the mean level, whose size says nothing of how small a species may be.
+func (c *factorClassifier) countChemical(j int, vu []float64) {
+	c.chem++
+	c.chemV = append(c.chemV, vu)
+	if c.chem >= 2 || !c.opt.MeanLevel {
+		c.smallest = c.f.S[j] * c.f.S[j]
+	}
 }
 
 // ApplyChemical makes the chemical count rep's estimate: the reason says so and the
