@@ -1332,6 +1332,35 @@ func BlindNotes(source, axisName string, axis, times []float64, b *Blind) []stri
 func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Assembled) error {
 	n, m := s.Values.Dims()
 	bad := make([]bool, m)
+	if err := checkBlankAndReferenceBeams(s, opt, ref, bad); err != nil {
+		return err
+	}
+	scan, own, cnt := scanSingleBeams(s, opt, bad)
+	blind := scan.blind
+	if blind.Count > n*m/4 {
+		// Not a few blind points but the wrong kind of data.
+		return checkPositive(s.Values, s, "single beam")
+	}
+	sigI, q, src := channelNoiseOwn(s.Values, opt.Pre, blind, scan.quantum, own, cnt)
+	blind.addWeakBelow(s.Values, sigI, scan.top)
+	nref := referenceBeamCounts(s.Values, opt, out.ReferenceRows, blind, ref)
+	blindWeakChannels(blind, ref, opt.Blank, sigI, nref)
+	out.Warnings = append(out.Warnings, saturationWarningsAt(s, ref, opt.Blank, scan.channelMax)...)
+	out.Blind = blind
+	out.Noise = Noise{Level: median(sigI), Unit: "single-beam units", Source: src, Channel: sigI, Quantum: q}
+	refVar := referenceVariance(sigI, ref, nref)
+	v := newAbsorbanceVariances(s.Values, sigI, refVar, opt.Blank != nil)
+	placeAbsorbances(s.Values, opt, out)
+	fitAbsorbanceWeights(s.Values, v, blind, opt.Blank != nil, out)
+	writeAbsorbances(s, ref, opt.Blank, blind, out)
+	out.Notes = append(out.Notes, BlindNotes(s.Source, s.AxisName, s.Axis, s.Times, blind)...)
+	return nil
+}
+
+// checkBlankAndReferenceBeams refuses a blank or a reference file that is not a
+// single beam (absorbance given where intensities are expected), and marks its
+// unusable channels in bad.
+func checkBlankAndReferenceBeams(s *Series, opt AssembleOptions, ref []float64, bad []bool) error {
 	if opt.Blank != nil {
 		src := opt.BlankSource
 		if src == "" {
@@ -1346,10 +1375,14 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 			return inputErr(opt.Reference.File.Source, 0, "a reference for single beams must be a single beam too (positive intensities)", "reference intensity %g at %s %g", ref[j], s.AxisName, s.Axis[j])
 		}
 	}
-	// The maxima, the blind points, the channels' brightest observed beams
-	// and the rounding step in one pass over the beams rather than four,
-	// or from the parse's scan of each channel with the noise model's own
-	// scales (the same values).
+	return nil
+}
+
+// scanSingleBeams gives the maxima, the blind points, the channels'
+// brightest observed beams and the rounding step in one pass over the beams
+// rather than four, or from the parse's scan of each channel with the noise
+// model's own scales (the same values).
+func scanSingleBeams(s *Series, opt AssembleOptions, bad []bool) (beamScan, []float64, []int) {
 	scan, own, cnt, scanned := s.scan.usable(s.Values, opt.Pre).complete(bad)
 	if !scanned {
 		scan, own, cnt = scanBeams(s.Values, bad), nil, nil
@@ -1357,112 +1390,153 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	if opt.Consume {
 		s.scan = nil
 	}
-	blind, top, channelMax := scan.blind, scan.top, scan.channelMax
-	if blind.Count > n*m/4 {
-		// Not a few blind points but the wrong kind of data.
-		return checkPositive(s.Values, s, "single beam")
-	}
-	sigI, q, src := channelNoiseOwn(s.Values, opt.Pre, blind, scan.quantum, own, cnt)
-	blind.addWeakBelow(s.Values, sigI, top)
+	return scan, own, cnt
+}
+
+// referenceBeamCounts returns how many observed beams each channel of the
+// reference averages: a reference file counts as one, a reference formed from
+// the series' own rows as many of them as are not blind there.
+func referenceBeamCounts(v *mat.Dense, opt AssembleOptions, rows []int, blind *Blind, ref []float64) []float64 {
+	_, m := v.Dims()
 	nref := make([]float64, m)
 	if opt.Reference.File != nil {
 		for j := range nref {
 			nref[j] = 1
 		}
 	} else {
-		meanObserved(s.Values, out.ReferenceRows, blind, ref, nref)
+		meanObserved(v, rows, blind, ref, nref)
 	}
+	return nref
+}
+
+// blindWeakChannels makes blind every channel whose reference or blank beam
+// is neither clear of its noise nor a fair fraction of the typical beam: a
+// ratio to a beam that weak says nothing of the sample.
+func blindWeakChannels(blind *Blind, ref, blank, sigI, nref []float64) {
 	med, medBlank := median(ref), 0.0
-	if opt.Blank != nil {
-		medBlank = median(opt.Blank)
+	if blank != nil {
+		medBlank = median(blank)
 	}
-	for j := 0; j < m; j++ {
+	for j := range nref {
 		weakRef := nref[j] == 0 || !(ref[j] > weakSigmas*sigI[j]/math.Sqrt(nref[j]) || ref[j] > weakBeamFraction*med)
-		weakBlank := opt.Blank != nil && !(opt.Blank[j] > weakSigmas*sigI[j] || opt.Blank[j] > weakBeamFraction*medBlank)
+		weakBlank := blank != nil && !(blank[j] > weakSigmas*sigI[j] || blank[j] > weakBeamFraction*medBlank)
 		if weakRef || weakBlank {
 			blind.addChannel(j)
 		}
 	}
-	out.Warnings = append(out.Warnings, saturationWarningsAt(s, ref, opt.Blank, channelMax)...)
-	out.Blind = blind
-	out.Noise = Noise{Level: median(sigI), Unit: "single-beam units", Source: src, Channel: sigI, Quantum: q}
-	const ln10sq = math.Ln10 * math.Ln10
-	refVar := make([]float64, m) // the reference's share, the same in every spectrum
+}
+
+// referenceVariance is the reference's share of each channel's relative
+// variance, (σ_I/I_ref)²/n_ref: the same in every spectrum.
+func referenceVariance(sigI, ref, nref []float64) []float64 {
+	refVar := make([]float64, len(sigI))
 	for j := range refVar {
 		refVar[j] = sq(sigI[j]/ref[j]) / nref[j]
 	}
-	// The variances are formed a row at a time with the divisions four at
-	// once (vecmath: the bits of Go's division), in the order of the
-	// formula: (σ_I/I)², plus the reference's share, over ln²10.
+	return refVar
+}
+
+// absorbanceVariances are the variance models of the absorbances, one row
+// at a time, as the weight fits ask for them.
+type absorbanceVariances struct {
+	nf   int // 1: differences only; 2: differences and absolute absorbances
+	vars func(i int, o []float64)
+	// logVars, when not nil, gives vars's values and their logarithms, for
+	// the first pass of a fit.
+	logVars func(i int, o []float64) bool
+	// abs is the absolute absorbances' variance alone, for the test of
+	// overweighted points.
+	abs func(i int, o []float64)
+}
+
+// newAbsorbanceVariances forms the variances a row at a time with the
+// divisions four at once (vecmath: the bits of Go's division), in the order
+// of the formula: (σ_I/I)², plus the reference's share, over ln²10. The
+// blank's own noise is one fixed pattern in every absolute spectrum; with
+// closure (Σ c_k = 1) the spectra absorb it (s_k + e for every k), so it is
+// no part of the residual and is left out of the absolute weights: only σ_I/I
+// of each spectrum's own beam. With a blank both sets of weights are formed
+// in the same passes, σ_I/I taken once for both.
+func newAbsorbanceVariances(values *mat.Dense, sigI, refVar []float64, blank bool) *absorbanceVariances {
+	_, m := values.Dims()
+	const ln10sq = math.Ln10 * math.Ln10
 	diffVar := func(i int, o []float64) {
 		o = o[:m]
-		vecmath.Quo(o, sigI, s.Values.RawRowView(i))
+		vecmath.Quo(o, sigI, values.RawRowView(i))
 		for j, q := range o {
 			o[j] = sq(q) + refVar[j]
 		}
 		vecmath.QuoBy(o, o, ln10sq)
 	}
-	// The blank's own noise is one fixed pattern in every absolute
-	// spectrum; with closure (Σ c_k = 1) the spectra absorb it (s_k + e for
-	// every k), so it is no part of the residual and is left out of the
-	// weights: only σ_I/I of each spectrum's own beam.
 	absVar := func(i int, o []float64) {
 		o = o[:m]
-		vecmath.Quo(o, sigI, s.Values.RawRowView(i))
+		vecmath.Quo(o, sigI, values.RawRowView(i))
 		for j, q := range o {
 			o[j] = sq(q)
 		}
 		vecmath.QuoBy(o, o, ln10sq)
 	}
-	// Both sets of weights in the same passes, σ_I/I taken once for both;
-	// the points the difference weights overweight become blind, and then
-	// both are fitted again.
-	nf := 1
-	vars := diffVar
-	var logVars func(i int, o []float64) bool
-	if opt.Blank != nil {
-		nf = 2
+	v := &absorbanceVariances{nf: 1, vars: diffVar, abs: absVar}
+	if blank {
+		v.nf = 2
 		// diffVar's values, then absVar's, in one pass (vecmath: the same
 		// roundings in the same order), and for the first pass of a fit
 		// their logarithms too.
-		vars = func(i int, o []float64) {
-			vecmath.QuoSquares(o[:m], o[m:2*m], sigI, s.Values.RawRowView(i), refVar, ln10sq)
+		v.vars = func(i int, o []float64) {
+			vecmath.QuoSquares(o[:m], o[m:2*m], sigI, values.RawRowView(i), refVar, ln10sq)
 		}
-		logVars = func(i int, o []float64) bool {
-			return vecmath.LogQuoSquares(o[:m], o[m:2*m], sigI, s.Values.RawRowView(i), refVar, ln10sq)
+		v.logVars = func(i int, o []float64) bool {
+			return vecmath.LogQuoSquares(o[:m], o[m:2*m], sigI, values.RawRowView(i), refVar, ln10sq)
 		}
 	}
-	// With Consume one of the two matrices is written in place of the single
-	// beams (each value is read before it is overwritten): the absolute one
-	// when there is a blank, else the differences. absorbances writes every
-	// value of both, so new ones need not be cleared first, and until then
-	// the weight fits' buffers may use the differences' memory.
+	return v
+}
+
+// placeAbsorbances gives out the matrices the absorbances go to. With Consume
+// one of them is written in place of the single beams (each value is read
+// before it is overwritten): the absolute one when there is a blank, else the
+// differences. absorbances writes every value of both, so new ones need not
+// be cleared first, and until then the weight fits' buffers may use the
+// differences' memory.
+func placeAbsorbances(values *mat.Dense, opt AssembleOptions, out *Assembled) {
+	n, m := values.Dims()
 	switch {
 	case opt.Blank != nil && opt.Consume:
-		out.Absolute, out.Difference = s.Values, fresh.Overwritten(n, m)
+		out.Absolute, out.Difference = values, fresh.Overwritten(n, m)
 	case opt.Blank != nil:
 		out.Absolute, out.Difference = fresh.Overwritten(n, m), fresh.Overwritten(n, m)
 	case opt.Consume:
-		out.Difference = s.Values
+		out.Difference = values
 	default:
 		out.Difference = fresh.Overwritten(n, m)
 	}
-	pieces := newRowPieces(nf * m)
-	if out.Difference != s.Values {
+}
+
+// fitAbsorbanceWeights fits the noise weights of both matrices; the points
+// the difference weights overweight become blind, and then both are fitted
+// again. absVar ≤ diffVar at every point (refVar ≥ 0, and rounding keeps the
+// order), so the first fit's peaks bound the products addOverweighted tests:
+// only rows whose bound reaches the threshold are looked at.
+func fitAbsorbanceWeights(values *mat.Dense, v *absorbanceVariances, blind *Blind, blank bool, out *Assembled) {
+	n, m := values.Dims()
+	pieces := newRowPieces(v.nf * m)
+	if out.Difference != values {
 		pieces.borrow(out.Difference.RawMatrix().Data)
 	}
-	// absVar ≤ diffVar at every point (refVar ≥ 0, and rounding keeps the
-	// order), so the first fit's peaks bound the products addOverweighted
-	// tests: only rows whose bound reaches the threshold are looked at.
-	w, peak := fitWeightsReusing(pieces, n, m, nf, blind, vars, logVars)
-	if w[0] != nil && blind.addOverweightedIn(w[0], absVar, peak) {
-		w, _ = fitWeightsReusing(pieces, n, m, nf, blind, vars, logVars)
+	w, peak := fitWeightsReusing(pieces, n, m, v.nf, blind, v.vars, v.logVars)
+	if w[0] != nil && blind.addOverweightedIn(w[0], v.abs, peak) {
+		w, _ = fitWeightsReusing(pieces, n, m, v.nf, blind, v.vars, v.logVars)
 	}
 	out.DifferenceWeights = w[0]
-	if opt.Blank != nil {
+	if blank {
 		out.AbsoluteWeights = w[1]
 	}
-	finite, absTop := absorbances(s.Values, ref, opt.Blank, out.Difference, out.Absolute, blind)
+}
+
+// writeAbsorbances forms both matrices from the beams and fills their blind
+// points from the low-rank model.
+func writeAbsorbances(s *Series, ref, blank []float64, blind *Blind, out *Assembled) {
+	finite, absTop := absorbances(s.Values, ref, blank, out.Difference, out.Absolute, blind)
 	fillBlind(out.Difference, blind, s.Times)
 	if out.Absolute != nil {
 		fillBlind(out.Absolute, blind, s.Times)
@@ -1481,8 +1555,6 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	// A placeholder is finite when the observed values it is made of are
 	// (they are absorbances, far from overflow), or 0: the check holds.
 	out.Finite = finite
-	out.Notes = append(out.Notes, BlindNotes(s.Source, s.AxisName, s.Axis, s.Times, blind)...)
-	return nil
 }
 
 func sq(x float64) float64 { return x * x }
