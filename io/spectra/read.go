@@ -321,7 +321,25 @@ func parseMatrixCSV(path string, raw []byte, pre int) (*Series, error) {
 	if len(lines) == 0 {
 		return nil, inputErr(path, 0, "export the spectra with a header row: axis name, then one time per spectrum", "is empty")
 	}
-	// Single-cell lines before the header are titles (quoted or not).
+	lines = skipTitles(lines)
+	h, err := parseMatrixHeader(path, lines[0])
+	if err != nil {
+		return nil, err
+	}
+	rows := lines[1:]
+	if len(rows) == 0 {
+		return nil, inputErr(path, lines[0].n, "add one row per axis point below the header", "has a header but no data rows")
+	}
+	p := newMatrixParse(path, rows, h, pre)
+	if err := p.parseChunks(); err != nil {
+		return nil, err
+	}
+	return p.series(h.axisName)
+}
+
+// skipTitles drops the single-cell lines before the header: titles, quoted
+// or not, that some exports put first. A single number is data, not a title.
+func skipTitles(lines []line) []line {
 	for len(lines) > 1 {
 		hf := fields(lines[0].text, detectSeparator(lines[0].text), nil)
 		if len(hf) != 1 {
@@ -332,118 +350,107 @@ func parseMatrixCSV(path string, raw []byte, pre int) (*Series, error) {
 		}
 		lines = lines[1:]
 	}
-	head := lines[0]
+	return lines
+}
+
+// matrixHeader is what the header row of the matrix layout says: the axis
+// name (lower case, "" when blank), the separator every row uses, and one
+// acquisition time per spectrum.
+type matrixHeader struct {
+	axisName string
+	sep      byte
+	times    []float64
+}
+
+// parseMatrixHeader reads the header row. A header of numbers is refused: it
+// would be read as a spectrum's times and the first channel lost.
+func parseMatrixHeader(path string, head line) (matrixHeader, error) {
 	sep := detectSeparator(head.text)
 	hf := fields(head.text, sep, nil)
 	if len(hf) < 2 {
-		return nil, inputErr(path, head.n, "the first row must be the axis name, then one acquisition time (s) per spectrum", "header has %d column(s)", len(hf))
+		return matrixHeader{}, inputErr(path, head.n, "the first row must be the axis name, then one acquisition time (s) per spectrum", "header has %d column(s)", len(hf))
 	}
 	axisName := strings.ToLower(strings.TrimSpace(string(hf[0])))
 	if _, err := parseNumber(hf[0]); err == nil {
-		return nil, inputErr(path, head.n, "add a header row: axis name (wavenumber or wavelength), then one time in seconds per spectrum", "first row is numbers, not a header")
+		return matrixHeader{}, inputErr(path, head.n, "add a header row: axis name (wavenumber or wavelength), then one time in seconds per spectrum", "first row is numbers, not a header")
 	}
-	n := len(hf) - 1
+	times, err := parseHeaderTimes(path, head.n, hf[1:], sep)
+	if err != nil {
+		return matrixHeader{}, err
+	}
+	return matrixHeader{axisName: axisName, sep: sep, times: times}, nil
+}
+
+// parseHeaderTimes reads the acquisition times, each spectrum's own: two
+// spectra at one time cannot both be placed on the time axis.
+func parseHeaderTimes(path string, lineNo int, cells [][]byte, sep byte) ([]float64, error) {
+	n := len(cells)
 	times := make([]float64, n)
 	seen := map[float64]int{}
 	for j := 0; j < n; j++ {
-		v, err := parseCell(hf[j+1], sep)
+		v, err := parseCell(cells[j], sep)
 		if err != nil {
-			return nil, inputErr(path, head.n, "header cells after the axis name must be acquisition times in seconds", "column %d: %v", j+2, err)
+			return nil, inputErr(path, lineNo, "header cells after the axis name must be acquisition times in seconds", "column %d: %v", j+2, err)
 		}
 		if p, dup := seen[v]; dup {
-			return nil, inputErr(path, head.n, "each spectrum needs its own time", "columns %d and %d have the same time %g s", p+2, j+2, v)
+			return nil, inputErr(path, lineNo, "each spectrum needs its own time", "columns %d and %d have the same time %g s", p+2, j+2, v)
 		}
 		seen[v] = j
 		times[j] = v
 	}
-	rows := lines[1:]
-	if len(rows) == 0 {
-		return nil, inputErr(path, head.n, "add one row per axis point below the header", "has a header but no data rows")
-	}
-	m := len(rows)
-	axis := make([]float64, m)
+	return times, nil
+}
+
+// matrixChunk is how many rows (channels) one worker parses at a time.
+const matrixChunk = 512
+
+// matrixParse is the parse of the data rows of the matrix layout: chunks of
+// rows taken by workers from a queue, each value written to its fixed place
+// in vals (spectrum j, channel i), so the result does not depend on the
+// number of threads.
+type matrixParse struct {
+	path  string
+	rows  []line
+	sep   byte
+	n, m  int // spectra, channels
+	times []float64
+	axis  []float64
+	vals  *mat.Dense
+	// scan, when not nil, is given each channel in time order while its
+	// values are in hand (the times ascend in the file).
+	scan *channelScan
+	work chan int
+	errs []error // the first bad row of each chunk
+}
+
+// newMatrixParse queues every chunk of rows.
+func newMatrixParse(path string, rows []line, h matrixHeader, pre int) *matrixParse {
+	n, m := len(h.times), len(rows)
 	// Every value is written by the parse or the matrix is dropped with the
 	// error, so it need not be cleared first.
-	vals := fresh.Overwritten(n, m)
-	raw2 := vals.RawMatrix()
-	// Each line is one channel in time order when the times ascend: the
-	// channel can be scanned while its values are in hand.
-	var scan *channelScan
-	if pre >= 0 && slices.IsSorted(times) {
-		scan = newChannelScan(n, m, pre)
+	p := &matrixParse{path: path, rows: rows, sep: h.sep, n: n, m: m, times: h.times,
+		axis: make([]float64, m), vals: fresh.Overwritten(n, m)}
+	if pre >= 0 && slices.IsSorted(h.times) {
+		p.scan = newChannelScan(n, m, pre)
 	}
-	const chunk = 512
-	nch := (m + chunk - 1) / chunk
-	errs := make([]error, nch)
-	var wg sync.WaitGroup
-	work := make(chan int, nch)
+	nch := (m + matrixChunk - 1) / matrixChunk
+	p.errs = make([]error, nch)
+	p.work = make(chan int, nch)
 	for c := 0; c < nch; c++ {
-		work <- c
+		p.work <- c
 	}
-	close(work)
-	// parseRows is one worker's loop, *at the chunk it is on; a fault on
-	// the mapped file inside it becomes an error (guardFault) rather than a
-	// crash.
-	parseRows := func(at *int) {
-		var buf [][]byte
-		var line, diffs []float64 // one channel's values, and its time differences
-		var near float64          // the middle of the last channel's differences
-		if scan != nil {
-			line, diffs = make([]float64, n), make([]float64, n)
-		}
-		for c := range work {
-			*at = c
-			if chunkStarts != nil {
-				chunkStarts(c)
-			}
-			for i := c * chunk; i < min(m, (c+1)*chunk); i++ {
-				l := rows[i]
-				buf = fields(l.text, sep, buf)
-				if len(buf) != n+1 {
-					hint := fmt.Sprintf("every row needs %d cells (axis + %d spectra) like the header", n+1, n)
-					if sep == ',' && len(buf) > n+1 {
-						hint += "; if the file uses decimal commas, export with decimal points"
-					}
-					errs[c] = inputErr(path, l.n, hint, "row has %d cells, header has %d", len(buf), n+1)
-					break
-				}
-				var err error
-				if axis[i], err = parseCell(buf[0], sep); err != nil {
-					errs[c] = inputErr(path, l.n, "the first column must be the axis value", "axis cell: %v", err)
-					break
-				}
-				for j := 0; j < n; j++ {
-					v, err := parseCell(buf[j+1], sep)
-					if err != nil {
-						hint := "replace it with a number, or remove the row"
-						if looksLikeDecimalComma(buf[j+1]) {
-							hint = "the file seems to use decimal commas: export with decimal points"
-						}
-						errs[c] = inputErr(path, l.n, hint, "column %d (time %g s): %v", j+2, times[j], err)
-						break
-					}
-					if line != nil {
-						line[j] = v
-					} else {
-						raw2.Data[j*raw2.Stride+i] = v
-					}
-				}
-				if errs[c] != nil {
-					break
-				}
-				if line != nil {
-					for j, v := range line {
-						raw2.Data[j*raw2.Stride+i] = v
-					}
-					scan.channel(i, line, diffs, &near)
-				}
-			}
-		}
-	}
-	workers := min(runtime.GOMAXPROCS(0), nch)
+	close(p.work)
+	return p
+}
+
+// parseChunks runs the workers and returns the first error in file order. A
+// fault on the mapped file inside a worker becomes an error (guardFault)
+// rather than a crash; any other panic (a bug) ends its worker, the others
+// drain the chunks, and the lowest chunk's is raised again here.
+func (p *matrixParse) parseChunks() error {
+	workers := min(runtime.GOMAXPROCS(0), len(p.errs))
 	faults := make([]error, workers)
-	// Any other panic (a bug) ends its worker, the others drain the
-	// chunks, and the lowest chunk's is raised again here.
+	var wg sync.WaitGroup
 	var fault fanout.Fault
 	for w := 0; w < workers; w++ {
 		wg.Add(1)
@@ -451,35 +458,108 @@ func parseMatrixCSV(path string, raw []byte, pre int) (*Series, error) {
 			defer wg.Done()
 			c := 0
 			defer fault.Catch(&c)
-			faults[w] = guardFault(func() { parseRows(&c) })
+			faults[w] = guardFault(func() { p.parseRows(&c) })
 		}()
 	}
 	wg.Wait()
 	fault.Raise()
 	for _, err := range faults {
 		if err != nil {
-			return nil, inputErr(path, 0, "do not change the file while it is read", "%v", err)
+			return inputErr(p.path, 0, "do not change the file while it is read", "%v", err)
 		}
 	}
-	for _, err := range errs {
+	for _, err := range p.errs {
 		if err != nil {
-			return nil, err
+			return err
 		}
 	}
-	if err := checkAxis(path, axis, func(i int) int { return rows[i].n }); err != nil {
+	return nil
+}
+
+// parseRows is one worker's loop, *at the chunk it is on (for the fault
+// report). A chunk stops at its first bad row; the worker goes on to the
+// next chunk, so that the error reported is the first in the file.
+func (p *matrixParse) parseRows(at *int) {
+	var buf [][]byte
+	var line, diffs []float64 // one channel's values, and its time differences
+	var near float64          // the middle of the last channel's differences
+	if p.scan != nil {
+		line, diffs = make([]float64, p.n), make([]float64, p.n)
+	}
+	for c := range p.work {
+		*at = c
+		if chunkStarts != nil {
+			chunkStarts(c)
+		}
+		for i := c * matrixChunk; i < min(p.m, (c+1)*matrixChunk); i++ {
+			var err error
+			if buf, err = p.parseRow(i, buf, line); err != nil {
+				p.errs[c] = err
+				break
+			}
+			if line != nil {
+				p.scan.channel(i, line, diffs, &near)
+			}
+		}
+	}
+}
+
+// parseRow parses row i into the axis and column i of the values (through
+// line, when the channel is to be scanned), reusing buf for its cells.
+func (p *matrixParse) parseRow(i int, buf [][]byte, line []float64) ([][]byte, error) {
+	n, sep, l := p.n, p.sep, p.rows[i]
+	raw2 := p.vals.RawMatrix()
+	buf = fields(l.text, sep, buf)
+	if len(buf) != n+1 {
+		hint := fmt.Sprintf("every row needs %d cells (axis + %d spectra) like the header", n+1, n)
+		if sep == ',' && len(buf) > n+1 {
+			hint += "; if the file uses decimal commas, export with decimal points"
+		}
+		return buf, inputErr(p.path, l.n, hint, "row has %d cells, header has %d", len(buf), n+1)
+	}
+	var err error
+	if p.axis[i], err = parseCell(buf[0], sep); err != nil {
+		return buf, inputErr(p.path, l.n, "the first column must be the axis value", "axis cell: %v", err)
+	}
+	for j := 0; j < n; j++ {
+		v, err := parseCell(buf[j+1], sep)
+		if err != nil {
+			hint := "replace it with a number, or remove the row"
+			if looksLikeDecimalComma(buf[j+1]) {
+				hint = "the file seems to use decimal commas: export with decimal points"
+			}
+			return buf, inputErr(p.path, l.n, hint, "column %d (time %g s): %v", j+2, p.times[j], err)
+		}
+		if line != nil {
+			line[j] = v
+		} else {
+			raw2.Data[j*raw2.Stride+i] = v
+		}
+	}
+	if line != nil {
+		for j, v := range line {
+			raw2.Data[j*raw2.Stride+i] = v
+		}
+	}
+	return buf, nil
+}
+
+// series checks the axis and makes the Series, sorted by time.
+func (p *matrixParse) series(axisName string) (*Series, error) {
+	if err := checkAxis(p.path, p.axis, func(i int) int { return p.rows[i].n }); err != nil {
 		return nil, err
 	}
 	if axisName == "" {
-		axisName = guessAxisName(axis)
+		axisName = guessAxisName(p.axis)
 	}
-	names := make([]string, n)
+	names := make([]string, p.n)
 	for j := range names {
-		names[j] = fmt.Sprintf("%s column %d", path, j+2)
+		names[j] = fmt.Sprintf("%s column %d", p.path, j+2)
 	}
-	s := &Series{AxisName: axisName, Axis: axis, Times: times, Names: names, Values: vals, Source: path}
-	if scan != nil {
-		scan.values = vals
-		s.scan = scan
+	s := &Series{AxisName: axisName, Axis: p.axis, Times: p.times, Names: names, Values: p.vals, Source: p.path}
+	if p.scan != nil {
+		p.scan.values = p.vals
+		s.scan = p.scan
 	}
 	s.sortByTime()
 	return s, nil
