@@ -7,6 +7,7 @@ import (
 	"runtime"
 	"testing"
 
+	"github.com/bandsolve/bandsolve/internal/vecmath"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -472,17 +473,6 @@ func TestRangeEndsSameAsFreshSearches(t *testing.T) {
 
 // sameEnd says whether two range ends hold the same bits.
 func sameEnd(a, b bandEnd) bool {
-	same := func(x, y []float64) bool {
-		if len(x) != len(y) {
-			return false
-		}
-		for i := range x {
-			if math.Float64bits(x[i]) != math.Float64bits(y[i]) {
-				return false
-			}
-		}
-		return true
-	}
 	return math.Float64bits(a.f) == math.Float64bits(b.f) && a.ok == b.ok && a.evals == b.evals &&
-		same(a.profile, b.profile) && same(a.spectrum, b.spectrum)
+		vecmath.SameBits(a.profile, b.profile) && vecmath.SameBits(a.spectrum, b.spectrum)
 }
