@@ -4,15 +4,9 @@ import (
 	"runtime"
 	"testing"
 
+	"github.com/bandsolve/bandsolve/internal/fanout/fanouttest"
 	"gonum.org/v1/gonum/mat"
 )
-
-// caught runs f and returns its panic, nil when it returned.
-func caught(f func()) (p any) {
-	defer func() { p = recover() }()
-	f()
-	return nil
-}
 
 // A fault (a panic) in the workers of SolveMany and Bootstrap reaches the
 // caller, where its recovery (the one a batch puts around each run,
@@ -42,13 +36,13 @@ func TestWorkerFaultReachesTheCaller(t *testing.T) {
 	for _, procs := range []int{1, 2} {
 		runtime.GOMAXPROCS(procs)
 		for rep := 0; rep < 10; rep++ {
-			got := caught(func() { SolveMany(p) })
+			got := fanouttest.Recovered(t, func() { SolveMany(p) })
 			e, ok := got.(runtime.Error)
 			if want := "runtime error: index out of range [200] with length 200"; !ok || e.Error() != want {
 				t.Fatalf("SolveMany, GOMAXPROCS %d: the caller recovered %v, want %q", procs, got, want)
 			}
 		}
-		got := caught(func() { Bootstrap(d, fit, opt, BootstrapOptions{Replicates: 6, Seed: 3}) })
+		got := fanouttest.Recovered(t, func() { Bootstrap(d, fit, opt, BootstrapOptions{Replicates: 6, Seed: 3}) })
 		if got != "a fault in the model" {
 			t.Errorf("Bootstrap, GOMAXPROCS %d: the caller recovered %v, want the model's fault", procs, got)
 		}
@@ -71,7 +65,7 @@ func TestRangeSearchFaultReachesTheCaller(t *testing.T) {
 	p.c = c.Slice(0, n, 0, k-1).(*mat.Dense)
 	for _, procs := range []int{1, 2} {
 		runtime.GOMAXPROCS(procs)
-		got := caught(func() { p.allExtremes() })
+		got := fanouttest.Recovered(t, func() { p.allExtremes() })
 		if got != mat.ErrShape {
 			t.Errorf("GOMAXPROCS %d: the caller recovered %v, want %v", procs, got, mat.ErrShape)
 		}
@@ -102,7 +96,7 @@ func TestWeightedFitFaultReachesTheCaller(t *testing.T) {
 	for _, procs := range []int{1, 2} {
 		runtime.GOMAXPROCS(procs)
 		for rep := 0; rep < 20; rep++ {
-			got := caught(func() { FitWeighted(d, c, s, row, col, missing) })
+			got := fanouttest.Recovered(t, func() { FitWeighted(d, c, s, row, col, missing) })
 			if got != "a fault in the lookup" {
 				t.Fatalf("GOMAXPROCS %d: the caller recovered %v, want the lookup's fault", procs, got)
 			}

@@ -4,6 +4,7 @@ import (
 	"runtime"
 	"testing"
 
+	"github.com/bandsolve/bandsolve/internal/fanout/fanouttest"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -26,11 +27,9 @@ func TestSweepFaultReachesTheCaller(t *testing.T) {
 	for _, procs := range []int{1, 2} {
 		runtime.GOMAXPROCS(procs)
 		for rep := 0; rep < 20; rep++ {
-			got := func() (p any) {
-				defer func() { p = recover() }()
+			got := fanouttest.Recovered(t, func() {
 				efaSweeps(fac, n, 5, 0, true)
-				return nil
-			}()
+			})
 			if got != mat.ErrZeroLength {
 				t.Fatalf("GOMAXPROCS %d: the caller recovered %v, want %v", procs, got, mat.ErrZeroLength)
 			}

@@ -5,14 +5,9 @@ import (
 	"runtime"
 	"sync/atomic"
 	"testing"
-)
 
-// recovered runs f and returns its panic, nil when it returned.
-func recovered(f func()) (p any) {
-	defer func() { p = recover() }()
-	f()
-	return nil
-}
+	"github.com/bandsolve/bandsolve/internal/fanout/fanouttest"
+)
 
 // A fault (a panic) in one piece of Each or FixedBlocks reaches the caller,
 // where its recovery (the one a batch puts around each run, cmd/bandsolve
@@ -45,7 +40,7 @@ func TestFanOutFaultReachesTheCaller(t *testing.T) {
 					}
 					ran[i].Store(true)
 				}
-				got := recovered(func() { Each(n, piece) })
+				got := fanouttest.Recovered(t, func() { Each(n, piece) })
 				if got != tc.want {
 					t.Fatalf("Each, %s, GOMAXPROCS %d: the caller recovered %v, want %q", tc.name, procs, got, tc.want)
 				}
@@ -54,7 +49,7 @@ func TestFanOutFaultReachesTheCaller(t *testing.T) {
 						t.Fatalf("Each, %s, GOMAXPROCS %d: task %d, below the fault, did not run", tc.name, procs, i)
 					}
 				}
-				got = recovered(func() {
+				got = fanouttest.Recovered(t, func() {
 					FixedBlocks(n, b, func(r0, r1 int) {
 						for i := r0; i < r1; i++ {
 							piece(i)

@@ -5,6 +5,7 @@ import (
 	"runtime"
 	"testing"
 
+	"github.com/bandsolve/bandsolve/internal/fanout/fanouttest"
 	"github.com/bandsolve/bandsolve/mcr"
 	"gonum.org/v1/gonum/mat"
 )
@@ -20,11 +21,9 @@ func TestLaterFaultReachesTheTaker(t *testing.T) {
 	for _, procs := range []int{1, 2} {
 		runtime.GOMAXPROCS(procs)
 		l := startLater(func() int { panic("a fault in the later") })
-		got := func() (p any) {
-			defer func() { p = recover() }()
+		got := fanouttest.Recovered(t, func() {
 			l.get()
-			return nil
-		}()
+		})
 		if got != "a fault in the later" {
 			t.Errorf("GOMAXPROCS %d: the taker recovered %v, want the later's fault", procs, got)
 		}
@@ -60,11 +59,9 @@ func TestChecksFaultReachesTheWaiter(t *testing.T) {
 	for _, procs := range []int{1, 2} {
 		runtime.GOMAXPROCS(procs)
 		wait := startChecks(&Result{ALS: fit}, mcr.Dense{D: &d}, opt)
-		got := func() (p any) {
-			defer func() { p = recover() }()
+		got := fanouttest.Recovered(t, func() {
 			wait()
-			return nil
-		}()
+		})
 		if got != "a fault in the model" {
 			t.Errorf("GOMAXPROCS %d: the waiter recovered %v, want the model's fault", procs, got)
 		}
@@ -79,11 +76,9 @@ func TestSecondStartFaultReachesTheWaiter(t *testing.T) {
 	for _, procs := range []int{1, 2} {
 		runtime.GOMAXPROCS(procs)
 		wait := beginSecondStart(&Result{Components: 2}, nil, mcr.Options{})
-		got := func() (p any) {
-			defer func() { p = recover() }()
+		got := fanouttest.Recovered(t, func() {
 			wait()
-			return nil
-		}()
+		})
 		if _, ok := got.(runtime.Error); !ok {
 			t.Errorf("GOMAXPROCS %d: the waiter recovered %v, want a runtime error", procs, got)
 		}

@@ -4,6 +4,8 @@ import (
 	"runtime"
 	"sync"
 	"testing"
+
+	"github.com/bandsolve/bandsolve/internal/fanout/fanouttest"
 )
 
 // inOrder's contract, checked on units that record when they run: every
@@ -90,16 +92,14 @@ func TestInOrderFaultReachesTheCaller(t *testing.T) {
 			}
 		}
 		o := startInOrder(units)
-		got := func() (p any) {
-			defer func() { p = recover() }()
+		got := fanouttest.Recovered(t, func() {
 			for u := 0; u < n; u++ {
 				o.wait(u)
 				if results[u] != u+1 {
 					t.Errorf("GOMAXPROCS %d: unit %d's result %d after wait", procs, u, results[u])
 				}
 			}
-			return nil
-		}()
+		})
 		o.stop()
 		if got != "a fault in unit 3" {
 			t.Errorf("GOMAXPROCS %d: the caller recovered %v, want the fault of unit %d", procs, got, bad)

@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"runtime"
 	"testing"
+
+	"github.com/bandsolve/bandsolve/internal/fanout/fanouttest"
 )
 
 // A fault (a panic) in a matrix's At while maps.csv is formatted on several
@@ -28,11 +30,9 @@ func TestMapsFaultReachesTheCaller(t *testing.T) {
 		runtime.GOMAXPROCS(procs)
 		for workers := 1; workers <= 3; workers++ {
 			for rep := 0; rep < 10; rep++ {
-				got := func() (p any) {
-					defer func() { p = recover() }()
+				got := fanouttest.Recovered(t, func() {
 					FormatMapsPart(axis, times, nil, mats, workers)
-					return nil
-				}()
+				})
 				if want := "a fault in the residual at row 0"; got != want {
 					t.Fatalf("GOMAXPROCS %d, %d workers: the caller recovered %v, want %q", procs, workers, got, want)
 				}

@@ -4,6 +4,7 @@ import (
 	"runtime"
 	"testing"
 
+	"github.com/bandsolve/bandsolve/internal/fanout/fanouttest"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -29,11 +30,9 @@ func TestAbsorbanceFaultReachesTheCaller(t *testing.T) {
 	for _, procs := range []int{1, 2} {
 		runtime.GOMAXPROCS(procs)
 		for rep := 0; rep < 10; rep++ {
-			got := func() (p any) {
-				defer func() { p = recover() }()
+			got := fanouttest.Recovered(t, func() {
 				absorbances(v, ref, nil, mat.NewDense(100, m, nil), nil, nil)
-				return nil
-			}()
+			})
 			if got != mat.ErrRowAccess {
 				t.Fatalf("GOMAXPROCS %d: the caller recovered %v, want %v", procs, got, mat.ErrRowAccess)
 			}

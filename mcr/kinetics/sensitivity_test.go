@@ -6,6 +6,8 @@ import (
 	"runtime"
 	"strconv"
 	"testing"
+
+	"github.com/bandsolve/bandsolve/internal/fanout/fanouttest"
 	"time"
 
 	"github.com/bandsolve/bandsolve/internal/vecmath"
@@ -367,8 +369,7 @@ func TestHalvesFaultReachesTheCaller(t *testing.T) {
 	n := 2 * sensBlock
 	for _, bad := range []int{0, n / 2} {
 		var ran [2]bool
-		got := func() (p any) {
-			defer func() { p = recover() }()
+		got := fanouttest.Recovered(t, func() {
 			halves(n, sensBlock, func(r0, r1 int) {
 				if r0 == bad {
 					panic("a fault in the half from " + strconv.Itoa(bad))
@@ -376,8 +377,7 @@ func TestHalvesFaultReachesTheCaller(t *testing.T) {
 				time.Sleep(10 * time.Millisecond) // the other half ends after the fault
 				ran[r0/(n/2)] = true
 			})
-			return nil
-		}()
+		})
 		if want := "a fault in the half from " + strconv.Itoa(bad); got != want {
 			t.Errorf("the caller recovered %v, want %q", got, want)
 		}
