@@ -322,7 +322,13 @@ func medianInPlace(c []float64) float64 {
 // and the result has the same bits as medianInPlace of the quotients.
 func medianOver(c []float64, div float64) float64 {
 	lo, hi := middlePair(c)
-	if len(c)%2 == 1 {
+	return medianOfPair(lo, hi, len(c), div)
+}
+
+// medianOfPair is the median over div of a sample of n values whose middle
+// order statistics are lo and hi (middlePair's): hi alone for an odd n.
+func medianOfPair(lo, hi float64, n int, div float64) float64 {
+	if n%2 == 1 {
 		return hi / div
 	}
 	return (lo/div + hi/div) / 2
@@ -334,10 +340,7 @@ func medianOver(c []float64, div float64) float64 {
 func medianOverNear(c []float64, div float64, near *float64) float64 {
 	lo, hi := middlePairNear(c, *near)
 	*near = hi
-	if len(c)%2 == 1 {
-		return hi / div
-	}
-	return (lo/div + hi/div) / 2
+	return medianOfPair(lo, hi, len(c), div)
 }
 
 // nearWindow is the half-width, relative, of the window middlePairNear
