@@ -5,6 +5,7 @@ import (
 	"math"
 	"math/bits"
 	"runtime"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -402,11 +403,9 @@ func middlePairNear(c []float64, guess float64) (lo, hi float64) {
 	if len(c)%2 == 1 {
 		return hi, hi
 	}
-	lo = p[0] // selectKth left nothing larger than p[r] before it
-	for _, x := range p[1:r] {
-		lo = math.Max(lo, x)
-	}
-	return lo, hi
+	// selectKth left nothing larger than p[r] before it; no NaN or −0 is
+	// among them (top), where slices.Max and math.Max could differ.
+	return slices.Max(p[:r]), hi
 }
 
 // middlePair returns the order statistics of c (reordered) that its median
