@@ -4,6 +4,8 @@ import (
 	"errors"
 	"runtime"
 	"testing"
+
+	"github.com/bandsolve/bandsolve/internal/fanout/fanouttest"
 )
 
 // Error keeps a panic that is an error as that error: a run-time panic's
@@ -11,12 +13,7 @@ import (
 // Specification, Run-time panics), which errors.As must still find once
 // the panic is returned as an error; any other value gives its text.
 func TestErrorKeepsThePanicValue(t *testing.T) {
-	recovered := func(f func()) (p any) {
-		defer func() { p = recover() }()
-		f()
-		return nil
-	}
-	p := recovered(func() {
+	p := fanouttest.Recovered(t, func() {
 		var none []int
 		_ = none[len(t.Name())]
 	})
