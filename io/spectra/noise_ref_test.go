@@ -324,7 +324,7 @@ func TestFitWeightsWithLogsMatchesDirectForm(t *testing.T) {
 			if (want == nil) != (got[f] == nil) {
 				t.Fatalf("%s, model %d: weights %v, direct form %v", c.name, f, got[f], want)
 			}
-			if want != nil && (!slices.Equal(got[f].Row, want.Row) || !slices.Equal(got[f].Col, want.Col)) {
+			if want != nil && (!vecmath.SameBits(got[f].Row, want.Row) || !vecmath.SameBits(got[f].Col, want.Col)) {
 				t.Fatalf("%s, model %d: weights differ from the direct form", c.name, f)
 			}
 		}
@@ -464,12 +464,12 @@ func TestNoiseModelSameAtAnyGOMAXPROCS(t *testing.T) {
 	for _, procs := range []int{1, 2, 3} {
 		runtime.GOMAXPROCS(procs)
 		sig, _, _ := channelNoise(w, 0, blind)
-		if !slices.Equal(sig, wantSig) {
+		if !vecmath.SameBits(sig, wantSig) {
 			t.Fatalf("GOMAXPROCS %d: σ per channel differs from the direct form", procs)
 		}
 		got := fitWeights(n, m, blind, beam, flat)
 		for f := range want {
-			if !slices.Equal(got[f].Row, want[f].Row) || !slices.Equal(got[f].Col, want[f].Col) {
+			if !vecmath.SameBits(got[f].Row, want[f].Row) || !vecmath.SameBits(got[f].Col, want[f].Col) {
 				t.Fatalf("GOMAXPROCS %d, model %d: weights differ from the direct form", procs, f)
 			}
 		}
