@@ -62,9 +62,14 @@ func TestScaleObservedSpecialValues(t *testing.T) {
 			for _, a := range []float64{1, 2.5e-3, 1e200} {
 				checkScaleObserved(t, o, w, a)
 			}
+			// Ordinary weights beside the specials, or every weight NaN
+			// when this round's weight is not finite.
 			w0 := make([]float64, len(o))
 			for i := range w0 {
-				w0[i] = 0.5 + wk*0 + float64(i%5)
+				w0[i] = 0.5 + float64(i%5)
+				if math.IsInf(wk, 0) || math.IsNaN(wk) {
+					w0[i] = math.NaN()
+				}
 			}
 			checkScaleObserved(t, o, w0, 1.5)
 		}
