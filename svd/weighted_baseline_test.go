@@ -110,14 +110,7 @@ func TestWeightedBaselineAndClassification(t *testing.T) {
 	if ch.Order != 1 {
 		t.Errorf("offset and slope per spectrum: order %d, want 1 (steps %+v)", ch.Order, ch.Steps)
 	}
-	f, err := Decompose(ds, DecomposeOptions{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	rep, err := EstimateRank(ds, f, RankOptions{Sigma: 1, ReferenceRow: -1})
-	if err != nil {
-		t.Fatal(err)
-	}
+	f, rep := factorsAndRank(t, ds)
 	ones := make([]float64, 40)
 	for i := range ones {
 		ones[i] = 1
@@ -168,14 +161,7 @@ func TestBasisGivenIsTheBasisFormed(t *testing.T) {
 	if _, err := ChooseBaselineOrderBasis(ds, nil, PolyBasis(axis, 2, col), nil, axis, col, 2, 3, 0.05); err == nil {
 		t.Error("a basis of order 2 for order 3 was taken")
 	}
-	f, err := Decompose(ds, DecomposeOptions{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	rep, err := EstimateRank(ds, f, RankOptions{Sigma: 1, ReferenceRow: -1})
-	if err != nil {
-		t.Fatal(err)
-	}
+	f, rep := factorsAndRank(t, ds)
 	n, _ := ds.Dims()
 	ones := make([]float64, n)
 	for i := range ones {
@@ -189,4 +175,19 @@ func TestBasisGivenIsTheBasisFormed(t *testing.T) {
 			t.Errorf("classification with a basis given %+v, formed %+v", given, formed)
 		}
 	}
+}
+
+// factorsAndRank decomposes ds and estimates its rank with unit noise, as the
+// classification tests above need them.
+func factorsAndRank(t *testing.T, ds *mat.Dense) (*Factors, *RankReport) {
+	t.Helper()
+	f, err := Decompose(ds, DecomposeOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	rep, err := EstimateRank(ds, f, RankOptions{Sigma: 1, ReferenceRow: -1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return f, rep
 }
