@@ -470,7 +470,7 @@ func firstPass(d, omega *mat.Dense, l int, besideInto *mat.Dense, work *Workspac
 // of the whole SVD's bit for bit, without the whole U and V formed first
 // and copied: 2000 × 3001 at l = 34, 3 MB fewer per decomposition.
 func sketchFactors(y, z *mat.Dense, r int, work *Workspace) (*Factors, error) {
-	n, l := y.Dims()
+	_, l := y.Dims()
 	m, _ := z.Dims()
 	b := mat.NewDense(l, m, work.take(workB, l*m))
 	b.Copy(z.T()) // Factorize's own copy of Zᵀ
@@ -479,19 +479,22 @@ func sketchFactors(y, z *mat.Dense, r int, work *Workspace) (*Factors, error) {
 	if !ok {
 		return nil, errors.New("SVD of the sketch did not converge")
 	}
-	v := mat.NewDense(m, r, nil)
-	vr := v.RawMatrix()
-	for k := 0; k < r; k++ {
-		for j, x := range vt.Data[k*vt.Stride : k*vt.Stride+m] {
-			vr.Data[j*vr.Stride+k] = x
-		}
-	}
 	var u mat.Dense
 	u.Mul(y, mat.NewDense(l, l, ub.Data).Slice(0, l, 0, r))
-	if un, _ := u.Dims(); un != n {
-		return nil, errors.New("SVD of the sketch: shapes disagree")
+	return &Factors{U: &u, S: append([]float64(nil), vals[:r]...), V: rightVectors(vt, r)}, nil
+}
+
+// rightVectors is V (c × k) from the first k rows of Vᵀ as thinSVD writes them
+// (vt, c columns): a new matrix, so that vt's lent memory may serve again.
+func rightVectors(vt blas64.General, k int) *mat.Dense {
+	v := mat.NewDense(vt.Cols, k, nil)
+	vr := v.RawMatrix()
+	for a := 0; a < k; a++ {
+		for j, x := range vt.Data[a*vt.Stride : a*vt.Stride+vt.Cols] {
+			vr.Data[j*vr.Stride+a] = x
+		}
 	}
-	return &Factors{U: &u, S: append([]float64(nil), vals[:r]...), V: v}, nil
+	return v
 }
 
 // thinSVD is mat.SVD's Factorize(a, SVDThin) on a itself, which it

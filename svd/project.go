@@ -46,16 +46,9 @@ func ProjectFactors(f *Factors, q, dq *mat.Dense) (*Factors, error) {
 	if !ok {
 		return nil, fmt.Errorf("svd: project factors: SVD of the %d × %d core did not converge", r, m)
 	}
-	v := mat.NewDense(m, k, nil)
-	vr := v.RawMatrix()
-	for a := 0; a < k; a++ {
-		for j, x := range vt.Data[a*m : a*m+m] {
-			vr.Data[j*vr.Stride+a] = x
-		}
-	}
 	var u mat.Dense
 	u.Mul(f.U, mat.NewDense(r, k, pl.Data))
-	out := &Factors{U: &u, S: vals, V: v, Method: f.Method,
+	out := &Factors{U: &u, S: vals, V: rightVectors(vt, k), Method: f.Method,
 		FrobeniusSq: max(f.FrobeniusSq-frobeniusSq(dq), 0)}
 	fixSigns(out)
 	return out, nil
