@@ -128,10 +128,17 @@ func (w *Workspace) take(k, n int) []float64 {
 	if w == nil {
 		return make([]float64, n)
 	}
-	if cap(w.bufs[k]) < n {
-		w.bufs[k] = make([]float64, n)
+	w.bufs[k] = grow(w.bufs[k], n)
+	return w.bufs[k]
+}
+
+// grow is buf[:n], in new memory when buf has not the room; the values are
+// left as they were.
+func grow(buf []float64, n int) []float64 {
+	if cap(buf) < n {
+		return make([]float64, n)
 	}
-	return w.bufs[k][:n]
+	return buf[:n]
 }
 
 // Decompose picks by size: exact (gonum mat.SVD) for small matrices; for large ones the eigen-decomposition
@@ -565,22 +572,17 @@ func (q *qrWork) orthonormalize(x *mat.Dense) {
 	rows, cols := x.Dims()
 	raw := x.RawMatrix()
 	a := blas64.General{Rows: rows, Cols: cols, Stride: raw.Stride, Data: raw.Data}
-	tau := q.floats(&q.tau, cols)
+	q.tau = grow(q.tau, cols)
+	tau := q.tau
 	query := []float64{0}
 	lapack64.Geqrf(a, tau, query, -1)
 	lw := max(int(query[0]), rows, cols)
-	lapack64.Geqrf(a, tau, q.floats(&q.work, lw), lw)
+	q.work = grow(q.work, lw)
+	lapack64.Geqrf(a, tau, q.work, lw)
 	lapack64.Orgqr(a, tau, query, -1)
 	lw = max(int(query[0]), rows, cols)
-	lapack64.Orgqr(a, tau, q.floats(&q.work, lw), lw)
-}
-
-// floats is (*buf)[:n], grown when it is shorter.
-func (q *qrWork) floats(buf *[]float64, n int) []float64 {
-	if cap(*buf) < n {
-		*buf = make([]float64, n)
-	}
-	return (*buf)[:n]
+	q.work = grow(q.work, lw)
+	lapack64.Orgqr(a, tau, q.work, lw)
 }
 
 // fixSigns makes the largest |v_jk| of every factor positive; singular vectors are only

@@ -51,10 +51,7 @@ func column(a *mat.Dense, k int) []float64 {
 // columnInto is column k of a in buf's memory when it has room.
 func columnInto(buf []float64, a *mat.Dense, k int) []float64 {
 	r, _ := a.Dims()
-	if cap(buf) < r {
-		buf = make([]float64, r)
-	}
-	buf = buf[:r]
+	buf = grow(buf, r)
 	raw := a.RawMatrix()
 	for i := range buf {
 		buf[i] = raw.Data[i*raw.Stride+k]
