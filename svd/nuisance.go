@@ -294,12 +294,16 @@ func (c *factorClassifier) smoothNuisance(nf *NuisanceFactor, v, vu []float64) b
 // the factors before it already reach the noise, or it is too small beside them for
 // a resolution to tell it from a change of band shapes.
 func (c *factorClassifier) minor(nf *NuisanceFactor, j int, u, vu []float64) bool {
-	s2 := c.f.S[j] * c.f.S[j]
-	if c.chem == 0 || !(c.residualRatio(j) <= fitsNoise || c.smallest > 0 && s2 < minorEnergy*c.smallest) {
+	if c.chem == 0 {
+		return false
+	}
+	s2, ratio := c.f.S[j]*c.f.S[j], c.residualRatio(j)
+	if !(ratio <= fitsNoise || c.smallest > 0 && s2 < minorEnergy*c.smallest) {
 		return false
 	}
 	nf.Kind = NuisanceMinor
-	nf.Looks = minorLooks(u, vu, c.opt.Axis, c.residualRatio(j), c.chem, 100*c.f.S[j]*c.f.S[j]/c.smallest)
+	// 100·s·s/smallest, not 100·s2/smallest: the same bits as the share reported so far.
+	nf.Looks = minorLooks(u, vu, c.opt.Axis, ratio, c.chem, 100*c.f.S[j]*c.f.S[j]/c.smallest)
 	return true
 }
 
