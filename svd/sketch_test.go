@@ -157,6 +157,9 @@ func TestWorkspaceKeepsTheBits(t *testing.T) {
 		}
 		sameMatrixBits(t, "U", shared.U, alone.U)
 		sameMatrixBits(t, "V", shared.V, alone.V)
+		if !vecmath.SameBits(shared.S, alone.S) {
+			t.Fatalf("singular values %v with the workspace, %v alone", shared.S, alone.S)
+		}
 		kept = append(kept, alone, shared)
 	}
 	first, err := Decompose(a, opts[0])
@@ -165,4 +168,7 @@ func TestWorkspaceKeepsTheBits(t *testing.T) {
 	}
 	sameMatrixBits(t, "first U after the others", kept[1].U, first.U)
 	sameMatrixBits(t, "first V after the others", kept[1].V, first.V)
+	if !vecmath.SameBits(kept[1].S, first.S) {
+		t.Fatalf("first singular values %v after the others, %v alone", kept[1].S, first.S)
+	}
 }
