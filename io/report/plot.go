@@ -330,14 +330,12 @@ type lineScratch struct {
 	path         ftraster.Path
 }
 
-// scratchOf is the scratch memory of c's base canvas, or fresh memory for
-// a canvas that has none.
+// scratchOf is the scratch memory of c's base canvas (a pixel canvas lent
+// none makes its own, as its strokes do), or fresh memory for another.
 func scratchOf(c draw.Canvas) *lineScratch {
 	switch cv := baseCanvas(c).(type) {
 	case *pixelCanvas:
-		if cv.scratch != nil {
-			return cv.scratch
-		}
+		return cv.lineScratch()
 	case *svgCanvas:
 		return &cv.scratch
 	}
