@@ -367,9 +367,7 @@ func overlayFigure(f *Folder, m *Matrix, ax axisStyle, id, title, ylabel, captio
 			q = (m.Times[i] - t0) / (t1 - t0)
 		}
 		gx, gy := splitAt(f.Maps.Axis, m.Rows[i], gaps)
-		if err := addLine(p, gx, gy, ramp(timeRamp, q), 0.9, nil); err != nil {
-			return nil, fmt.Errorf("%s: %w", id, err)
-		}
+		addLine(p, gx, gy, ramp(timeRamp, q), 0.9, nil)
 	}
 	addHeadroom(p)
 	svg, dr, err := render(p, nil, figW, figH)
@@ -526,19 +524,13 @@ func efaFigure(f *Folder) (*Figure, error) {
 	}
 	var legend []LegendItem
 	for k, j := range cols.fwd {
-		if err := addLine(p, x, val(j), componentColour(k), 1.2, nil); err != nil {
-			return nil, err
-		}
+		addLine(p, x, val(j), componentColour(k), 1.2, nil)
 	}
 	for k, j := range cols.bwd {
-		if err := addLine(p, x, val(j), componentColour(k), 1.2, []float64{5, 3}); err != nil {
-			return nil, err
-		}
+		addLine(p, x, val(j), componentColour(k), 1.2, []float64{5, 3})
 	}
 	for _, j := range cols.threshold {
-		if err := addLine(p, x, val(j), grey, 0.8, []float64{2, 2}); err != nil {
-			return nil, err
-		}
+		addLine(p, x, val(j), grey, 0.8, []float64{2, 2})
 	}
 	for k := 0; k < max(len(cols.fwd), len(cols.bwd)); k++ {
 		legend = append(legend, LegendItem{Label: fmt.Sprintf("value %d", k+1), Colour: componentColour(k)})
@@ -676,9 +668,7 @@ func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 	gaps := gapsOf(x)
 	for k, j := range comps {
 		gx, gy := splitAt(x, t.Col(j), gaps)
-		if err := addLine(p, gx, gy, componentColour(k), 1.4, dashOf(k)); err != nil {
-			return nil, err
-		}
+		addLine(p, gx, gy, componentColour(k), 1.4, dashOf(k))
 		legend = append(legend, LegendItem{Label: t.Header[j], Colour: componentColour(k), Dash: dashOf(k)})
 	}
 	addHeadroom(p)
@@ -792,16 +782,10 @@ func profilesFigure(f *Folder) (*Figure, error) {
 			legend = append(legend, LegendItem{Label: name + " (resolved)", Colour: c, Marker: true})
 			continue
 		}
-		if err := bySegment(tm, exp, col, func(x, y []float64) error { return addLine(p, x, y, c, 1.4, dashOf(k)) }); err != nil {
-			return nil, err
-		}
+		bySegment(tm, exp, col, func(x, y []float64) { addLine(p, x, y, c, 1.4, dashOf(k)) })
 		legend = append(legend, LegendItem{Label: name, Colour: c, Dash: dashOf(k)})
 	}
-	fitLegend, err := drawCurves(p, fit)
-	if err != nil {
-		return nil, err
-	}
-	legend = append(legend, fitLegend...)
+	legend = append(legend, drawCurves(p, fit)...)
 	f.timeAxis(&p.X, xlo, xhi)
 	addHeadroom(p)
 	svg, dr, err := render(p, nil, figW, figH)
@@ -846,22 +830,19 @@ func profilesCaption(f *Folder, shaded, fitted bool) (title, cap string) {
 
 // bySegment draws col against tm one experiment at a time (exp gives each
 // row's experiment; nil: one), so that lines never join two experiments.
-func bySegment(tm, exp, col []float64, draw func(x, y []float64) error) error {
+func bySegment(tm, exp, col []float64, draw func(x, y []float64)) {
 	start := 0
 	for i := 1; i <= len(tm); i++ {
 		if i == len(tm) || (exp != nil && exp[i] != exp[start]) {
-			if err := draw(tm[start:i], col[start:i]); err != nil {
-				return err
-			}
+			draw(tm[start:i], col[start:i])
 			start = i
 		}
 	}
-	return nil
 }
 
 // drawCurves draws the kinetic fit's curves in their component's colour
 // (black when they match none) and returns one legend item per label.
-func drawCurves(p *plot.Plot, fit []curve) ([]LegendItem, error) {
+func drawCurves(p *plot.Plot, fit []curve) []LegendItem {
 	var legend []LegendItem
 	seen := map[string]bool{}
 	for _, cv := range fit {
@@ -869,9 +850,7 @@ func drawCurves(p *plot.Plot, fit []curve) ([]LegendItem, error) {
 		if cv.comp >= 0 {
 			c = componentColour(cv.comp)
 		}
-		if err := addLine(p, cv.x, cv.y, c, cv.width, cv.dash); err != nil {
-			return nil, err
-		}
+		addLine(p, cv.x, cv.y, c, cv.width, cv.dash)
 		if !seen[cv.label] {
 			seen[cv.label] = true
 			lc := c
@@ -881,7 +860,7 @@ func drawCurves(p *plot.Plot, fit []curve) ([]LegendItem, error) {
 			legend = append(legend, LegendItem{Label: cv.label, Colour: lc, Dash: cv.dash})
 		}
 	}
-	return legend, nil
+	return legend
 }
 
 // envelopes draws with fill the uniqueness range and the resampling interval
@@ -1043,9 +1022,7 @@ func iterationsFigure(f *Folder) (*Figure, error) {
 		ylo, yhi = math.Min(ylo, nl), math.Max(yhi, nl)
 		legend = append(legend, LegendItem{Label: "noise alone", Colour: okabeVermilion, Dash: []float64{5, 3}})
 	}
-	if err := addLine(p, xsOf(pts, true), xsOf(pts, false), okabeBlue, 1.4, nil); err != nil {
-		return nil, err
-	}
+	addLine(p, xsOf(pts, true), xsOf(pts, false), okabeBlue, 1.4, nil)
 	p.Y.Min, p.Y.Max = ylo/1.3, yhi*1.3
 	svg, dr, err := render(p, nil, figW, 7*figH/9)
 	if err != nil {
@@ -1095,13 +1072,9 @@ func residualSpectrumFigure(f *Folder, m *Matrix, ax axisStyle) (*Figure, error)
 	}
 	gaps := gapsOf(x)
 	gx, grms := splitAt(x, rms, gaps)
-	if err := addLine(p, gx, grms, okabeBlue, 1.2, nil); err != nil {
-		return nil, err
-	}
+	addLine(p, gx, grms, okabeBlue, 1.2, nil)
 	gx, gmean := splitAt(x, mean, gaps)
-	if err := addLine(p, gx, gmean, okabeGreen, 1.0, []float64{6, 3}); err != nil {
-		return nil, err
-	}
+	addLine(p, gx, gmean, okabeGreen, 1.0, []float64{6, 3})
 	addHeadroom(p)
 	svg, dr, err := render(p, nil, figW, 7*figH/9)
 	if err != nil {

@@ -176,8 +176,9 @@ func (a axisStyle) apply(p *plot.Plot) {
 // addLine adds x,y as a line, split at missing values (NaN). The points
 // are copied once, into one array whose parts the segments' lines keep,
 // rather than gathered point by point and copied again by plotter.NewLine.
-// It gives no error: every point it keeps is finite, all NewLine checks.
-func addLine(p *plot.Plot, x, y []float64, c color.RGBA, width float64, dash []float64) error {
+// It has no error to give: every point it keeps is finite, all NewLine
+// checks.
+func addLine(p *plot.Plot, x, y []float64, c color.RGBA, width float64, dash []float64) {
 	all := make(plotter.XYs, 0, min(len(x), len(y)))
 	start := 0
 	flush := func() {
@@ -200,7 +201,6 @@ func addLine(p *plot.Plot, x, y []float64, c color.RGBA, width float64, dash []f
 		all = append(all, plotter.XY{X: x[i], Y: y[i]})
 	}
 	flush()
-	return nil
 }
 
 // edgeLine is a line whose glyph boxes are only those the plot's padding
