@@ -233,20 +233,16 @@ func spectralBand(p *plot.Plot, x, lo, hi []float64, c color.RGBA) {
 	}
 }
 
-// gapRuns returns the [start, end) index runs of x between gaps.
+// gapRuns returns the [start, end) index runs of x between the gaps a line
+// along x is broken at (gapsOf), as indices into x itself.
 func gapRuns(x []float64) [][2]int {
-	gx, _ := splitAtGaps(x, x)
 	var runs [][2]int
-	start, k := 0, 0
-	for _, v := range gx {
-		if math.IsNaN(v) {
-			runs = append(runs, [2]int{start, k})
-			start = k
-			continue
-		}
-		k++
+	start := 0
+	for _, g := range gapsOf(x) {
+		runs = append(runs, [2]int{start, g})
+		start = g
 	}
-	return append(runs, [2]int{start, k})
+	return append(runs, [2]int{start, len(x)})
 }
 
 // perTime rewrites the per-second units of a note ("per second", "s^-1")
