@@ -430,10 +430,11 @@ func TestMapsReachTheirCanvases(t *testing.T) {
 // specification, ISO/IEC 15948, 9.2: Raw(x) − Prior(x) modulo 256) for every
 // pair of byte values, in each of a pixel's colour bytes, with the
 // neighbouring bytes at values that would borrow from them in a plain
-// 32-bit subtraction; the alpha bytes are dropped.
+// 64-bit subtraction; the alpha bytes are dropped. Rows of 255 pixels
+// (an odd one at the end) too.
 func TestUpFilterEveryBytePair(t *testing.T) {
 	row, above := make([]byte, 4*256), make([]byte, 4*256)
-	dst := make([]byte, 3*256+1)
+	dst := make([]byte, 3*256+2)
 	for a := range 256 {
 		for pos := range 3 {
 			for x := range 256 {
@@ -442,11 +443,13 @@ func TestUpFilterEveryBytePair(t *testing.T) {
 				}
 				row[4*x+pos], above[4*x+pos] = byte(a), byte(x)
 			}
-			upFilter(dst, row, above)
-			for x := range 256 {
-				for k := range 3 {
-					if want := row[4*x+k] - above[4*x+k]; dst[3*x+k] != want {
-						t.Fatalf("byte %d of pixel: %d − %d gave %d, want %d", k, row[4*x+k], above[4*x+k], dst[3*x+k], want)
+			for _, n := range []int{256, 255} {
+				upFilter(dst, row[:4*n], above[:4*n])
+				for x := range n {
+					for k := range 3 {
+						if want := row[4*x+k] - above[4*x+k]; dst[3*x+k] != want {
+							t.Fatalf("%d pixels, byte %d of pixel: %d − %d gave %d, want %d", n, k, row[4*x+k], above[4*x+k], dst[3*x+k], want)
+						}
 					}
 				}
 			}

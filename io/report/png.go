@@ -2,7 +2,7 @@ package report
 
 import (
 	"bytes"
-	"compress/zlib"
+	"compress/flate"
 	"encoding/binary"
 	"hash/crc32"
 	"image"
@@ -21,11 +21,17 @@ import (
 // Its working memory is kept from one image to the next (drawFigures
 // encodes every figure of a goroutine with one): the deflate state (about
 // 0.5 MB it writes to, a fresh one per image before) is reset rather than
-// made again, which zlib.Writer.Reset documents as equivalent to a new
+// made again, which flate.Writer.Reset documents as equivalent to a new
 // writer, and the compressed data is gathered in one buffer that is kept.
 // Each file is returned in a slice of its own.
+//
+// The zlib stream (RFC 1950) around the deflate data is put together here:
+// the two header bytes zlib.Writer gives at the fastest level, and the
+// Adler-32 of the filtered rows, which adler32Update forms in one step per
+// eight zero bytes (most of a figure is white under white, all zeros after
+// the filter) where hash/adler32 takes eight.
 type pngEncoder struct {
-	zw                 *zlib.Writer
+	zw                 *flate.Writer
 	idat               bytes.Buffer
 	above, line, zeros []byte
 }
@@ -35,8 +41,9 @@ func (e *pngEncoder) encode(img *image.RGBA) ([]byte, error) {
 	width, height := img.Rect.Dx(), img.Rect.Dy()
 	e.idat.Reset()
 	e.idat.Grow(len(img.Pix) / 8) // figures deflate to about a tenth
+	e.idat.WriteString(zlibHeader)
 	if e.zw == nil {
-		zw, err := zlib.NewWriterLevel(&e.idat, zlib.BestSpeed)
+		zw, err := flate.NewWriter(&e.idat, flate.BestSpeed)
 		if err != nil {
 			return nil, err
 		}
@@ -49,10 +56,11 @@ func (e *pngEncoder) encode(img *image.RGBA) ([]byte, error) {
 	// byte dropped; a row the same as the one above is all zeros.
 	above := grown(&e.above, 4*width)
 	clear(above)
-	line := grown(&e.line, 1+3*width+1) // one spare byte for the last pixel's 4-byte store
+	line := grown(&e.line, 1+3*width+2) // two spare bytes for the last pixels' 8-byte store
 	zeros := grown(&e.zeros, 1+3*width)
 	clear(zeros)
 	line[0], zeros[0] = 2, 2 // filter type Up
+	sum := uint32(1)         // Adler-32 of nothing
 	// The alpha bytes of every row, and-ed.
 	opaque := uint32(0xff000000)
 	for y := range height {
@@ -61,8 +69,12 @@ func (e *pngEncoder) encode(img *image.RGBA) ([]byte, error) {
 		if !bytes.Equal(row, above) {
 			opaque &= upFilter(line[1:], row, above)
 			out = line[:1+3*width]
-		} else if y == 0 {
-			opaque = 0 // the same as the zero row above: alpha 0
+			sum = adler32Update(sum, out)
+		} else {
+			if y == 0 {
+				opaque = 0 // the same as the zero row above: alpha 0
+			}
+			sum = adler32Zeros(adler32Update(sum, zeros[:1]), 3*width)
 		}
 		if opaque != 0xff000000 {
 			var b bytes.Buffer
@@ -77,6 +89,7 @@ func (e *pngEncoder) encode(img *image.RGBA) ([]byte, error) {
 	if err := e.zw.Close(); err != nil {
 		return nil, err
 	}
+	e.idat.Write(binary.BigEndian.AppendUint32(nil, sum))
 	var hdr [13]byte
 	binary.BigEndian.PutUint32(hdr[0:], uint32(width))
 	binary.BigEndian.PutUint32(hdr[4:], uint32(height))
@@ -98,24 +111,83 @@ func grown(s *[]byte, n int) []byte {
 }
 
 // upFilter writes the Up filter of an RGBA row (row minus above, byte by
-// byte modulo 256, as the filter is defined) as RGB into dst, which has one
-// byte of room past the last pixel. A pixel's four bytes are subtracted at
-// once with no borrow between them: (p | H) − (q &^ H) takes each byte's
-// low seven bits with its top bit set (no byte goes below zero), and
-// ^ ((p ^ ^q) & H) puts the top bit the subtraction would have given (a
-// common SIMD-within-a-register method; the test checks every pair of
-// bytes against the plain difference). It returns the and of the row's
+// byte modulo 256, as the filter is defined) as RGB into dst, which has two
+// bytes of room past the last pixel. Two pixels' eight bytes are
+// subtracted at once with no borrow between them: (p | H) − (q &^ H) takes
+// each byte's low seven bits with its top bit set (no byte goes below
+// zero), and ^ ((p ^ ^q) & H) puts the top bit the subtraction would have
+// given (a common SIMD-within-a-register method; the test checks every pair
+// of bytes against the plain difference). It returns the and of the row's
 // alpha bytes, in the top byte (0xff000000 when the row is opaque).
 func upFilter(dst, row, above []byte) uint32 {
-	const h = 0x80808080
-	alpha := uint32(0xff000000)
-	for x := 0; x+4 <= len(row); x += 4 {
-		p := binary.LittleEndian.Uint32(row[x:])
-		q := binary.LittleEndian.Uint32(above[x:])
-		binary.LittleEndian.PutUint32(dst[x/4*3:], ((p|h)-(q&^h))^((p^^q)&h))
+	const h = 0x8080808080808080
+	alpha := uint64(0xff000000ff000000)
+	x := 0
+	for ; x+8 <= len(row); x += 8 {
+		p := binary.LittleEndian.Uint64(row[x:])
+		q := binary.LittleEndian.Uint64(above[x:])
+		d := ((p | h) - (q &^ h)) ^ ((p ^ ^q) & h)
+		// The two pixels' colour bytes, six in a row; the store's top two
+		// bytes are written over by the next pixels' or left in the spare.
+		binary.LittleEndian.PutUint64(dst[x/4*3:], d&0xffffff|(d>>8)&0xffffff000000)
 		alpha &= p
 	}
-	return alpha & 0xff000000
+	if x < len(row) { // an odd pixel at the end
+		p := uint64(binary.LittleEndian.Uint32(row[x:]))
+		q := uint64(binary.LittleEndian.Uint32(above[x:]))
+		d := ((p | h) - (q &^ h)) ^ ((p ^ ^q) & h)
+		binary.LittleEndian.PutUint32(dst[x/4*3:], uint32(d))
+		alpha &= p | 0xff000000_00000000
+	}
+	return uint32(alpha&(alpha>>32)) & 0xff000000
+}
+
+// zlibHeader is the header zlib.Writer writes at the fastest level (RFC
+// 1950: method 8 with a 32 kB window, level 0, check bits).
+const zlibHeader = "\x78\x01"
+
+// adlerMod and adlerMax are Adler-32's modulus and the most bytes its sums
+// take before they must be reduced to stay in 32 bits (RFC 1950, 9; zlib's
+// NMAX).
+const (
+	adlerMod = 65521
+	adlerMax = 5552
+)
+
+// adler32Update is hash/adler32's update: the sums s1 (1 + the bytes) and
+// s2 (the sum of s1 after each byte), modulo 65521, of the bytes after
+// those sum was taken of. Eight zero bytes in a row leave s1 and add
+// 8·s1 to s2, in one step.
+func adler32Update(sum uint32, p []byte) uint32 {
+	s1, s2 := sum&0xffff, sum>>16
+	for len(p) > 0 {
+		n := min(len(p), adlerMax)
+		q := p[:n]
+		for len(q) >= 8 {
+			if binary.LittleEndian.Uint64(q) == 0 {
+				s2 += 8 * s1
+			} else {
+				for _, b := range q[:8] {
+					s1 += uint32(b)
+					s2 += s1
+				}
+			}
+			q = q[8:]
+		}
+		for _, b := range q {
+			s1 += uint32(b)
+			s2 += s1
+		}
+		s1, s2 = s1%adlerMod, s2%adlerMod
+		p = p[n:]
+	}
+	return s2<<16 | s1
+}
+
+// adler32Zeros is adler32Update of n zero bytes: s1 stays, s2 gains n·s1.
+func adler32Zeros(sum uint32, n int) uint32 {
+	s1, s2 := uint64(sum&0xffff), uint64(sum>>16)
+	return uint32((s2+uint64(n)%adlerMod*s1)%adlerMod)<<16 | uint32(s1)
 }
 
 // pngChunk appends one chunk to b: length, type, data, CRC-32 of type and
