@@ -287,7 +287,8 @@ func TestClippedRowsBothWaysSame(t *testing.T) {
 				{w.sideS, w.tinvT, s, func() *mat.Dense { return mat.NewDense(k, k, append([]float64(nil), w.tinvT...)) }},
 			} {
 				var list, dense clippedRows
-				list.form(side.ms, side.v) // sizes the storage; no rows yet: the margins
+				side.ms.denseAbove = math.Inf(1) // the margin test alone
+				list.form(side.ms, side.v)       // sizes the storage; no rows yet: the margins
 				if list.dense {
 					t.Fatal("first evaluation formed whole")
 				}
@@ -475,4 +476,127 @@ func TestRangeEndsSameAsFreshSearches(t *testing.T) {
 func sameEnd(a, b bandEnd) bool {
 	return math.Float64bits(a.f) == math.Float64bits(b.f) && a.ok == b.ok && a.evals == b.evals &&
 		vecmath.SameBits(a.profile, b.profile) && vecmath.SameBits(a.spectrum, b.spectrum)
+}
+
+// The entries of X·V that break a constraint are found either through the
+// margin test or by forming X·V whole (marginSide.collect, whichever
+// formedCount says is cheaper), and from the reference at the identity
+// either shared by the searches (bandBase) or the side's own. All ways
+// must list the same entries in the same order with the same bits (each
+// entry summed in entry's order), and those the constraints define
+// (FeasibleBands: in a non-negative column below zero, or in a zero
+// window), with values equal to gonum's product to rounding. The pair has
+// exact zeros, as a non-negative least-squares solution has at its active
+// constraints (Lawson & Hanson 1974, ch. 23), so the identity's margins
+// hold entries at zero; the rotations walk in steps from 10⁻³ to 0.4, so
+// the reference moves and both ways are taken; the row counts leave rows
+// past the last panel of four. The shared reference must come out of the
+// walk unchanged (a rebase writes the side's own storage).
+func TestCollectWholeSameAsMargins(t *testing.T) {
+	const n, m, k = 50, 70, 4
+	c, s := bandsBenchPair(n, m, k)
+	for i := 0; i < 8; i++ {
+		c.Set(i, 1, 0)
+		s.Set(60+i, 0, 0)
+		s.Set(3*i, 3, 0)
+	}
+	zp := make([][]bool, k)
+	zp[2] = make([]bool, n)
+	for i := 20; i < 26; i++ {
+		zp[2][i] = true
+	}
+	zs := make([][]bool, k)
+	zs[0] = make([]bool, m)
+	for i := 0; i < 5; i++ {
+		zs[0][i] = true
+	}
+	rng := rand.New(rand.NewPCG(7, 8))
+	ways := map[bool]int{}
+	for _, o := range []BandOptions{
+		{Mode: Species},
+		{Mode: Species, ZeroProfiles: zp, ZeroSpectra: zs},
+		{Mode: Reactions, NonNegProfiles: []bool{true, false, true, true}},
+		{Mode: Species, Closure: true},
+	} {
+		p := &bandProblem{c: c, s: s, n: n, m: m, k: k, opt: o}
+		if err := p.setup(); err != nil {
+			t.Fatal(err)
+		}
+		p.newWork()
+		w, b := p.work, p.base
+		idRatio := [2][]float64{append([]float64(nil), b.idC.ratio...), append([]float64(nil), b.idS.ratio...)}
+		idRows := [2][]int32{append([]int32(nil), b.idC.rows...), append([]int32(nil), b.idS.rows...)}
+		type side struct {
+			x    *mat.Dense
+			ways [3]*marginSide // margins alone, whole alone, as the search runs
+		}
+		sides := [2]side{{x: c}, {x: s}}
+		for q, src := range []*marginSide{b.idC, b.idS} {
+			for r := range sides[q].ways {
+				ms := newMarginSide(src.x, src.norm, src.xp, k, src.nn, src.zero)
+				switch r {
+				case 0:
+					ms.denseAbove = math.Inf(1)
+				case 1:
+					ms.denseAbove = 0
+				default:
+					ms.id = src
+				}
+				sides[q].ways[r] = ms
+			}
+		}
+		th := make([]float64, len(p.free))
+		for step := 0; step < 40; step++ {
+			if step > 0 {
+				size := []float64{1e-3, 1e-2, 0.1, 0.4}[step%4]
+				for i := range th {
+					th[i] += size * rng.NormFloat64()
+				}
+			}
+			if !p.rotateWork(th) {
+				continue
+			}
+			for q, v := range [][]float64{w.t, w.tinvT} {
+				sd := sides[q]
+				var lists [3][]clipped
+				for r, ms := range sd.ways {
+					lists[r] = ms.collect(v, nil)
+				}
+				ways[sd.ways[2].dense]++
+				var want mat.Dense
+				want.Mul(sd.x, mat.NewDense(k, k, append([]float64(nil), v...)))
+				rows, _ := sd.x.Dims()
+				var def []clipped
+				for i := 0; i < rows; i++ {
+					for j := 0; j < k; j++ {
+						if sd.ways[0].zeroAt(i, j) || sd.ways[0].nn[j] && want.At(i, j) < 0 {
+							def = append(def, clipped{i, j, want.At(i, j)})
+						}
+					}
+				}
+				for r, l := range lists {
+					if len(l) != len(def) {
+						t.Fatalf("%+v step %d side %d way %d: %d entries, %d by definition", o.Mode, step, q, r, len(l), len(def))
+					}
+					for e := range l {
+						g, d, z := l[e], def[e], lists[0][e]
+						if g.i != d.i || g.j != d.j || math.Float64bits(g.val) != math.Float64bits(z.val) {
+							t.Fatalf("%+v step %d side %d way %d entry %d: (%d, %d) %v, margins (%d, %d) %v, definition (%d, %d)", o.Mode, step, q, r, e, g.i, g.j, g.val, z.i, z.j, z.val, d.i, d.j)
+						}
+						if math.Abs(g.val-d.val) > 1e-12*(1+math.Abs(d.val)) {
+							t.Errorf("entry (%d, %d): %v, gonum %v", g.i, g.j, g.val, d.val)
+						}
+					}
+				}
+			}
+		}
+		for q, id := range []*marginSide{b.idC, b.idS} {
+			if !vecmath.SameBits(id.ratio, idRatio[q]) || fmt.Sprint(id.rows) != fmt.Sprint(idRows[q]) {
+				t.Errorf("%+v side %d: the shared reference at the identity was written", o.Mode, q)
+			}
+		}
+	}
+	if ways[true] == 0 || ways[false] == 0 {
+		t.Errorf("the search's own choice took the margins %d times and the whole product %d times: both ways must be checked", ways[false], ways[true])
+	}
 }

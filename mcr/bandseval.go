@@ -38,6 +38,9 @@ type bandBase struct {
 	zeroC, zeroS []bool
 	normC, normS []float64 // ‖c_i‖, ‖s_i‖
 	xpC, xpS     []float64 // rowPanels of c and s; nil without havePanels
+	// The margins' references at V = I, where every search starts:
+	// formed once here instead of once per search and side.
+	idC, idS *marginSide
 }
 
 func (p *bandProblem) newBase() *bandBase {
@@ -56,6 +59,14 @@ func (p *bandProblem) newBase() *bandBase {
 			b.xpS = rowPanels(b.s, k)
 		}
 	}
+	id := make([]float64, k*k)
+	for i := 0; i < k; i++ {
+		id[i*k+i] = 1
+	}
+	b.idC = newMarginSide(b.c, b.normC, b.xpC, k, p.nnC, b.zeroC)
+	b.idC.rebase(id)
+	b.idS = newMarginSide(b.s, b.normS, b.xpS, k, p.nnS, b.zeroS)
+	b.idS.rebase(id)
 	return b
 }
 
@@ -90,6 +101,7 @@ func (p *bandProblem) newWork() {
 	}
 	w.sideC = newMarginSide(b.c, b.normC, b.xpC, k, p.nnC, b.zeroC)
 	w.sideS = newMarginSide(b.s, b.normS, b.xpS, k, p.nnS, b.zeroS)
+	w.sideC.id, w.sideS.id = b.idC, b.idS
 	p.work = w
 }
 
@@ -425,6 +437,7 @@ type marginSide struct {
 	vt    []float64 // Vᵀ (k × k): column j of V contiguous
 	row   []float64 // k scratch (rebase)
 	based bool
+	id    *marginSide // the reference at V = I (bandBase), or nil
 	list  []clipped
 	// rows lists, column after column, the rows of each column's
 	// entries by group: group 0 holds the ratios ≤ 0 (formed always),
@@ -439,6 +452,28 @@ type marginSide struct {
 	exp   []int     // e_j
 	hit   []uint64  // bitmap of the entries found in this evaluation
 	val   []float64 // their values, by entry
+	// X·V formed whole (formDense): the product, its entries breaking a
+	// constraint (0 elsewhere) and per row a bit per such column; made at
+	// the first use. nnBits[j] is 1, nnm[j] all ones, when column j is
+	// non-negative.
+	full, minus []float64
+	clip        []uint64
+	nnBits, nnm []uint64
+	dense       bool    // the last collect formed X·V whole
+	denseAbove  float64 // collect's switch (denseForm; the tests move it)
+	shared      bool    // ratio, rows, start, exp and ref are the identity's (bandBase)
+	own         marginRef
+}
+
+// marginRef is what a reference of marginSide consists of beyond its
+// counts: the margins' ratios, the rows by group, the groups' starts, the
+// columns' exponents and V₀.
+type marginRef struct {
+	ratio []float64
+	rows  []int32
+	start []int32
+	exp   []int
+	ref   []float64
 }
 
 // groups is the number of exponent groups of positive ratios per column:
@@ -450,15 +485,66 @@ const groups = 40
 // changes.
 func newMarginSide(x, norm, xp []float64, k int, nn, zero []bool) *marginSide {
 	ms := &marginSide{x: x, xp: xp, k: k, nn: nn, zero: zero, norm: norm,
-		ref: make([]float64, k*k), ratio: make([]float64, len(x)), gx: make([]float64, k*k), delta: make([]float64, k),
-		vt: make([]float64, k*k), row: make([]float64, k), rows: make([]int32, 0, len(x)), start: make([]int32, k*(groups+2)), next: make([]int32, groups+2), tag: make([]int32, len(x)/k),
-		exp: make([]int, k), hit: make([]uint64, (len(x)+63)/64), val: make([]float64, len(x))}
+		gx: make([]float64, k*k), delta: make([]float64, k),
+		vt: make([]float64, k*k), row: make([]float64, k), next: make([]int32, groups+2),
+		hit: make([]uint64, (len(x)+63)/64), val: make([]float64, len(x)),
+		nnBits: make([]uint64, k), nnm: make([]uint64, k), denseAbove: denseForm}
+	for j := range ms.nnBits {
+		ms.nnBits[j] = b2u(nn[j])
+		ms.nnm[j] = -ms.nnBits[j]
+	}
 	return ms
+}
+
+// useOwn points the reference at ms's own storage, made at the first use
+// (the searches whose reference never leaves the identity, as on the
+// default run, never make it).
+func (ms *marginSide) useOwn() {
+	k, o := ms.k, &ms.own
+	if o.ratio == nil {
+		o.ratio, o.rows, o.start = make([]float64, len(ms.x)), make([]int32, 0, len(ms.x)), make([]int32, k*(groups+2))
+		o.exp, o.ref = make([]int, k), make([]float64, k*k)
+		ms.tag = make([]int32, len(ms.norm))
+	}
+	ms.ratio, ms.rows, ms.start, ms.exp, ms.ref = o.ratio, o.rows, o.start, o.exp, o.ref
+	ms.shared = false
+}
+
+// share makes id's reference, taken at V = I, ms's own until the next
+// rebase: every search starts at the identity (θ = 0), and its reference
+// there is the same bits for all of them.
+func (ms *marginSide) share(id *marginSide) {
+	ms.ratio, ms.rows, ms.start, ms.exp, ms.ref, ms.atRef = id.ratio, id.rows, id.start, id.exp, id.ref, id.atRef
+	ms.shared, ms.based = true, true
+}
+
+// isIdentity says whether the k × k matrix v is I to the bit.
+func isIdentity(v []float64, k int) bool {
+	for i, x := range v {
+		want := 0.0
+		if i/k == i%k {
+			want = 1
+		}
+		if math.Float64bits(x) != math.Float64bits(want) {
+			return false
+		}
+	}
+	return true
+}
+
+// denseBuffers makes the storage of formDense at its first use.
+func (ms *marginSide) denseBuffers() {
+	if ms.full == nil {
+		ms.full, ms.minus, ms.clip = make([]float64, len(ms.x)), make([]float64, len(ms.x)), make([]uint64, len(ms.norm))
+	}
 }
 
 // rebase makes v the reference.
 func (ms *marginSide) rebase(v []float64) {
 	k := ms.k
+	if ms.shared || ms.ratio == nil {
+		ms.useOwn()
+	}
 	copy(ms.ref, v)
 	ms.atRef = 0
 	row := ms.row
@@ -553,11 +639,21 @@ type clipped struct {
 
 // collect returns the entries of X·V that break non-negativity or lie in a
 // zero window, in row-major order, reusing out's storage.
+//
+// When the margin test would form more than denseForm of the entries, X·V
+// is formed whole instead (formDense, in the vector lanes where there
+// are any) and its clipped entries read off: the same entries, each the
+// same sum in the same order, in the same order, at a fraction of the cost
+// per entry (the test gathers rows one by one).
 func (ms *marginSide) collect(v []float64, out []clipped) []clipped {
 	k := ms.k
 	ms.transposeV(v)
 	if !ms.based {
-		ms.rebase(v)
+		if ms.id != nil && isIdentity(v, k) {
+			ms.share(ms.id)
+		} else {
+			ms.rebase(v)
+		}
 	}
 	for j := 0; j < k; j++ {
 		d := 0.0
@@ -567,11 +663,25 @@ func (ms *marginSide) collect(v []float64, out []clipped) []clipped {
 		}
 		ms.delta[j] = math.Sqrt(d)
 	}
+	out = out[:0]
+	if whole, formed := ms.whole(); whole {
+		ms.formDense()
+		for i, c := range ms.clip {
+			for ; c != 0; c &= c - 1 {
+				j := bits.TrailingZeros64(c)
+				out = append(out, clipped{i, j, ms.full[i*k+j]})
+			}
+		}
+		if formed > ms.atRef+len(ms.ratio)/4 {
+			ms.rebase(v)
+		}
+		return out
+	}
+	ms.dense = false
 	formed := 0
 	for j := 0; j < k; j++ {
 		formed += ms.formColumn(j)
 	}
-	out = out[:0]
 	for w, word := range ms.hit {
 		for word != 0 {
 			e := w*64 + bits.TrailingZeros64(word)
@@ -584,6 +694,84 @@ func (ms *marginSide) collect(v []float64, out []clipped) []clipped {
 		ms.rebase(v)
 	}
 	return out
+}
+
+// denseForm is the share of X·V's entries above which collect forms the
+// product whole rather than through the margin test. The search alone,
+// CPU per call at GOMAXPROCS 1: on the default run's five species (2000 ×
+// 3001, half the entries formed at every evaluation of the exact-fit seed:
+// the solution's exact zeros have no margin) 80–83 → 71–73 ms at 0.3, 0.4
+// and 0.5 alike; on urethane catalyst-0.01 (k = 2, 6950 channels) 0.3 and
+// 0.4 cost 9.2–9.6 → 10.0–10.5 ms, 0.5 nothing measurable.
+const denseForm = 0.5
+
+// formedCount is how many entries formColumn would form at the current
+// deltas, nothing formed: the groups it forms whole, and of the one
+// straddling ‖v_j − v₀_j‖ all with exact false (an upper bound, O(k·groups))
+// or those whose ratio is at most that with exact true.
+func (ms *marginSide) formedCount(exact bool) int {
+	n, k := 0, ms.k
+	for j := 0; j < k; j++ {
+		st, d := ms.start[j*(groups+2):(j+1)*(groups+2)], ms.delta[j]
+		n += int(st[1] - st[0])
+		for g := 1; g <= groups; g++ {
+			lo, hi := st[g], st[g+1]
+			if lo == hi {
+				continue
+			}
+			if !exact || math.Ldexp(1, ms.exp[j]+g-1) <= d {
+				n += int(hi - lo)
+				if exact {
+					continue
+				}
+			} else {
+				for _, i := range ms.rows[lo:hi] {
+					if ms.ratio[int(i)*k+j] <= d {
+						n++
+					}
+				}
+			}
+			if !(math.Ldexp(1, ms.exp[j]+g-1) <= d) {
+				break
+			}
+		}
+	}
+	return n
+}
+
+// whole says whether collect forms X·V whole (more than denseAbove of its
+// entries to be formed) and how many entries the margin test would form.
+func (ms *marginSide) whole() (bool, int) {
+	limit := ms.denseAbove * float64(len(ms.ratio))
+	if float64(ms.formedCount(false)) <= limit {
+		return false, 0
+	}
+	n := ms.formedCount(true)
+	return float64(n) > limit, n
+}
+
+// formDense sets ms.full to X·V (ms.vt holds Vᵀ: transposeV), ms.minus to its entries
+// breaking non-negativity or in a zero window (0 elsewhere) and ms.clip
+// to each row's bits of those columns: whole panels in the vector lanes,
+// the rows past them in Go, every entry summed in entry's order.
+func (ms *marginSide) formDense() {
+	k, x := ms.k, ms.x
+	ms.denseBuffers()
+	ms.dense = true
+	if ms.xp != nil {
+		p := len(x) / k / 4
+		rotatedPanels(&ms.full[0], &ms.minus[0], &ms.clip[0], &ms.xp[0], &ms.vt[0], &ms.nnm[0], &spreadBits[0], k, p)
+		at := 4 * p * k
+		rotatedRows(ms.full[at:], ms.minus[at:], ms.clip[4*p:], x[at:], ms.vt, ms.nnBits, k)
+	} else {
+		rotatedRows(ms.full, ms.minus, ms.clip, x, ms.vt, ms.nnBits, k)
+	}
+	for e, z := range ms.zero { // nil: no windows
+		if z {
+			ms.minus[e] = ms.full[e]
+			ms.clip[e/k] |= 1 << (e % k)
+		}
+	}
 }
 
 // transposeV sets ms.vt to Vᵀ (column j of V contiguous), as entry and
@@ -938,12 +1126,9 @@ type clippedRows struct {
 	dense bool      // X·V formed whole this time
 	full  []float64 // the rows: len(idx) × k, or X·V (rows × k) when dense
 	minus []float64 // their clipped entries, laid out as full
-	// For formDense: per row its clipped entries' bits, per column 1 when
-	// non-negative.
-	clipped, nn []uint64
-	// With the rows in panels (marginSide.xp): per column all ones when
-	// non-negative, for rotatedPanels.
-	nnm []uint64
+	// The rows' own storage when listed; formed whole, full and minus are
+	// the marginSide's (formDense).
+	listFull, listMinus []float64
 }
 
 // denseShare is the share of rows with a clipped entry above which X·V is
@@ -957,33 +1142,28 @@ const denseShare = 0.3
 // form fills cr with the clipped rows of X·V, X = ms.x and V = v (ms's
 // constraints).
 func (cr *clippedRows) form(ms *marginSide, v []float64) {
-	k, rows := ms.k, len(ms.norm)
-	if len(cr.full) != len(ms.x) {
-		cr.full, cr.minus = make([]float64, len(ms.x)), make([]float64, len(ms.x))
-		cr.idx, cr.cols = make([]int, 0, rows), make([]uint64, 0, rows)
-		cr.clipped, cr.nn = make([]uint64, rows), make([]uint64, k)
-		for j := range cr.nn {
-			cr.nn[j] = b2u(ms.nn[j])
-		}
-		if ms.xp != nil {
-			cr.nnm = make([]uint64, k)
-			for j := range cr.nnm {
-				cr.nnm[j] = -cr.nn[j]
-			}
-		}
+	if cr.listFull == nil {
+		cr.listFull, cr.listMinus = make([]float64, len(ms.x)), make([]float64, len(ms.x))
+		cr.idx, cr.cols = make([]int, 0, len(ms.norm)), make([]uint64, 0, len(ms.norm))
 	}
-	if float64(len(cr.idx)) > denseShare*float64(rows) {
+	if float64(len(cr.idx)) > denseShare*float64(len(ms.norm)) {
 		cr.formDense(ms, v)
 		return
 	}
 	cr.formList(ms, v)
 }
 
-// formList fills cr from the clipped entries the margin test finds.
+// formList fills cr from the clipped entries the margin test finds (or,
+// when collect formed X·V whole, from that).
 func (cr *clippedRows) formList(ms *marginSide, v []float64) {
 	k := ms.k
-	cr.dense = false
 	ms.list = ms.collect(v, ms.list)
+	if ms.dense {
+		cr.fromDense(ms)
+		return
+	}
+	cr.dense = false
+	cr.full, cr.minus = cr.listFull, cr.listMinus
 	list := ms.list
 	cr.idx, cr.cols = cr.idx[:0], cr.cols[:0]
 	at := 0
@@ -1010,29 +1190,19 @@ func (cr *clippedRows) formList(ms *marginSide, v []float64) {
 	}
 }
 
-// formDense fills cr from X·V formed whole (storage sized by form).
+// formDense fills cr from X·V formed whole (marginSide.formDense).
 func (cr *clippedRows) formDense(ms *marginSide, v []float64) {
-	k, x := ms.k, ms.x
-	cr.dense = true
 	ms.transposeV(v)
-	if ms.xp != nil {
-		// Whole panels in the vector lanes, the last rows in Go: the
-		// same sums in the same order.
-		p := len(x) / k / 4
-		rotatedPanels(&cr.full[0], &cr.minus[0], &cr.clipped[0], &ms.xp[0], &ms.vt[0], &cr.nnm[0], &spreadBits[0], k, p)
-		at := 4 * p * k
-		rotatedRows(cr.full[at:], cr.minus[at:], cr.clipped[4*p:], x[at:], ms.vt, cr.nn, k)
-	} else {
-		rotatedRows(cr.full, cr.minus, cr.clipped, x, ms.vt, cr.nn, k)
-	}
-	for e, z := range ms.zero { // nil: no windows
-		if z {
-			cr.minus[e] = cr.full[e]
-			cr.clipped[e/k] |= 1 << (e % k)
-		}
-	}
+	ms.formDense()
+	cr.fromDense(ms)
+}
+
+// fromDense lists the rows of ms's X·V formed whole.
+func (cr *clippedRows) fromDense(ms *marginSide) {
+	cr.dense = true
+	cr.full, cr.minus = ms.full, ms.minus
 	cr.idx, cr.cols = cr.idx[:0], cr.cols[:0]
-	for i, c := range cr.clipped {
+	for i, c := range ms.clip {
 		if c != 0 {
 			cr.idx, cr.cols = append(cr.idx, i), append(cr.cols, c)
 		}
