@@ -320,14 +320,15 @@ func (l edgeLine) Plot(c draw.Canvas, plt *plot.Plot) {
 
 // lineScratch is memory that the lines and shaded bands drawn on one canvas
 // reuse, one after another: their points in canvas coordinates, thinned,
-// in the device's fixed point, and the rasterizer's path. Nothing drawn
-// keeps any of it: a stroke or a fill is done when its call returns (the
-// SVG data held back are bytes of their own).
+// in the device's fixed point, the rasterizer's path and a band's cells.
+// Nothing drawn keeps any of it: a stroke or a fill is done when its call
+// returns (the SVG data held back are bytes of their own).
 type lineScratch struct {
 	pts, thinned []vg.Point
 	lines        [][]vg.Point
 	fixed        []fixed.Point26_6
 	path         ftraster.Path
+	raster       bandRaster
 }
 
 // scratchOf is the scratch memory of c's base canvas (a pixel canvas lent
@@ -586,8 +587,7 @@ func baseCanvas(c draw.Canvas) vg.Canvas {
 type pixelCanvas struct {
 	*vgimg.Canvas
 	img *image.RGBA
-	ctx *gg.Context          // the canvas's drawing context
-	ras *ftraster.Rasterizer // for strokeLines, made on first use
+	ctx *gg.Context // the canvas's drawing context
 	// scratch is the memory its lines and bands are drawn with (nil: each
 	// takes fresh memory); a figure's files lend theirs (fileScratch).
 	scratch *lineScratch

@@ -1,7 +1,6 @@
 package report
 
 import (
-	"image"
 	"image/color"
 	"math"
 
@@ -14,13 +13,14 @@ import (
 
 // The figure files' long lines (spectra, profiles) are stroked here rather
 // than by the drawing context, with the same path, the same stroker and the
-// same rasterizer, so that every pixel is the one the context would paint
-// (checked against it in a test). What differs is the order of the work.
-// The rasterizer keeps each pixel row's cells in a list sorted by column
-// and walks it from the left for every cell a path's outline adds, so a
-// line across the whole figure costs the square of its width in every row
-// it stays in; this took a seventh of the report's time. Stroked one band
-// of bandColumns pixel columns at a time, each row's list stays short.
+// rasterizer's arithmetic, so that every pixel is the one the context would
+// paint (checked against it in a test). What differs is the order of the
+// work. The rasterizer keeps each pixel row's cells in a list sorted by
+// column and walks it from the left for every cell a path's outline adds,
+// so a line across the whole figure costs the square of its width in every
+// row it stays in; this took a seventh of the report's time. Stroked one
+// band of bandColumns pixel columns at a time, each row's list stays short;
+// bandRaster keeps a band's cells in an array instead of lists.
 //
 // Why a band's pixels are the same: the rasterizer gives a pixel the area
 // under the outline in the pixel's own cell plus the cover (the signed
@@ -55,19 +55,17 @@ func (pc *pixelCanvas) strokeLines(c draw.Canvas, sty draw.LineStyle, lines [][]
 		dashes = append(dashes, d.Dots(dpi))
 	}
 	st := strokeStyle{width: fix(sty.Width.Dots(dpi)), dashes: dashes, offset: sty.DashOffs.Dots(dpi)}
-	painter := ftraster.NewRGBAPainter(pc.img)
 	var colour color.Color = color.Black // what the canvas takes for none
 	if sty.Color != nil {
 		colour = sty.Color
 	}
-	painter.SetColor(colour)
 	s := pc.lineScratch()
 	for _, l := range lines {
 		if len(l) == 0 {
 			continue
 		}
 		s.fixed = pc.appendFixed(s.fixed[:0], l, dpi)
-		pc.strokeBands(st.subpaths(s.fixed), st.width, painter)
+		pc.strokeBands(st.subpaths(s.fixed), st.width, colour)
 	}
 }
 
@@ -199,8 +197,8 @@ func dashPolyline(path []gg.Point, dashes []float64, offset float64) [][]gg.Poin
 
 // strokeBands strokes the subpaths (one stroke: butt caps, round joins,
 // non-zero winding, as the drawing context strokes) in bands of
-// bandColumns pixel columns, or whole when they span fewer than three.
-func (pc *pixelCanvas) strokeBands(subpaths [][]fixed.Point26_6, width fixed.Int26_6, painter *ftraster.RGBAPainter) {
+// bandColumns pixel columns.
+func (pc *pixelCanvas) strokeBands(subpaths [][]fixed.Point26_6, width fixed.Int26_6, colour color.Color) {
 	lo, hi := fixed.Int26_6(math.MaxInt32), fixed.Int26_6(math.MinInt32)
 	for _, sp := range subpaths {
 		if len(sp) < 2 {
@@ -220,25 +218,25 @@ func (pc *pixelCanvas) strokeBands(subpaths [][]fixed.Point26_6, width fixed.Int
 	first := max(0, int((lo-margin)>>6)/bandColumns)
 	last := min((w-1)/bandColumns, int((hi+margin)>>6)/bandColumns)
 	s := pc.lineScratch()
-	if last-first < 2 {
-		s.path = appendPath(s.path[:0], subpaths, 0, 0, false)
-		pc.rasterizeStroke(s.path, width, painter, image.Rect(0, 0, w, pc.img.Rect.Dy()))
-		return
-	}
 	for b := first; b <= last; b++ {
 		x0, x1 := b*bandColumns, min(w, (b+1)*bandColumns)
 		from, to := fixed.Int26_6(x0*64)-margin, fixed.Int26_6(x1*64)+margin
-		s.path = appendPath(s.path[:0], subpaths, from, to, true)
-		pc.rasterizeStroke(s.path, width, painter, image.Rect(x0, 0, x1, pc.img.Rect.Dy()))
+		s.path = appendPath(s.path[:0], subpaths, from, to)
+		if len(s.path) == 0 {
+			continue
+		}
+		r := pc.bandRaster(x0, x1)
+		ftraster.Stroke(r, s.path, width, ftraster.ButtCapper, ftraster.RoundJoiner)
+		r.paint(pc.img, colour)
 	}
 }
 
-// appendPath appends to p the rasterizer's path of the subpaths; with
-// near, only the runs of consecutive segments whose x extent meets
-// [from, to], each run a subpath of its own. The rasterizer reads a path
+// appendPath appends to p the rasterizer's path of the runs of
+// consecutive segments of the subpaths whose x extent meets [from, to],
+// each run a subpath of its own. The rasterizer reads a path
 // only while it is added, so one band's path is made where the last one's
 // was.
-func appendPath(p ftraster.Path, subpaths [][]fixed.Point26_6, from, to fixed.Int26_6, near bool) ftraster.Path {
+func appendPath(p ftraster.Path, subpaths [][]fixed.Point26_6, from, to fixed.Int26_6) ftraster.Path {
 	for _, sp := range subpaths {
 		if len(sp) < 2 {
 			continue
@@ -246,7 +244,7 @@ func appendPath(p ftraster.Path, subpaths [][]fixed.Point26_6, from, to fixed.In
 		open := false
 		for i := 1; i < len(sp); i++ {
 			a, b := sp[i-1], sp[i]
-			if near && (max(a.X, b.X) < from || min(a.X, b.X) > to) {
+			if max(a.X, b.X) < from || min(a.X, b.X) > to {
 				open = false
 				continue
 			}
@@ -260,16 +258,6 @@ func appendPath(p ftraster.Path, subpaths [][]fixed.Point26_6, from, to fixed.In
 	return p
 }
 
-// rasterizeStroke strokes path and paints its pixels inside clip.
-func (pc *pixelCanvas) rasterizeStroke(path ftraster.Path, width fixed.Int26_6, painter *ftraster.RGBAPainter, clip image.Rectangle) {
-	if len(path) == 0 {
-		return
-	}
-	r := pc.rasterizer()
-	r.AddStroke(path, width, ftraster.ButtCapper, ftraster.RoundJoiner)
-	pc.paintBand(r, painter, clip)
-}
-
 // appendFixed appends to pts the points l (canvas coordinates) in the
 // device's 26.6 fixed point, through the context's transform, as the
 // context forms them.
@@ -281,23 +269,12 @@ func (pc *pixelCanvas) appendFixed(pts []fixed.Point26_6, l []vg.Point, dpi floa
 	return pts
 }
 
-// rasterizer is the canvas's one rasterizer, emptied, set to non-zero
-// winding as the drawing context sets it.
-func (pc *pixelCanvas) rasterizer() *ftraster.Rasterizer {
-	if pc.ras == nil {
-		pc.ras = ftraster.NewRasterizer(pc.img.Rect.Dx(), pc.img.Rect.Dy())
-	}
-	pc.ras.UseNonZeroWinding = true
-	pc.ras.Clear()
-	return pc.ras
-}
-
-// paintBand paints what r holds with the context's painter for a solid
-// colour, on the band's columns only (it paints nothing outside its
-// image's bounds).
-func (pc *pixelCanvas) paintBand(r *ftraster.Rasterizer, painter *ftraster.RGBAPainter, clip image.Rectangle) {
-	painter.Image = pc.img.SubImage(clip).(*image.RGBA)
-	r.Rasterize(painter)
+// bandRaster is the scratch's rasterizer, emptied, for the columns
+// [x0, x1) of the canvas's image.
+func (pc *pixelCanvas) bandRaster(x0, x1 int) *bandRaster {
+	r := &pc.lineScratch().raster
+	r.reset(x0, x1, pc.img.Rect.Dx(), pc.img.Rect.Dy())
+	return r
 }
 
 // fillRings fills the closed polygons rings (canvas coordinates) in colour
@@ -334,27 +311,12 @@ func (pc *pixelCanvas) fillRings(rings [][]vg.Point, colour color.Color) {
 	if colour == nil {
 		colour = color.Black
 	}
-	painter := ftraster.NewRGBAPainter(pc.img)
-	painter.SetColor(colour)
-	w, h := pc.img.Rect.Dx(), pc.img.Rect.Dy()
+	w := pc.img.Rect.Dx()
 	// The cells an edge touches lie within its x extent and the pixel
 	// either side (26.6 coordinates are cut to pixels toward zero).
 	const margin = 2 * 64
 	first := max(0, int((lo-margin)>>6)/bandColumns)
 	last := min((w-1)/bandColumns, int((hi+margin)>>6)/bandColumns)
-	if last-first < 2 {
-		p := s.path[:0]
-		for _, ring := range fixedRings {
-			p.Start(ring[0])
-			for _, q := range ring[1:] {
-				p.Add1(q)
-			}
-			p.Add1(ring[0])
-		}
-		s.path = p
-		pc.rasterizeFill(p, painter, image.Rect(0, 0, w, h))
-		return
-	}
 	for b := first; b <= last; b++ {
 		x0, x1 := b*bandColumns, min(w, (b+1)*bandColumns)
 		from, to := fixed.Int26_6(x0*64)-margin, fixed.Int26_6(x1*64)+margin
@@ -363,7 +325,12 @@ func (pc *pixelCanvas) fillRings(rings [][]vg.Point, colour color.Color) {
 			bandRing(&p, ring, from, to)
 		}
 		s.path = p
-		pc.rasterizeFill(p, painter, image.Rect(x0, 0, x1, h))
+		if len(p) == 0 {
+			continue
+		}
+		r := pc.bandRaster(x0, x1)
+		r.addPath(p)
+		r.paint(pc.img, colour)
 	}
 }
 
@@ -407,15 +374,4 @@ func bandRing(p *ftraster.Path, ring []fixed.Point26_6, from, to fixed.Int26_6) 
 		}
 		p.Add1(ring[k])
 	}
-}
-
-// rasterizeFill fills path (non-zero winding) and paints its pixels inside
-// clip.
-func (pc *pixelCanvas) rasterizeFill(path ftraster.Path, painter *ftraster.RGBAPainter, clip image.Rectangle) {
-	if len(path) == 0 {
-		return
-	}
-	r := pc.rasterizer()
-	r.AddPath(path)
-	pc.paintBand(r, painter, clip)
 }
