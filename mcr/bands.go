@@ -10,6 +10,7 @@ import (
 
 	"github.com/bandsolve/bandsolve/internal/fanout"
 	"github.com/bandsolve/bandsolve/internal/vecmath"
+	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -470,10 +471,33 @@ func (p *bandProblem) rotateNew(t *mat.Dense) (a, b, tinvT *mat.Dense, ok bool) 
 		return nil, nil, nil, false
 	}
 	tinvT = mat.DenseCopyOf(inv.T())
-	a, b = &mat.Dense{}, &mat.Dense{}
-	a.Mul(p.c, t)
-	b.Mul(p.s, tinvT)
-	return a, b, tinvT, true
+	return rowsTimes(p.c, t), rowsTimes(p.s, tinvT), tinvT, true
+}
+
+// rowsTimes returns x·v (x r × k, v k × k), each entry summed over l in
+// order, from +0, of the products x_il·v_lj whose first factor is not
+// zero: gonum's order for X·V (dgemmSerialNotNot, each row whole; it
+// formed them before, on goroutines of its own), so the same bits,
+// without the goroutines.
+func rowsTimes(x, v *mat.Dense) *mat.Dense {
+	r, k := x.Dims()
+	xm, vm := x.RawMatrix(), v.RawMatrix()
+	out := mat.NewDense(r, k, nil)
+	o := out.RawMatrix().Data
+	for i := 0; i < r; i++ {
+		orow := o[i*k : i*k+k]
+		for l, xv := range xm.Data[i*xm.Stride : i*xm.Stride+k] {
+			if xv == 0 {
+				continue
+			}
+			vr := vm.Data[l*vm.Stride : l*vm.Stride+k]
+			vr = vr[:len(orow)]
+			for j, w := range vr {
+				orow[j] += xv * w
+			}
+		}
+	}
+	return out
 }
 
 func (p *bandProblem) contribution(t *mat.Dense, j int) float64 {
@@ -729,6 +753,28 @@ func (p *bandProblem) clip(x *mat.Dense, nn []bool, zero [][]bool) (*mat.Dense, 
 	return out, mask
 }
 
+// clipped is clip's first result alone (x with the constraints imposed),
+// without the mask.
+func (p *bandProblem) clipped(x *mat.Dense, nn []bool, zero [][]bool) *mat.Dense {
+	r, k := x.Dims()
+	out := mat.NewDense(r, k, nil)
+	xm, o := x.RawMatrix(), out.RawMatrix().Data
+	for j := 0; j < k; j++ {
+		var z []bool
+		if j < len(zero) {
+			z = zero[j]
+		}
+		for i := 0; i < r; i++ {
+			v := xm.Data[i*xm.Stride+j]
+			if z != nil && z[i] || nn[j] && v < 0 {
+				continue
+			}
+			o[i*k+j] = v
+		}
+	}
+	return out
+}
+
 // rise returns ‖A Bᵀ − A₊B₊ᵀ‖²_F, the change of the model when the
 // constraints are imposed on the rotated pair, and adds its gradients with
 // respect to A and B into ga and gb when non-nil. It is formed as
@@ -748,16 +794,15 @@ func (p *bandProblem) rise(a, b, ga, gb *mat.Dense) float64 {
 // riseNew is rise formed afresh.
 func (p *bandProblem) riseNew(a, b, ga, gb *mat.Dense) float64 {
 	k := p.k
-	var ap, bp, ma, mb *mat.Dense
 	if ga == nil {
 		// The value alone needs only the constrained pair, which the
 		// search's stage ends and amplitude ask for at the same rotation
 		// (constrainedPair keeps it): the same clip, formed once.
-		ap, bp = p.constrainedPair(a, b)
-	} else {
-		ap, ma = p.clip(a, p.nnC, p.opt.ZeroProfiles)
-		bp, mb = p.clip(b, p.nnS, p.opt.ZeroSpectra)
+		ap, bp := p.constrainedPair(a, b)
+		return riseGram(a, b, ap, bp)
 	}
+	ap, ma := p.clip(a, p.nnC, p.opt.ZeroProfiles)
+	bp, mb := p.clip(b, p.nnS, p.opt.ZeroSpectra)
 	var am, bm mat.Dense
 	am.Sub(a, ap)
 	bm.Sub(b, bp)
@@ -775,9 +820,6 @@ func (p *bandProblem) riseNew(a, b, ga, gb *mat.Dense) float64 {
 		for j := 0; j < 2*k; j++ {
 			d += gx.At(i, j) * gy.At(i, j)
 		}
-	}
-	if ga == nil {
-		return d
 	}
 	// ∂‖X Yᵀ‖²/∂X = 2 X (YᵀY), ∂/∂Y = 2 Y (XᵀX); then through the masks.
 	var dx, dy mat.Dense
@@ -797,6 +839,80 @@ func (p *bandProblem) riseNew(a, b, ga, gb *mat.Dense) float64 {
 	return d
 }
 
+// riseGram is the value of riseNew, ‖X Yᵀ‖² = Σ (XᵀX)∘(YᵀY) with
+// X = [A₋ A₊] and Y = [B B₋], A₋ = A − A₊ and B₋ = B − B₊ entry by
+// entry, without forming X and Y: each row of X or Y is made in a scratch
+// row, and each entry of a Gram matrix is summed over the rows in order,
+// from +0, of the products whose first factor is not zero, the order of
+// gonum's Xᵀ·X (dgemmSerialTransNot, which formed them before; the
+// factors left out are ±0 and leave such a sum as it is), so that the
+// rise has the same bits. The sum of the products of the two Gram
+// matrices runs row-major, as before.
+func riseGram(a, b, ap, bp *mat.Dense) float64 {
+	_, k := a.Dims()
+	k2 := 2 * k
+	gx, gy, row := make([]float64, k2*k2), make([]float64, k2*k2), make([]float64, k2)
+	gramOfSplit(gx, row, a.RawMatrix(), ap.RawMatrix(), true)
+	gramOfSplit(gy, row, b.RawMatrix(), bp.RawMatrix(), false)
+	d := 0.0
+	for i, v := range gx {
+		d += v * gy[i]
+	}
+	return d
+}
+
+// gramOfSplit sets g (2k × 2k) to XᵀX for the rows x_i = [y_i − z_i, z_i]
+// (first true) or [y_i, y_i − z_i] of y and z (n × k), summed as riseGram
+// says.
+func gramOfSplit(g, row []float64, y, z blas64.General, first bool) {
+	k := y.Cols
+	k2 := 2 * k
+	clear(g)
+	for i := 0; i < y.Rows; i++ {
+		yr, zr := y.Data[i*y.Stride:i*y.Stride+k], z.Data[i*z.Stride:i*z.Stride+k]
+		zr = zr[:len(yr)]
+		for j, v := range yr {
+			if first {
+				row[j], row[k+j] = v-zr[j], zr[j]
+			} else {
+				row[j], row[k+j] = v, v-zr[j]
+			}
+		}
+		for p, v := range row {
+			if v == 0 {
+				continue
+			}
+			gp := g[p*k2 : p*k2+k2]
+			gp = gp[:len(row)]
+			for q, w := range row {
+				gp[q] += v * w
+			}
+		}
+	}
+}
+
+// crossGram returns xᵀy (k × k, row-major) for x and y of k columns, each
+// entry summed over the rows in order, from +0, of the products whose
+// first factor is not zero: gonum's order for Xᵀ·Y (see riseGram).
+func crossGram(x, y blas64.General) []float64 {
+	k := x.Cols
+	g := make([]float64, k*k)
+	for i := 0; i < x.Rows; i++ {
+		xr, yr := x.Data[i*x.Stride:i*x.Stride+k], y.Data[i*y.Stride:i*y.Stride+y.Cols]
+		for p, v := range xr {
+			if v == 0 {
+				continue
+			}
+			gp := g[p*k : p*k+k]
+			gp = gp[:len(yr)]
+			for q, w := range yr {
+				gp[q] += v * w
+			}
+		}
+	}
+	return g
+}
+
 // constrainedPair is the rotated pair with the constraints imposed (kept
 // with the last rotation: the callers must not change it).
 func (p *bandProblem) constrainedPair(a, b *mat.Dense) (*mat.Dense, *mat.Dense) {
@@ -804,8 +920,7 @@ func (p *bandProblem) constrainedPair(a, b *mat.Dense) (*mat.Dense, *mat.Dense) 
 	if memo != nil && memo.a == a && memo.b == b && memo.ap != nil {
 		return memo.ap, memo.bp
 	}
-	ap, _ := p.clip(a, p.nnC, p.opt.ZeroProfiles)
-	bp, _ := p.clip(b, p.nnS, p.opt.ZeroSpectra)
+	ap, bp := p.clipped(a, p.nnC, p.opt.ZeroProfiles), p.clipped(b, p.nnS, p.opt.ZeroSpectra)
 	if memo != nil && memo.a == a && memo.b == b {
 		memo.ap, memo.bp = ap, bp
 	}
@@ -841,11 +956,13 @@ func (p *bandProblem) amplitude(t *mat.Dense, j int, dir float64) (float64, floa
 		return 0, 1
 	}
 	// ⟨C Sᵀ, Δ⟩ = Σ (CᵀA₋)∘(SᵀB) + Σ (CᵀA₊)∘(SᵀB₋).
-	inner := func(x, y, u, v mat.Matrix) float64 {
-		var g, h mat.Dense
-		g.Mul(x.T(), y)
-		h.Mul(u.T(), v)
-		return traceProd(&g, &h)
+	inner := func(x, y, u, v *mat.Dense) float64 {
+		g, h := crossGram(x.RawMatrix(), y.RawMatrix()), crossGram(u.RawMatrix(), v.RawMatrix())
+		s := 0.0
+		for i, v := range g {
+			s += v * h[i]
+		}
+		return s
 	}
 	csD := inner(p.c, &am, p.s, b) + inner(p.c, ap, p.s, &bm)
 	dd := p.rise(a, b, nil, nil) // ‖Δ‖²

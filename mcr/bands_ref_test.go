@@ -3,6 +3,7 @@ package mcr
 import (
 	"fmt"
 	"math"
+	"math/bits"
 	"math/rand/v2"
 	"runtime"
 	"testing"
@@ -599,4 +600,182 @@ func TestCollectWholeSameAsMargins(t *testing.T) {
 	if ways[true] == 0 || ways[false] == 0 {
 		t.Errorf("the search's own choice took the margins %d times and the whole product %d times: both ways must be checked", ways[false], ways[true])
 	}
+}
+
+// The stage ends' products (rowsTimes, crossGram, riseGram) must give the
+// bits of the gonum products that formed them before: X·V, XᵀY and
+// Σ (XᵀX)∘(YᵀY) with X = [A − A₊, A₊], Y = [B, B − B₊] built and
+// multiplied by gonum (mat.Dense.Mul, Sub; the rise's definition in
+// FeasibleBands). Random entries over twenty binary orders of magnitude,
+// a sixth of them exactly 0 and some −0 (so that zero factors and signed
+// zeros meet), k from 1 to 7, row counts around gonum's 64-row blocks,
+// and views whose stride is not k.
+func TestStageEndProductsSameAsGonum(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 10))
+	fill := func(r, c int) *mat.Dense {
+		x := mat.NewDense(r, c+2, nil)
+		for i := 0; i < r; i++ {
+			for j := 0; j < c+2; j++ {
+				switch rng.IntN(12) {
+				case 0, 1:
+				case 2:
+					x.Set(i, j, math.Copysign(0, -1))
+				default:
+					x.Set(i, j, rng.NormFloat64()*math.Exp2(float64(rng.IntN(20)-10)))
+				}
+			}
+		}
+		return x.Slice(0, r, 1, c+1).(*mat.Dense) // stride c + 2
+	}
+	same := func(a, b []float64) bool { return vecmath.SameBits(a, b) }
+	for k := 1; k <= 7; k++ {
+		for _, rows := range []int{1, 5, 63, 64, 130} {
+			x, y, v := fill(rows, k), fill(rows, k), fill(k, k)
+			var want, cross mat.Dense
+			want.Mul(x, v)
+			if got := rowsTimes(x, v); !same(got.RawMatrix().Data, mat.DenseCopyOf(&want).RawMatrix().Data) {
+				t.Errorf("k %d rows %d: rowsTimes differs from gonum's X·V", k, rows)
+			}
+			cross.Mul(x.T(), y)
+			if got := crossGram(x.RawMatrix(), y.RawMatrix()); !same(got, mat.DenseCopyOf(&cross).RawMatrix().Data) {
+				t.Errorf("k %d rows %d: crossGram differs from gonum's XᵀY", k, rows)
+			}
+			p := &bandProblem{k: k, nnC: make([]bool, k), nnS: make([]bool, k)}
+			for j := range p.nnC {
+				p.nnC[j], p.nnS[j] = j%3 != 1, j%2 == 0
+			}
+			a, b := mat.DenseCopyOf(x), mat.DenseCopyOf(y)
+			ap, _ := p.clip(a, p.nnC, nil)
+			bp, _ := p.clip(b, p.nnS, nil)
+			var am, bm, gx, gy mat.Dense
+			am.Sub(a, ap)
+			bm.Sub(b, bp)
+			xs, ys := mat.NewDense(rows, 2*k, nil), mat.NewDense(rows, 2*k, nil)
+			xs.Slice(0, rows, 0, k).(*mat.Dense).Copy(&am)
+			xs.Slice(0, rows, k, 2*k).(*mat.Dense).Copy(ap)
+			ys.Slice(0, rows, 0, k).(*mat.Dense).Copy(b)
+			ys.Slice(0, rows, k, 2*k).(*mat.Dense).Copy(&bm)
+			gx.Mul(xs.T(), xs)
+			gy.Mul(ys.T(), ys)
+			d := 0.0
+			for i := 0; i < 2*k; i++ {
+				for j := 0; j < 2*k; j++ {
+					d += gx.At(i, j) * gy.At(i, j)
+				}
+			}
+			if got := riseGram(a, b, ap, bp); math.Float64bits(got) != math.Float64bits(d) {
+				t.Errorf("k %d rows %d: riseGram %v, gonum's Gram matrices %v", k, rows, got, d)
+			}
+			if cp := p.clipped(x, p.nnC, nil); !same(mat.DenseCopyOf(cp).RawMatrix().Data, ap.RawMatrix().Data) {
+				t.Errorf("k %d rows %d: clipped differs from clip", k, rows)
+			}
+		}
+	}
+}
+
+// riseGradient forms the differences of YᵀY's blocks and each clipped
+// row's A₊ once instead of once per clipped entry: its gradient must be
+// the bits of the per-entry formula (riseGradientPerEntry, the form it
+// had) at rotations across the search's range, with zero windows.
+func TestRiseGradientSameAsPerEntry(t *testing.T) {
+	const n, m, k = 50, 70, 4
+	c, s := bandsBenchPair(n, m, k)
+	zp := make([][]bool, k)
+	zp[3] = make([]bool, n)
+	for i := 30; i < 38; i++ {
+		zp[3][i] = true
+	}
+	rng := rand.New(rand.NewPCG(11, 12))
+	for _, o := range []BandOptions{{Mode: Species}, {Mode: Species, ZeroProfiles: zp}} {
+		p := &bandProblem{c: c, s: s, n: n, m: m, k: k, opt: o}
+		if err := p.setup(); err != nil {
+			t.Fatal(err)
+		}
+		p.newWork()
+		p.allow = 1e-6
+		w := p.work
+		checked := 0
+		for trial := 0; trial < 30; trial++ {
+			th := make([]float64, len(p.free))
+			for i := range th {
+				th[i] = 0.01 * float64(1+trial%5*8) * rng.NormFloat64()
+			}
+			p.valueWork(trial%k, 1, 1e4, th)
+			if !w.at.smooth || len(w.rowsC.idx)+len(w.rowsS.idx) == 0 {
+				continue
+			}
+			checked++
+			clear(w.gt)
+			clear(w.gbB)
+			p.riseGradient(0.7)
+			gt, gb := append([]float64(nil), w.gt...), append([]float64(nil), w.gbB...)
+			clear(w.gt)
+			clear(w.gbB)
+			p.riseGradientPerEntry(0.7)
+			if !vecmath.SameBits(gt, w.gt) || !vecmath.SameBits(gb, w.gbB) {
+				t.Errorf("windows %v trial %d: gradient differs from the per-entry formula", o.ZeroProfiles != nil, trial)
+			}
+		}
+		if checked < 10 {
+			t.Errorf("windows %v: only %d rotations with clipped rows", o.ZeroProfiles != nil, checked)
+		}
+	}
+}
+
+// riseGradientPerEntry is riseGradient as it was written before its
+// differences were formed once: the reference for the test above.
+func (p *bandProblem) riseGradientPerEntry(f float64) {
+	w, k := p.work, p.k
+	k2 := 2 * k
+	gx, gy := w.gx, w.gy
+	ctam, btb := w.sq[0], w.sq[3]
+	ctap := congruenceLeft(w.sq[4], w.gc, w.t, k)
+	for r := 0; r < k; r++ {
+		for c := 0; c < k; c++ {
+			ctap[r*k+c] -= ctam[r*k+c]
+		}
+	}
+	for r := 0; r < k; r++ {
+		for c := 0; c < k; c++ {
+			s := 0.0
+			for l := 0; l < k; l++ {
+				s += ctam[r*k+l]*gy[l*k2+k+c] + ctap[r*k+l]*gy[(k+l)*k2+k+c]
+			}
+			w.gt[r*k+c] += f * s
+		}
+	}
+	w.rowsC.each(k, func(i int, cols uint64, full, minus []float64) {
+		cr := w.c[i*k : i*k+k]
+		for ; cols != 0; cols &= cols - 1 {
+			j := bits.TrailingZeros64(cols)
+			d := 0.0
+			for l := 0; l < k; l++ {
+				d += minus[l]*(gy[l*k2+j]-gy[l*k2+k+j]) + (full[l]-minus[l])*(gy[(k+l)*k2+j]-gy[(k+l)*k2+k+j])
+			}
+			for r := 0; r < k; r++ {
+				w.gt[r*k+j] += f * cr[r] * d
+			}
+		}
+	})
+	for j := 0; j < k; j++ {
+		for c := 0; c < k; c++ {
+			s := 0.0
+			for l := 0; l < k; l++ {
+				s += gx[l*k2+j]*btb[l*k+c] + gx[(k+l)*k2+j]*gy[(k+l)*k2+c]
+			}
+			w.gbB[j*k+c] += f * s
+		}
+	}
+	w.rowsS.each(k, func(i int, cols uint64, full, minus []float64) {
+		for ; cols != 0; cols &= cols - 1 {
+			j := bits.TrailingZeros64(cols)
+			d := 0.0
+			for l := 0; l < k; l++ {
+				d += full[l]*gx[l*k2+k+j] + minus[l]*gx[(k+l)*k2+k+j]
+			}
+			for c := 0; c < k; c++ {
+				w.gbB[j*k+c] += f * d * full[c]
+			}
+		}
+	})
 }

@@ -17,7 +17,8 @@ type bandWork struct {
 	gt, gbB       []float64    // k × k
 	gc, gs        []float64    // CᵀC, SᵀS (k × k)
 	sq            [5][]float64 // k × k scratch
-	vec           [3][]float64 // k scratch
+	dg            [4][]float64 // k × k: riseGradient's differences of Gram blocks, by column
+	vec           [4][]float64 // k scratch
 	gx, gy        []float64    // 2k × 2k Gram matrices of the rise
 	rowsC, rowsS  clippedRows  // the clipped rows (riseSparse)
 	zeroC, zeroS  []bool       // zero windows, n × k and m × k (nil: none)
@@ -95,6 +96,9 @@ func (p *bandProblem) newWork() {
 	}
 	for q := range w.sq {
 		w.sq[q] = make([]float64, k*k)
+	}
+	for q := range w.dg {
+		w.dg[q] = make([]float64, k*k)
 	}
 	for q := range w.vec {
 		w.vec[q] = make([]float64, k)
@@ -1067,17 +1071,35 @@ func (p *bandProblem) riseGradient(f float64) {
 		}
 	}
 	// At a clipped entry (i, j) of A the gradient is (x_i YᵀY)_j, not
-	// (x_i YᵀY)_{k+j}: add the difference times c_i.
+	// (x_i YᵀY)_{k+j}: add the difference times c_i. The differences of
+	// YᵀY's entries are the same for every row (formed once, column j's
+	// contiguous), and so is each row's A₊ = A − A₋ for its clipped
+	// columns: the same roundings, in the same sums, as formed per entry.
+	d1, d2, plus := w.dg[0], w.dg[1], w.vec[3]
+	for j := 0; j < k; j++ {
+		for l := 0; l < k; l++ {
+			d1[j*k+l] = gy[l*k2+j] - gy[l*k2+k+j]
+			d2[j*k+l] = gy[(k+l)*k2+j] - gy[(k+l)*k2+k+j]
+		}
+	}
 	w.rowsC.each(k, func(i int, cols uint64, full, minus []float64) {
 		cr := w.c[i*k : i*k+k]
+		plus := plus[:len(full)]
+		minus = minus[:len(full)]
+		for l, v := range full {
+			plus[l] = v - minus[l]
+		}
 		for ; cols != 0; cols &= cols - 1 {
 			j := bits.TrailingZeros64(cols)
+			a, b := d1[j*k:j*k+k], d2[j*k:j*k+k]
+			a, b = a[:len(plus)], b[:len(plus)]
 			d := 0.0
-			for l := 0; l < k; l++ {
-				d += minus[l]*(gy[l*k2+j]-gy[l*k2+k+j]) + (full[l]-minus[l])*(gy[(k+l)*k2+j]-gy[(k+l)*k2+k+j])
+			for l, m := range minus {
+				d += m*a[l] + plus[l]*b[l]
 			}
-			for r := 0; r < k; r++ {
-				w.gt[r*k+j] += f * cr[r] * d
+			gt := w.gt[j:]
+			for r, c := range cr {
+				gt[r*k] += f * c * d
 			}
 		}
 	})
@@ -1092,15 +1114,27 @@ func (p *bandProblem) riseGradient(f float64) {
 			w.gbB[j*k+c] += f * s
 		}
 	}
+	e1, e2 := w.dg[2], w.dg[3] // columns k+j of XᵀX's blocks, contiguous
+	for j := 0; j < k; j++ {
+		for l := 0; l < k; l++ {
+			e1[j*k+l], e2[j*k+l] = gx[l*k2+k+j], gx[(k+l)*k2+k+j]
+		}
+	}
 	w.rowsS.each(k, func(i int, cols uint64, full, minus []float64) {
+		minus = minus[:len(full)]
 		for ; cols != 0; cols &= cols - 1 {
 			j := bits.TrailingZeros64(cols)
+			a, b := e1[j*k:j*k+k], e2[j*k:j*k+k]
+			a, b = a[:len(full)], b[:len(full)]
 			d := 0.0
-			for l := 0; l < k; l++ {
-				d += full[l]*gx[l*k2+k+j] + minus[l]*gx[(k+l)*k2+k+j]
+			for l, v := range full {
+				d += v*a[l] + minus[l]*b[l]
 			}
-			for c := 0; c < k; c++ {
-				w.gbB[j*k+c] += f * d * full[c]
+			fd := f * d
+			gb := w.gbB[j*k : j*k+k]
+			gb = gb[:len(full)]
+			for c, v := range full {
+				gb[c] += fd * v
 			}
 		}
 	})
