@@ -481,6 +481,9 @@ func (p *bandProblem) rotateNew(t *mat.Dense) (a, b, tinvT *mat.Dense, ok bool) 
 // without the goroutines.
 func rowsTimes(x, v *mat.Dense) *mat.Dense {
 	r, k := x.Dims()
+	if vr, vc := v.Dims(); vr != k || vc != k {
+		panic(mat.ErrShape) // as gonum's product
+	}
 	xm, vm := x.RawMatrix(), v.RawMatrix()
 	out := mat.NewDense(r, k, nil)
 	o := out.RawMatrix().Data
