@@ -490,14 +490,7 @@ func dataMatrices(r *Result) []mapSource {
 	}}}
 	switch {
 	case r.diffMapRows != nil:
-		rows := r.diffMapRows
-		mats = append(mats, mapSource{name: "difference", fill: func(dst []float64, i int, cols []int) []float64 {
-			row := rows[i]
-			for _, j := range cols {
-				dst = append(dst, row[j])
-			}
-			return dst
-		}})
+		mats = append(mats, mapSource{name: "difference", fill: r.diffMapRows.fill})
 	case r.Mode != mcr.Reactions:
 		return nil
 	}

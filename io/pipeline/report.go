@@ -2,6 +2,7 @@ package pipeline
 
 import (
 	"fmt"
+	"slices"
 	"sort"
 
 	"github.com/bandsolve/bandsolve/io/output"
@@ -49,7 +50,7 @@ func mapMatrices(r *Result) []report.MapMatrix {
 	at := func(m *mat.Dense) func(i, j int) float64 { return m.At }
 	mats = append(mats, report.MapMatrix{Name: "data", At: at(r.D)})
 	if r.diffMapRows != nil {
-		mats = append(mats, report.MapMatrix{Name: "difference", At: func(i, j int) float64 { return r.diffMapRows[i][j] }})
+		mats = append(mats, report.MapMatrix{Name: "difference", At: r.diffMapRows.at})
 	} else if diff := differenceMatrix(r); diff != nil {
 		mats = append(mats, report.MapMatrix{Name: "difference", At: at(diff)})
 	}
@@ -103,22 +104,61 @@ func differenceMatrix(r *Result) *mat.Dense {
 	return d
 }
 
-// mapRows copies the rows of d (the stacked difference matrix, n × m) that
-// the report's maps show (report.MapRows), so that d itself need not be
-// kept until the results are written; nil when d is not of the data's
-// shape, as differenceMatrix would give none.
-func mapRows(r *Result, d *mat.Dense) map[int][]float64 {
+// mapRows copies the values of d (the stacked difference matrix, n × m) that
+// the report's maps show, at report.MapRows × report.MapCols, so that d
+// itself need not be kept until the results are written; nil when d is not
+// of the data's shape, as differenceMatrix would give none. Only the points
+// shown: at 2000 × 3001 the 200 rows' 400 points are 0.64 MB where the
+// whole rows were 4.8 MB of memory new to a run.
+func mapRows(r *Result, d *mat.Dense) *mapValues {
 	if d == nil {
 		return nil
 	}
-	if n, m := d.Dims(); n != len(r.Times) || m != len(r.Axis) {
+	n, m := d.Dims()
+	if n != len(r.Times) || m != len(r.Axis) {
 		return nil
 	}
-	rows := map[int][]float64{}
-	for _, i := range report.MapRows(len(r.Times)) {
-		rows[i] = append([]float64(nil), d.RawRowView(i)...)
+	v := &mapValues{rows: map[int][]float64{}, cols: report.MapCols(m), pos: make([]int32, m)}
+	for j := range v.pos {
+		v.pos[j] = -1
 	}
-	return rows
+	for k, j := range v.cols {
+		v.pos[j] = int32(k)
+	}
+	rows := report.MapRows(n)
+	vals := make([]float64, len(rows)*len(v.cols))
+	for _, i := range rows {
+		row, kept := d.RawRowView(i), vals[:len(v.cols):len(v.cols)]
+		vals = vals[len(v.cols):]
+		for k, j := range v.cols {
+			kept[k] = row[j]
+		}
+		v.rows[i] = kept
+	}
+	return v
+}
+
+// mapValues are a matrix's values at the report's map points: for each row
+// report.MapRows keeps, its values at cols (report.MapCols), in that order.
+type mapValues struct {
+	rows map[int][]float64
+	cols []int
+	pos  []int32 // pos[j]: j's place in cols, −1 for a point not kept
+}
+
+// at is the value at row i and point j, both among the kept ones.
+func (v *mapValues) at(i, j int) float64 { return v.rows[i][v.pos[j]] }
+
+// fill appends row i's values at the points cols (all kept ones) to dst.
+func (v *mapValues) fill(dst []float64, i int, cols []int) []float64 {
+	row := v.rows[i]
+	if slices.Equal(cols, v.cols) {
+		return append(dst, row...)
+	}
+	for _, j := range cols {
+		dst = append(dst, row[v.pos[j]])
+	}
+	return dst
 }
 
 func writeReport(r *Result, stage *output.Stage) error {

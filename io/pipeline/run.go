@@ -71,9 +71,10 @@ type Result struct {
 	// rank is counted on that matrix, and the compressed weighted ALS of
 	// large data works from them.
 	ScaledFactors *svd.Factors
-	// diffMapRows are the rows of the difference matrix (species mode) the
-	// report's maps show, kept when the matrix itself is let go (mapRows).
-	diffMapRows map[int][]float64
+	// diffMapRows are the values of the difference matrix (species mode)
+	// the report's maps show, kept when the matrix itself is let go
+	// (mapRows).
+	diffMapRows *mapValues
 	// reportMaps is maps.csv as the report reads it, from writeMaps.
 	reportMaps *report.Maps
 	// early are result files formatted ahead of their writers (finish).
