@@ -3,6 +3,7 @@ package svd
 import (
 	"fmt"
 
+	products "github.com/bandsolve/bandsolve/internal/product"
 	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/mat"
 )
@@ -46,9 +47,9 @@ func ProjectFactors(f *Factors, q, dq *mat.Dense) (*Factors, error) {
 	if !ok {
 		return nil, fmt.Errorf("svd: project factors: SVD of the %d × %d core did not converge", r, m)
 	}
-	var u mat.Dense
-	u.Mul(f.U, mat.NewDense(r, k, pl.Data))
-	out := &Factors{U: &u, S: vals, V: rightVectors(vt, k), Method: f.Method,
+	u := mat.NewDense(n, k, nil)
+	products.MulTo(u, f.U, mat.NewDense(r, k, pl.Data)) // mat.Dense.Mul's bits
+	out := &Factors{U: u, S: vals, V: rightVectors(vt, k), Method: f.Method,
 		FrobeniusSq: max(f.FrobeniusSq-frobeniusSq(dq), 0)}
 	fixSigns(out)
 	return out, nil
