@@ -654,10 +654,11 @@ func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 	p := newPlot("", ylabel)
 	ax.apply(p)
 	var legend, shades []LegendItem
+	ix := f.longIndex()
 	for k, j := range comps {
 		name := t.Header[j]
 		c := componentColour(k)
-		shades = append(shades, f.envelopes(name, "spectrum", c, func(x, lo, hi []float64, c color.RGBA) { spectralBand(p, x, lo, hi, c) })...)
+		shades = append(shades, f.envelopes(ix, name, "spectrum", c, func(x, lo, hi []float64, c color.RGBA) { spectralBand(p, x, lo, hi, c) })...)
 		if lo, hi := bounds(t, name, ""); lo >= 0 {
 			spectralBand(p, x, t.Col(lo), t.Col(hi), tint(c, 0.6))
 			shades = append(shades, LegendItem{Label: name + " bounds", Colour: tint(c, 0.6), Fill: true})
@@ -696,6 +697,47 @@ func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 // ranges these are the solutions at the smallest and largest share;
 // the band between them is drawn.
 func longEnvelope(t *Table, comp, side, loName, hiName string) (x, lo, hi []float64) {
+	return envelopeOf(t, longRows(t)[[2]string{comp, side}], loName, hiName)
+}
+
+// longRows indexes the rows of a long table by component and side, in
+// their order (rows too short to hold both cells are left out): one pass
+// for all of a figure's components, each of which took two passes over
+// the whole table.
+func longRows(t *Table) map[[2]string][]int {
+	if t == nil {
+		return nil
+	}
+	cj, sj := t.Index("component"), t.Index("side")
+	if cj < 0 || sj < 0 {
+		return nil
+	}
+	// The rows of a component and side mostly come in one run: the map is
+	// looked up when the key changes.
+	rows := map[[2]string][]int{}
+	var cur [2]string
+	var list []int
+	for i, r := range t.Text {
+		if len(r) <= max(cj, sj) {
+			continue
+		}
+		if k := [2]string{r[cj], r[sj]}; list == nil || k != cur {
+			if list != nil {
+				rows[cur] = list
+			}
+			cur, list = k, rows[k]
+		}
+		list = append(list, i)
+	}
+	if list != nil {
+		rows[cur] = list
+	}
+	return rows
+}
+
+// envelopeOf is longEnvelope of the table's rows rows (one component and
+// side, from longRows).
+func envelopeOf(t *Table, rows []int, loName, hiName string) (x, lo, hi []float64) {
 	if t == nil {
 		return nil, nil, nil
 	}
@@ -704,22 +746,14 @@ func longEnvelope(t *Table, comp, side, loName, hiName string) (x, lo, hi []floa
 	if cj < 0 || sj < 0 || pj < 0 || lj < 0 || hj < 0 {
 		return nil, nil, nil
 	}
-	// Only the rows of this component and side are parsed: the table holds
-	// every component's (parsing whole columns once per component and side
-	// was a tenth of the report's time).
 	// The experiment of the first row taken; first is set once it is
 	// (an empty experiment cell is an experiment too).
 	first, seen := "", false
 	need := max(cj, sj, pj, lj, hj)
-	n := 0 // the rows of the component and side: the most taken
-	for _, r := range t.Text {
-		if len(r) > need && r[cj] == comp && r[sj] == side {
-			n++
-		}
-	}
-	x, lo, hi = make([]float64, 0, n), make([]float64, 0, n), make([]float64, 0, n)
-	for _, r := range t.Text {
-		if len(r) <= need || r[cj] != comp || r[sj] != side {
+	x, lo, hi = make([]float64, 0, len(rows)), make([]float64, 0, len(rows)), make([]float64, 0, len(rows))
+	for _, i := range rows {
+		r := t.Text[i]
+		if len(r) <= need {
 			continue
 		}
 		if ej >= 0 && ej < len(r) {
@@ -766,10 +800,11 @@ func profilesFigure(f *Folder) (*Figure, error) {
 	var legend, shades []LegendItem
 	xlo, xhi := span(tm)
 	hline(p, xlo, xhi, 0, grey, nil)
+	ix := f.longIndex()
 	for k, j := range comps {
 		c := componentColour(k)
 		name := t.Header[j]
-		shades = append(shades, f.envelopes(name, "profile", c, func(x, lo, hi []float64, c color.RGBA) { band(p, x, lo, hi, c) })...)
+		shades = append(shades, f.envelopes(ix, name, "profile", c, func(x, lo, hi []float64, c color.RGBA) { band(p, x, lo, hi, c) })...)
 		col := t.Col(j)
 		if len(fit) > 0 {
 			var pts plotter.XYs
@@ -863,17 +898,26 @@ func drawCurves(p *plot.Plot, fit []curve) []LegendItem {
 	return legend
 }
 
+// longIndex is the rows of uniqueness.csv and intervals.csv by component
+// and side (longRows).
+type longIndex struct{ bands, intervals map[[2]string][]int }
+
+func (f *Folder) longIndex() longIndex {
+	return longIndex{bands: longRows(f.Bands), intervals: longRows(f.Intervals)}
+}
+
 // envelopes draws with fill the uniqueness range and the resampling interval
 // of component name on side ("spectrum" or "profile"), where the folder holds
 // them, in tints of c, and returns their legend items.
-func (f *Folder) envelopes(name, side string, c color.RGBA, fill func(x, lo, hi []float64, c color.RGBA)) []LegendItem {
+func (f *Folder) envelopes(ix longIndex, name, side string, c color.RGBA, fill func(x, lo, hi []float64, c color.RGBA)) []LegendItem {
 	var shades []LegendItem
-	if bx, lo, hi := longEnvelope(f.Bands, name, side, "at_min", "at_max"); bx != nil {
+	key := [2]string{name, side}
+	if bx, lo, hi := envelopeOf(f.Bands, ix.bands[key], "at_min", "at_max"); bx != nil {
 		fill(bx, lo, hi, tint(c, 0.72))
 		shades = append(shades, LegendItem{Label: name + " uniqueness range", Colour: tint(c, 0.72), Fill: true})
 	}
-	if ix, lo, hi := longEnvelope(f.Intervals, name, side, "low", "high"); ix != nil {
-		fill(ix, lo, hi, tint(c, 0.5))
+	if x, lo, hi := envelopeOf(f.Intervals, ix.intervals[key], "low", "high"); x != nil {
+		fill(x, lo, hi, tint(c, 0.5))
 		shades = append(shades, LegendItem{Label: name + " interval", Colour: tint(c, 0.5), Fill: true})
 	}
 	return shades

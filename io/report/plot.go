@@ -217,6 +217,22 @@ type edgeLine struct {
 	boxes *glyphBoxCache
 }
 
+// DataRange is plotter.Line's (plotter.XYRange of the points) in one loop
+// over the points instead of four interface calls per point.
+func (l edgeLine) DataRange() (xmin, xmax, ymin, ymax float64) { return xyRange(l.XYs) }
+
+// xyRange is plotter.XYRange of xys: the least and greatest x and y from
+// ±Inf by math.Min and math.Max, as it takes them (the built-in min and
+// max give another NaN's bits).
+func xyRange(xys plotter.XYs) (xmin, xmax, ymin, ymax float64) {
+	xmin, xmax, ymin, ymax = math.Inf(1), math.Inf(-1), math.Inf(1), math.Inf(-1)
+	for _, p := range xys {
+		xmin, xmax = math.Min(xmin, p.X), math.Max(xmax, p.X)
+		ymin, ymax = math.Min(ymin, p.Y), math.Max(ymax, p.Y)
+	}
+	return xmin, xmax, ymin, ymax
+}
+
 // glyphBoxCache is an edgeLine's glyph boxes for one plot and axis ranges.
 type glyphBoxCache struct {
 	plt   *plot.Plot
@@ -406,6 +422,17 @@ func thinAppend(out, ps []vg.Point) []vg.Point {
 // thinPolygon is a shaded area whose outline is thinned like a line
 // before it is filled; it has no outline stroke.
 type thinPolygon struct{ *plotter.Polygon }
+
+// DataRange is plotter.Polygon's, each ring's range by xyRange.
+func (pg thinPolygon) DataRange() (xmin, xmax, ymin, ymax float64) {
+	xmin, xmax, ymin, ymax = math.Inf(1), math.Inf(-1), math.Inf(1), math.Inf(-1)
+	for _, ring := range pg.XYs {
+		x0, x1, y0, y1 := xyRange(ring)
+		xmin, xmax = math.Min(xmin, x0), math.Max(xmax, x1)
+		ymin, ymax = math.Min(ymin, y0), math.Max(ymax, y1)
+	}
+	return xmin, xmax, ymin, ymax
+}
 
 // Like a line, a ring wholly inside the canvas is not clipped, which would
 // give it back as it is (draw.Canvas.ClipPolygonXY) after four copies.

@@ -2,6 +2,7 @@ package report
 
 import (
 	"bytes"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -110,5 +111,63 @@ func TestLoadParsedTakesOnlyTheSameBytes(t *testing.T) {
 	}
 	if got.Profiles == stale {
 		t.Error("a table parsed from other bytes than profiles.csv's was taken")
+	}
+}
+
+// envelopeOf on the rows longRows indexes gives, for every component and
+// side, what a plain scan of the whole table gives (the definition: the
+// rows of that component and side in order, first experiment only),
+// on random long tables with several components, sides and experiments,
+// empty experiment cells and rows cut short.
+func TestLongRowsAsAScan(t *testing.T) {
+	rng := rand.New(rand.NewPCG(31, 32))
+	scan := func(tab *Table, comp, side string) (x, lo, hi []float64) {
+		cj, sj, ej, pj := tab.Index("component"), tab.Index("side"), tab.Index("experiment"), tab.Index("position")
+		lj, hj := tab.Index("at_min"), tab.Index("at_max")
+		first, seen := "", false
+		for _, r := range tab.Text {
+			if len(r) <= max(cj, sj, ej, pj, lj, hj) || r[cj] != comp || r[sj] != side {
+				continue
+			}
+			if !seen {
+				first, seen = r[ej], true
+			}
+			if r[ej] != first {
+				continue
+			}
+			l, h := cell(r, lj), cell(r, hj)
+			x, lo, hi = append(x, cell(r, pj)), append(lo, math.Min(l, h)), append(hi, math.Max(l, h))
+		}
+		if len(x) < 2 {
+			return nil, nil, nil
+		}
+		return x, lo, hi
+	}
+	for trial := range 50 {
+		text := "component,side,experiment,position,start,at_min,at_max\n"
+		for range rng.IntN(400) {
+			row := fmt.Sprintf("%c,%s,%s,%d,0,%d,%d", 'a'+rng.IntN(3), []string{"spectrum", "profile"}[rng.IntN(2)],
+				[]string{"", "1", "2"}[rng.IntN(3)], rng.IntN(100), rng.IntN(50), rng.IntN(50))
+			if rng.IntN(20) == 0 {
+				row = row[:rng.IntN(len(row))]
+			}
+			text += row + "\n"
+		}
+		tab, err := ParseTable("uniqueness.csv", []byte(text))
+		if err != nil {
+			continue // a row cut so short the table does not parse
+		}
+		for _, comp := range []string{"a", "b", "c", "d"} {
+			for _, side := range []string{"spectrum", "profile"} {
+				x, lo, hi := longEnvelope(tab, comp, side, "at_min", "at_max")
+				wx, wlo, whi := scan(tab, comp, side)
+				same := func(a, b []float64) bool {
+					return slices.EqualFunc(a, b, func(u, v float64) bool { return math.Float64bits(u) == math.Float64bits(v) })
+				}
+				if !same(x, wx) || !same(lo, wlo) || !same(hi, whi) {
+					t.Fatalf("trial %d, %s %s: got %v %v %v, the scan %v %v %v", trial, comp, side, x, lo, hi, wx, wlo, whi)
+				}
+			}
+		}
 	}
 }

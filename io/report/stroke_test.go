@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"image"
 	"image/color"
+	"math"
 	"math/rand/v2"
 	"testing"
 
@@ -201,5 +202,43 @@ func samePixels(t *testing.T, got, want *image.RGBA, ref string) {
 	}
 	if bytes.Equal(want.Pix, bytes.Repeat([]byte{255}, len(want.Pix))) {
 		t.Errorf("nothing drawn: the comparison would show nothing")
+	}
+}
+
+// The data ranges of edgeLine and thinPolygon are plotter.Line's and
+// plotter.Polygon's own (gonum/plot, the reference) to the bit, on random
+// points with signed zeros, infinities and NaN among them.
+func TestDataRangeAsPlotter(t *testing.T) {
+	rng := rand.New(rand.NewPCG(41, 42))
+	special := []float64{0, math.Copysign(0, -1), math.Inf(1), math.Inf(-1), math.NaN()}
+	val := func() float64 {
+		if rng.IntN(10) == 0 {
+			return special[rng.IntN(len(special))]
+		}
+		return rng.NormFloat64()
+	}
+	bitsOf := func(v ...float64) (b [4]uint64) {
+		for i := range v {
+			b[i] = math.Float64bits(v[i])
+		}
+		return b
+	}
+	for trial := range 2000 {
+		var rings []plotter.XYs
+		for range 1 + rng.IntN(3) {
+			ring := make(plotter.XYs, rng.IntN(6))
+			for i := range ring {
+				ring[i] = plotter.XY{X: val(), Y: val()}
+			}
+			rings = append(rings, ring)
+		}
+		l := &plotter.Line{XYs: rings[0]}
+		if got, want := bitsOf(edgeLine{Line: l}.DataRange()), bitsOf(l.DataRange()); got != want {
+			t.Fatalf("trial %d, line %v: %x, plotter %x", trial, rings[0], got, want)
+		}
+		pg := &plotter.Polygon{XYs: rings}
+		if got, want := bitsOf(thinPolygon{pg}.DataRange()), bitsOf(pg.DataRange()); got != want {
+			t.Fatalf("trial %d, polygon %v: %x, plotter %x", trial, rings, got, want)
+		}
 	}
 }
