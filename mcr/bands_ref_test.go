@@ -560,8 +560,18 @@ func TestCollectWholeSameAsMargins(t *testing.T) {
 			for q, v := range [][]float64{w.t, w.tinvT} {
 				sd := sides[q]
 				var lists [3][]clipped
+				wt := []float64{1, 0.5, 3, 1e-3}
 				for r, ms := range sd.ways {
-					lists[r] = ms.collect(v, nil)
+					ms.collect(v)
+					pen := ms.penalty(wt)
+					lists[r] = append([]clipped(nil), ms.entries()...)
+					sum := 0.0
+					for _, e := range lists[r] {
+						sum += wt[e.j] * e.val * e.val
+					}
+					if math.Float64bits(pen) != math.Float64bits(sum) {
+						t.Fatalf("%+v step %d side %d way %d: penalty %v, over the list %v", o.Mode, step, q, r, pen, sum)
+					}
 				}
 				ways[sd.ways[2].dense]++
 				var want mat.Dense

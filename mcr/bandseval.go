@@ -443,6 +443,8 @@ type marginSide struct {
 	based bool
 	id    *marginSide // the reference at V = I (bandBase), or nil
 	list  []clipped
+	// listed says whether list holds the last collect's entries.
+	listed bool
 	// rows lists, column after column, the rows of each column's
 	// entries by group: group 0 holds the ratios ≤ 0 (formed always),
 	// group g ≥ 1 those in [2^(e_j+g−2), 2^(e_j+g−1)) with e_j set per
@@ -641,15 +643,18 @@ type clipped struct {
 	val  float64
 }
 
-// collect returns the entries of X·V that break non-negativity or lie in a
-// zero window, in row-major order, reusing out's storage.
+// collect finds the entries of X·V that break non-negativity or lie in a
+// zero window; penalty sums over them and entries lists them, in
+// row-major order. The list is made only when asked for: the line search
+// needs the penalty at every trial point and the entries (for the
+// gradient) only at the one it accepts.
 //
 // When the margin test would form more than denseForm of the entries, X·V
 // is formed whole instead (formDense, in the vector lanes where there
 // are any) and its clipped entries read off: the same entries, each the
 // same sum in the same order, in the same order, at a fraction of the cost
 // per entry (the test gathers rows one by one).
-func (ms *marginSide) collect(v []float64, out []clipped) []clipped {
+func (ms *marginSide) collect(v []float64) {
 	k := ms.k
 	ms.transposeV(v)
 	if !ms.based {
@@ -667,37 +672,74 @@ func (ms *marginSide) collect(v []float64, out []clipped) []clipped {
 		}
 		ms.delta[j] = math.Sqrt(d)
 	}
-	out = out[:0]
+	ms.listed = false
 	if whole, formed := ms.whole(); whole {
 		ms.formDense()
+		if formed > ms.atRef+len(ms.ratio)/4 {
+			ms.rebase(v)
+		}
+		return
+	}
+	ms.dense = false
+	clear(ms.hit)
+	formed := 0
+	for j := 0; j < k; j++ {
+		formed += ms.formColumn(j)
+	}
+	if formed > ms.atRef+len(ms.ratio)/4 {
+		ms.rebase(v)
+	}
+}
+
+// entries lists the entries the last collect found (ms.list), in
+// row-major order: read off the clipped words of X·V formed whole, or the
+// bitmap of the margin test.
+func (ms *marginSide) entries() []clipped {
+	if ms.listed {
+		return ms.list
+	}
+	k, out := ms.k, ms.list[:0]
+	if ms.dense {
 		for i, c := range ms.clip {
 			for ; c != 0; c &= c - 1 {
 				j := bits.TrailingZeros64(c)
 				out = append(out, clipped{i, j, ms.full[i*k+j]})
 			}
 		}
-		if formed > ms.atRef+len(ms.ratio)/4 {
-			ms.rebase(v)
+	} else {
+		for w, word := range ms.hit {
+			for ; word != 0; word &= word - 1 {
+				e := w*64 + bits.TrailingZeros64(word)
+				out = append(out, clipped{e / k, e % k, ms.val[e]})
+			}
 		}
-		return out
 	}
-	ms.dense = false
-	formed := 0
-	for j := 0; j < k; j++ {
-		formed += ms.formColumn(j)
+	ms.list, ms.listed = out, true
+	return out
+}
+
+// penalty is Σ wt_j·val² over the entries the last collect found, summed
+// in entries' order (the same sum as over the list) without listing them.
+func (ms *marginSide) penalty(wt []float64) float64 {
+	k, pen := ms.k, 0.0
+	if ms.dense {
+		for i, c := range ms.clip {
+			for ; c != 0; c &= c - 1 {
+				j := bits.TrailingZeros64(c)
+				val := ms.full[i*k+j]
+				pen += wt[j] * val * val
+			}
+		}
+		return pen
 	}
 	for w, word := range ms.hit {
-		for word != 0 {
+		for ; word != 0; word &= word - 1 {
 			e := w*64 + bits.TrailingZeros64(word)
-			word &= word - 1
-			out = append(out, clipped{e / k, e % k, ms.val[e]})
+			val := ms.val[e]
+			pen += wt[e%k] * val * val
 		}
-		ms.hit[w] = 0
 	}
-	if formed > ms.atRef+len(ms.ratio)/4 {
-		ms.rebase(v)
-	}
-	return out
+	return pen
 }
 
 // denseForm is the share of X·V's entries above which collect forms the
@@ -890,12 +932,8 @@ func (ms *marginSide) entry(i, j int) float64 {
 // non-negativity or a zero window, and keeps them (ms.list) for
 // violationGradient.
 func (ms *marginSide) violations(v []float64, k int, wt []float64) float64 {
-	ms.list = ms.collect(v, ms.list)
-	pen := 0.0
-	for _, e := range ms.list {
-		pen += wt[e.j] * e.val * e.val
-	}
-	return pen
+	ms.collect(v)
+	return ms.penalty(wt)
 }
 
 // violationGradient accumulates μ times the gradient's product of the
@@ -909,7 +947,7 @@ func (ms *marginSide) violationGradient(k int, wt []float64, mu float64, out []f
 	if full != nil {
 		clear(gx)
 	}
-	for _, e := range ms.list {
+	for _, e := range ms.entries() {
 		gv := mu * 2 * wt[e.j] * e.val
 		xr := ms.x[e.i*k : e.i*k+k]
 		if full == nil {
@@ -1191,14 +1229,14 @@ func (cr *clippedRows) form(ms *marginSide, v []float64) {
 // when collect formed X·V whole, from that).
 func (cr *clippedRows) formList(ms *marginSide, v []float64) {
 	k := ms.k
-	ms.list = ms.collect(v, ms.list)
+	ms.collect(v)
 	if ms.dense {
 		cr.fromDense(ms)
 		return
 	}
 	cr.dense = false
 	cr.full, cr.minus = cr.listFull, cr.listMinus
-	list := ms.list
+	list := ms.entries()
 	cr.idx, cr.cols = cr.idx[:0], cr.cols[:0]
 	at := 0
 	for q := 0; q < len(list); {
