@@ -5,7 +5,6 @@ import (
 	"math"
 	"math/bits"
 	"runtime"
-	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -361,8 +360,10 @@ const (
 // noise is much the same): one pass, without a branch on the data, counts
 // the values below the window and gathers those in it, and when the ranks
 // middlePair returns fall among those (rank h, and h − 1 for an even
-// count), selection among the few gives them. Else, or when c holds a
-// value radixOrder refuses (a negative value, −0, NaN), it is middlePair.
+// count), a count of their bits among the few gives them (windowOrder;
+// selection, 2.4 times as long on such windows, before). Else, or when c
+// holds a value radixOrder refuses (a negative value, −0, NaN), it is
+// middlePair.
 // The order statistics are the same values whichever way they are found;
 // on the noise model's samples of 1998 the first look took 3.9 µs where
 // middlePair took 8.6 (load 7), its pass 2.6–4.7 µs of it in Go and
@@ -372,7 +373,8 @@ func middlePairNear(c []float64, guess float64) (lo, hi float64) {
 		return middlePair(c)
 	}
 	var pick [nearPicks + vecmath.GatherSpare]float64
-	below, in, ok := vecmath.Gather(c, guess*(1-nearWindow), guess*(1+nearWindow), pick[:])
+	wlo, whi := guess*(1-nearWindow), guess*(1+nearWindow)
+	below, in, ok := vecmath.Gather(c, wlo, whi, pick[:])
 	h := len(c) / 2
 	lowest := h // the lowest rank wanted
 	if len(c)%2 == 0 {
@@ -381,16 +383,10 @@ func middlePairNear(c []float64, guess float64) (lo, hi float64) {
 	if !ok || below > lowest || below+in <= h {
 		return middlePair(c)
 	}
-	p := pick[:in]
-	r := h - below
-	hi = selectKth(p, r)
-	if len(c)%2 == 1 {
-		return hi, hi
-	}
-	// selectKth left nothing larger than p[r] before it; no NaN or −0 is
-	// among them (Gather refuses them), where slices.Max and math.Max
-	// could differ.
-	return slices.Max(p[:r]), hi
+	// The ranks wanted among the window's values (no NaN or −0 among
+	// them: Gather refuses them), found by their bits.
+	hi, lo = windowOrder(pick[:in], math.Float64bits(wlo), math.Float64bits(whi), h-below, len(c)%2 == 0)
+	return lo, hi
 }
 
 // middlePair returns the order statistics of c (reordered) that its median

@@ -143,3 +143,51 @@ func bucketOf(cnt []int32, k int) (b uint64, under int) {
 	}
 	panic("radixOrder: rank beyond the sample")
 }
+
+// windowOrder is radixOrder for a few values known to lie in a narrow window
+// of bit patterns [lob, hib] (values ≥ +0, as vecmath.Gather gathers them):
+// one count of the eight bits under the window's common leading ones, the
+// k-th value found in its counter's few values, and the (k−1)-th, when
+// below is set, in the same counter or as the largest of the last one
+// before it that is not empty. c is reordered. Exact order statistics, the
+// values selectKth would give.
+func windowOrder(c []float64, lob, hib uint64, k int, below bool) (kth, prev float64) {
+	shift := uint(max(0, bits.Len64(hib-lob)-8))
+	var cnt [256]uint16
+	key := func(x float64) uint8 { return uint8((math.Float64bits(x) - lob) >> shift) }
+	for _, x := range c {
+		cnt[key(x)]++
+	}
+	b, before := 0, 0 // the counter of the k-th, and the values in the ones before it
+	for before+int(cnt[b]) <= k {
+		before += int(cnt[b])
+		b++
+	}
+	// The counter's values to the front of c, in order.
+	in := 0
+	for i, x := range c {
+		if int(key(x)) == b {
+			c[in], c[i] = c[i], c[in]
+			in++
+		}
+	}
+	slices.Sort(c[:in])
+	kth = c[k-before]
+	if !below {
+		return kth, kth
+	}
+	if k > before {
+		return kth, c[k-before-1]
+	}
+	pb := b - 1
+	for cnt[pb] == 0 {
+		pb--
+	}
+	prev = math.Inf(-1)
+	for _, x := range c[in:] {
+		if int(key(x)) == pb {
+			prev = max(prev, x)
+		}
+	}
+	return kth, prev
+}

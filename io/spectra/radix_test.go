@@ -130,3 +130,47 @@ func TestMiddlePairNearMatchesSort(t *testing.T) {
 		}
 	}
 }
+
+// windowOrder gives the order statistics a sort gives (the definition, common
+// practice) at every rank of samples drawn inside windows of bit patterns:
+// narrow and wide, across a power of two (1 inside the window), narrower than
+// 256 patterns (every counter one pattern), with ties and values on both
+// edges.
+func TestWindowOrderMatchesSort(t *testing.T) {
+	rng := rand.New(rand.NewPCG(21, 22))
+	windows := [][2]float64{{0.62, 0.73}, {0.95, 1.05}, {1e-3, 1e3}, {1, math.Nextafter(1, 2) + 3e-14}, {0, 2}}
+	for _, w := range windows {
+		lob, hib := math.Float64bits(w[0]), math.Float64bits(w[1])
+		for _, n := range []int{1, 2, 3, 17, 140, 256} {
+			for trial := 0; trial < 20; trial++ {
+				v := make([]float64, n)
+				for i := range v {
+					switch rng.IntN(6) {
+					case 0:
+						v[i] = w[0]
+					case 1:
+						v[i] = w[1]
+					default:
+						v[i] = math.Float64frombits(lob + rng.Uint64N(hib-lob+1))
+					}
+				}
+				s := slices.Sorted(slices.Values(v))
+				for k := range n {
+					for _, below := range []bool{false, true} {
+						if below && k == 0 {
+							continue
+						}
+						kth, prev := windowOrder(slices.Clone(v), lob, hib, k, below)
+						want := s[k]
+						if below {
+							want = s[k-1]
+						}
+						if math.Float64bits(kth) != math.Float64bits(s[k]) || math.Float64bits(prev) != math.Float64bits(want) {
+							t.Fatalf("window %v n=%d k=%d below %v: (%v, %v), sorted (%v, %v)", w, n, k, below, kth, prev, s[k], want)
+						}
+					}
+				}
+			}
+		}
+	}
+}
