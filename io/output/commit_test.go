@@ -243,3 +243,36 @@ func TestTidyRemovesOnlyDeadStages(t *testing.T) {
 		t.Error("tidy removed a folder bandsolve did not make")
 	}
 }
+
+// removeTree leaves nothing of the tree it removes, as os.RemoveAll
+// (package os: "removes path and any children it contains"), and, like
+// it, removes a link without following it: the link's target, outside the
+// tree, is still there.
+func TestRemoveTreeIsRemoveAll(t *testing.T) {
+	root := t.TempDir()
+	tree, outside := filepath.Join(root, "tree"), filepath.Join(root, "kept.csv")
+	for _, d := range []string{"figures", filepath.Join("a", "b", "c")} {
+		if err := os.MkdirAll(filepath.Join(tree, d), 0o755); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for _, f := range []string{"x.csv", "y.csv", filepath.Join("figures", "f.png"), filepath.Join("a", "b", "c", "z.txt"), outside} {
+		p := f
+		if f != outside {
+			p = filepath.Join(tree, f)
+		}
+		if err := os.WriteFile(p, []byte(f), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := os.Symlink(outside, filepath.Join(tree, "figures", "link")); err != nil {
+		t.Fatal(err)
+	}
+	removeTree(tree)
+	if _, err := os.Lstat(tree); !os.IsNotExist(err) {
+		t.Errorf("the tree is still there (%v)", err)
+	}
+	if b, err := os.ReadFile(outside); err != nil || string(b) != outside {
+		t.Errorf("the link's target holds %q (%v)", b, err)
+	}
+}
