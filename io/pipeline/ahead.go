@@ -132,7 +132,7 @@ func (a *ahead) predrawn() *report.Predrawn {
 // ahead, each is taken only where the folder gives it the same view. Not
 // done with intervals.csv (formatted at its writer's turn).
 func (a *ahead) aheadResults(r *Result, st *output.Stage) {
-	if a == nil || a.drawing != nil || r.ALS == nil || (r.Constraints != nil && r.Constraints.Intervals != nil) {
+	if !a.drawsResults(r) {
 		return
 	}
 	a.waitTasks() // pre is free: nothing else draws into it
@@ -152,8 +152,10 @@ func (a *ahead) aheadResults(r *Result, st *output.Stage) {
 			// both figures shade, is still being formatted.
 			if p = partFolder(files); p.folder != nil {
 				p.folder.AsRun = tu
-				if b, ok := bands.get(); ok {
-					p.folder.Bands = p.table("uniqueness.csv", b)
+				if b, ok := bands.get(); ok && b.table != nil {
+					p.folder.Bands = p.add("uniqueness.csv", b.csv, b.table)
+				} else if ok {
+					p.folder.Bands = p.table("uniqueness.csv", b.csv)
 				}
 			}
 		})
@@ -176,6 +178,12 @@ func (a *ahead) aheadResults(r *Result, st *output.Stage) {
 	}
 	a.drawing = []*later[bool]{draw(&a.pre, "fig-spectra"), draw(&a.second, "fig-profiles"),
 		startLater(func() bool { return runTask(func() { prewrite(st, early) }) })}
+}
+
+// drawsResults says aheadResults draws r's spectra and profiles figures
+// (when summary.json is written).
+func (a *ahead) drawsResults(r *Result) bool {
+	return a != nil && a.drawing == nil && r.ALS != nil && (r.Constraints == nil || r.Constraints.Intervals == nil)
 }
 
 // prewrite writes files into the stage ahead of their turn, in name order.
@@ -225,6 +233,11 @@ func (p partTables) table(name string, b []byte) *report.Table {
 	if err != nil {
 		return nil
 	}
+	return p.add(name, b, t)
+}
+
+// add keeps t, the table of the file name holding b.
+func (p partTables) add(name string, b []byte, t *report.Table) *report.Table {
 	p.parsed[name] = report.Parsed{Bytes: b, Table: t}
 	return t
 }

@@ -732,7 +732,8 @@ func writeBandsAndIntervals(r *Result, st *output.Stage) error {
 		return nil
 	}
 	if wantBands(r) {
-		csv, ok := r.early.bands.get()
+		f, ok := r.early.bands.get()
+		csv := f.csv
 		if !ok {
 			csv = bandsCSV(r)
 		}
@@ -770,18 +771,40 @@ func wantBands(r *Result) bool {
 // bandsCSV makes uniqueness.csv; it only reads r (see earlyFiles).
 func bandsCSV(r *Result) []byte {
 	sr := newSideRows(r)
+	return sr.bandsPart(r, 0, 2*len(r.Constraints.Bands.Bands), sr.size()).Bytes()
+}
+
+// bandsHeader is uniqueness.csv's header.
+var bandsHeader = []string{"component", "side", "experiment", "position", "solution", "at_min", "at_max", "min_converged", "max_converged"}
+
+// bandsPart is uniqueness.csv's header and its row blocks [from, to), in
+// a buffer of size bytes: block 2j is component j's spectrum, 2j+1 its
+// profile.
+func (sr sideRows) bandsPart(r *Result, from, to, size int) *output.CSV {
 	var w output.CSV
-	w.Grow(sr.size())
-	w.Row([]string{"component", "side", "experiment", "position", "solution", "at_min", "at_max", "min_converged", "max_converged"})
+	w.Grow(size)
+	w.Row(bandsHeader)
 	s, c := r.ALS.S, r.ALS.C
-	for j, band := range r.Constraints.Bands.Bands {
+	for q := from; q < to; q++ {
+		j, band := q/2, r.Constraints.Bands.Bands[q/2]
 		conv := []string{strconv.FormatBool(band.MinConverged), strconv.FormatBool(band.MaxConverged)}
-		sr.writeText(&w, j, "spectrum", conv, func(i int) float64 { return s.At(i, j) },
-			func(i int) float64 { return band.MinSpectrum[i] }, func(i int) float64 { return band.MaxSpectrum[i] })
-		sr.writeText(&w, j, "profile", conv, func(i int) float64 { return c.At(i, j) },
-			func(i int) float64 { return band.MinProfile[i] }, func(i int) float64 { return band.MaxProfile[i] })
+		if q%2 == 0 {
+			sr.writeText(&w, j, "spectrum", conv, func(i int) float64 { return s.At(i, j) },
+				func(i int) float64 { return band.MinSpectrum[i] }, func(i int) float64 { return band.MaxSpectrum[i] })
+		} else {
+			sr.writeText(&w, j, "profile", conv, func(i int) float64 { return c.At(i, j) },
+				func(i int) float64 { return band.MinProfile[i] }, func(i int) float64 { return band.MaxProfile[i] })
+		}
 	}
-	return w.Bytes()
+	return &w
+}
+
+// blockRows is the number of rows of uniqueness.csv's row block q.
+func (sr sideRows) blockRows(q int) int {
+	if q%2 == 0 {
+		return len(sr.axis)
+	}
+	return len(sr.times)
 }
 
 // sideRows writes the rows of uniqueness.csv and intervals.csv: per
@@ -807,7 +830,10 @@ func newSideRows(r *Result) sideRows {
 }
 
 // size is about the bytes of a file of these rows.
-func (sr sideRows) size() int { return (len(sr.axis) + len(sr.times)) * len(sr.names) * 80 }
+func (sr sideRows) size() int { return sizeOfRows((len(sr.axis) + len(sr.times)) * len(sr.names)) }
+
+// sizeOfRows is about the bytes of n rows.
+func sizeOfRows(n int) int { return n * 80 }
 
 // write writes component j's rows of one side, the cells after the
 // position given by cols.

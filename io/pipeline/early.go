@@ -1,6 +1,8 @@
 package pipeline
 
 import (
+	"bytes"
+
 	"github.com/bandsolve/bandsolve/internal/fanout"
 	"github.com/bandsolve/bandsolve/io/report"
 )
@@ -42,7 +44,7 @@ func (l *later[T]) get() (v T, ok bool) {
 // its files in the same order: verify reports differences in that order.
 type earlyFiles struct {
 	maps  *later[mapsFile]
-	bands *later[[]byte]
+	bands *later[bandsFile]
 }
 
 // mapsFile is maps.csv and the report's Maps read from it.
@@ -64,7 +66,8 @@ func startEarlyFiles(r *Result) earlyFiles {
 		})
 	}
 	if wantBands(r) {
-		e.bands = startLater(func() []byte { return bandsCSV(r) })
+		parse := r.ahead.drawsResults(r)
+		e.bands = startLater(func() bandsFile { return formatBands(r, parse) })
 	}
 	return e
 }
@@ -73,4 +76,77 @@ func startEarlyFiles(r *Result) earlyFiles {
 func (e earlyFiles) wait() {
 	e.maps.get()
 	e.bands.get()
+}
+
+// bandsFile is uniqueness.csv and, when asked for, its table as
+// report.ParseTable reads it (nil when not asked for, or when the halves
+// could not be read apart: see formatBands).
+type bandsFile struct {
+	csv   []byte
+	table *report.Table
+}
+
+// formatBands makes uniqueness.csv in two halves of its row blocks, the
+// second on a goroutine of its own, and with parse each half's table
+// beside it: the spectra and profiles figures drawn beside the writers
+// wait for that table (aheadResults), and the writing phase's core left
+// idle while the run's goroutine waits for the file takes half of the
+// work. The file is the first half followed by the second's rows.
+//
+// The table is the whole file's: report.ParseTable splits text without
+// quotes or carriage returns line by line, so the rows of the header and
+// first half followed by the rows of the second half are the rows of the
+// whole. A half that holds either (a name with a comma, say) is read by
+// encoding/csv, whose records may span lines: then no table is made here
+// and the reader parses the whole file.
+func formatBands(r *Result, parse bool) bandsFile {
+	sr := newSideRows(r)
+	blocks := 2 * len(r.Constraints.Bands.Bands)
+	h, rows := sr.halfOfBlocks(blocks)
+	second := startLater(func() bandsFile {
+		return sr.bandsHalf(r, h, blocks, sizeOfRows(rows), parse)
+	})
+	// No goroutine outlives the run, not even when the first half panics.
+	defer func() { <-second.done }()
+	first := sr.bandsHalf(r, 0, h, sr.size(), parse)
+	rest, _ := second.get()
+	header := bytes.IndexByte(rest.csv, '\n') + 1
+	out := bandsFile{csv: append(first.csv, rest.csv[header:]...)}
+	if first.table != nil && rest.table != nil {
+		t := *first.table
+		t.Text = append(make([][]string, 0, len(t.Text)+len(rest.table.Text)), t.Text...)
+		t.Text = append(t.Text, rest.table.Text...)
+		out.table = &t
+	}
+	return out
+}
+
+// halfOfBlocks is the row block where uniqueness.csv's rows are split in
+// two halves as near equal as the blocks allow, and the rows after it.
+func (sr sideRows) halfOfBlocks(blocks int) (h, after int) {
+	total := 0
+	for q := 0; q < blocks; q++ {
+		total += sr.blockRows(q)
+	}
+	after, best := total, total // best: |rows before − rows after| at h
+	for q, before := 0, 0; q <= blocks; q++ {
+		if d := max(total-2*before, 2*before-total); d < best {
+			h, after, best = q, total-before, d
+		}
+		if q < blocks {
+			before += sr.blockRows(q)
+		}
+	}
+	return h, after
+}
+
+// bandsHalf is uniqueness.csv's header and row blocks [from, to), parsed
+// as report.ParseTable would parse them when parse is set and they hold
+// no quote or carriage return.
+func (sr sideRows) bandsHalf(r *Result, from, to, size int, parse bool) bandsFile {
+	f := bandsFile{csv: sr.bandsPart(r, from, to, size).Bytes()}
+	if parse && !bytes.ContainsAny(f.csv, "\"\r") {
+		f.table, _ = report.ParseTable("uniqueness.csv", f.csv)
+	}
+	return f
 }
