@@ -112,7 +112,9 @@ func rasterCanvas(w, h vg.Length, pix []byte) (*pixelCanvas, *image.RGBA) {
 	ctx := gg.NewContextForRGBA(img)
 	ctx.SetLineCapButt()
 	ctx.InvertY()
-	return &pixelCanvas{Canvas: vgimg.NewWith(vgimg.UseImageWithContext(img, ctx), vgimg.UseDPI(FigureDPI)), img: img, ctx: ctx, colours: []color.Color{color.Black}}, img
+	// The matrix as ctx.InvertY leaves it (gg: Translate(0, height), Scale(1, −1)).
+	mat := gg.Identity().Translate(0, float64(r.Dy())).Scale(1, -1)
+	return &pixelCanvas{Canvas: vgimg.NewWith(vgimg.UseImageWithContext(img, ctx), vgimg.UseDPI(FigureDPI)), img: img, ctx: ctx, colours: []color.Color{color.Black}, mat: mat}, img
 }
 
 // noBackground takes the plots' background colours away (for a canvas

@@ -621,6 +621,10 @@ type pixelCanvas struct {
 	// colours is the canvas's colour and those Push saved (vgimg keeps
 	// them, unexported), for FillString.
 	colours []color.Color
+	// mat is the drawing context's matrix and mats those Push saved (gg
+	// keeps them, unexported), for rotated text.
+	mat  gg.Matrix
+	mats []gg.Matrix
 }
 
 // paint draws p over rect (canvas coordinates): every pixel whose centre

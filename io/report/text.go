@@ -35,11 +35,31 @@ func (pc *pixelCanvas) SetColor(c color.Color) {
 func (pc *pixelCanvas) Push() {
 	pc.Canvas.Push()
 	pc.colours = append(pc.colours, pc.colours[len(pc.colours)-1])
+	pc.mats = append(pc.mats, pc.mat)
 }
 
 func (pc *pixelCanvas) Pop() {
 	pc.Canvas.Pop()
 	pc.colours = pc.colours[:len(pc.colours)-1]
+	pc.mat, pc.mats = pc.mats[len(pc.mats)-1], pc.mats[:len(pc.mats)-1]
+}
+
+// Rotate, Translate and Scale are vgimg's, with the drawing context's
+// matrix kept beside it (gg does not tell it) by the same gg.Matrix steps,
+// for rotated text.
+func (pc *pixelCanvas) Rotate(t float64) {
+	pc.Canvas.Rotate(t)
+	pc.mat = pc.mat.Rotate(t)
+}
+
+func (pc *pixelCanvas) Translate(p vg.Point) {
+	pc.Canvas.Translate(p)
+	pc.mat = pc.mat.Translate(p.X.Dots(pc.DPI()), p.Y.Dots(pc.DPI()))
+}
+
+func (pc *pixelCanvas) Scale(x, y float64) {
+	pc.Canvas.Scale(x, y)
+	pc.mat = pc.mat.Scale(x, y)
 }
 
 // FillString draws str as vgimg.Canvas.FillString does, step for step (a
@@ -63,10 +83,53 @@ func (pc *pixelCanvas) FillString(fnt font.Face, pt vg.Point, str string) {
 	h := ch.Dots(dpi)
 	ctx.InvertY()
 	if !identityMatrix(ctx) {
-		ctx.DrawString(str, x, h-y)
+		// The context's InvertY, on the matrix kept beside it.
+		m := pc.mat.Translate(0, float64(pc.img.Rect.Dy())).Scale(1, -1)
+		if !sameTransform(ctx, m) { // the matrix kept is not the context's
+			ctx.DrawString(str, x, h-y)
+			return
+		}
+		drawGlyphsAlong(pc.img, face, pc.colours[len(pc.colours)-1], str, x, h-y, m)
 		return
 	}
 	drawGlyphs(pc.img, face, pc.colours[len(pc.colours)-1], str, x, h-y)
+}
+
+// sameTransform says whether the context maps (0, 0), (1, 0) and (0, 1)
+// where m does.
+func sameTransform(ctx *gg.Context, m gg.Matrix) bool {
+	for _, p := range [3][2]float64{{0, 0}, {1, 0}, {0, 1}} {
+		x0, y0 := ctx.TransformPoint(p[0], p[1])
+		x1, y1 := m.TransformPoint(p[0], p[1])
+		if x0 != x1 || y0 != y1 {
+			return false
+		}
+	}
+	return true
+}
+
+// drawGlyphsAlong is gg's drawString under the matrix m: the glyphs placed
+// as drawGlyphs places them, each mask laid over dst through m moved to
+// the glyph's box, as the context's BiLinear transform lays it
+// (overGlyphAlong).
+func drawGlyphsAlong(dst *image.RGBA, face xfont.Face, c color.Color, s string, x, y float64, m gg.Matrix) {
+	dot := fixed.Point26_6{X: fixed.Int26_6(math.Round(x * 64)), Y: fixed.Int26_6(math.Round(y * 64))}
+	r, g, b, a := c.RGBA()
+	prev := rune(-1)
+	for _, ch := range s {
+		if prev >= 0 {
+			dot.X += face.Kern(prev, ch)
+		}
+		dr, mask, mp, advance, ok := face.Glyph(dot, ch)
+		if !ok {
+			continue
+		}
+		gm := m.Translate(float64(dr.Min.X), float64(dr.Min.Y))
+		s2d := [6]float64{gm.XX, gm.XY, gm.X0, gm.YX, gm.YY, gm.Y0}
+		overGlyphAlong(dst, s2d, dr.Sub(dr.Min), mask, mp, [4]uint32{r, g, b, a})
+		dot.X += advance
+		prev = ch
+	}
 }
 
 // identityMatrix says whether the context's matrix is the identity. Its
