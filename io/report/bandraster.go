@@ -1,3 +1,12 @@
+// Parts of this file (scan, Add1, Add2, Add3, saveCell, setCell and the
+// painting of a row) are adapted from github.com/golang/freetype/raster
+// (raster.go and paint.go), Copyright 2010 The Freetype-Go Authors, used
+// under the FreeType License (FTL.TXT in this folder). Changed from the
+// original: a band's cells are kept in an array rather than in sorted lists
+// per row, the cover left of the band is one sum per row, and only the
+// band's columns are painted (see bandRaster). The arithmetic is the
+// original's.
+
 package report
 
 import (

@@ -1,3 +1,9 @@
+// overGlyphAlong and its helpers follow golang.org/x/image/draw's
+// bilinear Kernel.Transform (scale.go and impl.go), Copyright 2015 The Go
+// Authors, under its BSD-style licence (LICENSE-x-image in this folder).
+// Changed from the original: specialised to a uniform source colour, an
+// alpha mask and op Over, with the pixels read directly.
+
 package report
 
 import (
