@@ -2,8 +2,8 @@ package report
 
 import (
 	"bytes"
+	"compress/flate"
 	"encoding/binary"
-	"github.com/bandsolve/bandsolve/internal/deflate"
 	"hash/crc32"
 	"image"
 	"image/png"
@@ -31,7 +31,7 @@ import (
 // eight zero bytes (most of a figure is white under white, all zeros after
 // the filter) where hash/adler32 takes eight.
 type pngEncoder struct {
-	zw                 *deflate.Writer
+	zw                 *flate.Writer
 	idat               bytes.Buffer
 	above, line, zeros []byte
 }
@@ -43,7 +43,11 @@ func (e *pngEncoder) encode(img *image.RGBA) ([]byte, error) {
 	e.idat.Grow(len(img.Pix) / 8) // figures deflate to about a tenth
 	e.idat.WriteString(zlibHeader)
 	if e.zw == nil {
-		e.zw = deflate.NewWriter(&e.idat)
+		zw, err := flate.NewWriter(&e.idat, flate.BestSpeed)
+		if err != nil {
+			return nil, err
+		}
+		e.zw = zw
 	} else {
 		e.zw.Reset(&e.idat)
 	}
