@@ -133,16 +133,56 @@ func (s *Stage) swapInTwoSteps() error {
 // waits on the file system (its journal, and on this machine's ext4,
 // mounted with discard, the blocks freed), and several overlap, where
 // the earlier results' removal is the last step of a run that replaces
-// them. Links are removed, not followed. What is left (the folders, an
-// entry made meanwhile, a removal that failed) os.RemoveAll removes.
+// them. The files are named and removed through an os.Root opened on
+// dir, as os.RemoveAll works through open folders: a folder of the tree
+// swapped for a link between the listing and a removal cannot lead a
+// removal outside the tree, and a link is removed, never followed. What
+// is left (the folders, an entry made meanwhile, a removal that failed)
+// os.RemoveAll removes.
 func removeTree(dir string) {
+	defer os.RemoveAll(dir)
+	root := openTree(dir)
+	if root == nil {
+		return
+	}
+	defer root.Close()
+	removeFiles(root, treeFiles(root))
+}
+
+// openTree opens an os.Root on the folder dir itself, or returns nil when
+// dir is not a folder: a link named dir is not followed, and a folder
+// swapped in after the check is not the one opened (os.SameFile).
+func openTree(dir string) *os.Root {
+	st, err := os.Lstat(dir)
+	if err != nil || !st.IsDir() {
+		return nil
+	}
+	root, err := os.OpenRoot(dir)
+	if err != nil {
+		return nil
+	}
+	if rst, err := root.Stat("."); err != nil || !os.SameFile(st, rst) {
+		root.Close()
+		return nil
+	}
+	return root
+}
+
+// treeFiles lists every entry below root that is not a folder, links
+// included (fs.WalkDir does not follow them), as names inside root.
+func treeFiles(root *os.Root) []string {
 	var files []string
-	filepath.WalkDir(dir, func(p string, d fs.DirEntry, err error) error {
+	fs.WalkDir(root.FS(), ".", func(p string, d fs.DirEntry, err error) error {
 		if err == nil && !d.IsDir() {
 			files = append(files, p)
 		}
 		return nil
 	})
+	return files
+}
+
+// removeFiles removes the named entries of root on up to eight goroutines.
+func removeFiles(root *os.Root, files []string) {
 	var wg sync.WaitGroup
 	work := make(chan string)
 	for w := 0; w < min(8, len(files)); w++ {
@@ -150,7 +190,7 @@ func removeTree(dir string) {
 		go func() {
 			defer wg.Done()
 			for p := range work {
-				os.Remove(p)
+				root.Remove(p)
 			}
 		}()
 	}
@@ -159,7 +199,6 @@ func removeTree(dir string) {
 	}
 	close(work)
 	wg.Wait()
-	os.RemoveAll(dir)
 }
 
 func stagePrefix(final string) string { return "." + filepath.Base(final) + ".partial-" }

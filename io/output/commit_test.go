@@ -276,3 +276,66 @@ func TestRemoveTreeIsRemoveAll(t *testing.T) {
 		t.Errorf("the link's target holds %q (%v)", b, err)
 	}
 }
+
+// A folder of the tree swapped for a link to a folder outside, between
+// the listing and the removals, leads no removal outside the tree: the
+// file of the same name out there is kept. os.Root resolves each name
+// inside the folder it was opened on and refuses a link leading out
+// (package os: "methods on Root ... will not access files outside the
+// tree"); a removal by path would have followed the link.
+func TestRemoveTreeFollowsNoLinkSwappedIn(t *testing.T) {
+	base := t.TempDir()
+	tree, outside := filepath.Join(base, "tree"), filepath.Join(base, "outside")
+	for _, d := range []string{filepath.Join(tree, "figures"), outside} {
+		if err := os.MkdirAll(d, 0o755); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for _, p := range []string{filepath.Join(tree, "figures", "f.png"), filepath.Join(outside, "f.png")} {
+		if err := os.WriteFile(p, []byte("kept"), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	root := openTree(tree)
+	if root == nil {
+		t.Fatal("openTree refused a plain folder")
+	}
+	defer root.Close()
+	files := treeFiles(root)
+	if len(files) != 1 || files[0] != "figures/f.png" {
+		t.Fatalf("files listed %q, want [figures/f.png]", files)
+	}
+	if err := os.Rename(filepath.Join(tree, "figures"), filepath.Join(base, "moved")); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.Symlink(outside, filepath.Join(tree, "figures")); err != nil {
+		t.Fatal(err)
+	}
+	removeFiles(root, files)
+	if b, err := os.ReadFile(filepath.Join(outside, "f.png")); err != nil || string(b) != "kept" {
+		t.Errorf("the file outside the tree holds %q (%v)", b, err)
+	}
+}
+
+// A link named as the tree is removed, not followed: the folder it points
+// to keeps its files (os.RemoveAll does the same).
+func TestRemoveTreeOfALinkKeepsItsTarget(t *testing.T) {
+	base := t.TempDir()
+	target, link := filepath.Join(base, "target"), filepath.Join(base, "link")
+	if err := os.Mkdir(target, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(filepath.Join(target, "x.csv"), []byte("kept"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.Symlink(target, link); err != nil {
+		t.Fatal(err)
+	}
+	removeTree(link)
+	if _, err := os.Lstat(link); !os.IsNotExist(err) {
+		t.Errorf("the link is still there (%v)", err)
+	}
+	if b, err := os.ReadFile(filepath.Join(target, "x.csv")); err != nil || string(b) != "kept" {
+		t.Errorf("the link's target holds %q (%v)", b, err)
+	}
+}
