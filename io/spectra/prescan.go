@@ -122,11 +122,12 @@ func (c *channelScan) noise(j int, x, buf []float64, observed func(i int) bool, 
 			// Every beam observed: eight second differences at a time,
 			// each formed as the loop below forms it.
 			k = vecmath.AbsSecondDiffs(buf, x)
-		}
-		for i := 1; observed != nil && i+1 < len(x); i++ {
-			if observed == nil || observed(i-1) && observed(i) && observed(i+1) {
-				buf[k] = math.Abs(x[i+1] - 2*x[i] + x[i-1])
-				k++
+		} else {
+			for i := 1; i+1 < len(x); i++ {
+				if observed(i-1) && observed(i) && observed(i+1) {
+					buf[k] = math.Abs(x[i+1] - 2*x[i] + x[i-1])
+					k++
+				}
 			}
 		}
 	}

@@ -149,8 +149,9 @@ func bucketOf(cnt []int32, k int) (b uint64, under int) {
 // one count of the eight bits under the window's common leading ones, the
 // k-th value found in its counter's few values, and the (k−1)-th, when
 // below is set, in the same counter or as the largest of the last one
-// before it that is not empty. c is reordered. Exact order statistics, the
-// values selectKth would give.
+// before it that is not empty: below needs k ≥ 1, a value under the k-th
+// among c (middlePairNear asks for it only then). c is reordered. Exact
+// order statistics, the values selectKth would give.
 func windowOrder(c []float64, lob, hib uint64, k int, below bool) (kth, prev float64) {
 	shift := uint(max(0, bits.Len64(hib-lob)-8))
 	var cnt [256]uint16
