@@ -89,10 +89,10 @@ func (pc *pixelCanvas) FillString(fnt font.Face, pt vg.Point, str string) {
 			ctx.DrawString(str, x, h-y)
 			return
 		}
-		drawGlyphsAlong(pc.img, face, pc.colours[len(pc.colours)-1], str, x, h-y, m)
+		drawGlyphs(pc.img, face, pc.colours[len(pc.colours)-1], str, x, h-y, &m)
 		return
 	}
-	drawGlyphs(pc.img, face, pc.colours[len(pc.colours)-1], str, x, h-y)
+	drawGlyphs(pc.img, face, pc.colours[len(pc.colours)-1], str, x, h-y, nil)
 }
 
 // sameTransform says whether the context maps (0, 0), (1, 0) and (0, 1)
@@ -108,30 +108,6 @@ func sameTransform(ctx *gg.Context, m gg.Matrix) bool {
 	return true
 }
 
-// drawGlyphsAlong is gg's drawString under the matrix m: the glyphs placed
-// as drawGlyphs places them, each mask laid over dst through m moved to
-// the glyph's box, as the context's BiLinear transform lays it
-// (overGlyphAlong).
-func drawGlyphsAlong(dst *image.RGBA, face xfont.Face, c color.Color, s string, x, y float64, m gg.Matrix) {
-	dot := fixed.Point26_6{X: fixed.Int26_6(math.Round(x * 64)), Y: fixed.Int26_6(math.Round(y * 64))}
-	r, g, b, a := c.RGBA()
-	prev := rune(-1)
-	for _, ch := range s {
-		if prev >= 0 {
-			dot.X += face.Kern(prev, ch)
-		}
-		dr, mask, mp, advance, ok := face.Glyph(dot, ch)
-		if !ok {
-			continue
-		}
-		gm := m.Translate(float64(dr.Min.X), float64(dr.Min.Y))
-		s2d := [6]float64{gm.XX, gm.XY, gm.X0, gm.YX, gm.YY, gm.Y0}
-		overGlyphAlong(dst, s2d, dr.Sub(dr.Min), mask, mp, [4]uint32{r, g, b, a})
-		dot.X += advance
-		prev = ch
-	}
-}
-
 // identityMatrix says whether the context's matrix is the identity. Its
 // translation is the image of (0, 0), exactly; when that is zero, the
 // images of (1, 0) and (0, 1) are the matrix's columns, exactly.
@@ -142,10 +118,12 @@ func identityMatrix(ctx *gg.Context) bool {
 	return x0 == 0 && y0 == 0 && xx == 1 && yx == 0 && xy == 0 && yy == 1
 }
 
-// drawGlyphs is gg's drawString (DrawString with no anchor) under the
-// identity matrix: the dot at x, y rounded to 1/64 pixel, kerning between
-// glyphs, each glyph's mask laid over dst in colour c.
-func drawGlyphs(dst *image.RGBA, face xfont.Face, c color.Color, s string, x, y float64) {
+// drawGlyphs is gg's drawString (DrawString with no anchor): the dot at
+// x, y rounded to 1/64 pixel, kerning between glyphs, each glyph's mask
+// laid over dst in colour c, under the identity matrix when m is nil
+// (overGlyph), else under m moved to the glyph's box, as the context's
+// BiLinear transform lays it (overGlyphAlong).
+func drawGlyphs(dst *image.RGBA, face xfont.Face, c color.Color, s string, x, y float64, m *gg.Matrix) {
 	dot := fixed.Point26_6{X: fixed.Int26_6(math.Round(x * 64)), Y: fixed.Int26_6(math.Round(y * 64))}
 	r, g, b, a := c.RGBA()
 	prev := rune(-1)
@@ -157,7 +135,13 @@ func drawGlyphs(dst *image.RGBA, face xfont.Face, c color.Color, s string, x, y 
 		if !ok {
 			continue
 		}
-		overGlyph(dst, dr, mask, mp, [4]uint32{r, g, b, a})
+		if m == nil {
+			overGlyph(dst, dr, mask, mp, [4]uint32{r, g, b, a})
+		} else {
+			gm := m.Translate(float64(dr.Min.X), float64(dr.Min.Y))
+			s2d := [6]float64{gm.XX, gm.XY, gm.X0, gm.YX, gm.YY, gm.Y0}
+			overGlyphAlong(dst, s2d, dr.Sub(dr.Min), mask, mp, [4]uint32{r, g, b, a})
+		}
 		dot.X += advance
 		prev = ch
 	}

@@ -28,7 +28,8 @@ func overGlyphAlong(dst *image.RGBA, s2d [6]float64, sr image.Rectangle, mask im
 	}
 	d2s := invertAffine(&s2d)
 	// A shift that keeps the source coordinates non-negative, so that
-	// int(f) rounds down (the kernel's "sx -= 0.5" is why of the −1).
+	// int(f) rounds down; one pixel more because the kernel takes half a
+	// pixel off them (weights' s −= 0.5).
 	bias := transformRect(&d2s, &adr).Min
 	bias.X--
 	bias.Y--
