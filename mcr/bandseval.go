@@ -1086,12 +1086,21 @@ func (p *bandProblem) riseSparse() float64 {
 }
 
 // riseGradient adds f times the rise's gradient into w.gt and w.gbB (see
-// riseSparse, whose blocks it reads).
+// riseSparse, whose blocks it reads): the profiles' side, then the
+// spectra's.
 func (p *bandProblem) riseGradient(f float64) {
+	p.riseGradientC(f)
+	p.riseGradientS(f)
+}
+
+// riseGradientC adds f times Cᵀ G_A into w.gt, G_A the rise's gradient
+// with respect to the rotated profiles A = C T (Cᵀ G_A is its gradient
+// with respect to T).
+func (p *bandProblem) riseGradientC(f float64) {
 	w, k := p.work, p.k
 	k2 := 2 * k
-	gx, gy := w.gx, w.gy
-	ctam, btb := w.sq[0], w.sq[3]
+	gy := w.gy
+	ctam := w.sq[0]
 	// Cᵀ G_A: CᵀA₋ GY₁₂ + (CᵀC T − CᵀA₋) GY₂₂.
 	ctap := congruenceLeft(w.sq[4], w.gc, w.t, k) // CᵀC T
 	for r := 0; r < k; r++ {
@@ -1141,6 +1150,16 @@ func (p *bandProblem) riseGradient(f float64) {
 			}
 		}
 	})
+}
+
+// riseGradientS adds f times G_Bᵀ B into w.gbB, G_B the rise's gradient
+// with respect to the rotated spectra B = S T⁻ᵀ (projectGradient takes it
+// to T).
+func (p *bandProblem) riseGradientS(f float64) {
+	w, k := p.work, p.k
+	k2 := 2 * k
+	gx, gy := w.gx, w.gy
+	btb := w.sq[3]
 	// G_Bᵀ B: GX₁₁ᵀ BᵀB + GX₂₁ᵀ B₋ᵀB, plus at a clipped entry (i, j) of B
 	// (x_i-free part) (y_i XᵀX)_{k+j} times b_i.
 	for j := 0; j < k; j++ {
