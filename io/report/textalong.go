@@ -21,30 +21,11 @@ import (
 // read directly instead of through image.Image. The drawing context lays
 // rotated text so, a tenth of the figures' text time in the general code.
 func overGlyphAlong(dst *image.RGBA, s2d [6]float64, sr image.Rectangle, mask image.Image, mp image.Point, src [4]uint32) {
-	dr := transformRect(&s2d, &sr)
-	adr := dst.Bounds().Intersect(dr)
-	if adr.Empty() || sr.Empty() {
+	k, ok := newBilinearFrame(dst, &s2d, sr)
+	if !ok {
 		return
 	}
-	d2s := invertAffine(&s2d)
-	// A shift that keeps the source coordinates non-negative, so that
-	// int(f) rounds down; one pixel more because the kernel takes half a
-	// pixel off them (weights' s −= 0.5).
-	bias := transformRect(&d2s, &adr).Min
-	bias.X--
-	bias.Y--
-	d2s[2] -= float64(bias.X)
-	d2s[5] -= float64(bias.Y)
-	adr = adr.Sub(dr.Min)
-	xscale := max(absf(d2s[0]), absf(d2s[1]))
-	yscale := max(absf(d2s[3]), absf(d2s[4]))
-	k := bilinearFrame{sr: sr, xHalf: 1, xArg: 1, yHalf: 1, yArg: 1}
-	if xscale > 1 {
-		k.xHalf, k.xArg = xscale, 1/xscale
-	}
-	if yscale > 1 {
-		k.yHalf, k.yArg = yscale, 1/yscale
-	}
+	dr, adr, d2s, bias := k.dr, k.adr, k.d2s, k.bias
 	xw := make([]float64, 1+2*int(math.Ceil(k.xHalf)))
 	yw := make([]float64, 1+2*int(math.Ceil(k.yHalf)))
 	alpha, _ := mask.(*image.Alpha)
@@ -95,11 +76,46 @@ func overGlyphAlong(dst *image.RGBA, s2d [6]float64, sr image.Rectangle, mask im
 }
 
 // bilinearFrame is what the kernel's loop keeps for one mask: the source
-// rectangle and, each way, the kernel's half width and argument scale
+// rectangle sr, its destination pixels dr and the part adr of them inside
+// dst (relative to dr.Min), the map d2s back to the source shifted by
+// bias, and, each way, the kernel's half width and argument scale
 // (broadened when the map shrinks).
 type bilinearFrame struct {
-	sr                       image.Rectangle
+	sr, dr, adr              image.Rectangle
+	d2s                      [6]float64
+	bias                     image.Point
 	xHalf, xArg, yHalf, yArg float64
+}
+
+// newBilinearFrame sets up Kernel.Transform's loop for the mask's source
+// rectangle sr laid over dst through s2d, in its steps; ok is false when
+// nothing of it falls on dst.
+func newBilinearFrame(dst *image.RGBA, s2d *[6]float64, sr image.Rectangle) (k bilinearFrame, ok bool) {
+	dr := transformRect(s2d, &sr)
+	adr := dst.Bounds().Intersect(dr)
+	if adr.Empty() || sr.Empty() {
+		return k, false
+	}
+	d2s := invertAffine(s2d)
+	// A shift that keeps the source coordinates non-negative, so that
+	// int(f) rounds down; one pixel more because the kernel takes half a
+	// pixel off them (weights' s −= 0.5).
+	bias := transformRect(&d2s, &adr).Min
+	bias.X--
+	bias.Y--
+	d2s[2] -= float64(bias.X)
+	d2s[5] -= float64(bias.Y)
+	adr = adr.Sub(dr.Min)
+	xscale := max(absf(d2s[0]), absf(d2s[1]))
+	yscale := max(absf(d2s[3]), absf(d2s[4]))
+	k = bilinearFrame{sr: sr, dr: dr, adr: adr, d2s: d2s, bias: bias, xHalf: 1, xArg: 1, yHalf: 1, yArg: 1}
+	if xscale > 1 {
+		k.xHalf, k.xArg = xscale, 1/xscale
+	}
+	if yscale > 1 {
+		k.yHalf, k.yArg = yscale, 1/yscale
+	}
+	return k, true
 }
 
 // weights fills w with the tent kernel's weights, normalized to sum 1, of
