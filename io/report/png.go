@@ -38,6 +38,33 @@ type pngEncoder struct {
 
 // encode returns img's PNG file.
 func (e *pngEncoder) encode(img *image.RGBA) ([]byte, error) {
+	sum, opaque, err := e.deflateRows(img)
+	if err != nil {
+		return nil, err
+	}
+	if !opaque {
+		var b bytes.Buffer
+		err := (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(&b, img)
+		return b.Bytes(), err
+	}
+	e.idat.Write(binary.BigEndian.AppendUint32(nil, sum))
+	var hdr [13]byte
+	binary.BigEndian.PutUint32(hdr[0:], uint32(img.Rect.Dx()))
+	binary.BigEndian.PutUint32(hdr[4:], uint32(img.Rect.Dy()))
+	hdr[8], hdr[9] = 8, 2 // bit depth 8, colour type 2 (RGB); methods 0 (deflate, the five filters), no interlace
+	const signature = "\x89PNG\r\n\x1a\n"
+	b := make([]byte, 0, len(signature)+3*12+len(hdr)+e.idat.Len())
+	b = append(b, signature...)
+	b = pngChunk(b, "IHDR", hdr[:])
+	b = pngChunk(b, "IDAT", e.idat.Bytes())
+	return pngChunk(b, "IEND", nil), nil
+}
+
+// deflateRows writes the zlib header and the deflated rows of img, each
+// under the Up filter, into e.idat and returns their Adler-32; opaque is
+// false, and the rows are left unfinished, at the first row holding a
+// pixel that is not opaque.
+func (e *pngEncoder) deflateRows(img *image.RGBA) (sum uint32, opaque bool, err error) {
 	width, height := img.Rect.Dx(), img.Rect.Dy()
 	e.idat.Reset()
 	e.idat.Grow(len(img.Pix) / 8) // figures deflate to about a tenth
@@ -45,7 +72,7 @@ func (e *pngEncoder) encode(img *image.RGBA) ([]byte, error) {
 	if e.zw == nil {
 		zw, err := flate.NewWriter(&e.idat, flate.BestSpeed)
 		if err != nil {
-			return nil, err
+			return 0, false, err
 		}
 		e.zw = zw
 	} else {
@@ -60,46 +87,31 @@ func (e *pngEncoder) encode(img *image.RGBA) ([]byte, error) {
 	zeros := grown(&e.zeros, 1+3*width)
 	clear(zeros)
 	line[0], zeros[0] = 2, 2 // filter type Up
-	sum := uint32(1)         // Adler-32 of nothing
+	sum = 1                  // Adler-32 of nothing
 	// The alpha bytes of every row, and-ed.
-	opaque := uint32(0xff000000)
+	alpha := uint32(0xff000000)
 	for y := range height {
 		row := img.Pix[y*img.Stride : y*img.Stride+4*width]
 		out := zeros
 		if !bytes.Equal(row, above) {
-			opaque &= upFilter(line[1:], row, above)
+			alpha &= upFilter(line[1:], row, above)
 			out = line[:1+3*width]
 			sum = adler32Update(sum, out)
 		} else {
 			if y == 0 {
-				opaque = 0 // the same as the zero row above: alpha 0
+				alpha = 0 // the same as the zero row above: alpha 0
 			}
 			sum = adler32Zeros(adler32Update(sum, zeros[:1]), 3*width)
 		}
-		if opaque != 0xff000000 {
-			var b bytes.Buffer
-			err := (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(&b, img)
-			return b.Bytes(), err
+		if alpha != 0xff000000 {
+			return 0, false, nil
 		}
 		if _, err := e.zw.Write(out); err != nil {
-			return nil, err
+			return 0, false, err
 		}
 		above = row
 	}
-	if err := e.zw.Close(); err != nil {
-		return nil, err
-	}
-	e.idat.Write(binary.BigEndian.AppendUint32(nil, sum))
-	var hdr [13]byte
-	binary.BigEndian.PutUint32(hdr[0:], uint32(width))
-	binary.BigEndian.PutUint32(hdr[4:], uint32(height))
-	hdr[8], hdr[9] = 8, 2 // bit depth 8, colour type 2 (RGB); methods 0 (deflate, the five filters), no interlace
-	const signature = "\x89PNG\r\n\x1a\n"
-	b := make([]byte, 0, len(signature)+3*12+len(hdr)+e.idat.Len())
-	b = append(b, signature...)
-	b = pngChunk(b, "IHDR", hdr[:])
-	b = pngChunk(b, "IDAT", e.idat.Bytes())
-	return pngChunk(b, "IEND", nil), nil
+	return sum, true, e.zw.Close()
 }
 
 // grown is *s resliced to n bytes, made anew when it is shorter.
