@@ -7,6 +7,7 @@ import (
 	"hash/adler32"
 	"image"
 	"image/color"
+	"image/png"
 	"math/rand/v2"
 	"testing"
 )
@@ -128,4 +129,65 @@ func longWayPNG(t *testing.T, img *image.RGBA) []byte {
 	b = pngChunk(b, "IHDR", hdr[:])
 	b = pngChunk(b, "IDAT", z.Bytes())
 	return pngChunk(b, "IEND", nil)
+}
+
+// An image with any pixel not opaque is image/png's file at its fastest
+// level (the encoder's stated fallback), which decodes to the same colours
+// (PNG stores them non-premultiplied, ISO/IEC 15948 4.3), wherever that
+// pixel lies: an all-transparent image (its first row the same as the zero
+// row the Up filter puts above it), a translucent pixel in the last row,
+// in a row whose colour bytes are the same as the one above's (only its
+// alpha differs), in an odd last pixel. The encoder, left mid-stream by
+// each, then writes an opaque image as the long way does.
+func TestEncodePNGLeavesTransparencyToTheLibrary(t *testing.T) {
+	opaque := func(w, h int) *image.RGBA {
+		img := image.NewRGBA(image.Rect(0, 0, w, h))
+		for i := range img.Pix {
+			img.Pix[i] = 255
+		}
+		return img
+	}
+	cases := map[string]*image.RGBA{"all transparent": image.NewRGBA(image.Rect(0, 0, 9, 4))}
+	for name, at := range map[string][3]int{"last row": {16, 5, 4}, "second row": {16, 5, 1}, "odd last pixel": {7, 3, 6}} {
+		img := opaque(at[0], at[1])
+		x, y := at[2]%at[0], at[2]
+		if name == "odd last pixel" {
+			x, y = at[0]-1, 0
+		}
+		img.SetRGBA(x, y, color.RGBA{R: 40, G: 60, B: 80, A: 128})
+		if name == "second row" { // the pixel above of the same colour bytes, opaque
+			img.SetRGBA(x, 0, color.RGBA{R: 40, G: 60, B: 80, A: 255})
+		}
+		cases[name] = img
+	}
+	var e pngEncoder
+	for name, img := range cases {
+		got, err := e.encode(img)
+		if err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		var want bytes.Buffer
+		if err := (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(&want, img); err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Equal(got, want.Bytes()) {
+			t.Errorf("%s: not image/png's file", name)
+		}
+		dec, err := png.Decode(bytes.NewReader(got))
+		if err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		for y := range img.Rect.Dy() {
+			for x := range img.Rect.Dx() {
+				if d, w := color.NRGBAModel.Convert(dec.At(x, y)), color.NRGBAModel.Convert(img.At(x, y)); d != w {
+					t.Fatalf("%s: pixel (%d, %d) decodes to %v, drawn %v", name, x, y, dec.At(x, y), img.At(x, y))
+				}
+			}
+		}
+		after := opaque(11, 6)
+		after.SetRGBA(3, 2, color.RGBA{R: 1, G: 2, B: 3, A: 255})
+		if got, err := e.encode(after); err != nil || !bytes.Equal(got, longWayPNG(t, after)) {
+			t.Fatalf("after %s: an opaque image is not the long way's file (%v)", name, err)
+		}
+	}
 }
