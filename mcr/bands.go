@@ -517,15 +517,12 @@ func (p *bandProblem) violation(a, b *mat.Dense) float64 {
 	side := func(x *mat.Dense, nn []bool, zero [][]bool) {
 		r, k := x.Dims()
 		for j := 0; j < k; j++ {
-			var z []bool
-			if j < len(zero) {
-				z = zero[j]
-			}
+			z := zeroColumn(zero, j)
 			bad, all := 0.0, 0.0
 			for i := 0; i < r; i++ {
 				v := x.At(i, j)
 				all += v * v
-				if z != nil && z[i] || nn[j] && v < 0 {
+				if clippedOut(v, i, nn[j], z) {
 					bad += v * v
 				}
 			}
@@ -733,6 +730,21 @@ func (p *bandProblem) component(t *mat.Dense, j int) ([]float64, []float64, erro
 	return prof, spec, nil
 }
 
+// zeroColumn is component j's zero window among zero (nil: it has none).
+func zeroColumn(zero [][]bool, j int) []bool {
+	if j < len(zero) {
+		return zero[j]
+	}
+	return nil
+}
+
+// clippedOut says whether the constraints set entry i of a component, v,
+// to zero: it lies in the component's zero window z, or it is negative in
+// a non-negative component. The one rule of clip, clipped and violation.
+func clippedOut(v float64, i int, nonneg bool, z []bool) bool {
+	return z != nil && z[i] || nonneg && v < 0
+}
+
 // clip returns x with the constraints imposed (negative entries of
 // non-negative components and zero-window entries set to zero) and the
 // mask of the entries kept.
@@ -740,13 +752,10 @@ func (p *bandProblem) clip(x *mat.Dense, nn []bool, zero [][]bool) (*mat.Dense, 
 	r, k := x.Dims()
 	out, mask := mat.NewDense(r, k, nil), mat.NewDense(r, k, nil)
 	for j := 0; j < k; j++ {
-		var z []bool
-		if j < len(zero) {
-			z = zero[j]
-		}
+		z := zeroColumn(zero, j)
 		for i := 0; i < r; i++ {
 			v := x.At(i, j)
-			if z != nil && z[i] || nn[j] && v < 0 {
+			if clippedOut(v, i, nn[j], z) {
 				continue
 			}
 			out.Set(i, j, v)
@@ -763,13 +772,10 @@ func (p *bandProblem) clipped(x *mat.Dense, nn []bool, zero [][]bool) *mat.Dense
 	out := mat.NewDense(r, k, nil)
 	xm, o := x.RawMatrix(), out.RawMatrix().Data
 	for j := 0; j < k; j++ {
-		var z []bool
-		if j < len(zero) {
-			z = zero[j]
-		}
+		z := zeroColumn(zero, j)
 		for i := 0; i < r; i++ {
 			v := xm.Data[i*xm.Stride+j]
-			if z != nil && z[i] || nn[j] && v < 0 {
+			if clippedOut(v, i, nn[j], z) {
 				continue
 			}
 			o[i*k+j] = v
