@@ -690,16 +690,6 @@ func spectraFigure(f *Folder, ax axisStyle) (*Figure, error) {
 	return &Figure{ID: "fig-spectra", Title: title, Caption: cap, SVG: svg, drawing: dr, Legend: legend}, nil
 }
 
-// longEnvelope reads the long tables uniqueness.csv and intervals.csv
-// (component, side, experiment, position, …, low column, high column): the
-// rows of one component and side, first experiment only, as position and
-// the pointwise lower and upper of the two bound columns. For uniqueness
-// ranges these are the solutions at the smallest and largest share;
-// the band between them is drawn.
-func longEnvelope(t *Table, comp, side, loName, hiName string) (x, lo, hi []float64) {
-	return envelopeOf(t, longRows(t)[[2]string{comp, side}], loName, hiName)
-}
-
 // longRows indexes the rows of a long table by component and side, in
 // their order (rows too short to hold both cells are left out): one pass
 // for all of a figure's components, each of which took two passes over
@@ -735,8 +725,12 @@ func longRows(t *Table) map[[2]string][]int {
 	return rows
 }
 
-// envelopeOf is longEnvelope of the table's rows rows (one component and
-// side, from longRows).
+// envelopeOf reads the long tables uniqueness.csv and intervals.csv
+// (component, side, experiment, position, …, low column, high column): the
+// rows of one component and side (rows, from longRows), first experiment
+// only, as position and the pointwise lower and upper of the two bound
+// columns. For uniqueness ranges these are the solutions at the smallest
+// and largest share; the band between them is drawn.
 func envelopeOf(t *Table, rows []int, loName, hiName string) (x, lo, hi []float64) {
 	if t == nil {
 		return nil, nil, nil

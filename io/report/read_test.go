@@ -171,3 +171,9 @@ func TestLongRowsAsAScan(t *testing.T) {
 		}
 	}
 }
+
+// longEnvelope is envelopeOf of one component and side of t, their rows
+// found by longRows, as the figures find them.
+func longEnvelope(t *Table, comp, side, loName, hiName string) (x, lo, hi []float64) {
+	return envelopeOf(t, longRows(t)[[2]string{comp, side}], loName, hiName)
+}
