@@ -18,9 +18,9 @@ import (
 // work. The rasterizer keeps each pixel row's cells in a list sorted by
 // column and walks it from the left for every cell a path's outline adds,
 // so a line across the whole figure costs the square of its width in every
-// row it stays in; this took a seventh of the report's time. Stroked one
-// band of bandColumns pixel columns at a time, each row's list stays short;
-// bandRaster keeps a band's cells in an array instead of lists.
+// row it stays in; this took a seventh of the report's time. Here each
+// band of bandColumns pixel columns is stroked alone, and bandRaster keeps
+// a band's cells in an array, a cell's place found at once.
 //
 // Why a band's pixels are the same: the rasterizer gives a pixel the area
 // under the outline in the pixel's own cell plus the cover (the signed
@@ -36,8 +36,12 @@ import (
 // them. Each band is painted only over its own columns.
 
 // bandColumns is the width, in pixels, of the bands a long line is stroked
-// in: a row's list then holds a few dozen cells rather than up to a
-// figure's 945, and a band's fixed costs (a pass over the rows) stay small.
+// and a polygon filled in. It was chosen when the rasterizer kept a sorted
+// list of cells per row (a row's list then held a few dozen cells rather
+// than up to a figure's 945; 32 and 128 made no difference); bandRaster's
+// cells are found by index, so the width now only sets how often a band's
+// fixed costs (a pass over its rows, the path's runs near it) are paid and
+// how many cells one band holds (bandColumns × the image's height).
 const bandColumns = 64
 
 // strokeLines strokes lines with sty as draw.Canvas.StrokeLines does on the
