@@ -79,8 +79,8 @@ func (e earlyFiles) wait() {
 }
 
 // bandsFile is uniqueness.csv and, when asked for, its table as
-// report.ParseTable reads it (nil when not asked for, or when the halves
-// could not be read apart: see formatBands).
+// report.ParseTable reads it (nil when not asked for, or when a half did
+// not parse).
 type bandsFile struct {
 	csv   []byte
 	table *report.Table
@@ -93,12 +93,11 @@ type bandsFile struct {
 // idle while the run's goroutine waits for the file takes half of the
 // work. The file is the first half followed by the second's rows.
 //
-// The table is the whole file's: report.ParseTable splits text without
-// quotes or carriage returns line by line, so the rows of the header and
-// first half followed by the rows of the second half are the rows of the
-// whole. A half that holds either (a name with a comma, say) is read by
-// encoding/csv, whose records may span lines: then no table is made here
-// and the reader parses the whole file.
+// The table is the whole file's: each half is whole records (bandsPart
+// writes whole rows, a quoted name with a line break included), and a CSV
+// reader carries nothing from one record to the next (RFC 4180), so the
+// records of the header and first half followed by those of the second
+// half are the records of the whole.
 func formatBands(r *Result, parse bool) bandsFile {
 	sr := newSideRows(r)
 	blocks := 2 * len(r.Constraints.Bands.Bands)
@@ -141,11 +140,10 @@ func (sr sideRows) halfOfBlocks(blocks int) (h, after int) {
 }
 
 // bandsHalf is uniqueness.csv's header and row blocks [from, to), parsed
-// as report.ParseTable would parse them when parse is set and they hold
-// no quote or carriage return.
+// by report.ParseTable when parse is set.
 func (sr sideRows) bandsHalf(r *Result, from, to, size int, parse bool) bandsFile {
 	f := bandsFile{csv: sr.bandsPart(r, from, to, size).Bytes()}
-	if parse && !bytes.ContainsAny(f.csv, "\"\r") {
+	if parse {
 		f.table, _ = report.ParseTable("uniqueness.csv", f.csv)
 	}
 	return f
