@@ -875,7 +875,6 @@ func riseGram(a, b, ap, bp *mat.Dense) float64 {
 // says.
 func gramOfSplit(g, row []float64, y, z blas64.General, first bool) {
 	k := y.Cols
-	k2 := 2 * k
 	clear(g)
 	for i := 0; i < y.Rows; i++ {
 		yr, zr := y.Data[i*y.Stride:i*y.Stride+k], z.Data[i*z.Stride:i*z.Stride+k]
@@ -887,16 +886,7 @@ func gramOfSplit(g, row []float64, y, z blas64.General, first bool) {
 				row[j], row[k+j] = v, v-zr[j]
 			}
 		}
-		for p, v := range row {
-			if v == 0 {
-				continue
-			}
-			gp := g[p*k2 : p*k2+k2]
-			gp = gp[:len(row)]
-			for q, w := range row {
-				gp[q] += v * w
-			}
-		}
+		addRowProducts(g, row, row)
 	}
 }
 
@@ -907,19 +897,26 @@ func crossGram(x, y blas64.General) []float64 {
 	k := x.Cols
 	g := make([]float64, k*k)
 	for i := 0; i < x.Rows; i++ {
-		xr, yr := x.Data[i*x.Stride:i*x.Stride+k], y.Data[i*y.Stride:i*y.Stride+y.Cols]
-		for p, v := range xr {
-			if v == 0 {
-				continue
-			}
-			gp := g[p*k : p*k+k]
-			gp = gp[:len(yr)]
-			for q, w := range yr {
-				gp[q] += v * w
-			}
-		}
+		addRowProducts(g, x.Data[i*x.Stride:i*x.Stride+k], y.Data[i*y.Stride:i*y.Stride+y.Cols])
 	}
 	return g
+}
+
+// addRowProducts adds the outer product of one row of each factor, xᵀy,
+// into g (len(x) × len(y), row-major), skipping the rows of it whose x
+// entry is zero: one step of the Gram sums riseGram and crossGram take in
+// gonum's order.
+func addRowProducts(g, x, y []float64) {
+	n := len(y)
+	for p, v := range x {
+		if v == 0 {
+			continue
+		}
+		gp := g[p*n : p*n+n]
+		for q, w := range y {
+			gp[q] += v * w
+		}
+	}
 }
 
 // constrainedPair is the rotated pair with the constraints imposed (kept
