@@ -161,11 +161,7 @@ func (r *bandRaster) scan(yi int, x0, y0f, x1, y1f fixed.Int26_6) {
 		p, q = x0f*dy, -dx
 		edge0, edge1, xiDelta = 64, 0, -1
 	}
-	yDelta, yRem := p/q, p%q
-	if yRem < 0 {
-		yDelta -= 1
-		yRem += q
-	}
+	yDelta, yRem := floorDivMod(p, q)
 	// The first cell, the ones the line crosses whole, the last.
 	xi, y := x0i, y0f
 	r.area += int((x0f + edge1) * yDelta)
@@ -174,11 +170,7 @@ func (r *bandRaster) scan(yi int, x0, y0f, x1, y1f fixed.Int26_6) {
 	r.setCell(xi, yi)
 	if xi != x1i {
 		p = 64 * (y1f - y + yDelta)
-		fullDelta, fullRem := p/q, p%q
-		if fullRem < 0 {
-			fullDelta -= 1
-			fullRem += q
-		}
+		fullDelta, fullRem := floorDivMod(p, q)
 		yRem -= q
 		for xi != x1i {
 			yDelta = fullDelta
@@ -263,22 +255,14 @@ func (r *bandRaster) across(x0 fixed.Int26_6, y0i int, y0f, x1 fixed.Int26_6, y1
 		p, q = y0f*dx, -dy
 		edge0, edge1, yiDelta = 64, 0, -1
 	}
-	xDelta, xRem := p/q, p%q
-	if xRem < 0 {
-		xDelta -= 1
-		xRem += q
-	}
+	xDelta, xRem := floorDivMod(p, q)
 	x, yi := x0, y0i
 	r.scan(yi, x, y0f, x+xDelta, edge1)
 	x, yi = x+xDelta, yi+yiDelta
 	r.setCell(int(x)/64, yi)
 	if yi != y1i {
 		p = 64 * dx
-		fullDelta, fullRem := p/q, p%q
-		if fullRem < 0 {
-			fullDelta -= 1
-			fullRem += q
-		}
+		fullDelta, fullRem := floorDivMod(p, q)
 		xRem -= q
 		for yi != y1i {
 			xDelta = fullDelta
@@ -293,6 +277,17 @@ func (r *bandRaster) across(x0 fixed.Int26_6, y0i int, y0f, x1 fixed.Int26_6, y1
 		}
 	}
 	r.scan(yi, x, edge0, x1, y1f)
+}
+
+// floorDivMod is p ÷ q rounded down and its remainder in [0, q), q > 0:
+// the rasterizer's step along a line in whole cells and the error it
+// carries (Go's / and % round towards zero).
+func floorDivMod(p, q fixed.Int26_6) (fixed.Int26_6, fixed.Int26_6) {
+	d, r := p/q, p%q
+	if r < 0 {
+		d, r = d-1, r+q
+	}
+	return d, r
 }
 
 // Add2 is the rasterizer's quadratic: split in halves as often as the
