@@ -389,20 +389,12 @@ func (p *bandProblem) gradientWork(g []float64) {
 	p.projectGradient(g)
 }
 
-// gramCross sets out = xᵀ y for row-major x, y with k columns (k × k).
+// gramCross sets out = xᵀ y for row-major x, y with k columns (k × k),
+// contiguous rows; crossGram is the same for strided matrices.
 func gramCross(out, x, y []float64, k int) {
 	clear(out)
 	for i := 0; i+k <= len(x); i += k {
-		xr, yr := x[i:i+k], y[i:i+k]
-		for r, xv := range xr {
-			if xv == 0 {
-				continue
-			}
-			o := out[r*k : r*k+k]
-			for c, yv := range yr {
-				o[c] += xv * yv
-			}
-		}
+		addRowProducts(out, x[i:i+k], y[i:i+k])
 	}
 }
 
