@@ -18,7 +18,7 @@ import (
 // reported as the file changing while it was read: only a fault on memory
 // has an Addr method (runtime/debug.SetPanicOnFault's documentation;
 // TestGuardFaultTruncatedMapping keeps that case an error). The file is
-// largeCSV's, mapped (2 MB, 12 chunks of 512 rows); GOMAXPROCS 1 and 2,
+// largeCSV's, mapped (2 MB, 118 chunks of 64 rows); GOMAXPROCS 1 and 2,
 // goroutines counted.
 func TestMatrixParseFaultReachesTheCaller(t *testing.T) {
 	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
