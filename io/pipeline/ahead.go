@@ -323,18 +323,32 @@ func (a *ahead) aheadEFA(r *Result) {
 	if a == nil || r.EFA == nil || r.EFA == a.efa {
 		return
 	}
-	a.efa = r.EFA
-	rep, multi := r.EFA, len(r.Experiments) > 1
-	a.efaTimes, a.efaExp = append([]float64(nil), r.Times...), append([]int(nil), r.ExpOfRow...)
-	times, exp := a.efaTimes, a.efaExp
+	a.efaDrawer(r)(r.EFA)
+}
+
+// efaDrawer returns what draws the EFA figure of a report at r's times as
+// they are now (copied here, on the run's goroutine): it queues the drawing
+// and records the report drawn. startEFA calls it from the goroutine that
+// computes the report, as soon as the report is made, so that the figure
+// is drawn beside the resolution's first steps, which keep 1.5 cores busy,
+// rather than once the second start is done; every later reader of a.efa
+// (aheadEFA, efaFile) has waited for that goroutine (efaReport takes its
+// report through r.earlyEFA.get, and run waits for it before the drawing
+// ends).
+func (a *ahead) efaDrawer(r *Result) func(rep *EFAReport) {
+	multi := len(r.Experiments) > 1
+	times, exp := append([]float64(nil), r.Times...), append([]int(nil), r.ExpOfRow...)
 	tu := report.TimeUnitRecord(r.Settings.TimeUnit)
-	a.add(func() {
-		a.efaCSV = efaTable(rep, times, exp, multi).CSV()
-		if t, err := report.ParseTable("efa.csv", a.efaCSV); err == nil {
-			a.efaTable = t
-			a.pre.Draw(&report.Folder{EFA: t, AsRun: tu}, "fig-efa")
-		}
-	})
+	return func(rep *EFAReport) {
+		a.efa, a.efaTimes, a.efaExp = rep, times, exp
+		a.add(func() {
+			a.efaCSV = efaTable(rep, times, exp, multi).CSV()
+			if t, err := report.ParseTable("efa.csv", a.efaCSV); err == nil {
+				a.efaTable = t
+				a.pre.Draw(&report.Folder{EFA: t, AsRun: tu}, "fig-efa")
+			}
+		})
+	}
 }
 
 // efaFile is efa.csv as formatted ahead, when it is of r's EFA (not

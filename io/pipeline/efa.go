@@ -111,12 +111,20 @@ func startEFA(r *Result, k int) {
 	if k < 1 || fac == nil {
 		return
 	}
+	var draw func(*EFAReport)
+	if r.ahead != nil {
+		draw = r.ahead.efaDrawer(r)
+	}
 	r.earlyEFA = startLater(func() efaOutcome {
 		e, sigma, err := scaledEFA(fac, f)
 		if err != nil {
 			return efaOutcome{k: k, err: err}
 		}
-		return efaOutcome{k: k, rep: newEFAReport(e, sigma, true, k, n, m, f)}
+		rep := newEFAReport(e, sigma, true, k, n, m, f)
+		if draw != nil {
+			draw(rep)
+		}
+		return efaOutcome{k: k, rep: rep}
 	})
 }
 
