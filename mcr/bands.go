@@ -471,7 +471,45 @@ func (p *bandProblem) rotateNew(t *mat.Dense) (a, b, tinvT *mat.Dense, ok bool) 
 		return nil, nil, nil, false
 	}
 	tinvT = mat.DenseCopyOf(inv.T())
+	if w := p.work; w != nil && p.base.xpC != nil && p.base.xpS != nil {
+		return w.timesPanels(p.c, p.base.c, p.base.xpC, t), w.timesPanels(p.s, p.base.s, p.base.xpS, tinvT), tinvT, true
+	}
 	return rowsTimes(p.c, t), rowsTimes(p.s, tinvT), tinvT, true
+}
+
+// timesPanels returns xm·v as rowsTimes does, from x, xm's entries
+// row-major, and xp, its rows in panels (rowPanels): four rows at a time
+// in the vector lanes (rotatedPanels, with no column clipped), the last
+// rows by
+// rotatedRows: each entry summed over l in order from +0, each product
+// rounded before it is added, as rowsTimes sums it; the terms rowsTimes
+// leaves out, whose first factor is ±0, are ±0 (T's entries are finite)
+// and leave such a sum as it is. The same bits in half the scalar loop's
+// time, the new matrix's clearing included (docs/performance.md).
+func (w *bandWork) timesPanels(xm *mat.Dense, x, xp []float64, v *mat.Dense) *mat.Dense {
+	rows, k := xm.Dims()
+	if vr, vc := v.Dims(); vr != k || vc != k || len(x) != rows*k {
+		panic(mat.ErrShape) // as rowsTimes
+	}
+	out := mat.NewDense(rows, k, nil)
+	o := out.RawMatrix().Data
+	vt := w.panelVT[:k*k]
+	for l := 0; l < k; l++ {
+		for j := 0; j < k; j++ {
+			vt[j*k+l] = v.At(l, j)
+		}
+	}
+	if len(w.panelMinus) < len(x) {
+		w.panelMinus, w.panelClip = make([]float64, len(x)), make([]uint64, rows)
+	}
+	minus, clip := w.panelMinus[:len(x)], w.panelClip[:rows]
+	panels := rows / 4
+	if panels > 0 {
+		rotatedPanels(&o[0], &minus[0], &clip[0], &xp[0], &vt[0], &w.noClip[0], &spreadBits[0], k, panels)
+	}
+	at := 4 * panels * k
+	rotatedRows(o[at:], minus[at:], clip[4*panels:], x[at:], vt, w.noClip, k)
+	return out
 }
 
 // rowsTimes returns x·v (x r × k, v k × k), each entry summed over l in

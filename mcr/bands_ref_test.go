@@ -683,6 +683,44 @@ func TestStageEndProductsSameAsGonum(t *testing.T) {
 	}
 }
 
+// The stage ends form C T and S T⁻ᵀ in the vector lanes (timesPanels)
+// where the processor has them: the bits of rowsTimes, which the test
+// above holds to gonum's X·V. Entries as there (zeros, −0, twenty binary
+// orders of magnitude), k up to the lanes' 16, and row counts that leave
+// 0 to 3 rows past the last panel.
+func TestStageEndPanelsSameAsRows(t *testing.T) {
+	if !havePanels {
+		t.Skip("no vector rows on this processor")
+	}
+	rng := rand.New(rand.NewPCG(13, 14))
+	entry := func() float64 {
+		switch rng.IntN(12) {
+		case 0, 1:
+			return 0
+		case 2:
+			return math.Copysign(0, -1)
+		}
+		return rng.NormFloat64() * math.Exp2(float64(rng.IntN(20)-10))
+	}
+	for k := 1; k <= 16; k++ {
+		w := &bandWork{noClip: make([]uint64, k), panelVT: make([]float64, k*k)}
+		for _, rows := range []int{4, 5, 6, 7, 64, 130, 2001} {
+			x, v := mat.NewDense(rows, k, nil), mat.NewDense(k, k, nil)
+			for _, m := range []*mat.Dense{x, v} {
+				raw := m.RawMatrix().Data
+				for i := range raw {
+					raw[i] = entry()
+				}
+			}
+			xr := x.RawMatrix().Data
+			got, want := w.timesPanels(x, xr, rowPanels(xr, k), v), rowsTimes(x, v)
+			if !vecmath.SameBits(got.RawMatrix().Data, want.RawMatrix().Data) {
+				t.Errorf("k %d rows %d: timesPanels differs from rowsTimes", k, rows)
+			}
+		}
+	}
+}
+
 // riseGradient forms the differences of YᵀY's blocks and each clipped
 // row's A₊ once instead of once per clipped entry: its gradient must be
 // the bits of the per-entry formula (riseGradientPerEntry, the form it

@@ -26,6 +26,12 @@ type bandWork struct {
 	piv           []int
 	at            evalPoint // the last evaluation (gradientWork)
 	memo          rotMemo   // the last rotation formed whole (rotate)
+	// timesPanels' scratch: the clipped parts it does not use, k zero
+	// masks (no column clipped) and Vᵀ.
+	panelMinus []float64
+	panelClip  []uint64
+	noClip     []uint64
+	panelVT    []float64
 }
 
 // bandBase is what every search of one FeasibleBands call reads and none
@@ -92,7 +98,7 @@ func (p *bandProblem) newWork() {
 		t: make([]float64, k*k), inv: make([]float64, k*k), tinvT: make([]float64, k*k), lu: make([]float64, k*k),
 		gx: make([]float64, 4*k*k), gy: make([]float64, 4*k*k),
 		gt: make([]float64, k*k), gbB: make([]float64, k*k),
-		piv: make([]int, k),
+		piv: make([]int, k), noClip: make([]uint64, k), panelVT: make([]float64, k*k),
 	}
 	for q := range w.sq {
 		w.sq[q] = make([]float64, k*k)
