@@ -424,15 +424,15 @@ func HashFile(path string) (int64, string, error) {
 }
 
 // hashFileYielding is HashFile, reading and hashing a piece at a time
-// with runtime.Gosched after each (hashYielding), ended early with
-// errHashStopped once stop is set.
-func hashFileYielding(path string, stop *atomic.Bool) (int64, string, error) {
+// at a low priority while no one waits for the sum (hashYielding), ended
+// early with errHashStopped once told to stop.
+func hashFileYielding(path string, turn *hashTurn) (int64, string, error) {
 	f, err := openRegular(path)
 	if err != nil {
 		return 0, "", err
 	}
 	defer f.Close()
-	return hashUnchanged(f, path, func(r io.Reader) (int64, string, error) { return hashYielding(r, path, stop) })
+	return hashUnchanged(f, path, func(r io.Reader) (int64, string, error) { return hashYielding(r, path, turn) })
 }
 
 // statReader is an open file: read to hash it, stated around the reading.
@@ -475,6 +475,14 @@ func hashUnchanged(f statReader, path string, hash func(io.Reader) (int64, strin
 // errHashStopped is hashYielding's answer when it was told to stop.
 var errHashStopped = errors.New("hashing stopped")
 
+// hashTurn is what the hashing is told while it runs: stop (abandon: end
+// at the next piece), and needed (the run waits for the sums: hash on
+// without stepping aside, since the goroutines it would step aside for may
+// be the run's own figures, which the run's next step waits for too).
+type hashTurn struct {
+	stop, needed atomic.Bool
+}
+
 // openRegular opens path for reading when it is a regular file, checked
 // before and after the opening.
 func openRegular(path string) (*os.File, error) {
@@ -504,9 +512,10 @@ type inputSums struct {
 	done  chan struct{}
 	paths []string           // the files begun, in order
 	sums  map[string]fileSum // by absolute path; read only once done is closed
-	// stop, shared with the sums begun before, ends the hashing early
-	// (abandon): a file not finished gets no sum.
-	stop *atomic.Bool
+	// turn, shared with the sums begun before, ends the hashing early
+	// (abandon: a file not finished gets no sum) or raises its priority
+	// (wait).
+	turn *hashTurn
 }
 
 type fileSum struct {
@@ -537,19 +546,19 @@ func startInputSumsAfter(prev *inputSums, paths []string) *inputSums {
 	if prev != nil && len(todo) == 0 {
 		return prev
 	}
-	h := &inputSums{done: make(chan struct{}), paths: append(slices.Clone(prev.begun()), todo...), sums: make(map[string]fileSum, len(paths)), stop: new(atomic.Bool)}
+	h := &inputSums{done: make(chan struct{}), paths: append(slices.Clone(prev.begun()), todo...), sums: make(map[string]fileSum, len(paths)), turn: new(hashTurn)}
 	if prev != nil {
-		h.stop = prev.stop
+		h.turn = prev.turn
 	}
 	go func() {
 		defer close(h.done)
 		if prev != nil {
-			prev.wait()
+			<-prev.done // at prev's priority: no one waits yet
 			maps.Copy(h.sums, prev.sums)
 		}
 		for _, p := range todo {
 			if _, ok := h.sums[p]; !ok {
-				n, sum, err := hashRecovered(p, h.stop)
+				n, sum, err := hashRecovered(p, h.turn)
 				if errors.Is(err, errHashStopped) {
 					return
 				}
@@ -560,7 +569,7 @@ func startInputSumsAfter(prev *inputSums, paths []string) *inputSums {
 	return h
 }
 
-// hashRecovered is hashInput(p, stop) on the hashing goroutine. A panic
+// hashRecovered is hashInput(p, turn) on the hashing goroutine. A panic
 // there, unrecovered, would end the program past a batch's recovery per
 // run (cmd/bandsolve runOne). It is a bug of this program (a file that
 // cannot be read gets an error), and becomes p's error rather than a panic
@@ -568,13 +577,13 @@ func startInputSumsAfter(prev *inputSums, paths []string) *inputSums {
 // its files' errors, naming the file, and the run fails with it; waiters
 // (wait, abandon, the next startInputSumsAfter) are told by done being
 // closed whatever happened, and the files after p are hashed on.
-func hashRecovered(p string, stop *atomic.Bool) (n int64, sum string, err error) {
+func hashRecovered(p string, turn *hashTurn) (n int64, sum string, err error) {
 	defer func() {
 		if v := recover(); v != nil {
 			n, sum, err = 0, "", fmt.Errorf("%s: internal error while hashing it: %w (please report it)", p, fanout.Error(v))
 		}
 	}()
-	return hashInput(p, stop)
+	return hashInput(p, turn)
 }
 
 // hashInput is hashFileYielding; a variable so that a test can make the
@@ -589,9 +598,11 @@ func (h *inputSums) begun() []string {
 	return h.paths
 }
 
-// wait returns once every file begun is hashed (at once for nil).
+// wait returns once every file begun is hashed (at once for nil); the
+// hashing left is done at an ordinary goroutine's priority.
 func (h *inputSums) wait() {
 	if h != nil {
+		h.turn.needed.Store(true)
 		<-h.done
 	}
 }
@@ -601,7 +612,7 @@ func (h *inputSums) wait() {
 // be read to the end first.
 func (h *inputSums) abandon() {
 	if h != nil {
-		h.stop.Store(true)
+		h.turn.stop.Store(true)
 		<-h.done
 	}
 }
@@ -691,8 +702,10 @@ const hashPause = 200 * time.Microsecond
 // processor waited until the whole file was hashed (the traces of the
 // 2000 × 3001 series: the second worker began 14 ms late, and the two
 // ended 20 ms apart). A sleeping goroutine holds no queue: the processor
-// takes the waiting work. The same bytes in the same order: the same sum.
-func hashYielding(f io.Reader, name string, stop *atomic.Bool) (int64, string, error) {
+// takes the waiting work. Once the sums are waited for (turn.needed) it
+// hashes on as any goroutine. The same bytes in the same order: the same
+// sum.
+func hashYielding(f io.Reader, name string, turn *hashTurn) (int64, string, error) {
 	h := sha256.New()
 	buf := make([]byte, hashPiece)
 	waiting := []metrics.Sample{{Name: "/sched/goroutines/runnable:goroutines"}}
@@ -707,10 +720,10 @@ func hashYielding(f io.Reader, name string, stop *atomic.Bool) (int64, string, e
 		if err != nil {
 			return 0, "", fmt.Errorf("%s: %w", name, err)
 		}
-		for stepAside(waiting) {
+		for !turn.stop.Load() && !turn.needed.Load() && stepAside(waiting) {
 			time.Sleep(hashPause)
 		}
-		if stop.Load() {
+		if turn.stop.Load() {
 			return 0, "", errHashStopped
 		}
 	}

@@ -7,7 +7,6 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
-	"sync/atomic"
 	"testing"
 )
 
@@ -51,7 +50,7 @@ func TestHashRefusesAFileChangedWhileRead(t *testing.T) {
 	body := strings.Repeat("1000,0.25\n", 3*hashPiece/10+7)
 	routes := map[string]func(r io.Reader, path string) (int64, string, error){
 		"whole":    hashStream,
-		"yielding": func(r io.Reader, path string) (int64, string, error) { return hashYielding(r, path, new(atomic.Bool)) },
+		"yielding": func(r io.Reader, path string) (int64, string, error) { return hashYielding(r, path, new(hashTurn)) },
 	}
 	for name, route := range routes {
 		p := filepath.Join(dir, name+".csv")

@@ -5,7 +5,6 @@ import (
 	"path/filepath"
 	"runtime"
 	"strings"
-	"sync/atomic"
 	"testing"
 
 	"github.com/bandsolve/bandsolve/internal/fanout/fanouttest"
@@ -29,7 +28,7 @@ func TestHashFaultIsTheFilesError(t *testing.T) {
 	for _, p := range []string{abc, bad, badRuntime, last} {
 		writeFile(t, p, []byte("abc"))
 	}
-	hashInput = func(p string, stop *atomic.Bool) (int64, string, error) {
+	hashInput = func(p string, turn *hashTurn) (int64, string, error) {
 		switch p {
 		case bad:
 			panic("a fault in hashing " + p)
@@ -37,7 +36,7 @@ func TestHashFaultIsTheFilesError(t *testing.T) {
 			var none []int
 			_ = none[len(p)] // index out of range
 		}
-		return hashFileYielding(p, stop)
+		return hashFileYielding(p, turn)
 	}
 	const fips = "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
 	for _, procs := range []int{1, 2} {

@@ -10,8 +10,10 @@ import (
 	"runtime"
 	"slices"
 	"strings"
+	"sync"
 	"sync/atomic"
 	"testing"
+	"time"
 
 	"github.com/bandsolve/bandsolve/io/demo"
 	"github.com/bandsolve/bandsolve/io/output"
@@ -283,7 +285,7 @@ func TestHashYieldingIsSHA256(t *testing.T) {
 		}
 		p := filepath.Join(t.TempDir(), "data")
 		writeFile(t, p, c.data)
-		n, sum, err := hashFileYielding(p, new(atomic.Bool))
+		n, sum, err := hashFileYielding(p, new(hashTurn))
 		if err != nil || n != int64(len(c.data)) || sum != c.want {
 			t.Errorf("%s: %d bytes, %s, %v; want %d bytes, %s", c.name, n, sum, err, len(c.data), c.want)
 		}
@@ -323,8 +325,8 @@ func TestAbandonedSumsStopAndFallBack(t *testing.T) {
 	data := bytes.Repeat([]byte("a"), 3*hashPiece)
 	p := filepath.Join(t.TempDir(), "data.csv")
 	writeFile(t, p, data)
-	stop := new(atomic.Bool)
-	stop.Store(true)
+	stop := new(hashTurn)
+	stop.stop.Store(true)
 	if _, _, err := hashFileYielding(p, stop); err != errHashStopped {
 		t.Errorf("told to stop: %v, want errHashStopped", err)
 	}
@@ -333,5 +335,42 @@ func TestAbandonedSumsStopAndFallBack(t *testing.T) {
 	want := fmt.Sprintf("%x", sha256.Sum256(data))
 	if n, sum, err := h.hash(p); err != nil || n != int64(len(data)) || sum != want {
 		t.Errorf("after abandon: %d bytes, %s, %v; want %d bytes, %s", n, sum, err, len(data), want)
+	}
+}
+
+// Sums waited for are finished at an ordinary goroutine's priority: with
+// one processor and two goroutines that keep yielding to each other, so
+// that one of them always waits for the processor (the hashing's cue to
+// step aside), the sums of a file of five pieces are ready while they
+// still run, instead of once they end. The sum is crypto/sha256's.
+func TestWaitedSumsDoNotStepAside(t *testing.T) {
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(1))
+	data := bytes.Repeat([]byte("b"), 5*hashPiece)
+	p := filepath.Join(t.TempDir(), "data.csv")
+	writeFile(t, p, data)
+	var spinning, stop atomic.Bool
+	spinning.Store(true)
+	var wg sync.WaitGroup
+	deadline := time.Now().Add(time.Minute)
+	for range 2 {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for !stop.Load() && time.Now().Before(deadline) {
+				runtime.Gosched()
+			}
+			spinning.Store(false)
+		}()
+	}
+	h := startInputSums([]string{p})
+	h.wait()
+	stillSpinning := spinning.Load()
+	stop.Store(true)
+	wg.Wait()
+	if !stillSpinning {
+		t.Error("the sums waited for were done only once the other goroutines ended")
+	}
+	if got := h.sums[p]; got.err != nil || got.sum != fmt.Sprintf("%x", sha256.Sum256(data)) {
+		t.Errorf("sum %s (%v), want crypto/sha256's", got.sum, got.err)
 	}
 }
