@@ -3,6 +3,7 @@ package mcr
 import (
 	"fmt"
 	"math"
+	"sync"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -44,40 +45,100 @@ type CheckOptions struct {
 	// restart is a full ALS run from the freer solution and takes most of
 	// the checks' time (on the six-species hard-model benchmark about 3.0
 	// of 3.4 s CPU, all restarts that could not change a verdict;
-	// docs/performance.md); nil runs it after every such refit.
+	// docs/performance.md); nil runs it after every such refit. The
+	// refits run at the same time (see CheckConstraintsWith): Restart is
+	// called from their goroutines, one call at a time, in no fixed order.
 	Restart func(ConstraintCheck) bool
 }
 
 // CheckConstraintsWith is CheckConstraints with the restarts chosen by
-// co.Restart.
+// co.Restart. The refits read the data, the fit and opt and share nothing
+// they write, so each runs on a goroutine of its own (one at a time when
+// opt holds a kinetic model, which may keep state between its calls): a
+// refit is a chain of small products and solves that keeps about one core
+// busy, and one after another they were the tail of the uniqueness ranges'
+// phase (docs/performance.md). The checks, and the first error or panic,
+// are those of the refits run one after another, in the groups' order.
 func CheckConstraintsWith(d Data, fit *Result, opt Options, co CheckOptions) ([]ConstraintCheck, error) {
-	maxIter := co.MaxIter
-	if maxIter <= 0 {
-		maxIter = 200
+	if co.MaxIter <= 0 {
+		co.MaxIter = 200
 	}
 	_, k := fit.C.Dims()
 	opt.Observe = nil
-	opt.MaxIter = maxIter
+	opt.MaxIter = co.MaxIter
 	opt.stopAtRoundingFloor = true
-	type group struct {
-		name  string
-		drop  func(o *Options)
-		comps []int
+	groups := constraintGroups(opt, k)
+	if ask := co.Restart; ask != nil {
+		// The caller's function is asked one refit at a time, as it was
+		// when the refits ran one after another.
+		var mu sync.Mutex
+		co.Restart = func(cc ConstraintCheck) bool {
+			mu.Lock()
+			defer mu.Unlock()
+			return ask(cc)
+		}
 	}
-	var groups []group
+	outs := make([]checkOutcome, len(groups))
+	refit := func(i int) {
+		defer outs[i].catch()
+		g := groups[i]
+		outs[i].check, outs[i].err = checkWithout(d, fit, opt, co, g.name, g.drop, g.comps)
+	}
+	if opt.HardModel != nil || opt.HardKept != nil {
+		for i := range groups {
+			if refit(i); outs[i].panicked || outs[i].err != nil {
+				break
+			}
+		}
+	} else {
+		var wg sync.WaitGroup
+		for i := range groups {
+			wg.Add(1)
+			go func() {
+				defer wg.Done()
+				refit(i)
+			}()
+		}
+		wg.Wait()
+	}
+	var out []ConstraintCheck
+	for i, o := range outs {
+		if o.panicked {
+			panic(o.fault)
+		}
+		if o.err != nil {
+			return out, fmt.Errorf("check without %s: %w", groups[i].name, o.err)
+		}
+		out = append(out, o.check)
+	}
+	return out, nil
+}
+
+// constraintGroup is one group of constraints a check drops: its name, how
+// to take it out of the options, and the components it applies to.
+type constraintGroup struct {
+	name  string
+	drop  func(o *Options)
+	comps []int
+}
+
+// constraintGroups lists the active groups of constraints in opt, in the
+// order the checks report them (see CheckConstraints).
+func constraintGroups(opt Options, k int) []constraintGroup {
+	var groups []constraintGroup
 	if opt.Closure {
-		groups = append(groups, group{"closure", func(o *Options) { o.Closure = false }, nil})
+		groups = append(groups, constraintGroup{"closure", func(o *Options) { o.Closure = false }, nil})
 	}
 	nnS := boolsOr(opt.NonNegSpectra, k, opt.Mode == Species)
 	nnP := boolsOr(opt.NonNegProfiles, k, true)
 	if c := trueIndices(nnS); len(c) > 0 {
-		groups = append(groups, group{"non-negative spectra", func(o *Options) { o.NonNegSpectra = make([]bool, k) }, c})
+		groups = append(groups, constraintGroup{"non-negative spectra", func(o *Options) { o.NonNegSpectra = make([]bool, k) }, c})
 	}
 	if c := trueIndices(nnP); len(c) > 0 {
-		groups = append(groups, group{"non-negative profiles", func(o *Options) { o.NonNegProfiles = make([]bool, k) }, c})
+		groups = append(groups, constraintGroup{"non-negative profiles", func(o *Options) { o.NonNegProfiles = make([]bool, k) }, c})
 	}
 	if c := trueIndices(opt.Unimodal); len(c) > 0 {
-		groups = append(groups, group{"unimodal profiles", func(o *Options) { o.Unimodal = nil }, c})
+		groups = append(groups, constraintGroup{"unimodal profiles", func(o *Options) { o.Unimodal = nil }, c})
 	}
 	var known []int
 	for j, s := range opt.KnownSpectra {
@@ -86,49 +147,73 @@ func CheckConstraintsWith(d Data, fit *Result, opt Options, co CheckOptions) ([]
 		}
 	}
 	if len(known) > 0 {
-		groups = append(groups, group{"known spectra", func(o *Options) { o.KnownSpectra, o.KnownWeights = nil, nil }, known})
+		groups = append(groups, constraintGroup{"known spectra", func(o *Options) { o.KnownSpectra, o.KnownWeights = nil, nil }, known})
 	}
 	if c := anyMask(opt.ZeroProfiles); len(c) > 0 {
-		groups = append(groups, group{"zero windows of profiles", func(o *Options) { o.ZeroProfiles = nil }, c})
+		groups = append(groups, constraintGroup{"zero windows of profiles", func(o *Options) { o.ZeroProfiles = nil }, c})
 	}
 	if c := anyMask(opt.ZeroSpectra); len(c) > 0 {
-		groups = append(groups, group{"zero windows of spectra", func(o *Options) { o.ZeroSpectra = nil }, c})
+		groups = append(groups, constraintGroup{"zero windows of spectra", func(o *Options) { o.ZeroSpectra = nil }, c})
 	}
-	var out []ConstraintCheck
-	for _, g := range groups {
-		o := opt
-		g.drop(&o)
-		res, err := Resolve(d, fit.C, o)
-		if err != nil {
-			return out, fmt.Errorf("check without %s: %w", g.name, err)
-		}
-		cc := ConstraintCheck{Name: g.name, With: fit.LackOfFitPercent, Without: res.LackOfFitPercent,
-			ResidualSSWith: fit.ResidualSS, ResidualSSWithout: res.ResidualSS, Iterations: res.Iterations, ComponentsAffected: g.comps}
-		// A refit that did not get below the constrained fit (within the
-		// tolerance) means the constraint costs nothing.
+	return groups
+}
+
+// checkOutcome is one refit's check, its error, or its panic, carried to
+// the goroutine that waits for the refits.
+type checkOutcome struct {
+	check    ConstraintCheck
+	err      error
+	panicked bool
+	fault    any
+}
+
+// catch recovers the refit's panic into o; it must be deferred directly on
+// the refit's goroutine.
+func (o *checkOutcome) catch() {
+	if p := recover(); p != nil {
+		o.panicked, o.fault = true, p
+	}
+}
+
+// checkWithout refits without one group of constraints (drop takes it out
+// of opt) from the constrained fit, and restarts under the constraint from
+// the freer solution when co.Restart asks (see CheckConstraintsWith).
+func checkWithout(d Data, fit *Result, opt Options, co CheckOptions, name string, drop func(*Options), comps []int) (ConstraintCheck, error) {
+	_, k := fit.C.Dims()
+	o := opt
+	drop(&o)
+	res, err := Resolve(d, fit.C, o)
+	if err != nil {
+		return ConstraintCheck{}, err
+	}
+	cc := ConstraintCheck{Name: name, With: fit.LackOfFitPercent, Without: res.LackOfFitPercent,
+		ResidualSSWith: fit.ResidualSS, ResidualSSWithout: res.ResidualSS, Iterations: res.Iterations, ComponentsAffected: comps}
+	// A refit that did not get below the constrained fit (within the
+	// tolerance) means the constraint costs nothing.
+	if cc.ResidualSSWithout > cc.ResidualSSWith {
+		cc.ResidualSSWithout, cc.Without = cc.ResidualSSWith, cc.With
+		return cc, nil
+	}
+	if co.Restart != nil && !co.Restart(cc) {
+		return cc, nil
+	}
+	// Before the gap is blamed on the constraint, try to reach the
+	// freer fit's level under it: ALS with the constraint again,
+	// started from the freer solution projected onto it (negative
+	// profile values set to zero). A lower constrained fit means the
+	// first one was a local minimum, not the constraint's price.
+	c0 := mat.DenseCopyOf(res.C)
+	clampColumns(c0, boolsOr(opt.NonNegProfiles, k, true))
+	ro := opt
+	ro.stopAtRoundingFloor = false
+	if again, err := Resolve(d, c0, ro); err == nil && again.ResidualSS < (1-1e-6)*cc.ResidualSSWith {
+		cc.ResidualSSWith, cc.With = again.ResidualSS, again.LackOfFitPercent
+		cc.Restarted = true
 		if cc.ResidualSSWithout > cc.ResidualSSWith {
 			cc.ResidualSSWithout, cc.Without = cc.ResidualSSWith, cc.With
-		} else if co.Restart == nil || co.Restart(cc) {
-			// Before the gap is blamed on the constraint, try to reach the
-			// freer fit's level under it: ALS with the constraint again,
-			// started from the freer solution projected onto it (negative
-			// profile values set to zero). A lower constrained fit means the
-			// first one was a local minimum, not the constraint's price.
-			c0 := mat.DenseCopyOf(res.C)
-			clampColumns(c0, boolsOr(opt.NonNegProfiles, k, true))
-			ro := opt
-			ro.stopAtRoundingFloor = false
-			if again, err := Resolve(d, c0, ro); err == nil && again.ResidualSS < (1-1e-6)*cc.ResidualSSWith {
-				cc.ResidualSSWith, cc.With = again.ResidualSS, again.LackOfFitPercent
-				cc.Restarted = true
-				if cc.ResidualSSWithout > cc.ResidualSSWith {
-					cc.ResidualSSWithout, cc.Without = cc.ResidualSSWith, cc.With
-				}
-			}
 		}
-		out = append(out, cc)
 	}
-	return out, nil
+	return cc, nil
 }
 
 func trueIndices(b []bool) []int {

@@ -3,6 +3,7 @@ package mcr
 import (
 	"math"
 	"math/rand/v2"
+	"runtime"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -175,5 +176,58 @@ func TestCheckRestartChosenByCaller(t *testing.T) {
 	}
 	if cl := never[0]; cl.Name != "closure" || !(cl.Without < 0.9*cl.With) {
 		t.Errorf("closure check %+v: dilution should cost visibly", cl)
+	}
+}
+
+// The refits run side by side must be the refits run one after another:
+// each check is the definition of CheckConstraints (Resolve without the
+// group, from the constrained solution) formed alone, bit for bit, at
+// GOMAXPROCS 1 and 2, in the groups' order. Data: the diluted two-species
+// series above with noise (closure, non-negative spectra and profiles:
+// three groups, closure's refit far below the fit).
+func TestChecksSideBySideSameAsAlone(t *testing.T) {
+	n, m := 40, 50
+	d := dilutedPair(n, m, 0.3)
+	rng := rand.New(rand.NewPCG(5, 16))
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			d.Set(i, j, d.At(i, j)+1e-3*rng.NormFloat64())
+		}
+	}
+	c0 := mat.NewDense(n, 2, nil)
+	for i := 0; i < n; i++ {
+		u := float64(i) / float64(n-1)
+		c0.SetRow(i, []float64{1 - u, u})
+	}
+	opt := Options{Mode: Species, Closure: true, Total: []float64{1}}
+	fit, err := Resolve(Dense{d}, c0, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	for _, procs := range []int{1, 2} {
+		runtime.GOMAXPROCS(procs)
+		checks, err := CheckConstraintsWith(Dense{d}, fit, opt, CheckOptions{MaxIter: 300, Restart: func(ConstraintCheck) bool { return false }})
+		if err != nil {
+			t.Fatal(err)
+		}
+		o := opt
+		o.MaxIter, o.stopAtRoundingFloor = 300, true
+		groups := constraintGroups(o, 2)
+		if len(checks) != 3 || len(groups) != 3 {
+			t.Fatalf("%d checks of %d groups, want 3", len(checks), len(groups))
+		}
+		for i, g := range groups {
+			alone := o
+			g.drop(&alone)
+			res, err := Resolve(Dense{d}, fit.C, alone)
+			if err != nil {
+				t.Fatal(err)
+			}
+			want := math.Min(res.ResidualSS, fit.ResidualSS)
+			if c := checks[i]; c.Name != g.name || math.Float64bits(c.ResidualSSWithout) != math.Float64bits(want) || c.Iterations != res.Iterations {
+				t.Errorf("GOMAXPROCS %d: check %d %s: %.17g after %d iterations, alone %s %.17g after %d", procs, i, c.Name, c.ResidualSSWithout, c.Iterations, g.name, want, res.Iterations)
+			}
+		}
 	}
 }
