@@ -40,6 +40,14 @@ type BandOptions struct {
 	ResidualSS float64
 	// Alpha is the significance level of that comparison; default 0.05.
 	Alpha float64
+	// Found, when set, is called once for each component j as soon as both
+	// ends of its range are known, with the Band FeasibleBands returns for
+	// it, while the searches of the other components go on: a caller can
+	// take up one component's range (write it out, say) before the last is
+	// found. It is called on the goroutine that found the second end, so
+	// it must return soon and hand longer work on; it must not change the
+	// band's slices. It is not called for a component whose search failed.
+	Found func(j int, b Band)
 }
 
 // Band is one component's range of signal contribution
@@ -170,27 +178,38 @@ func FeasibleBands(c, s *mat.Dense, opt BandOptions) (*BandsResult, error) {
 		p.allow = noiseAllowance(opt.ResidualSS, n, m, k, opt.Alpha)
 	}
 	out := &BandsResult{Allowance: p.allow}
-	ends, err := p.allExtremes()
+	// Each component's share at the solution, before the searches: Found
+	// gives the band as it is returned here.
+	values := make([]float64, k)
+	for j := range values {
+		values[j] = p.contribution(identity(k), j)
+	}
+	ends, err := p.allExtremes(values)
 	if err != nil {
 		return nil, err
 	}
 	for j := 0; j < k; j++ {
-		b := Band{Value: p.contribution(identity(k), j)}
-		b.Min, b.Max = b.Value, b.Value
 		lo, hi := ends[2*j], ends[2*j+1]
 		out.Evaluations += lo.evals + hi.evals
-		b.Min, b.MinProfile, b.MinSpectrum = math.Min(lo.f, b.Value), lo.profile, lo.spectrum
-		b.Max, b.MaxProfile, b.MaxSpectrum = math.Max(hi.f, b.Value), hi.profile, hi.spectrum
-		b.MinConverged, b.MaxConverged = lo.converged, hi.converged
-		// The search's last stage ending infeasible means the band is
-		// only the feasible part it reached (an inner estimate).
-		b.Feasible = lo.ok && hi.ok
-		if !b.Feasible {
-			b.Reason = SearchLeftConstraints
-		}
-		out.Bands = append(out.Bands, b)
+		out.Bands = append(out.Bands, bandOf(values[j], lo, hi))
 	}
 	return out, nil
+}
+
+// bandOf is a component's band from its share at the solution and the two
+// ends of its range.
+func bandOf(value float64, lo, hi bandEnd) Band {
+	b := Band{Value: value}
+	b.Min, b.MinProfile, b.MinSpectrum = math.Min(lo.f, b.Value), lo.profile, lo.spectrum
+	b.Max, b.MaxProfile, b.MaxSpectrum = math.Max(hi.f, b.Value), hi.profile, hi.spectrum
+	b.MinConverged, b.MaxConverged = lo.converged, hi.converged
+	// The search's last stage ending infeasible means the band is only
+	// the feasible part it reached (an inner estimate).
+	b.Feasible = lo.ok && hi.ok
+	if !b.Feasible {
+		b.Reason = SearchLeftConstraints
+	}
+	return b
 }
 
 // bandEnd is one end of one component's range: the extreme share f and the
@@ -208,9 +227,18 @@ type bandEnd struct {
 // problem and work buffers, and each search starts from them reset
 // (bandWork.reset) as a fresh copy would be, so its result depends on
 // nothing but (j, sign): the ranges are the same bytes whatever the number
-// of workers or the order they run in.
-func (p *bandProblem) allExtremes() ([]bandEnd, error) {
+// of workers or the order they run in. With opt.Found, the worker that
+// ends a component's second search gives its band (values are the
+// components' shares at the solution).
+func (p *bandProblem) allExtremes(values []float64) ([]bandEnd, error) {
 	ends := make([]bandEnd, 2*p.k)
+	// left counts each component's searches not yet ended; the atomic
+	// decrement that reaches zero orders the other end's write before
+	// the reads of both.
+	left := make([]atomic.Int32, p.k)
+	for j := range left {
+		left[j].Store(2)
+	}
 	var next atomic.Int64
 	var wg sync.WaitGroup
 	var fault fanout.Fault // a search's panic, raised again below
@@ -229,6 +257,11 @@ func (p *bandProblem) allExtremes() ([]bandEnd, error) {
 					sign = -1
 				}
 				ends[t] = q.end(t/2, sign)
+				if j := t / 2; p.opt.Found != nil && left[j].Add(-1) == 0 {
+					if lo, hi := ends[2*j], ends[2*j+1]; lo.err == nil && hi.err == nil {
+						p.opt.Found(j, bandOf(values[j], lo, hi))
+					}
+				}
 			}
 		}()
 	}

@@ -456,7 +456,7 @@ func TestRangeEndsSameAsFreshSearches(t *testing.T) {
 		}
 		for _, procs := range []int{1, 2} {
 			runtime.GOMAXPROCS(procs)
-			got, err := p.allExtremes()
+			got, err := p.allExtremes(nil)
 			if err != nil {
 				t.Fatal(err)
 			}

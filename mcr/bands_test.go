@@ -2,6 +2,9 @@ package mcr
 
 import (
 	"math"
+	"reflect"
+	"runtime"
+	"sync"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -217,6 +220,40 @@ func TestBandsWideAndContainTruth(t *testing.T) {
 	for i, v := range known.Bands[0].MaxSpectrum {
 		if math.Abs(v-s1.At(i, 0)) > 1e-12 {
 			t.Fatalf("known spectrum moved at channel %d: %g vs %g", i, v, s1.At(i, 0))
+		}
+	}
+}
+
+// Found gives each component's band once, as soon as both of its ends are
+// found, and it is the band FeasibleBands returns (the same values and the
+// same slices), at any number of workers. Checked on the three-component
+// system without selectivity (invented, as above), whose bands are wide.
+func TestBandsFoundAsReturned(t *testing.T) {
+	c, s := threeComponent(false)
+	for _, procs := range []int{1, 2, 3} {
+		old := runtime.GOMAXPROCS(procs)
+		var mu sync.Mutex
+		found := map[int][]Band{}
+		got, err := FeasibleBands(c, s, BandOptions{Mode: Species, Tolerance: 1e-4, Found: func(j int, b Band) {
+			mu.Lock()
+			defer mu.Unlock()
+			found[j] = append(found[j], b)
+		}})
+		runtime.GOMAXPROCS(old)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for j, b := range got.Bands {
+			if len(found[j]) != 1 {
+				t.Fatalf("GOMAXPROCS %d: component %d found %d times, want once", procs, j+1, len(found[j]))
+			}
+			f := found[j][0]
+			if !reflect.DeepEqual(f, b) || &f.MinProfile[0] != &b.MinProfile[0] || &f.MaxSpectrum[0] != &b.MaxSpectrum[0] {
+				t.Errorf("GOMAXPROCS %d: component %d found %+v, returned %+v", procs, j+1, f, b)
+			}
+		}
+		if len(found) != len(got.Bands) {
+			t.Errorf("GOMAXPROCS %d: %d components found, %d returned", procs, len(found), len(got.Bands))
 		}
 	}
 }

@@ -65,7 +65,7 @@ func TestRangeSearchFaultReachesTheCaller(t *testing.T) {
 	p.c = c.Slice(0, n, 0, k-1).(*mat.Dense)
 	for _, procs := range []int{1, 2} {
 		runtime.GOMAXPROCS(procs)
-		got := fanouttest.Recovered(t, func() { p.allExtremes() })
+		got := fanouttest.Recovered(t, func() { p.allExtremes(nil) })
 		if got != mat.ErrShape {
 			t.Errorf("GOMAXPROCS %d: the caller recovered %v, want %v", procs, got, mat.ErrShape)
 		}

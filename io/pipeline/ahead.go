@@ -53,6 +53,9 @@ type ahead struct {
 	second  report.Predrawn
 	part    *later[partTables] // the tables they are drawn from
 	closing sync.Once          // closes tasks
+	// blocks are uniqueness.csv's row blocks formatted as the ranges are
+	// found (bandsFound), nil until then.
+	blocks *bandBlocks
 }
 
 // startAhead begins the goroutine; a nil ahead does nothing.
@@ -101,6 +104,27 @@ func (a *ahead) wait() {
 	for _, d := range a.drawing {
 		d.get()
 	}
+	a.blocks.wait()
+}
+
+// bandsFound is the mcr.BandOptions.Found that formats r's uniqueness.csv
+// by row blocks as the ranges are found (bandBlocks), parsed for the
+// figures drawn beside the writers when no bootstrap intervals will be
+// shaded with them (drawsResults); nil without a.
+func (a *ahead) bandsFound(r *Result) func(j int, b mcr.Band) {
+	if a == nil {
+		return nil
+	}
+	a.blocks = &bandBlocks{parse: a.drawing == nil && r.Settings.Replicates == 0}
+	return a.blocks.found(r)
+}
+
+// bandBlocks are the blocks bandsFound began (nil without).
+func (a *ahead) bandBlocks() *bandBlocks {
+	if a == nil {
+		return nil
+	}
+	return a.blocks
 }
 
 // waitTasks ends the goroutine once its tasks are done, leaving the

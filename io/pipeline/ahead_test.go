@@ -63,7 +63,8 @@ func sameAsFromFiles(t *testing.T, r *Result, out string) {
 // demo (no baseline, nothing set aside) every figure is taken from those
 // drawn ahead (the spectra and profiles, which wait for the uniqueness
 // ranges, drawn beside the writers), maps.csv is joined from the parts
-// formatted ahead and efa.csv is the one formatted ahead.
+// formatted ahead, efa.csv is the one formatted ahead and uniqueness.csv is
+// joined from its row blocks formatted as the ranges were found.
 func TestFiguresDrawnAheadOnTheDemo(t *testing.T) {
 	out := filepath.Join(t.TempDir(), "demo")
 	r, err := Demo(out, false, true, false, Streams{Out: io.Discard, Err: io.Discard})
@@ -81,6 +82,14 @@ func TestFiguresDrawnAheadOnTheDemo(t *testing.T) {
 	}
 	if _, ok := r.ahead.efaFile(r); !ok {
 		t.Error("efa.csv was not the one formatted ahead")
+	}
+	// uniqueness.csv joined from the blocks formatted as the ranges were
+	// found, the file bandsCSV makes in one piece.
+	if f, ok := r.ahead.bandBlocks().join(r, true); !ok || f.table == nil || !bytes.Equal(f.csv, bandsCSV(r)) {
+		t.Errorf("uniqueness.csv was not joined from the blocks formatted as the ranges were found (joined: %v)", ok)
+	}
+	if b, err := os.ReadFile(filepath.Join(out, "uniqueness.csv")); err != nil || !bytes.Equal(b, bandsCSV(r)) {
+		t.Errorf("uniqueness.csv differs from bandsCSV's (%v)", err)
 	}
 }
 

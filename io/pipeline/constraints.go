@@ -4,11 +4,13 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
 
 	"github.com/bandsolve/bandsolve/internal/fanout"
+	"github.com/bandsolve/bandsolve/internal/vecmath"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/report"
 	"github.com/bandsolve/bandsolve/io/spectra"
@@ -639,6 +641,9 @@ func computeBands(r *Result, opt mcr.Options, log io.Writer) []string {
 		Closure: opt.Closure, ClosureWeights: opt.ClosureWeights,
 		ZeroProfiles: opt.ZeroProfiles, ZeroSpectra: opt.ZeroSpectra, Known: known,
 		ResidualSS: bandsRSS(r), Alpha: alpha,
+		// uniqueness.csv's rows of each component are formatted from the
+		// moment its range is found, beside the other searches.
+		Found: r.ahead.bandsFound(r),
 	})
 	if err != nil {
 		rep.BandsNote = fmt.Sprintf("uniqueness ranges not computed: %v", err)
@@ -786,17 +791,29 @@ func (sr sideRows) bandsPart(r *Result, from, to, size int) *output.CSV {
 	w.Row(bandsHeader)
 	s, c := r.ALS.S, r.ALS.C
 	for q := from; q < to; q++ {
-		j, band := q/2, r.Constraints.Bands.Bands[q/2]
-		conv := []string{strconv.FormatBool(band.MinConverged), strconv.FormatBool(band.MaxConverged)}
-		if q%2 == 0 {
-			sr.writeText(&w, j, "spectrum", conv, func(i int) float64 { return s.At(i, j) },
-				func(i int) float64 { return band.MinSpectrum[i] }, func(i int) float64 { return band.MaxSpectrum[i] })
-		} else {
-			sr.writeText(&w, j, "profile", conv, func(i int) float64 { return c.At(i, j) },
-				func(i int) float64 { return band.MinProfile[i] }, func(i int) float64 { return band.MaxProfile[i] })
+		j, band := q/2, &r.Constraints.Bands.Bands[q/2]
+		solution := func(i int) float64 { return s.At(i, j) }
+		if q%2 == 1 {
+			solution = func(i int) float64 { return c.At(i, j) }
 		}
+		sr.writeBlock(&w, q, solution, band)
 	}
 	return &w
+}
+
+// writeBlock writes uniqueness.csv's row block q (component q/2's
+// spectrum when q is even, its profile when odd) of band, the solution's
+// values given by solution.
+func (sr sideRows) writeBlock(w *output.CSV, q int, solution func(i int) float64, band *mcr.Band) {
+	j := q / 2
+	conv := []string{strconv.FormatBool(band.MinConverged), strconv.FormatBool(band.MaxConverged)}
+	if q%2 == 0 {
+		sr.writeText(w, j, "spectrum", conv, solution,
+			func(i int) float64 { return band.MinSpectrum[i] }, func(i int) float64 { return band.MaxSpectrum[i] })
+	} else {
+		sr.writeText(w, j, "profile", conv, solution,
+			func(i int) float64 { return band.MinProfile[i] }, func(i int) float64 { return band.MaxProfile[i] })
+	}
 }
 
 // blockRows is the number of rows of uniqueness.csv's row block q.
@@ -818,12 +835,43 @@ type sideRows struct {
 	axis, times, exper [][]byte
 }
 
-func newSideRows(r *Result) sideRows {
-	sr := sideRows{names: r.Names, axis: formatted(r.Axis), times: formatted(r.Times), exper: make([][]byte, len(r.Times))}
+func newSideRows(r *Result) sideRows { return rowInputsOf(r, false).sideRows() }
+
+// rowInputs are what the rows of uniqueness.csv and intervals.csv take
+// from the run besides the values: the component names, the axis, the
+// times and, with several experiments, each time's experiment (0-based;
+// nil with one).
+type rowInputs struct {
+	names       []string
+	axis, times []float64
+	exp         []int
+}
+
+// rowInputsOf is r's row inputs, copies of them with clone.
+func rowInputsOf(r *Result, clone bool) rowInputs {
+	in := rowInputs{names: r.Names, axis: r.Axis, times: r.Times}
+	if len(r.Experiments) > 1 {
+		in.exp = r.ExpOfRow[:len(r.Times)]
+	}
+	if clone {
+		in = rowInputs{names: slices.Clone(in.names), axis: slices.Clone(in.axis), times: slices.Clone(in.times), exp: slices.Clone(in.exp)}
+	}
+	return in
+}
+
+// same says the rows of in and o are the same text: the same names and
+// exactly the same numbers.
+func (in rowInputs) same(o rowInputs) bool {
+	return slices.Equal(in.names, o.names) && vecmath.SameBits(in.axis, o.axis) && vecmath.SameBits(in.times, o.times) &&
+		slices.Equal(in.exp, o.exp) && (in.exp == nil) == (o.exp == nil)
+}
+
+func (in rowInputs) sideRows() sideRows {
+	sr := sideRows{names: in.names, axis: formatted(in.axis), times: formatted(in.times), exper: make([][]byte, len(in.times))}
 	for i := range sr.exper {
 		sr.exper[i] = []byte("1")
-		if len(r.Experiments) > 1 {
-			sr.exper[i] = strconv.AppendInt(nil, int64(r.ExpOfRow[i]+1), 10)
+		if in.exp != nil {
+			sr.exper[i] = strconv.AppendInt(nil, int64(in.exp[i]+1), 10)
 		}
 	}
 	return sr

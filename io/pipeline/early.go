@@ -2,9 +2,19 @@ package pipeline
 
 import (
 	"bytes"
+	"math"
+	"runtime/metrics"
+	"slices"
+	"sync"
+	"sync/atomic"
+	"time"
 
 	"github.com/bandsolve/bandsolve/internal/fanout"
+	"github.com/bandsolve/bandsolve/internal/vecmath"
+	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/report"
+	"github.com/bandsolve/bandsolve/mcr"
+	"gonum.org/v1/gonum/mat"
 )
 
 // later is a value computed on its own goroutine from startLater on and taken
@@ -99,6 +109,9 @@ type bandsFile struct {
 // records of the header and first half followed by those of the second
 // half are the records of the whole.
 func formatBands(r *Result, parse bool) bandsFile {
+	if f, ok := r.ahead.bandBlocks().join(r, parse); ok {
+		return f
+	}
 	sr := newSideRows(r)
 	blocks := 2 * len(r.Constraints.Bands.Bands)
 	h, rows := sr.halfOfBlocks(blocks)
@@ -147,4 +160,179 @@ func (sr sideRows) bandsHalf(r *Result, from, to, size int, parse bool) bandsFil
 		f.table, _ = report.ParseTable("uniqueness.csv", f.csv)
 	}
 	return f
+}
+
+// bandBlocks are uniqueness.csv's row blocks formatted, and parsed for the
+// figures, while the uniqueness ranges of the other components are still
+// searched: each component's spectrum and profile blocks on goroutines of
+// their own from the moment both ends of its range are found
+// (mcr.BandOptions.Found). The searches' last minutes keep one core of two
+// busy, and the writing phase, which waited for the whole file before the
+// figures could begin, is left the last component's blocks.
+//
+// Nothing formatted ahead is trusted as it is: each block keeps copies of
+// the values it was formatted from, taken where the band was found (the
+// run's goroutine waits in the search then), and the blocks are joined
+// into the file only where the run's final values are the same bits
+// (join); otherwise the file is formatted at its writer's turn as before.
+type bandBlocks struct {
+	parse  bool
+	due    atomic.Bool // the file is waited for: no more stepping aside
+	shared sync.Once
+	in     rowInputs // the first band's copy
+	sr     sideRows  // in's rows, formatted once
+	blocks []*later[bandBlock]
+}
+
+// bandBlock is one row block: its file (header and rows), its table when
+// parsed, and the values it was formatted from.
+type bandBlock struct {
+	csv                    []byte
+	table                  *report.Table
+	solution, atMin, atMax []float64
+	conv                   [2]bool
+}
+
+// found is the mcr.BandOptions.Found that begins r's blocks (nil when bb
+// is nil). It runs on a search goroutine while the run's goroutine waits
+// for the searches, and copies what the blocks read from r.
+func (bb *bandBlocks) found(r *Result) func(j int, b mcr.Band) {
+	if bb == nil {
+		return nil
+	}
+	k := r.Components
+	bb.blocks = make([]*later[bandBlock], 2*k)
+	var first sync.Once
+	return func(j int, b mcr.Band) {
+		first.Do(func() { bb.in = rowInputsOf(r, true) })
+		for side, q := range []int{2 * j, 2*j + 1} {
+			blk := bandBlock{conv: [2]bool{b.MinConverged, b.MaxConverged}}
+			if side == 0 {
+				blk.solution, blk.atMin, blk.atMax = mat.Col(nil, j, r.ALS.S), slices.Clone(b.MinSpectrum), slices.Clone(b.MaxSpectrum)
+			} else {
+				blk.solution, blk.atMin, blk.atMax = mat.Col(nil, j, r.ALS.C), slices.Clone(b.MinProfile), slices.Clone(b.MaxProfile)
+			}
+			bb.blocks[q] = startLater(func() bandBlock { return bb.format(q, blk) })
+		}
+	}
+}
+
+// format writes block q of blk's values, at a low priority until the
+// file is waited for: while any goroutine waits for a processor (the
+// searches, the checks, the figures drawn ahead keep both cores busy until
+// the searches' last minutes) it sleeps rather than take one from them,
+// as the inputs' hashing does (hashYielding).
+func (bb *bandBlocks) format(q int, blk bandBlock) bandBlock {
+	waiting := []metrics.Sample{{Name: "/sched/goroutines/runnable:goroutines"}}
+	for !bb.due.Load() && stepAside(waiting) {
+		time.Sleep(hashPause)
+	}
+	bb.shared.Do(func() { bb.sr = bb.in.sideRows() })
+	band := mcr.Band{MinConverged: blk.conv[0], MaxConverged: blk.conv[1]}
+	band.MinSpectrum, band.MaxSpectrum = blk.atMin, blk.atMax
+	if q%2 == 1 {
+		band.MinSpectrum, band.MaxSpectrum = nil, nil
+		band.MinProfile, band.MaxProfile = blk.atMin, blk.atMax
+	}
+	var w output.CSV
+	w.Grow(sizeOfRows(len(blk.solution) + 1))
+	w.Row(bandsHeader)
+	bb.sr.writeBlock(&w, q, func(i int) float64 { return blk.solution[i] }, &band)
+	blk.csv = w.Bytes()
+	if bb.parse {
+		blk.table, _ = report.ParseTable("uniqueness.csv", blk.csv)
+	}
+	return blk
+}
+
+// holds says block q of r's uniqueness.csv would be formatted from the
+// same bits as blk was.
+func (blk bandBlock) holds(r *Result, q int) bool {
+	j, band := q/2, r.Constraints.Bands.Bands[q/2]
+	if blk.conv != [2]bool{band.MinConverged, band.MaxConverged} {
+		return false
+	}
+	if q%2 == 0 {
+		return sameColumn(blk.solution, r.ALS.S, j) && vecmath.SameBits(blk.atMin, band.MinSpectrum) && vecmath.SameBits(blk.atMax, band.MaxSpectrum)
+	}
+	return sameColumn(blk.solution, r.ALS.C, j) && vecmath.SameBits(blk.atMin, band.MinProfile) && vecmath.SameBits(blk.atMax, band.MaxProfile)
+}
+
+// sameColumn says x holds column j of a, bit for bit.
+func sameColumn(x []float64, a *mat.Dense, j int) bool {
+	if n, k := a.Dims(); n != len(x) || j >= k {
+		return false
+	}
+	for i, v := range x {
+		if math.Float64bits(v) != math.Float64bits(a.At(i, j)) {
+			return false
+		}
+	}
+	return true
+}
+
+// join is uniqueness.csv put together from the blocks, with its table
+// when asked and every block was parsed; ok is false when a block is
+// missing or r's values are no longer those a block was formatted from.
+func (bb *bandBlocks) join(r *Result, parse bool) (f bandsFile, ok bool) {
+	if bb == nil || len(bb.blocks) != 2*len(r.Constraints.Bands.Bands) {
+		return f, false
+	}
+	bb.due.Store(true)
+	blocks := make([]bandBlock, len(bb.blocks))
+	for q, l := range bb.blocks {
+		if blocks[q], ok = l.get(); !ok {
+			return f, false
+		}
+	}
+	if len(blocks) == 0 || !bb.in.same(rowInputsOf(r, false)) {
+		return f, false
+	}
+	size := 0
+	for q, blk := range blocks {
+		if !blk.holds(r, q) {
+			return f, false
+		}
+		size += len(blk.csv)
+	}
+	// The file is the header and each block's rows after it; the table
+	// the header's and the blocks' records in turn (see formatBands).
+	header := bytes.IndexByte(blocks[0].csv, '\n') + 1
+	f.csv = append(make([]byte, 0, size), blocks[0].csv[:header]...)
+	rows := 0
+	for _, blk := range blocks {
+		f.csv = append(f.csv, blk.csv[header:]...)
+		if blk.table != nil {
+			rows += len(blk.table.Text)
+		}
+	}
+	if parse {
+		t := &report.Table{}
+		for _, blk := range blocks {
+			if blk.table == nil {
+				t = nil
+				break
+			}
+			if t.Text == nil {
+				*t = *blk.table
+				t.Text = make([][]string, 0, rows)
+			}
+			t.Text = append(t.Text, blk.table.Text...)
+		}
+		f.table = t
+	}
+	return f, true
+}
+
+// wait returns once every block is formatted (none when bb is nil): no
+// goroutine outlives the run.
+func (bb *bandBlocks) wait() {
+	if bb != nil {
+		bb.due.Store(true)
+		for _, l := range bb.blocks {
+			if l != nil {
+				<-l.done
+			}
+		}
+	}
 }

@@ -5,6 +5,7 @@ import (
 	"encoding/csv"
 	"math"
 	"reflect"
+	"slices"
 	"strconv"
 	"testing"
 
@@ -18,7 +19,7 @@ import (
 // file's layout, not the ranges).
 func uniquenessResult(names []string, m, n int) *Result {
 	k := len(names)
-	r := &Result{Names: names, ALS: &mcr.Result{S: mat.NewDense(m, k, nil), C: mat.NewDense(n, k, nil)},
+	r := &Result{Names: names, Components: k, ALS: &mcr.Result{S: mat.NewDense(m, k, nil), C: mat.NewDense(n, k, nil)},
 		Constraints: &ConstraintReport{Bands: &mcr.BandsResult{}}}
 	for i := 0; i < m; i++ {
 		r.Axis = append(r.Axis, 400+1.5*float64(i))
@@ -90,6 +91,74 @@ func TestBandsInHalvesAreTheFile(t *testing.T) {
 		}
 		if !reflect.DeepEqual(got.table.Header, recs[0]) || !reflect.DeepEqual(got.table.Text, recs[1:]) {
 			t.Errorf("%v: the halves' table is not the file's records", c.names)
+		}
+	}
+}
+
+// uniqueness.csv joined from the row blocks formatted as each component's
+// range is found (bandBlocks), in whatever order the components come, is
+// the file made in one, and its table the file's records as encoding/csv
+// reads them (RFC 4180, the standard library's reader); with two
+// experiments too. A value, name, time or convergence flag changed after a
+// block was formatted makes the join refuse the blocks, and the file is
+// then the one the changed values give.
+func TestBandBlocksAreTheFile(t *testing.T) {
+	for _, c := range []struct {
+		names []string
+		m, n  int
+		exps  int
+	}{
+		{[]string{"A", "B", "C", "D", "E"}, 301, 200, 1},
+		{[]string{"A"}, 7, 5, 1},
+		{[]string{"A", "B, hydrolysed"}, 11, 9, 2},
+		{[]string{"A \"dry\"", "B\nsecond line"}, 6, 4, 1},
+	} {
+		changes := map[string]func(r *Result){
+			"nothing":    func(r *Result) {},
+			"a profile":  func(r *Result) { r.ALS.C.Set(c.n-1, len(c.names)-1, 7) },
+			"a spectrum": func(r *Result) { r.Constraints.Bands.Bands[0].MaxSpectrum[0] = -1 },
+			"a name":     func(r *Result) { r.Names[0] = "Z" },
+			"a time":     func(r *Result) { r.Times[1] = 31 },
+			"a converged": func(r *Result) {
+				r.Constraints.Bands.Bands[0].MinConverged = !r.Constraints.Bands.Bands[0].MinConverged
+			},
+		}
+		for what, change := range changes {
+			r := uniquenessResult(slices.Clone(c.names), c.m, c.n)
+			if c.exps > 1 {
+				r.Experiments = make([]*Experiment, c.exps)
+				for i := range r.ExpOfRow {
+					r.ExpOfRow[i] = i * c.exps / c.n
+				}
+			}
+			bb := &bandBlocks{parse: true}
+			found := bb.found(r)
+			for j := len(c.names) - 1; j >= 0; j-- {
+				found(j, r.Constraints.Bands.Bands[j])
+			}
+			bb.wait()
+			change(r)
+			got, ok := bb.join(r, true)
+			if ok != (what == "nothing") {
+				t.Fatalf("%v: %s changed, the blocks joined: %v", c.names, what, ok)
+			}
+			if !ok {
+				continue
+			}
+			want := bandsCSV(r)
+			if !bytes.Equal(got.csv, want) {
+				t.Errorf("%v: the blocks' file differs from the file made in one", c.names)
+			}
+			recs, err := csv.NewReader(bytes.NewReader(want)).ReadAll()
+			if err != nil {
+				t.Fatalf("%v: %v", c.names, err)
+			}
+			if got.table == nil || !reflect.DeepEqual(got.table.Header, recs[0]) || !reflect.DeepEqual(got.table.Text, recs[1:]) {
+				t.Errorf("%v: the blocks' table is not the file's records", c.names)
+			}
+			if exp := recs[len(recs)-1][2]; exp != strconv.Itoa(c.exps) {
+				t.Errorf("%v: the last row's experiment %q, want %d", c.names, exp, c.exps)
+			}
 		}
 	}
 }
