@@ -185,13 +185,22 @@ func (a *ahead) aheadResults(r *Result, st *output.Stage) {
 		})
 		return p
 	})
-	// The files of the figures drawn so far, and of each of the two once
-	// drawn, are written now (output.Stage.Prewrite), to be listed at the
-	// report's turn where it takes them: their writing and flushing leave
-	// the report's path.
+	// The files of each of the two figures once drawn, and of the figures
+	// drawn before once the first of the two is, are written ahead
+	// (output.Stage.Prewrite), to be listed at the report's turn where it
+	// takes them: their writing and flushing leave the report's path. The
+	// figures drawn before wait for one of the two: written at the
+	// phase's start, their 16 flushes, one after another on the same
+	// processors, held both while the figures waited (a flush's system
+	// call keeps its processor until the scheduler's monitor takes it
+	// back, up to 10 ms; docs/performance.md, "Writing after the ranges",
+	// thirteenth round); once one figure is drawn its processor is free
+	// while the other's is drawn.
 	early := a.pre.Files()
+	drawn := make(chan struct{}, 2) // each figure's goroutine says it ended
 	draw := func(p *report.Predrawn, id string) *later[bool] {
 		return startLater(func() bool {
+			defer func() { drawn <- struct{}{} }()
 			return runTask(func() {
 				if part, _ := a.part.get(); part.folder != nil {
 					p.Draw(part.folder, id)
@@ -201,7 +210,7 @@ func (a *ahead) aheadResults(r *Result, st *output.Stage) {
 		})
 	}
 	a.drawing = []*later[bool]{draw(&a.pre, "fig-spectra"), draw(&a.second, "fig-profiles"),
-		startLater(func() bool { return runTask(func() { prewrite(st, early) }) })}
+		startLater(func() bool { <-drawn; return runTask(func() { prewrite(st, early) }) })}
 }
 
 // drawsResults says aheadResults draws r's spectra and profiles figures
