@@ -39,11 +39,7 @@ func dilutedPair(n, m int, dilute float64) *mat.Dense {
 func TestClosureCheckSeesDilution(t *testing.T) {
 	n, m := 40, 50
 	build := func(dilute float64) *mat.Dense { return dilutedPair(n, m, dilute) }
-	c0 := mat.NewDense(n, 2, nil)
-	for i := 0; i < n; i++ {
-		u := float64(i) / float64(n-1)
-		c0.SetRow(i, []float64{1 - u, u})
-	}
+	c0 := linearPairStart(n)
 	opt := Options{Mode: Species, Closure: true, Total: []float64{1}}
 	for _, dil := range []float64{0, 0.3} {
 		d := build(dil)
@@ -125,11 +121,7 @@ func TestCheckRestartChosenByCaller(t *testing.T) {
 			d.Set(i, j, v+1e-3*math.Pow(10, v)*rng.NormFloat64())
 		}
 	}
-	c0 := mat.NewDense(n, 2, nil)
-	for i := 0; i < n; i++ {
-		u := float64(i) / float64(n-1)
-		c0.SetRow(i, []float64{1 - u, u})
-	}
+	c0 := linearPairStart(n)
 	opt := Options{Mode: Species, Closure: true, Total: []float64{1}}
 	fit, err := Resolve(Dense{d}, c0, opt)
 	if err != nil {
@@ -194,11 +186,7 @@ func TestChecksSideBySideSameAsAlone(t *testing.T) {
 			d.Set(i, j, d.At(i, j)+1e-3*rng.NormFloat64())
 		}
 	}
-	c0 := mat.NewDense(n, 2, nil)
-	for i := 0; i < n; i++ {
-		u := float64(i) / float64(n-1)
-		c0.SetRow(i, []float64{1 - u, u})
-	}
+	c0 := linearPairStart(n)
 	opt := Options{Mode: Species, Closure: true, Total: []float64{1}}
 	fit, err := Resolve(Dense{d}, c0, opt)
 	if err != nil {
@@ -230,4 +218,15 @@ func TestChecksSideBySideSameAsAlone(t *testing.T) {
 			}
 		}
 	}
+}
+
+// linearPairStart is a start for two species, the first falling linearly
+// from 1 to 0 over n rows and the second rising (closure holds).
+func linearPairStart(n int) *mat.Dense {
+	c0 := mat.NewDense(n, 2, nil)
+	for i := 0; i < n; i++ {
+		u := float64(i) / float64(n-1)
+		c0.SetRow(i, []float64{1 - u, u})
+	}
+	return c0
 }
