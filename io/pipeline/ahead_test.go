@@ -233,7 +233,7 @@ func TestResultFiguresRedrawnWhenTheirFilesChange(t *testing.T) {
 	if err := stage.Write("spectra.csv", changed); err != nil {
 		t.Fatal(err)
 	}
-	for _, w := range append(append([]func(*Result, *output.Stage) error(nil), afterWrite...), lastWrite...) {
+	for _, w := range writersAfterResults() {
 		if err := w(r, stage); err != nil {
 			t.Fatal(err)
 		}

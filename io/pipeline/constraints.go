@@ -724,10 +724,6 @@ func constraintSummary(r *Result, s *Summary) {
 	}
 }
 
-func init() {
-	afterWrite = append(afterWrite, writeBandsAndIntervals)
-}
-
 // writeBandsAndIntervals writes uniqueness.csv and intervals.csv (columns
 // in docs/constraints.md). uniqueness.csv is also written as bands.csv, its
 // name before the rename, until 1.0 (CONTRACT.md).

@@ -33,8 +33,6 @@ type EFAReport struct {
 	Threshold []float64
 }
 
-func init() { afterWrite = append(afterWrite, writeEFA) }
-
 // computeEFA runs EFA with one factor more than the components, so the
 // noise level shows as the first curve that stays flat.
 // It runs once per analysis: the second ALS start (--init auto) and --init

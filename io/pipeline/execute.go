@@ -127,13 +127,8 @@ func finish(r *Result, stage *output.Stage, extra Extra, st Streams) error {
 	// writers that follow (ahead.go).
 	r.ahead.aheadResults(r, stage)
 	defer r.ahead.wait()
-	for _, h := range afterWrite {
-		if err := h(r, stage); err != nil {
-			return err
-		}
-	}
-	for _, h := range lastWrite {
-		if err := h(r, stage); err != nil {
+	for _, write := range writersAfterResults() {
+		if err := write(r, stage); err != nil {
 			return err
 		}
 	}
@@ -166,13 +161,15 @@ func printSummary(r *Result, st Streams) {
 	}
 }
 
-// afterWrite are the writers other files of the package register (report,
-// as-run record) so Execute stays one path for every command.
-var afterWrite []func(r *Result, stage *output.Stage) error
-
-// lastWrite run after every afterWrite writer: the report, which is built
-// from the staged files and must see all of them.
-var lastWrite []func(r *Result, stage *output.Stage) error
+// writersAfterResults are the writers that follow WriteResults, in the
+// order Execute runs them, one path for every command; the last, the
+// report, is built from the staged files and must see all of them.
+func writersAfterResults() []func(*Result, *output.Stage) error {
+	return []func(*Result, *output.Stage) error{
+		writeBandsAndIntervals, writeEFA, writeSpectraJCAMP, writeNoise, writeBaseline, writeRecord, writeMaps,
+		writeReport,
+	}
+}
 
 // Demo makes the invented data set, writes it into out/input, resolves it
 // exactly as `resolve` would and compares the answer with the truth.

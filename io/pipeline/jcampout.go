@@ -13,10 +13,6 @@ import (
 // that open format rather than CSV.
 const SpectraJCAMP = "spectra.jdx"
 
-func init() {
-	afterWrite = append(afterWrite, writeSpectraJCAMP)
-}
-
 // writeSpectraJCAMP writes one block per component into a LINK file
 // (JCAMP-DX 5.01: a ##DATA TYPE=LINK block holding ##BLOCKS= blocks, each
 // with its ##BLOCK_ID; from memory of McDonald & Wilks 1988 and the 5.01

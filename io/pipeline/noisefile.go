@@ -6,8 +6,6 @@ import (
 	"github.com/bandsolve/bandsolve/io/output"
 )
 
-func init() { afterWrite = append(afterWrite, writeNoise) }
-
 // writeNoise writes the noise model the fit was weighted with, so that
 // every weighted figure can be recomputed from the files: noise.csv holds
 // σ_j per channel of a typical spectrum and noise_spectra.csv the factor

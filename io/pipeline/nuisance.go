@@ -661,8 +661,6 @@ func nuisanceSummary(r *Result) []output.NuisanceJSON {
 	return out
 }
 
-func init() { afterWrite = append(afterWrite, writeBaseline) }
-
 // writeBaseline writes baseline.csv: each spectrum's baseline coefficients on the
 // Legendre polynomials of the axis scaled to [−1, 1] (column P0 is the offset, P1 the
 // slope from one end of the axis to the middle, …).

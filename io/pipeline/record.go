@@ -140,10 +140,6 @@ func applyCommandFile(f *cmdfile.File, path string, s *Settings, skip map[string
 	return f, nil
 }
 
-func init() {
-	afterWrite = append(afterWrite, writeRecord)
-}
-
 // folders works out, for a run being written into stage, the output folder
 // and the folder relative paths were taken from, both absolute. A settings
 // folder that is the staging folder itself (the demo reads its inputs from

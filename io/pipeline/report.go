@@ -15,10 +15,6 @@ import (
 // results; report.html is built last, from the staged files alone, so that
 // it shows what every other writer added (as-run record, manifest) and so
 // that `bandsolve report OUT` rebuilds the same bytes from the folder.
-func init() {
-	afterWrite = append(afterWrite, writeMaps)
-	lastWrite = append(lastWrite, writeReport)
-}
 
 func writeMaps(r *Result, stage *output.Stage) error {
 	if !wantMaps(r) {

@@ -42,11 +42,9 @@ func BenchmarkWrite2000x3001(b *testing.B) {
 			fmt.Fprintf(&log, "  %-28s %7.3f s CPU\n", name, cputime.Process()-c)
 		}
 		step("WriteResults", func() error { return WriteResults(r, stage) })
-		for _, hs := range [][]func(*Result, *output.Stage) error{afterWrite, lastWrite} {
-			for _, h := range hs {
-				name := runtime.FuncForPC(reflect.ValueOf(h).Pointer()).Name()
-				step(name[strings.LastIndex(name, ".")+1:], func() error { return h(r, stage) })
-			}
+		for _, h := range writersAfterResults() {
+			name := runtime.FuncForPC(reflect.ValueOf(h).Pointer()).Name()
+			step(name[strings.LastIndex(name, ".")+1:], func() error { return h(r, stage) })
 		}
 		total = cputime.Process() - c0
 		if err := stage.Commit(); err != nil {
