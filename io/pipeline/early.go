@@ -7,7 +7,6 @@ import (
 	"slices"
 	"sync"
 	"sync/atomic"
-	"time"
 
 	"github.com/bandsolve/bandsolve/internal/fanout"
 	"github.com/bandsolve/bandsolve/internal/vecmath"
@@ -224,9 +223,7 @@ func (bb *bandBlocks) found(r *Result) func(j int, b mcr.Band) {
 // as the inputs' hashing does (hashYielding).
 func (bb *bandBlocks) format(q int, blk bandBlock) bandBlock {
 	waiting := []metrics.Sample{{Name: "/sched/goroutines/runnable:goroutines"}}
-	for !bb.due.Load() && stepAside(waiting) {
-		time.Sleep(hashPause)
-	}
+	sleepWhileBusy(waiting, func() bool { return !bb.due.Load() })
 	bb.shared.Do(func() { bb.sr = bb.in.sideRows() })
 	band := mcr.Band{MinConverged: blk.conv[0], MaxConverged: blk.conv[1]}
 	band.MinSpectrum, band.MaxSpectrum = blk.atMin, blk.atMax

@@ -716,14 +716,22 @@ func hashYielding(f io.Reader, name string, turn *hashTurn) (int64, string, erro
 		if err != nil {
 			return 0, "", fmt.Errorf("%s: %w", name, err)
 		}
-		for !turn.stop.Load() && !turn.needed.Load() && stepAside(waiting) {
-			time.Sleep(hashPause)
-		}
+		sleepWhileBusy(waiting, func() bool { return !turn.stop.Load() && !turn.needed.Load() })
 		if turn.stop.Load() {
 			return 0, "", errHashStopped
 		}
 	}
 	return n, hex.EncodeToString(h.Sum(nil)), nil
+}
+
+// sleepWhileBusy is a low-priority goroutine's wait: while stillLow holds
+// and any goroutine waits for a processor (stepAside, into sample), it
+// sleeps hashPause rather than take a processor from them. Sleeping, it
+// holds no run queue, unlike runtime.Gosched (see hashYielding).
+func sleepWhileBusy(sample []metrics.Sample, stillLow func() bool) {
+	for stillLow() && stepAside(sample) {
+		time.Sleep(hashPause)
+	}
 }
 
 // stepAside says a goroutine waits for a processor, read into sample (the
