@@ -2,8 +2,6 @@ package pipeline
 
 import (
 	"bytes"
-	"math"
-	"runtime/metrics"
 	"slices"
 	"sync"
 	"sync/atomic"
@@ -222,8 +220,7 @@ func (bb *bandBlocks) found(r *Result) func(j int, b mcr.Band) {
 // the searches' last minutes) it sleeps rather than take one from them,
 // as the inputs' hashing does (hashYielding).
 func (bb *bandBlocks) format(q int, blk bandBlock) bandBlock {
-	waiting := []metrics.Sample{{Name: "/sched/goroutines/runnable:goroutines"}}
-	sleepWhileBusy(waiting, func() bool { return !bb.due.Load() })
+	sleepWhileBusy(runnableSample(), func() bool { return !bb.due.Load() })
 	bb.shared.Do(func() { bb.sr = bb.in.sideRows() })
 	band := mcr.Band{MinConverged: blk.conv[0], MaxConverged: blk.conv[1]}
 	band.MinSpectrum, band.MaxSpectrum = blk.atMin, blk.atMax
@@ -257,15 +254,8 @@ func (blk bandBlock) holds(r *Result, q int) bool {
 
 // sameColumn says x holds column j of a, bit for bit.
 func sameColumn(x []float64, a *mat.Dense, j int) bool {
-	if n, k := a.Dims(); n != len(x) || j >= k {
-		return false
-	}
-	for i, v := range x {
-		if math.Float64bits(v) != math.Float64bits(a.At(i, j)) {
-			return false
-		}
-	}
-	return true
+	n, k := a.Dims()
+	return n == len(x) && j < k && vecmath.SameBits(x, mat.Col(nil, j, a))
 }
 
 // join is uniqueness.csv put together from the blocks, with its table

@@ -704,7 +704,7 @@ const hashPause = 200 * time.Microsecond
 func hashYielding(f io.Reader, name string, turn *hashTurn) (int64, string, error) {
 	h := sha256.New()
 	buf := make([]byte, hashPiece)
-	waiting := []metrics.Sample{{Name: "/sched/goroutines/runnable:goroutines"}}
+	waiting := runnableSample()
 	var n int64
 	for {
 		k, err := io.ReadFull(f, buf)
@@ -732,6 +732,12 @@ func sleepWhileBusy(sample []metrics.Sample, stillLow func() bool) {
 	for stillLow() && stepAside(sample) {
 		time.Sleep(hashPause)
 	}
+}
+
+// runnableSample is stepAside's sample: the runtime's count of goroutines
+// waiting for a processor.
+func runnableSample() []metrics.Sample {
+	return []metrics.Sample{{Name: "/sched/goroutines/runnable:goroutines"}}
 }
 
 // stepAside says a goroutine waits for a processor, read into sample (the
