@@ -120,8 +120,7 @@ func loadRecord(path string, src []byte, s *Settings) error {
 
 func applyCommandFile(f *cmdfile.File, path string, s *Settings, skip map[string]bool) (*cmdfile.File, error) {
 	s.Dir = f.Dir(filepath.Dir(path))
-	var err error
-	err = f.Apply(func(e cmdfile.Entry) error {
+	err := f.Apply(func(e cmdfile.Entry) error {
 		if skip[e.Key] {
 			return nil
 		}

@@ -98,7 +98,7 @@ func TestMeanReference(t *testing.T) {
 // rows of every length up to 9 with one NaN, +Inf or −Inf at any position,
 // and with none among the largest, smallest and subnormal finite values.
 func TestAllFinite(t *testing.T) {
-	edge := []float64{math.MaxFloat64, -math.MaxFloat64, math.SmallestNonzeroFloat64, -0.0, 1e-310, 3}
+	edge := []float64{math.MaxFloat64, -math.MaxFloat64, math.SmallestNonzeroFloat64, math.Copysign(0, -1), 1e-310, 3}
 	for n := 0; n <= 9; n++ {
 		row := make([]float64, n)
 		for j := range row {

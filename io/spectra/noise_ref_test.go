@@ -23,8 +23,7 @@ import (
 func refChannelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, string) {
 	n, m := v.Dims()
 	q := quantum(v, blind)
-	var diffs [][]float64 // per channel
-	diffs = make([][]float64, m)
+	diffs := make([][]float64, m) // per channel
 	// One buffer for all channels, cut in capacity-limited slices: appends
 	// never reallocate (growing m slices by doubling made twice the data
 	// in garbage).

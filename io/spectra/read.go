@@ -542,10 +542,8 @@ func (p *matrixParse) parseRow(i int, buf [][]byte, line []float64) ([][]byte, e
 			raw2.Data[j*raw2.Stride+i] = v
 		}
 	}
-	if line != nil {
-		for j, v := range line {
-			raw2.Data[j*raw2.Stride+i] = v
-		}
+	for j, v := range line {
+		raw2.Data[j*raw2.Stride+i] = v
 	}
 	return buf, nil
 }
