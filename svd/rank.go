@@ -149,26 +149,93 @@ type RankReport struct {
 //
 // An all-zero matrix (identical single beams: nothing happened) gives Estimate 0.
 func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error) {
-	var n, m int
-	scr := opt.Screen
+	p, err := newRankProblem(d, f, opt)
+	if err != nil {
+		return nil, err
+	}
+	if err := p.factorize(); err != nil {
+		return nil, err
+	}
+	rep := p.rep
+	if len(p.f.S) < p.maxRank+1 && !p.f.Full() {
+		rep.warn("only %d factors were supplied; candidates beyond factor %d are not examined", len(p.f.S), len(p.f.S))
+	}
+	p.findReferenceRow()
+	p.estimateNoise()
+	p.setThreshold()
+	p.tabulateCandidates()
+	if err := p.findReferencePattern(); err != nil {
+		return nil, err
+	}
+	nFloor := min(p.kAbove-p.excluded(p.kAbove), p.maxRank)
+	kInd := p.indMinimum()
+	nF := p.fTestCount()
+	nStruct := p.structureCount()
+	est, rough := p.consensus()
+	rep.Criteria = p.criteria(nFloor, kInd, nF, nStruct)
+	rep.Reason = p.reason(est, rough)
+	rep.ind, rep.fTest = kInd, nF
+	if p.f.FrobeniusSq > 0 {
+		if kInd != est && nF != est {
+			rep.warn("%s", disagreement(rep.Criteria, est))
+		}
+		if nFloor == p.maxRank && est == p.maxRank {
+			rep.warn("the estimate reached the %d factors examined: the rank may be higher or σ too small", p.maxRank)
+		}
+	}
+	return rep, nil
+}
+
+// rankProblem is what EstimateRank's steps share: the data's dimensions, its
+// factors, the options with their defaults filled in, and the report as it
+// grows. Each step below reads what the earlier ones set.
+type rankProblem struct {
+	d       *mat.Dense // nil when only the screen stands for it
+	f       *Factors
+	opt     RankOptions
+	scr     *Screen
+	n, m    int
+	c, rr   int // the smaller and the larger dimension, Malinowski's c and r
+	alpha   float64
+	maxRank int
+	rep     *RankReport
+
+	refRow int       // the reference row of difference data, -1 none
+	numTol float64   // the rounding level below which a singular value is zero
+	mal    indicator // Malinowski's RE and IND of the factors
+	kAbove int       // factors above the count threshold
+	dirs   []direction
+	patDir int // the direction of dirs that is the reference-noise pattern, -1 none
+}
+
+// warn adds one warning to the report.
+func (rep *RankReport) warn(format string, a ...any) {
+	rep.Warnings = append(rep.Warnings, fmt.Sprintf(format, a...))
+}
+
+// newRankProblem checks the options against the data's dimensions (or its
+// screen's, when there is no matrix) and fills in their defaults.
+func newRankProblem(d *mat.Dense, f *Factors, opt RankOptions) (*rankProblem, error) {
+	p := &rankProblem{d: d, f: f, opt: opt, scr: opt.Screen, patDir: -1}
 	if d == nil {
-		if !scr.complete() || f == nil || f.U == nil || f.V == nil || !(opt.Sigma > 0) {
+		if !p.scr.complete() || f == nil || f.U == nil || f.V == nil || !(opt.Sigma > 0) {
 			return nil, fmt.Errorf("svd: estimate rank: no matrix: give its screen, its factors and the noise level")
 		}
-		n, m = scr.Rows, scr.Cols
+		p.n, p.m = p.scr.Rows, p.scr.Cols
 	} else {
-		n, m = d.Dims()
-		scr = scr.of(d)
+		p.n, p.m = d.Dims()
+		p.scr = p.scr.of(d)
 	}
-	if err := scr.check(d); err != nil {
+	if err := p.scr.check(d); err != nil {
 		return nil, fmt.Errorf("svd: estimate rank: %w", err)
 	}
-	c, rr := min(n, m), max(n, m)
-	alpha := opt.Alpha
+	n := p.n
+	p.c, p.rr = min(n, p.m), max(n, p.m)
+	p.alpha = opt.Alpha
 	switch {
-	case alpha == 0:
-		alpha = 0.05
-	case !(alpha > 0 && alpha < 1):
+	case p.alpha == 0:
+		p.alpha = 0.05
+	case !(p.alpha > 0 && p.alpha < 1):
 		return nil, fmt.Errorf("svd: estimate rank: Alpha %v outside (0, 1)", opt.Alpha)
 	}
 	if opt.Sigma < 0 || math.IsNaN(opt.Sigma) || math.IsInf(opt.Sigma, 0) {
@@ -183,60 +250,77 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 	if opt.ReferenceRow < -1 || opt.ReferenceRow >= n {
 		return nil, fmt.Errorf("svd: estimate rank: ReferenceRow %d outside -1..%d", opt.ReferenceRow, n-1)
 	}
-	maxRank := opt.MaxRank
-	if maxRank == 0 {
-		maxRank = min(max(c-1, 1), defaultMaxRank)
+	p.maxRank = opt.MaxRank
+	if p.maxRank == 0 {
+		p.maxRank = min(max(p.c-1, 1), defaultMaxRank)
 	}
-	maxRank = min(maxRank, c)
+	p.maxRank = min(p.maxRank, p.c)
+	p.rep = &RankReport{ReferencePatternFactor: -1}
+	return p, nil
+}
 
-	if f == nil {
-		dopt := DecomposeOptions{}
-		if float64(n)*float64(m)*float64(c) > exactWork {
-			dopt.MaxFactors = maxRank + 2 // enough for the table; tails come from FrobeniusSq
-		}
-		var err error
-		if f, err = Decompose(d, dopt); err != nil {
-			return nil, fmt.Errorf("svd: estimate rank: %w", err)
-		}
-	} else {
+// factorize decomposes the data when no factors were given, keeping only
+// enough factors for the table when the exact SVD would cost too much (the
+// tails then come from FrobeniusSq), and checks given factors against the
+// data's dimensions.
+func (p *rankProblem) factorize() error {
+	f := p.f
+	if f != nil {
 		if f.U == nil || f.V == nil {
-			return nil, fmt.Errorf("svd: estimate rank: factors have nil U or V")
+			return fmt.Errorf("svd: estimate rank: factors have nil U or V")
 		}
 		un, ur := f.U.Dims()
 		vm, vr := f.V.Dims()
-		if un != n || vm != m || ur != len(f.S) || vr != len(f.S) {
-			return nil, fmt.Errorf("svd: estimate rank: factors (U %dx%d, %d values, V %dx%d) do not match the %dx%d data", un, ur, len(f.S), vm, vr, n, m)
+		if un != p.n || vm != p.m || ur != len(f.S) || vr != len(f.S) {
+			return fmt.Errorf("svd: estimate rank: factors (U %dx%d, %d values, V %dx%d) do not match the %dx%d data", un, ur, len(f.S), vm, vr, p.n, p.m)
 		}
+		return nil
 	}
-
-	rep := &RankReport{ReferencePatternFactor: -1}
-	warn := func(format string, a ...any) { rep.Warnings = append(rep.Warnings, fmt.Sprintf(format, a...)) }
-	if len(f.S) < maxRank+1 && !f.Full() {
-		warn("only %d factors were supplied; candidates beyond factor %d are not examined", len(f.S), len(f.S))
+	dopt := DecomposeOptions{}
+	if float64(p.n)*float64(p.m)*float64(p.c) > exactWork {
+		dopt.MaxFactors = p.maxRank + 2
 	}
-
-	refRow := opt.ReferenceRow
-	if refRow < 0 {
-		var z []int
-		if scr != nil {
-			z = scr.zero
-		} else {
-			z = zeroRows(d)
-		}
-		if len(z) == 1 && n >= 3 && f.FrobeniusSq > 0 {
-			refRow = z[0]
-			warn("row %d is exactly zero: treated as the reference row of difference data", refRow)
-		}
+	var err error
+	if p.f, err = Decompose(p.d, dopt); err != nil {
+		return fmt.Errorf("svd: estimate rank: %w", err)
 	}
+	return nil
+}
 
-	// Noise level.
+// findReferenceRow takes the given reference row or, when none was given, a
+// single exactly zero row of a non-zero matrix with at least three rows:
+// difference data subtracted from that row, so its noise is a pattern
+// repeated in every other row.
+func (p *rankProblem) findReferenceRow() {
+	p.refRow = p.opt.ReferenceRow
+	if p.refRow >= 0 {
+		return
+	}
+	var z []int
+	if p.scr != nil {
+		z = p.scr.zero
+	} else {
+		z = zeroRows(p.d)
+	}
+	if len(z) == 1 && p.n >= 3 && p.f.FrobeniusSq > 0 {
+		p.refRow = z[0]
+		p.rep.warn("row %d is exactly zero: treated as the reference row of difference data", p.refRow)
+	}
+}
+
+// estimateNoise sets the report's σ and its source: the given value, else the
+// pre-reaction rows' successive differences, else the smaller of the
+// spectrum's estimate and the successive-row estimate (both biased only
+// upwards by signal, so the smaller is the less biased).
+func (p *rankProblem) estimateNoise() {
+	f, opt, n, m := p.f, p.opt, p.n, p.m
 	sigma, src := opt.Sigma, SigmaGiven
 	switch {
 	case opt.Sigma > 0:
 	case f.FrobeniusSq == 0:
 		sigma, src = 0, SigmaNone
 	case opt.PreRows >= 2:
-		sigma, src = sigmaFromRowPairs(d, 0, opt.PreRows, false), SigmaPreRows
+		sigma, src = sigmaFromRowPairs(p.d, 0, opt.PreRows, false), SigmaPreRows
 	default:
 		var specSigma float64
 		specSrc := SigmaSpectrum
@@ -250,146 +334,197 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 		}
 		sigma, src = specSigma, specSrc
 		if n >= 3 {
-			if rs := sigmaFromRowPairs(d, 0, n, true); rs < sigma {
+			if rs := sigmaFromRowPairs(p.d, 0, n, true); rs < sigma {
 				sigma, src = rs, SigmaRowPairs
 			}
 		}
-		if c < 20 {
-			warn("σ estimated from a matrix with only %d rows or columns: the noise floor is uncertain; give the noise level or the pre-reaction spectra (--pre N)", c)
+		if p.c < 20 {
+			p.rep.warn("σ estimated from a matrix with only %d rows or columns: the noise floor is uncertain; give the noise level or the pre-reaction spectra (--pre N)", p.c)
 		}
 		if opt.PreRows == 1 {
-			warn("one pre-reaction spectrum gives no successive difference: σ estimated from the whole matrix")
+			p.rep.warn("one pre-reaction spectrum gives no successive difference: σ estimated from the whole matrix")
 		}
 	}
-	rep.Sigma, rep.SigmaSource = sigma, src
-	sn, sm := math.Sqrt(float64(n)), math.Sqrt(float64(m))
+	p.rep.Sigma, p.rep.SigmaSource = sigma, src
+}
+
+// setThreshold sets the Marchenko–Pastur edge and the count threshold above
+// it (the Tracy–Widom margin), never below the rounding level, which it
+// keeps as numTol.
+func (p *rankProblem) setThreshold() {
+	rep, sigma := p.rep, p.rep.Sigma
+	sn, sm := math.Sqrt(float64(p.n)), math.Sqrt(float64(p.m))
 	rep.NoiseEdge = sigma * (sn + sm)
 	mu := (sn + sm) * (sn + sm)
 	tau := (sn + sm) * math.Cbrt(1/sn+1/sm)
 	rep.Threshold = sigma * math.Sqrt(mu+tau*twMargin99)
 	var s1 float64
-	if len(f.S) > 0 {
-		s1 = f.S[0]
+	if len(p.f.S) > 0 {
+		s1 = p.f.S[0]
 	}
-	numTol := s1 * float64(rr) * eps // rank tolerance of numpy.linalg.matrix_rank
-	if rep.Threshold < numTol {
-		rep.Threshold = numTol
+	p.numTol = s1 * float64(p.rr) * eps // rank tolerance of numpy.linalg.matrix_rank
+	if rep.Threshold < p.numTol {
+		rep.Threshold = p.numTol
 	}
+}
 
-	// Candidate table.
-	kScan := min(len(f.S), maxRank+2, c)
-	weights := func(j int) float64 { return float64(rr-j+1) * float64(c-j+1) } // j 1-based
-	tailW := make([]float64, c+2)                                              // Σ_{j>k} w_j
+// indicator computes Malinowski's statistics from the factors' tail sums.
+type indicator struct {
+	f     *Factors
+	rr, c int
+	tailW []float64 // tailW[k] = Σ_{j>k} weight(j)
+}
+
+func newIndicator(f *Factors, rr, c int) indicator {
+	in := indicator{f: f, rr: rr, c: c, tailW: make([]float64, c+2)}
 	for k := c - 1; k >= 0; k-- {
-		tailW[k] = tailW[k+1] + weights(k+1)
+		in.tailW[k] = in.tailW[k+1] + in.weight(k+1)
 	}
-	ind := func(k int) (re, indv float64) {
-		if k >= c {
-			return 0, 0
-		}
-		re = math.Sqrt(f.TailSq(k) / (float64(rr) * float64(c-k)))
-		return re, re / (float64(c-k) * float64(c-k))
+	return in
+}
+
+// weight is the F-test's reduced-eigenvalue weight (r−j+1)(c−j+1) of factor j (1-based).
+func (in indicator) weight(j int) float64 { return float64(in.rr-j+1) * float64(in.c-j+1) }
+
+// ind is RE(k) and IND(k) after keeping k factors.
+func (in indicator) ind(k int) (re, indv float64) {
+	if k >= in.c {
+		return 0, 0
 	}
+	re = math.Sqrt(in.f.TailSq(k) / (float64(in.rr) * float64(in.c-k)))
+	return re, re / (float64(in.c-k) * float64(in.c-k))
+}
+
+// tabulateCandidates fills the report's table with each candidate factor's
+// statistics, and counts the factors above the threshold.
+func (p *rankProblem) tabulateCandidates() {
+	f, rep := p.f, p.rep
+	p.mal = newIndicator(f, p.rr, p.c)
+	kScan := min(len(f.S), p.maxRank+2, p.c)
 	var colU, colV []float64 // one column at a time, the memory kept
 	for k := 1; k <= kScan; k++ {
 		s := f.S[k-1]
 		row := CandidateRow{K: k, SingularValue: s}
-		row.RE, row.IND = ind(k)
-		row.FSignificance = fSignificance(s*s, f.TailSq(k), tailW[k], weights(k), c-k)
+		row.RE, row.IND = p.mal.ind(k)
+		row.FSignificance = fSignificance(s*s, f.TailSq(k), p.mal.tailW[k], p.mal.weight(k), p.c-k)
 		colU, colV = columnInto(colU, f.U, k-1), columnInto(colV, f.V, k-1)
 		row.AutocorrU = Autocorrelation(colU)
 		row.AutocorrV = Autocorrelation(colV)
 		row.AboveNoiseEdge = s > rep.Threshold && s > 0
-		row.Structured = s > numTol && s > 0 && structured(row.AutocorrU, n) && structured(row.AutocorrV, m)
+		row.Structured = s > p.numTol && s > 0 && structured(row.AutocorrU, p.n) && structured(row.AutocorrV, p.m)
 		rep.Table = append(rep.Table, row)
-	}
-
-	// Smoothest basis of the factors above the threshold, and the reference-noise pattern.
-	var kAbove int
-	for _, row := range rep.Table {
 		if row.AboveNoiseEdge {
-			kAbove++
+			p.kAbove++
 		}
 	}
-	if opt.PatternTime != nil && len(opt.PatternTime) != n {
-		return nil, fmt.Errorf("svd: estimate rank: PatternTime has %d values for %d rows", len(opt.PatternTime), n)
+}
+
+// findReferencePattern rotates the factors above the threshold to their
+// smoothest basis and takes its whitest direction for the reference-noise
+// pattern when its spectrum is white and its time vector flat beside the
+// reference row; with no reference row known, such a direction is counted
+// and only warned about.
+func (p *rankProblem) findReferencePattern() error {
+	opt, rep := p.opt, p.rep
+	if opt.PatternTime != nil && len(opt.PatternTime) != p.n {
+		return fmt.Errorf("svd: estimate rank: PatternTime has %d values for %d rows", len(opt.PatternTime), p.n)
 	}
-	dirs := smoothestBasis(f, kAbove, refRow, opt.PatternTime)
-	patDir := -1
-	if len(dirs) > 0 {
-		d0 := dirs[0]
-		white := d0.autocorrV < 0.3 && !structured(d0.autocorrV, m)
-		switch {
-		case refRow >= 0 && n >= 3 && white && d0.flatness >= 0.8:
-			patDir = 0
-			main := 0
-			for k, z := range d0.weights {
-				if math.Abs(z) > math.Abs(d0.weights[main]) {
-					main = k
-				}
+	p.dirs = smoothestBasis(p.f, p.kAbove, p.refRow, opt.PatternTime)
+	if len(p.dirs) == 0 {
+		return nil
+	}
+	d0 := p.dirs[0]
+	white := d0.autocorrV < 0.3 && !structured(d0.autocorrV, p.m)
+	switch {
+	case p.refRow >= 0 && p.n >= 3 && white && d0.flatness >= 0.8:
+		p.patDir = 0
+		main := 0
+		for k, z := range d0.weights {
+			if math.Abs(z) > math.Abs(d0.weights[main]) {
+				main = k
 			}
-			rep.Table[main].ReferencePattern = true
-			rep.ReferencePatternFactor = main
-		case refRow < 0 && white && flatness(unscaled(d0.time, opt.PatternTime), -1) >= 0.8:
-			warn("the significant factors hold a direction that is flat in time and white across the axis, like the reference spectrum's own noise in difference data; it was counted, since no single reference row was known (several experiments, or difference input): average more reference spectra (--reference mean:N) to shrink it")
 		}
+		rep.Table[main].ReferencePattern = true
+		rep.ReferencePatternFactor = main
+	case p.refRow < 0 && white && flatness(unscaled(d0.time, opt.PatternTime), -1) >= 0.8:
+		rep.warn("the significant factors hold a direction that is flat in time and white across the axis, like the reference spectrum's own noise in difference data; it was counted, since no single reference row was known (several experiments, or difference input): average more reference spectra (--reference mean:N) to shrink it")
 	}
-	pat := rep.ReferencePatternFactor
-	excluded := func(k int) int { // 1 if a criterion's first k factors include the pattern
-		if pat >= 0 && (pat < k || k >= kAbove) {
-			return 1
-		}
+	return nil
+}
+
+// excluded is 1 when a criterion's first k factors include the reference-noise
+// pattern, which no criterion counts.
+func (p *rankProblem) excluded(k int) int {
+	if pat := p.rep.ReferencePatternFactor; pat >= 0 && (pat < k || k >= p.kAbove) {
+		return 1
+	}
+	return 0
+}
+
+// indMinimum is where IND is smallest over k = 0..min(maxRank, c−1), one
+// further when the pattern is among them (it is then not counted).
+func (p *rankProblem) indMinimum() int {
+	if p.f.FrobeniusSq == 0 {
 		return 0
 	}
-
-	// (1) noise floor
-	nFloor := min(kAbove-excluded(kAbove), maxRank)
-	// (2a) IND minimum over k = 0..min(maxRank, c−1) (+1 when the pattern is among them)
 	kInd := 0
-	if f.FrobeniusSq > 0 {
-		best := math.Inf(1)
-		top := min(maxRank+excluded(maxRank), c-1, len(f.S))
-		for k := 0; k <= top; k++ {
-			_, v := ind(k)
-			if v < best {
-				best, kInd = v, k
-			}
+	best := math.Inf(1)
+	top := min(p.maxRank+p.excluded(p.maxRank), p.c-1, len(p.f.S))
+	for k := 0; k <= top; k++ {
+		_, v := p.mal.ind(k)
+		if v < best {
+			best, kInd = v, k
 		}
-		kInd -= excluded(kInd)
-		kInd = max(kInd, 0)
 	}
-	// (2b) F-test, sequential from the largest factor
+	kInd -= p.excluded(kInd)
+	return max(kInd, 0)
+}
+
+// fTestCount is the number of leading factors significant in the F-test,
+// tested from the largest down and stopping at the first that is not.
+func (p *rankProblem) fTestCount() int {
 	var nF int
-	for _, row := range rep.Table {
-		if row.SingularValue <= numTol || row.SingularValue == 0 || nF >= maxRank {
+	for _, row := range p.rep.Table {
+		if row.SingularValue <= p.numTol || row.SingularValue == 0 || nF >= p.maxRank {
 			break
 		}
-		if row.FSignificance >= alpha {
+		if row.FSignificance >= p.alpha {
 			break
 		}
 		if !row.ReferencePattern {
 			nF++
 		}
 	}
-	// (3) structure
+	return nF
+}
+
+// structureCount is the number of leading structured factors, the pattern
+// skipped.
+func (p *rankProblem) structureCount() int {
 	var nStruct int
-	for _, row := range rep.Table {
+	for _, row := range p.rep.Table {
 		if row.ReferencePattern {
 			continue
 		}
-		if !row.Structured || nStruct >= maxRank {
+		if !row.Structured || nStruct >= p.maxRank {
 			break
 		}
 		nStruct++
 	}
-	// consensus: the factors above the threshold, re-diagonalized without the pattern
-	// direction, that have a structured spectrum and a time vector that is not white.
-	var est, rough, beyond int
-	for _, sf := range signalFactors(f, kAbove, dirs, patDir) {
+	return nStruct
+}
+
+// consensus counts the factors above the threshold, re-diagonalized without
+// the pattern direction, that have a structured spectrum and a time vector
+// that is not white (the estimate, capped at maxRank), and those that do not
+// (rough). It sets the estimate and warns of structured factors beyond the cap.
+func (p *rankProblem) consensus() (est, rough int) {
+	var beyond int
+	for _, sf := range signalFactors(p.f, p.kAbove, p.dirs, p.patDir) {
 		aU, aV := Autocorrelation(sf.u), Autocorrelation(sf.v)
 		switch {
-		case (!judgeable(m, kAbove) || structured(aV, m)) && (!judgeable(n, kAbove) || notWhite(aU, n)):
-			if est < maxRank {
+		case (!judgeable(p.m, p.kAbove) || structured(aV, p.m)) && (!judgeable(p.n, p.kAbove) || notWhite(aU, p.n)):
+			if est < p.maxRank {
 				est++
 			} else {
 				beyond++
@@ -398,59 +533,57 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 			rough++
 		}
 	}
-	rep.Estimate = est
-	rep.consensusWarnings = len(rep.Warnings)
+	p.rep.Estimate = est
+	p.rep.consensusWarnings = len(p.rep.Warnings)
 	if beyond > 0 {
-		warn("%d more structured factor(s) above the noise lie beyond the %d examined", beyond, maxRank)
+		p.rep.warn("%d more structured factor(s) above the noise lie beyond the %d examined", beyond, p.maxRank)
 	}
+	return est, rough
+}
 
+// criteria reports each criterion's count with its source and a sentence on
+// how it was reached.
+func (p *rankProblem) criteria(nFloor, kInd, nF, nStruct int) []Criterion {
+	rep, pat := p.rep, p.rep.ReferencePatternFactor
 	patNote := ""
 	if pat >= 0 {
 		patNote = fmt.Sprintf("; the reference-noise pattern (mostly factor %d) not counted", pat+1)
 	}
-	rep.Criteria = []Criterion{
+	return []Criterion{
 		{Name: CriterionNoiseFloor, Estimate: nFloor,
 			Source: "Marchenko–Pastur edge σ(√n+√m) (Geman, Ann. Probab. 1980) with a Tracy–Widom margin (Johnstone, Ann. Statist. 2001); σ by Gavish & Donoho (IEEE Trans. Inf. Theory 2014) when estimated from the spectrum",
-			Detail: fmt.Sprintf("%d singular values exceed %.4g (σ = %.4g from %s, edge %.4g)%s", nFloor, rep.Threshold, sigma, src, rep.NoiseEdge, patNote)},
+			Detail: fmt.Sprintf("%d singular values exceed %.4g (σ = %.4g from %s, edge %.4g)%s", nFloor, rep.Threshold, rep.Sigma, rep.SigmaSource, rep.NoiseEdge, patNote)},
 		{Name: CriterionIND, Estimate: kInd,
 			Source: "Malinowski, Anal. Chem. 1977 (indicator function IND = RE/(c−k)²)",
-			Detail: fmt.Sprintf("IND(k) = RE(k)/(c−k)² is smallest at k = %d over k = 0..%d%s", kInd+excluded(kInd+1), min(maxRank+excluded(maxRank), c-1), patNote)},
+			Detail: fmt.Sprintf("IND(k) = RE(k)/(c−k)² is smallest at k = %d over k = 0..%d%s", kInd+p.excluded(kInd+1), min(p.maxRank+p.excluded(p.maxRank), p.c-1), patNote)},
 		{Name: CriterionFTest, Estimate: nF,
 			Source: "Malinowski, J. Chemometrics 1989 (F-test on reduced eigenvalues)",
-			Detail: fmt.Sprintf("%d leading factors are significant at level %.3g against the pooled reduced eigenvalues of the rest%s", nF, alpha, patNote)},
+			Detail: fmt.Sprintf("%d leading factors are significant at level %.3g against the pooled reduced eigenvalues of the rest%s", nF, p.alpha, patNote)},
 		{Name: CriterionStructure, Estimate: nStruct,
 			Source: "Shrager & Hendler, Anal. Chem. 1982 (lag-1 autocorrelation of singular vectors; from memory)",
 			Detail: fmt.Sprintf("%d leading factors have smooth time and spectrum vectors (lag-1 autocorrelation ≥ 0.3 and 3 white-noise standard deviations)%s", nStruct, patNote)},
 	}
+}
 
-	switch {
-	case f.FrobeniusSq == 0:
-		rep.Reason = "the matrix is exactly zero (identical single beams: nothing happened), so there are no factors"
-	default:
-		var b strings.Builder
-		fmt.Fprintf(&b, "%d factor(s) above the noise threshold %.4g (σ = %.4g, %s)", kAbove, rep.Threshold, sigma, src)
-		if kAbove > 0 {
-			fmt.Fprintf(&b, "; in their span %d smooth direction(s) (time and spectrum both structured) are counted", est)
-		}
-		if rough > 0 {
-			fmt.Fprintf(&b, "; %d direction(s) with a white time or spectrum vector are not", rough)
-		}
-		if patDir >= 0 {
-			fmt.Fprintf(&b, "; one direction (mostly factor %d) is the reference-noise pattern of row %d, not a species", pat+1, refRow)
-		}
-		fmt.Fprintf(&b, ": estimate %d.", est)
-		rep.Reason = b.String()
+// reason puts the consensus in words.
+func (p *rankProblem) reason(est, rough int) string {
+	rep := p.rep
+	if p.f.FrobeniusSq == 0 {
+		return "the matrix is exactly zero (identical single beams: nothing happened), so there are no factors"
 	}
-	rep.ind, rep.fTest = kInd, nF
-	if f.FrobeniusSq > 0 {
-		if kInd != est && nF != est {
-			warn("%s", disagreement(rep.Criteria, est))
-		}
-		if nFloor == maxRank && est == maxRank {
-			warn("the estimate reached the %d factors examined: the rank may be higher or σ too small", maxRank)
-		}
+	var b strings.Builder
+	fmt.Fprintf(&b, "%d factor(s) above the noise threshold %.4g (σ = %.4g, %s)", p.kAbove, rep.Threshold, rep.Sigma, rep.SigmaSource)
+	if p.kAbove > 0 {
+		fmt.Fprintf(&b, "; in their span %d smooth direction(s) (time and spectrum both structured) are counted", est)
 	}
-	return rep, nil
+	if rough > 0 {
+		fmt.Fprintf(&b, "; %d direction(s) with a white time or spectrum vector are not", rough)
+	}
+	if p.patDir >= 0 {
+		fmt.Fprintf(&b, "; one direction (mostly factor %d) is the reference-noise pattern of row %d, not a species", rep.ReferencePatternFactor+1, p.refRow)
+	}
+	fmt.Fprintf(&b, ": estimate %d.", est)
+	return b.String()
 }
 
 // disagreement says which rank criteria differ from the estimate and which
