@@ -406,6 +406,50 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 	if opt.Baseline != nil {
 		return resolveWithBaseline(d, c0, opt)
 	}
+	r, err := newALSRun(d, c0, opt)
+	if err != nil {
+		return nil, err
+	}
+	for it := 1; it <= r.opt.MaxIter; it++ {
+		done, err := r.iterate(it)
+		if err != nil {
+			return nil, err
+		}
+		if done {
+			break
+		}
+	}
+	return r.finish(), nil
+}
+
+// alsRun is one resolution between its iterations: the data, the
+// constraints, the current iterate and what the stopping tests remember.
+type alsRun struct {
+	d          Data
+	opt        Options
+	cs         *alsConstraints
+	n, m, k    int
+	rowW, colW []float64 // row × column weights (Weighted data), else nil
+	total      float64   // ‖D‖²_F (weighted)
+	c, s       *mat.Dense
+	// cPrev: the profiles the last kept iteration started from, for the
+	// extrapolation (nil: the next iteration takes a plain step).
+	cPrev *mat.Dense
+	prev  float64 // the residual of the last kept iteration
+	ext   extrapolation
+	// accelerate: extrapolate between iterations; exactSteps: see newALSRun.
+	accelerate, exactSteps bool
+	// best and sinceBest follow hard–soft ALS's creep (see accept).
+	best      float64
+	sinceBest int
+	// Passive sets carried from one iteration to the next (warm start).
+	passS, passC []uint64
+	res          *Result
+}
+
+// newALSRun checks the shapes, sets the defaults and forms the constraints
+// of a resolution from c0.
+func newALSRun(d Data, c0 *mat.Dense, opt Options) (*alsRun, error) {
 	n, m := d.Dims()
 	rc, k := c0.Dims()
 	if rc != n {
@@ -431,19 +475,13 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 	if err != nil {
 		return nil, err
 	}
-	nnP, nnS, softRef, knownMask, scaleSet := cs.nnP, cs.nnS, cs.softRef, cs.knownMask, cs.scaleSet
-	eq, blocks, zeroMask, zerosKN := cs.eq, cs.blocks, cs.zeroMask, cs.zerosKN
-
+	r := &alsRun{d: d, opt: opt, cs: cs, n: n, m: m, k: k, total: total,
+		c: mat.DenseCopyOf(c0), prev: math.Inf(1), best: math.Inf(1),
+		passS: make([]uint64, m), passC: make([]uint64, n), res: &Result{}}
 	// Row × column weights (Weighted data): the Gram matrices become CᵀAC
 	// and SᵀBS; the right-hand sides come weighted from d.
-	rowW, colW := weightsOf(d)
-	c := mat.DenseCopyOf(c0)
-	clampColumns(c, nnP)
-	res := &Result{}
-	var s *mat.Dense
-	prev := math.Inf(1)
-	// Passive sets carried from one iteration to the next (warm start).
-	passS, passC := make([]uint64, m), make([]uint64, n)
+	r.rowW, r.colW = weightsOf(d)
+	clampColumns(r.c, cs.nnP)
 	// Extrapolation: each iteration starts from the profiles pushed further
 	// along the last update, C + step·(C − C_prev), clipped to the
 	// constraints' cone; the exact half-steps that follow restore every
@@ -454,16 +492,8 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 	// SIAM J. Matrix Anal. Appl. 2008): on the demo data it needs 43
 	// iterations instead of 560 for the same lack of fit. How far the step
 	// may grow is learnt in long runs (see extrapolation).
-	var cPrev *mat.Dense
-	ext := extrapolation{step: 1, cap: stepCap}
-	accelerate := (opt.HardModel == nil || opt.HardKept != nil) && !opt.NoExtrapolation
-	best, sinceBest := math.Inf(1), 0
-	kept := func(k bool) bool {
-		if opt.HardModel == nil || opt.HardKept == nil {
-			return false
-		}
-		return opt.HardKept(k)
-	}
+	r.ext = extrapolation{step: 1, cap: stepCap}
+	r.accelerate = (opt.HardModel == nil || opt.HardKept != nil) && !opt.NoExtrapolation
 	// exactSteps: both half steps minimise the residual itself (no
 	// projection, model, ridge or soft reference in the objective), and the
 	// caller asked to stop at the rounding floor (constraint checks: a
@@ -471,177 +501,256 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 	// so ill-conditioned that it never meets the tolerance). A resolution
 	// proper keeps iterating there, since in a flat valley tiny genuine
 	// decreases alternate with rounding rises and decide between starts.
-	exactSteps := opt.stopAtRoundingFloor && opt.HardModel == nil && softRef == nil && opt.Ridge == 0
+	r.exactSteps = opt.stopAtRoundingFloor && opt.HardModel == nil && cs.softRef == nil && opt.Ridge == 0
 	for _, u := range opt.Unimodal {
-		exactSteps = exactSteps && !u
+		r.exactSteps = r.exactSteps && !u
 	}
-	for it := 1; it <= opt.MaxIter; it++ {
-		cPlain, sPlain, extrapolated := c, s, false
-		if accelerate && cPrev != nil {
-			ce := mat.NewDense(n, k, nil)
-			ce.Sub(c, cPrev)
-			ce.Scale(ext.step, ce)
-			ce.Add(c, ce)
-			clampColumns(ce, nnP)
-			c, extrapolated = ce, true
-		}
-		s, err = spectraStep(d, c, rowW, cs, passS, it)
+	return r, nil
+}
+
+// iterate runs ALS's iteration it: the extrapolated start, both half
+// steps, the residual, and whether the iteration is kept; done when the
+// resolution stops.
+func (r *alsRun) iterate(it int) (done bool, err error) {
+	cPlain, sPlain := r.c, r.s
+	extrapolated := r.extrapolate()
+	if err := r.spectraHalf(it); err != nil {
+		return false, err
+	}
+	ds, g, err := r.profilesHalf(it)
+	if err != nil {
+		return false, err
+	}
+	ssr := r.traceResidual(ds, g)
+	if r.drifted(it, cPlain, sPlain, extrapolated) {
+		return r.res.Degenerate, nil
+	}
+	if extrapolated && !(ssr < r.prev) {
+		// Rejected: back to the last accepted iterate, plain step next.
+		r.kept(false)
+		r.ext.rejected(it)
+		r.c, r.s, r.cPrev = cPlain, sPlain, nil
+		r.res.Iterations = it
+		return false, nil
+	}
+	if !extrapolated && r.exactSteps && it > 1 && ssr > r.prev {
+		// Each half step is the exact constrained minimiser for its
+		// block, so a plain iteration cannot raise the residual: a rise
+		// means the changes have sunk below rounding (ill-conditioned
+		// Gram blocks, as when a dropped constraint frees a rotation)
+		// and more iterations would only stir rounding noise. Keep the
+		// last iterate, which fits better.
+		r.c, r.s = cPlain, sPlain
+		r.res.Converged = true
+		r.res.Iterations = it
+		return true, nil
+	}
+	if extrapolated {
+		r.ext.accepted(it)
+	}
+	return r.accept(it, ssr, cPlain), nil
+}
+
+// kept tells the hard model's caller whether the iteration's profiles were
+// kept; true when the model has settled.
+func (r *alsRun) kept(k bool) bool {
+	if r.opt.HardModel == nil || r.opt.HardKept == nil {
+		return false
+	}
+	return r.opt.HardKept(k)
+}
+
+// extrapolate replaces the profiles by C + step·(C − C_prev), clipped to
+// the constraints' cone, when the last iteration was kept; it reports
+// whether it did.
+func (r *alsRun) extrapolate() bool {
+	if !r.accelerate || r.cPrev == nil {
+		return false
+	}
+	ce := mat.NewDense(r.n, r.k, nil)
+	ce.Sub(r.c, r.cPrev)
+	ce.Scale(r.ext.step, ce)
+	ce.Add(r.c, ce)
+	clampColumns(ce, r.cs.nnP)
+	r.c = ce
+	return true
+}
+
+// spectraHalf is the spectra's half step and what follows it: the baseline
+// split, the spectra held low, and the spectra's normalisation.
+func (r *alsRun) spectraHalf(it int) error {
+	s, err := spectraStep(r.d, r.c, r.rowW, r.cs, r.passS, it)
+	if err != nil {
+		return err
+	}
+	r.s = s
+	if r.opt.baselineBasis != nil {
+		lowerSpectra(s, r.k-r.opt.baselineTerms, lowerable(r.cs.nnS, r.cs.knownMask), r.opt.baselineBasis)
+	}
+	if r.opt.LeastOthers != nil {
+		takeOthers(s, r.opt.LeastOthers, r.k-r.opt.baselineTerms)
+	}
+	if !r.opt.Closure {
+		// On a copy: c may still be cPlain, the profiles that go with
+		// sPlain if this iteration is undone.
+		r.c = mat.DenseCopyOf(r.c)
+		normaliseSpectra(s, r.c, r.cs.scaleSet)
+	}
+	return nil
+}
+
+// profilesHalf is the profiles' half step (Gram SᵀBS, right-hand sides
+// Sᵀ B Dᵀ), then unimodality and the hard model. It returns D B S and SᵀBS
+// for the residual's trace identity.
+func (r *alsRun) profilesHalf(it int) (*mat.Dense, *mat.SymDense, error) {
+	ds := r.d.MulSpectra(r.s) // n × k
+	g := gramW(r.s, r.colW)
+	gp := g
+	if r.opt.Ridge > 0 {
+		gp = ridged(g, r.opt.Ridge)
+	}
+	pr := Problem{G: gp, B: transpose(ds), NonNeg: r.cs.nnP, FixMask: r.cs.zeroMask, Fixed: r.cs.zerosKN, Passive: r.passC}
+	if r.opt.Closure {
+		pr.Equality, pr.Total = r.cs.eq, r.opt.Total
+	}
+	ct, err := SolveMany(pr)
+	if err != nil {
+		return nil, nil, fmt.Errorf("resolve: profiles step, iteration %d: %w", it, err)
+	}
+	r.c = transpose(ct)
+	if r.opt.Unimodal != nil {
+		unimodalProfiles(r.c, r.opt.Unimodal, r.cs.blocks, r.opt.UnimodalTolerance)
+	}
+	if r.opt.HardModel != nil {
+		hc, err := r.opt.HardModel(r.c)
 		if err != nil {
-			return nil, err
+			return nil, nil, fmt.Errorf("resolve: hard model, iteration %d: %w", it, err)
 		}
-		if opt.baselineBasis != nil {
-			lowerSpectra(s, k-opt.baselineTerms, lowerable(nnS, knownMask), opt.baselineBasis)
-		}
-		if opt.LeastOthers != nil {
-			takeOthers(s, opt.LeastOthers, k-opt.baselineTerms)
-		}
-		if !opt.Closure {
-			// On a copy: c may still be cPlain, the profiles that go with
-			// sPlain if this iteration is undone.
-			c = mat.DenseCopyOf(c)
-			normaliseSpectra(s, c, scaleSet)
-		}
-		// Profiles step: Gram SᵀBS, right-hand sides Sᵀ B Dᵀ.
-		ds := d.MulSpectra(s) // n × k
-		g := gramW(s, colW)
-		gp := g
-		if opt.Ridge > 0 {
-			gp = ridged(g, opt.Ridge)
-		}
-		pr := Problem{G: gp, B: transpose(ds), NonNeg: nnP, FixMask: zeroMask, Fixed: zerosKN, Passive: passC}
-		if opt.Closure {
-			pr.Equality, pr.Total = eq, opt.Total
-		}
-		ct, err := SolveMany(pr)
-		if err != nil {
-			return nil, fmt.Errorf("resolve: profiles step, iteration %d: %w", it, err)
-		}
-		c = transpose(ct)
-		if opt.Unimodal != nil {
-			for j := 0; j < k && j < len(opt.Unimodal); j++ {
-				if !opt.Unimodal[j] {
-					continue
-				}
-				col := mat.Col(nil, j, c)
-				for bi, lo := range blocks {
-					hi := n
-					if bi+1 < len(blocks) {
-						hi = blocks[bi+1]
-					}
-					copy(col[lo:hi], UnimodalTolerance(col[lo:hi], opt.UnimodalTolerance))
-				}
-				c.SetCol(j, col)
-			}
-		}
-		if opt.HardModel != nil {
-			hc, err := opt.HardModel(c)
-			if err != nil {
-				return nil, fmt.Errorf("resolve: hard model, iteration %d: %w", it, err)
-			}
-			c = hc
-		}
-		// ‖D − C Sᵀ‖² = ‖D‖² − 2 tr(Cᵀ D S) + tr(CᵀC SᵀS) (trace identity;
-		// D S is reused from the profiles step, valid for the current S).
-		// Weighted: Σ a_i b_j e_ij² = ‖D‖²_w − 2 tr(Cᵀ A D B S) + tr(CᵀAC SᵀBS).
-		tcd := traceProd(scaleRowsOrSame(c, rowW), ds)
-		tcs := traceProd(gramW(c, rowW), g)
-		ssr := total - 2*tcd + tcs
-		if ssr < 1e-6*(total+2*math.Abs(tcd)+math.Abs(tcs)) {
-			// The identity's terms cancel to within a millionth: rounding
-			// could be most of what is left, so compute the residual in a
-			// form whose error scales with the fit, not with the factors.
-			ssr = residualSS(d, c, s, total, ssr)
-		}
-		if drift := componentSizeW(c, s, rowW, colW) / math.Sqrt(total); drift > driftLimit && sPlain != nil {
-			// Components far larger than the data that cancel in C Sᵀ: a
-			// degenerate drift (the fit gains nothing by it; Navasca, De
-			// Lathauwer & Kindermann 2008, from memory). Keep the last
-			// iterate before it and stop.
-			kept(false)
-			if extrapolated {
-				c, s, cPrev, ext.step = cPlain, sPlain, nil, 1
-				res.Iterations = it
-				continue
-			}
-			c, s = cPlain, sPlain
-			res.Degenerate = true
-			res.Iterations = it
-			res.Warnings = append(res.Warnings, fmt.Sprintf("components grew to %.3g times the data's size and cancel each other (a degenerate drift): stopped at iteration %d, where they were still of the data's size", drift, it))
-			break
-		}
-		if extrapolated && !(ssr < prev) {
-			// Rejected: back to the last accepted iterate, plain step next.
-			kept(false)
-			ext.rejected(it)
-			c, s, cPrev = cPlain, sPlain, nil
-			res.Iterations = it
+		r.c = hc
+	}
+	return ds, g, nil
+}
+
+// unimodalProfiles makes the profiles asked for unimodal within each
+// experiment's block of rows (blocks: each block's first row).
+func unimodalProfiles(c *mat.Dense, unimodal []bool, blocks []int, tol float64) {
+	n, k := c.Dims()
+	for j := 0; j < k && j < len(unimodal); j++ {
+		if !unimodal[j] {
 			continue
 		}
-		if !extrapolated && exactSteps && it > 1 && ssr > prev {
-			// Each half step is the exact constrained minimiser for its
-			// block, so a plain iteration cannot raise the residual: a rise
-			// means the changes have sunk below rounding (ill-conditioned
-			// Gram blocks, as when a dropped constraint frees a rotation)
-			// and more iterations would only stir rounding noise. Keep the
-			// last iterate, which fits better.
-			c, s = cPlain, sPlain
-			res.Converged = true
-			res.Iterations = it
-			break
-		}
-		if extrapolated {
-			ext.accepted(it)
-		}
-		settled := kept(true)
-		if opt.HardKept != nil {
-			// Hard–soft ALS is no descent method (the model is fitted to
-			// the soft profiles, not to the data), and once it has passed
-			// its best fit it can creep for hundreds of iterations along a
-			// direction the data hardly determine, extrapolated steps
-			// down and plain ones up. hardRises kept iterations without a
-			// new lowest residual, all within hardCreep of it, are that
-			// creep: stop there.
-			if ssr < best {
-				best, sinceBest = ssr, 0
-			} else {
-				sinceBest++
+		col := mat.Col(nil, j, c)
+		for bi, lo := range blocks {
+			hi := n
+			if bi+1 < len(blocks) {
+				hi = blocks[bi+1]
 			}
-			if sinceBest >= hardRises && ssr-best < hardCreep*ssr {
-				settled = true
-				res.HardCreep = true
-			}
+			copy(col[lo:hi], UnimodalTolerance(col[lo:hi], tol))
 		}
-		cPrev = cPlain
-		lof := 100 * math.Sqrt(ssr/total)
-		res.History = append(res.History, lof)
-		res.HistoryAt = append(res.HistoryAt, it)
-		res.Iterations = it
-		if opt.Observe != nil {
-			opt.Observe(it, lof)
-		}
-		if settled || math.Abs(prev-ssr) <= opt.Tolerance*math.Max(ssr, 1e-300*total) || ssr <= 1e-28*total || ssr <= opt.stopAt {
-			res.Converged = true
-			prev = ssr
-			break
-		}
-		prev = ssr
+		c.SetCol(j, col)
 	}
-	res.C, res.S = c, s
+}
+
+// traceResidual returns the residual sum of squares of the current C and S
+// from the trace identity ‖D − C Sᵀ‖² = ‖D‖² − 2 tr(Cᵀ D S) + tr(CᵀC SᵀS)
+// (D S and SᵀS from the profiles step, valid for the current S); weighted,
+// Σ a_i b_j e_ij² = ‖D‖²_w − 2 tr(Cᵀ A D B S) + tr(CᵀAC SᵀBS).
+func (r *alsRun) traceResidual(ds *mat.Dense, g *mat.SymDense) float64 {
+	tcd := traceProd(scaleRowsOrSame(r.c, r.rowW), ds)
+	tcs := traceProd(gramW(r.c, r.rowW), g)
+	ssr := r.total - 2*tcd + tcs
+	if ssr < 1e-6*(r.total+2*math.Abs(tcd)+math.Abs(tcs)) {
+		// The identity's terms cancel to within a millionth: rounding
+		// could be most of what is left, so compute the residual in a
+		// form whose error scales with the fit, not with the factors.
+		ssr = residualSS(r.d, r.c, r.s, r.total, ssr)
+	}
+	return ssr
+}
+
+// drifted reports whether the components of iteration it grew far larger
+// than the data while cancelling in C Sᵀ: a degenerate drift (the fit
+// gains nothing by it; Navasca, De Lathauwer & Kindermann 2008, from
+// memory). The last iterate before it is kept; an extrapolated iteration
+// is undone and the next takes a plain step, a plain one stops the
+// resolution (Result.Degenerate).
+func (r *alsRun) drifted(it int, cPlain, sPlain *mat.Dense, extrapolated bool) bool {
+	drift := componentSizeW(r.c, r.s, r.rowW, r.colW) / math.Sqrt(r.total)
+	if !(drift > driftLimit) || sPlain == nil {
+		return false
+	}
+	r.kept(false)
+	r.c, r.s = cPlain, sPlain
+	r.res.Iterations = it
+	if extrapolated {
+		r.cPrev, r.ext.step = nil, 1
+		return true
+	}
+	r.res.Degenerate = true
+	r.res.Warnings = append(r.res.Warnings, fmt.Sprintf("components grew to %.3g times the data's size and cancel each other (a degenerate drift): stopped at iteration %d, where they were still of the data's size", drift, it))
+	return true
+}
+
+// accept keeps iteration it with residual ssr (cPlain: the profiles it
+// started from before any extrapolation) and reports whether ALS stops:
+// converged, settled hard model, or hard–soft creep.
+func (r *alsRun) accept(it int, ssr float64, cPlain *mat.Dense) bool {
+	settled := r.kept(true)
+	if r.opt.HardKept != nil {
+		// Hard–soft ALS is no descent method (the model is fitted to
+		// the soft profiles, not to the data), and once it has passed
+		// its best fit it can creep for hundreds of iterations along a
+		// direction the data hardly determine, extrapolated steps
+		// down and plain ones up. hardRises kept iterations without a
+		// new lowest residual, all within hardCreep of it, are that
+		// creep: stop there.
+		if ssr < r.best {
+			r.best, r.sinceBest = ssr, 0
+		} else {
+			r.sinceBest++
+		}
+		if r.sinceBest >= hardRises && ssr-r.best < hardCreep*ssr {
+			settled = true
+			r.res.HardCreep = true
+		}
+	}
+	r.cPrev = cPlain
+	lof := 100 * math.Sqrt(ssr/r.total)
+	r.res.History = append(r.res.History, lof)
+	r.res.HistoryAt = append(r.res.HistoryAt, it)
+	r.res.Iterations = it
+	if r.opt.Observe != nil {
+		r.opt.Observe(it, lof)
+	}
+	prev := r.prev
+	r.prev = ssr
+	if settled || math.Abs(prev-ssr) <= r.opt.Tolerance*math.Max(ssr, 1e-300*r.total) || ssr <= 1e-28*r.total || ssr <= r.opt.stopAt {
+		r.res.Converged = true
+		return true
+	}
+	return false
+}
+
+// finish returns the result: the last kept iterate, its residual computed
+// directly, and the warnings.
+func (r *alsRun) finish() *Result {
+	res := r.res
+	res.C, res.S = r.c, r.s
 	// The reported residual is computed directly, never carried over from
 	// the trace identity: it is what a chemist quotes.
-	prev = residualSS(d, c, s, total, prev)
-	res.ResidualSS = prev
-	res.LackOfFitPercent = 100 * math.Sqrt(prev/total)
-	res.ExplainedPercent = 100 * (1 - prev/total)
-	for j := 0; j < k-opt.baselineTerms; j++ {
-		if floatsMaxAbs(mat.Col(nil, j, c)) == 0 {
+	ss := residualSS(r.d, r.c, r.s, r.total, r.prev)
+	res.ResidualSS = ss
+	res.LackOfFitPercent = 100 * math.Sqrt(ss/r.total)
+	res.ExplainedPercent = 100 * (1 - ss/r.total)
+	for j := 0; j < r.k-r.opt.baselineTerms; j++ {
+		if floatsMaxAbs(mat.Col(nil, j, r.c)) == 0 {
 			res.Warnings = append(res.Warnings, fmt.Sprintf("component %d vanished: its profile is zero everywhere; try one component fewer", j+1))
 		}
 	}
 	if !res.Converged {
-		res.Warnings = append(res.Warnings, fmt.Sprintf("not converged after %d iterations (last relative change above %.1g)", res.Iterations, opt.Tolerance))
+		res.Warnings = append(res.Warnings, fmt.Sprintf("not converged after %d iterations (last relative change above %.1g)", res.Iterations, r.opt.Tolerance))
 	}
-	return res, nil
+	return res
 }
 
 // alsConstraints are the constraints of Resolve in the form its half steps
