@@ -62,10 +62,34 @@ type LMResult struct {
 // the condition number). jac may be nil: central differences are used. m is the number of
 // residuals.
 func LevenbergMarquardt(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, set LMSettings) (*LMResult, error) {
-	n := len(x0)
-	if n == 0 || m < n {
-		return nil, fmt.Errorf("kinetics: levenberg-marquardt: %d residuals for %d parameters", m, n)
+	s, err := newLMSolver(f, jac, x0, m, set)
+	if err != nil {
+		return nil, err
 	}
+	for {
+		if err := s.jacobian(); err != nil {
+			return nil, err
+		}
+		s.res.Iterations++
+		if s.res.Iterations == 1 {
+			s.holdFlatColumns()
+		}
+		s.factorJacobian()
+		colNorm := s.columnNorms()
+		s.rescale(colNorm)
+		if s.gradientConverged(colNorm) {
+			return s.finish(), nil
+		}
+		if done, err := s.step(); err != nil {
+			return nil, err
+		} else if done {
+			return s.finish(), nil
+		}
+	}
+}
+
+// withDefaults fills the zero fields of set with MINPACK's defaults for n parameters.
+func (set LMSettings) withDefaults(n int) LMSettings {
 	if set.MaxIter <= 0 {
 		set.MaxIter = 200 * (n + 1)
 	}
@@ -84,233 +108,331 @@ func LevenbergMarquardt(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, s
 	if set.DiffStep <= 0 {
 		set.DiffStep = 1e-6
 	}
-	res := &LMResult{X: append([]float64(nil), x0...)}
+	return set
+}
+
+// lmSolver is the state of one Levenberg–Marquardt minimisation: the current
+// point and its residuals, the Jacobian and its QR factor, and the trust
+// region. Its buffers are made once and reused by every iteration.
+type lmSolver struct {
+	f    ResidualFunc
+	jac  JacobianFunc
+	set  LMSettings
+	m, n int
+	res  *LMResult
+
+	x, r  []float64 // the current point (res.X) and its residuals
+	fnorm float64   // ‖r‖
+	J     *mat.Dense
+	held  []bool // parameters the residual did not depend on at x0, nil none
+
+	diag               []float64 // D: the running maximum of J's column norms
+	delta, xnorm, par  float64   // trust radius Δ, ‖D x‖, Marquardt λ
+	iter               int       // trial steps taken, accepted or not
+	qrA, tau, qtr      []float64 // J's Householder QR (LAPACK layout) and Qᵀr
+	R                  *mat.Dense
+	rp, rm, xnew, rnew []float64
+}
+
+// newLMSolver checks the problem's size and start, fills the settings'
+// defaults and evaluates the residuals at x0 (an error there is returned,
+// there being no smaller region to retreat to).
+func newLMSolver(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, set LMSettings) (*lmSolver, error) {
+	n := len(x0)
+	if n == 0 || m < n {
+		return nil, fmt.Errorf("kinetics: levenberg-marquardt: %d residuals for %d parameters", m, n)
+	}
+	s := &lmSolver{f: f, jac: jac, set: set.withDefaults(n), m: m, n: n,
+		res: &LMResult{X: append([]float64(nil), x0...)}}
 	for _, v := range x0 {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
 			return nil, errors.New("kinetics: levenberg-marquardt: starting point is not finite")
 		}
 	}
-	eval := func(x, r []float64) error {
-		res.Evaluations++
-		if err := f(x, r); err != nil {
-			return err
-		}
-		for _, v := range r {
-			if math.IsNaN(v) || math.IsInf(v, 0) {
-				return errors.New("residual is not finite")
-			}
-		}
-		return nil
-	}
-	x := res.X
-	r := make([]float64, m)
-	if err := eval(x, r); err != nil {
+	s.x = s.res.X
+	s.r = make([]float64, m)
+	if err := s.eval(s.x, s.r); err != nil {
 		return nil, fmt.Errorf("kinetics: levenberg-marquardt: at the starting point: %w", err)
 	}
-	fnorm := norm2(r)
-	J := mat.NewDense(m, n, nil)
-	rp := make([]float64, m)
-	rm := make([]float64, m)
-	var held []bool
-	jacobianAt := func(x []float64) error {
-		if jac != nil {
-			if err := jac(x, J); !errors.Is(err, ErrUseDifferences) {
-				return err
-			}
-		}
-		xt := append([]float64(nil), x...)
-		for j := 0; j < n; j++ {
-			h := set.DiffStep * math.Max(math.Abs(x[j]), 1)
-			xt[j] = x[j] + h
-			if err := eval(xt, rp); err != nil {
-				return err
-			}
-			xt[j] = x[j] - h
-			if err := eval(xt, rm); err != nil {
-				return err
-			}
-			xt[j] = x[j]
-			for i := 0; i < m; i++ {
-				J.Set(i, j, (rp[i]-rm[i])/(2*h))
-			}
-		}
-		return nil
-	}
+	s.fnorm = norm2(s.r)
+	s.J = mat.NewDense(m, n, nil)
+	s.rp, s.rm = make([]float64, m), make([]float64, m)
+	s.diag, s.xnew, s.rnew = make([]float64, n), make([]float64, n), make([]float64, m)
+	s.qrA, s.tau, s.qtr = make([]float64, m*n), make([]float64, n), make([]float64, m)
+	s.R = mat.NewDense(n, n, nil)
+	return s, nil
+}
 
-	jacobian := func(x []float64) error {
-		if err := jacobianAt(x); err != nil {
+// eval writes the residuals at x into r, counting the evaluation; a residual
+// that is not finite is an error, so that a trial point there is rejected.
+func (s *lmSolver) eval(x, r []float64) error {
+	s.res.Evaluations++
+	if err := s.f(x, r); err != nil {
+		return err
+	}
+	for _, v := range r {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return errors.New("residual is not finite")
+		}
+	}
+	return nil
+}
+
+// jacobian forms J at the current point, with the held columns zero.
+func (s *lmSolver) jacobian() error {
+	if err := s.jacobianAt(s.x); err != nil {
+		return fmt.Errorf("kinetics: levenberg-marquardt: jacobian: %w", err)
+	}
+	zeroHeld(s.J, s.held)
+	return nil
+}
+
+// jacobianAt forms J at x from the analytic Jacobian when there is one and it
+// covers x, else by central differences with the relative step DiffStep.
+func (s *lmSolver) jacobianAt(x []float64) error {
+	if s.jac != nil {
+		if err := s.jac(x, s.J); !errors.Is(err, ErrUseDifferences) {
 			return err
 		}
-		zeroHeld(J, held)
-		return nil
 	}
+	xt := append([]float64(nil), x...)
+	for j := 0; j < s.n; j++ {
+		h := s.set.DiffStep * math.Max(math.Abs(x[j]), 1)
+		xt[j] = x[j] + h
+		if err := s.eval(xt, s.rp); err != nil {
+			return err
+		}
+		xt[j] = x[j] - h
+		if err := s.eval(xt, s.rm); err != nil {
+			return err
+		}
+		xt[j] = x[j]
+		for i := 0; i < s.m; i++ {
+			s.J.Set(i, j, (s.rp[i]-s.rm[i])/(2*h))
+		}
+	}
+	return nil
+}
 
-	diag := make([]float64, n)
-	xnew := make([]float64, n)
-	rnew := make([]float64, m)
-	var delta, xnorm, par float64
-	qrA := make([]float64, m*n)
-	tau := make([]float64, n)
-	qtr := make([]float64, m)
-	R := mat.NewDense(n, n, nil)
-	iter := 0
+// holdFlatColumns marks, at the start, the parameters whose Jacobian column is
+// at rounding level (see heldColumns) and zeroes their columns.
+func (s *lmSolver) holdFlatColumns() {
+	s.held = heldColumns(s.J)
+	zeroHeld(s.J, s.held)
+	s.res.Held = s.held
+}
+
+// factorJacobian forms J = QR (Householder, LAPACK geqrf), Qᵀr and the
+// triangle R. J is m × n with stride n (NewDense): its raw data is qrA's
+// layout.
+func (s *lmSolver) factorJacobian() {
+	m, n := s.m, s.n
+	copy(s.qrA, s.J.RawMatrix().Data[:m*n])
+	a := blas64.General{Rows: m, Cols: n, Stride: n, Data: s.qrA}
+	work := make([]float64, 1)
+	lapack64.Geqrf(a, s.tau, work, -1)
+	work = make([]float64, int(work[0]))
+	lapack64.Geqrf(a, s.tau, work, len(work))
+	copy(s.qtr, s.r)
+	cm := blas64.General{Rows: m, Cols: 1, Stride: 1, Data: s.qtr}
+	work = make([]float64, 1)
+	lapack64.Ormqr(blas.Left, blas.Trans, a, s.tau, cm, work, -1)
+	work = make([]float64, int(work[0]))
+	lapack64.Ormqr(blas.Left, blas.Trans, a, s.tau, cm, work, len(work))
+	s.R.Zero()
+	for i := 0; i < n; i++ {
+		for j := i; j < n; j++ {
+			s.R.Set(i, j, s.qrA[i*n+j])
+		}
+	}
+}
+
+// columnNorms returns the Euclidean norms of J's columns.
+func (s *lmSolver) columnNorms() []float64 {
+	m, n := s.m, s.n
+	colNorm := make([]float64, n)
+	jd := s.J.RawMatrix().Data
+	for j := 0; j < n; j++ {
+		var sum float64
+		for i := 0; i < m; i++ {
+			v := jd[i*n+j]
+			sum += v * v
+		}
+		colNorm[j] = math.Sqrt(sum)
+	}
+	return colNorm
+}
+
+// rescale updates the scale D: the column norms at the start (and the
+// initial trust radius Factor·‖D x0‖), their running maximum after, so that
+// a parameter's scale never shrinks back (Moré 1978).
+func (s *lmSolver) rescale(colNorm []float64) {
+	if s.res.Iterations > 1 {
+		for j := range s.diag {
+			s.diag[j] = math.Max(s.diag[j], colNorm[j])
+		}
+		return
+	}
+	// A held column (zeroed) gets scale 1, as MINPACK gives a zero column.
+	for j := range s.diag {
+		s.diag[j] = colNorm[j]
+		if s.diag[j] == 0 {
+			s.diag[j] = 1
+		}
+	}
+	s.xnorm = scaledNorm(s.diag, s.x)
+	s.delta = s.set.Factor * s.xnorm
+	if s.delta == 0 {
+		s.delta = s.set.Factor
+	}
+}
+
+// gradientConverged tests a zero residual and the gradient: the largest
+// cosine between r and a column of J at most GTol. It sets the reason.
+func (s *lmSolver) gradientConverged(colNorm []float64) bool {
+	if s.fnorm == 0 {
+		s.res.Converged, s.res.Reason = true, "zero residual"
+		return true
+	}
+	g := mat.NewVecDense(s.n, nil)
+	g.MulVec(s.J.T(), mat.NewVecDense(s.m, s.r))
+	var gnorm float64
+	for j := 0; j < s.n; j++ {
+		if colNorm[j] != 0 {
+			gnorm = math.Max(gnorm, math.Abs(g.AtVec(j))/(colNorm[j]*s.fnorm))
+		}
+	}
+	if gnorm <= s.set.GTol {
+		s.res.Converged, s.res.Reason = true, "gradient orthogonal to the residual (gtol)"
+		return true
+	}
+	return false
+}
+
+// step tries steps from x, shrinking the trust region after each that does
+// not lower the sum of squares enough, until one is accepted or the
+// iteration is done (converged, or at the iteration limit). When done, the
+// Jacobian is refreshed at x: the last one may belong to an earlier iterate,
+// and covariances from the result must refer to the returned point.
+func (s *lmSolver) step() (done bool, err error) {
 	for {
-		if err := jacobian(x); err != nil {
-			return nil, fmt.Errorf("kinetics: levenberg-marquardt: jacobian: %w", err)
+		if s.iter >= s.set.MaxIter {
+			s.res.Reason = "iteration limit"
+			return true, s.jacobian()
 		}
-		res.Iterations++
-		// QR of J (Householder, LAPACK geqrf) and Qᵀr.
-		// J is m × n with stride n (NewDense): its raw data is qrA's layout.
-		if res.Iterations == 1 {
-			held = heldColumns(J)
-			zeroHeld(J, held)
-			res.Held = held
+		s.iter++
+		t := s.trial()
+		s.testConvergence(t)
+		if s.res.Converged {
+			return true, s.jacobian()
 		}
-		copy(qrA, J.RawMatrix().Data[:m*n])
-		a := blas64.General{Rows: m, Cols: n, Stride: n, Data: qrA}
-		work := make([]float64, 1)
-		lapack64.Geqrf(a, tau, work, -1)
-		work = make([]float64, int(work[0]))
-		lapack64.Geqrf(a, tau, work, len(work))
-		copy(qtr, r)
-		cm := blas64.General{Rows: m, Cols: 1, Stride: 1, Data: qtr}
-		work = make([]float64, 1)
-		lapack64.Ormqr(blas.Left, blas.Trans, a, tau, cm, work, -1)
-		work = make([]float64, int(work[0]))
-		lapack64.Ormqr(blas.Left, blas.Trans, a, tau, cm, work, len(work))
-		R.Zero()
-		for i := 0; i < n; i++ {
-			for j := i; j < n; j++ {
-				R.Set(i, j, qrA[i*n+j])
-			}
-		}
-		colNorm := make([]float64, n)
-		jd := J.RawMatrix().Data
-		for j := 0; j < n; j++ {
-			var s float64
-			for i := 0; i < m; i++ {
-				v := jd[i*n+j]
-				s += v * v
-			}
-			colNorm[j] = math.Sqrt(s)
-		}
-		if res.Iterations == 1 {
-			// A held column (zeroed above) gets scale 1, as MINPACK gives a zero column.
-			for j := range diag {
-				diag[j] = colNorm[j]
-				if diag[j] == 0 {
-					diag[j] = 1
-				}
-			}
-			xnorm = scaledNorm(diag, x)
-			delta = set.Factor * xnorm
-			if delta == 0 {
-				delta = set.Factor
-			}
-		} else {
-			for j := range diag {
-				diag[j] = math.Max(diag[j], colNorm[j])
-			}
-		}
-		// Gradient test: largest cosine between r and a column of J.
-		if fnorm == 0 {
-			res.Converged, res.Reason = true, "zero residual"
-			break
-		}
-		g := mat.NewVecDense(n, nil)
-		g.MulVec(J.T(), mat.NewVecDense(m, r))
-		var gnorm float64
-		for j := 0; j < n; j++ {
-			if colNorm[j] != 0 {
-				gnorm = math.Max(gnorm, math.Abs(g.AtVec(j))/(colNorm[j]*fnorm))
-			}
-		}
-		if gnorm <= set.GTol {
-			res.Converged, res.Reason = true, "gradient orthogonal to the residual (gtol)"
-			break
-		}
-
-		accepted := false
-		for !accepted {
-			if iter >= set.MaxIter {
-				res.Reason = "iteration limit"
-				// The last Jacobian may belong to an earlier iterate: refresh it at x so that
-				// covariances computed from the result refer to the returned point.
-				if err := jacobian(x); err != nil {
-					return nil, fmt.Errorf("kinetics: levenberg-marquardt: jacobian: %w", err)
-				}
-				return finishLM(res, x, r, fnorm, J), nil
-			}
-			iter++
-			var step []float64
-			par, step = lmPar(R, diag, qtr[:n], delta, par)
-			for j := range held {
-				if held[j] {
-					step[j] = 0 // rounding in the QR may leave a trace along a zero column
-				}
-			}
-			for j := range x {
-				xnew[j] = x[j] - step[j] // the step solves J δ ≈ −r with δ = −step
-			}
-			pnorm := scaledNorm(diag, step)
-			if res.Iterations == 1 {
-				delta = math.Min(delta, pnorm)
-			}
-			fnorm1 := math.Inf(1)
-			if err := eval(xnew, rnew); err == nil {
-				fnorm1 = norm2(rnew)
-			}
-			actred := -1.0
-			if 0.1*fnorm1 < fnorm {
-				actred = 1 - (fnorm1/fnorm)*(fnorm1/fnorm)
-			}
-			// Predicted reduction from ‖J δ‖ = ‖R δ‖.
-			rs := mat.NewVecDense(n, nil)
-			rs.MulVec(R, mat.NewVecDense(n, step))
-			t1 := mat.Norm(rs, 2) / fnorm
-			t2 := math.Sqrt(par) * pnorm / fnorm
-			prered := t1*t1 + 2*t2*t2
-			dirder := -(t1*t1 + t2*t2)
-			ratio := 0.0
-			if prered != 0 {
-				ratio = actred / prered
-			}
-			if ratio <= 0.25 {
-				temp := 0.5
-				if actred < 0 {
-					temp = 0.5 * dirder / (dirder + 0.5*actred)
-				}
-				if 0.1*fnorm1 >= fnorm || temp < 0.1 {
-					temp = 0.1
-				}
-				delta = temp * math.Min(delta, pnorm/0.1)
-				par /= temp
-			} else if par == 0 || ratio >= 0.75 {
-				delta = pnorm / 0.5
-				par *= 0.5
-			}
-			if ratio >= 1e-4 {
-				copy(x, xnew)
-				copy(r, rnew)
-				fnorm = fnorm1
-				xnorm = scaledNorm(diag, x)
-				accepted = true
-			}
-			if math.Abs(actred) <= set.FTol && prered <= set.FTol && 0.5*ratio <= 1 {
-				res.Converged, res.Reason = true, "relative reduction of the sum of squares (ftol)"
-			}
-			if delta <= set.XTol*xnorm || delta <= 1e-300 {
-				res.Converged, res.Reason = true, "relative step size (xtol)"
-			}
-			if res.Converged {
-				if err := jacobian(x); err != nil {
-					return nil, fmt.Errorf("kinetics: levenberg-marquardt: jacobian: %w", err)
-				}
-				return finishLM(res, x, r, fnorm, J), nil
-			}
+		if t.accepted {
+			return false, nil
 		}
 	}
-	return finishLM(res, x, r, fnorm, J), nil
+}
+
+// lmTrial is the outcome of one trial step: the actual and the predicted
+// relative reductions of the sum of squares, their ratio, and whether the
+// step was taken.
+type lmTrial struct {
+	actred, prered, ratio float64
+	dirder                float64 // the directional derivative of the scaled sum of squares along the step
+	accepted              bool
+}
+
+// trial solves for the step in the current trust region, evaluates the
+// residuals there, updates the region and λ from how well the linear model
+// predicted the reduction, and takes the step when the ratio is at least 1e-4.
+func (s *lmSolver) trial() lmTrial {
+	var step []float64
+	s.par, step = lmPar(s.R, s.diag, s.qtr[:s.n], s.delta, s.par)
+	for j := range s.held {
+		if s.held[j] {
+			step[j] = 0 // rounding in the QR may leave a trace along a zero column
+		}
+	}
+	for j := range s.x {
+		s.xnew[j] = s.x[j] - step[j] // the step solves J δ ≈ −r with δ = −step
+	}
+	pnorm := scaledNorm(s.diag, step)
+	if s.res.Iterations == 1 {
+		s.delta = math.Min(s.delta, pnorm)
+	}
+	fnorm1 := math.Inf(1)
+	if err := s.eval(s.xnew, s.rnew); err == nil {
+		fnorm1 = norm2(s.rnew)
+	}
+	t := s.reductions(step, pnorm, fnorm1)
+	s.updateRegion(t, pnorm, fnorm1)
+	if t.ratio >= 1e-4 {
+		copy(s.x, s.xnew)
+		copy(s.r, s.rnew)
+		s.fnorm = fnorm1
+		s.xnorm = scaledNorm(s.diag, s.x)
+		t.accepted = true
+	}
+	return t
+}
+
+// reductions compares the actual reduction of the sum of squares at the
+// trial point (−1 when it grew tenfold or more) with the one the linear
+// model predicts from ‖J δ‖ = ‖R δ‖ and the damping.
+func (s *lmSolver) reductions(step []float64, pnorm, fnorm1 float64) lmTrial {
+	var t lmTrial
+	fnorm := s.fnorm
+	t.actred = -1.0
+	if 0.1*fnorm1 < fnorm {
+		t.actred = 1 - (fnorm1/fnorm)*(fnorm1/fnorm)
+	}
+	rs := mat.NewVecDense(s.n, nil)
+	rs.MulVec(s.R, mat.NewVecDense(s.n, step))
+	t1 := mat.Norm(rs, 2) / fnorm
+	t2 := math.Sqrt(s.par) * pnorm / fnorm
+	t.prered = t1*t1 + 2*t2*t2
+	t.dirder = -(t1*t1 + t2*t2)
+	if t.prered != 0 {
+		t.ratio = t.actred / t.prered
+	}
+	return t
+}
+
+// updateRegion shrinks the trust radius (and raises λ) after a poor
+// prediction, by MINPACK's factor from the directional derivative, and
+// widens it after a good one.
+func (s *lmSolver) updateRegion(t lmTrial, pnorm, fnorm1 float64) {
+	switch {
+	case t.ratio <= 0.25:
+		temp := 0.5
+		if t.actred < 0 {
+			temp = 0.5 * t.dirder / (t.dirder + 0.5*t.actred)
+		}
+		if 0.1*fnorm1 >= s.fnorm || temp < 0.1 {
+			temp = 0.1
+		}
+		s.delta = temp * math.Min(s.delta, pnorm/0.1)
+		s.par /= temp
+	case s.par == 0 || t.ratio >= 0.75:
+		s.delta = pnorm / 0.5
+		s.par *= 0.5
+	}
+}
+
+// testConvergence sets the result converged when the actual and predicted
+// relative reductions are both at most FTol, or the trust radius has shrunk
+// to XTol relative to the scaled parameters.
+func (s *lmSolver) testConvergence(t lmTrial) {
+	if math.Abs(t.actred) <= s.set.FTol && t.prered <= s.set.FTol && 0.5*t.ratio <= 1 {
+		s.res.Converged, s.res.Reason = true, "relative reduction of the sum of squares (ftol)"
+	}
+	if s.delta <= s.set.XTol*s.xnorm || s.delta <= 1e-300 {
+		s.res.Converged, s.res.Reason = true, "relative step size (xtol)"
+	}
+}
+
+// finish fills the result at the current point.
+func (s *lmSolver) finish() *LMResult {
+	return finishLM(s.res, s.x, s.r, s.fnorm, s.J)
 }
 
 // heldColumns marks the columns of J at rounding level, ≤ 1e-12 × the largest column norm
@@ -434,42 +556,17 @@ func solveDamped(R *mat.Dense, diag, qtr []float64, lambda float64) (delta []flo
 // inside the region) by Moré's (1978) safeguarded Newton iteration on 1/‖Dδ‖ − 1/Δ.
 // δ here solves R δ ≈ Qᵀr, so the parameter step is −δ.
 func lmPar(R *mat.Dense, diag, qtr []float64, delta, parIn float64) (float64, []float64) {
-	n := len(diag)
-	const dwarf = 1e-300
-	phiAt := func(lambda float64) ([]float64, *mat.Dense, float64, bool) {
-		d, rl, ok := solveDamped(R, diag, qtr, lambda)
-		if !ok {
-			return nil, rl, 0, false
-		}
-		return d, rl, scaledNorm(diag, d) - delta, true
-	}
-	// Gauss–Newton step.
-	gn, rl0, phi, ok := phiAt(0)
+	d := dampedStep{R: R, diag: diag, qtr: qtr, delta: delta}
+	gn, rl0, phi, ok := d.at(0)
 	if ok && phi <= 0.1*delta {
-		return 0, gn
+		return 0, gn // the Gauss–Newton step is inside the region
 	}
 	// Lower bound from the Newton step at λ = 0 (only when J has full rank).
 	parl := 0.0
 	if ok {
-		w := make([]float64, n)
-		dx := scaledNorm(diag, gn)
-		for j := 0; j < n; j++ {
-			w[j] = diag[j] * (diag[j] * gn[j]) / dx
-		}
-		t := triSolveT(rl0, w)
-		tn := norm2(t)
-		parl = ((phi / delta) / tn) / tn
+		parl = d.newtonCorrection(rl0, gn, phi)
 	}
-	// Upper bound ‖D⁻¹ Rᵀ qtr‖ / Δ.
-	g := make([]float64, n)
-	for j := 0; j < n; j++ {
-		var s float64
-		for i := 0; i <= j; i++ {
-			s += R.At(i, j) * qtr[i]
-		}
-		g[j] = s / diag[j]
-	}
-	gnorm := norm2(g)
+	gnorm := d.gradientNorm()
 	paru := gnorm / delta
 	if paru == 0 {
 		paru = dwarf / math.Min(delta, 0.1)
@@ -482,32 +579,91 @@ func lmPar(R *mat.Dense, diag, qtr []float64, delta, parIn float64) (float64, []
 	if !(par > 0) || math.IsInf(par, 0) {
 		par = paru * 1e-3
 	}
+	par, best := d.iterate(par, parl, paru)
+	if best == nil {
+		// Fall back to a short steepest-descent-like step (always solvable for large λ).
+		par = math.Max(paru, 1)
+		best, _, _ = solveDamped(R, diag, qtr, par)
+		if best == nil {
+			best = make([]float64, len(diag))
+		}
+	}
+	return par, best
+}
+
+// dwarf stands in for MINPACK's dwarf (the smallest positive magnitude) as the floor of λ.
+const dwarf = 1e-300
+
+// dampedStep is the damped least-squares problem of one trust region: the
+// step δ(λ) minimising ‖R δ − qtr‖² + λ‖D δ‖², and its distance φ(λ) = ‖D δ‖ − Δ
+// from the region's edge.
+type dampedStep struct {
+	R     *mat.Dense
+	diag  []float64
+	qtr   []float64
+	delta float64
+}
+
+// at solves for δ(λ); ok is false when the system is singular.
+func (d dampedStep) at(lambda float64) (step []float64, rl *mat.Dense, phi float64, ok bool) {
+	step, rl, ok = solveDamped(d.R, d.diag, d.qtr, lambda)
+	if !ok {
+		return nil, rl, 0, false
+	}
+	return step, rl, scaledNorm(d.diag, step) - d.delta, true
+}
+
+// newtonCorrection is the Newton step on φ in λ from δ, with Rλ the
+// triangular factor of the damped system there: (φ/Δ)/‖Rλ⁻ᵀ D² δ/‖D δ‖‖².
+func (d dampedStep) newtonCorrection(rl *mat.Dense, step []float64, phi float64) float64 {
+	n := len(d.diag)
+	w := make([]float64, n)
+	dx := scaledNorm(d.diag, step)
+	for j := 0; j < n; j++ {
+		w[j] = d.diag[j] * (d.diag[j] * step[j]) / dx
+	}
+	t := triSolveT(rl, w)
+	tn := norm2(t)
+	return ((phi / d.delta) / tn) / tn
+}
+
+// gradientNorm is ‖D⁻¹ Rᵀ qtr‖, which over Δ bounds λ from above.
+func (d dampedStep) gradientNorm() float64 {
+	n := len(d.diag)
+	g := make([]float64, n)
+	for j := 0; j < n; j++ {
+		var s float64
+		for i := 0; i <= j; i++ {
+			s += d.R.At(i, j) * d.qtr[i]
+		}
+		g[j] = s / d.diag[j]
+	}
+	return norm2(g)
+}
+
+// iterate runs at most ten safeguarded Newton steps on φ from par, keeping λ
+// inside the bracket [parl, paru] it narrows. best is the last solvable step,
+// nil when none was.
+func (d dampedStep) iterate(par, parl, paru float64) (float64, []float64) {
 	var best []float64
 	prevPhi := math.Inf(1)
 	for it := 0; it < 10; it++ {
 		if par == 0 {
 			par = math.Max(dwarf, 1e-3*paru)
 		}
-		d, rl, phi, ok := phiAt(par)
+		step, rl, phi, ok := d.at(par)
 		if !ok {
 			par = math.Max(par*10, dwarf)
 			continue
 		}
-		best = d
+		best = step
 		// MINPACK's stopping rule: close enough to Δ, or λ pinned at the lower bound 0 with
 		// the step already inside the region and shrinking.
-		if math.Abs(phi) <= 0.1*delta || (parl == 0 && phi <= prevPhi && prevPhi < 0) {
+		if math.Abs(phi) <= 0.1*d.delta || (parl == 0 && phi <= prevPhi && prevPhi < 0) {
 			break
 		}
 		prevPhi = phi
-		w := make([]float64, n)
-		dx := scaledNorm(diag, d)
-		for j := 0; j < n; j++ {
-			w[j] = diag[j] * (diag[j] * d[j]) / dx
-		}
-		t := triSolveT(rl, w)
-		tn := norm2(t)
-		parc := ((phi / delta) / tn) / tn
+		parc := d.newtonCorrection(rl, step, phi)
 		if phi > 0 {
 			parl = math.Max(parl, par)
 		}
@@ -515,14 +671,6 @@ func lmPar(R *mat.Dense, diag, qtr []float64, delta, parIn float64) (float64, []
 			paru = math.Min(paru, par)
 		}
 		par = math.Max(parl, par+parc)
-	}
-	if best == nil {
-		// Fall back to a short steepest-descent-like step (always solvable for large λ).
-		par = math.Max(paru, 1)
-		best, _, _ = solveDamped(R, diag, qtr, par)
-		if best == nil {
-			best = make([]float64, n)
-		}
 	}
 	return par, best
 }
