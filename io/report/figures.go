@@ -113,99 +113,145 @@ type drawnFigures struct {
 // report's HTML needs the figures only). A figure pre holds for the same
 // view (with its files, when files are drawn) is taken as it is.
 func drawFigures(jobs []figureJob, files bool, built func(figs []Figure, problems []string), pre *Predrawn) drawnFigures {
-	type slot struct {
-		fig       *Figure
-		err       error
-		panicked  any
-		done      chan struct{} // closed when fig, err and panicked are set
-		svg, pngb []byte
-		fileErr   error
-		ahead     bool // drawn ahead (pre): nothing to do
+	w := queueFigures(jobs, files, pre)
+	w.start()
+	d := w.collect()
+	if built != nil {
+		built(d.figs, d.problems)
 	}
+	w.wg.Wait()
+	if files {
+		d.files, d.fileProblems = w.files()
+	}
+	return d
+}
+
+// figureSlot is one job's place in drawFigures.
+type figureSlot struct {
+	fig       *Figure
+	err       error
+	panicked  any
+	done      chan struct{} // closed when fig, err and panicked are set
+	svg, pngb []byte
+	fileErr   error
+	ahead     bool // drawn ahead (pre): nothing to do
+}
+
+// figureWork is drawFigures' work: the jobs' slots and the tasks left,
+// building figure k being task k and drawing its files task n + k.
+type figureWork struct {
+	jobs      []figureJob
+	res       []figureSlot
+	tasks     chan int
+	todo      int // the figures to build
+	figsBuilt sync.WaitGroup
+	wg        sync.WaitGroup // the drawing goroutines
+	stop      atomic.Bool    // a figure panicked: draw no more files
+}
+
+// queueFigures takes the figures pre drew for the same view and queues
+// the building of the others, then (with files) their files.
+func queueFigures(jobs []figureJob, files bool, pre *Predrawn) *figureWork {
 	n := len(jobs)
-	res := make([]slot, n)
-	tasks := make(chan int, 2*n) // building figure k is task k; its files, task n + k
-	var figsBuilt, wg sync.WaitGroup
-	figsBuilt.Add(n)
-	todo := 0
-	for k := range res {
-		res[k].done = make(chan struct{})
+	w := &figureWork{jobs: jobs, res: make([]figureSlot, n), tasks: make(chan int, 2*n)}
+	w.figsBuilt.Add(n)
+	for k := range w.res {
+		r := &w.res[k]
+		r.done = make(chan struct{})
 		if e := pre.match(jobs[k]); e != nil {
-			r := &res[k]
 			r.fig, r.err, r.svg, r.pngb, r.fileErr, r.ahead = e.fig, e.err, e.svg, e.pngb, e.fileErr, true
 			close(r.done)
-			figsBuilt.Done()
+			w.figsBuilt.Done()
 			continue
 		}
-		tasks <- k
-		todo++
+		w.tasks <- k
+		w.todo++
 	}
 	if files {
 		for k := range n {
-			if !res[k].ahead {
-				tasks <- n + k
+			if !w.res[k].ahead {
+				w.tasks <- n + k
 			}
 		}
 	}
-	close(tasks)
-	// largestBuilt is the size in bytes of the largest PNG image of the
-	// figures built so far (rasterCanvas's): a goroutine makes its image
-	// once, when it draws its first file, at that size (by then all but the
-	// figures other goroutines are still building are known) rather than
-	// again whenever a figure is taller.
-	largestBuilt := func() int {
-		size := 0
-		for k := range res {
-			select {
-			case <-res[k].done:
-				if fig := res[k].fig; fig != nil && fig.drawing.draw != nil && !res[k].ahead {
-					_, legH := legendLayout(*fig)
-					size = max(size, 4*figurePixels(fig.drawing.w)*figurePixels(fig.drawing.h+legH))
-				}
-			default:
-			}
+	close(w.tasks)
+	return w
+}
+
+// start begins the drawing goroutines, one per processor, no more than
+// there are figures to build.
+func (w *figureWork) start() {
+	for range min(runtime.GOMAXPROCS(0), w.todo) {
+		w.wg.Add(1)
+		go w.work()
+	}
+}
+
+// work runs tasks until none is left.
+func (w *figureWork) work() {
+	defer w.wg.Done()
+	n := len(w.jobs)
+	var s *fileScratch
+	for t := range w.tasks {
+		if t < n {
+			w.build(t)
+			continue
 		}
-		return size
+		r := &w.res[t-n]
+		<-r.done
+		if w.stop.Load() || r.fig == nil || r.fig.drawing.draw == nil {
+			continue
+		}
+		if s == nil {
+			s = &fileScratch{pix: make([]byte, w.largestBuilt())}
+		}
+		r.svg, r.pngb, r.fileErr = standalone(*r.fig, s)
 	}
-	var stop atomic.Bool // a figure panicked: draw no more files
-	for w := 0; w < min(runtime.GOMAXPROCS(0), todo); w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			var s *fileScratch
-			for t := range tasks {
-				if t < n {
-					func() {
-						// A panic is raised again on the caller, as when the
-						// figures were built one after another.
-						defer func() {
-							res[t].panicked = recover()
-							close(res[t].done)
-							figsBuilt.Done()
-						}()
-						res[t].fig, res[t].err = jobs[t].build(jobs[t].view)
-					}()
-					continue
-				}
-				r := &res[t-n]
-				<-r.done
-				if stop.Load() || r.fig == nil || r.fig.drawing.draw == nil {
-					continue
-				}
-				if s == nil {
-					s = &fileScratch{pix: make([]byte, largestBuilt())}
-				}
-				r.svg, r.pngb, r.fileErr = standalone(*r.fig, s)
+}
+
+// build builds figure k. A panic is raised again on the caller
+// (collect), as when the figures were built one after another.
+func (w *figureWork) build(k int) {
+	r := &w.res[k]
+	defer func() {
+		r.panicked = recover()
+		close(r.done)
+		w.figsBuilt.Done()
+	}()
+	r.fig, r.err = w.jobs[k].build(w.jobs[k].view)
+}
+
+// largestBuilt is the size in bytes of the largest PNG image of the
+// figures built so far (rasterCanvas's): a goroutine makes its image once,
+// when it draws its first file, at that size (by then all but the figures
+// other goroutines are still building are known) rather than again
+// whenever a figure is taller.
+func (w *figureWork) largestBuilt() int {
+	size := 0
+	for k := range w.res {
+		select {
+		case <-w.res[k].done:
+			if fig := w.res[k].fig; fig != nil && fig.drawing.draw != nil && !w.res[k].ahead {
+				_, legH := legendLayout(*fig)
+				size = max(size, 4*figurePixels(fig.drawing.w)*figurePixels(fig.drawing.h+legH))
 			}
-		}()
+		default:
+		}
 	}
-	figsBuilt.Wait()
+	return size
+}
+
+// collect waits for every figure to be built and gives the figures and
+// problems in reading order; a figure's panic is raised again here, once
+// no more files are drawn.
+func (w *figureWork) collect() drawnFigures {
+	w.figsBuilt.Wait()
 	var d drawnFigures
-	for k := range res {
-		r := &res[k] // its files may be being drawn: read only what the figure's building set
+	for k := range w.res {
+		r := &w.res[k] // its files may be being drawn: read only what the figure's building set
 		if r.panicked != nil {
-			stop.Store(true)
-			wg.Wait()
+			w.stop.Store(true)
+			w.wg.Wait()
 			panic(r.panicked)
 		}
 		switch {
@@ -215,25 +261,25 @@ func drawFigures(jobs []figureJob, files bool, built func(figs []Figure, problem
 			d.figs = append(d.figs, *r.fig)
 		}
 	}
-	if built != nil {
-		built(d.figs, d.problems)
-	}
-	wg.Wait()
-	if !files {
-		return d
-	}
-	d.files = map[string][]byte{}
-	for _, r := range res {
+	return d
+}
+
+// files are the figures' files by their names in the folder, and the
+// problems of those that could not be drawn; call it once the drawing
+// goroutines are done.
+func (w *figureWork) files() (files map[string][]byte, problems []string) {
+	files = map[string][]byte{}
+	for _, r := range w.res {
 		switch {
 		case r.fig == nil || r.fig.drawing.draw == nil:
 		case r.fileErr != nil:
-			d.fileProblems = append(d.fileProblems, fmt.Sprintf("%s: %v", r.fig.ID, r.fileErr))
+			problems = append(problems, fmt.Sprintf("%s: %v", r.fig.ID, r.fileErr))
 		default:
-			d.files["figures/"+r.fig.ID+".svg"] = r.svg
-			d.files["figures/"+r.fig.ID+".png"] = r.pngb
+			files["figures/"+r.fig.ID+".svg"] = r.svg
+			files["figures/"+r.fig.ID+".png"] = r.pngb
 		}
 	}
-	return d
+	return files, problems
 }
 
 func (f *Folder) axisName() string {
