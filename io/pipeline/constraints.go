@@ -182,10 +182,7 @@ func hasComponentConstraints(s *Settings) bool {
 // data axis, zero windows in time and on the axis, and the experiment
 // blocks. With per-component constraints it also puts c0 in time order.
 func applyConstraints(r *Result, c0 *mat.Dense, opt *mcr.Options) error {
-	s := r.Settings
-	n, m := r.D.Dims()
-	k := r.Components
-	rep := &ConstraintReport{FixedOrder: hasComponentConstraints(s)}
+	rep := &ConstraintReport{FixedOrder: hasComponentConstraints(r.Settings)}
 	r.Constraints = rep
 	if rep.FixedOrder {
 		sortByTime(r, c0)
@@ -193,54 +190,92 @@ func applyConstraints(r *Result, c0 *mat.Dense, opt *mcr.Options) error {
 	for _, e := range r.Experiments {
 		opt.Blocks = append(opt.Blocks, e.FirstRow)
 	}
-	// Closure: one total, or one per experiment.
+	for _, apply := range []func(*Result, *mcr.Options) error{
+		applyClosure, applyNonNeg, applyUnimodal, applyKnownSpectra, applyZeroWindows, applyZeroRegions,
+	} {
+		if err := apply(r, opt); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// describe adds one active constraint, in words, to the run's report.
+func describe(r *Result, what string) {
+	r.Constraints.Described = append(r.Constraints.Described, what)
+}
+
+// applyClosure sets closure: one total for every row, or one per experiment,
+// with optional stoichiometric weights. Closure holds for species
+// (absolute absorbance) only: difference data resolves reactions, whose
+// amounts need not add up, so there it is noted and left out.
+func applyClosure(r *Result, opt *mcr.Options) error {
+	s := r.Settings
 	opt.Closure, opt.Total = false, nil
 	totals, err := parseTotals(s.Closure)
 	if err != nil {
 		return usage("--closure %v", err)
 	}
-	if r.Mode == mcr.Species && totals != nil {
-		switch {
-		case len(totals) == 1:
-			opt.Total = totals
-		case len(totals) == len(r.Experiments):
-			opt.Total = make([]float64, n)
-			for i := range opt.Total {
-				opt.Total[i] = totals[r.ExpOfRow[i]]
-			}
-		default:
-			return usage("--closure %s gives %d totals for %d experiments: give one, or one per experiment", s.Closure, len(totals), len(r.Experiments))
+	switch {
+	case r.Mode == mcr.Species && totals != nil:
+		if err := closureTotals(r, opt, totals); err != nil {
+			return err
 		}
-		opt.Closure = true
-		w, err := parseWeights(s.ClosureWeights)
-		if err != nil {
-			return usage("--closure-weights %v", err)
-		}
-		if w != nil && len(w) != k {
-			return usage("--closure-weights %s has %d weights for %d components", s.ClosureWeights, len(w), k)
-		}
-		opt.ClosureWeights = w
-		what := "closure: Σ c_k = " + s.Closure
-		if w != nil {
-			what = "closure with weights " + s.ClosureWeights + ": Σ w_k c_k = " + s.Closure
-		}
-		if len(totals) > 1 {
-			what += " (one total per experiment)"
-		}
-		rep.Described = append(rep.Described, what)
-	} else if r.Mode == mcr.Reactions && totals != nil && s.Closure != NewSettings().Closure {
+	case r.Mode == mcr.Reactions && totals != nil && s.Closure != NewSettings().Closure:
 		r.Notes = append(r.Notes, "closure applies to species (absolute absorbance); difference data resolves reactions, so it was not used")
 	}
 	if s.ClosureWeights != "" && !opt.Closure {
 		r.Notes = append(r.Notes, "--closure-weights has no effect without closure")
 	}
-	// Non-negativity per component and side.
+	return nil
+}
+
+// closureTotals puts the closure totals on the rows and reads the weights.
+func closureTotals(r *Result, opt *mcr.Options, totals []float64) error {
+	s := r.Settings
+	switch {
+	case len(totals) == 1:
+		opt.Total = totals
+	case len(totals) == len(r.Experiments):
+		n, _ := r.D.Dims()
+		opt.Total = make([]float64, n)
+		for i := range opt.Total {
+			opt.Total[i] = totals[r.ExpOfRow[i]]
+		}
+	default:
+		return usage("--closure %s gives %d totals for %d experiments: give one, or one per experiment", s.Closure, len(totals), len(r.Experiments))
+	}
+	opt.Closure = true
+	w, err := parseWeights(s.ClosureWeights)
+	if err != nil {
+		return usage("--closure-weights %v", err)
+	}
+	if w != nil && len(w) != r.Components {
+		return usage("--closure-weights %s has %d weights for %d components", s.ClosureWeights, len(w), r.Components)
+	}
+	opt.ClosureWeights = w
+	what := "closure: Σ c_k = " + s.Closure
+	if w != nil {
+		what = "closure with weights " + s.ClosureWeights + ": Σ w_k c_k = " + s.Closure
+	}
+	if len(totals) > 1 {
+		what += " (one total per experiment)"
+	}
+	describe(r, what)
+	return nil
+}
+
+// applyNonNeg sets non-negativity per component and side. By default every
+// profile is non-negative, and every spectrum of species; a difference
+// spectrum (a reaction's) has negative bands where something is consumed.
+func applyNonNeg(r *Result, opt *mcr.Options) error {
+	k := r.Components
 	nnP := make([]bool, k)
 	nnS := make([]bool, k)
 	for j := 0; j < k; j++ {
 		nnP[j], nnS[j] = true, r.Mode == mcr.Species
 	}
-	for _, v := range s.NonNeg {
+	for _, v := range r.Settings.NonNeg {
 		comps, side, err := componentSpec(v, k)
 		if err != nil {
 			return usage("--nonneg %v", err)
@@ -249,17 +284,22 @@ func applyConstraints(r *Result, c0 *mat.Dense, opt *mcr.Options) error {
 			nnP[j] = side == sideBoth || side == sideProfile
 			nnS[j] = side == sideBoth || side == sideSpectrum
 		}
-		rep.Described = append(rep.Described, "non-negative "+v)
+		describe(r, "non-negative "+v)
 	}
 	opt.NonNegProfiles, opt.NonNegSpectra = nnP, nnS
-	// Unimodality.
+	return nil
+}
+
+// applyUnimodal marks the components whose profiles have one maximum.
+func applyUnimodal(r *Result, opt *mcr.Options) error {
+	s := r.Settings
 	for _, v := range s.Unimodal {
-		comps, err := componentList(v, k)
+		comps, err := componentList(v, r.Components)
 		if err != nil {
 			return usage("--unimodal %v", err)
 		}
 		if opt.Unimodal == nil {
-			opt.Unimodal = make([]bool, k)
+			opt.Unimodal = make([]bool, r.Components)
 		}
 		for _, j := range comps {
 			opt.Unimodal[j] = true
@@ -267,9 +307,16 @@ func applyConstraints(r *Result, c0 *mat.Dense, opt *mcr.Options) error {
 	}
 	if opt.Unimodal != nil {
 		opt.UnimodalTolerance = s.UnimodalTolerance
-		rep.Described = append(rep.Described, fmt.Sprintf("unimodal profiles %s (tolerance %g)", strings.Join(s.Unimodal, ","), s.UnimodalTolerance))
+		describe(r, fmt.Sprintf("unimodal profiles %s (tolerance %g)", strings.Join(s.Unimodal, ","), s.UnimodalTolerance))
 	}
-	// Known spectra, put on the data's axis.
+	return nil
+}
+
+// applyKnownSpectra reads the known spectra, puts them on the data's axis
+// and fixes the components' spectra to them: exactly, or as a soft equality
+// of the given weight.
+func applyKnownSpectra(r *Result, opt *mcr.Options) error {
+	s, k := r.Settings, r.Components
 	for _, v := range s.KnownSpectra {
 		comps, rest, err := componentSpec(v, k)
 		if err != nil {
@@ -297,74 +344,85 @@ func applyConstraints(r *Result, c0 *mat.Dense, opt *mcr.Options) error {
 		if w > 0 {
 			how = fmt.Sprintf("as a soft equality, weight %g", w)
 		}
-		rep.Described = append(rep.Described, fmt.Sprintf("known spectrum of component %s from %s (%s)", strings.Split(v, "=")[0], file, how))
-	}
-	// Zero windows in time (every experiment) and on the axis.
-	for _, v := range s.ZeroWindows {
-		comps, rest, err := componentSpec(v, k)
-		if err != nil {
-			return usage("--zero-window %v", err)
-		}
-		win, err := ParseRange(rest)
-		if err != nil {
-			return usage("--zero-window %v", err)
-		}
-		lo, hi := math.Min(win[0], win[1]), math.Max(win[0], win[1])
-		if opt.ZeroProfiles == nil {
-			opt.ZeroProfiles = make([][]bool, k)
-		}
-		hit := 0
-		for _, j := range comps {
-			z := make([]bool, n)
-			if opt.ZeroProfiles[j] != nil {
-				copy(z, opt.ZeroProfiles[j])
-			}
-			for i, t := range r.Times {
-				if t >= lo && t <= hi {
-					z[i] = true
-					hit++
-				}
-			}
-			opt.ZeroProfiles[j] = z
-		}
-		if hit == 0 {
-			return usage("--zero-window %s: no spectrum was taken between %g and %g s", v, lo, hi)
-		}
-		rep.Described = append(rep.Described, "zero profile "+v+" s")
-	}
-	for _, v := range s.ZeroRegions {
-		comps, rest, err := componentSpec(v, k)
-		if err != nil {
-			return usage("--zero-region %v", err)
-		}
-		win, err := ParseRange(rest)
-		if err != nil {
-			return usage("--zero-region %v", err)
-		}
-		lo, hi := math.Min(win[0], win[1]), math.Max(win[0], win[1])
-		if opt.ZeroSpectra == nil {
-			opt.ZeroSpectra = make([][]bool, k)
-		}
-		hit := 0
-		for _, j := range comps {
-			z := make([]bool, m)
-			if opt.ZeroSpectra[j] != nil {
-				copy(z, opt.ZeroSpectra[j])
-			}
-			for i, x := range r.Axis {
-				if x >= lo && x <= hi {
-					z[i] = true
-					hit++
-				}
-			}
-			opt.ZeroSpectra[j] = z
-		}
-		if hit == 0 {
-			return usage("--zero-region %s: the %s axis has no point between %g and %g", v, r.AxisName, lo, hi)
-		}
-		rep.Described = append(rep.Described, "zero spectrum "+v+" ("+r.AxisName+")")
+		describe(r, fmt.Sprintf("known spectrum of component %s from %s (%s)", strings.Split(v, "=")[0], file, how))
 	}
 	return nil
+}
+
+// applyZeroWindows sets the components' profiles to zero in windows of time,
+// in every experiment. A window that holds no spectrum is a mistake in the
+// settings, not a constraint.
+func applyZeroWindows(r *Result, opt *mcr.Options) error {
+	n, _ := r.D.Dims()
+	for _, v := range r.Settings.ZeroWindows {
+		comps, lo, hi, err := zeroSpec(v, r.Components)
+		if err != nil {
+			return usage("--zero-window %v", err)
+		}
+		if opt.ZeroProfiles == nil {
+			opt.ZeroProfiles = make([][]bool, r.Components)
+		}
+		if markWindow(opt.ZeroProfiles, comps, n, r.Times, lo, hi) == 0 {
+			return usage("--zero-window %s: no spectrum was taken between %g and %g s", v, lo, hi)
+		}
+		describe(r, "zero profile "+v+" s")
+	}
+	return nil
+}
+
+// applyZeroRegions sets the components' spectra to zero in regions of the
+// axis. A region that holds no point is a mistake in the settings.
+func applyZeroRegions(r *Result, opt *mcr.Options) error {
+	_, m := r.D.Dims()
+	for _, v := range r.Settings.ZeroRegions {
+		comps, lo, hi, err := zeroSpec(v, r.Components)
+		if err != nil {
+			return usage("--zero-region %v", err)
+		}
+		if opt.ZeroSpectra == nil {
+			opt.ZeroSpectra = make([][]bool, r.Components)
+		}
+		if markWindow(opt.ZeroSpectra, comps, m, r.Axis, lo, hi) == 0 {
+			return usage("--zero-region %s: the %s axis has no point between %g and %g", v, r.AxisName, lo, hi)
+		}
+		describe(r, "zero spectrum "+v+" ("+r.AxisName+")")
+	}
+	return nil
+}
+
+// zeroSpec reads COMPONENTS=FROM:TO of a zero window or region, the ends in
+// either order.
+func zeroSpec(v string, k int) (comps []int, lo, hi float64, err error) {
+	comps, rest, err := componentSpec(v, k)
+	if err != nil {
+		return nil, 0, 0, err
+	}
+	win, err := ParseRange(rest)
+	if err != nil {
+		return nil, 0, 0, err
+	}
+	return comps, math.Min(win[0], win[1]), math.Max(win[0], win[1]), nil
+}
+
+// markWindow adds to each component's mask of size points (a new mask
+// holding the earlier one's marks) the points whose coordinate lies in
+// [lo, hi], and returns how many marks it set.
+func markWindow(masks [][]bool, comps []int, size int, coords []float64, lo, hi float64) int {
+	hit := 0
+	for _, j := range comps {
+		z := make([]bool, size)
+		if masks[j] != nil {
+			copy(z, masks[j])
+		}
+		for i, x := range coords {
+			if x >= lo && x <= hi {
+				z[i] = true
+				hit++
+			}
+		}
+		masks[j] = z
+	}
+	return hit
 }
 
 // sortByTime puts the initial profiles in the order orderComponents would
