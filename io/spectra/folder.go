@@ -174,12 +174,50 @@ func UnitFactor(unit string) (float64, error) {
 
 // ReadFolder reads every spectrum file of a folder and orders them by time.
 func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
+	files, err := spectrumFiles(dir, opt.Exclude)
+	if err != nil {
+		return nil, err
+	}
+	times, fromHeaders, err := folderTimes(dir, files, opt)
+	if err != nil {
+		return nil, err
+	}
+	if len(files) == 0 {
+		return nil, inputErr(dir, 0, "put one file per spectrum in it (.csv, .txt, .dat, .jdx …)", "holds no spectrum files")
+	}
+	specs, errs := readFiles(files)
+	if fromHeaders {
+		if times, err = headerTimes(dir, files, specs, errs); err != nil {
+			return nil, err
+		}
+	}
+	order := make([]int, len(files))
+	for i := range order {
+		order[i] = i
+	}
+	sort.SliceStable(order, func(a, b int) bool { return times[order[a]] < times[order[b]] })
+	// The error reported is the earliest file's, whatever order the reads ended in.
+	for _, i := range order {
+		if errs[i] != nil {
+			return nil, errs[i]
+		}
+	}
+	target, err := folderAxis(dir, specs, specs[order[0]], opt.Resample)
+	if err != nil {
+		return nil, err
+	}
+	return stackSpectra(dir, files, specs, times, order, target, opt.Resample)
+}
+
+// spectrumFiles lists the folder's spectrum files: by their endings, hidden
+// files and the excluded paths (a times table, a blank) left out.
+func spectrumFiles(dir string, exclude []string) ([]string, error) {
 	entries, err := os.ReadDir(dir)
 	if err != nil {
 		return nil, inputErr(dir, 0, "check the folder's path and permissions", "cannot list: %v", unwrapPathErr(err))
 	}
 	skip := map[string]bool{}
-	for _, p := range opt.Exclude {
+	for _, p := range exclude {
 		if a, err := filepath.Abs(p); err == nil {
 			skip[a] = true
 		}
@@ -196,61 +234,91 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 		}
 		files = append(files, p)
 	}
-	times := make([]float64, len(files))
-	fromHeaders := false
+	return files, nil
+}
+
+// folderTimes gives each file its acquisition time from the times table or
+// the file names. Without either, a folder of JCAMP-DX files may carry the
+// times in its headers: fromHeaders then says to read them after the files.
+func folderTimes(dir string, files []string, opt FolderOptions) (times []float64, fromHeaders bool, err error) {
 	switch {
 	case opt.TimesFile != "":
-		table, err := ReadTimes(opt.TimesFile)
-		if err != nil {
-			return nil, err
-		}
-		used := map[string]bool{}
-		for i, f := range files {
-			t, ok := table[filepath.Base(f)]
-			if !ok {
-				return nil, inputErr(opt.TimesFile, 0, "add a row for it, or move the file out of the folder", "has no time for %s", f)
-			}
-			times[i], used[filepath.Base(f)] = t, true
-		}
-		var absent []string
-		for name := range table {
-			if !used[name] {
-				absent = append(absent, name)
-			}
-		}
-		if len(absent) > 0 {
-			sort.Strings(absent)
-			return nil, inputErr(opt.TimesFile, 0, "remove the row or put the file in the folder", "names %s, which is not a spectrum file in %s", absent[0], dir)
-		}
+		times, err = timesFromTable(dir, files, opt.TimesFile)
+		return times, false, err
 	case opt.TimesFromName:
-		labels := make([]string, len(files))
-		for i, f := range files {
-			labels[i] = strings.TrimSuffix(filepath.Base(f), filepath.Ext(f))
-		}
-		what := func(i int) string { return "the file name " + strconv.Quote(filepath.Base(files[i])) }
-		ts, bad, err := timesFromLabels(labels, opt.TimeUnit, what)
-		if err != nil {
-			return nil, inputErr(files[bad], 0, "name files with their time (e.g. scan_0120.csv or a date-time stamp such as 2019-07-29T13-20-49), or give --times FILE", "%v", err)
-		}
-		seen := map[float64]string{}
-		for i, t := range ts {
-			if other, dup := seen[t]; dup {
-				return nil, inputErr(files[i], 0, "give each file its own time, or use --times FILE", "same time %g s as %s", t, other)
-			}
-			seen[t], times[i] = files[i], t
-		}
-	default:
-		// JCAMP-DX exports may carry their acquisition times: read first, look after.
-		if len(files) == 0 || !allJCAMP(files) {
-			return nil, noTimes(dir)
-		}
-		fromHeaders = true
+		times, err = timesFromNames(files, opt.TimeUnit)
+		return times, false, err
+	case len(files) == 0 || !allJCAMP(files):
+		return nil, false, noTimes(dir)
 	}
-	if len(files) == 0 {
-		return nil, inputErr(dir, 0, "put one file per spectrum in it (.csv, .txt, .dat, .jdx …)", "holds no spectrum files")
+	return make([]float64, len(files)), true, nil
+}
+
+// timesFromTable looks each file up in the times table. A row naming no file
+// of the folder is an error too: the table and the folder disagree, and
+// either could be the one that is wrong.
+func timesFromTable(dir string, files []string, timesFile string) ([]float64, error) {
+	table, err := ReadTimes(timesFile)
+	if err != nil {
+		return nil, err
 	}
-	// Read in parallel; each result lands in its own slot (order-free), a
-	// read's panic too (readInFolder).
+	times := make([]float64, len(files))
+	used := map[string]bool{}
+	for i, f := range files {
+		t, ok := table[filepath.Base(f)]
+		if !ok {
+			return nil, inputErr(timesFile, 0, "add a row for it, or move the file out of the folder", "has no time for %s", f)
+		}
+		times[i], used[filepath.Base(f)] = t, true
+	}
+	var absent []string
+	for name := range table {
+		if !used[name] {
+			absent = append(absent, name)
+		}
+	}
+	if len(absent) > 0 {
+		sort.Strings(absent)
+		return nil, inputErr(timesFile, 0, "remove the row or put the file in the folder", "names %s, which is not a spectrum file in %s", absent[0], dir)
+	}
+	return times, nil
+}
+
+// timesFromNames reads each file's time from its name (without the ending):
+// a date-time stamp or its last number in unit. Two files of one time
+// cannot be ordered.
+func timesFromNames(files []string, unit string) ([]float64, error) {
+	labels := make([]string, len(files))
+	for i, f := range files {
+		labels[i] = strings.TrimSuffix(filepath.Base(f), filepath.Ext(f))
+	}
+	what := func(i int) string { return "the file name " + strconv.Quote(filepath.Base(files[i])) }
+	times, bad, err := timesFromLabels(labels, unit, what)
+	if err != nil {
+		return nil, inputErr(files[bad], 0, "name files with their time (e.g. scan_0120.csv or a date-time stamp such as 2019-07-29T13-20-49), or give --times FILE", "%v", err)
+	}
+	if i, other := repeatedTime(times, files); i >= 0 {
+		return nil, inputErr(files[i], 0, "give each file its own time, or use --times FILE", "same time %g s as %s", times[i], other)
+	}
+	return times, nil
+}
+
+// repeatedTime returns the first file whose time an earlier file has, and
+// that file; -1 when every time is its own.
+func repeatedTime(times []float64, files []string) (int, string) {
+	seen := map[float64]string{}
+	for i, t := range times {
+		if other, dup := seen[t]; dup {
+			return i, other
+		}
+		seen[t] = files[i]
+	}
+	return -1, ""
+}
+
+// readFiles reads the files in parallel; each result lands in its own slot
+// (order-free), a read's panic too (readInFolder).
+func readFiles(files []string) ([]*Spectrum, []error) {
 	specs := make([]*Spectrum, len(files))
 	errs := make([]error, len(files))
 	var wg sync.WaitGroup
@@ -269,56 +337,57 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 		}()
 	}
 	wg.Wait()
-	if fromHeaders {
-		for _, err := range errs {
-			if err != nil {
-				return nil, err
-			}
-		}
-		if !allAcquired(specs) {
-			return nil, noTimes(dir)
-		}
-		times = acquiredSeconds(specs)
-		seen := map[float64]string{}
-		for i, t := range times {
-			if other, dup := seen[t]; dup {
-				return nil, inputErr(files[i], 0, "give each file its own time with --times FILE", "its JCAMP-DX acquisition time is the same as that of %s", other)
-			}
-			seen[t] = files[i]
+	return specs, errs
+}
+
+// headerTimes takes the acquisition times from the JCAMP-DX headers, which
+// every file must carry, each its own.
+func headerTimes(dir string, files []string, specs []*Spectrum, errs []error) ([]float64, error) {
+	for _, err := range errs {
+		if err != nil {
+			return nil, err
 		}
 	}
-	order := make([]int, len(files))
-	for i := range order {
-		order[i] = i
+	if !allAcquired(specs) {
+		return nil, noTimes(dir)
 	}
-	sort.SliceStable(order, func(a, b int) bool { return times[order[a]] < times[order[b]] })
-	for _, i := range order {
-		if errs[i] != nil {
-			return nil, errs[i]
-		}
+	times := acquiredSeconds(specs)
+	if i, other := repeatedTime(times, files); i >= 0 {
+		return nil, inputErr(files[i], 0, "give each file its own time with --times FILE", "its JCAMP-DX acquisition time is the same as that of %s", other)
 	}
-	first := specs[order[0]]
-	target := first.Axis
-	if opt.Resample {
-		// Only the range every file covers can be interpolated.
-		var axes [][]float64
-		for _, sp := range specs {
-			axes = append(axes, sp.Axis)
-		}
-		idx := CommonRange(first.Axis, axes...)
-		if len(idx) < 2 {
-			return nil, inputErr(dir, 0, "export the spectra over overlapping ranges", "the files' axes have no common range")
-		}
-		target = KeepValues(first.Axis, idx)
+	return times, nil
+}
+
+// folderAxis is the axis of the series: the first file's, or with resampling
+// its points inside the range every file covers, since only there can every
+// file be interpolated.
+func folderAxis(dir string, specs []*Spectrum, first *Spectrum, resample bool) ([]float64, error) {
+	if !resample {
+		return first.Axis, nil
 	}
+	var axes [][]float64
+	for _, sp := range specs {
+		axes = append(axes, sp.Axis)
+	}
+	idx := CommonRange(first.Axis, axes...)
+	if len(idx) < 2 {
+		return nil, inputErr(dir, 0, "export the spectra over overlapping ranges", "the files' axes have no common range")
+	}
+	return KeepValues(first.Axis, idx), nil
+}
+
+// stackSpectra puts the spectra in time order as the rows of the series on
+// the target axis (resampled there when allowed), all of the first one's kind.
+func stackSpectra(dir string, files []string, specs []*Spectrum, times []float64, order []int, target []float64, resample bool) (*Series, error) {
+	first, firstName := specs[order[0]], files[order[0]]
 	s := &Series{AxisName: first.AxisName, Axis: target, Source: dir, Kind: first.Kind}
 	s.Values = mat.NewDense(len(files), len(target), nil)
 	for r, i := range order {
 		sp := specs[i]
 		vals := sp.Values
 		if !sameAxis(sp.Axis, target) {
-			if !opt.Resample {
-				return nil, inputErr(files[i], 0, "use --resample to interpolate onto the first file's axis, or export all spectra on one axis", "%s", describeAxisMismatch(sp.Axis, first.Axis, files[order[0]]))
+			if !resample {
+				return nil, inputErr(files[i], 0, "use --resample to interpolate onto the first file's axis, or export all spectra on one axis", "%s", describeAxisMismatch(sp.Axis, first.Axis, firstName))
 			}
 			var err error
 			if vals, err = Resample(sp.Axis, sp.Values, target); err != nil {
@@ -326,7 +395,7 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 			}
 		}
 		if sp.Kind != first.Kind {
-			return nil, inputErr(files[i], 0, "give files of one kind", "holds %s data, %s holds %s", orUnknown(sp.Kind), files[order[0]], orUnknown(first.Kind))
+			return nil, inputErr(files[i], 0, "give files of one kind", "holds %s data, %s holds %s", orUnknown(sp.Kind), firstName, orUnknown(first.Kind))
 		}
 		s.Values.SetRow(r, vals)
 		s.Times = append(s.Times, times[i])
