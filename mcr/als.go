@@ -445,6 +445,7 @@ type alsRun struct {
 	// Passive sets carried from one iteration to the next (warm start).
 	passS, passC []uint64
 	res          *Result
+	w            alsWork
 }
 
 // newALSRun checks the shapes, sets the defaults and forms the constraints
@@ -481,6 +482,7 @@ func newALSRun(d Data, c0 *mat.Dense, opt Options) (*alsRun, error) {
 	// Row × column weights (Weighted data): the Gram matrices become CᵀAC
 	// and SᵀBS; the right-hand sides come weighted from d.
 	r.rowW, r.colW = weightsOf(d)
+	r.w = newALSWork(d, k)
 	clampColumns(r.c, cs.nnP)
 	// Extrapolation: each iteration starts from the profiles pushed further
 	// along the last update, C + step·(C − C_prev), clipped to the
@@ -567,7 +569,12 @@ func (r *alsRun) extrapolate() bool {
 	if !r.accelerate || r.cPrev == nil {
 		return false
 	}
-	ce := mat.NewDense(r.n, r.k, nil)
+	// ce lives until the profiles step replaces it (or the iteration is
+	// undone), so one buffer serves every iteration.
+	if r.w.ce == nil {
+		r.w.ce = mat.NewDense(r.n, r.k, nil)
+	}
+	ce := r.w.ce
 	ce.Sub(r.c, r.cPrev)
 	ce.Scale(r.ext.step, ce)
 	ce.Add(r.c, ce)
@@ -579,7 +586,7 @@ func (r *alsRun) extrapolate() bool {
 // spectraHalf is the spectra's half step and what follows it: the baseline
 // split, the spectra held low, and the spectra's normalisation.
 func (r *alsRun) spectraHalf(it int) error {
-	s, err := spectraStep(r.d, r.c, r.rowW, r.cs, r.passS, it)
+	s, err := r.spectraStep(it)
 	if err != nil {
 		return err
 	}
@@ -591,10 +598,11 @@ func (r *alsRun) spectraHalf(it int) error {
 		takeOthers(s, r.opt.LeastOthers, r.k-r.opt.baselineTerms)
 	}
 	if !r.opt.Closure {
-		// On a copy: c may still be cPlain, the profiles that go with
-		// sPlain if this iteration is undone.
-		r.c = mat.DenseCopyOf(r.c)
-		normaliseSpectra(s, r.c, r.cs.scaleSet)
+		// The profiles would take each spectrum's scale, but the profiles
+		// step that follows replaces them whatever their scale (and c may
+		// still be cPlain, the profiles that go with sPlain if this
+		// iteration is undone): only the spectra are scaled.
+		normaliseSpectra(s, r.cs.scaleSet)
 	}
 	return nil
 }
@@ -603,21 +611,20 @@ func (r *alsRun) spectraHalf(it int) error {
 // Sᵀ B Dᵀ), then unimodality and the hard model. It returns D B S and SᵀBS
 // for the residual's trace identity.
 func (r *alsRun) profilesHalf(it int) (*mat.Dense, *mat.SymDense, error) {
-	ds := r.d.MulSpectra(r.s) // n × k
-	g := gramW(r.s, r.colW)
+	g, ds := r.w.spectraProducts(r.d, r.s, r.colW) // SᵀBS, D B S (n × k)
 	gp := g
 	if r.opt.Ridge > 0 {
 		gp = ridged(g, r.opt.Ridge)
 	}
-	pr := Problem{G: gp, B: transpose(ds), NonNeg: r.cs.nnP, FixMask: r.cs.zeroMask, Fixed: r.cs.zerosKN, Passive: r.passC}
+	pr := Problem{G: gp, NonNeg: r.cs.nnP, FixMask: r.cs.zeroMask, Fixed: r.cs.zerosKN, Passive: r.passC}
 	if r.opt.Closure {
 		pr.Equality, pr.Total = r.cs.eq, r.opt.Total
 	}
-	ct, err := SolveMany(pr)
+	c, err := solveRows(pr, ds)
 	if err != nil {
 		return nil, nil, fmt.Errorf("resolve: profiles step, iteration %d: %w", it, err)
 	}
-	r.c = transpose(ct)
+	r.c = c
 	if r.opt.Unimodal != nil {
 		unimodalProfiles(r.c, r.opt.Unimodal, r.cs.blocks, r.opt.UnimodalTolerance)
 	}
@@ -656,8 +663,8 @@ func unimodalProfiles(c *mat.Dense, unimodal []bool, blocks []int, tol float64) 
 // (D S and SᵀS from the profiles step, valid for the current S); weighted,
 // Σ a_i b_j e_ij² = ‖D‖²_w − 2 tr(Cᵀ A D B S) + tr(CᵀAC SᵀBS).
 func (r *alsRun) traceResidual(ds *mat.Dense, g *mat.SymDense) float64 {
-	tcd := traceProd(scaleRowsOrSame(r.c, r.rowW), ds)
-	tcs := traceProd(gramW(r.c, r.rowW), g)
+	tcd := traceScaled(r.c, r.rowW, ds)
+	tcs := traceProd(r.w.gramW(r.c, r.rowW), g)
 	ssr := r.total - 2*tcd + tcs
 	if ssr < 1e-6*(r.total+2*math.Abs(tcd)+math.Abs(tcs)) {
 		// The identity's terms cancel to within a millionth: rounding
@@ -879,18 +886,18 @@ func resolveConstraints(opt *Options, n, m, k int) (*alsConstraints, error) {
 
 // spectraStep is ALS's half step for the spectra: S = argmin ‖D − C Sᵀ‖
 // (weighted) under the spectra's constraints, with the Gram matrix CᵀAC and
-// the right-hand sides Cᵀ A D.
-func spectraStep(d Data, c *mat.Dense, rowW []float64, cs *alsConstraints, passS []uint64, it int) (*mat.Dense, error) {
-	g := gramW(c, rowW)
-	b := transpose(d.MulProfiles(c)) // k × m
+// the right-hand sides Cᵀ A D (as the rows of Dᵀ A C).
+func (r *alsRun) spectraStep(it int) (*mat.Dense, error) {
+	cs := r.cs
+	g, bt := r.w.profilesProducts(r.d, r.c, r.rowW) // m × k
 	if cs.softRef != nil {
-		g, b = softKnown(g, b, cs.softRef, cs.softW)
+		g, bt = softKnown(g, bt, cs.softRef, cs.softW)
 	}
-	st, err := SolveMany(Problem{G: g, B: b, NonNeg: cs.nnS, FixMask: cs.knownMask, Fixed: cs.knownS, Passive: passS})
+	s, err := solveRows(Problem{G: g, NonNeg: cs.nnS, FixMask: cs.knownMask, Fixed: cs.knownS, Passive: r.passS}, bt)
 	if err != nil {
 		return nil, fmt.Errorf("resolve: spectra step, iteration %d: %w", it, err)
 	}
-	return transpose(st), nil
+	return s, nil
 }
 
 // extrapolation is the step of ALS's extrapolation (see Resolve). Each kept
@@ -955,11 +962,11 @@ func (e *extrapolation) rejected(it int) {
 // softKnown adds the soft equality λ_k ‖s_k − r_k‖² to the spectra step:
 // G + diag(λ) and B + diag(λ) R, with λ_k = w_k·G_kk so the weight does
 // not depend on the units of the data or the scale of the profiles.
-func softKnown(g *mat.SymDense, b, ref *mat.Dense, w []float64) (*mat.SymDense, *mat.Dense) {
-	k, m := b.Dims()
+func softKnown(g *mat.SymDense, bt, ref *mat.Dense, w []float64) (*mat.SymDense, *mat.Dense) {
+	m, k := bt.Dims()
 	g2 := mat.NewSymDense(k, nil)
 	g2.CopySym(g)
-	b2 := mat.DenseCopyOf(b)
+	b2 := mat.DenseCopyOf(bt)
 	for j := 0; j < k; j++ {
 		if w[j] <= 0 {
 			continue
@@ -967,7 +974,7 @@ func softKnown(g *mat.SymDense, b, ref *mat.Dense, w []float64) (*mat.SymDense, 
 		lam := w[j] * math.Max(g.At(j, j), 1e-300)
 		g2.SetSym(j, j, g.At(j, j)+lam)
 		for i := 0; i < m; i++ {
-			b2.Set(j, i, b.At(j, i)+lam*ref.At(j, i))
+			b2.Set(i, j, bt.At(i, j)+lam*ref.At(j, i))
 		}
 	}
 	return g2, b2
@@ -1033,22 +1040,27 @@ func clampColumns(c *mat.Dense, nonneg []bool) {
 }
 
 // normaliseSpectra fixes the scale ambiguity (c_k s_kᵀ = (a c_k)(s_k/a)ᵀ) by
-// unit Euclidean norm of each free spectrum; the profile takes the scale.
-func normaliseSpectra(s, c *mat.Dense, known [][]bool) {
+// unit Euclidean norm of each free spectrum. The profile would take the
+// scale, but ALS's profiles step, which follows, sets the profiles anew.
+func normaliseSpectra(s *mat.Dense, known [][]bool) {
 	m, k := s.Dims()
+	raw := s.RawMatrix()
 	for j := 0; j < k; j++ {
 		if known != nil && known[j] != nil {
 			continue
 		}
 		norm := 0.0
 		for i := 0; i < m; i++ {
-			norm += s.At(i, j) * s.At(i, j)
+			v := raw.Data[i*raw.Stride+j]
+			norm += v * v
 		}
 		norm = math.Sqrt(norm)
 		if norm == 0 {
 			continue
 		}
-		moveScale(s, c, j, norm)
+		for i := 0; i < m; i++ {
+			raw.Data[i*raw.Stride+j] /= norm
+		}
 	}
 }
 

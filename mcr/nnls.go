@@ -208,6 +208,11 @@ type Problem struct {
 	// active-set steps (warm start, as in Bro & De Jong 1997). The answer is
 	// the same unique minimiser either way (strictly convex problem).
 	Passive []uint64
+	// rows: B and the answer are p × k, one problem a row, instead of
+	// k × p. ALS's products give its right-hand sides that way and it
+	// keeps its factors that way, so each half step took two transposes
+	// of a data-sized factor (solveRows).
+	rows bool
 }
 
 // SolveMany solves every column of p by the primal active-set method,
@@ -221,6 +226,9 @@ type Problem struct {
 // solve through its Lagrange multiplier (Schur complement), not by rescaling.
 func SolveMany(p Problem) (*mat.Dense, error) {
 	k, cols := p.B.Dims()
+	if p.rows {
+		k, cols = cols, k
+	}
 	if k > 64 {
 		return nil, fmt.Errorf("solve: %d components is more than the 64 supported", k)
 	}
@@ -228,6 +236,9 @@ func SolveMany(p Problem) (*mat.Dense, error) {
 		return nil, fmt.Errorf("solve: Gram is %d×%d but B has %d rows", r, r, k)
 	}
 	x := mat.NewDense(k, cols, nil)
+	if p.rows {
+		x = mat.NewDense(cols, k, nil)
+	}
 	const chunk = 128
 	nchunks := (cols + chunk - 1) / chunk
 	errs := make([]error, nchunks)
@@ -528,9 +539,7 @@ func (s *solver) column(c int, x *mat.Dense) error {
 		}
 		best := s.mostViolated(free, cur, tol, &st)
 		if best < 0 {
-			for j := 0; j < s.k; j++ {
-				x.Set(j, c, cur[j])
-			}
+			s.put(x, c, cur)
 			if s.p.Passive != nil {
 				s.p.Passive[c] = st.passive
 			}
@@ -540,6 +549,24 @@ func (s *solver) column(c int, x *mat.Dense) error {
 		st.added = best
 	}
 	return fmt.Errorf("solve column %d (%d passive): %w", c, bits.OnesCount64(st.passive), ErrNotConverged)
+}
+
+// put writes column c's answer v into x (row c when the problem is in rows).
+func (s *solver) put(x *mat.Dense, c int, v []float64) {
+	if s.p.rows {
+		copy(x.RawRowView(c)[:s.k], v)
+		return
+	}
+	for j := 0; j < s.k; j++ {
+		x.Set(j, c, v[j])
+	}
+}
+
+// solveRows is SolveMany for right-hand sides given as the rows of bt
+// (p × k); the answer is p × k too.
+func solveRows(p Problem, bt *mat.Dense) (*mat.Dense, error) {
+	p.B, p.rows = bt, true
+	return SolveMany(p)
 }
 
 // activeSet is where one column's solve stands between its steps.
@@ -564,8 +591,12 @@ type activeSet struct {
 // variables free to move and the values of the fixed ones (zero where free).
 func (s *solver) loadColumn(c int) (free uint64, fv []float64) {
 	k := s.k
-	for j := 0; j < k; j++ {
-		s.b[j] = s.p.B.At(j, c)
+	if s.p.rows {
+		copy(s.b, s.p.B.RawRowView(c)[:k])
+	} else {
+		for j := 0; j < k; j++ {
+			s.b[j] = s.p.B.At(j, c)
+		}
 	}
 	fixedVal := s.tmp
 	for j := 0; j < k; j++ {
@@ -886,9 +917,7 @@ func (s *solver) recoverExact(c int, x *mat.Dense) bool {
 			}
 		}
 	}
-	for j := 0; j < k; j++ {
-		x.Set(j, c, out[j])
-	}
+	s.put(x, c, out)
 	if s.p.Passive != nil {
 		s.p.Passive[c] = mask
 	}

@@ -1,0 +1,143 @@
+package mcr
+
+import (
+	"math"
+
+	"github.com/bandsolve/bandsolve/internal/product"
+	"gonum.org/v1/gonum/mat"
+)
+
+// alsWork holds the matrices ALS's half steps form and drop in every
+// iteration, kept from one iteration to the next: on a truncated SVD, √A C
+// and √B S, the r × k inner products, Dᵀ A C and D B S. Formed anew they
+// were about ten data-sized allocations an iteration (n × k or m × k, 1 MB
+// at 2000 × 3001 with five components), each cleared before use, and the
+// scaled factor √A C was formed twice, once for CᵀAC and once inside the
+// product (docs/performance.md). What the buffers hold is used within the
+// iteration only: the profiles and spectra ALS keeps are never among them.
+type alsWork struct {
+	svd        Compressed // the truncated SVD behind the data (U nil: other data)
+	yc, ys     *mat.Dense // √A C (n × k), √B S (m × k)
+	rc, rs     *mat.Dense // Uᵀ √A C, Vᵀ √B S (r × k)
+	dtc, ds    *mat.Dense // Dᵀ A C (m × k), D B S (n × k)
+	ce         *mat.Dense // the extrapolated profiles (n × k), for any data
+	rowW, colW []float64
+}
+
+// newALSWork returns the buffers for resolving d with k components; only
+// truncated SVDs (the default run's data) take them.
+func newALSWork(d Data, k int) alsWork {
+	var w alsWork
+	switch c := d.(type) {
+	case Compressed:
+		w.svd = c
+	case WeightedCompressed:
+		w.svd = Compressed{U: c.U, Sigma: c.Sigma, V: c.V}
+		w.rowW, w.colW = c.Row, c.Col
+	default:
+		return w
+	}
+	n, r := w.svd.U.Dims()
+	m, _ := w.svd.V.Dims()
+	w.rc, w.rs = mat.NewDense(r, k, nil), mat.NewDense(r, k, nil)
+	w.dtc, w.ds = mat.NewDense(m, k, nil), mat.NewDense(n, k, nil)
+	if w.rowW != nil {
+		w.yc, w.ys = mat.NewDense(n, k, nil), mat.NewDense(m, k, nil)
+	}
+	return w
+}
+
+// profilesProducts returns CᵀAC and Dᵀ A C (m × k), the spectra step's
+// Gram matrix and right-hand sides, the same values as gramW and
+// d.MulProfiles; the product is w's until the next call.
+func (w *alsWork) profilesProducts(d Data, c *mat.Dense, rowW []float64) (*mat.SymDense, *mat.Dense) {
+	if w.svd.U == nil {
+		return gramW(c, rowW), d.MulProfiles(c)
+	}
+	y := c
+	if w.rowW != nil {
+		y = scaleRowsTo(w.yc, c, w.rowW, 0.5)
+	}
+	g := gram(y)
+	product.MulTTo(w.rc, w.svd.U, y)
+	scaleRowsBy(w.rc, w.svd.Sigma)
+	product.MulTo(w.dtc, w.svd.V, w.rc)
+	if w.colW != nil {
+		scaleRowsTo(w.dtc, w.dtc, w.colW, -0.5)
+	}
+	return g, w.dtc
+}
+
+// spectraProducts returns SᵀBS and D B S (n × k), the profiles step's Gram
+// matrix and right-hand sides, the same values as gramW and d.MulSpectra;
+// the product is w's until the next call.
+func (w *alsWork) spectraProducts(d Data, s *mat.Dense, colW []float64) (*mat.SymDense, *mat.Dense) {
+	if w.svd.U == nil {
+		return gramW(s, colW), d.MulSpectra(s)
+	}
+	y := s
+	if w.colW != nil {
+		y = scaleRowsTo(w.ys, s, w.colW, 0.5)
+	}
+	g := gram(y)
+	product.MulTTo(w.rs, w.svd.V, y)
+	scaleRowsBy(w.rs, w.svd.Sigma)
+	product.MulTo(w.ds, w.svd.U, w.rs)
+	if w.rowW != nil {
+		scaleRowsTo(w.ds, w.ds, w.rowW, -0.5)
+	}
+	return g, w.ds
+}
+
+// gramW is gramW(x, wt) with √W X formed in w's buffer when it fits.
+func (w *alsWork) gramW(x *mat.Dense, wt []float64) *mat.SymDense {
+	if wt == nil || w.yc == nil {
+		return gramW(x, wt)
+	}
+	if r, _ := x.Dims(); r != len(wt) {
+		return gramW(x, wt)
+	}
+	return gram(scaleRowsTo(w.yc, x, wt, 0.5))
+}
+
+// scaleRowsTo writes diag(w)^p x into out (the same shape; out may be x)
+// and returns it: the values of scaleRows.
+func scaleRowsTo(out, x *mat.Dense, w []float64, p float64) *mat.Dense {
+	r, k := x.Dims()
+	for i := 0; i < r; i++ {
+		f := w[i]
+		switch p {
+		case 0.5:
+			f = math.Sqrt(f)
+		case -0.5:
+			f = 1 / math.Sqrt(f)
+		}
+		src, dst := x.RawRowView(i), out.RawRowView(i)
+		for j, v := range src[:k] {
+			dst[j] = f * v
+		}
+	}
+	return out
+}
+
+// traceScaled returns tr(Cᵀ diag(w) X) = Σ (w_i c_ij) x_ij, each product
+// w_i c_ij rounded first and the terms added row by row: the value of
+// traceProd(scaleRowsOrSame(c, w), x) without the scaled copy (w nil: ones).
+func traceScaled(c *mat.Dense, w []float64, x *mat.Dense) float64 {
+	r, k := c.Dims()
+	s := 0.0
+	for i := 0; i < r; i++ {
+		crow, xrow := c.RawRowView(i)[:k], x.RawRowView(i)[:k]
+		if w == nil {
+			for j, v := range crow {
+				s += v * xrow[j]
+			}
+			continue
+		}
+		f := w[i]
+		for j, v := range crow {
+			s += (f * v) * xrow[j]
+		}
+	}
+	return s
+}

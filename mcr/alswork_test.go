@@ -1,0 +1,103 @@
+package mcr
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"github.com/bandsolve/bandsolve/internal/vecmath"
+	"gonum.org/v1/gonum/mat"
+)
+
+// ALS's half steps form their products in kept buffers, without the
+// transposes they took before; each must give the bits of the plain path
+// (gramW, the Data's own products, SolveMany on the transposed right-hand
+// sides), so that a resolution's output does not move. The reference is
+// the definition each replaces: Cᵀ A C, Dᵀ A C = B^{-1/2} V Σ Uᵀ A^{1/2} C
+// (WeightedCompressed's doc) and tr(Cᵀ diag(w) X).
+func TestALSWorkIsThePlainPath(t *testing.T) {
+	for _, weighted := range []bool{false, true} {
+		wc, c := benchWeightedCompressed(300, 401, 4)
+		var d Data = wc
+		if !weighted {
+			d = Compressed{U: wc.U, Sigma: wc.Sigma, V: wc.V, FrobSq: wc.FrobSq}
+		}
+		row, col := weightsOf(d)
+		w := newALSWork(d, 4)
+		s := d.MulProfiles(c)
+		for pass := 0; pass < 2; pass++ { // the second pass reuses dirty buffers
+			g, dtc := w.profilesProducts(d, c, row)
+			if !vecmath.SameBitsMatrix(g, gramW(c, row)) || !vecmath.SameBitsMatrix(dtc, d.MulProfiles(c)) {
+				t.Fatalf("weighted %v pass %d: profiles' products differ from gramW and MulProfiles", weighted, pass)
+			}
+			g, ds := w.spectraProducts(d, s, col)
+			if !vecmath.SameBitsMatrix(g, gramW(s, col)) || !vecmath.SameBitsMatrix(ds, d.MulSpectra(s)) {
+				t.Fatalf("weighted %v pass %d: spectra's products differ from gramW and MulSpectra", weighted, pass)
+			}
+			if !vecmath.SameBitsMatrix(w.gramW(c, row), gramW(c, row)) {
+				t.Fatalf("weighted %v: gramW in the buffer differs", weighted)
+			}
+			got, want := traceScaled(c, row, ds), traceProd(scaleRowsOrSame(c, row), ds)
+			if math.Float64bits(got) != math.Float64bits(want) {
+				t.Fatalf("weighted %v: traceScaled %v, traceProd of the scaled copy %v", weighted, got, want)
+			}
+			next := mat.NewDense(300, 4, nil)
+			next.Apply(func(_, _ int, v float64) float64 { return v + 0.1 }, c)
+			c, s = next, d.MulProfiles(next)
+		}
+	}
+}
+
+// solveRows is SolveMany on the transposed problem: the same answer to the
+// bit, transposed, with and without closure, fixed values and warm starts.
+func TestSolveRowsIsSolveManyTransposed(t *testing.T) {
+	for _, closure := range []bool{false, true} {
+		p := benchProblem(5, 700)
+		if closure {
+			p.Equality, p.Total = ones(5), []float64{1}
+		}
+		p.FixMask = make([][]bool, 5)
+		p.FixMask[2] = make([]bool, 700)
+		for c := 0; c < 700; c += 7 {
+			p.FixMask[2][c] = true
+		}
+		p.Fixed = mat.NewDense(5, 700, nil)
+		rng := rand.New(rand.NewPCG(1, 2))
+		for c := 0; c < 700; c++ {
+			p.Fixed.Set(2, c, 0.01*rng.Float64())
+		}
+		pa, pb := p, p
+		pa.Passive, pb.Passive = make([]uint64, 700), make([]uint64, 700)
+		for pass := 0; pass < 2; pass++ {
+			want, err := SolveMany(pa)
+			if err != nil {
+				t.Fatal(err)
+			}
+			got, err := solveRows(pb, mat.DenseCopyOf(p.B.T()))
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !vecmath.SameBitsMatrix(got, want.T()) {
+				t.Fatalf("closure %v pass %d: solveRows differs from SolveMany", closure, pass)
+			}
+			for c := range pa.Passive {
+				if pa.Passive[c] != pb.Passive[c] {
+					t.Fatalf("closure %v: passive set of column %d differs", closure, c)
+				}
+			}
+		}
+	}
+}
+
+// normaliseSpectra gives each free spectrum unit Euclidean norm (the scale
+// convention of ALS, common practice) and leaves the fixed ones alone.
+func TestNormaliseSpectraUnitNorm(t *testing.T) {
+	s := mat.NewDense(3, 2, []float64{3, 1, 4, 2, 0, 2})
+	normaliseSpectra(s, [][]bool{nil, {true, true, true}})
+	if got := mat.Norm(s.ColView(0), 2); math.Abs(got-1) > 1e-15 {
+		t.Fatalf("free spectrum's norm %v, want 1", got)
+	}
+	if s.At(0, 0) != 0.6 || s.At(1, 0) != 0.8 || s.At(0, 1) != 1 || s.At(2, 1) != 2 {
+		t.Fatalf("spectra after normalising: %v", mat.Formatted(s))
+	}
+}
