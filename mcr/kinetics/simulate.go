@@ -59,42 +59,84 @@ func (s *Scheme) Simulate(k, c0, times []float64, t0 float64) (*Simulation, erro
 
 // SimulateWith is Simulate with explicit solver settings.
 func (s *Scheme) SimulateWith(k, c0, times []float64, t0 float64, set SimSettings) (*Simulation, error) {
+	scale, err := s.checkSimulation(k, c0, times, t0)
+	if err != nil {
+		return nil, err
+	}
+	set = set.withDefaults(scale)
+	method, err := s.solverFor(set.Method)
+	if err != nil {
+		return nil, err
+	}
+	ns, nr, n := len(s.Species), len(s.Steps), len(times)
+	run := &simRun{s: s, sys: newNetwork(s, k), times: times, t0: t0, set: set,
+		sim: &Simulation{C: mat.NewDense(n, ns, nil), Extents: mat.NewDense(n, nr, nil), Method: method}}
+	run.y0 = make([]float64, ns+nr)
+	copy(run.y0, c0)
+	run.orderOutputs(c0)
+	sim := run.sim
+	var lmax float64
+	sim.StiffnessRatio, lmax = run.sys.stiffnessRatio(c0)
+	if method == "expm" {
+		run.solveExact()
+		sim.Stiff = sim.StiffnessRatio >= 1e3 && lmax*run.span >= 1e3
+	} else if err := run.solveIntegrated(method == "rosenbrock23"); err != nil {
+		return nil, err
+	}
+	if !finiteDense(sim.C) || !finiteDense(sim.Extents) {
+		return nil, fmt.Errorf("kinetics: simulate %q: solution is not finite (rate constants too large for the time span?)", s.Text)
+	}
+	if !s.FirstOrder() {
+		run.pathStiffness()
+	}
+	return sim, nil
+}
+
+// checkSimulation checks the rate constants, the initial concentrations and
+// the times, and returns the largest initial concentration (1 when all are
+// zero), the scale of the absolute tolerance.
+func (s *Scheme) checkSimulation(k, c0, times []float64, t0 float64) (scale float64, err error) {
 	if s == nil || len(s.Steps) == 0 {
-		return nil, errors.New("kinetics: simulate: empty scheme")
+		return 0, errors.New("kinetics: simulate: empty scheme")
 	}
 	ns, nr := len(s.Species), len(s.Steps)
 	if len(k) != nr {
-		return nil, fmt.Errorf("kinetics: simulate: %d rate constants for %d steps", len(k), nr)
+		return 0, fmt.Errorf("kinetics: simulate: %d rate constants for %d steps", len(k), nr)
 	}
 	if len(c0) != ns {
-		return nil, fmt.Errorf("kinetics: simulate: %d initial concentrations for %d species", len(c0), ns)
+		return 0, fmt.Errorf("kinetics: simulate: %d initial concentrations for %d species", len(c0), ns)
 	}
 	for j, v := range k {
 		if !(v >= 0) || math.IsInf(v, 0) {
-			return nil, fmt.Errorf("kinetics: simulate: rate constant of step %q is %v, want finite and ≥ 0", s.Steps[j].Text, v)
+			return 0, fmt.Errorf("kinetics: simulate: rate constant of step %q is %v, want finite and ≥ 0", s.Steps[j].Text, v)
 		}
 	}
-	scale := 0.0
 	for i, v := range c0 {
 		if !(v >= 0) || math.IsInf(v, 0) {
-			return nil, fmt.Errorf("kinetics: simulate: initial concentration of %s is %v, want finite and ≥ 0", s.Species[i], v)
+			return 0, fmt.Errorf("kinetics: simulate: initial concentration of %s is %v, want finite and ≥ 0", s.Species[i], v)
 		}
 		scale = math.Max(scale, v)
 	}
 	if math.IsNaN(t0) || math.IsInf(t0, 0) {
-		return nil, fmt.Errorf("kinetics: simulate: t0 is %v", t0)
+		return 0, fmt.Errorf("kinetics: simulate: t0 is %v", t0)
 	}
 	for i, t := range times {
 		if math.IsNaN(t) || math.IsInf(t, 0) {
-			return nil, fmt.Errorf("kinetics: simulate: time %d is %v", i, t)
+			return 0, fmt.Errorf("kinetics: simulate: time %d is %v", i, t)
 		}
 	}
 	if len(times) == 0 {
-		return nil, errors.New("kinetics: simulate: no times")
+		return 0, errors.New("kinetics: simulate: no times")
 	}
 	if scale == 0 {
 		scale = 1
 	}
+	return scale, nil
+}
+
+// withDefaults fills the zero tolerances and step bound; the absolute
+// tolerance is relative to scale, the largest initial concentration.
+func (set SimSettings) withDefaults(scale float64) SimSettings {
 	if set.RelTol <= 0 {
 		set.RelTol = 1e-9
 	}
@@ -104,118 +146,141 @@ func (s *Scheme) SimulateWith(k, c0, times []float64, t0 float64, set SimSetting
 	if set.MaxSteps <= 0 {
 		set.MaxSteps = 500000
 	}
-	method := set.Method
+	return set
+}
+
+// solverFor names the solver: the one asked for, or by default the exact
+// matrix exponential for a first-order scheme and Dormand–Prince otherwise.
+func (s *Scheme) solverFor(method string) (string, error) {
 	switch method {
 	case "":
-		method = "dopri5"
 		if s.FirstOrder() {
-			method = "expm"
+			return "expm", nil
 		}
+		return "dopri5", nil
 	case "expm":
 		if !s.FirstOrder() {
-			return nil, errors.New("kinetics: simulate: the matrix exponential needs a first-order scheme")
+			return "", errors.New("kinetics: simulate: the matrix exponential needs a first-order scheme")
 		}
 	case "dopri5", "rosenbrock23":
 	default:
-		return nil, fmt.Errorf("kinetics: simulate: unknown method %q", method)
+		return "", fmt.Errorf("kinetics: simulate: unknown method %q", method)
 	}
+	return method, nil
+}
 
-	n := len(times)
-	sim := &Simulation{C: mat.NewDense(n, ns, nil), Extents: mat.NewDense(n, nr, nil), Method: method}
-	sys := newNetwork(s, k)
-	y0 := make([]float64, ns+nr)
-	copy(y0, c0)
+// simRun is one simulation under way: the network, its start, the output
+// times and the result being filled.
+type simRun struct {
+	s     *Scheme
+	sys   *network
+	sim   *Simulation
+	times []float64
+	t0    float64
+	y0    []float64 // [c0; 0]: the concentrations and the extents at t0
+	set   SimSettings
+	order []int   // the output times after t0, by index, in increasing time
+	span  float64 // from t0 to the last output time
+}
 
-	// Output times after t0 in increasing order; ties keep index order so the result does
-	// not depend on how sort.SliceStable orders equal keys (it is stable).
-	order := make([]int, 0, n)
-	span := 0.0
-	for i, t := range times {
-		if t <= t0 {
-			sim.C.SetRow(i, c0)
+// orderOutputs sets c = c0 at the output times up to t0 and orders the
+// others. Ties keep index order so the result does not depend on how
+// sort.SliceStable orders equal keys (it is stable).
+func (run *simRun) orderOutputs(c0 []float64) {
+	run.order = make([]int, 0, len(run.times))
+	for i, t := range run.times {
+		if t <= run.t0 {
+			run.sim.C.SetRow(i, c0)
 			continue
 		}
-		order = append(order, i)
-		span = math.Max(span, t-t0)
+		run.order = append(run.order, i)
+		run.span = math.Max(run.span, t-run.t0)
 	}
+	times, order := run.times, run.order
 	sort.SliceStable(order, func(a, b int) bool { return times[order[a]] < times[order[b]] })
+}
 
-	var lmax float64
-	sim.StiffnessRatio, lmax = sys.stiffnessRatio(c0)
+// store puts the state y at output i: its concentrations, and its extents
+// when y holds them.
+func (run *simRun) store(i int, y []float64) {
+	ns := len(run.s.Species)
+	run.sim.C.SetRow(i, y[:ns])
+	if len(y) > ns {
+		run.sim.Extents.SetRow(i, y[ns:])
+	}
+}
 
-	store := func(i int, y []float64) {
-		sim.C.SetRow(i, y[:ns])
-		if len(y) > ns {
-			sim.Extents.SetRow(i, y[ns:])
+// exactSolution is the exact solution of a first-order network at time t
+// after the start, written into y.
+type exactSolution interface {
+	at(t float64, y []float64)
+}
+
+// solveExact solves a first-order network exactly: by the eigendecomposition
+// when its vectors are well conditioned (cheapest per time), else by the
+// path sums for acyclic networks, else by the matrix exponential at each
+// time. The first two solve the species block on its own, so without the
+// extents' rows the concentrations come out bit for bit the same.
+func (run *simRun) solveExact() {
+	ns, nr := len(run.s.Species), len(run.s.Steps)
+	m := run.sys.linearMatrix()
+	exact, nx := m, ns+nr
+	if run.set.concentrationsOnly {
+		exact, nx = mat.DenseCopyOf(m.Slice(0, ns, 0, ns)), ns
+	}
+	var sol exactSolution
+	if ex := newEigenExp(exact, ns, run.y0); ex != nil {
+		sol = ex
+	} else if pe := newPathExp(exact, ns, run.y0); pe != nil {
+		sol = pe
+	}
+	if sol != nil {
+		buf := make([]float64, nx)
+		for _, i := range run.order {
+			sol.at(run.times[i]-run.t0, buf)
+			run.store(i, buf)
+		}
+		return
+	}
+	var e, scaled mat.Dense
+	yv := mat.NewVecDense(ns+nr, run.y0)
+	out := mat.NewVecDense(ns+nr, nil)
+	for _, i := range run.order {
+		scaled.Scale(run.times[i]-run.t0, m)
+		e.Exp(&scaled)
+		out.MulVec(&e, yv)
+		run.store(i, out.RawVector().Data)
+	}
+}
+
+// solveIntegrated integrates the network through the output times after t0,
+// from the Rosenbrock method on when asked, else from Dormand–Prince.
+func (run *simRun) solveIntegrated(rosenbrock bool) error {
+	tout := make([]float64, len(run.order))
+	for a, i := range run.order {
+		tout[a] = run.times[i]
+	}
+	st, err := integrate(run.sys, run.y0, run.t0, tout, run.set, rosenbrock, func(a int, y []float64) { run.store(run.order[a], y) })
+	if err != nil {
+		return fmt.Errorf("kinetics: simulate %q: %w", run.s.Text, err)
+	}
+	run.sim.Steps, run.sim.Rejected, run.sim.Stiff = st.steps, st.rejected, st.stiff
+	if st.switched {
+		run.sim.Method = "dopri5+rosenbrock23"
+	}
+	return nil
+}
+
+// pathStiffness raises the stiffness ratio to its largest over the output
+// states: the Jacobian of a mass-action network changes along the path
+// (Robertson's problem is not stiff at c0 at all).
+func (run *simRun) pathStiffness() {
+	sim := run.sim
+	for _, i := range run.order {
+		if r, _ := run.sys.stiffnessRatio(sim.C.RawRowView(i)); r > sim.StiffnessRatio {
+			sim.StiffnessRatio = r
 		}
 	}
-	switch method {
-	case "expm":
-		m := sys.linearMatrix()
-		// The eigendecomposition when its vectors are well conditioned
-		// (cheapest per time), else the path sums for acyclic networks.
-		// Both solve the species block on its own, so without the extents'
-		// rows the concentrations come out bit for bit the same.
-		exact, nx := m, ns+nr
-		if set.concentrationsOnly {
-			exact, nx = mat.DenseCopyOf(m.Slice(0, ns, 0, ns)), ns
-		}
-		if ex := newEigenExp(exact, ns, y0); ex != nil {
-			buf := make([]float64, nx)
-			for _, i := range order {
-				ex.at(times[i]-t0, buf)
-				store(i, buf)
-			}
-			sim.Stiff = sim.StiffnessRatio >= 1e3 && lmax*span >= 1e3
-			break
-		}
-		if pe := newPathExp(exact, ns, y0); pe != nil {
-			buf := make([]float64, nx)
-			for _, i := range order {
-				pe.at(times[i]-t0, buf)
-				store(i, buf)
-			}
-			sim.Stiff = sim.StiffnessRatio >= 1e3 && lmax*span >= 1e3
-			break
-		}
-		var e mat.Dense
-		yv := mat.NewVecDense(ns+nr, y0)
-		out := mat.NewVecDense(ns+nr, nil)
-		var scaled mat.Dense
-		for _, i := range order {
-			scaled.Scale(times[i]-t0, m)
-			e.Exp(&scaled)
-			out.MulVec(&e, yv)
-			store(i, out.RawVector().Data)
-		}
-		sim.Stiff = sim.StiffnessRatio >= 1e3 && lmax*span >= 1e3
-	default:
-		tout := make([]float64, len(order))
-		for a, i := range order {
-			tout[a] = times[i]
-		}
-		st, err := integrate(sys, y0, t0, tout, set, method == "rosenbrock23", func(a int, y []float64) { store(order[a], y) })
-		if err != nil {
-			return nil, fmt.Errorf("kinetics: simulate %q: %w", s.Text, err)
-		}
-		sim.Steps, sim.Rejected, sim.Stiff = st.steps, st.rejected, st.stiff
-		if st.switched {
-			sim.Method = "dopri5+rosenbrock23"
-		}
-	}
-	if !finiteDense(sim.C) || !finiteDense(sim.Extents) {
-		return nil, fmt.Errorf("kinetics: simulate %q: solution is not finite (rate constants too large for the time span?)", s.Text)
-	}
-	if !s.FirstOrder() {
-		// The Jacobian of a mass-action network changes along the path (Robertson's problem is
-		// not stiff at c0 at all), so the ratio is taken over every output state too.
-		for _, i := range order {
-			if r, _ := sys.stiffnessRatio(sim.C.RawRowView(i)); r > sim.StiffnessRatio {
-				sim.StiffnessRatio = r
-			}
-		}
-	}
-	return sim, nil
 }
 
 func finiteDense(m *mat.Dense) bool {
@@ -417,100 +482,152 @@ func errNorm(e, y, ynew []float64, rtol, atol float64) float64 {
 // integrate advances y from t0 through the increasing output times tout, calling out(a, y) at
 // each. Steps are shortened to land on output times exactly (no interpolation error).
 func integrate(sys odeSys, y0 []float64, t0 float64, tout []float64, set SimSettings, rosenbrock bool, out func(int, []float64)) (odeStats, error) {
-	var st odeStats
-	d := len(y0)
-	y := append([]float64(nil), y0...)
 	if len(tout) == 0 {
-		return st, nil
+		return odeStats{}, nil
 	}
-	rtol, atol := set.RelTol, set.AbsTol
-	f0 := make([]float64, d)
-	sys.deriv(y, f0)
-	span := tout[len(tout)-1] - t0
-	h := initialStep(sys, y, f0, rtol, atol, span)
-
-	dp := newDopri(d)
-	ros := newRosen(d)
-	t := t0
+	in := newIntegration(sys, y0, t0, tout[len(tout)-1]-t0, set, rosenbrock)
 	for a, target := range tout {
-		for t < target {
-			if st.steps+st.rejected >= set.MaxSteps {
-				if !rosenbrock {
-					rosenbrock, st.switched, st.stiff = true, true, true
-				} else {
-					return st, fmt.Errorf("more than %d integrator steps before t = %g", set.MaxSteps, target)
-				}
-			}
-			hh := h
-			clipped := false
-			if t+hh >= target || target-(t+hh) < 1e-12*math.Abs(target) {
-				hh = target - t
-				clipped = true
-			}
-			var errv float64
-			var ok bool
-			if rosenbrock {
-				errv, ok = ros.step(sys, y, f0, hh, rtol, atol)
-			} else {
-				errv, ok = dp.step(sys, y, f0, hh, rtol, atol)
-			}
-			if ok && errv <= 1 {
-				st.steps++
-				if clipped {
-					t = target
-				} else {
-					t += hh
-				}
-				var hnew float64
-				if rosenbrock {
-					copy(y, ros.ynew)
-					copy(f0, ros.fnew)
-					hnew = hh * math.Min(5, 0.8*math.Pow(math.Max(errv, 1e-10), -1.0/3))
-				} else {
-					copy(y, dp.ynew)
-					copy(f0, dp.k[6])
-					hnew = hh * math.Min(10, math.Max(0.2, 0.9*math.Pow(math.Max(errv, 1e-10), -0.2)))
-					if dp.stiffEstimate(hh) > 3.25 {
-						st.nonStiffInARow = 0
-						st.stiffDetections++
-						if st.stiffDetections >= 15 {
-							rosenbrock, st.switched, st.stiff = true, true, true
-						}
-					} else {
-						st.nonStiffInARow++
-						if st.nonStiffInARow >= 6 {
-							st.stiffDetections = 0
-						}
-					}
-				}
-				if clipped {
-					h = math.Max(h, hnew)
-				} else {
-					h = hnew
-				}
-			} else {
-				st.rejected++
-				if !ok || math.IsNaN(errv) {
-					h = hh * 0.1
-				} else if rosenbrock {
-					h = hh * math.Max(0.1, 0.8*math.Pow(errv, -1.0/3))
-				} else {
-					h = hh * math.Max(0.1, 0.9*math.Pow(errv, -0.2))
-				}
-				if h < 1e-13*math.Max(math.Abs(t), span) {
-					if !rosenbrock {
-						// The explicit step size collapsing is the other symptom of stiffness.
-						rosenbrock, st.switched, st.stiff = true, true, true
-						h = math.Max(h, 1e-10*span)
-						continue
-					}
-					return st, fmt.Errorf("step size underflow at t = %g", t)
-				}
+		for in.t < target {
+			if err := in.advance(target); err != nil {
+				return in.st, err
 			}
 		}
-		out(a, y)
+		out(a, in.y)
 	}
-	return st, nil
+	return in.st, nil
+}
+
+// integration is the state of one integration: the time, the state and its
+// derivative, the step size, which method steps, and the counts.
+type integration struct {
+	sys        odeSys
+	set        SimSettings
+	span       float64 // from t0 to the last output time
+	t, h       float64
+	y, f0      []float64 // the state at t and f(y)
+	rosenbrock bool
+	dp         *dopri
+	ros        *rosen
+	st         odeStats
+}
+
+// newIntegration starts at y0 with the starting step size of Hairer, Nørsett & Wanner.
+func newIntegration(sys odeSys, y0 []float64, t0, span float64, set SimSettings, rosenbrock bool) *integration {
+	d := len(y0)
+	in := &integration{sys: sys, set: set, span: span, t: t0, y: append([]float64(nil), y0...),
+		f0: make([]float64, d), rosenbrock: rosenbrock, dp: newDopri(d), ros: newRosen(d)}
+	sys.deriv(in.y, in.f0)
+	in.h = initialStep(sys, in.y, in.f0, set.RelTol, set.AbsTol, span)
+	return in
+}
+
+// advance tries one step towards target, shortened to land on it when it
+// would pass it or stop just short. Past MaxSteps the explicit method hands
+// over to the Rosenbrock method (so many steps are a sign of stiffness);
+// the Rosenbrock method past MaxSteps gives up.
+func (in *integration) advance(target float64) error {
+	if in.st.steps+in.st.rejected >= in.set.MaxSteps {
+		if in.rosenbrock {
+			return fmt.Errorf("more than %d integrator steps before t = %g", in.set.MaxSteps, target)
+		}
+		in.switchToRosenbrock()
+	}
+	hh := in.h
+	clipped := false
+	if in.t+hh >= target || target-(in.t+hh) < 1e-12*math.Abs(target) {
+		hh = target - in.t
+		clipped = true
+	}
+	rtol, atol := in.set.RelTol, in.set.AbsTol
+	var errv float64
+	var ok bool
+	if in.rosenbrock {
+		errv, ok = in.ros.step(in.sys, in.y, in.f0, hh, rtol, atol)
+	} else {
+		errv, ok = in.dp.step(in.sys, in.y, in.f0, hh, rtol, atol)
+	}
+	if ok && errv <= 1 {
+		in.accept(target, hh, errv, clipped)
+		return nil
+	}
+	return in.reject(hh, errv, ok)
+}
+
+// switchToRosenbrock hands the rest of the span to the Rosenbrock method,
+// and marks the problem stiff.
+func (in *integration) switchToRosenbrock() {
+	in.rosenbrock, in.st.switched, in.st.stiff = true, true, true
+}
+
+// accept takes the step of size hh and sets the next step size from its
+// error. A step shortened to land on an output time does not shrink the
+// next one.
+func (in *integration) accept(target, hh, errv float64, clipped bool) {
+	in.st.steps++
+	if clipped {
+		in.t = target
+	} else {
+		in.t += hh
+	}
+	var hnew float64
+	if in.rosenbrock {
+		copy(in.y, in.ros.ynew)
+		copy(in.f0, in.ros.fnew)
+		hnew = hh * math.Min(5, 0.8*math.Pow(math.Max(errv, 1e-10), -1.0/3))
+	} else {
+		copy(in.y, in.dp.ynew)
+		copy(in.f0, in.dp.k[6])
+		hnew = hh * math.Min(10, math.Max(0.2, 0.9*math.Pow(math.Max(errv, 1e-10), -0.2)))
+		in.watchStiffness(hh)
+	}
+	if clipped {
+		in.h = math.Max(in.h, hnew)
+	} else {
+		in.h = hnew
+	}
+}
+
+// watchStiffness applies Hairer & Wanner's test after an accepted explicit
+// step: 15 stiff estimates (h|λ| > 3.25) switch to the Rosenbrock method,
+// and 6 non-stiff ones in a row clear the count.
+func (in *integration) watchStiffness(hh float64) {
+	st := &in.st
+	if in.dp.stiffEstimate(hh) > 3.25 {
+		st.nonStiffInARow = 0
+		st.stiffDetections++
+		if st.stiffDetections >= 15 {
+			in.switchToRosenbrock()
+		}
+		return
+	}
+	st.nonStiffInARow++
+	if st.nonStiffInARow >= 6 {
+		st.stiffDetections = 0
+	}
+}
+
+// reject shrinks the step after a failed one (by a tenth when the step
+// could not be taken at all). A step size collapsing is the other symptom
+// of stiffness: the explicit method then hands over, and the Rosenbrock
+// method gives up.
+func (in *integration) reject(hh, errv float64, ok bool) error {
+	in.st.rejected++
+	switch {
+	case !ok || math.IsNaN(errv):
+		in.h = hh * 0.1
+	case in.rosenbrock:
+		in.h = hh * math.Max(0.1, 0.8*math.Pow(errv, -1.0/3))
+	default:
+		in.h = hh * math.Max(0.1, 0.9*math.Pow(errv, -0.2))
+	}
+	if in.h < 1e-13*math.Max(math.Abs(in.t), in.span) {
+		if in.rosenbrock {
+			return fmt.Errorf("step size underflow at t = %g", in.t)
+		}
+		in.switchToRosenbrock()
+		in.h = math.Max(in.h, 1e-10*in.span)
+	}
+	return nil
 }
 
 // initialStep follows Hairer, Nørsett & Wanner (Solving ODEs I, §II.4, "starting step size").
