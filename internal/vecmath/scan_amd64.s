@@ -118,3 +118,96 @@ nabHit:
 	MOVQ AX, ret+72(FP)
 	VZEROUPPER
 	RET
+
+// func worstOffsetAVX2(a, b, g []float64) float64
+//
+// Two blocks of four a step, each with its own running maximum, so that
+// one VMAXPD does not wait on the other; a last block of four alone.
+TEXT ·worstOffsetAVX2(SB), NOSPLIT, $0-80
+	MOVQ a_base+0(FP), SI
+	MOVQ b_base+24(FP), DI
+	MOVQ g_base+48(FP), DX
+	MOVQ g_len+56(FP), CX
+	VBROADCASTSD scanAbs<>(SB), Y7
+	VXORPD Y5, Y5, Y5 // the running maxima, from +0
+	VXORPD Y6, Y6, Y6
+	XORQ BX, BX
+	SUBQ $8, CX
+	JB   woLast
+
+woLoop:
+	VMOVUPD (SI)(BX*8), Y0
+	VSUBPD  (DX)(BX*8), Y0, Y0 // a − g
+	VSUBPD  (DI)(BX*8), Y0, Y0 // (a − g) − b
+	VANDPD  Y7, Y0, Y0         // its absolute value
+	// MAXPD gives its second source when either is NaN: the maximum so
+	// far stays when the new value is NaN, as the loop's x > worst keeps it.
+	VMAXPD  Y5, Y0, Y5
+	VMOVUPD 32(SI)(BX*8), Y1
+	VSUBPD  32(DX)(BX*8), Y1, Y1
+	VSUBPD  32(DI)(BX*8), Y1, Y1
+	VANDPD  Y7, Y1, Y1
+	VMAXPD  Y6, Y1, Y6
+	ADDQ $8, BX
+	CMPQ BX, CX
+	JBE  woLoop
+
+woLast:
+	ADDQ $8, CX
+	CMPQ BX, CX
+	JAE  woJoin
+	VMOVUPD (SI)(BX*8), Y0
+	VSUBPD  (DX)(BX*8), Y0, Y0
+	VSUBPD  (DI)(BX*8), Y0, Y0
+	VANDPD  Y7, Y0, Y0
+	VMAXPD  Y5, Y0, Y5
+
+woJoin:
+	// The lanes into one: a maximum in any order (no NaN is left in them).
+	VMAXPD Y6, Y5, Y5
+	VEXTRACTF128 $1, Y5, X1
+	VMAXPD X1, X5, X5
+	VPERMILPD $1, X5, X1
+	VMAXSD X1, X5, X5
+	VMOVSD X5, ret+72(FP)
+	VZEROUPPER
+	RET
+
+// func maxAbsAVX2(x []float64) float64
+//
+// worstOffsetAVX2's loop on one slice.
+TEXT ·maxAbsAVX2(SB), NOSPLIT, $0-32
+	MOVQ x_base+0(FP), SI
+	MOVQ x_len+8(FP), CX
+	VBROADCASTSD scanAbs<>(SB), Y7
+	VXORPD Y5, Y5, Y5
+	VXORPD Y6, Y6, Y6
+	XORQ BX, BX
+	SUBQ $8, CX
+	JB   maLast
+
+maLoop:
+	VANDPD  (SI)(BX*8), Y7, Y0
+	VMAXPD  Y5, Y0, Y5 // a NaN keeps the maximum so far (see worstOffsetAVX2)
+	VANDPD  32(SI)(BX*8), Y7, Y1
+	VMAXPD  Y6, Y1, Y6
+	ADDQ $8, BX
+	CMPQ BX, CX
+	JBE  maLoop
+
+maLast:
+	ADDQ $8, CX
+	CMPQ BX, CX
+	JAE  maJoin
+	VANDPD  (SI)(BX*8), Y7, Y0
+	VMAXPD  Y5, Y0, Y5
+
+maJoin:
+	VMAXPD Y6, Y5, Y5
+	VEXTRACTF128 $1, Y5, X1
+	VMAXPD X1, X5, X5
+	VPERMILPD $1, X5, X1
+	VMAXSD X1, X5, X5
+	VMOVSD X5, ret+24(FP)
+	VZEROUPPER
+	RET

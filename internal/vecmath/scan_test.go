@@ -158,3 +158,99 @@ func TestNextAtOrBelow(t *testing.T) {
 		}
 	}
 }
+
+// WorstOffset against its definition, the loop one value at a time (the
+// largest |(a − g) − b| above +0, a NaN raising nothing: IEEE 754-2008
+// §5.11, a comparison with NaN is false), at every length up to 70 and
+// with NaN, ±Inf, ±0 and subnormals at every place, so that every lane of
+// both blocks and the last block of four meet them.
+func TestWorstOffset(t *testing.T) {
+	def := func(a, b, g []float64) float64 {
+		w := 0.0
+		for j := range g {
+			if x := math.Abs(a[j] - g[j] - b[j]); x > w {
+				w = x
+			}
+		}
+		return w
+	}
+	special := []float64{math.NaN(), math.Inf(1), math.Inf(-1), 0, math.Copysign(0, -1), 5e-324, -1e-310, math.MaxFloat64}
+	rng := rand.New(rand.NewPCG(11, 12))
+	for n := 0; n <= 70; n++ {
+		a, b, g := make([]float64, n+3), make([]float64, n+3), make([]float64, n)
+		for j := range g {
+			g[j] = rng.NormFloat64()
+			a[j] = 3 * rng.NormFloat64()
+			b[j] = a[j] - g[j] + 1e-15*rng.NormFloat64()
+		}
+		check := func(what string) {
+			t.Helper()
+			if got, want := WorstOffset(a, b, g), def(a, b, g); math.Float64bits(got) != math.Float64bits(want) {
+				t.Fatalf("n=%d, %s: WorstOffset %v, the loop %v", n, what, got, want)
+			}
+		}
+		check("plain")
+		for at := 0; at < n; at++ {
+			for _, s := range special {
+				for _, v := range [][]float64{a, b, g} {
+					keep := v[at]
+					v[at] = s
+					check("special")
+					v[at] = keep
+				}
+			}
+			// One large offset alone, then with a NaN after it.
+			keep := b[at]
+			b[at] += 1e-3
+			check("one large")
+			if at+1 < n {
+				k2 := a[at+1]
+				a[at+1] = math.NaN()
+				check("large then NaN")
+				a[at+1] = k2
+			}
+			b[at] = keep
+		}
+	}
+	if w := WorstOffset(nil, nil, nil); math.Float64bits(w) != 0 {
+		t.Fatalf("empty: %v, want +0", w)
+	}
+}
+
+// MaxAbs against its definition, the loop one value at a time (the largest
+// |x| above +0, a NaN raising nothing), at every length up to 70 with the
+// special values at every place.
+func TestMaxAbs(t *testing.T) {
+	def := func(x []float64) float64 {
+		m := 0.0
+		for _, v := range x {
+			if a := math.Abs(v); a > m {
+				m = a
+			}
+		}
+		return m
+	}
+	special := []float64{math.NaN(), math.Inf(1), math.Inf(-1), 0, math.Copysign(0, -1), 5e-324, -1e-310, -math.MaxFloat64, 1e3}
+	rng := rand.New(rand.NewPCG(13, 14))
+	for n := 0; n <= 70; n++ {
+		x := make([]float64, n)
+		for i := range x {
+			x[i] = rng.NormFloat64()
+		}
+		check := func() {
+			t.Helper()
+			if got, want := MaxAbs(x), def(x); math.Float64bits(got) != math.Float64bits(want) {
+				t.Fatalf("n=%d, %v: MaxAbs %v, the loop %v", n, x, got, want)
+			}
+		}
+		check()
+		for at := 0; at < n; at++ {
+			for _, s := range special {
+				keep := x[at]
+				x[at] = s
+				check()
+				x[at] = keep
+			}
+		}
+	}
+}

@@ -6,6 +6,7 @@ import (
 	"sync/atomic"
 
 	"github.com/bandsolve/bandsolve/internal/product"
+	"github.com/bandsolve/bandsolve/internal/vecmath"
 	"github.com/bandsolve/bandsolve/svd"
 	"gonum.org/v1/gonum/mat"
 )
@@ -149,15 +150,14 @@ func differenceRows(d, dd *mat.Dense, g []float64, lo, hi int) bool {
 // |a_j − g_j − b_j| is within 2⁻⁴⁶ passes without it (a NaN passes either
 // way: it fails no comparison), one subtraction pair and a comparison per
 // point instead of four absolute values and three sums.
+//
+// The largest |a_j − g_j − b_j| is vecmath.WorstOffset's, four points at a
+// time: the Go loop that took it was bound by its compare and branch per
+// point more than by reading the rows (about 4.5 ms of CPU for 2000 × 3001
+// with the rows in cache, 6 ms read from memory).
 func differenceRow(a, b, g []float64) bool {
 	a, b = a[:len(g)], b[:len(g)]
-	worst := 0.0
-	for j, gj := range g {
-		if x := math.Abs(a[j] - gj - b[j]); x > worst {
-			worst = x
-		}
-	}
-	if worst <= 0x1p-46 {
+	if vecmath.WorstOffset(a, b, g) <= 0x1p-46 {
 		return true
 	}
 	for j, gj := range g {
