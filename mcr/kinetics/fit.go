@@ -133,6 +133,8 @@ type fitProblem struct {
 	columns  []int
 	// data mode: reduced data (same residual norm as D for any C, see FitData)
 	dred *mat.Dense
+	// data mode: the data were scaled by noise weights (noiseScaled)
+	weighted bool
 
 	n, q int
 }
@@ -442,89 +444,35 @@ func (p *fitProblem) residualWith(sc *fitScratch, theta, r []float64) error {
 	return nil
 }
 
+// newFitProblem checks a fit's scheme, times and options against nobs
+// observations, and sets its starting point and its free parameters.
 func newFitProblem(s *Scheme, times []float64, opt FitOptions, nobs int) (*fitProblem, error) {
 	if s == nil || len(s.Steps) == 0 {
 		return nil, errors.New("empty scheme")
 	}
-	ns, nr := len(s.Species), len(s.Steps)
 	if len(times) != nobs {
 		return nil, fmt.Errorf("%d times for %d observations", len(times), nobs)
 	}
 	p := &fitProblem{s: s, times: times, opt: opt, n: nobs}
-	p.nModel = ns
+	p.nModel = len(s.Species)
 	if opt.UseExtents {
-		p.nModel = nr
+		p.nModel = len(s.Steps)
 	}
 	if opt.Sim.MaxSteps == 0 {
 		p.opt.Sim.MaxSteps = 100000
 	}
 	// A fit of concentrations never reads the extents.
 	p.opt.Sim.concentrationsOnly = !opt.UseExtents
-	if math.IsNaN(opt.T0) || math.IsInf(opt.T0, 0) {
-		return nil, fmt.Errorf("t0 is %v", opt.T0)
+	span, err := spanAfter(times, opt.T0)
+	if err != nil {
+		return nil, err
 	}
-	tmax := math.Inf(-1)
-	after := 0
-	for i, t := range times {
-		if math.IsNaN(t) || math.IsInf(t, 0) {
-			return nil, fmt.Errorf("time %d is %v", i, t)
-		}
-		if t > opt.T0 {
-			after++
-		}
-		tmax = math.Max(tmax, t)
+	var cscale float64
+	if p.c00, cscale, err = startingConcentrations(s, opt.C0); err != nil {
+		return nil, err
 	}
-	if after < 2 {
-		return nil, fmt.Errorf("fewer than two times after t0 = %g", opt.T0)
-	}
-	span := tmax - opt.T0
-
-	p.c00 = make([]float64, ns)
-	if opt.C0 == nil {
-		p.c00[0] = 1
-	} else {
-		if len(opt.C0) != ns {
-			return nil, fmt.Errorf("%d initial concentrations for %d species", len(opt.C0), ns)
-		}
-		for i, v := range opt.C0 {
-			if !(v >= 0) || math.IsInf(v, 0) {
-				return nil, fmt.Errorf("initial concentration of %s is %v", s.Species[i], v)
-			}
-		}
-		copy(p.c00, opt.C0)
-	}
-	cscale := 0.0
-	for _, v := range p.c00 {
-		cscale = math.Max(cscale, v)
-	}
-	if cscale == 0 {
-		return nil, errors.New("all initial concentrations are zero: nothing can react")
-	}
-	if opt.FixedK != nil && len(opt.FixedK) != nr {
-		return nil, fmt.Errorf("FixedK has %d entries for %d steps", len(opt.FixedK), nr)
-	}
-	if opt.InitialK != nil && len(opt.InitialK) != nr {
-		return nil, fmt.Errorf("InitialK has %d entries for %d steps", len(opt.InitialK), nr)
-	}
-	p.k0 = make([]float64, nr)
-	for j := range s.Steps {
-		fixed := opt.FixedK != nil && opt.FixedK[j]
-		if opt.InitialK != nil {
-			v := opt.InitialK[j]
-			if math.IsNaN(v) || math.IsInf(v, 0) || v < 0 || (!fixed && v == 0) {
-				return nil, fmt.Errorf("initial rate constant of step %q is %v, want > 0 (≥ 0 if fixed)", s.Steps[j].Text, v)
-			}
-			p.k0[j] = v
-		} else {
-			if fixed {
-				return nil, fmt.Errorf("step %q is fixed but InitialK is nil", s.Steps[j].Text)
-			}
-			// One decay within the span, scaled to a pseudo-first-order rate for higher orders.
-			p.k0[j] = 1 / span / math.Pow(cscale, float64(s.Steps[j].Order-1))
-		}
-		if !fixed {
-			p.kFree = append(p.kFree, j)
-		}
+	if err := p.startingRates(span, cscale); err != nil {
+		return nil, err
 	}
 	if opt.FitC0 {
 		for i, v := range p.c00 {
@@ -534,6 +482,90 @@ func newFitProblem(s *Scheme, times []float64, opt FitOptions, nobs int) (*fitPr
 		}
 	}
 	return p, nil
+}
+
+// spanAfter checks t0 and the times, of which at least two must follow t0
+// for a rate to show, and returns the time from t0 to the last.
+func spanAfter(times []float64, t0 float64) (float64, error) {
+	if math.IsNaN(t0) || math.IsInf(t0, 0) {
+		return 0, fmt.Errorf("t0 is %v", t0)
+	}
+	tmax := math.Inf(-1)
+	after := 0
+	for i, t := range times {
+		if math.IsNaN(t) || math.IsInf(t, 0) {
+			return 0, fmt.Errorf("time %d is %v", i, t)
+		}
+		if t > t0 {
+			after++
+		}
+		tmax = math.Max(tmax, t)
+	}
+	if after < 2 {
+		return 0, fmt.Errorf("fewer than two times after t0 = %g", t0)
+	}
+	return tmax - t0, nil
+}
+
+// startingConcentrations checks the initial concentrations (nil: 1 for the
+// first species, 0 for the others) and returns a copy and their largest,
+// which must be positive for anything to react.
+func startingConcentrations(s *Scheme, c0 []float64) (c00 []float64, cscale float64, err error) {
+	ns := len(s.Species)
+	c00 = make([]float64, ns)
+	if c0 == nil {
+		c00[0] = 1
+	} else {
+		if len(c0) != ns {
+			return nil, 0, fmt.Errorf("%d initial concentrations for %d species", len(c0), ns)
+		}
+		for i, v := range c0 {
+			if !(v >= 0) || math.IsInf(v, 0) {
+				return nil, 0, fmt.Errorf("initial concentration of %s is %v", s.Species[i], v)
+			}
+		}
+		copy(c00, c0)
+	}
+	for _, v := range c00 {
+		cscale = math.Max(cscale, v)
+	}
+	if cscale == 0 {
+		return nil, 0, errors.New("all initial concentrations are zero: nothing can react")
+	}
+	return c00, cscale, nil
+}
+
+// startingRates sets the starting rate constants and which are free: the
+// given ones, or one decay within the span, scaled to a pseudo-first-order
+// rate at the largest initial concentration for higher orders.
+func (p *fitProblem) startingRates(span, cscale float64) error {
+	s, opt, nr := p.s, p.opt, len(p.s.Steps)
+	if opt.FixedK != nil && len(opt.FixedK) != nr {
+		return fmt.Errorf("FixedK has %d entries for %d steps", len(opt.FixedK), nr)
+	}
+	if opt.InitialK != nil && len(opt.InitialK) != nr {
+		return fmt.Errorf("InitialK has %d entries for %d steps", len(opt.InitialK), nr)
+	}
+	p.k0 = make([]float64, nr)
+	for j := range s.Steps {
+		fixed := opt.FixedK != nil && opt.FixedK[j]
+		switch {
+		case opt.InitialK != nil:
+			v := opt.InitialK[j]
+			if math.IsNaN(v) || math.IsInf(v, 0) || v < 0 || (!fixed && v == 0) {
+				return fmt.Errorf("initial rate constant of step %q is %v, want > 0 (≥ 0 if fixed)", s.Steps[j].Text, v)
+			}
+			p.k0[j] = v
+		case fixed:
+			return fmt.Errorf("step %q is fixed but InitialK is nil", s.Steps[j].Text)
+		default:
+			p.k0[j] = 1 / span / math.Pow(cscale, float64(s.Steps[j].Order-1))
+		}
+		if !fixed {
+			p.kFree = append(p.kFree, j)
+		}
+	}
+	return nil
 }
 
 // starts returns starting parameter vectors: the user's InitialK, or the best few points of a
@@ -891,42 +923,10 @@ func AutoMapFit(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions)
 	if opt.UseExtents {
 		nModel = len(s.Steps)
 	}
-	if q > nModel {
-		return nil, nil, fmt.Errorf("kinetics: auto map: %d observed columns for %d model columns", q, nModel)
+	if err := checkAssignmentCount(q, nModel); err != nil {
+		return nil, nil, err
 	}
-	count := 1
-	for i := 0; i < q; i++ {
-		count *= nModel - i
-		if count > 40320 {
-			return nil, nil, fmt.Errorf("kinetics: auto map: more than 40320 assignments; give the map explicitly")
-		}
-	}
-	cos := shapeScores(s, times, observed, opt, n, q, nModel)
-	type cand struct {
-		cols  []int
-		score float64
-	}
-	var cands []cand
-	cur := make([]int, q)
-	used := make([]bool, nModel)
-	var rec func(pos int, score float64)
-	rec = func(pos int, score float64) {
-		if pos == q {
-			cands = append(cands, cand{append([]int(nil), cur...), score})
-			return
-		}
-		for c := 0; c < nModel; c++ {
-			if !used[c] {
-				used[c] = true
-				cur[pos] = c
-				rec(pos+1, score+cos[pos][c])
-				used[c] = false
-			}
-		}
-	}
-	rec(0, 0)
-	// Stable: ties keep enumeration order, so the choice is deterministic.
-	sort.SliceStable(cands, func(a, b int) bool { return cands[a].score > cands[b].score })
+	cands := rankedAssignments(shapeScores(s, times, observed, opt, n, q, nModel), q, nModel)
 	// The fits are independent: made at once, compared in score order.
 	nFit := min(len(cands), autoMapFits)
 	fits := make([]*FitResult, nFit)
@@ -934,28 +934,9 @@ func AutoMapFit(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions)
 	product.Each(nFit, func(i int) {
 		fits[i], errs[i] = FitProfiles(s, times, observed, cands[i].cols, opt)
 	})
-	// best: the lowest RMS; kept: the lowest among assignments whose every
-	// profile moves with its model column (a profile that rises cannot be a
-	// reactant, however low the residual of a flat fit to it).
-	best, kept := -1, -1
-	var firstErr error
-	for i := 0; i < nFit; i++ {
-		res, err := fits[i], errs[i]
-		if err != nil {
-			if firstErr == nil {
-				firstErr = err
-			}
-			continue
-		}
-		if best < 0 || res.RMS < fits[best].RMS*(1-1e-9) {
-			best = i
-		}
-		if _, _, opp := opposed(observed, res.Model, cands[i].cols); !opp && (kept < 0 || res.RMS < fits[kept].RMS*(1-1e-9)) {
-			kept = i
-		}
-	}
-	if best < 0 {
-		return nil, nil, fmt.Errorf("kinetics: auto map: no assignment could be fitted: %w", firstErr)
+	best, kept, err := chooseAssignment(observed, cands, fits, errs)
+	if err != nil {
+		return nil, nil, err
 	}
 	if kept == best {
 		return cands[best].cols, fits[best], nil
@@ -968,6 +949,86 @@ func AutoMapFit(s *Scheme, times []float64, observed *mat.Dense, opt FitOptions)
 	}
 	fits[kept].MapNote = passedOver(s, observed, fits[best].Model, cands[best].cols, opt.UseExtents)
 	return cands[kept].cols, fits[kept], nil
+}
+
+// checkAssignmentCount refuses q observed columns for fewer model columns,
+// and more than 40320 (8!) assignments of them, too many to score.
+func checkAssignmentCount(q, nModel int) error {
+	if q > nModel {
+		return fmt.Errorf("kinetics: auto map: %d observed columns for %d model columns", q, nModel)
+	}
+	count := 1
+	for i := 0; i < q; i++ {
+		count *= nModel - i
+		if count > 40320 {
+			return fmt.Errorf("kinetics: auto map: more than 40320 assignments; give the map explicitly")
+		}
+	}
+	return nil
+}
+
+// mapCandidate is one assignment of observed columns to model columns, with
+// its summed shape score.
+type mapCandidate struct {
+	cols  []int
+	score float64
+}
+
+// rankedAssignments enumerates every injective assignment of the q observed
+// columns to the nModel model columns in lexicographic order, scored by
+// the summed cosines cos[observed][model], best score first. The sort is
+// stable: ties keep enumeration order, so the choice is deterministic.
+func rankedAssignments(cos [][]float64, q, nModel int) []mapCandidate {
+	var cands []mapCandidate
+	cur := make([]int, q)
+	used := make([]bool, nModel)
+	var rec func(pos int, score float64)
+	rec = func(pos int, score float64) {
+		if pos == q {
+			cands = append(cands, mapCandidate{append([]int(nil), cur...), score})
+			return
+		}
+		for c := 0; c < nModel; c++ {
+			if !used[c] {
+				used[c] = true
+				cur[pos] = c
+				rec(pos+1, score+cos[pos][c])
+				used[c] = false
+			}
+		}
+	}
+	rec(0, 0)
+	sort.SliceStable(cands, func(a, b int) bool { return cands[a].score > cands[b].score })
+	return cands
+}
+
+// chooseAssignment returns, among the fitted assignments in score order,
+// best: the lowest RMS, and kept: the lowest among those whose every
+// profile moves with its model column (a profile that rises cannot be a
+// reactant, however low the residual of a flat fit to it), -1 when none
+// does. A later fit replaces an earlier only when its RMS is lower by more
+// than a relative 1e-9. It is an error when no assignment could be fitted.
+func chooseAssignment(observed *mat.Dense, cands []mapCandidate, fits []*FitResult, errs []error) (best, kept int, err error) {
+	best, kept = -1, -1
+	var firstErr error
+	for i, res := range fits {
+		if errs[i] != nil {
+			if firstErr == nil {
+				firstErr = errs[i]
+			}
+			continue
+		}
+		if best < 0 || res.RMS < fits[best].RMS*(1-1e-9) {
+			best = i
+		}
+		if _, _, opp := opposed(observed, res.Model, cands[i].cols); !opp && (kept < 0 || res.RMS < fits[kept].RMS*(1-1e-9)) {
+			kept = i
+		}
+	}
+	if best < 0 {
+		return -1, -1, fmt.Errorf("kinetics: auto map: no assignment could be fitted: %w", firstErr)
+	}
+	return best, kept, nil
 }
 
 // MapNoteEveryOpposed begins FitResult.MapNote when every assignment fitted had a profile
@@ -1096,52 +1157,86 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 	if err != nil {
 		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
 	}
+	kept, err := checkDataFit(d, opt)
+	if err != nil {
+		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+	}
+	d = p.noiseScaled(d)
+	if p.dred, err = reducedFor(d, opt.Reduced, p.nModel); err != nil {
+		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+	}
+	// Observed points: a spectrum of row weight zero (set aside) is no data.
+	nObs := kept * m
+	if nParams := p.nParams() + p.nModel*m; nObs < nParams {
+		return nil, nil, fmt.Errorf("kinetics: fit data: %d data points for %d parameters", nObs, nParams)
+	}
+	_, w := p.dred.Dims()
+	lm, err := p.solve(n * w)
+	if err != nil {
+		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+	}
+	return p.dataResult(lm, d, nObs)
+}
+
+// checkDataFit checks the data (unless opt.Scaled was formed from them, and
+// checked then) and the noise weights, and returns how many spectra the row
+// weights keep.
+func checkDataFit(d *mat.Dense, opt FitOptions) (kept int, err error) {
+	n, m := d.Dims()
 	if r, c := dimsOrZero(opt.Scaled); r != n || c != m {
-		// (Scaled was formed from the same data, checked then.)
 		if err := checkFinite(d, "data"); err != nil {
-			return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+			return 0, err
 		}
 	}
 	if opt.Amplitudes {
-		return nil, nil, errors.New("kinetics: fit data: Amplitudes does not apply (the spectra carry the scale)")
+		return 0, errors.New("Amplitudes does not apply (the spectra carry the scale)")
 	}
-	kept, err := checkRowWeights(opt.RowWeights, n)
-	if err != nil {
-		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+	if kept, err = checkRowWeights(opt.RowWeights, n); err != nil {
+		return 0, err
 	}
 	if err := checkWeights(opt.ColWeights, m, "column"); err != nil {
-		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+		return 0, err
 	}
-	if opt.RowWeights != nil || opt.ColWeights != nil {
-		// Σ a_i b_j e_ij² = ‖√A (D − C Sᵀ) √B‖²: fit √A D √B.
-		if p.opt.RowWeights == nil {
-			p.opt.RowWeights = ones(n)
-		}
-		if r, c := dimsOrZero(opt.Scaled); r == n && c == m {
-			d = opt.Scaled
-		} else {
-			d = weightData(d, p.opt.RowWeights, opt.ColWeights)
-		}
+	return kept, nil
+}
+
+// noiseScaled returns the data the fit works on: with noise weights
+// √A D √B, since Σ a_i b_j e_ij² = ‖√A (D − C Sᵀ) √B‖² (taken from
+// opt.Scaled when an earlier fit formed it), else D itself. With column
+// weights alone the row weights become ones.
+func (p *fitProblem) noiseScaled(d *mat.Dense) *mat.Dense {
+	opt := p.opt
+	if opt.RowWeights == nil && opt.ColWeights == nil {
+		return d
 	}
-	red := opt.Reduced
-	if r, _ := dimsOrZero(red); r != n {
-		if red, err = reduceData(d, p.nModel); err != nil {
-			return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
-		}
+	p.weighted = true
+	n, m := d.Dims()
+	if opt.RowWeights == nil {
+		p.opt.RowWeights = ones(n)
 	}
-	p.dred = red
-	_, w := p.dred.Dims()
-	mres := n * w
-	q := p.nModel
-	// Observed points: a spectrum of row weight zero (set aside) is no data.
-	nObs := kept * m
-	if nObs < p.nParams()+q*m {
-		return nil, nil, fmt.Errorf("kinetics: fit data: %d data points for %d parameters", nObs, p.nParams()+q*m)
+	if r, c := dimsOrZero(opt.Scaled); r == n && c == m {
+		return opt.Scaled
 	}
-	lm, err := p.solve(mres)
-	if err != nil {
-		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+	return weightData(d, p.opt.RowWeights, opt.ColWeights)
+}
+
+// reducedFor returns the reduction of d to q model columns: given when an
+// earlier fit of the same data made it (one row per spectrum), else made here.
+func reducedFor(d, given *mat.Dense, q int) (*mat.Dense, error) {
+	n, _ := d.Dims()
+	if r, _ := dimsOrZero(given); r == n {
+		return given, nil
 	}
+	return reduceData(d, q)
+}
+
+// dataResult completes a data fit at the fitted parameters: the model, the
+// spectra Sᵀ = C⁺ D by the SVD pseudo-inverse (minimum norm when C is rank
+// deficient), and the residual sum of squares of the whole data, not of its
+// reduction, so that σ̂ and every figure built on it count the noise the
+// reduction left out.
+func (p *fitProblem) dataResult(lm *LMResult, d *mat.Dense, nObs int) (*FitResult, *mat.Dense, error) {
+	n, m := d.Dims()
 	sim, model, err := p.model(lm.X)
 	if err != nil {
 		return nil, nil, fmt.Errorf("kinetics: fit data: final model: %w", err)
@@ -1150,48 +1245,49 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 	if err != nil {
 		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
 	}
-	// Spectra Sᵀ = C⁺ D by the SVD pseudo-inverse (minimum norm when C is rank deficient).
 	spectra, err := pseudoSolve(model, d)
 	if err != nil {
 		return nil, nil, fmt.Errorf("kinetics: fit data: spectra: %w", err)
 	}
-	// The residual sum of squares of the whole data at the fitted rate
-	// constants, not of its reduction: σ̂ and every figure built on it
-	// count the noise the reduction left out.
 	var fitted, resid *mat.Dense
-	if !opt.NoResidual {
+	if !p.opt.NoResidual {
 		fitted, resid = mat.NewDense(n, m, nil), mat.NewDense(n, m, nil)
 	}
 	var lag lagSums
 	lm.SSR, lag = residualSums(d, model, spectra, fitted, resid)
 	res := p.result(lm, sim, model, nObs, rank*m)
-	res.Reduced = red
+	res.Reduced = p.dred
 	res.RMS = math.Sqrt(lm.SSR / float64(nObs))
-	if rank < q {
-		res.Warnings = append(res.Warnings, fmt.Sprintf("the model columns have rank %d < %d: the spectra are a minimum-norm solution and not unique", rank, q))
+	if rank < p.nModel {
+		res.Warnings = append(res.Warnings, fmt.Sprintf("the model columns have rank %d < %d: the spectra are a minimum-norm solution and not unique", rank, p.nModel))
 	}
 	if fitted != nil {
 		res.Fitted, res.Residual = fitted, resid
 	}
-	if opt.RowWeights != nil || opt.ColWeights != nil {
-		// Back to the data's units: the spectra lose √B, the model √A;
-		// Fitted and Residual stay weighted (units of the noise), which is
-		// what the checks on them need.
-		res.Model = mat.DenseCopyOf(sim.C)
-		if opt.UseExtents {
-			res.Model = mat.DenseCopyOf(sim.Extents)
-		}
-		if opt.ColWeights != nil {
-			inv := make([]float64, m)
-			for j, b := range opt.ColWeights {
-				inv[j] = 1 / b
-			}
-			spectra = scaleRowsSqrt(spectra, inv)
-		}
+	if p.weighted {
+		spectra = p.unweighted(res, sim, spectra)
 		res.Weighted, res.Scaled = true, d
 	}
 	honestErrors(res, lag, n)
 	return res, spectra, nil
+}
+
+// unweighted puts the model and the spectra back in the data's units: the
+// spectra lose √B, the model √A. Fitted and Residual stay weighted (units
+// of the noise), which is what the checks on them need.
+func (p *fitProblem) unweighted(res *FitResult, sim *Simulation, spectra *mat.Dense) *mat.Dense {
+	res.Model = mat.DenseCopyOf(sim.C)
+	if p.opt.UseExtents {
+		res.Model = mat.DenseCopyOf(sim.Extents)
+	}
+	if p.opt.ColWeights == nil {
+		return spectra
+	}
+	inv := make([]float64, len(p.opt.ColWeights))
+	for j, b := range p.opt.ColWeights {
+		inv[j] = 1 / b
+	}
+	return scaleRowsSqrt(spectra, inv)
 }
 
 // checkWeights accepts nil or len positive finite weights.
