@@ -119,34 +119,70 @@ func runRun(args []string, st pipeline.Streams) int {
 		fmt.Fprintf(st.Err, "bandsolve run: give one or more command files, e.g. bandsolve run exp1.bsr; see bandsolve run --help\n")
 		return exitUsage
 	}
-	workers := runtime.NumCPU()
-	if fs.Changed("jobs") {
-		n, err := strconv.Atoi(strings.TrimSpace(*jobsText))
-		if err != nil || n < 1 {
-			fmt.Fprintf(st.Err, "bandsolve run: -j %q: give a whole number of command files to run at once, 1 or more\n", *jobsText)
-			return exitUsage
-		}
-		workers = n
-	}
-	shard := campaign.All
-	if fs.Changed("shard") {
-		var err error
-		if shard, err = campaign.ParseShard(*shardText); err != nil {
-			fmt.Fprintf(st.Err, "bandsolve run: %v\n", err)
-			return exitUsage
-		}
+	workers, shard, err := batchShape(fs, *jobsText, *shardText)
+	if err != nil {
+		fmt.Fprintf(st.Err, "bandsolve run: %v\n", err)
+		return exitUsage
 	}
 	changed := map[string]bool{}
 	fs.Visit(func(f *pflag.Flag) { changed[f.Name] = true })
-	var files []string
-	var results []outcome
-	for _, a := range fs.Args() {
+	files, results := expandPatterns(fs.Args())
+	// Batch, output folders and their names are decided over the whole
+	// batch, so a file writes to the same folder whichever shard runs it.
+	batch := len(files)+len(results) > 1
+	mine := prepareShare(files, flags, changed, batch, shard)
+	results = append(results, runBatch(mine, workers, batch, flags, st)...)
+	code, failed := batchExit(results, batch)
+	if !batch {
+		if len(files) == 0 && len(results) == 1 {
+			// A pattern that matched nothing: no run to tell it.
+			fmt.Fprintf(st.Err, "bandsolve run: %s: %s\n", results[0].file, results[0].detail)
+		}
+		return code
+	}
+	if flags.Quiet && failed == 0 {
+		return exitOK
+	}
+	w := st.Out
+	if flags.JSON {
+		w = st.Err // standard output holds the runs' summaries as JSON
+	}
+	printBatchTable(w, results, failed, shard, len(files))
+	if failed > 0 {
+		return exitRun
+	}
+	return exitOK
+}
+
+// batchShape reads -j (default: the number of cores) and --shard.
+func batchShape(fs *pflag.FlagSet, jobsText, shardText string) (workers int, shard campaign.Shard, err error) {
+	workers, shard = runtime.NumCPU(), campaign.All
+	if fs.Changed("jobs") {
+		n, err := strconv.Atoi(strings.TrimSpace(jobsText))
+		if err != nil || n < 1 {
+			return 0, shard, fmt.Errorf("-j %q: give a whole number of command files to run at once, 1 or more", jobsText)
+		}
+		workers = n
+	}
+	if fs.Changed("shard") {
+		if shard, err = campaign.ParseShard(shardText); err != nil {
+			return 0, shard, err
+		}
+	}
+	return workers, shard, nil
+}
+
+// expandPatterns expands the arguments that are not files but patterns
+// (the shell did not, as when quoted for a job array); a pattern that
+// matches nothing is a failed row of the batch.
+func expandPatterns(args []string) (files []string, unmatched []outcome) {
+	for _, a := range args {
 		if _, err := os.Stat(a); err != nil && strings.ContainsAny(a, "*?[") {
 			m, gerr := filepath.Glob(a)
 			if gerr != nil || len(m) == 0 {
 				// No command file there: a file that cannot be read, exit 1
 				// like a missing command file or --data (docs/errors.md).
-				results = append(results, outcome{file: a, status: "failed", detail: "no file matches this pattern; check the folder and the pattern", code: exitRun})
+				unmatched = append(unmatched, outcome{file: a, status: "failed", detail: "no file matches this pattern; check the folder and the pattern", code: exitRun})
 				continue
 			}
 			files = append(files, m...)
@@ -154,9 +190,12 @@ func runRun(args []string, st pipeline.Streams) int {
 		}
 		files = append(files, a)
 	}
-	// Batch, output folders and their names are decided over the whole
-	// batch, so a file writes to the same folder whichever shard runs it.
-	batch := len(files)+len(results) > 1
+	return files, unmatched
+}
+
+// prepareShare reads every command file's settings, so that output folder
+// names are given over the whole batch, and returns this shard's files.
+func prepareShare(files []string, flags *pipeline.Settings, changed map[string]bool, batch bool, shard campaign.Shard) []*prepared {
 	outs := map[string]int{}
 	var mine []*prepared
 	for k, f := range files {
@@ -166,9 +205,13 @@ func runRun(args []string, st pipeline.Streams) int {
 			mine = append(mine, p)
 		}
 	}
-	results = append(results, runBatch(mine, workers, batch, flags, st)...)
-	code := exitOK
-	failed := 0
+	return mine
+}
+
+// batchExit counts the failed runs and gives the exit code: a single run's
+// own, or a batch's first failure's.
+func batchExit(results []outcome, batch bool) (code, failed int) {
+	code = exitOK
 	for _, o := range results {
 		if o.code != exitOK {
 			failed++
@@ -177,23 +220,14 @@ func runRun(args []string, st pipeline.Streams) int {
 			}
 		}
 	}
-	if !batch {
-		if len(files) == 0 && len(results) == 1 {
-			// A pattern that matched nothing: no run to tell it.
-			fmt.Fprintf(st.Err, "bandsolve run: %s: %s\n", results[0].file, results[0].detail)
-		}
-		return code
-	}
-	w := st.Out
-	if flags.JSON {
-		w = st.Err
-	}
-	if flags.Quiet && failed == 0 {
-		return exitOK
-	}
+	return code, failed
+}
+
+// printBatchTable writes the batch's count line and one row per command file.
+func printBatchTable(w io.Writer, results []outcome, failed int, shard campaign.Shard, nFiles int) {
 	what := fmt.Sprintf("%d command file(s)", len(results))
 	if shard.N > 1 {
-		what += fmt.Sprintf(" (shard %s of %d file(s))", shard, len(files))
+		what += fmt.Sprintf(" (shard %s of %d file(s))", shard, nFiles)
 	}
 	fmt.Fprintf(w, "\n%s: %d ok, %d failed\n", what, len(results)-failed, failed)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
@@ -202,10 +236,6 @@ func runRun(args []string, st pipeline.Streams) int {
 		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\n", o.file, o.status, orDash(o.out), oneLine(o.detail))
 	}
 	tw.Flush()
-	if failed > 0 {
-		return exitRun
-	}
-	return exitOK
 }
 
 // prepared is one command file with its settings (or why it has none).
