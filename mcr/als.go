@@ -483,6 +483,8 @@ func newALSRun(d Data, c0 *mat.Dense, opt Options) (*alsRun, error) {
 	// and SᵀBS; the right-hand sides come weighted from d.
 	r.rowW, r.colW = weightsOf(d)
 	r.w = newALSWork(d, k)
+	// A hard model is handed the profiles and may keep them.
+	r.w.recycle = opt.HardModel == nil
 	clampColumns(r.c, cs.nnP)
 	// Extrapolation: each iteration starts from the profiles pushed further
 	// along the last update, C + step·(C − C_prev), clipped to the
@@ -519,7 +521,7 @@ func (r *alsRun) iterate(it int) (done bool, err error) {
 	if err := r.spectraHalf(it); err != nil {
 		return false, err
 	}
-	ds, g, err := r.profilesHalf(it)
+	ds, g, err := r.profilesHalf(it, cPlain)
 	if err != nil {
 		return false, err
 	}
@@ -609,8 +611,9 @@ func (r *alsRun) spectraHalf(it int) error {
 
 // profilesHalf is the profiles' half step (Gram SᵀBS, right-hand sides
 // Sᵀ B Dᵀ), then unimodality and the hard model. It returns D B S and SᵀBS
-// for the residual's trace identity.
-func (r *alsRun) profilesHalf(it int) (*mat.Dense, *mat.SymDense, error) {
+// for the residual's trace identity. cPlain: the profiles the iteration
+// started from, kept in case it is undone.
+func (r *alsRun) profilesHalf(it int, cPlain *mat.Dense) (*mat.Dense, *mat.SymDense, error) {
 	g, ds := r.w.spectraProducts(r.d, r.s, r.colW) // SᵀBS, D B S (n × k)
 	gp := g
 	if r.opt.Ridge > 0 {
@@ -620,7 +623,7 @@ func (r *alsRun) profilesHalf(it int) (*mat.Dense, *mat.SymDense, error) {
 	if r.opt.Closure {
 		pr.Equality, pr.Total = r.cs.eq, r.opt.Total
 	}
-	c, err := solveRows(pr, ds)
+	c, err := solveRows(pr, ds, r.w.output(r.w.cOut[:], r.n, r.k, cPlain, r.cPrev))
 	if err != nil {
 		return nil, nil, fmt.Errorf("resolve: profiles step, iteration %d: %w", it, err)
 	}
@@ -893,7 +896,8 @@ func (r *alsRun) spectraStep(it int) (*mat.Dense, error) {
 	if cs.softRef != nil {
 		g, bt = softKnown(g, bt, cs.softRef, cs.softW)
 	}
-	s, err := solveRows(Problem{G: g, NonNeg: cs.nnS, FixMask: cs.knownMask, Fixed: cs.knownS, Passive: r.passS}, bt)
+	out := r.w.output(r.w.sOut[:], r.m, r.k, r.s)
+	s, err := solveRows(Problem{G: g, NonNeg: cs.nnS, FixMask: cs.knownMask, Fixed: cs.knownS, Passive: r.passS}, bt, out)
 	if err != nil {
 		return nil, fmt.Errorf("resolve: spectra step, iteration %d: %w", it, err)
 	}

@@ -2,6 +2,7 @@ package mcr
 
 import (
 	"math"
+	"slices"
 
 	"github.com/bandsolve/bandsolve/internal/product"
 	"gonum.org/v1/gonum/mat"
@@ -21,6 +22,15 @@ type alsWork struct {
 	rc, rs     *mat.Dense // Uᵀ √A C, Vᵀ √B S (r × k)
 	dtc, ds    *mat.Dense // Dᵀ A C (m × k), D B S (n × k)
 	ce         *mat.Dense // the extrapolated profiles (n × k), for any data
+	// cOut and sOut take the profiles and spectra the half steps solve
+	// for, for any data, when recycle is set: fresh, they were two more
+	// data-sized allocations an iteration, each page faulted in as the
+	// solver wrote it. Three profiles are enough (the new ones, those the
+	// iteration started from, the last kept iteration's start for the
+	// extrapolation), and two spectra (the new, the last kept).
+	cOut    [3]*mat.Dense
+	sOut    [2]*mat.Dense
+	recycle bool
 	rowW, colW []float64
 }
 
@@ -98,6 +108,24 @@ func (w *alsWork) gramW(x *mat.Dense, wt []float64) *mat.SymDense {
 		return gramW(x, wt)
 	}
 	return gram(scaleRowsTo(w.yc, x, wt, 0.5))
+}
+
+// output returns an r × k matrix from bufs that is none of busy, for a half
+// step's answer, or nil (a new one) when the run does not recycle.
+func (w *alsWork) output(bufs []*mat.Dense, r, k int, busy ...*mat.Dense) *mat.Dense {
+	if !w.recycle {
+		return nil
+	}
+	for i, b := range bufs {
+		if b == nil {
+			bufs[i] = mat.NewDense(r, k, nil)
+			return bufs[i]
+		}
+		if !slices.Contains(busy, b) {
+			return b
+		}
+	}
+	return nil
 }
 
 // scaleRowsTo writes diag(w)^p x into out (the same shape; out may be x)

@@ -73,7 +73,12 @@ func TestSolveRowsIsSolveManyTransposed(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			got, err := solveRows(pb, mat.DenseCopyOf(p.B.T()))
+			var out *mat.Dense // a new answer, then one written over a dirty buffer
+			if pass > 0 {
+				out = mat.NewDense(700, 5, nil)
+				out.Apply(func(_, _ int, _ float64) float64 { return math.NaN() }, out)
+			}
+			got, err := solveRows(pb, mat.DenseCopyOf(p.B.T()), out)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -99,5 +104,50 @@ func TestNormaliseSpectraUnitNorm(t *testing.T) {
 	}
 	if s.At(0, 0) != 0.6 || s.At(1, 0) != 0.8 || s.At(0, 1) != 1 || s.At(2, 1) != 2 {
 		t.Fatalf("spectra after normalising: %v", mat.Formatted(s))
+	}
+}
+
+// plainData hides the truncated SVD behind a Data, so that Resolve takes
+// the products through the interface, as for any other data.
+type plainData struct{ Weighted }
+
+// A whole resolution on a weighted truncated SVD through the kept buffers
+// gives the bits of the one through the Data interface (gramW and the
+// products formed anew every iteration) and of the one whose answers are
+// new matrices, with closure and without (the spectra's normalisation),
+// extrapolated and rejected steps included.
+func TestResolveBuffersAreThePlainPath(t *testing.T) {
+	wc, c0 := benchWeightedCompressed(400, 501, 4)
+	for _, closure := range []bool{true, false} {
+		opt := Options{Mode: Species, Closure: closure, MaxIter: 60}
+		want, err := Resolve(plainData{wc}, c0, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		got, err := Resolve(wc, c0, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got.Iterations != want.Iterations || len(got.History) != len(want.History) {
+			t.Fatalf("closure %v: %d iterations (%d kept), want %d (%d)", closure, got.Iterations, len(got.History), want.Iterations, len(want.History))
+		}
+		if !vecmath.SameBitsMatrix(got.C, want.C) || !vecmath.SameBitsMatrix(got.S, want.S) || !vecmath.SameBits(got.History, want.History) {
+			t.Fatalf("closure %v: the resolution through the buffers differs", closure)
+		}
+		// A hard model that hands the profiles back unchanged turns off
+		// the answers' recycling (a model may keep what it is handed).
+		fresh := opt
+		fresh.HardModel = func(c *mat.Dense) (*mat.Dense, error) { return mat.DenseCopyOf(c), nil }
+		fresh.HardKept = func(bool) bool { return false }
+		again, err := Resolve(wc, c0, fresh)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !vecmath.SameBitsMatrix(got.C, again.C) || !vecmath.SameBitsMatrix(got.S, again.S) || !vecmath.SameBits(got.History, again.History) {
+			t.Fatalf("closure %v: the resolution with recycled answers differs from the one with fresh ones", closure)
+		}
+		if len(want.HistoryAt) == want.Iterations {
+			t.Logf("closure %v: no extrapolated step was undone in %d iterations", closure, want.Iterations)
+		}
 	}
 }

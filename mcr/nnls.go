@@ -224,7 +224,11 @@ type Problem struct {
 // arithmetic does not depend on the chunking, so results are identical for
 // any GOMAXPROCS. The equality constraint is handled inside each passive-set
 // solve through its Lagrange multiplier (Schur complement), not by rescaling.
-func SolveMany(p Problem) (*mat.Dense, error) {
+func SolveMany(p Problem) (*mat.Dense, error) { return solveMany(p, nil) }
+
+// solveMany is SolveMany writing into x when x is not nil (k × p, or p × k
+// with p.rows); every entry is written, so x may hold anything before.
+func solveMany(p Problem, x *mat.Dense) (*mat.Dense, error) {
 	k, cols := p.B.Dims()
 	if p.rows {
 		k, cols = cols, k
@@ -235,9 +239,14 @@ func SolveMany(p Problem) (*mat.Dense, error) {
 	if r, _ := p.G.Dims(); r != k {
 		return nil, fmt.Errorf("solve: Gram is %d×%d but B has %d rows", r, r, k)
 	}
-	x := mat.NewDense(k, cols, nil)
+	xr, xc := k, cols
 	if p.rows {
-		x = mat.NewDense(cols, k, nil)
+		xr, xc = cols, k
+	}
+	if x == nil {
+		x = mat.NewDense(xr, xc, nil)
+	} else if r, c := x.Dims(); r != xr || c != xc {
+		return nil, fmt.Errorf("solve: answer is %d×%d, want %d×%d", r, c, xr, xc)
 	}
 	const chunk = 128
 	nchunks := (cols + chunk - 1) / chunk
@@ -563,10 +572,10 @@ func (s *solver) put(x *mat.Dense, c int, v []float64) {
 }
 
 // solveRows is SolveMany for right-hand sides given as the rows of bt
-// (p × k); the answer is p × k too.
-func solveRows(p Problem, bt *mat.Dense) (*mat.Dense, error) {
+// (p × k); the answer is p × k too, written into out when it is not nil.
+func solveRows(p Problem, bt, out *mat.Dense) (*mat.Dense, error) {
 	p.B, p.rows = bt, true
-	return SolveMany(p)
+	return solveMany(p, out)
 }
 
 // activeSet is where one column's solve stands between its steps.
