@@ -48,9 +48,12 @@ type LMResult struct {
 	Converged               bool
 	Reason                  string
 	// Held marks the parameters whose Jacobian column was at rounding level at x0
-	// (≤ 1e-12 × the largest column norm): the residual does not depend on them, so the
-	// iteration kept them at x0 and Jacobian holds zeros in their columns (Covariance then
-	// counts them out of the rank and gives them no variance). nil when none was.
+	// (≤ 1e-12 × the largest column norm) and still is at X: the residual does not depend
+	// on them, so the iteration kept them at x0 and Jacobian holds zeros in their columns
+	// (Covariance then counts them out of the rank and gives them no variance). A held
+	// parameter whose column rises above that level at a later iterate (a rate whose
+	// amplitude started at zero) is released there and fitted from then on. nil when none
+	// is held at the end.
 	Held []bool
 }
 
@@ -183,8 +186,32 @@ func (s *lmSolver) jacobian() error {
 	if err := s.jacobianAt(s.x); err != nil {
 		return fmt.Errorf("kinetics: levenberg-marquardt: jacobian: %w", err)
 	}
+	s.releaseHeld()
 	zeroHeld(s.J, s.held)
 	return nil
+}
+
+// releaseHeld lets go of the held parameters whose column in the fresh J is
+// no longer at rounding level. The residual can come to depend on a
+// parameter it did not depend on at x0 (y = a·exp(−k t) from a = 0: the
+// column of k is a·t·exp(−k t)); held for good, such a parameter would stay
+// at its start and the fit would converge to the wrong point. A column that
+// stays flat (an initial concentration whose scale free spectra absorb)
+// stays held.
+func (s *lmSolver) releaseHeld() {
+	if s.held == nil {
+		return
+	}
+	flat := heldColumns(s.J)
+	anyHeld := false
+	for j := range s.held {
+		s.held[j] = s.held[j] && flat != nil && flat[j]
+		anyHeld = anyHeld || s.held[j]
+	}
+	if !anyHeld {
+		s.held = nil
+	}
+	s.res.Held = s.held
 }
 
 // jacobianAt forms J at x from the analytic Jacobian when there is one and it
