@@ -307,8 +307,13 @@ func residualSS(d Data, c, s *mat.Dense, total, fallback float64) float64 {
 // QTo forms the full r × r Q, O(r²·k) time and r² memory: quadratic in the
 // number of spectra and of points.)
 func thinQR(a *mat.Dense) (*mat.Dense, *mat.Dense) {
-	_, k := a.Dims()
 	q := mat.DenseCopyOf(a)
+	return q, thinQRInPlace(q)
+}
+
+// thinQRInPlace is thinQR overwriting a with Q; it returns R.
+func thinQRInPlace(q *mat.Dense) *mat.Dense {
+	_, k := q.Dims()
 	raw := q.RawMatrix()
 	tau := make([]float64, k)
 	work := []float64{0}
@@ -325,7 +330,7 @@ func thinQR(a *mat.Dense) (*mat.Dense, *mat.Dense) {
 	lapack64.Orgqr(raw, tau, work, -1)
 	work = make([]float64, max(int(work[0]), k))
 	lapack64.Orgqr(raw, tau, work, len(work))
-	return q, rr
+	return rr
 }
 
 // eachResidualRow hands visit each row of D and of C Sᵀ in turn, computing
@@ -673,7 +678,7 @@ func (r *alsRun) traceResidual(ds *mat.Dense, g *mat.SymDense) float64 {
 		// The identity's terms cancel to within a millionth: rounding
 		// could be most of what is left, so compute the residual in a
 		// form whose error scales with the fit, not with the factors.
-		ssr = residualSS(r.d, r.c, r.s, r.total, ssr)
+		ssr = r.w.residualSS(r.d, r.c, r.s, r.total, ssr)
 	}
 	return ssr
 }
@@ -748,7 +753,7 @@ func (r *alsRun) finish() *Result {
 	res.C, res.S = r.c, r.s
 	// The reported residual is computed directly, never carried over from
 	// the trace identity: it is what a chemist quotes.
-	ss := residualSS(r.d, r.c, r.s, r.total, r.prev)
+	ss := r.w.residualSS(r.d, r.c, r.s, r.total, r.prev)
 	res.ResidualSS = ss
 	res.LackOfFitPercent = 100 * math.Sqrt(ss/r.total)
 	res.ExplainedPercent = 100 * (1 - ss/r.total)

@@ -110,6 +110,41 @@ func (w *alsWork) gramW(x *mat.Dense, wt []float64) *mat.SymDense {
 	return gram(scaleRowsTo(w.yc, x, wt, 0.5))
 }
 
+// residualSS is residualSS(d, c, s, total, fallback) with the scaled
+// factors, their thin QR factors and the product Dᵀ A Q_c formed in w's
+// buffers when the data are a weighted truncated SVD: the same operations
+// in the same order, each scaling done in place where residualSS made a
+// new matrix. It runs at the end of every resolution and refit.
+func (w *alsWork) residualSS(d Data, c, s *mat.Dense, total, fallback float64) float64 {
+	if w.svd.U == nil || w.rowW == nil {
+		return residualSS(d, c, s, total, fallback)
+	}
+	for _, ws := range [][]float64{w.rowW, w.colW} {
+		for _, v := range ws {
+			if !(v > 0) {
+				return math.Max(fallback, 0)
+			}
+		}
+	}
+	qc, qs := scaleRowsTo(w.yc, c, w.rowW, 0.5), scaleRowsTo(w.ys, s, w.colW, 0.5)
+	rc, rs := thinQRInPlace(qc), thinQRInPlace(qs)
+	var mm mat.Dense
+	mm.Mul(rc, rs.T())
+	// d.MulProfiles(A^{-1/2} Q_c) = B^{-1/2} V Σ Uᵀ A^{1/2} (A^{-1/2} Q_c),
+	// then √B times it, as residualSS forms them.
+	scaleRowsTo(qc, qc, w.rowW, -0.5)
+	scaleRowsTo(qc, qc, w.rowW, 0.5)
+	product.MulTTo(w.rc, w.svd.U, qc)
+	scaleRowsBy(w.rc, w.svd.Sigma)
+	product.MulTo(w.dtc, w.svd.V, w.rc)
+	scaleRowsTo(w.dtc, w.dtc, w.colW, -0.5)
+	dq := scaleRowsTo(w.dtc, w.dtc, w.colW, 0.5)
+	var p mat.Dense
+	p.Mul(qs.T(), dq) // k × k: (Q_cᵀ D Q_s)ᵀ, weighted
+	ssr := total - 2*traceProd(p.T(), &mm) + frobSq(&mm)
+	return math.Max(ssr, 0)
+}
+
 // output returns an r × k matrix from bufs that is none of busy, for a half
 // step's answer, or nil (a new one) when the run does not recycle.
 func (w *alsWork) output(bufs []*mat.Dense, r, k int, busy ...*mat.Dense) *mat.Dense {

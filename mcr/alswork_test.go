@@ -37,7 +37,11 @@ func TestALSWorkIsThePlainPath(t *testing.T) {
 			if !vecmath.SameBitsMatrix(w.gramW(c, row), gramW(c, row)) {
 				t.Fatalf("weighted %v: gramW in the buffer differs", weighted)
 			}
-			got, want := traceScaled(c, row, ds), traceProd(scaleRowsOrSame(c, row), ds)
+			got, want := w.residualSS(d, c, s, 1e9, 7), residualSS(d, c, s, 1e9, 7)
+			if math.Float64bits(got) != math.Float64bits(want) {
+				t.Fatalf("weighted %v: residualSS in the buffers %v, residualSS %v", weighted, got, want)
+			}
+			got, want = traceScaled(c, row, ds), traceProd(scaleRowsOrSame(c, row), ds)
 			if math.Float64bits(got) != math.Float64bits(want) {
 				t.Fatalf("weighted %v: traceScaled %v, traceProd of the scaled copy %v", weighted, got, want)
 			}
