@@ -78,17 +78,12 @@ func PolyBasis(axis []float64, order int, col []float64) *mat.Dense {
 	return p
 }
 
-// RemovePolynomial returns D (I − Q Qᵀ), the data with every polynomial of the axis up to
-// order projected out of each spectrum: whatever the baseline profiles, a polynomial
-// baseline of that order is gone, and the rank of what remains counts the other factors.
-// order < 0 returns d itself.
-func RemovePolynomial(d *mat.Dense, axis []float64, order int) (*mat.Dense, error) {
-	return RemovePolynomialWeighted(d, axis, order, nil)
-}
-
-// RemovePolynomialWeighted is RemovePolynomial on the noise-scaled matrix √A D √B with
-// column weights col (nil: unweighted): it returns D̃ (I − Q Qᵀ), Q = PolyBasis(axis,
-// order, col), each spectrum's baseline fitted by weighted least squares (see PolyBasis).
+// RemovePolynomialWeighted returns d (I − Q Qᵀ), Q = PolyBasis(axis, order, col), for d
+// the noise-scaled matrix √A D √B with column weights col (col nil: d is D, unweighted):
+// every polynomial of the axis up to order is projected out of each spectrum, its
+// baseline fitted by weighted least squares (see PolyBasis). Whatever the baseline
+// profiles, a polynomial baseline of that order is gone, and the rank of what remains
+// counts the other factors. order < 0 returns d itself.
 func RemovePolynomialWeighted(d *mat.Dense, axis []float64, order int, col []float64) (*mat.Dense, error) {
 	if order < 0 {
 		return d, nil

@@ -15,7 +15,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
-// Wiring of the nuisances (docs/measurement.md): the baseline model (svd.RemovePolynomial,
+// Wiring of the nuisances (docs/measurement.md): the baseline model (svd.PolyBasis,
 // svd.ChooseBaselineOrder, mcr.Options.Baseline), the chemical count (svd.ClassifyFactors)
 // and the spectra set aside (mcr.FindOutliers, --drop).
 

@@ -50,8 +50,6 @@ func (r Range) contains(v float64) bool {
 	return v >= lo && v <= hi
 }
 
-func (r Range) String() string { return fmt.Sprintf("%g:%g", r.Lo, r.Hi) }
-
 // SelectChannels returns the axis indices kept by the regions (all when
 // none) less those in any excluded range.
 func SelectChannels(axis []float64, keep, exclude []Range) ([]int, error) {
