@@ -198,10 +198,7 @@ func (a *ahead) aheadResults(r *Result, st *output.Stage) {
 	// while the other's is drawn.
 	early := a.pre.Files()
 	drawn := make(chan struct{}, 2) // each figure's goroutine says it ended
-	// Each figure's PNG file is deflated in two pieces side by side: a
-	// processor is idle whenever a flush holds none, or one figure is done.
 	draw := func(p *report.Predrawn, id string) *later[bool] {
-		p.EncodeSideBySide()
 		return startLater(func() bool {
 			defer func() { drawn <- struct{}{} }()
 			return runTask(func() {

@@ -1,6 +1,7 @@
 package report
 
 import (
+	"image"
 	"reflect"
 	"slices"
 
@@ -54,10 +55,11 @@ func (p *Predrawn) Draw(f *Folder, ids ...string) {
 
 // Reserve readies p's drawing memory for a figure of the report's usual
 // size (the spectra's, the profiles') with up to rows rows of legend: the
-// image made now and painted, and the PNG encoder's deflate writers made,
-// so that a figure drawn later does not wait for memory new to the
-// process, whose first touch is dear (docs/performance.md, Machine:
-// ≈ 10 ms for one figure's 2.6 MB image on the shared machine). Call it on the goroutine that draws into p, where
+// image made now and painted, and the PNG encoder's working memory made
+// by encoding a small image, so that a figure drawn later does not wait
+// for memory new to the process, whose first touch is dear
+// (docs/performance.md, Machine: ≈ 10 ms for one figure's 2.6 MB image on
+// the shared machine). Call it on the goroutine that draws into p, where
 // it has time to spare.
 func (p *Predrawn) Reserve(rows int) {
 	n := 4 * figurePixels(figW) * figurePixels(figH+vg.Length(rows)*legendRowH)
@@ -68,14 +70,10 @@ func (p *Predrawn) Reserve(rows int) {
 		}
 		p.scratch.pix = pix
 	}
-	p.scratch.png.reserve()
+	if p.scratch.png.zw == nil {
+		p.scratch.png.encode(image.NewRGBA(image.Rect(0, 0, 64, 64)))
+	}
 }
-
-// EncodeSideBySide has the PNG files p draws from now on deflated with
-// their two pieces on two goroutines (pngEncoder), for figures drawn where
-// a processor is likely idle (the last ones of a run); the files' bytes are
-// the same either way.
-func (p *Predrawn) EncodeSideBySide() { p.scratch.png.concurrent = true }
 
 // Adopt keeps the figures q drew (in place of any p drew under the same
 // names), so that figures drawn ahead on several goroutines, each with a

@@ -19,194 +19,99 @@ import (
 // left to image/png (found while filtering, not by a pass of its own).
 //
 // Its working memory is kept from one image to the next (drawFigures
-// encodes every figure of a goroutine with one): the deflate states (about
-// 0.5 MB each they write to, a fresh one per image before) are reset
-// rather than made again, which flate.Writer.Reset documents as equivalent
-// to a new writer, and the compressed data are gathered in buffers that
-// are kept. Each file is returned in a slice of its own.
+// encodes every figure of a goroutine with one): the deflate state (about
+// 0.5 MB it writes to, a fresh one per image before) is reset rather than
+// made again, which flate.Writer.Reset documents as equivalent to a new
+// writer, and the compressed data is gathered in one buffer that is kept.
+// Each file is returned in a slice of its own.
 //
 // The zlib stream (RFC 1950) around the deflate data is put together here:
 // the two header bytes zlib.Writer gives at the fastest level, and the
 // Adler-32 of the filtered rows, which adler32Update forms in one step per
 // eight zero bytes (most of a figure is white under white, all zeros after
 // the filter) where hash/adler32 takes eight.
-//
-// An image of at least splitBytes of filtered rows is deflated in two
-// pieces, its rows above half its height and the rest, each by a deflate
-// writer of its own, so that a figure drawn while the other processor is
-// idle (the two drawn after the uniqueness ranges) is encoded in about
-// half the time: with concurrent, the second piece on a goroutine of its
-// own; without, one after the other (where every processor is busy
-// anyway, the goroutine's hand-over would cost without giving anything;
-// the bytes are the same either way). The first piece ends with a
-// sync flush (RFC 1951 3.2.4: an empty stored block, which leaves the
-// stream byte-aligned), and the second, whose blocks begin with nothing
-// before them to refer to, is appended as it is: one valid deflate
-// stream, which decodes to the same rows. The two checksums are combined
-// (adler32Combine). Where the split lies depends on the image's size
-// alone, never on the processors or the timing, so the file is the same
-// on any machine; it is about 0.1 % larger than one piece's
-// (docs/performance.md, fourteenth round).
 type pngEncoder struct {
-	pieces     [2]rowDeflater
-	zeros      []byte // a filtered row the same as the one above
-	concurrent bool   // deflate the two pieces side by side
+	zw                 *flate.Writer
+	idat               bytes.Buffer
+	above, line, zeros []byte
 }
-
-// rowDeflater deflates a run of an image's filtered rows.
-type rowDeflater struct {
-	zw   *flate.Writer
-	out  bytes.Buffer
-	line []byte
-	top  []byte // the row of zeros above the first
-	// sum is the rows' Adler-32 (from 1, that of nothing); opaque is false
-	// at the first row holding a pixel that is not opaque.
-	sum    uint32
-	opaque bool
-	err    error
-}
-
-// splitBytes is the least size of an image's filtered rows that is
-// deflated in two pieces: two of compress/flate's blocks at the fastest
-// level (65 535 bytes of input each) in each piece, so that the pieces'
-// own blocks and their sync flush's five bytes weigh little. The report's
-// figures are about 2 MB.
-const splitBytes = 4 * 65535
 
 // encode returns img's PNG file.
 func (e *pngEncoder) encode(img *image.RGBA) ([]byte, error) {
-	width, height := img.Rect.Dx(), img.Rect.Dy()
-	zeros := grown(&e.zeros, 1+3*width)
-	clear(zeros)
-	zeros[0] = 2 // filter type Up
-	first, second := &e.pieces[0], &e.pieces[1]
-	second.out.Reset()
-	split := filteredLen(width, height) >= splitBytes && height >= 2
-	switch {
-	case !split:
-		first.deflateRows(img, 0, height, zeros, false)
-	case e.concurrent:
-		done := make(chan struct{})
-		go func() {
-			defer close(done)
-			second.deflateRows(img, height/2, height, zeros, false)
-		}()
-		first.deflateRows(img, 0, height/2, zeros, true)
-		<-done
-	default:
-		first.deflateRows(img, 0, height/2, zeros, true)
-		second.deflateRows(img, height/2, height, zeros, false)
+	sum, opaque, err := e.deflateRows(img)
+	if err != nil {
+		return nil, err
 	}
-	sum := first.sum
-	if split && first.err == nil && first.opaque {
-		first.err, first.opaque = second.err, second.opaque
-		sum = adler32Combine(first.sum, second.sum, filteredLen(width, height-height/2))
-	}
-	if first.err != nil {
-		return nil, first.err
-	}
-	if !first.opaque {
+	if !opaque {
 		var b bytes.Buffer
 		err := (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(&b, img)
 		return b.Bytes(), err
 	}
-	return e.file(width, height, sum), nil
-}
-
-// file puts the PNG file together around the deflated pieces (the second
-// empty where the image was not split).
-func (e *pngEncoder) file(width, height int, sum uint32) []byte {
+	e.idat.Write(binary.BigEndian.AppendUint32(nil, sum))
 	var hdr [13]byte
-	binary.BigEndian.PutUint32(hdr[0:], uint32(width))
-	binary.BigEndian.PutUint32(hdr[4:], uint32(height))
+	binary.BigEndian.PutUint32(hdr[0:], uint32(img.Rect.Dx()))
+	binary.BigEndian.PutUint32(hdr[4:], uint32(img.Rect.Dy()))
 	hdr[8], hdr[9] = 8, 2 // bit depth 8, colour type 2 (RGB); methods 0 (deflate, the five filters), no interlace
 	const signature = "\x89PNG\r\n\x1a\n"
-	first, second := e.pieces[0].out.Bytes(), e.pieces[1].out.Bytes()
-	n := len(zlibHeader) + len(first) + len(second) + 4
-	b := make([]byte, 0, len(signature)+3*12+len(hdr)+n)
+	b := make([]byte, 0, len(signature)+3*12+len(hdr)+e.idat.Len())
 	b = append(b, signature...)
 	b = pngChunk(b, "IHDR", hdr[:])
-	// The IDAT chunk (pngChunk's) of the zlib stream, from its pieces.
-	b = binary.BigEndian.AppendUint32(b, uint32(n))
-	start := len(b)
-	b = append(append(append(append(b, "IDAT"...), zlibHeader...), first...), second...)
-	b = binary.BigEndian.AppendUint32(b, sum)
-	b = binary.BigEndian.AppendUint32(b, crc32.ChecksumIEEE(b[start:]))
-	return pngChunk(b, "IEND", nil)
+	b = pngChunk(b, "IDAT", e.idat.Bytes())
+	return pngChunk(b, "IEND", nil), nil
 }
 
-// reserve makes e's deflate writers, if not yet made.
-func (e *pngEncoder) reserve() {
-	for i := range e.pieces {
-		if d := &e.pieces[i]; d.zw == nil {
-			d.zw, _ = flate.NewWriter(&d.out, flate.BestSpeed) // an error only for a level out of range
+// deflateRows writes the zlib header and the deflated rows of img, each
+// under the Up filter, into e.idat and returns their Adler-32; opaque is
+// false, and the rows are left unfinished, at the first row holding a
+// pixel that is not opaque.
+func (e *pngEncoder) deflateRows(img *image.RGBA) (sum uint32, opaque bool, err error) {
+	width, height := img.Rect.Dx(), img.Rect.Dy()
+	e.idat.Reset()
+	e.idat.Grow(len(img.Pix) / 8) // figures deflate to about a tenth
+	e.idat.WriteString(zlibHeader)
+	if e.zw == nil {
+		zw, err := flate.NewWriter(&e.idat, flate.BestSpeed)
+		if err != nil {
+			return 0, false, err
 		}
-	}
-}
-
-// filteredLen is the size of n filtered rows of an image width pixels
-// wide: a filter-type byte and three bytes a pixel each.
-func filteredLen(width, n int) int { return (1 + 3*width) * n }
-
-// deflateRows deflates rows y0 to y1 of img, each under the Up filter,
-// into d.out (the row above y0 is the image's, or a row of zeros above the
-// first), and sets d.sum to their Adler-32 and d.opaque; the rows are left
-// unfinished at the first row holding a pixel that is not opaque. With
-// flush the deflate stream ends in a sync flush, else it is closed. zeros
-// is a filtered row the same as the one above, read only.
-func (d *rowDeflater) deflateRows(img *image.RGBA, y0, y1 int, zeros []byte, flush bool) {
-	width := img.Rect.Dx()
-	d.out.Reset()
-	d.out.Grow(filteredLen(width, y1-y0) / 8) // figures deflate to about a tenth
-	d.sum, d.opaque, d.err = 1, false, nil    // Adler-32 of nothing
-	if d.zw == nil {
-		if d.zw, d.err = flate.NewWriter(&d.out, flate.BestSpeed); d.err != nil {
-			return
-		}
+		e.zw = zw
 	} else {
-		d.zw.Reset(&d.out)
+		e.zw.Reset(&e.idat)
 	}
 	// The Up filter of a pixel's three bytes is the difference of its RGBA
 	// bytes from the pixel above (a zero row above the first), the alpha
 	// byte dropped; a row the same as the one above is all zeros.
-	var above []byte
-	if y0 == 0 {
-		above = grown(&d.top, 4*width)
-		clear(above)
-	} else {
-		above = img.Pix[(y0-1)*img.Stride : (y0-1)*img.Stride+4*width]
-	}
-	line := grown(&d.line, 1+3*width+2) // two spare bytes for the last pixels' 8-byte store
-	line[0] = 2                         // filter type Up
+	above := grown(&e.above, 4*width)
+	clear(above)
+	line := grown(&e.line, 1+3*width+2) // two spare bytes for the last pixels' 8-byte store
+	zeros := grown(&e.zeros, 1+3*width)
+	clear(zeros)
+	line[0], zeros[0] = 2, 2 // filter type Up
+	sum = 1                  // Adler-32 of nothing
 	// The alpha bytes of every row, and-ed.
 	alpha := uint32(0xff000000)
-	for y := y0; y < y1; y++ {
+	for y := range height {
 		row := img.Pix[y*img.Stride : y*img.Stride+4*width]
 		out := zeros
 		if !bytes.Equal(row, above) {
 			alpha &= upFilter(line[1:], row, above)
 			out = line[:1+3*width]
-			d.sum = adler32Update(d.sum, out)
+			sum = adler32Update(sum, out)
 		} else {
 			if y == 0 {
 				alpha = 0 // the same as the zero row above: alpha 0
 			}
-			d.sum = adler32Zeros(adler32Update(d.sum, zeros[:1]), 3*width)
+			sum = adler32Zeros(adler32Update(sum, zeros[:1]), 3*width)
 		}
 		if alpha != 0xff000000 {
-			return
+			return 0, false, nil
 		}
-		if _, d.err = d.zw.Write(out); d.err != nil {
-			return
+		if _, err := e.zw.Write(out); err != nil {
+			return 0, false, err
 		}
 		above = row
 	}
-	d.opaque = true
-	if flush {
-		d.err = d.zw.Flush()
-	} else {
-		d.err = d.zw.Close()
-	}
+	return sum, true, e.zw.Close()
 }
 
 // grown is *s resliced to n bytes, made anew when it is shorter.
@@ -289,20 +194,6 @@ func adler32Update(sum uint32, p []byte) uint32 {
 		p = p[n:]
 	}
 	return s2<<16 | s1
-}
-
-// adler32Combine is the Adler-32 of two runs of bytes one after the
-// other, from each run's own (sum1 and sum2, each from 1) and the second
-// run's length n: the second's s1 gains the first's s1 − 1, and its s2
-// gains n times that (RFC 1950, 8.2's sums written out; zlib's
-// adler32_combine).
-func adler32Combine(sum1, sum2 uint32, n int) uint32 {
-	a1, b1 := uint64(sum1&0xffff), uint64(sum1>>16)
-	a2, b2 := uint64(sum2&0xffff), uint64(sum2>>16)
-	rem := uint64(n) % adlerMod
-	s1 := (a1 + a2 + adlerMod - 1) % adlerMod
-	s2 := (b1 + b2 + rem*a1 + adlerMod - rem) % adlerMod
-	return uint32(s2<<16 | s1)
 }
 
 // adler32Zeros is adler32Update of n zero bytes: s1 stays, s2 gains n·s1.
