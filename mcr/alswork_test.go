@@ -155,3 +155,26 @@ func TestResolveBuffersAreThePlainPath(t *testing.T) {
 		}
 	}
 }
+
+// normW is the weighted column norm √(Σ_i w_i x_ij²) (its definition, summed
+// down the column in order), on a view with a stride wider than its columns.
+func TestNormWIsItsDefinition(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 9))
+	full := mat.NewDense(50, 7, nil)
+	full.Apply(func(_, _ int, _ float64) float64 { return rng.NormFloat64() }, full)
+	x := full.Slice(3, 40, 1, 5).(*mat.Dense)
+	w := make([]float64, 37)
+	for i := range w {
+		w[i] = rng.Float64()
+	}
+	for j := 0; j < 4; j++ {
+		ss := 0.0
+		for i := 0; i < 37; i++ {
+			v := x.At(i, j)
+			ss += w[i] * v * v
+		}
+		if got, want := normW(x, j, w), math.Sqrt(ss); math.Float64bits(got) != math.Float64bits(want) {
+			t.Fatalf("column %d: normW %v, definition %v", j, got, want)
+		}
+	}
+}
