@@ -1159,7 +1159,7 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 	}
 	kept, err := checkDataFit(d, opt)
 	if err != nil {
-		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
+		return nil, nil, err
 	}
 	d = p.noiseScaled(d)
 	if p.dred, err = reducedFor(d, opt.Reduced, p.nModel); err != nil {
@@ -1185,17 +1185,17 @@ func checkDataFit(d *mat.Dense, opt FitOptions) (kept int, err error) {
 	n, m := d.Dims()
 	if r, c := dimsOrZero(opt.Scaled); r != n || c != m {
 		if err := checkFinite(d, "data"); err != nil {
-			return 0, err
+			return 0, fmt.Errorf("kinetics: fit data: %w", err)
 		}
 	}
 	if opt.Amplitudes {
-		return 0, errors.New("Amplitudes does not apply (the spectra carry the scale)")
+		return 0, errors.New("kinetics: fit data: Amplitudes does not apply (the spectra carry the scale)")
 	}
 	if kept, err = checkRowWeights(opt.RowWeights, n); err != nil {
-		return 0, err
+		return 0, fmt.Errorf("kinetics: fit data: %w", err)
 	}
 	if err := checkWeights(opt.ColWeights, m, "column"); err != nil {
-		return 0, err
+		return 0, fmt.Errorf("kinetics: fit data: %w", err)
 	}
 	return kept, nil
 }
