@@ -787,110 +787,124 @@ type alsConstraints struct {
 // resolveConstraints checks opt's constraints against the data's shape
 // (n × m, k components) and forms them; it also sets opt.Total's default.
 func resolveConstraints(opt *Options, n, m, k int) (*alsConstraints, error) {
-	nnP := boolsOr(opt.NonNegProfiles, k, true)
-	nnS := boolsOr(opt.NonNegSpectra, k, opt.Mode == Species)
-	var eq []float64
+	cs := &alsConstraints{nnP: boolsOr(opt.NonNegProfiles, k, true), nnS: boolsOr(opt.NonNegSpectra, k, opt.Mode == Species)}
 	if opt.Closure {
-		eq = opt.ClosureWeights
-		if eq == nil {
-			eq = ones(k)
+		cs.eq = opt.ClosureWeights
+		if cs.eq == nil {
+			cs.eq = ones(k)
 		}
 		if len(opt.Total) == 0 {
 			opt.Total = []float64{1}
 		}
 	}
+	known, err := cs.knownSpectra(opt, m, k)
+	if err != nil {
+		return nil, err
+	}
+	if err := cs.zeroWindows(opt, m, k, known); err != nil {
+		return nil, err
+	}
+	// normaliseSpectra must leave alone only the components whose scale is
+	// set from outside (known spectra, exact or soft), not the ones that
+	// merely have zero windows.
+	if known {
+		cs.scaleSet = make([][]bool, k)
+		for j, s := range opt.KnownSpectra {
+			if s != nil && j < k {
+				cs.scaleSet[j] = cs.knownMask[j]
+			}
+		}
+	}
+	cs.blocks = opt.Blocks
+	if len(cs.blocks) == 0 {
+		cs.blocks = []int{0}
+	}
+	for b, f := range cs.blocks {
+		if f < 0 || f >= n || b > 0 && f <= cs.blocks[b-1] {
+			return nil, fmt.Errorf("resolve: experiment blocks %v are not increasing row indices below %d", cs.blocks, n)
+		}
+	}
+	if opt.ZeroProfiles != nil {
+		cs.zeroMask = make([][]bool, k)
+		for j := 0; j < k && j < len(opt.ZeroProfiles); j++ {
+			cs.zeroMask[j] = opt.ZeroProfiles[j]
+		}
+	}
+	cs.zerosKN = mat.NewDense(k, n, nil)
+	return cs, nil
+}
+
+// knownSpectra forms the known spectra of opt: exact ones as fixed values
+// (knownS under knownMask), soft ones as references (softRef, softW). It
+// reports whether any spectrum is known.
+func (cs *alsConstraints) knownSpectra(opt *Options, m, k int) (bool, error) {
 	known := false
 	for _, s := range opt.KnownSpectra {
 		if s != nil {
 			known = true
 		}
 	}
-	var knownS, softRef *mat.Dense
-	var knownMask [][]bool
-	var softW []float64
-	if known {
-		knownS = mat.NewDense(k, m, nil)
-		knownMask = make([][]bool, k)
-		for j, s := range opt.KnownSpectra {
-			if s == nil {
-				continue
+	if !known {
+		return false, nil
+	}
+	cs.knownS = mat.NewDense(k, m, nil)
+	cs.knownMask = make([][]bool, k)
+	for j, s := range opt.KnownSpectra {
+		if s == nil {
+			continue
+		}
+		if j >= k {
+			return true, fmt.Errorf("resolve: known spectrum for component %d but only %d components", j+1, k)
+		}
+		if len(s) != m {
+			return true, fmt.Errorf("resolve: known spectrum %d has %d points, data has %d", j+1, len(s), m)
+		}
+		if j < len(opt.KnownWeights) && opt.KnownWeights[j] > 0 {
+			if cs.softRef == nil {
+				cs.softRef, cs.softW = mat.NewDense(k, m, nil), make([]float64, k)
 			}
-			if j >= k {
-				return nil, fmt.Errorf("resolve: known spectrum for component %d but only %d components", j+1, k)
-			}
-			if len(s) != m {
-				return nil, fmt.Errorf("resolve: known spectrum %d has %d points, data has %d", j+1, len(s), m)
-			}
-			if j < len(opt.KnownWeights) && opt.KnownWeights[j] > 0 {
-				if softRef == nil {
-					softRef, softW = mat.NewDense(k, m, nil), make([]float64, k)
-				}
-				softW[j] = opt.KnownWeights[j]
-				softRef.SetRow(j, s)
-				// Soft: keep the component out of normalisation, since
-				// the reference sets its scale.
-				knownMask[j] = make([]bool, m)
-				continue
-			}
-			knownMask[j] = make([]bool, m)
-			for i, v := range s {
-				knownS.Set(j, i, v)
-				knownMask[j][i] = true
-			}
+			cs.softW[j] = opt.KnownWeights[j]
+			cs.softRef.SetRow(j, s)
+			// Soft: keep the component out of normalisation, since
+			// the reference sets its scale.
+			cs.knownMask[j] = make([]bool, m)
+			continue
+		}
+		cs.knownMask[j] = make([]bool, m)
+		for i, v := range s {
+			cs.knownS.Set(j, i, v)
+			cs.knownMask[j][i] = true
 		}
 	}
-	if opt.ZeroSpectra != nil {
-		if knownMask == nil {
-			knownMask = make([][]bool, k)
-			knownS = mat.NewDense(k, m, nil)
-		}
-		for j := 0; j < k && j < len(opt.ZeroSpectra); j++ {
-			z := opt.ZeroSpectra[j]
-			if z == nil || (known && j < len(opt.KnownSpectra) && opt.KnownSpectra[j] != nil && (softW == nil || softW[j] == 0)) {
-				continue
-			}
-			if len(z) != m {
-				return nil, fmt.Errorf("resolve: zero window of spectrum %d has %d points, data has %d", j+1, len(z), m)
-			}
-			if knownMask[j] == nil {
-				knownMask[j] = make([]bool, m)
-			}
-			for i, v := range z {
-				knownMask[j][i] = knownMask[j][i] || v
-			}
-		}
+	return true, nil
+}
+
+// zeroWindows adds opt's zero windows of the spectra to the fixed values
+// (at zero), except on spectra known exactly, which are fixed throughout.
+func (cs *alsConstraints) zeroWindows(opt *Options, m, k int, known bool) error {
+	if opt.ZeroSpectra == nil {
+		return nil
 	}
-	// normaliseSpectra must leave alone only the components whose scale is
-	// set from outside (known spectra, exact or soft), not the ones that
-	// merely have zero windows.
-	var scaleSet [][]bool
-	if known {
-		scaleSet = make([][]bool, k)
-		for j, s := range opt.KnownSpectra {
-			if s != nil && j < k {
-				scaleSet[j] = knownMask[j]
-			}
+	if cs.knownMask == nil {
+		cs.knownMask = make([][]bool, k)
+		cs.knownS = mat.NewDense(k, m, nil)
+	}
+	for j := 0; j < k && j < len(opt.ZeroSpectra); j++ {
+		z := opt.ZeroSpectra[j]
+		if z == nil || (known && j < len(opt.KnownSpectra) && opt.KnownSpectra[j] != nil && (cs.softW == nil || cs.softW[j] == 0)) {
+			continue
+		}
+		if len(z) != m {
+			return fmt.Errorf("resolve: zero window of spectrum %d has %d points, data has %d", j+1, len(z), m)
+		}
+		if cs.knownMask[j] == nil {
+			cs.knownMask[j] = make([]bool, m)
+		}
+		for i, v := range z {
+			cs.knownMask[j][i] = cs.knownMask[j][i] || v
 		}
 	}
-	blocks := opt.Blocks
-	if len(blocks) == 0 {
-		blocks = []int{0}
-	}
-	for b, f := range blocks {
-		if f < 0 || f >= n || b > 0 && f <= blocks[b-1] {
-			return nil, fmt.Errorf("resolve: experiment blocks %v are not increasing row indices below %d", blocks, n)
-		}
-	}
-	var zeroMask [][]bool
-	if opt.ZeroProfiles != nil {
-		zeroMask = make([][]bool, k)
-		for j := 0; j < k && j < len(opt.ZeroProfiles); j++ {
-			zeroMask[j] = opt.ZeroProfiles[j]
-		}
-	}
-	zerosKN := mat.NewDense(k, n, nil)
-	return &alsConstraints{nnP: nnP, nnS: nnS, eq: eq, knownS: knownS, softRef: softRef, knownMask: knownMask,
-		softW: softW, scaleSet: scaleSet, blocks: blocks, zeroMask: zeroMask, zerosKN: zerosKN}, nil
+	return nil
 }
 
 // spectraStep is ALS's half step for the spectra: S = argmin ‖D − C Sᵀ‖

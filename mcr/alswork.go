@@ -17,20 +17,20 @@ import (
 // product (docs/performance.md). What the buffers hold is used within the
 // iteration only: the profiles and spectra ALS keeps are never among them.
 type alsWork struct {
-	svd        Compressed // the truncated SVD behind the data (U nil: other data)
-	yc, ys     *mat.Dense // √A C (n × k), √B S (m × k)
-	rc, rs     *mat.Dense // Uᵀ √A C, Vᵀ √B S (r × k)
-	dtc, ds    *mat.Dense // Dᵀ A C (m × k), D B S (n × k)
-	ce         *mat.Dense // the extrapolated profiles (n × k), for any data
+	svd     Compressed // the truncated SVD behind the data (U nil: other data)
+	yc, ys  *mat.Dense // √A C (n × k), √B S (m × k)
+	rc, rs  *mat.Dense // Uᵀ √A C, Vᵀ √B S (r × k)
+	dtc, ds *mat.Dense // Dᵀ A C (m × k), D B S (n × k)
+	ce      *mat.Dense // the extrapolated profiles (n × k), for any data
 	// cOut and sOut take the profiles and spectra the half steps solve
 	// for, for any data, when recycle is set: fresh, they were two more
 	// data-sized allocations an iteration, each page faulted in as the
 	// solver wrote it. Three profiles are enough (the new ones, those the
 	// iteration started from, the last kept iteration's start for the
 	// extrapolation), and two spectra (the new, the last kept).
-	cOut    [3]*mat.Dense
-	sOut    [2]*mat.Dense
-	recycle bool
+	cOut       [3]*mat.Dense
+	sOut       [2]*mat.Dense
+	recycle    bool
 	rowW, colW []float64
 }
 
