@@ -24,122 +24,181 @@ import "math"
 // alone, and on the range searches it rejects more trial points than it
 // accepts.
 func minimiseBFGS(f smoothObjective, x0 []float64, o bfgsOptions) ([]float64, float64, int, bool) {
-	maxEval, stall := o.maxEval, o.stall
-	n := len(x0)
-	x := append([]float64(nil), x0...)
-	g := make([]float64, n)
-	fx := f.value(x)
-	f.gradient(g)
-	evals := 1
-	h := make([]float64, n*n) // inverse Hessian, row-major
-	resetH := func() {
-		for i := range h {
-			h[i] = 0
-		}
-		// Scale the first step so it moves about 1 % of the way to f = 0
-		// along the gradient, a unit-free start (common practice).
-		gn := math.Sqrt(dot(g, g))
-		sc := 1.0
-		if gn > 0 {
-			sc = 0.01 / gn
-		}
-		for i := 0; i < n; i++ {
-			h[i*n+i] = sc
-		}
-	}
-	resetH()
-	d := make([]float64, n)
-	xn := make([]float64, n)
-	gn := make([]float64, n)
-	s := make([]float64, n)
-	y := make([]float64, n)
-	hy := make([]float64, n)
-	stalled := 0
-	fresh := true // h was just reset
+	var b bfgsSearch
+	b.start(f, x0)
 	converged := false
-	for evals < maxEval {
-		for i := 0; i < n; i++ {
-			v := 0.0
-			for j := 0; j < n; j++ {
-				v -= h[i*n+j] * g[j]
-			}
-			d[i] = v
-		}
-		slope := dot(d, g)
+	for b.evals < o.maxEval {
+		b.setDirection()
+		slope := dot(b.d, b.g)
 		if !(slope < 0) {
 			// No descent direction even along the gradient: a zero
 			// gradient (this point is as good as it gets, converged) or
 			// a non-finite one (nothing is known there, not converged).
-			if fresh {
-				converged = dot(g, g) == 0
+			if b.fresh {
+				converged = dot(b.g, b.g) == 0
 				break
 			}
-			resetH()
-			fresh = true
+			b.resetInverseHessian()
+			b.fresh = true
 			continue
 		}
-		fresh = false
-		step, accepted := 1.0, false
-		var fn float64
-		for ls := 0; ls < 40 && evals < maxEval; ls++ {
-			for i := range xn {
-				xn[i] = x[i] + step*d[i]
-			}
-			fn = f.value(xn)
-			evals++
-			if fn <= fx+1e-4*step*slope {
-				f.gradient(gn)
-				accepted = true
-				break
-			}
-			step = nextStep(step, slope, fx, fn, false)
-		}
+		b.fresh = false
+		fn, accepted := b.lineSearch(slope, o.maxEval)
 		if !accepted {
-			converged = evals < maxEval
+			converged = b.evals < o.maxEval
 			break
 		}
-		for i := 0; i < n; i++ {
-			s[i] = xn[i] - x[i]
-			y[i] = gn[i] - g[i]
-		}
-		rel := math.Abs(fx-fn) / math.Max(math.Abs(fx), 1e-300)
-		copy(x, xn)
-		copy(g, gn)
-		fx = fn
-		if rel < stall {
-			stalled++
-			if stalled >= 3 {
-				converged = true
-				break
-			}
-		} else {
-			stalled = 0
-		}
-		if math.Sqrt(dot(g, g)) < 1e-14 {
+		if b.moveTo(fn, o.stall) {
 			converged = true
 			break
 		}
-		sy := dot(s, y)
-		if sy <= 1e-300 {
-			continue
+		b.updateInverseHessian()
+	}
+	return b.x, b.fx, b.evals, converged
+}
+
+// bfgsSearch is what minimiseBFGS's steps share: the current point, its
+// value and gradient, the inverse-Hessian approximation, and work vectors
+// allocated once for the whole search.
+type bfgsSearch struct {
+	f     smoothObjective
+	n     int
+	x, g  []float64 // the current point and its gradient
+	fx    float64   // f at x
+	evals int       // function evaluations so far
+	h     []float64 // inverse Hessian, row-major n × n
+	d     []float64 // the search direction −H g
+	xn    []float64 // the line search's trial point
+	gn    []float64 // the gradient at the accepted trial point
+	s, y  []float64 // the step taken and the change in the gradient
+	hy    []float64 // H y
+	// stalled counts the iterations in a row that lowered f by less than
+	// the stall; fresh says h was just reset.
+	stalled int
+	fresh   bool
+}
+
+// start evaluates f and its gradient at x0 and starts from a scaled
+// identity. (b is filled in place, not returned, so that it stays on the
+// caller's stack.)
+func (b *bfgsSearch) start(f smoothObjective, x0 []float64) {
+	n := len(x0)
+	*b = bfgsSearch{f: f, n: n, x: append([]float64(nil), x0...), g: make([]float64, n)}
+	b.fx = f.value(b.x)
+	f.gradient(b.g)
+	b.evals = 1
+	b.h = make([]float64, n*n)
+	b.resetInverseHessian()
+	b.d = make([]float64, n)
+	b.xn = make([]float64, n)
+	b.gn = make([]float64, n)
+	b.s = make([]float64, n)
+	b.y = make([]float64, n)
+	b.hy = make([]float64, n)
+	b.fresh = true
+}
+
+// resetInverseHessian sets H to a multiple of the identity.
+func (b *bfgsSearch) resetInverseHessian() {
+	h, n := b.h, b.n
+	for i := range h {
+		h[i] = 0
+	}
+	// Scale the first step so it moves about 1 % of the way to f = 0
+	// along the gradient, a unit-free start (common practice).
+	gn := math.Sqrt(dot(b.g, b.g))
+	sc := 1.0
+	if gn > 0 {
+		sc = 0.01 / gn
+	}
+	for i := 0; i < n; i++ {
+		h[i*n+i] = sc
+	}
+}
+
+// setDirection sets the quasi-Newton direction d = −H g.
+func (b *bfgsSearch) setDirection() {
+	h, g, n := b.h, b.g, b.n
+	for i := 0; i < n; i++ {
+		v := 0.0
+		for j := 0; j < n; j++ {
+			v -= h[i*n+j] * g[j]
 		}
-		// H ← (I − ρ s yᵀ) H (I − ρ y sᵀ) + ρ s sᵀ, expanded.
-		rho := 1 / sy
-		for i := 0; i < n; i++ {
-			v := 0.0
-			for j := 0; j < n; j++ {
-				v += h[i*n+j] * y[j]
-			}
-			hy[i] = v
+		b.d[i] = v
+	}
+}
+
+// lineSearch backtracks along d from a unit step until the Armijo
+// condition holds, asking for the gradient only at the point it accepts
+// (into gn). It returns the value there and whether a point was accepted
+// within 40 trials and the budget.
+func (b *bfgsSearch) lineSearch(slope float64, maxEval int) (float64, bool) {
+	x, d, xn := b.x, b.d, b.xn
+	step := 1.0
+	var fn float64
+	for ls := 0; ls < 40 && b.evals < maxEval; ls++ {
+		for i := range xn {
+			xn[i] = x[i] + step*d[i]
 		}
-		yhy := dot(y, hy)
-		for i := 0; i < n; i++ {
-			for j := 0; j < n; j++ {
-				h[i*n+j] += -rho*(hy[i]*s[j]+s[i]*hy[j]) + (rho*rho*yhy+rho)*s[i]*s[j]
-			}
+		fn = b.f.value(xn)
+		b.evals++
+		if fn <= b.fx+1e-4*step*slope {
+			b.f.gradient(b.gn)
+			return fn, true
+		}
+		step = nextStep(step, slope, b.fx, fn, false)
+	}
+	return fn, false
+}
+
+// moveTo makes the accepted trial point (value fn) the current one,
+// keeping the step and the gradient's change for the update, and says
+// whether the search has converged: three stalled iterations in a row, or
+// a vanishing gradient.
+func (b *bfgsSearch) moveTo(fn, stall float64) bool {
+	for i := 0; i < b.n; i++ {
+		b.s[i] = b.xn[i] - b.x[i]
+		b.y[i] = b.gn[i] - b.g[i]
+	}
+	rel := math.Abs(b.fx-fn) / math.Max(math.Abs(b.fx), 1e-300)
+	copy(b.x, b.xn)
+	copy(b.g, b.gn)
+	b.fx = fn
+	if rel < stall {
+		b.stalled++
+		if b.stalled >= 3 {
+			return true
+		}
+	} else {
+		b.stalled = 0
+	}
+	return math.Sqrt(dot(b.g, b.g)) < 1e-14
+}
+
+// updateInverseHessian applies the BFGS update of H from the last step,
+// skipped when the curvature condition sᵀy > 0 fails so that H stays
+// positive definite.
+func (b *bfgsSearch) updateInverseHessian() {
+	h, s, y, hy, n := b.h, b.s, b.y, b.hy, b.n
+	sy := dot(s, y)
+	if sy <= 1e-300 {
+		return
+	}
+	// H ← (I − ρ s yᵀ) H (I − ρ y sᵀ) + ρ s sᵀ, expanded.
+	rho := 1 / sy
+	for i := 0; i < n; i++ {
+		v := 0.0
+		for j := 0; j < n; j++ {
+			v += h[i*n+j] * y[j]
+		}
+		hy[i] = v
+	}
+	yhy := dot(y, hy)
+	for i := 0; i < n; i++ {
+		for j := 0; j < n; j++ {
+			h[i*n+j] += -rho*(hy[i]*s[j]+s[i]*hy[j]) + (rho*rho*yhy+rho)*s[i]*s[j]
 		}
 	}
-	return x, fx, evals, converged
 }
 
 // bfgsOptions are minimiseBFGS's settings: the evaluations it may use and
