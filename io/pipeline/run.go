@@ -156,20 +156,99 @@ func Run(s *Settings, log io.Writer) (*Result, error) { return run(s, log, false
 // takes the sums.
 func runForFolder(s *Settings, log io.Writer) (*Result, error) { return run(s, log, true) }
 
+// run reads the data, counts its components by factor analysis, resolves
+// them and fits the kinetics, one step after the other. The waits for what
+// the steps begin beside the work (the inputs' sums, the figures drawn
+// ahead, EFA, the collection after the factor analysis) are deferred here,
+// in the order the work is begun, so that none outlives the run on any
+// path.
 func run(s *Settings, log io.Writer, hashInputs bool) (_ *Result, err error) {
 	if log == nil {
 		log = io.Discard
 	}
-	if len(s.Data) == 0 {
-		return nil, usage("no input: give --data PATH (a matrix CSV, a folder of spectra or a JCAMP-DX file)")
-	}
-	if s.Times != "" && s.TimesFromName {
-		return nil, usage("--times and --times-from-name both give the times: use one")
-	}
-	if err := checkKineticsSettings(s); err != nil {
+	if err := checkRunSettings(s); err != nil {
 		return nil, err
 	}
 	r := &Result{Settings: s, Started: time.Now(), BaselineOrder: -1}
+	plan, err := planReading(s)
+	if err != nil {
+		return nil, err
+	}
+	if hashInputs {
+		// Begun with the parse, at a low priority (startInputSums).
+		r.inputSums = startInputSums(fileData(s))
+		defer func() {
+			if err != nil {
+				r.inputSums.abandon() // no manifest: do not read on
+			}
+			r.inputSums.wait()
+		}()
+	}
+	diffRows, err := readExperiments(r, plan, log)
+	if err != nil {
+		return nil, err
+	}
+	if err := setAsideRows(r); err != nil {
+		return nil, err
+	}
+	if hashInputs {
+		// A folder's spectrum files are known now.
+		r.inputSums = startInputSumsAfter(r.inputSums, dataFiles(r))
+		if s.Report != "off" {
+			r.ahead = startAhead()
+			defer r.ahead.wait()
+		}
+	}
+	fa, err := factorAnalysis(r, diffRows, log)
+	if err != nil {
+		return nil, err
+	}
+	startEFA(r, askedComponents(s, r.Rank.Estimate))
+	defer r.earlyEFA.get() // no goroutine outlives the run
+	fa.rankFindings()
+	n, m := r.D.Dims()
+	defer collectAfterFactorAnalysis(n, m).get()
+	r.ahead.aheadData(r)
+	r.ahead.aheadSingular(r)
+	if err := chooseComponents(r); err != nil {
+		return nil, err
+	}
+	if r.Components == 0 {
+		r.LackOfFit, r.Explained = 0, 100
+		nuisanceAdvice(r)
+		return r, nil
+	}
+	if err := resolveAndFit(r, log); err != nil {
+		return nil, err
+	}
+	return r, nil
+}
+
+// checkRunSettings refuses settings that cannot describe a run before
+// anything is read.
+func checkRunSettings(s *Settings) error {
+	if len(s.Data) == 0 {
+		return usage("no input: give --data PATH (a matrix CSV, a folder of spectra or a JCAMP-DX file)")
+	}
+	if s.Times != "" && s.TimesFromName {
+		return usage("--times and --times-from-name both give the times: use one")
+	}
+	return checkKineticsSettings(s)
+}
+
+// readingPlan is how the inputs are to be read: a folder's options, the
+// kind of spectra asked for and the --reference setting (the mean of the
+// first refMean spectra, or the spectrum in refFile).
+type readingPlan struct {
+	folder  spectra.FolderOptions
+	kind    spectra.Kind
+	refMean int
+	refFile string
+}
+
+// planReading forms the reading's options from the settings. The times,
+// blank and reference files are left out of a folder's spectra.
+func planReading(s *Settings) (readingPlan, error) {
 	kind := spectra.Kind(s.Kind)
 	folder := spectra.FolderOptions{TimesFile: s.Path(s.Times), TimesFromName: s.TimesFromName, TimeUnit: inputTimeUnit(s), Resample: s.Resample,
 		// Single beams are scanned channel by channel as they are parsed
@@ -184,22 +263,20 @@ func run(s *Settings, log io.Writer, hashInputs bool) (_ *Result, err error) {
 	}
 	refMean, refFile, err := spectra.ParseReference(s.Reference)
 	if err != nil {
-		return nil, usage("--reference: %v", err)
+		return readingPlan{}, usage("--reference: %v", err)
 	}
 	if refFile != "" {
 		folder.Exclude = append(folder.Exclude, s.Path(refFile))
 	}
-	if hashInputs {
-		// Begun with the parse, at a low priority (startInputSums).
-		r.inputSums = startInputSums(fileData(s))
-		defer func() {
-			if err != nil {
-				r.inputSums.abandon() // no manifest: do not read on
-			}
-			r.inputSums.wait()
-		}()
-	}
-	series, kind, err := loadSeries(s, r, folder, kind, log)
+	return readingPlan{folder: folder, kind: kind, refMean: refMean, refFile: refFile}, nil
+}
+
+// readExperiments reads every input, puts them on the channels they share
+// and assembles them into r.D. In species mode it returns the difference
+// matrix's rows too, whose rank the factor analysis counts beside D's.
+func readExperiments(r *Result, p readingPlan, log io.Writer) ([]*mat.Dense, error) {
+	s := r.Settings
+	series, kind, err := loadSeries(s, r, p.folder, p.kind, log)
 	if err != nil {
 		return nil, err
 	}
@@ -208,16 +285,16 @@ func run(s *Settings, log io.Writer, hashInputs bool) (_ *Result, err error) {
 	if err != nil {
 		return nil, err
 	}
-	blank, refSpec, err := fixedSpectra(s, first, axis, chans, kind, refFile)
+	blank, refSpec, err := fixedSpectra(s, first, axis, chans, kind, p.refFile)
 	if err != nil {
 		return nil, err
 	}
-	if s.Pre > 0 && refMean > 1 && refMean > s.Pre {
-		return nil, usage("--reference mean:%d averages more spectra than the %d before the reaction (--pre %d)", refMean, s.Pre, s.Pre)
+	if s.Pre > 0 && p.refMean > 1 && p.refMean > s.Pre {
+		return nil, usage("--reference mean:%d averages more spectra than the %d before the reaction (--pre %d)", p.refMean, s.Pre, s.Pre)
 	}
 	opt := spectra.AssembleOptions{Kind: kind, Blank: blank,
-		Reference: spectra.Reference{Mean: refMean, File: refSpec}, BlankSource: s.Blank, Consume: true, Pre: s.Pre}
-	diffRows, err := assembleExperiments(s, r, series, axis, chans, opt, refFile)
+		Reference: spectra.Reference{Mean: p.refMean, File: refSpec}, BlankSource: s.Blank, Consume: true, Pre: s.Pre}
+	diffRows, err := assembleExperiments(s, r, series, axis, chans, opt, p.refFile)
 	if err != nil {
 		return nil, err
 	}
@@ -229,118 +306,186 @@ func run(s *Settings, log io.Writer, hashInputs bool) (_ *Result, err error) {
 	r.Notes = append(r.Notes, spectra.NoiseNotes(first.AxisName, axis, r.Weights.ChannelSigma())...)
 	n, m := r.D.Dims()
 	fmt.Fprintf(log, "data: %d spectra × %d points, %s mode\n", n, m, r.Mode)
+	return diffRows, nil
+}
 
+// setAsideRows sets aside the spectra --drop names: they are imputed in D
+// from the others, so that no later step reads them as data.
+func setAsideRows(r *Result) error {
 	drops, err := parseDrops(r)
 	if err != nil {
-		return nil, err
+		return err
 	}
 	if len(drops) > 0 {
 		r.SetAside = drops
 		imputeRows(r, drops, nil, nil)
 	}
+	return nil
+}
 
-	if hashInputs {
-		// A folder's spectrum files are known now.
-		r.inputSums = startInputSumsAfter(r.inputSums, dataFiles(r))
-		if s.Report != "off" {
-			r.ahead = startAhead()
-			defer r.ahead.wait()
-		}
-	}
+// factorRun is the factor analysis' state its steps share.
+type factorRun struct {
+	r    *Result
+	n, m int
+	// maxF caps the factors of large data's randomized SVD (0: all).
+	maxF int
+	// refRow is the single reference row of one experiment in reactions
+	// mode (−1: none): its own noise is one fixed pattern in every row.
+	refRow int
+	rf     *svd.Factors // factors of the matrix the rank is counted on
+	f      *svd.Factors // factors of D itself (without weights)
+	// noise is the trusted noise level of the rank's inputs (0: svd's
+	// own), work the scratch of the scaled matrix's SVD, which the
+	// difference matrix's serves again.
+	noise float64
+	work  *svd.Workspace
+	// spare is the difference matrix's memory lent to √A D √B, refs the
+	// experiments' fixed spectra it is rebuilt from (borrowDifference);
+	// diffRows are the difference matrix's rows when not lent.
+	spare    *mat.Dense
+	refs     [][]float64
+	diffRows []*mat.Dense
+}
 
-	// Factor analysis.
-	maxF := 0
-	if largeData(n, m) {
-		maxF = largeFactors
+// factorAnalysis decomposes the data, with noise weights the noise-scaled
+// √A D √B, and counts its rank while it chooses the baseline's order
+// (chooseBaseline).
+func factorAnalysis(r *Result, diffRows []*mat.Dense, log io.Writer) (*factorRun, error) {
+	fa := &factorRun{r: r, diffRows: diffRows, refRow: -1}
+	fa.n, fa.m = r.D.Dims()
+	if largeData(fa.n, fa.m) {
+		fa.maxF = largeFactors
 	}
 	fmt.Fprintf(log, "factor analysis\n")
-	refRow := -1
 	if r.Mode == mcr.Reactions && len(r.Experiments) == 1 && len(r.Experiments[0].RefRows) == 1 {
-		refRow = r.Experiments[0].RefRows[0]
+		fa.refRow = r.Experiments[0].RefRows[0]
 	}
-	var in rankInputs
-	rf := (*svd.Factors)(nil) // factors of the matrix the rank is counted on
-	f := (*svd.Factors)(nil)  // factors of D itself (without weights)
-	// spare is the difference matrix's memory lent to √A D √B, refs the
-	// experiments' fixed spectra it is rebuilt from (borrowDifference).
-	var spare *mat.Dense
-	var refs [][]float64
 	if weighted(r) && r.Mode == mcr.Species && r.DiffWeights != nil {
-		spare, refs = borrowDifference(r, diffRows)
+		fa.spare, fa.refs = borrowDifference(r, diffRows)
 	}
 	r.ahead.aheadData(r)
+	var in rankInputs
+	var err error
 	if weighted(r) {
-		// Rank, baseline order and the nuisance classification on the
-		// noise-scaled matrix √A D √B, whose noise is white with σ = 1
-		// (docs/measurement.md §2).
-		if r.Blind != nil && r.Blind.Count > 0 {
-			// Fill the blind points from the noise-scaled low-rank model
-			// before the rank is counted: the placeholders are not data.
-			if rf, _, err = weightedFactors(r, maxF, -1, log); err != nil {
-				return nil, err
-			}
-			in = weightedRankInputs(r, r.Scaled, r.Weights.Row, r.Weights.Col, refRow, maxF)
-			r.Scaled = nil // not held further: EFA and purest variables use its factors
-		} else {
-			scaled := spare
-			if scaled == nil {
-				scaled = fresh.Matrix(n, m)
-			}
-			scaled, screen := svd.ScaleIntoScreened(scaled, r.D, r.Weights.Row, r.Weights.Col)
-			in = weightedRankInputs(r, scaled, r.Weights.Row, r.Weights.Col, refRow, maxF)
-			in.screen = screen
-			// The baseline's projection overwrites this copy and
-			// rebuilds it from D: one scaled matrix instead of two.
-			in.reuse = true
-			in.rebuild = func(d *mat.Dense) { svd.ScaleInto(d, r.D, r.Weights.Row, r.Weights.Col) }
-		}
-		if rf == nil {
-			// D Q for the baseline's choice rides along in the first
-			// pass over the scaled matrix instead of a pass of its own.
-			in.basis, in.dq = baselineBesides(r, in.d, in.col)
-			// The scratch of its randomized SVD serves again for the
-			// difference matrix's (lentDifferenceRank), of the same shape.
-			in.work = new(svd.Workspace)
-			opt := svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed, Screen: in.screen, Beside: in.basis, BesideInto: in.dq, Work: in.work}
-			if rf, err = svd.Decompose(in.d, opt); err != nil {
-				return nil, fmt.Errorf("factor analysis: %w", err)
-			}
-		}
-		// Every later step reads the factors of √A D √B: the singular
-		// values written and drawn beside the rank's noise edge (in the
-		// same units), EFA, purest variables and the starts. D itself is
-		// not decomposed: the outlier test's noise level in D's units
-		// comes from the noise model (plainSigma).
-		r.ScaledFactors, r.Factors = rf, rf
+		in, err = fa.scaledFactors(log)
 	} else {
-		if f, err = svd.Decompose(r.D, svd.DecomposeOptions{MaxFactors: maxF, Seed: s.Seed}); err != nil {
-			return nil, fmt.Errorf("factor analysis: %w", err)
-		}
-		rf, r.Factors = f, f
-		pooled := pooledSigma(s, r, r.D)
-		in = rankInputs{d: r.D, opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooled, Alpha: s.Alpha, ReferenceRow: refRow}, maxF: maxF, noise: pooled}
+		in, err = fa.plainFactors()
 	}
-	noiseOf(r)
-	if err := chooseBaseline(r, rf, in); err != nil {
+	if err != nil {
 		return nil, err
 	}
-	startEFA(r, askedComponents(s, r.Rank.Estimate))
-	defer r.earlyEFA.get() // no goroutine outlives the run
+	noiseOf(r)
+	if err := chooseBaseline(r, fa.rf, in); err != nil {
+		return nil, err
+	}
+	fa.noise, fa.work = in.noise, in.work
+	return fa, nil
+}
+
+// scaledFactors decomposes the noise-scaled matrix √A D √B, whose noise is
+// white with σ = 1 (docs/measurement.md §2): the rank, the baseline's order
+// and the nuisance classification are counted on it.
+func (fa *factorRun) scaledFactors(log io.Writer) (rankInputs, error) {
+	r := fa.r
+	var in rankInputs
+	if r.Blind != nil && r.Blind.Count > 0 {
+		// Fill the blind points from the noise-scaled low-rank model
+		// before the rank is counted: the placeholders are not data.
+		rf, _, err := weightedFactors(r, fa.maxF, -1, log)
+		if err != nil {
+			return in, err
+		}
+		fa.rf = rf
+		in = weightedRankInputs(r, r.Scaled, r.Weights.Row, r.Weights.Col, fa.refRow, fa.maxF)
+		r.Scaled = nil // not held further: EFA and purest variables use its factors
+	} else {
+		in = fa.scaleScreened()
+	}
+	if fa.rf == nil {
+		if err := fa.decomposeScaled(&in); err != nil {
+			return in, err
+		}
+	}
+	// Every later step reads the factors of √A D √B: the singular
+	// values written and drawn beside the rank's noise edge (in the
+	// same units), EFA, purest variables and the starts. D itself is
+	// not decomposed: the outlier test's noise level in D's units
+	// comes from the noise model (plainSigma).
+	r.ScaledFactors, r.Factors = fa.rf, fa.rf
+	return in, nil
+}
+
+// scaleScreened writes √A D √B, into the difference matrix's lent memory
+// when there is some, with its screen made as it is written.
+func (fa *factorRun) scaleScreened() rankInputs {
+	r := fa.r
+	scaled := fa.spare
+	if scaled == nil {
+		scaled = fresh.Matrix(fa.n, fa.m)
+	}
+	scaled, screen := svd.ScaleIntoScreened(scaled, r.D, r.Weights.Row, r.Weights.Col)
+	in := weightedRankInputs(r, scaled, r.Weights.Row, r.Weights.Col, fa.refRow, fa.maxF)
+	in.screen = screen
+	// The baseline's projection overwrites this copy and
+	// rebuilds it from D: one scaled matrix instead of two.
+	in.reuse = true
+	in.rebuild = func(d *mat.Dense) { svd.ScaleInto(d, r.D, r.Weights.Row, r.Weights.Col) }
+	return in
+}
+
+// decomposeScaled takes the randomized SVD of the scaled matrix in.d.
+func (fa *factorRun) decomposeScaled(in *rankInputs) error {
+	r := fa.r
+	// D Q for the baseline's choice rides along in the first
+	// pass over the scaled matrix instead of a pass of its own.
+	in.basis, in.dq = baselineBesides(r, in.d, in.col)
+	// The scratch of its randomized SVD serves again for the
+	// difference matrix's (lentDifferenceRank), of the same shape.
+	in.work = new(svd.Workspace)
+	opt := svd.DecomposeOptions{MaxFactors: fa.maxF, Seed: r.Settings.Seed, Screen: in.screen, Beside: in.basis, BesideInto: in.dq, Work: in.work}
+	rf, err := svd.Decompose(in.d, opt)
+	if err != nil {
+		return fmt.Errorf("factor analysis: %w", err)
+	}
+	fa.rf = rf
+	return nil
+}
+
+// plainFactors decomposes D itself (no noise weights); the rank's noise
+// level is pooled from the rows before the reaction (pooledSigma).
+func (fa *factorRun) plainFactors() (rankInputs, error) {
+	r, s := fa.r, fa.r.Settings
+	f, err := svd.Decompose(r.D, svd.DecomposeOptions{MaxFactors: fa.maxF, Seed: s.Seed})
+	if err != nil {
+		return rankInputs{}, fmt.Errorf("factor analysis: %w", err)
+	}
+	fa.f = f
+	fa.rf, r.Factors = f, f
+	pooled := pooledSigma(s, r, r.D)
+	return rankInputs{d: r.D, opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooled, Alpha: s.Alpha, ReferenceRow: fa.refRow}, maxF: fa.maxF, noise: pooled}, nil
+}
+
+// rankFindings says where the rank's noise level came from and adds what
+// the rank tells: the difference matrix's own rank in species mode (or the
+// number of reactions the differences show), the rank's warnings, and the
+// reference's own noise when a factor is that.
+func (fa *factorRun) rankFindings() {
+	r, s := fa.r, fa.r.Settings
 	rank := r.Rank
 	switch {
 	case weighted(r):
 		rank.SigmaSource = "noise model from the data (" + r.NoiseSource + "); the matrix is scaled so that its noise has σ = 1"
-	case in.noise > 0:
+	case fa.noise > 0:
 		rank.SigmaSource = "pre-reaction rows of every experiment"
 	}
 	if !weighted(r) {
 		r.NoiseSigma, r.NoiseSource = rank.Sigma, rank.SigmaSource
 	}
-	if spare != nil {
-		lentDifferenceRank(r, spare, refs, rf, maxF, in.work)
+	if fa.spare != nil {
+		lentDifferenceRank(r, fa.spare, fa.refs, fa.rf, fa.maxF, fa.work)
 		diffAdvice(r, rank)
 	} else if r.Mode == mcr.Species {
-		copiedDifferenceRank(r, s, diffRows, rf, f, maxF)
+		copiedDifferenceRank(r, s, fa.diffRows, fa.rf, fa.f, fa.maxF)
 		diffAdvice(r, rank)
 	} else if rank.Estimate > 0 {
 		r.Advice = append(r.Advice, fmt.Sprintf("difference data has rank %d = the number of independent reactions it shows (at least %d species take part; a rank deficiency can hide more); to resolve species give a blank single beam (--blank) or absorbance input", rank.Estimate, rank.Estimate+1))
@@ -349,14 +494,17 @@ func run(s *Settings, log io.Writer, hashInputs bool) (_ *Result, err error) {
 	if rank.ReferencePatternFactor >= 0 {
 		r.Advice = append(r.Advice, fmt.Sprintf("factor %d is the reference spectrum's own noise (flat in time, white across the axis): one fixed pattern in every difference spectrum, not a reaction, so it is not counted; averaging several pre-reaction spectra as the reference (--pre N --reference mean:N) shrinks it by √N", rank.ReferencePatternFactor+1))
 	}
-	defer collectAfterFactorAnalysis(n, m).get()
-	r.ahead.aheadData(r)
-	r.ahead.aheadSingular(r)
+}
 
+// chooseComponents sets r.Components: --components, or the rank estimate
+// with auto, and none when the data does not change.
+func chooseComponents(r *Result) error {
+	s, rank := r.Settings, r.Rank
+	n, m := r.D.Dims()
 	k := askedComponents(s, rank.Estimate)
 	if s.Components != "auto" {
 		if k > min(n, m) {
-			return nil, usage("--components %d: the data has only %d spectra × %d points; ask for at most %d", k, n, m, min(n, m))
+			return usage("--components %d: the data has only %d spectra × %d points; ask for at most %d", k, n, m, min(n, m))
 		}
 		if k != rank.Estimate {
 			r.Notes = append(r.Notes, fmt.Sprintf("%d components as asked; the rank estimate is %d", k, rank.Estimate))
@@ -371,16 +519,17 @@ func run(s *Settings, log io.Writer, hashInputs bool) (_ *Result, err error) {
 		r.Notes = append(r.Notes, fmt.Sprintf("no change: every spectrum equals the first within noise (the difference spectra have rank 0; the absorbance's rank %d is the unchanging spectrum itself); nothing to resolve", rank.Estimate))
 	}
 	r.Components = k
-	if k == 0 {
-		if !unchanged {
-			r.Notes = append(r.Notes, "no change: every spectrum equals the reference within noise, a flat line at zero absorbance; nothing to resolve")
-		}
-		r.LackOfFit, r.Explained = 0, 100
-		nuisanceAdvice(r)
-		return r, nil
+	if k == 0 && !unchanged {
+		r.Notes = append(r.Notes, "no change: every spectrum equals the reference within noise, a flat line at zero absorbance; nothing to resolve")
 	}
+	return nil
+}
+
+// resolveAndFit resolves r.Components components, then gives what depends
+// on the resolution: the nuisance advice, EFA and the kinetic fit.
+func resolveAndFit(r *Result, log io.Writer) error {
 	if err := resolve(r, log); err != nil {
-		return nil, err
+		return err
 	}
 	nuisanceAdvice(r) // after the refit test of minor factors, whose verdicts it gives
 	computeEFA(r)
@@ -390,7 +539,7 @@ func run(s *Settings, log io.Writer, hashInputs bool) (_ *Result, err error) {
 		r.Kinetics, r.KineticsErr = nil, err
 		r.Warnings = append(r.Warnings, "kinetics not done: "+err.Error())
 	}
-	return r, nil
+	return nil
 }
 
 // askedComponents is the number of components to resolve before the check
