@@ -937,54 +937,19 @@ func stack(parts []*mat.Dense) *mat.Dense {
 	return out
 }
 
-// resolve runs ALS and stores spectra, profiles and fit.
+// resolve runs ALS and stores spectra, profiles and fit: the start and
+// the constraints, the soft resolution with its nuisances (resolved again
+// with one more component when a minor factor proves a species), the
+// settled solution, hard–soft ALS with --hard-model, then the fit's
+// figures, names and warnings and what is done after (afterResolve). The
+// first data fit runs beside the soft resolution and is waited for here,
+// on every path.
 func resolve(r *Result, log io.Writer) error {
-	s := r.Settings
-	n, _ := r.D.Dims()
-	k := r.Components
-	c0, how, err := initialProfiles(r, k)
+	c0, opt, data, err := startResolution(r, log)
 	if err != nil {
 		return err
 	}
-	r.Init = how
-	opt := mcr.Options{Mode: r.Mode, MaxIter: s.MaxIter, Tolerance: s.Tolerance}
-	opt.Observe = alsProgress(log, s.MaxIter)
-	if r.Mode == mcr.Species && s.Closure != "off" {
-		total, _ := strconv.ParseFloat(s.Closure, 64)
-		opt.Closure, opt.Total = true, []float64{total}
-	}
-	if r.Mode == mcr.Reactions {
-		opt.Ridge = reactionsRidge
-		// Extents are zero at the reference and before the reaction starts.
-		zero := make([]bool, n)
-		for _, e := range r.Experiments {
-			for _, i := range e.RefRows {
-				zero[e.FirstRow+i] = true
-			}
-			for i := 0; i < s.Pre && i < e.Rows; i++ {
-				zero[e.FirstRow+i] = true
-			}
-		}
-		opt.ZeroProfiles = make([][]bool, k)
-		for j := range opt.ZeroProfiles {
-			opt.ZeroProfiles[j] = zero
-		}
-	}
-	if s.EFAWindows == "on" {
-		if err := addEFAWindows(r, &opt); err != nil {
-			return err
-		}
-	}
-	if err := applyConstraints(r, c0, &opt); err != nil {
-		return err
-	}
-	data := alsData(r, k)
-	if opt.Closure {
-		if err := checkClosureRows(r); err != nil {
-			return err
-		}
-	}
-	fmt.Fprintf(log, "resolving %d component(s)\n", k)
+	fmt.Fprintf(log, "resolving %d component(s)\n", r.Components)
 	// The first fit of the data matrix hard–soft may start from needs
 	// nothing of the soft resolution: it runs beside it (earlyDataFit).
 	early := beginEarlyDataFit(r, opt)
@@ -1009,26 +974,13 @@ func resolve(r *Result, log io.Writer) error {
 		early, r.earlyFit = nil, nil
 		return resolve(r, log)
 	}
-	res, data = withoutBaseline(r, data, res, shapes)
-	if res, err = refineBlind(r, data, res, opt, log); err != nil {
-		return explainResolveError(r, err)
-	}
-	res = lowerMinor(r, data, res, opt)
-	if err := checkFinite(res); err != nil {
+	res, data, err = settleResolution(r, data, res, shapes, opt, log)
+	if err != nil {
 		return err
 	}
-	if r.Mode == mcr.Reactions {
-		mcr.ScaleExtentsToOne(res.C, res.S)
-	}
-	order := make([]int, k)
-	for j := range order {
-		order[j] = j
-	}
-	if !r.Constraints.FixedOrder {
-		order = orderComponents(r, res)
-	}
+	order := componentOrder(r, res)
 	r.ALS = res
-	if s.Model != "" && s.HardModel {
+	if r.Settings.Model != "" && r.Settings.HardModel {
 		// Hard–soft: the soft solution fixes the map, then ALS restarts from
 		// it with mcr.Options.HardModel set (see hardSoft).
 		hard, hdata, err := hardSoft(r, data, opt, order, log)
@@ -1043,20 +995,127 @@ func resolve(r *Result, log io.Writer) error {
 	// the residual matrix itself would be one more data-sized matrix
 	// (480 MB at 20 000 × 3000).
 	fitFigures(r, res)
+	nameAndWarn(r, res)
+	return afterResolve(r, data, opt, log)
+}
+
+// startResolution forms what ALS starts from: the initial profiles (r.Init
+// says how they were found), the options with every constraint, and the
+// data as ALS reads it. With closure every row must be able to close.
+func startResolution(r *Result, log io.Writer) (*mat.Dense, mcr.Options, mcr.Data, error) {
+	c0, how, err := initialProfiles(r, r.Components)
+	if err != nil {
+		return nil, mcr.Options{}, nil, err
+	}
+	r.Init = how
+	opt := alsOptions(r, log)
+	if r.Settings.EFAWindows == "on" {
+		if err := addEFAWindows(r, &opt); err != nil {
+			return nil, mcr.Options{}, nil, err
+		}
+	}
+	if err := applyConstraints(r, c0, &opt); err != nil {
+		return nil, mcr.Options{}, nil, err
+	}
+	data := alsData(r, r.Components)
+	if opt.Closure {
+		if err := checkClosureRows(r); err != nil {
+			return nil, mcr.Options{}, nil, err
+		}
+	}
+	return c0, opt, data, nil
+}
+
+// alsOptions are ALS's options before the per-component constraints: the
+// iterations and progress, closure in species mode (--closure), and in
+// reactions mode the ridge and the extents held at zero.
+func alsOptions(r *Result, log io.Writer) mcr.Options {
+	s := r.Settings
+	opt := mcr.Options{Mode: r.Mode, MaxIter: s.MaxIter, Tolerance: s.Tolerance}
+	opt.Observe = alsProgress(log, s.MaxIter)
+	if r.Mode == mcr.Species && s.Closure != "off" {
+		total, _ := strconv.ParseFloat(s.Closure, 64)
+		opt.Closure, opt.Total = true, []float64{total}
+	}
+	if r.Mode == mcr.Reactions {
+		opt.Ridge = reactionsRidge
+		zero := zeroExtentRows(r)
+		opt.ZeroProfiles = make([][]bool, r.Components)
+		for j := range opt.ZeroProfiles {
+			opt.ZeroProfiles[j] = zero
+		}
+	}
+	return opt
+}
+
+// zeroExtentRows marks the rows where every extent is zero: each
+// experiment's reference rows and the rows before its reaction starts
+// (--pre).
+func zeroExtentRows(r *Result) []bool {
+	n, _ := r.D.Dims()
+	zero := make([]bool, n)
+	for _, e := range r.Experiments {
+		for _, i := range e.RefRows {
+			zero[e.FirstRow+i] = true
+		}
+		for i := 0; i < r.Settings.Pre && i < e.Rows; i++ {
+			zero[e.FirstRow+i] = true
+		}
+	}
+	return zero
+}
+
+// settleResolution takes the fitted baseline out of the soft solution and
+// the data, refines the blind points, lowers minor factors that are not
+// species, checks that every value is finite and, in reactions mode,
+// scales each extent to end at one.
+func settleResolution(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dense, opt mcr.Options, log io.Writer) (*mcr.Result, mcr.Data, error) {
+	res, data = withoutBaseline(r, data, res, shapes)
+	res, err := refineBlind(r, data, res, opt, log)
+	if err != nil {
+		return nil, nil, explainResolveError(r, err)
+	}
+	res = lowerMinor(r, data, res, opt)
+	if err := checkFinite(res); err != nil {
+		return nil, nil, err
+	}
+	if r.Mode == mcr.Reactions {
+		mcr.ScaleExtentsToOne(res.C, res.S)
+	}
+	return res, data, nil
+}
+
+// componentOrder is the order the components are reported in: as resolved
+// when the constraints fix it, else orderComponents'.
+func componentOrder(r *Result, res *mcr.Result) []int {
+	order := make([]int, r.Components)
+	for j := range order {
+		order[j] = j
+	}
+	if !r.Constraints.FixedOrder {
+		order = orderComponents(r, res)
+	}
+	return order
+}
+
+// nameAndWarn names the components by the mode (species_j, reaction_j)
+// and adds the resolution's warnings: ALS's own, the components' (alike
+// spectra or profiles), a lack of fit well above the noise's, and the
+// spectra --pre counts as before the reaction that changed already.
+func nameAndWarn(r *Result, res *mcr.Result) {
 	r.Warnings = append(r.Warnings, res.Warnings...)
 	r.Warnings = append(r.Warnings, componentWarnings(res)...)
 	prefix := "species"
 	if r.Mode == mcr.Reactions {
 		prefix = "reaction"
 	}
-	for j := 0; j < k; j++ {
+	for j := 0; j < r.Components; j++ {
 		r.Names = append(r.Names, fmt.Sprintf("%s_%d", prefix, j+1))
 	}
 	if r.NoiseLOF > 0 && r.LackOfFit > 3*r.NoiseLOF && r.LackOfFit > 0.5 {
 		r.Warnings = append(r.Warnings, fmt.Sprintf("lack of fit %.3g %% is well above the %.3g %% noise alone would give: a component may be missing, or a constraint (closure?) does not hold for this data", r.LackOfFit, r.NoiseLOF))
 	}
 	r.Warnings = append(r.Warnings, preWarnings(r)...)
-	return afterResolve(r, data, opt, log)
 }
 
 func sq(x float64) float64 { return x * x }
