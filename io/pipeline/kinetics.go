@@ -1392,117 +1392,170 @@ func (kn *Kinetics) swapCheck(r *Result, best *kinetics.FitResult, spectra *mat.
 	if len(alts) == 0 {
 		return
 	}
-	nnCostAt := func(k, c0 []float64) (float64, bool) {
-		o := opt
-		if kn.FitC0 {
-			o.C0 = c0
-		}
-		v, err := kn.nonNegativeCost(r, k, o)
-		return v, err == nil
-	}
-	nnCost := func(k []float64) (float64, bool) { return nnCostAt(k, best.C0) }
-	bestNN, bestNNok := 0.0, false
-	bestNNdone := false
-	var worseFree, worseNN []string
-	defer func() {
-		// One note each for the alternatives the data reject, with the
-		// figures of every one, against the values finally reported.
-		if len(worseFree) > 0 {
-			*notes = append(*notes, fmt.Sprintf("kinetics: the data fit worse with the rate constants in another order than k = %s (free spectra): %s", kn.kList(best.K), strings.Join(worseFree, "; ")))
-		}
-		if len(worseNN) > 0 {
-			*notes = append(*notes, fmt.Sprintf("kinetics: other orders of the rate constants fit the data as well as k = %s with free spectra but worse with non-negative spectra, which choose the reported order: %s", kn.kList(best.K), strings.Join(worseNN, "; ")))
-		}
-	}()
-	restarted := false
-	var i int
+	sw := &swapSearch{kn: kn, r: r, best: best, spectra: spectra, opt: opt, alts: alts}
+	defer sw.noteRejected(notes)
 	// The refits, and the non-negative costs the loop will ask for while
 	// best stays as it is, made ahead of the loop in its order
 	// (checkAhead); the costs are taken only while best stays (fresh).
-	ahead, fresh := kn.newCheckAhead(r, best, opt, alts, true, nnCostAt), true
-	defer func() { ahead.stop() }()
-	again := func() {
-		fresh = false
-		if !restarted {
-			restarted = true
-			ahead.stop()
-			alts, i = kn.exchanges(best.K), -1
-			ahead, fresh = kn.newCheckAhead(r, best, opt, alts, !bestNNdone, nnCostAt), true
-		}
+	sw.ahead, sw.fresh = kn.newCheckAhead(r, best, opt, alts, true, sw.nnCostAt), true
+	defer func() { sw.ahead.stop() }()
+	for sw.i = 0; sw.i < len(sw.alts); sw.i++ {
+		sw.check()
 	}
-	bestCost := func() (float64, bool) {
-		if !fresh {
-			return nnCost(best.K)
-		}
-		v := ahead.bestCost(func() costValue {
-			v, ok := nnCost(best.K)
-			return costValue{v, ok}
-		})
+}
+
+// swapSearch is swapCheck's state: the reported fit (best, with its
+// spectra, changed in place when an alternative fits better), the
+// exchanged starts and the one being checked, the refits and costs made
+// ahead, and the figures of the alternatives the data reject.
+type swapSearch struct {
+	kn      *Kinetics
+	r       *Result
+	best    *kinetics.FitResult
+	spectra *mat.Dense
+	opt     kinetics.FitOptions
+	alts    [][]float64
+	i       int
+	ahead   *checkAhead
+	// fresh says the costs made ahead are of the current best; restarted
+	// that the check has started over from the reported order's exchanges.
+	fresh, restarted bool
+	// bestNN is best's non-negative cost (bestNNok: it could be made),
+	// once bestNNdone.
+	bestNN               float64
+	bestNNok, bestNNdone bool
+	worseFree, worseNN   []string
+}
+
+// nnCostAt is the non-negative cost of rate constants k, with the initial
+// concentrations c0 when they are fitted (kinetics.NonNegativeCost).
+func (sw *swapSearch) nnCostAt(k, c0 []float64) (float64, bool) {
+	o := sw.opt
+	if sw.kn.FitC0 {
+		o.C0 = c0
+	}
+	v, err := sw.kn.nonNegativeCost(sw.r, k, o)
+	return v, err == nil
+}
+
+// nnCost is the non-negative cost of k with best's initial concentrations.
+func (sw *swapSearch) nnCost(k []float64) (float64, bool) { return sw.nnCostAt(k, sw.best.C0) }
+
+// bestCost is best's non-negative cost, made ahead while it is fresh.
+func (sw *swapSearch) bestCost() (float64, bool) {
+	if !sw.fresh {
+		return sw.nnCost(sw.best.K)
+	}
+	v := sw.ahead.bestCost(func() costValue {
+		v, ok := sw.nnCost(sw.best.K)
+		return costValue{v, ok}
+	})
+	return v.v, v.ok
+}
+
+// altCost is the non-negative cost of the refit from alts[i], made ahead
+// while the costs are fresh.
+func (sw *swapSearch) altCost(fit *kinetics.FitResult) (float64, bool) {
+	if v, ok := sw.ahead.cost(sw.i, fit); ok && sw.fresh {
 		return v.v, v.ok
 	}
-	altCost := func(fit *kinetics.FitResult) (float64, bool) {
-		if v, ok := ahead.cost(i, fit); ok && fresh {
-			return v.v, v.ok
-		}
-		return nnCost(fit.K)
+	return sw.nnCost(fit.K)
+}
+
+// again starts the check over, once, from the exchanges of the order now
+// reported, with refits and costs made ahead for it.
+func (sw *swapSearch) again() {
+	sw.fresh = false
+	if !sw.restarted {
+		sw.restarted = true
+		sw.ahead.stop()
+		sw.alts, sw.i = sw.kn.exchanges(sw.best.K), -1
+		sw.ahead, sw.fresh = sw.kn.newCheckAhead(sw.r, sw.best, sw.opt, sw.alts, !sw.bestNNdone, sw.nnCostAt), true
 	}
-	for i = 0; i < len(alts); i++ {
-		o := opt
-		o.InitialK = alts[i]
-		alt, altSpectra, err := kn.refit(r, best, o, ahead.job(i))
-		if err != nil || !(best.Sigma > 0) {
-			continue
-		}
-		if sameK(alt.K, best.K) {
-			continue // the exchanged start led back to the same answer
-		}
-		s2 := best.Sigma * best.Sigma
-		free := tieToZero((alt.SSR-best.SSR)/s2, best.SSR/s2)
-		ks := kn.kList(alt.K)
-		what := fmt.Sprintf("k = %s instead of %s", ks, kn.kList(best.K))
-		if free < -4 {
-			old, oldSSR := kn.kList(best.K), best.SSR
-			*best, *spectra = *alt, *altSpectra
-			// alt may be kept for the next check: best's warnings are its own.
-			best.Warnings = append([]string(nil), alt.Warnings...)
-			worseFree, worseNN = nil, nil // their figures were against the old values
-			best.Warnings = append(best.Warnings, fmt.Sprintf("the data fit better with k = %s than with %s, the order the resolved profiles pointed to (free spectra: residual sum of squares %.4g times lower, %.3g noise variances); the better values are reported", ks, old, oldSSR/best.SSR, -free))
-			bestNNdone = false
-			fresh = false
-			again()
-			continue
-		}
-		if free > 4 {
-			worseFree = append(worseFree, fmt.Sprintf("%s: residual sum of squares %.4g times higher (%.3g noise variances)", ks, alt.SSR/best.SSR, free))
-			continue
-		}
-		// Free spectra cannot choose: non-negative spectra may.
-		if !bestNNdone {
-			bestNN, bestNNok = bestCost()
-			bestNNdone = true
-		}
-		altNN, ok := kn.recallCost(alt, func() (float64, bool) { return altCost(alt) })
-		if !ok || !bestNNok {
-			best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell the order of the rate constants: %s fits as well with free spectra (%.2g noise variances); the reported values are the ones the resolved profiles point to", what, free))
-			continue
-		}
-		nn := (alt.SSR + altNN - best.SSR - bestNN) / s2
-		switch {
-		case nn < -4:
-			old := kn.kList(best.K)
-			oldNN := best.SSR + bestNN
-			*best, *spectra = *alt, *altSpectra
-			best.Warnings = append([]string(nil), alt.Warnings...)
-			bestNN = altNN
-			fresh = false
-			worseFree, worseNN = nil, nil
-			best.Warnings = append(best.Warnings, fmt.Sprintf("with free spectra k = %s and %s fit the data as well (%.2g noise variances), but with non-negative spectra k = %s fits better (residual sum of squares %.4g times lower, %.3g noise variances): it is reported; the resolved profiles pointed the other way", ks, old, free, ks, oldNN/(best.SSR+altNN), -nn))
-			again()
-		case nn > 4:
-			worseNN = append(worseNN, fmt.Sprintf("%s: %.2g noise variances with free spectra, with non-negative spectra a residual sum of squares %.4g times higher (%.3g noise variances)", ks, free, (alt.SSR+altNN)/(best.SSR+bestNN), nn))
-		default:
-			best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell the order of the rate constants: %s fits as well, with free spectra (%.2g noise variances) and with non-negative ones (%.2g noise variances; slow–fast ambiguity); the reported values are the ones the resolved profiles point to", what, free, nn))
-		}
+}
+
+// check refits the data from the exchanged start alts[i] and compares the
+// refit with best, first with free spectra, then, when those cannot
+// choose, with non-negative ones.
+func (sw *swapSearch) check() {
+	best := sw.best
+	o := sw.opt
+	o.InitialK = sw.alts[sw.i]
+	alt, altSpectra, err := sw.kn.refit(sw.r, best, o, sw.ahead.job(sw.i))
+	if err != nil || !(best.Sigma > 0) {
+		return
+	}
+	if sameK(alt.K, best.K) {
+		return // the exchanged start led back to the same answer
+	}
+	s2 := best.Sigma * best.Sigma
+	free := tieToZero((alt.SSR-best.SSR)/s2, best.SSR/s2)
+	switch {
+	case free < -4:
+		ks, old, oldSSR := sw.kn.kList(alt.K), sw.kn.kList(best.K), best.SSR
+		sw.adopt(alt, altSpectra)
+		best.Warnings = append(best.Warnings, fmt.Sprintf("the data fit better with k = %s than with %s, the order the resolved profiles pointed to (free spectra: residual sum of squares %.4g times lower, %.3g noise variances); the better values are reported", ks, old, oldSSR/best.SSR, -free))
+		sw.bestNNdone = false
+		sw.again()
+	case free > 4:
+		sw.worseFree = append(sw.worseFree, fmt.Sprintf("%s: residual sum of squares %.4g times higher (%.3g noise variances)", sw.kn.kList(alt.K), alt.SSR/best.SSR, free))
+	default:
+		sw.compareNonNegative(alt, altSpectra, free)
+	}
+}
+
+// compareNonNegative compares alt, which fits as well as best with free
+// spectra (free noise variances apart), with non-negative spectra.
+func (sw *swapSearch) compareNonNegative(alt *kinetics.FitResult, altSpectra *mat.Dense, free float64) {
+	best := sw.best
+	s2 := best.Sigma * best.Sigma
+	ks := sw.kn.kList(alt.K)
+	what := fmt.Sprintf("k = %s instead of %s", ks, sw.kn.kList(best.K))
+	if !sw.bestNNdone {
+		sw.bestNN, sw.bestNNok = sw.bestCost()
+		sw.bestNNdone = true
+	}
+	altNN, ok := sw.kn.recallCost(alt, func() (float64, bool) { return sw.altCost(alt) })
+	if !ok || !sw.bestNNok {
+		best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell the order of the rate constants: %s fits as well with free spectra (%.2g noise variances); the reported values are the ones the resolved profiles point to", what, free))
+		return
+	}
+	nn := (alt.SSR + altNN - best.SSR - sw.bestNN) / s2
+	switch {
+	case nn < -4:
+		old := sw.kn.kList(best.K)
+		oldNN := best.SSR + sw.bestNN
+		sw.adopt(alt, altSpectra)
+		sw.bestNN = altNN
+		best.Warnings = append(best.Warnings, fmt.Sprintf("with free spectra k = %s and %s fit the data as well (%.2g noise variances), but with non-negative spectra k = %s fits better (residual sum of squares %.4g times lower, %.3g noise variances): it is reported; the resolved profiles pointed the other way", ks, old, free, ks, oldNN/(best.SSR+altNN), -nn))
+		sw.again()
+	case nn > 4:
+		sw.worseNN = append(sw.worseNN, fmt.Sprintf("%s: %.2g noise variances with free spectra, with non-negative spectra a residual sum of squares %.4g times higher (%.3g noise variances)", ks, free, (alt.SSR+altNN)/(best.SSR+sw.bestNN), nn))
+	default:
+		best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell the order of the rate constants: %s fits as well, with free spectra (%.2g noise variances) and with non-negative ones (%.2g noise variances; slow–fast ambiguity); the reported values are the ones the resolved profiles point to", what, free, nn))
+	}
+}
+
+// adopt reports alt in best's place. alt may be kept for the next check,
+// so best's warnings are a copy of its own; the figures of the rejected
+// alternatives were against the old values, and the costs made ahead are
+// of the old best.
+func (sw *swapSearch) adopt(alt *kinetics.FitResult, altSpectra *mat.Dense) {
+	*sw.best, *sw.spectra = *alt, *altSpectra
+	sw.best.Warnings = append([]string(nil), alt.Warnings...)
+	sw.worseFree, sw.worseNN = nil, nil
+	sw.fresh = false
+}
+
+// noteRejected adds one note each for the alternatives the data reject,
+// with the figures of every one, against the values finally reported.
+func (sw *swapSearch) noteRejected(notes *[]string) {
+	kn, best := sw.kn, sw.best
+	if len(sw.worseFree) > 0 {
+		*notes = append(*notes, fmt.Sprintf("kinetics: the data fit worse with the rate constants in another order than k = %s (free spectra): %s", kn.kList(best.K), strings.Join(sw.worseFree, "; ")))
+	}
+	if len(sw.worseNN) > 0 {
+		*notes = append(*notes, fmt.Sprintf("kinetics: other orders of the rate constants fit the data as well as k = %s with free spectra but worse with non-negative spectra, which choose the reported order: %s", kn.kList(best.K), strings.Join(sw.worseNN, "; ")))
 	}
 }
 
