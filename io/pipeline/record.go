@@ -300,87 +300,24 @@ type InputFile struct {
 	SHA256 string `json:"sha256"`
 }
 
+// makeManifest forms the manifest of a run: who ran it, when and where,
+// then the SHA-256 of every input it read (the data files, each file of a
+// data folder, the files other settings name, the known spectra) and of
+// the files the command supplied.
 func makeManifest(r *Result, stage *output.Stage, out, base string) (*Manifest, error) {
-	s := r.Settings
-	started := r.Started
-	if started.IsZero() {
-		started = time.Now()
-	}
-	m := &Manifest{Tool: "bandsolve", Version: Version, Record: RecordName, Seed: s.Seed,
-		Started: started.UTC().Format(time.RFC3339),
-		Host:    Host{Commit: Commit(), GoVersion: runtime.Version(), OS: runtime.GOOS, Arch: runtime.GOARCH},
-		Note: "bandsolve verify compares every file of this folder byte for byte except this manifest and the " +
-			"inputs and supplied files listed here, whose SHA-256 it checks instead"}
+	m := newManifest(r)
 	sd, _ := filepath.Abs(stage.Dir)
-	seen := map[string]bool{}
-	list := &m.Inputs
-	// An input named by an absolute path is listed by it, as the record
-	// names it: such a folder verifies only where that path exists.
-	add := func(p string, absolute bool) error {
-		abs, err := filepath.Abs(p)
-		if err != nil {
-			return err
-		}
-		// Inputs inside the stage (the demo's) are read from where they will be.
-		if rel, err := filepath.Rel(sd, abs); err == nil && !escapes(rel) {
-			abs = filepath.Join(out, rel)
-			p = filepath.Join(sd, rel)
-		}
-		name := relSlash(out, abs)
-		if absolute {
-			name = filepath.ToSlash(abs)
-		}
-		if seen[name] {
-			return nil
-		}
-		seen[name] = true
-		n, sum, err := r.inputSums.hash(p)
-		if err != nil {
-			return fmt.Errorf("manifest: %w", err)
-		}
-		*list = append(*list, InputFile{Path: name, Bytes: n, SHA256: sum})
-		return nil
+	inputs := &manifestFiles{r: r, stageDir: sd, out: out, seen: map[string]bool{}, list: &m.Inputs}
+	if err := inputs.addData(r); err != nil {
+		return nil, err
 	}
-	for i, d := range s.Data {
-		p := s.Path(d)
-		st, err := os.Stat(p)
-		if err != nil {
-			return nil, fmt.Errorf("manifest: %w", err)
-		}
-		if st.IsDir() && i < len(r.Experiments) && r.Experiments[i].Series != nil {
-			for _, f := range r.Experiments[i].Series.Names {
-				if err := add(f, filepath.IsAbs(d)); err != nil {
-					return nil, err
-				}
-			}
-			continue
-		}
-		if err := add(p, filepath.IsAbs(d)); err != nil {
-			return nil, err
-		}
-	}
-	for _, o := range Options() {
-		if o.Name == "data" || keyword(o).Path != cmdfile.ReadPath {
-			continue
-		}
-		for _, v := range s.Get(o.Name) {
-			if IsPath(o.Name, v) {
-				if err := add(s.Path(v), filepath.IsAbs(v)); err != nil {
-					return nil, err
-				}
-			}
-		}
-	}
-	for _, f := range knownSpectrumFiles(s) {
-		if err := add(s.Path(f), filepath.IsAbs(f)); err != nil {
-			return nil, err
-		}
+	if err := inputs.addSettingFiles(r.Settings); err != nil {
+		return nil, err
 	}
 	// Supplied files are listed whether or not the analysis read them.
-	seen = map[string]bool{}
-	list = &m.Supplied
+	supplied := &manifestFiles{r: r, stageDir: sd, out: out, seen: map[string]bool{}, list: &m.Supplied}
 	for _, f := range r.Supplied {
-		if err := add(filepath.Join(stage.Dir, f), false); err != nil {
+		if err := supplied.add(filepath.Join(stage.Dir, f), false); err != nil {
 			return nil, err
 		}
 	}
@@ -391,6 +328,108 @@ func makeManifest(r *Result, stage *output.Stage, out, base string) (*Manifest, 
 		m.Supplied = []InputFile{}
 	}
 	return m, nil
+}
+
+// newManifest is the manifest's head: the tool, the record's name, the
+// seed, the start and the host.
+func newManifest(r *Result) *Manifest {
+	started := r.Started
+	if started.IsZero() {
+		started = time.Now()
+	}
+	return &Manifest{Tool: "bandsolve", Version: Version, Record: RecordName, Seed: r.Settings.Seed,
+		Started: started.UTC().Format(time.RFC3339),
+		Host:    Host{Commit: Commit(), GoVersion: runtime.Version(), OS: runtime.GOOS, Arch: runtime.GOARCH},
+		Note: "bandsolve verify compares every file of this folder byte for byte except this manifest and the " +
+			"inputs and supplied files listed here, whose SHA-256 it checks instead"}
+}
+
+// manifestFiles is one list of the manifest's files being filled: each
+// file once, named relative to the output folder out, hashed by the run's
+// inputSums. stageDir is the stage's absolute path.
+type manifestFiles struct {
+	r             *Result
+	stageDir, out string
+	seen          map[string]bool
+	list          *[]InputFile
+}
+
+// add lists the file at p, unless listed already. An input named by an
+// absolute path is listed by it, as the record names it: such a folder
+// verifies only where that path exists.
+func (l *manifestFiles) add(p string, absolute bool) error {
+	abs, err := filepath.Abs(p)
+	if err != nil {
+		return err
+	}
+	// Inputs inside the stage (the demo's) are read from where they will be.
+	if rel, err := filepath.Rel(l.stageDir, abs); err == nil && !escapes(rel) {
+		abs = filepath.Join(l.out, rel)
+		p = filepath.Join(l.stageDir, rel)
+	}
+	name := relSlash(l.out, abs)
+	if absolute {
+		name = filepath.ToSlash(abs)
+	}
+	if l.seen[name] {
+		return nil
+	}
+	l.seen[name] = true
+	n, sum, err := l.r.inputSums.hash(p)
+	if err != nil {
+		return fmt.Errorf("manifest: %w", err)
+	}
+	*l.list = append(*l.list, InputFile{Path: name, Bytes: n, SHA256: sum})
+	return nil
+}
+
+// addData lists each --data input: a file itself, a folder by the
+// spectrum files its experiment read.
+func (l *manifestFiles) addData(r *Result) error {
+	s := r.Settings
+	for i, d := range s.Data {
+		p := s.Path(d)
+		st, err := os.Stat(p)
+		if err != nil {
+			return fmt.Errorf("manifest: %w", err)
+		}
+		if st.IsDir() && i < len(r.Experiments) && r.Experiments[i].Series != nil {
+			for _, f := range r.Experiments[i].Series.Names {
+				if err := l.add(f, filepath.IsAbs(d)); err != nil {
+					return err
+				}
+			}
+			continue
+		}
+		if err := l.add(p, filepath.IsAbs(d)); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// addSettingFiles lists the files the other settings read (those whose
+// keyword reads a path: blank, times, reference, init) and the known
+// spectra.
+func (l *manifestFiles) addSettingFiles(s *Settings) error {
+	for _, o := range Options() {
+		if o.Name == "data" || keyword(o).Path != cmdfile.ReadPath {
+			continue
+		}
+		for _, v := range s.Get(o.Name) {
+			if IsPath(o.Name, v) {
+				if err := l.add(s.Path(v), filepath.IsAbs(v)); err != nil {
+					return err
+				}
+			}
+		}
+	}
+	for _, f := range knownSpectrumFiles(s) {
+		if err := l.add(s.Path(f), filepath.IsAbs(f)); err != nil {
+			return err
+		}
+	}
+	return nil
 }
 
 // knownSpectrumFiles are the files --known-spectrum COMPONENT=FILE[:WEIGHT]
