@@ -818,26 +818,66 @@ func (s *solver) recover(c int, x *mat.Dense, cause error) error {
 // recoverExact is recover's Lawson–Hanson step; false when it does not
 // apply (unconstrained variables) or fails.
 func (s *solver) recoverExact(c int, x *mat.Dense) bool {
+	idx, fv, ok := s.recoverFree(c)
+	if !ok {
+		return false
+	}
+	l, rhs, diag := s.freeGramBlock(idx, fv)
+	if !(diag > 0) || !choleskyRidged(l, len(idx), diag) {
+		return false
+	}
+	a, d, ok := s.squareRootProblem(c, idx, fv, l, rhs, diag)
+	if !ok {
+		return false
+	}
+	sol, err := NNLS(a, d)
+	if err != nil {
+		return false
+	}
+	out := append([]float64(nil), fv...)
+	var mask uint64
+	for q, j := range idx {
+		out[j] = sol[q]
+		if sol[q] > 0 {
+			mask |= 1 << uint(j)
+		}
+	}
+	if s.p.Equality != nil && mask != 0 {
+		s.polishClosure(c, mask, fv, out)
+	}
+	s.put(x, c, out)
+	if s.p.Passive != nil {
+		s.p.Passive[c] = mask
+	}
+	return true
+}
+
+// recoverFree lists column c's free variables (idx) and holds the fixed
+// ones' values (fv, zero for the free); false when a free variable is
+// unconstrained, which Lawson–Hanson does not take, or none is free.
+func (s *solver) recoverFree(c int) (idx []int, fv []float64, ok bool) {
 	k := s.k
-	var idx []int
-	fv := make([]float64, k)
+	fv = make([]float64, k)
 	for j := 0; j < k; j++ {
 		if s.p.FixMask != nil && s.p.FixMask[j] != nil && s.p.FixMask[j][c] {
 			fv[j] = s.p.Fixed.At(j, c)
 			continue
 		}
 		if !s.nonneg(j) {
-			return false
+			return nil, nil, false
 		}
 		idx = append(idx, j)
 	}
-	np := len(idx)
-	if np == 0 {
-		return false
-	}
-	l := make([]float64, np*np)
-	rhs := make([]float64, np)
-	diag := 0.0
+	return idx, fv, len(idx) > 0
+}
+
+// freeGramBlock is the Gram block of the free variables (row-major), their
+// right-hand side with the fixed variables' share taken off, and the
+// block's largest diagonal entry (the ridges' and closure weight's scale).
+func (s *solver) freeGramBlock(idx []int, fv []float64) (l, rhs []float64, diag float64) {
+	k, np := s.k, len(idx)
+	l = make([]float64, np*np)
+	rhs = make([]float64, np)
 	for a, ja := range idx {
 		for b, jb := range idx {
 			l[a*np+b] = s.g[ja*k+jb]
@@ -848,9 +888,14 @@ func (s *solver) recoverExact(c int, x *mat.Dense) bool {
 			rhs[a] -= s.g[ja*k+j] * fv[j]
 		}
 	}
-	if !(diag > 0) {
-		return false
-	}
+	return l, rhs, diag
+}
+
+// choleskyRidged factors the np × np block l in place, L Lᵀ, adding a
+// ridge of 1e-14, 1e-12, … 1e-8 times diag to the diagonal when rounding
+// leaves it not positive definite (collinear components); false when even
+// the largest ridge does not.
+func choleskyRidged(l []float64, np int, diag float64) bool {
 	g0 := append([]float64(nil), l...)
 	ok := cholesky(l, np)
 	for ridge := 1e-14; !ok && ridge <= 1e-8; ridge *= 100 {
@@ -860,10 +905,17 @@ func (s *solver) recoverExact(c int, x *mat.Dense) bool {
 		}
 		ok = cholesky(l, np)
 	}
-	if !ok {
-		return false
-	}
-	// d = L⁻¹ b (forward substitution); A = Lᵀ.
+	return ok
+}
+
+// squareRootProblem is the least-squares problem ‖A x − d‖² with A = Lᵀ
+// and d = L⁻¹ rhs (forward substitution), whose normal equations are the
+// block's; with closure, one more row w·a = w·(total − fixed share),
+// with w = 10⁴·√diag over the largest closure weight, heavy against the
+// block so that closure nearly holds (Lawson & Hanson's weighting). False when the closure weights of the
+// free variables are not positive.
+func (s *solver) squareRootProblem(c int, idx []int, fv, l, rhs []float64, diag float64) (*mat.Dense, []float64, bool) {
+	np := len(idx)
 	rows := np
 	if s.p.Equality != nil {
 		rows++
@@ -880,55 +932,41 @@ func (s *solver) recoverExact(c int, x *mat.Dense) bool {
 			a.Set(j, i, l[i*np+j])
 		}
 	}
-	if s.p.Equality != nil {
-		target := s.total(c)
-		amax := 0.0
-		for j := 0; j < k; j++ {
-			target -= s.p.Equality[j] * fv[j]
-		}
-		for _, j := range idx {
-			amax = math.Max(amax, s.p.Equality[j])
-		}
-		if !(amax > 0) {
-			return false
-		}
-		w := 1e4 * math.Sqrt(diag) / amax
-		for q, j := range idx {
-			a.Set(np, q, w*s.p.Equality[j])
-		}
-		d[np] = w * target
+	if s.p.Equality == nil {
+		return a, d, true
 	}
-	sol, err := NNLS(a, d)
-	if err != nil {
-		return false
+	target := s.total(c)
+	amax := 0.0
+	for j := 0; j < s.k; j++ {
+		target -= s.p.Equality[j] * fv[j]
 	}
-	out := append([]float64(nil), fv...)
-	var mask uint64
+	for _, j := range idx {
+		amax = math.Max(amax, s.p.Equality[j])
+	}
+	if !(amax > 0) {
+		return nil, nil, false
+	}
+	w := 1e4 * math.Sqrt(diag) / amax
 	for q, j := range idx {
-		out[j] = sol[q]
-		if sol[q] > 0 {
-			mask |= 1 << uint(j)
+		a.Set(np, q, w*s.p.Equality[j])
+	}
+	d[np] = w * target
+	return a, d, true
+}
+
+// polishClosure replaces out by the exact closure-constrained minimiser on
+// Lawson–Hanson's passive set when that stays feasible: the weighted row
+// holds closure only nearly, the passive set's minimiser exactly.
+func (s *solver) polishClosure(c int, mask uint64, fv, out []float64) {
+	s.setFixed(fv)
+	z, _, err := s.solvePassive(mask, c, fv)
+	if err != nil {
+		return
+	}
+	for j := 0; j < s.k; j++ {
+		if mask&(1<<uint(j)) != 0 && z[j] < 0 {
+			return
 		}
 	}
-	if s.p.Equality != nil && mask != 0 {
-		// Polish: the exact closure-constrained minimiser on LH's passive
-		// set, kept when it stays feasible.
-		s.setFixed(fv)
-		if z, _, err := s.solvePassive(mask, c, fv); err == nil {
-			feasible := true
-			for j := 0; j < k; j++ {
-				if mask&(1<<uint(j)) != 0 && z[j] < 0 {
-					feasible = false
-				}
-			}
-			if feasible {
-				copy(out, z)
-			}
-		}
-	}
-	s.put(x, c, out)
-	if s.p.Passive != nil {
-		s.p.Passive[c] = mask
-	}
-	return true
+	copy(out, z)
 }
