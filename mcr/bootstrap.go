@@ -60,68 +60,15 @@ func Bootstrap(d *mat.Dense, fit *Result, opt Options, bo BootstrapOptions) (*In
 	}
 	n, m := d.Dims()
 	_, k := fit.C.Dims()
-	var model, resid mat.Dense
-	model.Mul(fit.C, fit.S.T())
-	resid.Sub(d, &model)
-	blocks := bo.Blocks
-	if len(blocks) == 0 {
-		blocks = []int{0}
+	rs := resampling{n: n, fit: fit, opt: opt, bo: bo, blocks: bo.Blocks}
+	rs.model.Mul(fit.C, fit.S.T())
+	rs.resid.Sub(d, &rs.model)
+	if len(rs.blocks) == 0 {
+		rs.blocks = []int{0}
 	}
-	type rep struct {
-		c, s *mat.Dense
-		err  error
-	}
-	reps := make([]rep, bo.Replicates)
-	var wg sync.WaitGroup
-	next := make(chan int, bo.Replicates)
-	for r := 0; r < bo.Replicates; r++ {
-		next <- r
-	}
-	close(next)
-	workers := min(runtime.GOMAXPROCS(0), bo.Replicates)
-	var fault fanout.Fault // a replicate's panic, raised again below
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			r := 0
-			defer fault.Catch(&r)
-			for r = range next {
-				rng := rand.New(rand.NewPCG(bo.Seed, uint64(r)+1))
-				ds := mat.DenseCopyOf(&model)
-				for b, lo := range blocks {
-					hi := n
-					if b+1 < len(blocks) {
-						hi = blocks[b+1]
-					}
-					for i := lo; i < hi; i++ {
-						src := lo + rng.IntN(hi-lo)
-						row := ds.RawRowView(i)
-						er := resid.RawRowView(src)
-						for j := range row {
-							row[j] += er[j]
-						}
-					}
-				}
-				o := opt
-				o.Observe = nil
-				res, err := Resolve(Dense{ds}, fit.C, o)
-				if err != nil {
-					reps[r].err = err
-					continue
-				}
-				c, s := matchComponents(fit, res.C, res.S)
-				if !bo.KeepScale {
-					rescaleToFit(fit.S, c, s)
-				}
-				reps[r] = rep{c: c, s: s}
-			}
-		}()
-	}
-	wg.Wait()
-	fault.Raise()
+	reps := rs.resolveAll()
 	out := &Intervals{Level: bo.Level}
-	var good []rep
+	var good []replicate
 	for _, r := range reps {
 		if r.err != nil {
 			out.Failed++
@@ -131,35 +78,129 @@ func Bootstrap(d *mat.Dense, fit *Result, opt Options, bo BootstrapOptions) (*In
 	}
 	out.Replicates = len(good)
 	if len(good) < 2 {
-		var first error
-		for _, r := range reps {
-			if r.err != nil {
-				first = r.err
-				break
-			}
-		}
-		return nil, fmt.Errorf("bootstrap: only %d of %d replicates resolved: %w", len(good), bo.Replicates, first)
+		return nil, fmt.Errorf("bootstrap: only %d of %d replicates resolved: %w", len(good), bo.Replicates, firstFailure(reps))
 	}
 	lo, hi := (1-bo.Level)/2, (1+bo.Level)/2
-	summarise := func(rows int, get func(r rep) *mat.Dense) (low, high, sd *mat.Dense) {
-		low, high, sd = mat.NewDense(rows, k, nil), mat.NewDense(rows, k, nil), mat.NewDense(rows, k, nil)
-		vals := make([]float64, len(good))
-		for i := 0; i < rows; i++ {
-			for j := 0; j < k; j++ {
-				for q, r := range good {
-					vals[q] = get(r).At(i, j)
-				}
-				sort.Float64s(vals)
-				low.Set(i, j, quantile7(vals, lo))
-				high.Set(i, j, quantile7(vals, hi))
-				sd.Set(i, j, stdDev(vals))
+	out.SpectraLow, out.SpectraHigh, out.SpectraSD = percentiles(good, m, k, lo, hi, func(r replicate) *mat.Dense { return r.s })
+	out.ProfilesLow, out.ProfilesHigh, out.ProfilesSD = percentiles(good, n, k, lo, hi, func(r replicate) *mat.Dense { return r.c })
+	return out, nil
+}
+
+// resampling is what the bootstrap's replicates share: the fitted model
+// C Sᵀ, its residual, the experiments' first rows, and the settings.
+type resampling struct {
+	n            int // rows of the data
+	model, resid mat.Dense
+	blocks       []int // first row of each experiment
+	fit          *Result
+	opt          Options
+	bo           BootstrapOptions
+}
+
+// replicate is one resampled resolution's profiles and spectra, matched to
+// the fit's components, or why it failed.
+type replicate struct {
+	c, s *mat.Dense
+	err  error
+}
+
+// resolveAll resolves the replicates on up to GOMAXPROCS goroutines, each
+// taking the next replicate number; a replicate's panic is raised again
+// here.
+func (rs *resampling) resolveAll() []replicate {
+	reps := make([]replicate, rs.bo.Replicates)
+	var wg sync.WaitGroup
+	next := make(chan int, rs.bo.Replicates)
+	for r := 0; r < rs.bo.Replicates; r++ {
+		next <- r
+	}
+	close(next)
+	workers := min(runtime.GOMAXPROCS(0), rs.bo.Replicates)
+	var fault fanout.Fault // a replicate's panic, raised again below
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			r := 0
+			defer fault.Catch(&r)
+			for r = range next {
+				reps[r] = rs.resolveReplicate(r)
+			}
+		}()
+	}
+	wg.Wait()
+	fault.Raise()
+	return reps
+}
+
+// resolveReplicate draws replicate r's data from its own PCG stream
+// (seed, r+1), so that it does not depend on which goroutine takes it,
+// resolves it from the fit's profiles and matches its components to the
+// fit's (rescaled to them unless KeepScale).
+func (rs *resampling) resolveReplicate(r int) replicate {
+	rng := rand.New(rand.NewPCG(rs.bo.Seed, uint64(r)+1))
+	ds := rs.resampled(rng)
+	o := rs.opt
+	o.Observe = nil
+	res, err := Resolve(Dense{ds}, rs.fit.C, o)
+	if err != nil {
+		return replicate{err: err}
+	}
+	c, s := matchComponents(rs.fit, res.C, res.S)
+	if !rs.bo.KeepScale {
+		rescaleToFit(rs.fit.S, c, s)
+	}
+	return replicate{c: c, s: s}
+}
+
+// resampled is D* = C Sᵀ + E*: each row gets the residual spectrum of a row
+// drawn with replacement from its own experiment.
+func (rs *resampling) resampled(rng *rand.Rand) *mat.Dense {
+	ds := mat.DenseCopyOf(&rs.model)
+	for b, lo := range rs.blocks {
+		hi := rs.n
+		if b+1 < len(rs.blocks) {
+			hi = rs.blocks[b+1]
+		}
+		for i := lo; i < hi; i++ {
+			src := lo + rng.IntN(hi-lo)
+			row := ds.RawRowView(i)
+			er := rs.resid.RawRowView(src)
+			for j := range row {
+				row[j] += er[j]
 			}
 		}
-		return
 	}
-	out.SpectraLow, out.SpectraHigh, out.SpectraSD = summarise(m, func(r rep) *mat.Dense { return r.s })
-	out.ProfilesLow, out.ProfilesHigh, out.ProfilesSD = summarise(n, func(r rep) *mat.Dense { return r.c })
-	return out, nil
+	return ds
+}
+
+// firstFailure is the error of the first replicate that failed, nil none.
+func firstFailure(reps []replicate) error {
+	for _, r := range reps {
+		if r.err != nil {
+			return r.err
+		}
+	}
+	return nil
+}
+
+// percentiles are the per-point lo and hi quantiles and the standard
+// deviation over the replicates of the rows × k matrix get picks.
+func percentiles(good []replicate, rows, k int, lo, hi float64, get func(r replicate) *mat.Dense) (low, high, sd *mat.Dense) {
+	low, high, sd = mat.NewDense(rows, k, nil), mat.NewDense(rows, k, nil), mat.NewDense(rows, k, nil)
+	vals := make([]float64, len(good))
+	for i := 0; i < rows; i++ {
+		for j := 0; j < k; j++ {
+			for q, r := range good {
+				vals[q] = get(r).At(i, j)
+			}
+			sort.Float64s(vals)
+			low.Set(i, j, quantile7(vals, lo))
+			high.Set(i, j, quantile7(vals, hi))
+			sd.Set(i, j, stdDev(vals))
+		}
+	}
+	return low, high, sd
 }
 
 // quantile7 is the sample quantile of sorted x by linear interpolation
