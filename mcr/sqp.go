@@ -56,61 +56,26 @@ type sqpResult struct {
 // and its steps shrink to the valley's width (docs/performance.md). SQP
 // follows the boundary through its linearisation instead.
 func minimiseSQP(f constrainedObjective, x0 []float64, o sqpOptions) sqpResult {
-	n := len(x0)
-	x := append([]float64(nil), x0...)
-	g, c, ok := f.evaluate(x)
-	evals := 1
-	if !ok {
-		return sqpResult{x: x, g: g, c: c, evals: evals}
+	var sq sqpSearch
+	if !sq.start(f, x0) {
+		return sq.result(false)
 	}
-	gg, gc := make([]float64, n), make([]float64, n)
-	f.gradients(gg, gc)
-	bm := make([]float64, n*n)   // B, row-major
-	chol := make([]float64, n*n) // its Cholesky factor
-	// B starts as a multiple of I whose step moves x by 0.01 (the
-	// rotation's entries are of order 1): a unit-free start.
-	resetB := func(scale float64) {
-		clear(bm)
-		for i := 0; i < n; i++ {
-			bm[i*n+i] = scale
-		}
-	}
-	gn := math.Sqrt(dot(gg, gg))
-	resetB(math.Max(gn, 1e-8) / 0.01)
-	p, q, d := make([]float64, n), make([]float64, n), make([]float64, n)
-	xn, ggn, gcn := make([]float64, n), make([]float64, n), make([]float64, n)
-	s, y, bs := make([]float64, n), make([]float64, n), make([]float64, n)
-	nu := 0.0
-	first := true
+	first := true // B was just reset
 	for {
-		if !sqpCholesky(bm, chol, n) {
-			resetB(math.Max(math.Sqrt(dot(gg, gg)), 1e-8) / 0.01)
-			sqpCholesky(bm, chol, n)
+		sq.factorModel()
+		lambda := sq.setStep()
+		gd := dot(sq.gg, sq.d)
+		if math.Abs(gd)+lambda*math.Abs(sq.c) <= o.tol && sq.c <= o.tol {
+			return sq.result(true)
 		}
-		sqpCholSolve(chol, gg, p, n) // B⁻¹∇g
-		sqpCholSolve(chol, gc, q, n) // B⁻¹∇c
-		lambda := 0.0
-		for i := range d {
-			d[i] = -p[i]
-		}
-		if cq := dot(gc, q); c+dot(gc, d) > 0 && cq > 0 {
-			lambda = (c - dot(gc, p)) / cq
-			for i := range d {
-				d[i] = -p[i] - lambda*q[i]
-			}
-		}
-		gd := dot(gg, d)
-		if math.Abs(gd)+lambda*math.Abs(c) <= o.tol && c <= o.tol {
-			return sqpResult{x: x, g: g, c: c, evals: evals, converged: true}
-		}
-		if evals >= o.maxEval {
+		if sq.evals >= o.maxEval {
 			break
 		}
-		if nu < 1.1*lambda {
-			nu = 2 * lambda
+		if sq.nu < 1.1*lambda {
+			sq.nu = 2 * lambda
 		}
-		phi := g + nu*math.Max(0, c)
-		slope := gd - nu*math.Max(0, c) // directional derivative of the merit
+		phi := sq.g + sq.nu*math.Max(0, sq.c)
+		slope := gd - sq.nu*math.Max(0, sq.c) // directional derivative of the merit
 		if !(slope < 0) {
 			// No descent for the merit along d (B badly scaled, or x
 			// already as good as the model can tell): one restart from
@@ -118,46 +83,151 @@ func minimiseSQP(f constrainedObjective, x0 []float64, o sqpOptions) sqpResult {
 			if first {
 				break
 			}
-			resetB(math.Max(math.Sqrt(dot(gg, gg)), 1e-8) / 0.01)
+			sq.resetModel()
 			first = true
 			continue
 		}
-		step, accepted := 1.0, false
-		var gNew, cNew float64
-		for ls := 0; ls < 40 && evals < o.maxEval; ls++ {
-			for i := range xn {
-				xn[i] = x[i] + step*d[i]
-			}
-			var okNew bool
-			gNew, cNew, okNew = f.evaluate(xn)
-			evals++
-			phiNew := math.Inf(1)
-			if okNew {
-				phiNew = gNew + nu*math.Max(0, cNew)
-			}
-			if phiNew <= phi+1e-4*step*slope {
-				accepted = true
-				break
-			}
-			step = nextStep(step, slope, phi, phiNew, true)
-		}
+		gNew, cNew, accepted := sq.lineSearch(phi, slope, o.maxEval)
 		if !accepted {
 			break
 		}
 		first = false
-		f.gradients(ggn, gcn)
-		for i := 0; i < n; i++ {
-			s[i] = xn[i] - x[i]
-			// ∇ of the Lagrangian g + λc at the new point less at the old.
-			y[i] = ggn[i] + lambda*gcn[i] - gg[i] - lambda*gc[i]
-		}
-		dampedBFGS(bm, s, y, bs, n)
-		copy(x, xn)
-		copy(gg, ggn)
-		copy(gc, gcn)
-		g, c = gNew, cNew
+		sq.moveTo(gNew, cNew, lambda)
 	}
-	return sqpResult{x: x, g: g, c: c, evals: evals}
+	return sq.result(false)
+}
+
+// sqpSearch is what minimiseSQP's steps share: the point with g, c and
+// their gradients there, the model B of the Lagrangian's Hessian and its
+// Cholesky factor, the merit's weight ν, and work vectors allocated once
+// for the whole search.
+type sqpSearch struct {
+	f      constrainedObjective
+	n      int
+	x      []float64 // the current point
+	g, c   float64   // g and c at x
+	gg, gc []float64 // their gradients at x
+	evals  int       // evaluations so far
+	bm     []float64 // B, row-major n × n
+	chol   []float64 // its Cholesky factor
+	nu     float64   // the ℓ₁ merit's weight ν
+	p, q   []float64 // B⁻¹∇g and B⁻¹∇c
+	d      []float64 // the step of the quadratic programme
+	xn     []float64 // the line search's trial point
+	// ggn and gcn are the gradients at the accepted trial point; s the
+	// step taken, y the Lagrangian's gradient's change, bs = B s.
+	ggn, gcn, s, y, bs []float64
+}
+
+// start evaluates g and c at x0 and, where they are defined, their
+// gradients and the first model B; false where they are not. (sq is
+// filled in place, not returned, so that it stays on the caller's stack.)
+func (sq *sqpSearch) start(f constrainedObjective, x0 []float64) bool {
+	n := len(x0)
+	*sq = sqpSearch{f: f, n: n, x: append([]float64(nil), x0...)}
+	var ok bool
+	sq.g, sq.c, ok = f.evaluate(sq.x)
+	sq.evals = 1
+	if !ok {
+		return false
+	}
+	sq.gg, sq.gc = make([]float64, n), make([]float64, n)
+	f.gradients(sq.gg, sq.gc)
+	sq.bm = make([]float64, n*n)
+	sq.chol = make([]float64, n*n)
+	sq.resetModel()
+	sq.p, sq.q, sq.d = make([]float64, n), make([]float64, n), make([]float64, n)
+	sq.xn, sq.ggn, sq.gcn = make([]float64, n), make([]float64, n), make([]float64, n)
+	sq.s, sq.y, sq.bs = make([]float64, n), make([]float64, n), make([]float64, n)
+	return true
+}
+
+// result is where the search stands.
+func (sq *sqpSearch) result(converged bool) sqpResult {
+	return sqpResult{x: sq.x, g: sq.g, c: sq.c, evals: sq.evals, converged: converged}
+}
+
+// resetModel sets B to a multiple of I whose step moves x by 0.01 (the
+// rotation's entries are of order 1): a unit-free start.
+func (sq *sqpSearch) resetModel() {
+	scale := math.Max(math.Sqrt(dot(sq.gg, sq.gg)), 1e-8) / 0.01
+	clear(sq.bm)
+	for i := 0; i < sq.n; i++ {
+		sq.bm[i*sq.n+i] = scale
+	}
+}
+
+// factorModel factors B, first resetting it when rounding has left it not
+// positive definite.
+func (sq *sqpSearch) factorModel() {
+	if !sqpCholesky(sq.bm, sq.chol, sq.n) {
+		sq.resetModel()
+		sqpCholesky(sq.bm, sq.chol, sq.n)
+	}
+}
+
+// setStep sets d to the quadratic programme's solution in closed form and
+// returns its multiplier λ: d = −B⁻¹∇g when that keeps the linearised
+// constraint (λ = 0), else d = −B⁻¹(∇g + λ∇c) on its boundary.
+func (sq *sqpSearch) setStep() float64 {
+	p, q, d, gc, c := sq.p, sq.q, sq.d, sq.gc, sq.c
+	sqpCholSolve(sq.chol, sq.gg, p, sq.n) // B⁻¹∇g
+	sqpCholSolve(sq.chol, gc, q, sq.n)    // B⁻¹∇c
+	lambda := 0.0
+	for i := range d {
+		d[i] = -p[i]
+	}
+	if cq := dot(gc, q); c+dot(gc, d) > 0 && cq > 0 {
+		lambda = (c - dot(gc, p)) / cq
+		for i := range d {
+			d[i] = -p[i] - lambda*q[i]
+		}
+	}
+	return lambda
+}
+
+// lineSearch backtracks along d from a unit step, interpolating, until the
+// merit g + ν·max(0, c) meets the Armijo condition from phi with the given
+// slope (a point where g or c is not defined counts as +∞). It returns g
+// and c at the point accepted (in xn) and whether one was, within 40
+// trials and the budget.
+func (sq *sqpSearch) lineSearch(phi, slope float64, maxEval int) (gNew, cNew float64, accepted bool) {
+	x, d, xn := sq.x, sq.d, sq.xn
+	step := 1.0
+	for ls := 0; ls < 40 && sq.evals < maxEval; ls++ {
+		for i := range xn {
+			xn[i] = x[i] + step*d[i]
+		}
+		var okNew bool
+		gNew, cNew, okNew = sq.f.evaluate(xn)
+		sq.evals++
+		phiNew := math.Inf(1)
+		if okNew {
+			phiNew = gNew + sq.nu*math.Max(0, cNew)
+		}
+		if phiNew <= phi+1e-4*step*slope {
+			return gNew, cNew, true
+		}
+		step = nextStep(step, slope, phi, phiNew, true)
+	}
+	return gNew, cNew, false
+}
+
+// moveTo makes the accepted trial point (g and c there gNew, cNew) the
+// current one, updating B with the step and the change of the
+// Lagrangian's gradient at the step's multiplier lambda.
+func (sq *sqpSearch) moveTo(gNew, cNew, lambda float64) {
+	sq.f.gradients(sq.ggn, sq.gcn)
+	for i := 0; i < sq.n; i++ {
+		sq.s[i] = sq.xn[i] - sq.x[i]
+		// ∇ of the Lagrangian g + λc at the new point less at the old.
+		sq.y[i] = sq.ggn[i] + lambda*sq.gcn[i] - sq.gg[i] - lambda*sq.gc[i]
+	}
+	dampedBFGS(sq.bm, sq.s, sq.y, sq.bs, sq.n)
+	copy(sq.x, sq.xn)
+	copy(sq.gg, sq.ggn)
+	copy(sq.gc, sq.gcn)
+	sq.g, sq.c = gNew, cNew
 }
 
 // dampedBFGS updates B with the step s and the change y of the
