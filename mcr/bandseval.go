@@ -986,21 +986,40 @@ func (ms *marginSide) violationGradient(k int, wt []float64, mu float64, out []f
 // entry, and G_Bᵀ B likewise; riseGradient adds μ times it into w.gt and
 // w.gbB.
 func (p *bandProblem) riseSparse() float64 {
-	w, k := p.work, p.k
-	k2 := 2 * k
-	gx, gy := w.gx, w.gy
-	clear(gx)
-	clear(gy)
-	// Blocks of X'X: [0:k,0:k] A₋ᵀA₋, [0:k,k:2k] A₋ᵀA (then − A₋ᵀA₋),
-	// [k:2k,k:2k] AᵀA − A₋ᵀA − AᵀA₋ + A₋ᵀA₋; Y'Y likewise.
-	ctam := w.sq[0] // CᵀA₋, set whole from ctamT below
+	w := p.work
+	clear(w.gx)
+	clear(w.gy)
 	w.rowsC.form(w.sideC, w.t)
 	w.rowsS.form(w.sideS, w.tinvT)
-	// The clipped entries' products with each other visit the clipped
-	// columns only: the others' terms are ±0, which leave a sum that
-	// started at +0 as it is. CᵀA₋ is summed transposed (row p holds
-	// column p), each entry in the same order, and turned at the end.
-	ctamT := w.sq[4]
+	p.clippedProfileBlocks()
+	p.clippedSpectrumBlocks()
+	p.denseRiseBlocks()
+	rise := 0.0
+	for i := range w.gx {
+		rise += w.gx[i] * w.gy[i]
+	}
+	w.at.rise = rise
+	h := rise/p.allow - 1
+	w.at.rising = h > 0
+	if h <= 0 {
+		return 0
+	}
+	w.at.riseFactor = w.at.mu * 2 * h / p.allow * 2 // μ·∂(h²)/∂rise times the 2 of ∂‖XYᵀ‖²
+	return h * h
+}
+
+// clippedProfileBlocks adds the clipped profiles' products into XᵀX (in
+// w.gx, 2k × 2k): A₋ᵀA₋ into [0:k, 0:k], A₋ᵀA into [0:k, k:2k] (riseSparse
+// takes A₋ᵀA₋ off later), and sets CᵀA₋ (w.sq[0]). The clipped entries'
+// products with each other visit the clipped columns only: the others'
+// terms are ±0, which leave a sum that started at +0 as it is. CᵀA₋ is
+// summed transposed (row p holds column p, in w.sq[4]), each entry in the
+// same order, and turned at the end.
+func (p *bandProblem) clippedProfileBlocks() {
+	w, k := p.work, p.k
+	k2 := 2 * k
+	gx := w.gx
+	ctam, ctamT := w.sq[0], w.sq[4]
 	clear(ctamT)
 	w.rowsC.each(k, func(i int, cols uint64, full, minus []float64) {
 		cr := w.c[i*k : i*k+k]
@@ -1032,6 +1051,15 @@ func (p *bandProblem) riseSparse() float64 {
 			ctam[r*k+p] = ctamT[p*k+r]
 		}
 	}
+}
+
+// clippedSpectrumBlocks adds the clipped spectra's products into YᵀY (in
+// w.gy, 2k × 2k): B₋ᵀB₋ into [k:2k, k:2k] and B₋ᵀB into [k:2k, 0:k], over
+// the clipped columns only as in clippedProfileBlocks.
+func (p *bandProblem) clippedSpectrumBlocks() {
+	w, k := p.work, p.k
+	k2 := 2 * k
+	gy := w.gy
 	w.rowsS.each(k, func(_ int, cols uint64, full, minus []float64) {
 		for c := cols; c != 0; c &= c - 1 {
 			p := bits.TrailingZeros64(c)
@@ -1050,6 +1078,16 @@ func (p *bandProblem) riseSparse() float64 {
 			}
 		}
 	})
+}
+
+// denseRiseBlocks completes XᵀX and YᵀY from the Gram matrices' congruences
+// AᵀA = Tᵀ CᵀC T and BᵀB = T⁻¹ SᵀS T⁻ᵀ and the clipped blocks:
+// A₊ᵀA₊ = AᵀA − A₋ᵀA − AᵀA₋ + A₋ᵀA₋, A₋ᵀA₊ = A₋ᵀA − A₋ᵀA₋ and its
+// transpose, BᵀB, and BᵀB₋ = (B₋ᵀB)ᵀ.
+func (p *bandProblem) denseRiseBlocks() {
+	w, k := p.work, p.k
+	k2 := 2 * k
+	gx, gy := w.gx, w.gy
 	ata, btb := congruence(w.sq[1], w.sq[2], w.gc, w.t, k), congruence(w.sq[3], w.sq[2], w.gs, w.tinvT, k)
 	for p := 0; p < k; p++ {
 		for q := 0; q < k; q++ {
@@ -1069,18 +1107,6 @@ func (p *bandProblem) riseSparse() float64 {
 			gx[(k+q)*k2+p] = gx[p*k2+k+q]
 		}
 	}
-	rise := 0.0
-	for i := range gx {
-		rise += gx[i] * gy[i]
-	}
-	w.at.rise = rise
-	h := rise/p.allow - 1
-	w.at.rising = h > 0
-	if h <= 0 {
-		return 0
-	}
-	w.at.riseFactor = w.at.mu * 2 * h / p.allow * 2 // μ·∂(h²)/∂rise times the 2 of ∂‖XYᵀ‖²
-	return h * h
 }
 
 // riseGradient adds f times the rise's gradient into w.gt and w.gbB (see
