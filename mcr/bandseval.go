@@ -1386,87 +1386,91 @@ func rotatedRows(out, minus []float64, clipped []uint64, x, vt []float64, nn []u
 	nn = nn[:k]
 	i := 0
 	for ; i+3 < rows; i += 4 {
-		x0, x1, x2, x3 := x[i*k:i*k+k], x[(i+1)*k:(i+1)*k+k], x[(i+2)*k:(i+2)*k+k], x[(i+3)*k:(i+3)*k+k]
-		o0, o1, o2, o3 := out[i*k:i*k+k], out[(i+1)*k:(i+1)*k+k], out[(i+2)*k:(i+2)*k+k], out[(i+3)*k:(i+3)*k+k]
-		m0, m1, m2, m3 := minus[i*k:i*k+k], minus[(i+1)*k:(i+1)*k+k], minus[(i+2)*k:(i+2)*k+k], minus[(i+3)*k:(i+3)*k+k]
-		var c0, c1, c2, c3, c uint64
-		j := 0
-		for ; j+1 < k; j += 2 {
-			va, vb := vt[j*k:j*k+k], vt[(j+1)*k:(j+1)*k+k]
-			vb = vb[:len(va)]
-			x0, x1, x2, x3 := x0[:len(va)], x1[:len(va)], x2[:len(va)], x3[:len(va)]
-			var a0, a1, a2, a3, b0, b1, b2, b3 float64
-			for l, av := range va {
-				bv := vb[l]
-				a0 += x0[l] * av
-				a1 += x1[l] * av
-				a2 += x2[l] * av
-				a3 += x3[l] * av
-				b0 += x0[l] * bv
-				b1 += x1[l] * bv
-				b2 += x2[l] * bv
-				b3 += x3[l] * bv
-			}
-			o0[j], o1[j], o2[j], o3[j] = a0, a1, a2, a3
-			o0[j+1], o1[j+1], o2[j+1], o3[j+1] = b0, b1, b2, b3
-			na, nb := nn[j], nn[j+1]
-			m0[j], c = clipNeg(a0, na)
-			c0 |= c << j
-			m1[j], c = clipNeg(a1, na)
-			c1 |= c << j
-			m2[j], c = clipNeg(a2, na)
-			c2 |= c << j
-			m3[j], c = clipNeg(a3, na)
-			c3 |= c << j
-			m0[j+1], c = clipNeg(b0, nb)
-			c0 |= c << (j + 1)
-			m1[j+1], c = clipNeg(b1, nb)
-			c1 |= c << (j + 1)
-			m2[j+1], c = clipNeg(b2, nb)
-			c2 |= c << (j + 1)
-			m3[j+1], c = clipNeg(b3, nb)
-			c3 |= c << (j + 1)
-		}
-		if j < k {
-			vj := vt[j*k : j*k+k]
-			x0, x1, x2, x3 := x0[:len(vj)], x1[:len(vj)], x2[:len(vj)], x3[:len(vj)]
-			var a0, a1, a2, a3 float64
-			for l, vv := range vj {
-				a0 += x0[l] * vv
-				a1 += x1[l] * vv
-				a2 += x2[l] * vv
-				a3 += x3[l] * vv
-			}
-			o0[j], o1[j], o2[j], o3[j] = a0, a1, a2, a3
-			na := nn[j]
-			m0[j], c = clipNeg(a0, na)
-			c0 |= c << j
-			m1[j], c = clipNeg(a1, na)
-			c1 |= c << j
-			m2[j], c = clipNeg(a2, na)
-			c2 |= c << j
-			m3[j], c = clipNeg(a3, na)
-			c3 |= c << j
-		}
+		at, end := i*k, (i+4)*k
 		cl := clipped[i : i+4]
-		cl[0], cl[1], cl[2], cl[3] = c0, c1, c2, c3
+		cl[0], cl[1], cl[2], cl[3] = rotatedFour(out[at:end], minus[at:end], x[at:end], vt, nn, k)
 	}
 	for ; i < rows; i++ {
-		xr, o, m := x[i*k:i*k+k], out[i*k:i*k+k], minus[i*k:i*k+k]
-		var ci, c uint64
-		for j := range o {
-			vj := vt[j*k : j*k+k]
-			vj = vj[:len(xr)]
-			s := 0.0
-			for l, xv := range xr {
-				s += xv * vj[l]
-			}
-			o[j] = s
-			m[j], c = clipNeg(s, nn[j])
-			ci |= c << j
-		}
-		clipped[i] = ci
+		clipped[i] = rotatedRow(out[i*k:i*k+k], minus[i*k:i*k+k], x[i*k:i*k+k], vt, nn)
 	}
+}
+
+// rotatedFour is rotatedRows for four rows (o, m and x hold them, k
+// entries each): two columns at a time, then the last of an odd k. It
+// returns the rows' clipped bits.
+func rotatedFour(o, m, x, vt []float64, nn []uint64, k int) (c0, c1, c2, c3 uint64) {
+	x0, x1, x2, x3 := x[:k], x[k:2*k], x[2*k:3*k], x[3*k:4*k]
+	o0, o1, o2, o3 := o[:k], o[k:2*k], o[2*k:3*k], o[3*k:4*k]
+	m0, m1, m2, m3 := m[:k], m[k:2*k], m[2*k:3*k], m[3*k:4*k]
+	j := 0
+	for ; j+1 < k; j += 2 {
+		va, vb := vt[j*k:j*k+k], vt[(j+1)*k:(j+1)*k+k]
+		vb = vb[:len(va)]
+		x0, x1, x2, x3 := x0[:len(va)], x1[:len(va)], x2[:len(va)], x3[:len(va)]
+		var a0, a1, a2, a3, b0, b1, b2, b3 float64
+		for l, av := range va {
+			bv := vb[l]
+			a0 += x0[l] * av
+			a1 += x1[l] * av
+			a2 += x2[l] * av
+			a3 += x3[l] * av
+			b0 += x0[l] * bv
+			b1 += x1[l] * bv
+			b2 += x2[l] * bv
+			b3 += x3[l] * bv
+		}
+		o0[j], o1[j], o2[j], o3[j] = a0, a1, a2, a3
+		o0[j+1], o1[j+1], o2[j+1], o3[j+1] = b0, b1, b2, b3
+		na, nb := nn[j], nn[j+1]
+		c0 |= clipInto(m0, j, a0, na) | clipInto(m0, j+1, b0, nb)
+		c1 |= clipInto(m1, j, a1, na) | clipInto(m1, j+1, b1, nb)
+		c2 |= clipInto(m2, j, a2, na) | clipInto(m2, j+1, b2, nb)
+		c3 |= clipInto(m3, j, a3, na) | clipInto(m3, j+1, b3, nb)
+	}
+	if j < k {
+		vj := vt[j*k : j*k+k]
+		x0, x1, x2, x3 := x0[:len(vj)], x1[:len(vj)], x2[:len(vj)], x3[:len(vj)]
+		var a0, a1, a2, a3 float64
+		for l, vv := range vj {
+			a0 += x0[l] * vv
+			a1 += x1[l] * vv
+			a2 += x2[l] * vv
+			a3 += x3[l] * vv
+		}
+		o0[j], o1[j], o2[j], o3[j] = a0, a1, a2, a3
+		na := nn[j]
+		c0 |= clipInto(m0, j, a0, na)
+		c1 |= clipInto(m1, j, a1, na)
+		c2 |= clipInto(m2, j, a2, na)
+		c3 |= clipInto(m3, j, a3, na)
+	}
+	return c0, c1, c2, c3
+}
+
+// rotatedRow is rotatedRows for one row xr (into o and m), one entry at a
+// time; it returns the row's clipped bits.
+func rotatedRow(o, m, xr, vt []float64, nn []uint64) uint64 {
+	k := len(xr)
+	var ci uint64
+	for j := range o {
+		vj := vt[j*k : j*k+k]
+		vj = vj[:len(xr)]
+		s := 0.0
+		for l, xv := range xr {
+			s += xv * vj[l]
+		}
+		o[j] = s
+		ci |= clipInto(m, j, s, nn[j])
+	}
+	return ci
+}
+
+// clipInto sets m[j] to s where it breaks non-negativity (clipNeg) and
+// returns bit j set when it does.
+func clipInto(m []float64, j int, s float64, nn uint64) uint64 {
+	v, c := clipNeg(s, nn)
+	m[j] = v
+	return c << j
 }
 
 // each calls visit once per row, in order, with its full and clipped rows.
