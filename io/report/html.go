@@ -422,33 +422,12 @@ func factorAccount(s *Summary) string {
 // the warnings the report itself derives from the files.
 func findings(f *Folder) (find, checks []string) {
 	s := f.Summary
-	what := "species"
-	if s.Mode == "reactions" {
-		what = "independent reaction(s)"
-	}
-	find = append(find, fmt.Sprintf("%d %s resolved from %d spectra × %d points (%s).", s.Components, what, s.Spectra, s.Points, spectralAxis(f.axisName()).Label))
+	find = append(find, resolvedFinding(f))
 	if s.ModeReason != "" {
 		find = append(find, "Mode — "+s.ModeReason+".")
 	}
-	// Rank evidence.
 	if len(s.RankCriteria) > 0 {
-		agree := 0
-		var each []string
-		for _, c := range s.RankCriteria {
-			if c.Estimate == s.RankEstimate {
-				agree++
-			}
-			each = append(each, fmt.Sprintf("%s %d", c.Name, c.Estimate))
-		}
-		if agree == len(s.RankCriteria) {
-			find = append(find, fmt.Sprintf("Rank %d: all %d criteria agree (%s).", s.RankEstimate, len(s.RankCriteria), strings.Join(each, ", ")))
-		} else if account := factorAccount(s); account != "" && noneBelow(s.RankCriteria, s.RankEstimate) {
-			// The criteria count factors above the noise whatever they are;
-			// the run's classification accounted for every one of them.
-			find = append(find, fmt.Sprintf("Rank %d chemical: the criteria count factors above the noise whether chemistry or not (%s); %s.", s.RankEstimate, strings.Join(each, ", "), account))
-		} else {
-			find = append(find, fmt.Sprintf("Rank %d, but the criteria disagree (%s): look at the singular values and treat the count with care.", s.RankEstimate, strings.Join(each, ", ")))
-		}
+		find = append(find, rankFinding(s))
 	}
 	if s.DifferenceRank != nil && s.Mode == "species" {
 		if *s.DifferenceRank < s.RankEstimate {
@@ -456,21 +435,7 @@ func findings(f *Folder) (find, checks []string) {
 		}
 	}
 	if s.Components > 0 {
-		fit := fmt.Sprintf("Lack of fit %s %% (explained variance %s %%)", trimFloat(s.LackOfFitPercent, 4), trimFloat(s.ExplainedVariancePercent, 7))
-		if nl := s.NoiseLackOfFitPercent; nl > 0 {
-			r := s.LackOfFitPercent / nl
-			switch {
-			case r <= 1.2:
-				fit += fmt.Sprintf(", the %s %% noise alone would give: the model explains everything but the noise.", trimFloat(nl, 3))
-			case r <= 3:
-				fit += fmt.Sprintf(", somewhat above the %s %% noise alone would give: small systematic misfit; see the residual map.", trimFloat(nl, 3))
-			default:
-				fit += fmt.Sprintf(", %s times the %s %% noise alone would give: part of the data is not explained.", trimFloat(r, 2), trimFloat(nl, 3))
-			}
-		} else {
-			fit += "."
-		}
-		find = append(find, fit)
+		find = append(find, fitFinding(s))
 		if s.Converged {
 			find = append(find, fmt.Sprintf("Alternating least squares converged in %d iterations.", s.Iterations))
 		} else {
@@ -478,34 +443,10 @@ func findings(f *Folder) (find, checks []string) {
 		}
 	}
 	for _, b := range s.Uniqueness() {
-		w := b.Max - b.Min
-		if b.NotDetermined {
-			why := b.Reason
-			if why == "" {
-				why = "the search could not stay within the constraints"
-			}
-			checks = append(checks, fmt.Sprintf("The uniqueness range of %s was not determined: %s (it reached shares of the signal from %s to %s, which bound nothing).", b.Component, why, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
-		} else if w <= 0.05*math.Max(b.Max, 1e-12) {
-			find = append(find, fmt.Sprintf("%s is essentially unique within the constraints and the noise: every solution that fits as well gives it a share of the signal between %s and %s.", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
-		} else {
-			find = append(find, fmt.Sprintf("%s is not unique: solutions that fit the data as well and keep every constraint give it a share of the signal from %s to %s.", b.Component, trimFloat(b.Min, 3), shareText(b.Max)))
-		}
-		// An unbounded range's search stops on its budget: "no bound"
-		// already says more than this would (as on the terminal).
-		if ends := unconvergedEnds(b); !b.NotDetermined && ends != "" && b.Max <= unboundedShare {
-			checks = append(checks, fmt.Sprintf("The search for the %s of %s stopped on its budget before converging: its range is at least as wide as shown and may be wider.", ends, b.Component))
-		}
+		find, checks = uniquenessFindings(b, find, checks)
 	}
 	if k := s.Kinetics; k != nil && len(k.RateConstants) > 0 {
-		var ks []string
-		for _, rc := range f.rates() {
-			t := fmt.Sprintf("%s: k = %s ± %s %s", rc.Step, trimFloat(rc.K, 4), trimFloat(rc.StdErr, 2), unitText(rc.Unit))
-			if rc.HalfLife > 0 {
-				t += fmt.Sprintf(" (half-life %s %s)", trimFloat(rc.HalfLife, 3), rc.TimeUnit)
-			}
-			ks = append(ks, t)
-		}
-		find = append(find, fmt.Sprintf("Kinetic model %s: %s.", k.Model, strings.Join(ks, "; ")))
+		find = append(find, kineticsFinding(f, k))
 	}
 	if t := f.DemoCheck; t != nil && t.Index("spectrum_cosine") >= 0 {
 		sc, pc := t.Col(t.Index("spectrum_cosine")), t.Col(t.Index("profile_cosine"))
@@ -514,6 +455,93 @@ func findings(f *Folder) (find, checks []string) {
 	}
 	checks = append(checks, derivedChecks(f)...)
 	return find, checks
+}
+
+// resolvedFinding says what was resolved from how much data.
+func resolvedFinding(f *Folder) string {
+	s := f.Summary
+	what := "species"
+	if s.Mode == "reactions" {
+		what = "independent reaction(s)"
+	}
+	return fmt.Sprintf("%d %s resolved from %d spectra × %d points (%s).", s.Components, what, s.Spectra, s.Points, spectralAxis(f.axisName()).Label)
+}
+
+// rankFinding weighs the rank's evidence: the criteria agree, or the
+// factors the run set aside as not chemistry account for their
+// disagreement, or they disagree and the count needs care.
+func rankFinding(s *Summary) string {
+	agree := 0
+	var each []string
+	for _, c := range s.RankCriteria {
+		if c.Estimate == s.RankEstimate {
+			agree++
+		}
+		each = append(each, fmt.Sprintf("%s %d", c.Name, c.Estimate))
+	}
+	if agree == len(s.RankCriteria) {
+		return fmt.Sprintf("Rank %d: all %d criteria agree (%s).", s.RankEstimate, len(s.RankCriteria), strings.Join(each, ", "))
+	}
+	if account := factorAccount(s); account != "" && noneBelow(s.RankCriteria, s.RankEstimate) {
+		// The criteria count factors above the noise whatever they are;
+		// the run's classification accounted for every one of them.
+		return fmt.Sprintf("Rank %d chemical: the criteria count factors above the noise whether chemistry or not (%s); %s.", s.RankEstimate, strings.Join(each, ", "), account)
+	}
+	return fmt.Sprintf("Rank %d, but the criteria disagree (%s): look at the singular values and treat the count with care.", s.RankEstimate, strings.Join(each, ", "))
+}
+
+// fitFinding gives the lack of fit against the one noise alone would give.
+func fitFinding(s *Summary) string {
+	fit := fmt.Sprintf("Lack of fit %s %% (explained variance %s %%)", trimFloat(s.LackOfFitPercent, 4), trimFloat(s.ExplainedVariancePercent, 7))
+	if nl := s.NoiseLackOfFitPercent; nl > 0 {
+		switch r := s.LackOfFitPercent / nl; {
+		case r <= 1.2:
+			return fit + fmt.Sprintf(", the %s %% noise alone would give: the model explains everything but the noise.", trimFloat(nl, 3))
+		case r <= 3:
+			return fit + fmt.Sprintf(", somewhat above the %s %% noise alone would give: small systematic misfit; see the residual map.", trimFloat(nl, 3))
+		default:
+			return fit + fmt.Sprintf(", %s times the %s %% noise alone would give: part of the data is not explained.", trimFloat(r, 2), trimFloat(nl, 3))
+		}
+	}
+	return fit + "."
+}
+
+// uniquenessFindings adds what a component's uniqueness range says: not
+// determined (a check), essentially unique, or the range of its share;
+// and a check when the search stopped on its budget.
+func uniquenessFindings(b Band, find, checks []string) ([]string, []string) {
+	w := b.Max - b.Min
+	if b.NotDetermined {
+		why := b.Reason
+		if why == "" {
+			why = "the search could not stay within the constraints"
+		}
+		checks = append(checks, fmt.Sprintf("The uniqueness range of %s was not determined: %s (it reached shares of the signal from %s to %s, which bound nothing).", b.Component, why, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
+	} else if w <= 0.05*math.Max(b.Max, 1e-12) {
+		find = append(find, fmt.Sprintf("%s is essentially unique within the constraints and the noise: every solution that fits as well gives it a share of the signal between %s and %s.", b.Component, trimFloat(b.Min, 3), trimFloat(b.Max, 3)))
+	} else {
+		find = append(find, fmt.Sprintf("%s is not unique: solutions that fit the data as well and keep every constraint give it a share of the signal from %s to %s.", b.Component, trimFloat(b.Min, 3), shareText(b.Max)))
+	}
+	// An unbounded range's search stops on its budget: "no bound"
+	// already says more than this would (as on the terminal).
+	if ends := unconvergedEnds(b); !b.NotDetermined && ends != "" && b.Max <= unboundedShare {
+		checks = append(checks, fmt.Sprintf("The search for the %s of %s stopped on its budget before converging: its range is at least as wide as shown and may be wider.", ends, b.Component))
+	}
+	return find, checks
+}
+
+// kineticsFinding gives the kinetic model's rate constants with their
+// standard errors, and the half-lives of first-order steps.
+func kineticsFinding(f *Folder, k *Kinetics) string {
+	var ks []string
+	for _, rc := range f.rates() {
+		t := fmt.Sprintf("%s: k = %s ± %s %s", rc.Step, trimFloat(rc.K, 4), trimFloat(rc.StdErr, 2), unitText(rc.Unit))
+		if rc.HalfLife > 0 {
+			t += fmt.Sprintf(" (half-life %s %s)", trimFloat(rc.HalfLife, 3), rc.TimeUnit)
+		}
+		ks = append(ks, t)
+	}
+	return fmt.Sprintf("Kinetic model %s: %s.", k.Model, strings.Join(ks, "; "))
 }
 
 // derivedChecks looks at the files for what a chemist should be warned of.
