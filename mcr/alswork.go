@@ -64,18 +64,7 @@ func (w *alsWork) profilesProducts(d Data, c *mat.Dense, rowW []float64) (*mat.S
 	if w.svd.U == nil {
 		return gramW(c, rowW), d.MulProfiles(c)
 	}
-	y := c
-	if w.rowW != nil {
-		y = scaleRowsTo(w.yc, c, w.rowW, 0.5)
-	}
-	g := gram(y)
-	product.MulTTo(w.rc, w.svd.U, y)
-	scaleRowsBy(w.rc, w.svd.Sigma)
-	product.MulTo(w.dtc, w.svd.V, w.rc)
-	if w.colW != nil {
-		scaleRowsTo(w.dtc, w.dtc, w.colW, -0.5)
-	}
-	return g, w.dtc
+	return w.sideProducts(c, w.yc, w.rowW, w.colW, w.svd.U, w.svd.V, w.rc, w.dtc)
 }
 
 // spectraProducts returns SᵀBS and D B S (n × k), the profiles step's Gram
@@ -85,18 +74,26 @@ func (w *alsWork) spectraProducts(d Data, s *mat.Dense, colW []float64) (*mat.Sy
 	if w.svd.U == nil {
 		return gramW(s, colW), d.MulSpectra(s)
 	}
-	y := s
-	if w.colW != nil {
-		y = scaleRowsTo(w.ys, s, w.colW, 0.5)
+	return w.sideProducts(s, w.ys, w.colW, w.rowW, w.svd.V, w.svd.U, w.rs, w.ds)
+}
+
+// sideProducts is one half step's products on the truncated SVD, written
+// once for both sides (the spectra's swaps the roles of U and V and of the
+// row and column weights): the Gram matrix of y = diag(near)^½ x (formed
+// in buf), and diag(far)^−½ away Σ towardᵀ y in out, through inner (r × k).
+func (w *alsWork) sideProducts(x, buf *mat.Dense, near, far []float64, toward, away, inner, out *mat.Dense) (*mat.SymDense, *mat.Dense) {
+	y := x
+	if near != nil {
+		y = scaleRowsTo(buf, x, near, 0.5)
 	}
 	g := gram(y)
-	product.MulTTo(w.rs, w.svd.V, y)
-	scaleRowsBy(w.rs, w.svd.Sigma)
-	product.MulTo(w.ds, w.svd.U, w.rs)
-	if w.rowW != nil {
-		scaleRowsTo(w.ds, w.ds, w.rowW, -0.5)
+	product.MulTTo(inner, toward, y)
+	scaleRowsBy(inner, w.svd.Sigma)
+	product.MulTo(out, away, inner)
+	if far != nil {
+		scaleRowsTo(out, out, far, -0.5)
 	}
-	return g, w.ds
+	return g, out
 }
 
 // gramW is gramW(x, wt) with √W X formed in w's buffer when it fits.

@@ -85,21 +85,7 @@ func (c WeightedCompressed) FrobeniusSq() float64 { return c.FrobSq }
 // scaleRows returns diag(w)^p x (a new matrix).
 func scaleRows(x *mat.Dense, w []float64, p float64) *mat.Dense {
 	r, k := x.Dims()
-	out := mat.NewDense(r, k, nil)
-	for i := 0; i < r; i++ {
-		f := w[i]
-		switch p {
-		case 0.5:
-			f = math.Sqrt(f)
-		case -0.5:
-			f = 1 / math.Sqrt(f)
-		}
-		src, dst := x.RawRowView(i), out.RawRowView(i)
-		for j, v := range src[:k] {
-			dst[j] = f * v
-		}
-	}
-	return out
+	return scaleRowsTo(mat.NewDense(r, k, nil), x, w, p)
 }
 
 // weightsOf returns d's row and column weights, nil for unweighted data.
