@@ -122,98 +122,150 @@ func seriesFromSpectra(path string, sps []*Spectrum, opt FolderOptions) (*Series
 	if len(sps) == 0 {
 		return nil, inputErr(path, 0, "export the spectra as ##XYDATA or ##XYPOINTS", "holds no spectrum")
 	}
-	// Messages are about path already: name blocks by number and title.
-	name := func(sp *Spectrum) string {
-		n := strings.TrimPrefix(sp.Source, path+" ")
-		if n == path {
-			n = "the spectrum"
-		}
-		if sp.Title != "" {
-			n += fmt.Sprintf(" (##TITLE=%s)", sp.Title)
-		}
-		return n
+	b := jcampBlocks{path: path, sps: sps}
+	times, err := b.times(opt)
+	if err != nil {
+		return nil, err
 	}
-	times := make([]float64, len(sps))
-	key := func(i int) string {
-		if len(sps) == 1 {
-			return filepath.Base(path)
-		}
-		return strings.TrimSpace(sps[i].Title)
+	return b.series(times, opt.Resample)
+}
+
+// jcampBlocks is the spectra of one JCAMP-DX file and the file's path,
+// which every message about them is already about.
+type jcampBlocks struct {
+	path string
+	sps  []*Spectrum
+}
+
+// name names a block in messages by its number and ##TITLE: the path is
+// in the message already.
+func (b jcampBlocks) name(sp *Spectrum) string {
+	n := strings.TrimPrefix(sp.Source, b.path+" ")
+	if n == b.path {
+		n = "the spectrum"
 	}
+	if sp.Title != "" {
+		n += fmt.Sprintf(" (##TITLE=%s)", sp.Title)
+	}
+	return n
+}
+
+// times gives each block's time in seconds, in the file's order, from the
+// source the options choose; a lone spectrum with none asked for is at 0.
+func (b jcampBlocks) times(opt FolderOptions) ([]float64, error) {
 	switch {
 	case opt.TimesFile != "":
-		table, err := ReadTimes(opt.TimesFile)
-		if err != nil {
-			return nil, err
-		}
-		for i := range sps {
-			t, ok := table[key(i)]
-			if !ok && len(sps) == 1 {
-				t, ok = table[strings.TrimSpace(sps[i].Title)]
-			}
-			if !ok {
-				return nil, inputErr(opt.TimesFile, 0, "add a row whose file column is the block's ##TITLE", "has no time for %s", name(sps[i]))
-			}
-			times[i] = t
-		}
+		return b.timesFromTable(opt.TimesFile)
 	case opt.TimesFromName:
-		labels := make([]string, len(sps))
-		for i, sp := range sps {
-			labels[i] = sp.Title
-		}
-		what := func(i int) string { return "the ##TITLE " + strconv.Quote(sps[i].Title) }
-		if len(sps) == 1 {
-			labels[0] = strings.TrimSuffix(filepath.Base(path), filepath.Ext(path))
-			what = func(int) string { return "the file name " + strconv.Quote(filepath.Base(path)) }
-		}
-		ts, bad, err := timesFromLabels(labels, opt.TimeUnit, what)
-		if err != nil {
-			return nil, inputErr(path, 0, "put each spectrum's time in its ##TITLE (e.g. scan 120 s, or a date-time stamp), or give --times FILE", "%s: %v", name(sps[bad]), err)
-		}
-		seen := map[float64]string{}
-		for i, t := range ts {
-			if other, dup := seen[t]; dup {
-				return nil, inputErr(path, 0, "give each spectrum its own time, or use --times FILE", "%s has the same time %g s as %s", name(sps[i]), t, other)
-			}
-			seen[t], times[i] = name(sps[i]), t
-		}
-	case len(sps) > 1 && allAcquired(sps):
-		times = acquiredSeconds(sps)
-	case len(sps) > 1:
-		return nil, inputErr(path, 0, "give --times FILE (columns file,time_s; file = each block's ##TITLE) or --times-from-name (the last number in each ##TITLE)",
-			"holds %d spectra and needs their acquisition times", len(sps))
+		return b.timesFromTitles(opt.TimeUnit)
+	case len(b.sps) > 1 && allAcquired(b.sps):
+		return acquiredSeconds(b.sps), nil
+	case len(b.sps) > 1:
+		return nil, inputErr(b.path, 0, "give --times FILE (columns file,time_s; file = each block's ##TITLE) or --times-from-name (the last number in each ##TITLE)",
+			"holds %d spectra and needs their acquisition times", len(b.sps))
 	}
-	first := sps[0]
-	order := make([]int, len(sps))
+	return make([]float64, len(b.sps)), nil
+}
+
+// timesFromTable looks each block up in the --times table by its ##TITLE;
+// a lone spectrum by the file's name first, as a folder's table names its
+// files, then by its ##TITLE.
+func (b jcampBlocks) timesFromTable(file string) ([]float64, error) {
+	table, err := ReadTimes(file)
+	if err != nil {
+		return nil, err
+	}
+	times := make([]float64, len(b.sps))
+	for i, sp := range b.sps {
+		key := strings.TrimSpace(sp.Title)
+		if len(b.sps) == 1 {
+			key = filepath.Base(b.path)
+		}
+		t, ok := table[key]
+		if !ok && len(b.sps) == 1 {
+			t, ok = table[strings.TrimSpace(sp.Title)]
+		}
+		if !ok {
+			return nil, inputErr(file, 0, "add a row whose file column is the block's ##TITLE", "has no time for %s", b.name(sp))
+		}
+		times[i] = t
+	}
+	return times, nil
+}
+
+// timesFromTitles reads each block's time from its ##TITLE (a lone
+// spectrum's from the file name), and refuses two blocks at one time,
+// which would leave their order a guess.
+func (b jcampBlocks) timesFromTitles(unit string) ([]float64, error) {
+	labels := make([]string, len(b.sps))
+	for i, sp := range b.sps {
+		labels[i] = sp.Title
+	}
+	what := func(i int) string { return "the ##TITLE " + strconv.Quote(b.sps[i].Title) }
+	if len(b.sps) == 1 {
+		labels[0] = strings.TrimSuffix(filepath.Base(b.path), filepath.Ext(b.path))
+		what = func(int) string { return "the file name " + strconv.Quote(filepath.Base(b.path)) }
+	}
+	ts, bad, err := timesFromLabels(labels, unit, what)
+	if err != nil {
+		return nil, inputErr(b.path, 0, "put each spectrum's time in its ##TITLE (e.g. scan 120 s, or a date-time stamp), or give --times FILE", "%s: %v", b.name(b.sps[bad]), err)
+	}
+	seen := map[float64]string{}
+	for i, t := range ts {
+		if other, dup := seen[t]; dup {
+			return nil, inputErr(b.path, 0, "give each spectrum its own time, or use --times FILE", "%s has the same time %g s as %s", b.name(b.sps[i]), t, other)
+		}
+		seen[t] = b.name(b.sps[i])
+	}
+	return ts, nil
+}
+
+// series puts the blocks in time order (ties kept in the file's order) on
+// the first block's axis, and refuses blocks of another kind or a time
+// that two blocks share.
+func (b jcampBlocks) series(times []float64, resample bool) (*Series, error) {
+	first := b.sps[0]
+	order := make([]int, len(b.sps))
 	for i := range order {
 		order[i] = i
 	}
-	sort.SliceStable(order, func(a, b int) bool { return times[order[a]] < times[order[b]] })
-	s := &Series{AxisName: first.AxisName, Axis: first.Axis, Source: path, Kind: first.Kind}
-	s.Values = mat.NewDense(len(sps), len(first.Axis), nil)
+	sort.SliceStable(order, func(x, y int) bool { return times[order[x]] < times[order[y]] })
+	s := &Series{AxisName: first.AxisName, Axis: first.Axis, Source: b.path, Kind: first.Kind}
+	s.Values = mat.NewDense(len(b.sps), len(first.Axis), nil)
 	for r, i := range order {
-		sp := sps[i]
-		vals := sp.Values
-		if !sameAxis(sp.Axis, first.Axis) {
-			if !opt.Resample {
-				return nil, inputErr(path, 0, "use --resample to interpolate onto the first block's axis, or export every block on one axis", "%s: %s", name(sp), describeAxisMismatch(sp.Axis, first.Axis, name(first)))
-			}
-			var err error
-			if vals, err = Resample(sp.Axis, sp.Values, first.Axis); err != nil {
-				return nil, inputErr(path, 0, "export the spectra over overlapping ranges", "%s: cannot resample: %v", name(sp), err)
-			}
+		sp := b.sps[i]
+		vals, err := b.onFirstAxis(sp, resample)
+		if err != nil {
+			return nil, err
 		}
 		if sp.Kind != first.Kind {
-			return nil, inputErr(path, 0, "give blocks of one kind", "%s holds %s data, %s holds %s", name(sp), orUnknown(sp.Kind), name(first), orUnknown(first.Kind))
+			return nil, inputErr(b.path, 0, "give blocks of one kind", "%s holds %s data, %s holds %s", b.name(sp), orUnknown(sp.Kind), b.name(first), orUnknown(first.Kind))
 		}
 		if r > 0 && times[i] == times[order[r-1]] {
-			return nil, inputErr(path, 0, "give each spectrum its own time", "%s has the same time %g s as %s", name(sp), times[i], name(sps[order[r-1]]))
+			return nil, inputErr(b.path, 0, "give each spectrum its own time", "%s has the same time %g s as %s", b.name(sp), times[i], b.name(b.sps[order[r-1]]))
 		}
 		s.Values.SetRow(r, vals)
 		s.Times = append(s.Times, times[i])
 		s.Names = append(s.Names, sp.Source)
 	}
 	return s, nil
+}
+
+// onFirstAxis gives a block's values on the first block's axis: as they are
+// when the axes agree, interpolated when --resample allows it.
+func (b jcampBlocks) onFirstAxis(sp *Spectrum, resample bool) ([]float64, error) {
+	first := b.sps[0]
+	if sameAxis(sp.Axis, first.Axis) {
+		return sp.Values, nil
+	}
+	if !resample {
+		return nil, inputErr(b.path, 0, "use --resample to interpolate onto the first block's axis, or export every block on one axis", "%s: %s", b.name(sp), describeAxisMismatch(sp.Axis, first.Axis, b.name(first)))
+	}
+	vals, err := Resample(sp.Axis, sp.Values, first.Axis)
+	if err != nil {
+		return nil, inputErr(b.path, 0, "export the spectra over overlapping ranges", "%s: cannot resample: %v", b.name(sp), err)
+	}
+	return vals, nil
 }
 
 // allAcquired tells whether every spectrum carries its acquisition time
