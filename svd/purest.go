@@ -114,25 +114,61 @@ func purityScale(mu, sd []float64, alpha float64) (purity, scale []float64) {
 // over the rows of P Qᵀ, a block at a time. Same definitions as Purest,
 // so the same channels up to rounding.
 func PurestLowRank(p, q *mat.Dense, k int, offsetPercent float64, signed bool) ([]int, error) {
+	if err := checkLowRankArgs(p, q, k, offsetPercent); err != nil {
+		return nil, err
+	}
+	cols := lowRankColumnStats(p, q)
+	mu := cols.mean
+	if signed {
+		mu = meanAbsColumns(p, q)
+	}
+	muMax := 0.0
+	for _, v := range mu {
+		muMax = math.Max(muMax, v)
+	}
+	purity, scale := purityScale(mu, cols.sd, offsetPercent/100*muMax)
+	return choosePurest(k, purity, cols.diag(scale), cols.crossRow(scale))
+}
+
+// checkLowRankArgs refuses factors that do not multiply, an impossible
+// number of channels, an offset that is not a finite percentage, and
+// factors with non-finite entries.
+func checkLowRankArgs(p, q *mat.Dense, k int, offsetPercent float64) error {
 	n, r := p.Dims()
 	m, rq := q.Dims()
 	if rq != r || n == 0 || m == 0 || r == 0 {
-		return nil, fmt.Errorf("svd: purest variables: factors %d × %d and %d × %d do not fit", n, r, m, rq)
+		return fmt.Errorf("svd: purest variables: factors %d × %d and %d × %d do not fit", n, r, m, rq)
 	}
 	if k < 1 || k > m {
-		return nil, fmt.Errorf("svd: purest variables: k = %d outside 1..%d", k, m)
+		return fmt.Errorf("svd: purest variables: k = %d outside 1..%d", k, m)
 	}
 	if offsetPercent < 0 || math.IsNaN(offsetPercent) || math.IsInf(offsetPercent, 0) {
-		return nil, fmt.Errorf("svd: purest variables: offset %v%% must be finite and ≥ 0", offsetPercent)
+		return fmt.Errorf("svd: purest variables: offset %v%% must be finite and ≥ 0", offsetPercent)
 	}
 	if err := checkMatrix(p); err != nil {
-		return nil, fmt.Errorf("svd: purest variables: %w", err)
+		return fmt.Errorf("svd: purest variables: %w", err)
 	}
 	if err := checkMatrix(q); err != nil {
-		return nil, fmt.Errorf("svd: purest variables: %w", err)
+		return fmt.Errorf("svd: purest variables: %w", err)
 	}
-	// Column means mean_j = p̄ · q_j, and the centred Gram Gc = (P − 1p̄ᵀ)ᵀ(P − 1p̄ᵀ)/n,
-	// so σ_j² = q_jᵀ Gc q_j without the cancellation of E[x²] − mean².
+	return nil
+}
+
+// lowRankColumns holds the column statistics of P Qᵀ that SIMPLISMA needs,
+// each from the factors alone.
+type lowRankColumns struct {
+	q  *mat.Dense // m × r; row j is q_j
+	gq *mat.Dense // m × r; row j is (Gc q_j)ᵀ
+	// Each column's mean p̄ · q_j, standard deviation and mean square E[x²].
+	mean, sd, sq []float64
+}
+
+// lowRankColumnStats forms the column means mean_j = p̄ · q_j and the
+// centred Gram Gc = (P − 1p̄ᵀ)ᵀ(P − 1p̄ᵀ)/n, so that σ_j² = q_jᵀ Gc q_j
+// without the cancellation of E[x²] − mean².
+func lowRankColumnStats(p, q *mat.Dense) *lowRankColumns {
+	n, r := p.Dims()
+	m, _ := q.Dims()
 	pbar := make([]float64, r)
 	for i := 0; i < n; i++ {
 		for l, v := range p.RawRowView(i) {
@@ -152,54 +188,64 @@ func PurestLowRank(p, q *mat.Dense, k int, offsetPercent float64, signed bool) (
 	var gc mat.Dense
 	gc.Mul(pc.T(), pc)
 	gc.Scale(1/float64(n), &gc)
-	mean, mu, sd, sq := make([]float64, m), make([]float64, m), make([]float64, m), make([]float64, m)
-	gq := mat.NewDense(m, r, nil)
-	gq.Mul(q, &gc) // row j: (Gc q_j)ᵀ
+	c := &lowRankColumns{q: q, gq: mat.NewDense(m, r, nil),
+		mean: make([]float64, m), sd: make([]float64, m), sq: make([]float64, m)}
+	c.gq.Mul(q, &gc)
 	for j := 0; j < m; j++ {
 		qj := q.RawRowView(j)
-		mean[j] = dot(pbar, qj)
-		v := math.Max(0, dot(gq.RawRowView(j), qj))
-		sd[j] = math.Sqrt(v)
-		sq[j] = v + mean[j]*mean[j] // E[x²]
+		c.mean[j] = dot(pbar, qj)
+		v := math.Max(0, dot(c.gq.RawRowView(j), qj))
+		c.sd[j] = math.Sqrt(v)
+		c.sq[j] = v + c.mean[j]*c.mean[j]
 	}
-	if signed {
-		const block = 64
-		buf := mat.NewDense(min(block, n), m, nil)
-		for i0 := 0; i0 < n; i0 += block {
-			i1 := min(i0+block, n)
-			b := buf.Slice(0, i1-i0, 0, m).(*mat.Dense)
-			b.Mul(p.Slice(i0, i1, 0, r), q.T())
-			for i := 0; i < i1-i0; i++ {
-				for j, v := range b.RawRowView(i) {
-					mu[j] += math.Abs(v)
-				}
+	return c
+}
+
+// meanAbsColumns gives each column's mean absolute value over the rows of
+// P Qᵀ, which no quadratic form gives: the rows are formed a block of 64
+// at a time so that no n × m matrix is held.
+func meanAbsColumns(p, q *mat.Dense) []float64 {
+	n, r := p.Dims()
+	m, _ := q.Dims()
+	mu := make([]float64, m)
+	const block = 64
+	buf := mat.NewDense(min(block, n), m, nil)
+	for i0 := 0; i0 < n; i0 += block {
+		i1 := min(i0+block, n)
+		b := buf.Slice(0, i1-i0, 0, m).(*mat.Dense)
+		b.Mul(p.Slice(i0, i1, 0, r), q.T())
+		for i := 0; i < i1-i0; i++ {
+			for j, v := range b.RawRowView(i) {
+				mu[j] += math.Abs(v)
 			}
 		}
-		for j := range mu {
-			mu[j] /= float64(n)
-		}
-	} else {
-		copy(mu, mean)
 	}
-	muMax := 0.0
-	for _, v := range mu {
-		muMax = math.Max(muMax, v)
+	for j := range mu {
+		mu[j] /= float64(n)
 	}
-	purity, scale := purityScale(mu, sd, offsetPercent/100*muMax)
-	diag := make([]float64, m)
+	return mu
+}
+
+// diag gives R_jj = s_j² E[x_j²] for the column scales s.
+func (c *lowRankColumns) diag(scale []float64) []float64 {
+	diag := make([]float64, len(scale))
 	for j := range diag {
-		diag[j] = scale[j] * scale[j] * sq[j]
+		diag[j] = scale[j] * scale[j] * c.sq[j]
 	}
-	// R[b, j] = s_b s_j E[x_b x_j] = s_b s_j (q_bᵀ Gc q_j + mean_b mean_j).
-	cross := func(best int) []float64 {
-		row := make([]float64, m)
-		gb := gq.RawRowView(best)
+	return diag
+}
+
+// crossRow gives row best of R: R[b, j] = s_b s_j E[x_b x_j] =
+// s_b s_j (q_bᵀ Gc q_j + mean_b mean_j), O(m r) per chosen channel.
+func (c *lowRankColumns) crossRow(scale []float64) func(best int) []float64 {
+	return func(best int) []float64 {
+		row := make([]float64, len(scale))
+		gb := c.gq.RawRowView(best)
 		for j := range row {
-			row[j] = scale[best] * scale[j] * (dot(gb, q.RawRowView(j)) + mean[best]*mean[j])
+			row[j] = scale[best] * scale[j] * (dot(gb, c.q.RawRowView(j)) + c.mean[best]*c.mean[j])
 		}
 		return row
 	}
-	return choosePurest(k, purity, diag, cross)
 }
 
 // choosePurest is SIMPLISMA's selection (see Purest) from the purities, the
