@@ -177,88 +177,120 @@ func ParseScheme(text string) (*Scheme, error) {
 	if err != nil {
 		return nil, err
 	}
-	s := &Scheme{Text: text}
-	index := map[string]int{}
-	p := 0
-	peek := func() token { return toks[p] }
-
-	// parseSide reads "coef? name (+ coef? name)*".
-	parseSide := func() (side, error) {
-		sd := side{col: peek().col}
-		for {
-			t := peek()
-			coef := 1.0
-			if t.kind == tokNumber {
-				if !(t.num > 0) {
-					return sd, &ParseError{t.col, fmt.Sprintf("coefficient %s must be positive", t.text)}
-				}
-				coef = t.num
-				p++
-				t = peek()
-			}
-			if t.kind != tokName {
-				return sd, &ParseError{t.col, fmt.Sprintf("expected a species name, found %s", t.kind)}
-			}
-			p++
-			id, ok := index[t.text]
-			if !ok {
-				id = len(s.Species)
-				index[t.text] = id
-				s.Species = append(s.Species, t.text)
-			}
-			merged := false
-			for i := range sd.terms {
-				if sd.terms[i].Species == id {
-					sd.terms[i].Coef += coef
-					merged = true
-				}
-			}
-			if !merged {
-				sd.terms = append(sd.terms, Term{Species: id, Coef: coef})
-			}
-			if peek().kind != tokPlus {
-				return sd, nil
-			}
-			p++
-		}
-	}
-
+	ps := &schemeParser{toks: toks, s: &Scheme{Text: text}, index: map[string]int{}}
 	for {
-		// One statement: side (-> side)+ ; empty statements (";;" or a trailing ';') are skipped.
-		for peek().kind == tokSemi {
-			p++
+		// Empty statements (";;" or a trailing ';') are skipped.
+		for ps.peek().kind == tokSemi {
+			ps.p++
 		}
-		if peek().kind == tokEnd {
+		if ps.peek().kind == tokEnd {
 			break
 		}
-		left, err := parseSide()
-		if err != nil {
+		if err := ps.statement(); err != nil {
 			return nil, err
 		}
-		if t := peek(); t.kind != tokArrow {
-			return nil, &ParseError{t.col, fmt.Sprintf("expected '->', found %s", t.kind)}
-		}
-		for peek().kind == tokArrow {
-			p++
-			right, err := parseSide()
-			if err != nil {
-				return nil, err
-			}
-			st, err := makeStep(s, left, right)
-			if err != nil {
-				return nil, err
-			}
-			s.Steps = append(s.Steps, st)
-			left = right
-		}
-		if t := peek(); t.kind != tokSemi && t.kind != tokEnd {
-			return nil, &ParseError{t.col, fmt.Sprintf("expected ';' or end of scheme, found %s %q", t.kind, t.text)}
-		}
 	}
-	if len(s.Steps) == 0 {
+	if len(ps.s.Steps) == 0 {
 		return nil, &ParseError{1, "no reaction steps"}
 	}
-	return s, nil
+	return ps.s, nil
+}
+
+// schemeParser walks the tokens of one scheme, p the next one, building s;
+// index numbers the species in the order they first appear.
+type schemeParser struct {
+	toks  []token
+	p     int
+	s     *Scheme
+	index map[string]int
+}
+
+func (ps *schemeParser) peek() token { return ps.toks[ps.p] }
+
+// statement reads "side (-> side)+" up to a ';' or the end: a chain gives
+// one step per arrow, each right side the next step's left.
+func (ps *schemeParser) statement() error {
+	left, err := ps.side()
+	if err != nil {
+		return err
+	}
+	if t := ps.peek(); t.kind != tokArrow {
+		return &ParseError{t.col, fmt.Sprintf("expected '->', found %s", t.kind)}
+	}
+	for ps.peek().kind == tokArrow {
+		ps.p++
+		right, err := ps.side()
+		if err != nil {
+			return err
+		}
+		st, err := makeStep(ps.s, left, right)
+		if err != nil {
+			return err
+		}
+		ps.s.Steps = append(ps.s.Steps, st)
+		left = right
+	}
+	if t := ps.peek(); t.kind != tokSemi && t.kind != tokEnd {
+		return &ParseError{t.col, fmt.Sprintf("expected ';' or end of scheme, found %s %q", t.kind, t.text)}
+	}
+	return nil
+}
+
+// side reads "coef? name (+ coef? name)*"; a species named twice on one
+// side ("A + A") is one term with the coefficients summed.
+func (ps *schemeParser) side() (side, error) {
+	sd := side{col: ps.peek().col}
+	for {
+		term, err := ps.term()
+		if err != nil {
+			return sd, err
+		}
+		merged := false
+		for i := range sd.terms {
+			if sd.terms[i].Species == term.Species {
+				sd.terms[i].Coef += term.Coef
+				merged = true
+			}
+		}
+		if !merged {
+			sd.terms = append(sd.terms, term)
+		}
+		if ps.peek().kind != tokPlus {
+			return sd, nil
+		}
+		ps.p++
+	}
+}
+
+// term reads "coef? name": a positive coefficient, 1 when none is written.
+func (ps *schemeParser) term() (Term, error) {
+	t := ps.peek()
+	coef := 1.0
+	if t.kind == tokNumber {
+		if !(t.num > 0) {
+			return Term{}, &ParseError{t.col, fmt.Sprintf("coefficient %s must be positive", t.text)}
+		}
+		coef = t.num
+		ps.p++
+		t = ps.peek()
+	}
+	if t.kind != tokName {
+		return Term{}, &ParseError{t.col, fmt.Sprintf("expected a species name, found %s", t.kind)}
+	}
+	ps.p++
+	return Term{Species: ps.species(t.text), Coef: coef}, nil
+}
+
+// species gives the index of a species by name, adding it to the scheme
+// at its first appearance.
+func (ps *schemeParser) species(name string) int {
+	id, ok := ps.index[name]
+	if !ok {
+		id = len(ps.s.Species)
+		ps.index[name] = id
+		ps.s.Species = append(ps.s.Species, name)
+	}
+	return id
 }
 
 func makeStep(s *Scheme, left, right side) (Step, error) {
