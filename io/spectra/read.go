@@ -625,12 +625,37 @@ func ReadSpectrumFile(path string) (*Spectrum, error) {
 	if len(lines) == 0 {
 		return nil, inputErr(path, 0, "export the spectrum as two columns: axis, value", "is empty")
 	}
+	start, title := findSpectrumData(lines)
+	if start < 0 {
+		return nil, inputErr(path, lines[0].n, "a spectrum file holds two numeric columns (axis, value), after at most a few title lines", "no numeric data in the first lines")
+	}
+	sep := detectSeparator(lines[start].text)
+	axis, vals, err := readSpectrumRows(path, lines[start:], sep)
+	if err != nil {
+		return nil, err
+	}
+	lineOf := func(i int) int { return lines[start+i].n }
+	if err := checkAxis(path, axis, lineOf); err != nil {
+		return nil, err
+	}
+	return &Spectrum{AxisName: title.axisName(sep, axis), Axis: axis, Values: vals, Source: path}, nil
+}
+
+// spectrumTitle is the last non-numeric line before a spectrum's data
+// that could be its column titles: its first cell in lower case, its
+// separator and its number of cells.
+type spectrumTitle struct {
+	first string
+	sep   byte
+	cells int
+}
+
+// findSpectrumData finds the first of the first 20 lines whose cells are
+// all numbers (-1 if none) and the column titles before it. The column
+// titles are the last non-numeric line before the data; earlier lines are
+// free-text titles.
+func findSpectrumData(lines []line) (start int, title spectrumTitle) {
 	var buf [][]byte
-	axisName := ""
-	var titleSep byte
-	titleCells := 0
-	start := -1
-	// Title lines: anything before the first line whose cells are all numbers.
 	for i, l := range lines {
 		if i >= 20 {
 			break
@@ -645,37 +670,37 @@ func ReadSpectrumFile(path string) (*Spectrum, error) {
 			}
 		}
 		if allNum {
-			start = i
-			break
+			return i, title
 		}
-		// The column titles are the last non-numeric line before the data;
-		// earlier lines are free-text titles.
 		if len(buf) >= 1 && len(buf) <= 3 && len(buf[0]) > 0 {
-			axisName = strings.ToLower(string(buf[0]))
-			titleSep, titleCells = sep, len(buf)
+			title = spectrumTitle{first: strings.ToLower(string(buf[0])), sep: sep, cells: len(buf)}
 		}
 	}
-	if start < 0 {
-		return nil, inputErr(path, lines[0].n, "a spectrum file holds two numeric columns (axis, value), after at most a few title lines", "no numeric data in the first lines")
-	}
-	sep := detectSeparator(lines[start].text)
-	axis := make([]float64, 0, len(lines)-start)
-	vals := make([]float64, 0, len(lines)-start)
-	for _, l := range lines[start:] {
+	return -1, title
+}
+
+// readSpectrumRows reads the axis and value columns of the data lines,
+// refusing the first row that is not two numbers, with a hint for the
+// decimal commas that split a comma-separated row into four cells.
+func readSpectrumRows(path string, rows []line, sep byte) (axis, vals []float64, err error) {
+	axis = make([]float64, 0, len(rows))
+	vals = make([]float64, 0, len(rows))
+	var buf [][]byte
+	for _, l := range rows {
 		buf = fields(l.text, sep, buf)
 		if len(buf) != 2 {
 			if len(buf) == 1 && sep == ' ' {
-				return nil, inputErr(path, l.n, "give two columns: axis, value", "row has one column")
+				return nil, nil, inputErr(path, l.n, "give two columns: axis, value", "row has one column")
 			}
 			hint := "a spectrum file holds exactly two columns: axis, value"
 			if sep == ',' && len(buf) == 4 && looksLikeDecimalComma(append(append([]byte{}, buf[0]...), append([]byte{','}, buf[1]...)...)) {
 				hint = "the file seems to use decimal commas: use a semicolon or tab separator, or decimal points"
 			}
-			return nil, inputErr(path, l.n, hint, "row has %d columns", len(buf))
+			return nil, nil, inputErr(path, l.n, hint, "row has %d columns", len(buf))
 		}
 		x, err := parseCell(buf[0], sep)
 		if err != nil {
-			return nil, inputErr(path, l.n, "the first column must be the axis value", "axis cell: %v", err)
+			return nil, nil, inputErr(path, l.n, "the first column must be the axis value", "axis cell: %v", err)
 		}
 		y, err := parseCell(buf[1], sep)
 		if err != nil {
@@ -683,24 +708,25 @@ func ReadSpectrumFile(path string) (*Spectrum, error) {
 			if looksLikeDecimalComma(buf[1]) {
 				hint = "the file seems to use decimal commas: export with decimal points"
 			}
-			return nil, inputErr(path, l.n, hint, "value cell: %v", err)
+			return nil, nil, inputErr(path, l.n, hint, "value cell: %v", err)
 		}
 		axis = append(axis, x)
 		vals = append(vals, y)
 	}
-	lineOf := func(i int) int { return lines[start+i].n }
-	if err := checkAxis(path, axis, lineOf); err != nil {
-		return nil, err
-	}
-	name := cleanAxisName(axisName, axis)
-	// A line that names no known axis is a column title only if it is laid
-	// out like the data (two cells, same separator) and has no digits:
-	// "x,y" is, "Run 7" is not; "Wavenumber (cm-1)" is, digits and all.
+	return axis, vals, nil
+}
+
+// axisName names the axis from the column titles, or guesses it from the
+// values. A line that names no known axis is a column title only if it is
+// laid out like the data (two cells, the data's separator sep) and has no
+// digits: "x,y" is, "Run 7" is not; "Wavenumber (cm-1)" is, digits and all.
+func (t spectrumTitle) axisName(sep byte, axis []float64) string {
+	name := cleanAxisName(t.first, axis)
 	if name != "wavenumber" && name != "wavelength" &&
-		(strings.ContainsAny(axisName, "0123456789") || titleSep != sep || titleCells != 2) {
+		(strings.ContainsAny(t.first, "0123456789") || t.sep != sep || t.cells != 2) {
 		name = guessAxisName(axis)
 	}
-	return &Spectrum{AxisName: name, Axis: axis, Values: vals, Source: path}, nil
+	return name
 }
 
 // cleanAxisName maps a column title such as "Wavenumber (cm-1)" to the
