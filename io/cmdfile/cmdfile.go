@@ -162,89 +162,159 @@ func cannotRead(path string, err error) error {
 
 // Parse reads a command file's text. name is used in messages.
 func Parse(name string, src []byte, keys []Keyword) (*File, error) {
+	if err := checkPlainText(name, src); err != nil {
+		return nil, err
+	}
+	src = bytes.TrimPrefix(src, []byte("\ufeff"))
+	p := newParser(name, keys)
+	for i, raw := range strings.Split(string(src), "\n") {
+		if err := p.line(i+1, strings.TrimSuffix(raw, "\r")); err != nil {
+			return nil, err
+		}
+	}
+	return p.f, nil
+}
+
+// checkPlainText refuses a file too large or not UTF-8 before any line is
+// read: such a file is not a command file, whatever its lines say.
+func checkPlainText(name string, src []byte) error {
 	if len(src) > MaxBytes {
-		return nil, &Error{File: name, Msg: fmt.Sprintf("is %d bytes; a command file is small plain text (at most %d bytes)", len(src), MaxBytes)}
+		return &Error{File: name, Msg: fmt.Sprintf("is %d bytes; a command file is small plain text (at most %d bytes)", len(src), MaxBytes)}
 	}
 	if !utf8.Valid(src) {
 		line := 1 + bytes.Count(src[:firstInvalid(src)], []byte{'\n'})
-		return nil, &Error{File: name, Line: line, Msg: "is not UTF-8 text; save the command file as UTF-8 plain text"}
+		return &Error{File: name, Line: line, Msg: "is not UTF-8 text; save the command file as UTF-8 plain text"}
 	}
-	src = bytes.TrimPrefix(src, []byte("\ufeff"))
+	return nil
+}
+
+// parser reads a command file a line at a time into f; seen holds the
+// line each setting was first given on, for the message about a repeat.
+type parser struct {
+	name   string
+	keys   []Keyword
+	byName map[string]Keyword
+	f      *File
+	seen   map[string]int
+}
+
+func newParser(name string, keys []Keyword) *parser {
 	byName := make(map[string]Keyword, len(keys))
 	for _, k := range keys {
 		byName[k.Name] = k
 	}
-	f := &File{Name: name}
-	seen := map[string]int{}
-	for i, raw := range strings.Split(string(src), "\n") {
-		ln := i + 1
-		text := strings.TrimSuffix(raw, "\r")
-		if c, col := badChar(text); c >= 0 {
-			return nil, &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("control character %U; a command file holds plain text only", c)}
-		}
-		l := []rune(text)
-		p := skipSpace(l, 0)
-		if p == len(l) || l[p] == '#' {
-			continue
-		}
-		start := p
-		for p < len(l) && !isSpace(l[p]) && !(l[p] == '#' && p > start && isSpace(l[p-1])) {
-			p++
-		}
-		key := string(l[start:p])
-		kcol := start + 1
-		if err := checkKeyword(name, ln, kcol, key, byName, keys); err != nil {
-			return nil, err
-		}
-		vstart := skipSpace(l, p)
-		value, quoted, err := parseValue(name, ln, l, vstart)
-		if err != nil {
-			return nil, err
-		}
-		vcol := vstart + 1
-		hasValue := quoted || value != ""
-		if key == PathsFrom {
-			if f.PathsFromLine > 0 {
-				return nil, &Error{File: name, Line: ln, Col: kcol, Msg: fmt.Sprintf("%s given twice (first on line %d)", PathsFrom, f.PathsFromLine)}
-			}
-			if len(f.Entries) > 0 {
-				return nil, &Error{File: name, Line: ln, Col: kcol, Msg: fmt.Sprintf("%s must come before the first setting (line %d), so every path reads the same way", PathsFrom, f.Entries[0].Line)}
-			}
-			if !hasValue || value == "" {
-				return nil, &Error{File: name, Line: ln, Col: kcol, Msg: PathsFrom + " needs a folder, e.g. paths-from ../data"}
-			}
-			if err := checkRead(name, ln, vcol, value); err != nil {
-				return nil, err
-			}
-			f.PathsFrom, f.PathsFromLine = value, ln
-			continue
-		}
-		k := byName[key]
-		if !hasValue {
-			if !k.Switch {
-				return nil, &Error{File: name, Line: ln, Col: kcol, Msg: fmt.Sprintf("%s needs a value, e.g. %s", key, example(k))}
-			}
-			value, vcol = "on", 0
-		}
-		if prev, dup := seen[key]; dup && !k.Multi {
-			return nil, &Error{File: name, Line: ln, Col: kcol, Msg: fmt.Sprintf("%s is set twice (first on line %d); only data, region and exclude may repeat", key, prev)}
-		}
-		seen[key] = ln
-		if value != "" && k.Path != NotPath && !isWord(k, value) {
-			switch k.Path {
-			case ReadPath:
-				if err := checkRead(name, ln, vcol, value); err != nil {
-					return nil, err
-				}
-			case WritePath:
-				if err := checkWrite(name, ln, vcol, f.PathsFrom, value); err != nil {
-					return nil, err
-				}
-			}
-		}
-		f.Entries = append(f.Entries, Entry{Key: key, Value: value, Quoted: quoted, Line: ln, Col: kcol, ValueCol: vcol})
+	return &parser{name: name, keys: keys, byName: byName, f: &File{Name: name}, seen: map[string]int{}}
+}
+
+// statement is one line's keyword and value with their 1-based columns
+// (vcol 0 for a switch given without a value) and the line's number.
+type statement struct {
+	key    string
+	kcol   int
+	value  string
+	quoted bool
+	vcol   int
+	ln     int
+}
+
+// line reads line ln: blank lines and comments are skipped, paths-from is
+// the directive, anything else a setting.
+func (p *parser) line(ln int, text string) error {
+	if c, col := badChar(text); c >= 0 {
+		return &Error{File: p.name, Line: ln, Col: col, Msg: fmt.Sprintf("control character %U; a command file holds plain text only", c)}
 	}
-	return f, nil
+	l := []rune(text)
+	start := skipSpace(l, 0)
+	if start == len(l) || l[start] == '#' {
+		return nil
+	}
+	st, err := p.statement(ln, l, start)
+	if err != nil {
+		return err
+	}
+	if st.key == PathsFrom {
+		return p.pathsFrom(st)
+	}
+	return p.setting(st)
+}
+
+// statement reads the keyword that starts at column start+1 of l, checks
+// it is one the file may hold, and reads its value.
+func (p *parser) statement(ln int, l []rune, start int) (statement, error) {
+	end := start
+	for end < len(l) && !isSpace(l[end]) && !(l[end] == '#' && end > start && isSpace(l[end-1])) {
+		end++
+	}
+	st := statement{key: string(l[start:end]), kcol: start + 1, ln: ln}
+	if err := checkKeyword(p.name, ln, st.kcol, st.key, p.byName, p.keys); err != nil {
+		return st, err
+	}
+	vstart := skipSpace(l, end)
+	var err error
+	if st.value, st.quoted, err = parseValue(p.name, ln, l, vstart); err != nil {
+		return st, err
+	}
+	st.vcol = vstart + 1
+	return st, nil
+}
+
+// hasValue tells whether the line gives a value: a quoted ” is one.
+func (st statement) hasValue() bool { return st.quoted || st.value != "" }
+
+// pathsFrom takes the directive: once, before the first setting so that
+// every path reads the same way, and naming a local folder.
+func (p *parser) pathsFrom(st statement) error {
+	if p.f.PathsFromLine > 0 {
+		return &Error{File: p.name, Line: st.ln, Col: st.kcol, Msg: fmt.Sprintf("%s given twice (first on line %d)", PathsFrom, p.f.PathsFromLine)}
+	}
+	if len(p.f.Entries) > 0 {
+		return &Error{File: p.name, Line: st.ln, Col: st.kcol, Msg: fmt.Sprintf("%s must come before the first setting (line %d), so every path reads the same way", PathsFrom, p.f.Entries[0].Line)}
+	}
+	if !st.hasValue() || st.value == "" {
+		return &Error{File: p.name, Line: st.ln, Col: st.kcol, Msg: PathsFrom + " needs a folder, e.g. paths-from ../data"}
+	}
+	if err := checkRead(p.name, st.ln, st.vcol, st.value); err != nil {
+		return err
+	}
+	p.f.PathsFrom, p.f.PathsFromLine = st.value, st.ln
+	return nil
+}
+
+// setting takes one setting: a bare switch means on, only keywords that
+// may repeat are given twice, and a path is checked where it is given.
+func (p *parser) setting(st statement) error {
+	k := p.byName[st.key]
+	if !st.hasValue() {
+		if !k.Switch {
+			return &Error{File: p.name, Line: st.ln, Col: st.kcol, Msg: fmt.Sprintf("%s needs a value, e.g. %s", st.key, example(k))}
+		}
+		st.value, st.vcol = "on", 0
+	}
+	if prev, dup := p.seen[st.key]; dup && !k.Multi {
+		return &Error{File: p.name, Line: st.ln, Col: st.kcol, Msg: fmt.Sprintf("%s is set twice (first on line %d); only data, region and exclude may repeat", st.key, prev)}
+	}
+	p.seen[st.key] = st.ln
+	if err := p.checkPath(k, st); err != nil {
+		return err
+	}
+	p.f.Entries = append(p.f.Entries, Entry{Key: st.key, Value: st.value, Quoted: st.quoted, Line: st.ln, Col: st.kcol, ValueCol: st.vcol})
+	return nil
+}
+
+// checkPath checks a path setting's value, unless it is one of the
+// keyword's words: inputs must be local, the output folder inside the
+// file's folder.
+func (p *parser) checkPath(k Keyword, st statement) error {
+	if st.value == "" || k.Path == NotPath || isWord(k, st.value) {
+		return nil
+	}
+	switch k.Path {
+	case ReadPath:
+		return checkRead(p.name, st.ln, st.vcol, st.value)
+	case WritePath:
+		return checkWrite(p.name, st.ln, st.vcol, p.f.PathsFrom, st.value)
+	}
+	return nil
 }
 
 func firstInvalid(b []byte) int {
