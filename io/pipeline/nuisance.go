@@ -476,15 +476,6 @@ func parseDrops(r *Result) ([]SetAside, error) {
 // (model nil), a row takes the mean of its kept neighbours in the same experiment.
 func imputeRows(r *Result, rows []SetAside, res *mcr.Result, shapes *mat.Dense) {
 	_, m := r.D.Dims()
-	if len(rows) > 0 {
-		// D changes: the assembly's check of the differences against it
-		// no longer holds (borrowDifference makes its own).
-		for _, e := range r.Experiments {
-			if e.Assembled != nil {
-				e.Assembled.DifferenceOffset = nil
-			}
-		}
-	}
 	for _, sa := range rows {
 		i := sa.Row
 		vals := make([]float64, m)

@@ -85,13 +85,6 @@ type Assembled struct {
 	// AbsoluteTop is the largest value of Absolute per channel (a NaN
 	// counts for nothing), taken as it was formed; nil when not taken.
 	AbsoluteTop []float64
-	// DifferenceOffset, when not nil, is the spectrum g = A₀ − ΔA₀ (the
-	// first row of Absolute less that of Difference) of which every row of
-	// Difference was found, as the two were formed, to be its row of
-	// Absolute less to rounding (DifferenceRow): single beams with a blank
-	// and no blind points. Whoever changes either matrix afterwards sets it
-	// to nil.
-	DifferenceOffset []float64
 }
 
 // AssembleOptions gather what assembly needs besides the series.
@@ -475,13 +468,10 @@ func selectKth(c []float64, k int) float64 {
 // While each row is in cache it also says whether every value formed is
 // finite (finite), and takes the largest absolute absorbance per channel
 // over the points that are not blind (top, nil without abs): the pipeline
-// would otherwise read both matrices again for them. With abs and without
-// blind points it checks each difference row against its absolute row less
-// the first row's offset g (offset; see Assembled.DifferenceOffset), nil when
-// a row fails or nothing was checked. A maximum and a conjunction are the
-// same whatever the order of the rows. A chunk's panic is raised again here
-// once every worker has ended (the lowest chunk's).
-func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense, blind *Blind) (finite bool, top, offset []float64) {
+// would otherwise read both matrices again for them. A maximum and a
+// conjunction are the same whatever the order of the rows. A chunk's panic
+// is raised again here once every worker has ended (the lowest chunk's).
+func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense, blind *Blind) (finite bool, top []float64) {
 	n, m := v.Dims()
 	const chunk = 64
 	nch := (n + chunk - 1) / chunk
@@ -492,12 +482,11 @@ func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense, blind
 	close(work)
 	finite = true
 	if abs != nil {
-		top = filled(m, math.Inf(-1))
-		if n > 0 && (blind == nil || blind.Count == 0) {
-			offset = firstRowOffset(v.RawRowView(0), ref, blank)
+		top = make([]float64, m)
+		for j := range top {
+			top[j] = math.Inf(-1)
 		}
 	}
-	same := true // every row checked against offset passed
 	var mu sync.Mutex
 	var wg sync.WaitGroup
 	var fault fanout.Fault // a chunk's panic, raised again below
@@ -507,19 +496,45 @@ func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense, blind
 			defer wg.Done()
 			c := 0
 			defer fault.Catch(&c)
-			rows := absorbanceRows{v: v, ref: ref, blank: blank, diff: diff, abs: abs, blind: blind, offset: offset, finite: true, same: true}
+			wf := true
+			var wt []float64
 			if abs != nil {
-				rows.top = filled(m, math.Inf(-1))
+				wt = make([]float64, m)
+				for j := range wt {
+					wt[j] = math.Inf(-1)
+				}
 			}
 			for c = range work {
 				for i := c * chunk; i < min(n, (c+1)*chunk); i++ {
-					rows.form(i)
+					row := v.RawRowView(i)
+					d := diff.RawRowView(i)
+					// Each ratio and its logarithm four at once, checked
+					// for finiteness in the same pass (vecmath: bit for
+					// bit Go's division and math.Log10). The differences
+					// before the absolute ones, which may overwrite the
+					// beams.
+					rf := vecmath.Log10Quo(d, ref, row)
+					if abs != nil {
+						a := abs.RawRowView(i)
+						var af bool
+						if bl := blind.row(i); len(bl) == 0 {
+							// The usual row: its maxima in the same pass,
+							// as observedMax takes them (a logarithm is
+							// never −0, so max and > agree).
+							af = vecmath.Log10QuoMax(a, blank, row, wt)
+						} else {
+							af = vecmath.Log10Quo(a, blank, row)
+							observedMax(wt, a, bl, af)
+						}
+						rf = rf && af
+					}
+					wf = wf && rf
 				}
 			}
 			mu.Lock()
 			defer mu.Unlock()
-			finite, same = finite && rows.finite, same && rows.same
-			for j, x := range rows.top {
+			finite = finite && wf
+			for j, x := range wt {
 				if x > top[j] {
 					top[j] = x
 				}
@@ -528,72 +543,7 @@ func absorbances(v *mat.Dense, ref, blank []float64, diff, abs *mat.Dense, blind
 	}
 	wg.Wait()
 	fault.Raise()
-	if !same {
-		offset = nil
-	}
-	return finite, top, offset
-}
-
-// filled is a new slice of m values x.
-func filled(m int, x float64) []float64 {
-	s := make([]float64, m)
-	for j := range s {
-		s[j] = x
-	}
-	return s
-}
-
-// firstRowOffset is log10(blank/I₀) − log10(ref/I₀) for the first beam I₀,
-// each logarithm as absorbances forms it (vecmath's, bit for bit
-// math.Log10 of Go's quotient: the values the first rows of abs and diff
-// get), before anything is overwritten.
-func firstRowOffset(row, ref, blank []float64) []float64 {
-	g, d := make([]float64, len(row)), make([]float64, len(row))
-	vecmath.Log10Quo(g, blank, row)
-	vecmath.Log10Quo(d, ref, row)
-	for j := range g {
-		g[j] -= d[j]
-	}
-	return g
-}
-
-// absorbanceRows is one worker's share of absorbances: what it forms rows
-// into, and what it has found of the rows it formed.
-type absorbanceRows struct {
-	v, diff, abs       *mat.Dense
-	ref, blank, offset []float64
-	blind              *Blind
-	finite, same       bool      // every value finite; every row checked passed
-	top                []float64 // the largest absolute absorbance per channel
-}
-
-// form forms row i of diff and abs, with its checks and maxima.
-func (w *absorbanceRows) form(i int) {
-	row := w.v.RawRowView(i)
-	d := w.diff.RawRowView(i)
-	// Each ratio and its logarithm four at once, checked for finiteness
-	// in the same pass (vecmath: bit for bit Go's division and
-	// math.Log10). The differences before the absolute ones, which may
-	// overwrite the beams.
-	rf := vecmath.Log10Quo(d, w.ref, row)
-	if w.abs == nil {
-		w.finite = w.finite && rf
-		return
-	}
-	a := w.abs.RawRowView(i)
-	var af bool
-	if bl := w.blind.row(i); len(bl) == 0 {
-		// The usual row: its maxima in the same pass, as observedMax
-		// takes them (a logarithm is never −0, so max and > agree).
-		af = vecmath.Log10QuoMax(a, w.blank, row, w.top)
-	} else {
-		af = vecmath.Log10Quo(a, w.blank, row)
-		observedMax(w.top, a, bl, af)
-	}
-	w.finite = w.finite && rf && af
-	if w.offset != nil && w.same {
-		w.same = DifferenceRow(a, d, w.offset)
-	}
+	return finite, top
 }
 
 // observedMax raises top[j] to a[j] at the channels j not in bl (ascending),
@@ -645,30 +595,4 @@ func AllFinite(v []float64) bool {
 		s0 += v[j] - v[j]
 	}
 	return s0+s1+s2+s3 == 0
-}
-
-// DifferenceRow says whether the difference row b is the absorbance row a
-// less g to rounding: |a_j − g_j − b_j| ≤ 2⁻⁴⁶ (1 + |a_j| + |g_j| + |b_j|) at
-// every point, a few roundings (64 ulps) of the terms' size, or of 1:
-// logarithms of ratios near 1 err by about eps/ln 10 in absorbance whatever
-// their own size. The bound is never below 2⁻⁴⁶, so a row whose largest
-// |a_j − g_j − b_j| is within 2⁻⁴⁶ passes without it (a NaN passes either
-// way: it fails no comparison), one subtraction pair and a comparison per
-// point instead of four absolute values and three sums.
-//
-// The largest |a_j − g_j − b_j| is vecmath.WorstOffset's, four points at a
-// time: the Go loop that took it was bound by its compare and branch per
-// point more than by reading the rows (about 4.5 ms of CPU for 2000 × 3001
-// with the rows in cache, 6 ms read from memory).
-func DifferenceRow(a, b, g []float64) bool {
-	a, b = a[:len(g)], b[:len(g)]
-	if vecmath.WorstOffset(a, b, g) <= 0x1p-46 {
-		return true
-	}
-	for j, gj := range g {
-		if math.Abs(a[j]-gj-b[j]) > 0x1p-46*(1+math.Abs(a[j])+math.Abs(gj)+math.Abs(b[j])) {
-			return false
-		}
-	}
-	return true
 }

@@ -1536,8 +1536,7 @@ func fitAbsorbanceWeights(values *mat.Dense, v *absorbanceVariances, blind *Blin
 // writeAbsorbances forms both matrices from the beams and fills their blind
 // points from the low-rank model.
 func writeAbsorbances(s *Series, ref, blank []float64, blind *Blind, out *Assembled) {
-	finite, absTop, offset := absorbances(s.Values, ref, blank, out.Difference, out.Absolute, blind)
-	out.DifferenceOffset = offset // nil with blind points, whose filling is below
+	finite, absTop := absorbances(s.Values, ref, blank, out.Difference, out.Absolute, blind)
 	fillBlind(out.Difference, blind, s.Times)
 	if out.Absolute != nil {
 		fillBlind(out.Absolute, blind, s.Times)
