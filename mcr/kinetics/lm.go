@@ -128,6 +128,10 @@ type lmSolver struct {
 	fnorm float64   // ‖r‖
 	J     *mat.Dense
 	held  []bool // parameters the residual did not depend on at x0, nil none
+	// heldAtStart and x0: what was held at x0 and x0 itself, for the final
+	// refresh (finalJacobian); nil when nothing was held.
+	heldAtStart []bool
+	x0          []float64
 
 	diag               []float64 // D: the running maximum of J's column norms
 	delta, xnorm, par  float64   // trust radius Δ, ‖D x‖, Marquardt λ
@@ -191,6 +195,30 @@ func (s *lmSolver) jacobian() error {
 	return nil
 }
 
+// finalJacobian is the refresh at the returned point. It releases nothing,
+// and holds again what was held at x0 and is still exactly at its start: a
+// parameter released when the iteration ended before a step moved it (the
+// iteration limit, or a tolerance met on the step after its release) has
+// not been fitted, so it stays held and gets no variance.
+func (s *lmSolver) finalJacobian() error {
+	if err := s.jacobianAt(s.x); err != nil {
+		return fmt.Errorf("kinetics: levenberg-marquardt: jacobian: %w", err)
+	}
+	for j, h := range s.heldAtStart {
+		if h && s.x[j] == s.x0[j] {
+			if s.held == nil {
+				s.held = make([]bool, len(s.x))
+			}
+			s.held[j] = true
+		}
+	}
+	if s.heldAtStart != nil {
+		s.res.Held = s.held
+	}
+	zeroHeld(s.J, s.held)
+	return nil
+}
+
 // releaseHeld lets go of the held parameters whose column in the fresh J is
 // no longer at rounding level. The residual can come to depend on a
 // parameter it did not depend on at x0 (y = a·exp(−k t) from a = 0: the
@@ -247,6 +275,10 @@ func (s *lmSolver) holdFlatColumns() {
 	s.held = heldColumns(s.J)
 	zeroHeld(s.J, s.held)
 	s.res.Held = s.held
+	if s.held != nil {
+		s.heldAtStart = append([]bool(nil), s.held...)
+		s.x0 = append([]float64(nil), s.x...)
+	}
 }
 
 // factorJacobian forms J = QR (Householder, LAPACK geqrf), Qᵀr and the
@@ -345,13 +377,13 @@ func (s *lmSolver) step() (done bool, err error) {
 	for {
 		if s.iter >= s.set.MaxIter {
 			s.res.Reason = "iteration limit"
-			return true, s.jacobian()
+			return true, s.finalJacobian()
 		}
 		s.iter++
 		t := s.trial()
 		s.testConvergence(t)
 		if s.res.Converged {
-			return true, s.jacobian()
+			return true, s.finalJacobian()
 		}
 		if t.accepted {
 			return false, nil

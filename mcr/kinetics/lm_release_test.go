@@ -8,8 +8,8 @@ import (
 )
 
 // firstOrderDecay is y = a·exp(−k t), the analytic solution of da/dt = −k a
-// with a(0) = a. Its Jacobian column for k, −a·t·exp(−k t), is exactly
-// zero where a = 0, and only there.
+// with a(0) = a. The residual's Jacobian column for k, a·t·exp(−k t), is
+// exactly zero where a = 0, and only there.
 func firstOrderDecay(t []float64, y []float64) (ResidualFunc, JacobianFunc) {
 	f := func(x, r []float64) error {
 		for i, ti := range t {
@@ -59,5 +59,36 @@ func TestLMReleasesAParameterTheResidualComesToDependOn(t *testing.T) {
 		if res.Jacobian.At(1, 1) == 0 {
 			t.Errorf("analytic Jacobian %v: the column of k is zero at the solution", j != nil)
 		}
+	}
+}
+
+// TestLMKeepsHeldWhatItDidNotFit: stopped after one iteration from a = 0
+// (and with tolerances loose enough to stop there), k has not moved from its
+// start although its column is no longer zero at the returned point: it is
+// still held, so the fit gives it no variance (the definition of a held
+// parameter: LMResult.Held).
+func TestLMKeepsHeldWhatItDidNotFit(t *testing.T) {
+	times := []float64{0, 0.5, 1, 2, 3, 4, 6, 8, 10, 12}
+	y := make([]float64, len(times))
+	for i, ti := range times {
+		y[i] = 2 * math.Exp(-0.3*ti)
+	}
+	f, jac := firstOrderDecay(times, y)
+	unmoved := 0
+	for _, set := range []LMSettings{{MaxIter: 1}, {FTol: 0.99}, {XTol: 0.9}} {
+		res, err := LevenbergMarquardt(f, jac, []float64{0, 1}, len(times), set)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if res.X[1] != 1 {
+			continue // k was fitted: nothing to check here
+		}
+		unmoved++
+		if len(res.Held) != 2 || !res.Held[1] {
+			t.Errorf("%+v: k still at its start 1 (%s) but held %v, want k held", set, res.Reason, res.Held)
+		}
+	}
+	if unmoved == 0 {
+		t.Fatal("every stop moved k: the case of a parameter released but not fitted was not reached")
 	}
 }
