@@ -770,3 +770,28 @@ func readingTimes(b *testing.B, series, blank string) readTimes {
 	t.readWall, t.readCPU = time.Since(w0).Seconds(), cputime.Process()-c0
 	return t
 }
+
+// seriesOut names a folder to write the benchmark's 2000 × 3001 series and
+// blank into (TestWriteBenchmarkSeries), so that runs of the command line on
+// the very data the benchmarks time can be compared from one commit to the
+// next (testdata/perf/reference-runs.sh).
+var seriesOut = flag.String("series-out", "", "write the 2000 × 3001 benchmark series and blank into this folder")
+
+// TestWriteBenchmarkSeries writes the benchmark series when -series-out is
+// given, and checks that the file read back has the shape asked for.
+func TestWriteBenchmarkSeries(t *testing.T) {
+	if *seriesOut == "" {
+		t.Skip("run with -args -series-out DIR to write the 2000 × 3001 series")
+	}
+	if err := os.MkdirAll(*seriesOut, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	series, _ := writeLarge(t, *seriesOut, 2000, 3001, 5)
+	m, err := spectra.ReadMatrixCSV(series)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r, c := m.Values.Dims(); r != 2000 || c != 3001 {
+		t.Fatalf("series read back as %d × %d, want 2000 × 3001", r, c)
+	}
+}
