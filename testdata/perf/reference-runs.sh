@@ -9,11 +9,12 @@
 #   go test ./io/pipeline -run TestWriteBenchmarkSeries -args -series-out DIR
 # Compare two OUT folders with: diff -r --exclude manifest.json OUT1 OUT2
 # (the manifests differ in their start times, and the logs in the results
-# folder they name).
+# folder they name). REAL_DATA names the real-data folder when the
+# checkout is not beside shared/ (a worktree).
 set -euo pipefail
 bin=$(realpath "$1"); out=$(realpath -m "$2"); series=${3:-/tmp/bandsolve-series-2000x3001}
 here=$(cd "$(dirname "$0")/../.." && pwd)
-real=$here/../shared/real-data/urethane-atr # read-only, beside the clone
+real=${REAL_DATA:-$here/../shared/real-data}/urethane-atr # read-only, beside the clone
 if [ ! -s "$series/series.csv" ]; then
   (cd "$here" && go test ./io/pipeline -count=1 -run '^TestWriteBenchmarkSeries$' -args -series-out "$series")
 fi
