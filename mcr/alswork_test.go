@@ -119,41 +119,77 @@ type plainData struct{ Weighted }
 // gives the bits of the one through the Data interface (gramW and the
 // products formed anew every iteration) and of the one whose answers are
 // new matrices, with closure and without (the spectra's normalisation),
-// extrapolated and rejected steps included.
+// extrapolated and rejected steps included, and when it stops on a
+// rejected step.
 func TestResolveBuffersAreThePlainPath(t *testing.T) {
 	wc, c0 := benchWeightedCompressed(400, 501, 4)
 	for _, closure := range []bool{true, false} {
 		opt := Options{Mode: Species, Closure: closure, MaxIter: 60}
-		want, err := Resolve(plainData{wc}, c0, opt)
-		if err != nil {
-			t.Fatal(err)
+		res := resolveThreeWays(t, wc, c0, opt)
+		undone := lastUndone(res)
+		if undone == 0 {
+			t.Fatalf("closure %v: no extrapolated step was undone in %d iterations: the rejected steps are not covered", closure, res.Iterations)
 		}
-		got, err := Resolve(wc, c0, opt)
-		if err != nil {
-			t.Fatal(err)
-		}
-		if got.Iterations != want.Iterations || len(got.History) != len(want.History) {
-			t.Fatalf("closure %v: %d iterations (%d kept), want %d (%d)", closure, got.Iterations, len(got.History), want.Iterations, len(want.History))
-		}
-		if !vecmath.SameBitsMatrix(got.C, want.C) || !vecmath.SameBitsMatrix(got.S, want.S) || !vecmath.SameBits(got.History, want.History) {
-			t.Fatalf("closure %v: the resolution through the buffers differs", closure)
-		}
-		// A hard model that hands the profiles back unchanged turns off
-		// the answers' recycling (a model may keep what it is handed).
-		fresh := opt
-		fresh.HardModel = func(c *mat.Dense) (*mat.Dense, error) { return mat.DenseCopyOf(c), nil }
-		fresh.HardKept = func(bool) bool { return false }
-		again, err := Resolve(wc, c0, fresh)
-		if err != nil {
-			t.Fatal(err)
-		}
-		if !vecmath.SameBitsMatrix(got.C, again.C) || !vecmath.SameBitsMatrix(got.S, again.S) || !vecmath.SameBits(got.History, again.History) {
-			t.Fatalf("closure %v: the resolution with recycled answers differs from the one with fresh ones", closure)
-		}
-		if len(want.HistoryAt) == want.Iterations {
-			t.Logf("closure %v: no extrapolated step was undone in %d iterations", closure, want.Iterations)
+		// A rejected step restores the spectra it started from, and only
+		// a resolution that stops there returns them: every later
+		// iteration solves for new spectra before it reads the old ones.
+		// So only this run shows a spectra buffer handed out while it still
+		// held them (output's busy check).
+		opt.MaxIter = undone
+		res = resolveThreeWays(t, wc, c0, opt)
+		if res.Iterations != undone || lastUndone(res) != undone {
+			t.Fatalf("closure %v: the run to iteration %d stopped at %d, last undone %d: it does not stop on a rejected step", closure, undone, res.Iterations, lastUndone(res))
 		}
 	}
+}
+
+// resolveThreeWays resolves wc from c0 with the kept buffers, through the
+// Data interface and with fresh answers (recycling off), fails t unless
+// the three agree to the bit, and returns the first.
+func resolveThreeWays(t *testing.T, wc WeightedCompressed, c0 *mat.Dense, opt Options) *Result {
+	t.Helper()
+	want, err := Resolve(plainData{wc}, c0, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, err := Resolve(wc, c0, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got.Iterations != want.Iterations || len(got.History) != len(want.History) {
+		t.Fatalf("closure %v, %d iterations at most: %d iterations (%d kept), want %d (%d)", opt.Closure, opt.MaxIter, got.Iterations, len(got.History), want.Iterations, len(want.History))
+	}
+	if !vecmath.SameBitsMatrix(got.C, want.C) || !vecmath.SameBitsMatrix(got.S, want.S) || !vecmath.SameBits(got.History, want.History) {
+		t.Fatalf("closure %v, %d iterations at most: the resolution through the buffers differs", opt.Closure, opt.MaxIter)
+	}
+	// A hard model that hands the profiles back unchanged turns off the
+	// answers' recycling (a model may keep what it is handed).
+	fresh := opt
+	fresh.HardModel = func(c *mat.Dense) (*mat.Dense, error) { return mat.DenseCopyOf(c), nil }
+	fresh.HardKept = func(bool) bool { return false }
+	again, err := Resolve(wc, c0, fresh)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !vecmath.SameBitsMatrix(got.C, again.C) || !vecmath.SameBitsMatrix(got.S, again.S) || !vecmath.SameBits(got.History, again.History) {
+		t.Fatalf("closure %v, %d iterations at most: the resolution with recycled answers differs from the one with fresh ones", opt.Closure, opt.MaxIter)
+	}
+	return got
+}
+
+// lastUndone returns the last iteration of res that was not kept (absent
+// from HistoryAt), or 0 when every iteration was.
+func lastUndone(res *Result) int {
+	kept := make(map[int]bool, len(res.HistoryAt))
+	for _, it := range res.HistoryAt {
+		kept[it] = true
+	}
+	for it := res.Iterations; it > 0; it-- {
+		if !kept[it] {
+			return it
+		}
+	}
+	return 0
 }
 
 // normW is the weighted column norm √(Σ_i w_i x_ij²) (its definition, summed
