@@ -431,13 +431,12 @@ func Resolve(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 // alsRun is one resolution between its iterations: the data, the
 // constraints, the current iterate and what the stopping tests remember.
 type alsRun struct {
-	d          Data
-	opt        Options
-	cs         *alsConstraints
-	n, m, k    int
-	rowW, colW []float64 // row × column weights (Weighted data), else nil
-	total      float64   // ‖D‖²_F (weighted)
-	c, s       *mat.Dense
+	d       Data
+	opt     Options
+	cs      *alsConstraints
+	n, m, k int
+	total   float64 // ‖D‖²_F (weighted)
+	c, s    *mat.Dense
 	// cPrev: the profiles the last kept iteration started from, for the
 	// extrapolation (nil: the next iteration takes a plain step).
 	cPrev *mat.Dense
@@ -485,9 +484,6 @@ func newALSRun(d Data, c0 *mat.Dense, opt Options) (*alsRun, error) {
 	r := &alsRun{d: d, opt: opt, cs: cs, n: n, m: m, k: k, total: total,
 		c: mat.DenseCopyOf(c0), prev: math.Inf(1), best: math.Inf(1),
 		passS: make([]uint64, m), passC: make([]uint64, n), res: &Result{}}
-	// Row × column weights (Weighted data): the Gram matrices become CᵀAC
-	// and SᵀBS; the right-hand sides come weighted from d.
-	r.rowW, r.colW = weightsOf(d)
 	r.w = newALSWork(d, k)
 	// A hard model is handed the profiles and may keep them.
 	r.w.recycle = opt.HardModel == nil
@@ -620,7 +616,7 @@ func (r *alsRun) spectraHalf(it int) error {
 // for the residual's trace identity. cPlain: the profiles the iteration
 // started from, kept in case it is undone.
 func (r *alsRun) profilesHalf(it int, cPlain *mat.Dense) (*mat.Dense, *mat.SymDense, error) {
-	g, ds := r.w.spectraProducts(r.d, r.s, r.colW) // SᵀBS, D B S (n × k)
+	g, ds := r.w.spectraProducts(r.d, r.s) // SᵀBS, D B S (n × k)
 	gp := g
 	if r.opt.Ridge > 0 {
 		gp = ridged(g, r.opt.Ridge)
@@ -672,8 +668,8 @@ func unimodalProfiles(c *mat.Dense, unimodal []bool, blocks []int, tol float64) 
 // (D S and SᵀS from the profiles step, valid for the current S); weighted,
 // Σ a_i b_j e_ij² = ‖D‖²_w − 2 tr(Cᵀ A D B S) + tr(CᵀAC SᵀBS).
 func (r *alsRun) traceResidual(ds *mat.Dense, g *mat.SymDense) float64 {
-	tcd := traceScaled(r.c, r.rowW, ds)
-	tcs := traceProd(r.w.gramW(r.c, r.rowW), g)
+	tcd := traceScaled(r.c, r.w.rowW, ds)
+	tcs := traceProd(r.w.profilesGram(r.c), g)
 	ssr := r.total - 2*tcd + tcs
 	if ssr < 1e-6*(r.total+2*math.Abs(tcd)+math.Abs(tcs)) {
 		// The identity's terms cancel to within a millionth: rounding
@@ -691,7 +687,7 @@ func (r *alsRun) traceResidual(ds *mat.Dense, g *mat.SymDense) float64 {
 // is undone and the next takes a plain step, a plain one stops the
 // resolution (Result.Degenerate).
 func (r *alsRun) drifted(it int, cPlain, sPlain *mat.Dense, extrapolated bool) bool {
-	drift := componentSizeW(r.c, r.s, r.rowW, r.colW) / math.Sqrt(r.total)
+	drift := componentSizeW(r.c, r.s, r.w.rowW, r.w.colW) / math.Sqrt(r.total)
 	if !(drift > driftLimit) || sPlain == nil {
 		return false
 	}
@@ -912,7 +908,7 @@ func (cs *alsConstraints) zeroWindows(opt *Options, m, k int, known bool) error 
 // the right-hand sides Cᵀ A D (as the rows of Dᵀ A C).
 func (r *alsRun) spectraStep(it int) (*mat.Dense, error) {
 	cs := r.cs
-	g, bt := r.w.profilesProducts(r.d, r.c, r.rowW) // m × k
+	g, bt := r.w.profilesProducts(r.d, r.c) // m × k
 	if cs.softRef != nil {
 		g, bt = softKnown(g, bt, cs.softRef, cs.softW)
 	}

@@ -16,6 +16,8 @@ import (
 // scaled factor √A C was formed twice, once for CᵀAC and once inside the
 // product (docs/performance.md). What the buffers hold is used within the
 // iteration only: the profiles and spectra ALS keeps are never among them.
+// It also holds the data's weights, the run's only copy of them, so that
+// the half steps and the residual cannot be handed different ones.
 type alsWork struct {
 	svd     Compressed // the truncated SVD behind the data (U nil: other data)
 	yc, ys  *mat.Dense // √A C (n × k), √B S (m × k)
@@ -28,9 +30,12 @@ type alsWork struct {
 	// solver wrote it. Three profiles are enough (the new ones, those the
 	// iteration started from, the last kept iteration's start for the
 	// extrapolation), and two spectra (the new, the last kept).
-	cOut       [3]*mat.Dense
-	sOut       [2]*mat.Dense
-	recycle    bool
+	cOut    [3]*mat.Dense
+	sOut    [2]*mat.Dense
+	recycle bool
+	// rowW, colW: the data's row × column weights a and b (Weighted
+	// data), else nil: the Gram matrices become CᵀAC and SᵀBS, the
+	// right-hand sides Dᵀ A C and D B S.
 	rowW, colW []float64
 }
 
@@ -38,12 +43,12 @@ type alsWork struct {
 // truncated SVDs (the default run's data) take them.
 func newALSWork(d Data, k int) alsWork {
 	var w alsWork
+	w.rowW, w.colW = weightsOf(d)
 	switch c := d.(type) {
 	case Compressed:
 		w.svd = c
 	case WeightedCompressed:
 		w.svd = Compressed{U: c.U, Sigma: c.Sigma, V: c.V}
-		w.rowW, w.colW = c.Row, c.Col
 	default:
 		return w
 	}
@@ -60,9 +65,9 @@ func newALSWork(d Data, k int) alsWork {
 // profilesProducts returns CᵀAC and Dᵀ A C (m × k), the spectra step's
 // Gram matrix and right-hand sides, the same values as gramW and
 // d.MulProfiles; the product is w's until the next call.
-func (w *alsWork) profilesProducts(d Data, c *mat.Dense, rowW []float64) (*mat.SymDense, *mat.Dense) {
+func (w *alsWork) profilesProducts(d Data, c *mat.Dense) (*mat.SymDense, *mat.Dense) {
 	if w.svd.U == nil {
-		return gramW(c, rowW), d.MulProfiles(c)
+		return gramW(c, w.rowW), d.MulProfiles(c)
 	}
 	return w.sideProducts(c, w.yc, w.rowW, w.colW, w.svd.U, w.svd.V, w.rc, w.dtc)
 }
@@ -70,9 +75,9 @@ func (w *alsWork) profilesProducts(d Data, c *mat.Dense, rowW []float64) (*mat.S
 // spectraProducts returns SᵀBS and D B S (n × k), the profiles step's Gram
 // matrix and right-hand sides, the same values as gramW and d.MulSpectra;
 // the product is w's until the next call.
-func (w *alsWork) spectraProducts(d Data, s *mat.Dense, colW []float64) (*mat.SymDense, *mat.Dense) {
+func (w *alsWork) spectraProducts(d Data, s *mat.Dense) (*mat.SymDense, *mat.Dense) {
 	if w.svd.U == nil {
-		return gramW(s, colW), d.MulSpectra(s)
+		return gramW(s, w.colW), d.MulSpectra(s)
 	}
 	return w.sideProducts(s, w.ys, w.colW, w.rowW, w.svd.V, w.svd.U, w.rs, w.ds)
 }
@@ -96,15 +101,13 @@ func (w *alsWork) sideProducts(x, buf *mat.Dense, near, far []float64, toward, a
 	return g, out
 }
 
-// gramW is gramW(x, wt) with √W X formed in w's buffer when it fits.
-func (w *alsWork) gramW(x *mat.Dense, wt []float64) *mat.SymDense {
-	if wt == nil || w.yc == nil {
-		return gramW(x, wt)
+// profilesGram is CᵀAC, gramW(c, a), for profiles c (n × k), with √A C
+// formed in w's buffer on a weighted truncated SVD.
+func (w *alsWork) profilesGram(c *mat.Dense) *mat.SymDense {
+	if w.yc == nil {
+		return gramW(c, w.rowW)
 	}
-	if r, _ := x.Dims(); r != len(wt) {
-		return gramW(x, wt)
-	}
-	return gram(scaleRowsTo(w.yc, x, wt, 0.5))
+	return gram(scaleRowsTo(w.yc, c, w.rowW, 0.5))
 }
 
 // residualSS is residualSS(d, c, s, total, fallback) with the scaled

@@ -26,16 +26,16 @@ func TestALSWorkIsThePlainPath(t *testing.T) {
 		w := newALSWork(d, 4)
 		s := d.MulProfiles(c)
 		for pass := 0; pass < 2; pass++ { // the second pass reuses dirty buffers
-			g, dtc := w.profilesProducts(d, c, row)
+			g, dtc := w.profilesProducts(d, c)
 			if !vecmath.SameBitsMatrix(g, gramW(c, row)) || !vecmath.SameBitsMatrix(dtc, d.MulProfiles(c)) {
 				t.Fatalf("weighted %v pass %d: profiles' products differ from gramW and MulProfiles", weighted, pass)
 			}
-			g, ds := w.spectraProducts(d, s, col)
+			g, ds := w.spectraProducts(d, s)
 			if !vecmath.SameBitsMatrix(g, gramW(s, col)) || !vecmath.SameBitsMatrix(ds, d.MulSpectra(s)) {
 				t.Fatalf("weighted %v pass %d: spectra's products differ from gramW and MulSpectra", weighted, pass)
 			}
-			if !vecmath.SameBitsMatrix(w.gramW(c, row), gramW(c, row)) {
-				t.Fatalf("weighted %v: gramW in the buffer differs", weighted)
+			if !vecmath.SameBitsMatrix(w.profilesGram(c), gramW(c, row)) {
+				t.Fatalf("weighted %v: profilesGram in the buffer differs from gramW", weighted)
 			}
 			got, want := w.residualSS(d, c, s, 1e9, 7), residualSS(d, c, s, 1e9, 7)
 			if math.Float64bits(got) != math.Float64bits(want) {
