@@ -8,10 +8,10 @@ import (
 	"fmt"
 	"hash/adler32"
 	"hash/crc32"
-	"io"
 	"image"
 	"image/color"
 	"image/png"
+	"io"
 	"math/rand/v2"
 	"testing"
 )
