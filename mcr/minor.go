@@ -6,6 +6,7 @@ import (
 	"math"
 	"sort"
 
+	"github.com/bandsolve/bandsolve/internal/pvalue"
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -354,23 +355,30 @@ func edgeSignificance(x float64, p, q int) float64 {
 	a, b := math.Sqrt(float64(p)-0.5), math.Sqrt(float64(q)-0.5)
 	mu := (a + b) * (a + b)
 	sd := (a + b) * math.Cbrt(1/a+1/b)
-	z := (x-mu)/sd + 9.84801
-	if z <= 0 {
-		return 1
-	}
-	pv := 1 - distuv.Gamma{Alpha: 46.446, Beta: 1 / 0.186054}.CDF(z)
+	pv := tracyWidomUpper((x - mu) / sd)
 	if math.IsNaN(pv) {
 		return 1
 	}
 	return math.Min(math.Max(pv, 0), 1)
 }
 
+// tracyWidomUpper is P(TW₁ > s) by Chiani's shifted gamma (see edgeSignificance), taken
+// as the gamma's upper tail itself (the regularized upper incomplete gamma function), not
+// as 1 − CDF, which is 0 for every tail below 1e-16.
+func tracyWidomUpper(s float64) float64 {
+	z := s + 9.84801
+	if z <= 0 {
+		return 1
+	}
+	return distuv.Gamma{Alpha: 46.446, Beta: 1 / 0.186054}.Survival(z)
+}
+
 func (t *MinorTest) verdict(alpha float64) {
 	switch {
 	case !t.Significant:
-		t.Verdict = fmt.Sprintf("one more component lowers the weighted fit by %.3g σ², where noise alone would let it take about %.3g σ² (p = %.2g ≥ %g): not significantly, so not a species", t.Drop(), t.NoiseEdge, t.Significance, alpha)
+		t.Verdict = fmt.Sprintf("one more component lowers the weighted fit by %.3g σ², where noise alone would let it take about %.3g σ² (%s ≥ %g): not significantly, so not a species", t.Drop(), t.NoiseEdge, pvalue.Text(t.Significance), alpha)
 		t.Rule = fmt.Sprintf("noise alone would let one more component take about %.3g σ² from the weighted fit; a drop with p ≥ %g is not significant, so not a species", t.NoiseEdge, alpha)
-		t.Finding = fmt.Sprintf("it lowers the weighted fit by %.3g σ² (p = %.2g)", t.Drop(), t.Significance)
+		t.Finding = fmt.Sprintf("it lowers the weighted fit by %.3g σ² (%s)", t.Drop(), pvalue.Text(t.Significance))
 	case t.FitShare < minorVanished:
 		t.Verdict = "the extra component vanishes in the refit: not a species"
 		t.Rule = "an extra component that vanishes in the refit is not a species"
@@ -380,18 +388,18 @@ func (t *MinorTest) verdict(alpha float64) {
 		t.Rule = "a profile that lives in a few spectra marks spectra unlike the rest, not a species"
 		t.Finding = fmt.Sprintf("its profile lives in %d spectrum(s)", len(t.Spectra))
 	case t.ShiftShare >= minorShiftShare:
-		t.Verdict = fmt.Sprintf("it lowers the fit significantly (p = %.2g), but %.0f %% of what its spectrum adds to the others is their derivative: a band shift or change of band shape, which a species cannot be (it needs lobes of both signs), so not a species", t.Significance, 100*t.ShiftShare)
+		t.Verdict = fmt.Sprintf("it lowers the fit significantly (%s), but %.0f %% of what its spectrum adds to the others is their derivative: a band shift or change of band shape, which a species cannot be (it needs lobes of both signs), so not a species", pvalue.Text(t.Significance), 100*t.ShiftShare)
 		t.Rule = fmt.Sprintf("a component that lowers the fit significantly but adds to the others' spectra mostly (≥ %.0f %%) their derivative is a band shift or change of band shape, which a species cannot be (it needs lobes of both signs), so not a species", 100*minorShiftShare)
-		t.Finding = fmt.Sprintf("it lowers the fit by %.3g σ² (p = %.2g), and %.0f %% of what its spectrum adds to the others is their derivative", t.Drop(), t.Significance, 100*t.ShiftShare)
+		t.Finding = fmt.Sprintf("it lowers the fit by %.3g σ² (%s), and %.0f %% of what its spectrum adds to the others is their derivative", t.Drop(), pvalue.Text(t.Significance), 100*t.ShiftShare)
 	case !t.ownBand(alpha):
-		t.Verdict = fmt.Sprintf("it lowers the fit significantly (p = %.2g), but not with a band of its own: %s; a change of those bands' shape (a shift, broadening, hydrogen bonding) that no resolution can tell from a species hidden there, so not counted", t.Significance, t.ownBandWords())
+		t.Verdict = fmt.Sprintf("it lowers the fit significantly (%s), but not with a band of its own: %s; a change of those bands' shape (a shift, broadening, hydrogen bonding) that no resolution can tell from a species hidden there, so not counted", pvalue.Text(t.Significance), t.ownBandWords())
 		t.Rule = fmt.Sprintf("a component that lowers the fit significantly is a species only with a band of its own: %s; without one it is a change of those bands' shape (a shift, broadening, hydrogen bonding) that no resolution can tell from a species hidden there, so not counted", t.ownBandRule(alpha))
-		t.Finding = fmt.Sprintf("it lowers the fit by %.3g σ² (p = %.2g); %s", t.Drop(), t.Significance, t.ownBandFigures())
+		t.Finding = fmt.Sprintf("it lowers the fit by %.3g σ² (%s); %s", t.Drop(), pvalue.Text(t.Significance), t.ownBandFigures())
 	default:
 		t.Species = true
-		t.Verdict = fmt.Sprintf("%s the fit by %.3g σ² where noise alone would give about %.3g σ² (p = %.2g < %g), with a band of its own (%s), and %.0f %% of what its spectrum adds is not a band shift: a species by this test", t.what(), t.Drop(), t.NoiseEdge, t.Significance, alpha, t.ownBandWords(), 100*(1-t.ShiftShare))
+		t.Verdict = fmt.Sprintf("%s the fit by %.3g σ² where noise alone would give about %.3g σ² (%s, below %g), with a band of its own (%s), and %.0f %% of what its spectrum adds is not a band shift: a species by this test", t.what(), t.Drop(), t.NoiseEdge, pvalue.Text(t.Significance), alpha, t.ownBandWords(), 100*(1-t.ShiftShare))
 		t.Rule = fmt.Sprintf("%s the fit by more than noise alone would give (about %.3g σ², p < %g), with a band of its own (%s), and less than %.0f %% of it a band shift: a species by this test", t.what(), t.NoiseEdge, alpha, t.ownBandRule(alpha), 100*minorShiftShare)
-		t.Finding = fmt.Sprintf("it lowers the fit by %.3g σ² (p = %.2g); %s; %.0f %% of what its spectrum adds is not a band shift", t.Drop(), t.Significance, t.ownBandFigures(), 100*(1-t.ShiftShare))
+		t.Finding = fmt.Sprintf("it lowers the fit by %.3g σ² (%s); %s; %.0f %% of what its spectrum adds is not a band shift", t.Drop(), pvalue.Text(t.Significance), t.ownBandFigures(), 100*(1-t.ShiftShare))
 	}
 }
 

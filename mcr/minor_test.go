@@ -1,9 +1,11 @@
 package mcr
 
 import (
+	"encoding/json"
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"os"
 	"strings"
 	"testing"
 
@@ -386,5 +388,39 @@ func TestMinorVerdictRuleAndFinding(t *testing.T) {
 				t.Errorf("%s: the verdict states the drop %s, the finding does not:\n%s\n%s", c.name, drop, mt.Verdict, mt.Finding)
 			}
 		}
+	}
+}
+
+// tracyWidomUpper is the upper tail of the shifted gamma it names (shape 46.446,
+// scale 0.186054, shift 9.84801): against mpmath's regularized upper incomplete
+// gamma function at 50 digits (testdata/pvalue/tails.json), within 1e-9
+// relatively down to 7.6e-167, where 1 − CDF gave 0 below 1e-16.
+func TestTracyWidomUpperAsMpmath(t *testing.T) {
+	raw, err := os.ReadFile("../testdata/pvalue/tails.json")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var ref struct {
+		Gamma []struct{ Z, P float64 } `json:"gamma_sf"`
+	}
+	if err := json.Unmarshal(raw, &ref); err != nil {
+		t.Fatal(err)
+	}
+	tiny := 0
+	for _, c := range ref.Gamma {
+		got := tracyWidomUpper(c.Z - 9.84801)
+		switch {
+		case c.P == 0:
+			if got >= 1e-300 {
+				t.Errorf("z = %g: %g, the tail is below 1e-300", c.Z, got)
+			}
+		case math.Abs(got-c.P) > 1e-9*c.P:
+			t.Errorf("z = %g: %.12g, mpmath %.12g", c.Z, got, c.P)
+		case c.P < 1e-16:
+			tiny++
+		}
+	}
+	if tiny < 3 {
+		t.Fatalf("only %d reference tails below 1e-16", tiny)
 	}
 }

@@ -3,6 +3,7 @@ package mcr
 import (
 	"fmt"
 
+	"github.com/bandsolve/bandsolve/internal/pvalue"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -164,8 +165,8 @@ func (t *MinorTest) ownBand(alpha float64) bool {
 
 // ownBandWords says where the drop lies, for the verdict.
 func (t *MinorTest) ownBandWords() string {
-	return fmt.Sprintf("%.0f %% of the drop lies outside the other spectra's bands (%.3g σ² on %d channels, where noise alone gives about %.3g σ², p = %.2g; a species needs ≥ %.0f %%), and per channel it reaches there %.0f %% of its largest value (needs ≥ %.0f %%)",
-		100*t.OutBandShare(), t.OutBandDrop, t.OutBandChannels, t.OutBandEdge, t.OutBandSignificance, 100*minorOutBand, 100*t.OutBandPeak, 100*minorOutPeak)
+	return fmt.Sprintf("%.0f %% of the drop lies outside the other spectra's bands (%.3g σ² on %d channels, where noise alone gives about %.3g σ², %s; a species needs ≥ %.0f %%), and per channel it reaches there %.0f %% of its largest value (needs ≥ %.0f %%)",
+		100*t.OutBandShare(), t.OutBandDrop, t.OutBandChannels, t.OutBandEdge, pvalue.Text(t.OutBandSignificance), 100*minorOutBand, 100*t.OutBandPeak, 100*minorOutPeak)
 }
 
 // ownBandRule states the limits of ownBand with the noise edge outside the bands, which
@@ -177,8 +178,8 @@ func (t *MinorTest) ownBandRule(alpha float64) string {
 
 // ownBandFigures gives this factor's figures of ownBand.
 func (t *MinorTest) ownBandFigures() string {
-	return fmt.Sprintf("%.0f %% of the drop lies outside the other spectra's bands (%.3g σ², p = %.2g), and per channel it reaches there %.0f %% of its largest value",
-		100*t.OutBandShare(), t.OutBandDrop, t.OutBandSignificance, 100*t.OutBandPeak)
+	return fmt.Sprintf("%.0f %% of the drop lies outside the other spectra's bands (%.3g σ², %s), and per channel it reaches there %.0f %% of its largest value",
+		100*t.OutBandShare(), t.OutBandDrop, pvalue.Text(t.OutBandSignificance), 100*t.OutBandPeak)
 }
 
 // NoiseEdgeSS is what one more component would take from noise alone beside the k of

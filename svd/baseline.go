@@ -6,8 +6,8 @@ import (
 	"math"
 
 	few "github.com/bandsolve/bandsolve/internal/product" // few columns: D Q of the baseline basis
+	"github.com/bandsolve/bandsolve/internal/pvalue"
 	"gonum.org/v1/gonum/mat"
-	"gonum.org/v1/gonum/stat/distuv"
 )
 
 // Baseline drift of a spectrometer (an ATR crystal warming, a lamp ageing, a cell
@@ -328,7 +328,7 @@ func (b *baselineFits) fTest(q int, prev, cur float64) BaselineStep {
 		}
 	default:
 		st.F = (math.Max(prev-cur, 0) / float64(n)) / (cur / dof)
-		p := 1 - distuv.F{D1: float64(n), D2: dof}.CDF(st.F)
+		p := pvalue.FUpper(st.F, float64(n), dof)
 		if !math.IsNaN(p) {
 			st.Significance = math.Min(math.Max(p, 0), 1)
 		}

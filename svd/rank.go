@@ -5,8 +5,8 @@ import (
 	"math"
 	"strings"
 
+	"github.com/bandsolve/bandsolve/internal/pvalue"
 	"gonum.org/v1/gonum/mat"
-	"gonum.org/v1/gonum/stat/distuv"
 )
 
 // Criterion names in RankReport.Criteria, in this order.
@@ -618,7 +618,7 @@ func fSignificance(lam, tail, tailW, w float64, dof int) float64 {
 		return 0 // exactly low rank: nothing left to compare with
 	}
 	fstat := tailW / w * lam / tail
-	p := 1 - distuv.F{D1: 1, D2: float64(dof)}.CDF(fstat)
+	p := pvalue.FUpper(fstat, 1, float64(dof))
 	if math.IsNaN(p) {
 		return 1
 	}

@@ -9,6 +9,7 @@ import (
 	"strings"
 
 	"github.com/bandsolve/bandsolve/internal/product"
+	"github.com/bandsolve/bandsolve/internal/pvalue"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/mcr"
 	"github.com/bandsolve/bandsolve/svd"
@@ -376,7 +377,7 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 		order = ch.Order
 		var steps []string
 		for _, st := range ch.Steps[1:] {
-			steps = append(steps, fmt.Sprintf("%s p = %.2g", baselineName(st.Order), st.Significance))
+			steps = append(steps, fmt.Sprintf("%s %s", baselineName(st.Order), pvalue.Text(st.Significance)))
 		}
 		metric := ""
 		if in.col != nil {
