@@ -78,9 +78,8 @@ func LevenbergMarquardt(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, s
 			s.holdFlatColumns()
 		}
 		s.factorJacobian()
-		colNorm := s.columnNorms()
-		s.rescale(colNorm)
-		if s.gradientConverged(colNorm) {
+		s.rescale(s.colNorm)
+		if s.gradientConverged(s.colNorm) {
 			return s.finish(), nil
 		}
 		if done, err := s.step(); err != nil {
@@ -127,7 +126,11 @@ type lmSolver struct {
 	x, r  []float64 // the current point (res.X) and its residuals
 	fnorm float64   // ‖r‖
 	J     *mat.Dense
-	held  []bool // parameters the residual did not depend on at x0, nil none
+	// colNorm: the Euclidean norms of J's columns, formed once per
+	// Jacobian for both the held columns' test and the scale D (zero in
+	// the held columns, as J is).
+	colNorm []float64
+	held    []bool // parameters the residual did not depend on at x0, nil none
 	// heldAtStart and x0: what was held at x0 and x0 itself, for the final
 	// refresh (finalJacobian); nil when nothing was held.
 	heldAtStart []bool
@@ -162,7 +165,7 @@ func newLMSolver(f ResidualFunc, jac JacobianFunc, x0 []float64, m int, set LMSe
 		return nil, fmt.Errorf("kinetics: levenberg-marquardt: at the starting point: %w", err)
 	}
 	s.fnorm = norm2(s.r)
-	s.J = mat.NewDense(m, n, nil)
+	s.J, s.colNorm = mat.NewDense(m, n, nil), make([]float64, n)
 	s.rp, s.rm = make([]float64, m), make([]float64, m)
 	s.diag, s.xnew, s.rnew = make([]float64, n), make([]float64, n), make([]float64, m)
 	s.qrA, s.tau, s.qtr = make([]float64, m*n), make([]float64, n), make([]float64, m)
@@ -185,13 +188,15 @@ func (s *lmSolver) eval(x, r []float64) error {
 	return nil
 }
 
-// jacobian forms J at the current point, with the held columns zero.
+// jacobian forms J at the current point and its column norms, with the
+// held columns zero.
 func (s *lmSolver) jacobian() error {
 	if err := s.jacobianAt(s.x); err != nil {
 		return fmt.Errorf("kinetics: levenberg-marquardt: jacobian: %w", err)
 	}
+	columnNorms(s.J, s.colNorm)
 	s.releaseHeld()
-	zeroHeld(s.J, s.held)
+	s.zeroHeld()
 	return nil
 }
 
@@ -219,18 +224,28 @@ func (s *lmSolver) finalJacobian() error {
 	return nil
 }
 
-// releaseHeld lets go of the held parameters whose column in the fresh J is
-// no longer at rounding level. The residual can come to depend on a
-// parameter it did not depend on at x0 (y = a·exp(−k t) from a = 0: the
-// column of k is a·t·exp(−k t)); held for good, such a parameter would stay
-// at its start and the fit would converge to the wrong point. A column that
-// stays flat (an initial concentration whose scale free spectra absorb)
-// stays held.
+// zeroHeld sets the held columns of J and their norms to zero.
+func (s *lmSolver) zeroHeld() {
+	zeroHeld(s.J, s.held)
+	for j, h := range s.held {
+		if h {
+			s.colNorm[j] = 0
+		}
+	}
+}
+
+// releaseHeld lets go of the held parameters whose column in the fresh J
+// (whose norms colNorm still holds) is no longer at rounding level. The
+// residual can come to depend on a parameter it did not depend on at x0
+// (y = a·exp(−k t) from a = 0: the column of k is a·t·exp(−k t)); held for
+// good, such a parameter would stay at its start and the fit would
+// converge to the wrong point. A column that stays flat (an initial
+// concentration whose scale free spectra absorb) stays held.
 func (s *lmSolver) releaseHeld() {
 	if s.held == nil {
 		return
 	}
-	flat := heldColumns(s.J)
+	flat := heldColumns(s.colNorm)
 	anyHeld := false
 	for j := range s.held {
 		s.held[j] = s.held[j] && flat != nil && flat[j]
@@ -270,10 +285,11 @@ func (s *lmSolver) jacobianAt(x []float64) error {
 }
 
 // holdFlatColumns marks, at the start, the parameters whose Jacobian column is
-// at rounding level (see heldColumns) and zeroes their columns.
+// at rounding level (see heldColumns) and zeroes their columns. Nothing is
+// held before, so colNorm is still the fresh J's.
 func (s *lmSolver) holdFlatColumns() {
-	s.held = heldColumns(s.J)
-	zeroHeld(s.J, s.held)
+	s.held = heldColumns(s.colNorm)
+	s.zeroHeld()
 	s.res.Held = s.held
 	if s.held != nil {
 		s.heldAtStart = append([]bool(nil), s.held...)
@@ -306,20 +322,19 @@ func (s *lmSolver) factorJacobian() {
 	}
 }
 
-// columnNorms returns the Euclidean norms of J's columns.
-func (s *lmSolver) columnNorms() []float64 {
-	m, n := s.m, s.n
-	colNorm := make([]float64, n)
-	jd := s.J.RawMatrix().Data
+// columnNorms writes the Euclidean norms of J's columns into norm. J is
+// m × n with stride n (NewDense).
+func columnNorms(J *mat.Dense, norm []float64) {
+	m, n := J.Dims()
+	jd := J.RawMatrix().Data
 	for j := 0; j < n; j++ {
 		var sum float64
 		for i := 0; i < m; i++ {
 			v := jd[i*n+j]
 			sum += v * v
 		}
-		colNorm[j] = math.Sqrt(sum)
+		norm[j] = math.Sqrt(sum)
 	}
-	return colNorm
 }
 
 // rescale updates the scale D: the column norms at the start (and the
@@ -494,27 +509,25 @@ func (s *lmSolver) finish() *LMResult {
 	return finishLM(s.res, s.x, s.r, s.fnorm, s.J)
 }
 
-// heldColumns marks the columns of J at rounding level, ≤ 1e-12 × the largest column norm
-// (Covariance's threshold for a zero singular value): parameters the residual does not
-// depend on (ln c0 of a first-order model with free spectra, whose spectra absorb its
-// scale). Left in, such a column's rounding-level gradient walks its parameter anywhere
-// (c0 = 1e+230 and 1e-96 from the same data), and scaled by its own norm it made the damped
-// system singular for every λ, closing the trust region on the start. nil when none is.
-func heldColumns(J *mat.Dense) []bool {
-	m, n := J.Dims()
-	norm := make([]float64, n)
+// heldColumns marks the columns of J at rounding level from their norms, ≤ 1e-12 × the
+// largest column norm (Covariance's threshold for a zero singular value): parameters the
+// residual does not depend on (ln c0 of a first-order model with free spectra, whose
+// spectra absorb its scale). Left in, such a column's rounding-level gradient walks its
+// parameter anywhere (c0 = 1e+230 and 1e-96 from the same data), and scaled by its own norm
+// it made the damped system singular for every λ, closing the trust region on the start.
+// nil when none is.
+// The norms are columnNorms', the scale D's: the overflow that the scaled norm2 would
+// avoid (a column norm above 1e154) makes D infinite whatever this test finds.
+func heldColumns(norm []float64) []bool {
 	maxNorm := 0.0
-	for j := 0; j < n; j++ {
-		col := make([]float64, m)
-		mat.Col(col, j, J)
-		norm[j] = norm2(col)
-		maxNorm = math.Max(maxNorm, norm[j])
+	for _, v := range norm {
+		maxNorm = math.Max(maxNorm, v)
 	}
 	var held []bool
 	for j, v := range norm {
 		if maxNorm > 0 && v <= 1e-12*maxNorm {
 			if held == nil {
-				held = make([]bool, n)
+				held = make([]bool, len(norm))
 			}
 			held[j] = true
 		}
