@@ -264,4 +264,7 @@ type MinorRefitJSON struct {
 	PeakTimeS          float64 `json:"profile_peak_time_s"`
 	Looks              string  `json:"looks_like"`
 	Verdict            string  `json:"verdict"`
+	// SameAsFactor is the earlier factor whose refit ended at the same extra component
+	// (spectra and profiles alike to a cosine of 0.99), when one did: one finding.
+	SameAsFactor int `json:"same_extra_component_as_factor,omitempty"`
 }

@@ -202,6 +202,7 @@ func minorRefitJSON(r *Result, factor int) *output.MinorRefitJSON {
 	if mt.PeakRow < len(r.Times) {
 		j.PeakTimeS = round(r.Times[mt.PeakRow])
 	}
+	j.SameAsFactor, _, _, _ = sameRefit(r, factor)
 	return j
 }
 
@@ -219,11 +220,51 @@ func minorAdvice(r *Result, factor int) string {
 		return fmt.Sprintf("; the refit with it as one more component failed (%v)", v.Err)
 	}
 	mt := v.Test
+	if earlier, cs, cc, ok := sameRefit(r, factor); ok {
+		return fmt.Sprintf("; refitted as one more component, it ends at the same extra component as factor %d's refit (spectra alike to a cosine of %.4f, profiles %.4f): one finding, not another; %s",
+			earlier, cs, cc, mt.Finding)
+	}
 	if same := sameVerdict(r, factor); same != nil {
-		return fmt.Sprintf("; refitted as one more component (the verdict shared by factors %s is above): its profile is %s; %.0f %% of what its spectrum adds to the others is their derivative and %.0f %% lies under their bands; %s",
+		return fmt.Sprintf("; refitted as one more component (the verdict shared by factors %s is above): the extra component's profile is %s; %.0f %% of what its spectrum adds to the others is their derivative and %.0f %% lies under their bands; %s",
 			factorList(same), minorShape(r, mt), 100*mt.ShiftShare, 100*mt.InBandShare, mt.Finding)
 	}
 	return fmt.Sprintf("; refitted as one more component under the same constraints and baseline, %s; %s", minorLooks(r, mt), mt.Verdict)
+}
+
+// sameAlike is the cosine above which two refits' extra components, spectrum and profile
+// both, are called the same: the refits of real series reach one fit from every start
+// (mcr.TestMinorFactors), and the text should not present it as several findings.
+const sameAlike = 0.99
+
+// sameRefit finds the first factor refitted before this one whose refit ended at the same
+// extra component (spectra and profiles alike beyond sameAlike), with the two cosines.
+func sameRefit(r *Result, factor int) (earlier int, cosS, cosC float64, ok bool) {
+	v := minorOf(r, factor)
+	if v == nil || v.Test == nil || v.Test.Refit == nil {
+		return 0, 0, 0, false
+	}
+	s, c := extraComponent(v.Test.Refit)
+	for _, w := range r.MinorTests {
+		if w.Factor == factor {
+			break
+		}
+		if w.Test == nil || w.Test.Refit == nil {
+			continue
+		}
+		ws, wc := extraComponent(w.Test.Refit)
+		cs, cc := Cosine(s, ws), Cosine(c, wc)
+		if len(s) == len(ws) && len(c) == len(wc) && cs >= sameAlike && cc >= sameAlike {
+			return w.Factor, cs, cc, true
+		}
+	}
+	return 0, 0, 0, false
+}
+
+// extraComponent is the spectrum and profile of a minor refit's last component, the one
+// started from the factor (mcr.TestMinorFactors appends it).
+func extraComponent(refit *mcr.Result) (spectrum, profile []float64) {
+	_, k := refit.C.Dims()
+	return mat.Col(nil, k-1, refit.S), mat.Col(nil, k-1, refit.C)
 }
 
 // sharedMinorAdvice is the advice line that says once the verdict a factor's refit shares

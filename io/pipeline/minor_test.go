@@ -511,3 +511,44 @@ func TestMinorAdviceSaysSharedVerdictOnce(t *testing.T) {
 		t.Errorf("%d advice lines, want 5 (the common verdict and one per factor)", len(r.Advice))
 	}
 }
+
+// Two refits whose extra components have the same shape (cosine ≥ 0.99 of spectra and of
+// profiles, the definition of alike used here) are said to be one finding; a third that
+// ends elsewhere is not, and neither is the first refit, which has nothing before it.
+func TestMinorAdviceSaysWhenRefitsMeet(t *testing.T) {
+	refit := func(extraS, extraC []float64) *mcr.Result {
+		s := mat.NewDense(len(extraS), 2, nil)
+		c := mat.NewDense(len(extraC), 2, nil)
+		for j, v := range extraS {
+			s.Set(j, 0, 1)
+			s.Set(j, 1, v)
+		}
+		for i, v := range extraC {
+			c.Set(i, 0, 1)
+			c.Set(i, 1, v)
+		}
+		return &mcr.Result{S: s, C: c}
+	}
+	band := []float64{0, 1, 3, 1, 0}
+	grow := []float64{0, 0.2, 0.5, 0.9}
+	test := func(s, c []float64) *mcr.MinorTest {
+		return &mcr.MinorTest{Refit: refit(s, c), Finding: "its own figures", Rule: "one rule"}
+	}
+	r := &Result{Times: []float64{0, 1, 2, 3}, MinorTested: true, MinorTests: []MinorVerdict{
+		{Factor: 3, Test: test(band, grow)},
+		{Factor: 5, Test: test([]float64{0, 1.02, 3.05, 0.98, 0.01}, []float64{0, 0.21, 0.5, 0.88})},
+		{Factor: 6, Test: test([]float64{3, 1, 0, 0, 0}, []float64{0.9, 0.5, 0.2, 0})},
+	}}
+	for _, c := range []struct {
+		factor int
+		want   string
+	}{{3, ""}, {5, "same extra component as factor 3's refit"}, {6, ""}} {
+		got := minorAdvice(r, c.factor)
+		if c.want == "" && strings.Contains(got, "same extra component") {
+			t.Errorf("factor %d: %q says it met another refit", c.factor, got)
+		}
+		if c.want != "" && !strings.Contains(got, c.want) {
+			t.Errorf("factor %d: %q, want it to say %q", c.factor, got, c.want)
+		}
+	}
+}
