@@ -625,7 +625,7 @@ func (r *alsRun) profilesHalf(it int, cPlain *mat.Dense) (*mat.Dense, *mat.SymDe
 	if r.opt.Closure {
 		pr.Equality, pr.Total = r.cs.eq, r.opt.Total
 	}
-	c, err := solveRows(pr, ds, r.w.output(r.w.cOut[:], r.n, r.k, cPlain, r.cPrev))
+	c, err := solveRows(pr, ds, r.w.output(r.w.cOut[:], r.n, r.k, cPlain))
 	if err != nil {
 		return nil, nil, fmt.Errorf("resolve: profiles step, iteration %d: %w", it, err)
 	}

@@ -27,10 +27,13 @@ type alsWork struct {
 	// cOut and sOut take the profiles and spectra the half steps solve
 	// for, for any data, when recycle is set: fresh, they were two more
 	// data-sized allocations an iteration, each page faulted in as the
-	// solver wrote it. Three profiles are enough (the new ones, those the
-	// iteration started from, the last kept iteration's start for the
-	// extrapolation), and two spectra (the new, the last kept).
-	cOut    [3]*mat.Dense
+	// solver wrote it. Two of each are enough: the new ones, and those the
+	// iteration started from (kept in case it is undone). The last kept
+	// iteration's start, C_prev, needs no third: the extrapolation reads
+	// it before the half steps, and every iteration that goes on then
+	// replaces it (by its own start if kept, by nil if undone), so its
+	// buffer is free by the profiles step.
+	cOut    [2]*mat.Dense
 	sOut    [2]*mat.Dense
 	recycle bool
 	// rowW, colW: the data's row × column weights a and b (Weighted
