@@ -162,8 +162,12 @@ func printSummary(r *Result, st Streams) {
 }
 
 // writersAfterResults are the writers that follow WriteResults, in the
-// order Execute runs them, one path for every command; the last, the
-// report, is built from the staged files and must see all of them.
+// order Execute runs them, one path for every command. The report comes in
+// two steps: writeMaps stages maps.csv, the downsampled matrices its
+// figures need, which only the run's memory holds; writeReport, last,
+// builds report.html from the staged files alone, so that it shows what
+// every other writer added (the as-run record and the manifest among them)
+// and `bandsolve report OUT` rebuilds the same bytes from the folder.
 func writersAfterResults() []func(*Result, *output.Stage) error {
 	return []func(*Result, *output.Stage) error{
 		writeBandsAndIntervals, writeEFA, writeSpectraJCAMP, writeNoise, writeBaseline, writeRecord, writeMaps,

@@ -10,12 +10,8 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
-// The report comes in two steps: maps.csv (the downsampled matrices its
-// figures need, which only a run's memory holds) is written with the other
-// results; report.html is built last, from the staged files alone, so that
-// it shows what every other writer added (as-run record, manifest) and so
-// that `bandsolve report OUT` rebuilds the same bytes from the folder.
-
+// writeMaps stages maps.csv, the report's first step (see
+// writersAfterResults), from the maps formed ahead when there are some.
 func writeMaps(r *Result, stage *output.Stage) error {
 	if !wantMaps(r) {
 		return nil
