@@ -109,13 +109,13 @@ func (a *ahead) wait() {
 
 // bandsFound is the mcr.BandOptions.Found that formats r's uniqueness.csv
 // by row blocks as the ranges are found (bandBlocks), parsed for the
-// figures drawn beside the writers when no bootstrap intervals will be
-// shaded with them (drawsResults); nil without a.
+// figures drawn beside the writers when there will be some
+// (drawsResults); nil without a.
 func (a *ahead) bandsFound(r *Result) func(j int, b mcr.Band) {
 	if a == nil {
 		return nil
 	}
-	a.blocks = &bandBlocks{parse: a.drawing == nil && r.Settings.Replicates == 0}
+	a.blocks = &bandBlocks{parse: a.drawsResults(r)}
 	return a.blocks.found(r)
 }
 
@@ -214,9 +214,14 @@ func (a *ahead) aheadResults(r *Result, st *output.Stage) {
 }
 
 // drawsResults says aheadResults draws r's spectra and profiles figures
-// (when summary.json is written).
+// (when summary.json is written): not when bootstrap replicates are asked
+// for, whose intervals the figures would shade. It goes by the replicates
+// asked for rather than the intervals so that it gives one answer before
+// the bootstrap (bandsFound asks it while the ranges are searched) and
+// after; when the bootstrap gives no intervals, the report draws the two
+// figures at its turn.
 func (a *ahead) drawsResults(r *Result) bool {
-	return a != nil && a.drawing == nil && r.ALS != nil && (r.Constraints == nil || r.Constraints.Intervals == nil)
+	return a != nil && a.drawing == nil && r.ALS != nil && r.Settings.Replicates == 0
 }
 
 // prewrite writes files into the stage ahead of their turn, in name order.
