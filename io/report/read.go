@@ -336,15 +336,31 @@ func parseCSV(b []byte) ([][]string, error) {
 		r.Comment = '#'
 		return r.ReadAll()
 	}
+	// Every record's cells are cut from one string and held in one slice of
+	// cells (each record capped at its own, so an append to one never
+	// reaches the next): the tables read back for the figures are formatted
+	// moments before, with thousands of rows, and a slice per line was most
+	// of their reading.
 	text := string(b)
-	var recs [][]string
+	lines := strings.Count(text, "\n") + 1
+	cells := make([]string, 0, lines+strings.Count(text, ","))
+	recs := make([][]string, 0, lines)
 	for len(text) > 0 {
 		line, rest, _ := strings.Cut(text, "\n")
 		text = rest
 		if line == "" || line[0] == '#' {
 			continue // as encoding/csv: empty lines and comments are skipped
 		}
-		recs = append(recs, strings.Split(line, ","))
+		first := len(cells)
+		for {
+			cell, more, found := strings.Cut(line, ",")
+			cells = append(cells, cell)
+			if !found {
+				break
+			}
+			line = more
+		}
+		recs = append(recs, cells[first:len(cells):len(cells)])
 	}
 	return recs, nil
 }
