@@ -39,15 +39,27 @@ func TestLowerEnvelopeIsIteratedClippedPolynomialFit(t *testing.T) {
 // 200 iterations and on one that stops early (common practice for a
 // specialised kernel: compared with the general one it replaces), and match
 // the definition as the quadratic test above does.
+//
+// With vector lanes (envelopePass4, AVX2) the cubic loop takes four points at
+// a time and the last m mod 4 in Go: every remainder is tried, and the loop
+// without lanes too.
 func TestLowerEnvelopeCubicMatchesGeneralLoop(t *testing.T) {
-	for _, m := range []int{601, 6950} {
+	t.Logf("vector lanes: %v", haveEnvelopeLanes)
+	for _, m := range []int{5, 6, 7, 8, 601, 6950, 6951} {
 		p, y, q := cubicCase(m, -0.05)
-		got := lowerEnvelope(y, q)
 		want := lowerEnvelopeAny(y, q.RawMatrix(), 4)
+		got := lowerEnvelope(y, q)
+		plain := lowerEnvelope4(y, q.RawMatrix().Data, nil)
 		for i := range got {
 			if math.Float64bits(got[i]) != math.Float64bits(want[i]) {
 				t.Fatalf("m = %d: point %d: cubic loop %v, general loop %v", m, i, got[i], want[i])
 			}
+			if math.Float64bits(plain[i]) != math.Float64bits(want[i]) {
+				t.Fatalf("m = %d: point %d: cubic loop without lanes %v, general loop %v", m, i, plain[i], want[i])
+			}
+		}
+		if m < 601 {
+			continue
 		}
 		// The definition: iterated clipped least-squares fit on the monomials.
 		if worst := clippedFitGap(t, p, y, got); worst > 1e-9 {
