@@ -316,7 +316,7 @@ type solver struct {
 	last     *factorCache
 	lastMask uint64
 	b, x     []float64
-	z, tmp   []float64
+	z        []float64
 	rhs      []float64
 	fv       []float64
 	// nz lists the variables whose fixed value is not zero (setFixed), the
@@ -334,7 +334,7 @@ func newSolver(p Problem, k int) *solver {
 		diag = math.Max(diag, g[i*k+i])
 	}
 	return &solver{p: p, k: k, g: g, gDiag: diag, cache: map[uint64]*factorCache{},
-		b: make([]float64, k), x: make([]float64, k), z: make([]float64, k), tmp: make([]float64, k),
+		b: make([]float64, k), x: make([]float64, k), z: make([]float64, k),
 		rhs: make([]float64, k), fv: make([]float64, k), nz: make([]int, 0, k)}
 }
 
@@ -607,17 +607,15 @@ func (s *solver) loadColumn(c int) (free uint64, fv []float64) {
 			s.b[j] = s.p.B.At(j, c)
 		}
 	}
-	fixedVal := s.tmp
+	fv = s.fv
 	for j := 0; j < k; j++ {
-		fixedVal[j] = 0
+		fv[j] = 0
 		if s.p.FixMask != nil && s.p.FixMask[j] != nil && s.p.FixMask[j][c] {
-			fixedVal[j] = s.p.Fixed.At(j, c)
+			fv[j] = s.p.Fixed.At(j, c)
 			continue
 		}
 		free |= 1 << uint(j)
 	}
-	fv = s.fv
-	copy(fv, fixedVal)
 	s.setFixed(fv)
 	return free, fv
 }
