@@ -497,7 +497,16 @@ func wholeRun(b *testing.B, series, blank, out string) (parse, whole float64, lo
 	s.Data, s.Kind, s.Blank = []string{series}, "single-beam", blank
 	s.Out, s.Force, s.Quiet = out, true, true
 	t0 = time.Now()
-	log = newPhaseLog()
+	r, log = resolveIntoFolder(b, s)
+	whole = time.Since(t0).Seconds()
+	return parse, whole, log, r
+}
+
+// resolveIntoFolder is what `bandsolve resolve` does with s after reading
+// its flags: the run, every result file and the report written into s.Out,
+// each phase logged.
+func resolveIntoFolder(b *testing.B, s *Settings) (*Result, *phaseLog) {
+	log := newPhaseLog()
 	r, err := runForFolder(s, log)
 	if err != nil {
 		b.Fatal(err)
@@ -513,9 +522,8 @@ func wholeRun(b *testing.B, series, blank, out string) (parse, whole float64, lo
 	if err := stage.Commit(); err != nil {
 		b.Fatal(err)
 	}
-	whole = time.Since(t0).Seconds()
 	log.Write([]byte("done\n"))
-	return parse, whole, log, r
+	return r, log
 }
 
 func benchWhole(b *testing.B, n, m int) {

@@ -1,13 +1,10 @@
 package pipeline
 
 import (
-	"io"
 	"os"
 	"path/filepath"
 	"testing"
 	"time"
-
-	"github.com/bandsolve/bandsolve/io/output"
 )
 
 // BenchmarkRealSeries is what a user waits for on a real series: the whole
@@ -34,23 +31,7 @@ func BenchmarkRealSeries(b *testing.B) {
 		s.Data, s.Kind, s.TimesFromName = []string{dir}, "absorbance", true
 		s.Out, s.Force, s.Quiet = out, true, true
 		t0 := time.Now()
-		log := newPhaseLog()
-		r, err := runForFolder(s, log)
-		if err != nil {
-			b.Fatal(err)
-		}
-		log.Write([]byte("writing results\n"))
-		stage, err := output.NewStage(s.Out, true)
-		if err != nil {
-			b.Fatal(err)
-		}
-		if err := finish(r, stage, nil, Streams{Out: io.Discard}); err != nil {
-			b.Fatal(err)
-		}
-		if err := stage.Commit(); err != nil {
-			b.Fatal(err)
-		}
-		log.Write([]byte("done\n"))
+		r, log := resolveIntoFolder(b, s)
 		b.Logf("%.3f s; phases:\n%s", time.Since(t0).Seconds(), log)
 		b.ReportMetric(float64(r.Components), "components")
 	}
