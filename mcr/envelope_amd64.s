@@ -58,16 +58,18 @@ loop:
 	VMINPD Y8, Y6, Y10
 	VMOVUPD Y10, 0(DI)
 
-	VPERMPD $0x00, Y10, Y11
+	// each clipped y_i broadcast from where it was just stored (a load,
+	// where taking it from Y10 was a shuffle: about 3 % faster)
+	VBROADCASTSD 0(DI), Y11
 	VMULPD 0(R9), Y11, Y11
 	VADDPD Y11, Y4, Y4
-	VPERMPD $0x55, Y10, Y12
+	VBROADCASTSD 8(DI), Y12
 	VMULPD 32(R9), Y12, Y12
 	VADDPD Y12, Y4, Y4
-	VPERMPD $0xaa, Y10, Y13
+	VBROADCASTSD 16(DI), Y13
 	VMULPD 64(R9), Y13, Y13
 	VADDPD Y13, Y4, Y4
-	VPERMPD $0xff, Y10, Y14
+	VBROADCASTSD 24(DI), Y14
 	VMULPD 96(R9), Y14, Y14
 	VADDPD Y14, Y4, Y4
 
