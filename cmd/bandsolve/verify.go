@@ -51,6 +51,9 @@ func runVerify(args []string, st pipeline.Streams) int {
 		}
 	}
 	if !v.OK() {
+		for _, n := range v.Builds {
+			fmt.Fprintf(st.Err, "note: %s\n", n)
+		}
 		d := v.Differences[0]
 		fmt.Fprintf(st.Err, "bandsolve verify: %s: NOT reproduced\n%s\n", dir, d)
 		if len(v.Differences) > 1 {

@@ -53,6 +53,10 @@ type Verification struct {
 	Inputs      int      // inputs whose SHA-256 matched
 	Differences []*Difference
 	Notes       []string
+	// Builds says what may explain a difference on the programs' side (the
+	// folder's and this one's version and commit); worth saying only when
+	// something differs.
+	Builds []string
 }
 
 // OK says whether the rerun reproduced every file.
@@ -94,9 +98,7 @@ func Verify(dir string, log io.Writer) (*Verification, error) {
 	if err != nil {
 		return nil, err
 	}
-	if m.Version != Version || m.Host.Commit != Commit() {
-		v.Notes = append(v.Notes, fmt.Sprintf("the folder was written by bandsolve %s (commit %s), this is %s (commit %s): a difference may come from the change of version", m.Version, m.Host.Commit, Version, Commit()))
-	}
+	v.Builds = buildNotes(m.Version, m.Host.Commit, Version, Commit())
 	record := filepath.Join(dir, RecordName)
 	src, err := readInside(root, RecordName, cmdfile.MaxBytes)
 	if err != nil {
@@ -487,4 +489,20 @@ func show(l string) string {
 		return fmt.Sprintf("%q (no line end)", l)
 	}
 	return strings.TrimSuffix(strings.TrimSuffix(l, "\n"), "\r")
+}
+
+// buildNotes says what verify can tell of the two programs: the folder's
+// (version and commit from its manifest) and this one. A different version
+// or commit may explain a difference; so may any change when neither build
+// recorded its commit (`go run`, or a build without version control
+// information), where the two cannot be told apart.
+func buildNotes(version, commit, thisVersion, thisCommit string) []string {
+	const unknown = "unknown"
+	switch {
+	case version != thisVersion || commit != thisCommit:
+		return []string{fmt.Sprintf("the folder was written by bandsolve %s (commit %s), this is %s (commit %s): a difference may come from the change of version", version, commit, thisVersion, thisCommit)}
+	case commit == unknown:
+		return []string{fmt.Sprintf("neither the program that wrote the folder nor this one recorded its commit (built without version control information, e.g. by go run): both say version %s, but a difference may come from a change of the program between them", version)}
+	}
+	return nil
 }
