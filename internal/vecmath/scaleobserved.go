@@ -25,6 +25,7 @@ func ScaleObserved(o, w []float64, a float64) (peak float64, nan bool) {
 	for i, v := range o[n:] {
 		t := a * w[n+i] * v
 		if !(v > 0 && v < inf) {
+			//lint:ignore SA4012 a NaN formed as the vector lanes form it (the product with qnan), not compared
 			t = a * w[n+i] * qnan
 		}
 		o[n+i] = t

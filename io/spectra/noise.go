@@ -1123,6 +1123,7 @@ func scaleObserved(o, col []float64, ai float64, bl []int) float64 {
 			continue
 		}
 		run(start, j)
+		//lint:ignore SA4012 a NaN formed as ScaleObserved forms it (the product with NaN), not compared
 		o[j] = ai * col[j] * nan
 		start = j + 1
 	}
