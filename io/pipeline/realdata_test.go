@@ -3,6 +3,7 @@ package pipeline
 import (
 	"math"
 	"path/filepath"
+	"strings"
 	"testing"
 
 	"github.com/bandsolve/bandsolve/io/spectra"
@@ -93,5 +94,45 @@ func TestUrethaneRealSeries(t *testing.T) {
 	// The baseline is a nuisance: never a component.
 	if r.BaselineOrder >= 0 && r.BaselineProfiles == nil {
 		t.Errorf("baseline %s chosen but no baseline coefficients kept", baselineName(r.BaselineOrder))
+	}
+}
+
+// Absorbance exports given as differences are named: the urethane ATR files (source as
+// urethaneDir) are absorbances against the empty crystal, and read with --kind difference
+// their spectrum present throughout would be resolved as a second "reaction" (the series
+// has one: its README). Their true differences against the first spectrum, and the
+// absorbances read as absorbances, draw no such warning.
+func TestAbsorbancesGivenAsDifferencesAreNamed(t *testing.T) {
+	dir := filepath.Join(urethaneDir, "catalyst-1.00")
+	ser, err := spectra.Load(dir, spectra.FolderOptions{TimesFromName: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if w := staticDifferences(dir, ser.Values); !strings.Contains(w, "look like absorbances") {
+		t.Errorf("absorbances read as differences: %q, want the warning", w)
+	}
+	n, m := ser.Values.Dims()
+	diff := mat.NewDense(n, m, nil)
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			diff.Set(i, j, ser.Values.At(i, j)-ser.Values.At(0, j))
+		}
+	}
+	if w := staticDifferences(dir, diff); w != "" {
+		t.Errorf("true differences against the first spectrum: %q, want none", w)
+	}
+	for _, kind := range []string{"difference", "absorbance"} {
+		s := NewSettings()
+		s.Data, s.Kind, s.TimesFromName = []string{dir}, kind, true
+		s.Bands, s.Checks = "off", "off"
+		s.MaxIter = 20 // the warning comes with the assembly; the resolution only adds time
+		r, err := Run(s, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		named := strings.Contains(strings.Join(r.Warnings, "\n"), "look like absorbances")
+		if named != (kind == "difference") {
+			t.Errorf("--kind %s: warned %v (warnings %q)", kind, named, r.Warnings)
+		}
 	}
 }
