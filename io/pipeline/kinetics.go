@@ -434,6 +434,9 @@ func newKinetics(r *Result, c *mat.Dense) (*Kinetics, error) {
 	}
 	kn.Columns = cols
 	kn.MapSource = "auto: the assignment of components to " + what + " with the lowest residual"
+	if n := unmapped(sch, kn.Extents, cols); len(n) > 0 {
+		r.Notes = append(r.Notes, fmt.Sprintf("kinetics: the model %q has %d %s and the resolution %d component(s): %s %s no component, so the fit takes %s as leaving no trace in the spectra; if %s, the data show no component for %s and the model may have more %s than the chemistry", s.Model, nModel, what, k, strings.Join(n, ", "), verbHas(len(n)), pronoun(len(n)), absorbs(len(n), kn.Extents), pronoun(len(n)), what))
+	}
 	passed := fit.MapNote
 	if seen, note := kn.c0FromProfiles(r, c); seen != nil {
 		passed = kn.tryC0(r, c, obs, seen, note, passed)
@@ -1555,7 +1558,7 @@ func (sw *swapSearch) noteRejected(notes *[]string) {
 		*notes = append(*notes, fmt.Sprintf("kinetics: the data fit worse with the rate constants in another order than k = %s (free spectra): %s", kn.kList(best.K), strings.Join(sw.worseFree, "; ")))
 	}
 	if len(sw.worseNN) > 0 {
-		*notes = append(*notes, fmt.Sprintf("kinetics: other orders of the rate constants fit the data as well as k = %s with free spectra but worse with non-negative spectra, which choose the reported order: %s", kn.kList(best.K), strings.Join(sw.worseNN, "; ")))
+		*notes = append(*notes, fmt.Sprintf("kinetics: with free spectra the rate constants in another order fit the data as well as the reported k = %s, but worse with non-negative spectra, which decide for the reported order; the other order(s): %s", kn.kList(best.K), strings.Join(sw.worseNN, "; ")))
 	}
 }
 
@@ -2083,4 +2086,55 @@ func orthonormalizeCols(a *mat.Dense) {
 		}
 		a.SetCol(j, cols[j])
 	}
+}
+
+// unmapped lists the model's species (or steps, with extents) that the
+// columns cols give no component: the fit takes them as spectrally silent.
+func unmapped(sch *kinetics.Scheme, extents bool, cols []int) []string {
+	names := sch.Species
+	if extents {
+		names = nil
+		for _, st := range sch.Steps {
+			names = append(names, st.Text)
+		}
+	}
+	used := map[int]bool{}
+	for _, c := range cols {
+		used[c] = true
+	}
+	var out []string
+	for i, nm := range names {
+		if !used[i] {
+			out = append(out, nm)
+		}
+	}
+	return out
+}
+
+func verbHas(n int) string {
+	if n == 1 {
+		return "has"
+	}
+	return "have"
+}
+
+func pronoun(n int) string {
+	if n == 1 {
+		return "it"
+	}
+	return "them"
+}
+
+// absorbs is the condition under which an unmapped species or step would
+// be seen: a species that absorbs, a step whose reaction changes the spectrum.
+func absorbs(n int, extents bool) string {
+	switch {
+	case extents && n == 1:
+		return "it changes the spectrum"
+	case extents:
+		return "they change the spectrum"
+	case n == 1:
+		return "it absorbs"
+	}
+	return "they absorb"
 }
