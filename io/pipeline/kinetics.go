@@ -435,7 +435,9 @@ func newKinetics(r *Result, c *mat.Dense) (*Kinetics, error) {
 	kn.Columns = cols
 	kn.MapSource = "auto: the assignment of components to " + what + " with the lowest residual"
 	if n := unmapped(sch, kn.Extents, cols); len(n) > 0 {
-		r.Notes = append(r.Notes, fmt.Sprintf("kinetics: the model %q has %d %s and the resolution %d component(s): %s %s no component, so the fit takes %s as leaving no trace in the spectra; if %s, the data show no component for %s and the model may have more %s than the chemistry", s.Model, nModel, what, k, strings.Join(n, ", "), verbHas(len(n)), pronoun(len(n)), absorbs(len(n), kn.Extents), pronoun(len(n)), what))
+		w := leftWordsFor(len(n), kn.Extents)
+		r.Notes = append(r.Notes, fmt.Sprintf("kinetics: the model %q has %d %s and the resolution %d component(s): %s %s no component, so the fit takes %s as leaving no trace of %s own in the spectra; that holds when %s, or when %s in step with others' (a reactant consumed with another, as in A + B -> C), whose components then carry %s bands; otherwise the model has more %s than the data show",
+			s.Model, nModel, what, k, strings.Join(n, ", "), w.has, w.it, w.its, w.silent, w.moves, w.its, what))
 	}
 	passed := fit.MapNote
 	if seen, note := kn.c0FromProfiles(r, c); seen != nil {
@@ -2111,30 +2113,18 @@ func unmapped(sch *kinetics.Scheme, extents bool, cols []int) []string {
 	return out
 }
 
-func verbHas(n int) string {
-	if n == 1 {
-		return "has"
-	}
-	return "have"
-}
+// leftWords are the words of the note on species (or steps) left without a
+// component, for n of them.
+type leftWords struct{ has, it, its, moves, silent string }
 
-func pronoun(n int) string {
-	if n == 1 {
-		return "it"
+func leftWordsFor(n int, extents bool) leftWords {
+	w := leftWords{"has", "it", "its", "its amount moves", "it does not absorb"}
+	if n > 1 {
+		w = leftWords{"have", "them", "their", "their amounts move", "they do not absorb"}
 	}
-	return "them"
-}
-
-// absorbs is the condition under which an unmapped species or step would
-// be seen: a species that absorbs, a step whose reaction changes the spectrum.
-func absorbs(n int, extents bool) string {
-	switch {
-	case extents && n == 1:
-		return "it changes the spectrum"
-	case extents:
-		return "they change the spectrum"
-	case n == 1:
-		return "it absorbs"
+	if extents { // steps: their extents, their reactions' spectra
+		w.moves = strings.Replace(w.moves, "amount", "extent", 1)
+		w.silent = strings.Replace(w.silent, "absorb", "change the spectrum", 1)
 	}
-	return "they absorb"
+	return w
 }
