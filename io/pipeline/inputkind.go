@@ -66,6 +66,40 @@ func absorbanceLook(ser *spectra.Series) string {
 	return ""
 }
 
+// beamsAbove is the median value above which spectra given as absorbance
+// or differences are taken for single beams: an absorbance of 10 leaves
+// 10⁻¹⁰ of the light, and measured absorbance seldom exceeds 3 to 4 before
+// the detector's noise takes over (common practice).
+const beamsAbove = 10
+
+// singleBeamLook says why a series given as absorbance or differences looks
+// like single-beam intensities instead, or "" when it does not: every
+// finite value positive and their median above beamsAbove (the first
+// spectrum's, as absorbanceLook takes it).
+func singleBeamLook(ser *spectra.Series) string {
+	n, m := ser.Values.Dims()
+	if n == 0 || m == 0 {
+		return ""
+	}
+	first := make([]float64, 0, m)
+	for _, v := range ser.Values.RawRowView(0)[:m] {
+		switch {
+		case math.IsNaN(v) || math.IsInf(v, 0):
+		case v <= 0:
+			return ""
+		default:
+			first = append(first, v)
+		}
+	}
+	if len(first) == 0 {
+		return ""
+	}
+	if med := middle(first); med > beamsAbove {
+		return fmt.Sprintf("the first spectrum is positive everywhere with a median of %.3g (largest %.3g), and an absorbance of even %d would leave 10^-%d of the light", med, maxOf(first), beamsAbove, beamsAbove)
+	}
+	return ""
+}
+
 // saturationWarning names the ranges where the absolute absorbance of a
 // species-mode run exceeds 2, so that it reaches the terminal and
 // summary.json and not only the report.
@@ -132,4 +166,12 @@ func maxOf(v []float64) float64 {
 		top = math.Max(top, x)
 	}
 	return top
+}
+
+// kindWords is how a warning names the kind the values were taken as.
+func kindWords(k spectra.Kind) string {
+	if k == spectra.Difference {
+		return "difference spectra"
+	}
+	return "absorbance"
 }

@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -171,3 +172,67 @@ func TestSaturationReachesSummary(t *testing.T) {
 		t.Errorf("summary.json warnings lack %q: %q", want, sum.Warnings)
 	}
 }
+
+// Single beams given as absorbance or differences are named when no absorbance could be
+// that large: counts of a lamp curve (uvSeries at 3·10⁴, noise constant in counts) have a
+// median far above 10, where A = 10 would leave 10⁻¹⁰ of the light (Beer–Lambert,
+// definition). Single beams in arbitrary units of 0.15…1.95 cannot be told from
+// absorbance by size and are not named; nor is absorbance itself, simulated or the real
+// urethane series (source as urethaneDir).
+func TestSingleBeamLook(t *testing.T) {
+	counts, countsA := uvSeries(3e4, 30)
+	units, _ := uvSeries(1, 1e-3)
+	ure, err := spectra.Load(filepath.Join(urethaneDir, "catalyst-1.00"), spectra.FolderOptions{TimesFromName: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct {
+		name  string
+		ser   *spectra.Series
+		named bool
+	}{{"counts", counts, true}, {"arbitrary units", units, false}, {"simulated absorbance", countsA, false}, {"urethane absorbance", ure, false}} {
+		if why := singleBeamLook(c.ser); (why != "") != c.named {
+			t.Errorf("%s: %q, want named %v", c.name, why, c.named)
+		}
+	}
+	// Through Run, on a matrix CSV of the counts: the warning with --kind absorbance and
+	// with --kind difference, where the differences' own warning (they look like
+	// absorbances) would send the user the wrong way and is left out.
+	dir := t.TempDir()
+	path := filepath.Join(dir, "beams.csv")
+	var b strings.Builder
+	b.WriteString("wavelength")
+	for _, tm := range counts.Times {
+		b.WriteString("," + strconvFloat(tm))
+	}
+	b.WriteString("\n")
+	n, m := counts.Values.Dims()
+	for j := 0; j < m; j++ {
+		b.WriteString(strconvFloat(counts.Axis[j]))
+		for i := 0; i < n; i++ {
+			b.WriteString("," + strconvFloat(counts.Values.At(i, j)))
+		}
+		b.WriteString("\n")
+	}
+	if err := os.WriteFile(path, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	for _, kind := range []string{"absorbance", "difference"} {
+		s := NewSettings()
+		s.Data, s.Kind = []string{path}, kind
+		s.Bands, s.Checks, s.MaxIter = "off", "off", 20
+		r, err := Run(s, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		all := strings.Join(r.Warnings, "\n")
+		if !strings.Contains(all, "look like single-beam intensities") {
+			t.Errorf("--kind %s: no single-beam warning; warnings %q", kind, r.Warnings)
+		}
+		if strings.Contains(all, "look like absorbances") {
+			t.Errorf("--kind %s: told the single beams look like absorbances", kind)
+		}
+	}
+}
+
+func strconvFloat(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }

@@ -841,6 +841,11 @@ func loadSeries(s *Settings, r *Result, folder spectra.FolderOptions, kind spect
 			r.Warnings = append(r.Warnings, fmt.Sprintf("%s: no --kind was given, so the values were taken as single beams, but %s, as absorbances do; if they are absorbance or difference spectra, rerun with --kind absorbance or --kind difference", s.Data[0], why))
 		}
 	}
+	if kind == spectra.Absorbance || kind == spectra.Difference {
+		if why := singleBeamLook(series[0]); why != "" {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("%s: the values were taken as %s, but they look like single-beam intensities: %s; if they are single beams, rerun with --kind single-beam (with --blank FILE for absorbance)", s.Data[0], kindWords(kind), why))
+		}
+	}
 	return series, kind, nil
 }
 
@@ -1329,6 +1334,13 @@ func preWarnings(r *Result) []string {
 	return out
 }
 
+// looksLikeBeams says the common spectrum is too large for absorbance
+// (singleBeamLook says so to the user, and what is asked of them is
+// single beams, not absorbances).
+func looksLikeBeams(mean []float64) bool {
+	return len(mean) > 0 && middle(mean) > beamsAbove
+}
+
 // staticMost is how many times the largest change between spectra their
 // common part may be before spectra given as differences are taken for
 // absorbances, and negativeLeast the least negative part of that common
@@ -1392,7 +1404,7 @@ func staticDifferences(source string, d *mat.Dense) string {
 		change = math.Max(change, dev)
 	}
 	ratio := math.Sqrt(common / change)
-	if !(ratio > staticMost) || !(neg < negativeLeast*pos) {
+	if !(ratio > staticMost) || !(neg < negativeLeast*pos) || looksLikeBeams(mean) {
 		return ""
 	}
 	return fmt.Sprintf("%s: the spectra given as differences (--kind difference) look like absorbances: they share a common spectrum %.3g times larger than the largest change between them, "+
