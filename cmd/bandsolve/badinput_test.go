@@ -331,7 +331,7 @@ func badCases() []badCase {
 		{name: "closure on rows that are all zero", args: []string{"--data", "B/bad_closure_zero_rows.csv", "--kind", "absorbance", "--components", "1"}, code: 2, want: []string{"--closure 1", "spectrum at 0 s", "bad_closure_zero_rows.csv", "--closure off"}},
 		{name: "reference mean over more spectra than there are", args: []string{"--data", "B/good.csv", "--reference", "mean:20"}, code: 2, want: []string{"--reference mean:20", "only 8 spectra", "average at most 8"}},
 		{name: "pre-reaction count too large", args: []string{"--data", "B/good.csv", "--pre", "8"}, code: 2, want: []string{"--pre 8", "only 8 spectra"}},
-		{name: "bad --kind value", args: []string{"--data", "B/good.csv", "--kind", "transmittance"}, code: 2, want: []string{`"transmittance"`, "use single-beam, absorbance or difference"}},
+		{name: "bad --kind value", args: []string{"--data", "B/good.csv", "--kind", "reflectance"}, code: 2, want: []string{`"reflectance"`, "use single-beam, absorbance, transmittance or difference"}},
 		// The option and the value named once, not in pflag's "invalid argument … for … flag" wrapper.
 		{name: "bad --time-unit value", args: []string{"--data", "B/good.csv", "--time-unit", "days"}, code: 2, want: []string{`resolve: --time-unit "days": use auto, s, min or h; see`}},
 		{name: "misspelt flag", args: []string{"--data", "B/good.csv", "--blnk", "B/blank_good.csv"}, code: 2, want: []string{"unknown flag: --blnk", "did you mean --blank?"}},

@@ -1,7 +1,9 @@
 package pipeline
 
 import (
+	"fmt"
 	"math"
+	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -134,5 +136,58 @@ func TestAbsorbancesGivenAsDifferencesAreNamed(t *testing.T) {
 		if named != (kind == "difference") {
 			t.Errorf("--kind %s: warned %v (warnings %q)", kind, named, r.Warnings)
 		}
+	}
+}
+
+// Transmittance in per cent is read as absorbance: the vendored urethane absorbances
+// (source as urethaneDir) written as %T = 100·10^(−A) (definition) and read back with
+// --kind transmittance give the absorbance run's rank and components, the resolution's
+// lack of fit to 1e-6 relatively (the round trip through seven significant digits), a
+// note on the scale taken; a --blank beside them is refused.
+func TestTransmittanceReadAsAbsorbance(t *testing.T) {
+	src := filepath.Join(urethaneDir, "catalyst-1.00")
+	files, err := filepath.Glob(filepath.Join(src, "*.CSV"))
+	if err != nil || len(files) == 0 {
+		t.Fatalf("no files in %s: %v", src, err)
+	}
+	dir := t.TempDir()
+	for _, f := range files {
+		sp, err := spectra.ReadSpectrum(f)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var b strings.Builder
+		for j, x := range sp.Axis {
+			fmt.Fprintf(&b, "%.7g,%.7g\n", x, 100*math.Pow(10, -sp.Values[j]))
+		}
+		if err := os.WriteFile(filepath.Join(dir, filepath.Base(f)), []byte(b.String()), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	run := func(data, kind, blank string) (*Result, error) {
+		s := NewSettings()
+		s.Data, s.Kind, s.TimesFromName, s.Blank = []string{data}, kind, true, blank
+		s.Bands, s.Checks = "off", "off"
+		return Run(s, nil)
+	}
+	a, err := run(src, "absorbance", "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	tr, err := run(dir, "transmittance", "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if tr.Rank.Estimate != a.Rank.Estimate || tr.Components != a.Components {
+		t.Errorf("transmittance: rank %d, components %d; absorbance: %d, %d", tr.Rank.Estimate, tr.Components, a.Rank.Estimate, a.Components)
+	}
+	if d := math.Abs(tr.ALS.LackOfFitPercent/a.ALS.LackOfFitPercent - 1); d > 1e-6 {
+		t.Errorf("lack of fit %.9g %%, absorbance's %.9g %% (relative difference %.2g)", tr.ALS.LackOfFitPercent, a.ALS.LackOfFitPercent, d)
+	}
+	if !strings.Contains(strings.Join(tr.Notes, "\n"), "transmittance taken as per cent") {
+		t.Errorf("no note on the scale taken; notes %q", tr.Notes)
+	}
+	if _, err := run(dir, "transmittance", files[0]); err == nil || !strings.Contains(err.Error(), "--blank is a single beam") {
+		t.Errorf("--blank with transmittance: %v, want it refused", err)
 	}
 }

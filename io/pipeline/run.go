@@ -841,12 +841,47 @@ func loadSeries(s *Settings, r *Result, folder spectra.FolderOptions, kind spect
 			r.Warnings = append(r.Warnings, fmt.Sprintf("%s: no --kind was given, so the values were taken as single beams, but %s, as absorbances do; if they are absorbance or difference spectra, rerun with --kind absorbance or --kind difference", s.Data[0], why))
 		}
 	}
+	if kind == spectra.Transmittance {
+		if err := transmittanceToAbsorbance(s, r, series); err != nil {
+			return nil, "", err
+		}
+		kind = spectra.Absorbance
+	}
 	if kind == spectra.Absorbance || kind == spectra.Difference {
 		if why := singleBeamLook(series[0]); why != "" {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("%s: the values were taken as %s, but they look like single-beam intensities: %s; if they are single beams, rerun with --kind single-beam (with --blank FILE for absorbance)", s.Data[0], kindWords(kind), why))
 		}
 	}
 	return series, kind, nil
+}
+
+// transmittanceToAbsorbance reads every series given as transmittance as
+// absorbance (spectra.TransmittanceToAbsorbance) and says in a note which
+// scale it took. A JCAMP-DX file that declares its own units is converted
+// by them already, and --blank and --reference FILE would be read as
+// absorbance: each is refused with what to do.
+func transmittanceToAbsorbance(s *Settings, r *Result, series []*spectra.Series) error {
+	if s.Blank != "" {
+		return usage("--blank is a single beam and goes with --kind single-beam; transmittance is already ratioed to its background")
+	}
+	if _, file, err := spectra.ParseReference(s.Reference); err == nil && file != "" {
+		return usage("--reference %s with --kind transmittance: give the reference state by --reference first or mean:N, or the files as absorbance", file)
+	}
+	for i, ser := range series {
+		if ser.Kind != "" {
+			return usage("%s declares its own units (%s): leave out --kind transmittance (JCAMP-DX transmittance is read as absorbance by itself)", s.Data[i], ser.Kind)
+		}
+		percent, largest, err := spectra.TransmittanceToAbsorbance(ser)
+		if err != nil {
+			return inputContext(ser.Source, err)
+		}
+		scale := "a fraction (largest value %.4g), read as absorbance A = −log10 T"
+		if percent {
+			scale = "per cent (largest value %.4g), read as absorbance A = −log10(T/100)"
+		}
+		r.Notes = append(r.Notes, fmt.Sprintf("%s: transmittance taken as "+scale, s.Data[i], largest))
+	}
+	return nil
 }
 
 // reactionsRidge is the relative Tikhonov term of the extents step in

@@ -23,15 +23,19 @@ const (
 	SingleBeam Kind = "single-beam" // detector intensity I(ν)
 	Absorbance Kind = "absorbance"  // A(ν) against some background
 	Difference Kind = "difference"  // ΔA(ν) already ratioed against the start
+	// Transmittance T(ν) = I/I0 as a fraction or in per cent: read as
+	// absorbance A = −log10 T (TransmittanceToAbsorbance), never assembled
+	// as it is.
+	Transmittance Kind = "transmittance"
 )
 
 // ParseKind checks a --kind value.
 func ParseKind(s string) (Kind, error) {
 	switch Kind(s) {
-	case SingleBeam, Absorbance, Difference:
+	case SingleBeam, Absorbance, Difference, Transmittance:
 		return Kind(s), nil
 	}
-	return "", fmt.Errorf("%q: use single-beam, absorbance or difference", s)
+	return "", fmt.Errorf("%q: use single-beam, absorbance, transmittance or difference", s)
 }
 
 // Reference says which state difference spectra are taken against.

@@ -1,0 +1,51 @@
+package spectra
+
+import (
+	"fmt"
+	"math"
+)
+
+// percentAbove is the largest value above which transmittance is taken to be
+// in per cent: a fraction never exceeds 1 but for noise at full transmission,
+// a percentage of a measured spectrum reaches well above 1.5 over its
+// transparent regions (common practice: exports say T or %T, the numbers do
+// not).
+const percentAbove = 1.5
+
+// TransmittanceToAbsorbance turns the series' transmittance into absorbance
+// in place, A = −log10 T (IUPAC Gold Book, "absorbance"), T divided by 100
+// first when it is in per cent (its largest finite value above
+// percentAbove). It returns whether it took per cent and that value; a
+// value T ≤ 0, which has no absorbance, is refused with where it is.
+func TransmittanceToAbsorbance(s *Series) (percent bool, largest float64, err error) {
+	n, m := s.Values.Dims()
+	largest = math.Inf(-1)
+	for i := 0; i < n; i++ {
+		for _, v := range s.Values.RawRowView(i)[:m] {
+			if !math.IsNaN(v) && !math.IsInf(v, 0) {
+				largest = math.Max(largest, v)
+			}
+		}
+	}
+	scale := 1.0
+	if largest > percentAbove {
+		percent, scale = true, 0.01
+	}
+	for i := 0; i < n; i++ {
+		row := s.Values.RawRowView(i)[:m]
+		for j, v := range row {
+			t := v * scale
+			if !(t > 0) && !math.IsNaN(t) {
+				where := fmt.Sprintf("spectrum %d", i+1)
+				if i < len(s.Names) && s.Names[i] != "" {
+					where = s.Names[i]
+				}
+				return false, 0, fmt.Errorf("%s: transmittance %g at %s %g in %s is not positive, and absorbance −log10 T needs T > 0: cut that range with --exclude LO:HI, or export absorbance",
+					s.Source, v, s.AxisName, s.Axis[j], where)
+			}
+			row[j] = -math.Log10(t)
+		}
+	}
+	s.scan = nil // the values changed in place
+	return percent, largest, nil
+}
