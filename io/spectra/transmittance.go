@@ -12,11 +12,17 @@ import (
 // not).
 const percentAbove = 1.5
 
+// percentMost is the largest value taken for a transmittance at all: per
+// cent with room for noise and a baseline above full transmission (the
+// real urethane exports reach 101.8 % where the crystal absorbs nothing).
+const percentMost = 200
+
 // TransmittanceToAbsorbance turns the series' transmittance into absorbance
 // in place, A = −log10 T (IUPAC Gold Book, "absorbance"), T divided by 100
 // first when it is in per cent (its largest finite value above
 // percentAbove). It returns whether it took per cent and that value; a
-// value T ≤ 0, which has no absorbance, is refused with where it is.
+// value T ≤ 0, which has no absorbance, is refused with where it is, and
+// values above percentMost, which are no transmittance.
 func TransmittanceToAbsorbance(s *Series) (percent bool, largest float64, err error) {
 	n, m := s.Values.Dims()
 	largest = math.Inf(-1)
@@ -31,6 +37,10 @@ func TransmittanceToAbsorbance(s *Series) (percent bool, largest float64, err er
 	if largest > percentAbove {
 		percent, scale = true, 0.01
 	}
+	if largest > percentMost {
+		return false, 0, inputErr(s.Source, 0, "if these are single-beam intensities, use --kind single-beam",
+			"the largest value, %g, is not a transmittance (a fraction up to 1 or a percentage up to 100, a little above with noise)", largest)
+	}
 	for i := 0; i < n; i++ {
 		row := s.Values.RawRowView(i)[:m]
 		for j, v := range row {
@@ -40,8 +50,8 @@ func TransmittanceToAbsorbance(s *Series) (percent bool, largest float64, err er
 				if i < len(s.Names) && s.Names[i] != "" {
 					where = s.Names[i]
 				}
-				return false, 0, fmt.Errorf("%s: transmittance %g at %s %g in %s is not positive, and absorbance −log10 T needs T > 0: cut that range with --exclude LO:HI, or export absorbance",
-					s.Source, v, s.AxisName, s.Axis[j], where)
+				return false, 0, inputErr(s.Source, 0, "absorbance −log10 T needs T > 0: cut that range with --exclude LO:HI, or export absorbance",
+					"transmittance %g at %s %g in %s is not positive", v, s.AxisName, s.Axis[j], where)
 			}
 			row[j] = -math.Log10(t)
 		}

@@ -41,4 +41,9 @@ func TestTransmittanceToAbsorbance(t *testing.T) {
 	if err == nil || !strings.Contains(err.Error(), "transmittance 0 at wavenumber 1001 in b.csv is not positive") {
 		t.Errorf("T = 0: %v, want it refused with its place", err)
 	}
+	// Counts of a single beam are no transmittance, per cent or not.
+	s = &Series{Source: "beams.csv", AxisName: "wavenumber", Axis: []float64{1000, 1001}, Values: mat.NewDense(1, 2, []float64{3.1e4, 2.9e4})}
+	if _, _, err := TransmittanceToAbsorbance(s); err == nil || !strings.Contains(err.Error(), "is not a transmittance") {
+		t.Errorf("counts: %v, want them refused", err)
+	}
 }
