@@ -446,6 +446,10 @@ func TestNoiseFromEveryExperiment(t *testing.T) {
 	if !strings.Contains(r.NoiseSource, "pre-reaction") {
 		t.Errorf("σ from %q", r.NoiseSource)
 	}
+	// Each experiment's own estimate is named, not the first's as the whole's.
+	if !strings.Contains(r.NoiseSource, "experiment 1: ") || !strings.Contains(r.NoiseSource, "experiment 2: ") {
+		t.Errorf("σ from %q: want each experiment's estimate named", r.NoiseSource)
+	}
 	want := rel / math.Ln10
 	if math.Abs(r.NoiseSigma-want) > 0.1*want {
 		t.Errorf("σ = %.4g, want %.4g ± 10 %%", r.NoiseSigma, want)

@@ -5,6 +5,7 @@ import (
 	"io"
 	"math"
 	"sort"
+	"strings"
 
 	"github.com/bandsolve/bandsolve/mcr"
 	"github.com/bandsolve/bandsolve/svd"
@@ -272,14 +273,28 @@ func noiseOf(r *Result) {
 	sig := r.Weights.ChannelSigma()
 	r.NoiseSigma = medianOf(sig)
 	nz := r.Experiments[0].Assembled.Noise
-	switch nz.Unit {
-	case "single-beam units":
-		r.NoiseSource = fmt.Sprintf("detector noise %.3g in single-beam units from %s; absorbance noise σ_I/(I ln 10) per point", nz.Level, nz.Source)
-	default:
-		r.NoiseSource = fmt.Sprintf("absorbance noise per channel from %s", nz.Source)
-	}
+	from := nz.Source
 	if len(r.Experiments) > 1 {
-		r.NoiseSource += fmt.Sprintf(" (each of the %d experiments its own)", len(r.Experiments))
+		// Each experiment has its own estimate, from its own spectra: say
+		// each, where the first one's words alone read as the whole stack's.
+		var each []string
+		for i, e := range r.Experiments {
+			en := e.Assembled.Noise
+			if en.Unit == "single-beam units" {
+				each = append(each, fmt.Sprintf("experiment %d: %.3g from %s", i+1, en.Level, en.Source))
+				continue
+			}
+			each = append(each, fmt.Sprintf("experiment %d: %s", i+1, en.Source))
+		}
+		from = "each experiment's own spectra (" + strings.Join(each, "; ") + ")"
+	}
+	switch {
+	case nz.Unit == "single-beam units" && len(r.Experiments) > 1:
+		r.NoiseSource = fmt.Sprintf("detector noise in single-beam units from %s; absorbance noise σ_I/(I ln 10) per point", from)
+	case nz.Unit == "single-beam units":
+		r.NoiseSource = fmt.Sprintf("detector noise %.3g in single-beam units from %s; absorbance noise σ_I/(I ln 10) per point", nz.Level, from)
+	default:
+		r.NoiseSource = fmt.Sprintf("absorbance noise per channel from %s", from)
 	}
 }
 
