@@ -8,6 +8,7 @@ import (
 
 	"github.com/bandsolve/bandsolve/io/report"
 	"github.com/bandsolve/bandsolve/io/spectra"
+	"gonum.org/v1/gonum/mat"
 )
 
 // absorbanceLook says why a series with no declared kind, about to be read
@@ -174,4 +175,82 @@ func kindWords(k spectra.Kind) string {
 		return "difference spectra"
 	}
 	return "absorbance"
+}
+
+// looksLikeBeams says the common spectrum is too large for absorbance
+// (singleBeamLook says so to the user, and what is asked of them is
+// single beams, not absorbances).
+func looksLikeBeams(mean []float64) bool {
+	return len(mean) > 0 && middle(mean) > beamsAbove
+}
+
+// staticMost is how many times the largest change between spectra their
+// common part may be before spectra given as differences are taken for
+// absorbances, and negativeLeast the least negative part of that common
+// spectrum (its negative sum over its positive sum) that clears them.
+// Differences against a state of the series have a ratio of at most 1 (that
+// state's own row is zero, as far from the mean as the mean is from zero);
+// absorbances carry every species present from the start, and are positive
+// wherever there is a band. The ATR exports of the urethane series
+// (jevandezande/spectra, ../shared/real-data) read as differences: ratios
+// 3.66 and 2.51, no negative part; their true differences against the
+// first spectrum: 1.00 and 0.82, negative parts 0.34 and 0.031.
+const (
+	staticMost    = 1.5
+	negativeLeast = 0.01
+)
+
+// staticDifferences warns when spectra given as differences (--kind
+// difference) look like absorbances: a common part more than staticMost
+// times the largest change between them, with almost no negative band (less
+// than negativeLeast). Absolute absorbances read as differences resolve the
+// spectrum present throughout as one more "reaction". "" otherwise.
+// Non-finite values are left out of the sums.
+func staticDifferences(source string, d *mat.Dense) string {
+	if d == nil {
+		return ""
+	}
+	n, m := d.Dims()
+	if n < 2 {
+		return ""
+	}
+	mean := make([]float64, m)
+	count := make([]float64, m)
+	for i := 0; i < n; i++ {
+		for j, v := range d.RawRowView(i) {
+			if !math.IsNaN(v) && !math.IsInf(v, 0) {
+				mean[j] += v
+				count[j]++
+			}
+		}
+	}
+	var common, pos, neg float64
+	for j := range mean {
+		if count[j] > 0 {
+			mean[j] /= count[j]
+		}
+		common += mean[j] * mean[j]
+		if mean[j] > 0 {
+			pos += mean[j]
+		} else {
+			neg -= mean[j]
+		}
+	}
+	change := 0.0
+	for i := 0; i < n; i++ {
+		dev := 0.0
+		for j, v := range d.RawRowView(i) {
+			if !math.IsNaN(v) && !math.IsInf(v, 0) {
+				dev += (v - mean[j]) * (v - mean[j])
+			}
+		}
+		change = math.Max(change, dev)
+	}
+	ratio := math.Sqrt(common / change)
+	if !(ratio > staticMost) || !(neg < negativeLeast*pos) || looksLikeBeams(mean) {
+		return ""
+	}
+	return fmt.Sprintf("%s: the spectra given as differences (--kind difference) look like absorbances: they share a common spectrum %.3g times larger than the largest change between them, "+
+		"with no negative band, where differences against a state of the series vary about zero; if they are absorbances (against a blank, the empty crystal or air), give --kind absorbance: "+
+		"the spectrum present throughout is otherwise resolved as one more reaction", source, ratio)
 }
