@@ -75,6 +75,11 @@ type NuisanceOptions struct {
 	// same matrix); of other dimensions it is not used, and nil has it
 	// formed at its first use.
 	Basis *mat.Dense
+	// Blocks are the first rows of the experiments stacked in d, ascending
+	// (nil, or one: a single experiment). With two or more, a factor is also
+	// minor when it is minor in every experiment by that experiment's own
+	// measure (minorInEveryBlock).
+	Blocks []int
 }
 
 // Thresholds of the classification (documented in docs/measurement.md).
@@ -299,7 +304,13 @@ func (c *factorClassifier) minor(nf *NuisanceFactor, j int, u, vu []float64) boo
 	}
 	s2, ratio := c.f.S[j]*c.f.S[j], c.residualRatio(j)
 	if !(ratio <= fitsNoise || c.smallest > 0 && s2 < minorEnergy*c.smallest) {
-		return false
+		shares, ok := c.minorInEveryBlock(j)
+		if !ok {
+			return false
+		}
+		nf.Kind = NuisanceMinor
+		nf.Looks = minorLooksInBlocks(u, vu, c.opt.Axis, shares, c.opt.MeanLevel)
+		return true
 	}
 	nf.Kind = NuisanceMinor
 	// 100·s·s/smallest, not 100·s2/smallest: the same bits as the share reported so far.
@@ -560,4 +571,80 @@ func minorLooks(u, v, axis []float64, ratio float64, chem int, relPercent float6
 		fmt.Fprintf(&b, "; it carries %.2g %% of the signal of the smallest of the %d component(s) before it (without it their SVD residual, before any constraint or baseline, is %.3g × the noise): too small beside them to tell a species from a change of band shape, so it is not counted", relPercent, chem, ratio)
 	}
 	return b.String()
+}
+
+// minorInEveryBlock says whether factor j, counted by its size in the stack of
+// several experiments, is minor in every one of them by the single-experiment
+// rule (minorEnergy): its energy in the experiment's rows against that
+// experiment's own second factor (its first with difference data, where no
+// mean level comes first), the singular values of the experiment's rows in
+// the stack's factors, U_e S. Each experiment alone counts its own components
+// against its own sizes; in the stack, a factor that differs between the
+// experiments (a species whose proportion does, a background) is counted, and
+// the smaller ones after it were measured against that factor instead: on
+// two urethane ATR series (../shared/real-data) each alone gives 2
+// components, the stack gave 6, of which the fourth to sixth carry under 1 %
+// of either series' own second factor. It returns the shares, in per cent.
+func (c *factorClassifier) minorInEveryBlock(j int) ([]float64, bool) {
+	blocks := c.opt.Blocks
+	n, p := c.f.U.Dims()
+	if len(blocks) < 2 || j >= p || c.chem == 0 {
+		return nil, false
+	}
+	ref := 0
+	if c.opt.MeanLevel {
+		ref = 1
+	}
+	shares := make([]float64, len(blocks))
+	for e, first := range blocks {
+		last := n
+		if e+1 < len(blocks) {
+			last = blocks[e+1]
+		}
+		if first < 0 || last > n || last-first <= ref {
+			return nil, false
+		}
+		var b mat.Dense
+		b.CloneFrom(c.f.U.Slice(first, last, 0, p))
+		energy := 0.0
+		for i := 0; i < last-first; i++ {
+			row := b.RawRowView(i)
+			energy += row[j] * row[j]
+			for k := range row {
+				row[k] *= c.f.S[k]
+			}
+		}
+		energy *= c.f.S[j] * c.f.S[j]
+		var svd mat.SVD
+		if !svd.Factorize(&b, mat.SVDNone) {
+			return nil, false
+		}
+		sv := svd.Values(nil)
+		if len(sv) <= ref || !(sv[ref] > 0) {
+			return nil, false
+		}
+		share := energy / (sv[ref] * sv[ref])
+		if !(share < minorEnergy) {
+			return nil, false
+		}
+		shares[e] = 100 * share
+	}
+	return shares, true
+}
+
+// minorLooksInBlocks describes a factor minor in every experiment of a stack.
+func minorLooksInBlocks(u, v, axis []float64, shares []float64, meanLevel bool) string {
+	looks := minorLooks(u, v, axis, math.Inf(1), 0, 0)
+	if i := strings.Index(looks, "; it carries"); i >= 0 {
+		looks = looks[:i]
+	}
+	var each []string
+	for e, sh := range shares {
+		each = append(each, fmt.Sprintf("%.2g %% in experiment %d", sh, e+1))
+	}
+	which := "first"
+	if meanLevel {
+		which = "second" // the first is the mean level
+	}
+	return looks + fmt.Sprintf("; of each experiment's own %s factor it carries %s: too small beside it in every experiment to tell a species from a change of band shape, so it is not counted (the stack measured it against a smaller factor that differs between the experiments)", which, strings.Join(each, ", "))
 }

@@ -212,7 +212,7 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 	if err != nil {
 		return nil, nil, err
 	}
-	cr := svd.ClassifyFactors(dc, f, rep, svd.NuisanceOptions{Axis: r.Axis, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis})
+	cr := svd.ClassifyFactors(dc, f, rep, svd.NuisanceOptions{Axis: r.Axis, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis, Blocks: experimentBlocks(r)})
 	svd.ApplyChemical(rep, cr)
 	return rep, cr, nil
 }
@@ -234,7 +234,7 @@ func screenedRank(r *Result, d *mat.Dense, f *svd.Factors, q, dq *mat.Dense, in 
 	if err != nil {
 		return nil, nil, err
 	}
-	cr := svd.ClassifyFactors(nil, pf, rep, svd.NuisanceOptions{Axis: r.Axis, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis})
+	cr := svd.ClassifyFactors(nil, pf, rep, svd.NuisanceOptions{Axis: r.Axis, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis, Blocks: experimentBlocks(r)})
 	svd.ApplyChemical(rep, cr)
 	return rep, cr, nil
 }
@@ -729,4 +729,17 @@ func plainSigma(r *Result) float64 {
 		mean += x / float64(len(cb))
 	}
 	return math.Sqrt(medianOf(inv(r.Weights.Row)) * mean)
+}
+
+// experimentBlocks is the first row of each experiment in the stacked
+// matrices (D and the differences alike), nil for a single experiment.
+func experimentBlocks(r *Result) []int {
+	if len(r.Experiments) < 2 {
+		return nil
+	}
+	out := make([]int, len(r.Experiments))
+	for i, e := range r.Experiments {
+		out[i] = e.FirstRow
+	}
+	return out
 }
