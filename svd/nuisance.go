@@ -309,7 +309,7 @@ func (c *factorClassifier) minor(nf *NuisanceFactor, j int, u, vu []float64) boo
 			return false
 		}
 		nf.Kind = NuisanceMinor
-		nf.Looks = minorLooksInBlocks(u, vu, c.opt.Axis, shares, c.opt.MeanLevel)
+		nf.Looks = minorLooksInBlocks(u, vu, c.opt.Axis, shares)
 		return true
 	}
 	nf.Kind = NuisanceMinor
@@ -576,15 +576,14 @@ func minorLooks(u, v, axis []float64, ratio float64, chem int, relPercent float6
 // minorInEveryBlock says whether factor j, counted by its size in the stack of
 // several experiments, is minor in every one of them by the single-experiment
 // rule (minorEnergy): its energy in the experiment's rows against that
-// experiment's own second factor (its first with difference data, where no
-// mean level comes first), the singular values of the experiment's rows in
-// the stack's factors, U_e S. Each experiment alone counts its own components
+// experiment's own smallest chemical factor (blockSmallest), from the
+// singular values of the experiment's rows in the stack's factors, U_e S. Each experiment alone counts its own components
 // against its own sizes; in the stack, a factor that differs between the
 // experiments (a species whose proportion does, a background) is counted, and
 // the smaller ones after it were measured against that factor instead: on
 // two urethane ATR series (../shared/real-data) each alone gives 2
-// components, the stack gave 6, of which the fourth to sixth carry under 1 %
-// of either series' own second factor. It returns the shares, in per cent.
+// components, the stack gave 6, of which the fourth to sixth carry about
+// 1 % or less of either series' own. It returns the shares, in per cent.
 func (c *factorClassifier) minorInEveryBlock(j int) ([]float64, bool) {
 	blocks := c.opt.Blocks
 	n, p := c.f.U.Dims()
@@ -623,7 +622,7 @@ func (c *factorClassifier) minorInEveryBlock(j int) ([]float64, bool) {
 		if len(sv) <= ref || !(sv[ref] > 0) {
 			return nil, false
 		}
-		share := energy / (sv[ref] * sv[ref])
+		share := energy / c.blockSmallest(sv, ref, last-first)
 		if !(share < minorEnergy) {
 			return nil, false
 		}
@@ -632,8 +631,30 @@ func (c *factorClassifier) minorInEveryBlock(j int) ([]float64, bool) {
 	return shares, true
 }
 
+// blockSmallest is the energy of an experiment's own smallest chemical factor
+// by the single-experiment rule, from its singular values sv in the stack's
+// factors: from its factor ref (the first after the mean level) on, each
+// next one that stands above the experiment's own noise edge σ(√n + √m)
+// (Marchenko–Pastur, as the rank criteria take it) and carries at least
+// minorEnergy of the one before. An experiment with three species or more
+// thus compares with its third or later, as it would alone.
+func (c *factorClassifier) blockSmallest(sv []float64, ref, rows int) float64 {
+	smallest := sv[ref] * sv[ref]
+	if !(c.sigma > 0) {
+		return smallest
+	}
+	edge := c.sigma * (math.Sqrt(float64(rows)) + math.Sqrt(float64(c.m)))
+	for k := ref + 1; k < len(sv); k++ {
+		if !(sv[k] > edge) || sv[k]*sv[k] < minorEnergy*sv[k-1]*sv[k-1] {
+			break
+		}
+		smallest = sv[k] * sv[k]
+	}
+	return smallest
+}
+
 // minorLooksInBlocks describes a factor minor in every experiment of a stack.
-func minorLooksInBlocks(u, v, axis []float64, shares []float64, meanLevel bool) string {
+func minorLooksInBlocks(u, v, axis []float64, shares []float64) string {
 	looks := minorLooks(u, v, axis, math.Inf(1), 0, 0)
 	if i := strings.Index(looks, "; it carries"); i >= 0 {
 		looks = looks[:i]
@@ -642,9 +663,5 @@ func minorLooksInBlocks(u, v, axis []float64, shares []float64, meanLevel bool) 
 	for e, sh := range shares {
 		each = append(each, fmt.Sprintf("%.2g %% in experiment %d", sh, e+1))
 	}
-	which := "first"
-	if meanLevel {
-		which = "second" // the first is the mean level
-	}
-	return looks + fmt.Sprintf("; of each experiment's own %s factor it carries %s: too small beside it in every experiment to tell a species from a change of band shape, so it is not counted (the stack measured it against a smaller factor that differs between the experiments)", which, strings.Join(each, ", "))
+	return looks + fmt.Sprintf("; of each experiment's own smallest component it carries %s: too small beside it in every experiment to tell a species from a change of band shape, so it is not counted (the stack measured it against a smaller factor that differs between the experiments)", strings.Join(each, ", "))
 }

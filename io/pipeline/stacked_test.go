@@ -49,8 +49,8 @@ func stackedRun(t *testing.T, a0, b0, c0, k float64, drift []float64, seed uint6
 // Two runs stacked are counted by what each shows, not by the smallest factor the
 // stack adds: each run alone has 2 components (its drift, under 1 % of its second
 // factor, is set aside as minor), the stack has 3 (B's proportion differs between the
-// runs), and the two drifts, each more than 2 % of that third factor but below that of
-// either run's own second factor, are not counted. Without the per-experiment test
+// runs), and the two drifts, each more than 2 % of that third factor but below 2 % of
+// either run's own smallest component, are not counted. Without the per-experiment test
 // (svd.NuisanceOptions.Blocks) the stack counted them: 5 (measured while it was written).
 func TestStackedRunsCountWhatEachShows(t *testing.T) {
 	var axis []float64
@@ -90,7 +90,7 @@ func TestStackedRunsCountWhatEachShows(t *testing.T) {
 	if r.Components != 3 {
 		t.Errorf("stacked: %d components (%s), want 3", r.Components, r.Rank.Reason)
 	}
-	if !anyContains(r.Advice, "of each experiment's own second factor it carries") {
+	if !anyContains(r.Advice, "of each experiment's own smallest component it carries") {
 		t.Errorf("no advice names a factor minor in every run; advice %q", r.Advice)
 	}
 }
