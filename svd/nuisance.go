@@ -168,6 +168,9 @@ type factorClassifier struct {
 	smallest float64
 	// A column unscaled into a copy is not kept: its memory takes the next.
 	spareU, spareV []float64
+	// blockEnergy is blockOwn's, once blockDone.
+	blockEnergy []float64
+	blockDone   bool
 }
 
 // newFactorClassifier takes the dimensions from d, or from f when d is nil (d's values
@@ -538,8 +541,17 @@ func smooth5(v []float64) []float64 {
 }
 
 // minorLooks describes a minor factor: where its spectrum is largest, how its time
-// vector runs, and why it is not counted.
+// vector runs (minorShape), and why it is not counted.
 func minorLooks(u, v, axis []float64, ratio float64, chem int, relPercent float64) string {
+	if ratio <= fitsNoise {
+		return minorShape(u, v, axis) + fmt.Sprintf("; %d component(s) already fit to the noise (their SVD residual, before any constraint or baseline, is %.3g × the noise), so by its size alone it is not counted as a species", chem, ratio)
+	}
+	return minorShape(u, v, axis) + fmt.Sprintf("; it carries %.2g %% of the signal of the smallest of the %d component(s) before it (without it their SVD residual, before any constraint or baseline, is %.3g × the noise): too small beside them to tell a species from a change of band shape, so it is not counted", relPercent, chem, ratio)
+}
+
+// minorShape says where a smooth factor's spectrum is largest and how its time
+// vector runs.
+func minorShape(u, v, axis []float64) string {
 	var b strings.Builder
 	b.WriteString("smooth in time and along the axis")
 	if len(axis) == len(v) && len(v) > 0 {
@@ -565,11 +577,6 @@ func minorLooks(u, v, axis []float64, ratio float64, chem int, relPercent float6
 			fmt.Fprintf(&b, ", largest at spectrum %d of %d (a transient)", peak+1, len(u))
 		}
 	}
-	if ratio <= fitsNoise {
-		fmt.Fprintf(&b, "; %d component(s) already fit to the noise (their SVD residual, before any constraint or baseline, is %.3g × the noise), so by its size alone it is not counted as a species", chem, ratio)
-	} else {
-		fmt.Fprintf(&b, "; it carries %.2g %% of the signal of the smallest of the %d component(s) before it (without it their SVD residual, before any constraint or baseline, is %.3g × the noise): too small beside them to tell a species from a change of band shape, so it is not counted", relPercent, chem, ratio)
-	}
 	return b.String()
 }
 
@@ -585,50 +592,78 @@ func minorLooks(u, v, axis []float64, ratio float64, chem int, relPercent float6
 // components, the stack gave 6, of which the fourth to sixth carry about
 // 1 % or less of either series' own. It returns the shares, in per cent.
 func (c *factorClassifier) minorInEveryBlock(j int) ([]float64, bool) {
-	blocks := c.opt.Blocks
 	n, p := c.f.U.Dims()
-	if len(blocks) < 2 || j >= p || c.chem == 0 {
+	if len(c.opt.Blocks) < 2 || j >= p || c.chem == 0 {
 		return nil, false
 	}
-	ref := 0
-	if c.opt.MeanLevel {
-		ref = 1
+	own := c.blockOwn()
+	if own == nil {
+		return nil, false
 	}
-	shares := make([]float64, len(blocks))
-	for e, first := range blocks {
+	shares := make([]float64, len(own))
+	for e, first := range c.opt.Blocks {
 		last := n
-		if e+1 < len(blocks) {
-			last = blocks[e+1]
+		if e+1 < len(c.opt.Blocks) {
+			last = c.opt.Blocks[e+1]
 		}
-		if first < 0 || last > n || last-first <= ref {
-			return nil, false
-		}
-		var b mat.Dense
-		b.CloneFrom(c.f.U.Slice(first, last, 0, p))
 		energy := 0.0
-		for i := 0; i < last-first; i++ {
-			row := b.RawRowView(i)
-			energy += row[j] * row[j]
-			for k := range row {
-				row[k] *= c.f.S[k]
-			}
+		for i := first; i < last; i++ {
+			u := c.f.U.At(i, j)
+			energy += u * u
 		}
-		energy *= c.f.S[j] * c.f.S[j]
-		var svd mat.SVD
-		if !svd.Factorize(&b, mat.SVDNone) {
-			return nil, false
-		}
-		sv := svd.Values(nil)
-		if len(sv) <= ref || !(sv[ref] > 0) {
-			return nil, false
-		}
-		share := energy / c.blockSmallest(sv, ref, last-first)
+		share := energy * c.f.S[j] * c.f.S[j] / own[e]
 		if !(share < minorEnergy) {
 			return nil, false
 		}
 		shares[e] = 100 * share
 	}
 	return shares, true
+}
+
+// blockOwn is, for each experiment of the stack, the energy of its own
+// smallest chemical factor (blockSmallest) from the singular values of its
+// rows in the stack's factors, U_e S; formed at the first use and kept (the
+// same for every factor tested), nil when an experiment has too few rows
+// or its decomposition fails.
+func (c *factorClassifier) blockOwn() []float64 {
+	if c.blockDone {
+		return c.blockEnergy
+	}
+	c.blockDone = true
+	n, p := c.f.U.Dims()
+	ref := 0
+	if c.opt.MeanLevel {
+		ref = 1
+	}
+	own := make([]float64, len(c.opt.Blocks))
+	for e, first := range c.opt.Blocks {
+		last := n
+		if e+1 < len(c.opt.Blocks) {
+			last = c.opt.Blocks[e+1]
+		}
+		if first < 0 || last > n || last-first <= ref {
+			return nil
+		}
+		var b mat.Dense
+		b.CloneFrom(c.f.U.Slice(first, last, 0, p))
+		for i := 0; i < last-first; i++ {
+			row := b.RawRowView(i)
+			for k := range row {
+				row[k] *= c.f.S[k]
+			}
+		}
+		var svd mat.SVD
+		if !svd.Factorize(&b, mat.SVDNone) {
+			return nil
+		}
+		sv := svd.Values(nil)
+		if len(sv) <= ref || !(sv[ref] > 0) {
+			return nil
+		}
+		own[e] = c.blockSmallest(sv, ref, last-first)
+	}
+	c.blockEnergy = own
+	return own
 }
 
 // blockSmallest is the energy of an experiment's own smallest chemical factor
@@ -655,13 +690,9 @@ func (c *factorClassifier) blockSmallest(sv []float64, ref, rows int) float64 {
 
 // minorLooksInBlocks describes a factor minor in every experiment of a stack.
 func minorLooksInBlocks(u, v, axis []float64, shares []float64) string {
-	looks := minorLooks(u, v, axis, math.Inf(1), 0, 0)
-	if i := strings.Index(looks, "; it carries"); i >= 0 {
-		looks = looks[:i]
-	}
 	var each []string
 	for e, sh := range shares {
 		each = append(each, fmt.Sprintf("%.2g %% in experiment %d", sh, e+1))
 	}
-	return looks + fmt.Sprintf("; of each experiment's own smallest component it carries %s: too small beside it in every experiment to tell a species from a change of band shape, so it is not counted (the stack measured it against a smaller factor that differs between the experiments)", strings.Join(each, ", "))
+	return minorShape(u, v, axis) + fmt.Sprintf("; of each experiment's own smallest component it carries %s: too small beside it in every experiment to tell a species from a change of band shape, so it is not counted (the stack measured it against a smaller factor that differs between the experiments)", strings.Join(each, ", "))
 }
