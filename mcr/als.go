@@ -172,6 +172,7 @@ type Options struct {
 	// (set by resolveWithBaseline; they may vanish without a warning).
 	baselineTerms int
 	baselineBasis *mat.Dense // orthonormal basis of the baseline shapes (species mode)
+	baselineLanes []float64  // envelopeLanes(baselineBasis), formed once for every iteration
 	// stopAtRoundingFloor ends ALS at the first plain iteration that
 	// raises the residual (see exactSteps in Resolve).
 	stopAtRoundingFloor bool
@@ -596,7 +597,7 @@ func (r *alsRun) spectraHalf(it int) error {
 	}
 	r.s = s
 	if r.opt.baselineBasis != nil {
-		lowerSpectra(s, r.k-r.opt.baselineTerms, lowerable(r.cs.nnS, r.cs.knownMask), r.opt.baselineBasis)
+		lowerSpectra(s, r.k-r.opt.baselineTerms, lowerable(r.cs.nnS, r.cs.knownMask), r.opt.baselineBasis, r.opt.baselineLanes)
 	}
 	if r.opt.LeastOthers != nil {
 		takeOthers(s, r.opt.LeastOthers, r.k-r.opt.baselineTerms)

@@ -44,6 +44,7 @@ func resolveWithBaseline(d Data, c0 *mat.Dense, opt Options) (*Result, error) {
 	ext.baselineTerms = nb
 	if opt.Mode == Species {
 		ext.baselineBasis = orthonormalColumns(opt.Baseline)
+		ext.baselineLanes = envelopeLanes(ext.baselineBasis)
 	}
 	ext.KnownSpectra = make([][]float64, kk)
 	copy(ext.KnownSpectra, opt.KnownSpectra)
@@ -159,10 +160,12 @@ func SubtractBaseline(d, b, p *mat.Dense) *mat.Dense {
 // is row-major with a few columns: workers writing their columns into it
 // at the same time shared every cache line, and the write took three times
 // as long as the read.)
-func lowerSpectra(s *mat.Dense, k int, nonneg []bool, q *mat.Dense) {
+//
+// qt is envelopeLanes(q), which the caller forms once for all the
+// iterations (shared by the spectra, read only).
+func lowerSpectra(s *mat.Dense, k int, nonneg []bool, q *mat.Dense, qt []float64) {
 	m, _ := s.Dims()
 	_, b := q.Dims()
-	qt := envelopeLanes(q) // shared by the spectra, read only
 	lowered := make([][]float64, k)
 	product.InBlocks(k, k*m*b*200, 1, func(j0, j1 int) {
 		for j := j0; j < j1; j++ {

@@ -152,7 +152,7 @@ func TestLowerSpectraSameAtAnyGOMAXPROCS(t *testing.T) {
 	for w, procs := range []int{1, 2} {
 		runtime.GOMAXPROCS(procs)
 		got[w] = mat.DenseCopyOf(s)
-		lowerSpectra(got[w], k, []bool{true, true, true}, q)
+		lowerSpectra(got[w], k, []bool{true, true, true}, q, envelopeLanes(q))
 	}
 	for i := 0; i < m; i++ {
 		for j := 0; j < k; j++ {
