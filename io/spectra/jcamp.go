@@ -3,7 +3,6 @@ package spectra
 import (
 	"errors"
 	"fmt"
-	"math"
 	"path/filepath"
 	"sort"
 	"strconv"
@@ -78,12 +77,12 @@ func blockSpectrum(path, src string, b jcamp.Block) (*Spectrum, error) {
 			scale = 0.01
 		}
 		for i, t := range y {
-			t *= scale
-			if !(t > 0) {
-				return nil, inputErr(path, b.Line, "absorbance −log10 T needs T > 0: cut that range with --exclude LO:HI, or export absorbance",
+			a, ok := absorbanceOf(t * scale)
+			if !ok {
+				return nil, inputErr(path, b.Line, needPositiveT,
 					"%s: transmittance %g at %g is not positive", blockName(b), y[i], x[i])
 			}
-			y[i] = -math.Log10(t)
+			y[i] = a
 		}
 		kind = string(Absorbance)
 	}

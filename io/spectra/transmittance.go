@@ -44,18 +44,31 @@ func TransmittanceToAbsorbance(s *Series) (percent bool, largest float64, err er
 	for i := 0; i < n; i++ {
 		row := s.Values.RawRowView(i)[:m]
 		for j, v := range row {
-			t := v * scale
-			if !(t > 0) && !math.IsNaN(t) {
+			a, ok := absorbanceOf(v * scale)
+			if !ok && !math.IsNaN(v) { // a missing value stays missing
 				where := fmt.Sprintf("spectrum %d", i+1)
 				if i < len(s.Names) && s.Names[i] != "" {
 					where = s.Names[i]
 				}
-				return false, 0, inputErr(s.Source, 0, "absorbance −log10 T needs T > 0: cut that range with --exclude LO:HI, or export absorbance",
+				return false, 0, inputErr(s.Source, 0, needPositiveT,
 					"transmittance %g at %s %g in %s is not positive", v, s.AxisName, s.Axis[j], where)
 			}
-			row[j] = -math.Log10(t)
+			row[j] = a
 		}
 	}
 	s.scan = nil // the values changed in place
 	return percent, largest, nil
 }
+
+// absorbanceOf is A = −log10 T of a transmittance as a fraction (IUPAC Gold
+// Book, "absorbance"), and whether T > 0, without which it has none. The
+// JCAMP-DX reader and TransmittanceToAbsorbance both read T through it.
+func absorbanceOf(t float64) (float64, bool) {
+	if !(t > 0) {
+		return math.NaN(), false
+	}
+	return -math.Log10(t), true
+}
+
+// needPositiveT is what to do about a transmittance ≤ 0.
+const needPositiveT = "absorbance −log10 T needs T > 0: cut that range with --exclude LO:HI, or export absorbance"
