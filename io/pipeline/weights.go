@@ -289,10 +289,12 @@ func noiseOf(r *Result) {
 		from = "each experiment's own spectra (" + strings.Join(each, "; ") + ")"
 	}
 	switch {
-	case nz.Unit == "single-beam units" && len(r.Experiments) > 1:
-		r.NoiseSource = fmt.Sprintf("detector noise in single-beam units from %s; absorbance noise σ_I/(I ln 10) per point", from)
 	case nz.Unit == "single-beam units":
-		r.NoiseSource = fmt.Sprintf("detector noise %.3g in single-beam units from %s; absorbance noise σ_I/(I ln 10) per point", nz.Level, from)
+		level := fmt.Sprintf(" %.3g", nz.Level)
+		if len(r.Experiments) > 1 {
+			level = "" // each experiment's is in from
+		}
+		r.NoiseSource = fmt.Sprintf("detector noise%s in single-beam units from %s; absorbance noise σ_I/(I ln 10) per point", level, from)
 	default:
 		r.NoiseSource = fmt.Sprintf("absorbance noise per channel from %s", from)
 	}
