@@ -68,11 +68,14 @@ type Summary struct {
 	// chemical, in nuisance_factors or noise-like, so the report can check that the
 	// factors beyond rank_estimate are all accounted for. Nil: not classified, or a
 	// folder written before these keys.
-	FactorsAboveNoise *int     `json:"factors_above_noise,omitempty"`
-	NoiseLikeFactors  *int     `json:"noise_like_factors,omitempty"`
-	Advice            []string `json:"advice"`
-	Notes             []string `json:"notes"`
-	Warnings          []string `json:"warnings"`
+	FactorsAboveNoise *int `json:"factors_above_noise,omitempty"`
+	NoiseLikeFactors  *int `json:"noise_like_factors,omitempty"`
+	// WaterVapour is the check for water-vapour lines that change during
+	// the run (nil: written before the check).
+	WaterVapour *VapourJSON `json:"water_vapour,omitempty"`
+	Advice      []string    `json:"advice"`
+	Notes       []string    `json:"notes"`
+	Warnings    []string    `json:"warnings"`
 
 	// Constraints, their checks, the bands' note and the bootstrap
 	// (constraints.go; keys in docs/constraints.md).
@@ -214,6 +217,30 @@ type EFAEntry struct {
 }
 
 // OutlierJSON is one spectrum set aside.
+// VapourJSON is the water-vapour check (docs/measurement.md, "Water
+// vapour"): whether the axis was checked (why not), the coherence ratio
+// (noise alone about 1) and lines counted, whether a change was detected,
+// and then where the largest line is, how much it changed per experiment
+// and the resolved spectra that hold the lines.
+type VapourJSON struct {
+	Checked   bool                `json:"checked"`
+	Why       string              `json:"not_checked_because,omitempty"`
+	Range     []float64           `json:"range"`
+	Detected  bool                `json:"detected"`
+	Ratio     *float64            `json:"coherence_ratio,omitempty"`
+	Lines     *int                `json:"lines,omitempty"`
+	LargestAt float64             `json:"largest_line_at,omitempty"`
+	Change    []float64           `json:"line_change,omitempty"`
+	Carriers  []VapourCarrierJSON `json:"spectra_with_lines,omitempty"`
+}
+
+// VapourCarrierJSON is one resolved spectrum holding the lines: the height
+// of the largest line in it.
+type VapourCarrierJSON struct {
+	Component  string  `json:"component"`
+	LineHeight float64 `json:"line_height"`
+}
+
 type OutlierJSON struct {
 	Time       float64 `json:"time_s"`
 	Experiment string  `json:"experiment"`

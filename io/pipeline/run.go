@@ -137,6 +137,8 @@ type Result struct {
 	MinorTests   []MinorVerdict
 	MinorTested  bool
 	MinorSpecies []svd.NuisanceFactor
+	// Vapour is the check for water-vapour lines that change (vapour.go).
+	Vapour *svd.VapourCheck
 	// earlyFit is the first data fit of hard–soft, begun beside the soft
 	// resolution (earlyDataFit); nil outside resolve.
 	earlyFit *earlyDataFit
@@ -191,6 +193,7 @@ func run(s *Settings, log io.Writer, hashInputs bool) (_ *Result, err error) {
 	if err := setAsideRows(r); err != nil {
 		return nil, err
 	}
+	checkVapour(r)
 	if hashInputs {
 		// A folder's spectrum files are known now.
 		r.inputSums = startInputSumsAfter(r.inputSums, dataFiles(r))
@@ -216,11 +219,13 @@ func run(s *Settings, log io.Writer, hashInputs bool) (_ *Result, err error) {
 	if r.Components == 0 {
 		r.LackOfFit, r.Explained = 0, 100
 		nuisanceAdvice(r)
+		vapourWarning(r)
 		return r, nil
 	}
 	if err := resolveAndFit(r, log); err != nil {
 		return nil, err
 	}
+	vapourWarning(r)
 	return r, nil
 }
 

@@ -64,6 +64,7 @@ func MakeSummary(r *Result) *Summary {
 		Advice:                   nonNil(r.Advice),
 		Notes:                    nonNil(r.Notes),
 		Warnings:                 nonNil(r.Warnings),
+		WaterVapour:              vapourSummary(r),
 	}
 	if r.Mode.String() == "species" && r.Settings.Closure != "off" {
 		s.Closure = r.Settings.Closure
@@ -176,6 +177,9 @@ func WriteResults(r *Result, st *output.Stage) error {
 		if err := st.Write("kinetics.csv", t.CSV()); err != nil {
 			return err
 		}
+	}
+	if err := writeVapour(r, st); err != nil {
+		return err
 	}
 	sum, err := output.JSON(MakeSummary(r))
 	if err != nil {

@@ -1,0 +1,291 @@
+package svd
+
+import (
+	"bufio"
+	"math"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"slices"
+	"strconv"
+	"strings"
+	"testing"
+	"time"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// TestSavitzkyGolayWeights: the quadratic smoothing weights against
+// Savitzky & Golay's own table (Anal. Chem. 36, 1627, 1964, Table I: 5, 7
+// and 9 points, integers over a norm; from memory) and scipy 1.10's
+// scipy.signal.savgol_coeffs(17, 2) (Debian python3-scipy; agrees with the
+// closed form to 6e-16), multiplied by their norms.
+func TestSavitzkyGolayWeights(t *testing.T) {
+	for _, tc := range []struct {
+		points int
+		norm   float64
+		want   []float64
+	}{
+		{5, 35, []float64{-3, 12, 17, 12, -3}},
+		{7, 21, []float64{-2, 3, 6, 7, 6, 3, -2}},
+		{9, 231, []float64{-21, 14, 39, 54, 59, 54, 39, 14, -21}},
+		{17, 323, []float64{-21, -6, 7, 18, 27, 34, 39, 42, 43, 42, 39, 34, 27, 18, 7, -6, -21}},
+	} {
+		c := savitzkyGolay2(tc.points / 2)
+		for j, w := range tc.want {
+			if got := c[j] * tc.norm; math.Abs(got-w) > 1e-12 {
+				t.Errorf("%d points, weight %d: %g × %g = %.15g, table %g", tc.points, j, c[j], tc.norm, got, w)
+			}
+		}
+	}
+	// A quadratic passes unchanged (the weights' defining property).
+	x := make([]float64, 40)
+	for j := range x {
+		f := float64(j)
+		x[j] = 0.3*f*f - 2*f + 7
+	}
+	for j, r := range highPass(x, savitzkyGolay2(4), 4) {
+		if math.Abs(r) > 1e-9 {
+			t.Fatalf("high-pass of a quadratic at %d: %g, want 0", j, r)
+		}
+	}
+}
+
+// TestHighPassAdjoint: f·x = p·highPass(x) for every x (the definition of
+// the adjoint), checked on random vectors.
+func TestHighPassAdjoint(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 4))
+	h := 5
+	p := make([]float64, 50)
+	x := make([]float64, len(p)+2*h)
+	for j := range p {
+		p[j] = rng.NormFloat64()
+	}
+	f := highPassAdjoint(p, h)
+	for trial := 0; trial < 5; trial++ {
+		for j := range x {
+			x[j] = rng.NormFloat64()
+		}
+		hp := highPass(x, savitzkyGolay2(h), h)
+		want := 0.0
+		for j := range p {
+			want += p[j] * hp[j]
+		}
+		if got := dotWindow(x, f); math.Abs(got-want) > 1e-12*math.Max(1, math.Abs(want)) {
+			t.Fatalf("f·x = %g, p·Hx = %g", got, want)
+		}
+	}
+}
+
+// readUrethaneVapour reads the trimmed copies of the urethane ATR series
+// (testdata/urethane-atr: jevandezande/spectra, MIT; every second spectrum,
+// 3500–4000 cm⁻¹), in time order from the date-time in each file's name.
+func readUrethaneVapour(t *testing.T, run string) (d *mat.Dense, axis []float64) {
+	t.Helper()
+	dir := filepath.Join("..", "testdata", "urethane-atr", "vapour-"+run)
+	names, err := filepath.Glob(filepath.Join(dir, "*.CSV"))
+	if err != nil || len(names) == 0 {
+		t.Fatalf("no spectra in %s: %v", dir, err)
+	}
+	when := func(name string) time.Time {
+		base := filepath.Base(name)
+		tm, err := time.Parse("Mon Jan 02 15-04-05 2006", base[:strings.Index(base, " (")])
+		if err != nil {
+			t.Fatal(err)
+		}
+		return tm
+	}
+	slices.SortFunc(names, func(a, b string) int { return when(a).Compare(when(b)) })
+	var rows [][]float64
+	for _, name := range names {
+		f, err := os.Open(name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var row, x []float64
+		sc := bufio.NewScanner(f)
+		for sc.Scan() {
+			a, b, _ := strings.Cut(strings.TrimSpace(sc.Text()), ",")
+			xv, err1 := strconv.ParseFloat(a, 64)
+			yv, err2 := strconv.ParseFloat(b, 64)
+			if err1 != nil || err2 != nil {
+				t.Fatalf("%s: %q", name, sc.Text())
+			}
+			x, row = append(x, xv), append(row, yv)
+		}
+		f.Close()
+		axis, rows = x, append(rows, row)
+	}
+	d = mat.NewDense(len(rows), len(axis), nil)
+	for i, r := range rows {
+		d.SetRow(i, r)
+	}
+	return d, axis
+}
+
+// TestVapourOnARealSeries: the urethane ATR series (open data, above). At
+// catalyst loading 0.01 the spectra gain water-vapour lines over the 470
+// minutes; plotted (last spectrum less the first) they are a forest of
+// lines 3550–3950 cm⁻¹ about 0.05 absorbance high on a broad rise. At 1.00
+// (65 minutes) none is seen. The ratio and line counts were computed
+// independently with numpy/scipy from the same definitions
+// (testdata/svd/vapour_reference.py): 13.3463 and 99 lines, 1.1038 and 6.
+func TestVapourOnARealSeries(t *testing.T) {
+	d, axis := readUrethaneVapour(t, "catalyst-0.01")
+	v := CheckVapour(d, axis, nil)
+	if !v.Checked || !v.Detected {
+		t.Fatalf("catalyst-0.01: checked %v (%s), detected %v, ratio %.3g, %d lines", v.Checked, v.Why, v.Detected, v.Ratio, v.Lines)
+	}
+	if math.Abs(v.Ratio-13.3463) > 1e-4 || v.Lines != 99 {
+		t.Errorf("catalyst-0.01: ratio %.6g, %d lines; numpy 13.3463, 99", v.Ratio, v.Lines)
+	}
+	// The lines grow through the run: the last spectrum holds more than the first.
+	n := len(v.Height)
+	if v.Height[n-1] <= v.Height[0] || v.Change[0] < 0.01 || v.Change[0] > 0.1 {
+		t.Errorf("catalyst-0.01: heights %.3g → %.3g, change %.3g", v.Height[0], v.Height[n-1], v.Change[0])
+	}
+	// Differences against the first spectrum change nothing but the level.
+	diff := mat.DenseCopyOf(d)
+	for i := 0; i < n; i++ {
+		floats(diff.RawRowView(i)).sub(d.RawRowView(0))
+	}
+	vd := CheckVapour(diff, axis, nil)
+	if !vd.Detected || math.Abs(vd.Ratio-v.Ratio) > 1e-9 || math.Abs(vd.Height[0]) > 1e-12 {
+		t.Errorf("differences: detected %v, ratio %.6g (absorbance %.6g), first height %.3g", vd.Detected, vd.Ratio, v.Ratio, vd.Height[0])
+	}
+	// The resolved spectrum of a reaction that carried the vapour holds
+	// its lines; a smooth band does not.
+	last := diff.RawRowView(n - 1)
+	if h, z := vd.LinesIn(last); z < VapourSignificant || math.Abs(h-vd.Height[n-1]) > 1e-12 {
+		t.Errorf("last difference spectrum: lines %.3g (z %.3g), want %.3g", h, z, vd.Height[n-1])
+	}
+	smooth := make([]float64, len(axis))
+	for j, x := range axis {
+		smooth[j] = math.Exp(-math.Pow((x-3650)/120, 2))
+	}
+	if h, z := vd.LinesIn(smooth); z >= VapourSignificant || math.Abs(h) > 1e-5 {
+		t.Errorf("a smooth band carries lines %.3g (z %.3g)", h, z)
+	}
+
+	d1, axis1 := readUrethaneVapour(t, "catalyst-1.00")
+	v1 := CheckVapour(d1, axis1, nil)
+	if !v1.Checked || v1.Detected || math.Abs(v1.Ratio-1.1038) > 1e-4 || v1.Lines != 6 {
+		t.Errorf("catalyst-1.00: detected %v, ratio %.6g, %d lines; numpy 1.1038, 6 lines", v1.Detected, v1.Ratio, v1.Lines)
+	}
+	// Stacked as a user stacks them (--data catalyst-1.00 --data
+	// catalyst-0.01; the same instrument axis), the check sees the change
+	// in the experiment that has one and little in the other.
+	if !slices.Equal(axis, axis1) {
+		t.Fatal("the two runs' axes differ")
+	}
+	n1, _ := d1.Dims()
+	both := mat.NewDense(n1+n, len(axis), nil)
+	both.Slice(0, n1, 0, len(axis)).(*mat.Dense).Copy(d1)
+	both.Slice(n1, n1+n, 0, len(axis)).(*mat.Dense).Copy(d)
+	vs := CheckVapour(both, axis, []int{0, n1})
+	if !vs.Detected || len(vs.Change) != 2 || vs.Change[1] < 0.01 || vs.Change[0] > vs.Change[1]/4 {
+		t.Errorf("stacked: detected %v, ratio %.3g, changes %.3g", vs.Detected, vs.Ratio, vs.Change)
+	}
+}
+
+type floats []float64
+
+func (a floats) sub(b []float64) {
+	for j := range a {
+		a[j] -= b[j]
+	}
+}
+
+// TestVapourNotInNoiseOrBands: what must not be taken for vapour lines
+// (the Marchenko–Pastur argument of VapourCheck: noise alone gives a ratio
+// near 1). Detector noise constant in counts (absorbance noise ∝ 1/I),
+// smoothed over three channels as instruments do, under a broad O–H band
+// and a narrower free O–H band (15 cm⁻¹) that both change a lot, as
+// absorbance and as differences against the first spectrum (whose noise
+// every row shares: a fixed pattern, not a change).
+func TestVapourNotInNoiseOrBands(t *testing.T) {
+	rng := rand.New(rand.NewPCG(11, 12))
+	n, m := 120, 3000
+	axis := make([]float64, m)
+	for j := range axis {
+		axis[j] = 4000 - float64(j)*0.5
+	}
+	band := func(x, c, fwhm float64) float64 { return math.Exp(-4 * math.Ln2 * math.Pow((x-c)/fwhm, 2)) }
+	d := mat.NewDense(n, m, nil)
+	raw := make([]float64, m)
+	for i := 0; i < n; i++ {
+		f := float64(i) / float64(n-1)
+		for j, x := range axis {
+			a := (1-f)*band(x, 3350, 200) + 0.5*f*band(x, 3630, 15)
+			i0 := 1e4*math.Exp(-math.Pow((x-2500)/1500, 2)) + 500
+			raw[j] = i0*math.Pow(10, -a) + 30*rng.NormFloat64()
+		}
+		for j, x := range axis {
+			lo, hi := max(0, j-1), min(m-1, j+1)
+			s := 0.0
+			for k := lo; k <= hi; k++ {
+				s += raw[k]
+			}
+			i0 := 1e4*math.Exp(-math.Pow((x-2500)/1500, 2)) + 500
+			d.Set(i, j, -math.Log10(s/float64(hi-lo+1)/i0))
+		}
+	}
+	for _, kind := range []string{"absorbance", "differences"} {
+		dd := d
+		if kind == "differences" {
+			dd = mat.DenseCopyOf(d)
+			for i := 0; i < n; i++ {
+				floats(dd.RawRowView(i)).sub(d.RawRowView(0))
+			}
+		}
+		v := CheckVapour(dd, axis, nil)
+		if !v.Checked || v.Detected || v.Ratio > 1.5 {
+			t.Errorf("%s: checked %v (%s), detected %v, ratio %.3g, %d lines", kind, v.Checked, v.Why, v.Detected, v.Ratio, v.Lines)
+		}
+	}
+}
+
+// TestVapourNotChecked: an axis that does not cover the range, or too
+// coarse to show lines, is not checked, and says why.
+func TestVapourNotChecked(t *testing.T) {
+	for _, tc := range []struct {
+		name       string
+		lo, step   float64
+		m          int
+		wantReason string
+	}{
+		{"UV-visible in nm", 200, 1, 600, "does not cover"},
+		{"coarse", 400, 4, 900, "too coarse"},
+	} {
+		axis := make([]float64, tc.m)
+		for j := range axis {
+			axis[j] = tc.lo + float64(j)*tc.step
+		}
+		v := CheckVapour(mat.NewDense(5, tc.m, nil), axis, nil)
+		if v.Checked || !strings.Contains(v.Why, tc.wantReason) {
+			t.Errorf("%s: checked %v, why %q", tc.name, v.Checked, v.Why)
+		}
+	}
+}
+
+// BenchmarkCheckVapour2000x3001: the check on the benchmark series' shape
+// (axis 4000–1000 cm⁻¹ at 1 cm⁻¹, so 400 points in range), noise only.
+func BenchmarkCheckVapour2000x3001(b *testing.B) {
+	n, m := 2000, 3001
+	rng := rand.New(rand.NewPCG(5, 6))
+	d := mat.NewDense(n, m, nil)
+	for i := 0; i < n; i++ {
+		row := d.RawRowView(i)
+		for j := range row {
+			row[j] = 1e-3 * rng.NormFloat64()
+		}
+	}
+	axis := make([]float64, m)
+	for j := range axis {
+		axis[j] = 4000 - float64(j)
+	}
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		CheckVapour(d, axis, nil)
+	}
+}
