@@ -78,6 +78,10 @@ const (
 	vapourRatio        = 3.0 // coherence ratio needed
 	vapourLines        = 15  // lines needed
 	vapourWidth        = 8.0 // axis units the smooth spans
+	// lineFitWidth is LineAmounts' smooth: wider than the check's, which
+	// keeps more of each line against the noise and a real spectrum's own
+	// sharp features (docs/measurement.md section 9 gives the trial).
+	lineFitWidth = 12.0
 )
 
 // VapourSignificant is the z of LinesIn from which a spectrum is said to
@@ -428,4 +432,159 @@ func (v *VapourCheck) LinesIn(spectrum []float64) (height, z float64) {
 		return c * v.peak, math.MaxFloat64
 	}
 	return c * v.peak, math.Abs(c) / rms
+}
+
+// LineAmounts fits, in every row of d, the amounts of the line spectra
+// refs (each over the whole axis: a water-vapour or CO₂ spectrum recorded
+// at the same resolution) on their narrow lines alone: the least-squares
+// amounts a_i of min ‖H d_i − Σ_k a_ik H r_k‖², H a high-pass like
+// CheckVapour's (less the quadratic Savitzky–Golay smooth, here over about
+// lineFitWidth axis units) at every point whose smoothing window lies on
+// evenly spaced axis values. The bands of a sample, tens of units wide,
+// hardly enter H d_i, so the amounts follow the lines, which is how a
+// reference spectrum of the atmosphere is scaled to a sample spectrum
+// (common practice). The result is n × len(refs); an error says why no fit
+// is made: an axis too coarse for lines, a reference without lines, or two
+// references that cannot be told apart on their lines.
+func LineAmounts(d *mat.Dense, axis []float64, refs [][]float64) (*mat.Dense, error) {
+	n, m := d.Dims()
+	half, centres, err := evenCentres(axis)
+	if err != nil {
+		return nil, err
+	}
+	k := len(refs)
+	hr := make([][]float64, k) // H r_k at the centres
+	c := savitzkyGolay2(half)
+	for q, r := range refs {
+		if len(r) != m {
+			return nil, fmt.Errorf("line spectrum %d has %d values for %d axis points", q+1, len(r), m)
+		}
+		hr[q] = highPassAt(r, c, half, centres)
+	}
+	gram := mat.NewSymDense(k, nil)
+	for p := 0; p < k; p++ {
+		for q := p; q < k; q++ {
+			gram.SetSym(p, q, dotWindow(hr[p], hr[q]))
+		}
+	}
+	if err := linesApart(gram, refs); err != nil {
+		return nil, err
+	}
+	var chol mat.Cholesky
+	if !chol.Factorize(gram) {
+		return nil, fmt.Errorf("the line spectra cannot be told apart on their lines")
+	}
+	// Gᵀ H d_i = Fᵀ d_i with F = Hᵀ G, the adjoint filters over the axis.
+	filters := make([][]float64, k)
+	for q := range hr {
+		filters[q] = adjointAt(hr[q], c, half, centres, m)
+	}
+	out := mat.NewDense(n, k, nil)
+	rhs, a := mat.NewVecDense(k, nil), mat.NewVecDense(k, nil)
+	for i := 0; i < n; i++ {
+		row := d.RawRowView(i)
+		for q, f := range filters {
+			rhs.SetVec(q, dotWindow(row, f))
+		}
+		if err := chol.SolveVecTo(a, rhs); err != nil {
+			return nil, err
+		}
+		out.SetRow(i, a.RawVector().Data)
+	}
+	return out, nil
+}
+
+// SubtractLines takes amounts·refs (LineAmounts) out of every row of d.
+func SubtractLines(d *mat.Dense, refs [][]float64, amounts *mat.Dense) {
+	n, _ := d.Dims()
+	for i := 0; i < n; i++ {
+		row := d.RawRowView(i)
+		for q, r := range refs {
+			a := amounts.At(i, q)
+			for j, x := range r {
+				row[j] -= a * x
+			}
+		}
+	}
+}
+
+// linesApart refuses a reference whose high-pass keeps less than a
+// millionth of its energy (no narrow lines: a broad band keeps about
+// 1e-10, a line forest a large share) and two references whose lines are
+// nearly the same (cosine above 0.999).
+func linesApart(gram *mat.SymDense, refs [][]float64) error {
+	k := gram.SymmetricDim()
+	for p := 0; p < k; p++ {
+		if e := dotWindow(refs[p], refs[p]); !(gram.At(p, p) > 1e-6*e) {
+			return fmt.Errorf("line spectrum %d has no narrow lines (its high-pass keeps %.2g of its energy)", p+1, gram.At(p, p)/math.Max(e, math.SmallestNonzeroFloat64))
+		}
+		for q := 0; q < p; q++ {
+			if cos := gram.At(p, q) / math.Sqrt(gram.At(p, p)*gram.At(q, q)); math.Abs(cos) > 0.999 {
+				return fmt.Errorf("line spectra %d and %d have the same lines (cosine %.4f): give one", q+1, p+1, cos)
+			}
+		}
+	}
+	return nil
+}
+
+// evenCentres are the half width of the smooth for the axis's median
+// spacing and the points whose window of 2·half+1 values is evenly spaced
+// (within 5 %): gaps left by --exclude or an uneven axis are stepped over.
+func evenCentres(axis []float64) (half int, centres []int, err error) {
+	m := len(axis)
+	if m < 5 {
+		return 0, nil, fmt.Errorf("only %d axis values", m)
+	}
+	steps := make([]float64, m-1)
+	for j := range steps {
+		steps[j] = math.Abs(axis[j+1] - axis[j])
+	}
+	sorted := slices.Clone(steps)
+	slices.Sort(sorted)
+	step := sorted[len(sorted)/2]
+	if step > 2 {
+		return 0, nil, fmt.Errorf("axis values %.3g apart: too coarse to see narrow lines (at most 2)", step)
+	}
+	half = max(2, int(math.Round(lineFitWidth/2/step)))
+	even := 0 // evenly spaced steps ending at j
+	for j := 0; j < m; j++ {
+		if j > 0 && math.Abs(steps[j-1]-step) <= 0.05*step {
+			even++
+		} else {
+			even = 0
+		}
+		// The window of the centre j−half ends at j.
+		if even >= 2*half {
+			centres = append(centres, j-half)
+		}
+	}
+	if len(centres) == 0 {
+		return 0, nil, fmt.Errorf("no run of %d evenly spaced axis values", 2*half+1)
+	}
+	return half, centres, nil
+}
+
+// highPassAt is x less its smooth by the weights c at the centres.
+func highPassAt(x, c []float64, h int, centres []int) []float64 {
+	out := make([]float64, len(centres))
+	for i, j := range centres {
+		s := 0.0
+		for t, w := range c {
+			s += w * x[j-h+t]
+		}
+		out[i] = x[j] - s
+	}
+	return out
+}
+
+// adjointAt is the filter f over m points with f·x = p·highPassAt(x).
+func adjointAt(p, c []float64, h int, centres []int, m int) []float64 {
+	f := make([]float64, m)
+	for i, j := range centres {
+		f[j] += p[i]
+		for t, w := range c {
+			f[j-h+t] -= p[i] * w
+		}
+	}
+	return f
 }

@@ -289,3 +289,130 @@ func BenchmarkCheckVapour2000x3001(b *testing.B) {
 		CheckVapour(d, axis, nil)
 	}
 }
+
+// lineForest is a spectrum of narrow lines (Gaussian, 3 axis units wide at
+// half height, as an instrument at 4 cm⁻¹ shows gas lines) at random
+// places in lo–hi, heights up to top: a stand-in for a water-vapour
+// spectrum, invented for the tests (its shape is not water's).
+func lineForest(axis []float64, rng *rand.Rand, lines int, lo, hi, top float64) []float64 {
+	v := make([]float64, len(axis))
+	for l := 0; l < lines; l++ {
+		c, a := lo+(hi-lo)*rng.Float64(), top*rng.Float64()
+		for j, x := range axis {
+			if dx := x - c; math.Abs(dx) < 10 {
+				v[j] += a * math.Exp(-4*math.Ln2*dx*dx/9)
+			}
+		}
+	}
+	return v
+}
+
+// TestLineAmountsAnalytic: D = C Sᵀ + a vᵀ + E with two species whose
+// bands (20 and 200 cm⁻¹ wide) lie under a line forest v, a(t) a drift
+// unlike the profiles, and detector noise constant in counts (absorbance
+// noise σ_I/(I ln 10)). The amounts are a linear least-squares estimate,
+// â_i = fᵀ d_i/‖Hv‖² with f = HᵀHv, so â_i − a_i is the bands' share
+// fᵀ(C Sᵀ)_i/‖Hv‖² plus noise of standard deviation
+// √(Σ_j f_j² σ_ij²)/‖Hv‖² (the variance of a linear estimator); both are
+// computed here from the truth and every amount must lie within 5 such
+// deviations. After the subtraction no change of lines is detected.
+func TestLineAmountsAnalytic(t *testing.T) {
+	rng := rand.New(rand.NewPCG(21, 22))
+	n, m := 60, 6000
+	axis := make([]float64, m)
+	for j := range axis {
+		axis[j] = 4000 - 0.5*float64(j)
+	}
+	v := lineForest(axis, rng, 120, 1300, 2000, 0.05)
+	stretch := lineForest(axis, rng, 120, 3450, 3990, 0.04)
+	for j := range v {
+		v[j] += stretch[j]
+	}
+	band := func(x, c, fwhm float64) float64 { return math.Exp(-4 * math.Ln2 * math.Pow((x-c)/fwhm, 2)) }
+	i0 := func(x float64) float64 { return 2e4*math.Exp(-math.Pow((x-2500)/1800, 2)) + 800 }
+	truth := make([]float64, n)
+	clean := mat.NewDense(n, m, nil)
+	d := mat.NewDense(n, m, nil)
+	sigma := mat.NewDense(n, m, nil)
+	for i := 0; i < n; i++ {
+		f := float64(i) / float64(n-1)
+		truth[i] = 0.2 + 0.8*math.Sin(3*f)*math.Sin(3*f) // humidity: up, then down
+		for j, x := range axis {
+			a := (1-f)*(0.6*band(x, 1700, 20)+0.3*band(x, 3350, 200)) + f*(0.5*band(x, 1730, 20)+0.4*band(x, 1550, 25))
+			clean.Set(i, j, a)
+			ia := i0(x) * math.Pow(10, -(a+truth[i]*v[j]))
+			sigma.Set(i, j, 20/(ia*math.Ln10))
+			d.Set(i, j, -math.Log10((ia+20*rng.NormFloat64())/i0(x)))
+		}
+	}
+	amounts, err := LineAmounts(d, axis, [][]float64{v})
+	if err != nil {
+		t.Fatal(err)
+	}
+	half, centres, _ := evenCentres(axis)
+	c := savitzkyGolay2(half)
+	hv := highPassAt(v, c, half, centres)
+	f := adjointAt(hv, c, half, centres, m)
+	norm := dotWindow(hv, hv)
+	for i := 0; i < n; i++ {
+		share := dotWindow(clean.RawRowView(i), f) / norm
+		ss := 0.0
+		for j, fj := range f {
+			ss += fj * fj * sigma.At(i, j) * sigma.At(i, j)
+		}
+		sd := math.Sqrt(ss) / norm
+		if i%20 == 0 {
+			t.Logf("spectrum %d: amount %.6f truth %.6f share %.2g sd %.2g", i, amounts.At(i, 0), truth[i], share, sd)
+		}
+		if got := amounts.At(i, 0); math.Abs(got-truth[i]-share) > 5*sd {
+			t.Errorf("spectrum %d: amount %.6f, truth %.6f + bands' share %.2g, noise sd %.2g", i, got, truth[i], share, sd)
+		}
+		if math.Abs(share) > 0.01 {
+			t.Errorf("spectrum %d: the bands' share %.3g is not small", i, share)
+		}
+	}
+	before := CheckVapour(d, axis, nil)
+	SubtractLines(d, [][]float64{v}, amounts)
+	after := CheckVapour(d, axis, nil)
+	if !before.Detected || after.Detected {
+		t.Errorf("lines detected before %v (ratio %.3g), after %v (ratio %.3g, %d lines)", before.Detected, before.Ratio, after.Detected, after.Ratio, after.Lines)
+	}
+}
+
+// TestLineAmountsRefused: a reference without lines, two alike, and an axis
+// too coarse are refused with the reason.
+func TestLineAmountsRefused(t *testing.T) {
+	axis := make([]float64, 800)
+	for j := range axis {
+		axis[j] = 4000 - float64(j)
+	}
+	d := mat.NewDense(3, len(axis), nil)
+	smooth := make([]float64, len(axis))
+	for j, x := range axis {
+		smooth[j] = math.Exp(-math.Pow((x-3600)/150, 2))
+	}
+	lines := lineForest(axis, rand.New(rand.NewPCG(1, 2)), 40, 3300, 3900, 0.05)
+	twice := slices.Clone(lines)
+	for j := range twice {
+		twice[j] *= 2
+	}
+	coarse := make([]float64, 200)
+	for j := range coarse {
+		coarse[j] = 4000 - 4*float64(j)
+	}
+	for _, tc := range []struct {
+		name string
+		d    *mat.Dense
+		axis []float64
+		refs [][]float64
+		want string
+	}{
+		{"smooth", d, axis, [][]float64{smooth}, "no narrow lines"},
+		{"alike", d, axis, [][]float64{lines, twice}, "the same lines"},
+		{"coarse", mat.NewDense(3, 200, nil), coarse, [][]float64{make([]float64, 200)}, "too coarse"},
+	} {
+		if _, err := LineAmounts(tc.d, tc.axis, tc.refs); err == nil || !strings.Contains(err.Error(), tc.want) {
+			t.Errorf("%s: %v, want %q", tc.name, err, tc.want)
+		}
+	}
+}

@@ -232,6 +232,17 @@ type VapourJSON struct {
 	LargestAt float64             `json:"largest_line_at,omitempty"`
 	Change    []float64           `json:"line_change,omitempty"`
 	Carriers  []VapourCarrierJSON `json:"spectra_with_lines,omitempty"`
+	// Subtracted are the --vapour spectra taken out of every spectrum
+	// before the check, with the range of their fitted amounts.
+	Subtracted []VapourSubtractedJSON `json:"subtracted,omitempty"`
+}
+
+// VapourSubtractedJSON is one --vapour spectrum: its file and the
+// smallest and largest amount fitted (1: as much as in the file).
+type VapourSubtractedJSON struct {
+	File      string  `json:"file"`
+	AmountMin float64 `json:"amount_min"`
+	AmountMax float64 `json:"amount_max"`
 }
 
 // VapourCarrierJSON is one resolved spectrum holding the lines: the height

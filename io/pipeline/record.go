@@ -41,6 +41,7 @@ const (
 var pathOptions = map[string]cmdfile.Keyword{
 	"data":      {Path: cmdfile.ReadPath},
 	"blank":     {Path: cmdfile.ReadPath},
+	"vapour":    {Path: cmdfile.ReadPath},
 	"times":     {Path: cmdfile.ReadPath},
 	"reference": {Path: cmdfile.ReadPath, Words: []string{"first", "mean:"}},
 	"init":      {Path: cmdfile.ReadPath, Words: []string{"auto", "purest", "efa"}},

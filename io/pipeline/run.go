@@ -139,6 +139,11 @@ type Result struct {
 	MinorSpecies []svd.NuisanceFactor
 	// Vapour is the check for water-vapour lines that change (vapour.go).
 	Vapour *svd.VapourCheck
+	// LineSpectra are the --vapour spectra on the common axis and
+	// LineAmounts their amounts fitted in every row of D (n × len), nil
+	// without.
+	LineSpectra [][]float64
+	LineAmounts *mat.Dense
 	// earlyFit is the first data fit of hard–soft, begun beside the soft
 	// resolution (earlyDataFit); nil outside resolve.
 	earlyFit *earlyDataFit
@@ -292,6 +297,9 @@ func readExperiments(r *Result, p readingPlan, log io.Writer) ([]*mat.Dense, err
 	}
 	blank, refSpec, err := fixedSpectra(s, first, axis, chans, kind, p.refFile)
 	if err != nil {
+		return nil, err
+	}
+	if err := readLineSpectra(r, first, axis, chans); err != nil {
 		return nil, err
 	}
 	if s.Pre > 0 && p.refMean > 1 && p.refMean > s.Pre {
@@ -785,6 +793,9 @@ func assembleExperiments(s *Settings, r *Result, series []*spectra.Series, axis 
 		}
 		as, err := addExperiment(s, r, s.Data[ei], ser, sub, opt, refFile, row)
 		if err != nil {
+			return nil, err
+		}
+		if err := subtractLineSpectra(r, as, ser.Source, axis); err != nil {
 			return nil, err
 		}
 		n := r.Experiments[len(r.Experiments)-1].Rows

@@ -37,6 +37,7 @@ type Settings struct {
 	Baseline      string
 	KeepOutliers  bool
 	Drops         []string
+	Vapour        []string // --vapour: line spectra subtracted from every spectrum
 	Components    string
 	Closure       string
 	Model         string
@@ -320,6 +321,8 @@ var options = func() []Option {
 	}, gb1))
 	sb2, gb2 := boolean(func(s *Settings) *bool { return &s.KeepOutliers })
 	add(opt("keep-outliers", "", "keep spectra whose residual is far above the others' and structured (gas lines, a bubble); by default they are set aside and named", false, true, sb2, gb2))
+	sv1, gv1 := list(func(s *Settings) *[]string { return &s.Vapour })
+	add(opt("vapour", "FILE", "absorbance spectrum of water vapour or CO₂ in the beam path, recorded at the same resolution: its amount in every spectrum is fitted on its narrow lines and subtracted before anything else (repeatable)", true, true, sv1, gv1))
 	sb3, gb3 := list(func(s *Settings) *[]string { return &s.Drops })
 	add(opt("drop", "TIME|FILE", "set a spectrum aside by hand: its time in seconds or its file name (repeatable)", true, true, sb3, gb3))
 	s12, g12 := str(func(s *Settings) *string { return &s.Components })

@@ -3,19 +3,32 @@ package pipeline
 import (
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 
 	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/io/spectra"
 	"github.com/bandsolve/bandsolve/svd"
+	"gonum.org/v1/gonum/mat"
 )
 
 // checkVapour looks for water-vapour lines that change during the run
-// (svd.CheckVapour) in the matrix as assembled, before anything is
-// resolved: a change of the beam path's humidity is not chemistry, and
-// the user should hear of it whatever is counted.
+// (svd.CheckVapour) in the matrix as assembled (less the --vapour spectra),
+// before anything is resolved: a change of the beam path's humidity is
+// not chemistry, and the user should hear of it whatever is counted.
 func checkVapour(r *Result) {
 	v := svd.CheckVapour(r.D, r.Axis, experimentBlocks(r))
 	r.Vapour = &v
+	for q, f := range r.Settings.Vapour {
+		lo, hi := amountRange(r, q)
+		r.Notes = append(r.Notes, fmt.Sprintf("--vapour %s subtracted from every spectrum, its amount fitted on its narrow lines: %.3g to %.3g times the file's spectrum (vapour_subtracted.csv)", f, lo, hi))
+	}
+}
+
+// amountRange is the smallest and largest amount of --vapour spectrum q.
+func amountRange(r *Result, q int) (lo, hi float64) {
+	col := mat.Col(nil, q, r.LineAmounts)
+	return slices.Min(col), slices.Max(col)
 }
 
 // vapourWarning says, once the spectra are resolved, that the vapour
@@ -26,8 +39,12 @@ func vapourWarning(r *Result) {
 		return
 	}
 	var b strings.Builder
-	fmt.Fprintf(&b, "water vapour: %d narrow lines at %g–%g cm⁻¹ change together during the run (%.3g× what noise gives), the water-vapour lines of the beam path; the largest, at %.5g cm⁻¹, changes by %s",
-		v.Lines, v.Lo, v.Hi, v.Ratio, v.LargestAt, vapourChanges(r))
+	after := ""
+	if len(r.LineSpectra) > 0 {
+		after = " (after the --vapour spectra were subtracted)"
+	}
+	fmt.Fprintf(&b, "water vapour%s: %d narrow lines at %g–%g cm⁻¹ change together during the run (%.3g× what noise gives), the water-vapour lines of the beam path; the largest, at %.5g cm⁻¹, changes by %s",
+		after, v.Lines, v.Lo, v.Hi, v.Ratio, v.LargestAt, vapourChanges(r))
 	b.WriteString(": the humidity of the air or purge in the beam changed. The same gas has lines at about 1300–2000 cm⁻¹, over the bands there")
 	if carriers := vapourCarriers(r); carriers != "" {
 		b.WriteString("; " + carriers)
@@ -35,7 +52,7 @@ func vapourWarning(r *Result) {
 	if len(r.Experiments) > 1 {
 		b.WriteString("; a change that differs between experiments is one more independent change in their stack and can be counted as a component that no experiment shows alone")
 	}
-	b.WriteString(". Purge the spectrometer longer before starting, or subtract a water-vapour spectrum recorded at the same resolution from every spectrum; vapour.csv gives the lines' height in every spectrum")
+	b.WriteString(". Purge the spectrometer longer before starting, or give a water-vapour spectrum recorded at the same resolution to --vapour FILE, which subtracts it from every spectrum; vapour.csv gives the lines' height in every spectrum")
 	r.Warnings = append(r.Warnings, b.String())
 }
 
@@ -115,6 +132,10 @@ func vapourSummary(r *Result) *output.VapourJSON {
 		return nil
 	}
 	j := &output.VapourJSON{Checked: v.Checked, Why: v.Why, Range: []float64{v.Lo, v.Hi}}
+	for q, f := range r.Settings.Vapour {
+		lo, hi := amountRange(r, q)
+		j.Subtracted = append(j.Subtracted, output.VapourSubtractedJSON{File: f, AmountMin: round(lo), AmountMax: round(hi)})
+	}
 	if !v.Checked {
 		return j
 	}
@@ -161,4 +182,83 @@ func writeVapour(r *Result, st *output.Stage) error {
 		w.End()
 	}
 	return st.Write("vapour.csv", w.Bytes())
+}
+
+// readLineSpectra reads the --vapour spectra onto the common channels (on
+// the same axis, or interpolated with --resample, as a blank is).
+func readLineSpectra(r *Result, first *spectra.Series, axis []float64, chans []int) error {
+	s := r.Settings
+	for _, f := range s.Vapour {
+		sp, err := spectra.ReadSpectrum(s.Path(f))
+		if err != nil {
+			return err
+		}
+		v, err := axisValues(sp, first, axis, chans, s.Resample)
+		if err != nil {
+			return err
+		}
+		r.LineSpectra = append(r.LineSpectra, v)
+	}
+	return nil
+}
+
+// subtractLineSpectra takes the --vapour spectra out of one experiment's
+// assembled matrices, each row by the amounts fitted on its own lines
+// (svd.LineAmounts). The fit is linear in the row, so the differences
+// stay the absolute rows less the reference's, both compensated. The
+// amounts of the rows D is made of are kept for vapour_subtracted.csv.
+func subtractLineSpectra(r *Result, as *spectra.Assembled, source string, axis []float64) error {
+	if len(r.LineSpectra) == 0 {
+		return nil
+	}
+	kept := as.Difference
+	if as.Absolute != nil {
+		kept = as.Absolute
+	}
+	for _, d := range []*mat.Dense{as.Absolute, as.Difference} {
+		if d == nil {
+			continue
+		}
+		a, err := svd.LineAmounts(d, axis, r.LineSpectra)
+		if err != nil {
+			return fmt.Errorf("--vapour: %s: %w", source, err)
+		}
+		svd.SubtractLines(d, r.LineSpectra, a)
+		if d == kept && r.LineAmounts == nil {
+			r.LineAmounts = a
+		} else if d == kept {
+			r.LineAmounts = stack([]*mat.Dense{r.LineAmounts, a})
+		}
+	}
+	return nil
+}
+
+// writeLineAmounts writes vapour_subtracted.csv with --vapour: per
+// spectrum, the amount of each spectrum subtracted (1: as much as in its
+// file), in the order given.
+func writeLineAmounts(r *Result, st *output.Stage) error {
+	if r.LineAmounts == nil {
+		return nil
+	}
+	multi := len(r.Experiments) > 1
+	h := []string{"time"}
+	if multi {
+		h = []string{"experiment", "time"}
+	}
+	for q := range r.LineSpectra {
+		h = append(h, fmt.Sprintf("amount_%d", q+1))
+	}
+	var w output.CSV
+	w.Row(h)
+	for i, tm := range r.Times {
+		if multi {
+			w.Int(r.ExpOfRow[i] + 1)
+		}
+		w.Float(tm)
+		for q := range r.LineSpectra {
+			w.Float(r.LineAmounts.At(i, q))
+		}
+		w.End()
+	}
+	return st.Write("vapour_subtracted.csv", w.Bytes())
 }

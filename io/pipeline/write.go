@@ -181,6 +181,9 @@ func WriteResults(r *Result, st *output.Stage) error {
 	if err := writeVapour(r, st); err != nil {
 		return err
 	}
+	if err := writeLineAmounts(r, st); err != nil {
+		return err
+	}
 	sum, err := output.JSON(MakeSummary(r))
 	if err != nil {
 		return err
