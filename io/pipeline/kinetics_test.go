@@ -18,6 +18,7 @@ import (
 	"github.com/bandsolve/bandsolve/io/demo"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/mcr"
+	"github.com/bandsolve/bandsolve/mcr/kinetics"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -591,6 +592,33 @@ func TestKineticsNamesSpeciesWithoutComponent(t *testing.T) {
 	for _, n := range full.Notes {
 		if strings.Contains(n, "no component") {
 			t.Errorf("A -> B -> C on three components: %q", n)
+		}
+	}
+}
+
+// TestFitsDisagree: the rule of fitsDisagree (its definition: more than 25 %
+// and 3 combined standard errors apart, or a factor above 10), case by case.
+func TestFitsDisagree(t *testing.T) {
+	sch, err := kinetics.ParseScheme("A -> B -> C")
+	if err != nil {
+		t.Fatal(err)
+	}
+	fit := func(k, se []float64) *kinetics.FitResult { return &kinetics.FitResult{K: k, KStdErr: se} }
+	for _, tc := range []struct {
+		name   string
+		p, d   *kinetics.FitResult
+		says   string // "" for no warning
+		absent string
+	}{
+		{"consistent", fit([]float64{1.02, 0.5}, []float64{0.01, 0.01}), fit([]float64{1, 0.5}, []float64{0.005, 0.005}), "", ""},
+		{"apart but within 25 %", fit([]float64{1.2, 0.5}, []float64{0.001, 0.01}), fit([]float64{1, 0.5}, []float64{0.001, 0.005}), "", ""},
+		{"beyond 3 errors", fit([]float64{1.4, 0.5}, []float64{0.1, 0.01}), fit([]float64{1, 0.5}, []float64{0.001, 0.005}), "k1 (A -> B) 1.4 against 1, a factor 1.4 and 4 combined", "k2"},
+		{"a factor above 10, errors huge", fit([]float64{1, 0.5}, []float64{5, 0.01}), fit([]float64{0.05, 0.5}, []float64{0.001, 0.005}), "a factor 20", "k2"},
+		{"fixed in both", fit([]float64{1, 9}, []float64{0.01, 0}), fit([]float64{1, 0.5}, []float64{0.005, 0}), "", ""},
+	} {
+		w := strings.Join(fitsDisagree(sch, tc.p, tc.d), "\n")
+		if (tc.says == "") != (w == "") || !strings.Contains(w, tc.says) || (tc.absent != "" && strings.Contains(w, tc.absent)) {
+			t.Errorf("%s: %q; want %q without %q", tc.name, w, tc.says, tc.absent)
 		}
 	}
 }
