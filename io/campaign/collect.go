@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -27,7 +28,8 @@ var fixedColumns = []string{"folder", "status", "components", "rank_estimate", "
 // Collect reads summary.json of every folder and returns one table: a row
 // per folder in the order given, the fixed columns, then for each kinetic
 // step met (in order of first appearance) the pair k_per_s[STEP],
-// stderr_per_s[STEP], then warnings (how many). A key a summary lacks is an
+// stderr_per_s[STEP], then warnings (how many), then water_vapour and
+// vapour_line_change (vapourCells). A key a summary lacks is an
 // empty cell; a folder without a readable summary.json keeps its row, with
 // the reason in status, and is listed in problems.
 //
@@ -79,13 +81,14 @@ func Collect(folders []string) (t output.Table, problems []string) {
 			}
 		}
 		r.cells["warnings"] = strconv.Itoa(len(s.list("warnings")))
+		r.cells["water_vapour"], r.cells["vapour_line_change"] = vapourCells(s.object("water_vapour"))
 		rows = append(rows, r)
 	}
 	t.Header = append([]string(nil), fixedColumns...)
 	for _, st := range steps {
 		t.Header = append(t.Header, "k_per_s["+st+"]", "stderr_per_s["+st+"]")
 	}
-	t.Header = append(t.Header, "warnings")
+	t.Header = append(t.Header, "warnings", "water_vapour", "vapour_line_change")
 	for _, r := range rows {
 		var cells []string
 		for _, k := range fixedColumns {
@@ -95,9 +98,37 @@ func Collect(folders []string) (t output.Table, problems []string) {
 			p := r.steps[st]
 			cells = append(cells, p[0], p[1])
 		}
-		t.Rows = append(t.Rows, append(cells, r.cells["warnings"]))
+		t.Rows = append(t.Rows, append(cells, r.cells["warnings"], r.cells["water_vapour"], r.cells["vapour_line_change"]))
 	}
 	return t, problems
+}
+
+// vapourCells are the water-vapour check of a summary: changed, no change
+// or not checked (empty for a summary without the check), and when
+// changed the largest line_change of its experiments, as written.
+func vapourCells(v object) (state, change string) {
+	if v == nil {
+		return "", ""
+	}
+	if checked, _ := v.scalar("checked"); checked != "true" {
+		return "not checked", ""
+	}
+	if detected, _ := v.scalar("detected"); detected != "true" {
+		return "no change", ""
+	}
+	var changes []json.Number
+	if raw, ok := v["line_change"]; ok {
+		d := json.NewDecoder(bytes.NewReader(raw))
+		d.UseNumber()
+		_ = d.Decode(&changes) // a malformed list leaves the cell empty
+	}
+	best, bestV := "", math.Inf(-1)
+	for _, c := range changes {
+		if f, err := c.Float64(); err == nil && f > bestV {
+			best, bestV = c.String(), f
+		}
+	}
+	return "changed", best
 }
 
 // object is a JSON object read loosely: any key may be missing or of

@@ -36,13 +36,15 @@ func TestCollect(t *testing.T) {
   "kinetics": {"model": "A -> B -> C", "rate_constants": [
     {"step": "A -> B", "k_per_s": 0.0042, "stderr_per_s": 1.1e-05},
     {"step": "B -> C", "k_per_s": 0.00093, "stderr_per_s": 4e-06}]},
+  "water_vapour": {"checked": true, "range": [3550, 3950], "detected": true, "line_change": [0.0019, 0.027]},
   "warnings": ["one", "two"]}`)
 	// An older or partial summary: no noise, no kinetics, no warnings key.
 	part := writeSummary(t, filepath.Join(root, "loading-2"), `{"components": 2, "mode": "reactions", "lack_of_fit_percent": 3.5,
   "kinetics": {"model": "A -> C", "rate_constants": [{"step": "A -> C", "k_per_s": 0.01}]}}`)
 	none := writeSummary(t, filepath.Join(root, "failed"), "")
 	bad := writeSummary(t, filepath.Join(root, "bad"), `[1, 2]`)
-	own := writeSummary(t, filepath.Join(root, "weighted"), `{"lack_of_fit_percent": 2, "noise_lack_of_fit_percent": 1, "residual_to_noise": 1.03}`)
+	own := writeSummary(t, filepath.Join(root, "weighted"), `{"lack_of_fit_percent": 2, "noise_lack_of_fit_percent": 1, "residual_to_noise": 1.03,
+  "water_vapour": {"checked": true, "detected": false, "coherence_ratio": 1.1}}`)
 	tab, problems := Collect([]string{full, part, none, bad, own})
 	if len(problems) != 2 || !strings.Contains(problems[0], "failed") || !strings.Contains(problems[1], "bad") {
 		t.Errorf("problems = %q, want the folder without and the one with a broken summary", problems)
@@ -80,6 +82,11 @@ func TestCollect(t *testing.T) {
 		{4, "folder", bad},
 		// A summary's own residual_to_noise is taken as written.
 		{5, "residual_to_noise", "1.03"},
+		// The water-vapour check: the largest of the experiments' changes
+		// as written; a run without a change, and one without the check.
+		{1, "water_vapour", "changed"}, {1, "vapour_line_change", "0.027"},
+		{5, "water_vapour", "no change"}, {5, "vapour_line_change", ""},
+		{2, "water_vapour", ""},
 	} {
 		if got := cell(c.row, c.col); got != c.want {
 			t.Errorf("row %d, %s = %q, want %q", c.row, c.col, got, c.want)
@@ -94,7 +101,7 @@ func TestCollect(t *testing.T) {
 		t.Errorf("residual_to_noise = %q, want 1.25 / 1.0", cell(1, "residual_to_noise"))
 	}
 	// Steps in the order first met: the first folder's two, then A -> C.
-	want := []string{"k_per_s[A -> B]", "stderr_per_s[A -> B]", "k_per_s[B -> C]", "stderr_per_s[B -> C]", "k_per_s[A -> C]", "stderr_per_s[A -> C]", "warnings"}
+	want := []string{"k_per_s[A -> B]", "stderr_per_s[A -> B]", "k_per_s[B -> C]", "stderr_per_s[B -> C]", "k_per_s[A -> C]", "stderr_per_s[A -> C]", "warnings", "water_vapour", "vapour_line_change"}
 	if got := head[len(head)-len(want):]; strings.Join(got, "|") != strings.Join(want, "|") {
 		t.Errorf("last columns %q, want %q", got, want)
 	}
