@@ -9,6 +9,7 @@ import (
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/spectra"
 	"github.com/bandsolve/bandsolve/svd"
+	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -50,10 +51,41 @@ func vapourWarning(r *Result) {
 		b.WriteString("; " + carriers)
 	}
 	if len(r.Experiments) > 1 {
-		b.WriteString("; a change that differs between experiments is one more independent change in their stack and can be counted as a component that no experiment shows alone")
+		b.WriteString("; " + vapourStackText(r))
 	}
 	b.WriteString(". Purge the spectrometer longer before starting, or give a water-vapour spectrum recorded at the same resolution to --vapour FILE, which subtracts it from every spectrum; vapour.csv gives the lines' height in every spectrum")
 	r.Warnings = append(r.Warnings, b.String())
+}
+
+// vapourStackText says what the vapour's course accounts for in a stack:
+// measured (vapourInStack) where it can be, else in general.
+func vapourStackText(r *Result) string {
+	general := "a change that differs between experiments is one more independent change in their stack and can be counted as a component that no experiment shows alone"
+	before, after, ok := vapourInStack(r)
+	k := r.Rank.Estimate
+	if !ok || k < 1 || len(before) <= k || len(after) <= k {
+		return general
+	}
+	drop := fmt.Sprintf("without the vapour's course (vapour.csv) the stack's singular values %d and %d (less the baseline, noise-weighted as counted) go from %.4g and %.4g to %.4g and %.4g", k, k+1, before[k-1], before[k], after[k-1], after[k])
+	if after[k-1] < 1.5*before[k] {
+		return drop + fmt.Sprintf(": the %s component counted in the stack is the vapour's change, which differs between the experiments, not a species (--vapour with its spectrum takes it out, or --components %d leaves it in the residual)", ordinal(k), k-1)
+	}
+	return general + "; " + drop
+}
+
+// ordinal is 1st, 2nd, 3rd, 4th, ….
+func ordinal(k int) string {
+	switch {
+	case k%100 >= 11 && k%100 <= 13:
+		return fmt.Sprintf("%dth", k)
+	case k%10 == 1:
+		return fmt.Sprintf("%dst", k)
+	case k%10 == 2:
+		return fmt.Sprintf("%dnd", k)
+	case k%10 == 3:
+		return fmt.Sprintf("%drd", k)
+	}
+	return fmt.Sprintf("%dth", k)
 }
 
 // vapourChanges is the change of the largest line, per experiment when
@@ -261,4 +293,102 @@ func writeLineAmounts(r *Result, st *output.Stage) error {
 		w.End()
 	}
 	return st.Write("vapour_subtracted.csv", w.Bytes())
+}
+
+// vapourInStack measures, for a stack of experiments, what the vapour's
+// course (its height in every spectrum, svd.VapourCheck.Height) accounts
+// for: the singular values of the stack as the count sees it (less the
+// baseline, with the noise weights) before and after that course is
+// projected out of the rows. Within one experiment a vapour that drifts
+// with the reaction shares the chemistry's course and taking it out would
+// take chemistry too; across experiments whose vapour changed differently
+// no combination of the species' profiles follows it (closure ties them in
+// every experiment), so what the projection removes is the vapour. ok is
+// false when not measured: one experiment, no detection, or a stack whose
+// n² m product exceeds maxVapourWork.
+func vapourInStack(r *Result) (before, after []float64, ok bool) {
+	v := r.Vapour
+	if v == nil || !v.Detected || len(r.Experiments) < 2 {
+		return nil, nil, false
+	}
+	n, m := r.D.Dims()
+	if float64(n)*float64(n)*float64(m) > maxVapourWork {
+		return nil, nil, false
+	}
+	rows := countedRows(r)
+	g := make([]float64, n)
+	for i := range g {
+		g[i] = v.Height[i]
+		if r.Weights != nil {
+			g[i] *= math.Sqrt(r.Weights.Row[i])
+		}
+	}
+	if nrm := floats.Norm(g, 2); nrm > 0 {
+		floats.Scale(1/nrm, g)
+	} else {
+		return nil, nil, false
+	}
+	gram := mat.NewSymDense(n, nil)
+	gram.SymOuterK(1, rows)
+	before = symValues(gram)
+	// (I − ĝĝᵀ) G (I − ĝĝᵀ) = G − ĝwᵀ − wĝᵀ + (ĝᵀGĝ) ĝĝᵀ, w = G ĝ.
+	w := mat.NewVecDense(n, nil)
+	gv := mat.NewVecDense(n, g)
+	w.MulVec(gram, gv)
+	c := mat.Dot(gv, w)
+	proj := mat.NewSymDense(n, nil)
+	for i := 0; i < n; i++ {
+		for j := i; j < n; j++ {
+			proj.SetSym(i, j, gram.At(i, j)-g[i]*w.AtVec(j)-w.AtVec(i)*g[j]+c*g[i]*g[j])
+		}
+	}
+	return before, symValues(proj), true
+}
+
+// maxVapourWork bounds vapourInStack's Gram matrix (n² m products, about
+// 0.1 s).
+const maxVapourWork = 2e8
+
+// countedRows is D as the count sees it: less the baseline polynomials of
+// the order chosen, rows and columns scaled by the square roots of the
+// noise weights.
+func countedRows(r *Result) *mat.Dense {
+	d := mat.DenseCopyOf(r.D)
+	n, m := d.Dims()
+	if r.BaselineShapes != nil {
+		var qr mat.QR
+		qr.Factorize(r.BaselineShapes)
+		_, b := r.BaselineShapes.Dims()
+		var q mat.Dense
+		qr.QTo(&q)
+		qb := q.Slice(0, m, 0, b)
+		var dq, back mat.Dense
+		dq.Mul(d, qb)
+		back.Mul(&dq, qb.T())
+		d.Sub(d, &back)
+	}
+	if r.Weights != nil {
+		for i := 0; i < n; i++ {
+			row := d.RawRowView(i)
+			a := math.Sqrt(r.Weights.Row[i])
+			for j := range row {
+				row[j] *= a * math.Sqrt(r.Weights.Col[j])
+			}
+		}
+	}
+	return d
+}
+
+// symValues are the square roots of the eigenvalues of g, descending.
+func symValues(g *mat.SymDense) []float64 {
+	var eig mat.EigenSym
+	if !eig.Factorize(g, false) {
+		return nil
+	}
+	vals := eig.Values(nil)
+	slices.Reverse(vals)
+	for i, x := range vals {
+		vals[i] = math.Sqrt(math.Max(x, 0))
+	}
+	return vals
 }
