@@ -198,22 +198,31 @@ func writeVapour(r *Result, st *output.Stage) error {
 	if v == nil || !v.Detected {
 		return nil
 	}
+	return st.Write("vapour.csv", perSpectrumCSV(r, []string{"line_height"}, func(i, _ int) float64 { return v.Height[i] }))
+}
+
+// perSpectrumCSV is a table of one row per spectrum: time in seconds
+// (experiment first with several), then the columns named, cell (i, q)
+// from value.
+func perSpectrumCSV(r *Result, names []string, value func(i, q int) float64) []byte {
 	multi := len(r.Experiments) > 1
-	h := []string{"time", "line_height"}
+	h := []string{"time"}
 	if multi {
-		h = []string{"experiment", "time", "line_height"}
+		h = []string{"experiment", "time"}
 	}
 	var w output.CSV
-	w.Row(h)
+	w.Row(append(h, names...))
 	for i, tm := range r.Times {
 		if multi {
 			w.Int(r.ExpOfRow[i] + 1)
 		}
 		w.Float(tm)
-		w.Float(v.Height[i])
+		for q := range names {
+			w.Float(value(i, q))
+		}
 		w.End()
 	}
-	return st.Write("vapour.csv", w.Bytes())
+	return w.Bytes()
 }
 
 // readLineSpectra reads the --vapour spectra onto the common channels (on
@@ -272,27 +281,11 @@ func writeLineAmounts(r *Result, st *output.Stage) error {
 	if r.LineAmounts == nil {
 		return nil
 	}
-	multi := len(r.Experiments) > 1
-	h := []string{"time"}
-	if multi {
-		h = []string{"experiment", "time"}
+	names := make([]string, len(r.LineSpectra))
+	for q := range names {
+		names[q] = fmt.Sprintf("amount_%d", q+1)
 	}
-	for q := range r.LineSpectra {
-		h = append(h, fmt.Sprintf("amount_%d", q+1))
-	}
-	var w output.CSV
-	w.Row(h)
-	for i, tm := range r.Times {
-		if multi {
-			w.Int(r.ExpOfRow[i] + 1)
-		}
-		w.Float(tm)
-		for q := range r.LineSpectra {
-			w.Float(r.LineAmounts.At(i, q))
-		}
-		w.End()
-	}
-	return st.Write("vapour_subtracted.csv", w.Bytes())
+	return st.Write("vapour_subtracted.csv", perSpectrumCSV(r, names, r.LineAmounts.At))
 }
 
 // vapourInStack measures, for a stack of experiments, what the vapour's
