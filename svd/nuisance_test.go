@@ -1,8 +1,10 @@
 package svd
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -161,6 +163,54 @@ func TestPolyShareIsItsDefinition(t *testing.T) {
 		//lint:ignore SA4000 two calls, which must return the same matrix
 		if basis() != basis() {
 			t.Errorf("weights %t: the shared basis is formed again at each use", weights != nil)
+		}
+	}
+}
+
+// TestCarbonDioxideAt: a factor spectrum with one Gaussian line is named as
+// CO₂ when the line sits at 664–671 on the axis and is at most 6 wide at
+// half height; the width quoted is the Gaussian's full width at half height
+// (its definition; linear interpolation between points 0.5 apart, so
+// within 0.05). CO₂'s bending Q branch at 667.4 cm⁻¹ is common practice
+// (value from memory).
+func TestCarbonDioxideAt(t *testing.T) {
+	axis := make([]float64, 400)
+	for j := range axis {
+		axis[j] = 600 + 0.5*float64(j)
+	}
+	line := func(c, fwhm, sign float64) []float64 {
+		v := make([]float64, len(axis))
+		for j, x := range axis {
+			v[j] = sign * math.Exp(-4*math.Ln2*(x-c)*(x-c)/(fwhm*fwhm))
+		}
+		return v
+	}
+	for _, tc := range []struct {
+		name      string
+		v         []float64
+		wantWidth float64 // 0: not named
+	}{
+		{"sharp at 667.4", line(667.4, 2, 1), 2},
+		{"sharp, pointing down", line(667.4, 3, -1), 3},
+		{"broad at 667", line(667, 30, 1), 0},
+		{"sharp at 700", line(700, 2, 1), 0},
+	} {
+		at := 0
+		for j := range tc.v {
+			if math.Abs(tc.v[j]) > math.Abs(tc.v[at]) {
+				at = j
+			}
+		}
+		got := carbonDioxideAt(tc.v, axis, at)
+		if tc.wantWidth == 0 {
+			if got != "" {
+				t.Errorf("%s: %q, want nothing", tc.name, got)
+			}
+			continue
+		}
+		var w float64
+		if _, err := fmt.Sscanf(got, " (a line %g wide", &w); err != nil || math.Abs(w-tc.wantWidth) > 0.05 || !strings.Contains(got, "CO₂") {
+			t.Errorf("%s: %q, want CO₂ named with width %g", tc.name, got, tc.wantWidth)
 		}
 	}
 }
