@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strings"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -23,8 +24,11 @@ import (
 // 3550–3950 cm⁻¹, between the hydrogen-bonded O–H/N–H stretches and the
 // upper end of the vapour's stretching lines (band positions common
 // practice; water vapour's ν₁ and ν₃ centres near 3657 and 3756 cm⁻¹, from
-// memory). Each spectrum there is high-passed along the axis: less its
-// quadratic Savitzky–Golay smooth over about 8 cm⁻¹ (Savitzky & Golay,
+// memory). When the axis does not reach there (a --region on the
+// fingerprint, say) it looks at the bending lines, 1350–1950 cm⁻¹, where
+// sharp condensed-phase bands can change too, and then asks for four times
+// the lines (vapourRanges). Each spectrum there is high-passed along the
+// axis: less its quadratic Savitzky–Golay smooth over about 8 cm⁻¹ (Savitzky & Golay,
 // Anal. Chem. 1964), which keeps lines a few cm⁻¹ wide and takes out bands
 // tens of cm⁻¹ wide. Neighbouring spectra are averaged into at most
 // vapourBins rows (within each experiment, never across two), and each
@@ -39,9 +43,10 @@ import (
 //     rows and w points (Geman, Ann. Probab. 1980): noise alone gives a
 //     ratio near 1;
 //   - it is a forest of lines: its pattern (the leading right singular
-//     vector) has at least vapourLines local maxima above 5 noise
-//     deviations (noiseOfPairs), where one changing condensed-phase band
-//     gives a few.
+//     vector) has at least 15 local maxima above 5 noise deviations
+//     (noiseOfPairs) in the stretching range, 60 in the bending range, where
+//     one changing condensed-phase band gives three or four (its peak and
+//     the lobes the high-pass leaves).
 type VapourCheck struct {
 	// Checked says the axis covers the range evenly and finely enough to
 	// see lines (at most 2 axis units apart); Why says why not otherwise.
@@ -73,16 +78,30 @@ type VapourCheck struct {
 }
 
 const (
-	vapourLo, vapourHi = 3550.0, 3950.0
-	vapourBins         = 64  // rows averaged down to at most this many
-	vapourRatio        = 3.0 // coherence ratio needed
-	vapourLines        = 15  // lines needed
-	vapourWidth        = 8.0 // axis units the smooth spans
+	vapourBins  = 64  // rows averaged down to at most this many
+	vapourRatio = 3.0 // coherence ratio needed
+	vapourWidth = 8.0 // axis units the smooth spans
 	// lineFitWidth is LineAmounts' smooth: wider than the check's, which
 	// keeps more of each line against the noise and a real spectrum's own
 	// sharp features (docs/measurement.md section 9 gives the trial).
 	lineFitWidth = 12.0
 )
+
+// vapourRange is a range CheckVapour may look in, with the lines it needs
+// to see there.
+type vapourRange struct {
+	lo, hi float64
+	lines  int
+}
+
+// vapourRanges are the ranges in the order tried: the stretching lines,
+// then the bending lines (see CheckVapour). On the urethane series the
+// bending range gives 163 lines at catalyst 0.01 and 5 at 1.00, where the
+// carbonyl and amide bands change most; eight narrow sample bands changing
+// by up to 1 absorbance give 28 (TestVapourNotInSharpBands).
+func vapourRanges() []vapourRange {
+	return []vapourRange{{3550, 3950, 15}, {1350, 1950, 60}}
+}
 
 // VapourSignificant is the z of LinesIn from which a spectrum is said to
 // carry the lines: 5 noise deviations, as for the lines counted.
@@ -93,8 +112,8 @@ const VapourSignificant = 5.0
 // rows of the experiments stacked in d (nil or {0}: one experiment).
 func CheckVapour(d *mat.Dense, axis []float64, blocks []int) VapourCheck {
 	n, m := d.Dims()
-	v := VapourCheck{Lo: vapourLo, Hi: vapourHi}
-	first, last, why := vapourWindow(axis)
+	rg, first, last, why := pickVapourRange(axis)
+	v := VapourCheck{Lo: rg.lo, Hi: rg.hi}
 	if why != "" || len(axis) != m {
 		if why == "" {
 			why = fmt.Sprintf("the axis has %d values for %d columns", len(axis), m)
@@ -105,10 +124,6 @@ func CheckVapour(d *mat.Dense, axis []float64, blocks []int) VapourCheck {
 	v.Checked, v.first = true, first
 	spacing := math.Abs(axis[last-1]-axis[first]) / float64(last-1-first)
 	v.half = max(2, int(math.Round(vapourWidth/2/spacing)))
-	if last-first < 2*v.half+20 {
-		v.Checked, v.Why = false, fmt.Sprintf("only %d axis values within %g–%g", last-first, vapourLo, vapourHi)
-		return v
-	}
 	bounds := experimentBounds(blocks, n)
 	rows, deltas, used := vapourRows(d, first, last, v.half, bounds)
 	if len(deltas) == 0 {
@@ -133,7 +148,7 @@ func CheckVapour(d *mat.Dense, axis []float64, blocks []int) VapourCheck {
 	}
 	orientLines(pattern)
 	v.Lines = countLines(pattern, 5*noiseOfPairs(deltas))
-	v.Detected = v.Ratio >= vapourRatio && v.Lines >= vapourLines
+	v.Detected = v.Ratio >= vapourRatio && v.Lines >= rg.lines
 	for j := range pattern {
 		pattern[j] /= s1
 	}
@@ -147,22 +162,37 @@ func CheckVapour(d *mat.Dense, axis []float64, blocks []int) VapourCheck {
 	return v
 }
 
-// vapourWindow is the columns [first, last) of the axis within the range,
-// or why it cannot be checked.
-func vapourWindow(axis []float64) (first, last int, why string) {
+// pickVapourRange is the first of vapourRanges the axis covers evenly and
+// finely enough, with its columns [first, last), or why none is (the
+// reasons of each, the last range returned).
+func pickVapourRange(axis []float64) (rg vapourRange, first, last int, why string) {
+	var whys []string
+	for _, rg = range vapourRanges() {
+		if first, last, why = vapourWindow(axis, rg.lo, rg.hi); why == "" {
+			return rg, first, last, ""
+		}
+		whys = append(whys, why)
+	}
+	return rg, 0, 0, strings.Join(whys, "; ")
+}
+
+// vapourWindow is the columns [first, last) of the axis within lo–hi, or
+// why it cannot be checked there: not covered in one evenly spaced run of
+// values at most 2 apart, with room for the smooth and 20 points more.
+func vapourWindow(axis []float64, lo, hi float64) (first, last int, why string) {
 	first, last = -1, -1
 	for j, x := range axis {
-		if x >= vapourLo && x <= vapourHi {
+		if x >= lo && x <= hi {
 			if first < 0 {
 				first = j
 			} else if last != j {
-				return 0, 0, fmt.Sprintf("the axis is not one run of values within %g–%g", vapourLo, vapourHi)
+				return 0, 0, fmt.Sprintf("the axis is not one run of values within %g–%g", lo, hi)
 			}
 			last = j + 1
 		}
 	}
 	if first < 0 || last-first < 2 {
-		return 0, 0, fmt.Sprintf("the axis does not cover %g–%g", vapourLo, vapourHi)
+		return 0, 0, fmt.Sprintf("the axis does not cover %g–%g", lo, hi)
 	}
 	step := (axis[last-1] - axis[first]) / float64(last-1-first)
 	if math.Abs(step) > 2 {
@@ -170,8 +200,11 @@ func vapourWindow(axis []float64) (first, last int, why string) {
 	}
 	for j := first + 1; j < last; j++ {
 		if math.Abs(axis[j]-axis[j-1]-step) > 0.05*math.Abs(step) {
-			return 0, 0, fmt.Sprintf("the axis is not evenly spaced within %g–%g", vapourLo, vapourHi)
+			return 0, 0, fmt.Sprintf("the axis is not evenly spaced within %g–%g", lo, hi)
 		}
+	}
+	if half := max(2, int(math.Round(vapourWidth/2/math.Abs(step)))); last-first < 2*half+20 {
+		return 0, 0, fmt.Sprintf("only %d axis values within %g–%g", last-first, lo, hi)
 	}
 	return first, last, ""
 }

@@ -82,7 +82,14 @@ func TestHighPassAdjoint(t *testing.T) {
 // 3500–4000 cm⁻¹), in time order from the date-time in each file's name.
 func readUrethaneVapour(t *testing.T, run string) (d *mat.Dense, axis []float64) {
 	t.Helper()
-	dir := filepath.Join("..", "testdata", "urethane-atr", "vapour-"+run)
+	return readUrethaneFolder(t, "vapour-"+run)
+}
+
+// readUrethaneFolder reads one folder of testdata/urethane-atr (source as
+// above) in time order.
+func readUrethaneFolder(t *testing.T, folder string) (d *mat.Dense, axis []float64) {
+	t.Helper()
+	dir := filepath.Join("..", "testdata", "urethane-atr", folder)
 	names, err := filepath.Glob(filepath.Join(dir, "*.CSV"))
 	if err != nil || len(names) == 0 {
 		t.Fatalf("no spectra in %s: %v", dir, err)
@@ -196,6 +203,33 @@ func (a floats) sub(b []float64) {
 	}
 }
 
+// TestVapourInTheBendingRange: an axis that stops short of the stretching
+// lines (a --region on the fingerprint) is checked on the bending lines,
+// 1350–1950 cm⁻¹, where the urethane's carbonyl and amide bands change
+// most. Real series (source as readUrethaneVapour): the catalyst-0.01
+// copy over 1300–2000 cm⁻¹ (testdata/urethane-atr/vapour-bend-catalyst-0.01)
+// shows the vapour, the catalyst-1.00 copy over 1150–2700 cm⁻¹ at every
+// second point does not, though its bands change there. Reference values
+// by numpy from the same definitions (testdata/svd/vapour_reference.py):
+// 14.4741 and 150 lines, 1.2042 and 5.
+func TestVapourInTheBendingRange(t *testing.T) {
+	for _, tc := range []struct {
+		folder string
+		ratio  float64
+		lines  int
+		want   bool
+	}{
+		{"vapour-bend-catalyst-0.01", 14.4741, 150, true},
+		{"catalyst-1.00", 1.2042, 5, false},
+	} {
+		d, axis := readUrethaneFolder(t, tc.folder)
+		v := CheckVapour(d, axis, nil)
+		if !v.Checked || v.Lo != 1350 || v.Detected != tc.want || math.Abs(v.Ratio-tc.ratio) > 1e-4 || v.Lines != tc.lines {
+			t.Errorf("%s: checked %v at %g–%g (%s), detected %v, ratio %.6g, %d lines; numpy %.4f, %d", tc.folder, v.Checked, v.Lo, v.Hi, v.Why, v.Detected, v.Ratio, v.Lines, tc.ratio, tc.lines)
+		}
+	}
+}
+
 // TestVapourNotInNoiseOrBands: what must not be taken for vapour lines
 // (the Marchenko–Pastur argument of VapourCheck: noise alone gives a ratio
 // near 1). Detector noise constant in counts (absorbance noise ∝ 1/I),
@@ -243,6 +277,53 @@ func TestVapourNotInNoiseOrBands(t *testing.T) {
 			t.Errorf("%s: checked %v (%s), detected %v, ratio %.3g, %d lines", kind, v.Checked, v.Why, v.Detected, v.Ratio, v.Lines)
 		}
 	}
+}
+
+// TestVapourNotInSharpBands: the bending range holds sample bands too.
+// Eight narrow ones (10–15 cm⁻¹ wide at half height, as a carbonyl or an
+// aromatic ring mode in a non-polar solvent), some growing and some
+// falling by 0.4 or 1 absorbance, with noise constant in counts, on an
+// axis that stops at 2000 cm⁻¹: their change is coherent (the ratio reaches
+// 3.2 at 1 absorbance) but they are not a forest of lines (21 and 28
+// counted, against the 60 the bending range needs), and nothing is
+// detected.
+func TestVapourNotInSharpBands(t *testing.T) {
+	for _, height := range []float64{0.4, 1} {
+		v := sharpBandsCheck(height)
+		if !v.Checked || v.Lo != 1350 || v.Detected || v.Lines >= 40 {
+			t.Errorf("bands of %g: checked %v at %g–%g (%s), detected %v, ratio %.3g, %d lines", height, v.Checked, v.Lo, v.Hi, v.Why, v.Detected, v.Ratio, v.Lines)
+		}
+	}
+}
+
+// sharpBandsCheck is CheckVapour on TestVapourNotInSharpBands' series with
+// bands changing by height.
+func sharpBandsCheck(height float64) VapourCheck {
+	rng := rand.New(rand.NewPCG(31, 32))
+	n, m := 80, 2000
+	axis := make([]float64, m)
+	for j := range axis {
+		axis[j] = 2000 - 0.5*float64(j)
+	}
+	centres := []float64{1385, 1452, 1508, 1597, 1612, 1714, 1735, 1762}
+	d := mat.NewDense(n, m, nil)
+	for i := 0; i < n; i++ {
+		f := float64(i) / float64(n-1)
+		for j, x := range axis {
+			a := 0.0
+			for q, c := range centres {
+				w := 10 + float64(q%3)*2.5
+				amount := f
+				if q%2 == 1 {
+					amount = 1 - f
+				}
+				a += height * amount * math.Exp(-4*math.Ln2*(x-c)*(x-c)/(w*w))
+			}
+			i0 := 1.5e4
+			d.Set(i, j, -math.Log10((i0*math.Pow(10, -a)+20*rng.NormFloat64())/i0))
+		}
+	}
+	return CheckVapour(d, axis, nil)
 }
 
 // TestVapourNotChecked: an axis that does not cover the range, or too

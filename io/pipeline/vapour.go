@@ -46,7 +46,12 @@ func vapourWarning(r *Result) {
 	}
 	fmt.Fprintf(&b, "water vapour%s: %d narrow lines at %g–%g cm⁻¹ change together during the run (%.3g× what noise gives), the water-vapour lines of the beam path; the largest, at %.5g cm⁻¹, changes by %s",
 		after, v.Lines, v.Lo, v.Hi, v.Ratio, v.LargestAt, vapourChanges(r))
-	b.WriteString(": the humidity of the air or purge in the beam changed. The same gas has lines at about 1300–2000 cm⁻¹, over the bands there")
+	b.WriteString(": the humidity of the air or purge in the beam changed. ")
+	if v.Lo > 2000 {
+		b.WriteString("The same gas has lines at about 1300–2000 cm⁻¹, over the bands there")
+	} else {
+		b.WriteString("They lie over the bands there")
+	}
 	if carriers := vapourCarriers(r); carriers != "" {
 		b.WriteString("; " + carriers)
 	}

@@ -23,12 +23,14 @@ import (
 // lines there, about 0.05 absorbance high): the warning fires, names the
 // resolved spectra holding the lines, and vapour.csv gives the height per
 // spectrum, whose range is summary.json's line_change (recomputed here from
-// the file). At 1.00 there is no warning and no vapour.csv.
+// the file). At 1.00 there is no warning and no vapour.csv. The copy of
+// the 0.01 series over 1300–2000 cm⁻¹ is checked on the bending lines and
+// warns the same way.
 func TestVapourWarningOnRealSeries(t *testing.T) {
 	for _, tc := range []struct {
 		run  string
 		want bool
-	}{{"vapour-catalyst-0.01", true}, {"vapour-catalyst-1.00", false}} {
+	}{{"vapour-catalyst-0.01", true}, {"vapour-catalyst-1.00", false}, {"vapour-bend-catalyst-0.01", true}} {
 		s := NewSettings()
 		s.Data, s.Kind, s.TimesFromName = []string{filepath.Join(urethaneDir, tc.run)}, "absorbance", true
 		s.Bands, s.Checks, s.Report = "off", "off", "off"
