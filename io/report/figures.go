@@ -66,6 +66,9 @@ func figureJobs(f *Folder) []figureJob {
 			Kinetics: f.Kinetics, AsRun: tu, Summary: &Summary{ComponentNames: s.ComponentNames, Mode: s.Mode, Closure: s.Closure, Kinetics: s.Kinetics}}},
 		figureJob{id: "fig-iterations", build: iterationsFigure, view: &Folder{Iterations: f.Iterations,
 			Summary: &Summary{NoiseLackOfFitPercent: s.NoiseLackOfFitPercent, Converged: s.Converged, Iterations: s.Iterations, LackOfFitPercent: s.LackOfFitPercent}}})
+	if f.Vapour != nil {
+		jobs = append(jobs, figureJob{id: "fig-vapour", build: vapourFigure, view: &Folder{Vapour: f.Vapour, AsRun: tu}})
+	}
 	if f.Maps != nil {
 		if m := f.Maps.Matrices["residual"]; m != nil {
 			jobs = append(jobs, onMatrix(f, "fig-residual-map", m, false, func(v *Folder, m *Matrix, ax axisStyle) (*Figure, error) {
@@ -1166,4 +1169,44 @@ func residualSpectrumFigure(f *Folder, m *Matrix, ax axisStyle) (*Figure, error)
 	}
 	return &Figure{ID: "fig-residual-spectrum", Title: "Residual spectrum", SVG: svg, drawing: dr, Legend: legend,
 		Caption: fmt.Sprintf("Residual at each point over the %d spectra kept in %s. Where the root-mean-square residual stays at the noise σ the model fits; a peak marks a band the components do not explain, and a mean away from zero a systematic misfit.", len(m.Rows), MapsFile)}, nil
+}
+
+// vapourFigure: the height of the largest water-vapour line in every
+// spectrum (vapour.csv), one line per experiment, against time.
+func vapourFigure(f *Folder) (*Figure, error) {
+	t := f.Vapour
+	tj, hj := t.Index("time"), t.Index("line_height")
+	if tj < 0 || hj < 0 {
+		return nil, fmt.Errorf("vapour.csv: no time and line_height columns")
+	}
+	tm, h := t.Col(tj), t.Col(hj)
+	var exp []float64
+	if ej := t.Index("experiment"); ej >= 0 {
+		exp = t.Col(ej)
+	}
+	p := newPlot("time / s", "largest line / absorbance")
+	xlo, xhi := span(tm)
+	hline(p, xlo, xhi, 0, grey, nil)
+	legend := []LegendItem{{Label: "largest line", Colour: okabeBlue}}
+	if exp != nil {
+		legend = nil
+	}
+	seg := 0
+	bySegment(tm, exp, h, func(x, y []float64) {
+		c := componentColour(seg)
+		addLine(p, x, y, c, 1.4, dashOf(seg))
+		if exp != nil {
+			legend = append(legend, LegendItem{Label: fmt.Sprintf("experiment %d", seg+1), Colour: c, Dash: dashOf(seg)})
+		}
+		seg++
+	})
+	f.timeAxis(&p.X, xlo, xhi)
+	addHeadroom(p)
+	svg, dr, err := render(p, nil, figW, 7*figH/9)
+	if err != nil {
+		return nil, fmt.Errorf("vapour: %w", err)
+	}
+	return &Figure{ID: "fig-vapour", Title: "Water-vapour lines in the beam path", SVG: svg, drawing: dr,
+		Legend:  legend,
+		Caption: "The height of the largest water-vapour line in every spectrum (high-passed; vapour.csv), against the background (absorbance) or the reference (differences). A change means the humidity of the beam path changed during the run; the warnings say by how much and which resolved spectra hold the lines."}, nil
 }

@@ -96,7 +96,7 @@ func buildFrom(f *Folder, figs []Figure, problems []string) ([]byte, error) {
 		{"The data", []string{"fig-absorbance", "fig-input", "fig-map"}},
 		{"How many components", []string{"fig-singular", "fig-efa"}},
 		{"What was resolved", []string{"fig-spectra", "fig-profiles"}},
-		{"How well it fits", []string{"fig-iterations", "fig-residual-map", "fig-residual-spectrum"}},
+		{"How well it fits", []string{"fig-iterations", "fig-residual-map", "fig-residual-spectrum", "fig-vapour"}},
 	}
 	used := map[string]bool{}
 	for _, g := range groups {

@@ -34,6 +34,7 @@ type Folder struct {
 	Kinetics   *Table                     // kinetics.csv
 	Intervals  *Table                     // intervals.csv (bootstrap), if a run wrote one
 	DemoCheck  *Table                     // demo_check.csv
+	Vapour     *Table                     // vapour.csv, when water-vapour lines changed
 	Maps       *Maps                      // maps.csv
 	AsRun      *Text                      // as-run.*
 	Manifest   *Text                      // manifest.*
@@ -267,6 +268,7 @@ func LoadParsed(dir string, maps *Maps, staged func(name string) ([]byte, bool),
 	f.Kinetics = table("kinetics.csv")
 	f.Intervals = table("intervals.csv")
 	f.DemoCheck = table("demo_check.csv")
+	f.Vapour = table("vapour.csv")
 	if maps != nil {
 		f.Maps = maps
 	} else if m, err := readMaps(filepath.Join(dir, MapsFile)); err == nil {
