@@ -246,3 +246,37 @@ func readNumbers(t *testing.T, p string) [][]float64 {
 	}
 	return out
 }
+
+// TestPreThatChangedIsNamed: A → B as single beams with noise constant in
+// counts (countsSeries), the reaction starting at t0 = 60 s, so the
+// spectra at 0, 30 and 60 s are repeats of one state. --pre 3 is right and
+// draws no warning; --pre 6 counts three spectra of the running reaction
+// as noise repeats, and the noise level the weights come from is then too
+// large: the fit leaves less than 0.8 of it (a resolution leaves about 1,
+// the definition of a noise level; 0.991 and 0.668 measured) and one
+// warning names --pre, the spectrum that changed and the overestimate.
+func TestPreThatChangedIsNamed(t *testing.T) {
+	s := countsSeries(t, 4, 0, 0, 17)
+	series, blank := s.write(t)
+	for _, tc := range []struct {
+		pre  int
+		want bool
+	}{{3, false}, {6, true}} {
+		st := NewSettings()
+		st.Data, st.Blank, st.Kind, st.Pre = []string{series}, blank, "single-beam", tc.pre
+		st.Bands, st.Checks = "off", "off"
+		r, err := Run(st, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		q, _ := residualToNoise(r)
+		named := 0
+		for _, w := range r.Warnings {
+			named += strings.Count(w, "probably changed already")
+		}
+		if (named == 1) != tc.want || named > 1 {
+			t.Errorf("--pre %d: residual %.3g × the noise (%s), named %v; want %v\n%q", tc.pre, q, r.NoiseSource, named, tc.want, r.Warnings)
+		}
+		t.Logf("--pre %d: residual %.3g × the noise", tc.pre, q)
+	}
+}

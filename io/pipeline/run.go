@@ -1159,6 +1159,26 @@ func componentOrder(r *Result, res *mcr.Result) []int {
 	return order
 }
 
+// noiseOverestimated warns when the fit leaves less than 0.8 of the noise
+// level it is measured against: a resolution with k components of an
+// n × m matrix leaves about √(1 − k(n+m−k)/(nm)) of it, near 1, so the
+// noise is overestimated, and with it the rank's noise floor (a component
+// can hide under it) and the standard errors. When the level came from the
+// spectra --pre counts as before the reaction, the likely cause is named:
+// the step check beside it cannot see it then, since the weights it
+// measures steps against came from those same spectra.
+func noiseOverestimated(r *Result) []string {
+	q, ok := residualToNoise(r)
+	if !ok || q >= 0.8 || r.Components == 0 {
+		return nil
+	}
+	w := fmt.Sprintf("the fit's residual is %.3g times the noise level it is measured against (%s): a resolution leaves about the noise, so the noise is overestimated, and with it the rank's noise floor (a component can hide under it) and the standard errors", q, r.NoiseSource)
+	if s := r.Settings; s.Pre >= 2 && strings.Contains(r.NoiseSource, "pre-reaction") {
+		w += fmt.Sprintf("; some of the %d spectra counted as before the reaction (--pre %d) probably changed already, which inflates it: give --pre the number of spectra taken before the reaction started", s.Pre, s.Pre)
+	}
+	return []string{w}
+}
+
 // nameAndWarn names the components by the mode (species_j, reaction_j)
 // and adds the resolution's warnings: ALS's own, the components' (alike
 // spectra or profiles), a lack of fit well above the noise's, and the
@@ -1351,22 +1371,33 @@ func orderComponents(r *Result, res *mcr.Result) []int {
 // units of its noise (spectra.StepToNoise: ρ ≈ 1 for repeats) and a step whose ρ² is
 // above both twice the noise variance (room for the noise model's own error, a few
 // repeats pooled over neighbouring channels) and the 99.9 % point of χ²_m/m is a change.
-// Without a noise model, the old figure: a fit whose residual is far below the σ the
-// pre-reaction rows imply says they changed (a fit cannot be much better than its noise).
+// Where the noise model itself came from those spectra the steps are measured against
+// a level they inflated and can pass; the fit then leaves less than the noise
+// (noiseOverestimated), which says it instead. One warning either way: a step found
+// carries the overestimate with it.
 func preWarnings(r *Result) []string {
+	over := noiseOverestimated(r)
+	steps := preSteps(r)
+	if len(steps) == 0 {
+		return over
+	}
+	if q, _ := residualToNoise(r); len(over) > 0 {
+		steps[0] += fmt.Sprintf("; the fit leaves %.3g times the noise level (%s), which is therefore too large, and with it the rank's noise floor and the standard errors", q, r.NoiseSource)
+	}
+	return steps
+}
+
+// preSteps are the steps between the spectra --pre counts as before the reaction
+// that are changes (preWarnings), at most one per experiment; none without a noise
+// model.
+func preSteps(r *Result) []string {
 	s := r.Settings
-	if s.Pre < 2 {
+	if s.Pre < 2 || r.Weights == nil {
 		return nil
 	}
-	if r.Weights == nil {
-		if q, ok := residualToNoise(r); ok && q < 0.5 && strings.HasPrefix(r.Rank.SigmaSource, "pre-reaction") {
-			return []string{fmt.Sprintf("the fit's residual is %.3g times smaller than the noise σ = %.3g that the %d spectra before the reaction imply (--pre %d): some of them probably changed already, which inflates σ; give --pre the number of spectra taken before the reaction started", 1/q, r.Rank.Sigma, s.Pre, s.Pre)}
-		}
-		return nil
-	}
+	var out []string
 	_, m := r.D.Dims()
 	limit := math.Max(2, distuv.ChiSquared{K: float64(m)}.Quantile(0.999)/float64(m))
-	var out []string
 	for _, e := range r.Experiments {
 		steps := spectra.StepToNoise(r.D, e.FirstRow, e.FirstRow+min(s.Pre, e.Rows), r.Weights, r.Blind)
 		for a, rho := range steps {
