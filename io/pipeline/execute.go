@@ -170,7 +170,8 @@ func printSummary(r *Result, st Streams) {
 // and `bandsolve report OUT` rebuilds the same bytes from the folder.
 func writersAfterResults() []func(*Result, *output.Stage) error {
 	return []func(*Result, *output.Stage) error{
-		writeBandsAndIntervals, writeEFA, writeSpectraJCAMP, writeNoise, writeBaseline, writeRecord, writeMaps,
+		writeBandsAndIntervals, writeEFA, writeSpectraJCAMP, writeNoise, writeBaseline, writeVapour, writeLineAmounts,
+		writeRecord, writeMaps,
 		writeReport,
 	}
 }

@@ -178,12 +178,6 @@ func WriteResults(r *Result, st *output.Stage) error {
 			return err
 		}
 	}
-	if err := writeVapour(r, st); err != nil {
-		return err
-	}
-	if err := writeLineAmounts(r, st); err != nil {
-		return err
-	}
 	sum, err := output.JSON(MakeSummary(r))
 	if err != nil {
 		return err
