@@ -50,7 +50,9 @@ func vapourWarning(r *Result) {
 	if v.Lo > 2000 {
 		b.WriteString("The same gas has lines at about 1300–2000 cm⁻¹, over the bands there")
 	} else {
-		b.WriteString("They lie over the bands there")
+		// Without the stretching range a gas of the sample with lines
+		// there (nitric oxide near 1876 cm⁻¹, say) looks the same.
+		b.WriteString("They lie over the bands there; the axis does not reach the vapour's stretching lines (3550–3950 cm⁻¹), which alone would tell them from a gas of the sample's own with lines in this range")
 	}
 	if carriers := vapourCarriers(r); carriers != "" {
 		b.WriteString("; " + carriers)
