@@ -14,10 +14,14 @@ def when(f):
     m = re.search(r'\w{3} (\w{3}) (\d+) (\d+)-(\d+)-(\d+) (\d{4})', os.path.basename(f))
     return datetime.datetime.strptime(' '.join(m.groups()), '%b %d %H %M %S %Y')
 
-def check(folder, lo, hi):
+def check(folder, lo, hi, dec=1):
+    """dec > 1 averages every dec neighbouring axis points first."""
     files = sorted(glob.glob(folder + '/*.CSV'), key=when)
     a = np.array([np.loadtxt(f, delimiter=',')[:, 1] for f in files])
     x = np.loadtxt(files[0], delimiter=',')[:, 0]
+    m = (len(x) // dec) * dec
+    x = x[:m].reshape(-1, dec).mean(1)
+    a = a[:, :m].reshape(len(a), -1, dec).mean(2)
     w2 = (x >= lo) & (x <= hi)
     step = abs(x[w2][-1] - x[w2][0]) / (w2.sum() - 1)
     h = max(2, int(round(8 / 2 / step)))
@@ -35,9 +39,11 @@ def check(folder, lo, hi):
         p = -p
     level = 5 * np.sqrt(np.median(np.mean(d ** 2, axis=1)))
     lines = sum(1 for i in range(1, len(p) - 1) if p[i] > level and p[i] > p[i - 1] and p[i] >= p[i + 1])
-    print('%s %g-%g: %d spectra, half width %d, ratio %.4f, lines %d' % (folder, lo, hi, len(files), h, ratio, lines))
+    print('%s %g-%g (points averaged by %d): %d spectra, half width %d, ratio %.4f, lines %d' % (folder, lo, hi, dec, len(files), h, ratio, lines))
 
 for run in ('0.01', '1.00'):
     check('testdata/urethane-atr/vapour-catalyst-' + run, 3550, 3950)
 check('testdata/urethane-atr/vapour-bend-catalyst-0.01', 1350, 1950)
 check('testdata/urethane-atr/catalyst-1.00', 1350, 1950)
+for run in ('0.01', '1.00'):
+    check('testdata/urethane-atr/vapour-catalyst-' + run, 3550, 3950, dec=4)
