@@ -75,9 +75,18 @@ func vapourStackText(r *Result) string {
 	}
 	drop := fmt.Sprintf("without the vapour's course (vapour.csv) the stack's singular values %d and %d (less the baseline, noise-weighted as counted) go from %.4g and %.4g to %.4g and %.4g", k, k+1, before[k-1], before[k], after[k-1], after[k])
 	if after[k-1] < 1.5*before[k] {
+		r.Advice = append(r.Advice, vapourCountAdvice(k))
 		return drop + fmt.Sprintf(": the %s component counted in the stack is the vapour's change, which differs between the experiments, not a species (--vapour with its spectrum takes it out, or --components %d leaves it in the residual)", ordinal(k), k-1)
 	}
 	return general + "; " + drop
+}
+
+// vapourCountAdvice corrects the count's advice when the stack's k-th
+// component is the vapour's change (vapourStackText): the chemistry is one
+// fewer. Only the count measured is corrected: the differences' rank, not
+// measured with and without the vapour's course, is left as counted.
+func vapourCountAdvice(k int) string {
+	return fmt.Sprintf("the count of %d includes the water vapour's change (the warning measures it): the chemistry of the stack has %d component(s); resolve with --vapour and a vapour spectrum, or with --components %d", k, k-1, k-1)
 }
 
 // ordinal is 1st, 2nd, 3rd, 4th, ….

@@ -246,6 +246,9 @@ func TestVapourNamedInAStack(t *testing.T) {
 	if r.Rank.Estimate != 3 || !strings.Contains(w, "the 3rd component counted in the stack is the vapour's change") {
 		t.Fatalf("rank %d, warning %q; want 3 and the vapour named as the third", r.Rank.Estimate, w)
 	}
+	if !anyContains(r.Advice, "the count of 3 includes the water vapour's change") || !anyContains(r.Advice, "the chemistry of the stack has 2 component(s)") {
+		t.Errorf("no advice correcting the count: %q", r.Advice)
+	}
 	d := countedRows(r)
 	n, _ := d.Dims()
 	g := make([]float64, n)
