@@ -8,6 +8,7 @@ import (
 
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/spectra"
+	"github.com/bandsolve/bandsolve/mcr"
 	"github.com/bandsolve/bandsolve/svd"
 	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
@@ -75,7 +76,7 @@ func vapourStackText(r *Result) string {
 	}
 	drop := fmt.Sprintf("without the vapour's course (vapour.csv) the stack's singular values %d and %d (less the baseline, noise-weighted as counted) go from %.4g and %.4g to %.4g and %.4g", k, k+1, before[k-1], before[k], after[k-1], after[k])
 	if after[k-1] < 1.5*before[k] {
-		r.Advice = append(r.Advice, vapourCountAdvice(k))
+		r.Advice = append(r.Advice, vapourCountAdvice(r, k))
 		return drop + fmt.Sprintf(": the %s component counted in the stack is the vapour's change, which differs between the experiments, not a species (--vapour with its spectrum takes it out, or --components %d leaves it in the residual)", ordinal(k), k-1)
 	}
 	return general + "; " + drop
@@ -83,10 +84,16 @@ func vapourStackText(r *Result) string {
 
 // vapourCountAdvice corrects the count's advice when the stack's k-th
 // component is the vapour's change (vapourStackText): the chemistry is one
-// fewer. Only the count measured is corrected: the differences' rank, not
-// measured with and without the vapour's course, is left as counted.
-func vapourCountAdvice(k int) string {
-	return fmt.Sprintf("the count of %d includes the water vapour's change (the warning measures it): the chemistry of the stack has %d component(s); resolve with --vapour and a vapour spectrum, or with --components %d", k, k-1, k-1)
+// fewer, and the differences' count too where it is measured the same way
+// (vapourInStackDifferences) and falls the same way.
+func vapourCountAdvice(r *Result, k int) string {
+	diff := ""
+	if kd := r.DiffRank.Estimate; kd >= 1 {
+		if before, after, ok := vapourInStackDifferences(r); ok && len(before) > kd && len(after) > kd && after[kd-1] < 1.5*before[kd] {
+			diff = fmt.Sprintf(", and its differences %d, not %d (their singular value %d goes from %.4g to %.4g without the vapour's course, the %s was %.4g)", kd-1, kd, kd, before[kd-1], after[kd-1], ordinal(kd+1), before[kd])
+		}
+	}
+	return fmt.Sprintf("the count of %d includes the water vapour's change (the warning measures it): the chemistry of the stack has %d component(s)%s; resolve with --vapour and a vapour spectrum, or with --components %d", k, k-1, diff, k-1)
 }
 
 // ordinal is 1st, 2nd, 3rd, 4th, ….
@@ -316,39 +323,83 @@ func writeLineAmounts(r *Result, st *output.Stage) error {
 // false when not measured: one experiment, no detection, or a stack whose
 // n² m product exceeds maxVapourWork.
 func vapourInStack(r *Result) (before, after []float64, ok bool) {
-	v := r.Vapour
-	if v == nil || !v.Detected || len(r.Experiments) < 2 {
+	if !stackMeasurable(r) {
 		return nil, nil, false
 	}
-	n, m := r.D.Dims()
-	if float64(n)*float64(n)*float64(m) > maxVapourWork {
+	return valuesWithout(countedMatrix(r.D, r.BaselineShapes, r.Weights), r.Vapour.Height, r.Weights)
+}
+
+// vapourInStackDifferences is vapourInStack for the differences the
+// species-mode count also ranks: each experiment's rows less its
+// reference (the mean of its reference rows), with the differences'
+// weights; the course is the heights less the reference's, the check
+// being linear in the spectrum. Not measured when a reference is a file.
+func vapourInStackDifferences(r *Result) (before, after []float64, ok bool) {
+	if r.Mode != mcr.Species || r.DiffRank == nil || r.DiffWeights == nil || !stackMeasurable(r) {
 		return nil, nil, false
 	}
-	rows := countedRows(r)
-	g := make([]float64, n)
-	for i := range g {
-		g[i] = v.Height[i]
-		if r.Weights != nil {
-			g[i] *= math.Sqrt(r.Weights.Row[i])
+	d := mat.DenseCopyOf(r.D)
+	h := slices.Clone(r.Vapour.Height)
+	for _, e := range r.Experiments {
+		if len(e.RefRows) == 0 {
+			return nil, nil, false
+		}
+		_, m := d.Dims()
+		ref, href := make([]float64, m), 0.0
+		for _, q := range e.RefRows {
+			floats.Add(ref, r.D.RawRowView(e.FirstRow+q))
+			href += h[e.FirstRow+q]
+		}
+		floats.Scale(1/float64(len(e.RefRows)), ref)
+		href /= float64(len(e.RefRows))
+		for i := e.FirstRow; i < e.FirstRow+e.Rows; i++ {
+			floats.Sub(d.RawRowView(i), ref)
+			h[i] -= href
 		}
 	}
-	if nrm := floats.Norm(g, 2); nrm > 0 {
-		floats.Scale(1/nrm, g)
-	} else {
+	return valuesWithout(countedMatrix(d, r.BaselineShapes, r.DiffWeights), h, r.DiffWeights)
+}
+
+// stackMeasurable says vapourInStack can measure r: several experiments,
+// a change detected, and n² m within maxVapourWork.
+func stackMeasurable(r *Result) bool {
+	v := r.Vapour
+	if v == nil || !v.Detected || len(r.Experiments) < 2 {
+		return false
+	}
+	n, m := r.D.Dims()
+	return float64(n)*float64(n)*float64(m) <= maxVapourWork
+}
+
+// valuesWithout are the singular values of rows, and of rows with the
+// course (weighted by the square roots of w's row weights) projected out
+// of them, from their Gram matrix.
+func valuesWithout(rows *mat.Dense, course []float64, w *spectra.Weights) (before, after []float64, ok bool) {
+	n, _ := rows.Dims()
+	g := make([]float64, n)
+	for i := range g {
+		g[i] = course[i]
+		if w != nil {
+			g[i] *= math.Sqrt(w.Row[i])
+		}
+	}
+	nrm := floats.Norm(g, 2)
+	if !(nrm > 0) {
 		return nil, nil, false
 	}
+	floats.Scale(1/nrm, g)
 	gram := mat.NewSymDense(n, nil)
 	gram.SymOuterK(1, rows)
 	before = symValues(gram)
 	// (I − ĝĝᵀ) G (I − ĝĝᵀ) = G − ĝwᵀ − wĝᵀ + (ĝᵀGĝ) ĝĝᵀ, w = G ĝ.
-	w := mat.NewVecDense(n, nil)
+	gw := mat.NewVecDense(n, nil)
 	gv := mat.NewVecDense(n, g)
-	w.MulVec(gram, gv)
-	c := mat.Dot(gv, w)
+	gw.MulVec(gram, gv)
+	c := mat.Dot(gv, gw)
 	proj := mat.NewSymDense(n, nil)
 	for i := 0; i < n; i++ {
 		for j := i; j < n; j++ {
-			proj.SetSym(i, j, gram.At(i, j)-g[i]*w.AtVec(j)-w.AtVec(i)*g[j]+c*g[i]*g[j])
+			proj.SetSym(i, j, gram.At(i, j)-g[i]*gw.AtVec(j)-gw.AtVec(i)*g[j]+c*g[i]*g[j])
 		}
 	}
 	return before, symValues(proj), true
@@ -358,16 +409,16 @@ func vapourInStack(r *Result) (before, after []float64, ok bool) {
 // 0.1 s).
 const maxVapourWork = 2e8
 
-// countedRows is D as the count sees it: less the baseline polynomials of
-// the order chosen, rows and columns scaled by the square roots of the
-// noise weights.
-func countedRows(r *Result) *mat.Dense {
-	d := mat.DenseCopyOf(r.D)
+// countedMatrix is d as the count sees it: less the baseline polynomials
+// shapes (nil: none), rows and columns scaled by the square roots of the
+// noise weights w (nil: unweighted).
+func countedMatrix(src *mat.Dense, shapes *mat.Dense, w *spectra.Weights) *mat.Dense {
+	d := mat.DenseCopyOf(src)
 	n, m := d.Dims()
-	if r.BaselineShapes != nil {
+	if shapes != nil {
 		var qr mat.QR
-		qr.Factorize(r.BaselineShapes)
-		_, b := r.BaselineShapes.Dims()
+		qr.Factorize(shapes)
+		_, b := shapes.Dims()
 		var q mat.Dense
 		qr.QTo(&q)
 		qb := q.Slice(0, m, 0, b)
@@ -376,12 +427,12 @@ func countedRows(r *Result) *mat.Dense {
 		back.Mul(&dq, qb.T())
 		d.Sub(d, &back)
 	}
-	if r.Weights != nil {
+	if w != nil {
 		for i := 0; i < n; i++ {
 			row := d.RawRowView(i)
-			a := math.Sqrt(r.Weights.Row[i])
+			a := math.Sqrt(w.Row[i])
 			for j := range row {
-				row[j] *= a * math.Sqrt(r.Weights.Col[j])
+				row[j] *= a * math.Sqrt(w.Col[j])
 			}
 		}
 	}

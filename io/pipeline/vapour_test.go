@@ -7,6 +7,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
@@ -225,10 +226,11 @@ func isocyanate(r *Result) int {
 // urethaneDir) stacked as a user stacks runs (--data twice). Alone they
 // count 2 and 1 components over 3500–4000 cm⁻¹; stacked, 3, one more than
 // either, and the vapour grew only in the second run. The warning measures
-// that the vapour's course accounts for the third: the singular values it
-// quotes are recomputed here directly, by an SVD of the counted matrix
-// with and without that course projected out of its rows (not the Gram
-// route of vapourInStack).
+// that the vapour's course accounts for the third, and the advice that the
+// differences' third is the vapour too: the singular values they quote are
+// recomputed here directly, by an SVD of the counted matrices with and
+// without that course projected out of their rows (not the Gram route of
+// vapourInStack).
 func TestVapourNamedInAStack(t *testing.T) {
 	s := NewSettings()
 	s.Data = []string{filepath.Join(urethaneDir, "vapour-catalyst-1.00"), filepath.Join(urethaneDir, "vapour-catalyst-0.01")}
@@ -249,16 +251,43 @@ func TestVapourNamedInAStack(t *testing.T) {
 	if !anyContains(r.Advice, "the count of 3 includes the water vapour's change") || !anyContains(r.Advice, "the chemistry of the stack has 2 component(s)") {
 		t.Errorf("no advice correcting the count: %q", r.Advice)
 	}
-	d := countedRows(r)
+	before, after := svdWithout(t, countedMatrix(r.D, r.BaselineShapes, r.Weights), r.Vapour.Height, r.Weights.Row)
+	want := fmt.Sprintf("go from %.4g and %.4g to %.4g and %.4g", before[2], before[3], after[2], after[3])
+	if !strings.Contains(w, want) {
+		t.Errorf("warning %q\nwant it to say %q", w, want)
+	}
+	// The differences (each run less its first spectrum, their own
+	// weights) count 3 where each run alone counts 1; the advice says 2,
+	// with the values recomputed the same way.
+	_, m := r.D.Dims()
+	diff, h := mat.DenseCopyOf(r.D), slices.Clone(r.Vapour.Height)
+	for _, e := range r.Experiments {
+		ref := e.FirstRow + e.RefRows[0]
+		for i := e.FirstRow; i < e.FirstRow+e.Rows; i++ {
+			floats.Sub(diff.RawRowView(i)[:m], r.D.RawRowView(ref))
+			h[i] -= r.Vapour.Height[ref]
+		}
+	}
+	db, da := svdWithout(t, countedMatrix(diff, r.BaselineShapes, r.DiffWeights), h, r.DiffWeights.Row)
+	wantDiff := fmt.Sprintf("its differences 2, not 3 (their singular value 3 goes from %.4g to %.4g without the vapour's course, the 4th was %.4g)", db[2], da[2], db[3])
+	if r.DiffRank.Estimate != 3 || !anyContains(r.Advice, wantDiff) {
+		t.Errorf("difference rank %d, advice %q\nwant %q", r.DiffRank.Estimate, r.Advice, wantDiff)
+	}
+}
+
+// svdWithout are the singular values of d, and of d with the course
+// (scaled by the square roots of the row weights a, then to unit length)
+// projected out of its rows, by SVD.
+func svdWithout(t *testing.T, d *mat.Dense, course, a []float64) (before, after []float64) {
+	t.Helper()
 	n, _ := d.Dims()
 	g := make([]float64, n)
 	for i := range g {
-		g[i] = r.Vapour.Height[i] * math.Sqrt(r.Weights.Row[i])
+		g[i] = course[i] * math.Sqrt(a[i])
 	}
 	floats.Scale(1/floats.Norm(g, 2), g)
-	var p mat.Dense
 	gv := mat.NewVecDense(n, g)
-	var gtd mat.Dense
+	var gtd, p mat.Dense
 	gtd.Mul(gv.T(), d)
 	p.Mul(gv, &gtd)
 	p.Sub(d, &p)
@@ -269,9 +298,5 @@ func TestVapourNamedInAStack(t *testing.T) {
 		}
 		return sv.Values(nil)
 	}
-	before, after := values(d), values(&p)
-	want := fmt.Sprintf("go from %.4g and %.4g to %.4g and %.4g", before[2], before[3], after[2], after[3])
-	if !strings.Contains(w, want) {
-		t.Errorf("warning %q\nwant it to say %q", w, want)
-	}
+	return values(d), values(&p)
 }
