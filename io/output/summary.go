@@ -235,6 +235,12 @@ type VapourJSON struct {
 	// Subtracted are the --vapour spectra taken out of every spectrum
 	// before the check, with the range of their fitted amounts.
 	Subtracted []VapourSubtractedJSON `json:"subtracted,omitempty"`
+	// CountedComponent is, in a stack of experiments, the component of the
+	// count measured to be the vapour's change (its singular value falls to
+	// the next one's without the vapour's course), and CountedReaction the
+	// same in the differences' count; 0 when none is.
+	CountedComponent int `json:"counted_component,omitempty"`
+	CountedReaction  int `json:"counted_reaction,omitempty"`
 }
 
 // VapourSubtractedJSON is one --vapour spectrum: its file and the

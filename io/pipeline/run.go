@@ -144,6 +144,10 @@ type Result struct {
 	// without.
 	LineSpectra [][]float64
 	LineAmounts *mat.Dense
+	// vapourCounted and vapourCountedDiff are the components of the
+	// stack's count and of its differences' measured to be the vapour's
+	// change (vapourStackText), 0 when none is.
+	vapourCounted, vapourCountedDiff int
 	// earlyFit is the first data fit of hard–soft, begun beside the soft
 	// resolution (earlyDataFit); nil outside resolve.
 	earlyFit *earlyDataFit
@@ -643,7 +647,7 @@ func diffAdvice(r *Result, rank *svd.RankReport) {
 	case r.DiffRank.Estimate == 0:
 		r.Advice = append(r.Advice, "the difference spectra show no change beyond noise: nothing reacted")
 	case r.DiffRank.Estimate < rank.Estimate:
-		r.Advice = append(r.Advice, fmt.Sprintf("absolute absorbance has %d chemical component(s) and the differences %d: at least %d species take part in %d independent reaction(s) (species whose amounts stay in a fixed ratio, or several closed subsystems, add no rank and can hide)", rank.Estimate, r.DiffRank.Estimate, rank.Estimate, r.DiffRank.Estimate))
+		r.Advice = append(r.Advice, fmt.Sprintf(rankAdvicePrefix+"%d chemical component(s) and the differences %d: at least %d species take part in %d independent reaction(s) (species whose amounts stay in a fixed ratio, or several closed subsystems, add no rank and can hide)", rank.Estimate, r.DiffRank.Estimate, rank.Estimate, r.DiffRank.Estimate))
 	}
 }
 
@@ -1178,6 +1182,10 @@ func noiseOverestimated(r *Result) []string {
 	}
 	return []string{w}
 }
+
+// rankAdvicePrefix begins the advice comparing the absolute and the
+// differences' counts.
+const rankAdvicePrefix = "absolute absorbance has "
 
 // nameAndWarn names the components by the mode (species_j, reaction_j)
 // and adds the resolution's warnings: ALS's own, the components' (alike

@@ -76,7 +76,8 @@ func vapourStackText(r *Result) string {
 	}
 	drop := fmt.Sprintf("without the vapour's course (vapour.csv) the stack's singular values %d and %d (less the baseline, noise-weighted as counted) go from %.4g and %.4g to %.4g and %.4g", k, k+1, before[k-1], before[k], after[k-1], after[k])
 	if after[k-1] < 1.5*before[k] {
-		r.Advice = append(r.Advice, vapourCountAdvice(r, k))
+		r.vapourCounted = k
+		r.Advice = insertAfterRankAdvice(r.Advice, vapourCountAdvice(r, k))
 		return drop + fmt.Sprintf(": the %s component counted in the stack is the vapour's change, which differs between the experiments, not a species (--vapour with its spectrum takes it out, or --components %d leaves it in the residual)", ordinal(k), k-1)
 	}
 	return general + "; " + drop
@@ -90,10 +91,24 @@ func vapourCountAdvice(r *Result, k int) string {
 	diff := ""
 	if kd := r.DiffRank.Estimate; kd >= 1 {
 		if before, after, ok := vapourInStackDifferences(r); ok && len(before) > kd && len(after) > kd && after[kd-1] < 1.5*before[kd] {
+			r.vapourCountedDiff = kd
 			diff = fmt.Sprintf(", and its differences %d, not %d (their singular value %d goes from %.4g to %.4g without the vapour's course, the %s was %.4g)", kd-1, kd, kd, before[kd-1], after[kd-1], ordinal(kd+1), before[kd])
 		}
 	}
 	return fmt.Sprintf("the count of %d includes the water vapour's change (the warning measures it): the chemistry of the stack has %d component(s)%s; resolve with --vapour and a vapour spectrum, or with --components %d", k, k-1, diff, k-1)
+}
+
+// insertAfterRankAdvice puts line right after the advice on the count
+// (rankAdvicePrefix), which it corrects, else first.
+func insertAfterRankAdvice(advice []string, line string) []string {
+	at := 0
+	for i, a := range advice {
+		if strings.HasPrefix(a, rankAdvicePrefix) {
+			at = i + 1
+			break
+		}
+	}
+	return slices.Insert(advice, at, line)
 }
 
 // ordinal is 1st, 2nd, 3rd, 4th, ….
@@ -200,6 +215,7 @@ func vapourSummary(r *Result) *output.VapourJSON {
 		return j
 	}
 	j.LargestAt = round(v.LargestAt)
+	j.CountedComponent, j.CountedReaction = r.vapourCounted, r.vapourCountedDiff
 	for _, c := range v.Change {
 		j.Change = append(j.Change, round(c))
 	}

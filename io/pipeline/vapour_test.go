@@ -251,6 +251,16 @@ func TestVapourNamedInAStack(t *testing.T) {
 	if !anyContains(r.Advice, "the count of 3 includes the water vapour's change") || !anyContains(r.Advice, "the chemistry of the stack has 2 component(s)") {
 		t.Errorf("no advice correcting the count: %q", r.Advice)
 	}
+	// The correction follows the advice it corrects, and summary.json says
+	// which components are the vapour's change.
+	for i, a := range r.Advice {
+		if strings.HasPrefix(a, rankAdvicePrefix) && (i+1 >= len(r.Advice) || !strings.HasPrefix(r.Advice[i+1], "the count of 3 includes")) {
+			t.Errorf("the correction does not follow the count's advice: %q", r.Advice)
+		}
+	}
+	if j := vapourSummary(r); j.CountedComponent != 3 || j.CountedReaction != 3 {
+		t.Errorf("summary counted_component %d, counted_reaction %d; want 3 and 3", j.CountedComponent, j.CountedReaction)
+	}
 	before, after := svdWithout(t, countedMatrix(r.D, r.BaselineShapes, r.Weights), r.Vapour.Height, r.Weights.Row)
 	want := fmt.Sprintf("go from %.4g and %.4g to %.4g and %.4g", before[2], before[3], after[2], after[3])
 	if !strings.Contains(w, want) {

@@ -3,6 +3,8 @@ package report
 import (
 	"strings"
 	"testing"
+
+	"github.com/bandsolve/bandsolve/io/output"
 )
 
 // TestVapourFigure: vapour.csv (as the pipeline writes it; its columns in
@@ -28,5 +30,17 @@ func TestVapourFigure(t *testing.T) {
 	bad, _ := ParseTable("vapour.csv", []byte("time,height\n0,0\n"))
 	if _, err := vapourFigure(&Folder{Vapour: bad}); err == nil || !strings.Contains(err.Error(), "line_height") {
 		t.Errorf("a table without line_height: %v", err)
+	}
+}
+
+// TestVapourCountFinding: the finding states summary.json's
+// counted_component and counted_reaction, and what the chemistry then has.
+func TestVapourCountFinding(t *testing.T) {
+	got := vapourCountFinding(&output.VapourJSON{CountedComponent: 3, CountedReaction: 2})
+	if !strings.Contains(got, "Component 3 of the count is the water vapour's change") || !strings.Contains(got, "has 2 component(s) and 1 independent reaction(s)") {
+		t.Errorf("%q", got)
+	}
+	if got := vapourCountFinding(&output.VapourJSON{CountedComponent: 2}); strings.Contains(got, "reaction") || !strings.Contains(got, "has 1 component(s).") {
+		t.Errorf("without the differences: %q", got)
 	}
 }

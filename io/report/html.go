@@ -420,6 +420,17 @@ func factorAccount(s *Summary) string {
 
 // findings says in words what was found and how sure it is; checks are
 // the warnings the report itself derives from the files.
+// vapourCountFinding says which counted component of a stack the
+// water-vapour check measured to be the vapour's change, and what the
+// chemistry then has.
+func vapourCountFinding(v *output.VapourJSON) string {
+	w := fmt.Sprintf("Component %d of the count is the water vapour's change, measured: without the vapour's course its singular value falls to the next one's (see the warnings). The chemistry of the stack has %d component(s)", v.CountedComponent, v.CountedComponent-1)
+	if v.CountedReaction > 0 {
+		w += fmt.Sprintf(" and %d independent reaction(s)", v.CountedReaction-1)
+	}
+	return w + "."
+}
+
 func findings(f *Folder) (find, checks []string) {
 	s := f.Summary
 	find = append(find, resolvedFinding(f))
@@ -433,6 +444,9 @@ func findings(f *Folder) (find, checks []string) {
 		if *s.DifferenceRank < s.RankEstimate {
 			find = append(find, fmt.Sprintf("The difference spectra have rank %d, below the %d of the absolute absorbance: a rank deficiency from mass balance — %d species take part in %d independent reaction(s).", *s.DifferenceRank, s.RankEstimate, s.RankEstimate, *s.DifferenceRank))
 		}
+	}
+	if v := s.WaterVapour; v != nil && v.CountedComponent > 0 {
+		find = append(find, vapourCountFinding(v))
 	}
 	if s.Components > 0 {
 		find = append(find, fitFinding(s))
