@@ -78,7 +78,7 @@ func vapourStackText(r *Result) string {
 	if after[k-1] < 1.5*before[k] {
 		r.vapourCounted = k
 		r.Advice = insertAfterRankAdvice(r.Advice, vapourCountAdvice(r, k))
-		return drop + fmt.Sprintf(": the %s component counted in the stack is the vapour's change, which differs between the experiments, not a species (--vapour with its spectrum takes it out, or --components %d leaves it in the residual)", ordinal(k), k-1)
+		return drop + fmt.Sprintf(": the %s component counted in the stack is the vapour's change, which differs between the experiments, not a species (--vapour with a spectrum of it takes it out; without one, keep it as a component: --components %d leaves the change in the residual)", ordinal(k), k-1)
 	}
 	return general + "; " + drop
 }
@@ -95,7 +95,11 @@ func vapourCountAdvice(r *Result, k int) string {
 			diff = fmt.Sprintf(", and its differences %d, not %d (their singular value %d goes from %.4g to %.4g without the vapour's course, the %s was %.4g)", kd-1, kd, kd, before[kd-1], after[kd-1], ordinal(kd+1), before[kd])
 		}
 	}
-	return fmt.Sprintf("the count of %d includes the water vapour's change (the warning measures it): the chemistry of the stack has %d component(s)%s; resolve with --vapour and a vapour spectrum, or with --components %d", k, k-1, diff, k-1)
+	then := fmt.Sprintf("until then read component %d as the vapour's change mixed with the chemistry within its uniqueness range, not as a species (--components %d leaves the change in the residual)", k, k-1)
+	if r.Components < k {
+		then = fmt.Sprintf("as it is, with %d component(s), the change is left in the residual", r.Components)
+	}
+	return fmt.Sprintf("the count of %d includes the water vapour's change (the warning measures it): the chemistry of the stack has %d component(s)%s; resolve with --vapour and a vapour spectrum; %s", k, k-1, diff, then)
 }
 
 // insertAfterRankAdvice puts line right after the advice on the count
