@@ -543,3 +543,30 @@ func averageNeighbours(d *mat.Dense, axis []float64, k int) (*mat.Dense, []float
 	}
 	return out, ax
 }
+
+// TestVapourDegenerate: inputs at the edges give an answer, never a panic
+// or a non-finite figure: one spectrum, experiments of one spectrum each,
+// all zeros, an axis shorter than the matrix.
+func TestVapourDegenerate(t *testing.T) {
+	axis := make([]float64, 900)
+	for j := range axis {
+		axis[j] = 4000 - 0.5*float64(j)
+	}
+	for _, tc := range []struct {
+		name    string
+		d       *mat.Dense
+		axis    []float64
+		blocks  []int
+		checked bool
+	}{
+		{"one spectrum", mat.NewDense(1, 900, nil), axis, nil, false},
+		{"experiments of one spectrum", mat.NewDense(3, 900, nil), axis, []int{0, 1, 2}, false},
+		{"all zeros", mat.NewDense(10, 900, nil), axis, nil, true},
+		{"axis too short", mat.NewDense(10, 900, nil), axis[:800], nil, false},
+	} {
+		v := CheckVapour(tc.d, tc.axis, tc.blocks)
+		if v.Checked != tc.checked || v.Detected || math.IsNaN(v.Ratio) || math.IsInf(v.Ratio, 0) || (!v.Checked && v.Why == "") {
+			t.Errorf("%s: checked %v (%q), detected %v, ratio %g", tc.name, v.Checked, v.Why, v.Detected, v.Ratio)
+		}
+	}
+}
