@@ -144,10 +144,9 @@ type Result struct {
 	// without.
 	LineSpectra [][]float64
 	LineAmounts *mat.Dense
-	// vapourCounted and vapourCountedDiff are the components of the
-	// stack's count and of its differences' measured to be the vapour's
-	// change (vapourStackText), 0 when none is.
-	vapourCounted, vapourCountedDiff int
+	// vapourStack is what the vapour's course accounts for in a stack
+	// (measureVapourStack), nil when not measured.
+	vapourStack *vapourStack
 	// earlyFit is the first data fit of hard–soft, begun beside the soft
 	// resolution (earlyDataFit); nil outside resolve.
 	earlyFit *earlyDataFit

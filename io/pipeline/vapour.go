@@ -59,45 +59,74 @@ func vapourWarning(r *Result) {
 		b.WriteString("; " + carriers)
 	}
 	if len(r.Experiments) > 1 {
-		b.WriteString("; " + vapourStackText(r))
+		r.vapourStack = measureVapourStack(r)
+		b.WriteString("; " + vapourStackText(r.vapourStack))
+		if m := r.vapourStack; m != nil && m.counted {
+			r.Advice = insertAfterRankAdvice(r.Advice, vapourCountAdvice(m, r.Components))
+		}
 	}
 	b.WriteString(". Purge the spectrometer longer before starting, or give a water-vapour spectrum recorded at the same resolution to --vapour FILE, which subtracts it from every spectrum; vapour.csv gives the lines' height in every spectrum")
 	r.Warnings = append(r.Warnings, b.String())
 }
 
-// vapourStackText says what the vapour's course accounts for in a stack:
-// measured (vapourInStack) where it can be, else in general.
-func vapourStackText(r *Result) string {
-	general := "a change that differs between experiments is one more independent change in their stack and can be counted as a component that no experiment shows alone"
+// vapourStack is what the vapour's course accounts for in a stack
+// (vapourInStack, vapourInStackDifferences): the count k and the stack's
+// singular values before and after, and the same for the differences'
+// count kd where it was measured; counted and countedDiff say the k-th
+// (kd-th) value falls below 1.5 times the next one's before, so that
+// component is the vapour's change.
+type vapourStack struct {
+	k, kd                          int
+	before, after, dBefore, dAfter []float64
+	counted, countedDiff           bool
+}
+
+// measureVapourStack measures r's stack (nil when it cannot be measured).
+func measureVapourStack(r *Result) *vapourStack {
 	before, after, ok := vapourInStack(r)
 	k := r.Rank.Estimate
 	if !ok || k < 1 || len(before) <= k || len(after) <= k {
+		return nil
+	}
+	m := &vapourStack{k: k, before: before, after: after, counted: after[k-1] < 1.5*before[k]}
+	if !m.counted || r.DiffRank == nil || r.DiffRank.Estimate < 1 {
+		return m
+	}
+	kd := r.DiffRank.Estimate
+	if db, da, ok := vapourInStackDifferences(r); ok && len(db) > kd && len(da) > kd {
+		m.kd, m.dBefore, m.dAfter, m.countedDiff = kd, db, da, da[kd-1] < 1.5*db[kd]
+	}
+	return m
+}
+
+// vapourStackText says what the vapour's course accounts for in a stack:
+// measured where it can be (m), else in general.
+func vapourStackText(m *vapourStack) string {
+	general := "a change that differs between experiments is one more independent change in their stack and can be counted as a component that no experiment shows alone"
+	if m == nil {
 		return general
 	}
-	drop := fmt.Sprintf("without the vapour's course (vapour.csv) the stack's singular values %d and %d (less the baseline, noise-weighted as counted) go from %.4g and %.4g to %.4g and %.4g", k, k+1, before[k-1], before[k], after[k-1], after[k])
-	if after[k-1] < 1.5*before[k] {
-		r.vapourCounted = k
-		r.Advice = insertAfterRankAdvice(r.Advice, vapourCountAdvice(r, k))
-		return drop + fmt.Sprintf(": the %s component counted in the stack is the vapour's change, which differs between the experiments, not a species (--vapour with a spectrum of it takes it out; without one, keep it as a component: --components %d leaves the change in the residual)", ordinal(k), k-1)
+	k := m.k
+	drop := fmt.Sprintf("without the vapour's course (vapour.csv) the stack's singular values %d and %d (less the baseline, noise-weighted as counted) go from %.4g and %.4g to %.4g and %.4g", k, k+1, m.before[k-1], m.before[k], m.after[k-1], m.after[k])
+	if !m.counted {
+		return general + "; " + drop
 	}
-	return general + "; " + drop
+	return drop + fmt.Sprintf(": the %s component counted in the stack is the vapour's change, which differs between the experiments, not a species (--vapour with a spectrum of it takes it out; without one, keep it as a component: --components %d leaves the change in the residual)", ordinal(k), k-1)
 }
 
 // vapourCountAdvice corrects the count's advice when the stack's k-th
-// component is the vapour's change (vapourStackText): the chemistry is one
-// fewer, and the differences' count too where it is measured the same way
-// (vapourInStackDifferences) and falls the same way.
-func vapourCountAdvice(r *Result, k int) string {
-	diff := ""
-	if kd := r.DiffRank.Estimate; kd >= 1 {
-		if before, after, ok := vapourInStackDifferences(r); ok && len(before) > kd && len(after) > kd && after[kd-1] < 1.5*before[kd] {
-			r.vapourCountedDiff = kd
-			diff = fmt.Sprintf(", and its differences %d, not %d (their singular value %d goes from %.4g to %.4g without the vapour's course, the %s was %.4g)", kd-1, kd, kd, before[kd-1], after[kd-1], ordinal(kd+1), before[kd])
-		}
+// component is the vapour's change (m.counted): the chemistry is one
+// fewer, and the differences' count too where it was measured and falls
+// the same way.
+func vapourCountAdvice(m *vapourStack, components int) string {
+	k, diff := m.k, ""
+	if m.countedDiff {
+		kd := m.kd
+		diff = fmt.Sprintf(", and its differences %d, not %d (their singular value %d goes from %.4g to %.4g without the vapour's course, the %s was %.4g)", kd-1, kd, kd, m.dBefore[kd-1], m.dAfter[kd-1], ordinal(kd+1), m.dBefore[kd])
 	}
 	then := fmt.Sprintf("until then read component %d as the vapour's change mixed with the chemistry within its uniqueness range, not as a species (--components %d leaves the change in the residual)", k, k-1)
-	if r.Components < k {
-		then = fmt.Sprintf("as it is, with %d component(s), the change is left in the residual", r.Components)
+	if components < k {
+		then = fmt.Sprintf("as it is, with %d component(s), the change is left in the residual", components)
 	}
 	return fmt.Sprintf("the count of %d includes the water vapour's change (the warning measures it): the chemistry of the stack has %d component(s)%s; resolve with --vapour and a vapour spectrum; %s", k, k-1, diff, then)
 }
@@ -219,7 +248,12 @@ func vapourSummary(r *Result) *output.VapourJSON {
 		return j
 	}
 	j.LargestAt = round(v.LargestAt)
-	j.CountedComponent, j.CountedReaction = r.vapourCounted, r.vapourCountedDiff
+	if m := r.vapourStack; m != nil && m.counted {
+		j.CountedComponent = m.k
+		if m.countedDiff {
+			j.CountedReaction = m.kd
+		}
+	}
 	for _, c := range v.Change {
 		j.Change = append(j.Change, round(c))
 	}

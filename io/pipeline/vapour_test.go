@@ -285,6 +285,27 @@ func TestVapourNamedInAStack(t *testing.T) {
 	}
 }
 
+// TestVapourNamedInAReactionsStack: the same stack in reactions mode (the
+// copies read as differences, so no differences' count beside the
+// count's): the measurement runs on the stack itself and names its last
+// component; the differences' correction, not measured, is not claimed.
+// (This path once dereferenced the absent differences' count.)
+func TestVapourNamedInAReactionsStack(t *testing.T) {
+	s := NewSettings()
+	s.Data = []string{filepath.Join(urethaneDir, "vapour-catalyst-1.00"), filepath.Join(urethaneDir, "vapour-catalyst-0.01")}
+	s.Kind, s.TimesFromName, s.Bands, s.Checks = "difference", true, "off", "off"
+	r, err := Run(s, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.DiffRank != nil || !anyContains(r.Warnings, "component counted in the stack is the vapour's change") || anyContains(r.Advice, "its differences") {
+		t.Errorf("difference rank %v, warnings %q, advice %q", r.DiffRank, r.Warnings, r.Advice)
+	}
+	if j := vapourSummary(r); j.CountedComponent != r.Rank.Estimate || j.CountedReaction != 0 {
+		t.Errorf("counted_component %d (rank %d), counted_reaction %d", j.CountedComponent, r.Rank.Estimate, j.CountedReaction)
+	}
+}
+
 // svdWithout are the singular values of d, and of d with the course
 // (scaled by the square roots of the row weights a, then to unit length)
 // projected out of its rows, by SVD.
