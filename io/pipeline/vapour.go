@@ -111,7 +111,7 @@ func vapourStackText(m *vapourStack) string {
 	if !m.counted {
 		return general + "; " + drop
 	}
-	return drop + fmt.Sprintf(": the %s component counted in the stack is the vapour's change, which differs between the experiments, not a species (--vapour with a spectrum of it takes it out; without one, keep it as a component: --components %d leaves the change in the residual)", ordinal(k), k-1)
+	return drop + fmt.Sprintf(": the %s component counted in the stack is the vapour's change, which differs between the experiments, not chemistry (--vapour with a spectrum of it takes it out; without one, keep it as a component: --components %d leaves the change in the residual)", ordinal(k), k-1)
 }
 
 // vapourCountAdvice corrects the count's advice when the stack's k-th
@@ -124,7 +124,7 @@ func vapourCountAdvice(m *vapourStack, components int) string {
 		kd := m.kd
 		diff = fmt.Sprintf(", and its differences %d, not %d (their singular value %d goes from %.4g to %.4g without the vapour's course, the %s was %.4g)", kd-1, kd, kd, m.dBefore[kd-1], m.dAfter[kd-1], ordinal(kd+1), m.dBefore[kd])
 	}
-	then := fmt.Sprintf("until then read component %d as the vapour's change mixed with the chemistry within its uniqueness range, not as a species (--components %d leaves the change in the residual)", k, k-1)
+	then := fmt.Sprintf("until then read component %d as the vapour's change mixed with the chemistry within its uniqueness range, not as chemistry (--components %d leaves the change in the residual)", k, k-1)
 	if components < k {
 		then = fmt.Sprintf("as it is, with %d component(s), the change is left in the residual", components)
 	}
