@@ -586,8 +586,10 @@ func minorShape(u, v, axis []float64) string {
 // the air in the beam path has the sharp Q branch of its bending band,
 // 667.4 cm⁻¹ (band position common practice; the value from memory), which
 // a purge or the room changes. A sample's band there is seldom that narrow.
+// Only on an axis that reaches 1500 (a mid-infrared one in cm⁻¹): a
+// UV-visible axis in nm, which stops near 1100, has 664–671 too.
 func carbonDioxideAt(v, axis []float64, at int) string {
-	if x := axis[at]; x < 664 || x > 671 {
+	if x := axis[at]; x < 664 || x > 671 || max(axis[0], axis[len(axis)-1]) < 1500 {
 		return ""
 	}
 	half := math.Abs(v[at]) / 2

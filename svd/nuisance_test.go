@@ -172,9 +172,10 @@ func TestPolyShareIsItsDefinition(t *testing.T) {
 // half height; the width quoted is the Gaussian's full width at half height
 // (its definition; linear interpolation between points 0.5 apart, so
 // within 0.05). CO₂'s bending Q branch at 667.4 cm⁻¹ is common practice
-// (value from memory).
+// (value from memory). On an axis that stops short of 1500, as a
+// UV-visible one in nm does, nothing is named.
 func TestCarbonDioxideAt(t *testing.T) {
-	axis := make([]float64, 400)
+	axis := make([]float64, 2000)
 	for j := range axis {
 		axis[j] = 600 + 0.5*float64(j)
 	}
@@ -202,6 +203,9 @@ func TestCarbonDioxideAt(t *testing.T) {
 			}
 		}
 		got := carbonDioxideAt(tc.v, axis, at)
+		if nm := carbonDioxideAt(tc.v[:400], axis[:400], min(at, 399)); nm != "" {
+			t.Errorf("%s on an axis that stops at 800 (nm, UV-visible): %q, want nothing", tc.name, nm)
+		}
 		if tc.wantWidth == 0 {
 			if got != "" {
 				t.Errorf("%s: %q, want nothing", tc.name, got)
