@@ -52,7 +52,7 @@ type VapourCheck struct {
 	// see lines (at most 2 axis units apart); Why says why not otherwise.
 	Checked bool
 	Why     string
-	Lo, Hi  float64 // the axis range examined
+	Lo, Hi  float64 // the axis range examined (the nominal one when not checked)
 	// Ratio is the coherence ratio above (noise alone about 1) and Lines
 	// the number of lines counted in the pattern.
 	Ratio    float64
@@ -121,6 +121,8 @@ func CheckVapour(d *mat.Dense, axis []float64, blocks []int) VapourCheck {
 		v.Why = why
 		return v
 	}
+	// The range examined is the axis's part of the nominal one.
+	v.Lo, v.Hi = math.Min(axis[first], axis[last-1]), math.Max(axis[first], axis[last-1])
 	v.Checked, v.first = true, first
 	spacing := math.Abs(axis[last-1]-axis[first]) / float64(last-1-first)
 	v.half = max(2, int(math.Round(vapourWidth/2/spacing)))
@@ -194,6 +196,11 @@ func vapourWindow(axis []float64, lo, hi float64) (first, last int, why string) 
 	if first < 0 || last-first < 2 {
 		return 0, 0, fmt.Sprintf("the axis does not cover %g–%g", lo, hi)
 	}
+	// The line counts needed are for the whole range: most of it must be
+	// there.
+	if a, b := axis[first], axis[last-1]; math.Abs(b-a) < 0.75*(hi-lo) {
+		return 0, 0, fmt.Sprintf("the axis covers only %.4g–%.4g of %g–%g", math.Min(a, b), math.Max(a, b), lo, hi)
+	}
 	step := (axis[last-1] - axis[first]) / float64(last-1-first)
 	if math.Abs(step) > 2 {
 		return 0, 0, fmt.Sprintf("axis values %.3g apart: too coarse to see lines", math.Abs(step))
@@ -242,6 +249,9 @@ func vapourRows(d *mat.Dense, first, last, half int, bounds [][2]int) (rows, del
 		// Runs of size spectra, as many as fit: at most size−1 of the
 		// experiment's last spectra are left out.
 		size := (ne + vapourBinsOf(ne, n) - 1) / vapourBinsOf(ne, n)
+		if ne/size < 2 { // a small experiment in a large stack: keep two rows
+			size = ne / 2
+		}
 		bins := ne / size
 		used++
 		start := len(rows)

@@ -224,7 +224,7 @@ func TestVapourInTheBendingRange(t *testing.T) {
 	} {
 		d, axis := readUrethaneFolder(t, tc.folder)
 		v := CheckVapour(d, axis, nil)
-		if !v.Checked || v.Lo != 1350 || v.Detected != tc.want || math.Abs(v.Ratio-tc.ratio) > 1e-4 || v.Lines != tc.lines {
+		if !v.Checked || v.Lo < 1350 || v.Lo > 1352 || v.Detected != tc.want || math.Abs(v.Ratio-tc.ratio) > 1e-4 || v.Lines != tc.lines {
 			t.Errorf("%s: checked %v at %g–%g (%s), detected %v, ratio %.6g, %d lines; numpy %.4f, %d", tc.folder, v.Checked, v.Lo, v.Hi, v.Why, v.Detected, v.Ratio, v.Lines, tc.ratio, tc.lines)
 		}
 	}
@@ -290,7 +290,7 @@ func TestVapourNotInNoiseOrBands(t *testing.T) {
 func TestVapourNotInSharpBands(t *testing.T) {
 	for _, height := range []float64{0.4, 1} {
 		v := sharpBandsCheck(height)
-		if !v.Checked || v.Lo != 1350 || v.Detected || v.Lines >= 40 {
+		if !v.Checked || v.Lo < 1350 || v.Lo > 1352 || v.Detected || v.Lines >= 40 {
 			t.Errorf("bands of %g: checked %v at %g–%g (%s), detected %v, ratio %.3g, %d lines", height, v.Checked, v.Lo, v.Hi, v.Why, v.Detected, v.Ratio, v.Lines)
 		}
 	}
@@ -337,6 +337,7 @@ func TestVapourNotChecked(t *testing.T) {
 	}{
 		{"UV-visible in nm", 200, 1, 600, "does not cover"},
 		{"coarse", 400, 4, 900, "too coarse"},
+		{"a part of the range only (--region 3800:4000)", 3800, 0.5, 400, "covers only 3800–3950 of 3550–3950"},
 	} {
 		axis := make([]float64, tc.m)
 		for j := range axis {

@@ -216,7 +216,6 @@ type EFAEntry struct {
 	DisappearS *float64 `json:"disappear_s"`
 }
 
-// OutlierJSON is one spectrum set aside.
 // VapourJSON is the water-vapour check (docs/measurement.md, "Water
 // vapour"): whether the axis was checked (why not), the coherence ratio
 // (noise alone about 1) and lines counted, whether a change was detected,
@@ -258,6 +257,7 @@ type VapourCarrierJSON struct {
 	LineHeight float64 `json:"line_height"`
 }
 
+// OutlierJSON is one spectrum set aside.
 type OutlierJSON struct {
 	Time       float64 `json:"time_s"`
 	Experiment string  `json:"experiment"`

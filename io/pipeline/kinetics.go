@@ -497,22 +497,32 @@ func profileFitWarnings(f *KineticFit, hardModel, dataFit bool) []string {
 // then do not follow the model the way the data do (rotational ambiguity,
 // or profiles that do not start where the model does), and the profile
 // fit is no second measurement of the same constants.
-func fitsDisagree(sch *kinetics.Scheme, p, d *kinetics.FitResult) []string {
+//
+// fixed says which steps --k-fixed holds (nil: none); a fit without the
+// degrees of freedom for errors reports them as 0 or NaN, and then only the
+// factor counts.
+func fitsDisagree(sch *kinetics.Scheme, p, d *kinetics.FitResult, fixed []bool) []string {
 	var parts []string
 	for j := range min(len(p.K), len(d.K)) {
-		if !(p.K[j] > 0 && d.K[j] > 0) || (p.KStdErr[j] == 0 && d.KStdErr[j] == 0) {
-			continue // fixed in both, or not a rate
+		if (j < len(fixed) && fixed[j]) || !(p.K[j] > 0 && d.K[j] > 0) {
+			continue // held fixed, or not a rate
 		}
 		se := math.Hypot(p.KStdErr[j], d.KStdErr[j])
+		known := se > 0 && !math.IsNaN(se) && !math.IsInf(se, 0)
 		ratio := math.Max(p.K[j]/d.K[j], d.K[j]/p.K[j])
-		if (math.Abs(p.K[j]-d.K[j]) <= 3*se || ratio <= 1.25) && ratio <= 10 {
+		apart := known && math.Abs(p.K[j]-d.K[j]) > 3*se && ratio > 1.25
+		if !apart && ratio <= 10 {
 			continue
 		}
 		name := fmt.Sprintf("k%d", j+1)
 		if j < len(sch.Steps) {
 			name = fmt.Sprintf("k%d (%s)", j+1, sch.Steps[j].Text)
 		}
-		parts = append(parts, fmt.Sprintf("%s %.4g against %.4g, a factor %.3g and %.3g combined standard errors apart", name, p.K[j], d.K[j], ratio, math.Abs(p.K[j]-d.K[j])/se))
+		gap := "their standard errors unknown"
+		if known {
+			gap = fmt.Sprintf("%.3g combined standard errors apart", math.Abs(p.K[j]-d.K[j])/se)
+		}
+		parts = append(parts, fmt.Sprintf("%s %.4g against %.4g, a factor %.3g and %s", name, p.K[j], d.K[j], ratio, gap))
 	}
 	if len(parts) == 0 {
 		return nil
@@ -1112,7 +1122,7 @@ func fitKinetics(r *Result, log io.Writer) error {
 		if f.Observed != nil {
 			f.Fit.Warnings = append(f.Fit.Warnings, profileFitWarnings(f, s.HardModel, dataFit)...)
 			if dataFit {
-				f.Fit.Warnings = append(f.Fit.Warnings, fitsDisagree(kn.Scheme, f.Fit, kn.Fits[len(kn.Fits)-1].Fit)...)
+				f.Fit.Warnings = append(f.Fit.Warnings, fitsDisagree(kn.Scheme, f.Fit, kn.Fits[len(kn.Fits)-1].Fit, kn.KFixed)...)
 			}
 		}
 	}

@@ -607,16 +607,19 @@ func TestFitsDisagree(t *testing.T) {
 	for _, tc := range []struct {
 		name   string
 		p, d   *kinetics.FitResult
+		fixed  []bool
 		says   string // "" for no warning
 		absent string
 	}{
-		{"consistent", fit([]float64{1.02, 0.5}, []float64{0.01, 0.01}), fit([]float64{1, 0.5}, []float64{0.005, 0.005}), "", ""},
-		{"apart but within 25 %", fit([]float64{1.2, 0.5}, []float64{0.001, 0.01}), fit([]float64{1, 0.5}, []float64{0.001, 0.005}), "", ""},
-		{"beyond 3 errors", fit([]float64{1.4, 0.5}, []float64{0.1, 0.01}), fit([]float64{1, 0.5}, []float64{0.001, 0.005}), "k1 (A -> B) 1.4 against 1, a factor 1.4 and 4 combined", "k2"},
-		{"a factor above 10, errors huge", fit([]float64{1, 0.5}, []float64{5, 0.01}), fit([]float64{0.05, 0.5}, []float64{0.001, 0.005}), "a factor 20", "k2"},
-		{"fixed in both", fit([]float64{1, 9}, []float64{0.01, 0}), fit([]float64{1, 0.5}, []float64{0.005, 0}), "", ""},
+		{"consistent", fit([]float64{1.02, 0.5}, []float64{0.01, 0.01}), fit([]float64{1, 0.5}, []float64{0.005, 0.005}), nil, "", ""},
+		{"apart but within 25 %", fit([]float64{1.2, 0.5}, []float64{0.001, 0.01}), fit([]float64{1, 0.5}, []float64{0.001, 0.005}), nil, "", ""},
+		{"beyond 3 errors", fit([]float64{1.4, 0.5}, []float64{0.1, 0.01}), fit([]float64{1, 0.5}, []float64{0.001, 0.005}), nil, "k1 (A -> B) 1.4 against 1, a factor 1.4 and 4 combined", "k2"},
+		{"a factor above 10, errors huge", fit([]float64{1, 0.5}, []float64{5, 0.01}), fit([]float64{0.05, 0.5}, []float64{0.001, 0.005}), nil, "a factor 20", "k2"},
+		{"held fixed", fit([]float64{1, 9}, []float64{0.01, 0}), fit([]float64{1, 0.5}, []float64{0.005, 0}), []bool{false, true}, "", ""},
+		{"errors unknown, a factor above 10", fit([]float64{1, 0.5}, []float64{0, math.NaN()}), fit([]float64{0.05, 0.5}, []float64{0, math.NaN()}), nil, "a factor 20 and their standard errors unknown", "NaN"},
+		{"errors unknown, close", fit([]float64{1.5, 0.5}, []float64{0, 0}), fit([]float64{1, 0.5}, []float64{0, 0}), nil, "", ""},
 	} {
-		w := strings.Join(fitsDisagree(sch, tc.p, tc.d), "\n")
+		w := strings.Join(fitsDisagree(sch, tc.p, tc.d, tc.fixed), "\n")
 		if (tc.says == "") != (w == "") || !strings.Contains(w, tc.says) || (tc.absent != "" && strings.Contains(w, tc.absent)) {
 			t.Errorf("%s: %q; want %q without %q", tc.name, w, tc.says, tc.absent)
 		}

@@ -144,8 +144,11 @@ type Result struct {
 	// without.
 	LineSpectra [][]float64
 	LineAmounts *mat.Dense
-	// vapourStack is what the vapour's course accounts for in a stack
-	// (measureVapourStack), nil when not measured.
+	// vapourLists are the stack's singular values with and without the
+	// vapour's course, measured after the factor analysis, and vapourStack
+	// what they say at the final count (reportVapour); nil when not
+	// measured.
+	vapourLists *vapourLists
 	vapourStack *vapourStack
 	// earlyFit is the first data fit of hard–soft, begun beside the soft
 	// resolution (earlyDataFit); nil outside resolve.
@@ -217,6 +220,7 @@ func run(s *Settings, log io.Writer, hashInputs bool) (_ *Result, err error) {
 	startEFA(r, askedComponents(s, r.Rank.Estimate))
 	defer r.earlyEFA.get() // no goroutine outlives the run
 	fa.rankFindings()
+	r.vapourLists = measureVapourLists(r) // before the resolution changes D
 	n, m := r.D.Dims()
 	defer collectAfterFactorAnalysis(n, m).get()
 	r.ahead.aheadData(r)
@@ -227,13 +231,13 @@ func run(s *Settings, log io.Writer, hashInputs bool) (_ *Result, err error) {
 	if r.Components == 0 {
 		r.LackOfFit, r.Explained = 0, 100
 		nuisanceAdvice(r)
-		vapourWarning(r)
+		reportVapour(r)
 		return r, nil
 	}
 	if err := resolveAndFit(r, log); err != nil {
 		return nil, err
 	}
-	vapourWarning(r)
+	reportVapour(r)
 	return r, nil
 }
 
@@ -273,6 +277,9 @@ func planReading(s *Settings) (readingPlan, error) {
 	}
 	if s.Blank != "" {
 		folder.Exclude = append(folder.Exclude, s.Path(s.Blank))
+	}
+	for _, f := range s.Vapour {
+		folder.Exclude = append(folder.Exclude, s.Path(f))
 	}
 	refMean, refFile, err := spectra.ParseReference(s.Reference)
 	if err != nil {
@@ -1163,9 +1170,9 @@ func componentOrder(r *Result, res *mcr.Result) []int {
 }
 
 // noiseOverestimated warns when the fit leaves less than 0.8 of the noise
-// level it is measured against: a resolution with k components of an
-// n × m matrix leaves about √(1 − k(n+m−k)/(nm)) of it, near 1, so the
-// noise is overestimated, and with it the rank's noise floor (a component
+// level it is measured against: residualToNoise already divides the
+// residual by the degrees of freedom the k components leave, so a fit to
+// the noise gives about 1, and well below it the noise is overestimated, and with it the rank's noise floor (a component
 // can hide under it) and the standard errors. When the level came from the
 // spectra --pre counts as before the reaction, the likely cause is named:
 // the step check beside it cannot see it then, since the weights it

@@ -33,19 +33,34 @@ func amountRange(r *Result, q int) (lo, hi float64) {
 	return slices.Min(col), slices.Max(col)
 }
 
-// vapourWarning says, once the spectra are resolved, that the vapour
-// changed, by how much, and which resolved spectra carry its lines.
-func vapourWarning(r *Result) {
+// reportVapour adds, once the spectra are resolved, the warning that the
+// vapour changed (vapourWarning) and, in a stack whose last counted
+// component was measured to be the vapour's change, the advice correcting
+// the count (vapourCountAdvice), from the measurement made after the
+// factor analysis (r.vapourLists).
+func reportVapour(r *Result) {
 	v := r.Vapour
 	if v == nil || !v.Detected {
 		return
 	}
+	m := decideVapourStack(r)
+	r.vapourStack = m
+	r.Warnings = append(r.Warnings, vapourWarning(r, m))
+	if m != nil && m.counted {
+		r.Advice = insertAfterRankAdvice(r.Advice, vapourCountAdvice(m, r.Components))
+	}
+}
+
+// vapourWarning says that the vapour changed, by how much, which resolved
+// spectra carry its lines and, in a stack, what it accounts for (m).
+func vapourWarning(r *Result, m *vapourStack) string {
+	v := r.Vapour
 	var b strings.Builder
 	after := ""
 	if len(r.LineSpectra) > 0 {
 		after = " (after the --vapour spectra were subtracted)"
 	}
-	fmt.Fprintf(&b, "water vapour%s: %d narrow lines at %g–%g cm⁻¹ change together during the run (%.3g× what noise gives), the water-vapour lines of the beam path; the largest, at %.5g cm⁻¹, changes by %s",
+	fmt.Fprintf(&b, "water vapour%s: %d narrow lines at %.4g–%.4g cm⁻¹ change together during the run (%.3g× what noise gives), the water-vapour lines of the beam path; the largest, at %.5g cm⁻¹, changes by %s (its height less the smooth under it)",
 		after, v.Lines, v.Lo, v.Hi, v.Ratio, v.LargestAt, vapourChanges(r))
 	b.WriteString(": the humidity of the air or purge in the beam changed. ")
 	if v.Lo > 2000 {
@@ -59,49 +74,66 @@ func vapourWarning(r *Result) {
 		b.WriteString("; " + carriers)
 	}
 	if len(r.Experiments) > 1 {
-		r.vapourStack = measureVapourStack(r)
-		b.WriteString("; " + vapourStackText(r.vapourStack))
-		if m := r.vapourStack; m != nil && m.counted {
-			r.Advice = insertAfterRankAdvice(r.Advice, vapourCountAdvice(m, r.Components))
-		}
+		b.WriteString("; " + vapourStackText(m, r.Components))
 	}
 	b.WriteString(". Purge the spectrometer longer before starting, or give a water-vapour spectrum recorded at the same resolution to --vapour FILE, which subtracts it from every spectrum; vapour.csv gives the lines' height in every spectrum")
-	r.Warnings = append(r.Warnings, b.String())
+	return b.String()
 }
 
-// vapourStack is what the vapour's course accounts for in a stack
-// (vapourInStack, vapourInStackDifferences): the count k and the stack's
-// singular values before and after, and the same for the differences'
-// count kd where it was measured; counted and countedDiff say the k-th
-// (kd-th) value falls below 1.5 times the next one's before, so that
-// component is the vapour's change.
+// vapourLists are the singular values of a stack as its count saw them,
+// before and after the vapour's course is projected out of the rows
+// (vapourInStack), and the same for the differences' count
+// (vapourInStackDifferences; nil when not measured). measureVapourLists
+// makes them right after the factor analysis, on the matrix the count
+// read, before the resolution changes it (baseline fitted, spectra set
+// aside replaced).
+type vapourLists struct {
+	before, after, dBefore, dAfter []float64
+}
+
+// measureVapourLists measures r's stack (nil when it cannot be measured:
+// one experiment, no change detected, reactions mode, or too large).
+func measureVapourLists(r *Result) *vapourLists {
+	before, after, ok := vapourInStack(r)
+	if !ok {
+		return nil
+	}
+	l := &vapourLists{before: before, after: after}
+	l.dBefore, l.dAfter, _ = vapourInStackDifferences(r)
+	return l
+}
+
+// vapourStack is what the vapour's course accounts for in a stack, for
+// the final count k (and kd of the differences): counted (countedDiff)
+// says the k-th (kd-th) value falls below 1.5 times the next one's before,
+// so that component is the vapour's change.
 type vapourStack struct {
 	k, kd                          int
 	before, after, dBefore, dAfter []float64
 	counted, countedDiff           bool
 }
 
-// measureVapourStack measures r's stack (nil when it cannot be measured).
-func measureVapourStack(r *Result) *vapourStack {
-	before, after, ok := vapourInStack(r)
-	k := r.Rank.Estimate
-	if !ok || k < 1 || len(before) <= k || len(after) <= k {
+// decideVapourStack reads r.vapourLists at the final counts (nil when not
+// measured).
+func decideVapourStack(r *Result) *vapourStack {
+	l, k := r.vapourLists, r.Rank.Estimate
+	if l == nil || k < 1 || len(l.before) <= k || len(l.after) <= k {
 		return nil
 	}
-	m := &vapourStack{k: k, before: before, after: after, counted: after[k-1] < 1.5*before[k]}
-	if !m.counted || r.DiffRank == nil || r.DiffRank.Estimate < 1 {
+	m := &vapourStack{k: k, before: l.before, after: l.after, counted: l.after[k-1] < 1.5*l.before[k]}
+	if !m.counted || r.DiffRank == nil {
 		return m
 	}
-	kd := r.DiffRank.Estimate
-	if db, da, ok := vapourInStackDifferences(r); ok && len(db) > kd && len(da) > kd {
-		m.kd, m.dBefore, m.dAfter, m.countedDiff = kd, db, da, da[kd-1] < 1.5*db[kd]
+	if kd := r.DiffRank.Estimate; kd >= 1 && len(l.dBefore) > kd && len(l.dAfter) > kd {
+		m.kd, m.dBefore, m.dAfter, m.countedDiff = kd, l.dBefore, l.dAfter, l.dAfter[kd-1] < 1.5*l.dBefore[kd]
 	}
 	return m
 }
 
 // vapourStackText says what the vapour's course accounts for in a stack:
-// measured where it can be (m), else in general.
-func vapourStackText(m *vapourStack) string {
+// measured where it can be (m), else in general; components is the number
+// resolved, which --components may have set below the count.
+func vapourStackText(m *vapourStack, components int) string {
 	general := "a change that differs between experiments is one more independent change in their stack and can be counted as a component that no experiment shows alone"
 	if m == nil {
 		return general
@@ -111,7 +143,11 @@ func vapourStackText(m *vapourStack) string {
 	if !m.counted {
 		return general + "; " + drop
 	}
-	return drop + fmt.Sprintf(": the %s component counted in the stack is the vapour's change, which differs between the experiments, not chemistry (--vapour with a spectrum of it takes it out; without one, keep it as a component: --components %d leaves the change in the residual)", ordinal(k), k-1)
+	way := fmt.Sprintf("without one, keep it as a component: --components %d leaves the change in the residual", k-1)
+	if components < k {
+		way = fmt.Sprintf("with %d component(s) resolved the change is left in the residual", components)
+	}
+	return drop + fmt.Sprintf(": the %s component counted in the stack is the vapour's change, which differs between the experiments, not chemistry (--vapour with a spectrum of it takes it out; %s)", ordinal(k), way)
 }
 
 // vapourCountAdvice corrects the count's advice when the stack's k-th
@@ -373,14 +409,16 @@ func writeLineAmounts(r *Result, st *output.Stage) error {
 // with the reaction shares the chemistry's course and taking it out would
 // take chemistry too; across experiments whose vapour changed differently
 // no combination of the species' profiles follows it (closure ties them in
-// every experiment), so what the projection removes is the vapour. ok is
-// false when not measured: one experiment, no detection, or a stack whose
-// n² m product exceeds maxVapourWork.
+// every experiment), so what the projection removes is the vapour. In
+// reactions mode the extents are free and a combination of them can follow
+// it, so nothing is claimed there. ok is false when not measured: one
+// experiment, no detection, reactions mode, or a stack whose n² m product
+// exceeds maxVapourWork.
 func vapourInStack(r *Result) (before, after []float64, ok bool) {
-	if !stackMeasurable(r) {
+	if r.Mode != mcr.Species || !stackMeasurable(r) {
 		return nil, nil, false
 	}
-	return valuesWithout(countedMatrix(r.D, r.BaselineShapes, r.Weights), r.Vapour.Height, r.Weights)
+	return valuesWithout(countedMatrix(r.D, r.Axis, r.BaselineOrder, r.Weights), r.Vapour.Height, r.Weights)
 }
 
 // vapourInStackDifferences is vapourInStack for the differences the
@@ -411,7 +449,7 @@ func vapourInStackDifferences(r *Result) (before, after []float64, ok bool) {
 			h[i] -= href
 		}
 	}
-	return valuesWithout(countedMatrix(d, r.BaselineShapes, r.DiffWeights), h, r.DiffWeights)
+	return valuesWithout(countedMatrix(d, r.Axis, r.BaselineOrder, r.DiffWeights), h, r.DiffWeights)
 }
 
 // stackMeasurable says vapourInStack can measure r: several experiments,
@@ -463,25 +501,16 @@ func valuesWithout(rows *mat.Dense, course []float64, w *spectra.Weights) (befor
 // 0.1 s).
 const maxVapourWork = 2e8
 
-// countedMatrix is d as the count sees it: less the baseline polynomials
-// shapes (nil: none), rows and columns scaled by the square roots of the
-// noise weights w (nil: unweighted).
-func countedMatrix(src *mat.Dense, shapes *mat.Dense, w *spectra.Weights) *mat.Dense {
+// countedMatrix is src as the count reads it: rows and columns scaled by
+// the square roots of the noise weights w (nil: unweighted), then the
+// baseline polynomials up to order (−1: none) projected out in that
+// metric (svd.PolyBasis, as chemicalRank does).
+func countedMatrix(src *mat.Dense, axis []float64, order int, w *spectra.Weights) *mat.Dense {
 	d := mat.DenseCopyOf(src)
-	n, m := d.Dims()
-	if shapes != nil {
-		var qr mat.QR
-		qr.Factorize(shapes)
-		_, b := shapes.Dims()
-		var q mat.Dense
-		qr.QTo(&q)
-		qb := q.Slice(0, m, 0, b)
-		var dq, back mat.Dense
-		dq.Mul(d, qb)
-		back.Mul(&dq, qb.T())
-		d.Sub(d, &back)
-	}
+	n, _ := d.Dims()
+	var col []float64
 	if w != nil {
+		col = w.Col
 		for i := 0; i < n; i++ {
 			row := d.RawRowView(i)
 			a := math.Sqrt(w.Row[i])
@@ -490,6 +519,17 @@ func countedMatrix(src *mat.Dense, shapes *mat.Dense, w *spectra.Weights) *mat.D
 			}
 		}
 	}
+	if order < 0 {
+		return d
+	}
+	q := svd.PolyBasis(axis, order, col)
+	if q == nil {
+		return d
+	}
+	var dq, back mat.Dense
+	dq.Mul(d, q)
+	back.Mul(&dq, q.T())
+	d.Sub(d, &back)
 	return d
 }
 

@@ -418,8 +418,6 @@ func factorAccount(s *Summary) string {
 	return fmt.Sprintf("of the %d factors above the noise, %d are chemistry, %s not chemistry (see the advice) and the other %d are noise correlated along the axis (see the notes)", above, s.RankEstimate, named, noise)
 }
 
-// findings says in words what was found and how sure it is; checks are
-// the warnings the report itself derives from the files.
 // vapourCountFinding says which counted component of a stack the
 // water-vapour check measured to be the vapour's change, and what the
 // chemistry then has.
@@ -431,6 +429,8 @@ func vapourCountFinding(v *output.VapourJSON) string {
 	return w + "."
 }
 
+// findings says in words what was found and how sure it is; checks are
+// the warnings the report itself derives from the files.
 func findings(f *Folder) (find, checks []string) {
 	s := f.Summary
 	find = append(find, resolvedFinding(f))
