@@ -2,6 +2,7 @@ package main
 
 import (
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"regexp"
@@ -234,6 +235,22 @@ func exampleInputs(t *testing.T, dir string) {
 		times += name + "," + rows[0][j] + "\n"
 	}
 	writeText(t, filepath.Join(dir, "times.csv"), times)
+	// A vapour spectrum for --vapour: invented narrow lines on the demo's
+	// axis (5 cm⁻¹ wide at half height), a stand-in, not water's.
+	var vap strings.Builder
+	for _, r := range rows[1:] {
+		x, err := strconv.ParseFloat(r[0], 64)
+		if err != nil {
+			t.Fatal(err)
+		}
+		v := 0.0
+		for l := 0; l < 30; l++ {
+			c := 1400 + 13.7*float64(l)
+			v += 0.01 * float64(1+l%3) * math.Exp(-4*math.Ln2*(x-c)*(x-c)/25)
+		}
+		vap.WriteString(r[0] + "," + strconv.FormatFloat(v, 'g', 8, 64) + "\n")
+	}
+	writeText(t, filepath.Join(dir, "vapour.csv"), vap.String())
 	for i := 0; i < 4; i++ {
 		writeText(t, filepath.Join(dir, "runs", fmt.Sprintf("r%d.bsr", i)),
 			"paths-from ..\ndata small.csv\nblank blank.csv\nkind single-beam\npre 2\nreport off\nuniqueness off\nchecks off\ncomponents "+strconv.Itoa(2+i%2)+"\n")

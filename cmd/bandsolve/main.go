@@ -131,6 +131,11 @@ Example: a folder of one-spectrum exports named by their time in minutes:
 
   bandsolve resolve --data scans/ --times-from-name --time-unit min --out results/
 
+Example: the same exports, whose water-vapour lines changed during the run (the run warns),
+with a vapour spectrum recorded at the same resolution subtracted from every spectrum:
+
+  bandsolve resolve --data scans/ --times-from-name --vapour vapour.csv --out results/
+
 Flags:
 `
 
