@@ -134,7 +134,8 @@ Example: a folder of one-spectrum exports named by their time in minutes:
 Example: the same exports, whose water-vapour lines changed during the run (the run warns),
 with a vapour spectrum recorded at the same resolution subtracted from every spectrum:
 
-  bandsolve resolve --data scans/ --times-from-name --vapour vapour.csv --out results/
+  bandsolve resolve --data scans/ --times-from-name --time-unit min --vapour vapour.csv \
+      --out results/
 
 Flags:
 `
