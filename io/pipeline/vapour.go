@@ -60,7 +60,7 @@ func vapourWarning(r *Result, m *vapourStack) string {
 	if len(r.LineSpectra) > 0 {
 		after = " (after the --vapour spectra were subtracted)"
 	}
-	fmt.Fprintf(&b, "water vapour%s: %d narrow lines at %.4g–%.4g cm⁻¹ change together during the run (%.3g× what noise gives), the water-vapour lines of the beam path; the largest, at %.5g cm⁻¹, changes by %s (its height less the smooth under it)",
+	fmt.Fprintf(&b, "water vapour%s: %d narrow lines at %.4g–%.4g cm⁻¹ change together during the run (%.3g× what noise gives), the water-vapour lines of the beam path; the largest, at %.5g cm⁻¹, changes by %s",
 		after, v.Lines, v.Lo, v.Hi, v.Ratio, v.LargestAt, vapourChanges(r))
 	b.WriteString(": the humidity of the air or purge in the beam changed. ")
 	if v.Lo > 2000 {
@@ -199,14 +199,15 @@ func ordinal(k int) string {
 // there are several.
 func vapourChanges(r *Result) string {
 	v := r.Vapour
+	const height = "its height less the smooth under it"
 	if len(v.Change) == 1 {
-		return fmt.Sprintf("%.2g absorbance", v.Change[0])
+		return fmt.Sprintf("%.2g absorbance (%s)", v.Change[0], height)
 	}
 	parts := make([]string, len(v.Change))
 	for e, c := range v.Change {
 		parts[e] = fmt.Sprintf("%.2g in experiment %d", c, e+1)
 	}
-	return strings.Join(parts, ", ") + " (absorbance)"
+	return strings.Join(parts, ", ") + " (absorbance; " + height + ")"
 }
 
 // vapourCarriers names the resolved spectra that hold the lines beyond
