@@ -639,11 +639,8 @@ func (c *factorClassifier) minorInEveryBlock(j int) ([]float64, bool) {
 		return nil, false
 	}
 	shares := make([]float64, len(own))
-	for e, first := range c.opt.Blocks {
-		last := n
-		if e+1 < len(c.opt.Blocks) {
-			last = c.opt.Blocks[e+1]
-		}
+	for e, b := range experimentBounds(c.opt.Blocks, n) {
+		first, last := b[0], b[1]
 		energy := 0.0
 		for i := first; i < last; i++ {
 			u := c.f.U.At(i, j)
@@ -674,11 +671,8 @@ func (c *factorClassifier) blockOwn() []float64 {
 		ref = 1
 	}
 	own := make([]float64, len(c.opt.Blocks))
-	for e, first := range c.opt.Blocks {
-		last := n
-		if e+1 < len(c.opt.Blocks) {
-			last = c.opt.Blocks[e+1]
-		}
+	for e, bd := range experimentBounds(c.opt.Blocks, n) {
+		first, last := bd[0], bd[1]
 		if first < 0 || last > n || last-first <= ref {
 			return nil
 		}

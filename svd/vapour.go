@@ -216,7 +216,8 @@ func vapourWindow(axis []float64, lo, hi float64) (first, last int, why string) 
 	return first, last, ""
 }
 
-// experimentBounds turns first rows into [start, end) pairs.
+// experimentBounds turns first rows into [start, end) pairs (nil: one
+// experiment of all n rows).
 func experimentBounds(blocks []int, n int) [][2]int {
 	if len(blocks) == 0 {
 		return [][2]int{{0, n}}
@@ -310,31 +311,26 @@ func savitzkyGolay2(h int) []float64 {
 	return c
 }
 
-// highPass is x less its smooth by the weights c, at the points that have
-// h neighbours on each side.
+// highPass is highPassAt at every point of x that has h neighbours on
+// each side.
 func highPass(x, c []float64, h int) []float64 {
-	out := make([]float64, len(x)-2*h)
-	for j := range out {
-		s := 0.0
-		for t, w := range c {
-			s += w * x[j+t]
-		}
-		out[j] = x[j+h] - s
-	}
-	return out
+	return highPassAt(x, c, h, interior(len(x), h))
 }
 
-// highPassAdjoint is the filter f with f·x = p·highPass(x) for every x.
+// highPassAdjoint is the filter f with f·x = p·highPass(x) for every x
+// (adjointAt on the same points).
 func highPassAdjoint(p []float64, h int) []float64 {
-	c := savitzkyGolay2(h)
-	f := make([]float64, len(p)+2*h)
-	for j, pj := range p {
-		f[j+h] += pj
-		for t, w := range c {
-			f[j+t] -= pj * w
-		}
+	m := len(p) + 2*h
+	return adjointAt(p, savitzkyGolay2(h), h, interior(m, h), m)
+}
+
+// interior are the points h … m−h−1 of m.
+func interior(m, h int) []int {
+	out := make([]int, max(0, m-2*h))
+	for i := range out {
+		out[i] = i + h
 	}
-	return f
+	return out
 }
 
 // leadingSingular is the largest singular value of the matrix whose rows

@@ -145,11 +145,9 @@ type Result struct {
 	LineSpectra [][]float64
 	LineAmounts *mat.Dense
 	// vapourLists are the stack's singular values with and without the
-	// vapour's course, measured after the factor analysis, and vapourStack
-	// what they say at the final count (reportVapour); nil when not
-	// measured.
+	// vapour's course, measured after the factor analysis (nil when not
+	// measured); decideVapourStack reads them at the final count.
 	vapourLists *vapourLists
-	vapourStack *vapourStack
 	// earlyFit is the first data fit of hard–soft, begun beside the soft
 	// resolution (earlyDataFit); nil outside resolve.
 	earlyFit *earlyDataFit

@@ -44,7 +44,6 @@ func reportVapour(r *Result) {
 		return
 	}
 	m := decideVapourStack(r)
-	r.vapourStack = m
 	r.Warnings = append(r.Warnings, vapourWarning(r, m))
 	if m != nil && m.counted {
 		r.Advice = insertAfterRankAdvice(r.Advice, vapourCountAdvice(m, r.Components))
@@ -285,7 +284,7 @@ func vapourSummary(r *Result) *output.VapourJSON {
 		return j
 	}
 	j.LargestAt = round(v.LargestAt)
-	if m := r.vapourStack; m != nil && m.counted {
+	if m := decideVapourStack(r); m != nil && m.counted {
 		j.CountedComponent = m.k
 		if m.countedDiff {
 			j.CountedReaction = m.kd
@@ -523,14 +522,9 @@ func countedMatrix(src *mat.Dense, axis []float64, order int, w *spectra.Weights
 	if order < 0 {
 		return d
 	}
-	q := svd.PolyBasis(axis, order, col)
-	if q == nil {
-		return d
+	if q := svd.PolyBasis(axis, order, col); q != nil {
+		return projectOutShapes(d, q)
 	}
-	var dq, back mat.Dense
-	dq.Mul(d, q)
-	back.Mul(&dq, q.T())
-	d.Sub(d, &back)
 	return d
 }
 

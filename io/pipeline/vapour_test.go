@@ -264,7 +264,7 @@ func TestVapourNamedInAStack(t *testing.T) {
 	// The values quoted before the projection are the count's own
 	// (rank.csv): the warning's for the stack, the advice's for the
 	// differences.
-	m := r.vapourStack
+	m := decideVapourStack(r)
 	want := fmt.Sprintf("go from %.4g and %.4g to %.4g and %.4g", tableValue(t, r.Rank, 3), tableValue(t, r.Rank, 4), m.after[2], m.after[3])
 	if !strings.Contains(w, want) {
 		t.Errorf("warning %q\nwant it to say %q", w, want)
