@@ -240,10 +240,7 @@ func TestVapourInTheBendingRange(t *testing.T) {
 func TestVapourNotInNoiseOrBands(t *testing.T) {
 	rng := rand.New(rand.NewPCG(11, 12))
 	n, m := 120, 3000
-	axis := make([]float64, m)
-	for j := range axis {
-		axis[j] = 4000 - float64(j)*0.5
-	}
+	axis := evenAxis(4000, -0.5, m)
 	band := func(x, c, fwhm float64) float64 { return math.Exp(-4 * math.Ln2 * math.Pow((x-c)/fwhm, 2)) }
 	d := mat.NewDense(n, m, nil)
 	raw := make([]float64, m)
@@ -301,10 +298,7 @@ func TestVapourNotInSharpBands(t *testing.T) {
 func sharpBandsCheck(height float64) VapourCheck {
 	rng := rand.New(rand.NewPCG(31, 32))
 	n, m := 80, 2000
-	axis := make([]float64, m)
-	for j := range axis {
-		axis[j] = 2000 - 0.5*float64(j)
-	}
+	axis := evenAxis(2000, -0.5, m)
 	centres := []float64{1385, 1452, 1508, 1597, 1612, 1714, 1735, 1762}
 	d := mat.NewDense(n, m, nil)
 	for i := 0; i < n; i++ {
@@ -339,10 +333,7 @@ func TestVapourNotChecked(t *testing.T) {
 		{"coarse", 400, 4, 900, "too coarse"},
 		{"a part of the range only (--region 3800:4000)", 3800, 0.5, 400, "covers only 3800–3950 of 3550–3950"},
 	} {
-		axis := make([]float64, tc.m)
-		for j := range axis {
-			axis[j] = tc.lo + float64(j)*tc.step
-		}
+		axis := evenAxis(tc.lo, tc.step, tc.m)
 		v := CheckVapour(mat.NewDense(5, tc.m, nil), axis, nil)
 		if v.Checked || !strings.Contains(v.Why, tc.wantReason) {
 			t.Errorf("%s: checked %v, why %q", tc.name, v.Checked, v.Why)
@@ -362,10 +353,7 @@ func BenchmarkCheckVapour2000x3001(b *testing.B) {
 			row[j] = 1e-3 * rng.NormFloat64()
 		}
 	}
-	axis := make([]float64, m)
-	for j := range axis {
-		axis[j] = 4000 - float64(j)
-	}
+	axis := evenAxis(4000, -1, m)
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
 		CheckVapour(d, axis, nil)
@@ -401,10 +389,7 @@ func lineForest(axis []float64, rng *rand.Rand, lines int, lo, hi, top float64) 
 func TestLineAmountsAnalytic(t *testing.T) {
 	rng := rand.New(rand.NewPCG(21, 22))
 	n, m := 60, 6000
-	axis := make([]float64, m)
-	for j := range axis {
-		axis[j] = 4000 - 0.5*float64(j)
-	}
+	axis := evenAxis(4000, -0.5, m)
 	v := lineForest(axis, rng, 120, 1300, 2000, 0.05)
 	stretch := lineForest(axis, rng, 120, 3450, 3990, 0.04)
 	for j := range v {
@@ -464,10 +449,7 @@ func TestLineAmountsAnalytic(t *testing.T) {
 // TestLineAmountsRefused: a reference without lines, two alike, and an axis
 // too coarse are refused with the reason.
 func TestLineAmountsRefused(t *testing.T) {
-	axis := make([]float64, 800)
-	for j := range axis {
-		axis[j] = 4000 - float64(j)
-	}
+	axis := evenAxis(4000, -1, 800)
 	d := mat.NewDense(3, len(axis), nil)
 	smooth := make([]float64, len(axis))
 	for j, x := range axis {
@@ -549,10 +531,7 @@ func averageNeighbours(d *mat.Dense, axis []float64, k int) (*mat.Dense, []float
 // or a non-finite figure: one spectrum, experiments of one spectrum each,
 // all zeros, an axis shorter than the matrix.
 func TestVapourDegenerate(t *testing.T) {
-	axis := make([]float64, 900)
-	for j := range axis {
-		axis[j] = 4000 - 0.5*float64(j)
-	}
+	axis := evenAxis(4000, -0.5, 900)
 	for _, tc := range []struct {
 		name    string
 		d       *mat.Dense
@@ -570,4 +549,13 @@ func TestVapourDegenerate(t *testing.T) {
 			t.Errorf("%s: checked %v (%q), detected %v, ratio %g", tc.name, v.Checked, v.Why, v.Detected, v.Ratio)
 		}
 	}
+}
+
+// evenAxis is m axis values from start, step apart.
+func evenAxis(start, step float64, m int) []float64 {
+	axis := make([]float64, m)
+	for j := range axis {
+		axis[j] = start + step*float64(j)
+	}
+	return axis
 }

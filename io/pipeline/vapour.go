@@ -216,21 +216,39 @@ func vapourCarriers(r *Result) string {
 	if r.ALS == nil || r.ALS.S == nil {
 		return ""
 	}
-	var names, sizes []string
-	none := true
-	for k, name := range r.Names {
-		h, z, big := vapourIn(r, k)
-		if z < svd.VapourSignificant {
-			continue
-		}
-		none = false
-		names = append(names, name)
-		sizes = append(sizes, fmt.Sprintf("%.2g (%.2g %% of its largest value)", math.Abs(h), 100*math.Abs(h)/big))
-	}
-	if none {
+	holders := vapourHolders(r)
+	if len(holders) == 0 {
 		return "no resolved spectrum holds them beyond its noise"
 	}
+	names, sizes := make([]string, len(holders)), make([]string, len(holders))
+	for i, c := range holders {
+		names[i] = c.name
+		sizes[i] = fmt.Sprintf("%.2g (%.2g %% of its largest value)", math.Abs(c.height), 100*math.Abs(c.height)/c.largest)
+	}
 	return fmt.Sprintf("the resolved %s %s them, their largest line %s", joinNames(names), holds(len(names)), strings.Join(sizes, ", "))
+}
+
+// vapourHolder is a resolved spectrum that holds the vapour's lines beyond
+// its noise (z ≥ svd.VapourSignificant): the height of the largest line in
+// it, and its own largest absolute value.
+type vapourHolder struct {
+	name            string
+	height, largest float64
+}
+
+// vapourHolders are the resolved spectra holding the lines, in component
+// order (none without a resolution).
+func vapourHolders(r *Result) []vapourHolder {
+	if r.ALS == nil || r.ALS.S == nil {
+		return nil
+	}
+	var out []vapourHolder
+	for k, name := range r.Names {
+		if h, z, big := vapourIn(r, k); z >= svd.VapourSignificant {
+			out = append(out, vapourHolder{name, h, big})
+		}
+	}
+	return out
 }
 
 // vapourIn measures the lines in resolved spectrum k: their height, its z
@@ -293,13 +311,8 @@ func vapourSummary(r *Result) *output.VapourJSON {
 	for _, c := range v.Change {
 		j.Change = append(j.Change, round(c))
 	}
-	if r.ALS != nil && r.ALS.S != nil {
-		for k, name := range r.Names {
-			h, z, _ := vapourIn(r, k)
-			if z >= svd.VapourSignificant {
-				j.Carriers = append(j.Carriers, output.VapourCarrierJSON{Component: name, LineHeight: round(h)})
-			}
-		}
+	for _, c := range vapourHolders(r) {
+		j.Carriers = append(j.Carriers, output.VapourCarrierJSON{Component: c.name, LineHeight: round(c.height)})
 	}
 	return j
 }
