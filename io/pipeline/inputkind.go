@@ -27,10 +27,17 @@ import (
 //
 // Counts or volts beyond −1…5 are never taken for absorbance (above A ≈ 3
 // almost no light is left; common practice).
-func absorbanceLook(ser *spectra.Series) string {
+//
+// sure is true when two signs agree: values at or below zero and a first
+// spectrum lying near zero. Either alone can come from single beams (an
+// opaque range leaves counts at zero in noise; an axis reaching past the
+// source's range leaves most of it dark), both together not from a
+// throughput curve, so the caller refuses to guess rather than resolve
+// absorbance as if it were light.
+func absorbanceLook(ser *spectra.Series) (why string, sure bool) {
 	n, m := ser.Values.Dims()
 	if n == 0 || m == 0 {
-		return ""
+		return "", false
 	}
 	lo, hi, nonPositive := math.Inf(1), math.Inf(-1), 0
 	for i := 0; i < n; i++ {
@@ -45,14 +52,20 @@ func absorbanceLook(ser *spectra.Series) string {
 		}
 	}
 	if !(lo >= -1 && hi <= 5 && lo < 1) {
-		return ""
-	}
-	if nonPositive > 0 {
-		return fmt.Sprintf("%d of their values are zero or negative (%.3g at the lowest), which an intensity cannot be, and all lie between %.3g and %.3g", nonPositive, lo, lo, hi)
+		return "", false
 	}
 	first := ser.Values.RawRowView(0)[:m]
-	if med, top := middle(first), maxOf(first); med < 0.1*top {
-		return fmt.Sprintf("the first spectrum lies near zero (median %.3g, maximum %.3g) with bands rising from it, where a single beam is a throughput curve well above zero over most of the axis", med, top)
+	med, top := middle(first), maxOf(first)
+	nearZero := med <= 0 || med < 0.1*top
+	if nonPositive > 0 {
+		why = fmt.Sprintf("%d of their values are zero or negative (%.3g at the lowest), which an intensity cannot be, and all lie between %.3g and %.3g", nonPositive, lo, lo, hi)
+		if nearZero {
+			why += fmt.Sprintf(", and the first spectrum lies near zero (median %.3g, largest %.3g)", med, top)
+		}
+		return why, nearZero
+	}
+	if nearZero {
+		return fmt.Sprintf("the first spectrum lies near zero (median %.3g, maximum %.3g) with bands rising from it, where a single beam is a throughput curve well above zero over most of the axis", med, top), false
 	}
 	if n > 1 {
 		last := ser.Values.RawRowView(n - 1)[:m]
@@ -61,10 +74,10 @@ func absorbanceLook(ser *spectra.Series) string {
 			logs[j] = math.Abs(math.Log10(last[j] / first[j]))
 		}
 		if f := middle(logs); f > 0.3 {
-			return fmt.Sprintf("the last spectrum differs from the first by a factor of %.3g at the median point, where single beams differ only by the light the reaction absorbs", math.Pow(10, f))
+			return fmt.Sprintf("the last spectrum differs from the first by a factor of %.3g at the median point, where single beams differ only by the light the reaction absorbs", math.Pow(10, f)), false
 		}
 	}
-	return ""
+	return "", false
 }
 
 // beamsAbove is the median value above which spectra given as absorbance

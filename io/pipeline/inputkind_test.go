@@ -72,24 +72,47 @@ func TestAbsorbanceLook(t *testing.T) {
 		}
 	}
 	counts, _ := uvSeries(2e4, 20)
+	// Single beams with an opaque range (a solvent band that leaves no
+	// light): zero in noise there, negative half the time, yet a
+	// throughput curve everywhere else.
+	opaque, _ := uvSeries(1, 1e-3)
+	rng := rand.New(rand.NewPCG(3, 9))
+	for i := 0; i < n; i++ {
+		for j := 40; j < 60; j++ {
+			opaque.Values.Set(i, j, 1e-3*rng.NormFloat64())
+		}
+	}
+	// Difference spectra against the first: zero at first, signed after.
+	diff, _ := uvSeries(1, 0)
+	for i := n - 1; i >= 0; i-- {
+		for j := 0; j < m; j++ {
+			diff.Values.Set(i, j, abs.Values.At(i, j)-abs.Values.At(0, j))
+		}
+	}
 	cases := []struct {
 		name string
 		ser  *spectra.Series
 		want string // part of the reason, "" for no warning
+		sure bool   // cannot be single beams: the run refuses to guess
 	}{
-		{"single beams, arbitrary units 0–2, noise constant in counts", beams, ""},
-		{"single beams without noise", noiseless, ""},
-		{"single beams in counts", counts, ""},
-		{"absorbance with noise ∝ 1/I", abs, "zero or negative"},
-		{"absorbance on a positive baseline", clean, "lies near zero"},
+		{"single beams, arbitrary units 0–2, noise constant in counts", beams, "", false},
+		{"single beams without noise", noiseless, "", false},
+		{"single beams in counts", counts, "", false},
+		{"single beams with an opaque range", opaque, "zero or negative", false},
+		{"absorbance with noise ∝ 1/I", abs, "first spectrum lies near zero", true},
+		{"difference spectra", diff, "zero or negative", true},
+		{"absorbance on a positive baseline", clean, "lies near zero", false},
 	}
 	for _, c := range cases {
-		got := absorbanceLook(c.ser)
+		got, sure := absorbanceLook(c.ser)
 		if c.want == "" && got != "" {
 			t.Errorf("%s: flagged as absorbance: %s", c.name, got)
 		}
 		if c.want != "" && !strings.Contains(got, c.want) {
 			t.Errorf("%s: reason %q, want one saying %q", c.name, got, c.want)
+		}
+		if sure != c.sure {
+			t.Errorf("%s: sure = %v, want %v (%s)", c.name, sure, c.sure, got)
 		}
 	}
 	// The single beams in 0…2 are exactly what the range rule alone
@@ -112,7 +135,7 @@ func TestAbsorbanceLookRatio(t *testing.T) {
 			abs.Values.Set(i, j, 0.1+0.2*float64(i))
 		}
 	}
-	if got := absorbanceLook(abs); !strings.Contains(got, "factor") {
+	if got, _ := absorbanceLook(abs); !strings.Contains(got, "factor") {
 		t.Errorf("absorbance rising 0.1 → 4.1 not flagged by its ratio: %q", got)
 	}
 }

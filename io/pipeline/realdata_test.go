@@ -182,3 +182,30 @@ func TestTransmittanceReadAsAbsorbance(t *testing.T) {
 		t.Errorf("--blank with transmittance: %v, want it refused", err)
 	}
 }
+
+// The real series exported as absorbance (source as urethaneDir), run with no --kind: read as
+// single beams it gave 1 reaction for 1.00 but 3 for 0.01 with a noise level 55 times too
+// large, behind a warning. Its values cannot be intensities (negative ones, and a first
+// spectrum near zero: Beer–Lambert, common practice), so the run stops with one line saying
+// which kinds to give, and writes nothing.
+func TestAbsorbanceExportWithoutKindRefused(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "out")
+	s := NewSettings()
+	s.Data, s.TimesFromName, s.Out, s.Quiet = []string{filepath.Join(urethaneDir, "catalyst-1.00")}, true, out, true
+	_, err := Execute(s, Streams{Out: &strings.Builder{}, Err: &strings.Builder{}})
+	if _, ok := err.(*UsageError); !ok {
+		t.Fatalf("error %T %v: want a usage error", err, err)
+	}
+	msg := err.Error()
+	for _, want := range []string{"cannot be single beams", "zero or negative", "first spectrum lies near zero", "--kind absorbance", "--kind difference", "--kind single-beam"} {
+		if !strings.Contains(msg, want) {
+			t.Errorf("message lacks %q: %s", want, msg)
+		}
+	}
+	if strings.Contains(msg, "\n") {
+		t.Errorf("message is more than one line: %q", msg)
+	}
+	if _, err := os.Stat(out); !os.IsNotExist(err) {
+		t.Error("a refused run left an output folder")
+	}
+}

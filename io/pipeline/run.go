@@ -837,7 +837,8 @@ func assembleExperiments(s *Settings, r *Result, series []*spectra.Series, axis 
 
 // loadSeries reads every --data input with its times and checks its kind;
 // without --kind the kind is the first input's own (JCAMP-DX says it), else
-// single beams, with a warning when the values look like absorbances.
+// single beams, with a warning when the values look like absorbances and a
+// refusal when they cannot be single beams.
 func loadSeries(s *Settings, r *Result, folder spectra.FolderOptions, kind spectra.Kind, log io.Writer) ([]*spectra.Series, spectra.Kind, error) {
 	var series []*spectra.Series
 	for _, p := range s.Data {
@@ -861,7 +862,9 @@ func loadSeries(s *Settings, r *Result, folder spectra.FolderOptions, kind spect
 		kind = spectra.SingleBeam
 		if series[0].Kind != "" {
 			kind = spectra.Kind(series[0].Kind)
-		} else if why := absorbanceLook(series[0]); why != "" {
+		} else if why, sure := absorbanceLook(series[0]); sure {
+			return nil, "", usage("%s: no --kind was given, and the values cannot be single beams: %s, as absorbances do; give --kind absorbance (ratioed to a background) or --kind difference (against the starting state), or --kind single-beam if they are intensities after all", s.Data[0], why)
+		} else if why != "" {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("%s: no --kind was given, so the values were taken as single beams, but %s, as absorbances do; if they are absorbance or difference spectra, rerun with --kind absorbance or --kind difference", s.Data[0], why))
 		}
 	}

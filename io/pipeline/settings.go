@@ -286,7 +286,7 @@ var options = func() []Option {
 	s1, g1 := list(func(s *Settings) *[]string { return &s.Data })
 	add(opt("data", "PATH", "matrix CSV, folder of spectrum files or JCAMP-DX file; repeat for several experiments", true, true, s1, g1))
 	s2, g2 := str(func(s *Settings) *string { return &s.Kind })
-	add(opt("kind", "KIND", "single-beam, absorbance, transmittance (a fraction or per cent, read as absorbance) or difference (default: from JCAMP-DX units, else single-beam)", false, true, func(s *Settings, v string) error {
+	add(opt("kind", "KIND", "single-beam, absorbance, transmittance (a fraction or per cent, read as absorbance) or difference (default: from JCAMP-DX units, else single-beam; values that cannot be intensities stop the run)", false, true, func(s *Settings, v string) error {
 		if v != "" {
 			if _, err := spectra.ParseKind(v); err != nil {
 				return err
