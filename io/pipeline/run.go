@@ -1382,14 +1382,15 @@ func orderComponents(r *Result, res *mcr.Result) []int {
 }
 
 // preWarnings checks --pre: the spectra it counts as taken before the reaction must be
-// repeats of one state. With the noise model, each step between them is measured in
-// units of its noise (spectra.StepToNoise: ρ ≈ 1 for repeats) and a step whose ρ² is
-// above both twice the noise variance (room for the noise model's own error, a few
-// repeats pooled over neighbouring channels) and the 99.9 % point of χ²_m/m is a change.
-// Where the noise model itself came from those spectra the steps are measured against
-// a level they inflated and can pass; the fit then leaves less than the noise
-// (noiseOverestimated), which says it instead. One warning either way: a step found
-// carries the overestimate with it.
+// repeats of one state. Each step between them is measured in units of the noise
+// (spectra.StepToNoise: ρ ≈ 1 for repeats) and a step whose ρ² is above both twice the
+// noise variance (room for the noise estimate's own error, pooled over neighbouring
+// channels) and the 99.9 % point of χ²_m/m is a change. The noise is the experiment's
+// own from second differences in time of all its spectra (preNoise), not the noise
+// model, which --pre takes from the very spectra on trial: a change among them inflates
+// it and would pass. The fit leaving less than the noise (noiseOverestimated) says the
+// same from the other side. One warning either way: a step found carries the
+// overestimate with it.
 func preWarnings(r *Result) []string {
 	over := noiseOverestimated(r)
 	steps := preSteps(r)
@@ -1400,6 +1401,28 @@ func preWarnings(r *Result) []string {
 		steps[0] += fmt.Sprintf("; the fit leaves %.3g times the noise level (%s), which is therefore too large, and with it the rank's noise floor and the standard errors", q, r.NoiseSource)
 	}
 	return steps
+}
+
+// preNoise are weights for the --pre step check of experiment e: 1/σ²_j from second
+// differences in time of all its spectra (spectra.TimeNoise), spectra set aside kept
+// aside; the noise model's own weights when it has fewer than three spectra.
+func preNoise(r *Result, e *Experiment) *spectra.Weights {
+	sig := spectra.TimeNoise(r.D, e.FirstRow, e.FirstRow+e.Rows, r.Blind)
+	if sig == nil {
+		return r.Weights
+	}
+	w := &spectra.Weights{Row: make([]float64, len(r.Weights.Row)), Col: make([]float64, len(sig))}
+	for i, a := range r.Weights.Row {
+		if a > 0 {
+			w.Row[i] = 1
+		}
+	}
+	for j, sd := range sig {
+		if sd > 0 {
+			w.Col[j] = 1 / (sd * sd)
+		}
+	}
+	return w
 }
 
 // preSteps are the steps between the spectra --pre counts as before the reaction
@@ -1414,7 +1437,7 @@ func preSteps(r *Result) []string {
 	_, m := r.D.Dims()
 	limit := math.Max(2, distuv.ChiSquared{K: float64(m)}.Quantile(0.999)/float64(m))
 	for _, e := range r.Experiments {
-		steps := spectra.StepToNoise(r.D, e.FirstRow, e.FirstRow+min(s.Pre, e.Rows), r.Weights, r.Blind)
+		steps := spectra.StepToNoise(r.D, e.FirstRow, e.FirstRow+min(s.Pre, e.Rows), preNoise(r, e), r.Blind)
 		for a, rho := range steps {
 			if rho*rho <= limit {
 				continue

@@ -115,6 +115,24 @@ func StepToNoise(d *mat.Dense, lo, hi int, w *Weights, blind *Blind) []float64 {
 	return out
 }
 
+// TimeNoise is each channel's noise standard deviation over rows lo … hi−1 of d from
+// their second differences in time, as the noise model takes it when no spectra are
+// counted as before the reaction: a change smooth in time cancels, so it does not rest on
+// which spectra are repeats, and can judge the ones said to be. nil with fewer than three
+// rows.
+func TimeNoise(d *mat.Dense, lo, hi int, blind *Blind) []float64 {
+	if hi-lo < 3 {
+		return nil
+	}
+	_, m := d.Dims()
+	var b *Blind
+	if blind != nil && lo < len(blind.Rows) {
+		b = &Blind{Rows: blind.Rows[lo:min(hi, len(blind.Rows))]}
+	}
+	sig, _, _ := channelNoise(d.Slice(lo, hi, 0, m).(*mat.Dense), 0, b)
+	return sig
+}
+
 // Blind lists the points with no usable light.
 type Blind struct {
 	Rows  [][]int // Rows[i]: the blind channels of spectrum i, ascending (nil: none)
