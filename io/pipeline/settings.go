@@ -357,7 +357,7 @@ var options = func() []Option {
 	s17, g17 := boolean(func(s *Settings) *bool { return &s.HardModel })
 	add(opt("hard-model", "", "replace the profiles by their kinetic fit inside every ALS cycle (hard–soft)", false, true, s17, g17))
 	sk1, gk1 := choice(func(s *Settings) *string { return &s.KineticFit }, "profiles", "data")
-	add(opt("kinetic-fit", "profiles|data", "rate constants reported: data (fit of the data matrix itself by variable projection; honest standard errors) or profiles (fit of the resolved profiles, hard–soft with --hard-model); both are computed", false, true, sk1, gk1))
+	add(opt("kinetic-fit", "profiles|data", "rate constants reported: data (fit of the data matrix itself by variable projection; standard errors widened to the spectra's scatter when the model misfits) or profiles (fit of the resolved profiles, hard–soft with --hard-model); both are computed", false, true, sk1, gk1))
 	sk2, gk2 := str(func(s *Settings) *string { return &s.C0 })
 	add(opt("c0", "A=1,B=0", "initial concentrations of the model's species (default: starting species share the closure total, or 1 each)", false, true, sk2, gk2))
 	sk3, gk3 := boolean(func(s *Settings) *bool { return &s.FitC0 })

@@ -100,7 +100,13 @@ type FitResult struct {
 	// Lag1 is the residuals' lag-1 autocorrelation down the time axis and
 	// Inflation the factor the standard errors were multiplied by for it
 	// (1 = none); see honestErrors.
-	Lag1, Inflation  float64
+	Lag1, Inflation float64
+	// NoiseKStdErr are the standard errors from the noise (with Inflation)
+	// before robustErrors widened any to the spectra's scatter about the
+	// model, and Robust the largest widening of a rate constant's (1 =
+	// none); nil and 1 when not computed.
+	NoiseKStdErr     []float64
+	Robust           float64
 	DegreesOfFreedom int
 	// Reduced is the reduction of the (weighted) data FitData worked on
 	// (reduceData), to pass back in FitOptions.Reduced.
@@ -1269,6 +1275,8 @@ func (p *fitProblem) dataResult(lm *LMResult, d *mat.Dense, nObs int) (*FitResul
 		res.Weighted, res.Scaled = true, d
 	}
 	honestErrors(res, lag, n)
+	_, w := p.dred.Dims()
+	p.robustErrors(lm, res, w, p.nModel)
 	return res, spectra, nil
 }
 

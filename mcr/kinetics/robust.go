@@ -1,0 +1,121 @@
+package kinetics
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// ClusterCovariance is the covariance of least-squares parameters that does not assume the
+// model fits to the noise: the sandwich B M B (White, Econometrica 1980), with B = (JᵀJ)⁺ and
+// the middle M summed over clusters, here the spectra, whose residuals r_i (one block of
+// width rows of the residual vector, in order) share their misfit: with g_i = J_iᵀ r_i,
+//
+//	M = Σ_i g_i g_iᵀ + Σ_{l=1…L} (1 − l/(L+1)) Σ_i (g_i g_{i−l}ᵀ + g_{i−l} g_iᵀ),
+//
+// the Bartlett weights of Newey & West (Econometrica 1987) carrying the correlation of
+// neighbouring spectra in time, L = ⌊4 (G/100)^{2/9}⌋ for G clusters (Newey & West, Review
+// of Economic Studies 1994). When the model is right, E M = σ² JᵀJ and B M B is the usual
+// σ² (JᵀJ)⁻¹; when one spectrum, or a stretch of the run, pulls the parameters more than
+// noise would, M grows with it: to first order B M B is the delete-one-spectrum jackknife's
+// variance. It is scaled by G/(G − used), the small-sample factor of MacKinnon & White
+// (J. Econometrics 1985) with used the parameters each spectrum's residual loses to the fit
+// (the free parameters and the linear ones per column). The pseudo-inverse drops singular
+// values below 1e-12 of the largest, as Covariance does. It returns the covariance, G and L.
+func ClusterCovariance(j *mat.Dense, r []float64, rows, used int) (cov *mat.Dense, clusters, lags int, err error) {
+	nr, np := j.Dims()
+	if rows <= 0 || nr != len(r) || nr%rows != 0 {
+		return nil, 0, 0, fmt.Errorf("kinetics: cluster covariance: %d residuals, %d Jacobian rows, clusters of %d", len(r), nr, rows)
+	}
+	n := nr / rows
+	g := mat.NewDense(n, np, nil)
+	for i := 0; i < n; i++ {
+		gi := g.RawRowView(i)
+		any := false
+		for c := 0; c < rows; c++ {
+			row, ri := j.RawRowView(i*rows+c), r[i*rows+c]
+			for a, v := range row {
+				gi[a] += v * ri
+				any = any || v != 0
+			}
+		}
+		if any {
+			clusters++
+		}
+	}
+	if clusters <= used {
+		return nil, clusters, 0, errors.New("kinetics: cluster covariance: no more spectra than parameters")
+	}
+	lags = int(math.Floor(4 * math.Pow(float64(clusters)/100, 2.0/9)))
+	lags = min(lags, n-1)
+	mid := mat.NewDense(np, np, nil)
+	mid.Mul(g.T(), g)
+	for l := 1; l <= lags; l++ {
+		w := 1 - float64(l)/float64(lags+1)
+		var cross mat.Dense
+		cross.Mul(g.Slice(l, n, 0, np).T(), g.Slice(0, n-l, 0, np))
+		for a := 0; a < np; a++ {
+			for b := 0; b < np; b++ {
+				mid.Set(a, b, mid.At(a, b)+w*(cross.At(a, b)+cross.At(b, a)))
+			}
+		}
+	}
+	bread, _, err := Covariance(j, 1)
+	if err != nil {
+		return nil, clusters, lags, err
+	}
+	var bm mat.Dense
+	bm.Mul(bread, mid)
+	cov = mat.NewDense(np, np, nil)
+	cov.Mul(&bm, bread)
+	cov.Scale(float64(clusters)/float64(clusters-used), cov)
+	return cov, clusters, lags, nil
+}
+
+// robustErrors widens each standard error of a data fit to the one ClusterCovariance gives
+// when that is larger, clusters of rows residuals (one spectrum's), linear parameters per
+// column lost to the fit besides the free ones. Profile fits keep theirs: resolved profiles
+// carry the resolution's own errors, smooth in time and tied across columns by closure,
+// which their warnings say, and the data fit is the one to quote. The noise-based errors, AR(1) factor included
+// (honestErrors), assume every residual is noise; the cluster ones ask only that spectra far
+// apart in time be independent, so on data the model does not describe they show what the
+// misfit does to the estimate. It records the noise-based errors in NoiseKStdErr and the
+// largest ratio in Robust, and says so when a rate constant's error at least doubles:
+// below that, the two agree within the cluster estimate's own scatter (its variance rests
+// on G spectra, relative standard deviation about √(2/G); common practice).
+func (p *fitProblem) robustErrors(lm *LMResult, res *FitResult, rows, linear int) {
+	res.Robust = 1
+	if lm.Jacobian == nil || len(p.kFree)+len(p.c0Free) == 0 {
+		return
+	}
+	cov, g, lags, err := ClusterCovariance(lm.Jacobian, lm.Residual, rows, p.nParams()+linear)
+	if err != nil {
+		return
+	}
+	res.NoiseKStdErr = append([]float64(nil), res.KStdErr...)
+	worst, at := 1.0, -1
+	for a, j := range p.kFree {
+		se := res.K[j] * math.Sqrt(math.Max(cov.At(a, a), 0))
+		if !(res.KStdErr[j] > 0) || !(se > res.KStdErr[j]) {
+			continue
+		}
+		if f := se / res.KStdErr[j]; f > worst {
+			worst, at = f, j
+		}
+		res.KStdErr[j] = se
+	}
+	for b, i := range p.c0Free {
+		a := len(p.kFree) + b
+		se := res.C0[i] * math.Sqrt(math.Max(cov.At(a, a), 0))
+		if res.C0StdErr[i] > 0 && se > res.C0StdErr[i] {
+			res.C0StdErr[i] = se
+		}
+	}
+	res.Robust = worst
+	if worst < 2 {
+		return
+	}
+	res.Warnings = append(res.Warnings, fmt.Sprintf("the spectra scatter about the model more than its noise explains (single spectra, or stretches of the run, pull the rate constants apart): standard errors from that scatter, each of the %d spectra's pull on the fit with its %d neighbours in time (a sandwich estimate, as a jackknife leaving out one spectrum at a time measures), are up to %.3g times the noise-based ones (step %q: %.2g against %.2g) and are the ones reported", g, lags, worst, p.s.Steps[at].Text, res.KStdErr[at], res.NoiseKStdErr[at]))
+}
