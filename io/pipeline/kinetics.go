@@ -498,10 +498,12 @@ func profileFitWarnings(f *KineticFit, hardModel, dataFit bool) []string {
 // or profiles that do not start where the model does), and the profile
 // fit is no second measurement of the same constants.
 //
-// fixed says which steps --k-fixed holds (nil: none); a fit without the
+// kn.KFixed says which steps --k-fixed holds (nil: none); a fit without the
 // degrees of freedom for errors reports them as 0 or NaN, and then only the
-// factor counts.
-func fitsDisagree(sch *kinetics.Scheme, p, d *kinetics.FitResult, fixed []bool) []string {
+// factor counts. Each constant is said with its unit: the terminal's table
+// may show another time unit (--time-unit), the warning's are per second.
+func fitsDisagree(kn *Kinetics, p, d *kinetics.FitResult) []string {
+	sch, fixed := kn.Scheme, kn.KFixed
 	var parts []string
 	for j := range min(len(p.K), len(d.K)) {
 		if (j < len(fixed) && fixed[j]) || !(p.K[j] > 0 && d.K[j] > 0) {
@@ -514,15 +516,15 @@ func fitsDisagree(sch *kinetics.Scheme, p, d *kinetics.FitResult, fixed []bool) 
 		if !apart && ratio <= 10 {
 			continue
 		}
-		name := fmt.Sprintf("k%d", j+1)
+		name, unit := fmt.Sprintf("k%d", j+1), ""
 		if j < len(sch.Steps) {
-			name = fmt.Sprintf("k%d (%s)", j+1, sch.Steps[j].Text)
+			name, unit = fmt.Sprintf("k%d (%s)", j+1, sch.Steps[j].Text), " "+kn.rateUnit(sch.Steps[j].Order)
 		}
 		gap := "their standard errors unknown"
 		if known {
 			gap = fmt.Sprintf("%.3g combined standard errors apart", math.Abs(p.K[j]-d.K[j])/se)
 		}
-		parts = append(parts, fmt.Sprintf("%s %.4g against %.4g, a factor %.3g and %s", name, p.K[j], d.K[j], ratio, gap))
+		parts = append(parts, fmt.Sprintf("%s %.4g%s against %.4g%s, a factor %.3g and %s", name, p.K[j], unit, d.K[j], unit, ratio, gap))
 	}
 	if len(parts) == 0 {
 		return nil
@@ -662,7 +664,7 @@ func (kn *Kinetics) hasFixed() bool {
 
 func (kn *Kinetics) options(initialK []float64) kinetics.FitOptions {
 	opt := kinetics.FitOptions{T0: kn.T0, InitialK: initialK, C0: kn.C0, FitC0: kn.FitC0,
-		Amplitudes: kn.Amplitudes, UseExtents: kn.Extents}
+		Amplitudes: kn.Amplitudes, UseExtents: kn.Extents, TimeUnit: "s", RateUnits: kn.rateUnits()}
 	if kn.hasFixed() {
 		opt.FixedK = kn.KFixed
 	}
@@ -1122,7 +1124,7 @@ func fitKinetics(r *Result, log io.Writer) error {
 		if f.Observed != nil {
 			f.Fit.Warnings = append(f.Fit.Warnings, profileFitWarnings(f, s.HardModel, dataFit)...)
 			if dataFit {
-				f.Fit.Warnings = append(f.Fit.Warnings, fitsDisagree(kn.Scheme, f.Fit, kn.Fits[len(kn.Fits)-1].Fit, kn.KFixed)...)
+				f.Fit.Warnings = append(f.Fit.Warnings, fitsDisagree(kn, f.Fit, kn.Fits[len(kn.Fits)-1].Fit)...)
 			}
 		}
 	}
@@ -1863,6 +1865,15 @@ func finite(v float64) float64 {
 		return 0
 	}
 	return v
+}
+
+// rateUnits are the steps' units in order (rateUnit).
+func (kn *Kinetics) rateUnits() []string {
+	u := make([]string, len(kn.Scheme.Steps))
+	for j, st := range kn.Scheme.Steps {
+		u[j] = kn.rateUnit(st.Order)
+	}
+	return u
 }
 
 // rateUnit states a step's unit: s^-1 times (concentration unit)^-(order-1).

@@ -597,7 +597,10 @@ func TestKineticsNamesSpeciesWithoutComponent(t *testing.T) {
 }
 
 // TestFitsDisagree: the rule of fitsDisagree (its definition: more than 25 %
-// and 3 combined standard errors apart, or a factor above 10), case by case.
+// and 3 combined standard errors apart, or a factor above 10), case by case;
+// each constant with its unit, s^-1 for a first-order step (the SI unit of a
+// first-order rate constant, IUPAC Gold Book "rate constant"), since the
+// warning stays in seconds whatever --time-unit shows (README).
 func TestFitsDisagree(t *testing.T) {
 	sch, err := kinetics.ParseScheme("A -> B -> C")
 	if err != nil {
@@ -613,15 +616,28 @@ func TestFitsDisagree(t *testing.T) {
 	}{
 		{"consistent", fit([]float64{1.02, 0.5}, []float64{0.01, 0.01}), fit([]float64{1, 0.5}, []float64{0.005, 0.005}), nil, "", ""},
 		{"apart but within 25 %", fit([]float64{1.2, 0.5}, []float64{0.001, 0.01}), fit([]float64{1, 0.5}, []float64{0.001, 0.005}), nil, "", ""},
-		{"beyond 3 errors", fit([]float64{1.4, 0.5}, []float64{0.1, 0.01}), fit([]float64{1, 0.5}, []float64{0.001, 0.005}), nil, "k1 (A -> B) 1.4 against 1, a factor 1.4 and 4 combined", "k2"},
+		{"beyond 3 errors", fit([]float64{1.4, 0.5}, []float64{0.1, 0.01}), fit([]float64{1, 0.5}, []float64{0.001, 0.005}), nil, "k1 (A -> B) 1.4 s^-1 against 1 s^-1, a factor 1.4 and 4 combined", "k2"},
 		{"a factor above 10, errors huge", fit([]float64{1, 0.5}, []float64{5, 0.01}), fit([]float64{0.05, 0.5}, []float64{0.001, 0.005}), nil, "a factor 20", "k2"},
 		{"held fixed", fit([]float64{1, 9}, []float64{0.01, 0}), fit([]float64{1, 0.5}, []float64{0.005, 0}), []bool{false, true}, "", ""},
 		{"errors unknown, a factor above 10", fit([]float64{1, 0.5}, []float64{0, math.NaN()}), fit([]float64{0.05, 0.5}, []float64{0, math.NaN()}), nil, "a factor 20 and their standard errors unknown", "NaN"},
 		{"errors unknown, close", fit([]float64{1.5, 0.5}, []float64{0, 0}), fit([]float64{1, 0.5}, []float64{0, 0}), nil, "", ""},
 	} {
-		w := strings.Join(fitsDisagree(sch, tc.p, tc.d, tc.fixed), "\n")
+		kn := &Kinetics{Scheme: sch, KFixed: tc.fixed, UnitName: "closure total"}
+		w := strings.Join(fitsDisagree(kn, tc.p, tc.d), "\n")
 		if (tc.says == "") != (w == "") || !strings.Contains(w, tc.says) || (tc.absent != "" && strings.Contains(w, tc.absent)) {
 			t.Errorf("%s: %q; want %q without %q", tc.name, w, tc.says, tc.absent)
 		}
+	}
+	// A second-order step's constant is per concentration per second
+	// (concentration^(1-n) time^-1 for order n, IUPAC Gold Book "order of
+	// reaction"), the concentration here in closure totals.
+	two, err := kinetics.ParseScheme("2 A -> B")
+	if err != nil {
+		t.Fatal(err)
+	}
+	kn := &Kinetics{Scheme: two, UnitName: "closure total"}
+	w := strings.Join(fitsDisagree(kn, fit([]float64{1.4}, []float64{0.1}), fit([]float64{1}, []float64{0.001})), "\n")
+	if want := "k1 (2 A -> B) 1.4 (closure total)^-1 s^-1 against 1 (closure total)^-1 s^-1, a factor 1.4"; !strings.Contains(w, want) {
+		t.Errorf("2 A -> B: %q; want %q", w, want)
 	}
 }

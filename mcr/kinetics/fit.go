@@ -59,6 +59,12 @@ type FitOptions struct {
 	// the residuals' lag-1 autocorrelation are computed all the same, from
 	// the same residuals, a block of rows at a time.
 	NoResidual bool
+	// TimeUnit and RateUnits (one per step) name the units of the times and
+	// of the rate constants, said beside the values the fit's warnings and
+	// errors print: a caller may show its tables in other units than it fits
+	// in. "" and nil say none, for times given without a unit.
+	TimeUnit  string
+	RateUnits []string
 	// Sim tunes the simulation used inside the fit.
 	Sim SimSettings
 	// LM tunes the Levenberg–Marquardt iteration.
@@ -469,7 +475,7 @@ func newFitProblem(s *Scheme, times []float64, opt FitOptions, nobs int) (*fitPr
 	}
 	// A fit of concentrations never reads the extents.
 	p.opt.Sim.concentrationsOnly = !opt.UseExtents
-	span, err := spanAfter(times, opt.T0)
+	span, err := spanAfter(times, opt.T0, opt.TimeUnit)
 	if err != nil {
 		return nil, err
 	}
@@ -491,8 +497,9 @@ func newFitProblem(s *Scheme, times []float64, opt FitOptions, nobs int) (*fitPr
 }
 
 // spanAfter checks t0 and the times, of which at least two must follow t0
-// for a rate to show, and returns the time from t0 to the last.
-func spanAfter(times []float64, t0 float64) (float64, error) {
+// for a rate to show, and returns the time from t0 to the last; unit is
+// said after t0 in the error.
+func spanAfter(times []float64, t0 float64, unit string) (float64, error) {
 	if math.IsNaN(t0) || math.IsInf(t0, 0) {
 		return 0, fmt.Errorf("t0 is %v", t0)
 	}
@@ -508,7 +515,7 @@ func spanAfter(times []float64, t0 float64) (float64, error) {
 		tmax = math.Max(tmax, t)
 	}
 	if after < 2 {
-		return 0, fmt.Errorf("fewer than two times after t0 = %g", t0)
+		return 0, fmt.Errorf("fewer than two times after t0 = %s", withUnit(fmt.Sprintf("%g", t0), unit))
 	}
 	return tmax - t0, nil
 }
@@ -787,7 +794,8 @@ func (p *fitProblem) held(lm *LMResult, res *FitResult) int {
 		count++
 		if a < len(p.kFree) {
 			j := p.kFree[a]
-			res.Warnings = append(res.Warnings, fmt.Sprintf("the rate constant of step %q is not determined by the data (the residual does not depend on it): it is held at its start %.4g and has no standard error", p.s.Steps[j].Text, res.K[j]))
+			k := withUnit(fmt.Sprintf("%.4g", res.K[j]), p.rateUnit(j))
+			res.Warnings = append(res.Warnings, fmt.Sprintf("the rate constant of step %q is not determined by the data (the residual does not depend on it): it is held at its start %s and has no standard error", p.s.Steps[j].Text, k))
 			continue
 		}
 		i := p.c0Free[a-len(p.kFree)]
@@ -799,6 +807,22 @@ func (p *fitProblem) held(lm *LMResult, res *FitResult) int {
 		res.Warnings = append(res.Warnings, fmt.Sprintf("the initial concentration of %s is not determined by the data (the residual does not depend on it; with free spectra they absorb its scale): it is held at its start, %.4g, and has no standard error", p.s.Species[i], p.c00[i]))
 	}
 	return count
+}
+
+// rateUnit is step j's unit from the options, "" when none is given.
+func (p *fitProblem) rateUnit(j int) string {
+	if j < len(p.opt.RateUnits) {
+		return p.opt.RateUnits[j]
+	}
+	return ""
+}
+
+// withUnit is the number v followed by its unit, or alone without one.
+func withUnit(v, unit string) string {
+	if unit == "" {
+		return v
+	}
+	return v + " " + unit
 }
 
 // result assembles everything but the fitted columns.
