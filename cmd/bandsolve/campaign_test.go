@@ -13,6 +13,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/bandsolve/bandsolve/io/campaign"
 	"github.com/bandsolve/bandsolve/io/pipeline"
 )
 
@@ -230,4 +231,30 @@ func shellArgs(t *testing.T, line string) []string {
 		t.Fatalf("docs command %q: %v (redirect %q)", line, err, stdout)
 	}
 	return args
+}
+
+// TestCollectHelpNamesEveryColumn: collect --help lists the columns of the
+// table collect writes, every one, in the table's order (the table is the
+// definition; users' scripts read the columns by the help's word).
+func TestCollectHelpNamesEveryColumn(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "run")
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	summary := `{"kinetics": {"model": "A -> B", "rate_constants": [{"step": "A -> B", "k_per_s": 0.001}]}}`
+	if err := os.WriteFile(filepath.Join(dir, "summary.json"), []byte(summary), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	tab, _ := campaign.Collect([]string{dir})
+	help := strings.Join(strings.Fields(collectHelp), " ")
+	at := 0
+	for _, col := range tab.Header {
+		name := regexp.MustCompile(`\[.*\]$`).ReplaceAllString(col, "[STEP]")
+		i := strings.Index(help[at:], name)
+		if i < 0 {
+			t.Errorf("collect --help does not name column %q after %q", name, help[:at])
+			continue
+		}
+		at += i + len(name)
+	}
 }

@@ -31,7 +31,10 @@ var fixedColumns = []string{"folder", "status", "components", "rank_estimate", "
 // stderr_per_s[STEP], then warnings (how many), then water_vapour and
 // vapour_line_change (vapourCells). A key a summary lacks is an
 // empty cell; a folder without a readable summary.json keeps its row, with
-// the reason in status, and is listed in problems.
+// the reason in status, and is listed in problems. Numbers are written as
+// output.Float writes every result file's: encoding/json, which wrote
+// summary.json, gives 0.00003710714947 beside 1.947858933e-7 in one column
+// of rate constants and their errors.
 //
 // residual_to_noise is the summary's own key when the run wrote one (the
 // noise-weighted fit), else lack_of_fit_percent ÷ noise_lack_of_fit_percent:
@@ -125,7 +128,7 @@ func vapourCells(v object) (state, change string) {
 	best, bestV := "", math.Inf(-1)
 	for _, c := range changes {
 		if f, err := c.Float64(); err == nil && f > bestV {
-			best, bestV = c.String(), f
+			best, bestV = output.Float(f), f
 		}
 	}
 	return "changed", best
@@ -162,8 +165,8 @@ func readSummary(dir string) (object, error) {
 	return o, nil
 }
 
-// scalar gives a string, number or boolean value as its text (a number
-// exactly as summary.json wrote it).
+// scalar gives a string, number or boolean value as its text, a number as
+// output.Float writes it (one beyond float64's range: absent).
 func (o object) scalar(key string) (string, bool) {
 	raw, ok := o[key]
 	if !ok {
@@ -179,7 +182,11 @@ func (o object) scalar(key string) (string, bool) {
 	case string:
 		return x, true
 	case json.Number:
-		return x.String(), true
+		f, err := x.Float64()
+		if err != nil {
+			return "", false
+		}
+		return output.Float(f), true
 	case bool:
 		return strconv.FormatBool(x), true
 	}

@@ -45,7 +45,14 @@ func TestCollect(t *testing.T) {
 	bad := writeSummary(t, filepath.Join(root, "bad"), `[1, 2]`)
 	own := writeSummary(t, filepath.Join(root, "weighted"), `{"lack_of_fit_percent": 2, "noise_lack_of_fit_percent": 1, "residual_to_noise": 1.03,
   "water_vapour": {"checked": true, "detected": false, "coherence_ratio": 1.1}}`)
-	tab, problems := Collect([]string{full, part, none, bad, own})
+	// Numbers as Go's encoding/json writes a float64 (plain digits from
+	// 1e-6 up, an exponent without a leading zero below), as the real run
+	// on catalyst-1.00 wrote them.
+	goJSON := writeSummary(t, filepath.Join(root, "go-json"), `{"noise_sigma": 0.000434327309,
+  "kinetics": {"model": "A -> B", "rate_constants": [
+    {"step": "A -> B", "k_per_s": 0.00003710714947, "stderr_per_s": 1.947858933e-7}]},
+  "water_vapour": {"checked": true, "detected": true, "line_change": [0.000027, 1e-7]}}`)
+	tab, problems := Collect([]string{full, part, none, bad, own, goJSON})
 	if len(problems) != 2 || !strings.Contains(problems[0], "failed") || !strings.Contains(problems[1], "bad") {
 		t.Errorf("problems = %q, want the folder without and the one with a broken summary", problems)
 	}
@@ -63,8 +70,8 @@ func TestCollect(t *testing.T) {
 		t.Fatalf("no column %q in %q", col, head)
 		return ""
 	}
-	if len(rows) != 6 {
-		t.Fatalf("%d rows, want a header and 5", len(rows))
+	if len(rows) != 7 {
+		t.Fatalf("%d rows, want a header and 6", len(rows))
 	}
 	for _, c := range []struct {
 		row       int
@@ -87,6 +94,11 @@ func TestCollect(t *testing.T) {
 		{1, "water_vapour", "changed"}, {1, "vapour_line_change", "0.027"},
 		{5, "water_vapour", "no change"}, {5, "vapour_line_change", ""},
 		{2, "water_vapour", ""},
+		// Every number in one format, printf's %.10g (C standard 7.21.6.1:
+		// an exponent when it is below −4, trailing zeros dropped; common
+		// practice), whatever the JSON's spelling.
+		{6, "k_per_s[A -> B]", "3.710714947e-05"}, {6, "stderr_per_s[A -> B]", "1.947858933e-07"},
+		{6, "noise_sigma", "0.000434327309"}, {6, "vapour_line_change", "2.7e-05"},
 	} {
 		if got := cell(c.row, c.col); got != c.want {
 			t.Errorf("row %d, %s = %q, want %q", c.row, c.col, got, c.want)
