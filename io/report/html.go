@@ -545,11 +545,17 @@ func uniquenessFindings(b Band, find, checks []string) ([]string, []string) {
 }
 
 // kineticsFinding gives the kinetic model's rate constants with their
-// standard errors, and the half-lives of first-order steps.
+// standard errors, and the half-lives of first-order steps. A model of one
+// step is that step: its name would follow the model's text twice.
 func kineticsFinding(f *Folder, k *Kinetics) string {
 	var ks []string
-	for _, rc := range f.rates() {
-		t := fmt.Sprintf("%s: k = %s ± %s %s", rc.Step, trimFloat(rc.K, 4), trimFloat(rc.StdErr, 2), unitText(rc.Unit))
+	rates := f.rates()
+	for _, rc := range rates {
+		step := rc.Step + ": "
+		if len(rates) == 1 {
+			step = ""
+		}
+		t := fmt.Sprintf("%sk = %s ± %s %s", step, trimFloat(rc.K, 4), trimFloat(rc.StdErr, 2), unitText(rc.Unit))
 		if rc.HalfLife > 0 {
 			t += fmt.Sprintf(" (half-life %s %s)", trimFloat(rc.HalfLife, 3), rc.TimeUnit)
 		}
