@@ -835,10 +835,10 @@ func assembleExperiments(s *Settings, r *Result, series []*spectra.Series, axis 
 	return diffRows, nil
 }
 
-// loadSeries reads every --data input with its times and checks its kind;
-// without --kind the kind is the first input's own (JCAMP-DX says it), else
-// single beams, with a warning when the values look like absorbances and a
-// refusal when they cannot be single beams.
+// loadSeries reads every --data input with its times and checks its kind
+// (beamKind: the kind given, else the first input's own or single beams;
+// single beams that look like absorbance are said, or refused when no kind
+// was given).
 func loadSeries(s *Settings, r *Result, folder spectra.FolderOptions, kind spectra.Kind, log io.Writer) ([]*spectra.Series, spectra.Kind, error) {
 	var series []*spectra.Series
 	for _, p := range s.Data {
@@ -858,15 +858,9 @@ func loadSeries(s *Settings, r *Result, folder spectra.FolderOptions, kind spect
 		}
 		series = append(series, ser)
 	}
-	if kind == "" {
-		kind = spectra.SingleBeam
-		if series[0].Kind != "" {
-			kind = spectra.Kind(series[0].Kind)
-		} else if why, sure := absorbanceLook(series[0]); sure {
-			return nil, "", usage("%s: no --kind was given, and the values cannot be single beams: %s, as absorbances do; give --kind absorbance (ratioed to a background) or --kind difference (against the starting state), or --kind single-beam if they are intensities after all", s.Data[0], why)
-		} else if why != "" {
-			r.Warnings = append(r.Warnings, fmt.Sprintf("%s: no --kind was given, so the values were taken as single beams, but %s, as absorbances do; if they are absorbance or difference spectra, rerun with --kind absorbance or --kind difference", s.Data[0], why))
-		}
+	kind, err := beamKind(s, r, series, kind)
+	if err != nil {
+		return nil, "", err
 	}
 	if kind == spectra.Transmittance {
 		if err := transmittanceToAbsorbance(s, r, series); err != nil {
@@ -880,6 +874,36 @@ func loadSeries(s *Settings, r *Result, folder spectra.FolderOptions, kind spect
 		}
 	}
 	return series, kind, nil
+}
+
+// beamKind is the kind the series are read as when given (kind) or not
+// (""): the first input's own (JCAMP-DX says it), else single beams. Single
+// beams that look like absorbance draw a warning (absorbanceLook), worded
+// for a kind the user gave or one taken by default; without a --kind,
+// values that cannot be single beams stop the run rather than be guessed,
+// while a --kind given is kept: the user may know better than the signs.
+func beamKind(s *Settings, r *Result, series []*spectra.Series, kind spectra.Kind) (spectra.Kind, error) {
+	given := kind
+	if kind == "" {
+		kind = spectra.SingleBeam
+		if series[0].Kind != "" {
+			return spectra.Kind(series[0].Kind), nil
+		}
+	}
+	if kind != spectra.SingleBeam {
+		return kind, nil
+	}
+	why, sure := absorbanceLook(series[0])
+	switch {
+	case why == "":
+	case given == spectra.SingleBeam:
+		r.Warnings = append(r.Warnings, fmt.Sprintf("%s: the values were taken as single beams, as --kind single-beam says, but %s, as absorbances do; if they are absorbance or difference spectra, rerun with --kind absorbance or --kind difference", s.Data[0], why))
+	case sure:
+		return "", usage("%s: no --kind was given, and the values cannot be single beams: %s, as absorbances do; give --kind absorbance (ratioed to a background) or --kind difference (against the starting state), or --kind single-beam if they are intensities after all", s.Data[0], why)
+	default:
+		r.Warnings = append(r.Warnings, fmt.Sprintf("%s: no --kind was given, so the values were taken as single beams, but %s, as absorbances do; if they are absorbance or difference spectra, rerun with --kind absorbance or --kind difference", s.Data[0], why))
+	}
+	return kind, nil
 }
 
 // transmittanceToAbsorbance reads every series given as transmittance as
