@@ -117,9 +117,9 @@ Start with: bandsolve demo
 const resolveHelp = `Usage: bandsolve resolve --data PATH [flags]
 
 Reads a series of spectra recorded during a reaction, builds the time ×
-wavenumber matrix (absorbance with --blank, else difference spectra against
-the first spectrum), counts the components by SVD and resolves each one's
-spectrum and time profile.
+wavenumber matrix (absorbance with --blank or --kind absorbance, else difference
+spectra against the reference state, --reference: the first spectrum by default),
+counts the components by SVD and resolves each one's spectrum and time profile.
 
 Example: single beams in one matrix CSV plus a blank single beam; the first
 four spectra were taken before the reagent went in:

@@ -253,12 +253,14 @@ func checkRunSettings(s *Settings) error {
 
 // readingPlan is how the inputs are to be read: a folder's options, the
 // kind of spectra asked for and the --reference setting (the mean of the
-// first refMean spectra, or the spectrum in refFile).
+// first refMean spectra, or the spectrum in refFile; refOwn when that is
+// one of a --data folder's own spectra, kept in its series).
 type readingPlan struct {
 	folder  spectra.FolderOptions
 	kind    spectra.Kind
 	refMean int
 	refFile string
+	refOwn  bool
 }
 
 // planReading forms the reading's options from the settings. The times,
@@ -283,10 +285,26 @@ func planReading(s *Settings) (readingPlan, error) {
 	if err != nil {
 		return readingPlan{}, usage("--reference: %v", err)
 	}
-	if refFile != "" {
+	own := refFile != "" && kind == spectra.Absorbance && ownReference(s, refFile, folder)
+	if refFile != "" && !own {
 		folder.Exclude = append(folder.Exclude, s.Path(refFile))
 	}
-	return readingPlan{folder: folder, kind: kind, refMean: refMean, refFile: refFile}, nil
+	return readingPlan{folder: folder, kind: kind, refMean: refMean, refFile: refFile, refOwn: own}, nil
+}
+
+// ownReference says the --reference file of absorbance input is one of a
+// --data folder's own spectra (spectra.OwnSpectrum): it stays in the
+// series at its time and the differences are taken against its row, where
+// leaving it out would drop a spectrum and shift the times of a series
+// timed from its first file. A reference recorded apart is left out of the
+// folder as before, and so is any reference file of other kinds.
+func ownReference(s *Settings, refFile string, folder spectra.FolderOptions) bool {
+	for _, p := range s.Data {
+		if p != "" && spectra.OwnSpectrum(s.Path(p), s.Path(refFile), folder) {
+			return true
+		}
+	}
+	return false
 }
 
 // readExperiments reads every input, puts them on the channels they share
@@ -297,6 +315,9 @@ func readExperiments(r *Result, p readingPlan, log io.Writer) ([]*mat.Dense, err
 	series, kind, err := loadSeries(s, r, p.folder, p.kind, log)
 	if err != nil {
 		return nil, err
+	}
+	if kind == spectra.Difference && s.Reference != NewSettings().Reference {
+		return nil, usage("--reference %s with --kind difference: difference spectra carry their reference already (each is ΔA against the state it was taken against), so no other can be set; leave out --reference, or give the spectra as absorbance (--kind absorbance) to choose the state", s.Reference)
 	}
 	first := series[0]
 	axis, chans, err := commonChannels(s, series)
@@ -315,7 +336,7 @@ func readExperiments(r *Result, p readingPlan, log io.Writer) ([]*mat.Dense, err
 	}
 	opt := spectra.AssembleOptions{Kind: kind, Blank: blank,
 		Reference: spectra.Reference{Mean: p.refMean, File: refSpec}, BlankSource: s.Blank, Consume: true, Pre: s.Pre}
-	diffRows, err := assembleExperiments(s, r, series, axis, chans, opt, p.refFile)
+	diffRows, err := assembleExperiments(s, r, series, axis, chans, opt, p)
 	if err != nil {
 		return nil, err
 	}
@@ -781,7 +802,7 @@ func fixedSpectra(s *Settings, first *spectra.Series, axis []float64, chans []in
 // stacks the rows into r.D: absolute absorbance when every experiment has
 // it (species mode), the difference spectra otherwise (reactions mode). It
 // returns the experiments' difference rows, which the difference rank reads.
-func assembleExperiments(s *Settings, r *Result, series []*spectra.Series, axis []float64, chans []int, opt spectra.AssembleOptions, refFile string) ([]*mat.Dense, error) {
+func assembleExperiments(s *Settings, r *Result, series []*spectra.Series, axis []float64, chans []int, opt spectra.AssembleOptions, p readingPlan) ([]*mat.Dense, error) {
 	first := series[0]
 	var absRows, diffRows []*mat.Dense
 	var absW, diffW []*spectra.Weights
@@ -799,9 +820,13 @@ func assembleExperiments(s *Settings, r *Result, series []*spectra.Series, axis 
 				return nil, err
 			}
 		}
-		as, err := addExperiment(s, r, s.Data[ei], ser, sub, opt, refFile, row)
+		eopt := ownReferenceRow(s, ser, opt, p)
+		as, err := addExperiment(s, r, s.Data[ei], ser, sub, eopt, p.refFile, row)
 		if err != nil {
 			return nil, err
+		}
+		if note := referenceNote(s, r.Experiments[len(r.Experiments)-1], eopt); note != "" {
+			r.Notes = append(r.Notes, note)
 		}
 		if err := subtractLineSpectra(r, as, ser.Source, axis); err != nil {
 			return nil, err
@@ -1476,4 +1501,54 @@ func preSteps(r *Result) []string {
 		}
 	}
 	return out
+}
+
+// ownReferenceRow is opt for the experiment of series ser: when the
+// --reference file is one of ser's own spectra (readingPlan.refOwn), the
+// reference is that spectrum's row rather than the file read apart.
+func ownReferenceRow(s *Settings, ser *spectra.Series, opt spectra.AssembleOptions, p readingPlan) spectra.AssembleOptions {
+	if !p.refOwn {
+		return opt
+	}
+	want, err := filepath.Abs(s.Path(p.refFile))
+	if err != nil {
+		return opt
+	}
+	for i, name := range ser.Names {
+		if a, err := filepath.Abs(name); err == nil && a == want {
+			opt.Reference = spectra.Reference{Rows: []int{i}}
+			return opt
+		}
+	}
+	return opt
+}
+
+// referenceNote says what a --reference other than the default set for
+// absorbance input, whose resolution fits A itself: the state of the
+// differences ΔA = A − A_ref, which give the rank of ΔA, the report's
+// difference map and the kinetics' default t0. Without it the option would
+// look ignored, the resolution's files being the same whatever it is. ""
+// for other kinds (single beams' differences are the data; difference input
+// refuses the option) and for the default.
+func referenceNote(s *Settings, e *Experiment, opt spectra.AssembleOptions) string {
+	if opt.Kind != spectra.Absorbance || s.Reference == NewSettings().Reference {
+		return ""
+	}
+	times := e.Series.Times
+	// Any state averaged from the series' own spectra leaves ΔA spanning
+	// the same changes (a_i − Σ w_k a_k with Σ w_k = 1), so its rank does
+	// not move; a spectrum recorded apart can add its difference.
+	state, span := "", "ΔA's rank is the same against any state of the series' own spectra"
+	switch ref := opt.Reference; {
+	case ref.File != nil:
+		state = fmt.Sprintf("the spectrum in %s, recorded apart from the series", ref.File.Source)
+		span = "ΔA's rank also counts that spectrum's difference from the series' states"
+	case len(ref.Rows) > 0:
+		state = fmt.Sprintf("that file, the series' own spectrum at %g s, kept in the series", times[ref.Rows[0]])
+	default:
+		rows := e.RefRows
+		state = fmt.Sprintf("the mean of the first %d spectra (%g–%g s)", len(rows), times[rows[0]], times[rows[len(rows)-1]])
+	}
+	return fmt.Sprintf("%s: absorbance input, so --reference %s sets the state the differences ΔA = A − A_ref are taken against: %s; ΔA gives the rank of ΔA, the report's difference map and, unless --pre or --t0 sets it, the kinetics' t0 (here %g s); %s, and the resolution fits the absorbances A themselves, which no reference changes",
+		e.Source, s.Reference, state, e.T0, span)
 }

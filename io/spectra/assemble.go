@@ -42,6 +42,10 @@ func ParseKind(s string) (Kind, error) {
 type Reference struct {
 	Mean int       // average of the first Mean spectra (first = 1)
 	File *Spectrum // or a separately recorded spectrum of the same kind
+	// Rows, when File is nil and Rows is not empty, are the series' own
+	// spectra (0-based) averaged instead of the first Mean: a reference
+	// named by its file that is one of the series' spectra.
+	Rows []int
 }
 
 // ParseReference reads --reference first|mean:N|FILE (FILE read by caller).
@@ -141,13 +145,11 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 	if opt.Reference.File != nil {
 		copy(ref, opt.Reference.File.Values)
 	} else if opt.Kind != Difference {
-		k := max(opt.Reference.Mean, 1)
-		if k > n {
-			return nil, fmt.Errorf("reference mean:%d needs %d spectra, the data has %d", k, k, n)
+		rows, err := referenceRows(opt.Reference, n)
+		if err != nil {
+			return nil, err
 		}
-		for i := 0; i < k; i++ {
-			out.ReferenceRows = append(out.ReferenceRows, i)
-		}
+		out.ReferenceRows = rows
 	}
 	switch opt.Kind {
 	case SingleBeam:
@@ -201,6 +203,28 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 		s.Values = nil
 	}
 	return out, nil
+}
+
+// referenceRows are the rows of a series of n spectra averaged into its
+// reference: ref.Rows when given, else the first ref.Mean (at least one).
+func referenceRows(ref Reference, n int) ([]int, error) {
+	if len(ref.Rows) > 0 {
+		for _, i := range ref.Rows {
+			if i < 0 || i >= n {
+				return nil, fmt.Errorf("reference spectrum %d: the data has %d spectra", i+1, n)
+			}
+		}
+		return append([]int(nil), ref.Rows...), nil
+	}
+	k := max(ref.Mean, 1)
+	if k > n {
+		return nil, fmt.Errorf("reference mean:%d needs %d spectra, the data has %d", k, k, n)
+	}
+	rows := make([]int, k)
+	for i := range rows {
+		rows[i] = i
+	}
+	return rows, nil
 }
 
 func meanRows(v *mat.Dense, rows []int, dst []float64) {

@@ -9,6 +9,7 @@ import (
 	"path/filepath"
 	"regexp"
 	"runtime"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -207,6 +208,39 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 		return nil, err
 	}
 	return stackSpectra(dir, files, specs, times, order, target, opt.Resample)
+}
+
+// OwnSpectrum says whether file is one of the spectra ReadFolder reads from
+// dir with opt (opt.Exclude leaving out the other fixed files): a spectrum
+// file of the folder that has its time in the series, a row of the times
+// table or, with times from the names, a name read with the others' without
+// fault. A reference spectrum recorded apart (no time, or a name unlike the
+// series') is not, and is left out of the series as before.
+func OwnSpectrum(dir, file string, opt FolderOptions) bool {
+	if st, err := os.Stat(dir); err != nil || !st.IsDir() {
+		return false
+	}
+	files, err := spectrumFiles(dir, opt.Exclude)
+	if err != nil {
+		return false
+	}
+	want, err := filepath.Abs(file)
+	if err != nil || !slices.ContainsFunc(files, func(f string) bool {
+		a, err := filepath.Abs(f)
+		return err == nil && a == want
+	}) {
+		return false
+	}
+	switch {
+	case opt.TimesFile != "":
+		table, err := ReadTimes(opt.TimesFile)
+		_, listed := table[filepath.Base(file)]
+		return err == nil && listed
+	case opt.TimesFromName:
+		_, err := timesFromNames(files, opt.TimeUnit)
+		return err == nil
+	}
+	return false
 }
 
 // spectrumFiles lists the folder's spectrum files: by their endings, hidden
