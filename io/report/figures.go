@@ -844,10 +844,14 @@ func profilesFigure(f *Folder) (*Figure, error) {
 	xlo, xhi := span(tm)
 	hline(p, xlo, xhi, 0, grey, nil)
 	ix := f.longIndex()
+	// Every range first, then every profile: a range drawn after another
+	// component's points would hide them (it is opaque).
+	for k, j := range comps {
+		shades = append(shades, f.envelopes(ix, t.Header[j], "profile", componentColour(k), func(x, lo, hi []float64, c color.RGBA) { band(p, x, lo, hi, c) })...)
+	}
 	for k, j := range comps {
 		c := componentColour(k)
 		name := t.Header[j]
-		shades = append(shades, f.envelopes(ix, name, "profile", c, func(x, lo, hi []float64, c color.RGBA) { band(p, x, lo, hi, c) })...)
 		col := t.Col(j)
 		if len(fit) > 0 {
 			var pts plotter.XYs
@@ -899,11 +903,28 @@ func profilesCaption(f *Folder, shaded, fitted bool) (title, cap string) {
 	}
 	if fitted {
 		cap += " Points: resolved; lines: the kinetic model fitted to them."
+		if f.hasDataFitCurves() {
+			cap = strings.TrimSuffix(cap, ".") + ", and fitted to the data matrix itself, whose concentrations need not pass through the points: it finds its own spectra, and where the resolution is not unique the points are one of many solutions."
+		}
 		if f.Summary.Kinetics != nil && f.Summary.Kinetics.Model != "" {
 			cap += " Model: " + f.Summary.Kinetics.Model + "."
 		}
 	}
 	return title, cap
+}
+
+// hasDataFitCurves says whether kinetics.csv holds a fit of the data matrix
+// (columns S_data_fit, kineticCurves).
+func (f *Folder) hasDataFitCurves() bool {
+	if f.Kinetics == nil {
+		return false
+	}
+	for _, h := range f.Kinetics.Header {
+		if strings.HasSuffix(h, "_data_fit") {
+			return true
+		}
+	}
+	return false
 }
 
 // bySegment draws col against tm one experiment at a time (exp gives each

@@ -208,11 +208,14 @@ func drawLegend(c draw.Canvas, items []LegendItem, perRow int, w vg.Length) {
 		x := c.Min.X + 0.5*vg.Centimeter + vg.Length(col)*colW
 		y := c.Min.Y + vg.Length(rows-row)*legendRowH - legendRowH/2
 		sw := swatchW
-		if it.Fill {
+		switch {
+		case it.Marker: // a point, as the plot draws it (addPoints)
+			c.DrawGlyph(draw.GlyphStyle{Color: it.Colour, Radius: vg.Points(2.2), Shape: draw.CircleGlyph{}}, vg.Point{X: x + sw/2, Y: y})
+		case it.Fill:
 			box := vg.Rectangle{Min: vg.Point{X: x, Y: y - 0.12*vg.Centimeter}, Max: vg.Point{X: x + sw, Y: y + 0.12*vg.Centimeter}}
 			c.SetColor(it.Colour)
 			c.Fill(box.Path())
-		} else {
+		default:
 			ls := draw.LineStyle{Color: it.Colour, Width: vg.Points(1.6), Dashes: lengths(it.Dash)}
 			c.StrokeLine2(ls, x, y, x+sw, y)
 		}
