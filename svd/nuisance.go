@@ -121,8 +121,9 @@ const (
 //     order ≤ 3 of the axis;
 //   - band-shift: ≥ 80 % of its spectrum vector lies in the span of the derivatives of the
 //     chemical spectrum vectors before it;
-//   - minor: smooth, but the factors before it already fit the data to the noise
-//     (residual/noise ≤ 1.1), so adding it cannot lower the fit significantly;
+//   - minor: smooth, but the factors before it, counted or not, already fit the data to
+//     the noise (residual/noise ≤ 1.1), so adding it cannot lower the fit significantly;
+//     or it carries less than 2 % of the smallest counted component's signal;
 //   - chemical otherwise.
 //
 // Estimate is the number of chemical factors, never more than rep.Estimate (the
@@ -317,7 +318,7 @@ func (c *factorClassifier) minor(nf *NuisanceFactor, j int, u, vu []float64) boo
 	}
 	nf.Kind = NuisanceMinor
 	// 100·s·s/smallest, not 100·s2/smallest: the same bits as the share reported so far.
-	nf.Looks = minorLooks(u, vu, c.opt.Axis, ratio, c.chem, 100*c.f.S[j]*c.f.S[j]/c.smallest)
+	nf.Looks = minorLooks(u, vu, c.opt.Axis, ratio, j, c.chem, 100*c.f.S[j]*c.f.S[j]/c.smallest)
 	return true
 }
 
@@ -541,12 +542,26 @@ func smooth5(v []float64) []float64 {
 }
 
 // minorLooks describes a minor factor: where its spectrum is largest, how its time
-// vector runs (minorShape), and why it is not counted.
-func minorLooks(u, v, axis []float64, ratio float64, chem int, relPercent float64) string {
+// vector runs (minorShape), and why it is not counted. ratio is the SVD residual of all
+// the factors that precede it (before of them), of which chem are counted as components: the others
+// (minor, outliers, noise correlated along the axis) are in the data too, so the
+// residual that says whether this factor is within the noise is that of all of them,
+// not of the counted components alone (which the run's fit, without the others, has).
+func minorLooks(u, v, axis []float64, ratio float64, before, chem int, relPercent float64) string {
+	left := fmt.Sprintf("%s leave an SVD residual of %.3g × the noise, before any constraint or baseline", factorsBefore(before, chem), ratio)
 	if ratio <= fitsNoise {
-		return minorShape(u, v, axis) + fmt.Sprintf("; %d component(s) already fit to the noise (their SVD residual, before any constraint or baseline, is %.3g × the noise), so by its size alone it is not counted as a species", chem, ratio)
+		return minorShape(u, v, axis) + "; " + left + ": what it adds is within the noise, so by its size alone it is not counted as a species"
 	}
-	return minorShape(u, v, axis) + fmt.Sprintf("; it carries %.2g %% of the signal of the smallest of the %d component(s) before it (without it their SVD residual, before any constraint or baseline, is %.3g × the noise): too small beside them to tell a species from a change of band shape, so it is not counted", relPercent, chem, ratio)
+	return minorShape(u, v, axis) + fmt.Sprintf("; it carries %.2g %% of the signal of the smallest of the %d counted component(s) before it: too small beside them to tell a species from a change of band shape, so it is not counted (%s)", relPercent, chem, left)
+}
+
+// factorsBefore names the factors that precede a factor (before of them), chem of them
+// counted as components.
+func factorsBefore(before, chem int) string {
+	if before == chem {
+		return fmt.Sprintf("the %d counted component(s) before it", chem)
+	}
+	return fmt.Sprintf("the %d factors before it, %d counted as components and %d not,", before, chem, before-chem)
 }
 
 // minorShape says where a smooth factor's spectrum is largest and how its time
