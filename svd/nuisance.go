@@ -54,6 +54,9 @@ type ChemicalRank struct {
 // NuisanceOptions control ClassifyFactors.
 type NuisanceOptions struct {
 	Axis []float64 // the spectra's axis: needed for the baseline and band-shift tests (nil skips them)
+	// AxisName is the axis's name as the run knows it ("wavenumber", "wavelength", a
+	// column title): the descriptions give positions in its unit when it fixes one.
+	AxisName string
 	// MeanLevel says the first factor is the data's mean level (absorbance, not
 	// difference data): the size test of minor factors then compares with the chemical
 	// factors after it.
@@ -313,12 +316,12 @@ func (c *factorClassifier) minor(nf *NuisanceFactor, j int, u, vu []float64) boo
 			return false
 		}
 		nf.Kind = NuisanceMinor
-		nf.Looks = minorLooksInBlocks(u, vu, c.opt.Axis, shares)
+		nf.Looks = minorLooksInBlocks(c.minorShape(u, vu), shares)
 		return true
 	}
 	nf.Kind = NuisanceMinor
 	// 100·s·s/smallest, not 100·s2/smallest: the same bits as the share reported so far.
-	nf.Looks = minorLooks(u, vu, c.opt.Axis, ratio, j, c.chem, 100*c.f.S[j]*c.f.S[j]/c.smallest)
+	nf.Looks = minorLooks(c.minorShape(u, vu), ratio, j, c.chem, 100*c.f.S[j]*c.f.S[j]/c.smallest)
 	return true
 }
 
@@ -541,18 +544,17 @@ func smooth5(v []float64) []float64 {
 	return out
 }
 
-// minorLooks describes a minor factor: where its spectrum is largest, how its time
-// vector runs (minorShape), and why it is not counted. ratio is the SVD residual of all
+// minorLooks describes a minor factor: its shape (minorShape), and why it is not counted. ratio is the SVD residual of all
 // the factors that precede it (before of them), of which chem are counted as components: the others
 // (minor, outliers, noise correlated along the axis) are in the data too, so the
 // residual that says whether this factor is within the noise is that of all of them,
 // not of the counted components alone (which the run's fit, without the others, has).
-func minorLooks(u, v, axis []float64, ratio float64, before, chem int, relPercent float64) string {
+func minorLooks(shape string, ratio float64, before, chem int, relPercent float64) string {
 	left := fmt.Sprintf("%s leave an SVD residual of %.3g × the noise, before any constraint or baseline", factorsBefore(before, chem), ratio)
 	if ratio <= fitsNoise {
-		return minorShape(u, v, axis) + "; " + left + ": what it adds is within the noise, so by its size alone it is not counted as a species"
+		return shape + "; " + left + ": what it adds is within the noise, so by its size alone it is not counted as a species"
 	}
-	return minorShape(u, v, axis) + fmt.Sprintf("; it carries %.2g %% of the signal of the smallest of the %d counted component(s) before it: too small beside them to tell a species from a change of band shape, so it is not counted (%s)", relPercent, chem, left)
+	return shape + fmt.Sprintf("; it carries %.2g %% of the signal of the smallest of the %d counted component(s) before it: too small beside them to tell a species from a change of band shape, so it is not counted (%s)", relPercent, chem, left)
 }
 
 // factorsBefore names the factors that precede a factor (before of them), chem of them
@@ -564,11 +566,13 @@ func factorsBefore(before, chem int) string {
 	return fmt.Sprintf("the %d factors before it, %d counted as components and %d not,", before, chem, before-chem)
 }
 
-// minorShape says where a smooth factor's spectrum is largest and how its time
-// vector runs.
-func minorShape(u, v, axis []float64) string {
+// minorShape says where a smooth factor's spectrum is largest, on the axis in its
+// unit when the run knows it (axisPlace), and where its time vector is largest in
+// size (timePlace).
+func (c *factorClassifier) minorShape(u, v []float64) string {
 	var b strings.Builder
 	b.WriteString("smooth in time and along the axis")
+	axis := c.opt.Axis
 	if len(axis) == len(v) && len(v) > 0 {
 		at := 0
 		for j := range v {
@@ -576,8 +580,8 @@ func minorShape(u, v, axis []float64) string {
 				at = j
 			}
 		}
-		fmt.Fprintf(&b, ", largest near %.4g on the axis", axis[at])
-		b.WriteString(carbonDioxideAt(v, axis, at))
+		fmt.Fprintf(&b, ", largest near %s", axisPlace(axis[at], c.opt.AxisName))
+		b.WriteString(carbonDioxideAt(v, axis, at, axisUnit(c.opt.AxisName)))
 	}
 	if len(u) > 2 {
 		peak := 0
@@ -586,14 +590,63 @@ func minorShape(u, v, axis []float64) string {
 				peak = i
 			}
 		}
-		switch {
-		case peak == 0 || peak == len(u)-1:
-			b.WriteString(", drifting steadily in time")
-		default:
-			fmt.Fprintf(&b, ", largest at spectrum %d of %d (a transient)", peak+1, len(u))
-		}
+		b.WriteString(timePlace(peak, len(u), c.opt.Blocks))
 	}
 	return b.String()
+}
+
+// axisUnit is the unit of an axis the run names: cm⁻¹ for wavenumbers (the
+// readers name an axis "wavenumber" only from a cm⁻¹ title or unit); "" when the
+// name does not fix it (a wavelength may be in nm or µm).
+func axisUnit(name string) string {
+	if name == "wavenumber" {
+		return "cm⁻¹"
+	}
+	return ""
+}
+
+// axisPlace writes a position on the axis: "1702 cm⁻¹" with a known unit,
+// "450 on the wavelength axis" with a name only, "450 on the axis" with neither.
+func axisPlace(x float64, name string) string {
+	switch {
+	case axisUnit(name) != "":
+		return fmt.Sprintf("%.4g %s", x, axisUnit(name))
+	case name != "":
+		return fmt.Sprintf("%.4g on the %s axis", x, name)
+	}
+	return fmt.Sprintf("%.4g on the axis", x)
+}
+
+// timePlace says where a factor's time vector is largest in size, as spectrum
+// peak (0-based) of n, and in a stack (blocks: the experiments' first rows) in
+// which experiment. It does not call the place a transient or a drift: a
+// factor's time vector is orthogonal to those of the larger factors, so a
+// change that grows through the run shows there as a vector that changes sign
+// and peaks inside it (catalyst-0.01 series: factor 3 largest at spectrum 29 of
+// 50, the refit's non-negative profile of the same change growing to the end);
+// the refit's profile says how the change runs. Largest where one experiment
+// ends and the next begins, it is a step between the experiments.
+func timePlace(peak, n int, blocks []int) string {
+	const hedge = "a time vector is orthogonal to the larger factors', so not a component's profile"
+	at := fmt.Sprintf(", its time vector largest in size at spectrum %d of %d", peak+1, n)
+	if len(blocks) < 2 {
+		return at + " (" + hedge + ")"
+	}
+	bounds := experimentBounds(blocks, n)
+	for e, bd := range bounds {
+		if peak < bd[0] || peak >= bd[1] {
+			continue
+		}
+		step := ": a step between the experiments, not a change within either (" + hedge + ")"
+		switch {
+		case peak == bd[1]-1 && e+1 < len(bounds):
+			return at + fmt.Sprintf(", the last of experiment %d next to the first of experiment %d", e+1, e+2) + step
+		case peak == bd[0] && e > 0:
+			return at + fmt.Sprintf(", the first of experiment %d next to the last of experiment %d", e+1, e) + step
+		}
+		return at + fmt.Sprintf(" (spectrum %d of %d of experiment %d; %s)", peak-bd[0]+1, bd[1]-bd[0], e+1, hedge)
+	}
+	return at + " (" + hedge + ")"
 }
 
 // carbonDioxideAt names CO₂ when a factor's spectrum is largest in a line
@@ -603,7 +656,7 @@ func minorShape(u, v, axis []float64) string {
 // a purge or the room changes. A sample's band there is seldom that narrow.
 // Only on an axis that reaches 1500 (a mid-infrared one in cm⁻¹): a
 // UV-visible axis in nm, which stops near 1100, has 664–671 too.
-func carbonDioxideAt(v, axis []float64, at int) string {
+func carbonDioxideAt(v, axis []float64, at int, unit string) string {
 	if x := axis[at]; x < 664 || x > 671 || max(axis[0], axis[len(axis)-1]) < 1500 {
 		return ""
 	}
@@ -630,7 +683,10 @@ func carbonDioxideAt(v, axis []float64, at int) string {
 	if width > 6 {
 		return ""
 	}
-	return fmt.Sprintf(" (a line %.2g wide at half height where CO₂ in the beam path has its sharp bending band, 667 cm⁻¹: the air's CO₂ changed, not the sample)", width)
+	if unit != "" {
+		unit = " " + unit
+	}
+	return fmt.Sprintf(" (a line %.2g%s wide at half height where CO₂ in the beam path has its sharp bending band, 667 cm⁻¹: the air's CO₂ changed, not the sample)", width, unit)
 }
 
 // minorInEveryBlock says whether factor j, counted by its size in the stack of
@@ -736,10 +792,10 @@ func (c *factorClassifier) blockSmallest(sv []float64, ref, rows int) float64 {
 }
 
 // minorLooksInBlocks describes a factor minor in every experiment of a stack.
-func minorLooksInBlocks(u, v, axis []float64, shares []float64) string {
+func minorLooksInBlocks(shape string, shares []float64) string {
 	var each []string
 	for e, sh := range shares {
 		each = append(each, fmt.Sprintf("%.2g %% in experiment %d", sh, e+1))
 	}
-	return minorShape(u, v, axis) + fmt.Sprintf("; of each experiment's own smallest component it carries %s: too small beside it in every experiment to tell a species from a change of band shape, so it is not counted (the stack measured it against a smaller factor that differs between the experiments)", strings.Join(each, ", "))
+	return shape + fmt.Sprintf("; of each experiment's own smallest component it carries %s: too small beside it in every experiment to tell a species from a change of band shape, so it is not counted (the stack measured it against a smaller factor that differs between the experiments)", strings.Join(each, ", "))
 }

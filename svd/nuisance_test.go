@@ -202,8 +202,8 @@ func TestCarbonDioxideAt(t *testing.T) {
 				at = j
 			}
 		}
-		got := carbonDioxideAt(tc.v, axis, at)
-		if nm := carbonDioxideAt(tc.v[:400], axis[:400], min(at, 399)); nm != "" {
+		got := carbonDioxideAt(tc.v, axis, at, "")
+		if nm := carbonDioxideAt(tc.v[:400], axis[:400], min(at, 399), ""); nm != "" {
 			t.Errorf("%s on an axis that stops at 800 (nm, UV-visible): %q, want nothing", tc.name, nm)
 		}
 		if tc.wantWidth == 0 {
