@@ -5,8 +5,10 @@ import (
 	"path/filepath"
 	"regexp"
 	"strconv"
+	"strings"
 	"testing"
 
+	"github.com/bandsolve/bandsolve/mcr"
 	"github.com/bandsolve/bandsolve/svd"
 )
 
@@ -77,5 +79,75 @@ func TestMinorResidualNamesItsFactors(t *testing.T) {
 	}
 	if checked < 2 {
 		t.Fatalf("%d minor factors checked, want the 2 the series shows (factors 3 and 5)", checked)
+	}
+}
+
+// The trimmed urethane series is in wavenumbers, cm⁻¹ (its README), and the axis is
+// named so: a minor factor's position says cm⁻¹, not "on the axis". Its time vector is
+// not called a transient or a drift: orthogonal to the larger factors' (definition of
+// the SVD), it need not run like a component (the refit's profile says how it runs).
+func TestMinorWordsOnTheTrimmedSeries(t *testing.T) {
+	r := runTrimmedUrethane(t)
+	near := regexp.MustCompile(`largest near [0-9.]+ cm⁻¹`)
+	checked := 0
+	for _, nf := range r.Chemical.Nuisance {
+		if nf.Kind != svd.NuisanceMinor {
+			continue
+		}
+		checked++
+		if !near.MatchString(nf.Looks) || strings.Contains(nf.Looks, "on the axis") {
+			t.Errorf("factor %d: %q, want its position in cm⁻¹", nf.Factor, nf.Looks)
+		}
+		if strings.Contains(nf.Looks, "transient") || strings.Contains(nf.Looks, "drifting") {
+			t.Errorf("factor %d: %q, a time vector read as a course in time", nf.Factor, nf.Looks)
+		}
+	}
+	if checked == 0 {
+		t.Fatal("no minor factor on the trimmed series (factors 3 and 5 expected)")
+	}
+}
+
+// stackOfUrethane is a Result laid out as the two urethane series stacked (50 and 58
+// spectra, README of testdata/urethane-atr), each with its own times from 0.
+func stackOfUrethane() *Result {
+	r := &Result{Experiments: []*Experiment{{FirstRow: 0, Rows: 50}, {FirstRow: 50, Rows: 58}}}
+	for e, ex := range r.Experiments {
+		for i := 0; i < ex.Rows; i++ {
+			r.Times = append(r.Times, 20*float64(i))
+			r.ExpOfRow = append(r.ExpOfRow, e)
+		}
+	}
+	return r
+}
+
+// In a stack each experiment's times start again at 0, so the spectra an outlier factor
+// lives in are named with their experiment; a single experiment's are named as before.
+func TestSpectraTimesNameTheExperiment(t *testing.T) {
+	r := stackOfUrethane()
+	if got, want := spectraTimes(r, []int{0, 1, 2, 50, 51}), " (at t = 0, 20, 40 s in experiment 1; 0, 20 s in experiment 2)"; got != want {
+		t.Errorf("stack: %q, want %q", got, want)
+	}
+	if got, want := spectraTimes(r, []int{55}), " (at t = 100 s in experiment 2)"; got != want {
+		t.Errorf("stack, one spectrum: %q, want %q", got, want)
+	}
+	one := &Result{Experiments: []*Experiment{{Rows: 3}}, Times: []float64{0, 92, 131}, ExpOfRow: []int{0, 0, 0}}
+	if got, want := spectraTimes(one, []int{1, 2}), " (at t = 92, 131 s)"; got != want {
+		t.Errorf("one experiment: %q, want %q", got, want)
+	}
+}
+
+// The refit's profile of the stacked urethane series' factor 4 rises through the first
+// experiment to its 47th spectrum of 50 and stays near zero in the second (seen on the
+// two series stacked): it grows to the end of experiment 1, and is no transient of the
+// stack, whose 47th row is not near its end (108 rows).
+func TestMinorShapeWithinItsExperiment(t *testing.T) {
+	r := stackOfUrethane()
+	got := minorShape(r, &mcr.MinorTest{PeakRow: 46, EarlyShare: 0.01})
+	if !strings.Contains(got, "growing to the end of experiment 1") || strings.Contains(got, "transient") {
+		t.Errorf("peak at row 47 of experiment 1's 50: %q, want growing to the end of experiment 1", got)
+	}
+	got = minorShape(r, &mcr.MinorTest{PeakRow: 60, EarlyShare: 0.01})
+	if !strings.Contains(got, "largest at t = 200 s in experiment 2") {
+		t.Errorf("peak at row 11 of experiment 2: %q, want it placed at t = 200 s in experiment 2", got)
 	}
 }

@@ -169,18 +169,36 @@ func minorLooks(r *Result, mt *mcr.MinorTest) string {
 	return fmt.Sprintf("as one more component its profile is %s; of what its spectrum adds to the others, %.0f %% is their derivative (a band shift when large) and %.0f %% lies under their bands", minorShape(r, mt), 100*mt.ShiftShare, 100*mt.InBandShare)
 }
 
-// minorShape says where the refitted component's profile lives in time.
+// minorShape says where the refitted component's profile lives in time. In a stack
+// its largest value is placed within its experiment, whose times start again at 0 and
+// whose end is not the stack's.
 func minorShape(r *Result, mt *mcr.MinorTest) string {
-	n := len(r.Times)
+	first, n, in := 0, len(r.Times), ""
+	if e, ok := experimentOf(r, mt.PeakRow); ok {
+		first, n, in = r.Experiments[e].FirstRow, r.Experiments[e].Rows, fmt.Sprintf(" of experiment %d", e+1)
+	}
+	peak := mt.PeakRow - first
 	switch {
 	case mt.EarlyShare >= 0.5:
 		return fmt.Sprintf("concentrated early (%.0f %% of its profile in the first fifth of the spectra: a mixing or settling transient)", 100*mt.EarlyShare)
-	case mt.PeakRow >= n-max(1, n/10):
+	case peak >= n-max(1, n/10) && in == "":
 		return "growing to the end of the run (a slow product or drift)"
-	case mt.PeakRow > 0:
-		return fmt.Sprintf("rising then falling, largest at t = %s s (a transient)", output.Float(r.Times[mt.PeakRow]))
+	case peak >= n-max(1, n/10):
+		return "growing to the end" + in + ", where it is largest (a slow product or drift)"
+	case peak > 0:
+		return fmt.Sprintf("rising then falling, largest at t = %s s%s (a transient)", output.Float(r.Times[mt.PeakRow]), strings.Replace(in, " of ", " in ", 1))
+	case in != "" && first > 0:
+		return "largest at the start" + in
 	}
 	return "spread over the run"
+}
+
+// experimentOf is the experiment of a row of a stack; false for a single experiment.
+func experimentOf(r *Result, row int) (int, bool) {
+	if len(r.Experiments) < 2 || row < 0 || row >= len(r.ExpOfRow) {
+		return 0, false
+	}
+	return r.ExpOfRow[row], true
 }
 
 // minorRefitJSON is the refit verdict of a factor for summary.json (nil when untested).

@@ -212,7 +212,7 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 	if err != nil {
 		return nil, nil, err
 	}
-	cr := svd.ClassifyFactors(dc, f, rep, svd.NuisanceOptions{Axis: r.Axis, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis, Blocks: experimentBlocks(r)})
+	cr := svd.ClassifyFactors(dc, f, rep, svd.NuisanceOptions{Axis: r.Axis, AxisName: r.AxisName, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis, Blocks: experimentBlocks(r)})
 	svd.ApplyChemical(rep, cr)
 	return rep, cr, nil
 }
@@ -234,7 +234,7 @@ func screenedRank(r *Result, d *mat.Dense, f *svd.Factors, q, dq *mat.Dense, in 
 	if err != nil {
 		return nil, nil, err
 	}
-	cr := svd.ClassifyFactors(nil, pf, rep, svd.NuisanceOptions{Axis: r.Axis, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis, Blocks: experimentBlocks(r)})
+	cr := svd.ClassifyFactors(nil, pf, rep, svd.NuisanceOptions{Axis: r.Axis, AxisName: r.AxisName, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis, Blocks: experimentBlocks(r)})
 	svd.ApplyChemical(rep, cr)
 	return rep, cr, nil
 }
@@ -410,15 +410,7 @@ func nuisanceAdvice(r *Result) {
 			continue // has its own advice
 		}
 		r.Advice = append(r.Advice, sharedMinorAdvice(r, nf.Factor, said)...)
-		at := ""
-		if len(nf.Spectra) > 0 {
-			var ts []string
-			for _, i := range nf.Spectra {
-				ts = append(ts, output.Float(r.Times[i]))
-			}
-			at = " (at t = " + strings.Join(ts, ", ") + " s)"
-		}
-		r.Advice = append(r.Advice, fmt.Sprintf("factor %d (%.2g %% of the signal) is not counted as a species: %s%s%s", nf.Factor, nf.SharePercent, nf.Looks, at, minorAdvice(r, nf.Factor)))
+		r.Advice = append(r.Advice, fmt.Sprintf("factor %d (%.2g %% of the signal) is not counted as a species: %s%s%s", nf.Factor, nf.SharePercent, nf.Looks, spectraTimes(r, nf.Spectra), minorAdvice(r, nf.Factor)))
 	}
 	for _, nf := range r.MinorSpecies {
 		r.Advice = append(r.Advice, sharedMinorAdvice(r, nf.Factor, said)...)
@@ -427,6 +419,32 @@ func nuisanceAdvice(r *Result) {
 	if cr.NoiseLike > 0 {
 		r.Notes = append(r.Notes, fmt.Sprintf("%d factor(s) above the white-noise level have a time vector as white as noise: noise correlated along the axis (instrument smoothing or interpolation), not counted", cr.NoiseLike))
 	}
+}
+
+// spectraTimes names the spectra (rows) an outlier factor lives in by their times,
+// " (at t = 92, 131 s)"; in a stack by experiment, since each experiment's times start
+// again at 0: " (at t = 0, 22 s in experiment 1; 0, 292 s in experiment 2)". "" for none.
+func spectraTimes(r *Result, rows []int) string {
+	if len(rows) == 0 {
+		return ""
+	}
+	stack := len(r.Experiments) > 1 && len(r.ExpOfRow) == len(r.Times)
+	var parts, ts []string
+	for k, i := range rows {
+		ts = append(ts, output.Float(r.Times[i]))
+		if !stack {
+			continue
+		}
+		// rows ascend, so an experiment's rows are together.
+		if e := r.ExpOfRow[i]; k+1 == len(rows) || r.ExpOfRow[rows[k+1]] != e {
+			parts = append(parts, fmt.Sprintf("%s s in experiment %d", strings.Join(ts, ", "), e+1))
+			ts = nil
+		}
+	}
+	if !stack {
+		return " (at t = " + strings.Join(ts, ", ") + " s)"
+	}
+	return " (at t = " + strings.Join(parts, "; ") + ")"
 }
 
 // SetAside is one spectrum set aside (weight zero): an outlier or a --drop.
