@@ -1,8 +1,12 @@
 package svd
 
 import (
+	"math"
+	"math/rand/v2"
 	"strings"
 	"testing"
+
+	"gonum.org/v1/gonum/mat"
 )
 
 // Where a factor's time vector is largest, in a stack of the two urethane ATR series
@@ -50,5 +54,63 @@ func TestAxisPlace(t *testing.T) {
 		if got := axisPlace(1702, tc.name); got != tc.want {
 			t.Errorf("axis %q: %q, want %q", tc.name, got, tc.want)
 		}
+	}
+}
+
+// capData is n × m white noise of σ = 1e-3 plus k rank-one terms cos(π a (i+½)/n) ·
+// cos(π b (j+½)/m) (orthogonal cosines: the discrete cosine transform's basis, so the
+// terms' singular values are their amplitudes times √(nm)/2), each amplitude far above
+// the Marchenko–Pastur edge σ(√n + √m) (Geman 1980).
+func capData(n, m, k int) *mat.Dense {
+	rng := rand.New(rand.NewPCG(7, 11))
+	d := mat.NewDense(n, m, nil)
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			v := 1e-3 * rng.NormFloat64()
+			for a := 1; a <= k; a++ {
+				amp := 0.05 / float64(a)
+				v += amp * math.Cos(math.Pi*float64(a)*(float64(i)+0.5)/float64(n)) * math.Cos(math.Pi*float64(a)*(float64(j)+0.5)/float64(m))
+			}
+			d.Set(i, j, v)
+		}
+	}
+	return d
+}
+
+// With more factors above the noise than the criteria examine (12 by default), the noise
+// floor says its count stopped there (AtLeast) and the reason gives the whole count: 20
+// terms each above the edge (smallest 0.05/20 · √(40·200)/2 ≈ 0.11 against an edge of
+// 1e-3 · (√40 + √200) ≈ 0.020) give 20 singular values above the threshold. Its consensus
+// judges only the spectrum side when the 40 spectra are too few for the 14 directions it
+// looks at (l ≥ 5K, docs/rank.md §5), and says so; a σ given with words for it is named by
+// them, not "given".
+func TestRankSaysWhereItsCountStops(t *testing.T) {
+	const n, m, k = 40, 200, 20
+	rep, err := EstimateRank(capData(n, m, k), nil, RankOptions{Sigma: 1e-3, SigmaFrom: "the test's noise", ReferenceRow: -1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.AboveThreshold != k || rep.Examined != defaultMaxRank {
+		t.Errorf("above the threshold %d of %d examined, want %d of %d", rep.AboveThreshold, rep.Examined, k, defaultMaxRank)
+	}
+	floor := rep.Criteria[0]
+	if floor.Name != CriterionNoiseFloor || floor.Estimate != defaultMaxRank || !floor.AtLeast || !strings.Contains(floor.Detail, "20 of the 40 singular values computed exceed") {
+		t.Errorf("noise floor %+v, want at least 12 and 20 of 40 named", floor)
+	}
+	for _, want := range []string{"20 factor(s) above the noise threshold", "the test's noise", "the first 14 are examined", "the time side is not judged: 40 spectra are too few for 14 directions, which need 70"} {
+		if !strings.Contains(rep.Reason, want) {
+			t.Errorf("reason %q lacks %q", rep.Reason, want)
+		}
+	}
+	if strings.Contains(rep.Reason, "given") {
+		t.Errorf("reason %q calls σ given beside its words", rep.Reason)
+	}
+	// Fewer factors than the cap: an exact count, no "at least".
+	rep, err = EstimateRank(capData(n, m, 3), nil, RankOptions{Sigma: 1e-3, ReferenceRow: -1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if f := rep.Criteria[0]; f.Estimate != 3 || f.AtLeast || rep.AboveThreshold != 3 {
+		t.Errorf("3 terms: noise floor %+v, above %d; want exactly 3", f, rep.AboveThreshold)
 	}
 }

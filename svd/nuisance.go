@@ -45,7 +45,16 @@ type ChemicalRank struct {
 	// is the number the classification found chemical (which may exceed Estimate, capped
 	// at the criteria's consensus).
 	Examined int
-	Sigma    float64 // noise level of the "fits to the noise" test
+	// Unexamined counts the factors above the noise threshold beyond those examined
+	// (the rank report's AboveThreshold less Examined: the criteria look at a dozen);
+	// UnexaminedShare is the largest one's signal over the smallest counted
+	// component's (0: no component to compare with). Below minorEnergy
+	// (UnexaminedMinor) each would be minor by its size, so the count does not
+	// depend on them.
+	Unexamined      int
+	UnexaminedShare float64
+	UnexaminedMinor bool
+	Sigma           float64 // noise level of the "fits to the noise" test
 	// ResidualRatio is √(tail(Estimate)/((n−k)(m−k)σ²)): 1 means the chemical factors fit
 	// the data to the noise.
 	ResidualRatio float64
@@ -112,6 +121,10 @@ const (
 	minorEnergy = 0.02
 )
 
+// MinorEnergy is the share of the smallest counted component's signal below which a
+// smooth factor is minor (minorEnergy), for callers' words.
+const MinorEnergy = minorEnergy
+
 // ClassifyFactors looks at each factor above the noise threshold of rep, in order of
 // size, and says what it is:
 //   - reference-pattern: recognised by EstimateRank;
@@ -147,12 +160,29 @@ func ClassifyFactors(d *mat.Dense, f *Factors, rep *RankReport, opt NuisanceOpti
 		out.Examined++
 		c.classify(j, row)
 	}
+	c.unexamined(rep)
 	out.Estimate = min(c.chem, rep.Estimate)
 	out.ResidualRatio = c.residualRatio(out.Estimate)
 	if math.IsInf(out.ResidualRatio, 0) {
 		out.ResidualRatio = 0
 	}
 	return out
+}
+
+// unexamined records the factors above the noise threshold that the loop did
+// not reach (the table ends at a dozen) and how large the first of them is
+// beside the smallest counted component.
+func (c *factorClassifier) unexamined(rep *RankReport) {
+	out := c.out
+	if out.Unexamined = rep.AboveThreshold - out.Examined; out.Unexamined <= 0 || out.Examined >= len(c.f.S) {
+		out.Unexamined = 0
+		return
+	}
+	if c.smallest > 0 {
+		s := c.f.S[out.Examined]
+		out.UnexaminedShare = s * s / c.smallest
+		out.UnexaminedMinor = out.UnexaminedShare < minorEnergy
+	}
 }
 
 // factorClassifier carries what the classification of one factor learns for the
@@ -337,15 +367,28 @@ func (c *factorClassifier) countChemical(j int, vu []float64) {
 
 // ApplyChemical makes the chemical count rep's estimate: the reason says so and the
 // warnings that judged the consensus count (which counted the nuisance factors) are
-// dropped, since the classification has accounted for every factor above the noise.
+// dropped, since the classification has accounted for every factor it examined. Factors
+// above the noise beyond those (cr.Unexamined) that could be counted keep a warning;
+// those minor by size are the caller's to note (the count does not depend on them).
 func ApplyChemical(rep *RankReport, cr *ChemicalRank) {
-	if rep == nil || cr == nil || cr.Estimate == rep.Estimate {
+	if rep == nil || cr == nil {
 		return
 	}
-	rep.Reason += fmt.Sprintf(" Of these, %d are chemical components (Malinowski's IND %d, F-test %d); the others are nuisance factors or noise correlated along the axis.", cr.Estimate, rep.ind, rep.fTest)
-	rep.Estimate = cr.Estimate
-	if rep.consensusWarnings <= len(rep.Warnings) {
-		rep.Warnings = rep.Warnings[:rep.consensusWarnings]
+	if cr.Estimate != rep.Estimate {
+		rep.Reason += fmt.Sprintf(" Of these, %d are chemical components (Malinowski's IND %d, F-test %d); the others are nuisance factors or noise correlated along the axis.", cr.Estimate, rep.ind, rep.fTest)
+		rep.Estimate = cr.Estimate
+		if rep.consensusWarnings <= len(rep.Warnings) {
+			rep.Warnings = rep.Warnings[:rep.consensusWarnings]
+			rep.capWarned = false
+		}
+	}
+	if cr.Unexamined > 0 && !cr.UnexaminedMinor && !rep.capWarned {
+		// The classification did not account for these: the count may be higher.
+		what := "with no counted component to compare them with"
+		if cr.UnexaminedShare > 0 {
+			what = fmt.Sprintf("and the largest of them carries %.2g %% of the signal of the smallest counted component, more than the %.0f %% below which a smooth factor is minor", 100*cr.UnexaminedShare, 100*minorEnergy)
+		}
+		rep.warn("%d factor(s) above the noise threshold lie beyond the %d examined and were not classified, %s: the count may be higher, or σ too small", cr.Unexamined, cr.Examined, what)
 	}
 }
 

@@ -56,14 +56,20 @@ type RankOptions struct {
 	// ProjectFactors) is then never stored whole (ScreenRows). A screen of other
 	// dimensions than the matrix's is not used.
 	Screen *Screen
+	// SigmaFrom says in words what a given Sigma is (e.g. the unit of a noise-weighted
+	// matrix), for the reason and the noise floor's detail; "" says "given".
+	SigmaFrom string
 }
 
 // Criterion is one rank criterion's answer.
 type Criterion struct {
 	Name     string // "noise-floor", "ind", "f-test", "structure"
 	Estimate int
-	Source   string // citation
-	Detail   string // one sentence
+	// AtLeast says the count stopped at the factors the criteria examine
+	// (RankReport.Examined) with more above the noise: the true count is larger.
+	AtLeast bool
+	Source  string // citation
+	Detail  string // one sentence
 }
 
 // CandidateRow holds the statistics of factor K (1-based): its singular value, Malinowski's
@@ -86,6 +92,14 @@ type RankReport struct {
 	Criteria    []Criterion
 	Table       []CandidateRow
 	Reason      string // the consensus in words
+	// Examined is the number of factors the criteria count up to (MaxRank, 12 by
+	// default); Table holds two more. AboveThreshold counts every singular value of
+	// the factors supplied above Threshold, beyond the table too; AboveAtLeast says
+	// that all of them were above it and the decomposition was truncated, so the
+	// matrix may have more.
+	Examined       int
+	AboveThreshold int
+	AboveAtLeast   bool
 	// ReferencePatternFactor is the index (0-based) of the factor recognised as the
 	// reference-noise pattern, -1 none.
 	ReferencePatternFactor int
@@ -95,6 +109,7 @@ type RankReport struct {
 	// criteria's counts.
 	consensusWarnings int
 	ind, fTest        int
+	capWarned         bool // the warning that the estimate reached the factors examined was given
 }
 
 // EstimateRank estimates how many factors of D carry chemistry. f may be nil (then D is
@@ -168,6 +183,7 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 		return nil, err
 	}
 	nFloor := min(p.kAbove-p.excluded(p.kAbove), p.maxRank)
+	p.countAbove()
 	kInd := p.indMinimum()
 	nF := p.fTestCount()
 	nStruct := p.structureCount()
@@ -181,6 +197,7 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 		}
 		if nFloor == p.maxRank && est == p.maxRank {
 			rep.warn("the estimate reached the %d factors examined: the rank may be higher or σ too small", p.maxRank)
+			rep.capWarned = true
 		}
 	}
 	return rep, nil
@@ -203,7 +220,8 @@ type rankProblem struct {
 	refRow int       // the reference row of difference data, -1 none
 	numTol float64   // the rounding level below which a singular value is zero
 	mal    indicator // Malinowski's RE and IND of the factors
-	kAbove int       // factors above the count threshold
+	kAbove int       // factors of the table above the count threshold
+	beyond int       // smooth directions above the noise beyond maxRank (consensus)
 	dirs   []direction
 	patDir int // the direction of dirs that is the reference-noise pattern, -1 none
 }
@@ -519,7 +537,7 @@ func (p *rankProblem) structureCount() int {
 // that is not white (the estimate, capped at maxRank), and those that do not
 // (rough). It sets the estimate and warns of structured factors beyond the cap.
 func (p *rankProblem) consensus() (est, rough int) {
-	var beyond int
+	beyond := 0
 	for _, sf := range signalFactors(p.f, p.kAbove, p.dirs, p.patDir) {
 		aU, aV := Autocorrelation(sf.u), Autocorrelation(sf.v)
 		switch {
@@ -533,7 +551,7 @@ func (p *rankProblem) consensus() (est, rough int) {
 			rough++
 		}
 	}
-	p.rep.Estimate = est
+	p.rep.Estimate, p.beyond = est, beyond
 	p.rep.consensusWarnings = len(p.rep.Warnings)
 	if beyond > 0 {
 		p.rep.warn("%d more structured factor(s) above the noise lie beyond the %d examined", beyond, p.maxRank)
@@ -549,10 +567,15 @@ func (p *rankProblem) criteria(nFloor, kInd, nF, nStruct int) []Criterion {
 	if pat >= 0 {
 		patNote = fmt.Sprintf("; the reference-noise pattern (mostly factor %d) not counted", pat+1)
 	}
+	floor := fmt.Sprintf("%d singular values exceed %.4g (σ = %.4g, %s; edge %.4g)%s", nFloor, rep.Threshold, rep.Sigma, p.sigmaWords(), rep.NoiseEdge, patNote)
+	atLeast := rep.AboveThreshold-p.excluded(p.kAbove) > nFloor
+	if atLeast {
+		floor = fmt.Sprintf("%s of the %d singular values computed exceed %.4g (σ = %.4g, %s; edge %.4g)%s; counted up to the %d factors examined", p.aboveWords(), len(p.f.S), rep.Threshold, rep.Sigma, p.sigmaWords(), rep.NoiseEdge, patNote, p.maxRank)
+	}
 	return []Criterion{
-		{Name: CriterionNoiseFloor, Estimate: nFloor,
+		{Name: CriterionNoiseFloor, Estimate: nFloor, AtLeast: atLeast,
 			Source: "Marchenko–Pastur edge σ(√n+√m) (Geman, Ann. Probab. 1980) with a Tracy–Widom margin (Johnstone, Ann. Statist. 2001); σ by Gavish & Donoho (IEEE Trans. Inf. Theory 2014) when estimated from the spectrum",
-			Detail: fmt.Sprintf("%d singular values exceed %.4g (σ = %.4g from %s, edge %.4g)%s", nFloor, rep.Threshold, rep.Sigma, rep.SigmaSource, rep.NoiseEdge, patNote)},
+			Detail: floor},
 		{Name: CriterionIND, Estimate: kInd,
 			Source: "Malinowski, Anal. Chem. 1977 (indicator function IND = RE/(c−k)²)",
 			Detail: fmt.Sprintf("IND(k) = RE(k)/(c−k)² is smallest at k = %d over k = 0..%d%s", kInd+p.excluded(kInd+1), min(p.maxRank+p.excluded(p.maxRank), p.c-1), patNote)},
@@ -565,25 +588,94 @@ func (p *rankProblem) criteria(nFloor, kInd, nF, nStruct int) []Criterion {
 	}
 }
 
-// reason puts the consensus in words.
+// reason puts the consensus in words: how many factors stand above the noise
+// (AboveThreshold: all the singular values computed), how many the consensus
+// looks at (the table's), how many smooth directions it finds there and which
+// sides it could judge, and how many of them it counts (at most maxRank).
 func (p *rankProblem) reason(est, rough int) string {
 	rep := p.rep
 	if p.f.FrobeniusSq == 0 {
 		return "the matrix is exactly zero (identical single beams: nothing happened), so there are no factors"
 	}
 	var b strings.Builder
-	fmt.Fprintf(&b, "%d factor(s) above the noise threshold %.4g (σ = %.4g, %s)", p.kAbove, rep.Threshold, rep.Sigma, rep.SigmaSource)
+	fmt.Fprintf(&b, "%s factor(s) above the noise threshold %.4g (σ = %.4g, %s)", p.aboveWords(), rep.Threshold, rep.Sigma, p.sigmaWords())
+	if rep.AboveThreshold > p.kAbove {
+		fmt.Fprintf(&b, "; the first %d are examined", p.kAbove)
+	}
 	if p.kAbove > 0 {
-		fmt.Fprintf(&b, "; in their span %d smooth direction(s) (time and spectrum both structured) are counted", est)
+		fmt.Fprintf(&b, "; in their span %d smooth direction(s) (%s)", est+p.beyond, p.judgedSides())
+		if p.beyond > 0 {
+			fmt.Fprintf(&b, ", of which %d are counted, the most the criteria examine", est)
+		} else {
+			b.WriteString(" are counted")
+		}
 	}
 	if rough > 0 {
-		fmt.Fprintf(&b, "; %d direction(s) with a white time or spectrum vector are not", rough)
+		white := "time or spectrum vector"
+		switch tj, sj := judgeable(p.n, p.kAbove), judgeable(p.m, p.kAbove); {
+		case sj && !tj:
+			white = "spectrum vector"
+		case tj && !sj:
+			white = "time vector"
+		}
+		fmt.Fprintf(&b, "; %d direction(s) with a white %s are not", rough, white)
 	}
 	if p.patDir >= 0 {
 		fmt.Fprintf(&b, "; one direction (mostly factor %d) is the reference-noise pattern of row %d, not a species", rep.ReferencePatternFactor+1, p.refRow)
 	}
 	fmt.Fprintf(&b, ": estimate %d.", est)
 	return b.String()
+}
+
+// judgedSides says what made a direction smooth for the consensus: both of its
+// vectors, or only the side long enough to judge for kAbove directions
+// (judgeable), so that a reader does not take the consensus for the structure
+// criterion, which judges each factor's own two vectors.
+func (p *rankProblem) judgedSides() string {
+	k := p.kAbove
+	need := max(minStructureLen, 5*k)
+	tj, sj := judgeable(p.n, k), judgeable(p.m, k)
+	switch {
+	case tj && sj:
+		return "time and spectrum both structured"
+	case sj:
+		return fmt.Sprintf("spectrum structured; the time side is not judged: %d spectra are too few for %d directions, which need %d", p.n, k, need)
+	case tj:
+		return fmt.Sprintf("time vector not white; the spectrum side is not judged: %d points are too few for %d directions, which need %d", p.m, k, need)
+	}
+	return fmt.Sprintf("neither side judged: %d spectra and %d points are too few for %d directions, which need %d", p.n, p.m, k, need)
+}
+
+// countAbove counts every singular value supplied above the threshold, the
+// table's and beyond (AboveThreshold).
+func (p *rankProblem) countAbove() {
+	rep := p.rep
+	rep.Examined = p.maxRank
+	rep.AboveThreshold = 0
+	for _, s := range p.f.S {
+		if s > rep.Threshold && s > 0 {
+			rep.AboveThreshold++
+		}
+	}
+	rep.AboveAtLeast = rep.AboveThreshold == len(p.f.S) && !p.f.Full()
+}
+
+// aboveWords is AboveThreshold, "at least N" when the truncated
+// decomposition had no value left below the threshold.
+func (p *rankProblem) aboveWords() string {
+	if p.rep.AboveAtLeast {
+		return fmt.Sprintf("at least %d", p.rep.AboveThreshold)
+	}
+	return fmt.Sprintf("%d", p.rep.AboveThreshold)
+}
+
+// sigmaWords says where σ came from: SigmaFrom for a given σ when the caller
+// said what it is.
+func (p *rankProblem) sigmaWords() string {
+	if p.rep.SigmaSource == SigmaGiven && p.opt.SigmaFrom != "" {
+		return p.opt.SigmaFrom
+	}
+	return p.rep.SigmaSource
 }
 
 // disagreement says which rank criteria differ from the estimate and which

@@ -1,5 +1,7 @@
 package output
 
+import "fmt"
+
 // The types of summary.json. Key names are part of the public contract
 // (CONTRACT.md): add keys freely, never rename or remove one. io/pipeline
 // fills them; io/report reads the file back into the same types.
@@ -99,8 +101,21 @@ func (s Summary) Uniqueness() []BandJSON {
 type CriterionJSON struct {
 	Name     string `json:"name"`
 	Estimate int    `json:"estimate"`
-	Source   string `json:"source"`
-	Detail   string `json:"detail"`
+	// AtLeast: the count stopped at the factors the criteria examine (estimate of
+	// them) with more above the noise, so the criterion's own count is larger.
+	AtLeast bool   `json:"at_least,omitempty"`
+	Source  string `json:"source"`
+	Detail  string `json:"detail"`
+}
+
+// CriterionText is a rank criterion's count in words, "ind 3", or "noise-floor ≥ 12
+// (12 examined)" when the count stopped at the factors examined: the same on the
+// terminal and in the report.
+func CriterionText(name string, estimate int, atLeast bool) string {
+	if atLeast {
+		return fmt.Sprintf("%s ≥ %d (%d examined)", name, estimate, estimate)
+	}
+	return fmt.Sprintf("%s %d", name, estimate)
 }
 
 // BandJSON is one component's uniqueness range: the smallest and largest

@@ -1,9 +1,11 @@
 package pipeline
 
 import (
+	"fmt"
 	"math"
 	"path/filepath"
 	"regexp"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -149,5 +151,42 @@ func TestMinorShapeWithinItsExperiment(t *testing.T) {
 	got = minorShape(r, &mcr.MinorTest{PeakRow: 60, EarlyShare: 0.01})
 	if !strings.Contains(got, "largest at t = 200 s in experiment 2") {
 		t.Errorf("peak at row 11 of experiment 2: %q, want it placed at t = 200 s in experiment 2", got)
+	}
+}
+
+// On the trimmed urethane series more factors stand above the noise threshold than the
+// criteria examine (12: docs/rank.md §5), so the noise floor's 12 is a lower bound and the
+// terminal says so; the factors beyond the 14 the classification examined are counted
+// and noted. Their number must agree with singular_values.csv's by Cauchy's interlacing
+// theorem: projecting out the baseline's p = order + 1 directions moves the k-th singular
+// value between the (k+p)-th and the k-th of the matrix before (Horn & Johnson, Matrix
+// Analysis, 1985, §7.3; from memory), so the count above one threshold drops by at most p.
+// The σ of the noise-weighted matrix is named as such, not "given".
+func TestRankCapIsSaid(t *testing.T) {
+	r := runTrimmedUrethane(t)
+	var out strings.Builder
+	PrintTable(r, &out)
+	if !strings.Contains(out.String(), "noise-floor ≥ 12 (12 examined)") {
+		t.Errorf("rank line without the cap:\n%s", out.String())
+	}
+	if c := MakeSummary(r).RankCriteria[0]; c.Name != "noise-floor" || !c.AtLeast {
+		t.Errorf("summary.json noise floor %+v, want at_least", c)
+	}
+	before := 0
+	for _, s := range r.Factors.S {
+		if s > r.Rank.Threshold {
+			before++
+		}
+	}
+	p := r.BaselineOrder + 1
+	if a := r.Rank.AboveThreshold; a > before || a < before-p || a <= len(r.Rank.Table) {
+		t.Errorf("%d above the threshold after the baseline, %d before (singular_values.csv), baseline of %d directions, table of %d", a, before, p, len(r.Rank.Table))
+	}
+	note := fmt.Sprintf("%d more factor(s) lie above the noise threshold beyond the %d examined (%d in all)", r.Rank.AboveThreshold-r.Chemical.Examined, r.Chemical.Examined, r.Rank.AboveThreshold)
+	if !slices.ContainsFunc(r.Notes, func(n string) bool { return strings.HasPrefix(n, note) }) {
+		t.Errorf("no note %q in %q", note, r.Notes)
+	}
+	if strings.Contains(r.Rank.Reason, "given") || !strings.Contains(r.Rank.Reason, "noise-weighted") {
+		t.Errorf("reason %q: want σ named as the noise-weighted unit", r.Rank.Reason)
 	}
 }

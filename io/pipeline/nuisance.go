@@ -133,12 +133,19 @@ func leadingColumns(q, b *mat.Dense) bool {
 	return true
 }
 
+// weightedSigma says what σ = 1 is on the noise-weighted matrix, beside the noise σ
+// the terminal shows in the data's own units.
+const weightedSigma = "the unit of the noise-weighted matrix, each point divided by its own noise σ from the noise model"
+
+// pooledWords says what a σ pooled before the rank step is (pooledSigma).
+const pooledWords = "pooled from the pre-reaction spectra of every experiment"
+
 // weightedRankInputs are the rank inputs of a matrix scaled by the weights w: the noise
 // level is known, σ = 1, and a reference pattern's time shape in the scaled rows is √a_i.
 func weightedRankInputs(r *Result, scaled *mat.Dense, row, col []float64, refRow, maxF int) rankInputs {
 	return rankInputs{
 		d:     scaled,
-		opt:   svd.RankOptions{Sigma: 1, Alpha: r.Settings.Alpha, ReferenceRow: refRow, PatternTime: sqrts(row)},
+		opt:   svd.RankOptions{Sigma: 1, SigmaFrom: weightedSigma, Alpha: r.Settings.Alpha, ReferenceRow: refRow, PatternTime: sqrts(row)},
 		maxF:  maxF,
 		noise: 1,
 		row:   row,
@@ -418,6 +425,9 @@ func nuisanceAdvice(r *Result) {
 	}
 	if cr.NoiseLike > 0 {
 		r.Notes = append(r.Notes, fmt.Sprintf("%d factor(s) above the white-noise level have a time vector as white as noise: noise correlated along the axis (instrument smoothing or interpolation), not counted", cr.NoiseLike))
+	}
+	if cr.Unexamined > 0 && cr.UnexaminedMinor {
+		r.Notes = append(r.Notes, fmt.Sprintf("%d more factor(s) lie above the noise threshold beyond the %d examined (%d in all): they were not classified, but the largest of them carries %.2g %% of the signal of the smallest counted component, below the %.0f %% under which a smooth factor is minor, so the count does not depend on them; so many factors above the white-noise level come from noise correlated along the axis or from a noise level set too low", cr.Unexamined, cr.Examined, cr.Unexamined+cr.Examined, 100*cr.UnexaminedShare, 100*svd.MinorEnergy))
 	}
 }
 

@@ -504,7 +504,7 @@ func (fa *factorRun) plainFactors() (rankInputs, error) {
 	fa.f = f
 	fa.rf, r.Factors = f, f
 	pooled := pooledSigma(s, r, r.D)
-	return rankInputs{d: r.D, opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooled, Alpha: s.Alpha, ReferenceRow: fa.refRow}, maxF: fa.maxF, noise: pooled}, nil
+	return rankInputs{d: r.D, opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooled, SigmaFrom: pooledWords, Alpha: s.Alpha, ReferenceRow: fa.refRow}, maxF: fa.maxF, noise: pooled}, nil
 }
 
 // rankFindings says where the rank's noise level came from and adds what
@@ -625,7 +625,7 @@ func lentDifferenceRank(r *Result, spare *mat.Dense, refs [][]float64, rf *svd.F
 func copiedDifferenceRank(r *Result, s *Settings, diffRows []*mat.Dense, rf, f *svd.Factors, maxF int) {
 	dd := stack(diffRows)
 	ref := singleReferenceRow(r)
-	din := rankInputs{opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooledSigma(s, r, dd), Alpha: s.Alpha, ReferenceRow: ref}, maxF: maxF, noise: pooledSigma(s, r, dd)}
+	din := rankInputs{opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooledSigma(s, r, dd), SigmaFrom: pooledWords, Alpha: s.Alpha, ReferenceRow: ref}, maxF: maxF, noise: pooledSigma(s, r, dd)}
 	// The difference matrix's last use: the report keeps its map rows,
 	// and the experiments let go of it, so that it is no longer held
 	// beside D (1.2 GB at 50 000 × 3000) and may be worked in place.

@@ -40,7 +40,7 @@ func weightedFactors(r *Result, maxF, refRow int, log io.Writer) (*svd.Factors, 
 	if err != nil {
 		return nil, nil, fmt.Errorf("factor analysis: %w", err)
 	}
-	ropt := svd.RankOptions{Sigma: 1, Alpha: s.Alpha, ReferenceRow: refRow, PatternTime: sqrts(r.Weights.Row)}
+	ropt := svd.RankOptions{Sigma: 1, SigmaFrom: weightedSigma, Alpha: s.Alpha, ReferenceRow: refRow, PatternTime: sqrts(r.Weights.Row)}
 	rank, err := svd.EstimateRank(r.Scaled, f, ropt)
 	if err != nil {
 		return nil, nil, fmt.Errorf("rank: %w", err)

@@ -87,7 +87,7 @@ func MakeSummary(r *Result) *Summary {
 	}
 	constraintSummary(r, s)
 	for _, c := range r.Rank.Criteria {
-		s.RankCriteria = append(s.RankCriteria, CriterionJSON{Name: c.Name, Estimate: c.Estimate, Source: c.Source, Detail: c.Detail})
+		s.RankCriteria = append(s.RankCriteria, CriterionJSON{Name: c.Name, Estimate: c.Estimate, AtLeast: c.AtLeast, Source: c.Source, Detail: c.Detail})
 	}
 	if r.DiffRank != nil {
 		v := r.DiffRank.Estimate
@@ -251,7 +251,7 @@ func PrintTable(r *Result, w io.Writer) {
 	fmt.Fprintf(w, "noise σ        %.3g (%s)\n", r.NoiseSigma, r.NoiseSource)
 	var crit []string
 	for _, c := range r.Rank.Criteria {
-		crit = append(crit, fmt.Sprintf("%s %d", c.Name, c.Estimate))
+		crit = append(crit, output.CriterionText(c.Name, c.Estimate, c.AtLeast))
 	}
 	fmt.Fprintf(w, "rank           %d%s\n", r.Rank.Estimate, rankDetail(r, crit))
 	if r.DiffRank != nil {

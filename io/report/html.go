@@ -9,6 +9,7 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -412,10 +413,15 @@ func factorAccount(s *Summary) string {
 	if above-len(s.NuisanceFactors)-noise != s.RankEstimate {
 		return ""
 	}
-	if noise == 0 {
-		return fmt.Sprintf("of the %d factors above the noise, %d are chemistry and %s not chemistry (see the advice)", above, s.RankEstimate, named)
+	of := fmt.Sprintf("of the %d factors above the noise", above)
+	if slices.ContainsFunc(s.RankCriteria, func(c output.CriterionJSON) bool { return c.AtLeast }) {
+		// More lie above the noise than the classification examined (the notes say so).
+		of = fmt.Sprintf("of the first %d factors above the noise, those examined", above)
 	}
-	return fmt.Sprintf("of the %d factors above the noise, %d are chemistry, %s not chemistry (see the advice) and the other %d are noise correlated along the axis (see the notes)", above, s.RankEstimate, named, noise)
+	if noise == 0 {
+		return fmt.Sprintf("%s, %d are chemistry and %s not chemistry (see the advice)", of, s.RankEstimate, named)
+	}
+	return fmt.Sprintf("%s, %d are chemistry, %s not chemistry (see the advice) and the other %d are noise correlated along the axis (see the notes)", of, s.RankEstimate, named, noise)
 }
 
 // vapourCountFinding says which counted component of a stack the
@@ -488,10 +494,10 @@ func rankFinding(s *Summary) string {
 	agree := 0
 	var each []string
 	for _, c := range s.RankCriteria {
-		if c.Estimate == s.RankEstimate {
+		if c.Estimate == s.RankEstimate && !c.AtLeast {
 			agree++
 		}
-		each = append(each, fmt.Sprintf("%s %d", c.Name, c.Estimate))
+		each = append(each, output.CriterionText(c.Name, c.Estimate, c.AtLeast))
 	}
 	if agree == len(s.RankCriteria) {
 		return fmt.Sprintf("Rank %d: all %d criteria agree (%s).", s.RankEstimate, len(s.RankCriteria), strings.Join(each, ", "))
@@ -718,6 +724,16 @@ func (f *Folder) rates() []rateView {
 
 func fmtNum(v float64) string { return trimFloat(v, 4) }
 
+// criterionVerdict says whether a rank criterion agrees with the rank: a count
+// that stopped at the factors examined (AtLeast) is a lower bound, which agrees
+// with nothing.
+func criterionVerdict(c Criterion, rank int) string {
+	if c.Estimate == rank && !c.AtLeast {
+		return "agrees"
+	}
+	return "differs"
+}
+
 func yesNo(b bool) string {
 	if b {
 		return "yes"
@@ -726,15 +742,10 @@ func yesNo(b bool) string {
 }
 
 var page = template.Must(template.New("report").Funcs(template.FuncMap{
-	"num":   fmtNum,
-	"num7":  func(v float64) string { return trimFloat(v, 7) },
-	"yesno": yesNo,
-	"verdict": func(c Criterion, rank int) string {
-		if c.Estimate == rank {
-			return "agrees"
-		}
-		return "differs"
-	},
+	"num":     fmtNum,
+	"num7":    func(v float64) string { return trimFloat(v, 7) },
+	"yesno":   yesNo,
+	"verdict": criterionVerdict,
 	"deref":   func(p *int) int { return *p },
 	"sub":     func(a, b float64) float64 { return a - b },
 	"unit":    unitText,

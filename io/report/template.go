@@ -84,7 +84,7 @@ nav a { color: #0072b2; margin-right: .8rem; }
 <h3>Rank criteria</h3>
 <table>
 <tr><th>criterion</th><th>estimate</th><th>verdict</th><th>evidence</th><th>method</th></tr>
-{{range .S.RankCriteria}}<tr><td>{{.Name}}</td><td class="n">{{.Estimate}}</td><td>{{verdict . $.S.RankEstimate}}</td><td>{{.Detail}}</td><td class="small">{{.Source}}</td></tr>
+{{range .S.RankCriteria}}<tr><td>{{.Name}}</td><td class="n">{{if .AtLeast}}≥ {{end}}{{.Estimate}}</td><td>{{verdict . $.S.RankEstimate}}</td><td>{{.Detail}}</td><td class="small">{{.Source}}</td></tr>
 {{end}}</table>{{end}}
 {{if .S.ConstraintChecks}}
 <h3>What each constraint cost</h3>
