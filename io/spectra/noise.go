@@ -87,26 +87,38 @@ func (w *Weights) ChannelSigma() []float64 {
 // repeats of one state Σ_j z²_ij is χ² with m_i degrees of freedom and ρ_i ≈ 1; a
 // spectrum that already changed gives ρ_i well above 1. Out[i−lo−1] is ρ_i (0 when no
 // point is observed in both). A difference cancels any pattern common to both rows (a
-// reference's noise), so ρ_i can only be lower than the per-point weights imply.
+// reference's noise), so ρ_i can only be lower than the per-point weights imply. Each
+// step's drift along the axis is taken out first (removeDrift, by weighted least squares:
+// the shapes and the step scaled by √b_j), so that a baseline creeping between repeats is
+// not read as a change: the baseline model takes such a drift, the chemistry does not move
+// that way.
 func StepToNoise(d *mat.Dense, lo, hi int, w *Weights, blind *Blind) []float64 {
 	if w == nil || hi-lo < 2 {
 		return nil
 	}
 	out := make([]float64, hi-lo-1)
+	m := len(w.Col)
+	use, z, root := make([]bool, m), make([]float64, m), make([]float64, m)
 	for i := lo + 1; i < hi; i++ {
 		if !(w.Row[i] > 0 && w.Row[i-1] > 0) {
 			continue // a spectrum set aside has no noise scale
 		}
 		a, b := d.RawRowView(i-1), d.RawRowView(i)
 		va := 1/w.Row[i] + 1/w.Row[i-1]
-		ss, cnt := 0.0, 0
 		for j, bj := range w.Col {
-			if blind.Has(i, j) || blind.Has(i-1, j) || !(bj > 0) {
-				continue
+			use[j] = !blind.Has(i, j) && !blind.Has(i-1, j) && bj > 0
+			z[j], root[j] = 0, math.Sqrt(bj)
+			if use[j] {
+				z[j] = (b[j] - a[j]) * root[j]
 			}
-			e := b[j] - a[j]
-			ss += e * e * bj / va
-			cnt++
+		}
+		removeDrift(z, use, root)
+		ss, cnt := 0.0, 0
+		for j, u := range use {
+			if u {
+				ss += z[j] * z[j] / va
+				cnt++
+			}
 		}
 		if cnt > 0 {
 			out[i-lo-1] = math.Sqrt(ss / float64(cnt))
@@ -172,20 +184,22 @@ const madScale = 1.482602218505602
 // pre ≥ 2 (repeats of one state), else second differences over all rows.
 // It returns σ per channel, the rounding step and the source in words.
 func channelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, string) {
-	return channelNoiseOwn(v, pre, blind, quantum(v, blind), nil, nil)
+	return channelNoiseOwn(v, pre, blind, quantum(v, blind), nil, nil, false)
 }
 
 // channelNoiseOwn is channelNoise given the rounding step q (quantum of v
 // and blind), taken in a pass that was made anyway, and each channel's own
 // scale and count of differences (channelScales) when the parse took them;
 // nil when it did not.
-func channelNoiseOwn(v *mat.Dense, pre int, blind *Blind, q float64, own []float64, cnt []int) ([]float64, float64, string) {
+func channelNoiseOwn(v *mat.Dense, pre int, blind *Blind, q float64, own []float64, cnt []int, relative bool) ([]float64, float64, string) {
 	n, _ := v.Dims()
 	src := fmt.Sprintf("second differences in time of all %d spectra", n)
-	if pre >= 2 {
-		src = fmt.Sprintf("successive differences of the %d pre-reaction spectra", pre)
-	}
 	d := timeDiffs{v: v, pre: pre, blind: blind}
+	if pre >= 2 {
+		src = fmt.Sprintf("successive differences of the %d pre-reaction spectra, their drift along the axis removed", pre)
+		// The scan's own scales were of the raw differences.
+		d.steps, own = driftFreeSteps(v, pre, blind, relative), nil
+	}
 	if own == nil {
 		own, cnt = channelScales(d)
 	}
@@ -208,6 +222,7 @@ type timeDiffs struct {
 	v     *mat.Dense
 	pre   int
 	blind *Blind
+	steps *mat.Dense // with pre ≥ 2: the steps between those spectra, drift removed (driftFreeSteps)
 }
 
 // perChannel is the most differences a channel can have.
@@ -221,7 +236,8 @@ func (d timeDiffs) perChannel() int {
 
 // fill writes the differences of channels j0 … j1−1 into buf, channel c's
 // at buf[(c−j0)·per:], in time order, and their counts into cnt[c−j0]:
-// |x_i − x_{i−1}| over rows [0, pre) when pre ≥ 2, else
+// |x_i − x_{i−1}| over rows [0, pre) when pre ≥ 2 (their drift removed:
+// d.steps), else
 // |x_{i+1} − 2x_i + x_{i−1}|, leaving out any difference that touches a
 // blind point. It returns what they are to be divided by to be on the scale
 // of one value's noise (√2, or √6: the variance of x_{i+1} − 2x_i + x_{i−1}
@@ -236,11 +252,11 @@ func (d timeDiffs) fill(j0, j1 int, buf []float64, cnt []int) (div float64) {
 	noneBlind := func(i int) bool { return d.blind == nil || i >= len(d.blind.Rows) || len(d.blind.Rows[i]) == 0 }
 	if d.pre >= 2 {
 		for i := 1; i < d.pre; i++ {
-			a, b := d.v.RawRowView(i - 1)[j0:j1], d.v.RawRowView(i)[j0:j1]
+			st := d.steps.RawRowView(i - 1)[j0:j1]
 			all := noneBlind(i-1) && noneBlind(i)
-			for c := range a {
+			for c, s := range st {
 				if all || !d.blind.Has(i-1, j0+c) && !d.blind.Has(i, j0+c) {
-					buf[c*per+cnt[c]] = math.Abs(b[c] - a[c])
+					buf[c*per+cnt[c]] = math.Abs(s)
 					cnt[c]++
 				}
 			}
@@ -1360,7 +1376,7 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 		// Not a few blind points but the wrong kind of data.
 		return checkPositive(s.Values, s, "single beam")
 	}
-	sigI, q, src := channelNoiseOwn(s.Values, opt.Pre, blind, scan.quantum, own, cnt)
+	sigI, q, src := channelNoiseOwn(s.Values, opt.Pre, blind, scan.quantum, own, cnt, true)
 	blind.addWeakBelow(s.Values, sigI, scan.top)
 	nref := referenceBeamCounts(s.Values, opt, out.ReferenceRows, blind, ref)
 	blindWeakChannels(blind, ref, opt.Blank, sigI, nref)

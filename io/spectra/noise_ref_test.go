@@ -37,12 +37,13 @@ func refChannelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, s
 	}
 	src := fmt.Sprintf("second differences in time of all %d spectra", n)
 	if pre >= 2 {
-		src = fmt.Sprintf("successive differences of the %d pre-reaction spectra", pre)
+		src = fmt.Sprintf("successive differences of the %d pre-reaction spectra, their drift along the axis removed", pre)
+		steps := driftFreeSteps(v, pre, blind, false)
 		for i := 1; i < pre; i++ {
-			a, b := v.RawRowView(i-1), v.RawRowView(i)
+			st := steps.RawRowView(i - 1)
 			for j := 0; j < m; j++ {
 				if !blind.Has(i-1, j) && !blind.Has(i, j) {
-					diffs[j] = append(diffs[j], math.Abs(b[j]-a[j])/math.Sqrt2)
+					diffs[j] = append(diffs[j], math.Abs(st[j])/math.Sqrt2)
 				}
 			}
 		}
