@@ -72,7 +72,7 @@ func TestDataFitErrorsHoldTheJackknife(t *testing.T) {
 	}
 	named := false
 	for _, w := range r.Warnings {
-		named = named || strings.Contains(w, "kinetics (data fit): the spectra scatter about the model more than its noise explains")
+		named = named || strings.Contains(w, "kinetics (data fit): each spectrum's pull on the rate constants varies more than its noise explains")
 	}
 	if !named {
 		t.Errorf("no warning says the error was widened: %q", r.Warnings)

@@ -117,5 +117,5 @@ func (p *fitProblem) robustErrors(lm *LMResult, res *FitResult, rows, linear int
 	if worst < 2 {
 		return
 	}
-	res.Warnings = append(res.Warnings, fmt.Sprintf("the spectra scatter about the model more than its noise explains (single spectra, or stretches of the run, pull the rate constants apart): standard errors from that scatter, each of the %d spectra's pull on the fit with its %d neighbours in time (a sandwich estimate, as a jackknife leaving out one spectrum at a time measures), are up to %.3g times the noise-based ones (step %q: %.2g against %.2g) and are the ones reported", g, lags, worst, p.s.Steps[at].Text, res.KStdErr[at], res.NoiseKStdErr[at]))
+	res.Warnings = append(res.Warnings, fmt.Sprintf("each spectrum's pull on the rate constants varies more than its noise explains (a misfit a whole spectrum shares, single spectra or stretches of the run the model does not describe, or a baseline taken out with the spectra): standard errors from those pulls, each of the %d spectra's with its %d neighbours in time (a sandwich estimate, as a jackknife leaving out one spectrum at a time measures), are up to %.3g times the noise-based ones (step %q: %.2g against %.2g) and are the ones reported", g, lags, worst, p.s.Steps[at].Text, res.KStdErr[at], res.NoiseKStdErr[at]))
 }
