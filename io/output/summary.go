@@ -167,6 +167,9 @@ type RateConstant struct {
 	// constant held at --k-fixed.
 	HalfLifeNote string `json:"half_life_note,omitempty"`
 	Fixed        bool   `json:"fixed,omitempty"`
+	// NotDetermined says the standard error is not finite (stderr_per_s is then 0, as
+	// JSON holds no infinity): the data do not determine this constant.
+	NotDetermined bool `json:"not_determined,omitempty"`
 }
 
 // KineticMapJSON says which component a species (or step) is.

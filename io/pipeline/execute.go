@@ -7,6 +7,7 @@ import (
 	"math"
 	"path/filepath"
 	"sort"
+	"strings"
 
 	"github.com/bandsolve/bandsolve/io/cmdfile"
 	"github.com/bandsolve/bandsolve/io/demo"
@@ -72,9 +73,16 @@ func Execute(s *Settings, st Streams) (*Result, error) {
 	return r, nil
 }
 
+// causeText is a kinetics error's text without the "kinetics: " each layer that wrapped it
+// put in front (it read "kinetics: kinetics: auto map: … kinetics: fit profiles: …"): the
+// message it goes into already says it is about the kinetics.
+func causeText(err error) string {
+	return strings.ReplaceAll(err.Error(), "kinetics: ", "")
+}
+
 // kineticsNotDone keeps the kind of the cause (a usage error exits 2).
 func kineticsNotDone(err error, out string) error {
-	msg := fmt.Sprintf("kinetics not done (the resolution is written to %s): %v", out, err)
+	msg := fmt.Sprintf("kinetics not done (the resolution is written to %s): %s", out, causeText(err))
 	var ue *UsageError
 	if errors.As(err, &ue) {
 		return &UsageError{Msg: msg}

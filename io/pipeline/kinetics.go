@@ -1894,7 +1894,8 @@ func (kn *Kinetics) fitJSON(f *KineticFit) KineticFitJSON {
 		Warnings: nonNil(fr.Warnings)}
 	for j, st := range kn.Scheme.Steps {
 		rc := RateConstant{Step: st.Text, K: round(finite(fr.K[j])), StdErr: round(finite(fr.KStdErr[j])),
-			HalfLife: round(finite(fr.HalfLife[j])), HalfLifeNote: fr.HalfLifeNote[j], Unit: kn.rateUnit(st.Order), Fixed: kn.KFixed[j]}
+			HalfLife: round(finite(fr.HalfLife[j])), HalfLifeNote: fr.HalfLifeNote[j], Unit: kn.rateUnit(st.Order), Fixed: kn.KFixed[j],
+			NotDetermined: !kn.KFixed[j] && finite(fr.KStdErr[j]) != fr.KStdErr[j]}
 		out.RateConstants = append(out.RateConstants, rc)
 		row := make([]float64, len(kn.Scheme.Steps))
 		for l := range row {
@@ -2056,7 +2057,11 @@ func printKinetics(r *Result, w io.Writer) {
 			}
 			k, unit := tu.Rate(f.Fit.K[j], kn.rateUnit(st.Order))
 			se, _ := tu.Rate(f.Fit.KStdErr[j], "")
-			fmt.Fprintf(w, " %-10s k = %.4g ± %.2g %s", st.Text, k, se, unit)
+			if finite(se) == se {
+				fmt.Fprintf(w, " %-10s k = %.4g ± %.2g %s", st.Text, k, se, unit)
+			} else {
+				fmt.Fprintf(w, " %-10s k = %.4g %s, not determined (its standard error is not finite)", st.Text, k, unit)
+			}
 			if hl := f.Fit.HalfLife[j]; hl > 0 {
 				fmt.Fprintf(w, ", t½ = %.4g %s", hl/tu.Div, tu.Unit)
 			}

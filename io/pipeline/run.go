@@ -579,7 +579,7 @@ func resolveAndFit(r *Result, log io.Writer) error {
 		// The resolution does not depend on the model: keep it, say why the
 		// kinetics are missing, and let Execute fail after writing.
 		r.Kinetics, r.KineticsErr = nil, err
-		r.Warnings = append(r.Warnings, "kinetics not done: "+err.Error())
+		r.Warnings = append(r.Warnings, "kinetics not done: "+causeText(err))
 	}
 	return nil
 }

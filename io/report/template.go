@@ -97,7 +97,7 @@ nav a { color: #0072b2; margin-right: .8rem; }
 <h3>Kinetics: {{.Model}}</h3>
 <table>
 <tr><th>step</th><th>k</th><th>standard error</th><th>half-life / {{$.TimeUnit}}</th></tr>
-{{range $.Rates}}<tr><td>{{.Step}}</td><td class="n">{{num .K}} {{unit .Unit}}</td><td class="n">{{num .StdErr}} {{unit .Unit}}</td><td class="n">{{if gt .HalfLife 0.0}}{{num .HalfLife}}{{else}}–{{end}}</td></tr>
+{{range $.Rates}}<tr><td>{{.Step}}</td><td class="n">{{num .K}} {{unit .Unit}}</td><td class="n">{{if .NotDetermined}}not determined{{else}}{{num .StdErr}} {{unit .Unit}}{{end}}</td><td class="n">{{if gt .HalfLife 0.0}}{{num .HalfLife}}{{else}}–{{end}}</td></tr>
 {{end}}</table>
 <p class="small">{{if .Method}}Rate constants from the fit to the {{.Method}}. {{end}}{{if .MapSource}}Species ↔ components: {{range $i, $m := .Map}}{{if $i}}, {{end}}{{$m.Name}} = component {{$m.Component}}{{end}} ({{.MapSource}}). {{end}}{{perTime .ConcentrationUnit $.TimeUnit}}</p>{{end}}{{end}}
 {{if .S.Uniqueness}}
