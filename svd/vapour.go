@@ -27,34 +27,49 @@ import (
 // memory). When the axis does not reach there (a --region on the
 // fingerprint, say) it looks at the bending lines, 1350–1950 cm⁻¹, where
 // sharp condensed-phase bands can change too, and then asks for four times
-// the lines (vapourRanges). Each spectrum there is high-passed along the
-// axis: less its quadratic Savitzky–Golay smooth over about 8 cm⁻¹ (Savitzky & Golay,
+// the lines (vapourRanges). When the axis covers both and the stretching
+// range alone shows no change, both are examined together: the same gas
+// changes both at once, so a change too weak to pass in either alone adds
+// up (a line of the stretching range counts as four of the bending
+// range's). Each spectrum there is high-passed along the axis: less its
+// quadratic Savitzky–Golay smooth over about 8 cm⁻¹ (Savitzky & Golay,
 // Anal. Chem. 1964), which keeps lines a few cm⁻¹ wide and takes out bands
 // tens of cm⁻¹ wide. Neighbouring spectra are averaged into at most
 // vapourBins rows (within each experiment, never across two), and each
 // experiment's rows are centred: what is left is how the lines change.
+// Every point is then divided by its noise (noiseWeights): a single beam's
+// noise is constant in counts, so the absorbance noise grows where little
+// light comes through, twentyfold across 3550–3950 cm⁻¹ where source and
+// beamsplitter fade towards 4000 cm⁻¹; unweighted, the noisiest end sets
+// the noise the lines are judged against and hides them where the light is
+// good.
 //
 // A change is detected when two things hold:
 //   - it is coherent in time: the largest singular value of the centred,
-//     high-passed rows is at least vapourRatio times that of the
-//     differences of disjoint pairs of neighbouring rows, which hold the
-//     same noise (its correlation along the axis included) but hardly any
-//     slow change, each over the Marchenko–Pastur edge √r+√w of its own r
-//     rows and w points (Geman, Ann. Probab. 1980): noise alone gives a
-//     ratio near 1;
+//     high-passed, noise-weighted rows is at least vapourRatio times that
+//     of the differences of disjoint pairs of neighbouring rows, which hold
+//     the same noise (its correlation along the axis included) but hardly
+//     any slow change, each over the Marchenko–Pastur edge √r+√w of its
+//     own r rows and w points (Geman, Ann. Probab. 1980): noise alone gives
+//     a ratio near 1;
 //   - it is a forest of lines: its pattern (the leading right singular
-//     vector) has at least 15 local maxima above 5 noise deviations
-//     (noiseOfPairs) in the stretching range, 60 in the bending range, where
-//     one changing condensed-phase band gives three or four (its peak and
-//     the lobes the high-pass leaves).
+//     vector) has local maxima above 5 noise deviations (noiseOfPairs), at
+//     least 15 in the stretching range or 60 in the bending range (both
+//     together: lines/15 + lines/60 ≥ 1), where one changing
+//     condensed-phase band gives three or four (its peak and the lobes the
+//     high-pass leaves).
 type VapourCheck struct {
-	// Checked says the axis covers the range evenly and finely enough to
+	// Checked says the axis covers a range evenly and finely enough to
 	// see lines (at most 2 axis units apart); Why says why not otherwise.
 	Checked bool
 	Why     string
-	Lo, Hi  float64 // the axis range examined (the nominal one when not checked)
+	Lo, Hi  float64 // the first axis range examined (the nominal one when not checked)
+	// Ranges are all the axis ranges examined together (Lo–Hi first), and
+	// LinesPer the lines counted in each.
+	Ranges   [][2]float64
+	LinesPer []int
 	// Ratio is the coherence ratio above (noise alone about 1) and Lines
-	// the number of lines counted in the pattern.
+	// the number of lines counted in the pattern, over all ranges.
 	Ratio    float64
 	Lines    int
 	Detected bool
@@ -70,11 +85,20 @@ type VapourCheck struct {
 	// how much the lines changed during it (only when Detected).
 	Change []float64
 
-	first  int       // the window's first column in the matrix
-	filter []float64 // over the window: a row's Height is its dot product with filter
-	unit   []float64 // the high-passed pattern, unit length, over the window's interior
-	half   int       // the smoothing window is 2·half+1 points
-	peak   float64   // the pattern's largest entry (unit length)
+	wins []vapourWin
+	peak float64 // the pattern's largest line in absorbance, per unit of its weighted amount
+}
+
+// vapourWin is one range as examined: its columns [first, last) of the
+// matrix and the smooth's half width; after the check, at its interior
+// points (first+half … last−half−1), the noise of each high-passed point,
+// the noise-weighted pattern (unit length over all the windows together),
+// and the filter over [first, last) whose dot product with a row is the
+// pattern's weighted least-squares amount in it.
+type vapourWin struct {
+	rg                  vapourRange
+	first, last, half   int
+	sigma, unit, filter []float64
 }
 
 const (
@@ -96,9 +120,8 @@ type vapourRange struct {
 
 // vapourRanges are the ranges in the order tried: the stretching lines,
 // then the bending lines (see CheckVapour). On the urethane series the
-// bending range gives 163 lines at catalyst 0.01 and 5 at 1.00, where the
-// carbonyl and amide bands change most; eight narrow sample bands changing
-// by up to 1 absorbance give 28 (TestVapourNotInSharpBands).
+// bending range gives 152 lines at catalyst 0.01; eight narrow sample
+// bands changing by up to 1 absorbance give 22 (TestVapourNotInSharpBands).
 func vapourRanges() []vapourRange {
 	return []vapourRange{{3550, 3950, 15}, {1350, 1950, 60}}
 }
@@ -112,22 +135,32 @@ const VapourSignificant = 5.0
 // rows of the experiments stacked in d (nil or {0}: one experiment).
 func CheckVapour(d *mat.Dense, axis []float64, blocks []int) VapourCheck {
 	n, m := d.Dims()
-	rg, first, last, why := pickVapourRange(axis)
-	v := VapourCheck{Lo: rg.lo, Hi: rg.hi}
+	wins, last, why := pickVapourWindows(axis)
 	if why != "" || len(axis) != m {
 		if why == "" {
 			why = fmt.Sprintf("the axis has %d values for %d columns", len(axis), m)
 		}
-		v.Why = why
-		return v
+		return VapourCheck{Lo: last.lo, Hi: last.hi, Why: why}
 	}
-	// The range examined is the axis's part of the nominal one.
-	v.Lo, v.Hi = math.Min(axis[first], axis[last-1]), math.Max(axis[first], axis[last-1])
-	v.Checked, v.first = true, first
-	spacing := math.Abs(axis[last-1]-axis[first]) / float64(last-1-first)
-	v.half = max(2, int(math.Round(vapourWidth/2/spacing)))
 	bounds := experimentBounds(blocks, n)
-	rows, deltas, used := vapourRows(d, first, last, v.half, bounds)
+	// The first range alone, where sample bands are broad when it is the
+	// stretching range; both together only when it shows nothing.
+	v := checkWindows(d, axis, wins[:1], bounds)
+	if !v.Detected && v.Checked && len(wins) > 1 {
+		v = checkWindows(d, axis, wins, bounds)
+	}
+	return v
+}
+
+// checkWindows is the check over the windows together.
+func checkWindows(d *mat.Dense, axis []float64, wins []vapourWin, bounds [][2]int) VapourCheck {
+	v := VapourCheck{wins: slices.Clone(wins)}
+	for _, w := range wins {
+		lo, hi := math.Min(axis[w.first], axis[w.last-1]), math.Max(axis[w.first], axis[w.last-1])
+		v.Ranges = append(v.Ranges, [2]float64{lo, hi})
+	}
+	v.Lo, v.Hi, v.Checked = v.Ranges[0][0], v.Ranges[0][1], true
+	rows, deltas, used := weightedRows(d, v.wins, bounds)
 	if len(deltas) == 0 {
 		v.Checked, v.Why = false, "fewer than two spectra in every experiment"
 		return v
@@ -139,8 +172,8 @@ func CheckVapour(d *mat.Dense, axis []float64, blocks []int) VapourCheck {
 	}
 	// Each against the Marchenko–Pastur edge √r+√w of its own size (the
 	// centring takes one row per experiment).
-	w := float64(len(rows[0]))
-	edge := func(r int) float64 { return math.Sqrt(float64(r)) + math.Sqrt(w) }
+	width := float64(len(rows[0]))
+	edge := func(r int) float64 { return math.Sqrt(float64(r)) + math.Sqrt(width) }
 	v.Ratio = (s1 / edge(len(rows)-used)) / (sd / edge(len(deltas)))
 	pattern := make([]float64, len(rows[0]))
 	for i, row := range rows {
@@ -149,33 +182,183 @@ func CheckVapour(d *mat.Dense, axis []float64, blocks []int) VapourCheck {
 		}
 	}
 	orientLines(pattern)
-	v.Lines = countLines(pattern, 5*noiseOfPairs(deltas))
-	v.Detected = v.Ratio >= vapourRatio && v.Lines >= rg.lines
-	for j := range pattern {
-		pattern[j] /= s1
-	}
-	v.unit = pattern
-	top := argMax(pattern)
-	v.peak, v.LargestAt = pattern[top], axis[first+v.half+top]
+	level := 5 * noiseOfPairs(deltas)
+	forest := v.countForest(pattern, level)
+	v.Detected = v.Ratio >= vapourRatio && forest
+	unit, scale := v.reportedPattern(pattern)
+	v.setPattern(unit, axis, level/scale)
 	if v.Detected {
-		v.filter = highPassAdjoint(pattern, v.half)
 		v.heights(d, bounds)
 	}
 	return v
 }
 
-// pickVapourRange is the first of vapourRanges the axis covers evenly and
-// finely enough, with its columns [first, last), or why none is (the
-// reasons of each, the last range returned).
-func pickVapourRange(axis []float64) (rg vapourRange, first, last int, why string) {
-	var whys []string
-	for _, rg = range vapourRanges() {
-		if first, last, why = vapourWindow(axis, rg.lo, rg.hi); why == "" {
-			return rg, first, last, ""
+// weightedRows are vapourRows of every window side by side, each point
+// divided by its noise (noiseWeights, kept in the windows).
+func weightedRows(d *mat.Dense, wins []vapourWin, bounds [][2]int) (rows, deltas [][]float64, used int) {
+	for q := range wins {
+		w := &wins[q]
+		r, dl, u := vapourRows(d, w.first, w.last, w.half, bounds)
+		if len(dl) == 0 {
+			return nil, nil, 0
 		}
-		whys = append(whys, why)
+		w.sigma = noiseWeights(dl, w.half)
+		for _, x := range append(slices.Clone(r), dl...) { // the rows themselves, in place
+			for j := range x {
+				x[j] /= w.sigma[j]
+			}
+		}
+		rows, deltas, used = joinColumns(rows, r), joinColumns(deltas, dl), u
 	}
-	return rg, 0, 0, strings.Join(whys, "; ")
+	return rows, deltas, used
+}
+
+// countForest counts the pattern's lines above level in every window
+// (LinesPer, Lines) and says whether they make a forest: Σ lines/needed ≥ 1,
+// in integers.
+func (v *VapourCheck) countForest(pattern []float64, level float64) bool {
+	need, score, at := 1, 0, 0
+	for _, w := range v.wins {
+		need *= w.rg.lines
+	}
+	for _, w := range v.wins {
+		c := countLines(pattern[at:at+len(w.sigma)], level)
+		v.LinesPer, v.Lines = append(v.LinesPer, c), v.Lines+c
+		score += c * (need / w.rg.lines)
+		at += len(w.sigma)
+	}
+	return score >= need
+}
+
+// reportedPattern is the pattern the heights and LinesIn measure, as a
+// unit vector and its length: the whole one, or with several windows only
+// the first's part. There sample bands are broad; in the bending range
+// their sharp bands change too, often more than the lines, and share the
+// leading vector (on TestVapourSeenInBothRanges' series at half the lines'
+// amount its largest entry is a band of a species at 1598 cm⁻¹), so the
+// lines' shape and course are read where they are alone, pointing up. It
+// keeps only the first window in v.wins.
+func (v *VapourCheck) reportedPattern(pattern []float64) (unit []float64, scale float64) {
+	if len(v.wins) > 1 {
+		pattern, v.wins = slices.Clone(pattern[:len(v.wins[0].sigma)]), v.wins[:1]
+		orientLines(pattern) // the whole was turned by its bands too
+	}
+	for _, x := range pattern {
+		scale += x * x
+	}
+	scale = math.Sqrt(scale)
+	unit = make([]float64, len(pattern))
+	for j, x := range pattern {
+		unit[j] = x / scale
+	}
+	return unit, scale
+}
+
+// setPattern splits the unit noise-weighted pattern over the windows,
+// finds its largest line in absorbance (the pattern times the noise) among
+// the points measured to a tenth (above twice level, 10 noise deviations;
+// else above level, the lines counted; else all) and makes the windows'
+// filters. Without the level the noisiest points would win, where the
+// pattern's noise is largest in absorbance; and the largest of many is
+// picked where its noise happens to raise it, which overstates its height
+// by about that noise (by half where a line barely passes the count:
+// TestVapourWhereTheLightFades).
+func (v *VapourCheck) setPattern(pattern, axis []float64, level float64) {
+	big := slices.Max(pattern)
+	if big > 2*level {
+		level *= 2
+	}
+	at, top, some := 0, math.Inf(-1), big > level
+	for q := range v.wins {
+		w := &v.wins[q]
+		w.unit = pattern[at : at+len(w.sigma)]
+		at += len(w.sigma)
+		p := make([]float64, len(w.unit))
+		for j, x := range w.unit {
+			if a := x * w.sigma[j]; a > top && (x > level || !some) {
+				top, v.LargestAt = a, axis[w.first+w.half+j]
+			}
+			p[j] = x / w.sigma[j]
+		}
+		// The weighted least-squares amount of the unit pattern in a row's
+		// high-pass h is Σ unit_j h_j / σ_j: the high-pass's adjoint applied
+		// to unit/σ.
+		w.filter = highPassAdjoint(p, w.half)
+	}
+	v.peak = top
+}
+
+// joinColumns puts the rows of b beside those of a (a nil: b).
+func joinColumns(a, b [][]float64) [][]float64 {
+	if a == nil {
+		return b
+	}
+	for i := range a {
+		a[i] = append(a[i], b[i]...)
+	}
+	return a
+}
+
+// noiseWeights is the noise standard deviation of every column of the
+// pair differences: the root of the running median, over 2·(2h)+1
+// neighbouring columns (fewer at the ends), of their mean squares. The
+// median along the axis steadies each estimate (a few dozen pairs give it
+// ±15 %) and passes over the few columns where a fast change of the lines
+// or of a band adds to the differences. A column without noise (constant
+// placeholders) takes a thousandth of the median noise, so that nothing is
+// divided by zero.
+func noiseWeights(deltas [][]float64, h int) []float64 {
+	k := len(deltas[0])
+	ms := make([]float64, k)
+	for _, r := range deltas {
+		for j, x := range r {
+			ms[j] += x * x / float64(len(deltas))
+		}
+	}
+	q := 2 * h
+	sigma := make([]float64, k)
+	for j := range sigma {
+		sigma[j] = math.Sqrt(median(ms[max(0, j-q):min(k, j+q+1)]))
+	}
+	floor := 1e-3 * median(sigma)
+	if floor == 0 {
+		floor = 1
+	}
+	for j := range sigma {
+		sigma[j] = math.Max(sigma[j], floor)
+	}
+	return sigma
+}
+
+// median of x (the mean of the two middle values for an even count).
+func median(x []float64) float64 {
+	s := slices.Clone(x)
+	slices.Sort(s)
+	if len(s)%2 == 1 {
+		return s[len(s)/2]
+	}
+	return 0.5 * (s[len(s)/2-1] + s[len(s)/2])
+}
+
+// pickVapourWindows are the vapourRanges the axis covers evenly and finely
+// enough, in order, or why none is (the reasons of each, the last range
+// returned).
+func pickVapourWindows(axis []float64) (wins []vapourWin, last vapourRange, why string) {
+	var whys []string
+	for _, rg := range vapourRanges() {
+		last = rg
+		first, end, why := vapourWindow(axis, rg.lo, rg.hi)
+		if why != "" {
+			whys = append(whys, why)
+			continue
+		}
+		spacing := math.Abs(axis[end-1]-axis[first]) / float64(end-1-first)
+		wins = append(wins, vapourWin{rg: rg, first: first, last: end, half: max(2, int(math.Round(vapourWidth/2/spacing)))})
+	}
+	if len(wins) == 0 {
+		return nil, last, strings.Join(whys, "; ")
+	}
+	return wins, last, ""
 }
 
 // vapourWindow is the columns [first, last) of the axis within lo–hi, or
@@ -365,16 +548,18 @@ func leadingSingular(rows [][]float64, vector bool) (float64, []float64) {
 	return math.Sqrt(top), mat.Col(nil, r-1, &vecs)
 }
 
-// orientLines flips p so that its largest entry in magnitude is positive:
-// lines then point up, as absorption lines do when they grow.
+// orientLines flips p so that its lines point up, as absorption lines do
+// when they grow: so that Σp³ > 0, since the high-pass of a line is a peak
+// with two shallower lobes (a delta's, 5 points: 18/35 against −12/35 and
+// 3/35 on each side) and noise is symmetric. The largest entry would do
+// for strong lines, but where the pattern is weak and its noise largest at
+// one end (the light fading), a spike of noise can be it.
 func orientLines(p []float64) {
-	big := 0.0
+	skew := 0.0
 	for _, x := range p {
-		if math.Abs(x) > math.Abs(big) {
-			big = x
-		}
+		skew += x * x * x
 	}
-	if big < 0 {
+	if skew < 0 {
 		for j := range p {
 			p[j] = -p[j]
 		}
@@ -412,22 +597,15 @@ func noiseOfPairs(deltas [][]float64) float64 {
 	return math.Sqrt(med)
 }
 
-func argMax(p []float64) int {
-	k := 0
-	for j, x := range p {
-		if x > p[k] {
-			k = j
-		}
-	}
-	return k
-}
-
 // heights fills Height and Change from every row of d.
 func (v *VapourCheck) heights(d *mat.Dense, bounds [][2]int) {
 	n, _ := d.Dims()
 	v.Height = make([]float64, n)
 	for i := range v.Height {
-		v.Height[i] = v.peak * dotWindow(d.RawRowView(i)[v.first:], v.filter)
+		row := d.RawRowView(i)
+		for _, w := range v.wins {
+			v.Height[i] += v.peak * dotWindow(row[w.first:], w.filter)
+		}
 	}
 	v.Change = make([]float64, len(bounds))
 	for e, b := range bounds {
@@ -448,22 +626,16 @@ func dotWindow(x, f []float64) float64 {
 
 // LinesIn measures the detected pattern in one spectrum over the whole
 // axis (a resolved spectrum, say): height is the height of the pattern's
-// largest line in it, and z its size over the spectrum's own high-passed
-// remainder in the window (root mean square): about 1 or less where the
-// spectrum holds no more of the lines than noise would. Zero without a
-// detection.
+// largest line in it, and z its size over the spectrum's own high-passed,
+// noise-weighted remainder in the windows (root mean square): about 1 or
+// less where the spectrum holds no more of the lines than noise would.
+// Zero without a detection.
 func (v *VapourCheck) LinesIn(spectrum []float64) (height, z float64) {
-	if !v.Detected || len(spectrum) < v.first+len(v.filter) {
+	c, rest, ok := v.project(spectrum)
+	if !ok {
 		return 0, 0
 	}
-	c := dotWindow(spectrum[v.first:], v.filter)
-	hp := highPass(spectrum[v.first:v.first+len(v.filter)], savitzkyGolay2(v.half), v.half)
-	ss := 0.0
-	for j, x := range hp {
-		r := x - c*v.unit[j]
-		ss += r * r
-	}
-	rms := math.Sqrt(ss / float64(len(hp)))
+	rms := math.Sqrt(rest / float64(v.points()))
 	if rms == 0 { // a spectrum of the pattern alone, or zero
 		if c == 0 {
 			return 0, 0
@@ -471,6 +643,62 @@ func (v *VapourCheck) LinesIn(spectrum []float64) (height, z float64) {
 		return c * v.peak, math.MaxFloat64
 	}
 	return c * v.peak, math.Abs(c) / rms
+}
+
+// PatternShare is the share of a spectrum's high-passed, noise-weighted
+// energy in the windows that lies along the detected pattern (its squared
+// cosine to it): 1 for the vapour's lines alone, about one over the
+// number of points for noise. Zero without a detection.
+func (v *VapourCheck) PatternShare(spectrum []float64) float64 {
+	c, rest, ok := v.project(spectrum)
+	if !ok || c*c+rest == 0 {
+		return 0
+	}
+	return c * c / (c*c + rest)
+}
+
+// InVapourRange says whether axis value x (cm⁻¹) lies in a range where
+// water vapour has the lines the check looks for (vapourRanges), examined
+// or not.
+func InVapourRange(x float64) bool {
+	for _, rg := range vapourRanges() {
+		if x >= rg.lo && x <= rg.hi {
+			return true
+		}
+	}
+	return false
+}
+
+// points counts the windows' high-passed points.
+func (v *VapourCheck) points() int {
+	k := 0
+	for _, w := range v.wins {
+		k += len(w.unit)
+	}
+	return k
+}
+
+// project is the pattern's amount c in the spectrum (its weighted
+// high-pass's dot product with the unit pattern) and the sum of squares of
+// what is left; ok is false without a detection or for a short spectrum.
+func (v *VapourCheck) project(spectrum []float64) (c, rest float64, ok bool) {
+	if !v.Detected {
+		return 0, 0, false
+	}
+	for _, w := range v.wins {
+		if len(spectrum) < w.first+len(w.filter) {
+			return 0, 0, false
+		}
+		c += dotWindow(spectrum[w.first:], w.filter)
+	}
+	for _, w := range v.wins {
+		hp := highPass(spectrum[w.first:w.first+len(w.filter)], savitzkyGolay2(w.half), w.half)
+		for j, x := range hp {
+			r := x/w.sigma[j] - c*w.unit[j]
+			rest += r * r
+		}
+	}
+	return c, rest, true
 }
 
 // LineAmounts fits, in every row of d, the amounts of the line spectra

@@ -240,12 +240,16 @@ type EFAEntry struct {
 // and then where the largest line is, how much it changed per experiment
 // and the resolved spectra that hold the lines.
 type VapourJSON struct {
-	Checked   bool                `json:"checked"`
-	Why       string              `json:"not_checked_because,omitempty"`
-	Range     []float64           `json:"range"`
-	Detected  bool                `json:"detected"`
-	Ratio     *float64            `json:"coherence_ratio,omitempty"`
-	Lines     *int                `json:"lines,omitempty"`
+	Checked  bool      `json:"checked"`
+	Why      string    `json:"not_checked_because,omitempty"`
+	Range    []float64 `json:"range"`
+	Detected bool      `json:"detected"`
+	Ratio    *float64  `json:"coherence_ratio,omitempty"`
+	Lines    *int      `json:"lines,omitempty"`
+	// Ranges are all the ranges examined together (range is the first),
+	// and LinesPer the lines counted in each.
+	Ranges    [][]float64         `json:"ranges,omitempty"`
+	LinesPer  []int               `json:"lines_per_range,omitempty"`
 	LargestAt float64             `json:"largest_line_at,omitempty"`
 	Change    []float64           `json:"line_change,omitempty"`
 	Carriers  []VapourCarrierJSON `json:"spectra_with_lines,omitempty"`

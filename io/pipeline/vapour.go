@@ -27,6 +27,26 @@ func checkVapour(r *Result) {
 	}
 }
 
+// vapourRangesText is the ranges the check examined, "3550–3950 cm⁻¹" or
+// "3550–3950 and 1350–1950 cm⁻¹".
+func vapourRangesText(v *svd.VapourCheck) string {
+	rs := v.Ranges
+	if len(rs) == 0 {
+		rs = [][2]float64{{v.Lo, v.Hi}}
+	}
+	parts := make([]string, len(rs))
+	for i, rg := range rs {
+		parts[i] = fmt.Sprintf("%.4g–%.4g", rg[0], rg[1])
+	}
+	return strings.Join(parts, " and ") + " cm⁻¹"
+}
+
+// vapourRangesAll names the ranges where the vapour has the lines the
+// check looks for (svd.InVapourRange).
+func vapourRangesAll() string {
+	return "3550–3950 and 1350–1950 cm⁻¹"
+}
+
 // amountRange is the smallest and largest amount of --vapour spectrum q.
 func amountRange(r *Result, q int) (lo, hi float64) {
 	col := mat.Col(nil, q, r.LineAmounts)
@@ -59,12 +79,16 @@ func vapourWarning(r *Result, m *vapourStack) string {
 	if len(r.LineSpectra) > 0 {
 		after = " (after the --vapour spectra were subtracted)"
 	}
-	fmt.Fprintf(&b, "water vapour%s: %d narrow lines at %.4g–%.4g cm⁻¹ change together during the run (%.3g× what noise gives), the water-vapour lines of the beam path; the largest, at %.5g cm⁻¹, changes by %s",
-		after, v.Lines, v.Lo, v.Hi, v.Ratio, v.LargestAt, vapourChanges(r))
+	fmt.Fprintf(&b, "water vapour%s: %d narrow lines at %s change together during the run (%.3g× what noise gives), the water-vapour lines of the beam path; the largest, at %.5g cm⁻¹, changes by %s",
+		after, v.Lines, vapourRangesText(v), v.Ratio, v.LargestAt, vapourChanges(r))
 	b.WriteString(": the humidity of the air or purge in the beam changed. ")
-	if v.Lo > 2000 {
+	switch {
+	case len(v.Ranges) > 1:
+		// Too weak to tell alone, the two ranges changing together tell it.
+		fmt.Fprintf(&b, "Neither range alone showed enough lines (%d and %d); together they do. Those at %.4g–%.4g cm⁻¹ lie over the bands there", v.LinesPer[0], v.LinesPer[1], v.Ranges[1][0], v.Ranges[1][1])
+	case v.Lo > 2000:
 		b.WriteString("The same gas has lines at about 1300–2000 cm⁻¹, over the bands there")
-	} else {
+	default:
 		// Without the stretching range a gas of the sample with lines
 		// there (nitric oxide near 1876 cm⁻¹, say) looks the same.
 		b.WriteString("They lie over the bands there; the axis does not reach the vapour's stretching lines (3550–3950 cm⁻¹), which alone would tell them from a gas of the sample's own with lines in this range")
@@ -298,6 +322,10 @@ func vapourSummary(r *Result) *output.VapourJSON {
 	}
 	ratio, lines := round(v.Ratio), v.Lines
 	j.Detected, j.Ratio, j.Lines = v.Detected, &ratio, &lines
+	for _, rg := range v.Ranges {
+		j.Ranges = append(j.Ranges, []float64{rg[0], rg[1]})
+	}
+	j.LinesPer = v.LinesPer
 	if !v.Detected {
 		return j
 	}
