@@ -144,23 +144,29 @@ func CheckVapour(d *mat.Dense, axis []float64, blocks []int) VapourCheck {
 	}
 	bounds := experimentBounds(blocks, n)
 	// The first range alone, where sample bands are broad when it is the
-	// stretching range; both together only when it shows nothing.
-	v := checkWindows(d, axis, wins[:1], bounds)
+	// stretching range; both together only when it shows nothing. Each
+	// window's rows are made once: the joint check takes the first's again.
+	per := []windowRows{weightedRows(d, &wins[0], bounds)}
+	v := checkWindows(d, axis, wins[:1], per, bounds)
 	if !v.Detected && v.Checked && len(wins) > 1 {
-		v = checkWindows(d, axis, wins, bounds)
+		for q := 1; q < len(wins); q++ {
+			per = append(per, weightedRows(d, &wins[q], bounds))
+		}
+		v = checkWindows(d, axis, wins, per, bounds)
 	}
 	return v
 }
 
-// checkWindows is the check over the windows together.
-func checkWindows(d *mat.Dense, axis []float64, wins []vapourWin, bounds [][2]int) VapourCheck {
+// checkWindows is the check over the windows together, per holding each
+// one's weighted rows (weightedRows).
+func checkWindows(d *mat.Dense, axis []float64, wins []vapourWin, per []windowRows, bounds [][2]int) VapourCheck {
 	v := VapourCheck{wins: slices.Clone(wins)}
 	for _, w := range wins {
 		lo, hi := math.Min(axis[w.first], axis[w.last-1]), math.Max(axis[w.first], axis[w.last-1])
 		v.Ranges = append(v.Ranges, [2]float64{lo, hi})
 	}
 	v.Lo, v.Hi, v.Checked = v.Ranges[0][0], v.Ranges[0][1], true
-	rows, deltas, used := weightedRows(d, v.wins, bounds)
+	rows, deltas, used := joinWindows(per)
 	if len(deltas) == 0 {
 		v.Checked, v.Why = false, "fewer than two spectra in every experiment"
 		return v
@@ -193,24 +199,49 @@ func checkWindows(d *mat.Dense, axis []float64, wins []vapourWin, bounds [][2]in
 	return v
 }
 
-// weightedRows are vapourRows of every window side by side, each point
-// divided by its noise (noiseWeights, kept in the windows).
-func weightedRows(d *mat.Dense, wins []vapourWin, bounds [][2]int) (rows, deltas [][]float64, used int) {
-	for q := range wins {
-		w := &wins[q]
-		r, dl, u := vapourRows(d, w.first, w.last, w.half, bounds)
-		if len(dl) == 0 {
+// windowRows are one window's vapourRows and pair differences, every point
+// divided by its noise, and the number of experiments used.
+type windowRows struct {
+	rows, deltas [][]float64
+	used         int
+}
+
+// weightedRows are vapourRows of window w, each point divided by its noise
+// (noiseWeights, kept in w); no rows when no experiment has two spectra.
+func weightedRows(d *mat.Dense, w *vapourWin, bounds [][2]int) windowRows {
+	r, dl, u := vapourRows(d, w.first, w.last, w.half, bounds)
+	if len(dl) == 0 {
+		return windowRows{}
+	}
+	w.sigma = noiseWeights(dl, w.half)
+	for _, x := range append(slices.Clone(r), dl...) { // the rows themselves, in place
+		for j := range x {
+			x[j] /= w.sigma[j]
+		}
+	}
+	return windowRows{r, dl, u}
+}
+
+// joinWindows puts the windows' rows side by side in new slices (per is
+// left as it is, for a later joint check); none when a window has none.
+func joinWindows(per []windowRows) (rows, deltas [][]float64, used int) {
+	for _, p := range per {
+		if len(p.deltas) == 0 {
 			return nil, nil, 0
 		}
-		w.sigma = noiseWeights(dl, w.half)
-		for _, x := range append(slices.Clone(r), dl...) { // the rows themselves, in place
-			for j := range x {
-				x[j] /= w.sigma[j]
+	}
+	join := func(pick func(windowRows) [][]float64) [][]float64 {
+		out := make([][]float64, len(pick(per[0])))
+		for i := range out {
+			for _, p := range per {
+				out[i] = append(out[i], pick(p)[i]...)
 			}
 		}
-		rows, deltas, used = joinColumns(rows, r), joinColumns(deltas, dl), u
+		return out
 	}
-	return rows, deltas, used
+	rows = join(func(p windowRows) [][]float64 { return p.rows })
+	deltas = join(func(p windowRows) [][]float64 { return p.deltas })
+	return rows, deltas, per[len(per)-1].used
 }
 
 // countForest counts the pattern's lines above level in every window
@@ -286,17 +317,6 @@ func (v *VapourCheck) setPattern(pattern, axis []float64, level float64) {
 		w.filter = highPassAdjoint(p, w.half)
 	}
 	v.peak = top
-}
-
-// joinColumns puts the rows of b beside those of a (a nil: b).
-func joinColumns(a, b [][]float64) [][]float64 {
-	if a == nil {
-		return b
-	}
-	for i := range a {
-		a[i] = append(a[i], b[i]...)
-	}
-	return a
 }
 
 // noiseWeights is the noise standard deviation of every column of the
