@@ -36,9 +36,12 @@ type ConstraintReport struct {
 	Described  []string // one line per active constraint, in words
 	Checks     []mcr.ConstraintCheck
 	Bands      *mcr.BandsResult
-	BandsNote  string
-	Intervals  *mcr.Intervals
-	Level      float64
+	// Lifted: with a baseline fitted in species mode, the ranges without
+	// non-negative spectra (liftedRangesWarning); nil when not searched.
+	Lifted    *mcr.BandsResult
+	BandsNote string
+	Intervals *mcr.Intervals
+	Level     float64
 }
 
 // Side names for --nonneg.
@@ -694,7 +697,7 @@ func computeBands(r *Result, opt mcr.Options, log io.Writer) []string {
 	for j, ks := range opt.KnownSpectra {
 		known[j] = ks != nil && (j >= len(opt.KnownWeights) || opt.KnownWeights[j] == 0)
 	}
-	b, err := mcr.FeasibleBands(r.ALS.C, r.ALS.S, mcr.BandOptions{
+	bo := mcr.BandOptions{
 		Mode: r.Mode, NonNegProfiles: opt.NonNegProfiles, NonNegSpectra: opt.NonNegSpectra,
 		Closure: opt.Closure, ClosureWeights: opt.ClosureWeights,
 		ZeroProfiles: opt.ZeroProfiles, ZeroSpectra: opt.ZeroSpectra, Known: known,
@@ -702,16 +705,109 @@ func computeBands(r *Result, opt mcr.Options, log io.Writer) []string {
 		// uniqueness.csv's rows of each component are formatted from the
 		// moment its range is found, beside the other searches.
 		Found: r.ahead.bandsFound(r),
-	})
+	}
+	b, err := mcr.FeasibleBands(r.ALS.C, r.ALS.S, bo)
 	if err != nil {
 		rep.BandsNote = fmt.Sprintf("uniqueness ranges not computed: %v", err)
 		return nil
 	}
 	rep.Bands = b
+	var warn []string
 	if w := rankDeficientBands(r, b); w != "" {
-		return []string{w}
+		warn = []string{w}
+	} else {
+		warn = rangeWarnings(r.Names, b)
 	}
-	return rangeWarnings(r.Names, b)
+	if w := liftedRangesWarning(r, bo, b); w != "" {
+		warn = append(warn, w)
+	}
+	return warn
+}
+
+// boolsOrDefault is a species-mode non-negativity list with its default
+// (true) where nil or short.
+func boolsOrDefault(b []bool, k int) []bool {
+	out := make([]bool, k)
+	for j := range out {
+		out[j] = j >= len(b) || b[j]
+	}
+	return out
+}
+
+// zeroCount is the number of points in component j's zero windows.
+func zeroCount(zero [][]bool, j int) int {
+	if j >= len(zero) {
+		return 0
+	}
+	n := 0
+	for _, z := range zero[j] {
+		if z {
+			n++
+		}
+	}
+	return n
+}
+
+// liftMaterial is how far (as a share of the component's own share of the
+// signal) a range without non-negative spectra must reach beyond the
+// reported one before liftedRangesWarning speaks: both searches are local
+// (FeasibleBands), so a small difference between their ends says little.
+const liftMaterial = 0.1
+
+// liftedRangesWarning measures what the uniqueness ranges leave out when a
+// baseline is fitted in species mode, and warns when it is material.
+//
+// With a free polynomial baseline per spectrum, a polynomial of the
+// baseline's order added to one species' spectrum and taken off the
+// baseline (s_k + Pβ, B − c_k βᵀ) fits exactly the same (mcr/baseline.go);
+// with closure a polynomial common to all spectra is one such move. A lift
+// makes any rotated spectrum non-negative, so non-negativity of the spectra
+// no longer bounds the rotation: only the premise that each spectrum sits
+// at zero under its lower polynomial envelope (the lowering ALS applies)
+// does, and the ranges, which keep the lowered spectra non-negative, take
+// that premise as given. The ranges the remaining constraints (profiles,
+// closure, known spectra, zero windows) allow measure the freedom: the
+// same search with the spectra free of sign.
+func liftedRangesWarning(r *Result, bo mcr.BandOptions, b *mcr.BandsResult) string {
+	if r.BaselineShapes == nil || r.Mode != mcr.Species {
+		return ""
+	}
+	_, nb := r.BaselineShapes.Dims()
+	free := bo
+	free.NonNegSpectra = make([]bool, r.Components)
+	for j := range free.NonNegSpectra {
+		// A zero window of more points than the baseline has terms
+		// admits no lift (a polynomial zero there is zero everywhere),
+		// so the spectrum keeps its non-negativity.
+		free.NonNegSpectra[j] = (j >= len(bo.NonNegSpectra) || bo.NonNegSpectra[j]) && zeroCount(bo.ZeroSpectra, j) > nb
+	}
+	if slices.Equal(free.NonNegSpectra, boolsOrDefault(bo.NonNegSpectra, r.Components)) {
+		return ""
+	}
+	free.Found = nil
+	fb, err := mcr.FeasibleBands(r.ALS.C, r.ALS.S, free)
+	if err != nil {
+		return ""
+	}
+	r.Constraints.Lifted = fb
+	var parts []string
+	for j, band := range b.Bands {
+		fr := fb.Bands[j]
+		beyond := math.Max(0, band.Min-fr.Min) + math.Max(0, fr.Max-band.Max)
+		if beyond <= liftMaterial*band.Value {
+			continue
+		}
+		hi := fmt.Sprintf("%.3g", fr.Max)
+		if fr.Max > unboundedBand {
+			hi = "unbounded"
+		}
+		parts = append(parts, fmt.Sprintf("%s %.3g – %s (reported %.3g – %.3g)", r.Names[j], math.Min(fr.Min, band.Min), hi, band.Min, band.Max))
+	}
+	if len(parts) == 0 {
+		return ""
+	}
+	return fmt.Sprintf("spectra poorly determined with a fitted baseline (%s): a polynomial of the baseline's order added to a species' spectrum and taken off the baseline fits the same, so non-negative spectra no longer bound the rotation; the spectra shown are the split that lowers each onto zero under its lower polynomial envelope, and the uniqueness ranges assume that split and leave this freedom out. Without non-negative spectra the other constraints allow %s: read the spectra as determined only up to a polynomial each and such a rotation; a known spectrum (--known-spectrum) or a region where a species does not absorb (--zero-region, more points than the baseline has terms) bounds it",
+		baselineName(nb-1), strings.Join(parts, ", "))
 }
 
 // rangeWarnings are the warnings the uniqueness ranges give: a range not
