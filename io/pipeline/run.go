@@ -345,7 +345,7 @@ func readExperiments(r *Result, p readingPlan, log io.Writer) ([]*mat.Dense, err
 			r.Warnings = append(r.Warnings, w)
 		}
 	}
-	r.Notes = append(r.Notes, spectra.NoiseNotes(first.AxisName, axis, r.Weights.ChannelSigma())...)
+	r.Notes = append(r.Notes, spectra.NoiseNotes(first.AxisName, axis, r.Weights.ChannelSigma(), r.Blind)...)
 	n, m := r.D.Dims()
 	fmt.Fprintf(log, "data: %d spectra × %d points, %s mode\n", n, m, r.Mode)
 	return diffRows, nil

@@ -160,38 +160,22 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 		if opt.Blank != nil {
 			return nil, fmt.Errorf("a blank single beam goes with --kind single-beam; absorbance input is already ratioed")
 		}
-		sigma, q, src := channelNoise(s.Values, opt.Pre, nil)
-		out.Noise = Noise{Level: median(sigma), Unit: "absorbance", Source: src, Channel: sigma, Quantum: q}
-		out.AbsoluteWeights = channelWeights(n, sigma, nil)
-		out.DifferenceWeights = out.AbsoluteWeights
-		if opt.Consume {
-			out.Absolute = s.Values
-		} else {
-			out.Absolute = mat.DenseCopyOf(s.Values)
-		}
-		if opt.Reference.File == nil {
-			meanRows(s.Values, out.ReferenceRows, ref)
-		}
-		out.Difference = fresh.Overwritten(n, m) // every value is written below
-		for i := 0; i < n; i++ {
-			row := s.Values.RawRowView(i)
-			dst := out.Difference.RawRowView(i)
-			for j := range row {
-				dst[j] = row[j] - ref[j]
-			}
-		}
+		assembleAbsorbances(s, opt, ref, out)
 	case Difference:
 		if opt.Blank != nil {
 			return nil, fmt.Errorf("a blank single beam goes with --kind single-beam; difference input is already ratioed")
 		}
-		sigma, q, src := channelNoise(s.Values, opt.Pre, nil)
+		blind, sigma, q, src := absorbanceNoise(s.Values, opt.Pre)
 		out.Noise = Noise{Level: median(sigma), Unit: "absorbance", Source: src, Channel: sigma, Quantum: q}
-		out.DifferenceWeights = channelWeights(n, sigma, nil)
+		out.DifferenceWeights = channelWeights(n, sigma, blind)
 		if opt.Consume {
 			out.Difference = s.Values
 		} else {
 			out.Difference = mat.DenseCopyOf(s.Values)
 		}
+		fillBlind(out.Difference, blind, s.Times)
+		out.Blind = blind
+		out.Notes = append(out.Notes, absorbanceBlindNotes(s, blind)...)
 		if opt.Reference.File != nil {
 			out.Notes = append(out.Notes, "difference input: the reference file is not used")
 		}
@@ -203,6 +187,41 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 		s.Values = nil
 	}
 	return out, nil
+}
+
+// assembleAbsorbances is Assemble for absorbance input: blind points and
+// the noise model (absorbanceNoise), the reference over the observed values,
+// ΔA = A − A_ref, and placeholders at the blind points of both matrices.
+func assembleAbsorbances(s *Series, opt AssembleOptions, ref []float64, out *Assembled) {
+	n, m := s.Values.Dims()
+	blind, sigma, q, src := absorbanceNoise(s.Values, opt.Pre)
+	if opt.Reference.File == nil {
+		if blind == nil {
+			meanRows(s.Values, out.ReferenceRows, ref)
+		} else if observedReference(s.Values, out.ReferenceRows, blind, ref) {
+			sigma, q, src = channelNoise(s.Values, opt.Pre, blind)
+		}
+	}
+	out.Noise = Noise{Level: median(sigma), Unit: "absorbance", Source: src, Channel: sigma, Quantum: q}
+	out.AbsoluteWeights = channelWeights(n, sigma, blind)
+	out.DifferenceWeights = out.AbsoluteWeights
+	if opt.Consume {
+		out.Absolute = s.Values
+	} else {
+		out.Absolute = mat.DenseCopyOf(s.Values)
+	}
+	out.Difference = fresh.Overwritten(n, m) // every value is written below
+	for i := 0; i < n; i++ {
+		row := s.Values.RawRowView(i)
+		dst := out.Difference.RawRowView(i)
+		for j := range row {
+			dst[j] = row[j] - ref[j]
+		}
+	}
+	fillBlind(out.Absolute, blind, s.Times)
+	fillBlind(out.Difference, blind, s.Times)
+	out.Blind = blind
+	out.Notes = append(out.Notes, absorbanceBlindNotes(s, blind)...)
 }
 
 // referenceRows are the rows of a series of n spectra averaged into its

@@ -1269,28 +1269,61 @@ func channelWeights(n int, sigma []float64, blind *Blind) *Weights {
 
 // NoiseNotes says, in the user's words, how far from uniform the noise is
 // across the axis and where: channels whose σ exceeds nonUniform × the
-// median, as axis ranges.
-func NoiseNotes(axisName string, axis, sigma []float64) []string {
+// median, as axis ranges. Channels blind in every spectrum (blind.Everywhere)
+// are left out: their weight is nil by design, not by noise, and the blind
+// points' own note names them.
+func NoiseNotes(axisName string, axis, sigma []float64, blind *Blind) []string {
 	if len(sigma) == 0 {
 		return nil
 	}
-	med := median(sigma)
+	gone := blind.Everywhere(len(sigma))
+	var seen []float64
+	for j, s := range sigma {
+		if !gone[j] {
+			seen = append(seen, s)
+		}
+	}
+	if len(seen) == 0 {
+		return nil
+	}
+	med := median(seen)
 	if !(med > 0) {
 		return nil
 	}
 	mx := 0.0
-	for _, s := range sigma {
+	for _, s := range seen {
 		mx = math.Max(mx, s)
 	}
 	if mx <= nonUniform*med {
 		return nil
 	}
 	var ranges []string
-	for _, r := range runsOf(len(sigma), func(j int) bool { return sigma[j] > nonUniform*med }) {
+	for _, r := range runsOf(len(sigma), func(j int) bool { return !gone[j] && sigma[j] > nonUniform*med }) {
 		ranges = append(ranges, fmt.Sprintf("%s %g–%g", axisName, axis[r[0]], axis[r[1]]))
 	}
 	return []string{fmt.Sprintf("noise is far from uniform across the axis: up to %.3g× the median at %s (strong absorption or a detector edge, where little light reaches the detector); those points are weighted down by 1/σ² and matter little to the answer",
 		mx/med, listSome(ranges, 4))}
+}
+
+// Everywhere marks the channels of m that are blind in every spectrum (all
+// false for a nil b or one without spectra).
+func (b *Blind) Everywhere(m int) []bool {
+	out := make([]bool, m)
+	if b == nil || len(b.Rows) == 0 {
+		return out
+	}
+	cnt := make([]int, m)
+	for _, r := range b.Rows {
+		for _, j := range r {
+			if j < m {
+				cnt[j]++
+			}
+		}
+	}
+	for j, c := range cnt {
+		out[j] = c == len(b.Rows)
+	}
+	return out
 }
 
 // nonUniform: a channel whose noise σ is 10× the median has 1 % of the
@@ -1324,6 +1357,12 @@ func listSome(items []string, most int) string {
 // hold any, with how many spectra and which times, e.g. "wavenumber
 // 2290–2270 in 5 spectra (120–240 s)".
 func BlindNotes(source, axisName string, axis, times []float64, b *Blind) []string {
+	return blindNotes(source, axisName, axis, times, b, "a single beam not finite, at or below its noise, at the detector's ceiling, or ten times noisier than its channel's weight allows")
+}
+
+// blindNotes is BlindNotes with why the points hold no light in words
+// (the input's kind decides how that is seen).
+func blindNotes(source, axisName string, axis, times []float64, b *Blind, why string) []string {
 	if b == nil || b.Count == 0 {
 		return nil
 	}
@@ -1358,8 +1397,8 @@ func BlindNotes(source, axisName string, axis, times []float64, b *Blind) []stri
 			parts = append(parts, fmt.Sprintf("%s in %d spectra (%s)", where, ns, when))
 		}
 	}
-	return []string{fmt.Sprintf("%s: %d blind point(s) (no usable light: a single beam not finite, at or below its noise, at the detector's ceiling, or ten times noisier than its channel's weight allows) at %s; they are left out of the fit (weight zero) and filled from the low-rank model; --exclude LO:HI cuts a range on purpose",
-		source, b.Count, listSome(parts, 5))}
+	return []string{fmt.Sprintf("%s: %d blind point(s) (no usable light: %s) at %s; they are left out of the fit (weight zero) and filled from the low-rank model; --exclude LO:HI cuts a range on purpose",
+		source, b.Count, why, listSome(parts, 5))}
 }
 
 // assembleSingleBeams is Assemble for single beams: blind points, the
@@ -1639,8 +1678,10 @@ func meanObserved(v *mat.Dense, rows []int, b *Blind, dst, cnt []float64) {
 	}
 }
 
-// addChannel makes channel j blind in every spectrum.
-func (b *Blind) addChannel(j int) {
+// addChannel makes channel j blind in every spectrum, and says whether it
+// was not already.
+func (b *Blind) addChannel(j int) bool {
+	added := false
 	for i, r := range b.Rows {
 		k := sort.SearchInts(r, j)
 		if k < len(r) && r[k] == j {
@@ -1651,7 +1692,9 @@ func (b *Blind) addChannel(j int) {
 		r[k] = j
 		b.Rows[i] = r
 		b.Count++
+		added = true
 	}
+	return added
 }
 
 // StackWeights joins the weights of experiments stacked by rows (a

@@ -100,7 +100,7 @@ func TestWeightsFollowTheLight(t *testing.T) {
 	if r := (sig[280] / sig[100]) / want; r < 0.8 || r > 1.25 {
 		t.Errorf("σ ratio band/bright %.4g, 1/I gives %.4g", sig[280]/sig[100], want)
 	}
-	notes := NoiseNotes(s.AxisName, s.Axis, sig)
+	notes := NoiseNotes(s.AxisName, s.Axis, sig, nil)
 	if len(notes) != 1 || !strings.Contains(notes[0], "wavenumber 17") {
 		t.Errorf("noise note %q should name the band near wavenumber 1720", notes)
 	}

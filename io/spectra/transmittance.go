@@ -20,16 +20,23 @@ const percentMost = 200
 // TransmittanceToAbsorbance turns the series' transmittance into absorbance
 // in place, A = −log10 T (IUPAC Gold Book, "absorbance"), T divided by 100
 // first when it is in per cent (its largest finite value above
-// percentAbove). It returns whether it took per cent and that value; a
-// value T ≤ 0, which has no absorbance, is refused with where it is, and
-// values above percentMost, which are no transmittance.
+// percentAbove). It returns whether it took per cent and that value. A value
+// T ≤ 0 has no absorbance: where no light reaches the detector a
+// transmittance is noise about zero, so a few such values are points without
+// light, +Inf here, which the assembly makes blind (absorbanceNoise); when
+// more than a quarter of the values are, the values are no transmittance and
+// are refused with where the first lies, as are values above percentMost.
 func TransmittanceToAbsorbance(s *Series) (percent bool, largest float64, err error) {
 	n, m := s.Values.Dims()
 	largest = math.Inf(-1)
+	dark := 0
 	for i := 0; i < n; i++ {
 		for _, v := range s.Values.RawRowView(i)[:m] {
 			if !math.IsNaN(v) && !math.IsInf(v, 0) {
 				largest = math.Max(largest, v)
+			}
+			if v <= 0 {
+				dark++
 			}
 		}
 	}
@@ -45,13 +52,17 @@ func TransmittanceToAbsorbance(s *Series) (percent bool, largest float64, err er
 		row := s.Values.RawRowView(i)[:m]
 		for j, v := range row {
 			a, ok := absorbanceOf(v * scale)
-			if !ok && !math.IsNaN(v) { // a missing value stays missing
+			switch {
+			case ok || math.IsNaN(v): // a missing value stays missing
+			case dark <= n*m/4:
+				a = math.Inf(1) // no light: a blind point
+			default:
 				where := fmt.Sprintf("spectrum %d", i+1)
 				if i < len(s.Names) && s.Names[i] != "" {
 					where = s.Names[i]
 				}
 				return false, 0, inputErr(s.Source, 0, needPositiveT,
-					"transmittance %g at %s %g in %s is not positive", v, s.AxisName, s.Axis[j], where)
+					"transmittance %g at %s %g in %s is not positive, and %d of the %d values are not", v, s.AxisName, s.Axis[j], where, dark, n*m)
 			}
 			row[j] = a
 		}
@@ -71,4 +82,4 @@ func absorbanceOf(t float64) (float64, bool) {
 }
 
 // needPositiveT is what to do about a transmittance ≤ 0.
-const needPositiveT = "absorbance −log10 T needs T > 0: cut that range with --exclude LO:HI, or export absorbance"
+const needPositiveT = "absorbance −log10 T needs T > 0: check that the values are a transmittance, cut that range with --exclude LO:HI, or export absorbance"
