@@ -117,6 +117,9 @@ type BaselineStep struct {
 type BaselineChoice struct {
 	Order int // chosen order, −1 = no baseline
 	Steps []BaselineStep
+	// Noise is the residual's correlation along the axis; the tests counted its
+	// m points as Noise.Effective independent ones.
+	Noise AxisNoise
 }
 
 // ChooseBaselineOrder picks the polynomial baseline order by the extra-sum-of-squares
@@ -125,9 +128,16 @@ type BaselineChoice struct {
 // baseline of order q (the rank-k tail of D with polynomials up to q projected out), going
 // from order q−1 to q adds one coefficient per spectrum (n), and
 //
-//	F = [(RSS_{q−1} − RSS_q)/n] / [RSS_q/dof_q],  dof_q = n(m−q−1) − k(n + m − q − 1 − k),
+//	F = [(RSS_{q−1} − RSS_q)/n] / [RSS_q/dof_q],  dof_q = n(m'−q−1) − k(n + m' − q − 1 − k),
 //
-// is F(n, dof_q) distributed when order q is not needed. Orders are added forward while
+// is F(n, dof_q) distributed when order q is not needed. m' = m/τ is the effective
+// number of independent points of noise correlated along the axis (AxisCorrelation, on
+// the residual of the fullest model: k factors and order maxOrder), m itself for white
+// noise: a polynomial is smooth, so each of its coefficients takes noise of variance
+// τσ² from a spectrum, as do the k factors' coefficients per spectrum, while the
+// denominator's residual keeps about σ² a point; in units of τσ², m' is the count that
+// makes both sides of F right. Counting correlated points as independent made every
+// order "significant" (p < 10⁻⁵⁰ on noise smoothed over 2 points). Orders are added forward while
 // they are significant at level alpha; one non-significant order is stepped over (so a
 // pure slope is found even when the offset alone is not significant), two in a row end
 // the search: the chosen order is the last significant one. f, when given, holds
@@ -172,7 +182,10 @@ func ChooseBaselineOrderBasis(d, dq, basis *mat.Dense, f *Factors, axis, col []f
 	if err != nil {
 		return nil, err
 	}
-	return fits.forwardSelect(maxOrder, alpha), nil
+	fits.noise = fits.residualNoise(d)
+	ch := fits.forwardSelect(maxOrder, alpha)
+	ch.Noise = fits.noise
+	return ch, nil
 }
 
 // checkBaselineTest refuses arguments with which the F-test has no meaning: the
@@ -212,13 +225,16 @@ type baselineFits struct {
 	n, m, r, k  int
 	frobeniusSq float64
 	w, wqAll    *mat.Dense
-	basis       *mat.Dense
+	basis, dq   *mat.Dense
 	polyEnergy  []float64 // ‖(D Q)_c‖² per basis column c
 	// W less its projection is formed in the same memory for every order,
 	// and its values taken there (valuesInPlace: mat.SVD's LAPACK call
 	// without its copy of the matrix).
 	proj mat.Dense
 	wq   *mat.Dense
+	// noise is the residual's correlation along the axis; the F-tests count
+	// m/τ independent points.
+	noise AxisNoise
 }
 
 // newBaselineFits forms W, the basis (unless given), D Q (unless given) and W Q.
@@ -242,6 +258,7 @@ func newBaselineFits(d, dq, basis *mat.Dense, f *Factors, axis, col []float64, k
 		wqAll: &mat.Dense{}, wq: mat.NewDense(r, m, nil)}
 	fits.wqAll.Mul(w, basis)
 	fits.polyEnergy = columnEnergies(dq, n, maxOrder+1)
+	fits.dq = dq
 	return fits, nil
 }
 
@@ -319,6 +336,10 @@ func (b *baselineFits) forwardSelect(maxOrder int, alpha float64) *BaselineChoic
 func (b *baselineFits) fTest(q int, prev, cur float64) BaselineStep {
 	n, m, k := b.n, b.m, b.k
 	dof := float64(n*(m-q-1) - k*(n+m-q-1-k))
+	if b.noise.Inflation > 1 {
+		me := b.noise.Effective
+		dof = float64(n)*(me-float64(q+1)) - float64(k)*(float64(n)+me-float64(q+1+k))
+	}
 	st := BaselineStep{Order: q, ResidualSS: cur, Significance: 1}
 	switch {
 	case dof < 1:
@@ -334,4 +355,69 @@ func (b *baselineFits) fTest(q int, prev, cur float64) BaselineStep {
 		}
 	}
 	return st
+}
+
+// residualNoise measures the correlation along the axis of the residual of the fullest
+// model, k factors and the baseline of the highest order (AxisCorrelation): on at most
+// axisMaxRows rows of d, evenly spaced, each less its polynomial part (from D Q) and
+// its part along the k leading right singular vectors V_k of W less its polynomial
+// part, which are the rank-k fit's spectra (orthogonal to Q). G = [Q V_k].
+func (b *baselineFits) residualNoise(d *mat.Dense) AxisNoise {
+	g := b.residualBasis(len(b.polyEnergy) - 1)
+	_, p := g.Dims()
+	if axisWindow(b.m, p) < 1 {
+		return white(b.m)
+	}
+	cols := make([][]float64, p)
+	for c := range cols {
+		cols[c] = mat.Col(nil, c, g)
+	}
+	_, cq := b.basis.Dims()
+	rows := min(b.n, axisMaxRows)
+	e := mat.NewDense(rows, b.m, nil)
+	coef := make([]float64, p)
+	for a := 0; a < rows; a++ {
+		i := a * b.n / rows
+		src, dst := d.RawRowView(i), e.RawRowView(a)
+		for c, u := range cols {
+			if c < cq {
+				coef[c] = b.dq.At(i, c)
+			} else {
+				coef[c] = dot(src, u)
+			}
+		}
+		copy(dst, src)
+		for c, u := range cols {
+			for j, v := range u {
+				dst[j] -= coef[c] * v
+			}
+		}
+	}
+	return AxisCorrelation(e, g)
+}
+
+// residualBasis returns [Q V_k] (m × (order+1+k')): the basis of order and the leading
+// right singular vectors of W with that basis projected out, k' ≤ k of them, those of
+// singular values above rounding (only they are sure to be orthogonal to Q).
+func (b *baselineFits) residualBasis(order int) *mat.Dense {
+	q := b.basis.Slice(0, b.m, 0, order+1)
+	var proj, rest mat.Dense
+	proj.Mul(b.wqAll.Slice(0, b.r, 0, order+1), q.T())
+	rest.Sub(b.w, &proj)
+	var v mat.Dense
+	k := 0
+	var sv mat.SVD
+	if b.k > 0 && sv.Factorize(&rest, mat.SVDThin) {
+		vals := sv.Values(nil)
+		for k < min(b.k, len(vals)) && vals[k] > 1e-12*vals[0] {
+			k++
+		}
+		sv.VTo(&v)
+	}
+	g := mat.NewDense(b.m, order+1+k, nil)
+	g.Slice(0, b.m, 0, order+1).(*mat.Dense).Copy(q)
+	if k > 0 {
+		g.Slice(0, b.m, order+1, order+1+k).(*mat.Dense).Copy(v.Slice(0, b.m, 0, k))
+	}
+	return g
 }

@@ -390,7 +390,7 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 		if in.col != nil {
 			metric = ", each baseline fitted by least squares weighted with the noise"
 		}
-		r.BaselineReason = fmt.Sprintf("chosen by the extra-sum-of-squares F-test of each order against the one below at level %.3g (Draper & Smith 1998; --alpha %g shared by the %d orders tried, Bonferroni), with %d factor(s) besides the baseline%s: %s", level, r.Settings.Alpha, maxOrder+1, kf, metric, strings.Join(steps, ", "))
+		r.BaselineReason = fmt.Sprintf("chosen by the extra-sum-of-squares F-test of each order against the one below at level %.3g (Draper & Smith 1998; --alpha %g shared by the %d orders tried, Bonferroni), with %d factor(s) besides the baseline%s%s: %s", level, r.Settings.Alpha, maxOrder+1, kf, metric, axisNoiseText(ch.Noise), strings.Join(steps, ", "))
 		if order != maxOrder {
 			in.rebuild = nil // d's last use
 			if rep, cr, err = chemicalRank(r, d, f, order, in, r.Mode == mcr.Species); err != nil {
@@ -403,6 +403,15 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 	r.BaselineOrder = order
 	r.Rank, r.Chemical = rep, cr
 	return nil
+}
+
+// axisNoiseText says how the baseline test counted noise correlated along the
+// axis; empty for white noise, whose test is the plain one.
+func axisNoiseText(a svd.AxisNoise) string {
+	if !(a.Inflation > 1) {
+		return ""
+	}
+	return fmt.Sprintf("; the residual is correlated along the axis (lag-1 autocorrelation %.2f, long-run variance %.3g times the variance per point), so its %d points count as %.0f independent ones (Bayley & Hammersley 1946; the sum by Geyer 1992)", a.Lag1, a.Inflation, a.Points, a.Effective)
 }
 
 // nuisanceAdvice says what the factors that are not chemistry look like.
