@@ -1142,11 +1142,20 @@ func fitKinetics(r *Result, log io.Writer) error {
 // noise of each point).
 func (kn *Kinetics) dataOptions(r *Result, opt kinetics.FitOptions) kinetics.FitOptions {
 	opt.Amplitudes = false
-	n, m := r.D.Dims()
-	if w := r.Weights; w != nil && len(w.Row) == n && len(w.Col) == m {
-		opt.RowWeights, opt.ColWeights = keptValues(r, w.Row), w.Col
+	if col := dataColWeights(r); col != nil {
+		opt.RowWeights, opt.ColWeights = keptValues(r, r.Weights.Row), col
 	}
 	return opt
+}
+
+// dataColWeights are the column weights the fits of the data matrix use
+// (dataOptions), nil when they are unweighted.
+func dataColWeights(r *Result) []float64 {
+	n, m := r.D.Dims()
+	if w := r.Weights; w != nil && len(w.Row) == n && len(w.Col) == m {
+		return w.Col
+	}
+	return nil
 }
 
 // keptRows lists the rows of r.D that are data: spectra set aside as
@@ -1262,7 +1271,8 @@ func (kn *Kinetics) keep(f *dataFitJob) (*kinetics.FitResult, *mat.Dense, error)
 // fitRows returns the times and rows of r.D the data fits work on: with a
 // baseline, the data's component along the baseline shapes left out (the
 // baseline resolve subtracted came with its own, soft, solution; fitted
-// jointly instead, projectOutShapes), and without the spectra set aside
+// jointly instead, projectOutShapes), in the metric of the fit's column
+// weights when it has them (dataOptions), and without the spectra set aside
 // (keptRows). Within a batch they are formed once.
 func (kn *Kinetics) fitRows(r *Result) ([]float64, *mat.Dense) {
 	if b := kn.batch; b != nil && b.d != nil {
@@ -1270,7 +1280,7 @@ func (kn *Kinetics) fitRows(r *Result) ([]float64, *mat.Dense) {
 	}
 	times, d := r.Times, r.D
 	if r.BaselineShapes != nil {
-		d = projectOutShapes(d, r.BaselineShapes)
+		d = projectOutShapesWeighted(d, r.BaselineShapes, dataColWeights(r))
 	}
 	if len(r.SetAside) > 0 {
 		rows := keptRows(r)
@@ -2099,6 +2109,66 @@ func printDemoKinetics(r *Result, truth []float64, w io.Writer) {
 			fmt.Fprintf(w, "  %-13s %-8s k = %.6g ± %.2g /s   truth %g /s   (%s standard errors)\n", f.Method, st.Text, f.Fit.K[j], f.Fit.KStdErr[j], truth[j], dev)
 		}
 	}
+}
+
+// projectOutShapesWeighted is projectOutShapes in the metric of the column
+// weights b (nil: projectOutShapes): D (I − P(PᵀBP)⁻¹PᵀB), B = diag(b),
+// each spectrum without its weighted least-squares fit by the shapes. A fit
+// weighted by a_i b_j fits each spectrum's baseline coefficients with the
+// weights b_j (a_i is one factor per spectrum), so only this projection
+// gives the joint weighted fit's rate constants (Golub & Pereyra 1973 in
+// that metric). The plain one takes the baseline mostly from the noisiest
+// channels (a detector edge, a strong band: weights 100× lower) and spreads
+// their noise over the quiet ones, where the weights are high: with a cubic
+// baseline it raised the data fit's residual to 1.55× the noise on white
+// noise and 3.2× on noise correlated along the axis, whose smooth part a
+// polynomial collects.
+func projectOutShapesWeighted(d, p *mat.Dense, col []float64) *mat.Dense {
+	if col == nil {
+		return projectOutShapes(d, p)
+	}
+	m, c := p.Dims()
+	// PᵀBP is c × c (c ≤ 9) and well conditioned for Legendre shapes:
+	// Cholesky on the small Gram matrix, as the normal equations of a
+	// weighted polynomial fit are usually solved.
+	gram := mat.NewSymDense(c, nil)
+	for a := 0; a < c; a++ {
+		for b := a; b < c; b++ {
+			var s float64
+			for j := 0; j < m; j++ {
+				s += p.At(j, a) * col[j] * p.At(j, b)
+			}
+			gram.SetSym(a, b, s)
+		}
+	}
+	var ch mat.Cholesky
+	if !ch.Factorize(gram) {
+		return projectOutShapes(d, p)
+	}
+	n, _ := d.Dims()
+	out := mat.DenseCopyOf(d)
+	rhs, beta := mat.NewVecDense(c, nil), mat.NewVecDense(c, nil)
+	for i := 0; i < n; i++ {
+		row := out.RawRowView(i)
+		for a := 0; a < c; a++ {
+			var s float64
+			for j, v := range row {
+				s += p.At(j, a) * col[j] * v
+			}
+			rhs.SetVec(a, s)
+		}
+		if err := ch.SolveVecTo(beta, rhs); err != nil {
+			return projectOutShapes(d, p)
+		}
+		for j := range row {
+			var f float64
+			for a := 0; a < c; a++ {
+				f += p.At(j, a) * beta.AtVec(a)
+			}
+			row[j] -= f
+		}
+	}
+	return out
 }
 
 // projectOutShapes returns D (I − P(PᵀP)⁻¹Pᵀ): each spectrum without its
