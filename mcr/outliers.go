@@ -17,11 +17,22 @@ import (
 //     median(r) + OutlierK · 1.4826 · MAD(r) (the Hampel identifier; Davies & Gather,
 //     J. Am. Stat. Assoc. 1993; 1.4826 makes the MAD a standard deviation for normal
 //     data), and, when the noise level σ is known, 2σ;
-//  2. structured: either sharp lines (the largest |e_ij| exceeds √(2 ln m) + 3 robust
-//     standard deviations of the row's own residual, where √(2 ln m) is the usual largest
-//     value of m normal draws; Cramér, Mathematical Methods of Statistics, 1946) or a broad
-//     feature (the lag-1 autocorrelation of the residual along the axis exceeds the
-//     median over spectra by 3 robust standard deviations and 0.2).
+//  2. structured: either a point standing out of the row (the largest |e_ij| exceeds
+//     √(2 ln m) + 3 robust standard deviations of the row's own residual, where √(2 ln m)
+//     is the usual largest value of m normal draws; Cramér, Mathematical Methods of
+//     Statistics, 1946) or a smooth residual (the lag-1 autocorrelation along the axis
+//     exceeds the median over spectra by 3 robust standard deviations and 0.2, or lies
+//     nearer 1 than the median by half the room left: when every spectrum's residual is
+//     smooth, as without a baseline model, the spread of the lags is wide and only a
+//     residual that is smooth almost throughout stands out).
+//
+// With noise weights the residual is taken in units of its noise, e_ij √(a_i b_j): in
+// absorbance the noise grows many times where little light reaches the detector, and
+// those points would otherwise decide both the size and the shape of every residual.
+//
+// What the residual looks like is measured, not assumed (describeResidual): the width
+// at half height of its largest feature, its sign, and how much of it a smooth curve
+// along the axis (a polynomial of order 4) carries.
 //
 // OutlierK = 5: with a few hundred spectra a normal scale would flag none by chance,
 // and gas lines or a bubble sit tens of robust deviations out.
@@ -35,25 +46,54 @@ type Outlier struct {
 	Reason string
 }
 
-// FindOutliers applies the test to the residual D − C Sᵀ − B Pᵀ (b, p may be nil).
-// sigma > 0 is the per-point noise level (0 = unknown); skip marks rows not to test
-// (already set aside). Rows are returned in order.
+// OutlierInput is what the test needs besides the fit.
+type OutlierInput struct {
+	Axis []float64
+	// Wavenumber says the axis is in cm⁻¹, so that a curve rising toward its
+	// high end is named as rising with wavenumber.
+	Wavenumber bool
+	// Sigma > 0 is the per-point noise level in the test's units (1 with
+	// weights; 0 = unknown).
+	Sigma float64
+	// Row, Col are the noise weights a_i, b_j (1/σ²; nil: none).
+	Row, Col []float64
+	// Skip marks rows not to test (already set aside).
+	Skip []bool
+}
+
+// FindOutliers applies the test to the residual D − C Sᵀ − B Pᵀ (b, p may be nil)
+// without noise weights. sigma > 0 is the per-point noise level (0 = unknown); skip
+// marks rows not to test (already set aside). Rows are returned in order.
 func FindOutliers(d, c, s, b, p *mat.Dense, axis []float64, sigma float64, skip []bool) []Outlier {
+	return FindOutliersIn(d, c, s, b, p, OutlierInput{Axis: axis, Sigma: sigma, Skip: skip})
+}
+
+// FindOutliersIn is FindOutliers with the residual in units of the noise when in
+// carries weights.
+func FindOutliersIn(d, c, s, b, p *mat.Dense, in OutlierInput) []Outlier {
 	n, m := d.Dims()
 	if n < 5 || m < 8 {
 		return nil
 	}
+	scale, colScale := rowScale(in, n, m)
 	rms := make([]float64, n)
 	lag := make([]float64, n)
-	peak := make([]float64, n)
-	peakAt := make([]int, n)
 	// Each row's residual in a pass of its own, rows in fixed blocks on up
 	// to GOMAXPROCS workers (a row's figures do not depend on the others').
 	_, k := c.Dims()
+	rmsD := rms // the data's own units: the same without weights
+	if colScale != nil {
+		rmsD = make([]float64, n)
+	}
 	product.InBlocks(n, n*m*(k+1), 8, func(i0, i1 int) {
 		e := make([]float64, m)
 		for i := i0; i < i1; i++ {
 			residualRow(e, d, c, s, b, p, i)
+			if colScale != nil {
+				ssD, _ := squaresAndLag(e)
+				rmsD[i] = math.Sqrt(ssD / float64(m))
+			}
+			scale(e, i)
 			ss, num := squaresAndLag(e)
 			rms[i] = math.Sqrt(ss / float64(m))
 			if ss > 0 {
@@ -61,58 +101,75 @@ func FindOutliers(d, c, s, b, p *mat.Dense, axis []float64, sigma float64, skip 
 			}
 		}
 	})
-	// The sharpness (largest |e_ij| in robust deviations of the row) is
-	// needed only for spectra far from the others: its median and MAD by
-	// selection were most of the test's time when taken for every row.
-	e := make([]float64, m)
-	scratch := make([]float64, m) // one buffer for every far row's median and MAD
-	sharpness := func(i int) {
-		residualRow(e, d, c, s, b, p, i)
-		rs := robustSDInto(e, scratch)
-		for j, v := range e {
-			if rs > 0 && math.Abs(v)/rs > peak[i] {
-				peak[i], peakAt[i] = math.Abs(v)/rs, j
-			}
-		}
-	}
 	kept := func(x []float64) []float64 {
 		var out []float64
 		for i, v := range x {
-			if skip == nil || !skip[i] {
+			if in.Skip == nil || !in.Skip[i] {
 				out = append(out, v)
 			}
 		}
 		return out
 	}
 	medR, sdR := medianMAD(kept(rms))
+	medD, sdD := medianMAD(kept(rmsD))
 	medL, sdL := medianMAD(kept(lag))
-	sharp := math.Sqrt(2*math.Log(float64(m))) + 3
+	smoothLag := func(l float64) bool {
+		return (l > medL+3*sdL && l > medL+0.2) || l > medL+0.5*(1-medL)
+	}
 	var out []Outlier
+	var shape *residualShape // made for the first far row only
+	e := make([]float64, m)
 	for i := 0; i < n; i++ {
-		if skip != nil && skip[i] {
+		if in.Skip != nil && in.Skip[i] {
 			continue
 		}
-		far := rms[i] > medR+OutlierK*sdR && rms[i] > 2*sigma && rms[i] > 0
+		// Far in units of the noise, or in the data's own and clearly above
+		// the typical in units of the noise too: weighting hides a loss
+		// spread over well-measured bands when the model's own misfit there
+		// varies from spectrum to spectrum (a bubble 19.7 robust deviations
+		// out in absorbance, 4.9 in units of the noise), while a spectrum far
+		// only in the data's own units owes it to the points where little
+		// light reaches the detector, whose noise swamps the rest.
+		farNoise := rms[i] > medR+OutlierK*sdR
+		farData := rmsD[i] > medD+OutlierK*sdD && rms[i] > medR+2*sdR
+		far := (farNoise || farData) && rms[i] > 2*in.Sigma && rms[i] > 0
 		if !far {
 			continue
 		}
-		sharpness(i)
-		o := Outlier{Row: i, RMS: rms[i], Typ: medR}
-		where := ""
-		if len(axis) == m {
-			where = fmt.Sprintf(" (largest at %.6g on the axis)", axis[peakAt[i]])
+		if shape == nil {
+			shape = newResidualShape(in.Axis, colScale, m)
 		}
-		switch {
-		case peak[i] > sharp:
-			o.Reason = fmt.Sprintf("residual %.3g× the typical spectrum's, with sharp lines%s: gas lines, a spike or a bad point", rms[i]/medR, where)
-		case lag[i] > medL+3*sdL && lag[i] > medL+0.2:
-			o.Reason = fmt.Sprintf("residual %.3g× the typical spectrum's, smooth along the axis (lag-1 autocorrelation %.2f, typical %.2f)%s: a broad feature such as a bubble or a baseline jump", rms[i]/medR, lag[i], medL, where)
-		default:
+		residualRow(e, d, c, s, b, p, i)
+		scale(e, i)
+		f := shape.measure(e)
+		if !(f.peak > sharpLimit(m) || smoothLag(lag[i])) {
 			continue
 		}
-		out = append(out, o)
+		out = append(out, Outlier{Row: i, RMS: rms[i], Typ: medR, Reason: fmt.Sprintf("residual %.3g× the typical spectrum's, %s", max(rms[i]/medR, rmsD[i]/medD), f.words(in))})
 	}
 	return out
+}
+
+// sharpLimit is √(2 ln m) + 3: the usual largest of m normal draws
+// (Cramér 1946) with a margin of three standard deviations.
+func sharpLimit(m int) float64 { return math.Sqrt(2*math.Log(float64(m))) + 3 }
+
+// rowScale returns what puts row i of the residual in units of its noise,
+// √(a_i b_j) per point (nothing without weights), and the √b_j (nil without).
+func rowScale(in OutlierInput, n, m int) (func(e []float64, i int), []float64) {
+	if len(in.Row) != n || len(in.Col) != m {
+		return func([]float64, int) {}, nil
+	}
+	col := make([]float64, m)
+	for j, v := range in.Col {
+		col[j] = math.Sqrt(math.Max(v, 0))
+	}
+	return func(e []float64, i int) {
+		a := math.Sqrt(math.Max(in.Row[i], 0))
+		for j := range e {
+			e[j] *= a * col[j]
+		}
+	}, col
 }
 
 // squaresAndLag returns Σ e_j² and Σ e_j e_{j+1} (len(e) ≥ 1), each summed

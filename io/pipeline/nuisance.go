@@ -576,33 +576,313 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, s
 		return nil, nil, nil, explainResolveError(r, err)
 	}
 	if len(r.SetAside) > 0 || !r.Settings.KeepOutliers {
-		skip := make([]bool, len(r.Times))
-		for _, sa := range r.SetAside {
-			skip[sa.Row] = true
-		}
-		var found []SetAside
-		if !r.Settings.KeepOutliers {
-			for _, o := range mcr.FindOutliers(r.D, res.C, res.S, res.Baseline, shapes, r.Axis, plainSigma(r), skip) {
-				found = append(found, SetAside{Row: o.Row, Reason: o.Reason})
-			}
-		}
-		r.SetAside = append(r.SetAside, found...)
-		if len(r.SetAside) > 0 {
-			fmt.Fprintf(log, "setting %d spectrum(s) aside and resolving again\n", len(r.SetAside))
-			st.keep(r.D, r.SetAside)
-			imputeRows(r, r.SetAside, res, shapes)
-			if data, err = refreshData(r, data); err != nil {
-				return nil, nil, nil, err
-			}
-			// One warm start from the fit that found them: the rows set aside
-			// now equal that fit, so they pull on nothing.
-			if res, err = mcr.Resolve(data, res.C, opt); err != nil {
-				return nil, nil, nil, explainResolveError(r, err)
-			}
+		if res, data, shapes, err = setAsideOutliers(r, data, c0, res, shapes, opt, st, log); err != nil {
+			return nil, nil, nil, err
 		}
 	}
 	testMinor(r, data, res, opt, log)
 	return res, data, shapes, nil
+}
+
+// setAsideOutliers sets aside the spectra the outlier test finds (and those
+// --drop named) and resolves again without them; with --baseline auto the
+// order is chosen again on the spectra kept (rechooseBaseline). A spectrum is
+// kept aside only if it stays far from the fit made without it: a fit pulled
+// by a bubble leaves the spectra unlike the bubble's (the first, before the
+// reaction, with --baseline offset) far as well, and those come back.
+func setAsideOutliers(r *Result, data mcr.Data, c0 *mat.Dense, res *mcr.Result, shapes *mat.Dense, opt mcr.Options, st *minorState, log io.Writer) (*mcr.Result, mcr.Data, *mat.Dense, error) {
+	var found []SetAside
+	if !r.Settings.KeepOutliers {
+		found = findOutliers(r, data, res, shapes)
+	}
+	r.SetAside = append(r.SetAside, found...)
+	if len(r.SetAside) == 0 {
+		return res, data, shapes, nil
+	}
+	before := r.BaselineOrder
+	if len(found) > 0 {
+		shapes = rechooseBaseline(r, data, res, shapes, log)
+		opt.Baseline = shapes
+	}
+	rechosen := r.BaselineOrder != before
+	fmt.Fprintf(log, "setting %d spectrum(s) aside and resolving again\n", len(r.SetAside))
+	st.keep(r.D, r.SetAside)
+	orig := rowsOf(r.D, found)
+	if rechosen {
+		// The fit that found them has a baseline of the other order: its
+		// rows are no model of these (imputed from it, three bubble spectra
+		// left a weighted lack of fit of 22 % against 0.9 % imputed from
+		// their neighbours).
+		imputeRows(r, r.SetAside, nil, nil)
+	} else {
+		imputeRows(r, r.SetAside, res, shapes)
+	}
+	var err error
+	if data, err = refreshData(r, data); err != nil {
+		return nil, nil, nil, err
+	}
+	// One warm start from the fit that found them: the rows set aside now
+	// equal that fit, so they pull on nothing. With a baseline of another
+	// order that fit is no start: the resolution starts again as at first.
+	if rechosen {
+		res, err = startALS(r, data, c0, opt)
+	} else {
+		res, err = mcr.Resolve(data, res.C, opt)
+	}
+	if err != nil {
+		return nil, nil, nil, explainResolveError(r, err)
+	}
+	if !bringBack(r, data, res, shapes, found, orig) {
+		return res, data, shapes, nil
+	}
+	fmt.Fprintf(log, "%d spectrum(s) set aside are near the fit without them: resolving again with them\n", len(found)-countFound(r, found))
+	if data, err = refreshData(r, data); err != nil {
+		return nil, nil, nil, err
+	}
+	if res, err = mcr.Resolve(data, res.C, opt); err != nil {
+		return nil, nil, nil, explainResolveError(r, err)
+	}
+	return res, data, shapes, nil
+}
+
+// findOutliers runs the outlier test on the fit res, the spectra already set
+// aside skipped.
+func findOutliers(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dense) []SetAside {
+	skip := make([]bool, len(r.Times))
+	for _, sa := range r.SetAside {
+		skip[sa.Row] = true
+	}
+	var found []SetAside
+	for _, o := range mcr.FindOutliersIn(r.D, res.C, res.S, res.Baseline, shapes, outlierInput(r, data, skip)) {
+		found = append(found, SetAside{Row: o.Row, Reason: o.Reason})
+	}
+	return found
+}
+
+// bringBack tests the spectra found (their rows orig) again, against the
+// spectra of the fit res made without them, each spectrum's own
+// concentrations fitted to it (refitRows): a deletion residual, as in Cook &
+// Weisberg, Residuals and Influence in Regression, 1982. Those still far stay aside,
+// with the reason this test gives; the others are written back into r.D and
+// leave r.SetAside. It reports whether any came back.
+func bringBack(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dense, found []SetAside, orig [][]float64) bool {
+	if len(found) == 0 {
+		return false
+	}
+	imputed := rowsOf(r.D, found)
+	for k, sa := range found {
+		r.D.SetRow(sa.Row, orig[k])
+	}
+	var others []SetAside
+	for _, sa := range r.SetAside {
+		if !setAside(found, sa.Row) {
+			others = append(others, sa)
+		}
+	}
+	saved := r.SetAside
+	r.SetAside = others
+	still := findOutliers(r, data, refitRows(r, data, res, shapes, found), shapes)
+	r.SetAside = saved
+	back := false
+	for k, sa := range found {
+		reason, stays := "", false
+		for _, o := range still {
+			if o.Row == sa.Row {
+				reason, stays = o.Reason, true
+			}
+		}
+		if !stays {
+			back = true
+			continue
+		}
+		r.D.SetRow(sa.Row, imputed[k])
+		for i := range r.SetAside {
+			if r.SetAside[i].Row == sa.Row {
+				r.SetAside[i].Reason = reason
+			}
+		}
+	}
+	if back {
+		kept := r.SetAside[:0:0]
+		for _, sa := range r.SetAside {
+			if !setAside(found, sa.Row) || setAside(still, sa.Row) {
+				kept = append(kept, sa)
+			}
+		}
+		r.SetAside = kept
+	}
+	return back
+}
+
+// refitRows is res with the concentrations and baseline coefficients of the
+// rows found fitted to those rows of r.D by least squares on the spectra and
+// baseline shapes of res (weighted by the column weights of data), the
+// spectra held: in the fit res those rows were imputed from an earlier fit,
+// which would hold them where that fit put them.
+func refitRows(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dense, found []SetAside) *mcr.Result {
+	_, m := r.D.Dims()
+	_, k := res.S.Dims()
+	nb := 0
+	if shapes != nil && res.Baseline != nil {
+		_, nb = shapes.Dims()
+	}
+	_, col := weightsOfData(data)
+	w := func(j int) float64 {
+		if col == nil {
+			return 1
+		}
+		return math.Sqrt(col[j])
+	}
+	x := mat.NewDense(m, k+nb, nil)
+	for j := 0; j < m; j++ {
+		for a := 0; a < k; a++ {
+			x.Set(j, a, w(j)*res.S.At(j, a))
+		}
+		for q := 0; q < nb; q++ {
+			x.Set(j, k+q, w(j)*shapes.At(j, q))
+		}
+	}
+	// QR on the tall m × (k + nb) matrix: the normal equations would square
+	// its condition, which nearly parallel spectra make large.
+	var qr mat.QR
+	qr.Factorize(x)
+	out := *res
+	out.C = mat.DenseCopyOf(res.C)
+	if nb > 0 {
+		out.Baseline = mat.DenseCopyOf(res.Baseline)
+	}
+	y := mat.NewVecDense(m, nil)
+	var beta mat.VecDense
+	for _, sa := range found {
+		for j, v := range r.D.RawRowView(sa.Row)[:m] {
+			y.SetVec(j, w(j)*v)
+		}
+		if err := qr.SolveVecTo(&beta, false, y); err != nil {
+			continue // the fit's own row: the test then reads it as it was
+		}
+		for a := 0; a < k; a++ {
+			out.C.Set(sa.Row, a, beta.AtVec(a))
+		}
+		for q := 0; q < nb; q++ {
+			out.Baseline.Set(sa.Row, q, beta.AtVec(k+q))
+		}
+	}
+	return &out
+}
+
+// countFound is how many of found are still set aside.
+func countFound(r *Result, found []SetAside) int {
+	c := 0
+	for _, sa := range found {
+		if setAside(r.SetAside, sa.Row) {
+			c++
+		}
+	}
+	return c
+}
+
+// rowsOf copies the rows of d the spectra name.
+func rowsOf(d *mat.Dense, rows []SetAside) [][]float64 {
+	_, m := d.Dims()
+	out := make([][]float64, len(rows))
+	for k, sa := range rows {
+		out[k] = append([]float64(nil), d.RawRowView(sa.Row)[:m]...)
+	}
+	return out
+}
+
+// rechooseBaseline chooses the baseline order again (--baseline auto) on the
+// spectra kept, once the outlier test has set some aside: the order was first
+// chosen on every spectrum, and a spectrum lifted or scattered as a whole (a
+// bubble: ν⁴ scatter in a few spectra) passes the F-test for every order as a
+// baseline the others do not have. When the order changes, the fit's baseline
+// coefficients are cut to (or padded with zeros to) the new order, which the
+// nested Legendre shapes allow, and the new shapes are returned; the fit is
+// then resolved again with them by the caller.
+func rechooseBaseline(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dense, log io.Writer) *mat.Dense {
+	maxOrder, auto, err := parseBaseline(r.Settings.Baseline)
+	if err != nil || !auto || maxOrder < 0 || r.BaselineOrder > maxOrder {
+		return shapes
+	}
+	kept, rows := keptScaledRows(r, data)
+	_, m := r.D.Dims()
+	_, col := weightsOfData(data)
+	kf := r.Components
+	for _, nf := range r.Chemical.Nuisance {
+		if nf.Kind != svd.NuisanceBaseline && nf.Kind != svd.NuisanceOutlier {
+			kf++
+		}
+	}
+	if rows < 5 || maxOrder+kf+3 >= m {
+		return shapes
+	}
+	level := r.Settings.Alpha / float64(maxOrder+1)
+	ch, err := svd.ChooseBaselineOrderWeighted(kept, nil, r.Axis, col, kf, maxOrder, level)
+	if err != nil || ch.Order == r.BaselineOrder {
+		return shapes
+	}
+	var steps []string
+	for _, st := range ch.Steps[1:] {
+		steps = append(steps, fmt.Sprintf("%s %s", baselineName(st.Order), pvalue.Text(st.Significance)))
+	}
+	metric := ""
+	if col != nil {
+		metric = ", each baseline fitted by least squares weighted with the noise"
+	}
+	fmt.Fprintf(log, "baseline chosen again without the spectra set aside: %s (was %s)\n", baselineName(ch.Order), baselineName(r.BaselineOrder))
+	r.BaselineReason = fmt.Sprintf("chosen again once %d spectrum(s) were set aside (first %s, with them; spectra set aside lifted or curved as a whole pass for a baseline the others lack), by the extra-sum-of-squares F-test of each order against the one below at level %.3g (Draper & Smith 1998; --alpha %g shared by the %d orders tried, Bonferroni) on the %d spectra kept, with %d factor(s) besides the baseline%s%s: %s", len(r.SetAside), baselineName(r.BaselineOrder), level, r.Settings.Alpha, maxOrder+1, rows, kf, metric, axisNoiseText(ch.Noise), strings.Join(steps, ", "))
+	r.BaselineOrder = ch.Order
+	res.Baseline = resizedColumns(res.Baseline, ch.Order+1)
+	return svd.Legendre(r.Axis, ch.Order)
+}
+
+// keptScaledRows is r.D without the rows set aside, scaled by the noise weights of
+// data when it has them (√a_i d_ij √b_j), and the number of its rows.
+func keptScaledRows(r *Result, data mcr.Data) (*mat.Dense, int) {
+	n, m := r.D.Dims()
+	row, col := weightsOfData(data)
+	var keep []int
+	for i := 0; i < n; i++ {
+		if !setAside(r.SetAside, i) {
+			keep = append(keep, i)
+		}
+	}
+	out := mat.NewDense(max(len(keep), 1), m, nil)
+	for k, i := range keep {
+		dst, src := out.RawRowView(k), r.D.RawRowView(i)[:m]
+		for j, v := range src {
+			if row != nil && col != nil {
+				v *= math.Sqrt(row[i]) * math.Sqrt(col[j])
+			}
+			dst[j] = v
+		}
+	}
+	return out, len(keep)
+}
+
+// resizedColumns is x with its first c columns, padded with zeros (nil for
+// c ≤ 0 or x nil).
+func resizedColumns(x *mat.Dense, c int) *mat.Dense {
+	if x == nil || c <= 0 {
+		return nil
+	}
+	n, k := x.Dims()
+	out := mat.NewDense(n, c, nil)
+	for i := 0; i < n; i++ {
+		copy(out.RawRowView(i), x.RawRowView(i)[:min(k, c)])
+	}
+	return out
+}
+
+// outlierInput is what the outlier test needs besides the fit: with noise
+// weights the residual is read in units of its noise (σ = 1), without them
+// against the rank step's σ.
+func outlierInput(r *Result, data mcr.Data, skip []bool) mcr.OutlierInput {
+	in := mcr.OutlierInput{Axis: r.Axis, Wavenumber: r.AxisName == "wavenumber", Sigma: plainSigma(r), Skip: skip}
+	if row, col := weightsOfData(data); row != nil && col != nil {
+		in.Row, in.Col, in.Sigma = row, col, 1
+	}
+	return in
 }
 
 // withoutBaseline leaves r.D without the baseline of res and returns the species-only

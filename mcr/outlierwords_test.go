@@ -1,0 +1,98 @@
+package mcr
+
+import (
+	"math"
+	"strings"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// The reason given for an outlier says what its residual looks like, from
+// measured features. Data from the model (twoSpecies: A → B, Bateman 1910,
+// Gaussian bands 8 and 10 points wide, white noise σ = 1e-3), the fit being
+// the truth itself, so each row's residual is what was added to it:
+//   - row 5: one point raised by 50σ: a spike (definition: one point, its
+//     neighbours at the noise);
+//   - row 12: single points raised by 30σ every 23 points: sharp lines (each
+//     one point wide; common practice: gas lines are a few points wide);
+//   - row 20: every band 10 % lower, the whole spectrum scaled (a bubble
+//     lifting the film: the loss is the row's own bands, 8–10 points wide at
+//     σ, so about 20 at half height) plus a smooth rise: broad, and never
+//     "sharp lines", its largest feature wider than a line.
+func TestOutlierReasonsFollowTheResidualsShape(t *testing.T) {
+	d, c, s, _, _ := twoSpecies(4, 1e-3, false)
+	_, m := d.Dims()
+	d.Set(5, 90, d.At(5, 90)+0.05)
+	for j := 7; j < m; j += 23 {
+		d.Set(12, j, d.At(12, j)+0.03)
+	}
+	var model mat.Dense
+	model.Mul(c, s.T())
+	for j := 0; j < m; j++ {
+		x := float64(j) / float64(m-1)
+		d.Set(20, j, d.At(20, j)-0.1*model.At(20, j)+0.004*x*x*x*x)
+	}
+	out := FindOutliers(d, c, s, nil, nil, nil, 1e-3, nil)
+	want := map[int]string{5: "a spike or a bad point", 12: "sharp lines", 20: "broad, not line-like"}
+	if len(out) != len(want) {
+		t.Fatalf("outliers %+v; want rows 5, 12 and 20", out)
+	}
+	for _, o := range out {
+		w, ok := want[o.Row]
+		if !ok || !strings.Contains(o.Reason, w) {
+			t.Errorf("row %d: %q; want it to say %q", o.Row, o.Reason, w)
+		}
+		if o.Row == 20 && strings.Contains(o.Reason, "sharp lines") {
+			t.Errorf("row 20, a broad loss, is called sharp lines: %q", o.Reason)
+		}
+	}
+}
+
+// A bubble on a wavenumber axis with the noise of a single-beam detector
+// (constant in counts, so σ_A ∝ 1/I: Beer–Lambert and error propagation,
+// common practice): the spectrum's bands lose 12 % and a scatter term
+// 0.3 (ν/4000)⁴ (Rayleigh, ν⁴) rises toward high wavenumber. Read in units of
+// the noise (weights 1/σ²), it is far from the others, its remainder after
+// the smooth curve mostly below the fit and the curve rising with wavenumber.
+func TestBubbleReasonNamesLossAndScatter(t *testing.T) {
+	const n, m = 30, 400
+	axis := make([]float64, m)
+	col := make([]float64, m)
+	c, s := mat.NewDense(n, 2, nil), mat.NewDense(m, 2, nil)
+	for j := range axis {
+		axis[j] = 4000 - 3000*float64(j)/float64(m-1)
+		s.Set(j, 0, 0.4*math.Exp(-0.5*math.Pow((axis[j]-1700)/15, 2))+0.2*math.Exp(-0.5*math.Pow((axis[j]-2900)/30, 2)))
+		s.Set(j, 1, 0.5*math.Exp(-0.5*math.Pow((axis[j]-1650)/15, 2))+0.3*math.Exp(-0.5*math.Pow((axis[j]-1250)/20, 2)))
+		intensity := 2e4 * math.Exp(-math.Pow((axis[j]-2300)/1500, 2))
+		sigmaA := 4 / (intensity * math.Ln10)
+		col[j] = 1 / (sigmaA * sigmaA)
+	}
+	row := make([]float64, n)
+	for i := range row {
+		a := math.Exp(-float64(i) / 10)
+		c.SetRow(i, []float64{a, 1 - a})
+		row[i] = 1
+	}
+	d := mat.NewDense(n, m, nil)
+	d.Mul(c, s.T())
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			e := math.Sin(float64(7*i+13*j)) / math.Sqrt(col[j]) // a fixed pattern of the size of the noise
+			v := d.At(i, j)
+			if i == 17 {
+				v = 0.88*v + 0.3*math.Pow(axis[j]/4000, 4)
+			}
+			d.Set(i, j, v+e)
+		}
+	}
+	out := FindOutliersIn(d, c, s, nil, nil, OutlierInput{Axis: axis, Wavenumber: true, Sigma: 1, Row: row, Col: col})
+	if len(out) != 1 || out[0].Row != 17 {
+		t.Fatalf("outliers %+v; want row 17 only", out)
+	}
+	for _, w := range []string{"broad, not line-like", "higher toward high wavenumber", "scatter rising with wavenumber"} {
+		if !strings.Contains(out[0].Reason, w) {
+			t.Errorf("reason %q; want it to say %q", out[0].Reason, w)
+		}
+	}
+}
