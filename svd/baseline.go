@@ -359,7 +359,7 @@ func (b *baselineFits) fTest(q int, prev, cur float64) BaselineStep {
 
 // residualNoise measures the correlation along the axis of the residual of the fullest
 // model, k factors and the baseline of the highest order (AxisCorrelation): on at most
-// axisMaxRows rows of d, evenly spaced, each less its polynomial part (from D Q) and
+// axisRows rows of d, evenly spaced, each less its polynomial part (from D Q) and
 // its part along the k leading right singular vectors V_k of W less its polynomial
 // part, which are the rank-k fit's spectra (orthogonal to Q). G = [Q V_k].
 func (b *baselineFits) residualNoise(d *mat.Dense) AxisNoise {
@@ -373,7 +373,7 @@ func (b *baselineFits) residualNoise(d *mat.Dense) AxisNoise {
 		cols[c] = mat.Col(nil, c, g)
 	}
 	_, cq := b.basis.Dims()
-	rows := min(b.n, axisMaxRows)
+	rows := axisRows(b.n, b.m)
 	e := mat.NewDense(rows, b.m, nil)
 	coef := make([]float64, p)
 	for a := 0; a < rows; a++ {
