@@ -85,8 +85,12 @@ func absorbanceNoise(v *mat.Dense, pre int) (blind *Blind, sigma []float64, q fl
 			added = b.addChannel(j) || added
 		}
 	}
+	typical, plain := typicalOwn(own, cnt), plainAbsorbance(v)
 	for j := 0; j < m; j++ {
-		if cnt[j] >= ownLeast && (own[j] >= noLightSigma || own[j] > math.Sqrt(overweighted)*sigma[j]) {
+		if cnt[j] < ownLeast {
+			continue
+		}
+		if (plain && own[j] >= noLightSigma && own[j] > darkOverTypical*typical) || own[j] > darkAnyUnits*typical {
 			added = b.addChannel(j) || added
 		}
 	}
@@ -94,10 +98,84 @@ func absorbanceNoise(v *mat.Dense, pre int) (blind *Blind, sigma []float64, q fl
 		// The channels left out no longer raise their neighbours' σ.
 		sigma, q, src = channelNoise(v, pre, b)
 	}
+	raiseToOwn(sigma, own, cnt, b)
 	if b.Count == 0 {
 		return nil, sigma, q, src
 	}
 	return b, sigma, q, src
+}
+
+// darkOverTypical is how far above the typical channel's scatter a channel's
+// own must lie, besides noLightSigma, to be taken for one without light in
+// absorbance's own units (plainAbsorbance); values in other units
+// (milli-absorbance) have every channel's scatter above noLightSigma and are
+// judged by darkAnyUnits alone. Ten times, the single beams' overweighted
+// rule in σ.
+const darkOverTypical = 10
+
+// darkAnyUnits is how far above the typical channel's scatter a channel's
+// own must lie to be taken for one without light whatever the units: σ_A ∝
+// 1/I, so a hundredth of the typical channel's light, the single beams'
+// weak-beam fraction (1 %; Beer–Lambert, first-order error propagation).
+const darkAnyUnits = 100
+
+// plainAbsorbance says whether v's finite values all lie within ±10, as
+// absorbance in its own units does (an absorbance of 10 leaves 10⁻¹⁰ of the
+// light): only then is noLightSigma, a σ in absorbance, a level to judge by.
+func plainAbsorbance(v *mat.Dense) bool {
+	n, m := v.Dims()
+	for i := 0; i < n; i++ {
+		for _, x := range v.RawRowView(i)[:m] {
+			if x-x == 0 && math.Abs(x) > 10 {
+				return false
+			}
+		}
+	}
+	return true
+}
+
+// typicalOwn is the median of the channels' own scatter, over the channels
+// judged on enough differences (ownLeast); 0 when none is.
+func typicalOwn(own []float64, cnt []int) float64 {
+	var v []float64
+	for j, k := range cnt {
+		if k >= ownLeast {
+			v = append(v, own[j])
+		}
+	}
+	if len(v) == 0 {
+		return 0
+	}
+	return median(v)
+}
+
+// raiseToOwn gives a channel whose own scatter over
+// all spectra is more than √overweighted times its σ that scatter as σ: the
+// noise model smooths σ along the axis (and with --pre takes it from the
+// spectra before the reaction), so a band edge that goes dark, or a band
+// that grows strongly and lets less light through, would keep a weight its
+// noise does not allow. The channel is weighted down, not left out: it still
+// holds the band (the single beams' overweighted rule, which blinds points,
+// has a σ per point to judge them by; these inputs have one per channel).
+func raiseToOwn(sigma, own []float64, cnt []int, b *Blind) {
+	for j := range sigma {
+		if cnt[j] >= ownLeast && own[j] > math.Sqrt(overweighted)*sigma[j] {
+			sigma[j] = own[j]
+		}
+	}
+}
+
+// mostlyBlind refuses absorbance or difference values of which more than a
+// quarter hold no information, as the single-beam path refuses data that
+// are mostly not intensities: not a few dark channels but the wrong kind or
+// units of data, which a resolution of the rest would hide.
+func mostlyBlind(s *Series, b *Blind) error {
+	n, m := s.Values.Dims()
+	if b == nil || b.Count*4 <= n*m {
+		return nil
+	}
+	return inputErr(s.Source, 0, "check --kind and the export's units (absorbance, not per cent or milli-absorbance), or cut dark ranges with --exclude LO:HI",
+		"%d of %d values hold no information as absorbance (an export's cap, or channels without light)", b.Count, n*m)
 }
 
 // capBlind marks the values that are not finite and, when the largest

@@ -160,12 +160,17 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 		if opt.Blank != nil {
 			return nil, fmt.Errorf("a blank single beam goes with --kind single-beam; absorbance input is already ratioed")
 		}
-		assembleAbsorbances(s, opt, ref, out)
+		if err := assembleAbsorbances(s, opt, ref, out); err != nil {
+			return nil, err
+		}
 	case Difference:
 		if opt.Blank != nil {
 			return nil, fmt.Errorf("a blank single beam goes with --kind single-beam; difference input is already ratioed")
 		}
 		blind, sigma, q, src := absorbanceNoise(s.Values, opt.Pre)
+		if err := mostlyBlind(s, blind); err != nil {
+			return nil, err
+		}
 		out.Noise = Noise{Level: median(sigma), Unit: "absorbance", Source: src, Channel: sigma, Quantum: q}
 		out.DifferenceWeights = channelWeights(n, sigma, blind)
 		if opt.Consume {
@@ -192,9 +197,12 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 // assembleAbsorbances is Assemble for absorbance input: blind points and
 // the noise model (absorbanceNoise), the reference over the observed values,
 // ΔA = A − A_ref, and placeholders at the blind points of both matrices.
-func assembleAbsorbances(s *Series, opt AssembleOptions, ref []float64, out *Assembled) {
+func assembleAbsorbances(s *Series, opt AssembleOptions, ref []float64, out *Assembled) error {
 	n, m := s.Values.Dims()
 	blind, sigma, q, src := absorbanceNoise(s.Values, opt.Pre)
+	if err := mostlyBlind(s, blind); err != nil {
+		return err
+	}
 	if opt.Reference.File == nil {
 		if blind == nil {
 			meanRows(s.Values, out.ReferenceRows, ref)
@@ -222,6 +230,7 @@ func assembleAbsorbances(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	fillBlind(out.Difference, blind, s.Times)
 	out.Blind = blind
 	out.Notes = append(out.Notes, absorbanceBlindNotes(s, blind)...)
+	return nil
 }
 
 // referenceRows are the rows of a series of n spectra averaged into its
