@@ -76,6 +76,9 @@ func removeDrift(d []float64, use []bool, scale []float64) {
 			}
 		}
 		cut := driftClip * madScale * medianInPlace(res)
+		if cut == 0 {
+			break // most residuals exactly zero (a flat or rounded step): nothing to trim by
+		}
 		changed, kept := false, 0
 		for j, u := range use {
 			now := u && math.Abs(d[j]-dotFixed(x(j), beta)) <= cut

@@ -9,7 +9,7 @@ import (
 )
 
 // driftingBeams are n single beams of m channels under a source envelope (1e4 counts),
-// with detector noise constant in counts σ_I (PRIMER §8), whose first pre spectra are
+// with detector noise constant in counts σ_I (common practice), whose first pre spectra are
 // repeats of one state except for a baseline that creeps: an absorbance offset, slope and
 // curvature growing by drift per spectrum (an ATR crystal warming), then a band growing.
 // Beer–Lambert (definition): I = I0·10^(−A).
