@@ -297,7 +297,7 @@ var options = func() []Option {
 	s3, g3 := str(func(s *Settings) *string { return &s.Blank })
 	add(opt("blank", "FILE", "single beam of the cell with solvent and no analyte: gives absolute absorbance (species mode)", false, true, s3, g3))
 	s4, g4 := str(func(s *Settings) *string { return &s.Reference })
-	add(opt("reference", "REF", "state the differences are taken against (single beams, absorbance): first, mean:N (average of the first N spectra) or FILE, kept in the series with absorbance when it is one of its spectra; difference input has its own (refused)", false, true, s4, g4))
+	add(opt("reference", "REF", "state the differences are taken against (single beams, absorbance): first, mean:N (average of the first N spectra) or FILE, kept in the series with --kind absorbance when it is one of its spectra; difference input has its own (refused)", false, true, s4, g4))
 	s5, g5 := integer(func(s *Settings) *int { return &s.Pre }, 0)
 	add(opt("pre", "N", "the first N spectra precede the reaction (noise estimate; zero extent)", false, true, s5, g5))
 	s6, g6 := str(func(s *Settings) *string { return &s.Times })
