@@ -366,11 +366,16 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 		// F-test's rank-k fits: a nuisance left in the residual (the reference
 		// pattern, present in every row) would otherwise pass for a baseline.
 		kf := rep.Estimate
+		r.orderOutliers = 0
 		for _, nf := range cr.Nuisance {
 			if nf.Kind != svd.NuisanceBaseline {
 				kf++
 			}
+			if nf.Kind == svd.NuisanceOutlier {
+				r.orderOutliers++
+			}
 		}
+		r.orderFactors = kf
 		// The search tests up to maxOrder+1 orders, each a chance of a false alarm:
 		// each is tested at alpha/(maxOrder+1), so the chance that data without a
 		// baseline get one stays below alpha (Bonferroni's inequality, common
@@ -807,12 +812,10 @@ func rechooseBaseline(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Den
 	kept, rows := keptScaledRows(r, data)
 	_, m := r.D.Dims()
 	_, col := weightsOfData(data)
-	kf := r.Components
-	for _, nf := range r.Chemical.Nuisance {
-		if nf.Kind != svd.NuisanceBaseline && nf.Kind != svd.NuisanceOutlier {
-			kf++
-		}
-	}
+	// The factors the first choice fitted besides the baseline, less the
+	// outlier spectra's now set aside: the same model, so that the two
+	// choices differ by the spectra kept and by nothing else.
+	kf := r.orderFactors - r.orderOutliers
 	if rows < 5 || maxOrder+kf+3 >= m {
 		return shapes
 	}

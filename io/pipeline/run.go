@@ -125,13 +125,17 @@ type Result struct {
 	// chosen, its coefficients (n × b) on its shapes (m × b), the
 	// classification of the factors above the noise, and the spectra set
 	// aside.
-	BaselineOrder    int
-	BaselineReason   string
-	BaselineProfiles *mat.Dense
-	BaselineShapes   *mat.Dense
-	Chemical         *svd.ChemicalRank
-	DiffChemical     *svd.ChemicalRank
-	SetAside         []SetAside
+	BaselineOrder int
+	// orderFactors are the factors besides the baseline the F-test of
+	// --baseline auto fitted, orderOutliers how many of them were outlier
+	// spectra (chooseBaseline); rechooseBaseline takes the same less those.
+	orderFactors, orderOutliers int
+	BaselineReason              string
+	BaselineProfiles            *mat.Dense
+	BaselineShapes              *mat.Dense
+	Chemical                    *svd.ChemicalRank
+	DiffChemical                *svd.ChemicalRank
+	SetAside                    []SetAside
 	// Minor factors (minor.go): the refit verdicts, whether they ran, and the minor
 	// factors counted as species.
 	MinorTests   []MinorVerdict
