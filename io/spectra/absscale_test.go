@@ -15,17 +15,9 @@ import (
 // first-order error propagation, common practice). The first pre spectra are before it grows.
 func absorbanceRun(n, m, pre int, top float64) *Series {
 	rng := rand.New(rand.NewPCG(21, 4))
-	s := &Series{AxisName: "wavenumber", Values: mat.NewDense(n, m, nil), Source: "sim"}
-	for j := 0; j < m; j++ {
-		s.Axis = append(s.Axis, 2000-2*float64(j))
-	}
+	s := simSeries(n, m, 2000, 30)
 	for i := 0; i < n; i++ {
-		s.Times = append(s.Times, 30*float64(i))
-		s.Names = append(s.Names, "sim")
-		x := 0.0
-		if i >= pre {
-			x = 1 - math.Exp(-float64(i-pre+1)/10)
-		}
+		x := growth(i, pre, 10)
 		for j := 0; j < m; j++ {
 			a := 0.1 + top*x*math.Exp(-0.5*sq(float64(j-m/2)/8))
 			beam := math.Pow(10, -a) + 2e-3*rng.NormFloat64()

@@ -48,16 +48,18 @@ func removeDrift(d []float64, use []bool, scale []float64) {
 	if count < driftMinPoints {
 		return
 	}
-	x := func(j int) (r [driftTerms]float64) {
+	// The shapes at every point, once: every pass and the leverages read them.
+	xs := make([][driftTerms]float64, m)
+	for j := range xs {
 		t := 2*float64(j)/float64(m-1) - 1
-		for k := range r {
-			r[k] = legendre(k, t)
+		for k := range xs[j] {
+			xs[j][k] = legendre(k, t)
 			if scale != nil {
-				r[k] *= scale[j]
+				xs[j][k] *= scale[j]
 			}
 		}
-		return r
 	}
+	x := func(j int) [driftTerms]float64 { return xs[j] }
 	var ginv *mat.Dense
 	var beta [driftTerms]float64
 	res := make([]float64, 0, count)

@@ -14,17 +14,9 @@ import (
 // curvature growing by drift per spectrum (an ATR crystal warming), then a band growing.
 // Beer–Lambert (definition): I = I0·10^(−A).
 func driftingBeams(rng *rand.Rand, n, m, pre int, sigI, drift float64) *Series {
-	s := &Series{AxisName: "wavenumber", Values: mat.NewDense(n, m, nil), Source: "sim"}
-	for j := 0; j < m; j++ {
-		s.Axis = append(s.Axis, 4000-2*float64(j))
-	}
+	s := simSeries(n, m, 4000, 40)
 	for i := 0; i < n; i++ {
-		s.Times = append(s.Times, 40*float64(i))
-		s.Names = append(s.Names, "sim")
-		x := 0.0
-		if i >= pre {
-			x = 1 - math.Exp(-float64(i-pre+1)/8)
-		}
+		x := growth(i, pre, 8)
 		for j := 0; j < m; j++ {
 			u := 2*float64(j)/float64(m-1) - 1
 			env := 1e4 * (0.6 + 0.4*math.Cos(1.3*u))
@@ -34,6 +26,29 @@ func driftingBeams(rng *rand.Rand, n, m, pre int, sigI, drift float64) *Series {
 		}
 	}
 	return s
+}
+
+// simSeries is an invented series of n spectra × m channels, the axis from first down in
+// steps of 2 (wavenumber), a spectrum every dt seconds, values to be set.
+func simSeries(n, m int, first, dt float64) *Series {
+	s := &Series{AxisName: "wavenumber", Values: mat.NewDense(n, m, nil), Source: "sim"}
+	for j := 0; j < m; j++ {
+		s.Axis = append(s.Axis, first-2*float64(j))
+	}
+	for i := 0; i < n; i++ {
+		s.Times = append(s.Times, dt*float64(i))
+		s.Names = append(s.Names, "sim")
+	}
+	return s
+}
+
+// growth is a first-order rise (1 − e^(−t/τ), τ in spectra) that starts after the first
+// pre spectra (the analytic solution of A → B; definition).
+func growth(i, pre int, tau float64) float64 {
+	if i < pre {
+		return 0
+	}
+	return 1 - math.Exp(-float64(i-pre+1)/tau)
 }
 
 // TestPreNoiseUnderDrift: the noise taken from the spectra before the reaction must be the
