@@ -196,7 +196,17 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 			rep.warn("%s", disagreement(rep.Criteria, est))
 		}
 		if nFloor == p.maxRank && est == p.maxRank {
-			rep.warn("the estimate reached the %d factors examined: the rank may be higher or σ too small", p.maxRank)
+			if p.maxRank < defaultMaxRank && p.maxRank == max(p.c-1, 1) {
+				// The size of the data, not a choice, set the bound.
+				more := "spectra"
+				if p.m < p.n {
+					more = "points along the axis"
+				}
+				rep.warn("the estimate reached the %d factor(s) a %d × %d matrix lets be judged against its noise "+
+					"(one fewer than its smaller size): the rank may be higher; more %s would tell", p.maxRank, p.n, p.m, more)
+			} else {
+				rep.warn("the estimate reached the %d factors examined: the rank may be higher or σ too small", p.maxRank)
+			}
 			rep.capWarned = true
 		}
 	}
