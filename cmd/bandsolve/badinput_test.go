@@ -207,6 +207,7 @@ func badCases() []badCase {
 		{name: "non-monotonic axis", args: []string{"--data", "B/bad_nonmono_axis.csv"}, code: 1, want: []string{"bad_nonmono_axis.csv:9:", "axis value 1012 breaks the order", "sort the rows"}},
 		{name: "duplicated time", args: []string{"--data", "B/bad_dup_time.csv"}, code: 1, want: []string{"bad_dup_time.csv:1:", "columns 4 and 5 have the same time 120 s", "its own time"}},
 		{name: "non-numeric time", args: []string{"--data", "B/bad_text_time.csv"}, code: 1, want: []string{"bad_text_time.csv:1:", `column 5: "3 min" is not a number`, "acquisition times in seconds"}},
+		{name: "one spectrum per line", args: []string{"--data", "B/bad_transposed.csv"}, code: 1, want: []string{"bad_transposed.csv:1:", `the first header cell "time_s" names time`, "write it the other way round"}},
 		{name: "binary garbage", args: []string{"--data", "B/bad_binary.csv"}, code: 1, want: []string{"bad_binary.csv: is a binary file", "give a text export"}},
 		{name: "one-point spectrum", args: []string{"--data", "B/bad_one_point.csv"}, code: 1, want: []string{"bad_one_point.csv: has only 1 axis point", "at least two axis points"}},
 		{name: "one spectrum where differences need two", args: []string{"--data", "B/bad_one_spectrum.csv"}, code: 1, want: []string{"bad_one_spectrum.csv: holds one spectrum only", "at least two"}},

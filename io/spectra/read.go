@@ -374,11 +374,34 @@ func parseMatrixHeader(path string, head line) (matrixHeader, error) {
 	if _, err := parseNumber(hf[0]); err == nil {
 		return matrixHeader{}, inputErr(path, head.n, "add a header row: axis name (wavenumber or wavelength), then one time in seconds per spectrum", "first row is numbers, not a header")
 	}
+	if namesTime(axisName) {
+		return matrixHeader{}, inputErr(path, head.n, "a matrix CSV holds one channel per line: the axis in the first column, "+
+			"one acquisition time (s) per spectrum in the header; this file seems to hold one spectrum per line: "+
+			"write it the other way round (wavenumber,t1,t2,…)", "the first header cell %q names time, not the spectral axis", string(hf[0]))
+	}
 	times, err := parseHeaderTimes(path, head.n, hf[1:], sep)
 	if err != nil {
 		return matrixHeader{}, err
 	}
 	return matrixHeader{axisName: axisName, sep: sep, times: times}, nil
+}
+
+// namesTime says a matrix header's first cell (lower case) names time:
+// "time", "time_s", "t (min)", "seconds". A file with one spectrum per line
+// has times in its first column, and read as it stands its spectra would be
+// its channels: 601 points became 601 "spectra" of 2 points each, resolved
+// without a word.
+func namesTime(cell string) bool {
+	word, _, _ := strings.Cut(strings.Trim(cell, `"' `), " ")
+	word, _, _ = strings.Cut(word, "(")
+	word, _, _ = strings.Cut(word, "[")
+	word, _, _ = strings.Cut(word, "/")
+	word, _, _ = strings.Cut(word, "_")
+	switch word {
+	case "t", "time", "times", "timestamp", "s", "sec", "secs", "second", "seconds", "min", "mins", "minute", "minutes", "h", "hour", "hours":
+		return true
+	}
+	return false
 }
 
 // parseHeaderTimes reads the acquisition times, each spectrum's own: two

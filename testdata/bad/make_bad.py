@@ -76,6 +76,9 @@ ax = list(axis); ax[6], ax[7] = ax[7], ax[6]; write("bad_nonmono_axis.csv", matr
 # time faults
 tm = list(times); tm[3] = tm[2]; write("bad_dup_time.csv", matrix(times=tm))
 write("bad_text_time.csv", good.replace(",180,", ",3 min,", 1))
+# one spectrum per line: the header is the axis, the first column the times
+write("bad_transposed.csv", "time_s," + ",".join(str(x) for x in axis) + "\n" +
+      "".join(str(t) + "," + ",".join("%.6f" % rows[j][i] for j in range(len(axis))) + "\n" for i, t in enumerate(times)))
 # single beams that cannot be single beams
 r = [list(x) for x in rows]; r[4][2] = 0.0; write("bad_zero_beam.csv", matrix(rows=r))
 r = [list(x) for x in rows]; r[7][5] = -12.5; write("bad_negative_beam.csv", matrix(rows=r))
