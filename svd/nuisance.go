@@ -260,7 +260,7 @@ func (c *factorClassifier) classify(j int, row CandidateRow) {
 	nf := NuisanceFactor{Factor: j + 1, SharePercent: 100 * c.f.S[j] * c.f.S[j] / c.f.FrobeniusSq, Time: u}
 	switch {
 	case c.artefact(&nf, row, u):
-	case c.noiseLike(row, u):
+	case c.noiseLike(j, row, u):
 		c.out.NoiseLike++
 		return
 	case c.smoothNuisance(&nf, v, vu):
@@ -305,9 +305,20 @@ func (c *factorClassifier) artefact(nf *NuisanceFactor, row CandidateRow, u []fl
 
 // noiseLike reports a time vector as white as noise, by the rank report's
 // autocorrelation and by that of the unscaled vector: both must fail the structure
-// test, as a short series says little.
-func (c *factorClassifier) noiseLike(row CandidateRow, u []float64) bool {
-	return c.n >= minStructureLen && !structured(row.AutocorrU, c.n) && !structured(Autocorrelation(u), c.n)
+// test, as a short series says little. It says no when factor j holds more than all
+// the noise could, s_j² > n·m·σ²: noise of any colour along the axis has that energy
+// in all its factors together (its expected squared Frobenius norm), so no one factor
+// of it can exceed it. With 12 spectra a third species at 566 times the noise edge
+// was called correlated noise for a time vector whose lag-1 autocorrelation, 0.56,
+// fell short of the 3/√12 that 12 points need.
+func (c *factorClassifier) noiseLike(j int, row CandidateRow, u []float64) bool {
+	if c.n < minStructureLen {
+		return false
+	}
+	if c.sigma > 0 && c.f.S[j]*c.f.S[j] > float64(c.n)*float64(c.m)*c.sigma*c.sigma {
+		return false
+	}
+	return !structured(row.AutocorrU, c.n) && !structured(Autocorrelation(u), c.n)
 }
 
 // smoothNuisance recognises a spectrum that is a baseline (a low-order polynomial of

@@ -218,3 +218,39 @@ func TestCarbonDioxideAt(t *testing.T) {
 		}
 	}
 }
+
+// Twelve spectra of A → B → C (Bateman 1910; k 2.5e-3 and 8e-4 s⁻¹, one
+// spectrum every 320 s from 320 s before the start) with white noise: three
+// species, far above the noise. The time vectors of the second and third
+// factors fell short of the lag-1 autocorrelation 3/√12 that twelve points
+// need, so they were called noise correlated along the axis and one species
+// was counted. A factor holding more energy than all the noise (s² > n·m·σ²,
+// the noise's expected squared Frobenius norm) is not noise of any colour.
+func TestTwelveSpectraKeepTheirThirdSpecies(t *testing.T) {
+	const n, m, sigma = 12, 600, 1e-3
+	rng := rand.New(rand.NewPCG(12, 3))
+	d := mat.NewDense(n, m, nil)
+	for i := range n {
+		tm := math.Max(0, 320*float64(i)-320)
+		a := math.Exp(-2.5e-3 * tm)
+		b := 2.5e-3 / (8e-4 - 2.5e-3) * (math.Exp(-2.5e-3*tm) - math.Exp(-8e-4*tm))
+		c := []float64{a, b, 1 - a - b}
+		for j := range m {
+			x := float64(j)
+			v := 0.0
+			for k, centre := range []float64{150, 300, 450} {
+				v += c[k] * 0.5 * math.Exp(-0.5*(x-centre)*(x-centre)/625)
+			}
+			d.Set(i, j, v+sigma*rng.NormFloat64())
+		}
+	}
+	rep, err := EstimateRank(d, nil, RankOptions{ReferenceRow: -1, Sigma: sigma})
+	if err != nil {
+		t.Fatal(err)
+	}
+	f, _ := Decompose(d, DecomposeOptions{})
+	cr := ClassifyFactors(d, f, rep, NuisanceOptions{MeanLevel: true})
+	if cr.Estimate != 3 || cr.NoiseLike != 0 {
+		t.Errorf("chemical count %d (%d called noise), want the 3 species the data were made with; singular values %.3g", cr.Estimate, cr.NoiseLike, f.S[:4])
+	}
+}
