@@ -1138,8 +1138,11 @@ func fitKinetics(r *Result, log io.Writer) error {
 
 // dataOptions are the options of a fit of the data matrix: no amplitudes
 // (the spectra carry the scale) and the noise weights of the data when
-// there are any (maximum likelihood: the standard errors then follow the
-// noise of each point).
+// the analysis uses them (maximum likelihood: the standard errors then
+// follow the noise of each point). With --weights off the data fit is
+// unweighted too: the option says every point counts alike, and a rate
+// constant fitted under weights the resolution was told not to use would
+// answer another question than the one asked.
 func (kn *Kinetics) dataOptions(r *Result, opt kinetics.FitOptions) kinetics.FitOptions {
 	opt.Amplitudes = false
 	if col := dataColWeights(r); col != nil {
@@ -1149,10 +1152,10 @@ func (kn *Kinetics) dataOptions(r *Result, opt kinetics.FitOptions) kinetics.Fit
 }
 
 // dataColWeights are the column weights the fits of the data matrix use
-// (dataOptions), nil when they are unweighted.
+// (dataOptions), nil when they are unweighted (--weights off).
 func dataColWeights(r *Result) []float64 {
 	n, m := r.D.Dims()
-	if w := r.Weights; w != nil && len(w.Row) == n && len(w.Col) == m {
+	if w := r.Weights; weighted(r) && len(w.Row) == n && len(w.Col) == m {
 		return w.Col
 	}
 	return nil

@@ -429,7 +429,7 @@ var options = func() []Option {
 	s22, g22 := choice(func(s *Settings) *string { return &s.EFAWindows }, "on", "off")
 	add(opt("efa-windows", "on|off", "pin profiles to zero where evolving factor analysis finds a component absent", false, true, s22, g22))
 	sw, gw := choice(func(s *Settings) *string { return &s.Weights }, "noise", "off")
-	add(opt("weights", "noise|off", "weight each point by 1/σ² of its noise, estimated from the data (noise, the default: maximum-likelihood resolution), or all alike (off)", false, true, sw, gw))
+	add(opt("weights", "noise|off", "weight each point by 1/σ² of its noise, estimated from the data (noise, the default: maximum-likelihood resolution and kinetic data fit), or all alike (off: the kinetic fit of the data too)", false, true, sw, gw))
 	s23, g23 := number(func(s *Settings) *float64 { return &s.Alpha }, func(x float64) bool { return x > 0 && x < 1 }, "a significance level between 0 and 1")
 	add(opt("alpha", "P", "significance level of the F-tests: on the rank, and on the fit a uniqueness range may lose", false, true, s23, g23))
 	s24, g24 := integer(func(s *Settings) *int { return &s.MaxIter }, 1)
