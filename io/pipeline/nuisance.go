@@ -962,6 +962,7 @@ func withoutBaseline(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dens
 	if shapes != nil && res.Baseline != nil {
 		r.BaselineProfiles = res.Baseline
 		r.BaselineShapes = shapes
+		r.DataSS = observedSquares(r)
 		subtractBaselineInPlace(r.D, res.Baseline, shapes)
 		switch in := data.(type) {
 		case mcr.Dense:
@@ -987,6 +988,20 @@ func withoutBaseline(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dens
 		}
 	}
 	return res, data
+}
+
+// observedSquares is Σ d²_ij over the points of r.D that are not blind.
+func observedSquares(r *Result) float64 {
+	n, m := r.D.Dims()
+	ss := 0.0
+	for i := range n {
+		for j, v := range r.D.RawRowView(i)[:m] {
+			if r.Blind == nil || r.Blind.Count == 0 || !r.Blind.Has(i, j) {
+				ss += v * v
+			}
+		}
+	}
+	return ss
 }
 
 // refreshData rebuilds the ALS data after rows of r.D changed.

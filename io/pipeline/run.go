@@ -112,6 +112,11 @@ type Result struct {
 	PlainRSS   float64
 	Explained  float64
 	NoiseLOF   float64 // lack of fit % that noise alone would give
+	// DataSS is ‖D‖² at the observed points, unweighted, of the data as
+	// assembled, before a fitted baseline is taken out of D: the lack of
+	// fit's denominator, so that the figure does not move with the split
+	// between species and baseline (0 until withoutBaseline sets it).
+	DataSS float64
 	Compressed bool
 	EFA        *EFAReport
 	Init       string

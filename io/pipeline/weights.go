@@ -154,8 +154,9 @@ func alsData(r *Result, k int) mcr.Data {
 }
 
 // fitFigures computes, at the observed points, the lack of fit (as before,
-// unweighted), the explained variance, the residual relative to the noise
-// (√(χ²/ν)) and the lack of fit the noise alone would give.
+// unweighted, against the data as given: 100 ‖D − C Sᵀ − B Pᵀ‖/‖D‖), the
+// explained variance, the residual relative to the noise (√(χ²/ν)) and the
+// lack of fit the noise alone would give.
 func fitFigures(r *Result, res *mcr.Result) {
 	n, m := r.D.Dims()
 	k := r.Components
@@ -168,9 +169,15 @@ func fitFigures(r *Result, res *mcr.Result) {
 		missing = r.Blind.Has
 	}
 	fit := mcr.FitWeighted(r.D, res.C, res.S, row, col, missing)
+	r.PlainRSS = sq(fit.LackOfFitPercent/100) * fit.DataSS
+	if r.DataSS > 0 {
+		// D here is less its fitted baseline; the figures are of the data
+		// as given, whatever share of it the baseline took.
+		fit.DataSS = r.DataSS
+		fit.LackOfFitPercent = 100 * math.Sqrt(r.PlainRSS/r.DataSS)
+	}
 	r.LackOfFit = fit.LackOfFitPercent
 	r.Explained = 100 * (1 - sq(r.LackOfFit/100))
-	r.PlainRSS = sq(fit.LackOfFitPercent/100) * fit.DataSS
 	dof := float64(fit.Observed) - float64(k)*float64(n+m-k)
 	if !(dof > 0) || !(fit.DataSS > 0) {
 		return

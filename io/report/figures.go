@@ -65,7 +65,8 @@ func figureJobs(f *Folder) []figureJob {
 		figureJob{id: "fig-profiles", build: profilesFigure, view: &Folder{Profiles: f.Profiles, Bands: f.Bands, Intervals: f.Intervals,
 			Kinetics: f.Kinetics, AsRun: tu, Summary: &Summary{ComponentNames: s.ComponentNames, Mode: s.Mode, Closure: s.Closure, Kinetics: s.Kinetics}}},
 		figureJob{id: "fig-iterations", build: iterationsFigure, view: &Folder{Iterations: f.Iterations,
-			Summary: &Summary{NoiseLackOfFitPercent: s.NoiseLackOfFitPercent, Converged: s.Converged, Iterations: s.Iterations, LackOfFitPercent: s.LackOfFitPercent}}})
+			Summary: &Summary{NoiseLackOfFitPercent: s.NoiseLackOfFitPercent, Converged: s.Converged, Iterations: s.Iterations, LackOfFitPercent: s.LackOfFitPercent,
+				ResidualToNoise: s.ResidualToNoise, NoiseWeights: s.NoiseWeights}}})
 	if f.Vapour != nil {
 		jobs = append(jobs, figureJob{id: "fig-vapour", build: vapourFigure, view: &Folder{Vapour: f.Vapour, AsRun: tu}})
 	}
@@ -1125,7 +1126,8 @@ func iterationsFigure(f *Folder) (*Figure, error) {
 		xhi = xlo + 1
 	}
 	legend := []LegendItem{{Label: "lack of fit", Colour: okabeBlue}}
-	if nl := f.Summary.NoiseLackOfFitPercent; nl > 0 {
+	nl, caption := iterationsLevel(f.Summary, pts[len(pts)-1].Y)
+	if nl > 0 {
 		hline(p, xlo, xhi, nl, okabeVermilion, []float64{5, 3})
 		ylo, yhi = math.Min(ylo, nl), math.Max(yhi, nl)
 		legend = append(legend, LegendItem{Label: "noise alone", Colour: okabeVermilion, Dash: []float64{5, 3}})
@@ -1141,7 +1143,25 @@ func iterationsFigure(f *Folder) (*Figure, error) {
 		conv = "stopped at the iteration limit without converging"
 	}
 	return &Figure{ID: "fig-iterations", Title: "Lack of fit per iteration", SVG: svg, drawing: dr, Legend: legend,
-		Caption: fmt.Sprintf("Alternating least squares %s after %d iterations at %s %% lack of fit. The dashed line is what noise alone would leave.", conv, f.Summary.Iterations, trimFloat(f.Summary.LackOfFitPercent, 4))}, nil
+		Caption: fmt.Sprintf("Alternating least squares %s after %d iterations. %s", conv, f.Summary.Iterations, caption)}, nil
+}
+
+// iterationsLevel is the level noise alone would leave in the metric of the
+// iterations' curve, whose last value is last, and the caption's words for
+// both. With noise weights the curve is the lack of fit the resolution
+// minimises, each point weighted by 1/σ² (the fitted baseline part of the
+// model), not the unweighted figure the summary quotes: its noise level is
+// last / residual_to_noise, where the curve would fit to the noise (√(χ²/ν)
+// = 1). Without weights the curve is the summary's own figure.
+func iterationsLevel(s *Summary, last float64) (float64, string) {
+	if s.NoiseWeights == "noise" && s.ResidualToNoise > 0 {
+		nl := last / s.ResidualToNoise
+		return nl, fmt.Sprintf("The curve is the lack of fit the resolution minimises, each point weighted by 1/σ² "+
+			"of the noise model: %s %% at the end; the dashed line (%s %%) is where it would fit to the noise, "+
+			"%s times lower (the residual to noise). Unweighted, the lack of fit is %s %% and noise alone would leave %s %%.",
+			trimFloat(last, 4), trimFloat(nl, 3), trimFloat(s.ResidualToNoise, 3), trimFloat(s.LackOfFitPercent, 4), trimFloat(s.NoiseLackOfFitPercent, 3))
+	}
+	return s.NoiseLackOfFitPercent, fmt.Sprintf("It ends at %s %% lack of fit. The dashed line is what noise alone would leave.", trimFloat(last, 4))
 }
 
 // residualSpectrumFigure: root-mean-square residual per point over the
