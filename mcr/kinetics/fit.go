@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 	"strings"
 	"sync/atomic"
@@ -1300,7 +1301,9 @@ func (p *fitProblem) dataResult(lm *LMResult, d *mat.Dense, nObs int) (*FitResul
 	}
 	honestErrors(res, lag, n)
 	_, w := p.dred.Dims()
-	p.robustErrors(lm, res, w, p.nModel)
+	before := len(res.Warnings)
+	replaced := p.robustErrors(lm, res, w, p.nModel)
+	p.correlatedWarning(res, replaced, before)
 	return res, spectra, nil
 }
 
@@ -1431,7 +1434,39 @@ func honestErrors(res *FitResult, lag lagSums, n int) {
 	for i := range res.C0StdErr {
 		res.C0StdErr[i] *= f
 	}
-	res.Warnings = append(res.Warnings, fmt.Sprintf("the residuals are correlated in time (lag-1 autocorrelation %.2f, Durbin–Watson d = %.2f; independent noise gives 0 and 2): the model does not describe the data fully, so the standard errors were multiplied by %.2f", rho, 2*(1-rho), f))
+}
+
+// correlatedWarning says what the correlation in time did to the reported
+// standard errors once robustErrors has kept, per rate constant, the larger
+// of the errors multiplied by Inflation and the sandwich ones (replaced
+// marks the steps whose sandwich error was kept): the factor is named only
+// for the constants that carry it, since a warning that gave it for a figure
+// the sandwich replaced would say the error is several times smaller than
+// the one reported. It goes at index at of the warnings, before the
+// sandwich estimate's own.
+func (p *fitProblem) correlatedWarning(res *FitResult, replaced []bool, at int) {
+	if !(res.Inflation > 1) {
+		return
+	}
+	var kept, other []string
+	for _, j := range p.kFree {
+		if replaced[j] {
+			other = append(other, fmt.Sprintf("%q", p.s.Steps[j].Text))
+		} else {
+			kept = append(kept, fmt.Sprintf("%q", p.s.Steps[j].Text))
+		}
+	}
+	w := fmt.Sprintf("the residuals are correlated in time (lag-1 autocorrelation %.2f, Durbin–Watson d = %.2f; independent noise gives 0 and 2): the model does not describe the data fully", res.Lag1, 2*(1-res.Lag1))
+	pull := fmt.Sprintf("the larger ones from each spectrum's pull on the fit (a sandwich estimate, up to %.3g times the noise-based ones so multiplied)", res.Robust)
+	switch {
+	case len(other) == 0:
+		w += fmt.Sprintf(", so the standard errors were multiplied by %.2f", res.Inflation)
+	case len(kept) == 0:
+		w += fmt.Sprintf("; the standard errors reported are not the noise-based ones multiplied by %.2f for it but %s", res.Inflation, pull)
+	default:
+		w += fmt.Sprintf(", so the standard errors of steps %s were multiplied by %.2f; those of steps %s are not the noise-based ones so multiplied but %s", strings.Join(kept, ", "), res.Inflation, strings.Join(other, ", "), pull)
+	}
+	res.Warnings = slices.Insert(res.Warnings, at, w)
 }
 
 // lagSums are the sums behind Lag1: Σ r_ij r_(i+1)j and Σ r_ij².

@@ -82,17 +82,19 @@ func ClusterCovariance(j *mat.Dense, r []float64, rows, used int) (cov *mat.Dens
 // (honestErrors), assume every residual is noise; the cluster ones ask only that spectra far
 // apart in time be independent, so on data the model does not describe they show what the
 // misfit does to the estimate. It records the noise-based errors in NoiseKStdErr and the
-// largest ratio in Robust, and says so when a rate constant's error at least doubles:
+// largest ratio in Robust, returns which steps' errors it replaced, and says so when a
+// rate constant's error at least doubles:
 // below that, the two agree within the cluster estimate's own scatter (its variance rests
 // on G spectra, relative standard deviation about √(2/G); common practice).
-func (p *fitProblem) robustErrors(lm *LMResult, res *FitResult, rows, linear int) {
+func (p *fitProblem) robustErrors(lm *LMResult, res *FitResult, rows, linear int) (replaced []bool) {
 	res.Robust = 1
+	replaced = make([]bool, len(res.K))
 	if lm.Jacobian == nil || len(p.kFree)+len(p.c0Free) == 0 {
-		return
+		return replaced
 	}
 	cov, g, lags, err := ClusterCovariance(lm.Jacobian, lm.Residual, rows, p.nParams()+linear)
 	if err != nil {
-		return
+		return replaced
 	}
 	res.NoiseKStdErr = append([]float64(nil), res.KStdErr...)
 	worst, at := 1.0, -1
@@ -104,7 +106,7 @@ func (p *fitProblem) robustErrors(lm *LMResult, res *FitResult, rows, linear int
 		if f := se / res.KStdErr[j]; f > worst {
 			worst, at = f, j
 		}
-		res.KStdErr[j] = se
+		res.KStdErr[j], replaced[j] = se, true
 	}
 	for b, i := range p.c0Free {
 		a := len(p.kFree) + b
@@ -115,7 +117,12 @@ func (p *fitProblem) robustErrors(lm *LMResult, res *FitResult, rows, linear int
 	}
 	res.Robust = worst
 	if worst < 2 {
-		return
+		return replaced
 	}
-	res.Warnings = append(res.Warnings, fmt.Sprintf("each spectrum's pull on the rate constants varies more than its noise explains (a misfit a whole spectrum shares, single spectra or stretches of the run the model does not describe, or noise correlated along the axis, of which a smooth spectrum collects more): standard errors from those pulls, each of the %d spectra's with its %d neighbours in time (a sandwich estimate, as a jackknife leaving out one spectrum at a time measures), are up to %.3g times the noise-based ones (step %q: %.2g against %.2g) and are the ones reported", g, lags, worst, p.s.Steps[at].Text, res.KStdErr[at], res.NoiseKStdErr[at]))
+	noise := "the noise-based ones"
+	if res.Inflation > 1 {
+		noise = fmt.Sprintf("the noise-based ones, these multiplied by %.2f for the correlation in time", res.Inflation)
+	}
+	res.Warnings = append(res.Warnings, fmt.Sprintf("each spectrum's pull on the rate constants varies more than its noise explains (a misfit a whole spectrum shares, single spectra or stretches of the run the model does not describe, or noise correlated along the axis, of which a smooth spectrum collects more): standard errors from those pulls, each of the %d spectra's with its %d neighbours in time (a sandwich estimate, as a jackknife leaving out one spectrum at a time measures), are up to %.3g times %s (step %q: %.2g against %.2g) and are the ones reported", g, lags, worst, noise, p.s.Steps[at].Text, res.KStdErr[at], res.NoiseKStdErr[at]))
+	return replaced
 }
