@@ -202,7 +202,7 @@ func TestResultFiguresRedrawnWhenTheirFilesChange(t *testing.T) {
 		}
 	}
 	s := NewSettings()
-	s.Dir, s.Data, s.Kind, s.Blank, s.Pre = dir, []string{"series.csv"}, "single-beam", "blank.csv", truth.Pre
+	s.Dir, s.Data, s.Kind, s.Blanks, s.Pre = dir, []string{"series.csv"}, "single-beam", []string{"blank.csv"}, truth.Pre
 	s.Model, s.T0 = "A -> B -> C", fmt.Sprint(truth.T0)
 	s.Out, s.Quiet = filepath.Join(t.TempDir(), "out"), true
 	r, err := runForFolder(s, nil)

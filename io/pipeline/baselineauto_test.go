@@ -33,7 +33,7 @@ func TestBaselineAutoChoosesNoneWithoutBaseline(t *testing.T) {
 	for _, c := range cases {
 		series, blank := c.data.write(t)
 		st := NewSettings()
-		st.Data, st.Kind, st.Blank = []string{series}, "single-beam", blank
+		st.Data, st.Kind, st.Blanks = []string{series}, "single-beam", []string{blank}
 		st.Report, st.Checks, st.Bands = "off", "off", "off"
 		r, err := Run(st, io.Discard)
 		if err != nil {

@@ -156,7 +156,7 @@ func benchResolveWeights(b *testing.B, n, m int, weights string) {
 	series, blank := writeLarge(b, dir, n, m, 5)
 	_, spec, _ := largeTruth(n, m, 5)
 	s := NewSettings() // the defaults, as a user would run it
-	s.Data, s.Kind, s.Blank = []string{series}, "single-beam", blank
+	s.Data, s.Kind, s.Blanks = []string{series}, "single-beam", []string{blank}
 	s.Weights = weights
 	runtime.GC()
 	resetPeakRSS()
@@ -273,7 +273,7 @@ func BenchmarkALSBaseline2000x3001(b *testing.B) {
 	dir := b.TempDir()
 	series, blank := writeLarge(b, dir, 2000, 3001, 5)
 	s := NewSettings()
-	s.Data, s.Kind, s.Blank, s.MaxIter, s.Components = []string{series}, "single-beam", blank, 1, "5"
+	s.Data, s.Kind, s.Blanks, s.MaxIter, s.Components = []string{series}, "single-beam", []string{blank}, 1, "5"
 	r, err := Run(s, nil)
 	if err != nil {
 		b.Fatal(err)
@@ -324,7 +324,7 @@ func BenchmarkSpeedup2000x3001(b *testing.B) {
 	dir := b.TempDir()
 	series, blank := writeLarge(b, dir, 2000, 3001, 5)
 	s := NewSettings()
-	s.Data, s.Kind, s.Blank = []string{series}, "single-beam", blank
+	s.Data, s.Kind, s.Blanks = []string{series}, "single-beam", []string{blank}
 	b.ResetTimer()
 	for it := 0; it < b.N; it++ {
 		t0 := time.Now()
@@ -494,7 +494,7 @@ func wholeRun(b *testing.B, series, blank, out string) (parse, whole float64, lo
 	parseCPU, parseHWM = cputime.Process()-c0, peakRSS()
 	runtime.GC()
 	s := NewSettings()
-	s.Data, s.Kind, s.Blank = []string{series}, "single-beam", blank
+	s.Data, s.Kind, s.Blanks = []string{series}, "single-beam", []string{blank}
 	s.Out, s.Force, s.Quiet = out, true, true
 	t0 = time.Now()
 	r, log = resolveIntoFolder(b, s)

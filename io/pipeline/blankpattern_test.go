@@ -23,7 +23,7 @@ func TestNoConstraintWarningWithNoisyBlank(t *testing.T) {
 		thin(d)
 		series, blank := d.write(t)
 		s := NewSettings()
-		s.Data, s.Kind, s.Blank, s.Pre, s.Components = []string{series}, "single-beam", blank, 3, "3"
+		s.Data, s.Kind, s.Blanks, s.Pre, s.Components = []string{series}, "single-beam", []string{blank}, 3, "3"
 		s.Bands, s.Replicates = "off", 0
 		r, err := Run(s, nil)
 		if err != nil {

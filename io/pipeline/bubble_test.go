@@ -44,7 +44,7 @@ func TestBubbleSpectraSetAsideWhateverTheBaseline(t *testing.T) {
 		s, rows := bubbleSeries(t, 3)
 		series, blank := s.write(t)
 		st := NewSettings()
-		st.Data, st.Kind, st.Blank = []string{series}, "single-beam", blank
+		st.Data, st.Kind, st.Blanks = []string{series}, "single-beam", []string{blank}
 		st.Report, st.Checks, st.Bands = "off", "off", "off"
 		st.Baseline = baseline
 		r, err := Run(st, io.Discard)
@@ -156,7 +156,7 @@ func hydrationSeries(t *testing.T) (series, blank string, outliers []int) {
 func TestPulledFitBringsBackTheSpectraItFittedWorst(t *testing.T) {
 	series, blank, want := hydrationSeries(t)
 	st := NewSettings()
-	st.Data, st.Kind, st.Blank, st.Pre = []string{series}, "single-beam", blank, 4
+	st.Data, st.Kind, st.Blanks, st.Pre = []string{series}, "single-beam", []string{blank}, 4
 	st.Report, st.Checks, st.Bands = "off", "off", "off"
 	st.Baseline = "offset"
 	r, err := Run(st, io.Discard)

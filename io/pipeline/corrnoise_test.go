@@ -79,7 +79,7 @@ func TestBaselineAutoOnNoiseCorrelatedAlongTheAxis(t *testing.T) {
 	smoothedCountsNoise(s, 20, 2, 400, 3)
 	series, blank := s.write(t)
 	st := NewSettings()
-	st.Data, st.Kind, st.Blank, st.Pre = []string{series}, "single-beam", blank, 3
+	st.Data, st.Kind, st.Blanks, st.Pre = []string{series}, "single-beam", []string{blank}, 3
 	st.Report, st.Checks, st.Bands = "off", "off", "off"
 	st.Model = "A -> B -> C"
 	r, err := Run(st, nil)

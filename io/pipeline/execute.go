@@ -217,7 +217,7 @@ func Demo(out string, force bool, quiet, asJSON bool, st Streams) (*Result, erro
 	s.Dir = stage.Dir
 	s.Data = []string{"input/series.csv"}
 	s.Kind = "single-beam"
-	s.Blank = "input/blank.csv"
+	s.Blanks = []string{"input/blank.csv"}
 	s.Pre = truth.Pre
 	s.Out = out
 	s.Quiet, s.JSON = quiet, asJSON

@@ -194,7 +194,7 @@ func runFolder(t *testing.T, dir string, data, blank string, kind string) map[st
 	s.Dir = dir
 	s.Data = []string{data}
 	s.Kind = kind
-	s.Blank = blank
+	s.Blanks = []string{blank}
 	s.TimesFromName = true
 	s.Pre = 1
 	s.Report = "off"

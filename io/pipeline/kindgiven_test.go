@@ -76,7 +76,7 @@ func TestSingleBeamKindGivenOnBeamsQuiet(t *testing.T) {
 		}
 	}
 	s = NewSettings()
-	s.Data, s.Kind, s.Blank, s.Pre = []string{filepath.Join(dir, "series.csv")}, "single-beam", filepath.Join(dir, "blank.csv"), truth.Pre
+	s.Data, s.Kind, s.Blanks, s.Pre = []string{filepath.Join(dir, "series.csv")}, "single-beam", []string{filepath.Join(dir, "blank.csv")}, truth.Pre
 	s.Bands, s.Checks, s.MaxIter = "off", "off", 20
 	dr, err := Run(s, nil)
 	if err != nil {

@@ -122,7 +122,7 @@ func TestKineticDataFitWithBaselineFitsToTheNoise(t *testing.T) {
 		smoothedCountsNoise(s, 20, kernel, 150, 4)
 		series, blank := s.write(t)
 		st := NewSettings()
-		st.Data, st.Kind, st.Blank, st.Pre = []string{series}, "single-beam", blank, 3
+		st.Data, st.Kind, st.Blanks, st.Pre = []string{series}, "single-beam", []string{blank}, 3
 		st.Report, st.Checks, st.Bands = "off", "off", "off"
 		st.Model, st.Baseline = "A -> B -> C", "poly:3"
 		r, err := Run(st, nil)

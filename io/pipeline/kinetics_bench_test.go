@@ -170,7 +170,7 @@ func newChain(n, m int, span float64) *seriesCase {
 
 func chainSettings(series, blank string) *Settings {
 	s := NewSettings()
-	s.Data, s.Kind, s.Blank = []string{series}, "single-beam", blank
+	s.Data, s.Kind, s.Blanks = []string{series}, "single-beam", []string{blank}
 	s.Components = "6"
 	s.Model = "A -> B -> C -> D -> E -> F"
 	s.HardModel = true

@@ -82,7 +82,7 @@ func TestKineticsInitialConcentrationsFromPreReactionProfiles(t *testing.T) {
 	}
 	run := func(model, c0, mapping string) *Result {
 		s := NewSettings()
-		s.Data, s.Kind, s.Blank, s.Pre = []string{series}, "single-beam", blank, pre
+		s.Data, s.Kind, s.Blanks, s.Pre = []string{series}, "single-beam", []string{blank}, pre
 		s.Components, s.Model, s.C0, s.Map, s.Report = "3", model, c0, mapping, "off"
 		if err := s.Set("known-spectrum", "1="+known); err != nil {
 			t.Fatal(err)

@@ -124,7 +124,7 @@ func (c *seriesCase) write(tb testing.TB, dir string, sigma float64, rng *rand.R
 
 func subsystemsSettings(series, blank string) *Settings {
 	s := NewSettings()
-	s.Data, s.Kind, s.Blank = []string{series}, "single-beam", blank
+	s.Data, s.Kind, s.Blanks = []string{series}, "single-beam", []string{blank}
 	s.Components = "5"
 	s.Model = "A -> B -> C; D -> E"
 	s.HardModel = true

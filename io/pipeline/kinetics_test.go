@@ -76,7 +76,7 @@ func demoSettings(dir string, blank bool) *Settings {
 	s.Data = []string{filepath.Join(dir, "series.csv")}
 	s.Kind = "single-beam"
 	if blank {
-		s.Blank = filepath.Join(dir, "blank.csv")
+		s.Blanks = []string{filepath.Join(dir, "blank.csv")}
 	}
 	s.Pre = 3
 	s.Model = "A -> B -> C"

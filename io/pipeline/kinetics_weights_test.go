@@ -56,7 +56,7 @@ func TestWeightsOffFitsTheDataUnweighted(t *testing.T) {
 	series, blank := s.write(t)
 	run := func(weights string) (*Result, []float64) {
 		st := NewSettings()
-		st.Data, st.Blank, st.Kind = []string{series}, blank, "single-beam"
+		st.Data, st.Blanks, st.Kind = []string{series}, []string{blank}, "single-beam"
 		st.Weights, st.Bands, st.Checks, st.KeepOutliers = weights, "off", "off", true
 		st.Baseline, st.Model, st.T0, st.Map = "off", "A -> B -> C", "60", "A=1,B=2,C=3"
 		r, err := Run(st, nil)

@@ -15,7 +15,7 @@ func liftedSettings(t *testing.T, s *synth) *Settings {
 	t.Helper()
 	series, blank := s.write(t)
 	st := NewSettings()
-	st.Data, st.Kind, st.Blank, st.Pre = []string{series}, "single-beam", blank, 3
+	st.Data, st.Kind, st.Blanks, st.Pre = []string{series}, "single-beam", []string{blank}, 3
 	st.Baseline, st.Checks = "poly:2", "off"
 	return st
 }

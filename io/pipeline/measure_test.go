@@ -89,7 +89,7 @@ func TestStrongSolventBand(t *testing.T) {
 	s := countsSeries(t, 4, 2, 0, 5)
 	series, blank := s.write(t)
 	st := NewSettings()
-	st.Data, st.Blank, st.Kind = []string{series}, blank, "single-beam"
+	st.Data, st.Blanks, st.Kind = []string{series}, []string{blank}, "single-beam"
 	st.Weights = "noise"
 	r, err := Run(st, nil)
 	if err != nil {
@@ -133,7 +133,7 @@ func TestSaturatedBandDoesNotStop(t *testing.T) {
 	}
 	series, blank := s.write(t)
 	st := NewSettings()
-	st.Data, st.Blank, st.Kind = []string{series}, blank, "single-beam"
+	st.Data, st.Blanks, st.Kind = []string{series}, []string{blank}, "single-beam"
 	st.Weights = "noise"
 	r, err := Run(st, nil)
 	if err != nil {
@@ -168,7 +168,7 @@ func TestResidualToNoiseFromFiles(t *testing.T) {
 	s := countsSeries(t, sigI, 1, 0, 7)
 	series, blank := s.write(t)
 	st := NewSettings()
-	st.Data, st.Blank, st.Kind = []string{series}, blank, "single-beam"
+	st.Data, st.Blanks, st.Kind = []string{series}, []string{blank}, "single-beam"
 	st.Weights = "noise"
 	st.Out = filepath.Join(t.TempDir(), "out")
 	st.Report, st.Bands, st.Checks = "off", "off", "off"
@@ -264,7 +264,7 @@ func TestPreThatChangedIsNamed(t *testing.T) {
 		want bool
 	}{{3, false}, {6, true}} {
 		st := NewSettings()
-		st.Data, st.Blank, st.Kind, st.Pre = []string{series}, blank, "single-beam", tc.pre
+		st.Data, st.Blanks, st.Kind, st.Pre = []string{series}, []string{blank}, "single-beam", tc.pre
 		st.Bands, st.Checks = "off", "off"
 		r, err := Run(st, nil)
 		if err != nil {

@@ -334,7 +334,7 @@ func TestMinorSpeciesSameAtAnyGOMAXPROCS(t *testing.T) {
 	for i, procs := range []int{2, 1} {
 		runtime.GOMAXPROCS(procs)
 		st := NewSettings()
-		st.Data, st.Kind, st.Blank, st.Pre = []string{series}, "single-beam", blank, 3
+		st.Data, st.Kind, st.Blanks, st.Pre = []string{series}, "single-beam", []string{blank}, 3
 		st.Bands, st.Quiet = "off", true
 		st.Out = filepath.Join(dir, fmt.Sprintf("out%d", i))
 		r, err := Execute(st, Streams{Out: &bytes.Buffer{}, Err: &bytes.Buffer{}})
@@ -393,7 +393,7 @@ func TestMinorPromotionRestoresData(t *testing.T) {
 	})
 	series, blank := s.write(t)
 	st := NewSettings()
-	st.Data, st.Kind, st.Blank, st.Pre = []string{series}, "single-beam", blank, 3
+	st.Data, st.Kind, st.Blanks, st.Pre = []string{series}, "single-beam", []string{blank}, 3
 	st.Bands, st.Checks = "off", "off"
 	var log bytes.Buffer
 	r, err := Run(st, &log)

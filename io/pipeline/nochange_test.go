@@ -29,7 +29,7 @@ func TestNoChangeWithBlankIsNotAnError(t *testing.T) {
 		}
 		series, blank := d.write(t)
 		s := NewSettings()
-		s.Data, s.Kind, s.Blank, s.Pre = []string{series}, "single-beam", blank, 3
+		s.Data, s.Kind, s.Blanks, s.Pre = []string{series}, "single-beam", []string{blank}, 3
 		r, err := Run(s, nil)
 		if err != nil {
 			t.Fatalf("noise %g counts: %v", counts, err)
@@ -51,7 +51,7 @@ func TestTinySingleBeamsNameTheFile(t *testing.T) {
 	d.beams.Scale(1e-311, d.beams)
 	series, blank := d.write(t)
 	s := NewSettings()
-	s.Data, s.Kind, s.Blank = []string{series}, "single-beam", blank
+	s.Data, s.Kind, s.Blanks = []string{series}, "single-beam", []string{blank}
 	_, err := Run(s, nil)
 	if err == nil || !strings.Contains(err.Error(), series+": the absorbance of the spectrum at 0 s") || !strings.Contains(err.Error(), "too close to zero") {
 		t.Fatalf("err = %v", err)

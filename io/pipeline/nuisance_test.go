@@ -137,7 +137,7 @@ func runNuisanceCase(t *testing.T, s *synth) (*Result, *Settings) {
 	t.Helper()
 	series, blank := s.write(t)
 	st := NewSettings()
-	st.Data, st.Kind, st.Blank, st.Pre = []string{series}, "single-beam", blank, 3
+	st.Data, st.Kind, st.Blanks, st.Pre = []string{series}, "single-beam", []string{blank}, 3
 	st.Bands, st.Checks = "off", "off"
 	r, err := Run(st, nil)
 	if err != nil {

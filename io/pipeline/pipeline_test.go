@@ -168,7 +168,7 @@ func TestSpeciesModeRecoversBateman(t *testing.T) {
 	d := makeBateman(t, 6e-3, 2e-3, 2e-4, 1, 3)
 	series, blank := d.write(t)
 	s := NewSettings()
-	s.Data, s.Kind, s.Blank, s.Pre = []string{series}, "single-beam", blank, 3
+	s.Data, s.Kind, s.Blanks, s.Pre = []string{series}, "single-beam", []string{blank}, 3
 	r, err := Run(s, nil)
 	if err != nil {
 		t.Fatal(err)
@@ -437,7 +437,7 @@ func TestNoiseFromEveryExperiment(t *testing.T) {
 	sa, blank := a.write(t)
 	sb, _ := b.write(t)
 	s := NewSettings()
-	s.Data, s.Blank, s.Pre, s.Bands, s.Checks = []string{sa, sb}, blank, 3, "off", "off"
+	s.Data, s.Blanks, s.Pre, s.Bands, s.Checks = []string{sa, sb}, []string{blank}, 3, "off", "off"
 	s.Closure = "1"
 	r, err := Run(s, nil)
 	if err != nil {

@@ -157,7 +157,7 @@ func TestTransmittanceReadAsAbsorbance(t *testing.T) {
 	}
 	run := func(data, kind, blank string) (*Result, error) {
 		s := NewSettings()
-		s.Data, s.Kind, s.TimesFromName, s.Blank = []string{data}, kind, true, blank
+		s.Data, s.Kind, s.TimesFromName, s.Blanks = []string{data}, kind, true, []string{blank}
 		s.Bands, s.Checks = "off", "off"
 		return Run(s, nil)
 	}

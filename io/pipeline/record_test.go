@@ -44,7 +44,7 @@ func scanSettings(dir, out string) *Settings {
 	s.Data = []string{"scans"}
 	s.TimesFromName = true
 	s.Kind = "single-beam"
-	s.Blank = "blank.csv"
+	s.Blanks = []string{"blank.csv"}
 	s.Pre = 1
 	s.Model = "A -> B -> C"
 	s.Out = out

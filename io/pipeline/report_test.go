@@ -63,7 +63,7 @@ func TestDemoReportRebuildsFromFiles(t *testing.T) {
 	}
 	// --report off: neither the report nor the file that only feeds it.
 	s := NewSettings()
-	s.Data, s.Kind, s.Blank, s.Pre = []string{filepath.Join(out, "input", "series.csv")}, "single-beam", filepath.Join(out, "input", "blank.csv"), 3
+	s.Data, s.Kind, s.Blanks, s.Pre = []string{filepath.Join(out, "input", "series.csv")}, "single-beam", []string{filepath.Join(out, "input", "blank.csv")}, 3
 	s.Report, s.Quiet, s.Out = "off", true, filepath.Join(t.TempDir(), "off")
 	if _, err := Execute(s, Streams{Out: io.Discard, Err: io.Discard}); err != nil {
 		t.Fatal(err)

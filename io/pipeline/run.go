@@ -257,6 +257,9 @@ func checkRunSettings(s *Settings) error {
 	if s.Times != "" && s.TimesFromName {
 		return usage("--times and --times-from-name both give the times: use one")
 	}
+	if err := checkBlanks(s); err != nil {
+		return err
+	}
 	return checkKineticsSettings(s)
 }
 
@@ -284,8 +287,10 @@ func planReading(s *Settings) (readingPlan, error) {
 	if s.Times != "" {
 		folder.Exclude = append(folder.Exclude, s.Path(s.Times))
 	}
-	if s.Blank != "" {
-		folder.Exclude = append(folder.Exclude, s.Path(s.Blank))
+	for _, b := range s.Blanks {
+		if b != "" {
+			folder.Exclude = append(folder.Exclude, s.Path(b))
+		}
 	}
 	for _, f := range s.Vapour {
 		folder.Exclude = append(folder.Exclude, s.Path(f))
@@ -333,7 +338,7 @@ func readExperiments(r *Result, p readingPlan, log io.Writer) ([]*mat.Dense, err
 	if err != nil {
 		return nil, err
 	}
-	blank, refSpec, err := fixedSpectra(s, first, axis, chans, kind, p.refFile)
+	blanks, refSpec, err := fixedSpectra(s, first, axis, chans, kind, p.refFile)
 	if err != nil {
 		return nil, err
 	}
@@ -343,9 +348,9 @@ func readExperiments(r *Result, p readingPlan, log io.Writer) ([]*mat.Dense, err
 	if s.Pre > 0 && p.refMean > 1 && p.refMean > s.Pre {
 		return nil, usage("--reference mean:%d averages more spectra than the %d before the reaction (--pre %d)", p.refMean, s.Pre, s.Pre)
 	}
-	opt := spectra.AssembleOptions{Kind: kind, Blank: blank,
-		Reference: spectra.Reference{Mean: p.refMean, File: refSpec}, BlankSource: s.Blank, Consume: true, Pre: s.Pre}
-	diffRows, err := assembleExperiments(s, r, series, axis, chans, opt, p)
+	opt := spectra.AssembleOptions{Kind: kind,
+		Reference: spectra.Reference{Mean: p.refMean, File: refSpec}, Consume: true, Pre: s.Pre}
+	diffRows, err := assembleExperiments(s, r, series, axis, chans, opt, blanks, p)
 	if err != nil {
 		return nil, err
 	}
@@ -776,20 +781,27 @@ func commonChannels(s *Settings, series []*spectra.Series) ([]float64, []int, er
 	return spectra.KeepValues(axis, chans), chans, nil
 }
 
-// fixedSpectra reads the blank single beam and the reference spectrum, when
-// given, onto the common channels.
-func fixedSpectra(s *Settings, first *spectra.Series, axis []float64, chans []int, kind spectra.Kind, refFile string) ([]float64, *spectra.Spectrum, error) {
-	var blank []float64
-	if s.Blank != "" {
+// fixedSpectra reads the blank single beams (one per experiment, nil
+// without) and the reference spectrum, when given, onto the common channels.
+func fixedSpectra(s *Settings, first *spectra.Series, axis []float64, chans []int, kind spectra.Kind, refFile string) ([][]float64, *spectra.Spectrum, error) {
+	var blanks [][]float64
+	if hasBlank(s) {
 		if kind != spectra.SingleBeam {
 			return nil, nil, usage("--blank is a single beam and goes with --kind single-beam (the data is %s)", kind)
 		}
-		bs, err := spectra.ReadSpectrum(s.Path(s.Blank))
-		if err != nil {
-			return nil, nil, err
-		}
-		if blank, err = axisValues(bs, first, axis, chans, s.Resample); err != nil {
-			return nil, nil, err
+		read := map[string][]float64{} // one file named for several experiments is read once
+		for e := range s.Data {
+			b := blankOf(s, e)
+			if read[b] == nil {
+				bs, err := spectra.ReadSpectrum(s.Path(b))
+				if err != nil {
+					return nil, nil, err
+				}
+				if read[b], err = axisValues(bs, first, axis, chans, s.Resample); err != nil {
+					return nil, nil, err
+				}
+			}
+			blanks = append(blanks, read[b])
 		}
 	}
 	var refSpec *spectra.Spectrum
@@ -804,14 +816,14 @@ func fixedSpectra(s *Settings, first *spectra.Series, axis []float64, chans []in
 		}
 		refSpec = &spectra.Spectrum{Axis: axis, Values: v, Source: refFile}
 	}
-	return blank, refSpec, nil
+	return blanks, refSpec, nil
 }
 
 // assembleExperiments assembles each experiment on the common channels and
 // stacks the rows into r.D: absolute absorbance when every experiment has
 // it (species mode), the difference spectra otherwise (reactions mode). It
 // returns the experiments' difference rows, which the difference rank reads.
-func assembleExperiments(s *Settings, r *Result, series []*spectra.Series, axis []float64, chans []int, opt spectra.AssembleOptions, p readingPlan) ([]*mat.Dense, error) {
+func assembleExperiments(s *Settings, r *Result, series []*spectra.Series, axis []float64, chans []int, opt spectra.AssembleOptions, blanks [][]float64, p readingPlan) ([]*mat.Dense, error) {
 	first := series[0]
 	var absRows, diffRows []*mat.Dense
 	var absW, diffW []*spectra.Weights
@@ -830,6 +842,9 @@ func assembleExperiments(s *Settings, r *Result, series []*spectra.Series, axis 
 			}
 		}
 		eopt := ownReferenceRow(s, ser, opt, p)
+		if blanks != nil {
+			eopt.Blank, eopt.BlankSource = blanks[ei], blankOf(s, ei)
+		}
 		as, err := addExperiment(s, r, s.Data[ei], ser, sub, eopt, p.refFile, row)
 		if err != nil {
 			return nil, err
@@ -853,7 +868,7 @@ func assembleExperiments(s *Settings, r *Result, series []*spectra.Series, axis 
 	r.AxisName, r.Axis = first.AxisName, axis
 	if len(absRows) == len(series) {
 		r.Mode = mcr.Species
-		if s.Blank != "" {
+		if hasBlank(s) {
 			r.ModeReason = "species: a blank single beam gives absolute absorbance A = −log10(I/I_blank), so each component is one species"
 		} else {
 			r.ModeReason = "species: the input is absolute absorbance, so each component is one species"
@@ -946,7 +961,7 @@ func beamKind(s *Settings, r *Result, series []*spectra.Series, kind spectra.Kin
 // by them already, and --blank and --reference FILE would be read as
 // absorbance: each is refused with what to do.
 func transmittanceToAbsorbance(s *Settings, r *Result, series []*spectra.Series) error {
-	if s.Blank != "" {
+	if hasBlank(s) {
 		return usage("--blank is a single beam and goes with --kind single-beam; transmittance is already ratioed to its background")
 	}
 	if _, file, err := spectra.ParseReference(s.Reference); err == nil && file != "" {

@@ -24,7 +24,7 @@ func TestLargeRouteDeterministicAcrossThreads(t *testing.T) {
 	for _, procs := range []int{1, 2} {
 		runtime.GOMAXPROCS(procs)
 		s := NewSettings()
-		s.Data, s.Kind, s.Blank = []string{series}, "single-beam", blank
+		s.Data, s.Kind, s.Blanks = []string{series}, "single-beam", []string{blank}
 		r, err := Run(s, nil)
 		if err != nil {
 			t.Fatal(err)

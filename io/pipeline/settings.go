@@ -25,7 +25,7 @@ type Settings struct {
 
 	Data          []string
 	Kind          string
-	Blank         string
+	Blanks        []string // one for every experiment, or one per experiment in --data order
 	Reference     string
 	Pre           int
 	Times         string
@@ -294,8 +294,8 @@ var options = func() []Option {
 		}
 		return s2(s, v)
 	}, g2))
-	s3, g3 := str(func(s *Settings) *string { return &s.Blank })
-	add(opt("blank", "FILE", "single beam of the cell with solvent and no analyte: gives absolute absorbance (species mode)", false, true, s3, g3))
+	s3, g3 := list(func(s *Settings) *[]string { return &s.Blanks })
+	add(opt("blank", "FILE", "single beam of the cell with solvent and no analyte: gives absolute absorbance (species mode); with several --data, one blank for all, or one per experiment in the order of the --data flags", true, true, s3, g3))
 	s4, g4 := str(func(s *Settings) *string { return &s.Reference })
 	add(opt("reference", "REF", "state the differences are taken against (single beams, absorbance): first, mean:N (average of the first N spectra) or FILE, kept in the series with --kind absorbance when it is one of its spectra; difference input has its own (refused)", false, true, s4, g4))
 	s5, g5 := integer(func(s *Settings) *int { return &s.Pre }, 0)

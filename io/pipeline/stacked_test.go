@@ -73,7 +73,7 @@ func TestStackedRunsCountWhatEachShows(t *testing.T) {
 	s2, _ := r2.write(t)
 	run := func(data ...string) *Result {
 		s := NewSettings()
-		s.Data, s.Kind, s.Blank = data, "single-beam", blank
+		s.Data, s.Kind, s.Blanks = data, "single-beam", []string{blank}
 		s.Bands, s.Checks = "off", "off"
 		r, err := Run(s, nil)
 		if err != nil {

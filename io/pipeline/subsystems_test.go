@@ -73,7 +73,7 @@ func TestTwoSubsystemsFitAndHonesty(t *testing.T) {
 	countsNoise(s, 20, 3, nil)
 	series, blank := s.write(t)
 	st := NewSettings()
-	st.Data, st.Kind, st.Blank = []string{series}, "single-beam", blank
+	st.Data, st.Kind, st.Blanks = []string{series}, "single-beam", []string{blank}
 	st.Components = "5"
 	r, err := Run(st, nil)
 	if err != nil {

@@ -62,7 +62,7 @@ func TestVapourFactorNotASpecies(t *testing.T) {
 	syn := vapoursynth.Make(1, 1, 0)
 	series, blank := writeSynthSeries(t, syn)
 	s := NewSettings()
-	s.Data, s.Kind, s.Blank, s.Pre = []string{series}, "single-beam", blank, syn.Pre
+	s.Data, s.Kind, s.Blanks, s.Pre = []string{series}, "single-beam", []string{blank}, syn.Pre
 	s.Bands, s.Checks, s.Report = "off", "off", "off"
 	s.Out, s.Quiet = t.TempDir(), true
 	r, err := Execute(s, Streams{Out: new(strings.Builder), Err: new(strings.Builder)})

@@ -57,7 +57,7 @@ func TestWeightedEFAWindows(t *testing.T) {
 	series, blank := s.write(t)
 	run := func(weights string) *Result {
 		st := NewSettings()
-		st.Data, st.Blank, st.Kind = []string{series}, blank, "single-beam"
+		st.Data, st.Blanks, st.Kind = []string{series}, []string{blank}, "single-beam"
 		st.Weights, st.Bands, st.Checks, st.Closure, st.Components = weights, "off", "off", "off", "3"
 		r, err := Run(st, nil)
 		if err != nil {

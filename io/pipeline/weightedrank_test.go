@@ -30,7 +30,7 @@ func TestWeightedRankSeesThroughSolventBand(t *testing.T) {
 	series, blank := s.write(t)
 	run := func(weights string) *Result {
 		st := NewSettings()
-		st.Data, st.Blank, st.Kind = []string{series}, blank, "single-beam"
+		st.Data, st.Blanks, st.Kind = []string{series}, []string{blank}, "single-beam"
 		st.Weights, st.Bands, st.Checks = weights, "off", "off"
 		r, err := Run(st, nil)
 		if err != nil {
@@ -71,7 +71,7 @@ func TestWeightedSingularValuesInNoiseUnits(t *testing.T) {
 	solventBeams(s, 4, 2, 3)
 	series, blank := s.write(t)
 	st := NewSettings()
-	st.Data, st.Blank, st.Kind = []string{series}, blank, "single-beam"
+	st.Data, st.Blanks, st.Kind = []string{series}, []string{blank}, "single-beam"
 	st.Bands, st.Checks, st.KeepOutliers = "off", "off", true
 	r, err := Run(st, nil)
 	if err != nil {
