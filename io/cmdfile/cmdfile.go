@@ -291,7 +291,7 @@ func (p *parser) setting(st statement) error {
 		st.value, st.vcol = "on", 0
 	}
 	if prev, dup := p.seen[st.key]; dup && !k.Multi {
-		return &Error{File: p.name, Line: st.ln, Col: st.kcol, Msg: fmt.Sprintf("%s is set twice (first on line %d); only data, region and exclude may repeat", st.key, prev)}
+		return &Error{File: p.name, Line: st.ln, Col: st.kcol, Msg: fmt.Sprintf("%s is set twice (first on line %d); only %s may repeat", st.key, prev, p.repeatable())}
 	}
 	p.seen[st.key] = st.ln
 	if err := p.checkPath(k, st); err != nil {
@@ -299,6 +299,24 @@ func (p *parser) setting(st statement) error {
 	}
 	p.f.Entries = append(p.f.Entries, Entry{Key: st.key, Value: st.value, Quoted: st.quoted, Line: st.ln, Col: st.kcol, ValueCol: st.vcol})
 	return nil
+}
+
+// repeatable names the keywords that may be given on several lines, from
+// the vocabulary itself, so the message stays true as options are added.
+func (p *parser) repeatable() string {
+	var names []string
+	for _, k := range p.keys {
+		if k.Multi {
+			names = append(names, k.Name)
+		}
+	}
+	switch len(names) {
+	case 0:
+		return "no keyword"
+	case 1:
+		return names[0]
+	}
+	return strings.Join(names[:len(names)-1], ", ") + " and " + names[len(names)-1]
 }
 
 // checkPath checks a path setting's value, unless it is one of the
