@@ -40,7 +40,7 @@ const twMargin99 = 2.02
 // RankOptions controls EstimateRank.
 type RankOptions struct {
 	Sigma        float64 // known noise standard deviation per point; 0 = estimate
-	PreRows      int     // the first PreRows rows precede the reaction: estimate sigma from them (successive differences / sqrt2 is robust to a common offset)
+	PreRows      int     // the first PreRows rows precede the reaction: estimate sigma from them (successive differences / sqrt2 is robust to a common offset); one row has no difference, so 1 estimates as 0 does (the pipeline's note says so once, whichever σ it gives)
 	Alpha        float64 // significance level of Malinowski's F-test (0 -> 0.05)
 	MaxRank      int     // upper bound on the answer (0 = min(n,m)-1, capped at 12)
 	ReferenceRow int     // -1 none; for difference data the row used as the reference (its noise is one fixed pattern in every other row: never count it)
@@ -368,9 +368,6 @@ func (p *rankProblem) estimateNoise() {
 		}
 		if p.c < 20 {
 			p.rep.warn("σ estimated from a matrix with only %d rows or columns: the noise floor is uncertain; give the noise level or the pre-reaction spectra (--pre N)", p.c)
-		}
-		if opt.PreRows == 1 {
-			p.rep.warn("one pre-reaction spectrum gives no successive difference: σ estimated from the whole matrix")
 		}
 	}
 	p.rep.Sigma, p.rep.SigmaSource = sigma, src

@@ -5,6 +5,7 @@ import (
 	"io"
 	"math"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -360,9 +361,29 @@ func readExperiments(r *Result, p readingPlan, log io.Writer) ([]*mat.Dense, err
 		}
 	}
 	r.Notes = append(r.Notes, spectra.NoiseNotes(first.AxisName, axis, r.Weights.ChannelSigma(), r.Blind)...)
+	if note := preOneNote(r); note != "" {
+		r.Notes = append(r.Notes, note)
+	}
 	n, m := r.D.Dims()
 	fmt.Fprintf(log, "data: %d spectra × %d points, %s mode\n", n, m, r.Mode)
 	return diffRows, nil
+}
+
+// preOneNote says what --pre 1 does: the noise estimate from spectra before
+// the reaction takes successive differences, which one spectrum lacks, so
+// only the spectrum's other roles remain (default t0, zero extents); when
+// the reference is that first spectrum it has both roles already and the
+// run is the same as without --pre. A note, not an error: the setting is
+// consistent, just weaker than its user may think.
+func preOneNote(r *Result) string {
+	if r.Settings.Pre != 1 {
+		return ""
+	}
+	note := "--pre 1: the noise estimate from spectra taken before the reaction needs at least 2 (it takes their successive differences), so the noise comes from the whole series, as without --pre; --pre 1 only makes the first spectrum's time the default --t0 of --model and, in reactions mode, holds its extents at zero"
+	if !slices.ContainsFunc(r.Experiments, func(e *Experiment) bool { return !slices.Contains(e.RefRows, 0) }) {
+		note += "; the reference spectrum (the first) does both already, so the results are those without --pre"
+	}
+	return note + "; to measure the noise before the reaction, give --pre the number of spectra taken before it (2 or more)"
 }
 
 // setAsideRows sets aside the spectra --drop names: they are imputed in D

@@ -299,7 +299,7 @@ var options = func() []Option {
 	s4, g4 := str(func(s *Settings) *string { return &s.Reference })
 	add(opt("reference", "REF", "state the differences are taken against (single beams, absorbance): first, mean:N (average of the first N spectra) or FILE, kept in the series with --kind absorbance when it is one of its spectra; difference input has its own (refused)", false, true, s4, g4))
 	s5, g5 := integer(func(s *Settings) *int { return &s.Pre }, 0)
-	add(opt("pre", "N", "the first N spectra precede the reaction (noise estimate; zero extent)", false, true, s5, g5))
+	add(opt("pre", "N", "the first N spectra precede the reaction: the noise is estimated from them (N ≥ 2; 1 gives no difference to estimate from), in reactions mode their extents are zero, the last one's time is the default --t0", false, true, s5, g5))
 	s6, g6 := str(func(s *Settings) *string { return &s.Times })
 	add(opt("times", "FILE", "CSV with columns file,time_s giving each folder file's acquisition time", false, true, s6, g6))
 	s7, g7 := boolean(func(s *Settings) *bool { return &s.TimesFromName })
