@@ -718,7 +718,11 @@ func computeBands(r *Result, opt mcr.Options, log io.Writer) []string {
 	} else {
 		warn = rangeWarnings(r.Names, b)
 	}
-	if w := liftedRangesWarning(r, bo, b); w != "" {
+	given := make([]bool, k)
+	for j, ks := range opt.KnownSpectra {
+		given[j] = ks != nil
+	}
+	if w := liftedRangesWarning(r, bo, b, given); w != "" {
 		warn = append(warn, w)
 	}
 	return warn
@@ -767,8 +771,9 @@ const liftMaterial = 0.1
 // does, and the ranges, which keep the lowered spectra non-negative, take
 // that premise as given. The ranges the remaining constraints (profiles,
 // closure, known spectra, zero windows) allow measure the freedom: the
-// same search with the spectra free of sign.
-func liftedRangesWarning(r *Result, bo mcr.BandOptions, b *mcr.BandsResult) string {
+// same search with the spectra free of sign. given marks the components
+// with a --known-spectrum (exact or soft), whose advice is not to give one.
+func liftedRangesWarning(r *Result, bo mcr.BandOptions, b *mcr.BandsResult, given []bool) string {
 	if r.BaselineShapes == nil || r.Mode != mcr.Species {
 		return ""
 	}
@@ -806,8 +811,31 @@ func liftedRangesWarning(r *Result, bo mcr.BandOptions, b *mcr.BandsResult) stri
 	if len(parts) == 0 {
 		return ""
 	}
-	return fmt.Sprintf("spectra poorly determined with a fitted baseline (%s): a polynomial of the baseline's order added to a species' spectrum and taken off the baseline fits the same, so non-negative spectra no longer bound the rotation; the spectra shown are the split that lowers each onto zero under its lower polynomial envelope, and the uniqueness ranges assume that split and leave this freedom out. Without non-negative spectra the other constraints allow %s: read the spectra as determined only up to a polynomial each and such a rotation; a known spectrum (--known-spectrum) or a region where a species does not absorb (--zero-region, more points than the baseline has terms) bounds it",
-		baselineName(nb-1), strings.Join(parts, ", "))
+	return fmt.Sprintf("spectra poorly determined with a fitted baseline (%s): a polynomial of the baseline's order added to a species' spectrum and taken off the baseline fits the same, so non-negative spectra no longer bound the rotation; the spectra shown are the split that lowers each onto zero under its lower polynomial envelope, and the uniqueness ranges assume that split and leave this freedom out. Without non-negative spectra the other constraints allow %s: read the spectra as determined only up to a polynomial each and such a rotation; %s",
+		baselineName(nb-1), strings.Join(parts, ", "), liftAdvice(r.Names, given))
+}
+
+// liftAdvice is what bounds a baseline's lift: a known spectrum of a
+// species that has none yet, or a region where a species does not absorb.
+// A known spectrum already given is named as not enough alone rather than
+// recommended again.
+func liftAdvice(names []string, given []bool) string {
+	const region = "a region where a species does not absorb (--zero-region, more points than the baseline has terms)"
+	var with, without []string
+	for j, name := range names {
+		if j < len(given) && given[j] {
+			with = append(with, name)
+		} else {
+			without = append(without, name)
+		}
+	}
+	switch {
+	case len(with) == 0:
+		return "a known spectrum (--known-spectrum) or " + region + " bounds it"
+	case len(without) == 0:
+		return fmt.Sprintf("the known spectra given (%s) do not bound it; %s does", strings.Join(with, ", "), region)
+	}
+	return fmt.Sprintf("the known spectrum given for %s does not bound it alone; a known spectrum of %s as well (--known-spectrum) or %s does", strings.Join(with, ", "), strings.Join(without, " or "), region)
 }
 
 // rangeWarnings are the warnings the uniqueness ranges give: a range not
