@@ -296,7 +296,7 @@ func TestLackOfFitIsOfTheDataAsGiven(t *testing.T) {
 	noiseLOF := map[string]float64{}
 	for _, baseline := range []string{"off", "offset", "poly:2"} {
 		st := NewSettings()
-		st.Data, st.Blank, st.Kind, st.Baseline = []string{series}, blank, "single-beam", baseline
+		st.Data, st.Blanks, st.Kind, st.Baseline = []string{series}, []string{blank}, "single-beam", baseline
 		st.Report, st.Bands, st.Checks = "off", "off", "off"
 		r, err := Run(st, io.Discard)
 		if err != nil {
