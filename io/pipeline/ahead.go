@@ -411,8 +411,13 @@ func (a *ahead) aheadFit(r *Result) {
 	m := snapMaps(r, []mapSource{residualSource(r)})
 	a.residual = m
 	csv := iterationsTable(r).CSV()
+	rtn, _ := residualToNoise(r)
 	sum := &output.Summary{Axis: r.AxisName, NoiseSigma: round(r.NoiseSigma), NoiseLackOfFitPercent: round(r.NoiseLOF),
-		LackOfFitPercent: round(r.LackOfFit), Iterations: r.ALS.Iterations, Converged: r.ALS.Converged}
+		LackOfFitPercent: round(r.LackOfFit), Iterations: r.ALS.Iterations, Converged: r.ALS.Converged,
+		ResidualToNoise: round(rtn), NoiseWeights: "off"}
+	if weighted(r) {
+		sum.NoiseWeights = "noise" // as MakeSummary says it
+	}
 	tu := report.TimeUnitRecord(r.Settings.TimeUnit)
 	a.add(func() {
 		m.format()
