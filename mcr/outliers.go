@@ -16,7 +16,15 @@ import (
 //  1. far: the root-mean-square residual r_i of spectrum i exceeds
 //     median(r) + OutlierK · 1.4826 · MAD(r) (the Hampel identifier; Davies & Gather,
 //     J. Am. Stat. Assoc. 1993; 1.4826 makes the MAD a standard deviation for normal
-//     data), and, when the noise level σ is known, 2σ;
+//     data), and, when the noise level σ is known, 2σ; and r_i exceeds by as
+//     much the median of its neighbours in time (neighbourMedian: the Hampel
+//     filter's moving window; Pearson, IEEE Trans. Control Syst. Technol. 2002),
+//     so that an outlier is a spectrum unlike those beside it. A run of spectra
+//     whose residual follows a smooth trend in time (a background the model
+//     lacks, whose misfit changes as the species do) is model misfit, not
+//     outliers: with the typical residual a hundred times the noise the robust
+//     spread of r is a few per cent of it, and the threshold cut such a run at
+//     1.05 times the median;
 //  2. structured: either a point standing out of the row (the largest |e_ij| exceeds
 //     √(2 ln m) + 3 robust standard deviations of the row's own residual, where √(2 ln m)
 //     is the usual largest value of m normal draws; Cramér, Mathematical Methods of
@@ -113,6 +121,7 @@ func FindOutliersIn(d, c, s, b, p *mat.Dense, in OutlierInput) []Outlier {
 	medR, sdR := medianMAD(kept(rms))
 	medD, sdD := medianMAD(kept(rmsD))
 	medL, sdL := medianMAD(kept(lag))
+	nearR, nearD := neighbourMedian(rms, in.Skip), neighbourMedian(rmsD, in.Skip)
 	smoothLag := func(l float64) bool {
 		return (l > medL+3*sdL && l > medL+0.2) || l > medL+0.5*(1-medL)
 	}
@@ -130,8 +139,8 @@ func FindOutliersIn(d, c, s, b, p *mat.Dense, in OutlierInput) []Outlier {
 		// out in absorbance, 4.9 in units of the noise), while a spectrum far
 		// only in the data's own units owes it to the points where little
 		// light reaches the detector, whose noise swamps the rest.
-		farNoise := rms[i] > medR+OutlierK*sdR
-		farData := rmsD[i] > medD+OutlierK*sdD && rms[i] > medR+2*sdR
+		farNoise := rms[i] > medR+OutlierK*sdR && rms[i] > nearR[i]+OutlierK*sdR
+		farData := rmsD[i] > medD+OutlierK*sdD && rmsD[i] > nearD[i]+OutlierK*sdD && rms[i] > medR+2*sdR
 		far := (farNoise || farData) && rms[i] > 2*in.Sigma && rms[i] > 0
 		if !far {
 			continue
@@ -146,6 +155,37 @@ func FindOutliersIn(d, c, s, b, p *mat.Dense, in OutlierInput) []Outlier {
 			continue
 		}
 		out = append(out, Outlier{Row: i, RMS: rms[i], Typ: medR, Reason: fmt.Sprintf("residual %.3g× the typical spectrum's, %s", max(rms[i]/medR, rmsD[i]/medD), f.words(in))})
+	}
+	return out
+}
+
+// neighbourHalf is how many kept spectra on each side of a spectrum its
+// neighbours in time take: a window of 7 with the spectrum itself keeps its
+// median among the ordinary spectra for runs of up to three outliers (a
+// bubble lasting a few spectra).
+const neighbourHalf = 3
+
+// neighbourMedian returns, for each row not skipped, the median of x over
+// the window of neighbourHalf kept rows either side of it and the row itself
+// (cut short at the ends of the series); skipped rows take no part and get 0.
+// Rows are taken as in time order. For a residual that changes smoothly and
+// monotonically in time the median of a centred window is the row's own
+// value, so only a row that departs from its neighbours stands above it.
+func neighbourMedian(x []float64, skip []bool) []float64 {
+	var idx []int
+	for i := range x {
+		if skip == nil || !skip[i] {
+			idx = append(idx, i)
+		}
+	}
+	out := make([]float64, len(x))
+	win := make([]float64, 0, 2*neighbourHalf+1)
+	for p, i := range idx {
+		win = win[:0]
+		for q := max(p-neighbourHalf, 0); q <= min(p+neighbourHalf, len(idx)-1); q++ {
+			win = append(win, x[idx[q]])
+		}
+		out[i] = medianInPlace(win)
 	}
 	return out
 }
