@@ -1429,6 +1429,7 @@ func blindNotes(source, axisName string, axis, times []float64, b *Blind, why st
 		}
 	}
 	var parts []string
+	everywhere := false
 	for _, r := range runsOf(m, func(j int) bool { return any[j] }) {
 		tlo, thi, ns := math.Inf(1), math.Inf(-1), 0
 		for i, row := range b.Rows {
@@ -1448,12 +1449,20 @@ func blindNotes(source, axisName string, axis, times []float64, b *Blind, why st
 		}
 		if ns == len(b.Rows) {
 			parts = append(parts, fmt.Sprintf("%s in every spectrum", where))
+			everywhere = true
 		} else {
 			parts = append(parts, fmt.Sprintf("%s in %d spectra (%s)", where, ns, when))
 		}
 	}
-	return []string{fmt.Sprintf("%s: %d blind point(s) (no usable light: %s) at %s; they are left out of the fit (weight zero) and filled from the low-rank model; --exclude LO:HI cuts a range on purpose",
-		source, b.Count, why, listSome(parts, 5))}
+	tail := "--exclude LO:HI cuts a range on purpose"
+	if everywhere {
+		// No spectrum holds a value there, so neither does the model: the
+		// resolved spectra's zeros there are not measured zeros.
+		tail = "where every spectrum is blind nothing was measured, and the resolved spectra are not determined there " +
+			"(written as 0, which is not a measured zero); --exclude LO:HI leaves such a range out of the results"
+	}
+	return []string{fmt.Sprintf("%s: %d blind point(s) (no usable light: %s) at %s; they are left out of the fit (weight zero) and filled from the low-rank model; %s",
+		source, b.Count, why, listSome(parts, 5), tail)}
 }
 
 // assembleSingleBeams is Assemble for single beams: blind points, the

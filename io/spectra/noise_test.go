@@ -376,3 +376,23 @@ func TestTwoSpectraTakeTheNoiseAlongTheAxis(t *testing.T) {
 		t.Logf("two difference spectra: ratio %.3f", r)
 	}
 }
+
+// A channel blind in every spectrum holds no observation, so a bilinear
+// model determines nothing there (no equation involves it): the note says
+// the resolved spectra are not determined there rather than letting their
+// zeros pass for measured ones. Blind in some spectra only, the model is
+// determined by the others and the note does not say so.
+func TestBlindEverywhereIsNamedNotDetermined(t *testing.T) {
+	axis, times := []float64{1000, 1002, 1004, 1006}, []float64{0, 30, 60}
+	every := &Blind{Rows: [][]int{{2}, {2}, {2}}, Count: 3}
+	some := &Blind{Rows: [][]int{{2}, nil, nil}, Count: 1}
+	for _, c := range []struct {
+		b    *Blind
+		want bool
+	}{{every, true}, {some, false}} {
+		notes := blindNotes("s.csv", "wavenumber", axis, times, c.b, "no light")
+		if got := len(notes) == 1 && strings.Contains(notes[0], "not determined there"); got != c.want {
+			t.Errorf("blind rows %v: note %q; want 'not determined' %v", c.b.Rows, notes, c.want)
+		}
+	}
+}
