@@ -510,7 +510,7 @@ func fitsDisagree(kn *Kinetics, p, d *kinetics.FitResult) []string {
 			continue // held fixed, or not a rate
 		}
 		se := math.Hypot(p.KStdErr[j], d.KStdErr[j])
-		known := se > 0 && !math.IsNaN(se) && !math.IsInf(se, 0)
+		known := se > 0 && !math.IsNaN(se) && !math.IsInf(se, 0) && !notDetermined(p, j) && !notDetermined(d, j)
 		ratio := math.Max(p.K[j]/d.K[j], d.K[j]/p.K[j])
 		apart := known && math.Abs(p.K[j]-d.K[j]) > 3*se && ratio > 1.25
 		if !apart && ratio <= 10 {
@@ -1908,7 +1908,7 @@ func (kn *Kinetics) fitJSON(f *KineticFit) KineticFitJSON {
 	for j, st := range kn.Scheme.Steps {
 		rc := RateConstant{Step: st.Text, K: round(finite(fr.K[j])), StdErr: round(finite(fr.KStdErr[j])),
 			HalfLife: round(finite(fr.HalfLife[j])), HalfLifeNote: fr.HalfLifeNote[j], Unit: kn.rateUnit(st.Order), Fixed: kn.KFixed[j],
-			NotDetermined: !kn.KFixed[j] && finite(fr.KStdErr[j]) != fr.KStdErr[j]}
+			NotDetermined: !kn.KFixed[j] && (finite(fr.KStdErr[j]) != fr.KStdErr[j] || notDetermined(fr, j))}
 		out.RateConstants = append(out.RateConstants, rc)
 		row := make([]float64, len(kn.Scheme.Steps))
 		for l := range row {
@@ -1924,6 +1924,22 @@ func (kn *Kinetics) fitJSON(f *KineticFit) KineticFitJSON {
 		out.Amplitudes = append(out.Amplitudes, round(finite(a)))
 	}
 	return out
+}
+
+// notDetermined says the fit marked step j's constant as not determined by
+// the data (kinetics.FitResult.KNotDetermined).
+func notDetermined(f *kinetics.FitResult, j int) bool {
+	return f.KNotDetermined != nil && j < len(f.KNotDetermined) && f.KNotDetermined[j]
+}
+
+// determinedSum names the sum of constants the data determine when they do
+// not determine its terms ("k1 + k2"), "" when there is none.
+func determinedSum(f *kinetics.FitResult) string {
+	var names []string
+	for _, j := range f.SumSteps {
+		names = append(names, fmt.Sprintf("k%d", j+1))
+	}
+	return strings.Join(names, " + ")
 }
 
 // mapNames names the model column of each mapped component.
@@ -2070,7 +2086,10 @@ func printKinetics(r *Result, w io.Writer) {
 			}
 			k, unit := tu.Rate(f.Fit.K[j], kn.rateUnit(st.Order))
 			se, _ := tu.Rate(f.Fit.KStdErr[j], "")
-			if finite(se) == se {
+			if notDetermined(f.Fit, j) {
+				fmt.Fprintf(w, " %-10s k not determined (the fit ended at %.4g %s)", st.Text, k, unit)
+				continue
+			} else if finite(se) == se {
 				fmt.Fprintf(w, " %-10s k = %.4g ± %.2g %s", st.Text, k, se, unit)
 			} else {
 				fmt.Fprintf(w, " %-10s k = %.4g %s, not determined (its standard error is not finite)", st.Text, k, unit)
@@ -2078,6 +2097,11 @@ func printKinetics(r *Result, w io.Writer) {
 			if hl := f.Fit.HalfLife[j]; hl > 0 {
 				fmt.Fprintf(w, ", t½ = %.4g %s", hl/tu.Div, tu.Unit)
 			}
+		}
+		if sum := determinedSum(f.Fit); sum != "" {
+			k, unit := tu.Rate(f.Fit.SumK, kn.rateUnit(kn.Scheme.Steps[f.Fit.SumSteps[0]].Order))
+			se, _ := tu.Rate(f.Fit.SumKStdErr, "")
+			fmt.Fprintf(w, "\n    %-13s %-10s k = %.4g ± %.2g %s, determined", "", sum, k, se, unit)
 		}
 		fmt.Fprintln(w)
 	}

@@ -563,7 +563,7 @@ func kineticsFinding(f *Folder, k *Kinetics) string {
 		}
 		t := fmt.Sprintf("%sk = %s ± %s %s", step, trimFloat(rc.K, 4), trimFloat(rc.StdErr, 2), unitText(rc.Unit))
 		if rc.NotDetermined {
-			t = fmt.Sprintf("%sk = %s %s, not determined by the data (its standard error is not finite)", step, trimFloat(rc.K, 4), unitText(rc.Unit))
+			t = fmt.Sprintf("%sk = %s %s, not determined by the data (no standard error: see the warnings)", step, trimFloat(rc.K, 4), unitText(rc.Unit))
 		}
 		if rc.HalfLife > 0 {
 			t += fmt.Sprintf(" (half-life %s %s)", trimFloat(rc.HalfLife, 3), rc.TimeUnit)

@@ -80,6 +80,26 @@ type FitResult struct {
 	// HalfLife per step, with HalfLifeNote saying which formula was used; 0 when none applies.
 	HalfLife     []float64
 	HalfLifeNote []string
+	// KNotDetermined marks, per step, a free rate constant the data do not
+	// determine (undetermined): its KStdErr is 0, no standard error, and its
+	// correlations 0. nil when every free constant is determined.
+	KNotDetermined []bool
+	// SumSteps, when the constants not determined singly have a determined
+	// sum (a reversible pair with free spectra: only k1 + k2 sets the
+	// relaxation), lists those steps, with the sum and its standard error
+	// (widened as the others are). nil when there is none.
+	SumSteps         []int
+	SumK, SumKStdErr float64
+	// sumGrad is ∂(Σ k)/∂θ over the fit's parameters (ln k, ln c0), the
+	// direction the widenings of SumKStdErr are taken along.
+	sumGrad []float64
+	// sumSandwich: SumKStdErr is the sandwich estimate (robustErrors),
+	// sumRatio times the noise-based one.
+	sumSandwich bool
+	sumRatio    float64
+	// jacRank and jacParams: the Jacobian's rank counting singular values
+	// at or below nullTol of the largest as zero, and its columns.
+	jacRank, jacParams int
 	// Corr is the len(Steps) × len(Steps) correlation matrix of the rate constants (identity
 	// rows for fixed steps).
 	Corr *mat.Dense
@@ -778,6 +798,7 @@ func FitProfiles(s *Scheme, times []float64, observed *mat.Dense, columns []int,
 	if opt.Amplitudes && opt.FitC0 && len(p.c0Free) > 0 {
 		res.Warnings = append(res.Warnings, "amplitudes and initial concentrations are confounded (a·c scales with c0): the fitted c0 is not determined by scale-free profiles")
 	}
+	p.undeterminedWarning(lm, res)
 	return res, nil
 }
 
@@ -837,7 +858,7 @@ func (p *fitProblem) result(lm *LMResult, sim *Simulation, model *mat.Dense, m, 
 	}
 	res.RMS = math.Sqrt(lm.SSR / float64(m))
 	np := p.nParams()
-	nHeld := p.held(lm, res)
+	p.held(lm, res)
 	res.DegreesOfFreedom = m - np - nLinear
 	if !lm.Converged {
 		res.Warnings = append(res.Warnings, "Levenberg–Marquardt did not converge: "+lm.Reason)
@@ -853,13 +874,10 @@ func (p *fitProblem) result(lm *LMResult, sim *Simulation, model *mat.Dense, m, 
 	} else if np > 0 {
 		sigma2 := lm.SSR / float64(res.DegreesOfFreedom)
 		res.Sigma = math.Sqrt(sigma2)
-		cov, rank, err := Covariance(lm.Jacobian, sigma2)
+		cov, _, err := Covariance(lm.Jacobian, sigma2)
 		if err != nil {
 			res.Warnings = append(res.Warnings, "covariance: "+err.Error())
 		} else {
-			if rank < np-nHeld {
-				res.Warnings = append(res.Warnings, fmt.Sprintf("the Jacobian has rank %d for %d parameters: some parameter combinations are not determined by the data; their standard errors use a pseudo-inverse and are not meaningful", rank, np))
-			}
 			for a, j := range p.kFree {
 				res.KStdErr[j] = k[j] * math.Sqrt(math.Max(cov.At(a, a), 0))
 				for b, l := range p.kFree {
@@ -875,9 +893,13 @@ func (p *fitProblem) result(lm *LMResult, sim *Simulation, model *mat.Dense, m, 
 					res.C0StdErr[i] = c0[i] * math.Sqrt(math.Max(cov.At(a, a), 0))
 				}
 			}
+			p.undetermined(lm, res, cov)
 		}
 	}
 	for a, j := range p.kFree {
+		if res.KNotDetermined != nil && res.KNotDetermined[j] {
+			continue // undeterminedWarning says where it went
+		}
 		if math.Abs(lm.X[a]-math.Log(p.k0[j])) > 25 {
 			res.Warnings = append(res.Warnings, fmt.Sprintf("rate constant of step %q moved e^25-fold from its start: it is probably not determined by the data", p.s.Steps[j].Text))
 		}
@@ -1304,6 +1326,7 @@ func (p *fitProblem) dataResult(lm *LMResult, d *mat.Dense, nObs int) (*FitResul
 	before := len(res.Warnings)
 	replaced := p.robustErrors(lm, res, w, p.nModel)
 	p.correlatedWarning(res, replaced, before)
+	p.undeterminedWarning(lm, res)
 	return res, spectra, nil
 }
 
@@ -1434,6 +1457,7 @@ func honestErrors(res *FitResult, lag lagSums, n int) {
 	for i := range res.C0StdErr {
 		res.C0StdErr[i] *= f
 	}
+	res.SumKStdErr *= f
 }
 
 // correlatedWarning says what the correlation in time did to the reported
@@ -1449,22 +1473,32 @@ func (p *fitProblem) correlatedWarning(res *FitResult, replaced []bool, at int) 
 		return
 	}
 	var kept, other []string
-	for _, j := range p.kFree {
-		if replaced[j] {
-			other = append(other, fmt.Sprintf("%q", p.s.Steps[j].Text))
+	if res.SumSteps != nil {
+		if res.sumSandwich {
+			other = append(other, "their sum")
 		} else {
-			kept = append(kept, fmt.Sprintf("%q", p.s.Steps[j].Text))
+			kept = append(kept, "their sum")
+		}
+	}
+	for _, j := range p.kFree {
+		if res.KNotDetermined != nil && res.KNotDetermined[j] {
+			continue // no standard error
+		}
+		if replaced[j] {
+			other = append(other, fmt.Sprintf("step %q", p.s.Steps[j].Text))
+		} else {
+			kept = append(kept, fmt.Sprintf("step %q", p.s.Steps[j].Text))
 		}
 	}
 	w := fmt.Sprintf("the residuals are correlated in time (lag-1 autocorrelation %.2f, Durbin–Watson d = %.2f; independent noise gives 0 and 2): the model does not describe the data fully", res.Lag1, 2*(1-res.Lag1))
-	pull := fmt.Sprintf("the larger ones from each spectrum's pull on the fit (a sandwich estimate, up to %.3g times the noise-based ones so multiplied)", res.Robust)
+	pull := fmt.Sprintf("the larger ones from each spectrum's pull on the fit (a sandwich estimate, up to %.3g times the noise-based ones so multiplied)", math.Max(res.Robust, res.sumRatio))
 	switch {
 	case len(other) == 0:
 		w += fmt.Sprintf(", so the standard errors were multiplied by %.2f", res.Inflation)
 	case len(kept) == 0:
 		w += fmt.Sprintf("; the standard errors reported are not the noise-based ones multiplied by %.2f for it but %s", res.Inflation, pull)
 	default:
-		w += fmt.Sprintf(", so the standard errors of steps %s were multiplied by %.2f; those of steps %s are not the noise-based ones so multiplied but %s", strings.Join(kept, ", "), res.Inflation, strings.Join(other, ", "), pull)
+		w += fmt.Sprintf(", so the standard errors of %s were multiplied by %.2f; those of %s are not the noise-based ones so multiplied but %s", strings.Join(kept, ", "), res.Inflation, strings.Join(other, ", "), pull)
 	}
 	res.Warnings = slices.Insert(res.Warnings, at, w)
 }

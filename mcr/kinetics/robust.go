@@ -115,6 +115,14 @@ func (p *fitProblem) robustErrors(lm *LMResult, res *FitResult, rows, linear int
 			res.C0StdErr[i] = se
 		}
 	}
+	if g := res.sumGrad; g != nil {
+		np := len(g)
+		sum := math.Sqrt(math.Max(mat.Inner(mat.NewVecDense(np, g), cov, mat.NewVecDense(np, g)), 0))
+		if sum > res.SumKStdErr && res.SumKStdErr > 0 {
+			res.sumRatio = sum / res.SumKStdErr
+			res.SumKStdErr, res.sumSandwich = sum, true
+		}
+	}
 	res.Robust = worst
 	if worst < 2 {
 		return replaced

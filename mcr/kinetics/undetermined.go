@@ -1,0 +1,156 @@
+package kinetics
+
+import (
+	"fmt"
+	"math"
+	"strings"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// nullTol is the singular value of the Jacobian, relative to its largest,
+// at or below which a direction of the parameters counts as not determined.
+// The Jacobian is in the fit's own parameters (ln k, ln c0), where a column
+// is the residual's change for a relative change of one parameter, so the
+// ratio compares like with like. 1e-8 is about √ε: the sum of squares
+// along such a direction changes by s²δ², below ε of its curvature along
+// the best-determined one for any step δ of the same size, so the minimum
+// along it is set by rounding, not by the data (common practice for the
+// numerical rank of a Jacobian; the value is this program's choice). It is
+// looser than Covariance's 1e-12, which only keeps the pseudo-inverse finite.
+const nullTol = 1e-8
+
+// nullShare is the squared length of a parameter's unit vector along the
+// not-determined directions above which its variance counts as unbounded:
+// 1e-6, a component of 1e-3, well above the directions' rounding.
+const nullShare = 1e-6
+
+// undetermined marks the free rate constants the Jacobian does not
+// determine. A parameter θ_a is determined when its unit vector lies in the
+// row space of J (it is then an estimable function; any component along
+// the null space makes its variance unbounded): here, when its squared
+// component along the right singular vectors of singular value ≤ nullTol
+// of the largest is at most nullShare. A constant that ran to zero (the
+// residual no longer depends on it) and each of a reversible pair whose
+// sum alone the data fix (A -> B, B -> A with free spectra) are such. Their
+// standard errors, which the pseudo-inverse gives as if the null
+// directions had no variance, are set to 0 and the constants marked; when
+// their sum is determined (its gradient in ln k, the constants themselves,
+// lies in the row space) it is given with its standard error wᵀ Σ w.
+func (p *fitProblem) undetermined(lm *LMResult, res *FitResult, cov *mat.Dense) {
+	np := p.nParams()
+	var svd mat.SVD
+	if !svd.Factorize(lm.Jacobian, mat.SVDThinV) {
+		return
+	}
+	sv := svd.Values(nil)
+	var v mat.Dense
+	svd.VTo(&v)
+	res.jacParams = np
+	var null []int
+	for k, x := range sv {
+		if sv[0] > 0 && x > nullTol*sv[0] {
+			res.jacRank++
+		} else {
+			null = append(null, k)
+		}
+	}
+	share := func(w []float64) float64 {
+		t := 0.0
+		for _, k := range null {
+			d := 0.0
+			for a, x := range w {
+				d += v.At(a, k) * x
+			}
+			t += d * d
+		}
+		return t
+	}
+	nr := len(p.s.Steps)
+	var grad []float64
+	var steps []int
+	for a, j := range p.kFree {
+		e := make([]float64, np)
+		e[a] = 1
+		if share(e) <= nullShare {
+			continue
+		}
+		if res.KNotDetermined == nil {
+			res.KNotDetermined = make([]bool, nr)
+			grad = make([]float64, np)
+		}
+		res.KNotDetermined[j], res.KStdErr[j] = true, 0
+		for l := 0; l < nr; l++ {
+			if l != j {
+				res.Corr.Set(j, l, 0)
+				res.Corr.Set(l, j, 0)
+			}
+		}
+		grad[a] = res.K[j] // ∂k/∂ln k
+		steps = append(steps, j)
+	}
+	if len(steps) < 2 || share(grad) > nullShare*floatsDot(grad, grad) {
+		return
+	}
+	for _, j := range steps {
+		if p.s.Steps[j].Order != p.s.Steps[steps[0]].Order {
+			return // a sum of constants in different units says nothing
+		}
+	}
+	res.SumSteps, res.sumGrad = steps, grad
+	for _, j := range steps {
+		res.SumK += res.K[j]
+	}
+	res.SumKStdErr = math.Sqrt(math.Max(mat.Inner(mat.NewVecDense(np, grad), cov, mat.NewVecDense(np, grad)), 0))
+}
+
+func floatsDot(a, b []float64) float64 {
+	s := 0.0
+	for i := range a {
+		s += a[i] * b[i]
+	}
+	return s
+}
+
+// undeterminedWarning says which rate constants the data do not determine,
+// where the fit ended, and the sum the data do fix when there is one.
+// Constants Levenberg–Marquardt held (held) have their own warning. When
+// the not-determined directions hold no rate constant (an initial
+// concentration), it says the Jacobian's rank as before.
+func (p *fitProblem) undeterminedWarning(lm *LMResult, res *FitResult) {
+	var parts []string
+	for a, j := range p.kFree {
+		if res.KNotDetermined == nil || !res.KNotDetermined[j] || (lm.Held != nil && lm.Held[a]) {
+			continue
+		}
+		k := withUnit(fmt.Sprintf("%.4g", res.K[j]), p.rateUnit(j))
+		part := fmt.Sprintf("step %q (fit ended at %s)", p.s.Steps[j].Text, k)
+		parts = append(parts, part)
+	}
+	if len(parts) == 0 {
+		held := 0
+		for _, h := range lm.Held {
+			if h {
+				held++
+			}
+		}
+		if res.jacParams > 0 && res.jacRank < res.jacParams-held {
+			res.Warnings = append(res.Warnings, fmt.Sprintf("the Jacobian has rank %d for %d parameters: some parameter combinations are not determined by the data; their standard errors use a pseudo-inverse and are not meaningful", res.jacRank, res.jacParams))
+		}
+		return
+	}
+	what := "the rate constant of "
+	if len(parts) > 1 {
+		what = "singly the rate constants of "
+	}
+	w := fmt.Sprintf("the data do not determine %s%s (the Jacobian in ln k has rank %d for %d parameters, counting singular values below %.0e of the largest as zero): reported as not determined, with no standard error", what, strings.Join(parts, " and "), res.jacRank, res.jacParams, nullTol)
+	if res.SumSteps != nil {
+		var names []string
+		for _, j := range res.SumSteps {
+			names = append(names, fmt.Sprintf("k%d", j+1))
+		}
+		unit := p.rateUnit(res.SumSteps[0])
+		w += fmt.Sprintf("; only their sum is: %s = %s ± %s", strings.Join(names, " + "), withUnit(fmt.Sprintf("%.4g", res.SumK), ""), withUnit(fmt.Sprintf("%.2g", res.SumKStdErr), unit))
+	}
+	res.Warnings = append(res.Warnings, w)
+}
