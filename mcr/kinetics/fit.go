@@ -84,6 +84,9 @@ type FitResult struct {
 	// determine (undetermined): its KStdErr is 0, no standard error, and its
 	// correlations 0. nil when every free constant is determined.
 	KNotDetermined []bool
+	// KStart is the rate constants the reported Levenberg–Marquardt run
+	// started from (the best of the screened starts, or InitialK).
+	KStart []float64
 	// SumSteps, when the constants not determined singly have a determined
 	// sum (a reversible pair with free spectra: only k1 + k2 sets the
 	// relaxation), lists those steps, with the sum and its standard error
@@ -692,6 +695,7 @@ func (p *fitProblem) solve(m int) (*LMResult, error) {
 		runs[i], errs[i] = LevenbergMarquardt(func(x, r []float64) error { return p.residualWith(sc, x, r) }, p.jacobianFunc(sc), starts[i], m, p.opt.LM)
 	})
 	var best *LMResult
+	var bestStart []float64
 	var firstErr error
 	for i, res := range runs {
 		if errs[i] != nil {
@@ -701,12 +705,13 @@ func (p *fitProblem) solve(m int) (*LMResult, error) {
 			continue
 		}
 		if best == nil || res.SSR < best.SSR*(1-1e-12) {
-			best = res
+			best, bestStart = res, starts[i]
 		}
 	}
 	if best == nil {
 		return nil, firstErr
 	}
+	best.Start = bestStart
 	return best, nil
 }
 
@@ -721,7 +726,7 @@ func (p *fitProblem) noFreeParameters(th []float64, m int) (*LMResult, error) {
 	for _, v := range r {
 		ssr += v * v
 	}
-	return &LMResult{X: th, Residual: r, SSR: ssr, Jacobian: mat.NewDense(m, 1, nil), Converged: true, Reason: "no free parameters"}, nil
+	return &LMResult{X: th, Start: th, Residual: r, SSR: ssr, Jacobian: mat.NewDense(m, 1, nil), Converged: true, Reason: "no free parameters"}, nil
 }
 
 func checkFinite(d *mat.Dense, what string) error {
@@ -817,7 +822,7 @@ func (p *fitProblem) held(lm *LMResult, res *FitResult) int {
 		if a < len(p.kFree) {
 			j := p.kFree[a]
 			k := withUnit(fmt.Sprintf("%.4g", res.K[j]), p.rateUnit(j))
-			res.Warnings = append(res.Warnings, fmt.Sprintf("the rate constant of step %q is not determined by the data (the residual does not depend on it): it is held at its start %s and has no standard error", p.s.Steps[j].Text, k))
+			res.Warnings = append(res.Warnings, fmt.Sprintf("the rate constant of step %q is not determined by the data: the residual does not depend on it at %s, where this fit started, so it stayed there; it is reported as not determined, with no standard error", p.s.Steps[j].Text, k))
 			continue
 		}
 		i := p.c0Free[a-len(p.kFree)]
@@ -905,6 +910,9 @@ func (p *fitProblem) result(lm *LMResult, sim *Simulation, model *mat.Dense, m, 
 		}
 	}
 	res.HalfLife, res.HalfLifeNote = halfLives(p.s, k, c0, sim.C)
+	if lm.Start != nil {
+		res.KStart, _, _ = p.unpack(lm.Start)
+	}
 	return res
 }
 

@@ -39,7 +39,10 @@ type LMSettings struct {
 
 // LMResult is the outcome of LevenbergMarquardt.
 type LMResult struct {
-	X        []float64
+	X []float64
+	// Start is the x0 of the run reported, set by the fits that try
+	// several (nil when not set).
+	Start    []float64
 	Residual []float64  // residuals at X
 	SSR      float64    // Σ r_i² at X
 	Jacobian *mat.Dense // at X

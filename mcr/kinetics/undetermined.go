@@ -112,8 +112,10 @@ func floatsDot(a, b []float64) float64 {
 	return s
 }
 
-// undeterminedWarning says which rate constants the data do not determine,
-// where the fit ended, and the sum the data do fix when there is one.
+// undeterminedWarning says which rate constants the data do not determine
+// and how each got where it is reported: from which start it ran and
+// whether to zero, where the residual no longer depends on it (a species
+// the data barely see), and the sum the data do fix when there is one.
 // Constants Levenberg–Marquardt held (held) have their own warning. When
 // the not-determined directions hold no rate constant (an initial
 // concentration), it says the Jacobian's rank as before.
@@ -125,6 +127,14 @@ func (p *fitProblem) undeterminedWarning(lm *LMResult, res *FitResult) {
 		}
 		k := withUnit(fmt.Sprintf("%.4g", res.K[j]), p.rateUnit(j))
 		part := fmt.Sprintf("step %q (fit ended at %s)", p.s.Steps[j].Text, k)
+		switch {
+		case res.KStart == nil || !(res.KStart[j] > 0):
+		case res.K[j] == res.KStart[j]:
+			part = fmt.Sprintf("step %q (it stayed at %s, where this fit started)", p.s.Steps[j].Text, k)
+		case res.K[j] < 1e-6*res.KStart[j]:
+			start := withUnit(fmt.Sprintf("%.4g", res.KStart[j]), p.rateUnit(j))
+			part = fmt.Sprintf("step %q (it ran from its start %s to %s, that is to zero, its only bound, where the residual no longer depends on it: a species the data barely see?)", p.s.Steps[j].Text, start, k)
+		}
 		parts = append(parts, part)
 	}
 	if len(parts) == 0 {

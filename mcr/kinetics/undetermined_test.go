@@ -60,3 +60,75 @@ func TestReversiblePairOnlySumDetermined(t *testing.T) {
 		t.Errorf("no warning names the determined sum:\n%s", strings.Join(rev.Warnings, "\n"))
 	}
 }
+
+// TestMinorSpeciesConstantRunToZero: A -> B -> C -> D with k3 = 1.1e-5 s⁻¹
+// over an hour forms at most 2 % of D (Bateman 1910), and the profile of D
+// seen here sits 0.02 below zero (a baseline the resolution left in it):
+// the best k3 ≥ 0 is zero, and the fit runs ln k3 down until the residual
+// no longer depends on it (∂c/∂ln k3 = k3 ∂c/∂k3 → 0 as k3 → 0, from the
+// same solution). k3 then has no standard error (its variance in ln k is
+// unbounded): it must be reported as not determined, with 0, and the
+// warning must give the start it was given and say it ran to zero. k1 and
+// k2, which the profiles do determine, must lie within 3 standard errors
+// of the truth. A fit of the data started from there holds k3 where it
+// started and must say so, not that the value is the start the user gave.
+func TestMinorSpeciesConstantRunToZero(t *testing.T) {
+	s := mustParse(t, "A -> B -> C -> D")
+	times := linspace(0, 3600, 61)
+	k := []float64{2e-3, 5e-4, 1.1e-5}
+	sim, err := s.Simulate(k, []float64{1, 0, 0, 0}, times, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if dEnd := sim.C.At(len(times)-1, 3); dEnd > 0.02 {
+		t.Fatalf("D reaches %.3g: not a minor species", dEnd)
+	}
+	obs := noisy(t, sim.C, []int{0, 1, 2, 3}, nil, 0.01, 4)
+	for i := range times {
+		obs.Set(i, 3, obs.At(i, 3)-0.02)
+	}
+	r, err := FitProfiles(s, times, obs, []int{0, 1, 2, 3}, FitOptions{InitialK: []float64{2e-3, 5e-4, 1e-5}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	all := strings.Join(r.Warnings, "\n")
+	t.Logf("k %v se %v\n%s", r.K, r.KStdErr, all)
+	if r.KNotDetermined == nil || !r.KNotDetermined[2] || r.KStdErr[2] != 0 {
+		t.Errorf("k3 = %.3g ± %.3g reported as determined", r.K[2], r.KStdErr[2])
+	}
+	if !strings.Contains(all, "ran from its start 1e-05 to") || !strings.Contains(all, "to zero") {
+		t.Errorf("the warning does not give the start 1e-05 and say k3 ran to zero:\n%s", all)
+	}
+	within3SE(t, "k1, k2 beside an undetermined k3", &FitResult{K: r.K[:2], KStdErr: r.KStdErr[:2]}, k[:2])
+
+	// The data fit, started from the profile fit's constants.
+	spec := mat.NewDense(80, 4, nil)
+	for j := 0; j < 80; j++ {
+		for c := 0; c < 4; c++ {
+			spec.Set(j, c, math.Exp(-0.5*sq((float64(j)-12-18*float64(c))/6)))
+		}
+	}
+	var clean mat.Dense
+	clean.Mul(sim.C, spec.T())
+	d := noisy(t, &clean, seq(80), nil, 0.002, 5)
+	df, _, err := FitData(s, times, d, FitOptions{InitialK: r.K})
+	if err != nil {
+		t.Fatal(err)
+	}
+	dall := strings.Join(df.Warnings, "\n")
+	t.Logf("data fit: k %v se %v\n%s", df.K, df.KStdErr, dall)
+	if df.KNotDetermined == nil || !df.KNotDetermined[2] || df.KStdErr[2] != 0 {
+		t.Errorf("data fit: k3 = %.3g ± %.3g reported as determined", df.K[2], df.KStdErr[2])
+	}
+	if strings.Contains(dall, "held at its start") || !strings.Contains(dall, "where this fit started") {
+		t.Errorf("data fit: the warning does not say k3 stayed where this fit started:\n%s", dall)
+	}
+}
+
+func seq(n int) []int {
+	out := make([]int, n)
+	for i := range out {
+		out[i] = i
+	}
+	return out
+}

@@ -44,14 +44,14 @@ func TestUnitsSaid(t *testing.T) {
 		t.Fatal(err)
 	}
 	w := strings.Join(res.Warnings, "\n")
-	if !strings.Contains(w, `step "C -> D" is not determined by the data`) || !strings.Contains(w, "held at its start 0.05 min^-1 and") {
+	if !strings.Contains(w, `step "C -> D" is not determined by the data`) || !strings.Contains(w, "at 0.05 min^-1, where this fit started") {
 		t.Errorf("warnings %q; want k2 held at its start 0.05 min^-1", w)
 	}
 	opt.RateUnits = nil
 	if res, err = FitProfiles(two, times, ab, []int{0, 1}, opt); err != nil {
 		t.Fatal(err)
 	}
-	if w := strings.Join(res.Warnings, "\n"); !strings.Contains(w, "held at its start 0.05 and") {
+	if w := strings.Join(res.Warnings, "\n"); !strings.Contains(w, "at 0.05, where this fit started") {
 		t.Errorf("no units given: warnings %q; want the start 0.05 without a unit", w)
 	}
 }
