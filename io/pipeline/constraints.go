@@ -811,7 +811,7 @@ func liftedRangesWarning(r *Result, bo mcr.BandOptions, b *mcr.BandsResult, give
 	if len(parts) == 0 {
 		return ""
 	}
-	return fmt.Sprintf("spectra poorly determined with a fitted baseline (%s): a polynomial of the baseline's order added to a species' spectrum and taken off the baseline fits the same, so non-negative spectra no longer bound the rotation; the spectra shown are the split that lowers each onto zero under its lower polynomial envelope, and the uniqueness ranges assume that split and leave this freedom out. Without non-negative spectra the other constraints allow %s: read the spectra as determined only up to a polynomial each and such a rotation; %s",
+	return fmt.Sprintf("spectra poorly determined with a fitted baseline (%s): a polynomial of the baseline's order added to a species' spectrum and taken off the baseline fits the same, so non-negative spectra no longer bound the rotation; the baseline shown is the drift since the first spectrum (zero there), which fixes the split for the species present in it, and the others are lowered onto zero under their lower polynomial envelope; the uniqueness ranges assume that split and leave this freedom out. Without non-negative spectra the other constraints allow %s: read the spectra as determined only up to a polynomial each and such a rotation; %s",
 		baselineName(nb-1), strings.Join(parts, ", "), liftAdvice(r.Names, given))
 }
 

@@ -969,7 +969,7 @@ func baselineBack(r *Result, data mcr.Data, hopt *mcr.Options) (mcr.Data, *mat.D
 		withBaseline = mat.DenseCopyOf(r.D)
 		withBaseline.Add(withBaseline, &bp)
 		data = mcr.Dense{D: withBaseline}
-		hopt.Baseline = r.BaselineShapes
+		hopt.Baseline, hopt.BaselineAnchors = r.BaselineShapes, baselineAnchors(r)
 	case mcr.LessBaseline:
 		var bp mat.Dense
 		bp.Mul(r.BaselineProfiles, r.BaselineShapes.T())
@@ -977,7 +977,7 @@ func baselineBack(r *Result, data mcr.Data, hopt *mcr.Options) (mcr.Data, *mat.D
 		withBaseline.Add(withBaseline, &bp)
 		inner = d.Data
 		data = d.Data
-		hopt.Baseline = r.BaselineShapes
+		hopt.Baseline, hopt.BaselineAnchors = r.BaselineShapes, baselineAnchors(r)
 	}
 	return data, withBaseline, inner
 }

@@ -39,6 +39,7 @@ const noiseModelSlack = 1.25
 // 2000 × 3001 the second start was 809 ALS iterations, 40 % of the soft
 // resolution, and fitted worse.
 func startALS(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options) (*mcr.Result, error) {
+	opt.FreeSplitFirst = opt.BaselineAnchors != nil // cold starts
 	if r.Settings.Init != "auto" {
 		return mcr.Resolve(data, c0, opt)
 	}

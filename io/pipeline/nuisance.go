@@ -575,6 +575,7 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, s
 	if r.BaselineOrder >= 0 {
 		shapes = svd.Legendre(r.Axis, r.BaselineOrder)
 		opt.Baseline = shapes
+		opt.BaselineAnchors = baselineAnchors(r)
 	}
 	res, err := startALS(r, data, c0, opt)
 	if err != nil {
@@ -587,6 +588,19 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, s
 	}
 	testMinor(r, data, res, opt, log)
 	return res, data, shapes, nil
+}
+
+// baselineAnchors marks the first spectrum of each experiment, where the
+// fitted baseline is zero: it is the drift since the reference state
+// (mcr.Options.BaselineAnchors).
+func baselineAnchors(r *Result) []bool {
+	out := make([]bool, len(r.Times))
+	for _, e := range r.Experiments {
+		if e.Rows > 0 {
+			out[e.FirstRow] = true
+		}
+	}
+	return out
 }
 
 // setAsideOutliers sets aside the spectra the outlier test finds (and those
@@ -608,6 +622,7 @@ func setAsideOutliers(r *Result, data mcr.Data, c0 *mat.Dense, res *mcr.Result, 
 	if len(found) > 0 {
 		shapes = rechooseBaseline(r, data, res, shapes, log)
 		opt.Baseline = shapes
+		opt.BaselineAnchors = baselineAnchors(r)
 	}
 	rechosen := r.BaselineOrder != before
 	fmt.Fprintf(log, "setting %d spectrum(s) aside and resolving again\n", len(r.SetAside))
