@@ -110,14 +110,14 @@ type Result struct {
 	// PlainRSS is ‖D − C Sᵀ‖² at the observed points, unweighted: the
 	// metric of the uniqueness ranges' rise (mcr.FeasibleBands), whatever
 	// the metric of the fit.
-	PlainRSS   float64
-	Explained  float64
-	NoiseLOF   float64 // lack of fit % that noise alone would give
+	PlainRSS  float64
+	Explained float64
+	NoiseLOF  float64 // lack of fit % that noise alone would give
 	// DataSS is ‖D‖² at the observed points, unweighted, of the data as
 	// assembled, before a fitted baseline is taken out of D: the lack of
 	// fit's denominator, so that the figure does not move with the split
 	// between species and baseline (0 until withoutBaseline sets it).
-	DataSS float64
+	DataSS     float64
 	Compressed bool
 	EFA        *EFAReport
 	Init       string
