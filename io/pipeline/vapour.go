@@ -246,8 +246,7 @@ func vapourCarriers(r *Result) string {
 	}
 	names, sizes := make([]string, len(holders)), make([]string, len(holders))
 	for i, c := range holders {
-		names[i] = c.name
-		sizes[i] = fmt.Sprintf("%.2g (%.2g %% of its largest value)", math.Abs(c.height), 100*math.Abs(c.height)/c.largest)
+		names[i], sizes[i] = c.name, c.size()
 	}
 	return fmt.Sprintf("the resolved %s %s them, their largest line %s", joinNames(names), holds(len(names)), strings.Join(sizes, ", "))
 }
@@ -258,6 +257,18 @@ func vapourCarriers(r *Result) string {
 type vapourHolder struct {
 	name            string
 	height, largest float64
+}
+
+// size is the height of the largest line with its sign, as summary.json's
+// line_height has it, and its share of the spectrum's largest value. The
+// detected pattern's lines point up (absorption), so a negative height is
+// the gas's lines taken off the spectrum, which is said.
+func (c vapourHolder) size() string {
+	down := ""
+	if c.height < 0 {
+		down = "pointing down, the gas's lines taken off; "
+	}
+	return fmt.Sprintf("%.2g (%s%.2g %% of its largest value)", c.height, down, 100*math.Abs(c.height)/c.largest)
 }
 
 // vapourHolders are the resolved spectra holding the lines, in component

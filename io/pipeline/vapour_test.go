@@ -54,6 +54,7 @@ func TestVapourWarningOnRealSeries(t *testing.T) {
 				Change            []float64 `json:"line_change"`
 				With              []struct {
 					Component string
+					Height    float64 `json:"line_height"`
 				} `json:"spectra_with_lines"`
 			} `json:"water_vapour"`
 		}
@@ -69,6 +70,13 @@ func TestVapourWarningOnRealSeries(t *testing.T) {
 		}
 		if len(sum.Vapour.With) == 0 {
 			t.Errorf("%s: no resolved spectrum holds the lines", tc.run)
+		}
+		// The warning quotes each line height as summary.json holds it,
+		// sign included (a user read 0.11 where the file had -0.1107).
+		for _, w := range sum.Vapour.With {
+			if h := fmt.Sprintf("%.2g (", w.Height); !anyContains(r.Warnings, h) {
+				t.Errorf("%s: %s's line height %.4g, no warning quotes it as %q: %q", tc.run, w.Component, w.Height, h, r.Warnings)
+			}
 		}
 		lo, hi := vapourColumnRange(t, filepath.Join(s.Out, "vapour.csv"), len(r.Times))
 		if len(sum.Vapour.Change) != 1 || math.Abs(sum.Vapour.Change[0]-(hi-lo)) > 1e-9*(hi-lo) {
@@ -351,4 +359,29 @@ func svdWithout(t *testing.T, d *mat.Dense, course, a []float64) (before, after 
 		return sv.Values(nil)
 	}
 	return values(d), values(&p)
+}
+
+// A resolved spectrum holding the vapour's lines upside down has a
+// negative line height in summary.json (line_height −0.1107 on the real
+// catalyst-0.01 series); the warning must print that sign and say what it
+// means, not the magnitude alone ("0.11 (11 %)" was read as lines added).
+func TestVapourLineHeightKeepsItsSign(t *testing.T) {
+	for _, c := range []struct {
+		h, big  float64
+		want    string
+		pointed bool
+	}{
+		{-0.1106959637, 1, "-0.11 (pointing down", true},
+		{0.05292794292, 0.63, "0.053 (8.4 %", false},
+	} {
+		got := vapourHolder{name: "species_1", height: c.h, largest: c.big}.size()
+		// The printed value read back has the height's sign (the JSON's).
+		var v float64
+		if _, err := fmt.Sscanf(got, "%g", &v); err != nil || (v < 0) != (c.h < 0) || !strings.HasPrefix(got, c.want) {
+			t.Errorf("height %.4g: %q, want it to start %q", c.h, got, c.want)
+		}
+		if strings.Contains(got, "pointing down") != c.pointed {
+			t.Errorf("height %.4g: %q says pointing down %v", c.h, got, !c.pointed)
+		}
+	}
 }
