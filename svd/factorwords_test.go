@@ -77,7 +77,7 @@ func capData(n, m, k int) *mat.Dense {
 	return d
 }
 
-// With more factors above the noise than the criteria examine (12 by default), the noise
+// With more factors above the noise than the criteria count (12 by default), the noise
 // floor says its count stopped there (AtLeast) and the reason gives the whole count: 20
 // terms each above the edge (smallest 0.05/20 · √(40·200)/2 ≈ 0.11 against an edge of
 // 1e-3 · (√40 + √200) ≈ 0.020) give 20 singular values above the threshold. Its consensus

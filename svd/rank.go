@@ -65,8 +65,10 @@ type RankOptions struct {
 type Criterion struct {
 	Name     string // "noise-floor", "ind", "f-test", "structure"
 	Estimate int
-	// AtLeast says the count stopped at the factors the criteria examine
-	// (RankReport.Examined) with more above the noise: the true count is larger.
+	// AtLeast says the count stopped at the most the criteria count
+	// (RankReport.Examined, MaxRank) with more above the noise: the true count is
+	// larger. The table and the classification look at two factors more
+	// (MaxRank + 2), the "examined" of the reason and the notes.
 	AtLeast bool
 	Source  string // citation
 	Detail  string // one sentence
@@ -205,7 +207,7 @@ func EstimateRank(d *mat.Dense, f *Factors, opt RankOptions) (*RankReport, error
 				rep.warn("the estimate reached the %d factor(s) a %d × %d matrix lets be judged against its noise "+
 					"(one fewer than its smaller size): the rank may be higher; more %s would tell", p.maxRank, p.n, p.m, more)
 			} else {
-				rep.warn("the estimate reached the %d factors examined: the rank may be higher or σ too small", p.maxRank)
+				rep.warn("the estimate reached %d, the most the criteria count: the rank may be higher or σ too small", p.maxRank)
 			}
 			rep.capWarned = true
 		}
@@ -561,7 +563,7 @@ func (p *rankProblem) consensus() (est, rough int) {
 	p.rep.Estimate, p.beyond = est, beyond
 	p.rep.consensusWarnings = len(p.rep.Warnings)
 	if beyond > 0 {
-		p.rep.warn("%d more structured factor(s) above the noise lie beyond the %d examined", beyond, p.maxRank)
+		p.rep.warn("%d more structured factor(s) above the noise lie beyond the %d the criteria count", beyond, p.maxRank)
 	}
 	return est, rough
 }
@@ -577,7 +579,7 @@ func (p *rankProblem) criteria(nFloor, kInd, nF, nStruct int) []Criterion {
 	floor := fmt.Sprintf("%d singular values exceed %.4g (σ = %.4g, %s; edge %.4g)%s", nFloor, rep.Threshold, rep.Sigma, p.sigmaWords(), rep.NoiseEdge, patNote)
 	atLeast := rep.AboveThreshold-p.excluded(p.kAbove) > nFloor
 	if atLeast {
-		floor = fmt.Sprintf("%s of the %d singular values computed exceed %.4g (σ = %.4g, %s; edge %.4g)%s; counted up to the %d factors examined", p.aboveWords(), len(p.f.S), rep.Threshold, rep.Sigma, p.sigmaWords(), rep.NoiseEdge, patNote, p.maxRank)
+		floor = fmt.Sprintf("%s of the %d singular values computed exceed %.4g (σ = %.4g, %s; edge %.4g)%s; counted up to %d, the most the criteria count", p.aboveWords(), len(p.f.S), rep.Threshold, rep.Sigma, p.sigmaWords(), rep.NoiseEdge, patNote, p.maxRank)
 	}
 	return []Criterion{
 		{Name: CriterionNoiseFloor, Estimate: nFloor, AtLeast: atLeast,
@@ -612,7 +614,7 @@ func (p *rankProblem) reason(est, rough int) string {
 	if p.kAbove > 0 {
 		fmt.Fprintf(&b, "; in their span %d smooth direction(s) (%s)", est+p.beyond, p.judgedSides())
 		if p.beyond > 0 {
-			fmt.Fprintf(&b, ", of which %d are counted, the most the criteria examine", est)
+			fmt.Fprintf(&b, ", of which %d are counted, the most the criteria count", est)
 		} else {
 			b.WriteString(" are counted")
 		}

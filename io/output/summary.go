@@ -101,7 +101,7 @@ func (s Summary) Uniqueness() []BandJSON {
 type CriterionJSON struct {
 	Name     string `json:"name"`
 	Estimate int    `json:"estimate"`
-	// AtLeast: the count stopped at the factors the criteria examine (estimate of
+	// AtLeast: the count stopped at the most the criteria count (estimate of
 	// them) with more above the noise, so the criterion's own count is larger.
 	AtLeast bool   `json:"at_least,omitempty"`
 	Source  string `json:"source"`
@@ -109,11 +109,12 @@ type CriterionJSON struct {
 }
 
 // CriterionText is a rank criterion's count in words, "ind 3", or "noise-floor ≥ 12
-// (12 examined)" when the count stopped at the factors examined: the same on the
-// terminal and in the report.
+// (at most 12 counted)" when the count stopped at the most the criteria count: the
+// same on the terminal and in the report. "Examined" is kept for the factors the
+// table and classification look at (two more), which the rank reason and notes name.
 func CriterionText(name string, estimate int, atLeast bool) string {
 	if atLeast {
-		return fmt.Sprintf("%s ≥ %d (%d examined)", name, estimate, estimate)
+		return fmt.Sprintf("%s ≥ %d (at most %d counted)", name, estimate, estimate)
 	}
 	return fmt.Sprintf("%s %d", name, estimate)
 }

@@ -155,9 +155,11 @@ func TestMinorShapeWithinItsExperiment(t *testing.T) {
 }
 
 // On the trimmed urethane series more factors stand above the noise threshold than the
-// criteria examine (12: docs/rank.md §5), so the noise floor's 12 is a lower bound and the
+// criteria count (12: docs/rank.md §5), so the noise floor's 12 is a lower bound and the
 // terminal says so; the factors beyond the 14 the classification examined are counted
-// and noted. Their number must agree with singular_values.csv's by Cauchy's interlacing
+// and noted, and no line calls another number "examined" (a user read "noise-floor ≥ 12
+// (12 examined)" beside a reason saying "the first 14 are examined": the table's rows
+// above the threshold, rank.csv, are what is examined). Their number must agree with singular_values.csv's by Cauchy's interlacing
 // theorem: projecting out the baseline's p = order + 1 directions moves the k-th singular
 // value between the (k+p)-th and the k-th of the matrix before (Horn & Johnson, Matrix
 // Analysis, 1985, §7.3; from memory), so the count above one threshold drops by at most p.
@@ -166,8 +168,21 @@ func TestRankCapIsSaid(t *testing.T) {
 	r := runTrimmedUrethane(t)
 	var out strings.Builder
 	PrintTable(r, &out)
-	if !strings.Contains(out.String(), "noise-floor ≥ 12 (12 examined)") {
+	if !strings.Contains(out.String(), "noise-floor ≥ 12 (at most 12 counted)") {
 		t.Errorf("rank line without the cap:\n%s", out.String())
+	}
+	examined := 0
+	for _, row := range r.Rank.Table {
+		if row.AboveNoiseEdge {
+			examined++
+		}
+	}
+	for _, text := range append([]string{out.String(), r.Rank.Reason}, r.Notes...) {
+		for _, m := range regexp.MustCompile(`(\d+) (?:are )?examined`).FindAllStringSubmatch(text, -1) {
+			if m[1] != strconv.Itoa(examined) {
+				t.Errorf("%q says %s examined; the table examines %d", m[0], m[1], examined)
+			}
+		}
 	}
 	if c := MakeSummary(r).RankCriteria[0]; c.Name != "noise-floor" || !c.AtLeast {
 		t.Errorf("summary.json noise floor %+v, want at_least", c)

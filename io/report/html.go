@@ -728,7 +728,7 @@ func (f *Folder) rates() []rateView {
 func fmtNum(v float64) string { return trimFloat(v, 4) }
 
 // criterionVerdict says whether a rank criterion agrees with the rank: a count
-// that stopped at the factors examined (AtLeast) is a lower bound, which agrees
+// that stopped at the most the criteria count (AtLeast) is a lower bound, which agrees
 // with nothing.
 func criterionVerdict(c Criterion, rank int) string {
 	if c.Estimate == rank && !c.AtLeast {

@@ -7,8 +7,8 @@ import (
 	"github.com/bandsolve/bandsolve/io/output"
 )
 
-// When the noise floor's count stopped at the 12 factors the criteria examine
-// (summary.json at_least; docs/rank.md §5) the report says "≥ 12 (12 examined)",
+// When the noise floor's count stopped at the 12 factors the criteria count
+// (summary.json at_least; docs/rank.md §5) the report says "≥ 12 (at most 12 counted)",
 // as the terminal does, and its account of the classification says it covers the
 // factors examined, not all above the noise. Figures of the real urethane ATR
 // series at catalyst 1.00 (source: jevandezande/spectra, MIT, copy in
@@ -26,7 +26,7 @@ func TestRankFindingSaysTheCap(t *testing.T) {
 		NuisanceFactors: nf, FactorsAboveNoise: &above, NoiseLikeFactors: &noise}
 	find, _ := findings(&Folder{Summary: s})
 	all := strings.Join(find, "\n")
-	for _, want := range []string{"noise-floor ≥ 12 (12 examined), ind 3", "of the first 14 factors above the noise, those examined, 2 are chemistry"} {
+	for _, want := range []string{"noise-floor ≥ 12 (at most 12 counted), ind 3", "of the first 14 factors above the noise, those examined, 2 are chemistry"} {
 		if !strings.Contains(all, want) {
 			t.Errorf("findings lack %q:\n%s", want, all)
 		}
