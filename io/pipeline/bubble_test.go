@@ -90,6 +90,15 @@ func hydrationSeries(t *testing.T) (series, blank string, outliers []int) {
 // 4000 cm⁻¹ to +0.025 at 1000 cm⁻¹, constant in time.
 func hydrationSeriesWith(t *testing.T, withOutliers, tilt bool) (series, blank string, outliers []int) {
 	t.Helper()
+	s, outliers := hydrationSynth(t, withOutliers, tilt)
+	series, blank = s.write(t)
+	return series, blank, outliers
+}
+
+// hydrationSynth is the invented series of hydrationSeriesWith, its truth
+// (spectra and profiles) with it.
+func hydrationSynth(t *testing.T, withOutliers, tilt bool) (*synth, []int) {
+	t.Helper()
 	s := &synth{}
 	for j := range 1556 {
 		s.axis = append(s.axis, 4000-3000*float64(j)/1555)
@@ -161,11 +170,10 @@ func hydrationSeriesWith(t *testing.T, withOutliers, tilt bool) (series, blank s
 		}
 		s.blank[j] = ratio*env[j]*math.Pow(10, -solvent[j]) + 4*rng.NormFloat64()
 	}
-	series, blank = s.write(t)
 	if !withOutliers {
-		return series, blank, nil
+		return s, nil
 	}
-	return series, blank, []int{37, 61, 73}
+	return s, []int{37, 61, 73}
 }
 
 // Outliers that pull the first fit (two bubbles and a CO₂ puff) leave the

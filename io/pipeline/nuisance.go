@@ -387,6 +387,7 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 			return fmt.Errorf("baseline: %w", err)
 		}
 		order = ch.Order
+		r.orderNoise = ch.Noise
 		var steps []string
 		for _, st := range ch.Steps[1:] {
 			steps = append(steps, fmt.Sprintf("%s %s", baselineName(st.Order), pvalue.Text(st.Significance)))
@@ -586,6 +587,10 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, s
 			return nil, nil, nil, err
 		}
 	}
+	if res, data, shapes, err = raiseBaselineHeld(r, data, res, shapes, opt, log); err != nil {
+		return nil, nil, nil, err
+	}
+	opt.Baseline = shapes
 	testMinor(r, data, res, opt, log)
 	return res, data, shapes, nil
 }
@@ -918,6 +923,7 @@ func rechooseBaseline(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Den
 	fmt.Fprintf(log, "baseline chosen again without the spectra set aside: %s (was %s)\n", baselineName(ch.Order), baselineName(r.BaselineOrder))
 	r.BaselineReason = fmt.Sprintf("chosen again once %d spectrum(s) were set aside (first %s, with them; spectra set aside lifted or curved as a whole pass for a baseline the others lack), by the extra-sum-of-squares F-test of each order against the one below at level %.3g (Draper & Smith 1998; --alpha %g shared by the %d orders tried, Bonferroni) on the %d spectra kept, with %d factor(s) besides the baseline%s%s: %s", len(r.SetAside), baselineName(r.BaselineOrder), level, r.Settings.Alpha, maxOrder+1, rows, kf, metric, axisNoiseText(ch.Noise), strings.Join(steps, ", "))
 	r.BaselineOrder = ch.Order
+	r.orderNoise = ch.Noise
 	res.Baseline = resizedColumns(res.Baseline, ch.Order+1)
 	return svd.Legendre(r.Axis, ch.Order)
 }

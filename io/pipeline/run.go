@@ -136,12 +136,15 @@ type Result struct {
 	// --baseline auto fitted, orderOutliers how many of them were outlier
 	// spectra (chooseBaseline); rechooseBaseline takes the same less those.
 	orderFactors, orderOutliers int
-	BaselineReason              string
-	BaselineProfiles            *mat.Dense
-	BaselineShapes              *mat.Dense
-	Chemical                    *svd.ChemicalRank
-	DiffChemical                *svd.ChemicalRank
-	SetAside                    []SetAside
+	// orderNoise is the correlation along the axis the F-test of --baseline
+	// auto measured (raiseBaselineHeld counts its points the same way).
+	orderNoise       svd.AxisNoise
+	BaselineReason   string
+	BaselineProfiles *mat.Dense
+	BaselineShapes   *mat.Dense
+	Chemical         *svd.ChemicalRank
+	DiffChemical     *svd.ChemicalRank
+	SetAside         []SetAside
 	// Minor factors (minor.go): the refit verdicts, whether they ran, and the minor
 	// factors counted as species.
 	MinorTests   []MinorVerdict
