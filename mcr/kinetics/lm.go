@@ -51,7 +51,7 @@ type LMResult struct {
 	Converged               bool
 	Reason                  string
 	// Held marks the parameters whose Jacobian column was at rounding level at x0
-	// (≤ 1e-12 × the largest column norm) and still is at X: the residual does not depend
+	// (≤ nullTol = 1e-8 × the largest column norm) and still is at X: the residual does not depend
 	// on them, so the iteration kept them at x0 and Jacobian holds zeros in their columns
 	// (Covariance then counts them out of the rank and gives them no variance). A held
 	// parameter whose column rises above that level at a later iterate (a rate whose
@@ -512,13 +512,16 @@ func (s *lmSolver) finish() *LMResult {
 	return finishLM(s.res, s.x, s.r, s.fnorm, s.J)
 }
 
-// heldColumns marks the columns of J at rounding level from their norms, ≤ 1e-12 × the
-// largest column norm (Covariance's threshold for a zero singular value): parameters the
-// residual does not depend on (ln c0 of a first-order model with free spectra, whose
-// spectra absorb its scale). Left in, such a column's rounding-level gradient walks its
-// parameter anywhere (c0 = 1e+230 and 1e-96 from the same data), and scaled by its own norm
-// it made the damped system singular for every λ, closing the trust region on the start.
-// nil when none is.
+// heldColumns marks the columns of J at rounding level from their norms, ≤ nullTol (1e-8) ×
+// the largest column norm (the level at which a direction counts as not determined,
+// undetermined): parameters the residual does not depend on (ln c0 of a first-order model
+// with free spectra, whose spectra absorb its scale; a rate constant run to zero). Left in,
+// such a column's rounding-level gradient walks its parameter anywhere (c0 = 1e+230 and
+// 1e-96 from the same data), and scaled by its own norm it made the damped system singular
+// for every λ, closing the trust region on the start. The level was 1e-12 of the largest,
+// and a column just above it did the same: a data fit of A -> B -> C -> D started from
+// k3 = 2.3e-15 s⁻¹ (column about 1e-11 of the largest) returned its start, k1 and k2
+// included, as converged after one iteration. nil when none is.
 // The norms are columnNorms', the scale D's: the overflow that the scaled norm2 would
 // avoid (a column norm above 1e154) makes D infinite whatever this test finds.
 func heldColumns(norm []float64) []bool {
@@ -528,7 +531,7 @@ func heldColumns(norm []float64) []bool {
 	}
 	var held []bool
 	for j, v := range norm {
-		if maxNorm > 0 && v <= 1e-12*maxNorm {
+		if maxNorm > 0 && v <= nullTol*maxNorm {
 			if held == nil {
 				held = make([]bool, len(norm))
 			}

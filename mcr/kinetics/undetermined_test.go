@@ -132,3 +132,64 @@ func seq(n int) []int {
 	}
 	return out
 }
+
+// TestNearlyFlatColumnDoesNotStallTheFit: a data fit of the same invented
+// A -> B -> C -> D series (D at most 2 %) started with k3 at 2.29e-15 s⁻¹,
+// where D's model column is at rounding level (its Jacobian column about
+// 1e-11 of the largest), must still fit k1 and k2: at a least-squares
+// minimum the sum of squares is stationary in each fitted parameter
+// (definition), checked by central differences of ln k1 and ln k2 at a
+// relative step of 1e-4 against the curvature there, and two starts of k1,
+// k2 must reach the same constants. Levenberg–Marquardt once returned
+// each start unchanged, k1 and k2 included, as converged after one
+// iteration.
+func TestNearlyFlatColumnDoesNotStallTheFit(t *testing.T) {
+	s := mustParse(t, "A -> B -> C -> D")
+	times := linspace(0, 3600, 61)
+	sim, err := s.Simulate([]float64{2e-3, 5e-4, 1.1e-5}, []float64{1, 0, 0, 0}, times, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	spec := mat.NewDense(80, 4, nil)
+	for j := 0; j < 80; j++ {
+		for c := 0; c < 4; c++ {
+			spec.Set(j, c, math.Exp(-0.5*sq((float64(j)-12-18*float64(c))/6)))
+		}
+	}
+	var clean mat.Dense
+	clean.Mul(sim.C, spec.T())
+	d := noisy(t, &clean, seq(80), nil, 0.002, 5)
+	ssr := func(k []float64) float64 {
+		f, _, err := FitData(s, times, d, FitOptions{InitialK: k, FixedK: []bool{true, true, true}})
+		if err != nil {
+			t.Fatal(err)
+		}
+		return f.SSR
+	}
+	var ks [][]float64
+	for _, start := range [][]float64{{2.0006e-3, 4.95e-4, 2.29e-15}, {2.1e-3, 4.8e-4, 2.29e-15}} {
+		f, _, err := FitData(s, times, d, FitOptions{InitialK: start})
+		if err != nil {
+			t.Fatal(err)
+		}
+		t.Logf("start %v: k %v ± %v, %d iterations", start, f.K, f.KStdErr, f.Iterations)
+		if f.K[0] == start[0] || f.K[1] == start[1] {
+			t.Errorf("start %v: k1, k2 returned unchanged", start)
+		}
+		for j := range 2 {
+			up, down := append([]float64(nil), f.K...), append([]float64(nil), f.K...)
+			up[j] *= math.Exp(1e-4)
+			down[j] *= math.Exp(-1e-4)
+			f0, fu, fd := ssr(f.K), ssr(up), ssr(down)
+			if off := (fu - fd) / (2 * (fu + fd - 2*f0)); math.Abs(off) > 0.05 {
+				t.Errorf("start %v: k%d = %.6g lies %.3g steps of 1e-4 in ln k from the minimum", start, j+1, f.K[j], off)
+			}
+		}
+		ks = append(ks, f.K)
+	}
+	for j := range 2 {
+		if math.Abs(ks[0][j]/ks[1][j]-1) > 1e-6 {
+			t.Errorf("k%d: %.8g and %.8g from two starts", j+1, ks[0][j], ks[1][j])
+		}
+	}
+}
