@@ -39,6 +39,21 @@ func countsNoise(s *synth, sigmaI float64, seed uint64, extra func(i, j int) flo
 	}
 }
 
+// driftingBateman is makeBateman's first species (k 6e-3 and 2e-3 s⁻¹) as
+// single beams with noise constant in counts, under a baseline that drifts
+// by an offset and a slope growing with time.
+func driftingBateman(t *testing.T, species int) *synth {
+	s := makeBateman(t, 6e-3, 2e-3, 0, 1, species)
+	n := len(s.times)
+	lo, hi := s.axis[len(s.axis)-1], s.axis[0]
+	countsNoise(s, 40, 5, func(i, j int) float64 {
+		x := 2*(s.axis[j]-lo)/(hi-lo) - 1
+		f := float64(i) / float64(n-1)
+		return 0.03*f + 0.02*math.Sin(3*f)*x
+	})
+	return s
+}
+
 // TestBaselineDriftIsNotASpecies: two species (A → B, first order: a = e^{−kt}, Bateman
 // 1910) and a baseline that drifts by an offset and a slope per spectrum. The drift is two
 // extra factors of the bilinear model (PRIMER §8); fitted as a nuisance it must not be
@@ -47,14 +62,7 @@ func countsNoise(s *synth, sigmaI float64, seed uint64, extra func(i, j int) flo
 // free polynomial per spectrum leaves rotations that keep every constraint (seen: spectra
 // at cosine 0.91–0.96), so no method could promise the truth there.
 func TestBaselineDriftIsNotASpecies(t *testing.T) {
-	s := makeBateman(t, 6e-3, 2e-3, 0, 1, 2)
-	n := len(s.times)
-	lo, hi := s.axis[len(s.axis)-1], s.axis[0]
-	countsNoise(s, 40, 5, func(i, j int) float64 {
-		x := 2*(s.axis[j]-lo)/(hi-lo) - 1
-		f := float64(i) / float64(n-1)
-		return 0.03*f + 0.02*math.Sin(3*f)*x
-	})
+	s := driftingBateman(t, 2)
 	r, st := runNuisanceCase(t, s)
 	if r.Rank.Estimate != 2 || r.Components != 2 {
 		t.Fatalf("rank %d, components %d; want 2 species, the drift not counted (%s)", r.Rank.Estimate, r.Components, r.Rank.Reason)
@@ -158,14 +166,7 @@ func runNuisanceCase(t *testing.T, s *synth) (*Result, *Settings) {
 // analytic truth) at its full amount at the start; B and C, absent there,
 // keep the polynomial freedom the warning names.
 func TestBaselineIsTheDriftSinceTheFirstSpectrum(t *testing.T) {
-	s := makeBateman(t, 6e-3, 2e-3, 0, 1, 3)
-	n := len(s.times)
-	lo, hi := s.axis[len(s.axis)-1], s.axis[0]
-	countsNoise(s, 40, 5, func(i, j int) float64 {
-		x := 2*(s.axis[j]-lo)/(hi-lo) - 1
-		f := float64(i) / float64(n-1)
-		return 0.03*f + 0.02*math.Sin(3*f)*x
-	})
+	s := driftingBateman(t, 3)
 	series, blank := s.write(t)
 	st := NewSettings()
 	st.Data, st.Kind, st.Blanks, st.Pre, st.Baseline = []string{series}, "single-beam", []string{blank}, 3, "linear"
