@@ -263,6 +263,13 @@ func (c *factorClassifier) classify(j int, row CandidateRow) {
 	case c.noiseLike(j, row, u):
 		c.out.NoiseLike++
 		return
+	case c.whiteSpectrum(row, j):
+		// Not white in time (noiseLike), yet white along the axis, where a
+		// species' spectrum has bands some points wide: noise fixed in some
+		// spectra. With several experiments each one's reference spectrum
+		// leaves its own (counted as a third reaction of two stacked
+		// experiments of two each).
+		nf.Kind, nf.Looks = NuisancePattern, "white across the axis: noise fixed in some spectra, such as an experiment's reference spectrum's own noise, not a species"
 	case c.smoothNuisance(&nf, v, vu):
 	case c.minor(&nf, j, u, vu):
 	default:
@@ -301,6 +308,16 @@ func (c *factorClassifier) artefact(nf *NuisanceFactor, row CandidateRow, u []fl
 		return true
 	}
 	return false
+}
+
+// whiteSpectrum reports factor j's spectrum vector as white along the axis by
+// the rank report's autocorrelation and by that of the vector the
+// decomposition holds, as noiseLike does the time vector's.
+func (c *factorClassifier) whiteSpectrum(row CandidateRow, j int) bool {
+	if c.m < minStructureLen {
+		return false
+	}
+	return !structured(row.AutocorrV, c.m) && !structured(Autocorrelation(column(c.f.V, j)), c.m)
 }
 
 // noiseLike reports a time vector as white as noise, by the rank report's
