@@ -102,15 +102,7 @@ func TestMinorSpeciesConstantRunToZero(t *testing.T) {
 	within3SE(t, "k1, k2 beside an undetermined k3", &FitResult{K: r.K[:2], KStdErr: r.KStdErr[:2]}, k[:2])
 
 	// The data fit, started from the profile fit's constants.
-	spec := mat.NewDense(80, 4, nil)
-	for j := 0; j < 80; j++ {
-		for c := 0; c < 4; c++ {
-			spec.Set(j, c, math.Exp(-0.5*sq((float64(j)-12-18*float64(c))/6)))
-		}
-	}
-	var clean mat.Dense
-	clean.Mul(sim.C, spec.T())
-	d := noisy(t, &clean, seq(80), nil, 0.002, 5)
+	d := fourBandData(t, sim.C)
 	df, _, err := FitData(s, times, d, FitOptions{InitialK: r.K})
 	if err != nil {
 		t.Fatal(err)
@@ -150,15 +142,7 @@ func TestNearlyFlatColumnDoesNotStallTheFit(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	spec := mat.NewDense(80, 4, nil)
-	for j := 0; j < 80; j++ {
-		for c := 0; c < 4; c++ {
-			spec.Set(j, c, math.Exp(-0.5*sq((float64(j)-12-18*float64(c))/6)))
-		}
-	}
-	var clean mat.Dense
-	clean.Mul(sim.C, spec.T())
-	d := noisy(t, &clean, seq(80), nil, 0.002, 5)
+	d := fourBandData(t, sim.C)
 	ssr := func(k []float64) float64 {
 		f, _, err := FitData(s, times, d, FitOptions{InitialK: k, FixedK: []bool{true, true, true}})
 		if err != nil {
@@ -192,4 +176,19 @@ func TestNearlyFlatColumnDoesNotStallTheFit(t *testing.T) {
 			t.Errorf("k%d: %.8g and %.8g from two starts", j+1, ks[0][j], ks[1][j])
 		}
 	}
+}
+
+// fourBandData is profiles c (n × 4) times four Gaussian bands on 80 points,
+// 18 points apart, with white noise of 0.002 (seed 5).
+func fourBandData(t *testing.T, c *mat.Dense) *mat.Dense {
+	t.Helper()
+	spec := mat.NewDense(80, 4, nil)
+	for j := 0; j < 80; j++ {
+		for k := 0; k < 4; k++ {
+			spec.Set(j, k, math.Exp(-0.5*sq((float64(j)-12-18*float64(k))/6)))
+		}
+	}
+	var clean mat.Dense
+	clean.Mul(c, spec.T())
+	return noisy(t, &clean, seq(80), nil, 0.002, 5)
 }
