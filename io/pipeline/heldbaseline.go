@@ -70,7 +70,10 @@ func raiseBaselineHeld(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.De
 	chosen := 0
 	for q := q0 + 1; q <= maxOrder; q++ {
 		o := opt
-		o.Baseline = svd.Legendre(r.Axis, q)
+		// A background the species could not hold is there from the first
+		// spectrum on (a blank's mismatch), not a drift since it: the
+		// baseline is free in every spectrum (no anchors).
+		o.Baseline, o.BaselineAnchors = svd.Legendre(r.Axis, q), nil
 		o.Observe = nil
 		fit, err := mcr.Resolve(data, res.C, o)
 		if err != nil {
@@ -91,13 +94,13 @@ func raiseBaselineHeld(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.De
 	}
 	fmt.Fprintf(log, "baseline raised to %s: the constrained species could not hold the background (was %s)\n", baselineName(best.order), baselineName(q0))
 	r.BaselineReason += heldReason(r, fits, q0, best, level, noise)
-	r.BaselineOrder = best.order
+	r.BaselineOrder, r.BaselineHeld = best.order, true
 	shapes = svd.Legendre(r.Axis, best.order)
 	res = best.res
 	if len(r.SetAside) > 0 {
 		// The rows set aside hold the fit of the order below: filled
 		// again from this one until they settle.
-		opt.Baseline = shapes
+		opt.Baseline, opt.BaselineAnchors = shapes, nil
 		res, data, err = refillSetAside(r, data, res, shapes, opt, log)
 		if err != nil {
 			return nil, nil, nil, err

@@ -587,8 +587,12 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, s
 			return nil, nil, nil, err
 		}
 	}
+	chosen := r.BaselineOrder
 	if res, data, shapes, err = raiseBaselineHeld(r, data, res, shapes, opt, log); err != nil {
 		return nil, nil, nil, err
+	}
+	if r.BaselineOrder != chosen {
+		opt.BaselineAnchors = baselineAnchors(r) // raised: free in every spectrum
 	}
 	opt.Baseline = shapes
 	testMinor(r, data, res, opt, log)
@@ -599,6 +603,9 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, s
 // fitted baseline is zero: it is the drift since the reference state
 // (mcr.Options.BaselineAnchors).
 func baselineAnchors(r *Result) []bool {
+	if r.BaselineHeld {
+		return nil // a background from the first spectrum on (raiseBaselineHeld)
+	}
 	out := make([]bool, len(r.Times))
 	for _, e := range r.Experiments {
 		if e.Rows > 0 {

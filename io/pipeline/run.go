@@ -117,13 +117,17 @@ type Result struct {
 	// assembled, before a fitted baseline is taken out of D: the lack of
 	// fit's denominator, so that the figure does not move with the split
 	// between species and baseline (0 until withoutBaseline sets it).
-	DataSS     float64
-	Compressed bool
-	EFA        *EFAReport
-	Init       string
-	Warnings   []string
-	Notes      []string
-	Advice     []string
+	DataSS float64
+	// BaselineHeld says the baseline order was raised on the constrained
+	// fits (raiseBaselineHeld): a background from the first spectrum on,
+	// not anchored there as a drift is (baselineAnchors).
+	BaselineHeld bool
+	Compressed   bool
+	EFA          *EFAReport
+	Init         string
+	Warnings     []string
+	Notes        []string
+	Advice       []string
 	// Constraints: per-component constraints, their checks, uniqueness
 	// ranges and bootstrap intervals (constraints.go).
 	Constraints *ConstraintReport
