@@ -762,10 +762,13 @@ func cleanAxisName(name string, axis []float64) string {
 		return "wavenumber"
 	case strings.Contains(n, "wavelength") || strings.Contains(n, "wellenlänge") || strings.Contains(n, "longueur d'onde") || strings.Contains(n, "nm"):
 		return "wavelength"
-	case n == "":
+	}
+	f := strings.Fields(n)
+	if len(f) == 0 {
+		// Empty, or only spaces (a title of blanks, a lone quote trimmed).
 		return guessAxisName(axis)
 	}
-	return strings.Fields(n)[0]
+	return f[0]
 }
 
 // guessAxisName: infrared exports without a title are most often in cm⁻¹
