@@ -181,10 +181,10 @@ type Options struct {
 	stopAt float64
 	// baselineTerms: the last baselineTerms components are baseline terms
 	// (set by resolveWithBaseline; they may vanish without a warning).
-	baselineTerms int
-	baselineBasis *mat.Dense // orthonormal basis of the baseline shapes (species mode)
-	baselineLanes []float64  // envelopeLanes(baselineBasis), formed once for every iteration
-	anchorStart   *mat.Dense // the start's profiles, which say the species present at the anchors
+	baselineTerms  int
+	baselineBasis  *mat.Dense // orthonormal basis of the baseline shapes (species mode)
+	baselineLanes  []float64  // envelopeLanes(baselineBasis), formed once for every iteration
+	presentAtStart []bool     // the species present at the anchors in the start (presentAtAnchors): not lowered
 	// stopAtRoundingFloor ends ALS at the first plain iteration that
 	// raises the residual (see exactSteps in Resolve).
 	stopAtRoundingFloor bool
@@ -609,7 +609,7 @@ func (r *alsRun) spectraHalf(it int) error {
 	}
 	r.s = s
 	if r.opt.baselineBasis != nil {
-		lowerSpectra(s, r.k-r.opt.baselineTerms, absentAtAnchors(lowerable(r.cs.nnS, r.cs.knownMask), r.opt.anchorStart, r.opt.BaselineAnchors), r.opt.baselineBasis, r.opt.baselineLanes)
+		lowerSpectra(s, r.k-r.opt.baselineTerms, withoutPresent(lowerable(r.cs.nnS, r.cs.knownMask), r.opt.presentAtStart), r.opt.baselineBasis, r.opt.baselineLanes)
 	}
 	if r.opt.LeastOthers != nil {
 		takeOthers(s, r.opt.LeastOthers, r.k-r.opt.baselineTerms)
@@ -1218,28 +1218,36 @@ func ridged(g *mat.SymDense, lambda float64) *mat.SymDense {
 	return out
 }
 
-// lowerable marks the non-negative spectra that the baseline split may lower: not those
-// with values held fixed (a known spectrum, a zero window), which lowering would move off
-// the values they are held at.
-// absentAtAnchors is which of the species marked in ok have zero
-// concentration in c at every anchor spectrum (ok itself without anchors).
-func absentAtAnchors(ok []bool, c *mat.Dense, anchors []bool) []bool {
+// presentAtAnchors marks the species of c (the start's profiles) present
+// in an anchor spectrum: above anchorShare of their largest amount there.
+// nil without anchors. The mask is made once, from the start: taken from
+// each iterate, it would switch a species' lowering on and off as its
+// amount crosses the share.
+func presentAtAnchors(c *mat.Dense, anchors []bool) []bool {
 	if anchors == nil || c == nil {
-		return ok
+		return nil
 	}
-	n, _ := c.Dims()
-	for j := range ok {
-		if !ok[j] {
-			continue
-		}
+	n, k := c.Dims()
+	out := make([]bool, k)
+	for j := range k {
 		top := 0.0
 		for i := range n {
 			top = math.Max(top, c.At(i, j))
 		}
 		for i, a := range anchors {
-			if a && c.At(i, j) > anchorShare*top {
-				ok[j] = false
+			if a && i < n && c.At(i, j) > anchorShare*top {
+				out[j] = true
 			}
+		}
+	}
+	return out
+}
+
+// withoutPresent clears in ok the species marked present (ok itself for nil).
+func withoutPresent(ok, present []bool) []bool {
+	for j, p := range present {
+		if p && j < len(ok) {
+			ok[j] = false
 		}
 	}
 	return ok
@@ -1249,6 +1257,9 @@ func absentAtAnchors(ok []bool, c *mat.Dense, anchors []bool) []bool {
 // species counts as present in an anchor spectrum.
 const anchorShare = 0.05
 
+// lowerable marks the non-negative spectra that the baseline split may lower: not those
+// with values held fixed (a known spectrum, a zero window), which lowering would move off
+// the values they are held at.
 func lowerable(nonneg []bool, fixed [][]bool) []bool {
 	out := append([]bool(nil), nonneg...)
 	for j := range out {

@@ -135,7 +135,7 @@ func resolveWithBaselineFrom(d Data, c0, b0 *mat.Dense, opt Options) (*Result, e
 		copy(ext.ZeroProfiles, opt.ZeroProfiles[:min(k, len(opt.ZeroProfiles))])
 	}
 	if opt.BaselineAnchors != nil {
-		ext.anchorStart = c0
+		ext.presentAtStart = presentAtAnchors(c0, opt.BaselineAnchors)
 		if ext.ZeroProfiles == nil {
 			ext.ZeroProfiles = make([][]bool, kk)
 		}

@@ -263,7 +263,7 @@ func (c *factorClassifier) classify(j int, row CandidateRow) {
 	case c.noiseLike(j, row, u):
 		c.out.NoiseLike++
 		return
-	case c.whiteSpectrum(row, j):
+	case c.whiteSpectrum(row, v):
 		// Not white in time (noiseLike), yet white along the axis, where a
 		// species' spectrum has bands some points wide: noise fixed in some
 		// spectra. With several experiments each one's reference spectrum
@@ -310,14 +310,14 @@ func (c *factorClassifier) artefact(nf *NuisanceFactor, row CandidateRow, u []fl
 	return false
 }
 
-// whiteSpectrum reports factor j's spectrum vector as white along the axis by
-// the rank report's autocorrelation and by that of the vector the
-// decomposition holds, as noiseLike does the time vector's.
-func (c *factorClassifier) whiteSpectrum(row CandidateRow, j int) bool {
+// whiteSpectrum reports a factor's spectrum vector v (as the decomposition
+// holds it) white along the axis, by the rank report's autocorrelation and by
+// v's, as noiseLike does the time vector's.
+func (c *factorClassifier) whiteSpectrum(row CandidateRow, v []float64) bool {
 	if c.m < minStructureLen {
 		return false
 	}
-	return !structured(row.AutocorrV, c.m) && !structured(Autocorrelation(column(c.f.V, j)), c.m)
+	return !structured(row.AutocorrV, c.m) && !structured(Autocorrelation(v), c.m)
 }
 
 // noiseLike reports a time vector as white as noise, by the rank report's
