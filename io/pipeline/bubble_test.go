@@ -176,6 +176,24 @@ func hydrationSynth(t *testing.T, withOutliers, tilt bool) (*synth, []int) {
 	return s, []int{37, 61, 73}
 }
 
+// runHydration resolves an invented hydration series (hydrationSeries) as
+// single beams with its blank and four spectra before the reagent, the report,
+// checks and uniqueness ranges off; set changes the settings (nil: none).
+func runHydration(t *testing.T, series, blank string, set func(*Settings)) *Result {
+	t.Helper()
+	st := NewSettings()
+	st.Data, st.Kind, st.Blanks, st.Pre = []string{series}, "single-beam", []string{blank}, 4
+	st.Report, st.Checks, st.Bands = "off", "off", "off"
+	if set != nil {
+		set(st)
+	}
+	r, err := Run(st, io.Discard)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return r
+}
+
 // Outliers that pull the first fit (two bubbles and a CO₂ puff) leave the
 // spectra least like them, those before the reaction, far from that fit as
 // well: with --baseline offset the test names them too. The fit without them
@@ -187,14 +205,7 @@ func hydrationSynth(t *testing.T, withOutliers, tilt bool) (*synth, []int) {
 // the typical residual.
 func TestPulledFitBringsBackTheSpectraItFittedWorst(t *testing.T) {
 	series, blank, want := hydrationSeries(t)
-	st := NewSettings()
-	st.Data, st.Kind, st.Blanks, st.Pre = []string{series}, "single-beam", []string{blank}, 4
-	st.Report, st.Checks, st.Bands = "off", "off", "off"
-	st.Baseline = "offset"
-	r, err := Run(st, io.Discard)
-	if err != nil {
-		t.Fatal(err)
-	}
+	r := runHydration(t, series, blank, func(st *Settings) { st.Baseline = "offset" })
 	var got []int
 	for _, sa := range r.SetAside {
 		got = append(got, sa.Row)
@@ -215,14 +226,7 @@ func TestPulledFitBringsBackTheSpectraItFittedWorst(t *testing.T) {
 // it.
 func TestSmoothMisfitIsNotOutliers(t *testing.T) {
 	series, blank, _ := hydrationSeriesWith(t, false, true)
-	st := NewSettings()
-	st.Data, st.Kind, st.Blanks, st.Pre = []string{series}, "single-beam", []string{blank}, 4
-	st.Report, st.Checks, st.Bands = "off", "off", "off"
-	st.Baseline = "off"
-	r, err := Run(st, io.Discard)
-	if err != nil {
-		t.Fatal(err)
-	}
+	r := runHydration(t, series, blank, func(st *Settings) { st.Baseline = "off" })
 	if q, ok := residualToNoise(r); !ok || q < 10 {
 		t.Fatalf("residual %.3g times the noise: the case must leave a misfit far above the noise to test", q)
 	}

@@ -1,7 +1,6 @@
 package pipeline
 
 import (
-	"io"
 	"testing"
 
 	"github.com/bandsolve/bandsolve/svd"
@@ -41,13 +40,7 @@ func lessPolynomial(x *mat.Dense, axis []float64, order int) *mat.Dense {
 func TestHeldBaselineRaisedForTiltedBlank(t *testing.T) {
 	s, _ := hydrationSynth(t, false, true)
 	series, blank := s.write(t)
-	st := NewSettings()
-	st.Data, st.Kind, st.Blanks, st.Pre = []string{series}, "single-beam", []string{blank}, 4
-	st.Report, st.Checks, st.Bands = "off", "off", "off"
-	r, err := Run(st, io.Discard)
-	if err != nil {
-		t.Fatal(err)
-	}
+	r := runHydration(t, series, blank, nil)
 	q, ok := residualToNoise(r)
 	t.Logf("baseline %s, residual %.4g × the noise: %s", baselineName(r.BaselineOrder), q, r.BaselineReason)
 	if r.BaselineOrder < 0 {
@@ -74,14 +67,7 @@ func TestHeldBaselineRaisedForTiltedBlank(t *testing.T) {
 func TestHeldBaselineNotRaisedForAMissingSpecies(t *testing.T) {
 	s, _ := hydrationSynth(t, false, false)
 	series, blank := s.write(t)
-	st := NewSettings()
-	st.Data, st.Kind, st.Blanks, st.Pre = []string{series}, "single-beam", []string{blank}, 4
-	st.Report, st.Checks, st.Bands = "off", "off", "off"
-	st.Components = "2"
-	r, err := Run(st, io.Discard)
-	if err != nil {
-		t.Fatal(err)
-	}
+	r := runHydration(t, series, blank, func(st *Settings) { st.Components = "2" })
 	q, _ := residualToNoise(r)
 	if q < 2 {
 		t.Fatalf("residual %.3g times the noise: the case must leave a misfit the raised order is tried on", q)
