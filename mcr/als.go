@@ -948,7 +948,7 @@ func (r *alsRun) spectraStep(it int) (*mat.Dense, error) {
 // iterations (52 and 107 with --weights off), on the six-species benchmark
 // 501 and 1000, the second stopped unconverged. Learnt, they take 147 and
 // 169 (both at the same minimum, which neither start reached before), and
-// 351 and 809, both converged and lower (docs/performance.md; a rise of 5 or
+// 351 and 809, both converged and lower (docs/performance-history.md; a rise of 5 or
 // 10 % per step took 490 and 547 on the demo). The learning waits for
 // iteration 100 because early rejections follow the first iterations' large
 // moves, not the valley (on the demo the first rejections fell within the

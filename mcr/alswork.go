@@ -14,7 +14,7 @@ import (
 // were about ten data-sized allocations an iteration (n × k or m × k, 1 MB
 // at 2000 × 3001 with five components), each cleared before use, and the
 // scaled factor √A C was formed twice, once for CᵀAC and once inside the
-// product (docs/performance.md). What the buffers hold is used within the
+// product (docs/performance-history.md). What the buffers hold is used within the
 // iteration only: the profiles and spectra ALS keeps are never among them.
 // It also holds the data's weights, the run's only copy of them, so that
 // the half steps and the residual cannot be handed different ones.

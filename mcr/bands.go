@@ -518,7 +518,7 @@ func (p *bandProblem) rotateNew(t *mat.Dense) (a, b, tinvT *mat.Dense, ok bool) 
 // rounded before it is added, as rowsTimes sums it; the terms rowsTimes
 // leaves out, whose first factor is ±0, are ±0 (T's entries are finite)
 // and leave such a sum as it is. The same bits in half the scalar loop's
-// time, the new matrix's clearing included (docs/performance.md).
+// time, the new matrix's clearing included (docs/performance-history.md).
 func (w *bandWork) timesPanels(xm *mat.Dense, x, xp []float64, v *mat.Dense) *mat.Dense {
 	rows, k := xm.Dims()
 	if vr, vc := v.Dims(); vr != k || vc != k || len(x) != rows*k {
@@ -620,7 +620,7 @@ func (p *bandProblem) violation(a, b *mat.Dense) float64 {
 // converged or not (stagePlan.seed), with stages stopped once three
 // iterations in a row lower the objective by less than 10⁻⁸ of it
 // (seedStall): the stiffer stages and the last digits only move the
-// start (docs/performance.md, fifth and eighth rounds of issue 15). The
+// start (docs/performance-history.md, fifth and eighth rounds of issue 15). The
 // seed also picks the local extreme the search ends in: started from the
 // solution itself SQP ended elsewhere on three of the demo's six ends,
 // two of them further in.
@@ -630,7 +630,7 @@ func (p *bandProblem) violation(a, b *mat.Dense) float64 {
 // sixteenth of the budget: the extreme lies on the allowance's boundary,
 // where that penalty is a narrow curved valley, and BFGS zigzagged across
 // it in steps of 10⁻⁴ of the rotation and stopped on its budget 0.3–2.1 %
-// of f_j short of the extreme on the urethane series (docs/performance.md).
+// of f_j short of the extreme on the urethane series (docs/performance-history.md).
 func (p *bandProblem) extreme(j int, sign float64) ([]float64, float64, bool, int, bool) {
 	theta := make([]float64, len(p.free))
 	if len(theta) == 0 {
@@ -658,7 +658,7 @@ func (p *bandProblem) extreme(j int, sign float64) ([]float64, float64, bool, in
 // digit is the converged one but at a rounding boundary. The test is of
 // first order; measured, the ends it stops at lie within 5·10⁻⁷ of f_j of
 // a search run to 10⁻¹⁰ on the urethane series and on 2000 × 3001 and
-// within 4.4·10⁻⁶ on the demo (docs/performance.md).
+// within 4.4·10⁻⁶ on the demo (docs/performance-history.md).
 const sqpTol = 1e-5
 
 // noiseSQP carries the exact-fit end theta0 out to the boundary of the
@@ -715,7 +715,7 @@ const (
 // extreme feasible end, which is what is kept, is the one in hand. On
 // data whose resolution is nearly unique the first stage already ends
 // feasible, and the three stiffer ones took two thirds of the evaluations
-// for the same ranges to the last digit (docs/performance.md).
+// for the same ranges to the last digit (docs/performance-history.md).
 //
 // The end counts as converged when the last stage run stopped on
 // minimiseBFGS's own rule (stall, vanishing gradient, no decrease), not on

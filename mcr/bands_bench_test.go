@@ -35,7 +35,7 @@ func bandsBenchPair(n, m, k int) (*mat.Dense, *mat.Dense) {
 }
 
 // BenchmarkFeasibleBands measures the uniqueness ranges within the noise on
-// the shape of a 2000 × 3001 series (docs/performance.md): 4, 5 and 6
+// the shape of a 2000 × 3001 series (docs/performance-history.md): 4, 5 and 6
 // components, with the allowance of a residual at 1 % lack of fit.
 func BenchmarkFeasibleBands(b *testing.B) {
 	for _, k := range []int{4, 5, 6} {

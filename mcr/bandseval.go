@@ -9,7 +9,7 @@ import (
 // buffers one evaluation of the range search writes into, so that the tens
 // of thousands of evaluations of a search allocate nothing: the search
 // spends its time on the O((n + m)k²) products, not on the allocator (a
-// fourfold gain on 2000 × 3001, docs/performance.md).
+// fourfold gain on 2000 × 3001, docs/performance-history.md).
 type bandWork struct {
 	c, s          []float64    // n × k, m × k
 	t, inv, tinvT []float64    // k × k
@@ -1316,7 +1316,7 @@ func (cr *clippedRows) formDense(ms *marginSide, v []float64) {
 // and the count moves on only past a clipped one: whether a row is
 // clipped is as good as random (43 % of the spectra's rows on the default
 // run), and a branch on it, with the slices' headers stored back at each
-// row, took a tenth of the search (docs/performance.md).
+// row, took a tenth of the search (docs/performance-history.md).
 func (cr *clippedRows) fromDense(ms *marginSide) {
 	cr.dense = true
 	cr.full, cr.minus = ms.full, ms.minus

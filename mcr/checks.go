@@ -45,7 +45,7 @@ type CheckOptions struct {
 	// restart is a full ALS run from the freer solution and takes most of
 	// the checks' time (on the six-species hard-model benchmark about 3.0
 	// of 3.4 s CPU, all restarts that could not change a verdict;
-	// docs/performance.md); nil runs it after every such refit. The
+	// docs/performance-history.md); nil runs it after every such refit. The
 	// refits run at the same time (see CheckConstraintsWith): Restart is
 	// called from their goroutines, one call at a time, in no fixed order.
 	Restart func(ConstraintCheck) bool
@@ -57,7 +57,7 @@ type CheckOptions struct {
 // opt holds a kinetic model, which may keep state between its calls): a
 // refit is a chain of small products and solves that keeps about one core
 // busy, and one after another they were the tail of the uniqueness ranges'
-// phase (docs/performance.md). The checks, and the first error or panic,
+// phase (docs/performance-history.md). The checks, and the first error or panic,
 // are those of the refits run one after another, in the groups' order.
 func CheckConstraintsWith(d Data, fit *Result, opt Options, co CheckOptions) ([]ConstraintCheck, error) {
 	if co.MaxIter <= 0 {

@@ -53,7 +53,7 @@ type sqpResult struct {
 // the noise lies on the boundary of the allowance, and a quadratic
 // penalty there is a narrow curved valley whose Hessian jumps by the
 // penalty's weight where the penalty switches on; BFGS zigzags across it
-// and its steps shrink to the valley's width (docs/performance.md). SQP
+// and its steps shrink to the valley's width (docs/performance-history.md). SQP
 // follows the boundary through its linearisation instead.
 func minimiseSQP(f constrainedObjective, x0 []float64, o sqpOptions) sqpResult {
 	var sq sqpSearch

@@ -193,7 +193,7 @@ func (a *ahead) aheadResults(r *Result, st *output.Stage) {
 	// phase's start, their 16 flushes, one after another on the same
 	// processors, held both while the figures waited (a flush's system
 	// call keeps its processor until the scheduler's monitor takes it
-	// back, up to 10 ms; docs/performance.md, "Writing after the ranges",
+	// back, up to 10 ms; docs/performance-history.md, "Writing after the ranges",
 	// thirteenth round); once one figure is drawn its processor is free
 	// while the other's is drawn.
 	early := a.pre.Files()

@@ -230,7 +230,7 @@ func BenchmarkResolve2000x3001(b *testing.B) { benchResolve(b, 2000, 3001) }
 
 // BenchmarkResolve2000x3001Unweighted is the same with --weights off (every
 // point alike, as before the noise model), and ...Weighted with --weights
-// noise: the two are compared in docs/performance.md.
+// noise: the two are compared in docs/performance-history.md.
 func BenchmarkResolve2000x3001Unweighted(b *testing.B) { benchResolveWeights(b, 2000, 3001, "off") }
 func BenchmarkResolve2000x3001Weighted(b *testing.B)   { benchResolveWeights(b, 2000, 3001, "noise") }
 
@@ -267,7 +267,7 @@ func BenchmarkParse2000x3001(b *testing.B) {
 // BenchmarkALSBaseline2000x3001 is the practitioner's script: ALS on the
 // full matrix with NNLS solved row by row and column by column (Lawson–
 // Hanson on the data, no compression, no shared Gram matrix), for the
-// speed-up ratio reported in docs/performance.md. It runs a fixed 10
+// speed-up ratio reported in docs/performance-history.md. It runs a fixed 10
 // iterations; divide by 10 for the cost of one.
 func BenchmarkALSBaseline2000x3001(b *testing.B) {
 	dir := b.TempDir()
@@ -387,7 +387,7 @@ type phaseLog struct {
 	// where a run's memory peak falls.
 	hwm []float64
 	// faults are the process's minor page faults at the start of each
-	// phase: memory touched for the first time (docs/performance.md,
+	// phase: memory touched for the first time (docs/performance-history.md,
 	// Machine), about 3.5 ms per MB (256 faults) on this kind of machine.
 	faults []float64
 }

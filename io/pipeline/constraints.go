@@ -653,7 +653,7 @@ func resolvedCheckLOF(r *Result) float64 {
 // stuck (an assumption: a constrained fit reached from the freer one more
 // than 1 % below it would need the freer refit stopped in a local
 // minimum, which its extra freedom makes rare). Those restarts were about
-// two thirds of the checks' time on the benchmarks (docs/performance.md).
+// two thirds of the checks' time on the benchmarks (docs/performance-history.md).
 func restartCanMatter(r *Result) func(mcr.ConstraintCheck) bool {
 	return func(c mcr.ConstraintCheck) bool {
 		return riseBeyondPinned(r, c) || c.Without < 0.99*resolvedCheckLOF(r)
@@ -662,7 +662,7 @@ func restartCanMatter(r *Result) func(mcr.ConstraintCheck) bool {
 
 // maxBandsComponents is the most components whose ranges are searched by
 // default: 6 take about 1.1–1.4 s CPU with the noise allowance on
-// 2000 × 3001 (mcr.BenchmarkFeasibleBands, docs/performance.md).
+// 2000 × 3001 (mcr.BenchmarkFeasibleBands, docs/performance-history.md).
 const maxBandsComponents = 6
 
 // bandsCostLimit bounds (n + m)·k³, the work of one range search in units of

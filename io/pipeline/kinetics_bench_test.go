@@ -24,7 +24,7 @@ import (
 // parse), and checks the reported rate constants against the truth (3 %
 // and 4 standard errors, as TestTwoSubsystemsHardModel does at a small
 // size; see checkSubsystemsAtScale for when the data cannot tell their
-// order). Timings belong here and in docs/performance.md, never in a test.
+// order). Timings belong here and in docs/performance-history.md, never in a test.
 func BenchmarkHardModelSubsystems(b *testing.B) {
 	c := newSubsystems(2000, 3001, 5000)
 	dir := b.TempDir()
