@@ -17,11 +17,17 @@ type Summary struct {
 	ExplainedVariancePercent float64 `json:"explained_variance_percent"`
 	NoiseLackOfFitPercent    float64 `json:"noise_lack_of_fit_percent"`
 	// ResidualToNoise is √(χ²/ν) of the fit at the observed points
-	// (ν = observed − k(n + m − k)), with the noise weights, or without
-	// them every point weighted 1/σ² (lack of fit over the lack of fit of
-	// noise alone): 1.0 means the model fits to the noise; 0 when no noise
-	// level is known.
+	// (ν = observed − k(n + m − k), or noise_degrees_of_freedom), with
+	// the noise weights, or without them every point weighted 1/σ² (lack
+	// of fit over the lack of fit of noise alone): 1.0 means the model
+	// fits to the noise; 0 when no noise level is known.
 	ResidualToNoise float64 `json:"residual_to_noise"`
+	// NoiseDegreesOfFreedom is ν when it is not that plain count: in
+	// reactions mode from single beams every difference spectrum holds
+	// the reference's own noise, one pattern the profiles mostly absorb,
+	// and ν counts only what of it stays (docs/measurement.md §2). Absent
+	// otherwise.
+	NoiseDegreesOfFreedom float64 `json:"noise_degrees_of_freedom,omitempty"`
 	// NoiseWeights says how points were weighted: "noise" (1/σ² from the
 	// noise model, row × column) or "off".
 	NoiseWeights string `json:"noise_weights"`

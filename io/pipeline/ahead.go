@@ -414,7 +414,14 @@ func (a *ahead) aheadFit(r *Result) {
 	rtn, _ := residualToNoise(r)
 	sum := &output.Summary{Axis: r.AxisName, NoiseSigma: round(r.NoiseSigma), NoiseLackOfFitPercent: round(r.NoiseLOF),
 		LackOfFitPercent: round(r.LackOfFit), Iterations: r.ALS.Iterations, Converged: r.ALS.Converged,
-		ResidualToNoise: round(rtn), NoiseWeights: "off"}
+		ResidualToNoise: round(rtn), NoiseWeights: "off", NoiseDegreesOfFreedom: round(r.ReferenceNoiseDOF())}
+	// The caption's plain count of degrees of freedom, as MakeSummary
+	// gives its terms.
+	sum.Spectra, sum.Points = r.D.Dims()
+	sum.Components = r.Components
+	if r.Blind != nil {
+		sum.BlindPoints = r.Blind.Count
+	}
 	if weighted(r) {
 		sum.NoiseWeights = "noise" // as MakeSummary says it
 	}

@@ -1859,10 +1859,13 @@ func (kn *Kinetics) kList(k []float64) string {
 
 // dataFitToNoise is the data fit's residual standard deviation over the
 // noise: Sigma itself when the fit was weighted (its units are the noise),
-// else over the noise the rank step estimated. 0 when unknown.
+// else over the noise the rank step estimated. 0 when unknown. In reactions
+// mode the model's extents absorb the reference's common noise much as the
+// resolution's do, so the weighted figure is measured against the share of
+// the noise the resolution leaves (referenceDOF), as residual_to_noise is.
 func dataFitToNoise(r *Result, f *kinetics.FitResult) float64 {
 	if f.Weighted && r.Weights != nil { // weights of ones and zeros (set-aside rows only) keep the data's units
-		return f.Sigma
+		return f.Sigma * referenceScale(r)
 	}
 	if r.Rank == nil || !(r.Rank.Sigma > 0) {
 		return 0

@@ -113,6 +113,11 @@ type Result struct {
 	PlainRSS  float64
 	Explained float64
 	NoiseLOF  float64 // lack of fit % that noise alone would give
+	// NoiseDOF is the ν of ResidualToNoise and NoiseLOF: the χ² noise
+	// alone leaves after this model (observed − k(n + m − k), less what
+	// the profiles absorb of a reference's common noise: referenceDOF); 0
+	// without noise weights. ReferenceShift is referenceDOF's part of it.
+	NoiseDOF, ReferenceShift float64
 	// DataSS is ‖D‖² at the observed points, unweighted, of the data as
 	// assembled, before a fitted baseline is taken out of D: the lack of
 	// fit's denominator, so that the figure does not move with the split

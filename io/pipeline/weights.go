@@ -156,7 +156,8 @@ func alsData(r *Result, k int) mcr.Data {
 // fitFigures computes, at the observed points, the lack of fit (as before,
 // unweighted, against the data as given: 100 ‖D − C Sᵀ − B Pᵀ‖/‖D‖), the
 // explained variance, the residual relative to the noise (√(χ²/ν)) and the
-// lack of fit the noise alone would give.
+// lack of fit the noise alone would give, both against ν, the χ² noise alone
+// leaves after this model.
 func fitFigures(r *Result, res *mcr.Result) {
 	n, m := r.D.Dims()
 	k := r.Components
@@ -183,8 +184,16 @@ func fitFigures(r *Result, res *mcr.Result) {
 		return
 	}
 	if row != nil {
-		r.ResidualToNoise = fit.ResidualToNoise(n, m, k)
-		r.NoiseLOF = 100 * math.Sqrt(fit.NoiseSS*dof/float64(fit.Observed)/fit.DataSS)
+		// What noise alone leaves after this model, with the reference's
+		// common pattern counted as one (referenceDOF).
+		r.ReferenceShift = referenceDOF(r, res.C, res.S)
+		nu := dof + r.ReferenceShift
+		if !(nu > 0) {
+			nu, r.ReferenceShift = dof, 0
+		}
+		r.NoiseDOF = nu
+		r.ResidualToNoise = math.Sqrt(fit.WeightedSS / nu)
+		r.NoiseLOF = 100 * math.Sqrt(fit.NoiseSS*nu/float64(fit.Observed)/fit.DataSS)
 	} else if r.Rank.Sigma > 0 {
 		r.NoiseLOF = 100 * math.Sqrt(r.Rank.Sigma*r.Rank.Sigma*dof/fit.DataSS)
 	}

@@ -43,6 +43,7 @@ func MakeSummary(r *Result) *Summary {
 		NoiseSigma:               round(r.NoiseSigma),
 		NoiseSource:              r.NoiseSource,
 		ResidualToNoise:          round(rtn),
+		NoiseDegreesOfFreedom:    round(r.ReferenceNoiseDOF()),
 		NoiseWeights:             "off",
 		NoiseEdge:                round(r.Rank.NoiseEdge),
 		RankReason:               r.Rank.Reason,
@@ -234,7 +235,7 @@ func rankTable(rk *svd.RankReport) output.Table {
 // overestimated (or the model fits the noise).
 func residualToNoise(r *Result) (float64, bool) {
 	if r.ResidualToNoise > 0 {
-		return r.ResidualToNoise, true // the noise-weighted √(χ²/ν)
+		return r.ResidualToNoise, true // the noise-weighted √(χ²/ν), ν = NoiseDOF
 	}
 	if r.NoiseLOF <= 0 {
 		return 0, false

@@ -66,7 +66,8 @@ func figureJobs(f *Folder) []figureJob {
 			Kinetics: f.Kinetics, AsRun: tu, Summary: &Summary{ComponentNames: s.ComponentNames, Mode: s.Mode, Closure: s.Closure, Kinetics: s.Kinetics}}},
 		figureJob{id: "fig-iterations", build: iterationsFigure, view: &Folder{Iterations: f.Iterations,
 			Summary: &Summary{NoiseLackOfFitPercent: s.NoiseLackOfFitPercent, Converged: s.Converged, Iterations: s.Iterations, LackOfFitPercent: s.LackOfFitPercent,
-				ResidualToNoise: s.ResidualToNoise, NoiseWeights: s.NoiseWeights}}})
+				ResidualToNoise: s.ResidualToNoise, NoiseWeights: s.NoiseWeights, NoiseDegreesOfFreedom: s.NoiseDegreesOfFreedom,
+				Spectra: s.Spectra, Points: s.Points, Components: s.Components, BlindPoints: s.BlindPoints}}})
 	if f.Vapour != nil {
 		jobs = append(jobs, figureJob{id: "fig-vapour", build: vapourFigure, view: &Folder{Vapour: f.Vapour, AsRun: tu}})
 	}
@@ -1158,10 +1159,27 @@ func iterationsLevel(s *Summary, last float64) (float64, string) {
 		nl := last / s.ResidualToNoise
 		return nl, fmt.Sprintf("The curve is the lack of fit the resolution minimises, each point weighted by 1/σ² "+
 			"of the noise model: %s %% at the end; the dashed line (%s %%) is where it would fit to the noise, "+
-			"%s times lower (the residual to noise). Unweighted, the lack of fit is %s %% and noise alone would leave %s %%.",
-			trimFloat(last, 4), trimFloat(nl, 3), trimFloat(s.ResidualToNoise, 3), trimFloat(s.LackOfFitPercent, 4), trimFloat(s.NoiseLackOfFitPercent, 3))
+			"%s times lower (the residual to noise). Unweighted, the lack of fit is %s %% and noise alone would leave %s %%.%s",
+			trimFloat(last, 4), trimFloat(nl, 3), trimFloat(s.ResidualToNoise, 3), trimFloat(s.LackOfFitPercent, 4), trimFloat(s.NoiseLackOfFitPercent, 3),
+			referenceNoiseWords(s))
 	}
 	return s.NoiseLackOfFitPercent, fmt.Sprintf("It ends at %s %% lack of fit. The dashed line is what noise alone would leave.", trimFloat(last, 4))
+}
+
+// referenceNoiseWords says, when the summary has noise_degrees_of_freedom,
+// that noise alone is counted after the model with the reference's noise as
+// the one pattern it is; "" otherwise. The plain count is observed points −
+// k(n + m − k) (common practice for a rank-k bilinear fit).
+func referenceNoiseWords(s *Summary) string {
+	nu := s.NoiseDegreesOfFreedom
+	if !(nu > 0) {
+		return ""
+	}
+	k := s.Components
+	plain := s.Spectra*s.Points - s.BlindPoints - k*(s.Spectra+s.Points-k)
+	return fmt.Sprintf(" Noise alone is what the noise model leaves after this model: every difference spectrum holds "+
+		"the reference spectrum's own noise, one pattern common to all of them that the fitted profiles mostly absorb, "+
+		"so it leaves a χ² of %s rather than the %d of independent noise at every point.", trimFloat(nu, 5), plain)
 }
 
 // residualSpectrumFigure: root-mean-square residual per point over the

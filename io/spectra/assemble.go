@@ -86,6 +86,13 @@ type Assembled struct {
 	Blind *Blind
 	// Noise says how the noise was estimated.
 	Noise Noise
+	// ReferenceVariance is the absorbance variance of the reference state
+	// per channel, (σ_I/I_ref)²/(n_ref ln²10), the share of every
+	// difference spectrum's variance that is one fixed pattern common to
+	// all of them (single beams only; nil otherwise; +Inf where no beam
+	// of the reference is observed). The fit's noise-alone figures need it
+	// apart: a resolution absorbs most of a common pattern.
+	ReferenceVariance []float64
 	// Finite is true when every value of Absolute and Difference is known
 	// to be finite (single beams: checked as the absorbances were formed);
 	// false says nothing either way.

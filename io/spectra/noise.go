@@ -1487,6 +1487,10 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	out.Blind = blind
 	out.Noise = Noise{Level: median(sigI), Unit: "single-beam units", Source: src, Channel: sigI, Quantum: q}
 	refVar := referenceVariance(sigI, ref, nref)
+	out.ReferenceVariance = make([]float64, m)
+	for j, v := range refVar {
+		out.ReferenceVariance[j] = v / (math.Ln10 * math.Ln10)
+	}
 	v := newAbsorbanceVariances(s.Values, sigI, refVar, opt.Blank != nil)
 	placeAbsorbances(s.Values, opt, out)
 	fitAbsorbanceWeights(s.Values, v, blind, opt.Blank != nil, out)
