@@ -442,7 +442,7 @@ func concentrated(u []float64) ([]int, bool) {
 		if acc >= outlierEnergy*tot {
 			rows := append([]int(nil), idx[:c+1]...)
 			sort.Ints(rows)
-			if smoothRest(u, rows) {
+			if contiguous(rows) && smoothRest(u, rows) {
 				return nil, false
 			}
 			return rows, true
@@ -537,6 +537,19 @@ func derivShareWeighted(v []float64, chem [][]float64, col []float64) float64 {
 	}
 	orthonormalize(x)
 	return spanShare(v, x)
+}
+
+// contiguous reports whether the sorted rows follow one another in time, a
+// spectrum skipped at most between two (one noisier than the profile): a
+// profile's fast part (a species consumed within two spectra) is one run of
+// them, while odd spectra (two bubbles, a gas puff) fall where they may.
+func contiguous(rows []int) bool {
+	for k := 1; k < len(rows); k++ {
+		if rows[k]-rows[k-1] > 2 {
+			return false
+		}
+	}
+	return true
 }
 
 // smoothRest reports whether u outside the given rows (sorted) still runs smoothly
