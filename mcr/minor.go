@@ -98,8 +98,12 @@ type MinorTest struct {
 	// spectra; PeakRow the row of its maximum.
 	EarlyShare float64
 	PeakRow    int
-	Species    bool
-	Verdict    string // why, in words
+	// EndLevel is the new profile's mean over the last tenth of the spectra in units
+	// of its largest value: near 0 when it comes back (a transient), near 1 when what
+	// changed stays (a step).
+	EndLevel float64
+	Species  bool
+	Verdict  string // why, in words
 	// Rule and Finding split Verdict for a report of several factors: Rule is the
 	// reasoning of the outcome with the test's limits and the noise edges, which every
 	// factor refitted from one fit shares, so that it can be said once for all with the
@@ -212,6 +216,7 @@ func judgeMinor(d Data, fit, without, with *Result, opt Options, alpha float64) 
 	t.InBandShare = inBandShare(sNew, with.S, k)
 	t.Spectra, _ = concentratedRows(cNew)
 	t.EarlyShare, t.PeakRow = earlyShare(cNew)
+	t.EndLevel = endLevel(cNew, t.PeakRow)
 	t.verdict(alpha)
 	return t
 }
@@ -598,6 +603,21 @@ func lag1(x []float64) float64 {
 		return 0
 	}
 	return num / den
+}
+
+// endLevel is the mean of c over its last tenth of rows (at least one) over c[peak],
+// its largest value; 0 when that is not positive.
+func endLevel(c []float64, peak int) float64 {
+	n := len(c)
+	if n == 0 || peak < 0 || peak >= n || !(c[peak] > 0) {
+		return 0
+	}
+	last := max(1, n/10)
+	sum := 0.0
+	for _, v := range c[n-last:] {
+		sum += v
+	}
+	return sum / float64(last) / c[peak]
 }
 
 // earlyShare returns the share of c's energy in the first fifth of its rows and the row

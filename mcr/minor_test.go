@@ -424,3 +424,29 @@ func TestTracyWidomUpperAsMpmath(t *testing.T) {
 		t.Fatalf("only %d reference tails below 1e-16", tiny)
 	}
 }
+
+// endLevel is its definition: the mean of the last tenth of the rows over the value at
+// the peak. A first-order approach to 1 (1 − e^{−t/τ}, 50 rows, τ = 5 rows) ends within
+// e^{−9} of its peak; a pulse t e^{−t/τ} (largest at t = τ, value τ/e) ends near 0.
+func TestEndLevelIsItsDefinition(t *testing.T) {
+	step, pulse := make([]float64, 50), make([]float64, 50)
+	for i := range step {
+		x := float64(i)
+		step[i] = 1 - math.Exp(-x/5)
+		pulse[i] = x * math.Exp(-x/5)
+	}
+	if got := endLevel(step, 49); math.Abs(got-1) > math.Exp(-9) {
+		t.Errorf("step: end level %.6f, want 1 within e^-9", got)
+	}
+	var want float64
+	for _, v := range pulse[45:] {
+		want += v / 5
+	}
+	want /= pulse[5]
+	if got := endLevel(pulse, 5); math.Abs(got-want) > 1e-12 || got > 0.02 {
+		t.Errorf("pulse: end level %.6g, want %.6g (about 0.01)", got, want)
+	}
+	if got := endLevel([]float64{0, 0, 0}, 0); got != 0 {
+		t.Errorf("all zero: %g, want 0", got)
+	}
+}

@@ -32,25 +32,29 @@ type Summary struct {
 	// noise model, row × column) or "off".
 	NoiseWeights string `json:"noise_weights"`
 	// BlindPoints counts the points with no usable light (left out).
-	BlindPoints      int             `json:"blind_points"`
-	Iterations       int             `json:"iterations"`
-	Converged        bool            `json:"converged"`
-	NoiseSigma       float64         `json:"noise_sigma"`
-	NoiseSource      string          `json:"noise_source"`
-	NoiseEdge        float64         `json:"noise_edge"`
-	RankReason       string          `json:"rank_reason"`
-	RankCriteria     []CriterionJSON `json:"rank_criteria"`
-	DifferenceRank   *int            `json:"difference_rank_estimate,omitempty"`
-	SVDMethod        string          `json:"svd_method"`
-	Compressed       bool            `json:"compressed_iterations"`
-	InitialEstimate  string          `json:"initial_estimate"`
-	Closure          string          `json:"closure"`
-	Spectra          int             `json:"spectra"`
-	Points           int             `json:"points"`
-	Axis             string          `json:"axis"`
-	Experiments      []string        `json:"experiments"`
-	ComponentNames   []string        `json:"component_names"`
-	UniquenessRanges []BandJSON      `json:"uniqueness_ranges"`
+	BlindPoints    int             `json:"blind_points"`
+	Iterations     int             `json:"iterations"`
+	Converged      bool            `json:"converged"`
+	NoiseSigma     float64         `json:"noise_sigma"`
+	NoiseSource    string          `json:"noise_source"`
+	NoiseEdge      float64         `json:"noise_edge"`
+	RankReason     string          `json:"rank_reason"`
+	RankCriteria   []CriterionJSON `json:"rank_criteria"`
+	DifferenceRank *int            `json:"difference_rank_estimate,omitempty"`
+	// DifferenceRankReason says how difference_rank_estimate was counted, as
+	// rank_reason does rank_estimate's, and why each factor above the noise
+	// that it does not count is left out.
+	DifferenceRankReason string     `json:"difference_rank_reason,omitempty"`
+	SVDMethod            string     `json:"svd_method"`
+	Compressed           bool       `json:"compressed_iterations"`
+	InitialEstimate      string     `json:"initial_estimate"`
+	Closure              string     `json:"closure"`
+	Spectra              int        `json:"spectra"`
+	Points               int        `json:"points"`
+	Axis                 string     `json:"axis"`
+	Experiments          []string   `json:"experiments"`
+	ComponentNames       []string   `json:"component_names"`
+	UniquenessRanges     []BandJSON `json:"uniqueness_ranges"`
 	// FeasibleBands is uniqueness_ranges under its old name, written
 	// until 1.0 for scripts that read it (CONTRACT.md).
 	FeasibleBands []BandJSON    `json:"feasible_bands"`

@@ -205,3 +205,26 @@ func TestRankCapIsSaid(t *testing.T) {
 		t.Errorf("reason %q: want σ named as the noise-weighted unit", r.Rank.Reason)
 	}
 }
+
+// A transient is a change that comes back (common practice: a mixing or settling
+// transient dies away). A refit profile concentrated early that stays near its largest
+// value to the end is a lasting change, an addition or a step, and is not called a
+// transient; one that falls back to 5 % of it is.
+func TestTransientComesBack(t *testing.T) {
+	r := &Result{Experiments: []*Experiment{{Rows: 80}}, ExpOfRow: make([]int, 80)}
+	for i := 0; i < 80; i++ {
+		r.Times = append(r.Times, 30*float64(i))
+	}
+	got := minorShape(r, &mcr.MinorTest{PeakRow: 10, EarlyShare: 0.51, EndLevel: 0.9})
+	if !strings.Contains(got, "does not come back") || !strings.Contains(got, "not a transient") {
+		t.Errorf("early, still at 90 %% at the end: %q, want a lasting change, not a transient", got)
+	}
+	got = minorShape(r, &mcr.MinorTest{PeakRow: 10, EarlyShare: 0.51, EndLevel: 0.05})
+	if !strings.Contains(got, "settling transient") {
+		t.Errorf("early, back to 5 %% at the end: %q, want a transient", got)
+	}
+	got = minorShape(r, &mcr.MinorTest{PeakRow: 30, EarlyShare: 0.1, EndLevel: 0.8})
+	if strings.Contains(got, "(a transient)") || !strings.Contains(got, "not a transient") || !strings.Contains(got, "t = 900 s") {
+		t.Errorf("largest at row 31, 80 %% at the end: %q, want no transient, largest at t = 900 s", got)
+	}
+}

@@ -226,6 +226,11 @@ func minorLooks(r *Result, mt *mcr.MinorTest) string {
 	return fmt.Sprintf("as one more component its profile is %s; of what its spectrum adds to the others, %.0f %% is their derivative (a band shift when large) and %.0f %% lies under their bands", minorShape(r, mt), 100*mt.ShiftShare, 100*mt.InBandShare)
 }
 
+// comesBack is the end level (mcr.MinorTest.EndLevel) at or below which a profile
+// that rose has come back: a quarter of its largest. Above it the change lasts, and
+// a profile concentrated early is a step (an addition, a dilution), not a transient.
+const comesBack = 0.25
+
 // minorShape says where the refitted component's profile lives in time. In a stack
 // its largest value is placed within its experiment, whose times start again at 0 and
 // whose end is not the stack's.
@@ -235,13 +240,20 @@ func minorShape(r *Result, mt *mcr.MinorTest) string {
 		first, n, in = r.Experiments[e].FirstRow, r.Experiments[e].Rows, fmt.Sprintf(" of experiment %d", e+1)
 	}
 	peak := mt.PeakRow - first
+	// In a stack the profile's last rows are the last experiment's: its end
+	// says nothing of the others'.
+	stays := mt.EndLevel > comesBack && in == ""
 	switch {
+	case mt.EarlyShare >= 0.5 && stays:
+		return fmt.Sprintf("concentrated early (%.0f %% of its profile in the first fifth of the spectra) but still at %.0f %% of its largest at the end: it does not come back, so a lasting change (such as an addition or a step), not a transient", 100*mt.EarlyShare, 100*mt.EndLevel)
 	case mt.EarlyShare >= 0.5:
 		return fmt.Sprintf("concentrated early (%.0f %% of its profile in the first fifth of the spectra: a mixing or settling transient)", 100*mt.EarlyShare)
 	case peak >= n-max(1, n/10) && in == "":
 		return "growing to the end of the run (a slow product or drift)"
 	case peak >= n-max(1, n/10):
 		return "growing to the end" + in + ", where it is largest (a slow product or drift)"
+	case peak > 0 && stays:
+		return fmt.Sprintf("largest at t = %s s and still at %.0f %% of that at the end: it does not come back, so a lasting change, not a transient", output.Float(r.Times[mt.PeakRow]), 100*mt.EndLevel)
 	case peak > 0:
 		return fmt.Sprintf("rising then falling, largest at t = %s s%s (a transient)", output.Float(r.Times[mt.PeakRow]), strings.Replace(in, " of ", " in ", 1))
 	case in != "" && first > 0:

@@ -555,3 +555,105 @@ func TestMinorAdviceSaysWhenRefitsMeet(t *testing.T) {
 		}
 	}
 }
+
+// withReagentStep makes s (makeBateman's A → B, first order from t = 60 s: Bateman 1910)
+// the run of a stirred cell into which a reagent R is added as the reaction starts
+// (construction of the test): every amount after t = 60 s is diluted by f = 1/1.15 and R
+// is present at 0.4 f, a step that stays. In differences from the first spectra, ΔA(t)
+// = [(f − 1) s_A + 0.4 f s_R] + f (1 − a)(s_B − s_A): the step and the reaction, two
+// independent changes. It returns their spectra (m × 2) and amounts (n × 2).
+func withReagentStep(s *synth) (spectra, amounts *mat.Dense) {
+	const f = 1 / 1.15
+	n, m := len(s.times), len(s.axis)
+	r := add(gaussian(s.axis, 1550, 12, 0.35), gaussian(s.axis, 1250, 16, 0.25))
+	sp := mat.NewDense(m, 3, nil)
+	spectra = mat.NewDense(m, 2, nil)
+	for j := 0; j < m; j++ {
+		a, b := s.spectra.At(j, 0), s.spectra.At(j, 1)
+		sp.SetRow(j, []float64{a, b, r[j]})
+		spectra.SetRow(j, []float64{(f-1)*a + 0.4*f*r[j], b - a})
+	}
+	pr := mat.NewDense(n, 3, nil)
+	amounts = mat.NewDense(n, 2, nil)
+	for i, tm := range s.times {
+		a := s.profiles.At(i, 0)
+		if tm <= 60 {
+			pr.SetRow(i, []float64{a, 1 - a, 0})
+			continue
+		}
+		pr.SetRow(i, []float64{f * a, f * (1 - a), 0.4 * f})
+		amounts.SetRow(i, []float64{1, f * (1 - a)})
+	}
+	s.spectra, s.profiles = sp, pr
+	return spectra, amounts
+}
+
+// clearButSmall checks that the second factor of rep's table stands at least 100 times
+// above the noise edge with less than 2 % of the first's signal: the case of a second
+// change whose profile runs nearly parallel to the first's, which the size rule set
+// aside (svd.MinorEnergy).
+func clearButSmall(t *testing.T, what string, rep *svd.RankReport) {
+	t.Helper()
+	if rep == nil || len(rep.Table) < 2 {
+		t.Fatalf("%s: no rank table", what)
+	}
+	s1, s2 := rep.Table[0].SingularValue, rep.Table[1].SingularValue
+	t.Logf("%s: factor 2 at %.0f × the noise edge, %.2g %% of factor 1's signal", what, s2/rep.NoiseEdge, 100*s2*s2/(s1*s1))
+	if s2 < 100*rep.NoiseEdge || s2*s2 >= svd.MinorEnergy*s1*s1 {
+		t.Fatalf("%s: test data: factor 2 is not the case (clear of the noise, under 2 %% of factor 1)", what)
+	}
+}
+
+// A reagent added with dilution as A → B starts (withReagentStep), noise constant in
+// counts (I = I₀·10^(−A) + N(0, σ²)): the differences hold two independent changes, the step and the reaction, far
+// above the noise though the step carries under 2 % of the reaction's signal. Reactions
+// mode must resolve two, whose spectra lie in the span of the true step's and
+// reaction's (as TestMinorSpeciesInDifferences measures it), and set no spectrum aside;
+// species mode must give the differences rank 2 and say why in summary.json.
+func TestReagentStepIsASecondChange(t *testing.T) {
+	s := makeBateman(t, 6e-3, 2e-3, 0, 1, 2)
+	truth, amounts := withReagentStep(s)
+	// 4 counts of noise on 2·10⁴ (the trial's single beams had 4 on 5·10⁴): with 20,
+	// as the other cases here, the step's factor stands 31 times above the edge,
+	// where its size beside the reaction still sets it aside.
+	countsNoise(s, 4, 9, nil)
+	r := runDifferenceCase(t, s)
+	logMinor(t, r)
+	clearButSmall(t, "differences", r.Rank)
+	if r.Mode != mcr.Reactions || r.Rank.Estimate != 2 || r.Components != 2 {
+		t.Errorf("mode %s, rank %d, %d components; want 2 reactions (the step and A → B)", r.Mode, r.Rank.Estimate, r.Components)
+	}
+	if len(r.SetAside) != 0 {
+		t.Errorf("%d spectra set aside, want none (every spectrum follows the two changes)", len(r.SetAside))
+	}
+	if r.Components == 2 {
+		var g, gi, dx, oracle mat.Dense
+		g.Mul(amounts.T(), amounts)
+		if err := gi.Inverse(&g); err != nil {
+			t.Fatal(err)
+		}
+		dx.Mul(r.D.T(), amounts)
+		oracle.Mul(&dx, &gi)
+		var rels, limits []float64
+		for j := 0; j < 2; j++ {
+			rels = append(rels, outsideSpan(truth, mat.Col(nil, j, r.ALS.S)))
+			limits = append(limits, outsideSpan(truth, mat.Col(nil, j, &oracle)))
+		}
+		slices.Sort(rels)
+		slices.Sort(limits)
+		t.Logf("reaction spectra %.4f outside the span of the true ones; from the true amounts %.4f", rels, limits)
+		for j := range rels {
+			if rels[j] > max(0.02, limits[j]+0.015) {
+				t.Errorf("a reaction spectrum lies %.3f outside the span of the true ones, want ≤ %.3f", rels[j], max(0.02, limits[j]+0.015))
+			}
+		}
+	}
+	rs, _ := runNuisanceCase(t, s)
+	clearButSmall(t, "species mode's differences", rs.DiffRank)
+	if rs.DiffRank.Estimate != 2 {
+		t.Errorf("species mode: rank of the differences %d, want 2", rs.DiffRank.Estimate)
+	}
+	if sum := MakeSummary(rs); sum.DifferenceRank == nil || !strings.Contains(sum.DifferenceRankReason, "estimate 2") {
+		t.Errorf("summary: difference_rank_reason %q, want the count's reason", sum.DifferenceRankReason)
+	}
+}

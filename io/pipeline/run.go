@@ -710,6 +710,22 @@ func copiedDifferenceRank(r *Result, s *Settings, diffRows []*mat.Dense, rf, f *
 	}
 }
 
+// differenceRankReason is the difference rank's reason, with each factor above the
+// noise it leaves out and why: the advice explains only the main rank's.
+func differenceRankReason(r *Result) string {
+	var b strings.Builder
+	b.WriteString(r.DiffRank.Reason)
+	if cr := r.DiffChemical; cr != nil {
+		for _, nf := range cr.Nuisance {
+			fmt.Fprintf(&b, " Factor %d (%.2g %% of the signal) is not counted: %s.", nf.Factor, nf.SharePercent, nf.Looks)
+		}
+		if cr.NoiseLike > 0 {
+			fmt.Fprintf(&b, " %d factor(s) above the white-noise level have a time vector as white as noise (noise correlated along the axis), not counted.", cr.NoiseLike)
+		}
+	}
+	return b.String()
+}
+
 // diffAdvice says what the difference rank adds to the absorbance's rank.
 func diffAdvice(r *Result, rank *svd.RankReport) {
 	if r.DiffRank == nil {

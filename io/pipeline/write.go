@@ -93,6 +93,7 @@ func MakeSummary(r *Result) *Summary {
 	if r.DiffRank != nil {
 		v := r.DiffRank.Estimate
 		s.DifferenceRank = &v
+		s.DifferenceRankReason = differenceRankReason(r)
 	}
 	if r.Kinetics != nil {
 		s.Kinetics = kineticsSummary(r)

@@ -63,7 +63,7 @@ var knownKeys = map[string]bool{}
 func init() {
 	for _, k := range []string{"tool", "rank_estimate", "components", "mode", "mode_reason", "lack_of_fit_percent",
 		"explained_variance_percent", "noise_lack_of_fit_percent", "iterations", "converged", "noise_sigma",
-		"noise_source", "noise_edge", "rank_reason", "rank_criteria", "difference_rank_estimate", "svd_method",
+		"noise_source", "noise_edge", "rank_reason", "rank_criteria", "difference_rank_estimate", "difference_rank_reason", "svd_method",
 		"compressed_iterations", "initial_estimate", "closure", "spectra", "points", "axis", "experiments",
 		"component_names", "uniqueness_ranges", "feasible_bands", "feasible_bands_note", "kinetics", "kinetics_not_done", "advice", "notes", "warnings", "constraints", "constraint_checks"} {
 		knownKeys[k] = true

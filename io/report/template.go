@@ -68,7 +68,7 @@ nav a { color: #0072b2; margin-right: .8rem; }
 <table>
 <tr><th>mode</th><td>{{.S.Mode}}{{if .S.ModeReason}} <span class="small">— {{.S.ModeReason}}</span>{{end}}</td></tr>
 <tr><th>rank estimate</th><td>{{.S.RankEstimate}}{{if .S.RankReason}} <span class="small">— {{.S.RankReason}}</span>{{end}}</td></tr>
-{{if .S.DifferenceRank}}<tr><th>rank of the difference spectra</th><td>{{deref .S.DifferenceRank}}</td></tr>{{end}}
+{{if .S.DifferenceRank}}<tr><th>rank of the difference spectra</th><td>{{deref .S.DifferenceRank}}{{if .S.DifferenceRankReason}} <span class="small">— {{.S.DifferenceRankReason}}</span>{{end}}</td></tr>{{end}}
 {{if .S.Baseline}}<tr><th>baseline</th><td>{{.S.Baseline}}{{if .S.BaselineReason}} <span class="small">— {{.S.BaselineReason}}</span>{{end}}</td></tr>{{end}}
 <tr><th>components resolved</th><td>{{.S.Components}}{{if .S.ComponentNames}} ({{range $i, $n := .S.ComponentNames}}{{if $i}}, {{end}}{{$n}}{{end}}){{end}}</td></tr>
 <tr><th>lack of fit</th><td class="n">{{num .S.LackOfFitPercent}} %{{if gt .S.NoiseLackOfFitPercent 0.0}} <span class="small">(noise alone: {{num .S.NoiseLackOfFitPercent}} %)</span>{{end}}</td></tr>
