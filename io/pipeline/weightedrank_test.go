@@ -11,7 +11,7 @@ import (
 
 // TestWeightedRankSeesThroughSolventBand: A → B → C (consecutive first-order steps,
 // Bateman 1910) with a weak intermediate (B's bands at 0.3 of their height), single beams
-// with detector noise constant in counts (σ_I = 4) and a solvent band of absorbance 2
+// with detector noise constant in counts (σ_I = 40) and a solvent band of absorbance 2
 // between 1560 and 1500 cm⁻¹: 1 % of the light gets through there, so the absorbance
 // noise σ_I/(I ln 10) is 100× the rest's (propagation of error, PRIMER §1 and §8). The
 // true counts follow from the definitions: three species give absorbance of rank 3, and
@@ -19,14 +19,17 @@ import (
 // (stoichiometric rank; PRIMER §2); no baseline was added, so the baseline model must be
 // off. With the noise weights the noise edge is compared in units of the noise (σ = 1
 // after scaling) and every count is right; the same files with --weights off, where the
-// noisy band sets the noise seen by the unweighted rank, lose the weak reaction (the
-// difference rank comes out 1 on these data), which shows the test can fail.
+// noisy band sets the noise seen by the unweighted rank, lose the weak intermediate (the
+// absorbance rank comes out 2 on these data), which shows the test can fail. (With σ_I
+// = 4 the unweighted run lost the second reaction only to the size rule, at 1.9 % of the
+// first factor's signal and 900 times its noise edge, which no longer sets aside a
+// factor that far above the noise: svd's clearOfNoise.)
 func TestWeightedRankSeesThroughSolventBand(t *testing.T) {
 	s := makeBateman(t, 3e-3, 1e-3, 0, 3, 3)
 	for j := range s.axis {
 		s.spectra.Set(j, 1, 0.3*s.spectra.At(j, 1))
 	}
-	solventBeams(s, 4, 2, 3)
+	solventBeams(s, 40, 2, 3)
 	series, blank := s.write(t)
 	run := func(weights string) *Result {
 		st := NewSettings()
