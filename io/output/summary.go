@@ -1,6 +1,9 @@
 package output
 
-import "fmt"
+import (
+	"fmt"
+	"math"
+)
 
 // The types of summary.json. Key names are part of the public contract
 // (CONTRACT.md): add keys freely, never rename or remove one. io/pipeline
@@ -28,6 +31,10 @@ type Summary struct {
 	// and ν counts only what of it stays (docs/measurement.md §2). Absent
 	// otherwise.
 	NoiseDegreesOfFreedom float64 `json:"noise_degrees_of_freedom,omitempty"`
+	// ResidualToNoiseLimit is the largest residual_to_noise noise alone
+	// stays under at --alpha (the misfit test of io/pipeline/misfit.go);
+	// 0 when it was not tested.
+	ResidualToNoiseLimit float64 `json:"residual_to_noise_limit,omitempty"`
 	// NoiseWeights says how points were weighted: "noise" (1/σ² from the
 	// noise model, row × column) or "off".
 	NoiseWeights string `json:"noise_weights"`
@@ -127,6 +134,26 @@ func CriterionText(name string, estimate int, atLeast bool) string {
 		return fmt.Sprintf("%s ≥ %d (at most %d counted)", name, estimate, estimate)
 	}
 	return fmt.Sprintf("%s %d", name, estimate)
+}
+
+// FitVerdict says what a residual q times the noise (√(χ²/ν)) means,
+// against limit, the largest q noise alone stays under (0: not tested).
+// The same words whichever fit it is (the resolution, a kinetic fit), so
+// the same ratio never reads as two verdicts. The misfit's own size per
+// point is √(q² − 1) noise standard deviations, since independent misfit
+// and noise add in variance.
+func FitVerdict(q, limit float64) string {
+	switch {
+	case limit > 0 && q <= limit:
+		return fmt.Sprintf("within the noise (noise alone stays under %.3g)", limit)
+	case q <= 1:
+		return "at the noise"
+	}
+	own := math.Sqrt(q*q - 1)
+	if own < 1 {
+		return fmt.Sprintf("a systematic misfit smaller than the noise (%.2g times it per point, as √(q² − 1))", own)
+	}
+	return fmt.Sprintf("a systematic misfit larger than the noise (%.3g times it per point, as √(q² − 1)): the model does not describe the data fully", own)
 }
 
 // BandJSON is one component's uniqueness range: the smallest and largest

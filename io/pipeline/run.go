@@ -147,7 +147,12 @@ type Result struct {
 	orderFactors, orderOutliers int
 	// orderNoise is the correlation along the axis the F-test of --baseline
 	// auto measured (raiseBaselineHeld counts its points the same way).
-	orderNoise       svd.AxisNoise
+	orderNoise svd.AxisNoise
+	// fitDof is ν = observed − k(n + m − k), the fit's degrees of freedom
+	// (fitFigures); misfit the test of the residual against the noise
+	// (checkMisfit), Limit 0 when not tested.
+	fitDof           float64
+	misfit           misfitCheck
 	BaselineReason   string
 	BaselineProfiles *mat.Dense
 	BaselineShapes   *mat.Dense
@@ -1318,7 +1323,7 @@ const rankAdvicePrefix = "absolute absorbance has "
 
 // nameAndWarn names the components by the mode (species_j, reaction_j)
 // and adds the resolution's warnings: ALS's own, the components' (alike
-// spectra or profiles), a lack of fit well above the noise's, and the
+// spectra or profiles), a residual above what the noise alone leaves, and the
 // spectra --pre counts as before the reaction that changed already.
 func nameAndWarn(r *Result, res *mcr.Result) {
 	r.Warnings = append(r.Warnings, res.Warnings...)
@@ -1330,9 +1335,9 @@ func nameAndWarn(r *Result, res *mcr.Result) {
 	for j := 0; j < r.Components; j++ {
 		r.Names = append(r.Names, fmt.Sprintf("%s_%d", prefix, j+1))
 	}
-	if r.NoiseLOF > 0 && r.LackOfFit > 3*r.NoiseLOF && r.LackOfFit > 0.5 {
-		r.Warnings = append(r.Warnings, fmt.Sprintf("lack of fit %.3g %% is well above the %.3g %% noise alone would give: a component may be missing, or a constraint (closure?) does not hold for this data", r.LackOfFit, r.NoiseLOF))
-	}
+	warn, note := misfitWarning(r, res.S)
+	r.Warnings = append(r.Warnings, warn...)
+	r.Notes = append(r.Notes, note...)
 	r.Warnings = append(r.Warnings, preWarnings(r)...)
 }
 

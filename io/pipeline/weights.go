@@ -183,6 +183,7 @@ func fitFigures(r *Result, res *mcr.Result) {
 	if !(dof > 0) || !(fit.DataSS > 0) {
 		return
 	}
+	r.fitDof = dof
 	if row != nil {
 		// What noise alone leaves after this model, with the reference's
 		// common pattern counted as one (referenceDOF).

@@ -44,6 +44,7 @@ func MakeSummary(r *Result) *Summary {
 		NoiseSource:              r.NoiseSource,
 		ResidualToNoise:          round(rtn),
 		NoiseDegreesOfFreedom:    round(r.ReferenceNoiseDOF()),
+		ResidualToNoiseLimit:     round(r.misfit.Limit),
 		NoiseWeights:             "off",
 		NoiseEdge:                round(r.Rank.NoiseEdge),
 		RankReason:               r.Rank.Reason,
