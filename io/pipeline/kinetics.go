@@ -1109,8 +1109,11 @@ func fitKinetics(r *Result, log io.Writer) error {
 	} else {
 		kn.Fits = append(kn.Fits, &KineticFit{Method: "data", Fit: dfit, Spectra: spectra})
 		kn.swapCheck(r, dfit, spectra, dopt, &r.Notes)
-		if ratio := dataFitToNoise(r, dfit); ratio > 2 {
-			dfit.Warnings = append(dfit.Warnings, fmt.Sprintf("the model leaves a residual %.3g times the noise: it does not describe the data (a missing step or species, wrong starting concentrations, drift?); the standard errors include that misfit but the rate constants may be biased", ratio))
+		// The resolution's test and words: the same ratio, the same verdict.
+		// Its limit serves here too: the kinetic fit's ν differs from the
+		// resolution's by k(n − k) − p, a few per cent of it at most.
+		if ratio := dataFitToNoise(r, dfit); ratio >= math.Sqrt2 && ratio > r.misfit.Limit {
+			dfit.Warnings = append(dfit.Warnings, fmt.Sprintf("the model leaves a residual %.3g times the noise: %s (a missing step or species, wrong starting concentrations, drift?); the standard errors include that misfit but the rate constants may be biased", ratio, output.FitVerdict(ratio, r.misfit.Limit)))
 		}
 	}
 	kn.Primary = 0

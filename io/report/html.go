@@ -510,18 +510,21 @@ func rankFinding(s *Summary) string {
 	return fmt.Sprintf("Rank %d, but the criteria disagree (%s): look at the singular values and treat the count with care.", s.RankEstimate, strings.Join(each, ", "))
 }
 
-// fitFinding gives the lack of fit against the one noise alone would give.
+// fitFinding gives the lack of fit and what the fit's residual against the
+// noise (residual_to_noise, the figure the resolution minimises) means, in
+// the words the terminal uses for the same ratio (output.FitVerdict).
 func fitFinding(s *Summary) string {
 	fit := fmt.Sprintf("Lack of fit %s %% (explained variance %s %%)", trimFloat(s.LackOfFitPercent, 4), trimFloat(s.ExplainedVariancePercent, 7))
 	if nl := s.NoiseLackOfFitPercent; nl > 0 {
-		switch r := s.LackOfFitPercent / nl; {
-		case r <= 1.2:
-			return fit + fmt.Sprintf(", the %s %% noise alone would give: the model explains everything but the noise.", trimFloat(nl, 3))
-		case r <= 3:
-			return fit + fmt.Sprintf(", somewhat above the %s %% noise alone would give: small systematic misfit; see the residual map.", trimFloat(nl, 3))
-		default:
-			return fit + fmt.Sprintf(", %s times the %s %% noise alone would give: part of the data is not explained.", trimFloat(r, 2), trimFloat(nl, 3))
-		}
+		fit += fmt.Sprintf(" against the %s %% noise alone would give", trimFloat(nl, 3))
+	}
+	q := s.ResidualToNoise
+	if !(q > 0) {
+		return fit + "."
+	}
+	fit += fmt.Sprintf("; residual %s times the noise: %s", trimFloat(q, 3), output.FitVerdict(q, s.ResidualToNoiseLimit))
+	if q > s.ResidualToNoiseLimit && q > 1 {
+		return fit + "; see the residual map."
 	}
 	return fit + "."
 }
