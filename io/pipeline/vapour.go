@@ -21,10 +21,34 @@ import (
 func checkVapour(r *Result) {
 	v := svd.CheckVapour(r.D, r.Axis, experimentBlocks(r))
 	r.Vapour = &v
+	if note := vapourNotChecked(r, &v); note != "" {
+		r.Notes = append(r.Notes, note)
+	}
 	for q, f := range r.Settings.Vapour {
 		lo, hi := amountRange(r, q)
 		r.Notes = append(r.Notes, fmt.Sprintf("--vapour %s subtracted from every spectrum, its amount fitted on its narrow lines: %.3g to %.3g times the file's spectrum (vapour_subtracted.csv)", f, lo, hi))
 	}
+}
+
+// vapourNotChecked says on the terminal that the check was skipped when the
+// axis holds some of the vapour's lines: a region cut through them leaves
+// them in the data unexamined, and summary.json's not_checked_because alone
+// is easily missed. "" when checked, or when the axis holds none of them
+// (nothing there to check).
+func vapourNotChecked(r *Result, v *svd.VapourCheck) string {
+	if v.Checked || v.Why == "" {
+		return ""
+	}
+	lo, hi, in := math.Inf(1), math.Inf(-1), 0
+	for _, x := range r.Axis {
+		if svd.InVapourRange(x) {
+			lo, hi, in = math.Min(lo, x), math.Max(hi, x), in+1
+		}
+	}
+	if in == 0 {
+		return ""
+	}
+	return fmt.Sprintf("water vapour not checked: %s; the axis holds %d point(s) at %.4g–%.4g cm⁻¹ where the vapour has lines (%s), so a change of the beam path's humidity there would go unnoticed: look for narrow lines in the residual map, or widen --region to cover a whole range", v.Why, in, lo, hi, vapourRangesAll())
 }
 
 // vapourRangesText is the ranges the check examined, "3550–3950 cm⁻¹" or
