@@ -467,6 +467,7 @@ func ApplyChemical(rep *RankReport, cr *ChemicalRank) {
 			rep.capWarned = false
 		}
 	}
+	accountDisagreement(rep, cr)
 	if cr.Unexamined > 0 && !cr.UnexaminedMinor && !rep.capWarned {
 		// The classification did not account for these: the count may be higher.
 		what := "with no counted component to compare them with"
@@ -474,6 +475,54 @@ func ApplyChemical(rep *RankReport, cr *ChemicalRank) {
 			what = fmt.Sprintf("and the largest of them carries %.2g %% of the signal of the smallest counted component, more than the %.0f %% below which a smooth factor is minor", 100*cr.UnexaminedShare, 100*minorEnergy)
 		}
 		rep.warn("%d factor(s) above the noise threshold lie beyond the %d examined and were not classified, %s: the count may be higher, or σ too small", cr.Unexamined, cr.Examined, what)
+	}
+}
+
+// accountDisagreement revisits the warning that the criteria disagree
+// (disagreement), which blames the noise level: the criteria count every
+// factor above the noise, chemistry or not, so when the classification named
+// each factor they count beyond the estimate (an outlier spectrum, a
+// baseline, the reference's noise …) the difference is accounted for and the
+// rank line says so; the warning goes. When it named only some, the warning
+// stays but says which.
+func accountDisagreement(rep *RankReport, cr *ChemicalRank) {
+	at := -1
+	for i, w := range rep.Warnings {
+		if strings.HasPrefix(w, disagreePrefix) {
+			at = i
+		}
+	}
+	if at < 0 {
+		return
+	}
+	most := 0
+	for _, c := range rep.Criteria {
+		most = max(most, c.Estimate)
+	}
+	kinds := map[int]string{}
+	for _, f := range cr.Nuisance {
+		kinds[f.Factor] = f.Kind
+	}
+	var named []string
+	unnamed := 0
+	for k := rep.Estimate + 1; k <= most; k++ {
+		if kind, ok := kinds[k]; ok {
+			named = append(named, fmt.Sprintf("%d (%s)", k, kind))
+		} else {
+			unnamed++
+		}
+	}
+	switch {
+	case len(named) == 0:
+		return
+	case unnamed <= cr.NoiseLike:
+		rep.Warnings = append(rep.Warnings[:at:at], rep.Warnings[at+1:]...)
+	default:
+		w := rep.Warnings[at]
+		if cut := strings.Index(w, disagreeAdvice); cut >= 0 {
+			w = w[:cut]
+		}
+		rep.Warnings[at] = fmt.Sprintf("%s; of the factors the others count, %s are not chemistry (see the advice), %d not classified%s", w, strings.Join(named, ", "), unnamed, disagreeAdvice)
 	}
 }
 

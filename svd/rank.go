@@ -700,14 +700,21 @@ func disagreement(crit []Criterion, est int) string {
 			differ = append(differ, e)
 		}
 	}
-	msg := fmt.Sprintf("rank criteria disagree: the estimate is %d, but %s", est, strings.Join(differ, ", "))
+	msg := fmt.Sprintf("%sthe estimate is %d, but %s", disagreePrefix, est, strings.Join(differ, ", "))
 	if len(agree) > 0 {
 		msg += fmt.Sprintf("; only %s give(s) %d", strings.Join(agree, ", "), est)
 	} else {
 		msg += fmt.Sprintf("; no single criterion gives %d (it counts the smooth factors above the noise floor)", est)
 	}
-	return msg + ": check the noise level (--pre names the spectra taken before the reaction) and look at the singular values in the report"
+	return msg + disagreeAdvice
 }
+
+// disagreePrefix begins the warning that the criteria disagree and
+// disagreeAdvice ends it (accountDisagreement finds and rewords it).
+const (
+	disagreePrefix = "rank criteria disagree: "
+	disagreeAdvice = ": check the noise level (--pre names the spectra taken before the reaction) and look at the singular values in the report"
+)
 
 // fSignificance is the upper-tail probability of Malinowski's F(1, dof) statistic for an
 // eigenvalue lam against the pooled tail; 1 when it cannot be tested.
