@@ -242,10 +242,34 @@ type KineticFitJSON struct {
 
 // ConstraintJSON is one constraint check in summary.json.
 type ConstraintJSON struct {
-	Constraint       string   `json:"constraint"`
-	LackOfFitWith    float64  `json:"lack_of_fit_percent_with"`
-	LackOfFitWithout float64  `json:"lack_of_fit_percent_without"`
-	Components       []string `json:"components,omitempty"`
+	Constraint       string  `json:"constraint"`
+	LackOfFitWith    float64 `json:"lack_of_fit_percent_with"`
+	LackOfFitWithout float64 `json:"lack_of_fit_percent_without"`
+	// WithOfData and WithoutOfData are the same fits over the data as
+	// given (the denominator of lack_of_fit_percent and of iterations.csv),
+	// where the two above, kept as they were, divide by the data less the
+	// fitted baseline; equal to them without a baseline.
+	WithOfData    float64  `json:"lack_of_fit_percent_with_of_data,omitempty"`
+	WithoutOfData float64  `json:"lack_of_fit_percent_without_of_data,omitempty"`
+	Components    []string `json:"components,omitempty"`
+}
+
+// ShownWith and ShownWithout are the figures a reader is shown: over the
+// data as given when the run wrote them, else (a folder written before
+// they existed) the ones it has.
+func (c ConstraintJSON) ShownWith() float64 {
+	if c.WithOfData > 0 {
+		return c.WithOfData
+	}
+	return c.LackOfFitWith
+}
+
+// ShownWithout: see ShownWith.
+func (c ConstraintJSON) ShownWithout() float64 {
+	if c.WithoutOfData > 0 {
+		return c.WithoutOfData
+	}
+	return c.LackOfFitWithout
 }
 
 // BootstrapJSON describes the resampling in summary.json.

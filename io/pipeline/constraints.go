@@ -581,22 +581,22 @@ func judgeChecks(r *Result) {
 					cost = &r.Constraints.Checks[i]
 				}
 			case r.SoftALS != nil:
-				r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (%s %.3g %%, the soft resolution --hard-model started from %.3g %%): found from the fit without %s; that resolution stopped in a local minimum, try another --init or --seed", checkMetric(r), c.With, r.SoftALS.LackOfFitPercent, c.Name))
+				r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (%s %.3g %%, the soft resolution --hard-model started from %.3g %%): found from the fit without %s; that resolution stopped in a local minimum, try another --init or --seed", checkMetric(r), asGiven(r, c.With), asGiven(r, r.SoftALS.LackOfFitPercent), c.Name))
 			default:
-				r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (%s %.3g %%, the resolution's %.3g %%): found from the fit without %s; the resolution stopped in a local minimum, try another --init or --seed", checkMetric(r), c.With, resolved, c.Name))
+				r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (%s %.3g %%, the resolution's %.3g %%): found from the fit without %s; the resolution stopped in a local minimum, try another --init or --seed", checkMetric(r), asGiven(r, c.With), asGiven(r, resolved), c.Name))
 			}
 		}
 		if !riseBeyondPinned(r, c) || rise(c) <= checkAllowance(r, c)+blankPattern() {
 			continue
 		}
-		msg := fmt.Sprintf("%s raises the lack of fit from %.3g %% to %.3g %%%s, also when started from the fit without it: the data disagree with it", c.Name, c.Without, c.With, weightedNote(r))
+		msg := fmt.Sprintf("%s raises the lack of fit from %.3g %% to %.3g %%%s, also when started from the fit without it: the data disagree with it", c.Name, asGiven(r, c.Without), asGiven(r, c.With), weightedNote(r))
 		if c.Name == "closure" {
 			msg += "; the total of the concentrations is not constant (sampling, dilution, evaporation, a species left out?): try --closure off, or one total per experiment"
 		}
 		r.Warnings = append(r.Warnings, msg)
 	}
 	if cost != nil {
-		r.Notes = append(r.Notes, fmt.Sprintf("the kinetic model inside the resolution (--hard-model) costs fit: under every other constraint the data allow a %s of %.3g %% (found from the fit without %s), the hard–soft resolution has %.3g %%; the constraint checks refit without the kinetic model", checkMetric(r), cost.With, cost.Name, resolved))
+		r.Notes = append(r.Notes, fmt.Sprintf("the kinetic model inside the resolution (--hard-model) costs fit: under every other constraint the data allow a %s of %.3g %% (found from the fit without %s), the hard–soft resolution has %.3g %%; the constraint checks refit without the kinetic model", checkMetric(r), asGiven(r, cost.With), cost.Name, asGiven(r, resolved)))
 	}
 }
 
@@ -886,7 +886,8 @@ func constraintSummary(r *Result, s *Summary) {
 	s.Constraints = nonNil(rep.Described)
 	s.UniquenessNote, s.BandsNote = rep.BandsNote, rep.BandsNote
 	for _, c := range rep.Checks {
-		cj := ConstraintJSON{Constraint: c.Name, LackOfFitWith: round(c.With), LackOfFitWithout: round(c.Without)}
+		cj := ConstraintJSON{Constraint: c.Name, LackOfFitWith: round(c.With), LackOfFitWithout: round(c.Without),
+			WithOfData: round(asGiven(r, c.With)), WithoutOfData: round(asGiven(r, c.Without))}
 		if len(c.ComponentsAffected) < r.Components {
 			for _, j := range c.ComponentsAffected {
 				cj.Components = append(cj.Components, r.Names[j])
@@ -1105,6 +1106,17 @@ func formatted(vs []float64) [][]byte {
 	return out
 }
 
+// asGiven is a lack of fit of the constraint checks (over the data less a
+// fitted baseline) over the data as given, the denominator of every other
+// figure (docs/measurement.md §2): the same residual, so the "with" of the
+// table is the iterations' last value.
+func asGiven(r *Result, lof float64) float64 {
+	if r.checkScale > 0 {
+		return lof * r.checkScale
+	}
+	return lof
+}
+
 // checkMetric names the lack of fit the constraint checks compare: with the
 // noise weights it is the weighted one, 100·√(χ²/Σ w d²), not the headline's
 // unweighted figure.
@@ -1132,7 +1144,7 @@ func printConstraints(r *Result, w io.Writer) {
 		fmt.Fprintf(w, "constraint     %s\n", d)
 	}
 	for _, c := range rep.Checks {
-		fmt.Fprintf(w, "  without %-22s %s %.4g %% (with: %.4g %%)\n", c.Name, checkMetric(r), c.Without, c.With)
+		fmt.Fprintf(w, "  without %-22s %s %.4g %% (with: %.4g %%)\n", c.Name, checkMetric(r), asGiven(r, c.Without), asGiven(r, c.With))
 	}
 	if rep.Bands != nil {
 		for j, b := range rep.Bands.Bands {

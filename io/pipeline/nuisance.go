@@ -991,6 +991,10 @@ func withoutBaseline(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dens
 		r.BaselineProfiles = res.Baseline
 		r.BaselineShapes = shapes
 		r.DataSS = observedSquares(r)
+		given := r.DataSS
+		if row, _ := weightsOfData(data); row != nil {
+			given = data.FrobeniusSq()
+		}
 		subtractBaselineInPlace(r.D, res.Baseline, shapes)
 		switch in := data.(type) {
 		case mcr.Dense:
@@ -1013,6 +1017,9 @@ func withoutBaseline(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dens
 		if total > 0 {
 			res.LackOfFitPercent = 100 * math.Sqrt(res.ResidualSS/total)
 			res.ExplainedPercent = 100 * (1 - res.ResidualSS/total)
+		}
+		if total > 0 && given > 0 {
+			r.checkScale = math.Sqrt(total / given)
 		}
 	}
 	return res, data

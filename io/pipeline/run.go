@@ -151,8 +151,14 @@ type Result struct {
 	// fitDof is ν = observed − k(n + m − k), the fit's degrees of freedom
 	// (fitFigures); misfit the test of the residual against the noise
 	// (checkMisfit), Limit 0 when not tested.
-	fitDof           float64
-	misfit           misfitCheck
+	fitDof float64
+	misfit misfitCheck
+	// checkScale turns a lack of fit over the data less the fitted
+	// baseline (the constraint checks' refits work on it) into one over
+	// the data as given, as the iterations' curve and the headline are:
+	// √(Σ d²_less / Σ d²_given), weighted as the fit is; 0 without a
+	// baseline (nothing to turn).
+	checkScale       float64
 	BaselineReason   string
 	BaselineProfiles *mat.Dense
 	BaselineShapes   *mat.Dense

@@ -245,6 +245,15 @@ func residualToNoise(r *Result) (float64, bool) {
 	return r.LackOfFit / r.NoiseLOF, true
 }
 
+// unweightedWord names the headline lack of fit as unweighted when the
+// constraint lines below it quote a weighted one.
+func unweightedWord(r *Result) string {
+	if weighted(r) {
+		return "unweighted; "
+	}
+	return ""
+}
+
 // PrintTable writes the short human summary to w; explained variance is in
 // summary.json and the report only (it reads near 100 % for any fit).
 func PrintTable(r *Result, w io.Writer) {
@@ -274,7 +283,7 @@ func PrintTable(r *Result, w io.Writer) {
 		if q, ok := residualToNoise(r); ok {
 			fmt.Fprintf(w, "fit            residual %.3g × the noise  (1.0 = fits to the noise)\n", q)
 		}
-		fmt.Fprintf(w, "lack of fit    %.4g %%  (noise alone: %.3g %%)\n", r.LackOfFit, r.NoiseLOF)
+		fmt.Fprintf(w, "lack of fit    %.4g %%  (%snoise alone: %.3g %%)\n", r.LackOfFit, unweightedWord(r), r.NoiseLOF)
 		fmt.Fprintf(w, "iterations     %d, %s\n", r.ALS.Iterations, conv)
 		for j, name := range r.Names {
 			col := mat.Col(nil, j, r.ALS.C)

@@ -90,9 +90,9 @@ nav a { color: #0072b2; margin-right: .8rem; }
 <h3>What each constraint cost</h3>
 <table>
 <tr><th>constraint</th><th>{{if eq .S.NoiseWeights "noise"}}weighted {{end}}lack of fit with it / %</th><th>without it / %</th><th>cost / percentage points</th></tr>
-{{range .S.ConstraintChecks}}<tr><td>{{.Constraint}}</td><td class="n">{{num .LackOfFitWith}}</td><td class="n">{{num .LackOfFitWithout}}</td><td class="n">{{num (sub .LackOfFitWith .LackOfFitWithout)}}</td></tr>
+{{range .S.ConstraintChecks}}<tr><td>{{.Constraint}}</td><td class="n">{{num .ShownWith}}</td><td class="n">{{num .ShownWithout}}</td><td class="n">{{num (sub .ShownWith .ShownWithout)}}</td></tr>
 {{end}}</table>
-<p class="small">A constraint the data obey costs next to nothing; a large cost means the data disagree with it (for closure: dilution, sampling, a species without bands).{{if eq .S.NoiseWeights "noise"}} The lack of fit here is weighted by the noise, 100·√(Σ w r² / Σ w d²) with w = 1/σ² per point, so it differs from the Summary's unweighted lack of fit.{{end}}</p>{{end}}
+<p class="small">A constraint the data obey costs next to nothing; a large cost means the data disagree with it (for closure: dilution, sampling, a species without bands).{{if eq .S.NoiseWeights "noise"}} The lack of fit here is weighted by the noise, 100·√(Σ w r² / Σ w d²) with w = 1/σ² per point and d the data as given, as in the curve of the iterations (whose last value is the first column's), so it differs from the Summary's unweighted lack of fit.{{end}}</p>{{end}}
 {{if .S.Kinetics}}{{with .S.Kinetics}}
 <h3>Kinetics: {{.Model}}</h3>
 <table>
