@@ -37,7 +37,7 @@ func figureJobs(f *Folder) []figureJob {
 		if m := f.Maps.Matrices["data"]; m != nil && f.Maps.Matrices["difference"] != nil {
 			jobs = append(jobs, onMatrix(f, "fig-absorbance", m, false, func(v *Folder, m *Matrix, ax axisStyle) (*Figure, error) {
 				return overlayFigure(v, m, ax, "fig-absorbance", "Absorbance spectra, coloured by time", "absorbance",
-					"The absolute absorbance spectra that were resolved (species mode).")
+					"The absolute absorbance spectra that were resolved (species mode), as measured"+baselineWords(v.Summary)+".")
 			}))
 		}
 		if m := f.inputDifference(); m != nil {
@@ -295,6 +295,15 @@ func (f *Folder) axisName() string {
 		return f.Summary.Axis
 	}
 	return ""
+}
+
+// baselineWords says that the data shown keep the baseline the resolution
+// fitted beside the species ("" when none was).
+func baselineWords(s *Summary) string {
+	if s == nil || s.Baseline == "" || s.Baseline == "off" {
+		return ""
+	}
+	return fmt.Sprintf(": the fitted baseline (%s) is part of the model, not taken off here", s.Baseline)
 }
 
 // inputDifference is the difference matrix: its own entry in species mode,
