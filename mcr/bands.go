@@ -188,6 +188,17 @@ func FeasibleBands(c, s *mat.Dense, opt BandOptions) (*BandsResult, error) {
 	if err != nil {
 		return nil, err
 	}
+	// Each round's new ends are new feasible points, which may seed others
+	// in turn; k rounds at most.
+	for round := 0; round < k; round++ {
+		moved, err := p.crossSeed(ends)
+		if err != nil {
+			return nil, err
+		}
+		if !moved {
+			break
+		}
+	}
 	for j := 0; j < k; j++ {
 		lo, hi := ends[2*j], ends[2*j+1]
 		out.Evaluations += lo.evals + hi.evals
@@ -216,6 +227,7 @@ func bandOf(value float64, lo, hi bandEnd) Band {
 // profile and spectrum that reach it.
 type bandEnd struct {
 	f                 float64
+	theta             []float64 // the rotation's unknowns at the end
 	profile, spectrum []float64
 	ok, converged     bool
 	evals             int
@@ -292,7 +304,76 @@ func (p *bandProblem) end(j int, sign float64) bandEnd {
 			prof[i] *= amp
 		}
 	}
-	return bandEnd{f: f, profile: prof, spectrum: spec, ok: ok, evals: evals, converged: conv}
+	return bandEnd{f: f, theta: theta, profile: prof, spectrum: spec, ok: ok, evals: evals, converged: conv}
+}
+
+// crossSeed searches an end again from another end's rotation when that
+// rotation, which keeps every constraint and the allowance for all
+// components alike, already gives the component a share beyond the end
+// found: each search is local (a feasible region of several pieces, or a
+// share with several local extremes, may hold ends further out), and the
+// 2k ends are 2k feasible points spread over the region, found anyway.
+// A reagent spiked into a stirred cell gave a range of 0.057–0.167 for the
+// reagent from the solution's side, while the fit from the other start,
+// as good, had 0.249 (the truth of the invented data: 0.243). The ends
+// are searched again one after another in a fixed order, each from the
+// point with the most extreme share (the lowest end index on a tie): the
+// result does not depend on the number of workers.
+func (p *bandProblem) crossSeed(ends []bandEnd) (moved bool, err error) {
+	if p.allow <= 0 || p.k < 2 {
+		return false, nil
+	}
+	type point struct{ a, b *mat.Dense }
+	pts := make([]*point, len(ends))
+	for t, e := range ends {
+		if len(e.theta) == 0 || !e.ok {
+			continue
+		}
+		a, b, _, ok := p.rotate(p.rotation(e.theta))
+		if !ok || p.rise(a, b, nil, nil) > p.allow*(1+p.opt.Tolerance) {
+			continue
+		}
+		a, b = p.constrainedPair(a, b)
+		pts[t] = &point{a, b}
+	}
+	for t := range ends {
+		j, sign := t/2, 1.0
+		if t%2 == 1 {
+			sign = -1
+		}
+		from, best := -1, ends[t].f
+		for u, pt := range pts {
+			if pt == nil || u == t {
+				continue
+			}
+			if f := math.Sqrt(colNormSq(pt.a, j)*colNormSq(pt.b, j)) / p.norm; sign*f < sign*best*(1+1e-6) {
+				from, best = u, f
+			}
+		}
+		if from < 0 {
+			continue
+		}
+		p.work.reset()
+		theta, f, ok, evals, conv := p.noiseSQP(j, sign, ends[from].theta)
+		if !ok || sign*f >= sign*ends[t].f {
+			ends[t].evals += evals
+			continue
+		}
+		tr := p.rotation(theta)
+		prof, spec, err := p.component(tr, j)
+		if err != nil {
+			return false, err
+		}
+		f, amp := p.amplitude(tr, j, -sign)
+		for i := range prof {
+			prof[i] *= amp
+		}
+		if sign*f < sign*ends[t].f {
+			ends[t] = bandEnd{f: f, theta: theta, profile: prof, spectrum: spec, ok: true, evals: ends[t].evals + evals, converged: conv}
+			moved = true
+		}
+	}
+	return moved, nil
 }
 
 type bandProblem struct {
