@@ -1544,7 +1544,7 @@ func preWarnings(r *Result) []string {
 // differences in time of all its spectra (spectra.TimeNoise), spectra set aside kept
 // aside; the noise model's own weights when it has fewer than three spectra.
 func preNoise(r *Result, e *Experiment) *spectra.Weights {
-	sig := spectra.TimeNoise(r.D, e.FirstRow, e.FirstRow+e.Rows, r.Blind)
+	sig := spectra.TimeNoise(r.D, r.Times, e.FirstRow, e.FirstRow+e.Rows, r.Blind)
 	if sig == nil {
 		return r.Weights
 	}

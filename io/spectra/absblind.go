@@ -66,18 +66,19 @@ const capRepeats = 3
 // v and the noise model over the rest: σ per channel, the rounding step and
 // the source in words. blind is nil when there are none; then σ has the
 // bits of channelNoise(v, pre, nil).
-func absorbanceNoise(v *mat.Dense, pre int) (blind *Blind, sigma []float64, q float64, src string) {
+func absorbanceNoise(v *mat.Dense, times []float64, pre int) (blind *Blind, sigma []float64, q float64, src string) {
 	n, m := v.Dims()
 	b := capBlind(v)
 	// Whether a channel saw light is a matter of all its spectra, not only
 	// of those before the reaction: its own scatter from second differences
 	// in time of all of them (the model's own scales when it takes those).
-	own, cnt := channelScales(timeDiffs{v: v, blind: b})
+	line := lineWeights(times)
+	own, cnt := channelScales(timeDiffs{v: v, blind: b, line: line})
 	q = quantum(v, b)
 	if pre >= 2 {
-		sigma, q, src = channelNoiseOwn(v, pre, b, q, nil, nil, false)
+		sigma, q, src = channelNoiseOwn(v, line, pre, b, q, nil, nil, false)
 	} else {
-		sigma, q, src = channelNoiseOwn(v, pre, b, q, own, cnt, false)
+		sigma, q, src = channelNoiseOwn(v, line, pre, b, q, own, cnt, false)
 	}
 	added := false
 	for j, k := range capsPerChannel(b, m) {
@@ -96,7 +97,7 @@ func absorbanceNoise(v *mat.Dense, pre int) (blind *Blind, sigma []float64, q fl
 	}
 	if added {
 		// The channels left out no longer raise their neighbours' σ.
-		sigma, q, src = channelNoise(v, pre, b)
+		sigma, q, src = channelNoiseSpaced(v, line, pre, b)
 	}
 	raiseToOwn(sigma, own, cnt, b)
 	if b.Count == 0 {
