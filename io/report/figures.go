@@ -604,7 +604,7 @@ func efaFigure(f *Folder) (*Figure, error) {
 		return nil, fmt.Errorf("evolving factor analysis: %w", err)
 	}
 	return &Figure{ID: "fig-efa", Title: "Evolving factor analysis", SVG: svg, drawing: dr, Legend: legend,
-		Caption: "Singular values of the first spectra up to each time (forward, solid) and of the last ones from each time on (backward, dashed). A component appears where a new forward value rises out of the noise and disappears where its backward value sinks into it (Gampp et al. 1985; Maeder 1987)."}, nil
+		Caption: "Singular values of the first spectra up to each time (forward, solid) and of the last ones from each time on (backward, dashed). A component comes into view where a new forward value rises out of the noise and falls below what EFA can see where its backward value sinks into it; it may remain in the data below that level (Gampp et al. 1985; Maeder 1987)."}, nil
 }
 
 // efaColumns are the columns of efa.csv by what their names say.

@@ -123,7 +123,7 @@ func buildFrom(f *Folder, figs []Figure, problems []string) ([]byte, error) {
 	v.TimeUnit, _ = f.tableTimeUnit()
 	v.TimeNote = f.timeUnitNote(f.timeSpan())
 	v.Rates = f.rates()
-	v.Extra = extraKeys(f.SummaryRaw)
+	v.More = f.moreResults(v.TimeUnit)
 	if f.AsRun != nil {
 		v.AsRun, v.AsRunDropped = dropTimes(f.AsRun.Body)
 	}
@@ -153,7 +153,7 @@ type view struct {
 	Sections        []section
 	FigureCount     int
 	Problems        []string
-	Extra           [][2]string
+	More            moreView
 	AsRun           string
 	AsRunDropped    int
 	ManifestRows    [][2]string
@@ -212,10 +212,10 @@ func sample(it LegendItem) string {
 // words as rows of a table, sorted by key: nested objects and lists are
 // spread into one row per value (key.field, key[1].field), so a reader
 // sees values rather than JSON.
-func extraKeys(raw map[string]json.RawMessage) [][2]string {
+func extraKeys(raw map[string]json.RawMessage, skip map[string]bool) [][2]string {
 	var keys []string
 	for k := range raw {
-		if !knownKeys[k] {
+		if !knownKeys[k] && !skip[k] {
 			keys = append(keys, k)
 		}
 	}
@@ -748,22 +748,17 @@ func yesNo(b bool) string {
 }
 
 var page = template.Must(template.New("report").Funcs(template.FuncMap{
-	"num":     fmtNum,
-	"num7":    func(v float64) string { return trimFloat(v, 7) },
-	"yesno":   yesNo,
-	"verdict": criterionVerdict,
-	"deref":   func(p *int) int { return *p },
-	"sub":     func(a, b float64) float64 { return a - b },
-	"unit":    unitText,
-	"share":   shareText,
-	"perTime": perTime,
-	"tm": func(t float64, unit string) string {
-		_, div := timeScale(0, unit)
-		if div == 1 {
-			return strconv.FormatFloat(t, 'g', -1, 64)
-		}
-		return trimFloat(t/div, 4)
-	},
+	"num":       fmtNum,
+	"num7":      func(v float64) string { return trimFloat(v, 7) },
+	"yesno":     yesNo,
+	"verdict":   criterionVerdict,
+	"deref":     func(p *int) int { return *p },
+	"sub":       func(a, b float64) float64 { return a - b },
+	"unit":      unitText,
+	"share":     shareText,
+	"perTime":   perTime,
+	"tm":        timeText,
+	"tx":        timesWithSeconds,
 	"figAnchor": func(f figureView) string { return "sec-" + f.ID },
 }).Parse(pageTemplate))
 

@@ -48,27 +48,27 @@ nav a { color: #0072b2; margin-right: .8rem; }
 
 <h2 id="findings">What was found</h2>
 <div class="findings"><ul>
-{{range .Findings}}<li>{{.}}</li>
+{{range .Findings}}<li>{{tx . $.TimeUnit}}</li>
 {{end}}</ul></div>
 {{if or .S.Warnings .Checks}}
 <h3>Warnings</h3>
 <div class="warnings"><ul>
-{{range .S.Warnings}}<li>{{.}}</li>
-{{end}}{{range .Checks}}<li>{{.}}</li>
+{{range .S.Warnings}}<li>{{tx . $.TimeUnit}}</li>
+{{end}}{{range .Checks}}<li>{{tx . $.TimeUnit}}</li>
 {{end}}</ul></div>
 {{end}}
 {{if .S.OutlierSpectra}}<h3>Spectra set aside</h3>
-<ul>{{range .S.OutlierSpectra}}<li>t = {{tm .Time $.TimeUnit}} {{$.TimeUnit}}{{if .Source}} ({{.Source}}){{end}}: {{.Reason}}</li>{{end}}</ul>{{end}}
+<ul>{{range .S.OutlierSpectra}}<li>t = {{tm .Time $.TimeUnit}} {{$.TimeUnit}}{{if .Source}} ({{.Source}}){{end}}: {{tx .Reason $.TimeUnit}}</li>{{end}}</ul>{{end}}
 {{if .S.Advice}}<h3>Advice</h3>
-<ul>{{range .S.Advice}}<li>{{.}}</li>{{end}}</ul>{{end}}
+<ul>{{range .S.Advice}}<li>{{tx . $.TimeUnit}}</li>{{end}}</ul>{{end}}
 {{if .S.Notes}}<h3>Notes</h3>
-<ul>{{range .S.Notes}}<li>{{.}}</li>{{end}}</ul>{{end}}
+<ul>{{range .S.Notes}}<li>{{tx . $.TimeUnit}}</li>{{end}}</ul>{{end}}
 
 <h2 id="summary">Summary</h2>
 <table>
-<tr><th>mode</th><td>{{.S.Mode}}{{if .S.ModeReason}} <span class="small">— {{.S.ModeReason}}</span>{{end}}</td></tr>
-<tr><th>rank estimate</th><td>{{.S.RankEstimate}}{{if .S.RankReason}} <span class="small">— {{.S.RankReason}}</span>{{end}}</td></tr>
-{{if .S.DifferenceRank}}<tr><th>rank of the difference spectra</th><td>{{deref .S.DifferenceRank}}{{if .S.DifferenceRankReason}} <span class="small">— {{.S.DifferenceRankReason}}</span>{{end}}</td></tr>{{end}}
+<tr><th>mode</th><td>{{.S.Mode}}{{if .S.ModeReason}} <span class="small">— {{tx .S.ModeReason $.TimeUnit}}</span>{{end}}</td></tr>
+<tr><th>rank estimate</th><td>{{.S.RankEstimate}}{{if .S.RankReason}} <span class="small">— {{tx .S.RankReason $.TimeUnit}}</span>{{end}}</td></tr>
+{{if .S.DifferenceRank}}<tr><th>rank of the difference spectra</th><td>{{deref .S.DifferenceRank}}{{if .S.DifferenceRankReason}} <span class="small">— {{tx .S.DifferenceRankReason $.TimeUnit}}</span>{{end}}</td></tr>{{end}}
 {{if .S.Baseline}}<tr><th>baseline</th><td>{{.S.Baseline}}{{if .S.BaselineReason}} <span class="small">— {{.S.BaselineReason}}</span>{{end}}</td></tr>{{end}}
 <tr><th>components resolved</th><td>{{.S.Components}}{{if .S.ComponentNames}} ({{range $i, $n := .S.ComponentNames}}{{if $i}}, {{end}}{{$n}}{{end}}){{end}}</td></tr>
 <tr><th>lack of fit</th><td class="n">{{num .S.LackOfFitPercent}} %{{if gt .S.NoiseLackOfFitPercent 0.0}} <span class="small">(noise alone: {{num .S.NoiseLackOfFitPercent}} %)</span>{{end}}</td></tr>
@@ -106,11 +106,26 @@ nav a { color: #0072b2; margin-right: .8rem; }
 <tr><th>component</th><th>smallest share</th><th>largest share</th></tr>
 {{range .S.Uniqueness}}<tr><td>{{.Component}}</td><td class="n">{{num .Min}}</td><td class="n">{{share .Max}}</td></tr>
 {{end}}</table>{{end}}
-{{if .Extra}}
+{{if not .More.Empty}}{{with .More}}
 <h3>More results</h3>
-<table>
-{{range .Extra}}<tr><th>{{index . 0}}</th><td>{{index . 1}}</td></tr>
+{{if .Rows}}<table>
+{{range .Rows}}<tr><th>{{index . 0}}</th><td>{{index . 1}}</td></tr>
 {{end}}</table>{{end}}
+{{if .EFA}}<h4>When EFA sees each component (evolving factor analysis)</h4>
+<table>
+<tr><th>component</th><th>rises above what EFA can see at / {{$.TimeUnit}}</th><th>falls below what EFA can see at / {{$.TimeUnit}}</th></tr>
+{{range .EFA}}<tr><td>{{.Component}}</td><td class="n">{{.From}}</td><td class="n">{{.To}}</td></tr>
+{{end}}</table>
+<p class="small">{{.EFANote}}</p>{{end}}
+{{if .Factors}}<h4>Factors above the noise that are not components</h4>
+<table>
+<tr><th>factor</th><th>what it is</th><th>share of the signal / %</th><th>in the spectra at / {{$.TimeUnit}}</th><th>how it looks</th><th>refitted as one more component</th></tr>
+{{range .Factors}}<tr><td class="n">{{.Factor}}</td><td>{{.What}}</td><td class="n">{{.Share}}</td><td class="n">{{if .Times}}{{.Times}}{{else}}–{{end}}</td><td class="small">{{.Looks}}</td><td class="small">{{if .Refit}}{{.Refit}}{{else}}not refitted{{end}}</td></tr>
+{{end}}</table>{{end}}
+{{if .Raw}}<h4>Other keys of summary.json</h4>
+<table>
+{{range .Raw}}<tr><th>{{index . 0}}</th><td>{{index . 1}}</td></tr>
+{{end}}</table>{{end}}{{end}}{{end}}
 {{with .F.DemoCheck}}
 <h3>Demo: resolved against the invented truth</h3>
 <table>

@@ -73,7 +73,7 @@ func TestExtraKeysAsTable(t *testing.T) {
 		"rank_estimate":     json.RawMessage(`3`), // shown elsewhere
 	}
 	got := map[string]string{}
-	for _, r := range extraKeys(raw) {
+	for _, r := range extraKeys(raw, nil) {
 		got[r[0]] = r[1]
 		if strings.ContainsAny(r[1], "{[\"") {
 			t.Errorf("row %s shows JSON: %q", r[0], r[1])
