@@ -29,7 +29,7 @@ func TestTimePlace(t *testing.T) {
 		{28, blocks, "at spectrum 29 of 108 (spectrum 29 of 50 of experiment 1;", "step"},
 		{107, blocks, "at spectrum 108 of 108 (spectrum 58 of 58 of experiment 2;", "step"},
 		{0, blocks, "at spectrum 1 of 108 (spectrum 1 of 50 of experiment 1;", "step"},
-		{28, nil, "at spectrum 29 of 50 (a time vector is orthogonal to the larger factors'", "experiment"},
+		{28, nil, "at spectrum 29 of 50 (its time course is not a component's profile: the decomposition makes it orthogonal to the larger factors'", "experiment"},
 	} {
 		n := 108
 		if tc.blocks == nil {

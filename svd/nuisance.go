@@ -846,7 +846,7 @@ func axisPlace(x float64, name string) string {
 // the refit's profile says how the change runs. Largest where one experiment
 // ends and the next begins, it is a step between the experiments.
 func timePlace(peak, n int, blocks []int) string {
-	const hedge = "a time vector is orthogonal to the larger factors', so not a component's profile"
+	const hedge = "its time course is not a component's profile: the decomposition makes it orthogonal to the larger factors' time courses"
 	at := fmt.Sprintf(", its time vector largest in size at spectrum %d of %d", peak+1, n)
 	if len(blocks) < 2 {
 		return at + " (" + hedge + ")"

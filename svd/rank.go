@@ -583,7 +583,7 @@ func (p *rankProblem) criteria(nFloor, kInd, nF, nStruct int) []Criterion {
 	}
 	return []Criterion{
 		{Name: CriterionNoiseFloor, Estimate: nFloor, AtLeast: atLeast,
-			Source: "Marchenko–Pastur edge σ(√n+√m) (Geman, Ann. Probab. 1980) with a Tracy–Widom margin (Johnstone, Ann. Statist. 2001); σ by Gavish & Donoho (IEEE Trans. Inf. Theory 2014) when estimated from the spectrum",
+			Source: "the largest singular value noise alone reaches, σ(√n+√m) (Marchenko–Pastur edge; Geman, Ann. Probab. 1980), raised by its chance fluctuation at the 99 % level (Tracy–Widom margin; Johnstone, Ann. Statist. 2001); σ by Gavish & Donoho (IEEE Trans. Inf. Theory 2014) when estimated from the spectrum",
 			Detail: floor},
 		{Name: CriterionIND, Estimate: kInd,
 			Source: "Malinowski, Anal. Chem. 1977 (indicator function IND = RE/(c−k)²)",

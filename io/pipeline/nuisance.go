@@ -417,7 +417,7 @@ func axisNoiseText(a svd.AxisNoise) string {
 	if !(a.Inflation > 1) {
 		return ""
 	}
-	return fmt.Sprintf("; the residual is correlated along the axis (lag-1 autocorrelation %.2f, long-run variance %.3g times the variance per point), so its %d points count as %.0f independent ones (Bayley & Hammersley 1946; the sum by Geyer 1992)", a.Lag1, a.Inflation, a.Points, a.Effective)
+	return fmt.Sprintf("; the residual is correlated along the axis (lag-1 autocorrelation %.2f: neighbouring points share noise, so a sum over many of them varies %.3g times as much as over independent points, the long-run variance), so its %d points count as %.0f independent ones (Bayley & Hammersley 1946; the sum by Geyer 1992)", a.Lag1, a.Inflation, a.Points, a.Effective)
 }
 
 // nuisanceAdvice says what the factors that are not chemistry look like.

@@ -1499,7 +1499,7 @@ func (p *fitProblem) correlatedWarning(res *FitResult, replaced []bool, at int) 
 		}
 	}
 	w := fmt.Sprintf("the residuals are correlated in time (lag-1 autocorrelation %.2f, Durbin–Watson d = %.2f; independent noise gives 0 and 2): the model does not describe the data fully", res.Lag1, 2*(1-res.Lag1))
-	pull := fmt.Sprintf("the larger ones from each spectrum's pull on the fit (a sandwich estimate, up to %.3g times the noise-based ones so multiplied)", math.Max(res.Robust, res.sumRatio))
+	pull := fmt.Sprintf("the larger ones that allow for residuals correlated within a spectrum, from how much each spectrum pulls on the fit (a sandwich estimate; up to %.3g times the noise-based ones so multiplied)", math.Max(res.Robust, res.sumRatio))
 	switch {
 	case len(other) == 0:
 		w += fmt.Sprintf(", so the standard errors were multiplied by %.2f", res.Inflation)

@@ -181,7 +181,7 @@ func (p *fitProblem) undeterminedWarning(lm *LMResult, res *FitResult) {
 			}
 		}
 		if res.jacParams > 0 && res.jacRank < res.jacParams-held {
-			res.Warnings = append(res.Warnings, fmt.Sprintf("the Jacobian has rank %d for %d parameters: some parameter combinations are not determined by the data; their standard errors use a pseudo-inverse and are not meaningful", res.jacRank, res.jacParams))
+			res.Warnings = append(res.Warnings, fmt.Sprintf("some combinations of the parameters can change without changing the fitted curves, so the data do not determine them (the Jacobian has rank %d for %d parameters); their standard errors use a pseudo-inverse and are not meaningful", res.jacRank, res.jacParams))
 		}
 		return
 	}
@@ -189,7 +189,7 @@ func (p *fitProblem) undeterminedWarning(lm *LMResult, res *FitResult) {
 	if len(parts) > 1 {
 		what = "singly the rate constants of "
 	}
-	w := fmt.Sprintf("the data do not determine %s%s (the Jacobian in ln k has rank %d for %d parameters, counting singular values below %.0e of the largest as zero): reported as not determined, with no standard error", what, strings.Join(parts, " and "), res.jacRank, res.jacParams, nullTol)
+	w := fmt.Sprintf("the data do not determine %s%s: some combination of them can change without changing the fitted curves (the Jacobian in ln k has rank %d for %d parameters, counting singular values below %.0e of the largest as zero): reported as not determined, with no standard error", what, strings.Join(parts, " and "), res.jacRank, res.jacParams, nullTol)
 	if res.SumSteps != nil {
 		var names []string
 		for _, j := range res.SumSteps {
