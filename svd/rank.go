@@ -3,6 +3,7 @@ package svd
 import (
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 
 	"github.com/bandsolve/bandsolve/internal/pvalue"
@@ -102,6 +103,10 @@ type RankReport struct {
 	Examined       int
 	AboveThreshold int
 	AboveAtLeast   bool
+	// Singular are the singular values AboveThreshold counted, those of the
+	// factors supplied: a caller that projected something out first can write
+	// them beside the ones of the data as given.
+	Singular []float64
 	// ReferencePatternFactor is the index (0-based) of the factor recognised as the
 	// reference-noise pattern, -1 none.
 	ReferencePatternFactor int
@@ -667,6 +672,7 @@ func (p *rankProblem) countAbove() {
 		}
 	}
 	rep.AboveAtLeast = rep.AboveThreshold == len(p.f.S) && !p.f.Full()
+	rep.Singular = slices.Clone(p.f.S)
 }
 
 // aboveWords is AboveThreshold, "at least N" when the truncated

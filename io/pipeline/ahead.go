@@ -342,7 +342,7 @@ func (a *ahead) aheadSingular(r *Result) {
 	if a == nil {
 		return
 	}
-	csv := singularTable(r.Factors, r.Rank).CSV()
+	csv := singularTable(r.Factors, r.Rank, r.BaselineOrder).CSV()
 	sum := &output.Summary{RankEstimate: r.Rank.Estimate, NoiseEdge: round(r.Rank.NoiseEdge), NoiseSigma: round(r.NoiseSigma),
 		NoiseWeights: "off", NoiseSource: r.NoiseSource}
 	if weighted(r) {

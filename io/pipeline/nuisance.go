@@ -407,8 +407,25 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 		r.BaselineReason = "as asked (--baseline " + r.Settings.Baseline + ")"
 	}
 	r.BaselineOrder = order
+	if order >= 0 {
+		labelProjectedCount(rep, order)
+	}
 	r.Rank, r.Chemical = rep, cr
 	return nil
+}
+
+// labelProjectedCount says in the noise floor's evidence that it counted the
+// singular values of the data with the baseline taken out, which
+// singular_values.csv lists in columns of their own beside those of the data
+// as given: the two counts differ by up to order + 1 (Cauchy's interlacing
+// theorem; catalyst-1.00: 28 and 29), and a reader comparing them would
+// otherwise see a contradiction.
+func labelProjectedCount(rep *svd.RankReport, order int) {
+	for i, c := range rep.Criteria {
+		if c.Name == svd.CriterionNoiseFloor {
+			rep.Criteria[i].Detail += fmt.Sprintf("; counted with the baseline (%s) taken out: singular_values.csv's columns singular_value_without_baseline and above_noise_edge_without_baseline, while its above_noise_edge counts the data as given", baselineName(order))
+		}
+	}
 }
 
 // axisNoiseText says how the baseline test counted noise correlated along the

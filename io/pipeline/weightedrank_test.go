@@ -88,7 +88,7 @@ func TestWeightedSingularValuesInNoiseUnits(t *testing.T) {
 		t.Fatal("reference SVD did not converge")
 	}
 	want := ref.Values(nil)
-	tab := singularTable(r.Factors, r.Rank)
+	tab := singularTable(r.Factors, r.Rank, r.BaselineOrder)
 	yes, above := 0, 0
 	for i, row := range tab.Rows {
 		got, _ := strconv.ParseFloat(row[1], 64)

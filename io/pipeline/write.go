@@ -161,7 +161,7 @@ func WriteResults(r *Result, st *output.Stage) error {
 			return err
 		}
 	}
-	if err := st.Write("singular_values.csv", singularTable(r.Factors, r.Rank).CSV()); err != nil {
+	if err := st.Write("singular_values.csv", singularTable(r.Factors, r.Rank, r.BaselineOrder).CSV()); err != nil {
 		return err
 	}
 	if err := st.Write("rank.csv", rankTable(r.Rank).CSV()); err != nil {
@@ -203,14 +203,29 @@ func iterationsTable(r *Result) output.Table {
 	return t
 }
 
-func singularTable(f *svd.Factors, rank *svd.RankReport) output.Table {
+func singularTable(f *svd.Factors, rank *svd.RankReport, baselineOrder int) output.Table {
 	t := output.Table{Header: []string{"factor", "singular_value", "above_noise_edge"}}
-	for i, v := range f.S {
-		above := "no"
+	yes := func(v float64) string {
 		if v > rank.Threshold {
-			above = "yes"
+			return "yes"
 		}
-		t.Rows = append(t.Rows, []string{strconv.Itoa(i + 1), output.Float(v), above})
+		return "no"
+	}
+	projected := baselineOrder >= 0 && len(rank.Singular) > 0
+	if projected {
+		// The rank text counts these (svd.RankReport.Singular); the first
+		// columns keep their meaning, the data as given.
+		t.Header = append(t.Header, "singular_value_without_baseline", "above_noise_edge_without_baseline")
+	}
+	for i, v := range f.S {
+		row := []string{strconv.Itoa(i + 1), output.Float(v), yes(v)}
+		if projected {
+			row = append(row, "", "")
+			if i < len(rank.Singular) {
+				row[3], row[4] = output.Float(rank.Singular[i]), yes(rank.Singular[i])
+			}
+		}
+		t.Rows = append(t.Rows, row)
 	}
 	return t
 }
