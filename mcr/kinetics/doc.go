@@ -41,8 +41,9 @@
 // its model column, and with FitData the spectra S in D ≈ C(k) Sᵀ are solved by linear least
 // squares inside every residual evaluation (variable projection, Golub & Pereyra 1973); the
 // nonlinear problem then has only the rate constants. Standard errors are
-// se(θ) = sqrt(diag(σ²(JᵀJ)⁻¹)) with σ² = SSR/(N − p − linear parameters), computed from the
-// SVD of J (so JᵀJ is never formed); se(k) = k·se(θ) by the delta method; the correlation
+// se(θ) = sqrt(diag(σ²(JᵀJ)⁻¹)) with σ² = SSR/(N − p − linear parameters), N the residuals
+// that are linearly independent (profiles under closure, Σ_k c_k = const, leave n·(q − 1) of
+// the n·q: the rank of the n × q residual), computed from the SVD of J (so JᵀJ is never formed); se(k) = k·se(θ) by the delta method; the correlation
 // matrix is the same in θ and k to first order. For the variable-projection residual the
 // Jacobian of the projected functional gives the nonlinear block of the full covariance
 // (Golub & Pereyra 1973). Without starting values a small grid of k·T values (T the time

@@ -782,7 +782,7 @@ func FitProfiles(s *Scheme, times []float64, observed *mat.Dense, columns []int,
 	if err != nil {
 		return nil, fmt.Errorf("kinetics: fit profiles: final model: %w", err)
 	}
-	res := p.result(lm, sim, model, m, nLinear)
+	res := p.result(lm, sim, model, m, n*residualRank(lm.Residual, n, q), nLinear)
 	fitted := mat.NewDense(n, q, nil)
 	if opt.Amplitudes {
 		res.Amplitudes = p.amplitudes(model)
@@ -806,6 +806,44 @@ func FitProfiles(s *Scheme, times []float64, observed *mat.Dense, columns []int,
 	p.undeterminedWarning(lm, res)
 	return res, nil
 }
+
+// residualRank is the number of linearly independent columns of the n × q
+// residual r (row-major), counting a singular value at or below
+// dependentTol of the largest as zero. Profiles resolved under closure, and
+// a model that keeps the same sum (A -> B: [A] + [B] = 1), leave residuals
+// with Σ_k w_k r_ik = 0 in every row (r_B = −r_A for two species): only
+// n·(q − 1) of the n·q are free, and σ̂² = SSR/(n·q − p) would divide the
+// same sum of squares by almost twice its degrees of freedom. Rounding
+// leaves such a combination near 1e-16 of the profiles, while the other
+// directions hold the noise and misfit of the profiles, far above 1e-9 of
+// the largest unless the fit is exact to rounding (invented profiles
+// without noise, whose errors are then rounding either way). A residual of
+// exactly zero, and fewer rows than columns (where rank shows no
+// constraint), count as q.
+func residualRank(r []float64, n, q int) int {
+	if n < q || q == 0 || len(r) != n*q {
+		return q
+	}
+	var svd mat.SVD
+	if !svd.Factorize(mat.NewDense(n, q, append([]float64(nil), r...)), mat.SVDNone) {
+		return q
+	}
+	s := svd.Values(nil)
+	if len(s) == 0 || !(s[0] > 0) {
+		return q
+	}
+	rank := 0
+	for _, v := range s {
+		if v > dependentTol*s[0] {
+			rank++
+		}
+	}
+	return rank
+}
+
+// dependentTol: a residual direction this far (relative) below the largest
+// is taken as an exact linear constraint, not noise (residualRank).
+const dependentTol = 1e-9
 
 // held reports the parameters Levenberg–Marquardt held at their start because the residual
 // does not depend on them (LMResult.Held): an initial concentration is given back as it was
@@ -852,8 +890,10 @@ func withUnit(v, unit string) string {
 	return v + " " + unit
 }
 
-// result assembles everything but the fitted columns.
-func (p *fitProblem) result(lm *LMResult, sim *Simulation, model *mat.Dense, m, nLinear int) *FitResult {
+// result assembles everything but the fitted columns from m residuals, of
+// which indep are linearly independent (residualRank): the degrees of
+// freedom behind σ̂ count those.
+func (p *fitProblem) result(lm *LMResult, sim *Simulation, model *mat.Dense, m, indep, nLinear int) *FitResult {
 	k, c0, _ := p.unpack(lm.X)
 	nr, ns := len(p.s.Steps), len(p.s.Species)
 	res := &FitResult{
@@ -864,7 +904,7 @@ func (p *fitProblem) result(lm *LMResult, sim *Simulation, model *mat.Dense, m, 
 	res.RMS = math.Sqrt(lm.SSR / float64(m))
 	np := p.nParams()
 	p.held(lm, res)
-	res.DegreesOfFreedom = m - np - nLinear
+	res.DegreesOfFreedom = indep - np - nLinear
 	if !lm.Converged {
 		res.Warnings = append(res.Warnings, "Levenberg–Marquardt did not converge: "+lm.Reason)
 	}
@@ -1316,7 +1356,7 @@ func (p *fitProblem) dataResult(lm *LMResult, d *mat.Dense, nObs int) (*FitResul
 	}
 	var lag lagSums
 	lm.SSR, lag = residualSums(d, model, spectra, fitted, resid)
-	res := p.result(lm, sim, model, nObs, rank*m)
+	res := p.result(lm, sim, model, nObs, nObs, rank*m)
 	res.Reduced = p.dred
 	res.RMS = math.Sqrt(lm.SSR / float64(nObs))
 	if rank < p.nModel {
