@@ -2145,8 +2145,10 @@ func printDemoKinetics(r *Result, truth []float64, w io.Writer) {
 }
 
 // projectOutShapesWeighted is projectOutShapes in the metric of the column
-// weights b (nil: projectOutShapes): D (I − P(PᵀBP)⁻¹PᵀB), B = diag(b),
-// each spectrum without its weighted least-squares fit by the shapes. A fit
+// weights b (nil: projectOutShapes): D (I − BP(PᵀBP)⁻¹Pᵀ), B = diag(b),
+// each spectrum without its weighted least-squares fit by the shapes (a row
+// d has coefficients (PᵀBP)⁻¹PᵀB dᵀ, so its fit is d BP(PᵀBP)⁻¹Pᵀ; the
+// other order, P(PᵀBP)⁻¹PᵀB, is the projector for columns). A fit
 // weighted by a_i b_j fits each spectrum's baseline coefficients with the
 // weights b_j (a_i is one factor per spectrum), so only this projection
 // gives the joint weighted fit's rate constants (Golub & Pereyra 1973 in

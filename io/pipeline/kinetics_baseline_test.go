@@ -143,3 +143,41 @@ func TestKineticDataFitWithBaselineFitsToTheNoise(t *testing.T) {
 		}
 	}
 }
+
+// projectOutShapesWeighted leaves each spectrum d (a row) its weighted
+// least-squares residual e = d − (Pβ)ᵀ, β = argmin Σ_j b_j (d_j − (Pβ)_j)²,
+// whose normal equations are Pᵀ B eᵀ = 0 (weighted least squares, common
+// practice): e B P = 0, so the projection is D (I − BP(PᵀBP)⁻¹Pᵀ). The
+// transposed form D (I − P(PᵀBP)⁻¹PᵀB), which docs/kinetics.md once gave,
+// leaves e P = 0 instead and fails this check wherever b is not constant.
+func TestProjectOutShapesWeightedSolvesTheWeightedNormalEquations(t *testing.T) {
+	const n, m, c = 5, 40, 3
+	rng := rand.New(rand.NewPCG(5, 9))
+	d := mat.NewDense(n, m, nil)
+	p := mat.NewDense(m, c, nil)
+	b := make([]float64, m)
+	for j := 0; j < m; j++ {
+		x := 2*float64(j)/(m-1) - 1
+		p.SetRow(j, []float64{1, x, (3*x*x - 1) / 2}) // Legendre P0..P2
+		b[j] = 1
+		if j < 8 {
+			b[j] = 0.01 // a noisy detector edge
+		}
+		for i := 0; i < n; i++ {
+			d.Set(i, j, rng.NormFloat64())
+		}
+	}
+	e := projectOutShapesWeighted(d, p, b)
+	for i := 0; i < n; i++ {
+		for a := 0; a < c; a++ {
+			var s, scale float64
+			for j := 0; j < m; j++ {
+				s += e.At(i, j) * b[j] * p.At(j, a)
+				scale += math.Abs(d.At(i, j) * b[j] * p.At(j, a))
+			}
+			if math.Abs(s) > 1e-12*scale {
+				t.Errorf("spectrum %d, shape %d: Σ_j e_j b_j P_ja = %.3g, want 0", i+1, a+1, s)
+			}
+		}
+	}
+}
