@@ -198,14 +198,18 @@ func parseScheme(s *Settings) (*kinetics.Scheme, error) {
 }
 
 // checkKineticsSettings finds mistakes in the kinetic settings before any
-// data is read.
+// data is read. Every kinetic option needs --model: without it none is
+// read, and a run that took one silently would let the user think it
+// acted (--kinetic-fit data is the default, so only profiles is a choice;
+// --t0 moves nothing but the kinetics).
 func checkKineticsSettings(s *Settings) error {
 	if s.Model == "" {
 		for _, x := range []struct {
 			on   bool
 			name string
 		}{{s.Map != "", "--map"}, {s.HardModel, "--hard-model"}, {s.C0 != "", "--c0"}, {s.FitC0, "--fit-c0"},
-			{s.KStart != "", "--k-start"}, {s.KFixed != "", "--k-fixed"}} {
+			{s.KStart != "", "--k-start"}, {s.KFixed != "", "--k-fixed"},
+			{s.KineticFit == "profiles", "--kinetic-fit profiles"}, {s.T0 != "", "--t0"}} {
 			if x.on {
 				return usage("%s needs --model, e.g. --model 'A -> B -> C'", x.name)
 			}

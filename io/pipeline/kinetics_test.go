@@ -424,6 +424,11 @@ func TestKineticsUsageErrors(t *testing.T) {
 		{"not a number", func(s *Settings) { s.Map = "A=first" }, "component number"},
 		{"bad pair", func(s *Settings) { s.Map = "A" }, "NAME=VALUE"},
 		{"map without model", func(s *Settings) { s.Model, s.Map = "", "A=1" }, "--map needs --model"},
+		// The profile fit chosen, or a start time given, without a model
+		// was ignored without a word (a trial run); every kinetic option
+		// needs --model.
+		{"kinetic-fit profiles without model", func(s *Settings) { s.Model, s.KineticFit = "", "profiles" }, "--kinetic-fit profiles needs --model"},
+		{"t0 without model", func(s *Settings) { s.Model, s.T0 = "", "105" }, "--t0 needs --model"},
 		{"bad scheme", func(s *Settings) { s.Model = "A -> -> B" }, "--model"},
 		{"unknown step", func(s *Settings) { s.KFixed = "3=1e-3" }, "not a step"},
 		{"bad c0", func(s *Settings) { s.C0 = "A=-1" }, "--c0"},
