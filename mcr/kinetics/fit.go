@@ -100,6 +100,10 @@ type FitResult struct {
 	// sumRatio times the noise-based one.
 	sumSandwich bool
 	sumRatio    float64
+	// kWide, per step, is se(ln k) of a constant undetermined marked for
+	// an error beyond wideVar rather than for a null direction (0 for the
+	// others); nil when there is none.
+	kWide []float64
 	// jacRank and jacParams: the Jacobian's rank counting singular values
 	// at or below nullTol of the largest as zero, and its columns.
 	jacRank, jacParams int

@@ -25,6 +25,19 @@ const nullTol = 1e-8
 // 1e-6, a component of 1e-3, well above the directions' rounding.
 const nullShare = 1e-6
 
+// wideVar is the variance of ln k (se(k)/k squared, delta method) above
+// which a constant counts as not determined though no direction of the
+// Jacobian is at rounding level relative to the others: an e-fold change of
+// the constant then moves the sum of squares by less than σ̂²/wideVar =
+// 10⁻⁶ of one noise variance (ΔSSR ≈ (Δ ln k)² σ̂²/var(ln k), the
+// linearised fit), so the data do not see it at all. That happens when
+// every constant ran towards zero (A -> B fitted to a series that does not
+// follow it): the Jacobian's largest singular value is then as small as the
+// rest, and the relative test finds no null direction. A constant known to
+// within a factor 10 or 100 stays well below it; the value is this
+// program's choice.
+const wideVar = 1e6
+
 // undetermined marks the free rate constants the Jacobian does not
 // determine. A parameter θ_a is determined when its unit vector lies in the
 // row space of J (it is then an estimable function; any component along
@@ -60,8 +73,18 @@ func (p *fitProblem) undetermined(lm *LMResult, res *FitResult, cov *mat.Dense) 
 	for a, j := range p.kFree {
 		e := make([]float64, np)
 		e[a] = 1
-		if share(e) <= nullShare && (!unitOK || unitShare(e) <= nullShare) {
+		null := share(e) > nullShare || (unitOK && unitShare(e) > nullShare)
+		// An error that is not finite is said as such by the callers
+		// (too few spectra after t0), not as a ratio.
+		wide := cov.At(a, a)
+		tooWide := wide > wideVar && !math.IsInf(wide, 1)
+		if !null && !tooWide {
 			continue
+		} else if !null {
+			if res.kWide == nil {
+				res.kWide = make([]float64, nr)
+			}
+			res.kWide[j] = math.Sqrt(wide)
 		}
 		if res.KNotDetermined == nil {
 			res.KNotDetermined = make([]bool, nr)
@@ -85,11 +108,16 @@ func (p *fitProblem) undetermined(lm *LMResult, res *FitResult, cov *mat.Dense) 
 			return // a sum of constants in different units says nothing
 		}
 	}
-	res.SumSteps, res.sumGrad = steps, grad
+	sum := 0.0
 	for _, j := range steps {
-		res.SumK += res.K[j]
+		sum += res.K[j]
 	}
-	res.SumKStdErr = math.Sqrt(math.Max(mat.Inner(mat.NewVecDense(np, grad), cov, mat.NewVecDense(np, grad)), 0))
+	se := math.Sqrt(math.Max(mat.Inner(mat.NewVecDense(np, grad), cov, mat.NewVecDense(np, grad)), 0))
+	if !(se <= math.Sqrt(wideVar)*sum) {
+		return // a sum as invisible to the data as its terms
+	}
+	res.SumSteps, res.sumGrad = steps, grad
+	res.SumK, res.SumKStdErr = sum, se
 }
 
 // nullShareOf returns, for the Jacobian j, the function giving the squared
@@ -164,6 +192,8 @@ func (p *fitProblem) undeterminedWarning(lm *LMResult, res *FitResult) {
 		k := withUnit(fmt.Sprintf("%.4g", res.K[j]), p.rateUnit(j))
 		part := fmt.Sprintf("step %q (fit ended at %s)", p.s.Steps[j].Text, k)
 		switch {
+		case res.kWide != nil && res.kWide[j] > 0:
+			part = fmt.Sprintf("step %q (the fit ended at %s with a standard error %.2g times the constant itself: changing it e-fold moves the fit by less than 10⁻⁶ of the noise, so the data do not see it; a model the data do not follow?)", p.s.Steps[j].Text, k, res.kWide[j])
 		case res.KStart == nil || !(res.KStart[j] > 0):
 		case res.K[j] == res.KStart[j]:
 			part = fmt.Sprintf("step %q (it stayed at %s, where this fit started)", p.s.Steps[j].Text, k)
@@ -189,7 +219,11 @@ func (p *fitProblem) undeterminedWarning(lm *LMResult, res *FitResult) {
 	if len(parts) > 1 {
 		what = "singly the rate constants of "
 	}
-	w := fmt.Sprintf("the data do not determine %s%s: some combination of them can change without changing the fitted curves (the Jacobian in ln k has rank %d for %d parameters, counting singular values below %.0e of the largest as zero): reported as not determined, with no standard error", what, strings.Join(parts, " and "), res.jacRank, res.jacParams, nullTol)
+	rank := ""
+	if res.jacRank < res.jacParams {
+		rank = fmt.Sprintf(": some combination of them can change without changing the fitted curves (the Jacobian in ln k has rank %d for %d parameters, counting singular values below %.0e of the largest as zero)", res.jacRank, res.jacParams, nullTol)
+	}
+	w := fmt.Sprintf("the data do not determine %s%s%s: reported as not determined, with no standard error", what, strings.Join(parts, " and "), rank)
 	if res.SumSteps != nil {
 		var names []string
 		for _, j := range res.SumSteps {

@@ -192,3 +192,38 @@ func fourBandData(t *testing.T, c *mat.Dense) *mat.Dense {
 	clean.Mul(c, spec.T())
 	return noisy(t, &clean, seq(80), nil, 0.002, 5)
 }
+
+// A -> B fitted to profiles in which nothing reacts: [A] stays at or above
+// its start (1 + |noise|, B by closure 1 − [A]). The residual of A,
+// a_i − e^{−k t_i}, is then ≥ 0 at every k ≥ 0 and the sum of squares has
+// derivative 2 Σ (a_i − e^{−k t_i}) t_i e^{−k t_i} ≥ 0: its least-squares k
+// is 0, the bound (analytic). The fit runs towards it, where its standard
+// error is many orders above k itself (se(k)/k = se(ln k), the delta
+// method): the data do not determine it, and it must be marked so, though
+// with a single parameter the Jacobian has no direction small beside
+// another. Before, it was reported as k ± a standard error 10⁶ times k (the
+// light on/off series fitted as A -> B: 3.4e-13 ± 1.4e-7 s⁻¹).
+func TestConstantThatRanToZeroAloneIsNotDetermined(t *testing.T) {
+	times := linspace(0, 100, 30)
+	obs := mat.NewDense(len(times), 2, nil)
+	rng := rand.New(rand.NewPCG(3, 77))
+	for i := range times {
+		a := 1 + 0.01*math.Abs(rng.NormFloat64())
+		obs.Set(i, 0, a)
+		obs.Set(i, 1, 1-a)
+	}
+	res, err := FitProfiles(mustParse(t, "A -> B"), times, obs, []int{0, 1}, FitOptions{C0: []float64{1, 0}, InitialK: []float64{0.02}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Logf("k %.4g ± %.3g, not determined %v, warnings %q", res.K[0], res.KStdErr[0], res.KNotDetermined, res.Warnings)
+	if !(res.K[0] < 1e-6*0.02) {
+		t.Fatalf("k = %.4g: the fit did not run towards its least-squares value 0", res.K[0])
+	}
+	if res.KNotDetermined == nil || !res.KNotDetermined[0] || res.KStdErr[0] != 0 {
+		t.Errorf("k = %.4g ± %.3g reported as determined", res.K[0], res.KStdErr[0])
+	}
+	if !strings.Contains(strings.Join(res.Warnings, "\n"), "the data do not see it") {
+		t.Errorf("no warning says the data do not see the constant:\n%s", strings.Join(res.Warnings, "\n"))
+	}
+}
