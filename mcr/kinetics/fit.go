@@ -125,6 +125,9 @@ type FitResult struct {
 	// Model holds the model concentrations (n × species) or extents (n × steps).
 	Model    *mat.Dense
 	Residual *mat.Dense
+	// RowSSR, of a data fit, is each spectrum's residual sum of squares
+	// (in units of the noise when Weighted); nil for profile fits.
+	RowSSR []float64
 	// RMS is sqrt(SSR / number of data points); Sigma = sqrt(SSR / DegreesOfFreedom) is the
 	// noise estimate behind the standard errors.
 	RMS, SSR, Sigma float64
@@ -1359,13 +1362,15 @@ func (p *fitProblem) dataResult(lm *LMResult, d *mat.Dense, nObs int) (*FitResul
 		fitted, resid = mat.NewDense(n, m, nil), mat.NewDense(n, m, nil)
 	}
 	var lag lagSums
-	lm.SSR, lag = residualSums(d, model, spectra, fitted, resid)
+	rowSSR := make([]float64, n)
+	lm.SSR, lag = residualSums(d, model, spectra, fitted, resid, rowSSR)
 	res := p.result(lm, sim, model, nObs, nObs, rank*m)
 	res.Reduced = p.dred
 	res.RMS = math.Sqrt(lm.SSR / float64(nObs))
 	if rank < p.nModel {
 		res.Warnings = append(res.Warnings, fmt.Sprintf("the model columns have rank %d < %d: the spectra are a minimum-norm solution and not unique", rank, p.nModel))
 	}
+	res.RowSSR = rowSSR
 	if fitted != nil {
 		res.Fitted, res.Residual = fitted, resid
 	}
@@ -1570,8 +1575,8 @@ func (l lagSums) rho(n int) (float64, bool) {
 // sums, in the order Lag1 and a row-by-row sum of squares take them,
 // forming E a block of rows at a time (C Sᵀ by the matrix product, as a
 // whole-matrix product would). When fitted and resid are non-nil (n × m)
-// they receive C Sᵀ and E.
-func residualSums(d, c, s, fitted, resid *mat.Dense) (float64, lagSums) {
+// they receive C Sᵀ and E; rows (n) receives each row's sum of squares.
+func residualSums(d, c, s, fitted, resid *mat.Dense, rows []float64) (float64, lagSums) {
 	n, m := d.Dims()
 	_, q := c.Dims()
 	const block = 64
@@ -1593,11 +1598,14 @@ func residualSums(d, c, s, fitted, resid *mat.Dense) (float64, lagSums) {
 		mulByTranspose(f, c.Slice(lo, hi, 0, q).(*mat.Dense), s)
 		for i := lo; i < hi; i++ {
 			dr, fr, er := d.RawRowView(i), f.RawRowView(i-lo), e.RawRowView(i-lo)
+			var row float64
 			for j, v := range dr {
 				x := v - fr[j]
 				er[j] = x
 				ssr += x * x
+				row += x * x
 			}
+			rows[i] = row
 			if prev != nil {
 				for j, x := range er {
 					lag.num += prev[j] * x
