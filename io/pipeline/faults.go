@@ -27,11 +27,14 @@ func inputContext(source string, err error) error {
 
 // needTimes refuses a folder of spectra without a source of acquisition
 // times before any file is read: the fix is an option, so it is a usage error.
-func needTimes(s *Settings, data string) error {
+// A folder of JCAMP-DX files alone may carry the times in its headers;
+// reading it tells, and names a file without one.
+func needTimes(s *Settings, data string, folder spectra.FolderOptions) error {
 	if s.Times != "" || s.TimesFromName {
 		return nil
 	}
-	if st, err := os.Stat(s.Path(data)); err == nil && st.IsDir() {
+	dir := s.Path(data)
+	if st, err := os.Stat(dir); err == nil && st.IsDir() && !spectra.MayCarryTimes(dir, folder.Exclude) {
 		return usage("--data %s is a folder of spectra: give --times FILE (columns file,time_s) or --times-from-name", data)
 	}
 	return nil

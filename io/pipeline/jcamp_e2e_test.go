@@ -9,6 +9,7 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+	"time"
 
 	"github.com/bandsolve/bandsolve/io/demo"
 	"github.com/bandsolve/bandsolve/io/jcamp"
@@ -390,4 +391,54 @@ func csvReference(t *testing.T, q *quantised, root string) map[string][]byte {
 	}
 	writeFile(t, filepath.Join(csvDir, "blank.csv"), csvSpectrum(q.x, q.floats(q.blank), "intensity"))
 	return runFolder(t, csvDir, "scans", "blank.csv", "single-beam")
+}
+
+// A folder of .jdx files whose headers carry ##LONGDATE needs neither
+// --times nor --times-from-name (README, "Folder of spectrum files"): the
+// run reads the times from the headers, YYYY/MM/DD HH:MM:SS (JCAMP-DX 5.01,
+// Lampen et al., Pure Appl. Chem. 71 (1999) 1549; from memory), and gives
+// the same results as the CSV files with the times in their names. Names
+// that are counters instead are overruled by the headers, with a warning.
+func TestJCAMPFolderTimesFromHeaders(t *testing.T) {
+	q := makeQuantised(t, 21)
+	root := t.TempDir()
+	want := csvReference(t, q, root)
+	start := time.Date(2026, 11, 30, 23, 59, 0, 0, time.UTC) // the series runs past midnight
+	dir := filepath.Join(root, "stamped")
+	for i, row := range q.beams {
+		text := jcampBlock(fmt.Sprintf("scan %d", i+1), "ARBITRARY UNITS", q.x, row, q.yf, formDIFDUP, 0)
+		stamp := start.Add(time.Duration(q.times[i] * float64(time.Second))).Format("2006/01/02 15:04:05")
+		text = strings.Replace(text, "##JCAMP-DX=4.24\n", "##JCAMP-DX=4.24\n##LONGDATE="+stamp+"\n", 1)
+		writeFile(t, filepath.Join(dir, "scans", fmt.Sprintf("scan_%03d.jdx", i+1)), []byte(text))
+	}
+	writeFile(t, filepath.Join(dir, "blank.jdx"), []byte(jcampBlock("blank", "ARBITRARY UNITS", q.x, q.blank, q.yf, formSQZ, 0)))
+	for _, fromName := range []bool{false, true} {
+		s := NewSettings()
+		s.Dir, s.Data, s.Kind, s.Blanks = dir, []string{"scans"}, "single-beam", []string{"blank.jdx"}
+		s.TimesFromName, s.Pre, s.Report, s.Bands, s.Out, s.Quiet = fromName, 1, "off", "off", "out", true
+		s.Force = true
+		r, err := Execute(s, Streams{Out: &bytes.Buffer{}, Err: &bytes.Buffer{}})
+		if err != nil {
+			t.Fatalf("times from name %v: %v", fromName, err)
+		}
+		for i, tm := range r.Times {
+			if tm != q.times[i]-q.times[0] {
+				t.Fatalf("times from name %v: spectrum %d at %g s, its ##LONGDATE says %g s", fromName, i+1, tm, q.times[i]-q.times[0])
+			}
+		}
+		said := strings.Contains(strings.Join(r.Warnings, "\n"), "scan_002.jdx: its name puts it 1 s after scan_001.jdx")
+		if said != fromName {
+			t.Errorf("times from name %v: warning said %v; warnings %q", fromName, said, r.Warnings)
+		}
+		if q.times[0] != 0 {
+			continue // the CSV run's times start elsewhere
+		}
+		got := map[string][]byte{}
+		for _, f := range []string{"spectra.csv", "profiles.csv", "singular_values.csv"} {
+			got[f], _ = os.ReadFile(filepath.Join(dir, "out", f))
+			if d := firstDifference(f, want[f], got[f]); d != nil {
+				t.Errorf("times from name %v: differs from the CSV run: %s", fromName, d)
+			}
+		}
+	}
 }

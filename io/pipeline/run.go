@@ -954,7 +954,7 @@ func loadSeries(s *Settings, r *Result, folder spectra.FolderOptions, kind spect
 		if p == "" {
 			return nil, "", usage("--data is empty: give a matrix CSV, a folder of spectra or a JCAMP-DX file")
 		}
-		if err := needTimes(s, p); err != nil {
+		if err := needTimes(s, p, folder); err != nil {
 			return nil, "", err
 		}
 		fmt.Fprintf(log, "reading %s\n", p)
@@ -965,6 +965,7 @@ func loadSeries(s *Settings, r *Result, folder spectra.FolderOptions, kind spect
 		if err := spectra.CheckKind(kind, ser); err != nil {
 			return nil, "", usage("%v", err)
 		}
+		r.Warnings = append(r.Warnings, ser.Warnings...)
 		series = append(series, ser)
 	}
 	kind, err := beamKind(s, r, series, kind)

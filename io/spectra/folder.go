@@ -187,10 +187,14 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 		return nil, inputErr(dir, 0, "put one file per spectrum in it (.csv, .txt, .dat, .jdx …)", "holds no spectrum files")
 	}
 	specs, errs := readFiles(files)
+	var warning string
 	if fromHeaders {
 		if times, err = headerTimes(dir, files, specs, errs); err != nil {
 			return nil, err
 		}
+	} else if header, ok := headerTimesOf(files, specs, errs); ok {
+		src := timeSource{table: opt.TimesFile, label: "name", short: func(i int) string { return filepath.Base(files[i]) }}
+		times, warning = weighHeaderTimes(files, times, header, src)
 	}
 	order := make([]int, len(files))
 	for i := range order {
@@ -207,7 +211,11 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 	if err != nil {
 		return nil, err
 	}
-	return stackSpectra(dir, files, specs, times, order, target, opt.Resample)
+	s, err := stackSpectra(dir, files, specs, times, order, target, opt.Resample)
+	if err == nil && warning != "" {
+		s.Warnings = append(s.Warnings, warning)
+	}
+	return s, err
 }
 
 // OwnSpectrum says whether file is one of the spectra ReadFolder reads from
@@ -382,8 +390,10 @@ func headerTimes(dir string, files []string, specs []*Spectrum, errs []error) ([
 			return nil, err
 		}
 	}
-	if !allAcquired(specs) {
-		return nil, noTimes(dir)
+	for i, sp := range specs {
+		if sp.Acquired.IsZero() {
+			return nil, inputErr(files[i], 0, "give --times FILE (columns file,time_s) or --times-from-name", "its JCAMP-DX header has no acquisition time (##LONGDATE, or ##DATE with ##TIME), and a folder of spectra needs one for every file")
+		}
 	}
 	times := acquiredSeconds(specs)
 	if i, other := repeatedTime(times, files); i >= 0 {
@@ -461,6 +471,14 @@ var readSpectrum = ReadSpectrum
 
 func noTimes(dir string) error {
 	return inputErr(dir, 0, "give --times FILE (columns file,time_s) or --times-from-name", "a folder of spectra needs acquisition times")
+}
+
+// MayCarryTimes says whether the folder's spectrum files (exclude left out)
+// are all JCAMP-DX, whose headers may give the acquisition times that a
+// folder otherwise needs from --times or --times-from-name.
+func MayCarryTimes(dir string, exclude []string) bool {
+	files, err := spectrumFiles(dir, exclude)
+	return err == nil && len(files) > 0 && allJCAMP(files)
 }
 
 func allJCAMP(files []string) bool {

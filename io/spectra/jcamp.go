@@ -126,7 +126,30 @@ func seriesFromSpectra(path string, sps []*Spectrum, opt FolderOptions) (*Series
 	if err != nil {
 		return nil, err
 	}
-	return b.series(times, opt.Resample)
+	var warning string
+	if opt.TimesFile != "" || opt.TimesFromName {
+		times, warning = b.weighHeaders(times, opt.TimesFile)
+	}
+	s, err := b.series(times, opt.Resample)
+	if err == nil && warning != "" {
+		s.Warnings = append(s.Warnings, warning)
+	}
+	return s, err
+}
+
+// weighHeaders settles the times asked for against the blocks' own
+// acquisition times when every block of several has one
+// (weighHeaderTimes); a lone spectrum has no interval to compare.
+func (b jcampBlocks) weighHeaders(given []float64, table string) ([]float64, string) {
+	names := make([]string, len(b.sps))
+	for i, sp := range b.sps {
+		names[i] = b.path + ": " + b.name(sp)
+	}
+	header, ok := headerTimesOf(names, b.sps, nil)
+	if len(b.sps) < 2 || !ok {
+		return given, ""
+	}
+	return weighHeaderTimes(names, given, header, timeSource{table: table, label: "##TITLE", short: func(i int) string { return b.name(b.sps[i]) }})
 }
 
 // jcampBlocks is the spectra of one JCAMP-DX file and the file's path,

@@ -39,6 +39,9 @@ type Series struct {
 	Values   *mat.Dense
 	Source   string
 	Kind     string // kind declared by the file itself (JCAMP-DX), "" if none
+	// Warnings are what reading found worth a look but not a stop: times
+	// asked for that the files' own headers contradict.
+	Warnings []string
 
 	// scan is what the parse took channel by channel for the single-beam
 	// assembly (FolderOptions.ScanBeams), nil when nothing was; it
