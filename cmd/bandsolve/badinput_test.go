@@ -362,14 +362,19 @@ func badCases() []badCase {
 		{name: "output folder holds earlier results", args: []string{"--data", "B/good.csv", "--out", "W/old"}, setup: func(t *testing.T, w string) {
 			os.Mkdir(filepath.Join(w, "old"), 0o755)
 			writeFile(t, filepath.Join(w, "old", "summary.json"), "{}\n")
+			writeFile(t, filepath.Join(w, "old", "manifest.json"), `{"tool": "bandsolve"}`)
 		}, code: 1, want: []string{"old: output folder holds earlier results", "add --force"}},
+		{name: "output folder holds the user's files", args: []string{"--data", "B/good.csv", "--out", "W/notmine"}, setup: func(t *testing.T, w string) {
+			os.Mkdir(filepath.Join(w, "notmine"), 0o755)
+			writeFile(t, filepath.Join(w, "notmine", "keep.txt"), "")
+		}, code: 1, want: []string{"notmine: holds files bandsolve did not write", "with or without --force: choose another --out"}},
 		// --force replaces only what bandsolve made, never through a link,
 		// never a folder holding an input, never . or .. — refused before
 		// any input is read (the missing data below is never reached).
 		{name: "force on a folder bandsolve did not make", args: []string{"--data", "W/missing.csv", "--out", "W/thesis", "--force"}, setup: func(t *testing.T, w string) {
 			os.Mkdir(filepath.Join(w, "thesis"), 0o755)
 			writeFile(t, filepath.Join(w, "thesis", "chapter1.tex"), "keep me\n")
-		}, code: 1, want: []string{"thesis: holds files bandsolve did not write", "--force replaces only an output folder of bandsolve or an empty folder"}},
+		}, code: 1, want: []string{"thesis: holds files bandsolve did not write", "never replaces, with or without --force"}},
 		{name: "force through a symbolic link", args: []string{"--data", "W/missing.csv", "--out", "W/link", "--force"}, setup: func(t *testing.T, w string) {
 			os.Mkdir(filepath.Join(w, "real"), 0o755)
 			writeFile(t, filepath.Join(w, "real", "manifest.json"), `{"tool": "bandsolve"}`)

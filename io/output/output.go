@@ -109,11 +109,13 @@ func replaceable(out, clean string, st os.FileInfo, force bool) error {
 	if len(ents) == 0 {
 		return nil
 	}
+	// The user's own files are told apart first: advising --force for them
+	// would only lead to a second refusal.
+	if !Made(clean) {
+		return fmt.Errorf("%s: holds files bandsolve did not write (it has no %s of bandsolve), which it never replaces, with or without --force: choose another --out, a new or empty folder", out, ManifestName)
+	}
 	if !force {
 		return fmt.Errorf("%s: %w; add --force to replace them, or choose another --out", out, ErrExists)
-	}
-	if !Made(clean) {
-		return fmt.Errorf("%s: holds files bandsolve did not write (it has no %s of bandsolve); --force replaces only an output folder of bandsolve or an empty folder: choose another --out", out, ManifestName)
 	}
 	if err := removable(clean); err != nil {
 		return fmt.Errorf("%s: --force cannot remove the earlier results (%v); make the folder writable, or choose another --out", out, unwrap(err))
