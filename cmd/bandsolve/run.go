@@ -199,8 +199,8 @@ func prepareShare(files []string, flags *pipeline.Settings, changed map[string]b
 	outs := map[string]int{}
 	var mine []*prepared
 	for k, f := range files {
-		p := &prepared{file: f}
-		p.s, p.err = settingsFor(f, flags, changed, batch, outs)
+		p := &prepared{file: f, changed: changed}
+		p.s, p.cf, p.err = settingsFor(f, flags, changed, batch, outs)
 		if shard.Has(k) {
 			mine = append(mine, p)
 		}
@@ -243,6 +243,11 @@ type prepared struct {
 	file string
 	s    *pipeline.Settings
 	err  error
+	// cf is the file as read and changed the options the command line
+	// set over it: a fault of the run is put at the file's line
+	// (placeFault) only when the file set the option.
+	cf      *cmdfile.File
+	changed map[string]bool
 }
 
 // runBatch runs the files on workers at once (campaign.Run). One worker
@@ -312,7 +317,7 @@ func runOne(p *prepared, st pipeline.Streams) (o outcome) {
 	o.out = s.Path(s.Out)
 	r, err := pipeline.Execute(s, st)
 	if err != nil {
-		return fail(o, err)
+		return fail(o, placeFault(p, err))
 	}
 	o.status = "ok"
 	o.detail = fmt.Sprintf("%d component(s), %s mode", r.Components, r.Mode)
@@ -333,11 +338,19 @@ func fail(o outcome, err error) outcome {
 }
 
 // settingsFor reads a command file and lays the command line over it.
-func settingsFor(file string, flags *pipeline.Settings, changed map[string]bool, batch bool, outs map[string]int) (*pipeline.Settings, error) {
+func settingsFor(file string, flags *pipeline.Settings, changed map[string]bool, batch bool, outs map[string]int) (*pipeline.Settings, *cmdfile.File, error) {
 	s := pipeline.NewSettings()
-	if _, err := pipeline.LoadCommandFile(file, s, changed); err != nil {
-		return nil, err
+	cf, err := pipeline.LoadCommandFile(file, s, changed)
+	if err != nil {
+		return nil, nil, err
 	}
+	s, err = laySettings(file, s, flags, changed, batch, outs)
+	return s, cf, err
+}
+
+// laySettings lays the command line over a command file's settings s and
+// decides the output folder.
+func laySettings(file string, s *pipeline.Settings, flags *pipeline.Settings, changed map[string]bool, batch bool, outs map[string]int) (*pipeline.Settings, error) {
 	dir, err := filepath.Abs(s.Dir)
 	if err != nil {
 		return nil, err

@@ -118,6 +118,51 @@ func TestRunCommandFileErrors(t *testing.T) {
 	}
 }
 
+// A fault of the run that a setting of the file caused is put at the
+// file's line and column, with the keyword as the file writes it, as
+// docs/command-files.md promises for every fault; a path written from the
+// working folder rather than the file's is pointed out. The same fault
+// from the command line is the flag's, unplaced.
+func TestRunFaultsNameTheLine(t *testing.T) {
+	root := t.TempDir()
+	writeDemoInputs(t, filepath.Join(root, "exp", "data"))
+	t.Chdir(root)
+	head := "data data/series.csv\nblank data/blank.csv\n" + quickSettings // lines 1-6
+	for _, c := range []struct {
+		name, text string
+		code       int
+		want       []string
+	}{
+		{"missing.bsr", "data data/seriess.csv\n", exitRun, []string{"exp/missing.bsr:1:6: exp/data/seriess.csv: cannot read", "check the data path"}},
+		{"relpath.bsr", "data exp/data/series.csv\n", exitRun, []string{"exp/relpath.bsr:1:6: ", "start at the folder its paths are read from, exp, not the working folder: write data data/series.csv"}},
+		{"model.bsr", head + "model A ->\n", exitUsage, []string{"exp/model.bsr:7:7: model \"A ->\": column 5: expected a species name"}},
+		{"kstart.bsr", head + "model A -> B\nk-start 1=abc\n", exitUsage, []string{"exp/kstart.bsr:8:9: k-start 1=abc: want a rate constant > 0"}},
+		{"region.bsr", head + "region 9000:8500\n", exitUsage, []string{"exp/region.bsr:7:8: region 9000:8500: the regions select no axis point"}},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			p := filepath.Join("exp", c.name)
+			writeText(t, p, c.text)
+			r := run("run", p, "--quiet")
+			if r.code != c.code {
+				t.Errorf("exit %d, want %d: %s", r.code, c.code, r.stderr)
+			}
+			for _, w := range c.want {
+				if !strings.Contains(r.stderr, w) {
+					t.Errorf("stderr %q\nwant it to contain %q", r.stderr, w)
+				}
+			}
+			if strings.Contains(r.stderr, "--") || strings.Count(strings.TrimSpace(r.stderr), "\n") > 0 {
+				t.Errorf("stderr %q: want one line naming the keyword, not the flag", r.stderr)
+			}
+		})
+	}
+	writeText(t, filepath.Join("exp", "plain.bsr"), head)
+	r := run("run", filepath.Join("exp", "plain.bsr"), "--quiet", "--region", "9000:8500")
+	if r.code != exitUsage || !strings.Contains(r.stderr, "bandsolve run: --region 9000:8500: the regions select no axis point") {
+		t.Errorf("a region from the command line: exit %d, %q", r.code, r.stderr)
+	}
+}
+
 // A link inside the file's folder that points outside it does not let a
 // command file write elsewhere.
 func TestRunOutThroughLink(t *testing.T) {

@@ -836,9 +836,25 @@ func commonChannels(s *Settings, series []*spectra.Series) ([]float64, []int, er
 	}
 	chans, err := spectra.SelectChannels(axis, keep, excl)
 	if err != nil {
-		return nil, nil, usage("--region/--exclude: %v", err)
+		return nil, nil, usage("%s: %v", regionAtFault(s, axis, keep), err)
 	}
 	return spectra.KeepValues(axis, chans), chans, nil
+}
+
+// regionAtFault names the setting that left too few axis points: the
+// --region values when they alone select too few, else the --exclude
+// values, so that a command file can point at the line at fault.
+func regionAtFault(s *Settings, axis []float64, keep []spectra.Range) string {
+	if len(s.Regions) == 0 && len(s.Excludes) == 0 {
+		return "--data " + strings.Join(s.Data, ", ") // an axis of one point
+	}
+	if len(s.Excludes) == 0 {
+		return "--region " + strings.Join(s.Regions, ", ")
+	}
+	if _, err := spectra.SelectChannels(axis, keep, nil); len(s.Regions) > 0 && err != nil {
+		return "--region " + strings.Join(s.Regions, ", ")
+	}
+	return "--exclude " + strings.Join(s.Excludes, ", ")
 }
 
 // fixedSpectra reads the blank single beams (one per experiment, nil

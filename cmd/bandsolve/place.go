@@ -1,0 +1,137 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+	"regexp"
+	"strings"
+
+	"github.com/bandsolve/bandsolve/io/cmdfile"
+	"github.com/bandsolve/bandsolve/io/pipeline"
+)
+
+// placedError is a fault of a run put at the command-file line whose
+// setting caused it; it unwraps to the fault, whose kind sets the exit code.
+type placedError struct {
+	msg string
+	err error
+}
+
+func (e *placedError) Error() string { return e.msg }
+func (e *placedError) Unwrap() error { return e.err }
+
+// flagInMessage finds the options a run's messages name, as flags.
+var flagInMessage = regexp.MustCompile(`--([a-z][a-z0-9]*(?:-[a-z0-9]+)*)`)
+
+// placeFault puts a run's fault at the line of the command file that set
+// the option it names (docs/command-files.md: every fault names file, line
+// and column), with the keyword as the file writes it in place of the
+// flag. Faults of options the command line set, or that name none, are
+// left as they are: the file is not at fault.
+func placeFault(p *prepared, err error) error {
+	if p.cf == nil || err == nil {
+		return err
+	}
+	var ce *cmdfile.Error
+	if errors.As(err, &ce) {
+		return err // placed already
+	}
+	msg := err.Error()
+	for _, m := range flagInMessage.FindAllStringSubmatchIndex(msg, -1) {
+		name := msg[m[2]:m[3]]
+		o, ok := pipeline.Lookup(name)
+		if !ok || o.Name != name || p.changed[name] {
+			continue
+		}
+		e, ok := entryFor(p.cf, name, msg, p.s)
+		if !ok {
+			continue
+		}
+		col := e.ValueCol
+		if col == 0 {
+			col = e.Col
+		}
+		text := replaceFlag(msg, name, e.Key) + relativePathHint(p.s, name, e.Key, e.Value)
+		return &placedError{msg: fmt.Sprintf("%s:%d:%d: %s", p.cf.Name, e.Line, col, text), err: err}
+	}
+	return err
+}
+
+// entryFor is the file's line for option name: of a repeated keyword, the
+// one whose value (or the path it reads) the message quotes, else the first.
+func entryFor(f *cmdfile.File, name, msg string, s *pipeline.Settings) (cmdfile.Entry, bool) {
+	var found []cmdfile.Entry
+	for _, e := range f.Entries {
+		if o, ok := pipeline.Lookup(e.Key); ok && o.Name == name {
+			found = append(found, e)
+		}
+	}
+	if len(found) == 0 {
+		return cmdfile.Entry{}, false
+	}
+	for _, e := range found {
+		v := strings.TrimSpace(e.Value)
+		if v == "" {
+			continue
+		}
+		if strings.Contains(msg, v) || strings.Contains(msg, filepath.Clean(v)) || strings.Contains(msg, filepath.Clean(s.Path(v))) {
+			return e, true
+		}
+	}
+	return found[0], true
+}
+
+// replaceFlag writes --name as the file's keyword wherever it stands as a
+// whole flag (not the start of a longer one, --times in --times-from-name).
+func replaceFlag(msg, name, keyword string) string {
+	flag := "--" + name
+	var b strings.Builder
+	for {
+		i := strings.Index(msg, flag)
+		if i < 0 {
+			b.WriteString(msg)
+			return b.String()
+		}
+		end := i + len(flag)
+		whole := end == len(msg) || !(msg[end] == '-' || msg[end] >= 'a' && msg[end] <= 'z' || msg[end] >= '0' && msg[end] <= '9')
+		b.WriteString(msg[:i])
+		if whole {
+			b.WriteString(keyword)
+		} else {
+			b.WriteString(flag)
+		}
+		msg = msg[end:]
+	}
+}
+
+// relativePathHint says, for a path the file gives that does not exist
+// where the file's paths start but does from the working folder, that
+// paths in a command file are read from its own folder, and how to write
+// this one: the usual slip of a path copied from a shell.
+func relativePathHint(s *pipeline.Settings, name, keyword, value string) string {
+	v := strings.TrimSpace(value)
+	if !pipeline.IsPath(name, v) || filepath.IsAbs(v) || s.Dir == "" {
+		return ""
+	}
+	if _, err := os.Stat(s.Path(v)); err == nil {
+		return ""
+	}
+	abs, err := filepath.Abs(v)
+	if err != nil {
+		return ""
+	}
+	if _, err := os.Stat(abs); err != nil {
+		return ""
+	}
+	base, err := filepath.Abs(s.Dir)
+	if err != nil {
+		return ""
+	}
+	rel, err := filepath.Rel(base, abs)
+	if err != nil {
+		return ""
+	}
+	return fmt.Sprintf(" (relative paths in a command file start at the folder its paths are read from, %s, not the working folder: write %s %s)", s.Dir, keyword, filepath.ToSlash(rel))
+}
