@@ -982,6 +982,9 @@ func loadSeries(s *Settings, r *Result, folder spectra.FolderOptions, kind spect
 			return nil, "", usage("%v", err)
 		}
 		r.Warnings = append(r.Warnings, ser.Warnings...)
+		for _, n := range ser.Notes {
+			r.Notes = append(r.Notes, p+": "+n)
+		}
 		series = append(series, ser)
 	}
 	kind, err := beamKind(s, r, series, kind)

@@ -207,11 +207,11 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 			return nil, errs[i]
 		}
 	}
-	target, err := folderAxis(dir, specs, specs[order[0]], opt.Resample)
+	target, keep, err := folderAxis(dir, specs, specs[order[0]], opt.Resample)
 	if err != nil {
 		return nil, err
 	}
-	s, err := stackSpectra(dir, files, specs, times, order, target, opt.Resample)
+	s, err := stackSpectra(dir, files, specs, times, order, target, keep, opt.Resample)
 	if err == nil && warning != "" {
 		s.Warnings = append(s.Warnings, warning)
 	}
@@ -403,40 +403,45 @@ func headerTimes(dir string, files []string, specs []*Spectrum, errs []error) ([
 }
 
 // folderAxis is the axis of the series: the first file's, or with resampling
-// its points inside the range every file covers, since only there can every
-// file be interpolated.
-func folderAxis(dir string, specs []*Spectrum, first *Spectrum, resample bool) ([]float64, error) {
+// its points inside the range every file to be interpolated covers, since
+// only there can every file be interpolated; keep are those points'
+// indices (nil: all of them). Files on the first file's axis, or within
+// axisSlack of it, are not interpolated and do not narrow it.
+func folderAxis(dir string, specs []*Spectrum, first *Spectrum, resample bool) ([]float64, []int, error) {
 	if !resample {
-		return first.Axis, nil
+		return first.Axis, nil, nil
 	}
 	var axes [][]float64
 	for _, sp := range specs {
-		axes = append(axes, sp.Axis)
+		if _, frac, ok := axisOffset(sp.Axis, first.Axis); !ok || frac > axisSlack {
+			axes = append(axes, sp.Axis)
+		}
+	}
+	if len(axes) == 0 {
+		return first.Axis, nil, nil
 	}
 	idx := CommonRange(first.Axis, axes...)
 	if len(idx) < 2 {
-		return nil, inputErr(dir, 0, "export the spectra over overlapping ranges", "the files' axes have no common range")
+		return nil, nil, inputErr(dir, 0, "export the spectra over overlapping ranges", "the files' axes have no common range")
 	}
-	return KeepValues(first.Axis, idx), nil
+	return KeepValues(first.Axis, idx), idx, nil
 }
 
 // stackSpectra puts the spectra in time order as the rows of the series on
 // the target axis (resampled there when allowed), all of the first one's kind.
-func stackSpectra(dir string, files []string, specs []*Spectrum, times []float64, order []int, target []float64, resample bool) (*Series, error) {
+func stackSpectra(dir string, files []string, specs []*Spectrum, times []float64, order []int, target []float64, keep []int, resample bool) (*Series, error) {
 	first, firstName := specs[order[0]], files[order[0]]
 	s := &Series{AxisName: first.AxisName, Axis: target, Source: dir, Kind: first.Kind}
 	s.Values = mat.NewDense(len(files), len(target), nil)
+	tally := axisTally{ref: filepath.Base(firstName), axisName: first.AxisName}
 	for r, i := range order {
 		sp := specs[i]
-		vals := sp.Values
-		if !sameAxis(sp.Axis, target) {
-			if !resample {
-				return nil, inputErr(files[i], 0, "use --resample to interpolate onto the first file's axis, or export all spectra on one axis", "%s", describeAxisMismatch(sp.Axis, first.Axis, firstName))
-			}
-			var err error
-			if vals, err = Resample(sp.Axis, sp.Values, target); err != nil {
-				return nil, inputErr(files[i], 0, "export the spectra over overlapping ranges", "cannot resample: %v", err)
-			}
+		vals, ok, err := tally.place(sp, filepath.Base(files[i]), times[i], first.Axis, target, keep, resample)
+		if err != nil {
+			return nil, inputErr(files[i], 0, "export the spectra over overlapping ranges", "cannot resample: %v", err)
+		}
+		if !ok {
+			return nil, inputErr(files[i], 0, "use --resample to interpolate onto the first file's axis, or export all spectra on one axis", "%s", describeAxisMismatch(sp.Axis, first.Axis, firstName))
 		}
 		if sp.Kind != first.Kind {
 			return nil, inputErr(files[i], 0, "give files of one kind", "holds %s data, %s holds %s", orUnknown(sp.Kind), firstName, orUnknown(first.Kind))
@@ -445,6 +450,7 @@ func stackSpectra(dir string, files []string, specs []*Spectrum, times []float64
 		s.Times = append(s.Times, times[i])
 		s.Names = append(s.Names, files[i])
 	}
+	s.Notes = tally.notes()
 	return s, nil
 }
 

@@ -254,9 +254,10 @@ func (b jcampBlocks) series(times []float64, resample bool) (*Series, error) {
 	sort.SliceStable(order, func(x, y int) bool { return times[order[x]] < times[order[y]] })
 	s := &Series{AxisName: first.AxisName, Axis: first.Axis, Source: b.path, Kind: first.Kind}
 	s.Values = mat.NewDense(len(b.sps), len(first.Axis), nil)
+	tally := axisTally{ref: b.name(first), axisName: first.AxisName}
 	for r, i := range order {
 		sp := b.sps[i]
-		vals, err := b.onFirstAxis(sp, resample)
+		vals, err := b.onFirstAxis(&tally, sp, times[i], resample)
 		if err != nil {
 			return nil, err
 		}
@@ -270,22 +271,20 @@ func (b jcampBlocks) series(times []float64, resample bool) (*Series, error) {
 		s.Times = append(s.Times, times[i])
 		s.Names = append(s.Names, sp.Source)
 	}
+	s.Notes = tally.notes()
 	return s, nil
 }
 
 // onFirstAxis gives a block's values on the first block's axis: as they are
 // when the axes agree, interpolated when --resample allows it.
-func (b jcampBlocks) onFirstAxis(sp *Spectrum, resample bool) ([]float64, error) {
+func (b jcampBlocks) onFirstAxis(tally *axisTally, sp *Spectrum, t float64, resample bool) ([]float64, error) {
 	first := b.sps[0]
-	if sameAxis(sp.Axis, first.Axis) {
-		return sp.Values, nil
-	}
-	if !resample {
-		return nil, inputErr(b.path, 0, "use --resample to interpolate onto the first block's axis, or export every block on one axis", "%s: %s", b.name(sp), describeAxisMismatch(sp.Axis, first.Axis, b.name(first)))
-	}
-	vals, err := Resample(sp.Axis, sp.Values, first.Axis)
+	vals, ok, err := tally.place(sp, b.name(sp), t, first.Axis, first.Axis, nil, resample)
 	if err != nil {
 		return nil, inputErr(b.path, 0, "export the spectra over overlapping ranges", "%s: cannot resample: %v", b.name(sp), err)
+	}
+	if !ok {
+		return nil, inputErr(b.path, 0, "use --resample to interpolate onto the first block's axis, or export every block on one axis", "%s: %s", b.name(sp), describeAxisMismatch(sp.Axis, first.Axis, b.name(first)))
 	}
 	return vals, nil
 }

@@ -42,6 +42,9 @@ type Series struct {
 	// Warnings are what reading found worth a look but not a stop: times
 	// asked for that the files' own headers contradict.
 	Warnings []string
+	// Notes say how the spectra were put on one axis (a rounded axis
+	// taken as it is, spectra interpolated with --resample).
+	Notes []string
 
 	// scan is what the parse took channel by channel for the single-beam
 	// assembly (FolderOptions.ScanBeams), nil when nothing was; it
