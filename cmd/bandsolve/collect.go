@@ -21,9 +21,11 @@ the folder has no readable summary.json), components, rank_estimate, mode,
 spectra, points, noise_sigma, lack_of_fit_percent, noise_lack_of_fit_percent,
 residual_to_noise (the residual over the noise: 1 = fits to the noise),
 kinetics_model, then k_per_s[STEP] and stderr_per_s[STEP] for every
-kinetic step met, then warnings (how many), water_vapour (changed, no
-change or not checked) and vapour_line_change (the largest line change, in
-absorbance). A value a folder lacks is an empty cell; numbers have 10
+kinetic step met (empty for a constant the data do not determine), then
+warnings (how many), water_vapour (changed, no change or not checked),
+vapour_line_change (the largest line change, in absorbance) and notes
+(what a cell cannot say: constants not determined and the sum the data do
+determine). A value a folder lacks is an empty cell; numbers have 10
 significant digits, as in every result file. The exit status is 1 if any
 folder had no readable summary.
 

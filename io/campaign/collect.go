@@ -9,6 +9,7 @@ import (
 	"os"
 	"path/filepath"
 	"strconv"
+	"strings"
 
 	"github.com/bandsolve/bandsolve/io/output"
 )
@@ -29,69 +30,44 @@ var fixedColumns = []string{"folder", "status", "components", "rank_estimate", "
 // per folder in the order given, the fixed columns, then for each kinetic
 // step met (in order of first appearance) the pair k_per_s[STEP],
 // stderr_per_s[STEP], then warnings (how many), then water_vapour and
-// vapour_line_change (vapourCells). A key a summary lacks is an
-// empty cell; a folder without a readable summary.json keeps its row, with
-// the reason in status, and is listed in problems. Numbers are written as
-// output.Float writes every result file's: encoding/json, which wrote
-// summary.json, gives 0.00003710714947 beside 1.947858933e-7 in one column
-// of rate constants and their errors.
+// vapour_line_change (vapourCells), then notes. A key a summary lacks is
+// an empty cell; a folder without a readable summary.json keeps its row,
+// with the reason in status, and is listed in problems. Numbers are
+// written as output.Float writes every result file's: encoding/json,
+// which wrote summary.json, gives 0.00003710714947 beside 1.947858933e-7
+// in one column of rate constants and their errors.
+//
+// A rate constant the data do not determine (not_determined) is an empty
+// cell with no standard error, and notes says so with the sum the data do
+// determine: the value the fit ended at is one of a continuum that fits
+// as well, not a measurement.
 //
 // residual_to_noise is the summary's own key when the run wrote one (the
 // noise-weighted fit), else lack_of_fit_percent ÷ noise_lack_of_fit_percent:
 // both are 100·‖·‖/‖D‖ of the same data, so the ratio is the root mean
 // square residual over the noise level (1 = the model fits to the noise).
 func Collect(folders []string) (t output.Table, problems []string) {
-	type row struct {
-		cells map[string]string
-		steps map[string][2]string
-	}
 	var rows []row
 	var steps []string
 	seen := map[string]bool{}
 	for _, dir := range folders {
-		r := row{cells: map[string]string{"folder": dir}, steps: map[string][2]string{}}
-		s, err := readSummary(dir)
+		r, err := collectRow(dir)
 		if err != nil {
-			r.cells["status"] = err.Error()
 			problems = append(problems, fmt.Sprintf("%s: %v", dir, err))
-			rows = append(rows, r)
-			continue
 		}
-		r.cells["status"] = "ok"
-		for _, k := range fixedColumns[2:] {
-			if v, ok := s.scalar(k); ok {
-				r.cells[k] = v
+		for _, st := range r.order {
+			if !seen[st] {
+				seen[st] = true
+				steps = append(steps, st)
 			}
 		}
-		if v, ok := s.scalar("residual_to_noise"); ok {
-			r.cells["residual_to_noise"] = v
-		} else if q := s.ratio("lack_of_fit_percent", "noise_lack_of_fit_percent"); q != "" {
-			r.cells["residual_to_noise"] = q
-		}
-		if kin := s.object("kinetics"); kin != nil {
-			if v, ok := kin.scalar("model"); ok {
-				r.cells["kinetics_model"] = v
-			}
-			for _, rc := range kin.list("rate_constants") {
-				step, _ := rc.scalar("step")
-				k, _ := rc.scalar("k_per_s")
-				se, _ := rc.scalar("stderr_per_s")
-				if !seen[step] {
-					seen[step] = true
-					steps = append(steps, step)
-				}
-				r.steps[step] = [2]string{k, se}
-			}
-		}
-		r.cells["warnings"] = strconv.Itoa(len(s.list("warnings")))
-		r.cells["water_vapour"], r.cells["vapour_line_change"] = vapourCells(s.object("water_vapour"))
 		rows = append(rows, r)
 	}
 	t.Header = append([]string(nil), fixedColumns...)
 	for _, st := range steps {
 		t.Header = append(t.Header, "k_per_s["+st+"]", "stderr_per_s["+st+"]")
 	}
-	t.Header = append(t.Header, "warnings", "water_vapour", "vapour_line_change")
+	t.Header = append(t.Header, trailingColumns...)
 	for _, r := range rows {
 		var cells []string
 		for _, k := range fixedColumns {
@@ -101,9 +77,108 @@ func Collect(folders []string) (t output.Table, problems []string) {
 			p := r.steps[st]
 			cells = append(cells, p[0], p[1])
 		}
-		t.Rows = append(t.Rows, append(cells, r.cells["warnings"], r.cells["water_vapour"], r.cells["vapour_line_change"]))
+		for _, k := range trailingColumns {
+			cells = append(cells, r.cells[k])
+		}
+		t.Rows = append(t.Rows, cells)
 	}
 	return t, problems
+}
+
+// trailingColumns follow the rate constants.
+var trailingColumns = []string{"warnings", "water_vapour", "vapour_line_change", "notes"}
+
+// row is one folder's cells: fixed and trailing columns by name, and the
+// reported fit's rate constant and standard error by step, in the order
+// the steps are written.
+type row struct {
+	cells map[string]string
+	steps map[string][2]string
+	order []string
+	notes []string
+}
+
+func collectRow(dir string) (row, error) {
+	r := row{cells: map[string]string{"folder": dir}, steps: map[string][2]string{}}
+	s, err := readSummary(dir)
+	if err != nil {
+		r.cells["status"] = err.Error()
+		return r, err
+	}
+	r.cells["status"] = "ok"
+	for _, k := range fixedColumns[2:] {
+		if v, ok := s.scalar(k); ok {
+			r.cells[k] = v
+		}
+	}
+	if v, ok := s.scalar("residual_to_noise"); ok {
+		r.cells["residual_to_noise"] = v
+	} else if q := s.ratio("lack_of_fit_percent", "noise_lack_of_fit_percent"); q != "" {
+		r.cells["residual_to_noise"] = q
+	}
+	if kin := s.object("kinetics"); kin != nil {
+		r.kinetics(kin)
+	}
+	r.cells["warnings"] = strconv.Itoa(len(s.list("warnings")))
+	r.cells["water_vapour"], r.cells["vapour_line_change"] = vapourCells(s.object("water_vapour"))
+	r.cells["notes"] = strings.Join(r.notes, "; ")
+	return r, nil
+}
+
+// kinetics fills the model and the reported fit's rate constants.
+func (r *row) kinetics(kin object) {
+	if v, ok := kin.scalar("model"); ok {
+		r.cells["kinetics_model"] = v
+	}
+	rcs := kin.list("rate_constants")
+	for _, rc := range rcs {
+		step, _ := rc.scalar("step")
+		k, _ := rc.scalar("k_per_s")
+		se, _ := rc.scalar("stderr_per_s")
+		if notDetermined(rc) {
+			k, se = "", ""
+		}
+		r.order = append(r.order, step)
+		r.steps[step] = [2]string{k, se}
+	}
+	method, _ := kin.scalar("method")
+	if n := undeterminedNote(method, rcs, kin.object("determined_sum")); n != "" {
+		r.notes = append(r.notes, n)
+	}
+}
+
+func notDetermined(rc object) bool {
+	v, _ := rc.scalar("not_determined")
+	return v == "true"
+}
+
+// undeterminedNote says which of a fit's rate constants the data do not
+// determine, and the sum they do when the summary gives one; "" when all
+// are determined.
+func undeterminedNote(method string, rcs []object, sum object) string {
+	var steps []string
+	for _, rc := range rcs {
+		if notDetermined(rc) {
+			st, _ := rc.scalar("step")
+			steps = append(steps, st)
+		}
+	}
+	if len(steps) == 0 {
+		return ""
+	}
+	fit := "the kinetic fit"
+	if method != "" {
+		fit = method + " fit"
+	}
+	n := fmt.Sprintf("%s: k of %s not determined by the data (cells left empty)", fit, strings.Join(steps, ", "))
+	if sum != nil {
+		terms, _ := sum.scalar("terms")
+		k, _ := sum.scalar("k_per_s")
+		se, _ := sum.scalar("stderr_per_s")
+		unit, _ := sum.scalar("unit")
+		n += fmt.Sprintf(", only their sum is: %s = %s ± %s %s", terms, k, se, unit)
+	}
+	return n
 }
 
 // vapourCells are the water-vapour check of a summary: changed, no change

@@ -113,8 +113,38 @@ func TestCollect(t *testing.T) {
 		t.Errorf("residual_to_noise = %q, want 1.25 / 1.0", cell(1, "residual_to_noise"))
 	}
 	// Steps in the order first met: the first folder's two, then A -> C.
-	want := []string{"k_per_s[A -> B]", "stderr_per_s[A -> B]", "k_per_s[B -> C]", "stderr_per_s[B -> C]", "k_per_s[A -> C]", "stderr_per_s[A -> C]", "warnings", "water_vapour", "vapour_line_change"}
+	want := []string{"k_per_s[A -> B]", "stderr_per_s[A -> B]", "k_per_s[B -> C]", "stderr_per_s[B -> C]", "k_per_s[A -> C]", "stderr_per_s[A -> C]", "warnings", "water_vapour", "vapour_line_change", "notes"}
 	if got := head[len(head)-len(want):]; strings.Join(got, "|") != strings.Join(want, "|") {
 		t.Errorf("last columns %q, want %q", got, want)
+	}
+}
+
+// The reversible pair of the real catalyst-1.00 series (summary.json of
+// bandsolve run … --model 'A -> B; B -> A', trimmed): the data fit leaves
+// both constants not determined, with stderr_per_s 0, and determines only
+// their sum. A 0 there is not an exact value: the cells must be empty, and
+// the notes must say why and give the sum as the summary states it.
+func TestCollectNotDetermined(t *testing.T) {
+	dir := writeSummary(t, filepath.Join(t.TempDir(), "rev"), `{"kinetics": {"model": "A -> B; B -> A", "method": "data",
+  "rate_constants": [
+    {"step": "A -> B", "k_per_s": 0.001341710337, "stderr_per_s": 0, "half_life_s": 516.6146235, "unit": "s^-1", "not_determined": true},
+    {"step": "B -> A", "k_per_s": 0.0003004426156, "stderr_per_s": 0, "half_life_s": 2307.08676, "unit": "s^-1", "not_determined": true}],
+  "determined_sum": {"terms": "k1 + k2", "steps": ["A -> B", "B -> A"], "k_per_s": 0.001642144395, "stderr_per_s": 0.0002100000001, "unit": "s^-1"}}}`)
+	tab, problems := Collect([]string{dir})
+	if len(problems) != 0 {
+		t.Fatal(problems)
+	}
+	got := map[string]string{}
+	for j, h := range tab.Header {
+		got[h] = tab.Rows[0][j]
+	}
+	for _, col := range []string{"k_per_s[A -> B]", "stderr_per_s[A -> B]", "k_per_s[B -> A]", "stderr_per_s[B -> A]"} {
+		if v, ok := got[col]; !ok || v != "" {
+			t.Errorf("%s = %q (present %v), want an empty cell", col, v, ok)
+		}
+	}
+	want := "data fit: k of A -> B, B -> A not determined by the data (cells left empty), only their sum is: k1 + k2 = 0.001642144395 ± 0.0002100000001 s^-1"
+	if got["notes"] != want {
+		t.Errorf("notes = %q\nwant %q", got["notes"], want)
 	}
 }

@@ -192,6 +192,20 @@ type KineticsJSON struct {
 	Correlation       [][]float64      `json:"correlation"`
 	Stiff             bool             `json:"stiff"`
 	Fits              []KineticFitJSON `json:"fits"`
+	// DeterminedSum is the reported fit's determined_sum.
+	DeterminedSum *DeterminedSum `json:"determined_sum,omitempty"`
+}
+
+// DeterminedSum is the sum of rate constants the data determine when they
+// do not determine its terms (a reversible pair with free spectra: only
+// k1 + k2 sets the relaxation). Terms names them by their place in the
+// model ("k1 + k2"), Steps by their text.
+type DeterminedSum struct {
+	Terms  string   `json:"terms"`
+	Steps  []string `json:"steps"`
+	K      float64  `json:"k_per_s"`
+	StdErr float64  `json:"stderr_per_s"`
+	Unit   string   `json:"unit,omitempty"`
 }
 
 // RateConstant of one step, in the order the steps are written.
@@ -238,6 +252,7 @@ type KineticFitJSON struct {
 	Converged             bool                   `json:"converged"`
 	Stiff                 bool                   `json:"stiff"`
 	Warnings              []string               `json:"warnings"`
+	DeterminedSum         *DeterminedSum         `json:"determined_sum,omitempty"`
 }
 
 // ConstraintJSON is one constraint check in summary.json.

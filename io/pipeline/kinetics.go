@@ -37,6 +37,7 @@ type (
 	KineticMapJSON       = output.KineticMapJSON
 	InitialConcentration = output.InitialConcentration
 	KineticFitJSON       = output.KineticFitJSON
+	DeterminedSum        = output.DeterminedSum
 )
 
 // Kinetics is the kinetic analysis of one resolution.
@@ -2001,7 +2002,22 @@ func (kn *Kinetics) fitJSON(f *KineticFit) KineticFitJSON {
 	for _, a := range fr.Amplitudes {
 		out.Amplitudes = append(out.Amplitudes, round(finite(a)))
 	}
+	out.DeterminedSum = kn.sumJSON(fr)
 	return out
+}
+
+// sumJSON is the fit's determined sum of constants, nil when there is none.
+func (kn *Kinetics) sumJSON(fr *kinetics.FitResult) *DeterminedSum {
+	terms := determinedSum(fr)
+	if terms == "" {
+		return nil
+	}
+	d := &DeterminedSum{Terms: terms, K: round(finite(fr.SumK)), StdErr: round(finite(fr.SumKStdErr)),
+		Unit: kn.rateUnit(kn.Scheme.Steps[fr.SumSteps[0]].Order)}
+	for _, j := range fr.SumSteps {
+		d.Steps = append(d.Steps, kn.Scheme.Steps[j].Text)
+	}
+	return d
 }
 
 // notDetermined says the fit marked step j's constant as not determined by
@@ -2041,7 +2057,7 @@ func kineticsSummary(r *Result) *KineticsJSON {
 		RateLaw:           "mass action, IUPAC rate of reaction r = k Π c^ν: 2 A -> P has r = k[A]^2 and d[A]/dt = -2k[A]^2",
 		Fitted:            "concentrations",
 		ConcentrationUnit: kn.Unit, T0: round(kn.T0), MapSource: kn.MapSource,
-		Correlation: main.Correlation, Stiff: rep.Fit.Stiff,
+		Correlation: main.Correlation, Stiff: rep.Fit.Stiff, DeterminedSum: main.DeterminedSum,
 	}
 	if kn.Extents {
 		out.Fitted = "extents"

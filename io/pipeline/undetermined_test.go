@@ -6,6 +6,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"reflect"
 	"regexp"
 	"strings"
 	"testing"
@@ -77,10 +78,12 @@ func TestRateNotDeterminedSaysSo(t *testing.T) {
 // equal to the 'A -> B' fit's k of the same data within 1e-4 (the same
 // least-squares problem).
 func TestReversiblePairReportedAsSum(t *testing.T) {
+	var revOut string
 	run := func(model string) (*Result, string) {
 		s := NewSettings()
 		s.Data, s.Kind, s.TimesFromName = []string{filepath.Join(urethaneDir, "catalyst-1.00")}, "absorbance", true
 		s.Model, s.Bands, s.Checks, s.Out = model, "off", "off", filepath.Join(t.TempDir(), "out")
+		revOut = s.Out
 		var out bytes.Buffer
 		r, err := Execute(s, Streams{Out: &out, Err: &out})
 		if err != nil {
@@ -89,6 +92,7 @@ func TestReversiblePairReportedAsSum(t *testing.T) {
 		return r, out.String()
 	}
 	rev, text := run("A -> B; B -> A")
+	sum := readSummaryFile(t, revOut)
 	one, _ := run("A -> B")
 	fr, k := rev.Kinetics.Fits[rev.Kinetics.Primary].Fit, one.Kinetics.Fits[one.Kinetics.Primary].Fit.K[0]
 	t.Logf("k %v ± %v; sum %.6g ± %.3g; A -> B alone %.6g", fr.K, fr.KStdErr, fr.SumK, fr.SumKStdErr, k)
@@ -103,4 +107,30 @@ func TestReversiblePairReportedAsSum(t *testing.T) {
 	if !strings.Contains(text, "k not determined") || !strings.Contains(text, "k1 + k2") {
 		t.Errorf("the terminal does not say k1, k2 not determined and give their sum:\n%s", text)
 	}
+	// summary.json carries the sum as a key, for the reported fit and for
+	// the data fit among the fits, with the fit's own numbers (rounded to
+	// 10 digits as every number of the file).
+	d := sum.Kinetics.DeterminedSum
+	if d == nil || d.Terms != "k1 + k2" || strings.Join(d.Steps, "|") != "A -> B|B -> A" || d.Unit != "s^-1" ||
+		d.K != round(fr.SumK) || d.StdErr != round(fr.SumKStdErr) || !(d.StdErr > 0) {
+		t.Errorf("kinetics.determined_sum = %+v, want k1 + k2 = %.10g ± %.10g s^-1", d, fr.SumK, fr.SumKStdErr)
+	}
+	for _, f := range sum.Kinetics.Fits {
+		if f.Method == "data" && !reflect.DeepEqual(f.DeterminedSum, d) {
+			t.Errorf("the data fit's determined_sum = %+v, want %+v", f.DeterminedSum, d)
+		}
+	}
+}
+
+func readSummaryFile(t *testing.T, dir string) output.Summary {
+	t.Helper()
+	b, err := os.ReadFile(filepath.Join(dir, "summary.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var sum output.Summary
+	if err := json.Unmarshal(b, &sum); err != nil {
+		t.Fatal(err)
+	}
+	return sum
 }

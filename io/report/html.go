@@ -555,7 +555,9 @@ func uniquenessFindings(b Band, find, checks []string) ([]string, []string) {
 
 // kineticsFinding gives the kinetic model's rate constants with their
 // standard errors, and the half-lives of first-order steps. A model of one
-// step is that step: its name would follow the model's text twice.
+// step is that step: its name would follow the model's text twice. A
+// constant the data do not determine has no half-life (it would be one of
+// a continuum that fits as well); the sum they determine follows.
 func kineticsFinding(f *Folder, k *Kinetics) string {
 	var ks []string
 	rates := f.rates()
@@ -572,6 +574,12 @@ func kineticsFinding(f *Folder, k *Kinetics) string {
 			t += fmt.Sprintf(" (half-life %s %s)", trimFloat(rc.HalfLife, 3), rc.TimeUnit)
 		}
 		ks = append(ks, t)
+	}
+	if d := k.DeterminedSum; d != nil {
+		unit, div := f.tableTimeUnit()
+		v, u := rateIn(d.K, d.Unit, unit, div)
+		se, _ := rateIn(d.StdErr, d.Unit, unit, div)
+		ks = append(ks, fmt.Sprintf("their sum, which the data do determine: %s = %s ± %s %s", d.Terms, trimFloat(v, 4), trimFloat(se, 2), unitText(u)))
 	}
 	return fmt.Sprintf("Kinetic model %s: %s.", k.Model, strings.Join(ks, "; "))
 }
@@ -723,6 +731,9 @@ func (f *Folder) rates() []rateView {
 		v.K, v.Unit = rateIn(rc.K, rc.Unit, unit, div)
 		v.StdErr, _ = rateIn(rc.StdErr, rc.Unit, unit, div)
 		v.HalfLife = rc.HalfLife / div
+		if rc.NotDetermined { // a half-life of an undetermined k is no more determined than k
+			v.HalfLife = 0
+		}
 		out = append(out, v)
 	}
 	return out

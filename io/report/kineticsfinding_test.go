@@ -38,3 +38,30 @@ func TestKineticsFindingNamesEachStepOnce(t *testing.T) {
 		t.Errorf("report.html does not say %q", "Kinetic model A -&gt; B: k = 0.01")
 	}
 }
+
+// TestKineticsFindingUndeterminedHasNoHalfLife: the reversible pair of the
+// real catalyst-1.00 series (its summary.json, trimmed): the data fit
+// leaves k1 and k2 not determined and determines k1 + k2. ln 2 / k of an
+// undetermined k is no more determined than k (definition of the
+// half-life), so the headline gives none, and it gives the sum with its
+// standard error, as summary.json's determined_sum states it (in s⁻¹: the
+// folder has no times to choose another unit from).
+func TestKineticsFindingUndeterminedHasNoHalfLife(t *testing.T) {
+	k := &Kinetics{Model: "A -> B; B -> A", Method: "data", RateConstants: []output.RateConstant{
+		{Step: "A -> B", K: 0.001341710337, HalfLife: 516.6146235, Unit: "s^-1", NotDetermined: true},
+		{Step: "B -> A", K: 0.0003004426156, HalfLife: 2307.08676, Unit: "s^-1", NotDetermined: true}},
+		DeterminedSum: &output.DeterminedSum{Terms: "k1 + k2", Steps: []string{"A -> B", "B -> A"}, K: 0.001642144395, StdErr: 0.00021, Unit: "s^-1"}}
+	f := &Folder{Summary: &Summary{Kinetics: k}}
+	got := kineticsFinding(f, k)
+	if strings.Contains(got, "half-life") {
+		t.Errorf("the headline gives a half-life of an undetermined constant: %q", got)
+	}
+	if !strings.Contains(got, "k1 + k2 = 0.001642 ± 0.00021 s⁻¹") {
+		t.Errorf("the headline does not give the determined sum: %q", got)
+	}
+	for _, r := range f.rates() {
+		if r.HalfLife != 0 {
+			t.Errorf("the kinetics table gives %s a half-life %g", r.Step, r.HalfLife)
+		}
+	}
+}
