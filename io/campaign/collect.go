@@ -29,13 +29,16 @@ var fixedColumns = []string{"folder", "status", "components", "rank_estimate", "
 // Collect reads summary.json of every folder and returns one table: a row
 // per folder in the order given, the fixed columns, then for each kinetic
 // step met (in order of first appearance) the pair k_per_s[STEP],
-// stderr_per_s[STEP], then warnings (how many), then water_vapour and
-// vapour_line_change (vapourCells), then notes. A key a summary lacks is
-// an empty cell; a folder without a readable summary.json keeps its row,
-// with the reason in status, and is listed in problems. Numbers are
-// written as output.Float writes every result file's: encoding/json,
-// which wrote summary.json, gives 0.00003710714947 beside 1.947858933e-7
-// in one column of rate constants and their errors.
+// stderr_per_s[STEP] of the reported fit, then warnings (how many), then
+// water_vapour and vapour_line_change (vapourCells), then the context
+// columns that say whether two rows are the same analysis (contextColumns,
+// from the summary and the as-run record), then the rate constants of
+// every fit keyed by fit, model and step (keyedStep), then notes. A key a
+// summary lacks is an empty cell; a folder without a readable summary.json
+// keeps its row, with the reason in status, and is listed in problems.
+// Numbers are written as output.Float writes every result file's:
+// encoding/json, which wrote summary.json, gives 0.00003710714947 beside
+// 1.947858933e-7 in one column of rate constants and their errors.
 //
 // A rate constant the data do not determine (not_determined) is an empty
 // cell with no standard error, and notes says so with the sum the data do
@@ -48,58 +51,113 @@ var fixedColumns = []string{"folder", "status", "components", "rank_estimate", "
 // square residual over the noise level (1 = the model fits to the noise).
 func Collect(folders []string) (t output.Table, problems []string) {
 	var rows []row
-	var steps []string
-	seen := map[string]bool{}
+	var steps, keyed columnSet
 	for _, dir := range folders {
 		r, err := collectRow(dir)
 		if err != nil {
 			problems = append(problems, fmt.Sprintf("%s: %v", dir, err))
 		}
-		for _, st := range r.order {
-			if !seen[st] {
-				seen[st] = true
-				steps = append(steps, st)
-			}
-		}
+		steps.add(r.steps.order...)
+		keyed.add(r.keyed.order...)
 		rows = append(rows, r)
 	}
 	t.Header = append([]string(nil), fixedColumns...)
-	for _, st := range steps {
-		t.Header = append(t.Header, "k_per_s["+st+"]", "stderr_per_s["+st+"]")
-	}
-	t.Header = append(t.Header, trailingColumns...)
+	t.Header = append(t.Header, steps.header()...)
+	t.Header = append(t.Header, middleColumns...)
+	t.Header = append(t.Header, contextColumns...)
+	t.Header = append(t.Header, keyed.header()...)
+	t.Header = append(t.Header, "notes")
 	for _, r := range rows {
-		var cells []string
-		for _, k := range fixedColumns {
-			cells = append(cells, r.cells[k])
-		}
-		for _, st := range steps {
-			p := r.steps[st]
-			cells = append(cells, p[0], p[1])
-		}
-		for _, k := range trailingColumns {
-			cells = append(cells, r.cells[k])
-		}
-		t.Rows = append(t.Rows, cells)
+		cells := r.pick(fixedColumns)
+		cells = append(cells, r.steps.cells(steps.order)...)
+		cells = append(cells, r.pick(middleColumns)...)
+		cells = append(cells, r.pick(contextColumns)...)
+		cells = append(cells, r.keyed.cells(keyed.order)...)
+		t.Rows = append(t.Rows, append(cells, r.cells["notes"]))
 	}
 	return t, problems
 }
 
-// trailingColumns follow the rate constants.
-var trailingColumns = []string{"warnings", "water_vapour", "vapour_line_change", "notes"}
+// middleColumns follow the reported fit's rate constants.
+var middleColumns = []string{"warnings", "water_vapour", "vapour_line_change"}
 
-// row is one folder's cells: fixed and trailing columns by name, and the
-// reported fit's rate constant and standard error by step, in the order
-// the steps are written.
-type row struct {
-	cells map[string]string
-	steps map[string][2]string
+// contextColumns say what a chemist comparing rows must know to call two
+// rows the same analysis: which fit the k_per_s[STEP] columns hold and the
+// settings that change what a rate constant means (summaryContext,
+// recordContext), and settings_id over all the settings but the inputs.
+var contextColumns = []string{"kinetic_fit", "t0_s", "kinetics_map", "baseline", "closure", "noise_weights", "outlier_spectra",
+	"region", "exclude", "drop", "hard_model", "c0", "fit_c0", "k_fixed", "settings_id"}
+
+// columnSet is a list of column keys in the order first met.
+type columnSet struct {
 	order []string
-	notes []string
+	seen  map[string]bool
+}
+
+func (c *columnSet) add(keys ...string) {
+	if c.seen == nil {
+		c.seen = map[string]bool{}
+	}
+	for _, k := range keys {
+		if !c.seen[k] {
+			c.seen[k] = true
+			c.order = append(c.order, k)
+		}
+	}
+}
+
+// header names each key's pair of columns: k_per_s[KEY], stderr_per_s[KEY].
+func (c *columnSet) header() []string {
+	var h []string
+	for _, k := range c.order {
+		h = append(h, "k_per_s["+k+"]", "stderr_per_s["+k+"]")
+	}
+	return h
+}
+
+// ratePairs are one row's rate constants and standard errors by key.
+type ratePairs struct {
+	order []string
+	val   map[string][2]string
+}
+
+func (p *ratePairs) set(key, k, se string) {
+	if p.val == nil {
+		p.val = map[string][2]string{}
+	}
+	if _, ok := p.val[key]; !ok {
+		p.order = append(p.order, key)
+	}
+	p.val[key] = [2]string{k, se}
+}
+
+func (p *ratePairs) cells(keys []string) []string {
+	var c []string
+	for _, k := range keys {
+		v := p.val[k]
+		c = append(c, v[0], v[1])
+	}
+	return c
+}
+
+// row is one folder's cells: the named columns, the reported fit's rate
+// constants by step, and every fit's by keyedStep.
+type row struct {
+	cells        map[string]string
+	steps, keyed ratePairs
+	notes        []string
+}
+
+func (r *row) pick(names []string) []string {
+	var c []string
+	for _, n := range names {
+		c = append(c, r.cells[n])
+	}
+	return c
 }
 
 func collectRow(dir string) (row, error) {
-	r := row{cells: map[string]string{"folder": dir}, steps: map[string][2]string{}}
+	r := row{cells: map[string]string{"folder": dir}}
 	s, err := readSummary(dir)
 	if err != nil {
 		r.cells["status"] = err.Error()
@@ -121,30 +179,109 @@ func collectRow(dir string) (row, error) {
 	}
 	r.cells["warnings"] = strconv.Itoa(len(s.list("warnings")))
 	r.cells["water_vapour"], r.cells["vapour_line_change"] = vapourCells(s.object("water_vapour"))
+	r.summaryContext(s)
+	r.recordContext(dir)
 	r.cells["notes"] = strings.Join(r.notes, "; ")
 	return r, nil
 }
 
-// kinetics fills the model and the reported fit's rate constants.
+// kinetics fills the model, the reported fit's rate constants by step and
+// every fit's by keyedStep. A summary without fits (older versions) has
+// the reported fit only.
 func (r *row) kinetics(kin object) {
 	if v, ok := kin.scalar("model"); ok {
 		r.cells["kinetics_model"] = v
 	}
-	rcs := kin.list("rate_constants")
-	for _, rc := range rcs {
-		step, _ := rc.scalar("step")
-		k, _ := rc.scalar("k_per_s")
-		se, _ := rc.scalar("stderr_per_s")
-		if notDetermined(rc) {
-			k, se = "", ""
-		}
-		r.order = append(r.order, step)
-		r.steps[step] = [2]string{k, se}
-	}
 	method, _ := kin.scalar("method")
-	if n := undeterminedNote(method, rcs, kin.object("determined_sum")); n != "" {
+	for _, rc := range kin.list("rate_constants") {
+		step, k, se := rateCells(rc)
+		r.steps.set(step, k, se)
+	}
+	fits := kin.list("fits")
+	if len(fits) == 0 {
+		reported := object{}
+		for key, v := range kin {
+			reported[key] = v
+		}
+		if method == "" {
+			reported["method"] = json.RawMessage(`"reported"`)
+		}
+		fits = []object{reported}
+	}
+	for _, f := range fits {
+		r.fit(f)
+	}
+}
+
+// fit adds one fit's rate constants, and its determined sum, under keys
+// that hold the fit and the model, so that different fits and models never
+// share a column; and a note when some constant is not determined.
+func (r *row) fit(f object) {
+	method, _ := f.scalar("method")
+	rcs := f.list("rate_constants")
+	var steps []string
+	for _, rc := range rcs {
+		st, _ := rc.scalar("step")
+		steps = append(steps, st)
+	}
+	model := strings.Join(steps, "; ")
+	for _, rc := range rcs {
+		step, k, se := rateCells(rc)
+		r.keyed.set(keyedStep(method, model, step), k, se)
+	}
+	sum := f.object("determined_sum")
+	if sum != nil {
+		terms, _ := sum.scalar("terms")
+		k, _ := sum.scalar("k_per_s")
+		se, _ := sum.scalar("stderr_per_s")
+		r.keyed.set(keyedStep(method, model, terms), k, se)
+	}
+	if n := undeterminedNote(method, rcs, sum); n != "" {
 		r.notes = append(r.notes, n)
 	}
+}
+
+// keyedStep is the key of a rate constant that no other fit or model
+// shares: "FIT | STEPS | STEP", STEPS being the model as its steps in the
+// order written ("A -> B; B -> C" for 'A -> B -> C'). " | " cannot occur
+// in a reaction scheme, so the three parts read back unambiguously.
+func keyedStep(fit, model, step string) string {
+	return fit + " | " + model + " | " + step
+}
+
+// rateCells are a rate constant's step, value and standard error as
+// written; both cells empty when the data do not determine it.
+func rateCells(rc object) (step, k, se string) {
+	step, _ = rc.scalar("step")
+	k, _ = rc.scalar("k_per_s")
+	se, _ = rc.scalar("stderr_per_s")
+	if notDetermined(rc) {
+		k, se = "", ""
+	}
+	return step, k, se
+}
+
+// summaryContext fills the context columns summary.json holds.
+func (r *row) summaryContext(s object) {
+	for _, k := range []string{"baseline", "closure", "noise_weights"} {
+		r.cells[k], _ = s.scalar(k)
+	}
+	if _, ok := s["outlier_spectra"]; ok {
+		r.cells["outlier_spectra"] = strconv.Itoa(len(s.list("outlier_spectra")))
+	}
+	kin := s.object("kinetics")
+	if kin == nil {
+		return
+	}
+	r.cells["kinetic_fit"], _ = kin.scalar("method")
+	r.cells["t0_s"], _ = kin.scalar("t0_s")
+	var m []string
+	for _, e := range kin.list("map") {
+		name, _ := e.scalar("name")
+		comp, _ := e.scalar("component")
+		m = append(m, name+"="+comp)
+	}
+	r.cells["kinetics_map"] = strings.Join(m, " ")
 }
 
 func notDetermined(rc object) bool {

@@ -112,10 +112,15 @@ func TestCollect(t *testing.T) {
 	if got, err := strconv.ParseFloat(cell(1, "residual_to_noise"), 64); err != nil || got != 1.25/1.0 {
 		t.Errorf("residual_to_noise = %q, want 1.25 / 1.0", cell(1, "residual_to_noise"))
 	}
-	// Steps in the order first met: the first folder's two, then A -> C.
-	want := []string{"k_per_s[A -> B]", "stderr_per_s[A -> B]", "k_per_s[B -> C]", "stderr_per_s[B -> C]", "k_per_s[A -> C]", "stderr_per_s[A -> C]", "warnings", "water_vapour", "vapour_line_change", "notes"}
-	if got := head[len(head)-len(want):]; strings.Join(got, "|") != strings.Join(want, "|") {
-		t.Errorf("last columns %q, want %q", got, want)
+	// Steps in the order first met: the first folder's two, then A -> C,
+	// right after kinetics_model and before warnings (the columns' places
+	// before this version's additions, for scripts that read by place).
+	want := []string{"kinetics_model", "k_per_s[A -> B]", "stderr_per_s[A -> B]", "k_per_s[B -> C]", "stderr_per_s[B -> C]", "k_per_s[A -> C]", "stderr_per_s[A -> C]", "warnings", "water_vapour", "vapour_line_change"}
+	if got := head[11 : 11+len(want)]; strings.Join(got, "|") != strings.Join(want, "|") {
+		t.Errorf("columns 12… %q, want %q", got, want)
+	}
+	if head[len(head)-1] != "notes" {
+		t.Errorf("last column %q, want notes", head[len(head)-1])
 	}
 }
 
@@ -146,5 +151,74 @@ func TestCollectNotDetermined(t *testing.T) {
 	want := "data fit: k of A -> B, B -> A not determined by the data (cells left empty), only their sum is: k1 + k2 = 0.001642144395 ± 0.0002100000001 s^-1"
 	if got["notes"] != want {
 		t.Errorf("notes = %q\nwant %q", got["notes"], want)
+	}
+}
+
+// TestCollectKeysRatesByFitAndModel: the trial on the real urethane
+// series put four different quantities in k_per_s[A -> B]: the data fit's
+// and the profile fit's k of 'A -> B' (0.001642 ± 0.000205 and
+// 0.001154 ± 0.0000462 s^-1 on catalyst 1.00, summary.json's fits), and
+// the first step of 'A -> B -> C'. Keyed by fit and model, each has its
+// own column, filled only in the rows that hold it; the context columns
+// say which fit the unkeyed columns hold, and the as-run record (syntax:
+// docs/command-files.md) gives region and settings_id, equal for two
+// records that differ in their data only and different when the region
+// differs.
+func TestCollectKeysRatesByFitAndModel(t *testing.T) {
+	root := t.TempDir()
+	fits := func(method string) string {
+		return `{"model": "A -> B", "method": "` + method + `", "t0_s": 0, "map": [{"name": "A", "component": 1}, {"name": "B", "component": 2}],
+  "rate_constants": [{"step": "A -> B", "k_per_s": 0.001, "stderr_per_s": 0.0001}],
+  "fits": [{"method": "profiles", "rate_constants": [{"step": "A -> B", "k_per_s": 0.001154307718, "stderr_per_s": 4.616608256e-05}]},
+           {"method": "data", "rate_constants": [{"step": "A -> B", "k_per_s": 0.00164214402, "stderr_per_s": 0.0002046328016}]}]}`
+	}
+	record := func(data, region string) string {
+		return "paths-from ../../runs\ndata " + data + "\nkind absorbance\nregion " + region + "\nexclude ''\nmodel A -> B\nkinetic-fit data\n"
+	}
+	dataDir := writeSummary(t, filepath.Join(root, "data"), `{"baseline": "poly:3", "closure": "1", "outlier_spectra": [], "kinetics": `+fits("data")+`}`)
+	profDir := writeSummary(t, filepath.Join(root, "profiles"), `{"kinetics": `+fits("profiles")+`}`)
+	chain := writeSummary(t, filepath.Join(root, "chain"), `{"kinetics": {"model": "A -> B -> C", "method": "data",
+  "rate_constants": [{"step": "A -> B", "k_per_s": 0.004, "stderr_per_s": 0.0002}, {"step": "B -> C", "k_per_s": 0.0009, "stderr_per_s": 0.00005}],
+  "fits": [{"method": "data", "rate_constants": [{"step": "A -> B", "k_per_s": 0.004, "stderr_per_s": 0.0002}, {"step": "B -> C", "k_per_s": 0.0009, "stderr_per_s": 0.00005}]}]}}`)
+	other := writeSummary(t, filepath.Join(root, "other-data"), `{}`)
+	narrow := writeSummary(t, filepath.Join(root, "narrow"), `{}`)
+	for dir, rec := range map[string]string{dataDir: record("data/catalyst-1.00/", "''"), other: record("data/catalyst-0.01/", "''"),
+		narrow: record("data/catalyst-1.00/", "2400:1500")} {
+		if err := os.WriteFile(filepath.Join(dir, "as-run.bsr"), []byte(rec), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	tab, problems := Collect([]string{dataDir, profDir, chain, other, narrow})
+	if len(problems) != 0 {
+		t.Fatal(problems)
+	}
+	cell := func(r int, col string) string {
+		for j, h := range tab.Header {
+			if h == col {
+				return tab.Rows[r][j]
+			}
+		}
+		t.Fatalf("no column %q in %q", col, tab.Header)
+		return ""
+	}
+	for _, c := range []struct {
+		row       int
+		col, want string
+	}{
+		{0, "k_per_s[data | A -> B | A -> B]", "0.00164214402"}, {0, "stderr_per_s[data | A -> B | A -> B]", "0.0002046328016"},
+		{0, "k_per_s[profiles | A -> B | A -> B]", "0.001154307718"}, {0, "stderr_per_s[profiles | A -> B | A -> B]", "4.616608256e-05"},
+		{1, "k_per_s[data | A -> B | A -> B]", "0.00164214402"}, {1, "k_per_s[profiles | A -> B | A -> B]", "0.001154307718"},
+		{2, "k_per_s[data | A -> B; B -> C | A -> B]", "0.004"}, {2, "k_per_s[data | A -> B; B -> C | B -> C]", "0.0009"},
+		{2, "k_per_s[data | A -> B | A -> B]", ""}, {0, "k_per_s[data | A -> B; B -> C | A -> B]", ""},
+		{0, "kinetic_fit", "data"}, {1, "kinetic_fit", "profiles"}, {2, "kinetic_fit", "data"},
+		{0, "t0_s", "0"}, {0, "kinetics_map", "A=1 B=2"}, {0, "baseline", "poly:3"}, {0, "closure", "1"}, {0, "outlier_spectra", "0"},
+		{1, "outlier_spectra", ""}, {4, "region", "2400:1500"}, {0, "region", ""}, {0, "settings_id", cell(3, "settings_id")},
+	} {
+		if got := cell(c.row, c.col); got != c.want {
+			t.Errorf("row %d, %s = %q, want %q", c.row, c.col, got, c.want)
+		}
+	}
+	if id := cell(0, "settings_id"); len(id) != 12 || id == cell(4, "settings_id") || cell(1, "settings_id") != "" {
+		t.Errorf("settings_id: %q (other data %q, other region %q, no record %q)", id, cell(3, "settings_id"), cell(4, "settings_id"), cell(1, "settings_id"))
 	}
 }

@@ -1,0 +1,73 @@
+package campaign
+
+import (
+	"crypto/sha256"
+	"encoding/hex"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+
+	"github.com/bandsolve/bandsolve/io/cmdfile"
+	"github.com/bandsolve/bandsolve/io/pipeline"
+)
+
+// maxRecord bounds what is read of an as-run record: a real one is 2 kB.
+const maxRecord = 1 << 20
+
+// recordColumns are the context columns taken from the as-run record, by
+// its keyword: settings that change what a rate constant means but that
+// summary.json does not state.
+var recordColumns = map[string]string{"region": "region", "exclude": "exclude", "drop": "drop",
+	"hard-model": "hard_model", "c0": "c0", "fit-c0": "fit_c0", "k-fixed": "k_fixed"}
+
+// inputKeywords name the experiment's inputs, which differ from row to row
+// of a campaign by design; settings_id leaves them out.
+var inputKeywords = map[string]bool{"data": true, "blank": true, "times": true}
+
+// recordContext fills the context columns the as-run record holds, and
+// settings_id: the first 12 hex digits of the SHA-256 of every setting
+// line but the inputs, so rows with one settings_id are the same analysis
+// of different data. A folder without a readable record (an older
+// version, a record this version cannot parse) leaves them empty.
+func (r *row) recordContext(dir string) {
+	f := readRecord(filepath.Join(dir, pipeline.RecordName))
+	if f == nil {
+		return
+	}
+	vals := map[string][]string{}
+	h := sha256.New()
+	for _, e := range f.Entries {
+		if col, ok := recordColumns[e.Key]; ok && e.Value != "" {
+			vals[col] = append(vals[col], e.Value)
+		}
+		if !inputKeywords[e.Key] {
+			io.WriteString(h, e.Key+"\x00"+e.Value+"\n")
+		}
+	}
+	for _, col := range recordColumns {
+		r.cells[col] = strings.Join(vals[col], " ")
+	}
+	r.cells["settings_id"] = hex.EncodeToString(h.Sum(nil))[:12]
+}
+
+func readRecord(p string) *cmdfile.File {
+	st, err := os.Stat(p)
+	if err != nil || !st.Mode().IsRegular() || st.Size() > maxRecord {
+		return nil
+	}
+	fh, err := os.Open(p)
+	if err != nil {
+		return nil
+	}
+	defer fh.Close()
+	src, err := io.ReadAll(io.LimitReader(fh, maxRecord))
+	if err != nil {
+		return nil
+	}
+	f, err := cmdfile.Parse(p, src, pipeline.Keywords())
+	if err != nil {
+		return nil
+	}
+	return f
+}
