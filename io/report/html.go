@@ -122,7 +122,7 @@ func buildFrom(f *Folder, figs []Figure, problems []string) ([]byte, error) {
 	v.FigureCount = len(figs)
 	v.TimeUnit, _ = f.tableTimeUnit()
 	v.TimeNote = f.timeUnitNote(f.timeSpan())
-	v.Rates = f.rates()
+	v.Fits = f.fits()
 	v.More = f.moreResults(v.TimeUnit)
 	if f.AsRun != nil {
 		v.AsRun, v.AsRunDropped = dropTimes(f.AsRun.Body)
@@ -159,9 +159,9 @@ type view struct {
 	ManifestRows    [][2]string
 	ManifestText    string
 	ManifestDropped int
-	TimeUnit        string     // of text and tables
-	TimeNote        string     // which unit, and whether chosen
-	Rates           []rateView // rate constants in TimeUnit
+	TimeUnit        string    // of text and tables
+	TimeNote        string    // which unit, and whether chosen
+	Fits            []fitView // kinetic fits, the reported one first, rate constants in TimeUnit
 }
 
 type section struct {
@@ -553,17 +553,38 @@ func uniquenessFindings(b Band, find, checks []string) ([]string, []string) {
 	return find, checks
 }
 
-// kineticsFinding gives the kinetic model's rate constants with their
-// standard errors, and the half-lives of first-order steps. A model of one
-// step is that step: its name would follow the model's text twice. A
-// constant the data do not determine has no half-life (it would be one of
-// a continuum that fits as well); the sum they determine follows.
+// kineticsFinding gives the rate constants of every kinetic fit, the
+// reported one (summary.json's rate_constants) first and named so, with
+// their standard errors and the half-lives of first-order steps: the
+// terminal shows every fit, and a warning that sends the reader to the
+// data fit's constants must find them here. A model of one step is that
+// step: its name would follow the model's text twice.
 func kineticsFinding(f *Folder, k *Kinetics) string {
+	fits := f.fits()
+	if len(fits) == 1 && fits[0].Method == "" {
+		return fmt.Sprintf("Kinetic model %s: %s.", k.Model, fitText(fits[0], len(fits[0].Rates) == 1))
+	}
+	var parts []string
+	for i, fv := range fits {
+		t := fitText(fv, len(fv.Rates) == 1)
+		switch {
+		case i == 0:
+			parts = append(parts, fmt.Sprintf("Kinetic model %s, %s fit (the one summary.json reports): %s.", k.Model, fv.Method, t))
+		default:
+			parts = append(parts, fmt.Sprintf("%s fit: %s.", upperFirst(fv.Method), t))
+		}
+	}
+	return strings.Join(parts, " ")
+}
+
+// fitText is one fit's constants. A constant the data do not determine has
+// no half-life (it would be one of a continuum that fits as well); the sum
+// they determine follows.
+func fitText(fv fitView, oneStep bool) string {
 	var ks []string
-	rates := f.rates()
-	for _, rc := range rates {
+	for _, rc := range fv.Rates {
 		step := rc.Step + ": "
-		if len(rates) == 1 {
+		if oneStep {
 			step = ""
 		}
 		t := fmt.Sprintf("%sk = %s ± %s %s", step, trimFloat(rc.K, 4), trimFloat(rc.StdErr, 2), unitText(rc.Unit))
@@ -575,13 +596,55 @@ func kineticsFinding(f *Folder, k *Kinetics) string {
 		}
 		ks = append(ks, t)
 	}
-	if d := k.DeterminedSum; d != nil {
-		unit, div := f.tableTimeUnit()
-		v, u := rateIn(d.K, d.Unit, unit, div)
-		se, _ := rateIn(d.StdErr, d.Unit, unit, div)
-		ks = append(ks, fmt.Sprintf("their sum, which the data do determine: %s = %s ± %s %s", d.Terms, trimFloat(v, 4), trimFloat(se, 2), unitText(u)))
+	if d := fv.Sum; d != nil {
+		ks = append(ks, fmt.Sprintf("their sum, which the data do determine: %s = %s ± %s %s", d.Step, trimFloat(d.K, 4), trimFloat(d.StdErr, 2), unitText(d.Unit)))
 	}
-	return fmt.Sprintf("Kinetic model %s: %s.", k.Model, strings.Join(ks, "; "))
+	return strings.Join(ks, "; ")
+}
+
+func upperFirst(s string) string {
+	if s == "" {
+		return s
+	}
+	return strings.ToUpper(s[:1]) + s[1:]
+}
+
+// fitView is one kinetic fit as the report shows it: its method, whether
+// it is the one summary.json's rate_constants hold, its constants in the
+// report's time unit, and the sum the data determine (Step holds its
+// terms), nil when there is none.
+type fitView struct {
+	Method   string
+	Reported bool
+	Rates    []rateView
+	Sum      *rateView
+}
+
+// fits are the summary's kinetic fits, the reported one first. A summary
+// without fits (older versions) has the reported one only.
+func (f *Folder) fits() []fitView {
+	if f.Summary == nil || f.Summary.Kinetics == nil {
+		return nil
+	}
+	k := f.Summary.Kinetics
+	out := []fitView{{Method: k.Method, Reported: true, Rates: f.ratesOf(k.RateConstants), Sum: f.sumView(k.DeterminedSum)}}
+	for _, fj := range k.Fits {
+		if fj.Method != k.Method {
+			out = append(out, fitView{Method: fj.Method, Rates: f.ratesOf(fj.RateConstants), Sum: f.sumView(fj.DeterminedSum)})
+		}
+	}
+	return out
+}
+
+func (f *Folder) sumView(d *output.DeterminedSum) *rateView {
+	if d == nil {
+		return nil
+	}
+	unit, div := f.tableTimeUnit()
+	v := rateView{RateConstant: output.RateConstant{Step: d.Terms}, TimeUnit: unit}
+	v.K, v.Unit = rateIn(d.K, d.Unit, unit, div)
+	v.StdErr, _ = rateIn(d.StdErr, d.Unit, unit, div)
+	return &v
 }
 
 // derivedChecks looks at the files for what a chemist should be warned of.
@@ -724,9 +787,14 @@ func (f *Folder) rates() []rateView {
 	if f.Summary == nil || f.Summary.Kinetics == nil {
 		return nil
 	}
+	return f.ratesOf(f.Summary.Kinetics.RateConstants)
+}
+
+// ratesOf are rate constants in the report's time unit.
+func (f *Folder) ratesOf(rcs []output.RateConstant) []rateView {
 	unit, div := f.tableTimeUnit()
 	var out []rateView
-	for _, rc := range f.Summary.Kinetics.RateConstants {
+	for _, rc := range rcs {
 		v := rateView{RateConstant: rc, TimeUnit: unit}
 		v.K, v.Unit = rateIn(rc.K, rc.Unit, unit, div)
 		v.StdErr, _ = rateIn(rc.StdErr, rc.Unit, unit, div)

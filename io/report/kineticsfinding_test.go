@@ -1,6 +1,10 @@
 package report
 
 import (
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"regexp"
 	"strings"
 	"testing"
 
@@ -63,5 +67,52 @@ func TestKineticsFindingUndeterminedHasNoHalfLife(t *testing.T) {
 		if r.HalfLife != 0 {
 			t.Errorf("the kinetics table gives %s a half-life %g", r.Step, r.HalfLife)
 		}
+	}
+}
+
+// TestKineticsFindingShowsEveryFit: the trial's 'A -> B' on the real
+// catalyst-1.00 series (its summary.json's kinetics, trimmed) has a data
+// fit, the one reported, k = 0.00164214402 ± 0.0002046328016 s⁻¹, and a
+// profile fit, k = 0.001154307718 ± 0.00004616608256 s⁻¹, whose warning
+// says the data fit's are the ones to quote. The terminal shows both with
+// which is which; so must the headline and the kinetics table, the
+// reported fit first (numbers rounded as trimFloat rounds: 4 significant
+// digits for k, 2 for its error, 3 for the half-life ln 2 / k = 422 s).
+func TestKineticsFindingShowsEveryFit(t *testing.T) {
+	data := []output.RateConstant{{Step: "A -> B", K: 0.00164214402, StdErr: 0.0002046328016, HalfLife: 422.0988975, Unit: "s^-1"}}
+	prof := []output.RateConstant{{Step: "A -> B", K: 0.001154307718, StdErr: 0.00004616608256, HalfLife: 600.4873482, Unit: "s^-1"}}
+	k := &Kinetics{Model: "A -> B", Method: "data", RateConstants: data,
+		Fits: []output.KineticFitJSON{{Method: "profiles", RateConstants: prof}, {Method: "data", RateConstants: data}}}
+	got := kineticsFinding(&Folder{Summary: &Summary{Kinetics: k}}, k)
+	want := "Kinetic model A -> B, data fit (the one summary.json reports): k = 0.001642 ± 0.0002 s⁻¹ (half-life 422 s). " +
+		"Profiles fit: k = 0.001154 ± 4.6×10⁻⁵ s⁻¹ (half-life 600 s)."
+	if got != want {
+		t.Errorf("headline\n got %q\nwant %q", got, want)
+	}
+	dir := fixture(t, true)
+	p := filepath.Join(dir, "summary.json")
+	b, err := os.ReadFile(p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	kin, err := json.Marshal(k)
+	if err != nil {
+		t.Fatal(err)
+	}
+	b = regexp.MustCompile(`"kinetics": \{[^\n]*\]\},`).ReplaceAll(b, append(append([]byte(`"kinetics": `), kin...), ','))
+	if err := os.WriteFile(p, b, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	html, err := BuildDir(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, row := range []string{"<td>data (reported)</td><td>A -&gt; B</td><td class=\"n\">0.001642", "<td>profiles</td><td>A -&gt; B</td><td class=\"n\">0.001154"} {
+		if !strings.Contains(string(html), row) {
+			t.Errorf("the kinetics table has no row %q", row)
+		}
+	}
+	if !strings.Contains(string(html), "Profiles fit: k = 0.001154") {
+		t.Errorf("report.html does not give the profile fit's k")
 	}
 }

@@ -96,10 +96,11 @@ nav a { color: #0072b2; margin-right: .8rem; }
 {{if .S.Kinetics}}{{with .S.Kinetics}}
 <h3>Kinetics: {{.Model}}</h3>
 <table>
-<tr><th>step</th><th>k</th><th>standard error</th><th>half-life / {{$.TimeUnit}}</th></tr>
-{{range $.Rates}}<tr><td>{{.Step}}</td><td class="n">{{num .K}} {{unit .Unit}}</td><td class="n">{{if .NotDetermined}}not determined{{else}}{{num .StdErr}} {{unit .Unit}}{{end}}</td><td class="n">{{if gt .HalfLife 0.0}}{{num .HalfLife}}{{else}}–{{end}}</td></tr>
-{{end}}</table>
-<p class="small">{{if .Method}}Rate constants from the fit to the {{.Method}}. {{end}}{{if .MapSource}}Species ↔ components: {{range $i, $m := .Map}}{{if $i}}, {{end}}{{$m.Name}} = component {{$m.Component}}{{end}} ({{.MapSource}}). {{end}}{{perTime .ConcentrationUnit $.TimeUnit}}</p>{{end}}{{end}}
+<tr><th>fit</th><th>step</th><th>k</th><th>standard error</th><th>half-life / {{$.TimeUnit}}</th></tr>
+{{range $.Fits}}{{$fit := .}}{{range .Rates}}<tr><td>{{$fit.Method}}{{if and $fit.Reported (gt (len $.Fits) 1)}} (reported){{end}}</td><td>{{.Step}}</td><td class="n">{{num .K}} {{unit .Unit}}</td><td class="n">{{if .NotDetermined}}not determined{{else}}{{num .StdErr}} {{unit .Unit}}{{end}}</td><td class="n">{{if gt .HalfLife 0.0}}{{num .HalfLife}}{{else}}–{{end}}</td></tr>
+{{end}}{{with .Sum}}<tr><td>{{$fit.Method}}{{if and $fit.Reported (gt (len $.Fits) 1)}} (reported){{end}}</td><td>{{.Step}} (determined)</td><td class="n">{{num .K}} {{unit .Unit}}</td><td class="n">{{num .StdErr}} {{unit .Unit}}</td><td class="n">–</td></tr>
+{{end}}{{end}}</table>
+<p class="small">{{if .Method}}The rate constants summary.json reports are the {{.Method}} fit's{{if gt (len $.Fits) 1}}; every fit made is shown, as on the terminal{{end}}. {{end}}{{if .MapSource}}Species ↔ components: {{range $i, $m := .Map}}{{if $i}}, {{end}}{{$m.Name}} = component {{$m.Component}}{{end}} ({{.MapSource}}). {{end}}{{perTime .ConcentrationUnit $.TimeUnit}}</p>{{end}}{{end}}
 {{if .S.Uniqueness}}
 <h3>Uniqueness ranges (share of the signal ‖c sᵀ‖ / ‖C Sᵀ‖)</h3>
 <table>
