@@ -18,23 +18,24 @@ Writes one CSV table of the key results of many output folders, a row per
 folder in the order given, to compare a series of experiments (say, a rate
 constant against the catalyst loading). Columns: folder, status (ok, or why
 the folder has no readable summary.json), components, rank_estimate, mode,
-spectra, points, noise_sigma, lack_of_fit_percent, noise_lack_of_fit_percent,
-residual_to_noise (the residual over the noise: 1 = fits to the noise),
-kinetics_model, then k_per_s[STEP] and stderr_per_s[STEP] of the reported
-fit for every kinetic step met (empty for a constant the data do not
-determine), then warnings (how many), water_vapour (changed, no change or
-not checked), vapour_line_change (the largest line change, in absorbance),
-then what tells whether two rows are the same analysis: kinetic_fit (the
-fit the k_per_s[STEP] columns hold: data, profiles or hard-soft), t0_s,
+spectra, points, noise_sigma, lack_of_fit_percent,
+noise_lack_of_fit_percent, residual_to_noise (the run's residual over the
+noise, as it weighted its fit: 1 = fits to the noise), kinetics_model, then
+k_per_s[STEP] and stderr_per_s[STEP] of the reported fit for every kinetic
+step met (empty for a constant the data do not determine), then warnings
+(how many), water_vapour (changed, no change or not checked),
+vapour_line_change (the largest line change, in absorbance), then what tells
+whether two rows are the same analysis: kinetic_fit (the fit the
+k_per_s[STEP] columns hold: data, profiles or hard-soft), t0_s,
 kinetics_map, baseline, closure, noise_weights, outlier_spectra (how many
 set aside), region, exclude, drop, hard_model, c0, fit_c0, k_fixed and
 settings_id (a fingerprint of every setting but the inputs: equal ids, same
 analysis of other data); then k_per_s[FIT | STEPS | STEP] and
-stderr_per_s[FIT | STEPS | STEP] for every fit, model and step met (STEPS
-is the model as its steps, so 'A -> B' and the A -> B of 'A -> B -> C'
-never share a column; a determined sum such as k1 + k2 is a STEP too), and
-notes (what a cell cannot say: constants not determined, the sum the data
-do determine). A value a folder lacks is an empty cell; numbers have 10
+stderr_per_s[FIT | STEPS | STEP] for every fit, model and step met (STEPS is
+the model as its steps, so 'A -> B' and the A -> B of 'A -> B -> C' never
+share a column; a determined sum such as k1 + k2 is a STEP too), and notes
+(what a cell cannot say: constants not determined, the sum the data do
+determine). A value a folder lacks is an empty cell; numbers have 10
 significant digits, as in every result file. The exit status is 1 if any
 folder had no readable summary.
 

@@ -45,10 +45,7 @@ var fixedColumns = []string{"folder", "status", "components", "rank_estimate", "
 // determine: the value the fit ended at is one of a continuum that fits
 // as well, not a measurement.
 //
-// residual_to_noise is the summary's own key when the run wrote one (the
-// noise-weighted fit), else lack_of_fit_percent ÷ noise_lack_of_fit_percent:
-// both are 100·‖·‖/‖D‖ of the same data, so the ratio is the root mean
-// square residual over the noise level (1 = the model fits to the noise).
+// residual_to_noise is always the run's own √(χ²/ν) (residualToNoise).
 func Collect(folders []string) (t output.Table, problems []string) {
 	var rows []row
 	var steps, keyed columnSet
@@ -169,11 +166,7 @@ func collectRow(dir string) (row, error) {
 			r.cells[k] = v
 		}
 	}
-	if v, ok := s.scalar("residual_to_noise"); ok {
-		r.cells["residual_to_noise"] = v
-	} else if q := s.ratio("lack_of_fit_percent", "noise_lack_of_fit_percent"); q != "" {
-		r.cells["residual_to_noise"] = q
-	}
+	r.residualToNoise(s)
 	if kin := s.object("kinetics"); kin != nil {
 		r.kinetics(kin)
 	}
@@ -183,6 +176,38 @@ func collectRow(dir string) (row, error) {
 	r.recordContext(dir)
 	r.cells["notes"] = strings.Join(r.notes, "; ")
 	return r, nil
+}
+
+// residualToNoise fills residual_to_noise with the summary's own key: √(χ²/ν)
+// of the fit, weighted as the run weighted it (noise_weights). A summary
+// written before the key (before noise weighting existed, so unweighted,
+// noise_weights absent or off) gets lack_of_fit_percent ÷
+// noise_lack_of_fit_percent, which is the same quantity for an unweighted
+// fit: both are 100·‖·‖/‖D‖ of the same data, so the ratio is the RMS
+// residual per degree of freedom over the noise σ (io/pipeline's
+// residualToNoise computes the key so). For a noise-weighted fit that
+// ratio is another quantity (the trial's catalyst-0.01 run: 2.3396
+// unweighted against its key's 2.2186), so the cell stays empty with a
+// note; so does a key of 0, which says no noise level was known.
+func (r *row) residualToNoise(s object) {
+	delete(r.cells, "residual_to_noise") // the fixed columns' loop copied the key as written
+	if v, ok := s.number("residual_to_noise"); ok {
+		if v > 0 {
+			r.cells["residual_to_noise"] = output.Float(v)
+		} else {
+			r.notes = append(r.notes, "residual_to_noise: no noise level was known (summary.json has 0)")
+		}
+		return
+	}
+	q := s.ratio("lack_of_fit_percent", "noise_lack_of_fit_percent")
+	if q == "" {
+		return
+	}
+	if w, ok := s.scalar("noise_weights"); ok && w != "off" {
+		r.notes = append(r.notes, fmt.Sprintf("residual_to_noise: not in summary.json; lack_of_fit_percent ÷ noise_lack_of_fit_percent (%s) is the unweighted ratio, not the residual of this %s-weighted fit over the noise, so it is left out", q, w))
+		return
+	}
+	r.cells["residual_to_noise"] = q
 }
 
 // kinetics fills the model, the reported fit's rate constants by step and

@@ -222,3 +222,42 @@ func TestCollectKeysRatesByFitAndModel(t *testing.T) {
 		t.Errorf("settings_id: %q (other data %q, other region %q, no record %q)", id, cell(3, "settings_id"), cell(4, "settings_id"), cell(1, "settings_id"))
 	}
 }
+
+// TestCollectResidualToNoiseIsOneQuantity: residual_to_noise is √(χ²/ν)
+// of the fit as the run weighted it (summary.json's own key; its
+// definition in io/output's Summary). Without the key, an unweighted run
+// (noise_weights off, or absent: written before weighting existed) has
+// exactly lack_of_fit ÷ noise_lack_of_fit (both 100·‖·‖/‖D‖ of the same
+// data); a noise-weighted one does not (the trial's catalyst-0.01 run:
+// 1.725375137 / 0.7374509075 = 2.3396 against its key's 2.21858278), so
+// its cell is empty and the notes say why. A key of 0 means no noise level
+// was known: empty too.
+func TestCollectResidualToNoiseIsOneQuantity(t *testing.T) {
+	root := t.TempDir()
+	weighted := writeSummary(t, filepath.Join(root, "weighted"), `{"lack_of_fit_percent": 1.725375137, "noise_lack_of_fit_percent": 0.7374509075, "noise_weights": "noise"}`)
+	own := writeSummary(t, filepath.Join(root, "own"), `{"lack_of_fit_percent": 1.725375137, "noise_lack_of_fit_percent": 0.7374509075, "noise_weights": "noise", "residual_to_noise": 2.21858278}`)
+	off := writeSummary(t, filepath.Join(root, "off"), `{"lack_of_fit_percent": 1.5, "noise_lack_of_fit_percent": 1.2, "noise_weights": "off"}`)
+	zero := writeSummary(t, filepath.Join(root, "zero"), `{"lack_of_fit_percent": 1.5, "noise_lack_of_fit_percent": 0, "residual_to_noise": 0}`)
+	tab, _ := Collect([]string{weighted, own, off, zero})
+	col := func(name string) int {
+		for j, h := range tab.Header {
+			if h == name {
+				return j
+			}
+		}
+		t.Fatalf("no column %s", name)
+		return -1
+	}
+	rtn, notes := col("residual_to_noise"), col("notes")
+	for i, want := range []string{"", "2.21858278", "1.25", ""} {
+		if got := tab.Rows[i][rtn]; got != want {
+			t.Errorf("row %d: residual_to_noise = %q, want %q", i, got, want)
+		}
+	}
+	if n := tab.Rows[0][notes]; !strings.Contains(n, "2.339647452) is the unweighted ratio") {
+		t.Errorf("notes of the weighted run without the key: %q", n)
+	}
+	if n := tab.Rows[3][notes]; !strings.Contains(n, "no noise level was known") {
+		t.Errorf("notes of the run without a noise level: %q", n)
+	}
+}
