@@ -261,3 +261,98 @@ func TestCollectHelpNamesEveryColumn(t *testing.T) {
 		at += i + len(name)
 	}
 }
+
+// fileStamps maps every file under dir to its bytes and modification time,
+// manifest included: a skipped folder must not be touched at all.
+func fileStamps(t *testing.T, dir string) map[string]string {
+	t.Helper()
+	got := map[string]string{}
+	err := filepath.WalkDir(dir, func(p string, d fs.DirEntry, err error) error {
+		if err != nil || d.IsDir() {
+			return err
+		}
+		b, err := os.ReadFile(p)
+		if err != nil {
+			return err
+		}
+		info, err := d.Info()
+		if err != nil {
+			return err
+		}
+		rel, _ := filepath.Rel(dir, p)
+		got[rel] = info.ModTime().String() + "\x00" + string(b)
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return got
+}
+
+// TestRunSkipDone: a campaign rerun after adding one command file. Without
+// --skip-done every earlier file fails on its existing folder (exit 1);
+// with it the earlier files are listed as skipped, the new one runs, the
+// exit status is 0, and the earlier folders keep every byte and time
+// stamp, a file the user put there included. A folder whose record has
+// other settings, and one bandsolve did not make, are errors that name the
+// cause, and nothing in them is removed or changed; --force then replaces
+// the first and still refuses the second (docs/reproducibility.md: --force
+// replaces only an output folder of bandsolve).
+func TestRunSkipDone(t *testing.T) {
+	root := campaignFiles(t, 2)
+	glob := filepath.Join(root, "runs", "*.bsr")
+	batch := filepath.Join(root, "batch")
+	if r := run("run", glob, "--out", batch, "--quiet"); r.code != 0 {
+		t.Fatal(r.stdout, r.stderr)
+	}
+	writeText(t, filepath.Join(batch, "r1", "my-notes.txt"), "kept\n")
+	before := map[string]map[string]string{"r0": fileStamps(t, filepath.Join(batch, "r0")), "r1": fileStamps(t, filepath.Join(batch, "r1"))}
+	writeText(t, filepath.Join(root, "runs", "r2.bsr"), "paths-from ..\ndata series.csv\nblank blank.csv\nkind single-beam\npre 3\nbands off\nreport off\nchecks off\ncomponents 2\nregion 1800:1000\n")
+	if r := run("run", glob, "--out", batch); r.code != exitRun || !strings.Contains(r.stdout, "3 command file(s): 1 ok, 2 failed") {
+		t.Errorf("without --skip-done: exit %d\n%s", r.code, r.stdout)
+	}
+	os.RemoveAll(filepath.Join(batch, "r2"))
+	r := run("run", glob, "--out", batch, "--skip-done")
+	if r.code != 0 || !strings.Contains(r.stdout, "3 command file(s): 1 ok, 2 skipped, 0 failed") ||
+		!regexp.MustCompile(`r0\.bsr +skipped`).MatchString(r.stdout) || !regexp.MustCompile(`r2\.bsr +ok`).MatchString(r.stdout) {
+		t.Fatalf("--skip-done: exit %d\n%s%s", r.code, r.stdout, r.stderr)
+	}
+	for name, was := range before {
+		now := fileStamps(t, filepath.Join(batch, name))
+		if len(now) != len(was) {
+			t.Errorf("%s: %d files, had %d", name, len(now), len(was))
+		}
+		for f, w := range was {
+			if now[f] != w {
+				t.Errorf("%s/%s changed though skipped", name, f)
+			}
+		}
+	}
+	// Other settings in r0's command file: its folder is another analysis.
+	r0 := filepath.Join(root, "runs", "r0.bsr")
+	text, _ := os.ReadFile(r0)
+	writeText(t, r0, strings.Replace(string(text), "components 2", "components 3", 1))
+	if err := os.MkdirAll(filepath.Join(batch, "r3"), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	writeText(t, filepath.Join(batch, "r3", "keep.txt"), "not bandsolve's\n")
+	writeText(t, filepath.Join(root, "runs", "r3.bsr"), "paths-from ..\ndata series.csv\nblank blank.csv\n"+quickSettings)
+	r = run("run", glob, "--out", batch, "--skip-done")
+	if r.code != exitRun || !strings.Contains(r.stdout, `components is "2" there and "3" here; it is kept: give --force`) ||
+		!strings.Contains(r.stdout, "holds no manifest.json") {
+		t.Errorf("another analysis: exit %d\n%s", r.code, r.stdout)
+	}
+	if b, err := os.ReadFile(filepath.Join(batch, "r3", "keep.txt")); err != nil || string(b) != "not bandsolve's\n" {
+		t.Errorf("a folder bandsolve did not make lost its file: %v", err)
+	}
+	if now := fileStamps(t, filepath.Join(batch, "r0")); now["summary.json"] != before["r0"]["summary.json"] {
+		t.Errorf("r0 of other settings was changed without --force")
+	}
+	r = run("run", glob, "--out", batch, "--skip-done", "--force", "--quiet")
+	if r.code != exitRun || !regexp.MustCompile(`r0\.bsr +ok`).MatchString(r.stdout) || !regexp.MustCompile(`r3\.bsr +failed`).MatchString(r.stdout) {
+		t.Errorf("--force: exit %d\n%s", r.code, r.stdout)
+	}
+	if b, err := os.ReadFile(filepath.Join(batch, "r3", "keep.txt")); err != nil || string(b) != "not bandsolve's\n" {
+		t.Errorf("--force removed a file bandsolve did not make: %v", err)
+	}
+}

@@ -92,6 +92,14 @@ batch, so a job array of a batch scheduler can split it; with Slurm
   #SBATCH --array=0-3
   bandsolve run 'runs/*.bsr' --out batch/ -j 1 --shard "$SLURM_ARRAY_TASK_ID/4"
 
+Adding experiments to a campaign: --skip-done skips a command file whose
+output folder already holds a complete result of the same settings (its
+as-run record, setting by setting) and inputs (their SHA-256 in its
+manifest); the table lists it as skipped and the exit status stays 0. A
+folder holding anything else is an error and is kept as it is:
+
+  bandsolve run 'runs/*.bsr' --out batch/ --skip-done
+
 On one machine, two at a time, then one table of all:
 
   bandsolve run 'runs/*.bsr' --out batch/ -j 2
@@ -112,6 +120,7 @@ func runRun(args []string, st pipeline.Streams) int {
 	settingsFlags(fs, flags)
 	jobsText := fs.StringP("jobs", "j", "", "run `N` command files at once (default: the number of cores)")
 	shardText := fs.String("shard", "", "run share `I/N` only: file k (from 0) when k mod N = I")
+	skipDone := fs.Bool("skip-done", false, "skip a command file whose output folder already holds a complete result of the same settings and inputs")
 	if ok, code := parse(fs, args, runHelp, st); !ok {
 		return code
 	}
@@ -131,6 +140,9 @@ func runRun(args []string, st pipeline.Streams) int {
 	// batch, so a file writes to the same folder whichever shard runs it.
 	batch := len(files)+len(results) > 1
 	mine := prepareShare(files, flags, changed, batch, shard)
+	for _, p := range mine {
+		p.skipDone = *skipDone
+	}
 	results = append(results, runBatch(mine, workers, batch, flags, st)...)
 	code, failed := batchExit(results, batch)
 	if !batch {
@@ -229,7 +241,17 @@ func printBatchTable(w io.Writer, results []outcome, failed int, shard campaign.
 	if shard.N > 1 {
 		what += fmt.Sprintf(" (shard %s of %d file(s))", shard, nFiles)
 	}
-	fmt.Fprintf(w, "\n%s: %d ok, %d failed\n", what, len(results)-failed, failed)
+	skipped := 0
+	for _, o := range results {
+		if o.status == "skipped" {
+			skipped++
+		}
+	}
+	if skipped > 0 {
+		fmt.Fprintf(w, "\n%s: %d ok, %d skipped, %d failed\n", what, len(results)-failed-skipped, skipped, failed)
+	} else {
+		fmt.Fprintf(w, "\n%s: %d ok, %d failed\n", what, len(results)-failed, failed)
+	}
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "file\tstatus\toutput\tdetail")
 	for _, o := range results {
@@ -238,7 +260,8 @@ func printBatchTable(w io.Writer, results []outcome, failed int, shard campaign.
 	tw.Flush()
 }
 
-// prepared is one command file with its settings (or why it has none).
+// prepared is one command file with its settings (or why it has none),
+// and whether to skip it when its results are there (--skip-done).
 type prepared struct {
 	file string
 	s    *pipeline.Settings
@@ -246,8 +269,9 @@ type prepared struct {
 	// cf is the file as read and changed the options the command line
 	// set over it: a fault of the run is put at the file's line
 	// (placeFault) only when the file set the option.
-	cf      *cmdfile.File
-	changed map[string]bool
+	cf       *cmdfile.File
+	changed  map[string]bool
+	skipDone bool
 }
 
 // runBatch runs the files on workers at once (campaign.Run). One worker
@@ -315,6 +339,11 @@ func runOne(p *prepared, st pipeline.Streams) (o outcome) {
 	}
 	s := p.s
 	o.out = s.Path(s.Out)
+	if p.skipDone {
+		if skip, done := skipIfDone(o, s, st); done {
+			return skip
+		}
+	}
 	r, err := pipeline.Execute(s, st)
 	if err != nil {
 		return fail(o, placeFault(p, err))
@@ -325,6 +354,29 @@ func runOne(p *prepared, st pipeline.Streams) (o outcome) {
 		o.detail += fmt.Sprintf(", lack of fit %.4g %%", r.LackOfFit)
 	}
 	return o
+}
+
+// skipIfDone gives the outcome of a file whose output folder holds a
+// complete result of the same settings and inputs (skipped), or of one
+// whose folder holds something else (failed, unless --force replaces it);
+// done is false when the file is to run. The folder is only read.
+func skipIfDone(o outcome, s *pipeline.Settings, st pipeline.Streams) (outcome, bool) {
+	done, err := pipeline.Done(o.out, s)
+	switch {
+	case done:
+		o.status, o.detail = "skipped", "the output folder holds a complete result of these settings and inputs"
+		if !s.Quiet && !s.JSON {
+			fmt.Fprintf(st.Out, "skipped: %s already holds a complete result of these settings and inputs (--skip-done)\n", o.out)
+		}
+		return o, true
+	case err == nil, s.Force && errors.Is(err, pipeline.ErrOtherAnalysis):
+		return o, false
+	case errors.Is(err, pipeline.ErrOtherAnalysis) && output.Made(o.out):
+		return fail(o, fmt.Errorf("--skip-done: %w; it is kept: give --force to replace it, or another --out", err)), true
+	case errors.Is(err, pipeline.ErrOtherAnalysis):
+		return fail(o, fmt.Errorf("--skip-done: %w; it is kept (bandsolve did not make it, so --force will not replace it either): choose another --out", err)), true
+	}
+	return fail(o, err), true
 }
 
 func fail(o outcome, err error) outcome {
