@@ -356,3 +356,24 @@ func TestRunSkipDone(t *testing.T) {
 		t.Errorf("--force removed a file bandsolve did not make: %v", err)
 	}
 }
+
+// TestRunFolderSuggestsPattern: a folder of command files given for the
+// files is a usage slip (exit 2, CONTRACT.md) told in one line that names
+// the folder and the quoted pattern to give instead (DEVELOPERS.md,
+// Errors); in a batch it is one failed row and the others still run.
+func TestRunFolderSuggestsPattern(t *testing.T) {
+	root := t.TempDir()
+	runs := filepath.Join(root, "runs")
+	if err := os.MkdirAll(runs, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	r := run("run", runs+"/")
+	want := "bandsolve run: " + runs + "/: is a folder, not a command file; give the command files in it, e.g. bandsolve run '" + filepath.Join(runs, "*.bsr") + "' (quoted: bandsolve expands the pattern)\n"
+	if r.code != exitUsage || r.stderr != want {
+		t.Errorf("exit %d, %q\nwant exit 2, %q", r.code, r.stderr, want)
+	}
+	r = run("run", runs, filepath.Join(root, "nosuch.bsr"), "--quiet")
+	if r.code == 0 || !regexp.MustCompile(`runs +failed +- +is a folder`).MatchString(r.stdout) {
+		t.Errorf("in a batch: exit %d\n%s", r.code, r.stdout)
+	}
+}

@@ -189,6 +189,13 @@ func batchShape(fs *pflag.FlagSet, jobsText, shardText string) (workers int, sha
 // matches nothing is a failed row of the batch.
 func expandPatterns(args []string) (files []string, unmatched []outcome) {
 	for _, a := range args {
+		if st, err := os.Stat(a); err == nil && st.IsDir() {
+			// A folder of command files given for the files: a usage slip.
+			pattern := filepath.Join(a, "*"+pipeline.CommandExt)
+			unmatched = append(unmatched, outcome{file: a, status: "failed", code: exitUsage,
+				detail: fmt.Sprintf("is a folder, not a command file; give the command files in it, e.g. bandsolve run '%s' (quoted: bandsolve expands the pattern)", pattern)})
+			continue
+		}
 		if _, err := os.Stat(a); err != nil && strings.ContainsAny(a, "*?[") {
 			m, gerr := filepath.Glob(a)
 			if gerr != nil || len(m) == 0 {

@@ -3,8 +3,10 @@ package campaign
 import (
 	"bytes"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"math"
 	"os"
 	"path/filepath"
@@ -376,9 +378,14 @@ func vapourCells(v object) (state, change string) {
 type object map[string]json.RawMessage
 
 func readSummary(dir string) (object, error) {
+	if err := checkFolder(dir); err != nil {
+		return nil, err
+	}
 	p := filepath.Join(dir, SummaryName)
 	st, err := os.Stat(p)
 	switch {
+	case err != nil && holdsResults(dir):
+		return nil, fmt.Errorf("no %s here, but its subfolders hold results: give them, e.g. bandsolve collect %s", SummaryName, filepath.Join(dir, "*")+string(filepath.Separator))
 	case err != nil:
 		return nil, fmt.Errorf("no %s (not a bandsolve output folder, or its run failed)", SummaryName)
 	case !st.Mode().IsRegular():
@@ -400,6 +407,43 @@ func readSummary(dir string) (object, error) {
 		return nil, fmt.Errorf("%s is not a JSON object: %v", SummaryName, err)
 	}
 	return o, nil
+}
+
+// checkFolder says in the user's terms why dir cannot hold results: it
+// does not exist, or it is a file.
+func checkFolder(dir string) error {
+	st, err := os.Stat(dir)
+	switch {
+	case errors.Is(err, fs.ErrNotExist):
+		return errors.New("does not exist; check the folder's path")
+	case err != nil:
+		var pe *fs.PathError
+		if errors.As(err, &pe) {
+			err = pe.Err
+		}
+		return fmt.Errorf("cannot read: %v", err)
+	case !st.IsDir():
+		return errors.New("is a file, not an output folder; give the folder that holds summary.json")
+	}
+	return nil
+}
+
+// holdsResults says whether a folder without summary.json has a subfolder
+// with one: the parent of a batch's results, given for the results (a
+// slip of the glob).
+func holdsResults(dir string) bool {
+	ents, err := os.ReadDir(dir)
+	if err != nil {
+		return false
+	}
+	for _, e := range ents {
+		if e.IsDir() {
+			if st, err := os.Stat(filepath.Join(dir, e.Name(), SummaryName)); err == nil && st.Mode().IsRegular() {
+				return true
+			}
+		}
+	}
+	return false
 }
 
 // scalar gives a string, number or boolean value as its text, a number as

@@ -261,3 +261,33 @@ func TestCollectResidualToNoiseIsOneQuantity(t *testing.T) {
 		t.Errorf("notes of the run without a noise level: %q", n)
 	}
 }
+
+// TestCollectSaysWhyAFolderHasNoResults: each slip gets its own cause and
+// what to do (DEVELOPERS.md, Errors: what, where, what to do): a folder
+// that does not exist, a file given for a folder, and the parent of a
+// batch's result folders given for them, with the glob that names them.
+func TestCollectSaysWhyAFolderHasNoResults(t *testing.T) {
+	root := t.TempDir()
+	batch := filepath.Join(root, "batch")
+	writeSummary(t, filepath.Join(batch, "r0"), `{"components": 2}`)
+	file := filepath.Join(root, "exp1.bsr")
+	if err := os.WriteFile(file, []byte("data x\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	empty := writeSummary(t, filepath.Join(root, "empty"), "")
+	_, problems := Collect([]string{filepath.Join(root, "nosuch"), file, batch, empty})
+	want := []string{
+		filepath.Join(root, "nosuch") + ": does not exist; check the folder's path",
+		file + ": is a file, not an output folder; give the folder that holds summary.json",
+		batch + ": no summary.json here, but its subfolders hold results: give them, e.g. bandsolve collect " + filepath.Join(batch, "*") + "/",
+		empty + ": no summary.json (not a bandsolve output folder, or its run failed)",
+	}
+	if len(problems) != len(want) {
+		t.Fatalf("problems %q", problems)
+	}
+	for i := range want {
+		if problems[i] != want[i] {
+			t.Errorf("got  %q\nwant %q", problems[i], want[i])
+		}
+	}
+}
