@@ -56,7 +56,7 @@ func TestStepOwnNoise(t *testing.T) {
 	}
 	// The jump's step: ρ² = noise + Σ_j (25 g_j)²/2 / m, g a unit Gaussian 40 channels
 	// wide (Σ g² = 40√π), over the quiet steps' κ² = 1/5.
-	jump := math.Sqrt((1.0/5+625*40*math.Sqrt(math.Pi)/2/float64(m))*5)
+	jump := math.Sqrt((1.0/5 + 625*40*math.Sqrt(math.Pi)/2/float64(m)) * 5)
 	for a := range kappa {
 		want := math.Sqrt((sd[a]*sd[a] + sd[a+1]*sd[a+1]) / 5 / 2)
 		if math.Abs(kappa[a]/want-1) > 0.15 {
