@@ -91,7 +91,7 @@ func TestUniquenessRangesHoldTheTruthOfASpike(t *testing.T) {
 	for _, perm := range [][]int{{0, 1, 2}, {0, 2, 1}, {1, 0, 2}, {1, 2, 0}, {2, 0, 1}, {2, 1, 0}} {
 		sum := 0.0
 		for k, j := range perm {
-			sum += cosineOf(mat.Col(nil, k, s.spectra), mat.Col(nil, j, r.ALS.S))
+			sum += cosineCols(s.spectra, k, r.ALS.S, j)
 		}
 		if sum > bestSum {
 			best, bestSum = perm, sum
@@ -104,12 +104,4 @@ func TestUniquenessRangesHoldTheTruthOfASpike(t *testing.T) {
 			t.Errorf("true species %d (component %d): share %.4f outside its range %.4f – %.4f", k+1, j+1, share, b.Min, b.Max)
 		}
 	}
-}
-
-func cosineOf(a, b []float64) float64 {
-	var ab, aa, bb float64
-	for i := range a {
-		ab, aa, bb = ab+a[i]*b[i], aa+a[i]*a[i], bb+b[i]*b[i]
-	}
-	return ab / math.Sqrt(aa*bb)
 }
