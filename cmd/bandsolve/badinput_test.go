@@ -363,7 +363,7 @@ func badCases() []badCase {
 		{name: "output folder holds earlier results", args: []string{"--data", "B/good.csv", "--out", "W/old"}, setup: func(t *testing.T, w string) {
 			os.Mkdir(filepath.Join(w, "old"), 0o755)
 			writeFile(t, filepath.Join(w, "old", "summary.json"), "{}\n")
-			writeFile(t, filepath.Join(w, "old", "manifest.json"), `{"tool": "bandsolve"}`)
+			writeFile(t, filepath.Join(w, "old", "manifest.json"), `{"tool": "bandsolve", "files": ["summary.json", "manifest.json"]}`)
 		}, code: 1, want: []string{"old: output folder holds earlier results", "add --force"}},
 		{name: "output folder holds the user's files", args: []string{"--data", "B/good.csv", "--out", "W/notmine"}, setup: func(t *testing.T, w string) {
 			os.Mkdir(filepath.Join(w, "notmine"), 0o755)
@@ -385,7 +385,7 @@ func badCases() []badCase {
 		}, code: 1, want: []string{"link: is a symbolic link", "never writes through a link"}},
 		{name: "force on a folder holding the run's input", args: []string{"--data", "W/d/series.csv", "--out", "W/d", "--force"}, setup: func(t *testing.T, w string) {
 			os.Mkdir(filepath.Join(w, "d"), 0o755)
-			writeFile(t, filepath.Join(w, "d", "manifest.json"), `{"tool": "bandsolve"}`)
+			writeFile(t, filepath.Join(w, "d", "manifest.json"), `{"tool": "bandsolve", "files": ["series.csv", "manifest.json"]}`)
 			b, _ := os.ReadFile(filepath.Join(badDir, "good.csv"))
 			writeFile(t, filepath.Join(w, "d", "series.csv"), string(b))
 		}, code: 1, want: []string{"d: holds", "series.csv, an input of this run", "choose another --out"}},

@@ -19,7 +19,7 @@ func TestForceNeverDeletesInputsOrOthersFiles(t *testing.T) {
 	// A folder made by bandsolve whose record reads d/input: rerunning
 	// it into itself would delete its input.
 	d := filepath.Join(w, "d")
-	writeText(t, filepath.Join(d, "manifest.json"), `{"tool": "bandsolve"}`)
+	writeText(t, filepath.Join(d, "manifest.json"), `{"tool": "bandsolve", "files": ["input/series.csv", "as-run.bsr", "manifest.json"]}`)
 	writeText(t, filepath.Join(d, "input", "series.csv"), string(good))
 	writeText(t, filepath.Join(d, "as-run.bsr"), "data input/series.csv\n")
 	// A command file whose out names a sibling folder of other files.
@@ -68,5 +68,43 @@ func TestClosedStdoutKeepsResults(t *testing.T) {
 	}
 	if ents, _ := os.ReadDir(w); len(ents) != 1 {
 		t.Errorf("beside the results: %d entries, want only out", len(ents))
+	}
+}
+
+// A file a user saved into a results folder (notes, a plot from the
+// results) stops --force, with or without it, and is never deleted; once
+// it is moved out, --force replaces the results. The manifest lists every
+// file the run wrote, and only those go (docs/security.md).
+func TestForceKeepsAUsersFileInResults(t *testing.T) {
+	w := t.TempDir()
+	out := filepath.Join(w, "demo")
+	if r := run("demo", "--out", out, "--quiet"); r.code != exitOK {
+		t.Fatalf("demo: exit %d, %s", r.code, r.stderr)
+	}
+	notes := filepath.Join(out, "figures", "my-notes.txt")
+	writeText(t, notes, "k1 looks high\n")
+	before := hashTree(t, w, "")
+	for _, force := range []bool{true, false} {
+		args := []string{"demo", "--out", out, "--quiet"}
+		if force {
+			args = append(args, "--force")
+		}
+		r := run(args...)
+		if r.code != exitRun || !strings.Contains(r.stderr, "holds figures/my-notes.txt, which bandsolve did not write") {
+			t.Errorf("force %v: exit %d, %q", force, r.code, r.stderr)
+		}
+	}
+	sameHashes(t, "refused --force", before, hashTree(t, w, ""))
+	if err := os.Rename(notes, filepath.Join(w, "my-notes.txt")); err != nil {
+		t.Fatal(err)
+	}
+	if r := run("report", out, "--quiet"); r.code != exitOK {
+		t.Fatalf("report: exit %d, %s", r.code, r.stderr)
+	}
+	if r := run("demo", "--out", out, "--force", "--quiet"); r.code != exitOK {
+		t.Errorf("--force once the notes are out: exit %d, %s", r.code, r.stderr)
+	}
+	if ents, _ := os.ReadDir(w); len(ents) != 2 {
+		t.Errorf("beside the results: %d entries, want the results and the notes", len(ents))
 	}
 }

@@ -359,7 +359,7 @@ func TestInterrupt(t *testing.T) {
 	// Earlier results, which the interrupted run was told to replace.
 	writeText(t, filepath.Join(out, "summary.json"), "{\"earlier\": true}\n")
 	// The manifest marks the folder as bandsolve's, which --force requires.
-	writeText(t, filepath.Join(out, "manifest.json"), "{\"tool\": \"bandsolve\"}\n")
+	writeText(t, filepath.Join(out, "manifest.json"), "{\"tool\": \"bandsolve\", \"files\": [\"summary.json\", \"manifest.json\"]}\n")
 	cmd := exec.Command(os.Args[0], "-test.run=^TestMainProcess$", "--", "demo", "--out", out, "--force", "--quiet")
 	cmd.Env = append(os.Environ(), "BANDSOLVE_TEST_MAIN=1")
 	var stderr bytes.Buffer

@@ -28,7 +28,8 @@ import (
 //     always holds either the earlier or the new results, complete. Where
 //     the system has no exchange, the two renames are recorded first in
 //     PARENT/.OUT.swap, which the next run reads to complete or roll back;
-//  4. the parent folder is flushed, and the earlier results removed.
+//  4. the parent folder is flushed, and the earlier results removed, file
+//     by file from their manifest's list (own.go), never as a tree.
 
 // started is when this process began: a staging folder not touched since
 // then, and whose run holds no lock on it, belongs to a dead run.
@@ -83,7 +84,7 @@ func (s *Stage) Commit() error {
 	if err := exchange(s.Dir, s.Final); err == nil {
 		// The stage's name now holds the earlier results.
 		syncDir(parent)
-		removeTree(s.Dir)
+		dropEarlier(s.Dir, s.Final)
 		return nil
 	}
 	return s.swapInTwoSteps()
@@ -124,29 +125,27 @@ func (s *Stage) swapInTwoSteps() error {
 	syncDir(parent)
 	os.Remove(j)
 	syncDir(parent)
-	removeTree(old)
+	dropEarlier(old, s.Final)
 	return nil
 }
 
-// removeTree removes dir and everything below it, as os.RemoveAll does,
-// with the files removed on up to eight goroutines at once: each removal
-// waits on the file system (its journal, and on this machine's ext4,
-// mounted with discard, the blocks freed), and several overlap, where
-// the earlier results' removal is the last step of a run that replaces
-// them. The files are named and removed through an os.Root opened on
-// dir, as os.RemoveAll works through open folders: a folder of the tree
-// swapped for a link between the listing and a removal cannot lead a
-// removal outside the tree, and a link is removed, never followed. What
-// is left (the folders, an entry made meanwhile, a removal that failed)
-// os.RemoveAll removes.
-func removeTree(dir string) {
-	defer os.RemoveAll(dir)
-	root := openTree(dir)
+// removeDeadStage removes the staging folder p of a dead run. One that
+// holds a list of its files (own.go) may hold the earlier results a commit
+// swapped out and was killed while removing: they go file by file, as
+// after a commit. One without the list is a stage whose run died before
+// it was complete, holding nothing but what that run wrote.
+func removeDeadStage(p, final string) {
+	root := openTree(p)
 	if root == nil {
 		return
 	}
-	defer root.Close()
-	removeFiles(root, treeFiles(root))
+	_, listed := ownFiles(root)
+	root.Close()
+	if listed {
+		dropEarlier(p, final)
+		return
+	}
+	os.RemoveAll(p)
 }
 
 // openTree opens an os.Root on the folder dir itself, or returns nil when
@@ -181,7 +180,12 @@ func treeFiles(root *os.Root) []string {
 	return files
 }
 
-// removeFiles removes the named entries of root on up to eight goroutines.
+// removeFiles removes the named entries of root on up to eight goroutines:
+// each removal waits on the file system (its journal, and on this
+// machine's ext4, mounted with discard, the blocks freed), and several
+// overlap. Through root, a folder of the tree swapped for a link between
+// the listing and a removal cannot lead a removal outside the tree, and a
+// link is removed, never followed.
 func removeFiles(root *os.Root, files []string) {
 	var wg sync.WaitGroup
 	work := make(chan string)
@@ -230,13 +234,13 @@ func recoverSwap(final string) error {
 	case !exists(final) && exists(stage):
 		// Killed between the two renames: the stage was complete.
 		if err = os.Rename(stage, final); err == nil {
-			err = os.RemoveAll(old)
+			dropEarlier(old, final)
 		}
 	case !exists(final) && exists(old):
 		err = os.Rename(old, final)
 	case exists(old):
 		// Both renames were done; the earlier results were still to go.
-		err = os.RemoveAll(old)
+		dropEarlier(old, final)
 	default:
 		// Killed before the first rename: OUT is as it was.
 		err = os.RemoveAll(stage)
@@ -291,7 +295,7 @@ func tidyLocked(final string) error {
 			dead := tryLock(f)
 			f.Close()
 			if dead {
-				os.RemoveAll(p)
+				removeDeadStage(p, final)
 			}
 		}
 	}

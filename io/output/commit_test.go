@@ -2,12 +2,14 @@ package output
 
 import (
 	"bytes"
+	"encoding/json"
 	"fmt"
 	"math/rand/v2"
 	"os"
 	"os/exec"
 	"path/filepath"
 	"runtime"
+	"slices"
 	"strings"
 	"syscall"
 	"testing"
@@ -36,7 +38,7 @@ func TestCommitLoopProcess(t *testing.T) {
 		for _, n := range committedFiles {
 			st.Write(n, body)
 		}
-		st.Write(ManifestName, []byte(`{"tool": "bandsolve"}`))
+		st.Write(ManifestName, ownManifest(committedFiles...))
 		if err := st.Commit(); err != nil {
 			fmt.Fprintln(os.Stderr, err)
 			os.Exit(3)
@@ -171,7 +173,7 @@ func TestRecoverSwap(t *testing.T) {
 				for _, n := range committedFiles {
 					mustWrite(t, filepath.Join(p, n), gen)
 				}
-				mustWrite(t, filepath.Join(p, ManifestName), "{}")
+				mustWrite(t, filepath.Join(p, ManifestName), string(ownManifest(committedFiles...)))
 			}
 			switch {
 			case c.final && c.old:
@@ -244,36 +246,58 @@ func TestTidyRemovesOnlyDeadStages(t *testing.T) {
 	}
 }
 
-// removeTree leaves nothing of the tree it removes, as os.RemoveAll
-// (package os: "removes path and any children it contains"), and, like
-// it, removes a link without following it: the link's target, outside the
-// tree, is still there.
-func TestRemoveTreeIsRemoveAll(t *testing.T) {
-	root := t.TempDir()
-	tree, outside := filepath.Join(root, "tree"), filepath.Join(root, "kept.csv")
-	for _, d := range []string{"figures", filepath.Join("a", "b", "c")} {
-		if err := os.MkdirAll(filepath.Join(tree, d), 0o755); err != nil {
-			t.Fatal(err)
+// ownManifest is a manifest of bandsolve listing files (and itself), as
+// the pipeline writes it last.
+func ownManifest(files ...string) []byte {
+	b, _ := json.Marshal(map[string]any{"tool": "bandsolve", FilesKey: append(slices.Clone(files), ManifestName)})
+	return b
+}
+
+// dropEarlier removes the files the earlier results' manifest lists, a
+// link among them without following it (package os, RemoveAll: "removes
+// path and any children it contains"; a link is removed, not followed),
+// and the folders they leave empty. A file it does not list — one a user
+// put into the folder after --force checked it — is kept, with the folder,
+// under a name beside the output where the user sees it.
+func TestDropEarlierRemovesOnlyWhatItListed(t *testing.T) {
+	for _, stray := range []string{"", "figures/mine.png", "notes/today.txt"} {
+		base := t.TempDir()
+		tree, outside, final := filepath.Join(base, "tree"), filepath.Join(base, "kept.csv"), filepath.Join(base, "out")
+		listed := []string{"x.csv", "figures/f.png", "a/b/c/z.txt", "figures/link", "report.html"}
+		for _, f := range listed[:3] {
+			mustWrite(t, filepath.Join(tree, filepath.FromSlash(f)), f)
 		}
-	}
-	for _, f := range []string{"x.csv", "y.csv", filepath.Join("figures", "f.png"), filepath.Join("a", "b", "c", "z.txt"), outside} {
-		p := f
-		if f != outside {
-			p = filepath.Join(tree, f)
+		mustWrite(t, outside, "outside")
+		if err := os.Symlink(outside, filepath.Join(tree, "figures", "link")); err != nil {
+			t.Skip("no symbolic links:", err)
 		}
-		if err := os.WriteFile(p, []byte(f), 0o644); err != nil {
-			t.Fatal(err)
+		mustWrite(t, filepath.Join(tree, "report.html"), "rebuilt by bandsolve report")
+		mustWrite(t, filepath.Join(tree, ManifestName), string(ownManifest(listed[:4]...)))
+		if stray != "" {
+			mustWrite(t, filepath.Join(tree, filepath.FromSlash(stray)), "the user's")
 		}
-	}
-	if err := os.Symlink(outside, filepath.Join(tree, "figures", "link")); err != nil {
-		t.Fatal(err)
-	}
-	removeTree(tree)
-	if _, err := os.Lstat(tree); !os.IsNotExist(err) {
-		t.Errorf("the tree is still there (%v)", err)
-	}
-	if b, err := os.ReadFile(outside); err != nil || string(b) != outside {
-		t.Errorf("the link's target holds %q (%v)", b, err)
+		dropEarlier(tree, final)
+		if _, err := os.Lstat(tree); !os.IsNotExist(err) {
+			t.Errorf("stray %q: the tree is still there (%v)", stray, err)
+		}
+		if b, err := os.ReadFile(outside); err != nil || string(b) != "outside" {
+			t.Errorf("stray %q: the link's target holds %q (%v)", stray, b, err)
+		}
+		ents, _ := os.ReadDir(base)
+		if stray == "" {
+			if len(ents) != 1 {
+				t.Errorf("left beside: %d entries, want only the link's target", len(ents))
+			}
+			continue
+		}
+		if b, err := os.ReadFile(filepath.Join(final+".kept", filepath.FromSlash(stray))); err != nil || string(b) != "the user's" {
+			t.Errorf("stray %q: not kept in out.kept: %q (%v)", stray, b, err)
+		}
+		for _, f := range listed {
+			if _, err := os.Lstat(filepath.Join(final+".kept", filepath.FromSlash(f))); err == nil {
+				t.Errorf("stray %q: the listed %s was kept too", stray, f)
+			}
+		}
 	}
 }
 
@@ -283,7 +307,7 @@ func TestRemoveTreeIsRemoveAll(t *testing.T) {
 // inside the folder it was opened on and refuses a link leading out
 // (package os: "methods on Root ... will not access files outside the
 // tree"); a removal by path would have followed the link.
-func TestRemoveTreeFollowsNoLinkSwappedIn(t *testing.T) {
+func TestRemovalFollowsNoLinkSwappedIn(t *testing.T) {
 	base := t.TempDir()
 	tree, outside := filepath.Join(base, "tree"), filepath.Join(base, "outside")
 	for _, d := range []string{filepath.Join(tree, "figures"), outside} {
@@ -317,24 +341,17 @@ func TestRemoveTreeFollowsNoLinkSwappedIn(t *testing.T) {
 	}
 }
 
-// A link named as the tree is removed, not followed: the folder it points
-// to keeps its files (os.RemoveAll does the same).
-func TestRemoveTreeOfALinkKeepsItsTarget(t *testing.T) {
+// A link where the earlier results should be is not followed: the folder
+// it points to keeps its files.
+func TestDropEarlierOfALinkKeepsItsTarget(t *testing.T) {
 	base := t.TempDir()
 	target, link := filepath.Join(base, "target"), filepath.Join(base, "link")
-	if err := os.Mkdir(target, 0o755); err != nil {
-		t.Fatal(err)
-	}
-	if err := os.WriteFile(filepath.Join(target, "x.csv"), []byte("kept"), 0o644); err != nil {
-		t.Fatal(err)
-	}
+	mustWrite(t, filepath.Join(target, "x.csv"), "kept")
+	mustWrite(t, filepath.Join(target, ManifestName), string(ownManifest("x.csv")))
 	if err := os.Symlink(target, link); err != nil {
-		t.Fatal(err)
+		t.Skip("no symbolic links:", err)
 	}
-	removeTree(link)
-	if _, err := os.Lstat(link); !os.IsNotExist(err) {
-		t.Errorf("the link is still there (%v)", err)
-	}
+	dropEarlier(link, filepath.Join(base, "out"))
 	if b, err := os.ReadFile(filepath.Join(target, "x.csv")); err != nil || string(b) != "kept" {
 		t.Errorf("the link's target holds %q (%v)", b, err)
 	}

@@ -25,7 +25,7 @@ func TestForceReplacesOnlyOwnFolders(t *testing.T) {
 	w := t.TempDir()
 	t.Chdir(w)
 	own := filepath.Join(w, "own")
-	mustWrite(t, filepath.Join(own, ManifestName), `{"tool": "bandsolve", "version": "x"}`)
+	mustWrite(t, filepath.Join(own, ManifestName), string(ownManifest("spectra.csv")))
 	mustWrite(t, filepath.Join(own, "spectra.csv"), "x\n")
 	thesis := filepath.Join(w, "thesis")
 	mustWrite(t, filepath.Join(thesis, "chapter1.tex"), "keep me\n")
@@ -65,6 +65,52 @@ func TestForceReplacesOnlyOwnFolders(t *testing.T) {
 	}
 	if err := Check("link", true); err == nil || !strings.Contains(err.Error(), "is a symbolic link") {
 		t.Errorf("--out link --force: %v", err)
+	}
+}
+
+// --force replaces a folder bandsolve made only while it holds nothing but
+// the files its manifest lists (and the report `bandsolve report` adds):
+// a file or folder a user put into it is named and the folder refused,
+// with or without --force; a folder whose manifest has no list (an
+// earlier bandsolve's) is refused too, as its files cannot be told from
+// the user's. The rule is bandsolve's own ("never delete what it did not
+// make", docs/security.md).
+func TestForceKeepsFilesAddedToResults(t *testing.T) {
+	w := t.TempDir()
+	results := func(name string, extra ...string) string {
+		d := filepath.Join(w, name)
+		mustWrite(t, filepath.Join(d, "spectra.csv"), "x\n")
+		mustWrite(t, filepath.Join(d, "figures", "a.svg"), "<svg/>")
+		mustWrite(t, filepath.Join(d, ManifestName), string(ownManifest("spectra.csv", "figures/a.svg")))
+		for _, f := range extra {
+			mustWrite(t, filepath.Join(d, filepath.FromSlash(f)), "the user's\n")
+		}
+		return d
+	}
+	for _, c := range []struct {
+		out, want string
+	}{
+		{results("clean"), ""},
+		{results("rebuilt", "report.html", ".report-123.html"), ""},
+		{results("notes", "notes.txt"), "holds notes.txt, which bandsolve did not write"},
+		{results("deep", "figures/mine.png", "extra/x.csv", "a.txt", "b.txt"), "holds a.txt, b.txt, extra/ and 1 more, which"},
+		{results("report-elsewhere", "figures/report.html"), "holds figures/report.html"},
+	} {
+		err := Check(c.out, true)
+		if c.want == "" && err != nil || c.want != "" && (err == nil || !strings.Contains(err.Error(), c.want)) {
+			t.Errorf("Check(%s, force) = %v, want %q", filepath.Base(c.out), err, c.want)
+		}
+		if c.want != "" {
+			if err := Check(c.out, false); err == nil || !strings.Contains(err.Error(), c.want) {
+				t.Errorf("Check(%s) without force = %v, want %q at once", filepath.Base(c.out), err, c.want)
+			}
+		}
+	}
+	old := filepath.Join(w, "old")
+	mustWrite(t, filepath.Join(old, ManifestName), `{"tool": "bandsolve", "version": "0.1"}`)
+	mustWrite(t, filepath.Join(old, "spectra.csv"), "x\n")
+	if err := Check(old, true); err == nil || !strings.Contains(err.Error(), "does not list the files it wrote") {
+		t.Errorf("a folder without the list: %v", err)
 	}
 }
 
@@ -110,7 +156,7 @@ func TestForceOnReadOnlyFolder(t *testing.T) {
 	}
 	w := t.TempDir()
 	out := filepath.Join(w, "out")
-	mustWrite(t, filepath.Join(out, ManifestName), `{"tool": "bandsolve"}`)
+	mustWrite(t, filepath.Join(out, ManifestName), string(ownManifest()))
 	os.Chmod(out, 0o555)
 	t.Cleanup(func() { os.Chmod(out, 0o755) })
 	if _, err := NewStage(out, true); err == nil || !strings.Contains(err.Error(), "--force cannot remove the earlier results") {

@@ -45,7 +45,8 @@ var ErrExists = errors.New("output folder holds earlier results")
 const ManifestName = "manifest.json"
 
 // Check reports whether out may receive results: it must not exist, be an
-// empty folder, or (with force) be an output folder bandsolve made. It is
+// empty folder, or (with force) be an output folder bandsolve made that
+// holds only the files it lists (own.go). It is
 // never the working folder or one above it, and never a symbolic link: a
 // commit replaces the folder as a whole, and through a link it would
 // replace the link. Folders missing above out are made by NewStage.
@@ -113,6 +114,9 @@ func replaceable(out, clean string, st os.FileInfo, force bool) error {
 	// would only lead to a second refusal.
 	if !Made(clean) {
 		return fmt.Errorf("%s: holds files bandsolve did not write (it has no %s of bandsolve), which it never replaces, with or without --force: choose another --out, a new or empty folder", out, ManifestName)
+	}
+	if err := othersFiles(out, clean); err != nil {
+		return err
 	}
 	if !force {
 		return fmt.Errorf("%s: %w; add --force to replace them, or choose another --out", out, ErrExists)

@@ -24,7 +24,7 @@ func TestStageLifecycle(t *testing.T) {
 		t.Fatal(err)
 	}
 	// The manifest is what lets --force recognise the folder as bandsolve's.
-	st.Write(ManifestName, []byte(`{"tool": "bandsolve"}`))
+	st.Write(ManifestName, ownManifest("a.csv"))
 	if _, err := os.Stat(out); !errors.Is(err, os.ErrNotExist) {
 		t.Fatalf("the output folder exists before Commit: %v", err)
 	}

@@ -144,6 +144,9 @@ func finish(r *Result, stage *output.Stage, extra Extra, st Streams) error {
 	// left in the folder.
 	r.ahead.wait()
 	stage.DropUnlisted()
+	if err := writeFileList(r, stage); err != nil {
+		return err
+	}
 	if r.Settings.JSON {
 		// Made now so that a summary encoding cannot fail after the commit.
 		b, err := output.JSON(MakeSummary(r))

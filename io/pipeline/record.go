@@ -196,11 +196,30 @@ func writeRecord(r *Result, stage *output.Stage) error {
 	if err != nil {
 		return err
 	}
+	r.manifest = m
+	return writeManifest(m, stage)
+}
+
+func writeManifest(m *Manifest, stage *output.Stage) error {
 	b, err := json.MarshalIndent(m, "", "  ")
 	if err != nil {
 		return fmt.Errorf("manifest: %w", err)
 	}
 	return stage.Write(ManifestName, append(b, '\n'))
+}
+
+// writeFileList writes the manifest again with the list of every file of the
+// stage, once nothing else is written into it.
+func writeFileList(r *Result, stage *output.Stage) error {
+	if r.manifest == nil {
+		return nil
+	}
+	files, err := stage.Listing()
+	if err != nil {
+		return err
+	}
+	r.manifest.Files = files
+	return writeManifest(r.manifest, stage)
 }
 
 // Record renders the settings of r as a complete command file, every
@@ -290,6 +309,11 @@ type Manifest struct {
 	// checks them and puts them into its rerun, as a report may read them.
 	Supplied []InputFile `json:"supplied"`
 	Note     string      `json:"note"`
+	// Files are every file the folder held when bandsolve wrote it,
+	// this manifest included: --force replaces the folder only while it
+	// holds nothing else (output.FilesKey). Written last (writeFileList), so
+	// the report, made before, never shows it.
+	Files []string `json:"files,omitempty"`
 }
 
 // Host is what ran the analysis: the bandsolve build and the platform.

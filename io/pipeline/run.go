@@ -45,6 +45,7 @@ type Result struct {
 	Started     time.Time  // when Run began (for the manifest)
 	Supplied    []string   // files the command staged before the results (the demo's data)
 	summaryJSON []byte     // summary printed with --json, made before the commit
+	manifest    *Manifest  // as written by writeRecord; writeFileList adds the folder's files
 	inputSums   *inputSums // the inputs' SHA-256, hashed beside the run (runForFolder) or the writers (finish)
 	Experiments []*Experiment
 	AxisName    string

@@ -337,6 +337,11 @@ func manifestView(t *Text) (rows [][2]string, text string, dropped int) {
 		text, dropped = dropTimes(t.Body)
 		return nil, text, dropped
 	}
+	// The list of the folder's files is written after the report: left
+	// out, `bandsolve report` rebuilds the run's own bytes.
+	if m, ok := v.(map[string]any); ok {
+		delete(m, output.FilesKey)
+	}
 	var walk func(prefix string, v any)
 	walk = func(prefix string, v any) {
 		switch x := v.(type) {
