@@ -1554,8 +1554,12 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	scan, own, cnt := scanSingleBeams(s, opt, bad)
 	blind := scan.blind
 	if blind.Count > n*m/4 {
-		// Not a few blind points but the wrong kind of data.
-		return checkPositive(s.Values, s, "single beam")
+		// Not a few blind points but the wrong kind of data, or a
+		// detector cut flat over much of the spectrum.
+		if err := checkPositive(s.Values, s, "single beam"); err != nil {
+			return err
+		}
+		return mostlyBlindBeams(s, blind.Count, scan.ceiling)
 	}
 	line := lineWeights(s.Times)
 	if line != nil {
@@ -1579,6 +1583,33 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	writeAbsorbances(s, ref, opt.Blank, blind, out)
 	out.Notes = append(out.Notes, BlindNotes(s.Source, s.AxisName, s.Axis, s.Times, blind)...)
 	return nil
+}
+
+// mostlyBlindBeams refuses single beams, all positive, of which more than
+// a quarter of the points are blind: at the detector's ceiling (a flat top)
+// or without usable light. What is left is too little to resolve, and the
+// cure is at the spectrometer.
+func mostlyBlindBeams(s *Series, count int, ceiling float64) error {
+	n, m := s.Values.Dims()
+	at, lo, hi := 0, m, -1
+	if ceiling > 0 {
+		for i := 0; i < n; i++ {
+			for j, x := range s.Values.RawRowView(i) {
+				if x >= ceiling {
+					at, lo, hi = at+1, min(lo, j), max(hi, j)
+				}
+			}
+		}
+	}
+	why := "without usable light"
+	if at > 0 {
+		why = fmt.Sprintf("%d at the detector's ceiling %g (%s %g to %g), where the beam is cut flat (a saturated detector)", at, ceiling, s.AxisName, s.Axis[lo], s.Axis[hi])
+		if at < count {
+			why += fmt.Sprintf("; %d without usable light", count-at)
+		}
+	}
+	return inputErr(s.Source, 0, "measure again with the single beam below the detector's limit (less gain, a weaker source or a smaller aperture), or leave the range out with --exclude LO:HI",
+		"%d of %d points (%.0f %%) are blind, %s: more than a quarter of the data hold no absorbance", count, n*m, 100*float64(count)/float64(n*m), why)
 }
 
 // checkBlankAndReferenceBeams refuses a blank or a reference file that is not a

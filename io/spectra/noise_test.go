@@ -146,6 +146,40 @@ func TestBlindPoints(t *testing.T) {
 	}
 }
 
+// Beams cut flat at the detector's ceiling over more than a quarter of the
+// points (a gain set so that the source's peak saturates) hold no
+// absorbance there; a flat top is a saturated detector, not a measured
+// value (common practice). The assembly refuses them with one line naming
+// the ceiling, the share and the range, where it used to return no
+// matrices at all and the caller panicked on them.
+func TestMostlyAtTheCeilingIsRefused(t *testing.T) {
+	rng := rand.New(rand.NewPCG(10, 1998))
+	s := beams(rng, 30, 200, 5, 1, 0)
+	ceiling := 5500.0
+	n, m := s.Values.Dims()
+	clipped := 0
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			if s.Values.At(i, j) >= ceiling {
+				s.Values.Set(i, j, ceiling)
+				clipped++
+			}
+		}
+	}
+	if clipped <= n*m/4 {
+		t.Fatalf("only %d of %d points clipped: the case is not made", clipped, n*m)
+	}
+	a, err := Assemble(s, AssembleOptions{Kind: SingleBeam, Reference: Reference{Mean: 1}})
+	if err == nil {
+		t.Fatalf("%d of %d points at the ceiling accepted (matrices %v)", clipped, n*m, a.Difference != nil)
+	}
+	for _, want := range []string{"are blind", "at the detector's ceiling 5500 (wavenumber", "saturated detector", "more than a quarter", "--exclude"} {
+		if !strings.Contains(err.Error(), want) {
+			t.Errorf("error %q lacks %q", err, want)
+		}
+	}
+}
+
 // StepToNoise on repeats with known noise σ_ij = 1/√(a_i b_j): each step's Σ z² is χ²
 // with m degrees of freedom, so ρ² = χ²_m/m lies within 1 ± 4√(2/m) (mean 1, standard
 // deviation √(2/m): definition of χ²); the drift taken out first keeps that (each point's
