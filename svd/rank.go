@@ -49,6 +49,13 @@ type RankOptions struct {
 	// (√a_i of a noise-scaled matrix √A D √B: the pattern's row i is then √a_i times the
 	// fixed pattern); nil = constant. Time vectors are divided by it before the flatness test.
 	PatternTime []float64
+	// Blank says the rows are absolute absorbances against one blank (or
+	// background) spectrum, with no reference row: the blank's own noise
+	// is then the white pattern flat in time in every row, and Closed
+	// says closure (Σ c_k constant) holds, under which the pattern lies in
+	// the span of the species' spectra (each s_k + e) and adds no factor
+	// of its own. Neither is a reference of difference data.
+	Blank, Closed bool
 	// Screen, when set, stands for the matrix's values where EstimateRank checks
 	// them: that every entry is finite and which rows are exactly zero (see Screen).
 	// The matrix may then be nil when the factors and the noise level (Sigma > 0) are
@@ -454,8 +461,10 @@ func (p *rankProblem) tabulateCandidates() {
 // findReferencePattern rotates the factors above the threshold to their
 // smoothest basis and takes its whitest direction for the reference-noise
 // pattern when its spectrum is white and its time vector flat beside the
-// reference row; with no reference row known, such a direction is counted
-// and only warned about.
+// reference row. With no reference row known, such a direction is warned
+// about where the consensus counts it (spectra too short to judge), unless
+// it is a blank's noise under closure (RankOptions.Blank), which adds no
+// factor.
 func (p *rankProblem) findReferencePattern() error {
 	opt, rep := p.opt, p.rep
 	if opt.PatternTime != nil && len(opt.PatternTime) != p.n {
@@ -467,6 +476,10 @@ func (p *rankProblem) findReferencePattern() error {
 	}
 	d0 := p.dirs[0]
 	white := d0.autocorrV < 0.3 && !structured(d0.autocorrV, p.m)
+	// The consensus leaves out a direction with a white spectrum wherever
+	// the spectra are long enough to judge (consensus): only where they
+	// are not is such a direction counted, and worth a warning.
+	counted := !judgeable(p.m, p.kAbove)
 	switch {
 	case p.refRow >= 0 && p.n >= 3 && white && d0.flatness >= 0.8:
 		p.patDir = 0
@@ -478,7 +491,9 @@ func (p *rankProblem) findReferencePattern() error {
 		}
 		rep.Table[main].ReferencePattern = true
 		rep.ReferencePatternFactor = main
-	case p.refRow < 0 && white && flatness(unscaled(d0.time, opt.PatternTime), -1) >= 0.8:
+	case p.refRow < 0 && white && counted && opt.Blank && !opt.Closed && flatness(unscaled(d0.time, opt.PatternTime), -1) >= 0.8:
+		rep.warn("the significant factors hold a direction that is flat in time and white across the axis, like the blank's own noise, which is the same in every absorbance spectrum; without closure it is a factor of its own and was counted: record the blank with more scans, or keep closure on, under which each species' spectrum takes it up")
+	case p.refRow < 0 && white && counted && !opt.Blank && flatness(unscaled(d0.time, opt.PatternTime), -1) >= 0.8:
 		rep.warn("the significant factors hold a direction that is flat in time and white across the axis, like the reference spectrum's own noise in difference data; it was counted, since no single reference row was known (several experiments, or difference input): average more reference spectra (--reference mean:N) to shrink it")
 	}
 	return nil

@@ -475,12 +475,25 @@ func factorAnalysis(r *Result, diffRows []*mat.Dense, log io.Writer) (*factorRun
 	if err != nil {
 		return nil, err
 	}
+	in.opt.Blank, in.opt.Closed = blankPattern(r)
 	noiseOf(r)
 	if err := chooseBaseline(r, fa.rf, in); err != nil {
 		return nil, err
 	}
 	fa.noise, fa.work = in.noise, in.work
 	return fa, nil
+}
+
+// blankPattern says, for the rank of D, whether its rows are absolute
+// absorbances against one blank (species mode), whose own noise is one
+// pattern in every row, and whether closure holds, under which the
+// species' spectra take that pattern up (svd.RankOptions.Blank).
+func blankPattern(r *Result) (blank, closed bool) {
+	if r.Mode != mcr.Species {
+		return false, false
+	}
+	totals, err := parseTotals(r.Settings.Closure)
+	return true, err == nil && totals != nil
 }
 
 // scaledFactors decomposes the noise-scaled matrix √A D √B, whose noise is

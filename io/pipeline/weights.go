@@ -41,6 +41,7 @@ func weightedFactors(r *Result, maxF, refRow int, log io.Writer) (*svd.Factors, 
 		return nil, nil, fmt.Errorf("factor analysis: %w", err)
 	}
 	ropt := svd.RankOptions{Sigma: 1, SigmaFrom: weightedSigma, Alpha: s.Alpha, ReferenceRow: refRow, PatternTime: sqrts(r.Weights.Row)}
+	ropt.Blank, ropt.Closed = blankPattern(r)
 	rank, err := svd.EstimateRank(r.Scaled, f, ropt)
 	if err != nil {
 		return nil, nil, fmt.Errorf("rank: %w", err)
