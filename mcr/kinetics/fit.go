@@ -28,6 +28,11 @@ type FitOptions struct {
 	C0 []float64
 	// FitC0 also fits the non-zero entries of C0 (on a log scale); zero entries stay zero.
 	FitC0 bool
+	// FitT0 also fits the start time, from T0 (moved 1 % of the range
+	// inside when it is on an end), within T0Lo to T0Hi, or, both zero,
+	// within T0Bracket(times, T0) (t0fit.go).
+	FitT0      bool
+	T0Lo, T0Hi float64
 	// Amplitudes scales each observed column by its own factor a_j, solved linearly inside
 	// every residual evaluation (variable projection, Golub & Pereyra 1973): resolved profiles
 	// have arbitrary scale.
@@ -113,6 +118,18 @@ type FitResult struct {
 	// C0 is the initial concentrations used (fitted when FitC0) and C0StdErr their standard
 	// errors (0 when not fitted).
 	C0, C0StdErr []float64
+	// T0 is the start time used (fitted when FitT0). When fitted, T0StdErr
+	// is its standard error (0 when T0NotDetermined), T0Lo and T0Hi the
+	// range it was held within, and T0AtEnd −1 or +1 when it ran to the
+	// range's start or end (0 when it stayed inside).
+	T0, T0StdErr    float64
+	T0Fitted        bool
+	T0NotDetermined bool
+	T0Lo, T0Hi      float64
+	T0AtEnd         int
+	// t0Null: T0NotDetermined from the Jacobian's rank, not from a hold;
+	// t0Early: from a fit that ended at the first spectrum (t0Result).
+	t0Null, t0Early bool
 	// C0Held marks, per species, an initial concentration asked to be fitted
 	// that the residual does not depend on (with free spectra the spectra
 	// absorb its scale): Levenberg–Marquardt held it at its start, and it has
@@ -170,6 +187,11 @@ type fitProblem struct {
 	kFree  []int
 	c0Free []int
 	nModel int
+	// t0Free: t0 is fitted (t0fit.go), within t0Lo to t0Hi from t0Start;
+	// tScale, the time span, is the unit of its column in the reported
+	// Jacobian.
+	t0Free                      bool
+	t0Lo, t0Hi, t0Start, tScale float64
 
 	// profile mode
 	observed *mat.Dense
@@ -220,7 +242,12 @@ func sizedList(ms *[]*mat.Dense, k, r, c int) []*mat.Dense {
 	return (*ms)[:k]
 }
 
-func (p *fitProblem) nParams() int { return len(p.kFree) + len(p.c0Free) }
+func (p *fitProblem) nParams() int {
+	if p.t0Free {
+		return len(p.kFree) + len(p.c0Free) + 1
+	}
+	return len(p.kFree) + len(p.c0Free)
+}
 
 func (p *fitProblem) unpack(theta []float64) (k, c0 []float64, err error) {
 	k = append([]float64(nil), p.k0...)
@@ -249,6 +276,9 @@ func (p *fitProblem) pack(k, c0 []float64) []float64 {
 	for _, i := range p.c0Free {
 		theta = append(theta, math.Log(c0[i]))
 	}
+	if p.t0Free {
+		theta = append(theta, p.t0Phi(p.t0Start))
+	}
 	return theta
 }
 
@@ -257,7 +287,7 @@ func (p *fitProblem) model(theta []float64) (*Simulation, *mat.Dense, error) {
 	if err != nil {
 		return nil, nil, err
 	}
-	sim, err := p.s.SimulateWith(k, c0, p.times, p.opt.T0, p.opt.Sim)
+	sim, err := p.s.SimulateWith(k, c0, p.times, p.t0At(theta), p.opt.Sim)
 	if err != nil {
 		return nil, nil, err
 	}
@@ -524,6 +554,11 @@ func newFitProblem(s *Scheme, times []float64, opt FitOptions, nobs int) (*fitPr
 			}
 		}
 	}
+	if opt.FitT0 {
+		if err := p.setT0Range(times); err != nil {
+			return nil, err
+		}
+	}
 	return p, nil
 }
 
@@ -782,6 +817,9 @@ func FitProfiles(s *Scheme, times []float64, observed *mat.Dense, columns []int,
 		return nil, fmt.Errorf("kinetics: fit profiles: %d data points for %d parameters", m, p.nParams()+nLinear)
 	}
 	lm, err := p.solve(m)
+	if err == nil {
+		err = p.reportT0(lm)
+	}
 	if err != nil {
 		return nil, fmt.Errorf("kinetics: fit profiles: %w", err)
 	}
@@ -864,6 +902,10 @@ func (p *fitProblem) held(lm *LMResult, res *FitResult) int {
 			continue
 		}
 		count++
+		if p.t0Free && a == p.t0Index() {
+			p.t0Held(res, lm.X)
+			continue
+		}
 		if a < len(p.kFree) {
 			j := p.kFree[a]
 			k := withUnit(fmt.Sprintf("%.4g", res.K[j]), p.rateUnit(j))
@@ -930,6 +972,7 @@ func (p *fitProblem) result(lm *LMResult, sim *Simulation, model *mat.Dense, m, 
 		if err != nil {
 			res.Warnings = append(res.Warnings, "covariance: "+err.Error())
 		} else {
+			p.t0Result(lm, res, cov)
 			for a, j := range p.kFree {
 				res.KStdErr[j] = k[j] * math.Sqrt(math.Max(cov.At(a, a), 0))
 				for b, l := range p.kFree {
@@ -956,6 +999,10 @@ func (p *fitProblem) result(lm *LMResult, sim *Simulation, model *mat.Dense, m, 
 			res.Warnings = append(res.Warnings, fmt.Sprintf("rate constant of step %q moved e^25-fold from its start: it is probably not determined by the data", p.s.Steps[j].Text))
 		}
 	}
+	if !res.T0Fitted {
+		p.t0Result(lm, res, nil)
+	}
+	p.t0Warning(lm, res)
 	res.HalfLife, res.HalfLifeNote = halfLives(p.s, k, c0, sim.C)
 	if lm.Start != nil {
 		res.KStart, _, _ = p.unpack(lm.Start)
@@ -1280,6 +1327,9 @@ func FitData(s *Scheme, times []float64, d *mat.Dense, opt FitOptions) (*FitResu
 	}
 	_, w := p.dred.Dims()
 	lm, err := p.solve(n * w)
+	if err == nil {
+		err = p.reportT0(lm)
+	}
 	if err != nil {
 		return nil, nil, fmt.Errorf("kinetics: fit data: %w", err)
 	}
@@ -1514,6 +1564,7 @@ func honestErrors(res *FitResult, lag lagSums, n int) {
 	for i := range res.C0StdErr {
 		res.C0StdErr[i] *= f
 	}
+	res.T0StdErr *= f
 	res.SumKStdErr *= f
 }
 

@@ -89,7 +89,7 @@ func ClusterCovariance(j *mat.Dense, r []float64, rows, used int) (cov *mat.Dens
 func (p *fitProblem) robustErrors(lm *LMResult, res *FitResult, rows, linear int) (replaced []bool) {
 	res.Robust = 1
 	replaced = make([]bool, len(res.K))
-	if lm.Jacobian == nil || len(p.kFree)+len(p.c0Free) == 0 {
+	if lm.Jacobian == nil || p.nParams() == 0 {
 		return replaced
 	}
 	cov, g, lags, err := ClusterCovariance(lm.Jacobian, lm.Residual, rows, p.nParams()+linear)
@@ -113,6 +113,12 @@ func (p *fitProblem) robustErrors(lm *LMResult, res *FitResult, rows, linear int
 		se := res.C0[i] * math.Sqrt(math.Max(cov.At(a, a), 0))
 		if res.C0StdErr[i] > 0 && se > res.C0StdErr[i] {
 			res.C0StdErr[i] = se
+		}
+	}
+	if p.t0Free && res.T0StdErr > 0 {
+		a := p.t0Index()
+		if se := p.tScale * math.Sqrt(math.Max(cov.At(a, a), 0)); se > res.T0StdErr {
+			res.T0StdErr = se
 		}
 	}
 	if g := res.sumGrad; g != nil {

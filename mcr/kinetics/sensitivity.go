@@ -373,14 +373,29 @@ func (p *fitProblem) jacobian(theta []float64, jac *mat.Dense) error {
 
 // jacobianWith is jacobian with its n-row matrices in sc.
 func (p *fitProblem) jacobianWith(sc *fitScratch, theta []float64, jac *mat.Dense) error {
+	slope := 0.0
+	if p.t0Free {
+		slope = p.t0Slope(theta)
+	}
+	return p.jacobianScaled(sc, theta, jac, slope)
+}
+
+// jacobianScaled is jacobianWith with a fitted t0's column ∂r/∂t0 times
+// t0f: dt0/dφ for the fit's own parameter, the time span for the reported
+// Jacobian (reportT0).
+func (p *fitProblem) jacobianScaled(sc *fitScratch, theta []float64, jac *mat.Dense, t0f float64) error {
 	k, c0, err := p.unpack(theta)
 	if err != nil {
 		return err
 	}
-	job := sensitivityJob{s: p.s, k: k, c0: c0, times: p.times, t0: p.opt.T0, kFree: p.kFree, c0Free: p.c0Free, buf: sc}
+	t0 := p.t0At(theta)
+	job := sensitivityJob{s: p.s, k: k, c0: c0, times: p.times, t0: t0, kFree: p.kFree, c0Free: p.c0Free, buf: sc}
 	c, dc, ok := job.sensitivities()
 	if !ok {
 		return ErrUseDifferences
+	}
+	if p.t0Free {
+		dc = append(dc[:len(dc):len(dc)], p.t0Sensitivity(k, c, t0, t0f))
 	}
 	if p.dred != nil {
 		if p.opt.RowWeights != nil {

@@ -67,6 +67,7 @@ func (p *fitProblem) undetermined(lm *LMResult, res *FitResult, cov *mat.Dense) 
 	}
 	res.jacParams, res.jacRank = np, rank
 	unitShare, _, unitOK := nullShareOf(unitColumns(lm.Jacobian))
+	p.t0Undetermined(res, share, unitShare, unitOK, cov)
 	nr := len(p.s.Steps)
 	var grad []float64
 	var steps []int
@@ -209,6 +210,9 @@ func (p *fitProblem) undeterminedWarning(lm *LMResult, res *FitResult) {
 			if h {
 				held++
 			}
+		}
+		if res.t0Null {
+			held++ // said by t0Warning
 		}
 		if res.jacParams > 0 && res.jacRank < res.jacParams-held {
 			res.Warnings = append(res.Warnings, fmt.Sprintf("some combinations of the parameters can change without changing the fitted curves, so the data do not determine them (the Jacobian has rank %d for %d parameters); their standard errors use a pseudo-inverse and are not meaningful", res.jacRank, res.jacParams))
