@@ -127,9 +127,10 @@ type FitResult struct {
 	T0NotDetermined bool
 	T0Lo, T0Hi      float64
 	T0AtEnd         int
-	// t0Null: T0NotDetermined from the Jacobian's rank, not from a hold;
-	// t0Early: from a fit that ended at the first spectrum (t0Result).
-	t0Null, t0Early bool
+	// t0Early: T0NotDetermined from a fit that ended at the first
+	// spectrum (t0Result); t0Dropped: t0's column was taken out of the
+	// covariance for it (covariance), not held by Levenberg–Marquardt.
+	t0Early, t0Dropped bool
 	// C0Held marks, per species, an initial concentration asked to be fitted
 	// that the residual does not depend on (with free spectra the spectra
 	// absorb its scale): Levenberg–Marquardt held it at its start, and it has
@@ -968,11 +969,10 @@ func (p *fitProblem) result(lm *LMResult, sim *Simulation, model *mat.Dense, m, 
 	} else if np > 0 {
 		sigma2 := lm.SSR / float64(res.DegreesOfFreedom)
 		res.Sigma = math.Sqrt(sigma2)
-		cov, _, err := Covariance(lm.Jacobian, sigma2)
+		cov, err := p.covariance(lm, res, sigma2)
 		if err != nil {
 			res.Warnings = append(res.Warnings, "covariance: "+err.Error())
 		} else {
-			p.t0Result(lm, res, cov)
 			for a, j := range p.kFree {
 				res.KStdErr[j] = k[j] * math.Sqrt(math.Max(cov.At(a, a), 0))
 				for b, l := range p.kFree {

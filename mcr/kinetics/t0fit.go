@@ -235,22 +235,47 @@ func (p *fitProblem) t0Result(lm *LMResult, res *FitResult, cov *mat.Dense) {
 // nothing fixes it (t0Undetermined): it is reported as not determined.
 const t0EarlySE = 2
 
-// t0Undetermined marks t0 not determined when its unit vector has a share
-// along the Jacobian's not-determined directions (share and unitShare, as
-// undetermined tests the rate constants) or its variance in units of the
-// time span is beyond wideVar: the profiles begin before the first
-// spectrum, and moving t0 only rescales what the initial concentrations,
-// the amplitudes or the free spectra rescale as well.
-func (p *fitProblem) t0Undetermined(res *FitResult, share, unitShare func([]float64) float64, unitOK bool, cov *mat.Dense) {
-	if !p.t0Free {
-		return
+// covariance is σ²(JᵀJ)⁻¹ from the final Jacobian (Covariance), with a
+// fitted t0's figures set (t0Result). When the data do not determine t0,
+// its column is set to zero and the covariance formed again: the rate
+// constants' errors are then those of the fit with t0 held where it ended,
+// which is what they are (any other t0 the data allow fits with the same
+// constants), and not inflated by a direction the data do not see.
+func (p *fitProblem) covariance(lm *LMResult, res *FitResult, sigma2 float64) (*mat.Dense, error) {
+	cov, _, err := Covariance(lm.Jacobian, sigma2)
+	if err != nil || !p.t0Free {
+		return cov, err
 	}
+	p.t0Result(lm, res, cov)
+	if !res.T0NotDetermined {
+		p.t0Undetermined(lm, res, cov)
+	}
+	a := p.t0Index()
+	if !res.T0NotDetermined || (lm.Held != nil && lm.Held[a]) {
+		return cov, nil
+	}
+	m, _ := lm.Jacobian.Dims()
+	lm.Jacobian.SetCol(a, make([]float64, m))
+	res.t0Dropped = true
+	cov, _, err = Covariance(lm.Jacobian, sigma2)
+	return cov, err
+}
+
+// t0Undetermined marks t0 not determined when its unit vector has a share
+// along the Jacobian's not-determined directions (tested as undetermined
+// tests the rate constants, on the Jacobian and on its unit columns) or
+// its variance in units of the time span is beyond wideVar: the profiles
+// begin before the first spectrum, and moving t0 only rescales what the
+// initial concentrations, the amplitudes or the free spectra rescale too.
+func (p *fitProblem) t0Undetermined(lm *LMResult, res *FitResult, cov *mat.Dense) {
+	share, _, ok := nullShareOf(lm.Jacobian)
+	unitShare, _, unitOK := nullShareOf(unitColumns(lm.Jacobian))
 	a := p.t0Index()
 	e := make([]float64, p.nParams())
 	e[a] = 1
 	v := cov.At(a, a)
-	if share(e) > nullShare || (unitOK && unitShare(e) > nullShare) || (v > wideVar && !math.IsInf(v, 1)) {
-		res.T0NotDetermined, res.t0Null, res.T0StdErr = true, true, 0
+	if (ok && share(e) > nullShare) || (unitOK && unitShare(e) > nullShare) || (v > wideVar && !math.IsInf(v, 1)) {
+		res.T0NotDetermined, res.T0StdErr = true, 0
 	}
 }
 

@@ -249,6 +249,16 @@ func TestFitT0BeforeFirstSpectrumDataFit(t *testing.T) {
 		t.Errorf("t0 = %g ± %g within %g to %g, not determined %v: want not determined within 0 to 10", r.T0, r.T0StdErr, r.T0Lo, r.T0Hi, r.T0NotDetermined)
 	}
 	within3SE(t, "k with t0 before the first spectrum", r, []float64{k})
+	// The data do not see t0's direction, so k and its standard error are
+	// those of the fit with t0 held where this one ended, not widened by
+	// it.
+	fixed, _, err := FitData(s, times, d, FitOptions{T0: r.T0})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if math.Abs(r.K[0]-fixed.K[0]) > 1e-6*fixed.K[0] || math.Abs(r.KStdErr[0]-fixed.KStdErr[0]) > 1e-3*fixed.KStdErr[0] {
+		t.Errorf("k = %.7g ± %.4g with t0 not determined, %.7g ± %.4g with t0 held there: want the same", r.K[0], r.KStdErr[0], fixed.K[0], fixed.KStdErr[0])
+	}
 }
 
 // TestT0ColumnIsMinusDcDt: the analytic column of the reported Jacobian

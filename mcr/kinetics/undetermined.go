@@ -67,7 +67,6 @@ func (p *fitProblem) undetermined(lm *LMResult, res *FitResult, cov *mat.Dense) 
 	}
 	res.jacParams, res.jacRank = np, rank
 	unitShare, _, unitOK := nullShareOf(unitColumns(lm.Jacobian))
-	p.t0Undetermined(res, share, unitShare, unitOK, cov)
 	nr := len(p.s.Steps)
 	var grad []float64
 	var steps []int
@@ -211,7 +210,7 @@ func (p *fitProblem) undeterminedWarning(lm *LMResult, res *FitResult) {
 				held++
 			}
 		}
-		if res.t0Null {
+		if res.t0Dropped {
 			held++ // said by t0Warning
 		}
 		if res.jacParams > 0 && res.jacRank < res.jacParams-held {
