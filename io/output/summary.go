@@ -194,6 +194,23 @@ type KineticsJSON struct {
 	Fits              []KineticFitJSON `json:"fits"`
 	// DeterminedSum is the reported fit's determined_sum.
 	DeterminedSum *DeterminedSum `json:"determined_sum,omitempty"`
+	// T0Fit is the reported fit's fitted start time (--fit-t0); t0_s stays
+	// the time it started from. Absent when t0 was not fitted.
+	T0Fit *T0Fit `json:"t0_fit,omitempty"`
+}
+
+// T0Fit is a start time fitted with the rate constants (--fit-t0): the
+// value and its standard error in seconds (stderr_s 0 and not_determined
+// when the data do not place it), the range it was held within (the last
+// spectrum before the change to the first after it) and at_end, "start" or
+// "end", when it ran to an end of that range.
+type T0Fit struct {
+	T0            float64 `json:"t0_s"`
+	StdErr        float64 `json:"stderr_s"`
+	Lower         float64 `json:"lower_s"`
+	Upper         float64 `json:"upper_s"`
+	NotDetermined bool    `json:"not_determined,omitempty"`
+	AtEnd         string  `json:"at_end,omitempty"`
 }
 
 // DeterminedSum is the sum of rate constants the data determine when they
@@ -253,6 +270,7 @@ type KineticFitJSON struct {
 	Stiff                 bool                   `json:"stiff"`
 	Warnings              []string               `json:"warnings"`
 	DeterminedSum         *DeterminedSum         `json:"determined_sum,omitempty"`
+	T0Fit                 *T0Fit                 `json:"t0_fit,omitempty"`
 }
 
 // ConstraintJSON is one constraint check in summary.json.

@@ -250,7 +250,7 @@ func Demo(out string, force bool, quiet, asJSON bool, st Streams) (*Result, erro
 		for _, row := range check.Rows {
 			fmt.Fprintf(st.Out, "  %-20s -> %-10s spectrum cosine %s, profile cosine %s\n", row[0], row[1], row[2], row[3])
 		}
-		printDemoKinetics(r, []float64{truth.K1, truth.K2}, st.Out)
+		printDemoKinetics(r, []float64{truth.K1, truth.K2}, truth.T0, st.Out)
 		fmt.Fprintf(st.Out, "try: bandsolve resolve --data %s/input/series.csv --kind single-beam --blank %s/input/blank.csv --pre %d --model 'A -> B -> C' --t0 %g --out my-run\n", out, out, truth.Pre, truth.T0)
 	}
 	return r, nil

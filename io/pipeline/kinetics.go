@@ -55,6 +55,10 @@ type Kinetics struct {
 	MapSource           string
 	C0                  []float64
 	FitC0               bool
+	// FitT0: t0 is fitted too, from T0, within T0Lo to T0Hi (the spectra
+	// either side of T0, kinetics.T0Bracket).
+	FitT0      bool
+	T0Lo, T0Hi float64
 	// KStart and KFixed per step; NaN in KStart means "choose".
 	KStart []float64
 	KFixed []bool
@@ -208,7 +212,7 @@ func checkKineticsSettings(s *Settings) error {
 		for _, x := range []struct {
 			on   bool
 			name string
-		}{{s.Map != "", "--map"}, {s.HardModel, "--hard-model"}, {s.C0 != "", "--c0"}, {s.FitC0, "--fit-c0"},
+		}{{s.Map != "", "--map"}, {s.HardModel, "--hard-model"}, {s.C0 != "", "--c0"}, {s.FitC0, "--fit-c0"}, {s.FitT0, "--fit-t0"},
 			{s.KStart != "", "--k-start"}, {s.KFixed != "", "--k-fixed"},
 			{s.KineticFit == "profiles", "--kinetic-fit profiles"}, {s.T0 != "", "--t0"}} {
 			if x.on {
@@ -346,6 +350,9 @@ func kineticsSettings(r *Result) (*Kinetics, error) {
 	}
 	kn.Amplitudes = !closure
 	if kn.C0, kn.KStart, kn.KFixed, err = kineticValues(s, sch, total); err != nil {
+		return nil, err
+	}
+	if err := kn.setT0Range(r); err != nil {
 		return nil, err
 	}
 	switch {
@@ -669,7 +676,7 @@ func (kn *Kinetics) hasFixed() bool {
 
 func (kn *Kinetics) options(initialK []float64) kinetics.FitOptions {
 	opt := kinetics.FitOptions{T0: kn.T0, InitialK: initialK, C0: kn.C0, FitC0: kn.FitC0,
-		Amplitudes: kn.Amplitudes, UseExtents: kn.Extents, TimeUnit: "s", RateUnits: kn.rateUnits()}
+		FitT0: kn.FitT0, T0Lo: kn.T0Lo, T0Hi: kn.T0Hi, Amplitudes: kn.Amplitudes, UseExtents: kn.Extents, TimeUnit: "s", RateUnits: kn.rateUnits()}
 	if kn.hasFixed() {
 		opt.FixedK = kn.KFixed
 	}
@@ -807,6 +814,9 @@ func (kn *Kinetics) warm(prev *kinetics.FitResult) kinetics.FitOptions {
 	opt := kn.options(append([]float64(nil), prev.K...))
 	if kn.FitC0 {
 		opt.C0 = append([]float64(nil), prev.C0...)
+	}
+	if kn.FitT0 {
+		opt.T0 = prev.T0
 	}
 	return opt
 }
@@ -1119,7 +1129,7 @@ func fitKinetics(r *Result, log io.Writer) error {
 		// resolution's by k(n − k) − p, a few per cent of it at most.
 		if ratio := dataFitToNoise(r, dfit); ratio >= math.Sqrt2 && ratio > r.misfit.Limit {
 			times, _ := kn.fitRows(r) // the batch's: no second pass
-			dfit.Warnings = append(dfit.Warnings, dataMisfitWarning(ratio, output.FitVerdict(ratio, r.misfit.Limit), times, dfit.RowSSR, kn.T0, shownTimeUnit(s)))
+			dfit.Warnings = append(dfit.Warnings, dataMisfitWarning(ratio, output.FitVerdict(ratio, r.misfit.Limit), times, dfit.RowSSR, dfit.T0, shownTimeUnit(s)))
 		}
 	}
 	kn.Primary = 0
@@ -1243,14 +1253,14 @@ func (kn *Kinetics) dataFitJob(r *Result, opt kinetics.FitOptions) *dataFitJob {
 	return &dataFitJob{kn: kn, r: r, times: times, d: d, opt: opt}
 }
 
-// run makes the fit; it only reads kn.Scheme, kn.T0 and kn.Extents.
+// run makes the fit; it only reads kn.Scheme and kn.Extents.
 func (f *dataFitJob) run() {
 	kn, r := f.kn, f.r
 	f.fit, f.spectra, f.err = kinetics.FitData(kn.Scheme, f.times, f.d, f.opt)
 	if f.err != nil || len(r.SetAside) == 0 {
 		return
 	}
-	sim, err := kn.Scheme.Simulate(f.fit.K, f.fit.C0, r.Times, kn.T0)
+	sim, err := kn.Scheme.Simulate(f.fit.K, f.fit.C0, r.Times, f.fit.T0)
 	if err != nil {
 		// (keep still takes the fit's reductions, as before.)
 		f.err = err
@@ -1509,6 +1519,11 @@ func (sw *swapSearch) nnCostAt(k, c0 []float64) (float64, bool) {
 	if sw.kn.FitC0 {
 		o.C0 = c0
 	}
+	if sw.kn.FitT0 {
+		// The reported fit's t0, as its initial concentrations: the
+		// exchange asks about the order of the constants alone.
+		o.T0, o.FitT0 = sw.best.T0, false
+	}
 	v, err := sw.kn.nonNegativeCost(sw.r, k, o)
 	return v, err == nil
 }
@@ -1681,9 +1696,9 @@ func (kn *Kinetics) refit(r *Result, best *kinetics.FitResult, o kinetics.FitOpt
 		}
 		return kn.fitData(r, o)
 	}
-	if kn.FitC0 {
+	if kn.FitC0 || kn.FitT0 {
 		// The non-negative cost takes the reported fit's initial
-		// concentrations, which move with it: refit every time.
+		// concentrations and t0, which move with it: refit every time.
 		return fitData()
 	}
 	if m := kn.recalled(r, best, o); m != nil {
@@ -2003,6 +2018,7 @@ func (kn *Kinetics) fitJSON(f *KineticFit) KineticFitJSON {
 		out.Amplitudes = append(out.Amplitudes, round(finite(a)))
 	}
 	out.DeterminedSum = kn.sumJSON(fr)
+	out.T0Fit = t0FitJSON(fr)
 	return out
 }
 
@@ -2057,7 +2073,7 @@ func kineticsSummary(r *Result) *KineticsJSON {
 		RateLaw:           "mass action, IUPAC rate of reaction r = k Π c^ν: 2 A -> P has r = k[A]^2 and d[A]/dt = -2k[A]^2",
 		Fitted:            "concentrations",
 		ConcentrationUnit: kn.Unit, T0: round(kn.T0), MapSource: kn.MapSource,
-		Correlation: main.Correlation, Stiff: rep.Fit.Stiff, DeterminedSum: main.DeterminedSum,
+		Correlation: main.Correlation, Stiff: rep.Fit.Stiff, DeterminedSum: main.DeterminedSum, T0Fit: main.T0Fit,
 	}
 	if kn.Extents {
 		out.Fitted = "extents"
@@ -2167,7 +2183,11 @@ func printKinetics(r *Result, w io.Writer) {
 		what = "extents"
 	}
 	tu := shownTimeUnit(r.Settings)
-	fmt.Fprintf(w, "kinetics       %s (%s), t0 = %s %s, map %s\n", kn.Scheme.Text, what, tu.T(kn.T0), tu.Unit, strings.Join(m, ", "))
+	t0 := "t0 ="
+	if kn.FitT0 {
+		t0 = "t0 fitted from"
+	}
+	fmt.Fprintf(w, "kinetics       %s (%s), %s %s %s, map %s\n", kn.Scheme.Text, what, t0, tu.T(kn.T0), tu.Unit, strings.Join(m, ", "))
 	for _, f := range kn.Fits {
 		mark := " "
 		if f == rep {
@@ -2197,6 +2217,7 @@ func printKinetics(r *Result, w io.Writer) {
 			se, _ := tu.Rate(f.Fit.SumKStdErr, "")
 			fmt.Fprintf(w, "\n    %-13s %-10s k = %.4g ± %.2g %s, determined", "", sum, k, se, unit)
 		}
+		printT0Fit(f.Fit, tu, w)
 		fmt.Fprintln(w)
 	}
 	fmt.Fprintf(w, "    (± one standard error; * the fit reported in summary.json)\n")
@@ -2212,7 +2233,7 @@ func printKinetics(r *Result, w io.Writer) {
 
 // printDemoKinetics sets the demo's rate constants beside the truth it was
 // made from, with the deviation in standard errors.
-func printDemoKinetics(r *Result, truth []float64, w io.Writer) {
+func printDemoKinetics(r *Result, truth []float64, truthT0 float64, w io.Writer) {
 	kn := r.Kinetics
 	if kn == nil || len(kn.Fits) == 0 {
 		return
@@ -2229,6 +2250,7 @@ func printDemoKinetics(r *Result, truth []float64, w io.Writer) {
 			}
 			fmt.Fprintf(w, "  %-13s %-8s k = %.6g ± %.2g /s   truth %g /s   (%s standard errors)\n", f.Method, st.Text, f.Fit.K[j], f.Fit.KStdErr[j], truth[j], dev)
 		}
+		printDemoT0(f, truthT0, w)
 	}
 }
 

@@ -145,13 +145,13 @@ func (kn *Kinetics) newCheckAhead(r *Result, best *kinetics.FitResult, opt kinet
 		o := opt
 		o.InitialK = a
 		m := kn.recalled(r, best, o)
-		if !kn.FitC0 && m != nil {
+		if !kn.FitC0 && !kn.FitT0 && m != nil {
 			if !m.done {
 				ca.memo[i] = m.fit
 			}
 			continue
 		}
-		if !kn.FitC0 && nearEarlier(ca.jobs[:i], a, best.KStdErr) {
+		if !kn.FitC0 && !kn.FitT0 && nearEarlier(ca.jobs[:i], a, best.KStdErr) {
 			continue
 		}
 		ca.jobs[i] = kn.dataFitJob(r, o)

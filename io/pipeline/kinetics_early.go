@@ -147,7 +147,7 @@ func sameFitOptions(a, b kinetics.FitOptions) bool {
 	return a.T0 == b.T0 && slices.Equal(a.InitialK, b.InitialK) && (a.InitialK == nil) == (b.InitialK == nil) &&
 		slices.Equal(a.FixedK, b.FixedK) && (a.FixedK == nil) == (b.FixedK == nil) &&
 		slices.Equal(a.C0, b.C0) && (a.C0 == nil) == (b.C0 == nil) &&
-		a.FitC0 == b.FitC0 && a.Amplitudes == b.Amplitudes && a.UseExtents == b.UseExtents &&
+		a.FitC0 == b.FitC0 && a.FitT0 == b.FitT0 && a.T0Lo == b.T0Lo && a.T0Hi == b.T0Hi && a.Amplitudes == b.Amplitudes && a.UseExtents == b.UseExtents &&
 		slices.Equal(a.RowWeights, b.RowWeights) && (a.RowWeights == nil) == (b.RowWeights == nil) &&
 		slices.Equal(a.ColWeights, b.ColWeights) && (a.ColWeights == nil) == (b.ColWeights == nil) &&
 		a.Sim == b.Sim && a.LM == b.LM

@@ -429,6 +429,7 @@ func TestKineticsUsageErrors(t *testing.T) {
 		// needs --model.
 		{"kinetic-fit profiles without model", func(s *Settings) { s.Model, s.KineticFit = "", "profiles" }, "--kinetic-fit profiles needs --model"},
 		{"t0 without model", func(s *Settings) { s.Model, s.T0 = "", "105" }, "--t0 needs --model"},
+		{"fit-t0 without model", func(s *Settings) { s.Model, s.FitT0 = "", true }, "--fit-t0 needs --model"},
 		{"bad scheme", func(s *Settings) { s.Model = "A -> -> B" }, "--model"},
 		{"unknown step", func(s *Settings) { s.KFixed = "3=1e-3" }, "not a step"},
 		{"bad c0", func(s *Settings) { s.C0 = "A=-1" }, "--c0"},

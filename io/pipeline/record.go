@@ -247,6 +247,9 @@ func Record(r *Result, pathsFrom string) ([]byte, error) {
 			continue
 		}
 		vals := s.Get(o.Name)
+		if o.onlyWhenOn && slices.Equal(vals, []string{"off"}) {
+			continue // and collect's settings_id stays too
+		}
 		note := ""
 		switch o.Name {
 		case "kind":

@@ -47,6 +47,7 @@ type Settings struct {
 	KineticFit    string
 	C0            string
 	FitC0         bool
+	FitT0         bool
 	KStart        string
 	KFixed        string
 	Bands         string // --uniqueness (named --bands before 1.0)
@@ -109,8 +110,12 @@ type Option struct {
 	// Record is false for options that do not change results (they are
 	// left out of the as-run record's analysis part).
 	Record bool
-	set    func(s *Settings, v string) error
-	get    func(s *Settings) []string
+	// onlyWhenOn: a switch added after records were in use, written in
+	// the record only when on, so that the records of runs without it keep
+	// their bytes (and earlier folders still verify).
+	onlyWhenOn bool
+	set        func(s *Settings, v string) error
+	get        func(s *Settings) []string
 }
 
 // Options lists every setting in the order they are documented and recorded.
@@ -362,6 +367,10 @@ var options = func() []Option {
 	add(opt("c0", "A=1,B=0", "initial concentrations of the model's species (default: starting species share the closure total, or 1 each)", false, true, sk2, gk2))
 	sk3, gk3 := boolean(func(s *Settings) *bool { return &s.FitC0 })
 	add(opt("fit-c0", "", "also fit the non-zero initial concentrations", false, true, sk3, gk3))
+	sk6, gk6 := boolean(func(s *Settings) *bool { return &s.FitT0 })
+	fitT0 := opt("fit-t0", "", "also fit the time the reaction starts, from --t0 (or its default), between the spectra either side of it; reported with its standard error", false, true, sk6, gk6)
+	fitT0.onlyWhenOn = true
+	add(fitT0)
 	sk4, gk4 := str(func(s *Settings) *string { return &s.KStart })
 	add(opt("k-start", "1=4e-3,2=1e-3", "starting rate constants per step (number in the order written, or the step's text) in 1/s", false, true, sk4, gk4))
 	sk5, gk5 := str(func(s *Settings) *string { return &s.KFixed })
