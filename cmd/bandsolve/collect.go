@@ -22,11 +22,14 @@ spectra, points, noise_sigma, lack_of_fit_percent,
 noise_lack_of_fit_percent, residual_to_noise (the run's residual over the
 noise, as it weighted its fit: 1 = fits to the noise), kinetics_model, then
 k_per_s[STEP] and stderr_per_s[STEP] of the reported fit for every kinetic
-step met (empty for a constant the data do not determine), then warnings
+step met (empty for a constant the data do not determine), then, when some
+folder fitted its start time (--fit-t0), t0_fitted_s and stderr_t0_s (empty
+when the data do not determine it), then warnings
 (how many), water_vapour (changed, no change or not checked),
 vapour_line_change (the largest line change, in absorbance), then what tells
 whether two rows are the same analysis: kinetic_fit (the fit the
-k_per_s[STEP] columns hold: data, profiles or hard-soft), t0_s,
+k_per_s[STEP] columns hold: data, profiles or hard-soft), t0_s (the start
+time given, or the one a fitted t0 started from),
 kinetics_map, baseline, closure, noise_weights, outlier_spectra (how many
 set aside), region, exclude, drop, hard_model, c0, fit_c0, k_fixed and
 settings_id (a fingerprint of every setting but the inputs: equal ids, same

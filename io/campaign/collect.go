@@ -51,6 +51,7 @@ var fixedColumns = []string{"folder", "status", "components", "rank_estimate", "
 func Collect(folders []string) (t output.Table, problems []string) {
 	var rows []row
 	var steps, keyed columnSet
+	var t0 []string
 	for _, dir := range folders {
 		r, err := collectRow(dir)
 		if err != nil {
@@ -58,10 +59,14 @@ func Collect(folders []string) (t output.Table, problems []string) {
 		}
 		steps.add(r.steps.order...)
 		keyed.add(r.keyed.order...)
+		if r.t0Fitted {
+			t0 = t0Columns
+		}
 		rows = append(rows, r)
 	}
 	t.Header = append([]string(nil), fixedColumns...)
 	t.Header = append(t.Header, steps.header()...)
+	t.Header = append(t.Header, t0...)
 	t.Header = append(t.Header, middleColumns...)
 	t.Header = append(t.Header, contextColumns...)
 	t.Header = append(t.Header, keyed.header()...)
@@ -69,6 +74,7 @@ func Collect(folders []string) (t output.Table, problems []string) {
 	for _, r := range rows {
 		cells := r.pick(fixedColumns)
 		cells = append(cells, r.steps.cells(steps.order)...)
+		cells = append(cells, r.pick(t0)...)
 		cells = append(cells, r.pick(middleColumns)...)
 		cells = append(cells, r.pick(contextColumns)...)
 		cells = append(cells, r.keyed.cells(keyed.order)...)
@@ -76,6 +82,13 @@ func Collect(folders []string) (t output.Table, problems []string) {
 	}
 	return t, problems
 }
+
+// t0Columns, the reported fit's fitted start time and its standard error
+// (summary.json's kinetics.t0_fit), follow its rate constants when some
+// folder fitted t0 (--fit-t0); a table of folders that all gave t0 has
+// none, as before the option. Both cells are empty, with a note, when the
+// data do not determine it; t0_s (a context column) stays the time given.
+var t0Columns = []string{"t0_fitted_s", "stderr_t0_s"}
 
 // middleColumns follow the reported fit's rate constants.
 var middleColumns = []string{"warnings", "water_vapour", "vapour_line_change"}
@@ -145,6 +158,7 @@ type row struct {
 	cells        map[string]string
 	steps, keyed ratePairs
 	notes        []string
+	t0Fitted     bool
 }
 
 func (r *row) pick(names []string) []string {
@@ -237,6 +251,25 @@ func (r *row) kinetics(kin object) {
 	}
 	for _, f := range fits {
 		r.fit(f)
+	}
+	r.t0Fit(kin.object("t0_fit"))
+}
+
+// t0Fit fills the fitted start time's columns (t0Columns) from the
+// reported fit's t0_fit, nil when t0 was not fitted.
+func (r *row) t0Fit(t object) {
+	if t == nil {
+		return
+	}
+	r.t0Fitted = true
+	if v, _ := t.scalar("not_determined"); v == "true" {
+		r.notes = append(r.notes, "t0: the data do not determine the fitted start time")
+		return
+	}
+	r.cells["t0_fitted_s"], _ = t.scalar("t0_s")
+	r.cells["stderr_t0_s"], _ = t.scalar("stderr_s")
+	if end, ok := t.scalar("at_end"); ok {
+		r.notes = append(r.notes, "t0: the fitted start time ran to the "+end+" of its range")
 	}
 }
 

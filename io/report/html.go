@@ -604,6 +604,9 @@ func fitText(fv fitView, oneStep bool) string {
 	if d := fv.Sum; d != nil {
 		ks = append(ks, fmt.Sprintf("their sum, which the data do determine: %s = %s ± %s %s", d.Step, trimFloat(d.K, 4), trimFloat(d.StdErr, 2), unitText(d.Unit)))
 	}
+	if t := fv.T0; t != nil {
+		ks = append(ks, t0Text(t))
+	}
 	return strings.Join(ks, "; ")
 }
 
@@ -623,6 +626,9 @@ type fitView struct {
 	Reported bool
 	Rates    []rateView
 	Sum      *rateView
+	// T0 is the fitted start time (--fit-t0) in the report's time unit,
+	// nil when t0 was given.
+	T0 *t0View
 }
 
 // fits are the summary's kinetic fits, the reported one first. A summary
@@ -632,10 +638,10 @@ func (f *Folder) fits() []fitView {
 		return nil
 	}
 	k := f.Summary.Kinetics
-	out := []fitView{{Method: k.Method, Reported: true, Rates: f.ratesOf(k.RateConstants), Sum: f.sumView(k.DeterminedSum)}}
+	out := []fitView{{Method: k.Method, Reported: true, Rates: f.ratesOf(k.RateConstants), Sum: f.sumView(k.DeterminedSum), T0: f.t0View(k.T0Fit)}}
 	for _, fj := range k.Fits {
 		if fj.Method != k.Method {
-			out = append(out, fitView{Method: fj.Method, Rates: f.ratesOf(fj.RateConstants), Sum: f.sumView(fj.DeterminedSum)})
+			out = append(out, fitView{Method: fj.Method, Rates: f.ratesOf(fj.RateConstants), Sum: f.sumView(fj.DeterminedSum), T0: f.t0View(fj.T0Fit)})
 		}
 	}
 	return out
@@ -865,4 +871,35 @@ func UnconvergedEnds(minConverged, maxConverged bool) string {
 		return "largest share"
 	}
 	return ""
+}
+
+// t0View is a fitted start time in the report's time unit.
+type t0View struct {
+	output.T0Fit
+	Unit string
+}
+
+// t0View converts a fit's fitted start time to the report's time unit,
+// nil when t0 was not fitted.
+func (f *Folder) t0View(t *output.T0Fit) *t0View {
+	if t == nil {
+		return nil
+	}
+	unit, div := f.tableTimeUnit()
+	v := &t0View{T0Fit: *t, Unit: unit}
+	v.T0, v.StdErr, v.Lower, v.Upper = t.T0/div, t.StdErr/div, t.Lower/div, t.Upper/div
+	return v
+}
+
+// t0Text is a fitted start time in words, for the findings.
+func t0Text(t *t0View) string {
+	rng := fmt.Sprintf("fitted within %s–%s %s", trimFloat(t.Lower, 4), trimFloat(t.Upper, 4), t.Unit)
+	if t.NotDetermined {
+		return fmt.Sprintf("start time t0 not determined by the data (%s; see the warnings)", rng)
+	}
+	end := ""
+	if t.AtEnd != "" {
+		end = fmt.Sprintf(", ran to the %s of that range", t.AtEnd)
+	}
+	return fmt.Sprintf("start time t0 = %s ± %s %s (%s%s)", trimFloat(t.T0, 6), trimFloat(t.StdErr, 2), t.Unit, rng, end)
 }
