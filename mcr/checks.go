@@ -23,6 +23,11 @@ type ConstraintCheck struct {
 	// Restarted: the constrained fit restarted from the freer solution
 	// reached a lower residual than the resolution had; With is that one.
 	Restarted bool
+	// Freer is the refit without the constraint and Constrained the
+	// restart under it when Restarted (nil otherwise: the resolution is
+	// the fit with it): kept so that the caller can ask where the freer
+	// fit lowered the residual (NamedRise).
+	Freer, Constrained *Result
 }
 
 // CheckConstraints refits without each active group of constraints in opt:
@@ -187,7 +192,7 @@ func checkWithout(d Data, fit *Result, opt Options, co CheckOptions, name string
 		return ConstraintCheck{}, err
 	}
 	cc := ConstraintCheck{Name: name, With: fit.LackOfFitPercent, Without: res.LackOfFitPercent,
-		ResidualSSWith: fit.ResidualSS, ResidualSSWithout: res.ResidualSS, Iterations: res.Iterations, ComponentsAffected: comps}
+		ResidualSSWith: fit.ResidualSS, ResidualSSWithout: res.ResidualSS, Iterations: res.Iterations, ComponentsAffected: comps, Freer: res}
 	// A refit that did not get below the constrained fit (within the
 	// tolerance) means the constraint costs nothing.
 	if cc.ResidualSSWithout > cc.ResidualSSWith {
@@ -208,7 +213,7 @@ func checkWithout(d Data, fit *Result, opt Options, co CheckOptions, name string
 	ro.stopAtRoundingFloor = false
 	if again, err := Resolve(d, c0, ro); err == nil && again.ResidualSS < (1-1e-6)*cc.ResidualSSWith {
 		cc.ResidualSSWith, cc.With = again.ResidualSS, again.LackOfFitPercent
-		cc.Restarted = true
+		cc.Restarted, cc.Constrained = true, again
 		if cc.ResidualSSWithout > cc.ResidualSSWith {
 			cc.ResidualSSWithout, cc.Without = cc.ResidualSSWith, cc.With
 		}
