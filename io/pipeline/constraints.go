@@ -42,6 +42,9 @@ type ConstraintReport struct {
 	BandsNote string
 	Intervals *mcr.Intervals
 	Level     float64
+	// checkData is the data the checks refitted (weighted as the run
+	// is), on which judgeChecks refits with the named factors allowed.
+	checkData mcr.Data
 }
 
 // Side names for --nonneg.
@@ -514,7 +517,7 @@ func startChecks(r *Result, data mcr.Data, opt mcr.Options) func() {
 	var checks []mcr.ConstraintCheck
 	var err error
 	done := make(chan struct{})
-	co := mcr.CheckOptions{MaxIter: 300, Restart: restartCanMatter(r)}
+	co := mcr.CheckOptions{MaxIter: checkIter, Restart: restartCanMatter(r)}
 	var fault fanout.Fault // the checks' panic, raised again by the waiter
 	go func() {
 		defer close(done)
@@ -528,9 +531,13 @@ func startChecks(r *Result, data mcr.Data, opt mcr.Options) func() {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("constraint checks stopped: %v", err))
 		}
 		r.Constraints.Checks = checks
+		r.Constraints.checkData = data
 		judgeChecks(r)
 	}
 }
+
+// checkIter bounds each of the checks' refits.
+const checkIter = 300
 
 // judgeChecks turns the refits into warnings. It is a χ² test of the rise
 // of the residual sum of squares in units of the noise variance: weighted
@@ -565,6 +572,16 @@ func judgeChecks(r *Result) {
 		measured = true
 		return pattern
 	}
+	var dirs *mat.Dense
+	var names []string
+	found := false
+	named := func() (*mat.Dense, []string) {
+		if !found {
+			dirs, names = namedFactors(r, r.Constraints.checkData)
+		}
+		found = true
+		return dirs, names
+	}
 	resolved := resolvedCheckLOF(r)
 	var cost *mcr.ConstraintCheck // hard–soft: the lowest refit under the other constraints
 	for i, c := range r.Constraints.Checks {
@@ -590,6 +607,18 @@ func judgeChecks(r *Result) {
 			continue
 		}
 		msg := fmt.Sprintf("%s raises the lack of fit from %.3g %% to %.3g %%%s, also when started from the fit without it: the data disagree with it", c.Name, asGiven(r, c.Without), asGiven(r, c.With), weightedNote(r))
+		if dirs, names := named(); dirs != nil && c.Freer != nil {
+			along, ok := alongNamed(r, r.Constraints.checkData, c, dirs)
+			allow := checkAllowance(r, c) + blankPattern()
+			if ok && rise(c)-along <= allow {
+				r.Notes = append(r.Notes, namedCostNote(r, c, along, allow, names))
+				continue
+			}
+			if ok {
+				msg += fmt.Sprintf("; %.0f %% of the rise lies along the %s named by the rank step, which no component carries, but the rest (%.3g noise variances) exceeds what the constraint may cost (%.3g)",
+					100*along/rise(c), namedWords(names), (rise(c)-along)/checkSigma2(r), allow/checkSigma2(r))
+			}
+		}
 		if c.Name == "closure" {
 			msg += "; the total of the concentrations is not constant (sampling, dilution, evaporation, a species left out?): try --closure off, or one total per experiment"
 		}
@@ -607,10 +636,7 @@ func rise(c mcr.ConstraintCheck) float64 { return c.ResidualSSWith - c.ResidualS
 // variances per value it can pin (see judgeChecks).
 func checkAllowance(r *Result, c mcr.ConstraintCheck) float64 {
 	n, m := r.D.Dims()
-	sigma2 := r.Rank.Sigma * r.Rank.Sigma
-	if weighted(r) {
-		sigma2 = 1 // the refits' residuals are weighted: in units of the noise
-	}
+	sigma2 := checkSigma2(r)
 	// What the constraint can pin: one value per row for closure, one
 	// per row (channel) for each component it applies to otherwise.
 	dof := float64(n)
@@ -622,6 +648,23 @@ func checkAllowance(r *Result, c mcr.ConstraintCheck) float64 {
 		dof = float64(per * max(1, len(c.ComponentsAffected)))
 	}
 	return 4 * sigma2 * dof
+}
+
+// checkSigma2 is the noise variance in the units of the checks' residual
+// sums of squares.
+func checkSigma2(r *Result) float64 {
+	if weighted(r) {
+		return 1 // the refits' residuals are weighted: in units of the noise
+	}
+	return r.Rank.Sigma * r.Rank.Sigma
+}
+
+// namedCostNote says that a check's rise lies, up to what the constraint
+// may cost, along the factors the rank step named (judgeChecks).
+func namedCostNote(r *Result, c mcr.ConstraintCheck, along, allow float64, names []string) string {
+	s2 := checkSigma2(r)
+	return fmt.Sprintf("%s costs %.2g %% of %s (%.3g %% with it, %.3g %% without), %.0f %% of that rise along the %s named by the rank step, which no component carries and a freer fit takes up: resolved again with those directions allowed in every spectrum, the two differ by %.3g noise variances, within the %.3g the constraint may cost (4 per value it pins, above χ²'s 95 %% point); the constraint is not what the data disagree with",
+		c.Name, asGiven(r, c.With)-asGiven(r, c.Without), checkMetric(r), asGiven(r, c.With), asGiven(r, c.Without), 100*along/rise(c), namedWords(names), (rise(c)-along)/s2, allow/s2)
 }
 
 // riseBeyondPinned reports whether the check's rise exceeds what the pinned
