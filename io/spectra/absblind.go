@@ -95,6 +95,9 @@ func absorbanceNoise(v *mat.Dense, times []float64, pre int) (blind *Blind, sigm
 			added = b.addChannel(j) || added
 		}
 	}
+	if runs := opaqueBands(v, b, own, cnt, typical, sigma, plain); len(runs) > 0 {
+		b.Opaque, added = runs, true
+	}
 	if added {
 		// The channels left out no longer raise their neighbours' σ.
 		sigma, q, src = channelNoiseSpaced(v, line, pre, b)
@@ -254,7 +257,14 @@ func observedReference(v *mat.Dense, rows []int, b *Blind, ref []float64) bool {
 
 // absorbanceBlindNotes is BlindNotes for absorbance or difference input.
 func absorbanceBlindNotes(s *Series, b *Blind) []string {
-	return blindNotes(s.Source, s.AxisName, s.Axis, s.Times, b, fmt.Sprintf(
+	var notes []string
+	if b != nil && len(b.Opaque) > 0 {
+		// The opaque bands have a note of their own; the other blind
+		// points keep theirs.
+		notes = append(notes, opaqueNote(s.Source, s.AxisName, s.Axis, b.Opaque))
+		b = outsideRuns(b, b.Opaque)
+	}
+	return append(notes, blindNotes(s.Source, s.AxisName, s.Axis, s.Times, b, fmt.Sprintf(
 		"a value at the export's cap or not finite, or in a channel whose scatter in time says no light reached it (σ ≥ %.3g absorbance: the beam within 3σ of zero) or that is ten times noisier than its weight allows",
-		noLightSigma))
+		noLightSigma))...)
 }

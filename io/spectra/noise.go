@@ -153,6 +153,10 @@ func TimeNoise(d *mat.Dense, times []float64, lo, hi int, blind *Blind) []float6
 type Blind struct {
 	Rows  [][]int // Rows[i]: the blind channels of spectrum i, ascending (nil: none)
 	Count int
+	// Opaque are the runs of channels (first, last) taken as opaque bands
+	// of absorbance input (opaqueBands), blind in every spectrum; for the
+	// note that names them.
+	Opaque [][2]int
 }
 
 // Has reports whether point (i, j) is blind.
