@@ -55,14 +55,19 @@ func withBaseline(res *Result, shapes *mat.Dense) (c, s *mat.Dense) {
 }
 
 // inBands marks the channels where a column of s reaches a tenth of its largest
-// magnitude (a band of that spectrum; common practice for where a band "is").
-func inBands(s *mat.Dense) []bool {
+// magnitude (a band of that spectrum; common practice for where a band "is"). The
+// largest is taken over the channels with weight (all when col is nil): a channel of
+// weight zero (blind in every spectrum, an opaque band) holds no measured value, and
+// what the fit put there would set the scale for every band measured.
+func inBands(s *mat.Dense, col []float64) []bool {
 	m, k := s.Dims()
 	in := make([]bool, m)
 	for a := 0; a < k; a++ {
 		top := 0.0
 		for j := 0; j < m; j++ {
-			top = max(top, abs(s.At(j, a)))
+			if col == nil || col[j] > 0 {
+				top = max(top, abs(s.At(j, a)))
+			}
 		}
 		for j := 0; j < m; j++ {
 			in[j] = in[j] || top > 0 && abs(s.At(j, a)) >= 0.1*top
@@ -92,8 +97,8 @@ func (t *MinorTest) outOfBand(d Data, s *mat.Dense, without, with *Result, opt O
 	before := fitTerms(d, cw, sw)
 	cw, sw = withBaseline(with, opt.Baseline)
 	after := fitTerms(d, cw, sw)
-	in := inBands(s)
 	_, col := weightsOf(d)
+	in := inBands(s, col)
 	s2 := t.ResidualSSWith / t.DF2
 	t.InBand, t.ChannelDrop = in, make([]float64, len(in))
 	drop, q := 0.0, 0
