@@ -1565,6 +1565,11 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 		}
 		return mostlyBlindBeams(s, blind.Count, scan.ceiling)
 	}
+	var refFile []float64
+	if opt.Reference.File != nil {
+		refFile = ref
+	}
+	blindClippedBeams(blind, scan.ceiling, opt.Blank, refFile)
 	line := lineWeights(s.Times)
 	if line != nil {
 		own, cnt = nil, nil // the parse's scales are of plain second differences
@@ -1614,6 +1619,26 @@ func mostlyBlindBeams(s *Series, count int, ceiling float64) error {
 	}
 	return inputErr(s.Source, 0, "measure again with the single beam below the detector's limit (less gain, a weaker source or a smaller aperture), or leave the range out with --exclude LO:HI",
 		"%d of %d points (%.0f %%) are blind, %s: more than a quarter of the data hold no absorbance", count, n*m, 100*float64(count)/float64(n*m), why)
+}
+
+// blindClippedBeams makes blind in every spectrum each channel where a blank
+// or a reference file (nil: none) stands at the detector's ceiling, the
+// series' flat top (0: none found, and nothing is done). The series' points
+// at the ceiling are blind already (findBlindTops); a ratio to a clipped
+// blank is as wrong, an absorbance low by the light the ceiling cut off, in
+// every spectrum. A blank's own run of equal values at its maximum is not
+// taken for a ceiling: a noiseless or constant blank has one too.
+func blindClippedBeams(blind *Blind, ceiling float64, beams ...[]float64) {
+	if !(ceiling > 0) {
+		return
+	}
+	for _, b := range beams {
+		for j, x := range b {
+			if x >= ceiling {
+				blind.addChannel(j)
+			}
+		}
+	}
 }
 
 // checkBlankAndReferenceBeams refuses a blank or a reference file that is not a

@@ -430,3 +430,50 @@ func TestBlindEverywhereIsNamedNotDetermined(t *testing.T) {
 		}
 	}
 }
+
+// A detector that saturates clips every beam at one ceiling, the blank's too
+// (common practice: the blank is recorded on the same detector). Beams at the
+// ceiling (a flat top in 3 or more neighbouring channels) are blind where
+// they stand; a blank at the ceiling makes its channel blind in every
+// spectrum, even where the sample's beams come under it, since the ratio to a
+// clipped blank is an absorbance low by the light the ceiling cut off. The
+// other points stay lit.
+func TestClippedBlankIsBlindInEverySpectrum(t *testing.T) {
+	rng := rand.New(rand.NewPCG(12, 5))
+	s := beams(rng, 20, 200, 5, 1, 0)
+	n, m := s.Values.Dims()
+	const ceiling = 9500.0 // the envelope peaks at 10⁴ counts
+	blank := make([]float64, m)
+	for j := range blank {
+		u := float64(j) / float64(m)
+		blank[j] = math.Min(1e4*(0.6+0.4*math.Sin(3*u)), ceiling)
+		for i := 0; i < n; i++ {
+			s.Values.Set(i, j, math.Min(s.Values.At(i, j), ceiling))
+		}
+	}
+	a, err := Assemble(s, AssembleOptions{Kind: SingleBeam, Blank: blank, Reference: Reference{Mean: 1}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	under := 0 // spectra under the ceiling where the blank is at it
+	for j := 0; j < m; j++ {
+		for i := 0; i < n; i++ {
+			v := s.Values.At(i, j)
+			switch {
+			case blank[j] >= ceiling && v < ceiling:
+				under++
+				fallthrough
+			case v == ceiling:
+				if !a.Blind.Has(i, j) {
+					t.Errorf("spectrum %d, channel %d (beam %g, blank %g): not blind", i, j, v, blank[j])
+				}
+			case a.Blind.Has(i, j) && v > 1000:
+				t.Errorf("spectrum %d, channel %d (beam %g, blank %g under the ceiling): blind", i, j, v, blank[j])
+			}
+		}
+	}
+	t.Logf("%d beams under the ceiling where the blank is at it", under)
+	if under == 0 {
+		t.Fatal("no beam under the ceiling where the blank is at it: the case tests nothing")
+	}
+}
