@@ -44,15 +44,58 @@ type heldFit struct {
 	order int
 	res   *mcr.Result
 	p     float64 // F-test against the order below; 1 for the first
+	ss    float64 // residual sum of squares over the measured points
+}
+
+// observedSS is res's residual sum of squares over the measured points,
+// the ones heldNoiseSS counts. ALS fits the blind points' filled values as
+// data, and this test runs before they are filled again from the resolved
+// model (refineBlind): a value the factor analysis's low-rank model
+// extrapolated (a channel measured in the 3 spectra before the reaction
+// only, filled with −1.5 absorbance where its noise is 10⁻⁴) left the
+// constrained fit 358 times the noise, and an offset that fitted it was
+// taken for a background the species could not hold. The rows set aside
+// hold the fit's own values (refillSetAside), which add nothing here.
+func observedSS(r *Result, res *mcr.Result, shapes *mat.Dense) float64 {
+	if r.Blind == nil || r.Blind.Count == 0 || r.Compressed {
+		return res.ResidualSS
+	}
+	var row, col []float64
+	if weighted(r) {
+		row, col = r.Weights.Row, r.Weights.Col
+	}
+	k := res.C.RawMatrix().Cols
+	blind := 0.0
+	for i, cols := range r.Blind.Rows {
+		for _, j := range cols {
+			v := 0.0
+			for a := 0; a < k; a++ {
+				v += res.C.At(i, a) * res.S.At(j, a)
+			}
+			if res.Baseline != nil && shapes != nil {
+				_, b := shapes.Dims()
+				for q := 0; q < b; q++ {
+					v += res.Baseline.At(i, q) * shapes.At(j, q)
+				}
+			}
+			e, w := r.D.At(i, j)-v, 1.0
+			if row != nil {
+				w = row[i] * col[j]
+			}
+			blind += w * e * e
+		}
+	}
+	return math.Max(res.ResidualSS-blind, 0)
 }
 
 // raiseBaselineHeld tries, with --baseline auto, the orders above the one
 // chosen on free factors, each by a resolution under the same constraints
 // (warm from res), when res stays far above the noise. Orders are added
 // forward while the extra-sum-of-squares F-test of the constrained fits is
-// significant at the level chooseBaseline used, one non-significant order
-// stepped over, as there; the order found is kept only if its fit removes
-// at least heldShare of the excess over the noise. It returns the fit, the
+// significant at the level chooseBaseline used, up to the first that is
+// not, as there; the residuals are those of the measured points
+// (observedSS), as heldNoiseSS counts them. The order found is kept only
+// if its fit removes at least heldShare of the excess over the noise. It returns the fit, the
 // data and the baseline shapes to go on with (those given when nothing
 // changes).
 func raiseBaselineHeld(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dense, opt mcr.Options, log io.Writer) (*mcr.Result, mcr.Data, *mat.Dense, error) {
@@ -62,11 +105,11 @@ func raiseBaselineHeld(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.De
 		return res, data, shapes, nil
 	}
 	noise := heldNoiseSS(r, q0)
-	if !(noise > 0) || !(res.ResidualSS > heldMisfit*noise) {
+	if !(noise > 0) || !(observedSS(r, res, shapes) > heldMisfit*noise) {
 		return res, data, shapes, nil
 	}
 	level := r.Settings.Alpha / float64(maxOrder+1)
-	fits := []heldFit{{order: q0, res: res, p: 1}}
+	fits := []heldFit{{order: q0, res: res, p: 1, ss: observedSS(r, res, shapes)}}
 	chosen := 0
 	for q := q0 + 1; q <= maxOrder; q++ {
 		o := opt
@@ -79,17 +122,16 @@ func raiseBaselineHeld(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.De
 		if err != nil {
 			break // the orders below stand
 		}
-		prev := fits[len(fits)-1].res.ResidualSS
-		fits = append(fits, heldFit{order: q, res: fit, p: heldFTest(r, q, prev, fit.ResidualSS)})
-		if fits[len(fits)-1].p < level {
-			chosen = len(fits) - 1
-		} else if q > fits[chosen].order+1 {
-			break
+		fits = append(fits, heldFit{order: q, res: fit, ss: observedSS(r, fit, o.Baseline)})
+		cur := &fits[len(fits)-1]
+		if cur.p = heldFTest(r, q, fits[len(fits)-2].ss, cur.ss); cur.p >= level {
+			break // the first order that adds nothing ends the search (chooseBaseline)
 		}
+		chosen = len(fits) - 1
 	}
 	best := fits[chosen]
-	excess := res.ResidualSS - noise
-	if chosen == 0 || best.res.ResidualSS-heldNoiseSS(r, best.order) > (1-heldShare)*excess {
+	excess := fits[0].ss - noise
+	if chosen == 0 || best.ss-heldNoiseSS(r, best.order) > (1-heldShare)*excess {
 		return res, data, shapes, nil
 	}
 	fmt.Fprintf(log, "baseline raised to %s: the constrained species could not hold the background (was %s)\n", baselineName(best.order), baselineName(q0))
@@ -134,8 +176,9 @@ func heldNoiseSS(r *Result, order int) float64 {
 // order q against q − 1 on the constrained fits' residuals (Draper & Smith
 // 1998, §6, as svd.ChooseBaselineOrder counts it: n coefficients more, the
 // axis's points counted as the independent ones of the first choice's
-// residual). With the constraints active the statistic is not exactly F
-// distributed; the drops it is asked about are hundreds of times the noise.
+// residual), less the blind points. With the constraints active the
+// statistic is not exactly F distributed; the drops it is asked about are
+// hundreds of times the noise.
 func heldFTest(r *Result, q int, prev, cur float64) float64 {
 	n, m := r.D.Dims()
 	n -= len(r.SetAside)
@@ -146,6 +189,10 @@ func heldFTest(r *Result, q int, prev, cur float64) float64 {
 	}
 	nf := float64(n)
 	dof := nf*(me-float64(q+1)) - k*(nf+me-float64(q+1)-k)
+	if r.Blind != nil && r.Blind.Count > 0 {
+		// The residuals are the measured points' (observedSS).
+		dof -= float64(r.Blind.Count) * me / float64(m)
+	}
 	switch {
 	case dof < 1:
 		return 1
@@ -168,8 +215,8 @@ func heldFTest(r *Result, q int, prev, cur float64) float64 {
 func heldReason(r *Result, fits []heldFit, q0 int, best heldFit, level, noise float64) string {
 	var steps []string
 	for _, f := range fits[1:] {
-		steps = append(steps, fmt.Sprintf("%s %s (residual %.3g × the noise)", baselineName(f.order), pvalue.Text(f.p), math.Sqrt(f.res.ResidualSS/heldNoiseSS(r, f.order))))
+		steps = append(steps, fmt.Sprintf("%s %s (residual %.3g × the noise)", baselineName(f.order), pvalue.Text(f.p), math.Sqrt(f.ss/heldNoiseSS(r, f.order))))
 	}
 	return fmt.Sprintf("; raised to %s after the resolution: where the species' amounts sum to a constant (closure, a closed reaction) a background constant in time adds no factor, so the test on free factors cannot see it, but the species under their constraints could not hold it (residual %.3g × the noise with %s); the same F-test on the constrained fits at level %.3g: %s (the rank was counted with %s)",
-		baselineName(best.order), math.Sqrt(fits[0].res.ResidualSS/noise), baselineName(q0), level, strings.Join(steps, ", "), baselineName(q0))
+		baselineName(best.order), math.Sqrt(fits[0].ss/noise), baselineName(q0), level, strings.Join(steps, ", "), baselineName(q0))
 }

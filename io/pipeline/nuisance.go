@@ -5,6 +5,7 @@ import (
 	"io"
 	"math"
 	"path/filepath"
+	"sort"
 	"strconv"
 	"strings"
 
@@ -90,6 +91,9 @@ type rankInputs struct {
 	// work (may be nil) is scratch memory the randomized SVDs of the
 	// factor analysis hand on, one after the other (svd.Workspace).
 	work *svd.Workspace
+	// missing (may be nil) are the blind points of d, row by row, which
+	// the baseline's F-test leaves out (svd.ChooseBaselineOrderObserved).
+	missing [][]int
 }
 
 // baselineProduct is d q for q = svd.PolyBasis(axis, order, in.col): the
@@ -382,7 +386,7 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 		// practice for a family of tests). At alpha per order, two closed subsystems
 		// with no baseline got a linear one (p = 0.04, TestBaselineAutoChoosesNone…).
 		level := r.Settings.Alpha / float64(maxOrder+1)
-		ch, err := svd.ChooseBaselineOrderBasis(d, in.dq, in.basis, f, r.Axis, in.col, kf, maxOrder, level)
+		ch, err := svd.ChooseBaselineOrderObserved(d, in.dq, in.basis, f, r.Axis, in.col, in.missing, kf, maxOrder, level)
 		if err != nil {
 			return fmt.Errorf("baseline: %w", err)
 		}
@@ -932,7 +936,7 @@ func rechooseBaseline(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Den
 		return shapes
 	}
 	level := r.Settings.Alpha / float64(maxOrder+1)
-	ch, err := svd.ChooseBaselineOrderWeighted(kept, nil, r.Axis, col, kf, maxOrder, level)
+	ch, err := svd.ChooseBaselineOrderObserved(kept, nil, nil, nil, r.Axis, col, keptBlind(r, data), kf, maxOrder, level)
 	if err != nil || ch.Order == r.BaselineOrder {
 		return shapes
 	}
@@ -974,6 +978,55 @@ func keptScaledRows(r *Result, data mcr.Data) (*mat.Dense, int) {
 		}
 	}
 	return out, len(keep)
+}
+
+// keptBlind is what the baseline's test leaves out of keptScaledRows's
+// matrix, row by row: every blind point when the noise weights' low-rank
+// model filled them (its rank-k fits leave them as they are), else only the
+// channels blind in every spectrum, whose placeholders are not data.
+func keptBlind(r *Result, data mcr.Data) [][]int {
+	if r.Blind == nil || r.Blind.Count == 0 {
+		return nil
+	}
+	var rows [][]int
+	for i, cols := range r.Blind.Rows {
+		if !setAside(r.SetAside, i) {
+			rows = append(rows, cols)
+		}
+	}
+	if row, col := weightsOfData(data); row == nil || col == nil {
+		return everywhereBlind(rows)
+	}
+	return rows
+}
+
+// everywhereBlind keeps of the blind points rows those of the channels blind
+// in every row (nil when there are none).
+func everywhereBlind(rows [][]int) [][]int {
+	if len(rows) == 0 {
+		return nil
+	}
+	var all []int
+	for _, j := range rows[0] {
+		every := true
+		for _, cols := range rows[1:] {
+			if k := sort.SearchInts(cols, j); k == len(cols) || cols[k] != j {
+				every = false
+				break
+			}
+		}
+		if every {
+			all = append(all, j)
+		}
+	}
+	if all == nil {
+		return nil
+	}
+	out := make([][]int, len(rows))
+	for i := range out {
+		out[i] = all
+	}
+	return out
 }
 
 // resizedColumns is x with its first c columns, padded with zeros (nil for

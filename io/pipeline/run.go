@@ -511,6 +511,8 @@ func (fa *factorRun) scaledFactors(log io.Writer) (rankInputs, error) {
 		}
 		fa.rf = rf
 		in = weightedRankInputs(r, r.Scaled, r.Weights.Row, r.Weights.Col, fa.refRow, fa.maxF)
+		// The blind points hold the rank-k model's values now.
+		in.missing = r.Blind.Rows
 		r.Scaled = nil // not held further: EFA and purest variables use its factors
 	} else {
 		in = fa.scaleScreened()
@@ -576,7 +578,14 @@ func (fa *factorRun) plainFactors() (rankInputs, error) {
 	fa.f = f
 	fa.rf, r.Factors = f, f
 	pooled := pooledSigma(s, r, r.D)
-	return rankInputs{d: r.D, opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooled, SigmaFrom: pooledWords, Alpha: s.Alpha, ReferenceRow: fa.refRow}, maxF: fa.maxF, noise: pooled}, nil
+	in := rankInputs{d: r.D, opt: svd.RankOptions{PreRows: preRowsFor(s, r), Sigma: pooled, SigmaFrom: pooledWords, Alpha: s.Alpha, ReferenceRow: fa.refRow}, maxF: fa.maxF, noise: pooled}
+	if r.Blind != nil && r.Blind.Count > 0 {
+		// Without weights the blind points keep their placeholders (not
+		// the model's values): only the channels blind everywhere can be
+		// left out of the baseline's test.
+		in.missing = everywhereBlind(r.Blind.Rows)
+	}
+	return in, nil
 }
 
 // rankFindings says where the rank's noise level came from and adds what
