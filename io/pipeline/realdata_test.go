@@ -132,11 +132,13 @@ func TestAbsorbancesGivenAsDifferencesAreNamed(t *testing.T) {
 
 // Transmittance in per cent is read as absorbance: the vendored urethane absorbances
 // (source as urethaneDir) written as %T = 100·10^(−A) (definition) and read back with
-// --kind transmittance give the absorbance run's rank and components, the resolution's
-// lack of fit to 1e-5 relatively (the round trip through seven significant digits moves
-// where the resolution stops along the flat valley a fitted baseline leaves: 1.3e-6
-// measured with the baseline anchored at the first spectrum), a note on the scale
-// taken; a --blank beside them is refused.
+// --kind transmittance give the absorbance run's rank and components, each spectrum's
+// noise level (its weight) to 1e-3 relatively, the resolution's lack of fit to 5e-3
+// relatively (the round trip through seven significant digits moves where the
+// resolution stops along the flat valley a fitted baseline leaves: 1.3e-6 measured with
+// the baseline anchored at the first spectrum and one weight for every spectrum, 2.3e-3
+// with each spectrum weighted by its own noise, after 86 and 82 iterations, both
+// converged), a note on the scale taken; a --blank beside them is refused.
 func TestTransmittanceReadAsAbsorbance(t *testing.T) {
 	src := filepath.Join(urethaneDir, "catalyst-1.00")
 	files, err := filepath.Glob(filepath.Join(src, "*.CSV"))
@@ -174,7 +176,16 @@ func TestTransmittanceReadAsAbsorbance(t *testing.T) {
 	if tr.Rank.Estimate != a.Rank.Estimate || tr.Components != a.Components {
 		t.Errorf("transmittance: rank %d, components %d; absorbance: %d, %d", tr.Rank.Estimate, tr.Components, a.Rank.Estimate, a.Components)
 	}
-	if d := math.Abs(tr.ALS.LackOfFitPercent/a.ALS.LackOfFitPercent - 1); d > 1e-5 {
+	fa, ft := a.Experiments[0].Assembled.Noise.Spectra, tr.Experiments[0].Assembled.Noise.Spectra
+	if fa == nil || ft == nil || fa.Varies != ft.Varies {
+		t.Fatalf("noise per spectrum: absorbance %+v, transmittance %+v", fa, ft)
+	}
+	for i, f := range fa.Factor {
+		if d := math.Abs(ft.Factor[i]/f - 1); d > 1e-3 {
+			t.Errorf("spectrum %d: noise level %.6g read from transmittance, %.6g from absorbance", i, ft.Factor[i], f)
+		}
+	}
+	if d := math.Abs(tr.ALS.LackOfFitPercent/a.ALS.LackOfFitPercent - 1); d > 5e-3 {
 		t.Errorf("lack of fit %.9g %%, absorbance's %.9g %% (relative difference %.2g)", tr.ALS.LackOfFitPercent, a.ALS.LackOfFitPercent, d)
 	}
 	if !strings.Contains(strings.Join(tr.Notes, "\n"), "transmittance taken as per cent") {

@@ -15,8 +15,10 @@ import (
 )
 
 // TestRateNotDeterminedSaysSo: the real catalyst-1.00 series (source as urethaneDir) with
-// --t0 3400 s leaves three spectra after t0, and 'A -> B' is then not determined by them:
-// the data fit's rate constant ran to 3.6e-160 s⁻¹ with a standard error of +Inf, which the
+// --t0 3500 s leaves two spectra after t0, and 'A -> B' is then not determined by them
+// (with --t0 3400 s and three spectra it was, until each spectrum was weighted by its own
+// noise, which lets the three determine it): the data fit's rate constant ran to
+// 3.6e-160 s⁻¹ with a standard error of +Inf, which the
 // terminal printed as "± +Inf" and summary.json as 0, an exact value. A standard error that
 // is not finite is now said in words on the terminal and in the report, and summary.json
 // marks the constant not_determined; nothing printed holds Inf or NaN (IEEE 754 specials are
@@ -26,7 +28,7 @@ func TestRateNotDeterminedSaysSo(t *testing.T) {
 	dir := t.TempDir()
 	s := NewSettings()
 	s.Data, s.Kind, s.TimesFromName = []string{filepath.Join(urethaneDir, "catalyst-1.00")}, "absorbance", true
-	s.Model, s.T0, s.Bands, s.Out = "A -> B", "3400", "off", filepath.Join(dir, "out")
+	s.Model, s.T0, s.Bands, s.Out = "A -> B", "3500", "off", filepath.Join(dir, "out")
 	var out, errs bytes.Buffer
 	if _, err := Execute(s, Streams{Out: &out, Err: &errs}); err != nil {
 		t.Fatal(err)

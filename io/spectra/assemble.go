@@ -178,8 +178,9 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 		if err := mostlyBlind(s, blind); err != nil {
 			return nil, err
 		}
-		out.Noise = Noise{Level: median(sigma), Unit: "absorbance", Source: src, Channel: sigma, Quantum: q}
-		out.DifferenceWeights = channelWeights(n, sigma, blind)
+		sn := measureSpectrumNoise(s.Values, s.Times, sigma, blind, opt.Pre)
+		out.Noise = Noise{Level: median(sigma), Unit: "absorbance", Source: src, Channel: sigma, Quantum: q, Spectra: sn}
+		out.DifferenceWeights = inputWeights(n, sigma, sn, blind)
 		if opt.Consume {
 			out.Difference = s.Values
 		} else {
@@ -217,8 +218,9 @@ func assembleAbsorbances(s *Series, opt AssembleOptions, ref []float64, out *Ass
 			sigma, q, src = channelNoiseSpaced(s.Values, lineWeights(s.Times), opt.Pre, blind)
 		}
 	}
-	out.Noise = Noise{Level: median(sigma), Unit: "absorbance", Source: src, Channel: sigma, Quantum: q}
-	out.AbsoluteWeights = channelWeights(n, sigma, blind)
+	sn := measureSpectrumNoise(s.Values, s.Times, sigma, blind, opt.Pre)
+	out.Noise = Noise{Level: median(sigma), Unit: "absorbance", Source: src, Channel: sigma, Quantum: q, Spectra: sn}
+	out.AbsoluteWeights = inputWeights(n, sigma, sn, blind)
 	out.DifferenceWeights = out.AbsoluteWeights
 	if opt.Consume {
 		out.Absolute = s.Values

@@ -181,6 +181,10 @@ type Noise struct {
 	Channel []float64
 	// Quantum is the rounding step seen in the export (0 if none).
 	Quantum float64
+	// Spectra is each spectrum's level and the test of equal levels, for
+	// absorbance and difference input judged (measureSpectrumNoise); nil
+	// otherwise.
+	Spectra *SpectrumNoise
 }
 
 // madScale is 1/Φ⁻¹(3/4): the median absolute value of a zero-mean normal
@@ -345,15 +349,42 @@ func (d timeDiffs) fillSpaced(j0, j1 int, buf []float64, cnt []int) {
 	per := d.perChannel()
 	for i := 1; i+1 < n; i++ {
 		a := d.line[i-1]
-		scale := math.Sqrt(6 / (1 + a*a + (1-a)*(1-a)))
+		scale := lineScale(a)
 		x0, x1, x2 := d.v.RawRowView(i - 1)[j0:j1], d.v.RawRowView(i)[j0:j1], d.v.RawRowView(i + 1)[j0:j1]
 		for c := range x0 {
 			if d.blind != nil && (d.blind.Has(i-1, j0+c) || d.blind.Has(i, j0+c) || d.blind.Has(i+1, j0+c)) {
 				continue
 			}
-			buf[c*per+cnt[c]] = scale * math.Abs(x1[c]-a*x0[c]-(1-a)*x2[c])
+			buf[c*per+cnt[c]] = scale * math.Abs(lineResidual(a, x0[c], x1[c], x2[c]))
 			cnt[c]++
 		}
+	}
+}
+
+// lineResidual is x₁ less the straight line through its neighbours in
+// time, x₁ − a·x₀ − (1 − a)·x₂ (fillSpaced).
+func lineResidual(a, x0, x1, x2 float64) float64 { return x1 - a*x0 - (1-a)*x2 }
+
+// lineScale takes lineResidual to the variance 6σ² of the plain second
+// difference (fillSpaced).
+func lineScale(a float64) float64 { return math.Sqrt(6 / (1 + a*a + (1-a)*(1-a))) }
+
+// rowDiff writes into dst spectrum i's difference in time on the scale of
+// the plain second difference (variance 6σ² for white noise of one σ), as
+// fill and fillSpaced take it but signed and for one spectrum, 1 ≤ i ≤ n−2.
+// Blind points are not looked at: the caller leaves them out.
+func (d timeDiffs) rowDiff(i int, dst []float64) {
+	x0, x1, x2 := d.v.RawRowView(i-1), d.v.RawRowView(i), d.v.RawRowView(i+1)
+	if d.line == nil {
+		for c := range dst {
+			dst[c] = x2[c] - 2*x1[c] + x0[c]
+		}
+		return
+	}
+	a := d.line[i-1]
+	scale := lineScale(a)
+	for c := range dst {
+		dst[c] = scale * lineResidual(a, x0[c], x1[c], x2[c])
 	}
 }
 
@@ -1391,6 +1422,16 @@ func floorWeights(w []float64) {
 			w[i] = 1e-12 * mx
 		}
 	}
+}
+
+// inputWeights are the weights of absorbance or difference input: one σ
+// per channel, every spectrum alike, unless the spectra's own levels were
+// found to differ (sn.Varies).
+func inputWeights(n int, sigma []float64, sn *SpectrumNoise, blind *Blind) *Weights {
+	if sn != nil && sn.Varies {
+		return spectrumWeights(sigma, sn.Factor, blind)
+	}
+	return channelWeights(n, sigma, blind)
 }
 
 // channelWeights are the weights of absorbance or difference input: one σ
