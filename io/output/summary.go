@@ -78,6 +78,11 @@ type Summary struct {
 	// the factors above the noise that are not chemical components.
 	OutlierSpectra  []OutlierJSON  `json:"outlier_spectra"`
 	NuisanceFactors []NuisanceJSON `json:"nuisance_factors"`
+	// SpectrumNoise is, for absorbance or difference input whose spectra
+	// were found to differ in noise (so that each is weighted by its own
+	// 1/σ²), each experiment's test of equal levels and the range of the
+	// levels; absent when every spectrum has the same weight.
+	SpectrumNoise []SpectrumNoiseJSON `json:"spectrum_noise,omitempty"`
 	// MinorSpecies are minor factors that the refit test counted as species (they
 	// left nuisance_factors and raised rank_estimate and components).
 	MinorSpecies []NuisanceJSON `json:"minor_species,omitempty"`
@@ -372,6 +377,19 @@ type VapourSubtractedJSON struct {
 type VapourCarrierJSON struct {
 	Component  string  `json:"component"`
 	LineHeight float64 `json:"line_height"`
+}
+
+// SpectrumNoiseJSON is one experiment's noise per spectrum: the median σ
+// over the channels of its quietest and noisiest spectrum (absorbance), their
+// ratio, whether the weights follow them, and the test of equal levels.
+type SpectrumNoiseJSON struct {
+	Experiment         int     `json:"experiment"`
+	WeightsPerSpectrum bool    `json:"weights_per_spectrum"`
+	NoiseSDMin         float64 `json:"noise_sd_min"`
+	NoiseSDMax         float64 `json:"noise_sd_max"`
+	Ratio              float64 `json:"ratio"`
+	PValue             float64 `json:"p_value"`
+	Test               string  `json:"test"`
 }
 
 // OutlierJSON is one spectrum set aside.

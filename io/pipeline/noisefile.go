@@ -54,6 +54,13 @@ func writeNoiseSpectra(r *Result, st *output.Stage, inRef bool) error {
 	if inRef {
 		u.Header = append(u.Header, "in_reference")
 	}
+	// The spectra's own levels are written when the weights follow them
+	// (only then does the file change: equally noisy spectra keep it).
+	own, level := weightsPerSpectrum(r), 0.0
+	if own {
+		u.Header = append(u.Header, "noise_sd")
+		level = medianOf(r.Weights.ChannelSigma())
+	}
 	for i, tm := range r.Times {
 		var row []string
 		if multi {
@@ -66,6 +73,9 @@ func writeNoiseSpectra(r *Result, st *output.Stage, inRef bool) error {
 		row = append(row, output.Float(tm), output.Float(sqrtRatio(ma, r.Weights.Row[i])), output.Float(float64(blind)))
 		if inRef {
 			row = append(row, output.Float(float64(referenceRowFlag(r, i))))
+		}
+		if own {
+			row = append(row, output.Float(sqrtRatio(ma, r.Weights.Row[i])*level))
 		}
 		u.Rows = append(u.Rows, row)
 	}

@@ -385,6 +385,7 @@ func readExperiments(r *Result, p readingPlan, log io.Writer) ([]*mat.Dense, err
 		}
 	}
 	r.Notes = append(r.Notes, spectra.NoiseNotes(first.AxisName, axis, r.Weights.ChannelSigma(), r.Blind)...)
+	r.Notes = append(r.Notes, spectrumNoiseNotes(r)...)
 	if note := preOneNote(r); note != "" {
 		r.Notes = append(r.Notes, note)
 	}

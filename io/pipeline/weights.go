@@ -316,6 +316,9 @@ func noiseOf(r *Result) {
 	default:
 		r.NoiseSource = fmt.Sprintf("absorbance noise per channel from %s", from)
 	}
+	if weightsPerSpectrum(r) {
+		r.NoiseSource += "; each spectrum's own level from the robust scale of its time difference over the axis (the spectra differ in noise)"
+	}
 }
 
 func medianOf(v []float64) float64 {

@@ -61,6 +61,7 @@ func MakeSummary(r *Result) *Summary {
 		Baseline:                 baselineName(r.BaselineOrder),
 		BaselineReason:           r.BaselineReason,
 		OutlierSpectra:           setAsideSummary(r),
+		SpectrumNoise:            spectrumNoiseSummary(r),
 		NuisanceFactors:          nuisanceSummary(r),
 		MinorSpecies:             minorSpeciesSummary(r),
 		Advice:                   nonNil(r.Advice),
