@@ -13,6 +13,27 @@ import (
 // condensed sample tens of points wide and smooth (≈ 0.001 at 8 points).
 const roughLines = 0.05
 
+// unresolvedPoints and condensedBandWidth decide, on a wavenumber axis, that
+// a feature too narrow for the second-difference test is still a line. A
+// gas line at room pressure is about 0.2 cm⁻¹ wide (pressure broadening;
+// from memory), narrower than a process spectrometer resolves, so it shows
+// the instrument's own line shape: as wide as its resolution, which the
+// axis samples at one or two points per resolution element (common
+// practice), so two to three spacings at half height (the narrowest a
+// sampled axis can show is two, Nyquist). At three spacings the
+// second-difference test reads a line as smooth (a Gaussian three points
+// wide has 4.7 % of its energy there, under roughLines): water-vapour lines
+// 1.2 cm⁻¹ wide on the 0.48 cm⁻¹ axis of the real urethane series were
+// called broad, while on a 2 cm⁻¹ axis the same lines were sharp. A feature
+// that narrow in points is a line only when it is narrower in cm⁻¹ than a
+// condensed sample's bands at room temperature, 5–30 cm⁻¹ at half height
+// (common practice; values from memory): on a coarse axis three points span
+// a band.
+const (
+	unresolvedPoints   = 3
+	condensedBandWidth = 4.0 // cm⁻¹
+)
+
 // smoothOrder is the order of the polynomial along the axis that stands for
 // the smooth part of a residual: scatter (rising as ν⁴ toward high
 // wavenumber, Rayleigh) and a baseline jump are followed by it, bands tens
@@ -226,6 +247,8 @@ func (f residualFeatures) words(in OutlierInput) string {
 		return fmt.Sprintf("one point standing out (%s, %.3g robust standard deviations of the row, its neighbours below half of it): a spike or a bad point", f.at(in, f.peakAt), f.peak)
 	case f.peak > limit && f.rough >= roughLines:
 		return fmt.Sprintf("sharp lines (the largest %s, %.3g robust standard deviations of the row, %d points standing out; %.0f %% of the energy around it is in its second differences, a smooth band has under %.0f %%): gas lines such as water vapour or CO₂", f.at(in, f.peakAt), f.peak, f.standing, 100*f.rough, 100*roughLines)
+	case f.peak > limit && f.unresolved(in):
+		return fmt.Sprintf("sharp lines (the largest %s, %.3g robust standard deviations of the row, %d points standing out; it is %s wide at half height, no wider than the axis resolves (%d spacings of %.3g cm⁻¹) and narrower than the %g cm⁻¹ of a condensed sample's narrowest bands): gas lines such as water vapour or CO₂", f.at(in, f.peakAt), f.peak, f.standing, f.wide(in, f.width), unresolvedPoints, f.step, condensedBandWidth)
 	}
 	dir := "the high end of the axis"
 	if in.Wavenumber {
@@ -252,6 +275,14 @@ func (f residualFeatures) words(in OutlierInput) string {
 		return s + ": a smooth curve, such as scatter or a baseline jump"
 	}
 	return s + ": a broad feature the model lacks, such as a bubble, a baseline jump or a band out of place"
+}
+
+// unresolved says the largest feature is a line the axis does not resolve:
+// at most unresolvedPoints wide at half height and narrower in cm⁻¹ than a
+// condensed sample's bands (unresolvedPoints). Only on a wavenumber axis,
+// where the widths of bands and gas lines are known.
+func (f residualFeatures) unresolved(in OutlierInput) bool {
+	return in.Wavenumber && f.axis != nil && f.width <= unresolvedPoints && float64(f.width)*f.step < condensedBandWidth
 }
 
 // co2 says the largest feature lies where CO₂ in the beam path absorbs: its

@@ -96,3 +96,79 @@ func TestBubbleReasonNamesLossAndScatter(t *testing.T) {
 		}
 	}
 }
+
+// Gas lines narrower than the axis resolves are lines whatever their count
+// of points: water-vapour lines about 0.2 cm⁻¹ wide (pressure broadening;
+// from memory) show the instrument's line shape, here a Gaussian 1.45 cm⁻¹
+// wide at half height on a 0.482 cm⁻¹ axis (the spacing of the real
+// urethane series), three spacings: wider than the two a sampled axis can
+// show at least (Nyquist), so the second differences carry under 5 % of a
+// line's energy (3/(24 s⁴) = 4.7 % for a Gaussian of s = 1.27 points; its
+// spectrum's fourth moment), and narrower than a condensed sample's bands,
+// 5–30 cm⁻¹ (common practice). The lines sit in one spectrum of a series
+// fitted by its truth (first order, e^(−t/10)), white noise 1e-3 added by
+// a fixed pattern.
+func TestUnresolvedLinesAreLinesOnAFineAxis(t *testing.T) {
+	const n, m, step = 30, 800, 0.482
+	axis := make([]float64, m)
+	c, s := mat.NewDense(n, 2, nil), mat.NewDense(m, 2, nil)
+	g := func(x, at, fwhm float64) float64 { return math.Exp(-4 * math.Ln2 * math.Pow((x-at)/fwhm, 2)) }
+	for j := range axis {
+		axis[j] = 1700 - step*float64(j)
+		s.Set(j, 0, 0.4*g(axis[j], 1600, 15)+0.2*g(axis[j], 1450, 20))
+		s.Set(j, 1, 0.5*g(axis[j], 1520, 18)+0.3*g(axis[j], 1380, 25))
+	}
+	for i := 0; i < n; i++ {
+		a := math.Exp(-float64(i) / 10)
+		c.SetRow(i, []float64{a, 1 - a})
+	}
+	d := mat.NewDense(n, m, nil)
+	d.Mul(c, s.T())
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			v := d.At(i, j) + 1e-3*math.Sin(float64(7*i+13*j))*math.Sqrt2
+			if i == 12 {
+				for l := 0; l < 25; l++ {
+					v += (0.01 + 0.002*float64(l%7)) * g(axis[j], 1695-15.3*float64(l), 1.45)
+				}
+			}
+			d.Set(i, j, v)
+		}
+	}
+	out := FindOutliersIn(d, c, s, nil, nil, OutlierInput{Axis: axis, Wavenumber: true, Sigma: 1e-3})
+	if len(out) != 1 || out[0].Row != 12 {
+		t.Fatalf("outliers %+v; want row 12 only", out)
+	}
+	if r := out[0].Reason; !strings.Contains(r, "sharp lines") || strings.Contains(r, "broad") {
+		t.Errorf("lines three spacings of %g cm⁻¹ wide: %q; want sharp lines, not broad", step, r)
+	}
+}
+
+// The width rule reads a width in points against the spacing: three points
+// are a line the axis does not resolve at 0.482 cm⁻¹ (1.45 cm⁻¹), a band's
+// width at 2 cm⁻¹ (6 cm⁻¹ wide, above the 4 cm⁻¹ under which no condensed
+// band at room temperature lies, common practice), and four points exceed
+// what an axis that samples its resolution twice shows of a line (common
+// practice); without a wavenumber axis the widths of bands and lines are not
+// known, and the rule says nothing.
+func TestLineWidthRuleAgainstTheSpacing(t *testing.T) {
+	axis := []float64{0, 1}
+	cases := []struct {
+		width      int
+		step       float64
+		wavenumber bool
+		want       bool
+	}{
+		{3, 0.482, true, true},
+		{2, 0.964, true, true},
+		{3, 2, true, false},
+		{4, 0.482, true, false},
+		{3, 0.482, false, false},
+	}
+	for _, tc := range cases {
+		f := residualFeatures{width: tc.width, step: tc.step, axis: axis}
+		if got := f.unresolved(OutlierInput{Wavenumber: tc.wavenumber}); got != tc.want {
+			t.Errorf("%d points at %g (wavenumber %v): unresolved %v; want %v", tc.width, tc.step, tc.wavenumber, got, tc.want)
+		}
+	}
+}
