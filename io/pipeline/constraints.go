@@ -619,7 +619,10 @@ func judgeChecks(r *Result) {
 					100*along/rise(c), namedWords(names), (rise(c)-along)/checkSigma2(r), allow/checkSigma2(r))
 			}
 		}
-		if c.Name == "closure" {
+		switch {
+		case r.misfitSpectrum != nil:
+			msg += "; " + r.misfitSpectrum.constraintWords(r)
+		case c.Name == "closure":
 			msg += "; the total of the concentrations is not constant (sampling, dilution, evaporation, a species left out?): try --closure off, or one total per experiment"
 		}
 		r.Warnings = append(r.Warnings, msg)

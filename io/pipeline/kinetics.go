@@ -1129,7 +1129,11 @@ func fitKinetics(r *Result, log io.Writer) error {
 		// resolution's by k(n − k) − p, a few per cent of it at most.
 		if ratio := dataFitToNoise(r, dfit); ratio >= math.Sqrt2 && ratio > r.misfit.Limit {
 			times, _ := kn.fitRows(r) // the batch's: no second pass
-			dfit.Warnings = append(dfit.Warnings, dataMisfitWarning(ratio, output.FitVerdict(ratio, r.misfit.Limit), times, dfit.RowSSR, dfit.T0, shownTimeUnit(s)))
+			w := dataMisfitWarning(ratio, output.FitVerdict(ratio, r.misfit.Limit), times, dfit.RowSSR, dfit.T0, shownTimeUnit(s))
+			if one, ok := findOneSpectrum(allRows(r, dfit.RowSSR), func(i int) bool { return !setAside(r.SetAside, i) }, ratio); ok && !strings.Contains(w, "--t0") {
+				w = dataMisfitWords(ratio, output.FitVerdict(ratio, r.misfit.Limit), one.words(r))
+			}
+			dfit.Warnings = append(dfit.Warnings, w)
 		}
 	}
 	kn.Primary = 0
@@ -1889,6 +1893,11 @@ func dataMisfitWarning(ratio float64, verdict string, times, rowSSR []float64, t
 	if share, rows, after, ok := t0Misfit(times, rowSSR, t0); ok {
 		causes = fmt.Sprintf("a missing step or species, wrong starting concentrations, drift, or a start time t0 = %s %s that is not when the reaction began? %.0f %% of the misfit lies in the spectra up to t0 and the first %d after it, %.0f %% of the spectra: give the time the reactants were mixed with --t0", tu.T(t0), tu.Unit, 100*share, after, 100*rows)
 	}
+	return dataMisfitWords(ratio, verdict, causes)
+}
+
+// dataMisfitWords is the data fit's misfit warning with its causes.
+func dataMisfitWords(ratio float64, verdict, causes string) string {
 	return fmt.Sprintf("the model leaves a residual %.3g times the noise: %s (%s); the standard errors include that misfit but the rate constants may be biased", ratio, verdict, causes)
 }
 

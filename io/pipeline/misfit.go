@@ -8,6 +8,7 @@ import (
 	"github.com/bandsolve/bandsolve/internal/pvalue"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/spectra"
+	"github.com/bandsolve/bandsolve/mcr"
 	"github.com/bandsolve/bandsolve/svd"
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat/distuv"
@@ -236,12 +237,13 @@ func fillSecondDiff(dst []float64, d *mat.Dense, i int, w *spectra.Weights, blin
 }
 
 // misfitWarning says when the fit's residual is above what the noise alone
-// leaves, with the figure it tested and the limit it was tested against: a
+// leaves, with the figure it tested and the limit it was tested against (and
+// the one spectrum that carries most of it, findOneSpectrum): a
 // warning when the misfit is at least the noise's own size (q ≥ √2), a note
 // when smaller (a blank's noise clipped by non-negative spectra, a noise
 // level a few per cent low: real, but no reason to distrust the figures).
-func misfitWarning(r *Result, s *mat.Dense) (warn, note []string) {
-	c, ok := checkMisfit(r, s)
+func misfitWarning(r *Result, res *mcr.Result) (warn, note []string) {
+	c, ok := checkMisfit(r, res.S)
 	if !ok {
 		return nil, nil
 	}
@@ -253,6 +255,10 @@ func misfitWarning(r *Result, s *mat.Dense) (warn, note []string) {
 		c.Ratio, c.Dof, c.Limit, c.Alpha, misfitLimitWords(c), pvalue.Text(c.P), output.FitVerdict(c.Ratio, c.Limit))
 	if c.Ratio < math.Sqrt2 {
 		return nil, []string{w}
+	}
+	if one, ok := findOneSpectrum(resolutionRowSS(r, res), nil, c.Ratio); ok {
+		r.misfitSpectrum = &one
+		return []string{w + "; " + one.words(r)}, nil
 	}
 	return []string{w + "; a component may be missing, a constraint (closure?) may not hold, or the noise level is set too low"}, nil
 }

@@ -154,6 +154,10 @@ type Result struct {
 	// (checkMisfit), Limit 0 when not tested.
 	fitDof float64
 	misfit misfitCheck
+	// misfitSpectrum is the spectrum that carries most of the resolution's
+	// misfit beyond the noise (findOneSpectrum), when one does: the
+	// warnings that blame a constraint or the model name it first.
+	misfitSpectrum *oneSpectrum
 	// checkScale turns a lack of fit over the data less the fitted
 	// baseline (the constraint checks' refits work on it) into one over
 	// the data as given, as the iterations' curve and the headline are:
@@ -1385,7 +1389,7 @@ func nameAndWarn(r *Result, res *mcr.Result) {
 	for j := 0; j < r.Components; j++ {
 		r.Names = append(r.Names, fmt.Sprintf("%s_%d", prefix, j+1))
 	}
-	warn, note := misfitWarning(r, res.S)
+	warn, note := misfitWarning(r, res)
 	r.Warnings = append(r.Warnings, warn...)
 	r.Notes = append(r.Notes, note...)
 	r.Warnings = append(r.Warnings, preWarnings(r)...)
