@@ -3,6 +3,7 @@ package pipeline
 import (
 	"io"
 	"slices"
+	"strings"
 	"testing"
 )
 
@@ -64,5 +65,23 @@ func TestDriftingSeriesKeepsEverySpectrum(t *testing.T) {
 		for _, sa := range r.SetAside {
 			t.Errorf("--baseline %s: spectrum %d (t = %g s) set aside: %s; the data have no outlier", baseline, sa.Row, r.Times[sa.Row], sa.Reason)
 		}
+	}
+}
+
+// baseline_reason counts the spectra set aside as the list does: an order
+// chosen again once 4 spectra were set aside, 1 of them brought back since,
+// says that 3 are set aside now (the list's length; a count of a list is
+// its length, by definition), and a reason without that beginning is left
+// as it is.
+func TestBaselineReasonCountsTheSpectraBroughtBack(t *testing.T) {
+	r := &Result{BaselineReason: rechosenWords(4) + " (first poly:3, with them)"}
+	broughtBackAfterChoice(r, 4, 1)
+	if want := "4 spectrum(s) were set aside, 1 of them since brought back as near the fit without them (3 set aside now)"; !strings.Contains(r.BaselineReason, want) {
+		t.Errorf("reason %q; want it to contain %q", r.BaselineReason, want)
+	}
+	other := &Result{BaselineReason: "as asked (--baseline poly:2)"}
+	broughtBackAfterChoice(other, 4, 1)
+	if other.BaselineReason != "as asked (--baseline poly:2)" {
+		t.Errorf("reason changed to %q", other.BaselineReason)
 	}
 }
