@@ -2,6 +2,7 @@ package mcr
 
 import (
 	"math"
+	"slices"
 
 	"github.com/bandsolve/bandsolve/internal/fanout"
 	"github.com/bandsolve/bandsolve/internal/product"
@@ -303,7 +304,24 @@ func RefineMissing(d *mat.Dense, row, col []float64, missing [][]int, res *Resul
 		if err != nil {
 			return res, p, err
 		}
-		res = next
+		res = continued(res, next)
 	}
 	return res, min(p, passes), nil
+}
+
+// continued is next, a resolution warm-started from prev, with the count
+// and the lack-of-fit curve of both: the iterations a run reports are all
+// it made, not the last refill's few (a run whose first resolution took 42
+// read "2 iterations"). The curve steps where the refilled points changed
+// the data it is measured on.
+func continued(prev, next *Result) *Result {
+	shift := prev.Iterations
+	next.History = append(slices.Clone(prev.History), next.History...)
+	at := slices.Clone(prev.HistoryAt)
+	for _, i := range next.HistoryAt {
+		at = append(at, i+shift)
+	}
+	next.HistoryAt = at
+	next.Iterations += shift
+	return next
 }
