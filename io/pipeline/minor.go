@@ -200,6 +200,7 @@ func promoteMinor(r *Result, st *minorState) bool {
 		}
 		r.Chemical.Estimate++
 		r.Rank.Estimate++
+		recountAdvice(r)
 		r.Components++
 		st.restore(r.D)
 		r.SetAside = r.SetAside[:st.setAside]

@@ -774,7 +774,39 @@ func diffAdvice(r *Result, rank *svd.RankReport) {
 	case r.DiffRank.Estimate == 0:
 		r.Advice = append(r.Advice, "the difference spectra show no change beyond noise: nothing reacted")
 	case r.DiffRank.Estimate < rank.Estimate:
-		r.Advice = append(r.Advice, fmt.Sprintf(rankAdvicePrefix+"%d chemical component(s) and the differences %d: at least %d species take part in %d independent reaction(s) (species whose amounts stay in a fixed ratio, or several closed subsystems, add no rank and can hide)", rank.Estimate, r.DiffRank.Estimate, rank.Estimate, r.DiffRank.Estimate))
+		r.Advice = append(r.Advice, countsAdvice(r.DiffRank.Estimate, rank.Estimate))
+	}
+}
+
+// countsAdvice compares the absolute absorbance's count k with the
+// differences' kd (kd < k).
+func countsAdvice(kd, k int) string {
+	return fmt.Sprintf(rankAdvicePrefix+"%d chemical component(s) and the differences %d: at least %d species take part in %d independent reaction(s) (species whose amounts stay in a fixed ratio, or several closed subsystems, add no rank and can hide)", k, kd, k, kd)
+}
+
+// recountAdvice brings the advice comparing the two counts up to date once
+// the count of species changed after it was written (a minor factor
+// counted as a species): it said "2 chemical components" beside a rank of 3.
+func recountAdvice(r *Result) {
+	if r.DiffRank == nil || r.DiffRank.Estimate == 0 {
+		return
+	}
+	line := ""
+	if r.DiffRank.Estimate < r.Rank.Estimate {
+		line = countsAdvice(r.DiffRank.Estimate, r.Rank.Estimate)
+	}
+	for i, a := range r.Advice {
+		if strings.HasPrefix(a, rankAdvicePrefix) {
+			if line == "" {
+				r.Advice = slices.Delete(r.Advice, i, i+1)
+			} else {
+				r.Advice[i] = line
+			}
+			return
+		}
+	}
+	if line != "" {
+		r.Advice = slices.Insert(r.Advice, 0, line)
 	}
 }
 
