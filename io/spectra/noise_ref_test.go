@@ -59,6 +59,10 @@ func refChannelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, s
 		}
 	}
 	sig := refPooledRunningMAD(diffs)
+	if pre >= 2 && pre-1 < 30 && n-2 >= 30 {
+		src += fmt.Sprintf(" for its level; its shape along the axis from second differences in time of all %d spectra", n)
+		sig = refPreLevelSeriesShape(v, pre, blind, sig)
+	}
 	// A channel with no change at all (synthetic data, a clipped region)
 	// gets a thousandth of the typical σ, not zero: its weight is large but
 	// finite.
@@ -67,6 +71,62 @@ func refChannelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, s
 		sig[j] = math.Max(sig[j], floor)
 	}
 	return sig, q, src
+}
+
+// refPreLevelSeriesShape is the direct form of preLevelSeriesShape: the
+// shape is each channel's scale of its second differences in time over all
+// spectra, the median of it and its two neighbours; the level the median
+// of every pre-reaction step over its channel's shape.
+func refPreLevelSeriesShape(v *mat.Dense, pre int, blind *Blind, fallback []float64) []float64 {
+	n, m := v.Dims()
+	second := make([][]float64, m)
+	const r6 = 2.449489742783178
+	for i := 1; i+1 < n; i++ {
+		a, b, c := v.RawRowView(i-1), v.RawRowView(i), v.RawRowView(i+1)
+		for j := 0; j < m; j++ {
+			if !blind.Has(i-1, j) && !blind.Has(i, j) && !blind.Has(i+1, j) {
+				second[j] = append(second[j], math.Abs(c[j]-2*b[j]+a[j])/r6)
+			}
+		}
+	}
+	wide := refPooledRunningMAD(second)
+	own := make([]float64, m)
+	for j, d := range second {
+		if len(d) > 0 {
+			own[j] = madScale * median(d)
+		}
+	}
+	shape := make([]float64, m)
+	for j := range shape {
+		var w []float64
+		for l := max(0, j-1); l <= min(m-1, j+1); l++ {
+			if len(second[l]) > 0 {
+				w = append(w, own[l])
+			}
+		}
+		shape[j] = wide[j]
+		if len(second[j]) > 0 && len(w) > 0 {
+			shape[j] = median(w)
+		}
+	}
+	steps := driftFreeSteps(v, pre, blind, false)
+	var z []float64
+	for j := 0; j < m; j++ {
+		for i := 1; i < pre; i++ {
+			if shape[j] > 0 && !blind.Has(i-1, j) && !blind.Has(i, j) {
+				z = append(z, math.Abs(steps.At(i-1, j))/shape[j])
+			}
+		}
+	}
+	if len(z) == 0 {
+		return fallback
+	}
+	level := madScale * medianOver(z, math.Sqrt2)
+	out := make([]float64, m)
+	for j, x := range shape {
+		out[j] = level * x
+	}
+	return out
 }
 
 // refPooledRunningMAD gives each channel madScale × the median of the absolute

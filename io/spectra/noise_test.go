@@ -477,3 +477,48 @@ func TestClippedBlankIsBlindInEverySpectrum(t *testing.T) {
 		t.Fatal("no beam under the ceiling where the blank is at it: the case tests nothing")
 	}
 }
+
+// An absorbance export of a detector whose noise is constant in counts
+// has σ_A = σ_I/(I ln 10) (propagation of error): under a solvent band of
+// absorbance 1.5, constant in time, the noise is 10^1.5 ≈ 32 times the
+// rest. With three pre-reaction spectra the channels' noise used to be a
+// median over 201 channels of their two steps each, which averaged the
+// band's peak away (about 6 times too low at its centre); the shape along
+// the axis now comes from the whole series' differences in time and the
+// level from the pre-reaction steps, so the noise at the band's centre and
+// away from it are both within 25 % of σ_I/(I ln 10).
+func TestPreNoiseFollowsASolventBand(t *testing.T) {
+	rng := rand.New(rand.NewPCG(11, 2026))
+	n, m, pre := 90, 600, 3
+	s := &Series{AxisName: "wavenumber", Values: mat.NewDense(n, m, nil), Source: "sim"}
+	for j := 0; j < m; j++ {
+		s.Axis = append(s.Axis, 2000-2*float64(j))
+	}
+	sigI, i0 := 5.0, 2e4
+	solvent := func(j int) float64 { return 1.5 * math.Exp(-0.5*sq((float64(j)-150)/4)) }
+	for i := 0; i < n; i++ {
+		s.Times = append(s.Times, 30*float64(i))
+		x := 0.0
+		if i >= pre {
+			x = 1 - math.Exp(-0.003*30*float64(i-pre+1))
+		}
+		for j := 0; j < m; j++ {
+			a := solvent(j) + 0.3*(1-x)*math.Exp(-0.5*sq((float64(j)-350)/12)) + 0.4*x*math.Exp(-0.5*sq((float64(j)-420)/12))
+			beam := i0*math.Pow(10, -a) + sigI*rng.NormFloat64()
+			s.Values.Set(i, j, -math.Log10(beam/i0))
+		}
+	}
+	out, err := Assemble(s, AssembleOptions{Kind: Absorbance, Reference: Reference{Mean: 1}, Pre: pre})
+	if err != nil {
+		t.Fatal(err)
+	}
+	truth := func(j int) float64 { return sigI / (i0 * math.Pow(10, -solvent(j)) * math.Ln10) }
+	for _, j := range []int{150, 40, 550} {
+		if got := out.Noise.Channel[j]; math.Abs(got/truth(j)-1) > 0.25 {
+			t.Errorf("channel %d (solvent absorbance %.2f): noise %.3g, σ_I/(I ln 10) = %.3g", j, solvent(j), got, truth(j))
+		}
+	}
+	if !strings.Contains(out.Noise.Source, "its shape along the axis from second differences in time of all 90 spectra") {
+		t.Errorf("source %q does not say where the shape came from", out.Noise.Source)
+	}
+}
