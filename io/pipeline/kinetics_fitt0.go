@@ -9,6 +9,7 @@ package pipeline
 import (
 	"fmt"
 	"io"
+	"math"
 
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/mcr/kinetics"
@@ -35,7 +36,7 @@ func t0FitJSON(fr *kinetics.FitResult) *output.T0Fit {
 	if !fr.T0Fitted {
 		return nil
 	}
-	out := &output.T0Fit{T0: round(finite(fr.T0)), StdErr: round(finite(fr.T0StdErr)),
+	out := &output.T0Fit{T0: round(finite(snappedT0(fr))), StdErr: round(finite(fr.T0StdErr)),
 		Lower: round(fr.T0Lo), Upper: round(fr.T0Hi), NotDetermined: fr.T0NotDetermined}
 	switch {
 	case fr.T0AtEnd < 0:
@@ -46,6 +47,21 @@ func t0FitJSON(fr *kinetics.FitResult) *output.T0Fit {
 	return out
 }
 
+// snappedT0 is the fitted t0 with a value within a billionth of its range
+// from an end put on that end: the bounded parameter reaches an end only to
+// rounding (t0 = lo + w(1 + sin φ)/2), which printed "ended at 1.5622e-11 s"
+// for a range starting at 0.
+func snappedT0(fr *kinetics.FitResult) float64 {
+	tol := 1e-9 * (fr.T0Hi - fr.T0Lo)
+	switch {
+	case math.Abs(fr.T0-fr.T0Lo) <= tol:
+		return fr.T0Lo
+	case math.Abs(fr.T0Hi-fr.T0) <= tol:
+		return fr.T0Hi
+	}
+	return fr.T0
+}
+
 // printT0Fit adds a fit's fitted start time to its lines on the terminal.
 func printT0Fit(fr *kinetics.FitResult, tu shownTime, w io.Writer) {
 	if !fr.T0Fitted {
@@ -53,7 +69,7 @@ func printT0Fit(fr *kinetics.FitResult, tu shownTime, w io.Writer) {
 	}
 	rng := fmt.Sprintf("within %s–%s %s", tu.T(fr.T0Lo), tu.T(fr.T0Hi), tu.Unit)
 	if fr.T0NotDetermined {
-		fmt.Fprintf(w, "\n    %-13s %-10s not determined (the fit ended at %.6g %s, %s)", "", "t0", fr.T0/tu.Div, tu.Unit, rng)
+		fmt.Fprintf(w, "\n    %-13s %-10s not determined (the fit ended at %.6g %s, %s)", "", "t0", snappedT0(fr)/tu.Div, tu.Unit, rng)
 		return
 	}
 	end := ""
@@ -63,7 +79,7 @@ func printT0Fit(fr *kinetics.FitResult, tu shownTime, w io.Writer) {
 	case fr.T0AtEnd > 0:
 		end = ", at the end of its range"
 	}
-	fmt.Fprintf(w, "\n    %-13s %-10s = %.6g ± %.2g %s (fitted %s%s)", "", "t0", fr.T0/tu.Div, fr.T0StdErr/tu.Div, tu.Unit, rng, end)
+	fmt.Fprintf(w, "\n    %-13s %-10s = %.6g ± %.2g %s (fitted %s%s)", "", "t0", snappedT0(fr)/tu.Div, fr.T0StdErr/tu.Div, tu.Unit, rng, end)
 }
 
 // printDemoT0 sets a fitted t0 of the demo beside the truth.

@@ -2,6 +2,7 @@ package pipeline
 
 import (
 	"bytes"
+	"github.com/bandsolve/bandsolve/mcr/kinetics"
 	"strings"
 	"testing"
 )
@@ -69,6 +70,18 @@ func TestNoFitT0LeavesTheRecord(t *testing.T) {
 	for _, f := range sum.Fits {
 		if f.T0Fit != nil {
 			t.Errorf("%s fit: t0_fit %+v without --fit-t0", f.Method, f.T0Fit)
+		}
+	}
+}
+
+// A fitted t0 that reached an end of its range only to rounding is shown
+// on that end (the bound of the range, its definition), not as 1.56e-11 s;
+// one inside the range is shown as fitted.
+func TestFittedT0SnapsToItsRangesEnds(t *testing.T) {
+	for _, c := range []struct{ t0, want float64 }{{1.5622e-11, 0}, {21 - 4e-15, 21}, {7.25, 7.25}, {1e-6, 1e-6}} {
+		fr := &kinetics.FitResult{T0: c.t0, T0Lo: 0, T0Hi: 21, T0Fitted: true}
+		if got := snappedT0(fr); got != c.want {
+			t.Errorf("t0 %v in 0–21 s shown as %v, want %v", c.t0, got, c.want)
 		}
 	}
 }
