@@ -2,9 +2,10 @@ package pipeline
 
 import (
 	"bytes"
-	"github.com/bandsolve/bandsolve/mcr/kinetics"
 	"strings"
 	"testing"
+
+	"github.com/bandsolve/bandsolve/mcr/kinetics"
 )
 
 // TestFitT0OnTheDemo: the demo's data were made with the reaction starting
