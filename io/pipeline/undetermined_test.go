@@ -37,7 +37,11 @@ func TestRateNotDeterminedSaysSo(t *testing.T) {
 	if m := special.FindString(out.String() + errs.String()); m != "" {
 		t.Errorf("the terminal shows %q", m)
 	}
-	if !strings.Contains(out.String()+errs.String(), "not determined (its standard error is not finite)") {
+	// Which words depend on where the fit ended: a standard error not
+	// finite, or one so large the data do not see the constant (since the
+	// spectra's noise levels take the running median of five, 3.6e-160 with
+	// an infinite error became 5.8e-158 with one 1.5e152 times it).
+	if !regexp.MustCompile(`k not determined \((its standard error is not finite|the fit ended at)`).MatchString(out.String() + errs.String()) {
 		t.Errorf("the terminal does not say the constant is not determined:\n%s", out.String())
 	}
 	b, err := os.ReadFile(filepath.Join(dir, "out", "summary.json"))
