@@ -169,6 +169,13 @@ func ChooseBaselineOrderFrom(d, dq *mat.Dense, f *Factors, axis, col []float64, 
 // well: basis, when not nil, is PolyBasis(axis, maxOrder, col) as the caller
 // formed it (the same call, so the same matrix), and is not formed again.
 func ChooseBaselineOrderBasis(d, dq, basis *mat.Dense, f *Factors, axis, col []float64, k, maxOrder int, alpha float64) (*BaselineChoice, error) {
+	return chooseOrder(d, dq, basis, f, axis, col, 0, k, maxOrder, alpha)
+}
+
+// chooseOrder runs the order test on d, with partial points of it blind
+// in channels measured elsewhere (taken off the residual degrees of
+// freedom; see ChooseBaselineOrderObserved).
+func chooseOrder(d, dq, basis *mat.Dense, f *Factors, axis, col []float64, partial, k, maxOrder int, alpha float64) (*BaselineChoice, error) {
 	n, m := d.Dims()
 	if err := checkBaselineTest(n, m, len(axis), col, k, maxOrder, alpha); err != nil {
 		return nil, err
@@ -181,6 +188,7 @@ func ChooseBaselineOrderBasis(d, dq, basis *mat.Dense, f *Factors, axis, col []f
 	if err != nil {
 		return nil, err
 	}
+	fits.missing = partial
 	fits.noise = fits.residualNoise(d)
 	ch := fits.forwardSelect(maxOrder, alpha)
 	ch.Noise = fits.noise
@@ -215,24 +223,9 @@ func ChooseBaselineOrderObserved(d, dq, basis *mat.Dense, f *Factors, axis, col 
 	}
 	if len(lit) < m {
 		d, axis, col = litColumns(d, axis, col, lit)
-		dq, basis, f, m = nil, nil, nil, len(lit)
+		dq, basis, f = nil, nil, nil
 	}
-	if err := checkBaselineTest(n, m, len(axis), col, k, maxOrder, alpha); err != nil {
-		return nil, err
-	}
-	f, err := leadingFactors(d, f, min(k+maxOrder+2+4, n, m))
-	if err != nil {
-		return nil, err
-	}
-	fits, err := newBaselineFits(d, dq, basis, f, axis, col, k, maxOrder)
-	if err != nil {
-		return nil, err
-	}
-	fits.missing = partial
-	fits.noise = fits.residualNoise(d)
-	ch := fits.forwardSelect(maxOrder, alpha)
-	ch.Noise = fits.noise
-	return ch, nil
+	return chooseOrder(d, dq, basis, f, axis, col, partial, k, maxOrder, alpha)
 }
 
 // observedChannels returns the channels measured in at least one row, and the
