@@ -260,7 +260,14 @@ func (f residualFeatures) words(in OutlierInput) string {
 			dir = "low wavenumber"
 		}
 	}
-	s := fmt.Sprintf("broad, not line-like: its largest feature (%s) is %s wide at half height; %.0f %% of it is a smooth curve along the axis (polynomial of order %d), higher toward %s; of what that leaves, %.0f %% lies below the fit, largest %s and %s wide", f.at(in, f.peakAt), f.wide(in, f.width), 100*f.smooth, smoothOrder, dir, 100*f.negShare, f.at(in, f.restAt), f.wide(in, f.restW))
+	// Below the limit the largest point is not a feature of its own: its
+	// width says nothing of the residual ("broad, not line-like: its largest
+	// feature is 0.482 cm⁻¹ (1 point) wide" read as a contradiction).
+	head := fmt.Sprintf("broad, not line-like: its largest feature (%s) is %s wide at half height", f.at(in, f.peakAt), f.wide(in, f.width))
+	if f.peak <= limit {
+		head = fmt.Sprintf("broad, not line-like, spread over the axis with no point standing out (the largest, %s, is %.3g robust standard deviations of the row, under the %.3g a line or a spike reaches)", f.at(in, f.peakAt), f.peak, limit)
+	}
+	s := fmt.Sprintf("%s; %.0f %% of it is a smooth curve along the axis (polynomial of order %d), higher toward %s; of what that leaves, %.0f %% lies below the fit, largest %s and %s wide", head, 100*f.smooth, smoothOrder, dir, 100*f.negShare, f.at(in, f.restAt), f.wide(in, f.restW))
 	if co2 := f.co2(in); co2 != "" {
 		return s + co2
 	}

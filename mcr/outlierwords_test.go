@@ -172,3 +172,27 @@ func TestLineWidthRuleAgainstTheSpacing(t *testing.T) {
 		}
 	}
 }
+
+// A residual whose largest point stays under the limit a line or a spike
+// reaches (√(2 ln m) + 3 robust standard deviations: the usual largest of m
+// normal draws, Cramér 1946) has no feature of its own: it is described as
+// spread over the axis, not by that point's width (a real spectrum read
+// "broad, not line-like: its largest feature (at 1699.94 cm⁻¹) is 0.482 cm⁻¹
+// (1 point(s)) wide"). A feature above the limit keeps its width.
+func TestBroadResidualWithNoPointStandingOut(t *testing.T) {
+	axis := make([]float64, 100)
+	for j := range axis {
+		axis[j] = 1800 - 0.482*float64(j)
+	}
+	in := OutlierInput{Axis: axis, Wavenumber: true}
+	low := residualFeatures{peak: 4, peakAt: 20, width: 1, limit: 6, step: 0.482, axis: axis, smooth: 0.1, negShare: 0.5}
+	w := low.words(in)
+	if !strings.Contains(w, "no point standing out (the largest, at 1790.36 cm⁻¹, is 4 robust standard deviations of the row, under the 6") || strings.Contains(w, "wide at half height;") {
+		t.Errorf("under the limit: %q", w)
+	}
+	high := low
+	high.peak, high.width = 9, 40
+	if w := high.words(in); !strings.Contains(w, "broad, not line-like: its largest feature (at 1790.36 cm⁻¹) is 19.3 cm⁻¹ (40 point(s)) wide at half height") {
+		t.Errorf("above the limit: %q", w)
+	}
+}
