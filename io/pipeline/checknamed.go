@@ -42,7 +42,7 @@ func namedFactors(r *Result, data mcr.Data) (*mat.Dense, []string) {
 	if r.Chemical == nil || r.ALS == nil || data == nil {
 		return nil, nil
 	}
-	n, m := data.Dims()
+	n, _ := data.Dims()
 	var us [][]float64
 	var names []string
 	shift := false
@@ -69,23 +69,13 @@ func namedFactors(r *Result, data mcr.Data) (*mat.Dense, []string) {
 	for j, v := range us {
 		u.SetCol(j, v)
 	}
-	own := data.MulProfiles(u) // m × q
-	cols := []*mat.Dense{own}
+	p := data.MulProfiles(u) // m × q
 	if shift {
 		d1 := derivatives(r.ALS.S)
-		cols = append(cols, d1, derivatives(d1))
-	}
-	q := 0
-	for _, c := range cols {
-		_, k := c.Dims()
-		q += k
-	}
-	p := mat.NewDense(m, q, nil)
-	at := 0
-	for _, c := range cols {
-		_, k := c.Dims()
-		p.Slice(0, m, at, at+k).(*mat.Dense).Copy(c)
-		at += k
+		var with mat.Dense
+		with.Augment(p, d1)
+		p = &mat.Dense{}
+		p.Augment(&with, derivatives(d1))
 	}
 	return p, names
 }

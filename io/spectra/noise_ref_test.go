@@ -48,15 +48,7 @@ func refChannelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, s
 			}
 		}
 	} else {
-		const r6 = 2.449489742783178 // √6: the variance of x_{i+1} − 2x_i + x_{i−1} is 6σ²
-		for i := 1; i+1 < n; i++ {
-			a, b, c := v.RawRowView(i-1), v.RawRowView(i), v.RawRowView(i+1)
-			for j := 0; j < m; j++ {
-				if !blind.Has(i-1, j) && !blind.Has(i, j) && !blind.Has(i+1, j) {
-					diffs[j] = append(diffs[j], math.Abs(c[j]-2*b[j]+a[j])/r6)
-				}
-			}
-		}
+		refSecondDiffs(v, blind, diffs)
 	}
 	sig := refPooledRunningMAD(diffs)
 	if pre >= 2 && pre-1 < 30 && n-2 >= 30 {
@@ -73,22 +65,29 @@ func refChannelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, s
 	return sig, q, src
 }
 
+// refSecondDiffs appends to diffs[j] every |x_{i+1} − 2x_i + x_{i−1}|/√6 of
+// channel j that touches no blind point.
+func refSecondDiffs(v *mat.Dense, blind *Blind, diffs [][]float64) {
+	n, m := v.Dims()
+	const r6 = 2.449489742783178 // √6: the variance of x_{i+1} − 2x_i + x_{i−1} is 6σ²
+	for i := 1; i+1 < n; i++ {
+		a, b, c := v.RawRowView(i-1), v.RawRowView(i), v.RawRowView(i+1)
+		for j := 0; j < m; j++ {
+			if !blind.Has(i-1, j) && !blind.Has(i, j) && !blind.Has(i+1, j) {
+				diffs[j] = append(diffs[j], math.Abs(c[j]-2*b[j]+a[j])/r6)
+			}
+		}
+	}
+}
+
 // refPreLevelSeriesShape is the direct form of preLevelSeriesShape: the
 // shape is each channel's scale of its second differences in time over all
 // spectra, the median of it and its two neighbours; the level the median
 // of every pre-reaction step over its channel's shape.
 func refPreLevelSeriesShape(v *mat.Dense, pre int, blind *Blind, fallback []float64) []float64 {
-	n, m := v.Dims()
+	_, m := v.Dims()
 	second := make([][]float64, m)
-	const r6 = 2.449489742783178
-	for i := 1; i+1 < n; i++ {
-		a, b, c := v.RawRowView(i-1), v.RawRowView(i), v.RawRowView(i+1)
-		for j := 0; j < m; j++ {
-			if !blind.Has(i-1, j) && !blind.Has(i, j) && !blind.Has(i+1, j) {
-				second[j] = append(second[j], math.Abs(c[j]-2*b[j]+a[j])/r6)
-			}
-		}
-	}
+	refSecondDiffs(v, blind, second)
 	wide := refPooledRunningMAD(second)
 	own := make([]float64, m)
 	for j, d := range second {
