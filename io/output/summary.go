@@ -276,6 +276,29 @@ type KineticFitJSON struct {
 	Warnings              []string               `json:"warnings"`
 	DeterminedSum         *DeterminedSum         `json:"determined_sum,omitempty"`
 	T0Fit                 *T0Fit                 `json:"t0_fit,omitempty"`
+	// OneNoiseLevel, of a data fit whose spectra were weighted each by its
+	// own noise, is the same fit with one level for every spectrum.
+	OneNoiseLevel *OneNoiseLevelJSON `json:"one_noise_level,omitempty"`
+}
+
+// OneNoiseLevelJSON is a data fit made again with one noise level for
+// every spectrum, each constant tested against the reported one.
+type OneNoiseLevelJSON struct {
+	RateConstants []OneLevelRate `json:"rate_constants"`
+	Test          string         `json:"test"`
+}
+
+// OneLevelRate is one step's constant with one noise level, z and p of its
+// difference from the reported constant; NotTested when either is fixed or
+// not determined (z and p are then 0).
+type OneLevelRate struct {
+	Step      string  `json:"step"`
+	K         float64 `json:"k_per_s"`
+	StdErr    float64 `json:"stderr_per_s"`
+	Z         float64 `json:"z"`
+	PValue    float64 `json:"p_value"`
+	Hausman   bool    `json:"hausman"`
+	NotTested bool    `json:"not_tested,omitempty"`
 }
 
 // ConstraintJSON is one constraint check in summary.json.

@@ -116,6 +116,9 @@ type KineticFit struct {
 	Observed *mat.Dense
 	// Spectra of the data fit (m × model columns), nil otherwise.
 	Spectra *mat.Dense
+	// OneLevel, of a data fit whose spectra were weighted each by its own
+	// noise, is the fit with one level for all (kinetics_onelevel.go).
+	OneLevel []oneLevelRate
 }
 
 // Reported returns the fit behind rate_constants.
@@ -1122,8 +1125,15 @@ func fitKinetics(r *Result, log io.Writer) error {
 	if err != nil {
 		r.Warnings = append(r.Warnings, "kinetics: the fit of the data matrix failed: "+oneLineText(err.Error()))
 	} else {
-		kn.Fits = append(kn.Fits, &KineticFit{Method: "data", Fit: dfit, Spectra: spectra})
+		kf := &KineticFit{Method: "data", Fit: dfit, Spectra: spectra}
+		kn.Fits = append(kn.Fits, kf)
 		kn.swapCheck(r, dfit, spectra, dopt, &r.Notes)
+		// After the swap check, which writes the constants it adopts
+		// into dfit: the test is of the constants reported.
+		kf.OneLevel = kn.oneLevelFit(r, dfit)
+		if w := kn.oneLevelWarning(r, dfit, kf.OneLevel); w != "" {
+			dfit.Warnings = append(dfit.Warnings, w)
+		}
 		// The resolution's test and words: the same ratio, the same verdict.
 		// Its limit serves here too: the kinetic fit's ν differs from the
 		// resolution's by k(n − k) − p, a few per cent of it at most.
@@ -2028,6 +2038,7 @@ func (kn *Kinetics) fitJSON(f *KineticFit) KineticFitJSON {
 	}
 	out.DeterminedSum = kn.sumJSON(fr)
 	out.T0Fit = t0FitJSON(fr)
+	out.OneNoiseLevel = kn.oneLevelJSON(f.OneLevel)
 	return out
 }
 
