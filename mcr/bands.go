@@ -411,6 +411,16 @@ func noiseAllowance(rss float64, n, m, k int, alpha float64) float64 {
 	return rss * par / (nObs - par) * q
 }
 
+// SameModelAllowance is the rise of the residual sum of squares rss that
+// two fits of one rank-k bilinear model to n × m data may differ by and
+// still not be told apart at level alpha: RSS·p/(N−p)·F_{1−α}(p, N−p), the
+// F confidence region of the least-squares fit (Beale 1960; the allowance
+// the uniqueness ranges use, see FeasibleBands). 0 with no degrees of
+// freedom left.
+func SameModelAllowance(rss float64, n, m, k int, alpha float64) float64 {
+	return noiseAllowance(rss, n, m, k, alpha)
+}
+
 func identity(k int) *mat.Dense {
 	t := mat.NewDense(k, k, nil)
 	for i := 0; i < k; i++ {

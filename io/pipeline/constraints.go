@@ -45,6 +45,9 @@ type ConstraintReport struct {
 	// checkData is the data the checks refitted (weighted as the run
 	// is), on which judgeChecks refits with the named factors allowed.
 	checkData mcr.Data
+	// adoptions is how many times a restart the checks found replaced
+	// the resolution (finishResolution, adoptable).
+	adoptions int
 }
 
 // Side names for --nonneg.
@@ -457,9 +460,10 @@ func sortByTime(r *Result, c0 *mat.Dense) {
 	}
 }
 
-// afterResolve runs what comes after the resolution: the constraint
-// checks, the uniqueness ranges and the bootstrap.
-func afterResolve(r *Result, data mcr.Data, opt mcr.Options, log io.Writer) error {
+// checkResolution runs the constraint checks and the uniqueness ranges on
+// the resolution r.ALS and records their findings (finishResolution may
+// then adopt a better fit the checks found and call it again).
+func checkResolution(r *Result, data mcr.Data, opt mcr.Options, log io.Writer) {
 	rep := r.Constraints
 	if rep == nil {
 		rep = &ConstraintReport{}
@@ -486,24 +490,30 @@ func afterResolve(r *Result, data mcr.Data, opt mcr.Options, log io.Writer) erro
 	}
 	checked()
 	r.Warnings = append(r.Warnings, bandWarnings...)
-	if s.Replicates > 0 {
-		if s.Replicates < 2 {
-			return usage("--replicates %d: need at least 2 for an interval", s.Replicates)
-		}
-		fmt.Fprintf(log, "resolving %d bootstrap replicates\n", s.Replicates)
-		keep := opt.Closure
-		for _, ks := range opt.KnownSpectra {
-			keep = keep || ks != nil
-		}
-		iv, err := mcr.Bootstrap(r.D, r.ALS, opt, mcr.BootstrapOptions{Replicates: s.Replicates, Seed: s.Seed, Blocks: opt.Blocks, KeepScale: keep})
-		if err != nil {
-			r.Warnings = append(r.Warnings, fmt.Sprintf("no confidence intervals: %v", err))
-		} else {
-			rep.Intervals = iv
-			if iv.Failed > 0 {
-				r.Warnings = append(r.Warnings, fmt.Sprintf("%d of %d bootstrap replicates failed to resolve and were left out", iv.Failed, s.Replicates))
-			}
-		}
+}
+
+// bootstrap resolves the bootstrap replicates of the final resolution.
+func bootstrap(r *Result, opt mcr.Options, log io.Writer) error {
+	s, rep := r.Settings, r.Constraints
+	if s.Replicates <= 0 {
+		return nil
+	}
+	if s.Replicates < 2 {
+		return usage("--replicates %d: need at least 2 for an interval", s.Replicates)
+	}
+	fmt.Fprintf(log, "resolving %d bootstrap replicates\n", s.Replicates)
+	keep := opt.Closure
+	for _, ks := range opt.KnownSpectra {
+		keep = keep || ks != nil
+	}
+	iv, err := mcr.Bootstrap(r.D, r.ALS, opt, mcr.BootstrapOptions{Replicates: s.Replicates, Seed: s.Seed, Blocks: opt.Blocks, KeepScale: keep})
+	if err != nil {
+		r.Warnings = append(r.Warnings, fmt.Sprintf("no confidence intervals: %v", err))
+		return nil
+	}
+	rep.Intervals = iv
+	if iv.Failed > 0 {
+		r.Warnings = append(r.Warnings, fmt.Sprintf("%d of %d bootstrap replicates failed to resolve and were left out", iv.Failed, s.Replicates))
 	}
 	return nil
 }
@@ -598,9 +608,11 @@ func judgeChecks(r *Result) {
 					cost = &r.Constraints.Checks[i]
 				}
 			case r.SoftALS != nil:
-				r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (%s %.3g %%, the soft resolution --hard-model started from %.3g %%): found from the fit without %s; that resolution stopped in a local minimum, try another --init or --seed", checkMetric(r), asGiven(r, c.With), asGiven(r, r.SoftALS.LackOfFitPercent), c.Name))
+				r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (%s %.3g %%, the soft resolution --hard-model started from %.3g %%): found from the fit without %s; that resolution stopped in a local minimum, try another --init or --seed (not adopted: the checks' refits leave out the kinetic model)", checkMetric(r), asGiven(r, c.With), asGiven(r, r.SoftALS.LackOfFitPercent), c.Name))
+			case adoptable(r, c):
+				// finishResolution adopts it and says so in a note.
 			default:
-				r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (%s %.3g %%, the resolution's %.3g %%): found from the fit without %s; the resolution stopped in a local minimum, try another --init or --seed", checkMetric(r), asGiven(r, c.With), asGiven(r, resolved), c.Name))
+				r.Warnings = append(r.Warnings, fmt.Sprintf("under every constraint a better fit exists (%s %.3g %%, the resolution's %.3g %%): found from the fit without %s; the resolution stopped in a local minimum, try another --init or --seed (%s)", checkMetric(r), asGiven(r, c.With), asGiven(r, resolved), c.Name, notAdoptedWords(r, c)))
 			}
 		}
 		if !riseBeyondPinned(r, c) || rise(c) <= checkAllowance(r, c)+blankPattern() {
@@ -630,6 +642,21 @@ func judgeChecks(r *Result) {
 	if cost != nil {
 		r.Notes = append(r.Notes, fmt.Sprintf("the kinetic model inside the resolution (--hard-model) costs fit: under every other constraint the data allow a %s of %.3g %% (found from the fit without %s), the hard–soft resolution has %.3g %%; the constraint checks refit without the kinetic model", checkMetric(r), asGiven(r, cost.With), cost.Name, asGiven(r, resolved)))
 	}
+}
+
+// notAdoptedWords says why a better fit under every constraint was not
+// adopted as the resolution (adoptable).
+func notAdoptedWords(r *Result, c mcr.ConstraintCheck) string {
+	drop, allow := restartDrop(r, c)
+	switch {
+	case !(allow > 0):
+		return "not adopted: no degrees of freedom are left to judge it by"
+	case drop <= allow:
+		return fmt.Sprintf("not adopted: its residual sum of squares is lower by %.2g of what two fits of the same model differ by from noise alone, the F confidence region at --alpha %g", drop/allow, checkAlpha(r))
+	case r.Constraints.adoptions >= maxAdoptions:
+		return fmt.Sprintf("not adopted: the resolution was replaced %d times already, the most", maxAdoptions)
+	}
+	return "not adopted: the restart was not kept"
 }
 
 // rise is what dropping the check's constraint took off the residual sum of squares.
@@ -692,8 +719,9 @@ func resolvedCheckLOF(r *Result) float64 {
 // only when lower), so a check whose rise is already within what the
 // pinned values allow, or whose lack of fit with the constraint is within
 // 5 % of the one without, cannot turn into a disagreement warning by it.
-// What remains is the local-minimum warning, a restart at least 1 % below
-// the resolution's lack of fit: it is run for whenever the freer fit
+// What remains is a restart at least 1 % below the resolution's lack of
+// fit, which replaces the resolution when beyond noise (adoptable) and is
+// the local-minimum warning otherwise: it is run for whenever the freer fit
 // itself is that far below, since the restart starts from the freer fit
 // and, with the constraint back, ends above it unless that fit was itself
 // stuck (an assumption: a constrained fit reached from the freer one more
@@ -716,7 +744,7 @@ const maxBandsComponents = 6
 const bandsCostLimit = 4e6
 
 // computeBands searches the uniqueness ranges and returns their warnings,
-// for afterResolve to give after the checks'.
+// for checkResolution to give after the checks'.
 func computeBands(r *Result, opt mcr.Options, log io.Writer) []string {
 	rep := r.Constraints
 	n, m := r.D.Dims()

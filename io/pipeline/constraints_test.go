@@ -334,7 +334,7 @@ func TestBandsAndIntervalsFiles(t *testing.T) {
 	}
 }
 
-// The constraint checks run beside the uniqueness ranges (afterResolve);
+// The constraint checks run beside the uniqueness ranges (checkResolution);
 // their warnings must still come before the ranges', as when the two ran
 // one after the other, whatever GOMAXPROCS. The data make both warn: a
 // first-order A → B diluted by 25 % during the run breaks closure, and

@@ -1226,7 +1226,7 @@ func stack(parts []*mat.Dense) *mat.Dense {
 // the constraints, the soft resolution with its nuisances (resolved again
 // with one more component when a minor factor proves a species), the
 // settled solution, hard–soft ALS with --hard-model, then the fit's
-// figures, names and warnings and what is done after (afterResolve). The
+// figures, names and warnings and what is done after (finishResolution). The
 // first data fit runs beside the soft resolution and is waited for here,
 // on every path.
 func resolve(r *Result, log io.Writer) error {
@@ -1259,6 +1259,7 @@ func resolve(r *Result, log io.Writer) error {
 		early, r.earlyFit = nil, nil
 		return resolve(r, log)
 	}
+	mark := markOf(r)
 	res, data, err = settleResolution(r, data, res, shapes, opt, log)
 	if err != nil {
 		return err
@@ -1276,12 +1277,7 @@ func resolve(r *Result, log io.Writer) error {
 		r.SoftALS, res = res, hard
 		r.ALS = res
 	}
-	// Lack of fit on the full data (at the observed points), streamed:
-	// the residual matrix itself would be one more data-sized matrix
-	// (480 MB at 20 000 × 3000).
-	fitFigures(r, res)
-	nameAndWarn(r, res)
-	return afterResolve(r, data, opt, log)
+	return finishResolution(r, data, opt, mark, log)
 }
 
 // startResolution forms what ALS starts from: the initial profiles (r.Init
@@ -1356,18 +1352,26 @@ func zeroExtentRows(r *Result) []bool {
 // scales each extent to end at one.
 func settleResolution(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dense, opt mcr.Options, log io.Writer) (*mcr.Result, mcr.Data, error) {
 	res, data = withoutBaseline(r, data, res, shapes)
+	res, err := settleFit(r, data, res, opt, log)
+	return res, data, err
+}
+
+// settleFit is settleResolution after the baseline is out: the blind
+// points, the minor species, the finite check and the extents' scale. A fit
+// adopted from the constraint checks (adoptRestart) goes through it too.
+func settleFit(r *Result, data mcr.Data, res *mcr.Result, opt mcr.Options, log io.Writer) (*mcr.Result, error) {
 	res, err := refineBlind(r, data, res, opt, log)
 	if err != nil {
-		return nil, nil, explainResolveError(r, err)
+		return nil, explainResolveError(r, err)
 	}
 	res = lowerMinor(r, data, res, opt)
 	if err := checkFinite(res); err != nil {
-		return nil, nil, err
+		return nil, err
 	}
 	if r.Mode == mcr.Reactions {
 		mcr.ScaleExtentsToOne(res.C, res.S)
 	}
-	return res, data, nil
+	return res, nil
 }
 
 // componentOrder is the order the components are reported in: as resolved

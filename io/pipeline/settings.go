@@ -422,7 +422,7 @@ var options = func() []Option {
 		return sc7(s, v)
 	}, gc7))
 	sc8, gc8 := choice(func(s *Settings) *string { return &s.Checks }, "on", "off")
-	add(opt("checks", "on|off", "refit without each constraint to show what it costs in lack of fit", false, true, sc8, gc8))
+	add(opt("checks", "on|off", "refit without each constraint to show what it costs in lack of fit; a better fit they find under every constraint, beyond noise, replaces the resolution", false, true, sc8, gc8))
 	s19, g19 := integer(func(s *Settings) *int { return &s.Replicates }, 0)
 	add(opt("replicates", "N", "resampled replicates for confidence intervals (0 = none)", false, true, s19, g19))
 	add(opt("seed", "S", "seed of every random choice (replicates, randomized SVD)", false, true, func(s *Settings, v string) error {
