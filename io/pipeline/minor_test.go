@@ -657,3 +657,32 @@ func TestReagentStepIsASecondChange(t *testing.T) {
 		t.Errorf("summary: difference_rank_reason %q, want the count's reason", sum.DifferenceRankReason)
 	}
 }
+
+// A species the refit counts in absolute absorbance raises the differences'
+// count of independent reactions to at least k − 1: rank(D) ≤
+// rank(D − 1d₀ᵀ) + 1, the subadditivity of rank (Horn & Johnson, Matrix
+// Analysis, 2nd ed., 0.4.5, from memory). Reactions mode has no second
+// count, and a count already consistent stays.
+func TestPromotedSpeciesRaisesTheDifferencesCount(t *testing.T) {
+	cases := []struct {
+		mode       mcr.Mode
+		rank, diff int
+		want       int
+	}{
+		{mcr.Species, 3, 1, 2},
+		{mcr.Species, 3, 2, 2},
+		{mcr.Species, 4, 1, 3},
+		{mcr.Reactions, 3, 1, 1},
+		{mcr.Species, 3, 0, 0}, // nothing reacted: said by its own advice
+	}
+	for _, c := range cases {
+		r := &Result{Mode: c.mode, Rank: &svd.RankReport{Estimate: c.rank}, DiffRank: &svd.RankReport{Estimate: c.diff}}
+		raiseDiffRank(r, 3)
+		if r.DiffRank.Estimate != c.want {
+			t.Errorf("%v, rank %d, differences %d: differences now %d; want %d", c.mode, c.rank, c.diff, r.DiffRank.Estimate, c.want)
+		}
+		if said := len(r.Notes) > 0; said != (c.want != c.diff) {
+			t.Errorf("%v, rank %d, differences %d: notes %q", c.mode, c.rank, c.diff, r.Notes)
+		}
+	}
+}
