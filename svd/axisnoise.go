@@ -118,6 +118,7 @@ func axisWindow(m, p int) int {
 func lagSums(e *mat.Dense, h int) ([]float64, int) {
 	n, m := e.Dims()
 	c := make([]float64, h+1)
+	s := make([]float64, h+1)
 	values := 0
 	for i := 0; i < n; i++ {
 		row := e.RawRowView(i)
@@ -125,15 +126,46 @@ func lagSums(e *mat.Dense, h int) ([]float64, int) {
 			continue
 		}
 		values += m
-		for l := 0; l <= h; l++ {
-			var s float64
-			for j, v := range row[:m-l] {
-				s += v * row[j+l]
-			}
-			c[l] += s
+		lagProducts(s, row)
+		for l, v := range s {
+			c[l] += v
 		}
 	}
 	return c, values
+}
+
+// lagProducts sets out[l] = Σ_j x_j x_{j+l} (lagDot(x, x, l)) for every l
+// of out. Four lags are summed in one pass: each sum still adds its
+// products in the order of j, so its bits are lagDot's, but its additions
+// no longer wait on the other lags' (one chain of additions at a time was
+// the whole cost of these sums).
+func lagProducts(out, x []float64) {
+	m, l := len(x), 0
+	for ; l+3 < len(out) && l+3 < m; l += 4 {
+		n := m - l - 3
+		a, b, c, d := x[l:l+n], x[l+1:l+1+n], x[l+2:l+2+n], x[l+3:l+3+n]
+		var s0, s1, s2, s3 float64
+		for j, v := range x[:n] {
+			s0 += v * a[j]
+			s1 += v * b[j]
+			s2 += v * c[j]
+			s3 += v * d[j]
+		}
+		// The last products of the shorter lags, in the same order of j.
+		for j := n; j < m-l; j++ {
+			s0 += x[j] * x[j+l]
+		}
+		for j := n; j < m-l-1; j++ {
+			s1 += x[j] * x[j+l+1]
+		}
+		for j := n; j < m-l-2; j++ {
+			s2 += x[j] * x[j+l+2]
+		}
+		out[l], out[l+1], out[l+2], out[l+3] = s0, s1, s2, s3
+	}
+	for ; l < len(out); l++ {
+		out[l] = lagDot(x, x, l)
+	}
 }
 
 // zeroRow says whether every entry of x is zero.
@@ -216,9 +248,7 @@ func shiftTraces(g *mat.Dense, m, h int) *mat.Dense {
 	auto := make([][]float64, p)
 	for c, u := range cols {
 		auto[c] = make([]float64, 2*h+1)
-		for l := range auto[c] {
-			auto[c][l] = lagDot(u, u, l)
-		}
+		lagProducts(auto[c], u)
 	}
 	for l := 0; l <= h; l++ {
 		for k := 0; k <= h; k++ {
@@ -245,13 +275,42 @@ func crossLags(cols [][]float64, h int) [][][]float64 {
 	for l := range x {
 		x[l] = make([][]float64, len(cols))
 		for c, u := range cols {
-			x[l][c] = make([]float64, len(cols))
-			for d, v := range cols {
-				x[l][c][d] = lagDot(u, v, l)
+			out := make([]float64, len(cols))
+			for d := 0; d < len(cols); d += 4 {
+				// The last group is filled up with its own last column, whose
+				// sum is taken twice and kept once: as fast as one sum alone.
+				var vs [4][]float64
+				for i := range vs {
+					vs[i] = cols[min(d+i, len(cols)-1)]
+				}
+				var s [4]float64
+				s[0], s[1], s[2], s[3] = lagDots4(u, vs[:], l)
+				copy(out[d:], s[:])
 			}
+			x[l][c] = out
 		}
 	}
 	return x
+}
+
+// lagDots4 is lagDot(u, v, l) for the four v of vs, in one pass when they
+// have one length: each sum adds its products in lagDot's order, so its
+// bits are lagDot's, and the four chains of additions overlap (see
+// lagProducts).
+func lagDots4(u []float64, vs [][]float64, l int) (s0, s1, s2, s3 float64) {
+	m := len(vs[0])
+	n := min(len(u), m-l)
+	if n <= 0 || len(vs[1]) != m || len(vs[2]) != m || len(vs[3]) != m {
+		return lagDot(u, vs[0], l), lagDot(u, vs[1], l), lagDot(u, vs[2], l), lagDot(u, vs[3], l)
+	}
+	a, b, c, d := vs[0][l:l+n], vs[1][l:l+n], vs[2][l:l+n], vs[3][l:l+n]
+	for j, x := range u[:n] {
+		s0 += x * a[j]
+		s1 += x * b[j]
+		s2 += x * c[j]
+		s3 += x * d[j]
+	}
+	return s0, s1, s2, s3
 }
 
 // lagDot is Σ_j u[j] v[j+l] over the indices inside both.

@@ -254,3 +254,47 @@ func TestBaselineOrderHoldsItsLevelOnSmoothedNoise(t *testing.T) {
 		}
 	}
 }
+
+// lagProducts and lagDots4 sum four lags (or four columns) in one pass; each value must
+// still be the definition's sum, Σ_j x_j y_{j+l} over the j inside both, added in the
+// order of j, to the last bit (the outputs' bytes depend on it: docs/reproducibility.md).
+// Lengths 0–13 cover every tail of the four-lag pass and lags beyond the axis.
+func TestLagSumsInOnePassAreTheDefinitionsBits(t *testing.T) {
+	plain := func(x, y []float64, l int) float64 { // the definition, term by term
+		var s float64
+		for j := 0; j < len(x) && j+l < len(y); j++ {
+			s += x[j] * y[j+l]
+		}
+		return s
+	}
+	rng := rand.New(rand.NewPCG(5, 8))
+	draw := func(m int) []float64 {
+		x := make([]float64, m)
+		for j := range x {
+			x[j] = rng.NormFloat64() * math.Exp(4*rng.NormFloat64())
+		}
+		return x
+	}
+	for _, m := range []int{0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 301, 3001} {
+		x := draw(m)
+		for _, lags := range []int{1, 3, 4, 5, 8, 9, 17} {
+			out := make([]float64, lags)
+			lagProducts(out, x)
+			for l, got := range out {
+				if want := plain(x, x, l); math.Float64bits(got) != math.Float64bits(want) {
+					t.Errorf("m = %d: lag %d of %d: %x, the definition %x", m, l, lags, got, want)
+				}
+			}
+		}
+		vs := [][]float64{draw(m), draw(m), draw(m), draw(m)}
+		for l := 0; l <= m+1; l += 1 + m/7 {
+			got := make([]float64, 4)
+			got[0], got[1], got[2], got[3] = lagDots4(x, vs, l)
+			for i, v := range vs {
+				if want := plain(x, v, l); math.Float64bits(got[i]) != math.Float64bits(want) {
+					t.Errorf("m = %d: column %d at lag %d: %x, the definition %x", m, i, l, got[i], want)
+				}
+			}
+		}
+	}
+}
