@@ -76,4 +76,20 @@ func BenchmarkFindOutliers2000x3001k5(b *testing.B) {
 			b.ReportMetric((cputime.Process()-cpu)/float64(b.N)*1e3, "cpu-ms/op")
 		})
 	}
+	// With noise weights, as the default run tests: each row's sums in the
+	// data's units and in units of the noise.
+	row, col := make([]float64, n), make([]float64, m)
+	for i := range row {
+		row[i] = 0.5 + rng.Float64()
+	}
+	for j := range col {
+		col[j] = 0.5 + rng.Float64()
+	}
+	b.Run("weighted", func(b *testing.B) {
+		cpu := cputime.Process()
+		for i := 0; i < b.N; i++ {
+			FindOutliersIn(d, c, s, nil, nil, OutlierInput{Sigma: 1, Row: row, Col: col})
+		}
+		b.ReportMetric((cputime.Process()-cpu)/float64(b.N)*1e3, "cpu-ms/op")
+	})
 }

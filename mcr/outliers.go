@@ -97,12 +97,14 @@ func FindOutliersIn(d, c, s, b, p *mat.Dense, in OutlierInput) []Outlier {
 		e := make([]float64, m)
 		for i := i0; i < i1; i++ {
 			residualRow(e, d, c, s, b, p, i)
+			var ss, num float64
 			if colScale != nil {
-				ssD, _ := squaresAndLag(e)
+				var ssD float64
+				ssD, ss, num = scaledSquaresAndLag(e, colScale, rowFactor(in, i))
 				rmsD[i] = math.Sqrt(ssD / float64(m))
+			} else {
+				ss, num = squaresAndLag(e)
 			}
-			scale(e, i)
-			ss, num := squaresAndLag(e)
 			rms[i] = math.Sqrt(ss / float64(m))
 			if ss > 0 {
 				lag[i] = num / ss
@@ -205,12 +207,15 @@ func rowScale(in OutlierInput, n, m int) (func(e []float64, i int), []float64) {
 		col[j] = math.Sqrt(math.Max(v, 0))
 	}
 	return func(e []float64, i int) {
-		a := math.Sqrt(math.Max(in.Row[i], 0))
+		a := rowFactor(in, i)
 		for j := range e {
 			e[j] *= a * col[j]
 		}
 	}, col
 }
+
+// rowFactor is √a_i, the factor rowScale's scaling takes from row i's weight.
+func rowFactor(in OutlierInput, i int) float64 { return math.Sqrt(math.Max(in.Row[i], 0)) }
 
 // squaresAndLag returns Σ e_j² and Σ e_j e_{j+1} (len(e) ≥ 1), each summed
 // in index order.
@@ -224,6 +229,27 @@ func squaresAndLag(e []float64) (ss, num float64) {
 	v := e[last]
 	ss += v * v
 	return ss, num
+}
+
+// scaledSquaresAndLag returns squaresAndLag(e)'s Σ e_j² as ssD and
+// squaresAndLag's two sums of x_j = e_j·(a·col_j), e scaled as rowScale
+// scales it, without writing x: the three sums in one pass, each adding its
+// terms in index order as squaresAndLag does, so their bits are the same,
+// and their additions, each waiting on its own previous one, overlap
+// instead of taking two passes and a scaling pass between them.
+func scaledSquaresAndLag(e, col []float64, a float64) (ssD, ss, num float64) {
+	col = col[:len(e)]
+	prev := e[0] * (a * col[0])
+	ssD, ss = e[0]*e[0], prev*prev
+	for j := 1; j < len(e); j++ {
+		v := e[j]
+		x := v * (a * col[j])
+		ssD += v * v
+		ss += x * x
+		num += prev * x
+		prev = x
+	}
+	return ssD, ss, num
 }
 
 // residualRow sets e to row i of D − C Sᵀ − B Pᵀ (b, p may be nil), each
