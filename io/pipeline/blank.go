@@ -38,3 +38,18 @@ func checkBlanks(s *Settings) error {
 	}
 	return nil
 }
+
+// blankOffsetAbsorbed says whether the resolution absorbs a blank's offset
+// constant in time on the channels where the blank stood at the detector's
+// ceiling (spectra.AssembleOptions.BlankOffsetFree): one experiment with its
+// blank resolves species, and closure Σ_k c_k = T carries an offset −δ_j into
+// every species' spectrum as −δ_j/T (C (S − δ1ᵀ/T)ᵀ = C Sᵀ − 1δᵀ). Not with
+// closure weights (the offset would split by weight), without closure (no
+// combination of free profiles need be constant), with several experiments
+// (each blank its own offset) or with a known spectrum or a zero region
+// (a spectrum fixed there cannot carry the offset).
+func blankOffsetAbsorbed(s *Settings) bool {
+	totals, err := parseTotals(s.Closure)
+	return err == nil && totals != nil && len(totals) == 1 && s.ClosureWeights == "" &&
+		len(s.Data) == 1 && hasBlank(s) && len(s.KnownSpectra) == 0 && len(s.ZeroRegions) == 0
+}

@@ -121,3 +121,155 @@ func TestClippedBeamsKeepAQuadraticDrift(t *testing.T) {
 		t.Errorf("baseline %s for a quadratic drift; want poly:2: %s", baselineName(r.BaselineOrder), r.BaselineReason)
 	}
 }
+
+// Where the blank stands at the detector's ceiling but the sample's beams
+// come under it, A = −log10(I/I_ceiling) is the true absorbance less
+// δ_j = log10(I_blank/I_ceiling), one offset per channel, the same in every
+// spectrum (Beer–Lambert: A = −log10(I/I₀); the beams are the same, only the
+// blank differs). Closure absorbs it exactly: with Σ_k c_k = T in every
+// spectrum, the constant column 1 = C 1/T lies in the span of the profiles,
+// so the least-squares spectra of a channel on the profiles C, for any row
+// weights, move by −δ_j/T each when the data move by −δ_j (C (S − δ1ᵀ/T)ᵀ =
+// C Sᵀ − 1δᵀ), and their differences not at all. Checked on the channels
+// where the blank is at the ceiling and the sample's beams come under it in
+// at least half the spectra: those beams are data (not blind); every
+// resolved spectrum there equals the weighted least-squares spectrum of the
+// true absorbance (against the unclipped blank, the same noise draws) on the
+// run's own profiles, less δ_j/T and raised by the least amount that makes
+// every one non-negative, to rounding (1e-7 of the channel's largest, where
+// the absorbance noise, about 10⁻⁴, is 10⁻³ of it or more); and
+// the differences s_B − s_A and s_C − s_B over those channels have cosine
+// ≥ 0.99 to the true ones (as the lit channels' spectra do in
+// TestClippedBeamsChooseNoBaseline). Before, those channels were blind in
+// every spectrum and the spectra not determined there.
+func TestClippedBlankOffsetIsAbsorbed(t *testing.T) {
+	const ceil = 0.97
+	s := clippedSeries(t, ceil, 0)
+	open := clippedSeries(t, 10, 0) // the same draws, nothing clipped
+	r := runClipped(t, s)
+	top := ceil * 2e4
+	n, m := s.beams.Dims()
+	// A channel whose reference spectrum (the first) is at the ceiling is
+	// blind in every spectrum for another reason (the differences against
+	// it are not known), so only the channels the run kept are checked;
+	// before, it kept none.
+	gone := r.Blind.Everywhere(m)
+	var kept []int
+	for j := 0; j < m; j++ {
+		under := 0
+		for i := 0; i < n; i++ {
+			if s.beams.At(i, j) < top {
+				under++
+			}
+		}
+		if s.blank[j] >= top && 2*under >= n && !gone[j] {
+			kept = append(kept, j)
+		}
+	}
+	if len(kept) < 5 {
+		t.Fatalf("%d channels with the blank at the ceiling and the sample under it kept: the case tests nothing", len(kept))
+	}
+	_, k := r.ALS.S.Dims()
+	var gotDiff, wantDiff []float64
+	perm := matchSpectra(t, s, r, func(j int) bool { return s.blank[j] < top })
+	worst, lifted := 0.0, 0
+	for _, j := range kept {
+		for i := 0; i < n; i++ {
+			if v := s.beams.At(i, j); v < top && r.Blind.Has(i, j) {
+				t.Fatalf("channel %g, spectrum %d: beam %g under the ceiling %g is blind", s.axis[j], i, v, top)
+			}
+		}
+		delta := math.Log10(open.blank[j] / top)
+		ref := weightedSpectrumAt(r, open, j)
+		lift := 0.0
+		for a := range ref {
+			ref[a] -= delta // T = 1
+			lift = math.Max(lift, -ref[a])
+		}
+		if lift > 0 {
+			lifted++
+		}
+		scale := 0.0
+		for a := 0; a < k; a++ {
+			scale = math.Max(scale, math.Abs(ref[a]+lift))
+		}
+		for a := 0; a < k; a++ {
+			d := math.Abs(r.ALS.S.At(j, a) - (ref[a] + lift))
+			worst = math.Max(worst, d/scale)
+			if d > 1e-7*scale {
+				t.Errorf("channel %g (δ = %.4g), component %d: %.10g, want %.10g (least squares on the run's profiles of the true absorbance less δ, raised by %.4g)", s.axis[j], delta, a+1, r.ALS.S.At(j, a), ref[a]+lift, lift)
+			}
+		}
+		got := func(a int) float64 { return r.ALS.S.At(j, perm[a]) }
+		want := func(a int) float64 { return s.spectra.At(j, a) }
+		gotDiff = append(gotDiff, got(1)-got(0), got(2)-got(1))
+		wantDiff = append(wantDiff, want(1)-want(0), want(2)-want(1))
+	}
+	c := Cosine(gotDiff, wantDiff)
+	t.Logf("%d channels kept, %d raised to keep the spectra non-negative; largest departure from the closure identity %.2g of the channel's largest spectrum; differences at cosine %.5f to the truth", len(kept), lifted, worst, c)
+	if c < 0.99 {
+		t.Errorf("spectrum differences on the clipped blank's channels at cosine %.5f to the truth; want ≥ 0.99", c)
+	}
+	if !anyContains(r.Notes, "common to all species") {
+		t.Errorf("no note on the offset the spectra share: %q", r.Notes)
+	}
+}
+
+// matchSpectra pairs each true species with the resolved component whose
+// spectrum is closest to it (cosine) on the channels use keeps.
+func matchSpectra(t *testing.T, s *synth, r *Result, use func(j int) bool) []int {
+	t.Helper()
+	_, k := s.spectra.Dims()
+	perm := make([]int, k)
+	taken := map[int]bool{}
+	for a := 0; a < k; a++ {
+		best := -1.0
+		for b := 0; b < k; b++ {
+			var tv, gv []float64
+			for j := range s.axis {
+				if use(j) {
+					tv, gv = append(tv, s.spectra.At(j, a)), append(gv, r.ALS.S.At(j, b))
+				}
+			}
+			if c := Cosine(tv, gv); c > best {
+				best, perm[a] = c, b
+			}
+		}
+		if taken[perm[a]] || best < 0.99 {
+			t.Fatalf("species %d: best match component %d at cosine %.4f", a+1, perm[a]+1, best)
+		}
+		taken[perm[a]] = true
+	}
+	return perm
+}
+
+// weightedSpectrumAt is the least-squares spectrum of channel j on the run's
+// profiles of the absorbance against open's blank, −log10(I/I_blank), over
+// the spectra the run measured there, with the run's row weights (normal
+// equations solved by QR of the weighted rows).
+func weightedSpectrumAt(r *Result, open *synth, j int) []float64 {
+	n, k := r.ALS.C.Dims()
+	var rows []int
+	for i := 0; i < n; i++ {
+		if !r.Blind.Has(i, j) {
+			rows = append(rows, i)
+		}
+	}
+	a := mat.NewDense(len(rows), k, nil)
+	b := mat.NewVecDense(len(rows), nil)
+	for q, i := range rows {
+		w := 1.0
+		if r.Weights != nil && r.Weights.Row != nil {
+			w = math.Sqrt(r.Weights.Row[i])
+		}
+		for c := 0; c < k; c++ {
+			a.Set(q, c, w*r.ALS.C.At(i, c))
+		}
+		b.SetVec(q, -w*math.Log10(open.beams.At(i, j)/open.blank[j]))
+	}
+	var x mat.VecDense
+	if err := x.SolveVec(a, b); err != nil {
+		return make([]float64, k)
+	}
+	return x.RawVector().Data
+}

@@ -49,9 +49,12 @@ func beginEarlyDataFit(r *Result, opt mcr.Options) *earlyDataFit {
 	return e
 }
 
-// newEarlyDataFit makes beginEarlyDataFit's job ready, not started.
+// newEarlyDataFit makes beginEarlyDataFit's job ready, not started. Not
+// when the resolution changes the data it would read beside it: a baseline
+// taken off, blind points refilled, a clipped blank's channels raised
+// (absorbBlankOffset).
 func newEarlyDataFit(r *Result, opt mcr.Options) *earlyDataFit {
-	if !startsFromDataFit(r, opt) || len(r.SetAside) > 0 || r.BaselineOrder >= 0 || r.BaselineShapes != nil || (r.Blind != nil && r.Blind.Count > 0) {
+	if !startsFromDataFit(r, opt) || len(r.SetAside) > 0 || r.BaselineOrder >= 0 || r.BaselineShapes != nil || (r.Blind != nil && r.Blind.Count > 0) || r.BlankOffset != nil {
 		return nil
 	}
 	kn, err := kineticsSettings(r)

@@ -65,6 +65,11 @@ type Result struct {
 	// in species mode.
 	Weights, DiffWeights *spectra.Weights
 	Blind                *spectra.Blind
+	// BlankOffset marks the channels where the blank stood at the
+	// detector's ceiling and the sample's points were kept, their spectra
+	// determined up to one amount common to the species (blankoffset.go);
+	// nil when there is none.
+	BlankOffset []bool
 	// Scaled is √A D √B, the noise-scaled matrix the factor analysis
 	// works on (nil without weights); Factors and Rank are of it then
 	// (Factors is ScaledFactors, D itself is not decomposed).
@@ -378,7 +383,8 @@ func readExperiments(r *Result, p readingPlan, log io.Writer) ([]*mat.Dense, err
 		return nil, usage("--reference mean:%d averages more spectra than the %d before the reaction (--pre %d)", p.refMean, s.Pre, s.Pre)
 	}
 	opt := spectra.AssembleOptions{Kind: kind,
-		Reference: spectra.Reference{Mean: p.refMean, File: refSpec}, Consume: true, Pre: s.Pre}
+		Reference: spectra.Reference{Mean: p.refMean, File: refSpec}, Consume: true, Pre: s.Pre,
+		BlankOffsetFree: blankOffsetAbsorbed(s)}
 	diffRows, err := assembleExperiments(s, r, series, axis, chans, opt, blanks, p)
 	if err != nil {
 		return nil, err
@@ -965,6 +971,7 @@ func assembleExperiments(s *Settings, r *Result, series []*spectra.Series, axis 
 	var absW, diffW []*spectra.Weights
 	var blinds []*spectra.Blind
 	var rowsOf []int
+	var lastOffset []bool
 	var err error
 	row := 0
 	for ei, ser := range series {
@@ -999,8 +1006,14 @@ func assembleExperiments(s *Settings, r *Result, series []*spectra.Series, axis 
 		diffRows = append(diffRows, as.Difference)
 		absW, diffW = append(absW, as.AbsoluteWeights), append(diffW, as.DifferenceWeights)
 		blinds, rowsOf = append(blinds, as.Blind), append(rowsOf, n)
+		lastOffset = as.BlankOffset
 	}
 	r.Blind = spectra.StackBlind(blinds, rowsOf)
+	if len(series) == 1 {
+		// One experiment: its channels are the stack's (blankOffsetAbsorbed
+		// asks for one).
+		r.BlankOffset = lastOffset
+	}
 	r.AxisName, r.Axis = first.AxisName, axis
 	if len(absRows) == len(series) {
 		r.Mode = mcr.Species
@@ -1274,7 +1287,7 @@ func resolve(r *Result, log io.Writer) error {
 			return err
 		}
 		data = hdata
-		r.SoftALS, res = res, hard
+		r.SoftALS, res = res, absorbBlankOffset(r, data, hard, opt)
 		r.ALS = res
 	}
 	return finishResolution(r, data, opt, mark, log)
@@ -1365,6 +1378,7 @@ func settleFit(r *Result, data mcr.Data, res *mcr.Result, opt mcr.Options, log i
 		return nil, explainResolveError(r, err)
 	}
 	res = lowerMinor(r, data, res, opt)
+	res = absorbBlankOffset(r, data, res, opt)
 	if err := checkFinite(res); err != nil {
 		return nil, err
 	}

@@ -100,6 +100,12 @@ type Assembled struct {
 	// AbsoluteTop is the largest value of Absolute per channel (a NaN
 	// counts for nothing), taken as it was formed; nil when not taken.
 	AbsoluteTop []float64
+	// BlankOffset marks the channels where the blank stood at the
+	// detector's ceiling and the sample's measured points were kept
+	// (AssembleOptions.BlankOffsetFree): Absolute there is the absorbance
+	// against the ceiling, low by one unknown amount per channel, the same
+	// in every spectrum. nil when there is none.
+	BlankOffset []bool
 }
 
 // AssembleOptions gather what assembly needs besides the series.
@@ -117,6 +123,12 @@ type AssembleOptions struct {
 	// s.Values to nil: one matrix fewer in memory, which matters when the
 	// data are gigabytes and the single beams are not needed afterwards.
 	Consume bool
+	// BlankOffsetFree keeps the sample's points under the ceiling where the
+	// blank is at the detector's ceiling, instead of making those channels
+	// blind in every spectrum: set it only when the resolution absorbs a
+	// per-channel offset constant in time (species with closure; see
+	// keepClippedBlank).
+	BlankOffsetFree bool
 }
 
 // onDataAxis checks that the blank and a reference file have one value per

@@ -1682,7 +1682,12 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	if opt.Reference.File != nil {
 		refFile = ref
 	}
-	blindClippedBeams(blind, scan.ceiling, opt.Blank, refFile)
+	if opt.BlankOffsetFree {
+		blindClippedBeams(blind, scan.ceiling, refFile)
+		out.BlankOffset = keepClippedBlank(blind, scan.ceiling, opt.Blank, n)
+	} else {
+		blindClippedBeams(blind, scan.ceiling, opt.Blank, refFile)
+	}
 	line := lineWeights(s.Times)
 	if line != nil {
 		own, cnt = nil, nil // the parse's scales are of plain second differences
@@ -1704,6 +1709,13 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	fitAbsorbanceWeights(s.Values, v, blind, opt.Blank != nil, out)
 	writeAbsorbances(s, ref, opt.Blank, blind, out)
 	out.Notes = append(out.Notes, BlindNotes(s.Source, s.AxisName, s.Axis, s.Times, blind)...)
+	if out.BlankOffset != nil {
+		// A channel blind in every spectrum by a later rule holds no data.
+		for j, gone := range blind.Everywhere(m) {
+			out.BlankOffset[j] = out.BlankOffset[j] && !gone
+		}
+		out.Notes = append(out.Notes, blankOffsetNote(s.Source, s.AxisName, s.Axis, out.BlankOffset)...)
+	}
 	return nil
 }
 
@@ -1752,6 +1764,78 @@ func blindClippedBeams(blind *Blind, ceiling float64, beams ...[]float64) {
 			}
 		}
 	}
+}
+
+// keepClippedBlank marks the channels where the blank stands at the
+// detector's ceiling (ceiling 0: none) but the sample's beams come under it
+// in at least half the spectra, and makes the rest of the clipped blank's
+// channels blind in every spectrum. There A = −log10(I/I_ceiling) is the true
+// absorbance less δ_j = log10(I_blank/I_ceiling) ≥ 0, one offset per channel
+// constant in time, which closure absorbs in the species' spectra (Σ_k c_k = 1
+// gives C (S − δ1ᵀ)ᵀ = C Sᵀ − 1δᵀ): the sample's points are data, not blind.
+// A channel at the ceiling in more than half its spectra is filled from its
+// few measured values, and the fill does not know that the beams it stands
+// for were at the ceiling: on an invented series clipped at 95 % of the
+// source's peak, keeping such channels left the constrained fit 10 times the
+// noise and an offset baseline was taken for a background (a species'
+// spectrum at cosine 0.62 to the truth, against 0.994 with them blind).
+func keepClippedBlank(blind *Blind, ceiling float64, blank []float64, n int) []bool {
+	if !(ceiling > 0) {
+		return nil
+	}
+	var cnt []int
+	var kept []bool
+	for j, x := range blank {
+		if x < ceiling {
+			continue
+		}
+		if cnt == nil {
+			cnt, kept = blindPerChannel(blind, len(blank)), make([]bool, len(blank))
+		}
+		if 2*cnt[j] > n {
+			blind.addChannel(j)
+			continue
+		}
+		kept[j] = true
+	}
+	if !slices.Contains(kept, true) {
+		return nil
+	}
+	return kept
+}
+
+// blankOffsetNote says where the blank stood at the ceiling and the sample's
+// points were kept (keepClippedBlank), and what that leaves undetermined.
+func blankOffsetNote(source, axisName string, axis []float64, kept []bool) []string {
+	var parts []string
+	count := 0
+	for _, r := range runsOf(len(kept), func(j int) bool { return kept[j] }) {
+		count += r[1] - r[0] + 1
+		if r[0] == r[1] {
+			parts = append(parts, fmt.Sprintf("%s %g", axisName, axis[r[0]]))
+		} else {
+			parts = append(parts, fmt.Sprintf("%s %g–%g", axisName, axis[r[0]], axis[r[1]]))
+		}
+	}
+	if count == 0 {
+		return nil
+	}
+	return []string{fmt.Sprintf("%s: the blank single beam is at the detector's ceiling at %s (%d channel(s)) while the sample's beams come under it: "+
+		"there the absorbance is taken against the ceiling, low by one unknown amount per channel, the same in every spectrum, which closure carries into every species' spectrum; "+
+		"the profiles and the differences between the species' spectra are determined there, each spectrum only up to that common amount: "+
+		"the spectra shown are the lowest the physics allows (the true blank is at least the ceiling, and no spectrum is negative), and the true ones may lie higher by one amount per channel, common to all species",
+		source, listSome(parts, 5), count)}
+}
+
+// blindPerChannel counts each channel's blind points.
+func blindPerChannel(b *Blind, m int) []int {
+	cnt := make([]int, m)
+	for _, r := range b.Rows {
+		for _, j := range r {
+			cnt[j]++
+		}
+	}
+	return cnt
 }
 
 // checkBlankAndReferenceBeams refuses a blank or a reference file that is not a

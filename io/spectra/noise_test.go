@@ -478,6 +478,80 @@ func TestClippedBlankIsBlindInEverySpectrum(t *testing.T) {
 	}
 }
 
+// With BlankOffsetFree (species with closure, which absorbs one offset per
+// channel constant in time), a channel where the blank is at the ceiling
+// keeps the sample's beams under it as data when they are at least half the
+// spectra: their absolute absorbance is −log10(I/I_ceiling), which is
+// −log10(I/I_blank) − log10(I_blank/I_ceiling) (Beer–Lambert, the blank
+// before the ceiling cut it), the same offset in every spectrum. The beams
+// at the ceiling stay blind, and a channel with fewer than half its beams
+// under the ceiling is blind in every spectrum as without the option.
+func TestClippedBlankKeptWhereTheSampleIsMeasured(t *testing.T) {
+	rng := rand.New(rand.NewPCG(12, 5))
+	s := beams(rng, 20, 200, 5, 1, 0)
+	n, m := s.Values.Dims()
+	const ceiling = 9500.0
+	open, blank := make([]float64, m), make([]float64, m)
+	for j := range blank {
+		u := float64(j) / float64(m)
+		open[j] = 1e4 * (0.6 + 0.4*math.Sin(3*u))
+		blank[j] = math.Min(open[j], ceiling)
+		for i := 0; i < n; i++ {
+			s.Values.Set(i, j, math.Min(s.Values.At(i, j), ceiling))
+		}
+	}
+	a, err := Assemble(s, AssembleOptions{Kind: SingleBeam, Blank: blank, Reference: Reference{Mean: 1}, BlankOffsetFree: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	kept, gone := 0, 0
+	every := a.Blind.Everywhere(m)
+	for j := 0; j < m; j++ {
+		if blank[j] < ceiling {
+			continue
+		}
+		under := 0
+		for i := 0; i < n; i++ {
+			if s.Values.At(i, j) < ceiling {
+				under++
+			}
+		}
+		switch {
+		case 2*under >= n+2 && !every[j]:
+			kept++
+			if a.BlankOffset == nil || !a.BlankOffset[j] {
+				t.Errorf("channel %d kept but not marked as offset", j)
+			}
+			delta := math.Log10(open[j] / ceiling)
+			for i := 0; i < n; i++ {
+				v := s.Values.At(i, j)
+				if v >= ceiling {
+					if !a.Blind.Has(i, j) {
+						t.Errorf("spectrum %d, channel %d: beam at the ceiling not blind", i, j)
+					}
+					continue
+				}
+				want := -math.Log10(v/open[j]) - delta
+				if a.Blind.Has(i, j) || math.Abs(a.Absolute.At(i, j)-want) > 1e-12 {
+					t.Errorf("spectrum %d, channel %d: blind %v, absorbance %.15g, want %.15g", i, j, a.Blind.Has(i, j), a.Absolute.At(i, j), want)
+				}
+			}
+		case 2*under <= n-2:
+			gone++
+			if !every[j] {
+				t.Errorf("channel %d: %d of %d beams under the ceiling, not blind in every spectrum", j, under, n)
+			}
+		}
+	}
+	t.Logf("%d clipped blank's channels kept, %d blind in every spectrum", kept, gone)
+	if kept == 0 || gone == 0 {
+		t.Fatalf("kept %d, blind %d: the case tests one side only", kept, gone)
+	}
+	if !slices.ContainsFunc(a.Notes, func(s string) bool { return strings.Contains(s, "common to all species") }) {
+		t.Errorf("no note on the offset: %q", a.Notes)
+	}
+}
+
 // An absorbance export of a detector whose noise is constant in counts
 // has σ_A = σ_I/(I ln 10) (propagation of error): under a solvent band of
 // absorbance 1.5, constant in time, the noise is 10^1.5 ≈ 32 times the
