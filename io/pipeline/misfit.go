@@ -158,21 +158,26 @@ func checkMisfit(r *Result, s *mat.Dense) (misfitCheck, bool) {
 
 // timeDiffAxisNoise measures the noise's correlation along the axis on
 // second differences in time of the weighted data, √(a_i b_j)(d_{i+1} −
-// 2d_i + d_{i−1}) (rows with a weight of zero and blind points left out),
-// with the resolved spectra's directions projected out: a change smooth in
-// time cancels, a fast one lies in those directions, and the noise stays.
+// 2d_i + d_{i−1}) (rows with a weight of zero, the spectra set aside, whose
+// rows hold the model, not data, and blind points left out), with the
+// resolved spectra's directions projected out: a change smooth in time
+// cancels, a fast one lies in those directions, and the noise stays.
 func timeDiffAxisNoise(r *Result, s *mat.Dense) svd.AxisNoise {
 	n, m := r.D.Dims()
 	if n < 3 {
 		return svd.AxisNoise{Inflation: 1, Points: m, Effective: float64(m)}
 	}
 	w := r.Weights
+	aside := asideRows(r)
 	rows := min(n-2, max(16, (1<<16+m-1)/max(m, 1)))
 	e := mat.NewDense(rows, m, nil)
 	for k := 0; k < rows; k++ {
 		i := 1 + k*(n-2)/rows
 		if !(w.Row[i-1] > 0 && w.Row[i] > 0 && w.Row[i+1] > 0) {
 			continue // a row of zeros counts for nothing
+		}
+		if aside != nil && (aside[i-1] || aside[i] || aside[i+1]) {
+			continue
 		}
 		fillSecondDiff(e.RawRowView(k), r.D, i, w, r.Blind)
 	}

@@ -1068,10 +1068,14 @@ func withoutBaseline(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dens
 	if shapes != nil && res.Baseline != nil {
 		r.BaselineProfiles = res.Baseline
 		r.BaselineShapes = shapes
-		r.DataSS = observedSquares(r)
+		// The figures count the spectra kept (fitFigures); the checks'
+		// scale, the whole matrix their refits work on.
+		r.DataSS = observedSquares(r.D, unobserved(r))
 		given := r.DataSS
 		if row, _ := weightsOfData(data); row != nil {
 			given = data.FrobeniusSq()
+		} else if len(r.SetAside) > 0 {
+			given = observedSquares(r.D, blindPoints(r))
 		}
 		subtractBaselineInPlace(r.D, res.Baseline, shapes)
 		switch in := data.(type) {
@@ -1103,13 +1107,14 @@ func withoutBaseline(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dens
 	return res, data
 }
 
-// observedSquares is Σ d²_ij over the points of r.D that are not blind.
-func observedSquares(r *Result) float64 {
-	n, m := r.D.Dims()
+// observedSquares is Σ d²_ij over the points of d that missing does not
+// name (every point when it is nil).
+func observedSquares(d *mat.Dense, missing func(i, j int) bool) float64 {
+	n, m := d.Dims()
 	ss := 0.0
 	for i := range n {
-		for j, v := range r.D.RawRowView(i)[:m] {
-			if r.Blind == nil || r.Blind.Count == 0 || !r.Blind.Has(i, j) {
+		for j, v := range d.RawRowView(i)[:m] {
+			if missing == nil || !missing(i, j) {
 				ss += v * v
 			}
 		}

@@ -2,6 +2,7 @@ package pipeline
 
 import (
 	"math"
+	"slices"
 
 	"github.com/bandsolve/bandsolve/mcr"
 	"gonum.org/v1/gonum/mat"
@@ -36,12 +37,22 @@ import (
 // pattern leaves (the cross term because a row inside the reference holds
 // that pattern's own noise with the opposite sign: the first spectrum's
 // difference is exactly zero). Each channel's term is scaled by the share
-// of the experiment's rows observed there (blind points hold no data).
+// of the experiment's rows observed there (blind points hold no data). A
+// spectrum set aside is no observation: its row weight counts as zero.
 func referenceDOF(r *Result, c, s *mat.Dense) float64 {
 	if r.Mode != mcr.Reactions || !weighted(r) || !anyReferenceVariance(r) {
 		return 0
 	}
-	qc := weightedBasis(c, r.Weights.Row)
+	rowW := r.Weights.Row
+	if aside := asideRows(r); aside != nil {
+		rowW = slices.Clone(rowW)
+		for i, a := range aside {
+			if a {
+				rowW[i] = 0
+			}
+		}
+	}
+	qc := weightedBasis(c, rowW)
 	qs := weightedBasis(s, r.Weights.Col)
 	if qc == nil || qs == nil {
 		return 0
@@ -49,7 +60,7 @@ func referenceDOF(r *Result, c, s *mat.Dense) float64 {
 	hc, hs := leverages(qc), leverages(qs)
 	total := 0.0
 	for _, e := range r.Experiments {
-		total += experimentReferenceDOF(r, e, qc, hc, hs)
+		total += experimentReferenceDOF(r, e, rowW, qc, hc, hs)
 	}
 	return total
 }
@@ -84,7 +95,7 @@ func anyReferenceVariance(r *Result) bool {
 }
 
 // experimentReferenceDOF is referenceDOF's term of experiment e.
-func experimentReferenceDOF(r *Result, e *Experiment, qc *mat.Dense, hc, hs []float64) float64 {
+func experimentReferenceDOF(r *Result, e *Experiment, rowW []float64, qc *mat.Dense, hc, hs []float64) float64 {
 	if e.Assembled == nil || e.Assembled.ReferenceVariance == nil {
 		return 0
 	}
@@ -92,7 +103,7 @@ func experimentReferenceDOF(r *Result, e *Experiment, qc *mat.Dense, hc, hs []fl
 	u, s := make([]float64, n), make([]float64, n)
 	counted := 0.0
 	for i := e.FirstRow; i < e.FirstRow+e.Rows; i++ {
-		a := r.Weights.Row[i]
+		a := rowW[i]
 		u[i] = math.Sqrt(a)
 		counted += a * (1 - hc[i])
 	}
@@ -176,13 +187,18 @@ func dot(a, b []float64) float64 {
 	return s
 }
 
-// litShare is, per channel, the share of experiment e's rows that are not
-// blind there.
+// litShare is, per channel, the share of experiment e's rows kept that are
+// not blind there.
 func litShare(r *Result, e *Experiment) []float64 {
 	_, m := r.D.Dims()
 	blind := make([]int, m)
-	if r.Blind != nil && r.Blind.Count > 0 {
-		for i := e.FirstRow; i < e.FirstRow+e.Rows; i++ {
+	rows := e.Rows
+	for i := e.FirstRow; i < e.FirstRow+e.Rows; i++ {
+		if setAside(r.SetAside, i) {
+			rows--
+			continue
+		}
+		if r.Blind != nil && r.Blind.Count > 0 {
 			for _, j := range r.Blind.Rows[i] {
 				blind[j]++
 			}
@@ -190,7 +206,9 @@ func litShare(r *Result, e *Experiment) []float64 {
 	}
 	out := make([]float64, m)
 	for j := range out {
-		out[j] = float64(e.Rows-blind[j]) / float64(e.Rows)
+		if rows > 0 {
+			out[j] = float64(rows-blind[j]) / float64(rows)
+		}
 	}
 	return out
 }
