@@ -318,6 +318,7 @@ func planReading(s *Settings) (readingPlan, error) {
 		// (the assembly's maxima, blind points and noise scales, the same
 		// values), while each channel's values are in cache.
 		ScanBeams: kind == spectra.SingleBeam, Pre: s.Pre}
+	folder.TimesLabel = s.Times
 	if s.Times != "" {
 		folder.Exclude = append(folder.Exclude, s.Path(s.Times))
 	}
@@ -832,6 +833,7 @@ func addExperiment(s *Settings, r *Result, source string, ser, sub *spectra.Seri
 	if refFile == "" && kind != spectra.Difference && refMean > n {
 		return nil, usage("--reference mean:%d: %s has only %d spectra; average at most %d", refMean, ser.Source, n, n)
 	}
+	sub.Label = source // notes name the path as written, whatever the working directory
 	as, err := spectra.Assemble(sub, opt)
 	if err != nil {
 		return nil, inputContext(ser.Source, err)
@@ -854,7 +856,7 @@ func addExperiment(s *Settings, r *Result, source string, ser, sub *spectra.Seri
 	r.Notes = append(r.Notes, as.Notes...)
 	r.Warnings = append(r.Warnings, as.Warnings...)
 	if kind == spectra.Difference {
-		if w := staticDifferences(ser.Source, as.Difference); w != "" {
+		if w := staticDifferences(source, as.Difference); w != "" {
 			r.Warnings = append(r.Warnings, w)
 		}
 	}
@@ -1047,7 +1049,9 @@ func loadSeries(s *Settings, r *Result, folder spectra.FolderOptions, kind spect
 			return nil, "", err
 		}
 		fmt.Fprintf(log, "reading %s\n", p)
-		ser, err := spectra.Load(s.Path(p), folder)
+		named := folder
+		named.Label = p // warnings name the path as written (Series.Label)
+		ser, err := spectra.Load(s.Path(p), named)
 		if err != nil {
 			return nil, "", err
 		}

@@ -261,10 +261,10 @@ func absorbanceBlindNotes(s *Series, b *Blind) []string {
 	if b != nil && len(b.Opaque) > 0 {
 		// The opaque bands have a note of their own; the other blind
 		// points keep theirs.
-		notes = append(notes, opaqueNote(s.Source, s.AxisName, s.Axis, b.Opaque))
+		notes = append(notes, opaqueNote(s.shown(), s.AxisName, s.Axis, b.Opaque))
 		b = outsideRuns(b, b.Opaque)
 	}
-	return append(notes, blindNotes(s.Source, s.AxisName, s.Axis, s.Times, b, fmt.Sprintf(
+	return append(notes, blindNotes(s.shown(), s.AxisName, s.Axis, s.Times, b, fmt.Sprintf(
 		"a value at the export's cap or not finite, or in a channel whose scatter in time says no light reached it (σ ≥ %.3g absorbance: the beam within 3σ of zero) or that is ten times noisier than its weight allows",
 		noLightSigma))...)
 }

@@ -374,7 +374,7 @@ func saturationWarningsAt(s *Series, ref, blank, channelMax []float64) []string 
 		}
 		lo, hi := s.Axis[r[0]], s.Axis[r[1]]
 		out = append(out, fmt.Sprintf("%s: single beam below %g %% of its median at %s %g–%g (%d point(s)): a saturated band or a detector edge, where absorbance is mostly noise: weighted down by its noise, or cut with --exclude %g:%g",
-			s.Source, 100*weakBeamFraction, s.AxisName, lo, hi, r[1]-r[0]+1, lo, hi))
+			s.shown(), 100*weakBeamFraction, s.AxisName, lo, hi, r[1]-r[0]+1, lo, hi))
 	}
 	return out
 }

@@ -38,6 +38,39 @@ type FolderOptions struct {
 	// ScanBeams unset, or the assembly would take the old values' scan.
 	ScanBeams bool
 	Pre       int
+	// Label and TimesLabel are the data path and the times table as the
+	// user wrote them, which warnings kept in the results name
+	// (Series.Label); "" names the paths opened.
+	Label, TimesLabel string
+}
+
+// shownPath names the data path opened in warnings kept in the results.
+func (o FolderOptions) shownPath(opened string) string {
+	if o.Label != "" {
+		return o.Label
+	}
+	return opened
+}
+
+// shownTimes names the times table in warnings kept in the results.
+func (o FolderOptions) shownTimes() string {
+	if o.TimesLabel != "" {
+		return o.TimesLabel
+	}
+	return o.TimesFile
+}
+
+// shownFiles names a folder's files in warnings kept in the results: under
+// the folder as written.
+func (o FolderOptions) shownFiles(files []string) []string {
+	if o.Label == "" {
+		return files
+	}
+	out := make([]string, len(files))
+	for i, f := range files {
+		out[i] = filepath.Join(o.Label, filepath.Base(f))
+	}
+	return out
 }
 
 // spectrumExts are the endings treated as one-spectrum exports in a folder.
@@ -193,8 +226,8 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 			return nil, err
 		}
 	} else if header, ok := headerTimesOf(files, specs, errs); ok {
-		src := timeSource{table: opt.TimesFile, label: "name", short: func(i int) string { return filepath.Base(files[i]) }}
-		times, warning = weighHeaderTimes(files, times, header, src)
+		src := timeSource{table: opt.shownTimes(), label: "name", short: func(i int) string { return filepath.Base(files[i]) }}
+		times, warning = weighHeaderTimes(opt.shownFiles(files), times, header, src)
 	}
 	order := make([]int, len(files))
 	for i := range order {

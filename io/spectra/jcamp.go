@@ -128,7 +128,7 @@ func seriesFromSpectra(path string, sps []*Spectrum, opt FolderOptions) (*Series
 	}
 	var warning string
 	if opt.TimesFile != "" || opt.TimesFromName {
-		times, warning = b.weighHeaders(times, opt.TimesFile)
+		times, warning = b.weighHeaders(times, opt.shownTimes(), opt.shownPath(path))
 	}
 	s, err := b.series(times, opt.Resample)
 	if err == nil && warning != "" {
@@ -140,10 +140,10 @@ func seriesFromSpectra(path string, sps []*Spectrum, opt FolderOptions) (*Series
 // weighHeaders settles the times asked for against the blocks' own
 // acquisition times when every block of several has one
 // (weighHeaderTimes); a lone spectrum has no interval to compare.
-func (b jcampBlocks) weighHeaders(given []float64, table string) ([]float64, string) {
+func (b jcampBlocks) weighHeaders(given []float64, table, shown string) ([]float64, string) {
 	names := make([]string, len(b.sps))
 	for i, sp := range b.sps {
-		names[i] = b.path + ": " + b.name(sp)
+		names[i] = shown + ": " + b.name(sp)
 	}
 	header, ok := headerTimesOf(names, b.sps, nil)
 	if len(b.sps) < 2 || !ok {

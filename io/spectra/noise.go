@@ -1708,13 +1708,13 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	placeAbsorbances(s.Values, opt, out)
 	fitAbsorbanceWeights(s.Values, v, blind, opt.Blank != nil, out)
 	writeAbsorbances(s, ref, opt.Blank, blind, out)
-	out.Notes = append(out.Notes, BlindNotes(s.Source, s.AxisName, s.Axis, s.Times, blind)...)
+	out.Notes = append(out.Notes, BlindNotes(s.shown(), s.AxisName, s.Axis, s.Times, blind)...)
 	if out.BlankOffset != nil {
 		// A channel blind in every spectrum by a later rule holds no data.
 		for j, gone := range blind.Everywhere(m) {
 			out.BlankOffset[j] = out.BlankOffset[j] && !gone
 		}
-		out.Notes = append(out.Notes, blankOffsetNote(s.Source, s.AxisName, s.Axis, out.BlankOffset)...)
+		out.Notes = append(out.Notes, blankOffsetNote(s.shown(), s.AxisName, s.Axis, out.BlankOffset)...)
 	}
 	return nil
 }

@@ -37,8 +37,13 @@ type Series struct {
 	Times    []float64 // n acquisition times in seconds
 	Names    []string  // where each spectrum came from
 	Values   *mat.Dense
-	Source   string
-	Kind     string // kind declared by the file itself (JCAMP-DX), "" if none
+	Source   string // the path as opened, for error messages
+	// Label is the path as the user wrote it (relative to a command
+	// file's folder, say), which notes kept in the results name: the
+	// opened path depends on the working directory, and a rerun from
+	// elsewhere must write the same bytes. "" names Source.
+	Label string
+	Kind  string // kind declared by the file itself (JCAMP-DX), "" if none
 	// Warnings are what reading found worth a look but not a stop: times
 	// asked for that the files' own headers contradict.
 	Warnings []string
@@ -51,6 +56,14 @@ type Series struct {
 	// describes Values as parsed and must be dropped if they are changed
 	// in place (a new matrix, from Keep or resampling, disowns it).
 	scan *channelScan
+}
+
+// shown is the series' name in notes kept in the results (Label).
+func (s *Series) shown() string {
+	if s.Label != "" {
+		return s.Label
+	}
+	return s.Source
 }
 
 // Spectrum is one axis/value pair of columns.
