@@ -1086,6 +1086,7 @@ func (sr sideRows) blockRows(q int) int {
 type sideRows struct {
 	names              []string
 	axis, times, exper [][]byte
+	unmeasured         []bool // spectrum rows whose values are written as 0
 }
 
 func newSideRows(r *Result) sideRows { return rowInputsOf(r, false).sideRows() }
@@ -1098,16 +1099,18 @@ type rowInputs struct {
 	names       []string
 	axis, times []float64
 	exp         []int
+	unmeasured  []bool // unmeasuredChannels: spectrum rows written as 0
 }
 
 // rowInputsOf is r's row inputs, copies of them with clone.
 func rowInputsOf(r *Result, clone bool) rowInputs {
-	in := rowInputs{names: r.Names, axis: r.Axis, times: r.Times}
+	in := rowInputs{names: r.Names, axis: r.Axis, times: r.Times, unmeasured: unmeasuredChannels(r)}
 	if len(r.Experiments) > 1 {
 		in.exp = r.ExpOfRow[:len(r.Times)]
 	}
 	if clone {
-		in = rowInputs{names: slices.Clone(in.names), axis: slices.Clone(in.axis), times: slices.Clone(in.times), exp: slices.Clone(in.exp)}
+		in = rowInputs{names: slices.Clone(in.names), axis: slices.Clone(in.axis), times: slices.Clone(in.times), exp: slices.Clone(in.exp),
+			unmeasured: in.unmeasured} // a slice of its own already
 	}
 	return in
 }
@@ -1116,11 +1119,11 @@ func rowInputsOf(r *Result, clone bool) rowInputs {
 // exactly the same numbers.
 func (in rowInputs) same(o rowInputs) bool {
 	return slices.Equal(in.names, o.names) && vecmath.SameBits(in.axis, o.axis) && vecmath.SameBits(in.times, o.times) &&
-		slices.Equal(in.exp, o.exp) && (in.exp == nil) == (o.exp == nil)
+		slices.Equal(in.exp, o.exp) && (in.exp == nil) == (o.exp == nil) && slices.Equal(in.unmeasured, o.unmeasured)
 }
 
 func (in rowInputs) sideRows() sideRows {
-	sr := sideRows{names: in.names, axis: formatted(in.axis), times: formatted(in.times), exper: make([][]byte, len(in.times))}
+	sr := sideRows{names: in.names, axis: formatted(in.axis), times: formatted(in.times), exper: make([][]byte, len(in.times)), unmeasured: in.unmeasured}
 	for i := range sr.exper {
 		sr.exper[i] = []byte("1")
 		if in.exp != nil {
@@ -1158,8 +1161,13 @@ func (sr sideRows) writeText(w *output.CSV, j int, side string, text []string, c
 			w.Text("")
 		}
 		w.Raw(pos[i])
+		blind := side == "spectrum" && i < len(sr.unmeasured) && sr.unmeasured[i]
 		for _, c := range cols {
-			w.Float(c(i))
+			if blind {
+				w.Float(0)
+			} else {
+				w.Float(c(i))
+			}
 		}
 		for _, t := range text {
 			w.Text(t)

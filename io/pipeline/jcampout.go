@@ -35,10 +35,11 @@ func writeSpectraJCAMP(r *Result, stage *output.Stage) error {
 	}
 	var b bytes.Buffer
 	fmt.Fprintf(&b, "##TITLE=bandsolve resolved spectra\n##JCAMP-DX=5.01\n##DATA TYPE=LINK\n##BLOCKS=%d\n", r.Components)
+	s := writtenSpectra(r)
 	for k, name := range r.Names {
 		y := make([]float64, len(r.Axis))
 		for i := range y {
-			y[i] = r.ALS.S.At(i, k)
+			y[i] = s.At(i, k)
 		}
 		blk := jcamp.Block{Title: name, DataType: dataType, XUnits: xUnits, YUnits: "ABSORBANCE",
 			X: r.Axis, Y: y, Labels: []jcamp.Label{

@@ -451,3 +451,56 @@ func refineBlind(r *Result, data mcr.Data, res *mcr.Result, opt mcr.Options, log
 
 // refinePasses bounds the resolutions of refineBlind.
 const refinePasses = 30
+
+// unmeasuredChannels marks the channels blind in every spectrum the fit
+// takes (an opaque band, a range every spectrum has at the cap): nothing
+// was measured there, so nothing determines the resolved spectra, and the
+// values the fit leaves (the baseline's lowering moves the solver's zeros
+// by a smooth polynomial; the refill takes them back) are no measurement.
+// The notes promise these channels are written as 0; nil when there are
+// none. A fresh slice on every call.
+func unmeasuredChannels(r *Result) []bool {
+	if r.Blind == nil || r.Blind.Count == 0 {
+		return nil
+	}
+	var rows [][]int
+	for i, cols := range r.Blind.Rows {
+		if !setAside(r.SetAside, i) {
+			rows = append(rows, cols)
+		}
+	}
+	every := everywhereBlind(rows)
+	if every == nil {
+		return nil
+	}
+	out := make([]bool, len(r.Axis))
+	for _, j := range every[0] {
+		if j < len(out) {
+			out[j] = true
+		}
+	}
+	return out
+}
+
+// writtenSpectra is the resolved spectra as the result files give them:
+// r.ALS.S, with the unmeasured channels (unmeasuredChannels) set to 0 in a
+// copy; nil when nothing was resolved (a run that found no change).
+func writtenSpectra(r *Result) mat.Matrix {
+	if r.ALS == nil || r.ALS.S == nil {
+		return nil
+	}
+	un := unmeasuredChannels(r)
+	if un == nil {
+		return r.ALS.S
+	}
+	s := mat.DenseCopyOf(r.ALS.S)
+	_, k := s.Dims()
+	for i, u := range un {
+		if u {
+			for j := 0; j < k; j++ {
+				s.Set(i, j, 0)
+			}
+		}
+	}
+	return s
+}

@@ -127,10 +127,11 @@ func WriteResults(r *Result, st *output.Stage) error {
 		var w output.CSV
 		w.Grow((len(r.Axis) + 1) * (k + 1) * 16)
 		w.Row(append([]string{r.AxisName}, r.Names...))
+		s := writtenSpectra(r)
 		for i, x := range r.Axis {
 			w.Float(x)
 			for j := 0; j < k; j++ {
-				w.Float(r.ALS.S.At(i, j))
+				w.Float(s.At(i, j))
 			}
 			w.End()
 		}

@@ -138,7 +138,7 @@ func opaqueNote(source, axisName string, axis []float64, runs [][2]int) string {
 	for _, r := range runs {
 		where = append(where, fmt.Sprintf("%s %g–%g", axisName, axis[r[0]], axis[r[1]]))
 	}
-	return fmt.Sprintf("%s: %s taken as nearly blind in every spectrum, an opaque band: its scatter in time is over %d times the typical channel's at an absorbance over %g above the typical channel's (the detector saw next to no light there: σ_A = σ_I/(I ln 10)), with its flanks out to where the noise is back within %d times the typical; these channels count neither toward the rank nor toward the outlier screen, and the fit leaves them out (weight zero), as single beams' points near zero counts are; the resolved spectra are not determined there (written as 0); --exclude LO:HI cuts such a range from the results",
+	return fmt.Sprintf("%s: %s taken as nearly blind in every spectrum, an opaque band: its scatter in time is over %d times the typical channel's at an absorbance over %g above the typical channel's (the detector saw next to no light there: σ_A = σ_I/(I ln 10)), with its flanks out to where the noise is back within %d times the typical; these channels count neither toward the rank nor toward the outlier screen, and the fit leaves them out (weight zero), as single beams' points near zero counts are; the resolved spectra are not determined there (written as 0, which is not a measured zero); --exclude LO:HI cuts such a range from the results",
 		source, strings.Join(where, ", "), opaqueOverTypical, float64(opaqueRise), opaqueFlank)
 }
 
