@@ -377,3 +377,46 @@ func TestRunFolderSuggestsPattern(t *testing.T) {
 		t.Errorf("in a batch: exit %d\n%s", r.code, r.stdout)
 	}
 }
+
+// A run that resolves the data but cannot fit the model asked for writes
+// its results and fails (CONTRACT.md's exit codes: 0 only when ok). The invented demo holds three species and the file asks for
+// 'A -> B' (two) with no --map. collect must not call that folder ok, must
+// name the model asked for and say why the kinetics were not done; and
+// --skip-done must not pass it as done with exit 0, where a plain run
+// fails (docs/campaigns.md). Before, status ok, kinetics_model empty, no
+// note, and "skipped" with exit 0.
+func TestKineticsNotDoneInCampaign(t *testing.T) {
+	root := t.TempDir()
+	writeDemoInputs(t, root)
+	writeText(t, filepath.Join(root, "runs", "r0.bsr"),
+		"paths-from ..\ndata series.csv\nblank blank.csv\nkind single-beam\npre 3\nbands off\nreport off\nchecks off\nmodel A -> B\n")
+	writeText(t, filepath.Join(root, "runs", "r1.bsr"), // a batch of two: folders batch/r0 and batch/r1
+		"paths-from ..\ndata series.csv\nblank blank.csv\nkind single-beam\npre 3\nbands off\nreport off\nchecks off\n")
+	glob := filepath.Join(root, "runs", "*.bsr")
+	batch := filepath.Join(root, "batch")
+	first := run("run", glob, "--out", batch, "--quiet")
+	if first.code == 0 || !strings.Contains(first.stdout+first.stderr, "kinetics not done") {
+		t.Fatalf("first run: exit %d, want a failure with kinetics not done\n%s%s", first.code, first.stdout, first.stderr)
+	}
+	c := run("collect", filepath.Join(batch, "r0"))
+	if c.code != 0 {
+		t.Fatalf("collect: exit %d: %s", c.code, c.stderr)
+	}
+	rows, err := csv.NewReader(strings.NewReader(c.stdout)).ReadAll()
+	if err != nil || len(rows) != 2 {
+		t.Fatalf("collect wrote %q (%v)", c.stdout, err)
+	}
+	cell := map[string]string{}
+	for i, h := range rows[0] {
+		cell[h] = rows[1][i]
+	}
+	if cell["status"] != "kinetics not done" || cell["kinetics_model"] != "A -> B" ||
+		!strings.Contains(cell["notes"], "kinetics not done: the resolution has 3 components") {
+		t.Errorf("collect: status %q, kinetics_model %q, notes %q", cell["status"], cell["kinetics_model"], cell["notes"])
+	}
+	again := run("run", glob, "--out", batch, "--skip-done")
+	if again.code != first.code || strings.Contains(again.stdout, filepath.Join(batch, "r0")+" already holds") ||
+		!regexp.MustCompile(`r0\.bsr +failed`).MatchString(again.stdout) {
+		t.Errorf("--skip-done: exit %d, want %d as the plain run, and r0 failed, not skipped\n%s%s", again.code, first.code, again.stdout, again.stderr)
+	}
+}

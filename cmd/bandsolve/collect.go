@@ -16,11 +16,13 @@ const collectHelp = `Usage: bandsolve collect OUT… [--out FILE]
 
 Writes one CSV table of the key results of many output folders, a row per
 folder in the order given, to compare a series of experiments (say, a rate
-constant against the catalyst loading). Columns: folder, status (ok, or why
-the folder has no readable summary.json), components, rank_estimate, mode,
+constant against the catalyst loading). Columns: folder, status (ok;
+kinetics not done, with the reason in notes; or why the folder has no
+readable summary.json), components, rank_estimate, mode,
 spectra, points, noise_sigma, lack_of_fit_percent,
 noise_lack_of_fit_percent, residual_to_noise (the run's residual over the
-noise, as it weighted its fit: 1 = fits to the noise), kinetics_model, then
+noise, as it weighted its fit: 1 = fits to the noise), kinetics_model (the
+model asked for, fitted or not), then
 k_per_s[STEP] and stderr_per_s[STEP] of the reported fit for every kinetic
 step met (empty for a constant the data do not determine), then, when some
 folder fitted its start time (--fit-t0), t0_fitted_s and stderr_t0_s (empty

@@ -96,6 +96,7 @@ Adding experiments to a campaign: --skip-done skips a command file whose
 output folder already holds a complete result of the same settings (its
 as-run record, setting by setting) and inputs (their SHA-256 in its
 manifest); the table lists it as skipped and the exit status stays 0. A
+folder whose kinetics were not done (its run failed) runs again. A
 folder holding anything else is an error and is kept as it is:
 
   bandsolve run 'runs/*.bsr' --out batch/ --skip-done
@@ -377,6 +378,16 @@ func skipIfDone(o outcome, s *pipeline.Settings, st pipeline.Streams) (outcome, 
 		}
 		return o, true
 	case err == nil, s.Force && errors.Is(err, pipeline.ErrOtherAnalysis):
+		return o, false
+	case errors.Is(err, pipeline.ErrKineticsNotDone):
+		// The run that wrote it failed; skipped, the batch would exit 0
+		// where a plain run fails. It runs again into its own folder (a
+		// complete result of this analysis, which --force would replace)
+		// and fails or succeeds as a plain run does.
+		if !s.Quiet && !s.JSON {
+			fmt.Fprintf(st.Out, "not skipped: %v; running it again (--skip-done)\n", err)
+		}
+		s.Force = true
 		return o, false
 	case errors.Is(err, pipeline.ErrOtherAnalysis) && output.Made(o.out):
 		return fail(o, fmt.Errorf("--skip-done: %w; it is kept: give --force to replace it, or another --out", err)), true

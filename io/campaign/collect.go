@@ -156,6 +156,7 @@ func (p *ratePairs) cells(keys []string) []string {
 // constants by step, and every fit's by keyedStep.
 type row struct {
 	cells        map[string]string
+	asked        map[string]string // settings of the as-run record (recordContext), by keyword
 	steps, keyed ratePairs
 	notes        []string
 	t0Fitted     bool
@@ -169,6 +170,10 @@ func (r *row) pick(names []string) []string {
 	return c
 }
 
+// KineticsNotDone is the status of a folder whose run resolved the data
+// but did not fit the model asked for (summary.json's kinetics_not_done).
+const KineticsNotDone = "kinetics not done"
+
 func collectRow(dir string) (row, error) {
 	r := row{cells: map[string]string{"folder": dir}}
 	s, err := readSummary(dir)
@@ -177,6 +182,13 @@ func collectRow(dir string) (row, error) {
 		return r, err
 	}
 	r.cells["status"] = "ok"
+	if why, ok := s.scalar("kinetics_not_done"); ok && why != "" {
+		// The resolution stands, but the run failed (exit 1 or 2): a
+		// row that read "ok" with empty rate constants looked like a
+		// run without --model.
+		r.cells["status"] = KineticsNotDone
+		r.notes = append(r.notes, "kinetics not done: "+why)
+	}
 	for _, k := range fixedColumns[2:] {
 		if v, ok := s.scalar(k); ok {
 			r.cells[k] = v
@@ -190,6 +202,9 @@ func collectRow(dir string) (row, error) {
 	r.cells["water_vapour"], r.cells["vapour_line_change"] = vapourCells(s.object("water_vapour"))
 	r.summaryContext(s)
 	r.recordContext(dir)
+	if r.cells["kinetics_model"] == "" {
+		r.cells["kinetics_model"] = r.asked["model"] // the model asked for, fitted or not
+	}
 	r.cells["notes"] = strings.Join(r.notes, "; ")
 	return r, nil
 }

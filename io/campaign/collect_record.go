@@ -37,7 +37,9 @@ func (r *row) recordContext(dir string) {
 	}
 	vals := map[string][]string{}
 	h := sha256.New()
+	r.asked = map[string]string{}
 	for _, e := range f.Entries {
+		r.asked[e.Key] = e.Value
 		if col, ok := recordColumns[e.Key]; ok && e.Value != "" {
 			vals[col] = append(vals[col], e.Value)
 		}

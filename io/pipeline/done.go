@@ -1,6 +1,7 @@
 package pipeline
 
 import (
+	"encoding/json"
 	"errors"
 	"fmt"
 	"io/fs"
@@ -14,6 +15,12 @@ import (
 // ErrOtherAnalysis marks an output folder that holds something other than
 // a complete earlier result of the analysis asked for (Done).
 var ErrOtherAnalysis = errors.New("not this analysis's result")
+
+// ErrKineticsNotDone marks an output folder that holds a complete result
+// of the analysis asked for whose kinetics were not done (summary.json's
+// kinetics_not_done): the run that wrote it failed, and so would a rerun,
+// so it is not a result to skip.
+var ErrKineticsNotDone = errors.New("its kinetics were not done")
 
 // Done says whether out already holds a complete result of the analysis s
 // describes, so that a campaign rerun after adding a command file can skip
@@ -72,8 +79,33 @@ func Done(out string, s *Settings) (bool, error) {
 	if !v.OK() {
 		return false, fmt.Errorf("%s: %w: %s", out, ErrOtherAnalysis, v.Differences[0])
 	}
+	if why, err := kineticsNotDoneIn(root); err != nil {
+		return false, fmt.Errorf("%s: %w: %v", out, ErrOtherAnalysis, err)
+	} else if why != "" {
+		return false, fmt.Errorf("%s: %w (%s)", out, ErrKineticsNotDone, why)
+	}
 	return true, nil
 }
+
+// kineticsNotDoneIn is the folder's summary.json's kinetics_not_done: why
+// the model asked for was not fitted, "" when it was or none was asked for.
+func kineticsNotDoneIn(root *os.Root) (string, error) {
+	b, err := readInside(root, "summary.json", maxSummaryBytes)
+	if err != nil {
+		return "", fmt.Errorf("summary.json: %v", err)
+	}
+	var s struct {
+		Why string `json:"kinetics_not_done"`
+	}
+	if err := json.Unmarshal(b, &s); err != nil {
+		return "", fmt.Errorf("summary.json: %v", err)
+	}
+	return s.Why, nil
+}
+
+// maxSummaryBytes bounds what is read of a summary.json, as collect does
+// (a real one is tens of kB).
+const maxSummaryBytes = 16 << 20
 
 // sameSettings names the first recorded setting in which the record (was)
 // and the settings asked for (now) differ, "" when none does. Paths are
