@@ -124,8 +124,9 @@ func freeSpectrumAt(r *Result, c *mat.Dense, row []float64, j int) ([]float64, b
 }
 
 // refreshFit sets res's fit figures again from the data as they are now, in
-// the metric ALS works in, as withoutBaseline does after it changes the data.
-func refreshFit(data mcr.Data, r *Result, res *mcr.Result) {
+// the metric ALS works in (withoutBaseline, after it changes the data, and
+// absorbBlankOffset), and returns the sum of squares they are taken of.
+func refreshFit(data mcr.Data, r *Result, res *mcr.Result) float64 {
 	row, col := weightsOfData(data)
 	fit := mcr.FitWeighted(r.D, res.C, res.S, row, col, nil)
 	res.ResidualSS = sq(fit.LackOfFitPercent/100) * fit.DataSS
@@ -137,4 +138,5 @@ func refreshFit(data mcr.Data, r *Result, res *mcr.Result) {
 		res.LackOfFitPercent = 100 * math.Sqrt(res.ResidualSS/total)
 		res.ExplainedPercent = 100 * (1 - res.ResidualSS/total)
 	}
+	return total
 }

@@ -1089,17 +1089,7 @@ func withoutBaseline(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dens
 		// The fit's figures are now those of the data without the baseline,
 		// in the metric ALS works in (weighted with the noise weights), which
 		// the checks and their refits compare with.
-		row, col := weightsOfData(data)
-		fit := mcr.FitWeighted(r.D, res.C, res.S, row, col, nil)
-		res.ResidualSS = sq(fit.LackOfFitPercent/100) * fit.DataSS
-		total := fit.DataSS
-		if row != nil {
-			res.ResidualSS, total = fit.WeightedSS, data.FrobeniusSq()
-		}
-		if total > 0 {
-			res.LackOfFitPercent = 100 * math.Sqrt(res.ResidualSS/total)
-			res.ExplainedPercent = 100 * (1 - res.ResidualSS/total)
-		}
+		total := refreshFit(data, r, res)
 		if total > 0 && given > 0 {
 			r.checkScale = math.Sqrt(total / given)
 		}
