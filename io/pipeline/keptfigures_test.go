@@ -54,13 +54,7 @@ func TestFitFiguresCountTheSpectraKept(t *testing.T) {
 		if r.Blind != nil && r.Blind.Count > 0 {
 			t.Fatalf("--baseline %s: %d blind points; the invented beams have none", baseline, r.Blind.Count)
 		}
-		var model mat.Dense
-		model.Mul(r.ALS.C, r.ALS.S.T())
-		if r.BaselineProfiles != nil {
-			var bp mat.Dense
-			bp.Mul(r.BaselineProfiles, r.BaselineShapes.T())
-			model.Add(&model, &bp)
-		}
+		model := fittedModel(r)
 		n, m := s.beams.Dims()
 		k := r.Components
 		rss, dss, chi, noise := 0.0, 0.0, 0.0, 0.0

@@ -303,13 +303,7 @@ func TestLackOfFitIsOfTheDataAsGiven(t *testing.T) {
 			t.Fatal(err)
 		}
 		n, m := s.beams.Dims()
-		var model mat.Dense
-		model.Mul(r.ALS.C, r.ALS.S.T())
-		if r.BaselineProfiles != nil {
-			var bp mat.Dense
-			bp.Mul(r.BaselineProfiles, r.BaselineShapes.T())
-			model.Add(&model, &bp)
-		}
+		model := fittedModel(r)
 		rss, dss := 0.0, 0.0
 		for i := range n {
 			for j := range m {
@@ -327,4 +321,17 @@ func TestLackOfFitIsOfTheDataAsGiven(t *testing.T) {
 	if a, b, c := noiseLOF["off"], noiseLOF["offset"], noiseLOF["poly:2"]; math.Abs(b/a-1) > 1e-3 || math.Abs(c/a-1) > 1e-3 {
 		t.Errorf("noise alone %.5g %% (off), %.5g %% (offset), %.5g %% (poly:2): the same data and noise", a, b, c)
 	}
+}
+
+// fittedModel is the run's model of its data, C Sᵀ plus the fitted baseline
+// B Pᵀ when there is one.
+func fittedModel(r *Result) *mat.Dense {
+	var model mat.Dense
+	model.Mul(r.ALS.C, r.ALS.S.T())
+	if r.BaselineProfiles != nil {
+		var bp mat.Dense
+		bp.Mul(r.BaselineProfiles, r.BaselineShapes.T())
+		model.Add(&model, &bp)
+	}
+	return &model
 }

@@ -988,11 +988,9 @@ func keptScaledRows(r *Result, data mcr.Data) (*mat.Dense, int) {
 	return out, len(keep)
 }
 
-// keptBlind is what the baseline's test leaves out of keptScaledRows's
-// matrix, row by row: every blind point when the noise weights' low-rank
-// model filled them (its rank-k fits leave them as they are), else only the
-// channels blind in every spectrum, whose placeholders are not data.
-func keptBlind(r *Result, data mcr.Data) [][]int {
+// blindRowsKept lists the blind channels of each spectrum not set aside, in
+// row order; nil when nothing is blind.
+func blindRowsKept(r *Result) [][]int {
 	if r.Blind == nil || r.Blind.Count == 0 {
 		return nil
 	}
@@ -1001,6 +999,18 @@ func keptBlind(r *Result, data mcr.Data) [][]int {
 		if !setAside(r.SetAside, i) {
 			rows = append(rows, cols)
 		}
+	}
+	return rows
+}
+
+// keptBlind is what the baseline's test leaves out of keptScaledRows's
+// matrix, row by row: every blind point when the noise weights' low-rank
+// model filled them (its rank-k fits leave them as they are), else only the
+// channels blind in every spectrum, whose placeholders are not data.
+func keptBlind(r *Result, data mcr.Data) [][]int {
+	rows := blindRowsKept(r)
+	if rows == nil {
+		return nil
 	}
 	if row, col := weightsOfData(data); row == nil || col == nil {
 		return everywhereBlind(rows)

@@ -460,14 +460,9 @@ const refinePasses = 30
 // The notes promise these channels are written as 0; nil when there are
 // none. A fresh slice on every call.
 func unmeasuredChannels(r *Result) []bool {
-	if r.Blind == nil || r.Blind.Count == 0 {
+	rows := blindRowsKept(r)
+	if rows == nil {
 		return nil
-	}
-	var rows [][]int
-	for i, cols := range r.Blind.Rows {
-		if !setAside(r.SetAside, i) {
-			rows = append(rows, cols)
-		}
 	}
 	every := everywhereBlind(rows)
 	if every == nil {
