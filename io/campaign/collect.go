@@ -314,6 +314,26 @@ func (r *row) fit(f object) {
 	if n := undeterminedNote(method, rcs, sum); n != "" {
 		r.notes = append(r.notes, n)
 	}
+	r.oneLevel(method, model, f.object("one_noise_level"))
+}
+
+// oneLevelFit names the data fit made again with one noise level for every
+// spectrum (summary.json's one_noise_level) in the keyed columns, beside
+// the fit it repeats: a chemist comparing rate constants across a series
+// sees at once which of them the spectra's weights move.
+const oneLevelFit = " with one noise level"
+
+// oneLevel adds a fit's one_noise_level rate constants under the key of
+// the fit with oneLevelFit after its name (the run's warning, counted in
+// warnings, says when they differ beyond the noise).
+func (r *row) oneLevel(method, model string, ol object) {
+	if ol == nil {
+		return
+	}
+	for _, rc := range ol.list("rate_constants") {
+		step, k, se := rateCells(rc)
+		r.keyed.set(keyedStep(method+oneLevelFit, model, step), k, se)
+	}
 }
 
 // keyedStep is the key of a rate constant that no other fit or model

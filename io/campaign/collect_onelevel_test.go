@@ -1,0 +1,42 @@
+package campaign
+
+import (
+	"bytes"
+	"encoding/csv"
+	"path/filepath"
+	"slices"
+	"testing"
+)
+
+// The data fit made again with one noise level (summary.json's
+// kinetics.fits[].one_noise_level) has its rate constants in keyed columns
+// of their own, "data with one noise level | STEPS | STEP", the values as
+// summary.json writes them; a folder without it leaves them empty, and the
+// reported fit's columns keep their values.
+func TestCollectOneNoiseLevel(t *testing.T) {
+	root := t.TempDir()
+	with := writeSummary(t, filepath.Join(root, "with"), `{"kinetics": {"model": "A -> B", "method": "data",
+  "rate_constants": [{"step": "A -> B", "k_per_s": 0.001278687388, "stderr_per_s": 0.0001427693697}],
+  "fits": [{"method": "data", "rate_constants": [{"step": "A -> B", "k_per_s": 0.001278687388, "stderr_per_s": 0.0001427693697}],
+    "one_noise_level": {"rate_constants": [{"step": "A -> B", "k_per_s": 0.001641260346, "stderr_per_s": 0.0002046185968, "z": 2.473551095, "p_value": 0.0133777673, "hausman": true}], "test": "t"}}]}}`)
+	without := writeSummary(t, filepath.Join(root, "without"), `{"kinetics": {"model": "A -> B", "method": "data",
+  "rate_constants": [{"step": "A -> B", "k_per_s": 0.004, "stderr_per_s": 3e-7}],
+  "fits": [{"method": "data", "rate_constants": [{"step": "A -> B", "k_per_s": 0.004, "stderr_per_s": 3e-7}]}]}}`)
+	tab, _ := Collect([]string{with, without})
+	rows, err := csv.NewReader(bytes.NewReader(tab.CSV())).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	k := slices.Index(rows[0], "k_per_s[data with one noise level | A -> B | A -> B]")
+	se := slices.Index(rows[0], "stderr_per_s[data with one noise level | A -> B | A -> B]")
+	own := slices.Index(rows[0], "k_per_s[data | A -> B | A -> B]")
+	if k < 0 || se < 0 || own < 0 {
+		t.Fatalf("header %q: want the one-level and the data fit's keyed columns", rows[0])
+	}
+	if rows[1][k] != "0.001641260346" || rows[1][se] != "0.0002046185968" || rows[1][own] != "0.001278687388" {
+		t.Errorf("cells %q, %q, %q: want summary.json's 0.001641260346, 0.0002046185968 and 0.001278687388", rows[1][k], rows[1][se], rows[1][own])
+	}
+	if rows[2][k] != "" || rows[2][se] != "" || rows[2][own] != "0.004" {
+		t.Errorf("folder without it: cells %q, %q, own %q", rows[2][k], rows[2][se], rows[2][own])
+	}
+}
