@@ -234,3 +234,72 @@ func TestSmoothMisfitIsNotOutliers(t *testing.T) {
 		t.Errorf("spectrum %d (t = %g s) set aside: %s; the data have no outliers", sa.Row, r.Times[sa.Row], sa.Reason)
 	}
 }
+
+// A large bubble does not hide smaller gas lines. The invented series of
+// makeBateman (A → B → C, Bateman 1910; noise constant in counts) with a
+// bubble at row 40 (every band half as strong, ν⁴ scatter added, Rayleigh)
+// and weak gas lines (Gaussian, 1.5 cm⁻¹, the narrowest a condensed sample
+// lacks: common practice) at rows 20 and 70. The fit made with the bubble
+// is pulled by it, and the spread of every spectrum's residual with it, so
+// one screen found the bubble alone and the lines stayed in the fit at
+// 1.12 times the noise; the screen of the fit made without the bubble finds
+// them (masking: Rousseeuw & Leroy, Robust Regression and Outlier Detection,
+// 1987, ch. 6). The rows set aside are those the data were made with, and
+// the rest fits to the noise: √(χ²/ν) ≈ 1 (limit 1.05, this test's).
+func TestBubbleDoesNotHideGasLines(t *testing.T) {
+	s := makeBateman(t, 2e-3, 6e-4, 0, 5, 3)
+	var a mat.Dense
+	a.Mul(s.profiles, s.spectra.T())
+	lines := []float64{1790, 1750, 1698, 1652, 1558, 1540, 1508, 1472, 1436, 1396}
+	countsNoise(s, 4, 5, func(i, j int) float64 {
+		switch i {
+		case 40:
+			return -0.5*a.At(i, j) + math.Pow(s.axis[j]/4000, 4)
+		case 20, 70:
+			v := 0.0
+			for q, c := range lines {
+				d := (s.axis[j] - c) / 1.5
+				v += 0.06 * (0.02 + 0.004*float64(q)) * math.Exp(-0.5*d*d)
+			}
+			return v
+		}
+		return 0
+	})
+	series, blank := s.write(t)
+	st := NewSettings()
+	st.Data, st.Kind, st.Blanks, st.Pre = []string{series}, "single-beam", []string{blank}, 3
+	st.Report, st.Checks, st.Bands = "off", "off", "off"
+	r, err := Run(st, io.Discard)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got []int
+	for _, sa := range r.SetAside {
+		got = append(got, sa.Row)
+	}
+	slices.Sort(got)
+	if want := []int{20, 40, 70}; !slices.Equal(got, want) {
+		t.Errorf("set aside %v; want the bubble and the two spectra with gas lines %v", got, want)
+	}
+	if q, ok := residualToNoise(r); !ok || q > 1.05 {
+		t.Errorf("residual %.3g times the noise; want about 1 with the three aside", q)
+	}
+}
+
+// The baseline order chosen again once spectra are set aside fits the
+// factors the first choice fitted less the outlier factors that left with
+// them (outliersSetAside): a factor of two spectra still in the data is
+// still a factor of the data (the rank-k fit it belongs to, Eckart & Young
+// 1936), and left out its lines passed into the residual that judges the
+// baseline.
+func TestRechosenBaselineKeepsOutlierFactorsStillIn(t *testing.T) {
+	r := &Result{orderOutliers: [][]int{{48}, {20, 40}, {0, 12}}}
+	r.SetAside = []SetAside{{Row: 48}, {Row: 20}}
+	if got := outliersSetAside(r); got != 1 {
+		t.Errorf("bubble (48) aside, gas lines (20, 40) half aside: %d outlier factors left; want 1", got)
+	}
+	r.SetAside = append(r.SetAside, SetAside{Row: 40})
+	if got := outliersSetAside(r); got != 2 {
+		t.Errorf("48, 20 and 40 aside: %d outlier factors left; want 2", got)
+	}
+}

@@ -148,9 +148,11 @@ type Result struct {
 	// aside.
 	BaselineOrder int
 	// orderFactors are the factors besides the baseline the F-test of
-	// --baseline auto fitted, orderOutliers how many of them were outlier
-	// spectra (chooseBaseline); rechooseBaseline takes the same less those.
-	orderFactors, orderOutliers int
+	// --baseline auto fitted, orderOutliers the rows of those of them that
+	// were outlier spectra (chooseBaseline); rechooseBaseline takes the same
+	// less those whose spectra it sets aside.
+	orderFactors  int
+	orderOutliers [][]int
 	// orderNoise is the correlation along the axis the F-test of --baseline
 	// auto measured (raiseBaselineHeld counts its points the same way).
 	orderNoise svd.AxisNoise
