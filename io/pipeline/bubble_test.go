@@ -33,6 +33,23 @@ func bubbleSeries(t *testing.T, seed uint64) (*synth, []int) {
 	return s, rows
 }
 
+// runBubbleSeries resolves bubbleSeries (seed 3) with --baseline baseline
+// and returns the run and the bubbles' rows.
+func runBubbleSeries(t *testing.T, baseline string) (*Result, []int) {
+	t.Helper()
+	s, rows := bubbleSeries(t, 3)
+	series, blank := s.write(t)
+	st := NewSettings()
+	st.Data, st.Kind, st.Blanks = []string{series}, "single-beam", []string{blank}
+	st.Report, st.Checks, st.Bands = "off", "off", "off"
+	st.Baseline = baseline
+	r, err := Run(st, io.Discard)
+	if err != nil {
+		t.Fatalf("--baseline %s: %v", baseline, err)
+	}
+	return r, rows
+}
+
 // Bubble spectra are set aside whatever the baseline setting, with a reason
 // that names a broad loss, not sharp lines; and with --baseline auto the
 // order is chosen without them: the data have no baseline (the analytic
@@ -41,16 +58,7 @@ func bubbleSeries(t *testing.T, seed uint64) (*synth, []int) {
 // TestBaselineAutoChoosesNoneWithoutBaseline).
 func TestBubbleSpectraSetAsideWhateverTheBaseline(t *testing.T) {
 	for _, baseline := range []string{"auto", "off"} {
-		s, rows := bubbleSeries(t, 3)
-		series, blank := s.write(t)
-		st := NewSettings()
-		st.Data, st.Kind, st.Blanks = []string{series}, "single-beam", []string{blank}
-		st.Report, st.Checks, st.Bands = "off", "off", "off"
-		st.Baseline = baseline
-		r, err := Run(st, io.Discard)
-		if err != nil {
-			t.Fatalf("--baseline %s: %v", baseline, err)
-		}
+		r, rows := runBubbleSeries(t, baseline)
 		var got []int
 		for _, sa := range r.SetAside {
 			got = append(got, sa.Row)

@@ -21,16 +21,7 @@ import (
 // ≈ 1 (the definition of a fit to the noise; limit 1.1, this test's).
 func TestBubbleSetAsideWithABaselineFitted(t *testing.T) {
 	for _, baseline := range []string{"poly:2", "offset"} {
-		s, rows := bubbleSeries(t, 3)
-		series, blank := s.write(t)
-		st := NewSettings()
-		st.Data, st.Kind, st.Blanks = []string{series}, "single-beam", []string{blank}
-		st.Report, st.Checks, st.Bands = "off", "off", "off"
-		st.Baseline = baseline
-		r, err := Run(st, io.Discard)
-		if err != nil {
-			t.Fatalf("--baseline %s: %v", baseline, err)
-		}
+		r, rows := runBubbleSeries(t, baseline)
 		var got []int
 		for _, sa := range r.SetAside {
 			got = append(got, sa.Row)

@@ -34,7 +34,7 @@ import (
 // V₁ + V_w, the variance of two independent estimates, which is larger:
 // the test then errs toward silence.
 
-// OneLevelRate is one step's constant from the fit with one noise level,
+// oneLevelRate is one step's constant from the fit with one noise level,
 // with the test of its difference from the reported one.
 type oneLevelRate struct {
 	K, StdErr float64

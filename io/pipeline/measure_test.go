@@ -60,6 +60,19 @@ func solventBeams(s *synth, sigI, solventA float64, seed uint64) {
 	}
 }
 
+// checkLitCosines fails t unless every species' resolved spectrum, on the
+// channels keep says light reaches, and its profile lie at cosine ≥ 0.99
+// to the truth (litCosines).
+func checkLitCosines(t *testing.T, s *synth, r *Result, keep func(x float64) bool) {
+	t.Helper()
+	spec, prof := litCosines(s, r, keep)
+	for j := range spec {
+		if spec[j] < 0.99 || prof[j] < 0.99 {
+			t.Errorf("species %d: spectrum cosine %.5f, profile cosine %.5f; want ≥ 0.99", j+1, spec[j], prof[j])
+		}
+	}
+}
+
 // litCosines compares true and resolved spectra on the channels keep
 // says light reaches, and profiles in full (best match for each).
 func litCosines(s *synth, r *Result, keep func(x float64) bool) (spec, prof []float64) {
@@ -98,12 +111,7 @@ func TestStrongSolventBand(t *testing.T) {
 	if r.Rank.Estimate != 2 || r.Components != 2 {
 		t.Fatalf("rank %d, components %d; want 2 (%s)", r.Rank.Estimate, r.Components, r.Rank.Reason)
 	}
-	spec, prof := litCosines(s, r, func(x float64) bool { return x > 1562 || x < 1498 })
-	for j := range spec {
-		if spec[j] < 0.99 || prof[j] < 0.99 {
-			t.Errorf("species %d: spectrum cosine %.5f, profile cosine %.5f; want ≥ 0.99", j+1, spec[j], prof[j])
-		}
-	}
+	checkLitCosines(t, s, r, func(x float64) bool { return x > 1562 || x < 1498 })
 	if !anyContains(r.Notes, "noise is far from uniform") || !anyContains(r.Notes, "wavenumber 15") {
 		t.Errorf("no note on the noisy solvent band: %q", r.Notes)
 	}
@@ -148,12 +156,7 @@ func TestSaturatedBandDoesNotStop(t *testing.T) {
 	if r.Rank.Estimate != 2 || r.Components != 2 {
 		t.Fatalf("rank %d, components %d; want 2 (%s)", r.Rank.Estimate, r.Components, r.Rank.Reason)
 	}
-	spec, prof := litCosines(s, r, func(x float64) bool { return math.Abs(x-1250) > 12 })
-	for j := range spec {
-		if spec[j] < 0.99 || prof[j] < 0.99 {
-			t.Errorf("species %d: spectrum cosine %.5f, profile cosine %.5f; want ≥ 0.99", j+1, spec[j], prof[j])
-		}
-	}
+	checkLitCosines(t, s, r, func(x float64) bool { return math.Abs(x-1250) > 12 })
 }
 
 // residual_to_noise is recomputed from the written files alone: the

@@ -1790,7 +1790,7 @@ func keepClippedBlank(blind *Blind, ceiling float64, blank []float64, n int) []b
 			continue
 		}
 		if cnt == nil {
-			cnt, kept = blindPerChannel(blind, len(blank)), make([]bool, len(blank))
+			cnt, kept = capsPerChannel(blind, len(blank)), make([]bool, len(blank))
 		}
 		if 2*cnt[j] > n {
 			blind.addChannel(j)
@@ -1825,17 +1825,6 @@ func blankOffsetNote(source, axisName string, axis []float64, kept []bool) []str
 		"the profiles and the differences between the species' spectra are determined there, each spectrum only up to that common amount: "+
 		"the spectra shown are the lowest the physics allows (the true blank is at least the ceiling, and no spectrum is negative), and the true ones may lie higher by one amount per channel, common to all species",
 		source, listSome(parts, 5), count)}
-}
-
-// blindPerChannel counts each channel's blind points.
-func blindPerChannel(b *Blind, m int) []int {
-	cnt := make([]int, m)
-	for _, r := range b.Rows {
-		for _, j := range r {
-			cnt[j]++
-		}
-	}
-	return cnt
 }
 
 // checkBlankAndReferenceBeams refuses a blank or a reference file that is not a
