@@ -110,7 +110,11 @@ type MinorTest struct {
 	// same outcome; Finding is what differs, this factor's own figures.
 	Rule, Finding string
 	reactions     bool // components are reactions (spectra of either sign)
-	Refit         *Result
+	// col are the data's channel weights (nil: none) and freeRows the rows the
+	// noise edge outside the bands is taken on, kept for OwnBandBeyond.
+	col      []float64
+	freeRows int
+	Refit    *Result
 }
 
 // Limits of the verdict (see the package comment above).

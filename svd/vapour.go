@@ -689,6 +689,16 @@ func InVapourRange(x float64) bool {
 	return false
 }
 
+// InVapourLines says whether axis value x (cm⁻¹) lies where water vapour
+// has lines at all: its bending lines over about 1300–2000 cm⁻¹ and its
+// stretching lines over about 3450–4000 cm⁻¹ (the package comment; from
+// memory), wider than the ranges the check reads (InVapourRange), which
+// keep clear of condensed-phase bands. What a change of the vapour explains
+// lies here, its stretching lines above 3950 cm⁻¹ included.
+func InVapourLines(x float64) bool {
+	return x >= 1300 && x <= 2000 || x >= 3450 && x <= 4000
+}
+
 // points counts the windows' high-passed points.
 func (v *VapourCheck) points() int {
 	k := 0

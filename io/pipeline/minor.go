@@ -7,6 +7,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/bandsolve/bandsolve/internal/pvalue"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/mcr"
 	"github.com/bandsolve/bandsolve/svd"
@@ -127,28 +128,26 @@ func testMinor(r *Result, data mcr.Data, res *mcr.Result, opt mcr.Options, log i
 
 // vapourRefitLines is the share of the refit's extra spectrum's narrow
 // lines (high-passed, noise-weighted, in the ranges the vapour check
-// examined) that must be the vapour's pattern, and vapourRefitDrop the
-// share of its drop outside the other spectra's bands that must lie in the
-// vapour's ranges, for the extra component to be the vapour's change
-// (vapourRefit). A species with a sharp band of its own there has its own
-// lobes after the high-pass, not the forest's pattern; the vapour's factor
-// in TestVapourFactorNotASpecies gives 0.58 and 0.90 (another draw of
-// such a series 0.51 and 0.94).
-const (
-	vapourRefitLines = 0.25
-	vapourRefitDrop  = 0.5
-)
+// examined) that must be the vapour's pattern for the extra component to
+// be the vapour's change (vapourRefit). A species with a sharp band of its
+// own there has its own lobes after the high-pass, not the forest's
+// pattern; the vapour's factor in TestVapourFactorNotASpecies gives 0.58
+// (another draw of such a series 0.51), the noisy copies of the real
+// urethane series 0.90.
+const vapourRefitLines = 0.25
 
 // vapourRefit turns a species verdict into a finding of the water vapour
 // when the vapour check found changing lines (svd.CheckVapour) and the
 // refit's extra component is their change: its spectrum's high-passed,
 // noise-weighted part where the check read the lines is largely the lines'
-// pattern (svd.VapourCheck.PatternShare) and most of its drop outside the
-// other spectra's bands lies in the vapour's ranges. The refit calls it a species
-// because the lines are a band of its own, narrow and outside the others';
-// but a gas in the beam path is not chemistry, and counting it would
-// resolve one more species that is a copy of the others with the lines on
-// it.
+// pattern (svd.VapourCheck.PatternShare), and with the channels where the
+// vapour has lines set apart (svd.InVapourLines) what it explains has no
+// band of its own left (mcr.MinorTest.OwnBandBeyond: the refit's own
+// limits). The refit calls it a species because the lines are a band of
+// its own, narrow and outside the others'; but a gas in the beam path is
+// not chemistry, and counting it would resolve one more species that is a
+// copy of the others with the lines on it. A species that changes with the
+// vapour keeps its band outside the lines and stays a species.
 func vapourRefit(r *Result, mt *mcr.MinorTest) {
 	v := r.Vapour
 	if v == nil || !v.Detected || mt == nil || !mt.Species || mt.Refit == nil {
@@ -159,25 +158,23 @@ func vapourRefit(r *Result, mt *mcr.MinorTest) {
 		return
 	}
 	share := v.PatternShare(s)
-	var in, out float64
-	for j, dr := range mt.ChannelDrop {
-		if mt.InBand[j] {
-			continue
-		}
-		out += dr
-		if svd.InVapourRange(r.Axis[j]) {
-			in += dr
-		}
+	lines := make([]bool, len(r.Axis))
+	for j, x := range r.Axis {
+		lines[j] = svd.InVapourLines(x)
 	}
-	if share < vapourRefitLines || !(out > 0) || in/out < vapourRefitDrop {
+	beyond := mt.OwnBandBeyond(lines, r.Settings.Alpha)
+	if share < vapourRefitLines || beyond.Own {
 		return
 	}
 	ranges := fmt.Sprintf("%.4g–%.4g cm⁻¹", v.Lo, v.Hi) // where the pattern is read
 	mt.Species = false
-	mt.Finding = fmt.Sprintf("%.0f %% of its spectrum's narrow lines in %s (high-passed, noise-weighted) is the pattern of the water-vapour lines found changing, and %.0f %% of its drop outside the other spectra's bands lies in the vapour's ranges (%s)", 100*share, ranges, 100*in/out, vapourRangesAll())
-	mt.Rule = fmt.Sprintf("a component whose spectrum's narrow lines are largely (≥ %.0f %%) the pattern of the water-vapour lines found changing, with most (≥ %.0f %%) of its drop outside the other spectra's bands in the vapour's ranges, is the change of the vapour in the beam path, not a species, though the refit alone would count it (the lines are a band of its own)", 100*vapourRefitLines, 100*vapourRefitDrop)
+	mt.Finding = fmt.Sprintf("%.0f %% of its spectrum's narrow lines in %s (high-passed, noise-weighted) is the pattern of the water-vapour lines found changing, and outside the other spectra's bands and the vapour's lines (%s) it has no band of its own: %.0f %% of the drop lies there (%s), and per channel it reaches there %.0f %% of its largest value", 100*share, ranges, vapourLinesText, 100*beyond.Share, pvalue.Text(beyond.Significance), 100*beyond.Peak)
+	mt.Rule = fmt.Sprintf("a component whose spectrum's narrow lines are largely (≥ %.0f %%) the pattern of the water-vapour lines found changing, and which has no band of its own once the channels where the vapour has lines are set apart as well (the refit's limits there), is the change of the vapour in the beam path, not a species, though the refit alone would count it (the lines are a band of its own)", 100*vapourRefitLines)
 	mt.Verdict = fmt.Sprintf("%s; but %s: it is the change of the water vapour in the beam path (see its warning), not a species", mt.Verdict, mt.Finding)
 }
+
+// vapourLinesText names where svd.InVapourLines says the vapour has lines.
+const vapourLinesText = "1300–2000 and 3450–4000 cm⁻¹"
 
 // promoteMinor counts the first (largest) minor factor the refit called a species: the rank and
 // the count go up by one, the factor leaves the nuisance list, and r is put back as it
