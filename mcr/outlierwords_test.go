@@ -2,6 +2,7 @@ package mcr
 
 import (
 	"math"
+	"math/rand/v2"
 	"runtime"
 	"strings"
 	"testing"
@@ -250,4 +251,70 @@ func TestResidualShapeBasisIsThin(t *testing.T) {
 	if alloc := after.TotalAlloc - before.TotalAlloc; alloc > 100*8*big {
 		t.Errorf("allocated %d bytes for %d points, want under %d (linear in the points; the full Q alone is %d)", alloc, big, 100*8*big, 8*big*big)
 	}
+}
+
+// A forest of gas lines is lines even where they overlap: 60 Lorentzian
+// lines 3 cm⁻¹ wide at half height (the instrument's line shape at a few
+// cm⁻¹ resolution; common practice) at random places over 1400–1900 cm⁻¹ on
+// the 0.482 cm⁻¹ axis of the real urethane series (1000–2000 cm⁻¹ here) merge into features up to
+// several lines wide, so the largest alone reads as a band (before: "broad,
+// not line-like: its largest feature … is 5.79 cm⁻¹ (12 point(s)) wide" on a
+// real series with such lines added). Most features are single lines,
+// narrower than a condensed sample's narrowest bands (4 cm⁻¹; 5–30 cm⁻¹ is
+// common practice). The counter-case, one spectrum whose twelve bands
+// 10–30 cm⁻¹ wide lose 15 % (a bubble over the crystal), is not lines.
+func TestForestOfOverlappingLinesIsLines(t *testing.T) {
+	const n, m, step = 30, 2075, 0.482
+	axis := make([]float64, m)
+	c, s := mat.NewDense(n, 2, nil), mat.NewDense(m, 2, nil)
+	g := func(x, at, fwhm float64) float64 { return math.Exp(-4 * math.Ln2 * math.Pow((x-at)/fwhm, 2)) }
+	lor := func(x, at, hwhm float64) float64 { return hwhm * hwhm / ((x-at)*(x-at) + hwhm*hwhm) }
+	rng := rand.New(rand.NewPCG(3, 30))
+	var lines [60][2]float64
+	for l := range lines {
+		lines[l] = [2]float64{1400 + 500*rng.Float64(), 0.002 + 0.018*rng.Float64()}
+	}
+	for j := range axis {
+		axis[j] = 2000 - step*float64(j)
+		x := axis[j]
+		var a, b float64
+		for q := 0; q < 6; q++ {
+			a += (0.1 + 0.05*float64(q%3)) * g(x, 1750-130*float64(q), 10+4*float64(q))
+			b += (0.12 + 0.04*float64(q%2)) * g(x, 1700-120*float64(q), 12+3*float64(q))
+		}
+		s.Set(j, 0, a)
+		s.Set(j, 1, b)
+	}
+	for i := 0; i < n; i++ {
+		a := math.Exp(-float64(i) / 10)
+		c.SetRow(i, []float64{a, 1 - a})
+	}
+	d := mat.NewDense(n, m, nil)
+	d.Mul(c, s.T())
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			v := d.At(i, j) + 1e-3*math.Sin(float64(7*i+13*j))*math.Sqrt2
+			switch i {
+			case 12:
+				for _, l := range lines {
+					v += l[1] * lor(axis[j], l[0], 1.5)
+				}
+			case 20:
+				v -= 0.15 * d.At(i, j)
+			}
+			d.Set(i, j, v)
+		}
+	}
+	out := FindOutliersIn(d, c, s, nil, nil, OutlierInput{Axis: axis, Wavenumber: true, Sigma: 1e-3})
+	if len(out) != 2 || out[0].Row != 12 || out[1].Row != 20 {
+		t.Fatalf("outliers %+v; want rows 12 and 20", out)
+	}
+	if r := out[0].Reason; !strings.Contains(r, "sharp lines") || strings.Contains(r, "broad") {
+		t.Errorf("a forest of lines 3 cm⁻¹ wide: %q; want sharp lines, not broad", r)
+	}
+	if r := out[1].Reason; strings.Contains(r, "sharp lines") || !strings.Contains(r, "broad") {
+		t.Errorf("a bubble's loss over bands 10–30 cm⁻¹ wide: %q; want broad, not lines", r)
+	}
+	t.Logf("lines: %s", out[0].Reason)
+	t.Logf("bubble: %s", out[1].Reason)
 }
