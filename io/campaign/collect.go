@@ -315,6 +315,24 @@ func (r *row) fit(f object) {
 		r.notes = append(r.notes, n)
 	}
 	r.oneLevel(method, model, f.object("one_noise_level"))
+	r.eachWeighted(method, model, f.object("each_spectrum_weighted"))
+}
+
+// eachWeightedFit names the data fit with each spectrum weighted by its own
+// noise level (summary.json's each_spectrum_weighted) in the keyed columns
+// when the fit with one level is the one reported: both stay side by side.
+const eachWeightedFit = " with each spectrum weighted"
+
+// eachWeighted adds a fit's each_spectrum_weighted rate constants under the
+// key of the fit with eachWeightedFit after its name.
+func (r *row) eachWeighted(method, model string, ew object) {
+	if ew == nil {
+		return
+	}
+	for _, rc := range ew.list("rate_constants") {
+		step, k, se := rateCells(rc)
+		r.keyed.set(keyedStep(method+eachWeightedFit, model, step), k, se)
+	}
 }
 
 // oneLevelFit names the data fit made again with one noise level for every

@@ -40,3 +40,31 @@ func TestCollectOneNoiseLevel(t *testing.T) {
 		t.Errorf("folder without it: cells %q, %q, own %q", rows[2][k], rows[2][se], rows[2][own])
 	}
 }
+
+// When the fit with one level is the one reported (one_noise_level.reported,
+// the weights having moved the constants beyond the noise), the fit with each
+// spectrum weighted keeps keyed columns of its own, "data with each spectrum
+// weighted | STEPS | STEP", the values as summary.json writes them (those of
+// the real catalyst-1.00 series), beside the reported ones.
+func TestCollectEachSpectrumWeighted(t *testing.T) {
+	root := t.TempDir()
+	dir := writeSummary(t, filepath.Join(root, "switched"), `{"kinetics": {"model": "A -> B", "method": "data",
+  "rate_constants": [{"step": "A -> B", "k_per_s": 0.001641260346, "stderr_per_s": 0.0002046185968}],
+  "fits": [{"method": "data", "rate_constants": [{"step": "A -> B", "k_per_s": 0.001641260346, "stderr_per_s": 0.0002046185968}],
+    "one_noise_level": {"rate_constants": [{"step": "A -> B", "k_per_s": 0.001641260346, "stderr_per_s": 0.0002046185968, "z": 2.473551095, "p_value": 0.0133777673, "hausman": true}], "test": "t", "reported": true},
+    "each_spectrum_weighted": {"rate_constants": [{"step": "A -> B", "k_per_s": 0.001278687388, "stderr_per_s": 0.0001427693697}]}}]}}`)
+	tab, _ := Collect([]string{dir})
+	rows, err := csv.NewReader(bytes.NewReader(tab.CSV())).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	k := slices.Index(rows[0], "k_per_s[data with each spectrum weighted | A -> B | A -> B]")
+	se := slices.Index(rows[0], "stderr_per_s[data with each spectrum weighted | A -> B | A -> B]")
+	own := slices.Index(rows[0], "k_per_s[data | A -> B | A -> B]")
+	if k < 0 || se < 0 || own < 0 {
+		t.Fatalf("header %q: want the each-weighted and the data fit's keyed columns", rows[0])
+	}
+	if rows[1][k] != "0.001278687388" || rows[1][se] != "0.0001427693697" || rows[1][own] != "0.001641260346" {
+		t.Errorf("cells %q, %q, %q: want summary.json's 0.001278687388, 0.0001427693697 and 0.001641260346", rows[1][k], rows[1][se], rows[1][own])
+	}
+}

@@ -278,7 +278,8 @@ type KineticFitJSON struct {
 	T0Fit                 *T0Fit                 `json:"t0_fit,omitempty"`
 	// OneNoiseLevel, of a data fit whose spectra were weighted each by its
 	// own noise, is the same fit with one level for every spectrum.
-	OneNoiseLevel *OneNoiseLevelJSON `json:"one_noise_level,omitempty"`
+	OneNoiseLevel        *OneNoiseLevelJSON `json:"one_noise_level,omitempty"`
+	EachSpectrumWeighted *EachWeightedJSON  `json:"each_spectrum_weighted,omitempty"`
 }
 
 // OneNoiseLevelJSON is a data fit made again with one noise level for
@@ -286,6 +287,23 @@ type KineticFitJSON struct {
 type OneNoiseLevelJSON struct {
 	RateConstants []OneLevelRate `json:"rate_constants"`
 	Test          string         `json:"test"`
+	// Reported: these constants are the fit's own rate_constants, the
+	// weights having moved them beyond the noise (EachWeightedJSON then
+	// holds the fit with each spectrum weighted by its own level).
+	Reported bool `json:"reported"`
+}
+
+// EachWeightedJSON is the data fit with each spectrum weighted by its own
+// noise level, given when the fit with one level is the one reported.
+type EachWeightedJSON struct {
+	RateConstants []StepRate `json:"rate_constants"`
+}
+
+// StepRate is one step's rate constant and standard error.
+type StepRate struct {
+	Step   string  `json:"step"`
+	K      float64 `json:"k_per_s"`
+	StdErr float64 `json:"stderr_per_s"`
 }
 
 // OneLevelRate is one step's constant with one noise level, z and p of its

@@ -119,6 +119,13 @@ type KineticFit struct {
 	// OneLevel, of a data fit whose spectra were weighted each by its own
 	// noise, is the fit with one level for all (kinetics_onelevel.go).
 	OneLevel []oneLevelRate
+	// EachWeighted holds, when the fit with one level is the one reported
+	// (the weights moved the constants beyond the noise), the constants of
+	// the fit with each spectrum weighted by its own level, and
+	// ownToLevel each kept spectrum's own weight over the level it was
+	// fitted with (for the residual in units of each spectrum's noise).
+	EachWeighted []rateWithError
+	ownToLevel   []float64
 }
 
 // Reported returns the fit behind rate_constants.
@@ -1132,12 +1139,16 @@ func fitKinetics(r *Result, log io.Writer) error {
 		// into dfit: the test is of the constants reported.
 		kf.OneLevel = kn.oneLevelFit(r, dfit)
 		if w := kn.oneLevelWarning(r, dfit, kf.OneLevel); w != "" {
+			if kn.reportOneLevel(r, kf, dfit) {
+				dfit = kf.Fit
+				w += oneLevelReportedWords
+			}
 			dfit.Warnings = append(dfit.Warnings, w)
 		}
 		// The resolution's test and words: the same ratio, the same verdict.
 		// Its limit serves here too: the kinetic fit's ν differs from the
 		// resolution's by k(n − k) − p, a few per cent of it at most.
-		if ratio := dataFitToNoise(r, dfit); ratio >= math.Sqrt2 && ratio > r.misfit.Limit {
+		if ratio := kf.toNoise(r); ratio >= math.Sqrt2 && ratio > r.misfit.Limit {
 			times, _ := kn.fitRows(r) // the batch's: no second pass
 			w := dataMisfitWarning(ratio, output.FitVerdict(ratio, r.misfit.Limit), times, dfit.RowSSR, dfit.T0, shownTimeUnit(s))
 			if one, ok := findOneSpectrum(allRows(r, dfit.RowSSR), func(i int) bool { return !setAside(r.SetAside, i) }, ratio); ok && !strings.Contains(w, "--t0") {
@@ -2038,7 +2049,8 @@ func (kn *Kinetics) fitJSON(f *KineticFit) KineticFitJSON {
 	}
 	out.DeterminedSum = kn.sumJSON(fr)
 	out.T0Fit = t0FitJSON(fr)
-	out.OneNoiseLevel = kn.oneLevelJSON(f.OneLevel)
+	out.OneNoiseLevel = kn.oneLevelJSON(f.OneLevel, f.EachWeighted != nil)
+	out.EachSpectrumWeighted = kn.eachWeightedJSON(f.EachWeighted)
 	return out
 }
 
