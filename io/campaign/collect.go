@@ -329,10 +329,7 @@ func (r *row) eachWeighted(method, model string, ew object) {
 	if ew == nil {
 		return
 	}
-	for _, rc := range ew.list("rate_constants") {
-		step, k, se := rateCells(rc)
-		r.keyed.set(keyedStep(method+eachWeightedFit, model, step), k, se)
-	}
+	r.keyedRates(method+eachWeightedFit, model, ew)
 }
 
 // oneLevelFit names the data fit made again with one noise level for every
@@ -348,9 +345,19 @@ func (r *row) oneLevel(method, model string, ol object) {
 	if ol == nil {
 		return
 	}
-	for _, rc := range ol.list("rate_constants") {
+	r.keyedRates(method+oneLevelFit, model, ol)
+}
+
+// keyedRates adds the rate constants of fit object f, and its determined
+// sum, under the key of fit.
+func (r *row) keyedRates(fit, model string, f object) {
+	for _, rc := range f.list("rate_constants") {
 		step, k, se := rateCells(rc)
-		r.keyed.set(keyedStep(method+oneLevelFit, model, step), k, se)
+		r.keyed.set(keyedStep(fit, model, step), k, se)
+	}
+	if sum := f.object("determined_sum"); sum != nil {
+		step, k, se := rateCells(sum)
+		r.keyed.set(keyedStep(fit, model, step), k, se)
 	}
 }
 

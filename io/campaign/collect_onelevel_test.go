@@ -68,3 +68,31 @@ func TestCollectEachSpectrumWeighted(t *testing.T) {
 		t.Errorf("cells %q, %q, %q: want summary.json's 0.001278687388, 0.0001427693697 and 0.001641260346", rows[1][k], rows[1][se], rows[1][own])
 	}
 }
+
+// A determined sum (constants the data fix only together, "k1 + k2") has
+// keyed columns in both the fit with one level and the fit with each
+// spectrum weighted, under its terms, the values as summary.json writes them.
+func TestCollectOneLevelDeterminedSum(t *testing.T) {
+	root := t.TempDir()
+	dir := writeSummary(t, filepath.Join(root, "pair"), `{"kinetics": {"model": "A -> B; B -> A", "method": "data",
+  "rate_constants": [{"step": "A -> B", "k_per_s": 0.0012, "stderr_per_s": 0, "not_determined": true}, {"step": "B -> A", "k_per_s": 0.0003, "stderr_per_s": 0, "not_determined": true}],
+  "fits": [{"method": "data", "rate_constants": [{"step": "A -> B", "k_per_s": 0.0012, "stderr_per_s": 0, "not_determined": true}, {"step": "B -> A", "k_per_s": 0.0003, "stderr_per_s": 0, "not_determined": true}],
+    "determined_sum": {"terms": "k1 + k2", "steps": ["A -> B", "B -> A"], "k_per_s": 0.0015248, "stderr_per_s": 0.000162, "unit": "s^-1"},
+    "one_noise_level": {"rate_constants": [], "determined_sum": {"step": "k1 + k2", "k_per_s": 0.0015248, "stderr_per_s": 0.000162, "z": 2.4, "p_value": 0.016, "hausman": true}, "test": "t", "reported": true},
+    "each_spectrum_weighted": {"rate_constants": [], "determined_sum": {"step": "k1 + k2", "k_per_s": 0.0012589, "stderr_per_s": 0.000127}}}]}}`)
+	tab, _ := Collect([]string{dir})
+	rows, err := csv.NewReader(bytes.NewReader(tab.CSV())).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	for key, want := range map[string]string{
+		"k_per_s[data with one noise level | A -> B; B -> A | k1 + k2]":        "0.0015248",
+		"k_per_s[data with each spectrum weighted | A -> B; B -> A | k1 + k2]": "0.0012589",
+		"k_per_s[data | A -> B; B -> A | k1 + k2]":                             "0.0015248",
+	} {
+		c := slices.Index(rows[0], key)
+		if c < 0 || rows[1][c] != want {
+			t.Errorf("%s: column %d, header %q; want %s", key, c, rows[0], want)
+		}
+	}
+}

@@ -287,6 +287,9 @@ type KineticFitJSON struct {
 type OneNoiseLevelJSON struct {
 	RateConstants []OneLevelRate `json:"rate_constants"`
 	Test          string         `json:"test"`
+	// DeterminedSum is the same for the sum of the constants the data
+	// determine only together (Step holds its terms, "k1 + k2").
+	DeterminedSum *OneLevelRate `json:"determined_sum,omitempty"`
 	// Reported: these constants are the fit's own rate_constants, the
 	// weights having moved them beyond the noise (EachWeightedJSON then
 	// holds the fit with each spectrum weighted by its own level).
@@ -297,6 +300,7 @@ type OneNoiseLevelJSON struct {
 // noise level, given when the fit with one level is the one reported.
 type EachWeightedJSON struct {
 	RateConstants []StepRate `json:"rate_constants"`
+	DeterminedSum *StepRate  `json:"determined_sum,omitempty"`
 }
 
 // StepRate is one step's rate constant and standard error.

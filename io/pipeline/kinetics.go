@@ -119,13 +119,17 @@ type KineticFit struct {
 	// OneLevel, of a data fit whose spectra were weighted each by its own
 	// noise, is the fit with one level for all (kinetics_onelevel.go).
 	OneLevel []oneLevelRate
+	// OneLevelSum is the same for the sum of the constants the data
+	// determine only together (nil when there is none).
+	OneLevelSum *oneLevelRate
 	// EachWeighted holds, when the fit with one level is the one reported
 	// (the weights moved the constants beyond the noise), the constants of
 	// the fit with each spectrum weighted by its own level, and
 	// ownToLevel each kept spectrum's own weight over the level it was
 	// fitted with (for the residual in units of each spectrum's noise).
-	EachWeighted []rateWithError
-	ownToLevel   []float64
+	EachWeighted    []rateWithError
+	EachWeightedSum *rateWithError
+	ownToLevel      []float64
 }
 
 // Reported returns the fit behind rate_constants.
@@ -1137,8 +1141,8 @@ func fitKinetics(r *Result, log io.Writer) error {
 		kn.swapCheck(r, dfit, spectra, dopt, &r.Notes)
 		// After the swap check, which writes the constants it adopts
 		// into dfit: the test is of the constants reported.
-		kf.OneLevel = kn.oneLevelFit(r, dfit)
-		if w := kn.oneLevelWarning(r, dfit, kf.OneLevel); w != "" {
+		kf.OneLevel, kf.OneLevelSum = kn.oneLevelFit(r, dfit)
+		if w := kn.oneLevelWarning(r, dfit, kf.OneLevel, kf.OneLevelSum); w != "" {
 			if kn.reportOneLevel(r, kf, dfit) {
 				dfit = kf.Fit
 				w += oneLevelReportedWords
@@ -2049,8 +2053,8 @@ func (kn *Kinetics) fitJSON(f *KineticFit) KineticFitJSON {
 	}
 	out.DeterminedSum = kn.sumJSON(fr)
 	out.T0Fit = t0FitJSON(fr)
-	out.OneNoiseLevel = kn.oneLevelJSON(f.OneLevel, f.EachWeighted != nil)
-	out.EachSpectrumWeighted = kn.eachWeightedJSON(f.EachWeighted)
+	out.OneNoiseLevel = kn.oneLevelJSON(f.OneLevel, f.OneLevelSum, determinedSum(fr), f.EachWeighted != nil)
+	out.EachSpectrumWeighted = kn.eachWeightedJSON(f.EachWeighted, f.EachWeightedSum, determinedSum(fr))
 	return out
 }
 

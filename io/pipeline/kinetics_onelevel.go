@@ -3,6 +3,7 @@ package pipeline
 import (
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 
 	"github.com/bandsolve/bandsolve/internal/pvalue"
@@ -46,11 +47,12 @@ type oneLevelRate struct {
 // oneLevelFit refits the data matrix with every spectrum of an experiment
 // at the mean of its kept spectra's weights (only their ratios move the
 // constants; experiments of several noise levels keep theirs), from the
-// weighted fit's constants, and tests each step. nil when the spectra share
-// one level or the weights are off.
-func (kn *Kinetics) oneLevelFit(r *Result, dfit *kinetics.FitResult) []oneLevelRate {
+// weighted fit's constants, and tests each step, and the sum of the
+// constants the data determine only together (sum; nil when there is none).
+// nil when the spectra share one level or the weights are off.
+func (kn *Kinetics) oneLevelFit(r *Result, dfit *kinetics.FitResult) (steps []oneLevelRate, sum *oneLevelRate) {
 	if !weightsPerSpectrum(r) || !weighted(r) {
-		return nil
+		return nil, nil
 	}
 	opt := kn.dataOptions(r, kn.warm(dfit))
 	opt.RowWeights = experimentMeans(r, opt.RowWeights)
@@ -58,23 +60,36 @@ func (kn *Kinetics) oneLevelFit(r *Result, dfit *kinetics.FitResult) []oneLevelR
 	times, d := kn.fitRows(r)
 	f, _, err := kinetics.FitData(kn.Scheme, times, d, opt)
 	if err != nil {
-		return nil
+		return nil, nil
 	}
-	out := make([]oneLevelRate, len(f.K))
-	for j := range out {
-		out[j] = oneLevelRate{K: f.K[j], StdErr: f.KStdErr[j]}
-		if kn.KFixed[j] || notDetermined(dfit, j) || notDetermined(f, j) || !(dfit.KStdErr[j] > 0) || !(f.KStdErr[j] > 0) {
+	steps = make([]oneLevelRate, len(f.K))
+	for j := range steps {
+		steps[j] = oneLevelRate{K: f.K[j], StdErr: f.KStdErr[j]}
+		if kn.KFixed[j] || notDetermined(dfit, j) || notDetermined(f, j) {
 			continue
 		}
-		vw, v1 := dfit.KStdErr[j]*dfit.KStdErr[j], f.KStdErr[j]*f.KStdErr[j]
-		v, hausman := v1-vw, true
-		if !(v > 0) {
-			v, hausman = v1+vw, false
-		}
-		z := (f.K[j] - dfit.K[j]) / math.Sqrt(v)
-		out[j].Z, out[j].P, out[j].Hausman, out[j].Tested = z, math.Erfc(math.Abs(z)/math.Sqrt2), hausman, true
+		steps[j].test(dfit.K[j], dfit.KStdErr[j])
 	}
-	return out
+	if len(dfit.SumSteps) > 0 && slices.Equal(dfit.SumSteps, f.SumSteps) {
+		sum = &oneLevelRate{K: f.SumK, StdErr: f.SumKStdErr}
+		sum.test(dfit.SumK, dfit.SumKStdErr)
+	}
+	return steps, sum
+}
+
+// test tests o against the weighted fit's k ± se (Hausman's z and its
+// two-sided normal p); untested when either error is not positive.
+func (o *oneLevelRate) test(k, se float64) {
+	if !(se > 0) || !(o.StdErr > 0) {
+		return
+	}
+	vw, v1 := se*se, o.StdErr*o.StdErr
+	v, hausman := v1-vw, true
+	if !(v > 0) {
+		v, hausman = v1+vw, false
+	}
+	z := (o.K - k) / math.Sqrt(v)
+	o.Z, o.P, o.Hausman, o.Tested = z, math.Erfc(math.Abs(z)/math.Sqrt2), hausman, true
 }
 
 // experimentMeans gives each kept row (w has one value per keptRows entry)
@@ -133,6 +148,9 @@ func (kn *Kinetics) reportOneLevel(r *Result, kf *KineticFit, dfit *kinetics.Fit
 	for j := range dfit.K {
 		kf.EachWeighted[j] = rateWithError{dfit.K[j], dfit.KStdErr[j]}
 	}
+	if len(dfit.SumSteps) > 0 {
+		kf.EachWeightedSum = &rateWithError{dfit.SumK, dfit.SumKStdErr}
+	}
 	kf.ownToLevel = make([]float64, len(own))
 	for i, w := range own {
 		if opt.RowWeights[i] > 0 {
@@ -166,12 +184,15 @@ func (kf *KineticFit) toNoise(r *Result) float64 {
 // oneLevelWarning says which constants moved with the weights beyond what
 // the noise allows, at --alpha shared by the steps tested (Bonferroni);
 // "" when none did.
-func (kn *Kinetics) oneLevelWarning(r *Result, dfit *kinetics.FitResult, ol []oneLevelRate) string {
+func (kn *Kinetics) oneLevelWarning(r *Result, dfit *kinetics.FitResult, ol []oneLevelRate, sum *oneLevelRate) string {
 	tested := 0
 	for _, o := range ol {
 		if o.Tested {
 			tested++
 		}
+	}
+	if sum != nil && sum.Tested {
+		tested++
 	}
 	if tested == 0 {
 		return ""
@@ -179,12 +200,17 @@ func (kn *Kinetics) oneLevelWarning(r *Result, dfit *kinetics.FitResult, ol []on
 	level := r.Settings.Alpha / float64(tested)
 	units := kn.rateUnits()
 	var moved []string
-	for j, o := range ol {
-		if !o.Tested || !(o.P < level) {
-			continue
+	say := func(name, unit string, o oneLevelRate, k, se float64) {
+		if o.Tested && o.P < level {
+			moved = append(moved, fmt.Sprintf("%s %.3g ± %.2g %s with one noise level for every spectrum against %.3g ± %.2g with each weighted by its own, z = %.2f (%s)",
+				name, o.K, o.StdErr, unit, k, se, o.Z, pvalue.Text(o.P)))
 		}
-		moved = append(moved, fmt.Sprintf("k%d (%s) %.3g ± %.2g %s with one noise level for every spectrum against %.3g ± %.2g with each weighted by its own, z = %.2f (%s)",
-			j+1, kn.Scheme.Steps[j].Text, o.K, o.StdErr, units[j], dfit.K[j], dfit.KStdErr[j], o.Z, pvalue.Text(o.P)))
+	}
+	for j, o := range ol {
+		say(fmt.Sprintf("k%d (%s)", j+1, kn.Scheme.Steps[j].Text), units[j], o, dfit.K[j], dfit.KStdErr[j])
+	}
+	if sum != nil {
+		say(determinedSum(dfit), units[dfit.SumSteps[0]], *sum, dfit.SumK, dfit.SumKStdErr)
 	}
 	if len(moved) == 0 {
 		return ""
@@ -199,7 +225,7 @@ func (kn *Kinetics) oneLevelWarning(r *Result, dfit *kinetics.FitResult, ol []on
 
 // oneLevelJSON is summary.json's one_noise_level of the data fit (nil
 // when it was not made); reported when its constants are the fit's own.
-func (kn *Kinetics) oneLevelJSON(ol []oneLevelRate, reported bool) *output.OneNoiseLevelJSON {
+func (kn *Kinetics) oneLevelJSON(ol []oneLevelRate, sum *oneLevelRate, terms string, reported bool) *output.OneNoiseLevelJSON {
 	if ol == nil {
 		return nil
 	}
@@ -211,18 +237,27 @@ func (kn *Kinetics) oneLevelJSON(ol []oneLevelRate, reported bool) *output.OneNo
 		}
 		out.RateConstants = append(out.RateConstants, rc)
 	}
+	if sum != nil {
+		out.DeterminedSum = &output.OneLevelRate{Step: terms, K: round(finite(sum.K)), StdErr: round(finite(sum.StdErr)), NotTested: !sum.Tested}
+		if sum.Tested {
+			out.DeterminedSum.Z, out.DeterminedSum.PValue, out.DeterminedSum.Hausman = round(sum.Z), round(sum.P), sum.Hausman
+		}
+	}
 	return out
 }
 
 // eachWeightedJSON is summary.json's each_spectrum_weighted (nil unless the
 // fit with one level is reported).
-func (kn *Kinetics) eachWeightedJSON(ew []rateWithError) *output.EachWeightedJSON {
+func (kn *Kinetics) eachWeightedJSON(ew []rateWithError, sum *rateWithError, terms string) *output.EachWeightedJSON {
 	if ew == nil {
 		return nil
 	}
 	out := &output.EachWeightedJSON{}
 	for j, e := range ew {
 		out.RateConstants = append(out.RateConstants, output.StepRate{Step: kn.Scheme.Steps[j].Text, K: round(finite(e.K)), StdErr: round(finite(e.StdErr))})
+	}
+	if sum != nil {
+		out.DeterminedSum = &output.StepRate{Step: terms, K: round(finite(sum.K)), StdErr: round(finite(sum.StdErr))}
 	}
 	return out
 }
