@@ -19,12 +19,16 @@ import (
 // (as image/png does), in half the time. An image with any transparency is
 // left to image/png (found while filtering, not by a pass of its own).
 //
-// The deflate stream is klauspost/compress's at its level 3 rather than
+// The deflate stream is klauspost/compress's at its level 1 rather than
 // compress/flate's BestSpeed: on the 40 figures of the four reference runs
-// (testdata/perf/reference-runs.sh, 16 MB of filtered rows a run) it takes
-// about half the time, 71 ms against 135 in all, for files 1 % smaller
-// (the 2000 × 3001 series) to 2 % larger (the urethane series). Any
-// conforming inflater reads either (RFC 1951); the pixels are the same.
+// (testdata/perf/reference-runs.sh, 16 MB of filtered rows a run) its
+// level 3 took about half the time, 71 ms against 135 in all, for files
+// 1 % smaller (the 2000 × 3001 series) to 2 % larger (the urethane
+// series), and level 1 takes a fifth to a quarter less again (108–140 ms
+// against 131–206 for the 41 figures of the reference runs, best of seven
+// each, on a loaded machine; the eleven of the 2000 × 3001 run 26 against
+// 36 ms) for files 2.9 % larger (4.12 MB against 4.00). Any conforming
+// inflater reads them all (RFC 1951); the pixels are the same.
 //
 // Its working memory is kept from one image to the next (drawFigures
 // encodes every figure of a goroutine with one): the deflate state (about
@@ -34,7 +38,7 @@ import (
 // Each file is returned in a slice of its own.
 //
 // The zlib stream (RFC 1950) around the deflate data is put together here:
-// the two header bytes zlib gives for a fast level, and the
+// the two header bytes zlib gives for its fastest level, and the
 // Adler-32 of the filtered rows, which adler32Update forms in one step per
 // eight zero bytes (most of a figure is white under white, all zeros after
 // the filter) where hash/adler32 takes eight.
@@ -162,14 +166,15 @@ func upFilter(dst, row, above []byte) uint32 {
 	return uint32(alpha&(alpha>>32)) & 0xff000000
 }
 
-// zlibHeader is the header zlib writes at a fast level (RFC 1950: method 8
-// with a 32 kB window, FLEVEL 1, check bits: 0x785e is a multiple of 31).
-const zlibHeader = "\x78\x5e"
+// zlibHeader is the header zlib writes at its fastest level (RFC 1950:
+// method 8 with a 32 kB window, FLEVEL 0, check bits: 0x7801 is a multiple
+// of 31).
+const zlibHeader = "\x78\x01"
 
 // deflateLevel is klauspost/compress/flate's level for the figures; its
-// header above says "fast" (FLEVEL 1 of RFC 1950, the value zlib writes
-// for levels 2 to 5; informative only, inflaters ignore it).
-const deflateLevel = 3
+// header above says "fastest" (FLEVEL 0 of RFC 1950, the value zlib writes
+// for levels 0 and 1; informative only, inflaters ignore it).
+const deflateLevel = 1
 
 // adlerMod and adlerMax are Adler-32's modulus and the most bytes its sums
 // take before they must be reduced to stay in 32 bits (RFC 1950, 9; zlib's

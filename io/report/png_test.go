@@ -243,3 +243,31 @@ func TestEncodePNGLeavesTransparencyToTheLibrary(t *testing.T) {
 		}
 	}
 }
+
+// BenchmarkEncodePNG is one figure's PNG file as drawFigures encodes it:
+// the fixture's spectra figure (945 pixels wide at 150 dpi, the report's
+// usual size), the encoder's working memory kept from call to call.
+func BenchmarkEncodePNG(b *testing.B) {
+	f, err := Load(fixture(b, true))
+	if err != nil {
+		b.Fatal(err)
+	}
+	files, _ := FigureFiles(f)
+	im, err := png.Decode(bytes.NewReader(files["figures/fig-spectra.png"]))
+	if err != nil {
+		b.Fatal(err)
+	}
+	img := image.NewRGBA(im.Bounds())
+	for y := img.Rect.Min.Y; y < img.Rect.Max.Y; y++ {
+		for x := img.Rect.Min.X; x < img.Rect.Max.X; x++ {
+			img.Set(x, y, im.At(x, y))
+		}
+	}
+	var e pngEncoder
+	b.SetBytes(int64(3 * img.Rect.Dx() * img.Rect.Dy()))
+	for b.Loop() {
+		if _, err := e.encode(img); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

@@ -20,7 +20,7 @@ import (
 // solution a = e^{−kt}, b = 1 − a (Harcourt & Esson 1866), two Gaussian
 // bands, and a deterministic ±1e-4 residual pattern. With all is false
 // only the files of a run without EFA, bands and kinetics are written.
-func fixture(t *testing.T, all bool) string {
+func fixture(t testing.TB, all bool) string {
 	t.Helper()
 	dir := t.TempDir()
 	write := func(name, body string) {
