@@ -156,6 +156,12 @@ type Options struct {
 	Tolerance       float64 // relative change of the residual sum of squares, default 1e-8
 	// Observe, when set, is told the lack of fit after every iteration.
 	Observe func(iter int, lackOfFitPercent float64)
+	// AsideRows lists (ascending) rows the caller filled with a model's own values
+	// (spectra set aside): they are fitted as every other row, but the
+	// lack of fit reported (History, LackOfFitPercent, ExplainedPercent)
+	// leaves them out, as a figure of the data (see asideFigure);
+	// ResidualSS, the objective, stays over every row.
+	AsideRows []int
 	// Baseline, when set (m × b), adds b baseline terms with these fixed
 	// shapes and free-sign coefficients per spectrum, fitted jointly with
 	// the components (see baseline.go); Result.Baseline holds the
@@ -464,6 +470,7 @@ type alsRun struct {
 	passS, passC []uint64
 	res          *Result
 	w            alsWork
+	aside        *asideFigure // Options.AsideRows, nil without
 }
 
 // newALSRun checks the shapes, sets the defaults and forms the constraints
@@ -498,6 +505,7 @@ func newALSRun(d Data, c0 *mat.Dense, opt Options) (*alsRun, error) {
 		c: mat.DenseCopyOf(c0), prev: math.Inf(1), best: math.Inf(1),
 		passS: make([]uint64, m), passC: make([]uint64, n), res: &Result{}}
 	r.w = newALSWork(d, k)
+	r.aside = newAsideFigure(d, opt.AsideRows)
 	// A hard model is handed the profiles and may keep them.
 	r.w.recycle = opt.HardModel == nil
 	clampColumns(r.c, cs.nnP)
@@ -740,7 +748,7 @@ func (r *alsRun) accept(it int, ssr float64, cPlain *mat.Dense) bool {
 		}
 	}
 	r.cPrev = cPlain
-	lof := 100 * math.Sqrt(ssr/r.total)
+	lof := 100 * math.Sqrt(r.keptShare(ssr))
 	r.res.History = append(r.res.History, lof)
 	r.res.HistoryAt = append(r.res.HistoryAt, it)
 	r.res.Iterations = it
@@ -765,8 +773,9 @@ func (r *alsRun) finish() *Result {
 	// the trace identity: it is what a chemist quotes.
 	ss := r.w.residualSS(r.d, r.c, r.s, r.total, r.prev)
 	res.ResidualSS = ss
-	res.LackOfFitPercent = 100 * math.Sqrt(ss/r.total)
-	res.ExplainedPercent = 100 * (1 - ss/r.total)
+	share := r.keptShare(ss)
+	res.LackOfFitPercent = 100 * math.Sqrt(share)
+	res.ExplainedPercent = 100 * (1 - share)
 	for j := 0; j < r.k-r.opt.baselineTerms; j++ {
 		if floatsMaxAbs(mat.Col(nil, j, r.c)) == 0 {
 			res.Warnings = append(res.Warnings, fmt.Sprintf("component %d vanished: its profile is zero everywhere; try one component fewer", j+1))

@@ -125,7 +125,10 @@ func freeSpectrumAt(r *Result, c *mat.Dense, row []float64, j int) ([]float64, b
 
 // refreshFit sets res's fit figures again from the data as they are now, in
 // the metric ALS works in (withoutBaseline, after it changes the data, and
-// absorbBlankOffset), and returns the sum of squares they are taken of.
+// absorbBlankOffset), and returns the sum of squares they are taken of. As
+// ALS reports them (mcr.Options.AsideRows), the lack of fit and explained
+// variance are of the spectra kept, the residual sum of squares of every
+// row.
 func refreshFit(data mcr.Data, r *Result, res *mcr.Result) float64 {
 	row, col := weightsOfData(data)
 	fit := mcr.FitWeighted(r.D, res.C, res.S, row, col, nil)
@@ -134,9 +137,41 @@ func refreshFit(data mcr.Data, r *Result, res *mcr.Result) float64 {
 	if row != nil {
 		res.ResidualSS, total = fit.WeightedSS, data.FrobeniusSq()
 	}
+	ss := res.ResidualSS
+	if rows := asideList(r); rows != nil {
+		ssAside, totAside := rowSums(r.D, res, rows, row, col)
+		ss, total = math.Max(ss-ssAside, 0), total-totAside
+	}
 	if total > 0 {
-		res.LackOfFitPercent = 100 * math.Sqrt(res.ResidualSS/total)
-		res.ExplainedPercent = 100 * (1 - res.ResidualSS/total)
+		res.LackOfFitPercent = 100 * math.Sqrt(ss/total)
+		res.ExplainedPercent = 100 * (1 - ss/total)
 	}
 	return total
+}
+
+// rowSums is Σ a_i b_j e²_ij and Σ a_i b_j d²_ij over the rows named, e the
+// residual of res (weights nil: one).
+func rowSums(d *mat.Dense, res *mcr.Result, rows []int, row, col []float64) (ss, tot float64) {
+	_, m := d.Dims()
+	_, k := res.C.Dims()
+	for _, i := range rows {
+		a := 1.0
+		if row != nil {
+			a = row[i]
+		}
+		ci := res.C.RawRowView(i)[:k]
+		for j, v := range d.RawRowView(i)[:m] {
+			b := 1.0
+			if col != nil {
+				b = col[j]
+			}
+			e := v
+			for l, x := range res.S.RawRowView(j)[:k] {
+				e -= ci[l] * x
+			}
+			ss += a * b * e * e
+			tot += a * b * v * v
+		}
+	}
+	return ss, tot
 }

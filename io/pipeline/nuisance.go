@@ -609,6 +609,7 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, s
 			return nil, nil, nil, err
 		}
 	}
+	opt.AsideRows = asideList(r)
 	chosen := r.BaselineOrder
 	if res, data, shapes, err = raiseBaselineHeld(r, data, res, shapes, opt, log); err != nil {
 		return nil, nil, nil, err
@@ -676,6 +677,7 @@ func setAsideOutliers(r *Result, data mcr.Data, c0 *mat.Dense, res *mcr.Result, 
 // reaction, with --baseline offset) far as well, and those come back.
 func screenRound(r *Result, data mcr.Data, c0 *mat.Dense, res *mcr.Result, shapes *mat.Dense, opt mcr.Options, st *minorState, found []SetAside, log io.Writer) (*mcr.Result, mcr.Data, *mat.Dense, error) {
 	r.SetAside = append(r.SetAside, found...)
+	opt.AsideRows = asideList(r)
 	before := r.BaselineOrder
 	if len(found) > 0 {
 		shapes = rechooseBaseline(r, data, res, shapes, log)
@@ -728,6 +730,7 @@ func screenRound(r *Result, data mcr.Data, c0 *mat.Dense, res *mcr.Result, shape
 		broughtBackAfterChoice(r, aside, aside-len(r.SetAside))
 	}
 	fmt.Fprintf(log, "%d spectrum(s) set aside are near the fit without them: resolving again with them\n", len(found)-countFound(r, found))
+	opt.AsideRows = asideList(r)
 	if data, err = refreshData(r, data); err != nil {
 		return nil, nil, nil, err
 	}
@@ -753,6 +756,7 @@ func refillSetAside(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dense
 	if len(r.SetAside) == 0 {
 		return res, data, nil
 	}
+	opt.AsideRows = asideList(r)
 	row, col := weightsOfData(data)
 	sd := plainSigma(r)
 	// Short resolutions between fillings: a full one each time crept for
@@ -1121,14 +1125,16 @@ func withoutBaseline(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Dens
 	if shapes != nil && res.Baseline != nil {
 		r.BaselineProfiles = res.Baseline
 		r.BaselineShapes = shapes
-		// The figures count the spectra kept (fitFigures); the checks'
-		// scale, the whole matrix their refits work on.
+		// The figures count the spectra kept (fitFigures), and so does the
+		// checks' scale, as their lack of fit does (refreshFit).
 		r.DataSS = observedSquares(r.D, unobserved(r))
 		given := r.DataSS
-		if row, _ := weightsOfData(data); row != nil {
+		if row, col := weightsOfData(data); row != nil {
 			given = data.FrobeniusSq()
-		} else if len(r.SetAside) > 0 {
-			given = observedSquares(r.D, blindPoints(r))
+			if rows := asideList(r); rows != nil {
+				_, tot := rowSums(r.D, res, rows, row, col)
+				given -= tot
+			}
 		}
 		subtractBaselineInPlace(r.D, res.Baseline, shapes)
 		switch in := data.(type) {

@@ -1269,6 +1269,8 @@ func resolve(r *Result, log io.Writer) error {
 	if err != nil {
 		return err
 	}
+	// Every fit from here reports its lack of fit over the spectra kept.
+	opt.AsideRows = asideList(r)
 	if promoteMinor(r, saved) {
 		// The early fit was of the model with one component fewer, which
 		// dataStart no longer fits: it and its weighted copy of the data

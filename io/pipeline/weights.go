@@ -243,6 +243,19 @@ func asideRows(r *Result) []bool {
 	return out
 }
 
+// asideList is the rows of the spectra set aside in ascending order, which
+// ALS leaves out of the lack of fit it reports (mcr.Options.AsideRows):
+// nil when none are.
+func asideList(r *Result) []int {
+	var out []int
+	for i, a := range asideRows(r) {
+		if a {
+			out = append(out, i)
+		}
+	}
+	return out
+}
+
 // startProfiles gives EFA's initial profiles in the data's rows: with noise
 // weights EFA ran on the scaled matrix, whose profiles have rows √a_i c_i.
 func startProfiles(r *Result, k int) *mat.Dense { return startProfilesOf(r, r.EFA, k) }
