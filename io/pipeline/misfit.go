@@ -86,8 +86,10 @@ func differenceKappa(c []float64) float64 {
 }
 
 // noiseDof is ν_σ: each experiment's count of differences its noise level
-// came from (spectra.Noise's source), as independent values of a standard
-// deviation. +Inf when no experiment says (the figure is then taken as exact).
+// came from (spectra.Noise's source; once measured again without the
+// spectra set aside, those that touch none), as independent values of a
+// standard deviation. +Inf when no experiment says (the figure is then
+// taken as exact).
 func noiseDof(r *Result) float64 {
 	_, m := r.D.Dims()
 	var dof float64
@@ -99,9 +101,9 @@ func noiseDof(r *Result) float64 {
 		var count, kappa float64
 		switch {
 		case strings.HasPrefix(src, "successive differences of the"):
-			count, kappa = float64(min(r.Settings.Pre, e.Rows)-1), differenceKappa([]float64{1, -1})
+			count, kappa = float64(differencesLeft(r, e, 2, min(r.Settings.Pre, e.Rows))), differenceKappa([]float64{1, -1})
 		case strings.HasPrefix(src, "second differences in time"):
-			count, kappa = float64(e.Rows-2), differenceKappa([]float64{1, -2, 1})
+			count, kappa = float64(differencesLeft(r, e, 3, e.Rows)), differenceKappa([]float64{1, -2, 1})
 		case strings.HasPrefix(src, "fourth differences along the axis"):
 			count, kappa = 1, differenceKappa([]float64{1, -4, 6, -4, 1})
 		default:

@@ -610,6 +610,11 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, s
 		}
 	}
 	opt.AsideRows = asideList(r)
+	if keptNoise(r, log) {
+		if res, data, err = refitKeptNoise(r, data, res, shapes, opt, log); err != nil {
+			return nil, nil, nil, err
+		}
+	}
 	chosen := r.BaselineOrder
 	if res, data, shapes, err = raiseBaselineHeld(r, data, res, shapes, opt, log); err != nil {
 		return nil, nil, nil, err
@@ -677,6 +682,7 @@ func setAsideOutliers(r *Result, data mcr.Data, c0 *mat.Dense, res *mcr.Result, 
 // reaction, with --baseline offset) far as well, and those come back.
 func screenRound(r *Result, data mcr.Data, c0 *mat.Dense, res *mcr.Result, shapes *mat.Dense, opt mcr.Options, st *minorState, found []SetAside, log io.Writer) (*mcr.Result, mcr.Data, *mat.Dense, error) {
 	r.SetAside = append(r.SetAside, found...)
+	rememberAside(r)
 	opt.AsideRows = asideList(r)
 	before := r.BaselineOrder
 	if len(found) > 0 {

@@ -170,7 +170,13 @@ type Result struct {
 	// the data as given, as the iterations' curve and the headline are:
 	// √(Σ d²_less / Σ d²_given), weighted as the fit is; 0 without a
 	// baseline (nothing to turn).
-	checkScale       float64
+	checkScale float64
+	// asideOrig holds each spectrum set aside as it was before its row
+	// was filled, noiseBase the noise measured on every spectrum (before
+	// the screen), from which keptNoise measures it again without those
+	// set aside.
+	asideOrig        map[int][]float64
+	noiseBase        *noiseOfAll
 	BaselineReason   string
 	BaselineProfiles *mat.Dense
 	BaselineShapes   *mat.Dense

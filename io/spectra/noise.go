@@ -2221,3 +2221,37 @@ func raiseTo(mu *sync.Mutex, top, bt []float64) {
 		}
 	}
 }
+
+// ChannelNoiseWithout is the noise per channel the estimator of
+// channelNoise finds in v (spectra at times, pre before the reaction, blind
+// points left out) with the rows aside left out and, beside it, with them:
+// a row left out is blind at every channel, so no difference in time that
+// touches it counts (the estimator's own rule for points without data).
+// A spectrum an outlier screen set aside (a bubble, gas lines) is no noise
+// of the others: its differences are several times the noise in 3 of the
+// n − 2 second differences of each channel, and move the median absolute
+// value up. The ratio of the two is the caller's to apply to an estimate
+// made before the screen.
+func ChannelNoiseWithout(v *mat.Dense, times []float64, pre int, blind *Blind, aside []int) (kept, all []float64) {
+	n, m := v.Dims()
+	line := lineWeights(times)
+	all, _, _ = channelNoiseSpaced(v, line, pre, blind)
+	out := &Blind{Rows: make([][]int, n)}
+	if blind != nil {
+		copy(out.Rows, blind.Rows)
+	}
+	every := make([]int, m)
+	for j := range every {
+		every[j] = j
+	}
+	for _, i := range aside {
+		if i >= 0 && i < n {
+			out.Rows[i] = every
+		}
+	}
+	for _, cols := range out.Rows {
+		out.Count += len(cols)
+	}
+	kept, _, _ = channelNoiseSpaced(v, line, pre, out)
+	return kept, all
+}
