@@ -2254,6 +2254,7 @@ func printKinetics(r *Result, w io.Writer) {
 			fmt.Fprintf(w, "\n    %-13s %-10s k = %.4g ± %.2g %s, determined", "", sum, k, se, unit)
 		}
 		printT0Fit(f.Fit, tu, w)
+		kn.printEachWeighted(f, tu, w)
 		fmt.Fprintln(w)
 	}
 	fmt.Fprintf(w, "    (± one standard error; * the fit reported in summary.json)\n")

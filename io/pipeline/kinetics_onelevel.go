@@ -2,6 +2,7 @@ package pipeline
 
 import (
 	"fmt"
+	"io"
 	"math"
 	"slices"
 	"strings"
@@ -260,4 +261,21 @@ func (kn *Kinetics) eachWeightedJSON(ew []rateWithError, sum *rateWithError, ter
 		out.DeterminedSum = &output.StepRate{Step: terms, K: round(finite(sum.K)), StdErr: round(finite(sum.StdErr))}
 	}
 	return out
+}
+
+// printEachWeighted says under a data fit made with one noise level per
+// experiment (reportOneLevel) that it was, and gives the constants of the
+// fit with each spectrum weighted by its own level beside it.
+func (kn *Kinetics) printEachWeighted(f *KineticFit, tu shownTime, w io.Writer) {
+	if f.EachWeighted == nil {
+		return
+	}
+	var each []string
+	for j, e := range f.EachWeighted {
+		k, unit := tu.Rate(e.K, kn.rateUnit(kn.Scheme.Steps[j].Order))
+		se, _ := tu.Rate(e.StdErr, "")
+		each = append(each, fmt.Sprintf("%s k = %.4g ± %.2g %s", kn.Scheme.Steps[j].Text, k, se, unit))
+	}
+	fmt.Fprintf(w, "\n    %-13s one noise level per experiment (the weights moved the constants beyond the noise)", "")
+	fmt.Fprintf(w, "\n    %-13s each spectrum weighted by its own: %s", "", strings.Join(each, "; "))
 }

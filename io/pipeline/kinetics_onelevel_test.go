@@ -1,10 +1,12 @@
 package pipeline
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 
 	"github.com/bandsolve/bandsolve/io/output"
@@ -159,6 +161,11 @@ func TestOneNoiseLevelWarnsForAWrongOrder(t *testing.T) {
 			if sum.Fits[i].Method == "data" {
 				fj = &sum.Fits[i]
 			}
+		}
+		var term strings.Builder
+		printKinetics(r, &term)
+		if want := fmt.Sprintf("each spectrum weighted by its own: A -> B k = %.4g ± %.2g s^-1", d.EachWeighted[0].K, d.EachWeighted[0].StdErr); !strings.Contains(term.String(), want) || !strings.Contains(term.String(), "one noise level per experiment") {
+			t.Errorf("seed %d: the terminal does not say which fit is reported (%q):\n%s", seed, want, term.String())
 		}
 		if fj == nil || fj.OneNoiseLevel == nil || !fj.OneNoiseLevel.Reported || fj.EachSpectrumWeighted == nil || fj.EachSpectrumWeighted.RateConstants[0].K != round(d.EachWeighted[0].K) || sum.RateConstants[0].K != round(o.K) {
 			t.Errorf("seed %d: summary.json does not say the one-level fit is reported with the other beside it: %+v", seed, fj)
