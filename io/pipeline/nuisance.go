@@ -608,6 +608,12 @@ func resolveNuisance(r *Result, data mcr.Data, c0 *mat.Dense, opt mcr.Options, s
 		if res, data, shapes, err = setAsideOutliers(r, data, c0, res, shapes, opt, st, log); err != nil {
 			return nil, nil, nil, err
 		}
+		// The screen may have chosen the baseline's order again on the
+		// spectra kept (screenRound): the fits below take its shapes.
+		opt.Baseline, opt.BaselineAnchors = shapes, nil
+		if shapes != nil {
+			opt.BaselineAnchors = baselineAnchors(r)
+		}
 	}
 	opt.AsideRows = asideList(r)
 	if keptNoise(r, log) {
