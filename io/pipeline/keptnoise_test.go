@@ -4,6 +4,7 @@ import (
 	"io"
 	"math"
 	"slices"
+	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -97,5 +98,36 @@ func TestNoiseMeasuredOnTheSpectraKept(t *testing.T) {
 	}
 	if want := 0.37 * float64(used*m) / (35.0 / 18); math.Abs(noiseDof(r)-want) > 1e-9*want {
 		t.Errorf("ν_σ %.6g; from the %d second differences that touch no bubble it is %.6g", noiseDof(r), used, want)
+	}
+}
+
+// Single beams with --pre 3 take the detector's noise from the steps between
+// the three repeats of the starting state alone (the estimator's definition,
+// spectra.channelNoiseOwn: successive differences of the pre-reaction
+// spectra), which the bubbles at spectra 41 and 81 do not touch: setting them
+// aside leaves the noise as it was, the same to the bit as with every
+// spectrum kept (--keep-outliers). Scaled by two measures of the whole series
+// with and without them, it had moved: the invented series with every fault
+// went from 1.009 to 1.038 times its true noise.
+func TestNoiseOfPreRepeatsUntouchedBySpectraAside(t *testing.T) {
+	s, rows := bubbleSeries(t, 3)
+	series, blank := s.write(t)
+	run := func(keep bool) *Result {
+		st := NewSettings()
+		st.Data, st.Kind, st.Blanks, st.Pre = []string{series}, "single-beam", []string{blank}, 3
+		st.Report, st.Checks, st.Bands, st.Baseline = "off", "off", "off", "off"
+		st.KeepOutliers = keep
+		r, err := Run(st, io.Discard)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return r
+	}
+	aside, kept := run(false), run(true)
+	if got := asideList(aside); !slices.Equal(got, rows) {
+		t.Fatalf("set aside %v; want the bubbles %v", got, rows)
+	}
+	if aside.NoiseSigma != kept.NoiseSigma || !strings.Contains(aside.NoiseSource, "pre-reaction") {
+		t.Errorf("noise %.10g (%s) with the bubbles aside, %.10g with every spectrum kept; want the same, from the pre-reaction steps", aside.NoiseSigma, aside.NoiseSource, kept.NoiseSigma)
 	}
 }
