@@ -10,7 +10,6 @@ import (
 	"testing"
 
 	"github.com/bandsolve/bandsolve/io/output"
-	"github.com/bandsolve/bandsolve/io/spectra"
 )
 
 // spacedSeries writes an invented absorbance series A -> B on two Gaussian
@@ -183,16 +182,7 @@ func TestOneNoiseLevelWarnsForAWrongOrder(t *testing.T) {
 // noise from the fit with one level, 1.64e-3 ± 2.0e-4 (Hausman's z 2.47),
 // which is now the one reported.
 func TestUrethaneRateAgreesWithTheIsocyanateArea(t *testing.T) {
-	dir := realUrethane(t, "catalyst-1.00")
-	ser, err := spectra.Load(dir, spectra.FolderOptions{TimesFromName: true})
-	if err != nil {
-		t.Fatal(err)
-	}
-	n, _ := ser.Values.Dims()
-	area := make([]float64, n)
-	for i := range area {
-		area[i] = isocyanateArea(ser, i)
-	}
+	dir, ser, area := realUrethaneSeries(t, "catalyst-1.00")
 	want := firstOrderRate(ser.Times, area)
 	st := NewSettings()
 	st.Data, st.Kind, st.TimesFromName, st.Model = []string{dir}, "absorbance", true, "A -> B"

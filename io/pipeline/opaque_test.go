@@ -9,7 +9,6 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/bandsolve/bandsolve/io/spectra"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -86,16 +85,7 @@ func TestOpaqueBandAbsorbanceExport(t *testing.T) {
 // area (least squares, firstOrderRate). Before, the band's flanks made a third species
 // and the kinetics were not done.
 func TestUrethaneOpaqueBand(t *testing.T) {
-	dir := realUrethane(t, "catalyst-1.00")
-	ser, err := spectra.Load(dir, spectra.FolderOptions{TimesFromName: true})
-	if err != nil {
-		t.Fatal(err)
-	}
-	n, _ := ser.Values.Dims()
-	area := make([]float64, n)
-	for i := range area {
-		area[i] = isocyanateArea(ser, i)
-	}
+	_, ser, area := realUrethaneSeries(t, "catalyst-1.00")
 	out := t.TempDir()
 	rng := rand.New(rand.NewPCG(11, 2000))
 	for i, name := range ser.Names {

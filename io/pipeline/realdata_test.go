@@ -67,11 +67,7 @@ func TestUrethaneRealSeries(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	n, _ := ser.Values.Dims()
-	area := make([]float64, n)
-	for i := range area {
-		area[i] = ncoArea(ser.Axis, ser.Values.RawRowView(i))
-	}
+	area := isocyanateAreas(ser)
 	iso := isocyanate(r)
 	prof := mat.Col(nil, iso, r.ALS.C)
 	if c := stat.Correlation(prof, area, nil); math.Abs(c) < 0.98 {

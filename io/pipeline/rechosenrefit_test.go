@@ -8,8 +8,6 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
-
-	"github.com/bandsolve/bandsolve/io/spectra"
 )
 
 // The real urethane series at catalyst 1.00 (realUrethane: jevandezande/
@@ -26,16 +24,8 @@ import (
 // order chosen last: two species and the rate constant within 2 standard
 // errors of the N=C=O band area's (the data set's README; firstOrderRate).
 func TestRechosenBaselineReachesTheRefits(t *testing.T) {
-	dir := realUrethane(t, "catalyst-1.00")
-	ser, err := spectra.Load(dir, spectra.FolderOptions{TimesFromName: true})
-	if err != nil {
-		t.Fatal(err)
-	}
-	n, m := ser.Values.Dims()
-	area := make([]float64, n)
-	for i := range area {
-		area[i] = isocyanateArea(ser, i)
-	}
+	_, ser, area := realUrethaneSeries(t, "catalyst-1.00")
+	_, m := ser.Values.Dims()
 	rng := rand.New(rand.NewPCG(11, 20))
 	var lines [120][2]float64
 	for q := range lines {

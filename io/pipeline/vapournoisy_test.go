@@ -91,11 +91,7 @@ func TestNoisyUrethaneVapourNotASpecies(t *testing.T) {
 // measured, correlation above 0.99.
 func checkIsocyanateFollowsArea(t *testing.T, ser *spectra.Series, r *Result) {
 	t.Helper()
-	n, _ := ser.Values.Dims()
-	area := make([]float64, n)
-	for i := range area {
-		area[i] = isocyanateArea(ser, i)
-	}
+	area := isocyanateAreas(ser)
 	best := -1.0
 	for k := 0; k < r.Components; k++ {
 		best = max(best, stat.Correlation(area, mat.Col(nil, k, r.ALS.C), nil))
