@@ -308,7 +308,7 @@ var options = func() []Option {
 	s6, g6 := str(func(s *Settings) *string { return &s.Times })
 	add(opt("times", "FILE", "CSV with columns file,time_s giving each folder file's acquisition time", false, true, s6, g6))
 	s7, g7 := boolean(func(s *Settings) *bool { return &s.TimesFromName })
-	add(opt("times-from-name", "", "take each file's time from a date-time stamp in its name (2019-07-29T13-20-49, 20190729_132049, Mon Jul 29 13-20-49 2019), else from the last number in it", false, true, s7, g7))
+	add(opt("times-from-name", "", "take each file's time from a date-time stamp in its name (2019-07-29T13-20-49, 20190729_132049, Mon Jul 29 13-20-49 2019), else from the last number in it, in the unit written after it (0.35min, 120s) or --time-unit's", false, true, s7, g7))
 	s8, g8 := choice(func(s *Settings) *string { return &s.TimeUnit }, timeUnitAuto, "s", "min", "h")
 	add(opt("time-unit", "auto|s|min|h", "unit times are shown in on the terminal and in the report, and of plain numbers in file names; files stay in seconds, and so warnings, advice and notes stay in seconds (unit said; their times are what --drop takes); auto: names in s, figures of long runs in min or h", false, true, s8, g8))
 	s9, g9 := list(func(s *Settings) *[]string { return &s.Regions })

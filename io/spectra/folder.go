@@ -14,6 +14,7 @@ import (
 	"strconv"
 	"strings"
 	"sync"
+	"unicode"
 
 	"github.com/bandsolve/bandsolve/internal/fanout"
 	"gonum.org/v1/gonum/mat"
@@ -175,18 +176,49 @@ func ReadTimes(path string) (map[string]float64, error) {
 
 var numberInName = regexp.MustCompile(`[0-9]+(?:\.[0-9]+)?`)
 
-// lastNumberTime reads the last number in text as a time in unit; where
-// says what text is, for the message.
+// nameUnits are the time units read when written straight after a name's
+// number (run7_t0.35min, scan_120s): the SI symbols s, ms and the symbols
+// min and h accepted for use with the SI (SI Brochure, 9th ed., Table 8,
+// from memory; ISO 80000-3 likewise), and the spellings sec, hr common in
+// export names (common practice). m is left out: it is the metre's symbol.
+var nameUnits = map[string]float64{"ms": 1e-3, "s": 1, "sec": 1, "secs": 1,
+	"min": 60, "mins": 60, "h": 3600, "hr": 3600, "hrs": 3600}
+
+// nameNumber is the last number in text and the time unit written straight
+// after it ("" for a plain number), lower-cased; a unit must end the text
+// or be followed by something not a letter (scan_10scans has none).
+func nameNumber(text string) (num, unit string, ok bool) {
+	locs := numberInName.FindAllStringIndex(text, -1)
+	if len(locs) == 0 {
+		return "", "", false
+	}
+	last := locs[len(locs)-1]
+	num, rest := text[last[0]:last[1]], text[last[1]:]
+	end := strings.IndexFunc(rest, func(r rune) bool { return !unicode.IsLetter(r) })
+	if end < 0 {
+		end = len(rest)
+	}
+	if u := strings.ToLower(rest[:end]); nameUnits[u] != 0 {
+		unit = u
+	}
+	return num, unit, true
+}
+
+// lastNumberTime reads the last number in text as a time: in the unit
+// written after it, else in unit; where says what text is, for the message.
 func lastNumberTime(text, unit, where string) (float64, error) {
-	all := numberInName.FindAllString(text, -1)
-	if len(all) == 0 {
+	num, written, ok := nameNumber(text)
+	if !ok {
 		return 0, fmt.Errorf("no number in %s", where)
 	}
-	v, err := strconv.ParseFloat(all[len(all)-1], 64)
+	v, err := strconv.ParseFloat(num, 64)
 	if err != nil {
 		return 0, err
 	}
 	f, err := UnitFactor(unit)
+	if written != "" {
+		f, err = nameUnits[written], nil
+	}
 	if err != nil {
 		return 0, err
 	}

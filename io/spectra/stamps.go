@@ -192,5 +192,36 @@ func timesFromLabels(labels []string, unit string, what func(i int) string) (tim
 			return nil, i, err
 		}
 	}
+	if i, j := mixedUnits(labels); i >= 0 {
+		return nil, i, fmt.Errorf("%s and %s give their times in different units (%s)", what(i), what(j), unitPair(labels[i], labels[j]))
+	}
 	return times, 0, nil
+}
+
+// mixedUnits finds two labels whose last numbers carry different written
+// units (one may have none): a series named partly in minutes and partly
+// in seconds, or partly without a unit, is more likely two series, or
+// stray files, than one. -1 when all agree.
+func mixedUnits(labels []string) (int, int) {
+	first := ""
+	for i, l := range labels {
+		_, u, _ := nameNumber(l)
+		if i == 0 {
+			first = u
+		} else if nameUnits[u] != nameUnits[first] || (u == "") != (first == "") {
+			return i, 0
+		}
+	}
+	return -1, -1
+}
+
+// unitPair says the two labels' written units, "none" for a plain number.
+func unitPair(a, b string) string {
+	name := func(l string) string {
+		if _, u, _ := nameNumber(l); u != "" {
+			return u
+		}
+		return "none"
+	}
+	return name(a) + " against " + name(b)
 }
