@@ -254,7 +254,19 @@ func badCases() []badCase {
 		{name: "folder file that is a peak list", args: []string{"--data", F, "--times-from-name"}, setup: func(t *testing.T, w string) {
 			folder(t, w)
 			writeFile(t, filepath.Join(w, "scans", "s_0480.csv"), "peak,height\n1004,0.31\n1010,0.12\n1016,0.45\n")
-		}, code: 1, want: []string{"s_0480.csv: has 3 points where", "looks like a peak list", "--resample"}},
+		}, code: 1, want: []string{"s_0480.csv: has 3 points where", "looks like a peak list", "--drop s_0480.csv", "--resample"}},
+		// Notes saved beside the exports (common practice): said to be no spectrum, with --drop as a fix.
+		{name: "folder with a notes file", args: []string{"--data", F, "--times-from-name"}, setup: func(t *testing.T, w string) {
+			folder(t, w)
+			writeFile(t, filepath.Join(w, "scans", "notes.txt"), "Operator: AB\nCrystal cleaned with IPA\n")
+		}, code: 1, want: []string{"notes.txt: is not a spectrum", "move it out of the folder or give --drop notes.txt"}},
+		{name: "JCAMP-DX folder with a README", args: []string{"--data", "W/jdx"}, setup: func(t *testing.T, w string) {
+			os.Mkdir(filepath.Join(w, "jdx"), 0o755)
+			for i, d := range []string{"2019/07/29 13:20:49", "2019/07/29 13:21:49", "2019/07/29 13:22:49"} {
+				writeFile(t, filepath.Join(w, "jdx", fmt.Sprintf("s%d.jdx", i)), "##TITLE=s\n##JCAMP-DX=4.24\n##LONGDATE="+d+"\n##XUNITS=1/CM\n##YUNITS=ABSORBANCE\n##NPOINTS=3\n##XYPOINTS=(XY..XY)\n1000,0.1\n1001,0.2\n1002,0.3\n##END=\n")
+			}
+			writeFile(t, filepath.Join(w, "jdx", "README.txt"), "exported spectra\n")
+		}, code: 2, want: []string{"README.txt is not JCAMP-DX", "headers of the other 3 files", "--drop README.txt"}},
 		{name: "folder file with a single peak", args: []string{"--data", F, "--times-from-name"}, setup: func(t *testing.T, w string) {
 			folder(t, w)
 			writeFile(t, filepath.Join(w, "scans", "s_0480.csv"), "peak,height\n1004,0.31\n")

@@ -34,7 +34,10 @@ func needTimes(s *Settings, data string, folder spectra.FolderOptions) error {
 		return nil
 	}
 	dir := s.Path(data)
-	if st, err := os.Stat(dir); err == nil && st.IsDir() && !spectra.MayCarryTimes(dir, folder.Exclude) {
+	if st, err := os.Stat(dir); err == nil && st.IsDir() && !spectra.MayCarryTimes(dir, folder) {
+		if name, n := spectra.NotJCAMP(dir, folder); name != "" {
+			return usage("--data %s: %s is not JCAMP-DX, so the acquisition times in the headers of the other %d files are not used: move it out of the folder or give --drop %s, or give --times FILE (columns file,time_s) or --times-from-name", data, name, n, name)
+		}
 		return usage("--data %s is a folder of spectra: give --times FILE (columns file,time_s) or --times-from-name", data)
 	}
 	return nil

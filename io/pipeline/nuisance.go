@@ -524,6 +524,9 @@ func parseDrops(r *Result) ([]SetAside, error) {
 				}
 			}
 		}
+		if row < 0 && leftOut(r, v) {
+			continue // no spectrum of the series: left out of its folder, with a note
+		}
 		if row < 0 {
 			return nil, usage("--drop %s: no spectrum has that time (s) or file name; give a time from the times table or a file name", v)
 		}
@@ -533,6 +536,17 @@ func parseDrops(r *Result) ([]SetAside, error) {
 		}
 	}
 	return out, nil
+}
+
+// leftOut says a folder left out the file --drop v names before reading
+// its times (spectra.FolderOptions.Drop).
+func leftOut(r *Result, v string) bool {
+	for _, e := range r.Experiments {
+		if slices.Contains(e.Series.Left, filepath.Base(v)) {
+			return true
+		}
+	}
+	return false
 }
 
 // imputeRows replaces the rows set aside by the model C Sᵀ (+ B Pᵀ): a row equal to its

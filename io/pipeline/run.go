@@ -327,6 +327,7 @@ func planReading(s *Settings) (readingPlan, error) {
 		// values), while each channel's values are in cache.
 		ScanBeams: kind == spectra.SingleBeam, Pre: s.Pre}
 	folder.TimesLabel = s.Times
+	folder.Drop = s.Drops
 	if s.Times != "" {
 		folder.Exclude = append(folder.Exclude, s.Path(s.Times))
 	}

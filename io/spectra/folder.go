@@ -27,6 +27,7 @@ type FolderOptions struct {
 	TimeUnit      string   // unit of numbers in names: s, min or h (default s)
 	Resample      bool     // interpolate every file onto the first file's axis
 	Exclude       []string // paths not to treat as spectra (the times table, a blank)
+	Drop          []string // --drop values: a file named here that is no spectrum of the series is left out (folderFiles)
 	// ScanBeams says the data are single beams to be assembled with Pre
 	// spectra before the reaction (AssembleOptions.Pre): a matrix CSV's
 	// parse then takes, channel by channel while each is in cache, the
@@ -240,13 +241,13 @@ func UnitFactor(unit string) (float64, error) {
 
 // ReadFolder reads every spectrum file of a folder and orders them by time.
 func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
-	files, err := spectrumFiles(dir, opt.Exclude)
+	files, left, leftNotes, err := folderFiles(dir, opt)
 	if err != nil {
 		return nil, err
 	}
 	times, fromHeaders, err := folderTimes(dir, files, opt)
 	if err != nil {
-		return nil, err
+		return nil, strayError(files, err)
 	}
 	if len(files) == 0 {
 		return nil, inputErr(dir, 0, "put one file per spectrum in it (.csv, .txt, .dat, .jdx …)", "holds no spectrum files")
@@ -269,7 +270,7 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 	// The error reported is the earliest file's, whatever order the reads ended in.
 	for _, i := range order {
 		if errs[i] != nil {
-			return nil, errs[i]
+			return nil, loneFault(files, errs, i)
 		}
 	}
 	target, keep, err := folderAxis(dir, specs, specs[order[0]], opt.Resample)
@@ -277,10 +278,14 @@ func ReadFolder(dir string, opt FolderOptions) (*Series, error) {
 		return nil, err
 	}
 	s, err := stackSpectra(dir, files, specs, times, order, target, keep, opt.Resample)
-	if err == nil && warning != "" {
+	if err != nil {
+		return nil, err
+	}
+	if warning != "" {
 		s.Warnings = append(s.Warnings, warning)
 	}
-	return s, err
+	s.Notes, s.Left = append(s.Notes, leftNotes...), left
+	return s, nil
 }
 
 // OwnSpectrum says whether file is one of the spectra ReadFolder reads from
@@ -293,7 +298,7 @@ func OwnSpectrum(dir, file string, opt FolderOptions) bool {
 	if st, err := os.Stat(dir); err != nil || !st.IsDir() {
 		return false
 	}
-	files, err := spectrumFiles(dir, opt.Exclude)
+	files, _, _, err := folderFiles(dir, opt)
 	if err != nil {
 		return false
 	}
@@ -506,7 +511,11 @@ func stackSpectra(dir string, files []string, specs []*Spectrum, times []float64
 			return nil, inputErr(files[i], 0, "export the spectra over overlapping ranges", "cannot resample: %v", err)
 		}
 		if !ok {
-			return nil, inputErr(files[i], 0, "use --resample to interpolate onto the first file's axis, or export all spectra on one axis", "%s", describeAxisMismatch(sp.Axis, first.Axis, firstName))
+			hint := "use --resample to interpolate onto the first file's axis, or export all spectra on one axis"
+			if len(sp.Axis) < len(first.Axis)/2 {
+				hint = "if it is no spectrum, move it out of the folder or give --drop " + filepath.Base(files[i]) + "; else " + hint
+			}
+			return nil, inputErr(files[i], 0, hint, "%s", describeAxisMismatch(sp.Axis, first.Axis, firstName))
 		}
 		if sp.Kind != first.Kind {
 			return nil, inputErr(files[i], 0, "give files of one kind", "holds %s data, %s holds %s", orUnknown(sp.Kind), firstName, orUnknown(first.Kind))
@@ -544,12 +553,35 @@ func noTimes(dir string) error {
 	return inputErr(dir, 0, "give --times FILE (columns file,time_s) or --times-from-name", "a folder of spectra needs acquisition times")
 }
 
-// MayCarryTimes says whether the folder's spectrum files (exclude left out)
-// are all JCAMP-DX, whose headers may give the acquisition times that a
-// folder otherwise needs from --times or --times-from-name.
-func MayCarryTimes(dir string, exclude []string) bool {
-	files, err := spectrumFiles(dir, exclude)
+// MayCarryTimes says whether the folder's spectrum files (opt.Exclude and
+// the strays opt.Drop names left out) are all JCAMP-DX, whose headers may
+// give the acquisition times that a folder otherwise needs from --times or
+// --times-from-name.
+func MayCarryTimes(dir string, opt FolderOptions) bool {
+	files, _, _, err := folderFiles(dir, opt)
 	return err == nil && len(files) > 0 && allJCAMP(files)
+}
+
+// NotJCAMP names the first file of a folder mostly of JCAMP-DX files that
+// is not one (as MayCarryTimes lists them), and how many are: the file
+// that keeps the headers' times from being used. "" when the folder is
+// not mostly JCAMP-DX.
+func NotJCAMP(dir string, opt FolderOptions) (name string, jcampFiles int) {
+	files, _, _, err := folderFiles(dir, opt)
+	if err != nil {
+		return "", 0
+	}
+	for _, f := range files {
+		if isJCAMP(f) {
+			jcampFiles++
+		} else if name == "" {
+			name = filepath.Base(f)
+		}
+	}
+	if 2*jcampFiles <= len(files) {
+		return "", jcampFiles
+	}
+	return name, jcampFiles
 }
 
 func allJCAMP(files []string) bool {

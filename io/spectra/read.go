@@ -50,6 +50,9 @@ type Series struct {
 	// Notes say how the spectra were put on one axis (a rounded axis
 	// taken as it is, spectra interpolated with --resample).
 	Notes []string
+	// Left are the files --drop named that were left out of a folder as
+	// no spectra of the series (FolderOptions.Drop), by base name.
+	Left []string
 
 	// scan is what the parse took channel by channel for the single-beam
 	// assembly (FolderOptions.ScanBeams), nil when nothing was; it

@@ -201,18 +201,37 @@ func timesFromLabels(labels []string, unit string, what func(i int) string) (tim
 // mixedUnits finds two labels whose last numbers carry different written
 // units (one may have none): a series named partly in minutes and partly
 // in seconds, or partly without a unit, is more likely two series, or
-// stray files, than one. -1 when all agree.
+// stray files, than one. The first is a label of the rarer unit (the odd
+// file out, most likely a stray), the second one of the commonest; -1 when
+// all agree.
 func mixedUnits(labels []string) (int, int) {
-	first := ""
+	units := make([]float64, len(labels)) // seconds per unit, 0 for none
+	count := map[float64]int{}
 	for i, l := range labels {
 		_, u, _ := nameNumber(l)
-		if i == 0 {
-			first = u
-		} else if nameUnits[u] != nameUnits[first] || (u == "") != (first == "") {
-			return i, 0
+		units[i] = nameUnits[u]
+		count[units[i]]++
+	}
+	if len(count) < 2 {
+		return -1, -1
+	}
+	rare, common := 0, 0
+	for i, u := range units {
+		if count[u] < count[units[rare]] {
+			rare = i
+		}
+		if count[u] > count[units[common]] {
+			common = i
 		}
 	}
-	return -1, -1
+	if units[rare] == units[common] { // a tie: the first file against the first of another unit
+		for i, u := range units {
+			if u != units[0] {
+				return i, 0
+			}
+		}
+	}
+	return rare, common
 }
 
 // unitPair says the two labels' written units, "none" for a plain number.
