@@ -57,9 +57,12 @@ type Outlier struct {
 // OutlierInput is what the test needs besides the fit.
 type OutlierInput struct {
 	Axis []float64
-	// Wavenumber says the axis is in cm⁻¹, so that a curve rising toward its
-	// high end is named as rising with wavenumber.
-	Wavenumber bool
+	// Wavenumbers is the axis in cm⁻¹ (Axis itself on a wavenumber axis,
+	// 10⁷/λ on one in nm), nil when its unit is not known. The rules that
+	// know in cm⁻¹ how wide gas lines and condensed bands are and where CO₂
+	// absorbs read it, and a curve is named as rising with wavenumber on
+	// it; without it they say nothing.
+	Wavenumbers []float64
 	// Sigma > 0 is the per-point noise level in the test's units (1 with
 	// weights; 0 = unknown).
 	Sigma float64
@@ -149,6 +152,9 @@ func FindOutliersIn(d, c, s, b, p *mat.Dense, in OutlierInput) []Outlier {
 		}
 		if shape == nil {
 			shape = newResidualShape(in.Axis, colScale, m)
+			if !shape.inWavenumbers(in.Wavenumbers) {
+				in.Wavenumbers = nil
+			}
 		}
 		residualRow(e, d, c, s, b, p, i)
 		scale(e, i)

@@ -286,7 +286,7 @@ const forestLines = 5
 // line-like … 5.79 cm⁻¹ (12 point(s)) wide"); a bubble's loss stood out as
 // 7 features 11.6–25.5 cm⁻¹ wide. Only on a wavenumber axis.
 func (f residualFeatures) forest(in OutlierInput) bool {
-	return in.Wavenumber && f.axis != nil && f.narrow >= forestLines
+	return in.wavenumber() && f.axis != nil && f.narrow >= forestLines
 }
 
 // featureWidths records the count of the features standing out and of those
@@ -316,14 +316,16 @@ func (f residualFeatures) words(in OutlierInput) string {
 	case f.peak > limit && f.unresolved(in):
 		return fmt.Sprintf("sharp lines (the largest %s, %.3g robust standard deviations of the row, %d points standing out; it is %s wide at half height, no wider than the axis resolves (%d spacings of %.3g cm⁻¹) and narrower than the %g cm⁻¹ of a condensed sample's narrowest bands): gas lines such as water vapour or CO₂", f.at(in, f.peakAt), f.peak, f.standing, f.wide(in, f.width), unresolvedPoints, f.step, condensedBandWidth)
 	}
+	// On an axis in nm its high end is low wavenumber.
+	falls := in.fallsWithAxis()
 	dir := "the high end of the axis"
-	if in.Wavenumber {
-		dir = "high wavenumber"
-	}
 	if f.rising < 0 {
 		dir = "the low end of the axis"
-		if in.Wavenumber {
-			dir = "low wavenumber"
+	}
+	if in.wavenumber() {
+		dir = "low wavenumber"
+		if f.rising >= 0 != falls {
+			dir = "high wavenumber"
 		}
 	}
 	// Below the limit the largest point is not a feature of its own: its
@@ -338,7 +340,7 @@ func (f residualFeatures) words(in OutlierInput) string {
 		return s + co2
 	}
 	loss := f.negShare >= 2.0/3
-	scatter := f.smooth >= 0.2 && f.rising > 0 && in.Wavenumber
+	scatter := f.smooth >= 0.2 && (f.rising > 0 && !falls || f.rising < 0 && falls) && in.wavenumber()
 	switch {
 	case loss && scatter:
 		return s + ": less absorbance across the bands with scatter rising with wavenumber, what a bubble over the crystal or a film lifting off it gives"
@@ -355,7 +357,7 @@ func (f residualFeatures) words(in OutlierInput) string {
 // condensed sample's bands (unresolvedPoints). Only on a wavenumber axis,
 // where the widths of bands and gas lines are known.
 func (f residualFeatures) unresolved(in OutlierInput) bool {
-	return in.Wavenumber && f.axis != nil && f.width <= unresolvedPoints && float64(f.width)*f.step < condensedBandWidth
+	return in.wavenumber() && f.axis != nil && f.width <= unresolvedPoints && float64(f.width)*f.step < condensedBandWidth
 }
 
 // co2 says the largest feature lies where CO₂ in the beam path absorbs: its
@@ -363,10 +365,10 @@ func (f residualFeatures) unresolved(in OutlierInput) bool {
 // over about 2300–2390 cm⁻¹ (common practice); at a few cm⁻¹ resolution its
 // lines merge into the two branches, which look like bands 15–20 cm⁻¹ wide.
 func (f residualFeatures) co2(in OutlierInput) string {
-	if !in.Wavenumber || f.axis == nil {
+	if !in.wavenumber() || f.axis == nil {
 		return ""
 	}
-	at := f.axis[f.peakAt]
+	at := in.Wavenumbers[f.peakAt]
 	if at < 2290 || at > 2400 || float64(f.width)*f.step > 40 {
 		return ""
 	}
@@ -378,8 +380,11 @@ func (f residualFeatures) at(in OutlierInput, j int) string {
 	if f.axis == nil {
 		return fmt.Sprintf("at point %d", j+1)
 	}
-	if in.Wavenumber {
+	if in.wavenumber() && in.Wavenumbers[j] == f.axis[j] {
 		return fmt.Sprintf("at %.6g cm⁻¹", f.axis[j])
+	}
+	if in.wavenumber() {
+		return fmt.Sprintf("at %.6g on the axis (%.6g cm⁻¹)", f.axis[j], in.Wavenumbers[j])
 	}
 	return fmt.Sprintf("at %.6g on the axis", f.axis[j])
 }
@@ -390,8 +395,56 @@ func (f residualFeatures) wide(in OutlierInput, w int) string {
 		return fmt.Sprintf("%d point(s)", w)
 	}
 	unit := ""
-	if in.Wavenumber {
+	if in.wavenumber() {
 		unit = " cm⁻¹"
 	}
 	return fmt.Sprintf("%.3g%s (%d point(s))", float64(w)*f.step, unit, w)
+}
+
+// wavenumber says the axis's values in cm⁻¹ are known (Wavenumbers).
+func (in OutlierInput) wavenumber() bool {
+	return len(in.Wavenumbers) > 0 && len(in.Wavenumbers) == len(in.Axis)
+}
+
+// fallsWithAxis says the wavenumber falls as the axis value rises: an axis
+// in nm.
+func (in OutlierInput) fallsWithAxis() bool {
+	m := len(in.Axis)
+	return in.wavenumber() && m > 1 && (in.Wavenumbers[m-1]-in.Wavenumbers[0])*(in.Axis[m-1]-in.Axis[0]) < 0
+}
+
+// inWavenumbers makes the widths the shape measures widths in cm⁻¹, the
+// unit of the rules on line and band widths, and says whether they are:
+// on an axis in cm⁻¹ they are already; on one converted to it (from nm)
+// the mean spacing in cm⁻¹ is each point's only when that spacing is even
+// (evenlySpaced). An axis evenly spaced in nm is not (its spacing in cm⁻¹
+// changes as 1/λ², sixfold over 4000–1650 cm⁻¹), and there a width in
+// points has no single width in cm⁻¹, so the rules are left out.
+func (rs *residualShape) inWavenumbers(wn []float64) bool {
+	m := len(rs.axis)
+	if m < 2 || len(wn) != m {
+		return false
+	}
+	if slices.Equal(wn, rs.axis) {
+		return true
+	}
+	if !evenlySpaced(wn) {
+		return false
+	}
+	rs.step = math.Abs(wn[m-1]-wn[0]) / float64(m-1)
+	return true
+}
+
+// evenlySpaced says that the steps of x, but for a tenth at either end of
+// their sizes (the gaps an --exclude leaves), are within 5 % of their
+// median.
+func evenlySpaced(x []float64) bool {
+	steps := make([]float64, len(x)-1)
+	for j := range steps {
+		steps[j] = math.Abs(x[j+1] - x[j])
+	}
+	slices.Sort(steps)
+	k := len(steps)
+	med, lo, hi := steps[k/2], steps[k/10], steps[k-1-k/10]
+	return med > 0 && hi-med <= 0.05*med && med-lo <= 0.05*med
 }

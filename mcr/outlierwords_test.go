@@ -88,7 +88,7 @@ func TestBubbleReasonNamesLossAndScatter(t *testing.T) {
 			d.Set(i, j, v+e)
 		}
 	}
-	out := FindOutliersIn(d, c, s, nil, nil, OutlierInput{Axis: axis, Wavenumber: true, Sigma: 1, Row: row, Col: col})
+	out := FindOutliersIn(d, c, s, nil, nil, OutlierInput{Axis: axis, Wavenumbers: axis, Sigma: 1, Row: row, Col: col})
 	if len(out) != 1 || out[0].Row != 17 {
 		t.Fatalf("outliers %+v; want row 17 only", out)
 	}
@@ -137,7 +137,7 @@ func TestUnresolvedLinesAreLinesOnAFineAxis(t *testing.T) {
 			d.Set(i, j, v)
 		}
 	}
-	out := FindOutliersIn(d, c, s, nil, nil, OutlierInput{Axis: axis, Wavenumber: true, Sigma: 1e-3})
+	out := FindOutliersIn(d, c, s, nil, nil, OutlierInput{Axis: axis, Wavenumbers: axis, Sigma: 1e-3})
 	if len(out) != 1 || out[0].Row != 12 {
 		t.Fatalf("outliers %+v; want row 12 only", out)
 	}
@@ -169,7 +169,11 @@ func TestLineWidthRuleAgainstTheSpacing(t *testing.T) {
 	}
 	for _, tc := range cases {
 		f := residualFeatures{width: tc.width, step: tc.step, axis: axis}
-		if got := f.unresolved(OutlierInput{Wavenumber: tc.wavenumber}); got != tc.want {
+		in := OutlierInput{Axis: axis}
+		if tc.wavenumber {
+			in.Wavenumbers = axis
+		}
+		if got := f.unresolved(in); got != tc.want {
 			t.Errorf("%d points at %g (wavenumber %v): unresolved %v; want %v", tc.width, tc.step, tc.wavenumber, got, tc.want)
 		}
 	}
@@ -186,7 +190,7 @@ func TestBroadResidualWithNoPointStandingOut(t *testing.T) {
 	for j := range axis {
 		axis[j] = 1800 - 0.482*float64(j)
 	}
-	in := OutlierInput{Axis: axis, Wavenumber: true}
+	in := OutlierInput{Axis: axis, Wavenumbers: axis}
 	low := residualFeatures{peak: 4, peakAt: 20, width: 1, limit: 6, step: 0.482, axis: axis, smooth: 0.1, negShare: 0.5}
 	w := low.words(in)
 	if !strings.Contains(w, "no point standing out (the largest, at 1790.36 cm⁻¹, is 4 robust standard deviations of the row, under the 6") || strings.Contains(w, "wide at half height;") {
@@ -305,7 +309,7 @@ func TestForestOfOverlappingLinesIsLines(t *testing.T) {
 			d.Set(i, j, v)
 		}
 	}
-	out := FindOutliersIn(d, c, s, nil, nil, OutlierInput{Axis: axis, Wavenumber: true, Sigma: 1e-3})
+	out := FindOutliersIn(d, c, s, nil, nil, OutlierInput{Axis: axis, Wavenumbers: axis, Sigma: 1e-3})
 	if len(out) != 2 || out[0].Row != 12 || out[1].Row != 20 {
 		t.Fatalf("outliers %+v; want rows 12 and 20", out)
 	}
@@ -317,4 +321,57 @@ func TestForestOfOverlappingLinesIsLines(t *testing.T) {
 	}
 	t.Logf("lines: %s", out[0].Reason)
 	t.Logf("bubble: %s", out[1].Reason)
+}
+
+// On a wavelength axis in nm the rules written in cm⁻¹ read the axis
+// converted, ν̃/cm⁻¹ = 10⁷/(λ/nm) (the definition of the wavenumber): the
+// high end of the axis is low wavenumber, so a curve higher there is not
+// scatter rising with wavenumber (Rayleigh, ν⁴; common practice), and a
+// feature at 4255.3 nm = 2350 cm⁻¹ lies in CO₂'s stretching band
+// (2300–2390 cm⁻¹; common practice), its width in cm⁻¹ from the converted
+// spacing, 0.5 cm⁻¹ here.
+func TestOutlierWordsOnAWavelengthAxis(t *testing.T) {
+	const m = 400
+	nm, wn := make([]float64, m), make([]float64, m)
+	for j := range wn {
+		wn[j] = 2500 - 0.5*float64(j)
+		nm[j] = 1e7 / wn[j]
+	}
+	in := OutlierInput{Axis: nm, Wavenumbers: wn}
+	rs := newResidualShape(nm, nil, m)
+	if !rs.inWavenumbers(wn) || math.Abs(rs.step-0.5) > 1e-9 {
+		t.Fatalf("spacing in cm⁻¹ %g; want 0.5", rs.step)
+	}
+	f := residualFeatures{peak: 9, peakAt: 300, width: 20, limit: 6, step: rs.step, axis: nm, smooth: 0.5, negShare: 0.8, rising: 1}
+	w := f.words(in)
+	for _, want := range []string{"at 4255.32 on the axis (2350 cm⁻¹)", "10 cm⁻¹ (20 point(s)) wide", "higher toward low wavenumber", "CO₂ in the beam path has its stretching band"} {
+		if !strings.Contains(w, want) {
+			t.Errorf("rising toward the axis's high end: want %q in %q", want, w)
+		}
+	}
+	f.rising, f.peakAt = -1, 20 // 2490 cm⁻¹, outside CO₂'s band
+	w = f.words(in)
+	if !strings.Contains(w, "higher toward high wavenumber") || !strings.Contains(w, "scatter rising with wavenumber") {
+		t.Errorf("rising toward the axis's low end: %q", w)
+	}
+	// An axis evenly spaced in nm is not in cm⁻¹ (its spacing there runs
+	// from 1.6 to 0.19 cm⁻¹ over 2500–7500 nm, as 10⁷/λ²): no one width in
+	// cm⁻¹ per point, the rules are left out.
+	even := make([]float64, 2501)
+	for j := range even {
+		even[j] = 2500 + 2*float64(j)
+	}
+	if newResidualShape(even, nil, len(even)).inWavenumbers(spectraWavenumbers(even)) {
+		t.Error("an axis even in nm taken as even in cm⁻¹")
+	}
+}
+
+// spectraWavenumbers is 10⁷/λ (io/spectra.Wavenumbers, which mcr does not
+// import).
+func spectraWavenumbers(nm []float64) []float64 {
+	out := make([]float64, len(nm))
+	for j, x := range nm {
+		out[j] = 1e7 / x
+	}
+	return out
 }

@@ -66,6 +66,10 @@ type NuisanceOptions struct {
 	// AxisName is the axis's name as the run knows it ("wavenumber", "wavelength", a
 	// column title): the descriptions give positions in its unit when it fixes one.
 	AxisName string
+	// Wavenumbers is the axis in cm⁻¹ when it is in nm (converted, 10⁷/λ),
+	// where CO₂'s line is looked for (carbonDioxideAt) and places are given
+	// in both units; nil reads Axis, in cm⁻¹ when AxisName says so.
+	Wavenumbers []float64
 	// MeanLevel says the first factor is the data's mean level (absorbance, not
 	// difference data): the size test of minor factors then compares with the chemical
 	// factors after it.
@@ -799,8 +803,14 @@ func (c *factorClassifier) minorShape(u, v []float64) string {
 				at = j
 			}
 		}
-		fmt.Fprintf(&b, ", largest near %s", axisPlace(axis[at], c.opt.AxisName))
-		b.WriteString(carbonDioxideAt(v, axis, at, axisUnit(c.opt.AxisName)))
+		wn, unit := axis, axisUnit(c.opt.AxisName)
+		if len(c.opt.Wavenumbers) == len(v) {
+			wn, unit = c.opt.Wavenumbers, "cm⁻¹"
+			fmt.Fprintf(&b, ", largest near %.4g nm, %.4g cm⁻¹", axis[at], wn[at])
+		} else {
+			fmt.Fprintf(&b, ", largest near %s", axisPlace(axis[at], c.opt.AxisName))
+		}
+		b.WriteString(carbonDioxideAt(v, wn, at, unit))
 	}
 	if len(u) > 2 {
 		peak := 0
@@ -874,7 +884,8 @@ func timePlace(peak, n int, blocks []int) string {
 // 667.4 cm⁻¹ (band position common practice; the value from memory), which
 // a purge or the room changes. A sample's band there is seldom that narrow.
 // Only on an axis that reaches 1500 (a mid-infrared one in cm⁻¹): a
-// UV-visible axis in nm, which stops near 1100, has 664–671 too.
+// UV-visible axis in nm, which stops near 1100, has 664–671 too when it is
+// not converted (an axis of no known unit is read as it is).
 func carbonDioxideAt(v, axis []float64, at int, unit string) string {
 	if x := axis[at]; x < 664 || x > 671 || max(axis[0], axis[len(axis)-1]) < 1500 {
 		return ""

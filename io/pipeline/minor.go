@@ -158,8 +158,9 @@ func vapourRefit(r *Result, mt *mcr.MinorTest) {
 		return
 	}
 	share := v.PatternShare(s)
+	wn, _ := linesAxis(r) // not nil: the check ran on it
 	lines := make([]bool, len(r.Axis))
-	for j, x := range r.Axis {
+	for j, x := range wn {
 		lines[j] = svd.InVapourLines(x)
 	}
 	beyond := mt.OwnBandBeyond(lines, r.Settings.Alpha)

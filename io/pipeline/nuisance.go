@@ -13,6 +13,7 @@ import (
 	"github.com/bandsolve/bandsolve/internal/product"
 	"github.com/bandsolve/bandsolve/internal/pvalue"
 	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/io/spectra"
 	"github.com/bandsolve/bandsolve/mcr"
 	"github.com/bandsolve/bandsolve/svd"
 	"gonum.org/v1/gonum/mat"
@@ -224,7 +225,7 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 	if err != nil {
 		return nil, nil, err
 	}
-	cr := svd.ClassifyFactors(dc, f, rep, svd.NuisanceOptions{Axis: r.Axis, AxisName: r.AxisName, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis, Blocks: experimentBlocks(r)})
+	cr := svd.ClassifyFactors(dc, f, rep, svd.NuisanceOptions{Axis: r.Axis, AxisName: r.AxisName, Wavenumbers: convertedAxis(r), Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis, Blocks: experimentBlocks(r)})
 	svd.ApplyChemical(rep, cr)
 	return rep, cr, nil
 }
@@ -246,7 +247,7 @@ func screenedRank(r *Result, d *mat.Dense, f *svd.Factors, q, dq *mat.Dense, in 
 	if err != nil {
 		return nil, nil, err
 	}
-	cr := svd.ClassifyFactors(nil, pf, rep, svd.NuisanceOptions{Axis: r.Axis, AxisName: r.AxisName, Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis, Blocks: experimentBlocks(r)})
+	cr := svd.ClassifyFactors(nil, pf, rep, svd.NuisanceOptions{Axis: r.Axis, AxisName: r.AxisName, Wavenumbers: convertedAxis(r), Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis, Blocks: experimentBlocks(r)})
 	svd.ApplyChemical(rep, cr)
 	return rep, cr, nil
 }
@@ -1138,7 +1139,7 @@ func resizedColumns(x *mat.Dense, c int) *mat.Dense {
 // weights the residual is read in units of its noise (σ = 1), without them
 // against the rank step's σ.
 func outlierInput(r *Result, data mcr.Data, skip []bool) mcr.OutlierInput {
-	in := mcr.OutlierInput{Axis: r.Axis, Wavenumber: r.AxisName == "wavenumber", Sigma: plainSigma(r), Skip: skip}
+	in := mcr.OutlierInput{Axis: r.Axis, Wavenumbers: spectra.Wavenumbers(r.AxisName, r.Axis), Sigma: plainSigma(r), Skip: skip}
 	if row, col := weightsOfData(data); row != nil && col != nil {
 		in.Row, in.Col, in.Sigma = row, col, 1
 	}

@@ -1006,7 +1006,8 @@ func assembleExperiments(s *Settings, r *Result, series []*spectra.Series, axis 
 		if note := referenceNote(s, r.Experiments[len(r.Experiments)-1], eopt); note != "" {
 			r.Notes = append(r.Notes, note)
 		}
-		if err := subtractLineSpectra(r, as, ser.Source, axis); err != nil {
+		wn, _ := linesAxisOf(first.AxisName, axis)
+		if err := subtractLineSpectra(r, as, ser.Source, wn); err != nil {
 			return nil, err
 		}
 		n := r.Experiments[len(r.Experiments)-1].Rows

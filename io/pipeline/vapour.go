@@ -19,7 +19,12 @@ import (
 // before anything is resolved: a change of the beam path's humidity is
 // not chemistry, and the user should hear of it whatever is counted.
 func checkVapour(r *Result) {
-	v := svd.CheckVapour(r.D, r.Axis, experimentBlocks(r))
+	var v svd.VapourCheck
+	if axis, _ := linesAxis(r); axis != nil {
+		v = svd.CheckVapour(r.D, axis, experimentBlocks(r))
+	} else {
+		v.Why = "a wavelength of the axis is not positive, so it has no wavenumber"
+	}
 	r.Vapour = &v
 	if note := vapourNotChecked(r, &v); note != "" {
 		r.Notes = append(r.Notes, note)
@@ -40,7 +45,8 @@ func vapourNotChecked(r *Result, v *svd.VapourCheck) string {
 		return ""
 	}
 	lo, hi, in := math.Inf(1), math.Inf(-1), 0
-	for _, x := range r.Axis {
+	axis, converted := linesAxis(r)
+	for _, x := range axis {
 		if svd.InVapourRange(x) {
 			lo, hi, in = math.Min(lo, x), math.Max(hi, x), in+1
 		}
@@ -48,7 +54,39 @@ func vapourNotChecked(r *Result, v *svd.VapourCheck) string {
 	if in == 0 {
 		return ""
 	}
-	return fmt.Sprintf("water vapour not checked: %s; the axis holds %d point(s) at %.4g–%.4g cm⁻¹ where the vapour has lines (%s), so a change of the beam path's humidity there would go unnoticed: look for narrow lines in the residual map, or widen --region to cover a whole range", v.Why, in, lo, hi, vapourRangesAll())
+	on := ""
+	if converted {
+		on = " (on the wavelength axis converted to wavenumber, 10⁷/λ)"
+	}
+	return fmt.Sprintf("water vapour not checked%s: %s; the axis holds %d point(s) at %.4g–%.4g cm⁻¹ where the vapour has lines (%s), so a change of the beam path's humidity there would go unnoticed: look for narrow lines in the residual map, or widen --region to cover a whole range", on, v.Why, in, lo, hi, vapourRangesAll())
+}
+
+// linesAxis is the run's axis as the rules written in cm⁻¹ read it
+// (linesAxisOf).
+func linesAxis(r *Result) (axis []float64, converted bool) {
+	return linesAxisOf(r.AxisName, r.Axis)
+}
+
+// linesAxisOf is the axis in cm⁻¹ for the water-vapour check and the
+// rules after it, whose ranges are in cm⁻¹: a wavelength axis converted
+// (spectra.Wavenumbers; converted true, nil when a wavelength is not
+// positive), a wavenumber axis as it is, and an axis of another name as it
+// is too, read in cm⁻¹ as an infrared export without a unit most often is
+// (common practice; the readers' guessAxisName).
+func linesAxisOf(name string, axis []float64) (wn []float64, converted bool) {
+	if name == "wavelength" {
+		return spectra.Wavenumbers(name, axis), true
+	}
+	return axis, false
+}
+
+// convertedAxis is the run's axis in cm⁻¹ when it is in nm, else nil
+// (the axis itself is in cm⁻¹, or of no known unit).
+func convertedAxis(r *Result) []float64 {
+	if wn, converted := linesAxis(r); converted {
+		return wn
+	}
+	return nil
 }
 
 // vapourRangesText is the ranges the check examined, "3550–3950 cm⁻¹" or
@@ -437,9 +475,13 @@ func readLineSpectra(r *Result, first *spectra.Series, axis []float64, chans []i
 // (svd.LineAmounts). The fit is linear in the row, so the differences
 // stay the absolute rows less the reference's, both compensated. The
 // amounts of the rows D is made of are kept for vapour_subtracted.csv.
+// axis is in cm⁻¹ (linesAxisOf), the unit of the fit's smooth.
 func subtractLineSpectra(r *Result, as *spectra.Assembled, source string, axis []float64) error {
 	if len(r.LineSpectra) == 0 {
 		return nil
+	}
+	if axis == nil {
+		return fmt.Errorf("--vapour: %s: a wavelength of the axis is not positive, so it has no wavenumber to fit the lines on", source)
 	}
 	kept := as.Difference
 	if as.Absolute != nil {

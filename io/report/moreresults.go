@@ -161,7 +161,8 @@ func factorView(nf output.NuisanceJSON, unit string) factorRow {
 }
 
 // vapourRows are the water-vapour check's findings in words; the axis
-// positions are in the axis's own unit.
+// positions are in the axis's own unit, but in cm⁻¹ on a wavelength axis,
+// which the check reads converted to wavenumber.
 func vapourRows(w *output.VapourJSON, axis string) [][2]string {
 	if w == nil {
 		return nil
@@ -169,6 +170,9 @@ func vapourRows(w *output.VapourJSON, axis string) [][2]string {
 	var rows [][2]string
 	add := func(label, value string) { rows = append(rows, [2]string{label, value}) }
 	unit := spectralAxis(axis).Unit
+	if unit == "nm" {
+		unit = "cm⁻¹"
+	}
 	if !w.Checked {
 		return append(rows, [2]string{"water-vapour lines checked", "no — " + w.Why})
 	}
