@@ -90,6 +90,84 @@ func absorbanceLook(ser *spectra.Series) (why string, sure bool) {
 	return "", false
 }
 
+// transmittanceLook says why a series with no declared kind, about to be
+// read as single beams, looks like transmittance instead, or "" when it does
+// not. A transmittance T = I/I0 is at most 1 (100 %) but for noise, by
+// definition (IUPAC Gold Book, "transmittance"), and near 1 wherever the
+// sample absorbs nothing, which is most of an infrared axis between its
+// bands (common practice): every value within 0…1.5 (or 0…200 per cent,
+// percentAbove and percentMost as --kind transmittance takes them) with the
+// first spectrum's median at least transmittanceLevel of full scale.
+// Single beams in counts are not confined to 0…1, and a throughput curve
+// scaled to its peak lies far below it over most of the axis. Read as single
+// beams, transmittance still gives the right differences (−log10(T/T0) is
+// A − A0), so this is a warning, not a refusal: what is lost is the absolute
+// absorbance that species mode resolves.
+func transmittanceLook(ser *spectra.Series) string {
+	n, m := ser.Values.Dims()
+	if n == 0 || m == 0 {
+		return ""
+	}
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for i := 0; i < n; i++ {
+		for _, v := range ser.Values.RawRowView(i)[:m] {
+			if v == v && v-v == 0 { // finite
+				lo, hi = math.Min(lo, v), math.Max(hi, v)
+			}
+		}
+	}
+	full, words := 1.0, "a fraction at most 1"
+	if hi > spectra.PercentAbove {
+		full, words = 100, "per cent at most 100"
+	}
+	if hi > spectra.PercentMost || lo < -transmittanceSlack*full {
+		return ""
+	}
+	med := middle(finiteOf(ser.Values.RawRowView(0)[:m]))
+	if !(med >= transmittanceLevel*full) {
+		return ""
+	}
+	return fmt.Sprintf("all of them lie between %.4g and %.4g and the first spectrum's median is %.4g, as a transmittance's do (%s, near it where nothing absorbs)", lo, hi, med, words)
+}
+
+// transmittanceLevel is the least median, as a share of full transmission,
+// of a first spectrum taken for transmittance; transmittanceSlack how far
+// below zero noise may take a transmittance at points without light (as a
+// share of full scale). The urethane ATR series as transmittance: median
+// 0.980, smallest 0.430, largest 1.010.
+const (
+	transmittanceLevel = 0.7
+	transmittanceSlack = 0.05
+)
+
+// notTransmittance says why values given as transmittance (--kind
+// transmittance) are no transmittance, or "": the largest, on the scale
+// they were taken in (largest already divided by 100 when percent), below
+// transmittanceTop, so that nowhere on the axis does even that share of the
+// light pass. A transmittance is near 1 where the sample absorbs nothing
+// (IUPAC Gold Book, "transmittance"); absorbance lies near 0 there.
+func notTransmittance(largest float64) string {
+	if !(largest < transmittanceTop) {
+		return ""
+	}
+	return fmt.Sprintf("their largest value, %.4g of full transmission, is below %.2g: a transmittance is near 1 (100 %%) wherever the sample absorbs nothing, an absorbance near 0", largest, transmittanceTop)
+}
+
+// transmittanceTop: below it, no point of the spectrum passes half the
+// light (absorbance above 0.3 everywhere), which no spectrum with a
+// baseline between its bands does (common practice).
+const transmittanceTop = 0.5
+
+func finiteOf(v []float64) []float64 {
+	out := make([]float64, 0, len(v))
+	for _, x := range v {
+		if x == x && x-x == 0 {
+			out = append(out, x)
+		}
+	}
+	return out
+}
+
 // beamsAbove is the median value above which spectra given as absorbance
 // or differences are taken for single beams: an absorbance of 10 leaves
 // 10⁻¹⁰ of the light, and measured absorbance seldom exceeds 3 to 4 before

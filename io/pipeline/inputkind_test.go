@@ -259,3 +259,102 @@ func TestSingleBeamLook(t *testing.T) {
 }
 
 func strconvFloat(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
+
+// urethaneFour is the four real ATR absorbance spectra of
+// testdata/urethane-atr (files 1, 10, 20 and 58 of the catalyst-1.00
+// series, 2000–2700 cm⁻¹; jevandezande/spectra, MIT) as one series, and
+// the same spectra through f value by value.
+func urethaneFour(t *testing.T, f func(a float64) float64) *spectra.Series {
+	t.Helper()
+	files, err := filepath.Glob(filepath.Join("..", "..", "testdata", "urethane-atr", "*.CSV"))
+	if err != nil || len(files) != 4 {
+		t.Fatalf("urethane files: %v, %v", files, err)
+	}
+	var ser *spectra.Series
+	for i, p := range files {
+		sp, err := spectra.ReadSpectrumFile(p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if ser == nil {
+			ser = &spectra.Series{AxisName: sp.AxisName, Axis: sp.Axis, Values: mat.NewDense(len(files), len(sp.Axis), nil), Source: "urethane"}
+		}
+		for j, a := range sp.Values {
+			ser.Values.Set(i, j, f(a))
+		}
+		ser.Times = append(ser.Times, float64(i))
+	}
+	return ser
+}
+
+// Transmittance T = 10^−A is at most 1 (100 %) and near 1 where nothing
+// absorbs (IUPAC Gold Book, "transmittance" and "absorbance"): given with
+// no --kind, it is read as single beams, which must be said, naming
+// --kind transmittance. Single beams (in counts, in arbitrary units 0–2,
+// or scaled to their peak) and absorbance are not taken for it.
+func TestTransmittanceLookWithoutKind(t *testing.T) {
+	beams, _ := uvSeries(1, 1e-3)
+	peak, _ := uvSeries(1/1.95, 1e-3) // a throughput curve scaled to its peak, ≤ 1
+	counts, _ := uvSeries(2e4, 20)
+	cases := []struct {
+		name string
+		ser  *spectra.Series
+		want bool
+	}{
+		{"transmittance as a fraction, T = 10^−A", urethaneFour(t, func(a float64) float64 { return math.Pow(10, -a) }), true},
+		{"transmittance in per cent, 100·10^−A", urethaneFour(t, func(a float64) float64 { return 100 * math.Pow(10, -a) }), true},
+		{"absorbance", urethaneFour(t, func(a float64) float64 { return a }), false},
+		{"single beams, arbitrary units 0.15–1.95", beams, false},
+		{"single beams scaled to their peak", peak, false},
+		{"single beams in counts", counts, false},
+	}
+	for _, c := range cases {
+		s := NewSettings()
+		s.Data = []string{"series"}
+		r := &Result{}
+		kind, _ := beamKind(s, r, []*spectra.Series{c.ser}, "")
+		said := strings.Contains(strings.Join(r.Warnings, "\n"), "--kind transmittance")
+		if said != c.want {
+			t.Errorf("%s: said --kind transmittance: %v, want %v (%q)", c.name, said, c.want, r.Warnings)
+		}
+		if c.want && (kind != spectra.SingleBeam || len(r.Warnings) != 1) {
+			t.Errorf("%s: kind %q, %d warnings: want single beams and one warning", c.name, kind, len(r.Warnings))
+		}
+	}
+	// With a --kind given, the user's word stands and nothing is said.
+	s := NewSettings()
+	s.Data = []string{"series"}
+	r := &Result{}
+	tr := urethaneFour(t, func(a float64) float64 { return math.Pow(10, -a) })
+	if _, err := beamKind(s, r, []*spectra.Series{tr}, spectra.SingleBeam); err != nil || len(r.Warnings) != 0 {
+		t.Errorf("--kind single-beam on transmittance: %v, %q", err, r.Warnings)
+	}
+}
+
+// Absorbance given as --kind transmittance: a transmittance is near 1 where
+// the sample absorbs nothing (IUPAC Gold Book, "transmittance"), the real
+// urethane absorbance nowhere exceeds 0.5; it must be said, naming --kind
+// absorbance. True transmittance, as a fraction or in per cent, is not.
+func TestAbsorbanceGivenAsTransmittance(t *testing.T) {
+	cases := []struct {
+		name string
+		f    func(a float64) float64
+		want bool
+	}{
+		{"absorbance", func(a float64) float64 { return a }, true},
+		{"transmittance, T = 10^−A", func(a float64) float64 { return math.Pow(10, -a) }, false},
+		{"transmittance in per cent", func(a float64) float64 { return 100 * math.Pow(10, -a) }, false},
+	}
+	for _, c := range cases {
+		s := NewSettings()
+		s.Data = []string{"series"}
+		r := &Result{}
+		if err := transmittanceToAbsorbance(s, r, []*spectra.Series{urethaneFour(t, c.f)}); err != nil {
+			t.Fatalf("%s: %v", c.name, err)
+		}
+		said := strings.Contains(strings.Join(r.Warnings, "\n"), "--kind absorbance")
+		if said != c.want {
+			t.Errorf("%s: said --kind absorbance: %v, want %v (%q)", c.name, said, c.want, r.Warnings)
+		}
+	}
+}

@@ -6,6 +6,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -336,6 +337,15 @@ func TestJCAMPTransmittance(t *testing.T) {
 	}
 	if _, err := os.Stat(filepath.Join(tDir, "refused")); !os.IsNotExist(err) {
 		t.Error("a refused run left an output folder")
+	}
+	// --kind transmittance on them is refused by what the files declare
+	// (JCAMP-DX 4.24: ##YUNITS names the ordinates' units), quoted as
+	// written, in the first file in time order, not the folder.
+	s.Kind, s.Out = "transmittance", "refused-t"
+	_, err = Execute(s, Streams{Out: &bytes.Buffer{}, Err: &bytes.Buffer{}})
+	first := filepath.Join("scans", fmt.Sprintf("scan_%04g.jdx", slices.Min(q.times)))
+	if err == nil || !strings.Contains(err.Error(), first+" declares") || !strings.Contains(err.Error(), "##YUNITS=TRANSMITTANCE") {
+		t.Errorf("--kind transmittance on T files: %v; want it refused naming %s and ##YUNITS=TRANSMITTANCE", err, first)
 	}
 }
 

@@ -1109,6 +1109,12 @@ func beamKind(s *Settings, r *Result, series []*spectra.Series, kind spectra.Kin
 	if kind != spectra.SingleBeam {
 		return kind, nil
 	}
+	if given == "" {
+		if why := transmittanceLook(series[0]); why != "" {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("%s: no --kind was given, so the values were taken as single beams, but %s; if they are transmittance, rerun with --kind transmittance (read as single beams they give differences only, no absolute absorbance)", s.Data[0], why))
+			return kind, nil
+		}
+	}
 	why, sure := absorbanceLook(series[0])
 	switch {
 	case why == "":
@@ -1136,7 +1142,7 @@ func transmittanceToAbsorbance(s *Settings, r *Result, series []*spectra.Series)
 	}
 	for i, ser := range series {
 		if ser.Kind != "" {
-			return usage("%s declares its own units (%s): leave out --kind transmittance (JCAMP-DX transmittance is read as absorbance by itself)", s.Data[i], ser.Kind)
+			return usage("%s declares its own units (##YUNITS=%s, read as %s by itself): leave out --kind transmittance", declaringFile(s.Data[i], ser), orNone(ser.Units), ser.Kind)
 		}
 		percent, largest, err := spectra.TransmittanceToAbsorbance(ser)
 		if err != nil {
@@ -1147,8 +1153,32 @@ func transmittanceToAbsorbance(s *Settings, r *Result, series []*spectra.Series)
 			scale = "per cent (largest value %.4g), read as absorbance A = −log10(T/100)"
 		}
 		r.Notes = append(r.Notes, fmt.Sprintf("%s: transmittance taken as "+scale, s.Data[i], largest))
+		full := largest
+		if percent {
+			full /= 100
+		}
+		if why := notTransmittance(full); why != "" {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("%s: the values were taken as transmittance, as --kind transmittance says, but %s; if they are absorbance, rerun with --kind absorbance (or --kind difference for differences)", s.Data[i], why))
+		}
 	}
 	return nil
+}
+
+// declaringFile names the file whose own units a series took (JCAMP-DX
+// ##YUNITS): the first file of a folder in time order under the folder as
+// the user wrote it (shown), else the file given.
+func declaringFile(shown string, ser *spectra.Series) string {
+	if len(ser.Names) == 0 || filepath.Dir(ser.Names[0]) != filepath.Clean(ser.Source) {
+		return shown
+	}
+	return filepath.Join(shown, filepath.Base(ser.Names[0]))
+}
+
+func orNone(units string) string {
+	if units == "" {
+		return "(none)"
+	}
+	return units
 }
 
 // reactionsRidge is the relative Tikhonov term of the extents step in

@@ -87,7 +87,7 @@ func blockSpectrum(path, src string, b jcamp.Block) (*Spectrum, error) {
 		kind = string(Absorbance)
 	}
 	acq, _ := jcampAcquired(b)
-	return &Spectrum{AxisName: jcampAxisName(b.XUnits, x), Axis: x, Values: y, Source: src, Kind: kind, Title: b.Title, Acquired: acq}, nil
+	return &Spectrum{AxisName: jcampAxisName(b.XUnits, x), Axis: x, Values: y, Source: src, Kind: kind, Units: b.YUnits, Title: b.Title, Acquired: acq}, nil
 }
 
 func blockName(b jcamp.Block) string {
@@ -252,7 +252,7 @@ func (b jcampBlocks) series(times []float64, resample bool) (*Series, error) {
 		order[i] = i
 	}
 	sort.SliceStable(order, func(x, y int) bool { return times[order[x]] < times[order[y]] })
-	s := &Series{AxisName: first.AxisName, Axis: first.Axis, Source: b.path, Kind: first.Kind}
+	s := &Series{AxisName: first.AxisName, Axis: first.Axis, Source: b.path, Kind: first.Kind, Units: first.Units}
 	s.Values = mat.NewDense(len(b.sps), len(first.Axis), nil)
 	tally := axisTally{ref: b.name(first), axisName: first.AxisName}
 	for r, i := range order {

@@ -44,6 +44,10 @@ type Series struct {
 	// elsewhere must write the same bytes. "" names Source.
 	Label string
 	Kind  string // kind declared by the file itself (JCAMP-DX), "" if none
+	// Units are the ordinate units as the file declares them (JCAMP-DX
+	// ##YUNITS, "TRANSMITTANCE" when Kind says absorbance because the
+	// reader converted it), "" if none: messages quote what the file says.
+	Units string
 	// Warnings are what reading found worth a look but not a stop: times
 	// asked for that the files' own headers contradict.
 	Warnings []string
@@ -76,6 +80,7 @@ type Spectrum struct {
 	Values   []float64
 	Source   string
 	Kind     string
+	Units    string    // JCAMP-DX ##YUNITS as written, "" for other formats
 	Title    string    // JCAMP-DX ##TITLE, "" for other formats
 	Acquired time.Time // JCAMP-DX ##LONGDATE (or ##DATE and ##TIME); zero when not given
 }

@@ -12,6 +12,13 @@ import (
 // not).
 const percentAbove = 1.5
 
+// PercentAbove and PercentMost are percentAbove and percentMost for
+// callers that tell whether values look like a transmittance at all.
+const (
+	PercentAbove = percentAbove
+	PercentMost  = percentMost
+)
+
 // percentMost is the largest value taken for a transmittance at all: per
 // cent with room for noise and a baseline above full transmission (the
 // real urethane exports reach 101.8 % where the crystal absorbs nothing).
