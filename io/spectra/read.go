@@ -22,6 +22,7 @@ import (
 	"strings"
 	"sync"
 	"time"
+	"unicode"
 	"unsafe"
 
 	"github.com/bandsolve/bandsolve/internal/decimal"
@@ -603,9 +604,7 @@ func (p *matrixParse) series(axisName string) (*Series, error) {
 	if err := checkAxis(p.path, p.axis, func(i int) int { return p.rows[i].n }); err != nil {
 		return nil, err
 	}
-	if axisName == "" {
-		axisName = guessAxisName(p.axis)
-	}
+	axisName, note := matrixAxisName(axisName, p.axis)
 	names := make([]string, p.n)
 	for j := range names {
 		names[j] = fmt.Sprintf("%s column %d", p.path, j+2)
@@ -615,8 +614,50 @@ func (p *matrixParse) series(axisName string) (*Series, error) {
 		p.scan.values = p.vals
 		s.scan = p.scan
 	}
+	if note != "" {
+		s.Notes = append(s.Notes, note)
+	}
 	s.sortByTime()
 	return s, nil
+}
+
+// matrixAxisName is the axis name of a matrix CSV from its header cell
+// (lower case), recognised as a per-file column title is (cleanAxisName):
+// "wavenumber (cm-1)" is the wavenumber in cm⁻¹ every output writes as such
+// (JCAMP-DX ##XUNITS=1/CM). A wavelength in µm is put in nm, the unit
+// "wavelength" has in every output, by ×1000 in place, and the note says
+// so; a header naming neither is kept as written (a chemical shift, a
+// channel number). A blank one is guessed from the values.
+func matrixAxisName(header string, axis []float64) (name, note string) {
+	if header == "" {
+		return guessAxisName(axis), ""
+	}
+	name = cleanAxisName(header, axis)
+	if name != "wavenumber" && micrometres(header) {
+		for i := range axis {
+			axis[i] *= 1000
+		}
+		return "wavelength", fmt.Sprintf("the axis %q is a wavelength in µm: read as nm (×1000), the unit of every output and of --exclude and other ranges", header)
+	}
+	if name != "wavenumber" && name != "wavelength" {
+		return header, ""
+	}
+	return name, ""
+}
+
+// micrometres says a column title gives its unit as µm: "wavelength (um)",
+// "λ [µm]", "micrometers" (JCAMP-DX 4.24 ##XUNITS=MICROMETERS).
+func micrometres(title string) bool {
+	words := strings.FieldsFunc(strings.ToLower(title), func(r rune) bool {
+		return !unicode.IsLetter(r)
+	})
+	for _, w := range words {
+		switch w {
+		case "um", "µm", "μm", "micrometer", "micrometers", "micrometre", "micrometres", "micron", "microns":
+			return true
+		}
+	}
+	return false
 }
 
 // checkAxis requires a strictly monotonic axis of at least two points.
