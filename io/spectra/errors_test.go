@@ -3,8 +3,11 @@ package spectra
 import (
 	"errors"
 	"math"
+	"slices"
 	"strings"
 	"testing"
+
+	"gonum.org/v1/gonum/mat"
 )
 
 // Line numbers in messages are the editor's: blank and '#' lines count.
@@ -141,6 +144,36 @@ func TestSpectrumTitles(t *testing.T) {
 		}
 		if err == nil && math.IsNaN(sp.Values[0]) {
 			t.Errorf("%q: NaN value", text)
+		}
+	}
+}
+
+// Title lines before a matrix header are skipped whatever blanks they hold
+// (docs/errors.md: single-cell title lines before a matrix header are
+// accepted; exports put a run's name first, common practice): a title is
+// split at the separator the header and rows use, at which it has one cell.
+// "Urethane run catalyst 1.00" was split at its blanks and read as the
+// header (":2: column 2: "run" is not a number"). A comment line and a
+// quoted title before it go as well; the header and rows are read as
+// without them.
+func TestMatrixTitleWithBlanks(t *testing.T) {
+	body := "wavenumber,0,21\n4000,0.1,0.2\n3998,0.3,0.4\n"
+	want, err := ReadMatrixCSV(fuzzFile(t, "plain.csv", []byte(body)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, head := range []string{
+		"Urethane run catalyst 1.00\n",
+		"# exported by lab PC\nUrethane run catalyst 1.00\n",
+		"\"Run 7; 25 C\"\nUrethane run\n",
+	} {
+		s, err := ReadMatrixCSV(fuzzFile(t, "m.csv", []byte(head+body)))
+		if err != nil {
+			t.Errorf("%q: %v", head, err)
+			continue
+		}
+		if !slices.Equal(s.Times, want.Times) || !slices.Equal(s.Axis, want.Axis) || !mat.Equal(s.Values, want.Values) || s.AxisName != want.AxisName {
+			t.Errorf("%q: axis %q %v, times %v; want %q %v, %v", head, s.AxisName, s.Axis, s.Times, want.AxisName, want.Axis, want.Times)
 		}
 	}
 }

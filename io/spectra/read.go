@@ -366,10 +366,19 @@ func parseMatrixCSV(path string, raw []byte, pre int) (*Series, error) {
 }
 
 // skipTitles drops the single-cell lines before the header: titles, quoted
-// or not, that some exports put first. A single number is data, not a title.
+// or not, that some exports put first. A line without any of the file's
+// separators is split as the rows below it are (titleSeparator): a title
+// "Urethane run catalyst 1.00" has blanks but no comma, and split at its
+// blanks it was taken for the header ("run" is not a number). A single
+// number is data, not a title.
 func skipTitles(lines []line) []line {
+	sep := titleSeparator(lines)
 	for len(lines) > 1 {
-		hf := fields(lines[0].text, detectSeparator(lines[0].text), nil)
+		s := detectSeparator(lines[0].text)
+		if s == ' ' {
+			s = sep
+		}
+		hf := fields(lines[0].text, s, nil)
 		if len(hf) != 1 {
 			break
 		}
@@ -379,6 +388,18 @@ func skipTitles(lines []line) []line {
 		lines = lines[1:]
 	}
 	return lines
+}
+
+// titleSeparator is the separator of the first of the file's first lines
+// that holds a tab, a semicolon or a comma (detectSeparator), the header's
+// or the rows'; a blank when none does (a file split at blanks).
+func titleSeparator(lines []line) byte {
+	for _, l := range lines[:min(len(lines), 16)] {
+		if s := detectSeparator(l.text); s != ' ' {
+			return s
+		}
+	}
+	return ' '
 }
 
 // matrixHeader is what the header row of the matrix layout says: the axis
