@@ -130,6 +130,7 @@ type KineticFit struct {
 	EachWeighted    []rateWithError
 	EachWeightedSum *rateWithError
 	ownToLevel      []float64
+	oneLevel        *oneLevelFitted // the fit with one level, made by oneLevelFit
 }
 
 // Reported returns the fit behind rate_constants.
@@ -1141,9 +1142,9 @@ func fitKinetics(r *Result, log io.Writer) error {
 		kn.swapCheck(r, dfit, spectra, dopt, &r.Notes)
 		// After the swap check, which writes the constants it adopts
 		// into dfit: the test is of the constants reported.
-		kf.OneLevel, kf.OneLevelSum = kn.oneLevelFit(r, dfit)
+		kn.oneLevelFit(r, kf)
 		if w := kn.oneLevelWarning(r, dfit, kf.OneLevel, kf.OneLevelSum); w != "" {
-			if kn.reportOneLevel(r, kf, dfit) {
+			if kn.reportOneLevel(kf) {
 				dfit = kf.Fit
 				w += oneLevelReportedWords
 			}

@@ -10,6 +10,7 @@ import (
 	"github.com/bandsolve/bandsolve/internal/pvalue"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/mcr/kinetics"
+	"gonum.org/v1/gonum/mat"
 )
 
 // The data fit again with one noise level for every spectrum.
@@ -45,37 +46,53 @@ type oneLevelRate struct {
 	Tested    bool // both constants free and determined
 }
 
+// oneLevelFitted is the data fit made with one noise level per experiment:
+// the fit, its spectra, and the weights each kept spectrum had (own) and
+// was fitted with (level), kept for reportOneLevel.
+type oneLevelFitted struct {
+	fit        *kinetics.FitResult
+	spectra    *mat.Dense
+	own, level []float64
+}
+
 // oneLevelFit refits the data matrix with every spectrum of an experiment
 // at the mean of its kept spectra's weights (only their ratios move the
 // constants; experiments of several noise levels keep theirs), from the
 // weighted fit's constants, and tests each step, and the sum of the
-// constants the data determine only together (sum; nil when there is none).
-// nil when the spectra share one level or the weights are off.
-func (kn *Kinetics) oneLevelFit(r *Result, dfit *kinetics.FitResult) (steps []oneLevelRate, sum *oneLevelRate) {
+// constants the data determine only together (kf.OneLevelSum; nil when
+// there is none). The fit is a dataFitJob of its own, not fitData's: the
+// batch's scaled data and reductions are of the weights each spectrum has,
+// and this fit must neither take nor leave them. Nothing is set when the
+// spectra share one level or the weights are off.
+func (kn *Kinetics) oneLevelFit(r *Result, kf *KineticFit) {
+	dfit := kf.Fit
 	if !weightsPerSpectrum(r) || !weighted(r) {
-		return nil, nil
+		return
 	}
 	opt := kn.dataOptions(r, kn.warm(dfit))
-	opt.RowWeights = experimentMeans(r, opt.RowWeights)
+	own := opt.RowWeights
+	opt.RowWeights = experimentMeans(r, own)
 	opt.NoResidual = true
 	times, d := kn.fitRows(r)
-	f, _, err := kinetics.FitData(kn.Scheme, times, d, opt)
-	if err != nil {
-		return nil, nil
+	job := &dataFitJob{kn: kn, r: r, times: times, d: d, opt: opt}
+	job.run()
+	if job.err != nil {
+		return
 	}
-	steps = make([]oneLevelRate, len(f.K))
-	for j := range steps {
-		steps[j] = oneLevelRate{K: f.K[j], StdErr: f.KStdErr[j]}
+	f := job.fit
+	kf.oneLevel = &oneLevelFitted{fit: f, spectra: job.spectra, own: own, level: opt.RowWeights}
+	kf.OneLevel = make([]oneLevelRate, len(f.K))
+	for j := range kf.OneLevel {
+		kf.OneLevel[j] = oneLevelRate{K: f.K[j], StdErr: f.KStdErr[j]}
 		if kn.KFixed[j] || notDetermined(dfit, j) || notDetermined(f, j) {
 			continue
 		}
-		steps[j].test(dfit.K[j], dfit.KStdErr[j])
+		kf.OneLevel[j].test(dfit.K[j], dfit.KStdErr[j])
 	}
 	if len(dfit.SumSteps) > 0 && slices.Equal(dfit.SumSteps, f.SumSteps) {
-		sum = &oneLevelRate{K: f.SumK, StdErr: f.SumKStdErr}
-		sum.test(dfit.SumK, dfit.SumKStdErr)
+		kf.OneLevelSum = &oneLevelRate{K: f.SumK, StdErr: f.SumKStdErr}
+		kf.OneLevelSum.test(dfit.SumK, dfit.SumKStdErr)
 	}
-	return steps, sum
 }
 
 // test tests o against the weighted fit's k ± se (Hausman's z and its
@@ -118,33 +135,25 @@ func experimentMeans(r *Result, w []float64) []float64 {
 // rateWithError is a rate constant and its standard error.
 type rateWithError struct{ K, StdErr float64 }
 
-// reportOneLevel makes the data fit with one noise level per experiment the
-// one reported, in place of dfit (kf's fit, each spectrum weighted by its
-// own level), once oneLevelWarning found constants that the weights move
-// beyond the noise. Hausman's test asks whether the efficient estimate is
-// consistent; rejected, it is not, and the estimate consistent either way is
-// the one to keep (Hausman 1978, section 2): the fit with one level does not
-// lean on each spectrum's own level, which the model's misfit then steers.
-// On the real urethane series (catalyst 1.00, A -> B) the N=C=O band area,
-// the data set's independent measure, gives 1.67e-3 ± 1.0e-4 s⁻¹: the fit
-// with each spectrum weighted said 1.28e-3 ± 1.4e-4 (2.8 of its standard
-// errors away), the fit with one level 1.64e-3 ± 2.0e-4. The fit is made
-// again in full (its spectra, residual and figures); false when it fails,
-// and the weighted fit stays.
-func (kn *Kinetics) reportOneLevel(r *Result, kf *KineticFit, dfit *kinetics.FitResult) bool {
-	opt := kn.dataOptions(r, kn.warm(dfit))
-	own := opt.RowWeights
-	opt.RowWeights = experimentMeans(r, own)
-	opt.NoResidual = true
-	// Not fitData's job: the batch's scaled data and reductions are of the
-	// weights each spectrum has, and this fit must neither take nor leave them.
-	times, d := kn.fitRows(r)
-	job := &dataFitJob{kn: kn, r: r, times: times, d: d, opt: opt}
-	job.run()
-	if job.err != nil {
+// reportOneLevel makes the data fit with one noise level per experiment
+// (oneLevelFit's) the one reported, in place of kf's fit (each spectrum
+// weighted by its own level), once oneLevelWarning found constants that the
+// weights move beyond the noise. Hausman's test asks whether the efficient
+// estimate is consistent; rejected, it is not, and the estimate consistent
+// either way is the one to keep (Hausman 1978, section 2): the fit with one
+// level does not lean on each spectrum's own level, which the model's
+// misfit then steers. On the real urethane series (catalyst 1.00, A -> B)
+// the N=C=O band area, the data set's independent measure, gives
+// 1.67e-3 ± 1.0e-4 s⁻¹: the fit with each spectrum weighted said
+// 1.28e-3 ± 1.4e-4 (2.8 of its standard errors away), the fit with one
+// level 1.64e-3 ± 2.0e-4. The fit is oneLevelFit's, made in full (its
+// spectra and figures); false when there is none, and the weighted fit
+// stays.
+func (kn *Kinetics) reportOneLevel(kf *KineticFit) bool {
+	ol, dfit := kf.oneLevel, kf.Fit
+	if ol == nil {
 		return false
 	}
-	f, spectra := job.fit, job.spectra
 	kf.EachWeighted = make([]rateWithError, len(dfit.K))
 	for j := range dfit.K {
 		kf.EachWeighted[j] = rateWithError{dfit.K[j], dfit.KStdErr[j]}
@@ -152,13 +161,13 @@ func (kn *Kinetics) reportOneLevel(r *Result, kf *KineticFit, dfit *kinetics.Fit
 	if len(dfit.SumSteps) > 0 {
 		kf.EachWeightedSum = &rateWithError{dfit.SumK, dfit.SumKStdErr}
 	}
-	kf.ownToLevel = make([]float64, len(own))
-	for i, w := range own {
-		if opt.RowWeights[i] > 0 {
-			kf.ownToLevel[i] = w / opt.RowWeights[i]
+	kf.ownToLevel = make([]float64, len(ol.own))
+	for i, w := range ol.own {
+		if ol.level[i] > 0 {
+			kf.ownToLevel[i] = w / ol.level[i]
 		}
 	}
-	kf.Fit, kf.Spectra = f, spectra
+	kf.Fit, kf.Spectra = ol.fit, ol.spectra
 	return true
 }
 
