@@ -108,9 +108,14 @@ func transmittanceLook(ser *spectra.Series) string {
 	if n == 0 || m == 0 {
 		return ""
 	}
+	// One value beyond what any transmittance scale allows settles it:
+	// counts stop the scan at once, as in absorbanceLook.
 	lo, hi := math.Inf(1), math.Inf(-1)
 	for i := 0; i < n; i++ {
 		for _, v := range ser.Values.RawRowView(i)[:m] {
+			if v > spectra.PercentMost || v < -transmittanceSlack*100 {
+				return ""
+			}
 			if v == v && v-v == 0 { // finite
 				lo, hi = math.Min(lo, v), math.Max(hi, v)
 			}
