@@ -120,23 +120,15 @@ func TestUnresolvedLinesAreLinesOnAFineAxis(t *testing.T) {
 		s.Set(j, 0, 0.4*g(axis[j], 1600, 15)+0.2*g(axis[j], 1450, 20))
 		s.Set(j, 1, 0.5*g(axis[j], 1520, 18)+0.3*g(axis[j], 1380, 25))
 	}
-	for i := 0; i < n; i++ {
-		a := math.Exp(-float64(i) / 10)
-		c.SetRow(i, []float64{a, 1 - a})
-	}
-	d := mat.NewDense(n, m, nil)
-	d.Mul(c, s.T())
-	for i := 0; i < n; i++ {
-		for j := 0; j < m; j++ {
-			v := d.At(i, j) + 1e-3*math.Sin(float64(7*i+13*j))*math.Sqrt2
-			if i == 12 {
-				for l := 0; l < 25; l++ {
-					v += (0.01 + 0.002*float64(l%7)) * g(axis[j], 1695-15.3*float64(l), 1.45)
-				}
+	d := firstOrderWithPattern(c, s, func(i, j int, model float64) float64 {
+		v := 0.0
+		if i == 12 {
+			for l := 0; l < 25; l++ {
+				v += (0.01 + 0.002*float64(l%7)) * g(axis[j], 1695-15.3*float64(l), 1.45)
 			}
-			d.Set(i, j, v)
 		}
-	}
+		return v
+	})
 	out := FindOutliersIn(d, c, s, nil, nil, OutlierInput{Axis: axis, Wavenumbers: axis, Sigma: 1e-3})
 	if len(out) != 1 || out[0].Row != 12 {
 		t.Fatalf("outliers %+v; want row 12 only", out)
@@ -289,26 +281,18 @@ func TestForestOfOverlappingLinesIsLines(t *testing.T) {
 		s.Set(j, 0, a)
 		s.Set(j, 1, b)
 	}
-	for i := 0; i < n; i++ {
-		a := math.Exp(-float64(i) / 10)
-		c.SetRow(i, []float64{a, 1 - a})
-	}
-	d := mat.NewDense(n, m, nil)
-	d.Mul(c, s.T())
-	for i := 0; i < n; i++ {
-		for j := 0; j < m; j++ {
-			v := d.At(i, j) + 1e-3*math.Sin(float64(7*i+13*j))*math.Sqrt2
-			switch i {
-			case 12:
-				for _, l := range lines {
-					v += l[1] * lor(axis[j], l[0], 1.5)
-				}
-			case 20:
-				v -= 0.15 * d.At(i, j)
+	d := firstOrderWithPattern(c, s, func(i, j int, model float64) float64 {
+		v := 0.0
+		switch i {
+		case 12:
+			for _, l := range lines {
+				v += l[1] * lor(axis[j], l[0], 1.5)
 			}
-			d.Set(i, j, v)
+		case 20:
+			v -= 0.15 * model
 		}
-	}
+		return v
+	})
 	out := FindOutliersIn(d, c, s, nil, nil, OutlierInput{Axis: axis, Wavenumbers: axis, Sigma: 1e-3})
 	if len(out) != 2 || out[0].Row != 12 || out[1].Row != 20 {
 		t.Fatalf("outliers %+v; want rows 12 and 20", out)
@@ -374,4 +358,26 @@ func spectraWavenumbers(nm []float64) []float64 {
 		out[j] = 1e7 / x
 	}
 	return out
+}
+
+// firstOrderWithPattern fills c (n × 2) with a first-order decay,
+// e^(−t/10) and its complement, and returns C Sᵀ plus a fixed pattern of
+// white-noise size 1e-3 and what add gives at each point from the model's
+// value there: the series the outlier-word tests set their faults in.
+func firstOrderWithPattern(c, s *mat.Dense, add func(i, j int, model float64) float64) *mat.Dense {
+	n, _ := c.Dims()
+	m, _ := s.Dims()
+	for i := 0; i < n; i++ {
+		a := math.Exp(-float64(i) / 10)
+		c.SetRow(i, []float64{a, 1 - a})
+	}
+	d := mat.NewDense(n, m, nil)
+	d.Mul(c, s.T())
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			model := d.At(i, j)
+			d.Set(i, j, model+1e-3*math.Sin(float64(7*i+13*j))*math.Sqrt2+add(i, j, model))
+		}
+	}
+	return d
 }
