@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/json"
 	"fmt"
+	"io/fs"
 	"math/rand/v2"
 	"os"
 	"os/exec"
@@ -140,7 +141,7 @@ func TestKillDuringCommit(t *testing.T) {
 				if ents, _ := os.ReadDir(dir); len(ents) > 1 {
 					var names []string
 					for _, e := range ents {
-						names = append(names, e.Name())
+						names = append(names, e.Name()+" "+treeSummary(filepath.Join(dir, e.Name())))
 					}
 					t.Fatalf("kill %d: left beside the output: %v", kill, names)
 				}
@@ -159,10 +160,14 @@ func TestRecoverSwap(t *testing.T) {
 		name              string
 		final, stage, old bool   // which folders the kill left
 		want              string // generation in out afterwards
+		oldEmptied        bool   // the earlier results' files and manifest gone, not their folder
 	}{
-		{"killed before the first rename", true, true, false, "earlier"},
-		{"killed between the renames", false, true, true, "new"},
-		{"killed before removing the earlier results", true, false, true, "new"},
+		{"killed before the first rename", true, true, false, "earlier", false},
+		{"killed between the renames", false, true, true, "new", false},
+		{"killed before removing the earlier results", true, false, true, "new", false},
+		// A folder without a manifest is kept aside as FINAL.kept, as
+		// one a user may have filled; an empty one holds nothing to keep.
+		{"killed between the earlier manifest and its folder", true, false, true, "new", true},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			dir := t.TempDir()
@@ -176,6 +181,11 @@ func TestRecoverSwap(t *testing.T) {
 				mustWrite(t, filepath.Join(p, ManifestName), string(ownManifest(committedFiles...)))
 			}
 			switch {
+			case c.final && c.old && c.oldEmptied:
+				put(out, "new")
+				if err := os.Mkdir(old, 0o755); err != nil {
+					t.Fatal(err)
+				}
 			case c.final && c.old:
 				put(out, "new")
 				put(old, "earlier")
@@ -355,4 +365,21 @@ func TestDropEarlierOfALinkKeepsItsTarget(t *testing.T) {
 	if b, err := os.ReadFile(filepath.Join(target, "x.csv")); err != nil || string(b) != "kept" {
 		t.Errorf("the link's target holds %q (%v)", b, err)
 	}
+}
+
+// treeSummary lists what a folder left beside the output holds, with the
+// first line of each file, for the message of a failed check.
+func treeSummary(dir string) string {
+	var parts []string
+	filepath.WalkDir(dir, func(p string, d fs.DirEntry, err error) error {
+		if err != nil || d.IsDir() {
+			return nil
+		}
+		b, _ := os.ReadFile(p)
+		line, _, _ := bytes.Cut(b, []byte("\n"))
+		rel, _ := filepath.Rel(dir, p)
+		parts = append(parts, fmt.Sprintf("%s=%q", rel, line))
+		return nil
+	})
+	return "[" + strings.Join(parts, " ") + "]"
 }

@@ -58,22 +58,22 @@ func Check(out string, force bool) error {
 	// Another run committing into the same out may replace the folder while
 	// this one looks into it (listing a folder removed after it was opened
 	// fails with "no such file"; a two-step swap leaves out missing for a
-	// moment). A verdict counts only if out is the same folder before and
-	// after it; else look again. Commit checks once more under the lock.
-	var err error
-	for try := 0; try < 4; try++ {
-		before, errBefore := os.Lstat(clean)
-		if err = checkOnce(out, clean, force); err == nil {
-			return nil
-		}
-		after, errAfter := os.Lstat(clean)
-		stable := errBefore == nil && errAfter == nil && os.SameFile(before, after) ||
-			errors.Is(errBefore, os.ErrNotExist) && errors.Is(errAfter, os.ErrNotExist)
-		if stable {
-			return err
-		}
+	// moment; the earlier results an exchange moved aside lose their
+	// manifest last, while this run may be reading them). A refusal is
+	// given only once confirmed under the parent's lock, which a commit
+	// holds from the swap to the removal of the earlier results; a folder
+	// that is fine needs no lock. Commit checks once more under the lock.
+	if checkOnce(out, clean, force) == nil {
+		return nil
 	}
-	return err
+	unlock, err := lockParent(clean)
+	if err != nil {
+		// No parent folder, or one this run cannot lock: no commit to
+		// wait for, and the verdict's own words say more than the lock's.
+		return checkOnce(out, clean, force)
+	}
+	defer unlock()
+	return checkOnce(out, clean, force)
 }
 
 func checkOnce(out, clean string, force bool) error {

@@ -149,7 +149,7 @@ func nameSome(names []string, few int) string {
 // tidy to finish with. Whatever else dir holds (a file put into the
 // output folder after --force checked it) is kept: dir is renamed beside
 // final as FINAL.kept (or .kept-2, …). A dir without the list is kept
-// whole the same way.
+// whole the same way, unless it is empty.
 func dropEarlier(dir, final string) {
 	root := openTree(dir)
 	if root == nil {
@@ -158,7 +158,12 @@ func dropEarlier(dir, final string) {
 	own, listed := ownFiles(root)
 	if !listed {
 		root.Close()
-		keepAside(dir, final)
+		// An empty folder is what a removal killed between the
+		// manifest and the folder leaves: nothing to keep (os.Remove
+		// removes a folder only while it is empty).
+		if os.Remove(dir) != nil {
+			keepAside(dir, final)
+		}
 		return
 	}
 	var files []string
