@@ -699,6 +699,18 @@ func InVapourLines(x float64) bool {
 	return x >= 1300 && x <= 2000 || x >= 3450 && x <= 4000
 }
 
+// InCarbonDioxideLines says whether axis value x (cm⁻¹) lies where CO₂ in
+// the beam path has lines: the P, Q and R branches of its bending band
+// about the 667 cm⁻¹ Q branch, over about 630–710 cm⁻¹, and of its
+// antisymmetric stretching band, 2349 cm⁻¹, over about 2290–2400 cm⁻¹
+// (from memory; the branches' reach at room temperature and a few cm⁻¹
+// resolution). A purge that lets in moist air lets in the air's CO₂ too
+// (common practice), so a component that is the vapour's change carries
+// CO₂'s lines as well.
+func InCarbonDioxideLines(x float64) bool {
+	return x >= 630 && x <= 710 || x >= 2290 && x <= 2400
+}
+
 // points counts the windows' high-passed points.
 func (v *VapourCheck) points() int {
 	k := 0

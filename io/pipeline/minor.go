@@ -161,7 +161,7 @@ func vapourRefit(r *Result, mt *mcr.MinorTest) {
 	wn, _ := linesAxis(r) // not nil: the check ran on it
 	lines := make([]bool, len(r.Axis))
 	for j, x := range wn {
-		lines[j] = svd.InVapourLines(x)
+		lines[j] = svd.InVapourLines(x) || svd.InCarbonDioxideLines(x)
 	}
 	beyond := mt.OwnBandBeyond(lines, r.Settings.Alpha)
 	if share < vapourRefitLines || beyond.Own {
@@ -174,8 +174,9 @@ func vapourRefit(r *Result, mt *mcr.MinorTest) {
 	mt.Verdict = fmt.Sprintf("%s; but %s: it is the change of the water vapour in the beam path (see its warning), not a species", mt.Verdict, mt.Finding)
 }
 
-// vapourLinesText names where svd.InVapourLines says the vapour has lines.
-const vapourLinesText = "1300–2000 and 3450–4000 cm⁻¹"
+// vapourLinesText names where svd.InVapourLines says the vapour has lines,
+// and svd.InCarbonDioxideLines the air's CO₂.
+const vapourLinesText = "1300–2000 and 3450–4000 cm⁻¹, and CO₂'s, 630–710 and 2290–2400 cm⁻¹"
 
 // promoteMinor counts the first (largest) minor factor the refit called a species: the rank and
 // the count go up by one, the factor leaves the nuisance list, and r is put back as it
