@@ -134,3 +134,36 @@ func TestBaselineFalseAlarmsAtTheLevelWithBlindPoints(t *testing.T) {
 		t.Errorf("%d of %d drift-free series got a baseline at level %g; want at most %.0f", chosen, trials, level, trials*level+4*sd)
 	}
 }
+
+// A drift that is a slope about the axis's middle has no mean (the
+// Legendre polynomial P₁ is orthogonal to P₀ over an evenly spaced,
+// symmetric axis: definition), so an offset alone explains none of it and
+// its F-test is under its null hypothesis, while the slope's is far from
+// it. The search tests the offset again jointly with the slope, both
+// against no baseline (Draper & Smith 1998, §6: the extra-sum-of-squares
+// F-test of two coefficients per spectrum), and finds the linear baseline
+// the search that stopped at the offset missed.
+func TestBaselineSlopeAboutTheMiddleIsFound(t *testing.T) {
+	const n, m, level = 30, 200, 0.0125
+	rng := rand.New(rand.NewPCG(41, 3))
+	d, axis, _ := blindSeries(t, rng, n, m, 0, 0, 0)
+	for i := 0; i < n; i++ {
+		b := 0.5 * rng.NormFloat64()
+		for j := 0; j < m; j++ {
+			d.Set(i, j, d.At(i, j)+b*(float64(j)-float64(m-1)/2)/(float64(m-1)/2))
+		}
+	}
+	ch, err := ChooseBaselineOrder(d, nil, axis, 2, 3, level)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, st := range ch.Steps {
+		t.Logf("order %d (%d at once): F = %.3g, p = %.3g", st.Order, st.Orders, st.F, st.Significance)
+	}
+	if off := ch.Steps[1]; off.Order != 0 || off.Significance < level {
+		t.Fatalf("the offset alone is significant here (p = %.3g): the case does not test the joint step", off.Significance)
+	}
+	if ch.Order != 1 {
+		t.Errorf("order %d chosen for a slope about the middle; want 1 (linear)", ch.Order)
+	}
+}

@@ -394,15 +394,12 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 		}
 		order = ch.Order
 		r.orderNoise = ch.Noise
-		var steps []string
-		for _, st := range ch.Steps[1:] {
-			steps = append(steps, fmt.Sprintf("%s %s", baselineName(st.Order), pvalue.Text(st.Significance)))
-		}
+		steps := baselineStepsText(ch)
 		metric := ""
 		if in.col != nil {
 			metric = ", each baseline fitted by least squares weighted with the noise"
 		}
-		r.BaselineReason = fmt.Sprintf("chosen by the extra-sum-of-squares F-test of each order against the one below at level %.3g (Draper & Smith 1998; --alpha %g shared by the %d orders tried, Bonferroni), with %d factor(s) besides the baseline%s%s: %s", level, r.Settings.Alpha, maxOrder+1, kf, metric, axisNoiseText(ch.Noise), strings.Join(steps, ", "))
+		r.BaselineReason = fmt.Sprintf("chosen by the extra-sum-of-squares F-test of each order against the one below (one that is not significant alone tested again together with the next) at level %.3g (Draper & Smith 1998; --alpha %g shared by the %d orders tried, Bonferroni), with %d factor(s) besides the baseline%s%s: %s", level, r.Settings.Alpha, maxOrder+1, kf, metric, axisNoiseText(ch.Noise), strings.Join(steps, ", "))
 		if order != maxOrder {
 			in.rebuild = nil // d's last use
 			if rep, cr, err = chemicalRank(r, d, f, order, in, r.Mode == mcr.Species); err != nil {
@@ -418,6 +415,20 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 	}
 	r.Rank, r.Chemical = rep, cr
 	return nil
+}
+
+// baselineStepsText gives each test of the order's choice with its p-value:
+// "offset p = 0.053", and a joint test "offset and linear together p = …".
+func baselineStepsText(ch *svd.BaselineChoice) []string {
+	var steps []string
+	for _, st := range ch.Steps[1:] {
+		name := baselineName(st.Order)
+		if st.Orders == 2 {
+			name = baselineName(st.Order-1) + " and " + name + " together"
+		}
+		steps = append(steps, fmt.Sprintf("%s %s", name, pvalue.Text(st.Significance)))
+	}
+	return steps
 }
 
 // labelProjectedCount says in the noise floor's evidence that it counted the
@@ -987,16 +998,13 @@ func rechooseBaseline(r *Result, data mcr.Data, res *mcr.Result, shapes *mat.Den
 	if err != nil || ch.Order == r.BaselineOrder {
 		return shapes
 	}
-	var steps []string
-	for _, st := range ch.Steps[1:] {
-		steps = append(steps, fmt.Sprintf("%s %s", baselineName(st.Order), pvalue.Text(st.Significance)))
-	}
+	steps := baselineStepsText(ch)
 	metric := ""
 	if col != nil {
 		metric = ", each baseline fitted by least squares weighted with the noise"
 	}
 	fmt.Fprintf(log, "baseline chosen again without the spectra set aside: %s (was %s)\n", baselineName(ch.Order), baselineName(r.BaselineOrder))
-	r.BaselineReason = fmt.Sprintf("%s (first %s, with them; spectra set aside lifted or curved as a whole pass for a baseline the others lack), by the extra-sum-of-squares F-test of each order against the one below at level %.3g (Draper & Smith 1998; --alpha %g shared by the %d orders tried, Bonferroni) on the %d spectra kept, with %d factor(s) besides the baseline%s%s: %s", rechosenWords(len(r.SetAside)), baselineName(r.BaselineOrder), level, r.Settings.Alpha, maxOrder+1, rows, kf, metric, axisNoiseText(ch.Noise), strings.Join(steps, ", "))
+	r.BaselineReason = fmt.Sprintf("%s (first %s, with them; spectra set aside lifted or curved as a whole pass for a baseline the others lack), by the extra-sum-of-squares F-test of each order against the one below (one that is not significant alone tested again together with the next) at level %.3g (Draper & Smith 1998; --alpha %g shared by the %d orders tried, Bonferroni) on the %d spectra kept, with %d factor(s) besides the baseline%s%s: %s", rechosenWords(len(r.SetAside)), baselineName(r.BaselineOrder), level, r.Settings.Alpha, maxOrder+1, rows, kf, metric, axisNoiseText(ch.Noise), strings.Join(steps, ", "))
 	r.BaselineOrder = ch.Order
 	r.orderNoise = ch.Noise
 	res.Baseline = resizedColumns(res.Baseline, ch.Order+1)
