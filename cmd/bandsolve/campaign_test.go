@@ -420,3 +420,59 @@ func TestKineticsNotDoneInCampaign(t *testing.T) {
 		t.Errorf("--skip-done: exit %d, want %d as the plain run, and r0 failed, not skipped\n%s%s", again.code, first.code, again.stdout, again.stderr)
 	}
 }
+
+// A batch is decided by how it was given, not by how many files it
+// matched: docs/campaigns.md, "a file writes to the same folder
+// (`batch/NAME`) whichever share runs it", and docs/command-files.md, "With
+// `--out DIR`, each file writes to `DIR/NAME`" for a quoted pattern. A
+// pattern or a share that takes one file writes to OUT/NAME as one that
+// takes several; one plain file writes into --out itself (README.md:
+// `bandsolve run exp1.bsr --out results/`).
+func TestRunOneFileBatchWritesToName(t *testing.T) {
+	root := campaignFiles(t, 2)
+	t.Chdir(root)
+	for _, c := range []struct {
+		args []string
+		want string // where summary.json must be
+	}{
+		{[]string{"runs/r1*.bsr", "--out", "pattern"}, "pattern/r1"},
+		{[]string{"runs/r1*.bsr", "--out", "share", "--shard", "0/1"}, "share/r1"},
+		{[]string{"runs/r1.bsr", "--out", "shard2", "--shard", "0/2"}, "shard2/r1"},
+		{[]string{"runs/r1.bsr", "--out", "plain"}, "plain"},
+	} {
+		r := run(append([]string{"run", "--quiet"}, c.args...)...)
+		if r.code != 0 {
+			t.Fatalf("run %q: exit %d: %s", c.args, r.code, r.stderr)
+		}
+		if _, err := os.Stat(filepath.Join(c.want, "summary.json")); err != nil {
+			t.Errorf("run %q: no %s/summary.json (%v)", c.args, c.want, err)
+		}
+	}
+	// The same analysis either way (as-run.bsr differs: its paths-from
+	// counts the folders up to the data from where it lies).
+	for _, f := range []string{"spectra.csv", "profiles.csv"} {
+		a, _ := os.ReadFile(filepath.Join("plain", f))
+		b, _ := os.ReadFile(filepath.Join("pattern", "r1", f))
+		if len(a) == 0 || !bytes.Equal(a, b) {
+			t.Errorf("%s of the one-file pattern differs from the plain run's", f)
+		}
+	}
+	// collect batch/*/ reads the runs' folders, not the batch's own.
+	if r := run("collect", "pattern/r1/", "share/r1/"); r.code != 0 {
+		t.Errorf("collect of the one-file batches: exit %d: %s", r.code, r.stderr)
+	}
+}
+
+// A share that takes no file says so on standard error (a job-array task
+// must be able to tell it ran nothing); it is no failure, exit 0.
+func TestRunEmptyShareSaysSo(t *testing.T) {
+	root := campaignFiles(t, 1)
+	t.Chdir(root)
+	r := run("run", "runs/r0.bsr", "--out", "b", "--shard", "1/2", "--quiet")
+	if r.code != 0 || !strings.Contains(r.stderr, "--shard 1/2 takes none of the 1 command file(s)") {
+		t.Errorf("exit %d, stderr %q; want exit 0 and a line saying the share takes none", r.code, r.stderr)
+	}
+	if _, err := os.Stat(filepath.Join("b", "r0")); err == nil {
+		t.Error("the share ran r0, which belongs to share 0/2")
+	}
+}

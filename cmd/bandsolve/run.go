@@ -62,10 +62,11 @@ complete command file of the run, which 'bandsolve run' accepts as it is.
 Several files (or a quoted glob such as 'runs/*.bsr') run one after the
 other, each on its own: a failure does not stop the others, a table at the
 end lists each outcome, and the exit status is non-zero if any failed. With
---out DIR and several files, each writes to DIR/NAME (NAME = the file's name
-without .bsr). Without --out, results go to the file's 'out' setting, else
-to NAME-results beside the file. In a file, 'out' must name a folder inside
-the file's folder.
+--out DIR and several files, a pattern or --shard, each file writes to
+DIR/NAME (NAME = the file's name without .bsr), however many the pattern
+matches; one file named alone writes into DIR. Without --out, results go to
+the file's 'out' setting, else to NAME-results beside the file. In a file,
+'out' must name a folder inside the file's folder.
 
 Example:
 
@@ -136,13 +137,20 @@ func runRun(args []string, st pipeline.Streams) int {
 	}
 	changed := map[string]bool{}
 	fs.Visit(func(f *pflag.Flag) { changed[f.Name] = true })
-	files, results := expandPatterns(fs.Args())
+	given := campaign.Expand(fs.Args(), pipeline.CommandExt)
+	files, results := given.Files, badArgs(given.Bad)
 	// Batch, output folders and their names are decided over the whole
-	// batch, so a file writes to the same folder whichever shard runs it.
-	batch := len(files)+len(results) > 1
+	// batch as it was given, so a file writes to the same folder whichever
+	// shard or pattern runs it.
+	batch := given.Batch(fs.Changed("shard"))
 	mine := prepareShare(files, flags, changed, batch, shard)
 	for _, p := range mine {
 		p.skipDone = *skipDone
+	}
+	if len(mine) == 0 && len(files) > 0 {
+		// Exit 0 (the share is done), but a job-array task must be able
+		// to tell from its log that it ran nothing.
+		fmt.Fprintf(st.Err, "bandsolve run: --shard %s takes none of the %d command file(s) (file k, from 0, when k mod %d = %d); nothing to run\n", shard, len(files), shard.N, shard.I)
 	}
 	results = append(results, runBatch(mine, workers, batch, flags, st)...)
 	code, failed := batchExit(results, batch)
@@ -185,32 +193,20 @@ func batchShape(fs *pflag.FlagSet, jobsText, shardText string) (workers int, sha
 	return workers, shard, nil
 }
 
-// expandPatterns expands the arguments that are not files but patterns
-// (the shell did not, as when quoted for a job array); a pattern that
-// matches nothing is a failed row of the batch.
-func expandPatterns(args []string) (files []string, unmatched []outcome) {
-	for _, a := range args {
-		if st, err := os.Stat(a); err == nil && st.IsDir() {
-			// A folder of command files given for the files: a usage slip.
-			pattern := filepath.Join(a, "*"+pipeline.CommandExt)
-			unmatched = append(unmatched, outcome{file: a, status: "failed", code: exitUsage,
-				detail: fmt.Sprintf("is a folder, not a command file; give the command files in it, e.g. bandsolve run '%s' (quoted: bandsolve expands the pattern)", pattern)})
-			continue
+// badArgs are the arguments that name no command file, as failed rows of
+// the batch: a folder is a usage slip (exit 2); a pattern that matches
+// nothing names no file that can be read, exit 1 like a missing command
+// file or --data (docs/errors.md).
+func badArgs(bad []campaign.BadArg) []outcome {
+	var out []outcome
+	for _, b := range bad {
+		o := outcome{file: b.Arg, status: "failed", detail: b.Why, code: exitRun}
+		if b.Usage {
+			o.code = exitUsage
 		}
-		if _, err := os.Stat(a); err != nil && strings.ContainsAny(a, "*?[") {
-			m, gerr := filepath.Glob(a)
-			if gerr != nil || len(m) == 0 {
-				// No command file there: a file that cannot be read, exit 1
-				// like a missing command file or --data (docs/errors.md).
-				unmatched = append(unmatched, outcome{file: a, status: "failed", detail: "no file matches this pattern; check the folder and the pattern", code: exitRun})
-				continue
-			}
-			files = append(files, m...)
-			continue
-		}
-		files = append(files, a)
+		out = append(out, o)
 	}
-	return files, unmatched
+	return out
 }
 
 // prepareShare reads every command file's settings, so that output folder

@@ -1,6 +1,7 @@
 package campaign
 
 import (
+	"os"
 	"strings"
 	"sync"
 	"sync/atomic"
@@ -112,6 +113,32 @@ func TestRunOrdersAndSerialises(t *testing.T) {
 				}
 				last = i
 			}
+		}
+	}
+}
+
+// The batch is decided by how it was given (docs/campaigns.md: "a file
+// writes to the same folder (`batch/NAME`) whichever share runs it"), not by
+// how many files a pattern matched.
+func TestGivenBatch(t *testing.T) {
+	dir := t.TempDir()
+	one := dir + "/one.bsr"
+	if err := os.WriteFile(one, []byte("data x.csv\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct {
+		args    []string
+		sharded bool
+		want    bool
+	}{
+		{[]string{one}, false, false},                // one plain file: --out is its folder
+		{[]string{one}, true, true},                  // a share of a batch
+		{[]string{dir + "/o*.bsr"}, false, true},     // a pattern matching one file
+		{[]string{one, one}, false, true},            // several files
+		{[]string{dir + "/none*.bsr"}, false, false}, // a pattern matching none: its own error
+	} {
+		if got := Expand(c.args, ".bsr").Batch(c.sharded); got != c.want {
+			t.Errorf("Expand(%q).Batch(%v) = %v, want %v", c.args, c.sharded, got, c.want)
 		}
 	}
 }
