@@ -3,6 +3,8 @@ package spectra
 import (
 	"os"
 	"path/filepath"
+	"slices"
+	"strings"
 	"testing"
 )
 
@@ -56,6 +58,109 @@ func TestReadTimesDecimalComma(t *testing.T) {
 		tab, err := ReadTimes(fuzzFile(t, "times.csv", []byte(text)))
 		if err != nil || tab["a.csv"] != 0 || tab["b.csv"] != 12.5 || tab["c.csv"] != 125 {
 			t.Errorf("%q: %v %v, want a 0, b 12.5, c 125", text, tab, err)
+		}
+	}
+}
+
+// A comma-separated file may quote a cell to hold the separator (RFC 4180,
+// §2 rules 5 and 6): "1234,5","0,0123" is two numbers with decimal commas,
+// the same as the ';'-separated 1234,5;0,0123 (a European spreadsheet's two
+// CSV exports, common practice). Spectrum files, matrix files and times
+// tables read the same numbers from both.
+func TestQuotedDecimalCommas(t *testing.T) {
+	pairs := []struct {
+		name, quoted, semi string
+		read               func(p string) ([]float64, error)
+	}{
+		{"spectrum",
+			"\"Wellenzahl (cm-1)\",\"Extinktion\"\n\"1800,5\",\"0,125\"\n\"1799,0\",\"-1,5e-3\"\n\"1797,5\",\"2\"\n\"1796,0\",\"6,5e+002\"\n",
+			"Wellenzahl (cm-1);Extinktion\n1800,5;0,125\n1799,0;-1,5e-3\n1797,5;2\n1796,0;6,5e+002\n",
+			func(p string) ([]float64, error) {
+				s, err := ReadSpectrumFile(p)
+				if err != nil {
+					return nil, err
+				}
+				return append(s.Axis, s.Values...), nil
+			}},
+		{"matrix",
+			"\"wavenumber\",\"0\",\"60,5\"\n\"1800,5\",\"0,1\",\"0,25\"\n\"1799,0\",\"1,234\",\"0,5\"\n",
+			"wavenumber;0;60,5\n1800,5;0,1;0,25\n1799,0;1,234;0,5\n",
+			func(p string) ([]float64, error) {
+				s, err := ReadMatrixCSV(p)
+				if err != nil {
+					return nil, err
+				}
+				return append(append(s.Axis, s.Times...), s.Values.RawMatrix().Data...), nil
+			}},
+		{"times",
+			"file,time_s\n\"a.csv\",\"0\"\n\"b.csv\",\"12,5\"\n\"c.csv\",\"1,25e2\"\n",
+			"file;time_s\na.csv;0\nb.csv;12,5\nc.csv;1,25e2\n",
+			func(p string) ([]float64, error) {
+				tab, err := ReadTimes(p)
+				return []float64{tab["a.csv"], tab["b.csv"], tab["c.csv"]}, err
+			}},
+	}
+	for _, c := range pairs {
+		q, err := c.read(fuzzFile(t, "q.csv", []byte(c.quoted)))
+		if err != nil {
+			t.Errorf("%s, quoted decimal commas: %v", c.name, err)
+			continue
+		}
+		s, err := c.read(fuzzFile(t, "s.csv", []byte(c.semi)))
+		if err != nil {
+			t.Fatalf("%s, ';' separators: %v", c.name, err)
+		}
+		if !slices.Equal(q, s) {
+			t.Errorf("%s: quoted %v, ';'-separated %v", c.name, q, s)
+		}
+	}
+}
+
+// A quoted "1,234" is 1.234 with a decimal comma or 1234 with digit
+// grouping, groups of three digits (SI Brochure, 9th ed., on writing
+// numbers; from memory): a file whose numbers could all be either is
+// refused, and so is one mixing decimal points and commas, each with one
+// line naming the place; no reading is guessed.
+func TestQuotedCommasRefused(t *testing.T) {
+	for _, c := range []struct{ text, want string }{
+		// Every quoted number reads both ways.
+		{"\"1,500\",\"1,234\"\n\"1,750\",\"1,250\"\n\"2,000\",\"1,125\"\n", ":1: the quoted number \"1,500\" is a decimal comma or digit grouping"},
+		// Decimal commas first, then a decimal point.
+		{"\"1234,5\",\"0,5\"\n1233.5,0.25\n1232.5,0.125\n", ":2: axis cell: \"1233.5\" has a decimal point among numbers with decimal commas"},
+		// Decimal points first, then a quoted comma: digit grouping, not read.
+		{"1800.5,0.1\n\"1,799\",0.2\n1798,0.3\n", "the file writes decimal points (line 1 has \"1800.5\")"},
+		// A quoted number with grouping and a point is not read.
+		{"\"1,800.5\",0.1\n\"1,799.5\",0.2\n", ":1: axis cell: \"1,800.5\" is not a number; write the numbers without digit grouping"},
+	} {
+		_, err := ReadSpectrumFile(fuzzFile(t, "x.csv", []byte(c.text)))
+		if err == nil || !strings.Contains(err.Error(), c.want) || strings.Contains(err.Error(), "\n") {
+			t.Errorf("%q: error %v, want one line with %q", c.text, err, c.want)
+		}
+	}
+	// A matrix file whose quoted numbers all read both ways, likewise.
+	_, err := ReadMatrixCSV(fuzzFile(t, "m.csv", []byte("wavenumber,0,60\n\"1,500\",\"1,234\",\"2,345\"\n\"1,750\",\"1,250\",\"2,500\"\n")))
+	if err == nil || !strings.Contains(err.Error(), "m.csv:2: the quoted number \"1,500\"") {
+		t.Errorf("ambiguous matrix: %v", err)
+	}
+}
+
+// commaMark tells digit grouping (groups of three digits after a first of
+// one to three, no leading zero: SI Brochure, 9th ed.; from memory) from a
+// decimal comma; a cell that is neither is no number.
+func TestCommaMark(t *testing.T) {
+	for _, c := range []struct {
+		cell string
+		want markKind
+	}{
+		{"1,234", markEither}, {"-12,345", markEither}, {"999,000", markEither},
+		{"0,123", markComma}, {"1234,5", markComma}, {"1,23", markComma}, {"1,2345", markComma},
+		{"6,498933e+002", markComma}, {"1,234e3", markComma}, {"-0,5", markComma},
+		{"1,234,567", markGrouped}, {"1,234.5", markGrouped}, {"-12,345.25e3", markGrouped},
+		{"01,234.5", markNone}, {"1,23.5", markNone}, {",5", markNone}, {"1,", markNone},
+		{"run 7, cell B", markNone}, {"1,5e", markNone},
+	} {
+		if got := commaMark([]byte(c.cell)); got != c.want {
+			t.Errorf("commaMark(%q) = %d, want %d", c.cell, got, c.want)
 		}
 	}
 }

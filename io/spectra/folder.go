@@ -88,8 +88,9 @@ type TimeRow struct {
 // ReadTimes reads a times table (columns file,time_s) into file → seconds.
 // It is read with the same line rules as the spectra (BOM, CRLF, blank and
 // '#' lines, comma, semicolon or tab separators, decimal commas where the
-// separator is not a comma) so that line numbers in messages are the
-// editor's line numbers.
+// separator is not a comma or in quoted cells that tell them from digit
+// grouping, fileMarks) so that line numbers in messages are the editor's
+// line numbers.
 func ReadTimes(path string) (map[string]float64, error) {
 	raw, err := readAll(path)
 	if err != nil {
@@ -147,6 +148,10 @@ func ReadTimes(path string) (map[string]float64, error) {
 	if err := gocsv.UnmarshalCSV(&records{recs: recs}, &rows); err != nil {
 		return nil, inputErr(path, head.n, headHint, "cannot read the table: %v", err)
 	}
+	mk, err := fileMarks(path, lines[1:], sep, timeCol)
+	if err != nil {
+		return nil, err
+	}
 	out := make(map[string]float64, len(rows))
 	byTime := map[float64]string{}
 	for i, r := range rows {
@@ -155,13 +160,10 @@ func ReadTimes(path string) (map[string]float64, error) {
 		if name == "" {
 			return nil, inputErr(path, ln, "each row needs a file name in column 'file'", "empty file name")
 		}
-		// Decimal commas are read where the separator is ';' or a tab, as in spectrum files.
-		v, err := parseCell([]byte(r.TimeS), sep)
+		// Decimal commas are read as in spectrum files (fileMarks).
+		v, err := mk.cell([]byte(r.TimeS))
 		if err != nil {
-			hint := "time_s must be a number of seconds"
-			if looksLikeDecimalComma([]byte(r.TimeS)) {
-				hint = "with ',' as the separator a decimal comma cannot be told apart: separate the columns with ';' or write times with decimal points"
-			}
+			hint := mk.hint([]byte(r.TimeS), "time_s must be a number of seconds")
 			return nil, inputErr(path, ln, hint, "time of %s: %v", quoteCell([]byte(name)), err)
 		}
 		if _, dup := out[name]; dup {

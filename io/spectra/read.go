@@ -350,7 +350,11 @@ func parseMatrixCSV(path string, raw []byte, pre int) (*Series, error) {
 		return nil, inputErr(path, 0, "export the spectra with a header row: axis name, then one time per spectrum", "is empty")
 	}
 	lines = skipTitles(lines)
-	h, err := parseMatrixHeader(path, lines[0])
+	m, err := fileMarks(path, lines, detectSeparator(lines[0].text), -1)
+	if err != nil {
+		return nil, err
+	}
+	h, err := parseMatrixHeader(path, lines[0], m)
 	if err != nil {
 		return nil, err
 	}
@@ -403,19 +407,19 @@ func titleSeparator(lines []line) byte {
 }
 
 // matrixHeader is what the header row of the matrix layout says: the axis
-// name (lower case, "" when blank), the separator every row uses, and one
-// acquisition time per spectrum.
+// name (lower case, "" when blank), and one acquisition time per spectrum;
+// marks are the separator every row uses and the file's decimal mark.
 type matrixHeader struct {
 	axisName string
-	sep      byte
+	marks    marks
 	times    []float64
 }
 
-// parseMatrixHeader reads the header row. A header of numbers is refused: it
-// would be read as a spectrum's times and the first channel lost.
-func parseMatrixHeader(path string, head line) (matrixHeader, error) {
-	sep := detectSeparator(head.text)
-	hf := fields(head.text, sep, nil)
+// parseMatrixHeader reads the header row, whose separator and decimal mark
+// m gives. A header of numbers is refused: it would be read as a
+// spectrum's times and the first channel lost.
+func parseMatrixHeader(path string, head line, m marks) (matrixHeader, error) {
+	hf := fields(head.text, m.sep, nil)
 	if len(hf) < 2 {
 		return matrixHeader{}, inputErr(path, head.n, "the first row must be the axis name, then one acquisition time (s) per spectrum", "header has %d column(s)", len(hf))
 	}
@@ -428,11 +432,11 @@ func parseMatrixHeader(path string, head line) (matrixHeader, error) {
 			"one acquisition time (s) per spectrum in the header; this file seems to hold one spectrum per line: "+
 			"write it the other way round (wavenumber,t1,t2,…)", "the first header cell %q names time, not the spectral axis", string(hf[0]))
 	}
-	times, err := parseHeaderTimes(path, head.n, hf[1:], sep)
+	times, err := parseHeaderTimes(path, head.n, hf[1:], m)
 	if err != nil {
 		return matrixHeader{}, err
 	}
-	return matrixHeader{axisName: axisName, sep: sep, times: times}, nil
+	return matrixHeader{axisName: axisName, marks: m, times: times}, nil
 }
 
 // namesTime says a matrix header's first cell (lower case) names time:
@@ -455,14 +459,14 @@ func namesTime(cell string) bool {
 
 // parseHeaderTimes reads the acquisition times, each spectrum's own: two
 // spectra at one time cannot both be placed on the time axis.
-func parseHeaderTimes(path string, lineNo int, cells [][]byte, sep byte) ([]float64, error) {
+func parseHeaderTimes(path string, lineNo int, cells [][]byte, m marks) ([]float64, error) {
 	n := len(cells)
 	times := make([]float64, n)
 	seen := map[float64]int{}
 	for j := 0; j < n; j++ {
-		v, err := parseCell(cells[j], sep)
+		v, err := m.cell(cells[j])
 		if err != nil {
-			return nil, inputErr(path, lineNo, "header cells after the axis name must be acquisition times in seconds", "column %d: %v", j+2, err)
+			return nil, inputErr(path, lineNo, m.hint(cells[j], "header cells after the axis name must be acquisition times in seconds"), "column %d: %v", j+2, err)
 		}
 		if p, dup := seen[v]; dup {
 			return nil, inputErr(path, lineNo, "each spectrum needs its own time", "columns %d and %d have the same time %g s", p+2, j+2, v)
@@ -489,7 +493,7 @@ const matrixChunk = 64
 type matrixParse struct {
 	path  string
 	rows  []line
-	sep   byte
+	marks marks
 	n, m  int // spectra, channels
 	times []float64
 	axis  []float64
@@ -506,7 +510,7 @@ func newMatrixParse(path string, rows []line, h matrixHeader, pre int) *matrixPa
 	n, m := len(h.times), len(rows)
 	// Every value is written by the parse or the matrix is dropped with the
 	// error, so it need not be cleared first.
-	p := &matrixParse{path: path, rows: rows, sep: h.sep, n: n, m: m, times: h.times,
+	p := &matrixParse{path: path, rows: rows, marks: h.marks, n: n, m: m, times: h.times,
 		axis: make([]float64, m), vals: fresh.Overwritten(n, m)}
 	if pre >= 0 && slices.IsSorted(h.times) {
 		p.scan = newChannelScan(n, m, pre)
@@ -585,7 +589,8 @@ func (p *matrixParse) parseRows(at *int) {
 // parseRow parses row i into the axis and column i of the values (through
 // line, when the channel is to be scanned), reusing buf for its cells.
 func (p *matrixParse) parseRow(i int, buf [][]byte, line []float64) ([][]byte, error) {
-	n, sep, l := p.n, p.sep, p.rows[i]
+	n, mk, l := p.n, p.marks, p.rows[i]
+	sep := mk.sep
 	raw2 := p.vals.RawMatrix()
 	buf = fields(l.text, sep, buf)
 	if len(buf) != n+1 {
@@ -596,16 +601,13 @@ func (p *matrixParse) parseRow(i int, buf [][]byte, line []float64) ([][]byte, e
 		return buf, inputErr(p.path, l.n, hint, "row has %d cells, header has %d", len(buf), n+1)
 	}
 	var err error
-	if p.axis[i], err = parseCell(buf[0], sep); err != nil {
-		return buf, inputErr(p.path, l.n, "the first column must be the axis value", "axis cell: %v", err)
+	if p.axis[i], err = mk.cell(buf[0]); err != nil {
+		return buf, inputErr(p.path, l.n, mk.hint(buf[0], "the first column must be the axis value"), "axis cell: %v", err)
 	}
 	for j := 0; j < n; j++ {
-		v, err := parseCell(buf[j+1], sep)
+		v, err := mk.cell(buf[j+1])
 		if err != nil {
-			hint := "replace it with a number, or remove the row"
-			if looksLikeDecimalComma(buf[j+1]) {
-				hint = "the file seems to use decimal commas: export with decimal points"
-			}
+			hint := mk.hint(buf[j+1], "replace it with a number, or remove the row")
 			return buf, inputErr(p.path, l.n, hint, "column %d (time %g s): %v", j+2, p.times[j], err)
 		}
 		if line != nil {
@@ -742,7 +744,11 @@ func ReadSpectrumFile(path string) (*Spectrum, error) {
 		return nil, inputErr(path, lines[0].n, "a spectrum file holds two numeric columns (axis, value), after at most a few title lines", "no numeric data in the first lines")
 	}
 	sep := detectSeparator(lines[start].text)
-	axis, vals, err := readSpectrumRows(path, lines[start:], sep)
+	m, err := fileMarks(path, lines[start:], sep, -1)
+	if err != nil {
+		return nil, err
+	}
+	axis, vals, err := readSpectrumRows(path, lines[start:], m)
 	if err != nil {
 		return nil, err
 	}
@@ -765,7 +771,8 @@ type spectrumTitle struct {
 // findSpectrumData finds the first of the first 20 lines whose cells are
 // all numbers (-1 if none) and the column titles before it. The column
 // titles are the last non-numeric line before the data; earlier lines are
-// free-text titles.
+// free-text titles. A quoted number with a comma in a comma-separated line
+// counts as one here; which it is, the file's numbers decide (fileMarks).
 func findSpectrumData(lines []line) (start int, title spectrumTitle) {
 	var buf [][]byte
 	for i, l := range lines {
@@ -776,7 +783,7 @@ func findSpectrumData(lines []line) (start int, title spectrumTitle) {
 		buf = fields(l.text, sep, buf)
 		allNum := len(buf) > 0
 		for _, f := range buf {
-			if _, err := parseCell(f, sep); err != nil {
+			if _, err := parseCell(f, sep); err != nil && (sep != ',' || commaMark(f) == markNone) {
 				allNum = false
 				break
 			}
@@ -794,7 +801,8 @@ func findSpectrumData(lines []line) (start int, title spectrumTitle) {
 // readSpectrumRows reads the axis and value columns of the data lines,
 // refusing the first row that is not two numbers, with a hint for the
 // decimal commas that split a comma-separated row into four cells.
-func readSpectrumRows(path string, rows []line, sep byte) (axis, vals []float64, err error) {
+func readSpectrumRows(path string, rows []line, m marks) (axis, vals []float64, err error) {
+	sep := m.sep
 	axis = make([]float64, 0, len(rows))
 	vals = make([]float64, 0, len(rows))
 	var buf [][]byte
@@ -810,17 +818,13 @@ func readSpectrumRows(path string, rows []line, sep byte) (axis, vals []float64,
 			}
 			return nil, nil, inputErr(path, l.n, hint, "row has %d columns", len(buf))
 		}
-		x, err := parseCell(buf[0], sep)
+		x, err := m.cell(buf[0])
 		if err != nil {
-			return nil, nil, inputErr(path, l.n, "the first column must be the axis value", "axis cell: %v", err)
+			return nil, nil, inputErr(path, l.n, m.hint(buf[0], "the first column must be the axis value"), "axis cell: %v", err)
 		}
-		y, err := parseCell(buf[1], sep)
+		y, err := m.cell(buf[1])
 		if err != nil {
-			hint := "replace it with a number, or remove the row"
-			if looksLikeDecimalComma(buf[1]) {
-				hint = "the file seems to use decimal commas: export with decimal points"
-			}
-			return nil, nil, inputErr(path, l.n, hint, "value cell: %v", err)
+			return nil, nil, inputErr(path, l.n, m.hint(buf[1], "replace it with a number, or remove the row"), "value cell: %v", err)
 		}
 		axis = append(axis, x)
 		vals = append(vals, y)
