@@ -1,6 +1,7 @@
 package spectra
 
 import (
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -48,6 +49,59 @@ func TestMatrixHeaderUnits(t *testing.T) {
 		noted := strings.Contains(strings.Join(s.Notes, "\n"), "µm")
 		if noted != c.note {
 			t.Errorf("%q: note on µm %v, want %v (%q)", c.header, noted, c.note, s.Notes)
+		}
+	}
+}
+
+// The same holds outside matrix files: a one-spectrum file's column title
+// "Wavelength (um)" and a JCAMP-DX file's ##XUNITS=MICROMETERS (JCAMP-DX
+// 4.24, McDonald & Wilks 1988: the x units 1/CM, MICROMETERS, NANOMETERS)
+// give a wavelength in µm, read as nm, 1 µm = 1000 nm (SI prefixes), with
+// the note a matrix header gives; a folder of such files says it once.
+func TestFileAndJCAMPMicrometres(t *testing.T) {
+	const note = "is a wavelength in µm: read as nm (×1000)"
+	for _, c := range []struct {
+		name, text, written string
+	}{
+		{"a.csv", "Wavelength (um),Absorbance\n2.5,0.1\n2.6,0.3\n2.7,0.2\n", "wavelength (um)"},
+		{"b.txt", "\"λ [µm]\";\"A\"\n2,5;0,1\n2,6;0,3\n2,7;0,2\n", "λ [µm]"},
+		{"c.jdx", "##TITLE=c\n##JCAMP-DX=4.24\n##XUNITS=MICROMETERS\n##YUNITS=ABSORBANCE\n##XFACTOR=0.1\n##YFACTOR=0.1\n##FIRSTX=2.5\n##LASTX=2.7\n##NPOINTS=3\n##XYDATA=(X++(Y..Y))\n25 1 3 2\n##END=\n", "##XUNITS=MICROMETERS"},
+	} {
+		sp, err := ReadSpectrum(fuzzFile(t, c.name, []byte(c.text)))
+		if err != nil {
+			t.Fatalf("%s: %v", c.name, err)
+		}
+		want := []float64{2500, 2600, 2700}
+		for i, w := range want {
+			if math.Abs(sp.Axis[i]-w) > 1e-9*w {
+				t.Errorf("%s: axis %v, want %v nm", c.name, sp.Axis, want)
+				break
+			}
+		}
+		if sp.AxisName != "wavelength" || !strings.Contains(sp.Note, note) || !strings.Contains(sp.Note, "\""+c.written+"\"") {
+			t.Errorf("%s: axis %q, note %q; want wavelength, noted as from %q", c.name, sp.AxisName, sp.Note, c.written)
+		}
+	}
+	// A folder of one-spectrum files titled in µm: one note for the series.
+	dir := t.TempDir()
+	for i, n := range []string{"s_0.csv", "s_60.csv", "s_120.csv"} {
+		body := fmt.Sprintf("Wavelength (µm),Absorbance\n2.5,0.%d\n2.6,0.3\n2.7,0.2\n", i+1)
+		if err := os.WriteFile(filepath.Join(dir, n), []byte(body), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	s, err := ReadFolder(dir, FolderOptions{TimesFromName: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if s.AxisName != "wavelength" || s.Axis[0] != 2500 || len(s.Notes) != 1 || !strings.Contains(s.Notes[0], note) {
+		t.Errorf("folder: axis %q from %g, notes %q; want wavelength from 2500 nm and one note", s.AxisName, s.Axis[0], s.Notes)
+	}
+	// Titles in nm or cm⁻¹ are read as written, without a note.
+	for _, text := range []string{"Wavelength (nm),A\n2500,0.1\n2600,0.3\n", "Wavenumber (cm-1),A\n2500,0.1\n2600,0.3\n"} {
+		sp, err := ReadSpectrum(fuzzFile(t, "n.csv", []byte(text)))
+		if err != nil || sp.Axis[0] != 2500 || sp.Note != "" {
+			t.Errorf("%q: %v %v", text, sp, err)
 		}
 	}
 }

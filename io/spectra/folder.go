@@ -526,7 +526,7 @@ func stackSpectra(dir string, files []string, specs []*Spectrum, times []float64
 		s.Times = append(s.Times, times[i])
 		s.Names = append(s.Names, files[i])
 	}
-	s.Notes = tally.notes()
+	s.Notes = append(spectrumNotes(specs, order), tally.notes()...)
 	return s, nil
 }
 

@@ -87,7 +87,13 @@ func blockSpectrum(path, src string, b jcamp.Block) (*Spectrum, error) {
 		kind = string(Absorbance)
 	}
 	acq, _ := jcampAcquired(b)
-	return &Spectrum{AxisName: jcampAxisName(b.XUnits, x), Axis: x, Values: y, Source: src, Kind: kind, Units: b.YUnits, Title: b.Title, Acquired: acq}, nil
+	sp := &Spectrum{AxisName: jcampAxisName(b.XUnits, x), Axis: x, Values: y, Source: src, Kind: kind, Units: b.YUnits, Title: b.Title, Acquired: acq}
+	if sp.AxisName == "wavelength" && micrometres(b.XUnits) {
+		// JCAMP-DX 4.24 ##XUNITS=MICROMETERS: a wavelength in µm, put in nm
+		// as a matrix header's or a column title's is.
+		sp.Note = micrometresToNanometres(sp.Axis, "##XUNITS="+b.XUnits)
+	}
+	return sp, nil
 }
 
 func blockName(b jcamp.Block) string {
@@ -97,13 +103,14 @@ func blockName(b jcamp.Block) string {
 	return fmt.Sprintf("block at line %d", b.Line)
 }
 
-// jcampAxisName maps ##XUNITS to the trade's axis names.
+// jcampAxisName maps ##XUNITS to the trade's axis names; MICROMETERS
+// (and UM, MICRONS) is a wavelength, which blockSpectrum puts in nm.
 func jcampAxisName(units string, x []float64) string {
 	u := strings.ToUpper(strings.ReplaceAll(units, " ", ""))
 	switch {
 	case u == "1/CM" || strings.Contains(u, "CM-1") || strings.Contains(u, "CM^-1") || strings.Contains(u, "WAVENUMBER"):
 		return "wavenumber"
-	case u == "NM" || u == "UM" || u == "MICROMETERS" || strings.Contains(u, "NANOMETER") || strings.Contains(u, "WAVELENGTH"):
+	case u == "NM" || micrometres(units) || strings.Contains(u, "NANOMETER") || strings.Contains(u, "WAVELENGTH"):
 		return "wavelength"
 	case u == "":
 		return guessAxisName(x)
@@ -271,7 +278,7 @@ func (b jcampBlocks) series(times []float64, resample bool) (*Series, error) {
 		s.Times = append(s.Times, times[i])
 		s.Names = append(s.Names, sp.Source)
 	}
-	s.Notes = tally.notes()
+	s.Notes = append(spectrumNotes(b.sps, order), tally.notes()...)
 	return s, nil
 }
 

@@ -84,6 +84,10 @@ type Spectrum struct {
 	Units    string    // JCAMP-DX ##YUNITS as written, "" for other formats
 	Title    string    // JCAMP-DX ##TITLE, "" for other formats
 	Acquired time.Time // JCAMP-DX ##LONGDATE (or ##DATE and ##TIME); zero when not given
+	// Note says how the axis was read when not as written (a wavelength
+	// in µm put in nm, micrometresToNanometres), "" otherwise; a series of such
+	// spectra keeps it among its Notes.
+	Note string
 }
 
 // InputError is an error in a user's file, reported with its place.
@@ -657,15 +661,24 @@ func matrixAxisName(header string, axis []float64) (name, note string) {
 	}
 	name = cleanAxisName(header, axis)
 	if name != "wavenumber" && micrometres(header) {
-		for i := range axis {
-			axis[i] *= 1000
-		}
-		return "wavelength", fmt.Sprintf("the axis %q is a wavelength in µm: read as nm (×1000), the unit of every output and of --exclude and other ranges", header)
+		return "wavelength", micrometresToNanometres(axis, header)
 	}
 	if name != "wavenumber" && name != "wavelength" {
 		return header, ""
 	}
 	return name, ""
+}
+
+// micrometresToNanometres puts an axis given in µm in nm, ×1000 in place
+// (SI prefixes: 1 µm = 1000 nm), the unit "wavelength" has in every
+// output, and returns the note that says so, naming the axis as written
+// (a matrix header, a file's column title, a JCAMP-DX ##XUNITS): one
+// wording for every format.
+func micrometresToNanometres(axis []float64, written string) string {
+	for i := range axis {
+		axis[i] *= 1000
+	}
+	return fmt.Sprintf("the axis %q is a wavelength in µm: read as nm (×1000), the unit of every output and of --exclude and other ranges", written)
 }
 
 // micrometres says a column title gives its unit as µm: "wavelength (um)",
@@ -681,6 +694,19 @@ func micrometres(title string) bool {
 		}
 	}
 	return false
+}
+
+// spectrumNotes are the distinct notes of the spectra of a series on how
+// their axes were read, in the order of the rows: one for a folder whose
+// files all give µm, not one per file.
+func spectrumNotes(sps []*Spectrum, order []int) []string {
+	var notes []string
+	for _, i := range order {
+		if n := sps[i].Note; n != "" && !slices.Contains(notes, n) {
+			notes = append(notes, n)
+		}
+	}
+	return notes
 }
 
 // checkAxis requires a strictly monotonic axis of at least two points.
@@ -756,7 +782,8 @@ func ReadSpectrumFile(path string) (*Spectrum, error) {
 	if err := checkAxis(path, axis, lineOf); err != nil {
 		return nil, err
 	}
-	return &Spectrum{AxisName: title.axisName(sep, axis), Axis: axis, Values: vals, Source: path}, nil
+	name, note := title.axisName(sep, axis)
+	return &Spectrum{AxisName: name, Axis: axis, Values: vals, Source: path, Note: note}, nil
 }
 
 // spectrumTitle is the last non-numeric line before a spectrum's data
@@ -836,13 +863,20 @@ func readSpectrumRows(path string, rows []line, m marks) (axis, vals []float64, 
 // values. A line that names no known axis is a column title only if it is
 // laid out like the data (two cells, the data's separator sep) and has no
 // digits: "x,y" is, "Run 7" is not; "Wavenumber (cm-1)" is, digits and all.
-func (t spectrumTitle) axisName(sep byte, axis []float64) string {
-	name := cleanAxisName(t.first, axis)
-	if name != "wavenumber" && name != "wavelength" &&
-		(strings.ContainsAny(t.first, "0123456789") || t.sep != sep || t.cells != 2) {
-		name = guessAxisName(axis)
+// A column title giving µm, "Wavelength (um)", puts the axis in nm in
+// place, with the note that says so, as a matrix header does
+// (matrixAxisName).
+func (t spectrumTitle) axisName(sep byte, axis []float64) (name, note string) {
+	name = cleanAxisName(t.first, axis)
+	title := name == "wavenumber" || name == "wavelength" ||
+		!(strings.ContainsAny(t.first, "0123456789") || t.sep != sep || t.cells != 2)
+	switch {
+	case !title:
+		return guessAxisName(axis), ""
+	case name != "wavenumber" && micrometres(t.first):
+		return "wavelength", micrometresToNanometres(axis, t.first)
 	}
-	return name
+	return name, ""
 }
 
 // cleanAxisName maps a column title such as "Wavenumber (cm-1)" to the
@@ -893,7 +927,11 @@ func ReadSpectrum(path string) (*Spectrum, error) {
 	}
 	// A matrix CSV with exactly one spectrum column is a spectrum too.
 	if s, err2 := ReadMatrixCSV(path); err2 == nil && len(s.Times) == 1 {
-		return &Spectrum{AxisName: s.AxisName, Axis: s.Axis, Values: s.Values.RawRowView(0), Source: path}, nil
+		sp := &Spectrum{AxisName: s.AxisName, Axis: s.Axis, Values: s.Values.RawRowView(0), Source: path}
+		if len(s.Notes) > 0 {
+			sp.Note = s.Notes[0] // the header's µm, the only note a matrix read gives
+		}
+		return sp, nil
 	}
 	return nil, err
 }
