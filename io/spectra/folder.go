@@ -177,7 +177,10 @@ func ReadTimes(path string) (map[string]float64, error) {
 	return out, nil
 }
 
-var numberInName = regexp.MustCompile(`[0-9]+(?:\.[0-9]+)?`)
+// numberInName is a number in a file name or title, with a decimal point
+// or a decimal comma (run7_t0,35min: a European export's names, common
+// practice); nameMarks tells the comma from digit grouping.
+var numberInName = regexp.MustCompile(`[0-9]+(?:[.,][0-9]+)?`)
 
 // nameUnits are the time units read when written straight after a name's
 // number (run7_t0.35min, scan_120s): the SI symbols s, ms and the symbols
@@ -187,9 +190,11 @@ var numberInName = regexp.MustCompile(`[0-9]+(?:\.[0-9]+)?`)
 var nameUnits = map[string]float64{"ms": 1e-3, "s": 1, "sec": 1, "secs": 1,
 	"min": 60, "mins": 60, "h": 3600, "hr": 3600, "hrs": 3600}
 
-// nameNumber is the last number in text and the time unit written straight
-// after it ("" for a plain number), lower-cased; a unit must end the text
-// or be followed by something not a letter (scan_10scans has none).
+// nameNumber is the last number in text and the time unit written after
+// it ("" for a plain number), lower-cased: straight after it or after one
+// '_', '-' or blank (run7_t0.35min, run7_t0.35_min, scan 120 s); a unit
+// must end the text or be followed by something not a letter, so that
+// scan_10scans and sample_2_mineral have none.
 func nameNumber(text string) (num, unit string, ok bool) {
 	locs := numberInName.FindAllStringIndex(text, -1)
 	if len(locs) == 0 {
@@ -197,6 +202,9 @@ func nameNumber(text string) (num, unit string, ok bool) {
 	}
 	last := locs[len(locs)-1]
 	num, rest := text[last[0]:last[1]], text[last[1]:]
+	if len(rest) > 1 && strings.IndexByte("_- ", rest[0]) >= 0 {
+		rest = rest[1:]
+	}
 	end := strings.IndexFunc(rest, func(r rune) bool { return !unicode.IsLetter(r) })
 	if end < 0 {
 		end = len(rest)
@@ -214,7 +222,7 @@ func lastNumberTime(text, unit, where string) (float64, error) {
 	if !ok {
 		return 0, fmt.Errorf("no number in %s", where)
 	}
-	v, err := strconv.ParseFloat(num, 64)
+	v, err := strconv.ParseFloat(strings.Replace(num, ",", ".", 1), 64) // nameMarks checked the comma
 	if err != nil {
 		return 0, err
 	}

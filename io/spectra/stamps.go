@@ -192,10 +192,45 @@ func timesFromLabels(labels []string, unit string, what func(i int) string) (tim
 			return nil, i, err
 		}
 	}
+	if i, err := nameMarks(labels, what); err != nil {
+		return nil, i, err
+	}
 	if i, j := mixedUnits(labels); i >= 0 {
 		return nil, i, fmt.Errorf("%s and %s give their times in different units (%s)", what(i), what(j), unitPair(labels[i], labels[j]))
 	}
 	return times, 0, nil
+}
+
+// nameMarks checks the decimal marks of the labels' last numbers, as
+// fileMarks does a file's: "0,35" is a decimal comma (no digit grouping
+// starts with 0), and then "1,500" is one too; names whose commas could
+// all be digit grouping ("1,500": 1.5 or 1500), or that mix decimal
+// commas and points, are refused, naming the label at fault and, for a
+// mix, one of the other mark.
+func nameMarks(labels []string, what func(i int) string) (int, error) {
+	first := map[markKind]int{}
+	for i, l := range labels {
+		num, _, _ := nameNumber(l)
+		if k := cellMark([]byte(num)); k != markNone {
+			if _, seen := first[k]; !seen {
+				first[k] = i
+			}
+		}
+	}
+	c, comma := first[markComma]
+	e, either := first[markEither]
+	p, point := first[markPoint]
+	if either && !comma {
+		c, comma = e, true
+		if !point {
+			num, _, _ := nameNumber(labels[e])
+			return e, fmt.Errorf("the number %q in %s is a decimal comma or digit grouping, and no other name tells which", num, what(e))
+		}
+	}
+	if comma && point {
+		return max(c, p), fmt.Errorf("%s and %s write their numbers with different decimal marks (comma against point)", what(c), what(p))
+	}
+	return -1, nil
 }
 
 // mixedUnits finds two labels whose last numbers carry different written
