@@ -118,6 +118,38 @@ func TestRunCommandFileErrors(t *testing.T) {
 	}
 }
 
+// --out on the command line overrides a file's out line that breaks the
+// output rule: docs/command-files.md, "bandsolve run exp1.bsr --components 2
+// --out trial/     # flags override the file" and "The command line is not
+// bound by the output rule: `--out DIR` writes where the person running the
+// command says"; the refusal itself says "(or give --out on the command
+// line)".
+func TestRunOutFlagOverridesFileOut(t *testing.T) {
+	root := t.TempDir()
+	writeDemoInputs(t, filepath.Join(root, "data"))
+	head := "paths-from ../data\ndata series.csv\nblank blank.csv\n" + quickSettings + "checks off\n"
+	for _, c := range []struct{ name, out string }{
+		{"outside", "out ../../elsewhere\n"},
+		{"absolute", "out " + filepath.Join(root, "abs") + "\n"},
+	} {
+		file := filepath.Join(root, "exp", c.name+".bsr")
+		writeText(t, file, head+c.out)
+		if r := run("run", file, "--quiet"); r.code != exitUsage {
+			t.Errorf("%s without --out: exit %d, want the refusal (2)", c.name, r.code)
+		}
+		dest := filepath.Join(root, "given", c.name)
+		if r := run("run", file, "--out", dest, "--quiet"); r.code != 0 {
+			t.Errorf("%s with --out: exit %d: %s", c.name, r.code, r.stderr)
+		}
+		if _, err := os.Stat(filepath.Join(dest, "summary.json")); err != nil {
+			t.Errorf("%s with --out: no results in --out (%v)", c.name, err)
+		}
+	}
+	if _, err := os.Stat(filepath.Join(root, "abs")); err == nil {
+		t.Error("the file's absolute out was written although --out replaced it")
+	}
+}
+
 // A fault of the run that a setting of the file caused is put at the
 // file's line and column, with the keyword as the file writes it, as
 // docs/command-files.md promises for every fault; a path written from the

@@ -101,7 +101,18 @@ func IsPath(name, value string) bool {
 // alone (the command line gives them). An empty value of a repeatable
 // setting stands for none.
 func LoadCommandFile(path string, s *Settings, skip map[string]bool) (*cmdfile.File, error) {
-	f, err := cmdfile.ReadFile(path, Keywords())
+	keys := Keywords()
+	if skip["out"] {
+		// --out on the command line replaces the file's out line, and the
+		// command line is not bound by the output rule
+		// (docs/command-files.md): the line is not used, so not checked.
+		for i := range keys {
+			if keys[i].Path == cmdfile.WritePath {
+				keys[i].Path = cmdfile.NotPath
+			}
+		}
+	}
+	f, err := cmdfile.ReadFile(path, keys)
 	if err != nil {
 		return nil, err
 	}
