@@ -330,7 +330,7 @@ func (p *parser) checkPath(k Keyword, st statement) error {
 	case ReadPath:
 		return checkRead(p.name, st.ln, st.vcol, st.value)
 	case WritePath:
-		return checkWrite(p.name, st.ln, st.vcol, p.f.PathsFrom, st.value)
+		return checkWrite(p.name, st.ln, st.vcol, p.f.PathsFrom, p.f.PathsFromLine, st.value)
 	}
 	return nil
 }
@@ -497,7 +497,7 @@ func checkRead(name string, ln, col int, v string) error {
 	return nil
 }
 
-func checkWrite(name string, ln, col int, pathsFrom, v string) error {
+func checkWrite(name string, ln, col int, pathsFrom string, pathsFromLine int, v string) error {
 	if remote(v) {
 		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("%s is a network address; results go to a folder inside the command file's folder", Show(v))}
 	}
@@ -509,9 +509,30 @@ func checkWrite(name string, ln, col int, pathsFrom, v string) error {
 		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("out %s would be taken from the absolute %s %s, outside the file's folder; give --out on the command line instead", Show(v), PathsFrom, Show(pathsFrom))}
 	}
 	if rel == "." || rel == ".." || strings.HasPrefix(rel, ".."+string(filepath.Separator)) {
+		if pathsFrom != "" {
+			// The path checked is not the one written: say which it is
+			// and where it comes from.
+			return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("out %s, read from %s %s (line %d) as %s, leaves the command file's folder; name a folder inside it as seen from there, e.g. out %s (or give --out on the command line)",
+				Show(v), PathsFrom, Show(pathsFrom), pathsFromLine, Show(filepath.ToSlash(rel)), backTo(name, pathsFrom)+"results")}
+		}
 		return &Error{File: name, Line: ln, Col: col, Msg: fmt.Sprintf("out %s leaves the command file's folder; name a folder inside it, e.g. out results (or give --out on the command line)", Show(v))}
 	}
 	return nil
+}
+
+// backTo is the command file's folder as seen from its paths-from folder,
+// with a trailing slash ("../runs/" for paths-from ../data in runs/);
+// "" when there is no such relative path.
+func backTo(name, pathsFrom string) string {
+	dir, err := filepath.Abs(filepath.Dir(name))
+	if err != nil {
+		return ""
+	}
+	rel, err := filepath.Rel(filepath.Join(dir, filepath.FromSlash(pathsFrom)), dir)
+	if err != nil || rel == "." {
+		return ""
+	}
+	return filepath.ToSlash(rel) + "/"
 }
 
 // Dir is the folder the file's relative paths are taken from, given the

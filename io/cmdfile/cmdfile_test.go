@@ -95,7 +95,11 @@ func TestParseErrors(t *testing.T) {
 		{"out up", "out ../elsewhere\n", "f.bsr:1:5: out \"../elsewhere\" leaves the command file's folder"},
 		{"out here", "out .\n", "leaves the command file's folder"},
 		{"out absolute", "out /tmp/x\n", "is absolute"},
-		{"out via paths-from", "paths-from ..\nout results\n", "f.bsr:2:5: out \"results\" leaves"},
+		// docs/command-files.md: "with `paths-from`, the combined path must
+		// still stay inside": the message names that combined path and the
+		// paths-from line it comes from, since it is not the one written.
+		{"out via paths-from", "paths-from ..\nout results\n", "f.bsr:2:5: out \"results\", read from paths-from \"..\" (line 1) as \"../results\", leaves"},
+		{"out via paths-from, after a comment", "# c\npaths-from ../data\nout shared\n", "f.bsr:3:5: out \"shared\", read from paths-from \"../data\" (line 2) as \"../data/shared\", leaves the command file's folder; name a folder inside it as seen from there, e.g. out ../cmdfile/results"},
 		{"paths-from late", "kind a\npaths-from x\n", "f.bsr:2:1: paths-from must come before the first setting (line 1)"},
 		{"control", "kind a\x01b\n", "f.bsr:1:7: control character U+0001"},
 		{"not utf8", "kind a\nmodel \xff\n", "f.bsr:2: is not UTF-8"},
