@@ -72,15 +72,30 @@ func entryFor(f *cmdfile.File, name, msg string, s *pipeline.Settings) (cmdfile.
 		return cmdfile.Entry{}, false
 	}
 	for _, e := range found {
-		v := strings.TrimSpace(e.Value)
-		if v == "" {
-			continue
-		}
-		if strings.Contains(msg, v) || strings.Contains(msg, filepath.Clean(v)) || strings.Contains(msg, filepath.Clean(s.Path(v))) {
-			return e, true
+		for _, v := range pathsIn(strings.TrimSpace(e.Value)) {
+			if strings.Contains(msg, v) || strings.Contains(msg, filepath.Clean(v)) || strings.Contains(msg, filepath.Clean(s.Path(v))) {
+				return e, true
+			}
 		}
 	}
 	return found[0], true
+}
+
+// pathsIn is a value and the file it may name after its components and
+// before its weight (known-spectrum 1=pure.csv:100), whichever the message
+// quotes; none for an empty value.
+func pathsIn(v string) []string {
+	if v == "" {
+		return nil
+	}
+	out := []string{v}
+	if _, file, ok := strings.Cut(v, "="); ok && file != "" {
+		out = append(out, file)
+		if i := strings.LastIndex(file, ":"); i > 0 {
+			out = append(out, file[:i])
+		}
+	}
+	return out
 }
 
 // replaceFlag writes --name as the file's keyword wherever it stands as a

@@ -170,6 +170,13 @@ func TestRunFaultsNameTheLine(t *testing.T) {
 		{"model.bsr", head + "model A ->\n", exitUsage, []string{"exp/model.bsr:7:7: model \"A ->\": column 5: expected a species name"}},
 		{"kstart.bsr", head + "model A -> B\nk-start 1=abc\n", exitUsage, []string{"exp/kstart.bsr:8:9: k-start 1=abc: want a rate constant > 0"}},
 		{"region.bsr", head + "region 9000:8500\n", exitUsage, []string{"exp/region.bsr:7:8: region 9000:8500: the regions select no axis point"}},
+		// A missing file of another option than data is placed as data's
+		// is (docs/command-files.md: "a data path that does not exist" is
+		// "put at the line that set the option, named by its keyword").
+		{"blank.bsr", "data data/series.csv\nblank data/blnk.csv\n" + quickSettings, exitRun, []string{"exp/blank.bsr:2:7: exp/data/blnk.csv: cannot read", "check the blank path"}},
+		{"known.bsr", head + "known-spectrum 1=data/pure.csv\n", exitRun, []string{"exp/known.bsr:7:16: exp/data/pure.csv: cannot read", "check the known-spectrum path"}},
+		{"vapour.bsr", head + "vapour data/vap.csv\n", exitRun, []string{"exp/vapour.bsr:7:8: exp/data/vap.csv: cannot read", "check the vapour path"}},
+		{"init.bsr", head + "init data/start.csv\n", exitRun, []string{"exp/init.bsr:7:6: exp/data/start.csv: cannot read", "check the init path"}},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			p := filepath.Join("exp", c.name)
@@ -192,6 +199,15 @@ func TestRunFaultsNameTheLine(t *testing.T) {
 	r := run("run", filepath.Join("exp", "plain.bsr"), "--quiet", "--region", "9000:8500")
 	if r.code != exitUsage || !strings.Contains(r.stderr, "bandsolve run: --region 9000:8500: the regions select no axis point") {
 		t.Errorf("a region from the command line: exit %d, %q", r.code, r.stderr)
+	}
+	// From the command line, the missing file's flag is named.
+	for _, flag := range []string{"known-spectrum=1=nope.csv", "vapour=nope.csv", "init=nope.csv"} {
+		name, _, _ := strings.Cut(flag, "=")
+		r := run("resolve", "--data", "exp/data/series.csv", "--blank", "exp/data/blank.csv", "--kind", "single-beam", "--pre", "3",
+			"--report", "off", "--bands", "off", "--out", filepath.Join(root, "cl-"+name), "--quiet", "--"+flag)
+		if r.code != exitRun || !strings.Contains(r.stderr, "nope.csv: cannot read") || !strings.Contains(r.stderr, "check the --"+name+" path") {
+			t.Errorf("--%s: exit %d, %q; want exit 1 naming the file and the flag", flag, r.code, r.stderr)
+		}
 	}
 }
 

@@ -337,7 +337,7 @@ func applyKnownSpectra(r *Result, opt *mcr.Options) error {
 		}
 		sp, err := spectra.ReadSpectrum(s.Path(file))
 		if err != nil {
-			return err
+			return readFault("known-spectrum", err)
 		}
 		vals, err := spectra.OnAxis(sp, r.Axis, r.Experiments[0].Source, true)
 		if err != nil {

@@ -948,7 +948,7 @@ func fixedSpectra(s *Settings, first *spectra.Series, axis []float64, chans []in
 			if read[b] == nil {
 				bs, err := spectra.ReadSpectrum(s.Path(b))
 				if err != nil {
-					return nil, nil, err
+					return nil, nil, readFault("blank", err)
 				}
 				if read[b], err = axisValues(bs, first, axis, chans, s.Resample); err != nil {
 					return nil, nil, err
@@ -961,7 +961,7 @@ func fixedSpectra(s *Settings, first *spectra.Series, axis []float64, chans []in
 	if refFile != "" {
 		rs, err := spectra.ReadSpectrum(s.Path(refFile))
 		if err != nil {
-			return nil, nil, err
+			return nil, nil, readFault("reference", err)
 		}
 		v, err := axisValues(rs, first, axis, chans, s.Resample)
 		if err != nil {
@@ -1590,7 +1590,7 @@ func addEFAWindows(r *Result, opt *mcr.Options) error {
 func readProfiles(path string, times []float64, k int) (*mat.Dense, error) {
 	p, err := spectra.ReadProfiles(path)
 	if err != nil {
-		return nil, err
+		return nil, readFault("init", err)
 	}
 	if len(p.Names) != k {
 		return nil, usage("--init %s: has %d profile columns, %d components are being resolved; give --components %d or one column per component", path, len(p.Names), k, len(p.Names))

@@ -459,7 +459,7 @@ func readLineSpectra(r *Result, first *spectra.Series, axis []float64, chans []i
 	for _, f := range s.Vapour {
 		sp, err := spectra.ReadSpectrum(s.Path(f))
 		if err != nil {
-			return err
+			return readFault("vapour", err)
 		}
 		v, err := axisValues(sp, first, axis, chans, s.Resample)
 		if err != nil {
