@@ -116,6 +116,14 @@ func TestRunFlagsRefused(t *testing.T) {
 		{"--jobs two", "give a whole number"},
 		{"--shard 4/4", "I counts from 0"},
 		{"--shard 1", "give I/N"},
+		// run's own flags are suggested for a slip, a swap of two letters
+		// counting as one edit (docs/command-files.md: "edit distance with
+		// swapped letters counting once"; Damerau 1964).
+		{"--shadr 1/2", "unknown flag: --shadr (did you mean --shard?)"},
+		{"--shar 1/2", "unknown flag: --shar (did you mean --shard?)"},
+		{"--jbos 2", "unknown flag: --jbos (did you mean --jobs?)"},
+		{"--skip-dnoe", "unknown flag: --skip-dnoe (did you mean --skip-done?)"},
+		{"--blnak b.csv", "unknown flag: --blnak (did you mean --blank?)"},
 	} {
 		r := run(append([]string{"run", "x.bsr"}, strings.Fields(c.args)...)...)
 		if r.code != exitUsage || !strings.Contains(r.stderr, c.want) || strings.Count(r.stderr, "\n") != 1 {

@@ -229,7 +229,7 @@ func parse(fs *pflag.FlagSet, args []string, help string, st pipeline.Streams) (
 		}
 		if strings.HasPrefix(msg, "unknown flag: --") {
 			name := strings.TrimPrefix(msg, "unknown flag: --")
-			if s := pipeline.Suggest(name); s != "" {
+			if s := pipeline.Suggest(name, flagNames(fs)...); s != "" {
 				msg += fmt.Sprintf(" (did you mean --%s?)", s)
 			}
 		}
@@ -237,6 +237,19 @@ func parse(fs *pflag.FlagSet, args []string, help string, st pipeline.Streams) (
 		return false, exitUsage
 	}
 	return true, 0
+}
+
+// flagNames are the command's own flags beside the analysis options
+// (run's --shard, --jobs, --skip-done), for the suggestion of a misspelt
+// one; hidden old names are left out.
+func flagNames(fs *pflag.FlagSet) []string {
+	var names []string
+	fs.VisitAll(func(f *pflag.Flag) {
+		if !f.Hidden {
+			names = append(names, f.Name)
+		}
+	})
+	return names
 }
 
 func runResolve(args []string, st pipeline.Streams) int {

@@ -615,7 +615,7 @@ func Nearest(word string, keys []Keyword) string {
 	best, bestD := "", 1<<30
 	cands := append([]string{PathsFrom}, names(keys)...)
 	for _, c := range cands {
-		d := distance(w, c)
+		d := Distance(w, c)
 		if strings.HasPrefix(c, w) && len(w) >= 3 {
 			d = min(d, 1)
 		}
@@ -638,10 +638,10 @@ func names(keys []Keyword) []string {
 	return out
 }
 
-// distance is the Levenshtein edit distance (Levenshtein 1966) with
-// transpositions counted as one edit (Damerau 1964), since swapped letters
-// are the commonest typing slip.
-func distance(a, b string) int {
+// Distance is the Levenshtein edit distance (Levenshtein 1966) with
+// transpositions of adjacent letters counted as one edit (Damerau 1964),
+// since swapped letters are the commonest typing slip.
+func Distance(a, b string) int {
 	ra, rb := []rune(a), []rune(b)
 	d := make([][]int, len(ra)+1)
 	for i := range d {

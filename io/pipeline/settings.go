@@ -12,6 +12,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/bandsolve/bandsolve/io/cmdfile"
 	"github.com/bandsolve/bandsolve/io/spectra"
 )
 
@@ -183,39 +184,27 @@ func suggest(name string) string {
 	return ""
 }
 
-// Suggest returns the nearest option name to a misspelt one, "" if none is close.
-func Suggest(name string) string {
+// Suggest returns the option name nearest to a misspelt one, or of a
+// command's own flags given in extra (run's --shard, --jobs, --skip-done),
+// "" if none is close. Swapped letters count as one edit (cmdfile.Distance),
+// as for a command file's keywords (docs/command-files.md).
+func Suggest(name string, extra ...string) string {
 	if len(name) > 64 {
 		return "" // nothing is near it, and the distance costs its length
 	}
 	best, bestD := "", 4
-	for _, o := range options {
-		if d := editDistance(name, o.Name); d < bestD {
-			best, bestD = o.Name, d
+	try := func(c string) {
+		if d := cmdfile.Distance(name, c); d < bestD {
+			best, bestD = c, d
 		}
+	}
+	for _, o := range options {
+		try(o.Name)
+	}
+	for _, c := range extra {
+		try(c)
 	}
 	return best
-}
-
-func editDistance(a, b string) int {
-	ra, rb := []rune(a), []rune(b)
-	prev := make([]int, len(rb)+1)
-	cur := make([]int, len(rb)+1)
-	for j := range prev {
-		prev[j] = j
-	}
-	for i := 1; i <= len(ra); i++ {
-		cur[0] = i
-		for j := 1; j <= len(rb); j++ {
-			c := 1
-			if ra[i-1] == rb[j-1] {
-				c = 0
-			}
-			cur[j] = min(prev[j]+1, cur[j-1]+1, prev[j-1]+c)
-		}
-		prev, cur = cur, prev
-	}
-	return prev[len(rb)]
 }
 
 func str(f func(s *Settings) *string) (func(*Settings, string) error, func(*Settings) []string) {
