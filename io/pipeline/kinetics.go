@@ -404,9 +404,10 @@ func newKinetics(r *Result, c *mat.Dense) (*Kinetics, error) {
 	}
 	s, sch := r.Settings, kn.Scheme
 	_, k := c.Dims()
-	nModel, what := len(sch.Species), "species"
+	// one names a single one: "species" is its own singular.
+	nModel, what, one := len(sch.Species), "species", "species"
 	if kn.Extents {
-		nModel, what = len(sch.Steps), "steps"
+		nModel, what, one = len(sch.Steps), "steps", "step"
 	}
 	if s.Map != "" {
 		pairs, err := parseAssignments("map", s.Map, "A=1,B=2")
@@ -434,10 +435,10 @@ func newKinetics(r *Result, c *mat.Dense) (*Kinetics, error) {
 				return nil, usage("--map %s=%s: component %s does not exist; the resolution has %d component(s), numbered 1..%d as in profiles.csv", p.key, p.value, p.value, k, k)
 			}
 			if prev, ok := usedComp[n-1]; ok {
-				return nil, usage("--map: component %d is given to both %s and %s; each component is one %s", n, prev, p.key, strings.TrimSuffix(what, "s"))
+				return nil, usage("--map: component %d is given to both %s and %s; each component is one %s", n, prev, p.key, one)
 			}
 			if prev, ok := usedCol[col]; ok {
-				return nil, usage("--map: %s and %s name the same %s", prev, p.key, strings.TrimSuffix(what, "s"))
+				return nil, usage("--map: %s and %s name the same %s", prev, p.key, one)
 			}
 			usedComp[n-1], usedCol[col] = p.key, p.key
 			kn.Components = append(kn.Components, n-1)

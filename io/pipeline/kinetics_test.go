@@ -452,7 +452,10 @@ func TestKineticsUsageErrors(t *testing.T) {
 	r.Settings = &s
 	for _, c := range []struct{ m, wants string }{
 		{"A=1,B=4", "component 4 does not exist; the resolution has 3 component(s)"},
-		{"A=1,B=1", "component 1 is given to both A and B"},
+		// "species" is its own singular (any English dictionary; from
+		// memory), never "specie".
+		{"A=1,B=1", "component 1 is given to both A and B; each component is one species"},
+		{"A=1,A=2", "A and A name the same species"},
 	} {
 		s.Map = c.m
 		_, err := newKinetics(&r, r.ALS.C)
