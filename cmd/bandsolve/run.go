@@ -66,7 +66,8 @@ end lists each outcome, and the exit status is non-zero if any failed. With
 DIR/NAME (NAME = the file's name without .bsr), however many the pattern
 matches; one file named alone writes into DIR. Without --out, results go to
 the file's 'out' setting, else to NAME-results beside the file. In a file,
-'out' must name a folder inside the file's folder.
+'out' must name a folder inside the file's folder. A record rerun
+(OUT/as-run.bsr) needs --out.
 
 Example:
 
@@ -444,6 +445,11 @@ func laySettings(file string, s *pipeline.Settings, flags *pipeline.Settings, ch
 	}
 	fileDir := filepath.Dir(file)
 	stem := strings.TrimSuffix(filepath.Base(file), filepath.Ext(file))
+	if !changed["out"] {
+		if err := pipeline.RerunNeedsOut(file); err != nil {
+			return nil, err
+		}
+	}
 	switch {
 	case changed["out"] && batch:
 		name := stem

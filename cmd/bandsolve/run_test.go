@@ -118,6 +118,34 @@ func TestRunCommandFileErrors(t *testing.T) {
 	}
 }
 
+// A record rerun without --out is refused in one line saying to give
+// --out: its default folder, NAME-results beside the file, lies inside the
+// results it records, which --force then refuses to replace
+// (docs/reproducibility.md reruns a record with --out: "bandsolve run
+// demo-results/as-run.bsr --out again"). Nothing is written.
+func TestRunRecordWithoutOutRefused(t *testing.T) {
+	root := t.TempDir()
+	writeDemoInputs(t, filepath.Join(root, "data"))
+	file := filepath.Join(root, "exp", "exp1.bsr")
+	writeText(t, file, "paths-from ../data\ndata series.csv\nblank blank.csv\n"+quickSettings+"checks off\n")
+	out := filepath.Join(root, "first")
+	if r := run("run", file, "--out", out, "--quiet"); r.code != 0 {
+		t.Fatalf("exit %d: %s", r.code, r.stderr)
+	}
+	before, _ := os.ReadDir(out)
+	record := filepath.Join(out, pipeline.RecordName)
+	r := run("run", record, "--quiet")
+	if r.code != exitUsage || !strings.Contains(r.stderr, "give --out for the rerun") || strings.Count(r.stderr, "\n") != 1 {
+		t.Errorf("exit %d, %q; want exit 2 and one line saying to give --out", r.code, r.stderr)
+	}
+	if after, _ := os.ReadDir(out); len(after) != len(before) {
+		t.Errorf("the refused rerun changed the results folder: %d entries, were %d", len(after), len(before))
+	}
+	if r := run("run", record, "--out", filepath.Join(root, "again"), "--quiet"); r.code != 0 {
+		t.Errorf("with --out: exit %d: %s", r.code, r.stderr)
+	}
+}
+
 // --out on the command line overrides a file's out line that breaks the
 // output rule: docs/command-files.md, "bandsolve run exp1.bsr --components 2
 // --out trial/     # flags override the file" and "The command line is not

@@ -871,3 +871,17 @@ func parseManifest(name string, b []byte) (*Manifest, error) {
 	}
 	return &m, nil
 }
+
+// RerunNeedsOut refuses a command file that lies in an output folder of
+// bandsolve (its as-run record, most often) run without --out: its results
+// would go inside the results it came from (NAME-results beside the file,
+// or the file's out line), two runs in one folder that a later --force will
+// not replace. docs/reproducibility.md reruns a record with --out.
+func RerunNeedsOut(file string) error {
+	dir := filepath.Dir(file)
+	if !output.Made(dir) {
+		return nil
+	}
+	return usage("%s lies in the output folder %s, and its results would be written inside those results; give --out for the rerun, e.g. bandsolve run %s --out %s",
+		file, dir, file, filepath.Clean(dir)+"-rerun")
+}
