@@ -537,27 +537,67 @@ func fitsDisagree(kn *Kinetics, p, d *kinetics.FitResult) []string {
 		if (j < len(fixed) && fixed[j]) || !(p.K[j] > 0 && d.K[j] > 0) {
 			continue // held fixed, or not a rate
 		}
-		se := math.Hypot(p.KStdErr[j], d.KStdErr[j])
-		known := se > 0 && !math.IsNaN(se) && !math.IsInf(se, 0) && !notDetermined(p, j) && !notDetermined(d, j)
-		ratio := math.Max(p.K[j]/d.K[j], d.K[j]/p.K[j])
-		apart := known && math.Abs(p.K[j]-d.K[j]) > 3*se && ratio > 1.25
-		if !apart && ratio <= 10 {
-			continue
+		if notDetermined(p, j) || notDetermined(d, j) {
+			continue // a value the data do not fix: its sum is compared below
 		}
 		name, unit := fmt.Sprintf("k%d", j+1), ""
 		if j < len(sch.Steps) {
 			name, unit = fmt.Sprintf("k%d (%s)", j+1, sch.Steps[j].Text), " "+kn.rateUnit(sch.Steps[j].Order)
 		}
-		gap := "their standard errors unknown"
-		if known {
-			gap = fmt.Sprintf("%.3g combined standard errors apart", math.Abs(p.K[j]-d.K[j])/se)
+		if part, ok := rateGap(name, unit, p.K[j], d.K[j], p.KStdErr[j], d.KStdErr[j]); ok {
+			parts = append(parts, part)
 		}
-		parts = append(parts, fmt.Sprintf("%s %.4g%s against %.4g%s, a factor %.3g and %s", name, p.K[j], unit, d.K[j], unit, ratio, gap))
+	}
+	if sum := determinedSum(d); sum != "" && slices.Equal(p.SumSteps, d.SumSteps) && p.SumK > 0 && d.SumK > 0 {
+		unit := " " + kn.rateUnit(sch.Steps[d.SumSteps[0]].Order)
+		if part, ok := rateGap(sum, unit, p.SumK, d.SumK, p.SumKStdErr, d.SumKStdErr); ok {
+			parts = append(parts, part)
+		}
 	}
 	if len(parts) == 0 {
 		return nil
 	}
 	return []string{fmt.Sprintf("its rate constants differ from the data fit's: %s. The resolved profiles do not follow the model the way the data do (rotational ambiguity, or profiles that do not start where the model does: --c0, --fit-c0), so this fit is not a second measurement of them; quote the data fit", strings.Join(parts, "; "))}
+}
+
+// rateGap words how a profile fit's constant (or determined sum) p and the
+// data fit's d differ when they differ as fitsDisagree counts it (ok false
+// otherwise); sp and sd are their standard errors.
+func rateGap(name, unit string, p, d, sp, sd float64) (string, bool) {
+	se := math.Hypot(sp, sd)
+	known := se > 0 && !math.IsNaN(se) && !math.IsInf(se, 0)
+	ratio := math.Max(p/d, d/p)
+	apart := known && math.Abs(p-d) > 3*se && ratio > 1.25
+	if !apart && ratio <= 10 {
+		return "", false
+	}
+	gap := "their standard errors unknown"
+	if known {
+		gap = fmt.Sprintf("%.3g combined standard errors apart", math.Abs(p-d)/se)
+	}
+	return fmt.Sprintf("%s %.4g%s against %.4g%s, a factor %.3g and %s", name, p, unit, d, unit, ratio, gap), true
+}
+
+// inheritNotDetermined marks the constants of the profile fit p that the
+// data fit d finds not determined as not determined too, with d's sum when
+// d has one (kinetics.FitResult.InheritNotDetermined), and returns the
+// warning that says so ("" when nothing was marked). The data hold what the
+// profiles hold and more: what they leave free, the profiles' values of it
+// come from the resolution's rotational ambiguity, not from the chemistry.
+func (kn *Kinetics) inheritNotDetermined(p, d *kinetics.FitResult) string {
+	steps := p.InheritNotDetermined(d)
+	if len(steps) == 0 {
+		return ""
+	}
+	var parts []string
+	for _, j := range steps {
+		parts = append(parts, fmt.Sprintf("k%d (%s, this fit ended at %.4g %s)", j+1, kn.Scheme.Steps[j].Text, p.K[j], kn.rateUnit(kn.Scheme.Steps[j].Order)))
+	}
+	w := fmt.Sprintf("the data fit finds %s not determined by the data, so the resolved profiles cannot determine them either (their values here come from how the resolution rotated the profiles): reported as not determined, with no standard error", strings.Join(parts, " and "))
+	if sum := determinedSum(p); sum != "" {
+		w += fmt.Sprintf("; only their sum is determined: %s = %.4g ± %.2g %s (the data fit's: %.4g ± %.2g)", sum, p.SumK, p.SumKStdErr, kn.rateUnit(kn.Scheme.Steps[p.SumSteps[0]].Order), d.SumK, d.SumKStdErr)
+	}
+	return w
 }
 
 // tryC0 compares the profile fits with the default initial concentrations
@@ -1174,7 +1214,11 @@ func fitKinetics(r *Result, log io.Writer) error {
 		if f.Observed != nil {
 			f.Fit.Warnings = append(f.Fit.Warnings, profileFitWarnings(f, s.HardModel, dataFit)...)
 			if dataFit {
-				f.Fit.Warnings = append(f.Fit.Warnings, fitsDisagree(kn, f.Fit, kn.Fits[len(kn.Fits)-1].Fit)...)
+				d := kn.Fits[len(kn.Fits)-1].Fit
+				if w := kn.inheritNotDetermined(f.Fit, d); w != "" {
+					f.Fit.Warnings = append(f.Fit.Warnings, w)
+				}
+				f.Fit.Warnings = append(f.Fit.Warnings, fitsDisagree(kn, f.Fit, d)...)
 			}
 		}
 	}

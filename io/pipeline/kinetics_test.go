@@ -650,3 +650,37 @@ func TestFitsDisagree(t *testing.T) {
 		t.Errorf("2 A -> B: %q; want %q", w, want)
 	}
 }
+
+// TestFitsDisagreeOnDeterminedSum: for A -> B, B -> A with free spectra the
+// data fix k1 + k2 alone (reversible first-order solution, [A] − [A]∞ ∝
+// e^{−(k1+k2)t}; common practice), so the comparison is of the sums: a
+// profile fit whose terms split the same sum otherwise (2.2e-6 against
+// 1e-3, a factor 450) agrees, and one whose sum is 40 % off does not. The
+// old rule compared the undetermined terms and missed the sum.
+func TestFitsDisagreeOnDeterminedSum(t *testing.T) {
+	sch, err := kinetics.ParseScheme("A -> B; B -> A")
+	if err != nil {
+		t.Fatal(err)
+	}
+	data := &kinetics.FitResult{K: []float64{2e-3, 1e-3}, KStdErr: []float64{0, 0}, KNotDetermined: []bool{true, true},
+		SumSteps: []int{0, 1}, SumK: 3e-3, SumKStdErr: 1e-6}
+	prof := func(k1, k2 float64) *kinetics.FitResult {
+		return &kinetics.FitResult{K: []float64{k1, k2}, KStdErr: []float64{1e-6, 2e-7}, Corr: mat.NewDense(2, 2, []float64{1, 0.5, 0.5, 1})}
+	}
+	kn := &Kinetics{Scheme: sch, UnitName: "closure total"}
+	same := prof(2.9978e-3, 2.2e-6)
+	kn.inheritNotDetermined(same, data)
+	if w := fitsDisagree(kn, same, data); w != nil {
+		t.Errorf("the same sum split otherwise: %q", w)
+	}
+	// The sum's error, √(se1² + se2² + 2 r se1 se2) (variance of a sum;
+	// definition) = √(1e-12 + 4e-14 + 2e-13).
+	if want := math.Sqrt(1e-12 + 4e-14 + 2*0.5*1e-6*2e-7); math.Abs(same.SumKStdErr-want) > 1e-12*want || same.KStdErr[0] != 0 || same.Corr.At(0, 1) != 0 {
+		t.Errorf("inherited: sum ± %.6g (want %.6g), k1 ± %g, r12 %g", same.SumKStdErr, want, same.KStdErr[0], same.Corr.At(0, 1))
+	}
+	off := prof(4.2e-3, 2.2e-6)
+	kn.inheritNotDetermined(off, data)
+	if w := strings.Join(fitsDisagree(kn, off, data), "\n"); !strings.Contains(w, "k1 + k2 0.004202 s^-1 against 0.003 s^-1, a factor 1.4") || strings.Contains(w, "k2 (") {
+		t.Errorf("a sum 40 %% off: %q", w)
+	}
+}

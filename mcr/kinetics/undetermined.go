@@ -237,3 +237,60 @@ func (p *fitProblem) undeterminedWarning(lm *LMResult, res *FitResult) {
 	}
 	res.Warnings = append(res.Warnings, w)
 }
+
+// InheritNotDetermined marks as not determined the free rate constants of
+// res that other, a fit of the same scheme to more of the data (the data
+// matrix, where res fitted resolved profiles), found not determined, and
+// gives their sum with other's steps when other has one. Profiles carry
+// their rotational ambiguity: for A -> B, B -> A with free spectra the data
+// fix k1 + k2 alone (the columns span {1, e^{−(k1+k2)t}}, the reversible
+// first-order solution; common practice), and a profile fit that splits
+// the sum only reports how the resolution happened to rotate the profiles,
+// with standard errors that know nothing of it. The sum's error is
+// √(Σ_ab se_a se_b r_ab) from res's own errors and correlations, taken
+// before they are cleared. It returns the steps newly marked (nil: none).
+func (res *FitResult) InheritNotDetermined(other *FitResult) []int {
+	if res == nil || other == nil || other.KNotDetermined == nil || len(other.KNotDetermined) != len(res.K) {
+		return nil
+	}
+	var steps []int
+	for j, nd := range other.KNotDetermined {
+		if nd && (res.KNotDetermined == nil || !res.KNotDetermined[j]) {
+			steps = append(steps, j)
+		}
+	}
+	if len(steps) == 0 {
+		return nil
+	}
+	if other.SumSteps != nil && res.SumSteps == nil {
+		sum, v := 0.0, 0.0
+		for _, a := range other.SumSteps {
+			sum += res.K[a]
+			for _, b := range other.SumSteps {
+				r := 1.0
+				if a != b && res.Corr != nil {
+					r = res.Corr.At(a, b)
+				}
+				v += res.KStdErr[a] * res.KStdErr[b] * r
+			}
+		}
+		res.SumSteps = append([]int(nil), other.SumSteps...)
+		res.SumK, res.SumKStdErr = sum, math.Sqrt(math.Max(v, 0))
+	}
+	if res.KNotDetermined == nil {
+		res.KNotDetermined = make([]bool, len(res.K))
+	}
+	for _, j := range steps {
+		res.KNotDetermined[j], res.KStdErr[j] = true, 0
+		if res.Corr == nil {
+			continue
+		}
+		for l := range res.K {
+			if l != j {
+				res.Corr.Set(j, l, 0)
+				res.Corr.Set(l, j, 0)
+			}
+		}
+	}
+	return steps
+}
