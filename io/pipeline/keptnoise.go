@@ -41,8 +41,35 @@ func rememberAside(r *Result) {
 // noiseOfAll is the noise measured on every spectrum: the weights and each
 // experiment's estimate.
 type noiseOfAll struct {
-	w     *spectra.Weights
-	noise []spectra.Noise
+	w      *spectra.Weights
+	noise  []spectra.Noise
+	source string // r.NoiseSource as it was
+	notes  []string
+}
+
+// restoreNoise puts back the noise measured on every spectrum, for a
+// resolution made again from the start (promoteMinor: the rows set aside
+// are put back too, and the screen runs again). Left as measured without
+// spectra no longer set aside, the weights were those of a screen that no
+// longer holds: a series whose first five spectra (its three pre-reaction
+// repeats among them) were set aside by a fit one species short kept the
+// noise measured without them in the fit with that species, which set
+// nothing aside.
+func restoreNoise(r *Result) {
+	b := r.noiseBase
+	if b == nil {
+		return
+	}
+	now := spectrumNoiseNotes(r)
+	r.Weights = &spectra.Weights{Row: slices.Clone(b.w.Row), Col: slices.Clone(b.w.Col)}
+	for e, ex := range r.Experiments {
+		ex.Assembled.Noise = b.noise[e]
+	}
+	replaceNotes(r, now, b.notes)
+	noiseOf(r)
+	r.NoiseSource = b.source
+	r.noiseBase = nil
+	r.ahead.aheadSingular(r)
 }
 
 // keptNoise measures the noise again without the spectra set aside and
@@ -60,15 +87,15 @@ func keptNoise(r *Result, log io.Writer) bool {
 			return false // no estimate to measure again
 		}
 	}
+	notes := spectrumNoiseNotes(r)
 	if r.noiseBase == nil {
-		r.noiseBase = &noiseOfAll{w: &spectra.Weights{Row: slices.Clone(r.Weights.Row), Col: slices.Clone(r.Weights.Col)}}
+		r.noiseBase = &noiseOfAll{w: &spectra.Weights{Row: slices.Clone(r.Weights.Row), Col: slices.Clone(r.Weights.Col)}, source: r.NoiseSource, notes: notes}
 		for _, ex := range r.Experiments {
 			r.noiseBase.noise = append(r.noiseBase.noise, ex.Assembled.Noise)
 		}
 	}
 	_, m := r.D.Dims()
 	logs := make([][]float64, len(r.Experiments)) // per experiment, 2 log(σ_all/σ_kept); nil: none aside
-	notes := spectrumNoiseNotes(r)
 	for e, ex := range r.Experiments {
 		if untouched(r, ex, r.noiseBase.noise[e]) {
 			continue
@@ -128,7 +155,7 @@ func experimentNoiseRatio(r *Result, ex *Experiment, m int) []float64 {
 			rows = append(rows, i)
 		}
 	}
-	if len(rows) == 0 {
+	if len(rows) == 0 || !preStepsLeft(r.Settings.Pre, ex.Rows, rows) {
 		return nil
 	}
 	slices.Sort(rows)
@@ -152,6 +179,27 @@ func experimentNoiseRatio(r *Result, ex *Experiment, m int) []float64 {
 		}
 	}
 	return out
+}
+
+// preStepsLeft says whether the noise measured from the steps between the
+// pre-reaction repeats (--pre N ≥ 2: the level of it, from single beams
+// the whole of it) can be measured again with the rows aside left out: at
+// least two repeats not aside, one step. With none left the estimator has
+// no difference to take and returns its floor, the rounding step over √12:
+// a series whose three repeats were all set aside read σ 3.3·10⁻⁸ for
+// 8.8·10⁻⁴ and a fit 8·10⁴ times the noise. The noise is then the one
+// measured with them.
+func preStepsLeft(pre, rows int, aside []int) bool {
+	if pre < 2 {
+		return true
+	}
+	left := min(pre, rows)
+	for _, i := range aside {
+		if i < min(pre, rows) {
+			left--
+		}
+	}
+	return left >= 2
 }
 
 // replaceNotes puts each of now in place of the note in r.Notes equal to

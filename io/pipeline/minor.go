@@ -204,6 +204,7 @@ func promoteMinor(r *Result, st *minorState) bool {
 		r.Components++
 		st.restore(r.D)
 		r.SetAside = r.SetAside[:st.setAside]
+		restoreNoise(r)
 		r.EFA, r.Compressed = nil, false
 		r.Notes = append(r.Notes, fmt.Sprintf("factor %d, first set aside as minor by its size, is counted as a species: %s; resolved again with %d components (--components N overrides)", v.Factor, v.Test.Verdict, r.Components))
 		return true
