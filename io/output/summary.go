@@ -321,6 +321,16 @@ type OneLevelRate struct {
 	PValue    float64 `json:"p_value"`
 	Hausman   bool    `json:"hausman"`
 	NotTested bool    `json:"not_tested,omitempty"`
+	// LogRatioStdErr, of a step, is the standard error of
+	// ln(k_one_level/k_each_weighted) measured directly from both fits
+	// (z is that log ratio over it); DifferenceStdErr, of a determined
+	// sum, that of the sums' difference. 0 when the test fell back to
+	// the variances measured apart.
+	LogRatioStdErr   float64 `json:"stderr_of_log_ratio,omitempty"`
+	DifferenceStdErr float64 `json:"stderr_of_difference_per_s,omitempty"`
+	// DegreesOfFreedom are those of that standard error's estimate
+	// (Satterthwaite's), of the Student t p_value is taken from.
+	DegreesOfFreedom float64 `json:"degrees_of_freedom,omitempty"`
 }
 
 // ConstraintJSON is one constraint check in summary.json.

@@ -101,6 +101,10 @@ type FitResult struct {
 	// sumGrad is ∂(Σ k)/∂θ over the fit's parameters (ln k, ln c0), the
 	// direction the widenings of SumKStdErr are taken along.
 	sumGrad []float64
+	// influence is each spectrum's influence on the parameters (the
+	// sandwich's, robustErrors), for DifferenceErrors; nil when the
+	// sandwich was not formed.
+	influence *influence
 	// sumSandwich: SumKStdErr is the sandwich estimate (robustErrors),
 	// sumRatio times the noise-based one.
 	sumSandwich bool

@@ -25,9 +25,17 @@ import (
 // (the free parameters and the linear ones per column). The pseudo-inverse drops singular
 // values below 1e-12 of the largest, as Covariance does. It returns the covariance, G and L.
 func ClusterCovariance(j *mat.Dense, r []float64, rows, used int) (cov *mat.Dense, clusters, lags int, err error) {
+	cov, _, clusters, lags, err = clusterCovariance(j, r, rows, used)
+	return cov, clusters, lags, err
+}
+
+// clusterCovariance is ClusterCovariance, with each spectrum's influence on
+// the parameters besides, h_i = B g_i (n × np): to first order what leaving
+// spectrum i out would change them by, less sign (the jackknife's term).
+func clusterCovariance(j *mat.Dense, r []float64, rows, used int) (cov, influence *mat.Dense, clusters, lags int, err error) {
 	nr, np := j.Dims()
 	if rows <= 0 || nr != len(r) || nr%rows != 0 {
-		return nil, 0, 0, fmt.Errorf("kinetics: cluster covariance: %d residuals, %d Jacobian rows, clusters of %d", len(r), nr, rows)
+		return nil, nil, 0, 0, fmt.Errorf("kinetics: cluster covariance: %d residuals, %d Jacobian rows, clusters of %d", len(r), nr, rows)
 	}
 	n := nr / rows
 	g := mat.NewDense(n, np, nil)
@@ -46,32 +54,48 @@ func ClusterCovariance(j *mat.Dense, r []float64, rows, used int) (cov *mat.Dens
 		}
 	}
 	if clusters <= used {
-		return nil, clusters, 0, errors.New("kinetics: cluster covariance: no more spectra than parameters")
+		return nil, nil, clusters, 0, errors.New("kinetics: cluster covariance: no more spectra than parameters")
 	}
-	lags = int(math.Floor(4 * math.Pow(float64(clusters)/100, 2.0/9)))
-	lags = min(lags, n-1)
-	mid := mat.NewDense(np, np, nil)
-	mid.Mul(g.T(), g)
-	for l := 1; l <= lags; l++ {
-		w := 1 - float64(l)/float64(lags+1)
-		var cross mat.Dense
-		cross.Mul(g.Slice(l, n, 0, np).T(), g.Slice(0, n-l, 0, np))
-		for a := 0; a < np; a++ {
-			for b := 0; b < np; b++ {
-				mid.Set(a, b, mid.At(a, b)+w*(cross.At(a, b)+cross.At(b, a)))
-			}
-		}
-	}
+	lags = neweyWestLags(clusters, n)
 	bread, _, err := Covariance(j, 1)
 	if err != nil {
-		return nil, clusters, lags, err
+		return nil, nil, clusters, lags, err
 	}
 	var bm mat.Dense
-	bm.Mul(bread, mid)
+	bm.Mul(bread, lagSummed(g, lags))
 	cov = mat.NewDense(np, np, nil)
 	cov.Mul(&bm, bread)
 	cov.Scale(float64(clusters)/float64(clusters-used), cov)
-	return cov, clusters, lags, nil
+	influence = mat.NewDense(n, np, nil)
+	influence.Mul(g, bread) // B symmetric: row i is (B g_i)ᵀ
+	return cov, influence, clusters, lags, nil
+}
+
+// neweyWestLags is L = ⌊4 (G/100)^{2/9}⌋ for G clusters (Newey & West,
+// Review of Economic Studies 1994), at most n − 1.
+func neweyWestLags(clusters, n int) int {
+	return min(int(math.Floor(4*math.Pow(float64(clusters)/100, 2.0/9))), n-1)
+}
+
+// lagSummed is Σ_i h_i h_iᵀ + Σ_{l=1…L} (1 − l/(L+1)) Σ_i (h_i h_{i−l}ᵀ + h_{i−l} h_iᵀ)
+// over the rows h_i of h (n × np): the middle of the sandwich with the
+// Bartlett weights, of the scores g_i, or of the influences B g_i (then
+// B M B itself).
+func lagSummed(h *mat.Dense, lags int) *mat.Dense {
+	n, np := h.Dims()
+	out := mat.NewDense(np, np, nil)
+	out.Mul(h.T(), h)
+	for l := 1; l <= lags; l++ {
+		w := 1 - float64(l)/float64(lags+1)
+		var cross mat.Dense
+		cross.Mul(h.Slice(l, n, 0, np).T(), h.Slice(0, n-l, 0, np))
+		for a := 0; a < np; a++ {
+			for b := 0; b < np; b++ {
+				out.Set(a, b, out.At(a, b)+w*(cross.At(a, b)+cross.At(b, a)))
+			}
+		}
+	}
+	return out
 }
 
 // robustErrors widens each standard error of a data fit to the one ClusterCovariance gives
@@ -92,10 +116,11 @@ func (p *fitProblem) robustErrors(lm *LMResult, res *FitResult, rows, linear int
 	if lm.Jacobian == nil || p.nParams() == 0 {
 		return replaced
 	}
-	cov, g, lags, err := ClusterCovariance(lm.Jacobian, lm.Residual, rows, p.nParams()+linear)
+	cov, infl, g, lags, err := clusterCovariance(lm.Jacobian, lm.Residual, rows, p.nParams()+linear)
 	if err != nil {
 		return replaced
 	}
+	res.influence = &influence{h: infl, used: p.nParams() + linear, kFree: append([]int(nil), p.kFree...)}
 	res.NoiseKStdErr = append([]float64(nil), res.KStdErr...)
 	worst, at := 1.0, -1
 	for a, j := range p.kFree {
