@@ -113,7 +113,9 @@ func TestRunParallelSameFolder(t *testing.T) {
 func TestRunFlagsRefused(t *testing.T) {
 	for _, c := range []struct{ args, want string }{
 		{"-j 0", "-j \"0\": give a whole number"},
-		{"--jobs two", "give a whole number"},
+		// The flag as the user wrote it, long or short.
+		{"--jobs two", "--jobs \"two\": give a whole number"},
+		{"--jobs=two", "--jobs \"two\": give a whole number"},
 		{"--shard 4/4", "I counts from 0"},
 		{"--shard 1", "give I/N"},
 		// run's own flags are suggested for a slip, a swap of two letters

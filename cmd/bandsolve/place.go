@@ -53,10 +53,40 @@ func placeFault(p *prepared, err error) error {
 		if col == 0 {
 			col = e.Col
 		}
-		text := replaceFlag(msg, name, e.Key) + relativePathHint(p.s, name, e.Key, e.Value)
+		text := fileWords(p, replaceFlag(msg, name, e.Key)) + relativePathHint(p.s, name, e.Key, e.Value)
 		return &placedError{msg: fmt.Sprintf("%s:%d:%d: %s", p.cf.Name, e.Line, col, text), err: err}
 	}
 	return err
+}
+
+// shownOnly are the options that choose where and how results are shown:
+// advice to give one ("give --force to replace them") is advice for the
+// command line, unless the file itself sets it.
+var shownOnly = map[string]bool{"out": true, "force": true, "quiet": true, "json": true}
+
+// fileWords writes every other option a placed fault names as the file
+// writes it, so one message does not mix keywords and flags ("times and
+// times-from-name both give the times"): as its keyword when the file sets
+// it, as the plain keyword when neither file nor command line does; a flag
+// the command line set stays a flag.
+func fileWords(p *prepared, msg string) string {
+	seen := map[string]bool{}
+	for _, m := range flagInMessage.FindAllStringSubmatch(msg, -1) {
+		name := m[1]
+		o, ok := pipeline.Lookup(name)
+		if seen[name] || !ok || o.Name != name || p.changed[name] {
+			continue
+		}
+		seen[name] = true
+		keyword := name
+		if e, set := entryFor(p.cf, name, msg, p.s); set {
+			keyword = e.Key
+		} else if shownOnly[name] {
+			continue
+		}
+		msg = replaceFlag(msg, name, keyword)
+	}
+	return msg
 }
 
 // entryFor is the file's line for option name: of a repeated keyword, the

@@ -131,7 +131,7 @@ func runRun(args []string, st pipeline.Streams) int {
 		fmt.Fprintf(st.Err, "bandsolve run: give one or more command files, e.g. bandsolve run exp1.bsr; see bandsolve run --help\n")
 		return exitUsage
 	}
-	workers, shard, err := batchShape(fs, *jobsText, *shardText)
+	workers, shard, err := batchShape(fs, writtenAs(args, "jobs", "j"), *jobsText, *shardText)
 	if err != nil {
 		fmt.Fprintf(st.Err, "bandsolve run: %v\n", err)
 		return exitUsage
@@ -176,13 +176,14 @@ func runRun(args []string, st pipeline.Streams) int {
 	return exitOK
 }
 
-// batchShape reads -j (default: the number of cores) and --shard.
-func batchShape(fs *pflag.FlagSet, jobsText, shardText string) (workers int, shard campaign.Shard, err error) {
+// batchShape reads -j (default: the number of cores) and --shard; jobsFlag
+// is -j or --jobs, as the user wrote it, for the message.
+func batchShape(fs *pflag.FlagSet, jobsFlag, jobsText, shardText string) (workers int, shard campaign.Shard, err error) {
 	workers, shard = runtime.NumCPU(), campaign.All
 	if fs.Changed("jobs") {
 		n, err := strconv.Atoi(strings.TrimSpace(jobsText))
 		if err != nil || n < 1 {
-			return 0, shard, fmt.Errorf("-j %q: give a whole number of command files to run at once, 1 or more", jobsText)
+			return 0, shard, fmt.Errorf("%s %q: give a whole number of command files to run at once, 1 or more", jobsFlag, jobsText)
 		}
 		workers = n
 	}
@@ -192,6 +193,23 @@ func batchShape(fs *pflag.FlagSet, jobsText, shardText string) (workers int, sha
 		}
 	}
 	return workers, shard, nil
+}
+
+// writtenAs is the flag as the last of args that gives it wrote it: --long
+// or -short.
+func writtenAs(args []string, long, short string) string {
+	name := "-" + short
+	for _, a := range args {
+		switch {
+		case a == "--":
+			return name
+		case a == "--"+long || strings.HasPrefix(a, "--"+long+"="):
+			name = "--" + long
+		case strings.HasPrefix(a, "-"+short):
+			name = "-" + short
+		}
+	}
+	return name
 }
 
 // badArgs are the arguments that name no command file, as failed rows of

@@ -205,6 +205,13 @@ func TestRunFaultsNameTheLine(t *testing.T) {
 		{"known.bsr", head + "known-spectrum 1=data/pure.csv\n", exitRun, []string{"exp/known.bsr:7:16: exp/data/pure.csv: cannot read", "check the known-spectrum path"}},
 		{"vapour.bsr", head + "vapour data/vap.csv\n", exitRun, []string{"exp/vapour.bsr:7:8: exp/data/vap.csv: cannot read", "check the vapour path"}},
 		{"init.bsr", head + "init data/start.csv\n", exitRun, []string{"exp/init.bsr:7:6: exp/data/start.csv: cannot read", "check the init path"}},
+		// Every option a placed fault names is written as the file writes
+		// it, not only the first ("Options given on the command line keep
+		// their flags in messages": the others are keywords), and the
+		// option is named once.
+		{"both-times.bsr", head + "times t.csv\ntimes-from-name\n", exitUsage, []string{"exp/both-times.bsr:7:7: times and times-from-name both give the times: use one"}},
+		{"t0.bsr", head + "t0 5\n", exitUsage, []string{"exp/t0.bsr:7:4: t0 needs model, e.g. model 'A -> B -> C'"}},
+		{"refmean.bsr", head + "reference mean:0\n", exitUsage, []string{"exp/refmean.bsr:7:11: reference \"mean:0\": mean:N needs a whole number"}},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			p := filepath.Join("exp", c.name)
@@ -227,6 +234,11 @@ func TestRunFaultsNameTheLine(t *testing.T) {
 	r := run("run", filepath.Join("exp", "plain.bsr"), "--quiet", "--region", "9000:8500")
 	if r.code != exitUsage || !strings.Contains(r.stderr, "bandsolve run: --region 9000:8500: the regions select no axis point") {
 		t.Errorf("a region from the command line: exit %d, %q", r.code, r.stderr)
+	}
+	// From the command line, the option is named once, as a flag.
+	r = run("resolve", "--data", "exp/data/series.csv", "--reference", "mean:0", "--out", filepath.Join(root, "cl-ref"), "--quiet")
+	if r.code != exitUsage || !strings.HasPrefix(r.stderr, "bandsolve resolve: --reference \"mean:0\": mean:N needs") {
+		t.Errorf("--reference mean:0: exit %d, %q", r.code, r.stderr)
 	}
 	// From the command line, the missing file's flag is named.
 	for _, flag := range []string{"known-spectrum=1=nope.csv", "vapour=nope.csv", "init=nope.csv"} {

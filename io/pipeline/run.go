@@ -341,7 +341,7 @@ func planReading(s *Settings) (readingPlan, error) {
 	}
 	refMean, refFile, err := spectra.ParseReference(s.Reference)
 	if err != nil {
-		return readingPlan{}, usage("--reference: %v", err)
+		return readingPlan{}, usage("--%v", err) // it names the value: reference "mean:0": …
 	}
 	own := refFile != "" && kind == spectra.Absorbance && ownReference(s, refFile, folder)
 	if refFile != "" && !own {
