@@ -486,3 +486,28 @@ func TestRunEmptyShareSaysSo(t *testing.T) {
 		t.Error("the share ran r0, which belongs to share 0/2")
 	}
 }
+
+// A batch whose every run failed leaves no --out folder it made
+// (docs/errors.md: "a failed or interrupted run removes the staging folder
+// and leaves the output folder as it was", here: not there); a folder that
+// was there before is kept even when empty: bandsolve never deletes what it
+// did not make.
+func TestRunFailedBatchLeavesNoFolder(t *testing.T) {
+	root := t.TempDir()
+	t.Chdir(root)
+	writeText(t, filepath.Join("runs", "a.bsr"), "data nowhere.csv\nkind absorbance\n")
+	writeText(t, filepath.Join("runs", "b.bsr"), "data nowhere.csv\ncomponets 2\n")
+	if r := run("run", "runs/*.bsr", "--out", "new/batch", "--quiet"); r.code == 0 {
+		t.Fatalf("a batch of failing files: exit 0")
+	}
+	if _, err := os.Stat("new"); err == nil {
+		t.Error("the failed batch left the --out folders it made")
+	}
+	if err := os.Mkdir("mine", 0o755); err != nil {
+		t.Fatal(err)
+	}
+	run("run", "runs/*.bsr", "--out", "mine", "--quiet")
+	if _, err := os.Stat("mine"); err != nil {
+		t.Error("the failed batch removed a folder it did not make")
+	}
+}

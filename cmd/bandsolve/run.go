@@ -144,6 +144,11 @@ func runRun(args []string, st pipeline.Streams) int {
 	// batch as it was given, so a file writes to the same folder whichever
 	// shard or pattern runs it.
 	batch := given.Batch(fs.Changed("shard"))
+	if batch && changed["out"] {
+		// Made for the batch below (laySettings); removed again if no
+		// run wrote into it.
+		defer campaign.Tidy(campaign.Missing(flags.Out))
+	}
 	mine := prepareShare(files, flags, changed, batch, shard)
 	for _, p := range mine {
 		p.skipDone = *skipDone

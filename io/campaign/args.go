@@ -64,3 +64,32 @@ func Expand(args []string, ext string) Given {
 func (g Given) Batch(sharded bool) bool {
 	return g.Args > 1 || g.Pattern || sharded
 }
+
+// Missing lists dir and the folders above it that do not exist yet, the
+// deepest first: the folders a batch makes for --out (mkdir -p), which
+// Tidy may remove again.
+func Missing(dir string) []string {
+	var out []string
+	for p := filepath.Clean(dir); ; p = filepath.Dir(p) {
+		if _, err := os.Lstat(p); err == nil {
+			return out
+		}
+		out = append(out, p)
+		if filepath.Dir(p) == p {
+			return out
+		}
+	}
+}
+
+// Tidy removes the folders Missing listed that are still empty, deepest
+// first, and stops at the first that is not: a batch whose every run
+// failed leaves no empty --out folder behind, and a folder holding
+// anything (a run's results, a user's file) is never touched (os.Remove
+// removes only an empty folder).
+func Tidy(made []string) {
+	for _, p := range made {
+		if os.Remove(p) != nil {
+			return
+		}
+	}
+}
