@@ -359,6 +359,11 @@ func TestVerifyFindsChanges(t *testing.T) {
 	if r.code != exitRun || !strings.Contains(r.stderr, "spectra.csv:7: differs") {
 		t.Errorf("tampered spectra.csv: exit %d, stderr %q", r.code, r.stderr)
 	}
+	// verify --help: --quiet prints "nothing but the first difference or
+	// error": no note of the builds (a test binary records no commit).
+	if strings.Contains(r.stderr, "note:") || !strings.HasPrefix(r.stderr, "bandsolve verify: ") {
+		t.Errorf("verify --quiet printed more than the difference: %q", r.stderr)
+	}
 	writeText(t, spectra, string(orig))
 	// A changed input is caught by its SHA-256 before any rerun.
 	blank := filepath.Join(root, "data", "blank.csv")

@@ -52,6 +52,9 @@ func runVerify(args []string, st pipeline.Streams) int {
 	}
 	if !v.OK() {
 		for _, n := range v.Builds {
+			if *quiet {
+				break // nothing but the difference
+			}
 			fmt.Fprintf(st.Err, "note: %s\n", n)
 		}
 		d := v.Differences[0]
