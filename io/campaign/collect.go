@@ -279,10 +279,12 @@ func (r *row) t0Fit(t object) {
 	r.t0Fitted = true
 	if v, _ := t.scalar("not_determined"); v == "true" {
 		r.notes = append(r.notes, "t0: the data do not determine the fitted start time")
-		return
+	} else {
+		r.cells["t0_fitted_s"], _ = t.scalar("t0_s")
+		r.cells["stderr_t0_s"], _ = t.scalar("stderr_s")
 	}
-	r.cells["t0_fitted_s"], _ = t.scalar("t0_s")
-	r.cells["stderr_t0_s"], _ = t.scalar("stderr_s")
+	// An end of its range reached is said either way (docs/campaigns.md:
+	// "a note too").
 	if end, ok := t.scalar("at_end"); ok {
 		r.notes = append(r.notes, "t0: the fitted start time ran to the "+end+" of its range")
 	}

@@ -43,6 +43,12 @@ func TestCollectFittedT0(t *testing.T) {
 	if rows[2][t0] != "" || rows[2][se] != "" || !strings.Contains(rows[2][notes], "do not determine the fitted start time") {
 		t.Errorf("undetermined t0: cells %q, %q, notes %q: want empty cells and a note", rows[2][t0], rows[2][se], rows[2][notes])
 	}
+	// docs/campaigns.md: "both empty, with a note, when
+	// `t0_fit.not_determined`; a note too when it ran to an end of its
+	// range (`at_end`)": the undetermined fit also ran to its start.
+	if !strings.Contains(rows[2][notes], "ran to the start of its range") {
+		t.Errorf("undetermined t0 at the start of its range: notes %q; want the at_end note too", rows[2][notes])
+	}
 	if rows[3][t0] != "" || rows[3][se] != "" || rows[3][col("t0_s")] != "60" {
 		t.Errorf("given t0: fitted cells %q, %q, t0_s %q: want empty, and t0_s 60", rows[3][t0], rows[3][se], rows[3][col("t0_s")])
 	}
