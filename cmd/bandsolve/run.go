@@ -11,6 +11,7 @@ import (
 	"runtime"
 	"strconv"
 	"strings"
+	"sync/atomic"
 	"syscall"
 	"text/tabwriter"
 
@@ -23,6 +24,10 @@ import (
 
 // exitInterrupted follows the shell convention 128 + SIGINT.
 const exitInterrupted = 130
+
+// onInterrupt removes, on an interrupt, the --out folder a batch made
+// when no run has written into it yet (campaign.Tidy).
+var onInterrupt atomic.Pointer[func()]
 
 // Registered in a variable initializer: those run before main.go's init
 // reads extraCommands.
@@ -45,6 +50,9 @@ func init() {
 	go func() {
 		sig := <-ch
 		output.Interrupt()
+		if tidy := onInterrupt.Load(); tidy != nil {
+			(*tidy)() // after the stages are gone: only empty folders go
+		}
 		fmt.Fprintf(os.Stderr, "\nbandsolve: %v: stopped; earlier results are untouched and no partial results were left\n", sig)
 		os.Exit(exitInterrupted)
 	}()
@@ -146,8 +154,11 @@ func runRun(args []string, st pipeline.Streams) int {
 	batch := given.Batch(fs.Changed("shard"))
 	if batch && changed["out"] {
 		// Made for the batch below (laySettings); removed again if no
-		// run wrote into it.
-		defer campaign.Tidy(campaign.Missing(flags.Out))
+		// run wrote into it, at the end or on an interrupt.
+		made := campaign.Missing(flags.Out)
+		tidy := func() { campaign.Tidy(made) }
+		onInterrupt.Store(&tidy)
+		defer tidy()
 	}
 	mine := prepareShare(files, flags, changed, batch, shard)
 	for _, p := range mine {

@@ -7,10 +7,12 @@ import (
 	"bytes"
 	"errors"
 	"fmt"
+	"io/fs"
 	"os"
 	"os/exec"
 	"path/filepath"
 	"strings"
+	"syscall"
 	"testing"
 	"time"
 
@@ -567,5 +569,60 @@ func TestUnmappableModelKeepsTheResolution(t *testing.T) {
 	}
 	if _, ok := sum["kinetics"]; ok {
 		t.Error("summary has a kinetics key for kinetics that were not done")
+	}
+}
+
+// staging says whether the staging folder of out/name is there (a folder:
+// the probe file Check writes under the same prefix is not one).
+func staging(out, name string) bool {
+	m, _ := filepath.Glob(filepath.Join(out, "."+name+".partial-*"))
+	for _, p := range m {
+		if st, err := os.Stat(p); err == nil && st.IsDir() {
+			return true
+		}
+	}
+	return false
+}
+
+// A batch interrupted before any run finished leaves no --out folder it
+// made (docs/errors.md: "a failed or interrupted run removes the staging
+// folder and leaves the output folder as it was", here: not there).
+func TestInterruptedBatchLeavesNoFolder(t *testing.T) {
+	root := campaignFiles(t, 2)
+	out := filepath.Join(root, "new", "batch")
+	cmd := exec.Command(os.Args[0], "-test.run=^TestMainProcess$", "--", "run", filepath.Join(root, "runs", "*.bsr"), "--out", out, "-j", "1", "--quiet")
+	cmd.Env = append(os.Environ(), "BANDSOLVE_TEST_MAIN=1")
+	var stderr bytes.Buffer
+	cmd.Stderr = &stderr
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	done := make(chan error, 1)
+	go func() { done <- cmd.Wait() }()
+	var exited error
+	signalled := false
+wait:
+	for {
+		select {
+		case exited = <-done:
+			break wait
+		default:
+		}
+		if !signalled && staging(out, "r0") {
+			cmd.Process.Signal(syscall.SIGTERM)
+			signalled = true
+		}
+		time.Sleep(time.Millisecond)
+	}
+	if _, err := os.Stat(filepath.Join(out, "r0")); !signalled || err == nil {
+		t.Skip("the first run completed before it could be interrupted")
+	}
+	var ee *exec.ExitError
+	if !errors.As(exited, &ee) || ee.ExitCode() != exitInterrupted {
+		t.Fatalf("exit %v, want %d; stderr %s", exited, exitInterrupted, stderr.String())
+	}
+	if _, err := os.Stat(filepath.Join(root, "new")); err == nil {
+		filepath.WalkDir(filepath.Join(root, "new"), func(p string, d fs.DirEntry, err error) error { t.Log("left: ", p); return nil })
+		t.Error("the interrupted batch left the --out folders it made")
 	}
 }
