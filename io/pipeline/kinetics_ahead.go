@@ -139,7 +139,7 @@ type checkAhead struct {
 // the units; needBest says whether the loop may still ask for best's cost
 // (it has not made it yet); cost(k, c0) is the non-negative cost of rate
 // constants k with initial concentrations c0 (best's, taken now).
-func (kn *Kinetics) newCheckAhead(r *Result, best *kinetics.FitResult, opt kinetics.FitOptions, alts [][]float64, needBest bool, cost func(k, c0 []float64) (float64, bool)) *checkAhead {
+func (kn *Kinetics) newCheckAhead(r *Result, best *kinetics.FitResult, opt kinetics.FitOptions, alts [][]float64, needBest bool, cost func(k, c0 []float64) (kinetics.NonNegCost, bool)) *checkAhead {
 	ca := &checkAhead{jobs: make([]*dataFitJob, len(alts)), memo: make([]*kinetics.FitResult, len(alts)), costs: make([]costValue, len(alts)), costed: make([]bool, len(alts))}
 	for i, a := range alts {
 		o := opt

@@ -6,6 +6,7 @@ import (
 	"testing"
 
 	"github.com/bandsolve/bandsolve/internal/fanout/fanouttest"
+	"github.com/bandsolve/bandsolve/mcr/kinetics"
 )
 
 // inOrder's contract, checked on units that record when they run: every
@@ -122,7 +123,7 @@ func TestOnceCostAfterAUnitPanicked(t *testing.T) {
 		defer func() { _ = recover() }()
 		c.make(func() costValue { panic("a fault in a unit") })
 	}()
-	want := costValue{v: 12.5, ok: true}
+	want := costValue{v: kinetics.NonNegCost{Cost: 12.5}, ok: true}
 	if got := c.get(func() costValue { return want }); got != want {
 		t.Errorf("cost %+v after a unit's panic, want %+v made by the caller", got, want)
 	}
