@@ -1743,7 +1743,11 @@ func (sw *swapSearch) negativeWords(lose, win kinetics.NonNegCost, loseK, winK s
 	if neg, ok := win.NeedsNegative(perHeld); !ok || neg {
 		return ""
 	}
-	return fmt.Sprintf("; with k = %s a spectrum needs a band below zero: non-negativity costs it %.4g noise variances, clipping noise alone at most %.4g (χ² bound at 10⁻³, %.3g per held point), while with k = %s it costs %.4g, within the %.4g clipping noise gives", loseK, lose.Scaled, lose.NoiseLimit(perHeld), perHeld, winK, win.Scaled, win.NoiseLimit(perHeld))
+	other := fmt.Sprintf("with k = %s it costs %.4g, within the %.4g clipping noise gives", winK, win.Scaled, win.NoiseLimit(perHeld))
+	if win.Active == 0 {
+		other = fmt.Sprintf("with k = %s the free spectra are non-negative already", winK)
+	}
+	return fmt.Sprintf("; with k = %s a spectrum needs a band below zero: non-negativity costs it %.4g noise variances, clipping noise alone at most %.4g (χ² bound at 10⁻³, %.3g per held point), while %s", loseK, lose.Scaled, lose.NoiseLimit(perHeld), perHeld, other)
 }
 
 // orderTie says the data cannot tell best's order of the rate constants

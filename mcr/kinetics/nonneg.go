@@ -115,6 +115,11 @@ func (c NonNegCost) PerHeld() float64 {
 // zero. ok is false when that cannot be told (too few spectra for a noise
 // estimate per channel).
 func (c NonNegCost) NeedsNegative(perHeld float64) (needs, ok bool) {
+	if c.Active == 0 {
+		// Nothing held: the non-negative spectra are the free ones, and
+		// any cost is rounding.
+		return false, true
+	}
 	lim := c.NoiseLimit(perHeld)
 	if math.IsNaN(lim) {
 		return false, false

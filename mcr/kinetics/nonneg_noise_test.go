@@ -64,8 +64,15 @@ func TestNonNegativeCheckSlowFast(t *testing.T) {
 	const slow, fast = 1e-3, 1e-2
 	rng := rand.New(rand.NewPCG(11, 3))
 	times, d := abcData(80, 150, slow, fast, 0, rng)
-	if c, err := NonNegativeCheck(s, times, d, []float64{fast, slow}, opt); err != nil || c.Cost > 1e-20*sumSquares(d) {
-		t.Errorf("truth slow-first, swapped order without noise: cost %.3g (%v), want 0", c.Cost, err)
+	for _, k := range [][]float64{{slow, fast}, {fast, slow}} {
+		c, err := NonNegativeCheck(s, times, d, k, opt)
+		if err != nil || c.Cost > 1e-20*sumSquares(d) {
+			t.Errorf("truth slow-first, k = %v without noise: cost %.3g (%v), want 0", k, c.Cost, err)
+		}
+		// A cost of rounding is no negative band.
+		if neg, ok := c.NeedsNegative(1); neg || !ok {
+			t.Errorf("truth slow-first, k = %v without noise: %+v counted as needing a negative band", k, c)
+		}
 	}
 	times, d = abcData(80, 150, fast, slow, 0, rng)
 	if c, err := NonNegativeCheck(s, times, d, []float64{slow, fast}, opt); err != nil || !(c.Cost > 1e-3*sumSquares(d)) {
