@@ -442,9 +442,12 @@ type SpectrumNoiseJSON struct {
 	WeightsPerSpectrum bool    `json:"weights_per_spectrum"`
 	NoiseSDMin         float64 `json:"noise_sd_min"`
 	NoiseSDMax         float64 `json:"noise_sd_max"`
-	Ratio              float64 `json:"ratio"`
-	PValue             float64 `json:"p_value"`
-	Test               string  `json:"test"`
+	// Unit of noise_sd_min and _max: "absorbance", or the detector's
+	// "single-beam units" (counts) for single beams.
+	Unit   string  `json:"unit,omitempty"`
+	Ratio  float64 `json:"ratio"`
+	PValue float64 `json:"p_value"`
+	Test   string  `json:"test"`
 }
 
 // OutlierJSON is one spectrum set aside.

@@ -8,9 +8,11 @@ import (
 	"github.com/bandsolve/bandsolve/io/spectra"
 )
 
-// Each spectrum's own noise level for absorbance and difference input
-// (spectra.SpectrumNoise): said, and written, only when the weights follow
-// it, so that a series whose spectra are equally noisy keeps every output.
+// Each spectrum's own noise level (spectra.SpectrumNoise): of the
+// absorbance for absorbance and difference input, of the detector (in
+// single-beam units) for single beams; said, and written, only when the
+// weights follow it, so that a series whose spectra are equally noisy
+// keeps every output.
 
 // spectrumNoiseOf is experiment e's per-spectrum noise when its weights
 // follow it, else nil.
@@ -33,7 +35,8 @@ func weightsPerSpectrum(r *Result) bool {
 }
 
 // spectrumLevels are the least and largest noise level over experiment e's
-// spectra, σ_i = f_i · median_j σ_j (absorbance).
+// spectra, σ_i = f_i · median_j σ_j, in the units of e's noise
+// (levelUnits).
 func spectrumLevels(e *Experiment, sn *spectra.SpectrumNoise) (lo, hi float64) {
 	level := medianOf(e.Assembled.Noise.Channel)
 	lo = math.Inf(1)
@@ -56,8 +59,12 @@ func spectrumNoiseSummary(r *Result) []output.SpectrumNoiseJSON {
 		}
 		sn := e.Assembled.Noise.Spectra
 		lo, hi := spectrumLevels(e, sn)
-		out = append(out, output.SpectrumNoiseJSON{Experiment: i + 1, WeightsPerSpectrum: sn.Varies,
-			NoiseSDMin: round(lo), NoiseSDMax: round(hi), Ratio: round(sn.Ratio()), PValue: round(sn.P), Test: sn.Test()})
+		js := output.SpectrumNoiseJSON{Experiment: i + 1, WeightsPerSpectrum: sn.Varies,
+			NoiseSDMin: round(lo), NoiseSDMax: round(hi), Ratio: round(sn.Ratio()), PValue: round(sn.P), Test: sn.Test()}
+		if e.Assembled.Noise.Unit == singleBeamUnits {
+			js.Unit = singleBeamUnits
+		}
+		out = append(out, js)
 	}
 	return out
 }
@@ -79,7 +86,11 @@ func spectrumNoiseNotes(r *Result) []string {
 		if len(r.Experiments) > 1 {
 			which = fmt.Sprintf(" of experiment %d", i+1)
 		}
-		notes = append(notes, fmt.Sprintf("the spectra%s differ in noise: σ from %.3g to %.3g absorbance, the noisiest %.3g× the quietest (%s); each spectrum is weighted by its own 1/σ² (noise_spectra.csv noise_sd), not by one level for all", which, lo, hi, sn.Ratio(), sn.Test()))
+		level := fmt.Sprintf("σ from %.3g to %.3g absorbance", lo, hi)
+		if e.Assembled.Noise.Unit == singleBeamUnits {
+			level = fmt.Sprintf("detector noise from %.3g to %.3g in single-beam units", lo, hi)
+		}
+		notes = append(notes, fmt.Sprintf("the spectra%s differ in noise: %s, the noisiest %.3g× the quietest (%s); each spectrum is weighted by its own 1/σ² (noise_spectra.csv noise_sd), not by one level for all", which, level, sn.Ratio(), sn.Test()))
 	}
 	return notes
 }

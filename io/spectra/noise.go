@@ -1704,7 +1704,15 @@ func assembleSingleBeams(s *Series, opt AssembleOptions, ref []float64, out *Ass
 	for j, v := range refVar {
 		out.ReferenceVariance[j] = v / (math.Ln10 * math.Ln10)
 	}
+	var sn *SpectrumNoise
+	if spectraMayDiffer(s.Values, s.Times, sigI, blind) {
+		sn = measureSpectrumNoise(s.Values, s.Times, sigI, blind, opt.Pre)
+	}
+	out.Noise.Spectra = sn
 	v := newAbsorbanceVariances(s.Values, sigI, refVar, opt.Blank != nil)
+	if sn != nil && sn.Varies {
+		v = newAbsorbanceVariancesScaled(s.Values, sigI, refVar, opt.Blank != nil, sn.Factor)
+	}
 	placeAbsorbances(s.Values, opt, out)
 	fitAbsorbanceWeights(s.Values, v, blind, opt.Blank != nil, out)
 	writeAbsorbances(s, ref, opt.Blank, blind, out)
@@ -1957,6 +1965,32 @@ func newAbsorbanceVariances(values *mat.Dense, sigI, refVar []float64, blank boo
 		}
 		v.logVars = func(i int, o []float64) bool {
 			return vecmath.LogQuoSquares(o[:m], o[m:2*m], sigI, values.RawRowView(i), refVar, ln10sq)
+		}
+	}
+	return v
+}
+
+// newAbsorbanceVariances with each spectrum's detector noise its own, f_i
+// σ_I,j (measureSpectrumNoise): the scans co-added change during a run, and
+// with them the noise of the single beams. The reference's share stays as
+// measured. Only for spectra whose levels differ: equally noisy beams keep
+// newAbsorbanceVariances' bits.
+func newAbsorbanceVariancesScaled(values *mat.Dense, sigI, refVar []float64, blank bool, factor []float64) *absorbanceVariances {
+	_, m := values.Dims()
+	scaled := func(i int) []float64 {
+		out := make([]float64, m)
+		for j, x := range sigI {
+			out[j] = factor[i] * x
+		}
+		return out
+	}
+	base := newAbsorbanceVariances(values, sigI, refVar, blank)
+	v := &absorbanceVariances{nf: base.nf}
+	v.vars = func(i int, o []float64) { newAbsorbanceVariances(values, scaled(i), refVar, blank).vars(i, o) }
+	v.abs = func(i int, o []float64) { newAbsorbanceVariances(values, scaled(i), refVar, blank).abs(i, o) }
+	if base.logVars != nil {
+		v.logVars = func(i int, o []float64) bool {
+			return newAbsorbanceVariances(values, scaled(i), refVar, blank).logVars(i, o)
 		}
 	}
 	return v
