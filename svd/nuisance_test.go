@@ -403,3 +403,52 @@ func TestClearFactorIsCountedUnlessBandShape(t *testing.T) {
 		}
 	}
 }
+
+// Factors above the white-noise edge whose time vectors are white are noise;
+// the colour of their spectra says which. Smoothing along the axis (a
+// running mean of 3 points: correlated noise of the same variance per point
+// as common practice scales it) lifts the largest noise values above the
+// white edge with spectra correlated along the axis; white noise measured
+// against a level set 8 % low (the rank's Sigma) lifts them with white
+// spectra (definition of white noise: independent points). Only the first
+// is noise correlated along the axis.
+func TestNoiseFactorsToldApartByTheirSpectra(t *testing.T) {
+	const n, m, sigma = 60, 400, 1e-3
+	for _, smooth := range []bool{true, false} {
+		rng := rand.New(rand.NewPCG(21, 5))
+		d := mat.NewDense(n, m, nil)
+		for i := range n {
+			a := math.Exp(-0.05 * float64(i))
+			e := make([]float64, m+2)
+			for j := range e {
+				e[j] = sigma * rng.NormFloat64()
+			}
+			for j := range m {
+				x := float64(j)
+				v := a*0.5*math.Exp(-0.5*(x-120)*(x-120)/400) + (1-a)*0.5*math.Exp(-0.5*(x-280)*(x-280)/400)
+				noise := e[j+1]
+				if smooth {
+					noise = (e[j] + e[j+1] + e[j+2]) / math.Sqrt(3)
+				}
+				d.Set(i, j, v+noise)
+			}
+		}
+		level := sigma
+		if !smooth {
+			level = 0.92 * sigma
+		}
+		rep, err := EstimateRank(d, nil, RankOptions{ReferenceRow: -1, Sigma: level})
+		if err != nil {
+			t.Fatal(err)
+		}
+		f, _ := Decompose(d, DecomposeOptions{})
+		cr := ClassifyFactors(d, f, rep, NuisanceOptions{MeanLevel: true})
+		t.Logf("smoothed %v: %d chemical, %d noise-like, %d of them white along the axis", smooth, cr.Estimate, cr.NoiseLike, cr.NoiseWhite)
+		if cr.Estimate != 2 || cr.NoiseLike == 0 {
+			t.Fatalf("smoothed %v: %d chemical, %d noise-like; want 2 and some noise above the edge", smooth, cr.Estimate, cr.NoiseLike)
+		}
+		if smooth && cr.NoiseWhite != 0 || !smooth && cr.NoiseWhite != cr.NoiseLike {
+			t.Errorf("smoothed %v: %d of %d noise factors white along the axis", smooth, cr.NoiseWhite, cr.NoiseLike)
+		}
+	}
+}

@@ -94,6 +94,10 @@ type Summary struct {
 	// folder written before these keys.
 	FactorsAboveNoise *int `json:"factors_above_noise,omitempty"`
 	NoiseLikeFactors  *int `json:"noise_like_factors,omitempty"`
+	// NoiseWhiteFactors counts those of noise_like_factors whose spectrum is
+	// white along the axis too: white noise above an edge set from a noise
+	// level that reads a little low, not noise correlated along the axis.
+	NoiseWhiteFactors int `json:"noise_white_factors,omitempty"`
 	// WaterVapour is the check for water-vapour lines that change during
 	// the run (nil: written before the check).
 	WaterVapour *VapourJSON `json:"water_vapour,omitempty"`

@@ -472,8 +472,11 @@ func nuisanceAdvice(r *Result) {
 		r.Advice = append(r.Advice, sharedMinorAdvice(r, nf.Factor, said)...)
 		r.Advice = append(r.Advice, fmt.Sprintf("factor %d (%.2g %% of the signal) is counted as a species although its size alone would not count it%s", nf.Factor, nf.SharePercent, minorAdvice(r, nf.Factor)))
 	}
-	if cr.NoiseLike > 0 {
-		r.Notes = append(r.Notes, fmt.Sprintf("%d factor(s) above the white-noise level have a time vector as white as noise: noise correlated along the axis (instrument smoothing or interpolation), not counted", cr.NoiseLike))
+	if k := cr.NoiseLike - cr.NoiseWhite; k > 0 {
+		r.Notes = append(r.Notes, fmt.Sprintf("%d factor(s) above the white-noise level have a time vector as white as noise and a spectrum correlated along the axis: noise correlated along the axis (instrument smoothing or interpolation), not counted", k))
+	}
+	if cr.NoiseWhite > 0 {
+		r.Notes = append(r.Notes, fmt.Sprintf("%d factor(s) just above the white-noise level are white both in time and along the axis: noise, not counted; the noise level the edge is set from reads a little low", cr.NoiseWhite))
 	}
 	if cr.Unexamined > 0 && cr.UnexaminedMinor {
 		r.Notes = append(r.Notes, fmt.Sprintf("%d more factor(s) lie above the noise threshold beyond the %d examined (%d in all): they were not classified, but the largest of them carries %.2g %% of the signal of the smallest counted component, below the %.0f %% under which a smooth factor is minor, so the count does not depend on them; so many factors above the white-noise level come from noise correlated along the axis or from a noise level set too low", cr.Unexamined, cr.Examined, cr.Unexamined+cr.Examined, 100*cr.UnexaminedShare, 100*svd.MinorEnergy))

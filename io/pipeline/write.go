@@ -75,6 +75,7 @@ func MakeSummary(r *Result) *Summary {
 	if cr := r.Chemical; cr != nil {
 		above, noise := cr.Examined, cr.NoiseLike
 		s.FactorsAboveNoise, s.NoiseLikeFactors = &above, &noise
+		s.NoiseWhiteFactors = cr.NoiseWhite
 	}
 	if r.KineticsErr != nil {
 		s.KineticsNotDone = r.KineticsErr.Error()

@@ -426,7 +426,13 @@ func factorAccount(s *Summary) string {
 	if noise == 0 {
 		return fmt.Sprintf("%s, %d are chemistry and %s not chemistry (see the advice)", of, s.RankEstimate, named)
 	}
-	return fmt.Sprintf("%s, %d are chemistry, %s not chemistry (see the advice) and the other %d are noise correlated along the axis (see the notes)", of, s.RankEstimate, named, noise)
+	what := "noise correlated along the axis"
+	if s.NoiseWhiteFactors == noise {
+		what = "noise"
+	} else if s.NoiseWhiteFactors > 0 {
+		what = fmt.Sprintf("noise (%d of them correlated along the axis)", noise-s.NoiseWhiteFactors)
+	}
+	return fmt.Sprintf("%s, %d are chemistry, %s not chemistry (see the advice) and the other %d are %s (see the notes)", of, s.RankEstimate, named, noise, what)
 }
 
 // vapourCountFinding says which counted component of a stack the

@@ -64,7 +64,10 @@ func (f *Folder) moreResults(unit string) moreView {
 		add("factors above the noise examined", strconv.Itoa(*s.FactorsAboveNoise))
 	}
 	if s.NoiseLikeFactors != nil {
-		add("of them noise correlated along the axis", strconv.Itoa(*s.NoiseLikeFactors))
+		add("of them noise correlated along the axis", strconv.Itoa(*s.NoiseLikeFactors-s.NoiseWhiteFactors))
+		if s.NoiseWhiteFactors > 0 {
+			add("of them white noise (the noise level reads a little low)", strconv.Itoa(s.NoiseWhiteFactors))
+		}
 	}
 	v.Rows = append(v.Rows, vapourRows(s.WaterVapour, f.axisName())...)
 	if s.UniquenessNote != "" {
