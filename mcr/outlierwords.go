@@ -289,6 +289,12 @@ func (f residualFeatures) forest(in OutlierInput) bool {
 	return in.wavenumber() && f.axis != nil && f.narrow >= forestLines
 }
 
+// narrowFeature says the largest feature, standing out, is narrower than a
+// condensed sample's narrowest bands (on a wavenumber axis).
+func (f residualFeatures) narrowFeature(in OutlierInput) bool {
+	return f.peak > f.limit && in.wavenumber() && f.axis != nil && float64(f.width)*f.step < condensedBandWidth
+}
+
 // featureWidths records the count of the features standing out and of those
 // narrower than condensedBandWidth (widths in points, narrowest first).
 func (f *residualFeatures) featureWidths(widths []int) {
@@ -332,6 +338,11 @@ func (f residualFeatures) words(in OutlierInput) string {
 	// width says nothing of the residual ("broad, not line-like: its largest
 	// feature is 0.482 cm⁻¹ (1 point) wide" read as a contradiction).
 	head := fmt.Sprintf("broad, not line-like: its largest feature (%s) is %s wide at half height", f.at(in, f.peakAt), f.wide(in, f.width))
+	if f.narrowFeature(in) {
+		// "Broad" beside a width under a condensed band's read as a
+		// contradiction (a real spectrum's feature 1.93 cm⁻¹ wide).
+		head = fmt.Sprintf("not line-like as a whole (%.0f %% of the energy around its largest feature is in its second differences; lines have %.0f %% or more), though its largest feature (%s) is %s wide at half height, narrower than the %g cm⁻¹ of a condensed sample's narrowest bands", 100*f.rough, 100*roughLines, f.at(in, f.peakAt), f.wide(in, f.width), condensedBandWidth)
+	}
 	if f.peak <= limit {
 		head = fmt.Sprintf("broad, not line-like, spread over the axis with no point standing out (the largest, %s, is %.3g robust standard deviations of the row, under the %.3g a line or a spike reaches)", f.at(in, f.peakAt), f.peak, limit)
 	}
@@ -348,6 +359,9 @@ func (f residualFeatures) words(in OutlierInput) string {
 		return s + ": less absorbance across the bands than the fit, what a bubble over the crystal or a film lifting off it gives"
 	case f.smooth >= 0.5:
 		return s + ": a smooth curve, such as scatter or a baseline jump"
+	}
+	if f.narrowFeature(in) {
+		return s + ": a feature the model lacks, narrow at its largest: a single gas line, a spike the instrument's line shape spread, or a band out of place"
 	}
 	return s + ": a broad feature the model lacks, such as a bubble, a baseline jump or a band out of place"
 }

@@ -193,6 +193,16 @@ func TestBroadResidualWithNoPointStandingOut(t *testing.T) {
 	if w := high.words(in); !strings.Contains(w, "broad, not line-like: its largest feature (at 1790.36 cm⁻¹) is 19.3 cm⁻¹ (40 point(s)) wide at half height") {
 		t.Errorf("above the limit: %q", w)
 	}
+	// A feature standing out narrower than a condensed sample's narrowest
+	// bands (4 cm⁻¹; common practice) is not called broad: a real spectrum
+	// read "broad, not line-like: its largest feature (at 1489.26 cm⁻¹) is
+	// 1.93 cm⁻¹ (4 point(s)) wide at half height".
+	narrow := high
+	narrow.width, narrow.rough = 4, 0.02
+	w = narrow.words(in)
+	if strings.Contains(w, "broad") || !strings.Contains(w, "its largest feature (at 1790.36 cm⁻¹) is 1.93 cm⁻¹ (4 point(s)) wide at half height, narrower than the 4 cm⁻¹") {
+		t.Errorf("a narrow feature: %q", w)
+	}
 }
 
 // The polynomial basis of the residual's smooth part is the thin QR factor
