@@ -2,6 +2,7 @@ package kinetics
 
 import (
 	"math"
+	"slices"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -54,7 +55,7 @@ func DifferenceErrors(a, b *FitResult) (lnK []DifferenceError, sum DifferenceErr
 		}
 	}
 	sumCol := -1
-	if a.sumGrad != nil && b.sumGrad != nil && sameSteps(a.SumSteps, b.SumSteps) {
+	if a.sumGrad != nil && b.sumGrad != nil && slices.Equal(a.SumSteps, b.SumSteps) {
 		sumCol = len(cols)
 	}
 	width := len(cols)
@@ -123,18 +124,6 @@ func stepColumns(in *influence, steps int) []int {
 		}
 	}
 	return out
-}
-
-func sameSteps(a, b []int) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if a[i] != b[i] {
-			return false
-		}
-	}
-	return true
 }
 
 // dotPrefix is Σ g_a h_a over g's length (g covers the leading parameters).
