@@ -1231,9 +1231,10 @@ func fitKinetics(r *Result, log io.Writer) error {
 }
 
 // dataOptions are the options of a fit of the data matrix: no amplitudes
-// (the spectra carry the scale) and the noise weights of the data when
+// (the spectra carry the scale), the noise weights of the data when
 // the analysis uses them (maximum likelihood: the standard errors then
-// follow the noise of each point). With --weights off the data fit is
+// follow the noise of each point) and, in reactions mode, the reference's
+// error common to each experiment's rows (referenceErrors). With --weights off the data fit is
 // unweighted too: the option says every point counts alike, and a rate
 // constant fitted under weights the resolution was told not to use would
 // answer another question than the one asked.
@@ -1242,6 +1243,7 @@ func (kn *Kinetics) dataOptions(r *Result, opt kinetics.FitOptions) kinetics.Fit
 	if col := dataColWeights(r); col != nil {
 		opt.RowWeights, opt.ColWeights = keptValues(r, r.Weights.Row), col
 	}
+	opt.Common = referenceErrors(r)
 	return opt
 }
 

@@ -73,9 +73,13 @@ func newEarlyDataFit(r *Result, opt mcr.Options) *earlyDataFit {
 	jopt := o
 	jopt.NoResidual, jopt.Scaled = true, scaled
 	// Everything the fit reads is its own: kn (its scheme is not the
-	// run's), copies of the times and weights, and the scaled data, which
+	// run's), copies of the times, weights and common errors, and the scaled data, which
 	// FitData fits in place of the data matrix.
 	jopt.RowWeights, jopt.ColWeights = slices.Clone(o.RowWeights), slices.Clone(o.ColWeights)
+	jopt.Common = nil
+	for _, ce := range o.Common {
+		jopt.Common = append(jopt.Common, kinetics.CommonError{Rows: slices.Clone(ce.Rows), Within: slices.Clone(ce.Within), Variance: slices.Clone(ce.Variance)})
+	}
 	e.job = &dataFitJob{kn: kn, times: e.times, d: scaled, opt: jopt}
 	return e
 }
@@ -153,5 +157,12 @@ func sameFitOptions(a, b kinetics.FitOptions) bool {
 		a.FitC0 == b.FitC0 && a.FitT0 == b.FitT0 && a.T0Lo == b.T0Lo && a.T0Hi == b.T0Hi && a.Amplitudes == b.Amplitudes && a.UseExtents == b.UseExtents &&
 		slices.Equal(a.RowWeights, b.RowWeights) && (a.RowWeights == nil) == (b.RowWeights == nil) &&
 		slices.Equal(a.ColWeights, b.ColWeights) && (a.ColWeights == nil) == (b.ColWeights == nil) &&
-		a.Sim == b.Sim && a.LM == b.LM
+		a.Sim == b.Sim && a.LM == b.LM && sameCommon(a.Common, b.Common)
+}
+
+// sameCommon compares two fits' common errors (FitOptions.Common).
+func sameCommon(a, b []kinetics.CommonError) bool {
+	return slices.EqualFunc(a, b, func(x, y kinetics.CommonError) bool {
+		return slices.Equal(x.Rows, y.Rows) && slices.Equal(x.Within, y.Within) && slices.Equal(x.Variance, y.Variance)
+	})
 }

@@ -5,6 +5,7 @@ import (
 	"slices"
 
 	"github.com/bandsolve/bandsolve/mcr"
+	"github.com/bandsolve/bandsolve/mcr/kinetics"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -209,6 +210,43 @@ func litShare(r *Result, e *Experiment) []float64 {
 		if rows > 0 {
 			out[j] = float64(rows-blind[j]) / float64(rows)
 		}
+	}
+	return out
+}
+
+// referenceErrors are the experiments' reference errors as common error
+// patterns of the data fit's rows (keptRows), whose share of the rate
+// constants' covariance kinetics.FitData adds (docs/measurement.md §2, "The
+// reference's noise in the rate constants"): in reactions mode from single
+// beams every row of an experiment holds its reference's error, σ²_ref,j
+// per channel, and the rows averaged into the reference hold it with their
+// own. nil in species mode (a blank's pattern lies in the span of closed
+// profiles) or without the reference's variance.
+func referenceErrors(r *Result) []kinetics.CommonError {
+	if r.Mode != mcr.Reactions || !anyReferenceVariance(r) {
+		return nil
+	}
+	at := make(map[int]int) // row of r.D → row of the data fit
+	for a, i := range keptRows(r) {
+		at[i] = a
+	}
+	var out []kinetics.CommonError
+	for _, e := range r.Experiments {
+		if e.Assembled == nil || e.Assembled.ReferenceVariance == nil {
+			continue
+		}
+		ce := kinetics.CommonError{Variance: e.Assembled.ReferenceVariance}
+		for i := e.FirstRow; i < e.FirstRow+e.Rows; i++ {
+			if a, ok := at[i]; ok {
+				ce.Rows = append(ce.Rows, a)
+			}
+		}
+		for _, l := range e.RefRows {
+			if a, ok := at[e.FirstRow+l]; ok {
+				ce.Within = append(ce.Within, a)
+			}
+		}
+		out = append(out, ce)
 	}
 	return out
 }

@@ -58,6 +58,11 @@ type FitOptions struct {
 	// it in FitResult.Scaled: refits skip the pass that forms it. Ignored
 	// unless it has the data's dimensions.
 	Scaled *mat.Dense
+	// Common, for FitData, are error patterns shared by many rows (in
+	// difference spectra, the reference's error in every row), whose
+	// share of the parameters' covariance the residuals cannot show: it
+	// is added to the standard errors (commonCovariance). nil = none.
+	Common []CommonError
 	// NoResidual, for FitData, leaves FitResult.Fitted and Residual nil:
 	// two data-sized matrices a caller that reads neither (a refit from
 	// another start, compared by its residual sum of squares) need not
@@ -164,8 +169,12 @@ type FitResult struct {
 	// before robustErrors widened any to the spectra's scatter about the
 	// model, and Robust the largest widening of a rate constant's (1 =
 	// none); nil and 1 when not computed.
-	NoiseKStdErr     []float64
-	Robust           float64
+	NoiseKStdErr []float64
+	Robust       float64
+	// CommonKStdErr is, per step, the part of KStdErr due to the errors
+	// shared by many rows (FitOptions.Common), combined with the rest in
+	// quadrature; nil without them.
+	CommonKStdErr    []float64
 	DegreesOfFreedom int
 	// Reduced is the reduction of the (weighted) data FitData worked on
 	// (reduceData), to pass back in FitOptions.Reduced.
@@ -1428,6 +1437,7 @@ func (p *fitProblem) dataResult(lm *LMResult, d *mat.Dense, nObs int) (*FitResul
 	if fitted != nil {
 		res.Fitted, res.Residual = fitted, resid
 	}
+	scaledSpectra := spectra
 	if p.weighted {
 		spectra = p.unweighted(res, sim, spectra)
 		res.Weighted, res.Scaled = true, d
@@ -1437,6 +1447,7 @@ func (p *fitProblem) dataResult(lm *LMResult, d *mat.Dense, nObs int) (*FitResul
 	before := len(res.Warnings)
 	replaced := p.robustErrors(lm, res, w, p.nModel)
 	p.correlatedWarning(res, replaced, before)
+	p.commonErrors(lm, res, model, scaledSpectra)
 	p.undeterminedWarning(lm, res)
 	return res, spectra, nil
 }
