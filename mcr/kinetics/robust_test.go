@@ -12,8 +12,18 @@ import (
 // out point by point (White, Econometrica 1980; Newey & West, Econometrica 1987):
 // cov = B M B · G/(G − used), B = (JᵀJ)⁻¹, M = Σ_{i,i'} w(|i − i'|) Σ_{c,c'} r_ic r_i'c'
 // J_icᵀ J_i'c' with Bartlett weights w(l) = 1 − l/(L+1) for l ≤ L, 0 beyond, and
-// L = ⌊4 (G/100)^{2/9}⌋ (Newey & West, Rev. Econ. Stud. 1994): 4 for G = 120.
+// L = ⌊4 (G/100)^{2/9}⌋ (Newey & West, Rev. Econ. Stud. 1994): 4 for G = 120; not serial,
+// L = 0 (independent clusters, Liang & Zeger, Biometrika 1986).
 func TestClusterCovarianceDefinition(t *testing.T) {
+	for _, tc := range []struct {
+		serial bool
+		lags   int
+	}{{true, 4}, {false, 0}} {
+		clusterCovarianceDefinition(t, tc.serial, tc.lags)
+	}
+}
+
+func clusterCovarianceDefinition(t *testing.T, serial bool, wantLags int) {
 	const g, rows, np, used = 120, 3, 2, 4
 	rng := rand.New(rand.NewPCG(7, 11))
 	j := mat.NewDense(g*rows, np, nil)
@@ -24,12 +34,12 @@ func TestClusterCovarianceDefinition(t *testing.T) {
 			j.Set(a, b, rng.NormFloat64()+float64(b)*0.3)
 		}
 	}
-	cov, clusters, lags, err := ClusterCovariance(j, r, rows, used)
+	cov, clusters, lags, err := ClusterCovariance(j, r, rows, used, serial)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if clusters != g || lags != 4 {
-		t.Fatalf("G = %d, L = %d; want %d and 4", clusters, lags, g)
+	if clusters != g || lags != wantLags {
+		t.Fatalf("serial %v: G = %d, L = %d; want %d and %d", serial, clusters, lags, g, wantLags)
 	}
 	mid := mat.NewDense(np, np, nil)
 	for a := 0; a < g*rows; a++ {
