@@ -137,7 +137,7 @@ func TestOneNoiseLevelQuietWhenTheModelHolds(t *testing.T) {
 // variance of the difference taken as V₁ − V_w, each estimated apart,
 // rejected 7 of 40 draws where it was positive on such series (field
 // trial), one at z = 34 for a difference of 0.47 standard errors; measured
-// directly with its t reference, 8 of 200 draws here (4 %). Sixty draws:
+// directly with its t reference, 7 of 200 draws here (3.5 %). Sixty draws:
 // at most 8 rejections (the binomial(60, 0.05) tail beyond is 0.2 %).
 func TestOneNoiseLevelTestHoldsItsLevel(t *testing.T) {
 	rejected := 0

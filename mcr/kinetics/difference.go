@@ -15,6 +15,7 @@ type influence struct {
 	h     *mat.Dense // spectra × parameters
 	used  int
 	kFree []int
+	lags  int // the neighbours in time its sandwich took (0: spectra independent)
 }
 
 // DifferenceErrors gives the standard errors of the differences between two
@@ -27,8 +28,9 @@ type influence struct {
 // and its true variances; two estimates of them, each with its own error,
 // can leave a difference near zero or below it): it is measured directly,
 // as the sandwich measures one fit's, from what each spectrum does to the
-// two fits, (h_ai − h_bi) summed with the same Bartlett lags
-// (Newey & West 1987) and small-sample factor (MacKinnon & White 1985);
+// two fits, (h_ai − h_bi) summed with the Bartlett lags the fits took
+// (Newey & West 1987; none for independent spectra) and the small-sample
+// factor (MacKinnon & White 1985);
 // the cluster-robust form of Hausman's test (Cameron & Trivedi,
 // Microeconometrics, 2005, §8.4, from memory). A variance summed from a
 // few spectra's terms is itself uncertain, most where a few early spectra
@@ -75,7 +77,10 @@ func DifferenceErrors(a, b *FitResult) (lnK []DifferenceError, sum DifferenceErr
 			row[sumCol] = dotPrefix(a.sumGrad, ha) - dotPrefix(b.sumGrad, hb)
 		}
 	}
-	cov := lagSummed(d, neweyWestLags(n, n))
+	// The window over neighbours in time as the fits' own sandwiches took
+	// it: none for independent spectra, whose window only takes variance
+	// away (ClusterCovariance).
+	cov := lagSummed(d, max(ia.lags, ib.lags))
 	used := max(ia.used, ib.used)
 	if n <= used {
 		return nil, sum, false

@@ -132,7 +132,7 @@ func (p *fitProblem) robustErrors(lm *LMResult, res *FitResult, rows, linear int
 	if err != nil {
 		return replaced
 	}
-	res.influence = &influence{h: infl, used: p.nParams() + linear, kFree: append([]int(nil), p.kFree...)}
+	res.influence = &influence{h: infl, used: p.nParams() + linear, kFree: append([]int(nil), p.kFree...), lags: lags}
 	res.NoiseKStdErr = append([]float64(nil), res.KStdErr...)
 	worst, at := 1.0, -1
 	for a, j := range p.kFree {
