@@ -24,11 +24,7 @@ func writeNamed(t *testing.T, names ...string) string {
 // for min and h, the SI prefix milli for ms; ISO 80000-3; from memory).
 // sec and hr are the spellings exports use beside them (common practice).
 func TestNameUnitsRead(t *testing.T) {
-	cases := []struct {
-		names []string
-		unit  string // --time-unit, the unit of plain numbers
-		want  []float64
-	}{
+	cases := []nameTimes{
 		{[]string{"run7_t0.0000min.csv", "run7_t0.3500min.csv", "run7_t2.5min.csv"}, "s", []float64{0, 21, 150}},
 		{[]string{"run7_t0.0000min.csv", "run7_t0.3500min.csv", "run7_t2.5min.csv"}, "min", []float64{0, 21, 150}},
 		// A unit in the name wins over --time-unit, which is for plain numbers.
@@ -41,17 +37,7 @@ func TestNameUnitsRead(t *testing.T) {
 		// m is the metre's symbol (SI), not read as minutes.
 		{[]string{"x_1m.csv", "x_2m.csv"}, "s", []float64{1, 2}},
 	}
-	for _, c := range cases {
-		s, err := ReadFolder(writeNamed(t, c.names...), FolderOptions{TimesFromName: true, TimeUnit: c.unit})
-		if err != nil {
-			t.Fatalf("%v: %v", c.names, err)
-		}
-		for i, w := range c.want {
-			if d := s.Times[i] - w; d > 1e-9*w || d < -1e-9*w {
-				t.Errorf("%v with --time-unit %s: time %d = %g s, want %g", c.names, c.unit, i, s.Times[i], w)
-			}
-		}
-	}
+	checkNameTimes(t, cases)
 }
 
 // Names that disagree on the unit, or where only some carry one, are
@@ -81,11 +67,7 @@ func TestNameUnitsMixRefused(t *testing.T) {
 // TestNameUnitsRead. Letters that only begin with a unit are no unit
 // (sample_2_mineral is a plain 2, in --time-unit's unit).
 func TestNameUnitsSeparatedAndDecimalComma(t *testing.T) {
-	cases := []struct {
-		names []string
-		unit  string
-		want  []float64
-	}{
+	cases := []nameTimes{
 		{[]string{"run7_t0.0000_min.csv", "run7_t0.3500_min.csv", "run7_t2.5_min.csv"}, "s", []float64{0, 21, 150}},
 		{[]string{"run7_t0,0000min.csv", "run7_t0,3500min.csv", "run7_t2,5min.csv"}, "s", []float64{0, 21, 150}},
 		{[]string{"run7_t0,35 min.csv", "run7_t2,5 min.csv"}, "h", []float64{21, 150}},
@@ -97,17 +79,7 @@ func TestNameUnitsSeparatedAndDecimalComma(t *testing.T) {
 		{[]string{"x_10_scans.csv", "x_20_scans.csv"}, "s", []float64{10, 20}},
 		{[]string{"x_1_m.csv", "x_2_m.csv"}, "s", []float64{1, 2}},
 	}
-	for _, c := range cases {
-		s, err := ReadFolder(writeNamed(t, c.names...), FolderOptions{TimesFromName: true, TimeUnit: c.unit})
-		if err != nil {
-			t.Fatalf("%v: %v", c.names, err)
-		}
-		for i, w := range c.want {
-			if d := s.Times[i] - w; d > 1e-9*w || d < -1e-9*w {
-				t.Errorf("%v with --time-unit %s: time %d = %g s, want %g", c.names, c.unit, i, s.Times[i], w)
-			}
-		}
-	}
+	checkNameTimes(t, cases)
 }
 
 // Names whose commas could all be digit grouping (1,500: 1.5 or 1500;
@@ -133,6 +105,31 @@ func TestNameMarksRefused(t *testing.T) {
 		for _, w := range c.want {
 			if !strings.Contains(msg, w) || strings.Contains(msg, "\n") {
 				t.Errorf("%v: %q, want one line with %q", c.names, msg, w)
+			}
+		}
+	}
+}
+
+// nameTimes is a folder's file names, --time-unit (the unit of plain
+// numbers) and the times in seconds they must read as.
+type nameTimes struct {
+	names []string
+	unit  string
+	want  []float64
+}
+
+// checkNameTimes reads each case's folder with --times-from-name and
+// compares its times.
+func checkNameTimes(t *testing.T, cases []nameTimes) {
+	t.Helper()
+	for _, c := range cases {
+		s, err := ReadFolder(writeNamed(t, c.names...), FolderOptions{TimesFromName: true, TimeUnit: c.unit})
+		if err != nil {
+			t.Fatalf("%v: %v", c.names, err)
+		}
+		for i, w := range c.want {
+			if d := s.Times[i] - w; d > 1e-9*w || d < -1e-9*w {
+				t.Errorf("%v with --time-unit %s: time %d = %g s, want %g", c.names, c.unit, i, s.Times[i], w)
 			}
 		}
 	}
