@@ -306,7 +306,7 @@ func tidyLocked(final string) error {
 // for another run to finish its commit. The lock file is removed on unlock;
 // a run that locked a file just removed tries again.
 func lockParent(final string) (unlock func(), err error) {
-	p := filepath.Join(filepath.Dir(final), "."+filepath.Base(final)+".lock")
+	p := lockPath(final)
 	for try := 0; try < 100; try++ {
 		f, err := openNoFollow(p)
 		if err != nil {
@@ -324,6 +324,11 @@ func lockParent(final string) (unlock func(), err error) {
 		f.Close()
 	}
 	return nil, fmt.Errorf("%s: cannot take the lock %s (it keeps changing)", final, p)
+}
+
+// lockPath is the lock file of final's parent folder (lockParent).
+func lockPath(final string) string {
+	return filepath.Join(filepath.Dir(final), "."+filepath.Base(final)+".lock")
 }
 
 // syncTree flushes every file and folder below dir to disk, several at a

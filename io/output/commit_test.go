@@ -383,3 +383,42 @@ func treeSummary(dir string) string {
 	})
 	return "[" + strings.Join(parts, " ") + "]"
 }
+
+// waitForCommit waits while another holder has the parent's lock (flock(2):
+// a shared lock is not granted while an exclusive one is held) and makes no
+// file of its own: with no lock file it returns at once and leaves none, so
+// that a signal during Check leaves nothing beside the output folder.
+func TestWaitForCommitMakesNoFile(t *testing.T) {
+	if runtime.GOOS != "linux" {
+		t.Skip("flock is tested on Linux")
+	}
+	dir := t.TempDir()
+	out := filepath.Join(dir, "out")
+	waitForCommit(out)()
+	if _, err := os.Lstat(lockPath(out)); !os.IsNotExist(err) {
+		t.Fatalf("waitForCommit left %s (%v)", lockPath(out), err)
+	}
+	unlock, err := lockParent(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	returned := make(chan struct{})
+	go func() {
+		waitForCommit(out)()
+		close(returned)
+	}()
+	select {
+	case <-returned:
+		t.Fatal("waitForCommit returned while a commit held the lock")
+	case <-time.After(100 * time.Millisecond):
+	}
+	unlock()
+	select {
+	case <-returned:
+	case <-time.After(10 * time.Second):
+		t.Fatal("waitForCommit still waiting after the lock was released")
+	}
+	if ents, _ := os.ReadDir(dir); len(ents) != 0 {
+		t.Errorf("left beside the output: %d entries", len(ents))
+	}
+}

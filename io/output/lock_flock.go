@@ -30,6 +30,26 @@ func lock(f *os.File) error {
 	}
 }
 
+// waitForCommit waits until no run holds final's parent lock (a commit
+// holds it from the swap to the removal of the earlier results) and
+// returns what ends the wait's hold. It creates and removes nothing: the
+// lock file is opened only if a run made it, and held shared, so that a
+// signal while it is held leaves no file behind (lockParent's file, made
+// and removed by the run that holds it, would be left by a kill).
+func waitForCommit(final string) (done func()) {
+	f, err := os.OpenFile(lockPath(final), os.O_RDONLY|noFollow, 0)
+	if err != nil {
+		return func() {} // no lock file: no commit under way
+	}
+	for {
+		err := syscall.Flock(int(f.Fd()), syscall.LOCK_SH)
+		if !errors.Is(err, syscall.EINTR) {
+			break
+		}
+	}
+	return func() { f.Close() }
+}
+
 // tryLock takes an exclusive flock on f if no one holds one.
 func tryLock(f *os.File) bool {
 	return syscall.Flock(int(f.Fd()), syscall.LOCK_EX|syscall.LOCK_NB) == nil

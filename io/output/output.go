@@ -60,19 +60,16 @@ func Check(out string, force bool) error {
 	// fails with "no such file"; a two-step swap leaves out missing for a
 	// moment; the earlier results an exchange moved aside lose their
 	// manifest last, while this run may be reading them). A refusal is
-	// given only once confirmed under the parent's lock, which a commit
-	// holds from the swap to the removal of the earlier results; a folder
-	// that is fine needs no lock. Commit checks once more under the lock.
+	// given only once confirmed after any commit under way has ended (the
+	// parent's lock, which a commit holds from the swap to the removal of
+	// the earlier results, taken shared: waitForCommit makes no file); a
+	// folder that is fine needs no wait. Commit checks once more under the
+	// lock.
 	if checkOnce(out, clean, force) == nil {
 		return nil
 	}
-	unlock, err := lockParent(clean)
-	if err != nil {
-		// No parent folder, or one this run cannot lock: no commit to
-		// wait for, and the verdict's own words say more than the lock's.
-		return checkOnce(out, clean, force)
-	}
-	defer unlock()
+	done := waitForCommit(clean)
+	defer done()
 	return checkOnce(out, clean, force)
 }
 
