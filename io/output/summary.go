@@ -279,7 +279,11 @@ type KineticFitJSON struct {
 	Stiff                 bool                   `json:"stiff"`
 	Warnings              []string               `json:"warnings"`
 	DeterminedSum         *DeterminedSum         `json:"determined_sum,omitempty"`
-	T0Fit                 *T0Fit                 `json:"t0_fit,omitempty"`
+	// OrderAlternative: the data cannot tell the order of the rate
+	// constants (which step is fast); these are the other order's, per
+	// step as rate_constants, which fit as well (the warning says how).
+	OrderAlternative []float64 `json:"order_alternative_k_per_s,omitempty"`
+	T0Fit            *T0Fit    `json:"t0_fit,omitempty"`
 	// OneNoiseLevel, of a data fit whose spectra were weighted each by its
 	// own noise, is the same fit with one level for every spectrum.
 	OneNoiseLevel        *OneNoiseLevelJSON `json:"one_noise_level,omitempty"`

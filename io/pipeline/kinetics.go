@@ -1760,6 +1760,7 @@ func (sw *swapSearch) negativeWords(lose, win kinetics.NonNegCost, loseK, winK s
 func (sw *swapSearch) orderTie(alt *kinetics.FitResult, free float64, altNN kinetics.NonNegCost, perHeld float64) {
 	best := sw.best
 	b, a := sw.bestNN, altNN
+	best.OrderAlternative = slices.Clone(alt.K)
 	best.Warnings = append(best.Warnings, fmt.Sprintf("the data alone cannot tell the order of the rate constants (which step is fast): both orders fit, k = %s and k = %s, alike with free spectra (%.2g noise variances apart) and with non-negative ones (non-negativity costs them %.4g and %.4g noise variances, each within what clipping the noise of its spectra gives, at most %.4g and %.4g at %.3g per held point; slow–fast ambiguity); the reported values are the ones the resolved profiles point to, not confirmed by the data: give a known spectrum (--known-spectrum) or a rate constant (--k-fixed) to decide",
 		sw.kn.kList(best.K), sw.kn.kList(alt.K), free, b.Scaled, a.Scaled, b.NoiseLimit(perHeld), a.NoiseLimit(perHeld), perHeld))
 }
@@ -2161,6 +2162,9 @@ func (kn *Kinetics) fitJSON(f *KineticFit) KineticFitJSON {
 		out.Amplitudes = append(out.Amplitudes, round(finite(a)))
 	}
 	out.DeterminedSum = kn.sumJSON(fr)
+	for _, k := range fr.OrderAlternative {
+		out.OrderAlternative = append(out.OrderAlternative, round(finite(k)))
+	}
 	out.T0Fit = t0FitJSON(fr)
 	out.OneNoiseLevel = kn.oneLevelJSON(f.OneLevel, f.OneLevelSum, determinedSum(fr), f.EachWeighted != nil)
 	out.EachSpectrumWeighted = kn.eachWeightedJSON(f.EachWeighted, f.EachWeightedSum, determinedSum(fr))

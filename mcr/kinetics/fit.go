@@ -106,6 +106,12 @@ type FitResult struct {
 	// sumGrad is ∂(Σ k)/∂θ over the fit's parameters (ln k, ln c0), the
 	// direction the widenings of SumKStdErr are taken along.
 	sumGrad []float64
+	// OrderAlternative, when the data cannot tell the order of the rate
+	// constants (a slow–fast ambiguity the pipeline's order check found:
+	// both orders fit alike, with free and with non-negative spectra), is
+	// the other order's constants, per step; nil when the order is
+	// determined or was not checked.
+	OrderAlternative []float64
 	// influence is each spectrum's influence on the parameters (the
 	// sandwich's, robustErrors), for DifferenceErrors; nil when the
 	// sandwich was not formed.
