@@ -416,9 +416,10 @@ func (b *baselineFits) rss(q int) float64 {
 // (one F-test with 2n coefficients): a drift the lower order misses, a
 // slope about the axis's middle or a curvature with no mean, shows in the
 // next order only, and a copy of the real catalyst-0.01 series with
-// counts noise added stopped at an offset with p = 0.053 where the linear
-// term had p = 2·10⁻⁸ and the quadratic 3·10⁻⁵⁰, and its drift went into
-// the species (the rate constant twice the noise-free one). When the
+// counts noise added stopped at an offset with p = 0.47, where the offset
+// and the slope together have p = 5·10⁻⁵ and the quadratic and the cubic
+// 10⁻¹⁰ each, and its drift went into the species (the rate constant
+// twice the noise-free one). When the
 // joint test is not significant either, the search ends. On data without
 // a baseline the search ends at the offset's test or at its joint test
 // with the slope: a baseline is chosen with probability at most 2·alpha
