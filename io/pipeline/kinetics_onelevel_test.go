@@ -210,13 +210,7 @@ func TestOneNoiseLevelWarnsForAWrongOrder(t *testing.T) {
 func TestUrethaneRateAgreesWithTheIsocyanateArea(t *testing.T) {
 	dir, ser, area := realUrethaneSeries(t, "catalyst-1.00")
 	want := firstOrderRate(ser.Times, area)
-	st := NewSettings()
-	st.Data, st.Kind, st.TimesFromName, st.Model = []string{dir}, "absorbance", true, "A -> B"
-	st.Report, st.Bands, st.Checks = "off", "off", "off"
-	r, err := Run(st, nil)
-	if err != nil {
-		t.Fatal(err)
-	}
+	r := resolveFolder(t, dir, "A -> B")
 	d := r.Kinetics.Reported()
 	if d == nil || d.Method != "data" {
 		t.Fatalf("the data fit is not the one reported: %+v", d)

@@ -50,6 +50,22 @@ func realUrethaneSeries(t *testing.T, series string) (dir string, ser *spectra.S
 	return dir, ser, isocyanateAreas(ser)
 }
 
+// resolveFolder resolves a folder of absorbance exports whose names carry
+// their times (the real urethane series as their README says, or a copy),
+// with model (none when empty) and the report, checks and uniqueness
+// ranges off.
+func resolveFolder(t *testing.T, dir, model string) *Result {
+	t.Helper()
+	st := NewSettings()
+	st.Data, st.Kind, st.TimesFromName, st.Model = []string{dir}, "absorbance", true, model
+	st.Report, st.Bands, st.Checks = "off", "off", "off"
+	r, err := Run(st, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return r
+}
+
 // repeatRatio is R = [Σ_j (d₂ − d₁)²/2] / [Σ_j (d₃ − 2d₂ + d₁)²/6] over the first three
 // spectra: for repeats of one state with equal noise both are Σ σ_j² (the variance of a
 // sum of independent values, definition), so R ≈ 1; a change δ between spectra 1 and 2

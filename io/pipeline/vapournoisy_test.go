@@ -75,13 +75,7 @@ func TestNoisyUrethaneVapourNotASpecies(t *testing.T) {
 func vapourNotASpecies(t *testing.T, sigmaI float64, seed uint64) *Result {
 	t.Helper()
 	dir, ser := noisyUrethane(t, "catalyst-0.01", sigmaI, seed, nil)
-	st := NewSettings()
-	st.Data, st.Kind, st.TimesFromName = []string{dir}, "absorbance", true
-	st.Report, st.Bands, st.Checks = "off", "off", "off"
-	r, err := Run(st, nil)
-	if err != nil {
-		t.Fatal(err)
-	}
+	r := resolveFolder(t, dir, "")
 	if r.Components != 2 {
 		t.Fatalf("seed %d: %d components, want 2 (one reaction, the data set's README): %q", seed, r.Components, r.Notes)
 	}
@@ -134,13 +128,7 @@ func TestVeryNoisyUrethaneCarbonDioxideNotASpecies(t *testing.T) {
 // reference here.)
 func TestVeryNoisyUrethaneKeepsItsBaseline(t *testing.T) {
 	rate := func(dir string) (*Result, float64, float64) {
-		st := NewSettings()
-		st.Data, st.Kind, st.TimesFromName, st.Model = []string{dir}, "absorbance", true, "A -> B"
-		st.Report, st.Bands, st.Checks = "off", "off", "off"
-		r, err := Run(st, nil)
-		if err != nil {
-			t.Fatal(err)
-		}
+		r := resolveFolder(t, dir, "A -> B")
 		d := r.Kinetics.Reported()
 		if d == nil {
 			t.Fatal("no kinetic fit reported")
@@ -189,13 +177,7 @@ func TestNoisyUrethaneSpeciesBesideVapour(t *testing.T) {
 	dir, _ := noisyUrethane(t, "catalyst-0.01", 2e-3, 1, func(x, tm float64) float64 {
 		return 0.03 * band(x) * (tm / tau) * math.Exp(1-tm/tau)
 	})
-	st := NewSettings()
-	st.Data, st.Kind, st.TimesFromName = []string{dir}, "absorbance", true
-	st.Report, st.Bands, st.Checks = "off", "off", "off"
-	r, err := Run(st, nil)
-	if err != nil {
-		t.Fatal(err)
-	}
+	r := resolveFolder(t, dir, "")
 	if r.Components != 3 {
 		t.Fatalf("%d components; want 3 (two of the series, one added): %q", r.Components, r.Notes)
 	}

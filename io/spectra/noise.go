@@ -1976,22 +1976,21 @@ func newAbsorbanceVariances(values *mat.Dense, sigI, refVar []float64, blank boo
 // measured. Only for spectra whose levels differ: equally noisy beams keep
 // newAbsorbanceVariances' bits.
 func newAbsorbanceVariancesScaled(values *mat.Dense, sigI, refVar []float64, blank bool, factor []float64) *absorbanceVariances {
-	_, m := values.Dims()
-	scaled := func(i int) []float64 {
-		out := make([]float64, m)
+	// Row i's variances are newAbsorbanceVariances' with σ_I scaled by f_i
+	// (the functions are called for many rows at once: no shared buffer).
+	row := func(i int) *absorbanceVariances {
+		sig := make([]float64, len(sigI))
 		for j, x := range sigI {
-			out[j] = factor[i] * x
+			sig[j] = factor[i] * x
 		}
-		return out
+		return newAbsorbanceVariances(values, sig, refVar, blank)
 	}
-	base := newAbsorbanceVariances(values, sigI, refVar, blank)
-	v := &absorbanceVariances{nf: base.nf}
-	v.vars = func(i int, o []float64) { newAbsorbanceVariances(values, scaled(i), refVar, blank).vars(i, o) }
-	v.abs = func(i int, o []float64) { newAbsorbanceVariances(values, scaled(i), refVar, blank).abs(i, o) }
-	if base.logVars != nil {
-		v.logVars = func(i int, o []float64) bool {
-			return newAbsorbanceVariances(values, scaled(i), refVar, blank).logVars(i, o)
-		}
+	v := &absorbanceVariances{nf: 1}
+	v.vars = func(i int, o []float64) { row(i).vars(i, o) }
+	v.abs = func(i int, o []float64) { row(i).abs(i, o) }
+	if blank {
+		v.nf = 2
+		v.logVars = func(i int, o []float64) bool { return row(i).logVars(i, o) }
 	}
 	return v
 }
