@@ -111,7 +111,7 @@ func experimentReferenceDOF(r *Result, e *Experiment, rowW []float64, qc *mat.De
 	for _, l := range e.RefRows {
 		s[e.FirstRow+l] = u[e.FirstRow+l]
 	}
-	mu, ms := offSpan(qc, u), offSpan(qc, s)
+	mu, ms := kinetics.OffSpan(qc, u), kinetics.OffSpan(qc, s)
 	left := dot(mu, mu) - 2*dot(mu, ms)
 	lit := litShare(r, e)
 	sum := 0.0
@@ -166,18 +166,6 @@ func leverages(q *mat.Dense) []float64 {
 		h[i] = dot(row, row)
 	}
 	return h
-}
-
-// offSpan returns (I − q qᵀ) v for an orthonormal basis q.
-func offSpan(q *mat.Dense, v []float64) []float64 {
-	var c, p mat.VecDense
-	c.MulVec(q.T(), mat.NewVecDense(len(v), v))
-	p.MulVec(q, &c)
-	out := make([]float64, len(v))
-	for i := range v {
-		out[i] = v[i] - p.AtVec(i)
-	}
-	return out
 }
 
 func dot(a, b []float64) float64 {

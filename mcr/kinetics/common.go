@@ -79,8 +79,8 @@ func (p *fitProblem) commonCovariance(lm *LMResult, model, spectra *mat.Dense) (
 				s[i] = u[i]
 			}
 		}
-		alpha := sensitivityProducts(dm, offSpan(basis, u), q)
-		beta := sensitivityProducts(dm, offSpan(basis, s), q)
+		alpha := sensitivityProducts(dm, OffSpan(basis, u), q)
+		beta := sensitivityProducts(dm, OffSpan(basis, s), q)
 		w := weightedGram(spectra, ce.Variance, p.opt.ColWeights)
 		var wa, wb, t mat.Dense
 		wa.Mul(w, alpha) // q × np
@@ -138,8 +138,10 @@ func weightedGram(spectra *mat.Dense, variance, col []float64) *mat.Dense {
 	return w
 }
 
-// offSpan returns (I − Q Qᵀ) v for an orthonormal basis Q.
-func offSpan(basis *mat.Dense, v []float64) []float64 {
+// OffSpan returns (I − Q Qᵀ) v for an orthonormal basis Q: the part of v
+// the columns of Q do not reach (the reference's share of the data fit's
+// errors, here and in the pipeline's rows of it).
+func OffSpan(basis *mat.Dense, v []float64) []float64 {
 	var c, pv mat.VecDense
 	c.MulVec(basis.T(), mat.NewVecDense(len(v), v))
 	pv.MulVec(basis, &c)
