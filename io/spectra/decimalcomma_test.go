@@ -62,6 +62,30 @@ func TestReadTimesDecimalComma(t *testing.T) {
 	}
 }
 
+// A comma-separated row holds as many fields as its header (RFC 4180, §2
+// rule 4: each line the same number of fields), so a times row with one
+// more is refused, never read from its first cells: a decimal comma
+// written bare, b.csv,12,5, is the common case (a European spreadsheet's
+// "12,5", common practice) and the message says how to write it; quoted,
+// "12,5" is read by the file's rule for quoted decimal commas (fileMarks).
+func TestTimesRowNotTruncated(t *testing.T) {
+	for _, c := range []struct{ text, want string }{
+		{"file,time_s\na.csv,0\nb.csv,12,5\n",
+			`times.csv:3: row "b.csv,12,5" has 3 cells, the header has 2; 12,5 has a decimal comma, which a comma-separated file reads as a separator: quote it ("12,5"), write a decimal point (12.5), or separate the columns with ';'`},
+		{"time_s,file\n0,a.csv\n12,5,b.csv\n", `row "12,5,b.csv" has 3 cells, the header has 2; 12,5 has a decimal comma`},
+		{"file,time_s\na.csv,0\nb.csv,12.5,late\n", `row "b.csv,12.5,late" has 3 cells, the header has 2; give each row the header's cells`},
+	} {
+		tab, err := ReadTimes(fuzzFile(t, "times.csv", []byte(c.text)))
+		if err == nil || !strings.Contains(err.Error(), c.want) || strings.Contains(err.Error(), "\n") {
+			t.Errorf("%q: read %v, error %v; want one line with %q", c.text, tab, err, c.want)
+		}
+	}
+	tab, err := ReadTimes(fuzzFile(t, "times.csv", []byte("file,time_s\na.csv,0\nb.csv,\"12,5\"\n")))
+	if err != nil || tab["b.csv"] != 12.5 {
+		t.Errorf("quoted \"12,5\": %v %v, want 12.5 s", tab, err)
+	}
+}
+
 // A comma-separated file may quote a cell to hold the separator (RFC 4180,
 // §2 rules 5 and 6): "1234,5","0,0123" is two numbers with decimal commas,
 // the same as the ';'-separated 1234,5;0,0123 (a European spreadsheet's two

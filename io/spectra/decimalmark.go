@@ -208,3 +208,28 @@ func (m marks) hint(b []byte, dflt string) string {
 	}
 	return dflt
 }
+
+// splitAtDecimalComma says cells i and i+1 of a comma-separated row are
+// one number cut at its decimal comma: "12" and "5" from 12,5, which
+// the separator split (looksLikeDecimalComma of the two joined).
+func splitAtDecimalComma(cells [][]byte, sep byte, i int) bool {
+	if sep != ',' || i < 0 || i+1 >= len(cells) {
+		return false
+	}
+	joined := append(append(append([]byte{}, cells[i]...), ','), cells[i+1]...)
+	return looksLikeDecimalComma(joined)
+}
+
+// extraCells refuses a row of more cells than the header's want, naming
+// the row: when its cell at col and the next read as one number with a
+// decimal comma, the advice is how a comma-separated file writes one
+// (quoted, fileMarks; or with a decimal point, or ';' separators).
+func extraCells(path string, l line, cells [][]byte, want int, sep byte, col int) error {
+	hint := "give each row the header's cells; quote a cell that holds the separator (\"run 7, b.csv\")"
+	if splitAtDecimalComma(cells, sep, col) {
+		num := string(cells[col]) + "," + string(cells[col+1])
+		hint = fmt.Sprintf("%s has a decimal comma, which a comma-separated file reads as a separator: quote it (\"%s\"), write a decimal point (%s), or separate the columns with ';'",
+			num, num, string(cells[col])+"."+string(cells[col+1]))
+	}
+	return inputErr(path, l.n, hint, "row %s has %d cells, the header has %d", quoteCell(l.text), len(cells), want)
+}

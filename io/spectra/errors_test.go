@@ -22,7 +22,7 @@ func TestReadTimesLineNumbers(t *testing.T) {
 		{"time_s,name\n0,a.csv\n", `:1: header has no column "file"`},
 		{"file,time_s\n", ":1: times table has no rows"},
 		{"file,time_s\na.csv\n", ":2: row has 1 cell(s), the header has 2"},
-		{"file,time_s\na.csv,1,5\n", ""},                                        // extra cells after the two named columns are ignored
+		{"file,time_s\na.csv,1,5\n", `:2: row "a.csv,1,5" has 3 cells`},         // never read as 1 s (TestTimesRowNotTruncated)
 		{"file;time_s\na.csv;1,5\n", ""},                                        // ';' separators: decimal comma read (TestReadTimesDecimalComma)
 		{"file,time_s\n\"a.csv\",\"1,5\"\n", ""},                                // a quoted decimal comma (TestQuotedDecimalCommas)
 		{"file,time_s\n\"a.csv\",\"1,500\"\n", "separate the columns with ';'"}, // 1.5 or 1500: ambiguous

@@ -133,6 +133,11 @@ func ReadTimes(path string) (map[string]float64, error) {
 		if i > 0 && len(buf) <= max(fileCol, timeCol) {
 			return nil, inputErr(path, l.n, headHint, "row has %d cell(s), the header has %d", len(buf), len(hf))
 		}
+		if i > 0 && len(buf) > len(hf) {
+			// A cell beyond the header's is never dropped: in a
+			// comma-separated row it is most often a time's decimal comma.
+			return nil, extraCells(path, l, buf, len(hf), sep, timeCol)
+		}
 		rec := make([]string, len(hf))
 		for j := 0; j < len(hf) && j < len(buf); j++ {
 			rec[j] = string(buf[j])

@@ -840,7 +840,7 @@ func readSpectrumRows(path string, rows []line, m marks) (axis, vals []float64, 
 				return nil, nil, inputErr(path, l.n, "give two columns: axis, value", "row has one column")
 			}
 			hint := "a spectrum file holds exactly two columns: axis, value"
-			if sep == ',' && len(buf) == 4 && looksLikeDecimalComma(append(append([]byte{}, buf[0]...), append([]byte{','}, buf[1]...)...)) {
+			if len(buf) == 4 && splitAtDecimalComma(buf, sep, 0) {
 				hint = "the file seems to use decimal commas: use a semicolon or tab separator, or decimal points"
 			}
 			return nil, nil, inputErr(path, l.n, hint, "row has %d columns", len(buf))
