@@ -423,7 +423,7 @@ var options = func() []Option {
 		return nil
 	}, func(s *Settings) []string { return []string{strconv.FormatUint(s.Seed, 10)} }))
 	s21, g21 := str(func(s *Settings) *string { return &s.Init })
-	add(opt("init", "auto|purest|efa|FILE", "initial profiles: auto (resolve from purest variables and from EFA, keep the better final fit; before --hard-model that starts from the fit of the data, purest variables alone when they fit within the noise), purest, efa, or a profiles CSV", false, true, s21, g21))
+	add(opt("init", "auto|purest|efa|FILE", "initial profiles: auto (resolve from purest variables and from EFA, keep the better final fit; before --hard-model that starts from the fit of the data, purest variables alone when they fit within the noise), purest, efa, or a profiles CSV (time,NAME1,…; decimal commas read as in the data files)", false, true, s21, g21))
 	s22, g22 := choice(func(s *Settings) *string { return &s.EFAWindows }, "on", "off")
 	add(opt("efa-windows", "on|off", "pin profiles to zero where evolving factor analysis finds a component absent", false, true, s22, g22))
 	sw, gw := choice(func(s *Settings) *string { return &s.Weights }, "noise", "off")

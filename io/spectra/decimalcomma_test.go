@@ -188,3 +188,36 @@ func TestCommaMark(t *testing.T) {
 		}
 	}
 }
+
+// An initial-profiles file (--init FILE) reads its numbers as the spectrum,
+// matrix and times readers do: decimal commas with ';' or tab separators
+// (common practice: European locale spreadsheet exports), and quoted in a
+// comma-separated file (RFC 4180, §2 rules 5 and 6); each export gives the
+// numbers of the one written with decimal points.
+func TestProfilesDecimalCommas(t *testing.T) {
+	read := func(text string) ([]float64, error) {
+		p, err := ReadProfiles(fuzzFile(t, "p.csv", []byte(text)))
+		if err != nil {
+			return nil, err
+		}
+		return append(slices.Clone(p.Times), p.Values.RawMatrix().Data...), nil
+	}
+	want, err := read("time,A,B\n0,1,0\n12.5,0.875,0.125\n60,0.5,5e-1\n")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, text := range []string{
+		"time;A;B\n0;1;0\n12,5;0,875;0,125\n60;0,5;5e-1\n",
+		"time\tA\tB\n0\t1\t0\n12,5\t0,875\t0,125\n60\t0,5\t5e-1\n",
+		"\"time\",\"A\",\"B\"\n\"0\",\"1\",\"0\"\n\"12,5\",\"0,875\",\"0,125\"\n\"60\",\"0,5\",\"5e-1\"\n",
+	} {
+		got, err := read(text)
+		if err != nil || !slices.Equal(got, want) {
+			t.Errorf("%q: %v %v, want %v", text, got, err, want)
+		}
+	}
+	// A bare decimal comma in a comma-separated file stays refused.
+	if _, err := read("time,A,B\n0,1,0\n12,5,0.875,0.125\n"); err == nil || !strings.Contains(err.Error(), "p.csv:3: row has 4 cells") {
+		t.Errorf("bare decimal comma: %v", err)
+	}
+}

@@ -16,7 +16,9 @@ type Profiles struct {
 }
 
 // ReadProfiles reads "time,c1,c2,…" with a title row whose cells need not
-// be numbers, then one row per time. Times must be distinct.
+// be numbers, then one row per time. Times must be distinct. Numbers are
+// read as in spectrum and matrix files (fileMarks): decimal commas with
+// ';' or tab separators, and quoted in a comma-separated file.
 func ReadProfiles(path string) (*Profiles, error) {
 	raw, err := readAll(path)
 	if err != nil {
@@ -33,7 +35,11 @@ func ReadProfiles(path string) (*Profiles, error) {
 	if len(hf) < 2 {
 		return nil, inputErr(path, head.n, hint, "header has %d column(s)", len(hf))
 	}
-	if _, err := parseNumber(hf[0]); err == nil {
+	mk, err := fileMarks(path, lines[1:], sep, -1)
+	if err != nil {
+		return nil, err
+	}
+	if _, err := mk.cell(hf[0]); err == nil {
 		return nil, inputErr(path, head.n, hint, "first row is numbers, not a header")
 	}
 	k := len(hf) - 1
@@ -53,9 +59,9 @@ func ReadProfiles(path string) (*Profiles, error) {
 		if len(buf) != k+1 {
 			return nil, inputErr(path, l.n, fmt.Sprintf("every row needs %d cells (time + %d profiles) like the header", k+1, k), "row has %d cells, header has %d", len(buf), k+1)
 		}
-		t, err := parseNumber(buf[0])
+		t, err := mk.cell(buf[0])
 		if err != nil {
-			return nil, inputErr(path, l.n, "the first column must be the time in seconds", "time cell: %v", err)
+			return nil, inputErr(path, l.n, mk.hint(buf[0], "the first column must be the time in seconds"), "time cell: %v", err)
 		}
 		if prev, dup := seen[t]; dup {
 			return nil, inputErr(path, l.n, "each row needs its own time", "time %g s repeats line %d", t, prev)
@@ -63,9 +69,9 @@ func ReadProfiles(path string) (*Profiles, error) {
 		seen[t] = l.n
 		p.Times = append(p.Times, t)
 		for j := 0; j < k; j++ {
-			v, err := parseNumber(buf[j+1])
+			v, err := mk.cell(buf[j+1])
 			if err != nil {
-				return nil, inputErr(path, l.n, "replace it with a number", "column %d (%s): %v", j+2, quoteCell(hf[j+1]), err)
+				return nil, inputErr(path, l.n, mk.hint(buf[j+1], "replace it with a number"), "column %d (%s): %v", j+2, quoteCell(hf[j+1]), err)
 			}
 			p.Values.Set(i, j, v)
 		}
