@@ -339,6 +339,7 @@ func applyKnownSpectra(r *Result, opt *mcr.Options) error {
 		if err != nil {
 			return readFault("known-spectrum", err)
 		}
+		sp = inDataUnit(r, sp, "known spectrum "+strconv.Quote(file), r.Experiments[0].Series)
 		vals, err := spectra.OnAxis(sp, r.Axis, r.Experiments[0].Source, true)
 		if err != nil {
 			return err

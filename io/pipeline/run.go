@@ -382,7 +382,7 @@ func readExperiments(r *Result, p readingPlan, log io.Writer) ([]*mat.Dense, err
 	if err != nil {
 		return nil, err
 	}
-	blanks, refSpec, err := fixedSpectra(s, first, axis, chans, kind, p.refFile)
+	blanks, refSpec, err := fixedSpectra(r, first, axis, chans, kind, p.refFile)
 	if err != nil {
 		return nil, err
 	}
@@ -936,7 +936,8 @@ func regionAtFault(s *Settings, axis []float64, keep []spectra.Range) string {
 
 // fixedSpectra reads the blank single beams (one per experiment, nil
 // without) and the reference spectrum, when given, onto the common channels.
-func fixedSpectra(s *Settings, first *spectra.Series, axis []float64, chans []int, kind spectra.Kind, refFile string) ([][]float64, *spectra.Spectrum, error) {
+func fixedSpectra(r *Result, first *spectra.Series, axis []float64, chans []int, kind spectra.Kind, refFile string) ([][]float64, *spectra.Spectrum, error) {
+	s := r.Settings
 	var blanks [][]float64
 	if hasBlank(s) {
 		if kind != spectra.SingleBeam {
@@ -950,7 +951,7 @@ func fixedSpectra(s *Settings, first *spectra.Series, axis []float64, chans []in
 				if err != nil {
 					return nil, nil, readFault("blank", err)
 				}
-				if read[b], err = axisValues(bs, first, axis, chans, s.Resample); err != nil {
+				if read[b], err = axisValues(r, bs, "blank "+strconv.Quote(b), first, axis, chans); err != nil {
 					return nil, nil, err
 				}
 			}
@@ -963,7 +964,7 @@ func fixedSpectra(s *Settings, first *spectra.Series, axis []float64, chans []in
 		if err != nil {
 			return nil, nil, readFault("reference", err)
 		}
-		v, err := axisValues(rs, first, axis, chans, s.Resample)
+		v, err := axisValues(r, rs, "reference "+strconv.Quote(refFile), first, axis, chans)
 		if err != nil {
 			return nil, nil, err
 		}
@@ -1234,12 +1235,34 @@ func sameAxis(a, b []float64) bool {
 	return true
 }
 
-// axisValues puts a single spectrum onto the selected channels.
-func axisValues(sp *spectra.Spectrum, first *spectra.Series, axis []float64, chans []int, resample bool) ([]float64, error) {
-	if sameAxis(sp.Axis, first.Axis) {
-		return spectra.KeepValues(sp.Values, chans), nil
+// axisValues puts a single spectrum of the run (a blank, a reference, a
+// vapour spectrum), named what in notes, onto the selected channels: its
+// axis first in the unit of the data's (inDataUnit), then on the same
+// points or, with --resample, interpolated. A converted axis that still
+// differs needs --resample like any other; the error says it was
+// converted, since it quotes the points in the data's unit.
+func axisValues(r *Result, sp *spectra.Spectrum, what string, first *spectra.Series, axis []float64, chans []int) ([]float64, error) {
+	in := inDataUnit(r, sp, what, first)
+	if sameAxis(in.Axis, first.Axis) {
+		return spectra.KeepValues(in.Values, chans), nil
 	}
-	return spectra.OnAxis(sp, axis, first.Source, resample)
+	v, err := spectra.OnAxis(in, axis, first.Source, r.Settings.Resample)
+	if err != nil && in != sp {
+		return nil, fmt.Errorf("%w (its %s axis converted to the data's %s first, 10⁷/x)", err, sp.AxisName, first.AxisName)
+	}
+	return v, err
+}
+
+// inDataUnit is spectra.InUnitOf, its notes added to r's once each (a
+// file named for several experiments says it once).
+func inDataUnit(r *Result, sp *spectra.Spectrum, what string, first *spectra.Series) *spectra.Spectrum {
+	in, notes := spectra.InUnitOf(sp, first, what)
+	for _, n := range notes {
+		if !slices.Contains(r.Notes, n) {
+			r.Notes = append(r.Notes, n)
+		}
+	}
+	return in
 }
 
 func resampleSeries(ser *spectra.Series, axis []float64) (*spectra.Series, error) {

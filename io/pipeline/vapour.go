@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strconv"
 	"strings"
 
 	"github.com/bandsolve/bandsolve/io/output"
@@ -461,7 +462,7 @@ func readLineSpectra(r *Result, first *spectra.Series, axis []float64, chans []i
 		if err != nil {
 			return readFault("vapour", err)
 		}
-		v, err := axisValues(sp, first, axis, chans, s.Resample)
+		v, err := axisValues(r, sp, "vapour "+strconv.Quote(f), first, axis, chans)
 		if err != nil {
 			return err
 		}

@@ -5,6 +5,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 )
@@ -103,5 +104,60 @@ func TestFileAndJCAMPMicrometres(t *testing.T) {
 		if err != nil || sp.Axis[0] != 2500 || sp.Note != "" {
 			t.Errorf("%q: %v %v", text, sp, err)
 		}
+	}
+}
+
+// A single spectrum read for a series (a blank, a reference) is put in the
+// unit of the series' axis: a wavelength against wavenumbers, or the
+// reverse, point by point by the definition of the wavenumber, ν̃ = 1/λ, so
+// ν̃/cm⁻¹ = 10⁴/(λ/µm) = 10⁷/(λ/nm) (IUPAC Green Book, 3rd ed., §2.7; SI
+// prefixes), with its µm note and one that says so. Only units a title or
+// ##XUNITS stated are converted, and only axes that do not match already:
+// a name guessed from the values converts nothing.
+func TestSpectrumInSeriesUnit(t *testing.T) {
+	read := func(text string) *Spectrum {
+		sp, err := ReadSpectrum(fuzzFile(t, "b.csv", []byte(text)))
+		if err != nil {
+			t.Fatal(err)
+		}
+		return sp
+	}
+	um := "Wavelength (um),I\n5,100\n6.25,200\n8,300\n"
+	cm := "Wavenumber (cm-1),I\n2000,100\n1600,200\n1250,300\n"
+	untitled := "2000,100\n1600,200\n1250,300\n"
+	wn := &Series{AxisName: "wavenumber", Axis: []float64{2000, 1600, 1250}}
+	nm := &Series{AxisName: "wavelength", Axis: []float64{5000, 6250, 8000}}
+	guessedNM := &Series{AxisName: "wavelength", AxisGuessed: true, Axis: []float64{5000, 6250, 8000}}
+	for _, c := range []struct {
+		name, text string
+		ser        *Series
+		axis       []float64
+		notes      []string
+	}{
+		{"µm on cm⁻¹", um, wn, []float64{2000, 1600, 1250},
+			[]string{`blank "b.csv": the axis "wavelength (um)" is a wavelength in µm: read as nm (×1000), then put on the data's wavenumber axis (cm⁻¹) point by point, ν̃/cm⁻¹ = 10⁷/(λ/nm)`}},
+		{"cm⁻¹ on µm read as nm", cm, nm, []float64{5000, 6250, 8000},
+			[]string{`blank "b.csv": its wavenumber axis (cm⁻¹) is put on the data's wavelength axis (nm) point by point, λ/nm = 10⁷/(ν̃/cm⁻¹)`}},
+		{"µm on nm: the series' note", um, nm, []float64{5000, 6250, 8000},
+			[]string{`blank "b.csv": the axis "wavelength (um)" is a wavelength in µm: read as nm (×1000), the unit of every output and of --exclude and other ranges`}},
+		{"same unit", cm, wn, []float64{2000, 1600, 1250}, nil},
+		{"unit of the spectrum guessed", untitled, nm, []float64{2000, 1600, 1250}, nil},
+		{"unit of the series guessed", cm, guessedNM, []float64{2000, 1600, 1250}, nil},
+	} {
+		sp := read(c.text)
+		got, notes := InUnitOf(sp, c.ser, `blank "b.csv"`)
+		ok := len(got.Axis) == len(c.axis) && slices.Equal(notes, c.notes)
+		for i := range c.axis {
+			ok = ok && math.Abs(got.Axis[i]-c.axis[i]) <= 1e-12*c.axis[i]
+		}
+		if !ok {
+			t.Errorf("%s: axis %v, notes %q; want %v, %q", c.name, got.Axis, notes, c.axis, c.notes)
+		}
+	}
+	// The same numbers under other names are taken as they are: the
+	// series' own axis in cm⁻¹, the spectrum's title saying nm.
+	sp := read("Wavelength (nm),I\n2000,100\n1600,200\n1250,300\n")
+	if got, notes := InUnitOf(sp, wn, "blank"); got != sp || notes != nil {
+		t.Errorf("matching axes converted: %v %q", got.Axis, notes)
 	}
 }

@@ -516,7 +516,7 @@ func folderAxis(dir string, specs []*Spectrum, first *Spectrum, resample bool) (
 // the target axis (resampled there when allowed), all of the first one's kind.
 func stackSpectra(dir string, files []string, specs []*Spectrum, times []float64, order []int, target []float64, keep []int, resample bool) (*Series, error) {
 	first, firstName := specs[order[0]], files[order[0]]
-	s := &Series{AxisName: first.AxisName, Axis: target, Source: dir, Kind: first.Kind, Units: first.Units}
+	s := &Series{AxisName: first.AxisName, AxisGuessed: first.AxisGuessed, Axis: target, Source: dir, Kind: first.Kind, Units: first.Units}
 	s.Values = mat.NewDense(len(files), len(target), nil)
 	tally := axisTally{ref: filepath.Base(firstName), axisName: first.AxisName}
 	for r, i := range order {

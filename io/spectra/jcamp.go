@@ -87,7 +87,8 @@ func blockSpectrum(path, src string, b jcamp.Block) (*Spectrum, error) {
 		kind = string(Absorbance)
 	}
 	acq, _ := jcampAcquired(b)
-	sp := &Spectrum{AxisName: jcampAxisName(b.XUnits, x), Axis: x, Values: y, Source: src, Kind: kind, Units: b.YUnits, Title: b.Title, Acquired: acq}
+	sp := &Spectrum{AxisName: jcampAxisName(b.XUnits, x), Axis: x, Values: y, Source: src, Kind: kind, Units: b.YUnits, Title: b.Title, Acquired: acq,
+		AxisGuessed: strings.TrimSpace(b.XUnits) == ""}
 	if sp.AxisName == "wavelength" && micrometres(b.XUnits) {
 		// JCAMP-DX 4.24 ##XUNITS=MICROMETERS: a wavelength in µm, put in nm
 		// as a matrix header's or a column title's is.
@@ -259,7 +260,7 @@ func (b jcampBlocks) series(times []float64, resample bool) (*Series, error) {
 		order[i] = i
 	}
 	sort.SliceStable(order, func(x, y int) bool { return times[order[x]] < times[order[y]] })
-	s := &Series{AxisName: first.AxisName, Axis: first.Axis, Source: b.path, Kind: first.Kind, Units: first.Units}
+	s := &Series{AxisName: first.AxisName, AxisGuessed: first.AxisGuessed, Axis: first.Axis, Source: b.path, Kind: first.Kind, Units: first.Units}
 	s.Values = mat.NewDense(len(b.sps), len(first.Axis), nil)
 	tally := axisTally{ref: b.name(first), axisName: first.AxisName}
 	for r, i := range order {

@@ -35,10 +35,13 @@ import (
 type Series struct {
 	AxisName string    // as in the input, e.g. "wavenumber"
 	Axis     []float64 // m points, in file order
-	Times    []float64 // n acquisition times in seconds
-	Names    []string  // where each spectrum came from
-	Values   *mat.Dense
-	Source   string // the path as opened, for error messages
+	// AxisGuessed says no title or unit named the axis: AxisName was
+	// guessed from its values (guessAxisName).
+	AxisGuessed bool
+	Times       []float64 // n acquisition times in seconds
+	Names       []string  // where each spectrum came from
+	Values      *mat.Dense
+	Source      string // the path as opened, for error messages
 	// Label is the path as the user wrote it (relative to a command
 	// file's folder, say), which notes kept in the results name: the
 	// opened path depends on the working directory, and a rerun from
@@ -88,6 +91,9 @@ type Spectrum struct {
 	// in µm put in nm, micrometresToNanometres), "" otherwise; a series of such
 	// spectra keeps it among its Notes.
 	Note string
+	// AxisGuessed says no title or unit named the axis: AxisName was
+	// guessed from its values (guessAxisName).
+	AxisGuessed bool
 }
 
 // InputError is an error in a user's file, reported with its place.
@@ -631,12 +637,13 @@ func (p *matrixParse) series(axisName string) (*Series, error) {
 	if err := checkAxis(p.path, p.axis, func(i int) int { return p.rows[i].n }); err != nil {
 		return nil, err
 	}
+	guessed := len(strings.Fields(axisName)) == 0
 	axisName, note := matrixAxisName(axisName, p.axis)
 	names := make([]string, p.n)
 	for j := range names {
 		names[j] = fmt.Sprintf("%s column %d", p.path, j+2)
 	}
-	s := &Series{AxisName: axisName, Axis: p.axis, Times: p.times, Names: names, Values: p.vals, Source: p.path}
+	s := &Series{AxisName: axisName, AxisGuessed: guessed, Axis: p.axis, Times: p.times, Names: names, Values: p.vals, Source: p.path}
 	if p.scan != nil {
 		p.scan.values = p.vals
 		s.scan = p.scan
@@ -678,8 +685,13 @@ func micrometresToNanometres(axis []float64, written string) string {
 	for i := range axis {
 		axis[i] *= 1000
 	}
-	return fmt.Sprintf("the axis %q is a wavelength in µm: read as nm (×1000), the unit of every output and of --exclude and other ranges", written)
+	return fmt.Sprintf("the axis %q is a wavelength in µm: read as nm (×1000)", written) + nmIsOutputUnit
 }
+
+// nmIsOutputUnit ends the note of an axis read from µm when nm is the
+// unit of the outputs; a single spectrum put on a data axis in cm⁻¹
+// (InUnitOf) says what became of its nm instead.
+const nmIsOutputUnit = ", the unit of every output and of --exclude and other ranges"
 
 // micrometres says a column title gives its unit as µm: "wavelength (um)",
 // "λ [µm]", "micrometers" (JCAMP-DX 4.24 ##XUNITS=MICROMETERS).
@@ -782,8 +794,8 @@ func ReadSpectrumFile(path string) (*Spectrum, error) {
 	if err := checkAxis(path, axis, lineOf); err != nil {
 		return nil, err
 	}
-	name, note := title.axisName(sep, axis)
-	return &Spectrum{AxisName: name, Axis: axis, Values: vals, Source: path, Note: note}, nil
+	name, note, guessed := title.axisName(sep, axis)
+	return &Spectrum{AxisName: name, Axis: axis, Values: vals, Source: path, Note: note, AxisGuessed: guessed}, nil
 }
 
 // spectrumTitle is the last non-numeric line before a spectrum's data
@@ -865,18 +877,18 @@ func readSpectrumRows(path string, rows []line, m marks) (axis, vals []float64, 
 // digits: "x,y" is, "Run 7" is not; "Wavenumber (cm-1)" is, digits and all.
 // A column title giving µm, "Wavelength (um)", puts the axis in nm in
 // place, with the note that says so, as a matrix header does
-// (matrixAxisName).
-func (t spectrumTitle) axisName(sep byte, axis []float64) (name, note string) {
+// (matrixAxisName). guessed says no title named it.
+func (t spectrumTitle) axisName(sep byte, axis []float64) (name, note string, guessed bool) {
 	name = cleanAxisName(t.first, axis)
 	title := name == "wavenumber" || name == "wavelength" ||
 		!(strings.ContainsAny(t.first, "0123456789") || t.sep != sep || t.cells != 2)
 	switch {
 	case !title:
-		return guessAxisName(axis), ""
+		return guessAxisName(axis), "", true
 	case name != "wavenumber" && micrometres(t.first):
-		return "wavelength", micrometresToNanometres(axis, t.first)
+		return "wavelength", micrometresToNanometres(axis, t.first), false
 	}
-	return name, ""
+	return name, "", len(strings.Fields(t.first)) == 0
 }
 
 // cleanAxisName maps a column title such as "Wavenumber (cm-1)" to the
@@ -927,7 +939,7 @@ func ReadSpectrum(path string) (*Spectrum, error) {
 	}
 	// A matrix CSV with exactly one spectrum column is a spectrum too.
 	if s, err2 := ReadMatrixCSV(path); err2 == nil && len(s.Times) == 1 {
-		sp := &Spectrum{AxisName: s.AxisName, Axis: s.Axis, Values: s.Values.RawRowView(0), Source: path}
+		sp := &Spectrum{AxisName: s.AxisName, AxisGuessed: s.AxisGuessed, Axis: s.Axis, Values: s.Values.RawRowView(0), Source: path}
 		if len(s.Notes) > 0 {
 			sp.Note = s.Notes[0] // the header's µm, the only note a matrix read gives
 		}
