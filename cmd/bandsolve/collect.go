@@ -34,8 +34,8 @@ k_per_s[STEP] columns hold: data, profiles or hard-soft), t0_s (the start
 time given, or the one a fitted t0 started from),
 kinetics_map, baseline, closure, noise_weights, outlier_spectra (how many
 set aside), region, exclude, drop, hard_model, c0, fit_c0, k_fixed and
-settings_id (a fingerprint of every setting but the inputs: equal ids, same
-analysis of other data); then k_per_s[FIT | STEPS | STEP] and
+settings_id (a fingerprint of every setting but the inputs, s and 12 hex
+digits: equal ids, same analysis of other data); then k_per_s[FIT | STEPS | STEP] and
 stderr_per_s[FIT | STEPS | STEP] for every fit, model and step met (STEPS is
 the model as its steps, so 'A -> B' and the A -> B of 'A -> B -> C' never
 share a column; a determined sum such as k1 + k2 is a STEP too), and notes

@@ -26,10 +26,10 @@ var recordColumns = map[string]string{"region": "region", "exclude": "exclude", 
 var inputKeywords = map[string]bool{"data": true, "blank": true, "times": true}
 
 // recordContext fills the context columns the as-run record holds, and
-// settings_id: the first 12 hex digits of the SHA-256 of every setting
-// line but the inputs, so rows with one settings_id are the same analysis
-// of different data. A folder without a readable record (an older
-// version, a record this version cannot parse) leaves them empty.
+// settings_id (settingsID) over every setting line but the inputs, so
+// rows with one settings_id are the same analysis of different data. A
+// folder without a readable record (an older version, a record this
+// version cannot parse) leaves them empty.
 func (r *row) recordContext(dir string) {
 	f := readRecord(filepath.Join(dir, pipeline.RecordName))
 	if f == nil {
@@ -50,7 +50,17 @@ func (r *row) recordContext(dir string) {
 	for _, col := range recordColumns {
 		r.cells[col] = strings.Join(vals[col], " ")
 	}
-	r.cells["settings_id"] = hex.EncodeToString(h.Sum(nil))[:12]
+	r.cells["settings_id"] = settingsID(h.Sum(nil))
+}
+
+// settingsID is "s" and the first 12 hex digits of the settings' SHA-256.
+// The letter keeps a spreadsheet from reading the id as a number, which
+// the digits alone may look like: 351901197280, or 254417705e29 read as
+// 2.544e37 (a cell that parses as a number is one, common practice);
+// the digits are the id collect wrote before the letter, so a table of
+// then still joins with one of now on the id less its first letter.
+func settingsID(sum []byte) string {
+	return "s" + hex.EncodeToString(sum)[:12]
 }
 
 func readRecord(p string) *cmdfile.File {

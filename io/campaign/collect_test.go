@@ -5,6 +5,7 @@ import (
 	"encoding/csv"
 	"os"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -218,7 +219,7 @@ func TestCollectKeysRatesByFitAndModel(t *testing.T) {
 			t.Errorf("row %d, %s = %q, want %q", c.row, c.col, got, c.want)
 		}
 	}
-	if id := cell(0, "settings_id"); len(id) != 12 || id == cell(4, "settings_id") || cell(1, "settings_id") != "" {
+	if id := cell(0, "settings_id"); len(id) != 13 || id == cell(4, "settings_id") || cell(1, "settings_id") != "" {
 		t.Errorf("settings_id: %q (other data %q, other region %q, no record %q)", id, cell(3, "settings_id"), cell(4, "settings_id"), cell(1, "settings_id"))
 	}
 }
@@ -288,6 +289,31 @@ func TestCollectSaysWhyAFolderHasNoResults(t *testing.T) {
 	for i := range want {
 		if problems[i] != want[i] {
 			t.Errorf("got  %q\nwant %q", problems[i], want[i])
+		}
+	}
+}
+
+// A settings_id is never read as a number by a spreadsheet, which takes a
+// cell that parses as a number for one (common practice; strconv.ParseFloat
+// accepts what they do here: digits, or digits with an exponent e). The
+// records of seed 509 and seed 625 alone hash to SHA-256 prefixes of
+// digits only, 351901197280, and of 254417705e29 (2.544e37); the id keeps
+// those digits after its letter, so an older table's id is the new one
+// less its first letter.
+func TestSettingsIDIsNeverANumber(t *testing.T) {
+	root := t.TempDir()
+	for _, c := range []struct{ seed, digits string }{{"509", "351901197280"}, {"625", "254417705e29"}} {
+		dir := writeSummary(t, filepath.Join(root, c.seed), `{}`)
+		if err := os.WriteFile(filepath.Join(dir, "as-run.bsr"), []byte("seed "+c.seed+"\n"), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		tab, problems := Collect([]string{dir})
+		if len(problems) != 0 {
+			t.Fatal(problems)
+		}
+		id := tab.Rows[0][slices.Index(tab.Header, "settings_id")]
+		if _, err := strconv.ParseFloat(id, 64); err == nil || id != "s"+c.digits {
+			t.Errorf("seed %s: settings_id %q, want %q, which reads as no number", c.seed, id, "s"+c.digits)
 		}
 	}
 }
