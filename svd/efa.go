@@ -8,7 +8,6 @@ import (
 	"github.com/bandsolve/bandsolve/internal/fanout"
 	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/lapack"
-	lapackgonum "gonum.org/v1/gonum/lapack/gonum"
 	"gonum.org/v1/gonum/lapack/lapack64"
 	"gonum.org/v1/gonum/mat"
 )
@@ -391,9 +390,8 @@ func (q *squareValues) bidiagonal(k int, r *mat.Dense, s []float64) bool {
 	if !(big >= 1e-100 && big <= 1e100) {
 		return false
 	}
-	var impl lapackgonum.Implementation
 	w := q.work[k]
-	impl.Dgebrd(p, p, a, p, s, w, w[p:], w[2*p:], w[3*p:], len(w)-3*p)
+	bidiagonalize(p, a, s, w[:p], w[3*p:])
 	return true
 }
 
