@@ -752,6 +752,18 @@ func (p *bandProblem) extreme(j int, sign float64) ([]float64, float64, bool, in
 // within 4.4·10⁻⁶ on the demo (docs/performance-history.md).
 const sqpTol = 1e-5
 
+// sqpFeas is how far above the allowance's boundary a range's end within
+// the noise may stop (minimiseSQP's feas, on c = √(rise/allowance) − 1):
+// 10⁻⁴, the rise within 2·10⁻⁴ of the allowance, a fifth of the Tolerance
+// (10⁻³ by default) to which the end is judged to keep it. What stopping
+// there instead of at c ≤ sqpTol can move the end is already in the
+// stopping test's λ|c| ≤ sqpTol; the last ten or so steps of a search
+// took c from about 10⁻³ to 10⁻⁵ at a near-constant f_j. On the four
+// reference runs the ends moved by at most 2.1·10⁻⁶ of themselves, and
+// the 2000 × 3001 run's ten searches took 203 steps instead of 264
+// (docs/performance-history.md, twenty-fourth round).
+const sqpFeas = 1e-4
+
 // noiseSQP carries the exact-fit end theta0 out to the boundary of the
 // noise allowance by minimiseSQP within a sixteenth of the budget, and
 // returns the end (theta0 itself when the search ends no further out),
@@ -759,7 +771,7 @@ const sqpTol = 1e-5
 // Tolerance, the evaluations and whether the search converged.
 func (p *bandProblem) noiseSQP(j int, sign float64, theta0 []float64) ([]float64, float64, bool, int, bool) {
 	startF := p.startShare(theta0, j)
-	r := minimiseSQP(bandNoise{p, j, sign}, theta0, sqpOptions{maxEval: p.opt.MaxEvaluations / 16, tol: sqpTol})
+	r := minimiseSQP(bandNoise{p, j, sign}, theta0, sqpOptions{maxEval: p.opt.MaxEvaluations / 16, tol: sqpTol, feas: sqpFeas})
 	a, b, _, ok := p.rotate(p.rotation(r.x))
 	if !ok || p.rise(a, b, nil, nil) > p.allow*(1+p.opt.Tolerance) {
 		return theta0, startF, false, r.evals, false

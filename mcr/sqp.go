@@ -11,11 +11,13 @@ type constrainedObjective interface {
 	gradients(gg, gc []float64)
 }
 
-// sqpOptions are minimiseSQP's settings: the evaluations it may use and
-// the accuracy tol asked of g (see minimiseSQP).
+// sqpOptions are minimiseSQP's settings: the evaluations it may use, the
+// accuracy tol asked of g and the excess feas of c above zero still taken
+// as on the boundary (see minimiseSQP; 0 means tol).
 type sqpOptions struct {
 	maxEval int
 	tol     float64
+	feas    float64
 }
 
 // sqpResult is where minimiseSQP stopped: the point, g and c there, the
@@ -43,7 +45,7 @@ type sqpResult struct {
 // It stops, converged, when the step it would take next promises less
 // than tol: |∇gᵀd| + λ|c| ≤ tol, the first-order change of g to the
 // constrained minimum (∇gᵀd along the step; λ|c| for putting c back to
-// zero, λ being the minimum's sensitivity to c), with c ≤ tol. The sum
+// zero, λ being the minimum's sensitivity to c), with c ≤ feas. The sum
 // is at least dᵀBd (with the constraint active ∇gᵀd = −dᵀBd + λc), so the
 // test cannot pass while the model still asks for a long step. Without it
 // the search ends on its budget or when the line search finds no
@@ -61,11 +63,15 @@ func minimiseSQP(f constrainedObjective, x0 []float64, o sqpOptions) sqpResult {
 		return sq.result(false)
 	}
 	first := true // B was just reset
+	feas := o.feas
+	if feas <= 0 {
+		feas = o.tol
+	}
 	for {
 		sq.factorModel()
 		lambda := sq.setStep()
 		gd := dot(sq.gg, sq.d)
-		if math.Abs(gd)+lambda*math.Abs(sq.c) <= o.tol && sq.c <= o.tol {
+		if math.Abs(gd)+lambda*math.Abs(sq.c) <= o.tol && sq.c <= feas {
 			return sq.result(true)
 		}
 		if sq.evals >= o.maxEval {
