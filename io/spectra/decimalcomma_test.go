@@ -221,3 +221,45 @@ func TestProfilesDecimalCommas(t *testing.T) {
 		t.Errorf("bare decimal comma: %v", err)
 	}
 }
+
+// A file separated by ';', tabs or blanks writes one decimal mark, its
+// locale's (common practice of spreadsheet and instrument exports): among
+// decimal commas a cell "50.901" is most likely digit grouping (50 901;
+// groups of three digits, SI Brochure, 9th ed., from memory), and read as
+// 50.901 it became a value a thousand times too small and a blind point
+// without a word. Such a cell is refused with its line and the cell that
+// decided the file's mark, in matrix, spectrum and times files alike, and
+// so is a decimal comma among decimal points.
+func TestMixedDecimalMarksRefused(t *testing.T) {
+	for _, c := range []struct {
+		name, text, want string
+		read             func(p string) error
+	}{
+		{"matrix", "wavenumber;0;60\n1900;50901,519;50871,188\n1898;50.901;50880,491\n",
+			`m.csv:3: column 2 (time 0 s): "50.901" has a decimal point among numbers with decimal commas; the file writes decimal commas (line 2 has "50901,519")`,
+			func(p string) error { _, err := ReadMatrixCSV(p); return err }},
+		{"matrix, tabs", "wavenumber\t0\t60\n1900\t0,5\t0.25\n1899\t0,5\t0,5\n",
+			`m.csv:2: column 3 (time 60 s): "0.25" has a decimal point among numbers with decimal commas`,
+			func(p string) error { _, err := ReadMatrixCSV(p); return err }},
+		{"matrix, comma among points", "wavenumber;0;60\n1900.5;0.5;0.25\n1899;0,125;0.5\n",
+			`m.csv:3: column 2 (time 0 s): "0,125" has a decimal comma among numbers with decimal points; the file writes decimal points (line 2 has "1900.5")`,
+			func(p string) error { _, err := ReadMatrixCSV(p); return err }},
+		{"spectrum", "wavenumber;intensity\n1900;50901,51901\n1898;50845,11289\n1896;50.901\n",
+			`m.csv:4: value cell: "50.901" has a decimal point among numbers with decimal commas`,
+			func(p string) error { _, err := ReadSpectrumFile(p); return err }},
+		{"times", "file;time_s\na.csv;0,5\nb.csv;1.5\n",
+			`m.csv:3: time of "b.csv": "1.5" has a decimal point among numbers with decimal commas`,
+			func(p string) error { _, err := ReadTimes(p); return err }},
+	} {
+		err := c.read(fuzzFile(t, "m.csv", []byte(c.text)))
+		if err == nil || !strings.Contains(err.Error(), c.want) || strings.Contains(err.Error(), "\n") {
+			t.Errorf("%s: error %v, want one line with %q", c.name, err, c.want)
+		}
+	}
+	// Integers beside either mark decide nothing.
+	for _, text := range []string{"wavenumber;0;60\n1900;1;0,25\n1899;2;0,5\n", "wavenumber;0;60\n1900;1;0.25\n1899;2;0.5\n"} {
+		if s, err := ReadMatrixCSV(fuzzFile(t, "m.csv", []byte(text))); err != nil || s.Values.At(1, 0) != 0.25 {
+			t.Errorf("%q: %v", text, err)
+		}
+	}
+}

@@ -16,6 +16,15 @@ import (
 // leading zero, four digits before the comma or an exponent) say decimal
 // comma, "0.0123" says decimal point. A file whose quoted numbers could
 // all be either is refused, naming the first: neither reading is safer.
+//
+// A file separated by ';', tabs or blanks reads a decimal comma in any
+// cell ("1234,5;0,0123"), and its first number with a decimal mark
+// decides the mark of the rest as well: a decimal point among decimal
+// commas ("50.901" where the rest write 50901,519) is most likely digit
+// grouping, 50 901, and read as 50.901 it would be a value a thousand
+// times too small; a decimal comma among decimal points likewise. Both
+// are refused naming the cell and the one that decided (one decimal mark
+// per file: the locale's, common practice of spreadsheet exports).
 
 // markKind is what one cell says of how its file writes decimals.
 type markKind int
@@ -143,7 +152,7 @@ type cellAt struct {
 // comma in any cell, as parseCell does.
 func fileMarks(path string, lines []line, sep byte, col int) (marks, error) {
 	if sep != ',' {
-		return marks{sep: sep}, nil
+		return otherMarks(lines, sep, col), nil
 	}
 	var buf [][]byte
 	var either cellAt
@@ -177,13 +186,47 @@ func fileMarks(path string, lines []line, sep byte, col int) (marks, error) {
 	return marks{sep: sep}, nil
 }
 
+// otherMarks decides the decimal mark of a file separated by sep, not a
+// comma: its first number with a decimal point, or with a decimal comma
+// (which such a file reads in any cell, parseCell), decides; a file of
+// integers decides nothing, and by stays empty.
+func otherMarks(lines []line, sep byte, col int) marks {
+	var buf [][]byte
+	for _, l := range lines {
+		if bytes.IndexByte(l.text, ',') < 0 && bytes.IndexByte(l.text, '.') < 0 {
+			continue
+		}
+		buf = fields(l.text, sep, buf)
+		for j, c := range buf {
+			if col >= 0 && j != col {
+				continue
+			}
+			switch cellMark(c) {
+			case markPoint, markGrouped:
+				return marks{sep: sep, by: cellAt{l.n, quoteCell(c)}}
+			case markComma, markEither:
+				return marks{sep: sep, comma: true, by: cellAt{l.n, quoteCell(c)}}
+			}
+		}
+	}
+	return marks{sep: sep}
+}
+
 // cell reads one number of the file. A decimal comma is read in a file
 // not separated by commas (parseCell), and in a comma-separated one whose
 // numbers write it (fileMarks); there a decimal point is refused, as a
 // comma is in a file of decimal points.
 func (m marks) cell(b []byte) (float64, error) {
 	if !m.comma {
-		return parseCell(b, m.sep)
+		v, err := parseNumber(b)
+		if err == nil || m.sep == ',' {
+			return v, err
+		}
+		w, err2 := parseCell(b, m.sep)
+		if err2 == nil && m.by.line > 0 {
+			return 0, fmt.Errorf("%s has a decimal comma among numbers with decimal points", quoteCell(b))
+		}
+		return w, err2
 	}
 	if bytes.IndexByte(b, '.') >= 0 {
 		if _, err := parseNumber(b); err == nil {
@@ -200,8 +243,8 @@ func (m marks) hint(b []byte, dflt string) string {
 	case cellMark(b) == markGrouped:
 		return "write the numbers without digit grouping (1234.5, not 1,234.5)"
 	case m.comma && bytes.IndexByte(b, '.') >= 0:
-		return fmt.Sprintf("write every number of the file with one decimal mark (line %d has %s)", m.by.line, m.by.cell)
-	case m.sep == ',' && !m.comma && m.by.line > 0 && bytes.IndexByte(b, ',') >= 0:
+		return fmt.Sprintf("the file writes decimal commas (line %d has %s), so a point may be digit grouping (50.901 for 50901): write every number of the file with one decimal mark, without digit grouping", m.by.line, m.by.cell)
+	case !m.comma && m.by.line > 0 && bytes.IndexByte(b, ',') >= 0:
 		return fmt.Sprintf("the file writes decimal points (line %d has %s): write every number with one decimal mark, without digit grouping", m.by.line, m.by.cell)
 	case looksLikeDecimalComma(b):
 		return "the file seems to use decimal commas: export with decimal points"
