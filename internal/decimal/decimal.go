@@ -85,3 +85,50 @@ exponent:
 	}
 	return v, true
 }
+
+// Plain says b is a plain decimal number, the only numbers a data file
+// holds: an optional sign, digits with at most one decimal point (at
+// least one digit), and an optional exponent (e or E, an optional sign,
+// digits). strconv.ParseFloat reads Go's literals too ("0x1.8dp+15",
+// "50_901.5", "1_20"), which no instrument or spreadsheet writes: in a
+// data file they are a corrupt or hand-edited cell, and read they would
+// be a silent value (1_20 became 120 s).
+func Plain(b []byte) bool {
+	i := 0
+	if i < len(b) && (b[i] == '-' || b[i] == '+') {
+		i++
+	}
+	digits, point := 0, false
+	for ; i < len(b); i++ {
+		c := b[i]
+		if c >= '0' && c <= '9' {
+			digits++
+		} else if c == '.' && !point {
+			point = true
+		} else {
+			break
+		}
+	}
+	if digits == 0 {
+		return false
+	}
+	if i == len(b) {
+		return true
+	}
+	if b[i] != 'e' && b[i] != 'E' {
+		return false
+	}
+	i++
+	if i < len(b) && (b[i] == '-' || b[i] == '+') {
+		i++
+	}
+	if i == len(b) {
+		return false
+	}
+	for ; i < len(b); i++ {
+		if b[i] < '0' || b[i] > '9' {
+			return false
+		}
+	}
+	return true
+}

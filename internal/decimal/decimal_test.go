@@ -44,3 +44,23 @@ func TestParseSameBitsAsStrconv(t *testing.T) {
 		}
 	}
 }
+
+// Plain accepts the decimal numbers instruments and spreadsheets write
+// (ISO 6093's forms NR1, NR2 and NR3: an integer, a number with a decimal
+// point, one with an exponent; from memory) and nothing else that
+// strconv.ParseFloat reads as Go syntax: hexadecimal mantissas and '_'
+// between digits (The Go Programming Language Specification, "Floating-
+// point literals"), nor NaN and Inf, which the readers refuse apart.
+func TestPlain(t *testing.T) {
+	for _, c := range []string{"0", "-0", "+1", "1.", ".5", "-.5", "24635.637", "1e5", "1E+05", "-1.25e-3", "12345678901234567890", "1e400"} {
+		if !Plain([]byte(c)) {
+			t.Errorf("Plain(%q) = false, a plain decimal", c)
+		}
+	}
+	for _, c := range []string{"", "+", ".", "-.", "e5", "1e", "1e+", "1.2.3", "--1", "0x10", "0x1.8dp+15", "0X1P-2",
+		"50_901.5", "1_20", "1_000", "inf", "-Inf", "NaN", "Infinity", "1,5", "1.5d3", " 1", "1 "} {
+		if Plain([]byte(c)) {
+			t.Errorf("Plain(%q) = true, not a plain decimal", c)
+		}
+	}
+}

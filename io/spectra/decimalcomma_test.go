@@ -263,3 +263,33 @@ func TestMixedDecimalMarksRefused(t *testing.T) {
 		}
 	}
 }
+
+// A data cell is a plain decimal number (ISO 6093's NR1–NR3 forms, from
+// memory: sign, digits, one decimal mark, exponent). strconv.ParseFloat
+// also reads Go's literals, hexadecimal and '_' between digits (The Go
+// Programming Language Specification, "Floating-point literals"), which
+// no instrument writes: the header time 1_20 was read as 120 s and a cell
+// 0x1.8dp+15 as 50816. Every reader refuses them naming the cell.
+func TestGoLiteralsRefused(t *testing.T) {
+	matrix := func(p string) error { _, err := ReadMatrixCSV(p); return err }
+	for _, c := range []struct {
+		name, text, want string
+		read             func(p string) error
+	}{
+		{"hexadecimal cell", "wavenumber,0,60\n1900,0.5,0.25\n1898,0x1.8dp+15,0.5\n", `x.csv:3: column 2 (time 0 s): "0x1.8dp+15" is not a number; write it as a plain decimal number`, matrix},
+		{"digit separator", "wavenumber,0,60\n1900,0.5,50_901.5\n", `x.csv:2: column 3 (time 60 s): "50_901.5" is not a number`, matrix},
+		{"header time", "wavenumber,0,1_20,120\n1900,0.5,0.25,0.1\n", `x.csv:1: column 3: "1_20" is not a number`, matrix},
+		{"spectrum", "wavenumber,absorbance\n1900,0.5\n0x1.dap+10,0.25\n", `x.csv:3: axis cell: "0x1.dap+10" is not a number`,
+			func(p string) error { _, err := ReadSpectrumFile(p); return err }},
+		{"times", "file,time_s\na.csv,0\nb.csv,1_20\n", `x.csv:3: time of "b.csv": "1_20" is not a number`,
+			func(p string) error { _, err := ReadTimes(p); return err }},
+		{"profiles", "time_s,a\n0,0.5\n0x3cp0,1\n", `x.csv:3: time cell: "0x3cp0" is not a number`,
+			func(p string) error { _, err := ReadProfiles(p); return err }},
+		{"not finite, as before", "wavenumber,0,60\n1900,0.5,-Inf\n", `"-Inf" is not a finite number`, matrix},
+	} {
+		err := c.read(fuzzFile(t, "x.csv", []byte(c.text)))
+		if err == nil || !strings.Contains(err.Error(), c.want) || strings.Contains(err.Error(), "\n") {
+			t.Errorf("%s: error %v, want one line with %q", c.name, err, c.want)
+		}
+	}
+}

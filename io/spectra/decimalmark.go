@@ -2,7 +2,11 @@ package spectra
 
 import (
 	"bytes"
+	"errors"
 	"fmt"
+	"strconv"
+
+	"github.com/bandsolve/bandsolve/internal/decimal"
 )
 
 // Decimal marks in comma-separated files. A double-quoted field may hold
@@ -240,6 +244,8 @@ func (m marks) cell(b []byte) (float64, error) {
 // say nothing.
 func (m marks) hint(b []byte, dflt string) string {
 	switch {
+	case goLiteral(b):
+		return "write it as a plain decimal number: digits with one decimal mark, an optional sign and exponent (50901.5, 5.09015e4), without hexadecimal or '_' between digits"
 	case cellMark(b) == markGrouped:
 		return "write the numbers without digit grouping (1234.5, not 1,234.5)"
 	case m.comma && bytes.IndexByte(b, '.') >= 0:
@@ -250,6 +256,17 @@ func (m marks) hint(b []byte, dflt string) string {
 		return "the file seems to use decimal commas: export with decimal points"
 	}
 	return dflt
+}
+
+// goLiteral says b is a number only in Go's syntax, which strconv reads
+// and parseNumber refuses: hexadecimal ("0x1.8dp+15"), digits separated
+// by '_' ("50_901.5").
+func goLiteral(b []byte) bool {
+	if len(b) == 0 || len(b) > 64 || decimal.Plain(b) || nonFinite(b) {
+		return false
+	}
+	_, err := strconv.ParseFloat(string(b), 64)
+	return err == nil || errors.Is(err, strconv.ErrRange)
 }
 
 // splitAtDecimalComma says cells i and i+1 of a comma-separated row are

@@ -252,13 +252,18 @@ func fields(l []byte, sep byte, out [][]byte) [][]byte {
 	return out
 }
 
-// parseNumber reads a decimal number without copying the bytes.
+// parseNumber reads a plain decimal number (decimal.Plain) without
+// copying the bytes; NaN and Inf are refused as not finite, any other
+// syntax strconv knows (hexadecimal, digit separators '_') as no number.
 func parseNumber(b []byte) (float64, error) {
 	if len(b) == 0 {
 		return 0, errors.New("empty cell")
 	}
 	if v, ok := decimal.Parse(b); ok {
 		return v, nil
+	}
+	if !decimal.Plain(b) && !nonFinite(b) {
+		return 0, fmt.Errorf("%s is not a number", quoteCell(b))
 	}
 	v, err := strconv.ParseFloat(unsafe.String(&b[0], len(b)), 64)
 	if err != nil {
@@ -275,6 +280,17 @@ func parseNumber(b []byte) (float64, error) {
 		return 0, fmt.Errorf("%s is too large to be a measured value", quoteCell(b))
 	}
 	return v, nil
+}
+
+// nonFinite says b is NaN, Inf or Infinity with an optional sign, in any
+// case: the words strconv reads as non-numbers, which parseNumber refuses
+// as not finite.
+func nonFinite(b []byte) bool {
+	if len(b) > 0 && (b[0] == '-' || b[0] == '+') {
+		b = b[1:]
+	}
+	s := unsafe.String(unsafe.SliceData(b), len(b))
+	return strings.EqualFold(s, "nan") || strings.EqualFold(s, "inf") || strings.EqualFold(s, "infinity")
 }
 
 // parseCell reads a number from a file whose field separator is sep. When
