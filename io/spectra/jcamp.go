@@ -3,6 +3,7 @@ package spectra
 import (
 	"errors"
 	"fmt"
+	"math"
 	"path/filepath"
 	"sort"
 	"strconv"
@@ -76,6 +77,9 @@ func blockSpectrum(path, src string, b jcamp.Block) (*Spectrum, error) {
 		if strings.Contains(u, "%") || strings.Contains(u, "PERCENT") {
 			scale = 0.01
 		}
+		if err := checkTransmittanceScale(path, b, y); err != nil {
+			return nil, err
+		}
 		for i, t := range y {
 			a, ok := absorbanceOf(t * scale)
 			if !ok {
@@ -95,6 +99,35 @@ func blockSpectrum(path, src string, b jcamp.Block) (*Spectrum, error) {
 		sp.Note = micrometresToNanometres(sp.Axis, "##XUNITS="+b.XUnits)
 	}
 	return sp, nil
+}
+
+// checkTransmittanceScale refuses a block whose ##YUNITS say
+// transmittance over values no transmittance takes, as
+// TransmittanceToAbsorbance refuses --kind transmittance on them: a
+// largest value above percentMost is counts or a single beam, whose
+// −log10 is no absorbance (raw counts of 5e4 gave absorbances near −4.7
+// and a factor analysis with nothing in it). The message names the
+// ##YUNITS line.
+func checkTransmittanceScale(path string, b jcamp.Block, y []float64) error {
+	largest := math.Inf(-1)
+	for _, v := range y {
+		if !math.IsNaN(v) && !math.IsInf(v, 0) {
+			largest = math.Max(largest, v)
+		}
+	}
+	if largest <= percentMost {
+		return nil
+	}
+	line := b.Line
+	for _, l := range b.Labels {
+		if l.Name == "YUNITS" {
+			line = l.Line
+			break
+		}
+	}
+	return inputErr(path, line, "if these are single-beam intensities, write ##YUNITS=ARBITRARY UNITS (or COUNTS) in the file, or export them so",
+		"%s: ##YUNITS=%s, but the largest value, %g, is not a transmittance (a fraction up to 1 or a percentage up to 100, a little above with noise)",
+		blockName(b), b.YUnits, largest)
 }
 
 func blockName(b jcamp.Block) string {

@@ -100,3 +100,30 @@ func TestJCAMPSeriesErrors(t *testing.T) {
 		t.Errorf("percent transmittance read as %v (%s), want [1 0] absorbance", sp.Values, sp.Kind)
 	}
 }
+
+// A transmittance is a fraction up to 1 or a percentage up to 100, a
+// little above with noise (IUPAC Gold Book, "transmittance"): a block
+// whose ##YUNITS say TRANSMITTANCE over raw counts of 5e4 is refused as
+// --kind transmittance on the same values in a CSV is, naming the file,
+// the ##YUNITS line and what to write instead, where the counts had gone
+// on as absorbances near −4.7 and stopped deep in the factor analysis
+// with no file named.
+func TestJCAMPTransmittanceOfCounts(t *testing.T) {
+	text := "##TITLE=scan1\n##JCAMP-DX=4.24\n##XUNITS=1/CM\n##YUNITS=TRANSMITTANCE\n##XFACTOR=1\n##YFACTOR=1\n" +
+		"##FIRSTX=3\n##LASTX=1\n##NPOINTS=3\n##XYDATA=(X++(Y..Y))\n3 50902 50845 50792\n##END=\n"
+	p := fuzzFile(t, "c.jdx", []byte(text))
+	want := `c.jdx:4: block "scan1": ##YUNITS=TRANSMITTANCE, but the largest value, 50902, is not a transmittance (a fraction up to 1 or a percentage up to 100, a little above with noise); if these are single-beam intensities, write ##YUNITS=ARBITRARY UNITS`
+	if _, err := ReadSpectrum(p); err == nil || !strings.Contains(err.Error(), want) || strings.Contains(err.Error(), "\n") {
+		t.Errorf("transmittance of counts: %v, want one line with %q", err, want)
+	}
+	// The same values in a CSV with --kind transmittance, the rule the
+	// JCAMP-DX path follows.
+	csv := fuzzFile(t, "c.csv", []byte("wavenumber,0,60\n3,50902,50845\n2,50845,50792\n1,50792,50700\n"))
+	s, err := ReadMatrixCSV(csv)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, _, err := TransmittanceToAbsorbance(s); err == nil || !strings.Contains(err.Error(), "is not a transmittance") {
+		t.Errorf("CSV with --kind transmittance: %v", err)
+	}
+}
