@@ -487,13 +487,16 @@ func (m *aheadMaps) at(mm mapSource) []float64 {
 	return v
 }
 
-// format makes the part of maps.csv, on one goroutine.
+// format makes the part of maps.csv, on one goroutine. The matrices' At
+// finds a point's place by two slices indexed by row and column (the rows
+// and columns kept are increasing indices of times and axis): two map
+// lookups a value were a tenth of the formatting.
 func (m *aheadMaps) format() {
-	ri := make(map[int]int, len(m.rows))
+	ri := make([]int, len(m.times))
 	for k, i := range m.rows {
 		ri[i] = k * len(m.cols)
 	}
-	cj := make(map[int]int, len(m.cols))
+	cj := make([]int, len(m.axis))
 	for k, j := range m.cols {
 		cj[j] = k
 	}

@@ -2,6 +2,7 @@ package pipeline
 
 import (
 	"fmt"
+	"math/rand/v2"
 	"path/filepath"
 	"reflect"
 	"runtime"
@@ -10,6 +11,7 @@ import (
 
 	"github.com/bandsolve/bandsolve/internal/cputime"
 	"github.com/bandsolve/bandsolve/io/output"
+	"github.com/bandsolve/bandsolve/io/report"
 )
 
 // BenchmarkWrite2000x3001 times the writing phase alone (result files,
@@ -53,5 +55,30 @@ func BenchmarkWrite2000x3001(b *testing.B) {
 		b.Logf("writing %.3f s CPU, %.2f × the parse's %.3f s CPU:\n%s", total, total/parseCPU, parseCPU, log.String())
 		b.ReportMetric(total, "write-cpu-s")
 		b.ReportMetric(total/parseCPU, "write/parse-cpu")
+	}
+}
+
+// BenchmarkAheadMapsFormat is the formatting of maps.csv's three matrices
+// (data, difference, residual) at the points the 2000 × 3001 series keeps
+// (200 rows × 400 columns each), as the run's ahead goroutine does it.
+func BenchmarkAheadMapsFormat(b *testing.B) {
+	const n, m = 2000, 3001
+	rng := rand.New(rand.NewPCG(3, 4))
+	a := &aheadMaps{rows: report.MapRows(n), cols: report.MapCols(m), axis: make([]float64, m), times: make([]float64, n), exp: make([]int, n)}
+	for j := range a.axis {
+		a.axis[j] = 4000 - float64(j)
+	}
+	for i := range a.times {
+		a.times[i] = float64(i) * 2.5
+	}
+	for _, name := range []string{"data", "difference", "residual"} {
+		v := make([]float64, len(a.rows)*len(a.cols))
+		for k := range v {
+			v[k] = rng.NormFloat64() * 1e-3
+		}
+		a.names, a.vals = append(a.names, name), append(a.vals, v)
+	}
+	for b.Loop() {
+		a.format()
 	}
 }
