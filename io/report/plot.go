@@ -588,7 +588,7 @@ func (r raster) Plot(c draw.Canvas, p *plot.Plot) {
 	case *vgsvg.Canvas:
 		cv.DrawImage(rect, r.pal)
 	case *svgCanvas:
-		cv.Canvas.DrawImage(rect, r.pal)
+		cv.drawImage(rect, r.pal)
 	case *pixelCanvas:
 		cv.paint(rect, r.pal)
 	default:

@@ -12,6 +12,7 @@ import (
 	"image/color"
 	"image/png"
 	"io"
+	"math"
 	"math/rand/v2"
 	"testing"
 )
@@ -269,5 +270,104 @@ func BenchmarkEncodePNG(b *testing.B) {
 		if _, err := e.encode(img); err != nil {
 			b.Fatal(err)
 		}
+	}
+}
+
+// encodePaletted's file must decode with image/png (the reference decoder)
+// to the same size, palette and pixels, on a map of noise and a smooth
+// map; an image with a transparent colour or a small palette is left to
+// image/png (nil).
+func TestEncodePalettedDecodes(t *testing.T) {
+	var e pngEncoder
+	for _, name := range []string{"noise", "smooth"} {
+		img := benchMapImage(name)
+		b, err := e.encodePaletted(img)
+		if err != nil || b == nil {
+			t.Fatalf("%s: %v, %d bytes", name, err, len(b))
+		}
+		got, err := png.Decode(bytes.NewReader(b))
+		if err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		p, ok := got.(*image.Paletted)
+		if !ok || p.Rect != img.Rect || len(p.Palette) != len(img.Palette) || !bytes.Equal(p.Pix, img.Pix) {
+			t.Fatalf("%s: decoded to another image", name)
+		}
+		for i := range p.Palette {
+			r0, g0, b0, a0 := p.Palette[i].RGBA()
+			r1, g1, b1, a1 := img.Palette[i].RGBA()
+			if r0 != r1 || g0 != g1 || b0 != b1 || a0 != a1 {
+				t.Fatalf("%s: palette entry %d differs", name, i)
+			}
+		}
+	}
+	clear := benchMapImage("smooth")
+	clear.Palette = append(color.Palette(nil), clear.Palette...)
+	clear.Palette[3] = color.NRGBA{1, 2, 3, 4}
+	if b, err := e.encodePaletted(clear); b != nil || err != nil {
+		t.Error("a palette with a transparent colour was encoded")
+	}
+	small := image.NewPaletted(image.Rect(0, 0, 4, 4), mapPalette[:16])
+	if b, err := e.encodePaletted(small); b != nil || err != nil {
+		t.Error("a 16-colour palette was encoded")
+	}
+}
+
+// benchMapImage is a 480 × 260 map as mapImage draws them: of noise (a
+// residual map, the hardest to compress) or of smooth bands.
+func benchMapImage(kind string) *image.Paletted {
+	const n, m = 200, 400
+	rng := rand.New(rand.NewPCG(5, 6))
+	axis, y := make([]float64, m), make([]float64, n)
+	for j := range axis {
+		axis[j] = 4000 - 7.5*float64(j)
+	}
+	for i := range y {
+		y[i] = float64(i)
+	}
+	rows := make([][]float64, n)
+	for i := range rows {
+		rows[i] = make([]float64, m)
+		for j := range rows[i] {
+			if kind == "noise" {
+				rows[i][j] = rng.NormFloat64()
+			} else {
+				rows[i][j] = 2 * math.Sin(float64(j)/40) * math.Exp(-float64(i)/80)
+			}
+		}
+	}
+	img, _ := mapImage(axis, y, rows, true, func(v float64) uint8 { return signedLevel(v, 3) })
+	return img
+}
+
+// BenchmarkEncodeMapImage is a map's image encoded as the SVG figures embed
+// it: by image/png (vgsvg's DrawImage, zlib's default level) and by
+// encodePaletted.
+func BenchmarkEncodeMapImage(b *testing.B) {
+	for _, kind := range []string{"noise", "smooth"} {
+		img := benchMapImage(kind)
+		b.Run(kind+"/imagepng", func(b *testing.B) {
+			var n int
+			for b.Loop() {
+				var buf bytes.Buffer
+				if err := png.Encode(&buf, img); err != nil {
+					b.Fatal(err)
+				}
+				n = buf.Len()
+			}
+			b.ReportMetric(float64(n), "file-bytes")
+		})
+		b.Run(kind+"/paletted", func(b *testing.B) {
+			var e pngEncoder
+			var n int
+			for b.Loop() {
+				f, err := e.encodePaletted(img)
+				if err != nil {
+					b.Fatal(err)
+				}
+				n = len(f)
+			}
+			b.ReportMetric(float64(n), "file-bytes")
+		})
 	}
 }

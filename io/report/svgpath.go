@@ -1,6 +1,11 @@
 package report
 
 import (
+	"bytes"
+	"encoding/base64"
+	"image"
+	"image/color"
+	"image/png"
 	"math"
 	"strings"
 
@@ -21,7 +26,43 @@ type svgCanvas struct {
 	*vgsvg.Canvas
 	held    [][]byte // the data of the paths held back, in the order drawn
 	scratch lineScratch
+	// images are the data of the raster images held back (drawImage), in
+	// the order drawn, and enc their encoder.
+	images [][]byte
+	enc    *pngEncoder
 }
+
+// drawImage draws a paletted image into rect as vgsvg's DrawImage does (an
+// <image> element with the PNG file as base64 data), with the file from
+// pngEncoder.encodePaletted rather than image/png at its default level:
+// vgsvg is handed a placeholder image, whose data fill puts the held
+// image's in place of. An image encodePaletted leaves alone goes to vgsvg.
+func (c *svgCanvas) drawImage(rect vg.Rectangle, img *image.Paletted) {
+	if c.enc == nil {
+		c.enc = new(pngEncoder)
+	}
+	b, err := c.enc.encodePaletted(img)
+	if err != nil || b == nil {
+		c.Canvas.DrawImage(rect, img)
+		return
+	}
+	c.images = append(c.images, base64.StdEncoding.AppendEncode(nil, b))
+	c.Canvas.DrawImage(rect, heldImage)
+}
+
+// heldImage is the image handed to vgsvg in place of one held back, and
+// heldImageData the base64 data vgsvg writes for it: a single pixel of a
+// colour no figure uses.
+var (
+	heldImage     = image.NewPaletted(image.Rect(0, 0, 1, 1), color.Palette{color.RGBA{1, 2, 3, 255}})
+	heldImageData = func() string {
+		var b bytes.Buffer
+		if err := png.Encode(&b, heldImage); err != nil {
+			panic(err)
+		}
+		return "base64," + base64.StdEncoding.EncodeToString(b.Bytes()) + `"`
+	}()
+)
 
 // heldPoint is the placeholder's point and heldData the data vgsvg writes
 // for it.
@@ -178,8 +219,21 @@ func appendPathData(b []byte, p vg.Path) []byte {
 // paths held one to one (a path vgsvg did not write, a placeholder a path
 // of the figure's own wrote): the figure is then drawn by vgsvg alone.
 func (c *svgCanvas) fill(s string) (string, bool) {
-	if strings.Count(s, heldData) != len(c.held) {
+	if strings.Count(s, heldData) != len(c.held) || strings.Count(s, heldImageData) != len(c.images) {
 		return "", false
+	}
+	if len(c.images) > 0 {
+		var b strings.Builder
+		for _, d := range c.images {
+			i := strings.Index(s, heldImageData)
+			b.WriteString(s[:i])
+			b.WriteString("base64,")
+			b.Write(d)
+			b.WriteByte('"')
+			s = s[i+len(heldImageData):]
+		}
+		b.WriteString(s)
+		s = b.String()
 	}
 	if len(c.held) == 0 {
 		return s, true

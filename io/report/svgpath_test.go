@@ -1,9 +1,14 @@
 package report
 
 import (
+	"bytes"
+	"encoding/base64"
 	"fmt"
+	"image"
+	"image/png"
 	"math"
 	"math/rand/v2"
+	"regexp"
 	"strings"
 	"testing"
 
@@ -46,13 +51,16 @@ func TestPathDataIsFmts(t *testing.T) {
 
 // Every figure's SVG with the long paths' data formatted by svgCanvas is
 // the one vgsvg writes alone (the reference), and the figures with long
-// lines or bands hold them, rather than falling back.
+// lines or bands hold them, rather than falling back. Embedded images
+// (the maps') are encoded by svgCanvas with another deflate stream: they
+// must decode (image/png, the reference decoder) to the same pixels and
+// palette, and the bytes around them be vgsvg's.
 func TestHeldPathsAreVgsvgs(t *testing.T) {
 	f, err := Load(fixture(t, true))
 	if err != nil {
 		t.Fatal(err)
 	}
-	held := 0 // paths held over all figures
+	held, images := 0, 0 // paths and images held over all figures
 	for _, j := range figureJobs(f) {
 		fig, err := j.build(j.view)
 		if err != nil || fig == nil {
@@ -61,6 +69,7 @@ func TestHeldPathsAreVgsvgs(t *testing.T) {
 		c := &svgCanvas{Canvas: vgsvg.New(fig.drawing.w, fig.drawing.h)}
 		fig.drawing.draw(draw.New(c))
 		held += len(c.held)
+		images += len(c.images)
 		s, ok, err := drawSVG(fig.drawing, true)
 		if err != nil || !ok {
 			t.Errorf("%s: the long paths could not be held (%v)", j.id, err)
@@ -70,7 +79,7 @@ func TestHeldPathsAreVgsvgs(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if s != plain {
+		if !sameApartFromImages(t, s, plain) {
 			t.Errorf("%s: SVG with held paths differs from vgsvg's own", j.id)
 		}
 		if cleanSVG(s) != fig.SVG {
@@ -82,6 +91,9 @@ func TestHeldPathsAreVgsvgs(t *testing.T) {
 	}
 	if held < 10 {
 		t.Errorf("%d paths held over all figures: the lines and bands should be", held)
+	}
+	if images < 2 {
+		t.Errorf("%d images held over all figures: the maps' should be", images)
 	}
 }
 
@@ -133,4 +145,47 @@ func TestHeldPathsFallBackToVgsvg(t *testing.T) {
 			t.Errorf("%s: SVG differs from vgsvg's own (%v)", c.name, err)
 		}
 	}
+}
+
+// embeddedImage is the base64 data of an image an SVG embeds.
+var embeddedImage = regexp.MustCompile(`base64,([A-Za-z0-9+/=]+)"`)
+
+// sameApartFromImages says whether the SVGs a and b are the same but for
+// their embedded images' data, each pair of which decodes to the same
+// paletted image.
+func sameApartFromImages(t *testing.T, a, b string) bool {
+	t.Helper()
+	ia, ib := embeddedImage.FindAllStringSubmatch(a, -1), embeddedImage.FindAllStringSubmatch(b, -1)
+	if len(ia) != len(ib) || embeddedImage.ReplaceAllString(a, "") != embeddedImage.ReplaceAllString(b, "") {
+		return false
+	}
+	for k := range ia {
+		pa, pb := decodeEmbedded(t, ia[k][1]), decodeEmbedded(t, ib[k][1])
+		if pa.Rect != pb.Rect || !bytes.Equal(pa.Pix, pb.Pix) || len(pa.Palette) != len(pb.Palette) {
+			return false
+		}
+		for i := range pa.Palette {
+			if pa.Palette[i] != pb.Palette[i] {
+				return false
+			}
+		}
+	}
+	return true
+}
+
+func decodeEmbedded(t *testing.T, data string) *image.Paletted {
+	t.Helper()
+	raw, err := base64.StdEncoding.DecodeString(data)
+	if err != nil {
+		t.Fatal(err)
+	}
+	img, err := png.Decode(bytes.NewReader(raw))
+	if err != nil {
+		t.Fatal(err)
+	}
+	p, ok := img.(*image.Paletted)
+	if !ok {
+		t.Fatalf("an embedded image decodes to %T, not a paletted image", img)
+	}
+	return p
 }
