@@ -232,6 +232,9 @@ type bandEnd struct {
 	ok, converged     bool
 	evals             int
 	err               error
+	// shares are every component's f at the end's constrained pair, when
+	// the search that found it formed that pair (noiseSQP; see crossSeed).
+	shares []float64
 }
 
 // allExtremes searches the 2k ends (component j's minimum at 2j, maximum at
@@ -297,14 +300,16 @@ func (p *bandProblem) end(j int, sign float64) bandEnd {
 	if err != nil {
 		return bandEnd{err: err}
 	}
+	var shares []float64
 	if p.allow > 0 {
+		shares = p.work.shares
 		var amp float64
 		f, amp = p.amplitude(t, j, -sign)
 		for i := range prof {
 			prof[i] *= amp
 		}
 	}
-	return bandEnd{f: f, theta: theta, profile: prof, spectrum: spec, ok: ok, evals: evals, converged: conv}
+	return bandEnd{f: f, theta: theta, profile: prof, spectrum: spec, ok: ok, evals: evals, converged: conv, shares: shares}
 }
 
 // crossSeed searches an end again from another end's rotation when that
@@ -323,18 +328,22 @@ func (p *bandProblem) crossSeed(ends []bandEnd) (moved bool, err error) {
 	if p.allow <= 0 || p.k < 2 {
 		return false, nil
 	}
-	type point struct{ a, b *mat.Dense }
-	pts := make([]*point, len(ends))
+	// Each end's shares of every component, at its constrained pair: as
+	// its search left them, or formed here.
+	pts := make([][]float64, len(ends))
 	for t, e := range ends {
 		if len(e.theta) == 0 || !e.ok {
+			continue
+		}
+		if e.shares != nil {
+			pts[t] = e.shares
 			continue
 		}
 		a, b, _, ok := p.rotate(p.rotation(e.theta))
 		if !ok || p.rise(a, b, nil, nil) > p.allow*(1+p.opt.Tolerance) {
 			continue
 		}
-		a, b = p.constrainedPair(a, b)
-		pts[t] = &point{a, b}
+		pts[t] = p.shares(p.constrainedPair(a, b))
 	}
 	for t := range ends {
 		j, sign := t/2, 1.0
@@ -346,7 +355,7 @@ func (p *bandProblem) crossSeed(ends []bandEnd) (moved bool, err error) {
 			if pt == nil || u == t {
 				continue
 			}
-			if f := math.Sqrt(colNormSq(pt.a, j)*colNormSq(pt.b, j)) / p.norm; sign*f < sign*best*(1+1e-6) {
+			if f := pt[j]; sign*f < sign*best*(1+1e-6) {
 				from, best = u, f
 			}
 		}
@@ -355,6 +364,7 @@ func (p *bandProblem) crossSeed(ends []bandEnd) (moved bool, err error) {
 		}
 		p.work.reset()
 		theta, f, ok, evals, conv := p.noiseSQP(j, sign, ends[from].theta)
+		shares := p.work.shares
 		if !ok || sign*f >= sign*ends[t].f {
 			ends[t].evals += evals
 			continue
@@ -369,7 +379,7 @@ func (p *bandProblem) crossSeed(ends []bandEnd) (moved bool, err error) {
 			prof[i] *= amp
 		}
 		if sign*f < sign*ends[t].f {
-			ends[t] = bandEnd{f: f, theta: theta, profile: prof, spectrum: spec, ok: true, evals: ends[t].evals + evals, converged: conv}
+			ends[t] = bandEnd{f: f, theta: theta, profile: prof, spectrum: spec, ok: true, evals: ends[t].evals + evals, converged: conv, shares: shares}
 			moved = true
 		}
 	}
@@ -769,7 +779,12 @@ const sqpFeas = 1e-4
 // returns the end (theta0 itself when the search ends no further out),
 // f_j of its constrained pair, whether it keeps the allowance within
 // Tolerance, the evaluations and whether the search converged.
+//
+// When it returns the search's own end it leaves every component's share
+// there in p.work.shares (nil otherwise), which crossSeed would otherwise
+// form again from the end's rotation, to the same bits.
 func (p *bandProblem) noiseSQP(j int, sign float64, theta0 []float64) ([]float64, float64, bool, int, bool) {
+	p.work.shares = nil
 	startF := p.startShare(theta0, j)
 	r := minimiseSQP(bandNoise{p, j, sign}, theta0, sqpOptions{maxEval: p.opt.MaxEvaluations / 16, tol: sqpTol, feas: sqpFeas})
 	a, b, _, ok := p.rotate(p.rotation(r.x))
@@ -778,9 +793,19 @@ func (p *bandProblem) noiseSQP(j int, sign float64, theta0 []float64) ([]float64
 	}
 	a, b = p.constrainedPair(a, b)
 	if f := math.Sqrt(colNormSq(a, j)*colNormSq(b, j)) / p.norm; sign*f < sign*startF {
+		p.work.shares = p.shares(a, b)
 		return r.x, f, true, r.evals, r.converged
 	}
 	return theta0, startF, true, r.evals, r.converged
+}
+
+// shares are every component's f_j = ‖a_j‖‖b_j‖/‖C Sᵀ‖ of the pair a, b.
+func (p *bandProblem) shares(a, b *mat.Dense) []float64 {
+	out := make([]float64, p.k)
+	for j := range out {
+		out[j] = math.Sqrt(colNormSq(a, j)*colNormSq(b, j)) / p.norm
+	}
+	return out
 }
 
 // stagePlan is a penalty sequence: its weights μ, the evaluations of each

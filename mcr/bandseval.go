@@ -26,6 +26,7 @@ type bandWork struct {
 	piv           []int
 	at            evalPoint // the last evaluation (gradientWork)
 	memo          rotMemo   // the last rotation formed whole (rotate)
+	shares        []float64 // noiseSQP's end's shares of every component
 	// timesPanels' scratch: the clipped parts it does not use, k zero
 	// masks (no column clipped) and Vᵀ.
 	panelMinus []float64
@@ -126,7 +127,7 @@ func (w *bandWork) reset() {
 	for _, cr := range []*clippedRows{&w.rowsC, &w.rowsS} {
 		cr.idx, cr.cols, cr.dense = cr.idx[:0], cr.cols[:0], false
 	}
-	w.at, w.memo = evalPoint{}, rotMemo{}
+	w.at, w.memo, w.shares = evalPoint{}, rotMemo{}, nil
 }
 
 func rawCopy(a interface {
