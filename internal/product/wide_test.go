@@ -2,6 +2,7 @@ package product
 
 import (
 	"fmt"
+	"math"
 	"math/rand/v2"
 	"runtime"
 	"testing"
@@ -126,5 +127,51 @@ func TestWidePathsEqualGonumBitForBit(t *testing.T) {
 	}
 	if !haveAVX512 {
 		t.Log("no AVX-512 on this processor or build: its tiles were not run")
+	}
+}
+
+// wideOK against its definition (every entry finite: !math.IsInf and
+// !math.IsNaN, the standard library's classification as reference) on
+// views of 1 to 9 columns with one entry set to each value that is or
+// is not finite, at every place, and on the all-finite views themselves.
+func TestWideOKIsFiniteEverywhere(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	values := []float64{math.Inf(1), math.Inf(-1), math.NaN(), 0, math.Copysign(0, -1), math.MaxFloat64, -math.MaxFloat64, 5e-324, 1}
+	for c := 1; c <= 9; c++ {
+		for _, r := range []int{1, 3} {
+			v := view(rng, r, c)
+			if !wideOK(v) {
+				t.Fatalf("%d × %d: a finite view refused", r, c)
+			}
+			for i := 0; i < r; i++ {
+				for j := 0; j < c; j++ {
+					old := v.At(i, j)
+					for _, x := range values {
+						v.Set(i, j, x)
+						want := !math.IsInf(x, 0) && !math.IsNaN(x)
+						if got := wideOK(v); got != want {
+							t.Fatalf("%d × %d, %v at (%d, %d): wideOK %v, want %v", r, c, x, i, j, got, want)
+						}
+					}
+					v.Set(i, j, old)
+				}
+			}
+		}
+	}
+	// Entries outside the view (its stride) are not the view's.
+	parent := mat.NewDense(2, 4, []float64{1, 2, math.NaN(), math.Inf(1), 3, 4, math.NaN(), math.NaN()})
+	if !wideOK(parent.Slice(0, 2, 0, 2).(*mat.Dense)) {
+		t.Error("a NaN outside the view counted")
+	}
+}
+
+// BenchmarkWideOK is the check on the profiles of ALS's half steps on the
+// 2000 × 3001 series (2000 × 5).
+func BenchmarkWideOK(b *testing.B) {
+	v := randomDense(rand.New(rand.NewPCG(9, 10)), 2000, 5)
+	for b.Loop() {
+		if !wideOK(v) {
+			b.Fatal("refused")
+		}
 	}
 }
