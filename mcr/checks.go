@@ -187,7 +187,7 @@ func checkWithout(d Data, fit *Result, opt Options, co CheckOptions, name string
 	_, k := fit.C.Dims()
 	o := opt
 	drop(&o)
-	res, err := Resolve(d, fit.C, o)
+	res, err := Resolve(d, reviveVanished(d, fit, comps, boolsOr(opt.NonNegProfiles, k, true)), o)
 	if err != nil {
 		return ConstraintCheck{}, err
 	}
@@ -219,6 +219,144 @@ func checkWithout(d Data, fit *Result, opt Options, co CheckOptions, name string
 		}
 	}
 	return cc, nil
+}
+
+// reviveVanished is the start of a refit without a constraint: the
+// constrained profiles, with every component of comps whose profile the
+// constraint held at zero everywhere (a zero region over the whole axis
+// forces the spectrum, and with it the profile, to zero) given instead a
+// direction of the residual D − C Sᵀ the fit leaves. ALS cannot bring such
+// a component back by itself: with c_j = 0 its spectrum is undetermined and
+// taken as zero, and with s_j = 0 the next profile is zero again, so a
+// refit from the constrained profiles alone ends where the constrained fit
+// did and reports that the constraint costs nothing. The start's first
+// half step still fits no worse than the constrained fit (s_j = 0 is one of
+// the spectra it chooses from), so the refit stays a descent from it. fit.C
+// itself is returned when nothing vanished.
+func reviveVanished(d Data, fit *Result, comps []int, nonneg []bool) *mat.Dense {
+	var dead []int
+	for _, j := range comps {
+		if floatsMaxAbs(mat.Col(nil, j, fit.C)) == 0 {
+			dead = append(dead, j)
+		}
+	}
+	if len(dead) == 0 {
+		return fit.C
+	}
+	n, _ := fit.C.Dims()
+	u := residualDirections(d, fit.C, fit.S, len(dead))
+	scale := 1.0
+	if top := maxAbsDense(fit.C); top > 0 {
+		scale = top
+	}
+	c0 := mat.DenseCopyOf(fit.C)
+	for q, j := range dead {
+		col := mat.Col(nil, q, u)
+		// A profile's sign is the one that carries most of its energy;
+		// the other part is cut where profiles are non-negative.
+		pos, neg := 0.0, 0.0
+		for _, v := range col {
+			if v > 0 {
+				pos += v * v
+			} else {
+				neg += v * v
+			}
+		}
+		sign := 1.0
+		if neg > pos {
+			sign = -1
+		}
+		top := floatsMaxAbs(col)
+		if !(top > 0) {
+			continue
+		}
+		for i := 0; i < n; i++ {
+			v := sign * col[i] / top * scale
+			if nonneg[j] && v < 0 {
+				v = 0
+			}
+			c0.Set(i, j, v)
+		}
+	}
+	return c0
+}
+
+// residualIters is the number of subspace iterations residualDirections
+// takes: a start only has to point into the residual's leading
+// directions, which a few dozen products find on data whose leading
+// singular values are apart (the error shrinks as (σ_{q+1}/σ_q)^iter;
+// Golub & Van Loan, Matrix Computations, §8.2, from memory).
+const residualIters = 30
+
+// residualDirections returns q orthonormal time vectors (n × q) spanning
+// about the leading left singular subspace of E = D − C Sᵀ, by subspace
+// iteration from a fixed start (deterministic), through the products Data
+// offers: Eᵀ U = Dᵀ U − S (Cᵀ U), E V = D V − C (Sᵀ V).
+func residualDirections(d Data, c, s *mat.Dense, q int) *mat.Dense {
+	n, _ := d.Dims()
+	u := mat.NewDense(n, q, nil)
+	for i := 0; i < n; i++ {
+		for l := 0; l < q; l++ {
+			// Smooth, distinct start vectors: cos(π l (i+½)/n), the
+			// first a constant.
+			u.Set(i, l, math.Cos(math.Pi*float64(l)*(float64(i)+0.5)/float64(n)))
+		}
+	}
+	orthonormalizeColumns(u)
+	for it := 0; it < residualIters; it++ {
+		var ctu, sv mat.Dense
+		v := d.MulProfiles(u) // m × q
+		ctu.Mul(c.T(), u)
+		sv.Mul(s, &ctu)
+		v.Sub(v, &sv)
+		orthonormalizeColumns(v)
+		var stv, cs mat.Dense
+		u = d.MulSpectra(v) // n × q
+		stv.Mul(s.T(), v)
+		cs.Mul(c, &stv)
+		u.Sub(u, &cs)
+		orthonormalizeColumns(u)
+	}
+	return u
+}
+
+// orthonormalizeColumns makes x's columns orthonormal in place by modified
+// Gram–Schmidt, twice (enough for the few columns here; Giraud et al.,
+// Numer. Math. 2005, from memory); a column that vanishes stays zero.
+func orthonormalizeColumns(x *mat.Dense) {
+	n, q := x.Dims()
+	for pass := 0; pass < 2; pass++ {
+		for l := 0; l < q; l++ {
+			for p := 0; p < l; p++ {
+				dot := 0.0
+				for i := 0; i < n; i++ {
+					dot += x.At(i, l) * x.At(i, p)
+				}
+				for i := 0; i < n; i++ {
+					x.Set(i, l, x.At(i, l)-dot*x.At(i, p))
+				}
+			}
+			nrm := 0.0
+			for i := 0; i < n; i++ {
+				nrm += x.At(i, l) * x.At(i, l)
+			}
+			if nrm = math.Sqrt(nrm); nrm > 0 {
+				for i := 0; i < n; i++ {
+					x.Set(i, l, x.At(i, l)/nrm)
+				}
+			}
+		}
+	}
+}
+
+// maxAbsDense is the largest |x_ij|.
+func maxAbsDense(x *mat.Dense) float64 {
+	r, _ := x.Dims()
+	top := 0.0
+	for i := 0; i < r; i++ {
+		top = max(top, floatsMaxAbs(x.RawRowView(i)))
+	}
+	return top
 }
 
 func trueIndices(b []bool) []int {

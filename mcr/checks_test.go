@@ -230,3 +230,93 @@ func linearPairStart(n int) *mat.Dense {
 	}
 	return c0
 }
+
+// A zero region over the whole axis forces a component's spectrum, and so
+// its profile, to zero: the constrained fit is then a fit with one
+// component fewer. The check without the region must refit with that
+// component free, and so reach what a free fit of two reactions reaches:
+// the data are two reactions plus detector noise constant in counts, so
+// the true extents and spectra leave exactly the noise, and the free
+// refit's lack of fit can be no worse than the truth's by more than the
+// convergence tolerance (least squares: the minimum is at most the value
+// at any candidate, here the truth; the noise is known, being added here).
+// With the region the fit can be no better than the best rank-one
+// approximation of D (Eckart–Young, common practice). The check used to
+// refit from the constrained profiles, where the dead component cannot
+// come back, and reported the two lacks of fit equal.
+func TestCheckWithoutWholeAxisZeroRegion(t *testing.T) {
+	n, m := 40, 60
+	rng := rand.New(rand.NewPCG(21, 5))
+	c := mat.NewDense(n, 2, nil)
+	for i := 0; i < n; i++ {
+		u := float64(i) / float64(n-1)
+		c.SetRow(i, []float64{1 - math.Exp(-4*u), u * u})
+	}
+	s := mat.NewDense(m, 2, nil)
+	for j := 0; j < m; j++ {
+		x := float64(j) / float64(m-1)
+		s.SetRow(j, []float64{0.4*bump(x, 0.05, 0.5) - 0.2*bump(x, 0.55, 0.9), 0.3 * bump(x, 0.35, 0.8)})
+	}
+	var a mat.Dense
+	a.Mul(c, s.T())
+	base := 0.3 // a film's own absorbance under the change
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			a.Set(i, j, a.At(i, j)+base)
+		}
+	}
+	meas := countsNoise(rng, &a, 1e4, 10)
+	d := mat.NewDense(n, m, nil)
+	truth := mat.NewDense(n, m, nil)
+	for i := 0; i < n; i++ {
+		for j := 0; j < m; j++ {
+			d.Set(i, j, meas.At(i, j)-meas.At(0, j))
+			truth.Set(i, j, a.At(i, j)-a.At(0, j))
+		}
+	}
+	var e mat.Dense
+	e.Sub(d, truth)
+	truthLOF := 100 * math.Sqrt(frobSq(&e)/frobSq(d))
+	var svd mat.SVD
+	if !svd.Factorize(d, mat.SVDNone) {
+		t.Fatal("svd failed")
+	}
+	sv := svd.Values(nil)
+	tail := 0.0
+	for _, v := range sv[1:] {
+		tail += v * v
+	}
+	rankOneLOF := 100 * math.Sqrt(tail/frobSq(d))
+
+	zeroRow := make([]bool, n)
+	zeroRow[0] = true
+	all := make([]bool, m)
+	for j := range all {
+		all[j] = true
+	}
+	opt := Options{Mode: Reactions, Ridge: 1e-6, ZeroProfiles: [][]bool{zeroRow, zeroRow}, ZeroSpectra: [][]bool{all, nil}}
+	fit, err := Resolve(Dense{d}, linearPairStart(n), opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	checks, err := CheckConstraints(Dense{d}, fit, opt, 300)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var zc *ConstraintCheck
+	for i := range checks {
+		if checks[i].Name == "zero windows of spectra" {
+			zc = &checks[i]
+		}
+	}
+	if zc == nil {
+		t.Fatalf("no check of the zero region among %+v", checks)
+	}
+	t.Logf("with %.4g %%, without %.4g %%; truth %.4g %%, best rank one %.4g %%", zc.With, zc.Without, truthLOF, rankOneLOF)
+	if zc.With < rankOneLOF*(1-1e-6) {
+		t.Errorf("with the region the fit is %.4g %%, better than the best rank-one fit %.4g %% (Eckart–Young)", zc.With, rankOneLOF)
+	}
+	if zc.Without > 1.01*truthLOF {
+		t.Errorf("without the region the refit is %.4g %%, worse than the true reactions' %.4g %% (the noise): the dead component did not come back", zc.Without, truthLOF)
+	}
+}
