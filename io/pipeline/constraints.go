@@ -48,6 +48,9 @@ type ConstraintReport struct {
 	// adoptions is how many times a restart the checks found replaced
 	// the resolution (finishResolution, adoptable).
 	adoptions int
+	// zeroEverywhere are the components a zero region or window holds at
+	// zero at every point (findZeroEverywhere).
+	zeroEverywhere []zeroEverywhere
 }
 
 // Side names for --nonneg.
@@ -206,6 +209,7 @@ func applyConstraints(r *Result, c0 *mat.Dense, opt *mcr.Options) error {
 			return err
 		}
 	}
+	findZeroEverywhere(r, opt)
 	return nil
 }
 

@@ -146,11 +146,18 @@ const (
 
 // componentWarnings reports numerical faults of a finished resolution:
 // components with (nearly) the same spectrum or profile, and singular Gram
-// matrices CᵀC or SᵀS.
-func componentWarnings(res *mcr.Result) []string {
+// matrices CᵀC or SᵀS. The components skip marks (nil: none) are held at
+// zero by the settings (zeroEverywhereWarnings says so) and left out: a
+// zero column makes either Gram matrix singular whatever the data support.
+func componentWarnings(res *mcr.Result, skip []bool) []string {
 	var out []string
 	_, k := res.C.Dims()
 	fewer := fmt.Sprintf("the data supports fewer components: try --components %d", max(k-1, 1))
+	skipped := func(j int) bool { return j < len(skip) && skip[j] }
+	if slices.Contains(skip, true) {
+		res = liveColumns(res, skipped)
+		_, k = res.C.Dims()
+	}
 	for a := 0; a < k; a++ {
 		for b := a + 1; b < k; b++ {
 			cs := Cosine(mat.Col(nil, a, res.S), mat.Col(nil, b, res.S))
@@ -182,6 +189,26 @@ func componentWarnings(res *mcr.Result) []string {
 		}
 	}
 	return out
+}
+
+// liveColumns is res with only the components skipped says no to.
+func liveColumns(res *mcr.Result, skipped func(int) bool) *mcr.Result {
+	_, k := res.C.Dims()
+	var keep []int
+	for j := 0; j < k; j++ {
+		if !skipped(j) {
+			keep = append(keep, j)
+		}
+	}
+	pick := func(x *mat.Dense) *mat.Dense {
+		n, _ := x.Dims()
+		out := mat.NewDense(n, max(len(keep), 1), nil)
+		for q, j := range keep {
+			out.SetCol(q, mat.Col(nil, j, x))
+		}
+		return out
+	}
+	return &mcr.Result{C: pick(res.C), S: pick(res.S)}
 }
 
 // conditionNumber of XᵀX, from the singular values of X (squared): the SVD

@@ -38,7 +38,7 @@ func TestConditionNumber(t *testing.T) {
 func TestComponentWarnings(t *testing.T) {
 	s := mat.NewDense(4, 2, []float64{1, 1, 2, 2, 3, 3, 4, 4.0000001})
 	c := mat.NewDense(3, 2, []float64{1, 0, 0.5, 0.5, 0, 1})
-	w := strings.Join(componentWarnings(&mcr.Result{C: c, S: s}), "\n")
+	w := strings.Join(componentWarnings(&mcr.Result{C: c, S: s}, nil), "\n")
 	if !strings.Contains(w, "components 1 and 2 have nearly the same spectrum") || !strings.Contains(w, "--components 1") {
 		t.Errorf("duplicated spectra not reported: %q", w)
 	}
@@ -47,7 +47,7 @@ func TestComponentWarnings(t *testing.T) {
 	}
 	// Orthogonal components: nothing to say.
 	s = mat.NewDense(3, 2, []float64{1, 0, 0, 1, 1, 1})
-	if w := componentWarnings(&mcr.Result{C: c, S: s}); len(w) != 0 {
+	if w := componentWarnings(&mcr.Result{C: c, S: s}, nil); len(w) != 0 {
 		t.Errorf("distinct components warned: %q", w)
 	}
 }

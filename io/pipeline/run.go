@@ -1499,8 +1499,10 @@ const rankAdvicePrefix = "absolute absorbance has "
 // spectra or profiles), a residual above what the noise alone leaves, and the
 // spectra --pre counts as before the reaction that changed already.
 func nameAndWarn(r *Result, res *mcr.Result) {
-	r.Warnings = append(r.Warnings, res.Warnings...)
-	r.Warnings = append(r.Warnings, componentWarnings(res)...)
+	zw, dead := zeroEverywhereWarnings(r)
+	r.Warnings = append(r.Warnings, zw...)
+	r.Warnings = append(r.Warnings, withoutVanishedWords(res.Warnings, dead)...)
+	r.Warnings = append(r.Warnings, componentWarnings(res, dead)...)
 	prefix := "species"
 	if r.Mode == mcr.Reactions {
 		prefix = "reaction"
