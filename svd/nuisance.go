@@ -60,7 +60,10 @@ type ChemicalRank struct {
 	Unexamined      int
 	UnexaminedShare float64
 	UnexaminedMinor bool
-	Sigma           float64 // noise level of the "fits to the noise" test
+	// Smooth are the counted factors whose spectrum a baseline's shape
+	// describes (NuisanceOptions.NoBaselineModel), for the caller's words.
+	Smooth []SmoothFactor
+	Sigma  float64 // noise level of the "fits to the noise" test
 	// ResidualRatio is √(tail(Estimate)/((n−k)(m−k)σ²)): 1 means the chemical factors fit
 	// the data to the noise.
 	ResidualRatio float64
@@ -102,6 +105,24 @@ type NuisanceOptions struct {
 	// minor when it is minor in every experiment by that experiment's own
 	// measure (minorInEveryBlock).
 	Blocks []int
+	// NoBaselineModel says that no baseline model will take a factor set
+	// aside as a baseline (the caller fits none: too few points for one,
+	// or a test found none needed beside the factors counted): a smooth
+	// factor is then not set aside for its polynomial shape, but judged by
+	// the other tests, and recorded in ChemicalRank.Smooth when counted.
+	// On a window not much wider than a band the band itself is ≥ 90 % a
+	// cubic of the axis, so the shape cannot tell it from a drift, and
+	// setting it aside would leave a change far above the noise unfitted.
+	NoBaselineModel bool
+}
+
+// SmoothFactor is a factor counted as chemical although its spectrum is as
+// smooth as a baseline (NuisanceOptions.NoBaselineModel).
+type SmoothFactor struct {
+	Factor       int     // 1-based
+	PolyShare    float64 // share of its spectrum vector a polynomial of order ≤ 3 describes
+	SharePercent float64 // 100 s²/‖D‖²
+	EdgeTimes    float64 // its singular value over the noise edge σ(√n+√m) (0: no edge)
 }
 
 // Thresholds of the classification (documented in docs/measurement.md).
@@ -310,6 +331,7 @@ func (c *factorClassifier) classify(j int, row CandidateRow) {
 	case c.minor(&nf, j, u, v, vu):
 	default:
 		c.countChemical(j, vu)
+		c.noteSmooth(j, vu)
 		return
 	}
 	c.out.Nuisance = append(c.out.Nuisance, nf)
@@ -381,7 +403,7 @@ func (c *factorClassifier) smoothNuisance(nf *NuisanceFactor, v, vu []float64) b
 	if c.opt.Axis == nil || len(c.opt.Axis) != c.m {
 		return false
 	}
-	if sh := polyShareWeighted(vu, c.opt.Axis, c.opt.Col, c.basis); sh >= baselineShare {
+	if sh := polyShareWeighted(vu, c.opt.Axis, c.opt.Col, c.basis); sh >= baselineShare && !c.opt.NoBaselineModel {
 		nf.Kind = NuisanceBaseline
 		nf.Looks = fmt.Sprintf("smooth and broad across the axis: %.0f %% described by a polynomial of order ≤ %d (baseline drift)", 100*sh, baselineOrder)
 		return true
@@ -394,6 +416,23 @@ func (c *factorClassifier) smoothNuisance(nf *NuisanceFactor, v, vu []float64) b
 		}
 	}
 	return false
+}
+
+// noteSmooth records chemical factor j in Smooth when no baseline model
+// takes smooth factors and its spectrum is as smooth as a baseline.
+func (c *factorClassifier) noteSmooth(j int, vu []float64) {
+	if !c.opt.NoBaselineModel || c.opt.Axis == nil || len(c.opt.Axis) != c.m {
+		return
+	}
+	sh := polyShareWeighted(vu, c.opt.Axis, c.opt.Col, c.basis)
+	if sh < baselineShare {
+		return
+	}
+	sf := SmoothFactor{Factor: j + 1, PolyShare: sh, SharePercent: 100 * c.f.S[j] * c.f.S[j] / c.f.FrobeniusSq}
+	if edge := c.rep.NoiseEdge; edge > 0 {
+		sf.EdgeTimes = c.f.S[j] / edge
+	}
+	c.out.Smooth = append(c.out.Smooth, sf)
 }
 
 // minor recognises a factor after the first chemical one that the fit does not need:

@@ -225,7 +225,7 @@ func chemicalRank(r *Result, d *mat.Dense, f *svd.Factors, order int, in rankInp
 	if err != nil {
 		return nil, nil, err
 	}
-	cr := svd.ClassifyFactors(dc, f, rep, svd.NuisanceOptions{Axis: r.Axis, AxisName: r.AxisName, Wavenumbers: convertedAxis(r), Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis, Blocks: experimentBlocks(r)})
+	cr := svd.ClassifyFactors(dc, f, rep, svd.NuisanceOptions{Axis: r.Axis, AxisName: r.AxisName, Wavenumbers: convertedAxis(r), Noise: in.noise, MeanLevel: meanLevel, Row: in.row, Col: in.col, Basis: in.basis, Blocks: experimentBlocks(r), NoBaselineModel: r.noBaselineModel != "" && order < 0})
 	svd.ApplyChemical(rep, cr)
 	return rep, cr, nil
 }
@@ -348,6 +348,12 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 	}
 	d := in.d
 	_, m := d.Dims()
+	if autoBaselineOrder+3 >= m {
+		// A cubic has four coefficients: on so few points every spectrum
+		// vector is mostly one, and the shape cannot tell a band from a
+		// drift that no model would take.
+		r.noBaselineModel = fmt.Sprintf("%d points are too few for a baseline model", m)
+	}
 	if maxOrder+3 >= m {
 		maxOrder = -1
 		r.Notes = append(r.Notes, fmt.Sprintf("no baseline model: %d points are too few", m))
@@ -405,6 +411,18 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 			if rep, cr, err = chemicalRank(r, d, f, order, in, r.Mode == mcr.Species); err != nil {
 				return fmt.Errorf("rank: %w", err)
 			}
+			if order < 0 && hasBaselineFactor(cr) {
+				// The F-test found no baseline needed beside the factors
+				// above the noise with the cubic taken out: they carry the
+				// smooth shapes (the polynomials added nothing beside
+				// them). Calling some of them a baseline now would leave
+				// them to no model, their change unfitted however far
+				// above the noise.
+				r.noBaselineModel = fmt.Sprintf("the F-test found none needed beside the %d factor(s) above the noise", kf)
+				if rep, cr, err = chemicalRank(r, d, f, order, in, r.Mode == mcr.Species); err != nil {
+					return fmt.Errorf("rank: %w", err)
+				}
+			}
 		}
 	} else if maxOrder >= 0 {
 		r.BaselineReason = "as asked (--baseline " + r.Settings.Baseline + ")"
@@ -415,6 +433,46 @@ func chooseBaseline(r *Result, f *svd.Factors, in rankInputs) error {
 	}
 	r.Rank, r.Chemical = rep, cr
 	return nil
+}
+
+// hasBaselineFactor says whether the classification set a factor aside as
+// a baseline.
+func hasBaselineFactor(cr *svd.ChemicalRank) bool {
+	return slices.ContainsFunc(cr.Nuisance, func(nf svd.NuisanceFactor) bool { return nf.Kind == svd.NuisanceBaseline })
+}
+
+// smoothCountedNote says which counted factors are as smooth as a
+// baseline across the axis (svd.NuisanceOptions.NoBaselineModel), why no
+// baseline model takes them, and what would tell them apart; "" when none.
+func smoothCountedNote(r *Result) string {
+	cr, what := r.Chemical, "factor"
+	if cr == nil || len(cr.Smooth) == 0 {
+		cr, what = r.DiffChemical, "factor of the differences"
+	}
+	if cr == nil || len(cr.Smooth) == 0 || len(r.Axis) == 0 {
+		return ""
+	}
+	var each []string
+	for _, sf := range cr.Smooth {
+		e := fmt.Sprintf("%s %d (%.3g %% of the signal, %.0f %% a polynomial of order ≤ 3", what, sf.Factor, sf.SharePercent, 100*sf.PolyShare)
+		if sf.EdgeTimes > 0 {
+			e += fmt.Sprintf(", %.3g times the noise edge", sf.EdgeTimes)
+		}
+		each = append(each, e+")")
+	}
+	lo, hi := slices.Min(r.Axis), slices.Max(r.Axis)
+	span := fmt.Sprintf("%.6g–%.6g", lo, hi)
+	if r.AxisName == "wavenumber" {
+		span += " cm⁻¹"
+	} else if r.AxisName != "" {
+		span += " on the " + r.AxisName + " axis"
+	}
+	them, they := "them", "they are"
+	if len(each) == 1 {
+		them, they = "it", "it is"
+	}
+	return fmt.Sprintf("the change stands above the noise but is as smooth as a baseline across the axis: %s; on %d points over %s a band about as wide as the window cannot be told from a baseline drift by its shape, and no baseline model takes %s (%s), so %s counted and resolved as a component, which may be drift rather than chemistry; widen --region to take in the bands' wings and the baseline on either side to tell them apart",
+		strings.Join(each, "; "), len(r.Axis), span, them, r.noBaselineModel, they)
 }
 
 // baselineStepsText gives each test of the order's choice with its p-value:

@@ -153,6 +153,11 @@ type Result struct {
 	// less those whose spectra it sets aside.
 	orderFactors  int
 	orderOutliers [][]int
+	// noBaselineModel, when not empty, says why no baseline model takes a
+	// smooth factor (too few points, or the F-test found none needed
+	// beside the factors it counted): the classification then counts
+	// such factors instead of setting them aside (chooseBaseline).
+	noBaselineModel string
 	// orderNoise is the correlation along the axis the F-test of --baseline
 	// auto measured (raiseBaselineHeld counts its points the same way).
 	orderNoise svd.AxisNoise
@@ -635,6 +640,9 @@ func (fa *factorRun) rankFindings() {
 		r.Advice = append(r.Advice, fmt.Sprintf("difference data has rank %d = the number of independent reactions it shows (at least %d species take part; a rank deficiency can hide more); to resolve species give a blank single beam (--blank) or absorbance input", rank.Estimate, rank.Estimate+1))
 	}
 	r.Warnings = append(r.Warnings, rank.Warnings...)
+	if note := smoothCountedNote(r); note != "" {
+		r.Advice = append(r.Advice, note)
+	}
 	if rank.ReferencePatternFactor >= 0 {
 		r.Advice = append(r.Advice, fmt.Sprintf("factor %d is the reference spectrum's own noise (flat in time, white across the axis): one fixed pattern in every difference spectrum, not a reaction, so it is not counted; averaging several pre-reaction spectra as the reference (--pre N --reference mean:N) shrinks it by √N", rank.ReferencePatternFactor+1))
 	}
@@ -660,13 +668,38 @@ func chooseComponents(r *Result) error {
 		// and a profile that never varies cannot be resolved (purest
 		// variables and EFA both look for change over time).
 		k = 0
-		r.Notes = append(r.Notes, fmt.Sprintf("no change: every spectrum equals the first within noise (the difference spectra have rank 0; the absorbance's rank %d is the unchanging spectrum itself); nothing to resolve", rank.Estimate))
+		if n := setAsideAboveNoise(r.DiffChemical); n > 0 {
+			r.Notes = append(r.Notes, fmt.Sprintf("no change counted: the difference spectra's %d factor(s) above the noise are all set aside as not chemistry (see the advice), so the absorbance's rank %d is taken as the unchanging spectrum itself; nothing to resolve", n, rank.Estimate))
+		} else {
+			r.Notes = append(r.Notes, fmt.Sprintf("no change: every spectrum equals the first within noise (the difference spectra have rank 0; the absorbance's rank %d is the unchanging spectrum itself); nothing to resolve", rank.Estimate))
+		}
 	}
 	r.Components = k
 	if k == 0 && !unchanged {
-		r.Notes = append(r.Notes, "no change: every spectrum equals the reference within noise, a flat line at zero absorbance; nothing to resolve")
+		if n := setAsideAboveNoise(r.Chemical); n > 0 {
+			r.Notes = append(r.Notes, fmt.Sprintf("no component counted: the %d factor(s) above the noise are all set aside as not chemistry (see the advice); nothing to resolve", n))
+		} else {
+			r.Notes = append(r.Notes, "no change: every spectrum equals the reference within noise, a flat line at zero absorbance; nothing to resolve")
+		}
 	}
 	return nil
+}
+
+// setAsideAboveNoise counts the factors above the noise the classification
+// set aside, but for the reference's own noise (noise, if fixed in every
+// difference spectrum): with any, the spectra do not equal each other
+// within noise, whatever the count of components.
+func setAsideAboveNoise(cr *svd.ChemicalRank) int {
+	if cr == nil {
+		return 0
+	}
+	n := 0
+	for _, nf := range cr.Nuisance {
+		if nf.Kind != svd.NuisancePattern {
+			n++
+		}
+	}
+	return n
 }
 
 // resolveAndFit resolves r.Components components, then gives what depends
@@ -787,6 +820,8 @@ func diffAdvice(r *Result, rank *svd.RankReport) {
 		return
 	}
 	switch {
+	case r.DiffRank.Estimate == 0 && setAsideAboveNoise(r.DiffChemical) > 0:
+		r.Advice = append(r.Advice, fmt.Sprintf("the difference spectra's %d factor(s) above the noise are all set aside as not chemistry: no reaction is counted", setAsideAboveNoise(r.DiffChemical)))
 	case r.DiffRank.Estimate == 0:
 		r.Advice = append(r.Advice, "the difference spectra show no change beyond noise: nothing reacted")
 	case r.DiffRank.Estimate < rank.Estimate:
