@@ -206,7 +206,11 @@ func promoteMinor(r *Result, st *minorState) bool {
 		r.SetAside = r.SetAside[:st.setAside]
 		restoreNoise(r)
 		r.EFA, r.Compressed = nil, false
-		r.Notes = append(r.Notes, fmt.Sprintf("factor %d, first set aside as minor by its size, is counted as a species: %s; resolved again with %d components (--components N overrides)", v.Factor, v.Test.Verdict, r.Components))
+		what := "a species"
+		if r.Mode == mcr.Reactions {
+			what = "a reaction"
+		}
+		r.Notes = append(r.Notes, fmt.Sprintf("factor %d, first set aside as minor by its size, is counted as %s: %s; resolved again with %d components (--components N overrides)", v.Factor, what, v.Test.Verdict, r.Components))
 		return true
 	}
 	return false

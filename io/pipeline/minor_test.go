@@ -258,6 +258,12 @@ func TestMinorSpeciesInDifferences(t *testing.T) {
 			t.Errorf("%s: mode %s, %d components; want 2 reactions", c.name, r.Mode, r.Components)
 			continue
 		}
+		// The advice states the count resolved (the rank of difference data
+		// is the number of independent reactions, by definition), also when
+		// the refit raised it: it said rank 1 beside 2 reactions.
+		if adv := strings.Join(r.Advice, "\n"); !strings.Contains(adv, "difference data has rank 2 =") || strings.Contains(adv, "difference data has rank 1 =") {
+			t.Errorf("%s: 2 reactions resolved, but the advice says:\n%s", c.name, adv)
+		}
 		m, _ := s.spectra.Dims()
 		basis := mat.NewDense(m, 2, nil)
 		for j := 0; j < m; j++ {

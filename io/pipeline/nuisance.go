@@ -526,9 +526,13 @@ func nuisanceAdvice(r *Result) {
 		r.Advice = append(r.Advice, sharedMinorAdvice(r, nf.Factor, said)...)
 		r.Advice = append(r.Advice, fmt.Sprintf("factor %d (%.2g %% of the signal) is not counted as a species: %s%s%s", nf.Factor, nf.SharePercent, nf.Looks, spectraTimes(r, nf.Spectra), minorAdvice(r, nf.Factor)))
 	}
+	counted := "a species"
+	if r.Mode == mcr.Reactions {
+		counted = "a reaction"
+	}
 	for _, nf := range r.MinorSpecies {
 		r.Advice = append(r.Advice, sharedMinorAdvice(r, nf.Factor, said)...)
-		r.Advice = append(r.Advice, fmt.Sprintf("factor %d (%.2g %% of the signal) is counted as a species although its size alone would not count it%s", nf.Factor, nf.SharePercent, minorAdvice(r, nf.Factor)))
+		r.Advice = append(r.Advice, fmt.Sprintf("factor %d (%.2g %% of the signal) is counted as %s although its size alone would not count it%s", nf.Factor, nf.SharePercent, counted, minorAdvice(r, nf.Factor)))
 	}
 	if k := cr.NoiseLike - cr.NoiseWhite; k > 0 {
 		r.Notes = append(r.Notes, fmt.Sprintf("%d factor(s) above the white-noise level have a time vector as white as noise and a spectrum correlated along the axis: noise correlated along the axis (instrument smoothing or interpolation), not counted", k))

@@ -637,7 +637,7 @@ func (fa *factorRun) rankFindings() {
 		copiedDifferenceRank(r, s, fa.diffRows, fa.rf, fa.f, fa.maxF)
 		diffAdvice(r, rank)
 	} else if rank.Estimate > 0 {
-		r.Advice = append(r.Advice, fmt.Sprintf("difference data has rank %d = the number of independent reactions it shows (at least %d species take part; a rank deficiency can hide more); to resolve species give a blank single beam (--blank) or absorbance input", rank.Estimate, rank.Estimate+1))
+		r.Advice = append(r.Advice, reactionsAdvice(rank.Estimate))
 	}
 	r.Warnings = append(r.Warnings, rank.Warnings...)
 	if note := smoothCountedNote(r); note != "" {
@@ -829,6 +829,16 @@ func diffAdvice(r *Result, rank *svd.RankReport) {
 	}
 }
 
+// reactionsAdvicePrefix begins the advice on the count of difference data
+// alone (reactionsAdvice).
+const reactionsAdvicePrefix = "difference data has rank "
+
+// reactionsAdvice says what a count of k reactions of difference data alone
+// means.
+func reactionsAdvice(k int) string {
+	return fmt.Sprintf(reactionsAdvicePrefix+"%d = the number of independent reactions it shows (at least %d species take part; a rank deficiency can hide more); to resolve species give a blank single beam (--blank) or absorbance input", k, k+1)
+}
+
 // countsAdvice compares the absolute absorbance's count k with the
 // differences' kd (kd < k).
 func countsAdvice(kd, k int) string {
@@ -839,6 +849,16 @@ func countsAdvice(kd, k int) string {
 // the count of species changed after it was written (a minor factor
 // counted as a species): it said "2 chemical components" beside a rank of 3.
 func recountAdvice(r *Result) {
+	if r.Mode == mcr.Reactions {
+		// Difference data alone: its rank is the count of reactions the
+		// advice gives, which the count just raised.
+		for i, a := range r.Advice {
+			if strings.HasPrefix(a, reactionsAdvicePrefix) {
+				r.Advice[i] = reactionsAdvice(r.Rank.Estimate)
+			}
+		}
+		return
+	}
 	if r.DiffRank == nil || r.DiffRank.Estimate == 0 {
 		return
 	}
