@@ -304,12 +304,12 @@ func (l edgeLine) Plot(c draw.Canvas, plt *plot.Plot) {
 	if l.LineStyle.Width == 0 {
 		return
 	}
-	trX, trY := plt.Transforms(&c)
+	trX, trY := transforms(&c, plt)
 	s := scratchOf(c)
 	ps := grownPoints(&s.pts, len(l.XYs))
 	inside := true
 	for i, p := range l.XYs {
-		ps[i] = vg.Point{X: trX(p.X), Y: trY(p.Y)}
+		ps[i] = vg.Point{X: trX.at(p.X), Y: trY.at(p.Y)}
 		inside = inside && c.Contains(ps[i])
 	}
 	var lines [][]vg.Point
@@ -332,6 +332,59 @@ func (l edgeLine) Plot(c draw.Canvas, plt *plot.Plot) {
 	default:
 		c.StrokeLines(l.LineStyle, lines...)
 	}
+}
+
+// axisMap is plot.Plot.Transforms' map of one axis, data to canvas: the
+// axis's Norm then the canvas's X or Y, the same operations in the same
+// order, so the same lengths. Transforms' closures call Axis.Norm, whose
+// receiver is the whole Axis (its label, ticks and styles) copied at every
+// point: with the scale's and the canvas's calls, a tenth of drawing the
+// long lines and bands (docs/performance-history.md, twenty-fourth round).
+// The linear scale and its inverse are written out; any other scale is
+// called through the axis's Normalizer.
+type axisMap struct {
+	min, max float64
+	lo, size vg.Length // the canvas's Min and Max − Min along the axis
+	scale    int       // linearAxis, invertedAxis or otherAxis
+	norm     plot.Normalizer
+}
+
+const (
+	linearAxis = iota
+	invertedAxis
+	otherAxis
+)
+
+func newAxisMap(a *plot.Axis, lo, hi vg.Length) axisMap {
+	m := axisMap{min: a.Min, max: a.Max, lo: lo, size: hi - lo, scale: otherAxis, norm: a.Scale}
+	switch sc := a.Scale.(type) {
+	case plot.LinearScale:
+		m.scale = linearAxis
+	case plot.InvertedScale:
+		if _, ok := sc.Normalizer.(plot.LinearScale); ok {
+			m.scale = invertedAxis
+		}
+	}
+	return m
+}
+
+// at is the canvas coordinate of x.
+func (m axisMap) at(x float64) vg.Length {
+	var v float64
+	switch m.scale {
+	case linearAxis: // plot.LinearScale.Normalize(min, max, x)
+		v = (x - m.min) / (m.max - m.min)
+	case invertedAxis: // plot.InvertedScale{LinearScale}: the same with min and max swapped
+		v = (x - m.max) / (m.min - m.max)
+	default:
+		v = m.norm.Normalize(m.min, m.max, x)
+	}
+	return vg.Length(v)*m.size + m.lo // draw.Canvas.X and Y
+}
+
+// transforms are plt.Transforms(c) as axis maps.
+func transforms(c *draw.Canvas, plt *plot.Plot) (x, y axisMap) {
+	return newAxisMap(&plt.X, c.Min.X, c.Max.X), newAxisMap(&plt.Y, c.Min.Y, c.Max.Y)
 }
 
 // lineScratch is memory that the lines and shaded bands drawn on one canvas
@@ -437,14 +490,14 @@ func (pg thinPolygon) DataRange() (xmin, xmax, ymin, ymax float64) {
 // Like a line, a ring wholly inside the canvas is not clipped, which would
 // give it back as it is (draw.Canvas.ClipPolygonXY) after four copies.
 func (pg thinPolygon) Plot(c draw.Canvas, plt *plot.Plot) {
-	trX, trY := plt.Transforms(&c)
+	trX, trY := transforms(&c, plt)
 	s := scratchOf(c)
 	var rings [][]vg.Point
 	buf := s.thinned[:0] // the thinned rings, one after another
 	for _, ring := range pg.XYs {
 		ps := grownPoints(&s.pts, len(ring))
 		for i, p := range ring {
-			ps[i] = vg.Point{X: trX(p.X), Y: trY(p.Y)}
+			ps[i] = vg.Point{X: trX.at(p.X), Y: trY.at(p.Y)}
 		}
 		start := len(buf)
 		buf = thinAppend(buf, ps)
