@@ -32,6 +32,37 @@ func AppendG(b []byte, v float64, prec int) []byte {
 	return formatG(b, d[:nd], dp, prec)
 }
 
+// AppendGValue is AppendG that also gives the float64 its text reads back
+// as (strconv.ParseFloat's), formed from the digits written when one
+// correctly rounded operation gives it: the digits as an integer u < 10¹⁵
+// and the text's power of ten p with |p| ≤ 22, u·10^p or u/10^−p, both
+// factors exact (Clinger, PLDI 1990, the fast path of every correctly
+// rounded reader). exact is false when it did not (the text must then be
+// read); the text is AppendG's in every case.
+func AppendGValue(b []byte, v float64, prec int) (out []byte, value float64, exact bool) {
+	if prec < 1 || prec > 15 || v == 0 || math.IsNaN(v) || math.IsInf(v, 0) {
+		return strconv.AppendFloat(b, v, 'g', prec, 64), 0, false
+	}
+	var d [16]byte
+	nd, dp, ok := gDigits(math.Abs(v), prec, &d)
+	if !ok {
+		return strconv.AppendFloat(b, v, 'g', prec, 64), 0, false
+	}
+	if v < 0 {
+		b = append(b, '-')
+	}
+	b = formatG(b, d[:nd], dp, prec)
+	var u uint64
+	for _, c := range d[:nd] {
+		u = 10*u + uint64(c-'0')
+	}
+	value, exact = scaled(float64(u), dp-nd)
+	if v < 0 {
+		value = -value
+	}
+	return b, value, exact
+}
+
 // gDigits writes the prec significant digits of a > 0 (finite) into d,
 // trailing zeros dropped, and gives their count and the decimal point's
 // place (dp digits from the left); false when it cannot be sure of them.

@@ -86,3 +86,45 @@ func BenchmarkAppendG(b *testing.B) {
 		}
 	})
 }
+
+// AppendGValue writes AppendG's text, and the value it gives when exact is
+// the one strconv.ParseFloat reads from that text (the standard library's
+// correctly rounded reader, the reference), bit for bit; on most numbers
+// of ordinary size it is exact. AppendDigitsValue's "0" is 0.
+func TestAppendGValueReadsBack(t *testing.T) {
+	rng := rand.New(rand.NewPCG(23, 24))
+	exact, total := 0, 0
+	for range 300000 {
+		for _, v := range []float64{
+			math.Float64frombits(rng.Uint64()),
+			math.Pow(10, 50*rng.Float64()-25) * (rng.Float64() + 0.5),
+			float64(rng.IntN(2000000)-1000000) / math.Pow(10, float64(rng.IntN(9))),
+		} {
+			prec := []int{6, 10, 1 + rng.IntN(15)}[rng.IntN(3)]
+			got, val, ok := AppendGValue([]byte("x"), v, prec)
+			if want := AppendG([]byte("x"), v, prec); string(got) != string(want) {
+				t.Fatalf("AppendGValue(%v, %d) wrote %q, AppendG %q", v, prec, got[1:], want[1:])
+			}
+			if a := math.Abs(v); a > 1e-15 && a < 1e15 {
+				total++
+			}
+			if !ok {
+				continue
+			}
+			exact++
+			want, err := strconv.ParseFloat(string(got[1:]), 64)
+			if err != nil || math.Float64bits(val) != math.Float64bits(want) {
+				t.Fatalf("AppendGValue(%v, %d) = %q gave %v, ParseFloat %v (%v)", v, prec, got[1:], val, want, err)
+			}
+		}
+	}
+	if exact < total*9/10 {
+		t.Errorf("exact for %d of %d numbers of ordinary size", exact, total)
+	}
+	if b, v, ok := AppendDigitsValue(nil, math.Copysign(0, -1), 6); string(b) != "0" || v != 0 || math.Signbit(v) || !ok {
+		t.Errorf("−0: %q, %v, %v", b, v, ok)
+	}
+	if b, _, ok := AppendDigitsValue(nil, math.NaN(), 6); len(b) != 0 || ok {
+		t.Error("NaN written or exact")
+	}
+}

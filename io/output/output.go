@@ -465,6 +465,18 @@ func AppendDigits(b []byte, v float64, digits int) []byte {
 	return AppendG(b, v, digits)
 }
 
+// AppendDigitsValue is AppendDigits that also gives the value its text
+// reads back as, when AppendGValue forms it exactly (exact; 0 for "0").
+func AppendDigitsValue(b []byte, v float64, digits int) (out []byte, value float64, exact bool) {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return b, 0, false
+	}
+	if v == 0 {
+		return append(b, '0'), 0, true
+	}
+	return AppendGValue(b, v, digits)
+}
+
 // Table is a header and rows of cells, written as CSV.
 type Table struct {
 	Header []string

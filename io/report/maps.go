@@ -205,12 +205,18 @@ func (l *mapLine) format(b []byte, mm MapMatrix, i int, times []float64, experim
 }
 
 // appendValue appends v as output.AppendDigits does and returns the value Load reads
-// back from the text (readMaps: NaN for an empty cell, ok false then).
+// back from the text (readMaps: NaN for an empty cell, ok false then): as
+// output.AppendDigitsValue forms it from the digits, or read from the text
+// where it does not (the same float64 either way: both are the correctly
+// rounded value of the text).
 func appendValue(b []byte, v float64, digits int) ([]byte, float64, bool) {
 	n := len(b)
-	b = output.AppendDigits(b, v, digits)
+	b, r, exact := output.AppendDigitsValue(b, v, digits)
 	if len(b) == n {
 		return b, math.NaN(), false
+	}
+	if exact {
+		return b, r, true
 	}
 	r, err := parseNumber(b[n:])
 	if err != nil || math.IsInf(r, 0) {
