@@ -240,6 +240,15 @@ func badCases() []badCase {
 
 		// Folders of spectrum files.
 		{name: "folder without times", args: []string{"--data", F}, setup: folder, code: 2, want: []string{"scans is a folder of spectra", "--times FILE", "--times-from-name"}},
+		// A times table names the flag that gave it when it is not there, and
+		// is refused beside a matrix CSV, whose header gives the times: it
+		// was ignored without a word (docs/errors.md: one line, what, where,
+		// what to do).
+		{name: "times table that is not there", args: []string{"--data", F, "--times", "W/none.csv"}, setup: folder, code: 1, want: []string{"resolve: --times ", "none.csv: cannot read: no such file or directory", "check the path of the times table"}},
+		{name: "times table beside a matrix CSV", args: []string{"--data", "B/good.csv", "--times", "W/t.csv"}, setup: func(t *testing.T, w string) {
+			writeFile(t, filepath.Join(w, "t.csv"), "file,time_s\na.csv,0\n")
+		}, code: 2, want: []string{"resolve: --times ", "t.csv: --data ", "good.csv is a matrix CSV", "header row gives each spectrum's time", "leave it out"}},
+		{name: "times from names beside a matrix CSV", args: []string{"--data", "B/good.csv", "--times-from-name"}, code: 2, want: []string{"resolve: --times-from-name: --data ", "good.csv is a matrix CSV", "leave it out"}},
 		{name: "empty folder", args: []string{"--data", "W/none", "--times-from-name"}, setup: func(t *testing.T, w string) { os.Mkdir(filepath.Join(w, "none"), 0o755) }, code: 1, want: []string{"none: holds no spectrum files", "one file per spectrum"}},
 		{name: "folder file on another axis", args: []string{"--data", F, "--times-from-name"}, setup: func(t *testing.T, w string) {
 			folder(t, w)

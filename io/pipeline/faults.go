@@ -3,6 +3,7 @@ package pipeline
 import (
 	"errors"
 	"fmt"
+	"io/fs"
 	"math"
 	"os"
 	"slices"
@@ -29,6 +30,36 @@ func inputContext(source string, err error) error {
 // times before any file is read: the fix is an option, so it is a usage error.
 // A folder of JCAMP-DX files alone may carry the times in its headers;
 // reading it tells, and names a file without one.
+// checkTimesSource refuses, before any spectrum is read, a --times table
+// that is not there (naming the flag: the message had come from the
+// manifest's hashing, "manifest: stat t.csv", or named the path alone),
+// and --times or --times-from-name when no --data takes times from them:
+// a matrix CSV's header gives each spectrum's time, and a table beside it
+// was ignored without a word, however wrong.
+func checkTimesSource(s *Settings) error {
+	if s.Times == "" && !s.TimesFromName {
+		return nil
+	}
+	flag := "--times-from-name"
+	if s.Times != "" {
+		flag = "--times " + s.Times
+		if _, err := os.Stat(s.Path(s.Times)); err != nil {
+			var pe *fs.PathError
+			if errors.As(err, &pe) {
+				err = pe.Err
+			}
+			return fmt.Errorf("%s: cannot read: %v; check the path of the times table (a CSV with columns file,time_s)", flag, err)
+		}
+	}
+	for _, p := range s.Data {
+		st, err := os.Stat(s.Path(p))
+		if p == "" || err != nil || st.IsDir() || spectra.IsJCAMP(p) {
+			return nil // read by a folder or a JCAMP-DX file, or refused when read
+		}
+	}
+	return usage("%s: --data %s is a matrix CSV, whose header row gives each spectrum's time, so %s would not be used: leave it out, and correct the header's times if they are wrong", flag, s.Data[0], flag)
+}
+
 func needTimes(s *Settings, data string, folder spectra.FolderOptions) error {
 	if s.Times != "" || s.TimesFromName {
 		return nil

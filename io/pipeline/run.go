@@ -1107,6 +1107,9 @@ func assembleExperiments(s *Settings, r *Result, series []*spectra.Series, axis 
 // was given).
 func loadSeries(s *Settings, r *Result, folder spectra.FolderOptions, kind spectra.Kind, log io.Writer) ([]*spectra.Series, spectra.Kind, error) {
 	var series []*spectra.Series
+	if err := checkTimesSource(s); err != nil {
+		return nil, "", err
+	}
 	for _, p := range s.Data {
 		if p == "" {
 			return nil, "", usage("--data is empty: give a matrix CSV, a folder of spectra or a JCAMP-DX file")

@@ -20,6 +20,10 @@ import (
 // A = −log10 T (IUPAC Gold Book, "absorbance"; percent transmittance is
 // divided by 100 first), and arbitrary units or counts are single beams.
 
+// IsJCAMP says path names a JCAMP-DX file by its ending (.jdx, .dx,
+// .jcamp), as Load tells one from a matrix CSV.
+func IsJCAMP(path string) bool { return isJCAMP(path) }
+
 func isJCAMP(path string) bool {
 	e := strings.ToLower(filepath.Ext(path))
 	return e == ".jdx" || e == ".dx" || e == ".jcamp"
