@@ -499,7 +499,7 @@ func readSummary(dir string) (object, error) {
 	}
 	var o object
 	if err := json.Unmarshal(raw, &o); err != nil {
-		return nil, fmt.Errorf("%s is not a JSON object: %v", SummaryName, err)
+		return nil, fmt.Errorf("%s is not the summary bandsolve writes: %s; run the analysis again into a new --out, or leave this folder out", SummaryName, output.JSONFault(err))
 	}
 	return o, nil
 }

@@ -74,6 +74,36 @@ func needTimes(s *Settings, data string, folder spectra.FolderOptions) error {
 	return nil
 }
 
+// closableRows refuses closure when the profiles held at zero (by flag,
+// for the reason why) hold every component at zero at one time: the
+// concentrations there cannot sum to the closure total, and ALS had
+// stopped at its first step with "closure cannot hold: every component
+// is fixed in column 0", naming neither the time nor the settings.
+func closableRows(r *Result, opt mcr.Options, flag, why string) error {
+	k := r.Components
+	if !opt.Closure || len(opt.ZeroProfiles) < k || k == 0 {
+		return nil
+	}
+	n, _ := r.D.Dims()
+	for i := 0; i < n; i++ {
+		all := true
+		for j := 0; j < k && all; j++ {
+			z := opt.ZeroProfiles[j]
+			all = i < len(z) && z[i]
+		}
+		if !all {
+			continue
+		}
+		e := r.Experiments[r.ExpOfRow[i]]
+		if why != "" {
+			why = ", where " + why
+		}
+		return usage("%s with --closure %s: every one of the %d components is held at zero at %g s (spectrum %d of %s)%s, so their concentrations cannot sum to %s there; ask for fewer components (--components N; the rank estimate is %d), or leave out %s, or give --closure off",
+			flag, r.Settings.Closure, k, r.Times[i], i-e.FirstRow+1, e.Source, why, r.Settings.Closure, r.Rank.Estimate, flag)
+	}
+	return nil
+}
+
 // checkClosureRows refuses closure when a spectrum is all zero: its
 // concentrations cannot sum to a positive total while every species has a
 // non-negative spectrum, so the constraint contradicts the data.

@@ -16,6 +16,7 @@ import (
 	"strings"
 	"sync/atomic"
 	"time"
+	"unicode"
 
 	"github.com/bandsolve/bandsolve/internal/fanout"
 	"github.com/bandsolve/bandsolve/io/cmdfile"
@@ -178,6 +179,21 @@ func escapes(rel string) bool {
 	return rel == ".." || strings.HasPrefix(rel, ".."+string(filepath.Separator)) || filepath.IsAbs(rel)
 }
 
+// renameAdvice is what to do when a path setting cannot be written in
+// the as-run record: a file or folder whose name holds a line break or
+// another control character, which no command file can hold (cmdfile.Quote)
+// and a rerun must name. "" when no path holds one.
+func renameAdvice(s *Settings) string {
+	for _, name := range []string{"data", "blank", "vapour", "times", "reference", "init", "out"} {
+		for _, v := range s.Get(name) {
+			if strings.ContainsFunc(v, func(r rune) bool { return r != '\t' && (unicode.IsControl(r) || r == '\u2028' || r == '\u2029') }) {
+				return fmt.Sprintf("; rename the file or folder --%s names so that its name holds no line break or other control character: the as-run record must name it for a rerun", name)
+			}
+		}
+	}
+	return ""
+}
+
 // relSlash is target relative to from, with forward slashes so that a
 // record reads the same on every system; absolute when no relative path
 // exists (another drive).
@@ -198,7 +214,7 @@ func writeRecord(r *Result, stage *output.Stage) error {
 	}
 	rec, err := Record(r, relSlash(out, base))
 	if err != nil {
-		return fmt.Errorf("as-run record: %w", err)
+		return fmt.Errorf("as-run record: %w%s", err, renameAdvice(s))
 	}
 	if err := stage.Write(RecordName, rec); err != nil {
 		return err
@@ -864,7 +880,7 @@ func readManifest(root *os.Root, dir string) (*Manifest, error) {
 func parseManifest(name string, b []byte) (*Manifest, error) {
 	var m Manifest
 	if err := json.Unmarshal(b, &m); err != nil {
-		return nil, fmt.Errorf("%s: not a valid manifest: %w", name, err)
+		return nil, fmt.Errorf("%s: not a valid manifest: %s; it was changed since bandsolve wrote it, or is none of bandsolve's: run the analysis again into a new --out", name, output.JSONFault(err))
 	}
 	if m.Tool != "bandsolve" {
 		return nil, fmt.Errorf("%s: not a bandsolve manifest (its tool is %q)", name, clip(m.Tool))

@@ -1434,8 +1434,14 @@ func startResolution(r *Result, log io.Writer) (*mat.Dense, mcr.Options, mcr.Dat
 		if err := addEFAWindows(r, &opt); err != nil {
 			return nil, mcr.Options{}, nil, err
 		}
+		if err := closableRows(r, opt, "--efa-windows on", "evolving factor analysis finds none of them present"); err != nil {
+			return nil, mcr.Options{}, nil, err
+		}
 	}
 	if err := applyConstraints(r, c0, &opt); err != nil {
+		return nil, mcr.Options{}, nil, err
+	}
+	if err := closableRows(r, opt, "--zero-window", ""); err != nil {
 		return nil, mcr.Options{}, nil, err
 	}
 	data := alsData(r, r.Components)

@@ -233,10 +233,10 @@ func LoadParsed(dir string, maps *Maps, staged func(name string) ([]byte, bool),
 	}
 	f.Summary = &Summary{}
 	if err := json.Unmarshal(b, f.Summary); err != nil {
-		return nil, fmt.Errorf("%s: summary.json is not valid: %w", dir, err)
+		return nil, fmt.Errorf("%s: summary.json is not valid: %s; run the analysis again into a new --out", dir, output.JSONFault(err))
 	}
 	if err := json.Unmarshal(b, &f.SummaryRaw); err != nil {
-		return nil, fmt.Errorf("%s: summary.json is not valid: %w", dir, err)
+		return nil, fmt.Errorf("%s: summary.json is not valid: %s; run the analysis again into a new --out", dir, output.JSONFault(err))
 	}
 	table := func(name string) *Table {
 		b, err := read(name)
