@@ -817,6 +817,16 @@ func SubtractLines(d *mat.Dense, refs [][]float64, amounts *mat.Dense) {
 	}
 }
 
+// LineError is a fault of given line spectra themselves (no narrow lines,
+// two alike), not of the data: Lines are their 1-based places in the list
+// LineAmounts was given, so that a caller can name their files.
+type LineError struct {
+	Lines []int
+	Msg   string
+}
+
+func (e *LineError) Error() string { return e.Msg }
+
 // linesApart refuses a reference whose high-pass keeps less than a
 // millionth of its energy (no narrow lines: a broad band keeps about
 // 1e-10, a line forest a large share) and two references whose lines are
@@ -825,11 +835,11 @@ func linesApart(gram *mat.SymDense, refs [][]float64) error {
 	k := gram.SymmetricDim()
 	for p := 0; p < k; p++ {
 		if e := dotWindow(refs[p], refs[p]); !(gram.At(p, p) > 1e-6*e) {
-			return fmt.Errorf("line spectrum %d has no narrow lines (its high-pass keeps %.2g of its energy)", p+1, gram.At(p, p)/math.Max(e, math.SmallestNonzeroFloat64))
+			return &LineError{Lines: []int{p + 1}, Msg: fmt.Sprintf("line spectrum %d has no narrow lines (its high-pass keeps %.2g of its energy)", p+1, gram.At(p, p)/math.Max(e, math.SmallestNonzeroFloat64))}
 		}
 		for q := 0; q < p; q++ {
 			if cos := gram.At(p, q) / math.Sqrt(gram.At(p, p)*gram.At(q, q)); math.Abs(cos) > 0.999 {
-				return fmt.Errorf("line spectra %d and %d have the same lines (cosine %.4f): give one", q+1, p+1, cos)
+				return &LineError{Lines: []int{q + 1, p + 1}, Msg: fmt.Sprintf("line spectra %d and %d have the same lines (cosine %.4f): give one", q+1, p+1, cos)}
 			}
 		}
 	}

@@ -2,6 +2,7 @@ package svd
 
 import (
 	"bufio"
+	"errors"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -479,6 +480,18 @@ func TestLineAmountsRefused(t *testing.T) {
 	} {
 		if _, err := LineAmounts(tc.d, tc.axis, tc.refs); err == nil || !strings.Contains(err.Error(), tc.want) {
 			t.Errorf("%s: %v, want %q", tc.name, err, tc.want)
+		}
+	}
+	// A fault of the references themselves says which (1-based), so that
+	// the caller names their files, not the data's.
+	for _, tc := range []struct {
+		refs [][]float64
+		want []int
+	}{{[][]float64{lines, smooth}, []int{2}}, {[][]float64{lines, twice}, []int{1, 2}}} {
+		_, err := LineAmounts(d, axis, tc.refs)
+		var le *LineError
+		if !errors.As(err, &le) || !slices.Equal(le.Lines, tc.want) {
+			t.Errorf("%v: want a LineError of lines %v", err, tc.want)
 		}
 	}
 }

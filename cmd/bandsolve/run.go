@@ -445,9 +445,29 @@ func settingsFor(file string, flags *pipeline.Settings, changed map[string]bool,
 	if err != nil {
 		return nil, nil, err
 	}
-	s, err = laySettings(file, s, flags, changed, batch, outs)
-	return s, cf, err
+	laid, err := laySettings(file, s, flags, changed, batch, outs)
+	var out *outsideError
+	if errors.As(err, &out) {
+		// The file's out line is at fault: name its line and column, as
+		// every fault of a command file does (docs/command-files.md).
+		if e, ok := entryFor(cf, "out", "", s); ok {
+			return nil, cf, &placedError{msg: fmt.Sprintf("%s:%d:%d: %v", cf.Name, e.Line, max(e.ValueCol, e.Col), out.err), err: out.usage}
+		}
+		return nil, cf, out.usage
+	}
+	return laid, cf, err
 }
+
+// outsideError is a command file's out line leading out of its folder
+// (cmdfile.Inside, err), a usage error that settingsFor places at that
+// line.
+type outsideError struct {
+	usage *pipeline.UsageError
+	err   error
+}
+
+func (e *outsideError) Error() string { return e.usage.Error() }
+func (e *outsideError) Unwrap() error { return e.usage }
 
 // laySettings lays the command line over a command file's settings s and
 // decides the output folder.
@@ -496,7 +516,7 @@ func laySettings(file string, s *pipeline.Settings, flags *pipeline.Settings, ch
 		s.Out, err = filepath.Abs(flags.Out)
 	case s.Out != "":
 		if err := cmdfile.Inside(fileDir, s.Path(s.Out)); err != nil {
-			return nil, &pipeline.UsageError{Msg: file + ": " + err.Error()}
+			return nil, &outsideError{usage: &pipeline.UsageError{Msg: file + ": " + err.Error()}, err: err}
 		}
 	default:
 		s.Out, err = filepath.Abs(filepath.Join(fileDir, stem+"-results"))

@@ -254,7 +254,9 @@ func TestRunFaultsNameTheLine(t *testing.T) {
 }
 
 // A link inside the file's folder that points outside it does not let a
-// command file write elsewhere.
+// command file write elsewhere, and the refusal names the out line and its
+// value's column, as every fault of a command file does
+// (docs/command-files.md).
 func TestRunOutThroughLink(t *testing.T) {
 	root := t.TempDir()
 	elsewhere := t.TempDir()
@@ -263,10 +265,12 @@ func TestRunOutThroughLink(t *testing.T) {
 		t.Skip("no symbolic links:", err)
 	}
 	p := filepath.Join(root, "l.bsr")
-	writeText(t, p, "data series.csv\nblank blank.csv\n"+quickSettings+"out link/results\n")
+	before := "data series.csv\nblank blank.csv\n" + quickSettings
+	writeText(t, p, before+"out link/results\n")
 	r := run("run", p, "--quiet")
-	if r.code != exitUsage || !strings.Contains(r.stderr, "not inside the command file's folder") {
-		t.Errorf("exit %d, stderr %q", r.code, r.stderr)
+	at := fmt.Sprintf("%s:%d:5: output folder", p, strings.Count(before, "\n")+1)
+	if r.code != exitUsage || !strings.Contains(r.stderr, "not inside the command file's folder") || !strings.Contains(r.stderr, at) {
+		t.Errorf("exit %d, stderr %q; want %q", r.code, r.stderr, at)
 	}
 	if ents, _ := os.ReadDir(elsewhere); len(ents) != 0 {
 		t.Errorf("something was written through the link: %v", ents)

@@ -8,6 +8,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"sort"
 	"strconv"
 	"strings"
 )
@@ -37,6 +38,26 @@ type Block struct {
 	Labels []Label
 	// Line is the line of the block's ##TITLE=.
 	Line int
+	// Rows are the block's data lines in file order, each with the index
+	// of the first point it holds, so that a fault of one point (a
+	// repeated X) can name its line (PointLine).
+	Rows []Row
+}
+
+// Row is one data line: its line number and the index of the first point
+// it holds.
+type Row struct {
+	Line, First int
+}
+
+// PointLine is the line that holds point i of the block, the ##TITLE=
+// line when the data lines are not known.
+func (b Block) PointLine(i int) int {
+	k := sort.Search(len(b.Rows), func(k int) bool { return b.Rows[k].First > i })
+	if k == 0 {
+		return b.Line
+	}
+	return b.Rows[k-1].Line
 }
 
 // Label is one labelled data record "##NAME=value". Values that run on over
@@ -607,6 +628,9 @@ func (p *parser) xyPointsLine(ob *openBlock, t string) error {
 	if len(ob.raw)/2+len(toks)/2 > ob.limit {
 		return p.tooMany(ob)
 	}
+	if len(toks) > 0 {
+		ob.b.Rows = append(ob.b.Rows, Row{Line: p.line, First: len(ob.raw) / 2})
+	}
 	for _, tk := range toks {
 		ob.raw = append(ob.raw, tk.v)
 	}
@@ -765,6 +789,9 @@ func (p *parser) finishXYData(ob *openBlock) error {
 	}
 	if n > 1 {
 		b.X[n-1] = lastX // exact end, so that Write(Parse(f)) keeps LASTX
+	}
+	for _, c := range ob.checks {
+		b.Rows = append(b.Rows, Row{Line: c.line, First: c.index})
 	}
 	b.Y = ob.raw
 	for i, v := range b.Y {

@@ -65,3 +65,20 @@ func TestManifestFaultInReadersTerms(t *testing.T) {
 		t.Errorf("got %v, want %q and advice", err, want)
 	}
 }
+
+// A --vapour spectrum without narrow lines is a fault of that file: the
+// message names it (docs/errors.md: what, where, what to do), where it had
+// named only the --data file whose axis it was put on.
+func TestVapourFaultNamesTheFile(t *testing.T) {
+	s := NewSettings()
+	s.Vapour = []string{"humid.csv", "flat.csv"}
+	err := vapourFault(s, "run.csv", &svd.LineError{Lines: []int{2}, Msg: "line spectrum 2 has no narrow lines (its high-pass keeps 1e-30 of its energy)"})
+	want := "--vapour flat.csv: line spectrum 2 has no narrow lines (its high-pass keeps 1e-30 of its energy), on the channels of run.csv; give the vapour's absorbance spectrum"
+	if err == nil || !strings.HasPrefix(err.Error(), want) {
+		t.Errorf("got %v, want %q", err, want)
+	}
+	err = vapourFault(s, "run.csv", &svd.LineError{Lines: []int{1, 2}, Msg: "line spectra 1 and 2 have the same lines (cosine 1.0000): give one"})
+	if err == nil || !strings.HasPrefix(err.Error(), "--vapour humid.csv and flat.csv: line spectra 1 and 2") {
+		t.Errorf("two alike: %v", err)
+	}
+}

@@ -1,6 +1,7 @@
 package pipeline
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"slices"
@@ -471,6 +472,27 @@ func readLineSpectra(r *Result, first *spectra.Series, axis []float64, chans []i
 	return nil
 }
 
+// vapourFault says what LineAmounts refused: a fault of the --vapour
+// files themselves names them (it had named the --data file, source,
+// whose axis they were put on), one of the data's axis names source.
+func vapourFault(s *Settings, source string, err error) error {
+	var le *svd.LineError
+	if !errors.As(err, &le) {
+		return fmt.Errorf("--vapour: %s: %w", source, err)
+	}
+	var files []string
+	for _, k := range le.Lines {
+		if k >= 1 && k <= len(s.Vapour) {
+			files = append(files, s.Vapour[k-1])
+		}
+	}
+	hint := "give the vapour's absorbance spectrum (humid less dry beam path), recorded at the data's resolution"
+	if len(le.Lines) > 1 {
+		hint = "leave out one of them"
+	}
+	return fmt.Errorf("--vapour %s: %s, on the channels of %s; %s", strings.Join(files, " and "), le.Msg, source, hint)
+}
+
 // subtractLineSpectra takes the --vapour spectra out of one experiment's
 // assembled matrices, each row by the amounts fitted on its own lines
 // (svd.LineAmounts). The fit is linear in the row, so the differences
@@ -494,7 +516,7 @@ func subtractLineSpectra(r *Result, as *spectra.Assembled, source string, axis [
 		}
 		a, err := svd.LineAmounts(d, axis, r.LineSpectra)
 		if err != nil {
-			return fmt.Errorf("--vapour: %s: %w", source, err)
+			return vapourFault(r.Settings, source, err)
 		}
 		svd.SubtractLines(d, r.LineSpectra, a)
 		if d == kept && r.LineAmounts == nil {

@@ -476,6 +476,9 @@ func headerTimes(dir string, files []string, specs []*Spectrum, errs []error) ([
 		}
 	}
 	for i, sp := range specs {
+		if sp.Acquired.IsZero() && sp.dateFault != "" {
+			return nil, inputErr(files[i], sp.dateLine, "correct it, or give --times FILE (columns file,time_s) or --times-from-name", "%s, and a folder of spectra needs an acquisition time for every file", sp.dateFault)
+		}
 		if sp.Acquired.IsZero() {
 			return nil, inputErr(files[i], 0, "give --times FILE (columns file,time_s) or --times-from-name", "its JCAMP-DX header has no acquisition time (##LONGDATE, or ##DATE with ##TIME), and a folder of spectra needs one for every file")
 		}

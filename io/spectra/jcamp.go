@@ -71,7 +71,7 @@ func readJCAMPSeries(path string) ([]*Spectrum, error) {
 func blockSpectrum(path, src string, b jcamp.Block) (*Spectrum, error) {
 	x := append([]float64(nil), b.X...)
 	y := append([]float64(nil), b.Y...)
-	if err := checkAxis(path, x, func(int) int { return b.Line }); err != nil {
+	if err := checkAxis(path, x, b.PointLine); err != nil {
 		return nil, err
 	}
 	kind := b.Kind()
@@ -94,9 +94,12 @@ func blockSpectrum(path, src string, b jcamp.Block) (*Spectrum, error) {
 		}
 		kind = string(Absorbance)
 	}
-	acq, _ := jcampAcquired(b)
+	acq, ok := jcampAcquired(b)
 	sp := &Spectrum{AxisName: jcampAxisName(b.XUnits, x), Axis: x, Values: y, Source: src, Kind: kind, Units: b.YUnits, Title: b.Title, Acquired: acq,
 		AxisGuessed: strings.TrimSpace(b.XUnits) == ""}
+	if !ok {
+		sp.dateFault, sp.dateLine = jcampDateFault(b)
+	}
 	if sp.AxisName == "wavelength" && micrometres(b.XUnits) {
 		// JCAMP-DX 4.24 ##XUNITS=MICROMETERS: a wavelength in µm, put in nm
 		// as a matrix header's or a column title's is.

@@ -127,3 +127,38 @@ func TestJCAMPTransmittanceOfCounts(t *testing.T) {
 		t.Errorf("CSV with --kind transmittance: %v", err)
 	}
 }
+
+// A fault of one point of a JCAMP-DX block names the line that holds it
+// (docs/errors.md: file and line as an editor shows them): a repeated X in
+// ##XYPOINTS on line 13, not the block's ##TITLE on line 1.
+func TestJCAMPPointFaultLine(t *testing.T) {
+	text := "##TITLE=t\n##JCAMP-DX=4.24\n##DATA TYPE=INFRARED SPECTRUM\n##XUNITS=1/CM\n##YUNITS=ABSORBANCE\n##XFACTOR=1\n##YFACTOR=1\n" +
+		"##FIRSTX=1010\n##LASTX=1000\n##NPOINTS=6\n##XYPOINTS=(XY..XY)\n1010, 0.1\n1008, 0.2; 1006, 0.3\n1004, 0.2\n1000, 0.1\n1000, 0.1\n##END=\n"
+	_, err := ReadSpectrum(fuzzFile(t, "l.jdx", []byte(text)))
+	if err == nil || !strings.Contains(err.Error(), "l.jdx:16: axis value 1000 repeats the previous row") {
+		t.Errorf("repeated X: %v, want it at line 16", err)
+	}
+}
+
+// A header date that is no real date (30 February) is said as such, with
+// its line, where a folder of JCAMP-DX files timed by their headers had
+// said the file has no acquisition time at all (JCAMP-DX 5.01's
+// ##LONGDATE=YYYY/MM/DD HH:MM:SS, from memory).
+func TestJCAMPInvalidDateNamed(t *testing.T) {
+	dir := t.TempDir()
+	file := func(name, date string) {
+		text := "##TITLE=" + name + "\n##JCAMP-DX=4.24\n##XUNITS=1/CM\n##YUNITS=ARBITRARY UNITS\n##LONGDATE=" + date + "\n" +
+			"##XFACTOR=1\n##YFACTOR=1\n##FIRSTX=3\n##LASTX=1\n##NPOINTS=3\n##XYDATA=(X++(Y..Y))\n3 100 90 80\n##END=\n"
+		if err := os.WriteFile(filepath.Join(dir, name+".jdx"), []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	file("a", "2019/02/28 13:00:00")
+	file("b", "2019/02/30 13:02:00")
+	file("c", "2019/03/01 13:04:00")
+	_, err := Load(dir, FolderOptions{})
+	want := `b.jdx:5: its ##LONGDATE="2019/02/30 13:02:00" is not a real date and time, and a folder of spectra needs an acquisition time for every file; correct it, or give --times FILE`
+	if err == nil || !strings.Contains(err.Error(), want) {
+		t.Errorf("30 February: %v, want %q", err, want)
+	}
+}

@@ -87,6 +87,10 @@ type Spectrum struct {
 	Units    string    // JCAMP-DX ##YUNITS as written, "" for other formats
 	Title    string    // JCAMP-DX ##TITLE, "" for other formats
 	Acquired time.Time // JCAMP-DX ##LONGDATE (or ##DATE and ##TIME); zero when not given
+	// dateFault says why a header's date gave no Acquired (jcampDateFault),
+	// on dateLine; "" when none was given.
+	dateFault string
+	dateLine  int
 	// Note says how the axis was read when not as written (a wavelength
 	// in µm put in nm, micrometresToNanometres), "" otherwise; a series of such
 	// spectra keeps it among its Notes.

@@ -122,6 +122,37 @@ func jcampAcquired(b jcamp.Block) (time.Time, bool) {
 	return time.Time{}, false
 }
 
+// jcampDateFault says why a block whose header gives a date has no
+// acquisition time (jcampAcquired found none), and the line of the label:
+// a date that is no real one (##LONGDATE=2019/02/30 …) or one not written
+// as the standard writes it. "" when the header gives no date at all.
+func jcampDateFault(b jcamp.Block) (fault string, line int) {
+	for _, l := range b.Labels {
+		if l.Name != "LONGDATE" && l.Name != "DATE" {
+			continue
+		}
+		v := strings.TrimSpace(l.Value)
+		if l.Name == "DATE" {
+			tm, ok := b.Value("TIME")
+			if !ok {
+				return fmt.Sprintf("its ##DATE=%s has no ##TIME beside it", clipValue(v)), l.Line
+			}
+			v += " " + strings.TrimSpace(tm)
+		}
+		m := jcampDate.FindStringSubmatch(v)
+		if m == nil {
+			return fmt.Sprintf("its ##%s=%s is not a date and time of the form YYYY/MM/DD HH:MM:SS", l.Name, clipValue(v)), l.Line
+		}
+		if _, ok := parseJCAMPDate(v); !ok {
+			return fmt.Sprintf("its ##%s=%s is not a real date and time", l.Name, clipValue(v)), l.Line
+		}
+	}
+	return "", 0
+}
+
+// clipValue quotes a header value for a message as a cell is (quoteCell).
+func clipValue(v string) string { return quoteCell([]byte(v)) }
+
 var jcampDate = regexp.MustCompile(`^\s*([0-9]{2}|[0-9]{4})[/\-.]([0-9]{1,2})[/\-.]([0-9]{1,2})[ T]+([0-9]{1,2}):([0-9]{2})(?::([0-9]{2}))?(?:[.,]([0-9]{1,9}))?\s*([+-][0-9]{2}:?[0-9]{2}|Z)?\s*$`)
 
 func parseJCAMPDate(v string) (time.Time, bool) {
