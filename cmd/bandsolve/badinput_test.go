@@ -218,6 +218,11 @@ func badCases() []badCase {
 			writeFile(t, filepath.Join(w, "long.jdx"), "##TITLE=x\n##JCAMP-DX=4.24\n##XUNITS=1/CM\n##YUNITS=TRANSMITTANCE\n##NPOINTS=3\n##FIRSTX=1000\n##LASTX=1004\n##XFACTOR=1\n##YFACTOR=1\n##XYDATA=(X++(Y..Y))\n1000 0.5 0.6 0.7 0.8\n##END=\n")
 		}, code: 1, want: []string{"long.jdx:11:", "NPOINTS=3", "correct ##NPOINTS="}},
 
+		// An option that takes one value, given twice on the command line,
+		// is refused as a command file refuses a keyword set twice; the
+		// last had silently won.
+		{name: "one-value flag given twice", args: []string{"--data", "B/good.csv", "--kind", "absorbance", "--kind", "single-beam"}, code: 2, want: []string{`--kind is given twice ("absorbance", then "single-beam"); give it once`, "only --data"}},
+
 		// Command files: settings, so their faults are usage errors.
 		{name: "command file with a bad value", cmd: "run", args: []string{"B/bad_command.txt"}, code: 2, want: []string{"bad_command.txt:3:12:", `"three"`, "want auto or a whole number"}},
 		{name: "command file with a misspelt keyword", cmd: "run", args: []string{"W/misspelt.bsr"}, setup: func(t *testing.T, w string) {

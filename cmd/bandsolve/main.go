@@ -10,6 +10,7 @@ import (
 	"os"
 	"regexp"
 	"slices"
+	"strconv"
 	"strings"
 
 	"github.com/bandsolve/bandsolve/io/pipeline"
@@ -157,8 +158,9 @@ Flags:
 
 // settingsFlags registers every analysis option as a flag on fs.
 func settingsFlags(fs *pflag.FlagSet, s *pipeline.Settings) {
+	given := map[string]string{}
 	for _, o := range pipeline.Options() {
-		fs.Var(&settingValue{s: s, o: o}, o.Name, usageOf(o))
+		fs.Var(&settingValue{s: s, o: o, given: given}, o.Name, usageOf(o))
 		if o.IsSwitch() {
 			fs.Lookup(o.Name).NoOptDefVal = "on"
 		}
@@ -167,7 +169,7 @@ func settingsFlags(fs *pflag.FlagSet, s *pipeline.Settings) {
 	for old := range pipeline.Renamed {
 		o, _ := pipeline.Lookup(old)
 		o.Name = old
-		fs.Var(&settingValue{s: s, o: o}, old, usageOf(o))
+		fs.Var(&settingValue{s: s, o: o, given: given}, old, usageOf(o))
 		fs.MarkHidden(old)
 	}
 }
@@ -176,11 +178,16 @@ func usageOf(o pipeline.Option) string {
 	return o.Usage
 }
 
-// settingValue adapts one setting to pflag.Value.
+// settingValue adapts one setting to pflag.Value. given holds, by
+// option, the value it was first given on the command line: an option
+// that takes one value is refused when given again, as a command file
+// refuses a keyword set twice, where the last had silently won
+// (--kind absorbance --kind single-beam ran as single beams).
 type settingValue struct {
-	s   *pipeline.Settings
-	o   pipeline.Option
-	set bool
+	s     *pipeline.Settings
+	o     pipeline.Option
+	set   bool
+	given map[string]string
 }
 
 func (v *settingValue) String() string {
@@ -193,7 +200,35 @@ func (v *settingValue) String() string {
 	}
 	return strings.Join(vals, ",")
 }
-func (v *settingValue) Set(x string) error { v.set = true; return v.s.Set(v.o.Name, x) }
+func (v *settingValue) Set(x string) error {
+	if v.given != nil && !v.o.Multi {
+		name := v.o.Name
+		if o, ok := pipeline.Lookup(name); ok {
+			name = o.Name // an old name and its new one are one option
+		}
+		if first, twice := v.given[name]; twice {
+			return fmt.Errorf("is given twice (%s, then %s); give it once: only %s may repeat", shownValue(first), shownValue(x), repeatableFlags())
+		}
+		v.given[name] = x
+	}
+	v.set = true
+	return v.s.Set(v.o.Name, x)
+}
+
+// repeatableFlags names the options that take several values, as a
+// command file's message about a repeat names its keywords.
+func repeatableFlags() string {
+	var names []string
+	for _, o := range pipeline.Options() {
+		if o.Multi {
+			names = append(names, "--"+o.Name)
+		}
+	}
+	return strings.Join(names, ", ")
+}
+
+// shownValue quotes a flag's value for a message, "" as such.
+func shownValue(x string) string { return strconv.Quote(x) }
 func (v *settingValue) Type() string {
 	if v.o.IsSwitch() {
 		return ""

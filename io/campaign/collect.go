@@ -189,10 +189,18 @@ func collectRow(dir string) (row, error) {
 		r.cells["status"] = KineticsNotDone
 		r.notes = append(r.notes, "kinetics not done: "+why)
 	}
+	var bad error
 	for _, k := range fixedColumns[2:] {
 		if v, ok := s.scalar(k); ok {
 			r.cells[k] = v
+		} else if raw, ok := s[k]; ok && bad == nil && outOfRange(raw) {
+			bad = fmt.Errorf("%s: %s holds %s, beyond any number a run writes (its cell is left empty); run the analysis again", SummaryName, k, clipRaw(raw))
 		}
+	}
+	if bad != nil {
+		// A number no run writes is a damaged summary: its row must not
+		// read "ok" with the cell quietly empty.
+		r.cells["status"] = bad.Error()
 	}
 	r.residualToNoise(s)
 	if kin := s.object("kinetics"); kin != nil {
@@ -206,7 +214,26 @@ func collectRow(dir string) (row, error) {
 		r.cells["kinetics_model"] = r.asked["model"] // the model asked for, fitted or not
 	}
 	r.cells["notes"] = strings.Join(r.notes, "; ")
-	return r, nil
+	return r, bad
+}
+
+// outOfRange says a summary's value is a JSON number that float64 cannot
+// hold (1e400): scalar leaves it out, as no run writes one.
+func outOfRange(raw json.RawMessage) bool {
+	var n json.Number
+	if json.Unmarshal(raw, &n) != nil {
+		return false
+	}
+	_, err := n.Float64()
+	return err != nil
+}
+
+// clipRaw is a raw JSON value for a message, cut to 40 bytes.
+func clipRaw(raw json.RawMessage) string {
+	if len(raw) > 40 {
+		return string(raw[:40]) + "…"
+	}
+	return string(raw)
 }
 
 // residualToNoise fills residual_to_noise with the summary's own key: √(χ²/ν)

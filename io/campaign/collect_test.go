@@ -317,3 +317,32 @@ func TestSettingsIDIsNeverANumber(t *testing.T) {
 		}
 	}
 }
+
+// A summary value no run writes (a number past float64's range, 1e400,
+// IEEE 754 binary64's largest finite value being about 1.8e308) leaves
+// its cell empty, and the row says so in its status and is counted among
+// the problems, where it had read "ok" with the cell quietly empty; a
+// summary holding no such value reads "ok" (docs/errors.md: what, where,
+// what to do). A summary that is no JSON object is described in JSON's
+// words, not Go's types.
+func TestCollectMarksAValueNoRunWrites(t *testing.T) {
+	root := t.TempDir()
+	bad := writeSummary(t, filepath.Join(root, "bad"), `{"components": 2, "lack_of_fit_percent": 1e400, "noise_lack_of_fit_percent": 0.5}`)
+	good := writeSummary(t, filepath.Join(root, "good"), `{"components": 2, "lack_of_fit_percent": 1.5, "noise_lack_of_fit_percent": 0.5}`)
+	list := writeSummary(t, filepath.Join(root, "list"), `[1,2,3]`)
+	tab, problems := Collect([]string{bad, good, list})
+	status := slices.Index(tab.Header, "status")
+	want := "summary.json: lack_of_fit_percent holds 1e400, beyond any number a run writes (its cell is left empty); run the analysis again"
+	if got := tab.Rows[0][status]; got != want {
+		t.Errorf("status %q, want %q", got, want)
+	}
+	if got := tab.Rows[1][status]; got != "ok" {
+		t.Errorf("a plain summary: status %q", got)
+	}
+	if got := tab.Rows[2][status]; !strings.Contains(got, "the file holds a list where an object belongs") || strings.Contains(got, "campaign.") {
+		t.Errorf("a list for a summary: status %q", got)
+	}
+	if len(problems) != 2 || !strings.Contains(problems[0], "bad: summary.json: lack_of_fit_percent holds 1e400") {
+		t.Errorf("problems %q, want the damaged and the list summaries", problems)
+	}
+}

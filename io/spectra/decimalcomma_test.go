@@ -293,3 +293,31 @@ func TestGoLiteralsRefused(t *testing.T) {
 		}
 	}
 }
+
+// A matrix header's times out of ascending order are put in time order
+// (every result is in time order) and a note says so, naming the first
+// pair out of order or that they run downwards; a header whose axis name
+// is none the readers know (neither wavenumber nor wavelength, common
+// practice of IR exports) is kept as written, with a note that the
+// water-vapour check reads it as cm⁻¹. Both had been done without a word.
+func TestMatrixHeaderNotes(t *testing.T) {
+	for _, c := range []struct{ text, want string }{
+		{"wavenumber,0,60,30,90\n1900,1,2,3,4\n1898,1,2,3,4\n", "the header's times are not in ascending order (column 3 is 60 s, column 4 30 s)"},
+		{"wavenumber,90,60,30,0\n1900,1,2,3,4\n1898,1,2,3,4\n", "the header's times run downwards, from 90 s to 0 s"},
+		{"wavenumber,0,30,-30\n1900,1,2,3\n1898,1,2,3\n", "(column 3 is 30 s, column 4 -30 s)"},
+		{"foo,0,30\n1900,1,2\n1898,1,2\n", `the axis header "foo" names no known axis`},
+		{"wavenumber,0,30,60\n1900,1,2,3\n1898,1,2,3\n", ""},
+	} {
+		s, err := ReadMatrixCSV(fuzzFile(t, "m.csv", []byte(c.text)))
+		if err != nil {
+			t.Fatalf("%q: %v", c.text, err)
+		}
+		notes := strings.Join(s.Notes, " | ")
+		if c.want == "" && notes != "" || !strings.Contains(notes, c.want) {
+			t.Errorf("%q: notes %q, want %q", c.text, notes, c.want)
+		}
+		if !slices.IsSorted(s.Times) {
+			t.Errorf("%q: times %v not put in order", c.text, s.Times)
+		}
+	}
+}

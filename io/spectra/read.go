@@ -671,8 +671,38 @@ func (p *matrixParse) series(axisName string) (*Series, error) {
 	if note != "" {
 		s.Notes = append(s.Notes, note)
 	}
+	if note := headerOrderNote(p.times); note != "" {
+		s.Notes = append(s.Notes, note)
+	}
 	s.sortByTime()
 	return s, nil
+}
+
+// headerOrderNote says that a matrix header's times are not in ascending
+// order, which sortByTime puts them in: every result is in time order, and
+// a header typed by hand with two times swapped (150, 120) would otherwise
+// be taken silently for two spectra recorded out of turn. "" when they
+// ascend.
+func headerOrderNote(times []float64) string {
+	down := len(times) > 1
+	first := -1
+	for i := 1; i < len(times); i++ {
+		if times[i] < times[i-1] {
+			if first < 0 {
+				first = i
+			}
+		} else {
+			down = false
+		}
+	}
+	switch {
+	case first < 0:
+		return ""
+	case down:
+		return fmt.Sprintf("the header's times run downwards, from %g s to %g s: the spectra are taken in ascending time order, last column first", times[0], times[len(times)-1])
+	}
+	return fmt.Sprintf("the header's times are not in ascending order (column %d is %g s, column %d %g s): the spectra are taken in time order, not in the order of the columns; check the header if that is not how they were recorded",
+		first+1, times[first-1], first+2, times[first])
 }
 
 // matrixAxisName is the axis name of a matrix CSV from its header cell
@@ -691,9 +721,18 @@ func matrixAxisName(header string, axis []float64) (name, note string) {
 		return "wavelength", micrometresToNanometres(axis, header)
 	}
 	if name != "wavenumber" && name != "wavelength" {
-		return header, ""
+		return header, unknownAxisNote(header)
 	}
 	return name, ""
+}
+
+// unknownAxisNote says that a matrix header's axis name is none the
+// readers know: the values are kept as written, and the one check that
+// needs a unit, the water-vapour lines' ranges, reads any axis but a
+// wavelength as wavenumbers in cm⁻¹ (pipeline's linesAxisOf).
+func unknownAxisNote(header string) string {
+	return fmt.Sprintf("the axis header %s names no known axis: its values are kept as written, and read as wavenumbers in cm⁻¹ where a unit matters (the water-vapour check's line ranges); write wavenumber (cm-1) or wavelength (nm) as the first header cell if it is either",
+		quoteCell([]byte(header)))
 }
 
 // micrometresToNanometres puts an axis given in µm in nm, ×1000 in place
