@@ -35,6 +35,10 @@ type Summary struct {
 	// stays under at --alpha (the misfit test of io/pipeline/misfit.go);
 	// 0 when it was not tested.
 	ResidualToNoiseLimit float64 `json:"residual_to_noise_limit,omitempty"`
+	// ResidualToNoiseAllowance is g, the rise of a right model's χ² the
+	// limit allows for the noise weights' own sampling error, e^{2s²} − 1
+	// (s² the variance of the weights' log error); absent when none.
+	ResidualToNoiseAllowance float64 `json:"residual_to_noise_allowance,omitempty"`
 	// NoiseWeights says how points were weighted: "noise" (1/σ² from the
 	// noise model, row × column) or "off".
 	NoiseWeights string `json:"noise_weights"`

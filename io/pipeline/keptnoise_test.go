@@ -86,17 +86,17 @@ func TestNoiseMeasuredOnTheSpectraKept(t *testing.T) {
 	// estimated on (the denominator's degrees of freedom are those of its
 	// variance estimate; Fisher): the second differences in time that
 	// touch no bubble, n − 2 less the 3 around each. ρ_1 = −4/6 and
-	// ρ_2 = 1/6 for (1, −2, 1), κ = 1 + 2(16 + 1)/36 = 35/18 (the variance
-	// of a sum of squares of jointly normal values, Isserlis 1918), and the
-	// median absolute deviation's efficiency 0.37 (Rousseeuw & Croux 1993;
-	// from memory).
+	// ρ_2 = 1/6 for (1, −2, 1), κ = 1.4533840 for the median of their
+	// absolute values (the Hermite series of spectra.MADKappa, summed to 80
+	// terms in Python), and the median absolute deviation's efficiency 0.37
+	// (Rousseeuw & Croux 1993; from memory).
 	used := 0
 	for c := 1; c+1 < n; c++ {
 		if !slices.Contains(rows, c-1) && !slices.Contains(rows, c) && !slices.Contains(rows, c+1) {
 			used++
 		}
 	}
-	if want := 0.37 * float64(used*m) / (35.0 / 18); math.Abs(noiseDof(r)-want) > 1e-9*want {
+	if want := 0.37 * float64(used*m) / 1.4533840; math.Abs(noiseDof(r)-want) > 1e-6*want {
 		t.Errorf("ν_σ %.6g; from the %d second differences that touch no bubble it is %.6g", noiseDof(r), used, want)
 	}
 }

@@ -1783,7 +1783,9 @@ func preNoise(r *Result, e *Experiment) *spectra.Weights {
 	}
 	w := &spectra.Weights{Row: make([]float64, len(r.Weights.Row)), Col: make([]float64, len(sig))}
 	for i, a := range r.Weights.Row {
-		if a > 0 {
+		// A spectrum set aside holds the model in D, not data: no step
+		// to or from it is judged (StepToNoise skips rows of weight 0).
+		if a > 0 && !setAside(r.SetAside, i) {
 			w.Row[i] = 1
 		}
 	}

@@ -372,7 +372,11 @@ func noiseOf(r *Result) {
 		r.NoiseSource = fmt.Sprintf("absorbance noise per channel from %s", from)
 	}
 	if weightsPerSpectrum(r) {
-		r.NoiseSource += "; each spectrum's own level from the robust scale of its time difference over the axis (the spectra differ in noise)"
+		common := ""
+		if r.Settings.Pre >= 2 {
+			common = ", their common level from the whole series, not from the pre-reaction spectra"
+		}
+		r.NoiseSource += "; each spectrum's own level from the robust scale of its time difference over the axis" + common + " (the spectra differ in noise)"
 	}
 }
 

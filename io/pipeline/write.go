@@ -45,6 +45,7 @@ func MakeSummary(r *Result) *Summary {
 		ResidualToNoise:          round(rtn),
 		NoiseDegreesOfFreedom:    round(r.ReferenceNoiseDOF()),
 		ResidualToNoiseLimit:     round(r.misfit.Limit),
+		ResidualToNoiseAllowance: round(r.misfit.Allowance),
 		NoiseWeights:             "off",
 		NoiseEdge:                round(r.Rank.NoiseEdge),
 		RankReason:               r.Rank.Reason,

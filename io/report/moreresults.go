@@ -14,7 +14,8 @@ import (
 // (the refit test's intermediate sums, the vapour check's coherence) stay in
 // summary.json only. Keys in neither set are listed under their JSON names.
 var plainKeys = map[string]bool{"residual_to_noise": true, "noise_degrees_of_freedom": true, "noise_weights": true,
-	"blind_points": true, "efa": true, "baseline": true, "baseline_reason": true, "outlier_spectra": true,
+	"residual_to_noise_allowance": true,
+	"blind_points":                true, "efa": true, "baseline": true, "baseline_reason": true, "outlier_spectra": true,
 	"nuisance_factors": true, "minor_species": true, "factors_above_noise": true, "noise_like_factors": true,
 	"water_vapour": true, "uniqueness_note": true}
 
@@ -50,6 +51,9 @@ func (f *Folder) moreResults(unit string) moreView {
 	}
 	if s.NoiseDegreesOfFreedom > 0 {
 		add("independent points the residual counts (degrees of freedom)", trimFloat(s.NoiseDegreesOfFreedom, 6))
+	}
+	if s.ResidualToNoiseAllowance > 0 {
+		add("rise of χ² the misfit test allows for the noise levels' own sampling error", trimFloat(100*s.ResidualToNoiseAllowance, 2)+" %")
 	}
 	if has("noise_weights") {
 		add("points weighted by their noise", map[bool]string{true: "yes, each by 1/σ² of its noise", false: "no, all alike"}[s.NoiseWeights == "noise"])

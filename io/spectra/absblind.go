@@ -66,7 +66,7 @@ const capRepeats = 3
 // v and the noise model over the rest: σ per channel, the rounding step and
 // the source in words. blind is nil when there are none; then σ has the
 // bits of channelNoise(v, pre, nil).
-func absorbanceNoise(v *mat.Dense, times []float64, pre int) (blind *Blind, sigma []float64, q float64, src string) {
+func absorbanceNoise(v *mat.Dense, times []float64, pre int) (blind *Blind, sigma []float64, q float64, src string, sampling float64) {
 	n, m := v.Dims()
 	b := capBlind(v)
 	// Whether a channel saw light is a matter of all its spectra, not only
@@ -76,9 +76,9 @@ func absorbanceNoise(v *mat.Dense, times []float64, pre int) (blind *Blind, sigm
 	own, cnt := channelScales(timeDiffs{v: v, blind: b, line: line})
 	q = quantum(v, b)
 	if pre >= 2 {
-		sigma, q, src = channelNoiseOwn(v, line, pre, b, q, nil, nil, false)
+		sigma, q, src, sampling = channelNoiseOwn(v, line, pre, b, q, nil, nil, false)
 	} else {
-		sigma, q, src = channelNoiseOwn(v, line, pre, b, q, own, cnt, false)
+		sigma, q, src, sampling = channelNoiseOwn(v, line, pre, b, q, own, cnt, false)
 	}
 	added := false
 	for j, k := range capsPerChannel(b, m) {
@@ -100,13 +100,13 @@ func absorbanceNoise(v *mat.Dense, times []float64, pre int) (blind *Blind, sigm
 	}
 	if added {
 		// The channels left out no longer raise their neighbours' σ.
-		sigma, q, src = channelNoiseSpaced(v, line, pre, b)
+		sigma, q, src, sampling = channelNoiseSpaced(v, line, pre, b)
 	}
 	raiseToOwn(sigma, own, cnt, b)
 	if b.Count == 0 {
-		return nil, sigma, q, src
+		return nil, sigma, q, src, sampling
 	}
-	return b, sigma, q, src
+	return b, sigma, q, src, sampling
 }
 
 // darkOverTypical is how far above the typical channel's scatter a channel's

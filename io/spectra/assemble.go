@@ -186,12 +186,12 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 		if opt.Blank != nil {
 			return nil, fmt.Errorf("a blank single beam goes with --kind single-beam; difference input is already ratioed")
 		}
-		blind, sigma, q, src := absorbanceNoise(s.Values, s.Times, opt.Pre)
+		blind, sigma, q, src, sampling := absorbanceNoise(s.Values, s.Times, opt.Pre)
 		if err := mostlyBlind(s, blind); err != nil {
 			return nil, err
 		}
 		sn := measureSpectrumNoise(s.Values, s.Times, sigma, blind, opt.Pre)
-		out.Noise = Noise{Level: median(sigma), Unit: "absorbance", Source: src, Channel: sigma, Quantum: q, Spectra: sn}
+		out.Noise = Noise{Level: median(sigma), Unit: "absorbance", Source: src, Channel: sigma, Quantum: q, Spectra: sn, Sampling: sampling}
 		out.DifferenceWeights = inputWeights(n, sigma, sn, blind)
 		if opt.Consume {
 			out.Difference = s.Values
@@ -219,7 +219,7 @@ func Assemble(s *Series, opt AssembleOptions) (*Assembled, error) {
 // ΔA = A − A_ref, and placeholders at the blind points of both matrices.
 func assembleAbsorbances(s *Series, opt AssembleOptions, ref []float64, out *Assembled) error {
 	n, m := s.Values.Dims()
-	blind, sigma, q, src := absorbanceNoise(s.Values, s.Times, opt.Pre)
+	blind, sigma, q, src, sampling := absorbanceNoise(s.Values, s.Times, opt.Pre)
 	if err := mostlyBlind(s, blind); err != nil {
 		return err
 	}
@@ -227,11 +227,11 @@ func assembleAbsorbances(s *Series, opt AssembleOptions, ref []float64, out *Ass
 		if blind == nil {
 			meanRows(s.Values, out.ReferenceRows, ref)
 		} else if observedReference(s.Values, out.ReferenceRows, blind, ref) {
-			sigma, q, src = channelNoiseSpaced(s.Values, lineWeights(s.Times), opt.Pre, blind)
+			sigma, q, src, sampling = channelNoiseSpaced(s.Values, lineWeights(s.Times), opt.Pre, blind)
 		}
 	}
 	sn := measureSpectrumNoise(s.Values, s.Times, sigma, blind, opt.Pre)
-	out.Noise = Noise{Level: median(sigma), Unit: "absorbance", Source: src, Channel: sigma, Quantum: q, Spectra: sn}
+	out.Noise = Noise{Level: median(sigma), Unit: "absorbance", Source: src, Channel: sigma, Quantum: q, Spectra: sn, Sampling: sampling}
 	out.AbsoluteWeights = inputWeights(n, sigma, sn, blind)
 	out.DifferenceWeights = out.AbsoluteWeights
 	if opt.Consume {

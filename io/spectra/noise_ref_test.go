@@ -86,6 +86,32 @@ func refSecondDiffs(v *mat.Dense, blind *Blind, diffs [][]float64) {
 // of every pre-reaction step over its channel's shape.
 func refPreLevelSeriesShape(v *mat.Dense, pre int, blind *Blind, fallback []float64) []float64 {
 	_, m := v.Dims()
+	shape := refNarrowShape(v, blind)
+	steps := driftFreeSteps(v, pre, blind, false)
+	var z []float64
+	for j := 0; j < m; j++ {
+		for i := 1; i < pre; i++ {
+			if shape[j] > 0 && !blind.Has(i-1, j) && !blind.Has(i, j) {
+				z = append(z, math.Abs(steps.At(i-1, j))/shape[j])
+			}
+		}
+	}
+	if len(z) == 0 {
+		return fallback
+	}
+	level := madScale * medianOver(z, math.Sqrt2)
+	out := make([]float64, m)
+	for j, x := range shape {
+		out[j] = level * x
+	}
+	return out
+}
+
+// refNarrowShape is the direct form of narrowShape: each channel's scale
+// of its second differences in time over all spectra, the median of it and
+// its two neighbours (the pooled running form where a channel has none).
+func refNarrowShape(v *mat.Dense, blind *Blind) []float64 {
+	_, m := v.Dims()
 	second := make([][]float64, m)
 	refSecondDiffs(v, blind, second)
 	wide := refPooledRunningMAD(second)
@@ -108,24 +134,7 @@ func refPreLevelSeriesShape(v *mat.Dense, pre int, blind *Blind, fallback []floa
 			shape[j] = median(w)
 		}
 	}
-	steps := driftFreeSteps(v, pre, blind, false)
-	var z []float64
-	for j := 0; j < m; j++ {
-		for i := 1; i < pre; i++ {
-			if shape[j] > 0 && !blind.Has(i-1, j) && !blind.Has(i, j) {
-				z = append(z, math.Abs(steps.At(i-1, j))/shape[j])
-			}
-		}
-	}
-	if len(z) == 0 {
-		return fallback
-	}
-	level := madScale * medianOver(z, math.Sqrt2)
-	out := make([]float64, m)
-	for j, x := range shape {
-		out[j] = level * x
-	}
-	return out
+	return shape
 }
 
 // refPooledRunningMAD gives each channel madScale × the median of the absolute

@@ -64,7 +64,7 @@ func opaqueExport(n int, sigI, top, capAt float64, gas bool, seed uint64) (*Seri
 func TestOpaqueBandIsBlind(t *testing.T) {
 	const sigI = 1e-3
 	s, band := opaqueExport(40, sigI, 3.5, 4, true, 7)
-	b, sigma, _, _ := absorbanceNoise(s.Values, s.Times, 0)
+	b, sigma, _, _, _ := absorbanceNoise(s.Values, s.Times, 0)
 	if b == nil || len(b.Opaque) != 1 {
 		var runs [][2]int
 		if b != nil {
@@ -113,7 +113,7 @@ func TestOpaqueBandIsBlind(t *testing.T) {
 // has no opaque run and no blind point (its noise is the detector's alone).
 func TestNoOpaqueBandNoBlind(t *testing.T) {
 	s, _ := opaqueExport(40, 1e-3, 0, 4, true, 7)
-	b, _, _, _ := absorbanceNoise(s.Values, s.Times, 0)
+	b, _, _, _, _ := absorbanceNoise(s.Values, s.Times, 0)
 	if b != nil {
 		t.Errorf("blind %d points, opaque runs %v; want none", b.Count, b.Opaque)
 	}

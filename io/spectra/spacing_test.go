@@ -33,7 +33,7 @@ func TestUnequalIntervalsCancelALinearChange(t *testing.T) {
 			v.Set(i, j, slope*tm+sigma*rng.NormFloat64())
 		}
 	}
-	sig, _, src := channelNoiseSpaced(v, lineWeights(times), 0, nil)
+	sig, _, src, _ := channelNoiseSpaced(v, lineWeights(times), 0, nil)
 	if got := median(sig) / sigma; math.Abs(got-1) > 0.03 {
 		t.Errorf("σ found %.4g times the σ put in (%s); want 1 within 3 %% (about 400 differences per channel)", got, src)
 	}
@@ -41,7 +41,7 @@ func TestUnequalIntervalsCancelALinearChange(t *testing.T) {
 	if got := median(plain) / sigma; got < 1.5 {
 		t.Errorf("plain second differences found %.3g times σ; the case must be one they fail (> 1.5)", got)
 	}
-	_, absSig, _, _ := absorbanceNoise(v, times, 0)
+	_, absSig, _, _, _ := absorbanceNoise(v, times, 0)
 	if got := median(absSig) / sigma; math.Abs(got-1) > 0.03 {
 		t.Errorf("absorbance noise model found %.4g times σ; want 1 within 3 %%", got)
 	}
