@@ -236,10 +236,10 @@ func TestMixedDecimalMarksRefused(t *testing.T) {
 		read             func(p string) error
 	}{
 		{"matrix", "wavenumber;0;60\n1900;50901,519;50871,188\n1898;50.901;50880,491\n",
-			`m.csv:3: column 2 (time 0 s): "50.901" has a decimal point among numbers with decimal commas; the file writes decimal commas (line 2 has "50901,519")`,
+			`m.csv:3: column 2 (time 0 s): "50.901" has a decimal point among numbers with decimal commas; the file writes decimal commas (line 2 has "50901,519"), so the point may be digit grouping ("50.901" for 50901)`,
 			func(p string) error { _, err := ReadMatrixCSV(p); return err }},
 		{"matrix, tabs", "wavenumber\t0\t60\n1900\t0,5\t0.25\n1899\t0,5\t0,5\n",
-			`m.csv:2: column 3 (time 60 s): "0.25" has a decimal point among numbers with decimal commas`,
+			`m.csv:2: column 3 (time 60 s): "0.25" has a decimal point among numbers with decimal commas; the file writes decimal commas (line 2 has "0,5"): write every number`,
 			func(p string) error { _, err := ReadMatrixCSV(p); return err }},
 		{"matrix, comma among points", "wavenumber;0;60\n1900.5;0.5;0.25\n1899;0,125;0.5\n",
 			`m.csv:3: column 2 (time 0 s): "0,125" has a decimal comma among numbers with decimal points; the file writes decimal points (line 2 has "1900.5")`,

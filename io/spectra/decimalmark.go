@@ -249,7 +249,7 @@ func (m marks) hint(b []byte, dflt string) string {
 	case cellMark(b) == markGrouped:
 		return "write the numbers without digit grouping (1234.5, not 1,234.5)"
 	case m.comma && bytes.IndexByte(b, '.') >= 0:
-		return fmt.Sprintf("the file writes decimal commas (line %d has %s), so a point may be digit grouping (50.901 for 50901): write every number of the file with one decimal mark, without digit grouping", m.by.line, m.by.cell)
+		return fmt.Sprintf("the file writes decimal commas (line %d has %s)%s: write every number of the file with one decimal mark, without digit grouping", m.by.line, m.by.cell, pointGrouping(b))
 	case !m.comma && m.by.line > 0 && bytes.IndexByte(b, ',') >= 0:
 		return fmt.Sprintf("the file writes decimal points (line %d has %s): write every number with one decimal mark, without digit grouping", m.by.line, m.by.cell)
 	case looksLikeDecimalComma(b):
@@ -267,6 +267,32 @@ func goLiteral(b []byte) bool {
 	}
 	_, err := strconv.ParseFloat(string(b), 64)
 	return err == nil || errors.Is(err, strconv.ErrRange)
+}
+
+// pointGrouping says how a cell with a decimal point among decimal commas
+// reads as digit grouping, when it can: "50.901" as 50901 (a first group
+// of one to three digits not led by 0, then groups of three, as commaMark
+// tells grouping by a comma), "" otherwise.
+func pointGrouping(b []byte) string {
+	s := b
+	if len(s) > 0 && (s[0] == '-' || s[0] == '+') {
+		s = s[1:]
+	}
+	whole, rest, _ := bytes.Cut(s, []byte{','})
+	groups := bytes.Split(whole, []byte{'.'})
+	if len(groups) < 2 || len(groups[0]) == 0 || len(groups[0]) > 3 || groups[0][0] == '0' || !digitsOnly(groups[0]) {
+		return ""
+	}
+	for _, g := range groups[1:] {
+		if len(g) != 3 || !digitsOnly(g) {
+			return ""
+		}
+	}
+	read := string(b[:len(b)-len(s)]) + string(bytes.Join(groups, nil))
+	if len(rest) > 0 || bytes.IndexByte(s, ',') >= 0 {
+		read += "," + string(rest)
+	}
+	return fmt.Sprintf(", so the point may be digit grouping (%s for %s)", quoteCell(b), read)
 }
 
 // splitAtDecimalComma says cells i and i+1 of a comma-separated row are
