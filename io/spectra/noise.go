@@ -296,6 +296,11 @@ func channelNoiseOwn(v *mat.Dense, line []float64, pre int, blind *Blind, q floa
 		// rather than the spectra's shape.
 		src = fmt.Sprintf("fourth differences along the axis of the %d spectra, too few for differences in time", n)
 		d.alongAxis, own = true, nil
+	case pre < 2 && n < 3:
+		// Neither a difference in time nor enough points along the axis:
+		// nothing below measures the noise, and the level is the floor
+		// set after it, the smallest step between the spectra over √12.
+		src = fmt.Sprintf("the smallest step between the %d spectra over √12, a floor, not a measured noise: %d spectra have no second difference in time and %d points are too few for differences along the axis", n, n, m)
 	case pre >= 2:
 		src = fmt.Sprintf("successive differences of the %d pre-reaction spectra, their drift along the axis removed", pre)
 		// The scan's own scales were of the raw differences.
