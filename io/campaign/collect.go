@@ -14,6 +14,8 @@ import (
 	"strings"
 
 	"github.com/bandsolve/bandsolve/io/output"
+
+	"github.com/bandsolve/bandsolve/internal/regular"
 )
 
 // SummaryName is the file of an output folder Collect reads.
@@ -515,7 +517,7 @@ func readSummary(dir string) (object, error) {
 	case st.Size() > maxSummary:
 		return nil, fmt.Errorf("%s is %d bytes, more than a summary can be (%d)", SummaryName, st.Size(), maxSummary)
 	}
-	f, err := os.Open(p)
+	f, _, err := regular.Open(p)
 	if err != nil {
 		return nil, fmt.Errorf("cannot read %s: %v", SummaryName, err)
 	}

@@ -4,12 +4,13 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"io"
-	"os"
 	"path/filepath"
 	"strings"
 
 	"github.com/bandsolve/bandsolve/io/cmdfile"
 	"github.com/bandsolve/bandsolve/io/pipeline"
+
+	"github.com/bandsolve/bandsolve/internal/regular"
 )
 
 // maxRecord bounds what is read of an as-run record: a real one is 2 kB.
@@ -64,12 +65,12 @@ func settingsID(sum []byte) string {
 }
 
 func readRecord(p string) *cmdfile.File {
-	st, err := os.Stat(p)
-	if err != nil || !st.Mode().IsRegular() || st.Size() > maxRecord {
+	fh, st, err := regular.Open(p)
+	if err != nil {
 		return nil
 	}
-	fh, err := os.Open(p)
-	if err != nil {
+	if st.Size() > maxRecord {
+		fh.Close()
 		return nil
 	}
 	defer fh.Close()

@@ -43,6 +43,8 @@ import (
 	"strings"
 	"unicode"
 	"unicode/utf8"
+
+	"github.com/bandsolve/bandsolve/internal/regular"
 )
 
 // PathRule says whether a keyword's value is a path and which way it goes.
@@ -141,8 +143,14 @@ func ReadFile(path string, keys []Keyword) (*File, error) {
 	if st.Size() > MaxBytes {
 		return nil, &Error{File: path, Msg: fmt.Sprintf("is %d bytes; a command file is small plain text (at most %d bytes)", st.Size(), MaxBytes)}
 	}
-	src, err := os.ReadFile(path)
-	if err != nil {
+	src, err := regular.ReadFile(path, MaxBytes)
+	var big *regular.TooLargeError
+	switch {
+	case errors.As(err, &big):
+		return nil, &Error{File: path, Msg: fmt.Sprintf("is at least %d bytes; a command file is small plain text (at most %d bytes)", big.Size, MaxBytes)}
+	case errors.As(err, new(*regular.NotRegularError)):
+		return nil, &Error{File: path, Msg: "is not a regular file; give a command file (plain text, one setting per line)"}
+	case err != nil:
 		return nil, cannotRead(path, err)
 	}
 	return Parse(path, src, keys)

@@ -7,10 +7,11 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"sort"
 	"strconv"
 	"strings"
+
+	"github.com/bandsolve/bandsolve/internal/regular"
 )
 
 // Limits that keep memory bounded whatever the input claims.
@@ -135,7 +136,7 @@ func (b Block) Kind() string {
 
 // ReadFile parses the JCAMP-DX file at path; see Parse.
 func ReadFile(path string) ([]Block, error) {
-	f, err := os.Open(path)
+	f, _, err := regular.Open(path)
 	if err != nil {
 		return nil, fmt.Errorf("jcamp: %w", err)
 	}

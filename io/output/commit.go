@@ -11,6 +11,8 @@ import (
 	"time"
 
 	"github.com/bandsolve/bandsolve/internal/fanout"
+
+	"github.com/bandsolve/bandsolve/internal/regular"
 )
 
 // The commit, safe against kill -9 and a second run at any instant
@@ -206,6 +208,10 @@ func removeFiles(root *os.Root, files []string) {
 }
 
 func stagePrefix(final string) string { return "." + filepath.Base(final) + ".partial-" }
+
+// maxSwapRecord bounds what is read of a swap record: two folder names.
+const maxSwapRecord = 64 << 10
+
 func swapPath(final string) string {
 	return filepath.Join(filepath.Dir(final), "."+filepath.Base(final)+".swap")
 }
@@ -215,7 +221,7 @@ func swapPath(final string) string {
 // The record is not trusted beyond naming two staging folders of final.
 func recoverSwap(final string) error {
 	j := swapPath(final)
-	b, err := os.ReadFile(j)
+	b, err := regular.ReadFile(j, maxSwapRecord)
 	if errors.Is(err, os.ErrNotExist) {
 		return nil
 	}

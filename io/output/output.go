@@ -16,6 +16,8 @@ import (
 	"strings"
 	"sync"
 	"syscall"
+
+	"github.com/bandsolve/bandsolve/internal/regular"
 )
 
 // Stage is a folder being filled with results.
@@ -132,7 +134,7 @@ func Made(dir string) bool {
 	if err != nil || !st.Mode().IsRegular() || st.Size() > 64<<20 {
 		return false
 	}
-	b, err := os.ReadFile(p)
+	b, err := regular.ReadFile(p, 64<<20)
 	if err != nil {
 		return false
 	}

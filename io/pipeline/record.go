@@ -21,7 +21,8 @@ import (
 	"github.com/bandsolve/bandsolve/internal/fanout"
 	"github.com/bandsolve/bandsolve/io/cmdfile"
 	"github.com/bandsolve/bandsolve/io/output"
-	"github.com/bandsolve/bandsolve/io/spectra"
+
+	"github.com/bandsolve/bandsolve/internal/regular"
 )
 
 // Names of the reproducibility files in an output folder.
@@ -581,22 +582,12 @@ type hashTurn struct {
 // openRegular opens path for reading when it is a regular file, checked
 // before and after the opening.
 func openRegular(path string) (*os.File, error) {
-	st, err := os.Stat(path)
-	if err != nil {
-		return nil, err
+	f, _, err := regular.Open(path)
+	var nr *regular.NotRegularError
+	if errors.As(err, &nr) {
+		return nil, fmt.Errorf("%w; refused", err)
 	}
-	if !st.Mode().IsRegular() {
-		return nil, fmt.Errorf("%s: is %s, not a regular file; refused", path, spectra.KindOf(st.Mode()))
-	}
-	f, err := os.Open(path)
-	if err != nil {
-		return nil, err
-	}
-	if st, err := f.Stat(); err != nil || !st.Mode().IsRegular() {
-		f.Close()
-		return nil, fmt.Errorf("%s: not a regular file; refused", path)
-	}
-	return f, nil
+	return f, err
 }
 
 // inputSums are the size and SHA-256 of data files, hashed on one goroutine

@@ -3,13 +3,14 @@
 package spectra
 
 import (
-	"os"
 	"syscall"
+
+	"github.com/bandsolve/bandsolve/internal/regular"
 )
 
-// mapFile maps path read-only and private.
+// mapFile maps path read-only and private, if it is still a regular file.
 func mapFile(path string, size int64) ([]byte, func(), error) {
-	f, err := os.Open(path)
+	f, _, err := regular.Open(path)
 	if err != nil {
 		return nil, nil, err
 	}

@@ -6,6 +6,8 @@ import (
 	"io"
 	"io/fs"
 	"os"
+
+	"github.com/bandsolve/bandsolve/internal/regular"
 )
 
 // Bounds on what a reader accepts, so that a wrong path (a disk image, a
@@ -19,45 +21,23 @@ const (
 )
 
 // KindOf names a file type for messages ("a device", "a FIFO" …).
-func KindOf(m fs.FileMode) string {
-	switch {
-	case m.IsDir():
-		return "a folder"
-	case m&fs.ModeNamedPipe != 0:
-		return "a FIFO (named pipe)"
-	case m&fs.ModeSocket != 0:
-		return "a socket"
-	case m&fs.ModeDevice != 0:
-		return "a device"
-	case m.IsRegular():
-		return "a regular file"
-	}
-	return "not a regular file"
-}
+func KindOf(m fs.FileMode) string { return regular.Kind(m) }
 
 // openRegular opens path if it is a regular file (after links), and
 // returns it with its size. Devices, FIFOs and sockets are refused by name
-// before they are opened: opening a FIFO blocks, and a device such as
-// /dev/zero reports size 0 and never ends.
+// before they are opened, and the opening does not block on a FIFO put in
+// the name's place meanwhile (regular.Open): opening a FIFO blocks, and a
+// device such as /dev/zero reports size 0 and never ends.
 func openRegular(path string) (*os.File, int64, error) {
-	st, err := os.Stat(path)
-	if err != nil {
-		return nil, 0, inputErr(path, 0, "check the path", "cannot read: %v", unwrapPathErr(err))
-	}
-	if !st.Mode().IsRegular() {
-		return nil, 0, notRegular(path, st.Mode())
-	}
-	f, err := os.Open(path)
-	if err != nil {
+	f, st, err := regular.Open(path)
+	var nr *regular.NotRegularError
+	switch {
+	case errors.As(err, &nr):
+		return nil, 0, notRegular(path, nr.Mode)
+	case errors.Is(err, fs.ErrPermission):
 		return nil, 0, inputErr(path, 0, "check the file's permissions", "cannot read: %v", unwrapPathErr(err))
-	}
-	// The name may have been replaced between Stat and Open.
-	if st, err = f.Stat(); err != nil || !st.Mode().IsRegular() {
-		f.Close()
-		if err != nil {
-			return nil, 0, inputErr(path, 0, "check the path", "cannot read: %v", unwrapPathErr(err))
-		}
-		return nil, 0, notRegular(path, st.Mode())
+	case err != nil:
+		return nil, 0, inputErr(path, 0, "check the path", "cannot read: %v", unwrapPathErr(err))
 	}
 	return f, st.Size(), nil
 }

@@ -3,10 +3,11 @@ package spectra
 import (
 	"errors"
 	"fmt"
-	"os"
 	"path/filepath"
 	"slices"
 	"strings"
+
+	"github.com/bandsolve/bandsolve/internal/regular"
 )
 
 // Files in a folder of spectra that are not spectra of the series: notes,
@@ -126,11 +127,15 @@ func loneFault(files []string, errs []error, i int) error {
 			return errs[i]
 		}
 	}
-	f, err := os.Open(files[i])
-	if err != nil {
+	// A FIFO or a device is never opened (regular.Open checks first); the
+	// advice to move it out of the folder fits it as well.
+	f, _, err := regular.Open(files[i])
+	if err != nil && !errors.As(err, new(*regular.NotRegularError)) {
 		return errs[i]
 	}
-	f.Close()
+	if f != nil {
+		f.Close()
+	}
 	out := *ie
 	out.Hint = strings.TrimPrefix(out.Hint+"; ", "; ") + fmt.Sprintf("the other %d files read as spectra: if it is none, move it out of the folder or give --drop %s", len(files)-1, filepath.Base(files[i]))
 	return &out
