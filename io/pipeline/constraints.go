@@ -1,6 +1,7 @@
 package pipeline
 
 import (
+	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -130,7 +131,10 @@ func splitWeight(rest string) (string, float64, error) {
 	if i < 0 {
 		return rest, 0, nil
 	}
-	w, err := strconv.ParseFloat(rest[i+1:], 64)
+	w, err := parseNumber(rest[i+1:])
+	if errors.Is(err, errNotFinite) {
+		return rest[:i], 0, fmt.Errorf("weight %s want a positive number (larger = closer to the reference)", numberFault(rest[i+1:], rest[i+1:], err))
+	}
 	if err != nil {
 		return rest, 0, nil
 	}
@@ -153,9 +157,9 @@ func parseTotals(v string) ([]float64, error) {
 	}
 	var out []float64
 	for _, f := range strings.Split(v, ",") {
-		x, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
+		x, err := parseNumber(f)
 		if err != nil || !(x > 0) || x > 1e300 {
-			return nil, fmt.Errorf("%q: want off, a positive total, or one positive total per experiment (comma-separated)", v)
+			return nil, fmt.Errorf("%s want off, a positive total, or one positive total per experiment (comma-separated)", numberFault(v, f, err))
 		}
 		out = append(out, x)
 	}
@@ -169,9 +173,9 @@ func parseWeights(v string) ([]float64, error) {
 	var out []float64
 	pos := false
 	for _, f := range strings.Split(v, ",") {
-		x, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
+		x, err := parseNumber(f)
 		if err != nil || x < 0 || x > 1e300 {
-			return nil, fmt.Errorf("%q: want one weight ≥ 0 per component, comma-separated, e.g. 1,1,2", v)
+			return nil, fmt.Errorf("%s want one weight ≥ 0 per component, comma-separated, e.g. 1,1,2", numberFault(v, f, err))
 		}
 		pos = pos || x > 0
 		out = append(out, x)

@@ -300,9 +300,9 @@ func kineticValues(s *Settings, sch *kinetics.Scheme, total float64) (c0, kstart
 			if i < 0 {
 				return nil, nil, nil, usage("--c0 %s=%s: %q is not a species of the model (species: %s)", p.key, p.value, p.key, strings.Join(sch.Species, ", "))
 			}
-			v, err := strconv.ParseFloat(p.value, 64)
-			if err != nil || !(v >= 0) || math.IsInf(v, 0) {
-				return nil, nil, nil, usage("--c0 %s=%s: want a concentration ≥ 0", p.key, p.value)
+			v, err := parseNumber(p.value)
+			if err != nil || !(v >= 0) {
+				return nil, nil, nil, usage("--c0 %s=%s: %swant a concentration ≥ 0", p.key, p.value, finiteNote(err))
 			}
 			c0[i] = v
 			any = any || v > 0
@@ -332,9 +332,9 @@ func kineticValues(s *Settings, sch *kinetics.Scheme, total float64) (c0, kstart
 			if !ok {
 				return nil, nil, nil, usage("--%s %s=%s: %q is not a step of the model (steps: %s)", which.flag, p.key, p.value, p.key, stepList(sch))
 			}
-			v, err := strconv.ParseFloat(p.value, 64)
-			if err != nil || math.IsInf(v, 0) || !(v > 0 || (which.fixed && v == 0)) {
-				return nil, nil, nil, usage("--%s %s=%s: want a rate constant > 0", which.flag, p.key, p.value)
+			v, err := parseNumber(p.value)
+			if err != nil || !(v > 0 || (which.fixed && v == 0)) {
+				return nil, nil, nil, usage("--%s %s=%s: %swant a rate constant > 0", which.flag, p.key, p.value, finiteNote(err))
 			}
 			if which.fixed {
 				kfixed[j] = true

@@ -6,7 +6,9 @@
 package pipeline
 
 import (
+	"errors"
 	"fmt"
+	"math"
 	"path/filepath"
 	"slices"
 	"strconv"
@@ -247,11 +249,59 @@ func integer(f func(s *Settings) *int, lo int) (func(*Settings, string) error, f
 	}, func(s *Settings) []string { return []string{strconv.Itoa(*f(s))} }
 }
 
+// parseNumber reads a number of a setting: strconv.ParseFloat's decimal
+// syntax, finite only. ParseFloat also takes "NaN", "Inf" and "infinity",
+// and gives ±Inf for a number past the float64 range (1e999); none of them
+// is a value any setting can mean, and once accepted they reached the
+// results (t0 NaN in the record, a region -inf:inf). The error says which
+// fault it was, for the caller to put beside what it wants.
+func parseNumber(v string) (float64, error) {
+	x, err := strconv.ParseFloat(strings.TrimSpace(v), 64)
+	switch {
+	case math.IsNaN(x) || math.IsInf(x, 0):
+		return 0, errNotFinite
+	case err != nil:
+		return 0, errNotANumber
+	}
+	return x, nil
+}
+
+var (
+	errNotFinite  = errors.New("not a finite number")
+	errNotANumber = errors.New("not a number")
+)
+
+// numberFault is the start of a message refusing v, a setting's value,
+// for its number cell (v itself, or one of a list): v quoted, and why when
+// cell is not finite (NaN, Inf, or beyond ±1.8e308), a fault a plain
+// "want …" would hide.
+func numberFault(v, cell string, err error) string {
+	switch {
+	case !errors.Is(err, errNotFinite):
+		return quote(v) + ":"
+	case strings.TrimSpace(cell) == strings.TrimSpace(v):
+		return quote(v) + ": not a finite number;"
+	}
+	return fmt.Sprintf("%s: %s is not a finite number;", quote(v), quote(strings.TrimSpace(cell)))
+}
+
+// finiteNote is "not a finite number; " when err says so, else "".
+func finiteNote(err error) string {
+	if errors.Is(err, errNotFinite) {
+		return "not a finite number; "
+	}
+	return ""
+}
+
+// quote shows a value a setting was given in a message: quoted, with
+// control characters escaped, cut to the first 80 characters.
+func quote(v string) string { return cmdfile.Show(v) }
+
 func number(f func(s *Settings) *float64, ok func(float64) bool, want string) (func(*Settings, string) error, func(*Settings) []string) {
 	return func(s *Settings, v string) error {
-		x, err := strconv.ParseFloat(strings.TrimSpace(v), 64)
+		x, err := parseNumber(v)
 		if err != nil || !ok(x) {
-			return fmt.Errorf("%q: want %s", v, want)
+			return fmt.Errorf("%s want %s", numberFault(v, v, err), want)
 		}
 		*f(s) = x
 		return nil
@@ -340,8 +390,8 @@ var options = func() []Option {
 	s15, g15 := str(func(s *Settings) *string { return &s.T0 })
 	add(opt("t0", "SECONDS", "time the reaction starts, in seconds (default: the time of the last spectrum before it with --pre N, else of the reference spectrum)", false, true, func(s *Settings, v string) error {
 		if v != "" {
-			if _, err := strconv.ParseFloat(v, 64); err != nil {
-				return fmt.Errorf("%q: want a time in seconds", v)
+			if _, err := parseNumber(v); err != nil {
+				return fmt.Errorf("%s want a time in seconds, e.g. 120", numberFault(v, v, err))
 			}
 		}
 		return s15(s, v)
@@ -462,8 +512,14 @@ func ParseRange(v string) ([2]float64, error) {
 	if !ok {
 		return [2]float64{}, fmt.Errorf("%q: want LO:HI, e.g. 1800:1000", v)
 	}
-	lo, err1 := strconv.ParseFloat(strings.TrimSpace(a), 64)
-	hi, err2 := strconv.ParseFloat(strings.TrimSpace(b), 64)
+	lo, err1 := parseNumber(a)
+	hi, err2 := parseNumber(b)
+	if errors.Is(err1, errNotFinite) {
+		return [2]float64{}, fmt.Errorf("%s want two different finite numbers LO:HI, e.g. 1800:1000", numberFault(v, a, err1))
+	}
+	if errors.Is(err2, errNotFinite) {
+		return [2]float64{}, fmt.Errorf("%s want two different finite numbers LO:HI, e.g. 1800:1000", numberFault(v, b, err2))
+	}
 	if err1 != nil || err2 != nil || lo == hi {
 		return [2]float64{}, fmt.Errorf("%q: want two different numbers LO:HI, e.g. 1800:1000", v)
 	}
