@@ -109,6 +109,10 @@ func Clip(v string) string {
 // Show quotes v for a message, clipped.
 func Show(v string) string { return strconv.Quote(Clip(v)) }
 
+// ShortenIn replaces a value longer than MaxShown characters, quoted or
+// written as it is in msg, by its clipped form.
+func ShortenIn(msg, v string) string { return clipValue(msg, v) }
+
 // clipValue replaces a long value quoted or written in msg by its clipped form.
 func clipValue(msg, v string) string {
 	if len([]rune(v)) <= MaxShown {

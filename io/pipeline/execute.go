@@ -30,6 +30,11 @@ func (st Streams) progress(s *Settings) io.Writer {
 // Execute runs one analysis and writes its output folder. The folder is
 // checked before any computation so that a refused --out costs nothing.
 func Execute(s *Settings, st Streams) (*Result, error) {
+	r, err := execute(s, st)
+	return r, shortenValues(s, err)
+}
+
+func execute(s *Settings, st Streams) (*Result, error) {
 	if s.Out == "" {
 		s.Out = "bandsolve-results"
 	}

@@ -154,7 +154,7 @@ func (s *Settings) Set(name, value string) error {
 		return fmt.Errorf("unknown setting %q%s", name, suggest(name))
 	}
 	if err := o.set(s, value); err != nil {
-		return fmt.Errorf("%s: %w", name, err)
+		return &shortened{msg: name + ": " + shortenIn(err.Error(), shownValues(name, value)...), err: err}
 	}
 	if _, old := Renamed[name]; old && !slices.Contains(s.renamedUsed, name) {
 		s.renamedUsed = append(s.renamedUsed, name)
@@ -296,6 +296,70 @@ func finiteNote(err error) string {
 // quote shows a value a setting was given in a message: quoted, with
 // control characters escaped, cut to the first 80 characters.
 func quote(v string) string { return cmdfile.Show(v) }
+
+// shortenValues cuts, in err's message, every value of s longer than
+// cmdfile.MaxShown characters, and every part of one between commas,
+// semicolons and equals signs (a --k-start pair, a --model step), to its
+// first MaxShown characters and "…", quoted or not as the message has it:
+// the rule of a command file's messages (cmdfile.File.Apply) for every
+// message of a run, so that a hostile 1 MB value never makes a 1 MB error
+// line. The error keeps its kind (errors.As still finds a *UsageError).
+func shortenValues(s *Settings, err error) error {
+	if err == nil {
+		return nil
+	}
+	msg := err.Error()
+	short := msg
+	for _, o := range options {
+		for _, v := range o.get(s) {
+			short = shortenIn(short, shownValues(o.Name, v)...)
+		}
+	}
+	if short == msg {
+		return err
+	}
+	return &shortened{msg: short, err: err}
+}
+
+// maxPathBytes is the longest path a system opens (PATH_MAX on Linux):
+// a path no longer than it is shown whole, since the file it names must be
+// found from the message; a longer one names no file and is cut as other
+// values are.
+const maxPathBytes = 4096
+
+// shownValues is value, to be cut in messages, unless it is a path short
+// enough to name a file.
+func shownValues(name, value string) []string {
+	if len(value) <= maxPathBytes && IsPath(name, value) {
+		return nil
+	}
+	return []string{value}
+}
+
+// shortenIn cuts in msg each of values longer than cmdfile.MaxShown
+// characters, and each such part of one between commas, semicolons and
+// equals signs.
+func shortenIn(msg string, values ...string) string {
+	for _, v := range values {
+		if len(v) <= cmdfile.MaxShown {
+			continue
+		}
+		msg = cmdfile.ShortenIn(msg, v)
+		for _, p := range strings.FieldsFunc(v, func(r rune) bool { return r == ',' || r == ';' || r == '=' }) {
+			msg = cmdfile.ShortenIn(msg, strings.TrimSpace(p))
+		}
+	}
+	return msg
+}
+
+// shortened is an error whose message cuts long values.
+type shortened struct {
+	msg string
+	err error
+}
+
+func (e *shortened) Error() string { return e.msg }
+func (e *shortened) Unwrap() error { return e.err }
 
 func number(f func(s *Settings) *float64, ok func(float64) bool, want string) (func(*Settings, string) error, func(*Settings) []string) {
 	return func(s *Settings, v string) error {
