@@ -443,9 +443,46 @@ func setAsideRows(r *Result) error {
 	if err != nil {
 		return err
 	}
+	if err := keptEnough(r, drops); err != nil {
+		return err
+	}
 	if len(drops) > 0 {
 		r.SetAside = drops
 		imputeRows(r, drops, nil, nil)
+	}
+	return nil
+}
+
+// minKept is the fewest spectra an experiment must keep after --drop: one
+// spectrum shows no change in time (difference data needs two, a
+// reference and a later one), and a spectrum set aside is filled in from
+// the kept ones of its own experiment (imputeRows), so with none kept it
+// would be made from nothing.
+const minKept = 2
+
+// keptEnough refuses --drop settings that leave an experiment fewer than
+// minKept spectra, or fewer spectra in all than --components asks for
+// (each component needs a spectrum of its own to be told apart).
+func keptEnough(r *Result, drops []SetAside) error {
+	if len(drops) == 0 {
+		return nil
+	}
+	kept := make([]int, len(r.Experiments))
+	for _, e := range r.Experiments {
+		kept[r.ExpOfRow[e.FirstRow]] = e.Rows
+	}
+	for _, d := range drops {
+		kept[r.ExpOfRow[d.Row]]--
+	}
+	total := 0
+	for i, e := range r.Experiments {
+		total += kept[i]
+		if kept[i] < minKept {
+			return usage("--drop sets aside %d of the %d spectra of %s: %d remain, and a resolution needs at least %d of each experiment; drop fewer", e.Rows-kept[i], e.Rows, e.Source, kept[i], minKept)
+		}
+	}
+	if k, err := strconv.Atoi(r.Settings.Components); err == nil && total < k {
+		return usage("--drop leaves %d spectra, fewer than the %d components asked for (--components %d); drop fewer, or ask for at most %d components", total, k, k, total)
 	}
 	return nil
 }
