@@ -74,11 +74,11 @@ func runCollect(args []string, st pipeline.Streams) int {
 	if *out == "" {
 		st.Out.Write(b)
 	} else if err := writeNew(*out, b, *force); err != nil {
-		fmt.Fprintf(st.Err, "bandsolve collect: %v\n", err)
+		fmt.Fprintf(st.Err, "bandsolve collect: %s\n", oneLine(err.Error()))
 		return exitRun
 	}
 	for _, p := range problems {
-		fmt.Fprintf(st.Err, "bandsolve collect: %s\n", p)
+		fmt.Fprintf(st.Err, "bandsolve collect: %s\n", oneLine(p))
 	}
 	if len(problems) > 0 {
 		return exitRun

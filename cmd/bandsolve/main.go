@@ -13,6 +13,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/bandsolve/bandsolve/io/cmdfile"
 	"github.com/bandsolve/bandsolve/io/pipeline"
 	"github.com/spf13/pflag"
 )
@@ -328,6 +329,9 @@ func report(st pipeline.Streams, cmd string, err error) int {
 	return exitRun
 }
 
+// oneLine is a message as one line for a terminal: control characters (a
+// line end or ESC in a file name) escaped as in quoted cells
+// (cmdfile.Escape), runs of spaces made one.
 func oneLine(s string) string {
-	return strings.Join(strings.Fields(strings.ReplaceAll(s, "\n", " ")), " ")
+	return strings.Join(strings.Fields(cmdfile.Escape(strings.TrimRight(s, "\n"))), " ")
 }

@@ -141,7 +141,7 @@ func runRun(args []string, st pipeline.Streams) int {
 	}
 	workers, shard, err := batchShape(fs, writtenAs(args, "jobs", "j"), *jobsText, *shardText)
 	if err != nil {
-		fmt.Fprintf(st.Err, "bandsolve run: %v\n", err)
+		fmt.Fprintf(st.Err, "bandsolve run: %s\n", oneLine(err.Error()))
 		return exitUsage
 	}
 	changed := map[string]bool{}
@@ -174,7 +174,7 @@ func runRun(args []string, st pipeline.Streams) int {
 	if !batch {
 		if len(files) == 0 && len(results) == 1 {
 			// A pattern that matched nothing: no run to tell it.
-			fmt.Fprintf(st.Err, "bandsolve run: %s: %s\n", results[0].file, results[0].detail)
+			fmt.Fprintf(st.Err, "bandsolve run: %s: %s\n", oneLine(results[0].file), oneLine(results[0].detail))
 		}
 		return code
 	}
@@ -294,7 +294,7 @@ func printBatchTable(w io.Writer, results []outcome, failed int, shard campaign.
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "file\tstatus\toutput\tdetail")
 	for _, o := range results {
-		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\n", o.file, o.status, orDash(o.out), oneLine(o.detail))
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\n", oneLine(o.file), o.status, oneLine(orDash(o.out)), oneLine(o.detail))
 	}
 	tw.Flush()
 }

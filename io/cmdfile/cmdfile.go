@@ -109,6 +109,48 @@ func Clip(v string) string {
 // Show quotes v for a message, clipped.
 func Show(v string) string { return strconv.Quote(Clip(v)) }
 
+// Escape shows s safely on a terminal: every character that is not
+// printable (control characters such as ESC and the line end, the line and
+// paragraph separators, direction overrides) and every byte that is not
+// UTF-8 is written as a Go quoted string writes it (\x1b, \n, \u202e,
+// strconv.Quote), the way a data file's cells are quoted in messages. A
+// file name can then neither clear the screen nor break a message in two
+// and pass off its second half as bandsolve's own line.
+func Escape(s string) string { return escape(s, false) }
+
+// EscapeText is Escape for text of several lines, such as a summary table:
+// line ends and tabs are kept.
+func EscapeText(s string) string { return escape(s, true) }
+
+func escape(s string, lines bool) string {
+	shown := func(r rune) bool { return strconv.IsPrint(r) || lines && (r == '\n' || r == '\t') }
+	clean := true
+	for _, r := range s {
+		if r == utf8.RuneError || !shown(r) {
+			clean = false
+			break
+		}
+	}
+	if clean {
+		return s
+	}
+	var b strings.Builder
+	for len(s) > 0 {
+		r, n := utf8.DecodeRuneInString(s)
+		switch {
+		case r == utf8.RuneError && n == 1:
+			fmt.Fprintf(&b, "\\x%02x", s[0])
+		case !shown(r):
+			q := strconv.QuoteRune(r)
+			b.WriteString(q[1 : len(q)-1])
+		default:
+			b.WriteString(s[:n])
+		}
+		s = s[n:]
+	}
+	return b.String()
+}
+
 // ShortenIn replaces a value longer than MaxShown characters, quoted or
 // written as it is in msg, by its clipped form.
 func ShortenIn(msg, v string) string { return clipValue(msg, v) }

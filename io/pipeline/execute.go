@@ -172,8 +172,12 @@ func printSummary(r *Result, st Streams) {
 	case s.JSON:
 		st.Out.Write(r.summaryJSON)
 	case !s.Quiet:
-		PrintTable(r, st.Out)
-		fmt.Fprintf(st.Out, "results        %s\n", s.Out)
+		// Names in the table (files set aside, warnings) are shown with
+		// their control characters escaped, as in messages.
+		var b strings.Builder
+		PrintTable(r, &b)
+		fmt.Fprintf(&b, "results        %s\n", s.Out)
+		io.WriteString(st.Out, cmdfile.EscapeText(b.String()))
 	}
 }
 

@@ -12,6 +12,7 @@ import (
 	"time"
 
 	"github.com/bandsolve/bandsolve/internal/fresh"
+	"github.com/bandsolve/bandsolve/io/cmdfile"
 	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/report"
 	"github.com/bandsolve/bandsolve/io/spectra"
@@ -1154,7 +1155,7 @@ func loadSeries(s *Settings, r *Result, folder spectra.FolderOptions, kind spect
 		if err := needTimes(s, p, folder); err != nil {
 			return nil, "", err
 		}
-		fmt.Fprintf(log, "reading %s\n", p)
+		fmt.Fprintf(log, "reading %s\n", cmdfile.Escape(p))
 		named := folder
 		named.Label = p // warnings name the path as written (Series.Label)
 		ser, err := spectra.Load(s.Path(p), named)
