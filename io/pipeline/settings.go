@@ -121,6 +121,13 @@ type Option struct {
 	get        func(s *Settings) []string
 }
 
+// MaxReplicates bounds --replicates: ten times the about 1000 replicates
+// that percentile intervals at the 95 % level need (Efron & Tibshirani,
+// An Introduction to the Bootstrap, 1993, §13.3, from memory). Each
+// replicate is a whole resolution and its profiles and spectra are kept
+// until the percentiles are taken, so 10⁸ replicates ran for ever.
+const MaxReplicates = 10000
+
 // Options lists every setting in the order they are documented and recorded.
 func Options() []Option { return options }
 
@@ -527,7 +534,12 @@ var options = func() []Option {
 	sc8, gc8 := choice(func(s *Settings) *string { return &s.Checks }, "on", "off")
 	add(opt("checks", "on|off", "refit without each constraint to show what it costs in lack of fit; a better fit they find under every constraint, beyond noise, replaces the resolution", false, true, sc8, gc8))
 	s19, g19 := integer(func(s *Settings) *int { return &s.Replicates }, 0)
-	add(opt("replicates", "N", "resampled replicates for confidence intervals (0 = none)", false, true, s19, g19))
+	add(opt("replicates", "N", fmt.Sprintf("resampled replicates for confidence intervals (0 = none; at most %d)", MaxReplicates), false, true, func(s *Settings, v string) error {
+		if n, err := strconv.Atoi(strings.TrimSpace(v)); err == nil && n > MaxReplicates {
+			return fmt.Errorf("%s: at most %d: each replicate is a whole resolution, kept in memory until the intervals are taken, and 95 %% percentile intervals need about 1000 (docs/constraints.md); give %d or fewer", quote(v), MaxReplicates, MaxReplicates)
+		}
+		return s19(s, v)
+	}, g19))
 	add(opt("seed", "S", "seed of every random choice (replicates, randomized SVD)", false, true, func(s *Settings, v string) error {
 		n, err := strconv.ParseUint(strings.TrimSpace(v), 10, 64)
 		if err != nil {
