@@ -264,6 +264,21 @@ func checkKineticsSettings(s *Settings) error {
 	return nil
 }
 
+// The range of rate constants --k-start and --k-fixed take. The fit works
+// in ln k and refuses |ln k| > 700 (exp(700) ≈ 1e304 stays a float64 with
+// room for the products the model forms, kinetics' fitProblem.unpack): a
+// starting 1e308 failed the fit at its first point. The bounds leave the
+// fit a few units of ln k either side; no rate constant of a reaction
+// followed by spectra comes near them.
+//
+// A starting concentration is bounded as data values are (spectra's
+// maxMagnitude, 1e100): 1e300 could not be evaluated at any starting guess.
+const (
+	minRateConstant  = 1e-300
+	maxRateConstant  = 1e300
+	maxConcentration = 1e100
+)
+
 // kineticValues reads --c0, --k-start and --k-fixed. Without --c0 the
 // starting species (those no step forms) share total; with --c0 the species
 // not named start at 0.
@@ -304,6 +319,9 @@ func kineticValues(s *Settings, sch *kinetics.Scheme, total float64) (c0, kstart
 			if err != nil || !(v >= 0) {
 				return nil, nil, nil, usage("--c0 %s=%s: %swant a concentration ≥ 0", p.key, p.value, finiteNote(err))
 			}
+			if v != 0 && (v < 1/maxConcentration || v > maxConcentration) {
+				return nil, nil, nil, usage("--c0 %s=%s: outside the %g to %g a concentration can take in the fit (its products and squares must stay finite); give it in the closure's units, e.g. %s=1", p.key, p.value, 1/maxConcentration, maxConcentration, p.key)
+			}
 			c0[i] = v
 			any = any || v > 0
 		}
@@ -335,6 +353,9 @@ func kineticValues(s *Settings, sch *kinetics.Scheme, total float64) (c0, kstart
 			v, err := parseNumber(p.value)
 			if err != nil || !(v > 0 || (which.fixed && v == 0)) {
 				return nil, nil, nil, usage("--%s %s=%s: %swant a rate constant > 0", which.flag, p.key, p.value, finiteNote(err))
+			}
+			if v != 0 && (v < minRateConstant || v > maxRateConstant) {
+				return nil, nil, nil, usage("--%s %s=%s: outside the %g to %g per second a rate constant can be fitted in (the fit works in ln k); give a value near 1 over the time the step takes, e.g. %s=1e-3", which.flag, p.key, p.value, minRateConstant, maxRateConstant, p.key)
 			}
 			if which.fixed {
 				kfixed[j] = true
