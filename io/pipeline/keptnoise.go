@@ -5,7 +5,9 @@ import (
 	"io"
 	"math"
 	"slices"
+	"strings"
 
+	"github.com/bandsolve/bandsolve/io/output"
 	"github.com/bandsolve/bandsolve/io/spectra"
 	"github.com/bandsolve/bandsolve/mcr"
 	"gonum.org/v1/gonum/mat"
@@ -45,6 +47,9 @@ type noiseOfAll struct {
 	noise  []spectra.Noise
 	source string // r.NoiseSource as it was
 	notes  []string
+	// fewRepeats is the note keptNoise added when too few pre-reaction
+	// repeats were kept for their steps ("" for none).
+	fewRepeats string
 }
 
 // restoreNoise puts back the noise measured on every spectrum, for a
@@ -66,6 +71,9 @@ func restoreNoise(r *Result) {
 		ex.Assembled.Noise = b.noise[e]
 	}
 	replaceNotes(r, now, b.notes)
+	if i := slices.Index(r.Notes, b.fewRepeats); b.fewRepeats != "" && i >= 0 {
+		r.Notes = slices.Delete(r.Notes, i, i+1)
+	}
 	noiseOf(r)
 	r.NoiseSource = b.source
 	r.noiseBase = nil
@@ -96,12 +104,24 @@ func keptNoise(r *Result, log io.Writer) bool {
 	}
 	_, m := r.D.Dims()
 	logs := make([][]float64, len(r.Experiments)) // per experiment, 2 log(σ_all/σ_kept); nil: none aside
+	var few []string
 	for e, ex := range r.Experiments {
 		if untouched(r, ex, r.noiseBase.noise[e]) {
 			continue
 		}
-		logs[e] = experimentNoiseRatio(r, ex, m)
+		var src string
+		logs[e], src = experimentNoiseRatio(r, ex, m)
 		ex.Assembled.Noise = scaledNoise(r.noiseBase.noise[e], logs[e])
+		if logs[e] != nil && r.Settings.Pre >= 2 && preKept(r, ex) < 2 {
+			// Its noise is now the second differences': the source says so,
+			// and noiseDof counts their degrees of freedom.
+			ex.Assembled.Noise.Source = src
+			few = append(few, fewRepeatsWords(r, ex))
+		}
+	}
+	if r.noiseBase.fewRepeats == "" && len(few) > 0 {
+		r.noiseBase.fewRepeats = "noise: " + strings.Join(few, "; ") + "; so it is measured from second differences in time of the spectra kept (x_{i+1} − 2x_i + x_{i−1}: a change linear over three spectra cancels), a row set aside breaking every difference it is part of"
+		r.Notes = append(r.Notes, r.noiseBase.fewRepeats)
 	}
 	replaceNotes(r, notes, spectrumNoiseNotes(r))
 	w := scaledWeights(r.noiseBase.w, r.Experiments, logs, m)
@@ -111,7 +131,7 @@ func keptNoise(r *Result, log io.Writer) bool {
 	before := medianOf(r.Weights.ChannelSigma())
 	r.Weights = w
 	noiseOf(r)
-	r.NoiseSource += fmt.Sprintf("; measured again without the %d spectrum(s) set aside (σ %.4g, %.4g with them)", len(r.SetAside), r.NoiseSigma, medianOf(r.noiseBase.w.ChannelSigma()))
+	r.NoiseSource += fmt.Sprintf("; measured again without the %d spectrum(s) set aside%s (σ %.4g, %.4g with them)", len(r.SetAside), bridgedWords(r), r.NoiseSigma, medianOf(r.noiseBase.w.ChannelSigma()))
 	// The singular values' figure names the noise level: drawn ahead
 	// again with this one, in place of the one drawn with the first.
 	r.ahead.aheadSingular(r)
@@ -146,19 +166,16 @@ func untouched(r *Result, ex *Experiment, nz spectra.Noise) bool {
 const singleBeamUnits = "single-beam units"
 
 // experimentNoiseRatio is 2 log(σ_all,j/σ_kept,j) per channel of
-// experiment ex, its spectra as measured (those set aside as they were),
-// nil when none of its spectra is set aside.
-func experimentNoiseRatio(r *Result, ex *Experiment, m int) []float64 {
-	var rows []int
-	for _, sa := range r.SetAside {
-		if i := sa.Row - ex.FirstRow; i >= 0 && i < ex.Rows {
-			rows = append(rows, i)
-		}
+// experiment ex, its spectra as measured (those set aside as they were,
+// before any filling: rememberAside), nil when none of its spectra is set
+// aside, and how σ_kept was measured (spectra.ChannelNoiseWithout: the
+// steps between the pre-reaction repeats kept, or second differences in
+// time when fewer than two are kept).
+func experimentNoiseRatio(r *Result, ex *Experiment, m int) ([]float64, string) {
+	rows := asideIn(r, ex)
+	if len(rows) == 0 {
+		return nil, ""
 	}
-	if len(rows) == 0 || !preStepsLeft(r.Settings.Pre, ex.Rows, rows) {
-		return nil
-	}
-	slices.Sort(rows)
 	v := mat.NewDense(ex.Rows, m, nil)
 	for i := range ex.Rows {
 		src := r.D.RawRowView(ex.FirstRow + i)[:m]
@@ -171,35 +188,88 @@ func experimentNoiseRatio(r *Result, ex *Experiment, m int) []float64 {
 	if r.Blind != nil && r.Blind.Count > 0 {
 		blind = &spectra.Blind{Rows: r.Blind.Rows[ex.FirstRow : ex.FirstRow+ex.Rows]}
 	}
-	kept, all := spectra.ChannelNoiseWithout(v, r.Times[ex.FirstRow:ex.FirstRow+ex.Rows], r.Settings.Pre, blind, rows)
+	kept, all, src := spectra.ChannelNoiseWithout(v, r.Times[ex.FirstRow:ex.FirstRow+ex.Rows], r.Settings.Pre, blind, rows)
 	out := make([]float64, m)
 	for j := range out {
 		if kept[j] > 0 && all[j] > 0 && !math.IsInf(kept[j], 0) && !math.IsInf(all[j], 0) {
 			out[j] = 2 * math.Log(all[j]/kept[j])
 		}
 	}
-	return out
+	return out, src
 }
 
-// preStepsLeft says whether the noise measured from the steps between the
-// pre-reaction repeats (--pre N ≥ 2: the level of it, from single beams
-// the whole of it) can be measured again with the rows aside left out: at
-// least two repeats not aside, one step. With none left the estimator has
-// no difference to take and returns its floor, the rounding step over √12:
-// a series whose three repeats were all set aside read σ 3.3·10⁻⁸ for
-// 8.8·10⁻⁴ and a fit 8·10⁴ times the noise. The noise is then the one
-// measured with them.
-func preStepsLeft(pre, rows int, aside []int) bool {
-	if pre < 2 {
-		return true
+// asideIn are the rows of experiment ex (from its first) set aside,
+// ascending.
+func asideIn(r *Result, ex *Experiment) []int {
+	var rows []int
+	for _, sa := range r.SetAside {
+		if i := sa.Row - ex.FirstRow; i >= 0 && i < ex.Rows {
+			rows = append(rows, i)
+		}
 	}
-	left := min(pre, rows)
-	for _, i := range aside {
-		if i < min(pre, rows) {
+	slices.Sort(rows)
+	return rows
+}
+
+// preKept is how many of the spectra --pre counts as before the reaction
+// in experiment ex are not set aside: the repeats whose successive
+// differences give the noise (spectra.ChannelNoiseWithout). A row set
+// aside breaks the steps it is part of, each taken to the next repeat
+// kept; with fewer than two kept there is none, and the noise comes from
+// second differences in time instead. Before, a repeat set aside left a
+// step of nothing: the first three of a series with the middle one set
+// aside (gas lines) read σ 5.1·10⁻¹⁰ for 8·10⁻⁵ and a fit 1.8·10⁵ times
+// the noise; dropped (--drop), filled from its neighbours, it left a step
+// of zero (its first) or across the reaction's start (its last).
+func preKept(r *Result, ex *Experiment) int {
+	top := min(r.Settings.Pre, ex.Rows)
+	left := top
+	for _, i := range asideIn(r, ex) {
+		if i < top {
 			left--
 		}
 	}
-	return left >= 2
+	return left
+}
+
+// preAside are the times of the spectra --pre counts as before the
+// reaction in experiment ex that are set aside, in words ("30, 60 s").
+func preAside(r *Result, ex *Experiment) (string, int) {
+	var ts []string
+	for _, i := range asideIn(r, ex) {
+		if i < min(r.Settings.Pre, ex.Rows) {
+			ts = append(ts, output.Float(r.Times[ex.FirstRow+i]))
+		}
+	}
+	return strings.Join(ts, ", ") + " s", len(ts)
+}
+
+// fewRepeatsWords says that experiment ex kept too few pre-reaction
+// repeats for the noise to be measured from their steps.
+func fewRepeatsWords(r *Result, ex *Experiment) string {
+	at, k := preAside(r, ex)
+	where := ""
+	if len(r.Experiments) > 1 {
+		where = " of " + ex.Source
+	}
+	are := "are"
+	if k == 1 {
+		are = "is"
+	}
+	return fmt.Sprintf("%d of the %d spectra%s counted as before the reaction (--pre %d) %s set aside (t = %s), leaving %d, and the noise from differences between repeats needs 2",
+		k, min(r.Settings.Pre, ex.Rows), where, r.Settings.Pre, are, at, preKept(r, ex))
+}
+
+// bridgedWords says, for the noise measured again, that the steps
+// between the pre-reaction repeats were taken over those set aside ("" when
+// none was, or when too few were kept for steps: fewRepeatsWords says so).
+func bridgedWords(r *Result) string {
+	for _, ex := range r.Experiments {
+		if _, k := preAside(r, ex); r.Settings.Pre >= 2 && k > 0 && preKept(r, ex) >= 2 {
+			return fmt.Sprintf(", each step between the pre-reaction repeats (--pre %d) taken to the next one kept", r.Settings.Pre)
+		}
+	}
+	return ""
 }
 
 // replaceNotes puts each of now in place of the note in r.Notes equal to
@@ -229,11 +299,16 @@ func scaledNoise(nz spectra.Noise, logs []float64) spectra.Noise {
 // differencesLeft is how many windows of width rows among the first upto
 // rows of experiment ex (the differences of that width) touch no spectrum
 // set aside: every window when the noise was not measured again without
-// them.
+// them. The steps between pre-reaction repeats (width 2) are taken over a
+// repeat set aside to the next one kept (preKept): one fewer than those
+// kept.
 func differencesLeft(r *Result, ex *Experiment, width, upto int) int {
 	left := max(upto-width+1, 0)
 	if r.noiseBase == nil {
 		return left
+	}
+	if width == 2 && upto == min(r.Settings.Pre, ex.Rows) {
+		return max(preKept(r, ex)-1, 0)
 	}
 	for c := 0; c+width <= upto; c++ {
 		for i := c; i < c+width; i++ {

@@ -449,6 +449,10 @@ func setAsideRows(r *Result) error {
 	}
 	if len(drops) > 0 {
 		r.SetAside = drops
+		// As they were read: the noise is measured again with and without
+		// them (keptNoise), and a row filled from its neighbours would
+		// make a step of zero with the one it copies.
+		rememberAside(r)
 		imputeRows(r, drops, nil, nil)
 	}
 	return nil

@@ -173,20 +173,22 @@ func legendre(k int, t float64) float64 {
 	}
 }
 
-// driftFreeSteps are the steps x_i − x_{i−1} between rows 1 … pre−1 of v and the one before
-// each, with their drift removed (removeDrift) over the points observed in both. For single
-// beams (relative) a drift δA(ν) of the absorbance moves a beam by I·(10^(−δA) − 1) ≈
-// −ln 10·I·δA, so the shapes are the earlier beam times the polynomials; for absorbance or
-// differences the polynomials themselves.
-func driftFreeSteps(v *mat.Dense, pre int, blind *Blind, relative bool) *mat.Dense {
+// driftFreeSteps are the steps x_r(k) − x_r(k−1) between each of rows[1:] of v and the one
+// before it in rows (successive repeats before the reaction), with their drift removed
+// (removeDrift) over the points observed in both. For single beams (relative) a drift δA(ν)
+// of the absorbance moves a beam by I·(10^(−δA) − 1) ≈ −ln 10·I·δA, so the shapes are the
+// earlier beam times the polynomials; for absorbance or differences the polynomials
+// themselves.
+func driftFreeSteps(v *mat.Dense, rows []int, blind *Blind, relative bool) *mat.Dense {
 	_, m := v.Dims()
-	out := mat.NewDense(pre-1, m, nil)
+	out := mat.NewDense(len(rows)-1, m, nil)
 	use := make([]bool, m)
-	for i := 1; i < pre; i++ {
-		a, b, d := v.RawRowView(i - 1)[:m], v.RawRowView(i)[:m], out.RawRowView(i-1)
+	for k := 1; k < len(rows); k++ {
+		i0, i1 := rows[k-1], rows[k]
+		a, b, d := v.RawRowView(i0)[:m], v.RawRowView(i1)[:m], out.RawRowView(k-1)
 		for j := range d {
 			d[j] = b[j] - a[j]
-			use[j] = !blind.Has(i-1, j) && !blind.Has(i, j) && !math.IsNaN(d[j]) && !math.IsInf(d[j], 0)
+			use[j] = !blind.Has(i0, j) && !blind.Has(i1, j) && !math.IsNaN(d[j]) && !math.IsInf(d[j], 0)
 		}
 		var scale []float64
 		if relative {

@@ -286,6 +286,10 @@ func channelNoiseSpaced(v *mat.Dense, line []float64, pre int, blind *Blind) ([]
 func channelNoiseOwn(v *mat.Dense, line []float64, pre int, blind *Blind, q float64, own []float64, cnt []int, relative bool) (sigma []float64, quantum float64, source string, sampling float64) {
 	n, m := v.Dims()
 	src := fmt.Sprintf("second differences in time of all %d spectra", n)
+	rows, reason := preRowsWithData(pre, n, m, blind)
+	if pre >= 2 && len(rows) < 2 {
+		pre, own = 0, nil // the scan's own scales were of the pre-reaction steps
+	}
 	d := timeDiffs{v: v, pre: pre, blind: blind, line: line}
 	switch {
 	case pre < 2 && n >= 3 && line != nil:
@@ -301,17 +305,22 @@ func channelNoiseOwn(v *mat.Dense, line []float64, pre int, blind *Blind, q floa
 		// nothing below measures the noise, and the level is the floor
 		// set after it, the smallest step between the spectra over √12.
 		src = fmt.Sprintf("the smallest step between the %d spectra over √12, a floor, not a measured noise: %d spectra have no second difference in time and %d points are too few for differences along the axis", n, n, m)
+	case pre >= 2 && len(rows) < min(pre, n):
+		src = fmt.Sprintf("successive differences of the %d pre-reaction spectra with data, their drift along the axis removed", len(rows))
+		d.pre, d.rows = len(rows), rows
+		d.steps, own = driftFreeSteps(v, rows, blind, relative), nil
 	case pre >= 2:
 		src = fmt.Sprintf("successive differences of the %d pre-reaction spectra, their drift along the axis removed", pre)
 		// The scan's own scales were of the raw differences.
-		d.steps, own = driftFreeSteps(v, pre, blind, relative), nil
+		d.steps, own = driftFreeSteps(v, rows, blind, relative), nil
 	}
+	src += reason
 	if own == nil {
 		own, cnt = channelScales(d)
 	}
 	sig := runningMAD(d, own, cnt)
 	sampling = runningSampling(d, cnt) + smoothingError(d, own, cnt, sig)
-	if pre >= 2 && !relative && pre-1 < 30 && n-2 >= 30 {
+	if d.pre >= 2 && !relative && d.pre-1 < 30 && n-2 >= 30 {
 		sig, sampling = preLevelSeriesShape(d, line, sig, sampling)
 		src += fmt.Sprintf(" for its level; its shape along the axis from second differences in time of all %d spectra", n)
 	}
@@ -323,6 +332,40 @@ func channelNoiseOwn(v *mat.Dense, line []float64, pre int, blind *Blind, q floa
 		sig[j] = math.Max(sig[j], floor)
 	}
 	return sig, q, src, sampling
+}
+
+// preRowsWithData are the rows among the first pre (at most n) of a matrix
+// of n × m that have data: a row blind at every channel (a spectrum set
+// aside, ChannelNoiseWithout; one with no light) has none. The steps of
+// the noise are then taken between successive rows with data, all
+// repeats of the state before the reaction, so that a row without data
+// breaks no pair into a difference with nothing (a zero) and none is taken
+// across the reaction's start. reason says, in words to follow the source,
+// what rows were passed over or, with fewer than two left, that the noise
+// is taken from second differences in time instead; "" when every row has
+// data or pre < 2.
+func preRowsWithData(pre, n, m int, blind *Blind) (rows []int, reason string) {
+	if pre < 2 {
+		return nil, ""
+	}
+	top := min(pre, n)
+	for i := range top {
+		if blind == nil || i >= len(blind.Rows) || len(blind.Rows[i]) < m {
+			rows = append(rows, i)
+		}
+	}
+	switch left := len(rows); {
+	case left == top:
+		return rows, ""
+	case left < 2:
+		have := "have"
+		if left == 1 {
+			have = "has"
+		}
+		return rows, fmt.Sprintf("; only %d of the %d pre-reaction spectra %s data (the others set aside or without light), too few for a successive difference", left, top, have)
+	default:
+		return rows, fmt.Sprintf(" (%d of the %d set aside or without light, each step taken to the next spectrum with data)", top-left, top)
+	}
 }
 
 // preLevelSeriesShape is the absorbance noise per channel with the level of
@@ -402,6 +445,9 @@ type timeDiffs struct {
 	pre   int
 	blind *Blind
 	steps *mat.Dense // with pre ≥ 2: the steps between those spectra, drift removed (driftFreeSteps)
+	// rows are the pre spectra whose successive steps are taken, when not
+	// the first pre rows of v (preRowsWithData: some have no data).
+	rows []int
 	// line holds, for spectra 1 … n−2 taken at unequal intervals, the
 	// weight a_i = (t_{i+1} − t_i)/(t_{i+1} − t_{i−1}) of the spectrum
 	// before in the straight line through the two neighbours in time
@@ -430,6 +476,14 @@ func (d timeDiffs) perChannel() int {
 	return max(n-2, 0)
 }
 
+// preRow is the row of the k-th pre-reaction spectrum whose steps are taken.
+func (d timeDiffs) preRow(k int) int {
+	if d.rows == nil {
+		return k
+	}
+	return d.rows[k]
+}
+
 // fill writes the differences of channels j0 … j1−1 into buf, channel c's
 // at buf[(c−j0)·per:], in time order, and their counts into cnt[c−j0]:
 // |x_i − x_{i−1}| over rows [0, pre) when pre ≥ 2 (their drift removed:
@@ -450,11 +504,12 @@ func (d timeDiffs) fill(j0, j1 int, buf []float64, cnt []int) (div float64) {
 		return d.fillAlongAxis(j0, j1, buf, cnt)
 	}
 	if d.pre >= 2 {
-		for i := 1; i < d.pre; i++ {
-			st := d.steps.RawRowView(i - 1)[j0:j1]
-			all := noneBlind(i-1) && noneBlind(i)
+		for k := 1; k < d.pre; k++ {
+			st := d.steps.RawRowView(k - 1)[j0:j1]
+			i0, i1 := d.preRow(k-1), d.preRow(k)
+			all := noneBlind(i0) && noneBlind(i1)
 			for c, s := range st {
-				if all || !d.blind.Has(i-1, j0+c) && !d.blind.Has(i, j0+c) {
+				if all || !d.blind.Has(i0, j0+c) && !d.blind.Has(i1, j0+c) {
 					buf[c*per+cnt[c]] = math.Abs(s)
 					cnt[c]++
 				}
@@ -2444,8 +2499,11 @@ func raiseTo(mu *sync.Mutex, top, bt []float64) {
 // of the others: its differences are several times the noise in 3 of the
 // n − 2 second differences of each channel, and move the median absolute
 // value up. The ratio of the two is the caller's to apply to an estimate
-// made before the screen.
-func ChannelNoiseWithout(v *mat.Dense, times []float64, pre int, blind *Blind, aside []int) (kept, all []float64) {
+// made before the screen. A pre-reaction spectrum set aside breaks the
+// steps it is part of: each is taken to the next one kept
+// (preRowsWithData), and with fewer than two kept the noise is the second
+// differences' in time; keptSource says how kept was measured.
+func ChannelNoiseWithout(v *mat.Dense, times []float64, pre int, blind *Blind, aside []int) (kept, all []float64, keptSource string) {
 	n, m := v.Dims()
 	line := lineWeights(times)
 	all, _, _, _ = channelNoiseSpaced(v, line, pre, blind)
@@ -2465,6 +2523,6 @@ func ChannelNoiseWithout(v *mat.Dense, times []float64, pre int, blind *Blind, a
 	for _, cols := range out.Rows {
 		out.Count += len(cols)
 	}
-	kept, _, _, _ = channelNoiseSpaced(v, line, pre, out)
-	return kept, all
+	kept, _, keptSource, _ = channelNoiseSpaced(v, line, pre, out)
+	return kept, all, keptSource
 }

@@ -38,7 +38,7 @@ func refChannelNoise(v *mat.Dense, pre int, blind *Blind) ([]float64, float64, s
 	src := fmt.Sprintf("second differences in time of all %d spectra", n)
 	if pre >= 2 {
 		src = fmt.Sprintf("successive differences of the %d pre-reaction spectra, their drift along the axis removed", pre)
-		steps := driftFreeSteps(v, pre, blind, false)
+		steps := driftFreeSteps(v, successiveRows(pre), blind, false)
 		for i := 1; i < pre; i++ {
 			st := steps.RawRowView(i - 1)
 			for j := 0; j < m; j++ {
@@ -87,7 +87,7 @@ func refSecondDiffs(v *mat.Dense, blind *Blind, diffs [][]float64) {
 func refPreLevelSeriesShape(v *mat.Dense, pre int, blind *Blind, fallback []float64) []float64 {
 	_, m := v.Dims()
 	shape := refNarrowShape(v, blind)
-	steps := driftFreeSteps(v, pre, blind, false)
+	steps := driftFreeSteps(v, successiveRows(pre), blind, false)
 	var z []float64
 	for j := 0; j < m; j++ {
 		for i := 1; i < pre; i++ {
@@ -793,4 +793,14 @@ func TestScanBeamsMatchesSeparatePasses(t *testing.T) {
 			}
 		}
 	}
+}
+
+// successiveRows are rows 0 … pre−1: the pre-reaction spectra's steps when
+// every one has data.
+func successiveRows(pre int) []int {
+	rows := make([]int, pre)
+	for i := range rows {
+		rows[i] = i
+	}
+	return rows
 }
