@@ -1851,10 +1851,18 @@ func preSteps(r *Result) []string {
 	_, m := r.D.Dims()
 	limit := math.Max(2, distuv.ChiSquared{K: float64(m)}.Quantile(0.999)/float64(m))
 	for _, e := range r.Experiments {
-		lo, hi := e.FirstRow, e.FirstRow+min(s.Pre, e.Rows)
+		// A spectrum set aside is no repeat: its row holds a fit or its
+		// neighbours' mean, not what was recorded. Each step is taken to
+		// the next repeat kept.
+		var rows []int
+		for i := e.FirstRow; i < e.FirstRow+min(s.Pre, e.Rows); i++ {
+			if !setAside(r.SetAside, i) {
+				rows = append(rows, i)
+			}
+		}
 		w := preNoise(r, e)
-		steps := spectra.StepToNoise(r.D, lo, hi, w, r.Blind)
-		own := spectra.StepOwnNoise(r.D, lo, hi, e.FirstRow, e.FirstRow+e.Rows, w, r.Blind)
+		steps := spectra.StepToNoiseRows(r.D, rows, w, r.Blind)
+		own := spectra.StepOwnNoiseRows(r.D, rows, e.FirstRow, e.FirstRow+e.Rows, w, r.Blind)
 		for a, rho := range steps {
 			kappa := 1.0
 			if own != nil && own[a] > 0 {
@@ -1863,12 +1871,12 @@ func preSteps(r *Result) []string {
 			if sq(rho/kappa) <= limit {
 				continue
 			}
-			i := lo + a + 1
+			i := rows[a+1]
 			where := ""
 			if len(r.Experiments) > 1 {
 				where = " of " + e.Source
 			}
-			out = append(out, fmt.Sprintf("spectrum %d%s (t = %s s), counted as before the reaction by --pre %d, differs from the one before it by %.3g times the noise of the two (repeats of one state differ by about 1; %.3g times the series' noise, these two being %.3g times as noisy): it probably changed already; give --pre the number of spectra taken before the reaction started", a+2, where, output.Float(r.Times[i]), s.Pre, rho/kappa, rho, kappa))
+			out = append(out, fmt.Sprintf("spectrum %d%s (t = %s s), counted as before the reaction by --pre %d, differs from the one before it by %.3g times the noise of the two (repeats of one state differ by about 1; %.3g times the series' noise, these two being %.3g times as noisy): it probably changed already; give --pre the number of spectra taken before the reaction started", i-e.FirstRow+1, where, output.Float(r.Times[i]), s.Pre, rho/kappa, rho, kappa))
 			break
 		}
 	}

@@ -93,20 +93,28 @@ func (w *Weights) ChannelSigma() []float64 {
 // not read as a change: the baseline model takes such a drift, the chemistry does not move
 // that way.
 func StepToNoise(d *mat.Dense, lo, hi int, w *Weights, blind *Blind) []float64 {
-	if w == nil || hi-lo < 2 {
+	return StepToNoiseRows(d, rowSpan(lo, hi), w, blind)
+}
+
+// StepToNoiseRows is StepToNoise of each of rows[1:] from the one before it in rows: the
+// steps between successive spectra kept when some between them are set aside. Out[k−1]
+// is the step to rows[k].
+func StepToNoiseRows(d *mat.Dense, rows []int, w *Weights, blind *Blind) []float64 {
+	if w == nil || len(rows) < 2 {
 		return nil
 	}
-	out := make([]float64, hi-lo-1)
+	out := make([]float64, len(rows)-1)
 	m := len(w.Col)
 	use, z, root := make([]bool, m), make([]float64, m), make([]float64, m)
-	for i := lo + 1; i < hi; i++ {
-		if !(w.Row[i] > 0 && w.Row[i-1] > 0) {
+	for k := 1; k < len(rows); k++ {
+		h, i := rows[k-1], rows[k]
+		if !(w.Row[i] > 0 && w.Row[h] > 0) {
 			continue // a spectrum set aside has no noise scale
 		}
-		a, b := d.RawRowView(i-1), d.RawRowView(i)
-		va := 1/w.Row[i] + 1/w.Row[i-1]
+		a, b := d.RawRowView(h), d.RawRowView(i)
+		va := 1/w.Row[i] + 1/w.Row[h]
 		for j, bj := range w.Col {
-			use[j] = !blind.Has(i, j) && !blind.Has(i-1, j) && bj > 0
+			use[j] = !blind.Has(i, j) && !blind.Has(h, j) && bj > 0
 			z[j], root[j] = 0, math.Sqrt(bj)
 			if use[j] {
 				z[j] = (b[j] - a[j]) * root[j]
@@ -121,10 +129,19 @@ func StepToNoise(d *mat.Dense, lo, hi int, w *Weights, blind *Blind) []float64 {
 			}
 		}
 		if cnt > 0 {
-			out[i-lo-1] = math.Sqrt(ss / float64(cnt))
+			out[k-1] = math.Sqrt(ss / float64(cnt))
 		}
 	}
 	return out
+}
+
+// rowSpan are rows lo … hi−1.
+func rowSpan(lo, hi int) []int {
+	rows := make([]int, 0, max(hi-lo, 0))
+	for i := lo; i < hi; i++ {
+		rows = append(rows, i)
+	}
+	return rows
 }
 
 // TimeNoise is each channel's noise standard deviation over rows lo … hi−1 of d from

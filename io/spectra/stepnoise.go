@@ -24,30 +24,37 @@ import (
 // none is left, and the result nil when the colour cannot be read (fewer than three rows
 // or five channels, or no noise in them).
 func StepOwnNoise(d *mat.Dense, lo, hi, lo0, hi0 int, w *Weights, blind *Blind) []float64 {
-	if w == nil || hi-lo < 2 {
+	return StepOwnNoiseRows(d, rowSpan(lo, hi), lo0, hi0, w, blind)
+}
+
+// StepOwnNoiseRows is StepOwnNoise of the steps StepToNoiseRows measures: each of rows[1:]
+// from the one before it in rows.
+func StepOwnNoiseRows(d *mat.Dense, rows []int, lo0, hi0 int, w *Weights, blind *Blind) []float64 {
+	if w == nil || len(rows) < 2 {
 		return nil
 	}
 	c := noiseColour(d, lo0, hi0, w, blind)
 	if !(c > 0) {
 		return nil
 	}
-	out := make([]float64, hi-lo-1)
+	out := make([]float64, len(rows)-1)
 	m := len(w.Col)
 	z, use := make([]float64, m), make([]bool, m)
 	var buf []float64
-	for i := lo + 1; i < hi; i++ {
-		if !(w.Row[i] > 0 && w.Row[i-1] > 0) {
+	for k := 1; k < len(rows); k++ {
+		h, i := rows[k-1], rows[k]
+		if !(w.Row[i] > 0 && w.Row[h] > 0) {
 			continue
 		}
-		a, b := d.RawRowView(i-1), d.RawRowView(i)
-		va := 1/w.Row[i] + 1/w.Row[i-1]
+		a, b := d.RawRowView(h), d.RawRowView(i)
+		va := 1/w.Row[i] + 1/w.Row[h]
 		for j, bj := range w.Col {
-			use[j] = bj > 0 && !blind.Has(i, j) && !blind.Has(i-1, j)
+			use[j] = bj > 0 && !blind.Has(i, j) && !blind.Has(h, j)
 			z[j] = (b[j] - a[j]) * math.Sqrt(bj/va)
 		}
 		buf = fourthDiffs(z, use, buf[:0])
 		if len(buf) > 0 {
-			out[i-lo-1] = madScale * medianInPlace(buf) / c
+			out[k-1] = madScale * medianInPlace(buf) / c
 		}
 	}
 	return out
