@@ -47,9 +47,9 @@ type noiseOfAll struct {
 	noise  []spectra.Noise
 	source string // r.NoiseSource as it was
 	notes  []string
-	// fewRepeats is the note keptNoise added when too few pre-reaction
-	// repeats were kept for their steps ("" for none).
-	fewRepeats string
+	// keptNote is the note keptNoise added when too few spectra were kept
+	// for the estimate it was first made with ("" for none).
+	keptNote string
 }
 
 // restoreNoise puts back the noise measured on every spectrum, for a
@@ -71,7 +71,7 @@ func restoreNoise(r *Result) {
 		ex.Assembled.Noise = b.noise[e]
 	}
 	replaceNotes(r, now, b.notes)
-	if i := slices.Index(r.Notes, b.fewRepeats); b.fewRepeats != "" && i >= 0 {
+	if i := slices.Index(r.Notes, b.keptNote); b.keptNote != "" && i >= 0 {
 		r.Notes = slices.Delete(r.Notes, i, i+1)
 	}
 	noiseOf(r)
@@ -104,10 +104,14 @@ func keptNoise(r *Result, log io.Writer) bool {
 	}
 	_, m := r.D.Dims()
 	logs := make([][]float64, len(r.Experiments)) // per experiment, 2 log(σ_all/σ_kept); nil: none aside
-	var few []string
+	var said []string
 	for e, ex := range r.Experiments {
 		if untouched(r, ex, r.noiseBase.noise[e]) {
 			continue
+		}
+		if !keptDifferences(r, ex) {
+			said = append(said, noDifferencesWords(r, ex))
+			continue // the noise measured with them stays
 		}
 		var src string
 		logs[e], src = experimentNoiseRatio(r, ex, m)
@@ -116,12 +120,12 @@ func keptNoise(r *Result, log io.Writer) bool {
 			// Its noise is now the second differences': the source says so,
 			// and noiseDof counts their degrees of freedom.
 			ex.Assembled.Noise.Source = src
-			few = append(few, fewRepeatsWords(r, ex))
+			said = append(said, fewRepeatsWords(r, ex))
 		}
 	}
-	if r.noiseBase.fewRepeats == "" && len(few) > 0 {
-		r.noiseBase.fewRepeats = "noise: " + strings.Join(few, "; ") + "; so it is measured from second differences in time of the spectra kept (x_{i+1} − 2x_i + x_{i−1}: a change linear over three spectra cancels), a row set aside breaking every difference it is part of"
-		r.Notes = append(r.Notes, r.noiseBase.fewRepeats)
+	if r.noiseBase.keptNote == "" && len(said) > 0 {
+		r.noiseBase.keptNote = "noise: " + strings.Join(said, "; ")
+		r.Notes = append(r.Notes, r.noiseBase.keptNote)
 	}
 	replaceNotes(r, notes, spectrumNoiseNotes(r))
 	w := scaledWeights(r.noiseBase.w, r.Experiments, logs, m)
@@ -256,8 +260,34 @@ func fewRepeatsWords(r *Result, ex *Experiment) string {
 	if k == 1 {
 		are = "is"
 	}
-	return fmt.Sprintf("%d of the %d spectra%s counted as before the reaction (--pre %d) %s set aside (t = %s), leaving %d, and the noise from differences between repeats needs 2",
+	return fmt.Sprintf("%d of the %d spectra%s counted as before the reaction (--pre %d) %s set aside (t = %s), leaving %d, and the noise from differences between repeats needs 2; so it is measured from second differences in time of the spectra kept (x_{i+1} − 2x_i + x_{i−1}: a change linear over three spectra cancels), a row set aside breaking every difference it is part of",
 		k, min(r.Settings.Pre, ex.Rows), where, r.Settings.Pre, are, at, preKept(r, ex))
+}
+
+// keptDifferences says whether the spectra of experiment ex not set aside
+// leave a difference to measure the noise on: a step between two
+// pre-reaction repeats kept, else three spectra in a row kept (a second
+// difference in time). With none the estimator would return its floor (the
+// rounding step over √12: σ 10⁻⁸ where it is 10⁻³), so the noise measured
+// with them stays, and a note says why (noDifferencesWords).
+func keptDifferences(r *Result, ex *Experiment) bool {
+	if len(asideIn(r, ex)) == 0 || r.Settings.Pre >= 2 && preKept(r, ex) >= 2 {
+		return true
+	}
+	return differencesLeft(r, ex, 3, ex.Rows) > 0
+}
+
+// noDifferencesWords says that the spectra of experiment ex kept leave no
+// difference to measure the noise on again (keptDifferences).
+func noDifferencesWords(r *Result, ex *Experiment) string {
+	where, repeats := "", ""
+	if len(r.Experiments) > 1 {
+		where = " of " + ex.Source
+	}
+	if r.Settings.Pre >= 2 {
+		repeats = fmt.Sprintf("no two of the spectra counted as before the reaction (--pre %d) and ", r.Settings.Pre)
+	}
+	return fmt.Sprintf("the %d spectra%s set aside leave %sno three spectra in a row to measure it on without them, so it is the one measured with them", len(asideIn(r, ex)), where, repeats)
 }
 
 // bridgedWords says, for the noise measured again, that the steps

@@ -3,6 +3,7 @@ package pipeline
 import (
 	"io"
 	"math"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -98,19 +99,39 @@ func TestNoiseWithAPreRepeatSetAside(t *testing.T) {
 // of nothing (σ 10⁻⁹), the last half a step across the reaction's start, and
 // the step check named the dropped spectrum. Each is now left out of the
 // steps; with two of the three dropped none is left, and the noise comes
-// from second differences in time, with a note that says why.
+// from second differences in time, with a note that says why; with every
+// other spectrum dropped as well no difference is left at all, and the
+// noise measured with them stays, with a note that says so.
 func TestNoiseWithPreRepeatsDropped(t *testing.T) {
 	const sigI = 8
 	series, blank := preRepeatsSeries(t, sigI, -1)
-	for _, drop := range [][]string{{"0"}, {"30"}, {"60"}, {"30", "60"}} {
-		r := runPreRepeats(t, series, blank, drop...)
-		name := "--drop " + strings.Join(drop, " --drop ")
-		checkPreRepeatsNoise(t, name, r, sigI, drop...)
-		note := anyContains(r.Notes, "so it is measured from second differences in time of the spectra kept")
-		if fell := len(drop) == 2; note != fell {
-			t.Errorf("%s: the note that the noise falls back to second differences: %v; want %v (%d of 3 repeats kept)", name, note, fell, 3-len(drop))
+	alternate := []string{"30", "60"}
+	for tm := 120; tm <= 3600; tm += 60 {
+		alternate = append(alternate, strconv.Itoa(tm))
+	}
+	for _, c := range []struct {
+		drop []string
+		note string // a note says so ("": no note on the noise)
+	}{
+		{[]string{"0"}, ""},
+		{[]string{"30"}, ""},
+		{[]string{"60"}, ""},
+		{[]string{"30", "60"}, "so it is measured from second differences in time of the spectra kept"},
+		{alternate, "no three spectra in a row to measure it on without them, so it is the one measured with them"},
+	} {
+		r := runPreRepeats(t, series, blank, c.drop...)
+		name := "--drop " + strings.Join(c.drop[:min(len(c.drop), 3)], " --drop ")
+		checkPreRepeatsNoise(t, name, r, sigI, c.drop...)
+		got := ""
+		for _, n := range r.Notes {
+			if strings.HasPrefix(n, "noise: ") {
+				got = n
+			}
 		}
-		if len(drop) == 2 && !strings.Contains(r.Experiments[0].Assembled.Noise.Source, "second differences in time") {
+		if c.note == "" && got != "" || !strings.Contains(got, c.note) {
+			t.Errorf("%s: the note on the noise measured again is %q; want one that says %q", name, got, c.note)
+		}
+		if len(c.drop) == 2 && !strings.HasPrefix(r.Experiments[0].Assembled.Noise.Source, "second differences in time") {
 			t.Errorf("%s: noise source %q; want the second differences it is measured from", name, r.Experiments[0].Assembled.Noise.Source)
 		}
 	}
