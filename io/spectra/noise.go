@@ -504,7 +504,7 @@ func (d timeDiffs) preRow(k int) int {
 // fill writes the differences of channels j0 … j1−1 into buf, channel c's
 // at buf[(c−j0)·per:], in time order, and their counts into cnt[c−j0]:
 // |x_i − x_{i−1}| over rows [0, pre) when pre ≥ 2 (their drift removed:
-// d.steps), else
+// d.steps; between successive rows of d.rows when some have no data), else
 // |x_{i+1} − 2x_i + x_{i−1}|, leaving out any difference that touches a
 // blind point. It returns what they are to be divided by to be on the scale
 // of one value's noise (√2, or √6: the variance of x_{i+1} − 2x_i + x_{i−1}
