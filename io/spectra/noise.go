@@ -222,19 +222,28 @@ const MADEfficiency = 0.37
 // ones (the variance of a sum of squares of jointly normal variables,
 // 2 Σ_ij cov², Isserlis 1918).
 func differenceKappa(c []float64) float64 {
+	k := 1.0
+	for _, rho := range lagCorrelations(c) {
+		k += 2 * rho * rho
+	}
+	return k
+}
+
+// lagCorrelations are ρ_h = Σ_i c_i c_{i+h} / Σ_i c_i² for h = 1 … len(c)−1.
+func lagCorrelations(c []float64) []float64 {
 	var s0 float64
 	for _, v := range c {
 		s0 += v * v
 	}
-	k := 1.0
+	out := make([]float64, 0, len(c))
 	for h := 1; h < len(c); h++ {
 		var s float64
 		for i := 0; i+h < len(c); i++ {
 			s += c[i] * c[i+h]
 		}
-		k += 2 * (s / s0) * (s / s0)
+		out = append(out, s/s0)
 	}
-	return k
+	return out
 }
 
 // MADKappa is κ of the median absolute value of overlapping differences
@@ -253,17 +262,8 @@ func differenceKappa(c []float64) float64 {
 func MADKappa(c []float64) float64 {
 	q := 1 / madScale
 	phi := math.Exp(-q*q/2) / math.Sqrt(2*math.Pi)
-	var s0 float64
-	for _, v := range c {
-		s0 += v * v
-	}
 	kappa := 1.0
-	for h := 1; h < len(c); h++ {
-		var s float64
-		for i := 0; i+h < len(c); i++ {
-			s += c[i] * c[i+h]
-		}
-		rho := s / s0
+	for _, rho := range lagCorrelations(c) {
 		// He_{k−1}(q) by the recurrence He_{n+1} = x He_n − n He_{n−1};
 		// the terms fall as ρ^k, 60 of them reach the rounding for |ρ| ≤ 2/3.
 		prev, cur := 1.0, q // He_0, He_1

@@ -160,16 +160,9 @@ func TestChannelSamplingIsTheSpread(t *testing.T) {
 			for j, x := range sig {
 				ls[j] = math.Log(x)
 			}
-			mid := median(ls)
-			for _, x := range ls {
-				logs = append(logs, x-mid)
-			}
+			logs = appendAboutMedian(logs, ls)
 		}
-		var ss float64
-		for _, x := range logs {
-			ss += x * x
-		}
-		got := ss / float64(len(logs))
+		got := meanSquare(logs)
 		t.Logf("%s: spread %.5f, reported %.5f", c.name, got, sampling)
 		if math.Abs(sampling/got-1) > 0.2 {
 			t.Errorf("%s: reported sampling variance %.5f of log σ against %.5f measured, want within 20 %%", c.name, sampling, got)
@@ -232,18 +225,29 @@ func TestFactorSamplingIsTheSpread(t *testing.T) {
 			}
 			ls = append(ls, math.Log(median(r)))
 		}
-		mid := median(append([]float64(nil), ls...))
-		for _, x := range ls {
-			devs = append(devs, x-mid)
-		}
+		devs = appendAboutMedian(devs, ls)
 	}
-	var ss float64
-	for _, x := range devs {
-		ss += x * x
-	}
-	got := ss / float64(len(devs))
+	got := meanSquare(devs)
 	t.Logf("spread of log factors %.5f, reported %.5f", got, sampling)
 	if math.Abs(sampling/got-1) > 1.0/3 {
 		t.Errorf("reported sampling variance %.5f of a spectrum's log factor against %.5f measured, want within a third", sampling, got)
 	}
+}
+
+// appendAboutMedian appends x less its median to dst.
+func appendAboutMedian(dst, x []float64) []float64 {
+	mid := median(append([]float64(nil), x...))
+	for _, v := range x {
+		dst = append(dst, v-mid)
+	}
+	return dst
+}
+
+// meanSquare is the mean of the squares of x.
+func meanSquare(x []float64) float64 {
+	var ss float64
+	for _, v := range x {
+		ss += v * v
+	}
+	return ss / float64(len(x))
 }
