@@ -252,20 +252,8 @@ func reviveVanished(d Data, fit *Result, comps []int, nonneg []bool) *mat.Dense 
 	c0 := mat.DenseCopyOf(fit.C)
 	for q, j := range dead {
 		col := mat.Col(nil, q, u)
-		// A profile's sign is the one that carries most of its energy;
-		// the other part is cut where profiles are non-negative.
-		pos, neg := 0.0, 0.0
-		for _, v := range col {
-			if v > 0 {
-				pos += v * v
-			} else {
-				neg += v * v
-			}
-		}
-		sign := 1.0
-		if neg > pos {
-			sign = -1
-		}
+		// The part of the other sign is cut where profiles are non-negative.
+		sign := energySign(col)
 		top := floatsMaxAbs(col)
 		if !(top > 0) {
 			continue

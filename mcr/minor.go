@@ -225,10 +225,11 @@ func judgeMinor(d Data, fit, without, with *Result, opt Options, alpha float64) 
 	return t
 }
 
-// startWithFactor returns [C | w]: w is u with the sign that makes its larger part
-// positive, negative values set to zero, scaled to a tenth of C's largest value.
-func startWithFactor(fit *Result, u []float64) *mat.Dense {
-	n, k := fit.C.Dims()
+// energySign is +1 or −1, the sign that carries most of u's energy (Σ u²
+// over its positive values against its negative ones): the sign a
+// direction from a decomposition, whose sign is arbitrary, takes as a
+// profile.
+func energySign(u []float64) float64 {
 	var pos, neg float64
 	for _, x := range u {
 		if x > 0 {
@@ -237,10 +238,17 @@ func startWithFactor(fit *Result, u []float64) *mat.Dense {
 			neg += x * x
 		}
 	}
-	sign := 1.0
 	if neg > pos {
-		sign = -1
+		return -1
 	}
+	return 1
+}
+
+// startWithFactor returns [C | w]: w is u with the sign that makes its larger part
+// positive, negative values set to zero, scaled to a tenth of C's largest value.
+func startWithFactor(fit *Result, u []float64) *mat.Dense {
+	n, k := fit.C.Dims()
+	sign := energySign(u)
 	w := make([]float64, n)
 	wmax := 0.0
 	for i, x := range u {

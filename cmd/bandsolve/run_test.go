@@ -472,23 +472,7 @@ func TestInterrupt(t *testing.T) {
 		m, _ := filepath.Glob(filepath.Join(root, ".demo.partial-*"))
 		return m
 	}
-	done := make(chan error, 1)
-	go func() { done <- cmd.Wait() }()
-	var exited error
-	signalled := false
-wait:
-	for {
-		select {
-		case exited = <-done:
-			break wait
-		default:
-		}
-		if !signalled && len(partial()) > 0 {
-			cmd.Process.Signal(os.Interrupt)
-			signalled = true
-		}
-		time.Sleep(time.Millisecond)
-	}
+	exited, signalled := signalWhen(cmd, os.Interrupt, func() bool { return len(partial()) > 0 })
 	if !signalled || exited == nil {
 		t.Skip("the run completed before it could be interrupted")
 	}
@@ -601,23 +585,7 @@ func TestInterruptedBatchLeavesNoFolder(t *testing.T) {
 	if err := cmd.Start(); err != nil {
 		t.Fatal(err)
 	}
-	done := make(chan error, 1)
-	go func() { done <- cmd.Wait() }()
-	var exited error
-	signalled := false
-wait:
-	for {
-		select {
-		case exited = <-done:
-			break wait
-		default:
-		}
-		if !signalled && staging(out, "r0") {
-			cmd.Process.Signal(syscall.SIGTERM)
-			signalled = true
-		}
-		time.Sleep(time.Millisecond)
-	}
+	exited, signalled := signalWhen(cmd, syscall.SIGTERM, func() bool { return staging(out, "r0") })
 	if _, err := os.Stat(filepath.Join(out, "r0")); !signalled || err == nil {
 		t.Skip("the first run completed before it could be interrupted")
 	}
@@ -628,5 +596,25 @@ wait:
 	if _, err := os.Stat(filepath.Join(root, "new")); err == nil {
 		filepath.WalkDir(filepath.Join(root, "new"), func(p string, d fs.DirEntry, err error) error { t.Log("left: ", p); return nil })
 		t.Error("the interrupted batch left the --out folders it made")
+	}
+}
+
+// signalWhen waits for the started cmd, sending it sig once, the first time
+// ready says so (polled every millisecond), and returns its exit and
+// whether it was signalled.
+func signalWhen(cmd *exec.Cmd, sig os.Signal, ready func() bool) (exited error, signalled bool) {
+	done := make(chan error, 1)
+	go func() { done <- cmd.Wait() }()
+	for {
+		select {
+		case exited = <-done:
+			return exited, signalled
+		default:
+		}
+		if !signalled && ready() {
+			cmd.Process.Signal(sig)
+			signalled = true
+		}
+		time.Sleep(time.Millisecond)
 	}
 }

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"errors"
 	"fmt"
+	"iter"
 	"strconv"
 
 	"github.com/bandsolve/bandsolve/internal/decimal"
@@ -158,27 +159,17 @@ func fileMarks(path string, lines []line, sep byte, col int) (marks, error) {
 	if sep != ',' {
 		return otherMarks(lines, sep, col), nil
 	}
-	var buf [][]byte
 	var either cellAt
-	for _, l := range lines {
-		// Without a quote no cell holds a comma; without a point none has one.
-		if bytes.IndexByte(l.text, '"') < 0 && bytes.IndexByte(l.text, '.') < 0 {
-			continue
-		}
-		buf = fields(l.text, sep, buf)
-		for j, c := range buf {
-			if col >= 0 && j != col {
-				continue
-			}
-			switch cellMark(c) {
-			case markPoint, markGrouped:
-				return marks{sep: sep, by: cellAt{l.n, quoteCell(c)}}, nil
-			case markComma:
-				return marks{sep: sep, comma: true, by: cellAt{l.n, quoteCell(c)}}, nil
-			case markEither:
-				if either.line == 0 {
-					either = cellAt{l.n, quoteCell(c)}
-				}
+	// Without a quote no cell of a comma-separated line holds a comma.
+	for c, mark := range markedCells(lines, sep, col, '"') {
+		switch mark {
+		case markPoint, markGrouped:
+			return marks{sep: sep, by: c.at()}, nil
+		case markComma:
+			return marks{sep: sep, comma: true, by: c.at()}, nil
+		case markEither:
+			if either.line == 0 {
+				either = c.at()
 			}
 		}
 	}
@@ -195,25 +186,48 @@ func fileMarks(path string, lines []line, sep byte, col int) (marks, error) {
 // (which such a file reads in any cell, parseCell), decides; a file of
 // integers decides nothing, and by stays empty.
 func otherMarks(lines []line, sep byte, col int) marks {
-	var buf [][]byte
-	for _, l := range lines {
-		if bytes.IndexByte(l.text, ',') < 0 && bytes.IndexByte(l.text, '.') < 0 {
-			continue
-		}
-		buf = fields(l.text, sep, buf)
-		for j, c := range buf {
-			if col >= 0 && j != col {
-				continue
-			}
-			switch cellMark(c) {
-			case markPoint, markGrouped:
-				return marks{sep: sep, by: cellAt{l.n, quoteCell(c)}}
-			case markComma, markEither:
-				return marks{sep: sep, comma: true, by: cellAt{l.n, quoteCell(c)}}
-			}
+	for c, mark := range markedCells(lines, sep, col, ',') {
+		switch mark {
+		case markPoint, markGrouped:
+			return marks{sep: sep, by: c.at()}
+		case markComma, markEither:
+			return marks{sep: sep, comma: true, by: c.at()}
 		}
 	}
 	return marks{sep: sep}
+}
+
+// rawCell is a cell's bytes and its line, quoted for a message only when
+// it decides (at).
+type rawCell struct {
+	line int
+	text []byte
+}
+
+func (r rawCell) at() cellAt { return cellAt{r.line, quoteCell(r.text)} }
+
+// markedCells yields, in file order, each cell of the lines (of column col
+// only, when col ≥ 0) with its decimal mark (cellMark), passing over the
+// lines that hold neither a point nor comma, the byte that can carry the
+// other mark in a file separated by sep.
+func markedCells(lines []line, sep byte, col int, comma byte) iter.Seq2[rawCell, markKind] {
+	return func(yield func(rawCell, markKind) bool) {
+		var buf [][]byte
+		for _, l := range lines {
+			if bytes.IndexByte(l.text, comma) < 0 && bytes.IndexByte(l.text, '.') < 0 {
+				continue
+			}
+			buf = fields(l.text, sep, buf)
+			for j, c := range buf {
+				if col >= 0 && j != col {
+					continue
+				}
+				if !yield(rawCell{l.n, c}, cellMark(c)) {
+					return
+				}
+			}
+		}
+	}
 }
 
 // cell reads one number of the file. A decimal comma is read in a file

@@ -94,7 +94,8 @@ type SpectrumNoise struct {
 	// noisiest spectrum at least spectrumLeast times the quietest).
 	Varies bool
 	// Sampling is the variance of log Factor[i] about the truth from the
-	// estimate's own sampling (factorSampling): the spectra's weights are
+	// estimate's own sampling (factorSampling), when Varies (0 otherwise,
+	// where the weights do not follow Factor): the spectra's weights are
 	// estimates, and their scatter raises the expected χ² of a right
 	// model (the misfit test's allowance).
 	Sampling float64
@@ -168,7 +169,9 @@ func measureSpectrumNoise(v *mat.Dense, times, sigma []float64, blind *Blind, pr
 		out.Factor[i] = c * math.Sqrt(x)
 	}
 	out.Varies = out.P < spectrumAlpha && out.Ratio() >= spectrumLeast
-	out.Sampling = factorSampling(logs, centre, d.line)
+	if out.Varies {
+		out.Sampling = factorSampling(logs, centre, d.line)
+	}
 	return out
 }
 
